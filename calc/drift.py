@@ -1,0 +1,315 @@
+"""Fits of the drift periods: straight lines and Newtonian (exponential) drifts.
+
+These are the building blocks of every corrected-temperature-change method.
+All functions take plain float arrays (seconds, kelvin) and return small
+dataclasses with the fitted parameters and their covariance, already inflated
+for autocorrelated residuals (SCIENCE §1.f: AR(1) inflation (1+ρ)/(1−ρ)).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "LineFit",
+    "fit_line",
+    "NewtonFit",
+    "fit_newton_joint",
+    "fit_newton_single",
+    "lag1_autocorrelation",
+    "inflation",
+    "phi",
+]
+
+
+def lag1_autocorrelation(resid: np.ndarray) -> float:
+    """Return the lag-1 autocorrelation of residuals, clipped to [0, 0.95]."""
+    r = np.asarray(resid, dtype=float)
+    if r.size < 4:
+        return 0.0
+    r = r - r.mean()
+    den = float(np.dot(r, r))
+    if den <= 0.0:
+        return 0.0
+    rho = float(np.dot(r[:-1], r[1:])) / den
+    return min(max(rho, 0.0), 0.95)
+
+
+def inflation(rho: float) -> float:
+    """Return the AR(1) variance inflation factor (1+ρ)/(1−ρ)."""
+    return (1.0 + rho) / (1.0 - rho)
+
+
+@dataclass(frozen=True)
+class LineFit:
+    """Straight line ``a + b (t − t̄)`` fitted by ordinary least squares."""
+
+    a: float  # value at the centre time
+    b: float  # slope, K/s
+    t_mean: float
+    var_a: float
+    var_b: float
+    s: float  # residual standard deviation
+    rho: float  # lag-1 autocorrelation of the residuals
+    n: int
+    dof: float  # effective degrees of freedom
+
+    def at(self, t: float) -> float:
+        """Return the line's value at time ``t``."""
+        return self.a + self.b * (t - self.t_mean)
+
+    def var_at(self, t: float) -> float:
+        """Return the variance of the line's value at ``t``."""
+        return self.var_a + (t - self.t_mean) ** 2 * self.var_b
+
+    @property
+    def mean_temperature(self) -> float:
+        """Mean temperature of the window (the line's value at its centre)."""
+        return self.a
+
+
+def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
+    """Fit a straight line with centred time and AR(1)-inflated covariance."""
+    n = t.size
+    tm = float(t.mean())
+    tc = t - tm
+    stt = float(np.dot(tc, tc))
+    a = float(y.mean())
+    b = float(np.dot(tc, y - a) / stt) if stt > 0 else 0.0
+    resid = y - a - b * tc
+    s2 = float(np.dot(resid, resid)) / max(n - 2, 1)
+    rho = lag1_autocorrelation(resid)
+    f = inflation(rho)
+    n_eff = n / f
+    return LineFit(
+        a=a,
+        b=b,
+        t_mean=tm,
+        var_a=f * s2 / n,
+        var_b=f * s2 / stt if stt > 0 else math.inf,
+        s=math.sqrt(s2),
+        rho=rho,
+        n=n,
+        dof=max(n_eff - 2.0, 1.0),
+    )
+
+
+def phi(k: float, x: np.ndarray) -> np.ndarray:
+    """Return (1 − e^{−k x})/k, continuous at k = 0 (equal to x there)."""
+    if abs(k) < 1e-12:
+        return x - 0.5 * k * x * x
+    return -np.expm1(-k * x) / k
+
+
+def _dphi_dk(k: float, x: np.ndarray) -> np.ndarray:
+    # d/dk [(1 − e^{−kx})/k] = [x k e^{−kx} − (1 − e^{−kx})]/k²  → −x²/2 at k = 0
+    if abs(k) < 1e-9:
+        return -0.5 * x * x + (k * x**3) / 3.0
+    e = np.exp(-k * x)
+    return (x * k * e + np.expm1(-k * x)) / (k * k)
+
+
+@dataclass(frozen=True)
+class NewtonFit:
+    """Newtonian drift ``dT/dt = g0 + k (T0 − T)`` fitted to one or two windows.
+
+    Parameters are (y_i, y_f, g_i, k) for a joint fit of fore and after windows
+    (y_i, y_f: the fitted temperatures at the window edges t_i and t_f next to the
+    main period; g_i: the drift rate at y_i) or (y_f, g_f, k) for the after window
+    alone. ``cov`` is the covariance of the parameters in that order, inflated for
+    autocorrelation.
+    """
+
+    params: np.ndarray
+    cov: np.ndarray
+    t_i: float | None
+    t_f: float
+    s: float
+    rho: float
+    n: int
+    dof: float
+    converged: bool
+
+    @property
+    def k(self) -> float:
+        """Heat-exchange rate constant, 1/s."""
+        return float(self.params[-1])
+
+    def drift(self, temperature: np.ndarray | float) -> np.ndarray | float:
+        """Return the drift rate g(T) in K/s."""
+        if self.t_i is not None:
+            y_i, _y_f, g_i, k = self.params
+            return g_i + k * (y_i - temperature)
+        y_f, g_f, k = self.params
+        return g_f + k * (y_f - temperature)
+
+    def convergence_temperature(self) -> float:
+        """Return T∞ (where the drift is zero); inf when k is zero."""
+        if self.t_i is not None:
+            y_i, _y_f, g_i, k = self.params
+            return y_i + g_i / k if k != 0 else math.inf
+        y_f, g_f, k = self.params
+        return y_f + g_f / k if k != 0 else math.inf
+
+
+def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
+    # Model, linear in (y_i, y_f, g_i) at fixed k:
+    #   fore:  y = y_i + g_i φ(t − t_i)                         (t ≤ t_i, so x ≤ 0)
+    #   after: y = y_f + [g_i + k (y_i − y_f)] φ(t − t_f)
+    pf = phi(k, tf_)
+    pa = phi(k, ta_)
+    nf, na = tf_.size, ta_.size
+    X = np.empty((nf + na, 3))
+    X[:nf, 0] = 1.0
+    X[:nf, 1] = 0.0
+    X[:nf, 2] = pf
+    X[nf:, 0] = k * pa
+    X[nf:, 1] = 1.0 - k * pa
+    X[nf:, 2] = pa
+    return X
+
+
+def fit_newton_joint(
+    t_fore: np.ndarray,
+    y_fore: np.ndarray,
+    t_after: np.ndarray,
+    y_after: np.ndarray,
+    t_i: float,
+    t_f: float,
+    k0: float = 0.0,
+) -> NewtonFit:
+    """Fit fore and after windows jointly with one Newtonian drift law.
+
+    Variable projection: for fixed k the model is linear in (y_i, y_f, g_i); k is
+    found by Gauss–Newton on the projected residual, then the full 4-parameter
+    covariance s²(JᵀJ)⁻¹ is formed at the solution.
+    """
+    xf = t_fore - t_i
+    xa = t_after - t_f
+    y = np.concatenate([y_fore, y_after])
+    k = float(k0)
+    converged = False
+    beta = np.zeros(3)
+    for _ in range(30):
+        X = _joint_design(k, xf, xa)
+        beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+        y_i, y_f, g_i = beta
+        r = y - X @ beta
+        # derivative of the model with respect to k at fixed linear parameters
+        dk = np.empty_like(y)
+        dk[: xf.size] = g_i * _dphi_dk(k, xf)
+        pa = phi(k, xa)
+        dpa = _dphi_dk(k, xa)
+        g_f = g_i + k * (y_i - y_f)
+        dk[xf.size :] = (y_i - y_f) * pa + g_f * dpa
+        # project out the linear part (variable projection, Kaufman's step)
+        q, _ = np.linalg.qr(X)
+        dk_perp = dk - q @ (q.T @ dk)
+        den = float(np.dot(dk_perp, dk_perp))
+        if den <= 0:
+            converged = True
+            break
+        step = float(np.dot(dk_perp, r)) / den
+        # keep the step physically sensible: |k| below 1/(60 s)
+        step = max(min(step, 0.02), -0.02)
+        k_new = k + step
+        if abs(k_new) > 1 / 60.0:
+            k_new = math.copysign(1 / 60.0, k_new)
+        if abs(step) <= 1e-10 + 1e-7 * abs(k):
+            k = k_new
+            converged = True
+            break
+        k = k_new
+    X = _joint_design(k, xf, xa)
+    beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+    y_i, y_f, g_i = beta
+    pa = phi(k, xa)
+    g_f = g_i + k * (y_i - y_f)
+    dk = np.empty_like(y)
+    dk[: xf.size] = g_i * _dphi_dk(k, xf)
+    dk[xf.size :] = (y_i - y_f) * pa + g_f * _dphi_dk(k, xa)
+    J = np.column_stack([X, dk])
+    resid = y - X @ beta
+    n = y.size
+    p = 4
+    s2 = float(np.dot(resid, resid)) / max(n - p, 1)
+    rf = resid[: xf.size]
+    ra = resid[xf.size :]
+    rho = max(lag1_autocorrelation(rf), lag1_autocorrelation(ra))
+    f = inflation(rho)
+    try:
+        cov = f * s2 * np.linalg.inv(J.T @ J)
+    except np.linalg.LinAlgError:
+        cov = np.full((4, 4), np.inf)
+    return NewtonFit(
+        params=np.array([y_i, y_f, g_i, k]),
+        cov=cov,
+        t_i=t_i,
+        t_f=t_f,
+        s=math.sqrt(s2),
+        rho=rho,
+        n=n,
+        dof=max(n / f - p, 1.0),
+        converged=converged,
+    )
+
+
+def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0) -> NewtonFit:
+    """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k).
+
+    Used for the after period of two-solution runs, whose heat-exchange constant
+    differs from the fore period's (SCIENCE §1.c, two-solution caveat).
+    """
+    x = t - t_f
+    k = float(k0)
+    converged = False
+    for _ in range(30):
+        p = phi(k, x)
+        X = np.column_stack([np.ones_like(x), p])
+        beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+        r = y - X @ beta
+        dk = beta[1] * _dphi_dk(k, x)
+        q, _ = np.linalg.qr(X)
+        dk_perp = dk - q @ (q.T @ dk)
+        den = float(np.dot(dk_perp, dk_perp))
+        if den <= 0:
+            converged = True
+            break
+        step = float(np.dot(dk_perp, r)) / den
+        step = max(min(step, 0.02), -0.02)
+        k_new = k + step
+        if abs(k_new) > 1 / 60.0:
+            k_new = math.copysign(1 / 60.0, k_new)
+        if abs(step) <= 1e-10 + 1e-7 * abs(k):
+            k = k_new
+            converged = True
+            break
+        k = k_new
+    p = phi(k, x)
+    X = np.column_stack([np.ones_like(x), p])
+    beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+    dk = beta[1] * _dphi_dk(k, x)
+    J = np.column_stack([X, dk])
+    resid = y - X @ beta
+    n = y.size
+    s2 = float(np.dot(resid, resid)) / max(n - 3, 1)
+    rho = lag1_autocorrelation(resid)
+    f = inflation(rho)
+    try:
+        cov = f * s2 * np.linalg.inv(J.T @ J)
+    except np.linalg.LinAlgError:
+        cov = np.full((3, 3), np.inf)
+    return NewtonFit(
+        params=np.array([beta[0], beta[1], k]),
+        cov=cov,
+        t_i=None,
+        t_f=t_f,
+        s=math.sqrt(s2),
+        rho=rho,
+        n=n,
+        dof=max(n / f - 3, 1.0),
+        converged=converged,
+    )

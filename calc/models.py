@@ -1,0 +1,306 @@
+"""Measurement models of each run kind, written in primary inputs.
+
+Each builder returns the list of :class:`calc.gum.Input` and a model function
+of those inputs that gives the heat and the main result. The corrected
+temperature change enters as its value plus zero-valued error components (fit,
+resolution at start and end, method, mixing time), so that the budget shows
+each one and the Monte Carlo draws each from its own distribution.
+
+To add a run kind: add its schema in :mod:`calc.runfile`, write a builder here
+and register it in :data:`BUILDERS`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from calc.deltat import DeltaT
+from calc.errors import InputError
+from calc.gum import Input, xmin
+from calc.measured import Measured
+from calc.molar_mass import molar_mass
+from calc.runfile import RunSpec
+
+__all__ = ["ModelSpec", "Properties", "build_model", "BUILDERS", "MAIN_OUTPUT", "EQUIVALENTS"]
+
+#: Main output of each kind: (key, unit)
+MAIN_OUTPUT: dict[str, tuple[str, str]] = {
+    "dissolution": ("molar_enthalpy", "kJ/mol"),
+    "neutralization": ("molar_enthalpy", "kJ/mol"),
+    "reaction": ("molar_enthalpy", "kJ/mol"),
+    "electrical-calibration": ("calorimeter_heat_capacity", "J/K"),
+    "mixing-calibration": ("calorimeter_heat_capacity", "J/K"),
+}
+
+#: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).
+EQUIVALENTS: dict[str, int] = {
+    "HCl": 1, "HBr": 1, "HI": 1, "HNO3": 1, "HClO4": 1, "H2SO4": 2, "CH3COOH": 1, "HCOOH": 1,
+    "NaOH": 1, "KOH": 1, "LiOH": 1, "NH3": 1, "Ba(OH)2": 2, "Ca(OH)2": 2, "Sr(OH)2": 2,
+}
+
+
+@dataclass
+class Properties:
+    """Property values used by a model, each with where it came from."""
+
+    values: dict[str, tuple[float, float, str, str]] = field(default_factory=dict)  # name -> (value, u, unit, source)
+    warnings: list[str] = field(default_factory=list)
+
+    def add(self, name: str, value: float, u: float, unit: str, source: str) -> None:
+        """Record a property."""
+        self.values[name] = (value, u, unit, source)
+
+
+@dataclass
+class ModelSpec:
+    """Inputs and model function of one run."""
+
+    inputs: list[Input]
+    model: Callable[[Mapping[str, Any]], dict[str, Any]]
+    main: str
+    main_unit: str
+    amount_note: str = ""  # "per mole of KCl", …
+    molality: float | None = None  # final molality of the solute, mol/kg
+    reference_temperature: float | None = None  # K, the temperature the ΔH refers to
+    extra: dict[str, Any] = field(default_factory=dict)
+
+
+def _q(name: str, m: Measured, unit: str, label: str) -> Input:
+    dist = "normal" if m.distribution == "normal" else "rectangular"
+    return Input(name, m.m_as(unit), m.u_as(unit), unit, dist, label=label)
+
+
+def _t(name: str, m: Measured, label: str) -> Input:
+    dist = "normal" if m.distribution == "normal" else "rectangular"
+    return Input(name, m.m_as("K"), m.u_as("K"), "K", dist, label=label)
+
+
+def _prop(name: str, props: Properties, label: str) -> Input:
+    v, u, unit, source = props.values[name]
+    return Input(name, v, u, unit, "normal", label=f"{label} [{source}]")
+
+
+def _dt_inputs(dt: DeltaT) -> list[Input]:
+    return [
+        Input("delta_t.fit", dt.value, dt.u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
+              dt.dof_fit, label=f"corrected ΔT, drift fits ({dt.method})"),
+        Input("delta_t.resolution_start", 0.0, dt.u_resolution_each, "K", "rectangular",
+              label="thermometer resolution, start level"),
+        Input("delta_t.resolution_end", 0.0, dt.u_resolution_each, "K", "rectangular",
+              label="thermometer resolution, end level"),
+        Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
+        Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
+    ]
+
+
+def _dT(x: Mapping[str, Any]) -> Any:
+    return (
+        x["delta_t.fit"]
+        + x["delta_t.resolution_end"]
+        - x["delta_t.resolution_start"]
+        + x["delta_t.method"]
+        + x["delta_t.mixing_time"]
+    )
+
+
+def _cal_input(spec: RunSpec) -> Input:
+    m = spec.get("calorimeter", "heat_capacity")
+    return _q("calorimeter.heat_capacity", m, "J/K", "calorimeter heat capacity")
+
+
+# ---------------------------------------------------------------- builders
+
+
+def _dissolution(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    formula = spec.get("solute", "formula")
+    M = molar_mass(formula, field="solute.formula", source=spec.source)
+    purity = spec.get("solute", "purity")
+    inputs = [
+        _q("water.volume", spec.get("water", "volume"), "mL", "water volume"),
+        _prop("water.density", props, "water density"),
+        _q("solute.mass", spec.get("solute", "mass"), "g", f"mass of {formula}"),
+        _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the solution"),
+        _cal_input(spec),
+        *_dt_inputs(dt),
+    ]
+    if purity is not None:
+        inputs.append(_q("solute.purity", purity, "", "solute purity (mass fraction)"))
+
+    def model(x: Mapping[str, Any]) -> dict[str, Any]:
+        m_soln = x["water.volume"] * x["water.density"] + x["solute.mass"]
+        dT = _dT(x)
+        heat = (m_soln * x["mixture.specific_heat_capacity"] + x["calorimeter.heat_capacity"]) * dT
+        w = x["solute.purity"] if "solute.purity" in x else 1.0
+        n = x["solute.mass"] * w / M
+        return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / n / 1000.0}
+
+    water_g = inputs[0].value * inputs[1].value
+    n_mol = inputs[2].value * (purity.value if purity is not None else 1.0) / M
+    return ModelSpec(
+        inputs, model, "molar_enthalpy", "kJ/mol",
+        amount_note=f"per mole of {formula} dissolved",
+        molality=n_mol / (water_g / 1000.0) if water_g > 0 else None,
+        reference_temperature=dt.start_temperature,
+        extra={"molar_mass_g_mol": M, "amount_mol": n_mol},
+    )
+
+
+def _equivalents(spec: RunSpec, section: str) -> int:
+    eq = spec.get(section, "equivalents")
+    if eq is not None:
+        return int(eq)
+    formula = spec.get(section, "formula")
+    if formula in EQUIVALENTS:
+        return EQUIVALENTS[formula]
+    raise InputError(
+        f"missing: cupcal does not know how many {'H+' if section == 'acid' else 'OH-'} one formula "
+        f"unit of {formula} gives; add e.g. equivalents = 1",
+        source=spec.source,
+        field=f"{section}.equivalents",
+    )
+
+
+def _neutralization(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    eq_a = _equivalents(spec, "acid")
+    eq_b = _equivalents(spec, "base")
+    inputs = [
+        _q("acid.concentration", spec.get("acid", "concentration"), "mol/L", "acid concentration"),
+        _q("acid.volume", spec.get("acid", "volume"), "mL", "acid volume"),
+        _prop("acid.density", props, "acid density"),
+        _q("base.concentration", spec.get("base", "concentration"), "mol/L", "base concentration"),
+        _q("base.volume", spec.get("base", "volume"), "mL", "base volume"),
+        _prop("base.density", props, "base density"),
+        _t("base.temperature", spec.get("base", "temperature"), "base temperature before pouring"),
+        _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
+        _cal_input(spec),
+        Input("acid.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
+              label="acid temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt),
+    ]
+
+    def model(x: Mapping[str, Any]) -> dict[str, Any]:
+        m_a = x["acid.volume"] * x["acid.density"]
+        m_b = x["base.volume"] * x["base.density"]
+        cp = x["mixture.specific_heat_capacity"]
+        dT = _dT(x)
+        C_final = (m_a + m_b) * cp + x["calorimeter.heat_capacity"]
+        # the acid's start level carries the start-resolution error of ΔT as well
+        T_A = x["acid.temperature"] + x["delta_t.resolution_start"]
+        heat = C_final * dT + m_b * cp * (T_A - x["base.temperature"])
+        n_h = x["acid.concentration"] * x["acid.volume"] / 1000.0 * eq_a
+        n_oh = x["base.concentration"] * x["base.volume"] / 1000.0 * eq_b
+        xi = xmin(n_h, n_oh)
+        return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / xi / 1000.0}
+
+    n_h = inputs[0].value * inputs[1].value / 1000 * eq_a
+    n_oh = inputs[3].value * inputs[4].value / 1000 * eq_b
+    limiting = "acid" if n_h <= n_oh else "base"
+    total_g = inputs[1].value * inputs[2].value + inputs[4].value * inputs[5].value
+    return ModelSpec(
+        inputs, model, "molar_enthalpy", "kJ/mol",
+        amount_note=f"per mole of water formed (limiting reagent: {limiting}, {spec.get(limiting, 'formula')})",
+        molality=min(n_h, n_oh) / (total_g / 1000.0) if total_g > 0 else None,
+        reference_temperature=dt.start_temperature,
+        extra={"limiting": limiting, "amount_mol": min(n_h, n_oh)},
+    )
+
+
+def _electrical(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    inputs = [
+        _q("heater.voltage", spec.get("heater", "voltage"), "V", "heater voltage"),
+        _q("heater.current", spec.get("heater", "current"), "A", "heater current"),
+        _q("heater.duration", spec.get("heater", "duration"), "s", "heating time"),
+        _q("water.volume", spec.get("water", "volume"), "mL", "water volume"),
+        _prop("water.density", props, "water density"),
+        _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
+        *_dt_inputs(dt),
+    ]
+
+    def model(x: Mapping[str, Any]) -> dict[str, Any]:
+        heat = x["heater.voltage"] * x["heater.current"] * x["heater.duration"]
+        dT = _dT(x)
+        c_cal = heat / dT - x["water.volume"] * x["water.density"] * x["mixture.specific_heat_capacity"]
+        return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
+
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
+                     reference_temperature=dt.start_temperature)
+
+
+def _mixing(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    inputs = [
+        _q("water.volume", spec.get("water", "volume"), "mL", "cool water volume"),
+        _prop("water.density", props, "cool water density"),
+        _q("warm_water.volume", spec.get("warm_water", "volume"), "mL", "warm water volume"),
+        _prop("warm_water.density", props, "warm water density"),
+        _t("warm_water.temperature", spec.get("warm_water", "temperature"), "warm water temperature before pouring"),
+        _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
+        Input("water.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
+              label="cool water temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt),
+    ]
+
+    def model(x: Mapping[str, Any]) -> dict[str, Any]:
+        cp = x["mixture.specific_heat_capacity"]
+        c_cool = x["water.volume"] * x["water.density"] * cp
+        c_warm = x["warm_water.volume"] * x["warm_water.density"] * cp
+        dT = _dT(x)
+        T_c = x["water.temperature"] + x["delta_t.resolution_start"]
+        T_end = T_c + dT
+        heat = c_warm * (x["warm_water.temperature"] - T_end)
+        c_cal = heat / dT - c_cool
+        return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
+
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
+                     reference_temperature=dt.start_temperature)
+
+
+def _reaction(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    r = spec.sections["reaction"]
+    nu = int(r.get("coefficient", 1))
+    solute = spec.sections.get("solute")
+    inputs = [
+        _q("solution.volume", spec.get("solution", "volume"), "mL", "solution volume"),
+        _prop("solution.density", props, "solution density"),
+        _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
+        _cal_input(spec),
+        *_dt_inputs(dt),
+    ]
+    if solute is not None:
+        inputs.append(_q("solute.mass", solute["mass"], "g", f"mass of {solute['formula']}"))
+    if "amount" in r:
+        inputs.append(_q("reaction.amount", r["amount"], "mol", "amount of limiting reagent"))
+        M = None
+    else:
+        M = molar_mass(r["limiting_reagent"], field="reaction.limiting_reagent", source=spec.source)
+        inputs.append(_q("reaction.mass", r["mass"], "g", f"mass of {r['limiting_reagent']}"))
+
+    def model(x: Mapping[str, Any]) -> dict[str, Any]:
+        m = x["solution.volume"] * x["solution.density"]
+        if "solute.mass" in x:
+            m = m + x["solute.mass"]
+        dT = _dT(x)
+        heat = (m * x["mixture.specific_heat_capacity"] + x["calorimeter.heat_capacity"]) * dT
+        n = x["reaction.amount"] if M is None else x["reaction.mass"] / M
+        return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / (n / nu) / 1000.0}
+
+    what = r.get("equation") or (f"the reaction of {r['limiting_reagent']}" if "limiting_reagent" in r else "the reaction")
+    return ModelSpec(inputs, model, "molar_enthalpy", "kJ/mol",
+                     amount_note=f"per mole of reaction as written ({what}; coefficient {nu})",
+                     reference_temperature=dt.start_temperature)
+
+
+BUILDERS: dict[str, Callable[[RunSpec, DeltaT, Properties], ModelSpec]] = {
+    "dissolution": _dissolution,
+    "neutralization": _neutralization,
+    "electrical-calibration": _electrical,
+    "mixing-calibration": _mixing,
+    "reaction": _reaction,
+}
+
+
+def build_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+    """Return the measurement model of ``spec``'s kind."""
+    return BUILDERS[spec.kind](spec, dt, props)

@@ -1,0 +1,278 @@
+"""Find the fore, main and after periods of a temperature log.
+
+The mixing time (start of the main period) is taken from the run file when it is
+given, otherwise found where the readings leave the fore-period drift line. The
+end of the main period is found from the running corrected temperature change
+D(t) = T(t) − T(t_m) − ∫ g(T) dt, which rises like the heat release itself and is
+flat once release and probe lag are over (SCIENCE §1.c: the after period must
+start once the release rate is ≪ the drift, about 8–10 release time constants).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from calc.drift import fit_line
+from calc.errors import InputError
+
+__all__ = ["Periods", "find_periods", "MIN_WINDOW_POINTS"]
+
+#: Fewest readings accepted in the fore or after period.
+MIN_WINDOW_POINTS = 8
+
+
+@dataclass
+class Periods:
+    """The three periods of a run, as times on the log's clock (seconds)."""
+
+    fore: tuple[float, float]
+    after: tuple[float, float]
+    mixing_time: float
+    u_mixing_time: float
+    mixing_time_detected: bool
+    main_end: float  # t_f, start of the after period
+    release_time_constant: float | None = None  # rough τ of the rise, s
+    warnings: list[str] = field(default_factory=list)
+
+
+def _robust_sigma(x: np.ndarray) -> float:
+    if x.size < 3:
+        return 0.0
+    d = np.abs(np.diff(x))
+    # differences of white noise have σ√2; median of |N(0,1)| is 0.6745
+    return float(np.median(d) / 0.6745 / math.sqrt(2.0))
+
+
+def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float) -> tuple[float, float]:
+    """Return the detected mixing time and its standard uncertainty (s).
+
+    The fore drift line is fitted to the first fifth of the log; the mixing time
+    is the last reading before the curve leaves that line for good (beyond
+    max(6σ, 2q, 2 % of the full swing) for three readings in a row).
+    """
+    n = t.size
+    n0 = max(MIN_WINDOW_POINTS, n // 5)
+    line = fit_line(t[:n0], y[:n0])
+    resid = y - line.at(t)  # vectorised: a + b (t − t̄)
+    sigma = max(line.s, _robust_sigma(y[:n0]))
+    swing = float(np.max(np.abs(resid)))
+    thr = max(6.0 * sigma, 2.0 * resolution, 0.02 * swing)
+    out = np.abs(resid) > thr
+    # first index where three consecutive readings are out
+    run = out[:-2] & out[1:-1] & out[2:]
+    idx = np.flatnonzero(run)
+    if idx.size == 0:
+        raise InputError(
+            "could not find the mixing time: the log shows no clear temperature change; "
+            "give mixing_time in the run file",
+            field="mixing_time",
+        )
+    j = int(idx[0])
+    # walk back to the last reading still on the fore line (within 2σ or one step)
+    back = max(2.0 * sigma, 0.5 * resolution)
+    i = j
+    while i > 0 and abs(resid[i - 1]) > back:
+        i -= 1
+    i = max(i - 1, 0)
+    dt = float(np.median(np.diff(t)))
+    t_m = float(t[i])
+    u = max((float(t[j]) - t_m) / math.sqrt(12.0), dt / math.sqrt(12.0))
+    return t_m, u
+
+
+def _window_mask(t: np.ndarray, a: float, b: float) -> np.ndarray:
+    return (t >= a - 1e-9) & (t <= b + 1e-9)
+
+
+def find_periods(
+    t: np.ndarray,
+    y: np.ndarray,
+    *,
+    resolution: float,
+    mixing_time: float | None = None,
+    u_mixing_time: float = 0.0,
+    fore: tuple[float, float] | None = None,
+    after: tuple[float, float] | None = None,
+    two_solution: bool = False,
+    source: str | None = None,
+    lines: np.ndarray | None = None,
+) -> Periods:
+    """Split a log into fore, main and after periods.
+
+    Parameters
+    ----------
+    t, y:
+        Times (s) and temperatures (K), increasing in time.
+    resolution:
+        Thermometer resolution in K (for detection thresholds).
+    mixing_time, u_mixing_time:
+        Time of mixing when the run file gives it.
+    fore, after:
+        Period overrides from the run file.
+    two_solution:
+        True when a second solution is poured in (the fore drift then belongs to
+        a different system and must not be used to judge the after period).
+
+    Raises
+    ------
+    InputError
+        When a period has too few readings, naming the period and the lines.
+    """
+    warnings: list[str] = []
+    detected = mixing_time is None
+    if detected:
+        t_m, u_tm = detect_mixing_time(t, y, resolution)
+    else:
+        t_m, u_tm = float(mixing_time), float(u_mixing_time)
+        if not (t[0] < t_m < t[-1]):
+            raise InputError(
+                f"mixing_time {t_m:g} s lies outside the log ({t[0]:g} s to {t[-1]:g} s)",
+                field="mixing_time",
+                source=source,
+            )
+    dt = float(np.median(np.diff(t)))
+
+    # Fore period: from the start to the last reading before mixing.
+    if fore is not None:
+        fa, fb = fore
+        if fb > t_m + 1e-9:
+            raise InputError(
+                f"fore_period ends at {fb:g} s, after the mixing time {t_m:g} s",
+                field="fore_period",
+                source=source,
+            )
+    else:
+        fa, fb = float(t[0]), float(t[t <= t_m][-1]) if np.any(t <= t_m) else float(t[0])
+    nfore = int(np.count_nonzero(_window_mask(t, fa, fb)))
+    if nfore < MIN_WINDOW_POINTS:
+        where = f" (lines {int(lines[0])}–{int(lines[min(nfore, len(lines)) - 1])})" if lines is not None and nfore else ""
+        raise InputError(
+            f"too few readings before mixing: {nfore} in the fore period{where}, "
+            f"at least {MIN_WINDOW_POINTS} expected (3–5 minutes of readings are advised)",
+            field="fore_period" if fore is not None else None,
+            source=source,
+        )
+    if fb - fa < 60.0:
+        warnings.append(
+            f"fore period is short ({fb - fa:.0f} s); 3–5 minutes of drift before mixing are advised"
+        )
+
+    tau = None
+    if after is not None:
+        aa, ab = after
+        if aa < t_m:
+            raise InputError(
+                f"after_period starts at {aa:g} s, before the mixing time {t_m:g} s",
+                field="after_period",
+                source=source,
+            )
+        t_f = aa
+    else:
+        t_f, ab, tau, w = _find_main_end(t, y, t_m, (fa, fb), dt, two_solution)
+        aa = t_f
+        warnings.extend(w)
+    mask_after = _window_mask(t, aa, ab)
+    nafter = int(np.count_nonzero(mask_after))
+    if nafter < MIN_WINDOW_POINTS:
+        last_line = f" (the log ends at line {int(lines[-1])})" if lines is not None else ""
+        raise InputError(
+            f"too few readings after mixing: {nafter} in the after period{last_line}, "
+            f"at least {MIN_WINDOW_POINTS} expected (5–10 minutes of readings after the change are advised)",
+            field="after_period" if after is not None else None,
+            source=source,
+        )
+    if ab - aa < 120.0:
+        warnings.append(
+            f"after period is short ({ab - aa:.0f} s); at least 5 minutes after the change are advised"
+        )
+    return Periods(
+        fore=(fa, fb),
+        after=(aa, ab),
+        mixing_time=t_m,
+        u_mixing_time=u_tm,
+        mixing_time_detected=detected,
+        main_end=t_f,
+        release_time_constant=tau,
+        warnings=warnings,
+    )
+
+
+def _find_main_end(
+    t: np.ndarray,
+    y: np.ndarray,
+    t_m: float,
+    fore: tuple[float, float],
+    dt: float,
+    two_solution: bool,
+) -> tuple[float, float, float | None, list[str]]:
+    """Return (t_f, end of log, rough τ, warnings) from the running corrected change."""
+    warnings: list[str] = []
+    post = t > t_m
+    tp = t[post]
+    yp = y[post]
+    if tp.size < 2 * MIN_WINDOW_POINTS:
+        return float(tp[0]) if tp.size else t_m, float(t[-1]), None, warnings
+    # Preliminary drift law from the late half of the post-mixing log and the fore period.
+    half = tp.size // 2
+    late = fit_line(tp[half:], yp[half:])
+    g_f, T_f = late.b, late.a
+    k = 0.0
+    if not two_solution:
+        fm = _window_mask(t, *fore)
+        fl = fit_line(t[fm], y[fm])
+        dT = T_f - fl.a
+        noise = max(late.s, fl.s, 1e-4)
+        if abs(dT) > 20 * noise:
+            k = (fl.b - g_f) / dT
+            if not (0.0 <= k < 1 / 300.0):
+                k = 0.0
+    # y at the mixing time: the fore line's value is the best start level
+    i_m = int(np.searchsorted(t, t_m))
+    y_m = float(y[max(i_m - 1, 0)])
+    g = g_f + k * (T_f - yp)  # drift at each reading
+    # cumulative trapezoid of the drift from t_m
+    tt = np.concatenate([[t_m], tp])
+    gg = np.concatenate([[g_f + k * (T_f - y_m)], g])
+    cum = np.concatenate([[0.0], np.cumsum(0.5 * (gg[1:] + gg[:-1]) * np.diff(tt))])[1:]
+    D = yp - y_m - cum
+    tail = D[int(0.7 * D.size) :]
+    plateau = float(np.median(tail))
+    if plateau == 0:
+        return float(tp[0]), float(t[-1]), None, warnings
+    # smooth over ~15 s to find the crossings robustly
+    w = max(1, int(round(15.0 / dt)))
+    if w > 1 and D.size > 3 * w:
+        kernel = np.ones(w) / w
+        Ds = np.convolve(D, kernel, mode="same")
+        Ds[: w // 2] = D[: w // 2]
+    else:
+        Ds = D
+    frac = Ds / plateau
+
+    def first_cross(level: float) -> float | None:
+        idx = np.flatnonzero(frac >= level)
+        return float(tp[idx[0]]) if idx.size else None
+
+    t50 = first_cross(0.5)
+    t90 = first_cross(0.9)
+    if t50 is None or t90 is None:
+        return float(tp[0]), float(t[-1]), None, warnings
+    tau = max((t90 - t50) / math.log(5.0), dt)
+    t_f = t90 + 6.0 * tau
+    min_after = max(MIN_WINDOW_POINTS * dt, 60.0)
+    t_end = float(t[-1])
+    if t_end - t_f < min_after:
+        t_f_new = t_end - min_after
+        warnings.append(
+            f"the log ends too soon after mixing: the after period should start near {t_f - t_m:.0f} s "
+            f"after mixing (release not finished before), but only {t_end - t_m:.0f} s were recorded; "
+            "record longer after the change"
+        )
+        t_f = max(t_f_new, t90)
+    # snap to a reading
+    j = int(np.searchsorted(t, t_f))
+    t_f = float(t[min(j, t.size - 1)])
+    return t_f, t_end, float(t90 - t_m) / math.log(10.0), warnings

@@ -1,0 +1,380 @@
+"""Read and validate a run file (TOML).
+
+The format is public (README.md, "The run file"): every measured quantity is a
+string ``"value ± u unit"``. This module checks every section and field against
+the schema of the run's kind and rejects missing, unknown and wrongly
+dimensioned fields with a message that names the field and what was expected.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from calc.errors import InputError
+from calc.measured import Measured, parse_measured
+
+__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA"]
+
+KINDS = (
+    "dissolution",
+    "neutralization",
+    "electrical-calibration",
+    "mixing-calibration",
+    "reaction",
+)
+
+# A field is (kind of value, expected unit or None, required).
+#  "q"   measured quantity with units ("value ± u unit")
+#  "dq"  a temperature *difference* such as a resolution (degC counts as K)
+#  "n"   dimensionless measured quantity (bare number or "value ± u")
+#  "s"   free string
+#  "f"   chemical formula (string)
+#  "i"   positive integer
+Field = tuple[str, str | None, bool]
+
+_INFO: dict[str, Field] = {
+    "title": ("s", None, False),
+    "operator": ("s", None, False),
+    "bench": ("s", None, False),
+    "date": ("s", None, False),
+    "notes": ("s", None, False),
+    "sample": ("s", None, False),
+    "group": ("s", None, False),
+}
+_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False)}
+_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False)}
+_THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}
+_MIXTURE: dict[str, Field] = {"specific_heat_capacity": ("q", "J/(g*K)", False)}
+_WATER: dict[str, Field] = {"volume": ("q", "mL", True), "density": ("q", "g/mL", False)}
+_REFERENCE: dict[str, Field] = {"name": ("s", None, False)}
+
+_COMMON: dict[str, dict[str, Field]] = {
+    "info": _INFO,
+    "thermometer": _THERMO,
+    "mixture": _MIXTURE,
+    "reference": _REFERENCE,
+}
+
+SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
+    "dissolution": {
+        **_COMMON,
+        "calorimeter": _CAL,
+        "water": _WATER,
+        "solute": {
+            "formula": ("f", None, True),
+            "mass": ("q", "g", True),
+            "purity": ("n", "", False),
+            "name": ("s", None, False),
+        },
+    },
+    "neutralization": {
+        **_COMMON,
+        "calorimeter": _CAL,
+        "acid": {
+            "formula": ("f", None, True),
+            "concentration": ("q", "mol/L", True),
+            "volume": ("q", "mL", True),
+            "density": ("q", "g/mL", False),
+            "equivalents": ("i", None, False),
+            "temperature": ("q", "K", False),
+        },
+        "base": {
+            "formula": ("f", None, True),
+            "concentration": ("q", "mol/L", True),
+            "volume": ("q", "mL", True),
+            "density": ("q", "g/mL", False),
+            "temperature": ("q", "K", True),
+            "equivalents": ("i", None, False),
+        },
+    },
+    "electrical-calibration": {
+        **_COMMON,
+        "calorimeter": _CAL_OPTIONAL,
+        "water": _WATER,
+        "heater": {
+            "voltage": ("q", "V", True),
+            "current": ("q", "A", True),
+            "duration": ("q", "s", True),
+        },
+    },
+    "mixing-calibration": {
+        **_COMMON,
+        "calorimeter": _CAL_OPTIONAL,
+        "water": _WATER,
+        "warm_water": {
+            "volume": ("q", "mL", True),
+            "temperature": ("q", "K", True),
+            "density": ("q", "g/mL", False),
+        },
+    },
+    "reaction": {
+        **_COMMON,
+        "calorimeter": _CAL,
+        "solution": _WATER,
+        "solute": {
+            "formula": ("f", None, True),
+            "mass": ("q", "g", True),
+            "name": ("s", None, False),
+        },
+        "reaction": {
+            "equation": ("s", None, False),
+            "limiting_reagent": ("f", None, False),
+            "amount": ("q", "mol", False),
+            "mass": ("q", "g", False),
+            "coefficient": ("i", None, False),
+        },
+    },
+}
+
+#: Sections every run of a kind must have.
+REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {
+    "dissolution": ("calorimeter", "thermometer", "water", "solute"),
+    "neutralization": ("calorimeter", "thermometer", "acid", "base"),
+    "electrical-calibration": ("thermometer", "water", "heater"),
+    "mixing-calibration": ("thermometer", "water", "warm_water"),
+    "reaction": ("calorimeter", "thermometer", "solution", "reaction"),
+}
+
+_TOP: dict[str, Field] = {
+    "kind": ("s", None, True),
+    "readings": ("s", None, True),
+    "mixing_time": ("q", "s", False),
+    "fore_period": ("p", "s", False),
+    "after_period": ("p", "s", False),
+    "method": ("s", None, False),
+}
+
+_DELTA_FACTORS = {"K": 1.0, "kelvin": 1.0, "degC": 1.0, "°C": 1.0, "℃": 1.0, "mK": 1e-3, "degF": 5 / 9, "°F": 5 / 9}
+
+
+@dataclass
+class RunSpec:
+    """A validated run file."""
+
+    path: Path | None
+    source: str
+    kind: str
+    readings_path: Path
+    sections: dict[str, dict[str, Any]]
+    mixing_time: Measured | None = None
+    fore_period: tuple[float, float] | None = None
+    after_period: tuple[float, float] | None = None
+    method: str | None = None
+    raw: dict[str, Any] = field(default_factory=dict)
+
+    def get(self, section: str, name: str, default: Any = None) -> Any:
+        """Return a field's parsed value, or ``default`` when absent."""
+        return self.sections.get(section, {}).get(name, default)
+
+    @property
+    def resolution_K(self) -> float:
+        """Thermometer resolution in kelvin."""
+        return float(self.sections["thermometer"]["resolution"])
+
+
+def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunSpec:
+    """Read and validate the run file at ``path``.
+
+    Raises
+    ------
+    InputError
+        For an unreadable file, invalid TOML, or a missing, unknown or invalid field.
+    """
+    p = Path(path)
+    src = source or str(path)
+    try:
+        text = p.read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise InputError("file not found", source=src) from None
+    except IsADirectoryError:
+        raise InputError("is a directory, expected a run file (.toml)", source=src) from None
+    except UnicodeDecodeError:
+        raise InputError("is not UTF-8 text; expected a TOML run file", source=src) from None
+    except OSError as exc:
+        raise InputError(f"cannot be read ({exc.strerror})", source=src) from None
+    return parse_run(text, source=src, base_dir=p.parent, path=p)
+
+
+def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Path | None = None) -> RunSpec:
+    """Validate run-file text; ``base_dir`` resolves the readings path."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        line = getattr(exc, "lineno", None)
+        msg = str(exc)
+        raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
+    kind = data.get("kind")
+    if kind is None:
+        raise InputError(f"missing; expected one of: {', '.join(KINDS)}", source=source, field="kind")
+    if kind not in KINDS:
+        raise InputError(
+            f"unknown kind '{kind}'; expected one of: {', '.join(KINDS)}", source=source, field="kind"
+        )
+    schema = SCHEMA[kind]
+    sections: dict[str, dict[str, Any]] = {}
+    top: dict[str, Any] = {}
+    for key, value in data.items():
+        if isinstance(value, dict):
+            if key not in schema:
+                raise InputError(
+                    f"unknown section [{key}] for a {kind} run; expected sections: "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=key,
+                )
+            sections[key] = _parse_section(key, value, schema[key], source)
+        else:
+            if key not in _TOP:
+                raise InputError(
+                    f"unknown field; expected top-level fields: {', '.join(_TOP)} and sections "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=key,
+                )
+            top[key] = value
+    for sec in REQUIRED_SECTIONS[kind]:
+        if sec not in sections:
+            required = [n for n, f in schema[sec].items() if f[2]]
+            raise InputError(
+                f"missing section [{sec}] (a {kind} run needs it, with {', '.join(required)})",
+                source=source,
+                field=sec,
+            )
+    readings = top.get("readings")
+    if not isinstance(readings, str) or not readings.strip():
+        raise InputError(
+            "missing; expected the path of the readings CSV, relative to the run file",
+            source=source,
+            field="readings",
+        )
+    rpath = Path(readings)
+    if not rpath.is_absolute() and base_dir is not None:
+        rpath = base_dir / rpath
+    mixing = None
+    if "mixing_time" in top:
+        mixing = _parse_time(top["mixing_time"], "mixing_time", source)
+    fore = _parse_period(top.get("fore_period"), "fore_period", source)
+    after = _parse_period(top.get("after_period"), "after_period", source)
+    method = top.get("method")
+    if method is not None and not isinstance(method, str):
+        raise InputError("expected a method name (a string)", source=source, field="method")
+    _kind_rules(kind, sections, source)
+    return RunSpec(
+        path=path,
+        source=source,
+        kind=kind,
+        readings_path=rpath,
+        sections=sections,
+        mixing_time=mixing,
+        fore_period=fore,
+        after_period=after,
+        method=method,
+        raw=data,
+    )
+
+
+def _parse_time(value: Any, name: str, source: str) -> Measured:
+    return parse_measured(value, field=name, expected="s", source=source)
+
+
+def _parse_period(value: Any, name: str, source: str) -> tuple[float, float] | None:
+    if value is None:
+        return None
+    if not isinstance(value, list) or len(value) != 2:
+        raise InputError(
+            'expected a list of two times, like ["0 s", "170 s"]', source=source, field=name
+        )
+    a = _parse_time(value[0], name, source).m_as("s")
+    b = _parse_time(value[1], name, source).m_as("s")
+    if not b > a:
+        raise InputError(f"the period must end after it starts (got {a:g} s to {b:g} s)", source=source, field=name)
+    return (a, b)
+
+
+def _parse_section(name: str, values: dict[str, Any], fields: dict[str, Field], source: str) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in values.items():
+        dotted = f"{name}.{key}"
+        if key not in fields:
+            raise InputError(
+                f"unknown field; [{name}] takes: {', '.join(fields)}", source=source, field=dotted
+            )
+        kind, unit, _req = fields[key]
+        out[key] = _parse_value(value, kind, unit, dotted, source)
+    for key, (_kind, unit, req) in fields.items():
+        if req and key not in out:
+            example = {"mL": "100.0 ± 0.1 mL", "g": "2.500 ± 0.001 g", "J/K": "15 ± 3 J/K", "K": "0.01 K",
+                       "mol/L": "1.000 ± 0.005 mol/L", "V": "5.00 ± 0.01 V", "A": "1.000 ± 0.002 A",
+                       "s": "120.0 ± 0.2 s"}.get(unit or "", "")
+            hint = f", e.g. {key} = \"{example}\"" if example else ""
+            raise InputError(f"missing{hint}", source=source, field=f"{name}.{key}")
+    return out
+
+
+def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: str) -> Any:
+    if kind == "s":
+        if not isinstance(value, str):
+            raise InputError("expected text (a string)", source=source, field=dotted)
+        return value
+    if kind == "f":
+        if not isinstance(value, str) or not value.strip():
+            raise InputError("expected a chemical formula such as 'KCl'", source=source, field=dotted)
+        from calc.molar_mass import molar_mass
+
+        molar_mass(value, field=dotted, source=source)  # validates the formula
+        return value.strip()
+    if kind == "i":
+        if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+            raise InputError("expected a positive whole number", source=source, field=dotted)
+        return value
+    if kind == "n":
+        return parse_measured(value, field=dotted, expected="", source=source)
+    if kind == "dq":
+        m = parse_measured(value, field=dotted, expected="K", source=source)
+        factor = _DELTA_FACTORS.get(m.unit)
+        if factor is None:
+            raise InputError(
+                f"expected a temperature difference in K, mK, degC or degF, got '{m.text}'",
+                source=source,
+                field=dotted,
+            )
+        v = m.value * factor
+        if not (v > 0 and math.isfinite(v)):
+            raise InputError(f"expected a positive resolution, got '{m.text}'", source=source, field=dotted)
+        return v
+    m = parse_measured(value, field=dotted, expected=unit or "", source=source)
+    if unit not in ("K",) and m.value <= 0 and not dotted.endswith("heat_capacity"):
+        raise InputError(f"expected a positive value, got '{m.text}'", source=source, field=dotted)
+    return m
+
+
+def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
+    if kind == "reaction":
+        r = sections["reaction"]
+        has_amount = "amount" in r
+        has_mass = "mass" in r
+        if has_amount == has_mass:
+            raise InputError(
+                "give either amount (mol) or mass (g, with limiting_reagent) of the limiting reagent",
+                source=source,
+                field="reaction.amount",
+            )
+        if has_mass and "limiting_reagent" not in r:
+            raise InputError(
+                "missing: a mass needs the limiting reagent's formula to give moles",
+                source=source,
+                field="reaction.limiting_reagent",
+            )
+    if kind == "dissolution":
+        purity = sections["solute"].get("purity")
+        if purity is not None and not (0 < purity.value <= 1):
+            raise InputError(
+                f"expected a mass fraction between 0 and 1, got '{purity.text}'",
+                source=source,
+                field="solute.purity",
+            )
