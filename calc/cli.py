@@ -105,7 +105,7 @@ def methods() -> None:
     for name in sorted(METHODS):
         mark = " (default)" if name == DEFAULT_METHOD else ""
         doc = (METHODS[name].__doc__ or "").strip().splitlines()
-        click.echo(f"{name}{mark}: method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT| {doc[0] if doc else ''}")
+        click.echo(f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)")
 
 
 def _register_optional() -> None:

@@ -183,6 +183,25 @@ def _quad_form(g: np.ndarray, cov: np.ndarray) -> float:
     return v if v > 0 and math.isfinite(v) else 0.0
 
 
+#: Longest drift window used by the straight-line methods, s. Straight lines fitted to
+#: long windows of an exponential drift are biased (SCIENCE §1.a–1.b); 5 minutes next to
+#: the main period is the usual advice.
+LINE_WINDOW_MAX = 300.0
+
+
+def _line_fits(log: Log) -> tuple[LineFit, LineFit]:
+    """Fit straight lines to at most LINE_WINDOW_MAX of each period, next to the main period."""
+    tf_, yf_ = log.window("fore")
+    ta_, ya_ = log.window("after")
+    mf = tf_ >= tf_[-1] - LINE_WINDOW_MAX
+    ma = ta_ <= ta_[0] + LINE_WINDOW_MAX
+    if np.count_nonzero(mf) < 8:
+        mf = np.ones_like(tf_, dtype=bool)
+    if np.count_nonzero(ma) < 8:
+        ma = np.ones_like(ta_, dtype=bool)
+    return fit_line(tf_[mf], yf_[mf]), fit_line(ta_[ma], ya_[ma])
+
+
 def _classic_k(fore: LineFit, after: LineFit) -> float:
     dT = after.a - fore.a
     if abs(dT) < 1e-6:
@@ -204,6 +223,7 @@ def _need(log: Log) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
 
 @register_method("regnault-pfaundler")
 def _regnault_pfaundler(log: Log) -> DeltaT:
+    """Newtonian Regnault–Pfaundler: one drift law fitted to both periods, exchange integrated on the readings."""
     tf_, yf_, ta_, ya_ = _need(log)
     t_i = log.periods.mixing_time
     t_f = log.periods.main_end
@@ -300,15 +320,15 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
 
 @register_method("linear-extrapolation")
 def _linear(log: Log) -> DeltaT:
+    """Fore and after drift lines extrapolated to the mixing time."""
     tf_, yf_, ta_, ya_ = _need(log)
     t_m = log.periods.mixing_time
-    fore = fit_line(tf_, yf_)
-    after = fit_line(ta_, ya_)
+    fore, after = _line_fits(log)
     value = after.at(t_m) - fore.at(t_m)
     var = after.var_at(t_m) + fore.var_at(t_m)
     u_tm = abs(after.b - fore.b) * log.periods.u_mixing_time
     warnings = []
-    ext = (log.periods.main_end - t_m) + 0.5 * (ta_[-1] - ta_[0])
+    ext = (log.periods.main_end - t_m) + 0.5 * min(ta_[-1] - ta_[0], LINE_WINDOW_MAX)
     if abs(after.b - fore.b) * ext > 0.01 * abs(value):
         warnings.append(
             "linear extrapolation over a long after period: the drift lines are curved, so this method "
@@ -338,11 +358,11 @@ def _linear(log: Log) -> DeltaT:
 
 @register_method("equal-area")
 def _equal_area(log: Log) -> DeltaT:
+    """Fore and after drift lines taken at the equal-area time t_x = t_f − ∫F dt."""
     tf_, yf_, ta_, ya_ = _need(log)
     t_i = log.periods.mixing_time
     t_f = log.periods.main_end
-    fore = fit_line(tf_, yf_)
-    after = fit_line(ta_, ya_)
+    fore, after = _line_fits(log)
     T_i = fore.at(t_i)
     T_f = after.at(t_f)
     if abs(T_f - T_i) <= 0:
@@ -385,6 +405,7 @@ def _fraction_time(log: Log, T_i: float, T_f: float, frac: float) -> float | Non
 
 @register_method("naive")
 def _naive(log: Log) -> DeltaT:
+    """Extreme reading minus the last fore reading (biased; for comparison only)."""
     tf_, yf_, ta_, ya_ = _need(log)
     t_m = log.periods.mixing_time
     fore = fit_line(tf_, yf_)
@@ -441,3 +462,7 @@ def _common_warnings(log: Log, dt: DeltaT) -> None:
     for w in log.periods.warnings:
         if w not in dt.warnings:
             dt.warnings.append(w)
+
+
+# The explicit-model method lives in its own module; importing it registers it.
+from calc import modelfit as _modelfit  # noqa: E402,F401

@@ -205,8 +205,12 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        line = getattr(exc, "lineno", None)
+        import re
+
         msg = str(exc)
+        found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        line = int(found.group(1)) if found else None
+        msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
         raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
     kind = data.get("kind")
     if kind is None:
