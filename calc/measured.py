@@ -1,0 +1,447 @@
+"""Parse measured quantities written as ``"value ± u unit"``.
+
+Run files give every measured quantity as a string such as ``"100.0 ± 0.1 mL"``
+(``"+/-"`` may stand for ``"±"``), where ``u`` is a *standard* uncertainty in the
+same unit as the value. A value written without ``±`` gets the default
+uncertainty of half a unit of its last written digit, read as a rectangular
+distribution (GUM, JCGM 100:2008, 4.3.7: a half-width ``a`` gives ``u = a/√3``)::
+
+    u = 0.5 * 10**(-decimals) / sqrt(3)
+
+where ``decimals`` counts the digits after the decimal point minus the written
+exponent: ``"100 mL"`` has 0 decimals (u = 0.5/√3 mL) and ``"1.20e-3 mol"`` has
+2 + 3 = 5 (u = 0.5e-5/√3 mol).
+
+Times may also be written on a clock, ``"3:00"`` (minutes:seconds) or
+``"1:02:03"`` (hours:minutes:seconds); they are returned in seconds.
+
+Temperatures are absolute: ``"25.0 °C"`` is 298.15 K through ``m_as("K")``, while
+its uncertainty converts as a difference (``u_as("K")``: 1 °C of u is 1 K).
+
+The unit parse and the conversion factors are cached per unit string, so parsing
+thousands of run files does not rebuild pint objects for every quantity.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+
+from calc.errors import InputError
+from calc.units import Q_, parse_unit, ureg
+
+__all__ = ["Measured", "parse_measured", "describe_dimension", "default_uncertainty"]
+
+_SQRT3 = math.sqrt(3.0)
+
+_NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_PM = r"(?:±|\+/-|\+-)"
+_MEASURED_RE = re.compile(
+    rf"\s*(?P<open>\()?\s*(?P<value>{_NUM})\s*"
+    rf"(?:{_PM}\s*(?P<u>{_NUM}))?\s*(?(open)\))\s*(?P<unit>.*?)\s*"
+)
+_CLOCK_RE = re.compile(
+    r"\s*(?P<sign>[+-])?(?:(?P<h>\d+):)?(?P<m>\d+):(?P<s>\d\d(?:\.\d*)?)\s*"
+    rf"(?:{_PM}\s*(?P<u>{_NUM})\s*(?P<unit>.*?))?\s*"
+)
+_NONFINITE_RE = re.compile(r"\s*\(?\s*[+-]?(?:nan|inf|infinity)\b", re.IGNORECASE)
+_PM_IN_UNIT_RE = re.compile(_PM)
+_TEXT = "\x00"  # stands for the whole entry in cached problem messages
+
+# Spellings that pint does not read (or reads as something else) mapped to pint names.
+_UNIT_SPELLINGS = {
+    "°C": "degC",
+    "℃": "degC",
+    "ºC": "degC",
+    "° C": "degC",
+    "deg C": "degC",
+    "°F": "degF",
+    "℉": "degF",
+    "ºF": "degF",
+    "° F": "degF",
+    "deg F": "degF",
+    "°K": "K",
+}
+
+# (reference unit, words, example) for describing dimensions in messages.
+_DIMENSIONS: tuple[tuple[str, str, str], ...] = (
+    ("", "dimensionless number", "0.50 ± 0.01"),
+    ("mL", "volume", "100.0 ± 0.1 mL"),
+    ("g", "mass", "5.000 ± 0.001 g"),
+    ("mol", "amount of substance", "0.0500 ± 0.0002 mol"),
+    ("mol/L", "amount concentration", "1.000 ± 0.005 mol/L"),
+    ("mol/kg", "molality", "1.000 ± 0.005 mol/kg"),
+    ("g/mL", "density", "1.00 ± 0.01 g/mL"),
+    ("g/mol", "molar mass", "58.44 ± 0.01 g/mol"),
+    ("K", "temperature", "21.50 ± 0.05 °C"),
+    ("s", "time", "180 ± 1 s"),
+    ("J", "energy", "1500 ± 10 J"),
+    ("kJ/mol", "molar energy", "-57.0 ± 0.5 kJ/mol"),
+    ("J/K", "heat capacity", "25 ± 3 J/K"),
+    ("J/(g*K)", "specific heat capacity", "4.18 ± 0.01 J/(g*K)"),
+    ("J/(mol*K)", "molar heat capacity", "75.3 ± 0.1 J/(mol*K)"),
+    ("W", "power", "10.00 ± 0.05 W"),
+    ("W/K", "heat-loss coefficient", "0.010 ± 0.002 W/K"),
+    ("K/s", "temperature drift rate", "0.0010 ± 0.0002 K/s"),
+    ("1/s", "rate", "0.010 ± 0.001 1/s"),
+    ("V", "voltage", "12.00 ± 0.01 V"),
+    ("A", "current", "1.500 ± 0.002 A"),
+    ("ohm", "resistance", "8.00 ± 0.01 ohm"),
+    ("C", "electric charge", "100.0 ± 0.1 C"),
+    ("F", "capacitance", "1.0 ± 0.1 F"),
+    ("m", "length", "0.100 ± 0.001 m"),
+    ("m**2", "area", "0.0100 ± 0.0001 m**2"),
+    ("Pa", "pressure", "101325 ± 100 Pa"),
+)
+
+_RELATIVE_UNITS = ("%", "percent", "ppm", "permille", "‰")
+
+
+@dataclass(frozen=True, slots=True)
+class Measured:
+    """A measured value with its standard uncertainty and unit.
+
+    Attributes
+    ----------
+    value:
+        The magnitude in ``unit``.
+    u:
+        The standard uncertainty in ``unit`` (never negative).
+    unit:
+        The pint unit string, e.g. ``"mL"`` or ``"degC"``; ``""`` if dimensionless.
+    distribution:
+        ``"normal"`` when the text stated ``±``, ``"rectangular"`` for the
+        last-digit default.
+    text:
+        The original text, for messages and provenance.
+    """
+
+    value: float
+    u: float
+    unit: str
+    distribution: str
+    text: str
+
+    def m_as(self, unit: str) -> float:
+        """Return the value converted to ``unit`` (offset-aware: 25 degC is 298.15 K).
+
+        Raises
+        ------
+        pint.DimensionalityError
+            If ``unit`` has another dimension.
+        """
+        scale, offset = _affine(self.unit, unit)
+        return self.value * scale + offset
+
+    def u_as(self, unit: str) -> float:
+        """Return the uncertainty converted to ``unit`` as a difference (1 degC of u is 1 K)."""
+        return self.u * _affine(self.unit, unit)[0]
+
+    def to(self, unit: str) -> Measured:
+        """Return the same measurement expressed in ``unit``."""
+        scale, offset = _affine(self.unit, unit)
+        return Measured(
+            self.value * scale + offset, self.u * scale, unit, self.distribution, self.text
+        )
+
+
+def default_uncertainty(number_text: str) -> float:
+    """Return the default standard uncertainty of a number written without ``±``.
+
+    Half a unit of the last written digit, rectangular: ``0.5·10**(-d)/√3`` where
+    ``d`` is the number of digits after the decimal point minus the exponent.
+
+    Parameters
+    ----------
+    number_text:
+        The number as written, e.g. ``"100"``, ``"21.50"`` or ``"1.20e-3"``.
+    """
+    mantissa, _, exponent = number_text.strip().lower().partition("e")
+    _, _, fraction = mantissa.partition(".")
+    decimals = len(fraction) - (int(exponent) if exponent else 0)
+    return 0.5 * 10.0 ** (-decimals) / _SQRT3
+
+
+def describe_dimension(unit: str) -> str:
+    """Return the dimension of ``unit`` in words, e.g. ``"volume"`` for ``"mL"``.
+
+    Unknown dimensions are described by pint's dimensionality, e.g.
+    ``"quantity of dimension [length] ** 4"``.
+
+    Raises
+    ------
+    pint.UndefinedUnitError
+        If ``unit`` is not a unit.
+    """
+    return _describe(_canonical_unit(unit))
+
+
+def parse_measured(
+    text: str | int | float, *, field: str, expected: str, source: str | None = None
+) -> Measured:
+    """Parse ``"value ± u unit"`` into a :class:`Measured` of the expected dimension.
+
+    Parameters
+    ----------
+    text:
+        The run-file entry: a string such as ``"100.0 ± 0.1 mL"``, ``"25.0 °C"``,
+        ``"3:00"`` (a time); or a bare number, accepted only when ``expected``
+        is ``""`` (dimensionless).
+    field:
+        The dotted run-file field, named in error messages.
+    expected:
+        A reference unit whose dimension the quantity must have (``"mL"``,
+        ``"K"`` for an absolute temperature, ``"s"``, ``""`` for dimensionless…).
+    source:
+        The run file, named in error messages.
+
+    Returns
+    -------
+    Measured
+        Value and uncertainty in the unit as written (clock times in ``"s"``;
+        ``°C`` spelled ``"degC"``, ``°F`` spelled ``"degF"``).
+
+    Raises
+    ------
+    InputError
+        For an empty entry, a missing or unknown unit, a wrong dimension, a
+        non-finite value, a negative or non-finite uncertainty, or a
+        temperature below absolute zero.
+    """
+    if isinstance(text, str):
+        written = text.replace("−", "-") if "−" in text else text
+        if ":" in written:
+            clock = _CLOCK_RE.fullmatch(written)
+            if clock is not None:
+                if not _is_time(expected):
+                    raise _error(f"got the clock time {text!r}", expected, field, source)
+                return _parse_clock(clock, text, field=field, expected=expected, source=source)
+        match = _MEASURED_RE.fullmatch(written)
+        if match is not None:
+            value_text, u_text, unit_text = match.group("value", "u", "unit")
+            return _build(value_text, u_text, unit_text, text, field, expected, source)
+        raise _unreadable(text, field=field, expected=expected, source=source)
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        if expected != "":
+            raise _error(f"missing unit: got the bare number {text!r}", expected, field, source)
+        number = repr(text) if isinstance(text, float) else str(text)
+        try:
+            value = float(text)
+        except OverflowError:
+            value = math.inf
+        if not math.isfinite(value):
+            raise _error(f"the value {number} is not finite", expected, field, source)
+        return Measured(value, default_uncertainty(number), "", "rectangular", number)
+    if text is None:
+        raise _error("the entry is missing", expected, field, source)
+    raise _error(f"got a {type(text).__name__} ({text!r})", expected, field, source)
+
+
+def _build(
+    value_text: str,
+    u_text: str | None,
+    unit_text: str,
+    text: str,
+    field: str,
+    expected: str,
+    source: str | None,
+) -> Measured:
+    """Check the parts of a matched entry and build the :class:`Measured`."""
+    value = float(value_text)
+    if not math.isfinite(value):
+        raise _error(f"the value in {text!r} is too large to represent", expected, field, source)
+    if u_text is None:
+        u = default_uncertainty(value_text)
+        distribution = "rectangular"
+    else:
+        u = float(u_text)
+        if not math.isfinite(u):
+            raise _error(f"the uncertainty in {text!r} is not finite", expected, field, source)
+        if u < 0:
+            problem = f"the uncertainty in {text!r} is negative; a standard uncertainty is >= 0"
+            raise _error(problem, expected, field, source)
+        distribution = "normal"
+    unit, problem = _check_unit(unit_text, expected)
+    if problem is not None:
+        raise _error(problem.replace(_TEXT, repr(text)), expected, field, source)
+    measured = Measured(value, u, unit, distribution, text)
+    if _is_absolute_temperature(expected) and measured.m_as("K") < 0:
+        raise _error(f"{text!r} is below absolute zero", expected, field, source)
+    return measured
+
+
+def _unreadable(text: str, *, field: str, expected: str, source: str | None) -> InputError:
+    """Return the InputError for a string that does not read as a measurement."""
+    stripped = text.strip()
+    if not stripped:
+        return _error("the entry is empty", expected, field, source)
+    if _NONFINITE_RE.match(text):
+        return _error(f"the value in {text!r} is not finite", expected, field, source)
+    if stripped.startswith("("):
+        problem = f"could not read {text!r}; write '(value ± u) unit' or 'value ± u unit'"
+        return _error(problem, expected, field, source)
+    return _error(f"{text!r} does not start with a number", expected, field, source)
+
+
+def _parse_clock(
+    clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None
+) -> Measured:
+    """Turn a matched ``m:ss`` / ``h:mm:ss`` time into seconds."""
+    hours = int(clock.group("h") or 0)
+    minutes = int(clock.group("m"))
+    seconds_text = clock.group("s")
+    seconds = float(seconds_text)
+    if seconds >= 60 or (clock.group("h") is not None and minutes >= 60):
+        raise _error(f"{text!r} is not a valid m:ss or h:mm:ss time", expected, field, source)
+    value = 3600.0 * hours + 60.0 * minutes + seconds
+    if clock.group("sign") == "-":
+        value = -value
+    if clock.group("u") is None:
+        return Measured(value, default_uncertainty(seconds_text), "s", "rectangular", text)
+    u = float(clock.group("u"))
+    if not math.isfinite(u) or u < 0:
+        problem = f"the uncertainty in {text!r} must be a finite number >= 0"
+        raise _error(problem, expected, field, source)
+    unit_text = clock.group("unit")
+    if not unit_text:
+        problem = f"{text!r} gives no unit for the uncertainty, e.g. '3:00 ± 2 s'"
+        raise _error(problem, expected, field, source)
+    unit, problem = _check_unit(unit_text, "s")
+    if problem is not None:
+        raise _error(problem.replace(_TEXT, repr(text)), expected, field, source)
+    return Measured(value, u * _affine(unit, "s")[0], "s", "normal", text)
+
+
+def _error(problem: str, expected: str, field: str, source: str | None) -> InputError:
+    """Build the InputError for ``problem``, saying what was expected."""
+    joiner = ", " if problem.startswith("got ") else "; "
+    message = f"expected {_expectation(expected)}{joiner}{problem}"
+    return InputError(message, field=field, source=source)
+
+
+@lru_cache(maxsize=256)
+def _expectation(expected: str) -> str:
+    """Return words such as ``"a volume like '100.0 ± 0.1 mL'"`` for a reference unit."""
+    words, example = _words_and_example(_canonical_unit(expected))
+    if _is_absolute_temperature(expected):
+        return f"a temperature like '{example}' (°C, degC, K or °F)"
+    if _is_time(expected):
+        return f"a time like '{example}' (s, min, h, or m:ss like '3:00')"
+    if words.startswith("quantity of dimension"):
+        return f"a {words} like '1.0 ± 0.1 {expected}'"
+    return f"{_article(words)} {words} like '{example}'"
+
+
+def _article(words: str) -> str:
+    """Return "a" or "an" for ``words``."""
+    return "an" if words and words[0] in "aeiou" else "a"
+
+
+def _canonical_unit(unit: str) -> str:
+    """Return ``unit`` with degree signs rewritten into the names pint reads."""
+    unit = unit.strip()
+    spelled = _UNIT_SPELLINGS.get(unit)
+    if spelled is not None:
+        return spelled
+    if "°" in unit or "℃" in unit or "℉" in unit:
+        for written, name in _UNIT_SPELLINGS.items():
+            unit = unit.replace(written, name)
+    return unit
+
+
+@lru_cache(maxsize=1)
+def _dimension_table() -> dict[object, tuple[str, str]]:
+    """Map pint dimensionalities to (words, example)."""
+    return {parse_unit(ref).dimensionality: (words, ex) for ref, words, ex in _DIMENSIONS}
+
+
+def _words_and_example(unit: str) -> tuple[str, str]:
+    """Return (words, example) for the dimension of an already canonical unit."""
+    dimensionality = parse_unit(unit).dimensionality
+    found = _dimension_table().get(dimensionality)
+    if found is not None:
+        return found
+    return f"quantity of dimension {dimensionality}", f"1.0 ± 0.1 {unit}"
+
+
+def _describe(unit: str) -> str:
+    """Return the words for the dimension of an already canonical unit."""
+    return _words_and_example(unit)[0]
+
+
+@lru_cache(maxsize=64)
+def _is_absolute_temperature(expected: str) -> bool:
+    """Tell whether ``expected`` is a temperature unit (absolute temperatures)."""
+    return parse_unit(_canonical_unit(expected)).dimensionality == parse_unit("K").dimensionality
+
+
+@lru_cache(maxsize=64)
+def _is_time(expected: str) -> bool:
+    """Tell whether ``expected`` is a time unit."""
+    return parse_unit(expected).dimensionality == parse_unit("s").dimensionality
+
+
+@lru_cache(maxsize=2048)
+def _check_unit(unit_text: str, expected: str) -> tuple[str, str | None]:
+    """Return (canonical unit, problem) for a written unit and an expected one.
+
+    ``problem`` is ``None`` when the unit is fine, else a message in which
+    ``_TEXT`` stands for the whole entry. Cached: the same few units repeat
+    across thousands of run files.
+    """
+    t = _TEXT
+    if _PM_IN_UNIT_RE.match(unit_text):
+        return unit_text, f"the uncertainty after '±' in {t} is not a finite number"
+    if _PM_IN_UNIT_RE.search(unit_text):
+        return unit_text, f"got {t}; write the uncertainty before the unit: 'value ± u unit'"
+    if re.match(r",\d", unit_text):
+        return unit_text, f"{t} uses a decimal comma; write a decimal point"
+    if unit_text[:1] == ":":
+        return unit_text, f"could not read {t}; write clock times as m:ss or h:mm:ss, no unit"
+    if unit_text and unit_text[0] in ".0123456789":
+        return unit_text, f"could not read {t} as one number followed by a unit"
+    unit = _canonical_unit(unit_text)
+    expected_unit = parse_unit(_canonical_unit(expected))
+    if not unit:
+        if expected_unit.dimensionless:
+            return "", None
+        return "", f"missing unit in {t}"
+    if expected != "" and any(rel in unit for rel in _RELATIVE_UNITS):
+        return unit, (
+            f"got {t}; a relative (%) uncertainty is not accepted, "
+            "give the standard uncertainty in the unit of the value"
+        )
+    try:
+        parsed = parse_unit(unit)
+    except Exception:  # pint raises several types for unreadable units
+        return unit, f"unknown unit '{unit_text}' in {t}"
+    if parsed.dimensionality != expected_unit.dimensionality:
+        got = _describe(unit)
+        hint = ""
+        if _is_absolute_temperature(expected) and unit in ("C", "F"):
+            hint = f"; '{unit}' is the {got} unit, write °{unit} or deg{unit} for degrees"
+        return unit, f"got {t} ({_article(got)} {got}){hint}"
+    if _is_absolute_temperature(expected) and "delta_" in unit:
+        return unit, f"got the temperature difference {t}; give an absolute temperature"
+    return unit, None
+
+
+@lru_cache(maxsize=2048)
+def _affine(unit: str, target: str) -> tuple[float, float]:
+    """Return (scale, offset) with ``value_in_target = value * scale + offset``.
+
+    ``scale`` alone converts differences (uncertainties). Offset units (degC,
+    degF) get their scale from the ratio of root-unit factors, so 1 degC of
+    difference is exactly 1 K.
+    """
+    unit, target = _canonical_unit(unit), _canonical_unit(target)
+    if unit == target:
+        return 1.0, 0.0
+    offset = float(Q_(0.0, unit).m_as(target))
+    if offset == 0.0:
+        return float(Q_(1.0, unit).m_as(target)), 0.0
+    unit_factor = ureg.get_root_units(unit)[0]
+    target_factor = ureg.get_root_units(target)[0]
+    return float(unit_factor) / float(target_factor), offset
