@@ -53,8 +53,8 @@ __all__ = [
 #: simulated runs over the parameter ranges of SCIENCE §6.2: the 90th-percentile error of
 #: each method, rounded up.
 METHOD_TERMS: dict[str, float] = {
-    "regnault-pfaundler": 0.002,
-    "model-fit": 0.002,
+    "regnault-pfaundler": 0.001,
+    "model-fit": 0.001,
     "equal-area": 0.005,
     "linear-extrapolation": 0.01,
     "naive": 0.05,
@@ -86,7 +86,8 @@ class DeltaT:
     value: float
     u_fit: float  # regression covariance, inflated for autocorrelation
     dof_fit: float
-    u_resolution_each: float  # per end (start, end), rectangular
+    u_resolution_start: float  # quantisation of the start level, rectangular
+    u_resolution_end: float  # quantisation of the end level, rectangular
     u_method: float  # rectangular
     u_mixing_time: float  # contribution of the mixing-time uncertainty, K
     start_temperature: float  # K: T(t_i) (the fore level at mixing for two solutions)
@@ -99,7 +100,11 @@ class DeltaT:
     def u(self) -> float:
         """Combined standard uncertainty of ΔT."""
         return math.sqrt(
-            self.u_fit**2 + 2 * self.u_resolution_each**2 + self.u_method**2 + self.u_mixing_time**2
+            self.u_fit**2
+            + self.u_resolution_start**2
+            + self.u_resolution_end**2
+            + self.u_method**2
+            + self.u_mixing_time**2
         )
 
 
@@ -161,8 +166,34 @@ def _method_term(name: str, value: float) -> float:
     return METHOD_TERMS.get(name, 0.01) * abs(value) / math.sqrt(3.0)
 
 
-def _res_each(log: Log) -> float:
-    return log.resolution / math.sqrt(12.0)
+def _resolution_term(q: float, s: float, span: float = 0.0) -> float:
+    """Return the standard uncertainty a thermometer resolution q leaves in a fitted level.
+
+    Without dither a level read at resolution q is off by up to ±q/2 (rectangular, u = q/√12;
+    GUM F.2.2.1). Two things dither the quantiser: noise of standard deviation σ, which shrinks
+    the mean quantisation error like its first Fourier harmonic, exp(−2π²σ²/q²) (the classical
+    result for quantisation of a signal with Gaussian noise). σ is the residual SD less the
+    quantisation share q²/12, so a drift that merely steps through the levels earns no
+    credit (measured on simulated runs: crediting it left the intervals too short).
+    """
+    if q <= 0:
+        return 0.0
+    sigma2 = max(s * s - q * q / 12.0, 0.0)
+    factor = math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
+    return q / math.sqrt(12.0) * factor
+
+
+def _res_terms(log: Log) -> tuple[float, float]:
+    """Return the resolution terms of the start and end levels (from the fore and after windows)."""
+    out = []
+    for which in ("fore", "after"):
+        tw, yw = log.window(which)
+        if tw.size > 2:
+            fit = fit_line(tw, yw)
+            out.append(_resolution_term(log.resolution, fit.s, abs(fit.b) * float(tw[-1] - tw[0])))
+        else:
+            out.append(log.resolution / math.sqrt(12.0))
+    return out[0], out[1]
 
 
 def _numgrad(f: Callable[[np.ndarray], float], p: np.ndarray, cov: np.ndarray) -> np.ndarray:
@@ -307,7 +338,8 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
         value=value,
         u_fit=math.sqrt(var),
         dof_fit=dof,
-        u_resolution_each=_res_each(log),
+        u_resolution_start=_res_terms(log)[0],
+        u_resolution_end=_res_terms(log)[1],
         u_method=_method_term("regnault-pfaundler", value),
         u_mixing_time=0.0,  # the Newtonian correction needs no exact mixing time
         start_temperature=start,
@@ -339,7 +371,8 @@ def _linear(log: Log) -> DeltaT:
         value=value,
         u_fit=math.sqrt(var),
         dof_fit=min(fore.dof, after.dof),
-        u_resolution_each=_res_each(log),
+        u_resolution_start=_res_terms(log)[0],
+        u_resolution_end=_res_terms(log)[1],
         u_method=_method_term("linear-extrapolation", value),
         u_mixing_time=u_tm,
         start_temperature=fore.at(t_m),
@@ -379,7 +412,8 @@ def _equal_area(log: Log) -> DeltaT:
         value=value,
         u_fit=math.sqrt(var),
         dof_fit=min(fore.dof, after.dof),
-        u_resolution_each=_res_each(log),
+        u_resolution_start=_res_terms(log)[0],
+        u_resolution_end=_res_terms(log)[1],
         u_method=_method_term("equal-area", value),
         u_mixing_time=abs(after.b - fore.b) * u_tx,
         start_temperature=fore.at(t_x),
@@ -424,7 +458,8 @@ def _naive(log: Log) -> DeltaT:
         value=value,
         u_fit=math.sqrt(sigma**2 + sigma**2 / min(5, yf_.size)),
         dof_fit=max(fore.dof, 1.0),
-        u_resolution_each=_res_each(log),
+        u_resolution_start=_res_terms(log)[0],
+        u_resolution_end=_res_terms(log)[1],
         u_method=_method_term("naive", value),
         u_mixing_time=0.0,
         start_temperature=start,

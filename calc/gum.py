@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import stats
+from scipy.special import ndtri, stdtrit
 from uncertainties import ufloat
 from uncertainties.core import AffineScalarFunc
 
@@ -111,8 +111,8 @@ class GumResult:
 def coverage_factor(dof: float, p: float = 0.95) -> float:
     """Return the coverage factor t_{(1+p)/2, ν} (1.96 for ν = ∞ at 95 %)."""
     if not math.isfinite(dof) or dof > 1e7:
-        return float(stats.norm.ppf(0.5 + p / 2))
-    return float(stats.t.ppf(0.5 + p / 2, max(dof, 1.0)))
+        return float(ndtri(0.5 + p / 2))
+    return float(stdtrit(max(dof, 1.0), 0.5 + p / 2))
 
 
 def propagate(inputs: list[Input], model: Model, main: str, p: float = 0.95) -> GumResult:

@@ -22,7 +22,7 @@ import math
 import numpy as np
 from scipy.optimize import least_squares
 
-from calc.deltat import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_each, register_method
+from calc.deltat import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_terms, register_method
 from calc.drift import fit_line, inflation, lag1_autocorrelation
 from calc.errors import AnalysisError
 
@@ -124,7 +124,8 @@ def _model_fit(log: Log) -> DeltaT:
         value=D,
         u_fit=uD,
         dof_fit=max(n / f - npar, 1.0),
-        u_resolution_each=_res_each(log),
+        u_resolution_start=_res_terms(log)[0],
+        u_resolution_end=_res_terms(log)[1],
         u_method=_method_term("model-fit", D),
         u_mixing_time=0.0,
         start_temperature=start,

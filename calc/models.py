@@ -87,9 +87,9 @@ def _dt_inputs(dt: DeltaT) -> list[Input]:
     return [
         Input("delta_t.fit", dt.value, dt.u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
               dt.dof_fit, label=f"corrected ΔT, drift fits ({dt.method})"),
-        Input("delta_t.resolution_start", 0.0, dt.u_resolution_each, "K", "rectangular",
+        Input("delta_t.resolution_start", 0.0, dt.u_resolution_start, "K", "rectangular",
               label="thermometer resolution, start level"),
-        Input("delta_t.resolution_end", 0.0, dt.u_resolution_each, "K", "rectangular",
+        Input("delta_t.resolution_end", 0.0, dt.u_resolution_end, "K", "rectangular",
               label="thermometer resolution, end level"),
         Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
         Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
