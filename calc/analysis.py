@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -76,6 +77,7 @@ def analyze_run(
     monte_carlo_trials: int = 0,
     seed: int | None = None,
     source: str | None = None,
+    with_reference: bool = True,
 ) -> Analysis:
     """Analyse the run file at ``path``.
 
@@ -102,7 +104,8 @@ def analyze_run(
     spec = load_run(path, source=src)
     rsrc = os.path.join(os.path.dirname(src), str(spec.raw.get("readings")))
     readings = read_readings(spec.readings_path, source=rsrc)
-    return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed)
+    return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
+                        with_reference=with_reference)
 
 
 def analyze_spec(
@@ -114,8 +117,13 @@ def analyze_spec(
     seed: int | None = None,
     fore: tuple[float, float] | None = None,
     after: tuple[float, float] | None = None,
+    with_reference: bool = True,
 ) -> Analysis:
-    """Analyse an already parsed run and log (used by the web app for re-analysis)."""
+    """Analyse an already parsed run and log (used by the web app for re-analysis).
+
+    ``with_reference=False`` skips the reference comparison and the cautions (the JSON
+    record carries neither), which keeps batch analysis fast.
+    """
     two = spec.kind in ("neutralization", "mixing-calibration")
     mix = spec.mixing_time
     periods = find_periods(
@@ -151,7 +159,8 @@ def analyze_spec(
                 f"by more than the tolerance ({mc.tolerance:.2g} {unit}); report the Monte Carlo interval"
             )
     analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
-    _attach_reference(analysis)
+    if with_reference:
+        _attach_reference(analysis)
     return analysis
 
 
@@ -343,6 +352,25 @@ def _kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) 
     return out
 
 
+@lru_cache(maxsize=512)
+def _cautions(formulas: tuple[str, ...]) -> list[Any]:
+    # cached: a batch repeats the same few substances thousands of times
+    try:
+        from calc.hazards import cautions_for
+    except ImportError:
+        return []
+    return cautions_for(list(formulas))
+
+
+@lru_cache(maxsize=512)
+def _reference(kind: str, formula: str | None, acid: str | None, base: str | None, name: str | None) -> Any:
+    try:
+        from calc.reference import find_reference
+    except ImportError:
+        return None
+    return find_reference(kind, formula=formula, acid=acid, base=base, name=name)
+
+
 def _attach_reference(analysis: Analysis) -> None:
     """Attach the reference comparison and the cautions (best effort, never fails the run)."""
     spec = analysis.spec
@@ -354,25 +382,19 @@ def _attach_reference(analysis: Analysis) -> None:
     r = spec.sections.get("reaction", {})
     if r.get("limiting_reagent"):
         formulas.append(r["limiting_reagent"])
-    try:
-        from calc.hazards import cautions_for
-
-        analysis.cautions = cautions_for(formulas)
-    except ImportError:
-        analysis.cautions = []
+    analysis.cautions = _cautions(tuple(formulas))
     if analysis.main != "molar_enthalpy":
         return
     try:
         from calc.compare import compare
-        from calc.reference import find_reference
     except ImportError:
         return
-    ref = find_reference(
+    ref = _reference(
         spec.kind,
-        formula=spec.get("solute", "formula") or r.get("limiting_reagent"),
-        acid=spec.get("acid", "formula"),
-        base=spec.get("base", "formula"),
-        name=spec.get("reference", "name"),
+        spec.get("solute", "formula") or r.get("limiting_reagent"),
+        spec.get("acid", "formula"),
+        spec.get("base", "formula"),
+        spec.get("reference", "name"),
     )
     if ref is None:
         return

@@ -67,7 +67,8 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
     first = True
     for path in runs:
         try:
-            a = analyze_run(path, method=method, monte_carlo_trials=trials, seed=seed, source=path)
+            a = analyze_run(path, method=method, monte_carlo_trials=trials, seed=seed, source=path,
+                            with_reference=not as_json)
         except CupcalError as exc:
             failed += 1
             if as_json:
@@ -110,7 +111,7 @@ def methods() -> None:
 
 def _register_optional() -> None:
     try:
-        from calc.cli_reference import hess
+        from calc.cli_reference import hess_command as hess
     except ImportError:  # reference data not installed
         return
     cli.add_command(hess)

@@ -70,6 +70,14 @@ class Log:
     periods: Periods
     resolution: float  # K
     two_solution: bool = False
+    _lines: dict = field(default_factory=dict, repr=False)
+
+    def line(self, which: str) -> LineFit:
+        """Return the straight-line fit of the whole 'fore' or 'after' period (cached)."""
+        fit = self._lines.get(which)
+        if fit is None:
+            fit = self._lines[which] = fit_line(*self.window(which))
+        return fit
 
     def window(self, which: str) -> tuple[np.ndarray, np.ndarray]:
         """Return the (t, y) readings of the 'fore' or 'after' period."""
@@ -185,14 +193,17 @@ def _resolution_term(q: float, s: float, span: float = 0.0) -> float:
 
 def _res_terms(log: Log) -> tuple[float, float]:
     """Return the resolution terms of the start and end levels (from the fore and after windows)."""
+    cached = log._lines.get("resolution_terms")
+    if cached is not None:
+        return cached
     out = []
     for which in ("fore", "after"):
-        tw, yw = log.window(which)
+        tw, _yw = log.window(which)
         if tw.size > 2:
-            fit = fit_line(tw, yw)
-            out.append(_resolution_term(log.resolution, fit.s, abs(fit.b) * float(tw[-1] - tw[0])))
+            out.append(_resolution_term(log.resolution, log.line(which).s))
         else:
             out.append(log.resolution / math.sqrt(12.0))
+    log._lines["resolution_terms"] = (out[0], out[1])
     return out[0], out[1]
 
 
@@ -258,8 +269,8 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
     tf_, yf_, ta_, ya_ = _need(log)
     t_i = log.periods.mixing_time
     t_f = log.periods.main_end
-    fore = fit_line(tf_, yf_)
-    after = fit_line(ta_, ya_)
+    fore = log.line("fore")
+    after = log.line("after")
     t, y = log.t, log.y
     warnings: list[str] = []
     if log.two_solution:
@@ -483,10 +494,8 @@ def _common_warnings(log: Log, dt: DeltaT) -> None:
             f"|ΔT| = {abs(dt.value):.3g} K is under 10 × the thermometer resolution ({q:g} K): "
             "use a finer thermometer or more substance"
         )
-    tf_, yf_ = log.window("fore")
-    ta_, ya_ = log.window("after")
-    g_i = fit_line(tf_, yf_).b
-    g_f = fit_line(ta_, ya_).b
+    g_i = log.line("fore").b
+    g_f = log.line("after").b
     duration = max(log.periods.main_end - log.periods.mixing_time, 1.0)
     big = max(abs(g_i), abs(g_f)) * duration
     if big > 0.2 * abs(dt.value) or max(abs(g_i), abs(g_f)) * 60 > 0.1:

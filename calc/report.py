@@ -100,7 +100,7 @@ def format_report(analysis: Analysis, input_path: str) -> str:
     g = analysis.gum
     label = "ΔH" if main == "molar_enthalpy" else "C_cal"
     d = _decimals(g.expanded_uncertainty)
-    dof = "∞" if not math.isfinite(g.dof_eff) else f"{g.dof_eff:.0f}"
+    dof = "∞" if not math.isfinite(g.dof_eff) else (f"{g.dof_eff:.0f}" if g.dof_eff < 1e4 else "> 10⁴")
     lines.append(
         f"  {label:<17} {v:.{d}f} ± {g.expanded_uncertainty:.{d}f} {unit}  "
         f"(U at 95 %, k = {g.coverage_factor:.2f}, ν_eff = {dof}; u_c = {u:.{_decimals(u)}f} {unit})"
