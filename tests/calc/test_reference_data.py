@@ -368,6 +368,13 @@ def test_phi_L_magnitude_for_1_1_salts() -> None:
             assert -0.5 < v < 0.6
 
 
+def test_phi_L_of_an_acid_is_larger() -> None:
+    # SCIENCE.md section 3.6: φ_L is much larger for acids than for 1:1 salts.
+    hcl, _ = relative_apparent_molar_enthalpy("HCl", 1.0)
+    nacl, _ = relative_apparent_molar_enthalpy("NaCl", 1.0)
+    assert hcl > 0.6 and hcl > 3 * abs(nacl)
+
+
 def test_phi_L_fallback_and_none() -> None:
     fb = phi_L("KBr", 0.05)
     assert fb is not None and fb.model.startswith("Debye")
