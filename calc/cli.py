@@ -20,6 +20,28 @@ __all__ = ["main", "cli"]
 
 
 class _Group(click.Group):
+    """The top-level group: built-in commands plus plugin commands found lazily.
+
+    Other packages (the web notebook) add commands through the ``cupcal.commands``
+    entry-point group; they are imported only when one of them is invoked or listed,
+    so ``calc`` itself never imports them.
+    """
+
+    def _plugins(self) -> dict[str, Any]:
+        from importlib.metadata import entry_points
+
+        return {ep.name: ep for ep in entry_points(group="cupcal.commands")}
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        return sorted(set(super().list_commands(ctx)) | set(self._plugins()))
+
+    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        cmd = super().get_command(ctx, name)
+        if cmd is not None:
+            return cmd
+        ep = self._plugins().get(name)
+        return ep.load() if ep is not None else None
+
     def invoke(self, ctx: click.Context) -> Any:
         try:
             return super().invoke(ctx)

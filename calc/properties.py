@@ -17,10 +17,10 @@ Water
 Aqueous electrolyte solutions
     Density from the Laliberté & Cooper model (J. Chem. Eng. Data 49, 1141 (2004)) and
     heat capacity from the Laliberté model (J. Chem. Eng. Data 54, 1725 (2009)), with the
-    coefficient table that the ``chemicals`` package ships (``Laliberte2009.tsv``). The
-    model equations are written out here (``chemicals`` 1.5 ships the coefficients but no
-    functions; the same equations are in ``thermo.electrochem``). Water properties inside
-    the models come from IAPWS-95.
+    as implemented by the ``thermo`` package (``thermo.electrochem``). The coefficient table
+    that the ``chemicals`` package ships (``Laliberte2009.tsv``) tells which solutes and
+    ranges are covered; a solute outside it, or one thermo has no coefficients for, takes
+    the fallback below.
 
     Stated standard uncertainties (cupcal's choice, checked against handbook densities in
     the tests): 5e-4 relative for density and 3e-3 relative for c_p.
@@ -61,7 +61,7 @@ __all__ = [
 ]
 
 IAPWS_MODEL = "IAPWS-95 (iapws package)"
-LALIBERTE_MODEL = "Laliberté (coefficients from the chemicals package)"
+LALIBERTE_MODEL = "Laliberté (thermo package)"
 FALLBACK_MODEL = "water fallback"
 
 P_MPA = 0.101325
@@ -249,6 +249,7 @@ def _dh_slopes(T: float) -> tuple[float, float]:
 class _LaliberteRow:
     name: str
     formula: str
+    cas: str
     density: tuple[float, ...] | None  # c0..c4
     density_range: tuple[float, float, float]  # t_min degC, t_max degC, w_max
     cp: tuple[float, ...] | None  # a1..a6
@@ -292,6 +293,7 @@ def _laliberte_table() -> dict[tuple[tuple[str, int], ...], _LaliberteRow]:
             row = _LaliberteRow(
                 name=cells[0].strip(),
                 formula=formula,
+                cas=cells[1].strip(),
                 density=_floats(cells[4:9]),
                 density_range=tuple(float(c) for c in cells[9:12]),  # type: ignore[arg-type]
                 cp=_floats(cells[23:29]),
@@ -303,7 +305,7 @@ def _laliberte_table() -> dict[tuple[tuple[str, int], ...], _LaliberteRow]:
             )
             key = element_composition(formula)
             if key in table:  # two rows with one composition: refuse to guess
-                table[key] = _LaliberteRow(row.name, formula, None, (0, 0, 0), None, (0, 0, 0))
+                table[key] = _LaliberteRow(row.name, formula, row.cas, None, (0, 0, 0), None, (0, 0, 0))
             else:
                 table[key] = row
     return table
@@ -313,17 +315,27 @@ def _laliberte_row(formula: str) -> _LaliberteRow | None:
     return _laliberte_table().get(element_composition(formula))
 
 
-def _rho_app(c: tuple[float, ...], w_solutes: float, t: float) -> float:
-    """Apparent density (kg/m3) of one solute, Laliberté & Cooper (2004) eq. for rho_app."""
-    c0, c1, c2, c3, c4 = c
-    return (c0 * w_solutes + c1) * math.exp(1e-6 * (t + c4) ** 2) / (w_solutes + c2 + c3 * t)
+@lru_cache(maxsize=4096)
+def _laliberte(kind: str, T_K: float, ws: tuple[float, ...], cas: tuple[str, ...]) -> float:
+    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)) from the thermo package.
+
+    The thermo package (Chemical Engineering Design Library) implements Laliberté's mixing
+    rules; a call costs a few milliseconds, so results are cached on rounded inputs.
+    """
+    from thermo.electrochem import Laliberte_density, Laliberte_heat_capacity
+
+    fn = Laliberte_density if kind == "density" else Laliberte_heat_capacity
+    try:
+        return float(fn(T_K, list(ws), list(cas)))
+    except KeyError:
+        return math.nan  # the thermo package has no coefficients for one of the solutes
 
 
-def _cp_app(a: tuple[float, ...], w_solutes: float, t: float) -> float:
-    """Apparent specific heat (J/(g K)) of one solute, Laliberté (2009)."""
-    a1, a2, a3, a4, a5, a6 = a
-    alpha = a2 * t + a3 * math.exp(0.01 * t) + a4 * w_solutes
-    return a1 * math.exp(alpha) + a5 * w_solutes**a6
+def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float], rows: dict) -> float:
+    keys = sorted(mass_fractions)
+    ws = tuple(round(mass_fractions[f], 7) for f in keys)
+    cas = tuple(rows[f].cas for f in keys)
+    return _laliberte(kind, round(T_K, 2), ws, cas)
 
 
 def split_hydrate(formula: str) -> tuple[str, int]:
@@ -452,19 +464,22 @@ def solution_properties(
 
     why = reason_for("density")
     if why is None:
-        inv = (m_water / total) / (rho_w.value * 1000.0)
-        for f, m in anhydrous.items():
-            inv += (m / total) / _rho_app(rows[f].density, w_solutes, t)  # type: ignore[arg-type,union-attr]
-        rho = 1.0 / inv / 1000.0
+        fractions = {f: m / total for f, m in anhydrous.items()}
+        rho = _laliberte_call("density", T, fractions, rows) / 1000.0
+        if not math.isfinite(rho):
+            why = "the thermo package lacks Laliberté density data for " + ", ".join(anhydrous)
+    if why is None:
         density = PropertyValue(rho, U_REL_LALIBERTE_DENSITY * rho, "g/mL", LALIBERTE_MODEL)
     else:
         density = _fallback(rho_w, w_solutes, FALLBACK_HALF_WIDTH_DENSITY, why)
 
     why = reason_for("heat capacity")
     if why is None:
-        cp = (m_water / total) * cp_w.value
-        for f, m in anhydrous.items():
-            cp += (m / total) * _cp_app(rows[f].cp, w_solutes, t)  # type: ignore[arg-type,union-attr]
+        fractions = {f: m / total for f, m in anhydrous.items()}
+        cp = _laliberte_call("heat capacity", T, fractions, rows) / 1000.0
+        if not math.isfinite(cp):
+            why = "the thermo package lacks Laliberté heat-capacity data for " + ", ".join(anhydrous)
+    if why is None:
         heat = PropertyValue(cp, U_REL_LALIBERTE_CP * cp, "J/(g*K)", LALIBERTE_MODEL)
     else:
         heat = _fallback(cp_w, w_solutes, FALLBACK_HALF_WIDTH_CP, why)

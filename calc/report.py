@@ -177,6 +177,8 @@ def format_cautions(analysis: Analysis) -> list[str]:
     else:
         general = general_caution()
     for c in analysis.cautions:
+        if c.substance == "general":
+            continue  # printed once, last
         statements = "; ".join(c.hazard_statements) if c.hazard_statements else "no GHS classification on file"
         pict = f" [{', '.join(c.pictograms)}]" if c.pictograms else ""
         sig = f"{c.signal_word}: " if c.signal_word else ""
