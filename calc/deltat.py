@@ -170,6 +170,22 @@ def _trapz_between(t: np.ndarray, y: np.ndarray, a: float, ya: float, b: float, 
     return float(np.dot(w, yy)), w[1:-1], idx
 
 
+def _trapz_parts(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[float, float, float, np.ndarray]:
+    """Split ∫_a^b y dt (trapezoid rule) into the readings' part and the end values' weights.
+
+    Returns (inner, w_a, w_b, w_inner) with ∫ = inner + w_a·y(a) + w_b·y(b), so the end
+    levels (fit parameters) can vary without recomputing the sum over the readings.
+    """
+    m = (t > a) & (t < b)
+    idx = np.flatnonzero(m)
+    tt = np.concatenate([[a], t[idx], [b]])
+    d = np.diff(tt)
+    w = np.zeros(tt.size)
+    w[:-1] += 0.5 * d
+    w[1:] += 0.5 * d
+    return float(np.dot(w[1:-1], y[idx])), float(w[0]), float(w[-1]), w[1:-1]
+
+
 def _method_term(name: str, value: float) -> float:
     return METHOD_TERMS.get(name, 0.01) * abs(value) / math.sqrt(3.0)
 
@@ -279,9 +295,11 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
         T_A = fore.at(t_i)
         var_TA = fore.var_at(t_i)
 
+        inner, w_a, w_b, w = _trapz_parts(t, y, t_i, t_f)
+
         def dT_of(p: np.ndarray, T_start: float = T_A) -> float:
             y_f, g_f, k = p
-            integ, _, _ = _trapz_between(t, y, t_i, T_start, t_f, y_f)
+            integ = inner + w_a * T_start + w_b * y_f
             return (y_f - T_start) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
 
         p = nf.params
@@ -291,7 +309,6 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
         # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
         var += var_TA
         k = nf.k
-        _, w, _ = _trapz_between(t, y, t_i, T_A, t_f, p[0])
         var += (k * nf.s) ** 2 * float(np.dot(w, w))
         dof = min(nf.dof, fore.dof)
         if k < 0 and abs(k) > 2 * math.sqrt(max(nf.cov[2, 2], 0.0)):
@@ -313,9 +330,11 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
         k0 = _classic_k(fore, after)
         nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=k0)
 
+        inner, w_a, w_b, w = _trapz_parts(t, y, t_i, t_f)
+
         def dT_of(p: np.ndarray) -> float:
             y_i, y_f, g_i, k = p
-            integ, _, _ = _trapz_between(t, y, t_i, y_i, t_f, y_f)
+            integ = inner + w_a * y_i + w_b * y_f
             return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
 
         p = nf.params
@@ -323,7 +342,6 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
         grad = _numgrad(dT_of, p, nf.cov)
         var = _quad_form(grad, nf.cov)
         k = nf.k
-        _, w, _ = _trapz_between(t, y, t_i, p[0], t_f, p[1])
         var += (k * nf.s) ** 2 * float(np.dot(w, w))
         dof = nf.dof
         if k < 0 and abs(k) > 2 * math.sqrt(max(nf.cov[3, 3], 0.0)):
@@ -508,5 +526,11 @@ def _common_warnings(log: Log, dt: DeltaT) -> None:
             dt.warnings.append(w)
 
 
-# The explicit-model method lives in its own module; importing it registers it.
-from calc import modelfit as _modelfit  # noqa: E402,F401
+@register_method("model-fit")
+def _model_fit(log: Log) -> DeltaT:
+    """Explicit model (exchange, first-order release, probe lag) fitted by least squares."""
+    # Lives in calc.modelfit, imported on first use: it needs scipy.optimize, whose import
+    # would otherwise slow every start of the command line.
+    from calc.modelfit import model_fit
+
+    return model_fit(log)

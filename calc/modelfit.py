@@ -22,11 +22,11 @@ import math
 import numpy as np
 from scipy.optimize import least_squares
 
-from calc.deltat import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_terms, register_method
+from calc.deltat import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_terms
 from calc.drift import fit_line, inflation, lag1_autocorrelation
 from calc.errors import AnalysisError
 
-__all__ = ["probe_reading"]
+__all__ = ["probe_reading", "model_fit"]
 
 
 def probe_reading(u: np.ndarray, T_inf: float, k: float, T_m: float, D: float, k_r: float, s: float) -> np.ndarray:
@@ -44,8 +44,7 @@ def probe_reading(u: np.ndarray, T_inf: float, k: float, T_m: float, D: float, k
     return T_inf + b1 * np.exp(-k * u) + b2 * np.exp(-k_r * u) + (T_m - T_inf - b1 - b2) * np.exp(-s * u)
 
 
-@register_method("model-fit")
-def _model_fit(log: Log) -> DeltaT:
+def model_fit(log: Log) -> DeltaT:
     """Explicit model (exchange, first-order release, probe lag) fitted by least squares."""
     tf_, yf_, ta_, ya_ = _need(log)
     t_m = log.periods.mixing_time
