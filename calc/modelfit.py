@@ -117,6 +117,13 @@ def model_fit(log: Log) -> DeltaT:
         )
     if not fit.success:
         warnings.append("the model fit did not converge; prefer the default method")
+    gap = abs(D - rp.value)
+    if gap > 2.0 * math.hypot(uD, rp.u_fit) and gap > 0.002 * abs(rp.value):
+        warnings.append(
+            f"the model fit and the Regnault–Pfaundler correction differ by {gap:.3g} K (more than twice "
+            "their combined uncertainty): the release is not first-order here (a heater pulse, a two-stage "
+            "dissolution?); prefer the default method"
+        )
     start = T_m if log.two_solution else float(fit.x[2])
     return DeltaT(
         method="model-fit",
