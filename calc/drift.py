@@ -236,12 +236,22 @@ def fit_newton_joint(
     n = y.size
     p = 4
     s2 = float(np.dot(resid, resid)) / max(n - p, 1)
-    rf = resid[: xf.size]
-    ra = resid[xf.size :]
-    rho = max(lag1_autocorrelation(rf), lag1_autocorrelation(ra))
+    nf_ = xf.size
+    rf = resid[:nf_]
+    ra = resid[nf_:]
+    rho_f = lag1_autocorrelation(rf)
+    rho_a = lag1_autocorrelation(ra)
+    rho = max(rho_f, rho_a)
     f = inflation(rho)
+    # Each window keeps its own noise level and autocorrelation: sandwich covariance
+    # A⁻¹ (Jᵀ Ω J) A⁻¹ with Ω = diag(f_w s_w²) per window (fore, after).
+    dof_share = max(n - p, 1) / n
+    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / max(rf.size * dof_share, 1.0)
+    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / max(ra.size * dof_share, 1.0)
+    omega = np.concatenate([np.full(nf_, v_f), np.full(ra.size, v_a)])
     try:
-        cov = f * s2 * np.linalg.inv(J.T @ J)
+        a_inv = np.linalg.inv(J.T @ J)
+        cov = a_inv @ (J.T @ (J * omega[:, None])) @ a_inv
     except np.linalg.LinAlgError:
         cov = np.full((4, 4), np.inf)
     return NewtonFit(
