@@ -3,7 +3,9 @@
 Data files (``calc/data``): ``solution_enthalpies.csv`` (tabulated ΔsolH° at infinite
 dilution), ``certified.toml`` (SRM 1655 KCl, SRM 724a THAM), ``pitzer_enthalpy.csv``
 (Pitzer enthalpy parameters for φ_L), ``sources.toml`` (citations). Standard enthalpies
-of formation are in :mod:`calc.hess`.
+of formation are in :mod:`calc.species` (Hess's law in :mod:`calc.hess`), the aqueous
+products of a solute in :mod:`calc.solutes` and φ_L in :mod:`calc.dilution`; the names this
+module has always exported (``phi_L``, ``dissolution_products`` ...) stay importable from here.
 
 All enthalpies are in kJ/mol, heat-capacity changes in kJ/(mol K).
 """
@@ -11,23 +13,16 @@ All enthalpies are in kJ/mol, heat-capacity changes in kJ/(mol K).
 from __future__ import annotations
 
 import csv
-import math
 import tomllib
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
-from math import gcd
 
+from calc.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
 from calc.errors import InputError
-from calc.hess import (
-    FormationEntry,
-    citation,
-    formation_enthalpy,
-    formation_index,
-    formation_table,
-    hess,
-)
-from calc.properties import R_GAS, debye_huckel_slopes, element_composition, split_hydrate
+from calc.hess import citation, formation_enthalpy, hess
+from calc.properties import element_composition
+from calc.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
     "ReferenceValue",
@@ -49,7 +44,6 @@ __all__ = [
 T_REF_K = 298.15
 QUANTITY_INF = "enthalpy of solution at infinite dilution"
 
-STRONG_ACIDS = {"HCl": "Cl", "HBr": "Br", "HI": "I", "HNO3": "NO3", "H2SO4": "SO4", "HClO4": "ClO4"}
 STRONG_BASES = {"NaOH", "KOH", "LiOH", "Ca(OH)2", "Ba(OH)2", "Sr(OH)2"}
 WEAK_ACIDS = {"CH3COOH": "CH3COO"}
 WEAK_BASES = {"NH3": "NH4"}
@@ -82,71 +76,7 @@ def _same_formula(a: str, b: str) -> bool:
     return element_composition(a) == element_composition(b)
 
 
-def _strip_state(formula: str) -> tuple[str, str | None]:
-    text = formula.strip()
-    if text.endswith(")") and "(" in text:
-        head, _, tail = text.rpartition("(")
-        state = tail[:-1].lower()
-        if state in {"s", "cr", "l", "g", "aq"} and head:
-            return head, {"cr": "s"}.get(state, state)
-    return text, None
-
-
-# --------------------------------------------------------------- dissolution products
-
-
-def _ions() -> list[FormationEntry]:
-    return [e for e in formation_table() if e.species.state == "aq" and e.species.charge != 0]
-
-
-def dissolution_products(formula: str) -> list[tuple[int, FormationEntry]] | None:
-    """Return the aqueous products at infinite dilution of one formula unit, or None.
-
-    A formula whose undissociated aqueous species is in the table (NH3, CO2, CH3COOH)
-    gives that species; a salt, strong acid or strong base gives its ions (fully
-    dissociated); water of crystallisation gives H2O(l).
-    """
-    base, n_water = split_hydrate(_strip_state(formula)[0])
-    comp = dict(element_composition(base))
-    index = formation_index()
-    products: list[tuple[int, FormationEntry]] = []
-    neutral = index.get((element_composition(base), 0, "aq"))
-    if neutral is not None:
-        products.append((1, neutral))
-    else:
-        best: list[tuple[int, FormationEntry]] | None = None
-        ions = _ions()
-        for cat in (i for i in ions if i.species.charge > 0):
-            for an in (i for i in ions if i.species.charge < 0):
-                if cat.species.formula == "H" and an.species.formula not in STRONG_ACIDS.values():
-                    continue  # weak acids are not fully dissociated at infinite dilution
-                zc, za = cat.species.charge, -an.species.charge
-                g = gcd(zc, za)
-                nc, na = za // g, zc // g
-                total: dict[str, int] = {}
-                for n, ion in ((nc, cat), (na, an)):
-                    for el, k in ion.species.elements().items():
-                        total[el] = total.get(el, 0) + n * k
-                if total == comp and (best is None or nc + na > sum(n for n, _ in best)):
-                    best = [(nc, cat), (na, an)]
-        if best is None:
-            return None
-        products.extend(best)
-    if n_water:
-        products.append((n_water, index[(element_composition("H2O"), 0, "l")]))
-    return products
-
-
-def solute_formation_entry(formula: str) -> FormationEntry | None:
-    """Return the ΔfH° entry of a solute before dissolving (solid, else liquid, else gas)."""
-    base, state = _strip_state(formula)
-    text = base.replace("·", ".").replace("*", ".")
-    index = formation_index()
-    for st in [state] if state else ["s", "l", "g"]:
-        entry = index.get((element_composition(text), 0, st))
-        if entry is not None:
-            return entry
-    return None
+# ---------------------------------------------------------------- solution enthalpies
 
 
 def _equation_for(formula: str) -> str | None:
@@ -165,7 +95,7 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
         return None
     r = hess(equation)
     return ReferenceValue(
-        name=f"{_strip_state(formula)[0]} dissolution, infinite dilution (NBS 1982, Hess)",
+        name=f"{strip_state(formula)[0]} dissolution, infinite dilution (NBS 1982, Hess)",
         quantity=QUANTITY_INF,
         value=r.value,
         u=r.u,
@@ -175,7 +105,7 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
         source=citation("NBS1982_HESS"),
         delta_cp=r.delta_cp,
         delta_cp_u=r.delta_cp_u,
-        formula=_strip_state(formula)[0],
+        formula=strip_state(formula)[0],
         note=f"{r.equation}; " + "; ".join(r.notes),
     )
 
@@ -232,7 +162,7 @@ def solution_enthalpy(formula: str) -> ReferenceValue | None:
     formula:
         E.g. ``"KCl"``, ``"CuSO4.5H2O"``, ``"HCl(g)"``.
     """
-    base, state = _strip_state(formula)
+    base, state = strip_state(formula)
     try:
         comp = element_composition(base)
     except InputError:
@@ -297,7 +227,7 @@ def certified_references() -> list[ReferenceValue]:
 
 def _acid_species(acid: str) -> tuple[str, str] | None:
     """Return (species consumed, conjugate species formed) for an acid, or None."""
-    base = _strip_state(acid)[0]
+    base = strip_state(acid)[0]
     for formula in STRONG_ACIDS:
         if _same_formula(base, formula):
             return "H+(aq)", ""
@@ -308,7 +238,7 @@ def _acid_species(acid: str) -> tuple[str, str] | None:
 
 
 def _base_species(base_formula: str) -> tuple[str, str] | None:
-    base = _strip_state(base_formula)[0]
+    base = strip_state(base_formula)[0]
     base = _BASE_ALIASES.get(base, base)
     for formula in STRONG_BASES:
         if _same_formula(base, formula):
@@ -348,13 +278,13 @@ def neutralization_reference(acid: str, base: str) -> ReferenceValue | None:
         dcp_note = "ΔrCp = +215.2 ± 4.5 J/(mol K) (Singh et al. 1976, ionization of water reversed)"
         source += "; ΔrCp: " + citation("SINGH1976")
     notes = [r.equation, dcp_note] + r.notes
-    if _same_formula(_strip_state(acid)[0], "H2SO4"):
+    if _same_formula(strip_state(acid)[0], "H2SO4"):
         notes.append(
             "H2SO4: at finite concentration much of the acid is HSO4-(aq); its ionization "
             "(ΔrH° = -21.93 kJ/mol by the NBS 1982 table) makes measured values differ"
         )
     return ReferenceValue(
-        name=f"neutralization {_strip_state(acid)[0]} + {_strip_state(base)[0]}, infinite dilution",
+        name=f"neutralization {strip_state(acid)[0]} + {strip_state(base)[0]}, infinite dilution",
         quantity=f"enthalpy of neutralization at infinite dilution, {per}",
         value=r.value,
         u=r.u,
@@ -458,101 +388,6 @@ def _safe_same(a: str, b: str) -> bool:
     if a.strip().upper() in {"THAM", "TRIS"}:
         a = "C4H11NO3"
     try:
-        return _same_formula(_strip_state(a)[0], b)
+        return _same_formula(strip_state(a)[0], b)
     except InputError:
         return False
-
-
-# --------------------------------------------------------------------------- φ_L
-
-
-@dataclass(frozen=True)
-class PhiL:
-    """Relative apparent molar enthalpy φ_L (kJ/mol) with its model and source."""
-
-    value: float
-    u: float
-    model: str
-    source: str
-
-
-@lru_cache(maxsize=1)
-def _pitzer_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc") / "data" / "pitzer_enthalpy.csv"
-    with path.open(encoding="utf-8", newline="") as fh:
-        return tuple(csv.DictReader(fh))
-
-
-_B = 1.2  # kg^1/2 mol^-1/2, Pitzer
-_BL_MAX = 1.5e-3  # kg/(mol K): bound on |B^L| of 1:1 salts, for the DH fallback's u
-
-
-def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
-    """Return φ_L of a strong electrolyte at a molality, or None when no model applies.
-
-    Pitzer's equation with the tabulated enthalpy parameters (NaCl, KCl, HCl; 0 to 50
-    degC; u = 3 % of φ_L plus up to 0.02 kJ/mol, and 2 % of φ_L per K away from
-    25 degC, cupcal's estimates); else, for a 1:1 electrolyte
-    at m <= 0.1 mol/kg, the Debye–Hückel term alone with u = 2RT² m·1.5e-3 kg/(mol K)
-    (the neglected short-range term for |B^L| up to 1.5e-3).
-    """
-    try:
-        m = float(molality)
-    except (TypeError, ValueError):
-        raise InputError(f"molality must be a number in mol/kg, got {molality!r}") from None
-    if m < 0 or math.isnan(m):
-        raise InputError(f"molality must not be negative, got {molality!r}")
-    T = float(T_K)
-    if not (273.15 <= T <= 323.15):
-        return None
-    base = _strip_state(formula)[0]
-    try:
-        comp = element_composition(base)
-    except InputError:
-        return None
-    if m == 0.0:
-        return PhiL(0.0, 0.0, "infinite dilution", "definition")
-    _, A_H = debye_huckel_slopes(T)
-    for row in _pitzer_rows():
-        if element_composition(row["formula"]) != comp or m > float(row["m_max"]):
-            continue
-        nup, num = int(row["nu_plus"]), int(row["nu_minus"])
-        zp, zm = int(row["z_plus"]), int(row["z_minus"])
-        nu = nup + num
-        I = 0.5 * m * (nup * zp * zp + num * zm * zm)
-        sI = math.sqrt(I)
-        alpha = float(row["alpha"])
-        b0, b1, cphi = float(row["beta0_L"]), float(row["beta1_L"]), float(row["Cphi_L"])
-        x = alpha * sI
-        BL = b0 + 2.0 * b1 / (alpha * alpha * I) * (1.0 - (1.0 + x) * math.exp(-x))
-        CL = cphi / (2.0 * math.sqrt(abs(zp * zm)))
-        long_range = nu * abs(zp * zm) * A_H / (2.0 * _B) * math.log(1.0 + _B * sI)
-        short = -2.0 * nup * num * R_GAS * T * T * (m * BL + m * m * nup * zp * CL)
-        value = (long_range + short) / 1000.0
-        # cupcal's estimate: 3 % of φ_L plus up to 0.02 kJ/mol for the fit's scatter
-        # (reached at 0.1 mol/kg), plus 2 % of φ_L per K away from 25 degC.
-        u = math.hypot(0.03 * value, 0.02 * min(1.0, m / 0.1))
-        u = math.hypot(u, 0.02 * abs(value) * abs(T - T_REF_K))
-        return PhiL(value, u, "Pitzer", citation(row["source"]))
-    products = dissolution_products(base)
-    if products is None or len(products) != 2 or m > 0.1:
-        return None
-    (n1, e1), (n2, e2) = products
-    if {n1, n2} != {1} or {abs(e1.species.charge), abs(e2.species.charge)} != {1}:
-        return None
-    value = A_H / _B * math.log(1.0 + _B * math.sqrt(m)) / 1000.0
-    u = 2.0 * R_GAS * T * T * m * _BL_MAX / 1000.0
-    return PhiL(value, u, "Debye–Hückel (long-range term only)", citation("DH_LIMIT"))
-
-
-def relative_apparent_molar_enthalpy(
-    formula: str, molality: float, T_K: float = T_REF_K
-) -> tuple[float, float] | None:
-    """Return (φ_L, u) in kJ/mol at a molality, or None when no published model applies.
-
-    ΔsolH(m) = ΔsolH° + φ_L(m); see :func:`phi_L` for the models and their uncertainty.
-    """
-    result = phi_L(formula, molality, T_K)
-    if result is None:
-        return None
-    return result.value, result.u
