@@ -40,7 +40,13 @@ class _Group(click.Group):
         if cmd is not None:
             return cmd
         ep = self._plugins().get(name)
-        return ep.load() if ep is not None else None
+        if ep is None:
+            return None
+        try:
+            return ep.load()
+        except ImportError as exc:  # a plugin whose package is missing or broken
+            click.echo(f"cupcal: the '{name}' command is unavailable ({exc})", err=True)
+            return None
 
     def invoke(self, ctx: click.Context) -> Any:
         try:
