@@ -14,8 +14,9 @@ $(STAMP): $(BIN)/python pyproject.toml
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $(STAMP)
 
+# the notebook: migrations, the demo lab if the database is empty, http://127.0.0.1:5000
 run: $(STAMP)
-	$(BIN)/cupcal analyze fixtures/demo/*.toml
+	$(BIN)/cupcal serve
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -n 2 -q

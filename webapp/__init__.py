@@ -1,1 +1,88 @@
-"""cupcal web notebook (Flask). Placeholder until the notebook issue: nothing here is used yet."""
+"""cupcal's web notebook: runs, results and calorimeters in a database, pages and a JSON API.
+
+:func:`create_app` is the only entry point; nothing (app, engine, session) exists at
+module level.
+"""
+
+from __future__ import annotations
+
+import os
+import secrets
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+from flask import Flask
+
+#: every setting with its default; the instance ``config.py``, then the environment
+#: (``DATABASE_URL``, ``CUPCAL_SECRET_KEY``), then the mapping given to create_app override them
+DEFAULTS: dict[str, Any] = {
+    "SECRET_KEY": None,  # None: read or create ``secret_key`` in the instance folder
+    "DATABASE_URL": None,  # None: SQLite file ``cupcal.sqlite3`` in the instance folder
+    "SQLITE_BUSY_TIMEOUT_MS": 5000,
+    "MAX_CONTENT_LENGTH": 4 * 1024 * 1024,  # uploads: run file + readings, bytes
+    "CALIBRATION_DUE_DAYS": 30,  # a calorimeter is due when its last calibration is older
+    "MONTE_CARLO_TRIALS": 100_000,  # JCGM 101 check made with every analysis (0: none)
+    "PASSWORD_METHOD": "scrypt",  # werkzeug.security method for new passwords
+    "API_PAGE_SIZE": 50,
+    "API_MAX_PAGE_SIZE": 500,
+    "PAGE_SIZE": 50,
+    "SESSION_COOKIE_HTTPONLY": True,
+    "SESSION_COOKIE_SAMESITE": "Lax",
+}
+
+
+def create_app(config: Mapping[str, Any] | None = None) -> Flask:
+    """Create and configure an instance of the notebook.
+
+    :param config: settings that override all others (tests pass ``DATABASE_URL`` here)
+    """
+    app = Flask(__name__, instance_relative_config=True)
+    app.config.from_mapping(DEFAULTS)
+    app.config.from_pyfile("config.py", silent=True)
+    if os.environ.get("DATABASE_URL"):
+        app.config["DATABASE_URL"] = os.environ["DATABASE_URL"]
+    if os.environ.get("CUPCAL_SECRET_KEY"):
+        app.config["SECRET_KEY"] = os.environ["CUPCAL_SECRET_KEY"]
+    if config is not None:
+        app.config.from_mapping(config)
+    if not app.config["DATABASE_URL"]:
+        Path(app.instance_path).mkdir(parents=True, exist_ok=True)
+        app.config["DATABASE_URL"] = "sqlite:///" + os.path.join(app.instance_path, "cupcal.sqlite3")
+    if not app.config["SECRET_KEY"]:
+        app.config["SECRET_KEY"] = _instance_secret(app)
+
+    from webapp import auth
+    from webapp import db
+    from webapp import errors
+    from webapp import templating
+    from webapp.api import bp as api_bp
+    from webapp.calorimeters import bp as calorimeters_bp
+    from webapp.main import bp as main_bp
+    from webapp.runs import bp as runs_bp
+
+    db.init_app(app)
+    auth.init_app(app)
+    templating.init_app(app)
+    errors.init_app(app)
+    app.register_blueprint(auth.bp)
+    app.register_blueprint(main_bp)
+    app.register_blueprint(runs_bp)
+    app.register_blueprint(calorimeters_bp)
+    app.register_blueprint(api_bp)
+    auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
+    return app
+
+
+def _instance_secret(app: Flask) -> str:
+    """Return the instance's secret key, creating it (mode 600) on first use."""
+    folder = Path(app.instance_path)
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / "secret_key"
+    if path.exists():
+        return path.read_text(encoding="ascii").strip()
+    key = secrets.token_hex(32)
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    with os.fdopen(fd, "w", encoding="ascii") as fh:
+        fh.write(key)
+    return key

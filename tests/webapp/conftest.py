@@ -1,0 +1,239 @@
+"""Fixtures of the notebook tests: every test that uses ``app`` runs on SQLite and on PostgreSQL.
+
+The schema is built through the migrations (``alembic upgrade head``), never ``create_all``:
+once per test process on a SQLite template file (copied per test) and once on a database
+of a throwaway PostgreSQL server (emptied after each test). Without the server binaries
+the PostgreSQL half is skipped with a message saying what to install, unless
+``CUPCAL_REQUIRE_POSTGRES=1`` (CI), when it fails.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import pytest
+import sqlalchemy as sa
+
+from tests.webapp.postgres import PostgresServer
+from tests.webapp.postgres import PostgresUnavailable
+from tests.webapp.postgres import start_server
+from webapp import create_app
+from webapp.db import get_engine
+from webapp.db import new_session
+from webapp.migrate import upgrade
+from webapp.models import Base
+
+DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
+#: a cheap scrypt cost for test accounts (the default cost is checked in test_auth)
+FAST_HASH = "scrypt:1024:8:1"
+PASSWORD = "correct horse battery"
+
+
+# ---------------------------------------------------------------- databases
+
+
+@pytest.fixture(scope="session")
+def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """Return a SQLite file migrated to the newest revision."""
+    path = tmp_path_factory.mktemp("template") / "template.sqlite3"
+    upgrade(f"sqlite:///{path}")
+    return path
+
+
+def start_or_skip() -> PostgresServer:
+    """Start a server; skip when impossible, or fail when ``CUPCAL_REQUIRE_POSTGRES=1``."""
+    try:
+        return start_server()
+    except PostgresUnavailable as exc:
+        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
+            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {exc}")
+        pytest.skip(str(exc))
+
+
+@pytest.fixture(scope="session")
+def pg_server() -> Iterator[PostgresServer]:
+    """Start a throwaway PostgreSQL server for this test process."""
+    server = start_or_skip()
+    try:
+        yield server
+    finally:
+        server.stop()
+
+
+def create_database(server: PostgresServer, name: str) -> str:
+    """Create an empty database on ``server`` and return its URL."""
+    admin = sa.create_engine(server.url("postgres"), isolation_level="AUTOCOMMIT")
+    try:
+        with admin.connect() as conn:
+            conn.exec_driver_sql(f'DROP DATABASE IF EXISTS "{name}"')
+            conn.exec_driver_sql(f'CREATE DATABASE "{name}"')
+    finally:
+        admin.dispose()
+    return server.url(name)
+
+
+@pytest.fixture(scope="session")
+def pg_database(pg_server: PostgresServer) -> str:
+    """Return the URL of a migrated PostgreSQL database for this test process."""
+    url = create_database(pg_server, "cupcal_test")
+    upgrade(url)
+    return url
+
+
+def _empty_postgres(url: str) -> None:
+    engine = sa.create_engine(url)
+    try:
+        names = ", ".join(f'"{t.name}"' for t in Base.metadata.sorted_tables)
+        with engine.begin() as conn:
+            conn.exec_driver_sql(f"TRUNCATE {names} RESTART IDENTITY CASCADE")
+    finally:
+        engine.dispose()
+
+
+@pytest.fixture(params=["sqlite", "postgresql"])
+def database_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
+    """Yield the URL of an empty, migrated database: SQLite, then PostgreSQL."""
+    if request.param == "sqlite":
+        path = tmp_path / "cupcal.sqlite3"
+        shutil.copyfile(request.getfixturevalue("sqlite_template"), path)
+        yield f"sqlite:///{path}"
+    else:
+        url = request.getfixturevalue("pg_database")
+        try:
+            yield url
+        finally:
+            _empty_postgres(url)
+
+
+# ---------------------------------------------------------------- app
+
+
+@pytest.fixture
+def app(database_url: str, tmp_path: Path) -> Iterator[Any]:
+    """Return a notebook app on an empty migrated database."""
+    app = create_app({
+        "TESTING": True,
+        "DATABASE_URL": database_url,
+        "SECRET_KEY": "test secret",
+        "PASSWORD_METHOD": FAST_HASH,
+        "MONTE_CARLO_TRIALS": 2000,
+        "MAX_CONTENT_LENGTH": 256 * 1024,
+    })
+    app.instance_path = str(tmp_path / "instance")
+    yield app
+    get_engine(app).dispose()
+
+
+@pytest.fixture
+def client(app: Any) -> Any:
+    """Return a test client."""
+    return app.test_client()
+
+
+@pytest.fixture
+def session(app: Any) -> Iterator[Any]:
+    """Return a session of the app's database (closed after the test)."""
+    s = new_session(app)
+    try:
+        yield s
+    finally:
+        s.close()
+
+
+# ---------------------------------------------------------------- people
+
+
+@dataclass
+class Lab:
+    """The people of the test lab: ids and API tokens (secrets)."""
+
+    ids: dict[str, int]
+    tokens: dict[str, str]
+    groups: dict[str, int]
+    calorimeter_id: int
+    spare_calorimeter_id: int
+
+    def auth(self, who: str) -> dict[str, str]:
+        """Return the Authorization header of ``who``."""
+        return {"Authorization": f"Bearer {self.tokens[who]}"}
+
+
+@pytest.fixture
+def lab(app: Any, session: Any) -> Lab:
+    """Create a coordinator, a technician, students in two groups, and two calorimeters.
+
+    ``cup`` has no heat capacity yet; ``spare`` has one entered by hand.
+    """
+    from webapp.services.calorimeters import create_calorimeter
+    from webapp.services.people import create_group
+    from webapp.services.people import create_person
+    from webapp.services.people import issue_token
+
+    coord = create_person(session, email="coord@lab.example", name="Coordinator C", role="coordinator",
+                          password=PASSWORD, password_method=FAST_HASH)
+    ga = create_group(session, coord, name="Group A")
+    gb = create_group(session, coord, name="Group B")
+    people = {
+        "coord": coord,
+        "tech": create_person(session, email="tech@lab.example", name="Technician T", role="technician",
+                              password=PASSWORD, password_method=FAST_HASH),
+        "a1": create_person(session, email="a1@lab.example", name="Student A1", role="student",
+                            password=PASSWORD, group=ga, password_method=FAST_HASH),
+        "a2": create_person(session, email="a2@lab.example", name="Student A2", role="student",
+                            password=PASSWORD, group=ga, password_method=FAST_HASH),
+        "b1": create_person(session, email="b1@lab.example", name="Student B1", role="student",
+                            password=PASSWORD, group=gb, password_method=FAST_HASH),
+    }
+    tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
+    cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
+    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K")
+    return Lab({k: p.id for k, p in people.items()}, tokens, {"A": ga.id, "B": gb.id}, cup.id, spare.id)
+
+
+# ---------------------------------------------------------------- uploads
+
+
+def demo_files(name: str) -> tuple[str, bytes]:
+    """Return a demo run's file text and readings bytes."""
+    return (DEMO / f"{name}.toml").read_text(encoding="utf-8"), (DEMO / f"{name}.csv").read_bytes()
+
+
+def without_heat_capacity(toml: str) -> str:
+    """Return a run file with its ``[calorimeter] heat_capacity`` line removed."""
+    out = re.sub(r"(?m)^heat_capacity = .*\n", "", toml)
+    assert out != toml
+    return out
+
+
+def upload(client: Any, headers: dict[str, str], name: str, *, toml: str | None = None,
+           csv: bytes | None = None, **fields: Any) -> Any:
+    """POST a demo run (or the given texts) to /api/runs as multipart and return the response."""
+    import io
+
+    t, c = demo_files(name)
+    data: dict[str, Any] = {
+        "run_file": (io.BytesIO((toml if toml is not None else t).encode("utf-8")), f"{name}.toml"),
+        "readings": (io.BytesIO(csv if csv is not None else c), f"{name}.csv"),
+        **{k: str(v) for k, v in fields.items()},
+    }
+    return client.post("/api/runs", data=data, headers=headers, content_type="multipart/form-data")
+
+
+def csrf_token(html: str) -> str:
+    """Return the CSRF token of the first form in a page."""
+    m = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', html)
+    assert m, "the page has no CSRF token"
+    return m.group(1)
+
+
+def sign_in(client: Any, email: str, password: str = PASSWORD) -> Any:
+    """Sign in through the form (with its CSRF token) and return the response."""
+    page = client.get("/auth/login")
+    return client.post("/auth/login", data={"email": email, "password": password,
+                                            "csrf_token": csrf_token(page.get_data(as_text=True))})

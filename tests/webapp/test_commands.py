@@ -1,0 +1,82 @@
+"""The cupcal commands of the notebook: db upgrade/current/downgrade, load-demo, serve."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import pytest
+import sqlalchemy as sa
+from click.testing import CliRunner
+
+from calc.cli import cli
+
+
+@pytest.fixture
+def env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> str:
+    url = f"sqlite:///{tmp_path / 'cmd.sqlite3'}"
+    monkeypatch.setenv("DATABASE_URL", url)
+    monkeypatch.setenv("CUPCAL_SECRET_KEY", "cmd")
+    return url
+
+
+def _rows(url: str, sql: str) -> list[Any]:
+    engine = sa.create_engine(url)
+    try:
+        with engine.connect() as conn:
+            return list(conn.exec_driver_sql(sql))
+    finally:
+        engine.dispose()
+
+
+def test_commands_are_plugged_into_cupcal() -> None:
+    out = CliRunner().invoke(cli, ["--help"]).output
+    assert "db " in out and "serve" in out and "load-demo" in out
+
+
+def test_db_upgrade_current_downgrade(env: str) -> None:
+    runner = CliRunner()
+    r = runner.invoke(cli, ["db", "upgrade"])
+    assert r.exit_code == 0, r.output
+    r = runner.invoke(cli, ["db", "current"])
+    assert "0001" in r.output
+    r = runner.invoke(cli, ["db", "downgrade", "base"])
+    assert r.exit_code == 0 and _rows(env, "select name from sqlite_master where name='runs'") == []
+
+
+def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr("webapp.DEFAULTS", {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1",
+                                            "MONTE_CARLO_TRIALS": 1000})
+    runner = CliRunner()
+    assert runner.invoke(cli, ["db", "upgrade"]).exit_code == 0
+    r = runner.invoke(cli, ["load-demo"])
+    assert r.exit_code == 0, r.output
+    assert "odile.brackwater@ternhollow.example" in r.output and "tern-hollow-demo" in r.output
+    demo = sorted(p.stem for p in (Path(__file__).resolve().parents[2] / "fixtures" / "demo").glob("*.toml"))
+    stored = sorted(Path(name).stem for (name,) in _rows(env, "select run_file_name from runs"))
+    assert stored == demo
+    assert _rows(env, "select count(*) from results")[0][0] == len(demo)
+    # both calibrations went into the cup's history, after the spare cup's hand-entered value
+    notes = [n for (n,) in _rows(env, "select note from calibrations order by id")]
+    assert any(n.startswith("electrical-calibration run") for n in notes)
+    assert any(n.startswith("mixing-calibration run") for n in notes)
+    # the students own their runs and their groups see them
+    owners = _rows(env, "select p.name from runs r join people p on p.id = r.author_id where r.kind='dissolution'")
+    assert {o for (o,) in owners} == {"Tomas Vesterby-Quail"}
+    r = runner.invoke(cli, ["load-demo"])
+    assert r.exit_code != 0 and "not empty" in r.output
+
+
+def test_serve_migrates_loads_the_demo_and_prints_sign_ins(env: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr("webapp.DEFAULTS", {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1",
+                                            "MONTE_CARLO_TRIALS": 0})
+    called = {}
+    monkeypatch.setattr("flask.Flask.run", lambda self, **kw: called.update(kw))
+    r = CliRunner().invoke(cli, ["serve"])
+    assert r.exit_code == 0, r.output
+    assert "http://127.0.0.1:5000" in r.output and "kasper.lindqvist-mayo@ternhollow.example" in r.output
+    assert called["host"] == "127.0.0.1" and called["port"] == 5000
+    n_demo = len(list((Path(__file__).resolve().parents[2] / "fixtures" / "demo").glob("*.toml")))
+    assert _rows(env, "select count(*) from runs")[0][0] == n_demo
+    r = CliRunner().invoke(cli, ["serve"])  # second start: nothing loaded twice
+    assert r.exit_code == 0 and _rows(env, "select count(*) from runs")[0][0] == n_demo

@@ -1,0 +1,55 @@
+"""The JSON API under ``/api/``: runs, results, calorimeters, groups and courses.
+
+Writes take API tokens only (``Authorization: Bearer <token>``), so the API needs no
+CSRF token; reads also accept a signed-in browser session. Every error is
+``{"error": "...", "field": "..."}`` with a 4xx status. The OpenAPI 3 document is
+at ``/api/openapi.json``.
+"""
+
+from __future__ import annotations
+
+from flask import Blueprint
+from flask import g
+from flask import request
+from flask_login import current_user
+
+from webapp.db import get_session
+from webapp.errors import json_error
+from webapp.services.people import person_for_token
+
+bp = Blueprint("api", __name__, url_prefix="/api")
+
+_PUBLIC = {"api.openapi"}
+_SAFE = {"GET", "HEAD", "OPTIONS"}
+
+
+@bp.before_request
+def _authenticate():  # type: ignore[no-untyped-def]
+    """Find who is calling: a bearer token, or (for reads) the browser session."""
+    if request.endpoint in _PUBLIC:
+        return None
+    header = request.headers.get("Authorization", "")
+    if header:
+        scheme, _, secret = header.partition(" ")
+        if scheme.lower() != "bearer" or not secret.strip():
+            return _challenge("expected the header Authorization: Bearer <token>")
+        person = person_for_token(get_session(), secret.strip())
+        if person is None:
+            return _challenge("the API token is unknown or revoked")
+        g.api_person = person
+        return None
+    if request.method in _SAFE and current_user.is_authenticated:
+        g.api_person = current_user._get_current_object()
+        return None
+    return _challenge("send an API token: Authorization: Bearer <token> (create one on the API tokens page)")
+
+
+def _challenge(message: str):  # type: ignore[no-untyped-def]
+    response, status = json_error(401, message)
+    response.headers["WWW-Authenticate"] = "Bearer"
+    return response, status
+
+
+from webapp.api import calorimeters  # noqa: E402,F401  (registers the routes)
+from webapp.api import openapi  # noqa: E402,F401
+from webapp.api import runs  # noqa: E402,F401

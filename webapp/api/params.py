@@ -1,0 +1,118 @@
+"""Reading request parameters; every problem is an Invalid naming the field."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from flask import current_app
+from flask import g
+from flask import request
+
+from webapp.models import Person
+from webapp.services.analysis import AnalysisOptions
+from webapp.services.errors import Invalid
+
+
+def actor() -> Person:
+    """Return the person calling the API."""
+    return g.api_person
+
+
+def json_object() -> dict[str, Any]:
+    """Return the JSON object of the request body."""
+    data = request.get_json(silent=True)
+    if not isinstance(data, dict):
+        raise Invalid("expected a JSON object in the request body (Content-Type: application/json)", field="body")
+    return data
+
+
+def body() -> dict[str, Any]:
+    """Return the parameters of a JSON body or a form (multipart or urlencoded)."""
+    if request.is_json:
+        return json_object()
+    return {k: v for k, v in request.form.items()}
+
+
+def as_int(value: Any, field: str, *, low: int | None = None, high: int | None = None) -> int | None:
+    """Return ``value`` as an int (None stays None; text is parsed)."""
+    if value is None or value == "":
+        return None
+    if isinstance(value, bool):
+        raise Invalid("expected a whole number", field=field)
+    if isinstance(value, str):
+        try:
+            value = int(value.strip())
+        except ValueError:
+            raise Invalid(f"expected a whole number, got {value!r}", field=field) from None
+    if isinstance(value, float) and value.is_integer():
+        value = int(value)
+    if not isinstance(value, int):
+        raise Invalid("expected a whole number", field=field)
+    if (low is not None and value < low) or (high is not None and value > high):
+        raise Invalid(f"expected a number from {low} to {high}, got {value}", field=field)
+    return value
+
+
+def as_float(value: Any, field: str) -> float | None:
+    """Return ``value`` as a finite float (None stays None)."""
+    if value is None or value == "":
+        return None
+    if isinstance(value, bool):
+        raise Invalid("expected a number", field=field)
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise Invalid(f"expected a number, got {value!r}", field=field) from None
+    if not math.isfinite(v):
+        raise Invalid("expected a finite number", field=field)
+    return v
+
+
+def as_text(value: Any, field: str, *, required: bool = False) -> str | None:
+    """Return ``value`` as text."""
+    if value is None:
+        if required:
+            raise Invalid("missing", field=field)
+        return None
+    if not isinstance(value, str):
+        raise Invalid("expected text", field=field)
+    if required and not value.strip():
+        raise Invalid("must not be empty", field=field)
+    return value
+
+
+def period(data: dict[str, Any], which: str) -> tuple[float, float] | None:
+    """Return a period given as ``[a, b]`` or as ``<which>_start``/``<which>_end`` (seconds)."""
+    value = data.get(which)
+    if value is not None:
+        if not isinstance(value, (list, tuple)) or len(value) != 2:
+            raise Invalid("expected two times in seconds, like [0, 170]", field=which)
+        a, b = as_float(value[0], which), as_float(value[1], which)
+    else:
+        a, b = as_float(data.get(f"{which}_start"), f"{which}_start"), as_float(data.get(f"{which}_end"), f"{which}_end")
+        if a is None and b is None:
+            return None
+    if a is None or b is None:
+        raise Invalid("give both ends of the period, in seconds", field=which)
+    return (a, b)
+
+
+def analysis_options(data: dict[str, Any]) -> AnalysisOptions:
+    """Return the analysis options of a request (method, fore, after, monte_carlo, seed)."""
+    trials = as_int(data.get("monte_carlo"), "monte_carlo", low=0, high=200_000)
+    return AnalysisOptions(
+        method=as_text(data.get("method"), "method") or None,
+        fore=period(data, "fore"),
+        after=period(data, "after"),
+        monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]) if trials is None else trials,
+        seed=as_int(data.get("seed"), "seed", low=0, high=2**32 - 1),
+    ).checked()
+
+
+def page_args() -> tuple[int, int]:
+    """Return (page, per_page) from the query string."""
+    page = as_int(request.args.get("page"), "page", low=1, high=10**9) or 1
+    limit = int(current_app.config["API_MAX_PAGE_SIZE"])
+    per_page = as_int(request.args.get("per_page"), "per_page", low=1, high=limit)
+    return page, per_page or int(current_app.config["API_PAGE_SIZE"])

@@ -1,0 +1,194 @@
+"""API: runs and results."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from calc.deltat import DEFAULT_METHOD
+from calc.deltat import METHODS
+from flask import Response
+from flask import jsonify
+from flask import request
+from flask import url_for
+
+from webapp.api import bp
+from webapp.api.params import actor
+from webapp.api.params import analysis_options
+from webapp.api.params import as_int
+from webapp.api.params import as_text
+from webapp.api.params import body
+from webapp.api.params import json_object
+from webapp.api.params import page_args
+from webapp.api.schemas import page_json
+from webapp.api.schemas import person_json
+from webapp.api.schemas import result_json
+from webapp.api.schemas import result_summary
+from webapp.api.schemas import run_json
+from webapp.api.schemas import run_summary
+from webapp.db import get_session
+from webapp.quantities import series
+from webapp.services.audit import audit_trail
+from webapp.services.audit import entry_as_dict
+from webapp.services.errors import Invalid
+from webapp.services.runs import RunUpload
+from webapp.services.runs import get_result
+from webapp.services.runs import get_run
+from webapp.services.runs import lock_run
+from webapp.services.runs import paginate
+from webapp.services.runs import reanalyse_run
+from webapp.services.runs import record_run
+from webapp.services.runs import results_query
+from webapp.services.runs import runs_query
+from webapp.services.runs import update_run
+
+
+@bp.get("/me")
+def me():  # type: ignore[no-untyped-def]
+    """Return who is calling."""
+    return jsonify(person_json(actor()))
+
+
+@bp.get("/methods")
+def methods():  # type: ignore[no-untyped-def]
+    """Return the corrected-ΔT methods."""
+    items = [{"name": name, "description": (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "",
+              "default": name == DEFAULT_METHOD} for name, fn in sorted(METHODS.items())]
+    return jsonify({"items": items})
+
+
+@bp.get("/runs")
+def list_runs():  # type: ignore[no-untyped-def]
+    """List the runs the caller may see, newest first."""
+    page, per_page = page_args()
+    query = runs_query(
+        actor(),
+        kind=as_text(request.args.get("kind"), "kind") or None,
+        calorimeter_id=as_int(request.args.get("calorimeter_id"), "calorimeter_id"),
+        group_id=as_int(request.args.get("group_id"), "group_id"),
+    )
+    result = paginate(get_session(), query, page, per_page)
+    return jsonify(page_json(result, [run_summary(run, res) for run, res in result.items]))
+
+
+def _upload_from_request() -> RunUpload:
+    data = body()
+    if request.is_json:
+        run_toml = as_text(data.get("run_toml"), "run_toml", required=True)
+        readings_text = as_text(data.get("readings_csv"), "readings_csv", required=True)
+        run_name = as_text(data.get("run_file_name"), "run_file_name") or "run.toml"
+        readings_name = as_text(data.get("readings_name"), "readings_name") or "readings.csv"
+        readings = (readings_text or "").encode("utf-8")
+    else:
+        run_file = request.files.get("run_file")
+        readings_file = request.files.get("readings")
+        if run_file is None:
+            raise Invalid("missing: upload the run file (TOML) as the form field 'run_file'", field="run_file")
+        if readings_file is None:
+            raise Invalid("missing: upload the readings (CSV) as the form field 'readings'", field="readings")
+        run_name = run_file.filename or "run.toml"
+        readings_name = readings_file.filename or "readings.csv"
+        try:
+            run_toml = run_file.read().decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise Invalid(f"{run_name}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
+                          field="run_file") from None
+        readings = readings_file.read()
+    if not run_toml or not run_toml.strip():
+        raise Invalid("the run file is empty", field="run_file")
+    if not readings.strip():
+        raise Invalid("the readings file is empty", field="readings")
+    return RunUpload(
+        run_toml=run_toml,
+        run_file_name=run_name,
+        readings=readings,
+        readings_name=readings_name,
+        calorimeter_id=as_int(data.get("calorimeter_id"), "calorimeter_id"),
+        group_id=as_int(data.get("group_id"), "group_id"),
+        options=analysis_options(data),
+    )
+
+
+@bp.post("/runs")
+def create_run():  # type: ignore[no-untyped-def]
+    """Record a run from its run file and readings, analyse it, and return it."""
+    session = get_session()
+    run = record_run(session, actor(), _upload_from_request())
+    response = jsonify(run_json(run))
+    response.status_code = 201
+    response.headers["Location"] = url_for("api.get_run", run_id=run.id)
+    return response
+
+
+@bp.get("/runs/<int:run_id>", endpoint="get_run")
+def get_run_route(run_id: int):  # type: ignore[no-untyped-def]
+    """Return a run with its inputs and results."""
+    return jsonify(run_json(get_run(get_session(), actor(), run_id)))
+
+
+@bp.patch("/runs/<int:run_id>")
+def patch_run(run_id: int):  # type: ignore[no-untyped-def]
+    """Change a run's details (audited); a locked run refuses."""
+    session = get_session()
+    run = get_run(session, actor(), run_id)
+    return jsonify(run_json(update_run(session, actor(), run, json_object())))
+
+
+@bp.post("/runs/<int:run_id>/analyses")
+def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
+    """Analyse a run again with another method or periods; the old result is kept."""
+    session = get_session()
+    run = get_run(session, actor(), run_id)
+    data: dict[str, Any] = json_object() if request.data else {}
+    result = reanalyse_run(session, actor(), run, analysis_options(data))
+    response = jsonify(result_json(get_result(session, actor(), result.id)))
+    response.status_code = 201
+    response.headers["Location"] = url_for("api.get_result", result_id=result.id)
+    return response
+
+
+@bp.get("/runs/<int:run_id>/results")
+def list_results(run_id: int):  # type: ignore[no-untyped-def]
+    """List a run's results, oldest first."""
+    session = get_session()
+    run = get_run(session, actor(), run_id)
+    return jsonify({"items": [result_summary(r) for r in session.scalars(results_query(run.id))]})
+
+
+@bp.post("/runs/<int:run_id>/lock")
+def lock(run_id: int):  # type: ignore[no-untyped-def]
+    """Sign a run (its author or a coordinator); it is immutable afterwards."""
+    session = get_session()
+    run = get_run(session, actor(), run_id)
+    return jsonify(run_json(lock_run(session, actor(), run)))
+
+
+@bp.get("/runs/<int:run_id>/audit")
+def run_audit(run_id: int):  # type: ignore[no-untyped-def]
+    """List the changes made to a run."""
+    session = get_session()
+    run = get_run(session, actor(), run_id)
+    return jsonify({"items": [entry_as_dict(e) for e in session.scalars(audit_trail("run", run.id))]})
+
+
+@bp.get("/runs/<int:run_id>/series")
+def run_series(run_id: int):  # type: ignore[no-untyped-def]
+    """Return the parsed readings: times (s) and temperatures (K)."""
+    t, y = series(get_run(get_session(), actor(), run_id))
+    return jsonify({"time_s": t.tolist(), "temperature_K": y.tolist()})
+
+
+@bp.get("/runs/<int:run_id>/files/<string:which>")
+def run_file(run_id: int, which: str):  # type: ignore[no-untyped-def]
+    """Return the run file or the readings exactly as uploaded."""
+    run = get_run(get_session(), actor(), run_id)
+    if which == "run-file":
+        return Response(run.run_toml, mimetype="application/toml")
+    if which == "readings":
+        return Response(run.readings_raw, mimetype="text/csv")
+    raise Invalid("expected 'run-file' or 'readings'", field="which")
+
+
+@bp.get("/results/<int:result_id>", endpoint="get_result")
+def get_result_route(result_id: int):  # type: ignore[no-untyped-def]
+    """Return a result with every output, the budget and the provenance."""
+    return jsonify(result_json(get_result(get_session(), actor(), result_id)))

@@ -1,0 +1,165 @@
+"""JSON shapes of the API's objects (documented in :mod:`webapp.api.openapi`)."""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any
+
+from flask import url_for
+
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Course
+from webapp.models import Group
+from webapp.models import Person
+from webapp.models import Result
+from webapp.models import Run
+from webapp.quantities import RESULT_OUTPUTS
+from webapp.quantities import result_value
+from webapp.services.runs import Page
+
+
+def iso(value: dt.datetime | None) -> str | None:
+    """Return a stored UTC time in ISO 8601 with a Z."""
+    return None if value is None else value.isoformat() + "Z"
+
+
+def person_ref(p: Person | None) -> dict[str, Any] | None:
+    """Return a short reference to a person."""
+    return None if p is None else {"id": p.id, "name": p.name}
+
+
+def person_json(p: Person) -> dict[str, Any]:
+    """Return the signed-in person."""
+    return {"id": p.id, "name": p.name, "email": p.email, "role": p.role,
+            "group": {"id": p.group.id, "name": p.group.name} if p.group else None}
+
+
+def group_json(g: Group) -> dict[str, Any]:
+    """Return a group."""
+    return {"id": g.id, "name": g.name, "course_id": g.course_id}
+
+
+def course_json(c: Course) -> dict[str, Any]:
+    """Return a course."""
+    return {"id": c.id, "name": c.name, "term": c.term}
+
+
+def calibration_json(c: Calibration) -> dict[str, Any]:
+    """Return one heat-capacity value of a calorimeter's history."""
+    return {
+        "id": c.id,
+        "calorimeter_id": c.calorimeter_id,
+        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
+                          "unit": "J/K"},
+        "taken_at": iso(c.taken_at),
+        "result_id": c.result_id,
+        "run_id": c.result.run_id if c.result is not None else None,
+        "note": c.note,
+    }
+
+
+def calorimeter_json(c: Calorimeter, current: Calibration | None) -> dict[str, Any]:
+    """Return a calorimeter with the heat capacity in force."""
+    return {
+        "id": c.id,
+        "name": c.name,
+        "parts": c.parts,
+        "location": c.location,
+        "created_at": iso(c.created_at),
+        "current_calibration": calibration_json(current) if current is not None else None,
+    }
+
+
+def result_summary(r: Result) -> dict[str, Any]:
+    """Return the main figures of a result."""
+    value, u, unit = result_value(r, r.main) or (None, None, "")
+    return {
+        "id": r.id,
+        "run_id": r.run_id,
+        "is_current": r.is_current,
+        "method": r.method,
+        "main": r.main,
+        "value": value,
+        "standard_uncertainty": u,
+        "expanded_uncertainty": r.expanded_uncertainty,
+        "coverage_factor": r.coverage_factor,
+        "unit": unit,
+        "created_at": iso(r.created_at),
+    }
+
+
+def result_json(r: Result) -> dict[str, Any]:
+    """Return a result with every output, the windows, the budget and the provenance."""
+    outputs = {}
+    for key in RESULT_OUTPUTS:
+        v = result_value(r, key)
+        if v is not None:
+            outputs[key] = {"value": v[0], "standard_uncertainty": v[1], "unit": v[2]}
+    return {
+        **result_summary(r),
+        "outputs": outputs,
+        "dof_eff": r.dof_eff,
+        "periods": {
+            "fore": [r.fore_start_s, r.fore_end_s],
+            "after": [r.after_start_s, r.after_end_s],
+            "mixing_time": {"value": r.mixing_time_s, "standard_uncertainty": r.mixing_time_s_std, "unit": "s",
+                            "detected": r.mixing_time_detected},
+            "given": r.periods_given,
+        },
+        "budget": r.budget,
+        "warnings": r.warnings,
+        "comparison": r.comparison,
+        "cautions": r.cautions,
+        "construction": r.construction,
+        "properties": r.properties,
+        "monte_carlo": r.monte_carlo,
+        "record": r.record,
+        "software_version": r.software_version,
+        "created_by": person_ref(r.created_by),
+    }
+
+
+def run_summary(run: Run, current: Result | None) -> dict[str, Any]:
+    """Return a run as listed."""
+    return {
+        "id": run.id,
+        "kind": run.kind,
+        "title": run.title,
+        "operator": run.operator,
+        "author": person_ref(run.author),
+        "group": {"id": run.group.id, "name": run.group.name} if run.group else None,
+        "bench": run.bench,
+        "performed_on": run.performed_on,
+        "created_at": iso(run.created_at),
+        "calorimeter": {"id": run.calorimeter.id, "name": run.calorimeter.name} if run.calorimeter else None,
+        "points": run.points,
+        "locked": run.locked,
+        "current_result": result_summary(current) if current is not None else None,
+        "url": url_for("api.get_run", run_id=run.id),
+    }
+
+
+def run_json(run: Run) -> dict[str, Any]:
+    """Return a run with its inputs, calibration, lock and every result."""
+    return {
+        **run_summary(run, run.current_result),
+        "notes": run.notes,
+        "run_file_name": run.run_file_name,
+        "readings_name": run.readings_name,
+        "calibration": calibration_json(run.calibration) if run.calibration else None,
+        "locked_by": person_ref(run.locked_by),
+        "locked_at": iso(run.locked_at),
+        "inputs": [
+            {"field": i.field, "value": i.value, "standard_uncertainty": i.std_uncertainty, "unit": i.unit,
+             "text": i.text, "origin": i.origin}
+            for i in run.inputs
+        ],
+        "results": [result_summary(r) for r in run.results],
+    }
+
+
+def page_json(page: Page[Any], items: list[Any]) -> dict[str, Any]:
+    """Return a page of items with its position."""
+    return {"items": items, "page": page.page, "per_page": page.per_page, "total": page.total,
+            "pages": page.pages}

@@ -1,0 +1,89 @@
+"""Sign in, sign out, and API tokens."""
+
+from __future__ import annotations
+
+from urllib.parse import urlsplit
+
+import sqlalchemy as sa
+from flask import flash
+from flask import redirect
+from flask import render_template
+from flask import request
+from flask import url_for
+from flask_login import current_user
+from flask_login import login_required
+from flask_login import login_user
+from flask_login import logout_user
+
+from webapp.auth import bp
+from webapp.auth.forms import ConfirmForm
+from webapp.auth.forms import LoginForm
+from webapp.auth.forms import TokenForm
+from webapp.db import get_session
+from webapp.models import ApiToken
+from webapp.services import people
+from webapp.services.errors import ServiceError
+
+
+def _safe_next(target: str | None) -> str:
+    """Return ``target`` when it is a path on this site, else the home page."""
+    if target:
+        parts = urlsplit(target)
+        if not parts.scheme and not parts.netloc and target.startswith("/") and not target.startswith("//"):
+            return target
+    return url_for("main.index")
+
+
+@bp.route("/login", methods=["GET", "POST"])
+def login():  # type: ignore[no-untyped-def]
+    """Show the sign-in form and sign in."""
+    if current_user.is_authenticated:
+        return redirect(url_for("main.index"))
+    form = LoginForm()
+    if form.validate_on_submit():
+        person = people.authenticate(get_session(), form.email.data or "", form.password.data or "")
+        if person is not None:
+            login_user(person)
+            return redirect(_safe_next(request.args.get("next")))
+        form.password.errors.append("E-mail address or password is wrong.")
+    status = 400 if request.method == "POST" else 200
+    return render_template("auth/login.html", form=form), status
+
+
+@bp.route("/logout", methods=["POST"])
+def logout():  # type: ignore[no-untyped-def]
+    """Sign out."""
+    form = ConfirmForm()
+    if form.validate_on_submit():
+        logout_user()
+        flash("Signed out.")
+    return redirect(url_for("auth.login"))
+
+
+@bp.route("/tokens", methods=["GET", "POST"])
+@login_required
+def tokens():  # type: ignore[no-untyped-def]
+    """List my API tokens and create one (its secret is shown once)."""
+    session = get_session()
+    form = TokenForm()
+    secret = None
+    if form.validate_on_submit():
+        _token, secret = people.issue_token(session, current_user, form.label.data or "")
+    mine = session.scalars(
+        sa.select(ApiToken).where(ApiToken.person_id == current_user.id).order_by(ApiToken.id.desc())
+    ).all()
+    return render_template("auth/tokens.html", form=form, tokens=mine, secret=secret, revoke_form=ConfirmForm())
+
+
+@bp.route("/tokens/<int:token_id>/revoke", methods=["POST"])
+@login_required
+def revoke(token_id: int):  # type: ignore[no-untyped-def]
+    """Revoke one of my API tokens."""
+    form = ConfirmForm()
+    if form.validate_on_submit():
+        try:
+            people.revoke_token(get_session(), current_user, token_id)
+            flash("Token revoked.")
+        except ServiceError as exc:
+            flash(exc.message, "error")
+    return redirect(url_for("auth.tokens"))

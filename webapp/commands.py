@@ -1,0 +1,139 @@
+"""``cupcal`` commands of the notebook (entry-point group ``cupcal.commands``).
+
+``cupcal db upgrade|downgrade|current``, ``cupcal load-demo`` and ``cupcal serve``. The
+database is the one :func:`webapp.create_app` configures (instance folder, or
+``DATABASE_URL``).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from webapp.services.demo import DEMO_DIR
+
+
+def _app():  # type: ignore[no-untyped-def]
+    from webapp import create_app
+
+    return create_app()
+
+
+def _url(app) -> str:  # type: ignore[no-untyped-def]
+    return str(app.config["DATABASE_URL"])
+
+
+def _shown(url: str) -> str:
+    """Return the URL without a password."""
+    from sqlalchemy.engine import make_url
+
+    return make_url(url).render_as_string(hide_password=True)
+
+
+@click.group()
+def db() -> None:
+    """Manage the notebook's database (Alembic migrations)."""
+
+
+@db.command()
+@click.argument("revision", default="head")
+def upgrade(revision: str) -> None:
+    """Apply the migrations up to REVISION (default: the newest)."""
+    from webapp.migrate import upgrade as do_upgrade
+
+    app = _app()
+    do_upgrade(_url(app), revision)
+    click.echo(f"database {_shown(_url(app))} is at revision {revision}")
+
+
+@db.command()
+@click.argument("revision")
+def downgrade(revision: str) -> None:
+    """Revert the migrations down to REVISION ('base' removes every table)."""
+    from webapp.migrate import downgrade as do_downgrade
+
+    app = _app()
+    do_downgrade(_url(app), revision)
+    click.echo(f"database {_shown(_url(app))} is at revision {revision}")
+
+
+@db.command()
+def current() -> None:
+    """Show the revision the database is at."""
+    from webapp.migrate import current_revision
+    from webapp.migrate import head_revision
+
+    app = _app()
+    rev = current_revision(_url(app))
+    click.echo(f"{_shown(_url(app))}: {rev or 'no schema'} (newest: {head_revision()})")
+
+
+def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
+    click.echo("Demo sign-ins (invented people; password for all: %s):" % sign_ins[0].password)
+    for s in sign_ins:
+        click.echo(f"  {s.role:<12} {s.email:<45} {s.name}")
+
+
+def _load_demo(app, demo_dir: Path) -> bool:  # type: ignore[no-untyped-def]
+    """Load the demo into an empty database; return whether it was loaded."""
+    from webapp.db import new_session
+    from webapp.services.demo import is_empty
+    from webapp.services.demo import load_demo
+    from webapp.services.errors import ServiceError
+
+    with app.app_context():
+        session = new_session(app)
+        try:
+            if not is_empty(session):
+                return False
+            load_demo(session, demo_dir, password_method=app.config["PASSWORD_METHOD"],
+                      monte_carlo_trials=int(app.config["MONTE_CARLO_TRIALS"]))
+            return True
+        except ServiceError as exc:
+            raise click.ClickException(f"the demo could not be loaded: {exc}") from None
+        finally:
+            session.close()
+
+
+@click.command("load-demo")
+@click.option("--fixtures", "demo_dir", type=click.Path(file_okay=False, exists=True, path_type=Path),
+              default=DEMO_DIR, show_default=True, help="Folder of demo run files and readings.")
+def load_demo_command(demo_dir: Path) -> None:
+    """Load the invented demo lab into an empty database (after `cupcal db upgrade`)."""
+    from webapp.services.demo import demo_sign_ins
+
+    app = _app()
+    if _load_demo(app, demo_dir):
+        click.echo(f"demo loaded into {_shown(_url(app))}")
+        _print_sign_ins(demo_sign_ins())
+    else:
+        raise click.ClickException("the database is not empty; the demo is loaded only into an empty one")
+
+
+@click.command()
+@click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
+@click.option("--port", default=5000, show_default=True, type=click.IntRange(1, 65535))
+@click.option("--demo/--no-demo", default=True, show_default=True, help="Load the demo into an empty database.")
+def serve(host: str, port: int, demo: bool) -> None:
+    """Apply migrations, load the demo into an empty database, and serve the notebook."""
+    from webapp.db import new_session
+    from webapp.migrate import upgrade as do_upgrade
+    from webapp.services.demo import demo_sign_ins
+    from webapp.services.demo import has_demo
+
+    app = _app()
+    do_upgrade(_url(app), "head")
+    click.echo(f"database {_shown(_url(app))} is up to date")
+    if demo and _load_demo(app, DEMO_DIR):
+        click.echo("demo lab loaded")
+    with app.app_context():
+        session = new_session(app)
+        try:
+            show = has_demo(session)
+        finally:
+            session.close()
+    if show:
+        _print_sign_ins(demo_sign_ins())
+    click.echo(f"serving on http://{host}:{port} (Ctrl-C stops)")
+    app.run(host=host, port=port, debug=False, use_reloader=False)

@@ -1,0 +1,78 @@
+"""Error responses: JSON ``{"error": "..."}`` under ``/api/``, a plain page elsewhere.
+
+No request ends in a traceback: service errors carry their own status and message,
+HTTP errors keep theirs, and anything unexpected is logged and answered with a 500.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask import Flask
+from flask import Response
+from flask import jsonify
+from flask import render_template
+from flask import request
+from flask_wtf.csrf import CSRFError
+from werkzeug.exceptions import HTTPException
+from werkzeug.exceptions import RequestEntityTooLarge
+
+from webapp.services.errors import ServiceError
+
+
+def wants_json() -> bool:
+    """Return whether the request is an API request."""
+    return request.path.startswith("/api/")
+
+
+def json_error(status: int, message: str, field: str | None = None) -> tuple[Response, int]:
+    """Return the JSON error response."""
+    body: dict[str, Any] = {"error": message}
+    if field:
+        body["field"] = field
+    return jsonify(body), status
+
+
+def _page_error(status: int, title: str, message: str) -> tuple[str, int]:
+    return render_template("error.html", status=status, title=title, message=message), status
+
+
+def _too_large_message() -> str:
+    from flask import current_app
+
+    limit = current_app.config.get("MAX_CONTENT_LENGTH") or 0
+    return f"the upload is larger than the limit of {limit // 1024} KiB (run file and readings together)"
+
+
+def init_app(app: Flask) -> None:
+    """Register the error handlers."""
+
+    @app.errorhandler(ServiceError)
+    def _service_error(exc: ServiceError):  # type: ignore[no-untyped-def]
+        if wants_json():
+            return json_error(exc.status, exc.message, exc.field)
+        return _page_error(exc.status, "That did not work", exc.message)
+
+    @app.errorhandler(CSRFError)
+    def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]
+        return _page_error(400, "The form has expired", "Reload the page and send the form again.")
+
+    @app.errorhandler(RequestEntityTooLarge)
+    def _too_large(exc: RequestEntityTooLarge):  # type: ignore[no-untyped-def]
+        if wants_json():
+            return json_error(413, _too_large_message(), "upload")
+        return _page_error(413, "Upload too large", _too_large_message())
+
+    @app.errorhandler(HTTPException)
+    def _http_error(exc: HTTPException):  # type: ignore[no-untyped-def]
+        status = exc.code or 500
+        if wants_json():
+            return json_error(status, exc.description or exc.name)
+        return _page_error(status, exc.name, exc.description or "")
+
+    @app.errorhandler(Exception)
+    def _unexpected(exc: Exception):  # type: ignore[no-untyped-def]
+        app.logger.exception("unexpected error on %s %s", request.method, request.path)
+        if wants_json():
+            return json_error(500, "internal error; the request was not carried out")
+        return _page_error(500, "Internal error", "The request was not carried out.")

@@ -1,0 +1,301 @@
+"""The notebook's tables: people, groups, calorimeters, runs, results and the audit trail.
+
+Typed SQLAlchemy 2 models with named constraints. Every stored magnitude is in one
+canonical unit named in its column (``heat_capacity_j_k`` and ``heat_capacity_j_k_std``,
+the standard uncertainty); :mod:`webapp.quantities` turns them back into quantities.
+Models hold columns, relationships and small invariants only: no Flask, no calc logic.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any
+from typing import Optional
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+
+ROLES = ("coordinator", "technician", "student")
+CALIBRATION_KINDS = ("electrical-calibration", "mixing-calibration")
+
+#: Alembic's recommended naming convention ("The Importance of Naming Constraints").
+NAMING_CONVENTION = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+
+def utcnow() -> dt.datetime:
+    """Return the current time in UTC (naive, as stored)."""
+    return dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)
+
+
+class Base(so.DeclarativeBase):
+    """The one declarative base of the notebook."""
+
+    metadata = sa.MetaData(naming_convention=NAMING_CONVENTION)
+
+
+class Course(Base):
+    """A course (a term of a teaching lab); groups belong to one."""
+
+    __tablename__ = "courses"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(120), unique=True)
+    term: so.Mapped[str] = so.mapped_column(sa.String(60), default="")
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    groups: so.Mapped[list[Group]] = so.relationship(back_populates="course")
+
+
+class Group(Base):
+    """A group of people who work together (students see their own group's runs)."""
+
+    __tablename__ = "groups"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(120), unique=True)
+    course_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("courses.id"), index=True)
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    course: so.Mapped[Optional[Course]] = so.relationship(back_populates="groups")
+    members: so.Mapped[list[Person]] = so.relationship(back_populates="group")
+
+
+class Person(Base):
+    """Somebody who signs in: a coordinator, a technician or a student.
+
+    Provides the four members Flask-Login expects without importing Flask here.
+    """
+
+    __tablename__ = "people"
+    __table_args__ = (sa.CheckConstraint("role IN ('coordinator', 'technician', 'student')", name="role"),)
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    email: so.Mapped[str] = so.mapped_column(sa.String(254), unique=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(120))
+    role: so.Mapped[str] = so.mapped_column(sa.String(20))
+    password_hash: so.Mapped[str] = so.mapped_column(sa.String(255))
+    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    active: so.Mapped[bool] = so.mapped_column(default=True)
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    group: so.Mapped[Optional[Group]] = so.relationship(back_populates="members")
+    tokens: so.Mapped[list[ApiToken]] = so.relationship(back_populates="person")
+
+    is_authenticated = True
+    is_anonymous = False
+
+    @property
+    def is_active(self) -> bool:
+        """Return whether the person may sign in."""
+        return bool(self.active)
+
+    def get_id(self) -> str:
+        """Return the id Flask-Login keeps in the session."""
+        return str(self.id)
+
+    def __repr__(self) -> str:
+        return f"<Person {self.id} {self.email} {self.role}>"
+
+
+class ApiToken(Base):
+    """An API token of one person; only its SHA-256 hash is stored."""
+
+    __tablename__ = "api_tokens"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    person_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
+    label: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
+    prefix: so.Mapped[str] = so.mapped_column(sa.String(16))
+    token_hash: so.Mapped[str] = so.mapped_column(sa.String(64), unique=True)
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    last_used_at: so.Mapped[Optional[dt.datetime]]
+    revoked_at: so.Mapped[Optional[dt.datetime]]
+
+    person: so.Mapped[Person] = so.relationship(back_populates="tokens")
+
+
+class Calorimeter(Base):
+    """A calorimeter (a cup assembly) with its heat-capacity history."""
+
+    __tablename__ = "calorimeters"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(200), unique=True)
+    parts: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    location: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    calibrations: so.Mapped[list[Calibration]] = so.relationship(
+        back_populates="calorimeter",
+        order_by=lambda: [Calibration.taken_at, Calibration.id],
+        foreign_keys="Calibration.calorimeter_id",
+    )
+
+
+class Calibration(Base):
+    """One value of a calorimeter's heat capacity: from a calibration result or entered by hand."""
+
+    __tablename__ = "calibrations"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    calorimeter_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
+    heat_capacity_j_k: so.Mapped[float]
+    heat_capacity_j_k_std: so.Mapped[float]
+    #: when the value was measured (the calibration run's time, or when it was entered)
+    taken_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    result_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("results.id"), index=True)
+    note: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    calorimeter: so.Mapped[Calorimeter] = so.relationship(
+        back_populates="calibrations", foreign_keys=[calorimeter_id]
+    )
+    result: so.Mapped[Optional[Result]] = so.relationship(foreign_keys=[result_id])
+    created_by: so.Mapped[Optional[Person]] = so.relationship()
+
+
+class Run(Base):
+    """One run: the files exactly as uploaded, the parsed series, who, where, when."""
+
+    __tablename__ = "runs"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    kind: so.Mapped[str] = so.mapped_column(sa.String(40), index=True)
+    title: so.Mapped[str] = so.mapped_column(sa.String(300), default="")
+    run_file_name: so.Mapped[str] = so.mapped_column(sa.String(255))
+    run_toml: so.Mapped[str] = so.mapped_column(sa.Text, deferred=True, deferred_group="files")
+    readings_name: so.Mapped[str] = so.mapped_column(sa.String(255))
+    readings_raw: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="files")
+    #: parsed series, little-endian float64 (s and K); see webapp.quantities.series
+    series_time_s: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="series")
+    series_temperature_k: so.Mapped[bytes] = so.mapped_column(
+        sa.LargeBinary, deferred=True, deferred_group="series"
+    )
+    points: so.Mapped[int]
+    author_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
+    operator: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
+    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    bench: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
+    performed_on: so.Mapped[str] = so.mapped_column(sa.String(40), default="")
+    notes: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)
+    calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
+    #: the calibration that supplied C_cal (None when the run file gave it); added after
+    #: both tables exist, since calibrations → results → runs → calibrations is a cycle
+    calibration_id: so.Mapped[Optional[int]] = so.mapped_column(
+        sa.ForeignKey("calibrations.id", use_alter=True)
+    )
+    locked: so.Mapped[bool] = so.mapped_column(default=False)
+    locked_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    locked_at: so.Mapped[Optional[dt.datetime]]
+
+    author: so.Mapped[Person] = so.relationship(foreign_keys=[author_id])
+    locked_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[locked_by_id])
+    group: so.Mapped[Optional[Group]] = so.relationship()
+    calorimeter: so.Mapped[Optional[Calorimeter]] = so.relationship()
+    calibration: so.Mapped[Optional[Calibration]] = so.relationship(foreign_keys=[calibration_id])
+    inputs: so.Mapped[list[RunInput]] = so.relationship(
+        back_populates="run", order_by="RunInput.id", cascade="all, delete-orphan"
+    )
+    results: so.Mapped[list[Result]] = so.relationship(
+        back_populates="run", order_by="Result.id", foreign_keys="Result.run_id"
+    )
+
+    @property
+    def current_result(self) -> Result | None:
+        """Return the current result (re-analysis adds results and keeps the old ones)."""
+        current = [r for r in self.results if r.is_current]
+        return current[-1] if current else None
+
+
+class RunInput(Base):
+    """One measured input of a run as read from its file: value ± u in the unit written."""
+
+    __tablename__ = "run_inputs"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
+    field: so.Mapped[str] = so.mapped_column(sa.String(80))
+    value: so.Mapped[Optional[float]]
+    std_uncertainty: so.Mapped[Optional[float]]
+    unit: so.Mapped[str] = so.mapped_column(sa.String(40), default="")
+    text: so.Mapped[str] = so.mapped_column(sa.String(300), default="")
+    #: "run file", or where a supplied value came from (a calibration)
+    origin: so.Mapped[str] = so.mapped_column(sa.String(120), default="run file")
+
+    run: so.Mapped[Run] = so.relationship(back_populates="inputs")
+
+
+class Result(Base):
+    """One analysis of a run: method, windows, every output ± u, budget and provenance."""
+
+    __tablename__ = "results"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
+    is_current: so.Mapped[bool] = so.mapped_column(default=True)
+    method: so.Mapped[str] = so.mapped_column(sa.String(60))
+    main: so.Mapped[str] = so.mapped_column(sa.String(60))
+    fore_start_s: so.Mapped[float]
+    fore_end_s: so.Mapped[float]
+    after_start_s: so.Mapped[float]
+    after_end_s: so.Mapped[float]
+    mixing_time_s: so.Mapped[float]
+    mixing_time_s_std: so.Mapped[float]
+    mixing_time_detected: so.Mapped[bool]
+    periods_given: so.Mapped[bool] = so.mapped_column(default=False)
+    corrected_delta_t_k: so.Mapped[float]
+    corrected_delta_t_k_std: so.Mapped[float]
+    heat_j: so.Mapped[float]
+    heat_j_std: so.Mapped[float]
+    molar_enthalpy_kj_mol: so.Mapped[Optional[float]]
+    molar_enthalpy_kj_mol_std: so.Mapped[Optional[float]]
+    calorimeter_heat_capacity_j_k: so.Mapped[Optional[float]]
+    calorimeter_heat_capacity_j_k_std: so.Mapped[Optional[float]]
+    #: expanded uncertainty of the main output, in its unit, and its coverage factor
+    expanded_uncertainty: so.Mapped[float]
+    coverage_factor: so.Mapped[float]
+    dof_eff: so.Mapped[Optional[float]]
+    budget: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    warnings: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    comparison: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(
+        sa.JSON, deferred=True, deferred_group="detail"
+    )
+    cautions: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    construction: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    properties: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    monte_carlo: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(
+        sa.JSON, deferred=True, deferred_group="detail"
+    )
+    record: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    software_version: so.Mapped[str] = so.mapped_column(sa.String(40))
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+
+    run: so.Mapped[Run] = so.relationship(back_populates="results", foreign_keys=[run_id])
+    created_by: so.Mapped[Optional[Person]] = so.relationship()
+
+
+class AuditEntry(Base):
+    """One change: who, when, which entity and field, old → new (as text)."""
+
+    __tablename__ = "audit_entries"
+    __table_args__ = (sa.Index("ix_audit_entries_entity", "entity", "entity_id"),)
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    person_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    entity: so.Mapped[str] = so.mapped_column(sa.String(40))
+    entity_id: so.Mapped[int]
+    field: so.Mapped[str] = so.mapped_column(sa.String(80))
+    old: so.Mapped[Optional[str]] = so.mapped_column(sa.Text)
+    new: so.Mapped[Optional[str]] = so.mapped_column(sa.Text)
+
+    person: so.Mapped[Optional[Person]] = so.relationship()

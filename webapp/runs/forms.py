@@ -1,0 +1,27 @@
+"""Forms of the run pages."""
+
+from __future__ import annotations
+
+from calc.deltat import METHODS
+from flask_wtf import FlaskForm
+from wtforms import FloatField
+from wtforms import SelectField
+from wtforms.validators import Optional
+
+
+class ReanalyseForm(FlaskForm):
+    """ΔT method and, optionally, the fore and after periods (s)."""
+
+    method = SelectField("ΔT method", choices=sorted(METHODS))
+    fore_start = FloatField("Fore period from (s)", validators=[Optional()])
+    fore_end = FloatField("to (s)", validators=[Optional()])
+    after_start = FloatField("After period from (s)", validators=[Optional()])
+    after_end = FloatField("to (s)", validators=[Optional()])
+
+    def period(self, which: str) -> tuple[float, float] | None:
+        """Return the period entered, or None when both ends are empty."""
+        a = getattr(self, f"{which}_start").data
+        b = getattr(self, f"{which}_end").data
+        if a is None and b is None:
+            return None
+        return (a if a is not None else float("nan"), b if b is not None else float("nan"))

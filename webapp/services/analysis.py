@@ -1,0 +1,319 @@
+"""The bridge to calc: parse an upload, supply C_cal, analyse, and map an Analysis to rows.
+
+Nothing here touches the session; :mod:`webapp.services.runs` owns the transactions.
+calc's :class:`~calc.errors.InputError` and :class:`~calc.errors.AnalysisError` become
+:class:`~webapp.services.errors.Invalid` with calc's own message (it names the file,
+line or field).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+import secrets
+import tomllib
+from typing import Any
+
+import numpy as np
+from calc.analysis import Analysis
+from calc.analysis import analyze_spec
+from calc.deltat import DEFAULT_METHOD
+from calc.deltat import METHODS
+from calc.errors import AnalysisError
+from calc.errors import InputError
+from calc.measured import Measured
+from calc.readings import Readings
+from calc.readings import parse_readings
+from calc.report import to_record
+from calc.runfile import RunSpec
+from calc.runfile import parse_run
+
+from webapp.models import Calibration
+from webapp.models import Result
+from webapp.models import RunInput
+from webapp.services.errors import Invalid
+
+#: kinds whose model needs the calorimeter's heat capacity
+NEEDS_HEAT_CAPACITY = ("dissolution", "neutralization", "reaction")
+#: most Monte Carlo trials one request may ask for
+MAX_MONTE_CARLO_TRIALS = 200_000
+
+_HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re.MULTILINE)
+
+
+@dataclasses.dataclass(frozen=True)
+class AnalysisOptions:
+    """How to analyse a run: ΔT method, period overrides (s), Monte Carlo trials and seed."""
+
+    method: str | None = None
+    fore: tuple[float, float] | None = None
+    after: tuple[float, float] | None = None
+    monte_carlo_trials: int = 0
+    seed: int | None = None
+
+    def checked(self) -> AnalysisOptions:
+        """Return the options after checking them.
+
+        :raise Invalid: for an unknown method, a period that is not two increasing
+            finite times, or a Monte Carlo trial count out of range
+        """
+        if self.method is not None and self.method not in METHODS:
+            raise Invalid(f"unknown method {self.method!r}; expected one of: {', '.join(sorted(METHODS))}",
+                          field="method")
+        for name, period in (("fore", self.fore), ("after", self.after)):
+            if period is None:
+                continue
+            if len(period) != 2 or not all(isinstance(x, (int, float)) and math.isfinite(x) for x in period):
+                raise Invalid("expected two times in seconds, like [0, 170]", field=name)
+            if not period[1] > period[0]:
+                raise Invalid(f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)",
+                              field=name)
+        if not 0 <= self.monte_carlo_trials <= MAX_MONTE_CARLO_TRIALS:
+            raise Invalid(f"expected 0 to {MAX_MONTE_CARLO_TRIALS} trials", field="monte_carlo")
+        return self
+
+
+def invalid(exc: InputError | AnalysisError, default_field: str) -> Invalid:
+    """Return the :class:`Invalid` carrying calc's message for ``exc``."""
+    field = getattr(exc, "field", None) or default_field
+    return Invalid(str(exc), field=field)
+
+
+def decode_readings(raw: bytes, name: str) -> str:
+    """Return the readings upload as text (UTF-8, a byte-order mark allowed)."""
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise Invalid(
+            f"{name}: byte {exc.start + 1} is not UTF-8 text; expected a CSV file of times and temperatures",
+            field="readings",
+        ) from None
+
+
+def needs_supplied_heat_capacity(run_toml: str) -> bool:
+    """Return whether the run's kind needs C_cal and its file does not give it."""
+    try:
+        data = tomllib.loads(run_toml.lstrip("\ufeff"))
+    except tomllib.TOMLDecodeError:
+        return False  # parse_run reports it with the line
+    if data.get("kind") not in NEEDS_HEAT_CAPACITY:
+        return False
+    cal = data.get("calorimeter", {})
+    return isinstance(cal, dict) and "heat_capacity" not in cal
+
+
+def calorimeter_name_in(run_toml: str) -> str | None:
+    """Return the run file's ``[calorimeter] name``, if it has a readable one."""
+    try:
+        cal = tomllib.loads(run_toml.lstrip("\ufeff")).get("calorimeter")
+    except tomllib.TOMLDecodeError:
+        return None
+    name = cal.get("name") if isinstance(cal, dict) else None
+    return name.strip() if isinstance(name, str) and name.strip() else None
+
+
+def heat_capacity_text(calibration: Calibration) -> str:
+    """Return the calibration as run-file text (floats written exactly)."""
+    return f"{calibration.heat_capacity_j_k!r} ± {calibration.heat_capacity_j_k_std!r} J/K"
+
+
+def supply_heat_capacity(run_toml: str, calibration: Calibration, source: str) -> str:
+    """Return the run text with ``[calorimeter] heat_capacity`` set from ``calibration``.
+
+    The stored run file stays as uploaded; this text exists only for the analysis and
+    is rebuilt the same way from the run's recorded calibration on every re-analysis.
+    """
+    line = f'heat_capacity = "{heat_capacity_text(calibration)}"'
+    data = tomllib.loads(run_toml)
+    if "calorimeter" not in data:
+        text = run_toml + ("" if run_toml.endswith("\n") else "\n") + f"\n[calorimeter]\n{line}\n"
+    else:
+        match = _HEADER_RE.search(run_toml)
+        if match is None:
+            raise Invalid(
+                f"{source}: the calorimeter's heat capacity can be supplied only to a [calorimeter] section "
+                "written as a table header; give heat_capacity in the run file",
+                field="calorimeter.heat_capacity",
+            )
+        text = run_toml[: match.end()] + "\n" + line + run_toml[match.end():]
+    check = tomllib.loads(text)["calorimeter"].get("heat_capacity")
+    if check != heat_capacity_text(calibration):  # pragma: no cover - guards the text edit
+        raise Invalid(f"{source}: could not supply the heat capacity", field="calorimeter.heat_capacity")
+    return text
+
+
+def parse_inputs(
+    run_toml: str,
+    run_file_name: str,
+    readings_text: str,
+    readings_name: str,
+    calibration: Calibration | None,
+) -> tuple[RunSpec, Readings]:
+    """Parse the run file (with C_cal supplied from ``calibration``) and the readings."""
+    text = run_toml.lstrip("\ufeff")  # a byte-order mark is kept in the stored file only
+    if calibration is not None:
+        text = supply_heat_capacity(text, calibration, run_file_name)
+    try:
+        spec = parse_run(text, source=run_file_name, base_dir=None)
+    except InputError as exc:
+        raise invalid(exc, "run_file") from None
+    try:
+        readings = parse_readings(readings_text, source=readings_name)
+    except InputError as exc:
+        raise invalid(exc, "readings") from None
+    return spec, readings
+
+
+def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions) -> Analysis:
+    """Analyse with calc; its errors become :class:`Invalid`."""
+    options = options.checked()
+    seed = options.seed
+    if options.monte_carlo_trials and seed is None:
+        seed = secrets.randbelow(2**32)  # recorded with the result, so the interval can be reproduced
+    try:
+        return analyze_spec(
+            spec,
+            readings,
+            method=options.method,
+            monte_carlo_trials=options.monte_carlo_trials,
+            seed=seed,
+            fore=options.fore,
+            after=options.after,
+        )
+    except InputError as exc:
+        raise invalid(exc, "run_file") from None
+    except AnalysisError as exc:
+        raise invalid(exc, "readings") from None
+
+
+def inputs_from_spec(spec: RunSpec, calibration: Calibration | None) -> list[RunInput]:
+    """Return the run's measured inputs, one row per ``value ± u unit`` field."""
+    rows: list[RunInput] = []
+    supplied = f"calibration #{calibration.id}" if calibration is not None else None
+    if spec.mixing_time is not None:
+        rows.append(_input_row("mixing_time", spec.mixing_time, "run file"))
+    for section, fields in spec.sections.items():
+        for name, value in fields.items():
+            dotted = f"{section}.{name}"
+            if isinstance(value, Measured):
+                origin = supplied if (supplied and dotted == "calorimeter.heat_capacity") else "run file"
+                rows.append(_input_row(dotted, value, origin))
+            elif dotted == "thermometer.resolution":
+                rows.append(RunInput(field=dotted, value=float(value), std_uncertainty=None, unit="K",
+                                     text=str(spec.raw.get("thermometer", {}).get("resolution", "")),
+                                     origin="run file"))
+    return rows
+
+
+def _input_row(field: str, m: Measured, origin: str) -> RunInput:
+    return RunInput(field=field, value=m.value, std_uncertainty=m.u, unit=m.unit, text=m.text[:300], origin=origin)
+
+
+def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: bool) -> Result:
+    """Map an :class:`~calc.analysis.Analysis` to a new :class:`Result` row (not yet added)."""
+    gum = analysis.gum
+    p = analysis.periods
+    d = analysis.delta_t
+
+    def value(key: str) -> tuple[float | None, float | None]:
+        if key not in gum.values:
+            return None, None
+        return _finite(gum.values[key]), _finite(gum.uncertainties[key])
+
+    dt_v, dt_u = value("corrected_delta_t")
+    q_v, q_u = value("heat")
+    h_v, h_u = value("molar_enthalpy")
+    c_v, c_u = value("calorimeter_heat_capacity")
+    if None in (dt_v, dt_u, q_v, q_u) or not math.isfinite(gum.expanded_uncertainty):
+        raise Invalid(f"{input_name}: the analysis gave no finite result; check the inputs and the log",
+                      field="readings")
+    warnings = list(analysis.warnings) + [w for w in p.warnings if w not in analysis.warnings]
+    construction = {
+        **_jsonable(d.construction),
+        "start_temperature_K": _finite(d.start_temperature),
+        "u_start_temperature_K": _finite(d.u_start_temperature),
+        "end_temperature_K": _finite(d.end_temperature),
+        "components_K": {
+            "fit": _finite(d.u_fit),
+            "resolution_start": _finite(d.u_resolution_start),
+            "resolution_end": _finite(d.u_resolution_end),
+            "method": _finite(d.u_method),
+            "mixing_time": _finite(d.u_mixing_time),
+        },
+        "dof_fit": _finite(d.dof_fit),
+        "main_end_s": _finite(p.main_end),
+        "release_time_constant_s": _finite(p.release_time_constant) if p.release_time_constant else None,
+    }
+    return Result(
+        method=d.method,
+        main=analysis.main,
+        fore_start_s=float(p.fore[0]),
+        fore_end_s=float(p.fore[1]),
+        after_start_s=float(p.after[0]),
+        after_end_s=float(p.after[1]),
+        mixing_time_s=float(p.mixing_time),
+        mixing_time_s_std=float(p.u_mixing_time),
+        mixing_time_detected=bool(p.mixing_time_detected),
+        periods_given=periods_given,
+        corrected_delta_t_k=dt_v,
+        corrected_delta_t_k_std=dt_u,
+        heat_j=q_v,
+        heat_j_std=q_u,
+        molar_enthalpy_kj_mol=h_v,
+        molar_enthalpy_kj_mol_std=h_u,
+        calorimeter_heat_capacity_j_k=c_v,
+        calorimeter_heat_capacity_j_k_std=c_u,
+        expanded_uncertainty=float(gum.expanded_uncertainty),
+        coverage_factor=float(gum.coverage_factor),
+        dof_eff=_finite(gum.dof_eff),
+        budget=_jsonable([b.as_dict() for b in gum.budget]),
+        warnings=warnings,
+        comparison=_jsonable(dataclasses.asdict(analysis.comparison)) if analysis.comparison is not None else None,
+        cautions=_jsonable([dataclasses.asdict(c) for c in analysis.cautions]),
+        construction=construction,
+        properties={k: {"value": _finite(v[0]), "standard_uncertainty": _finite(v[1]), "unit": v[2], "source": v[3]}
+                    for k, v in analysis.properties.values.items()},
+        monte_carlo=_jsonable(dataclasses.asdict(analysis.monte_carlo)) if analysis.monte_carlo else None,
+        record=_jsonable(to_record(analysis, input_name)),
+        software_version=analysis.software_version,
+    )
+
+
+def default_method(spec: RunSpec) -> str:
+    """Return the method a run is analysed with when none is asked for."""
+    return spec.method or DEFAULT_METHOD
+
+
+def encode_series(values: np.ndarray) -> bytes:
+    """Return a series as little-endian float64 bytes (the stored form)."""
+    return np.ascontiguousarray(values, dtype="<f8").tobytes()
+
+
+def _finite(x: Any) -> float | None:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _jsonable(obj: Any) -> Any:
+    """Return ``obj`` as strict JSON data (numpy scalars to floats, non-finite to None)."""
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return [_jsonable(v) for v in obj.tolist()]
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (int, np.integer)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return _finite(obj)
+    if obj is None or isinstance(obj, str):
+        return obj
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return _jsonable(dataclasses.asdict(obj))
+    return str(obj)

@@ -1,0 +1,121 @@
+"""The demo scenario: an invented teaching lab ("Tern Hollow, room 3B") with its people and runs.
+
+Everything here is invented. The runs are the checked-in ``fixtures/demo/*.toml`` and
+``.csv`` files (made by ``fixtures/generate_demo.py``), stored and analysed like uploads.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import tomllib
+from pathlib import Path
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+
+from webapp.models import Calibration
+from webapp.models import Person
+from webapp.models import utcnow
+from webapp.services.analysis import AnalysisOptions
+from webapp.services.calorimeters import create_calorimeter
+from webapp.services.calorimeters import find_calorimeter
+from webapp.services.people import create_course
+from webapp.services.people import create_group
+from webapp.services.people import create_person
+from webapp.services.runs import RunUpload
+from webapp.services.runs import record_run
+
+DEMO_DIR = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
+DEMO_PASSWORD = "tern-hollow-demo"
+COURSE = ("Solution calorimetry practical", "spring term (invented)")
+#: (name, e-mail, role, group); the students are the operators named in the demo runs
+PEOPLE = (
+    ("Odile Brackwater", "odile.brackwater@ternhollow.example", "coordinator", None),
+    ("Kasper Lindqvist-Mayo", "kasper.lindqvist-mayo@ternhollow.example", "technician", None),
+    ("Mira Okonjo-Lind", "mira.okonjo-lind@ternhollow.example", "student", "Heron A"),
+    ("Tomas Vesterby-Quail", "tomas.vesterby-quail@ternhollow.example", "student", "Heron A"),
+    ("Priya Stenhammar-Oduya", "priya.stenhammar-oduya@ternhollow.example", "student", "Heron B"),
+)
+#: a second, invented cup whose last calibration is old, so the home page shows one due
+SPARE_CUP = ("Cup TH-09 (single foam cup, card lid)", "21.0 ± 3.0 J/K", 120)
+_ORDER = {"electrical-calibration": 0, "mixing-calibration": 1}
+
+
+@dataclasses.dataclass
+class SignIn:
+    """A demo sign-in to print."""
+
+    email: str
+    role: str
+    name: str
+    password: str = DEMO_PASSWORD
+
+
+def demo_sign_ins() -> list[SignIn]:
+    """Return the demo sign-ins (whether or not they are loaded)."""
+    return [SignIn(email, role, name) for name, email, role, _group in PEOPLE]
+
+
+def is_empty(session: so.Session) -> bool:
+    """Return whether the database holds no people yet."""
+    return session.scalar(sa.select(sa.func.count()).select_from(Person)) == 0
+
+
+def has_demo(session: so.Session) -> bool:
+    """Return whether the demo people are in the database."""
+    return session.scalar(sa.select(Person.id).where(Person.email == PEOPLE[0][1])) is not None
+
+
+def load_demo(
+    session: so.Session,
+    demo_dir: Path = DEMO_DIR,
+    *,
+    password_method: str = "scrypt",
+    monte_carlo_trials: int = 100_000,
+) -> list[SignIn]:
+    """Create the demo people, groups and calorimeters and record every demo run; return the sign-ins."""
+    runs = sorted(demo_dir.glob("*.toml"), key=lambda p: (_ORDER.get(_kind(p), 2), p.name))
+    if not runs:
+        raise FileNotFoundError(f"no demo runs (*.toml) in {demo_dir}")
+    people: dict[str, Person] = {}
+    coordinator_spec = PEOPLE[0]
+    coordinator = create_person(session, email=coordinator_spec[1], name=coordinator_spec[0],
+                                role=coordinator_spec[2], password=DEMO_PASSWORD, password_method=password_method)
+    course = create_course(session, coordinator, name=COURSE[0], term=COURSE[1])
+    groups = {}
+    for _name, _email, _role, group in PEOPLE:
+        if group and group not in groups:
+            groups[group] = create_group(session, coordinator, name=group, course_id=course.id)
+    people[coordinator_spec[0]] = coordinator
+    for name, email, role, group in PEOPLE[1:]:
+        people[name] = create_person(session, email=email, name=name, role=role, password=DEMO_PASSWORD,
+                                     group=groups.get(group) if group else None, password_method=password_method)
+    for path in runs:
+        cal_name = tomllib.loads(path.read_text(encoding="utf-8")).get("calorimeter", {}).get("name")
+        if cal_name and find_calorimeter(session, cal_name) is None:
+            create_calorimeter(session, coordinator, name=cal_name, location="Tern Hollow, room 3B (invented)",
+                               parts=cal_name)
+    spare = create_calorimeter(session, coordinator, name=SPARE_CUP[0], location="Tern Hollow, room 3B (invented)",
+                               parts="single foam cup, card lid, no stirrer", heat_capacity=SPARE_CUP[1])
+    old = session.scalar(sa.select(Calibration).where(Calibration.calorimeter_id == spare.id))
+    if old is not None:
+        old.taken_at = utcnow() - dt.timedelta(days=SPARE_CUP[2])
+        old.note = "entered from the previous term's notebook (invented)"
+        session.commit()
+    for path in runs:
+        operator = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {}).get("operator")
+        author = people.get(operator, people[PEOPLE[1][0]])
+        csv = path.with_suffix(".csv")
+        record_run(session, author, RunUpload(
+            run_toml=path.read_text(encoding="utf-8"),
+            run_file_name=path.name,
+            readings=csv.read_bytes(),
+            readings_name=csv.name,
+            options=AnalysisOptions(monte_carlo_trials=monte_carlo_trials, seed=20250311),
+        ))
+    return demo_sign_ins()
+
+
+def _kind(path: Path) -> str:
+    return str(tomllib.loads(path.read_text(encoding="utf-8")).get("kind", ""))

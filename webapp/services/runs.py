@@ -1,0 +1,376 @@
+"""Runs: record an upload, re-analyse, edit, lock, and the queries that list them.
+
+Each operation is one transaction: it checks everything, analyses with calc, adds
+the rows and commits, or raises before anything is written (nothing half-saved).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Mapping
+from typing import Any
+from typing import Generic
+from typing import TypeVar
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+from calc.analysis import Analysis
+from calc.readings import Readings
+from calc.runfile import RunSpec
+
+from webapp.models import CALIBRATION_KINDS
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Group
+from webapp.models import Person
+from webapp.models import Result
+from webapp.models import Run
+from webapp.models import utcnow
+from webapp.services.access import can_lock_run
+from webapp.services.access import can_view_run
+from webapp.services.access import require_editable
+from webapp.services.access import visible_runs_clause
+from webapp.services.analysis import AnalysisOptions
+from webapp.services.analysis import calorimeter_name_in
+from webapp.services.analysis import decode_readings
+from webapp.services.analysis import encode_series
+from webapp.services.analysis import inputs_from_spec
+from webapp.services.analysis import needs_supplied_heat_capacity
+from webapp.services.analysis import parse_inputs
+from webapp.services.analysis import result_from_analysis
+from webapp.services.analysis import run_analysis
+from webapp.services.audit import record_change
+from webapp.services.calorimeters import add_calibration_from_result
+from webapp.services.calorimeters import current_calibration
+from webapp.services.calorimeters import find_calorimeter
+from webapp.services.errors import Conflict
+from webapp.services.errors import Forbidden
+from webapp.services.errors import Invalid
+from webapp.services.errors import NotFound
+from webapp.services.errors import RunLocked
+
+T = TypeVar("T")
+
+#: details of a run that can be edited before it is locked (each change is audited)
+EDITABLE_FIELDS = ("title", "operator", "bench", "performed_on", "notes", "group_id")
+_LENGTHS = {"title": 300, "operator": 200, "bench": 120, "performed_on": 40}
+
+
+@dataclasses.dataclass(frozen=True)
+class RunUpload:
+    """A run as uploaded: the run file and the readings exactly as sent, and where it belongs."""
+
+    run_toml: str
+    run_file_name: str
+    readings: bytes
+    readings_name: str
+    calorimeter_id: int | None = None
+    group_id: int | None = None
+    options: AnalysisOptions = AnalysisOptions()
+
+
+@dataclasses.dataclass
+class Page(Generic[T]):
+    """One page of a query's rows."""
+
+    items: list[T]
+    total: int
+    page: int
+    per_page: int
+
+    @property
+    def pages(self) -> int:
+        """Return the number of pages (at least 1)."""
+        return max(1, -(-self.total // self.per_page))
+
+    @property
+    def has_next(self) -> bool:
+        """Return whether a later page exists."""
+        return self.page < self.pages
+
+
+# ----------------------------------------------------------------- operations
+
+
+def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
+    """Store an uploaded run with its first result and commit; a calibration updates its calorimeter.
+
+    :raise Invalid: for any problem with the files or the options (calc's message)
+    :raise Forbidden: when a student records a run for another group
+    """
+    options = upload.options.checked()
+    run_name = _file_name(upload.run_file_name, "run_file")
+    readings_name = _file_name(upload.readings_name, "readings")
+    readings_text = decode_readings(upload.readings, readings_name)
+    calorimeter = _calorimeter_for(session, upload)
+    calibration: Calibration | None = None
+    if calorimeter is not None and needs_supplied_heat_capacity(upload.run_toml):
+        calibration = current_calibration(session, calorimeter.id)
+        if calibration is None:
+            raise Invalid(
+                f"{run_name}, field 'calorimeter.heat_capacity': missing, and calorimeter "
+                f"{calorimeter.name!r} has no heat capacity yet; give it in the run file or calibrate first",
+                field="calorimeter.heat_capacity",
+            )
+    spec, readings = parse_inputs(upload.run_toml, run_name, readings_text, readings_name, calibration)
+    analysis = run_analysis(spec, readings, options)
+    group = _group_for(session, actor, upload.group_id, spec)
+    run = _new_run(spec, readings, upload, run_name, readings_name, actor, group, calorimeter, calibration)
+    run.inputs = inputs_from_spec(spec, calibration)
+    result = result_from_analysis(analysis, input_name=run_name, periods_given=_periods_given(options))
+    result.run = run
+    result.created_by = actor
+    session.add_all([run, result])
+    try:
+        if spec.kind in CALIBRATION_KINDS and calorimeter is not None:
+            session.flush()
+            add_calibration_from_result(session, calorimeter, result, run.created_at, actor)
+        session.commit()
+    except sa.exc.IntegrityError:
+        session.rollback()
+        raise Conflict("the run could not be stored (it conflicts with stored data)") from None
+    return run
+
+
+def reanalyse_run(session: so.Session, actor: Person, run: Run, options: AnalysisOptions) -> Result:
+    """Analyse a stored run again (new method or periods), keep the old result, and commit.
+
+    The run's recorded calibration supplies C_cal again, so the inputs are the same.
+    A calibration run's new result is added to its calorimeter's history.
+    """
+    require_editable(actor, run)
+    options = options.checked()
+    text = decode_readings(run.readings_raw, run.readings_name)
+    spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
+    analysis = run_analysis(spec, readings, options)
+    result = result_from_analysis(analysis, input_name=run.run_file_name, periods_given=_periods_given(options))
+    old = run.current_result
+    for r in run.results:
+        r.is_current = False
+    result.run = run
+    result.created_by = actor
+    session.add(result)
+    session.flush()
+    record_change(session, actor, "run", run.id, "result", _describe_result(old), _describe_result(result))
+    if run.kind in CALIBRATION_KINDS and run.calorimeter is not None:
+        add_calibration_from_result(session, run.calorimeter, result, run.created_at, actor)
+    session.commit()
+    return result
+
+
+def update_run(session: so.Session, actor: Person, run: Run, changes: Mapping[str, Any]) -> Run:
+    """Change a run's details (:data:`EDITABLE_FIELDS`), each change audited, and commit."""
+    require_editable(actor, run)
+    for key in changes:
+        if key not in EDITABLE_FIELDS:
+            raise Invalid(f"cannot be changed; editable fields: {', '.join(EDITABLE_FIELDS)}", field=key)
+    for key, new in changes.items():
+        if key == "group_id":
+            group = _group_for(session, actor, new, None, explicit=True)
+            old_name = run.group.name if run.group else None
+            if (group.id if group else None) != run.group_id:
+                record_change(session, actor, "run", run.id, "group", old_name, group.name if group else None)
+                run.group = group
+            continue
+        if not isinstance(new, str):
+            raise Invalid("expected text", field=key)
+        new = new.strip()
+        limit = _LENGTHS.get(key)
+        if limit and len(new) > limit:
+            raise Invalid(f"at most {limit} characters", field=key)
+        old = getattr(run, key)
+        if old != new:
+            record_change(session, actor, "run", run.id, key, old, new)
+            setattr(run, key, new)
+    session.commit()
+    return run
+
+
+def lock_run(session: so.Session, actor: Person, run: Run) -> Run:
+    """Sign a run (its author or a coordinator) and commit; it is immutable from then on."""
+    if not can_view_run(actor, run):
+        raise NotFound(f"no run with id {run.id}")
+    if not can_lock_run(actor, run):
+        raise Forbidden("only the run's author or a coordinator may lock (sign) it")
+    if run.locked:
+        raise RunLocked(f"run {run.id} is locked (signed) already")
+    record_change(session, actor, "run", run.id, "locked", False, True)
+    run.locked = True
+    run.locked_by = actor
+    run.locked_at = utcnow()
+    session.commit()
+    return run
+
+
+def analysis_of(run: Run, result: Result | None = None) -> Analysis:
+    """Return calc's full :class:`~calc.analysis.Analysis` behind a stored result (for plots).
+
+    The stored files are analysed again with the result's method, its periods when they
+    were given, and the run's recorded calibration, without Monte Carlo: the numbers are
+    those stored (the analysis is deterministic). Read-only: nothing is written.
+    """
+    result = result or run.current_result
+    if result is None:
+        raise NotFound(f"run {run.id} has no result")
+    text = decode_readings(run.readings_raw, run.readings_name)
+    spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
+    given = result.periods_given
+    return run_analysis(spec, readings, AnalysisOptions(
+        method=result.method,
+        fore=(result.fore_start_s, result.fore_end_s) if given else None,
+        after=(result.after_start_s, result.after_end_s) if given else None,
+    ))
+
+
+# ----------------------------------------------------------------- queries
+
+
+def get_run(session: so.Session, actor: Person, run_id: int) -> Run:
+    """Return a run ``actor`` may see.
+
+    :raise NotFound: when there is none (or it is another group's)
+    """
+    run = session.get(Run, run_id)
+    if run is None or not can_view_run(actor, run):
+        raise NotFound(f"no run with id {run_id}")
+    return run
+
+
+def get_result(session: so.Session, actor: Person, result_id: int) -> Result:
+    """Return a result of a run ``actor`` may see, with all its details loaded."""
+    result = session.scalar(
+        sa.select(Result).where(Result.id == result_id).options(so.undefer_group("detail"))
+    )
+    if result is None or not can_view_run(actor, result.run):
+        raise NotFound(f"no result with id {result_id}")
+    return result
+
+
+def results_query(run_id: int) -> sa.Select[tuple[Result]]:
+    """Return the query of a run's results, oldest first (the last is current)."""
+    return sa.select(Result).where(Result.run_id == run_id).order_by(Result.id)
+
+
+def runs_query(
+    actor: Person,
+    *,
+    kind: str | None = None,
+    calorimeter_id: int | None = None,
+    group_id: int | None = None,
+) -> sa.Select[tuple[Run, Result]]:
+    """Return the query of the runs ``actor`` may see with their current result, newest first."""
+    q = (
+        sa.select(Run, Result)
+        .outerjoin(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
+        .where(visible_runs_clause(actor))
+        .options(so.joinedload(Run.author), so.joinedload(Run.group), so.joinedload(Run.calorimeter))
+        .order_by(Run.created_at.desc(), Run.id.desc())
+    )
+    if kind is not None:
+        q = q.where(Run.kind == kind)
+    if calorimeter_id is not None:
+        q = q.where(Run.calorimeter_id == calorimeter_id)
+    if group_id is not None:
+        q = q.where(Run.group_id == group_id)
+    return q
+
+
+def recent_runs(session: so.Session, actor: Person, limit: int = 10) -> list[tuple[Run, Result | None]]:
+    """Return the newest runs ``actor`` may see, with their current result."""
+    return [(run, res) for run, res in session.execute(runs_query(actor).limit(limit)).unique().all()]
+
+
+def paginate(session: so.Session, query: sa.Select[Any], page: int, per_page: int) -> Page[Any]:
+    """Return one page of ``query`` (rows as tuples when it selects several entities)."""
+    page = max(1, page)
+    total = session.scalar(sa.select(sa.func.count()).select_from(query.order_by(None).subquery())) or 0
+    rows = session.execute(query.limit(per_page).offset((page - 1) * per_page)).unique().all()
+    items = [row if len(row) > 1 else row[0] for row in rows]
+    return Page(items=items, total=total, page=page, per_page=per_page)
+
+
+# ----------------------------------------------------------------- helpers
+
+
+def _periods_given(options: AnalysisOptions) -> bool:
+    return options.fore is not None or options.after is not None
+
+
+def _file_name(name: str, field: str) -> str:
+    name = (name or "").strip().replace("\\", "/").rsplit("/", 1)[-1]
+    if not name:
+        raise Invalid("missing file name", field=field)
+    return name[:255]
+
+
+def _calorimeter_for(session: so.Session, upload: RunUpload) -> Calorimeter | None:
+    if upload.calorimeter_id is not None:
+        cal = session.get(Calorimeter, upload.calorimeter_id)
+        if cal is None:
+            raise Invalid(f"no calorimeter with id {upload.calorimeter_id}", field="calorimeter_id")
+        return cal
+    name = calorimeter_name_in(upload.run_toml)
+    return find_calorimeter(session, name) if name else None
+
+
+def _group_for(
+    session: so.Session, actor: Person, group_id: Any, spec: RunSpec | None, *, explicit: bool = False
+) -> Group | None:
+    if group_id is not None and (isinstance(group_id, bool) or not isinstance(group_id, int)):
+        raise Invalid("expected a group id (a whole number)", field="group_id")
+    if actor.role == "student":
+        if group_id is not None and group_id != actor.group_id:
+            raise Forbidden("a student records and moves runs only within their own group", field="group_id")
+        return actor.group
+    if group_id is not None:
+        group = session.get(Group, group_id)
+        if group is None:
+            raise Invalid(f"no group with id {group_id}", field="group_id")
+        return group
+    if explicit or spec is None:
+        return None
+    name = spec.get("info", "group")
+    if name:
+        return session.scalar(sa.select(Group).where(Group.name == name.strip()))
+    return None
+
+
+def _new_run(
+    spec: RunSpec,
+    readings: Readings,
+    upload: RunUpload,
+    run_name: str,
+    readings_name: str,
+    actor: Person,
+    group: Group | None,
+    calorimeter: Calorimeter | None,
+    calibration: Calibration | None,
+) -> Run:
+    info = spec.sections.get("info", {})
+    return Run(
+        kind=spec.kind,
+        title=(info.get("title") or run_name)[:300],
+        run_file_name=run_name,
+        run_toml=upload.run_toml,
+        readings_name=readings_name,
+        readings_raw=upload.readings,
+        series_time_s=encode_series(readings.time_s),
+        series_temperature_k=encode_series(readings.temperature_K),
+        points=len(readings),
+        author=actor,
+        operator=(info.get("operator") or actor.name)[:200],
+        group=group,
+        bench=(info.get("bench") or "")[:120],
+        performed_on=(info.get("date") or "")[:40],
+        notes=info.get("notes") or "",
+        created_at=utcnow(),
+        calorimeter=calorimeter,
+        calibration=calibration,
+    )
+
+
+def _describe_result(result: Result | None) -> str | None:
+    if result is None:
+        return None
+    return f"#{result.id} {result.method}, fore {result.fore_start_s:g}–{result.fore_end_s:g} s, " \
+        f"after {result.after_start_s:g}–{result.after_end_s:g} s"
