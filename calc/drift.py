@@ -9,6 +9,7 @@ for autocorrelated residuals (SCIENCE §1.f: AR(1) inflation (1+ρ)/(1−ρ)).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -172,6 +173,44 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
     return X
 
 
+VarproModel = Callable[[float], tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]]
+
+
+def _varpro(model: VarproModel, y: np.ndarray, k0: float) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
+    """Solve a model that is linear in its parameters β at fixed k, and nonlinear in k.
+
+    ``model(k)`` returns the design matrix X(k) and a function giving ∂(Xβ)/∂k for given β.
+    k is found by Gauss–Newton on the residual with the linear part projected out
+    (variable projection, Kaufman's step); |k| is kept below 1/(60 s).
+    Returns (k, β, X, full Jacobian [X, ∂/∂k], converged).
+    """
+    k = float(k0)
+    converged = False
+    for _ in range(30):
+        X, dk_of = model(k)
+        beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+        r = y - X @ beta
+        dk = dk_of(beta)
+        q, _ = np.linalg.qr(X)
+        dk_perp = dk - q @ (q.T @ dk)
+        den = float(np.dot(dk_perp, dk_perp))
+        if den <= 0:
+            converged = True
+            break
+        step = max(min(float(np.dot(dk_perp, r)) / den, 0.02), -0.02)
+        k_new = k + step
+        if abs(k_new) > 1 / 60.0:
+            k_new = math.copysign(1 / 60.0, k_new)
+        done = abs(step) <= 1e-10 + 1e-7 * abs(k)
+        k = k_new
+        if done:
+            converged = True
+            break
+    X, dk_of = model(k)
+    beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+    return k, beta, X, np.column_stack([X, dk_of(beta)]), converged
+
+
 def fit_newton_joint(
     t_fore: np.ndarray,
     y_fore: np.ndarray,
@@ -183,68 +222,36 @@ def fit_newton_joint(
 ) -> NewtonFit:
     """Fit fore and after windows jointly with one Newtonian drift law.
 
-    Variable projection: for fixed k the model is linear in (y_i, y_f, g_i); k is
-    found by Gauss–Newton on the projected residual, then the full 4-parameter
-    covariance s²(JᵀJ)⁻¹ is formed at the solution.
+    Variable projection: for fixed k the model is linear in (y_i, y_f, g_i). The
+    covariance is a sandwich A⁻¹(JᵀΩJ)A⁻¹ in which each window keeps its own noise
+    level and AR(1) inflation.
     """
     xf = t_fore - t_i
     xa = t_after - t_f
     y = np.concatenate([y_fore, y_after])
-    k = float(k0)
-    converged = False
-    beta = np.zeros(3)
-    for _ in range(30):
+    nf_ = xf.size
+
+    def model(k: float) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
         X = _joint_design(k, xf, xa)
-        beta, *_ = np.linalg.lstsq(X, y, rcond=None)
-        y_i, y_f, g_i = beta
-        r = y - X @ beta
-        # derivative of the model with respect to k at fixed linear parameters
-        dk = np.empty_like(y)
-        dk[: xf.size] = g_i * _dphi_dk(k, xf)
-        pa = phi(k, xa)
-        dpa = _dphi_dk(k, xa)
-        g_f = g_i + k * (y_i - y_f)
-        dk[xf.size :] = (y_i - y_f) * pa + g_f * dpa
-        # project out the linear part (variable projection, Kaufman's step)
-        q, _ = np.linalg.qr(X)
-        dk_perp = dk - q @ (q.T @ dk)
-        den = float(np.dot(dk_perp, dk_perp))
-        if den <= 0:
-            converged = True
-            break
-        step = float(np.dot(dk_perp, r)) / den
-        # keep the step physically sensible: |k| below 1/(60 s)
-        step = max(min(step, 0.02), -0.02)
-        k_new = k + step
-        if abs(k_new) > 1 / 60.0:
-            k_new = math.copysign(1 / 60.0, k_new)
-        if abs(step) <= 1e-10 + 1e-7 * abs(k):
-            k = k_new
-            converged = True
-            break
-        k = k_new
-    X = _joint_design(k, xf, xa)
-    beta, *_ = np.linalg.lstsq(X, y, rcond=None)
+
+        def dk_of(beta: np.ndarray) -> np.ndarray:
+            y_i, y_f, g_i = beta
+            g_f = g_i + k * (y_i - y_f)
+            return np.concatenate([g_i * _dphi_dk(k, xf), (y_i - y_f) * phi(k, xa) + g_f * _dphi_dk(k, xa)])
+
+        return X, dk_of
+
+    k, beta, X, J, converged = _varpro(model, y, k0)
     y_i, y_f, g_i = beta
-    pa = phi(k, xa)
-    g_f = g_i + k * (y_i - y_f)
-    dk = np.empty_like(y)
-    dk[: xf.size] = g_i * _dphi_dk(k, xf)
-    dk[xf.size :] = (y_i - y_f) * pa + g_f * _dphi_dk(k, xa)
-    J = np.column_stack([X, dk])
     resid = y - X @ beta
     n = y.size
     p = 4
     s2 = float(np.dot(resid, resid)) / max(n - p, 1)
-    nf_ = xf.size
     rf = resid[:nf_]
     ra = resid[nf_:]
     rho_f = lag1_autocorrelation(rf)
     rho_a = lag1_autocorrelation(ra)
     rho = max(rho_f, rho_a)
-    f = inflation(rho)
-    # Each window keeps its own noise level and autocorrelation: sandwich covariance
-    # A⁻¹ (Jᵀ Ω J) A⁻¹ with Ω = diag(f_w s_w²) per window (fore, after).
     dof_share = max(n - p, 1) / n
     v_f = inflation(rho_f) * float(np.dot(rf, rf)) / max(rf.size * dof_share, 1.0)
     v_a = inflation(rho_a) * float(np.dot(ra, ra)) / max(ra.size * dof_share, 1.0)
@@ -262,7 +269,7 @@ def fit_newton_joint(
         s=math.sqrt(s2),
         rho=rho,
         n=n,
-        dof=max(n / f - p, 1.0),
+        dof=max(n / inflation(rho) - p, 1.0),
         converged=converged,
     )
 
@@ -274,35 +281,12 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0)
     differs from the fore period's (SCIENCE §1.c, two-solution caveat).
     """
     x = t - t_f
-    k = float(k0)
-    converged = False
-    for _ in range(30):
-        p = phi(k, x)
-        X = np.column_stack([np.ones_like(x), p])
-        beta, *_ = np.linalg.lstsq(X, y, rcond=None)
-        r = y - X @ beta
-        dk = beta[1] * _dphi_dk(k, x)
-        q, _ = np.linalg.qr(X)
-        dk_perp = dk - q @ (q.T @ dk)
-        den = float(np.dot(dk_perp, dk_perp))
-        if den <= 0:
-            converged = True
-            break
-        step = float(np.dot(dk_perp, r)) / den
-        step = max(min(step, 0.02), -0.02)
-        k_new = k + step
-        if abs(k_new) > 1 / 60.0:
-            k_new = math.copysign(1 / 60.0, k_new)
-        if abs(step) <= 1e-10 + 1e-7 * abs(k):
-            k = k_new
-            converged = True
-            break
-        k = k_new
-    p = phi(k, x)
-    X = np.column_stack([np.ones_like(x), p])
-    beta, *_ = np.linalg.lstsq(X, y, rcond=None)
-    dk = beta[1] * _dphi_dk(k, x)
-    J = np.column_stack([X, dk])
+
+    def model(k: float) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
+        X = np.column_stack([np.ones_like(x), phi(k, x)])
+        return X, lambda beta: beta[1] * _dphi_dk(k, x)
+
+    k, beta, X, J, converged = _varpro(model, y, k0)
     resid = y - X @ beta
     n = y.size
     s2 = float(np.dot(resid, resid)) / max(n - 3, 1)
