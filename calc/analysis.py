@@ -148,7 +148,7 @@ def analyze_spec(
     warnings: list[str] = []
     warnings.extend(dt.warnings)
     warnings.extend(props.warnings)
-    warnings.extend(_kind_warnings(spec, dt, gum, model))
+    warnings.extend(kind_warnings(spec, dt, gum, model))
     mc = None
     if monte_carlo_trials and monte_carlo_trials > 0:
         mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
@@ -309,7 +309,7 @@ def _eq(formula: str) -> int:
 # ------------------------------------------------------------------ warnings
 
 
-def _kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -> list[str]:
+def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -> list[str]:
     out: list[str] = []
     kind = spec.kind
     if kind in ("electrical-calibration", "mixing-calibration"):

@@ -143,6 +143,9 @@ def _register_optional() -> None:
     except ImportError:  # reference data not installed
         return
     cli.add_command(hess)
+    from calc.cli_plan import plan_command
+
+    cli.add_command(plan_command)
 
 
 _register_optional()

@@ -192,7 +192,7 @@ def _method_term(name: str, value: float) -> float:
     return METHOD_TERMS.get(name, 0.01) * abs(value) / math.sqrt(3.0)
 
 
-def _resolution_term(q: float, s: float, span: float = 0.0) -> float:
+def resolution_term(q: float, s: float, span: float = 0.0) -> float:
     """Return the standard uncertainty a thermometer resolution q leaves in a fitted level.
 
     Without dither a level read at resolution q is off by up to ±q/2 (rectangular, u = q/√12;
@@ -218,7 +218,7 @@ def _res_terms(log: Log) -> tuple[float, float]:
     for which in ("fore", "after"):
         tw, _yw = log.window(which)
         if tw.size > 2:
-            out.append(_resolution_term(log.resolution, log.line(which).s))
+            out.append(resolution_term(log.resolution, log.line(which).s))
         else:
             out.append(log.resolution / math.sqrt(12.0))
     log._lines["resolution_terms"] = (out[0], out[1])

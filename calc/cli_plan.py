@@ -1,0 +1,219 @@
+"""The ``cupcal plan`` command: predict a run's ΔT and u(ΔH) before it is made (see :mod:`calc.plan`)."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from typing import Any
+
+import click
+
+from calc.errors import CupcalError, InputError
+
+__all__ = ["plan_command", "plan_record", "format_plan"]
+
+#: Parameter names of :func:`calc.plan.plan_run` → the command-line option that sets them.
+_OPTION_OF = {
+    "formula": "--formula", "mass": "--mass", "water_volume": "--water", "acid": "--acid", "base": "--base",
+    "acid_concentration": "--acid-concentration", "base_concentration": "--base-concentration",
+    "acid_volume": "--acid-volume", "base_volume": "--base-volume", "base_temperature": "--base-temperature",
+    "calorimeter_heat_capacity": "--calorimeter", "thermometer_resolution": "--resolution",
+    "thermometer_noise": "--noise", "noise_correlation": "--noise-correlation", "temperature": "--temperature",
+    "interval": "--interval", "fore": "--fore", "after": "--after", "release_time": "--release-time",
+    "probe_time": "--probe-time", "molar_enthalpy": "--enthalpy", "delta_t_window": "--min-change/--max-change",
+    "balance_u": "--balance", "volume_u": "--glassware",
+    "solute.formula": "--formula", "acid.formula": "--acid", "base.formula": "--base",
+}
+
+
+def _message(exc: CupcalError) -> str:
+    """Return an error message that names the command-line option instead of the parameter."""
+    if isinstance(exc, InputError) and exc.field in _OPTION_OF:
+        return f"{_OPTION_OF[exc.field]}: {exc.message}"
+    if isinstance(exc, InputError) and exc.field and exc.field.startswith("--"):
+        return f"{exc.field}: {exc.message}"
+    return str(exc)
+
+
+def _num(x: float) -> float | None:
+    return float(x) if math.isfinite(x) else None
+
+
+def plan_record(plan: Any) -> dict[str, Any]:
+    """Return a plan as a JSON-ready dict."""
+    s = plan.suggestion
+    return {
+        "kind": plan.kind,
+        "predicted_delta_t": {"value": plan.predicted_delta_t, "standard_uncertainty": plan.predicted_u_delta_t,
+                              "unit": "K", "components": plan.delta_t_components},
+        "molar_enthalpy": {"value": plan.predicted_result, "standard_uncertainty": plan.predicted_u,
+                           "unit": plan.result_unit},
+        "expanded_uncertainty": plan.predicted_U,
+        "coverage_factor": plan.coverage_factor,
+        "degrees_of_freedom": _num(plan.dof_eff),
+        "expected_from": plan.expected_note,
+        "window_K": list(plan.window),
+        "limiting": plan.limiting,
+        "equipment": [{"equipment": e.equipment, "share": e.share, "contribution": e.contribution,
+                       "inputs": list(e.inputs)} for e in plan.equipment],
+        "budget": [b.as_dict() for b in plan.budget],
+        "suggestion": None if s is None else {
+            "quantity": s.quantity, "unit": s.unit, "current": s.current, "low": s.low, "high": s.high,
+            "recommended": s.recommended, "predicted_delta_t": s.predicted_delta_t, "message": s.message},
+        "warnings": list(plan.warnings),
+        "cautions": [{"substance": c.substance, "signal_word": c.signal_word,
+                      "hazard_statements": list(c.hazard_statements), "pictograms": list(c.pictograms),
+                      "note": c.note} for c in plan.cautions],
+        "run_file": plan.run_file,
+    }
+
+
+def format_plan(plan: Any) -> str:
+    """Return the human-readable plan."""
+    from calc.report import format_value
+
+    lines = [f"Plan of a {plan.kind} run", ""]
+    lines.append(f"  expected ΔH       {plan.predicted_result:.2f} {plan.result_unit}")
+    lines.append(f"                    from {plan.expected_note}")
+    lines.append(f"  predicted ΔT      {format_value(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
+                 f"(start {plan.start_temperature_K - 273.15:.1f} °C; useful |ΔT| {plan.window[0]:g}–{plan.window[1]:g} K)")
+    d = max(0, 1 - math.floor(math.log10(plan.predicted_U))) if plan.predicted_U > 0 else 3
+    rel = 100 * plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else math.nan
+    lines.append(f"  predicted ΔH      {plan.predicted_result:.{d}f} ± {plan.predicted_U:.{d}f} {plan.result_unit}  "
+                 f"(U at 95 %, k = {plan.coverage_factor:.2f}; {rel:.1f} %)")
+    lines.append("")
+    lines.append("what limits the result (share of u²(ΔH)):")
+    for e in plan.equipment:
+        if e.share >= 0.001:
+            lines.append(f"  {100 * e.share:5.1f} %  {e.equipment}")
+    lines.append(f"  → limited by: {plan.limiting}")
+    if plan.suggestion is not None:
+        s = plan.suggestion
+        lines.append("")
+        lines.append(f"amount: {s.message}")
+        lines.append(f"  {s.quantity}: {s.low:.3g}–{s.high:.3g} {s.unit} keeps |ΔT| in the window; "
+                     f"recommended {s.recommended:.3g} {s.unit}")
+    if plan.warnings:
+        lines.append("")
+        lines.append("warnings:")
+        lines.extend(f"  ! {w}" for w in plan.warnings)
+    lines.append("")
+    lines.append("safety:")
+    for c in plan.cautions:
+        if c.substance == "general":
+            lines.append(f"  {c.note}")
+            continue
+        statements = "; ".join(c.hazard_statements) if c.hazard_statements else "no GHS classification on file"
+        sig = f"{c.signal_word}: " if c.signal_word else ""
+        lines.append(f"  {c.substance}: {sig}{statements}")
+        if c.note:
+            lines.append(f"    {c.note}")
+    lines.append("")
+    lines.append("planned run file (record the readings, then `cupcal analyze`):")
+    lines.extend("  " + line for line in plan.run_file.rstrip().splitlines())
+    return "\n".join(lines)
+
+
+def temperature_difference_K(text: str, option: str) -> float:
+    """Return a temperature difference written with its unit (``"0.01 K"``, ``"5 mK"``) in kelvin.
+
+    A bare number is kelvin and 1 degC counts as 1 K (a difference, not a temperature).
+
+    Raises
+    ------
+    InputError
+        Naming ``option``, for text that is not a temperature difference ≥ 0.
+    """
+    from dataclasses import replace
+
+    from calc.measured import parse_measured
+
+    try:
+        x = float(text)
+    except ValueError:
+        m = parse_measured(text, field=option, expected="K")
+        x = math.copysign(replace(m, u=abs(m.value)).u_as("K"), m.value)  # the scale only, no offset
+    if not (math.isfinite(x) and x >= 0):
+        raise InputError(f"expected a temperature difference ≥ 0 K, got {text!r}", field=option)
+    return x
+
+
+def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) -> float | None:
+    """Return ``text`` in ``unit`` (a bare number is taken in that unit when ``bare``), or None."""
+    if text is None:
+        return None
+    from calc.measured import parse_measured
+
+    if bare:
+        try:
+            return float(text)
+        except ValueError:
+            pass
+    return parse_measured(text, field=option, expected=unit).m_as(unit)
+
+
+@click.command("plan")
+@click.argument("kind", type=click.Choice(["dissolution", "neutralization"]))
+@click.option("--formula", help="Solute to dissolve, e.g. KCl (dissolution).")
+@click.option("--mass", help='Mass of solute, e.g. "3.00 g" (dissolution).')
+@click.option("--water", help='Water in the cup, e.g. "100.0 mL" (dissolution).')
+@click.option("--acid", help="Acid in the cup, e.g. HCl (neutralization).")
+@click.option("--base", help="Base poured in, e.g. NaOH (neutralization).")
+@click.option("--acid-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
+@click.option("--base-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
+@click.option("--acid-volume", help='Acid in the cup, e.g. "50.0 mL".')
+@click.option("--base-volume", help='Base poured in, e.g. "50.0 mL".')
+@click.option("--base-temperature", help="Temperature of the base before pouring (default: the start temperature).")
+@click.option("--calorimeter", required=True, help='Calorimeter heat capacity, e.g. "18 ± 2 J/K".')
+@click.option("--resolution", required=True, help='Thermometer resolution, e.g. "0.01 K".')
+@click.option("--noise", default="0.005 K", show_default=True, help="Thermometer noise (standard deviation).")
+@click.option("--noise-correlation", type=float, default=0.0, show_default=True,
+              help="Lag-1 correlation of the noise (0 to 0.95).")
+@click.option("--balance", help='Balance standard uncertainty for masses written without ±, e.g. "0.0002 g".')
+@click.option("--glassware", help='Glassware standard uncertainty for volumes written without ±, e.g. "0.1 mL".')
+@click.option("--temperature", default="22 degC", show_default=True, help="Start (room) temperature.")
+@click.option("--min-change", help="Smallest useful |ΔT| (default: the larger of 1 K and 20 × resolution).")
+@click.option("--max-change", default="10 K", show_default=True, help="Largest useful |ΔT|.")
+@click.option("--interval", default="2 s", show_default=True, help="Time between readings.")
+@click.option("--fore", default="3 min", show_default=True, help="Readings before mixing.")
+@click.option("--after", default="15 min", show_default=True, help="Readings after mixing.")
+@click.option("--release-time", help="Release time constant (default 60 s dissolution, 5 s neutralization).")
+@click.option("--probe-time", default="5 s", show_default=True, help="Thermometer probe time constant.")
+@click.option("--enthalpy", help='Expected ΔH when cupcal has no reference value, e.g. "17.2 kJ/mol".')
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object.")
+def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
+    """Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts.
+
+    Example: cupcal plan dissolution --formula KCl --mass "3.0 g" --water "100 mL"
+    --calorimeter "18 ± 2 J/K" --resolution "0.01 K" --balance "0.0002 g" --glassware "0.1 mL"
+    """
+    from calc.plan import MIN_DELTA_T_K, RESOLUTION_MULTIPLE, plan_run
+
+    try:
+        q = temperature_difference_K(opts["resolution"], "--resolution")
+        window = (temperature_difference_K(opts["min_change"], "--min-change") if opts["min_change"] is not None
+                  else max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q),
+                  temperature_difference_K(opts["max_change"], "--max-change"))
+        seconds = {name: _quantity(opts[name], "--" + name.replace("_", "-"), "s")
+                   for name in ("interval", "fore", "after", "release_time", "probe_time")}
+        plan = plan_run(
+            kind,
+            formula=opts["formula"], mass=opts["mass"], water_volume=opts["water"], acid=opts["acid"],
+            base=opts["base"], acid_concentration=opts["acid_concentration"],
+            base_concentration=opts["base_concentration"], acid_volume=opts["acid_volume"],
+            base_volume=opts["base_volume"], base_temperature=opts["base_temperature"],
+            calorimeter_heat_capacity=opts["calorimeter"], thermometer_resolution=q,
+            thermometer_noise=temperature_difference_K(opts["noise"], "--noise"),
+            noise_correlation=opts["noise_correlation"], balance_u=_quantity(opts["balance"], "--balance", "g"),
+            volume_u=_quantity(opts["glassware"], "--glassware", "mL"),
+            temperature=_quantity(opts["temperature"], "--temperature", "K", bare=False), delta_t_window=window,
+            molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"), **seconds,
+        )
+    except CupcalError as exc:
+        click.echo(f"cupcal plan: error: {_message(exc)}", err=True)
+        sys.exit(2)
+    if as_json:
+        click.echo(json.dumps(plan_record(plan), ensure_ascii=False))
+    else:
+        click.echo(format_plan(plan))

@@ -1,0 +1,320 @@
+"""Control charts of check-standard runs, run rules and calibration due dates.
+
+An individuals chart (SCIENCE.md §5.2; ISO 7870-2): the centre line is the mean of a baseline
+period of in-control results, and the standard deviation is estimated from the average moving
+range of consecutive results, ``σ̂ = MR̄/d₂`` with ``d₂ = 1.128`` for ranges of two. The limits
+are the centre ± 1, 2 and 3 σ̂; the moving-range chart's upper limit is ``D₄·MR̄`` with
+``D₄ = 3.267``. Both constants follow from the normal distribution — the range of two normal
+values is √2·σ times a half-normal variable — and are computed here with ``scipy.stats.halfnorm``.
+
+The run rules are those the product owner asked for (one point beyond 3 s; two of three beyond
+2 s on one side; four of five beyond 1 s on one side; eight in a row on one side; six in a row
+rising or falling), written as ``s`` for the chart's σ̂. A rule is flagged at the point that
+completes its pattern; for the "beyond" rules that point must itself lie beyond the limit, so one
+pattern is not flagged again as the window slides on. Limits should come from about 20 in-control
+points that are not the points being judged.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+
+import numpy as np
+from scipy import stats as sps
+
+from calc.errors import InputError
+
+__all__ = [
+    "D2",
+    "D3",
+    "D4",
+    "RULES",
+    "ControlLimits",
+    "Violation",
+    "ControlChart",
+    "moving_ranges",
+    "individuals_limits",
+    "run_rules",
+    "control_chart",
+    "CalibrationStatus",
+    "calibration_due",
+    "calibration_status",
+    "is_overdue",
+    "BASELINE_ADVISED",
+]
+
+#: d₂: mean range of two standard normal values, √2·E|Z| for Z half-normal (= 2/√π ≈ 1.128).
+D2 = math.sqrt(2.0) * float(sps.halfnorm.mean())
+#: d₃: standard deviation of that range, √2·SD of the half-normal (≈ 0.853).
+D3 = math.sqrt(2.0) * float(sps.halfnorm.std())
+#: D₄ = 1 + 3 d₃/d₂: upper limit factor of the moving-range chart (≈ 3.267).
+D4 = 1.0 + 3.0 * D3 / D2
+
+#: In-control baseline points advised for the limits (SCIENCE.md §5.2).
+BASELINE_ADVISED = 20
+
+#: Rule identifiers and their meaning, in the order they are checked.
+RULES: dict[str, str] = {
+    "beyond-3s": "one point beyond 3 s",
+    "2-of-3-beyond-2s": "two of three points in a row beyond 2 s on one side",
+    "4-of-5-beyond-1s": "four of five points in a row beyond 1 s on one side",
+    "8-on-one-side": "eight points in a row on one side of the centre line",
+    "6-trend": "six points in a row steadily rising or falling",
+}
+
+
+def _series(values: Sequence[float] | np.ndarray, what: str, minimum: int) -> np.ndarray:
+    try:
+        x = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError(f"{what}: expected a list of numbers, got {values!r}") from None
+    if x.ndim != 1:
+        raise InputError(f"{what}: expected a flat list of numbers")
+    if not np.all(np.isfinite(x)):
+        bad = int(np.flatnonzero(~np.isfinite(x))[0])
+        raise InputError(f"{what}: point {bad + 1} is not a finite number ({x[bad]})")
+    if x.size < minimum:
+        raise InputError(f"{what}: at least {minimum} points are needed, got {x.size}")
+    return x
+
+
+def moving_ranges(values: Sequence[float] | np.ndarray) -> np.ndarray:
+    """Return the moving ranges |x_i − x_{i−1}| of consecutive values (one fewer than the values)."""
+    x = _series(values, "moving ranges", 2)
+    return np.abs(np.diff(x))
+
+
+@dataclass(frozen=True)
+class ControlLimits:
+    """Centre line and limits of an individuals chart, from a baseline period.
+
+    Attributes
+    ----------
+    centre, sigma:
+        Mean of the baseline and σ̂ = MR̄/d₂.
+    mr_bar, mr_ucl:
+        Average moving range and the moving-range chart's upper limit D₄·MR̄.
+    n_baseline:
+        Number of baseline points.
+    lower_3s, lower_2s, lower_1s, upper_1s, upper_2s, upper_3s:
+        centre ∓ 3, 2, 1 σ̂ (2 s: warning, 3 s: action).
+    warnings:
+        E.g. a baseline shorter than advised.
+    """
+
+    centre: float
+    sigma: float
+    mr_bar: float
+    mr_ucl: float
+    n_baseline: int
+    lower_3s: float
+    lower_2s: float
+    lower_1s: float
+    upper_1s: float
+    upper_2s: float
+    upper_3s: float
+    warnings: tuple[str, ...] = ()
+
+
+def individuals_limits(baseline: Sequence[float] | np.ndarray) -> ControlLimits:
+    """Return the individuals-chart limits from a baseline of in-control results.
+
+    Parameters
+    ----------
+    baseline:
+        At least 2 results in time order (about 20 are advised).
+
+    Returns
+    -------
+    ControlLimits
+
+    Raises
+    ------
+    InputError
+        For fewer than 2 points, a non-finite value, or a baseline without any variation.
+    """
+    x = _series(baseline, "control-chart baseline", 2)
+    mr_bar = float(np.mean(np.abs(np.diff(x))))
+    if mr_bar <= 0:
+        raise InputError("control-chart baseline: consecutive results never differ, so no limits can be set")
+    c = float(x.mean())
+    s = mr_bar / D2
+    warnings = ()
+    if x.size < BASELINE_ADVISED:
+        warnings = (f"limits from {x.size} baseline points; about {BASELINE_ADVISED} in-control points are advised",)
+    return ControlLimits(
+        centre=c, sigma=s, mr_bar=mr_bar, mr_ucl=D4 * mr_bar, n_baseline=int(x.size),
+        lower_3s=c - 3 * s, lower_2s=c - 2 * s, lower_1s=c - s, upper_1s=c + s, upper_2s=c + 2 * s,
+        upper_3s=c + 3 * s, warnings=warnings,
+    )
+
+
+@dataclass(frozen=True)
+class Violation:
+    """A run rule broken at a point of the chart (``index`` is 0-based; messages count from 1)."""
+
+    index: int
+    rule: str
+    message: str
+
+
+def _side(z: float) -> str:
+    return "above" if z > 0 else "below"
+
+
+def run_rules(values: Sequence[float] | np.ndarray, centre: float, sigma: float) -> list[Violation]:
+    """Check the run rules of :data:`RULES` on a sequence of results.
+
+    Parameters
+    ----------
+    values:
+        The results in time order.
+    centre, sigma:
+        Centre line and σ̂ of the chart (e.g. from :func:`individuals_limits`).
+
+    Returns
+    -------
+    list of Violation
+        Sorted by point, then in the order of :data:`RULES`. A point on the centre line is on
+        neither side; equal neighbours break a trend; "beyond k s" means strictly beyond.
+
+    Raises
+    ------
+    InputError
+        For a non-finite value or centre, or sigma ≤ 0.
+    """
+    x = _series(values, "control chart", 0)
+    try:
+        ok = math.isfinite(float(centre)) and math.isfinite(float(sigma)) and float(sigma) > 0
+    except (TypeError, ValueError):
+        ok = False
+    if not ok:
+        raise InputError(f"control chart: need a finite centre line and sigma > 0, got {centre!r}, {sigma!r}")
+    z = (x - centre) / sigma
+    sign = np.sign(z)
+    out: list[Violation] = []
+    n = z.size
+    for i in range(n):
+        zi = float(z[i])
+        p = i + 1  # 1-based for messages
+        if abs(zi) > 3:
+            out.append(Violation(i, "beyond-3s", f"point {p} lies {zi:+.2f} s from the centre line (beyond 3 s)"))
+        if i >= 2 and abs(zi) > 2:
+            w = z[i - 2 : i + 1]
+            if int(np.sum(np.sign(zi) * w > 2)) >= 2:
+                out.append(Violation(i, "2-of-3-beyond-2s",
+                                     f"2 of points {p - 2}–{p} lie beyond 2 s {_side(zi)} the centre line"))
+        if i >= 4 and abs(zi) > 1:
+            w = z[i - 4 : i + 1]
+            if int(np.sum(np.sign(zi) * w > 1)) >= 4:
+                out.append(Violation(i, "4-of-5-beyond-1s",
+                                     f"4 of points {p - 4}–{p} lie beyond 1 s {_side(zi)} the centre line"))
+        if i >= 7 and sign[i] != 0 and np.all(sign[i - 7 : i + 1] == sign[i]):
+            out.append(Violation(i, "8-on-one-side",
+                                 f"points {p - 7}–{p} all lie {_side(zi)} the centre line"))
+        if i >= 5:
+            d = np.diff(x[i - 5 : i + 1])
+            if np.all(d > 0) or np.all(d < 0):
+                way = "rising" if d[0] > 0 else "falling"
+                out.append(Violation(i, "6-trend", f"points {p - 5}–{p} are steadily {way}"))
+    return out
+
+
+@dataclass(frozen=True)
+class ControlChart:
+    """An individuals chart: its limits, the points judged and the rules they break."""
+
+    limits: ControlLimits
+    values: tuple[float, ...]
+    moving_ranges: tuple[float, ...]
+    violations: tuple[Violation, ...]
+    moving_range_violations: tuple[int, ...]  # indices i whose |x_i − x_{i−1}| exceeds D₄·MR̄
+
+
+def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Sequence[float]) -> ControlChart:
+    """Build an individuals chart of ``values`` with limits from a baseline.
+
+    Parameters
+    ----------
+    values:
+        The results in time order.
+    baseline:
+        The number of leading ``values`` that form the baseline period, or a separate sequence of
+        in-control baseline results.
+
+    Returns
+    -------
+    ControlChart
+        Every point of ``values`` is judged against the baseline's limits.
+    """
+    x = _series(values, "control chart", 1)
+    if isinstance(baseline, (int, np.integer)):
+        if not 2 <= int(baseline) <= x.size:
+            raise InputError(f"control chart: the baseline must be 2 to {x.size} points, got {baseline}",
+                             field="baseline")
+        base = x[: int(baseline)]
+    else:
+        base = _series(baseline, "control-chart baseline", 2)
+    limits = individuals_limits(base)
+    mr = np.abs(np.diff(x))
+    mr_bad = tuple(int(i) + 1 for i in np.flatnonzero(mr > limits.mr_ucl))
+    return ControlChart(limits, tuple(float(v) for v in x), tuple(float(v) for v in mr),
+                        tuple(run_rules(x, limits.centre, limits.sigma)), mr_bad)
+
+
+# ------------------------------------------------------------------------ calibration
+
+
+@dataclass(frozen=True)
+class CalibrationStatus:
+    """When a calorimeter's calibration falls due, and whether it is overdue on ``today``."""
+
+    last_calibration: date
+    interval_days: int
+    due: date
+    overdue: bool
+    days_left: int  # negative when overdue
+
+
+def _as_date(d: date | datetime, what: str) -> date:
+    if isinstance(d, datetime):
+        return d.date()
+    if isinstance(d, date):
+        return d
+    raise InputError(f"{what}: expected a date, got {d!r}", field=what)
+
+
+def calibration_due(last_calibration: date | datetime, interval_days: int) -> date:
+    """Return the date a calibration falls due: ``interval_days`` after the last one.
+
+    Raises
+    ------
+    InputError
+        For a non-date or an interval that is not a positive whole number of days.
+    """
+    last = _as_date(last_calibration, "last_calibration")
+    whole = isinstance(interval_days, (int, np.integer)) and not isinstance(interval_days, bool)
+    if not (whole and interval_days >= 1):
+        raise InputError(f"expected a positive whole number of days, got {interval_days!r}", field="interval_days")
+    return last + timedelta(days=int(interval_days))
+
+
+def calibration_status(
+    last_calibration: date | datetime, interval_days: int, today: date | datetime | None = None
+) -> CalibrationStatus:
+    """Return the due date and whether the calibration is overdue on ``today`` (default: today).
+
+    The calibration is still valid on its due date and overdue from the day after.
+    """
+    due = calibration_due(last_calibration, interval_days)
+    now = date.today() if today is None else _as_date(today, "today")
+    left = (due - now).days
+    return CalibrationStatus(_as_date(last_calibration, "last_calibration"), int(interval_days), due, left < 0, left)
+
+
+def is_overdue(last_calibration: date | datetime, interval_days: int, today: date | datetime | None = None) -> bool:
+    """Return True when the calibration's due date has passed on ``today`` (default: today)."""
+    return calibration_status(last_calibration, interval_days, today).overdue

@@ -1,0 +1,549 @@
+"""Plan a run before anyone pours: predicted ΔT, u(ΔH), the limiting equipment, amounts, cautions.
+
+The prediction uses the analysis's own pieces: the planned amounts become a run file
+(:func:`calc.runfile.parse_run`), the property models supply densities and the solution's heat
+capacity (:func:`calc.analysis.resolve_properties`), the kind's model is built by
+:func:`calc.models.build_model` and propagated by :func:`calc.gum.propagate`. Only the corrected
+temperature change is predicted instead of measured:
+
+* its value from the expected ΔH (the reference of :func:`calc.reference.find_reference`, or one
+  given, carried to the planned temperature and molality as :func:`calc.compare.compare` does).
+  The model is affine in ΔT, so ΔT = (ΔH − a)/b with a, b read off the model at two values of ΔT;
+  the properties are re-evaluated at the mean temperature until ΔT settles.
+* its uncertainty components as the default Regnault–Pfaundler method would report them for
+  readings every ``interval`` with noise σ (lag-1 correlation φ) and resolution q:
+
+  - each level keeps the resolution term of :mod:`calc.deltat`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
+    with s the readings' SD, averaged over where a steady level sits within a step (s is the SD of
+    q·round((T + σZ)/q), computed from the normal distribution; with σ ≪ q readings stick to one
+    value and keep the full q/√12);
+  - fit term: both drift lines extrapolated to the equal-area time t_x, each level known to
+    ``s²(1+φ)/(1−φ)·[1/n + 12 (L/2 + d)²/(n L²)]`` (s² averaged as above) for a line fitted to n
+    readings over a window of length L and extrapolated a distance d past its end (d = 0 gives the
+    familiar 4/n). The fore
+    window is ``fore``; the analysis starts the after window at t_m + 8.3 τ_r + τ_s + 15 s (six
+    release time constants past the 90 % point, plus its 15 s smoothing), so L_after = ``after`` −
+    that; t_x ≈ t_m + τ_r + τ_s, and for two solutions the fore line is read at t_m itself.
+    Checked against simulated runs analysed end to end (tests/calc/test_plan.py);
+  - the method term of :data:`calc.deltat.METHOD_TERMS`; no mixing-time term (the Newtonian
+    correction does not need the mixing time).
+
+Useful window of |ΔT|: at least 20 × the resolution and 1 K (resolution and drift corrections stay
+small against the change), at most 10 K (near room temperature, Newtonian exchange, safe to handle);
+a rise above 10 K is flagged as a hot solution. The limiting equipment is the one with the largest
+share of u²(ΔH), budget lines grouped by what they come from (:func:`equipment_of`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Any, NamedTuple
+
+import numpy as np
+from scipy import stats as sps
+
+from calc.analysis import kind_warnings, resolve_properties
+from calc.deltat import resolution_term  # the analysis's own resolution term
+from calc.deltat import DEFAULT_METHOD, METHOD_TERMS, DeltaT
+from calc.errors import InputError
+from calc.gum import BudgetLine, GumResult, propagate
+from calc.measured import Measured, parse_measured
+from calc.models import ModelSpec, Properties, build_model
+from calc.runfile import RunSpec, parse_run
+
+__all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
+           "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
+
+PLANNED_KINDS = ("dissolution", "neutralization")
+MIN_DELTA_T_K = 1.0
+MAX_DELTA_T_K = 10.0
+RESOLUTION_MULTIPLE = 20.0
+HOT_RISE_K = 10.0
+#: After-period length the analysis advises (it warns below 120 s; 5 minutes are advised).
+AFTER_ADVISED_S = 300.0
+#: Typical release time constants (SCIENCE.md §6.2): salts dissolve in 20–120 s, a poured
+#: neutralization mixes in 2–5 s.
+DEFAULT_RELEASE_S = {"dissolution": 60.0, "neutralization": 5.0}
+_SMOOTHING_S = 15.0
+_MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
+
+MeasuredLike = Measured | str
+
+#: Which piece of equipment (or which data) each model input stands for.
+_EQUIPMENT = {
+    "calorimeter.heat_capacity": "calorimeter heat capacity (its calibration)",
+    "delta_t.resolution_start": "thermometer resolution", "delta_t.resolution_end": "thermometer resolution",
+    "delta_t.fit": "thermometer noise (drift fits)", "acid.temperature": "thermometer noise (drift fits)",
+    "delta_t.method": "ΔT correction method", "delta_t.mixing_time": "mixing time",
+    "solute.mass": "balance", "reaction.mass": "balance", "solute.purity": "reagent purity",
+    "acid.concentration": "acid stock (standardisation)", "base.concentration": "base stock (standardisation)",
+    "base.temperature": "thermometer reading of the base before pouring",
+    "mixture.specific_heat_capacity": "property data (densities, heat capacity)",
+}
+
+
+def equipment_of(input_name: str) -> str:
+    """Return the piece of equipment (or data) that a model input's uncertainty comes from."""
+    if input_name in _EQUIPMENT:
+        return _EQUIPMENT[input_name]
+    if input_name.endswith(".volume"):
+        return "volumetric glassware"
+    if input_name.endswith(".density"):
+        return "property data (densities, heat capacity)"
+    return input_name
+
+
+@dataclass(frozen=True)
+class EquipmentShare:
+    """The share of u²(ΔH) that one piece of equipment (or data) carries."""
+
+    equipment: str
+    share: float
+    contribution: float  # √(Σ contributions²), in the result's unit
+    inputs: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Suggestion:
+    """Amounts that keep |ΔT| in the useful window.
+
+    ``quantity`` is the run-file field changed (``solute.mass``, or the two stocks'
+    ``concentration`` scaled together for a neutralization); ``low``/``high`` give |ΔT| at the
+    window's edges and ``recommended`` the amount to use.
+    """
+
+    quantity: str
+    unit: str
+    current: float
+    low: float
+    high: float
+    recommended: float
+    predicted_delta_t: float
+    message: str
+
+
+@dataclass
+class Plan:
+    """A planned run: what it should show and how well it can measure.
+
+    ``predicted_delta_t`` (K, signed) with its standard uncertainty and components; the expected
+    ΔH (``predicted_result``, from ``expected_note``) with the standard and expanded uncertainty
+    the analysis would give it; its ``budget`` (as the analysis's), the same grouped by
+    ``equipment`` (largest share first, ``limiting`` the first); a ``suggestion`` of amounts that
+    keep |ΔT| in ``window`` (None when none can); ``warnings``; the usual ``cautions`` for the
+    substances; and the planned ``run_file`` (the readings still to be recorded).
+    """
+
+    kind: str
+    predicted_delta_t: float
+    predicted_u_delta_t: float
+    delta_t_components: dict[str, float]
+    predicted_result: float
+    predicted_u: float
+    predicted_U: float
+    coverage_factor: float
+    dof_eff: float
+    result_unit: str
+    expected_note: str
+    start_temperature_K: float
+    window: tuple[float, float]
+    budget: list[BudgetLine]
+    equipment: list[EquipmentShare]
+    limiting: str
+    suggestion: Suggestion | None
+    warnings: list[str]
+    cautions: list[Any]
+    properties: Properties
+    run_file: str
+    timing: dict[str, float] = field(default_factory=dict)
+
+
+def _measured(value: MeasuredLike | None, name: str, unit: str) -> Measured:
+    if value is None:
+        raise InputError(f"missing: expected a quantity in {unit}", field=name)
+    if isinstance(value, Measured):
+        try:
+            value.m_as(unit)
+        except Exception:
+            raise InputError(f"expected a quantity in {unit}, got {value.text!r}", field=name) from None
+        return value
+    return parse_measured(value, field=name, expected=unit)
+
+
+def _amount(value: MeasuredLike | None, name: str, unit: str, u: float | None = None) -> Measured:
+    """Return a positive planned amount; ``u`` replaces the last-digit default of a value without ±."""
+    m = _measured(value, name, unit).to(unit)
+    if u is not None and m.distribution != "normal":
+        m = Measured(m.value, float(u), m.unit, "normal", f"{m.value!r} ± {u!r} {m.unit}")
+    if not m.value > 0:
+        raise InputError(f"expected a positive value, got {m.text!r}", field=name)
+    return m
+
+
+def _number(value: float, name: str, *, positive: bool = True) -> float:
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"expected a number, got {value!r}", field=name) from None
+    if not (math.isfinite(x) and (x > 0 if positive else x >= 0)):
+        raise InputError(f"expected a number {'>' if positive else '≥'} 0, got {value!r}", field=name)
+    return x
+
+
+_Thermo = NamedTuple("_Thermo", [("q", float), ("sigma", float), ("phi", float), ("interval", float),
+                                  ("fore", float), ("after", float), ("tau_r", float), ("tau_s", float)])
+
+
+def _timing(th: _Thermo, two_solution: bool) -> dict[str, float]:
+    main = _MAIN_FACTOR * th.tau_r + th.tau_s + _SMOOTHING_S
+    after_window = max(th.after - main, 60.0)
+    d_fore = 0.0 if two_solution else th.tau_r + th.tau_s
+    return {"main_s": main, "after_window_s": after_window, "fore_window_s": th.fore,
+            "extrapolation_fore_s": d_fore, "extrapolation_after_s": main - d_fore}
+
+
+def _reading_sd(q: float, sigma: float) -> tuple[float, float]:
+    """Return (RMS residual SD the fits see, mean resolution term) over the level's place in a step.
+
+    A reading is q·round((T + σZ)/q); where a steady level sits within a step (offset u, uniform)
+    decides the readings' scatter: with σ ≪ q they stick to one value (SD 0, so no dither credit).
+    """
+    u = (np.arange(32) + 0.5) / 32 * q
+    if sigma <= 0:
+        sd = np.zeros_like(u)
+    else:
+        k = np.arange(math.floor(-6 * sigma / q) - 1, math.ceil((q + 6 * sigma) / q) + 2)[:, None] * q
+        p = sps.norm.cdf((k + q / 2 - u) / sigma) - sps.norm.cdf((k - q / 2 - u) / sigma)
+        mean = (p * k).sum(axis=0)
+        sd = np.sqrt(np.maximum((p * k * k).sum(axis=0) - mean**2, 0.0))
+    return math.sqrt(float(np.mean(sd**2))), float(np.mean([resolution_term(q, float(x)) for x in sd]))
+
+
+def _delta_t(value: float, T0: float, th: _Thermo, two_solution: bool) -> DeltaT:
+    """Return the DeltaT the analysis would report for a planned change ``value``."""
+    tm = _timing(th, two_solution)
+    s_read, u_res = _reading_sd(th.q, th.sigma)
+    s2 = s_read**2
+    infl = (1.0 + th.phi) / (1.0 - th.phi)
+
+    def level_var(L: float, d: float) -> tuple[float, float]:
+        n = L / th.interval + 1.0
+        return s2 * infl * (1.0 / n + 12.0 * (L / 2.0 + d) ** 2 / (n * L * L)), n
+
+    v_f, n_f = level_var(tm["fore_window_s"], tm["extrapolation_fore_s"])
+    v_a, n_a = level_var(tm["after_window_s"], tm["extrapolation_after_s"])
+    dof = (min(n_a / infl - 3.0, n_f / infl - 2.0) if two_solution else (n_f + n_a) / infl - 4.0)
+    return DeltaT(
+        method=DEFAULT_METHOD, value=value, u_fit=math.sqrt(v_f + v_a), dof_fit=max(dof, 1.0),
+        u_resolution_start=u_res, u_resolution_end=u_res,
+        u_method=METHOD_TERMS[DEFAULT_METHOD] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,
+        start_temperature=T0, u_start_temperature=math.sqrt(s2 * infl * 4.0 / n_f),  # fore line at its end
+        end_temperature=T0 + value,
+    )
+
+
+@dataclass
+class _Design:
+    kind: str
+    sections: dict[str, dict[str, Any]]
+    T0: float
+    thermo: _Thermo
+    enthalpy: float | None  # given expected ΔH, kJ/mol
+    substances: list[str]
+
+    @property
+    def two_solution(self) -> bool:
+        return self.kind == "neutralization"
+
+    def scaled(self, factor: float) -> _Design:
+        secs = {k: dict(v) for k, v in self.sections.items()}
+        keys = [("solute", "mass")] if self.kind == "dissolution" else [("acid", "concentration"), ("base", "concentration")]
+        for sec, name in keys:
+            m = secs[sec][name]
+            secs[sec][name] = Measured(m.value * factor, m.u, m.unit, m.distribution, f"{m.value * factor!r} {m.unit}")
+        return replace(self, sections=secs)
+
+    def amount(self) -> tuple[str, float, str]:
+        if self.kind == "dissolution":
+            m = self.sections["solute"]["mass"]
+            return "solute.mass", m.value, m.unit
+        m = self.sections["acid"]["concentration"]
+        return "acid.concentration and base.concentration (scaled together)", m.value, m.unit
+
+    def run_file(self) -> str:
+        lines = [f'kind = "{self.kind}"', 'readings = "readings.csv"  # the log to be recorded', "",
+                 "[thermometer]", f'resolution = "{self.thermo.q:g} K"']
+        for sec, fields in self.sections.items():
+            lines += ["", f"[{sec}]"]
+            for name, v in fields.items():
+                text = v if isinstance(v, str) else f"{v.value:.6g} ± {v.u:.2g} {v.unit}"
+                lines.append(f'{name} = "{text}"')
+        return "\n".join(lines) + "\n"
+
+    def spec(self) -> RunSpec:
+        spec = parse_run(self.run_file(), source="plan")
+        for sec, fields in self.sections.items():  # keep each input's own distribution
+            for name, v in fields.items():
+                if isinstance(v, Measured):
+                    spec.sections[sec][name] = v
+        return spec
+
+
+_Evaluation = NamedTuple("_Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", Properties),
+                                          ("model", ModelSpec), ("expected", float), ("note", str)])
+
+
+def _expected(design: _Design, molality: float | None, T: float) -> tuple[float, str]:
+    if design.enthalpy is not None:
+        return design.enthalpy, "expected ΔH as given"
+    from calc.reference import find_reference
+
+    sec = design.sections
+    ref = (find_reference("dissolution", formula=sec["solute"]["formula"]) if design.kind == "dissolution" else
+           find_reference("neutralization", acid=sec["acid"]["formula"], base=sec["base"]["formula"]))
+    if ref is None:
+        what = ", ".join(design.substances)
+        raise InputError(f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
+                         field="molar_enthalpy")
+    from calc.compare import compare
+
+    c = compare(ref.value, 0.0, ref, molality=molality, T_K=T) if ref.u > 0 else None
+    if c is not None and c.adjusted_reference is not None:
+        return c.adjusted_reference, f"{ref.name} ({ref.value:.2f} kJ/mol; {'; '.join(c.adjustments)}) — {ref.source}"
+    return ref.value, f"{ref.name} ({ref.value:.2f} kJ/mol) — {ref.source}"
+
+
+def _evaluate(design: _Design) -> _Evaluation:
+    """Predict ΔT from the expected ΔH through the run kind's own model (iterated for properties)."""
+    spec = design.spec()
+    main = "molar_enthalpy"
+    value = 0.0
+    for _ in range(6):
+        dt = _delta_t(value, design.T0, design.thermo, design.two_solution)
+        props = resolve_properties(spec, dt)
+        model = build_model(spec, dt, props)
+        expected, note = _expected(design, model.molality, design.T0)
+        x = {inp.name: inp.value for inp in model.inputs}
+        h = []
+        for probe in (1.0, 2.0):
+            x["delta_t.fit"] = probe
+            h.append(float(model.model(x)[main]))
+        slope = h[1] - h[0]
+        if slope == 0 or not math.isfinite(slope):
+            raise InputError("the planned amounts give no temperature change: check the amounts", field="amount")
+        new = (expected - (h[0] - slope)) / slope
+        done = abs(new - value) <= 1e-7 * max(abs(new), 1e-3)
+        value = new
+        if done:
+            break
+    dt = _delta_t(value, design.T0, design.thermo, design.two_solution)
+    props = resolve_properties(spec, dt)
+    model = build_model(spec, dt, props)
+    return _Evaluation(spec, dt, props, model, expected, note)
+
+
+def _solve_amount(design: _Design, target: float) -> tuple[float, float]:
+    """Return (scale factor of the amount, ΔT) that gives |ΔT| = ``target``."""
+    factor, dT = 1.0, _evaluate(design).dt.value
+    for _ in range(8):
+        if dT == 0:
+            break
+        new = factor * target / abs(dT)
+        dT = _evaluate(design.scaled(new)).dt.value
+        if abs(new - factor) <= 1e-5 * new:
+            factor = new
+            break
+        factor = new
+    return factor, dT
+
+
+def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggestion | None:
+    lo, hi = window
+    if lo >= hi:
+        return None
+    quantity, current, unit = design.amount()
+    f_lo, _ = _solve_amount(design, lo)
+    f_hi, _ = _solve_amount(design, hi)
+    a = abs(dT)
+    if lo <= a <= hi:
+        rec, rec_dt = 1.0, dT
+        msg = f"|ΔT| = {a:.2f} K is inside the useful window {lo:g}–{hi:g} K"
+    else:
+        target = lo * 1.25 if a < lo else hi * 0.8
+        target = min(max(target, lo), hi)
+        rec, rec_dt = _solve_amount(design, target)
+        why = "too small against the thermometer and the drift" if a < lo else "too large (far from room temperature)"
+        msg = f"|ΔT| = {a:.2f} K is {why}: use about {current * rec:.3g} {unit} for |ΔT| ≈ {abs(rec_dt):.2f} K"
+    return Suggestion(quantity, unit, current, current * f_lo, current * f_hi, current * rec, rec_dt, msg)
+
+
+def _equipment(budget: list[BudgetLine]) -> list[EquipmentShare]:
+    groups: dict[str, list[BudgetLine]] = {}
+    for b in budget:
+        groups.setdefault(equipment_of(b.name), []).append(b)
+    out = [EquipmentShare(k, sum(b.share for b in v), math.sqrt(sum(b.contribution**2 for b in v)),
+                          tuple(b.name for b in v)) for k, v in groups.items()]
+    return sorted(out, key=lambda e: -e.share)
+
+
+def plan_run(
+    kind: str,
+    *,
+    calorimeter_heat_capacity: MeasuredLike,
+    thermometer_resolution: float,
+    thermometer_noise: float = 0.005,
+    noise_correlation: float = 0.0,
+    formula: str | None = None,
+    mass: MeasuredLike | None = None,
+    water_volume: MeasuredLike | None = None,
+    acid: str | None = None,
+    base: str | None = None,
+    acid_concentration: MeasuredLike | None = None,
+    base_concentration: MeasuredLike | None = None,
+    acid_volume: MeasuredLike | None = None,
+    base_volume: MeasuredLike | None = None,
+    base_temperature: MeasuredLike | None = None,
+    balance_u: float | None = None,
+    volume_u: float | None = None,
+    temperature: float = 295.15,
+    delta_t_window: tuple[float, float] | None = None,
+    interval: float = 2.0,
+    fore: float = 180.0,
+    after: float = 900.0,
+    release_time: float | None = None,
+    probe_time: float = 5.0,
+    molar_enthalpy: float | None = None,
+) -> Plan:
+    """Predict a run's temperature change and the uncertainty of its ΔH before it is made.
+
+    Parameters
+    ----------
+    kind:
+        ``"dissolution"`` (``formula``, ``mass``, ``water_volume``) or ``"neutralization"``
+        (``acid``, ``acid_concentration``, ``acid_volume`` in the cup; ``base``,
+        ``base_concentration``, ``base_volume`` poured in at ``base_temperature``, by default the
+        start temperature read with the same thermometer).
+    calorimeter_heat_capacity:
+        With its uncertainty, e.g. ``"18 ± 2 J/K"``.
+    thermometer_resolution, thermometer_noise, noise_correlation:
+        Resolution q and noise σ in K (a standard deviation); lag-1 correlation φ of the noise.
+    balance_u, volume_u:
+        Standard uncertainties (g, mL) of the balance and the glassware for amounts written
+        without ``±`` (an explicit ``±`` wins; with neither, half a unit of the last digit).
+    temperature:
+        Start (room) temperature in K.
+    delta_t_window:
+        (low, high) useful |ΔT| in K; default (max(1 K, 20 q), 10 K).
+    interval, fore, after, release_time, probe_time:
+        Reading interval, fore period, log length after mixing, release time constant τ_r (default
+        60 s dissolution, 5 s neutralization) and probe time constant, in seconds.
+    molar_enthalpy:
+        Expected ΔH in kJ/mol, when the reference library has none (or to override it).
+
+    Returns
+    -------
+    Plan
+
+    Raises
+    ------
+    InputError
+        For an unknown kind, a missing or wrongly dimensioned input (naming it), or a substance
+        without a reference value and no ``molar_enthalpy``.
+    """
+    if kind not in PLANNED_KINDS:
+        raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLANNED_KINDS)}", field="kind")
+    q = _number(thermometer_resolution, "thermometer_resolution")
+    sigma = _number(thermometer_noise, "thermometer_noise", positive=False)
+    if not 0.0 <= noise_correlation < 0.95:
+        raise InputError(f"expected a noise correlation between 0 and 0.95, got {noise_correlation!r}",
+                         field="noise_correlation")
+    T0 = _number(temperature, "temperature")
+    tau_r = DEFAULT_RELEASE_S[kind] if release_time is None else release_time
+    th = _Thermo(q, sigma, float(noise_correlation), *(_number(v, n) for v, n in (
+        (interval, "interval"), (fore, "fore"), (after, "after"), (tau_r, "release_time"), (probe_time, "probe_time"))))
+    sections: dict[str, dict[str, Any]] = {
+        "calorimeter": {"heat_capacity": _measured(calorimeter_heat_capacity, "calorimeter_heat_capacity", "J/K")}}
+    if kind == "dissolution":
+        if not formula:
+            raise InputError("missing: the solute's formula, e.g. KCl", field="formula")
+        sections["water"] = {"volume": _amount(water_volume, "water_volume", "mL", volume_u)}
+        sections["solute"] = {"formula": formula.strip(), "mass": _amount(mass, "mass", "g", balance_u)}
+        substances = [formula.strip()]
+    else:
+        if not acid or not base:
+            raise InputError("missing: the acid's and the base's formulas, e.g. HCl and NaOH",
+                             field="acid" if not acid else "base")
+        if base_temperature is None:
+            u_read = math.sqrt(q * q / 12.0 + sigma * sigma)
+            tb = Measured(T0 - 273.15, u_read, "degC", "normal", f"{T0 - 273.15:.2f} ± {u_read:.2g} degC")
+        else:
+            tb = _measured(base_temperature, "base_temperature", "K")
+        sections["acid"] = {"formula": acid.strip(),
+                            "concentration": _amount(acid_concentration, "acid_concentration", "mol/L"),
+                            "volume": _amount(acid_volume, "acid_volume", "mL", volume_u)}
+        sections["base"] = {"formula": base.strip(),
+                            "concentration": _amount(base_concentration, "base_concentration", "mol/L"),
+                            "volume": _amount(base_volume, "base_volume", "mL", volume_u), "temperature": tb}
+        substances = [acid.strip(), base.strip()]
+    design = _Design(kind, sections, T0, th, molar_enthalpy, substances)
+    ev = _evaluate(design)
+    gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
+    dT = ev.dt.value
+    window = (max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q), MAX_DELTA_T_K)
+    if delta_t_window is not None:
+        window = (float(delta_t_window[0]), float(delta_t_window[1]))
+        if not 0 < window[0] < window[1]:
+            raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r}", field="delta_t_window")
+    warnings = _warnings(design, ev, gum, window)
+    suggestion = _suggest(design, dT, window)
+    equipment = _equipment(gum.budget)
+    from calc.hazards import cautions_for
+
+    return Plan(
+        kind=kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,
+        delta_t_components={"fit": ev.dt.u_fit, "resolution_start": ev.dt.u_resolution_start,
+                            "resolution_end": ev.dt.u_resolution_end, "method": ev.dt.u_method},
+        predicted_result=gum.values[ev.model.main], predicted_u=gum.uncertainties[ev.model.main],
+        predicted_U=gum.expanded_uncertainty, coverage_factor=gum.coverage_factor, dof_eff=gum.dof_eff,
+        result_unit=ev.model.main_unit, expected_note=ev.note, start_temperature_K=T0, window=window,
+        budget=gum.budget, equipment=equipment, limiting=equipment[0].equipment if equipment else "",
+        suggestion=suggestion, warnings=warnings, cautions=cautions_for(substances), properties=ev.props,
+        run_file=design.run_file(), timing=_timing(th, design.two_solution),
+    )
+
+
+def _warnings(design: _Design, ev: _Evaluation, gum: GumResult, window: tuple[float, float]) -> list[str]:
+    out: list[str] = []
+    dT, q = ev.dt.value, design.thermo.q
+    a = abs(dT)
+    lo, hi = window
+    if lo >= hi:
+        out.append(f"no useful window: the thermometer resolution {q:g} K needs |ΔT| ≥ {lo:g} K; use a finer thermometer")
+    elif a < lo:
+        out.append(f"the predicted |ΔT| = {a:.2f} K is below the useful window ({lo:g}–{hi:g} K)")
+    elif a > hi:
+        out.append(f"the predicted |ΔT| = {a:.2f} K is above the useful window ({lo:g}–{hi:g} K)")
+    if a < 10 * q:
+        out.append(f"|ΔT| is under 10 × the thermometer resolution ({10 * q:g} K): the resolution dominates")
+    if dT > HOT_RISE_K:
+        out.append(
+            f"HOT: the solution will warm by about {dT:.1f} K to about {design.T0 + dT - 273.15:.0f} °C; "
+            "use smaller amounts, add the reagent in portions with stirring, and handle the cup with care"
+        )
+    tm = _timing(design.thermo, design.two_solution)
+    if design.thermo.after - tm["main_s"] < AFTER_ADVISED_S:
+        out.append(
+            f"record at least {tm['main_s'] + AFTER_ADVISED_S:.0f} s after mixing: the release needs about "
+            f"{tm['main_s']:.0f} s and the after period should then last 5 minutes"
+        )
+    if design.thermo.fore < 60.0:
+        out.append("the fore period is short: 3–5 minutes of readings before mixing are advised")
+    for sec, fields in design.sections.items():
+        for name, v in fields.items():
+            if isinstance(v, Measured) and v.distribution != "normal" and name in ("mass", "volume", "heat_capacity"):
+                out.append(f"{sec}.{name} {v.text!r} has no ±: its uncertainty is taken from the last digit "
+                           f"({v.u:.2g} {v.unit}); give the balance's, glassware's or calibration's uncertainty")
+    out.extend(ev.props.warnings)
+    out.extend(kind_warnings(ev.spec, ev.dt, gum, ev.model))
+    return out

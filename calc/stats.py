@@ -1,0 +1,450 @@
+"""Statistics of a class or an inter-group study: outlier tests, ISO 5725-2 precision, Algorithm A.
+
+Everything here works on plain numbers in one unit (the caller's), so it serves ΔH values of a
+section, calorimeter heat capacities of a set of cups or any other repeated result. The formulas
+are those of SCIENCE.md §5.1, §5.3 and §5.4; critical values come from the t and F distributions
+of :mod:`scipy.stats`, never from typed tables:
+
+* Grubbs (two-sided, one suspect): ``G = max|x_i − x̄|/s``,
+  ``G_crit = (n−1)/√n · √(t²/(n−2+t²))``, ``t = t_{α/(2n), n−2}`` (upper quantile).
+* ISO 5725-2 one-way analysis with unequal replicates: ``s_r² = Σ(n_i−1)s_i²/Σ(n_i−1)``,
+  ``s_d² = Σn_i(ȳ_i−ȳ)²/(p−1)``, ``n̄ = [Σn_i − Σn_i²/Σn_i]/(p−1)``,
+  ``s_L² = max(0, (s_d² − s_r²)/n̄)``, ``s_R² = s_L² + s_r²``, ``r = 2.8 s_r``, ``R = 2.8 s_R``.
+* Mandel's h and k, with their critical values
+  ``h = (p−1)t/√(p(t²+p−2))`` (t two-sided at α, p−2 degrees of freedom) and
+  ``k = √(p/(1+(p−1)/F))`` (F upper α quantile, n−1 and (p−1)(n−1) degrees of freedom).
+* Cochran's C = s²_max/Σs_i², critical value ``1/(1+(p−1)/F)`` with F at α/p.
+* Algorithm A of ISO 13528 (robust mean and standard deviation).
+
+These tests *flag*; they never delete a result (SCIENCE.md §5.3, ISO 5725-2 practice).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats as sps
+
+from calc.errors import InputError
+
+__all__ = [
+    "GrubbsResult",
+    "grubbs",
+    "grubbs_critical",
+    "Precision",
+    "iso5725",
+    "mandel_h_k",
+    "mandel_h_critical",
+    "mandel_k_critical",
+    "CochranResult",
+    "cochran",
+    "cochran_critical",
+    "RobustEstimate",
+    "robust_mean_sd",
+    "LIMIT_FACTOR",
+]
+
+#: Factor from a precision standard deviation to the 95 % limit of the difference of two results
+#: (ISO 5725-6 uses 2.8 ≈ 1.96·√2; SCIENCE.md §5.4).
+LIMIT_FACTOR = 2.8
+
+#: Algorithm A constants (ISO 13528 Annex C; SCIENCE.md §5.1): MAD → σ for normal data, the
+#: winsorizing half-width in units of s*, and the correction of the SD of winsorized normal data.
+_MAD_FACTOR = 1.483
+_WINSOR = 1.5
+_WINSOR_SD_FACTOR = 1.134
+
+
+# ---------------------------------------------------------------------------- helpers
+
+
+def _values(values: Sequence[float] | np.ndarray, what: str, minimum: int) -> np.ndarray:
+    """Return ``values`` as a finite 1-D float array of at least ``minimum`` items."""
+    try:
+        x = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError(f"{what}: expected a list of numbers, got {values!r}") from None
+    if x.ndim != 1:
+        raise InputError(f"{what}: expected a flat list of numbers")
+    if not np.all(np.isfinite(x)):
+        bad = int(np.flatnonzero(~np.isfinite(x))[0])
+        raise InputError(f"{what}: value {bad + 1} is not a finite number ({x[bad]})")
+    if x.size == 0 and minimum >= 1:
+        raise InputError(f"{what}: no values given")
+    if x.size < minimum:
+        raise InputError(f"{what}: at least {minimum} values are needed, got {x.size}")
+    return x
+
+
+def _cells(cells: Sequence[Sequence[float]], minimum_cells: int = 2) -> list[np.ndarray]:
+    """Return the cells (one list of replicates per group) as arrays, validated."""
+    if isinstance(cells, np.ndarray) and cells.ndim == 2:
+        cells = list(cells)
+    try:
+        out = [_values(c, f"group {i + 1}", 1) for i, c in enumerate(cells)]
+    except TypeError:
+        raise InputError("expected a list of groups, each a list of replicate results") from None
+    if len(out) < minimum_cells:
+        raise InputError(f"at least {minimum_cells} groups are needed, got {len(out)}")
+    return out
+
+
+# ----------------------------------------------------------------------------- Grubbs
+
+
+@dataclass(frozen=True)
+class GrubbsResult:
+    """Outcome of a two-sided Grubbs test for one outlying value.
+
+    Attributes
+    ----------
+    G:
+        The statistic max|x_i − x̄|/s.
+    G_crit:
+        Its critical value at ``alpha``.
+    index:
+        Position (0-based) of the most distant value.
+    is_outlier:
+        True when ``G > G_crit``: flag the value, do not delete it.
+    n, alpha, mean, sd:
+        Sample size, significance level, mean and standard deviation of the values.
+    """
+
+    G: float
+    G_crit: float
+    index: int
+    is_outlier: bool
+    n: int
+    alpha: float
+    mean: float
+    sd: float
+
+
+def _check_alpha(alpha: float) -> float:
+    a = float(alpha)
+    if not 0.0 < a < 1.0:
+        raise InputError(f"significance level must lie between 0 and 1, got {alpha!r}", field="alpha")
+    return a
+
+
+def grubbs_critical(n: int, alpha: float = 0.05) -> float:
+    """Return the two-sided Grubbs critical value for ``n`` values at level ``alpha``.
+
+    Parameters
+    ----------
+    n:
+        Number of values (≥ 3).
+    alpha:
+        Significance level of the two-sided test (0.05 for a straggler, 0.01 for an outlier in
+        ISO 5725-2 practice).
+
+    Returns
+    -------
+    float
+        ``(n−1)/√n · √(t²/(n−2+t²))`` with ``t`` the upper α/(2n) quantile of Student's t with
+        n−2 degrees of freedom. It can never exceed (n−1)/√n (1.1547 at n = 3).
+    """
+    if int(n) != n or n < 3:
+        raise InputError(f"the Grubbs test needs at least 3 values, got {n}")
+    a = _check_alpha(alpha)
+    t = float(sps.t.isf(a / (2 * n), n - 2))
+    return (n - 1) / math.sqrt(n) * math.sqrt(t * t / (n - 2 + t * t))
+
+
+def grubbs(values: Sequence[float] | np.ndarray, alpha: float = 0.05) -> GrubbsResult:
+    """Test the most distant of ``values`` for being an outlier (two-sided Grubbs test).
+
+    Parameters
+    ----------
+    values:
+        At least 3 results.
+    alpha:
+        Significance level.
+
+    Returns
+    -------
+    GrubbsResult
+        With ``G = 0`` and no outlier when all values are equal.
+
+    Raises
+    ------
+    InputError
+        For fewer than 3 values or a value that is not a finite number.
+    """
+    x = _values(values, "Grubbs test", 3)
+    mean = float(x.mean())
+    sd = float(x.std(ddof=1))
+    dev = np.abs(x - mean)
+    idx = int(np.argmax(dev))
+    G = float(dev[idx] / sd) if sd > 0 else 0.0
+    crit = grubbs_critical(x.size, alpha)
+    return GrubbsResult(G, crit, idx, G > crit, int(x.size), float(alpha), mean, sd)
+
+
+# ------------------------------------------------------------------------- ISO 5725-2
+
+
+@dataclass(frozen=True)
+class Precision:
+    """Repeatability and reproducibility of a study of p groups (ISO 5725-2 one-way analysis).
+
+    Attributes
+    ----------
+    mean:
+        General mean Σn_iȳ_i/Σn_i.
+    s_r, s_L, s_R:
+        Repeatability, between-group and reproducibility standard deviations.
+    r, R:
+        Repeatability and reproducibility limits, 2.8 s_r and 2.8 s_R.
+    p:
+        Number of groups.
+    n_bar:
+        The effective replicates per group [Σn_i − Σn_i²/Σn_i]/(p−1).
+    n_total:
+        Number of results.
+    s_d:
+        Standard deviation between cell means scaled by the replicates, √[Σn_i(ȳ_i−ȳ)²/(p−1)].
+    dof_r:
+        Degrees of freedom of s_r, Σ(n_i − 1).
+    F, p_value:
+        One-way analysis of variance: s_d²/s_r² and its upper-tail probability under no group
+        effect (F distribution with p−1 and Σ(n_i−1) degrees of freedom).
+    cell_means, cell_sds, cell_sizes:
+        Per group (the SD is NaN for a group of one).
+    """
+
+    mean: float
+    s_r: float
+    s_L: float
+    s_R: float
+    r: float
+    R: float
+    p: int
+    n_bar: float
+    n_total: int
+    s_d: float
+    dof_r: int
+    F: float
+    p_value: float
+    cell_means: tuple[float, ...]
+    cell_sds: tuple[float, ...]
+    cell_sizes: tuple[int, ...]
+
+
+def iso5725(cells: Sequence[Sequence[float]]) -> Precision:
+    """Estimate repeatability and reproducibility from groups of replicates (ISO 5725-2).
+
+    Parameters
+    ----------
+    cells:
+        One list of replicate results per group ("laboratory"); the groups may have different
+        numbers of replicates. At least two groups, and at least one with two or more results.
+
+    Returns
+    -------
+    Precision
+
+    Raises
+    ------
+    InputError
+        For fewer than two groups, an empty group, a non-finite value, or no replicates at all.
+    """
+    cs = _cells(cells)
+    n = np.array([c.size for c in cs], dtype=float)
+    means = np.array([c.mean() for c in cs])
+    p = len(cs)
+    N = float(n.sum())
+    dof_r = int(round(float((n - 1).sum())))
+    if dof_r < 1:
+        raise InputError("every group has a single result: repeatability needs replicates (two or more in a group)")
+    ss_within = float(sum(((c - c.mean()) ** 2).sum() for c in cs))
+    s_r2 = ss_within / dof_r
+    grand = float((n * means).sum() / N)
+    s_d2 = float((n * (means - grand) ** 2).sum() / (p - 1))
+    n_bar = float((N - (n * n).sum() / N) / (p - 1))
+    s_L2 = max(0.0, (s_d2 - s_r2) / n_bar)
+    s_r = math.sqrt(s_r2)
+    s_L = math.sqrt(s_L2)
+    s_R = math.sqrt(s_L2 + s_r2)
+    if s_r2 > 0:
+        F = s_d2 / s_r2
+        pv = float(sps.f.sf(F, p - 1, dof_r))
+    else:
+        F = math.inf if s_d2 > 0 else math.nan
+        pv = 0.0 if s_d2 > 0 else math.nan
+    sds = tuple(float(c.std(ddof=1)) if c.size > 1 else math.nan for c in cs)
+    return Precision(
+        mean=grand, s_r=s_r, s_L=s_L, s_R=s_R, r=LIMIT_FACTOR * s_r, R=LIMIT_FACTOR * s_R, p=p,
+        n_bar=n_bar, n_total=int(N), s_d=math.sqrt(s_d2), dof_r=dof_r, F=F, p_value=pv,
+        cell_means=tuple(float(m) for m in means), cell_sds=sds, cell_sizes=tuple(int(k) for k in n),
+    )
+
+
+def mandel_h_k(cells: Sequence[Sequence[float]]) -> tuple[np.ndarray, np.ndarray]:
+    """Return Mandel's between-group statistic h and within-group statistic k of each group.
+
+    ``h_i = (ȳ_i − m)/s_m`` with m and s_m the plain mean and SD of the cell means;
+    ``k_i = s_i √p' / √(Σ s_j²)`` over the p' groups with replicates (NaN for a group of one).
+    k assumes equal numbers of replicates (ISO 5725-2); with unequal numbers it is indicative.
+
+    Parameters
+    ----------
+    cells:
+        One list of replicate results per group; at least two groups.
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        (h, k), one value per group. h is all zero when the cell means are equal, and k all zero
+        when no group shows any scatter.
+    """
+    cs = _cells(cells)
+    means = np.array([c.mean() for c in cs])
+    s_m = float(means.std(ddof=1))
+    h = (means - means.mean()) / s_m if s_m > 0 else np.zeros(means.size)
+    sds = np.array([c.std(ddof=1) if c.size > 1 else np.nan for c in cs])
+    have = np.isfinite(sds)
+    total = float(np.sum(sds[have] ** 2))
+    if total > 0:
+        k = sds * math.sqrt(int(have.sum())) / math.sqrt(total)
+    else:
+        k = np.where(have, 0.0, np.nan)
+    return h, k
+
+
+def mandel_h_critical(p: int, alpha: float = 0.05) -> float:
+    """Return the critical value of Mandel's h for ``p`` groups at level ``alpha``.
+
+    ``h = (p−1)t / √(p(t² + p − 2))`` with t the two-sided α quantile of Student's t with p−2
+    degrees of freedom.
+    """
+    if int(p) != p or p < 3:
+        raise InputError(f"Mandel's h needs at least 3 groups, got {p}")
+    a = _check_alpha(alpha)
+    t = float(sps.t.isf(a / 2, p - 2))
+    return (p - 1) * t / math.sqrt(p * (t * t + p - 2))
+
+
+def mandel_k_critical(p: int, n: int, alpha: float = 0.05) -> float:
+    """Return the critical value of Mandel's k for ``p`` groups of ``n`` replicates at ``alpha``.
+
+    ``k = √(p / (1 + (p−1)/F))`` with F the upper α quantile of the F distribution with n−1 and
+    (p−1)(n−1) degrees of freedom.
+    """
+    if int(p) != p or p < 2 or int(n) != n or n < 2:
+        raise InputError(f"Mandel's k needs at least 2 groups of at least 2 replicates, got p={p}, n={n}")
+    a = _check_alpha(alpha)
+    F = float(sps.f.isf(a, n - 1, (p - 1) * (n - 1)))
+    return math.sqrt(p / (1.0 + (p - 1) / F))
+
+
+# ---------------------------------------------------------------------------- Cochran
+
+
+@dataclass(frozen=True)
+class CochranResult:
+    """Outcome of Cochran's test for the largest within-group variance.
+
+    ``n`` is the number of replicates the critical value uses: that of most groups (ISO 5725-2
+    practice when the numbers differ).
+    """
+
+    C: float
+    C_crit: float
+    index: int
+    is_outlier: bool
+    p: int
+    n: int
+    alpha: float
+
+
+def cochran_critical(p: int, n: int, alpha: float = 0.05) -> float:
+    """Return Cochran's critical value for ``p`` groups of ``n`` replicates at ``alpha``.
+
+    ``C = 1/(1 + (p−1)/F)`` with F the upper α/p quantile of the F distribution with n−1 and
+    (p−1)(n−1) degrees of freedom (the usual closed form).
+    """
+    if int(p) != p or p < 2 or int(n) != n or n < 2:
+        raise InputError(f"Cochran's test needs at least 2 groups of at least 2 replicates, got p={p}, n={n}")
+    a = _check_alpha(alpha)
+    F = float(sps.f.isf(a / p, n - 1, (p - 1) * (n - 1)))
+    return 1.0 / (1.0 + (p - 1) / F)
+
+
+def cochran(cells: Sequence[Sequence[float]], alpha: float = 0.05) -> CochranResult:
+    """Test the largest within-group variance (Cochran's C = s²_max / Σ s_i²).
+
+    Groups of a single result are left out. Raises :class:`InputError` when fewer than two
+    groups have replicates or no group shows any scatter.
+    """
+    all_cells = _cells(cells)
+    idx_map = [i for i, c in enumerate(all_cells) if c.size > 1]
+    cs = [all_cells[i] for i in idx_map]
+    if len(cs) < 2:
+        raise InputError("Cochran's test needs at least two groups with two or more results")
+    var = np.array([c.var(ddof=1) for c in cs])
+    total = float(var.sum())
+    if total <= 0:
+        raise InputError("Cochran's test: no group shows any scatter")
+    j = int(np.argmax(var))
+    counts = Counter(c.size for c in cs)
+    n = max(counts, key=lambda k: (counts[k], k))
+    C = float(var[j] / total)
+    crit = cochran_critical(len(cs), n, alpha)
+    return CochranResult(C, crit, idx_map[j], C > crit, len(cs), int(n), float(alpha))
+
+
+# ------------------------------------------------------------------------ Algorithm A
+
+
+@dataclass(frozen=True)
+class RobustEstimate:
+    """Robust mean x* and standard deviation s* by Algorithm A (ISO 13528 Annex C)."""
+
+    mean: float
+    sd: float
+    iterations: int
+    converged: bool
+
+
+def robust_mean_sd(
+    values: Sequence[float] | np.ndarray, *, rtol: float = 1e-9, max_iterations: int = 500
+) -> RobustEstimate:
+    """Return the robust mean and standard deviation of ``values`` by Algorithm A.
+
+    Start from x* = median and s* = 1.483·median|x_i − x*|; then repeat: winsorize the values to
+    x* ± 1.5 s*, set x* to their mean and s* to 1.134 times their standard deviation, until
+    neither changes by more than ``rtol`` relative (ISO 13528 asks for no change in the third
+    significant figure; iterating to the fixed point is stricter).
+
+    Parameters
+    ----------
+    values:
+        At least 3 results.
+    rtol, max_iterations:
+        Stopping rule.
+
+    Returns
+    -------
+    RobustEstimate
+        ``sd`` is 0 when more than half the values are equal (s* starts at 0).
+    """
+    x = _values(values, "Algorithm A", 3)
+    xs = float(np.median(x))
+    ss = _MAD_FACTOR * float(np.median(np.abs(x - xs)))
+    if ss == 0.0:
+        return RobustEstimate(xs, 0.0, 0, True)
+    for it in range(1, max_iterations + 1):
+        d = _WINSOR * ss
+        w = np.clip(x, xs - d, xs + d)
+        new_x = float(w.mean())
+        new_s = _WINSOR_SD_FACTOR * float(w.std(ddof=1))
+        done = abs(new_x - xs) <= rtol * max(abs(new_x), ss) and abs(new_s - ss) <= rtol * ss
+        xs, ss = new_x, new_s
+        if done:
+            return RobustEstimate(xs, ss, it, True)
+    return RobustEstimate(xs, ss, max_iterations, False)

@@ -1,0 +1,221 @@
+"""Planning a run: the prediction is checked against simulated runs analysed end to end.
+
+The simulator (calc.simulate) integrates the cup's heat balance with its own code and draws noisy,
+quantised readings; calc.analysis then analyses the written run files exactly as `cupcal analyze`
+does. The plan must predict the temperature change those runs show and the uncertainty the
+analysis states for them.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+from molmass import Formula
+
+from calc.analysis import analyze_run
+from calc.cli import cli
+from calc.errors import InputError
+from calc.plan import plan_run
+from calc.simulate import simulate_dissolution, simulate_neutralization, write_run
+
+T_ROOM = 294.65  # 21.5 °C
+
+
+def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: float = 0.005, **kw):
+    return plan_run("dissolution", formula="KCl", mass=f"{mass} ± 0.0002 g", water_volume="100.0 ± 0.1 mL",
+                    calorimeter_heat_capacity=f"15.0 ± {u_cal} J/K", thermometer_resolution=q,
+                    thermometer_noise=sigma, temperature=T_ROOM, interval=1.0, fore=180.0, after=900.0,
+                    release_time=30.0, probe_time=5.0, **kw)
+
+
+def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
+    """Simulate ``runs`` runs at the planned settings (stated inputs perturbed), analyse each."""
+    rho = plan.properties.values["water.density"]
+    cp = plan.properties.values["mixture.specific_heat_capacity"]
+    out = []
+    for seed in range(runs):
+        # where the level sits within a resolution step is a matter of chance: draw it
+        t0 = T_ROOM - 273.15 + float(np.random.default_rng(100 + seed).uniform(0, q))
+        sim = simulate_dissolution(
+            seed, formula="KCl", molar_enthalpy_kJ_mol=plan.predicted_result, solute_mass_g=mass,
+            water_volume_mL=100.0, tau_r=30.0, water_density=rho[0], mixture_cp=cp[0], c_cal=15.0, tau_s=5.0,
+            t_initial_C=t0, noise=sigma, resolution=q, fore_s=180.0, after_s=900.0, dt=1.0, perturb_inputs=True,
+            uncertainties={"volume_mL": 0.1, "mass_g": 0.0002, "c_cal_J_K": u_cal, "cp_J_gK": cp[1],
+                           "density_g_mL": rho[1]})
+        a = analyze_run(write_run(sim, tmp_path, f"r{seed:02d}"), with_reference=False)
+        out.append((sim.truth.delta_t_adiabatic, a.delta_t.value, a.gum.values["molar_enthalpy"],
+                    a.gum.uncertainties["molar_enthalpy"]))
+    return np.array(out)
+
+
+def test_plan_predicts_simulated_dissolution_runs_analysed_end_to_end(tmp_path):
+    # Tolerances: the true adiabatic ΔT of the simulator within 0.3 % (same heat capacities, so
+    # only the model chain differs); the mean analysed ΔT within 1 % (the Regnault–Pfaundler bias
+    # is ≤ 0.05 %, SCIENCE §1.c); the mean stated u(ΔH) within 15 % (same GUM model; only the
+    # predicted ΔT terms differ); the scatter of the 16 results within a factor 0.6–1.6 of the
+    # predicted u (an SD from 16 values is itself uncertain by about 18 %, so ±2 SE).
+    plan = _kcl_plan()
+    r = _simulated_dissolutions(plan, tmp_path, mass=3.7, u_cal=2.0, q=0.01, sigma=0.005, runs=16)
+    assert r[:, 0].mean() == pytest.approx(plan.predicted_delta_t, rel=0.003)
+    assert r[:, 1].mean() == pytest.approx(plan.predicted_delta_t, rel=0.01)
+    assert r[:, 3].mean() == pytest.approx(plan.predicted_u, rel=0.15)
+    assert 0.6 <= r[:, 2].std(ddof=1) / plan.predicted_u <= 1.6
+    assert plan.limiting == "calorimeter heat capacity (its calibration)"
+
+
+def test_plan_predicts_a_thermometer_limited_run(tmp_path):
+    # A coarse thermometer (q = 0.05 K, σ = 0.01 K) and a well-known calorimeter: the resolution
+    # limits the result, and the plan predicts the u(ΔH) the analysis states within 25 %. (The
+    # analysis is conservative here: its resolution terms exceed the actual scatter, so the
+    # results scatter less than stated; the plan must not be more optimistic than that scatter.)
+    plan = _kcl_plan(mass=1.9, u_cal=0.2, q=0.05, sigma=0.01)
+    assert plan.limiting == "thermometer resolution"
+    r = _simulated_dissolutions(plan, tmp_path, mass=1.9, u_cal=0.2, q=0.05, sigma=0.01, runs=12)
+    assert r[:, 1].mean() == pytest.approx(plan.predicted_delta_t, rel=0.01)
+    assert r[:, 3].mean() == pytest.approx(plan.predicted_u, rel=0.25)
+    assert r[:, 2].std(ddof=1) <= 1.2 * plan.predicted_u
+
+
+def test_plan_predicts_simulated_neutralization_runs(tmp_path):
+    # Same tolerances as for dissolution; 10 runs (the scatter ratio then within 0.5–1.7).
+    plan = plan_run("neutralization", acid="HCl", base="NaOH", acid_concentration="1.000 ± 0.005 mol/L",
+                    base_concentration="1.050 ± 0.005 mol/L", acid_volume="50.0 ± 0.1 mL",
+                    base_volume="50.0 ± 0.1 mL", calorimeter_heat_capacity="15.0 ± 2.0 J/K",
+                    thermometer_resolution=0.01, thermometer_noise=0.005, temperature=T_ROOM, interval=1.0,
+                    fore=180.0, after=600.0, release_time=4.0)
+    pr = plan.properties.values
+    u_tb = float(plan.budget[[b.name for b in plan.budget].index("base.temperature")].standard_uncertainty)
+    out = []
+    for seed in range(10):
+        sim = simulate_neutralization(
+            seed, molar_enthalpy_kJ_mol=plan.predicted_result, acid_concentration=1.0, base_concentration=1.05,
+            acid_volume_mL=50.0, base_volume_mL=50.0, acid_density=pr["acid.density"][0],
+            base_density=pr["base.density"][0], mixture_cp=pr["mixture.specific_heat_capacity"][0],
+            base_temperature_offset=0.0, tau_r=4.0, c_cal=15.0, tau_s=5.0,
+            t_initial_C=21.5 + float(np.random.default_rng(100 + seed).uniform(0, 0.01)), noise=0.005,
+            resolution=0.01, fore_s=180.0, after_s=600.0, dt=1.0, perturb_inputs=True,
+            uncertainties={"volume_mL": 0.1, "concentration_mol_L": 0.005, "c_cal_J_K": 2.0,
+                           "cp_J_gK": pr["mixture.specific_heat_capacity"][1],
+                           "density_g_mL": pr["acid.density"][1], "temperature_K": u_tb})
+        a = analyze_run(write_run(sim, tmp_path, f"n{seed:02d}"), with_reference=False)
+        out.append((sim.truth.delta_t_from_contents, a.delta_t.value, a.gum.values["molar_enthalpy"],
+                    a.gum.uncertainties["molar_enthalpy"]))
+    r = np.array(out)
+    assert plan.predicted_delta_t > 6.0  # exothermic: about 6.6 K for 1 mol/L, 50 + 50 mL
+    assert r[:, 0].mean() == pytest.approx(plan.predicted_delta_t, rel=0.003)
+    assert r[:, 1].mean() == pytest.approx(plan.predicted_delta_t, rel=0.01)
+    assert r[:, 3].mean() == pytest.approx(plan.predicted_u, rel=0.15)
+    assert 0.5 <= r[:, 2].std(ddof=1) / plan.predicted_u <= 1.7
+
+
+def test_plan_uses_the_heat_balance_and_the_reference_value():
+    plan = _kcl_plan(mass=3.7)
+    rho = plan.properties.values["water.density"][0]
+    cp = plan.properties.values["mixture.specific_heat_capacity"][0]
+    n = 3.7 / Formula("KCl").mass  # molar mass from the molmass package
+    c_total = (100.0 * rho + 3.7) * cp + 15.0
+    # heat balance (SCIENCE.md §3.1): ΔH = −C_total ΔT / n
+    assert plan.predicted_delta_t == pytest.approx(-n * plan.predicted_result * 1000 / c_total, rel=1e-9)
+    # the calorimeter's line: ∂ΔH/∂C_cal · u(C_cal) = |ΔH| u(C_cal)/C_total
+    line = next(b for b in plan.budget if b.name == "calorimeter.heat_capacity")
+    assert line.contribution == pytest.approx(abs(plan.predicted_result) * 2.0 / c_total, rel=1e-6)
+    # KCl(s): +17.58 kJ/mol at 0.111 mol/kg and 25 °C (SCIENCE.md §6.2, from memory)
+    at_ref = plan_run("dissolution", formula="KCl", mass="0.8275 ± 0.0002 g", water_volume="100.0 ± 0.1 mL",
+                      calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.001, temperature=298.15)
+    assert at_ref.predicted_result == pytest.approx(17.58, abs=0.05)
+
+
+def test_a_too_small_amount_gets_a_suggestion_that_simulation_confirms(tmp_path):
+    plan = _kcl_plan(mass=0.5)
+    assert abs(plan.predicted_delta_t) < 1.0
+    assert any("below the useful window" in w for w in plan.warnings)
+    s = plan.suggestion
+    assert s is not None and s.quantity == "solute.mass" and s.low < s.recommended < s.high
+    sim = simulate_dissolution(0, formula="KCl", molar_enthalpy_kJ_mol=17.2, solute_mass_g=s.recommended,
+                               water_volume_mL=100.0, c_cal=15.0, noise=0.0, resolution=0.0001)
+    assert plan.window[0] <= abs(sim.truth.delta_t_adiabatic) <= plan.window[1]
+    assert abs(_kcl_plan(mass=s.recommended).predicted_delta_t) == pytest.approx(abs(s.predicted_delta_t), rel=1e-4)
+
+
+def test_a_hot_dissolution_is_flagged_with_the_cautions():
+    # NaOH(s): ΔsolH about −44.5 kJ/mol (SCIENCE.md §6.2); GHS: H314, corrosive (from memory)
+    plan = plan_run("dissolution", formula="NaOH", mass="10.00 ± 0.01 g", water_volume="100.0 ± 0.1 mL",
+                    calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01, temperature=T_ROOM)
+    assert plan.predicted_delta_t > 10.0
+    assert any(w.startswith("HOT") for w in plan.warnings)
+    naoh = next(c for c in plan.cautions if c.substance.startswith("NaOH"))
+    assert any(h.startswith("H314") for h in naoh.hazard_statements)
+    assert plan.cautions[-1].substance == "general" and "eye protection" in plan.cautions[-1].note
+    assert plan.suggestion is not None and plan.suggestion.recommended < 10.0
+    assert abs(plan.suggestion.predicted_delta_t) <= 10.0
+
+
+def test_the_limiting_equipment_follows_the_largest_share():
+    coarse = plan_run("dissolution", formula="KCl", mass="1.0 ± 0.0002 g", water_volume="100.0 ± 0.1 mL",
+                      calorimeter_heat_capacity="15 ± 0.5 J/K", thermometer_resolution=0.1, thermometer_noise=0.002)
+    assert coarse.limiting == "thermometer resolution"
+    assert coarse.equipment[0].share == pytest.approx(
+        sum(b.share for b in coarse.budget if b.name.startswith("delta_t.resolution")))
+    assert any("10 × the thermometer resolution" in w for w in coarse.warnings)
+    assert coarse.window == (2.0, 10.0)  # 20 × 0.1 K
+    poor_cal = _kcl_plan(u_cal=10.0)
+    assert poor_cal.limiting.startswith("calorimeter")
+    assert any("more than 20 %" in w for w in poor_cal.warnings)
+
+
+def test_plan_errors_name_the_input():
+    with pytest.raises(InputError) as err:
+        plan_run("dissolution", formula="C6H12O6", mass="3.00 ± 0.01 g", water_volume="100.0 ± 0.1 mL",
+                 calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
+    assert err.value.field == "molar_enthalpy"
+    given = plan_run("dissolution", formula="C6H12O6", mass="3.00 ± 0.01 g", water_volume="100.0 ± 0.1 mL",
+                     calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01, molar_enthalpy=11.0)
+    assert given.predicted_result == pytest.approx(11.0)
+    with pytest.raises(InputError) as err:
+        plan_run("dissolution", formula="KCl", mass="3 mL", water_volume="100 mL",
+                 calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
+    assert err.value.field == "mass"
+    with pytest.raises(InputError, match="cannot plan"):
+        plan_run("reaction", calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
+    with pytest.raises(InputError) as err:
+        plan_run("dissolution", formula="KCl", mass="3 g", water_volume="100 mL",
+                 calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=-0.01)
+    assert err.value.field == "thermometer_resolution"
+
+
+EXAMPLE = ["plan", "dissolution", "--formula", "KCl", "--mass", "3.0 g", "--water", "100 mL",
+           "--calorimeter", "18 ± 2 J/K", "--resolution", "0.01 K", "--noise", "0.005 K",
+           "--balance", "0.0002 g", "--glassware", "0.1 mL"]
+
+
+def test_cli_plan_prints_the_prediction_and_the_limiting_equipment():
+    res = CliRunner().invoke(cli, EXAMPLE)
+    assert res.exit_code == 0, res.output
+    assert "predicted ΔT" in res.output and "limited by:" in res.output and "safety:" in res.output
+    rec = json.loads(CliRunner().invoke(cli, [*EXAMPLE, "--json"]).output)
+    assert rec["predicted_delta_t"]["unit"] == "K" and rec["predicted_delta_t"]["value"] < 0
+    assert rec["limiting"] == rec["equipment"][0]["equipment"]
+    assert math.isclose(sum(b["share"] for b in rec["budget"]), 1.0, rel_tol=1e-9)
+
+
+@pytest.mark.parametrize(("args", "needle"), [
+    (["--mass", "3.0 mL"], "--mass"),
+    (["--resolution", "fine"], "--resolution"),
+    (["--temperature", "22"], "--temperature"),
+    (["--formula", "Xq"], "--formula"),
+])
+def test_cli_plan_errors_are_one_line_with_exit_2(args, needle):
+    argv = list(EXAMPLE)
+    for flag, value in zip(args[::2], args[1::2]):
+        if flag in argv:
+            argv[argv.index(flag) + 1] = value
+        else:
+            argv += [flag, value]
+    res = CliRunner().invoke(cli, argv)
+    assert res.exit_code == 2
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1 and needle in lines[0] and "Traceback" not in res.output
