@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: run test bench demo clean
+.PHONY: run test test-browser browser bench demo clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -20,6 +20,15 @@ run: $(STAMP)
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -n 2 -q
+
+# Debian's headless Chromium and its driver, for the browser tests (run as root; .ci/run does this too)
+browser:
+	@if [ -x /usr/bin/chromium ] && [ -x /usr/bin/chromedriver ]; then echo "chromium and chromedriver are installed"; \
+	else apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y chromium chromium-driver; fi
+
+# only the real-browser tests, failing (not skipping) when the browser is missing
+test-browser: $(STAMP)
+	CUPCAL_REQUIRE_BROWSER=1 $(BIN)/python -m pytest -q -p no:xdist tests/webapp/test_browser.py
 
 bench: $(STAMP)
 	$(BIN)/python -m pytest -q -s tests/benchmarks -p no:cacheprovider -o addopts=""

@@ -60,6 +60,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.calorimeters import bp as calorimeters_bp
     from webapp.main import bp as main_bp
     from webapp.runs import bp as runs_bp
+    from webapp.classes import bp as classes_bp
+    from webapp.imports import bp as imports_bp
+    from webapp.planning import bp as planning_bp
 
     db.init_app(app)
     auth.init_app(app)
@@ -70,6 +73,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.register_blueprint(runs_bp)
     app.register_blueprint(calorimeters_bp)
     app.register_blueprint(api_bp)
+    app.register_blueprint(classes_bp)
+    app.register_blueprint(imports_bp)
+    app.register_blueprint(planning_bp)
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app
 

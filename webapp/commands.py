@@ -7,6 +7,7 @@ database is the one :func:`webapp.create_app` configures (instance folder, or
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import click
@@ -137,3 +138,76 @@ def serve(host: str, port: int, demo: bool) -> None:
         _print_sign_ins(demo_sign_ins())
     click.echo(f"serving on http://{host}:{port} (Ctrl-C stops)")
     app.run(host=host, port=port, debug=False, use_reloader=False)
+
+
+def _find_section(session, text: str):  # type: ignore[no-untyped-def]
+    """Return the section given as an id or as ``COURSE/SECTION``."""
+    import sqlalchemy as sa
+
+    from webapp.models import Course
+    from webapp.models import Section
+
+    text = text.strip()
+    if text.isdigit():
+        section = session.get(Section, int(text))
+    else:
+        course, _, name = text.rpartition("/")
+        q = sa.select(Section).join(Course).where(Section.name == name.strip())
+        if course:
+            q = q.where(Course.name == course.strip())
+        found = session.scalars(q).all()
+        if len(found) > 1:
+            raise click.BadParameter(f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section")
+        section = found[0] if found else None
+    if section is None:
+        raise click.BadParameter(f"no section {text!r} (give its id or COURSE/SECTION)", param_hint="--section")
+    return section
+
+
+@click.command("import")
+@click.argument("path", type=click.Path(exists=True, path_type=Path))
+@click.option("--section", "section_text", required=True, help="Section: its id or COURSE/SECTION.")
+@click.option("--mapping", type=click.Path(exists=True, dir_okay=False, path_type=Path),
+              help="CSV mapping run files to groups: columns file, group[, bench].")
+@click.option("--as", "email", required=True, help="E-mail of the coordinator or technician importing.")
+def import_command(path: Path, section_text: str, mapping: Path | None, email: str) -> None:
+    """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv).
+
+    Each run is stored all-or-nothing; importing the same files again changes nothing.
+    Runs are analysed without Monte Carlo (re-analyse a run for the check).
+    """
+    import sqlalchemy as sa
+
+    from webapp.db import new_session
+    from webapp.models import Person
+    from webapp.services.errors import ServiceError
+    from webapp.services.imports import files_from_folder
+    from webapp.services.imports import files_from_zip
+    from webapp.services.imports import import_files
+    from webapp.services.imports import runs_in
+
+    app = _app()
+    with app.app_context():
+        session = new_session(app)
+        try:
+            actor = session.scalar(sa.select(Person).where(Person.email == email.strip().lower()))
+            if actor is None:
+                raise click.BadParameter(f"nobody has the e-mail address {email!r}", param_hint="--as")
+            section = _find_section(session, section_text)
+            try:
+                files = files_from_folder(path) if path.is_dir() else files_from_zip(path.read_bytes(), source=str(path))
+                text = mapping.read_text(encoding="utf-8-sig") if mapping else None
+                with click.progressbar(length=runs_in(files), label="importing runs",
+                                       file=sys.stderr) as bar:
+                    report = import_files(session, actor, section.id, files, mapping=text,
+                                          progress=lambda _p: bar.update(1))
+            except ServiceError as exc:
+                raise click.ClickException(exc.message) from None
+        finally:
+            session.close()
+    for item in report.items:
+        if item.outcome != "ignored" or item.message:
+            click.echo(f"{item.outcome:<9} {item.file}: {item.message}")
+    click.echo(report.summary)
+    if report.count("error"):
+        raise SystemExit(2)

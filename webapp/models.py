@@ -62,8 +62,12 @@ class Group(Base):
     course_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("courses.id"), index=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
+    #: the section the group works in (classes); None for groups made before sections existed
+    section_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
+
     course: so.Mapped[Optional[Course]] = so.relationship(back_populates="groups")
     members: so.Mapped[list[Person]] = so.relationship(back_populates="group")
+    section: so.Mapped[Optional[Section]] = so.relationship(back_populates="groups")
 
 
 class Person(Base):
@@ -130,6 +134,8 @@ class Calorimeter(Base):
     parts: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     location: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    #: days a calibration stays valid on this calorimeter (None: the notebook's CALIBRATION_DUE_DAYS)
+    calibration_interval_days: so.Mapped[Optional[int]]
 
     calibrations: so.Mapped[list[Calibration]] = so.relationship(
         back_populates="calorimeter",
@@ -195,6 +201,9 @@ class Run(Base):
     locked: so.Mapped[bool] = so.mapped_column(default=False)
     locked_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
     locked_at: so.Mapped[Optional[dt.datetime]]
+    #: SHA-256 of the run file and the readings as imported in bulk (re-import changes nothing)
+    content_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
+    bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
 
     author: so.Mapped[Person] = so.relationship(foreign_keys=[author_id])
     locked_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[locked_by_id])
@@ -299,3 +308,66 @@ class AuditEntry(Base):
     new: so.Mapped[Optional[str]] = so.mapped_column(sa.Text)
 
     person: so.Mapped[Optional[Person]] = so.relationship()
+
+
+class Section(Base):
+    """A section of a course: the groups that meet in one lab slot, with their benches."""
+
+    __tablename__ = "sections"
+    __table_args__ = (sa.UniqueConstraint("course_id", "name"),)
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    course_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("courses.id"), index=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(120))
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    course: so.Mapped[Course] = so.relationship()
+    groups: so.Mapped[list[Group]] = so.relationship(back_populates="section", order_by="Group.name")
+    benches: so.Mapped[list[Bench]] = so.relationship(back_populates="section", order_by="Bench.name")
+
+
+class Bench(Base):
+    """A bench of a section: its calorimeter and its thermometer (name and resolution)."""
+
+    __tablename__ = "benches"
+    __table_args__ = (sa.UniqueConstraint("section_id", "name"),)
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    section_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(120))
+    calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
+    thermometer: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
+    thermometer_resolution_k: so.Mapped[Optional[float]]
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    section: so.Mapped[Section] = so.relationship(back_populates="benches")
+    calorimeter: so.Mapped[Optional[Calorimeter]] = so.relationship()
+
+
+class Series(Base):
+    """A named series of repeat runs of one measurement (replicates, or check-standard runs)."""
+
+    __tablename__ = "series"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    name: so.Mapped[str] = so.mapped_column(sa.String(200))
+    notes: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    created_by: so.Mapped[Optional[Person]] = so.relationship()
+    members: so.Mapped[list[SeriesRun]] = so.relationship(
+        back_populates="series", order_by="SeriesRun.run_id", cascade="all, delete-orphan"
+    )
+
+
+class SeriesRun(Base):
+    """A run's membership of a series."""
+
+    __tablename__ = "series_runs"
+
+    series_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("series.id"), primary_key=True)
+    run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("runs.id"), primary_key=True, index=True)
+
+    series: so.Mapped[Series] = so.relationship(back_populates="members")
+    run: so.Mapped[Run] = so.relationship()

@@ -51,5 +51,6 @@ def _challenge(message: str):  # type: ignore[no-untyped-def]
 
 
 from webapp.api import calorimeters  # noqa: E402,F401  (registers the routes)
+from webapp.api import classes  # noqa: E402,F401
 from webapp.api import openapi  # noqa: E402,F401
 from webapp.api import runs  # noqa: E402,F401

@@ -1,37 +1,140 @@
-"""Calorimeter list and page (plain tables; the page developer adds the history plot)."""
+"""Calorimeter list and page: heat-capacity history plotted with its uncertainties; coordinators edit."""
 
 from __future__ import annotations
 
+from typing import Any
+
+from flask import flash
+from flask import redirect
 from flask import render_template
+from flask import request
+from flask import url_for
 from flask_login import current_user
 from flask_login import login_required
 
 from webapp.calorimeters import bp
+from webapp.calorimeters.forms import CalorimeterForm
+from webapp.calorimeters.forms import HeatCapacityForm
 from webapp.db import get_session
+from webapp.plot_cache import history_plot
+from webapp.plot_cache import svg_response
+from webapp.services.access import is_coordinator
 from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.calorimeters import current_calibration
+from webapp.services.calorimeters import create_calorimeter
+from webapp.services.calorimeters import enter_heat_capacity
 from webapp.services.calorimeters import get_calorimeter
-from webapp.services.runs import paginate
-from webapp.services.runs import runs_query
+from webapp.services.calorimeters import update_calorimeter
+from webapp.services.errors import ServiceError
+from webapp.services.pages import calorimeter_choices
+from webapp.services.pages import calorimeter_page
 
 
-@bp.route("/")
+def _form_errors(form: Any) -> dict[str, str]:
+    return {name: " ".join(messages) for name, messages in form.errors.items()}
+
+
+@bp.route("/", methods=["GET", "POST"])
 @login_required
 def index():  # type: ignore[no-untyped-def]
-    """List the calorimeters with the heat capacity in force."""
+    """List the calorimeters with the heat capacity in force; coordinators add one."""
     session = get_session()
-    rows = [(cal, current_calibration(session, cal.id)) for cal in session.scalars(calorimeters_query())]
-    return render_template("calorimeters/index.html", rows=rows)
+    form = CalorimeterForm(prefix="new")
+    errors: dict[str, str] = {}
+    status = 200
+    if form.is_submitted():
+        if form.validate():
+            try:
+                cal = create_calorimeter(session, current_user, name=form.name.data or "", parts=form.parts.data or "",
+                                         location=form.location.data or "",
+                                         heat_capacity=(form.heat_capacity.data or "").strip() or None)
+                flash(f"Calorimeter {cal.name!r} added.")
+                return redirect(url_for("calorimeters.detail", calorimeter_id=cal.id))
+            except ServiceError as exc:
+                session.rollback()
+                if exc.status == 403:
+                    raise
+                errors, status = {exc.field or "name": exc.message}, exc.status
+        else:
+            errors, status = _form_errors(form), 400
+    return render_template("calorimeters/index.html", rows=calorimeter_choices(session), form=form, errors=errors,
+                           may_manage=is_coordinator(current_user)), status
+
+
+def _detail(calorimeter_id: int, *, edit: CalorimeterForm | None = None, entry: HeatCapacityForm | None = None,
+            errors: dict[str, str] | None = None, status: int = 200):  # type: ignore[no-untyped-def]
+    session = get_session()
+    page = calorimeter_page(session, current_user, calorimeter_id)
+    if edit is None:
+        edit = CalorimeterForm(prefix="edit", obj=page.calorimeter)
+    return render_template(
+        "calorimeters/detail.html",
+        page=page,
+        cal=page.calorimeter,
+        history_version=f"{len(page.history)}-{max((c.id for c in page.history), default=0)}",
+        edit=edit,
+        entry=entry or HeatCapacityForm(prefix="hc"),
+        errors=errors or {},
+        may_manage=is_coordinator(current_user),
+    ), status
 
 
 @bp.route("/<int:calorimeter_id>")
 @login_required
 def detail(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Show a calorimeter: its heat-capacity history and its latest runs."""
+    """Show a calorimeter: parts, the heat capacity in force, its history, and the runs of each calibration."""
+    return _detail(calorimeter_id)
+
+
+@bp.route("/<int:calorimeter_id>/history.svg")
+@login_required
+def history_svg(calorimeter_id: int):  # type: ignore[no-untyped-def]
+    """Send the plot of the heat-capacity history (the URL's ``v`` names the calibrations drawn)."""
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
-    history = session.scalars(calibration_history(cal.id)).all()
-    runs = paginate(session, runs_query(current_user, calorimeter_id=cal.id), 1, 20)
-    return render_template("calorimeters/detail.html", cal=cal, history=history,
-                           current=history[-1] if history else None, runs=runs)
+    history = list(session.scalars(calibration_history(cal.id)))
+    return svg_response(history_plot(history, history[-1] if history else None),
+                        immutable=request.args.get("v") == f"{len(history)}-{max((c.id for c in history), default=0)}")
+
+
+@bp.route("/<int:calorimeter_id>/edit", methods=["POST"])
+@login_required
+def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
+    """Change a calorimeter's name, parts or location (coordinators)."""
+    session = get_session()
+    cal = get_calorimeter(session, calorimeter_id)
+    form = CalorimeterForm(prefix="edit")
+    if not form.validate_on_submit():
+        return _detail(calorimeter_id, edit=form, errors={f"edit-{k}": v for k, v in _form_errors(form).items()},
+                       status=400)
+    try:
+        update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
+                                                        "location": form.location.data or ""})
+    except ServiceError as exc:
+        session.rollback()
+        if exc.status == 403:
+            raise
+        return _detail(calorimeter_id, edit=form, errors={f"edit-{exc.field or 'name'}": exc.message},
+                       status=exc.status)
+    flash("Calorimeter changed.")
+    return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
+
+
+@bp.route("/<int:calorimeter_id>/heat-capacity", methods=["POST"])
+@login_required
+def heat_capacity(calorimeter_id: int):  # type: ignore[no-untyped-def]
+    """Record a heat capacity measured elsewhere (coordinators); it becomes the one in force."""
+    session = get_session()
+    cal = get_calorimeter(session, calorimeter_id)
+    form = HeatCapacityForm(prefix="hc")
+    if not form.validate_on_submit():
+        return _detail(calorimeter_id, entry=form, errors={f"hc-{k}": v for k, v in _form_errors(form).items()},
+                       status=400)
+    try:
+        enter_heat_capacity(session, current_user, cal, form.heat_capacity.data or "", form.note.data or "")
+    except ServiceError as exc:
+        session.rollback()
+        if exc.status == 403:
+            raise
+        return _detail(calorimeter_id, entry=form, errors={"hc-heat_capacity": exc.message}, status=exc.status)
+    flash("Heat capacity recorded; it is now the one in force.")
+    return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))

@@ -1,4 +1,4 @@
-"""Run pages: the list, a run's page with its results, lock and re-analysis."""
+"""Run pages: the list, a new run (form or upload, preview, save), a run's page with its results."""
 
 from __future__ import annotations
 
@@ -6,4 +6,6 @@ from flask import Blueprint
 
 bp = Blueprint("runs", __name__, url_prefix="/runs")
 
+from webapp.runs import filters  # noqa: E402,F401  (registers the template filters)
+from webapp.runs import new  # noqa: E402,F401  (registers the routes)
 from webapp.runs import views  # noqa: E402,F401  (registers the routes)

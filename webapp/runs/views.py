@@ -1,10 +1,11 @@
-"""Run list and run page (plain tables; the page developer adds plots and forms)."""
+"""Run list and run page: plot, result, budget, comparison, cautions; re-analysis and lock."""
 
 from __future__ import annotations
 
 from flask import Response
 from flask import current_app
 from flask import flash
+from flask import get_flashed_messages
 from flask import redirect
 from flask import render_template
 from flask import request
@@ -14,18 +15,27 @@ from flask_login import login_required
 
 from webapp.auth.forms import ConfirmForm
 from webapp.db import get_session
+from webapp.plot_cache import budget_plot
+from webapp.plot_cache import draw_result_plots
+from webapp.plot_cache import run_plot
+from webapp.plot_cache import svg_response
+from webapp.quantities import main_value
 from webapp.runs import bp
 from webapp.runs.forms import ReanalyseForm
-from webapp.services.access import can_edit_run
-from webapp.services.access import can_lock_run
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.audit import audit_trail
 from webapp.services.errors import ServiceError
+from webapp.services.pages import result_of
+from webapp.services.pages import run_page
 from webapp.services.runs import get_run
 from webapp.services.runs import lock_run
 from webapp.services.runs import paginate
 from webapp.services.runs import reanalyse_run
 from webapp.services.runs import runs_query
+
+#: flash category prefix of a message that belongs next to one field of the re-analysis form
+FIELD_FLASH = "field:"
+_FORM_FIELDS = {"method": "method", "fore": "fore", "after": "after", "fore_start": "fore", "fore_end": "fore",
+                "after_start": "after", "after_end": "after"}
 
 
 @bp.route("/")
@@ -41,35 +51,52 @@ def index():  # type: ignore[no-untyped-def]
 @bp.route("/<int:run_id>")
 @login_required
 def detail(run_id: int):  # type: ignore[no-untyped-def]
-    """Show a run: its details, inputs, current result and earlier results."""
-    session = get_session()
-    run = get_run(session, current_user, run_id)
+    """Show a run: cautions, plot, result, budget, comparison, every result; re-analyse and lock."""
+    page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
     form = ReanalyseForm()
-    current = run.current_result
-    if current is not None:
-        form.method.data = current.method
+    if page.result is not None:
+        form.method.data = page.result.method
+    field_errors: dict[str, list[str]] = {}
+    for category, message in get_flashed_messages(with_categories=True):
+        if category.startswith(FIELD_FLASH):
+            field_errors.setdefault(category[len(FIELD_FLASH):], []).append(message)
     return render_template(
         "runs/detail.html",
-        run=run,
-        result=current,
-        audit=session.scalars(audit_trail("run", run.id)).all(),
+        page=page,
+        run=page.run,
+        result=page.result,
+        unit=main_value(page.result)[2] if page.result is not None else "",
         form=form,
+        field_errors=field_errors,
         lock_form=ConfirmForm(),
-        may_edit=can_edit_run(current_user, run) and not run.locked,
-        may_lock=can_lock_run(current_user, run) and not run.locked,
     )
+
+
+@bp.route("/<int:run_id>/results/<int:result_id>/<string:which>.svg")
+@login_required
+def plot(run_id: int, result_id: int, which: str):  # type: ignore[no-untyped-def]
+    """Send a plot of one result: ``plot`` (readings, drift model, corrected ΔT) or ``budget``."""
+    run, result = result_of(get_session(), current_user, run_id, result_id)
+    if which == "plot":
+        svg, drawn = run_plot(run, result)
+        return svg_response(svg, immutable=drawn)
+    if which == "budget":
+        return svg_response(budget_plot(result))
+    return render_template("error.html", status=404, title="Not Found", message="No such plot."), 404
 
 
 @bp.route("/<int:run_id>/reanalyse", methods=["POST"])
 @login_required
 def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
-    """Analyse the run again with the method and periods of the form."""
+    """Analyse the run again with the method and periods of the form; the earlier result is kept."""
     session = get_session()
     run = get_run(session, current_user, run_id)
     form = ReanalyseForm()
     if not form.validate_on_submit():
-        flash("; ".join(f"{k}: {', '.join(v)}" for k, v in form.errors.items()), "error")
-        return redirect(url_for("runs.detail", run_id=run.id))
+        for name, messages in form.errors.items():
+            for m in messages:
+                flash(m, FIELD_FLASH + _FORM_FIELDS.get(str(name), "form"))
+        return redirect(url_for("runs.detail", run_id=run.id) + "#reanalyse")
     options = AnalysisOptions(
         method=form.method.data,
         fore=form.period("fore"),
@@ -77,13 +104,15 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]),
     )
     try:
-        reanalyse_run(session, current_user, run, options)
-        flash("Analysed again; the earlier result is kept.")
+        result = reanalyse_run(session, current_user, run, options)
     except ServiceError as exc:
         session.rollback()
         if exc.status in (403, 409):
             raise
-        flash(exc.message, "error")
+        flash(exc.message, FIELD_FLASH + _FORM_FIELDS.get(exc.field or "", "form"))
+        return redirect(url_for("runs.detail", run_id=run_id) + "#reanalyse")
+    draw_result_plots(run, result)  # into the cache now, so the page opens at once
+    flash("Analysed again; the earlier result is kept.")
     return redirect(url_for("runs.detail", run_id=run_id))
 
 
@@ -96,7 +125,7 @@ def lock(run_id: int):  # type: ignore[no-untyped-def]
     form = ConfirmForm()
     if form.validate_on_submit():
         lock_run(session, current_user, run)
-        flash("Run locked (signed).")
+        flash("Run locked (signed): it can no longer be changed.")
     return redirect(url_for("runs.detail", run_id=run_id))
 
 
@@ -107,10 +136,14 @@ def download(run_id: int, which: str):  # type: ignore[no-untyped-def]
     run = get_run(get_session(), current_user, run_id)
     if which == "run-file":
         return Response(run.run_toml, mimetype="application/toml",
-                        headers={"Content-Disposition": f'attachment; filename="{run.run_file_name}"'})
+                        headers={"Content-Disposition": _attachment(run.run_file_name)})
     if which == "readings":
         return Response(run.readings_raw, mimetype="text/csv",
-                        headers={"Content-Disposition": f'attachment; filename="{run.readings_name}"'})
+                        headers={"Content-Disposition": _attachment(run.readings_name)})
     return render_template("error.html", status=404, title="Not Found", message="No such file."), 404
 
 
+def _attachment(name: str) -> str:
+    """Return a Content-Disposition header value for a stored file name (ASCII, quotes dropped)."""
+    safe = "".join(ch for ch in name if ch.isascii() and ch.isprintable() and ch not in '"\\')
+    return f'attachment; filename="{safe or "file"}"'

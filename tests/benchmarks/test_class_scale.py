@@ -1,0 +1,135 @@
+"""A whole class at once: import of 900 runs, dashboard and CSV export of 900 runs (SQLite).
+
+Figures to reach (issue "A whole class at once"): import of 900 runs (300 groups × 3) ≤ 30 s with
+peak memory ≤ 400 MB (RSS, psutil); dashboard for 900 runs ≤ 300 ms server time; CSV export
+≤ 1 s. Bulk import analyses without Monte Carlo (monte_carlo_trials=0). The runs are simulated
+(calc.simulate, invented data) into a temporary folder before the clock starts.
+"""
+
+from __future__ import annotations
+
+import re
+import statistics
+import threading
+import time
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import psutil
+import pytest
+
+from calc.simulate import simulate_dissolution
+from calc.simulate import write_run
+from webapp import create_app
+from webapp.db import get_engine
+from webapp.db import new_session
+from webapp.migrate import upgrade
+from webapp.services.classes import import_roster
+from webapp.services.imports import files_from_folder
+from webapp.services.imports import import_files
+from webapp.services.people import create_person
+
+GROUPS, REPEATS = 300, 3
+FAST = "scrypt:1024:8:1"
+
+
+class PeakRSS:
+    """Sample this process's resident memory every 20 ms in a thread; ``peak`` in bytes."""
+
+    def __init__(self) -> None:
+        self.proc = psutil.Process()
+        self.peak = self.proc.memory_info().rss
+        self._stop = threading.Event()
+        self._t = threading.Thread(target=self._run, daemon=True)
+
+    def _run(self) -> None:
+        while not self._stop.is_set():
+            self.peak = max(self.peak, self.proc.memory_info().rss)
+            time.sleep(0.02)
+
+    def __enter__(self) -> PeakRSS:
+        self._t.start()
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self._stop.set()
+        self._t.join()
+        self.peak = max(self.peak, self.proc.memory_info().rss)
+
+
+@pytest.fixture(scope="module")
+def classroom(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Any]:
+    d = tmp_path_factory.mktemp("class-scale")
+    runs = d / "runs"
+    rng = np.random.default_rng(2024)
+    t0 = time.perf_counter()
+    for g in range(GROUPS):
+        for k in range(REPEATS):
+            sim = simulate_dissolution(rng, solute_mass_g=float(rng.uniform(3.0, 4.5)), noise=0.003,
+                                       fore_s=240.0, after_s=600.0, dt=2.0, perturb_inputs=True,
+                                       resolution=float(rng.choice([0.001, 0.01])))
+            write_run(sim, runs, f"G{g:03d}-run{k + 1}")
+    print(f"\nsimulated {GROUPS * REPEATS} runs in {time.perf_counter() - t0:.1f} s (not timed below)")
+    url = f"sqlite:///{d / 'class.sqlite3'}"
+    upgrade(url)
+    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
+    s = new_session(app)
+    coord = create_person(s, email="coord@bench.example", name="Coordinator", role="coordinator",
+                          password="benchmark password", password_method=FAST)
+    roster = "course,section,group,name,email,role\n" + "".join(
+        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS))
+    import_roster(s, coord, roster, password_method=FAST)
+    from webapp.models import Section
+    import sqlalchemy as sa
+
+    section_id = s.scalar(sa.select(Section.id))
+    yield {"app": app, "session": s, "coord": coord, "runs": runs, "section_id": section_id}
+    s.close()
+    get_engine(app).dispose()
+
+
+def test_import_900_runs(classroom: dict[str, Any]) -> None:
+    files = files_from_folder(classroom["runs"])
+    with PeakRSS() as mem:
+        t0 = time.perf_counter()
+        report = import_files(classroom["session"], classroom["coord"], classroom["section_id"], files)
+        elapsed = time.perf_counter() - t0
+    print(f"import of {report.count('stored')} runs: {elapsed:.1f} s ({1000 * elapsed / max(report.count('stored'), 1):.1f} ms/run), "
+          f"peak RSS {mem.peak / 2**20:.0f} MB (targets ≤ 30 s, ≤ 400 MB); {report.summary}")
+    assert report.count("stored") + report.count("error") == GROUPS * REPEATS
+    t0 = time.perf_counter()
+    again = import_files(classroom["session"], classroom["coord"], classroom["section_id"], files)
+    print(f"re-import (nothing changes): {time.perf_counter() - t0:.1f} s; {again.summary}")
+    assert again.count("stored") == 0
+
+
+def _time(fn: Any, n: int) -> tuple[float, float]:
+    fn()
+    samples = []
+    for _ in range(n):
+        t0 = time.perf_counter()
+        fn()
+        samples.append(1000 * (time.perf_counter() - t0))
+    samples.sort()
+    return statistics.median(samples), samples[int(0.95 * (len(samples) - 1))]
+
+
+def test_dashboard_and_export_of_900_runs(classroom: dict[str, Any]) -> None:
+    client = classroom["app"].test_client()
+    page = client.get("/auth/login").get_data(as_text=True)
+    csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
+    client.post("/auth/login", data={"email": "coord@bench.example", "password": "benchmark password", "csrf_token": csrf})
+    sid = classroom["section_id"]
+    t0 = time.perf_counter()
+    r = client.get(f"/classes/sections/{sid}/dashboard")
+    print(f"dashboard page, first request (plot drawn, not yet cached): {1000 * (time.perf_counter() - t0):.0f} ms")
+    assert r.status_code == 200 and r.get_data(as_text=True).count("<tr>") > 900
+    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc"), 10)
+    print(f"dashboard page, 900 runs, re-sorted (plot from its cache; table, statistics, feedback, group series): median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 300 ms)")
+    med, p95 = _time(lambda: client.get(f"/api/sections/{sid}/dashboard"), 10)
+    print(f"dashboard JSON, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms")
+    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10)
+    print(f"CSV export, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 1 s)")
+    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/export.xlsx"), 5)
+    print(f"xlsx export, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms")

@@ -1,0 +1,80 @@
+"""Shared helpers of the class tests: a section with groups, and simulated runs written to a folder.
+
+The runs are simulated (calc.simulate, invented data); their files are written once per test
+process and reused.
+"""
+
+from __future__ import annotations
+
+import io
+import shutil
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from calc.simulate import simulate_dissolution
+from calc.simulate import write_run
+
+ROSTER = (
+    "course,section,group,name,email,role\n"
+    "Thermo Lab,Mon AM,M01,Ada Quillfeather,ada@lab.example,student\n"
+    "Thermo Lab,Mon AM,M02,Bo Tindlewick,bo@lab.example,student\n"
+    "Thermo Lab,Mon AM,M03,Cy Ambervale,cy@lab.example,student\n"
+    "Thermo Lab,Mon AM,M04,Di Fernsworth,di@lab.example,student\n"
+    "Thermo Lab,Tue PM,T01,Ed Lowmarsh,ed@lab.example,student\n"
+)
+_CACHE: dict[tuple[Any, ...], Path] = {}
+
+
+def simulated_run(folder: Path, stem: str, seed: int, **kw: Any) -> Path:
+    """Write a simulated KCl dissolution run ``stem.toml``/``stem.csv`` into ``folder`` (cached by arguments)."""
+    key = (stem, seed, tuple(sorted(kw.items())))
+    if key not in _CACHE:
+        import tempfile
+
+        d = Path(tempfile.mkdtemp(prefix="cupcal-sim-"))
+        opts = {"c_cal": 15.0, "noise": 0.003, "fore_s": 240.0, "after_s": 600.0, "dt": 2.0, **kw}
+        write_run(simulate_dissolution(np.random.default_rng(seed), **opts), d, stem)
+        _CACHE[key] = d
+    folder.mkdir(parents=True, exist_ok=True)
+    for suffix in (".toml", ".csv"):
+        shutil.copyfile(_CACHE[key] / f"{stem}{suffix}", folder / f"{stem}{suffix}")
+    return folder / f"{stem}.toml"
+
+
+def zip_folder(folder: Path) -> bytes:
+    """Return a zip of every file under ``folder`` (relative paths)."""
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in sorted(folder.rglob("*")):
+            if p.is_file():
+                zf.write(p, p.relative_to(folder).as_posix())
+    return buf.getvalue()
+
+
+@dataclass
+class ClassLab:
+    """A course with two sections (ids) from the test roster."""
+
+    section_id: int
+    other_section_id: int
+    course_id: int
+
+
+def make_class(session: Any, coordinator_id: int) -> ClassLab:
+    """Import the test roster as the coordinator and return the ids."""
+    import sqlalchemy as sa
+
+    from tests.webapp.conftest import FAST_HASH
+    from webapp.models import Person
+    from webapp.models import Section
+    from webapp.services.classes import import_roster
+
+    coord = session.get(Person, coordinator_id)
+    import_roster(session, coord, ROSTER, password_method=FAST_HASH)
+    mon = session.scalar(sa.select(Section).where(Section.name == "Mon AM"))
+    tue = session.scalar(sa.select(Section).where(Section.name == "Tue PM"))
+    return ClassLab(mon.id, tue.id, mon.course_id)

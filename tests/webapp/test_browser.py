@@ -1,0 +1,286 @@
+"""The notebook in a real browser: headless Chromium from Debian (``chromium`` and
+``chromium-driver``), driven by Selenium with the driver's path given, so no tool ever
+downloads a browser or a driver.
+
+The app is served from the test on 127.0.0.1 and a free port, on a temporary SQLite
+database built through the migrations and filled with the invented demo lab. Without the
+browser the tests skip with a message saying what to install, unless
+``CUPCAL_REQUIRE_BROWSER=1`` (set by ``.ci/run``), when they fail. Set
+``CUPCAL_SCREENSHOTS=<dir>`` to keep a screenshot of each page visited.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import tempfile
+import threading
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from tests.webapp.conftest import DEMO
+from tests.webapp.conftest import FAST_HASH
+
+CHROMIUM = Path("/usr/bin/chromium")
+CHROMEDRIVER = Path("/usr/bin/chromedriver")
+INSTALL_HINT = ("headless Chromium is needed for the browser tests: install Debian's browser and its driver "
+                "(apt-get install chromium chromium-driver)")
+STUDENT = "tomas.vesterby-quail@ternhollow.example"  # invented demo person (group Heron A)
+WAIT_S = 20
+
+
+def _unavailable() -> str | None:
+    missing = [str(p) for p in (CHROMIUM, CHROMEDRIVER) if not p.exists()]
+    if missing:
+        return f"{', '.join(missing)} not found; {INSTALL_HINT}"
+    try:
+        import selenium  # noqa: F401
+    except ImportError:
+        return "the selenium package is missing: install the test extras (pip install -e '.[test]')"
+    return None
+
+
+def _skip_or_fail(reason: str) -> None:
+    if os.environ.get("CUPCAL_REQUIRE_BROWSER") == "1":
+        pytest.fail(f"CUPCAL_REQUIRE_BROWSER=1 but: {reason}")
+    pytest.skip(reason)
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
+    """Serve the notebook on 127.0.0.1 (a free port) from a migrated SQLite file with the demo lab."""
+    reason = _unavailable()
+    if reason:
+        _skip_or_fail(reason)
+    from werkzeug.serving import make_server
+
+    from webapp import create_app
+    from webapp.db import get_engine
+    from webapp.db import new_session
+    from webapp.migrate import upgrade
+    from webapp.services.demo import load_demo
+
+    folder = tmp_path_factory.mktemp("browser")
+    url = f"sqlite:///{folder / 'notebook.sqlite3'}"
+    upgrade(url)
+    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "browser tests", "PASSWORD_METHOD": FAST_HASH,
+                      "MONTE_CARLO_TRIALS": 2000})
+    app.instance_path = str(folder / "instance")
+    session = new_session(app)
+    try:
+        load_demo(session, password_method=FAST_HASH, monte_carlo_trials=0)
+    finally:
+        session.close()
+    httpd = make_server("127.0.0.1", 0, app, threaded=True)
+    thread = threading.Thread(target=httpd.serve_forever, daemon=True)
+    thread.start()
+    try:
+        yield f"http://127.0.0.1:{httpd.server_port}"
+    finally:
+        httpd.shutdown()
+        thread.join(10)
+        get_engine(app).dispose()
+
+
+@pytest.fixture(scope="module")
+def browser(server: str) -> Iterator[Any]:
+    """Start headless Chromium through Debian's chromedriver (nothing is downloaded)."""
+    os.environ.setdefault("SE_AVOID_STATS", "true")  # Selenium's own usage statistics: off
+    os.environ.setdefault("SE_OFFLINE", "true")  # and no download, should anything ask for one
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    profile = tempfile.mkdtemp(prefix="cupcal-chromium-")
+    options = webdriver.ChromeOptions()
+    options.binary_location = str(CHROMIUM)
+    for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                "--disable-dev-shm-usage", f"--user-data-dir={profile}", "--window-size=1280,1000"):
+        options.add_argument(arg)
+    try:
+        driver = webdriver.Chrome(service=Service(executable_path=str(CHROMEDRIVER)), options=options)
+    except Exception as exc:  # noqa: BLE001 - a browser that cannot start is a missing browser
+        shutil.rmtree(profile, ignore_errors=True)
+        _skip_or_fail(f"Chromium did not start ({type(exc).__name__}: {str(exc).splitlines()[0]}); {INSTALL_HINT}")
+    driver.set_page_load_timeout(WAIT_S)
+    try:
+        yield driver
+    finally:
+        driver.quit()
+        shutil.rmtree(profile, ignore_errors=True)
+
+
+# ---------------------------------------------------------------- helpers
+
+
+def _shot(driver: Any, name: str) -> None:
+    folder = os.environ.get("CUPCAL_SCREENSHOTS")
+    if not folder:
+        return
+    Path(folder).mkdir(parents=True, exist_ok=True)
+    height = driver.execute_script("return document.documentElement.scrollHeight")
+    driver.set_window_size(1280, min(int(height) + 120, 9000))
+    driver.save_screenshot(str(Path(folder) / f"{name}.png"))
+    driver.set_window_size(1280, 1000)
+
+
+def _wait(driver: Any, css: str) -> Any:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support import expected_conditions as ec
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    return WebDriverWait(driver, WAIT_S).until(ec.presence_of_element_located((By.CSS_SELECTOR, css)))
+
+
+def _click(driver: Any, css: str) -> None:
+    """Click a button and wait for the page it leads to."""
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support import expected_conditions as ec
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    old = driver.find_element(By.TAG_NAME, "html")
+    driver.find_element(By.CSS_SELECTOR, css).click()
+    WebDriverWait(driver, WAIT_S).until(ec.staleness_of(old))
+    _wait(driver, "footer")
+
+
+def _image_drawn(driver: Any, src_part: str) -> bool:
+    return bool(driver.execute_script(
+        "const i = [...document.images].find(i => i.src.includes(arguments[0]));"
+        "return !!i && i.complete && i.naturalWidth > 300;", src_part))
+
+
+def _sign_in(driver: Any, server: str, email: str) -> None:
+    from selenium.webdriver.common.by import By
+
+    driver.get(server + "/")
+    assert "/auth/login" in driver.current_url  # signed out: sent to the sign-in form
+    driver.find_element(By.ID, "email").send_keys(email)
+    driver.find_element(By.ID, "password").send_keys("tern-hollow-demo")
+    _click(driver, "main form button[type=submit]")
+    assert driver.find_element(By.TAG_NAME, "h1").text == "Notebook"
+
+
+# ---------------------------------------------------------------- scenarios
+
+
+def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> None:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support.ui import Select
+
+    d = browser
+    _sign_in(d, server, STUDENT)
+    _shot(d, "home")
+
+    # upload the run file and readings of a demo run, as the command line reads them
+    d.get(server + "/runs/upload")
+    d.find_element(By.ID, "f-run_file").send_keys(str(DEMO / "diss-kcl-01.toml"))
+    d.find_element(By.ID, "f-readings").send_keys(str(DEMO / "diss-kcl-01.csv"))
+    _click(d, "#run-form button[value=preview]")
+    preview = d.find_element(By.ID, "preview")
+    assert "Preview (not saved yet)" in preview.text
+    plot = preview.find_element(By.CSS_SELECTOR, "figure.preview-plot svg")
+    assert plot.size["width"] > 300 and plot.size["height"] > 150  # drawn, not an empty box
+    assert "Preview of the temperature readings" in plot.get_attribute("innerHTML")
+    assert "Fore period" in preview.text and "Mixing time" in preview.text
+    headline = preview.find_element(By.CSS_SELECTOR, ".headline").text
+    # KCl dissolves endothermically: ΔsolH° = +17.2 kJ/mol at infinite dilution (CRC Handbook, from memory),
+    # about +18 kJ/mol at this run's 0.5 mol/kg and 22 °C
+    assert re.search(r"ΔH = 1[78]\.\d+ ± 0\.\d+ kJ/mol", headline), headline
+    _shot(d, "upload-preview")
+
+    # save: the run page shows the plot, the result and the cautions
+    _click(d, "button.save")
+    assert re.search(r"/runs/\d+$", d.current_url), d.current_url
+    run_path = d.current_url[len(server):]
+    assert "saved" in d.find_element(By.CSS_SELECTOR, ".flash").text
+    assert _image_drawn(d, "/plot.svg") and _image_drawn(d, "/budget.svg")
+    first = d.find_element(By.CSS_SELECTOR, ".headline").text
+    assert "ΔH = " in first and "k = " in first
+    assert "Wear eye protection" in d.find_element(By.CSS_SELECTOR, "aside.cautions").text
+    assert "Comparison with a reference value" in d.page_source
+    _shot(d, "run-page")
+
+    # change the method and analyse again: the new result is shown, the old one listed
+    Select(d.find_element(By.ID, "method")).select_by_value("equal-area")
+    _click(d, "form.reanalyse button[type=submit]")
+    assert "the earlier result is kept" in d.find_element(By.CSS_SELECTOR, ".flash").text
+    rows = d.find_elements(By.CSS_SELECTOR, "table.results tbody tr")
+    assert len(rows) == 2
+    assert "equal-area" in rows[0].text and "current" in rows[0].text
+    assert "regnault-pfaundler" in rows[1].text and "earlier" in rows[1].text
+    assert d.find_element(By.CSS_SELECTOR, ".headline").text != first
+    assert _image_drawn(d, "/plot.svg")
+    _shot(d, "run-reanalysed")
+
+    # lock (sign) it: the edit forms are gone and a direct POST is refused
+    _click(d, "form.lock button[type=submit]")
+    assert "locked" in d.find_element(By.CSS_SELECTOR, ".flash").text
+    assert d.find_elements(By.CSS_SELECTOR, "form.reanalyse") == []
+    assert d.find_elements(By.CSS_SELECTOR, "form.lock") == []
+    status = d.execute_async_script(
+        "const done = arguments[arguments.length - 1];"
+        "const body = new FormData();"
+        "body.append('csrf_token', document.querySelector('input[name=csrf_token]').value);"
+        "body.append('method', 'naive');"
+        "fetch(arguments[0] + '/reanalyse', {method: 'POST', body}).then(r => done(r.status), e => done(String(e)));",
+        run_path)
+    assert status == 409
+    d.refresh()
+    assert len(d.find_elements(By.CSS_SELECTOR, "table.results tbody tr")) == 2
+    _shot(d, "run-locked")
+
+
+def test_the_form_shows_errors_at_their_fields_then_previews(browser: Any, server: str) -> None:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support.ui import Select
+
+    d = browser
+    d.delete_all_cookies()
+    _sign_in(d, server, "kasper.lindqvist-mayo@ternhollow.example")  # invented demo technician
+    d.get(server + "/runs/new/dissolution")
+    values = {"f-water-volume": "one hundred", "f-water-volume-u": "0.10", "f-thermometer-resolution": "0.01",
+              "f-solute-formula": "KCl", "f-solute-mass": "3.72760", "f-solute-mass-u": "0.00020",
+              "f-mixing-time": "240", "f-info-title": "Browser check"}
+    for html_id, value in values.items():
+        box = d.find_element(By.ID, html_id)
+        box.clear()
+        box.send_keys(value)
+    cups = Select(d.find_element(By.ID, "f-calorimeter-name"))
+    cups.select_by_visible_text(next(o.text for o in cups.options if o.text.startswith("Cup TH-07")))
+    d.find_element(By.ID, "f-readings").send_keys(str(DEMO / "diss-kcl-01.csv"))
+    _click(d, "#run-form button[value=preview]")
+    error = d.find_element(By.ID, "f-water-volume-error")
+    assert error.is_displayed() and "does not start with a number" in error.text
+    row = d.find_element(By.ID, "f-water-volume-row")
+    assert error.location["y"] - row.location["y"] < row.size["height"]  # inside the field's own row
+    assert d.find_element(By.ID, "f-water-volume").get_attribute("aria-invalid") == "true"
+    assert "Nothing was saved" in d.find_element(By.ID, "error-summary").text
+    _shot(d, "form-error")
+    # fix it; the readings sent before are kept, so the file need not be chosen again
+    box = d.find_element(By.ID, "f-water-volume")
+    box.clear()
+    box.send_keys("100.00")
+    _click(d, "#run-form button[value=preview]")
+    assert d.find_elements(By.CLASS_NAME, "field-error") == []
+    assert "Preview (not saved yet)" in d.find_element(By.ID, "preview").text
+    assert "calibration #" in d.find_element(By.ID, "preview").text  # C_cal from the cup's calibration
+    _shot(d, "form-preview")
+
+
+def test_a_missing_browser_skips_with_what_to_install_or_fails_under_ci(monkeypatch: pytest.MonkeyPatch) -> None:
+    import tests.webapp.test_browser as here
+
+    monkeypatch.setattr(here, "CHROMIUM", Path("/nonexistent/chromium"))
+    reason = here._unavailable()
+    assert reason is not None and "apt-get install chromium chromium-driver" in reason
+    monkeypatch.delenv("CUPCAL_REQUIRE_BROWSER", raising=False)
+    with pytest.raises(pytest.skip.Exception, match="apt-get install chromium"):
+        here._skip_or_fail(reason)
+    monkeypatch.setenv("CUPCAL_REQUIRE_BROWSER", "1")
+    with pytest.raises(pytest.fail.Exception, match="CUPCAL_REQUIRE_BROWSER=1"):
+        here._skip_or_fail(reason)

@@ -1,0 +1,112 @@
+"""The calorimeter pages: the heat-capacity history plotted with its uncertainties, the table of
+calibrations with their runs, and the coordinators' forms. SQLite and PostgreSQL (``app``)."""
+
+from __future__ import annotations
+
+import re
+from typing import Any
+
+import sqlalchemy as sa
+
+from tests.webapp.conftest import csrf_token
+from tests.webapp.conftest import demo_files
+from tests.webapp.conftest import sign_in
+from tests.webapp.conftest import upload
+from tests.webapp.conftest import without_heat_capacity
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+
+
+def test_history_plot_table_and_the_runs_of_each_calibration(client: Any, lab: Any, session: Any) -> None:
+    # a calibration run on the cup, then a group-A run and a group-B run that use its value
+    cal_run = upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0).get_json()
+    toml, _csv = demo_files("diss-kcl-01")
+    used_a = upload(client, lab.auth("a1"), "diss-kcl-01", toml=without_heat_capacity(toml), monte_carlo=0)
+    used_b = upload(client, lab.auth("b1"), "diss-kcl-01", toml=without_heat_capacity(toml), monte_carlo=0)
+    assert used_a.status_code == used_b.status_code == 201
+    used_a, used_b = used_a.get_json(), used_b.get_json()
+    assert used_a["calibration"]["result_id"] == cal_run["current_result"]["id"]
+
+    sign_in(client, "a1@lab.example")
+    html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
+    src = re.search(r'<img src="(/calorimeters/\d+/history\.svg\?v=[^"]+)"[^>]*alt="([^"]+)"', html)
+    assert src and "1 calibration, each" in src.group(2) and "value in force" in src.group(2)
+    r = client.get(src.group(1).replace("&amp;", "&"))
+    assert r.status_code == 200 and r.mimetype == "image/svg+xml" and "immutable" in r.headers["Cache-Control"]
+    svg = r.get_data(as_text=True)
+    # calibration_history_svg: labelled axes with units, the uncertainty kind named in the legend
+    assert "Calorimeter heat capacity history" in svg and "heat capacity / (J/K)" in svg
+    assert "standard uncertainty" in svg
+    # the table: the value ± u, U (k) of the calibration run, a link to it, and the runs that used it
+    c = cal_run["current_result"]
+    from calc.report import format_value
+
+    assert format_value(c["value"], c["standard_uncertainty"], "J/K") in html
+    assert f"/runs/{cal_run['id']}?result={c['id']}" in html
+    table = html[html.index('class="calibrations"'):]
+    assert f'href="/runs/{used_a["id"]}"' in table
+    assert f'href="/runs/{used_b["id"]}"' not in table  # another group's run: not shown to a1
+    # a student manages nothing here
+    assert "/edit" not in html and "heat-capacity" not in html
+    token = csrf_token(html)
+    assert client.post(f"/calorimeters/{lab.calorimeter_id}/edit",
+                       data={"csrf_token": token, "edit-name": "Mine now"}).status_code == 403
+    assert client.post(f"/calorimeters/{lab.calorimeter_id}/heat-capacity",
+                       data={"csrf_token": token, "hc-heat_capacity": "1 ± 1 J/K"}).status_code == 403
+    assert client.post("/calorimeters/", data={"csrf_token": token, "new-name": "Cup X"}).status_code == 403
+    # the coordinator sees both runs that used the calibration
+    client.post("/auth/logout", data={"csrf_token": token})
+    sign_in(client, "coord@lab.example")
+    table = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
+    table = table[table.index('class="calibrations"'):]
+    assert f'href="/runs/{used_a["id"]}"' in table and f'href="/runs/{used_b["id"]}"' in table
+
+
+def test_a_calorimeter_never_calibrated_says_so(client: Any, lab: Any) -> None:
+    sign_in(client, "tech@lab.example")
+    html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
+    assert "not calibrated yet" in html and "No calibrations yet." in html
+    src = re.search(r'<img src="([^"]+history\.svg[^"]*)"', html).group(1).replace("&amp;", "&")
+    assert "no calibrations recorded yet" in client.get(src).get_data(as_text=True)
+    assert client.get(f"/calorimeters/{lab.calorimeter_id}/history.svg").headers["Cache-Control"] == "no-store"
+    assert client.get("/calorimeters/9999/history.svg").status_code == 404
+
+
+def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: Any, session: Any) -> None:
+    sign_in(client, "coord@lab.example")
+    page = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
+    token = csrf_token(page)
+    assert f"/calorimeters/{lab.spare_calorimeter_id}/edit" in page
+    # a heat capacity in the wrong unit: calc's message beside the field, nothing recorded
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+                    data={"csrf_token": token, "hc-heat_capacity": "18.6 ± 2.0 J", "hc-note": ""})
+    assert r.status_code == 400
+    html = r.get_data(as_text=True)
+    assert 'id="hc-heat_capacity-error"' in html and "expected a heat capacity" in html
+    n = session.scalar(sa.select(sa.func.count()).select_from(Calibration)
+                       .where(Calibration.calorimeter_id == lab.spare_calorimeter_id))
+    assert n == 1
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+                    data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked"})
+    assert r.status_code == 302
+    html = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
+    assert "19.4 ± 1.5 J/K" in html and "in force" in html
+    # renaming to a name in use: said at the name field
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+                    data={"csrf_token": token, "edit-name": "Cup TH-07 (two nested foam cups, lid)",
+                          "edit-parts": "", "edit-location": ""})
+    assert r.status_code == 409 and 'id="edit-name-error"' in r.get_data(as_text=True)
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+                    data={"csrf_token": token, "edit-name": "Spare cup B", "edit-parts": "one cup",
+                          "edit-location": "shelf 2"})
+    assert r.status_code == 302
+    session.expire_all()
+    cal = session.get(Calorimeter, lab.spare_calorimeter_id)
+    assert (cal.name, cal.parts, cal.location) == ("Spare cup B", "one cup", "shelf 2")
+    # adding one from the list page, with an error first
+    r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "", "new-heat_capacity": ""})
+    assert r.status_code == 400 and 'id="new-name-error"' in r.get_data(as_text=True)
+    r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "Cup TH-11",
+                                            "new-heat_capacity": "25 ± 2 J/K"})
+    assert r.status_code == 302
+    assert "Cup TH-11" in client.get("/calorimeters/").get_data(as_text=True)

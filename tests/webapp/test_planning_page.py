@@ -1,0 +1,44 @@
+"""The planning page and POST /api/plan give calc.plan.plan_run's prediction; bad input is a 400, never a 500."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+
+from calc.plan import plan_run
+from tests.webapp.conftest import sign_in
+
+
+def test_planning_page_shows_the_plan(client: Any, lab: Any) -> None:
+    sign_in(client, "a1@lab.example")
+    assert client.get("/plan").status_code == 200
+    r = client.get("/plan", query_string={"kind": "dissolution", "formula": "KCl", "mass": "2.50 ± 0.01 g",
+                                          "water_volume": "100.0 ± 0.5 mL", "calorimeter": "20 ± 3 J/K",
+                                          "resolution": "0.01", "noise": "0.005", "temperature": "22"})
+    html = r.get_data(as_text=True)
+    want = plan_run("dissolution", formula="KCl", mass="2.50 ± 0.01 g", water_volume="100.0 ± 0.5 mL",
+                    calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01, thermometer_noise=0.005,
+                    temperature=295.15)
+    assert r.status_code == 200
+    assert want.limiting in html and "Cautions" in html and "eye protection" in html
+    assert f"{100 * want.equipment[0].share:.1f} %" in html
+    bad = client.get("/plan", query_string={"kind": "dissolution", "formula": "KCl", "mass": "lots",
+                                            "water_volume": "100 mL", "calorimeter": "20 ± 3 J/K", "resolution": "0.01"})
+    assert bad.status_code == 400 and "mass" in bad.get_data(as_text=True)
+
+
+def test_plan_api(client: Any, lab: Any) -> None:
+    body = {"kind": "neutralization", "acid": "HCl", "base": "NaOH", "acid_concentration": "1.00 ± 0.01 mol/L",
+            "base_concentration": "1.00 ± 0.01 mol/L", "acid_volume": "50.0 ± 0.2 mL", "base_volume": "50.0 ± 0.2 mL",
+            "calorimeter_heat_capacity": "20 ± 3 J/K", "thermometer_resolution": 0.01}
+    r = client.post("/api/plan", json=body, headers=lab.auth("b1"))
+    assert r.status_code == 200, r.get_json()
+    want = plan_run("neutralization", acid="HCl", base="NaOH", acid_concentration="1.00 ± 0.01 mol/L",
+                    base_concentration="1.00 ± 0.01 mol/L", acid_volume="50.0 ± 0.2 mL", base_volume="50.0 ± 0.2 mL",
+                    calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01)
+    assert r.get_json()["predicted_delta_t"]["value"] == pytest.approx(want.predicted_delta_t)
+    for bad in ({**body, "kind": "explosion"}, {**body, "colour": 1}, {"kind": "dissolution"},
+                {**body, "thermometer_resolution": "fine"}):
+        r = client.post("/api/plan", json=bad, headers=lab.auth("b1"))
+        assert r.status_code == 400 and r.get_json()["error"], bad

@@ -1,0 +1,26 @@
+"""Forms of the calorimeter pages (coordinators add and edit calorimeters)."""
+
+from __future__ import annotations
+
+from flask_wtf import FlaskForm
+from wtforms import StringField
+from wtforms import TextAreaField
+from wtforms.validators import Length
+
+
+class CalorimeterForm(FlaskForm):
+    """A calorimeter's name, parts and location (and, when adding one, a first heat capacity)."""
+
+    name = StringField("Name", validators=[Length(max=200)])
+    parts = TextAreaField("Parts", validators=[Length(max=2000)])
+    location = StringField("Location", validators=[Length(max=200)])
+    heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
+                                description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+
+
+class HeatCapacityForm(FlaskForm):
+    """A heat capacity measured elsewhere, with a note saying where."""
+
+    heat_capacity = StringField("Heat capacity", validators=[Length(max=100)],
+                                description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+    note = StringField("Note", validators=[Length(max=300)], description="where the value comes from")

@@ -1,0 +1,81 @@
+"""Bulk import views: the upload form and the report (works without JavaScript)."""
+
+from __future__ import annotations
+
+from flask import current_app
+from flask import render_template
+from flask import request
+from flask_login import current_user
+from flask_login import login_required
+from flask_wtf import FlaskForm
+from flask_wtf.file import FileField
+from flask_wtf.file import MultipleFileField
+
+from webapp.db import get_session
+from webapp.imports import bp
+from webapp.services.classes import get_section
+from webapp.services.classes import require_staff
+from webapp.services.errors import Invalid
+from webapp.services.errors import ServiceError
+from webapp.services.imports import files_from_zip
+from webapp.services.imports import import_files
+
+#: default upload limit of an import (a section's zip); ``IMPORT_MAX_UPLOAD_BYTES`` overrides it
+IMPORT_MAX_UPLOAD_BYTES = 64 * 1024 * 1024
+
+
+class ImportForm(FlaskForm):
+    """A zip, or the files of a folder, and an optional mapping CSV."""
+
+    archive = FileField("Zip of run files (.toml) and logs (.csv)")
+    files = MultipleFileField("…or the files of a folder")
+    mapping = FileField("Mapping CSV (file, group[, bench]), when names do not say the group")
+
+
+@bp.before_request
+def _larger_uploads() -> None:
+    request.max_content_length = int(current_app.config.get("IMPORT_MAX_UPLOAD_BYTES", IMPORT_MAX_UPLOAD_BYTES))
+
+
+def _files(form: ImportForm) -> dict[str, bytes]:
+    if form.archive.data and form.archive.data.filename:
+        return files_from_zip(form.archive.data.read(), source=form.archive.data.filename)
+    out: dict[str, bytes] = {}
+    for f in form.files.data or []:
+        if f and f.filename:
+            name = f.filename.replace("\\", "/")
+            # a browser sends "folder/sub/file": keep the path below the chosen folder
+            out[name.split("/", 1)[1] if "/" in name else name] = f.read()
+    if not out:
+        raise Invalid("choose a zip file or the files of a folder", field="archive")
+    return out
+
+
+@bp.route("/sections/<int:section_id>", methods=["GET", "POST"])
+@login_required
+def new(section_id: int):  # type: ignore[no-untyped-def]
+    """Upload a section's runs; the answer is the report of every file."""
+    session = get_session()
+    require_staff(current_user, "import runs")
+    section = get_section(session, current_user, section_id)
+    form = ImportForm()
+    report, error = None, None
+    if request.method == "POST":
+        if not form.validate_on_submit():
+            error = "; ".join(f"{k}: {', '.join(v)}" for k, v in form.errors.items())
+        else:
+            try:
+                mapping = None
+                if form.mapping.data and form.mapping.data.filename:
+                    try:
+                        mapping = form.mapping.data.read().decode("utf-8-sig")
+                    except UnicodeDecodeError:
+                        raise Invalid("the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping") from None
+                report = import_files(session, current_user, section.id, _files(form), mapping=mapping)
+            except ServiceError as exc:
+                session.rollback()
+                if exc.status in (403, 404):
+                    raise
+                error = exc.message
+    status = 400 if error else 200
+    return render_template("imports/new.html", section=section, form=form, report=report, error=error), status

@@ -1,0 +1,246 @@
+"""New runs: a kind's form (or the run file and readings uploaded as they are), preview, save.
+
+Both ways end in the same two steps. "Preview" analyses the upload without storing it
+(:func:`webapp.services.pages.preview_run`) and shows the readings, the periods found and
+the result; "Save" stores exactly what was previewed (:func:`webapp.services.runs.record_run`).
+A problem is shown next to the field it concerns and nothing is stored.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+from pathlib import PurePosixPath
+from typing import Any
+
+from calc.deltat import DEFAULT_METHOD
+from calc.deltat import METHODS
+from calc.reference import reference_names
+from calc.runfile import KINDS
+from flask import abort
+from flask import current_app
+from flask import flash
+from flask import redirect
+from flask import render_template
+from flask import request
+from flask import url_for
+from flask_login import current_user
+from flask_login import login_required
+
+from webapp.auth.forms import ConfirmForm
+from webapp.db import get_session
+from webapp.plot_cache import draw_result_plots
+from webapp.runs import bp
+from webapp.runs.runform import KIND_TITLES
+from webapp.runs.runform import build_run_toml
+from webapp.runs.runform import check_values
+from webapp.runs.runform import default_values
+from webapp.runs.runform import error_key
+from webapp.runs.runform import form_sections
+from webapp.runs.runform import input_names
+from webapp.runs.uploads import Carried
+from webapp.runs.uploads import digest
+from webapp.runs.uploads import file_from_request
+from webapp.services.analysis import AnalysisOptions
+from webapp.services.errors import Invalid
+from webapp.services.errors import ServiceError
+from webapp.services.pages import Preview
+from webapp.services.pages import calorimeter_choices
+from webapp.services.pages import group_choices
+from webapp.services.pages import preview_run
+from webapp.services.runs import RunUpload
+from webapp.services.runs import record_run
+
+
+def _methods() -> list[tuple[str, str]]:
+    return [(name, (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "")
+            for name, fn in sorted(METHODS.items())]
+
+
+@bp.route("/new")
+@login_required
+def new():  # type: ignore[no-untyped-def]
+    """Choose what kind of run to enter, or upload a run file and its readings."""
+    return render_template("runs/new.html", kinds=[(k, *KIND_TITLES[k]) for k in KINDS])
+
+
+def _calorimeter_id(text: str | None) -> int | None:
+    text = (text or "").strip()
+    if not text:
+        return None
+    try:
+        return int(text)
+    except ValueError:
+        raise Invalid(f"expected a calorimeter from the list, got {text!r}", field="calorimeter_id") from None
+
+
+def _preview_svg(preview: Preview) -> str:
+    from webapp import plots
+
+    a = preview.analysis
+    return plots.preview_plot_svg(a.readings.time_s, a.readings.temperature_K, a.periods)
+
+
+def _after_save(run: Any) -> Any:
+    """Draw the new result's plots into the cache (the run page then opens at once) and go there."""
+    result = run.current_result
+    if result is not None:
+        draw_result_plots(run, result)
+    flash(f"Run {run.id} saved.")
+    return redirect(url_for("runs.detail", run_id=run.id))
+
+
+def _analyse(upload: RunUpload, action: str, previewed: str, fingerprint: str) -> tuple[Any, Preview | None, bool]:
+    """Save (when asked, and only what was previewed) or preview; return (response, preview, changed).
+
+    :raise ServiceError: from the services, for the form to show
+    """
+    session = get_session()
+    changed = action == "save" and previewed != fingerprint
+    if action == "save" and not changed:
+        trials = int(current_app.config["MONTE_CARLO_TRIALS"])
+        saved = dataclasses.replace(upload, options=AnalysisOptions(monte_carlo_trials=trials))
+        return _after_save(record_run(session, current_user, saved)), None, False
+    return None, preview_run(session, upload), changed
+
+
+@bp.route("/new/<string:kind>", methods=["GET", "POST"])
+@login_required
+def new_kind(kind: str):  # type: ignore[no-untyped-def]
+    """Show the form of one kind; preview the run it describes, or save it."""
+    if kind not in KINDS:
+        abort(404)
+    session = get_session()
+    sections = form_sections(kind)
+    form = ConfirmForm()
+    context: dict[str, Any] = dict(
+        kind=kind, kind_title=KIND_TITLES[kind], sections=sections, form=form, methods=_methods(),
+        default_method=DEFAULT_METHOD, calorimeters=calorimeter_choices(session),
+        groups=group_choices(session, current_user), references=reference_names(),
+        errors={}, preview=None, readings=None, run_toml=None, fingerprint="", changed=False,
+    )
+    if request.method == "GET":
+        values = default_values(sections, operator=current_user.name, date=dt.date.today().isoformat())
+        if current_user.role == "student" and current_user.group is not None:
+            values["info.group"] = current_user.group.name
+        return render_template("runs/new_kind.html", values=values, **context)
+
+    form.validate_on_submit()  # CSRF (CSRFProtect has refused a bad token already)
+    values = {name: request.form.get(name, "") for name in input_names(sections)}
+    if current_user.role == "student":
+        values["info.group"] = current_user.group.name if current_user.group is not None else ""
+    errors: dict[str, str] = {}
+    try:
+        readings = file_from_request("readings")
+    except Invalid as exc:
+        readings, errors["readings"] = None, exc.message
+    if readings is None and "readings" not in errors:
+        errors["readings"] = "choose the CSV file of the thermometer's readings (times and temperatures)"
+    elif readings is not None and not readings.data.strip():
+        errors["readings"] = "the readings file is empty"
+    calorimeter = None
+    try:
+        cid = _calorimeter_id(values.get("calorimeter_id"))
+        if cid is not None:
+            calorimeter = next((c.calorimeter for c in context["calorimeters"] if c.calorimeter.id == cid), None)
+            if calorimeter is None:
+                errors["calorimeter.name"] = f"no calorimeter with id {cid}"
+    except Invalid as exc:
+        errors["calorimeter.name"] = exc.message
+    errors.update(check_values(kind, values, calorimeter_chosen=calorimeter is not None))
+    context.update(values=values, readings=readings, errors=errors)
+    if errors:
+        return render_template("runs/new_kind.html", **context), 400
+
+    assert readings is not None
+    run_name = (PurePosixPath(readings.name).stem or kind) + ".toml"
+    run_toml = build_run_toml(kind, values, readings_name=readings.name,
+                              calorimeter_name=calorimeter.name if calorimeter else None)
+    upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings.data,
+                       readings_name=readings.name, calorimeter_id=calorimeter.id if calorimeter else None)
+    fingerprint = digest(kind, run_toml, readings.data, str(upload.calorimeter_id))
+    context.update(run_toml=run_toml, fingerprint=fingerprint)
+    try:
+        response, preview, changed = _analyse(upload, request.form.get("action", "preview"),
+                                              request.form.get("previewed", ""), fingerprint)
+    except ServiceError as exc:
+        get_session().rollback()
+        key = error_key(exc.field, sections)
+        context["errors"] = {key: exc.message}
+        return render_template("runs/new_kind.html", **context), exc.status
+    if response is not None:
+        return response
+    context.update(preview=preview, preview_svg=_preview_svg(preview), changed=changed)
+    return render_template("runs/new_kind.html", **context)
+
+
+_UPLOAD_FIELDS = {"run_file": "run_file", "readings": "readings", "calorimeter_id": "calorimeter_id",
+                  "calorimeter.heat_capacity": "calorimeter_id", "group_id": "group_id"}
+
+
+@bp.route("/upload", methods=["GET", "POST"])
+@login_required
+def upload():  # type: ignore[no-untyped-def]
+    """Upload a run file (TOML) and its readings (CSV) as the command line reads them; preview, save."""
+    session = get_session()
+    form = ConfirmForm()
+    context: dict[str, Any] = dict(
+        form=form, calorimeters=calorimeter_choices(session), groups=group_choices(session, current_user),
+        errors={}, preview=None, run_file=None, readings=None, fingerprint="", changed=False,
+        calorimeter_id="", group_id="",
+    )
+    if request.method == "GET":
+        return render_template("runs/upload.html", **context)
+
+    form.validate_on_submit()
+    errors: dict[str, str] = {}
+    files: dict[str, Carried | None] = {}
+    for field, what in (("run_file", "the run file (TOML)"), ("readings", "the readings (CSV)")):
+        try:
+            files[field] = file_from_request(field)
+        except Invalid as exc:
+            files[field], errors[field] = None, exc.message
+            continue
+        carried = files[field]
+        if carried is None:
+            errors[field] = f"choose {what}"
+        elif not carried.data.strip():
+            errors[field] = "the file is empty"
+    run_file, readings = files.get("run_file"), files.get("readings")
+    context.update(run_file=run_file, readings=readings, calorimeter_id=request.form.get("calorimeter_id", ""),
+                   group_id=request.form.get("group_id", ""))
+    run_toml = ""
+    if run_file is not None and "run_file" not in errors:
+        try:
+            run_toml = run_file.data.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            errors["run_file"] = f"byte {exc.start + 1} is not UTF-8 text; expected a TOML run file"
+    cid = group_id = None
+    try:
+        cid = _calorimeter_id(context["calorimeter_id"])
+        if current_user.role != "student" and context["group_id"].strip():
+            group_id = int(context["group_id"])
+    except Invalid as exc:
+        errors["calorimeter_id"] = exc.message
+    except ValueError:
+        errors["group_id"] = "expected a group from the list"
+    if errors:
+        context["errors"] = errors
+        return render_template("runs/upload.html", **context), 400
+
+    assert run_file is not None and readings is not None
+    upload_ = RunUpload(run_toml=run_toml, run_file_name=run_file.name, readings=readings.data,
+                        readings_name=readings.name, calorimeter_id=cid, group_id=group_id)
+    fingerprint = digest(run_toml, run_file.name, readings.data, readings.name, str(cid), str(group_id))
+    context["fingerprint"] = fingerprint
+    try:
+        response, preview, changed = _analyse(upload_, request.form.get("action", "preview"),
+                                              request.form.get("previewed", ""), fingerprint)
+    except ServiceError as exc:
+        get_session().rollback()
+        context["errors"] = {_UPLOAD_FIELDS.get(exc.field or "", "run_file" if exc.field else ""): exc.message}
+        return render_template("runs/upload.html", **context), exc.status
+    if response is not None:
+        return response
+    context.update(preview=preview, preview_svg=_preview_svg(preview), changed=changed, run_toml=run_toml)
+    return render_template("runs/upload.html", **context)

@@ -1,0 +1,147 @@
+"""Control charts of check-standard runs per calorimeter, and calibration due dates.
+
+A check standard is one measurement repeated on a calorimeter: a kind with its reference
+(``dissolution · KCl dissolution, infinite dilution``) or a calibration kind (its C_cal). The
+chart is :func:`calc.control.control_chart` of the current results in time order with limits
+from the first ``baseline`` points; the due date is :func:`calc.control.calibration_status`
+from the calorimeter's last calibration and its interval (the calorimeter's own, else
+``CALIBRATION_DUE_DAYS``).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+from collections import defaultdict
+from typing import Any
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+from calc.control import RULES
+from calc.control import calibration_status
+from calc.control import control_chart
+from calc.errors import InputError
+
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Person
+from webapp.models import Result
+from webapp.models import Run
+from webapp.services.access import require_coordinator
+from webapp.services.audit import record_change
+from webapp.services.calorimeters import get_calorimeter
+from webapp.services.dashboard import _measurement
+from webapp.services.errors import Invalid
+
+DEFAULT_BASELINE = 20
+
+
+@dataclasses.dataclass
+class ControlView:
+    """A calorimeter's check standards, the chart of the one chosen, and its calibration status."""
+
+    calorimeter: Calorimeter
+    standards: dict[str, int]
+    standard: str | None
+    unit: str
+    points: list[dict[str, Any]]
+    chart: Any | None
+    baseline: int
+    message: str
+    calibration: dict[str, Any]
+
+
+def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days: int,
+                     today: dt.date | None = None) -> dict[str, Any]:
+    """Return the last calibration date, the interval, the due date and whether it is overdue."""
+    last = session.scalar(sa.select(sa.func.max(Calibration.taken_at)).where(
+        Calibration.calorimeter_id == calorimeter.id))
+    days = calorimeter.calibration_interval_days or int(default_days)
+    if last is None:
+        return {"last": None, "interval_days": days, "due": None, "overdue": True, "days_left": None,
+                "message": "never calibrated: calibrate before use"}
+    st = calibration_status(last, days, today or dt.datetime.now(dt.timezone.utc).date())
+    msg = (f"overdue since {st.due.isoformat()}" if st.overdue else f"due on {st.due.isoformat()} "
+           f"({st.days_left} day(s) left)")
+    return {"last": st.last_calibration.isoformat(), "interval_days": days, "due": st.due.isoformat(),
+            "overdue": st.overdue, "days_left": st.days_left, "message": msg}
+
+
+def set_interval(session: so.Session, actor: Person, calorimeter: Calorimeter, days: int | None) -> Calorimeter:
+    """Set a calorimeter's calibration interval in days (None: the notebook default), audited, and commit."""
+    require_coordinator(actor, "manage calorimeters")
+    if days is not None and (isinstance(days, bool) or not isinstance(days, int) or not 1 <= days <= 3650):
+        raise Invalid("expected a whole number of days from 1 to 3650", field="calibration_interval_days")
+    if calorimeter.calibration_interval_days != days:
+        record_change(session, actor, "calorimeter", calorimeter.id, "calibration_interval_days",
+                      calorimeter.calibration_interval_days, days)
+        calorimeter.calibration_interval_days = days
+    session.commit()
+    return calorimeter
+
+
+def control_view(session: so.Session, calorimeter_id: int, *, standard: str | None = None,
+                 baseline: int | None = None, default_days: int = 30,
+                 today: dt.date | None = None) -> ControlView:
+    """Return the control chart of one check standard of a calorimeter (default: the one with most runs)."""
+    cal = get_calorimeter(session, calorimeter_id)
+    rows = session.execute(
+        sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
+                  Result.calorimeter_heat_capacity_j_k, Result.comparison)
+        .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
+        .where(Run.calorimeter_id == cal.id)
+        .order_by(Run.created_at, Run.id)
+    ).all()
+    series: dict[str, list[dict[str, Any]]] = defaultdict(list)
+    for rid, kind, created, title, main, h, c, comp in rows:
+        v = h if main == "molar_enthalpy" else c
+        if v is not None:
+            series[_measurement(kind, comp)].append({"run_id": rid, "at": created.isoformat() + "Z", "title": title,
+                                                     "value": v, "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K"})
+    standards = {k: len(v) for k, v in sorted(series.items(), key=lambda kv: -len(kv[1]))}
+    info = calibration_info(session, cal, default_days, today)
+    if standard is not None and standard not in series:
+        raise Invalid(f"calorimeter {cal.name!r} has no runs of {standard!r}", field="standard")
+    if standard is None and standards:
+        standard = next(iter(standards))
+    if standard is None:
+        return ControlView(cal, standards, None, "", [], None, 0, "no runs with results on this calorimeter yet", info)
+    points = series[standard]
+    n = len(points)
+    if baseline is not None and (isinstance(baseline, bool) or not 2 <= baseline <= max(n, 2)):
+        raise Invalid(f"expected a baseline of 2 to {max(n, 2)} points", field="baseline")
+    base = baseline if baseline is not None else min(DEFAULT_BASELINE, n)
+    chart, message = None, ""
+    if n < 2:
+        message = "at least 2 runs are needed for a chart"
+    else:
+        try:
+            chart = control_chart([p["value"] for p in points], baseline=base)
+        except InputError as exc:
+            message = str(exc)
+    if chart is not None:
+        by_index: dict[int, list[str]] = defaultdict(list)
+        for v in chart.violations:
+            by_index[v.index].append(v.message)
+        for i, p in enumerate(points):
+            p["violations"] = by_index.get(i, [])
+            p["baseline"] = i < base
+    return ControlView(cal, standards, standard, points[0]["unit"] if points else "", points, chart, base,
+                       message, info)
+
+
+def control_json(view: ControlView) -> dict[str, Any]:
+    """Return a control view as JSON-ready data."""
+    ch = view.chart
+    lim = ch.limits if ch is not None else None
+    return {
+        "calorimeter_id": view.calorimeter.id, "standard": view.standard, "standards": view.standards,
+        "unit": view.unit, "baseline": view.baseline, "message": view.message, "calibration": view.calibration,
+        "limits": None if lim is None else {k: getattr(lim, k) for k in (
+            "centre", "sigma", "mr_bar", "mr_ucl", "n_baseline", "lower_3s", "lower_2s", "lower_1s",
+            "upper_1s", "upper_2s", "upper_3s")} | {"warnings": list(lim.warnings)},
+        "points": view.points,
+        "violations": [] if ch is None else [{"index": v.index, "run_id": view.points[v.index]["run_id"],
+                                              "rule": v.rule, "message": v.message} for v in ch.violations],
+        "rules": RULES,
+    }
