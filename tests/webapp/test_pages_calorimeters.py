@@ -110,3 +110,15 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
                                             "new-heat_capacity": "25 ± 2 J/K"})
     assert r.status_code == 302
     assert "Cup TH-11" in client.get("/calorimeters/").get_data(as_text=True)
+
+
+def test_calorimeter_page_shows_due_date_and_links_the_control_chart(client: Any, lab: Any) -> None:
+    sign_in(client, "tech@lab.example")
+    html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
+    assert "Calibration due" in html and "never calibrated" in html
+    link = f"/calorimeters/{lab.calorimeter_id}/control"
+    assert f'href="{link}"' in html
+    assert client.get(link).status_code == 200
+    upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0)
+    html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
+    assert "day(s) left" in html  # calibrated today: due in CALIBRATION_DUE_DAYS (30) days

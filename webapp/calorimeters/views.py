@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from flask import current_app
 from flask import flash
 from flask import redirect
 from flask import render_template
@@ -66,9 +67,13 @@ def _detail(calorimeter_id: int, *, edit: CalorimeterForm | None = None, entry: 
     page = calorimeter_page(session, current_user, calorimeter_id)
     if edit is None:
         edit = CalorimeterForm(prefix="edit", obj=page.calorimeter)
+    from webapp.services.control import calibration_info
+
+    due = calibration_info(session, page.calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))
     return render_template(
         "calorimeters/detail.html",
         page=page,
+        due=due,
         cal=page.calorimeter,
         history_version=f"{len(page.history)}-{max((c.id for c in page.history), default=0)}",
         edit=edit,
