@@ -29,6 +29,9 @@ DEFAULTS: dict[str, Any] = {
     "PAGE_SIZE": 50,
     "SESSION_COOKIE_HTTPONLY": True,
     "SESSION_COOKIE_SAMESITE": "Lax",
+    "EMBED_FRAME_ANCESTORS": "'self'",  # CSP frame-ancestors of the /embed/ routes only, e.g. "https://eln.example"
+    "EMBED_LINK_MAX_AGE": 7 * 24 * 3600,  # seconds a signed card link stays valid
+    "TRUST_PROXY_USER_HEADER": None,  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
 }
 
 
@@ -63,6 +66,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.classes import bp as classes_bp
     from webapp.imports import bp as imports_bp
     from webapp.planning import bp as planning_bp
+    from webapp.embed import bp as embed_bp
+    from webapp.mounting import init_proxy_user
+    from webapp.services import webhooks
 
     db.init_app(app)
     auth.init_app(app)
@@ -76,6 +82,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.register_blueprint(classes_bp)
     app.register_blueprint(imports_bp)
     app.register_blueprint(planning_bp)
+    app.register_blueprint(embed_bp)
+    webhooks.install(app.extensions["cupcal_db"]["sessionmaker"])  # queue deliveries when a run is locked
+    init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app
 
@@ -92,3 +101,10 @@ def _instance_secret(app: Flask) -> str:
     with os.fdopen(fd, "w", encoding="ascii") as fh:
         fh.write(key)
     return key
+
+
+def mount(host_app: Any, prefix: str = "/cupcal", config: Mapping[str, Any] | None = None) -> Flask:
+    """Serve cupcal under ``prefix`` of a host Flask app (see :mod:`webapp.mounting`); return cupcal's app."""
+    from webapp.mounting import mount as _mount
+
+    return _mount(host_app, prefix, config)

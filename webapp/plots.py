@@ -1,4 +1,4 @@
-"""Draw the notebook's plots as standalone SVG text.
+"""Draw the notebook's plots as standalone SVG text (and the run plot also as PNG).
 
 Every public function takes calc results or plain data and returns one SVG
 document (``str``, UTF-8, no external references, real ``<text>`` in a generic
@@ -39,7 +39,7 @@ if TYPE_CHECKING:
     from calc.periods import Periods
 
 __all__ = [
-    "OKABE_ITO", "MAX_DRAWN_POINTS", "run_plot_svg", "budget_plot_svg", "calibration_history_svg",
+    "OKABE_ITO", "MAX_DRAWN_POINTS", "run_plot_svg", "run_plot_png", "budget_plot_svg", "calibration_history_svg",
     "preview_plot_svg", "drift_curves", "budget_rows", "decimate_minmax",
 ]
 
@@ -391,8 +391,8 @@ def _draw_delta_t(ax: Any, analysis: Analysis, ts: float) -> list[Any]:
     return handles
 
 
-def run_plot_svg(analysis: Analysis, *, width_in: float = 7.5, height_in: float = 4.2) -> str:
-    """Return the SVG plot of a run: readings, periods, the method's drift model and the corrected ΔT."""
+def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[Figure, str, str]:
+    """Build the run plot; return the figure, its title and its text description."""
     dt = analysis.delta_t
     t, y = analysis.readings.time_s, analysis.readings.temperature_K
     ts, tunit = _time_scale(t)
@@ -416,7 +416,21 @@ def run_plot_svg(analysis: Analysis, *, width_in: float = 7.5, height_in: float 
     d = _decimals(dt.u)
     desc = (f"{_describe_log(t, y, analysis.periods)} Corrected temperature change {_num(dt.value, d)} K with "
             f"standard uncertainty {_num(dt.u, d)} K by the {dt.method} method.")
-    return _to_svg(fig, f"Temperature log: {title}", desc)
+    return fig, f"Temperature log: {title}", desc
+
+
+def run_plot_svg(analysis: Analysis, *, width_in: float = 7.5, height_in: float = 4.2) -> str:
+    """Return the SVG plot of a run: readings, periods, the method's drift model and the corrected ΔT."""
+    fig, title, desc = _run_figure(analysis, width_in, height_in)
+    return _to_svg(fig, title, desc)
+
+
+def run_plot_png(analysis: Analysis, *, width_in: float = 7.5, height_in: float = 4.2, dpi: int = 150) -> bytes:
+    """Return the run plot of :func:`run_plot_svg` as PNG bytes (for documents that cannot show SVG)."""
+    fig, _title, _desc = _run_figure(analysis, width_in, height_in)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
+    return buf.getvalue()
 
 
 def preview_plot_svg(time_s: np.ndarray, temperature_K: np.ndarray, periods: Periods, *,

@@ -15,7 +15,8 @@ from flask_login import current_user
 
 from webapp.db import get_session
 from webapp.errors import json_error
-from webapp.services.people import person_for_token
+from webapp.services.errors import Forbidden
+from webapp.services.tokens import token_for_secret
 
 bp = Blueprint("api", __name__, url_prefix="/api")
 
@@ -33,10 +34,13 @@ def _authenticate():  # type: ignore[no-untyped-def]
         scheme, _, secret = header.partition(" ")
         if scheme.lower() != "bearer" or not secret.strip():
             return _challenge("expected the header Authorization: Bearer <token>")
-        person = person_for_token(get_session(), secret.strip())
-        if person is None:
+        token = token_for_secret(get_session(), secret.strip())
+        if token is None:
             return _challenge("the API token is unknown or revoked")
-        g.api_person = person
+        if request.method not in _SAFE and token.scope != "write":
+            raise Forbidden("this API token is read-only; make a token with the scope 'write'")
+        g.api_person = token.person
+        g.api_token = token
         return None
     if request.method in _SAFE and current_user.is_authenticated:
         g.api_person = current_user._get_current_object()
@@ -54,3 +58,4 @@ from webapp.api import calorimeters  # noqa: E402,F401  (registers the routes)
 from webapp.api import classes  # noqa: E402,F401
 from webapp.api import openapi  # noqa: E402,F401
 from webapp.api import runs  # noqa: E402,F401
+from webapp.api import exchange  # noqa: E402,F401

@@ -5,6 +5,7 @@ from __future__ import annotations
 from flask_wtf import FlaskForm
 from wtforms import EmailField
 from wtforms import PasswordField
+from wtforms import SelectField
 from wtforms import StringField
 from wtforms.validators import DataRequired
 from wtforms.validators import Length
@@ -21,6 +22,8 @@ class TokenForm(FlaskForm):
     """A label for a new API token."""
 
     label = StringField("Label", validators=[Length(max=120)])
+    scope = SelectField("Scope", choices=["read", "write"],
+                        default="read")
 
 
 class ConfirmForm(FlaskForm):

@@ -68,7 +68,9 @@ def tokens():  # type: ignore[no-untyped-def]
     form = TokenForm()
     secret = None
     if form.validate_on_submit():
-        _token, secret = people.issue_token(session, current_user, form.label.data or "")
+        from webapp.services.tokens import issue_scoped_token
+
+        _token, secret = issue_scoped_token(session, current_user, form.label.data or "", form.scope.data or "read")
     mine = session.scalars(
         sa.select(ApiToken).where(ApiToken.person_id == current_user.id).order_by(ApiToken.id.desc())
     ).all()

@@ -1,0 +1,132 @@
+"""The result card and oEmbed views."""
+
+from __future__ import annotations
+
+import base64
+from urllib.parse import parse_qs
+from urllib.parse import urlsplit
+
+from calc import __version__
+from flask import abort
+from flask import current_app
+from flask import jsonify
+from flask import render_template
+from flask import request
+from flask import url_for
+from flask_login import current_user
+from markupsafe import escape
+
+from webapp.db import get_session
+from webapp.embed import bp
+from webapp.embed import links
+from webapp.models import Person
+from webapp.models import Run
+from webapp.quantities import result_value
+from webapp.services.errors import Forbidden
+from webapp.services.errors import Invalid
+from webapp.services.errors import NotFound
+from webapp.services.errors import NotSignedIn
+from webapp.services.runs import get_run
+from webapp.services.tokens import token_for_secret
+
+CARD_WIDTH = 480
+CARD_HEIGHT = 420
+
+
+def reader(run_id: int, link: str | None, token: str | None) -> Person:
+    """Return the person on whose behalf the card of ``run_id`` is read.
+
+    :raise Forbidden: for a bad or expired link
+    :raise NotSignedIn: when the request carries no link, token or session
+    """
+    session = get_session()
+    if link:
+        person_id = links.verify(current_app.config["SECRET_KEY"], link, run_id,
+                                 int(current_app.config["EMBED_LINK_MAX_AGE"]))
+        person = session.get(Person, person_id)
+        if person is None or not person.active:
+            raise Forbidden("this link is no longer valid")
+        return person
+    header = request.headers.get("Authorization", "")
+    secret = header.partition(" ")[2].strip() if header.lower().startswith("bearer ") else (token or "")
+    if secret:
+        found = token_for_secret(session, secret)
+        if found is None:
+            raise NotSignedIn("the API token is unknown or revoked")
+        return found.person
+    if current_user.is_authenticated:
+        return current_user._get_current_object()
+    raise NotSignedIn("this card needs a signed link (?link=…) or an API token")
+
+
+def card_flags(run: Run) -> list[dict[str, str]]:
+    """Return the flags shown on a card: warnings, an unsatisfactory E_n, an unsigned run."""
+    result = run.current_result
+    flags = []
+    if result is not None:
+        for w in result.warnings or []:
+            flags.append({"name": "warning", "detail": str(w)})
+        en = (result.comparison or {}).get("En")
+        if isinstance(en, (int, float)) and abs(en) > 1:
+            flags.append({"name": "|En| > 1", "detail": f"E_n = {en:.2f} against the reference (ISO 13528)"})
+    if not run.locked:
+        flags.append({"name": "not signed", "detail": "the run may still change"})
+    return flags
+
+
+def plot_data_uri(run: Run) -> str:
+    """Return the run plot of the current result as a data: URI (so the card needs no second request)."""
+    from webapp.plot_cache import run_plot
+
+    svg, _ok = run_plot(run, run.current_result)
+    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode("ascii")
+
+
+@bp.get("/embed/runs/<int:run_id>")
+def card(run_id: int):  # type: ignore[no-untyped-def]
+    """Show the compact result card of a run."""
+    person = reader(run_id, request.args.get("link"), request.args.get("token"))
+    run = get_run(get_session(), person, run_id)
+    result = run.current_result
+    return render_template("embed/card.html", run=run, result=result,
+                           main=result_value(result, result.main) if result else None,
+                           plot_uri=plot_data_uri(run) if result else "", flags=card_flags(run),
+                           version=__version__)
+
+
+@bp.get("/oembed")
+def oembed():  # type: ignore[no-untyped-def]
+    """Return the oEmbed 1.0 ``rich`` response for a card URL (or a run page URL)."""
+    url = request.args.get("url", "")
+    fmt = request.args.get("format", "json")
+    if fmt != "json":
+        abort(501)  # oEmbed 1.0, section 2.3.4: an unsupported format
+    parts = urlsplit(url)
+    path = parts.path
+    root = request.script_root
+    if root and path.startswith(root):
+        path = path[len(root):]
+    segs = [s for s in path.split("/") if s]
+    if len(segs) < 2 or segs[-2] != "runs" or not segs[-1].isdigit():
+        raise NotFound("expected the URL of a run's card (…/embed/runs/<id>) or page (…/runs/<id>)", field="url")
+    run_id = int(segs[-1])
+    link = (parse_qs(parts.query).get("link") or [None])[0] or request.args.get("link")
+    person = reader(run_id, link, request.args.get("token"))
+    run = get_run(get_session(), person, run_id)
+    width, height = CARD_WIDTH, CARD_HEIGHT
+    for name in ("maxwidth", "maxheight"):
+        raw = request.args.get(name)
+        if raw is not None and not raw.isdigit():
+            raise Invalid("expected a whole number of pixels", field=name)
+    if request.args.get("maxwidth"):
+        width = min(width, int(request.args["maxwidth"]))
+    if request.args.get("maxheight"):
+        height = min(height, int(request.args["maxheight"]))
+    src = url_for("embed.card", run_id=run.id, link=link, _external=True) if link else \
+        url_for("embed.card", run_id=run.id, _external=True)
+    html = (f'<iframe src="{escape(src)}" width="{width}" height="{height}" '
+            f'title="{escape(run.title)} (cupcal run {run.id})" style="border:0" loading="lazy" '
+            f'sandbox="allow-popups"></iframe>')
+    return jsonify({"version": "1.0", "type": "rich", "provider_name": "cupcal",
+                    "title": run.title, "html": html, "width": width, "height": height,
+                    "cache_age": int(current_app.config["EMBED_LINK_MAX_AGE"]) if link else 0})
