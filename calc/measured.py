@@ -38,17 +38,25 @@ _SQRT3 = math.sqrt(3.0)
 
 _NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _PM = r"(?:±|\+/-|\+-)"
+# re.ASCII: "\d" is 0-9 only. Without it "٣ mL" (an Arabic-Indic three) or a
+# full-width "１" was read as a number, found by the hostile-input tests.
 _MEASURED_RE = re.compile(
     rf"\s*(?P<open>\()?\s*(?P<value>{_NUM})\s*"
-    rf"(?:{_PM}\s*(?P<u>{_NUM}))?\s*(?(open)\))\s*(?P<unit>.*?)\s*"
+    rf"(?:{_PM}\s*(?P<u>{_NUM}))?\s*(?(open)\))\s*(?P<unit>.*?)\s*",
+    re.ASCII,
 )
 _CLOCK_RE = re.compile(
     r"\s*(?P<sign>[+-])?(?:(?P<h>\d+):)?(?P<m>\d+):(?P<s>\d\d(?:\.\d*)?)\s*"
-    rf"(?:{_PM}\s*(?P<u>{_NUM})\s*(?P<unit>.*?))?\s*"
+    rf"(?:{_PM}\s*(?P<u>{_NUM})\s*(?P<unit>.*?))?\s*",
+    re.ASCII,
 )
 _NONFINITE_RE = re.compile(r"\s*\(?\s*[+-]?(?:nan|inf|infinity)\b", re.IGNORECASE)
 _PM_IN_UNIT_RE = re.compile(_PM)
 _TEXT = "\x00"  # stands for the whole entry in cached problem messages
+# Longest entry read. Hostile-input tests found that pint's unit parser and the
+# clock pattern take time quadratic in the length (a 20 000-character unit took
+# ~3 s); real entries such as "(0.0500 ± 0.0002) mol/L" are far shorter.
+MAX_ENTRY_LENGTH = 200
 
 # Spellings that pint does not read (or reads as something else) mapped to pint names.
 _UNIT_SPELLINGS = {
@@ -160,8 +168,14 @@ def default_uncertainty(number_text: str) -> float:
     """
     mantissa, _, exponent = number_text.strip().lower().partition("e")
     _, _, fraction = mantissa.partition(".")
-    decimals = len(fraction) - (int(exponent) if exponent else 0)
-    return 0.5 * 10.0 ** (-decimals) / _SQRT3
+    # float() reads any exponent; int() refuses more than 4300 digits and
+    # 10.0**400 overflows (both found by the hostile-input tests on "0e400").
+    # Exponents this large give inf (or 0), which the caller rejects.
+    shift = float(exponent) if exponent else 0.0
+    try:
+        return 0.5 * 10.0 ** (shift - len(fraction)) / _SQRT3
+    except OverflowError:
+        return math.inf
 
 
 def describe_dimension(unit: str) -> str:
@@ -187,8 +201,8 @@ def parse_measured(
     ----------
     text:
         The run-file entry: a string such as ``"100.0 ± 0.1 mL"``, ``"25.0 °C"``,
-        ``"3:00"`` (a time); or a bare number, accepted only when ``expected``
-        is ``""`` (dimensionless).
+        ``"3:00"`` (a time), at most :data:`MAX_ENTRY_LENGTH` characters; or a
+        bare number, accepted only when ``expected`` is ``""`` (dimensionless).
     field:
         The dotted run-file field, named in error messages.
     expected:
@@ -211,6 +225,9 @@ def parse_measured(
         temperature below absolute zero.
     """
     if isinstance(text, str):
+        if len(text) > MAX_ENTRY_LENGTH:
+            problem = f"the entry is {len(text)} characters long (at most {MAX_ENTRY_LENGTH})"
+            raise _error(problem, expected, field, source)
         written = text.replace("−", "-") if "−" in text else text
         if ":" in written:
             clock = _CLOCK_RE.fullmatch(written)
@@ -224,9 +241,12 @@ def parse_measured(
             return _build(value_text, u_text, unit_text, text, field, expected, source)
         raise _unreadable(text, field=field, expected=expected, source=source)
     if isinstance(text, (int, float)) and not isinstance(text, bool):
+        try:
+            number = repr(text)
+        except ValueError:  # an int beyond Python's 4300-digit int-to-str limit (found by tests)
+            number = "(a whole number of thousands of digits)"
         if expected != "":
-            raise _error(f"missing unit: got the bare number {text!r}", expected, field, source)
-        number = repr(text) if isinstance(text, float) else str(text)
+            raise _error(f"missing unit: got the bare number {number}", expected, field, source)
         try:
             value = float(text)
         except OverflowError:
@@ -252,8 +272,14 @@ def _build(
     value = float(value_text)
     if not math.isfinite(value):
         raise _error(f"the value in {text!r} is too large to represent", expected, field, source)
+    if value == 0.0 and re.search(r"[1-9]", value_text.lower().partition("e")[0]):
+        # "1e-400" reads as 0.0: refuse rather than silently change the value.
+        raise _error(f"the value in {text!r} is too small to represent", expected, field, source)
     if u_text is None:
         u = default_uncertainty(value_text)
+        if not math.isfinite(u):
+            problem = f"the default uncertainty of {text!r} is too large; write 'value ± u unit'"
+            raise _error(problem, expected, field, source)
         distribution = "rectangular"
     else:
         u = float(u_text)
@@ -289,13 +315,17 @@ def _parse_clock(
     clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None
 ) -> Measured:
     """Turn a matched ``m:ss`` / ``h:mm:ss`` time into seconds."""
-    hours = int(clock.group("h") or 0)
-    minutes = int(clock.group("m"))
+    # float(), not int(): int() refuses more than 4300 digits and a huge int
+    # overflows when mixed with floats (both found by the hostile-input tests).
+    hours = float(clock.group("h") or 0)
+    minutes = float(clock.group("m"))
     seconds_text = clock.group("s")
     seconds = float(seconds_text)
     if seconds >= 60 or (clock.group("h") is not None and minutes >= 60):
         raise _error(f"{text!r} is not a valid m:ss or h:mm:ss time", expected, field, source)
     value = 3600.0 * hours + 60.0 * minutes + seconds
+    if not math.isfinite(value):
+        raise _error(f"the time {text!r} is too large to represent", expected, field, source)
     if clock.group("sign") == "-":
         value = -value
     if clock.group("u") is None:
@@ -311,7 +341,10 @@ def _parse_clock(
     unit, problem = _check_unit(unit_text, "s")
     if problem is not None:
         raise _error(problem.replace(_TEXT, repr(text)), expected, field, source)
-    return Measured(value, u * _affine(unit, "s")[0], "s", "normal", text)
+    u_s = u * _affine(unit, "s")[0]
+    if not math.isfinite(u_s):  # e.g. "1:00 ± 1e308 h" overflows in seconds
+        raise _error(f"the uncertainty in {text!r} is too large", expected, field, source)
+    return Measured(value, u_s, "s", "normal", text)
 
 
 def _error(problem: str, expected: str, field: str, source: str | None) -> InputError:

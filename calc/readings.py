@@ -77,10 +77,16 @@ _EXPECTED_HEADER = (
 )
 _UNITS_HELP = "s, ms, min, h, mm:ss or h:mm:ss for time and °C, K or °F for temperature"
 
-_NUMBER_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
-_CLOCK_RE = re.compile(r"([+-])?(?:(\d+):)?(\d+):(\d\d(?:\.\d*)?)")
+# re.ASCII: "\d" is 0-9 only. Without it a cell "٣" (an Arabic-Indic three)
+# was read as 3 by the line-by-line path (found by the hostile-input tests).
+_NUMBER_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?", re.ASCII)
+_CLOCK_RE = re.compile(r"([+-])?(?:(\d+):)?(\d+):(\d\d(?:\.\d*)?)", re.ASCII)
 _BRACKET_RE = re.compile(r"(.*?)\s*[(\[]\s*(.*?)\s*[)\]]")
 _NONFINITE_RE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
+# _BRACKET_RE backtracks in time quadratic in a run of spaces ("time" + 20 000
+# spaces + "(s" took ~2 s; found by the hostile-input tests), so longer header
+# cells are refused before it runs. Real ones are like "Temperature (°F)".
+_MAX_HEADER_CELL = 100
 
 _Parsed = tuple[np.ndarray, np.ndarray, np.ndarray]  # times (s), temperatures, line numbers
 
@@ -253,6 +259,9 @@ def _read_layout(line: str, index: int, source: str) -> _Layout:
 
 def _header_cell(cell: str, column: str, source: str, line: int) -> tuple[str, str]:
     """Return ("time" | "temperature", unit key) for one header cell."""
+    if len(cell) > _MAX_HEADER_CELL:
+        message = f"the header cell ({column} column) is {len(cell)} characters long; expected "
+        raise InputError(message + _EXPECTED_HEADER, source=source, line=line)
     bracket = _BRACKET_RE.fullmatch(cell)
     if bracket is not None:
         name, unit = bracket.groups()
@@ -312,7 +321,9 @@ def _parse_fast(lines: list[str], layout: _Layout) -> _Parsed | None:
     if not np.isfinite(values).all():
         return None
     numbers = np.arange(layout.first_row + 1, layout.first_row + 1 + len(body), dtype=np.int64)
-    return values[:, 0] * layout.seconds_per_unit, values[:, 1].copy(), numbers
+    with np.errstate(over="ignore"):  # an overflow to inf is reported by _checked, with its line
+        times = values[:, 0] * layout.seconds_per_unit
+    return times, values[:, 1].copy(), numbers
 
 
 def _parse_careful(lines: list[str], layout: _Layout, source: str) -> _Parsed:
@@ -363,11 +374,16 @@ def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
             message = f"the time cell {cell!r} is not a clock time; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
         sign, hours, minutes, seconds = clock.groups()
-        if float(seconds) >= 60 or (hours is not None and int(minutes) >= 60):
+        if float(seconds) >= 60 or (hours is not None and float(minutes) >= 60):
             message = f"the time cell {cell!r} is not a valid clock time; expected {unit} "
             message += "with minutes and seconds below 60"
             raise InputError(message, source=source, line=line)
-        value = 3600.0 * int(hours or 0) + 60.0 * int(minutes) + float(seconds)
+        # float(), not int(): int() refuses more than 4300 digits and a huge int
+        # overflows when mixed with floats (found by the hostile-input tests).
+        value = 3600.0 * float(hours or 0) + 60.0 * float(minutes) + float(seconds)
+        if not np.isfinite(value):
+            message = f"the time cell {cell!r} is too large; expected {unit} like '3:05'"
+            raise InputError(message, source=source, line=line)
         return -value if sign == "-" else value
     value = _number(cell, layout.delimiter)
     if value is not None and np.isfinite(value):
@@ -410,6 +426,13 @@ def _checked(
         message = f"found {found}; expected at least {MIN_READINGS} lines of time and temperature"
         line = int(numbers[-1]) if count else layout.header_line
         raise InputError(message, source=source, line=line)
+    # A time finite as written can overflow in seconds ("1e308" in hours);
+    # found by the hostile-input tests, which got a log with an infinite time.
+    too_large = np.flatnonzero(~np.isfinite(times))
+    if too_large.size:
+        message = f"a time of more than {np.finfo(float).max:.3g} s cannot be represented; "
+        message += f"expected a time in {layout.time_unit}"
+        raise InputError(message, source=source, line=int(numbers[too_large[0]]))
     unit = layout.temperature_unit
     symbol = _UNIT_SYMBOL[unit]
     said = "the file has no header, so they are read as °C"

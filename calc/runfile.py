@@ -8,8 +8,10 @@ dimensioned fields with a message that names the field and what was expected.
 
 from __future__ import annotations
 
+import json
 import math
 import os
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -205,13 +207,19 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        import re
-
         msg = str(exc)
         found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
         line = int(found.group(1)) if found else None
         msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
         raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
+    except RecursionError:
+        # tomllib recurses once per nesting level: "x = [[[[…" ~1000 deep
+        # exhausted the stack (found by the hostile-input tests).
+        raise InputError("not valid run-file TOML: arrays or tables nested too deeply", source=source) from None
+    except ValueError:
+        # tomllib reads integers with int(), which refuses more than 4300 digits
+        # (found by the hostile-input tests with "x = 999…9").
+        raise InputError("not valid run-file TOML: a number has too many digits", source=source) from None
     kind = data.get("kind")
     if kind is None:
         raise InputError(f"missing; expected one of: {', '.join(KINDS)}", source=source, field="kind")
@@ -229,7 +237,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
                     f"unknown section [{key}] for a {kind} run; expected sections: "
                     + ", ".join(f"[{s}]" for s in schema),
                     source=source,
-                    field=key,
+                    field=_key(key),
                 )
             sections[key] = _parse_section(key, value, schema[key], source)
         else:
@@ -238,7 +246,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
                     f"unknown field; expected top-level fields: {', '.join(_TOP)} and sections "
                     + ", ".join(f"[{s}]" for s in schema),
                     source=source,
-                    field=key,
+                    field=_key(key),
                 )
             top[key] = value
     for sec in REQUIRED_SECTIONS[kind]:
@@ -282,6 +290,19 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     )
 
 
+_BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")
+
+
+def _key(name: str) -> str:
+    """Return ``name`` as it is written in a dotted TOML key: bare, or quoted when it must be.
+
+    TOML 1.0.0 ("Keys"): bare keys are ASCII letters, digits, ``_`` and ``-``;
+    others are quoted strings. Hostile-input tests found that an empty section
+    name (``[""]``) gave an error with an empty field, which the message omits.
+    """
+    return name if _BARE_KEY_RE.fullmatch(name) else json.dumps(name, ensure_ascii=False)
+
+
 def _parse_time(value: Any, name: str, source: str) -> Measured:
     return parse_measured(value, field=name, expected="s", source=source)
 
@@ -303,7 +324,7 @@ def _parse_period(value: Any, name: str, source: str) -> tuple[float, float] | N
 def _parse_section(name: str, values: dict[str, Any], fields: dict[str, Field], source: str) -> dict[str, Any]:
     out: dict[str, Any] = {}
     for key, value in values.items():
-        dotted = f"{name}.{key}"
+        dotted = f"{name}.{_key(key)}"
         if key not in fields:
             raise InputError(
                 f"unknown field; [{name}] takes: {', '.join(fields)}", source=source, field=dotted
