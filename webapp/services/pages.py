@@ -25,7 +25,6 @@ from webapp.services.access import can_edit_run
 from webapp.services.access import can_lock_run
 from webapp.services.access import can_view_run
 from webapp.services.access import visible_runs_clause
-from webapp.services.analysis import calorimeter_name_in
 from webapp.services.analysis import decode_readings
 from webapp.services.analysis import needs_supplied_heat_capacity
 from webapp.services.analysis import parse_inputs
@@ -35,13 +34,14 @@ from webapp.services.audit import audit_trail
 from webapp.services.calorimeters import calibration_history
 from webapp.services.calorimeters import calorimeters_query
 from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import find_calorimeter
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
 from webapp.services.runs import RunUpload
+from webapp.services.runs import calorimeter_for_upload
 from webapp.services.runs import get_run
 from webapp.services.runs import runs_query
+from webapp.services.runs import upload_file_name
 
 
 @dataclasses.dataclass
@@ -60,10 +60,10 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
     options = upload.options.checked()
-    run_name = _file_name(upload.run_file_name, "run_file")
-    readings_name = _file_name(upload.readings_name, "readings")
+    run_name = upload_file_name(upload.run_file_name, "run_file")
+    readings_name = upload_file_name(upload.readings_name, "readings")
     text = decode_readings(upload.readings, readings_name)
-    calorimeter = _calorimeter_for(session, upload)
+    calorimeter = calorimeter_for_upload(session, upload)
     calibration = None
     if calorimeter is not None and needs_supplied_heat_capacity(upload.run_toml):
         calibration = current_calibration(session, calorimeter.id)
@@ -190,23 +190,3 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
               .unique().all()]
     # the calibration in force is the latest by (taken_at, id): the history's last
     return CalorimeterPage(cal, history, history[-1] if history else None, rows, latest)
-
-
-# ---------------------------------------------------------------- helpers
-
-
-def _file_name(name: str, field: str) -> str:
-    name = (name or "").strip().replace("\\", "/").rsplit("/", 1)[-1]
-    if not name:
-        raise Invalid("missing file name", field=field)
-    return name[:255]
-
-
-def _calorimeter_for(session: so.Session, upload: RunUpload) -> Calorimeter | None:
-    if upload.calorimeter_id is not None:
-        cal = session.get(Calorimeter, upload.calorimeter_id)
-        if cal is None:
-            raise Invalid(f"no calorimeter with id {upload.calorimeter_id}", field="calorimeter_id")
-        return cal
-    name = calorimeter_name_in(upload.run_toml)
-    return find_calorimeter(session, name) if name else None

@@ -99,10 +99,10 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     :raise Forbidden: when a student records a run for another group
     """
     options = upload.options.checked()
-    run_name = _file_name(upload.run_file_name, "run_file")
-    readings_name = _file_name(upload.readings_name, "readings")
+    run_name = upload_file_name(upload.run_file_name, "run_file")
+    readings_name = upload_file_name(upload.readings_name, "readings")
     readings_text = decode_readings(upload.readings, readings_name)
-    calorimeter = _calorimeter_for(session, upload)
+    calorimeter = calorimeter_for_upload(session, upload)
     calibration: Calibration | None = None
     if calorimeter is not None and needs_supplied_heat_capacity(upload.run_toml):
         calibration = current_calibration(session, calorimeter.id)
@@ -296,14 +296,16 @@ def _periods_given(options: AnalysisOptions) -> bool:
     return options.fore is not None or options.after is not None
 
 
-def _file_name(name: str, field: str) -> str:
+def upload_file_name(name: str, field: str) -> str:
+    """Return the base name of an uploaded file (no folders), or raise Invalid naming ``field``."""
     name = (name or "").strip().replace("\\", "/").rsplit("/", 1)[-1]
     if not name:
         raise Invalid("missing file name", field=field)
     return name[:255]
 
 
-def _calorimeter_for(session: so.Session, upload: RunUpload) -> Calorimeter | None:
+def calorimeter_for_upload(session: so.Session, upload: RunUpload) -> Calorimeter | None:
+    """Return the calorimeter an upload names (by id, else by its run file's name), if any."""
     if upload.calorimeter_id is not None:
         cal = session.get(Calorimeter, upload.calorimeter_id)
         if cal is None:
