@@ -17,7 +17,7 @@ import numpy as np
 
 from calc import __version__
 from calc.deltat import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
-from calc.errors import AnalysisError, InputError
+from calc.errors import AnalysisError
 from calc.gum import GumResult, MonteCarloResult, monte_carlo, propagate
 from calc.models import MAIN_OUTPUT, ModelSpec, Properties, build_model
 from calc.periods import Periods, find_periods

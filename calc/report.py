@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from calc.analysis import OUTPUT_UNITS, Analysis
+from calc.analysis import Analysis
 
 __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BUDGET_LINES"]
 

@@ -12,7 +12,6 @@ import re
 import statistics
 import threading
 import time
-from pathlib import Path
 from typing import Any
 
 import numpy as np

@@ -159,7 +159,7 @@ def test_import_over_the_api_and_the_web_page(client: Any, lab: Any, session: An
 def test_cupcal_import_command(app: Any, lab: Any, session: Any, tmp_path: Path, monkeypatch: Any) -> None:
     from webapp import commands
 
-    cl = make_class(session, lab.ids["coord"])
+    make_class(session, lab.ids["coord"])
     monkeypatch.setattr(commands, "_app", lambda: app)
     folder = _folder(tmp_path)
     mapping = tmp_path / "map.csv"
