@@ -29,6 +29,7 @@ DEFAULTS: dict[str, Any] = {
     "PAGE_SIZE": 50,
     "SESSION_COOKIE_HTTPONLY": True,
     "SESSION_COOKIE_SAMESITE": "Lax",
+    "CUPCAL_HTTPS": False,  # True (or env CUPCAL_HTTPS=1) behind HTTPS: Secure session cookie, HSTS (webapp/security.py)
     "EMBED_FRAME_ANCESTORS": "'self'",  # CSP frame-ancestors of the /embed/ routes only, e.g. "https://eln.example"
     "EMBED_LINK_MAX_AGE": 7 * 24 * 3600,  # seconds a signed card link stays valid
     "TRUST_PROXY_USER_HEADER": None,  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
@@ -47,6 +48,8 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
         app.config["DATABASE_URL"] = os.environ["DATABASE_URL"]
     if os.environ.get("CUPCAL_SECRET_KEY"):
         app.config["SECRET_KEY"] = os.environ["CUPCAL_SECRET_KEY"]
+    if os.environ.get("CUPCAL_HTTPS"):
+        app.config["CUPCAL_HTTPS"] = os.environ["CUPCAL_HTTPS"]
     if config is not None:
         app.config.from_mapping(config)
     if not app.config["DATABASE_URL"]:
@@ -58,6 +61,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp import auth
     from webapp import db
     from webapp import errors
+    from webapp import security
     from webapp import templating
     from webapp.api import bp as api_bp
     from webapp.calorimeters import bp as calorimeters_bp
@@ -74,6 +78,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     auth.init_app(app)
     templating.init_app(app)
     errors.init_app(app)
+    security.init_app(app)
     app.register_blueprint(auth.bp)
     app.register_blueprint(main_bp)
     app.register_blueprint(runs_bp)

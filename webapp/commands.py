@@ -1,6 +1,7 @@
 """``cupcal`` commands of the notebook (entry-point group ``cupcal.commands``).
 
-``cupcal db upgrade|downgrade|current``, ``cupcal load-demo`` and ``cupcal serve``. The
+``cupcal db upgrade|downgrade|current``, ``cupcal load-demo``, ``cupcal serve``, ``cupcal import``,
+``cupcal backup OUT`` and ``cupcal restore IN``. The
 database is the one :func:`webapp.create_app` configures (instance folder, or
 ``DATABASE_URL``).
 """
@@ -137,6 +138,8 @@ def serve(host: str, port: int, demo: bool) -> None:
     if show:
         _print_sign_ins(demo_sign_ins())
     click.echo(f"serving on http://{host}:{port} (Ctrl-C stops)")
+    if not app.config.get("SESSION_COOKIE_SECURE"):
+        click.echo("the session cookie is not marked Secure (plain http); behind HTTPS set CUPCAL_HTTPS=1")
     app.run(host=host, port=port, debug=False, use_reloader=False)
 
 
@@ -211,3 +214,48 @@ def import_command(path: Path, section_text: str, mapping: Path | None, email: s
     click.echo(report.summary)
     if report.count("error"):
         raise SystemExit(2)
+
+
+class _Refused(click.ClickException):
+    """A one-line error of backup/restore (exit status 2)."""
+
+    exit_code = 2
+
+
+@click.command("backup")
+@click.argument("out", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--force", is_flag=True, help="Replace OUT when it exists.")
+def backup_command(out: Path, force: bool) -> None:
+    """Back up the database to the file OUT (safe while the notebook is serving).
+
+    SQLite: a copy made with SQLite's online backup API. PostgreSQL: a pg_dump
+    custom-format archive (needs pg_dump on this machine).
+    """
+    from webapp.backup import BackupError
+    from webapp.backup import backup
+
+    app = _app()
+    try:
+        backup(_url(app), out, force=force)
+    except BackupError as exc:
+        raise _Refused(str(exc)) from None
+    click.echo(f"backed up {_shown(_url(app))} to {out}")
+
+
+@click.command("restore")
+@click.argument("source", metavar="IN", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("--force", is_flag=True, help="Replace the contents of a database that holds data.")
+def restore_command(source: Path, force: bool) -> None:
+    """Restore the database from IN, a file made by `cupcal backup`.
+
+    Only an empty database is restored into, unless --force. Stop the notebook first.
+    """
+    from webapp.backup import BackupError
+    from webapp.backup import restore
+
+    app = _app()
+    try:
+        restore(_url(app), source, force=force)
+    except BackupError as exc:
+        raise _Refused(str(exc)) from None
+    click.echo(f"restored {_shown(_url(app))} from {source}")
