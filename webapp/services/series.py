@@ -16,21 +16,16 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.errors import InputError
-from calc.replicates import shared_type_b
-from calc.replicates import summarise_series
 
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import Series
-from webapp.models import SeriesRun
-from webapp.services.access import can_view_run
-from webapp.services.access import require_coordinator
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from calc.errors import InputError
+from calc.replicates import shared_type_b, summarise_series
+from webapp.models import Person, Result, Run, Series, SeriesRun
+from webapp.services.access import can_view_run, require_coordinator
+from webapp.services.errors import Invalid, NotFound
 
 MAX_SERIES_RUNS = 500
+#: the largest id a 32-bit INTEGER column holds (a larger number cannot name a run)
+MAX_ID = 2**31 - 1
 
 
 def budget_lines(budget: list[dict[str, Any]]) -> list[SimpleNamespace]:
@@ -90,6 +85,8 @@ def create_series(session: so.Session, actor: Person, *, name: str, run_ids: lis
         raise Invalid("expected a name of 1 to 200 characters", field="name")
     if not isinstance(run_ids, list) or not all(isinstance(i, int) and not isinstance(i, bool) for i in run_ids):
         raise Invalid("expected a list of run ids", field="run_ids")
+    if not all(0 < i <= MAX_ID for i in run_ids):
+        raise Invalid(f"expected run ids from 1 to {MAX_ID}", field="run_ids")
     ids = sorted(set(run_ids))
     if len(ids) > MAX_SERIES_RUNS:
         raise Invalid(f"at most {MAX_SERIES_RUNS} runs in a series", field="run_ids")
