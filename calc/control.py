@@ -26,6 +26,7 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.errors import InputError
+from calc.stats import finite_series
 
 __all__ = [
     "D2",
@@ -67,18 +68,7 @@ RULES: dict[str, str] = {
 
 
 def _series(values: Sequence[float] | np.ndarray, what: str, minimum: int) -> np.ndarray:
-    try:
-        x = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise InputError(f"{what}: expected a list of numbers, got {values!r}") from None
-    if x.ndim != 1:
-        raise InputError(f"{what}: expected a flat list of numbers")
-    if not np.all(np.isfinite(x)):
-        bad = int(np.flatnonzero(~np.isfinite(x))[0])
-        raise InputError(f"{what}: point {bad + 1} is not a finite number ({x[bad]})")
-    if x.size < minimum:
-        raise InputError(f"{what}: at least {minimum} points are needed, got {x.size}")
-    return x
+    return finite_series(values, what, minimum, noun="point", too_few=f"at least {minimum} points are needed")
 
 
 def moving_ranges(values: Sequence[float] | np.ndarray) -> np.ndarray:

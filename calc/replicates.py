@@ -29,6 +29,7 @@ from scipy import stats as sps
 
 from calc.errors import InputError
 from calc.gum import coverage_factor
+from calc.stats import finite_series
 
 __all__ = [
     "SeriesSummary",
@@ -56,18 +57,7 @@ SHARED_INPUTS: tuple[str, ...] = (
 
 
 def _series(values: Sequence[float] | np.ndarray, what: str = "series") -> np.ndarray:
-    try:
-        x = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise InputError(f"{what}: expected a list of numbers, got {values!r}") from None
-    if x.ndim != 1:
-        raise InputError(f"{what}: expected a flat list of numbers")
-    if not np.all(np.isfinite(x)):
-        bad = int(np.flatnonzero(~np.isfinite(x))[0])
-        raise InputError(f"{what}: value {bad + 1} is not a finite number ({x[bad]})")
-    if x.size < 2:
-        raise InputError(f"{what}: at least 2 results are needed for a standard deviation, got {x.size}")
-    return x
+    return finite_series(values, what, 2, too_few="at least 2 results are needed for a standard deviation")
 
 
 @dataclass(frozen=True)

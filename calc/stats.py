@@ -62,8 +62,20 @@ _WINSOR_SD_FACTOR = 1.134
 # ---------------------------------------------------------------------------- helpers
 
 
-def _values(values: Sequence[float] | np.ndarray, what: str, minimum: int) -> np.ndarray:
-    """Return ``values`` as a finite 1-D float array of at least ``minimum`` items."""
+def finite_series(
+    values: Sequence[float] | np.ndarray,
+    what: str,
+    minimum: int,
+    *,
+    noun: str = "value",
+    too_few: str | None = None,
+) -> np.ndarray:
+    """Return ``values`` as a finite 1-D float array of at least ``minimum`` items.
+
+    Shared by the statistics, control-chart and replicate modules; ``noun`` names one item
+    in messages ("value", "point", "result") and ``too_few`` replaces the message for a
+    series that is too short.
+    """
     try:
         x = np.asarray(values, dtype=float)
     except (TypeError, ValueError):
@@ -72,11 +84,11 @@ def _values(values: Sequence[float] | np.ndarray, what: str, minimum: int) -> np
         raise InputError(f"{what}: expected a flat list of numbers")
     if not np.all(np.isfinite(x)):
         bad = int(np.flatnonzero(~np.isfinite(x))[0])
-        raise InputError(f"{what}: value {bad + 1} is not a finite number ({x[bad]})")
-    if x.size == 0 and minimum >= 1:
-        raise InputError(f"{what}: no values given")
+        raise InputError(f"{what}: {noun} {bad + 1} is not a finite number ({x[bad]})")
+    if too_few is None and x.size == 0 and minimum >= 1:
+        raise InputError(f"{what}: no {noun}s given")
     if x.size < minimum:
-        raise InputError(f"{what}: at least {minimum} values are needed, got {x.size}")
+        raise InputError(f"{what}: " + (too_few or f"at least {minimum} {noun}s are needed") + f", got {x.size}")
     return x
 
 
@@ -85,7 +97,7 @@ def _cells(cells: Sequence[Sequence[float]], minimum_cells: int = 2) -> list[np.
     if isinstance(cells, np.ndarray) and cells.ndim == 2:
         cells = list(cells)
     try:
-        out = [_values(c, f"group {i + 1}", 1) for i, c in enumerate(cells)]
+        out = [finite_series(c, f"group {i + 1}", 1) for i, c in enumerate(cells)]
     except TypeError:
         raise InputError("expected a list of groups, each a list of replicate results") from None
     if len(out) < minimum_cells:
@@ -175,7 +187,7 @@ def grubbs(values: Sequence[float] | np.ndarray, alpha: float = 0.05) -> GrubbsR
     InputError
         For fewer than 3 values or a value that is not a finite number.
     """
-    x = _values(values, "Grubbs test", 3)
+    x = finite_series(values, "Grubbs test", 3)
     mean = float(x.mean())
     sd = float(x.std(ddof=1))
     dev = np.abs(x - mean)
@@ -433,7 +445,7 @@ def robust_mean_sd(
     RobustEstimate
         ``sd`` is 0 when more than half the values are equal (s* starts at 0).
     """
-    x = _values(values, "Algorithm A", 3)
+    x = finite_series(values, "Algorithm A", 3)
     xs = float(np.median(x))
     ss = _MAD_FACTOR * float(np.median(np.abs(x - xs)))
     if ss == 0.0:

@@ -223,7 +223,7 @@ def test_at_least_25_tabulated_solutes_of_the_kinds_asked_for() -> None:
 @pytest.mark.parametrize("ref", tabulated_solution_enthalpies(), ids=lambda r: r.formula)
 def test_tabulated_solution_enthalpy_agrees_with_hess(ref) -> None:
     # Independent route: ΔsolH° = Σ ΔfH°(aqueous ions, NBS 1982) - ΔfH°(solid, NBS 1982).
-    # The CRC table derives from the NBS data, so this checks transcription and internal
+    # The CRC table derives from the NBS data, so this checks the typed-in values and the internal
     # consistency: agreement within 2 x (stated u of the tabulated value combined with
     # the rounding of the ΔfH° entries); the NBS per-entry uncertainties cancel largely
     # in such differences and are not used here.

@@ -62,7 +62,7 @@ def test_grubbs_false_alarm_rate_on_normal_data_is_alpha():
 
 
 def test_grubbs_flags_the_suspect_value_of_a_section():
-    # invented class section: seven ΔH results in kJ/mol, one transcription slip
+    # invented class section: seven ΔH results in kJ/mol, one copying slip
     values = [17.4, 17.9, 17.6, 17.2, 17.8, 21.5, 17.5]
     r = grubbs(values)
     assert r.index == 5 and r.is_outlier
