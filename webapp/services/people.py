@@ -120,7 +120,7 @@ def create_group(session: so.Session, actor: Person, *, name: str, course_id: in
     return group
 
 
-def issue_token(session: so.Session, person: Person, label: str = "") -> tuple[ApiToken, str]:
+def issue_token(session: so.Session, person: Person, label: str = "", scope: str = "write") -> tuple[ApiToken, str]:
     """Create an API token for ``person`` and commit; return it with its secret (shown once)."""
     secret = TOKEN_PREFIX + secrets.token_urlsafe(32)
     token = ApiToken(
@@ -128,14 +128,15 @@ def issue_token(session: so.Session, person: Person, label: str = "") -> tuple[A
         label=label.strip()[:120],
         prefix=secret[: len(TOKEN_PREFIX) + 6],
         token_hash=_digest(secret),
+        scope=scope,
     )
     session.add(token)
     session.commit()
     return token, secret
 
 
-def person_for_token(session: so.Session, secret: str) -> Person | None:
-    """Return the active owner of an unrevoked token, or None."""
+def token_for_secret(session: so.Session, secret: str) -> ApiToken | None:
+    """Return the unrevoked token of an active person with this secret (recording its use), or None."""
     token = session.scalar(sa.select(ApiToken).where(ApiToken.token_hash == _digest(secret)))
     if token is None or token.revoked_at is not None or not token.person.active:
         return None
@@ -143,7 +144,13 @@ def person_for_token(session: so.Session, secret: str) -> Person | None:
     if token.last_used_at is None or now - token.last_used_at > _TOKEN_TOUCH:
         token.last_used_at = now
         session.commit()
-    return token.person
+    return token
+
+
+def person_for_token(session: so.Session, secret: str) -> Person | None:
+    """Return the active owner of an unrevoked token, or None."""
+    token = token_for_secret(session, secret)
+    return token.person if token is not None else None
 
 
 def revoke_token(session: so.Session, person: Person, token_id: int) -> ApiToken:

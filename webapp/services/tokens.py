@@ -11,12 +11,10 @@ import sqlalchemy.orm as so
 
 from webapp.models import ApiToken
 from webapp.models import Person
-from webapp.models import utcnow
 from webapp.services.errors import Forbidden
 from webapp.services.errors import Invalid
-from webapp.services.people import _TOKEN_TOUCH
-from webapp.services.people import _digest
 from webapp.services.people import issue_token
+from webapp.services.people import token_for_secret  # noqa: F401  (re-exported)
 
 SCOPES = ("read", "write")
 
@@ -26,23 +24,7 @@ def issue_scoped_token(session: so.Session, person: Person, label: str = "", sco
     """Create a token with ``scope`` ("read" or "write") and commit; return it with its secret (shown once)."""
     if scope not in SCOPES:
         raise Invalid(f"unknown scope {scope!r}; expected one of: {', '.join(SCOPES)}", field="scope")
-    token, secret = issue_token(session, person, label)
-    if token.scope != scope:
-        token.scope = scope
-        session.commit()
-    return token, secret
-
-
-def token_for_secret(session: so.Session, secret: str) -> ApiToken | None:
-    """Return the unrevoked token of an active person with this secret (recording its use), or None."""
-    token = session.scalar(sa.select(ApiToken).where(ApiToken.token_hash == _digest(secret)))
-    if token is None or token.revoked_at is not None or not token.person.active:
-        return None
-    now = utcnow()
-    if token.last_used_at is None or now - token.last_used_at > _TOKEN_TOUCH:
-        token.last_used_at = now
-        session.commit()
-    return token
+    return issue_token(session, person, label, scope)
 
 
 def require_scope(token: ApiToken | None, scope: str) -> None:
