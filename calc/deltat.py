@@ -291,76 +291,57 @@ def _regnault_pfaundler(log: Log) -> DeltaT:
     after = log.line("after")
     t, y = log.t, log.y
     warnings: list[str] = []
+    inner, w_a, w_b, w = _trapz_parts(t, y, t_i, t_f)
     if log.two_solution:
         # Drift law of the final system from the after period alone; start level from the fore line.
         nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
         T_A = fore.at(t_i)
         var_TA = fore.var_at(t_i)
 
-        inner, w_a, w_b, w = _trapz_parts(t, y, t_i, t_f)
-
-        def dT_of(p: np.ndarray, T_start: float = T_A) -> float:
+        def dT_of(p: np.ndarray) -> float:
             y_f, g_f, k = p
-            integ = inner + w_a * T_start + w_b * y_f
-            return (y_f - T_start) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+            integ = inner + w_a * T_A + w_b * y_f
+            return (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
 
-        p = nf.params
-        value = dT_of(p)
-        grad = _numgrad(dT_of, p, nf.cov)
-        var = _quad_form(grad, nf.cov)
         # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
-        var += var_TA
-        k = nf.k
-        var += (k * nf.s) ** 2 * float(np.dot(w, w))
-        dof = min(nf.dof, fore.dof)
-        if k < 0 and abs(k) > 2 * math.sqrt(max(nf.cov[2, 2], 0.0)):
-            warnings.append(
-                "after-period drift is not Newtonian (exchange constant k < 0): "
-                "room temperature change, evaporation or an unfinished process?"
-            )
-        construction = {
-            "k_per_s": k,
-            "u_k_per_s": math.sqrt(max(nf.cov[2, 2], 0.0)),
-            "convergence_temperature_K": nf.convergence_temperature(),
-            "fore_line": (fore.a, fore.b, fore.t_mean),
-            "after_newton": (float(p[0]), float(p[1]), float(p[2]), t_f),
-            "t_i": t_i,
-            "t_f": t_f,
-        }
+        extra_var, dof, i_k = var_TA, min(nf.dof, fore.dof), 2
+        not_newtonian = (
+            "after-period drift is not Newtonian (exchange constant k < 0): "
+            "room temperature change, evaporation or an unfinished process?"
+        )
+        specific = {"after_newton": (*(float(v) for v in nf.params), t_f)}
         start, u_start = T_A, math.sqrt(var_TA)
     else:
-        k0 = _classic_k(fore, after)
-        nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=k0)
-
-        inner, w_a, w_b, w = _trapz_parts(t, y, t_i, t_f)
+        nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=_classic_k(fore, after))
 
         def dT_of(p: np.ndarray) -> float:
             y_i, y_f, g_i, k = p
             integ = inner + w_a * y_i + w_b * y_f
             return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
 
-        p = nf.params
-        value = dT_of(p)
-        grad = _numgrad(dT_of, p, nf.cov)
-        var = _quad_form(grad, nf.cov)
-        k = nf.k
-        var += (k * nf.s) ** 2 * float(np.dot(w, w))
-        dof = nf.dof
-        if k < 0 and abs(k) > 2 * math.sqrt(max(nf.cov[3, 3], 0.0)):
-            warnings.append(
-                "drift is not Newtonian (exchange constant k < 0): room temperature change, "
-                "evaporation, a heating stir plate or an unfinished process?"
-            )
-        construction = {
-            "k_per_s": k,
-            "u_k_per_s": math.sqrt(max(nf.cov[3, 3], 0.0)),
-            "convergence_temperature_K": nf.convergence_temperature(),
-            "newton_joint": tuple(float(v) for v in p),
-            "fore_line": (fore.a, fore.b, fore.t_mean),
-            "t_i": t_i,
-            "t_f": t_f,
-        }
-        start, u_start = float(p[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
+        extra_var, dof, i_k = 0.0, nf.dof, 3
+        not_newtonian = (
+            "drift is not Newtonian (exchange constant k < 0): room temperature change, "
+            "evaporation, a heating stir plate or an unfinished process?"
+        )
+        specific = {"newton_joint": tuple(float(v) for v in nf.params)}
+        start, u_start = float(nf.params[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
+    p = nf.params
+    k = nf.k
+    value = dT_of(p)
+    var = _quad_form(_numgrad(dT_of, p, nf.cov), nf.cov) + extra_var + (k * nf.s) ** 2 * float(np.dot(w, w))
+    u_k = math.sqrt(max(nf.cov[i_k, i_k], 0.0))
+    if k < 0 and abs(k) > 2 * u_k:
+        warnings.append(not_newtonian)
+    construction = {
+        "k_per_s": k,
+        "u_k_per_s": u_k,
+        "convergence_temperature_K": nf.convergence_temperature(),
+        **specific,
+        "fore_line": (fore.a, fore.b, fore.t_mean),
+        "t_i": t_i,
+        "t_f": t_f,
+    }
     construction["after_line"] = (after.a, after.b, after.t_mean)
     construction["autocorrelation"] = nf.rho
     construction["residual_sd_K"] = nf.s
