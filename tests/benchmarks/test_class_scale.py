@@ -9,7 +9,6 @@ peak memory ≤ 400 MB (RSS, psutil); dashboard for 900 runs ≤ 300 ms server t
 from __future__ import annotations
 
 import re
-import statistics
 import threading
 import time
 from typing import Any
@@ -20,6 +19,7 @@ import pytest
 
 from calc.simulate import simulate_dissolution
 from calc.simulate import write_run
+from tests.benchmarks.webapp_bench import time_ms
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.db import new_session
@@ -103,17 +103,6 @@ def test_import_900_runs(classroom: dict[str, Any]) -> None:
     assert again.count("stored") == 0
 
 
-def _time(fn: Any, n: int) -> tuple[float, float]:
-    fn()
-    samples = []
-    for _ in range(n):
-        t0 = time.perf_counter()
-        fn()
-        samples.append(1000 * (time.perf_counter() - t0))
-    samples.sort()
-    return statistics.median(samples), samples[int(0.95 * (len(samples) - 1))]
-
-
 def test_dashboard_and_export_of_900_runs(classroom: dict[str, Any]) -> None:
     client = classroom["app"].test_client()
     page = client.get("/auth/login").get_data(as_text=True)
@@ -124,11 +113,11 @@ def test_dashboard_and_export_of_900_runs(classroom: dict[str, Any]) -> None:
     r = client.get(f"/classes/sections/{sid}/dashboard")
     print(f"dashboard page, first request (plot drawn, not yet cached): {1000 * (time.perf_counter() - t0):.0f} ms")
     assert r.status_code == 200 and r.get_data(as_text=True).count("<tr>") > 900
-    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc"), 10)
+    med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc"), 10)
     print(f"dashboard page, 900 runs, re-sorted (plot from its cache; table, statistics, feedback, group series): median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 300 ms)")
-    med, p95 = _time(lambda: client.get(f"/api/sections/{sid}/dashboard"), 10)
+    med, p95 = time_ms(lambda: client.get(f"/api/sections/{sid}/dashboard"), 10)
     print(f"dashboard JSON, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms")
-    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10)
+    med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10)
     print(f"CSV export, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 1 s)")
-    med, p95 = _time(lambda: client.get(f"/classes/sections/{sid}/export.xlsx"), 5)
+    med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/export.xlsx"), 5)
     print(f"xlsx export, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms")

@@ -1,0 +1,65 @@
+"""Shared pieces of the notebook's benchmarks: a timer and an app holding one long run."""
+
+from __future__ import annotations
+
+import io
+import re
+import statistics
+import time
+from collections.abc import Callable
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from calc.simulate import simulate_dissolution
+from calc.simulate import write_run
+from webapp import create_app
+from webapp.db import get_engine
+from webapp.db import new_session
+from webapp.migrate import upgrade
+from webapp.services.people import create_person
+from webapp.services.people import issue_token
+
+PASSWORD = "benchmark password"
+
+
+def time_ms(fn: Callable[[], Any], n: int, before: Callable[[], None] | None = None) -> tuple[float, float]:
+    """Return the median and the 95th percentile of ``n`` timings of ``fn`` in ms (``before`` untimed)."""
+    if before:
+        before()
+    fn()  # warm-up: imports, caches, first query plans
+    samples = []
+    for _ in range(n):
+        if before:
+            before()
+        t0 = time.perf_counter()
+        fn()
+        samples.append(1000 * (time.perf_counter() - t0))
+    samples.sort()
+    return statistics.median(samples), samples[int(0.95 * (len(samples) - 1))]
+
+
+def app_with_a_long_run(d: Path) -> Iterator[dict[str, Any]]:
+    """Yield an app on a fresh SQLite file with one 2,000-point run and a signed-in coordinator client."""
+    url = f"sqlite:///{d / 'bench.sqlite3'}"
+    upgrade(url)
+    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0})
+    s = new_session(app)
+    coord = create_person(s, email="bench@lab.example", name="Bench", role="coordinator", password=PASSWORD,
+                          password_method="scrypt:1024:8:1")
+    token = issue_token(s, coord, "bench")[1]
+    s.close()
+    sim = simulate_dissolution(np.random.default_rng(11), fore_s=400.0, after_s=1600.0, dt=1.0)
+    path = write_run(sim, d, "long")
+    client = app.test_client()
+    r = client.post("/api/runs", headers={"Authorization": f"Bearer {token}"}, content_type="multipart/form-data",
+                    data={"run_file": (io.BytesIO(path.read_bytes()), "long.toml"),
+                          "readings": (io.BytesIO(path.with_suffix(".csv").read_bytes()), "long.csv")})
+    assert r.status_code == 201, r.get_json()
+    page = client.get("/auth/login").get_data(as_text=True)
+    csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
+    client.post("/auth/login", data={"email": "bench@lab.example", "password": PASSWORD, "csrf_token": csrf})
+    yield {"app": app, "client": client, "run": r.get_json(), "token": token}
+    get_engine(app).dispose()
