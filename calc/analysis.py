@@ -19,10 +19,11 @@ from calc import __version__
 from calc.deltat import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
 from calc.errors import AnalysisError
 from calc.gum import GumResult, MonteCarloResult, monte_carlo, propagate
-from calc.models import MAIN_OUTPUT, ModelSpec, Properties, build_model
+from calc.models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
 from calc.periods import Periods, find_periods
 from calc.readings import Readings, read_readings
 from calc.runfile import RunSpec, load_run
+from calc.solutes import STRONG_ACIDS
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -252,9 +253,9 @@ def _stock_density(pm: Any, spec: RunSpec, sec: str, T: float) -> Any:
     return rho
 
 
-_ANIONS = {"HCl": ("Cl", 1), "HBr": ("Br", 1), "HI": ("I", 1), "HNO3": ("NO3", 1), "HClO4": ("ClO4", 1),
-           "H2SO4": ("SO4", 2)}
-_CATIONS = {"NaOH": ("Na", 1), "KOH": ("K", 1), "LiOH": ("Li", 1), "Ba(OH)2": ("Ba", 2), "Ca(OH)2": ("Ca", 2)}
+#: Cation of each strong base; anions come from calc.solutes.STRONG_ACIDS and ion charges
+#: from calc.models.EQUIVALENTS (H⁺ or OH⁻ per formula unit).
+_CATIONS = {"NaOH": "Na", "KOH": "K", "LiOH": "Li", "Ba(OH)2": "Ba", "Ca(OH)2": "Ca"}
 
 
 def _final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
@@ -272,9 +273,9 @@ def _final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, floa
         nb = spec.get("base", "concentration").m_as("mol/L") * spec.get("base", "volume").m_as("mL") / 1000
         total = (spec.get("acid", "volume").m_as("mL") * props.values["acid.density"][0]
                  + spec.get("base", "volume").m_as("mL") * props.values["base.density"][0])
-        if acid in _ANIONS and base in _CATIONS:
-            an, za = _ANIONS[acid]
-            cat, zb = _CATIONS[base]
+        if acid in STRONG_ACIDS and base in _CATIONS:
+            an, za = STRONG_ACIDS[acid], _eq(acid)
+            cat, zb = _CATIONS[base], _eq(base)
             # salt formula with charge balance, e.g. Na2SO4, BaCl2
             g = math.gcd(za, zb)
             ncat, nan = za // g, zb // g
@@ -301,8 +302,6 @@ def _final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, floa
 
 
 def _eq(formula: str) -> int:
-    from calc.models import EQUIVALENTS
-
     return EQUIVALENTS.get(formula, 1)
 
 
