@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import os
 import secrets
+import tempfile
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -95,17 +96,25 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
 
 
 def _instance_secret(app: Flask) -> str:
-    """Return the instance's secret key, creating it (mode 600) on first use."""
+    """Return the instance's secret key, creating it (mode 600) on first use.
+
+    Several server processes may start at once: the key is written to a private temporary file
+    and linked into place, so every process ends up reading the one key that won.
+    """
     folder = Path(app.instance_path)
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / "secret_key"
-    if path.exists():
-        return path.read_text(encoding="ascii").strip()
-    key = secrets.token_hex(32)
-    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
-    with os.fdopen(fd, "w", encoding="ascii") as fh:
-        fh.write(key)
-    return key
+    if not path.exists():
+        fd, tmp = tempfile.mkstemp(dir=folder, prefix=".secret_key.")  # mode 600
+        try:
+            with os.fdopen(fd, "w", encoding="ascii") as fh:
+                fh.write(secrets.token_hex(32))
+            os.link(tmp, path)
+        except FileExistsError:
+            pass  # another process made it first
+        finally:
+            os.unlink(tmp)
+    return path.read_text(encoding="ascii").strip()
 
 
 def mount(host_app: Any, prefix: str = "/cupcal", config: Mapping[str, Any] | None = None) -> Flask:
