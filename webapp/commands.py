@@ -1,6 +1,6 @@
 """``cupcal`` commands of the notebook (entry-point group ``cupcal.commands``).
 
-``cupcal db upgrade|downgrade|current``, ``cupcal load-demo``, ``cupcal serve``, ``cupcal import``,
+``cupcal db upgrade|downgrade|current|check``, ``cupcal load-demo``, ``cupcal serve``, ``cupcal import``,
 ``cupcal backup OUT`` and ``cupcal restore IN``. The
 database is the one :func:`webapp.create_app` configures (instance folder, or
 ``DATABASE_URL``).
@@ -69,6 +69,27 @@ def current() -> None:
     app = _app()
     rev = current_revision(_url(app))
     click.echo(f"{_shown(_url(app))}: {rev or 'no schema'} (newest: {head_revision()})")
+
+
+@db.command()
+def check() -> None:
+    """Check the database: its own integrity check and that every run is complete.
+
+    Reads only; safe while the notebook serves. Exit status 2 when a problem is found.
+    """
+    import sqlalchemy as sa
+
+    from webapp.db import get_engine
+    from webapp.services.integrity import check_database
+
+    app = _app()
+    try:
+        report = check_database(get_engine(app))
+    except sa.exc.DBAPIError as exc:
+        raise _Refused(f"{_shown(_url(app))} cannot be read: {str(exc.orig).strip()}") from None
+    click.echo(f"{_shown(_url(app))}: " + report.summary())
+    if not report.ok:
+        raise SystemExit(2)
 
 
 def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
