@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from typing import Any
 
+import sqlalchemy as sa
+
 from flask import Flask
 from flask import Response
 from flask import jsonify
@@ -18,6 +20,7 @@ from werkzeug.exceptions import HTTPException
 from werkzeug.exceptions import RequestEntityTooLarge
 
 from webapp.services.errors import ServiceError
+from webapp.services.errors import storage_error
 
 
 def wants_json() -> bool:
@@ -69,6 +72,17 @@ def init_app(app: Flask) -> None:
         if wants_json():
             return json_error(status, exc.description or exc.name)
         return _page_error(status, exc.name, exc.description or "")
+
+    @app.errorhandler(sa.exc.OperationalError)
+    @app.errorhandler(sa.exc.InterfaceError)
+    def _storage_error(exc: sa.exc.DBAPIError):  # type: ignore[no-untyped-def]
+        failure = storage_error(exc)
+        if failure is None:  # not an operational failure after all
+            return _unexpected(exc)
+        app.logger.error("database failure on %s %s: %s", request.method, request.path, failure.message)
+        if wants_json():
+            return json_error(failure.status, failure.message)
+        return _page_error(failure.status, "Not saved", failure.message)
 
     @app.errorhandler(Exception)
     def _unexpected(exc: Exception):  # type: ignore[no-untyped-def]

@@ -49,3 +49,40 @@ class Conflict(ServiceError):
 
 class RunLocked(Conflict):
     """The run is signed: nothing about it may change."""
+
+
+class StorageUnavailable(ServiceError):
+    """The database could not store or read (disk full, server gone, lock held too long)."""
+
+    status = 503
+
+
+class StorageFull(StorageUnavailable):
+    """The disk under the database is full."""
+
+    status = 507
+
+
+#: how each database driver says its disk is full: SQLite's SQLITE_FULL message and
+#: PostgreSQL's SQLSTATE 53100 (disk_full) with the operating system's ENOSPC text
+_FULL_SIGNS = ("database or disk is full", "no space left on device", "could not extend file")
+
+
+def storage_error(exc: BaseException) -> StorageUnavailable | None:
+    """Return the :class:`StorageUnavailable` a database driver's ``exc`` means, or None.
+
+    Only operational failures qualify (a full disk, a lost connection, a busy database);
+    programming errors and constraint violations return None and keep their own handling.
+    """
+    import sqlalchemy as sa
+
+    if not isinstance(exc, sa.exc.OperationalError | sa.exc.InterfaceError):
+        return None
+    orig = getattr(exc, "orig", None)
+    text = str(orig if orig is not None else exc).strip()
+    first = text.splitlines()[0] if text else type(exc).__name__
+    if getattr(orig, "sqlstate", None) == "53100" or any(s in text.lower() for s in _FULL_SIGNS):
+        return StorageFull(f"the database's disk is full ({first}); nothing of this was saved. "
+                           "Free some space (or ask the notebook's administrator) and try again")
+    return StorageUnavailable(f"the database is unavailable just now ({first}); nothing of this was saved. "
+                              "Try again in a moment; if it persists, tell the notebook's administrator")

@@ -38,6 +38,7 @@ from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
+from webapp.services.errors import storage_error
 from webapp.services.runs import RunUpload
 from webapp.services.runs import record_run
 
@@ -355,6 +356,14 @@ def _import_one(
     except ServiceError as exc:
         session.rollback()
         return ImportItem(path, "error", exc.message)
+    except sa.exc.DBAPIError as exc:
+        session.rollback()  # nothing of this run is stored
+        failure = storage_error(exc)
+        if failure is None:
+            raise
+        # the next run would fail the same way: stop, saying where and how to go on
+        raise type(failure)(f"{path}: {failure.message}. The import stopped at this file; the runs before it "
+                            "are stored, and importing the same files again skips them") from None
     except BaseException:
         session.rollback()  # nothing of this run is stored
         raise
