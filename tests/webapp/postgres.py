@@ -91,13 +91,14 @@ class PostgresServer:
         shutil.rmtree(self.root, ignore_errors=True)
 
 
-def start_server() -> PostgresServer:
-    """Initialise and start a server; raise :class:`PostgresUnavailable` when it cannot be done."""
+def start_server(parent: Path | None = None) -> PostgresServer:
+    """Initialise and start a server (its files in a new folder under ``parent``, default the temporary
+    folder); raise :class:`PostgresUnavailable` when it cannot be done."""
     bindir = find_bindir()
     if bindir is None:
         raise PostgresUnavailable(INSTALL_HINT)
     user = _run_as_user()
-    root = Path(tempfile.mkdtemp(prefix="cupcal-pg-"))
+    root = Path(tempfile.mkdtemp(prefix="cupcal-pg-", dir=parent))
     if user:
         info = pwd.getpwnam(user)
         os.chown(root, info.pw_uid, info.pw_gid)
