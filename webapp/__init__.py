@@ -75,6 +75,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.mounting import init_proxy_user
     from webapp.services import webhooks
 
+    app.url_value_preprocessor(_ids_in_range)
     db.init_app(app)
     auth.init_app(app)
     templating.init_app(app)
@@ -93,6 +94,17 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app
+
+
+def _ids_in_range(_endpoint: str | None, values: dict[str, Any] | None) -> None:
+    """``<int:…>`` in a route: a number beyond what an INTEGER column holds names nothing (404),
+    rather than reaching the database (PostgreSQL refuses it with an error)."""
+    from werkzeug.exceptions import NotFound
+
+    from webapp.models import MAX_ID
+
+    if values and any(isinstance(v, int) and v > MAX_ID for v in values.values()):
+        raise NotFound()
 
 
 def _instance_secret(app: Flask) -> str:

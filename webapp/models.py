@@ -17,6 +17,8 @@ import sqlalchemy.orm as so
 
 ROLES = ("coordinator", "technician", "student")
 CALIBRATION_KINDS = ("electrical-calibration", "mixing-calibration")
+#: the largest id an INTEGER column holds on both databases (a larger number names nothing)
+MAX_ID = 2**31 - 1
 
 #: Alembic's recommended naming convention ("The Importance of Naming Constraints").
 NAMING_CONVENTION = {

@@ -9,6 +9,7 @@ from flask import current_app
 from flask import g
 from flask import request
 
+from webapp.models import MAX_ID
 from webapp.models import Person
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Invalid
@@ -35,7 +36,7 @@ def body() -> dict[str, Any]:
 
 
 def as_int(value: Any, field: str, *, low: int | None = None, high: int | None = None) -> int | None:
-    """Return ``value`` as an int (None stays None; text is parsed)."""
+    """Return ``value`` as an int (None stays None; text is parsed); a field named ``*_id`` must hold an id."""
     if value is None or value == "":
         return None
     if isinstance(value, bool):
@@ -51,6 +52,8 @@ def as_int(value: Any, field: str, *, low: int | None = None, high: int | None =
         raise Invalid("expected a whole number", field=field)
     if (low is not None and value < low) or (high is not None and value > high):
         raise Invalid(f"expected a number from {low} to {high}, got {value}", field=field)
+    if field.endswith("_id") and not 0 < value <= MAX_ID:
+        raise Invalid(f"expected an id from 1 to {MAX_ID}, got {value}", field=field)
     return value
 
 

@@ -19,13 +19,11 @@ import sqlalchemy.orm as so
 
 from calc.errors import InputError
 from calc.replicates import shared_type_b, summarise_series
-from webapp.models import Person, Result, Run, Series, SeriesRun
+from webapp.models import MAX_ID, Person, Result, Run, Series, SeriesRun
 from webapp.services.access import can_view_run, require_coordinator
 from webapp.services.errors import Invalid, NotFound
 
 MAX_SERIES_RUNS = 500
-#: the largest id a 32-bit INTEGER column holds (a larger number cannot name a run)
-MAX_ID = 2**31 - 1
 
 
 def budget_lines(budget: list[dict[str, Any]]) -> list[SimpleNamespace]:
