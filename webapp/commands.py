@@ -138,7 +138,9 @@ def load_demo_command(demo_dir: Path) -> None:
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option("--port", default=5000, show_default=True, type=click.IntRange(1, 65535))
 @click.option("--demo/--no-demo", default=True, show_default=True, help="Load the demo into an empty database.")
-def serve(host: str, port: int, demo: bool) -> None:
+@click.option("--workers", default=1, show_default=True, type=click.IntRange(1, 64),
+              help="Worker processes; more than 1 serves with gunicorn (for a lab, not one desk).")
+def serve(host: str, port: int, demo: bool, workers: int) -> None:
     """Apply migrations, load the demo into an empty database, and serve the notebook."""
     from webapp.db import new_session
     from webapp.migrate import upgrade as do_upgrade
@@ -158,10 +160,13 @@ def serve(host: str, port: int, demo: bool) -> None:
             session.close()
     if show:
         _print_sign_ins(demo_sign_ins())
-    click.echo(f"serving on http://{host}:{port} (Ctrl-C stops)")
+    from webapp.serving import serve_app
+
+    click.echo(f"serving on http://{host}:{port} with {workers} worker process{'es' if workers > 1 else ''} "
+               "(Ctrl-C stops)")
     if not app.config.get("SESSION_COOKIE_SECURE"):
         click.echo("the session cookie is not marked Secure (plain http); behind HTTPS set CUPCAL_HTTPS=1")
-    app.run(host=host, port=port, debug=False, use_reloader=False)
+    serve_app(app, host, port, workers, click.echo)
 
 
 def _find_section(session, text: str):  # type: ignore[no-untyped-def]

@@ -117,7 +117,7 @@ def kill_group(proc: subprocess.Popen[Any]) -> bool:
     return running
 
 
-def _free_port() -> int:
+def free_port() -> int:
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         return int(s.getsockname()[1])
@@ -125,7 +125,7 @@ def _free_port() -> int:
 
 def start_server(url: str, log: Path, workers: int = 2) -> tuple[subprocess.Popen[Any], str]:
     """Start gunicorn with ``workers`` workers on the notebook; return the process and its base URL."""
-    port = _free_port()
+    port = free_port()
     cmd = [sys.executable, "-m", "gunicorn", "--workers", str(workers), "--bind", f"127.0.0.1:{port}",
            "--timeout", "120", "webapp:create_app()"]
     fh = log.open("ab")

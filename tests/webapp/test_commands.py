@@ -82,3 +82,36 @@ def test_serve_migrates_loads_the_demo_and_prints_sign_ins(env: str, monkeypatch
     assert _rows(env, "select count(*) from runs")[0][0] == n_demo
     r = CliRunner().invoke(cli, ["serve"])  # second start: nothing loaded twice
     assert r.exit_code == 0 and _rows(env, "select count(*) from runs")[0][0] == n_demo
+
+
+def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_path: Path) -> None:
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    import psutil
+    import requests
+
+    from tests.webapp.fault_helpers import ROOT, env_for, free_port, kill_group
+
+    port = free_port()
+    log = (tmp_path / "serve.log").open("wb")
+    proc = subprocess.Popen([sys.executable, "-m", "calc.cli", "serve", "--no-demo", "--workers", "2",
+                             "--port", str(port)], env=env_for(env), cwd=ROOT, stdout=log, stderr=log,
+                            start_new_session=True)
+    try:
+        deadline, status = time.monotonic() + 60, None
+        while time.monotonic() < deadline and status != 200 and proc.poll() is None:
+            try:
+                status = requests.get(f"http://127.0.0.1:{port}/auth/login", timeout=20).status_code
+            except requests.RequestException:
+                time.sleep(0.2)
+        assert status == 200, (tmp_path / "serve.log").read_text(errors="replace")
+        workers = psutil.Process(proc.pid).children()
+        assert len(workers) == 2, workers
+        proc.send_signal(signal.SIGTERM)  # gunicorn's graceful stop
+        assert proc.wait(timeout=30) == 0
+    finally:
+        kill_group(proc)
+    assert "with 2 worker processes" in (tmp_path / "serve.log").read_text(errors="replace")

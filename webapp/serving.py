@@ -1,0 +1,51 @@
+"""Serving the notebook with several worker processes (gunicorn), for a lab rather than one desk.
+
+:func:`serve_app` runs gunicorn's arbiter in this process with the app already made: the
+database engine's connections are dropped before the workers are forked, and each worker
+drops any it inherited, so no two processes share a database connection. Where gunicorn
+cannot run (it needs a Unix-like system), :func:`serve_app` falls back to Werkzeug's threaded
+server and says so.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+from flask import Flask
+
+
+def serve_app(app: Flask, host: str, port: int, workers: int, say: Callable[[str], None]) -> None:
+    """Serve ``app`` on ``host:port`` with ``workers`` processes (1: Werkzeug's threaded server)."""
+    from webapp.db import get_engine
+
+    get_engine(app).dispose()  # no connection made here may cross into a worker
+    if workers > 1:
+        try:
+            from gunicorn.app.base import BaseApplication
+        except ImportError:  # gunicorn needs fcntl (not on Windows)
+            say("gunicorn is not available on this system; serving with one process")
+        else:
+            _gunicorn(BaseApplication, app, host, port, workers).run()
+            return
+    app.run(host=host, port=port, debug=False, use_reloader=False, threaded=True)
+
+
+def _gunicorn(base: type, app: Flask, host: str, port: int, workers: int) -> Any:
+    from webapp.db import get_engine
+
+    def post_fork(_server: Any, _worker: Any) -> None:
+        get_engine(app).dispose(close=False)  # leave the parent's connections alone, open new ones
+
+    options = {"bind": f"{host}:{port}", "workers": workers, "post_fork": post_fork,
+               "timeout": 120, "accesslog": "-", "errorlog": "-"}
+
+    class Notebook(base):  # type: ignore[misc,valid-type]
+        def load_config(self) -> None:
+            for key, value in options.items():
+                self.cfg.set(key, value)
+
+        def load(self) -> Flask:
+            return app
+
+    return Notebook()
