@@ -41,10 +41,11 @@ def _page_error(status: int, title: str, message: str) -> tuple[str, int]:
 
 
 def _too_large_message() -> str:
-    from flask import current_app
-
-    limit = current_app.config.get("MAX_CONTENT_LENGTH") or 0
-    return f"the upload is larger than the limit of {limit // 1024} KiB (run file and readings together)"
+    # the limit of this request: a run upload's (MAX_CONTENT_LENGTH) or a bulk import's
+    # (IMPORT_MAX_UPLOAD_BYTES), which its view sets before reading the body
+    limit = request.max_content_length or 0
+    return (f"the upload is larger than the limit of {limit // 1024} KiB for this request "
+            "(all its files together); nothing was read or saved")
 
 
 def init_app(app: Flask) -> None:

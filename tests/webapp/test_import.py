@@ -174,3 +174,16 @@ def test_cupcal_import_command(app: Any, lab: Any, session: Any, tmp_path: Path,
     assert r.exit_code == 0 and "0 stored, 3 unchanged" in r.output
     r = runner.invoke(commands.import_command, [str(folder), "--section", "Nope", "--as", "coord@lab.example"])
     assert r.exit_code == 2 and "no section 'Nope'" in r.output and "Traceback" not in r.output
+
+
+def test_an_oversized_import_is_refused_before_it_is_read(app: Any, client: Any, lab: Any, session: Any,
+                                                          tmp_path: Path) -> None:
+    cl = make_class(session, lab.ids["coord"])
+    app.config["IMPORT_MAX_UPLOAD_BYTES"] = 64 * 1024
+    archive = zip_folder(_folder(tmp_path))
+    padded = archive + b"\0" * (80 * 1024)  # over the limit whatever the zip's own size
+    r = client.post(f"/api/sections/{cl.section_id}/imports", headers=lab.auth("coord"),
+                    data={"archive": (io.BytesIO(padded), "big.zip")}, content_type="multipart/form-data")
+    assert r.status_code == 413, r.get_data(as_text=True)
+    assert "larger than the limit of 64 KiB" in r.get_json()["error"]
+    assert _counts(session) == (0, 0, 0)
