@@ -48,24 +48,24 @@ def write_runs(folder: Path, n: int, *, seed: int = 7000) -> Path:
     return folder
 
 
-def count_runs(url: str) -> int:
-    """Return how many runs the database holds (a fresh connection each time)."""
+def scalar(url: str, sql: str) -> int:
+    """Return the number ``sql`` selects (a fresh connection each time, none kept)."""
     engine = sa.create_engine(url, poolclass=sa.pool.NullPool)
     try:
         with engine.connect() as conn:
-            return int(conn.scalar(sa.text("SELECT count(*) FROM runs")))
+            return int(conn.scalar(sa.text(sql)))
     finally:
         engine.dispose()
+
+
+def count_runs(url: str) -> int:
+    """Return how many runs the database holds."""
+    return scalar(url, "SELECT count(*) FROM runs")
 
 
 def distinct_hashes(url: str) -> int:
     """Return how many distinct content hashes the stored runs have."""
-    engine = sa.create_engine(url, poolclass=sa.pool.NullPool)
-    try:
-        with engine.connect() as conn:
-            return int(conn.scalar(sa.text("SELECT count(DISTINCT content_hash) FROM runs")))
-    finally:
-        engine.dispose()
+    return scalar(url, "SELECT count(DISTINCT content_hash) FROM runs")
 
 
 def assert_sound(url: str, *, command: bool = False) -> str:
