@@ -14,6 +14,7 @@ from webapp.api import bp
 from webapp.api.params import actor
 from webapp.api.params import as_int
 from webapp.api.params import as_text
+from webapp.api.params import coordinators_only
 from webapp.api.params import json_object
 from webapp.db import get_session
 from webapp.imports.views import IMPORT_MAX_UPLOAD_BYTES
@@ -75,6 +76,7 @@ def list_sections():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/sections")
+@coordinators_only("manage sections")
 def create_section_route():  # type: ignore[no-untyped-def]
     """Add a section to a course (coordinators)."""
     data = json_object()
@@ -84,6 +86,7 @@ def create_section_route():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/sections/<int:section_id>/benches")
+@coordinators_only("manage benches")
 def create_bench_route(section_id: int):  # type: ignore[no-untyped-def]
     """Add a bench (calorimeter + thermometer) to a section (coordinators)."""
     data = json_object()
@@ -98,6 +101,7 @@ def create_bench_route(section_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.post("/rosters")
+@coordinators_only("import rosters")
 def import_roster_route():  # type: ignore[no-untyped-def]
     """Import a roster CSV (coordinators): the body is the CSV text (text/csv) or a multipart ``roster`` file."""
     if "roster" in request.files:
@@ -166,6 +170,7 @@ def course_dashboard_route(course_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.post("/series")
+@coordinators_only("make series")
 def create_series_route():  # type: ignore[no-untyped-def]
     """Store a named series of repeat runs (coordinators)."""
     data = json_object()
@@ -184,7 +189,7 @@ def get_series(series_id: int):  # type: ignore[no-untyped-def]
 @bp.get("/calorimeters/<int:calorimeter_id>/control")
 def calorimeter_control(calorimeter_id: int):  # type: ignore[no-untyped-def]
     """The control chart of a calorimeter's check standard with run-rule flags and the calibration due date."""
-    view = control_view(get_session(), calorimeter_id, standard=request.args.get("standard") or None,
+    view = control_view(get_session(), actor(), calorimeter_id, standard=request.args.get("standard") or None,
                         baseline=as_int(request.args.get("baseline"), "baseline"),
                         default_days=int(current_app.config["CALIBRATION_DUE_DAYS"]))
     return jsonify(control_json(view))

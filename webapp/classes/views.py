@@ -20,6 +20,7 @@ from webapp.classes.forms import CourseForm
 from webapp.classes.forms import RosterForm
 from webapp.classes.forms import SectionForm
 from webapp.db import get_session
+from webapp.services.access import require_coordinator
 from webapp.services.calorimeters import calorimeters_query
 from webapp.services.classes import courses_query
 from webapp.services.classes import create_bench
@@ -75,6 +76,7 @@ def index():  # type: ignore[no-untyped-def]
 @login_required
 def new_course():  # type: ignore[no-untyped-def]
     """Add a course (coordinators)."""
+    require_coordinator(current_user, "manage courses")  # the role first, whatever the form holds
     form = CourseForm()
     if form.validate_on_submit():
         try:
@@ -93,6 +95,7 @@ def new_course():  # type: ignore[no-untyped-def]
 @login_required
 def new_section(course_id: int):  # type: ignore[no-untyped-def]
     """Add a section to a course (coordinators)."""
+    require_coordinator(current_user, "manage sections")
     form = SectionForm()
     if form.validate_on_submit():
         try:
@@ -109,6 +112,7 @@ def new_section(course_id: int):  # type: ignore[no-untyped-def]
 @login_required
 def roster():  # type: ignore[no-untyped-def]
     """Import a roster CSV (coordinators); all rows or none."""
+    require_coordinator(current_user, "import rosters")
     form = RosterForm()
     session = get_session()
     errors: list[str] = []
@@ -141,6 +145,7 @@ def section(section_id: int):  # type: ignore[no-untyped-def]
     form.calorimeter_id.choices = [(0, "—")] + [(c.id, c.name) for c in session.scalars(calorimeters_query())]
     status = 200
     if request.method == "POST":
+        require_coordinator(current_user, "manage benches")  # after get_section: not-yours stays 404
         if form.validate_on_submit():
             try:
                 create_bench(session, current_user, section_id=sec.id, name=form.name.data,
@@ -219,7 +224,7 @@ def course_export(course_id: int, fmt: str):  # type: ignore[no-untyped-def]
 def control(calorimeter_id: int):  # type: ignore[no-untyped-def]
     """The control chart of a calorimeter's check standard, with run-rule flags and the calibration due date."""
     baseline = request.args.get("baseline", type=int)
-    view = control_view(get_session(), calorimeter_id, standard=request.args.get("standard") or None,
+    view = control_view(get_session(), current_user, calorimeter_id, standard=request.args.get("standard") or None,
                         baseline=baseline, default_days=int(current_app.config["CALIBRATION_DUE_DAYS"]))
     svg = None
     if view.chart is not None:

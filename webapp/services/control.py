@@ -28,6 +28,7 @@ from webapp.models import Person
 from webapp.models import Result
 from webapp.models import Run
 from webapp.services.access import require_coordinator
+from webapp.services.access import visible_runs_clause
 from webapp.services.audit import record_change
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.dashboard import _measurement
@@ -80,16 +81,20 @@ def set_interval(session: so.Session, actor: Person, calorimeter: Calorimeter, d
     return calorimeter
 
 
-def control_view(session: so.Session, calorimeter_id: int, *, standard: str | None = None,
+def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, standard: str | None = None,
                  baseline: int | None = None, default_days: int = 30,
                  today: dt.date | None = None) -> ControlView:
-    """Return the control chart of one check standard of a calorimeter (default: the one with most runs)."""
+    """Return the control chart of one check standard of a calorimeter (default: the one with most runs).
+
+    Only the runs ``viewer`` may see are charted (staff: every run; a student: their group's), as
+    on the calorimeter page.
+    """
     cal = get_calorimeter(session, calorimeter_id)
     rows = session.execute(
         sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
                   Result.calorimeter_heat_capacity_j_k, Result.comparison)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
-        .where(Run.calorimeter_id == cal.id)
+        .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer))
         .order_by(Run.created_at, Run.id)
     ).all()
     series: dict[str, list[dict[str, Any]]] = defaultdict(list)
