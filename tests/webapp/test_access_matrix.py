@@ -195,3 +195,19 @@ def test_who_gets_what(client: Any, lab: Any, world: dict[str, Any], operation: 
     got = {who: _call(client, lab, world, method, path, who) for who in ACTORS}
     assert got == EXPECTED[operation]
 
+
+
+#: the coordinator-only writes: a caller kept out is refused before the body is read
+COORDINATOR_WRITES = sorted(op for op, codes in EXPECTED.items()
+                            if op[0] != "get" and codes["coord"] in (200, 201, 204, 400)
+                            and all(codes[w] == 403 for w in ("b1", "a1", "tech")))
+
+
+@pytest.mark.parametrize("operation", COORDINATOR_WRITES, ids=lambda op: f"{op[0]} {op[1]}")
+def test_the_role_is_refused_whatever_the_body(client: Any, lab: Any, world: dict[str, Any],
+                                               operation: tuple[str, str]) -> None:
+    method, path = operation
+    values = {k: world[k] for k in ("course_id", "section_id", "webhook_id", "calorimeter_id")}
+    got = {who: client.open(path.format(**values), method=method.upper(), headers=world["headers"][who],
+                            json={}).status_code for who in ("b1", "a1", "tech")}
+    assert got == {"b1": 403, "a1": 403, "tech": 403}

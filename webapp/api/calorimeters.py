@@ -10,6 +10,7 @@ from webapp.api import bp
 from webapp.api.params import actor
 from webapp.api.params import as_int
 from webapp.api.params import as_text
+from webapp.api.params import coordinators_only
 from webapp.api.params import json_object
 from webapp.api.params import page_args
 from webapp.api.schemas import calibration_json
@@ -49,6 +50,7 @@ def list_calorimeters():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/calorimeters")
+@coordinators_only("manage calorimeters")
 def create_calorimeter_route():  # type: ignore[no-untyped-def]
     """Add a calorimeter (coordinators), optionally with a first heat capacity."""
     session = get_session()
@@ -77,6 +79,7 @@ def get_calorimeter_route(calorimeter_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.patch("/calorimeters/<int:calorimeter_id>")
+@coordinators_only("manage calorimeters")
 def patch_calorimeter(calorimeter_id: int):  # type: ignore[no-untyped-def]
     """Change a calorimeter's name, parts or location (coordinators; audited)."""
     session = get_session()
@@ -93,6 +96,7 @@ def list_calibrations(calorimeter_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.post("/calorimeters/<int:calorimeter_id>/calibrations")
+@coordinators_only("manage calorimeters")
 def enter_calibration(calorimeter_id: int):  # type: ignore[no-untyped-def]
     """Enter a heat capacity measured elsewhere (coordinators; audited)."""
     session = get_session()
@@ -112,6 +116,7 @@ def list_groups():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/groups")
+@coordinators_only("manage groups")
 def create_group_route():  # type: ignore[no-untyped-def]
     """Add a group (coordinators)."""
     data = json_object()
@@ -128,6 +133,7 @@ def list_courses():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/courses")
+@coordinators_only("manage courses")
 def create_course_route():  # type: ignore[no-untyped-def]
     """Add a course (coordinators)."""
     data = json_object()

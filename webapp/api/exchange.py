@@ -16,6 +16,7 @@ from flask import url_for
 from webapp.api import bp
 from webapp.api.params import actor
 from webapp.api.params import as_text
+from webapp.api.params import coordinators_only
 from webapp.api.params import json_object
 from webapp.api import exchange_openapi  # noqa: F401  (documents these routes)
 from webapp.api.schemas import iso
@@ -149,6 +150,7 @@ def list_hooks():  # type: ignore[no-untyped-def]
 
 
 @bp.post("/webhooks")
+@coordinators_only("manage webhooks")
 def add_hook():  # type: ignore[no-untyped-def]
     """Add a webhook (coordinators); its signing secret is returned once."""
     hook, secret = webhooks.add_webhook(get_session(), actor(), as_text(json_object().get("url"), "url",
@@ -159,6 +161,7 @@ def add_hook():  # type: ignore[no-untyped-def]
 
 
 @bp.delete("/webhooks/<int:webhook_id>")
+@coordinators_only("manage webhooks")
 def remove_hook(webhook_id: int):  # type: ignore[no-untyped-def]
     """Remove a webhook (coordinators); its delivery log is kept."""
     webhooks.remove_webhook(get_session(), actor(), webhook_id)

@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import functools
 import math
+from collections.abc import Callable
 from typing import Any
+from typing import TypeVar
 
 from flask import current_app
 from flask import g
@@ -11,13 +14,34 @@ from flask import request
 
 from webapp.models import MAX_ID
 from webapp.models import Person
+from webapp.services.access import require_coordinator
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Invalid
+
+_View = TypeVar("_View", bound=Callable[..., Any])
 
 
 def actor() -> Person:
     """Return the person calling the API."""
     return g.api_person
+
+
+def coordinators_only(what: str) -> Callable[[_View], _View]:
+    """Refuse (403) anyone but a coordinator before the request body is read.
+
+    The service checks the role again; this makes the refusal the same whatever the body holds
+    (a student sending an empty body is told they may not, not what the body lacks).
+    """
+
+    def wrap(view: _View) -> _View:
+        @functools.wraps(view)
+        def checked(*args: Any, **kwargs: Any) -> Any:
+            require_coordinator(actor(), what)
+            return view(*args, **kwargs)
+
+        return checked  # type: ignore[return-value]
+
+    return wrap
 
 
 def json_object() -> dict[str, Any]:

@@ -22,6 +22,7 @@ from webapp.plot_cache import svg_response
 from webapp.quantities import main_value
 from webapp.runs import bp
 from webapp.runs.forms import ReanalyseForm
+from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import ServiceError
 from webapp.services.pages import result_of
@@ -91,6 +92,7 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
     """Analyse the run again with the method and periods of the form; the earlier result is kept."""
     session = get_session()
     run = get_run(session, current_user, run_id)
+    require_editable(current_user, run)  # a signed run is refused (409) whatever the form holds
     form = ReanalyseForm()
     if not form.validate_on_submit():
         for name, messages in form.errors.items():
