@@ -132,13 +132,16 @@ def start_server(url: str, log: Path, workers: int = 2) -> tuple[subprocess.Pope
     proc = subprocess.Popen(cmd, env=env_for(url), cwd=ROOT, stdout=fh, stderr=fh, start_new_session=True)
     base = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        if proc.poll() is not None:
-            raise AssertionError(f"gunicorn ended at start:\n{log.read_text(errors='replace')[-3000:]}")
-        try:
-            if requests.get(base + "/auth/login", timeout=20).status_code == 200:
-                return proc, base
-        except requests.RequestException:  # not listening yet, or the workers still loading
-            time.sleep(0.1)
-    kill_group(proc)
-    raise AssertionError(f"gunicorn did not answer within 60 s:\n{log.read_text(errors='replace')[-3000:]}")
+    try:
+        while time.monotonic() < deadline:
+            if proc.poll() is not None:
+                raise AssertionError(f"gunicorn ended at start:\n{log.read_text(errors='replace')[-3000:]}")
+            try:
+                if requests.get(base + "/auth/login", timeout=20).status_code == 200:
+                    return proc, base
+            except requests.RequestException:  # not listening yet, or the workers still loading
+                time.sleep(0.1)
+        raise AssertionError(f"gunicorn did not answer within 60 s:\n{log.read_text(errors='replace')[-3000:]}")
+    except BaseException:
+        kill_group(proc)  # never leave a server behind
+        raise
