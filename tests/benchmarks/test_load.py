@@ -1,0 +1,39 @@
+"""``make bench``: the load test of issue 7 (tests/benchmarks/load_test.py) on SQLite, on PostgreSQL, and
+the ceiling of the stack (a minimal Flask endpoint).
+
+Full size by default: 16 clients create 2,000 runs and read for at least 120 s on each database
+(a few minutes each). ``CUPCAL_LOAD_ARGS="--runs 200 --duration 20"`` gives a quick pass. Nothing
+is timed here: a test fails on any error, lost or duplicated run (the script's exit code); the
+figures are printed and written to ``bench-results/load-*.json``.
+"""
+
+from __future__ import annotations
+
+import os
+import shlex
+
+import pytest
+
+from tests.benchmarks.load_test import main
+from tests.webapp.postgres import INSTALL_HINT
+from tests.webapp.postgres import find_bindir
+
+
+def _extra() -> list[str]:
+    return shlex.split(os.environ.get("CUPCAL_LOAD_ARGS", ""))
+
+
+def test_load_sqlite() -> None:
+    assert main(["--db", "sqlite", *_extra()]) == 0, "see the errors and problems printed above"
+
+
+def test_load_postgresql() -> None:
+    if find_bindir() is None:
+        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
+            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {INSTALL_HINT}")
+        pytest.skip(INSTALL_HINT)
+    assert main(["--db", "postgresql", *_extra()]) == 0, "see the errors and problems printed above"
+
+
+def test_load_ceiling() -> None:
+    assert main(["--ceiling", *_extra()]) == 0, "see the errors printed above"
