@@ -16,7 +16,9 @@ from typing import Any
 from flask import Flask
 
 #: every setting with its default; the instance ``config.py``, then the environment
-#: (``DATABASE_URL``, ``CUPCAL_SECRET_KEY``), then the mapping given to create_app override them
+#: (``DATABASE_URL``, ``CUPCAL_SECRET_KEY``), then the mapping given to create_app override them.
+#: The instance folder (``config.py``, ``secret_key``, the SQLite file) is ``CUPCAL_INSTANCE_PATH``
+#: when set, else ``instance/`` beside the code
 DEFAULTS: dict[str, Any] = {
     "SECRET_KEY": None,  # None: read or create ``secret_key`` in the instance folder
     "DATABASE_URL": None,  # None: SQLite file ``cupcal.sqlite3`` in the instance folder
@@ -42,7 +44,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
 
     :param config: settings that override all others (tests pass ``DATABASE_URL`` here)
     """
-    app = Flask(__name__, instance_relative_config=True)
+    folder = os.environ.get("CUPCAL_INSTANCE_PATH")  # e.g. /var/lib/cupcal; default: instance/ beside the code
+    app = Flask(__name__, instance_relative_config=True,
+                instance_path=os.path.abspath(folder) if folder else None)
     app.config.from_mapping(DEFAULTS)
     app.config.from_pyfile("config.py", silent=True)
     if os.environ.get("DATABASE_URL"):

@@ -373,7 +373,8 @@ def notebook_run(args: argparse.Namespace, tmp: Path) -> bool:
         tag = secrets.token_hex(4)
         plans = [ClientPlan(i, 0, email, PASSWORD, token, tag, demo, args.duration, args.max_seconds)
                  for i, (email, token) in enumerate(accounts)]
-        env = {"DATABASE_URL": url, "CUPCAL_SECRET_KEY": secrets.token_hex(32)}
+        env = {"DATABASE_URL": url, "CUPCAL_SECRET_KEY": secrets.token_hex(32),
+               "CUPCAL_INSTANCE_PATH": str(tmp / "instance")}  # not the developer's instance/config.py
         res = measure(args, "webapp:create_app()", env, tmp, "/auth/login", plans, args.runs, db_pid)
         check = check_database(url, res["created"])
     creates = sorted(r[3] + r[2] / 1000 for r in res["records"] if r[0] == "create" and not r[4])
@@ -413,8 +414,6 @@ def ceiling_run(args: argparse.Namespace, tmp: Path) -> bool:
 def main(argv: list[str] | None = None) -> int:
     args = parse_args(argv)
     previous = signal.signal(signal.SIGTERM, lambda *_: sys.exit(143))  # runs the clean-up (servers stop)
-    if (REPO / "instance" / "config.py").exists():
-        print(f"note: {REPO / 'instance' / 'config.py'} exists and is read by the server (it may change the defaults)")
     print(f"machine: {platform.platform()}, {psutil.cpu_count()} cores, load average {os.getloadavg()}")
     ok = True
     try:

@@ -11,6 +11,7 @@ import signal
 import socket
 import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 from typing import Any
@@ -27,7 +28,9 @@ GROUPS = ("M01", "M02", "M03", "M04")
 
 def env_for(url: str) -> dict[str, str]:
     """Return the environment of a notebook process on the database ``url``."""
-    return {**os.environ, "DATABASE_URL": url, "CUPCAL_SECRET_KEY": "fault tests", "PYTHONUNBUFFERED": "1"}
+    return {**os.environ, "DATABASE_URL": url, "CUPCAL_SECRET_KEY": "fault tests", "PYTHONUNBUFFERED": "1",
+            # an instance folder of its own (none of the developer's instance/config.py); nothing is written
+            "CUPCAL_INSTANCE_PATH": os.path.join(tempfile.gettempdir(), "cupcal-test-instance")}
 
 
 def cupcal(url: str, *args: str, timeout: float = 180) -> subprocess.CompletedProcess[str]:

@@ -80,3 +80,34 @@ def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(tmp_path: Path
 def test_postgres_urls_use_psycopg_3(given: str, expected: str) -> None:
     assert normalize_url(given) == expected
     assert sa.make_url(normalize_url(given)).drivername == sa.make_url(expected).drivername
+
+
+def test_instance_folder_can_be_moved(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.delenv("DATABASE_URL", raising=False)
+    monkeypatch.delenv("CUPCAL_SECRET_KEY", raising=False)
+    monkeypatch.setenv("CUPCAL_INSTANCE_PATH", str(tmp_path / "lab"))
+    app = create_app()
+    try:
+        assert app.instance_path == str(tmp_path / "lab")
+        assert app.config["DATABASE_URL"] == f"sqlite:///{tmp_path / 'lab' / 'cupcal.sqlite3'}"
+        assert (tmp_path / "lab" / "secret_key").read_text() == app.config["SECRET_KEY"]
+    finally:
+        get_engine(app).dispose()
+
+
+def test_a_secret_key_made_by_another_process_meanwhile_wins(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # two server workers starting at once: the other one links its key into place first
+    import os
+
+    monkeypatch.delenv("CUPCAL_SECRET_KEY", raising=False)
+    monkeypatch.setenv("CUPCAL_INSTANCE_PATH", str(tmp_path / "inst"))
+    real_link = os.link
+
+    def other_process_first(src: str, dst: str) -> None:
+        Path(dst).write_text("f" * 64, encoding="ascii")
+        real_link(src, dst)  # raises FileExistsError, as it would
+
+    monkeypatch.setattr(os, "link", other_process_first)
+    app = create_app({"DATABASE_URL": "sqlite://"})
+    assert app.config["SECRET_KEY"] == "f" * 64
+    assert [p.name for p in (tmp_path / "inst").iterdir()] == ["secret_key"]  # no temporary file left
