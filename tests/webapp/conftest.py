@@ -46,10 +46,11 @@ def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return path
 
 
-def start_or_skip(parent: Path | None = None) -> PostgresServer:
-    """Start a server (files under ``parent``); skip when impossible, or fail when ``CUPCAL_REQUIRE_POSTGRES=1``."""
+def start_or_skip(parent: Path | None = None, wal_parent: Path | None = None) -> PostgresServer:
+    """Start a server (files under ``parent``, its write-ahead log under ``wal_parent``); skip when
+    impossible, or fail when ``CUPCAL_REQUIRE_POSTGRES=1``."""
     try:
-        return start_server(parent)
+        return start_server(parent, wal_parent)
     except PostgresUnavailable as exc:
         if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
             pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {exc}")

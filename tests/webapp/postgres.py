@@ -71,6 +71,8 @@ class PostgresServer:
     root: Path
     port: int
     user: str | None
+    #: the write-ahead log's own folder when it is kept apart from the data (``start_server(wal_parent=…)``)
+    wal: Path | None = None
 
     @property
     def data(self) -> Path:
@@ -89,27 +91,37 @@ class PostgresServer:
         subprocess.run(self._cmd(str(self.bindir / "pg_ctl"), "-D", str(self.data), "-m", "immediate", "-w", "stop"),
                        check=False, capture_output=True)
         shutil.rmtree(self.root, ignore_errors=True)
+        if self.wal is not None:
+            shutil.rmtree(self.wal, ignore_errors=True)
 
 
-def start_server(parent: Path | None = None) -> PostgresServer:
-    """Initialise and start a server (its files in a new folder under ``parent``, default the temporary
-    folder); raise :class:`PostgresUnavailable` when it cannot be done."""
+def start_server(parent: Path | None = None, wal_parent: Path | None = None) -> PostgresServer:
+    """Initialise and start a server; raise :class:`PostgresUnavailable` when it cannot be done.
+
+    Its files go in a new folder under ``parent`` (default: the temporary folder); with
+    ``wal_parent``, the write-ahead log goes in a new folder there instead (initdb ``--waldir``).
+    """
     bindir = find_bindir()
     if bindir is None:
         raise PostgresUnavailable(INSTALL_HINT)
     user = _run_as_user()
     root = Path(tempfile.mkdtemp(prefix="cupcal-pg-", dir=parent))
+    wal = Path(tempfile.mkdtemp(prefix="cupcal-pgwal-", dir=wal_parent)) if wal_parent is not None else None
     if user:
         info = pwd.getpwnam(user)
-        os.chown(root, info.pw_uid, info.pw_gid)
-    server = PostgresServer(bindir, root, 0, user)
+        for folder in (root, wal):
+            if folder is not None:
+                os.chown(folder, info.pw_uid, info.pw_gid)
+    server = PostgresServer(bindir, root, 0, user, wal)
     init = subprocess.run(
         server._cmd(str(bindir / "initdb"), "-D", str(server.data), "-U", "cupcal", "--auth=trust",
-                    "-E", "UTF8", "--locale=C", "--no-sync"),
+                    "-E", "UTF8", "--locale=C", "--no-sync", *([f"--waldir={wal / 'wal'}"] if wal else [])),
         capture_output=True, text=True,
     )
     if init.returncode != 0:
-        shutil.rmtree(root, ignore_errors=True)
+        for folder in (root, wal):
+            if folder is not None:
+                shutil.rmtree(folder, ignore_errors=True)
         raise PostgresUnavailable(f"initdb failed: {init.stderr.strip() or init.stdout.strip()}")
     last = ""
     for _attempt in range(3):
@@ -125,5 +137,7 @@ def start_server(parent: Path | None = None) -> PostgresServer:
             return server
         last = start.stderr.strip() or start.stdout.strip()
     log = (root / "server.log").read_text(errors="replace")[-2000:] if (root / "server.log").exists() else ""
-    shutil.rmtree(root, ignore_errors=True)
+    for folder in (root, wal):
+        if folder is not None:
+            shutil.rmtree(folder, ignore_errors=True)
     raise PostgresUnavailable(f"pg_ctl could not start the server: {last}\n{log}")
