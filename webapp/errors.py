@@ -48,6 +48,19 @@ def _too_large_message() -> str:
             "(all its files together); nothing was read or saved")
 
 
+def _roll_back_request_session() -> None:
+    """Roll back the request's failed transaction, so the error page can still read (the person
+    signed in, say) instead of failing again on the same session."""
+    from flask import g
+
+    session = g.get("db_session")
+    if session is not None:
+        try:
+            session.rollback()
+        except sa.exc.SQLAlchemyError:  # the connection itself is gone; the page reads nothing more
+            pass
+
+
 def init_app(app: Flask) -> None:
     """Register the error handlers."""
 
@@ -77,6 +90,7 @@ def init_app(app: Flask) -> None:
     @app.errorhandler(sa.exc.OperationalError)
     @app.errorhandler(sa.exc.InterfaceError)
     def _storage_error(exc: sa.exc.DBAPIError):  # type: ignore[no-untyped-def]
+        _roll_back_request_session()
         failure = storage_error(exc)
         if failure is None:  # not an operational failure after all
             return _unexpected(exc)
@@ -88,6 +102,7 @@ def init_app(app: Flask) -> None:
     @app.errorhandler(Exception)
     def _unexpected(exc: Exception):  # type: ignore[no-untyped-def]
         app.logger.exception("unexpected error on %s %s", request.method, request.path)
+        _roll_back_request_session()
         if wants_json():
             return json_error(500, "internal error; the request was not carried out")
         return _page_error(500, "Internal error", "The request was not carried out.")

@@ -18,12 +18,15 @@ from typing import Any
 import pytest
 
 from tests.webapp.class_fixtures import make_class
+from tests.webapp.conftest import csrf_token
+from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
 from tests.webapp.fault_helpers import assert_sound
 from tests.webapp.fault_helpers import count_runs
 from tests.webapp.fault_helpers import cupcal
 from tests.webapp.fault_helpers import import_args
 from tests.webapp.fault_helpers import outcomes
+from tests.webapp.fault_helpers import scalar
 from tests.webapp.fault_helpers import write_runs
 
 DISK_BYTES = 160 * 1024 * 1024  # room for a PostgreSQL server's files (about 60 MiB) and the runs
@@ -117,4 +120,23 @@ def test_upload_on_a_full_disk_is_refused_with_507_and_goes_through_later(
     r = upload(client, lab.auth("a1"), "diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id)
     assert r.status_code == 201, r.get_json()
     assert count_runs(database_url) == 1
+    assert_sound(database_url)
+
+
+def test_a_page_on_a_full_disk_says_nothing_was_saved(
+        database_url: str, app: Any, client: Any, lab: Any, small_disk: Path) -> None:
+    r = upload(client, lab.auth("a1"), "diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id, monte_carlo=0)
+    run_id = r.get_json()["id"]
+    sign_in(client, "a1@lab.example")
+    token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
+    filler = fill(small_disk, 0)
+    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    page = r.get_data(as_text=True)
+    assert r.status_code == 507 and "disk is full" in page and "nothing of this was saved" in page
+    assert "Traceback" not in page
+    assert scalar(database_url, f"SELECT count(*) FROM results WHERE run_id = {run_id}") == 1
+    filler.unlink()
+    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    assert r.status_code == 302
+    assert scalar(database_url, f"SELECT count(*) FROM results WHERE run_id = {run_id}") == 2
     assert_sound(database_url)
