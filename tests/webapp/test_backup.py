@@ -24,6 +24,7 @@ from tests.webapp.conftest import upload
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.models import Base
+from webapp.services.integrity import check_database
 
 RUNS = ("diss-kcl-01", "neut-hcl-naoh-01")
 
@@ -100,9 +101,13 @@ def test_round_trip_gives_back_every_row_and_file(app: Any, client: Any, lab: An
     for name in RUNS:
         toml, raw = demo_files(name)
         assert files[f"{name}.toml"] == (toml, raw)
-    if target.startswith("sqlite"):
-        with sqlite3.connect(sa.engine.make_url(target).database) as conn:
-            assert conn.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+    # the restored database passes `cupcal db check` (SQLite's integrity_check, foreign keys, complete runs)
+    engine = sa.create_engine(target)
+    try:
+        report = check_database(engine)
+    finally:
+        engine.dispose()
+    assert report.ok and report.runs == len(RUNS), report.summary()
 
     # the restored notebook works on: ids continue after the restored ones (PostgreSQL sequences too)
     restored = create_app({"TESTING": True, "DATABASE_URL": target, "SECRET_KEY": "test secret",
