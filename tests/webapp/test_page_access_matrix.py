@@ -64,7 +64,7 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("POST", "/auth/logout"): row(L, L, L, L, L, L, L),
     ("GET", "/auth/tokens"): ALL_SIGNED_IN,
     ("POST", "/auth/tokens"): ALL_SIGNED_IN,  # the page with the new secret
-    ("POST", "/auth/tokens/<int:token_id>/revoke"): row(L, R, R, R, R, L, L),  # a1's token: only a1's revokes it
+    ("POST", "/auth/tokens/<int:token_id>/revoke"): row(L, 404, R, 404, 404, L, L),  # a1's token: only a1 revokes it
     ("GET", "/calorimeters/"): ALL_SIGNED_IN,
     ("POST", "/calorimeters/"): COORDINATOR_FORM,
     ("GET", "/calorimeters/<int:calorimeter_id>"): ALL_SIGNED_IN,
