@@ -81,3 +81,11 @@ def test_oembed_returns_a_rich_iframe(client: Any, lab: Any, run_id: int) -> Non
     assert client.get("/oembed", query_string={"url": issued["url"], "format": "xml"}).status_code == 501
     assert client.get("/oembed", query_string={"url": "http://x/elsewhere"}).status_code == 404
     assert client.get("/oembed", query_string={"url": f"http://localhost/embed/runs/{run_id}"}).status_code == 401
+
+
+def test_an_api_token_in_the_url_is_not_taken(client: Any, lab: Any) -> None:
+    # a URL is written to server and proxy logs; a token there would leak every run its owner sees
+    run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
+    r = client.get(f"/embed/runs/{run_id}?token={lab.tokens['a1']}")
+    assert r.status_code == 401
+    assert client.get(f"/embed/runs/{run_id}", headers=lab.auth("a1")).status_code == 200

@@ -33,11 +33,14 @@ CARD_WIDTH = 480
 CARD_HEIGHT = 420
 
 
-def reader(run_id: int, link: str | None, token: str | None) -> Person:
+def reader(run_id: int, link: str | None) -> Person:
     """Return the person on whose behalf the card of ``run_id`` is read.
 
     :raise Forbidden: for a bad or expired link
     :raise NotSignedIn: when the request carries no link, token or session
+
+    An API token is taken from the ``Authorization`` header only, never from the URL: a URL ends
+    up in server and proxy logs, and a token (unlike a link) opens every run its owner may see.
     """
     session = get_session()
     if link:
@@ -48,7 +51,7 @@ def reader(run_id: int, link: str | None, token: str | None) -> Person:
             raise Forbidden("this link is no longer valid")
         return person
     header = request.headers.get("Authorization", "")
-    secret = header.partition(" ")[2].strip() if header.lower().startswith("bearer ") else (token or "")
+    secret = header.partition(" ")[2].strip() if header.lower().startswith("bearer ") else ""
     if secret:
         found = token_for_secret(session, secret)
         if found is None:
@@ -56,7 +59,7 @@ def reader(run_id: int, link: str | None, token: str | None) -> Person:
         return found.person
     if current_user.is_authenticated:
         return current_user._get_current_object()
-    raise NotSignedIn("this card needs a signed link (?link=…) or an API token")
+    raise NotSignedIn("this card needs a signed link (?link=…) or an API token (Authorization: Bearer …)")
 
 
 def card_flags(run: Run) -> list[dict[str, str]]:
@@ -85,7 +88,7 @@ def plot_data_uri(run: Run) -> str:
 @bp.get("/embed/runs/<int:run_id>")
 def card(run_id: int):  # type: ignore[no-untyped-def]
     """Show the compact result card of a run."""
-    person = reader(run_id, request.args.get("link"), request.args.get("token"))
+    person = reader(run_id, request.args.get("link"))
     run = get_run(get_session(), person, run_id)
     result = run.current_result
     return render_template("embed/card.html", run=run, result=result,
@@ -111,7 +114,7 @@ def oembed():  # type: ignore[no-untyped-def]
         raise NotFound("expected the URL of a run's card (…/embed/runs/<id>) or page (…/runs/<id>)", field="url")
     run_id = int(segs[-1])
     link = (parse_qs(parts.query).get("link") or [None])[0] or request.args.get("link")
-    person = reader(run_id, link, request.args.get("token"))
+    person = reader(run_id, link)
     run = get_run(get_session(), person, run_id)
     width, height = CARD_WIDTH, CARD_HEIGHT
     for name in ("maxwidth", "maxheight"):
