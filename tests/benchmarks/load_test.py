@@ -140,9 +140,11 @@ def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, A
     from webapp.db import make_engine
     from webapp.models import Result
     from webapp.models import Run
+    from webapp.services.integrity import check_database as integrity_check
 
     engine = make_engine(url)
     try:
+        integrity = integrity_check(engine)  # what `cupcal db check` reports
         with engine.connect() as c:
             rows = c.execute(sa.select(Run.id, Run.title, Run.run_toml, Run.readings_raw)).all()
             current = dict(c.execute(sa.select(Result.run_id, sa.func.count()).where(Result.is_current.is_(True))
@@ -162,6 +164,7 @@ def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, A
         "duplicated_titles": sorted(t for t, n in titles.items() if n > 1),
         "duplicated_contents": sum(n - 1 for n in contents.values() if n > 1),
         "without_one_current_result": sorted(i for i in stored if current.get(i, 0) != 1),
+        "integrity_problems": integrity.problems,
     }
 
 
@@ -171,7 +174,8 @@ def check_problems(check: dict[str, Any]) -> list[str]:
     if check["stored"] != check["acknowledged_201"] or check["acknowledged_ids"] != check["acknowledged_201"]:
         out.append(f"{check['stored']} runs stored, {check['acknowledged_201']} created (201), "
                    f"{check['acknowledged_ids']} distinct ids acknowledged")
-    for key in ("lost", "unacknowledged", "wrong_title", "duplicated_titles", "without_one_current_result"):
+    for key in ("lost", "unacknowledged", "wrong_title", "duplicated_titles", "without_one_current_result",
+                "integrity_problems"):
         if check[key]:
             out.append(f"{key}: {len(check[key])} (first: {check[key][:5]})")
     if check["duplicated_contents"]:
@@ -391,7 +395,8 @@ def notebook_run(args: argparse.Namespace, tmp: Path) -> bool:
           f"{max(0.0, res['wall_s'] - created_in):.1f} s after")
     problems = check_problems(check) + ([] if len(creates) == args.runs else [f"only {len(creates)} runs created"])
     print(f"database check: {check['stored']} runs stored, {check['acknowledged_201']} acknowledged; "
-          f"lost: {len(check['lost'])}, duplicated: {len(check['duplicated_titles']) + check['duplicated_contents']}")
+          f"lost: {len(check['lost'])}, duplicated: {len(check['duplicated_titles']) + check['duplicated_contents']}; "
+          f"cupcal db check: {'ok' if not check['integrity_problems'] else 'PROBLEMS'}")
     for p in problems:
         print("PROBLEM", p)
     data["problems"] = problems
