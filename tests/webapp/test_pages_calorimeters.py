@@ -13,6 +13,7 @@ from tests.webapp.conftest import demo_files
 from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
 from tests.webapp.conftest import without_heat_capacity
+from webapp.models import AuditEntry
 from webapp.models import Calibration
 from webapp.models import Calorimeter
 
@@ -122,3 +123,23 @@ def test_calorimeter_page_shows_due_date_and_links_the_control_chart(client: Any
     upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0)
     html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
     assert "day(s) left" in html  # calibrated today: due in CALIBRATION_DUE_DAYS (30) days
+
+
+def test_coordinators_set_the_calibration_interval_on_the_page(client: Any, lab: Any, session: Any) -> None:
+    sign_in(client, "coord@lab.example")
+    url = f"/calorimeters/{lab.spare_calorimeter_id}"
+    token = csrf_token(client.get(url).get_data(as_text=True))
+    form = {"csrf_token": token, "edit-name": "Spare cup", "edit-parts": "", "edit-location": ""}
+    r = client.post(f"{url}/edit", data=form | {"edit-calibration_interval_days": "0"})
+    assert r.status_code == 400 and 'id="edit-calibration_interval_days-error"' in r.get_data(as_text=True)
+    r = client.post(f"{url}/edit", data=form | {"edit-calibration_interval_days": "14"})
+    assert r.status_code == 302
+    html = client.get(url).get_data(as_text=True)
+    assert "(every 14 days)" in html and 'value="14"' in html  # shown, and kept in the form
+    session.expire_all()
+    assert session.get(Calorimeter, lab.spare_calorimeter_id).calibration_interval_days == 14
+    changes = session.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter",
+                                                          AuditEntry.field == "calibration_interval_days")).all()
+    assert [(c.old, c.new) for c in changes] == [(None, "14")]  # audited: who, when, old → new
+    r = client.post(f"{url}/edit", data=form | {"edit-calibration_interval_days": ""})  # blank: the default
+    assert r.status_code == 302 and "(every 30 days)" in client.get(url).get_data(as_text=True)

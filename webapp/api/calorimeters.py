@@ -28,6 +28,7 @@ from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import enter_heat_capacity
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.calorimeters import update_calorimeter
+from webapp.services.control import set_interval
 from webapp.services.people import create_course
 from webapp.services.people import create_group
 from webapp.services.runs import paginate
@@ -81,9 +82,15 @@ def get_calorimeter_route(calorimeter_id: int):  # type: ignore[no-untyped-def]
 @bp.patch("/calorimeters/<int:calorimeter_id>")
 @coordinators_only("manage calorimeters")
 def patch_calorimeter(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Change a calorimeter's name, parts or location (coordinators; audited)."""
+    """Change a calorimeter's name, parts, location or calibration interval (coordinators; audited)."""
     session = get_session()
-    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), json_object())
+    changes = dict(json_object())
+    interval_given = "calibration_interval_days" in changes
+    # checked before anything is stored (null: the notebook's default interval)
+    days = as_int(changes.pop("calibration_interval_days", None), "calibration_interval_days", low=1, high=3650)
+    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), changes)
+    if interval_given:
+        set_interval(session, actor(), cal, days)
     return jsonify(calorimeter_json(cal, current_calibration(session, cal.id)))
 
 

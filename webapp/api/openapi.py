@@ -80,6 +80,7 @@ SCHEMAS: dict[str, Any] = {
     "Calorimeter": {"type": "object", "properties": {
         "id": {"type": "integer"}, "name": {"type": "string"}, "parts": {"type": "string"},
         "location": {"type": "string"}, "created_at": {"type": "string", "format": "date-time"},
+        "calibration_interval_days": {"type": ["integer", "null"]},
         "current_calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]},
         "calibrations": {"type": "array", "items": _ref("Calibration")}}},
     "ResultSummary": {"type": "object", "properties": {
@@ -210,9 +211,12 @@ PATHS: dict[str, Any] = {
     "/api/calorimeters/{calorimeter_id}": {
         "get": _op("A calorimeter with its heat-capacity history", _json(_ref("Calorimeter"), "The calorimeter"),
                    401, 404, params=_CAL_ID),
-        "patch": _op("Change name, parts or location (coordinators; audited)",
+        "patch": _op("Change name, parts, location or calibration interval in days, null for the notebook's "
+                     "default (coordinators; audited)",
                      _json(_ref("Calorimeter"), "The calorimeter"), 400, 401, 403, 404, 409, params=_CAL_ID,
-                     body=_body({k: {"type": "string"} for k in ("name", "parts", "location")})),
+                     body=_body({**{k: {"type": "string"} for k in ("name", "parts", "location")},
+                                 "calibration_interval_days": {"type": ["integer", "null"], "minimum": 1,
+                                                               "maximum": 3650}})),
     },
     "/api/calorimeters/{calorimeter_id}/calibrations": {
         "get": _op("A calorimeter's heat-capacity history", _json(_list_of(_ref("Calibration")), "History"),

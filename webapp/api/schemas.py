@@ -67,6 +67,7 @@ def calorimeter_json(c: Calorimeter, current: Calibration | None) -> dict[str, A
         "parts": c.parts,
         "location": c.location,
         "created_at": iso(c.created_at),
+        "calibration_interval_days": c.calibration_interval_days,  # None: the notebook's default
         "current_calibration": calibration_json(current) if current is not None else None,
     }
 

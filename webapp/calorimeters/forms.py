@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
+from wtforms import IntegerField
 from wtforms import StringField
 from wtforms import TextAreaField
 from wtforms.validators import Length
+from wtforms.validators import NumberRange
+from wtforms.validators import Optional
 
 
 class CalorimeterForm(FlaskForm):
@@ -16,6 +19,14 @@ class CalorimeterForm(FlaskForm):
     location = StringField("Location", validators=[Length(max=200)])
     heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+
+
+class CalorimeterEditForm(CalorimeterForm):
+    """The edit form: also how often the calorimeter must be calibrated."""
+
+    calibration_interval_days = IntegerField(
+        "Calibration interval (days)", validators=[Optional(), NumberRange(min=1, max=3650)],
+        description="how often it must be calibrated; blank: the notebook's default")
 
 
 class HeatCapacityForm(FlaskForm):

@@ -14,6 +14,7 @@ from flask_login import current_user
 from flask_login import login_required
 
 from webapp.calorimeters import bp
+from webapp.calorimeters.forms import CalorimeterEditForm
 from webapp.calorimeters.forms import CalorimeterForm
 from webapp.calorimeters.forms import HeatCapacityForm
 from webapp.db import get_session
@@ -25,6 +26,7 @@ from webapp.services.calorimeters import create_calorimeter
 from webapp.services.calorimeters import enter_heat_capacity
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.calorimeters import update_calorimeter
+from webapp.services.control import set_interval
 from webapp.services.errors import ServiceError
 from webapp.services.pages import calorimeter_choices
 from webapp.services.pages import calorimeter_page
@@ -61,12 +63,12 @@ def index():  # type: ignore[no-untyped-def]
                            may_manage=is_coordinator(current_user)), status
 
 
-def _detail(calorimeter_id: int, *, edit: CalorimeterForm | None = None, entry: HeatCapacityForm | None = None,
+def _detail(calorimeter_id: int, *, edit: CalorimeterEditForm | None = None, entry: HeatCapacityForm | None = None,
             errors: dict[str, str] | None = None, status: int = 200):  # type: ignore[no-untyped-def]
     session = get_session()
     page = calorimeter_page(session, current_user, calorimeter_id)
     if edit is None:
-        edit = CalorimeterForm(prefix="edit", obj=page.calorimeter)
+        edit = CalorimeterEditForm(prefix="edit", obj=page.calorimeter)
     from webapp.services.control import calibration_info
 
     due = calibration_info(session, page.calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))
@@ -104,16 +106,17 @@ def history_svg(calorimeter_id: int):  # type: ignore[no-untyped-def]
 @bp.route("/<int:calorimeter_id>/edit", methods=["POST"])
 @login_required
 def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Change a calorimeter's name, parts or location (coordinators)."""
+    """Change a calorimeter's name, parts, location or calibration interval (coordinators)."""
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
-    form = CalorimeterForm(prefix="edit")
+    form = CalorimeterEditForm(prefix="edit")
     if not form.validate_on_submit():
         return _detail(calorimeter_id, edit=form, errors={f"edit-{k}": v for k, v in _form_errors(form).items()},
                        status=400)
     try:
         update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
                                                         "location": form.location.data or ""})
+        set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
     except ServiceError as exc:
         session.rollback()
         if exc.status == 403:
