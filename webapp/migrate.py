@@ -1,4 +1,5 @@
-"""Alembic, configured in code: the migrations live in the repository's ``migrations/``.
+"""Alembic, configured in code: the migrations live in the repository's ``migrations/`` (a wheel
+carries a copy inside the package).
 
 :func:`alembic_config` builds the configuration for a database URL (or an open
 connection, which tests use); :func:`upgrade` is what ``cupcal db upgrade`` and
@@ -15,8 +16,18 @@ from alembic.config import Config
 
 from webapp.db import normalize_url
 
-#: ``migrations/`` beside the ``webapp`` package (the project is installed editable).
-MIGRATIONS_DIR = Path(__file__).resolve().parent.parent / "migrations"
+def _migrations_dir() -> Path:
+    """Return the folder of the Alembic migrations: the copy a wheel carries inside the package
+    (``webapp/_migrations``, made by setup.py), else the repository's ``migrations/`` (editable)."""
+    here = Path(__file__).resolve().parent
+    for folder in (here / "_migrations", here.parent / "migrations"):
+        if (folder / "env.py").is_file():
+            return folder
+    raise RuntimeError(f"the migrations are missing: neither {here / '_migrations'} nor {here.parent / 'migrations'} "
+                       "holds env.py; reinstall cupcal")
+
+
+MIGRATIONS_DIR = _migrations_dir()
 
 
 def alembic_config(url: str | None = None, *, connection: sa.Connection | None = None) -> Config:
