@@ -18,6 +18,7 @@ from typing import Any
 
 import pytest
 import requests
+import sqlalchemy as sa
 
 from tests.webapp.class_fixtures import make_class
 from tests.webapp.class_fixtures import zip_folder
@@ -107,3 +108,52 @@ def test_server_killed_mid_import_loses_nothing_and_reimport_completes(
     assert r.json()["counts"] == {"stored": N_RUNS - stored, "unchanged": stored, "error": 0, "ignored": 0}
     assert count_runs(database_url) == N_RUNS == distinct_hashes(database_url)
     assert_sound(database_url, command=True)
+
+
+def test_server_killed_under_uploads_keeps_every_acknowledged_run(
+        database_url: str, lab: Any, tmp_path: Path) -> None:
+    """Eight clients upload runs one by one; kill -9 the server: every run answered 201 is stored and whole."""
+    from tests.webapp.conftest import demo_files
+
+    toml, csv = demo_files("diss-kcl-01")
+    proc, base = start_server(database_url, tmp_path / "gunicorn.log")
+    acknowledged: list[int] = []
+    refused: list[str] = []
+    stop = threading.Event()
+
+    def client(n: int) -> None:
+        i = 0
+        while not stop.is_set():
+            i += 1
+            text = toml.replace('title = "', f'title = "client {n} upload {i}: ', 1)
+            try:
+                r = requests.post(base + "/api/runs", headers=lab.auth("a1"), timeout=60, data={"monte_carlo": "0"},
+                                  files={"run_file": ("r.toml", text.encode()), "readings": ("r.csv", csv)})
+            except requests.RequestException:
+                return  # the server died under it: expected
+            if r.status_code != 201:  # checked in the test's own thread below
+                refused.append(f"{r.status_code}: {r.text[:200]}")
+                return
+            acknowledged.append(r.json()["id"])
+
+    threads = [threading.Thread(target=client, args=(n,)) for n in range(8)]
+    for t in threads:
+        t.start()
+    try:
+        wait_for_runs(database_url, proc, 12)
+    finally:
+        kill_group(proc)
+        stop.set()
+        for t in threads:
+            t.join(timeout=60)
+    assert not refused, refused
+    assert len(acknowledged) >= 8, acknowledged
+    engine = sa.create_engine(database_url, poolclass=sa.pool.NullPool)
+    try:
+        with engine.connect() as conn:
+            stored = set(conn.scalars(sa.text("SELECT id FROM runs")))
+    finally:
+        engine.dispose()
+    assert set(acknowledged) <= stored, "a run answered 201 is missing after the kill"
+    assert len(stored) - len(acknowledged) <= 8  # at most one in flight per client, stored but unanswered
+    assert_sound(database_url)
