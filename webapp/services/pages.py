@@ -25,23 +25,16 @@ from webapp.services.access import can_edit_run
 from webapp.services.access import can_lock_run
 from webapp.services.access import can_view_run
 from webapp.services.access import visible_runs_clause
-from webapp.services.analysis import decode_readings
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import parse_inputs
-from webapp.services.analysis import result_from_analysis
-from webapp.services.analysis import run_analysis
 from webapp.services.audit import audit_trail
 from webapp.services.calorimeters import calibration_history
 from webapp.services.calorimeters import calorimeters_query
 from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import get_calorimeter
-from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
 from webapp.services.runs import RunUpload
-from webapp.services.runs import calorimeter_for_upload
+from webapp.services.runs import analyse_upload
 from webapp.services.runs import get_run
 from webapp.services.runs import runs_query
-from webapp.services.runs import upload_file_name
 
 
 @dataclasses.dataclass
@@ -59,25 +52,8 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
 
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
-    options = upload.options.checked()
-    run_name = upload_file_name(upload.run_file_name, "run_file")
-    readings_name = upload_file_name(upload.readings_name, "readings")
-    text = decode_readings(upload.readings, readings_name)
-    calorimeter = calorimeter_for_upload(session, upload)
-    calibration = None
-    if calorimeter is not None and needs_supplied_heat_capacity(upload.run_toml):
-        calibration = current_calibration(session, calorimeter.id)
-        if calibration is None:
-            raise Invalid(
-                f"{run_name}, field 'calorimeter.heat_capacity': missing, and calorimeter "
-                f"{calorimeter.name!r} has no heat capacity yet; give it or calibrate first",
-                field="calorimeter.heat_capacity",
-            )
-    spec, readings = parse_inputs(upload.run_toml, run_name, text, readings_name, calibration)
-    analysis = run_analysis(spec, readings, options)
-    given = options.fore is not None or options.after is not None
-    result = result_from_analysis(analysis, input_name=run_name, periods_given=given)
-    return Preview(analysis, result, calorimeter, calibration)
+    done = analyse_upload(session, upload)
+    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration)
 
 
 @dataclasses.dataclass

@@ -92,11 +92,29 @@ class Page(Generic[T]):
 # ----------------------------------------------------------------- operations
 
 
-def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
-    """Store an uploaded run with its first result and commit; a calibration updates its calorimeter.
+@dataclasses.dataclass
+class AnalysedUpload:
+    """An upload read, checked and analysed, before anything is stored."""
+
+    options: AnalysisOptions
+    run_name: str
+    readings_name: str
+    calorimeter: Calorimeter | None
+    calibration: Calibration | None  # the one that supplied C_cal, when the run file gave none
+    spec: RunSpec
+    readings: Readings
+    analysis: Analysis
+
+    def result(self) -> Result:
+        """Return the (transient) result row of the analysis."""
+        return result_from_analysis(self.analysis, input_name=self.run_name,
+                                    periods_given=_periods_given(self.options))
+
+
+def analyse_upload(session: so.Session, upload: RunUpload) -> AnalysedUpload:
+    """Read, check and analyse an upload without storing anything (used to record and to preview).
 
     :raise Invalid: for any problem with the files or the options (calc's message)
-    :raise Forbidden: when a student records a run for another group
     """
     options = upload.options.checked()
     run_name = upload_file_name(upload.run_file_name, "run_file")
@@ -114,10 +132,22 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
             )
     spec, readings = parse_inputs(upload.run_toml, run_name, readings_text, readings_name, calibration)
     analysis = run_analysis(spec, readings, options)
+    return AnalysedUpload(options, run_name, readings_name, calorimeter, calibration, spec, readings, analysis)
+
+
+def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
+    """Store an uploaded run with its first result and commit; a calibration updates its calorimeter.
+
+    :raise Invalid: for any problem with the files or the options (calc's message)
+    :raise Forbidden: when a student records a run for another group
+    """
+    done = analyse_upload(session, upload)
+    spec, calorimeter, calibration = done.spec, done.calorimeter, done.calibration
     group = _group_for(session, actor, upload.group_id, spec)
-    run = _new_run(spec, readings, upload, run_name, readings_name, actor, group, calorimeter, calibration)
+    run = _new_run(spec, done.readings, upload, done.run_name, done.readings_name, actor, group, calorimeter,
+                   calibration)
     run.inputs = inputs_from_spec(spec, calibration)
-    result = result_from_analysis(analysis, input_name=run_name, periods_given=_periods_given(options))
+    result = done.result()
     result.run = run
     result.created_by = actor
     session.add_all([run, result])
