@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from flask import current_app
@@ -103,46 +104,55 @@ def history_svg(calorimeter_id: int):  # type: ignore[no-untyped-def]
                         immutable=request.args.get("v") == f"{len(history)}-{max((c.id for c in history), default=0)}")
 
 
-@bp.route("/<int:calorimeter_id>/edit", methods=["POST"])
-@login_required
-def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Change a calorimeter's name, parts, location or calibration interval (coordinators)."""
+def _submit(calorimeter_id: int, form: Any, prefix: str, slot: str, store: Callable[[Any], None],
+            error_field: Callable[[ServiceError], str], done: str) -> Any:
+    """Handle one of the page's forms: errors beside their fields (re-rendered), else store, flash, redirect.
+
+    :param prefix: the form's field prefix (``edit`` or ``hc``), which the error keys carry
+    :param slot: the form's name in :func:`_detail` (``edit`` or ``entry``)
+    :param store: called with the calorimeter once the form is valid; raises ServiceError
+    :param error_field: the form field a service error belongs to
+    """
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
-    form = CalorimeterEditForm(prefix="edit")
     if not form.validate_on_submit():
-        return _detail(calorimeter_id, edit=form, errors={f"edit-{k}": v for k, v in _form_errors(form).items()},
+        return _detail(calorimeter_id, **{slot: form}, errors={f"{prefix}-{k}": v for k, v in _form_errors(form).items()},
                        status=400)
     try:
-        update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
-                                                        "location": form.location.data or ""})
-        set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
+        store(cal)
     except ServiceError as exc:
         session.rollback()
         if exc.status == 403:
             raise
-        return _detail(calorimeter_id, edit=form, errors={f"edit-{exc.field or 'name'}": exc.message},
+        return _detail(calorimeter_id, **{slot: form}, errors={f"{prefix}-{error_field(exc)}": exc.message},
                        status=exc.status)
-    flash("Calorimeter changed.")
+    flash(done)
     return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
+
+
+@bp.route("/<int:calorimeter_id>/edit", methods=["POST"])
+@login_required
+def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
+    """Change a calorimeter's name, parts, location or calibration interval (coordinators)."""
+    form = CalorimeterEditForm(prefix="edit")
+
+    def store(cal: Any) -> None:
+        session = get_session()
+        update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
+                                                        "location": form.location.data or ""})
+        set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
+
+    return _submit(calorimeter_id, form, "edit", "edit", store, lambda exc: exc.field or "name", "Calorimeter changed.")
 
 
 @bp.route("/<int:calorimeter_id>/heat-capacity", methods=["POST"])
 @login_required
 def heat_capacity(calorimeter_id: int):  # type: ignore[no-untyped-def]
     """Record a heat capacity measured elsewhere (coordinators); it becomes the one in force."""
-    session = get_session()
-    cal = get_calorimeter(session, calorimeter_id)
     form = HeatCapacityForm(prefix="hc")
-    if not form.validate_on_submit():
-        return _detail(calorimeter_id, entry=form, errors={f"hc-{k}": v for k, v in _form_errors(form).items()},
-                       status=400)
-    try:
-        enter_heat_capacity(session, current_user, cal, form.heat_capacity.data or "", form.note.data or "")
-    except ServiceError as exc:
-        session.rollback()
-        if exc.status == 403:
-            raise
-        return _detail(calorimeter_id, entry=form, errors={"hc-heat_capacity": exc.message}, status=exc.status)
-    flash("Heat capacity recorded; it is now the one in force.")
-    return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
+
+    def store(cal: Any) -> None:
+        enter_heat_capacity(get_session(), current_user, cal, form.heat_capacity.data or "", form.note.data or "")
+
+    return _submit(calorimeter_id, form, "hc", "entry", store, lambda _exc: "heat_capacity",
+                   "Heat capacity recorded; it is now the one in force.")
