@@ -7,28 +7,20 @@ runs blueprint.
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 from calc.hazards import general_caution
 
 from webapp.runs import bp
+from webapp.services.analysis import finite_or_none
 
 _KELVIN_OFFSET = 273.15
-
-
-def _finite(x: Any) -> float | None:
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
 
 
 @bp.app_template_filter("sig")
 def sig(x: Any, digits: int = 3) -> str:
     """Return ``x`` with ``digits`` significant digits ("—" when missing)."""
-    v = _finite(x)
+    v = finite_or_none(x)
     if v is None:
         return "—"
     return f"{v:.{digits}g}"
@@ -37,28 +29,28 @@ def sig(x: Any, digits: int = 3) -> str:
 @bp.app_template_filter("fixed")
 def fixed(x: Any, decimals: int = 2) -> str:
     """Return ``x`` with a fixed number of decimals ("—" when missing)."""
-    v = _finite(x)
+    v = finite_or_none(x)
     return "—" if v is None else f"{v:.{decimals}f}"
 
 
 @bp.app_template_filter("signed")
 def signed(x: Any, decimals: int = 2) -> str:
     """Return ``x`` with its sign always written (+0.73, -1.20)."""
-    v = _finite(x)
+    v = finite_or_none(x)
     return "—" if v is None else f"{v:+.{decimals}f}"
 
 
 @bp.app_template_filter("pct")
 def pct(x: Any, decimals: int = 1) -> str:
     """Return a fraction as a percentage (0.123 → "12.3 %")."""
-    v = _finite(x)
+    v = finite_or_none(x)
     return "—" if v is None else f"{100 * v:.{decimals}f} %"
 
 
 @bp.app_template_filter("secs")
 def secs(x: Any) -> str:
     """Return a time in seconds to 0.1 s, without a trailing ".0"."""
-    v = _finite(x)
+    v = finite_or_none(x)
     if v is None:
         return "—"
     text = f"{v:.1f}"
@@ -68,14 +60,14 @@ def secs(x: Any) -> str:
 @bp.app_template_filter("celsius")
 def celsius(kelvin: Any, decimals: int = 2) -> str:
     """Return a temperature in kelvin as degrees Celsius."""
-    v = _finite(kelvin)
+    v = finite_or_none(kelvin)
     return "—" if v is None else f"{v - _KELVIN_OFFSET:.{decimals}f} °C"
 
 
 @bp.app_template_filter("dof")
 def dof(x: Any) -> str:
     """Return degrees of freedom ("∞" when infinite or not given, "> 1000" when practically so)."""
-    v = _finite(x)
+    v = finite_or_none(x)
     if v is None:
         return "∞"
     if v > 1000:

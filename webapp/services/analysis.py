@@ -219,7 +219,7 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
     def value(key: str) -> tuple[float | None, float | None]:
         if key not in gum.values:
             return None, None
-        return _finite(gum.values[key]), _finite(gum.uncertainties[key])
+        return finite_or_none(gum.values[key]), finite_or_none(gum.uncertainties[key])
 
     dt_v, dt_u = value("corrected_delta_t")
     q_v, q_u = value("heat")
@@ -231,19 +231,19 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
     warnings = list(analysis.warnings) + [w for w in p.warnings if w not in analysis.warnings]
     construction = {
         **_jsonable(d.construction),
-        "start_temperature_K": _finite(d.start_temperature),
-        "u_start_temperature_K": _finite(d.u_start_temperature),
-        "end_temperature_K": _finite(d.end_temperature),
+        "start_temperature_K": finite_or_none(d.start_temperature),
+        "u_start_temperature_K": finite_or_none(d.u_start_temperature),
+        "end_temperature_K": finite_or_none(d.end_temperature),
         "components_K": {
-            "fit": _finite(d.u_fit),
-            "resolution_start": _finite(d.u_resolution_start),
-            "resolution_end": _finite(d.u_resolution_end),
-            "method": _finite(d.u_method),
-            "mixing_time": _finite(d.u_mixing_time),
+            "fit": finite_or_none(d.u_fit),
+            "resolution_start": finite_or_none(d.u_resolution_start),
+            "resolution_end": finite_or_none(d.u_resolution_end),
+            "method": finite_or_none(d.u_method),
+            "mixing_time": finite_or_none(d.u_mixing_time),
         },
-        "dof_fit": _finite(d.dof_fit),
-        "main_end_s": _finite(p.main_end),
-        "release_time_constant_s": _finite(p.release_time_constant) if p.release_time_constant else None,
+        "dof_fit": finite_or_none(d.dof_fit),
+        "main_end_s": finite_or_none(p.main_end),
+        "release_time_constant_s": finite_or_none(p.release_time_constant) if p.release_time_constant else None,
     }
     return Result(
         method=d.method,
@@ -266,13 +266,13 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
         calorimeter_heat_capacity_j_k_std=c_u,
         expanded_uncertainty=float(gum.expanded_uncertainty),
         coverage_factor=float(gum.coverage_factor),
-        dof_eff=_finite(gum.dof_eff),
+        dof_eff=finite_or_none(gum.dof_eff),
         budget=_jsonable([b.as_dict() for b in gum.budget]),
         warnings=warnings,
         comparison=_jsonable(dataclasses.asdict(analysis.comparison)) if analysis.comparison is not None else None,
         cautions=_jsonable([dataclasses.asdict(c) for c in analysis.cautions]),
         construction=construction,
-        properties={k: {"value": _finite(v[0]), "standard_uncertainty": _finite(v[1]), "unit": v[2], "source": v[3]}
+        properties={k: {"value": finite_or_none(v[0]), "standard_uncertainty": finite_or_none(v[1]), "unit": v[2], "source": v[3]}
                     for k, v in analysis.properties.values.items()},
         monte_carlo=_jsonable(dataclasses.asdict(analysis.monte_carlo)) if analysis.monte_carlo else None,
         record=_jsonable(to_record(analysis, input_name)),
@@ -290,7 +290,8 @@ def encode_series(values: np.ndarray) -> bytes:
     return np.ascontiguousarray(values, dtype="<f8").tobytes()
 
 
-def _finite(x: Any) -> float | None:
+def finite_or_none(x: Any) -> float | None:
+    """Return ``x`` as a finite float, or None (missing, not a number, infinite)."""
     try:
         v = float(x)
     except (TypeError, ValueError):
@@ -311,7 +312,7 @@ def _jsonable(obj: Any) -> Any:
     if isinstance(obj, (int, np.integer)):
         return int(obj)
     if isinstance(obj, (float, np.floating)):
-        return _finite(obj)
+        return finite_or_none(obj)
     if obj is None or isinstance(obj, str):
         return obj
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
