@@ -14,6 +14,9 @@ from pathlib import Path
 from typing import Any
 
 from flask import Flask
+from werkzeug.exceptions import NotFound
+
+from webapp.models import MAX_ID
 
 #: every setting with its default; the instance ``config.py``, then the environment
 #: (``DATABASE_URL``, ``CUPCAL_SECRET_KEY``), then the mapping given to create_app override them.
@@ -103,10 +106,6 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
 def _ids_in_range(_endpoint: str | None, values: dict[str, Any] | None) -> None:
     """``<int:…>`` in a route: a number beyond what an INTEGER column holds names nothing (404),
     rather than reaching the database (PostgreSQL refuses it with an error)."""
-    from werkzeug.exceptions import NotFound
-
-    from webapp.models import MAX_ID
-
     if values and any(isinstance(v, int) and v > MAX_ID for v in values.values()):
         raise NotFound()
 
