@@ -16,14 +16,14 @@ from typing import Any
 import numpy as np
 
 from calc import __version__
-from calc.deltat import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
+from calc.deltat.methods import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
 from calc.errors import AnalysisError
-from calc.gum import GumResult, MonteCarloResult, monte_carlo, propagate
-from calc.models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
-from calc.periods import Periods, find_periods
-from calc.readings import Readings, read_readings
-from calc.runfile import RunSpec, load_run
-from calc.solutes import STRONG_ACIDS
+from calc.uncertainty.gum import GumResult, MonteCarloResult, monte_carlo, propagate
+from calc.uncertainty.measurement_models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
+from calc.deltat.periods import Periods, find_periods
+from calc.io.readings import Readings, read_readings
+from calc.io.runfile import RunSpec, load_run
+from calc.refdata.solutes import STRONG_ACIDS
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -172,13 +172,13 @@ def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
     """Return the densities and heat capacity the model needs.
 
     A value in the run file always wins; otherwise the property models of
-    :mod:`calc.properties` supply it and the source is recorded.
+    :mod:`calc.refdata.properties` supply it and the source is recorded.
     """
     import importlib
 
     class _Lazy:
         def __getattr__(self, name: str) -> Any:
-            return getattr(importlib.import_module("calc.properties"), name)
+            return getattr(importlib.import_module("calc.refdata.properties"), name)
 
     pm: Any = _Lazy()
     props = Properties()
@@ -238,7 +238,7 @@ def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
 
 
 def _stock_density(pm: Any, spec: RunSpec, sec: str, T: float) -> Any:
-    from calc.molar_mass import molar_mass
+    from calc.refdata.formula import molar_mass
 
     formula = spec.get(sec, "formula")
     c = spec.get(sec, "concentration").m_as("mol/L")
@@ -253,14 +253,14 @@ def _stock_density(pm: Any, spec: RunSpec, sec: str, T: float) -> Any:
     return rho
 
 
-#: Cation of each strong base; anions come from calc.solutes.STRONG_ACIDS and ion charges
-#: from calc.models.EQUIVALENTS (H⁺ or OH⁻ per formula unit).
+#: Cation of each strong base; anions come from calc.refdata.solutes.STRONG_ACIDS and ion charges
+#: from calc.uncertainty.measurement_models.EQUIVALENTS (H⁺ or OH⁻ per formula unit).
 _CATIONS = {"NaOH": "Na", "KOH": "K", "LiOH": "Li", "Ba(OH)2": "Ba", "Ca(OH)2": "Ca"}
 
 
 def _final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
     """Return the solutes (formula → g) and water mass (g) of the final solution."""
-    from calc.molar_mass import molar_mass
+    from calc.refdata.formula import molar_mass
 
     kind = spec.kind
     if kind == "dissolution":
@@ -355,7 +355,7 @@ def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -
 def _cautions(formulas: tuple[str, ...]) -> list[Any]:
     # cached: a batch repeats the same few substances thousands of times
     try:
-        from calc.hazards import cautions_for
+        from calc.refdata.hazards import cautions_for
     except ImportError:
         return []
     return cautions_for(list(formulas))
@@ -364,7 +364,7 @@ def _cautions(formulas: tuple[str, ...]) -> list[Any]:
 @lru_cache(maxsize=512)
 def _reference(kind: str, formula: str | None, acid: str | None, base: str | None, name: str | None) -> Any:
     try:
-        from calc.reference import find_reference
+        from calc.refdata.reference import find_reference
     except ImportError:
         return None
     return find_reference(kind, formula=formula, acid=acid, base=base, name=name)
@@ -385,7 +385,7 @@ def _attach_reference(analysis: Analysis) -> None:
     if analysis.main != "molar_enthalpy":
         return
     try:
-        from calc.compare import compare
+        from calc.refdata.comparison import compare
     except ImportError:
         return
     ref = _reference(

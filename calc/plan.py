@@ -1,19 +1,19 @@
 """Plan a run before anyone pours: predicted ΔT, u(ΔH), the limiting equipment, amounts, cautions.
 
 The prediction uses the analysis's own pieces: the planned amounts become a run file
-(:func:`calc.runfile.parse_run`), the property models supply densities and the solution's heat
+(:func:`calc.io.runfile.parse_run`), the property models supply densities and the solution's heat
 capacity (:func:`calc.analysis.resolve_properties`), the kind's model is built by
-:func:`calc.models.build_model` and propagated by :func:`calc.gum.propagate`. Only the corrected
+:func:`calc.uncertainty.measurement_models.build_model` and propagated by :func:`calc.uncertainty.gum.propagate`. Only the corrected
 temperature change is predicted instead of measured:
 
-* its value from the expected ΔH (the reference of :func:`calc.reference.find_reference`, or one
-  given, carried to the planned temperature and molality as :func:`calc.compare.compare` does).
+* its value from the expected ΔH (the reference of :func:`calc.refdata.reference.find_reference`, or one
+  given, carried to the planned temperature and molality as :func:`calc.refdata.comparison.compare` does).
   The model is affine in ΔT, so ΔT = (ΔH − a)/b with a, b read off the model at two values of ΔT;
   the properties are re-evaluated at the mean temperature until ΔT settles.
 * its uncertainty components as the default Regnault–Pfaundler method would report them for
   readings every ``interval`` with noise σ (lag-1 correlation φ) and resolution q:
 
-  - each level keeps the resolution term of :mod:`calc.deltat`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
+  - each level keeps the resolution term of :mod:`calc.deltat.methods`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
     with s the readings' SD, averaged over where a steady level sits within a step (s is the SD of
     q·round((T + σZ)/q), computed from the normal distribution; with σ ≪ q readings stick to one
     value and keep the full q/√12);
@@ -25,7 +25,7 @@ temperature change is predicted instead of measured:
     release time constants past the 90 % point, plus its 15 s smoothing), so L_after = ``after`` −
     that; t_x ≈ t_m + τ_r + τ_s, and for two solutions the fore line is read at t_m itself.
     Checked against simulated runs analysed end to end (tests/calc/test_plan.py);
-  - the method term of :data:`calc.deltat.METHOD_TERMS`; no mixing-time term (the Newtonian
+  - the method term of :data:`calc.deltat.methods.METHOD_TERMS`; no mixing-time term (the Newtonian
     correction does not need the mixing time).
 
 Useful window of |ΔT|: at least 20 × the resolution and 1 K (resolution and drift corrections stay
@@ -44,13 +44,13 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.analysis import kind_warnings, resolve_properties
-from calc.deltat import resolution_term  # the analysis's own resolution term
-from calc.deltat import DEFAULT_METHOD, METHOD_TERMS, DeltaT
+from calc.deltat.methods import resolution_term  # the analysis's own resolution term
+from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
 from calc.errors import InputError
-from calc.gum import BudgetLine, GumResult, propagate
-from calc.measured import Measured, parse_measured
-from calc.models import ModelSpec, Properties, build_model
-from calc.runfile import RunSpec, parse_run
+from calc.uncertainty.gum import BudgetLine, GumResult, propagate
+from calc.io.quantities import Measured, parse_measured
+from calc.uncertainty.measurement_models import ModelSpec, Properties, build_model
+from calc.io.runfile import RunSpec, parse_run
 
 __all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
            "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
@@ -297,7 +297,7 @@ _Evaluation = NamedTuple("_Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("pr
 def _expected(design: _Design, molality: float | None, T: float) -> tuple[float, str]:
     if design.enthalpy is not None:
         return design.enthalpy, "expected ΔH as given"
-    from calc.reference import find_reference
+    from calc.refdata.reference import find_reference
 
     sec = design.sections
     ref = (find_reference("dissolution", formula=sec["solute"]["formula"]) if design.kind == "dissolution" else
@@ -306,7 +306,7 @@ def _expected(design: _Design, molality: float | None, T: float) -> tuple[float,
         what = ", ".join(design.substances)
         raise InputError(f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
                          field="molar_enthalpy")
-    from calc.compare import compare
+    from calc.refdata.comparison import compare
 
     c = compare(ref.value, 0.0, ref, molality=molality, T_K=T) if ref.u > 0 else None
     if c is not None and c.adjusted_reference is not None:
@@ -498,7 +498,7 @@ def plan_run(
     warnings = _warnings(design, ev, gum, window)
     suggestion = _suggest(design, dT, window)
     equipment = _equipment(gum.budget)
-    from calc.hazards import cautions_for
+    from calc.refdata.hazards import cautions_for
 
     return Plan(
         kind=kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,

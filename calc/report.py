@@ -168,7 +168,7 @@ def format_cautions(analysis: Analysis) -> list[str]:
     """Return the safety lines for the substances of a run."""
     out = ["safety:"]
     try:
-        from calc.hazards import general_caution
+        from calc.refdata.hazards import general_caution
     except ImportError:  # pragma: no cover - hazards module ships with calc
         general = (
             "Wear eye protection. Follow your lab's safety rules, local regulations and the supplier's "

@@ -99,7 +99,7 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
                       standard: str, baseline: int, width_in: float = 7.5, height_in: float = 3.9) -> str:
     """Return an individuals control chart: points in time order, centre line, ±1/2/3 s limits.
 
-    ``limits`` is a :class:`calc.control.ControlLimits`; points breaking a run rule
+    ``limits`` is a :class:`calc.statistics.control_charts.ControlLimits`; points breaking a run rule
     (``flagged``) are vermillion triangles; the baseline period is shaded.
     """
     v = np.asarray(values, dtype=float)

@@ -18,7 +18,7 @@ from collections.abc import Hashable
 from collections.abc import Sequence
 from xml.sax.saxutils import escape
 
-from calc.gum import BudgetLine
+from calc.uncertainty.gum import BudgetLine
 from flask import Flask
 from flask import Response
 from flask import current_app

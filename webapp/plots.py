@@ -31,12 +31,12 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from calc.drift import phi
+from calc.deltat.drift import phi
 
 if TYPE_CHECKING:
     from calc.analysis import Analysis
-    from calc.gum import BudgetLine
-    from calc.periods import Periods
+    from calc.uncertainty.gum import BudgetLine
+    from calc.deltat.periods import Periods
 
 __all__ = [
     "OKABE_ITO", "MAX_DRAWN_POINTS", "run_plot_svg", "run_plot_png", "budget_plot_svg", "calibration_history_svg",
@@ -154,7 +154,7 @@ def drift_curves(analysis: Analysis) -> dict[str, tuple[np.ndarray, np.ndarray]]
             tt = _grid(t_x, t1)
             out["after"] = (tt, _line(*c["after_line"])(tt))
     elif dt.method == "model-fit" and "params" in c:
-        from calc.modelfit import probe_reading
+        from calc.deltat.modelfit import probe_reading
 
         p = c["params"]
         if c.get("two_solution"):

@@ -10,7 +10,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from calc.units import Q_
+from calc.io.units import Q_
 from uncertainties import ufloat
 
 from webapp.models import Calibration

@@ -11,7 +11,7 @@ import numpy as np
 
 from calc.analysis import analyze_run
 from calc.errors import CupcalError
-from calc.simulate import random_scenario, write_run
+from calc.simulation.simulator import random_scenario, write_run
 
 KINDS = ("dissolution", "neutralization", "electrical-calibration", "mixing-calibration", "reaction")
 

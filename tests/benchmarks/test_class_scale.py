@@ -3,7 +3,7 @@
 Figures to reach (issue "A whole class at once"): import of 900 runs (300 groups × 3) ≤ 30 s with
 peak memory ≤ 400 MB (RSS, psutil); dashboard for 900 runs ≤ 300 ms server time; CSV export
 ≤ 1 s. Bulk import analyses without Monte Carlo (monte_carlo_trials=0). The runs are simulated
-(calc.simulate, invented data) into a temporary folder before the clock starts.
+(calc.simulation.simulator, invented data) into a temporary folder before the clock starts.
 """
 
 from __future__ import annotations
@@ -17,8 +17,8 @@ import numpy as np
 import psutil
 import pytest
 
-from calc.simulate import simulate_dissolution
-from calc.simulate import write_run
+from calc.simulation.simulator import simulate_dissolution
+from calc.simulation.simulator import write_run
 from tests.benchmarks.webapp_bench import time_ms
 from webapp import create_app
 from webapp.db import get_engine

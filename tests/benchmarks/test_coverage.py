@@ -1,6 +1,6 @@
 """Honest intervals: the 95 % intervals hold the truth in 93–97 % of noisy simulated runs.
 
-Runs: calc.simulate.random_scenario with noise 0.002–0.02 K (AR(1) φ up to 0.6), resolution
+Runs: calc.simulation.simulator.random_scenario with noise 0.002–0.02 K (AR(1) φ up to 0.6), resolution
 0.001–0.1 K, and every stated input drawn around its true value with its stated uncertainty.
 """
 

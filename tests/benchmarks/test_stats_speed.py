@@ -13,10 +13,10 @@ import time
 
 import numpy as np
 
-from calc.control import control_chart
+from calc.statistics.control_charts import control_chart
 from calc.plan import plan_run
-from calc.replicates import summarise_series
-from calc.stats import cochran, grubbs, iso5725, mandel_h_k, robust_mean_sd
+from calc.statistics.replicates import summarise_series
+from calc.statistics.precision import cochran, grubbs, iso5725, mandel_h_k, robust_mean_sd
 
 
 def _best_of(fn, repeat: int = 5) -> float:

@@ -3,7 +3,7 @@
 Figures to reach (issue "Calculation core"): 90th percentile of |error| of ΔH with the default
 method ≤ 0.3 % for neutralization, ≤ 0.5 % for dissolutions (τ_r ≤ 2 min, τ_h ≥ 25 min), and ≤ 0.3 %
 of the whole calorimeter's heat capacity for calibrations. The same table is printed for the naive
-and the linear-extrapolation methods. Truth: calc.simulate (exact piecewise solution of the lumped
+and the linear-extrapolation methods. Truth: calc.simulation.simulator (exact piecewise solution of the lumped
 heat balance, checked against an ODE solver in tests/calc/test_simulate.py).
 """
 

@@ -13,8 +13,8 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulate import simulate_dissolution
-from calc.simulate import write_run
+from calc.simulation.simulator import simulate_dissolution
+from calc.simulation.simulator import write_run
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.db import new_session

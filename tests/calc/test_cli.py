@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from calc.cli import cli
+from calc.cli.main import cli
 from tests.calc.closed_form import probe_temperature, write_run
 
 P = dict(T_inf=295.15, k=1 / 3600, T0=294.9, t_m=240.0, D=-1.9, k_r=1 / 30, s=1 / 4)
@@ -97,7 +97,7 @@ def test_bad_csv_line_is_named(run_file):
 def test_console_script_runs_without_traceback(tmp_path):
     bad = tmp_path / "x.toml"
     bad.write_text("kind = 3\n")
-    proc = subprocess.run([sys.executable, "-m", "calc.cli", "analyze", str(bad)], capture_output=True, text=True)
+    proc = subprocess.run([sys.executable, "-m", "calc.cli.main", "analyze", str(bad)], capture_output=True, text=True)
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
     assert "kind" in proc.stderr

@@ -10,9 +10,9 @@ import math
 
 import pytest
 
-from calc.compare import compare
+from calc.refdata.comparison import compare
 from calc.errors import InputError
-from calc.reference import ReferenceValue, find_reference, neutralization_reference, solution_enthalpy
+from calc.refdata.reference import ReferenceValue, find_reference, neutralization_reference, solution_enthalpy
 
 
 def _ref(value: float = 10.0, u: float = 0.5, **kw) -> ReferenceValue:

@@ -7,7 +7,7 @@ from datetime import date, datetime
 import numpy as np
 import pytest
 
-from calc.control import (
+from calc.statistics.control_charts import (
     D2,
     D3,
     D4,

@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from calc.gum import Input, coverage_factor, monte_carlo, propagate, xmin
+from calc.uncertainty.gum import Input, coverage_factor, monte_carlo, propagate, xmin
 
 
 def test_linear_model_matches_the_law_of_propagation():

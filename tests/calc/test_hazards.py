@@ -12,12 +12,12 @@ from importlib import resources
 
 import pytest
 
-from calc.hazards import cautions_for, general_caution
-from calc.reference import tabulated_solution_enthalpies
+from calc.refdata.hazards import cautions_for, general_caution
+from calc.refdata.reference import tabulated_solution_enthalpies
 
 
 def _data() -> tuple[dict, dict]:
-    base = resources.files("calc") / "data"
+    base = resources.files("calc.refdata") / "data"
     hazards = tomllib.loads((base / "hazards.toml").read_text("utf-8"))["substance"]
     ghs = tomllib.loads((base / "ghs.toml").read_text("utf-8"))
     return hazards, ghs

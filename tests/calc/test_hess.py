@@ -12,9 +12,9 @@ from fractions import Fraction
 import pytest
 from click.testing import CliRunner
 
-from calc.cli_reference import hess_command, parse_temperature
+from calc.cli.hess import hess_command, parse_temperature
 from calc.errors import InputError
-from calc.hess import formation_enthalpy, hess
+from calc.refdata.hess import formation_enthalpy, hess
 
 
 def test_calcium_chloride_dissolution() -> None:

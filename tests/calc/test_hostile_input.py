@@ -1,14 +1,14 @@
 """Hostile input: property-based (hypothesis) tests of the three calc parsers.
 
-The parsers are :func:`calc.measured.parse_measured` (``"value ± u unit"``),
-:func:`calc.readings.parse_readings` (the thermometer's CSV log) and
-:func:`calc.runfile.parse_run` (the TOML run file). For *any* input each must
+The parsers are :func:`calc.io.quantities.parse_measured` (``"value ± u unit"``),
+:func:`calc.io.readings.parse_readings` (the thermometer's CSV log) and
+:func:`calc.io.runfile.parse_run` (the TOML run file). For *any* input each must
 either return a well-formed result or raise :class:`calc.errors.InputError`
 naming where the problem is; nothing else may escape (project rule: "never a
 traceback to a user").
 
 Outside references used for check values:
-- pint (a general-purpose unit library, the registry in calc/units.py) for unit
+- pint (a general-purpose unit library, the registry in calc/io/units.py) for unit
   conversions of the round trip.
 - scipy.constants.convert_temperature (a general-purpose reference library) for
   °C/°F → K.
@@ -40,10 +40,10 @@ from hypothesis import HealthCheck, assume, example, given, settings
 from hypothesis import strategies as st
 
 from calc.errors import InputError
-from calc.measured import Measured, parse_measured
-from calc.readings import MIN_READINGS, Readings, parse_readings
-from calc.runfile import KINDS, REQUIRED_SECTIONS, SCHEMA, RunSpec, parse_run
-from calc.units import Q_
+from calc.io.quantities import Measured, parse_measured
+from calc.io.readings import MIN_READINGS, Readings, parse_readings
+from calc.io.runfile import KINDS, REQUIRED_SECTIONS, SCHEMA, RunSpec, parse_run
+from calc.io.units import Q_
 
 FIXTURES = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 SETTINGS = dict(deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -82,7 +82,7 @@ def _assert_names(err: InputError, *, source: str | None = None, field: str | No
 
 
 # --------------------------------------------------------------------------- #
-# calc.measured.parse_measured
+# calc.io.quantities.parse_measured
 # --------------------------------------------------------------------------- #
 
 EXPECTED_UNITS = ["", "mL", "g", "mol", "mol/L", "K", "s", "J/K", "J/(g*K)", "kJ/mol", "W"]
@@ -260,7 +260,7 @@ def test_measured_refuses_values_that_underflow_to_zero(text: str) -> None:
 
 
 # --------------------------------------------------------------------------- #
-# calc.readings.parse_readings
+# calc.io.readings.parse_readings
 # --------------------------------------------------------------------------- #
 
 _CELLS = [
@@ -464,7 +464,7 @@ def test_readings_one_bad_cell_names_its_line(log: tuple, data: st.DataObject) -
 
 
 # --------------------------------------------------------------------------- #
-# calc.runfile.parse_run
+# calc.io.runfile.parse_run
 # --------------------------------------------------------------------------- #
 
 

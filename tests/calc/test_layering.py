@@ -8,7 +8,7 @@ import sys
 
 def test_calc_imports_no_web_or_database_code():
     code = (
-        "import sys, calc.cli, calc.analysis, calc.simulate, calc.report\n"
+        "import sys, calc.cli.main, calc.analysis, calc.simulation.simulator, calc.report\n"
         "bad = [m for m in ('flask', 'sqlalchemy', 'alembic', 'webapp') if m in sys.modules]\n"
         "print(','.join(bad))\n"
     )

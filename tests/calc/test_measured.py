@@ -1,4 +1,4 @@
-"""Tests for calc.measured: "value ± u unit" strings from run files.
+"""Tests for calc.io.quantities: "value ± u unit" strings from run files.
 
 Outside facts used as check values (each also named beside its use):
 - SI Brochure, 9th ed. (BIPM 2019), 2.3.1: t/°C = T/K − 273.15, so 0 °C = 273.15 K exactly,
@@ -24,7 +24,7 @@ import scipy.constants
 from uncertainties import ufloat_fromstr
 
 from calc.errors import InputError
-from calc.measured import Measured, default_uncertainty, describe_dimension, parse_measured
+from calc.io.quantities import Measured, default_uncertainty, describe_dimension, parse_measured
 
 SQRT3 = math.sqrt(3.0)
 

@@ -6,10 +6,10 @@ import math
 
 import pytest
 
-from calc.deltat import DeltaT
-from calc.gum import propagate
-from calc.models import Properties, build_model
-from calc.runfile import parse_run
+from calc.deltat.methods import DeltaT
+from calc.uncertainty.gum import propagate
+from calc.uncertainty.measurement_models import Properties, build_model
+from calc.io.runfile import parse_run
 
 
 def _dt(value: float, start_K: float) -> DeltaT:

@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 
 from calc.errors import InputError
-from calc.molar_mass import element_counts, molar_mass
+from calc.refdata.formula import element_counts, molar_mass
 
 
 @pytest.mark.parametrize(

@@ -1,6 +1,6 @@
 """Planning a run: the prediction is checked against simulated runs analysed end to end.
 
-The simulator (calc.simulate) integrates the cup's heat balance with its own code and draws noisy,
+The simulator (calc.simulation.simulator) integrates the cup's heat balance with its own code and draws noisy,
 quantised readings; calc.analysis then analyses the written run files exactly as `cupcal analyze`
 does. The plan must predict the temperature change those runs show and the uncertainty the
 analysis states for them.
@@ -17,10 +17,10 @@ from click.testing import CliRunner
 from molmass import Formula
 
 from calc.analysis import analyze_run
-from calc.cli import cli
+from calc.cli.main import cli
 from calc.errors import InputError
 from calc.plan import plan_run
-from calc.simulate import simulate_dissolution, simulate_neutralization, write_run
+from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run
 
 T_ROOM = 294.65  # 21.5 °C
 

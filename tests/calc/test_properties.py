@@ -14,7 +14,7 @@ import iapws
 import pytest
 
 from calc.errors import InputError
-from calc.properties import (
+from calc.refdata.properties import (
     FALLBACK_HALF_WIDTH_CP,
     FALLBACK_HALF_WIDTH_DENSITY,
     PropertyValue,
@@ -86,7 +86,7 @@ def test_interpolation_error_below_1e_6_relative(T: float) -> None:
 
 
 def test_water_uncertainties_follow_the_stated_rule() -> None:
-    # Stated in calc/properties.py: 1e-6 relative (density), 1e-3 relative (c_p),
+    # Stated in calc/refdata/properties.py: 1e-6 relative (density), 1e-3 relative (c_p),
     # IAPWS-95 stated uncertainties for liquid water at ambient pressure (from memory).
     rho = water_density(298.15)
     cp = water_specific_heat(298.15)

@@ -1,4 +1,4 @@
-"""Tests for calc.readings: the thermometer's CSV log.
+"""Tests for calc.io.readings: the thermometer's CSV log.
 
 Outside facts used as check values (each also named beside its use):
 - SI Brochure, 9th ed. (BIPM 2019), 2.3.1: T/K = t/°C + 273.15 (exact).
@@ -18,7 +18,7 @@ import pytest
 import scipy.constants
 
 from calc.errors import InputError
-from calc.readings import MIN_READINGS, Readings, parse_readings, read_readings
+from calc.io.readings import MIN_READINGS, Readings, parse_readings, read_readings
 
 N = 30
 TIMES_S = np.arange(N) * 5.0 - 30.0  # −30 s … 115 s, mixing at 0 s

@@ -18,8 +18,8 @@ from importlib import resources
 import pytest
 
 from calc.errors import InputError
-from calc.hess import Species, formation_table, hess, parse_species
-from calc.reference import (
+from calc.refdata.hess import Species, formation_table, hess, parse_species
+from calc.refdata.reference import (
     certified_references,
     dissolution_products,
     find_reference,
@@ -47,20 +47,20 @@ def test_formation_table_has_at_least_80_species_from_one_compilation() -> None:
 
 def test_hydrogen_ion_is_zero_by_convention() -> None:
     e = parse_species("H+(aq)")
-    from calc.hess import formation_enthalpy
+    from calc.refdata.hess import formation_enthalpy
 
     h = formation_enthalpy("H+(aq)")
     assert e.charge == 1 and h.value == 0.0 and h.u == 0.0 and h.cp == 0.0
 
 
 def test_every_source_id_has_a_citation() -> None:
-    sources = tomllib.loads((resources.files("calc") / "data" / "sources.toml").read_text("utf-8"))
+    sources = tomllib.loads((resources.files("calc.refdata") / "data" / "sources.toml").read_text("utf-8"))
     ids = {e.source for e in formation_table()}
-    with (resources.files("calc") / "data" / "solution_enthalpies.csv").open(encoding="utf-8") as fh:
+    with (resources.files("calc.refdata") / "data" / "solution_enthalpies.csv").open(encoding="utf-8") as fh:
         ids |= {r["source"] for r in csv.DictReader(fh)}
-    certified = tomllib.loads((resources.files("calc") / "data" / "certified.toml").read_text("utf-8"))
+    certified = tomllib.loads((resources.files("calc.refdata") / "data" / "certified.toml").read_text("utf-8"))
     ids |= {r["source"] for r in certified["reference"]}
-    with (resources.files("calc") / "data" / "pitzer_enthalpy.csv").open(encoding="utf-8") as fh:
+    with (resources.files("calc.refdata") / "data" / "pitzer_enthalpy.csv").open(encoding="utf-8") as fh:
         ids |= {r["source"] for r in csv.DictReader(fh)}
     assert ids <= set(sources)
     assert all(sources[i]["citation"] for i in ids)
@@ -197,7 +197,7 @@ def _last_digit(text: str) -> float:
 def _rounding_u(r) -> float:
     """Standard uncertainty from rounding of the ΔfH° entries in a Hess sum (rectangular)."""
     raw = {}
-    with (resources.files("calc") / "data" / "formation_nbs1982.csv").open(encoding="utf-8") as fh:
+    with (resources.files("calc.refdata") / "data" / "formation_nbs1982.csv").open(encoding="utf-8") as fh:
         for row in csv.DictReader(fh):
             raw[Species(row["formula"], int(row["charge"]), row["state"]).key()] = row["dfH_kJ_mol"]
     total = 0.0
@@ -350,7 +350,7 @@ def test_unknown_acid_has_no_neutralization_reference() -> None:
 def test_phi_L_tends_to_the_debye_huckel_limiting_law() -> None:
     # Debye-Hückel limiting law for a 1:1 electrolyte: φ_L -> A_H sqrt(m), with
     # A_H ~ 1.99 kJ kg^1/2 mol^-3/2 at 25 degC (SCIENCE.md section 3.6, memory).
-    from calc.properties import debye_huckel_slopes
+    from calc.refdata.properties import debye_huckel_slopes
 
     _, a_h = debye_huckel_slopes(298.15)
     assert a_h / 1000.0 == pytest.approx(1.99, rel=0.015)

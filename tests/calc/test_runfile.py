@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from calc.errors import InputError
-from calc.runfile import parse_run
+from calc.io.runfile import parse_run
 
 GOOD = """
 kind = "dissolution"

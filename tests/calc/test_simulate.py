@@ -1,4 +1,4 @@
-"""Tests of the calorimeter simulator (calc.simulate) against closed forms and reference libraries."""
+"""Tests of the calorimeter simulator (calc.simulation.simulator) against closed forms and reference libraries."""
 
 from __future__ import annotations
 
@@ -14,16 +14,16 @@ from molmass import Formula
 from scipy.integrate import quad
 
 from calc.errors import InputError
-from calc.simulate import LumpedModel
-from calc.simulate import ar1_noise
-from calc.simulate import first_order_release_curve
-from calc.simulate import random_scenario
-from calc.simulate import simulate_dissolution
-from calc.simulate import simulate_electrical_calibration
-from calc.simulate import simulate_mixing_calibration
-from calc.simulate import simulate_neutralization
-from calc.simulate import simulate_reaction
-from calc.simulate import write_run
+from calc.simulation.simulator import LumpedModel
+from calc.simulation.simulator import ar1_noise
+from calc.simulation.simulator import first_order_release_curve
+from calc.simulation.simulator import random_scenario
+from calc.simulation.simulator import simulate_dissolution
+from calc.simulation.simulator import simulate_electrical_calibration
+from calc.simulation.simulator import simulate_mixing_calibration
+from calc.simulation.simulator import simulate_neutralization
+from calc.simulation.simulator import simulate_reaction
+from calc.simulation.simulator import write_run
 
 REPO = Path(__file__).resolve().parents[2]
 KINDS = ("dissolution", "neutralization", "electrical-calibration", "mixing-calibration", "reaction")

@@ -2,7 +2,7 @@
 
 A smaller version of tests/benchmarks/test_trueness.py and test_coverage.py (which measure the
 figures on 100 and 1000 runs per kind) so that the default test run guards them too.
-Truth: calc.simulate, an exact solution of the lumped heat balance (tests/calc/test_simulate.py
+Truth: calc.simulation.simulator, an exact solution of the lumped heat balance (tests/calc/test_simulate.py
 checks it against scipy's ODE solver and closed forms).
 """
 

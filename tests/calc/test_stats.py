@@ -1,7 +1,7 @@
 """Outlier tests, ISO 5725-2 precision, Mandel's h and k, Cochran's C and Algorithm A.
 
 Check values and their sources are named beside each check. Critical values are computed in
-calc.stats from scipy's t and F distributions; the tables they are checked against are typed here
+calc.statistics.precision from scipy's t and F distributions; the tables they are checked against are typed here
 from memory, as printed to three decimals.
 """
 
@@ -14,7 +14,7 @@ import pytest
 from scipy import stats as sps
 
 from calc.errors import InputError
-from calc.stats import (
+from calc.statistics.precision import (
     cochran,
     cochran_critical,
     grubbs,
@@ -53,7 +53,7 @@ def test_grubbs_at_three_values_can_never_exceed_its_bound():
 
 def test_grubbs_false_alarm_rate_on_normal_data_is_alpha():
     # The meaning of a two-sided 5 % critical value, checked with numpy normal draws (independent
-    # of calc.stats): 100 000 samples of 8 give a rate of 0.05 ± 0.0014 (binomial SD).
+    # of calc.statistics.precision): 100 000 samples of 8 give a rate of 0.05 ± 0.0014 (binomial SD).
     rng = np.random.default_rng(7)
     x = rng.standard_normal((100_000, 8))
     G = np.max(np.abs(x - x.mean(axis=1, keepdims=True)), axis=1) / x.std(axis=1, ddof=1)

@@ -1,6 +1,6 @@
 """Shared helpers of the class tests: a section with groups, and simulated runs written to a folder.
 
-The runs are simulated (calc.simulate, invented data); their files are written once per test
+The runs are simulated (calc.simulation.simulator, invented data); their files are written once per test
 process and reused.
 """
 
@@ -15,8 +15,8 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulate import simulate_dissolution
-from calc.simulate import write_run
+from calc.simulation.simulator import simulate_dissolution
+from calc.simulation.simulator import write_run
 
 ROSTER = (
     "course,section,group,name,email,role\n"

@@ -1,4 +1,4 @@
-"""Class dashboard: each flag triggered by a crafted run, Grubbs as calc.stats, sorting, access, feedback."""
+"""Class dashboard: each flag triggered by a crafted run, Grubbs as calc.statistics.precision, sorting, access, feedback."""
 
 from __future__ import annotations
 
@@ -7,8 +7,8 @@ from typing import Any
 
 import pytest
 
-from calc.stats import grubbs
-from calc.stats import iso5725
+from calc.statistics.precision import grubbs
+from calc.statistics.precision import iso5725
 from tests.webapp.class_fixtures import make_class
 from tests.webapp.class_fixtures import simulated_run
 from webapp.models import Person
@@ -39,7 +39,7 @@ def test_flags_each_triggered_by_a_crafted_run(session: Any, lab: Any, tmp_path:
     assert "outlier" in far.flags and "En" in far.flags
     assert "small-dT" in tiny.flags and "small-dT" not in far.flags
     assert abs(tiny.delta_t) < 10 * tiny.resolution
-    # Grubbs as calc.stats (itself checked against ISO 5725-2 critical values in tests/calc)
+    # Grubbs as calc.statistics.precision (itself checked against ISO 5725-2 critical values in tests/calc)
     values = [r.value for r in board.rows if r.value is not None]
     g = grubbs(values, alpha=0.05)
     assert g.is_outlier and board.rows[g.index].run_id == far.run_id
@@ -47,7 +47,7 @@ def test_flags_each_triggered_by_a_crafted_run(session: Any, lab: Any, tmp_path:
     # the run on a calorimeter with a calibration on record is not flagged; the others name no known cup
     assert "no-calibration" not in rows[ids["M01-run0.toml"]].flags
     assert "no-calibration" in rows[ids["M01-run1.toml"]].flags
-    # statistics: ISO 5725-2 over the groups' results, as calc.stats computes it
+    # statistics: ISO 5725-2 over the groups' results, as calc.statistics.precision computes it
     st = board.stats[0]
     cells: dict[str, list[float]] = {}
     for r in board.rows:

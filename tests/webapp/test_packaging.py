@@ -34,7 +34,7 @@ def test_the_wheel_carries_the_migrations_and_data(tmp_path: Path) -> None:
     versions = sorted(p.name for p in (ROOT / "migrations" / "versions").glob("*.py"))
     assert {"webapp/_migrations/env.py", "webapp/_migrations/script.py.mako"} <= names
     assert {f"webapp/_migrations/versions/{v}" for v in versions} <= names
-    assert any(n.startswith("calc/data/") for n in names) and any(n.startswith("webapp/templates/") for n in names)
+    assert any(n.startswith("calc/refdata/data/") for n in names) and any(n.startswith("webapp/templates/") for n in names)
 
     site = tmp_path / "site"
     zipfile.ZipFile(wheel).extractall(site)

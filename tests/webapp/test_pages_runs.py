@@ -2,8 +2,8 @@
 
 Every test runs on SQLite and PostgreSQL (the ``app`` fixture). The form is checked against
 calc's own run-file schema and parser: the fields it shows are those of
-``calc.runfile.SCHEMA``, and the run file it stores parses back with
-``calc.runfile.parse_run`` to the same values as the demo file the command line reads,
+``calc.io.runfile.SCHEMA``, and the run file it stores parses back with
+``calc.io.runfile.parse_run`` to the same values as the demo file the command line reads,
 giving the same result as ``calc.analysis.analyze_run`` on that file.
 """
 
@@ -17,10 +17,10 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 from calc.analysis import analyze_run
-from calc.measured import Measured
-from calc.runfile import REQUIRED_SECTIONS
-from calc.runfile import SCHEMA
-from calc.runfile import parse_run
+from calc.io.quantities import Measured
+from calc.io.runfile import REQUIRED_SECTIONS
+from calc.io.runfile import SCHEMA
+from calc.io.runfile import parse_run
 
 from tests.webapp.conftest import DEMO
 from tests.webapp.conftest import csrf_token

@@ -21,12 +21,12 @@ import numpy as np
 import pytest
 
 from calc.analysis import Analysis, analyze_run, analyze_spec
-from calc.deltat import METHODS
-from calc.gum import BudgetLine
-from calc.periods import find_periods
-from calc.readings import Readings
-from calc.runfile import parse_run
-from calc.simulate import simulate_dissolution, write_run
+from calc.deltat.methods import METHODS
+from calc.uncertainty.gum import BudgetLine
+from calc.deltat.periods import find_periods
+from calc.io.readings import Readings
+from calc.io.runfile import parse_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 from webapp import plots
 from webapp.plots import (
     MAX_DRAWN_POINTS,

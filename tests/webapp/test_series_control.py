@@ -1,4 +1,4 @@
-"""Series statistics equal calc.replicates'; control charts flag run rules as calc.control; due dates."""
+"""Series statistics equal calc.statistics.replicates'; control charts flag run rules as calc.statistics.control_charts; due dates."""
 
 from __future__ import annotations
 
@@ -8,9 +8,9 @@ from typing import Any
 
 import pytest
 
-from calc.control import control_chart
-from calc.replicates import shared_type_b
-from calc.replicates import summarise_series
+from calc.statistics.control_charts import control_chart
+from calc.statistics.replicates import shared_type_b
+from calc.statistics.replicates import summarise_series
 from tests.webapp.class_fixtures import make_class
 from tests.webapp.class_fixtures import simulated_run
 from webapp.models import Person

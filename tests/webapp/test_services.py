@@ -10,8 +10,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 from calc.analysis import analyze_spec
-from calc.readings import parse_readings
-from calc.runfile import parse_run
+from calc.io.readings import parse_readings
+from calc.io.runfile import parse_run
 
 from tests.webapp.conftest import demo_files
 from tests.webapp.conftest import without_heat_capacity

@@ -204,7 +204,7 @@ _PLAN_TEXTS = ("formula", "mass", "water_volume", "acid", "base", "acid_concentr
 @bp.post("/plan")
 def plan_route():  # type: ignore[no-untyped-def]
     """Predict a run's ΔT and u(ΔH) before it is made (calc.plan)."""
-    from calc.cli_plan import plan_record
+    from calc.cli.plan import plan_record
     from calc.errors import CupcalError
     from calc.plan import plan_run
 

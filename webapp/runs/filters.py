@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from calc.hazards import general_caution
+from calc.refdata.hazards import general_caution
 
 from webapp.runs import bp
 from webapp.services.analysis import finite_or_none
@@ -77,5 +77,5 @@ def dof(x: Any) -> str:
 
 @bp.app_template_global("general_caution")
 def general_caution_text() -> str:
-    """Return the general caution shown with every substance (calc.hazards)."""
+    """Return the general caution shown with every substance (calc.refdata.hazards)."""
     return general_caution()

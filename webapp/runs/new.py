@@ -13,10 +13,10 @@ import datetime as dt
 from pathlib import PurePosixPath
 from typing import Any
 
-from calc.deltat import DEFAULT_METHOD
-from calc.deltat import METHODS
-from calc.reference import reference_names
-from calc.runfile import KINDS
+from calc.deltat.methods import DEFAULT_METHOD
+from calc.deltat.methods import METHODS
+from calc.refdata.reference import reference_names
+from calc.io.runfile import KINDS
 from flask import abort
 from flask import current_app
 from flask import flash

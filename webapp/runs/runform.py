@@ -1,6 +1,6 @@
 """The new-run form of each kind, generated from the run-file schema, and the run file it writes.
 
-:func:`form_sections` turns ``calc.runfile.SCHEMA[kind]`` into fieldsets of fields; the
+:func:`form_sections` turns ``calc.io.runfile.SCHEMA[kind]`` into fieldsets of fields; the
 posted values (``water.volume``, ``water.volume.u``, ``water.volume.unit``, …) become an
 ordinary run file with :func:`build_run_toml`, so a run entered in the form is stored
 exactly like one uploaded from the command line. :func:`check_values` finds the
@@ -16,10 +16,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 from calc.errors import InputError
-from calc.measured import parse_measured
-from calc.runfile import KINDS
-from calc.runfile import REQUIRED_SECTIONS
-from calc.runfile import SCHEMA
+from calc.io.quantities import parse_measured
+from calc.io.runfile import KINDS
+from calc.io.runfile import REQUIRED_SECTIONS
+from calc.io.runfile import SCHEMA
 
 #: what each kind measures (shown when choosing a kind)
 KIND_TITLES = {

@@ -18,16 +18,16 @@ from typing import Any
 import numpy as np
 from calc.analysis import Analysis
 from calc.analysis import analyze_spec
-from calc.deltat import DEFAULT_METHOD
-from calc.deltat import METHODS
+from calc.deltat.methods import DEFAULT_METHOD
+from calc.deltat.methods import METHODS
 from calc.errors import AnalysisError
 from calc.errors import InputError
-from calc.measured import Measured
-from calc.readings import Readings
-from calc.readings import parse_readings
+from calc.io.quantities import Measured
+from calc.io.readings import Readings
+from calc.io.readings import parse_readings
 from calc.report import to_record
-from calc.runfile import RunSpec
-from calc.runfile import parse_run
+from calc.io.runfile import RunSpec
+from calc.io.runfile import parse_run
 
 from webapp.models import Calibration
 from webapp.models import Result

@@ -9,7 +9,7 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 from calc.errors import InputError
-from calc.measured import parse_measured
+from calc.io.quantities import parse_measured
 
 from webapp.models import Calibration
 from webapp.models import Calorimeter

@@ -20,7 +20,7 @@ import secrets
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 from calc.errors import InputError
-from calc.measured import parse_measured
+from calc.io.quantities import parse_measured
 
 from webapp.models import ROLES
 from webapp.models import Bench

@@ -2,8 +2,8 @@
 
 A check standard is one measurement repeated on a calorimeter: a kind with its reference
 (``dissolution · KCl dissolution, infinite dilution``) or a calibration kind (its C_cal). The
-chart is :func:`calc.control.control_chart` of the current results in time order with limits
-from the first ``baseline`` points; the due date is :func:`calc.control.calibration_status`
+chart is :func:`calc.statistics.control_charts.control_chart` of the current results in time order with limits
+from the first ``baseline`` points; the due date is :func:`calc.statistics.control_charts.calibration_status`
 from the calorimeter's last calibration and its interval (the calorimeter's own, else
 ``CALIBRATION_DUE_DAYS``).
 """
@@ -17,9 +17,9 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.control import RULES
-from calc.control import calibration_status
-from calc.control import control_chart
+from calc.statistics.control_charts import RULES
+from calc.statistics.control_charts import calibration_status
+from calc.statistics.control_charts import control_chart
 from calc.errors import InputError
 
 from webapp.models import Calibration

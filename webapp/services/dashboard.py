@@ -10,7 +10,7 @@ Flags (each with a plain message):
 * ``En``: |E_n| > 1 against the reference (ISO 13528; the adjusted E_n when the reference was
   carried to the run's conditions).
 * ``outlier``: the most distant result of its measurement within the section by Grubbs'
-  two-sided test at α = 0.05 (:func:`calc.stats.grubbs`; one test per section and measurement,
+  two-sided test at α = 0.05 (:func:`calc.statistics.precision.grubbs`; one test per section and measurement,
   at least 3 results).
 * ``small-dT``: |ΔT| under 10 × the thermometer resolution.
 * ``drift``: the analysis warned of large drift.
@@ -30,9 +30,9 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 from calc.errors import InputError
-from calc.replicates import shared_type_b
-from calc.stats import grubbs
-from calc.stats import iso5725
+from calc.statistics.replicates import shared_type_b
+from calc.statistics.precision import grubbs
+from calc.statistics.precision import iso5725
 
 from webapp.models import Calibration
 from webapp.models import Group

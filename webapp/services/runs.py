@@ -15,8 +15,8 @@ from typing import TypeVar
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 from calc.analysis import Analysis
-from calc.readings import Readings
-from calc.runfile import RunSpec
+from calc.io.readings import Readings
+from calc.io.runfile import RunSpec
 
 from webapp.models import CALIBRATION_KINDS
 from webapp.models import Calibration

@@ -1,9 +1,9 @@
 """Series of repeat runs: mean, SD, u of the mean, t 95 % interval and the shared Type B part.
 
 A series is either stored (a named list of runs) or formed on the fly from a group's runs of
-one measurement (kind + reference). The statistics are :func:`calc.replicates.summarise_series`
+one measurement (kind + reference). The statistics are :func:`calc.statistics.replicates.summarise_series`
 of the runs' main results, combined with the non-averaging Type B part of the first run's
-budget (:func:`calc.replicates.shared_type_b`: calorimeter heat capacity, solution heat
+budget (:func:`calc.statistics.replicates.shared_type_b`: calorimeter heat capacity, solution heat
 capacity, densities, concentrations, purity, ΔT method).
 """
 
@@ -18,7 +18,7 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from calc.errors import InputError
-from calc.replicates import shared_type_b, summarise_series
+from calc.statistics.replicates import shared_type_b, summarise_series
 from webapp.models import MAX_ID, Person, Result, Run, Series, SeriesRun
 from webapp.services.access import can_view_run, require_coordinator
 from webapp.services.errors import Invalid, NotFound

@@ -16,7 +16,7 @@ import math
 from dataclasses import dataclass, field
 
 from calc.errors import InputError
-from calc.reference import ReferenceValue, phi_L
+from calc.refdata.reference import ReferenceValue, phi_L
 
 __all__ = ["Comparison", "compare", "TEMPERATURE_NOTE_K"]
 

@@ -8,7 +8,7 @@ import sys
 import click
 
 from calc.errors import CupcalError, InputError
-from calc.hess import HessResult, hess
+from calc.refdata.hess import HessResult, hess
 
 __all__ = ["hess_command", "parse_temperature"]
 
@@ -21,7 +21,7 @@ def parse_temperature(text: str) -> float:
     InputError
         If the text is not a temperature.
     """
-    from calc.units import Q_, DimensionalityError, UndefinedUnitError
+    from calc.io.units import Q_, DimensionalityError, UndefinedUnitError
 
     raw = text.strip()
     try:

@@ -1,7 +1,7 @@
 """Hold what a simulated run is: its truth, its shared options, its stated inputs and its files.
 
 :class:`SimTruth` and :class:`SimulatedRun` are what every ``simulate_*`` function of
-:mod:`calc.sim_kinds` returns and :class:`RunOptions` their shared settings. :class:`RunContext`
+:mod:`calc.simulation.kinds` returns and :class:`RunOptions` their shared settings. :class:`RunContext`
 rounds the true inputs, writes them as run-file strings (perturbed if asked), draws the mixing-time
 statement and the noise in a fixed order and assembles the result. :func:`write_run` writes a run
 as a run file and its CSV log.
@@ -22,8 +22,8 @@ from typing import TypedDict
 import numpy as np
 
 from calc.errors import InputError
-from calc.sim_model import LumpedModel
-from calc.sim_model import read_probe
+from calc.simulation.model import LumpedModel
+from calc.simulation.model import read_probe
 
 __all__ = [
     "DEFAULT_UNCERTAINTIES",
@@ -183,7 +183,7 @@ class RunContext:
                               gain=o["gain"], offset=o["offset_K"])
         info = dict(o["info"])
         info.setdefault("title", f"simulated {self.kind} run")
-        info.setdefault("notes", "synthetic data with a known truth (calc.simulate)")
+        info.setdefault("notes", "synthetic data with a known truth (calc.simulation.simulator)")
         cal = body.pop("calorimeter", {})
         run: dict[str, Any] = {"kind": self.kind, "readings": "readings.csv",
                                "mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s", "info": info,

@@ -13,7 +13,7 @@ from typing import Any
 import click
 
 from calc import __version__
-from calc.deltat import DEFAULT_METHOD, METHODS
+from calc.deltat.methods import DEFAULT_METHOD, METHODS
 from calc.errors import CupcalError
 
 __all__ = ["main", "cli"]
@@ -129,7 +129,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
 @cli.command()
 def methods() -> None:
     """List the corrected-ΔT methods."""
-    from calc.deltat import METHOD_TERMS
+    from calc.deltat.methods import METHOD_TERMS
 
     for name in sorted(METHODS):
         mark = " (default)" if name == DEFAULT_METHOD else ""
@@ -139,11 +139,11 @@ def methods() -> None:
 
 def _register_optional() -> None:
     try:
-        from calc.cli_reference import hess_command as hess
+        from calc.cli.hess import hess_command as hess
     except ImportError:  # reference data not installed
         return
     cli.add_command(hess)
-    from calc.cli_plan import plan_command
+    from calc.cli.plan import plan_command
 
     cli.add_command(plan_command)
 

@@ -1,9 +1,9 @@
 """Read chemical species and look them up in the table of standard enthalpies of formation.
 
 The table of standard enthalpies of formation (298.15 K, 0.1 MPa) is
-``calc/data/formation_nbs1982.csv``: one compilation only, the NBS 1982 tables
+``calc/refdata/data/formation_nbs1982.csv``: one compilation only, the NBS 1982 tables
 (Wagman et al., J. Phys. Chem. Ref. Data 11, Suppl. 2). Each entry's standard
-uncertainty follows the rule stated in ``calc/data/sources.toml`` (40 units of the last
+uncertainty follows the rule stated in ``calc/refdata/data/sources.toml`` (40 units of the last
 digit given), because the tables give none per entry.
 
 Species are written ``formula[charge](state)``: ``NaCl(s)``, ``H2O(l)``, ``CO2(g)``,
@@ -22,7 +22,7 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
-from calc.properties import element_composition
+from calc.refdata.properties import element_composition
 
 __all__ = [
     "T_REF_K", "FormationEntry", "Species", "citation", "formation_enthalpy", "formation_index",
@@ -108,12 +108,12 @@ class FormationEntry:
 
 @lru_cache(maxsize=1)
 def _sources() -> dict[str, dict[str, str]]:
-    text = (resources.files("calc") / "data" / "sources.toml").read_text(encoding="utf-8")
+    text = (resources.files("calc.refdata") / "data" / "sources.toml").read_text(encoding="utf-8")
     return tomllib.loads(text)
 
 
 def citation(source_id: str) -> str:
-    """Return the full citation for a source id of ``calc/data/sources.toml``."""
+    """Return the full citation for a source id of ``calc/refdata/data/sources.toml``."""
     try:
         return _sources()[source_id]["citation"]
     except KeyError:
@@ -132,7 +132,7 @@ def _u_from_digits(text: str) -> float:
 
 @lru_cache(maxsize=1)
 def _table() -> tuple[dict[tuple, FormationEntry], tuple[FormationEntry, ...]]:
-    path = resources.files("calc") / "data" / "formation_nbs1982.csv"
+    path = resources.files("calc.refdata") / "data" / "formation_nbs1982.csv"
     index: dict[tuple, FormationEntry] = {}
     rows: list[FormationEntry] = []
     with path.open(encoding="utf-8", newline="") as fh:
@@ -154,7 +154,7 @@ def _table() -> tuple[dict[tuple, FormationEntry], tuple[FormationEntry, ...]]:
             if key in index:
                 raise InputError(
                     f"duplicate species {species.display()}",
-                    source="calc/data/formation_nbs1982.csv",
+                    source="calc/refdata/data/formation_nbs1982.csv",
                     line=line_no,
                 )
             index[key] = entry
@@ -285,4 +285,4 @@ def unknown_species_hint(sp: Species) -> str:
     ]
     if others:
         return "not in the NBS 1982 table of cupcal; the table has " + ", ".join(others)
-    return "not in the NBS 1982 table of cupcal (see calc/data/formation_nbs1982.csv)"
+    return "not in the NBS 1982 table of cupcal (see calc/refdata/data/formation_nbs1982.csv)"

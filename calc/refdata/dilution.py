@@ -1,7 +1,7 @@
 """Compute the relative apparent molar enthalpy φ_L of a strong electrolyte at a molality.
 
 ΔsolH(m) = ΔsolH° + φ_L(m). Pitzer's equation with the enthalpy parameters of
-``calc/data/pitzer_enthalpy.csv``, else the Debye–Hückel term alone for a dilute 1:1 electrolyte;
+``calc/refdata/data/pitzer_enthalpy.csv``, else the Debye–Hückel term alone for a dilute 1:1 electrolyte;
 :func:`phi_L` states the models and their uncertainty.
 """
 
@@ -14,9 +14,9 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
-from calc.properties import R_GAS, debye_huckel_slopes, element_composition
-from calc.solutes import dissolution_products, strip_state
-from calc.species import T_REF_K, citation
+from calc.refdata.properties import R_GAS, debye_huckel_slopes, element_composition
+from calc.refdata.solutes import dissolution_products, strip_state
+from calc.refdata.species import T_REF_K, citation
 
 __all__ = [
     "PhiL",
@@ -37,7 +37,7 @@ class PhiL:
 
 @lru_cache(maxsize=1)
 def _pitzer_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc") / "data" / "pitzer_enthalpy.csv"
+    path = resources.files("calc.refdata") / "data" / "pitzer_enthalpy.csv"
     with path.open(encoding="utf-8", newline="") as fh:
         return tuple(csv.DictReader(fh))
 

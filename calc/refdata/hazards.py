@@ -1,8 +1,8 @@
 """Usual cautions for the substances of a run: GHS hazard statements and pictograms.
 
-Data: ``calc/data/hazards.toml`` (classification per substance, typed from memory from
+Data: ``calc/refdata/data/hazards.toml`` (classification per substance, typed from memory from
 EU CLP harmonised classifications and typical supplier safety data sheets) and
-``calc/data/ghs.toml`` (statement texts and pictogram names). These are the usual
+``calc/refdata/data/ghs.toml`` (statement texts and pictogram names). These are the usual
 cautions, not a risk assessment: the lab's own rules, local codes and the supplier's
 safety data sheet of the product actually used always win.
 """
@@ -46,14 +46,14 @@ def general_caution() -> str:
 
 @lru_cache(maxsize=1)
 def _data() -> tuple[dict, dict]:
-    base = resources.files("calc") / "data"
+    base = resources.files("calc.refdata") / "data"
     hazards = tomllib.loads((base / "hazards.toml").read_text(encoding="utf-8"))["substance"]
     ghs = tomllib.loads((base / "ghs.toml").read_text(encoding="utf-8"))
     return hazards, ghs
 
 
 def _key(formula: str) -> tuple | None:
-    from calc.properties import element_composition
+    from calc.refdata.properties import element_composition
 
     text = formula.strip()
     if text.endswith(")") and "(" in text:
@@ -81,7 +81,7 @@ def _index() -> dict[object, str]:
 
 def _lookup(formula: str) -> tuple[str | None, str]:
     """Return (data key, remark) for a formula, or (None, '')."""
-    from calc.properties import split_hydrate
+    from calc.refdata.properties import split_hydrate
 
     index = _index()
     text = formula.strip()
@@ -103,7 +103,7 @@ def _lookup(formula: str) -> tuple[str | None, str]:
 
 def _exothermic_note(formula: str) -> str:
     try:
-        from calc.reference import solute_formation_entry, solution_enthalpy
+        from calc.refdata.reference import solute_formation_entry, solution_enthalpy
 
         solid = solute_formation_entry(formula)
         if solid is None or solid.species.state != "s":

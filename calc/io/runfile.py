@@ -18,7 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from calc.errors import InputError
-from calc.measured import Measured, parse_measured
+from calc.io.quantities import Measured, parse_measured
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA"]
 
@@ -349,7 +349,7 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
     if kind == "f":
         if not isinstance(value, str) or not value.strip():
             raise InputError("expected a chemical formula such as 'KCl'", source=source, field=dotted)
-        from calc.molar_mass import molar_mass
+        from calc.refdata.formula import molar_mass
 
         molar_mass(value, field=dotted, source=source)  # validates the formula
         return value.strip()

@@ -36,32 +36,32 @@ neutralization. A mixing calibration releases no heat: there delta_t_adiabatic i
 the rise that the calibration formula uses, measured from the cool water's temperature.
 ``SimTruth.delta_t_from_contents`` is always the adiabatic final temperature minus T(t_m⁻).
 
-The code is split by job, and every name stays importable from here: :mod:`calc.sim_model` (the
-lumped model, its closed form, the noise), :mod:`calc.sim_run` (truth, options, stated inputs,
-``write_run``), :mod:`calc.sim_kinds` (one ``simulate_*`` function per run kind) and
-:mod:`calc.scenarios` (``random_scenario``).
+The code is split by job, and every name stays importable from here: :mod:`calc.simulation.model` (the
+lumped model, its closed form, the noise), :mod:`calc.simulation.run` (truth, options, stated inputs,
+``write_run``), :mod:`calc.simulation.kinds` (one ``simulate_*`` function per run kind) and
+:mod:`calc.simulation.scenarios` (``random_scenario``).
 """
 
 from __future__ import annotations
 
-from calc.scenarios import random_scenario
-from calc.sim_kinds import WATER_CP  # noqa: F401  (importable from here, not in __all__)
-from calc.sim_kinds import WATER_DENSITY  # noqa: F401
-from calc.sim_kinds import simulate_dissolution
-from calc.sim_kinds import simulate_electrical_calibration
-from calc.sim_kinds import simulate_mixing_calibration
-from calc.sim_kinds import simulate_neutralization
-from calc.sim_kinds import simulate_reaction
-from calc.sim_model import RELEASES  # noqa: F401
-from calc.sim_model import LumpedModel
-from calc.sim_model import ar1_noise
-from calc.sim_model import first_order_release_curve
-from calc.sim_model import read_probe
-from calc.sim_run import DEFAULT_UNCERTAINTIES
-from calc.sim_run import RunOptions
-from calc.sim_run import SimTruth
-from calc.sim_run import SimulatedRun
-from calc.sim_run import write_run
+from calc.simulation.scenarios import random_scenario
+from calc.simulation.kinds import WATER_CP  # noqa: F401  (importable from here, not in __all__)
+from calc.simulation.kinds import WATER_DENSITY  # noqa: F401
+from calc.simulation.kinds import simulate_dissolution
+from calc.simulation.kinds import simulate_electrical_calibration
+from calc.simulation.kinds import simulate_mixing_calibration
+from calc.simulation.kinds import simulate_neutralization
+from calc.simulation.kinds import simulate_reaction
+from calc.simulation.model import RELEASES  # noqa: F401
+from calc.simulation.model import LumpedModel
+from calc.simulation.model import ar1_noise
+from calc.simulation.model import first_order_release_curve
+from calc.simulation.model import read_probe
+from calc.simulation.run import DEFAULT_UNCERTAINTIES
+from calc.simulation.run import RunOptions
+from calc.simulation.run import SimTruth
+from calc.simulation.run import SimulatedRun
+from calc.simulation.run import write_run
 
 __all__ = [
     "LumpedModel",

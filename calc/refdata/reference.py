@@ -1,10 +1,10 @@
 """The reference library: enthalpies of solution, certified values, neutralization, φ_L.
 
-Data files (``calc/data``): ``solution_enthalpies.csv`` (tabulated ΔsolH° at infinite
+Data files (``calc/refdata/data``): ``solution_enthalpies.csv`` (tabulated ΔsolH° at infinite
 dilution), ``certified.toml`` (SRM 1655 KCl, SRM 724a THAM), ``pitzer_enthalpy.csv``
 (Pitzer enthalpy parameters for φ_L), ``sources.toml`` (citations). Standard enthalpies
-of formation are in :mod:`calc.species` (Hess's law in :mod:`calc.hess`), the aqueous
-products of a solute in :mod:`calc.solutes` and φ_L in :mod:`calc.dilution`; the names this
+of formation are in :mod:`calc.refdata.species` (Hess's law in :mod:`calc.refdata.hess`), the aqueous
+products of a solute in :mod:`calc.refdata.solutes` and φ_L in :mod:`calc.refdata.dilution`; the names this
 module has always exported (``phi_L``, ``dissolution_products`` ...) stay importable from here.
 
 All enthalpies are in kJ/mol, heat-capacity changes in kJ/(mol K).
@@ -18,11 +18,11 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from calc.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
+from calc.refdata.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
 from calc.errors import InputError
-from calc.hess import citation, formation_enthalpy, hess
-from calc.properties import element_composition
-from calc.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
+from calc.refdata.hess import citation, formation_enthalpy, hess
+from calc.refdata.properties import element_composition
+from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
     "ReferenceValue",
@@ -112,7 +112,7 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
 
 @lru_cache(maxsize=1)
 def _solution_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc") / "data" / "solution_enthalpies.csv"
+    path = resources.files("calc.refdata") / "data" / "solution_enthalpies.csv"
     with path.open(encoding="utf-8", newline="") as fh:
         return tuple(csv.DictReader(fh))
 
@@ -183,7 +183,7 @@ def solution_enthalpy(formula: str) -> ReferenceValue | None:
 def _certified() -> tuple[tuple[ReferenceValue, str, tuple[str, ...]], ...]:
     import molmass
 
-    text = (resources.files("calc") / "data" / "certified.toml").read_text(encoding="utf-8")
+    text = (resources.files("calc.refdata") / "data" / "certified.toml").read_text(encoding="utf-8")
     out = []
     for item in tomllib.loads(text)["reference"]:
         if "value_J_g" in item:

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from calc.drift import fit_line
+from calc.deltat.drift import fit_line
 from calc.errors import InputError
 
 __all__ = ["Periods", "find_periods", "MIN_WINDOW_POINTS"]

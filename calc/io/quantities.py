@@ -30,7 +30,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from calc.errors import InputError
-from calc.units import Q_, parse_unit, ureg
+from calc.io.units import Q_, parse_unit, ureg
 
 __all__ = ["Measured", "parse_measured", "describe_dimension", "default_uncertainty"]
 

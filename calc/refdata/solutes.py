@@ -3,15 +3,15 @@
 A solute formula may carry its state (``KCl(s)``, ``HCl(g)``), which :func:`strip_state` splits
 off. :func:`solute_formation_entry` finds the solute's entry (solid, else liquid, else gas) and
 :func:`dissolution_products` the aqueous species that one formula unit gives, both in the NBS 1982
-table of :mod:`calc.species`.
+table of :mod:`calc.refdata.species`.
 """
 
 from __future__ import annotations
 
 from math import gcd
 
-from calc.properties import element_composition, split_hydrate
-from calc.species import FormationEntry, formation_index, formation_table
+from calc.refdata.properties import element_composition, split_hydrate
+from calc.refdata.species import FormationEntry, formation_index, formation_table
 
 __all__ = [
     "STRONG_ACIDS",

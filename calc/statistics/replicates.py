@@ -28,8 +28,8 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.errors import InputError
-from calc.gum import coverage_factor
-from calc.stats import finite_series
+from calc.uncertainty.gum import coverage_factor
+from calc.statistics.precision import finite_series
 
 __all__ = [
     "SeriesSummary",
@@ -157,7 +157,7 @@ def shared_type_b(budget: Iterable[Any], shared: Iterable[str] = SHARED_INPUTS) 
     Parameters
     ----------
     budget:
-        Budget lines of one run of the series (``calc.gum.BudgetLine``: each has ``name``,
+        Budget lines of one run of the series (``calc.uncertainty.gum.BudgetLine``: each has ``name``,
         ``contribution`` |c_i|u(x_i) in the result's unit and ``dof``), e.g.
         ``analysis.gum.budget``.
     shared:

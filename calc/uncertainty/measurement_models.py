@@ -1,12 +1,12 @@
 """Measurement models of each run kind, written in primary inputs.
 
-Each builder returns the list of :class:`calc.gum.Input` and a model function
+Each builder returns the list of :class:`calc.uncertainty.gum.Input` and a model function
 of those inputs that gives the heat and the main result. The corrected
 temperature change enters as its value plus zero-valued error components (fit,
 resolution at start and end, method, mixing time), so that the budget shows
 each one and the Monte Carlo draws each from its own distribution.
 
-To add a run kind: add its schema in :mod:`calc.runfile`, write a builder here
+To add a run kind: add its schema in :mod:`calc.io.runfile`, write a builder here
 and register it in :data:`BUILDERS`.
 """
 
@@ -17,12 +17,12 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from calc.deltat import DeltaT
+from calc.deltat.methods import DeltaT
 from calc.errors import InputError
-from calc.gum import Input, xmin
-from calc.measured import Measured
-from calc.molar_mass import molar_mass
-from calc.runfile import RunSpec
+from calc.uncertainty.gum import Input, xmin
+from calc.io.quantities import Measured
+from calc.refdata.formula import molar_mass
+from calc.io.runfile import RunSpec
 
 __all__ = ["ModelSpec", "Properties", "build_model", "BUILDERS", "MAIN_OUTPUT", "EQUIVALENTS"]
 

@@ -2,7 +2,7 @@
 
 :func:`hess` sums the standard enthalpies of formation of the species of a balanced equation, with
 a Kirchhoff correction to other temperatures. The table (NBS 1982) and the way species are written
-are described in :mod:`calc.species`; its names (``formation_enthalpy``, ``parse_species``,
+are described in :mod:`calc.refdata.species`; its names (``formation_enthalpy``, ``parse_species``,
 ``Species``, ``citation`` ...) stay importable from here.
 """
 
@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 
 from calc.errors import InputError
-from calc.species import (
+from calc.refdata.species import (
     T_REF_K,
     FormationEntry,
     Species,

@@ -34,9 +34,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from calc.drift import LineFit, fit_line, fit_newton_joint, fit_newton_single
+from calc.deltat.drift import LineFit, fit_line, fit_newton_joint, fit_newton_single
 from calc.errors import AnalysisError, InputError
-from calc.periods import Periods
+from calc.deltat.periods import Periods
 
 __all__ = [
     "Log",
@@ -512,8 +512,8 @@ def _common_warnings(log: Log, dt: DeltaT) -> None:
 @register_method("model-fit")
 def _model_fit(log: Log) -> DeltaT:
     """Explicit model (exchange, first-order release, probe lag) fitted by least squares."""
-    # Lives in calc.modelfit, imported on first use: it needs scipy.optimize, whose import
+    # Lives in calc.deltat.modelfit, imported on first use: it needs scipy.optimize, whose import
     # would otherwise slow every start of the command line.
-    from calc.modelfit import model_fit
+    from calc.deltat.modelfit import model_fit
 
     return model_fit(log)

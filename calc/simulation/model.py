@@ -4,7 +4,7 @@
 exponentials) or, as an independent check, with ``scipy.integrate.solve_ivp``;
 :func:`first_order_release_curve` is the closed form of SCIENCE.md §1.d; :func:`ar1_noise` and
 :func:`read_probe` turn probe temperatures into noisy, quantised readings. The equations and the
-assumptions are written out once, in :mod:`calc.simulate`.
+assumptions are written out once, in :mod:`calc.simulation.simulator`.
 """
 
 from __future__ import annotations

@@ -22,8 +22,8 @@ import math
 import numpy as np
 from scipy.optimize import least_squares
 
-from calc.deltat import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_terms
-from calc.drift import fit_line, inflation, lag1_autocorrelation
+from calc.deltat.methods import DeltaT, Log, _method_term, _need, _regnault_pfaundler, _res_terms
+from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation
 from calc.errors import AnalysisError
 
 __all__ = ["probe_reading", "model_fit"]

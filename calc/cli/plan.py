@@ -127,7 +127,7 @@ def temperature_difference_K(text: str, option: str) -> float:
     """
     from dataclasses import replace
 
-    from calc.measured import parse_measured
+    from calc.io.quantities import parse_measured
 
     try:
         x = float(text)
@@ -143,7 +143,7 @@ def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) ->
     """Return ``text`` in ``unit`` (a bare number is taken in that unit when ``bare``), or None."""
     if text is None:
         return None
-    from calc.measured import parse_measured
+    from calc.io.quantities import parse_measured
 
     if bare:
         try:

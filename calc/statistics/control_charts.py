@@ -26,7 +26,7 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.errors import InputError
-from calc.stats import finite_series
+from calc.statistics.precision import finite_series
 
 __all__ = [
     "D2",

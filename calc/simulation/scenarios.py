@@ -7,13 +7,13 @@ from typing import Any
 import numpy as np
 
 from calc.errors import InputError
-from calc.sim_kinds import formula_molar_mass
-from calc.sim_kinds import simulate_dissolution
-from calc.sim_kinds import simulate_electrical_calibration
-from calc.sim_kinds import simulate_mixing_calibration
-from calc.sim_kinds import simulate_neutralization
-from calc.sim_kinds import simulate_reaction
-from calc.sim_run import SimulatedRun
+from calc.simulation.kinds import formula_molar_mass
+from calc.simulation.kinds import simulate_dissolution
+from calc.simulation.kinds import simulate_electrical_calibration
+from calc.simulation.kinds import simulate_mixing_calibration
+from calc.simulation.kinds import simulate_neutralization
+from calc.simulation.kinds import simulate_reaction
+from calc.simulation.run import SimulatedRun
 
 __all__ = ["random_scenario"]
 

@@ -1,9 +1,9 @@
 """Simulate each kind of run: dissolution, reaction, neutralization and the two calibrations.
 
-Each ``simulate_*`` function states its inputs through a :class:`calc.sim_run.RunContext`, builds
-the :class:`calc.sim_model.LumpedModel` of the run and returns a :class:`calc.sim_run.SimulatedRun`.
+Each ``simulate_*`` function states its inputs through a :class:`calc.simulation.run.RunContext`, builds
+the :class:`calc.simulation.model.LumpedModel` of the run and returns a :class:`calc.simulation.run.SimulatedRun`.
 The assumptions (heat capacities, heat exchange, instant mixing, rounding of the true inputs) are
-written out once, in :mod:`calc.simulate`.
+written out once, in :mod:`calc.simulation.simulator`.
 """
 
 from __future__ import annotations
@@ -16,9 +16,9 @@ import numpy as np
 from molmass import Formula
 
 from calc.errors import InputError
-from calc.sim_run import RunContext
-from calc.sim_run import RunOptions
-from calc.sim_run import SimulatedRun
+from calc.simulation.run import RunContext
+from calc.simulation.run import RunOptions
+from calc.simulation.run import SimulatedRun
 
 __all__ = [
     "WATER_DENSITY",

@@ -1,0 +1,1 @@
+"""The ``cupcal`` command line."""

@@ -1,0 +1,1 @@
+"""Corrected temperature change: periods of the log, drift fits and the corrected-ΔT methods."""

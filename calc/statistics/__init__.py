@@ -1,0 +1,1 @@
+"""Statistics of many runs: class precision and outliers, replicate series, control charts."""
