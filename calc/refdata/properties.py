@@ -16,11 +16,11 @@ Water
 
 Aqueous electrolyte solutions
     Density from the Laliberté & Cooper model (J. Chem. Eng. Data 49, 1141 (2004)) and
-    heat capacity from the Laliberté model (J. Chem. Eng. Data 54, 1725 (2009)), with the
-    as implemented by the ``thermo`` package (``thermo.electrochem``). The coefficient table
-    that the ``chemicals`` package ships (``Laliberte2009.tsv``) tells which solutes and
-    ranges are covered; a solute outside it, or one thermo has no coefficients for, takes
-    the fallback below.
+    heat capacity from the Laliberté model (J. Chem. Eng. Data 54, 1725 (2009)), computed by
+    :mod:`calc.refdata.laliberte` from the papers' coefficient table
+    (``calc/refdata/data/laliberte2009.tsv``, as distributed with the ``chemicals`` package); the
+    tests compare it with the ``thermo`` package's implementation. The table tells which solutes
+    and ranges are covered; a solute outside it takes the fallback below.
 
     Stated standard uncertainties (cupcal's choice, checked against handbook densities in
     the tests): 5e-4 relative for density and 3e-3 relative for c_p.
@@ -38,14 +38,13 @@ Fallback
 
 from __future__ import annotations
 
-import csv
 import math
 import warnings
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
 
 from calc.errors import InputError
+from calc.refdata import laliberte
 
 __all__ = [
     "PropertyValue",
@@ -61,7 +60,7 @@ __all__ = [
 ]
 
 IAPWS_MODEL = "IAPWS-95 (iapws package)"
-LALIBERTE_MODEL = "Laliberté (thermo package)"
+LALIBERTE_MODEL = "Laliberté (2004, 2009)"
 FALLBACK_MODEL = "water fallback"
 
 P_MPA = 0.101325
@@ -244,17 +243,6 @@ def _dh_slopes(T: float) -> tuple[float, float]:
 # ----------------------------------------------------------------------- Laliberté
 
 
-@dataclass(frozen=True)
-class _LaliberteRow:
-    name: str
-    formula: str
-    cas: str
-    density: tuple[float, ...] | None  # c0..c4
-    density_range: tuple[float, float, float]  # t_min degC, t_max degC, w_max
-    cp: tuple[float, ...] | None  # a1..a6
-    cp_range: tuple[float, float, float]
-
-
 @lru_cache(maxsize=4096)
 def element_composition(formula: str) -> tuple[tuple[str, int], ...]:
     """Return the element composition of a neutral formula as a sorted tuple.
@@ -271,70 +259,37 @@ def element_composition(formula: str) -> tuple[tuple[str, int], ...]:
     return tuple(sorted((sym, int(item.count)) for sym, item in comp.items()))
 
 
-def _floats(cells: list[str]) -> tuple[float, ...] | None:
-    if any(c.strip() == "" for c in cells):
-        return None
-    return tuple(float(c) for c in cells)
-
-
 @lru_cache(maxsize=1)
-def _laliberte_table() -> dict[tuple[tuple[str, int], ...], _LaliberteRow]:
-    path = resources.files("chemicals") / "Electrolytes" / "Laliberte2009.tsv"
-    table: dict[tuple[tuple[str, int], ...], _LaliberteRow] = {}
-    with path.open(encoding="utf-8") as fh:
-        reader = csv.reader(fh, delimiter="\t")
-        next(reader)
-        for cells in reader:
-            cells = cells + [""] * (33 - len(cells))
-            formula = cells[2].strip()
-            if formula == "Sucrose":
-                formula = "C12H22O11"
-            row = _LaliberteRow(
-                name=cells[0].strip(),
-                formula=formula,
-                cas=cells[1].strip(),
-                density=_floats(cells[4:9]),
-                density_range=tuple(float(c) for c in cells[9:12]),  # type: ignore[arg-type]
-                cp=_floats(cells[23:29]),
-                cp_range=(
-                    tuple(float(c) for c in cells[29:32])  # type: ignore[arg-type]
-                    if _floats(cells[29:32])
-                    else (0.0, 0.0, 0.0)
-                ),
-            )
-            key = element_composition(formula)
-            if key in table:  # two rows with one composition: refuse to guess
-                table[key] = _LaliberteRow(row.name, formula, row.cas, None, (0, 0, 0), None, (0, 0, 0))
-            else:
-                table[key] = row
+def _laliberte_table() -> dict[tuple[tuple[str, int], ...], laliberte.LaliberteRow | None]:
+    """Rows of the Laliberté table by element composition; None where two rows share one."""
+    table: dict[tuple[tuple[str, int], ...], laliberte.LaliberteRow | None] = {}
+    for row in laliberte.laliberte_rows():
+        key = element_composition(row.formula)
+        table[key] = None if key in table else row  # two rows with one composition: refuse to guess
     return table
 
 
-def _laliberte_row(formula: str) -> _LaliberteRow | None:
+def _laliberte_row(formula: str) -> laliberte.LaliberteRow | None:
     return _laliberte_table().get(element_composition(formula))
 
 
 @lru_cache(maxsize=4096)
-def _laliberte(kind: str, T_K: float, ws: tuple[float, ...], cas: tuple[str, ...]) -> float:
-    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)) from the thermo package.
-
-    The thermo package (Chemical Engineering Design Library) implements Laliberté's mixing
-    rules; a call costs a few milliseconds, so results are cached on rounded inputs.
-    """
-    from thermo.electrochem import Laliberte_density, Laliberte_heat_capacity
-
-    fn = Laliberte_density if kind == "density" else Laliberte_heat_capacity
-    try:
-        return float(fn(T_K, list(ws), list(cas)))
-    except KeyError:
-        return math.nan  # the thermo package has no coefficients for one of the solutes
+def _laliberte(kind: str, T_K: float, fractions: tuple[tuple[laliberte.LaliberteRow, float], ...]) -> float:
+    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)), cached on rounded inputs."""
+    t_c = T_K - 273.15
+    if kind == "density":
+        return laliberte.density(t_c, dict(fractions))
+    return laliberte.specific_heat(t_c, dict(fractions), 1000.0 * water_specific_heat(T_K).value)
 
 
-def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float], rows: dict) -> float:
-    keys = sorted(mass_fractions)
-    ws = tuple(round(mass_fractions[f], 7) for f in keys)
-    cas = tuple(rows[f].cas for f in keys)
-    return _laliberte(kind, round(T_K, 2), ws, cas)
+def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],
+                    rows: dict[str, laliberte.LaliberteRow | None]) -> float:
+    fractions = []
+    for formula in sorted(mass_fractions):
+        row = rows[formula]
+        assert row is not None
+        fractions.append((row, round(mass_fractions[formula], 7)))
+    return _laliberte(kind, round(T_K, 2), tuple(fractions))
 
 
 def split_hydrate(formula: str) -> tuple[str, int]:
@@ -466,7 +421,7 @@ def solution_properties(
         fractions = {f: m / total for f, m in anhydrous.items()}
         rho = _laliberte_call("density", T, fractions, rows) / 1000.0
         if not math.isfinite(rho):
-            why = "the thermo package lacks Laliberté density data for " + ", ".join(anhydrous)
+            why = "no finite Laliberté density for " + ", ".join(anhydrous)
     if why is None:
         density = PropertyValue(rho, U_REL_LALIBERTE_DENSITY * rho, "g/mL", LALIBERTE_MODEL)
     else:
@@ -477,7 +432,7 @@ def solution_properties(
         fractions = {f: m / total for f, m in anhydrous.items()}
         cp = _laliberte_call("heat capacity", T, fractions, rows) / 1000.0
         if not math.isfinite(cp):
-            why = "the thermo package lacks Laliberté heat-capacity data for " + ", ".join(anhydrous)
+            why = "no finite Laliberté heat capacity for " + ", ".join(anhydrous)
     if why is None:
         heat = PropertyValue(cp, U_REL_LALIBERTE_CP * cp, "J/(g*K)", LALIBERTE_MODEL)
     else:

@@ -42,7 +42,7 @@ def run_files(tmp_path_factory) -> list[Path]:
 
 
 def _cli(args: list[str]) -> subprocess.Popen:
-    return subprocess.Popen([sys.executable, "-m", "calc.cli.main", "analyze", *args], stdout=subprocess.PIPE,
+    return subprocess.Popen([sys.executable, "-m", "calc.cli", "analyze", *args], stdout=subprocess.PIPE,
                             stderr=subprocess.PIPE, text=True)
 
 
@@ -80,7 +80,7 @@ def test_monte_carlo_time_per_run(run_files):
 
 def test_memory_is_flat_over_10000_runs(run_files):
     args = ["--json", "--monte-carlo", "0", *map(str, run_files * (10_000 // len(run_files)))]
-    p = subprocess.Popen([sys.executable, "-m", "calc.cli.main", "analyze", *args], stdout=subprocess.PIPE,
+    p = subprocess.Popen([sys.executable, "-m", "calc.cli", "analyze", *args], stdout=subprocess.PIPE,
                          stderr=subprocess.DEVNULL, text=True)
     proc = psutil.Process(p.pid)
     samples = []  # (lines read, rss MB)

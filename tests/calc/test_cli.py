@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from calc.cli.main import cli
+from calc.cli.commands import cli
 from tests.calc.closed_form import probe_temperature, write_run
 
 P = dict(T_inf=295.15, k=1 / 3600, T0=294.9, t_m=240.0, D=-1.9, k_r=1 / 30, s=1 / 4)
@@ -97,7 +97,41 @@ def test_bad_csv_line_is_named(run_file):
 def test_console_script_runs_without_traceback(tmp_path):
     bad = tmp_path / "x.toml"
     bad.write_text("kind = 3\n")
-    proc = subprocess.run([sys.executable, "-m", "calc.cli.main", "analyze", str(bad)], capture_output=True, text=True)
+    proc = subprocess.run([sys.executable, "-m", "calc.cli", "analyze", str(bad)], capture_output=True, text=True)
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
     assert "kind" in proc.stderr
+
+
+def test_every_command_in_the_static_table_loads_and_its_help_matches():
+    # `cupcal --help` reads the one-line help from calc/cli/commands.py::COMMANDS without importing
+    # any command; the table must say what each command's own docstring says.
+    import importlib
+
+    import click
+
+    from calc.cli.commands import COMMANDS
+
+    for name, entry in COMMANDS.items():
+        module_name, _, attribute = entry.target.partition(":")
+        command = getattr(importlib.import_module(module_name), attribute)
+        assert isinstance(command, click.Command), name
+        assert command.name == name
+        first_line = (command.help or "").strip().splitlines()[0]
+        assert first_line == entry.help, name
+
+
+def test_help_imports_no_command():
+    code = (
+        "import sys\n"
+        "from calc.cli.commands import cli\n"
+        "try:\n"
+        "    cli(['--help'], prog_name='cupcal')\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "heavy = ('numpy', 'scipy', 'pint', 'flask', 'sqlalchemy', 'calc.analysis', 'webapp')\n"
+        "print('LOADED', ','.join(m for m in heavy if m in sys.modules))\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert "analyze" in out.stdout and "serve" in out.stdout
+    assert out.stdout.strip().splitlines()[-1] == "LOADED"

@@ -17,7 +17,7 @@ from click.testing import CliRunner
 from molmass import Formula
 
 from calc.analysis import analyze_run
-from calc.cli.main import cli
+from calc.cli.commands import cli
 from calc.errors import InputError
 from calc.plan import plan_run
 from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run

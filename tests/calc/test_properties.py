@@ -249,3 +249,41 @@ def test_property_value_is_frozen() -> None:
     v = PropertyValue(1.0, 0.1, "g/mL", "x")
     with pytest.raises(AttributeError):
         v.value = 2.0  # type: ignore[misc]
+
+
+# ------------------------------------------------------- Laliberté: ours against the thermo package
+# cupcal computes Laliberté's models itself from the papers' coefficient table (calc/refdata/laliberte.py),
+# so the calculation-only install needs neither thermo nor pandas. Check value: the thermo package's
+# implementation (thermo.electrochem, Chemical Engineering Design Library), an independent library from
+# the package registry. Water's c_p differs (IAPWS-95 here, a Chebyshev fit of it in thermo), so c_p
+# agrees to 2e-4 relative and density, where both use Laliberté's water equation, to 1e-9.
+@pytest.mark.parametrize("formula, cas", [("KCl", "7447-40-7"), ("NaCl", "7647-14-5"),
+                                          ("NH4NO3", "6484-52-2"), ("CaCl2", "10043-52-4"),
+                                          ("C12H22O11", "57-50-1")])
+@pytest.mark.parametrize("t_c, w", [(15.0, 0.01), (25.0, 0.05), (40.0, 0.15)])
+def test_laliberte_agrees_with_the_thermo_package(formula, cas, t_c, w):
+    electrochem = pytest.importorskip("thermo.electrochem")
+    from calc.refdata import laliberte
+    from calc.refdata.properties import _laliberte_row
+
+    row = _laliberte_row(formula)
+    assert row is not None and row.cas == cas
+    T = t_c + 273.15
+    rho = laliberte.density(t_c, {row: w})
+    assert rho == pytest.approx(electrochem.Laliberte_density(T, [w], [cas]), rel=1e-9)
+    if row.cp is None:  # the table has density coefficients only for sucrose
+        assert formula == "C12H22O11"
+        return
+    cp = laliberte.specific_heat(t_c, {row: w}, 1000.0 * water_specific_heat(T).value)
+    assert cp == pytest.approx(electrochem.Laliberte_heat_capacity(T, [w], [cas]), rel=2e-4)
+
+
+def test_the_calculation_library_needs_neither_thermo_nor_pandas():
+    import subprocess
+    import sys
+
+    code = ("import sys\nfrom calc.refdata.properties import solution_properties\n"
+            "solution_properties({'KCl': 3.7}, 100.0, 298.15)\n"
+            "print(','.join(m for m in ('thermo', 'chemicals', 'pandas') if m in sys.modules))\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""

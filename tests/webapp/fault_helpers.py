@@ -35,7 +35,7 @@ def env_for(url: str) -> dict[str, str]:
 
 def cupcal(url: str, *args: str, timeout: float = 180) -> subprocess.CompletedProcess[str]:
     """Run ``cupcal ARGS`` to the end and return what it did."""
-    return subprocess.run([sys.executable, "-m", "calc.cli.main", *args], env=env_for(url), cwd=ROOT,
+    return subprocess.run([sys.executable, "-m", "calc.cli", *args], env=env_for(url), cwd=ROOT,
                           capture_output=True, text=True, timeout=timeout)
 
 

@@ -16,7 +16,7 @@ import pytest
 import sqlalchemy as sa
 from click.testing import CliRunner
 
-from calc.cli.main import cli
+from calc.cli.commands import cli
 from tests.webapp.conftest import FAST_HASH
 from tests.webapp.conftest import create_database
 from tests.webapp.conftest import demo_files

@@ -9,7 +9,7 @@ import pytest
 import sqlalchemy as sa
 from click.testing import CliRunner
 
-from calc.cli.main import cli
+from calc.cli.commands import cli
 
 
 @pytest.fixture
@@ -97,7 +97,7 @@ def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_pa
 
     port = free_port()
     log = (tmp_path / "serve.log").open("wb")
-    proc = subprocess.Popen([sys.executable, "-m", "calc.cli.main", "serve", "--no-demo", "--workers", "2",
+    proc = subprocess.Popen([sys.executable, "-m", "calc.cli", "serve", "--no-demo", "--workers", "2",
                              "--port", str(port)], env=env_for(env), cwd=ROOT, stdout=log, stderr=log,
                             start_new_session=True)
     try:

@@ -35,6 +35,9 @@ from tests.webapp.fault_helpers import start_server
 from tests.webapp.fault_helpers import wait_for_runs
 from tests.webapp.fault_helpers import write_runs
 
+# kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
+pytestmark = pytest.mark.slow
+
 N_RUNS = 30
 
 
@@ -49,7 +52,7 @@ def test_cli_killed_mid_import_loses_nothing_and_reimport_completes(
     folder = write_runs(tmp_path / "runs", N_RUNS)
     stored = kills = 0
     for extra in (2, 3, 5):  # three kills, each after a few more runs have been stored
-        proc = subprocess.Popen([sys.executable, "-m", "calc.cli.main", *import_args(folder)], env=env_for(database_url),
+        proc = subprocess.Popen([sys.executable, "-m", "calc.cli", *import_args(folder)], env=env_for(database_url),
                                 cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                                 start_new_session=True)
         wait_for_runs(database_url, proc, stored + extra)

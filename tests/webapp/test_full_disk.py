@@ -29,6 +29,9 @@ from tests.webapp.fault_helpers import outcomes
 from tests.webapp.fault_helpers import scalar
 from tests.webapp.fault_helpers import write_runs
 
+# kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
+pytestmark = pytest.mark.slow
+
 DISK_BYTES = 160 * 1024 * 1024  # room for a PostgreSQL server's files (about 60 MiB) and the runs
 
 

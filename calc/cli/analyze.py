@@ -1,4 +1,4 @@
-"""The ``cupcal`` command line: a thin shell around :mod:`calc.analysis`.
+"""``cupcal analyze`` and ``cupcal methods``: a thin shell around :mod:`calc.analysis`.
 
 Exit status: 0 when every input was analysed, 2 when any input failed or the
 command was used wrongly. Errors are one line per problem, never a traceback.
@@ -8,66 +8,16 @@ from __future__ import annotations
 
 import json
 import sys
-from typing import Any
 
 import click
 
-from calc import __version__
 from calc.deltat.methods import DEFAULT_METHOD, METHODS
 from calc.errors import CupcalError
 
-__all__ = ["main", "cli"]
+__all__ = ["analyze", "methods"]
 
 
-class _Group(click.Group):
-    """The top-level group: built-in commands plus plugin commands found lazily.
-
-    Other packages (the web notebook) add commands through the ``cupcal.commands``
-    entry-point group; they are imported only when one of them is invoked or listed,
-    so ``calc`` itself never imports them.
-    """
-
-    def _plugins(self) -> dict[str, Any]:
-        from importlib.metadata import entry_points
-
-        return {ep.name: ep for ep in entry_points(group="cupcal.commands")}
-
-    def list_commands(self, ctx: click.Context) -> list[str]:
-        return sorted(set(super().list_commands(ctx)) | set(self._plugins()))
-
-    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
-        cmd = super().get_command(ctx, name)
-        if cmd is not None:
-            return cmd
-        ep = self._plugins().get(name)
-        if ep is None:
-            return None
-        try:
-            return ep.load()
-        except ImportError as exc:  # a plugin whose package is missing or broken
-            click.echo(f"cupcal: the '{name}' command is unavailable ({exc})", err=True)
-            return None
-
-    def invoke(self, ctx: click.Context) -> Any:
-        try:
-            return super().invoke(ctx)
-        except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
-            raise
-        except CupcalError as exc:
-            click.echo(f"cupcal: {exc}", err=True)
-            ctx.exit(2)
-        except Exception as exc:  # never show a traceback to a user
-            click.echo(f"cupcal: internal error ({exc.__class__.__name__}: {exc})", err=True)
-            ctx.exit(2)
-
-
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(__version__, prog_name="cupcal")
-def cli() -> None:
-    """Coffee-cup solution calorimetry with honest measurement uncertainty."""
-
-
-@cli.command()
+@click.command()
 @click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
 @click.option(
     "--method",
@@ -126,7 +76,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
         sys.exit(2)
 
 
-@cli.command()
+@click.command()
 def methods() -> None:
     """List the corrected-ΔT methods."""
     from calc.deltat.methods import METHOD_TERMS
@@ -135,26 +85,3 @@ def methods() -> None:
         mark = " (default)" if name == DEFAULT_METHOD else ""
         doc = (METHODS[name].__doc__ or "").strip().splitlines()
         click.echo(f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)")
-
-
-def _register_optional() -> None:
-    try:
-        from calc.cli.hess import hess_command as hess
-    except ImportError:  # reference data not installed
-        return
-    cli.add_command(hess)
-    from calc.cli.plan import plan_command
-
-    cli.add_command(plan_command)
-
-
-_register_optional()
-
-
-def main() -> None:
-    """Run the ``cupcal`` command line."""
-    cli(prog_name="cupcal")
-
-
-if __name__ == "__main__":  # pragma: no cover
-    main()

@@ -1,0 +1,126 @@
+"""The ``cupcal`` command group: a static table of commands, each imported only when it runs.
+
+``cupcal --help`` must answer fast, so listing the commands imports nothing but click: each entry
+of :data:`COMMANDS` names where its command lives and its one-line help. The web notebook's
+commands are listed here by name only (calc never imports the web layer); they load when invoked,
+and say which extra to install when the notebook is not installed (``pip install 'cupcal[web]'``).
+Commands of other packages can still be added through the ``cupcal.commands`` entry-point group.
+
+Exit status: 0 when the command succeeded, 2 when it failed or was used wrongly. Errors are one line
+per problem, never a traceback.
+"""
+
+from __future__ import annotations
+
+import importlib
+import importlib.util
+from typing import Any, NamedTuple
+
+import click
+
+from calc.errors import CupcalError
+from calc import __version__
+
+__all__ = ["COMMANDS", "cli", "main"]
+
+
+class CommandEntry(NamedTuple):
+    """Where a command lives (``module:attribute``) and its one-line help."""
+
+    target: str
+    help: str
+
+
+#: Every built-in command: name → where it lives and its one-line help (kept in step with the
+#: commands' own docstrings by tests/calc/test_cli.py).
+COMMANDS: dict[str, CommandEntry] = {
+    "analyze": CommandEntry("calc.cli.analyze:analyze",
+                            "Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."),
+    "methods": CommandEntry("calc.cli.analyze:methods", "List the corrected-ΔT methods."),
+    "hess": CommandEntry("calc.cli.hess:hess_command",
+                         "Compute the standard reaction enthalpy of EQUATION from the ΔfH° table."),
+    "plan": CommandEntry("calc.cli.plan:plan_command",
+                         "Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts."),
+    "serve": CommandEntry("webapp.commands:serve",
+                          "Apply migrations, load the demo into an empty database, and serve the notebook."),
+    "db": CommandEntry("webapp.commands:db", "Manage the notebook's database (Alembic migrations)."),
+    "load-demo": CommandEntry("webapp.commands:load_demo_command",
+                              "Load the invented demo lab into an empty database (after `cupcal db upgrade`)."),
+    "import": CommandEntry("webapp.commands:import_command",
+                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv)."),
+    "backup": CommandEntry("webapp.commands:backup_command",
+                           "Back up the database to the file OUT (safe while the notebook is serving)."),
+    "restore": CommandEntry("webapp.commands:restore_command",
+                            "Restore the database from IN, a file made by `cupcal backup`."),
+    "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries."),
+}
+
+
+def _available(target: str) -> bool:
+    package = target.split(".", 1)[0]
+    return package == "calc" or importlib.util.find_spec(package) is not None
+
+
+def _load(name: str, target: str) -> click.Command | None:
+    module_name, _, attribute = target.partition(":")
+    try:
+        command = getattr(importlib.import_module(module_name), attribute)
+    except ImportError as exc:
+        extra = " (install 'cupcal[web]')" if module_name.startswith("webapp") else ""
+        click.echo(f"cupcal: the '{name}' command is unavailable{extra}: {exc}", err=True)
+        return None
+    return command if isinstance(command, click.Command) else None
+
+
+class LazyGroup(click.Group):
+    """The top-level group: the static table first, then the ``cupcal.commands`` entry points."""
+
+    def _plugins(self) -> dict[str, str]:
+        from importlib.metadata import entry_points
+
+        return {ep.name: ep.value for ep in entry_points(group="cupcal.commands") if ep.name not in COMMANDS}
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        names = {name for name, entry in COMMANDS.items() if _available(entry.target)}
+        return sorted(names | set(self._plugins()))
+
+    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        entry = COMMANDS.get(name)
+        target = entry.target if entry is not None else self._plugins().get(name)
+        return _load(name, target) if target else None
+
+    def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
+        """List every command with its one-line help from the table, importing none of them."""
+        plugins = self._plugins()
+        rows = [(name, entry.help) for name, entry in COMMANDS.items() if _available(entry.target)]
+        rows += [(name, f"(from {target.split(':')[0]})") for name, target in plugins.items()]
+        if rows:
+            with formatter.section("Commands"):
+                formatter.write_dl(sorted(rows))
+
+    def invoke(self, ctx: click.Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
+            raise
+        except CupcalError as exc:
+            click.echo(f"cupcal: {exc}", err=True)
+            ctx.exit(2)
+        except Exception as exc:  # never show a traceback to a user
+            click.echo(f"cupcal: internal error ({exc.__class__.__name__}: {exc})", err=True)
+            ctx.exit(2)
+
+
+@click.group(cls=LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="cupcal")
+def cli() -> None:
+    """Coffee-cup solution calorimetry with honest measurement uncertainty."""
+
+
+def main() -> None:
+    """Run the ``cupcal`` command line."""
+    cli(prog_name="cupcal")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()
