@@ -9,7 +9,7 @@ Methods (name → function), registered in :data:`METHODS`:
 ``regnault-pfaundler`` (default)
     Newtonian Regnault–Pfaundler: one Newtonian drift law dT/dt = g(T) fitted
     jointly to the fore and after periods; ΔT = T(t_f) − T(t_i) − ∫ g(T) dt over
-    the main period, the integral taken on the readings (SCIENCE §1.c, §8).
+    the main period, the integral taken on the readings (docs/methods.md §2.3).
     Two-solution runs take the drift law from the after period alone and start
     from the fore line's value at the mixing time.
 ``linear-extrapolation``
@@ -50,7 +50,7 @@ __all__ = [
 
 #: Relative half-width of the rectangular "method" term of each method (fraction of |ΔT|).
 #: Set from the trueness benchmark (tests/benchmarks/test_trueness.py: near noise-free simulated
-#: runs of all five kinds over the parameter ranges of SCIENCE §6.2): the largest 90th-percentile
+#: runs of all five kinds over the parameter ranges of docs/methods.md §7.2): the largest 90th-percentile
 #: error of the method over the kinds, rounded up (regnault-pfaundler: 0.037 % → 0.05 %). Measured 2026-12-02: regnault-pfaundler 0.037 %,
 #: model-fit 0.32 % (heater pulses excluded: the model assumes first-order release and is flagged
 #: there), equal-area 1.4 %, linear-extrapolation 2.5 %, naive 10.6 %.
@@ -244,7 +244,7 @@ def _quad_form(g: np.ndarray, cov: np.ndarray) -> float:
 
 
 #: Longest drift window used by the straight-line methods, s. Straight lines fitted to
-#: long windows of an exponential drift are biased (SCIENCE §1.a–1.b); 5 minutes next to
+#: long windows of an exponential drift are biased (docs/methods.md §2.1–2.2); 5 minutes next to
 #: the main period is the usual advice.
 LINE_WINDOW_MAX = 300.0
 

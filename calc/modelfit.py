@@ -1,6 +1,6 @@
 """ΔT method ``model-fit``: least squares on an explicit heat-exchange model.
 
-Model (SCIENCE §1.d): Newtonian exchange with rate k towards T∞, a first-order
+Model (docs/methods.md §2.4): Newtonian exchange with rate k towards T∞, a first-order
 release of the total adiabatic change D with rate k_r, and a first-order probe
 with rate s. With u = t − t_m the probe reads
 
