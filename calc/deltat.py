@@ -13,14 +13,14 @@ Methods (name → function), registered in :data:`METHODS`:
     Two-solution runs take the drift law from the after period alone and start
     from the fore line's value at the mixing time.
 ``linear-extrapolation``
-    Straight fore and after drift lines extrapolated to the mixing time (§1.a).
+    Straight fore and after drift lines extrapolated to the mixing time (docs/methods.md §2.1).
 ``equal-area``
-    Fore and after lines evaluated at the equal-area time t_x = t_f − ∫F dt (§1.b).
+    Fore and after lines evaluated at the equal-area time t_x = t_f − ∫F dt (docs/methods.md §2.2).
 ``model-fit``
     Least-squares fit of an explicit heat-exchange model (Newtonian exchange,
-    first-order release, first-order probe lag) to all readings (§1.d).
+    first-order release, first-order probe lag) to all readings (docs/methods.md §2.4).
 ``naive``
-    Extreme reading minus the last fore reading (§1.e). Biased; for comparison only.
+    Extreme reading minus the last fore reading (docs/methods.md §2.5). Biased; for comparison only.
 
 To add a method: write ``def _my_method(log: Log) -> DeltaT`` and register it
 with :func:`register_method`.

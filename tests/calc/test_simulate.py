@@ -88,7 +88,7 @@ def test_first_order_release_closed_form_matches_ode() -> None:
     assert model is not None
     k0, s = model.g_before / model.c_before, 1.0 / model.tau_s
     t_inf = model.t_env + model.p_stir / model.g_before  # G is the same before and after for a solid
-    # fore-period (§1.d): T = T∞ + (T0 − T∞) e^{−kt}, probe on its steady track s/(s−k)
+    # fore-period (docs/methods.md §2.4): T = T∞ + (T0 − T∞) e^{−kt}, probe on its steady track s/(s−k)
     t_start = t_inf + (model.t_initial - t_inf) * math.exp(-k0 * model.t_m)
     ts_start = t_inf + (model.t_initial - t_inf) * s / (s - k0) * math.exp(-k0 * model.t_m)
     u = sim.time_s[sim.time_s >= model.t_m] - model.t_m
