@@ -34,7 +34,7 @@ OUTPUT_UNITS = {
     "calorimeter_heat_capacity": "J/K",
 }
 
-#: Plausible calorimeter heat capacities of a coffee-cup calorimeter, J/K (SCIENCE §2.2–2.3;
+#: Plausible calorimeter heat capacities of a coffee-cup calorimeter, J/K (docs/methods.md §3.2–3.3;
 #: common practice, no source): outside this range a calibration is flagged.
 PLAUSIBLE_C_CAL = (0.0, 100.0)
 

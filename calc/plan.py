@@ -62,7 +62,7 @@ RESOLUTION_MULTIPLE = 20.0
 HOT_RISE_K = 10.0
 #: After-period length the analysis advises (it warns below 120 s; 5 minutes are advised).
 AFTER_ADVISED_S = 300.0
-#: Typical release time constants (SCIENCE.md §6.2): salts dissolve in 20–120 s, a poured
+#: Typical release time constants (docs/methods.md §7.2): salts dissolve in 20–120 s, a poured
 #: neutralization mixes in 2–5 s.
 DEFAULT_RELEASE_S = {"dissolution": 60.0, "neutralization": 5.0}
 _SMOOTHING_S = 15.0

@@ -3,7 +3,7 @@
 These are the building blocks of every corrected-temperature-change method.
 All functions take plain float arrays (seconds, kelvin) and return small
 dataclasses with the fitted parameters and their covariance, already inflated
-for autocorrelated residuals (SCIENCE §1.f: AR(1) inflation (1+ρ)/(1−ρ)).
+for autocorrelated residuals (docs/methods.md §2.6: AR(1) inflation (1+ρ)/(1−ρ)).
 """
 
 from __future__ import annotations
@@ -278,7 +278,7 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0)
     """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k).
 
     Used for the after period of two-solution runs, whose heat-exchange constant
-    differs from the fore period's (SCIENCE §1.c, two-solution caveat).
+    differs from the fore period's (docs/methods.md §2.3, two-solution caveat).
     """
     x = t - t_f
 

@@ -9,18 +9,18 @@ Methods (name → function), registered in :data:`METHODS`:
 ``regnault-pfaundler`` (default)
     Newtonian Regnault–Pfaundler: one Newtonian drift law dT/dt = g(T) fitted
     jointly to the fore and after periods; ΔT = T(t_f) − T(t_i) − ∫ g(T) dt over
-    the main period, the integral taken on the readings (SCIENCE §1.c, §8).
+    the main period, the integral taken on the readings (docs/methods.md §2.3).
     Two-solution runs take the drift law from the after period alone and start
     from the fore line's value at the mixing time.
 ``linear-extrapolation``
-    Straight fore and after drift lines extrapolated to the mixing time (§1.a).
+    Straight fore and after drift lines extrapolated to the mixing time (docs/methods.md §2.1).
 ``equal-area``
-    Fore and after lines evaluated at the equal-area time t_x = t_f − ∫F dt (§1.b).
+    Fore and after lines evaluated at the equal-area time t_x = t_f − ∫F dt (docs/methods.md §2.2).
 ``model-fit``
     Least-squares fit of an explicit heat-exchange model (Newtonian exchange,
-    first-order release, first-order probe lag) to all readings (§1.d).
+    first-order release, first-order probe lag) to all readings (docs/methods.md §2.4).
 ``naive``
-    Extreme reading minus the last fore reading (§1.e). Biased; for comparison only.
+    Extreme reading minus the last fore reading (docs/methods.md §2.5). Biased; for comparison only.
 
 To add a method: write ``def _my_method(log: Log) -> DeltaT`` and register it
 with :func:`register_method`.
@@ -50,7 +50,7 @@ __all__ = [
 
 #: Relative half-width of the rectangular "method" term of each method (fraction of |ΔT|).
 #: Set from the trueness benchmark (tests/benchmarks/test_trueness.py: near noise-free simulated
-#: runs of all five kinds over the parameter ranges of SCIENCE §6.2): the largest 90th-percentile
+#: runs of all five kinds over the parameter ranges of docs/methods.md §7.2): the largest 90th-percentile
 #: error of the method over the kinds, rounded up (regnault-pfaundler: 0.037 % → 0.05 %). Measured 2026-12-02: regnault-pfaundler 0.037 %,
 #: model-fit 0.32 % (heater pulses excluded: the model assumes first-order release and is flagged
 #: there), equal-area 1.4 %, linear-extrapolation 2.5 %, naive 10.6 %.
@@ -244,7 +244,7 @@ def _quad_form(g: np.ndarray, cov: np.ndarray) -> float:
 
 
 #: Longest drift window used by the straight-line methods, s. Straight lines fitted to
-#: long windows of an exponential drift are biased (SCIENCE §1.a–1.b); 5 minutes next to
+#: long windows of an exponential drift are biased (docs/methods.md §2.1–2.2); 5 minutes next to
 #: the main period is the usual advice.
 LINE_WINDOW_MAX = 300.0
 

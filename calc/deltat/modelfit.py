@@ -1,6 +1,6 @@
 """ΔT method ``model-fit``: least squares on an explicit heat-exchange model.
 
-Model (SCIENCE §1.d): Newtonian exchange with rate k towards T∞, a first-order
+Model (docs/methods.md §2.4): Newtonian exchange with rate k towards T∞, a first-order
 release of the total adiabatic change D with rate k_r, and a first-order probe
 with rate s. With u = t − t_m the probe reads
 
@@ -30,7 +30,7 @@ __all__ = ["probe_reading", "model_fit"]
 
 
 def probe_reading(u: np.ndarray, T_inf: float, k: float, T_m: float, D: float, k_r: float, s: float) -> np.ndarray:
-    """Return the probe reading at times ``u`` after mixing (closed form, §1.d)."""
+    """Return the probe reading at times ``u`` after mixing (closed form, docs/methods.md §2.4)."""
     if abs(k_r - k) < 1e-12:
         k_r = k + 1e-12
     if abs(s - k_r) < 1e-9 * s:

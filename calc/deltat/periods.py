@@ -4,7 +4,7 @@ The mixing time (start of the main period) is taken from the run file when it is
 given, otherwise found where the readings leave the fore-period drift line. The
 end of the main period is found from the running corrected temperature change
 D(t) = T(t) − T(t_m) − ∫ g(T) dt, which rises like the heat release itself and is
-flat once release and probe lag are over (SCIENCE §1.c: the after period must
+flat once release and probe lag are over (docs/methods.md §2.3: the after period must
 start once the release rate is ≪ the drift, about 8–10 release time constants).
 """
 

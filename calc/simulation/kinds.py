@@ -175,7 +175,7 @@ def _mixture(ctx: RunContext, cp: float) -> tuple[float, dict[str, str]]:
 
 
 def _t_mix(c_a: float, t_a: float, c_b: float, t_b: float) -> float:
-    """Return the adiabatic mixing temperature of SCIENCE.md §1.c(ii) (c_a includes C_cal)."""
+    """Return the adiabatic mixing temperature of docs/methods.md §2.3(ii) (c_a includes C_cal)."""
     return (c_a * t_a + c_b * t_b) / (c_a + c_b)
 
 

@@ -1,8 +1,8 @@
 """Hold the lumped one-node cup of the simulator, its closed form and the probe's readings.
 
-:class:`LumpedModel` is the model of SCIENCE.md §6.1, solved exactly piece by piece (matrix
+:class:`LumpedModel` is the model of docs/methods.md §7.1, solved exactly piece by piece (matrix
 exponentials) or, as an independent check, with ``scipy.integrate.solve_ivp``;
-:func:`first_order_release_curve` is the closed form of SCIENCE.md §1.d; :func:`ar1_noise` and
+:func:`first_order_release_curve` is the closed form of docs/methods.md §2.4; :func:`ar1_noise` and
 :func:`read_probe` turn probe temperatures into noisy, quantised readings. The equations and the
 assumptions are written out once, in :mod:`calc.simulation.simulator`.
 """
@@ -193,7 +193,7 @@ class LumpedModel:
 
 def first_order_release_curve(u: np.ndarray, *, t_inf: float, k: float, t_start: float, delta_t_ad: float,
                               tau_r: float, tau_s: float, probe_start: float) -> tuple[np.ndarray, np.ndarray]:
-    """Return (T, Ts) after t_m from the closed form of SCIENCE.md §1.d (u = t − t_m ≥ 0, k ≠ 1/τ_r ≠ 1/τ_s)."""
+    """Return (T, Ts) after t_m from the closed form of docs/methods.md §2.4 (u = t − t_m ≥ 0, k ≠ 1/τ_r ≠ 1/τ_s)."""
     u = np.asarray(u, dtype=float)
     kr, s = 1 / tau_r, 1 / tau_s
     a2 = -delta_t_ad * kr / (kr - k)

@@ -1,4 +1,4 @@
-"""Draw simulated runs of every kind with parameters from the ranges of SCIENCE.md §6.2."""
+"""Draw simulated runs of every kind with parameters from the ranges of docs/methods.md §7.2."""
 
 from __future__ import annotations
 
@@ -17,12 +17,12 @@ from calc.simulation.run import SimulatedRun
 
 __all__ = ["random_scenario"]
 
-_SALTS = {"KCl": 17.22, "NH4NO3": 25.7, "NH4Cl": 14.8, "NaOH": -44.5, "CaCl2": -81.3}  # kJ/mol, SCIENCE.md §6.2
+_SALTS = {"KCl": 17.22, "NH4NO3": 25.7, "NH4Cl": 14.8, "NaOH": -44.5, "CaCl2": -81.3}  # kJ/mol, docs/methods.md §7.2
 
 
 def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: bool = True,
                     perturb_inputs: bool | None = None, release: str | None = None) -> SimulatedRun:
-    """Simulate one run of ``kind`` with parameters drawn from the ranges of SCIENCE.md §6.2.
+    """Simulate one run of ``kind`` with parameters drawn from the ranges of docs/methods.md §7.2.
 
     ``noisy=False`` gives noise-free readings at 0.0001 K resolution; ``perturb_inputs`` defaults to
     ``noisy``; ``release`` (dissolution, reaction) defaults to a random choice of first-order (70 %) and

@@ -1,6 +1,6 @@
 """Simulate coffee-cup calorimeter runs whose true answer is known.
 
-The model is the lumped one-node cup of SCIENCE.md §6.1::
+The model is the lumped one-node cup of docs/methods.md §7.1::
 
     C(t) dT/dt = G (T_env + β t − T) + P_stir + P_release(t) + P_heater(t)
     dTs/dt     = (T − Ts) / τ_s                        (probe lag)
@@ -11,7 +11,7 @@ the solution of a linear system (constant, ramp, exponential, polynomial), so th
 ``[T, Ts, 1, t, e^{−(t−t_m)/τ_r}, 1 − (t−t_m)/t_d, (1 − (t−t_m)/t_d)²]`` advances by a matrix
 exponential. ``LumpedModel.solve(..., method="ode")`` integrates the same equations with
 ``scipy.integrate.solve_ivp`` (max step ≤ min(τ_r, τ_s)/5, t_m and t_m + t_d as breakpoints) as an
-independent check, and ``first_order_release_curve`` is the closed form of SCIENCE.md §1.d.
+independent check, and ``first_order_release_curve`` is the closed form of docs/methods.md §2.4.
 
 Assumptions (stated once, here):
 
@@ -20,7 +20,7 @@ Assumptions (stated once, here):
   liquid kinds (neutralization, mixing calibration) G scales with the liquid volume as V^(2/3), so
   before mixing G_A = G_final (V_A/V_total)^(2/3). For the other kinds G stays constant.
 * A solid solute enters at the solution's temperature: C steps at t_m, T does not.
-* A second liquid mixes instantly at t_m: T jumps to T_mix of SCIENCE.md §1.c(ii); the reaction heat
+* A second liquid mixes instantly at t_m: T jumps to T_mix of docs/methods.md §2.3(ii); the reaction heat
   then follows the release model.
 * The run file states one specific heat capacity, that of the final solution ([mixture]); it also
   states every density. By default the simulator gives both liquids of a two-liquid run that same c_p

@@ -1,6 +1,6 @@
 """Control charts of check-standard runs, run rules and calibration due dates.
 
-An individuals chart (SCIENCE.md §5.2; ISO 7870-2): the centre line is the mean of a baseline
+An individuals chart (docs/methods.md §6.2; ISO 7870-2): the centre line is the mean of a baseline
 period of in-control results, and the standard deviation is estimated from the average moving
 range of consecutive results, ``σ̂ = MR̄/d₂`` with ``d₂ = 1.128`` for ranges of two. The limits
 are the centre ± 1, 2 and 3 σ̂; the moving-range chart's upper limit is ``D₄·MR̄`` with
@@ -54,7 +54,7 @@ D3 = math.sqrt(2.0) * float(sps.halfnorm.std())
 #: D₄ = 1 + 3 d₃/d₂: upper limit factor of the moving-range chart (≈ 3.267).
 D4 = 1.0 + 3.0 * D3 / D2
 
-#: In-control baseline points advised for the limits (SCIENCE.md §5.2).
+#: In-control baseline points advised for the limits (docs/methods.md §6.2).
 BASELINE_ADVISED = 20
 
 #: Rule identifiers and their meaning, in the order they are checked.

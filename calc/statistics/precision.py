@@ -2,7 +2,7 @@
 
 Everything here works on plain numbers in one unit (the caller's), so it serves ΔH values of a
 section, calorimeter heat capacities of a set of cups or any other repeated result. The formulas
-are those of SCIENCE.md §5.1, §5.3 and §5.4; critical values come from the t and F distributions
+are those of docs/methods.md §6.1, §6.3 and §6.4; critical values come from the t and F distributions
 of :mod:`scipy.stats`, never from typed tables:
 
 * Grubbs (two-sided, one suspect): ``G = max|x_i − x̄|/s``,
@@ -16,7 +16,7 @@ of :mod:`scipy.stats`, never from typed tables:
 * Cochran's C = s²_max/Σs_i², critical value ``1/(1+(p−1)/F)`` with F at α/p.
 * Algorithm A of ISO 13528 (robust mean and standard deviation).
 
-These tests *flag*; they never delete a result (SCIENCE.md §5.3, ISO 5725-2 practice).
+These tests *flag*; they never delete a result (docs/methods.md §6.3, ISO 5725-2 practice).
 """
 
 from __future__ import annotations
@@ -49,10 +49,10 @@ __all__ = [
 ]
 
 #: Factor from a precision standard deviation to the 95 % limit of the difference of two results
-#: (ISO 5725-6 uses 2.8 ≈ 1.96·√2; SCIENCE.md §5.4).
+#: (ISO 5725-6 uses 2.8 ≈ 1.96·√2; docs/methods.md §6.4).
 LIMIT_FACTOR = 2.8
 
-#: Algorithm A constants (ISO 13528 Annex C; SCIENCE.md §5.1): MAD → σ for normal data, the
+#: Algorithm A constants (ISO 13528 Annex C; docs/methods.md §6.1): MAD → σ for normal data, the
 #: winsorizing half-width in units of s*, and the correction of the SD of winsorized normal data.
 _MAD_FACTOR = 1.483
 _WINSOR = 1.5

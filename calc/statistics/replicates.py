@@ -1,7 +1,7 @@
 """Statistics of a series of repeat runs: mean, Type A uncertainty, shared Type B part, Birge ratio.
 
 A series is the same measurement repeated (a group's three runs of one practical, a week of
-check-standard runs on one calorimeter). Following SCIENCE.md §4.2 (GUM 4.2, G.2, G.4):
+check-standard runs on one calorimeter). Following docs/methods.md §5.2 (GUM 4.2, G.2, G.4):
 
 * Type A: ``x̄ = Σx_k/n``, ``s² = Σ(x_k − x̄)²/(n−1)``, ``u_A = s/√n`` with ``ν = n − 1`` and the
   Student-t 95 % interval ``x̄ ± t_{0.975,ν} u_A``.

@@ -1,7 +1,7 @@
 """Comparison of a result with a reference value (ISO 13528 E_n).
 
-Check values: ISO 13528 definitions (as summarised in SCIENCE.md 5.1), SCIENCE.md 2.3
-and 3.6, SRM 1655 (Kilday 1980, from memory).
+Check values: ISO 13528 definitions (as summarised in docs/methods.md §6.1), docs/methods.md §3.3
+and §4.6, SRM 1655 (Kilday 1980, from memory).
 """
 
 from __future__ import annotations
@@ -47,7 +47,7 @@ def test_like_for_like_has_no_notes() -> None:
 
 
 def test_temperature_difference_gives_the_kirchhoff_size() -> None:
-    # SCIENCE.md 2.3: ΔsolCp(KCl) ~ -0.15 to -0.17 kJ/(mol K), about 1 % per K, so a run
+    # docs/methods.md §3.3: ΔsolCp(KCl) ~ -0.15 to -0.17 kJ/(mol K), about 1 % per K, so a run
     # 4 K below 25 degC expects a value 0.60-0.68 kJ/mol higher.
     ref = solution_enthalpy("KCl")
     c = compare(17.9, 0.6, ref, molality=None, T_K=294.15)

@@ -66,7 +66,7 @@ def test_regnault_pfaundler_is_exact_for_newtonian_exchange(overrides):
     t_end = 300 + 14 / p["k_r"] + 300
     log = _log(p, t_end=t_end)
     dt = corrected_delta_t(log, "regnault-pfaundler")
-    # SCIENCE §1.c: |bias| ≤ 0.05 % under these assumptions
+    # docs/methods.md §2.3: |bias| ≤ 0.05 % under these assumptions
     assert dt.value == pytest.approx(p["D"], rel=5e-4)
 
 
@@ -80,7 +80,7 @@ def test_model_fit_recovers_release_and_probe_time_constants():
 
 def test_naive_matches_the_closed_form_peak_and_is_biased_low():
     # Start at the convergence temperature, no probe lag: the peak of the closed form is at
-    # t* = ln(k_r/k)/(k_r − k) with ΔT_max/ΔT_ad = k_r/(k_r−k)·(e^{−k t*} − e^{−k_r t*}) (SCIENCE §1.e).
+    # t* = ln(k_r/k)/(k_r − k) with ΔT_max/ΔT_ad = k_r/(k_r−k)·(e^{−k t*} − e^{−k_r t*}) (docs/methods.md §2.5).
     p = {**BASE, "T0": BASE["T_inf"], "s": 50.0, "k_r": 1 / 60}
     log = _log(p, dt=1.0, t_end=1800)
     k, kr = p["k"], p["k_r"]
@@ -92,7 +92,7 @@ def test_naive_matches_the_closed_form_peak_and_is_biased_low():
 
 
 def test_linear_extrapolation_bias_grows_with_release_time():
-    # SCIENCE §1.a: linear extrapolation to t_m is biased by about −(b_f − b_i)(τ_r + τ_s).
+    # docs/methods.md §2.1: linear extrapolation to t_m is biased by about −(b_f − b_i)(τ_r + τ_s).
     fast = corrected_delta_t(_log({**BASE, "k_r": 1 / 4}), "linear-extrapolation")
     slow = corrected_delta_t(_log({**BASE, "k_r": 1 / 90}, t_end=300 + 14 * 90 + 300), "linear-extrapolation")
     assert abs(fast.value - BASE["D"]) / BASE["D"] < 0.005
@@ -130,7 +130,7 @@ def test_two_solution_start_is_the_fore_level_at_mixing():
 
 
 def test_uncertainty_of_fit_matches_scatter_over_noise_realisations():
-    # The covariance-based u(ΔT) should match the spread of ΔT over noise draws (SCIENCE §1.f).
+    # The covariance-based u(ΔT) should match the spread of ΔT over noise draws (docs/methods.md §2.6).
     vals, us = [], []
     for seed in range(40):
         log = _log(BASE, noise=0.01, seed=seed)

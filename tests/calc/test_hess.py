@@ -1,7 +1,7 @@
 """Hess's law and the ``cupcal hess`` command.
 
-Check values: the NBS 1982 tables (Wagman et al.; values from memory), SCIENCE.md
-sections 2.3 and 3.5, and textbook-level facts marked as such.
+Check values: the NBS 1982 tables (Wagman et al.; values from memory), docs/methods.md
+§3.3 and §4.5, and textbook-level facts marked as such.
 """
 
 from __future__ import annotations
@@ -30,7 +30,7 @@ def test_calcium_chloride_dissolution() -> None:
 
 
 def test_neutralization_of_strong_acid_and_base() -> None:
-    # SCIENCE.md 2.3: -55.815 kJ/mol from CODATA key values (memory); NBS 1982 gives
+    # docs/methods.md §3.3: -55.815 kJ/mol from CODATA key values (memory); NBS 1982 gives
     # -55.836. Both within 2u of each other.
     r = hess("H+(aq) + OH-(aq) -> H2O(l)")
     assert r.value == pytest.approx(-55.836, abs=1e-9)
@@ -99,7 +99,7 @@ def test_malformed_equations_are_input_errors(bad: str) -> None:
 
 
 def test_kirchhoff_correction_of_neutralization() -> None:
-    # SCIENCE.md 3.5: with ΔrCp ≈ +0.215 kJ/(mol K), a run at 20 degC is about 1.1 kJ/mol
+    # docs/methods.md §4.5: with ΔrCp ≈ +0.215 kJ/(mol K), a run at 20 degC is about 1.1 kJ/mol
     # more exothermic than at 25 degC.
     r25 = hess("H+(aq) + OH-(aq) -> H2O(l)")
     r20 = hess("H+(aq) + OH-(aq) -> H2O(l)", 293.15)

@@ -55,7 +55,7 @@ def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
 def test_plan_predicts_simulated_dissolution_runs_analysed_end_to_end(tmp_path):
     # Tolerances: the true adiabatic ΔT of the simulator within 0.3 % (same heat capacities, so
     # only the model chain differs); the mean analysed ΔT within 1 % (the Regnault–Pfaundler bias
-    # is ≤ 0.05 %, SCIENCE §1.c); the mean stated u(ΔH) within 15 % (same GUM model; only the
+    # is ≤ 0.05 %, docs/methods.md §2.3); the mean stated u(ΔH) within 15 % (same GUM model; only the
     # predicted ΔT terms differ); the scatter of the 16 results within a factor 0.6–1.6 of the
     # predicted u (an SD from 16 values is itself uncertain by about 18 %, so ±2 SE).
     plan = _kcl_plan()
@@ -118,12 +118,12 @@ def test_plan_uses_the_heat_balance_and_the_reference_value():
     cp = plan.properties.values["mixture.specific_heat_capacity"][0]
     n = 3.7 / Formula("KCl").mass  # molar mass from the molmass package
     c_total = (100.0 * rho + 3.7) * cp + 15.0
-    # heat balance (SCIENCE.md §3.1): ΔH = −C_total ΔT / n
+    # heat balance (docs/methods.md §4.1): ΔH = −C_total ΔT / n
     assert plan.predicted_delta_t == pytest.approx(-n * plan.predicted_result * 1000 / c_total, rel=1e-9)
     # the calorimeter's line: ∂ΔH/∂C_cal · u(C_cal) = |ΔH| u(C_cal)/C_total
     line = next(b for b in plan.budget if b.name == "calorimeter.heat_capacity")
     assert line.contribution == pytest.approx(abs(plan.predicted_result) * 2.0 / c_total, rel=1e-6)
-    # KCl(s): +17.58 kJ/mol at 0.111 mol/kg and 25 °C (SCIENCE.md §6.2, from memory)
+    # KCl(s): +17.58 kJ/mol at 0.111 mol/kg and 25 °C (docs/methods.md §7.2, from memory)
     at_ref = plan_run("dissolution", formula="KCl", mass="0.8275 ± 0.0002 g", water_volume="100.0 ± 0.1 mL",
                       calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.001, temperature=298.15)
     assert at_ref.predicted_result == pytest.approx(17.58, abs=0.05)
@@ -142,7 +142,7 @@ def test_a_too_small_amount_gets_a_suggestion_that_simulation_confirms(tmp_path)
 
 
 def test_a_hot_dissolution_is_flagged_with_the_cautions():
-    # NaOH(s): ΔsolH about −44.5 kJ/mol (SCIENCE.md §6.2); GHS: H314, corrosive (from memory)
+    # NaOH(s): ΔsolH about −44.5 kJ/mol (docs/methods.md §7.2); GHS: H314, corrosive (from memory)
     plan = plan_run("dissolution", formula="NaOH", mass="10.00 ± 0.01 g", water_volume="100.0 ± 0.1 mL",
                     calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01, temperature=T_ROOM)
     assert plan.predicted_delta_t > 10.0

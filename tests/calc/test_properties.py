@@ -55,7 +55,7 @@ def test_water_density_at_300_K_matches_the_iapws95_check_state() -> None:
 @pytest.mark.parametrize(
     ("t_c", "rho_g_ml", "digits"),
     [
-        # Water densities at 0.101325 MPa quoted in SCIENCE.md section 3.2
+        # Water densities at 0.101325 MPa quoted in docs/methods.md §4.2
         # ("IAPWS-95; memory"), compared to the digits given.
         (20.0, 0.99821, 5),
         (25.0, 0.99705, 5),
@@ -69,7 +69,7 @@ def test_water_density_matches_quoted_values(t_c: float, rho_g_ml: float, digits
 
 
 def test_water_specific_heat_at_25_c() -> None:
-    # c_p(25 degC) = 4.1813 J/(g K) (SCIENCE.md section 3.3, IAPWS-95; memory); 4.184 is
+    # c_p(25 degC) = 4.1813 J/(g K) (docs/methods.md §4.3, IAPWS-95; memory); 4.184 is
     # the thermochemical calorie, not c_p.
     cp = water_specific_heat(298.15)
     assert cp.value == pytest.approx(4.1813, abs=5e-5)
@@ -136,7 +136,7 @@ def test_laliberte_density_matches_handbook_densities(solute: str, w: float, rho
 
 
 def test_laliberte_heat_capacity_of_half_molal_nacl() -> None:
-    # SCIENCE.md section 3.3 (estimate, memory): 0.5 mol/kg NaCl has c_p ~ 4.03 J/(g K)
+    # docs/methods.md §4.3 (estimate, memory): 0.5 mol/kg NaCl has c_p ~ 4.03 J/(g K)
     # at 25 degC (-3.6 % against water). M(NaCl) = 58.443 g/mol.
     _, cp = solution_properties({"NaCl": 0.5 * 58.443}, 1000.0, 298.15)
     assert cp.model.startswith("Laliberté")

@@ -290,7 +290,7 @@ def test_srm_1655_reproduced_from_infinite_dilution_and_phi_L() -> None:
 
 
 def test_tham_reference_per_mole() -> None:
-    # SCIENCE.md section 2.3: -245.76 J/g (Prosen & Kilday 1973); with M = 121.14 g/mol
+    # docs/methods.md §3.3: -245.76 J/g (Prosen & Kilday 1973); with M = 121.14 g/mol
     # that is -29.77 kJ/mol; ΔCp = 1.435 J/(g K) -> 0.174 kJ/(mol K) (section 3.5 table).
     tham = find_reference("reaction", formula="THAM")
     assert tham is not None
@@ -310,7 +310,7 @@ def test_certified_entries_have_value_molality_temperature_uncertainty() -> None
 
 
 def test_strong_acid_strong_base_reference() -> None:
-    # SCIENCE.md section 2.3: -55.815 kJ/mol from CODATA key values (memory). cupcal uses
+    # docs/methods.md §3.3: -55.815 kJ/mol from CODATA key values (memory). cupcal uses
     # NBS 1982 only (-285.830 - (-229.994) = -55.836); the two compilations agree within
     # the propagated uncertainty.
     ref = neutralization_reference("HCl", "NaOH")
@@ -325,7 +325,7 @@ def test_strong_acid_strong_base_reference() -> None:
 @pytest.mark.parametrize(
     ("acid", "base", "expected"),
     [
-        # Weak acid or base: ionization enthalpy enters (SCIENCE.md 3.4). Literature
+        # Weak acid or base: ionization enthalpy enters (docs/methods.md §4.4). Literature
         # values for ammonia + strong acid are about -52 kJ/mol and for acetic acid +
         # strong base about -56 kJ/mol (from memory).
         ("HCl", "NH3", -52.2),
@@ -349,7 +349,7 @@ def test_unknown_acid_has_no_neutralization_reference() -> None:
 
 def test_phi_L_tends_to_the_debye_huckel_limiting_law() -> None:
     # Debye-Hückel limiting law for a 1:1 electrolyte: φ_L -> A_H sqrt(m), with
-    # A_H ~ 1.99 kJ kg^1/2 mol^-3/2 at 25 degC (SCIENCE.md section 3.6, memory).
+    # A_H ~ 1.99 kJ kg^1/2 mol^-3/2 at 25 degC (docs/methods.md §4.6, memory).
     from calc.refdata.properties import debye_huckel_slopes
 
     _, a_h = debye_huckel_slopes(298.15)
@@ -360,7 +360,7 @@ def test_phi_L_tends_to_the_debye_huckel_limiting_law() -> None:
 
 
 def test_phi_L_magnitude_for_1_1_salts() -> None:
-    # SCIENCE.md section 3.6: for 1:1 salts at 0.1-1 mol/kg φ_L is a few tenths of a
+    # docs/methods.md §4.6: for 1:1 salts at 0.1-1 mol/kg φ_L is a few tenths of a
     # kJ/mol at most.
     for salt in ("NaCl", "KCl"):
         for m in (0.1, 0.5, 1.0):
@@ -369,7 +369,7 @@ def test_phi_L_magnitude_for_1_1_salts() -> None:
 
 
 def test_phi_L_of_an_acid_is_larger() -> None:
-    # SCIENCE.md section 3.6: φ_L is much larger for acids than for 1:1 salts.
+    # docs/methods.md §4.6: φ_L is much larger for acids than for 1:1 salts.
     hcl, _ = relative_apparent_molar_enthalpy("HCl", 1.0)
     nacl, _ = relative_apparent_molar_enthalpy("NaCl", 1.0)
     assert hcl > 0.6 and hcl > 3 * abs(nacl)

@@ -80,7 +80,7 @@ def test_instant_dissolution_rise_equals_q_over_c_and_molmass_amount() -> None:
 
 
 def test_first_order_release_closed_form_matches_ode() -> None:
-    # Closed form of SCIENCE.md §1.d (own derivation there) against scipy's DOP853 integrator
+    # Closed form of docs/methods.md §2.4 (own derivation there) against scipy's DOP853 integrator
     # (reference library); the brief asks for agreement to 1e-6 K.
     sim = simulate_dissolution(5, tau_r=20.0, tau_s=5.0, tau_h=1800.0, t_env_offset=1.2, p_stir_W=0.004,
                                **QUIET)
@@ -88,7 +88,7 @@ def test_first_order_release_closed_form_matches_ode() -> None:
     assert model is not None
     k0, s = model.g_before / model.c_before, 1.0 / model.tau_s
     t_inf = model.t_env + model.p_stir / model.g_before  # G is the same before and after for a solid
-    # fore-period (§1.d): T = T∞ + (T0 − T∞) e^{−kt}, probe on its steady track s/(s−k)
+    # fore-period (docs/methods.md §2.4): T = T∞ + (T0 − T∞) e^{−kt}, probe on its steady track s/(s−k)
     t_start = t_inf + (model.t_initial - t_inf) * math.exp(-k0 * model.t_m)
     ts_start = t_inf + (model.t_initial - t_inf) * s / (s - k0) * math.exp(-k0 * model.t_m)
     u = sim.time_s[sim.time_s >= model.t_m] - model.t_m
@@ -109,7 +109,7 @@ def test_first_order_release_closed_form_matches_ode() -> None:
 
 @pytest.mark.parametrize("case", ["first-order", "sphere", "heater", "neutralization"])
 def test_energy_balance_identity_gives_adiabatic_rise(case: str) -> None:
-    # ∫P dt = Q, and the isoperibol identity (SCIENCE.md §1.0, eq. 1.0; Newton's law, common practice)
+    # ∫P dt = Q, and the isoperibol identity (docs/methods.md §2.0, eq. 2.0; Newton's law, common practice)
     # ΔT_ad = T(t_f) − T_i − ∫ k (T∞ − T) dt on the noise-free contents temperature.
     common = {"tau_h": 2400.0, "t_env_offset": -0.8, "after_s": 700.0, **QUIET}
     if case == "heater":
@@ -173,7 +173,7 @@ def test_mixing_calibration_formula_recovers_c_cal() -> None:
 
 
 def test_peak_of_lag_free_first_order_release() -> None:
-    # SCIENCE.md §1.e (own derivation there): with T0 = T∞ the peak is at t* = ln(k_r/k)/(k_r − k) and
+    # docs/methods.md §2.5 (own derivation there): with T0 = T∞ the peak is at t* = ln(k_r/k)/(k_r − k) and
     # ΔT_max/ΔT_ad = k_r/(k_r − k) (e^{−k t*} − e^{−k_r t*}).
     k, kr = 1 / 3000.0, 1 / 60.0
     model = LumpedModel(t_initial=22.0, t_env=22.0, t_m=0.0, c_before=430.0, g_before=430.0 * k,

@@ -27,7 +27,7 @@ from calc.statistics.precision import (
 )
 
 # ISO 5725-2 (1994) Table 5, Grubbs' test critical values for one largest or one smallest
-# observation, upper 5 % and upper 1 % columns (from memory; also SCIENCE.md §5.3 for 5 %).
+# observation, upper 5 % and upper 1 % columns (from memory; also docs/methods.md §6.3 for 5 %).
 GRUBBS_5 = {3: 1.155, 4: 1.481, 5: 1.715, 6: 1.887, 7: 2.020, 8: 2.126, 9: 2.215, 10: 2.290}
 GRUBBS_1 = {3: 1.155, 4: 1.496, 5: 1.764, 6: 1.973, 7: 2.139, 8: 2.274, 9: 2.387, 10: 2.482}
 
@@ -42,7 +42,7 @@ def test_grubbs_critical_values_match_the_iso_5725_2_table(n):
 
 
 def test_grubbs_at_three_values_can_never_exceed_its_bound():
-    # SCIENCE.md §5.3: G ≤ (n−1)/√n, so the test is nearly powerless on triplicates
+    # docs/methods.md §6.3: G ≤ (n−1)/√n, so the test is nearly powerless on triplicates
     rng = np.random.default_rng(1)
     bound = 2 / math.sqrt(3)
     for _ in range(200):
@@ -179,7 +179,7 @@ def test_mandel_h_and_k_flag_the_odd_groups():
 
 
 def test_algorithm_a_constants_are_the_normal_consistency_factors():
-    # ISO 13528 Annex C constants (SCIENCE.md §5.1): 1.483 = 1/Φ⁻¹(0.75) turns a median absolute
+    # ISO 13528 Annex C constants (docs/methods.md §6.1): 1.483 = 1/Φ⁻¹(0.75) turns a median absolute
     # deviation into σ, and 1.134 = 1/√E[min(max(Z, −1.5), 1.5)²] undoes winsorizing at 1.5σ;
     # both computed here with scipy.stats.norm (the second is 1.1334; ISO prints 1.134).
     assert 1 / sps.norm.ppf(0.75) == pytest.approx(1.483, abs=5e-4)

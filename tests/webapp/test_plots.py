@@ -172,7 +172,7 @@ def _newton_law(curves: list[tuple[np.ndarray, np.ndarray]]) -> tuple[float, flo
 
 
 def _delta_t(a: Analysis, start: float, end: float, law_a: float, k: float, t_i: float, t_f: float) -> float:
-    """ΔT = T(t_f) − T(t_i) − ∫ g(T) dt, trapezoid on the readings (SCIENCE §1.c; common practice, no source)."""
+    """ΔT = T(t_f) − T(t_i) − ∫ g(T) dt, trapezoid on the readings (docs/methods.md §2.3; common practice, no source)."""
     t, y = a.readings.time_s, a.readings.temperature_K
     inside = (t > t_i) & (t < t_f)
     tt = np.concatenate([[t_i], t[inside], [t_f]])
