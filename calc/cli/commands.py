@@ -25,10 +25,12 @@ __all__ = ["COMMANDS", "cli", "main"]
 
 
 class CommandEntry(NamedTuple):
-    """Where a command lives (``module:attribute``) and its one-line help."""
+    """Where a command lives (``module:attribute``), its one-line help, and a module it needs."""
 
     target: str
     help: str
+    #: a module that must be importable for the command to work (the web notebook needs flask)
+    needs: str = ""
 
 
 #: Every built-in command: name → where it lives and its one-line help (kept in step with the
@@ -42,33 +44,32 @@ COMMANDS: dict[str, CommandEntry] = {
     "plan": CommandEntry("calc.cli.plan:plan_command",
                          "Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts."),
     "serve": CommandEntry("webapp.commands:serve",
-                          "Apply migrations, load the demo into an empty database, and serve the notebook."),
-    "db": CommandEntry("webapp.commands:db", "Manage the notebook's database (Alembic migrations)."),
+                          "Apply migrations, load the demo into an empty database, and serve the notebook.", needs="flask"),
+    "db": CommandEntry("webapp.commands:db", "Manage the notebook's database (Alembic migrations).", needs="flask"),
     "load-demo": CommandEntry("webapp.commands:load_demo_command",
-                              "Load the invented demo lab into an empty database (after `cupcal db upgrade`)."),
+                              "Load the invented demo lab into an empty database (after `cupcal db upgrade`).", needs="flask"),
     "import": CommandEntry("webapp.commands:import_command",
-                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv)."),
+                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv).", needs="flask"),
     "backup": CommandEntry("webapp.commands:backup_command",
-                           "Back up the database to the file OUT (safe while the notebook is serving)."),
+                           "Back up the database to the file OUT (safe while the notebook is serving).", needs="flask"),
     "restore": CommandEntry("webapp.commands:restore_command",
-                            "Restore the database from IN, a file made by `cupcal backup`."),
-    "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries."),
+                            "Restore the database from IN, a file made by `cupcal backup`.", needs="flask"),
+    "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries.", needs="flask"),
 }
 
 
-def _available(target: str) -> bool:
-    package = target.split(".", 1)[0]
-    return package == "calc" or importlib.util.find_spec(package) is not None
+def _available(entry: CommandEntry) -> bool:
+    return not entry.needs or importlib.util.find_spec(entry.needs) is not None
 
 
-def _load(name: str, target: str) -> click.Command | None:
+def _load(ctx: click.Context, name: str, target: str) -> click.Command | None:
     module_name, _, attribute = target.partition(":")
     try:
         command = getattr(importlib.import_module(module_name), attribute)
     except ImportError as exc:
         extra = " (install 'cupcal[web]')" if module_name.startswith("webapp") else ""
         click.echo(f"cupcal: the '{name}' command is unavailable{extra}: {exc}", err=True)
-        return None
+        ctx.exit(2)
     return command if isinstance(command, click.Command) else None
 
 
@@ -81,18 +82,18 @@ class LazyGroup(click.Group):
         return {ep.name: ep.value for ep in entry_points(group="cupcal.commands") if ep.name not in COMMANDS}
 
     def list_commands(self, ctx: click.Context) -> list[str]:
-        names = {name for name, entry in COMMANDS.items() if _available(entry.target)}
+        names = {name for name, entry in COMMANDS.items() if _available(entry)}
         return sorted(names | set(self._plugins()))
 
     def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
         entry = COMMANDS.get(name)
         target = entry.target if entry is not None else self._plugins().get(name)
-        return _load(name, target) if target else None
+        return _load(ctx, name, target) if target else None
 
     def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
         """List every command with its one-line help from the table, importing none of them."""
         plugins = self._plugins()
-        rows = [(name, entry.help) for name, entry in COMMANDS.items() if _available(entry.target)]
+        rows = [(name, entry.help) for name, entry in COMMANDS.items() if _available(entry)]
         rows += [(name, f"(from {target.split(':')[0]})") for name, target in plugins.items()]
         if rows:
             with formatter.section("Commands"):
