@@ -14,7 +14,8 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
-from calc.refdata.properties import R_GAS, debye_huckel_slopes, element_composition
+from calc.refdata.formula import element_composition
+from calc.refdata.properties import R_GAS, debye_huckel_slopes
 from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
 

@@ -53,7 +53,7 @@ def _data() -> tuple[dict, dict]:
 
 
 def _key(formula: str) -> tuple | None:
-    from calc.refdata.properties import element_composition
+    from calc.refdata.formula import element_composition
 
     text = formula.strip()
     if text.endswith(")") and "(" in text:
@@ -81,7 +81,7 @@ def _index() -> dict[object, str]:
 
 def _lookup(formula: str) -> tuple[str | None, str]:
     """Return (data key, remark) for a formula, or (None, '')."""
-    from calc.refdata.properties import split_hydrate
+    from calc.refdata.formula import split_hydrate
 
     index = _index()
     text = formula.strip()

@@ -45,6 +45,7 @@ from functools import lru_cache
 
 from calc.errors import InputError
 from calc.refdata import laliberte
+from calc.refdata.formula import element_composition, molar_mass, split_hydrate
 
 __all__ = [
     "PropertyValue",
@@ -53,8 +54,6 @@ __all__ = [
     "water_dielectric_constant",
     "debye_huckel_slopes",
     "solution_properties",
-    "split_hydrate",
-    "element_composition",
     "T_MIN_K",
     "T_MAX_K",
 ]
@@ -243,22 +242,6 @@ def _dh_slopes(T: float) -> tuple[float, float]:
 # ----------------------------------------------------------------------- Laliberté
 
 
-@lru_cache(maxsize=4096)
-def element_composition(formula: str) -> tuple[tuple[str, int], ...]:
-    """Return the element composition of a neutral formula as a sorted tuple.
-
-    Hydrate dots (``.``, ``·``, ``*``) are allowed. Raises InputError if unreadable.
-    """
-    import molmass
-
-    text = formula.replace("·", ".").replace("*", ".")
-    try:
-        comp = molmass.Formula(text).composition()
-    except Exception as exc:  # molmass raises several error types
-        raise InputError(f"cannot read the chemical formula {formula!r}: {exc}") from None
-    return tuple(sorted((sym, int(item.count)) for sym, item in comp.items()))
-
-
 @lru_cache(maxsize=1)
 def _laliberte_table() -> dict[tuple[tuple[str, int], ...], laliberte.LaliberteRow | None]:
     """Rows of the Laliberté table by element composition; None where two rows share one."""
@@ -290,37 +273,6 @@ def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],
         assert row is not None
         fractions.append((row, round(mass_fractions[formula], 7)))
     return _laliberte(kind, round(T_K, 2), tuple(fractions))
-
-
-def split_hydrate(formula: str) -> tuple[str, int]:
-    """Split ``"CuSO4.5H2O"`` (also ``·`` or ``*``) into ``("CuSO4", 5)``.
-
-    A formula without water of crystallisation returns ``(formula, 0)``.
-    """
-    text = formula.replace("·", ".").replace("*", ".").strip()
-    parts = text.split(".")
-    base = parts[0]
-    n_water = 0
-    for part in parts[1:]:
-        digits = ""
-        rest = part
-        while rest and rest[0].isdigit():
-            digits += rest[0]
-            rest = rest[1:]
-        if rest != "H2O":
-            raise InputError(
-                f"cannot read {formula!r}: only water of crystallisation (e.g. '.5H2O') may "
-                "follow the dot"
-            )
-        n_water += int(digits) if digits else 1
-    return base, n_water
-
-
-@lru_cache(maxsize=1024)
-def _molar_mass(formula: str) -> float:
-    import molmass
-
-    return float(molmass.Formula(formula.replace("·", ".").replace("*", ".")).mass)
 
 
 def _fallback(
@@ -382,7 +334,7 @@ def solution_properties(
             continue
         base, n_water = split_hydrate(formula)
         if n_water:
-            m_base = m * _molar_mass(base) / _molar_mass(formula)
+            m_base = m * molar_mass(base) / molar_mass(formula)
             m_water += m - m_base
             m = m_base
         if base == "H2O":

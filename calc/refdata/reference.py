@@ -21,7 +21,7 @@ from importlib import resources
 from calc.refdata.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
 from calc.errors import InputError
 from calc.refdata.hess import citation, formation_enthalpy, hess
-from calc.refdata.properties import element_composition
+from calc.refdata.formula import element_composition, molar_mass
 from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
@@ -181,13 +181,11 @@ def solution_enthalpy(formula: str) -> ReferenceValue | None:
 
 @lru_cache(maxsize=1)
 def _certified() -> tuple[tuple[ReferenceValue, str, tuple[str, ...]], ...]:
-    import molmass
-
     text = (resources.files("calc.refdata") / "data" / "certified.toml").read_text(encoding="utf-8")
     out = []
     for item in tomllib.loads(text)["reference"]:
         if "value_J_g" in item:
-            M = molmass.Formula(item["formula"]).mass / 1000.0  # kg/mol -> kJ/mol per J/g
+            M = molar_mass(item["formula"]) / 1000.0  # kg/mol -> kJ/mol per J/g
             value, u = item["value_J_g"] * M, item["u_J_g"] * M
             dcp, dcp_u = item["delta_cp_J_g_K"] * M, item["delta_cp_u_J_g_K"] * M
             note = (

@@ -13,9 +13,8 @@ from typing import Any
 from typing import Unpack
 
 import numpy as np
-from molmass import Formula
 
-from calc.errors import InputError
+from calc.refdata.formula import molar_mass
 from calc.simulation.run import RunContext
 from calc.simulation.run import RunOptions
 from calc.simulation.run import SimulatedRun
@@ -38,10 +37,7 @@ _CP_UNIT = "J/(g*K)"
 
 def formula_molar_mass(formula: str, where: str) -> float:
     """Return the molar mass of ``formula`` in g/mol; an unreadable formula is an error in ``where``."""
-    try:
-        return float(Formula(formula).mass)
-    except Exception as exc:  # molmass raises several types for bad formulas
-        raise InputError(f"cannot read chemical formula {formula!r}: {exc}", field=where) from exc
+    return molar_mass(formula, field=where)
 
 
 def _solid_in_liquid(ctx: RunContext, *, table: str, volume: float, density: float, cp: float, solid: str,
