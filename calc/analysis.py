@@ -104,7 +104,7 @@ def analyze_run(
     src = source or str(path)
     spec = load_run(path, source=src)
     rsrc = os.path.join(os.path.dirname(src), str(spec.raw.get("readings")))
-    readings = read_readings(spec.readings_path, source=rsrc)
+    readings = read_readings(spec.readings_path, source=rsrc, column=spec.temperature_column)
     return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                         with_reference=with_reference)
 

@@ -159,7 +159,7 @@ def parse_inputs(
     except InputError as exc:
         raise invalid(exc, "run_file") from None
     try:
-        readings = parse_readings(readings_text, source=readings_name)
+        readings = parse_readings(readings_text, source=readings_name, column=spec.temperature_column)
     except InputError as exc:
         raise invalid(exc, "readings") from None
     return spec, readings
