@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from typing import Any
 
@@ -18,6 +18,7 @@ import numpy as np
 from calc import __version__
 from calc.deltat import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
 from calc.errors import AnalysisError
+from calc.heater import heater_periods, lag_term, widened
 from calc.gum import GumResult, MonteCarloResult, monte_carlo, propagate
 from calc.models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
 from calc.periods import Periods, find_periods
@@ -139,8 +140,14 @@ def analyze_spec(
         source=readings.source,
         lines=readings.lines,
     )
+    duration = _heater_duration(spec)
+    if duration is not None:
+        periods = heater_periods(readings.time_s, periods, duration, source=readings.source,
+                                 after_given=(after or spec.after_period) is not None)
     log = Log(readings.time_s, readings.temperature_K, periods, spec.resolution_K, two_solution=two)
     dt = corrected_delta_t(log, method or spec.method or DEFAULT_METHOD)
+    if duration is not None:
+        dt = _with_lag_term(dt, readings, periods, spec, duration, method or spec.method or DEFAULT_METHOD)
     if not math.isfinite(dt.value) or dt.value == 0.0:
         raise AnalysisError(f"{readings.source}: no usable temperature change was found")
     props = resolve_properties(spec, dt)
@@ -163,6 +170,25 @@ def analyze_spec(
     if with_reference:
         _attach_reference(analysis)
     return analysis
+
+
+def _heater_duration(spec: RunSpec) -> float | None:
+    """Return the heater's stated duration (s) of an electrical calibration, else None."""
+    if spec.kind != "electrical-calibration":
+        return None
+    return spec.get("heater", "duration").m_as("s")
+
+
+def _with_lag_term(dt: DeltaT, readings: Readings, periods: Periods, spec: RunSpec, duration: float,
+                   method: str) -> DeltaT:
+    """Widen ΔT's method term when the after period starts soon after the heater stops."""
+    t, y = readings.time_s, readings.temperature_K
+
+    def redo(after: tuple[float, float]) -> float:
+        moved = replace(periods, after=after, main_end=after[0])
+        return corrected_delta_t(Log(t, y, moved, spec.resolution_K), method).value
+
+    return widened(dt, lag_term(dt.value, periods, t, duration, redo))
 
 
 # ------------------------------------------------------------------ properties
