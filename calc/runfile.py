@@ -20,7 +20,7 @@ from typing import Any
 from calc.errors import InputError
 from calc.measured import Measured, parse_measured
 
-__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA"]
+__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
 
 KINDS = (
     "dissolution",
@@ -48,8 +48,11 @@ _INFO: dict[str, Field] = {
     "sample": ("s", None, False),
     "group": ("s", None, False),
 }
-_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False)}
-_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False)}
+_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False), "type": ("s", None, False)}
+_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False),
+                                   "type": ("s", None, False)}
+#: Calorimeter types (``[calorimeter] type``); their plausible heat capacities are in calc.checks.
+CALORIMETER_TYPES = ("foam-cups", "dewar", "jacketed", "other")
 _THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}
 _MIXTURE: dict[str, Field] = {"specific_heat_capacity": ("q", "J/(g*K)", False)}
 _WATER: dict[str, Field] = {"volume": ("q", "mL", True), "density": ("q", "g/mL", False)}
@@ -399,6 +402,10 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
 
 
 def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
+    ctype = sections.get("calorimeter", {}).get("type")
+    if ctype is not None and ctype not in CALORIMETER_TYPES:
+        raise InputError(f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
+                         source=source, field="calorimeter.type")
     if kind == "reaction":
         r = sections["reaction"]
         has_amount = "amount" in r
