@@ -86,6 +86,7 @@ _HINTS = {
     "reaction.mass": "mass of the limiting reagent, with its formula",
     "thermometer.resolution": "the smallest step the thermometer shows",
     "calorimeter.heat_capacity": "blank: the calibration in force of the calorimeter chosen",
+    "calorimeter.type": "foam-cups, dewar, jacketed or other; blank: the type of the calorimeter chosen",
 }
 #: units offered for each unit of the schema (the first is the default)
 _UNITS = {
