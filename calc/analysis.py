@@ -9,15 +9,18 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 
 from calc import __version__
+from calc.checks import Check, run_checks
 from calc.deltat.methods import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
-from calc.errors import AnalysisError
+from calc.errors import AnalysisError, CupcalError
+from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.uncertainty.gum import GumResult, MonteCarloResult, monte_carlo, propagate
 from calc.uncertainty.measurement_models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
 from calc.deltat.periods import Periods, find_periods
@@ -34,9 +37,6 @@ OUTPUT_UNITS = {
     "calorimeter_heat_capacity": "J/K",
 }
 
-#: Plausible calorimeter heat capacities of a coffee-cup calorimeter, J/K (docs/methods.md §3.2–3.3;
-#: common practice, no source): outside this range a calibration is flagged.
-PLAUSIBLE_C_CAL = (0.0, 100.0)
 
 
 @dataclass
@@ -54,6 +54,7 @@ class Analysis:
     warnings: list[str] = field(default_factory=list)
     comparison: Any = None
     cautions: list[Any] = field(default_factory=list)
+    checks: list[Check] = field(default_factory=list)
     software_version: str = __version__
 
     @property
@@ -104,7 +105,7 @@ def analyze_run(
     src = source or str(path)
     spec = load_run(path, source=src)
     rsrc = os.path.join(os.path.dirname(src), str(spec.raw.get("readings")))
-    readings = read_readings(spec.readings_path, source=rsrc)
+    readings = read_readings(spec.readings_path, source=rsrc, column=spec.temperature_column)
     return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                         with_reference=with_reference)
 
@@ -119,11 +120,15 @@ def analyze_spec(
     fore: tuple[float, float] | None = None,
     after: tuple[float, float] | None = None,
     with_reference: bool = True,
+    calorimeter_type: str | None = None,
+    history: Sequence[tuple[float, float]] | None = None,
 ) -> Analysis:
     """Analyse an already parsed run and log (used by the web app for re-analysis).
 
     ``with_reference=False`` skips the reference comparison and the cautions (the JSON
-    record carries neither), which keeps batch analysis fast.
+    record carries neither), which keeps batch analysis fast. ``calorimeter_type`` (else the
+    run file's ``[calorimeter] type``) and ``history`` (the calorimeter's earlier calibrations,
+    (value, u) in J/K) feed the plausibility checks of :mod:`calc.checks`.
     """
     two = spec.kind in ("neutralization", "mixing-calibration")
     mix = spec.mixing_time
@@ -139,8 +144,14 @@ def analyze_spec(
         source=readings.source,
         lines=readings.lines,
     )
+    duration = _heater_duration(spec)
+    if duration is not None:
+        periods = heater_periods(readings.time_s, periods, duration, source=readings.source,
+                                 after_given=(after or spec.after_period) is not None)
     log = Log(readings.time_s, readings.temperature_K, periods, spec.resolution_K, two_solution=two)
     dt = corrected_delta_t(log, method or spec.method or DEFAULT_METHOD)
+    if duration is not None:
+        dt = _with_lag_term(dt, readings, periods, spec, duration, method or spec.method or DEFAULT_METHOD)
     if not math.isfinite(dt.value) or dt.value == 0.0:
         raise AnalysisError(f"{readings.source}: no usable temperature change was found")
     props = resolve_properties(spec, dt)
@@ -162,7 +173,39 @@ def analyze_spec(
     analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
     if with_reference:
         _attach_reference(analysis)
+    analysis.checks = run_checks(analysis, calorimeter_type=calorimeter_type, history=history,
+                                 reference=_run_reference(spec) if analysis.main == "molar_enthalpy" else None,
+                                 composition=lambda: _final_composition(spec, props))
     return analysis
+
+
+def _run_reference(spec: RunSpec) -> Any:
+    """Return the reference value a run's result is compared with (None when there is none)."""
+    r = spec.sections.get("reaction", {})
+    try:
+        return _reference(spec.kind, spec.get("solute", "formula") or r.get("limiting_reagent"),
+                          spec.get("acid", "formula"), spec.get("base", "formula"), spec.get("reference", "name"))
+    except CupcalError:  # an unknown reference name is reported by the comparison, not by a check
+        return None
+
+
+def _heater_duration(spec: RunSpec) -> float | None:
+    """Return the heater's stated duration (s) of an electrical calibration, else None."""
+    if spec.kind != "electrical-calibration":
+        return None
+    return spec.get("heater", "duration").m_as("s")
+
+
+def _with_lag_term(dt: DeltaT, readings: Readings, periods: Periods, spec: RunSpec, duration: float,
+                   method: str) -> DeltaT:
+    """Widen ΔT's method term when the after period starts soon after the heater stops."""
+    t, y = readings.time_s, readings.temperature_K
+
+    def redo(after: tuple[float, float]) -> float:
+        moved = replace(periods, after=after, main_end=after[0])
+        return corrected_delta_t(Log(t, y, moved, spec.resolution_K), method).value
+
+    return widened(dt, lag_term(dt.value, periods, t, duration, redo))
 
 
 # ------------------------------------------------------------------ properties
@@ -312,13 +355,9 @@ def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -
     out: list[str] = []
     kind = spec.kind
     if kind in ("electrical-calibration", "mixing-calibration"):
+        # a heat capacity outside its type's range is a plausibility check (calc.checks)
         c = gum.values["calorimeter_heat_capacity"]
         u = gum.uncertainties["calorimeter_heat_capacity"]
-        if c < PLAUSIBLE_C_CAL[0] or c > PLAUSIBLE_C_CAL[1]:
-            out.append(
-                f"calorimeter heat capacity {c:.3g} J/K is implausible for a coffee-cup calorimeter "
-                f"(expected {PLAUSIBLE_C_CAL[0]:g}–{PLAUSIBLE_C_CAL[1]:g} J/K): check the masses, temperatures and mixing time"
-            )
         if c > 0 and u / c > 0.2:
             out.append(
                 f"the calorimeter heat capacity is uncertain by {100 * u / c:.0f} % (over 20 %): "
@@ -328,8 +367,6 @@ def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -
         cal = spec.get("calorimeter", "heat_capacity")
         if cal is not None and cal.value > 0 and cal.u_as("J/K") / cal.m_as("J/K") > 0.2:
             out.append("the calorimeter heat capacity is uncertain by more than 20 %: it limits the result")
-        if cal is not None and (cal.m_as("J/K") < 0 or cal.m_as("J/K") > PLAUSIBLE_C_CAL[1]):
-            out.append(f"calorimeter heat capacity {cal.text} is implausible for a coffee-cup calorimeter")
     if kind == "neutralization":
         base = spec.get("base", "formula")
         if base in ("Na2CO3", "NaHCO3", "K2CO3", "KHCO3"):

@@ -48,6 +48,7 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "method": analysis.delta_t.method,
         "budget": [b.as_dict() for b in analysis.gum.budget],
         "warnings": list(analysis.warnings),
+        "checks": [c.as_dict() for c in analysis.checks],
     }
 
 
@@ -154,6 +155,11 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         lines.append("properties not in the run file:")
         for k, (val, unc, unit, src) in props:
             lines.append(f"  {k}: {format_value(val, unc, unit)} ({src})")
+    if analysis.checks:
+        lines.append("")
+        lines.append("plausibility checks:")
+        for c in analysis.checks:
+            lines.append(f"  {'!' if c.severity == 'warning' else 'i'} [{c.code}] {c.message}")
     if analysis.warnings:
         lines.append("")
         lines.append("warnings:")

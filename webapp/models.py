@@ -140,6 +140,8 @@ class Calorimeter(Base):
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     #: days a calibration stays valid on this calorimeter (None: the notebook's CALIBRATION_DUE_DAYS)
     calibration_interval_days: so.Mapped[Optional[int]]
+    #: what the calorimeter is (calc.io.runfile.CALORIMETER_TYPES): its plausible heat capacities follow it
+    vessel_type: so.Mapped[str] = so.mapped_column(sa.String(20), default="foam-cups", server_default="foam-cups")
 
     calibrations: so.Mapped[list[Calibration]] = so.relationship(
         back_populates="calorimeter",
@@ -288,6 +290,9 @@ class Result(Base):
         sa.JSON, deferred=True, deferred_group="detail"
     )
     record: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
+    #: plausibility checks of calc.checks ({"code", "severity", "message", "value"}); not deferred, since
+    #: lists, dashboards and control charts leave out runs with warning checks (None: analysed before them)
+    checks: so.Mapped[Optional[list[Any]]] = so.mapped_column(sa.JSON)
     software_version: so.Mapped[str] = so.mapped_column(sa.String(40))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))

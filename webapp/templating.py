@@ -8,6 +8,9 @@ from calc.report import format_value
 from flask import Flask
 
 from webapp.auth.forms import ConfirmForm
+from webapp.services.checks import flag_text
+from webapp.services.checks import flagged_checks
+from webapp.services.checks import run_flagged
 
 
 def pm(value: float | None, u: float | None, unit: str = "", sig: int = 2) -> str:
@@ -29,3 +32,6 @@ def init_app(app: Flask) -> None:
     app.jinja_env.filters["pm"] = pm
     app.jinja_env.filters["when"] = when
     app.jinja_env.globals["signout_form"] = ConfirmForm
+    app.jinja_env.globals["run_flagged"] = run_flagged
+    app.jinja_env.globals["flagged_checks"] = flagged_checks
+    app.jinja_env.globals["flag_text"] = flag_text

@@ -19,6 +19,8 @@ as time in seconds (or clock times, if the first cell is one) and temperature
 in degrees Celsius.
 
 Cells are separated by ``,``, ``;`` or a tab (the first non-comment line decides).
+Instrument exports (metadata lines, space-separated columns, a units row, date-time
+stamps, several temperature columns) are first rewritten by :mod:`calc.io.logger_formats`.
 With ``;`` or tab separators a decimal comma is accepted (``12,5;21,37``).
 Blank lines and lines starting with ``#`` are skipped; a UTF-8 byte-order mark
 is dropped. :func:`read_readings` reads UTF-8 and falls back to Windows-1252
@@ -41,6 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from calc.errors import InputError
+from calc.io.logger_formats import normalise_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]
 
@@ -137,7 +140,9 @@ class _Layout:
     columns: int | None  # header columns; None without a header
 
 
-def read_readings(path: str | os.PathLike[str], *, source: str | None = None) -> Readings:
+def read_readings(
+    path: str | os.PathLike[str], *, source: str | None = None, column: str | int | None = None
+) -> Readings:
     """Read a thermometer log from ``path``.
 
     Parameters
@@ -146,6 +151,9 @@ def read_readings(path: str | os.PathLike[str], *, source: str | None = None) ->
         The CSV file.
     source:
         The name to use in messages; defaults to ``path`` as given.
+    column:
+        The temperature column to read from an export with several (header name or
+        1-based column number; :mod:`calc.io.logger_formats`).
 
     Returns
     -------
@@ -169,13 +177,13 @@ def read_readings(path: str | os.PathLike[str], *, source: str | None = None) ->
         raise InputError(message, source=name)
     for encoding in ("utf-8-sig", "cp1252"):
         try:
-            return parse_readings(data.decode(encoding), source=name)
+            return parse_readings(data.decode(encoding), source=name, column=column)
         except UnicodeDecodeError:
             continue
     raise InputError("cannot decode the file; expected UTF-8 text", source=name)
 
 
-def parse_readings(text: str, *, source: str) -> Readings:
+def parse_readings(text: str, *, source: str, column: str | int | None = None) -> Readings:
     """Parse the text of a thermometer log.
 
     Parameters
@@ -184,6 +192,8 @@ def parse_readings(text: str, *, source: str) -> Readings:
         The whole file.
     source:
         The file name, for messages.
+    column:
+        The temperature column to read (see :func:`read_readings`).
 
     Returns
     -------
@@ -196,6 +206,9 @@ def parse_readings(text: str, *, source: str) -> Readings:
         docstring.
     """
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()
+    export = normalise_export(lines, column, source)  # instrument exports, line for line
+    if export is not None:
+        lines = export.lines
     first = next((i for i, line in enumerate(lines) if not _skipped(line)), None)
     if first is None:
         message = f"the file is empty; expected {_EXPECTED_HEADER} and at least "

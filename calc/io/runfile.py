@@ -20,7 +20,7 @@ from typing import Any
 from calc.errors import InputError
 from calc.io.quantities import Measured, parse_measured
 
-__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA"]
+__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
 
 KINDS = (
     "dissolution",
@@ -48,8 +48,11 @@ _INFO: dict[str, Field] = {
     "sample": ("s", None, False),
     "group": ("s", None, False),
 }
-_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False)}
-_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False)}
+_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False), "type": ("s", None, False)}
+_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False),
+                                   "type": ("s", None, False)}
+#: Calorimeter types (``[calorimeter] type``); their plausible heat capacities are in calc.checks.
+CALORIMETER_TYPES = ("foam-cups", "dewar", "jacketed", "other")
 _THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}
 _MIXTURE: dict[str, Field] = {"specific_heat_capacity": ("q", "J/(g*K)", False)}
 _WATER: dict[str, Field] = {"volume": ("q", "mL", True), "density": ("q", "g/mL", False)}
@@ -149,6 +152,7 @@ _TOP: dict[str, Field] = {
     "fore_period": ("p", "s", False),
     "after_period": ("p", "s", False),
     "method": ("s", None, False),
+    "temperature_column": ("c", None, False),
 }
 
 _DELTA_FACTORS = {"K": 1.0, "kelvin": 1.0, "degC": 1.0, "°C": 1.0, "℃": 1.0, "mK": 1e-3, "degF": 5 / 9, "°F": 5 / 9}
@@ -167,6 +171,7 @@ class RunSpec:
     fore_period: tuple[float, float] | None = None
     after_period: tuple[float, float] | None = None
     method: str | None = None
+    temperature_column: str | int | None = None  # which column of a logger export holds the temperature
     raw: dict[str, Any] = field(default_factory=dict)
 
     def get(self, section: str, name: str, default: Any = None) -> Any:
@@ -276,6 +281,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     if method is not None and not isinstance(method, str):
         raise InputError("expected a method name (a string)", source=source, field="method")
     _kind_rules(kind, sections, source)
+    column = _parse_column(top.get("temperature_column"), source)
     return RunSpec(
         path=path,
         source=source,
@@ -286,6 +292,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
         fore_period=fore,
         after_period=after,
         method=method,
+        temperature_column=column,
         raw=data,
     )
 
@@ -301,6 +308,22 @@ def _key(name: str) -> str:
     name (``[""]``) gave an error with an empty field, which the message omits.
     """
     return name if _BARE_KEY_RE.fullmatch(name) else json.dumps(name, ensure_ascii=False)
+
+
+def _parse_column(value: Any, source: str) -> str | int | None:
+    """Return the temperature column: a header name or a 1-based column number."""
+    if value is None:
+        return None
+    if isinstance(value, str) and value.strip() and len(value) <= 100:
+        return value.strip()
+    if isinstance(value, int) and not isinstance(value, bool) and 2 <= value <= 1000:
+        return value
+    raise InputError(
+        'expected the temperature column\'s header name (e.g. "T2") or its column number counted from 1 '
+        "(e.g. 3; column 1 is the time)",
+        source=source,
+        field="temperature_column",
+    )
 
 
 def _parse_time(value: Any, name: str, source: str) -> Measured:
@@ -379,6 +402,10 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
 
 
 def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
+    ctype = sections.get("calorimeter", {}).get("type")
+    if ctype is not None and ctype not in CALORIMETER_TYPES:
+        raise InputError(f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
+                         source=source, field="calorimeter.type")
     if kind == "reaction":
         r = sections["reaction"]
         has_amount = "amount" in r

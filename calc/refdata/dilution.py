@@ -23,6 +23,7 @@ __all__ = [
     "PhiL",
     "phi_L",
     "relative_apparent_molar_enthalpy",
+    "model_spread_u",
 ]
 
 
@@ -47,12 +48,37 @@ _B = 1.2  # kg^1/2 mol^-1/2, Pitzer
 _BL_MAX = 1.5e-3  # kg/(mol K): bound on |B^L| of 1:1 salts, for the DH fallback's u
 
 
+#: Half-width (kJ/mol) of the disagreement between this Pitzer term and wide-range models at 1 mol/kg:
+#: for KCl this code gives φ_L = +0.007 kJ/mol where wide-range models give −0.11 to −0.17 kJ/mol
+#: (as reported in the project's issue 11; the models compared there were not re-checked here).
+MODEL_SPREAD_AT_1_MOLAL = 0.18
+MODEL_SPREAD_SOURCE = (
+    "model-spread term from the disagreement with wide-range models at 1 mol/kg (KCl: −0.11 to −0.17 kJ/mol "
+    "against +0.007 here)"
+)
+
+
+def model_spread_u(molality: float) -> float:
+    """Return the standard uncertainty (kJ/mol) for the spread between Pitzer models at ``molality``.
+
+    Rectangular with half-width :data:`MODEL_SPREAD_AT_1_MOLAL` from 0.5 mol/kg up to 1 mol/kg,
+    rising linearly from zero at 0.1 mol/kg (where the models agree within the fit term) to
+    0.5 mol/kg, and in proportion to the molality above 1 mol/kg (the short-range term that
+    the models disagree on grows like m).
+    """
+    m = float(molality)
+    if m <= 0.1:
+        return 0.0
+    scale = min(1.0, (m - 0.1) / 0.4) if m <= 1.0 else m
+    return MODEL_SPREAD_AT_1_MOLAL * scale / math.sqrt(3.0)
+
+
 def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
     """Return φ_L of a strong electrolyte at a molality, or None when no model applies.
 
     Pitzer's equation with the tabulated enthalpy parameters (NaCl, KCl, HCl; 0 to 50
     degC; u = 3 % of φ_L plus up to 0.02 kJ/mol, and 2 % of φ_L per K away from
-    25 degC, cupcal's estimates); else, for a 1:1 electrolyte
+    25 degC, cupcal's estimates, plus :func:`model_spread_u` from 0.1 mol/kg); else, for a 1:1 electrolyte
     at m <= 0.1 mol/kg, the Debye–Hückel term alone with u = 2RT² m·1.5e-3 kg/(mol K)
     (the neglected short-range term for |B^L| up to 1.5e-3).
     """
@@ -93,7 +119,8 @@ def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
         # (reached at 0.1 mol/kg), plus 2 % of φ_L per K away from 25 degC.
         u = math.hypot(0.03 * value, 0.02 * min(1.0, m / 0.1))
         u = math.hypot(u, 0.02 * abs(value) * abs(T - T_REF_K))
-        return PhiL(value, u, "Pitzer", citation(row["source"]))
+        u = math.hypot(u, model_spread_u(m))
+        return PhiL(value, u, "Pitzer", citation(row["source"]) + "; " + MODEL_SPREAD_SOURCE)
     products = dissolution_products(base)
     if products is None or len(products) != 2 or m > 0.1:
         return None

@@ -9,6 +9,7 @@ safety data sheet of the product actually used always win.
 
 from __future__ import annotations
 
+import re
 import tomllib
 from dataclasses import dataclass
 from functools import lru_cache
@@ -66,13 +67,23 @@ def _key(formula: str) -> tuple | None:
         return None
 
 
+_STATE_RE = re.compile(r"\((?:s|cr|l|g|aq)\)\s*$", re.IGNORECASE)
+
+
+def _plain(name: str) -> str:
+    """Return a lookup key: upper case, spaces dropped ("HCl (g)" and "HCl(g)" are one)."""
+    return "".join(name.split()).upper()
+
+
 @lru_cache(maxsize=1)
 def _index() -> dict[object, str]:
     hazards, _ = _data()
     index: dict[object, str] = {}
     for key, entry in hazards.items():
         for name in [key, *entry.get("aliases", [])]:
-            index[name.upper()] = key
+            index[_plain(name)] = key
+            if _STATE_RE.search(name) or " " in name.strip():
+                continue  # "HCl(g)" is its own entry; the formula HCl stays hydrochloric acid
             comp = _key(name)
             if comp is not None:
                 index[comp] = key
@@ -85,8 +96,8 @@ def _lookup(formula: str) -> tuple[str | None, str]:
 
     index = _index()
     text = formula.strip()
-    if text.upper() in index:
-        return index[text.upper()], ""
+    if _plain(text) in index:
+        return index[_plain(text)], ""
     comp = _key(text)
     if comp is not None and comp in index:
         return index[comp], ""

@@ -43,7 +43,7 @@ def test_json_record_has_exactly_the_public_keys(run_file):
     rec = json.loads(res.output.strip().splitlines()[0])
     assert set(rec) == {
         "input", "kind", "corrected_delta_t", "heat", "molar_enthalpy", "expanded_uncertainty",
-        "coverage_factor", "method", "budget", "warnings",
+        "coverage_factor", "method", "budget", "warnings", "checks",
     }
     assert rec["input"] == str(run_file)
     assert rec["corrected_delta_t"]["unit"] == "K"

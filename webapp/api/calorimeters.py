@@ -63,6 +63,7 @@ def create_calorimeter_route():  # type: ignore[no-untyped-def]
         parts=as_text(data.get("parts"), "parts") or "",
         location=as_text(data.get("location"), "location") or "",
         heat_capacity=as_text(data.get("heat_capacity"), "heat_capacity") or None,
+        vessel_type=as_text(data.get("vessel_type"), "vessel_type") or None,
     )
     return _created(calorimeter_json(cal, current_calibration(session, cal.id)),
                     url_for("api.get_calorimeter", calorimeter_id=cal.id))

@@ -9,6 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 from calc import __version__
+from calc.io.runfile import CALORIMETER_TYPES
 from flask import jsonify
 
 from webapp.api import bp
@@ -80,6 +81,7 @@ SCHEMAS: dict[str, Any] = {
     "Calorimeter": {"type": "object", "properties": {
         "id": {"type": "integer"}, "name": {"type": "string"}, "parts": {"type": "string"},
         "location": {"type": "string"}, "created_at": {"type": "string", "format": "date-time"},
+        "vessel_type": {"type": "string", "enum": list(CALORIMETER_TYPES)},
         "calibration_interval_days": {"type": ["integer", "null"]},
         "current_calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]},
         "calibrations": {"type": "array", "items": _ref("Calibration")}}},
@@ -94,6 +96,10 @@ SCHEMAS: dict[str, Any] = {
         "dof_eff": {"type": ["number", "null"]},
         "periods": {"type": "object"}, "budget": {"type": "array", "items": {"type": "object"}},
         "warnings": {"type": "array", "items": {"type": "string"}},
+        "checks": {"type": ["array", "null"], "description": "plausibility checks (null: analysed before they existed)",
+                   "items": {"type": "object", "properties": {
+                       "code": {"type": "string"}, "severity": {"type": "string", "enum": ["info", "warning"]},
+                       "message": {"type": "string"}, "value": {"type": ["number", "null"]}}}},
         "comparison": {"type": ["object", "null"]}, "cautions": {"type": "array", "items": {"type": "object"}},
         "construction": {"type": "object"}, "properties": {"type": "object"},
         "monte_carlo": {"type": ["object", "null"]}, "record": {"type": "object"},
@@ -205,6 +211,7 @@ PATHS: dict[str, Any] = {
         "post": _op("Add a calorimeter (coordinators)", _json(_ref("Calorimeter"), "The new calorimeter"),
                     400, 401, 403, 409, status="201", body=_body({
                         "name": {"type": "string"}, "parts": {"type": "string"}, "location": {"type": "string"},
+                        "vessel_type": {"type": "string", "enum": list(CALORIMETER_TYPES)},
                         "heat_capacity": {"type": "string", "description": "e.g. \"18.6 ± 2.0 J/K\" (u standard)"}},
                         ["name"])),
     },
@@ -215,6 +222,7 @@ PATHS: dict[str, Any] = {
                      "default (coordinators; audited)",
                      _json(_ref("Calorimeter"), "The calorimeter"), 400, 401, 403, 404, 409, params=_CAL_ID,
                      body=_body({**{k: {"type": "string"} for k in ("name", "parts", "location")},
+                                 "vessel_type": {"type": "string", "enum": list(CALORIMETER_TYPES)},
                                  "calibration_interval_days": {"type": ["integer", "null"], "minimum": 1,
                                                                "maximum": 3650}})),
     },

@@ -66,6 +66,7 @@ def calorimeter_json(c: Calorimeter, current: Calibration | None) -> dict[str, A
         "name": c.name,
         "parts": c.parts,
         "location": c.location,
+        "vessel_type": c.vessel_type,
         "created_at": iso(c.created_at),
         "calibration_interval_days": c.calibration_interval_days,  # None: the notebook's default
         "current_calibration": calibration_json(current) if current is not None else None,
@@ -110,6 +111,7 @@ def result_json(r: Result) -> dict[str, Any]:
         },
         "budget": r.budget,
         "warnings": r.warnings,
+        "checks": r.checks,
         "comparison": r.comparison,
         "cautions": r.cautions,
         "construction": r.construction,

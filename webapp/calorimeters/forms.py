@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
+from calc.checks import CALORIMETER_TYPES
 from wtforms import IntegerField
+from wtforms import SelectField
 from wtforms import StringField
 from wtforms import TextAreaField
 from wtforms.validators import Length
@@ -17,6 +19,9 @@ class CalorimeterForm(FlaskForm):
     name = StringField("Name", validators=[Length(max=200)])
     parts = TextAreaField("Parts", validators=[Length(max=2000)])
     location = StringField("Location", validators=[Length(max=200)])
+    vessel_type = SelectField(
+        "Type", choices=[(key, value[3]) for key, value in CALORIMETER_TYPES.items()], default="foam-cups",
+        description="what the calorimeter is: the plausible range of its heat capacity follows it")
     heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
 

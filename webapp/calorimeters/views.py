@@ -50,6 +50,7 @@ def index():  # type: ignore[no-untyped-def]
             try:
                 cal = create_calorimeter(session, current_user, name=form.name.data or "", parts=form.parts.data or "",
                                          location=form.location.data or "",
+                                         vessel_type=form.vessel_type.data or None,
                                          heat_capacity=(form.heat_capacity.data or "").strip() or None)
                 flash(f"Calorimeter {cal.name!r} added.")
                 return redirect(url_for("calorimeters.detail", calorimeter_id=cal.id))
@@ -139,7 +140,8 @@ def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
     def store(cal: Any) -> None:
         session = get_session()
         update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
-                                                        "location": form.location.data or ""})
+                                                        "location": form.location.data or "",
+                                                        "vessel_type": form.vessel_type.data or "foam-cups"})
         set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
 
     return _submit(calorimeter_id, form, "edit", "edit", store, lambda exc: exc.field or "name", "Calorimeter changed.")

@@ -64,6 +64,7 @@ _LABELS = {
     "fore_period": "Fore period",
     "after_period": "After period",
     "method": "Corrected-ΔT method",
+    "temperature_column": "Temperature column of the log",
     "date": "Date",
     "name": "Name",
 }
@@ -78,11 +79,14 @@ _HINTS = {
     "mixing_time": "blank: detected from the curve",
     "fore_period": "in seconds on the log's clock; blank: found from the log",
     "after_period": "in seconds on the log's clock; blank: found from the log",
+    "temperature_column": "only for a log with several temperature columns: its header name (T2) or column number "
+                          "counted from 1 (3)",
     "solute.purity": "mass fraction, 0 to 1",
     "reaction.amount": "give the amount, or the mass with the limiting reagent",
     "reaction.mass": "mass of the limiting reagent, with its formula",
     "thermometer.resolution": "the smallest step the thermometer shows",
     "calorimeter.heat_capacity": "blank: the calibration in force of the calorimeter chosen",
+    "calorimeter.type": "foam-cups, dewar, jacketed or other; blank: the type of the calorimeter chosen",
 }
 #: units offered for each unit of the schema (the first is the default)
 _UNITS = {
@@ -185,6 +189,8 @@ def _top_fields() -> tuple[FormField, ...]:
         FormField("", "method", "method", None, False, _LABELS["method"], ""),
         FormField("", "fore_period", "period", "s", False, _LABELS["fore_period"], _HINTS["fore_period"]),
         FormField("", "after_period", "period", "s", False, _LABELS["after_period"], _HINTS["after_period"]),
+        FormField("", "temperature_column", "s", None, False, _LABELS["temperature_column"],
+                  _HINTS["temperature_column"]),
     )
 
 
@@ -342,7 +348,7 @@ def _toml_value(values: Mapping[str, str], f: FormField) -> str:
         a, b = values.get(f.key + ".start", "").strip(), values.get(f.key + ".end", "").strip()
         return f"[{toml_string(a + ' s')}, {toml_string(b + ' s')}]"
     text = values.get(f.key, "").strip()
-    if f.control == "i" and _INT_RE.fullmatch(text):
+    if (f.control == "i" or f.key == "temperature_column") and _INT_RE.fullmatch(text):
         return str(int(text))
     if f.control == "long":
         text = text.replace("\r\n", "\n")

@@ -159,14 +159,20 @@ def parse_inputs(
     except InputError as exc:
         raise invalid(exc, "run_file") from None
     try:
-        readings = parse_readings(readings_text, source=readings_name)
+        readings = parse_readings(readings_text, source=readings_name, column=spec.temperature_column)
     except InputError as exc:
         raise invalid(exc, "readings") from None
     return spec, readings
 
 
-def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions) -> Analysis:
-    """Analyse with calc; its errors become :class:`Invalid`."""
+def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions, *,
+                 calorimeter_type: str | None = None,
+                 history: list[tuple[float, float]] | None = None) -> Analysis:
+    """Analyse with calc; its errors become :class:`Invalid`.
+
+    ``calorimeter_type`` (the calorimeter record's type, unless the run file states one) and
+    ``history`` (its calibrations, (value, u) in J/K) feed calc's plausibility checks.
+    """
     options = options.checked()
     seed = options.seed
     if options.monte_carlo_trials and seed is None:
@@ -180,6 +186,8 @@ def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions) ->
             seed=seed,
             fore=options.fore,
             after=options.after,
+            calorimeter_type=spec.get("calorimeter", "type") or calorimeter_type,
+            history=history,
         )
     except InputError as exc:
         raise invalid(exc, "run_file") from None
@@ -276,6 +284,7 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
                     for k, v in analysis.properties.values.items()},
         monte_carlo=_jsonable(dataclasses.asdict(analysis.monte_carlo)) if analysis.monte_carlo else None,
         record=_jsonable(to_record(analysis, input_name)),
+        checks=_jsonable([c.as_dict() for c in analysis.checks]),
         software_version=analysis.software_version,
     )
 

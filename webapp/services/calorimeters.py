@@ -7,6 +7,8 @@ from collections.abc import Mapping
 from typing import Any
 
 import sqlalchemy as sa
+from calc.checks import DEFAULT_CALORIMETER_TYPE
+from calc.io.runfile import CALORIMETER_TYPES
 import sqlalchemy.orm as so
 from calc.errors import InputError
 from calc.io.quantities import parse_measured
@@ -24,7 +26,7 @@ from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
 
 #: fields of a calorimeter that can be edited (each change is audited)
-EDITABLE_FIELDS = ("name", "parts", "location")
+EDITABLE_FIELDS = ("name", "parts", "location", "vessel_type")
 
 
 def get_calorimeter(session: so.Session, calorimeter_id: int) -> Calorimeter:
@@ -63,6 +65,14 @@ def parse_heat_capacity(text: str, field: str = "heat_capacity") -> tuple[float,
     return value, u
 
 
+def check_vessel_type(value: str) -> str:
+    """Return a calorimeter type of calc's list, or raise :class:`Invalid` naming the field."""
+    if value not in CALORIMETER_TYPES:
+        raise Invalid(f"field 'vessel_type': unknown calorimeter type {value!r}; expected one of: "
+                      f"{', '.join(CALORIMETER_TYPES)}", field="vessel_type")
+    return value
+
+
 def create_calorimeter(
     session: so.Session,
     actor: Person,
@@ -71,9 +81,11 @@ def create_calorimeter(
     parts: str = "",
     location: str = "",
     heat_capacity: str | None = None,
+    vessel_type: str | None = None,
 ) -> Calorimeter:
     """Add a calorimeter (coordinators only), with an optional first heat capacity, and commit."""
     require_coordinator(actor, "manage calorimeters")
+    vessel_type = check_vessel_type(vessel_type or DEFAULT_CALORIMETER_TYPE)
     name = (name or "").strip()
     if not name:
         raise Invalid("must not be empty", field="name")
@@ -81,7 +93,7 @@ def create_calorimeter(
         raise Invalid("at most 200 characters", field="name")
     if find_calorimeter(session, name) is not None:
         raise Conflict(f"a calorimeter named {name!r} exists already", field="name")
-    cal = Calorimeter(name=name, parts=parts or "", location=(location or "")[:200])
+    cal = Calorimeter(name=name, parts=parts or "", location=(location or "")[:200], vessel_type=vessel_type)
     session.add(cal)
     if heat_capacity:
         value, u = parse_heat_capacity(heat_capacity)
@@ -103,6 +115,8 @@ def update_calorimeter(
         if not isinstance(new, str):
             raise Invalid("expected text", field=key)
         new = new.strip()
+        if key == "vessel_type":
+            new = check_vessel_type(new)
         if key == "name":
             if not new:
                 raise Invalid("must not be empty", field="name")

@@ -31,6 +31,8 @@ from webapp.services.access import require_coordinator
 from webapp.services.access import visible_runs_clause
 from webapp.services.audit import record_change
 from webapp.services.calorimeters import get_calorimeter
+from webapp.services.checks import flag_text
+from webapp.services.checks import flagged_checks
 from webapp.services.dashboard import _measurement
 from webapp.services.errors import Invalid
 
@@ -50,6 +52,8 @@ class ControlView:
     baseline: int
     message: str
     calibration: dict[str, Any]
+    #: points of this standard left out of the baseline: their result carries a warning check
+    left_out: list[dict[str, Any]] = dataclasses.field(default_factory=list)
 
 
 def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days: int,
@@ -92,17 +96,19 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
     cal = get_calorimeter(session, calorimeter_id)
     rows = session.execute(
         sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
-                  Result.calorimeter_heat_capacity_j_k, Result.comparison)
+                  Result.calorimeter_heat_capacity_j_k, Result.comparison, Result.checks)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
         .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer))
         .order_by(Run.created_at, Run.id)
     ).all()
     series: dict[str, list[dict[str, Any]]] = defaultdict(list)
-    for rid, kind, created, title, main, h, c, comp in rows:
+    for rid, kind, created, title, main, h, c, comp, checks in rows:
         v = h if main == "molar_enthalpy" else c
         if v is not None:
-            series[_measurement(kind, comp)].append({"run_id": rid, "at": created.isoformat() + "Z", "title": title,
-                                                     "value": v, "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K"})
+            series[_measurement(kind, comp)].append({
+                "run_id": rid, "at": created.isoformat() + "Z", "title": title, "value": v,
+                "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K",
+                "flagged": flag_text(checks) if flagged_checks(checks) else ""})
     standards = {k: len(v) for k, v in sorted(series.items(), key=lambda kv: -len(kv[1]))}
     info = calibration_info(session, cal, default_days, today)
     if standard is not None and standard not in series:
@@ -117,11 +123,15 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
         raise Invalid(f"expected a baseline of 2 to {max(n, 2)} points", field="baseline")
     base = baseline if baseline is not None else min(DEFAULT_BASELINE, n)
     chart, message = None, ""
+    # the baseline is the first `base` points, less those a plausibility check warns about
+    in_base = [p["value"] for p in points[:base] if not p["flagged"]]
     if n < 2:
         message = "at least 2 runs are needed for a chart"
+    elif len(in_base) < 2:
+        message = "fewer than 2 baseline points are left once runs with plausibility warnings are left out"
     else:
         try:
-            chart = control_chart([p["value"] for p in points], baseline=base)
+            chart = control_chart([p["value"] for p in points], baseline=in_base)
         except InputError as exc:
             message = str(exc)
     if chart is not None:
@@ -130,9 +140,9 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
             by_index[v.index].append(v.message)
         for i, p in enumerate(points):
             p["violations"] = by_index.get(i, [])
-            p["baseline"] = i < base
+            p["baseline"] = i < base and not p["flagged"]
     return ControlView(cal, standards, standard, points[0]["unit"] if points else "", points, chart, base,
-                       message, info)
+                       message, info, [p for p in points[:base] if p["flagged"]])
 
 
 def control_json(view: ControlView) -> dict[str, Any]:

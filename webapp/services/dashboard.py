@@ -42,6 +42,8 @@ from webapp.models import Run
 from webapp.models import RunInput
 from webapp.models import Section
 from webapp.services.analysis import NEEDS_HEAT_CAPACITY
+from webapp.services.checks import flag_text
+from webapp.services.checks import flagged_checks
 from webapp.services.classes import get_course
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
@@ -55,6 +57,7 @@ FLAGS: dict[str, str] = {
     "drift": "large drift",
     "short-after": "short after period",
     "no-calibration": "no calibration of the calorimeter on record",
+    "checks": "a plausibility check warns (left out of the statistics and the Grubbs test)",
 }
 SORT_KEYS = ("group", "run", "value", "uncertainty", "en", "delta_t", "flags", "section")
 GRUBBS_ALPHA = 0.05
@@ -88,6 +91,8 @@ class Row:
     top_share: float = 0.0
     #: shared (non-averaging) Type B part of this run's budget and its degrees of freedom
     type_b: tuple[float, float] = (0.0, math.inf)
+    #: a plausibility check warns: the row is shown, but left out of statistics, Grubbs and series
+    excluded: bool = False
 
 
 @dataclasses.dataclass
@@ -135,7 +140,7 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
             Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
             Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
             Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.budget, res_in.value,
+            Result.budget, res_in.value, Result.checks,
         )
         .join(Group, Group.id == Run.group_id)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
@@ -168,7 +173,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
     for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, budget, resolution) in raw:
+         comparison, budget, resolution, checks) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
         en = comp.get("En_adjusted") if comp.get("En_adjusted") is not None else comp.get("En")
@@ -196,6 +201,10 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                 row.notes["no-calibration"] = ("the calorimeter's heat capacity came from the run file, and "
                                                + ("no calorimeter is named" if calo_id is None else
                                                   "the calorimeter had no calibration on record"))
+        if flagged_checks(checks):
+            row.flags.append("checks")
+            row.notes["checks"] = flag_text(checks)
+            row.excluded = True
         lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
         row.type_b = shared_type_b(budget_lines(lines))
         if lines:
@@ -209,7 +218,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
 def _grubbs_flags(rows: list[Row]) -> None:
     cells: dict[tuple[Any, str], list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None:
+        if r.value is not None and not r.excluded:
             cells[(r.section_id, r.measurement)].append(r)
     for members in cells.values():
         if len(members) < 3:
@@ -226,7 +235,7 @@ def statistics(rows: list[Row]) -> list[Stats]:
     """Return the statistics of each measurement (most results first)."""
     by: dict[str, list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None:
+        if r.value is not None and not r.excluded:
             by[r.measurement].append(r)
     out: list[Stats] = []
     for meas, members in sorted(by.items(), key=lambda kv: -len(kv[1])):
@@ -282,6 +291,8 @@ _FLAG_ADVICE = {
                    "has settled.",
     "no-calibration": "The calorimeter you used has no calibration on record: calibrate it (or have it calibrated) and "
                       "name it in the run file.",
+    "checks": "A plausibility check warns about your run (see the run page): check the amounts you entered. The run "
+              "stays out of the section's statistics until staff accept it.",
 }
 
 

@@ -86,6 +86,7 @@ def result_document(result: Result) -> dict[str, Any]:
                         "unit": "s", "detected": result.mixing_time_detected},
         "budget": result.budget,
         "warnings": result.warnings,
+        "checks": result.checks,
         "comparison": result.comparison,
         "cautions": result.cautions,
         "properties": result.properties,

@@ -40,6 +40,7 @@ from webapp.services.analysis import parse_inputs
 from webapp.services.analysis import result_from_analysis
 from webapp.services.analysis import run_analysis
 from webapp.services.audit import record_change
+from webapp.services.checks import history_of
 from webapp.services.calorimeters import add_calibration_from_result
 from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import find_calorimeter
@@ -131,7 +132,7 @@ def analyse_upload(session: so.Session, upload: RunUpload) -> AnalysedUpload:
                 field="calorimeter.heat_capacity",
             )
     spec, readings = parse_inputs(upload.run_toml, run_name, readings_text, readings_name, calibration)
-    analysis = run_analysis(spec, readings, options)
+    analysis = run_analysis(spec, readings, options, **_check_context(calorimeter))
     return AnalysedUpload(options, run_name, readings_name, calorimeter, calibration, spec, readings, analysis)
 
 
@@ -172,7 +173,7 @@ def reanalyse_run(session: so.Session, actor: Person, run: Run, options: Analysi
     options = options.checked()
     text = decode_readings(run.readings_raw, run.readings_name)
     spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
-    analysis = run_analysis(spec, readings, options)
+    analysis = run_analysis(spec, readings, options, **_check_context(run.calorimeter, run))
     result = result_from_analysis(analysis, input_name=run.run_file_name, periods_given=_periods_given(options))
     old = run.current_result
     for r in run.results:
@@ -249,7 +250,15 @@ def analysis_of(run: Run, result: Result | None = None) -> Analysis:
         method=result.method,
         fore=(result.fore_start_s, result.fore_end_s) if given else None,
         after=(result.after_start_s, result.after_end_s) if given else None,
-    ))
+    ), **_check_context(run.calorimeter, run))
+
+
+def _check_context(calorimeter: Calorimeter | None, run: Run | None = None) -> dict[str, Any]:
+    """Return what calc's plausibility checks need from the notebook: the cup's type and history."""
+    if calorimeter is None:
+        return {}
+    own = [r.id for r in run.results if r.id is not None] if run is not None else []
+    return {"calorimeter_type": calorimeter.vessel_type, "history": history_of(calorimeter, leave_out_results=own)}
 
 
 # ----------------------------------------------------------------- queries
