@@ -136,4 +136,4 @@ def mount(host_app: Any, prefix: str = "/cupcal", config: Mapping[str, Any] | No
     """Serve cupcal under ``prefix`` of a host Flask app (see :mod:`webapp.mounting`); return cupcal's app."""
     from webapp.mounting import mount as _mount
 
-    return _mount(host_app, prefix, config)
+    return _mount(host_app, prefix, config, create_app)

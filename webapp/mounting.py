@@ -12,7 +12,7 @@ e-mail address. Off by default (None); see webapp/README.md for the risks.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Any
 
 from flask import Flask
@@ -20,14 +20,15 @@ from flask import current_app
 from werkzeug.middleware.dispatcher import DispatcherMiddleware
 
 
-def mount(host_app: Any, prefix: str = "/cupcal", config: Mapping[str, Any] | None = None) -> Flask:
+def mount(host_app: Any, prefix: str, config: Mapping[str, Any] | None,
+          create_app: Callable[[Mapping[str, Any]], Flask]) -> Flask:
     """Serve a new cupcal app under ``prefix`` of ``host_app`` (a Flask app or any WSGI app); return it.
 
     :param prefix: the URL prefix, starting with "/" and not ending with one
-    :param config: settings for :func:`webapp.create_app`
+    :param config: settings for ``create_app``
+    :param create_app: the app factory (:func:`webapp.create_app`, passed in so that this module does not
+        import the package that imports it)
     """
-    from webapp import create_app
-
     if not prefix.startswith("/") or prefix.endswith("/") or len(prefix) < 2:
         raise ValueError(f"expected a prefix like '/cupcal', got {prefix!r}")
     settings = {"SESSION_COOKIE_NAME": "cupcal_session", "SESSION_COOKIE_PATH": prefix, **(config or {})}
@@ -58,6 +59,6 @@ def _person_from_header(request: Any) -> Any:
 
 def init_proxy_user() -> None:
     """Register the header check with Flask-Login (it runs only when the header is configured)."""
-    from webapp.auth import login_manager
+    from webapp.auth.blueprint import login_manager
 
     login_manager.request_loader(_person_from_header)

@@ -8,54 +8,11 @@ at ``/api/openapi.json``.
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import g
-from flask import request
-from flask_login import current_user
+from webapp.api.blueprint import bp
+from webapp.api import calorimeters  # noqa: F401  (registers the routes)
+from webapp.api import classes  # noqa: F401
+from webapp.api import openapi  # noqa: F401
+from webapp.api import runs  # noqa: F401
+from webapp.api import exchange  # noqa: F401
 
-from webapp.db import get_session
-from webapp.errors import json_error
-from webapp.services.errors import Forbidden
-from webapp.services.tokens import token_for_secret
-
-bp = Blueprint("api", __name__, url_prefix="/api")
-
-_PUBLIC = {"api.openapi"}
-_SAFE = {"GET", "HEAD", "OPTIONS"}
-
-
-@bp.before_request
-def _authenticate():  # type: ignore[no-untyped-def]
-    """Find who is calling: a bearer token, or (for reads) the browser session."""
-    if request.endpoint in _PUBLIC:
-        return None
-    header = request.headers.get("Authorization", "")
-    if header:
-        scheme, _, secret = header.partition(" ")
-        if scheme.lower() != "bearer" or not secret.strip():
-            return _challenge("expected the header Authorization: Bearer <token>")
-        token = token_for_secret(get_session(), secret.strip())
-        if token is None:
-            return _challenge("the API token is unknown or revoked")
-        if request.method not in _SAFE and token.scope != "write":
-            raise Forbidden("this API token is read-only; make a token with the scope 'write'")
-        g.api_person = token.person
-        g.api_token = token
-        return None
-    if request.method in _SAFE and current_user.is_authenticated:
-        g.api_person = current_user._get_current_object()
-        return None
-    return _challenge("send an API token: Authorization: Bearer <token> (create one on the API tokens page)")
-
-
-def _challenge(message: str):  # type: ignore[no-untyped-def]
-    response, status = json_error(401, message)
-    response.headers["WWW-Authenticate"] = "Bearer"
-    return response, status
-
-
-from webapp.api import calorimeters  # noqa: E402,F401  (registers the routes)
-from webapp.api import classes  # noqa: E402,F401
-from webapp.api import openapi  # noqa: E402,F401
-from webapp.api import runs  # noqa: E402,F401
-from webapp.api import exchange  # noqa: E402,F401
+__all__ = ['bp']

@@ -6,7 +6,7 @@ import sqlalchemy as sa
 from flask import jsonify
 from flask import url_for
 
-from webapp.api import bp
+from webapp.api.blueprint import bp
 from webapp.api.params import actor
 from webapp.api.params import as_int
 from webapp.api.params import as_text

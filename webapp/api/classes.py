@@ -10,7 +10,7 @@ from flask import jsonify
 from flask import request
 from flask import url_for
 
-from webapp.api import bp
+from webapp.api.blueprint import bp
 from webapp.api.params import actor
 from webapp.api.params import as_int
 from webapp.api.params import as_text

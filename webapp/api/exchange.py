@@ -13,7 +13,7 @@ from flask import render_template
 from flask import request
 from flask import url_for
 
-from webapp.api import bp
+from webapp.api.blueprint import bp
 from webapp.api.params import actor
 from webapp.api.params import as_text
 from webapp.api.params import coordinators_only
@@ -29,7 +29,7 @@ from webapp.services import report_pdf as report_pdf_service
 from webapp.services import webhooks
 from webapp.services.errors import Invalid
 from webapp.services.packages import import_package
-from webapp.services.rocrate import crate_zip
+from webapp.services.rocrate import crate_zip, export_selection_zip
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
 
@@ -90,7 +90,7 @@ def export_selection():  # type: ignore[no-untyped-def]
     runs = exports_run.selected_runs(get_session(), actor(), _run_ids(request.args.get("run_ids")))
     fmt = request.args.get("format", "zip")
     if fmt == "zip":
-        return _download(exports_run.export_selection_zip(runs), "application/zip", "cupcal-runs.zip")
+        return _download(export_selection_zip(runs), "application/zip", "cupcal-runs.zip")
     if fmt == "csv":
         return _download(exports_run.export_csv(runs), "text/csv", "cupcal-runs.csv")
     raise Invalid(f"unknown format {fmt!r}; expected zip or csv", field="format")

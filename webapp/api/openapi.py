@@ -12,7 +12,7 @@ from calc import __version__
 from calc.io.runfile import CALORIMETER_TYPES
 from flask import jsonify
 
-from webapp.api import bp
+from webapp.api.blueprint import bp
 
 
 def _ref(name: str) -> dict[str, str]:

@@ -15,7 +15,7 @@ from flask_login import login_required
 from flask_login import login_user
 from flask_login import logout_user
 
-from webapp.auth import bp
+from webapp.auth.blueprint import bp
 from webapp.auth.forms import ConfirmForm
 from webapp.auth.forms import LoginForm
 from webapp.auth.forms import TokenForm

@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.calorimeters.blueprint import bp
+from webapp.calorimeters import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("calorimeters", __name__, url_prefix="/calorimeters")
-
-from webapp.calorimeters import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

@@ -14,7 +14,7 @@ from flask import url_for
 from flask_login import current_user
 from flask_login import login_required
 
-from webapp.calorimeters import bp
+from webapp.calorimeters.blueprint import bp
 from webapp.calorimeters.forms import CalorimeterEditForm
 from webapp.calorimeters.forms import CalorimeterForm
 from webapp.calorimeters.forms import HeatCapacityForm

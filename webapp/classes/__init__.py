@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.classes.blueprint import bp
+from webapp.classes import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("classes", __name__)
-
-from webapp.classes import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

@@ -14,7 +14,7 @@ from flask_login import login_required
 
 from webapp.class_plots import control_chart_svg
 from webapp.class_plots import distribution_svg
-from webapp.classes import bp
+from webapp.classes.blueprint import bp
 from webapp.classes.forms import BenchForm
 from webapp.classes.forms import CourseForm
 from webapp.classes.forms import RosterForm

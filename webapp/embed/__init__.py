@@ -8,23 +8,7 @@ origins of ``EMBED_FRAME_ANCESTORS`` (a CSP ``frame-ancestors`` value; default `
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import Response
-from flask import current_app
+from webapp.embed.blueprint import bp
+from webapp.embed import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("embed", __name__)
-
-
-@bp.after_request
-def _frame_policy(response: Response) -> Response:
-    ancestors = current_app.config.get("EMBED_FRAME_ANCESTORS") or "'self'"
-    response.headers["Content-Security-Policy"] = (
-        "default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; "
-        f"frame-ancestors {ancestors}")
-    response.headers["X-Content-Type-Options"] = "nosniff"
-    response.headers["Referrer-Policy"] = "no-referrer"
-    response.headers["Cache-Control"] = "private, no-store"
-    return response
-
-
-from webapp.embed import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

@@ -17,7 +17,7 @@ from flask_login import current_user
 from markupsafe import escape
 
 from webapp.db import get_session
-from webapp.embed import bp
+from webapp.embed.blueprint import bp
 from webapp.embed import links
 from webapp.models import Person
 from webapp.models import Run

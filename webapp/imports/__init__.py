@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.imports.blueprint import bp
+from webapp.imports import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("imports", __name__, url_prefix="/imports")
-
-from webapp.imports import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

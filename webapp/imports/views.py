@@ -12,7 +12,7 @@ from flask_wtf.file import FileField
 from flask_wtf.file import MultipleFileField
 
 from webapp.db import get_session
-from webapp.imports import bp
+from webapp.imports.blueprint import bp
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
 from webapp.services.errors import Invalid

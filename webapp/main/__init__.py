@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.main.blueprint import bp
+from webapp.main import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("main", __name__)
-
-from webapp.main import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

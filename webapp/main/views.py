@@ -8,7 +8,7 @@ from flask_login import current_user
 from flask_login import login_required
 
 from webapp.db import get_session
-from webapp.main import bp
+from webapp.main.blueprint import bp
 from webapp.services.calorimeters import calorimeters_due
 from webapp.services.runs import recent_runs
 

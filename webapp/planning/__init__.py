@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.planning.blueprint import bp
+from webapp.planning import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("planning", __name__)
-
-from webapp.planning import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

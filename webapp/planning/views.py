@@ -16,7 +16,7 @@ from wtforms.validators import InputRequired
 from wtforms.validators import NumberRange
 from wtforms.validators import Optional
 
-from webapp.planning import bp
+from webapp.planning.blueprint import bp
 
 
 class PlanForm(FlaskForm):

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
+from webapp.runs.blueprint import bp
+from webapp.runs import filters  # noqa: F401  (registers the template filters)
+from webapp.runs import new  # noqa: F401  (registers the routes)
+from webapp.runs import views  # noqa: F401  (registers the routes)
 
-bp = Blueprint("runs", __name__, url_prefix="/runs")
-
-from webapp.runs import filters  # noqa: E402,F401  (registers the template filters)
-from webapp.runs import new  # noqa: E402,F401  (registers the routes)
-from webapp.runs import views  # noqa: E402,F401  (registers the routes)
+__all__ = ['bp']

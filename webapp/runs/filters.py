@@ -11,7 +11,7 @@ from typing import Any
 
 from calc.refdata.hazards import general_caution
 
-from webapp.runs import bp
+from webapp.runs.blueprint import bp
 from webapp.services.analysis import finite_or_none
 
 _KELVIN_OFFSET = 273.15

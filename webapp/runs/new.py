@@ -30,7 +30,7 @@ from flask_login import login_required
 from webapp.auth.forms import ConfirmForm
 from webapp.db import get_session
 from webapp.plot_cache import draw_result_plots
-from webapp.runs import bp
+from webapp.runs.blueprint import bp
 from webapp.runs.runform import KIND_TITLES
 from webapp.runs.runform import build_run_toml
 from webapp.runs.runform import check_values

@@ -20,7 +20,7 @@ from webapp.plot_cache import draw_result_plots
 from webapp.plot_cache import run_plot
 from webapp.plot_cache import svg_response
 from webapp.quantities import main_value
-from webapp.runs import bp
+from webapp.runs.blueprint import bp
 from webapp.runs.forms import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions

@@ -16,7 +16,6 @@ import datetime as dt
 import hashlib
 import io
 import json
-import zipfile
 from collections.abc import Iterable
 from typing import Any
 
@@ -204,17 +203,3 @@ def selected_runs(session: so.Session, actor: Person, run_ids: Iterable[int]) ->
         return [get_run(session, actor, i) for i in ids]
     except NotFound as exc:
         raise NotFound(exc.message, field="run_ids") from None
-
-
-def export_selection_zip(runs: list[Run], crate: bool = True) -> bytes:
-    """Return a zip of a selection: ``results.csv``, and per run its JSON export and RO-Crate zip."""
-    from webapp.services.rocrate import crate_zip
-
-    out = io.BytesIO()
-    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as z:
-        z.writestr("results.csv", export_csv(runs))
-        for run in runs:
-            z.writestr(f"run-{run.id}.json", json.dumps(run_document(run), ensure_ascii=False, indent=2))
-            if crate:
-                z.writestr(f"run-{run.id}.crate.zip", crate_zip(run))
-    return out.getvalue()

@@ -1,0 +1,7 @@
+"""The ``imports`` blueprint object and what the routes share; the routes live beside it."""
+
+from __future__ import annotations
+
+from flask import Blueprint
+
+bp = Blueprint("imports", __name__, url_prefix="/imports")
