@@ -55,6 +55,7 @@ from webapp.services.rocrate import PROFILE
 NAMESPACE = "urn:cupcal:terms:"
 CRATE_CONTEXT: list[Any] = [CONTEXT, {"cupcal": NAMESPACE}]
 CALORIMETER_NAME = "calorimeter.json"
+CALORIMETER_FORMAT = "cupcal-calorimeter-export"
 RESULT_NAME = "result.json"
 REPORT_NAME = "report.html"
 #: most runs in one archive (a section of a large class fits)
@@ -204,6 +205,7 @@ def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, f
 def calorimeter_document(cal: Calorimeter) -> dict[str, Any]:
     """Return a calorimeter with its calibrations, oldest first, as JSON-ready data."""
     return {
+        "format": CALORIMETER_FORMAT, "format_version": 1,
         "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": _iso(cal.created_at),
         "calibration_interval_days": cal.calibration_interval_days,
         "calibrations": [{
