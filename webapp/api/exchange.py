@@ -33,7 +33,7 @@ from webapp.services.rocrate import crate_zip
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
 
-EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate")
+EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate", "eln")
 
 
 def _download(data: str | bytes, mimetype: str, filename: str) -> Response:
@@ -59,7 +59,7 @@ def report_pdf(run: Run) -> bytes:
 
 @bp.get("/runs/<int:run_id>/export/<string:fmt>")
 def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
-    """Export a run: json, csv, html (printable report), pdf (the same report) or ro-crate (zip)."""
+    """Export a run: json, csv, html (printable report), pdf (the same report), ro-crate (zip) or eln."""
     run = get_run(get_session(), actor(), run_id)
     if fmt == "json":
         return _download(exports_run.export_json(get_session(), actor(), run_id), "application/json",
@@ -74,6 +74,11 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
         return _download(report_pdf(run), "application/pdf", f"cupcal-run-{run.id}.pdf")
     if fmt == "ro-crate":
         return _download(crate_zip(run), "application/zip", f"cupcal-run-{run.id}.crate.zip")
+    if fmt == "eln":
+        from webapp.services import eln
+
+        name, data = eln.export_runs(get_session(), actor(), [run.id], eln.report_renderer())
+        return _download(data, "application/vnd.eln+zip", name)
     raise Invalid(f"unknown format {fmt!r}; expected one of: {', '.join(EXPORT_FORMATS)}", field="fmt")
 
 
@@ -93,7 +98,12 @@ def export_selection():  # type: ignore[no-untyped-def]
         return _download(exports_run.export_selection_zip(runs), "application/zip", "cupcal-runs.zip")
     if fmt == "csv":
         return _download(exports_run.export_csv(runs), "text/csv", "cupcal-runs.csv")
-    raise Invalid(f"unknown format {fmt!r}; expected zip or csv", field="format")
+    if fmt == "eln":
+        from webapp.services import eln
+
+        name, data = eln.export_runs(get_session(), actor(), [r.id for r in runs], eln.report_renderer())
+        return _download(data, "application/vnd.eln+zip", name)
+    raise Invalid(f"unknown format {fmt!r}; expected zip, csv or eln", field="format")
 
 
 @bp.post("/packages")

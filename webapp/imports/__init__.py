@@ -7,3 +7,4 @@ from flask import Blueprint
 bp = Blueprint("imports", __name__, url_prefix="/imports")
 
 from webapp.imports import views  # noqa: E402,F401  (registers the routes)
+from webapp.imports import eln_views  # noqa: E402,F401
