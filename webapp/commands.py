@@ -195,16 +195,23 @@ def _find_section(session, text: str):  # type: ignore[no-untyped-def]
 
 @click.command("import")
 @click.argument("path", type=click.Path(exists=True, path_type=Path))
-@click.option("--section", "section_text", required=True, help="Section: its id or COURSE/SECTION.")
+@click.option("--section", "section_text", help="Section: its id or COURSE/SECTION (not for an .eln archive).")
 @click.option("--mapping", type=click.Path(exists=True, dir_okay=False, path_type=Path),
               help="CSV mapping run files to groups: columns file, group[, bench].")
 @click.option("--as", "email", required=True, help="E-mail of the coordinator or technician importing.")
-def import_command(path: Path, section_text: str, mapping: Path | None, email: str) -> None:
-    """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv).
+def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str) -> None:
+    """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.
 
     Each run is stored all-or-nothing; importing the same files again changes nothing.
-    Runs are analysed without Monte Carlo (re-analyse a run for the check).
+    Runs are analysed without Monte Carlo (re-analyse a run for the check). An .eln archive
+    written by cupcal comes back exactly; see ``webapp/README.md``.
     """
+    if path.suffix.lower() == ".eln" and path.is_file():
+        from webapp.eln_commands import import_eln_file
+
+        return import_eln_file(path, email)
+    if not section_text:
+        raise click.UsageError("give --section (its id or COURSE/SECTION) to import run files")
     import sqlalchemy as sa
 
     from webapp.db import new_session

@@ -164,6 +164,9 @@ def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: i
 
     done = job.attempt(path, store)
     if done is None:
+        for p in sorted(files):
+            if posixpath.dirname(p) == folder and p not in job.done:
+                job.item(p, "ignored", f"part of {folder}/, which was not imported (see the error of {path})")
         return
     run_id, outcome = done
     job.item(posixpath.join(folder, names[0]), outcome,

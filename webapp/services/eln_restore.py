@@ -153,6 +153,10 @@ def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, A
                      where: str) -> tuple[Calorimeter | None, Calibration | None]:
     name = info.get("calorimeter")
     cal = find_calorimeter(session, name) if isinstance(name, str) and name else None
+    if name and cal is None:
+        raise Invalid(f"{where}: the run belongs to calorimeter {name!r}, which this notebook does not have; a "
+                      "coordinator can add it by importing its archive (or the whole notebook's) first",
+                      field="run.calorimeter")
     exported = (doc.get("provenance") or {}).get("calibration")
     if exported is None or not needs_supplied_heat_capacity(run_toml):
         return cal, None

@@ -1,0 +1,231 @@
+"""The .eln archive: export, the rocrate library's reader, exact round trip, other notebooks, hostile archives.
+
+The format (one root folder named like the archive, ro-crate-metadata.json with RO-Crate 1.1, a
+Dataset per experiment, File entities with contentSize and sha256) is the published .eln profile
+of RO-Crate 1.1 (from memory of the open specification). The archives are read back with the
+``rocrate`` library from the package registry, which we did not write.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import json
+import zipfile
+from pathlib import Path
+from typing import Any
+
+import pytest
+import sqlalchemy as sa
+from rocrate.rocrate import ROCrate
+
+from tests.webapp.conftest import DEMO
+from tests.webapp.eln_helpers import FAST_HASH
+from tests.webapp.eln_helpers import counts
+from tests.webapp.eln_helpers import crate
+from tests.webapp.eln_helpers import demo_source
+from tests.webapp.eln_helpers import dispose
+from tests.webapp.eln_helpers import file_entity
+from tests.webapp.eln_helpers import snapshot
+from tests.webapp.eln_helpers import zip_of
+from webapp.db import new_session
+from webapp.models import Person
+from webapp.models import Run
+from webapp.services.eln_check import read_archive
+from webapp.services.eln_import import import_eln
+from webapp.services.errors import Invalid
+from webapp.services.imports import Limits
+from webapp.services.people import create_person
+
+
+@pytest.fixture(scope="module")
+def source(tmp_path_factory: pytest.TempPathFactory) -> Any:
+    """The demo lab (one run edited, re-analysed and another signed) and its whole-notebook archive."""
+    app, data = demo_source(tmp_path_factory.mktemp("eln-source"))
+    s = new_session(app)
+    try:
+        snap = snapshot(s)
+    finally:
+        s.close()
+    yield {"app": app, "archive": data, "snapshot": snap}
+    dispose(app)
+
+
+def _coordinator(session: Any) -> Person:
+    return create_person(session, email="new.coordinator@elsewhere.example", name="New Coordinator",
+                         role="coordinator", password="a long pass phrase", password_method=FAST_HASH)
+
+
+# ----------------------------------------------------------------- written archives
+
+
+def test_written_archive_passes_the_rocrate_reader_and_our_checks(source: Any, tmp_path: Path) -> None:
+    data = source["archive"]
+    with zipfile.ZipFile(io.BytesIO(data)) as z:
+        names = z.namelist()
+        z.extractall(tmp_path)
+    assert {n.split("/", 1)[0] for n in names} == {"cupcal-notebook"}
+    checked = read_archive(data, "cupcal-notebook.eln")  # our checks: root folder, hasPart, sha256
+    crate_ = ROCrate(tmp_path / "cupcal-notebook")
+    assert crate_.metadata.as_jsonld()["conformsTo"]["@id"] == "https://w3id.org/ro/crate/1.1"
+    assert crate_.root_dataset["name"] == "cupcal-notebook"
+    ids = {e.id.rstrip("/").split("/")[-1] + ("/" if e.id.endswith("/") else "") for e in crate_.data_entities}
+    experiments = [e for e in checked.entities.values() if e["@id"].startswith("run-") and e["@id"].endswith("/")]
+    assert len(experiments) == len(source["snapshot"]["runs"]) == 6
+    for e in experiments:
+        assert e["@type"] == "Dataset" and e["name"] and e["dateCreated"] and e["dateModified"]
+        author = checked.entities[e["author"]["@id"]]
+        assert author["@type"] == "Person" and "@" in author["email"]
+        assert "expanded uncertainty" in e["description"] and "k = " in e["description"]
+        assert "eye protection" in e["description"] and "safety data sheet" in e["description"]
+        names_in = {p["@id"].split("/")[-1] for p in e["hasPart"]}
+        assert {"result.json", "report.html", "plot-temperature.svg", "cupcal-export.json"} <= names_in
+        assert e["@id"] in ids
+    for pid, e in checked.entities.items():
+        if e.get("@type") == "File":
+            body = checked.files[pid]
+            assert e["sha256"] == hashlib.sha256(body).hexdigest() and int(e["contentSize"]) == len(body)
+            assert e["encodingFormat"] and e["contentType"] == e["encodingFormat"]
+    root_parts = {p["@id"] for p in checked.root_dataset["hasPart"]}
+    folders = {p.split("/")[0] + "/" for p in checked.files if "/" in p}
+    assert folders <= root_parts  # every folder is listed
+
+
+def test_run_files_are_stored_exactly_as_uploaded(source: Any) -> None:
+    archive = read_archive(source["archive"], "cupcal-notebook.eln")
+    kcl = next(p for p in archive.files if p.endswith("diss-kcl-01.csv"))
+    assert archive.files[kcl] == (DEMO / "diss-kcl-01.csv").read_bytes()
+    assert archive.files[kcl.replace(".csv", ".toml")] == (DEMO / "diss-kcl-01.toml").read_bytes()
+
+
+# ----------------------------------------------------------------- round trip
+
+
+def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any, session: Any) -> None:
+    me = _coordinator(session)
+    report = import_eln(session, me, source["archive"], source="cupcal-notebook.eln", password_method=FAST_HASH)
+    assert report.count("error") == 0, [i for i in report.items if i.outcome == "error"]
+    assert report.count("stored") >= 6
+    session.expire_all()
+    assert snapshot(session) == source["snapshot"]
+    # every file of the archive is reported once
+    assert len({i.file for i in report.items if i.outcome != "stored" or i.run_id}) >= 6 * 6
+    # importing again stores nothing new
+    before = counts(session)
+    again = import_eln(session, me, source["archive"], source="cupcal-notebook.eln", password_method=FAST_HASH)
+    assert again.count("unchanged") == 6 and counts(session) == before
+    # people who were not here cannot sign in
+    newcomers = session.scalars(sa.select(Person).where(Person.id != me.id)).all()
+    assert newcomers and not any(p.active for p in newcomers)
+
+
+def test_a_technician_cannot_add_calorimeters_and_the_runs_that_need_them_wait(source: Any, session: Any) -> None:
+    tech = create_person(session, email="tech@elsewhere.example", name="Tech", role="technician",
+                         password="a long pass phrase", password_method=FAST_HASH)
+    report = import_eln(session, tech, source["archive"], source="x.eln", password_method=FAST_HASH)
+    errors = [i.message for i in report.items if i.outcome == "error"]
+    assert any("only a coordinator" in m for m in errors)
+    assert any("does not have" in m for m in errors)
+    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
+
+
+# ----------------------------------------------------------------- other notebooks
+
+
+def _foreign() -> bytes:
+    toml = (DEMO / "diss-kcl-01.toml").read_bytes()
+    csv = (DEMO / "diss-kcl-01.csv").read_bytes()
+    notes = b"%PDF-1.4 not really a pdf\n"
+    orphan = toml.replace(b'readings = "diss-kcl-01.csv"', b'readings = "missing.csv"')
+    files = {"exp-1/run.toml": toml, "exp-1/diss-kcl-01.csv": csv, "exp-1/photo.pdf": notes,
+             "exp-2/other.toml": orphan, "exp-3/notes.txt": b"just notes"}
+    graph = [file_entity(p, d) for p, d in files.items()]
+    graph += [{"@id": f"exp-{i}/", "@type": "Dataset", "name": f"Experiment {i}",
+               "hasPart": [{"@id": p} for p in files if p.startswith(f"exp-{i}/")]} for i in (1, 2, 3)]
+    meta = crate(graph, ["exp-1/", "exp-2/", "exp-3/"])
+    return zip_of([("their-export/ro-crate-metadata.json", meta)] + [(f"their-export/{p}", d) for p, d in files.items()])
+
+
+def test_other_notebooks_run_folders_become_runs_and_every_other_file_is_reported(session: Any) -> None:
+    me = _coordinator(session)
+    report = import_eln(session, me, _foreign(), source="their-export.eln", password_method=FAST_HASH)
+    by_file = {i.file.split("/", 1)[1]: i for i in report.items}
+    assert by_file["exp-1/run.toml"].outcome == "stored"
+    assert by_file["exp-1/diss-kcl-01.csv"].outcome == "used"
+    assert by_file["exp-1/photo.pdf"].outcome == "ignored"
+    assert by_file["exp-3/notes.txt"].outcome == "ignored"
+    assert by_file["exp-2/other.toml"].outcome == "error" and "missing.csv" in by_file["exp-2/other.toml"].message
+    run = session.get(Run, by_file["exp-1/run.toml"].run_id)
+    assert bytes(run.readings_raw) == (DEMO / "diss-kcl-01.csv").read_bytes()
+    # a dissolution of KCl: ΔsolH° = 17.22 kJ/mol at infinite dilution (NBS 1982 tables); the demo's
+    # invented run lands within a few kJ/mol of it
+    assert run.current_result.molar_enthalpy_kj_mol == pytest.approx(17.2, abs=3.0)
+
+
+# ----------------------------------------------------------------- hostile archives
+
+
+def _good_parts() -> tuple[dict[str, bytes], list[dict[str, Any]]]:
+    files = {"exp/run.toml": (DEMO / "diss-kcl-01.toml").read_bytes(),
+             "exp/diss-kcl-01.csv": (DEMO / "diss-kcl-01.csv").read_bytes()}
+    return files, [file_entity(p, d) for p, d in files.items()] + [
+        {"@id": "exp/", "@type": "Dataset", "name": "e", "hasPart": [{"@id": p} for p in files]}]
+
+
+def _archive(root: str = "a", *, meta: bytes | None = None, extra: list[tuple[str, bytes]] = (),
+             tamper: bytes | None = None, graph_extra: list[dict[str, Any]] = (), parts_extra: list[str] = ()) -> bytes:
+    files, graph = _good_parts()
+    if tamper is not None:
+        files["exp/diss-kcl-01.csv"] = tamper
+    meta = meta if meta is not None else crate(graph + list(graph_extra), ["exp/", *parts_extra])
+    return zip_of([(f"{root}/ro-crate-metadata.json", meta)] + [(f"{root}/{p}", d) for p, d in files.items()]
+                  + list(extra))
+
+
+def _bomb() -> bytes:
+    return _archive(extra=[("a/exp/zeros.bin", bytes(17 * 1024 * 1024))])
+
+
+HOSTILE = {
+    "not a zip": (lambda: b"PK\x03\x04 this is not really a zip", "not a zip archive"),
+    "two root folders": (lambda: _archive(extra=[("b/x.txt", b"x")]), "2 folders at the root"),
+    "a file beside the root folder": (lambda: _archive(extra=[("readme.txt", b"x")]), "sits beside the root folder"),
+    "a path leaving the root": (lambda: _archive(extra=[("a/../../etc/passwd", b"x")]), "leads out of the archive"),
+    "an absolute path": (lambda: _archive(extra=[("/etc/cron.d/x", b"x")]), "is an absolute path"),
+    "hasPart leaving the root": (lambda: _archive(parts_extra=["../outside.txt"]), "a path that leaves the root"),
+    "no metadata": (lambda: zip_of([("a/exp/run.toml", b"x")]), "no a/ro-crate-metadata.json"),
+    "metadata not JSON": (lambda: _archive(meta=b"{not json"), "is not JSON"),
+    "metadata not JSON-LD": (lambda: _archive(meta=json.dumps({"@context": CONTEXT_BAD, "@graph": []}).encode()),
+                             "is not valid JSON-LD"),
+    "an @id that is a number": (lambda: _archive(meta=json.dumps({
+        "@context": "https://w3id.org/ro/crate/1.1/context", "@graph": [{"@id": 5}]}).encode()), "is not valid JSON-LD"),
+    "no root dataset": (lambda: _archive(meta=json.dumps({"@context": "https://w3id.org/ro/crate/1.1/context",
+                                                          "@graph": [{"@id": "ro-crate-metadata.json",
+                                                                      "about": {"@id": "./"}}]}).encode()),
+                        "no root Dataset"),
+    "sha256 mismatch": (lambda: _archive(tamper=b"time_s,temperature_C\n0,20\n"), "does not match its bytes"),
+    "hasPart names a missing file": (lambda: _archive(parts_extra=["exp/ghost.csv"]), "which is not in the archive"),
+    "an entry twice": (lambda: _archive(extra=[("a/exp/run.toml", b"shadow")]), "is in the archive twice"),
+    "over the size limit (zip bomb)": (_bomb, "is it a zip bomb"),
+}
+CONTEXT_BAD = {"@vocab": 42}
+
+
+@pytest.mark.parametrize("case", sorted(HOSTILE))
+def test_hostile_archives_are_refused_with_their_own_message_and_nothing_stored(case: str, session: Any) -> None:
+    me = _coordinator(session)
+    make, expected = HOSTILE[case]
+    before = counts(session)
+    with pytest.raises(Invalid) as err:
+        import_eln(session, me, make(), source="a.eln", password_method=FAST_HASH)
+    assert expected in err.value.message and "nothing was imported" in err.value.message
+    assert counts(session) == before
+
+
+def test_each_hostile_archive_has_a_message_of_its_own() -> None:
+    messages = set()
+    for make, _expected in HOSTILE.values():
+        with pytest.raises(Invalid) as err:
+            read_archive(make(), "a.eln", Limits())
+        messages.add(err.value.message)
+    assert len(HOSTILE) >= 10 and len(messages) == len(HOSTILE)
