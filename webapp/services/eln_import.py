@@ -36,6 +36,7 @@ from webapp.services.eln_check import read_archive
 from webapp.services.eln_restore import People
 from webapp.services.eln_restore import restore_calorimeter
 from webapp.services.eln_restore import restore_run
+from webapp.services.eln_restore import when
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.errors import storage_error
@@ -116,6 +117,19 @@ def _existing(session: so.Session, digest: str) -> int | None:
     return session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
 
 
+def _same_run(session: so.Session, doc: dict[str, Any], digest: str) -> int | None:
+    """Return the run recorded at the same time from the same files (a run uploaded here has no hash stored)."""
+    recorded = (doc.get("provenance") or {}).get("recorded_at")
+    try:
+        at = when(recorded, "provenance.recorded_at")
+    except Invalid:
+        return None
+    for run in session.scalars(sa.select(Run).where(Run.created_at == at)):
+        if content_hash(run.run_toml.encode("utf-8"), bytes(run.readings_raw)) == digest:
+            return run.id
+    return None
+
+
 def _calorimeters(job: _Import, folders: dict[str, list[str]]) -> None:
     for folder in folders:
         path = posixpath.join(folder, CALORIMETER_NAME)
@@ -152,7 +166,7 @@ def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: i
 
     def store() -> tuple[int, str]:
         digest = content_hash(blobs[names[0]], blobs[names[1]])
-        existing = _existing(job.session, digest)
+        existing = _existing(job.session, digest) or _same_run(job.session, doc, digest)
         if existing is not None:
             return existing, "unchanged"
         run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path)
