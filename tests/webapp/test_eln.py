@@ -34,7 +34,6 @@ from webapp.models import Run
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
-from webapp.services.imports import Limits
 from webapp.services.people import create_person
 
 
@@ -226,6 +225,6 @@ def test_each_hostile_archive_has_a_message_of_its_own() -> None:
     messages = set()
     for make, _expected in HOSTILE.values():
         with pytest.raises(Invalid) as err:
-            read_archive(make(), "a.eln", Limits())
+            read_archive(make(), "a.eln")
         messages.add(err.value.message)
     assert len(HOSTILE) >= 10 and len(messages) == len(HOSTILE)

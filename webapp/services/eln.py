@@ -66,18 +66,18 @@ _MEDIA = {".toml": "application/toml", ".csv": "text/csv", ".json": "application
 
 @dataclasses.dataclass
 class Archive:
-    """An archive being written: its root folder name, the files (path → bytes) and the graph."""
+    """An archive being written: its root folder, the zip (each file written as it comes) and the graph."""
 
     root: str
-    files: dict[str, bytes] = dataclasses.field(default_factory=dict)
+    zip: zipfile.ZipFile
     graph: list[dict[str, Any]] = dataclasses.field(default_factory=list)
     parts: list[str] = dataclasses.field(default_factory=list)
     people: dict[str, dict[str, Any]] = dataclasses.field(default_factory=dict)
 
     def add_file(self, folder: str, name: str, data: bytes, title: str) -> str:
-        """Add a file under ``folder`` with its ``File`` entity; return its id."""
+        """Write a file under ``folder`` and add its ``File`` entity; return its id."""
         path = f"{folder}{name}"
-        self.files[path] = data
+        self.zip.writestr(f"{self.root}/{path}", data)
         media = _MEDIA.get(name[name.rfind("."):].lower(), "application/octet-stream")
         self.graph.append({"@id": path, "@type": "File", "name": title, "encodingFormat": media,
                            "contentType": media, "contentSize": str(len(data)),
@@ -245,8 +245,8 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
 # ----------------------------------------------------------------- the archive
 
 
-def finish(archive: Archive, description: str) -> bytes:
-    """Return the archive as zip bytes: the metadata, then every file, under the root folder."""
+def finish(archive: Archive, description: str) -> None:
+    """Write the metadata (the descriptor, the root dataset, every entity) into the archive."""
     now = _iso(_utc_now())
     graph: list[dict[str, Any]] = [
         {"@id": METADATA, "@type": "CreativeWork", "about": {"@id": "./"}, "conformsTo": {"@id": PROFILE},
@@ -260,12 +260,7 @@ def finish(archive: Archive, description: str) -> bytes:
     ]
     graph += archive.graph + list(archive.people.values())
     meta = json.dumps({"@context": CRATE_CONTEXT, "@graph": graph}, ensure_ascii=False, indent=1, allow_nan=False)
-    out = io.BytesIO()
-    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as z:
-        z.writestr(f"{archive.root}/{METADATA}", meta)
-        for path, data in archive.files.items():
-            z.writestr(f"{archive.root}/{path}", data)
-    return out.getvalue()
+    archive.zip.writestr(f"{archive.root}/{METADATA}", meta)
 
 
 def _load(query: sa.Select[tuple[Run]]) -> sa.Select[tuple[Run]]:
@@ -298,13 +293,16 @@ def build(session: so.Session, runs: Iterable[Run], calorimeters: Iterable[Calor
     runs = list(runs)
     if len(runs) > MAX_RUNS:
         raise Invalid(f"at most {MAX_RUNS} runs per archive; export a smaller selection", field="run_ids")
-    archive = Archive(root)
-    for cal in calorimeters:
-        add_calorimeter(archive, cal)
-    trails = audit_trails(session, [r.id for r in runs])
-    for run in runs:
-        add_run(archive, run, trails[run.id], report)
-    return finish(archive, description)
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as z:
+        archive = Archive(root, z)
+        for cal in calorimeters:
+            add_calorimeter(archive, cal)
+        trails = audit_trails(session, [r.id for r in runs])
+        for run in runs:
+            add_run(archive, run, trails[run.id], report)
+        finish(archive, description)
+    return out.getvalue()
 
 
 # ----------------------------------------------------------------- what to export

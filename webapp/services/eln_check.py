@@ -1,7 +1,8 @@
 """Reading and checking ``.eln`` archives: one root folder, safe paths, the metadata, every ``sha256``.
 
 :func:`read_archive` refuses (raises :class:`Invalid` with a message of its own) an archive
-that is not a zip, is over the bulk import's limits (:class:`webapp.services.imports.Limits`),
+that is not a zip, is over the bulk import's limits (:data:`ELN_LIMITS`: its byte limits, and four
+times its number of files, as a run's folder holds more than a run file and a log),
 has several entries of one name, several root folders or a file beside the root folder, a path
 that leaves the root folder, no ``ro-crate-metadata.json``, metadata that is not JSON or not
 valid JSON-LD (checked by expanding it with pyld; the RO-Crate context is replaced by a local
@@ -20,10 +21,14 @@ from typing import Any
 from urllib.parse import unquote
 
 from webapp.services.errors import Invalid
+from webapp.services.imports import MAX_FILES
 from webapp.services.imports import Limits
 from webapp.services.imports import files_from_zip
 from webapp.services.rocrate import METADATA
 
+#: the bulk import's limits, with room for the files an experiment folder holds beside its run file and log
+#: (a bulk import counts two files a run; a cupcal run folder holds up to eight)
+ELN_LIMITS = Limits(max_files=4 * MAX_FILES)
 #: what a remote context stands for while checking the JSON-LD (never fetched)
 _STAND_IN = {"@context": {"@vocab": "http://schema.org/"}}
 
@@ -183,7 +188,7 @@ def _check_files(entities: dict[str, dict[str, Any]], files: dict[str, bytes], s
             raise _refuse(source, f"the contentSize of {pid!r} ({size}) is not its size ({len(files[path])} bytes)")
 
 
-def read_archive(data: bytes, source: str = "archive.eln", limits: Limits = Limits()) -> ElnArchive:
+def read_archive(data: bytes, source: str = "archive.eln", limits: Limits = ELN_LIMITS) -> ElnArchive:
     """Return the checked archive, or raise :class:`Invalid` saying why it is refused."""
     names = _zip_names(data, source)
     try:

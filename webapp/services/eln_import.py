@@ -31,6 +31,7 @@ from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
 from webapp.services.eln import CALORIMETER_FORMAT
 from webapp.services.eln import CALORIMETER_NAME
+from webapp.services.eln_check import ELN_LIMITS
 from webapp.services.eln_check import ElnArchive
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_restore import People
@@ -233,7 +234,7 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
 
 
 def import_eln(session: so.Session, actor: Person, data: bytes, *, source: str = "archive.eln",
-               limits: Limits = Limits(), password_method: str = DEFAULT_PASSWORD_METHOD) -> ImportReport:
+               limits: Limits = ELN_LIMITS, password_method: str = DEFAULT_PASSWORD_METHOD) -> ImportReport:
     """Import an ``.eln`` archive and report every file of it.
 
     :raise Forbidden: unless ``actor`` is a coordinator or a technician
