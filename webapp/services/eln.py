@@ -142,7 +142,7 @@ def _export_doc(run: Run, doc: dict[str, Any], run_path: str, readings_path: str
         entry["path"] = path.rsplit("/", 1)[-1]
     doc["audit_trail"] = audit
     doc["content_hash"] = run.content_hash
-    return json.dumps(doc, ensure_ascii=False, indent=1, allow_nan=False).encode("utf-8")
+    return json.dumps(doc, ensure_ascii=False, allow_nan=False).encode("utf-8")
 
 
 def _modified(run: Run) -> dt.datetime:
@@ -162,7 +162,7 @@ def add_run(archive: Archive, run: Run, audit: list[dict[str, Any]], report: Any
     first = len(archive.parts)
     run_path = archive.add_file(folder, run_name, run.run_toml.encode("utf-8"), "Run file (as uploaded)")
     readings_path = archive.add_file(folder, readings_name, bytes(run.readings_raw), "Temperature log (as uploaded)")
-    archive.add_file(folder, RESULT_NAME, json.dumps(doc["result"], ensure_ascii=False, indent=1).encode("utf-8"),
+    archive.add_file(folder, RESULT_NAME, json.dumps(doc["result"], ensure_ascii=False).encode("utf-8"),
                      "Current result with budget, comparison and cautions (JSON)")
     archive.add_file(folder, EXPORT_NAME, _export_doc(run, doc, run_path, readings_path, audit),
                      "Full cupcal export of the run: every result, inputs, provenance and audit trail")
@@ -222,7 +222,7 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
     """Add a calorimeter's folder (its calibrations) and its ``Dataset``."""
     folder = f"calorimeter-{cal.id}/"
     doc = calorimeter_document(cal)
-    path = archive.add_file(folder, CALORIMETER_NAME, json.dumps(doc, ensure_ascii=False, indent=1).encode(),
+    path = archive.add_file(folder, CALORIMETER_NAME, json.dumps(doc, ensure_ascii=False).encode(),
                             "Calorimeter and its calibrations (JSON)")
     archive.parts.remove(path)
     archive.parts.append(folder)
@@ -259,7 +259,7 @@ def finish(archive: Archive, description: str) -> None:
         {"@id": "#license", "@type": "CreativeWork", "name": "as set by the lab that wrote this archive"},
     ]
     graph += archive.graph + list(archive.people.values())
-    meta = json.dumps({"@context": CRATE_CONTEXT, "@graph": graph}, ensure_ascii=False, indent=1, allow_nan=False)
+    meta = json.dumps({"@context": CRATE_CONTEXT, "@graph": graph}, ensure_ascii=False, allow_nan=False)
     archive.zip.writestr(f"{archive.root}/{METADATA}", meta)
 
 

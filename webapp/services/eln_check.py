@@ -148,7 +148,10 @@ def _check_path(path: str, source: str) -> None:
 
 
 def _check_parts(entities: dict[str, dict[str, Any]], files: dict[str, bytes], source: str) -> None:
-    folders = {p.rsplit("/", 1)[0] + "/" for p in files if "/" in p}
+    folders = set()
+    for p in files:
+        parts = p.split("/")[:-1]
+        folders.update("/".join(parts[:i]) + "/" for i in range(1, len(parts) + 1))
     todo, seen = [entities["./"]], set()
     while todo:
         entity = todo.pop()
@@ -160,7 +163,7 @@ def _check_parts(entities: dict[str, dict[str, Any]], files: dict[str, bytes], s
             seen.add(pid)
             _check_path(path, source)
             if path.endswith("/"):
-                if not any(f.startswith(path) for f in folders):
+                if path not in folders:
                     raise _refuse(source, f"hasPart lists the folder {pid!r}, which is not in the archive")
             elif path not in files:
                 raise _refuse(source, f"hasPart lists the file {pid!r}, which is not in the archive")

@@ -153,13 +153,13 @@ def _cupcal_runs(job: _Import, folders: dict[str, list[str]]) -> None:
             found.append((str(prov.get("recorded_at") or ""), source_id if isinstance(source_id, int) else 0,
                           folder, doc))
     for _at, source_id, folder, doc in sorted(found, key=lambda f: (f[0], f[1])):
-        _one_cupcal_run(job, folder, doc, source_id)
+        _one_cupcal_run(job, folder, folders[folder], doc, source_id)
 
 
-def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: int) -> None:
+def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, Any], source_id: int) -> None:
     files = job.archive.files
     path = posixpath.join(folder, EXPORT_NAME)
-    blobs = {p.rsplit("/", 1)[-1]: files[p] for p in files if posixpath.dirname(p) == folder}
+    blobs = {p.rsplit("/", 1)[-1]: files[p] for p in paths}
     names = [((doc.get("files") or {}).get(w) or {}).get("path") for w in ("run_file", "readings")]
     if not all(isinstance(n, str) and n in blobs for n in names):
         job.item(path, "error", "the run file or the log it names is not in this folder")
@@ -171,7 +171,6 @@ def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: i
         if existing is not None:
             return existing, "unchanged"
         run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path)
-        job.session.flush()
         record_change(job.session, job.actor, "run", run.id, "imported", None,
                       f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
         job.session.commit()
@@ -179,8 +178,8 @@ def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: i
 
     done = job.attempt(path, store)
     if done is None:
-        for p in sorted(files):
-            if posixpath.dirname(p) == folder and p not in job.done:
+        for p in paths:
+            if p not in job.done:
                 job.item(p, "ignored", f"part of {folder}/, which was not imported (see the error of {path})")
         return
     run_id, outcome = done
@@ -188,8 +187,8 @@ def _one_cupcal_run(job: _Import, folder: str, doc: dict[str, Any], source_id: i
              f"run #{run_id}" + (" (already stored)" if outcome == "unchanged" else " with every result"), run_id)
     job.item(posixpath.join(folder, names[1]), "used", f"the log of run #{run_id}", run_id)
     job.item(path, "used", f"results, inputs and audit fields of run #{run_id}", run_id)
-    for p in sorted(files):
-        if posixpath.dirname(p) == folder and p not in job.done:
+    for p in paths:
+        if p not in job.done:
             job.item(p, "ignored", f"made from run #{run_id}; this notebook makes it again", run_id)
 
 
@@ -244,9 +243,13 @@ def import_eln(session: so.Session, actor: Person, data: bytes, *, source: str =
     archive = read_archive(data, source, limits)
     job = _Import(session, actor, archive, password_method)
     folders = _folders(archive.files)
-    _calorimeters(job, folders)
-    _cupcal_runs(job, folders)
-    _foreign_runs(job, folders)
+    expire, session.expire_on_commit = session.expire_on_commit, False  # people and groups stay loaded
+    try:
+        _calorimeters(job, folders)
+        _cupcal_runs(job, folders)
+        _foreign_runs(job, folders)
+    finally:
+        session.expire_on_commit = expire
     if job.accounts:
         job.report.items.append(ImportItem(archive.root, "stored", "inactive accounts (they cannot sign in) for: "
                                            + ", ".join(sorted(job.accounts))))

@@ -256,9 +256,10 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         if rdoc.get("analysed_at"):
             result.created_at = when(rdoc["analysed_at"], "result.analysed_at")
         session.add(result)
-        session.flush()
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
+            session.flush()  # the calibration's note names the run
             add_calibration_from_result(session, cal, result, run.created_at, result.created_by)
+    session.flush()
     _audit(session, run, doc, people)
     return run
