@@ -134,12 +134,12 @@ def summary_text(run: Run, doc: dict[str, Any]) -> str:
 
 def _export_doc(run: Run, doc: dict[str, Any], run_path: str, readings_path: str,
                 audit: list[dict[str, Any]]) -> bytes:
-    doc = json.loads(json.dumps(doc))  # a copy without the files' text: they sit beside it
+    full = doc["files"]
+    doc = dict(doc, files={})  # without the files' text: they sit beside it
     for which, path in (("run_file", run_path), ("readings", readings_path)):
-        entry = doc["files"][which]
-        entry.pop("text", None)
-        entry.pop("base64", None)
+        entry = {k: v for k, v in full[which].items() if k not in ("text", "base64")}
         entry["path"] = path.rsplit("/", 1)[-1]
+        doc["files"][which] = entry
     doc["audit_trail"] = audit
     doc["content_hash"] = run.content_hash
     return json.dumps(doc, ensure_ascii=False, allow_nan=False).encode("utf-8")
