@@ -60,7 +60,7 @@ def export_command(fmt: str, run_ids: tuple[int, ...], section_text: str | None,
         session = new_session(app)
         try:
             actor = _person(session, email)
-            report = eln.report_renderer()
+            report = eln.report_renderer(pdf=len(set(run_ids)) == 1)
             if run_ids:
                 name, data = eln.export_runs(session, actor, list(run_ids), report)
             elif section_text:

@@ -87,9 +87,9 @@ def snapshot(session: Any) -> dict[str, Any]:
         history = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
                                   .order_by(Calibration.taken_at, Calibration.id)).all()
         cals.append((cal.name, cal.parts, cal.location, cal.calibration_interval_days, [
-            (c.heat_capacity_j_k, c.heat_capacity_j_k_std, c.taken_at.isoformat(),
+            (c.heat_capacity_j_k, c.heat_capacity_j_k_std, c.taken_at.isoformat(), c.created_at.isoformat(),
              c.created_by.email if c.created_by else None, c.result is not None,
-             None if c.result is not None else (c.note, c.created_at.isoformat())) for c in history]))
+             None if c.result is not None else c.note) for c in history]))
     return {"runs": runs, "calorimeters": cals}
 
 

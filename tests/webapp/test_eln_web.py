@@ -17,7 +17,6 @@ from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
 from tests.webapp.eln_helpers import zip_of
 from webapp.models import Run
-from webapp.services.classes import create_bench  # noqa: F401  (the section fixture below uses the services)
 from webapp.services.classes import create_section
 from webapp.services.people import create_course
 from webapp.services.people import create_group
@@ -35,6 +34,9 @@ def test_api_exports_a_run_a_selection_and_the_notebook_and_imports_them(client:
     assert one.status_code == 200 and one.mimetype == "application/vnd.eln+zip"
     assert f'filename="cupcal-run-{first}.eln"' in one.headers["Content-Disposition"]
     assert _root(one.data) == {f"cupcal-run-{first}"}
+    with zipfile.ZipFile(io.BytesIO(one.data)) as z:
+        pdf = z.read(f"cupcal-run-{first}/run-{first}/report.pdf")
+    assert pdf.startswith(b"%PDF-")
     both = client.get(f"/api/exports?format=eln&run_ids={first},{second}", headers=lab.auth("coord"))
     assert both.status_code == 200 and _root(both.data) == {"cupcal-runs-2"}
     # a student cannot export a run of another group

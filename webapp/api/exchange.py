@@ -77,7 +77,7 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
     if fmt == "eln":
         from webapp.services import eln
 
-        name, data = eln.export_runs(get_session(), actor(), [run.id], eln.report_renderer())
+        name, data = eln.export_runs(get_session(), actor(), [run.id], eln.report_renderer(pdf=True))
         return _download(data, "application/vnd.eln+zip", name)
     raise Invalid(f"unknown format {fmt!r}; expected one of: {', '.join(EXPORT_FORMATS)}", field="fmt")
 

@@ -5,7 +5,8 @@ An archive is a zip holding exactly one folder, named like the archive, with
 
 - ``run-<id>/``: the run file and the log exactly as uploaded, ``result.json`` (the current
   result), ``cupcal-export.json`` (the run's full JSON export of :mod:`exports_run`, with the
-  audit trail, which an import reads back exactly), ``report.html`` and SVG plots;
+  audit trail, which an import reads back exactly), ``report.html`` (and ``report.pdf`` in a
+  one-run archive) and SVG plots;
 - ``calorimeter-<id>/``: ``calorimeter.json`` with the calorimeter and its calibrations.
 
 The metadata uses schema.org terms where they fit and the ``cupcal:`` namespace
@@ -166,8 +167,8 @@ def add_run(archive: Archive, run: Run, audit: list[dict[str, Any]], report: Any
                      "Current result with budget, comparison and cautions (JSON)")
     archive.add_file(folder, EXPORT_NAME, _export_doc(run, doc, run_path, readings_path, audit),
                      "Full cupcal export of the run: every result, inputs, provenance and audit trail")
-    if report is not None:
-        archive.add_file(folder, REPORT_NAME, report(run).encode("utf-8"), "Printable report (HTML)")
+    for name, data in (report(run) if report is not None else {}).items():
+        archive.add_file(folder, name, data, f"Printable report ({name.rsplit('.', 1)[-1].upper()})")
     for name, svg in plots_of(run, current).items():
         archive.add_file(folder, name, svg.encode("utf-8"), "Plot: " + name[5:-4].replace("-", " "))
     files = archive.parts[first:]
@@ -349,11 +350,22 @@ def export_notebook(session: so.Session, actor: Person, report: Any = None) -> t
                                         f"Every calorimeter and run of a cupcal notebook ({len(runs)} runs)", report)
 
 
-def report_renderer() -> Any:
-    """Return the function writing a run's printable report (needs an app context)."""
-    from webapp.api.exchange import report_html
+def report_renderer(pdf: bool = False) -> Any:
+    """Return the function writing a run's printable report files, HTML (and PDF); needs an app context.
 
-    return lambda run: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "")
+    The PDF takes about a second a run, so it is made for one-run archives only.
+    """
+    from webapp.api.exchange import report_html
+    from webapp.api.exchange import report_pdf
+
+    def render(run: Run) -> dict[str, bytes]:
+        out = {REPORT_NAME: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "")
+               .encode("utf-8")}
+        if pdf:
+            out["report.pdf"] = report_pdf(run)
+        return out
+
+    return render
 
 
 __all__ = ["NAMESPACE", "build", "export_runs", "export_section", "export_calorimeter", "export_notebook",

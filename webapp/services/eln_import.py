@@ -35,6 +35,7 @@ from webapp.services.eln_check import ELN_LIMITS
 from webapp.services.eln_check import ElnArchive
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_restore import People
+from webapp.services.eln_restore import calibration_stamps
 from webapp.services.eln_restore import restore_calorimeter
 from webapp.services.eln_restore import restore_run
 from webapp.services.eln_restore import when
@@ -64,6 +65,7 @@ class _Import:
         self.done: set[str] = {METADATA}
         self.password_method = password_method
         self.accounts: set[str] = set()
+        self.stamps: dict[tuple[Any, ...], str] = {}
         self.fresh()
 
     def fresh(self) -> None:
@@ -137,6 +139,7 @@ def _calorimeters(job: _Import, folders: dict[str, list[str]]) -> None:
         doc = _json(job.archive.files[path]) if path in job.archive.files else None
         if not isinstance(doc, dict) or doc.get("format") != CALORIMETER_FORMAT:
             continue
+        job.stamps.update(calibration_stamps(doc))
         message = job.attempt(path, lambda: restore_calorimeter(job.session, job.actor, doc, job.people, path))
         if message is not None:
             job.item(path, "stored", message)
@@ -170,7 +173,7 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
         existing = _existing(job.session, digest) or _same_run(job.session, doc, digest)
         if existing is not None:
             return existing, "unchanged"
-        run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path)
+        run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path, job.stamps)
         record_change(job.session, job.actor, "run", run.id, "imported", None,
                       f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
         job.session.commit()

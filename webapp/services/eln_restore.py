@@ -226,9 +226,22 @@ def _results_in_order(doc: dict[str, Any], where: str) -> list[dict[str, Any]]:
     return sorted(earlier + [current], key=lambda r: r.get("id") if isinstance(r.get("id"), int) else 0)
 
 
+def calibration_stamps(doc: Any) -> dict[tuple[Any, ...], str]:
+    """Return when each calibration measured by a run was stored, from a ``calorimeter.json``."""
+    out = {}
+    for c in (doc.get("calibrations") or []) if isinstance(doc, dict) else []:
+        if isinstance(c, dict) and c.get("from_run") is not None and isinstance(c.get("created_at"), str):
+            hc = c.get("heat_capacity") or {}
+            out[(doc.get("name"), c["from_run"], hc.get("value"), hc.get("standard_uncertainty"))] = c["created_at"]
+    return out
+
+
 def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, bytes], people: People,
-                groups: dict[str, Group], where: str) -> Run:
-    """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit)."""
+                groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None) -> Run:
+    """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit).
+
+    ``stamps`` (:func:`calibration_stamps`) give the calibrations the run measured their time of storing.
+    """
     if not isinstance(doc, dict) or doc.get("format") != FORMAT or doc.get("format_version") != 1:
         raise Invalid(f"{where}: expected a cupcal run export (format {FORMAT!r}, version 1)", field="format")
     run_name, run_bytes = _file(doc, "run_file", blobs)
@@ -259,7 +272,11 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
             session.flush()  # the calibration's note names the run
-            add_calibration_from_result(session, cal, result, run.created_at, result.created_by)
+            c = add_calibration_from_result(session, cal, result, run.created_at, result.created_by)
+            stamp = (stamps or {}).get((cal.name, (doc.get("run") or {}).get("id"), c.heat_capacity_j_k,
+                                        c.heat_capacity_j_k_std))
+            if stamp:
+                c.created_at = when(stamp, "calibrations.created_at")
     session.flush()
     _audit(session, run, doc, people)
     return run
