@@ -206,6 +206,9 @@ HOSTILE = {
     "hasPart names a missing file": (lambda: _archive(parts_extra=["exp/ghost.csv"]), "which is not in the archive"),
     "an entry twice": (lambda: _archive(extra=[("a/exp/run.toml", b"shadow")]), "is in the archive twice"),
     "over the size limit (zip bomb)": (_bomb, "is it a zip bomb"),
+    "one file under two spellings": (lambda: _archive(extra=[("a/exp/./run.toml", b"shadow")]),
+                                     "two entries name the same file"),
+    "metadata nested too deeply": (lambda: _archive(meta=b"[" * 100_000 + b"]" * 100_000), "nested too deeply"),
 }
 CONTEXT_BAD = {"@vocab": 42}
 

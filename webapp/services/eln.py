@@ -44,7 +44,6 @@ from webapp.services.classes import get_section
 from webapp.services.eln_plots import plots_of
 from webapp.services.errors import Invalid
 from webapp.services.exports_run import _iso
-from webapp.services.exports_run import result_document
 from webapp.services.exports_run import run_document
 from webapp.services.exports_run import selected_runs
 from webapp.services.rocrate import CONTEXT
@@ -366,7 +365,3 @@ def report_renderer(pdf: bool = False) -> Any:
         return out
 
     return render
-
-
-__all__ = ["NAMESPACE", "build", "export_runs", "export_section", "export_calorimeter", "export_notebook",
-           "report_renderer", "result_document"]

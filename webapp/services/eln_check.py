@@ -78,7 +78,7 @@ def _refuse(source: str, message: str) -> Invalid:
 def _zip_names(data: bytes, source: str) -> list[str]:
     try:
         with zipfile.ZipFile(io.BytesIO(data)) as zf:
-            return [i.filename for i in zf.infolist()]
+            return [i.filename for i in zf.infolist() if not i.is_dir()]
     except (zipfile.BadZipFile, ValueError):
         raise _refuse(source, "not a zip archive (an .eln archive is a zip)") from None
 
@@ -89,6 +89,8 @@ def _root_of(names: list[str], files: dict[str, bytes], source: str) -> str:
         if n in seen:
             raise _refuse(source, f"the entry {n!r} is in the archive twice")
         seen.add(n)
+    if len(files) != len(names):
+        raise _refuse(source, "two entries name the same file (written differently, like 'a/x' and 'a/./x')")
     tops = {p.split("/", 1)[0] for p in files}
     loose = sorted(p for p in files if "/" not in p)
     if loose:
@@ -207,6 +209,8 @@ def read_archive(data: bytes, source: str = "archive.eln", limits: Limits = ELN_
         meta = json.loads(inner[METADATA].decode("utf-8-sig"))
     except (UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise _refuse(source, f"{METADATA} is not JSON: {exc}") from None
+    except RecursionError:
+        raise _refuse(source, f"{METADATA} is nested too deeply to read") from None
     _check_json_ld(meta, source)
     entities = _entities(meta, source)
     _check_parts(entities, inner, source)

@@ -105,7 +105,7 @@ class _Import:
 def _json(data: bytes) -> Any:
     try:
         return json.loads(data.decode("utf-8-sig"))
-    except (UnicodeDecodeError, json.JSONDecodeError):
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError):
         return None
 
 
