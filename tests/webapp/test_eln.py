@@ -29,8 +29,10 @@ from tests.webapp.eln_helpers import file_entity
 from tests.webapp.eln_helpers import snapshot
 from tests.webapp.eln_helpers import zip_of
 from webapp.db import new_session
+from webapp.models import Calorimeter
 from webapp.models import Person
 from webapp.models import Run
+from webapp.services import eln
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
@@ -126,6 +128,21 @@ def test_a_technician_cannot_add_calorimeters_and_the_runs_that_need_them_wait(s
     assert any("only a coordinator" in m for m in errors)
     assert any("does not have" in m for m in errors)
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
+    # a coordinator brings the calorimeters; the technician then imports the runs, except the signed one
+    coord = create_person(session, email="coord@elsewhere.example", name="Coord", role="coordinator",
+                          password="a long pass phrase", password_method=FAST_HASH)
+    src = new_session(source["app"])
+    try:
+        cals = eln.build(src, [], src.scalars(sa.select(Calorimeter)).all(), "cals", "the calorimeters")
+    finally:
+        src.close()
+    assert import_eln(session, coord, cals, source="cals.eln", password_method=FAST_HASH).count("error") == 0
+    report = import_eln(session, tech, source["archive"], source="x.eln", password_method=FAST_HASH)
+    errors = [i.message for i in report.items if i.outcome == "error"]
+    assert len(errors) == 1 and "only a coordinator may import signed runs" in errors[0]
+    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 5
+    assert not any(r.locked for r in session.scalars(sa.select(Run)))
+
 
 
 # ----------------------------------------------------------------- other notebooks

@@ -166,6 +166,9 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
     names = [((doc.get("files") or {}).get(w) or {}).get("path") for w in ("run_file", "readings")]
     if not all(isinstance(n, str) and n in blobs for n in names):
         job.item(path, "error", "the run file or the log it names is not in this folder")
+        for p in paths:
+            if p not in job.done:
+                job.item(p, "ignored", f"part of {folder}/, which was not imported (see the error of {path})")
         return
 
     def store() -> tuple[int, str]:

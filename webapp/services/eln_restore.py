@@ -189,7 +189,8 @@ def check_same(result: Result, exported: dict[str, Any], where: str) -> None:
                           f"{exported.get('software_version')}); the run was not stored", field="result")
 
 
-def _details(session: so.Session, run: Run, doc: dict[str, Any], people: People, groups: dict[str, Group]) -> None:
+def _details(session: so.Session, actor: Person, run: Run, doc: dict[str, Any], people: People,
+             groups: dict[str, Group]) -> None:
     info, prov = doc.get("run") or {}, doc.get("provenance") or {}
     for key, limit in (("title", 300), ("operator", 200), ("bench", 120), ("performed_on", 40), ("notes", None)):
         if isinstance(info.get(key), str):
@@ -203,6 +204,7 @@ def _details(session: so.Session, run: Run, doc: dict[str, Any], people: People,
     if prov.get("recorded_at"):
         run.created_at = when(prov["recorded_at"], "provenance.recorded_at")
     if prov.get("locked"):
+        require_coordinator(actor, "import signed runs (they keep their signatures)")
         run.locked = True
         run.locked_by = people.get(prov.get("locked_by"))
         run.locked_at = when(prov.get("locked_at"), "provenance.locked_at")
@@ -258,17 +260,17 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     run = _new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
     run.inputs = inputs_from_spec(spec, calibration)
     run.content_hash = content_hash(run_bytes, readings)
-    _details(session, run, doc, people, groups)
+    _details(session, actor, run, doc, people, groups)
     session.add(run)
     for rdoc in _results_in_order(doc, where):
         options = _options({"result": rdoc}, 0).checked()
         result = result_from_analysis(run_analysis(spec, rd, options), input_name=run_name,
                                       periods_given=_periods_given(options))
         result.run, result.is_current = run, rdoc is doc["result"]
+        session.add(result)
         result.created_by = people.get(rdoc.get("analysed_by"))
         if rdoc.get("analysed_at"):
             result.created_at = when(rdoc["analysed_at"], "result.analysed_at")
-        session.add(result)
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
             session.flush()  # the calibration's note names the run
