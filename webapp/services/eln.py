@@ -53,7 +53,8 @@ from webapp.services.rocrate import PROFILE
 
 #: the namespace of cupcal's own terms in the metadata
 NAMESPACE = "urn:cupcal:terms:"
-CRATE_CONTEXT: list[Any] = [CONTEXT, {"cupcal": NAMESPACE}]
+#: the RO-Crate context, our prefix, and ``contentType`` (asked for by some readers) as schema.org's encodingFormat
+CRATE_CONTEXT: list[Any] = [CONTEXT, {"cupcal": NAMESPACE, "contentType": "http://schema.org/encodingFormat"}]
 CALORIMETER_NAME = "calorimeter.json"
 CALORIMETER_FORMAT = "cupcal-calorimeter-export"
 RESULT_NAME = "result.json"
