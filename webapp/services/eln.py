@@ -156,9 +156,11 @@ def add_run(archive: Archive, run: Run, audit: list[dict[str, Any]], report: Any
     folder = f"run-{run.id}/"
     doc = run_document(run)
     current = run.current_result
+    taken = {RESULT_NAME, EXPORT_NAME, REPORT_NAME, "report.pdf", "plot-temperature.svg", "plot-budget.svg"}
     run_name = safe_name(run.run_file_name, "run.toml")
+    run_name = "uploaded-" + run_name if run_name in taken else run_name
     readings_name = safe_name(run.readings_name, "readings.csv")
-    if readings_name == run_name:
+    if readings_name in taken or readings_name == run_name:
         readings_name = "readings-" + readings_name
     first = len(archive.parts)
     run_path = archive.add_file(folder, run_name, run.run_toml.encode("utf-8"), "Run file (as uploaded)")
