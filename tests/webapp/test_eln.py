@@ -248,3 +248,36 @@ def test_each_hostile_archive_has_a_message_of_its_own() -> None:
             read_archive(make(), "a.eln")
         messages.add(err.value.message)
     assert len(HOSTILE) >= 10 and len(messages) == len(HOSTILE)
+
+
+def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, session: Any, tmp_path: Path) -> None:
+    from tests.webapp.conftest import demo_files
+    from webapp import create_app
+    from webapp.db import get_engine
+    from webapp.migrate import upgrade
+    from webapp.services.analysis import AnalysisOptions
+    from webapp.services.runs import RunUpload
+    from webapp.services.runs import record_run
+
+    me = _coordinator(session)
+    toml, csv = demo_files("diss-kcl-01")
+    run = record_run(session, me, RunUpload(run_toml=toml, run_file_name="cupcal-export.json", readings=csv,
+                                            readings_name="result.json", options=AnalysisOptions()))
+    with app.app_context():
+        _name, data = eln.export_runs(session, me, [run.id])
+    files = read_archive(data, "x.eln").files
+    assert files[f"run-{run.id}/uploaded-cupcal-export.json"] == toml.encode()
+    assert files[f"run-{run.id}/readings-result.json"] == csv
+    url = f"sqlite:///{tmp_path / 'other.sqlite3'}"
+    upgrade(url)
+    other = create_app({"DATABASE_URL": url, "SECRET_KEY": "o", "PASSWORD_METHOD": FAST_HASH})
+    s2 = new_session(other)
+    try:
+        report = import_eln(s2, _coordinator(s2), data, source="x.eln", password_method=FAST_HASH)
+        assert report.count("error") == 0 and report.count("stored") >= 1
+        back = s2.scalars(sa.select(Run)).one()
+        assert (back.run_file_name, back.readings_name) == ("cupcal-export.json", "result.json")
+        assert bytes(back.readings_raw) == csv
+    finally:
+        s2.close()
+        get_engine(other).dispose()
