@@ -17,7 +17,7 @@ from webapp.models import Run
 from webapp.plots import decimate_minmax
 from webapp.quantities import series
 
-W, H, PAD = 640.0, 320.0, 48.0
+W, H, PAD, LEFT = 640.0, 320.0, 48.0, 80.0
 
 
 def _svg(title: str, body: str, height: float = H) -> str:
@@ -37,11 +37,11 @@ def log_plot_svg(run: Run, result: Result | None) -> str:
     lo, hi = float(y.min()), float(y.max())
     if hi - lo < 1e-9:
         lo, hi = lo - 0.5, hi + 0.5
-    sx = (W - 2 * PAD) / max(t1 - t0, 1e-9)
+    sx = (W - PAD - LEFT) / max(t1 - t0, 1e-9)
     sy = (H - 2 * PAD) / (hi - lo)
 
     def px(tt: float) -> float:
-        return PAD + (tt - t0) * sx
+        return LEFT + (tt - t0) * sx
 
     def py(v: float) -> float:
         return H - PAD - (v - lo) * sy
@@ -54,16 +54,24 @@ def log_plot_svg(run: Run, result: Result | None) -> str:
                          f'height="{H - 2 * PAD:g}" fill="#e6eef7"><title>{label} period {a:g}–{b:g} s</title></rect>')
     points = " ".join(f"{px(a):.1f},{py(b):.1f}" for a, b in zip(t.tolist(), y.tolist()))
     parts.append(f'<polyline points="{points}" fill="none" stroke="#1f3b57" stroke-width="1.2"/>')
-    parts.append(f'<line x1="{PAD:g}" y1="{H - PAD:g}" x2="{W - PAD:g}" y2="{H - PAD:g}" stroke="#000"/>'
-                 f'<line x1="{PAD:g}" y1="{PAD:g}" x2="{PAD:g}" y2="{H - PAD:g}" stroke="#000"/>')
-    parts.append(f'<text x="{PAD:g}" y="{H - 14:g}" font-size="12">{t0:g} s</text>'
-                 f'<text x="{W - PAD:g}" y="{H - 14:g}" font-size="12" text-anchor="end">{t1:g} s</text>'
+    parts.append(f'<line x1="{LEFT:g}" y1="{H - PAD:g}" x2="{W - PAD:g}" y2="{H - PAD:g}" stroke="#000"/>'
+                 f'<line x1="{LEFT:g}" y1="{PAD:g}" x2="{LEFT:g}" y2="{H - PAD:g}" stroke="#000"/>')
+    parts.append(f'<text x="{LEFT:g}" y="{H - 28:g}" font-size="12">{t0:g} s</text>'
+                 f'<text x="{W - PAD:g}" y="{H - 28:g}" font-size="12" text-anchor="end">{t1:g} s</text>'
+                 f'<text x="{(LEFT + W - PAD) / 2:g}" y="{H - 10:g}" font-size="12" text-anchor="middle">time</text>'
                  f'<text x="4" y="{H - PAD:g}" font-size="12">{lo:.3f} °C</text>'
                  f'<text x="4" y="{PAD - 6:g}" font-size="12">{hi:.3f} °C</text>')
     head = title + (f"; corrected ΔT = {result.corrected_delta_t_k:.4f} ± {result.corrected_delta_t_k_std:.4f} K "
                     f"({result.method})" if result is not None else "")
-    parts.append(f'<text x="{PAD:g}" y="20" font-size="13">{escape(head)}</text>')
+    parts.append(f'<text x="{LEFT:g}" y="20" font-size="13">{escape(head)}</text>')
+    if result is not None:
+        parts.append(f'<text x="{W - PAD:g}" y="{H - 10:g}" font-size="11" text-anchor="end">shaded: fore and '
+                     'after periods</text>')
     return _svg(title, "".join(parts))
+
+
+def _short(text: str, n: int) -> str:
+    return text if len(text) <= n else text[:n - 1] + "…"
 
 
 def budget_plot_svg(result: Result, top: int = 8) -> str:
@@ -78,9 +86,9 @@ def budget_plot_svg(result: Result, top: int = 8) -> str:
             "</text>"]
     for i, (label, share) in enumerate(rows):
         y = 40 + 26 * i
-        body.append(f'<text x="12" y="{y + 14}" font-size="12">{escape(label[:40])}</text>'
-                    f'<rect x="260" y="{y}" width="{max(share, 0.0) * 300:.1f}" height="18" fill="#7a4f1d"/>'
-                    f'<text x="{266 + max(share, 0.0) * 300:.1f}" y="{y + 14}" font-size="12">{100 * share:.1f} %</text>')
+        body.append(f'<text x="12" y="{y + 14}" font-size="12">{escape(_short(label, 52))}</text>'
+                    f'<rect x="340" y="{y}" width="{max(share, 0.0) * 230:.1f}" height="18" fill="#7a4f1d"/>'
+                    f'<text x="{346 + max(share, 0.0) * 230:.1f}" y="{y + 14}" font-size="12">{100 * share:.1f} %</text>')
     if not rows:
         body.append('<text x="12" y="50" font-size="12">no budget stored</text>')
     return _svg(f"Uncertainty budget of run {result.run_id}", "".join(body), height)
