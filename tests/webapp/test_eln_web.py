@@ -81,6 +81,10 @@ def test_pages_offer_the_downloads_and_the_import(client: Any, lab: Any, session
     sign_in(client, "coord@lab.example", PASSWORD)
     page = client.get(f"/runs/{run_id}").get_data(as_text=True)
     assert f"/api/runs/{run_id}/export/eln" in page
+    runs = client.get("/runs/").get_data(as_text=True)  # the selection form sends run_ids and format=eln
+    assert 'action="/api/exports"' in runs and 'name="format" value="eln"' in runs and 'name="run_ids"' in runs
+    chosen = client.get(f"/api/exports?format=eln&run_ids={run_id}")
+    assert chosen.status_code == 200 and _root(chosen.data) == {f"cupcal-run-{run_id}"}
     page = client.get(f"/classes/sections/{section_id}").get_data(as_text=True)
     assert f"/api/sections/{section_id}/export.eln" in page and "/imports/eln" in page
     section = client.get(f"/api/sections/{section_id}/export.eln")  # the link, as the browser follows it
