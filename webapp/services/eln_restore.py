@@ -48,6 +48,8 @@ from webapp.services.runs import _new_run
 from webapp.services.runs import _periods_given
 from webapp.services.runs import upload_file_name
 
+#: most results of one run read back (each is analysed again)
+MAX_RESULTS = 100
 #: the parts of a result that must come back number for number
 COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
             "outputs", "options", "mixing_time", "budget", "warnings", "comparison", "cautions", "properties",
@@ -225,6 +227,9 @@ def _results_in_order(doc: dict[str, Any], where: str) -> list[dict[str, Any]]:
     if not isinstance(current, dict):
         raise Invalid(f"{where}: the run has no result", field="result")
     earlier = [r for r in doc.get("earlier_results") or [] if isinstance(r, dict)]
+    if len(earlier) >= MAX_RESULTS:
+        raise Invalid(f"{where}: {len(earlier) + 1} results; at most {MAX_RESULTS} per run are read back",
+                      field="earlier_results")
     return sorted(earlier + [current], key=lambda r: r.get("id") if isinstance(r.get("id"), int) else 0)
 
 
