@@ -281,3 +281,32 @@ def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, se
     finally:
         s2.close()
         get_engine(other).dispose()
+
+
+def _retouched(data: bytes, change: Any) -> bytes:
+    """Return the archive with one run's cupcal-export.json changed and its sha256 and size made to fit."""
+    with zipfile.ZipFile(io.BytesIO(data)) as z:
+        entries = {n: z.read(n) for n in z.namelist()}
+    root = next(iter(entries)).split("/")[0]
+    target = sorted(n for n in entries if n.endswith("/cupcal-export.json"))[-1]
+    doc = json.loads(entries[target])
+    change(doc)
+    entries[target] = json.dumps(doc).encode()
+    meta = json.loads(entries[f"{root}/ro-crate-metadata.json"])
+    for e in meta["@graph"]:
+        if f"{root}/{e['@id']}" == target:
+            e["sha256"] = hashlib.sha256(entries[target]).hexdigest()
+            e["contentSize"] = str(len(entries[target]))
+    entries[f"{root}/ro-crate-metadata.json"] = json.dumps(meta).encode()
+    return zip_of(list(entries.items()))
+
+
+def test_a_result_changed_in_the_archive_is_not_stored(source: Any, session: Any) -> None:
+    def nudge(doc: dict[str, Any]) -> None:
+        doc["result"]["outputs"][doc["result"]["main"]]["value"] *= 1.0000001
+
+    me = _coordinator(session)
+    report = import_eln(session, me, _retouched(source["archive"], nudge), source="x.eln", password_method=FAST_HASH)
+    errors = [i for i in report.items if i.outcome == "error"]
+    assert len(errors) == 1 and "does not reproduce the archive's result" in errors[0].message
+    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 5
