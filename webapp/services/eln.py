@@ -73,6 +73,7 @@ class Archive:
     zip: zipfile.ZipFile
     graph: list[dict[str, Any]] = dataclasses.field(default_factory=list)
     parts: list[str] = dataclasses.field(default_factory=list)
+    files: list[str] = dataclasses.field(default_factory=list)
     people: dict[str, dict[str, Any]] = dataclasses.field(default_factory=dict)
 
     def add_file(self, folder: str, name: str, data: bytes, title: str) -> str:
@@ -84,6 +85,7 @@ class Archive:
                            "contentType": media, "contentSize": str(len(data)),
                            "sha256": hashlib.sha256(data).hexdigest()})
         self.parts.append(path)
+        self.files.append(path)
         return path
 
     def person(self, p: Person | None) -> dict[str, str] | None:
@@ -256,7 +258,7 @@ def finish(archive: Archive, description: str) -> None:
          "dateCreated": now, "sdPublisher": {"@id": "#cupcal"}},
         {"@id": "./", "@type": "Dataset", "name": archive.root, "description": description,
          "datePublished": now, "license": {"@id": "#license"},
-         "hasPart": [{"@id": p} for p in archive.parts]},
+         "hasPart": [{"@id": p} for p in archive.parts + archive.files]},
         {"@id": "#cupcal", "@type": ["SoftwareApplication", "Organization"], "name": "cupcal",
          "version": __version__, "softwareVersion": __version__},
         {"@id": "#license", "@type": "CreativeWork", "name": "as set by the lab that wrote this archive"},
