@@ -1,4 +1,4 @@
-"""``cupcal`` commands of the notebook (entry-point group ``cupcal.commands``).
+"""``cupcal`` commands of the notebook.
 
 ``cupcal db upgrade|downgrade|current|check``, ``cupcal load-demo``, ``cupcal serve``, ``cupcal import``,
 ``cupcal backup OUT`` and ``cupcal restore IN``. The
@@ -13,13 +13,8 @@ from pathlib import Path
 
 import click
 
+from webapp.command_support import command_app, find_section
 from webapp.services.demo import DEMO_DIR
-
-
-def _app():  # type: ignore[no-untyped-def]
-    from webapp import create_app
-
-    return create_app()
 
 
 def _url(app) -> str:  # type: ignore[no-untyped-def]
@@ -44,7 +39,7 @@ def upgrade(revision: str) -> None:
     """Apply the migrations up to REVISION (default: the newest)."""
     from webapp.migrate import upgrade as do_upgrade
 
-    app = _app()
+    app = command_app()
     do_upgrade(_url(app), revision)
     click.echo(f"database {_shown(_url(app))} is at revision {revision}")
 
@@ -55,7 +50,7 @@ def downgrade(revision: str) -> None:
     """Revert the migrations down to REVISION ('base' removes every table)."""
     from webapp.migrate import downgrade as do_downgrade
 
-    app = _app()
+    app = command_app()
     do_downgrade(_url(app), revision)
     click.echo(f"database {_shown(_url(app))} is at revision {revision}")
 
@@ -66,7 +61,7 @@ def current() -> None:
     from webapp.migrate import current_revision
     from webapp.migrate import head_revision
 
-    app = _app()
+    app = command_app()
     rev = current_revision(_url(app))
     click.echo(f"{_shown(_url(app))}: {rev or 'no schema'} (newest: {head_revision()})")
 
@@ -82,7 +77,7 @@ def check() -> None:
     from webapp.db import get_engine
     from webapp.services.integrity import check_database
 
-    app = _app()
+    app = command_app()
     try:
         report = check_database(get_engine(app))
     except sa.exc.DBAPIError as exc:
@@ -126,7 +121,7 @@ def load_demo_command(demo_dir: Path) -> None:
     """Load the invented demo lab into an empty database (after `cupcal db upgrade`)."""
     from webapp.services.demo import demo_sign_ins
 
-    app = _app()
+    app = command_app()
     if _load_demo(app, demo_dir):
         click.echo(f"demo loaded into {_shown(_url(app))}")
         _print_sign_ins(demo_sign_ins())
@@ -147,7 +142,7 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
     from webapp.services.demo import demo_sign_ins
     from webapp.services.demo import has_demo
 
-    app = _app()
+    app = command_app()
     do_upgrade(_url(app), "head")
     click.echo(f"database {_shown(_url(app))} is up to date")
     if demo and _load_demo(app, DEMO_DIR):
@@ -169,42 +164,25 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
     serve_app(app, host, port, workers, click.echo)
 
 
-def _find_section(session, text: str):  # type: ignore[no-untyped-def]
-    """Return the section given as an id or as ``COURSE/SECTION``."""
-    import sqlalchemy as sa
-
-    from webapp.models import Course
-    from webapp.models import Section
-
-    text = text.strip()
-    if text.isdigit():
-        section = session.get(Section, int(text))
-    else:
-        course, _, name = text.rpartition("/")
-        q = sa.select(Section).join(Course).where(Section.name == name.strip())
-        if course:
-            q = q.where(Course.name == course.strip())
-        found = session.scalars(q).all()
-        if len(found) > 1:
-            raise click.BadParameter(f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section")
-        section = found[0] if found else None
-    if section is None:
-        raise click.BadParameter(f"no section {text!r} (give its id or COURSE/SECTION)", param_hint="--section")
-    return section
-
-
 @click.command("import")
 @click.argument("path", type=click.Path(exists=True, path_type=Path))
-@click.option("--section", "section_text", required=True, help="Section: its id or COURSE/SECTION.")
+@click.option("--section", "section_text", help="Section: its id or COURSE/SECTION (not for an .eln archive).")
 @click.option("--mapping", type=click.Path(exists=True, dir_okay=False, path_type=Path),
               help="CSV mapping run files to groups: columns file, group[, bench].")
 @click.option("--as", "email", required=True, help="E-mail of the coordinator or technician importing.")
-def import_command(path: Path, section_text: str, mapping: Path | None, email: str) -> None:
-    """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv).
+def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str) -> None:
+    """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.
 
     Each run is stored all-or-nothing; importing the same files again changes nothing.
-    Runs are analysed without Monte Carlo (re-analyse a run for the check).
+    Runs are analysed without Monte Carlo (re-analyse a run for the check). An .eln archive
+    written by cupcal comes back exactly; see ``webapp/README.md``.
     """
+    if path.suffix.lower() == ".eln" and path.is_file():
+        from webapp.eln_commands import import_eln_file
+
+        return import_eln_file(path, email)
+    if not section_text:
+        raise click.UsageError("give --section (its id or COURSE/SECTION) to import run files")
     import sqlalchemy as sa
 
     from webapp.db import new_session
@@ -215,14 +193,14 @@ def import_command(path: Path, section_text: str, mapping: Path | None, email: s
     from webapp.services.imports import import_files
     from webapp.services.imports import runs_in
 
-    app = _app()
+    app = command_app()
     with app.app_context():
         session = new_session(app)
         try:
             actor = session.scalar(sa.select(Person).where(Person.email == email.strip().lower()))
             if actor is None:
                 raise click.BadParameter(f"nobody has the e-mail address {email!r}", param_hint="--as")
-            section = _find_section(session, section_text)
+            section = find_section(session, section_text)
             try:
                 files = files_from_folder(path) if path.is_dir() else files_from_zip(path.read_bytes(), source=str(path))
                 text = mapping.read_text(encoding="utf-8-sig") if mapping else None
@@ -260,7 +238,7 @@ def backup_command(out: Path, force: bool) -> None:
     from webapp.backup import BackupError
     from webapp.backup import backup
 
-    app = _app()
+    app = command_app()
     try:
         backup(_url(app), out, force=force)
     except BackupError as exc:
@@ -279,7 +257,7 @@ def restore_command(source: Path, force: bool) -> None:
     from webapp.backup import BackupError
     from webapp.backup import restore
 
-    app = _app()
+    app = command_app()
     try:
         restore(_url(app), source, force=force)
     except BackupError as exc:

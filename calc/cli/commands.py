@@ -49,11 +49,15 @@ COMMANDS: dict[str, CommandEntry] = {
     "load-demo": CommandEntry("webapp.commands:load_demo_command",
                               "Load the invented demo lab into an empty database (after `cupcal db upgrade`).", needs="flask"),
     "import": CommandEntry("webapp.commands:import_command",
-                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv).", needs="flask"),
+                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), "
+                           "or an .eln archive.", needs="flask"),
     "backup": CommandEntry("webapp.commands:backup_command",
                            "Back up the database to the file OUT (safe while the notebook is serving).", needs="flask"),
     "restore": CommandEntry("webapp.commands:restore_command",
                             "Restore the database from IN, a file made by `cupcal backup`.", needs="flask"),
+    "export": CommandEntry("webapp.eln_commands:export_command",
+                           "Write an .eln archive of runs, a section, a calorimeter or the whole notebook.",
+                           needs="flask"),
     "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries.", needs="flask"),
 }
 

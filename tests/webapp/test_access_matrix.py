@@ -44,6 +44,10 @@ EXPECTED: dict[tuple[str, str], dict[str, int]] = {
     ("get", "/api/courses"): row(401, 200, 200, 200, 200, 200, 200),
     ("get", "/api/courses/{course_id}/dashboard"): row(401, 403, 403, 200, 200, 403, 403),
     ("get", "/api/exports"): row(401, 404, 200, 200, 200, 200, 200),
+    ("get", "/api/calorimeters/{calorimeter_id}/export.eln"): row(401, 200, 200, 200, 200, 200, 200),
+    ("get", "/api/notebook/export.eln"): row(401, 200, 200, 200, 200, 200, 200),
+    ("get", "/api/sections/{section_id}/export.eln"): row(401, 404, 404, 200, 200, 404, 404),
+    ("post", "/api/eln-imports"): row(401, 403, 403, 400, 400, 403, 403),
     ("get", "/api/groups"): row(401, 200, 200, 200, 200, 200, 200),
     ("get", "/api/me"): row(401, 200, 200, 200, 200, 200, 200),
     ("get", "/api/methods"): row(401, 200, 200, 200, 200, 200, 200),
@@ -155,6 +159,8 @@ BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] =
     ("post", "/api/plan"): lambda who, w: {"json": {}},
     ("post", "/api/sections/{section_id}/imports"): lambda who, w: {
         "data": {"archive": (io.BytesIO(b""), "empty.zip")}, "content_type": "multipart/form-data"},
+    ("post", "/api/eln-imports"): lambda who, w: {
+        "data": {"archive": (io.BytesIO(b""), "empty.eln")}, "content_type": "multipart/form-data"},
 }
 
 def _run_upload() -> dict[str, Any]:

@@ -272,6 +272,42 @@ def test_the_form_shows_errors_at_their_fields_then_previews(browser: Any, serve
     _shot(d, "form-preview")
 
 
+def test_download_a_section_archive_and_import_another_notebooks(browser: Any, server: str, tmp_path: Path) -> None:
+    from selenium.webdriver.common.by import By
+
+    from tests.webapp.eln_helpers import crate
+    from tests.webapp.eln_helpers import file_entity
+    from tests.webapp.eln_helpers import zip_of
+
+    d = browser
+    d.delete_all_cookies()
+    _sign_in(d, server, "odile.brackwater@ternhollow.example")  # invented demo coordinator
+    d.get(server + "/runs/")
+    link = d.find_element(By.PARTIAL_LINK_TEXT, "(.eln archive)")
+    # the download, fetched by the page itself with the browser's session: a zip with one root folder
+    head = d.execute_async_script(
+        "const done = arguments[arguments.length - 1];"
+        "fetch(arguments[0]).then(r => r.arrayBuffer().then(b => done([r.status, r.headers.get('content-type'),"
+        " String.fromCharCode(...new Uint8Array(b).slice(0, 2))])));", link.get_attribute("href"))
+    assert head == [200, "application/vnd.eln+zip", "PK"]
+    toml = (DEMO / "diss-kcl-01.toml").read_bytes().replace(b'title = "', b'title = "From elsewhere: ', 1)
+    csv = (DEMO / "diss-kcl-01.csv").read_bytes()
+    files = {"exp/run.toml": toml, "exp/diss-kcl-01.csv": csv, "exp/photo.txt": b"a photo caption"}
+    meta = crate([file_entity(p, b) for p, b in files.items()], ["exp/"])
+    archive = tmp_path / "elsewhere.eln"
+    archive.write_bytes(zip_of([("elsewhere/ro-crate-metadata.json", meta)]
+                               + [(f"elsewhere/{p}", b) for p, b in files.items()]))
+    _click(d, "a[href$='/imports/eln']")
+    d.find_element(By.CSS_SELECTOR, "input[type=file][name=archive]").send_keys(str(archive))
+    _click(d, "#eln-form button[type=submit]")
+    _shot(d, "eln-import-report")
+    status = d.find_element(By.CSS_SELECTOR, "p[role=status]").text
+    assert status.startswith("1 stored"), status
+    assert "photo.txt" in d.find_element(By.TAG_NAME, "table").text
+    _click(d, "table a[href*='/runs/']")
+    assert "From elsewhere" in d.find_element(By.TAG_NAME, "main").text
+
+
 def test_a_missing_browser_skips_with_what_to_install_or_fails_under_ci(monkeypatch: pytest.MonkeyPatch) -> None:
     import tests.webapp.test_browser as here
 

@@ -85,6 +85,8 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("GET", "/embed/runs/<int:run_id>"): row(401, 404, 200, 200, 200, 200, 200),
     ("GET", "/imports/sections/<int:section_id>"): STAFF_ONLY,
     ("POST", "/imports/sections/<int:section_id>"): STAFF_ONLY,  # the report of a one-run zip
+    ("GET", "/imports/eln"): STAFF_ONLY,
+    ("POST", "/imports/eln"): STAFF_ONLY,  # the report of a one-run archive
     ("GET", "/oembed"): row(401, 404, 200, 200, 200, 200, 200),
     ("GET", "/plan"): ALL_SIGNED_IN,
     ("GET", "/runs/"): ALL_SIGNED_IN,
@@ -222,6 +224,20 @@ def _import_form(who: str, w: dict[str, Any]) -> dict[str, Any]:
             "mapping": _file(b"file,group\ndiss-kcl-01.toml,Group A\n", "mapping.csv")}
 
 
+def _eln_form(who: str, w: dict[str, Any]) -> dict[str, Any]:
+    """An .eln archive of another notebook: one folder with the demo run (its title made unique) and its log."""
+    toml, csv = demo_files("diss-kcl-01")
+    meta = ('{"@context": "https://w3id.org/ro/crate/1.1/context", "@graph": ['
+            '{"@id": "ro-crate-metadata.json", "@type": "CreativeWork", "about": {"@id": "./"}},'
+            '{"@id": "./", "@type": "Dataset", "hasPart": [{"@id": "e/"}]}]}')
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as z:
+        z.writestr("x/ro-crate-metadata.json", meta)
+        z.writestr("x/e/diss-kcl-01.toml", toml.replace('title = "', f'title = "{who}: ', 1))
+        z.writestr("x/e/diss-kcl-01.csv", csv)
+    return {"archive": _file(buf.getvalue(), "x.eln")}
+
+
 def _upload_form(who: str, w: dict[str, Any]) -> dict[str, Any]:
     toml, csv = demo_files("diss-kcl-01")
     return {"run_file": _file(toml.encode(), "r.toml"), "readings": _file(csv, "r.csv"), "action": "preview"}
@@ -242,6 +258,7 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
         "roster": _file(f"name,email,role\nTech {who},t-{who}@lab.example,technician\n".encode(), "roster.csv")},
     ("POST", "/classes/sections/<int:section_id>"): lambda who, w: {"name": f"Bench {who}", "calorimeter_id": "0"},
     ("POST", "/imports/sections/<int:section_id>"): _import_form,
+    ("POST", "/imports/eln"): _eln_form,
     ("POST", "/runs/<int:run_id>/reanalyse"): lambda who, w: {"method": "naive"},
     ("POST", "/runs/upload"): _upload_form,
 }
@@ -265,6 +282,7 @@ EFFECTS: dict[tuple[str, str], tuple[Callable[[Any], int], int]] = {
     ("POST", "/classes/roster"): (_count(Person), 1),
     ("POST", "/classes/sections/<int:section_id>"): (_count(Bench), 1),
     ("POST", "/imports/sections/<int:section_id>"): (_count(Run), 2),
+    ("POST", "/imports/eln"): (_count(Run), 2),
     ("POST", "/runs/<int:run_id>/lock"): (_count(Run, Run.locked.is_(True)), 2),
     ("POST", "/runs/<int:run_id>/reanalyse"): (_count(Result), 3),
     ("POST", "/runs/upload"): (_count(Run), 0),

@@ -9,7 +9,6 @@ from flask import Response
 from flask import current_app
 
 from flask import jsonify
-from flask import render_template
 from flask import request
 from flask import url_for
 
@@ -23,9 +22,8 @@ from webapp.api.schemas import iso
 from webapp.api.schemas import run_json
 from webapp.db import get_session
 from webapp.embed import links
-from webapp.models import Run
 from webapp.services import exports_run
-from webapp.services import report_pdf as report_pdf_service
+from webapp.services.run_report import report_html, report_pdf
 from webapp.services import webhooks
 from webapp.services.errors import Invalid
 from webapp.services.packages import import_package
@@ -33,7 +31,7 @@ from webapp.services.rocrate import crate_zip, export_selection_zip
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
 
-EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate")
+EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate", "eln")
 
 
 def _download(data: str | bytes, mimetype: str, filename: str) -> Response:
@@ -42,24 +40,9 @@ def _download(data: str | bytes, mimetype: str, filename: str) -> Response:
     return response
 
 
-def report_html(run: Run, plot_uri: str | None = None) -> str:
-    """Return the printable HTML report of a run (print styles; the plot inline, SVG unless ``plot_uri`` is given)."""
-    from webapp.embed.views import plot_data_uri
-
-    doc = exports_run.run_document(run)
-    if plot_uri is None:
-        plot_uri = plot_data_uri(run) if run.current_result else ""
-    return render_template("exchange/report.html", run=run, result=run.current_result, doc=doc, plot_uri=plot_uri)
-
-
-def report_pdf(run: Run) -> bytes:
-    """Return the printable report of a run as PDF (the same HTML; the plot as PNG)."""
-    return report_pdf_service.html_to_pdf(report_html(run, plot_uri=report_pdf_service.plot_png_uri(run)))
-
-
 @bp.get("/runs/<int:run_id>/export/<string:fmt>")
 def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
-    """Export a run: json, csv, html (printable report), pdf (the same report) or ro-crate (zip)."""
+    """Export a run: json, csv, html (printable report), pdf (the same report), ro-crate (zip) or eln."""
     run = get_run(get_session(), actor(), run_id)
     if fmt == "json":
         return _download(exports_run.export_json(get_session(), actor(), run_id), "application/json",
@@ -74,6 +57,11 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
         return _download(report_pdf(run), "application/pdf", f"cupcal-run-{run.id}.pdf")
     if fmt == "ro-crate":
         return _download(crate_zip(run), "application/zip", f"cupcal-run-{run.id}.crate.zip")
+    if fmt == "eln":
+        from webapp.services import eln
+
+        name, data = eln.export_runs(get_session(), actor(), [run.id], eln.report_renderer(pdf=True))
+        return _download(data, "application/vnd.eln+zip", name)
     raise Invalid(f"unknown format {fmt!r}; expected one of: {', '.join(EXPORT_FORMATS)}", field="fmt")
 
 
@@ -93,7 +81,12 @@ def export_selection():  # type: ignore[no-untyped-def]
         return _download(export_selection_zip(runs), "application/zip", "cupcal-runs.zip")
     if fmt == "csv":
         return _download(exports_run.export_csv(runs), "text/csv", "cupcal-runs.csv")
-    raise Invalid(f"unknown format {fmt!r}; expected zip or csv", field="format")
+    if fmt == "eln":
+        from webapp.services import eln
+
+        name, data = eln.export_runs(get_session(), actor(), [r.id for r in runs], eln.report_renderer())
+        return _download(data, "application/vnd.eln+zip", name)
+    raise Invalid(f"unknown format {fmt!r}; expected zip, csv or eln", field="format")
 
 
 @bp.post("/packages")

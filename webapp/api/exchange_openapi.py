@@ -17,7 +17,8 @@ _HOOK_ID = [_id("webhook_id")]
 _FILE = {"application/json": {"schema": {"type": "object"}}, "text/csv": {"schema": {"type": "string"}},
          "text/html": {"schema": {"type": "string"}},
          "application/pdf": {"schema": {"type": "string", "format": "binary"}},
-         "application/zip": {"schema": {"type": "string", "format": "binary"}}}
+         "application/zip": {"schema": {"type": "string", "format": "binary"}},
+         "application/vnd.eln+zip": {"schema": {"type": "string", "format": "binary"}}}
 _HOOK = {"type": "object", "properties": {"id": {"type": "integer"}, "url": {"type": "string"},
                                           "active": {"type": "boolean"},
                                           "created_at": {"type": "string", "format": "date-time"},
@@ -38,17 +39,20 @@ _TOKEN = {"type": "object", "properties": {
 EXCHANGE_PATHS: dict[str, Any] = {
     "/api/runs/{run_id}/export/{fmt}": {
         "get": _op("Export a run: json (inputs, raw log, result, budget, provenance), csv (one row per result), "
-                   "html (printable report), pdf (the printable report as PDF) or ro-crate (RO-Crate 1.1 zip)",
+                   "html (printable report), pdf (the printable report as PDF), ro-crate (RO-Crate 1.1 zip) "
+                   "or eln (an .eln archive)",
                    {"description": "The export", "content": _FILE}, 400, 401, 404,
                    params=_RUN_ID + [{"name": "fmt", "in": "path", "required": True, "schema": {
-                       "type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate"]}}])},
+                       "type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate", "eln"]}}])},
     "/api/exports": {
-        "get": _op("Export a selection of runs: a zip (results.csv, and per run its JSON and RO-Crate) or CSV",
-                   {"description": "The export", "content": {k: _FILE[k] for k in ("text/csv", "application/zip")}},
+        "get": _op("Export a selection of runs: a zip (results.csv, and per run its JSON and RO-Crate), CSV or "
+                   "an .eln archive",
+                   {"description": "The export", "content": {k: _FILE[k] for k in (
+                       "text/csv", "application/zip", "application/vnd.eln+zip")}},
                    400, 401, 404, params=[
                        {"name": "run_ids", "in": "query", "required": True, "schema": {"type": "string"},
                         "description": "run ids separated by commas"},
-                       {"name": "format", "in": "query", "schema": {"type": "string", "enum": ["zip", "csv"]}}])},
+                       {"name": "format", "in": "query", "schema": {"type": "string", "enum": ["zip", "csv", "eln"]}}])},
     "/api/packages": {
         "post": _op("Import a run package (our JSON export or RO-Crate zip) as a new run; write scope",
                     _json(_ref("Run"), "The new run"), 400, 401, 403, 409, 413, status="201", body={
@@ -78,5 +82,32 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "get": _op("A webhook's delivery log, newest first (coordinators)",
                    _json(_list_of(_DELIVERY), "Deliveries"), 401, 403, 404, params=_HOOK_ID)},
 }
+
+_ELN = {"description": "The .eln archive", "content": {"application/vnd.eln+zip": {
+    "schema": {"type": "string", "format": "binary"}}}}
+_REPORT = {"type": "object", "properties": {
+    "summary": {"type": "string"}, "counts": {"type": "object"},
+    "items": {"type": "array", "items": {"type": "object", "properties": {
+        "file": {"type": "string"}, "outcome": {"type": "string", "enum": ["stored", "unchanged", "used", "error",
+                                                                            "ignored"]},
+        "message": {"type": "string"}, "run_id": {"type": ["integer", "null"]},
+        "group": {"type": ["string", "null"]}}}}}}
+EXCHANGE_PATHS.update({
+    "/api/sections/{section_id}/export.eln": {
+        "get": _op("A section's runs as an .eln archive (one experiment folder per run)", _ELN, 401, 403, 404,
+                   params=[_id("section_id")])},
+    "/api/calorimeters/{calorimeter_id}/export.eln": {
+        "get": _op("A calorimeter with its calibrations and calibration runs as an .eln archive", _ELN, 401, 404,
+                   params=[_id("calorimeter_id")])},
+    "/api/notebook/export.eln": {
+        "get": _op("Every calorimeter and every run you may see as an .eln archive", _ELN, 401)},
+    "/api/eln-imports": {
+        "post": _op("Import an .eln archive (coordinators, technicians); a report of every file. A refused archive "
+                    "(400) stores nothing; write scope", _json(_REPORT, "The report"), 400, 401, 403, 413, body={
+                        "required": True, "content": {
+                            "application/vnd.eln+zip": {"schema": {"type": "string", "format": "binary"}},
+                            "multipart/form-data": {"schema": {"type": "object", "properties": {
+                                "archive": {"type": "string", "format": "binary"}}}}}})},
+})
 
 PATHS.update(EXCHANGE_PATHS)

@@ -1,0 +1,131 @@
+"""Helpers of the .eln tests: the demo lab as a source notebook, snapshots to compare, archive builders."""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import io
+import json
+import warnings
+import zipfile
+from pathlib import Path
+from typing import Any
+
+import sqlalchemy as sa
+
+from webapp import create_app
+from webapp.db import get_engine
+from webapp.db import new_session
+from webapp.migrate import upgrade
+from webapp.models import AuditEntry
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Person
+from webapp.models import Run
+from webapp.services import eln
+from webapp.services.analysis import AnalysisOptions
+from webapp.services.demo import PEOPLE
+from webapp.services.demo import load_demo
+from webapp.services.exports_run import run_document
+from webapp.services.runs import lock_run
+from webapp.services.runs import reanalyse_run
+from webapp.services.runs import update_run
+
+FAST_HASH = "scrypt:1024:8:1"
+FIXED = dt.datetime(2026, 1, 1)
+CONTEXT = "https://w3id.org/ro/crate/1.1/context"
+
+
+def demo_source(folder: Path, monte_carlo_trials: int = 2000) -> tuple[Any, bytes]:
+    """Load the demo lab into a new SQLite notebook, edit, re-analyse and sign a run; return (app, archive)."""
+    url = f"sqlite:///{folder / 'source.sqlite3'}"
+    upgrade(url)
+    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "source", "PASSWORD_METHOD": FAST_HASH})
+    s = new_session(app)
+    try:
+        load_demo(s, password_method=FAST_HASH, monte_carlo_trials=monte_carlo_trials)
+        coord = s.scalar(sa.select(Person).where(Person.email == PEOPLE[0][1]))
+        runs = s.scalars(sa.select(Run).order_by(Run.id)).all()
+        target = next(r for r in runs if r.kind == "dissolution")
+        update_run(s, coord, target, {"notes": "Lid refitted after 200 s (invented).", "bench": "B-2"})
+        reanalyse_run(s, coord, target, AnalysisOptions(method="linear-extrapolation", monte_carlo_trials=500, seed=7))
+        lock_run(s, coord, runs[-1])
+        with app.app_context():
+            _name, data = eln.export_notebook(s, coord, eln.report_renderer())
+    finally:
+        s.close()
+    return app, data
+
+
+def _strip_ids(doc: dict[str, Any]) -> dict[str, Any]:
+    doc["run"].pop("id")
+    for r in [doc["result"], *doc["earlier_results"]]:
+        if r is not None:
+            r.pop("id")
+    cal = doc["provenance"]["calibration"]
+    if cal is not None:
+        cal.pop("id")
+        cal.pop("from_run")
+        cal.pop("note")  # names the run by its id in each notebook
+    return doc
+
+
+def snapshot(session: Any) -> dict[str, Any]:
+    """Return every run (export without ids, audit trail) and calorimeter (with calibrations) of a notebook."""
+    runs = []
+    for run in session.scalars(sa.select(Run).order_by(Run.created_at, Run.id)):
+        doc = _strip_ids(run_document(run, exported_at=FIXED))
+        doc["files_bytes"] = [hashlib.sha256(run.run_toml.encode()).hexdigest(),
+                              hashlib.sha256(bytes(run.readings_raw)).hexdigest()]
+        doc["audit"] = [(e.at.isoformat(), e.person.email if e.person else None, e.field, e.old, e.new)
+                        for e in session.scalars(sa.select(AuditEntry).where(
+                            AuditEntry.entity == "run", AuditEntry.entity_id == run.id,
+                            AuditEntry.field != "imported").order_by(AuditEntry.id))]
+        runs.append(doc)
+    cals = []
+    for cal in session.scalars(sa.select(Calorimeter).order_by(Calorimeter.name)):
+        history = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
+                                  .order_by(Calibration.taken_at, Calibration.id)).all()
+        cals.append((cal.name, cal.parts, cal.location, cal.calibration_interval_days, [
+            (c.heat_capacity_j_k, c.heat_capacity_j_k_std, c.taken_at.isoformat(), c.created_at.isoformat(),
+             c.created_by.email if c.created_by else None, c.result is not None,
+             None if c.result is not None else c.note) for c in history]))
+    return {"runs": runs, "calorimeters": cals}
+
+
+def counts(session: Any) -> tuple[int, ...]:
+    """Return how many runs, people, calorimeters, calibrations and audit entries are stored."""
+    return tuple(session.scalar(sa.select(sa.func.count()).select_from(m))
+                 for m in (Run, Person, Calorimeter, Calibration, AuditEntry))
+
+
+def dispose(app: Any) -> None:
+    """Close the app's database connections."""
+    get_engine(app).dispose()
+
+
+# ----------------------------------------------------------------- archives by hand
+
+
+def crate(graph: list[dict[str, Any]], parts: list[str]) -> bytes:
+    """Return RO-Crate metadata with a descriptor and a root dataset listing ``parts``."""
+    return json.dumps({"@context": CONTEXT, "@graph": [
+        {"@id": "ro-crate-metadata.json", "@type": "CreativeWork", "about": {"@id": "./"},
+         "conformsTo": {"@id": "https://w3id.org/ro/crate/1.1"}},
+        {"@id": "./", "@type": "Dataset", "name": "x", "hasPart": [{"@id": p} for p in parts]}, *graph]}).encode()
+
+
+def file_entity(path: str, data: bytes) -> dict[str, Any]:
+    """Return a File entity with its size and sha256."""
+    return {"@id": path, "@type": "File", "name": path, "contentSize": str(len(data)),
+            "sha256": hashlib.sha256(data).hexdigest()}
+
+
+def zip_of(entries: list[tuple[str, bytes]]) -> bytes:
+    """Return a zip of (name, bytes) entries, written as given (duplicates too)."""
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as z, warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)  # a duplicate name is what some tests want
+        for name, data in entries:
+            z.writestr(zipfile.ZipInfo(name, (2026, 1, 1, 0, 0, 0)), data)
+    return out.getvalue()

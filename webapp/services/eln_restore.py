@@ -1,0 +1,289 @@
+"""Reading back what cupcal wrote into an ``.eln`` archive: calorimeters, calibrations and runs, exactly.
+
+A run is analysed again from its files, exactly as the archive says it was (method, periods,
+Monte Carlo trials and seed, the calibration that supplied the heat capacity), for each of its
+results in turn; every number of every result must then equal the archive's, else the run is
+not stored. The audit fields are restored as written: who recorded, analysed and signed it and
+when, its details, its group and its audit trail (plus one entry saying it was imported). People
+are matched by e-mail; someone not in this notebook gets an inactive account that cannot sign in.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import math
+import secrets
+from typing import Any
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+
+from webapp.models import CALIBRATION_KINDS
+from webapp.models import AuditEntry
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Group
+from webapp.models import Person
+from webapp.models import Result
+from webapp.models import Run
+from webapp.services.access import require_coordinator
+from webapp.services.analysis import decode_readings
+from webapp.services.analysis import inputs_from_spec
+from webapp.services.analysis import needs_supplied_heat_capacity
+from webapp.services.analysis import parse_inputs
+from webapp.services.analysis import result_from_analysis
+from webapp.services.analysis import run_analysis
+from webapp.services.calorimeters import add_calibration_from_result
+from webapp.services.calorimeters import find_calorimeter
+from webapp.services.errors import Invalid
+from webapp.services.exports_run import FORMAT
+from webapp.services.exports_run import result_document
+from webapp.services.imports import content_hash
+from webapp.services.packages import _file
+from webapp.services.packages import _options
+from webapp.services.people import hash_password
+from webapp.services.runs import RunUpload
+from webapp.services.runs import _new_run
+from webapp.services.runs import _periods_given
+from webapp.services.runs import upload_file_name
+
+#: most results of one run read back (each is analysed again)
+MAX_RESULTS = 100
+#: the parts of a result that must come back number for number
+COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
+            "outputs", "options", "mixing_time", "budget", "warnings", "comparison", "cautions", "properties",
+            "monte_carlo")
+
+
+def when(text: Any, field: str) -> dt.datetime:
+    """Return a time of the archive (ISO 8601, UTC) as a naive UTC datetime."""
+    if not isinstance(text, str):
+        raise Invalid("expected a date and time (ISO 8601)", field=field)
+    try:
+        t = dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
+    except ValueError:
+        raise Invalid(f"expected a date and time (ISO 8601), got {text!r}", field=field) from None
+    return t.astimezone(dt.timezone.utc).replace(tzinfo=None) if t.tzinfo else t
+
+
+class People:
+    """People of the notebook by e-mail; someone unknown gets an inactive account (reported)."""
+
+    def __init__(self, session: so.Session, password_method: str) -> None:
+        self.session = session
+        self.method = password_method
+        self.known: dict[str, Person] = {}
+        self.created: list[str] = []
+
+    def get(self, who: Any) -> Person | None:
+        """Return the person of ``{"name", "email"}`` (or an e-mail), creating an inactive one when new."""
+        email = who.get("email") if isinstance(who, dict) else who
+        if not isinstance(email, str) or "@" not in email or len(email) > 254:
+            return None
+        key = email.strip().lower()
+        if key not in self.known:
+            p = self.session.scalar(sa.select(Person).where(sa.func.lower(Person.email) == key))
+            if p is None:
+                name = who.get("name") if isinstance(who, dict) and isinstance(who.get("name"), str) else email
+                p = Person(email=email.strip(), name=name[:120], role="student", active=False,
+                           password_hash=hash_password(secrets.token_hex(24), self.method))
+                self.session.add(p)
+                self.created.append(email.strip())
+            self.known[key] = p
+        return self.known[key]
+
+
+# ----------------------------------------------------------------- calorimeters
+
+
+def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: People, where: str) -> str:
+    """Add the calorimeter of ``calorimeter.json`` (when new) and the calibrations it lacks; commit.
+
+    Calibrations measured by a run come back with that run; the others are added here.
+    Return what was done.
+    """
+    if not isinstance(doc, dict) or not isinstance(doc.get("name"), str) or not doc["name"].strip():
+        raise Invalid(f"{where}: expected a calorimeter with a 'name'", field="calorimeter")
+    cal = find_calorimeter(session, doc["name"])
+    done = []
+    if cal is None:
+        require_coordinator(actor, "add calorimeters")
+        cal = Calorimeter(name=doc["name"].strip()[:200], parts=str(doc.get("parts") or ""),
+                          location=str(doc.get("location") or "")[:200],
+                          calibration_interval_days=doc.get("calibration_interval_days"))
+        if doc.get("created_at"):
+            cal.created_at = when(doc["created_at"], "created_at")
+        session.add(cal)
+        session.flush()
+        done.append("added")
+    added = 0
+    for i, c in enumerate(doc.get("calibrations") or []):
+        if not isinstance(c, dict) or c.get("from_run") is not None:
+            continue
+        hc = c.get("heat_capacity") or {}
+        value, u = hc.get("value"), hc.get("standard_uncertainty")
+        if not all(isinstance(x, (int, float)) and math.isfinite(x) for x in (value, u)) or not value > 0:
+            raise Invalid(f"{where}: calibration {i + 1}: expected a positive heat capacity ± u", field="calibrations")
+        taken = when(c.get("taken_at"), f"calibrations[{i}].taken_at")
+        if find_calibration(session, cal, value, u, taken) is None:
+            require_coordinator(actor, "add calibrations")
+            session.add(Calibration(calorimeter=cal, heat_capacity_j_k=float(value), heat_capacity_j_k_std=float(u),
+                                    taken_at=taken, note=str(c.get("note") or ""),
+                                    created_by=people.get(c.get("created_by")),
+                                    created_at=when(c.get("created_at") or c["taken_at"], "created_at")))
+            added += 1
+    session.commit()
+    done.append(f"{added} calibration(s) added" if added else "no calibration to add")
+    return f"calorimeter {cal.name!r}: " + ", ".join(done)
+
+
+def find_calibration(session: so.Session, cal: Calorimeter, value: float, u: float,
+                     taken: dt.datetime | None) -> Calibration | None:
+    """Return the calorimeter's calibration of this value and uncertainty (and time, when given)."""
+    for c in session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
+                             .order_by(Calibration.taken_at.desc(), Calibration.id.desc())):
+        if c.heat_capacity_j_k == value and c.heat_capacity_j_k_std == u and (taken is None or c.taken_at == taken):
+            return c
+    return None
+
+
+# ----------------------------------------------------------------- runs
+
+
+def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, Any], run_toml: str,
+                     where: str) -> tuple[Calorimeter | None, Calibration | None]:
+    name = info.get("calorimeter")
+    cal = find_calorimeter(session, name) if isinstance(name, str) and name else None
+    if name and cal is None:
+        raise Invalid(f"{where}: the run belongs to calorimeter {name!r}, which this notebook does not have; a "
+                      "coordinator can add it by importing its archive (or the whole notebook's) first",
+                      field="run.calorimeter")
+    exported = (doc.get("provenance") or {}).get("calibration")
+    if exported is None or not needs_supplied_heat_capacity(run_toml):
+        return cal, None
+    hc = exported.get("heat_capacity") or {}
+    found = None
+    if cal is not None:
+        found = find_calibration(session, cal, hc.get("value"), hc.get("standard_uncertainty"),
+                                 when(exported["taken_at"], "provenance.calibration.taken_at")
+                                 if exported.get("taken_at") else None)
+    if found is None:
+        raise Invalid(f"{where}: the run takes its heat capacity ({hc.get('value')} ± {hc.get('standard_uncertainty')} "
+                      f"J/K) from a calibration of calorimeter {name!r}, which this notebook does not have; import "
+                      "the calorimeter's archive (or the archive of the calibration run) first",
+                      field="provenance.calibration")
+    return cal, found
+
+
+def _plain(value: Any) -> Any:
+    return json.loads(json.dumps(value, allow_nan=True))
+
+
+def check_same(result: Result, exported: dict[str, Any], where: str) -> None:
+    """Raise unless the new result equals the exported one in every compared part."""
+    mine = _plain(result_document(result))
+    theirs = _plain(exported)
+    for key in COMPARED:
+        if mine.get(key) != theirs.get(key):
+            raise Invalid(f"{where}: the analysis here does not reproduce the archive's result {exported.get('id')} "
+                          f"({key} differs; the archive was analysed by cupcal "
+                          f"{exported.get('software_version')}); the run was not stored", field="result")
+
+
+def _details(session: so.Session, actor: Person, run: Run, doc: dict[str, Any], people: People,
+             groups: dict[str, Group]) -> None:
+    info, prov = doc.get("run") or {}, doc.get("provenance") or {}
+    for key, limit in (("title", 300), ("operator", 200), ("bench", 120), ("performed_on", 40), ("notes", None)):
+        if isinstance(info.get(key), str):
+            setattr(run, key, info[key][:limit] if limit else info[key])
+    name = info.get("group")
+    if isinstance(name, str) and name.strip():
+        if name not in groups:
+            groups[name] = session.scalar(sa.select(Group).where(Group.name == name)) or Group(name=name[:120])
+            session.add(groups[name])
+        run.group = groups[name]
+    if prov.get("recorded_at"):
+        run.created_at = when(prov["recorded_at"], "provenance.recorded_at")
+    if prov.get("locked"):
+        require_coordinator(actor, "import signed runs (they keep their signatures)")
+        run.locked = True
+        run.locked_by = people.get(prov.get("locked_by"))
+        run.locked_at = when(prov.get("locked_at"), "provenance.locked_at")
+
+
+def _audit(session: so.Session, run: Run, doc: dict[str, Any], people: People) -> None:
+    for i, e in enumerate(doc.get("audit_trail") or []):
+        if not isinstance(e, dict) or not isinstance(e.get("field"), str):
+            raise Invalid(f"entry {i + 1}: expected an object with a 'field'", field="audit_trail")
+        session.add(AuditEntry(at=when(e.get("at"), f"audit_trail[{i}].at"), person=people.get(e.get("person")),
+                               entity="run", entity_id=run.id, field=e["field"][:80],
+                               old=None if e.get("old") is None else str(e["old"]),
+                               new=None if e.get("new") is None else str(e["new"])))
+
+
+def _results_in_order(doc: dict[str, Any], where: str) -> list[dict[str, Any]]:
+    current = doc.get("result")
+    if not isinstance(current, dict):
+        raise Invalid(f"{where}: the run has no result", field="result")
+    earlier = [r for r in doc.get("earlier_results") or [] if isinstance(r, dict)]
+    if len(earlier) >= MAX_RESULTS:
+        raise Invalid(f"{where}: {len(earlier) + 1} results; at most {MAX_RESULTS} per run are read back",
+                      field="earlier_results")
+    return sorted(earlier + [current], key=lambda r: r.get("id") if isinstance(r.get("id"), int) else 0)
+
+
+def calibration_stamps(doc: Any) -> dict[tuple[Any, ...], str]:
+    """Return when each calibration measured by a run was stored, from a ``calorimeter.json``."""
+    out = {}
+    for c in (doc.get("calibrations") or []) if isinstance(doc, dict) else []:
+        if isinstance(c, dict) and c.get("from_run") is not None and isinstance(c.get("created_at"), str):
+            hc = c.get("heat_capacity") or {}
+            out[(doc.get("name"), c["from_run"], hc.get("value"), hc.get("standard_uncertainty"))] = c["created_at"]
+    return out
+
+
+def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, bytes], people: People,
+                groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None) -> Run:
+    """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit).
+
+    ``stamps`` (:func:`calibration_stamps`) give the calibrations the run measured their time of storing.
+    """
+    if not isinstance(doc, dict) or doc.get("format") != FORMAT or doc.get("format_version") != 1:
+        raise Invalid(f"{where}: expected a cupcal run export (format {FORMAT!r}, version 1)", field="format")
+    run_name, run_bytes = _file(doc, "run_file", blobs)
+    readings_name, readings = _file(doc, "readings", blobs)
+    try:
+        run_toml = run_bytes.decode("utf-8")
+    except UnicodeDecodeError:
+        raise Invalid(f"{where}: the run file is not UTF-8 text", field="files.run_file") from None
+    run_name, readings_name = upload_file_name(run_name, "run_file"), upload_file_name(readings_name, "readings")
+    cal, calibration = _calibration_for(session, doc.get("run") or {}, doc, run_toml, where)
+    spec, rd = parse_inputs(run_toml, run_name, decode_readings(readings, readings_name), readings_name, calibration)
+    author = people.get((doc.get("provenance") or {}).get("recorded_by")) or actor
+    upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings, readings_name=readings_name)
+    run = _new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
+    run.inputs = inputs_from_spec(spec, calibration)
+    run.content_hash = content_hash(run_bytes, readings)
+    _details(session, actor, run, doc, people, groups)
+    session.add(run)
+    for rdoc in _results_in_order(doc, where):
+        options = _options({"result": rdoc}, 0).checked()
+        result = result_from_analysis(run_analysis(spec, rd, options), input_name=run_name,
+                                      periods_given=_periods_given(options))
+        result.run, result.is_current = run, rdoc is doc["result"]
+        session.add(result)
+        result.created_by = people.get(rdoc.get("analysed_by"))
+        if rdoc.get("analysed_at"):
+            result.created_at = when(rdoc["analysed_at"], "result.analysed_at")
+        check_same(result, rdoc, where)
+        if run.kind in CALIBRATION_KINDS and cal is not None:
+            session.flush()  # the calibration's note names the run
+            c = add_calibration_from_result(session, cal, result, run.created_at, result.created_by)
+            stamp = (stamps or {}).get((cal.name, (doc.get("run") or {}).get("id"), c.heat_capacity_j_k,
+                                        c.heat_capacity_j_k_std))
+            if stamp:
+                c.created_at = when(stamp, "calibrations.created_at")
+    session.flush()
+    _audit(session, run, doc, people)
+    return run
