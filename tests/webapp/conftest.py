@@ -9,6 +9,7 @@ the PostgreSQL half is skipped with a message saying what to install, unless
 
 from __future__ import annotations
 
+import datetime as dt
 import os
 import re
 import shutil
@@ -193,7 +194,8 @@ def lab(app: Any, session: Any) -> Lab:
     }
     tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
     cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
-    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K")
+    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K",
+                               measured_on=dt.date.today().isoformat())
     return Lab({k: p.id for k, p in people.items()}, tokens, {"A": ga.id, "B": gb.id}, cup.id, spare.id)
 
 
