@@ -115,7 +115,10 @@ def test_calorimeter_changes_are_audited(client: Any, lab: Any) -> None:
     assert r.status_code == 200
     r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
                     json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier"})
-    assert r.status_code == 201
+    assert r.status_code == 400 and r.get_json()["field"] == "measured_on"  # a typed value needs its date
+    r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
+                    json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier", "measured_on": "2026-11-30"})
+    assert r.status_code == 201 and r.get_json()["measured_on"] == "2026-11-30"
     from webapp.db import new_session
 
     s = new_session(client.application)
@@ -123,6 +126,6 @@ def test_calorimeter_changes_are_audited(client: Any, lab: Any) -> None:
         entries = s.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter")
                             .order_by(AuditEntry.id)).all()
         assert [(e.field, e.old, e.new) for e in entries] == [
-            ("location", "", "Room 3B"), ("heat_capacity", None, "19 ± 1.5 J/K")]
+            ("location", "", "Room 3B"), ("heat_capacity", None, f"19 ± 1.5 J/K (#{r.get_json()['id']})")]
     finally:
         s.close()
