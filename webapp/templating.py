@@ -24,8 +24,16 @@ def when(value: dt.datetime | None) -> str:
     return value.strftime("%Y-%m-%d %H:%M UTC")
 
 
+def day(value: dt.datetime | dt.date | None) -> str:
+    """Return a stored time as its date, ``YYYY-MM-DD`` (when something was measured)."""
+    if value is None:
+        return "never"
+    return value.strftime("%Y-%m-%d")
+
+
 def init_app(app: Flask) -> None:
     """Register the filters and the sign-out form every page shows."""
     app.jinja_env.filters["pm"] = pm
     app.jinja_env.filters["when"] = when
+    app.jinja_env.filters["day"] = day
     app.jinja_env.globals["signout_form"] = ConfirmForm

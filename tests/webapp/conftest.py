@@ -240,3 +240,16 @@ def sign_in(client: Any, email: str, password: str = PASSWORD) -> Any:
     page = client.get("/auth/login")
     return client.post("/auth/login", data={"email": email, "password": password,
                                             "csrf_token": csrf_token(page.get_data(as_text=True))})
+
+
+def approve_proposals(client: Any, lab: Lab, calorimeter_id: int | None = None, who: str = "tech") -> list[int]:
+    """Approve (as staff) every proposed calibration of a calorimeter; return their ids."""
+    cup = calorimeter_id or lab.calorimeter_id
+    items = client.get(f"/api/calorimeters/{cup}/calibrations", headers=lab.auth(who)).get_json()["items"]
+    done = []
+    for c in items:
+        if c["status"] == "proposed":
+            r = client.post(f"/api/calibrations/{c['id']}/approve", headers=lab.auth(who), json={"confirm": True})
+            assert r.status_code == 200, r.get_json()
+            done.append(c["id"])
+    return done

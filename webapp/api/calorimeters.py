@@ -121,6 +121,9 @@ def enter_calibration(calorimeter_id: int):  # type: ignore[no-untyped-def]
     ``confirm: true`` accepts a value in force that moves by more than k·u (409 otherwise);
     ``restart: true`` says the cup itself changed, so its pooled history starts again here.
     """
+    from webapp.services.calibrations import require_staff
+
+    require_staff(actor(), "record a heat capacity")  # whatever the body holds
     session = get_session()
     data = json_object()
     cal = get_calorimeter(session, calorimeter_id)

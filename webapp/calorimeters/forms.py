@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
+from wtforms import BooleanField
 from wtforms import IntegerField
 from wtforms import StringField
 from wtforms import TextAreaField
@@ -19,6 +20,8 @@ class CalorimeterForm(FlaskForm):
     location = StringField("Location", validators=[Length(max=200)])
     heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+    measured_on = StringField("Heat capacity measured on", validators=[Length(max=40)],
+                              description="the date it was measured, YYYY-MM-DD (needed with a heat capacity)")
 
 
 class CalorimeterEditForm(CalorimeterForm):
@@ -34,4 +37,9 @@ class HeatCapacityForm(FlaskForm):
 
     heat_capacity = StringField("Heat capacity", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+    measured_on = StringField("Measured on", validators=[Length(max=40)],
+                              description="the date it was measured, YYYY-MM-DD (needed)")
     note = StringField("Note", validators=[Length(max=300)], description="where the value comes from")
+    confirm = BooleanField("Confirm a large change", description="needed when the value in force would move by "
+                           "more than twice the combined standard uncertainty")
+    restart = BooleanField("The cup itself changed", description="start its pooled history afresh from this value")
