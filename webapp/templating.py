@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
 from calc.report import format_value
 from flask import Flask
@@ -36,4 +37,16 @@ def init_app(app: Flask) -> None:
     app.jinja_env.filters["pm"] = pm
     app.jinja_env.filters["when"] = when
     app.jinja_env.filters["day"] = day
+
+    def overdue(day_of: Any, calibration: Any, calorimeter: Any) -> str | None:
+        from flask import current_app
+
+        from webapp.services.calibrations import overdue_note
+        from webapp.services.calibrations import run_day
+        from webapp.services.calibrations import text_day
+
+        when = run_day(day_of) if hasattr(day_of, "performed_on") else text_day(day_of)
+        return overdue_note(when, calibration, calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))
+
+    app.jinja_env.globals["calibration_overdue"] = overdue
     app.jinja_env.globals["signout_form"] = ConfirmForm

@@ -89,6 +89,40 @@ def measured_at(run: Run) -> dt.datetime:
         return run.created_at
 
 
+# ------------------------------------------------------------------ due dates
+
+
+def overdue_note(day: dt.date | None, calibration: Calibration | None, calorimeter: Calorimeter | None,
+                 default_days: int) -> str | None:
+    """Return the warning for a run measured on ``day`` with ``calibration``'s value, or None when in time.
+
+    The value was due again ``interval`` days after it was measured (the calorimeter's own interval,
+    else ``default_days``); a run measured after that day used an overdue calibration.
+    """
+    if calibration is None or day is None:
+        return None
+    days = (calorimeter.calibration_interval_days if calorimeter is not None else None) or int(default_days)
+    due = calibration.taken_at.date() + dt.timedelta(days=days)
+    if day <= due:
+        return None
+    return (f"calibration overdue: this run was measured on {day.isoformat()}, but the calorimeter's heat capacity "
+            f"in force was measured on {calibration.taken_at.date().isoformat()} and was due again on "
+            f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyse")
+
+
+def run_day(run: Run) -> dt.date:
+    """Return the day a run was measured."""
+    return measured_at(run).date()
+
+
+def text_day(text: str | None) -> dt.date:
+    """Return the day of an ``[info] date`` (today when it is missing or not ISO 8601)."""
+    try:
+        return parse_measured_date(text or "", "date").date()
+    except Invalid:
+        return utcnow().date()
+
+
 # ------------------------------------------------------------------ the value in force
 
 

@@ -45,6 +45,7 @@ class Preview:
     result: Result  # transient: never added to a session
     calorimeter: Calorimeter | None
     calibration: Calibration | None
+    measured_on: str = ""  # the run file's [info] date
 
 
 def preview_run(session: so.Session, upload: RunUpload) -> Preview:
@@ -53,7 +54,8 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
     done = analyse_upload(session, upload)
-    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration)
+    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration,
+                   str(done.spec.get("info", "date") or ""))
 
 
 @dataclasses.dataclass
