@@ -169,9 +169,12 @@ def describe(cal: Calibration | None) -> str | None:
 
 
 def refresh_in_force(session: so.Session, calorimeter: Calorimeter, actor: Person | None, *,
-                     confirm: bool = False) -> Calibration | None:
+                     confirm: bool = False, new: Calibration | None = None) -> Calibration | None:
     """Recompute the value in force from the approved measurements (the caller commits).
 
+    :param new: the calibration just recorded or approved: it too needs a confirmation when it lies
+        more than k·√(u_old² + u_new²) from the value in force (it would be left out of the pool, or
+        move it)
     :raise NeedsConfirmation: before anything is written, when the value would move too far
         and ``confirm`` is not set
     """
@@ -182,7 +185,18 @@ def refresh_in_force(session: so.Session, calorimeter: Calorimeter, actor: Perso
     if not candidates:
         return None
     p = pool([(c.id, c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in candidates])
+    if (new is not None and current is not None and not confirm and moves_too_far(
+            (current.heat_capacity_j_k, current.heat_capacity_j_k_std),
+            (new.heat_capacity_j_k, new.heat_capacity_j_k_std), CONFIRM_K)):
+        raise NeedsConfirmation(
+            f"calibration {new.heat_capacity_j_k:.4g} ± {new.heat_capacity_j_k_std:.2g} J/K of {calorimeter.name!r} "
+            f"lies more than {CONFIRM_K:g} combined standard uncertainties from the value in force, "
+            f"{current.heat_capacity_j_k:.4g} ± {current.heat_capacity_j_k_std:.2g} J/K; nothing was saved. Check "
+            "the value (a typed voltage, a mass), then confirm it (and say whether the cup itself changed, "
+            "to start its history afresh)")
     if current is not None and sorted(members_of(current)) == sorted(p.members):
+        if current.pool is not None and current.pool != p.as_dict():
+            current.pool = p.as_dict()  # same members and value: the test now also weighed a newer one
         return current
     if (current is not None and not confirm
             and moves_too_far((current.heat_capacity_j_k, current.heat_capacity_j_k_std), (p.value, p.u), CONFIRM_K)):
@@ -236,7 +250,7 @@ def calibration_from_result(session: so.Session, calorimeter: Calorimeter, resul
     record_change(session, actor, "calibration", cal.id, "status", None, cal.status)
     if approved:
         try:
-            refresh_in_force(session, calorimeter, actor)
+            refresh_in_force(session, calorimeter, actor, new=cal)
         except NeedsConfirmation as exc:
             record_change(session, actor, "calibration", cal.id, "status", "approved", "proposed")
             cal.status, cal.approved_by, cal.approved_at = "proposed", None, None
@@ -274,7 +288,7 @@ def enter_heat_capacity(session: so.Session, actor: Person, calorimeter: Calorim
     session.add(cal)
     session.flush()
     record_change(session, actor, "calibration", cal.id, "status", None, "approved")
-    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart)
+    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart, new=cal)
     session.commit()
     return cal
 
@@ -294,7 +308,7 @@ def approve_calibration(session: so.Session, actor: Person, calibration_id: int,
         _replace_earlier(session, actor, cal.result.run_id, keep=cal.id)
     record_change(session, actor, "calibration", cal.id, "status", "proposed", "approved")
     cal.status, cal.approved_by, cal.approved_at, cal.restart = "approved", actor, utcnow(), bool(restart)
-    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart)
+    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart, new=cal)
     session.commit()
     return cal
 
