@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import datetime as dt
 import io
+import re
 from typing import Any
 
 import sqlalchemy as sa
@@ -127,3 +128,21 @@ def test_approve_in_the_demo_style(client: Any, lab: Any) -> None:
     upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0)
     assert len(approve_proposals(client, lab)) == 1
     assert _in_force(client, lab)["approved_by"]["name"] == "Technician T"
+
+
+def test_the_control_chart_plots_the_cups_own_heat_capacity_by_default(client: Any, lab: Any) -> None:
+    from webapp.services.control import HEAT_CAPACITY
+
+    days = ("2026-10-05", "2026-10-12", "2026-10-19")
+    for day, value in zip(days, ("18.4", "18.9", "18.6"), strict=True):
+        assert _enter(client, lab, f"{value} ± 0.4 J/K", day).status_code == 201
+    chart = client.get(f"/api/calorimeters/{lab.calorimeter_id}/control", headers=lab.auth("tech")).get_json()
+    assert chart["standard"] == HEAT_CAPACITY and chart["unit"] == "J/K"
+    assert [p["value"] for p in chart["points"]] == [18.4, 18.9, 18.6]
+    assert [p["at"] for p in chart["points"]] == list(days)  # dates as measured, no time stamps
+    sign_in(client, "tech@lab.example")
+    html = client.get(f"/calorimeters/{lab.calorimeter_id}/control").get_data(as_text=True)
+    assert "calibration, in the order measured" in html and "2026-10-12" in html
+    texts = re.findall(r"<text[^>]*>([^<]*)</text>", html)
+    ticks = texts[:texts.index("calibration, in the order measured")]  # the x tick labels come first
+    assert ticks and all(t.isdigit() for t in ticks)  # whole calibrations: no 0.5, 1.5
