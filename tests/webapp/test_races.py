@@ -84,3 +84,26 @@ def test_a_stale_write_gets_409_with_the_current_state(client: Any, lab: Any) ->
     r = client.patch(f"/api/runs/{run_id}", headers=lab.auth("coord"),
                      json={"title": "fourth", "version": body["current"]["run"]["version"]})
     assert r.status_code == 200 and r.get_json()["title"] == "fourth"
+
+
+def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: Any, lab: Any) -> None:
+    from tests.webapp.conftest import csrf_token
+    from tests.webapp.conftest import sign_in
+
+    call = in_process_caller(client.application)
+    run_id = upload_run(call, lab.tokens["a1"])
+    sign_in(client, "a1@lab.example")
+    page = client.get(f"/runs/{run_id}").get_data(as_text=True)
+    version = int(__import__("re").search(r'name="version" value="(\d+)"', page).group(1))
+    token = csrf_token(page)
+    # someone else changes the run after the page was read
+    r = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("coord"), "If-Match": f'"{version}"'},
+                     json={"notes": "checked by the coordinator"})
+    assert r.status_code == 200
+    r = client.post(f"/runs/{run_id}/lock", data={"csrf_token": token, "version": str(version)})
+    html = r.get_data(as_text=True)
+    assert r.status_code == 409 and "Changed by someone else" in html and "Reload it" in html
+    r = client.get(f"/api/runs/{run_id}", headers=lab.auth("a1")).get_json()
+    assert r["locked"] is False  # nothing signed that the author had not seen
+    r = client.post(f"/runs/{run_id}/lock", data={"csrf_token": token, "version": str(r["version"])})
+    assert r.status_code == 302
