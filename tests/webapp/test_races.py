@@ -107,3 +107,25 @@ def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: An
     assert r["locked"] is False  # nothing signed that the author had not seen
     r = client.post(f"/runs/{run_id}/lock", data={"csrf_token": token, "version": str(r["version"])})
     assert r.status_code == 302
+
+
+def test_the_webhook_queued_at_the_lock_carries_the_signed_result(client: Any, lab: Any, session: Any) -> None:
+    import json
+
+    import sqlalchemy as sa
+
+    from webapp.models import Webhook
+    from webapp.models import WebhookDelivery
+
+    session.add(Webhook(url="https://receiver.example.org/hook", secret="s" * 64, active=True))
+    session.commit()
+    call = in_process_caller(client.application)
+    run_id = upload_run(call, lab.tokens["a1"])
+    # a re-analysis just before the lock: the lock must sign (and announce) the new result, not the first
+    r = client.post(f"/api/runs/{run_id}/analyses", headers=lab.auth("a1"), json={"method": "naive", "monte_carlo": 0})
+    newest = r.get_json()["id"]
+    locked = client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).get_json()
+    assert locked["locked_result_id"] == newest and len(locked["locked_hash"]) == 64
+    body = json.loads(session.scalar(sa.select(WebhookDelivery.body).where(WebhookDelivery.run_id == run_id)))
+    assert body["result"]["id"] == newest and body["result"]["method"] == "naive"
+    assert body["signed"] == {"result_id": newest, "content_hash": locked["locked_hash"]}
