@@ -146,3 +146,20 @@ def test_the_control_chart_plots_the_cups_own_heat_capacity_by_default(client: A
     texts = re.findall(r"<text[^>]*>([^<]*)</text>", html)
     ticks = texts[:texts.index("calibration, in the order measured")]  # the x tick labels come first
     assert ticks and all(t.isdigit() for t in ticks)  # whole calibrations: no 0.5, 1.5
+
+
+def test_the_dashboard_flags_a_run_on_an_overdue_cup(client: Any, lab: Any, session: Any) -> None:
+    from types import SimpleNamespace
+
+    from webapp.services.dashboard import FLAGS
+    from webapp.services.dashboard import _overdue_flags
+
+    toml = without_heat_capacity(demo_files("diss-kcl-01")[0])  # [info] date = 2025-03-12
+    assert _enter(client, lab, "18.6 ± 0.5 J/K", "2025-01-10").status_code == 201  # due 2025-02-09
+    late = upload(client, lab.auth("a1"), "diss-kcl-01", toml=toml, monte_carlo=0).get_json()["id"]
+    assert _enter(client, lab, "18.7 ± 0.5 J/K", "2025-03-11", confirm=True).status_code == 201
+    in_time = upload(client, lab.auth("a1"), "diss-kcl-01", toml=toml, monte_carlo=0).get_json()["id"]
+    rows = [SimpleNamespace(run_id=i, flags=[], notes={}) for i in (late, in_time)]
+    _overdue_flags(session, rows)  # type: ignore[arg-type]
+    assert rows[0].flags == ["overdue"] and "due again on 2025-02-09" in rows[0].notes["overdue"]
+    assert rows[1].flags == [] and "overdue" in FLAGS
