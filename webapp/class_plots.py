@@ -96,7 +96,8 @@ def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequenc
 
 
 def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bool], *, unit: str,
-                      standard: str, baseline: int, width_in: float = 7.5, height_in: float = 3.9) -> str:
+                      standard: str, baseline: int, width_in: float = 7.5, height_in: float = 3.9,
+                      xlabel: str = "run, in time order") -> str:
     """Return an individuals control chart: points in time order, centre line, ±1/2/3 s limits.
 
     ``limits`` is a :class:`calc.statistics.control_charts.ControlLimits`; points breaking a run rule
@@ -128,7 +129,10 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
                label="run rule broken"),
         Patch(facecolor=_C["yellow"], alpha=0.35, label=f"baseline ({baseline} points)"),
     ]
-    ax.set_xlabel("run, in time order", fontsize=_FS_LABEL)
+    ax.set_xlabel(xlabel, fontsize=_FS_LABEL)
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))  # whole runs: no 0.5, 1.5
     ax.set_ylabel(f"result / ({unit})", fontsize=_FS_LABEL)
     ax.set_xlim(0.5, max(v.size, 2) + 0.5)
     _heading(fig, "Control chart", standard)

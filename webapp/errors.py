@@ -9,6 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 import sqlalchemy as sa
+import sqlalchemy.orm as so
 
 from flask import Flask
 from flask import Response
@@ -20,6 +21,7 @@ from werkzeug.exceptions import HTTPException
 from werkzeug.exceptions import RequestEntityTooLarge
 
 from webapp.services.errors import ServiceError
+from webapp.services.errors import Stale
 from webapp.services.errors import storage_error
 
 
@@ -66,9 +68,21 @@ def init_app(app: Flask) -> None:
 
     @app.errorhandler(ServiceError)
     def _service_error(exc: ServiceError):  # type: ignore[no-untyped-def]
+        _roll_back_request_session()
         if wants_json():
-            return json_error(exc.status, exc.message, exc.field)
+            response, status = json_error(exc.status, exc.message, exc.field)
+            current = getattr(exc, "current", None)
+            if current:
+                response = jsonify({**response.get_json(), "current": current})
+            return response, status
+        if isinstance(exc, Stale):
+            return _page_error(exc.status, "Changed by someone else", exc.message)
         return _page_error(exc.status, "That did not work", exc.message)
+
+    @app.errorhandler(so.exc.StaleDataError)
+    def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
+        return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
+                                    "saved. Reload it, then make your change again"))
 
     @app.errorhandler(CSRFError)
     def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]

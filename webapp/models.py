@@ -16,6 +16,10 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 ROLES = ("coordinator", "technician", "student")
+#: who may record or approve a calibration in force (staff)
+STAFF_ROLES = ("coordinator", "technician")
+#: a calibration's standing: in the pool of the value in force, a student's proposal, or withdrawn
+CALIBRATION_STATUSES = ("approved", "proposed", "withdrawn")
 CALIBRATION_KINDS = ("electrical-calibration", "mixing-calibration")
 #: the largest id an INTEGER column holds on both databases (a larger number names nothing)
 MAX_ID = 2**31 - 1
@@ -142,6 +146,10 @@ class Calorimeter(Base):
     calibration_interval_days: so.Mapped[Optional[int]]
     #: what the calorimeter is (calc.io.runfile.CALORIMETER_TYPES): its plausible heat capacities follow it
     vessel_type: so.Mapped[str] = so.mapped_column(sa.String(20), default="foam-cups", server_default="foam-cups")
+    #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
+    version: so.Mapped[int] = so.mapped_column(default=1, server_default="1")
+
+    __mapper_args__ = {"version_id_col": version}
 
     calibrations: so.Mapped[list[Calibration]] = so.relationship(
         back_populates="calorimeter",
@@ -159,18 +167,34 @@ class Calibration(Base):
     calorimeter_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
     heat_capacity_j_k: so.Mapped[float]
     heat_capacity_j_k_std: so.Mapped[float]
-    #: when the value was measured (the calibration run's time, or when it was entered)
+    #: when the value was measured (the calibration run's [info] date, or the date typed with it)
     taken_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     result_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("results.id"), index=True)
     note: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    #: "approved" (staff recorded or approved it), "proposed" (a student's, or one awaiting
+    #: confirmation) or "withdrawn"; only approved measurements are pooled into the value in force
+    status: so.Mapped[str] = so.mapped_column(sa.String(20), default="approved", server_default="approved")
+    approved_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    approved_at: so.Mapped[Optional[dt.datetime]]
+    withdrawn_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    withdrawn_at: so.Mapped[Optional[dt.datetime]]
+    withdrawn_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="", server_default="")
+    #: a confirmed change of the cup: the pool of the value in force starts again here
+    restart: so.Mapped[bool] = so.mapped_column(default=False, server_default=sa.false())
+    #: when this row became the cup's value in force (the newest such row is in force)
+    in_force_at: so.Mapped[Optional[dt.datetime]] = so.mapped_column(index=True)
+    #: a pooled value: {"members": [ids], "excluded": [ids], "chi2", "dof", "birge", ...}; None for a measurement
+    pool: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(sa.JSON)
 
     calorimeter: so.Mapped[Calorimeter] = so.relationship(
         back_populates="calibrations", foreign_keys=[calorimeter_id]
     )
     result: so.Mapped[Optional[Result]] = so.relationship(foreign_keys=[result_id])
-    created_by: so.Mapped[Optional[Person]] = so.relationship()
+    created_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[created_by_id])
+    approved_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[approved_by_id])
+    withdrawn_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[withdrawn_by_id])
 
 
 class Run(Base):
@@ -210,6 +234,15 @@ class Run(Base):
     #: SHA-256 of the run file and the readings as imported in bulk (re-import changes nothing)
     content_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
     bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
+    #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
+    version: so.Mapped[int] = so.mapped_column(default=1, server_default="1")
+    #: what the lock signed: the current result then and the SHA-256 of the run's content
+    locked_result_id: so.Mapped[Optional[int]] = so.mapped_column(
+        sa.ForeignKey("results.id", use_alter=True)
+    )
+    locked_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64))
+
+    __mapper_args__ = {"version_id_col": version}
 
     author: so.Mapped[Person] = so.relationship(foreign_keys=[author_id])
     locked_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[locked_by_id])

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
 from calc.report import format_value
 from flask import Flask
@@ -27,10 +28,30 @@ def when(value: dt.datetime | None) -> str:
     return value.strftime("%Y-%m-%d %H:%M UTC")
 
 
+def day(value: dt.datetime | dt.date | None) -> str:
+    """Return a stored time as its date, ``YYYY-MM-DD`` (when something was measured)."""
+    if value is None:
+        return "never"
+    return value.strftime("%Y-%m-%d")
+
+
 def init_app(app: Flask) -> None:
     """Register the filters and the sign-out form every page shows."""
     app.jinja_env.filters["pm"] = pm
     app.jinja_env.filters["when"] = when
+    app.jinja_env.filters["day"] = day
+
+    def overdue(day_of: Any, calibration: Any, calorimeter: Any) -> str | None:
+        from flask import current_app
+
+        from webapp.services.calibrations import overdue_note
+        from webapp.services.calibrations import run_day
+        from webapp.services.calibrations import text_day
+
+        when = run_day(day_of) if hasattr(day_of, "performed_on") else text_day(day_of)
+        return overdue_note(when, calibration, calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))
+
+    app.jinja_env.globals["calibration_overdue"] = overdue
     app.jinja_env.globals["signout_form"] = ConfirmForm
     app.jinja_env.globals["run_flagged"] = run_flagged
     app.jinja_env.globals["flagged_checks"] = flagged_checks

@@ -9,6 +9,7 @@ the PostgreSQL half is skipped with a message saying what to install, unless
 
 from __future__ import annotations
 
+import datetime as dt
 import os
 import re
 import shutil
@@ -193,7 +194,8 @@ def lab(app: Any, session: Any) -> Lab:
     }
     tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
     cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
-    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K")
+    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K",
+                               measured_on=dt.date.today().isoformat())
     return Lab({k: p.id for k, p in people.items()}, tokens, {"A": ga.id, "B": gb.id}, cup.id, spare.id)
 
 
@@ -238,3 +240,16 @@ def sign_in(client: Any, email: str, password: str = PASSWORD) -> Any:
     page = client.get("/auth/login")
     return client.post("/auth/login", data={"email": email, "password": password,
                                             "csrf_token": csrf_token(page.get_data(as_text=True))})
+
+
+def approve_proposals(client: Any, lab: Lab, calorimeter_id: int | None = None, who: str = "tech") -> list[int]:
+    """Approve (as staff) every proposed calibration of a calorimeter; return their ids."""
+    cup = calorimeter_id or lab.calorimeter_id
+    items = client.get(f"/api/calorimeters/{cup}/calibrations", headers=lab.auth(who)).get_json()["items"]
+    done = []
+    for c in items:
+        if c["status"] == "proposed":
+            r = client.post(f"/api/calibrations/{c['id']}/approve", headers=lab.auth(who), json={"confirm": True})
+            assert r.status_code == 200, r.get_json()
+            done.append(c["id"])
+    return done

@@ -80,7 +80,7 @@ def test_reanalyse_keeps_the_old_result(client: Any, lab: Any) -> None:
 
 def test_patch_details_is_audited(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "diss-kcl-01").get_json()
-    r = client.patch(f"/api/runs/{run['id']}", headers=lab.auth("a1"), json={"bench": "Bench 9", "title": "KCl again"})
+    r = client.patch(f"/api/runs/{run['id']}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "Bench 9", "title": "KCl again"})
     assert r.status_code == 200 and r.get_json()["bench"] == "Bench 9"
     audit = client.get(f"/api/runs/{run['id']}/audit", headers=lab.auth("a1")).get_json()["items"]
     assert {(a["field"], a["old"], a["new"]) for a in audit} == {
@@ -154,7 +154,7 @@ def test_missing_parts_and_bad_json(client: Any, lab: Any) -> None:
     r = client.post(f"/api/runs/{run['id']}/analyses", headers=h, data="[1, 2]", content_type="application/json")
     assert r.status_code == 400 and r.get_json()["field"] == "body"
     for body in ({"kind": "x"}, {"title": 5}, {"title": "x" * 301}, {"group_id": "A"}):
-        r = client.patch(f"/api/runs/{run['id']}", headers=h, json=body)
+        r = client.patch(f"/api/runs/{run['id']}", headers={**h, "If-Match": "*"}, json=body)
         assert r.status_code == 400 and r.get_json()["field"] in body, body
     for query in ("page=0", "page=x", "per_page=100000", "calorimeter_id=x"):
         r = client.get(f"/api/runs?{query}", headers=h)

@@ -106,7 +106,9 @@ def test_calorimeter_type_sets_the_plausible_range(client: Any, session: Any, la
     assert abs(result.calorimeter_heat_capacity_j_k - 133.0) < 3 * result.calorimeter_heat_capacity_j_k_std
     assert "calorimeter_heat_capacity" not in {c["code"] for c in result.checks}
     # the same calibration on a foam-cup calorimeter is implausible
-    client.patch(f"/api/calorimeters/{made.get_json()['id']}", json={"vessel_type": "foam-cups"}, headers=h)
+    changed = client.patch(f"/api/calorimeters/{made.get_json()['id']}", json={"vessel_type": "foam-cups"},
+                           headers={**h, "If-Match": "*"})
+    assert changed.status_code == 200, changed.get_json()
     r = client.post("/api/runs", headers=h, content_type="multipart/form-data", data={
         "run_file": (io.BytesIO(toml.encode()), "dewar.toml"), "readings": (io.BytesIO(csv), "dewar.csv"),
         "monte_carlo": "0"})

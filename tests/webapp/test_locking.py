@@ -24,7 +24,7 @@ from webapp.services.runs import update_run
 @pytest.fixture
 def locked_run(client: Any, lab: Any) -> int:
     run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    assert client.patch(f"/api/runs/{run_id}", headers=lab.auth("a1"), json={"bench": "B-2"}).status_code == 200
+    assert client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "B-2"}).status_code == 200
     assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
     return int(run_id)
 
@@ -41,7 +41,7 @@ def test_every_api_path_refuses(client: Any, lab: Any, session: Any, locked_run:
     before = _snapshot(session, locked_run)
     for who in ("a1", "coord", "tech"):
         h = lab.auth(who)
-        r = client.patch(f"/api/runs/{locked_run}", headers=h, json={"title": "changed"})
+        r = client.patch(f"/api/runs/{locked_run}", headers={**h, "If-Match": "*"}, json={"title": "changed"})
         assert r.status_code == 409 and "locked" in r.get_json()["error"]
         r = client.post(f"/api/runs/{locked_run}/analyses", headers=h, json={"method": "naive", "monte_carlo": 0})
         assert r.status_code == 409
@@ -111,11 +111,14 @@ def test_changes_before_the_lock_are_in_the_audit_trail(session: Any, lab: Any, 
 
 def test_calorimeter_changes_are_audited(client: Any, lab: Any) -> None:
     h = lab.auth("coord")
-    r = client.patch(f"/api/calorimeters/{lab.calorimeter_id}", headers=h, json={"location": "Room 3B"})
+    r = client.patch(f"/api/calorimeters/{lab.calorimeter_id}", headers={**h, "If-Match": "*"}, json={"location": "Room 3B"})
     assert r.status_code == 200
     r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
                     json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier"})
-    assert r.status_code == 201
+    assert r.status_code == 400 and r.get_json()["field"] == "measured_on"  # a typed value needs its date
+    r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
+                    json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier", "measured_on": "2026-11-30"})
+    assert r.status_code == 201 and r.get_json()["measured_on"] == "2026-11-30"
     from webapp.db import new_session
 
     s = new_session(client.application)
@@ -123,6 +126,6 @@ def test_calorimeter_changes_are_audited(client: Any, lab: Any) -> None:
         entries = s.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter")
                             .order_by(AuditEntry.id)).all()
         assert [(e.field, e.old, e.new) for e in entries] == [
-            ("location", "", "Room 3B"), ("heat_capacity", None, "19 ± 1.5 J/K")]
+            ("location", "", "Room 3B"), ("heat_capacity", None, f"19 ± 1.5 J/K (#{r.get_json()['id']})")]
     finally:
         s.close()

@@ -27,8 +27,9 @@ def test_home_lists_recent_runs_and_calorimeters_due(client: Any, lab: Any, runs
     html = client.get("/").get_data(as_text=True)
     assert "Enthalpy of solution of KCl" in html and "Heater calibration of cup TH-07" in html
     due = html.split("Calorimeters due for calibration")[1]
-    # the cup was just calibrated by the run; the spare has a fresh hand-entered value
-    assert "None: every calorimeter was calibrated recently." in due
+    # the student's calibration run is only a proposal, so the cup is still due; the spare has a fresh
+    # hand-entered value
+    assert "Cup TH-07" in due and "never" in due and "Spare cup" not in due
 
 
 def test_home_shows_a_calorimeter_never_calibrated(client: Any, lab: Any) -> None:

@@ -12,6 +12,7 @@ from tests.webapp.conftest import csrf_token
 from tests.webapp.conftest import demo_files
 from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
+from tests.webapp.conftest import approve_proposals
 from tests.webapp.conftest import without_heat_capacity
 from webapp.models import AuditEntry
 from webapp.models import Calibration
@@ -22,6 +23,10 @@ def test_history_plot_table_and_the_runs_of_each_calibration(client: Any, lab: A
     # a calibration run on the cup, then a group-A run and a group-B run that use its value
     cal_run = upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0).get_json()
     toml, _csv = demo_files("diss-kcl-01")
+    # a student's calibration is only a proposal: no run can use it yet
+    refused = upload(client, lab.auth("a1"), "diss-kcl-01", toml=without_heat_capacity(toml), monte_carlo=0)
+    assert refused.status_code == 400 and "no heat capacity yet" in refused.get_json()["error"]
+    assert len(approve_proposals(client, lab)) == 1  # a technician approves it
     used_a = upload(client, lab.auth("a1"), "diss-kcl-01", toml=without_heat_capacity(toml), monte_carlo=0)
     used_b = upload(client, lab.auth("b1"), "diss-kcl-01", toml=without_heat_capacity(toml), monte_carlo=0)
     assert used_a.status_code == used_b.status_code == 201
@@ -89,6 +94,10 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
     assert n == 1
     r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
                     data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked"})
+    assert r.status_code == 400 and 'id="hc-measured_on-error"' in r.get_data(as_text=True)  # typed: needs a date
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+                    data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked",
+                          "hc-measured_on": "2026-11-02"})
     assert r.status_code == 302
     html = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
     assert "19.4 ± 1.5 J/K" in html and "in force" in html
@@ -97,10 +106,16 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
                     data={"csrf_token": token, "edit-name": "Cup TH-07 (two nested foam cups, lid)",
                           "edit-parts": "", "edit-location": ""})
     assert r.status_code == 409 and 'id="edit-name-error"' in r.get_data(as_text=True)
+    version = session.get(Calorimeter, lab.spare_calorimeter_id).version
     r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
                     data={"csrf_token": token, "edit-name": "Spare cup B", "edit-parts": "one cup",
-                          "edit-location": "shelf 2"})
+                          "edit-location": "shelf 2", "edit-version": str(version)})
     assert r.status_code == 302
+    # the same form sent again with the version it was read at: someone else's change is not overwritten
+    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+                    data={"csrf_token": token, "edit-name": "Spare cup C", "edit-parts": "one cup",
+                          "edit-location": "shelf 3", "edit-version": str(version)})
+    assert r.status_code == 409 and "changed by someone else" in r.get_data(as_text=True)
     session.expire_all()
     cal = session.get(Calorimeter, lab.spare_calorimeter_id)
     assert (cal.name, cal.parts, cal.location) == ("Spare cup B", "one cup", "shelf 2")
@@ -108,7 +123,7 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
     r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "", "new-heat_capacity": ""})
     assert r.status_code == 400 and 'id="new-name-error"' in r.get_data(as_text=True)
     r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "Cup TH-11",
-                                            "new-heat_capacity": "25 ± 2 J/K"})
+                                            "new-heat_capacity": "25 ± 2 J/K", "new-measured_on": "2026-12-01"})
     assert r.status_code == 302
     assert "Cup TH-11" in client.get("/calorimeters/").get_data(as_text=True)
 
@@ -121,8 +136,10 @@ def test_calorimeter_page_shows_due_date_and_links_the_control_chart(client: Any
     assert f'href="{link}"' in html
     assert client.get(link).status_code == 200
     upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0)
+    approve_proposals(client, lab)
     html = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
-    assert "day(s) left" in html  # calibrated today: due in CALIBRATION_DUE_DAYS (30) days
+    # measured on the run's [info] date 2025-03-11, due CALIBRATION_DUE_DAYS (30) days later
+    assert "overdue since 2025-04-10" in html
 
 
 def test_coordinators_set_the_calibration_interval_on_the_page(client: Any, lab: Any, session: Any) -> None:

@@ -101,16 +101,16 @@ def test_calibration_interval_per_calorimeter(session: Any, lab: Any) -> None:
 
 def test_calibration_interval_over_the_api(client: Any, lab: Any) -> None:
     url = f"/api/calorimeters/{lab.spare_calorimeter_id}"
-    r = client.patch(url, headers=lab.auth("coord"), json={"calibration_interval_days": 0, "location": "bench 9"})
+    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"calibration_interval_days": 0, "location": "bench 9"})
     assert r.status_code == 400 and r.get_json()["field"] == "calibration_interval_days"
     assert client.get(url, headers=lab.auth("coord")).get_json()["location"] != "bench 9"  # nothing stored
-    r = client.patch(url, headers=lab.auth("coord"), json={"calibration_interval_days": 7})
+    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"calibration_interval_days": 7})
     assert r.status_code == 200 and r.get_json()["calibration_interval_days"] == 7
-    r = client.patch(url, headers=lab.auth("coord"), json={"location": "bench 9"})  # not given: kept
+    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"location": "bench 9"})  # not given: kept
     assert r.get_json()["calibration_interval_days"] == 7
     control = client.get(f"{url}/control", headers=lab.auth("coord")).get_json()
     assert control["calibration"]["interval_days"] == 7
-    r = client.patch(url, headers=lab.auth("coord"), json={"calibration_interval_days": None})
+    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"calibration_interval_days": None})
     assert r.get_json()["calibration_interval_days"] is None
-    r = client.patch(url, headers=lab.auth("tech"), json={"calibration_interval_days": 3})
+    r = client.patch(url, headers={**lab.auth("tech"), "If-Match": "*"}, json={"calibration_interval_days": 3})
     assert r.status_code == 403

@@ -129,19 +129,29 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(session: Any, lab: Any) 
     assert audit[0].old.startswith(f"#{first.id} ") and audit[0].new.startswith(f"#{second.id} linear-extrapolation")
 
 
-def test_reanalysing_a_calibration_adds_history_but_an_older_run_does_not_override_a_newer(
-    session: Any, lab: Any
-) -> None:
+def test_reanalysing_a_calibration_replaces_its_value_in_the_pool(session: Any, lab: Any) -> None:
+    from webapp.services.calibrations import members_of
+
     tech = session.get(Person, lab.ids["tech"])
     older = record_run(session, tech, _upload("cal-electrical-01", calorimeter_id=lab.calorimeter_id))
     newer = record_run(session, tech, _upload("cal-mixing-01", calorimeter_id=lab.calorimeter_id))
-    assert current_calibration(session, lab.calorimeter_id).result.run_id == newer.id
+
+    def measured() -> dict[int, Calibration]:
+        rows = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == lab.calorimeter_id,
+                                                            Calibration.pool.is_(None))).all()
+        return {c.result.run_id: c for c in rows if c.status == "approved"}
+
+    first = measured()
+    assert set(first) == {older.id, newer.id}  # staff's calibrations are approved at once
+    current = current_calibration(session, lab.calorimeter_id)
+    pooled = set(members_of(current)) | set((current.pool or {}).get("excluded", []))
+    assert pooled == {first[older.id].id, first[newer.id].id}  # both weighed, whichever the test kept
     reanalyse_run(session, tech, older, AnalysisOptions(method="linear-extrapolation"))
-    history = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == lab.calorimeter_id)).all()
-    assert len(history) == 3
-    assert current_calibration(session, lab.calorimeter_id).result.run_id == newer.id
-    new_result = reanalyse_run(session, tech, newer, AnalysisOptions(method="linear-extrapolation"))
-    assert current_calibration(session, lab.calorimeter_id).result_id == new_result.id
+    second = measured()
+    assert second[newer.id].id == first[newer.id].id and second[older.id].id != first[older.id].id
+    assert session.get(Calibration, first[older.id].id).status == "withdrawn"
+    current = current_calibration(session, lab.calorimeter_id)
+    assert first[older.id].id not in members_of(current)
 
 
 @pytest.mark.parametrize(

@@ -29,7 +29,7 @@ def test_read_tokens_read_and_write_tokens_write(client: Any, lab: Any, session:
     r = client.patch(f"/api/runs/{run_id}", json={"title": "x"}, headers=ro)
     assert r.status_code == 403 and "read-only" in r.get_json()["error"]
     assert client.post(f"/api/runs/{run_id}/lock", headers=ro).status_code == 403
-    assert client.patch(f"/api/runs/{run_id}", json={"title": "x"}, headers=rw).status_code == 200
+    assert client.patch(f"/api/runs/{run_id}", json={"title": "x"}, headers={**rw, "If-Match": "*"}).status_code == 200
     listed = {t["label"]: t for t in client.get("/api/tokens", headers=ro).get_json()["items"]}
     assert listed["reader"]["scope"] == "read" and listed["writer"]["scope"] == "write"
     assert listed["reader"]["last_used_at"] is not None and listed["tests"]["last_used_at"] is None

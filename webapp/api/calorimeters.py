@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 from flask import jsonify
+from flask import request
 from flask import url_for
 
 from webapp.api.blueprint import bp
@@ -11,6 +12,7 @@ from webapp.api.params import actor
 from webapp.api.params import as_int
 from webapp.api.params import as_text
 from webapp.api.params import coordinators_only
+from webapp.api.params import expected_version
 from webapp.api.params import json_object
 from webapp.api.params import page_args
 from webapp.api.schemas import calibration_json
@@ -64,6 +66,7 @@ def create_calorimeter_route():  # type: ignore[no-untyped-def]
         location=as_text(data.get("location"), "location") or "",
         heat_capacity=as_text(data.get("heat_capacity"), "heat_capacity") or None,
         vessel_type=as_text(data.get("vessel_type"), "vessel_type") or None,
+        measured_on=as_text(data.get("measured_on"), "measured_on") or None,
     )
     return _created(calorimeter_json(cal, current_calibration(session, cal.id)),
                     url_for("api.get_calorimeter", calorimeter_id=cal.id))
@@ -75,24 +78,33 @@ def get_calorimeter_route(calorimeter_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
     history = session.scalars(calibration_history(cal.id)).all()
-    payload = calorimeter_json(cal, history[-1] if history else None)
+    payload = calorimeter_json(cal, current_calibration(session, cal.id))
     payload["calibrations"] = [calibration_json(c) for c in history]
-    return jsonify(payload)
+    response = jsonify(payload)
+    response.headers["ETag"] = f'"{cal.version}"'
+    return response
 
 
 @bp.patch("/calorimeters/<int:calorimeter_id>")
 @coordinators_only("manage calorimeters")
 def patch_calorimeter(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Change a calorimeter's name, parts, location or calibration interval (coordinators; audited)."""
+    """Change a calorimeter's name, parts, location or calibration interval (coordinators; audited).
+
+    Needs If-Match (or ``version``); a stale version gets 409 with the current state.
+    """
     session = get_session()
     changes = dict(json_object())
+    version = expected_version(changes, required=True)
     interval_given = "calibration_interval_days" in changes
     # checked before anything is stored (null: the notebook's default interval)
     days = as_int(changes.pop("calibration_interval_days", None), "calibration_interval_days", low=1, high=3650)
-    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), changes)
+    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), changes, version,
+                             commit=not interval_given)
     if interval_given:
         set_interval(session, actor(), cal, days)
-    return jsonify(calorimeter_json(cal, current_calibration(session, cal.id)))
+    response = jsonify(calorimeter_json(cal, current_calibration(session, cal.id)))
+    response.headers["ETag"] = f'"{cal.version}"'
+    return response
 
 
 @bp.get("/calorimeters/<int:calorimeter_id>/calibrations")
@@ -104,16 +116,81 @@ def list_calibrations(calorimeter_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.post("/calorimeters/<int:calorimeter_id>/calibrations")
-@coordinators_only("manage calorimeters")
 def enter_calibration(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """Enter a heat capacity measured elsewhere (coordinators; audited)."""
+    """Enter a heat capacity measured elsewhere, with the date it was measured (staff; audited).
+
+    ``confirm: true`` accepts a value in force that moves by more than k·u (409 otherwise);
+    ``restart: true`` says the cup itself changed, so its pooled history starts again here.
+    """
+    from webapp.services.calibrations import require_staff
+
+    require_staff(actor(), "record a heat capacity")  # whatever the body holds
     session = get_session()
     data = json_object()
     cal = get_calorimeter(session, calorimeter_id)
     entry = enter_heat_capacity(session, actor(), cal,
                                 as_text(data.get("heat_capacity"), "heat_capacity", required=True) or "",
-                                as_text(data.get("note"), "note") or "")
+                                as_text(data.get("measured_on"), "measured_on"),
+                                as_text(data.get("note"), "note") or "",
+                                confirm=_flag(data, "confirm"), restart=_flag(data, "restart"))
     return _created(calibration_json(entry), url_for("api.get_calorimeter", calorimeter_id=cal.id))
+
+
+def _flag(data: dict, name: str) -> bool:
+    value = data.get(name, False)
+    if not isinstance(value, bool):
+        from webapp.services.errors import Invalid
+
+        raise Invalid("expected true or false", field=name)
+    return value
+
+
+@bp.post("/calibrations/<int:calibration_id>/approve")
+def approve_calibration_route(calibration_id: int):  # type: ignore[no-untyped-def]
+    """Approve a proposed calibration (staff): it joins the value in force (``confirm``, ``restart`` as above)."""
+    from webapp.services.calibrations import approve_calibration
+
+    data = dict(json_object()) if request.data else {}
+    cal = approve_calibration(get_session(), actor(), calibration_id, confirm=_flag(data, "confirm"),
+                              restart=_flag(data, "restart"))
+    return jsonify(calibration_json(cal))
+
+
+@bp.post("/calibrations/<int:calibration_id>/withdraw")
+def withdraw_calibration_route(calibration_id: int):  # type: ignore[no-untyped-def]
+    """Withdraw a calibration (staff, with a ``reason``); answers with the runs that used it."""
+    from webapp.services.calibrations import runs_using
+    from webapp.services.calibrations import withdraw_calibration
+
+    session = get_session()
+    data = json_object()
+    cal = withdraw_calibration(session, actor(), calibration_id, as_text(data.get("reason"), "reason") or "")
+    return jsonify({**calibration_json(cal), "runs_using": [r.id for r in runs_using(session, cal)]})
+
+
+@bp.get("/calibrations/<int:calibration_id>/runs")
+def calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
+    """List the runs whose C_cal came from this calibration (or a pooled value that held it)."""
+    from webapp.services.calibrations import get_calibration
+    from webapp.services.calibrations import runs_using
+    from webapp.services.access import can_view_run
+
+    session = get_session()
+    cal = get_calibration(session, calibration_id)
+    runs = [r for r in runs_using(session, cal) if can_view_run(actor(), r)]
+    return jsonify({"items": [{"id": r.id, "title": r.title, "locked": r.locked, "calibration_id": r.calibration_id}
+                              for r in runs]})
+
+
+@bp.post("/calibrations/<int:calibration_id>/reanalyse-runs")
+def reanalyse_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
+    """Re-analyse, with the value now in force, every unlocked run that used this calibration (staff)."""
+    from webapp.services.calibrations import reanalyse_runs_using
+
+    done = reanalyse_runs_using(get_session(), actor(), calibration_id)
+    return jsonify({"calibration": calibration_json(done.calibration) if done.calibration else None,
+                    "reanalysed": done.reanalysed, "locked": done.locked,
+                    "failed": [{"run_id": i, "error": m} for i, m in done.failed]})
 
 
 @bp.get("/groups")

@@ -43,6 +43,9 @@ def _op(summary: str, ok: dict[str, Any], *codes: int, params: list[dict[str, An
     return op
 
 
+_IF_MATCH = {"name": "If-Match", "in": "header", "required": False, "schema": {"type": "string"},
+             "description": "the ETag (version) the change is based on, e.g. \"3\""}
+
 _PAGE_PARAMS = [
     {"name": "page", "in": "query", "schema": {"type": "integer", "minimum": 1}},
     {"name": "per_page", "in": "query", "schema": {"type": "integer", "minimum": 1}},
@@ -64,7 +67,9 @@ _QTY = {"type": "object", "properties": {"value": {"type": ["number", "null"]},
 
 SCHEMAS: dict[str, Any] = {
     "Error": {"type": "object", "required": ["error"],
-              "properties": {"error": {"type": "string"}, "field": {"type": "string"}}},
+              "properties": {"error": {"type": "string"}, "field": {"type": "string"},
+                             "current": {"type": "object", "description": "with a stale write (409): the state "
+                                                                          "stored now, by entity"}}},
     "Quantity": _QTY,
     "Ref": {"type": ["object", "null"], "properties": {"id": {"type": "integer"}, "name": {"type": "string"}}},
     "Person": {"type": "object", "properties": {"id": {"type": "integer"}, "name": {"type": "string"},
@@ -77,12 +82,21 @@ SCHEMAS: dict[str, Any] = {
     "Calibration": {"type": "object", "properties": {
         "id": {"type": "integer"}, "calorimeter_id": {"type": "integer"}, "heat_capacity": _ref("Quantity"),
         "taken_at": {"type": "string", "format": "date-time"}, "result_id": {"type": ["integer", "null"]},
-        "run_id": {"type": ["integer", "null"]}, "note": {"type": "string"}}},
+        "run_id": {"type": ["integer", "null"]}, "note": {"type": "string"},
+        "measured_on": {"type": "string", "format": "date", "description": "the date it was measured"},
+        "status": {"type": "string", "enum": ["approved", "proposed", "withdrawn"]},
+        "approved_by": _ref("Ref"), "approved_at": {"type": ["string", "null"], "format": "date-time"},
+        "withdrawn_at": {"type": ["string", "null"], "format": "date-time"},
+        "withdrawn_reason": {"type": ["string", "null"]},
+        "in_force_since": {"type": ["string", "null"], "format": "date-time"}, "restart": {"type": "boolean"},
+        "pool": {"type": ["object", "null"], "description": "a pooled value: members, excluded, chi2, dof, birge, "
+                                                            "limit (see the notebook guide)"}}},
     "Calorimeter": {"type": "object", "properties": {
         "id": {"type": "integer"}, "name": {"type": "string"}, "parts": {"type": "string"},
         "location": {"type": "string"}, "created_at": {"type": "string", "format": "date-time"},
         "vessel_type": {"type": "string", "enum": list(CALORIMETER_TYPES)},
         "calibration_interval_days": {"type": ["integer", "null"]},
+        "version": {"type": "integer", "description": "the ETag; send it as If-Match to change the calorimeter"},
         "current_calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]},
         "calibrations": {"type": "array", "items": _ref("Calibration")}}},
     "ResultSummary": {"type": "object", "properties": {
@@ -109,11 +123,14 @@ SCHEMAS: dict[str, Any] = {
         "operator": {"type": "string"}, "author": _ref("Ref"), "group": _ref("Ref"), "bench": {"type": "string"},
         "performed_on": {"type": "string"}, "created_at": {"type": "string", "format": "date-time"},
         "calorimeter": _ref("Ref"), "points": {"type": "integer"}, "locked": {"type": "boolean"},
+        "version": {"type": "integer", "description": "the ETag; send it as If-Match to change the run"},
         "current_result": {"oneOf": [_ref("ResultSummary"), {"type": "null"}]}, "url": {"type": "string"}}},
     "Run": {"allOf": [_ref("RunSummary"), {"type": "object", "properties": {
         "notes": {"type": "string"}, "run_file_name": {"type": "string"}, "readings_name": {"type": "string"},
         "calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]}, "locked_by": _ref("Ref"),
         "locked_at": {"type": ["string", "null"], "format": "date-time"},
+        "locked_result_id": {"type": ["integer", "null"], "description": "the result the lock signed"},
+        "locked_hash": {"type": ["string", "null"], "description": "SHA-256 of what the lock signed"},
         "inputs": {"type": "array", "items": {"type": "object"}},
         "results": {"type": "array", "items": _ref("ResultSummary")}}}]},
     "AuditEntry": {"type": "object", "properties": {
@@ -171,23 +188,31 @@ PATHS: dict[str, Any] = {
     },
     "/api/runs/{run_id}": {
         "get": _op("A run with its inputs and results", _json(_ref("Run"), "The run"), 401, 404, params=_RUN_ID),
-        "patch": _op("Change a run's details (audited)", _json(_ref("Run"), "The run"), 400, 401, 403, 404, 409,
-                     params=_RUN_ID, body=_body({k: {"type": "string"} for k in
-                                                 ("title", "operator", "bench", "performed_on", "notes")}
-                                                | {"group_id": {"type": ["integer", "null"]}})),
+        "patch": _op("Change a run's details (audited). Say which version you change: If-Match with the ETag "
+                     "(or `version` in the body; If-Match: * overwrites on purpose). A stale version gets 409 "
+                     "with `current`; none at all gets 428",
+                     _json(_ref("Run"), "The run"), 400, 401, 403, 404, 409, 428,
+                     params=_RUN_ID + [_IF_MATCH], body=_body({k: {"type": "string"} for k in
+                                                               ("title", "operator", "bench", "performed_on", "notes")}
+                                                              | {"group_id": {"type": ["integer", "null"]},
+                                                                 "version": {"type": "integer"}})),
     },
     "/api/runs/{run_id}/analyses": {
-        "post": _op("Analyse again (the old result is kept)", _json(_ref("Result"), "The new result"),
-                    400, 401, 403, 404, 409, params=_RUN_ID, status="201",
+        "post": _op("Analyse again (the old result is kept); with If-Match (or `version`) only that version",
+                    _json(_ref("Result"), "The new result"),
+                    400, 401, 403, 404, 409, params=_RUN_ID + [_IF_MATCH], status="201",
                     body={"required": False, "content": {"application/json": {"schema": {
-                        "type": "object", "properties": _OPTIONS_PROPS}}}}),
+                        "type": "object", "properties": {**_OPTIONS_PROPS, "version": {"type": "integer"}}}}}}),
     },
     "/api/runs/{run_id}/results": {
         "get": _op("A run's results, oldest first", _json(_list_of(_ref("ResultSummary")), "Results"),
                    401, 404, params=_RUN_ID)},
     "/api/runs/{run_id}/lock": {
-        "post": _op("Lock (sign) a run: its author or a coordinator", _json(_ref("Run"), "The locked run"),
-                    401, 403, 404, 409, params=_RUN_ID)},
+        "post": _op("Lock (sign) a run: its author or a coordinator. The answer names the result and the content "
+                    "hash it signed; with If-Match (or `version`) only that version is signed (409 otherwise)",
+                    _json(_ref("Run"), "The locked run"), 400, 401, 403, 404, 409, params=_RUN_ID + [_IF_MATCH],
+                    body={"required": False, "content": {"application/json": {"schema": {
+                        "type": "object", "properties": {"version": {"type": "integer"}}}}}})},
     "/api/runs/{run_id}/audit": {
         "get": _op("The changes made to a run", _json(_list_of(_ref("AuditEntry")), "Audit entries"),
                    401, 404, params=_RUN_ID)},
@@ -219,20 +244,50 @@ PATHS: dict[str, Any] = {
         "get": _op("A calorimeter with its heat-capacity history", _json(_ref("Calorimeter"), "The calorimeter"),
                    401, 404, params=_CAL_ID),
         "patch": _op("Change name, parts, location or calibration interval in days, null for the notebook's "
-                     "default (coordinators; audited)",
-                     _json(_ref("Calorimeter"), "The calorimeter"), 400, 401, 403, 404, 409, params=_CAL_ID,
+                     "default (coordinators; audited). Needs If-Match or `version` as a run's PATCH does",
+                     _json(_ref("Calorimeter"), "The calorimeter"), 400, 401, 403, 404, 409, 428,
+                     params=_CAL_ID + [_IF_MATCH],
                      body=_body({**{k: {"type": "string"} for k in ("name", "parts", "location")},
                                  "vessel_type": {"type": "string", "enum": list(CALORIMETER_TYPES)},
                                  "calibration_interval_days": {"type": ["integer", "null"], "minimum": 1,
-                                                               "maximum": 3650}})),
+                                                               "maximum": 3650},
+                                 "version": {"type": "integer"}})),
     },
     "/api/calorimeters/{calorimeter_id}/calibrations": {
         "get": _op("A calorimeter's heat-capacity history", _json(_list_of(_ref("Calibration")), "History"),
                    401, 404, params=_CAL_ID),
-        "post": _op("Enter a heat capacity measured elsewhere (coordinators)",
-                    _json(_ref("Calibration"), "The new value"), 400, 401, 403, 404, params=_CAL_ID, status="201",
-                    body=_body({"heat_capacity": {"type": "string"}, "note": {"type": "string"}}, ["heat_capacity"])),
+        "post": _op("Record a heat capacity measured elsewhere, with its date (technicians, coordinators). "
+                    "A value more than k·u from the value in force needs `confirm: true` (409 otherwise); "
+                    "`restart: true` says the cup itself changed",
+                    _json(_ref("Calibration"), "The new value"), 400, 401, 403, 404, 409, params=_CAL_ID,
+                    status="201",
+                    body=_body({"heat_capacity": {"type": "string"}, "measured_on": {"type": "string", "format": "date"},
+                                "note": {"type": "string"}, "confirm": {"type": "boolean"},
+                                "restart": {"type": "boolean"}}, ["heat_capacity", "measured_on"])),
     },
+    "/api/calibrations/{calibration_id}/approve": {
+        "post": _op("Approve a proposed calibration (technicians, coordinators): it joins the value in force",
+                    _json(_ref("Calibration"), "The calibration"), 400, 401, 403, 404, 409, params=[_id("calibration_id")],
+                    body={"required": False, "content": {"application/json": {"schema": {
+                        "type": "object", "properties": {"confirm": {"type": "boolean"},
+                                                         "restart": {"type": "boolean"}}}}}})},
+    "/api/calibrations/{calibration_id}/withdraw": {
+        "post": _op("Withdraw a calibration with a reason (technicians, coordinators); lists the runs that used it",
+                    _json({"allOf": [_ref("Calibration"), {"type": "object", "properties": {
+                        "runs_using": {"type": "array", "items": {"type": "integer"}}}}]}, "The calibration"),
+                    400, 401, 403, 404, 409, params=[_id("calibration_id")],
+                    body=_body({"reason": {"type": "string"}}, ["reason"]))},
+    "/api/calibrations/{calibration_id}/runs": {
+        "get": _op("The runs whose C_cal came from this calibration or a pooled value that held it",
+                   _json(_list_of({"type": "object"}), "Runs"), 401, 404, params=[_id("calibration_id")])},
+    "/api/calibrations/{calibration_id}/reanalyse-runs": {
+        "post": _op("Re-analyse, with the value in force, every unsigned run that used this calibration",
+                    _json({"type": "object", "properties": {
+                        "calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]},
+                        "reanalysed": {"type": "array", "items": {"type": "integer"}},
+                        "locked": {"type": "array", "items": {"type": "integer"}},
+                        "failed": {"type": "array", "items": {"type": "object"}}}}, "What was done"),
+                    400, 401, 403, 404, params=[_id("calibration_id")])},
     "/api/groups": {
         "get": _op("List the groups", _json(_list_of(_ref("Group")), "Groups"), 401),
         "post": _op("Add a group (coordinators)", _json(_ref("Group"), "The new group"), 400, 401, 403, 409,
@@ -251,7 +306,9 @@ def document() -> dict[str, Any]:
     error = {"description": "", "content": {"application/json": {"schema": _ref("Error")}}}
     texts = {400: "Bad input; the message names the field", 401: "No valid token (or session, for reads)",
              403: "Not allowed for your role", 404: "Not found, or not yours to see",
-             409: "Exists already, or the run is locked", 413: "Upload too large"}
+             409: "Exists already, the run is locked, or changed since the version you sent (`current` holds it "
+                  "now), or a large change needs `confirm`", 413: "Upload too large",
+             428: "A write that must name the version it changes (If-Match or `version`) did not"}
     return {
         "openapi": "3.1.0",
         "info": {"title": "cupcal notebook API", "version": __version__,

@@ -21,6 +21,38 @@ from webapp.services.errors import Invalid
 _View = TypeVar("_View", bound=Callable[..., Any])
 
 
+def expected_version(data: dict[str, Any] | None = None, *, required: bool = False) -> int | None:
+    """Return the version a write is based on: the ``If-Match`` header (``"3"``, ``W/"3"``), else
+    ``version`` in the JSON body (removed from ``data``). ``If-Match: *`` names none on purpose.
+
+    :raise VersionRequired: (428) when ``required`` and neither is given
+    :raise Invalid: for a version that is not a whole number, or two that disagree
+    """
+    from webapp.services.errors import VersionRequired
+
+    header = request.headers.get("If-Match")
+    body_version = data.pop("version", None) if isinstance(data, dict) else None
+    version: int | None = None
+    if header is not None:
+        tags = [t.strip() for t in header.split(",") if t.strip()]
+        if tags == ["*"]:
+            return None
+        if len(tags) != 1:
+            raise Invalid("expected one version in If-Match, like \"3\"", field="If-Match")
+        tag = tags[0][2:] if tags[0].startswith("W/") else tags[0]
+        version = as_int(tag.strip('"'), "If-Match", low=1, high=2**31 - 1)
+    if body_version is not None:
+        from_body = as_int(body_version, "version", low=1, high=2**31 - 1)
+        if version is not None and from_body != version:
+            raise Invalid(f"If-Match names version {version} but the body version {from_body}", field="version")
+        version = from_body
+    if version is None and required:
+        raise VersionRequired("say which version you change: send the ETag you read as If-Match "
+                              "(or \"version\" in the body); If-Match: * overwrites whatever is stored",
+                              field="If-Match")
+    return version
+
+
 def actor() -> Person:
     """Return the person calling the API."""
     return g.api_person

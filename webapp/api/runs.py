@@ -17,6 +17,7 @@ from webapp.api.params import analysis_options
 from webapp.api.params import as_int
 from webapp.api.params import as_text
 from webapp.api.params import body
+from webapp.api.params import expected_version
 from webapp.api.params import json_object
 from webapp.api.params import page_args
 from webapp.api.schemas import page_json
@@ -119,18 +120,27 @@ def create_run():  # type: ignore[no-untyped-def]
     return response
 
 
+def with_etag(run: Any) -> Response:
+    """Return the run as JSON with its version as the ETag."""
+    response = jsonify(run_json(run))
+    response.headers["ETag"] = f'"{run.version}"'
+    return response
+
+
 @bp.get("/runs/<int:run_id>", endpoint="get_run")
 def get_run_route(run_id: int):  # type: ignore[no-untyped-def]
-    """Return a run with its inputs and results."""
-    return jsonify(run_json(get_run(get_session(), actor(), run_id)))
+    """Return a run with its inputs and results; the ETag is its version."""
+    return with_etag(get_run(get_session(), actor(), run_id))
 
 
 @bp.patch("/runs/<int:run_id>")
 def patch_run(run_id: int):  # type: ignore[no-untyped-def]
-    """Change a run's details (audited); a locked run refuses."""
+    """Change a run's details (audited); needs If-Match (or ``version``); a stale or locked run refuses (409)."""
     session = get_session()
     run = get_run(session, actor(), run_id)
-    return jsonify(run_json(update_run(session, actor(), run, json_object())))
+    changes = dict(json_object())
+    version = expected_version(changes, required=True)
+    return with_etag(update_run(session, actor(), run, changes, version))
 
 
 @bp.post("/runs/<int:run_id>/analyses")
@@ -138,8 +148,9 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
     """Analyse a run again with another method or periods; the old result is kept."""
     session = get_session()
     run = get_run(session, actor(), run_id)
-    data: dict[str, Any] = json_object() if request.data else {}
-    result = reanalyse_run(session, actor(), run, analysis_options(data))
+    data: dict[str, Any] = dict(json_object()) if request.data else {}
+    version = expected_version(data)
+    result = reanalyse_run(session, actor(), run, analysis_options(data), version)
     response = jsonify(result_json(get_result(session, actor(), result.id)))
     response.status_code = 201
     response.headers["Location"] = url_for("api.get_result", result_id=result.id)
@@ -156,10 +167,16 @@ def list_results(run_id: int):  # type: ignore[no-untyped-def]
 
 @bp.post("/runs/<int:run_id>/lock")
 def lock(run_id: int):  # type: ignore[no-untyped-def]
-    """Sign a run (its author or a coordinator); it is immutable afterwards."""
+    """Sign a run (its author or a coordinator); it is immutable afterwards.
+
+    With If-Match (or ``version``) the lock signs only that version (409 otherwise); the answer
+    names the result and the content hash it signed.
+    """
     session = get_session()
+    data: dict[str, Any] = dict(json_object()) if request.data else {}
+    version = expected_version(data)
     run = get_run(session, actor(), run_id)
-    return jsonify(run_json(lock_run(session, actor(), run)))
+    return with_etag(lock_run(session, actor(), run, version))
 
 
 @bp.get("/runs/<int:run_id>/audit")

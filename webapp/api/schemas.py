@@ -56,6 +56,15 @@ def calibration_json(c: Calibration) -> dict[str, Any]:
         "result_id": c.result_id,
         "run_id": c.result.run_id if c.result is not None else None,
         "note": c.note,
+        "measured_on": c.taken_at.date().isoformat(),
+        "status": c.status,
+        "approved_by": person_ref(c.approved_by),
+        "approved_at": iso(c.approved_at),
+        "withdrawn_at": iso(c.withdrawn_at),
+        "withdrawn_reason": c.withdrawn_reason or None,
+        "in_force_since": iso(c.in_force_at),
+        "restart": bool(c.restart),
+        "pool": c.pool,
     }
 
 
@@ -69,6 +78,7 @@ def calorimeter_json(c: Calorimeter, current: Calibration | None) -> dict[str, A
         "vessel_type": c.vessel_type,
         "created_at": iso(c.created_at),
         "calibration_interval_days": c.calibration_interval_days,  # None: the notebook's default
+        "version": c.version,
         "current_calibration": calibration_json(current) if current is not None else None,
     }
 
@@ -138,6 +148,7 @@ def run_summary(run: Run, current: Result | None) -> dict[str, Any]:
         "calorimeter": {"id": run.calorimeter.id, "name": run.calorimeter.name} if run.calorimeter else None,
         "points": run.points,
         "locked": run.locked,
+        "version": run.version,
         "current_result": result_summary(current) if current is not None else None,
         "url": url_for("api.get_run", run_id=run.id),
     }
@@ -153,6 +164,8 @@ def run_json(run: Run) -> dict[str, Any]:
         "calibration": calibration_json(run.calibration) if run.calibration else None,
         "locked_by": person_ref(run.locked_by),
         "locked_at": iso(run.locked_at),
+        "locked_result_id": run.locked_result_id,
+        "locked_hash": run.locked_hash,
         "inputs": [
             {"field": i.field, "value": i.value, "standard_uncertainty": i.std_uncertainty, "unit": i.unit,
              "text": i.text, "origin": i.origin}

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from flask_wtf import FlaskForm
 from calc.checks import CALORIMETER_TYPES
+from wtforms import BooleanField
 from wtforms import IntegerField
 from wtforms import SelectField
 from wtforms import StringField
@@ -24,6 +25,8 @@ class CalorimeterForm(FlaskForm):
         description="what the calorimeter is: the plausible range of its heat capacity follows it")
     heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+    measured_on = StringField("Heat capacity measured on", validators=[Length(max=40)],
+                              description="the date it was measured, YYYY-MM-DD (needed with a heat capacity)")
 
 
 class CalorimeterEditForm(CalorimeterForm):
@@ -39,4 +42,9 @@ class HeatCapacityForm(FlaskForm):
 
     heat_capacity = StringField("Heat capacity", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')
+    measured_on = StringField("Measured on", validators=[Length(max=40)],
+                              description="the date it was measured, YYYY-MM-DD (needed)")
     note = StringField("Note", validators=[Length(max=300)], description="where the value comes from")
+    confirm = BooleanField("Confirm a large change", description="needed when the value in force would move by "
+                           "more than twice the combined standard uncertainty")
+    restart = BooleanField("The cup itself changed", description="start its pooled history afresh from this value")

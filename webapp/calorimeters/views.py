@@ -22,6 +22,7 @@ from webapp.db import get_session
 from webapp.plot_cache import history_plot
 from webapp.plot_cache import svg_response
 from webapp.services.access import is_coordinator
+from webapp.services.calibrations import is_staff
 from webapp.services.calorimeters import calibration_history
 from webapp.services.calorimeters import create_calorimeter
 from webapp.services.calorimeters import enter_heat_capacity
@@ -51,7 +52,8 @@ def index():  # type: ignore[no-untyped-def]
                 cal = create_calorimeter(session, current_user, name=form.name.data or "", parts=form.parts.data or "",
                                          location=form.location.data or "",
                                          vessel_type=form.vessel_type.data or None,
-                                         heat_capacity=(form.heat_capacity.data or "").strip() or None)
+                                         heat_capacity=(form.heat_capacity.data or "").strip() or None,
+                                         measured_on=(form.measured_on.data or "").strip() or None)
                 flash(f"Calorimeter {cal.name!r} added.")
                 return redirect(url_for("calorimeters.detail", calorimeter_id=cal.id))
             except ServiceError as exc:
@@ -84,6 +86,7 @@ def _detail(calorimeter_id: int, *, edit: CalorimeterEditForm | None = None, ent
         entry=entry or HeatCapacityForm(prefix="hc"),
         errors=errors or {},
         may_manage=is_coordinator(current_user),
+        may_approve=is_staff(current_user),
     ), status
 
 
@@ -139,12 +142,16 @@ def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
 
     def store(cal: Any) -> None:
         session = get_session()
-        update_calorimeter(session, current_user, cal, {"name": form.name.data or "", "parts": form.parts.data or "",
-                                                        "location": form.location.data or "",
-                                                        "vessel_type": form.vessel_type.data or "foam-cups"})
+        version = request.form.get("edit-version", type=int)
+        cal = update_calorimeter(session, current_user, cal, {"name": form.name.data or "",
+                                                              "parts": form.parts.data or "",
+                                                              "location": form.location.data or "",
+                                                              "vessel_type": form.vessel_type.data or "foam-cups"},
+                                 version, commit=False)
         set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
 
-    return _submit(calorimeter_id, form, "edit", "edit", store, lambda exc: exc.field or "name", "Calorimeter changed.")
+    return _submit(calorimeter_id, form, "edit", "edit", store,
+                   lambda exc: "name" if exc.field in (None, "version") else exc.field, "Calorimeter changed.")
 
 
 @bp.route("/<int:calorimeter_id>/heat-capacity", methods=["POST"])
@@ -154,7 +161,74 @@ def heat_capacity(calorimeter_id: int):  # type: ignore[no-untyped-def]
     form = HeatCapacityForm(prefix="hc")
 
     def store(cal: Any) -> None:
-        enter_heat_capacity(get_session(), current_user, cal, form.heat_capacity.data or "", form.note.data or "")
+        enter_heat_capacity(get_session(), current_user, cal, form.heat_capacity.data or "", form.measured_on.data,
+                            form.note.data or "", confirm=bool(form.confirm.data), restart=bool(form.restart.data))
 
-    return _submit(calorimeter_id, form, "hc", "entry", store, lambda _exc: "heat_capacity",
-                   "Heat capacity recorded; it is now the one in force.")
+    return _submit(calorimeter_id, form, "hc", "entry", store,
+                   lambda exc: exc.field if exc.field in ("measured_on", "note", "confirm") else "heat_capacity",
+                   "Heat capacity recorded; the value in force is recomputed from the recent calibrations.")
+
+
+def _action(calorimeter_id: int, act: Callable[[Any], str]) -> Any:
+    """Run one calibration action of the page (CSRF-checked); flash its outcome or its error."""
+    from flask_wtf.csrf import validate_csrf
+
+    validate_csrf(request.form.get("csrf_token"))
+    session = get_session()
+    try:
+        flash(act(session))
+    except ServiceError as exc:
+        session.rollback()
+        if exc.status in (403, 404):
+            raise
+        flash(exc.message, "error")
+    return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
+
+
+@bp.route("/<int:calorimeter_id>/calibrations/<int:calibration_id>/approve", methods=["POST"])
+@login_required
+def approve(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
+    """Approve a proposed calibration (staff); a large change needs the confirm box."""
+    from webapp.services.calibrations import approve_calibration
+
+    def act(session: Any) -> str:
+        approve_calibration(session, current_user, calibration_id, confirm=bool(request.form.get("confirm")),
+                            restart=bool(request.form.get("restart")))
+        return f"Calibration #{calibration_id} approved; the value in force is recomputed."
+
+    return _action(calorimeter_id, act)
+
+
+@bp.route("/<int:calorimeter_id>/calibrations/<int:calibration_id>/withdraw", methods=["POST"])
+@login_required
+def withdraw(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
+    """Withdraw a calibration (staff, with a reason) and list the runs that used it."""
+    from webapp.services.calibrations import runs_using
+    from webapp.services.calibrations import withdraw_calibration
+
+    def act(session: Any) -> str:
+        cal = withdraw_calibration(session, current_user, calibration_id, request.form.get("reason", ""))
+        runs = runs_using(session, cal)
+        listed = ", ".join(f"#{r.id}" + (" (signed)" if r.locked else "") for r in runs) or "none"
+        return f"Calibration #{calibration_id} withdrawn. Runs that used it: {listed}."
+
+    return _action(calorimeter_id, act)
+
+
+@bp.route("/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyse-runs", methods=["POST"])
+@login_required
+def reanalyse_runs(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
+    """Re-analyse, with the value in force, every unsigned run that used this calibration (staff)."""
+    from webapp.services.calibrations import reanalyse_runs_using
+
+    def act(session: Any) -> str:
+        done = reanalyse_runs_using(session, current_user, calibration_id)
+        parts = [f"Re-analysed {len(done.reanalysed)} run(s) with the value in force"
+                 + (f" ({', '.join(f'#{i}' for i in done.reanalysed)})" if done.reanalysed else "")]
+        if done.locked:
+            parts.append(f"signed, left as they are: {', '.join(f'#{i}' for i in done.locked)}")
+        if done.failed:
+            parts.append("not re-analysed: " + "; ".join(f"#{i}: {m}" for i, m in done.failed))
+        return "; ".join(parts) + "."
+
+    return _action(calorimeter_id, act)

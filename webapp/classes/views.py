@@ -222,7 +222,10 @@ def course_export(course_id: int, fmt: str):  # type: ignore[no-untyped-def]
 @bp.route("/calorimeters/<int:calorimeter_id>/control")
 @login_required
 def control(calorimeter_id: int):  # type: ignore[no-untyped-def]
-    """The control chart of a calorimeter's check standard, with run-rule flags and the calibration due date."""
+    """The control chart of a calorimeter's heat capacity (default) or of a check standard, with run-rule
+    flags and the calibration due date."""
+    from webapp.services.control import HEAT_CAPACITY
+
     baseline = request.args.get("baseline", type=int)
     view = control_view(get_session(), current_user, calorimeter_id, standard=request.args.get("standard") or None,
                         baseline=baseline, default_days=int(current_app.config["CALIBRATION_DUE_DAYS"]))
@@ -230,5 +233,7 @@ def control(calorimeter_id: int):  # type: ignore[no-untyped-def]
     if view.chart is not None:
         svg = control_chart_svg(view.chart.values, view.chart.limits,
                                 [bool(p["violations"]) for p in view.points], unit=view.unit,
-                                standard=view.standard or "", baseline=view.baseline)
+                                standard=view.standard or "", baseline=view.baseline,
+                                xlabel="calibration, in the order measured" if view.standard == HEAT_CAPACITY
+                                else "run, in time order")
     return render_template("classes/control.html", view=view, svg=svg)

@@ -106,7 +106,7 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]),
     )
     try:
-        result = reanalyse_run(session, current_user, run, options)
+        result = reanalyse_run(session, current_user, run, options, request.form.get("version", type=int))
     except ServiceError as exc:
         session.rollback()
         if exc.status in (403, 409):
@@ -126,7 +126,7 @@ def lock(run_id: int):  # type: ignore[no-untyped-def]
     run = get_run(session, current_user, run_id)
     form = ConfirmForm()
     if form.validate_on_submit():
-        lock_run(session, current_user, run)
+        lock_run(session, current_user, run, request.form.get("version", type=int))
         flash("Run locked (signed): it can no longer be changed.")
     return redirect(url_for("runs.detail", run_id=run_id))
 

@@ -10,17 +10,15 @@ import sqlalchemy as sa
 from calc.checks import DEFAULT_CALORIMETER_TYPE
 from calc.io.runfile import CALORIMETER_TYPES
 import sqlalchemy.orm as so
-from calc.errors import InputError
-from calc.io.quantities import parse_measured
 
 from webapp.models import Calibration
 from webapp.models import Calorimeter
 from webapp.models import Person
-from webapp.models import Result
 from webapp.models import Run
 from webapp.models import utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
+from webapp.services.calibrations import parse_heat_capacity
 from webapp.services.errors import Conflict
 from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
@@ -50,21 +48,6 @@ def calorimeters_query() -> sa.Select[tuple[Calorimeter]]:
     return sa.select(Calorimeter).order_by(Calorimeter.name, Calorimeter.id)
 
 
-def parse_heat_capacity(text: str, field: str = "heat_capacity") -> tuple[float, float]:
-    """Return (value, u) in J/K from ``"18.6 ± 2.0 J/K"``.
-
-    :raise Invalid: with calc's message when the text is not a heat capacity
-    """
-    try:
-        m = parse_measured(text, field=field, expected="J/K")
-    except InputError as exc:
-        raise Invalid(str(exc), field=field) from None
-    value, u = m.m_as("J/K"), m.u_as("J/K")
-    if not value > 0:
-        raise Invalid(f"field '{field}': expected a positive heat capacity, got {text!r}", field=field)
-    return value, u
-
-
 def check_vessel_type(value: str) -> str:
     """Return a calorimeter type of calc's list, or raise :class:`Invalid` naming the field."""
     if value not in CALORIMETER_TYPES:
@@ -82,8 +65,12 @@ def create_calorimeter(
     location: str = "",
     heat_capacity: str | None = None,
     vessel_type: str | None = None,
+    measured_on: Any = None,
 ) -> Calorimeter:
-    """Add a calorimeter (coordinators only), with an optional first heat capacity, and commit."""
+    """Add a calorimeter (coordinators only), with an optional first heat capacity and the date it
+    was measured, and commit."""
+    from webapp.services.calibrations import parse_measured_date
+
     require_coordinator(actor, "manage calorimeters")
     vessel_type = check_vessel_type(vessel_type or DEFAULT_CALORIMETER_TYPE)
     name = (name or "").strip()
@@ -97,20 +84,32 @@ def create_calorimeter(
     session.add(cal)
     if heat_capacity:
         value, u = parse_heat_capacity(heat_capacity)
-        session.add(Calibration(calorimeter=cal, heat_capacity_j_k=value, heat_capacity_j_k_std=u,
-                                note=f"entered by {actor.name}", created_by=actor))
+        when = parse_measured_date(measured_on)
+        now = utcnow()
+        session.add(Calibration(calorimeter=cal, heat_capacity_j_k=value, heat_capacity_j_k_std=u, taken_at=when,
+                                note=f"entered by {actor.name}", created_by=actor, status="approved",
+                                approved_by=actor, approved_at=now, in_force_at=now))
     session.commit()
     return cal
 
 
 def update_calorimeter(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, changes: Mapping[str, Any]
+    session: so.Session, actor: Person, calorimeter: Calorimeter, changes: Mapping[str, Any],
+    expected_version: int | None = None, *, commit: bool = True,
 ) -> Calorimeter:
-    """Change a calorimeter's name, parts or location (coordinators only), audited, and commit."""
+    """Change a calorimeter's name, parts or location (coordinators only), audited, and commit.
+
+    The row is read again under a row lock; an older ``expected_version`` is refused (409).
+    """
+    from webapp.services.concurrency import check_version
+    from webapp.services.concurrency import locked_calorimeter
+
     require_coordinator(actor, "manage calorimeters")
     for key in changes:
         if key not in EDITABLE_FIELDS:
             raise Invalid(f"cannot be changed; editable fields: {', '.join(EDITABLE_FIELDS)}", field=key)
+    calorimeter = locked_calorimeter(session, calorimeter.id)
+    check_version("calorimeter", calorimeter, expected_version)
     for key, new in changes.items():
         if not isinstance(new, str):
             raise Invalid("expected text", field=key)
@@ -127,57 +126,26 @@ def update_calorimeter(
         if old != new:
             record_change(session, actor, "calorimeter", calorimeter.id, key, old, new)
             setattr(calorimeter, key, new)
-    session.commit()
+    if commit:
+        session.commit()
     return calorimeter
 
 
 def enter_heat_capacity(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str, note: str = ""
+    session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str, measured_on: Any = None,
+    note: str = "", *, confirm: bool = False, restart: bool = False,
 ) -> Calibration:
-    """Record a heat capacity measured elsewhere (coordinators only), audited, and commit."""
-    require_coordinator(actor, "manage calorimeters")
-    value, u = parse_heat_capacity(heat_capacity)
-    old = current_calibration(session, calorimeter.id)
-    cal = Calibration(calorimeter=calorimeter, heat_capacity_j_k=value, heat_capacity_j_k_std=u,
-                      note=note.strip() or f"entered by {actor.name}", created_by=actor)
-    session.add(cal)
-    record_change(session, actor, "calorimeter", calorimeter.id, "heat_capacity",
-                  _describe(old), f"{value:g} ± {u:g} J/K")
-    session.commit()
-    return cal
+    """Record a heat capacity measured elsewhere on a given date (staff), audited, and commit."""
+    from webapp.services.calibrations import enter_heat_capacity as enter
 
-
-def add_calibration_from_result(
-    session: so.Session, calorimeter: Calorimeter, result: Result, taken_at: dt.datetime, actor: Person | None
-) -> Calibration:
-    """Add the heat capacity a calibration run's result measured (the caller commits).
-
-    The calibration in force is the latest by ``taken_at`` (the run's time), so the
-    re-analysis of an older calibration run does not override a newer one.
-    """
-    if result.calorimeter_heat_capacity_j_k is None:  # pragma: no cover - calibration kinds always give it
-        raise Invalid("this result has no calorimeter heat capacity", field="kind")
-    cal = Calibration(
-        calorimeter=calorimeter,
-        heat_capacity_j_k=result.calorimeter_heat_capacity_j_k,
-        heat_capacity_j_k_std=result.calorimeter_heat_capacity_j_k_std or 0.0,
-        taken_at=taken_at,
-        result=result,
-        note=f"{result.run.kind} run #{result.run.id}, {result.method}",
-        created_by=actor,
-    )
-    session.add(cal)
-    return cal
+    return enter(session, actor, calorimeter, heat_capacity, measured_on, note, confirm=confirm, restart=restart)
 
 
 def current_calibration(session: so.Session, calorimeter_id: int) -> Calibration | None:
-    """Return the calibration in force: the latest by measurement time, then by id."""
-    return session.scalar(
-        sa.select(Calibration)
-        .where(Calibration.calorimeter_id == calorimeter_id)
-        .order_by(Calibration.taken_at.desc(), Calibration.id.desc())
-        .limit(1)
-    )
+    """Return the value in force (a calibration, or the pool of recent ones)."""
+    from webapp.services.calibrations import current_calibration as in_force
+
+    return in_force(session, calorimeter_id)
 
 
 def calibration_history(calorimeter_id: int) -> sa.Select[tuple[Calibration]]:
@@ -192,23 +160,19 @@ def calibration_history(calorimeter_id: int) -> sa.Select[tuple[Calibration]]:
 def calorimeters_due(
     session: so.Session, *, max_age_days: int, now: dt.datetime | None = None
 ) -> list[tuple[Calorimeter, dt.datetime | None]]:
-    """Return the calorimeters whose last calibration is older than ``max_age_days`` (or missing).
+    """Return the calorimeters whose value in force was measured more than ``max_age_days`` ago (or none).
 
-    Each with the time of its last calibration (None: never calibrated), oldest first.
+    Each with when its value in force was measured (None: nothing in force), oldest first; a
+    calorimeter's own interval replaces ``max_age_days``.
     """
     now = now or utcnow()
-    last = (
-        sa.select(Calibration.calorimeter_id, sa.func.max(Calibration.taken_at).label("last"))
-        .group_by(Calibration.calorimeter_id)
-        .subquery()
-    )
-    rows = session.execute(
-        sa.select(Calorimeter, last.c.last)
-        .outerjoin(last, last.c.calorimeter_id == Calorimeter.id)
-        .where(sa.or_(last.c.last.is_(None), last.c.last < now - dt.timedelta(days=max_age_days)))
-        .order_by(last.c.last.is_(None).desc(), last.c.last, Calorimeter.name)
-    ).all()
-    return [(cal, when) for cal, when in rows]
+    out = []
+    for cal in session.scalars(calorimeters_query()):
+        current = current_calibration(session, cal.id)
+        days = cal.calibration_interval_days or max_age_days
+        if current is None or current.taken_at < now - dt.timedelta(days=days):
+            out.append((cal, current.taken_at if current is not None else None))
+    return sorted(out, key=lambda cw: (cw[1] is not None, cw[1] or dt.datetime.min, cw[0].name))
 
 
 def runs_using(calibration_id: int) -> sa.Select[tuple[Run]]:

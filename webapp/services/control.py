@@ -37,6 +37,8 @@ from webapp.services.dashboard import _measurement
 from webapp.services.errors import Invalid
 
 DEFAULT_BASELINE = 20
+#: the chart of the calorimeter's own heat capacity (its approved calibrations, in the order measured)
+HEAT_CAPACITY = "heat capacity of this calorimeter (its calibrations)"
 
 
 @dataclasses.dataclass
@@ -59,8 +61,10 @@ class ControlView:
 def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days: int,
                      today: dt.date | None = None) -> dict[str, Any]:
     """Return the last calibration date, the interval, the due date and whether it is overdue."""
-    last = session.scalar(sa.select(sa.func.max(Calibration.taken_at)).where(
-        Calibration.calorimeter_id == calorimeter.id))
+    from webapp.services.calibrations import current_calibration
+
+    current = current_calibration(session, calorimeter.id)
+    last = current.taken_at if current is not None else None  # when the value in force was measured
     days = calorimeter.calibration_interval_days or int(default_days)
     if last is None:
         return {"last": None, "interval_days": days, "due": None, "overdue": True, "days_left": None,
@@ -106,15 +110,21 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
         v = h if main == "molar_enthalpy" else c
         if v is not None:
             series[_measurement(kind, comp)].append({
-                "run_id": rid, "at": created.isoformat() + "Z", "title": title, "value": v,
+                "run_id": rid, "at": created.strftime("%Y-%m-%d %H:%M"), "title": title, "value": v,
                 "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K",
                 "flagged": flag_text(checks) if flagged_checks(checks) else ""})
+    own = _heat_capacities(session, cal.id)
     standards = {k: len(v) for k, v in sorted(series.items(), key=lambda kv: -len(kv[1]))}
+    if own:
+        series[HEAT_CAPACITY] = own
+        standards = {HEAT_CAPACITY: len(own), **standards}
     info = calibration_info(session, cal, default_days, today)
     if standard is not None and standard not in series:
         raise Invalid(f"calorimeter {cal.name!r} has no runs of {standard!r}", field="standard")
     if standard is None and standards:
-        standard = next(iter(standards))
+        # its own heat capacity once there are two calibrations to chart, else the standard with most runs
+        standard = HEAT_CAPACITY if len(own) >= 2 else next((k for k in standards if k != HEAT_CAPACITY), None)
+        standard = standard or next(iter(standards))
     if standard is None:
         return ControlView(cal, standards, None, "", [], None, 0, "no runs with results on this calorimeter yet", info)
     points = series[standard]
@@ -143,6 +153,16 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
             p["baseline"] = i < base and not p["flagged"]
     return ControlView(cal, standards, standard, points[0]["unit"] if points else "", points, chart, base,
                        message, info, [p for p in points[:base] if p["flagged"]])
+
+
+def _heat_capacities(session: so.Session, calorimeter_id: int) -> list[dict[str, Any]]:
+    """Return the approved measured heat capacities of a calorimeter as chart points, in the order measured."""
+    cals = session.scalars(sa.select(Calibration).where(
+        Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved", Calibration.pool.is_(None))
+        .order_by(Calibration.taken_at, Calibration.id)).all()
+    return [{"run_id": c.result.run_id if c.result is not None else None, "calibration_id": c.id,
+             "at": c.taken_at.strftime("%Y-%m-%d"), "title": f"calibration #{c.id}: {c.note}",
+             "value": c.heat_capacity_j_k, "unit": "J/K", "flagged": ""} for c in cals]
 
 
 def control_json(view: ControlView) -> dict[str, Any]:

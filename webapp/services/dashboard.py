@@ -17,6 +17,8 @@ Flags (each with a plain message):
 * ``short-after``: the analysis warned of a short after period or a log that ends too soon.
 * ``no-calibration``: the run needed C_cal, took it from its own file, and its calorimeter had
   no calibration on record at the run's time (or the run names no calorimeter).
+* ``overdue``: the heat capacity the run used was measured more than the calorimeter's interval
+  (default :data:`DUE_DAYS` days) before the run's date.
 """
 
 from __future__ import annotations
@@ -58,7 +60,10 @@ FLAGS: dict[str, str] = {
     "short-after": "short after period",
     "no-calibration": "no calibration of the calorimeter on record",
     "checks": "a plausibility check warns (left out of the statistics and the Grubbs test)",
+    "overdue": "the calorimeter's calibration was overdue on the run's date",
 }
+#: days a calibration stays valid when the calorimeter sets no interval (the notebook's default)
+DUE_DAYS = 30
 SORT_KEYS = ("group", "run", "value", "uncertainty", "en", "delta_t", "flags", "section")
 GRUBBS_ALPHA = 0.05
 
@@ -211,8 +216,27 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
             top = max(lines, key=lambda b: b["share"])
             row.top_input, row.top_label, row.top_share = top.get("input", ""), top.get("label", ""), float(top["share"])
         rows.append(row)
+    _overdue_flags(session, rows)
     _grubbs_flags(rows)
     return rows
+
+
+def _overdue_flags(session: so.Session, rows: list[Row]) -> None:
+    from webapp.models import Calibration
+    from webapp.models import Calorimeter
+    from webapp.services.calibrations import measured_at
+    from webapp.services.calibrations import overdue_note
+
+    by_id = {r.run_id: r for r in rows}
+    if not by_id:
+        return
+    q = (sa.select(Run, Calibration, Calorimeter).join(Calibration, Run.calibration_id == Calibration.id)
+         .outerjoin(Calorimeter, Run.calorimeter_id == Calorimeter.id).where(Run.id.in_(list(by_id))))
+    for run, cal, calo in session.execute(q):
+        note = overdue_note(measured_at(run).date(), cal, calo, DUE_DAYS)
+        if note:
+            by_id[run.id].flags.append("overdue")
+            by_id[run.id].notes["overdue"] = note
 
 
 def _grubbs_flags(rows: list[Row]) -> None:
@@ -289,6 +313,7 @@ _FLAG_ADVICE = {
              "first, use the lid and check that the stirrer does not heat.",
     "short-after": "The log after the change was too short: keep recording for at least 5 minutes after the temperature "
                    "has settled.",
+    "overdue": "The calorimeter's calibration was overdue when you measured: have it calibrated, then re-analyse.",
     "no-calibration": "The calorimeter you used has no calibration on record: calibrate it (or have it calibrated) and "
                       "name it in the run file.",
     "checks": "A plausibility check warns about your run (see the run page): check the amounts you entered. The run "

@@ -96,13 +96,10 @@ def load_demo(
         if cal_name and find_calorimeter(session, cal_name) is None:
             create_calorimeter(session, coordinator, name=cal_name, location="Tern Hollow, room 3B (invented)",
                                parts=cal_name)
-    spare = create_calorimeter(session, coordinator, name=SPARE_CUP[0], location="Tern Hollow, room 3B (invented)",
-                               parts="single foam cup, card lid, no stirrer", heat_capacity=SPARE_CUP[1])
-    old = session.scalar(sa.select(Calibration).where(Calibration.calorimeter_id == spare.id))
-    if old is not None:
-        old.taken_at = utcnow() - dt.timedelta(days=SPARE_CUP[2])
-        old.note = "entered from the previous term's notebook (invented)"
-        session.commit()
+    create_calorimeter(session, coordinator, name=SPARE_CUP[0], location="Tern Hollow, room 3B (invented)",
+                       parts="single foam cup, card lid, no stirrer", heat_capacity=SPARE_CUP[1],
+                       measured_on=(utcnow() - dt.timedelta(days=SPARE_CUP[2])).date().isoformat())
+    technician = next(people[name] for name, _e, role, _g in PEOPLE if role == "technician")
     for path in runs:
         operator = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {}).get("operator")
         author = people.get(operator, people[PEOPLE[1][0]])
@@ -114,7 +111,16 @@ def load_demo(
             readings_name=csv.name,
             options=AnalysisOptions(monte_carlo_trials=monte_carlo_trials, seed=20250311),
         ))
+        _approve_proposals(session, technician)
     return demo_sign_ins()
+
+
+def _approve_proposals(session: so.Session, technician: Person) -> None:
+    """The technician approves the students' calibrations (measured on their runs' dates), as in the lab."""
+    from webapp.services.calibrations import approve_calibration
+
+    for cal_id in session.scalars(sa.select(Calibration.id).where(Calibration.status == "proposed")).all():
+        approve_calibration(session, technician, cal_id, confirm=True)
 
 
 def _kind(path: Path) -> str:

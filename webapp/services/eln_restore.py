@@ -34,7 +34,7 @@ from webapp.services.analysis import needs_supplied_heat_capacity
 from webapp.services.analysis import parse_inputs
 from webapp.services.analysis import result_from_analysis
 from webapp.services.analysis import run_analysis
-from webapp.services.calorimeters import add_calibration_from_result
+from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Invalid
 from webapp.services.exports_run import FORMAT
@@ -279,7 +279,7 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
             session.flush()  # the calibration's note names the run
-            c = add_calibration_from_result(session, cal, result, run.created_at, result.created_by)
+            c = calibration_from_result(session, cal, result, result.created_by)
             stamp = (stamps or {}).get((cal.name, (doc.get("run") or {}).get("id"), c.heat_capacity_j_k,
                                         c.heat_capacity_j_k_std))
             if stamp:

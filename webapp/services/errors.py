@@ -86,3 +86,17 @@ def storage_error(exc: BaseException) -> StorageUnavailable | None:
                            "Free some space (or ask the notebook's administrator) and try again")
     return StorageUnavailable(f"the database is unavailable just now ({first}); nothing of this was saved. "
                               "Try again in a moment; if it persists, tell the notebook's administrator")
+
+
+class Stale(Conflict):
+    """A write based on an older version than the one stored: refused, with the current state."""
+
+    def __init__(self, message: str, *, field: str | None = "version", current: dict | None = None) -> None:
+        super().__init__(message, field=field)
+        self.current = current or {}
+
+
+class VersionRequired(ServiceError):
+    """A write that must say which version it changes (If-Match or ``version``) did not."""
+
+    status = 428

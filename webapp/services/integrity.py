@@ -10,6 +10,8 @@ Two layers:
   exists, and every run is complete: its run file and readings, a parsed series of
   ``points`` values in each of its two columns, exactly one current result, and (for runs
   imported in bulk) a content hash that matches the files stored.
+- signed runs unchanged since their lock, and the audit chain whole
+  (:mod:`webapp.services.integrity_locks`).
 
 Nothing is written; the check reads in chunks, so it runs while the notebook serves.
 """
@@ -62,6 +64,11 @@ def check_database(engine: sa.Engine) -> IntegrityReport:
         _foreign_keys(conn, report)
         _runs_complete(conn, report)
         _content_hashes(conn, report)
+        from webapp.services.integrity_locks import check_audit_chain
+        from webapp.services.integrity_locks import check_locks
+
+        check_locks(conn, report, _listed)
+        check_audit_chain(conn, report, _listed)
         conn.rollback()
     return report
 

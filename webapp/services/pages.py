@@ -45,6 +45,7 @@ class Preview:
     result: Result  # transient: never added to a session
     calorimeter: Calorimeter | None
     calibration: Calibration | None
+    measured_on: str = ""  # the run file's [info] date
 
 
 def preview_run(session: so.Session, upload: RunUpload) -> Preview:
@@ -53,7 +54,8 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
     done = analyse_upload(session, upload)
-    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration)
+    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration,
+                   str(done.spec.get("info", "date") or ""))
 
 
 @dataclasses.dataclass
@@ -144,11 +146,16 @@ class CalorimeterPage:
     current: Calibration | None
     rows: list[CalibrationRow]  # newest first
     latest_runs: list[tuple[Run, Result | None]]  # the newest runs on it the person may see
+    members: dict[int, Calibration] = dataclasses.field(default_factory=dict)  # behind the value in force
 
 
 def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
                      latest_runs: int = 20) -> CalorimeterPage:
-    """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it."""
+    """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
+    (directly, or through a pooled value that held it)."""
+    from webapp.services.calibrations import current_calibration
+    from webapp.services.calibrations import members_of
+
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id).options(so.joinedload(Calibration.result))))
     ids = [c.id for c in history]
@@ -158,11 +165,20 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
              .options(so.joinedload(Run.results)).order_by(Run.id))
         for run in session.scalars(q).unique():
             used[run.calibration_id or 0].append(run)
+    via_pool: dict[int, list[Run]] = defaultdict(list)
+    for c in history:
+        if c.pool:
+            for member in members_of(c):
+                via_pool[member].extend(used[c.id])
     rows = []
     for c in reversed(history):
+        if c.pool:
+            continue  # a pooled value is shown as the value in force, with its members
         source = c.result.run if c.result is not None else None
-        rows.append(CalibrationRow(c, c.result, source is not None and can_view_run(actor, source), used[c.id]))
+        runs = sorted({r.id: r for r in used[c.id] + via_pool[c.id]}.values(), key=lambda r: r.id)
+        rows.append(CalibrationRow(c, c.result, source is not None and can_view_run(actor, source), runs))
     latest = [(run, res) for run, res in session.execute(runs_query(actor, calorimeter_id=cal.id).limit(latest_runs))
               .unique().all()]
-    # the calibration in force is the latest by (taken_at, id): the history's last
-    return CalorimeterPage(cal, history, history[-1] if history else None, rows, latest)
+    current = current_calibration(session, cal.id)
+    members = {c.id: c for c in history if current is not None and c.id in members_of(current)}
+    return CalorimeterPage(cal, [c for c in history if not c.pool], current, rows, latest, members)

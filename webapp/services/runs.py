@@ -40,8 +40,12 @@ from webapp.services.analysis import parse_inputs
 from webapp.services.analysis import result_from_analysis
 from webapp.services.analysis import run_analysis
 from webapp.services.audit import record_change
+from webapp.services.result_store import store_result
 from webapp.services.checks import history_of
-from webapp.services.calorimeters import add_calibration_from_result
+from webapp.services.concurrency import check_version
+from webapp.services.concurrency import content_hash
+from webapp.services.concurrency import locked_run
+from webapp.services.concurrency import run_state
 from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Conflict
@@ -49,6 +53,7 @@ from webapp.services.errors import Forbidden
 from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
 from webapp.services.errors import RunLocked
+from webapp.services.errors import Stale
 
 T = TypeVar("T")
 
@@ -155,7 +160,9 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     try:
         if spec.kind in CALIBRATION_KINDS and calorimeter is not None:
             session.flush()
-            add_calibration_from_result(session, calorimeter, result, run.created_at, actor)
+            from webapp.services.calibrations import calibration_from_result
+
+            calibration_from_result(session, calorimeter, result, actor)
         session.commit()
     except sa.exc.IntegrityError:
         session.rollback()
@@ -163,38 +170,50 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     return run
 
 
-def reanalyse_run(session: so.Session, actor: Person, run: Run, options: AnalysisOptions) -> Result:
+def reanalyse_run(session: so.Session, actor: Person, run: Run, options: AnalysisOptions,
+                  expected_version: int | None = None) -> Result:
     """Analyse a stored run again (new method or periods), keep the old result, and commit.
 
     The run's recorded calibration supplies C_cal again, so the inputs are the same.
-    A calibration run's new result is added to its calorimeter's history.
+    A calibration run's new result is added to its calorimeter's history. The analysis runs
+    first; then the run is read again under a row lock and the lock, the version and the
+    calibration are checked again in the transaction that writes.
     """
     require_editable(actor, run)
     options = options.checked()
+    calibration_id = run.calibration_id
     text = decode_readings(run.readings_raw, run.readings_name)
     spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
     analysis = run_analysis(spec, readings, options, **_check_context(run.calorimeter, run))
+    run = locked_run(session, run.id)
+    require_editable(actor, run)
+    check_version("run", run, expected_version)
+    if run.calibration_id != calibration_id:
+        raise Stale(f"run {run.id}'s calibration changed while it was analysed; nothing was saved, try again",
+                    current={"run": run_state(run)})
     result = result_from_analysis(analysis, input_name=run.run_file_name, periods_given=_periods_given(options))
-    old = run.current_result
-    for r in run.results:
-        r.is_current = False
-    result.run = run
-    result.created_by = actor
-    session.add(result)
-    session.flush()
-    record_change(session, actor, "run", run.id, "result", _describe_result(old), _describe_result(result))
+    store_result(session, actor, run, result)
     if run.kind in CALIBRATION_KINDS and run.calorimeter is not None:
-        add_calibration_from_result(session, run.calorimeter, result, run.created_at, actor)
+        from webapp.services.calibrations import calibration_from_result
+
+        calibration_from_result(session, run.calorimeter, result, actor, reanalysis=True)
     session.commit()
     return result
 
 
-def update_run(session: so.Session, actor: Person, run: Run, changes: Mapping[str, Any]) -> Run:
-    """Change a run's details (:data:`EDITABLE_FIELDS`), each change audited, and commit."""
+def update_run(session: so.Session, actor: Person, run: Run, changes: Mapping[str, Any],
+               expected_version: int | None = None) -> Run:
+    """Change a run's details (:data:`EDITABLE_FIELDS`), each change audited, and commit.
+
+    The run is read again under a row lock; a locked run or an older ``expected_version`` is refused.
+    """
     require_editable(actor, run)
     for key in changes:
         if key not in EDITABLE_FIELDS:
             raise Invalid(f"cannot be changed; editable fields: {', '.join(EDITABLE_FIELDS)}", field=key)
+    run = locked_run(session, run.id)
+    require_editable(actor, run)
+    check_version("run", run, expected_version)
     for key, new in changes.items():
         if key == "group_id":
             group = _group_for(session, actor, new, None, explicit=True)
@@ -217,18 +236,28 @@ def update_run(session: so.Session, actor: Person, run: Run, changes: Mapping[st
     return run
 
 
-def lock_run(session: so.Session, actor: Person, run: Run) -> Run:
-    """Sign a run (its author or a coordinator) and commit; it is immutable from then on."""
+def lock_run(session: so.Session, actor: Person, run: Run, expected_version: int | None = None) -> Run:
+    """Sign a run (its author or a coordinator) and commit; it is immutable from then on.
+
+    The run is read again under a row lock, so the lock signs what is stored: it records the
+    current result's id and the :func:`~webapp.services.concurrency.content_hash` of the run.
+    """
     if not can_view_run(actor, run):
         raise NotFound(f"no run with id {run.id}")
+    run = locked_run(session, run.id)
     if not can_lock_run(actor, run):
         raise Forbidden("only the run's author or a coordinator may lock (sign) it")
     if run.locked:
         raise RunLocked(f"run {run.id} is locked (signed) already")
+    check_version("run", run, expected_version)
+    result = run.current_result
+    signed = content_hash(run, result)  # read everything first: one flush then writes the lock whole
     record_change(session, actor, "run", run.id, "locked", False, True)
-    run.locked = True
+    run.locked_result_id = result.id if result is not None else None
+    run.locked_hash = signed
     run.locked_by = actor
     run.locked_at = utcnow()
+    run.locked = True
     session.commit()
     return run
 
@@ -408,10 +437,3 @@ def _new_run(
         calorimeter=calorimeter,
         calibration=calibration,
     )
-
-
-def _describe_result(result: Result | None) -> str | None:
-    if result is None:
-        return None
-    return f"#{result.id} {result.method}, fore {result.fore_start_s:g}–{result.fore_end_s:g} s, " \
-        f"after {result.after_start_s:g}–{result.after_end_s:g} s"

@@ -103,6 +103,7 @@ def payload(run: Run) -> dict[str, Any]:
     r = run.current_result
     return {
         "event": EVENT,
+        "signed": {"result_id": run.locked_result_id, "content_hash": run.locked_hash},
         "run": {"id": run.id, "kind": run.kind, "title": run.title},
         "locked_at": run.locked_at.isoformat() + "Z" if run.locked_at else None,
         "locked_by": run.locked_by.email if run.locked_by else None,

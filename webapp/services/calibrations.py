@@ -1,0 +1,475 @@
+"""Calibration authority and the heat capacity in force.
+
+- A calibration recorded by staff (a technician or a coordinator) is *approved*; a student's is
+  *proposed* until staff approve it. Only approved measurements count.
+- The value in force is the pool (:mod:`calc.statistics.calibration_pool`) of the cup's recent approved
+  measurements: the newest :data:`POOL_SIZE` measured within :data:`POOL_DAYS` of the newest one,
+  and none before the latest *restart* (a confirmed change of the cup). A pool of one is that
+  calibration itself; a larger one is stored as its own row (``pool`` holds members and test), so
+  a run records exactly which value it used.
+- A value in force that would move by more than ``k·√(u_old² + u_new²)`` (:data:`CONFIRM_K`) needs
+  an explicit confirmation; a calibration run that would do so without one stays proposed.
+- Withdrawing a calibration lists the runs that used it (or a pool holding it); they are
+  re-analysed with the value now in force in one action, locked (signed) runs excepted.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+from typing import Any
+
+import sqlalchemy as sa
+import sqlalchemy.orm as so
+from calc.errors import InputError
+from calc.io.quantities import parse_measured
+from calc.statistics.calibration_pool import moves_too_far
+from calc.statistics.calibration_pool import pool
+
+from webapp.models import STAFF_ROLES
+from webapp.models import Calibration
+from webapp.models import Calorimeter
+from webapp.models import Person
+from webapp.models import Result
+from webapp.models import Run
+from webapp.models import utcnow
+from webapp.services.audit import record_change
+from webapp.services.errors import Conflict
+from webapp.services.errors import Forbidden
+from webapp.services.errors import Invalid
+from webapp.services.errors import NotFound
+
+#: at most this many recent calibrations are pooled
+POOL_SIZE = 5
+#: … measured within this many days of the newest
+POOL_DAYS = 365
+#: a value in force moving by more than k·√(u_old² + u_new²) needs a confirmation
+CONFIRM_K = 2.0
+
+
+class NeedsConfirmation(Conflict):
+    """The value in force would move too far: the caller must confirm (nothing was saved)."""
+
+    def __init__(self, message: str) -> None:
+        super().__init__(message, field="confirm")
+
+
+def parse_heat_capacity(text: str, field: str = "heat_capacity") -> tuple[float, float]:
+    """Return (value, u) in J/K from ``"18.6 ± 2.0 J/K"``.
+
+    :raise Invalid: with calc's message when the text is not a heat capacity
+    """
+    try:
+        m = parse_measured(text, field=field, expected="J/K")
+    except InputError as exc:
+        raise Invalid(str(exc), field=field) from None
+    value, u = m.m_as("J/K"), m.u_as("J/K")
+    if not value > 0:
+        raise Invalid(f"field '{field}': expected a positive heat capacity, got {text!r}", field=field)
+    return value, u
+
+
+def is_staff(person: Person | None) -> bool:
+    """Return whether ``person`` may record or approve a calibration in force."""
+    return person is not None and person.role in STAFF_ROLES
+
+
+def require_staff(person: Person, what: str) -> None:
+    """Raise :class:`Forbidden` unless ``person`` is a technician or a coordinator."""
+    if not is_staff(person):
+        raise Forbidden(f"only a technician or a coordinator may {what}")
+
+
+def parse_measured_date(text: Any, field: str = "measured_on") -> dt.datetime:
+    """Return an ISO 8601 date (``2026-03-14``, or a date and time) as a naive UTC datetime.
+
+    :raise Invalid: missing, not ISO 8601, or in the future
+    """
+    if not isinstance(text, str) or not text.strip():
+        raise Invalid("missing: give the date the heat capacity was measured (YYYY-MM-DD)", field=field)
+    try:
+        when = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise Invalid(f"expected an ISO 8601 date such as 2026-03-14, got {text.strip()[:40]!r}", field=field) from None
+    if when.tzinfo is not None:
+        when = when.astimezone(dt.timezone.utc).replace(tzinfo=None)
+    if when.date() > utcnow().date() + dt.timedelta(days=1):
+        raise Invalid(f"the date {when.date().isoformat()} is in the future", field=field)
+    return when
+
+
+def measured_at(run: Run) -> dt.datetime:
+    """Return when a run was measured: its ``[info] date`` when that is an ISO date, else when it was stored."""
+    try:
+        return parse_measured_date(run.performed_on or "", "performed_on")
+    except Invalid:
+        return run.created_at
+
+
+# ------------------------------------------------------------------ due dates
+
+
+def overdue_note(day: dt.date | None, calibration: Calibration | None, calorimeter: Calorimeter | None,
+                 default_days: int) -> str | None:
+    """Return the warning for a run measured on ``day`` with ``calibration``'s value, or None when in time.
+
+    The value was due again ``interval`` days after it was measured (the calorimeter's own interval,
+    else ``default_days``); a run measured after that day used an overdue calibration.
+    """
+    if calibration is None or day is None:
+        return None
+    days = (calorimeter.calibration_interval_days if calorimeter is not None else None) or int(default_days)
+    due = calibration.taken_at.date() + dt.timedelta(days=days)
+    if day <= due:
+        return None
+    return (f"calibration overdue: this run was measured on {day.isoformat()}, but the calorimeter's heat capacity "
+            f"in force was measured on {calibration.taken_at.date().isoformat()} and was due again on "
+            f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyse")
+
+
+def run_day(run: Run) -> dt.date:
+    """Return the day a run was measured."""
+    return measured_at(run).date()
+
+
+def text_day(text: str | None) -> dt.date:
+    """Return the day of an ``[info] date`` (today when it is missing or not ISO 8601)."""
+    try:
+        return parse_measured_date(text or "", "date").date()
+    except Invalid:
+        return utcnow().date()
+
+
+# ------------------------------------------------------------------ the value in force
+
+
+def current_calibration(session: so.Session, calorimeter_id: int) -> Calibration | None:
+    """Return the value in force: the approved row that became it last (None: not calibrated)."""
+    return session.scalar(
+        sa.select(Calibration)
+        .where(Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved",
+               Calibration.in_force_at.is_not(None))
+        .order_by(Calibration.in_force_at.desc(), Calibration.id.desc())
+        .limit(1)
+    )
+
+
+def members_of(cal: Calibration) -> list[int]:
+    """Return the measurement ids behind a value (itself, or a pool's members)."""
+    return [int(i) for i in cal.pool["members"]] if cal.pool else [cal.id]
+
+
+def pool_candidates(session: so.Session, calorimeter_id: int) -> list[Calibration]:
+    """Return the approved measurements that may be pooled now, newest first."""
+    rows = list(session.scalars(
+        sa.select(Calibration)
+        .where(Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved",
+               Calibration.pool.is_(None), Calibration.heat_capacity_j_k_std > 0)
+        .order_by(Calibration.taken_at.desc(), Calibration.id.desc())
+    ))
+    out: list[Calibration] = []
+    for c in rows:
+        if len(out) >= POOL_SIZE or (out and c.taken_at < out[0].taken_at - dt.timedelta(days=POOL_DAYS)):
+            break
+        out.append(c)
+        if c.restart:
+            break
+    return out
+
+
+def describe(cal: Calibration | None) -> str | None:
+    """Return a value as audit text: ``18.6 ± 0.4 J/K (#12)`` or ``… (pool of #3, #5)``."""
+    if cal is None:
+        return None
+    what = f"pool of {', '.join(f'#{i}' for i in members_of(cal))}" if cal.pool else f"#{cal.id}"
+    return f"{cal.heat_capacity_j_k:.6g} ± {cal.heat_capacity_j_k_std:.2g} J/K ({what})"
+
+
+def refresh_in_force(session: so.Session, calorimeter: Calorimeter, actor: Person | None, *,
+                     confirm: bool = False, new: Calibration | None = None) -> Calibration | None:
+    """Recompute the value in force from the approved measurements (the caller commits).
+
+    :param new: the calibration just recorded or approved: it too needs a confirmation when it lies
+        more than k·√(u_old² + u_new²) from the value in force (it would be left out of the pool, or
+        move it)
+    :raise NeedsConfirmation: before anything is written, when the value would move too far
+        and ``confirm`` is not set
+    """
+    session.execute(sa.select(Calorimeter.id).where(Calorimeter.id == calorimeter.id).with_for_update())
+    session.flush()
+    current = current_calibration(session, calorimeter.id)
+    candidates = pool_candidates(session, calorimeter.id)
+    if not candidates:
+        return None
+    p = pool([(c.id, c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in candidates])
+    if (new is not None and current is not None and not confirm and moves_too_far(
+            (current.heat_capacity_j_k, current.heat_capacity_j_k_std),
+            (new.heat_capacity_j_k, new.heat_capacity_j_k_std), CONFIRM_K)):
+        raise NeedsConfirmation(
+            f"calibration {new.heat_capacity_j_k:.4g} ± {new.heat_capacity_j_k_std:.2g} J/K of {calorimeter.name!r} "
+            f"lies more than {CONFIRM_K:g} combined standard uncertainties from the value in force, "
+            f"{current.heat_capacity_j_k:.4g} ± {current.heat_capacity_j_k_std:.2g} J/K; nothing was saved. Check "
+            "the value (a typed voltage, a mass), then confirm it (and say whether the cup itself changed, "
+            "to start its history afresh)")
+    if current is not None and sorted(members_of(current)) == sorted(p.members):
+        if current.pool is not None and current.pool != p.as_dict():
+            current.pool = p.as_dict()  # same members and value: the test now also weighed a newer one
+        return current
+    if (current is not None and not confirm
+            and moves_too_far((current.heat_capacity_j_k, current.heat_capacity_j_k_std), (p.value, p.u), CONFIRM_K)):
+        raise NeedsConfirmation(
+            f"the heat capacity in force of {calorimeter.name!r} would move from {current.heat_capacity_j_k:.4g} ± "
+            f"{current.heat_capacity_j_k_std:.2g} J/K to {p.value:.4g} ± {p.u:.2g} J/K, more than {CONFIRM_K:g} "
+            "combined standard uncertainties; nothing was saved. Check the value, then confirm the change "
+            "(and say whether the cup itself changed, to start its history afresh)")
+    now = utcnow()
+    if len(p.members) == 1:
+        row = session.get(Calibration, p.members[0])
+        assert row is not None
+        row.in_force_at = now
+    else:
+        newest = max((c for c in candidates if c.id in p.members), key=lambda c: (c.taken_at, c.id))
+        row = Calibration(calorimeter=calorimeter, heat_capacity_j_k=p.value, heat_capacity_j_k_std=p.u,
+                          taken_at=newest.taken_at, note=f"weighted mean of {len(p.members)} calibrations",
+                          created_by=actor, status="approved", approved_by=actor, approved_at=now,
+                          in_force_at=now, pool=p.as_dict())
+        session.add(row)
+        session.flush()
+    record_change(session, actor, "calorimeter", calorimeter.id, "heat_capacity", describe(current), describe(row))
+    return row
+
+
+# ------------------------------------------------------------------ recording and approving
+
+
+def calibration_from_result(session: so.Session, calorimeter: Calorimeter, result: Result, actor: Person | None,
+                            *, reanalysis: bool = False) -> Calibration:
+    """Add the heat capacity a calibration run measured (the caller commits).
+
+    Staff's calibration is approved and pooled at once (a re-analysis replaces the run's earlier
+    calibration), unless it would move the value in force too far: then it waits, proposed, for a
+    confirmation. A student's is a proposal, and changes nothing in force until staff approve it.
+    """
+    run = result.run
+    approved = is_staff(actor)
+    if approved and reanalysis:
+        _replace_earlier(session, actor, run.id, keep=None)
+    now = utcnow()
+    cal = Calibration(
+        calorimeter=calorimeter, heat_capacity_j_k=result.calorimeter_heat_capacity_j_k,
+        heat_capacity_j_k_std=result.calorimeter_heat_capacity_j_k_std or 0.0, taken_at=measured_at(run),
+        result=result, note=f"{run.kind} run #{run.id}, {result.method}", created_by=actor,
+        status="approved" if approved else "proposed", approved_by=actor if approved else None,
+        approved_at=now if approved else None,
+    )
+    session.add(cal)
+    session.flush()
+    record_change(session, actor, "calibration", cal.id, "status", None, cal.status)
+    if approved:
+        try:
+            refresh_in_force(session, calorimeter, actor, new=cal)
+        except NeedsConfirmation as exc:
+            record_change(session, actor, "calibration", cal.id, "status", "approved", "proposed")
+            cal.status, cal.approved_by, cal.approved_at = "proposed", None, None
+            cal.note += " · awaiting confirmation: " + exc.message.split(";")[0]
+            if reanalysis:
+                refresh_in_force(session, calorimeter, actor, confirm=True)
+    return cal
+
+
+def _replace_earlier(session: so.Session, actor: Person | None, run_id: int, keep: int | None) -> None:
+    """Withdraw the other live calibrations of the same run (a re-analysis replaces them)."""
+    older = session.scalars(sa.select(Calibration).join(Result, Calibration.result_id == Result.id).where(
+        Result.run_id == run_id, Calibration.status != "withdrawn")).all()
+    for old in older:
+        if old.id != keep:
+            _withdraw(session, actor, old, f"replaced by the re-analysis of run #{run_id}")
+
+
+def enter_heat_capacity(session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str,
+                        measured_on: Any, note: str = "", *, confirm: bool = False,
+                        restart: bool = False) -> Calibration:
+    """Record a heat capacity measured elsewhere, with the date it was measured (staff), and commit."""
+    from webapp.services.concurrency import locked_calorimeter
+
+    require_staff(actor, "record a heat capacity")
+    value, u = parse_heat_capacity(heat_capacity)
+    when = parse_measured_date(measured_on)
+    if len(note or "") > 300:
+        raise Invalid("at most 300 characters", field="note")
+    calorimeter = locked_calorimeter(session, calorimeter.id)
+    cal = Calibration(calorimeter=calorimeter, heat_capacity_j_k=value, heat_capacity_j_k_std=u, taken_at=when,
+                      note=(note or "").strip() or f"entered by {actor.name}", created_by=actor, status="approved",
+                      approved_by=actor, approved_at=utcnow(), restart=bool(restart))
+    session.add(cal)
+    session.flush()
+    record_change(session, actor, "calibration", cal.id, "status", None, "approved")
+    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart, new=cal)
+    session.commit()
+    return cal
+
+
+def approve_calibration(session: so.Session, actor: Person, calibration_id: int, *, confirm: bool = False,
+                        restart: bool = False) -> Calibration:
+    """Approve a proposed calibration (staff) so it joins the value in force, and commit."""
+    from webapp.services.concurrency import locked_calorimeter
+
+    require_staff(actor, "approve a calibration")
+    cal = get_calibration(session, calibration_id)
+    calorimeter = locked_calorimeter(session, cal.calorimeter_id)
+    cal = get_calibration(session, calibration_id)
+    if cal.status != "proposed":
+        raise Conflict(f"calibration {cal.id} is {cal.status}, not proposed", field="status")
+    if cal.result is not None:
+        _replace_earlier(session, actor, cal.result.run_id, keep=cal.id)
+    record_change(session, actor, "calibration", cal.id, "status", "proposed", "approved")
+    cal.status, cal.approved_by, cal.approved_at, cal.restart = "approved", actor, utcnow(), bool(restart)
+    refresh_in_force(session, calorimeter, actor, confirm=confirm or restart, new=cal)
+    session.commit()
+    return cal
+
+
+def get_calibration(session: so.Session, calibration_id: int) -> Calibration:
+    """Return a calibration by id, or raise :class:`NotFound`."""
+    cal = session.get(Calibration, calibration_id)
+    if cal is None:
+        raise NotFound(f"no calibration with id {calibration_id}", field="calibration_id")
+    return cal
+
+
+# ------------------------------------------------------------------ withdrawing
+
+
+def _withdraw(session: so.Session, actor: Person | None, cal: Calibration, reason: str) -> None:
+    record_change(session, actor, "calibration", cal.id, "status", cal.status, "withdrawn")
+    cal.status, cal.withdrawn_by, cal.withdrawn_at, cal.withdrawn_reason = "withdrawn", actor, utcnow(), reason
+    pools = session.scalars(sa.select(Calibration).where(
+        Calibration.calorimeter_id == cal.calorimeter_id, Calibration.pool.is_not(None),
+        Calibration.status == "approved")).all()
+    for p in pools:
+        if cal.id in members_of(p):
+            record_change(session, actor, "calibration", p.id, "status", p.status, "withdrawn")
+            p.status, p.withdrawn_by, p.withdrawn_at = "withdrawn", actor, utcnow()
+            p.withdrawn_reason = f"its member #{cal.id} was withdrawn"
+
+
+def withdraw_calibration(session: so.Session, actor: Person, calibration_id: int, reason: str) -> Calibration:
+    """Withdraw a calibration (staff), with a reason; the value in force is recomputed; commit."""
+    from webapp.services.concurrency import locked_calorimeter
+
+    require_staff(actor, "withdraw a calibration")
+    reason = (reason or "").strip()
+    if not reason:
+        raise Invalid("missing: say why the calibration is withdrawn", field="reason")
+    if len(reason) > 300:
+        raise Invalid("at most 300 characters", field="reason")
+    cal = get_calibration(session, calibration_id)
+    calorimeter = locked_calorimeter(session, cal.calorimeter_id)
+    cal = get_calibration(session, calibration_id)
+    if cal.pool is not None:
+        raise Invalid("a pooled value is not withdrawn itself: withdraw the calibration that is wrong",
+                      field="calibration_id")
+    if cal.status == "withdrawn":
+        raise Conflict(f"calibration {cal.id} is withdrawn already", field="status")
+    _withdraw(session, actor, cal, reason)
+    refresh_in_force(session, calorimeter, actor, confirm=True)
+    session.commit()
+    return cal
+
+
+def runs_using(session: so.Session, calibration: Calibration) -> list[Run]:
+    """Return the runs whose C_cal came from this calibration or from a pool that held it."""
+    ids = {calibration.id}
+    if calibration.pool is None:
+        pools = session.scalars(sa.select(Calibration).where(
+            Calibration.calorimeter_id == calibration.calorimeter_id, Calibration.pool.is_not(None))).all()
+        ids |= {p.id for p in pools if calibration.id in members_of(p)}
+    return list(session.scalars(sa.select(Run).where(Run.calibration_id.in_(ids)).order_by(Run.id)))
+
+
+@dataclasses.dataclass
+class Reanalysed:
+    """What one "re-analyse the runs that used it" action did."""
+
+    calibration: Calibration | None  # the value now in force, used for every run re-analysed
+    reanalysed: list[int] = dataclasses.field(default_factory=list)
+    locked: list[int] = dataclasses.field(default_factory=list)
+    failed: list[tuple[int, str]] = dataclasses.field(default_factory=list)
+
+
+def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int) -> Reanalysed:
+    """Re-analyse, with the value now in force, every unlocked run that used this calibration; commit once.
+
+    Each run keeps its method and periods (Monte Carlo is not repeated). Locked runs are listed,
+    not changed: the lock is checked again under the row lock in the transaction that writes.
+    """
+    from webapp.services.concurrency import begin_write
+    from webapp.services.concurrency import lock_row
+    from webapp.services.errors import ServiceError
+
+    require_staff(actor, "re-analyse runs after a calibration change")
+    cal = get_calibration(session, calibration_id)
+    target = current_calibration(session, cal.calorimeter_id)
+    if target is None:
+        raise Invalid("the calorimeter has no heat capacity in force; record or approve one first",
+                      field="calibration_id")
+    if target.id == cal.id:
+        raise Invalid("this calibration is the value in force; withdraw it first", field="calibration_id")
+    plans = []
+    out = Reanalysed(target)
+    for run in runs_using(session, cal):
+        if run.locked:
+            out.locked.append(run.id)
+            continue
+        try:
+            plans.append((run.id, run.calibration_id, _analyse_with(run, target)))
+        except ServiceError as exc:
+            out.failed.append((run.id, exc.message))
+    target_id = target.id
+    begin_write(session)
+    target = session.get(Calibration, target_id)
+    for run_id, used_id, result in plans:
+        run = lock_row(session, Run, run_id)
+        if run is None or run.locked:
+            out.locked.append(run_id)
+            continue
+        if run.calibration_id != used_id:
+            out.failed.append((run_id, "its calibration changed meanwhile; nothing was changed"))
+            continue
+        _switch(session, actor, run, target, result)
+        out.reanalysed.append(run_id)
+    session.commit()
+    out.calibration = target
+    return out
+
+
+def _analyse_with(run: Run, target: Calibration) -> Result:
+    from webapp.services.analysis import AnalysisOptions
+    from webapp.services.analysis import decode_readings
+    from webapp.services.analysis import parse_inputs
+    from webapp.services.analysis import result_from_analysis
+    from webapp.services.analysis import run_analysis
+
+    current = run.current_result
+    given = bool(current and current.periods_given)
+    options = AnalysisOptions(method=current.method if current else None,
+                              fore=(current.fore_start_s, current.fore_end_s) if given else None,
+                              after=(current.after_start_s, current.after_end_s) if given else None)
+    text = decode_readings(run.readings_raw, run.readings_name)
+    spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, target)
+    analysis = run_analysis(spec, readings, options)
+    return result_from_analysis(analysis, input_name=run.run_file_name, periods_given=given)
+
+
+def _switch(session: so.Session, actor: Person, run: Run, target: Calibration, result: Result) -> None:
+    from webapp.services.result_store import store_result
+
+    record_change(session, actor, "run", run.id, "calibration", describe(run.calibration), describe(target))
+    run.calibration = target
+    for row in run.inputs:
+        if row.field == "calorimeter.heat_capacity" and row.origin.startswith("calibration #"):
+            row.value, row.std_uncertainty = target.heat_capacity_j_k, target.heat_capacity_j_k_std
+            row.text = f"{target.heat_capacity_j_k!r} ± {target.heat_capacity_j_k_std!r} J/K"[:300]
+            row.origin = f"calibration #{target.id}"
+    store_result(session, actor, run, result)
+
