@@ -1,0 +1,100 @@
+"""Simulate a dissolution followed by an in-situ heater pulse in the same log (truth known).
+
+The one-node cup of :mod:`calc.sim_model` is linear in its forcing, and after the dissolution
+its heat capacity and conductance stay those of the final contents. So the log is the
+dissolution run plus the response of that final system to the heater pulse alone: the
+difference of two :class:`~calc.sim_model.LumpedModel` runs with and without the pulse
+(identical before it). Noise and quantisation are applied once, to the sum.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+from typing import Unpack
+
+import numpy as np
+
+from calc.sim_kinds import WATER_CP
+from calc.sim_kinds import WATER_DENSITY
+from calc.sim_kinds import _release_kw
+from calc.sim_kinds import _solid_in_liquid
+from calc.sim_kinds import formula_molar_mass
+from calc.sim_model import LumpedModel
+from calc.sim_model import read_probe
+from calc.sim_run import RunContext
+from calc.sim_run import RunOptions
+from calc.sim_run import SimTruth
+from calc.sim_run import SimulatedRun
+from calc.sim_run import _decimals
+
+__all__ = ["simulate_dissolution_with_calibration"]
+
+KIND = "dissolution-with-calibration"
+
+
+def simulate_dissolution_with_calibration(
+        rng: np.random.Generator | int | None, *, formula: str = "KCl", molar_enthalpy_kJ_mol: float = 17.2,
+        solute_mass_g: float = 3.7, water_volume_mL: float = 100.0, tau_r: float = 60.0,
+        release: str = "first-order", t_d: float | None = None, voltage_V: float = 5.0, current_A: float = 1.0,
+        duration_s: float = 120.0, gap_s: float = 600.0, tail_s: float = 600.0,
+        **options: Unpack[RunOptions]) -> SimulatedRun:
+    """Simulate dissolving a salt at t_m = ``fore_s``, then a heater pulse ``gap_s`` later.
+
+    ``tail_s`` is the log after the heater stops. The truth's ``heat_capacity_final_J_K`` is what
+    the heater measures (cup + final solution); ``delta_t_adiabatic`` is the dissolution's Q/C_final.
+    """
+    options = {"after_s": gap_s, **options}
+    ctx = RunContext(KIND, rng, options)
+    s = _solid_in_liquid(ctx, table="water", volume=water_volume_mL, density=WATER_DENSITY, cp=WATER_CP,
+                         solid=formula, mass=solute_mass_g, solid_cp=0.8, mixture_cp=None)
+    n = s["m_s"] / formula_molar_mass(formula, "solute.formula")
+    heat = -n * molar_enthalpy_kJ_mol * 1000.0
+    g_before, g_after = ctx.conductances(s["c_final"])
+    model = ctx.model(c_before=s["c_before"], g_before=g_before, c_after=s["c_final"], g_after=g_after,
+                      heat_J=heat, **_release_kw(release, tau_r, t_d))
+    o = ctx.o
+    v, i, dur = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A"), ctx.true(duration_s, "duration_s")
+    t_h = round(model.t_m + gap_s, 1)
+    pulse = {"t_initial": o["t_initial_C"], "t_env": model.t_env, "t_m": t_h, "c_before": s["c_final"],
+             "g_before": g_after, "c_after": s["c_final"], "g_after": g_after, "tau_s": model.tau_s,
+             "p_stir": model.p_stir, "room_drift": model.room_drift}
+    with_pulse = LumpedModel(heat_J=v * i * dur, release="finite", t_d=dur, **pulse)
+    without = LumpedModel(**pulse)
+    count = int(math.floor((t_h + dur + tail_s) / o["dt"] + 1e-9)) + 1
+    times = np.round(np.arange(count) * o["dt"], 9)
+    contents, probe = model.solve(times)
+    c1, p1 = with_pulse.solve(times)
+    c0, p0 = without.solve(times)
+    contents, probe = contents + (c1 - c0), probe + (p1 - p0)
+    readings = read_probe(ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"],
+                          gain=o["gain"], offset=o["offset_K"])
+    body = s["body"]
+    body.pop("calorimeter", None)
+    body.pop("mixture", None)  # the heater measures the heat capacity: no solution model is stated
+    body["heater"] = {"voltage": ctx.state("heater.voltage", v, "voltage_V", "V"),
+                      "current": ctx.state("heater.current", i, "current_A", "A"),
+                      "duration": ctx.state("heater.duration", dur, "duration_s", "s"),
+                      "start": f"{t_h:.1f} ± 0.5 s"}
+    u_tm = ctx.u["mixing_time_s"]
+    d = _decimals(u_tm)
+    stated_tm = model.t_m + (ctx.rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)
+    run: dict[str, Any] = {"kind": KIND, "readings": "readings.csv",
+                           "mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s",
+                           "info": {"title": "simulated dissolution with an in-situ heater calibration",
+                                    "notes": "synthetic data with a known truth (calc.sim_insitu)"},
+                           "calorimeter": {"name": o["calorimeter_name"]},
+                           "thermometer": {"resolution": f"{o['resolution']:g} K"}, **body}
+    t_a = model.contents_before_mixing()
+    truth = SimTruth(
+        kind=KIND, delta_t_adiabatic=heat / s["c_final"], heat_J=heat, molar_enthalpy_kJ_mol=molar_enthalpy_kJ_mol,
+        calorimeter_heat_capacity_J_K=s["c_cal"], heat_capacity_final_J_K=s["c_final"], reference="T(t_m)",
+        reference_temperature_C=t_a, t_contents_at_mixing_C=t_a, t_mix_C=None,
+        delta_t_from_contents=heat / s["c_final"], extent_mol=n, t_m_s=model.t_m,
+        mixing_time_stated_s=round(stated_tm, d), t_env_C=model.t_env, t_inf_C=model.t_env,
+        k_before_per_s=g_before / s["c_before"], k_per_s=g_after / s["c_final"], tau_h_s=o["tau_h"],
+        tau_s_s=model.tau_s, release=model.release, tau_r_s=model.tau_r if model.release == "first-order" else None,
+        t_d_s=model.t_d if model.release in ("finite", "sphere") else None, p_stir_W=model.p_stir,
+        noise_K=o["noise"], phi=o["phi"], resolution_K=o["resolution"], gain=o["gain"], offset_K=o["offset_K"],
+        room_drift_K_per_h=o["room_drift_K_per_h"], seed=ctx.seed, inputs=dict(ctx.inputs), model=model)
+    return SimulatedRun(times, readings, run, truth, contents, probe)

@@ -1,0 +1,80 @@
+"""Dissolution with an in-situ electrical calibration in the same log (calc.insitu).
+
+The truth comes from the simulator's closed-form lumped model (calc.sim_insitu); check values
+are the simulated ΔH and the heat capacity of cup + final solution (energy balance
+V·I·t = C·ΔT; common practice, no source). The wide-range trueness and coverage figures are
+measured in tests/benchmarks/test_insitu_coverage.py.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from calc.analysis import analyze_run
+from calc.cli import cli
+from calc.errors import InputError
+from calc.sim_insitu import simulate_dissolution_with_calibration
+from calc.simulate import write_run
+
+
+def run(tmp_path: Path, seed: int, **kw: float) -> tuple[Path, object]:
+    sim = simulate_dissolution_with_calibration(seed, **kw)
+    return write_run(sim, tmp_path, f"insitu{seed}"), sim
+
+
+@pytest.mark.parametrize(("seed", "kw"), [
+    (1, {"noise": 0.0, "resolution": 0.0001}),
+    (2, {"formula": "NH4NO3", "molar_enthalpy_kJ_mol": 25.7, "solute_mass_g": 5.0, "tau_r": 30.0}),
+    (3, {"formula": "NaOH", "molar_enthalpy_kJ_mol": -44.5, "solute_mass_g": 2.0, "c_cal": 130.0,
+         "t_env_offset": 1.0, "tau_h": 1800.0}),
+])
+def test_holds_the_true_enthalpy_and_heat_capacity(tmp_path: Path, seed: int, kw: dict) -> None:
+    path, sim = run(tmp_path, seed, **kw)
+    assert "mixture" not in path.read_text()  # no solution heat-capacity model is needed
+    a = analyze_run(path, monte_carlo_trials=2000, seed=5)
+    truth = sim.truth.molar_enthalpy_kJ_mol
+    value, U = a.gum.values["molar_enthalpy"], a.gum.expanded_uncertainty
+    assert abs(value - truth) <= U
+    c, uc = a.gum.values["heat_capacity_total"], a.gum.uncertainties["heat_capacity_total"]
+    assert abs(c - sim.truth.heat_capacity_final_J_K) <= 3 * uc
+    if kw.get("noise") == 0.0:
+        assert abs(value - truth) / abs(truth) < 0.003  # near noise-free: within 0.3 %
+    assert a.monte_carlo is not None and a.monte_carlo.agrees
+    # the two ΔT share the drift fits: their correlation is kept and reported
+    corr = a.delta_t.construction["correlation"]
+    assert corr[0][1] != 0.0 and abs(corr[0][1]) < 1.0 and corr[0][1] == pytest.approx(corr[1][0])
+
+
+def test_json_and_text_report(tmp_path: Path) -> None:
+    path, _ = run(tmp_path, 4)
+    out = CliRunner().invoke(cli, ["analyze", "--json", "--monte-carlo", "0", str(path)])
+    assert out.exit_code == 0, out.output
+    rec = json.loads(out.output)
+    assert rec["kind"] == "dissolution-with-calibration" and rec["molar_enthalpy"]["unit"] == "kJ/mol"
+    text = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(path)]).output
+    assert "C (cup+contents)" in text and "heater: on at" in text
+
+
+@pytest.mark.parametrize(("edit", "field"), [
+    (lambda s: s.replace('start = "', 'start = "9', 1), "heater.start"),
+    (lambda s: 'method = "naive"\n' + s, "method"),
+])
+def test_bad_input_is_refused_in_one_line(tmp_path: Path, edit, field: str) -> None:  # noqa: ANN001
+    path, _ = run(tmp_path, 6)
+    path.write_text(edit(path.read_text()))
+    with pytest.raises(InputError) as caught:
+        analyze_run(path)
+    assert caught.value.field == field
+    out = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(path)])
+    assert out.exit_code == 2 and len(out.output.strip().splitlines()) == 1
+
+
+def test_heater_too_soon_after_the_dissolution_is_refused(tmp_path: Path) -> None:
+    path, _ = run(tmp_path, 7, tau_r=60.0, gap_s=200.0)
+    with pytest.raises(InputError) as caught:
+        analyze_run(path)
+    assert caught.value.field == "mixing_time" and "switch the heater on later" in caught.value.message
