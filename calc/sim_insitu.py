@@ -37,14 +37,23 @@ def simulate_dissolution_with_calibration(
         rng: np.random.Generator | int | None, *, formula: str = "KCl", molar_enthalpy_kJ_mol: float = 17.2,
         solute_mass_g: float = 3.7, water_volume_mL: float = 100.0, tau_r: float = 60.0,
         release: str = "first-order", t_d: float | None = None, voltage_V: float = 5.0, current_A: float = 1.0,
-        duration_s: float = 120.0, gap_s: float = 600.0, tail_s: float = 600.0,
+        duration_s: float = 120.0, gap_s: float = 600.0, tail_s: float = 600.0, pulses: str = "after",
         **options: Unpack[RunOptions]) -> SimulatedRun:
-    """Simulate dissolving a salt at t_m = ``fore_s``, then a heater pulse ``gap_s`` later.
+    """Simulate dissolving a salt and heater pulses ``gap_s`` apart in one log.
 
-    ``tail_s`` is the log after the heater stops. The truth's ``heat_capacity_final_J_K`` is what
-    the heater measures (cup + final solution); ``delta_t_adiabatic`` is the dissolution's Q/C_final.
+    ``pulses``: "after" (the dissolution at ``fore_s``, then the pulse), "before" (the pulse at
+    ``fore_s``, the dissolution after it) or "both". ``tail_s`` is the log after the last event's
+    end. A pulse before the dissolution heats the initial contents; its response is superposed on
+    the dissolution run, which is exact only without heat exchange (``tau_h=math.inf``): with
+    exchange the pulse's excess would decay at the initial contents' rate after the dissolution
+    too. The truth's ``heat_capacity_final_J_K`` is C of cup + final solution; C before the
+    dissolution is ``inputs["c_before_J_K"]``.
     """
-    options = {"after_s": gap_s, **options}
+    if pulses not in ("after", "before", "both"):
+        raise ValueError(f"pulses must be 'after', 'before' or 'both', got {pulses!r}")
+    fore0 = float(options.get("fore_s", 300.0))
+    first = pulses in ("before", "both")
+    options = {**options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
     ctx = RunContext(KIND, rng, options)
     s = _solid_in_liquid(ctx, table="water", volume=water_volume_mL, density=WATER_DENSITY, cp=WATER_CP,
                          solid=formula, mass=solute_mass_g, solid_cp=0.8, mixture_cp=None)
@@ -55,27 +64,31 @@ def simulate_dissolution_with_calibration(
                       heat_J=heat, **_release_kw(release, tau_r, t_d))
     o = ctx.o
     v, i, dur = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A"), ctx.true(duration_s, "duration_s")
-    t_h = round(model.t_m + gap_s, 1)
-    pulse = {"t_initial": o["t_initial_C"], "t_env": model.t_env, "t_m": t_h, "c_before": s["c_final"],
-             "g_before": g_after, "c_after": s["c_final"], "g_after": g_after, "tau_s": model.tau_s,
-             "p_stir": model.p_stir, "room_drift": model.room_drift}
-    with_pulse = LumpedModel(heat_J=v * i * dur, release="finite", t_d=dur, **pulse)
-    without = LumpedModel(**pulse)
-    count = int(math.floor((t_h + dur + tail_s) / o["dt"] + 1e-9)) + 1
+    starts = ([("before", round(fore0, 1))] if first else []) + (
+        [("after", round(model.t_m + gap_s, 1))] if pulses in ("after", "both") else [])
+    end = max(t for _w, t in starts) + dur if starts[-1][0] == "after" else model.t_m + gap_s
+    count = int(math.floor((end + tail_s) / o["dt"] + 1e-9)) + 1
     times = np.round(np.arange(count) * o["dt"], 9)
     contents, probe = model.solve(times)
-    c1, p1 = with_pulse.solve(times)
-    c0, p0 = without.solve(times)
-    contents, probe = contents + (c1 - c0), probe + (p1 - p0)
-    readings = read_probe(ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"],
-                          gain=o["gain"], offset=o["offset_K"])
     body = s["body"]
     body.pop("calorimeter", None)
     body.pop("mixture", None)  # the heater measures the heat capacity: no solution model is stated
-    body["heater"] = {"voltage": ctx.state("heater.voltage", v, "voltage_V", "V"),
-                      "current": ctx.state("heater.current", i, "current_A", "A"),
-                      "duration": ctx.state("heater.duration", dur, "duration_s", "s"),
+    for j, (when, t_h) in enumerate(starts):
+        c, g = (s["c_before"], g_before) if when == "before" else (s["c_final"], g_after)
+        pulse = {"t_initial": o["t_initial_C"], "t_env": model.t_env, "t_m": t_h, "c_before": c, "g_before": g,
+                 "c_after": c, "g_after": g, "tau_s": model.tau_s, "p_stir": model.p_stir,
+                 "room_drift": model.room_drift}
+        c1, p1 = LumpedModel(heat_J=v * i * dur, release="finite", t_d=dur, **pulse).solve(times)
+        c0, p0 = LumpedModel(**pulse).solve(times)
+        contents, probe = contents + (c1 - c0), probe + (p1 - p0)
+        name = "heater" if j == 0 else "heater_2"
+        body[name] = {"voltage": ctx.state(f"{name}.voltage", v, "voltage_V", "V"),
+                      "current": ctx.state(f"{name}.current", i, "current_A", "A"),
+                      "duration": ctx.state(f"{name}.duration", dur, "duration_s", "s"),
                       "start": f"{t_h:.1f} ± 0.5 s"}
+    ctx.inputs["c_before_J_K"] = s["c_before"]
+    readings = read_probe(ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"],
+                          gain=o["gain"], offset=o["offset_K"])
     u_tm = ctx.u["mixing_time_s"]
     d = _decimals(u_tm)
     stated_tm = model.t_m + (ctx.rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)

@@ -78,3 +78,22 @@ def test_heater_too_soon_after_the_dissolution_is_refused(tmp_path: Path) -> Non
     with pytest.raises(InputError) as caught:
         analyze_run(path)
     assert caught.value.field == "mixing_time" and "switch the heater on later" in caught.value.message
+
+
+@pytest.mark.parametrize("pulses", ["before", "both"])
+def test_calibration_before_and_on_both_sides(tmp_path: Path, pulses: str) -> None:
+    """Without heat exchange the simulated log is exact for a pulse before the dissolution too.
+
+    In the lumped model the dissolution's heat goes into C_final, so a pulse before it (which
+    measures C_initial) gives ΔH·C_initial/C_final, and one pulse on each side their mean: the
+    analysis must reproduce that energy balance (common practice, no source).
+    """
+    import math
+
+    sim = simulate_dissolution_with_calibration(8, pulses=pulses, tau_h=math.inf, noise=0.001, resolution=0.0001)
+    a = analyze_run(write_run(sim, tmp_path, pulses), with_reference=False)
+    c_i, c_f = sim.truth.inputs["c_before_J_K"], sim.truth.heat_capacity_final_J_K
+    expected = sim.truth.molar_enthalpy_kJ_mol * (c_i / c_f if pulses == "before" else 0.5 * (c_i + c_f) / c_f)
+    assert a.gum.values["molar_enthalpy"] == pytest.approx(expected, rel=0.002)
+    assert ("end" if pulses == "before" else "middle") in a.model.amount_note
+    assert len(a.delta_t.construction["events"]) == (2 if pulses == "before" else 3)
