@@ -92,12 +92,14 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         f"after {p.after[0]:.0f}–{p.after[1]:.0f} s"
     )
     lines.append(f"method: {dt.method}")
-    for ev in dt.construction.get("events", []):
+    events = dt.construction.get("events", [])
+    d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
+    for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
             lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
                          f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
                          f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
-                         f"{dt.construction['correlation'][0][-1]:+.2f})")
+                         f"{dt.construction['correlation'][d_index][i]:+.2f})")
     lines.append("")
     v, u, unit = analysis.value("corrected_delta_t")
     lines.append(f"  corrected ΔT      {format_value(v, u, unit)}")
