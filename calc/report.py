@@ -50,6 +50,8 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "budget": [b.as_dict() for b in analysis.gum.budget],
         "warnings": list(analysis.warnings),
         "checks": [c.as_dict() for c in analysis.checks],
+        **({"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
+           if "heat_capacity_total" in analysis.gum.values else {}),
     }
 
 

@@ -55,6 +55,7 @@ def test_json_and_text_report(tmp_path: Path) -> None:
     assert out.exit_code == 0, out.output
     rec = json.loads(out.output)
     assert rec["kind"] == "dissolution-with-calibration" and rec["molar_enthalpy"]["unit"] == "kJ/mol"
+    assert rec["heat_capacity_total"]["unit"] == "J/K" and rec["heat_capacity_total"]["value"] > 0
     text = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(path)]).output
     assert "C (cup+contents)" in text and "heater: on at" in text
 

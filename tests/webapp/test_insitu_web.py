@@ -67,7 +67,7 @@ def test_form_preview_and_save(client: Any, session: Any, lab: Any, tmp_path: Pa
     assert abs(result.molar_enthalpy_kj_mol - sim.truth.molar_enthalpy_kJ_mol) <= result.expanded_uncertainty
     page = client.get(r.headers["Location"])
     html = page.get_data(as_text=True)
-    assert page.status_code == 200 and "ΔH" in html
+    assert page.status_code == 200 and "ΔH" in html and "C of cup + solution (from the heater in the log)" in html
     link = re.search(r'<img src="([^"]+)"', html)
     assert link and client.get(link.group(1)).status_code == 200
 
