@@ -98,3 +98,14 @@ def test_calibration_before_and_on_both_sides(tmp_path: Path, pulses: str) -> No
     assert a.gum.values["molar_enthalpy"] == pytest.approx(expected, rel=0.002)
     assert ("end" if pulses == "before" else "middle") in a.model.amount_note
     assert len(a.delta_t.construction["events"]) == (2 if pulses == "before" else 3)
+
+
+def test_heater_measured_heat_capacity_is_checked_against_the_cup_type(tmp_path: Path) -> None:
+    """A Dewar (about 130 J/K; common practice, no source) is implausible as foam cups, plausible as a Dewar."""
+    path, _ = run(tmp_path, 9, c_cal=130.0, noise=0.002, resolution=0.001)
+    a = analyze_run(path, with_reference=False)
+    assert "calorimeter_heat_capacity" in {c.code for c in a.checks}
+    found = next(c for c in a.checks if c.code == "calorimeter_heat_capacity")
+    assert found.value == pytest.approx(130.0, abs=15.0)  # the water's c_p is taken as 4.18 J/(g K)
+    path.write_text(path.read_text().replace('[calorimeter]\n', '[calorimeter]\ntype = "dewar"\n'))
+    assert "calorimeter_heat_capacity" not in {c.code for c in analyze_run(path, with_reference=False).checks}
