@@ -285,13 +285,11 @@ def _gradient(f: Any, p: np.ndarray, cov: np.ndarray) -> np.ndarray:
 # ------------------------------------------------------------------ the measurement model
 
 
-def build_insitu_model(spec: RunSpec, fit: SharedFit, props: Properties) -> ModelSpec:
-    """Return the inputs and model: C from the heater pulse(s), ΔH = −C ΔT_dissolution / n."""
+def _insitu_inputs(spec: RunSpec, fit: SharedFit) -> list[Input]:
+    """Return the primary inputs: each event's ΔT, the drift components, resolutions, method terms, heaters, mass."""
     names = [e.name for e in fit.events]
     n_ev = len(names)
-    chol = np.linalg.cholesky(fit.cov_delta_t + np.eye(n_ev) * 1e-18)
     formula = spec.get("solute", "formula")
-    M = molar_mass(formula, field="solute.formula", source=spec.source)
     purity = spec.get("solute", "purity")
     inputs: list[Input] = []
     for i, name in enumerate(names):
@@ -317,6 +315,19 @@ def build_insitu_model(spec: RunSpec, fit: SharedFit, props: Properties) -> Mode
                         "normal" if mass.distribution == "normal" else "rectangular", label=f"mass of {formula}"))
     if purity is not None:
         inputs.append(Input("solute.purity", purity.value, purity.u_as(""), "", label="solute purity (mass fraction)"))
+    return inputs
+
+
+def build_insitu_model(spec: RunSpec, fit: SharedFit, props: Properties) -> ModelSpec:
+    """Return the inputs and model: C from the heater pulse(s), ΔH = −C ΔT_dissolution / n."""
+    names = [e.name for e in fit.events]
+    chol = np.linalg.cholesky(fit.cov_delta_t + np.eye(len(names)) * 1e-18)
+    formula = spec.get("solute", "formula")
+    M = molar_mass(formula, field="solute.formula", source=spec.source)
+    purity = spec.get("solute", "purity")
+    mass = spec.get("solute", "mass")
+    heaters = [n for n in names if n != "dissolution"]
+    inputs = _insitu_inputs(spec, fit)
 
     def delta_t(x: Any, i: int) -> Any:
         name = names[i]
