@@ -35,6 +35,7 @@ OUTPUT_UNITS = {
     "heat": "J",
     "molar_enthalpy": "kJ/mol",
     "calorimeter_heat_capacity": "J/K",
+    "heat_capacity_total": "J/K",  # cup + contents, from an in-situ heater pulse
 }
 
 
@@ -130,6 +131,12 @@ def analyze_spec(
     run file's ``[calorimeter] type``) and ``history`` (the calorimeter's earlier calibrations,
     (value, u) in J/K) feed the plausibility checks of :mod:`calc.checks`.
     """
+    if spec.kind == "dissolution-with-calibration":
+        from calc.insitu import analyze_insitu
+
+        return analyze_insitu(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
+                              fore=fore, after=after, with_reference=with_reference,
+                              calorimeter_type=calorimeter_type, history=history)
     two = spec.kind in ("neutralization", "mixing-calibration")
     mix = spec.mixing_time
     periods = find_periods(
@@ -179,11 +186,15 @@ def analyze_spec(
     return analysis
 
 
+#: kinds compared with the reference values of another kind
+_REFERENCE_KIND = {"dissolution-with-calibration": "dissolution"}
+
+
 def _run_reference(spec: RunSpec) -> Any:
     """Return the reference value a run's result is compared with (None when there is none)."""
     r = spec.sections.get("reaction", {})
     try:
-        return _reference(spec.kind, spec.get("solute", "formula") or r.get("limiting_reagent"),
+        return _reference(_REFERENCE_KIND.get(spec.kind, spec.kind), spec.get("solute", "formula") or r.get("limiting_reagent"),
                           spec.get("acid", "formula"), spec.get("base", "formula"), spec.get("reference", "name"))
     except CupcalError:  # an unknown reference name is reported by the comparison, not by a check
         return None
@@ -426,7 +437,7 @@ def _attach_reference(analysis: Analysis) -> None:
     except ImportError:
         return
     ref = _reference(
-        spec.kind,
+        _REFERENCE_KIND.get(spec.kind, spec.kind),
         spec.get("solute", "formula") or r.get("limiting_reagent"),
         spec.get("acid", "formula"),
         spec.get("base", "formula"),

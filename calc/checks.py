@@ -244,6 +244,11 @@ def _heat_capacity_check(analysis: Any, calorimeter_type: str | None) -> Check |
     if analysis.main == "calorimeter_heat_capacity":
         c, u = analysis.gum.values[analysis.main], analysis.gum.uncertainties[analysis.main]
         what = "measured"
+    elif "heat_capacity_total" in analysis.gum.values and _water_g(analysis):
+        # an in-situ heater measures cup + solution: less the water's share, roughly the cup's
+        c = analysis.gum.values["heat_capacity_total"] - _water_g(analysis) * _WATER_CP
+        u = analysis.gum.uncertainties["heat_capacity_total"]
+        what = "implied (heater's cup + solution less the water)"
     else:
         stated = spec.get("calorimeter", "heat_capacity")
         if stated is None:

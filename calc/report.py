@@ -22,6 +22,7 @@ _KIND_TITLES = {
     "reaction": "Enthalpy of reaction",
     "electrical-calibration": "Electrical calibration",
     "mixing-calibration": "Calibration by mixing warm and cool water",
+    "dissolution-with-calibration": "Enthalpy of solution with an in-situ electrical calibration",
 }
 
 
@@ -49,6 +50,8 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "budget": [b.as_dict() for b in analysis.gum.budget],
         "warnings": list(analysis.warnings),
         "checks": [c.as_dict() for c in analysis.checks],
+        **({"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
+           if "heat_capacity_total" in analysis.gum.values else {}),
     }
 
 
@@ -91,11 +94,22 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         f"after {p.after[0]:.0f}–{p.after[1]:.0f} s"
     )
     lines.append(f"method: {dt.method}")
+    events = dt.construction.get("events", [])
+    d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
+    for i, ev in enumerate(events):
+        if ev["name"] != "dissolution":
+            lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
+                         f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
+                         f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
+                         f"{dt.construction['correlation'][d_index][i]:+.2f})")
     lines.append("")
     v, u, unit = analysis.value("corrected_delta_t")
     lines.append(f"  corrected ΔT      {format_value(v, u, unit)}")
     v, u, unit = analysis.value("heat")
     lines.append(f"  heat              {format_value(v, u, unit)}")
+    if "heat_capacity_total" in analysis.gum.values:
+        v, u, unit = analysis.value("heat_capacity_total")
+        lines.append(f"  C (cup+contents)  {format_value(v, u, unit)}  from the heater")
     main = analysis.main
     v, u, unit = analysis.value(main)
     g = analysis.gum

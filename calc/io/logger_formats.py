@@ -187,8 +187,13 @@ def _next_data_line(out: list[str], after: int) -> int | None:
     return None
 
 
+_MAX_CELL = 100  # longer header cells are not parsed: _BRACKET_RE backtracks quadratically in runs of spaces
+
+
 def _unit_key(cell: str) -> str | None:
     cell = cell.strip()
+    if len(cell) > _MAX_CELL:
+        return None
     bracket = _BRACKET_RE.fullmatch(cell)
     if bracket is not None and not bracket.group(1):
         cell = bracket.group(2)
@@ -202,6 +207,8 @@ def _is_units_row(cells: list[str], width: int) -> bool:
 
 
 def _parse_header_cell(cell: str) -> _Column:
+    if len(cell) > _MAX_CELL:
+        return _Column(cell[:_MAX_CELL], None, cell[:_MAX_CELL])
     bracket = _BRACKET_RE.fullmatch(cell)
     if bracket is not None and _unit_key(bracket.group(2)):
         return _Column(bracket.group(1).strip(), _unit_key(bracket.group(2)), cell)

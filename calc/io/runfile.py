@@ -28,6 +28,7 @@ KINDS = (
     "electrical-calibration",
     "mixing-calibration",
     "reaction",
+    "dissolution-with-calibration",
 )
 
 # A field is (kind of value, expected unit or None, required).
@@ -136,6 +137,21 @@ SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
     },
 }
 
+_HEATER_AT: dict[str, Field] = {
+    "voltage": ("q", "V", True),
+    "current": ("q", "A", True),
+    "duration": ("q", "s", True),
+    "start": ("q", "s", True),
+}
+SCHEMA["dissolution-with-calibration"] = {
+    **_COMMON,
+    "calorimeter": {"name": ("s", None, False), "type": ("s", None, False)},
+    "water": _WATER,
+    "solute": SCHEMA["dissolution"]["solute"],
+    "heater": _HEATER_AT,
+    "heater_2": _HEATER_AT,
+}
+
 #: Sections every run of a kind must have.
 REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {
     "dissolution": ("calorimeter", "thermometer", "water", "solute"),
@@ -143,6 +159,7 @@ REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {
     "electrical-calibration": ("thermometer", "water", "heater"),
     "mixing-calibration": ("thermometer", "water", "warm_water"),
     "reaction": ("calorimeter", "thermometer", "solution", "reaction"),
+    "dissolution-with-calibration": ("thermometer", "water", "solute", "heater"),
 }
 
 _TOP: dict[str, Field] = {
@@ -422,7 +439,7 @@ def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> 
                 source=source,
                 field="reaction.limiting_reagent",
             )
-    if kind == "dissolution":
+    if kind in ("dissolution", "dissolution-with-calibration"):
         purity = sections["solute"].get("purity")
         if purity is not None and not (0 < purity.value <= 1):
             raise InputError(

@@ -33,6 +33,7 @@ MAIN_OUTPUT: dict[str, tuple[str, str]] = {
     "reaction": ("molar_enthalpy", "kJ/mol"),
     "electrical-calibration": ("calorimeter_heat_capacity", "J/K"),
     "mixing-calibration": ("calorimeter_heat_capacity", "J/K"),
+    "dissolution-with-calibration": ("molar_enthalpy", "kJ/mol"),  # model in calc.insitu
 }
 
 #: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).

@@ -148,3 +148,34 @@ def test_run_file_column_must_be_a_name_or_number(tmp_path: Path) -> None:
     with pytest.raises(InputError) as caught:
         analyze_run(toml)
     assert caught.value.field == "temperature_column"
+
+
+def test_mutated_exports_give_a_result_or_a_one_line_error() -> None:
+    """Random edits of an export never raise anything but InputError, and errors stay one line."""
+    import random
+
+    rng = random.Random(7)
+    base = teaching_export()
+    pieces = list(" \t,;:#\n.-+e0123456789()[]/°CKsTime_") + ["##", "2026-03-04", "10:15:02", "degC", "nan"]
+    for _ in range(400):
+        s = list(base)
+        for _ in range(rng.randint(1, 6)):
+            if rng.random() < 0.4 and s:
+                del s[rng.randrange(len(s))]
+            else:
+                s.insert(rng.randrange(len(s) + 1), rng.choice(pieces))
+        for column in (None, "T2", 3):
+            try:
+                parse_readings("".join(s), source="m.txt", column=column)
+            except InputError as exc:
+                assert "\n" not in str(exc)
+
+
+def test_a_long_header_cell_is_refused_quickly() -> None:
+    import time
+
+    text = "time" + " " * 20000 + "(s;T (C);x\n" + "".join(f"{i};21.{i};1\n" for i in range(20))
+    start = time.perf_counter()
+    with pytest.raises(InputError):
+        parse_readings(text, source="h.csv")
+    assert time.perf_counter() - start < 0.5

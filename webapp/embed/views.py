@@ -22,6 +22,7 @@ from webapp.embed import links
 from webapp.models import Person
 from webapp.models import Run
 from webapp.quantities import result_value
+from webapp.services.checks import flagged_checks
 from webapp.services.errors import Forbidden
 from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
@@ -69,6 +70,8 @@ def card_flags(run: Run) -> list[dict[str, str]]:
     if result is not None:
         for w in result.warnings or []:
             flags.append({"name": "warning", "detail": str(w)})
+        for c in flagged_checks(result.checks):
+            flags.append({"name": "check warning", "detail": str(c.get("message", ""))})
         en = (result.comparison or {}).get("En")
         if isinstance(en, (int, float)) and abs(en) > 1:
             flags.append({"name": "|En| > 1", "detail": f"E_n = {en:.2f} against the reference (ISO 13528)"})

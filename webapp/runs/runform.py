@@ -30,6 +30,10 @@ KIND_TITLES = {
     "mixing-calibration": ("Warm-water calibration",
                            "Warm water poured into cool water: the calorimeter's heat capacity."),
     "reaction": ("Reaction", "A reaction in solution: ΔH per mole of reaction as written."),
+    "dissolution-with-calibration": (
+        "Dissolution with in-situ calibration",
+        "A solid dissolved, then a heater pulse in the same log: ΔH per mole of solute, the heat capacity of "
+        "cup + solution from the heater."),
 }
 
 _SECTION_TITLES = {
@@ -41,6 +45,7 @@ _SECTION_TITLES = {
     "acid": "Acid (in the cup)",
     "base": "Base (poured in)",
     "heater": "Heater",
+    "heater_2": "Second heater pulse",
     "warm_water": "Warm water (poured in)",
     "solution": "Solution in the cup",
     "reaction": "Reaction",
@@ -81,6 +86,8 @@ _HINTS = {
     "after_period": "in seconds on the log's clock; blank: found from the log",
     "temperature_column": "only for a log with several temperature columns: its header name (T2) or column number "
                           "counted from 1 (3)",
+    "heater.start": "when the heater is switched on, in seconds on the log's clock",
+    "heater_2.start": "when the second pulse is switched on, in seconds on the log's clock",
     "solute.purity": "mass fraction, 0 to 1",
     "reaction.amount": "give the amount, or the mass with the limiting reagent",
     "reaction.mass": "mass of the limiting reagent, with its formula",
@@ -219,6 +226,9 @@ def form_sections(kind: str) -> list[FormSection]:
         hint = _SECTION_HINTS.get(name, "" if name in required or name in ("", "info") else "Optional section.")
         if name == "calorimeter" and name not in required:
             hint = "The calorimeter whose heat capacity this run measures: the result is added to its history."
+            if kind == "dissolution-with-calibration":
+                hint = ("The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
+                        "the heat capacity of cup + solution.")
         out.append(FormSection(name, _SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint,
                                name in required, fields))
     return out

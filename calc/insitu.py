@@ -1,0 +1,451 @@
+"""Dissolution with an in-situ electrical calibration in the same log (kind ``dissolution-with-calibration``).
+
+The log holds a dissolution (at the mixing time) and one or two heater pulses (``[heater]``
+and optionally ``[heater_2]``, each with its ``start`` on the log's clock), before or after it.
+The heat capacity of cup + contents comes from the heater, C = V·I·t / ΔT_heater, so no
+model of the solution's heat capacity is needed; ΔH = −C·ΔT_dissolution / n.
+
+One drift law for the whole log
+    Between the events the log has drift windows W_0 … W_n. One Newtonian law
+    dT/dt = g(T) = a − k (T − T_ref) is fitted to all of them at once (a level L_j per window,
+    shared a and k; variable projection is not needed: ``scipy.optimize.least_squares`` on
+    5–6 parameters). Each event's corrected ΔT is the Regnault–Pfaundler integral
+    ΔT = T_after(t_f) − T_before(t_i) − ∫ g(T) dt over its main period, taken on the readings.
+    The covariance of the parameters is a sandwich in which each window keeps its own noise
+    level and AR(1) inflation; the ΔT of all events are functions of the same parameters, so
+    their covariance is kept: the budget carries it as independent components through its
+    Cholesky factor. The quantisation of the level of a window shared by two events enters
+    both, with opposite signs.
+
+Reference temperature of ΔH: the dissolution's start when the heater follows (C is that of
+the final contents), its end when the heater comes first (C of the initial contents), the
+middle when there is one pulse on each side (their mean C).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from calc.deltat.methods import METHOD_TERMS, DeltaT, resolution_term
+from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation, phi
+from calc.errors import AnalysisError, InputError
+from calc.uncertainty.gum import Input
+from calc.deltat.heater import HEATER_LAG_S
+from calc.uncertainty.measurement_models import ModelSpec, Properties
+from calc.refdata.formula import molar_mass
+from calc.deltat.periods import MIN_WINDOW_POINTS, Periods, detect_mixing_time, find_periods
+from calc.io.readings import Readings
+from calc.io.runfile import RunSpec
+
+__all__ = ["KIND", "HEATERS", "Event", "SharedFit", "insitu_periods", "shared_fit", "build_insitu_model"]
+
+KIND = "dissolution-with-calibration"
+HEATERS = ("heater", "heater_2")
+
+
+@dataclass(frozen=True)
+class Event:
+    """One event of the log: its name, start (t_i) and the start of the drift window after it (t_f)."""
+
+    name: str  # "dissolution", "heater" or "heater_2"
+    start: float
+    main_end: float
+
+
+@dataclass
+class SharedFit:
+    """The shared drift law and the corrected ΔT of every event with their covariance."""
+
+    windows: list[tuple[float, float]]
+    events: list[Event]
+    params: np.ndarray  # L_0 … L_n, a, k
+    cov: np.ndarray
+    t_ref: float
+    delta_t: np.ndarray  # one per event
+    cov_delta_t: np.ndarray
+    levels: list[tuple[float, float]]  # (T at t_i, T at t_f) of each event
+    resolution_u: list[float]  # per window level
+    residual_sd: float
+    rho: float
+
+    @property
+    def k(self) -> float:
+        """Exchange rate constant, 1/s."""
+        return float(self.params[-1])
+
+
+def _heater_times(spec: RunSpec, name: str) -> tuple[float, float] | None:
+    sec = spec.sections.get(name)
+    if sec is None:
+        return None
+    return sec["start"].m_as("s"), sec["duration"].m_as("s")
+
+
+def insitu_periods(spec: RunSpec, readings: Readings) -> tuple[Periods, list[Event], list[tuple[float, float]]]:
+    """Return the periods for the report, the events in time order and the drift windows between them.
+
+    Raises
+    ------
+    InputError
+        Naming the field when an event lies outside the log, the events overlap, or a drift
+        window between them holds too few readings.
+    """
+    t, y, src = readings.time_s, readings.temperature_K, readings.source
+    heaters = [(name, *_heater_times(spec, name)) for name in HEATERS if spec.sections.get(name) is not None]
+    for name, start, duration in heaters:
+        if not (t[0] < start and start + duration < t[-1]):
+            raise InputError(f"the heater pulse {start:g}–{start + duration:g} s does not lie inside the log "
+                             f"({t[0]:g} to {t[-1]:g} s); give {name}.start on the log's clock",
+                             field=f"{name}.start", source=src)
+    first_heater = min(h[1] for h in heaters)
+    t_m, u_tm, detected = _mixing_time(spec, t, y, first_heater, src)
+    events: list[tuple[str, float, float]] = [("dissolution", t_m, math.nan)]
+    events += [(name, start, start + duration) for name, start, duration in heaters]
+    events.sort(key=lambda e: e[1])
+    out: list[Event] = []
+    for i, (name, start, off) in enumerate(events):
+        nxt = events[i + 1][1] if i + 1 < len(events) else float(t[-1]) + 1.0
+        if name == "dissolution":
+            t_f = _dissolution_end(t, y, start, nxt, spec, src)
+        else:
+            t_f = off + HEATER_LAG_S
+        window = t[(t >= t_f - 1e-9) & (t < nxt - 1e-9)]
+        if window.size < MIN_WINDOW_POINTS:
+            what = "the end of the log" if i + 1 == len(events) else f"the {events[i + 1][0].replace('_', ' ')}"
+            raise InputError(
+                f"only {window.size} readings between the end of the {name.replace('_', ' ')} (settled at "
+                f"{t_f:.0f} s) and {what}; at least {MIN_WINDOW_POINTS} are needed: leave 3–5 minutes of steady "
+                "drift between the events", field=_field_of(name, i + 1 == len(events)), source=src)
+        out.append(Event(name, start, float(window[0])))
+    fore = spec.fore_period or (float(t[0]), float(t[t < out[0].start - 1e-9][-1]))
+    windows = [fore] + [(e.main_end, float(t[t < out[i + 1].start - 1e-9][-1]) if i + 1 < len(out) else float(t[-1]))
+                        for i, e in enumerate(out)]
+    if spec.after_period is not None:
+        if spec.after_period[0] < out[-1].main_end - 1e-9:
+            raise InputError(f"after_period starts at {spec.after_period[0]:g} s, before the last event has settled "
+                             f"({out[-1].main_end:g} s)", field="after_period", source=src)
+        windows[-1] = spec.after_period
+    if np.count_nonzero((t >= windows[0][0]) & (t <= windows[0][1])) < MIN_WINDOW_POINTS:
+        raise InputError(f"too few readings before the first event at {out[0].start:g} s; at least "
+                         f"{MIN_WINDOW_POINTS} are needed (3–5 minutes are advised)", field="fore_period", source=src)
+    diss = next(e for e in out if e.name == "dissolution")
+    periods = Periods(fore=windows[0], after=windows[-1], mixing_time=t_m, u_mixing_time=u_tm,
+                      mixing_time_detected=detected, main_end=diss.main_end)
+    return periods, out, windows
+
+
+def _field_of(name: str, last: bool) -> str:
+    return f"{name}.start" if name != "dissolution" else ("mixing_time" if not last else "after_period")
+
+
+def _mixing_time(spec: RunSpec, t: np.ndarray, y: np.ndarray, first_heater: float,
+                 src: str) -> tuple[float, float, bool]:
+    if spec.mixing_time is not None:
+        t_m = spec.mixing_time.m_as("s")
+        if not t[0] < t_m < t[-1]:
+            raise InputError(f"mixing_time {t_m:g} s lies outside the log ({t[0]:g} s to {t[-1]:g} s)",
+                             field="mixing_time", source=src)
+        return t_m, spec.mixing_time.u_as("s"), False
+    before = t < first_heater
+    if np.count_nonzero(before) < 3 * MIN_WINDOW_POINTS:
+        raise InputError("the heater comes first or too early to find the dissolution in the log; give "
+                         "mixing_time in the run file", field="mixing_time", source=src)
+    t_m, u = detect_mixing_time(t[before], y[before], spec.resolution_K)
+    return t_m, u, True
+
+
+def _dissolution_end(t: np.ndarray, y: np.ndarray, t_m: float, nxt: float, spec: RunSpec, src: str) -> float:
+    """Return where the dissolution has settled, from the log up to the next event."""
+    keep = t < nxt - 1e-9
+    try:
+        p = find_periods(t[keep], y[keep], resolution=spec.resolution_K, mixing_time=t_m, source=src)
+    except InputError:
+        raise InputError(f"too few readings between the dissolution at {t_m:g} s and the next event at {nxt:g} s: "
+                         "leave 5–10 minutes for the dissolution to finish and the drift to settle",
+                         field="mixing_time", source=src) from None
+    if any(w.startswith("the log ends too soon") for w in p.warnings):
+        raise InputError(f"the heater starts at {nxt:g} s, before the dissolution at {t_m:g} s has finished and its "
+                         "drift has settled: switch the heater on later (about 10 release time constants and 3–5 "
+                         "minutes of steady drift after the dissolution)", field="mixing_time", source=src)
+    return p.main_end
+
+
+# ------------------------------------------------------------------ the shared fit
+
+
+def _window_model(params: np.ndarray, j: int, t: np.ndarray, c: float, t_ref: float) -> np.ndarray:
+    level, a, k = params[j], params[-2], params[-1]
+    return level + (a - k * (level - t_ref)) * phi(k, t - c)
+
+
+def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[float, float]],
+               resolution: float) -> SharedFit:
+    """Fit one Newtonian drift law to every window and return each event's corrected ΔT."""
+    t, y = readings.time_s, readings.temperature_K
+    masks = [(t >= a - 1e-9) & (t <= b + 1e-9) for a, b in windows]
+    # each window's level sits next to the event it borders: the end of the fore window, else the start
+    refs = [windows[0][1]] + [w[0] for w in windows[1:]]
+    lines = [fit_line(t[m], y[m]) for m in masks]
+    t_ref = float(np.mean([ln.a for ln in lines]))
+    x0 = np.array([ln.at(r) for ln, r in zip(lines, refs)] + [float(np.mean([ln.b for ln in lines])), 0.0])
+    tw = [t[m] for m in masks]
+    yw = [y[m] for m in masks]
+
+    def resid(p: np.ndarray) -> np.ndarray:
+        return np.concatenate([_window_model(p, j, tw[j], refs[j], t_ref) - yw[j] for j in range(len(tw))])
+
+    scale = np.array([0.01] * len(windows) + [1e-4, 1e-4])
+    sol = least_squares(resid, x0, x_scale=scale, method="lm")
+    p = sol.x
+    r = resid(p)
+    jac = sol.jac
+    n, npar = r.size, p.size
+    omega, start, rhos, sds = np.empty(n), 0, [], []
+    for j in range(len(tw)):
+        rj = r[start:start + tw[j].size]
+        rho = lag1_autocorrelation(rj)
+        var = inflation(rho) * float(np.dot(rj, rj)) / max(rj.size - npar / len(tw), 1.0)
+        # a staircase of readings scatters less than its quantisation error: floor at q²/12 (GUM F.2.2.1)
+        var = max(var, resolution**2 / 12.0)
+        omega[start:start + rj.size] = var
+        rhos.append(rho)
+        sds.append(math.sqrt(float(np.dot(rj, rj)) / max(rj.size - 2, 1)))
+        start += rj.size
+    try:
+        a_inv = np.linalg.inv(jac.T @ jac)
+        cov = a_inv @ (jac.T @ (jac * omega[:, None])) @ a_inv
+    except np.linalg.LinAlgError:
+        raise AnalysisError(f"{readings.source}: the drift windows do not determine a drift law") from None
+    values, grads, levels, extra = [], [], [], []
+    for i, ev in enumerate(events):
+        f = _event_delta_t(t, y, ev, i, refs, t_ref)
+        values.append(f(p))
+        grads.append(_gradient(f, p, cov))
+        levels.append((float(_window_model(p, i, np.array([ev.start]), refs[i], t_ref)[0]),
+                       float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])))
+        inner = (t > ev.start) & (t < ev.main_end)
+        extra.append(_inner_weights(t[inner], ev.start, ev.main_end))
+    g = np.array(grads)
+    cov_dt = g @ cov @ g.T
+    k = float(p[-1])
+    s = float(np.sqrt(np.mean(omega)))
+    for i, w in enumerate(extra):  # the readings inside each main period carry their own noise
+        cov_dt[i, i] += (k * s) ** 2 * float(np.dot(w, w))
+    res_u = [resolution_term(resolution, sd) for sd in sds]
+    return SharedFit(list(windows), list(events), p, cov, t_ref, np.array(values), cov_dt, levels, res_u,
+                     float(np.sqrt(float(np.dot(r, r)) / max(n - npar, 1))), max(rhos))
+
+
+def _inner_weights(tt: np.ndarray, a: float, b: float) -> np.ndarray:
+    x = np.concatenate([[a], tt, [b]])
+    d = np.diff(x)
+    w = np.zeros(x.size)
+    w[:-1] += 0.5 * d
+    w[1:] += 0.5 * d
+    return w[1:-1]
+
+
+def _event_delta_t(t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[float], t_ref: float):  # noqa: ANN202
+    inner = (t > ev.start) & (t < ev.main_end)
+    tt, yy = t[inner], y[inner]
+    w = _inner_weights(tt, ev.start, ev.main_end)
+    span = ev.main_end - ev.start
+    x_all = np.concatenate([[ev.start], tt, [ev.main_end]])
+    w_a = 0.5 * (x_all[1] - x_all[0])
+    w_b = 0.5 * (x_all[-1] - x_all[-2])
+    inner_sum = float(np.dot(w, yy))
+
+    def f(p: np.ndarray) -> float:
+        t_i = float(_window_model(p, i, np.array([ev.start]), refs[i], t_ref)[0])
+        t_f = float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])
+        a, k = p[-2], p[-1]
+        integral_t = inner_sum + w_a * t_i + w_b * t_f
+        return (t_f - t_i) - (a * span - k * (integral_t - t_ref * span))
+
+    return f
+
+
+def _gradient(f: Any, p: np.ndarray, cov: np.ndarray) -> np.ndarray:
+    g = np.empty(p.size)
+    sd = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    for i in range(p.size):
+        h = sd[i] * 1e-3 if sd[i] > 0 and math.isfinite(sd[i]) else 1e-8 * max(abs(p[i]), 1.0)
+        hi, lo = p.copy(), p.copy()
+        hi[i] += h
+        lo[i] -= h
+        g[i] = (f(hi) - f(lo)) / (2 * h)
+    return g
+
+
+# ------------------------------------------------------------------ the measurement model
+
+
+def _insitu_inputs(spec: RunSpec, fit: SharedFit) -> list[Input]:
+    """Return the primary inputs: each event's ΔT, the drift components, resolutions, method terms, heaters, mass."""
+    names = [e.name for e in fit.events]
+    n_ev = len(names)
+    formula = spec.get("solute", "formula")
+    purity = spec.get("solute", "purity")
+    inputs: list[Input] = []
+    for i, name in enumerate(names):
+        key = "delta_t.fit" if name == "dissolution" else f"delta_t.{name}.fit"
+        inputs.append(Input(key, float(fit.delta_t[i]), 0.0, "K", label=f"corrected ΔT of the {name.replace('_', ' ')}"))
+    for j in range(n_ev):
+        inputs.append(Input(f"drift.component_{j + 1}", 0.0, 1.0, "1",
+                            label=f"shared drift fits, independent component {j + 1} of the ΔT covariance"))
+    for j, u in enumerate(fit.resolution_u):
+        inputs.append(Input(f"resolution.window_{j}", 0.0, u, "K", "rectangular",
+                            label=f"thermometer resolution, level of drift window {j}"))
+    for i, name in enumerate(names):
+        term = METHOD_TERMS["regnault-pfaundler"] * abs(float(fit.delta_t[i])) / math.sqrt(3.0)
+        inputs.append(Input(f"method.{name}", 0.0, term, "K", "rectangular", label=f"ΔT method term, {name.replace('_', ' ')}"))
+    heaters = [n for n in names if n != "dissolution"]
+    for h in heaters:
+        for field, unit, label in (("voltage", "V", "voltage"), ("current", "A", "current"), ("duration", "s", "heating time")):
+            m = spec.get(h, field)
+            inputs.append(Input(f"{h}.{field}", m.m_as(unit), m.u_as(unit), unit,
+                                "normal" if m.distribution == "normal" else "rectangular", label=f"{h.replace('_', ' ')} {label}"))
+    mass = spec.get("solute", "mass")
+    inputs.append(Input("solute.mass", mass.m_as("g"), mass.u_as("g"), "g",
+                        "normal" if mass.distribution == "normal" else "rectangular", label=f"mass of {formula}"))
+    if purity is not None:
+        inputs.append(Input("solute.purity", purity.value, purity.u_as(""), "", label="solute purity (mass fraction)"))
+    return inputs
+
+
+def build_insitu_model(spec: RunSpec, fit: SharedFit, props: Properties) -> ModelSpec:
+    """Return the inputs and model: C from the heater pulse(s), ΔH = −C ΔT_dissolution / n."""
+    names = [e.name for e in fit.events]
+    chol = np.linalg.cholesky(fit.cov_delta_t + np.eye(len(names)) * 1e-18)
+    formula = spec.get("solute", "formula")
+    M = molar_mass(formula, field="solute.formula", source=spec.source)
+    purity = spec.get("solute", "purity")
+    mass = spec.get("solute", "mass")
+    heaters = [n for n in names if n != "dissolution"]
+    inputs = _insitu_inputs(spec, fit)
+
+    def delta_t(x: Any, i: int) -> Any:
+        name = names[i]
+        base = x["delta_t.fit" if name == "dissolution" else f"delta_t.{name}.fit"]
+        for j in range(i + 1):
+            if chol[i, j] != 0.0:
+                base = base + chol[i, j] * x[f"drift.component_{j + 1}"]
+        return base + x[f"resolution.window_{i + 1}"] - x[f"resolution.window_{i}"] + x[f"method.{name}"]
+
+    d_index = names.index("dissolution")
+
+    def model(x: Any) -> dict[str, Any]:
+        caps = [x[f"{h}.voltage"] * x[f"{h}.current"] * x[f"{h}.duration"] / delta_t(x, names.index(h))
+                for h in heaters]
+        c_total = caps[0] if len(caps) == 1 else (caps[0] + caps[1]) * 0.5
+        dT = delta_t(x, d_index)
+        heat = c_total * dT
+        w = x["solute.purity"] if "solute.purity" in x else 1.0
+        n = x["solute.mass"] * w / M
+        return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / n / 1000.0,
+                "heat_capacity_total": c_total}
+
+    water = spec.get("water", "volume")
+    water_g = water.m_as("mL") * props.values["water.density"][0] if water is not None else None
+    n_mol = mass.m_as("g") * (purity.value if purity is not None else 1.0) / M
+    t_i, t_f = fit.levels[d_index]
+    before = [h for h in heaters if names.index(h) < d_index]
+    after = [h for h in heaters if names.index(h) > d_index]
+    t_ref = t_i if not before else (t_f if not after else 0.5 * (t_i + t_f))
+    where = {True: "start", False: "end"}[not before] if not (before and after) else "middle"
+    return ModelSpec(inputs, model, "molar_enthalpy", "kJ/mol",
+                     amount_note=(f"per mole of {formula} dissolved; heat capacity of cup + contents from the "
+                                  f"heater ({', '.join(heaters)}); ΔH at the dissolution's {where} temperature"),
+                     molality=n_mol / (water_g / 1000.0) if water_g else None, reference_temperature=t_ref,
+                     extra={"molar_mass_g_mol": M, "amount_mol": n_mol})
+
+
+def dissolution_delta_t(fit: SharedFit) -> DeltaT:
+    """Return the dissolution's ΔT as a :class:`DeltaT` (for reports, plots and checks)."""
+    names = [e.name for e in fit.events]
+    i = names.index("dissolution")
+    value = float(fit.delta_t[i])
+    t_i, _t_f = fit.levels[i]
+    construction = {"t_i": fit.events[i].start, "t_f": fit.events[i].main_end, "k_per_s": fit.k,
+                    "shared_windows": [list(w) for w in fit.windows],
+                    "events": [{"name": e.name, "start": e.start, "main_end": e.main_end,
+                                "delta_t": float(fit.delta_t[j]),
+                                "u_fit": float(math.sqrt(max(fit.cov_delta_t[j, j], 0.0)))}
+                               for j, e in enumerate(fit.events)],
+                    "correlation": _correlation(fit.cov_delta_t).tolist(),
+                    "residual_sd_K": fit.residual_sd, "autocorrelation": fit.rho}
+    return DeltaT(method="regnault-pfaundler", value=value, u_fit=math.sqrt(max(fit.cov_delta_t[i, i], 0.0)),
+                  dof_fit=math.inf, u_resolution_start=fit.resolution_u[i], u_resolution_end=fit.resolution_u[i + 1],
+                  u_method=METHOD_TERMS["regnault-pfaundler"] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,
+                  start_temperature=t_i, u_start_temperature=math.sqrt(max(fit.cov[i, i], 0.0)),
+                  end_temperature=t_i + value, construction=construction)
+
+
+def _correlation(cov: np.ndarray) -> np.ndarray:
+    d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
+    return cov / np.outer(d, d)
+
+
+def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, monte_carlo_trials: int,
+                   seed: int | None, fore: tuple[float, float] | None, after: tuple[float, float] | None,
+                   with_reference: bool, calorimeter_type: str | None,
+                   history: Any) -> Any:
+    """Analyse a dissolution-with-calibration run end to end; return a :class:`calc.analysis.Analysis`."""
+    from dataclasses import replace
+
+    from calc import analysis as an
+    from calc.checks import run_checks
+    from calc.uncertainty.gum import monte_carlo, propagate
+
+    if (method or spec.method or "regnault-pfaundler") != "regnault-pfaundler":
+        raise InputError("a dissolution-with-calibration run is analysed with regnault-pfaundler only (one drift "
+                         "law shared by the dissolution and the heater); leave method out", field="method",
+                         source=spec.source)
+    spec = replace(spec, fore_period=fore or spec.fore_period, after_period=after or spec.after_period)
+    periods, events, windows = insitu_periods(spec, readings)
+    fit = shared_fit(readings, events, windows, spec.resolution_K)
+    dt = dissolution_delta_t(fit)
+    if not math.isfinite(dt.value) or dt.value == 0.0:
+        raise AnalysisError(f"{readings.source}: no usable temperature change was found at the dissolution")
+    for ev, value in zip(events, fit.delta_t):
+        if ev.name != "dissolution" and not value > 0:
+            raise AnalysisError(f"{readings.source}: the {ev.name.replace('_', ' ')} pulse at {ev.start:g} s gave no "
+                                "temperature rise; check its start time and duration")
+    props = Properties()
+    water_density = spec.get("water", "density")
+    if water_density is not None:
+        props.add("water.density", water_density.m_as("g/mL"), water_density.u_as("g/mL"), "g/mL", "run file")
+    else:
+        from calc.refdata.properties import water_density as iapws
+
+        pv = iapws(dt.start_temperature)
+        props.add("water.density", pv.value, pv.u, "g/mL", f"{pv.model} at {dt.start_temperature - 273.15:.1f} °C")
+    model = build_insitu_model(spec, fit, props)
+    gum = propagate(model.inputs, model.model, model.main)
+    warnings = list(periods.warnings) + _fit_warnings(fit)
+    mc = None
+    if monte_carlo_trials and monte_carlo_trials > 0:
+        mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
+        if not mc.agrees:
+            warnings.append(f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] kJ/mol differs from the GUM "
+                            "interval by more than the tolerance; report the Monte Carlo interval")
+    result = an.Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
+    if with_reference:
+        an._attach_reference(result)
+    result.checks = run_checks(result, calorimeter_type=calorimeter_type, history=history,
+                               reference=an._run_reference(spec))
+    return result
+
+
+def _fit_warnings(fit: SharedFit) -> list[str]:
+    out = []
+    u_k = math.sqrt(max(fit.cov[-1, -1], 0.0))
+    if fit.k < 0 and abs(fit.k) > 2 * u_k:
+        out.append("the shared drift is not Newtonian (exchange constant k < 0): a room temperature change or an "
+                   "unfinished process between the events?")
+    return out
