@@ -96,7 +96,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
     for path in runs:
         try:
             a = analyze_run(path, method=method, monte_carlo_trials=trials, seed=seed, source=path,
-                            with_reference=not as_json)
+                            with_reference=True)
         except CupcalError as exc:
             failed += 1
             if as_json:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 
+from calc.compare import verdict
 from calc.report import format_value
 from flask import Flask
 
@@ -28,4 +29,5 @@ def init_app(app: Flask) -> None:
     """Register the filters and the sign-out form every page shows."""
     app.jinja_env.filters["pm"] = pm
     app.jinja_env.filters["when"] = when
+    app.jinja_env.filters["verdict"] = verdict
     app.jinja_env.globals["signout_form"] = ConfirmForm

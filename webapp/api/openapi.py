@@ -94,7 +94,7 @@ SCHEMAS: dict[str, Any] = {
         "dof_eff": {"type": ["number", "null"]},
         "periods": {"type": "object"}, "budget": {"type": "array", "items": {"type": "object"}},
         "warnings": {"type": "array", "items": {"type": "string"}},
-        "comparison": {"type": ["object", "null"]}, "cautions": {"type": "array", "items": {"type": "object"}},
+        "comparison": {"type": ["object", "null"]}, "verdict": {"type": ["object", "null"]}, "cautions": {"type": "array", "items": {"type": "object"}},
         "construction": {"type": "object"}, "properties": {"type": "object"},
         "monte_carlo": {"type": ["object", "null"]}, "record": {"type": "object"},
         "software_version": {"type": "string"}, "created_by": _ref("Ref")}}]},

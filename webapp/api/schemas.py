@@ -5,6 +5,8 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
+from calc.compare import verdict
+from calc.compare import verdict_record
 from flask import url_for
 
 from webapp.models import Calibration
@@ -111,6 +113,7 @@ def result_json(r: Result) -> dict[str, Any]:
         "budget": r.budget,
         "warnings": r.warnings,
         "comparison": r.comparison,
+        "verdict": verdict_record(verdict(r.comparison)),
         "cautions": r.cautions,
         "construction": r.construction,
         "properties": r.properties,

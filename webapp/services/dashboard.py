@@ -7,8 +7,8 @@ Results are compared within one *measurement*: the same kind and the same refere
 
 Flags (each with a plain message):
 
-* ``En``: |E_n| > 1 against the reference (ISO 13528; the adjusted E_n when the reference was
-  carried to the run's conditions).
+* ``En``: |E_n| > 1 in the run's one verdict (:func:`calc.compare.verdict`: against the reference
+  carried to the run's conditions where cupcal can carry it, else against the value as published).
 * ``outlier``: the most distant result of its measurement within the section by Grubbs'
   two-sided test at α = 0.05 (:func:`calc.stats.grubbs`; one test per section and measurement,
   at least 3 results).
@@ -29,6 +29,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc.compare import verdict
 from calc.errors import InputError
 from calc.replicates import shared_type_b
 from calc.stats import grubbs
@@ -49,7 +50,7 @@ from webapp.services.errors import Invalid
 from webapp.services.series import budget_lines
 
 FLAGS: dict[str, str] = {
-    "En": "|En| > 1 against the reference",
+    "En": "|En| > 1 (the verdict against the reference)",
     "outlier": "Grubbs outlier in the section (α = 0.05)",
     "small-dT": "|ΔT| under 10 × the thermometer resolution",
     "drift": "large drift",
@@ -88,6 +89,8 @@ class Row:
     top_share: float = 0.0
     #: shared (non-averaging) Type B part of this run's budget and its degrees of freedom
     type_b: tuple[float, float] = (0.0, math.inf)
+    #: the one verdict against the reference (calc.compare.verdict), None without a reference
+    verdict: Any = None
 
 
 @dataclasses.dataclass
@@ -108,6 +111,11 @@ class Stats:
     note: str = ""
     reference: float | None = None
     reference_U: float | None = None
+    #: what ``reference`` is: the mean of the runs' verdict references, and how they were judged
+    reference_label: str = ""
+    #: the value as published (context, no verdict) and its state ("infinite dilution")
+    published: float | None = None
+    published_state: str = ""
 
 
 @dataclasses.dataclass
@@ -156,8 +164,15 @@ def _first_calibrations(session: so.Session, calorimeter_ids: set[int]) -> dict[
 
 
 def _measurement(kind: str, comparison: dict[str, Any] | None) -> str:
+    """Return what a result measures: its kind and its reference's name, without the published state.
+
+    The state (", infinite dilution") is left out because the verdict is judged at each run's own
+    conditions where cupcal can carry the reference there; the published value is context.
+    """
     ref = (comparison or {}).get("reference") or {}
     name = ref.get("name") if isinstance(ref, dict) else None
+    if isinstance(name, str):
+        name = name.replace(", infinite dilution", "")
     return f"{kind} · {name}" if name else kind
 
 
@@ -171,14 +186,16 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
          comparison, budget, resolution) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
-        en = comp.get("En_adjusted") if comp.get("En_adjusted") is not None else comp.get("En")
-        ref = comp.get("reference") or {}
-        refv = comp.get("adjusted_reference") if comp.get("adjusted_reference") is not None else ref.get("value")
+        vd = verdict(comp)
+        en = vd.En if vd is not None else None
         row = Row(rid, title, kind, sid, names.get(sid, ""), gname, bench or "", _measurement(kind, comp),
-                  _unit(main), value, u, U, dT, resolution, en, refv, comp.get("U_reference"))
-        if en is not None and abs(en) > 1:
+                  _unit(main), value, u, U, dT, resolution, en, vd.reference if vd else None,
+                  vd.U_reference if vd else None)
+        row.verdict = vd
+        if vd is not None and not vd.satisfactory:
             row.flags.append("En")
-            row.notes["En"] = f"En = {en:+.2f}: the result and the reference differ by more than their uncertainties allow"
+            row.notes["En"] = (f"E_n = {en:+.2f} against the {vd.label}: the result and the reference differ by more "
+                               "than their uncertainties allow")
         if resolution is not None and abs(dT) < 10 * resolution:
             row.flags.append("small-dT")
             row.notes["small-dT"] = f"|ΔT| = {abs(dT):.3g} K is under 10 × the resolution {resolution:g} K"
@@ -238,10 +255,16 @@ def statistics(rows: list[Row]) -> list[Stats]:
         for m in members:
             cells[(m.section_id, m.group)].append(m.value)
         st = Stats(meas, members[0].unit, n, len(cells), mean, sd)
-        refs = Counter(m.reference for m in members if m.reference is not None)
-        if refs:
-            st.reference = refs.most_common(1)[0][0]
-            st.reference_U = next((m.reference_U for m in members if m.reference == st.reference), None)
+        judged = [m for m in members if m.verdict is not None]
+        if judged:
+            st.reference = sum(m.verdict.reference for m in judged) / len(judged)
+            st.reference_U = sum(m.verdict.U_reference for m in judged) / len(judged)
+            bases = {m.verdict.basis for m in judged}
+            st.reference_label = ("reference at the runs' conditions (mean)" if bases == {"conditions"} else
+                                  "reference as published" if bases == {"published"} else
+                                  "reference at the runs' conditions where known, else as published (mean)")
+            st.published = judged[0].verdict.published
+            st.published_state = judged[0].verdict.published_state
         try:
             p = iso5725(list(cells.values()))
             st.s_r, st.s_L, st.s_R, st.r, st.R = p.s_r, p.s_L, p.s_R, p.r, p.R
