@@ -62,7 +62,7 @@ def dashboard_json(board: Dashboard) -> dict[str, Any]:
     """Return a dashboard as JSON data."""
     return {"title": board.title, "sort": board.sort, "descending": board.descending,
             "flag_counts": board.flag_counts, "statistics": [dataclasses.asdict(s) for s in board.stats],
-            "feedback": board.feedback, "rows": [dataclasses.asdict(r) for r in board.rows]}
+            "feedback": board.feedback, "common_feedback": board.common_feedback, "rows": [dataclasses.asdict(r) for r in board.rows]}
 
 
 def _sort() -> tuple[str | None, bool]:

@@ -25,6 +25,7 @@ import dataclasses
 import math
 from collections import Counter
 from collections import defaultdict
+from types import SimpleNamespace
 from typing import Any
 
 import sqlalchemy as sa
@@ -41,12 +42,15 @@ from webapp.models import Person
 from webapp.models import Result
 from webapp.models import Run
 from webapp.models import RunInput
+from webapp.models import RunReview
 from webapp.models import Section
 from webapp.services.analysis import NEEDS_HEAT_CAPACITY
 from webapp.services.classes import get_course
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
 from webapp.services.errors import Invalid
+from webapp.services.review import included_in_statistics
+from webapp.services.review import run_flagged
 from webapp.services.series import budget_lines
 
 FLAGS: dict[str, str] = {
@@ -56,6 +60,7 @@ FLAGS: dict[str, str] = {
     "drift": "large drift",
     "short-after": "short after period",
     "no-calibration": "no calibration of the calorimeter on record",
+    "check": "a plausibility check flagged the run (not yet accepted by staff)",
 }
 SORT_KEYS = ("group", "run", "value", "uncertainty", "en", "delta_t", "flags", "section")
 GRUBBS_ALPHA = 0.05
@@ -91,6 +96,11 @@ class Row:
     type_b: tuple[float, float] = (0.0, math.inf)
     #: the one verdict against the reference (calc.compare.verdict), None without a reference
     verdict: Any = None
+    #: counts in statistics and marks (services.review.included_in_statistics)
+    included: bool = True
+    #: "withdrawn", "excluded" or "" (with the reason given)
+    status: str = ""
+    status_reason: str = ""
 
 
 @dataclasses.dataclass
@@ -129,6 +139,8 @@ class Dashboard:
     flag_counts: dict[str, int]
     sort: str
     descending: bool
+    #: feedback that every group gets, said once above the groups' own
+    common_feedback: list[str] = dataclasses.field(default_factory=list)
 
 
 def _unit(main: str) -> str:
@@ -143,13 +155,21 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
             Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
             Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
             Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.budget, res_in.value,
+            Result.budget, res_in.value, RunReview.withdrawn, RunReview.withdrawn_reason, RunReview.excluded,
+            RunReview.excluded_reason, RunReview.accepted, included_in_statistics().label("included"),
+            *_checks_column(),
         )
+        .outerjoin(RunReview, RunReview.run_id == Run.id)
         .join(Group, Group.id == Run.group_id)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
         .outerjoin(res_in, sa.and_(res_in.run_id == Run.id, res_in.field == "thermometer.resolution"))
         .where(Group.section_id.in_(section_ids))
     )
+
+
+def _checks_column() -> list[Any]:
+    checks = getattr(Result, "checks", None)
+    return [checks] if checks is not None else []
 
 
 def _first_calibrations(session: so.Session, calorimeter_ids: set[int]) -> dict[int, Any]:
@@ -183,7 +203,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
     for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, budget, resolution) in raw:
+         comparison, budget, resolution, withdrawn, w_reason, excluded, x_reason, accepted, included, *checks) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
         vd = verdict(comp)
@@ -192,6 +212,14 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                   _unit(main), value, u, U, dT, resolution, en, vd.reference if vd else None,
                   vd.U_reference if vd else None)
         row.verdict = vd
+        row.included = bool(included)
+        if withdrawn:
+            row.status, row.status_reason = "withdrawn", w_reason or ""
+        elif excluded:
+            row.status, row.status_reason = "excluded", x_reason or ""
+        if run_flagged(SimpleNamespace(checks=checks[0] if checks else None)) and not accepted:
+            row.flags.append("check")
+            row.notes["check"] = "a plausibility check flagged this run; staff may accept it after a look"
         if vd is not None and not vd.satisfactory:
             row.flags.append("En")
             row.notes["En"] = (f"E_n = {en:+.2f} against the {vd.label}: the result and the reference differ by more "
@@ -226,7 +254,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
 def _grubbs_flags(rows: list[Row]) -> None:
     cells: dict[tuple[Any, str], list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None:
+        if r.value is not None and r.included:
             cells[(r.section_id, r.measurement)].append(r)
     for members in cells.values():
         if len(members) < 3:
@@ -240,10 +268,10 @@ def _grubbs_flags(rows: list[Row]) -> None:
 
 
 def statistics(rows: list[Row]) -> list[Stats]:
-    """Return the statistics of each measurement (most results first)."""
+    """Return the statistics of each measurement (most results first), of the included runs only."""
     by: dict[str, list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None:
+        if r.value is not None and r.included:
             by[r.measurement].append(r)
     out: list[Stats] = []
     for meas, members in sorted(by.items(), key=lambda kv: -len(kv[1])):
@@ -305,6 +333,7 @@ _FLAG_ADVICE = {
                    "has settled.",
     "no-calibration": "The calorimeter you used has no calibration on record: calibrate it (or have it calibrated) and "
                       "name it in the run file.",
+    "check": "A plausibility check flagged a run: look at the run page's checks and correct what was entered wrongly.",
 }
 
 
@@ -315,32 +344,59 @@ def _advice(name: str) -> str:
     return "give this input with a smaller uncertainty"
 
 
-def group_feedback(rows: list[Row]) -> dict[str, list[str]]:
-    """Return plain-words feedback per group from its runs' budgets and flags."""
+def _feedback_items(members: list[Row]) -> list[tuple[tuple[str, ...], str, str]]:
+    """Return a group's feedback as (key, what every group would read, what is specific to this group)."""
+    items: list[tuple[tuple[str, ...], str, str]] = []
+    tops = Counter(m.top_input for m in members if m.top_input)
+    if tops:
+        name, count = tops.most_common(1)[0]
+        ex = next(m for m in members if m.top_input == name)
+        shares = [m.top_share for m in members if m.top_input == name]
+        label = ex.top_label or name
+        items.append((("top", name),
+                      f"The largest part of the uncertainty came from the {label}. Next time: {_advice(name)}.",
+                      f"In {count} of your {len(members)} run(s) the largest part of the uncertainty came from the "
+                      f"{label} (about {100 * sum(shares) / len(shares):.0f} % of the variance). "
+                      f"Next time: {_advice(name)}."))
+    flags = Counter(f for m in members for f in m.flags)
+    for flag in FLAGS:
+        if flags.get(flag):
+            runs = ", ".join(f"#{m.run_id}" for m in members if flag in m.flags)
+            items.append((("flag", flag), _FLAG_ADVICE[flag], f"{_FLAG_ADVICE[flag]} (run {runs})"))
+    if not flags:
+        items.append((("clean",), "No flags: the runs agree with the reference and with the section.",
+                      "No flags: your runs agree with the reference and with the section."))
+    return items
+
+
+def split_feedback(rows: list[Row]) -> tuple[list[str], dict[str, list[str]]]:
+    """Return the feedback said to every group (once) and, per group, only what is specific to it.
+
+    A point that every group of two or more gets (the same largest uncertainty source, the same
+    flag) goes to the shared list in its general form; a group keeps only its own points. Withdrawn
+    runs give no feedback.
+    """
     by: dict[str, list[Row]] = defaultdict(list)
     for r in rows:
-        by[r.group].append(r)
+        if r.status != "withdrawn":
+            by[r.group].append(r)
+    per = {g: _feedback_items(m) for g, m in sorted(by.items())}
+    shared: list[tuple[str, ...]] = []
+    if len(per) >= 2:
+        keys = [{k for k, _, _ in items} for items in per.values()]
+        first = next(iter(per.values()))
+        shared = [k for k, _, _ in first if all(k in ks for ks in keys)]
+    common = [general for k, general, _ in next(iter(per.values()), []) if k in shared]
     out: dict[str, list[str]] = {}
-    for group, members in sorted(by.items()):
-        lines: list[str] = []
-        tops = Counter(m.top_input for m in members if m.top_input)
-        if tops:
-            name, count = tops.most_common(1)[0]
-            ex = next(m for m in members if m.top_input == name)
-            shares = [m.top_share for m in members if m.top_input == name]
-            lines.append(
-                f"In {count} of your {len(members)} run(s) the largest part of the uncertainty came from the "
-                f"{ex.top_label or name} (about {100 * sum(shares) / len(shares):.0f} % of the variance). "
-                f"Next time: {_advice(name)}.")
-        flags = Counter(f for m in members for f in m.flags)
-        for flag in FLAGS:
-            if flags.get(flag):
-                runs = ", ".join(f"#{m.run_id}" for m in members if flag in m.flags)
-                lines.append(f"{_FLAG_ADVICE[flag]} (run {runs})")
-        if not flags:
-            lines.append("No flags: your runs agree with the reference and with the section.")
-        out[group] = lines
-    return out
+    for group, items in per.items():
+        own = [specific for k, _, specific in items if k not in shared]
+        out[group] = own or ["Nothing beyond the points for every group above."]
+    return common, out
+
+
+def group_feedback(rows: list[Row]) -> dict[str, list[str]]:
+    """Return plain-words feedback per group: only what is specific to it (see :func:`split_feedback`)."""
+    return split_feedback(rows)[1]
 
 
 def _sort_key(sort: str):  # type: ignore[no-untyped-def]
@@ -364,8 +420,9 @@ def _build(title: str, rows: list[Row], sort: str, descending: bool) -> Dashboar
         raise Invalid(f"unknown sort key {sort!r}; expected one of: {', '.join(SORT_KEYS)}", field="sort")
     rows.sort(key=_sort_key(sort), reverse=descending)
     counts = Counter(f for r in rows for f in r.flags)
-    return Dashboard(title, rows, statistics(rows), group_feedback(rows), {f: counts.get(f, 0) for f in FLAGS},
-                     sort, descending)
+    common, feedback = split_feedback(rows)
+    return Dashboard(title, rows, statistics(rows), feedback, {f: counts.get(f, 0) for f in FLAGS},
+                     sort, descending, common)
 
 
 def section_dashboard(session: so.Session, actor: Person, section_id: int, *, sort: str = "group",
