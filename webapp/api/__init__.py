@@ -59,3 +59,4 @@ from webapp.api import classes  # noqa: E402,F401
 from webapp.api import openapi  # noqa: E402,F401
 from webapp.api import runs  # noqa: E402,F401
 from webapp.api import exchange  # noqa: E402,F401
+from webapp.api import review  # noqa: E402,F401
