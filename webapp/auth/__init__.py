@@ -43,3 +43,4 @@ def _unauthorized():  # type: ignore[no-untyped-def]
 
 
 from webapp.auth import views  # noqa: E402,F401  (registers the routes)
+from webapp.auth import accounts  # noqa: E402,F401  (registers the account routes)
