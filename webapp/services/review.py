@@ -139,9 +139,11 @@ def review_run(session: so.Session, actor: Person, run_id: int, action: str, rea
     :raise Invalid: for an unknown action, a missing reason, or accepting a run nothing flagged
     :raise Conflict: when the run is already in that state
     """
+    run = get_run(session, actor, run_id)  # a run one may not see is not found, whatever the form holds
     if action not in ACTIONS:
+        if not is_staff(actor) and run.author_id != actor.id:
+            raise Forbidden("only the run's author or staff may review a run")
         raise Invalid(f"unknown action {action!r}; expected one of: {', '.join(ACTIONS)}", field="action")
-    run = get_run(session, actor, run_id)
     _check_may(actor, run, action)
     text = _reason(reason)
     field, value = ACTIONS[action]
