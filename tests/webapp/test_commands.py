@@ -73,7 +73,7 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
     assert sections == [("Thursday afternoon", "Kestrel A"), ("Thursday afternoon", "Kestrel B"),
                         ("Tuesday morning", "Heron A"), ("Tuesday morning", "Heron B")]
     assert _rows(env, "select count(*) from run_reviews where excluded")[0][0] == 1
-    assert _rows(env, "select count(*) from comments")[0][0] == 3
+    assert _rows(env, "select count(*) from comments")[0][0] == 4
     r = runner.invoke(cli, ["load-demo"])
     assert r.exit_code != 0 and "not empty" in r.output
 

@@ -45,6 +45,7 @@ SECTIONS = (("Tuesday morning", ("Heron A", "Heron B")), ("Thursday afternoon", 
 #: staff comments of the demo: (group, or run file stem, text)
 COMMENTS = (
     ("Heron A", "Both KCl runs have clean, flat drift lines. Next time note the room temperature on the sheet too."),
+    ("Kestrel A", "Your two runs agree within their uncertainties; write down the balance's last digit as you read it."),
     ("Kestrel B", "Run 2 needs a look: see the comment on the run."),
     ("kestrel-b-kcl-2", "The mass reads 0.378 g, ten times less than your other run: check the balance reading "
                         "in your notebook before you repeat it."),
