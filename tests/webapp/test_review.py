@@ -171,3 +171,28 @@ def test_feedback_every_group_shares_is_said_once() -> None:
     assert per["G1"] == ["No flags: your runs agree with the reference and with the section."]
     assert any("drifted" in line and "#2" in line for line in per["G2"])
     assert not any("calorimeter heat capacity" in line for lines in per.values() for line in lines)
+
+
+def test_control_chart_and_plot_leave_excluded_runs_out(client: Any, session: Any, lab: Any) -> None:
+    from webapp.services.control import control_view
+
+    ids = [upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"] for _ in range(3)]
+    coord = session.get(Person, lab.ids["coord"])
+    assert [p["run_id"] for p in control_view(session, coord, lab.calorimeter_id).points] == ids
+    assert _review(client, lab, "tech", ids[1], "exclude", "lid left off").status_code == 200
+    assert _review(client, lab, "a1", ids[2], "withdraw", "duplicate upload").status_code == 200
+    session.expire_all()
+    assert [p["run_id"] for p in control_view(session, coord, lab.calorimeter_id).points] == ids[:1]
+
+
+def test_students_see_only_their_own_groups_marks(client: Any, session: Any, lab: Any, tmp_path: Path) -> None:
+    cl, ids = build_section(session, lab, tmp_path)
+    ada = session.scalar(sa.select(Person).where(Person.email == "ada@lab.example"))  # group M01
+    assert _review(client, lab, "coord", ids["M02-run2.toml"], "exclude", "private reason").status_code == 200
+    session.expire_all()
+    board = section_dashboard(session, ada, cl.section_id)
+    own = [r for r in board.rows if r.group == "M01"]
+    others = [r for r in board.rows if r.group != "M01"]
+    assert own and all(r.mark is not None for r in own)
+    assert others and all(r.mark is None and r.status_reason == "" for r in others)
+    assert any(r.status == "excluded" for r in others)  # that it is excluded is shown, not why

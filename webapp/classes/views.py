@@ -55,7 +55,7 @@ def _plot(board: Dashboard, by_section: bool) -> str | None:
     if not board.stats:
         return None
     st = board.stats[0]
-    rows = sorted((r for r in board.rows if r.measurement == st.measurement and r.value is not None),
+    rows = sorted((r for r in board.rows if r.measurement == st.measurement and r.value is not None and r.included),
                   key=lambda r: r.run_id)
     many = len({r.group for r in rows}) > MAX_PLOT_ROWS
     labels = [r.section if by_section else ("all groups" if many else r.group) for r in rows]

@@ -338,7 +338,17 @@ def section_dashboard(session: so.Session, actor: Person, section_id: int, *, so
     """Return the dashboard of a section (students: only their own section)."""
     section = get_section(session, actor, section_id)
     title = f"{section.course.name} · {section.name}"
-    return _build(title, collect_rows(session, [section]), sort, descending)
+    return _build(title, _for_viewer(actor, collect_rows(session, [section])), sort, descending)
+
+
+def _for_viewer(actor: Person, rows: list[Row]) -> list[Row]:
+    """Keep other groups' marks and review reasons from a student (they see only their own)."""
+    if actor.role != "student":
+        return rows
+    for r in rows:
+        if r.group_id != actor.group_id:
+            r.mark, r.status_reason = None, ""
+    return rows
 
 
 def course_dashboard(session: so.Session, actor: Person, course_id: int, *, sort: str = "section",
