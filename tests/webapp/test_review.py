@@ -196,3 +196,20 @@ def test_students_see_only_their_own_groups_marks(client: Any, session: Any, lab
     assert own and all(r.mark is not None for r in own)
     assert others and all(r.mark is None and r.status_reason == "" for r in others)
     assert any(r.status == "excluded" for r in others)  # that it is excluded is shown, not why
+
+
+@pytest.mark.parametrize(("text", "message"), [
+    ("", "bound=points"), ("1=6, 2=3", "open band"), ("2=3, 1=6, *=0", "increase"), ("1=6, *=0, 2=1", "last band"),
+    ("x=1, *=0", "numbers"), ("1=-2, *=0", "points must be"), ("1=nan, *=0", "points must be"), ("inf=1, *=0", "bound"),
+    ("1=6" + ", 1=6" * 20, "at most"), ("1=6, *=0" + " " * 500, "characters"),
+])
+def test_band_text_is_checked_with_a_clear_message(text: str, message: str) -> None:
+    from webapp.services.errors import Invalid
+    from webapp.services.marks import band_points
+    from webapp.services.marks import parse_bands
+
+    with pytest.raises(Invalid, match=message):
+        parse_bands(text, "en_bands")
+    bands = parse_bands("1=6, 2=3, *=0", "en_bands")
+    # the bound belongs to its band (|E_n| = 1 is satisfactory, ISO 13528)
+    assert [band_points(bands, x) for x in (0.0, 1.0, 1.0001, 2.0, 7.0)] == [6, 6, 3, 3, 0]

@@ -23,6 +23,7 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 from werkzeug.security import check_password_hash
 
+from webapp.models import MAX_ID
 from webapp.models import Group
 from webapp.models import Person
 from webapp.models import SignInLink
@@ -61,7 +62,8 @@ def check_new_password(password: object, confirm: object | None = None, field: s
 def find_person(session: so.Session, key: int | str) -> Person:
     """Return a person by id or e-mail address; :raise NotFound: otherwise."""
     if isinstance(key, int) or (isinstance(key, str) and key.isdigit()):
-        person = session.get(Person, int(key))
+        number = int(key)
+        person = session.get(Person, number) if 0 < number <= MAX_ID else None
     else:
         person = session.scalar(sa.select(Person).where(Person.email == str(key).strip().lower()))
     if person is None:

@@ -18,6 +18,7 @@ import dataclasses
 import math
 from typing import Any
 
+import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from webapp.models import MarkingScheme
@@ -28,6 +29,7 @@ from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
+from webapp.services.errors import Conflict
 from webapp.services.errors import Invalid
 from webapp.services.runs import get_run
 
@@ -37,6 +39,7 @@ DEFAULT_BANDS: dict[str, list[list[Any]]] = {
     "relative": [[2.0, 4.0], [5.0, 2.0], [None, 0.0]],
 }
 MAX_BANDS = 12
+MAX_TEXT = 400
 MAX_POINTS = 1000.0
 
 
@@ -55,6 +58,8 @@ def parse_bands(text: str, field: str) -> list[list[Any]]:
     :raise Invalid: naming ``field`` for a malformed pair, bounds not increasing, or no open band last
     """
     bands: list[list[Any]] = []
+    if len(text or "") > MAX_TEXT:
+        raise Invalid(f"at most {MAX_TEXT} characters", field=field)
     parts = [p.strip() for p in (text or "").replace(";", ",").split(",") if p.strip()]
     if not parts:
         raise Invalid("give the bands as bound=points pairs, e.g. 1=6, 2=3, *=0", field=field)
@@ -140,7 +145,12 @@ def set_scheme(session: so.Session, actor: Person, section_id: int, *, en: str, 
     scheme.updated_at = utcnow()
     scheme.updated_by_id = actor.id
     record_change(session, actor, "section", section.id, "marking_scheme", old, bands)
-    session.commit()
+    try:
+        session.commit()
+    except sa.exc.IntegrityError:  # another coordinator saved the first scheme at the same moment
+        session.rollback()
+        raise Conflict("another marking scheme for this section was saved at the same moment; reload and try again",
+                       field="en_bands") from None
     return scheme
 
 
@@ -188,5 +198,10 @@ def set_mark(session: so.Session, actor: Person, run_id: int, points: float | No
     review.mark_reason = reason.strip()
     review.updated_at = utcnow()
     review.updated_by_id = actor.id
-    session.commit()
+    try:
+        session.commit()
+    except sa.exc.IntegrityError:  # a first decision on the same run saved at the same moment
+        session.rollback()
+        raise Conflict(f"another change to run {run_id} was saved at the same moment; reload and try again",
+                       field="points") from None
     return review
