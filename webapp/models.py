@@ -222,6 +222,8 @@ class Run(Base):
     results: so.Mapped[list[Result]] = so.relationship(
         back_populates="run", order_by="Result.id", foreign_keys="Result.run_id"
     )
+    #: staff's and the author's decisions (withdrawn, excluded, accepted, a mark by hand); None: none yet
+    review: so.Mapped[Optional[RunReview]] = so.relationship(viewonly=True, uselist=False)
 
     @property
     def current_result(self) -> Result | None:

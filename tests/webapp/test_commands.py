@@ -54,6 +54,7 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
     r = runner.invoke(cli, ["load-demo"])
     assert r.exit_code == 0, r.output
     assert "odile.brackwater@ternhollow.example" in r.output and "tern-hollow-demo" in r.output
+    assert "lucan.ferreira-holt@ternhollow.example" in r.output  # a student of the second section
     folder = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
     demo = sorted(p.stem for p in [*folder.glob("*.toml"), *(folder / "class").glob("*.toml")])
     stored = sorted(Path(name).stem for (name,) in _rows(env, "select run_file_name from runs"))
