@@ -48,6 +48,8 @@ def test_withdraw_by_the_author_while_open_and_by_staff_after(client: Any, sessi
     assert _review(client, lab, "a1", run_id, "exclude").status_code == 403  # staff only
     r = _review(client, lab, "a1", run_id, "withdraw", "typed the mass wrong")
     assert r.status_code == 200 and r.get_json()["withdrawn"] and not r.get_json()["included_in_statistics"]
+    shown = client.get(f"/api/runs/{run_id}", headers=lab.auth("a2")).get_json()["review"]
+    assert shown["withdrawn"] and shown["withdrawn_reason"] == "typed the mass wrong"
     assert _review(client, lab, "a1", run_id, "withdraw").status_code == 409  # already withdrawn
     assert _review(client, lab, "a1", run_id, "restore", "it was right after all").status_code == 200
     # once signed, only staff may withdraw

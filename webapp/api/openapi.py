@@ -109,7 +109,8 @@ SCHEMAS: dict[str, Any] = {
         "calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]}, "locked_by": _ref("Ref"),
         "locked_at": {"type": ["string", "null"], "format": "date-time"},
         "inputs": {"type": "array", "items": {"type": "object"}},
-        "results": {"type": "array", "items": _ref("ResultSummary")}}}]},
+        "results": {"type": "array", "items": _ref("ResultSummary")},
+        "review": {"type": "object", "description": "withdrawn, excluded, accepted (with reasons), a mark set by hand"}}}]},
     "AuditEntry": {"type": "object", "properties": {
         "id": {"type": "integer"}, "at": {"type": "string", "format": "date-time"},
         "person": {"type": ["string", "null"]}, "entity": {"type": "string"}, "entity_id": {"type": "integer"},

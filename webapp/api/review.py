@@ -35,7 +35,7 @@ def comment_json(c: Comment) -> dict[str, Any]:
 
 
 def review_json(run_id: int, review: RunReview | None) -> dict[str, Any]:
-    """Return what has been decided on a run as JSON data."""
+    """Return what has been decided on a run as JSON data (the ``review`` of a run's JSON, with its id)."""
     st = state_of(review)
     return {"run_id": run_id, "withdrawn": st.withdrawn, "withdrawn_reason": st.withdrawn_reason,
             "excluded": st.excluded, "excluded_reason": st.excluded_reason, "accepted": st.accepted,
