@@ -11,6 +11,7 @@ import math
 from typing import Any
 
 from calc.analysis import Analysis
+from calc.refdata.comparison import verdict, verdict_lines, verdict_record
 
 __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BUDGET_LINES"]
 
@@ -52,6 +53,7 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "checks": [c.as_dict() for c in analysis.checks],
         **({"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
            if "heat_capacity_total" in analysis.gum.values else {}),
+        "comparison": verdict_record(verdict(analysis.comparison)),
     }
 
 
@@ -129,10 +131,10 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         lines.append(f"                    at {t_ref:.2f} °C{extra}")
     mc = analysis.monte_carlo
     if mc is not None:
-        verdict = "agrees with" if mc.agrees else "DIFFERS from"
+        mc_word = "agrees with" if mc.agrees else "DIFFERS from"
         lines.append(
             f"  Monte Carlo       95 % interval [{mc.low:.{d}f}, {mc.high:.{d}f}] {unit} "
-            f"({mc.trials} trials) {verdict} the GUM interval"
+            f"({mc.trials} trials) {mc_word} the GUM interval"
         )
     lines.append("")
     lines.append("uncertainty budget (largest first):")
@@ -151,14 +153,12 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         lines.append("")
         ref = cmp_.reference
         lines.append(
-            f"reference: {ref.value:.2f} ± {ref.u:.2f} {ref.unit} ({ref.quantity}, "
+            f"reference as published: {ref.value:.2f} ± {ref.u:.2f} {ref.unit} ({ref.quantity}, "
             f"{ref.temperature_K - 273.15:.2f} °C) — {ref.source}"
         )
-        verdict = "satisfactory" if cmp_.satisfactory else "NOT satisfactory"
-        lines.append(
-            f"  difference {cmp_.difference:+.2f} {ref.unit} ({100 * cmp_.relative_difference:+.1f} %), "
-            f"En = {cmp_.En:.2f} ({verdict}, |En| ≤ 1)"
-        )
+        v = verdict(cmp_)
+        if v is not None:
+            lines.extend(f"  {line}" for line in verdict_lines(v))
         for n in cmp_.notes:
             lines.append(f"  note: {n}")
     props = [

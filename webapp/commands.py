@@ -170,7 +170,10 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
 @click.option("--mapping", type=click.Path(exists=True, dir_okay=False, path_type=Path),
               help="CSV mapping run files to groups: columns file, group[, bench].")
 @click.option("--as", "email", required=True, help="E-mail of the coordinator or technician importing.")
-def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str) -> None:
+@click.option("--create-groups", is_flag=True,
+              help="Create the groups that [info] group (or the mapping) names and the section lacks.")
+def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str,
+                   create_groups: bool) -> None:
     """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.
 
     Each run is stored all-or-nothing; importing the same files again changes nothing.
@@ -207,7 +210,7 @@ def import_command(path: Path, section_text: str | None, mapping: Path | None, e
                 with click.progressbar(length=runs_in(files), label="importing runs",
                                        file=sys.stderr) as bar:
                     report = import_files(session, actor, section.id, files, mapping=text,
-                                          progress=lambda _p: bar.update(1))
+                                          progress=lambda _p: bar.update(1), create_groups=create_groups)
             except ServiceError as exc:
                 raise click.ClickException(exc.message) from None
         finally:

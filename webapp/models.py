@@ -93,6 +93,8 @@ class Person(Base):
     group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
     active: so.Mapped[bool] = so.mapped_column(default=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    #: the person chooses a password of their own at the next sign-in (new, reset or link accounts)
+    must_set_password: so.Mapped[bool] = so.mapped_column(default=False, server_default=sa.false())
 
     group: so.Mapped[Optional[Group]] = so.relationship(back_populates="members")
     tokens: so.Mapped[list[ApiToken]] = so.relationship(back_populates="person")
@@ -255,6 +257,8 @@ class Run(Base):
     results: so.Mapped[list[Result]] = so.relationship(
         back_populates="run", order_by="Result.id", foreign_keys="Result.run_id"
     )
+    #: staff's and the author's decisions (withdrawn, excluded, accepted, a mark by hand); None: none yet
+    review: so.Mapped[Optional[RunReview]] = so.relationship(viewonly=True, uselist=False)
 
     @property
     def current_result(self) -> Result | None:
@@ -453,3 +457,76 @@ class WebhookDelivery(Base):
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
     webhook: so.Mapped[Webhook] = so.relationship(back_populates="deliveries")
+
+
+class SignInLink(Base):
+    """A one-time sign-in link handed to one person; only the SHA-256 of its secret is stored."""
+
+    __tablename__ = "sign_in_links"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    person_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
+    token_hash: so.Mapped[str] = so.mapped_column(sa.String(64), unique=True)
+    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    expires_at: so.Mapped[dt.datetime]
+    #: set when the link is used or replaced by a newer one; a link works once
+    used_at: so.Mapped[Optional[dt.datetime]]
+
+    person: so.Mapped[Person] = so.relationship(foreign_keys=[person_id])
+
+
+class RunReview(Base):
+    """Staff's and the author's decisions on a run: withdrawn, excluded, accepted, a mark set by hand.
+
+    Kept apart from the run so that a signed (locked) run can still be withdrawn or excluded by
+    staff; every change is audited on the run (``services.review``).
+    """
+
+    __tablename__ = "run_reviews"
+
+    run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("runs.id"), primary_key=True)
+    withdrawn: so.Mapped[bool] = so.mapped_column(default=False)
+    withdrawn_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    excluded: so.Mapped[bool] = so.mapped_column(default=False)
+    excluded_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    #: a plausibility flag of the current result was looked at and the run accepted
+    accepted: so.Mapped[bool] = so.mapped_column(default=False)
+    accepted_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    #: a mark set by staff in place of the scheme's (None: the scheme's mark)
+    mark_points: so.Mapped[Optional[float]]
+    mark_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    updated_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+
+    run: so.Mapped[Run] = so.relationship()
+
+
+class Comment(Base):
+    """A comment by staff on one run or on one group's work; the group's students read it."""
+
+    __tablename__ = "comments"
+    __table_args__ = (
+        sa.CheckConstraint("(run_id IS NULL) <> (group_id IS NULL)", name="one_target"),
+    )
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    run_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
+    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    author_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"))
+    body: so.Mapped[str] = so.mapped_column(sa.Text)
+    created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+
+    author: so.Mapped[Person] = so.relationship()
+
+
+class MarkingScheme(Base):
+    """A section's marking scheme: bands of |E_n| and of relative error, each with points."""
+
+    __tablename__ = "marking_schemes"
+
+    section_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("sections.id"), primary_key=True)
+    #: {"en": [[upper bound or null, points], ...], "relative": [[bound or null, points], ...]}
+    bands: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON)
+    updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
+    updated_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))

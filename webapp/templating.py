@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
+from calc.refdata.comparison import verdict
 from calc.report import format_value
 from flask import Flask
 
@@ -52,6 +53,7 @@ def init_app(app: Flask) -> None:
         return overdue_note(when, calibration, calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))
 
     app.jinja_env.globals["calibration_overdue"] = overdue
+    app.jinja_env.filters["verdict"] = verdict
     app.jinja_env.globals["signout_form"] = ConfirmForm
     app.jinja_env.globals["run_flagged"] = run_flagged
     app.jinja_env.globals["flagged_checks"] = flagged_checks

@@ -45,8 +45,8 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
     first = True
     for path in runs:
         try:
-            a = analyze_run(path, method=method, monte_carlo_trials=trials, seed=seed, source=path,
-                            with_reference=not as_json)
+            # with the reference in JSON too: its "comparison" carries the same verdict as the text
+            a = analyze_run(path, method=method, monte_carlo_trials=trials, seed=seed, source=path)
         except CupcalError as exc:
             failed += 1
             if as_json:

@@ -58,6 +58,8 @@ COMMANDS: dict[str, CommandEntry] = {
     "export": CommandEntry("webapp.eln_commands:export_command",
                            "Write an .eln archive of runs, a section, a calorimeter or the whole notebook.",
                            needs="flask"),
+    "users": CommandEntry("webapp.user_commands:users",
+                          "List people, set passwords and hand out one-time sign-in links.", needs="flask"),
     "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries.", needs="flask"),
 }
 

@@ -7,7 +7,13 @@ The comparison also says when it is not like for like, and by how much where the
 allow: a temperature away from the reference temperature (Kirchhoff, ΔCp·ΔT), and a
 finite molality against an infinite-dilution value (φ_L) or against another molality
 (φ_L(m) - φ_L(m_ref)). It then gives the reference adjusted to the run's conditions
-and the E_n against that, beside the plain comparison.
+and the E_n against that.
+
+One comparison decides: where the reference can be carried to the run's conditions, the
+adjusted value and its E_n are the verdict (``Comparison.En``, ``difference``,
+``satisfactory``); the value as published (e.g. at infinite dilution) stays as context
+(``En_published``) with no verdict of its own. :func:`verdict` reads the verdict from a
+:class:`Comparison` or from a stored comparison record, so every surface shows the same one.
 """
 
 from __future__ import annotations
@@ -18,16 +24,29 @@ from dataclasses import dataclass, field
 from calc.errors import InputError
 from calc.refdata.reference import ReferenceValue, phi_L
 
-__all__ = ["Comparison", "compare", "TEMPERATURE_NOTE_K"]
+__all__ = ["Comparison", "Verdict", "compare", "verdict", "TEMPERATURE_NOTE_K", "BASIS_LABELS"]
 
 TEMPERATURE_NOTE_K = 1.0  # note a temperature difference from this size on
 FAR_TEMPERATURE_K = 10.0
 MOLALITY_NOTE_REL = 0.05  # note a molality differing by more than 5 % from the reference's
 
 
+#: what the verdict was judged against, as every surface labels it
+BASIS_LABELS = {
+    "conditions": "reference at the run's conditions",
+    "published": "reference as published",
+}
+
+
 @dataclass
 class Comparison:
-    """A measured value set against a reference value (kJ/mol)."""
+    """A measured value set against a reference value (kJ/mol).
+
+    ``difference``, ``relative_difference``, ``En`` and ``satisfactory`` are the verdict: against
+    the reference carried to the run's conditions when cupcal could carry it (``basis`` =
+    "conditions"), else against the value as published (``basis`` = "published"). The
+    ``*_published`` fields compare with the value as published, for context only.
+    """
 
     reference: ReferenceValue
     measured: float
@@ -42,6 +61,84 @@ class Comparison:
     adjusted_u: float | None = None
     En_adjusted: float | None = None
     adjustments: list[str] = field(default_factory=list)
+    basis: str = "published"
+    difference_published: float | None = None
+    relative_difference_published: float | None = None
+    En_published: float | None = None
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """The one judgement of a result against its reference, and the published value as context."""
+
+    basis: str
+    label: str
+    reference: float
+    u_reference: float
+    U_reference: float
+    measured: float
+    U_measured: float
+    difference: float
+    relative_difference: float
+    En: float
+    satisfactory: bool
+    unit: str
+    published: float
+    u_published: float
+    En_published: float | None
+    published_state: str
+
+
+def _get(c: object, key: str) -> object:
+    return c.get(key) if isinstance(c, dict) else getattr(c, key, None)
+
+
+def _finite(x: object) -> float | None:
+    try:
+        v = float(x)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def verdict(comparison: object) -> Verdict | None:
+    """Return the verdict of a :class:`Comparison` or of its stored record (a dict); None when absent.
+
+    Records stored before the verdict moved to the adjusted reference kept the published E_n in
+    ``En`` and the adjusted one in ``En_adjusted``; both forms give the same verdict here.
+    """
+    if not comparison:
+        return None
+    ref = _get(comparison, "reference")
+    x, U = _finite(_get(comparison, "measured")), _finite(_get(comparison, "U_measured"))
+    pub, u_pub = _finite(_get(ref, "value")), _finite(_get(ref, "u"))
+    if ref is None or x is None or U is None or pub is None or u_pub is None:
+        return None
+    unit = str(_get(ref, "unit") or "kJ/mol")
+    molality = _get(ref, "molality")
+    state = "infinite dilution" if molality is None else f"{float(molality):g} mol/kg"  # type: ignore[arg-type]
+    adj, u_adj = _finite(_get(comparison, "adjusted_reference")), _finite(_get(comparison, "adjusted_u"))
+    en_pub = _finite(_get(comparison, "En_published"))
+    if adj is not None and u_adj is not None:
+        basis, value, u = "conditions", adj, u_adj
+        en = _finite(_get(comparison, "En_adjusted"))
+        if en_pub is None:  # an older record: its ``En`` is the published one
+            en_pub = _finite(_get(comparison, "En")) if _finite(_get(comparison, "En_adjusted")) is not None else None
+    else:
+        basis, value, u = "published", pub, u_pub
+        en = _finite(_get(comparison, "En"))
+        en_pub = en
+    if en is None:
+        denom = math.hypot(U, 2.0 * u)
+        if denom == 0.0:
+            return None
+        en = (x - value) / denom
+    diff = x - value
+    return Verdict(basis=basis, label=BASIS_LABELS[basis], reference=value, u_reference=u, U_reference=2.0 * u,
+                   measured=x, U_measured=U, difference=diff,
+                   relative_difference=diff / abs(value) if value else math.nan, En=en,
+                   satisfactory=abs(en) <= 1.0, unit=unit, published=pub, u_published=u_pub,
+                   En_published=en_pub, published_state=state)
 
 
 def _number(x: object, what: str) -> float:
@@ -198,15 +295,70 @@ def compare(
         notes=notes,
         U_reference=U_ref,
         adjustments=adjustments,
+        basis="published",
+        difference_published=diff,
+        relative_difference_published=rel,
+        En_published=En,
     )
     if adjustments:
         adj = x_ref + shift
         u_adj = math.sqrt(u2)
+        en_adj = _en(x - adj, U, 2.0 * u_adj)
         result.adjusted_reference = adj
         result.adjusted_u = u_adj
-        result.En_adjusted = _en(x - adj, U, 2.0 * u_adj)
+        result.En_adjusted = en_adj
+        # the adjusted reference is the one the verdict is judged against
+        result.basis = "conditions"
+        result.difference = x - adj
+        result.relative_difference = (x - adj) / abs(adj) if adj != 0.0 else math.nan
+        result.En = en_adj
+        result.satisfactory = abs(en_adj) <= 1.0
         notes.append(
-            f"reference adjusted to the run's conditions: {adj:.3f} ± {u_adj:.3f} kJ/mol "
-            f"(u), E_n = {result.En_adjusted:+.2f}"
+            f"reference carried to the run's conditions: {adj:.3f} ± {u_adj:.3f} kJ/mol (u); "
+            "this is the value the result is judged against"
         )
     return result
+
+
+def verdict_record(v: Verdict | None) -> dict[str, object] | None:
+    """Return a verdict as JSON-ready data: the judgement, then the published value as context."""
+    if v is None:
+        return None
+
+    def num(x: float | None) -> float | None:
+        return x if x is not None and math.isfinite(x) else None
+
+    return {
+        "judged_against": v.label,
+        "basis": v.basis,
+        "reference": num(v.reference),
+        "reference_standard_uncertainty": num(v.u_reference),
+        "difference": num(v.difference),
+        "relative_difference": num(v.relative_difference),
+        "En": num(v.En),
+        "satisfactory": v.satisfactory,
+        "unit": v.unit,
+        "context": {
+            "reference_as_published": num(v.published),
+            "standard_uncertainty": num(v.u_published),
+            "state": v.published_state,
+            "En": num(v.En_published),
+            "note": "context only; the verdict is the E_n above",
+        },
+    }
+
+
+def verdict_lines(v: Verdict) -> list[str]:
+    """Return the verdict as two lines of plain text (the command line and text exports)."""
+    word = "satisfactory" if v.satisfactory else "NOT satisfactory"
+    lines = [
+        f"verdict against the {v.label}: {v.reference:.3f} ± {v.u_reference:.3f} {v.unit} (u); "
+        f"difference {v.difference:+.2f} {v.unit} ({100 * v.relative_difference:+.1f} %), "
+        f"E_n = {v.En:+.2f} ({word}, |E_n| ≤ 1, ISO 13528)",
+    ]
+    if v.basis == "conditions":
+        ctx = f"context: as published ({v.published_state}) {v.published:.3f} ± {v.u_published:.3f} {v.unit} (u)"
+        if v.En_published is not None:
+            ctx += f", E_n against it {v.En_published:+.2f} (not a verdict: other conditions than the run's)"
+        lines.append(ctx)
+    return lines

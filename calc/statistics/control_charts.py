@@ -13,10 +13,16 @@ rising or falling), written as ``s`` for the chart's σ̂. A rule is flagged at 
 completes its pattern; for the "beyond" rules that point must itself lie beyond the limit, so one
 pattern is not flagged again as the window slides on. Limits should come from about 20 in-control
 points that are not the points being judged.
+
+A robust start (:func:`robust_start`, used by :func:`control_chart` unless ``robust=False``)
+keeps one gross error in the baseline from moving the chart: the baseline points whose modified
+z-score ``|x − median| / (1.4826 · MAD)`` exceeds 3.5 are set aside, and the limits come from
+the remaining, in-control points. 1.4826 = 1/Φ⁻¹(3/4) makes the MAD estimate σ for normal data.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -45,6 +51,9 @@ __all__ = [
     "calibration_status",
     "is_overdue",
     "BASELINE_ADVISED",
+    "MAD_SCALE",
+    "ROBUST_Z",
+    "robust_start",
 ]
 
 #: d₂: mean range of two standard normal values, √2·E|Z| for Z half-normal (= 2/√π ≈ 1.128).
@@ -56,6 +65,10 @@ D4 = 1.0 + 3.0 * D3 / D2
 
 #: In-control baseline points advised for the limits (docs/methods.md §6.2).
 BASELINE_ADVISED = 20
+#: 1/Φ⁻¹(3/4) ≈ 1.4826: the MAD times this estimates σ of normal data.
+MAD_SCALE = 1.0 / float(sps.norm.ppf(0.75))
+#: Modified z-score beyond which a baseline point is set aside (a common cut for gross errors).
+ROBUST_Z = 3.5
 
 #: Rule identifiers and their meaning, in the order they are checked.
 RULES: dict[str, str] = {
@@ -107,6 +120,37 @@ class ControlLimits:
     upper_2s: float
     upper_3s: float
     warnings: tuple[str, ...] = ()
+    #: indices (0-based, within the baseline) of the points the robust start set aside
+    set_aside: tuple[int, ...] = ()
+
+
+def robust_start(baseline: Sequence[float] | np.ndarray) -> tuple[np.ndarray, tuple[int, ...]]:
+    """Return the in-control points of a baseline and the indices of those set aside.
+
+    A point is set aside when its modified z-score ``|x − median| / (MAD_SCALE · MAD)`` exceeds
+    :data:`ROBUST_Z`. With a MAD of zero (more than half the points equal) only points away from
+    the median by more than ROBUST_Z times the scale below are set
+    aside, with 1.2533 times the mean absolute deviation in place of 1.4826 MAD (the usual
+    fallback; 1.2533 = √(π/2) makes it estimate σ for normal data). The points kept stay in time
+    order.
+
+    Raises
+    ------
+    InputError
+        For fewer than 2 points or a non-finite value.
+    """
+    x = _series(baseline, "control-chart baseline", 2)
+    med = float(np.median(x))
+    dev = np.abs(x - med)
+    scale = MAD_SCALE * float(np.median(dev))
+    if scale <= 0:
+        scale = math.sqrt(math.pi / 2.0) * float(np.mean(dev))
+        if scale <= 0:
+            return x, ()
+    keep = dev <= ROBUST_Z * scale
+    if int(keep.sum()) < 2:
+        return x, ()
+    return x[keep], tuple(int(i) for i in np.flatnonzero(~keep))
 
 
 def individuals_limits(baseline: Sequence[float] | np.ndarray) -> ControlLimits:
@@ -224,7 +268,8 @@ class ControlChart:
     moving_range_violations: tuple[int, ...]  # indices i whose |x_i − x_{i−1}| exceeds D₄·MR̄
 
 
-def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Sequence[float]) -> ControlChart:
+def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Sequence[float],
+                  robust: bool = True) -> ControlChart:
     """Build an individuals chart of ``values`` with limits from a baseline.
 
     Parameters
@@ -234,6 +279,9 @@ def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Seque
     baseline:
         The number of leading ``values`` that form the baseline period, or a separate sequence of
         in-control baseline results.
+    robust:
+        Set gross errors in the baseline aside first (:func:`robust_start`); the limits come from
+        the points kept, and ``limits.set_aside`` names the others.
 
     Returns
     -------
@@ -248,7 +296,14 @@ def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Seque
         base = x[: int(baseline)]
     else:
         base = _series(baseline, "control-chart baseline", 2)
+    aside: tuple[int, ...] = ()
+    if robust:
+        base, aside = robust_start(base)
     limits = individuals_limits(base)
+    if aside:
+        note = (f"{len(aside)} baseline point(s) set aside as gross errors (modified z-score > {ROBUST_Z:g}): "
+                + ", ".join(str(i + 1) for i in aside))
+        limits = dataclasses.replace(limits, set_aside=aside, warnings=limits.warnings + (note,))
     mr = np.abs(np.diff(x))
     mr_bad = tuple(int(i) + 1 for i in np.flatnonzero(mr > limits.mr_ucl))
     return ControlChart(limits, tuple(float(v) for v in x), tuple(float(v) for v in mr),

@@ -46,7 +46,7 @@ def test_report_compares_with_the_reference_and_shows_ghs_cautions():
     # HCl + NaOH: ΔrH° = −55.8 kJ/mol at infinite dilution (NBS tables 1982, from memory)
     assert a.comparison is not None
     assert a.comparison.reference.value == pytest.approx(-55.8, abs=0.1)
-    assert "En =" in out
+    assert "E_n =" in out and "verdict against the reference" in out
     # NaOH is classified H314 (severe skin burns and eye damage) under GHS/CLP (from memory)
     assert "H314" in out and "GHS05" in out
     assert out.lower().count("wear eye protection") == 1

@@ -43,9 +43,14 @@ def test_json_record_has_exactly_the_public_keys(run_file):
     rec = json.loads(res.output.strip().splitlines()[0])
     assert set(rec) == {
         "input", "kind", "corrected_delta_t", "heat", "molar_enthalpy", "expanded_uncertainty",
-        "coverage_factor", "method", "budget", "warnings", "checks",
+        "coverage_factor", "method", "budget", "warnings", "checks", "comparison",
     }
     assert rec["input"] == str(run_file)
+    # the verdict in the JSON is the one the text report prints
+    cmp_ = rec["comparison"]
+    assert cmp_["judged_against"] in ("reference at the run's conditions", "reference as published")
+    text = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(run_file)]).output
+    assert f"verdict against the {cmp_['judged_against']}" in text and f"E_n = {cmp_['En']:+.2f}" in text
     assert rec["corrected_delta_t"]["unit"] == "K"
     assert rec["heat"]["unit"] == "J"
     assert rec["molar_enthalpy"]["unit"] == "kJ/mol"

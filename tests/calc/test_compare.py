@@ -64,7 +64,9 @@ def test_finite_molality_against_infinite_dilution_reproduces_srm_1655() -> None
     assert any("infinite dilution" in n and "kJ/mol" in n for n in c.notes)
     assert c.adjusted_reference is not None
     assert abs(c.adjusted_reference - 17.584) <= 2 * math.hypot(c.adjusted_u, 0.0085)
-    assert abs(c.En_adjusted) < abs(c.En)
+    assert abs(c.En_adjusted) < abs(c.En_published)
+    # the verdict is the adjusted comparison; the published one stays as context
+    assert c.basis == "conditions" and c.En == c.En_adjusted and c.satisfactory
 
 
 def test_molality_away_from_a_finite_reference_molality() -> None:
@@ -108,3 +110,44 @@ def test_bad_input_is_an_input_error(x, U, m, T) -> None:
 def test_zero_uncertainty_is_an_input_error() -> None:
     with pytest.raises(InputError):
         compare(10.0, 0.0, _ref(10.0, 0.0), molality=None, T_K=298.15)
+
+
+def test_the_verdict_is_judged_at_the_runs_conditions() -> None:
+    # A KCl run at 21.8 degC and 0.50 mol/kg: the value carried there (Kirchhoff + phi_L) is the
+    # verdict; the infinite-dilution value is context only. E_n per ISO 13528 against the adjusted value.
+    from calc.refdata.comparison import verdict, verdict_record
+
+    ref = solution_enthalpy("KCl")
+    c = compare(17.95, 0.40, ref, molality=0.50, T_K=294.95)
+    v = verdict(c)
+    assert v is not None and v.basis == "conditions" and v.label == "reference at the run's conditions"
+    assert v.reference == pytest.approx(c.adjusted_reference)
+    assert v.En == pytest.approx((17.95 - c.adjusted_reference) / math.hypot(0.40, 2 * c.adjusted_u))
+    assert v.satisfactory and c.satisfactory
+    # against the value as published the same result would fail; that stays context only
+    assert v.En_published is not None and abs(v.En_published) > 1
+    assert v.published == ref.value and v.published_state == "infinite dilution"
+    rec = verdict_record(v)
+    assert rec["En"] == pytest.approx(v.En) and rec["context"]["En"] == pytest.approx(v.En_published)
+
+
+def test_a_stored_record_from_before_the_change_gives_the_same_verdict() -> None:
+    # Older records kept the published E_n in "En" and the adjusted one in "En_adjusted".
+    import dataclasses
+
+    from calc.refdata.comparison import verdict
+
+    c = compare(17.95, 0.40, solution_enthalpy("KCl"), molality=0.50, T_K=294.95)
+    new = dataclasses.asdict(c)
+    old = dict(new, En=c.En_published, difference=c.difference_published, satisfactory=False)
+    for key in ("basis", "En_published", "difference_published", "relative_difference_published"):
+        old.pop(key)
+    a, b = verdict(new), verdict(old)
+    assert a is not None and b is not None
+    assert (a.En, a.satisfactory, a.basis) == (b.En, b.satisfactory, b.basis)
+    assert b.En_published == pytest.approx(c.En_published)
+    # no adjustment possible: the published value is the verdict
+    plain = compare(11.0, 1.0, _ref(10.0, 0.5, formula=None, conditions="invented"), molality=None, T_K=298.15)
+    pv = verdict(dataclasses.asdict(plain))
+    assert pv.basis == "published" and pv.En == pytest.approx(plain.En) and pv.label == "reference as published"
+    assert verdict(None) is None and verdict({}) is None

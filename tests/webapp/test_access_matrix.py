@@ -84,6 +84,14 @@ EXPECTED: dict[tuple[str, str], dict[str, int]] = {
     ("post", "/api/sections/{section_id}/imports"): row(401, 403, 403, 400, 400, 403, 403),
     ("post", "/api/series"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/webhooks"): row(401, 403, 403, 403, 201, 403, 403),
+    # review: the author or staff withdraw (a fresh run of a1's each); staff comment and mark
+    ("post", "/api/runs/{run_id}/review"): row(401, 404, 200, 200, 200, 403, 200),
+    ("get", "/api/runs/{run_id}/comments"): row(401, 404, 200, 200, 200, 200, 200),
+    ("post", "/api/runs/{run_id}/comments"): row(401, 403, 403, 201, 201, 403, 403),
+    ("post", "/api/groups/{group_id}/comments"): row(401, 403, 403, 201, 201, 403, 403),
+    ("put", "/api/runs/{run_id}/mark"): row(401, 403, 403, 200, 200, 403, 403),
+    ("get", "/api/sections/{section_id}/marking-scheme"): row(401, 404, 404, 200, 200, 404, 404),
+    ("put", "/api/sections/{section_id}/marking-scheme"): row(401, 403, 403, 403, 200, 403, 403),
 }
 
 
@@ -121,7 +129,7 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     headers["write"] = {"Authorization": f"Bearer {issue_scoped_token(session, a1, 'm-write', 'write')[1]}"}
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": section_id,
             "run2": run2, "series_id": series_id, "webhook_id": r.get_json()["id"], "calorimeter_id": lab.calorimeter_id,
-            "headers": headers}
+            "group_id": lab.groups["A"], "headers": headers}
 
 
 def _fresh_run(client: Any, lab: Any, w: dict[str, Any]) -> int:
@@ -137,6 +145,7 @@ def _fresh_webhook(client: Any, lab: Any, w: dict[str, Any]) -> int:
 FRESH: dict[tuple[str, str], tuple[str, Callable[..., int]]] = {
     ("post", "/api/runs/{run_id}/lock"): ("run_id", _fresh_run),
     ("delete", "/api/webhooks/{webhook_id}"): ("webhook_id", _fresh_webhook),
+    ("post", "/api/runs/{run_id}/review"): ("run_id", _fresh_run),
 }
 
 #: request bodies (``who`` keeps names unique between callers); the rest send none
@@ -157,6 +166,12 @@ BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] =
     ("post", "/api/packages"): lambda who, w: {"json": {}},
     ("post", "/api/rosters"): lambda who, w: {"json": {}},
     ("post", "/api/plan"): lambda who, w: {"json": {}},
+    ("post", "/api/runs/{run_id}/review"): lambda who, w: {"json": {"action": "withdraw", "reason": f"by {who}"}},
+    ("post", "/api/runs/{run_id}/comments"): lambda who, w: {"json": {"body": f"seen by {who}"}},
+    ("post", "/api/groups/{group_id}/comments"): lambda who, w: {"json": {"body": f"seen by {who}"}},
+    ("put", "/api/runs/{run_id}/mark"): lambda who, w: {"json": {"points": 5, "reason": f"by {who}"}},
+    ("put", "/api/sections/{section_id}/marking-scheme"): lambda who, w: {"json": {"en": "1=6, *=0",
+                                                                                 "relative": "5%=2, *=0"}},
     ("post", "/api/sections/{section_id}/imports"): lambda who, w: {
         "data": {"archive": (io.BytesIO(b""), "empty.zip")}, "content_type": "multipart/form-data"},
     ("post", "/api/eln-imports"): lambda who, w: {
@@ -179,7 +194,7 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "series_id", "webhook_id",
-                                "calorimeter_id")} | PATH_VALUES
+                                "calorimeter_id", "group_id")} | PATH_VALUES
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)

@@ -54,7 +54,9 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
     r = runner.invoke(cli, ["load-demo"])
     assert r.exit_code == 0, r.output
     assert "odile.brackwater@ternhollow.example" in r.output and "tern-hollow-demo" in r.output
-    demo = sorted(p.stem for p in (Path(__file__).resolve().parents[2] / "fixtures" / "demo").glob("*.toml"))
+    assert "lucan.ferreira-holt@ternhollow.example" in r.output  # a student of the second section
+    folder = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
+    demo = sorted(p.stem for p in [*folder.glob("*.toml"), *(folder / "class").glob("*.toml")])
     stored = sorted(Path(name).stem for (name,) in _rows(env, "select run_file_name from runs"))
     assert stored == demo
     assert _rows(env, "select count(*) from results")[0][0] == len(demo)
@@ -63,8 +65,16 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
     assert any(n.startswith("electrical-calibration run") for n in notes)
     assert any(n.startswith("mixing-calibration run") for n in notes)
     # the students own their runs and their groups see them
-    owners = _rows(env, "select p.name from runs r join people p on p.id = r.author_id where r.kind='dissolution'")
-    assert {o for (o,) in owners} == {"Tomas Vesterby-Quail"}
+    owners = _rows(env, "select p.name, r.run_file_name from runs r join people p on p.id = r.author_id "
+                        "where r.kind='dissolution'")
+    assert {o for (o, name) in owners if not name.startswith(("heron", "kestrel"))} == {"Tomas Vesterby-Quail"}
+    # the class practical: each run by a student of the group its file names, in the course's two sections
+    assert {o for (o, name) in owners if name.startswith("kestrel-a")} == {"Lucan Ferreira-Holt"}
+    sections = _rows(env, "select s.name, g.name from groups g join sections s on s.id = g.section_id order by 1, 2")
+    assert sections == [("Thursday afternoon", "Kestrel A"), ("Thursday afternoon", "Kestrel B"),
+                        ("Tuesday morning", "Heron A"), ("Tuesday morning", "Heron B")]
+    assert _rows(env, "select count(*) from run_reviews where excluded")[0][0] == 1
+    assert _rows(env, "select count(*) from comments")[0][0] == 4
     r = runner.invoke(cli, ["load-demo"])
     assert r.exit_code != 0 and "not empty" in r.output
 
@@ -78,7 +88,8 @@ def test_serve_migrates_loads_the_demo_and_prints_sign_ins(env: str, monkeypatch
     assert r.exit_code == 0, r.output
     assert "http://127.0.0.1:5000" in r.output and "kasper.lindqvist-mayo@ternhollow.example" in r.output
     assert called["host"] == "127.0.0.1" and called["port"] == 5000
-    n_demo = len(list((Path(__file__).resolve().parents[2] / "fixtures" / "demo").glob("*.toml")))
+    folder = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
+    n_demo = len([*folder.glob("*.toml"), *(folder / "class").glob("*.toml")])
     assert _rows(env, "select count(*) from runs")[0][0] == n_demo
     r = CliRunner().invoke(cli, ["serve"])  # second start: nothing loaded twice
     assert r.exit_code == 0 and _rows(env, "select count(*) from runs")[0][0] == n_demo

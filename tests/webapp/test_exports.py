@@ -48,8 +48,8 @@ def test_csv_and_xlsx_exports(client: Any, session: Any, lab: Any, tmp_path: Pat
     wb = load_workbook(io.BytesIO(r.data))
     sheet = list(wb["runs"].iter_rows(values_only=True))
     assert len(sheet) == 9 and sheet[0][0] == "run"
-    assert any(row[4] == "'" + run.title for row in sheet[1:])
-    assert isinstance(sheet[1][7], float)
+    assert any(row[5] == "'" + run.title for row in sheet[1:])
+    assert isinstance(sheet[1][8], float)
     assert list(wb["statistics"].iter_rows(values_only=True))[1][2] == 8
     assert client.get(f"/classes/sections/{cl.section_id}/export.pdf").status_code == 400
 

@@ -160,7 +160,7 @@ def test_cupcal_import_command(app: Any, lab: Any, session: Any, tmp_path: Path,
     from webapp import commands
 
     make_class(session, lab.ids["coord"])
-    monkeypatch.setattr(commands, "_app", lambda: app)
+    monkeypatch.setattr(commands, "command_app", lambda: app)
     folder = _folder(tmp_path)
     mapping = tmp_path / "map.csv"
     mapping.write_text("file,group\nanon.toml,M04\n", encoding="utf-8")
@@ -187,3 +187,39 @@ def test_an_oversized_import_is_refused_before_it_is_read(app: Any, client: Any,
     assert r.status_code == 413, r.get_data(as_text=True)
     assert "larger than the limit of 64 KiB" in r.get_json()["error"]
     assert _counts(session) == (0, 0, 0)
+
+
+def _with_group(path: Path, group: str) -> None:
+    text = path.read_text(encoding="utf-8")
+    if "[info]" in text:
+        text = text.replace("[info]\n", f'[info]\ngroup = "{group}"\n', 1)
+    else:
+        text += f'\n[info]\ngroup = "{group}"\n'
+    path.write_text(text, encoding="utf-8")
+
+
+def test_missing_groups_are_created_from_info_group_when_asked(session: Any, lab: Any, tmp_path: Path) -> None:
+    from webapp.models import AuditEntry
+    from webapp.models import Group
+
+    cl = make_class(session, lab.ids["coord"])
+    coord = session.get(Person, lab.ids["coord"])
+    d = tmp_path / "named"
+    for stem, group in (("a", "N21"), ("b", "N21"), ("c", "N22"), ("d", "T01")):  # T01: another section's group
+        _with_group(simulated_run(d, stem, 30 + ord(stem)), group)
+    bad = simulated_run(d, "e", 40)
+    _with_group(bad, "N23")
+    bad.write_text(bad.read_text(encoding="utf-8").replace("[water]\n", '[water]\ncolour = "blue"\n'), encoding="utf-8")
+    files = files_from_folder(d)
+    refused = import_files(session, coord, cl.section_id, files)
+    assert refused.count("stored") == 0 and "is not in section" in refused.items[0].message
+    report = import_files(session, coord, cl.section_id, files, create_groups=True)
+    by = {i.file: i for i in report.items}
+    assert [by[f].group for f in ("a.toml", "b.toml", "c.toml")] == ["N21", "N21", "N22"]
+    assert "group 'N21' created" in by["a.toml"].message and "created" not in by["b.toml"].message
+    assert "belongs to another section" in by["d.toml"].message
+    assert by["e.toml"].outcome == "error"  # its run failed, so its group was not kept either
+    names = set(session.scalars(sa.select(Group.name).where(Group.section_id == cl.section_id)))
+    assert {"N21", "N22"} <= names and "N23" not in names
+    assert session.scalar(sa.select(sa.func.count()).select_from(AuditEntry).where(
+        AuditEntry.entity == "group", AuditEntry.field == "created")) == 2

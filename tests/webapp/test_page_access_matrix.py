@@ -36,7 +36,7 @@ import sqlalchemy as sa
 
 from tests.webapp.conftest import PASSWORD, csrf_token, demo_files, sign_in, upload
 from webapp.models import ApiToken, AuditEntry, Bench, Calibration, Calorimeter, Course, Group, Person, Result, Run
-from webapp.models import RunInput, Section
+from webapp.models import Comment, MarkingScheme, RunInput, RunReview, Section, SignInLink
 from webapp.services.tokens import issue_scoped_token
 
 ACTORS = ("anon", "b1", "a1", "tech", "coord", "read", "write")
@@ -100,6 +100,21 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("POST", "/runs/new/<string:kind>"): row(L, 400, 400, 400, 400, L, L),  # empty form: shown with its errors
     ("GET", "/runs/upload"): ALL_SIGNED_IN,
     ("POST", "/runs/upload"): ALL_SIGNED_IN,  # a preview of the demo files (nothing stored)
+    # review: the author (open run) or staff withdraw; staff comment and mark; coordinators set schemes
+    ("POST", "/runs/<int:run_id>/review"): row(L, 404, R, R, R, L, L),  # a fresh run of a1's per caller
+    ("POST", "/runs/<int:run_id>/comments"): row(L, 403, 403, R, R, L, L),
+    ("POST", "/runs/<int:run_id>/mark"): row(L, 403, 403, R, R, L, L),
+    ("POST", "/groups/<int:group_id>/comments"): row(L, 403, 403, R, R, L, L),
+    ("GET", "/classes/sections/<int:section_id>/marking"): STAFF_ONLY,
+    ("POST", "/classes/sections/<int:section_id>/marking"): row(L, 403, 403, 403, R, L, L),
+    # accounts: a link that names nobody is not found; coordinators manage a section's accounts
+    ("GET", "/auth/link/<string:secret>"): row(404, 404, 404, 404, 404, 404, 404),
+    ("POST", "/auth/link/<string:secret>"): row(404, 404, 404, 404, 404, 404, 404),
+    ("GET", "/auth/password"): ALL_SIGNED_IN,
+    ("POST", "/auth/password"): row(L, 400, 400, 400, 400, L, L),  # a wrong current password
+    ("GET", "/auth/sections/<int:section_id>/accounts"): row(L, 403, 403, 403, 200, L, L),
+    ("POST", "/auth/sections/<int:section_id>/sign-in-links"): row(L, 403, 403, 403, 200, L, L),  # the printable page
+    ("POST", "/auth/people/<int:person_id>/password"): COORDINATOR_FORM,
 }
 
 #: the embed routes with a signed link (issued by a1 for a1's run): the link alone decides
@@ -145,6 +160,7 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
                "write": issue_scoped_token(session, a1, "p-write", "write")[1]}
     link = client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("a1")).get_json()["url"]
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": sections[0],
+            "group_id": lab.groups["A"], "person_id": lab.ids["a2"], "a2_id": lab.ids["a2"],
             "calorimeter_id": lab.calorimeter_id, "link": parse_qs(urlsplit(link).query)["link"][0],
             "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()}}
 
@@ -197,6 +213,7 @@ def _fresh_token(app: Any, lab: Any, w: dict[str, Any]) -> int:
 FRESH: dict[tuple[str, str], tuple[str, Callable[..., int]]] = {
     ("POST", "/runs/<int:run_id>/lock"): ("run_id", _fresh_run),
     ("POST", "/auth/tokens/<int:token_id>/revoke"): ("token_id", _fresh_token),
+    ("POST", "/runs/<int:run_id>/review"): ("run_id", _fresh_run),
 }
 
 #: values of the path parameters that are not ids of the world
@@ -206,6 +223,7 @@ PATH_VALUES: dict[str, dict[str, str]] = {
     "/runs/new/<string:kind>": {"kind": "dissolution"},
     "/classes/courses/<int:course_id>/export.<fmt>": {"fmt": "csv"},
     "/classes/sections/<int:section_id>/export.<fmt>": {"fmt": "csv"},
+    "/auth/link/<string:secret>": {"secret": "no-such-link"},
 }
 
 
@@ -261,6 +279,14 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
     ("POST", "/imports/eln"): _eln_form,
     ("POST", "/runs/<int:run_id>/reanalyse"): lambda who, w: {"method": "naive"},
     ("POST", "/runs/upload"): _upload_form,
+    ("POST", "/runs/<int:run_id>/review"): lambda who, w: {"action": "withdraw", "reason": f"by {who}"},
+    ("POST", "/runs/<int:run_id>/comments"): lambda who, w: {"body": f"seen by {who}"},
+    ("POST", "/runs/<int:run_id>/mark"): lambda who, w: {"points": "5", "reason": f"by {who}"},
+    ("POST", "/groups/<int:group_id>/comments"): lambda who, w: {"body": f"seen by {who}"},
+    ("POST", "/classes/sections/<int:section_id>/marking"): lambda who, w: {"en": "1=6, *=0", "relative": "5%=2, *=0"},
+    ("POST", "/auth/password"): lambda who, w: {"current": "wrong", "password": "a long new one", "confirm": "a long new one"},
+    ("POST", "/auth/sections/<int:section_id>/sign-in-links"): lambda who, w: {"person_id": str(w["a2_id"])},
+    ("POST", "/auth/people/<int:person_id>/password"): lambda who, w: {"password": f"new password {who}"},
 }
 
 
@@ -287,6 +313,14 @@ EFFECTS: dict[tuple[str, str], tuple[Callable[[Any], int], int]] = {
     ("POST", "/runs/<int:run_id>/reanalyse"): (_count(Result), 3),
     ("POST", "/runs/upload"): (_count(Run), 0),
     ("POST", "/runs/new/<string:kind>"): (_count(Run), 0),
+    ("POST", "/runs/<int:run_id>/review"): (_count(RunReview, RunReview.withdrawn.is_(True)), 3),
+    ("POST", "/runs/<int:run_id>/comments"): (_count(Comment, Comment.run_id.is_not(None)), 2),
+    ("POST", "/runs/<int:run_id>/mark"): (_count(AuditEntry, AuditEntry.field == "mark_points"), 2),
+    ("POST", "/groups/<int:group_id>/comments"): (_count(Comment, Comment.group_id.is_not(None)), 2),
+    ("POST", "/classes/sections/<int:section_id>/marking"): (_count(MarkingScheme), 1),
+    ("POST", "/auth/password"): (_count(AuditEntry, AuditEntry.field == "password"), 0),
+    ("POST", "/auth/sections/<int:section_id>/sign-in-links"): (_count(SignInLink), 1),
+    ("POST", "/auth/people/<int:person_id>/password"): (_count(AuditEntry, AuditEntry.field == "password"), 1),
 }
 
 
@@ -303,7 +337,8 @@ def _query(rule: str, w: dict[str, Any], link: str | None) -> str:
 
 def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str, link: str | None = None) -> Any:
     """Send one route's request as ``who`` (with a signed ``link`` on the embed routes) and return the response."""
-    values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "calorimeter_id")}
+    values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "calorimeter_id", "group_id",
+                                "person_id")}
     values |= PATH_VALUES.get(rule, {})
     if (method, rule) in FRESH:
         name, make = FRESH[(method, rule)]

@@ -15,5 +15,6 @@ from webapp.api import openapi  # noqa: F401
 from webapp.api import runs  # noqa: F401
 from webapp.api import exchange  # noqa: F401
 from webapp.api import eln  # noqa: F401
+from webapp.api import review  # noqa: F401
 
 __all__ = ['bp']

@@ -62,7 +62,7 @@ def dashboard_json(board: Dashboard) -> dict[str, Any]:
     """Return a dashboard as JSON data."""
     return {"title": board.title, "sort": board.sort, "descending": board.descending,
             "flag_counts": board.flag_counts, "statistics": [dataclasses.asdict(s) for s in board.stats],
-            "feedback": board.feedback, "rows": [dataclasses.asdict(r) for r in board.rows]}
+            "feedback": board.feedback, "common_feedback": board.common_feedback, "rows": [dataclasses.asdict(r) for r in board.rows]}
 
 
 def _sort() -> tuple[str | None, bool]:
@@ -146,7 +146,8 @@ def import_runs_route(section_id: int):  # type: ignore[no-untyped-def]
     require_staff(actor(), "import runs")
     get_section(session, actor(), section_id)
     files = files_from_zip(archive.read(), source=archive.filename or "archive")
-    report = import_files(session, actor(), section_id, files, mapping=mapping)
+    create = request.form.get("create_groups", "").strip().lower() in ("1", "true", "yes", "on")
+    report = import_files(session, actor(), section_id, files, mapping=mapping, create_groups=create)
     return jsonify(report.as_dict())
 
 
@@ -309,7 +310,9 @@ PATHS.update({
                         "type": "object", "required": ["archive"], "properties": {
                             "archive": {"type": "string", "format": "binary"},
                             "mapping": {"type": "string", "format": "binary",
-                                        "description": "CSV: file, group[, bench]"}}}}}}),
+                                        "description": "CSV: file, group[, bench]"},
+                            "create_groups": {"type": "string", "enum": ["true", "false"],
+                                              "description": "create the groups [info] group names"}}}}}}),
     },
     "/api/sections/{section_id}/dashboard": {
         "get": _op("The class dashboard of a section (flags, statistics, feedback, series)",

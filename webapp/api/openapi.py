@@ -114,7 +114,8 @@ SCHEMAS: dict[str, Any] = {
                    "items": {"type": "object", "properties": {
                        "code": {"type": "string"}, "severity": {"type": "string", "enum": ["info", "warning"]},
                        "message": {"type": "string"}, "value": {"type": ["number", "null"]}}}},
-        "comparison": {"type": ["object", "null"]}, "cautions": {"type": "array", "items": {"type": "object"}},
+        "comparison": {"type": ["object", "null"]}, "verdict": {"type": ["object", "null"]},
+        "cautions": {"type": "array", "items": {"type": "object"}},
         "construction": {"type": "object"}, "properties": {"type": "object"},
         "monte_carlo": {"type": ["object", "null"]}, "record": {"type": "object"},
         "software_version": {"type": "string"}, "created_by": _ref("Ref")}}]},
@@ -132,7 +133,8 @@ SCHEMAS: dict[str, Any] = {
         "locked_result_id": {"type": ["integer", "null"], "description": "the result the lock signed"},
         "locked_hash": {"type": ["string", "null"], "description": "SHA-256 of what the lock signed"},
         "inputs": {"type": "array", "items": {"type": "object"}},
-        "results": {"type": "array", "items": _ref("ResultSummary")}}}]},
+        "results": {"type": "array", "items": _ref("ResultSummary")},
+        "review": {"type": "object", "description": "withdrawn, excluded, accepted (with reasons), a mark set by hand"}}}]},
     "AuditEntry": {"type": "object", "properties": {
         "id": {"type": "integer"}, "at": {"type": "string", "format": "date-time"},
         "person": {"type": ["string", "null"]}, "entity": {"type": "string"}, "entity_id": {"type": "integer"},

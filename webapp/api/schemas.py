@@ -5,6 +5,8 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
+from calc.refdata.comparison import verdict
+from calc.refdata.comparison import verdict_record
 from flask import url_for
 
 from webapp.models import Calibration
@@ -123,6 +125,7 @@ def result_json(r: Result) -> dict[str, Any]:
         "warnings": r.warnings,
         "checks": r.checks,
         "comparison": r.comparison,
+        "verdict": verdict_record(verdict(r.comparison)),
         "cautions": r.cautions,
         "construction": r.construction,
         "properties": r.properties,
@@ -172,7 +175,18 @@ def run_json(run: Run) -> dict[str, Any]:
             for i in run.inputs
         ],
         "results": [result_summary(r) for r in run.results],
+        "review": review_summary(run),
     }
+
+
+def review_summary(run: Run) -> dict[str, Any]:
+    """Return what has been decided on a run: withdrawn, excluded, accepted (with reasons), a mark by hand."""
+    rv = run.review
+    return {"withdrawn": bool(rv and rv.withdrawn), "withdrawn_reason": rv.withdrawn_reason if rv else "",
+            "excluded": bool(rv and rv.excluded), "excluded_reason": rv.excluded_reason if rv else "",
+            "accepted": bool(rv and rv.accepted), "accepted_reason": rv.accepted_reason if rv else "",
+            "included_in_statistics": not (rv and (rv.withdrawn or rv.excluded)),
+            "mark_points": rv.mark_points if rv else None, "mark_reason": rv.mark_reason if rv else ""}
 
 
 def page_json(page: Page[Any], items: list[Any]) -> dict[str, Any]:

@@ -37,7 +37,9 @@ from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.exports import export_csv
 from webapp.services.exports import export_xlsx
+from webapp.services.exports import grading_extras
 from webapp.services.people import create_course
+from webapp.services.comments import group_comments
 from webapp.services.series import group_series
 
 
@@ -53,7 +55,7 @@ def _plot(board: Dashboard, by_section: bool) -> str | None:
     if not board.stats:
         return None
     st = board.stats[0]
-    rows = sorted((r for r in board.rows if r.measurement == st.measurement and r.value is not None),
+    rows = sorted((r for r in board.rows if r.measurement == st.measurement and r.value is not None and r.included),
                   key=lambda r: r.run_id)
     many = len({r.group for r in rows}) > MAX_PLOT_ROWS
     labels = [r.section if by_section else ("all groups" if many else r.group) for r in rows]
@@ -171,9 +173,11 @@ def section_board(section_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     sort, desc = _sort_args("group")
     board = section_dashboard(session, current_user, section_id, sort=sort, descending=desc)
+    group_ids = {r.group: r.group_id for r in board.rows if r.group_id is not None}
     return render_template("classes/dashboard.html", board=board, plot=_plot(board, False), flags=FLAGS,
                            series=group_series(board.rows, session), endpoint="classes.section_board",
-                           args={"section_id": section_id}, export="classes.section_export")
+                           args={"section_id": section_id}, export="classes.section_export", group_ids=group_ids,
+                           group_comments=group_comments(session, current_user, list(group_ids.values())))
 
 
 @bp.route("/classes/courses/<int:course_id>/dashboard")
@@ -188,13 +192,14 @@ def course_board(course_id: int):  # type: ignore[no-untyped-def]
 
 
 def _export(board: Dashboard, fmt: str, stem: str) -> Response:
+    extras = grading_extras(get_session(), board)
     if fmt == "xlsx":
-        return Response(export_xlsx(board),
+        return Response(export_xlsx(board, extras),
                         mimetype="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                         headers={"Content-Disposition": f'attachment; filename="{stem}.xlsx"'})
     if fmt != "csv":
         raise Invalid("expected format csv or xlsx", field="format")
-    return Response(export_csv(board), mimetype="text/csv",
+    return Response(export_csv(board, extras), mimetype="text/csv",
                     headers={"Content-Disposition": f'attachment; filename="{stem}.csv"'})
 
 

@@ -7,6 +7,7 @@ from urllib.parse import parse_qs
 from urllib.parse import urlsplit
 
 from calc import __version__
+from calc.refdata.comparison import verdict
 from flask import abort
 from flask import current_app
 from flask import jsonify
@@ -72,9 +73,9 @@ def card_flags(run: Run) -> list[dict[str, str]]:
             flags.append({"name": "warning", "detail": str(w)})
         for c in flagged_checks(result.checks):
             flags.append({"name": "check warning", "detail": str(c.get("message", ""))})
-        en = (result.comparison or {}).get("En")
-        if isinstance(en, (int, float)) and abs(en) > 1:
-            flags.append({"name": "|En| > 1", "detail": f"E_n = {en:.2f} against the reference (ISO 13528)"})
+        v = verdict(result.comparison)
+        if v is not None and not v.satisfactory:
+            flags.append({"name": "|En| > 1", "detail": f"E_n = {v.En:+.2f} against the {v.label} (ISO 13528)"})
     if not run.locked:
         flags.append({"name": "not signed", "detail": "the run may still change"})
     return flags

@@ -10,6 +10,7 @@ from flask_login import login_required
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField
 from flask_wtf.file import MultipleFileField
+from wtforms import BooleanField
 
 from webapp.db import get_session
 from webapp.imports.blueprint import bp
@@ -30,6 +31,7 @@ class ImportForm(FlaskForm):
     archive = FileField("Zip of run files (.toml) and logs (.csv)")
     files = MultipleFileField("…or the files of a folder")
     mapping = FileField("Mapping CSV (file, group[, bench]), when names do not say the group")
+    create_groups = BooleanField("Create the groups that [info] group (or the mapping) names and this section lacks")
 
 
 @bp.before_request
@@ -71,7 +73,8 @@ def new(section_id: int):  # type: ignore[no-untyped-def]
                         mapping = form.mapping.data.read().decode("utf-8-sig")
                     except UnicodeDecodeError:
                         raise Invalid("the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping") from None
-                report = import_files(session, current_user, section.id, _files(form), mapping=mapping)
+                report = import_files(session, current_user, section.id, _files(form), mapping=mapping,
+                                      create_groups=bool(form.create_groups.data))
             except ServiceError as exc:
                 session.rollback()
                 if exc.status in (403, 404):

@@ -31,6 +31,7 @@ from webapp.services.runs import get_run
 from webapp.services.runs import lock_run
 from webapp.services.runs import paginate
 from webapp.services.runs import reanalyse_run
+from webapp.services.review_page import review_panel
 from webapp.services.runs import runs_query
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
@@ -70,6 +71,7 @@ def detail(run_id: int):  # type: ignore[no-untyped-def]
         form=form,
         field_errors=field_errors,
         lock_form=ConfirmForm(),
+        review=review_panel(get_session(), current_user, page.run),
     )
 
 

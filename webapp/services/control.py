@@ -2,8 +2,9 @@
 
 A check standard is one measurement repeated on a calorimeter: a kind with its reference
 (``dissolution · KCl dissolution, infinite dilution``) or a calibration kind (its C_cal). The
-chart is :func:`calc.statistics.control_charts.control_chart` of the current results in time order with limits
-from the first ``baseline`` points; the due date is :func:`calc.statistics.control_charts.calibration_status`
+chart is :func:`calc.statistics.control_charts.control_chart` of the current results of the runs that count
+(:func:`webapp.services.review.included_in_statistics`: not withdrawn, not excluded) in time order,
+with limits from the first ``baseline`` points after a robust start sets gross errors aside; the due date is :func:`calc.statistics.control_charts.calibration_status`
 from the calorimeter's last calibration and its interval (the calorimeter's own, else
 ``CALIBRATION_DUE_DAYS``).
 """
@@ -35,6 +36,8 @@ from webapp.services.checks import flag_text
 from webapp.services.checks import flagged_checks
 from webapp.services.dashboard import _measurement
 from webapp.services.errors import Invalid
+from webapp.services.review import included_in_statistics
+from webapp.services.review import with_review
 
 DEFAULT_BASELINE = 20
 #: the chart of the calorimeter's own heat capacity (its approved calibrations, in the order measured)
@@ -99,10 +102,10 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
     """
     cal = get_calorimeter(session, calorimeter_id)
     rows = session.execute(
-        sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
-                  Result.calorimeter_heat_capacity_j_k, Result.comparison, Result.checks)
-        .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
-        .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer))
+        with_review(sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
+                              Result.calorimeter_heat_capacity_j_k, Result.comparison, Result.checks)
+                    .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True))))
+        .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer), included_in_statistics())
         .order_by(Run.created_at, Run.id)
     ).all()
     series: dict[str, list[dict[str, Any]]] = defaultdict(list)
@@ -148,9 +151,11 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
         by_index: dict[int, list[str]] = defaultdict(list)
         for v in chart.violations:
             by_index[v.index].append(v.message)
+        aside = set(chart.limits.set_aside)
         for i, p in enumerate(points):
             p["violations"] = by_index.get(i, [])
-            p["baseline"] = i < base and not p["flagged"]
+            p["baseline"] = i < base and i not in aside and not p["flagged"]
+            p["set_aside"] = i in aside
     return ControlView(cal, standards, standard, points[0]["unit"] if points else "", points, chart, base,
                        message, info, [p for p in points[:base] if p["flagged"]])
 

@@ -7,8 +7,8 @@ Results are compared within one *measurement*: the same kind and the same refere
 
 Flags (each with a plain message):
 
-* ``En``: |E_n| > 1 against the reference (ISO 13528; the adjusted E_n when the reference was
-  carried to the run's conditions).
+* ``En``: |E_n| > 1 in the run's one verdict (:func:`calc.refdata.comparison.verdict`: against the reference
+  carried to the run's conditions where cupcal can carry it, else against the value as published).
 * ``outlier``: the most distant result of its measurement within the section by Grubbs'
   two-sided test at α = 0.05 (:func:`calc.statistics.precision.grubbs`; one test per section and measurement,
   at least 3 results).
@@ -27,10 +27,12 @@ import dataclasses
 import math
 from collections import Counter
 from collections import defaultdict
+from types import SimpleNamespace
 from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc.refdata.comparison import verdict
 from calc.errors import InputError
 from calc.statistics.replicates import shared_type_b
 from calc.statistics.precision import grubbs
@@ -42,26 +44,23 @@ from webapp.models import Person
 from webapp.models import Result
 from webapp.models import Run
 from webapp.models import RunInput
+from webapp.models import RunReview
 from webapp.models import Section
 from webapp.services.analysis import NEEDS_HEAT_CAPACITY
 from webapp.services.checks import flag_text
-from webapp.services.checks import flagged_checks
 from webapp.services.classes import get_course
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
 from webapp.services.errors import Invalid
+from webapp.services.feedback import FLAGS
+from webapp.services.feedback import group_feedback  # noqa: F401  (part of this module's interface)
+from webapp.services.feedback import split_feedback
+from webapp.services.marks import run_mark
+from webapp.services.marks import scheme_of
+from webapp.services.review import included_in_statistics
+from webapp.services.review import run_flagged
 from webapp.services.series import budget_lines
 
-FLAGS: dict[str, str] = {
-    "En": "|En| > 1 against the reference",
-    "outlier": "Grubbs outlier in the section (α = 0.05)",
-    "small-dT": "|ΔT| under 10 × the thermometer resolution",
-    "drift": "large drift",
-    "short-after": "short after period",
-    "no-calibration": "no calibration of the calorimeter on record",
-    "checks": "a plausibility check warns (left out of the statistics and the Grubbs test)",
-    "overdue": "the calorimeter's calibration was overdue on the run's date",
-}
 #: days a calibration stays valid when the calorimeter sets no interval (the notebook's default)
 DUE_DAYS = 30
 SORT_KEYS = ("group", "run", "value", "uncertainty", "en", "delta_t", "flags", "section")
@@ -96,8 +95,16 @@ class Row:
     top_share: float = 0.0
     #: shared (non-averaging) Type B part of this run's budget and its degrees of freedom
     type_b: tuple[float, float] = (0.0, math.inf)
-    #: a plausibility check warns: the row is shown, but left out of statistics, Grubbs and series
-    excluded: bool = False
+    #: the one verdict against the reference (calc.refdata.comparison.verdict), None without a reference
+    verdict: Any = None
+    #: counts in statistics and marks (services.review.included_in_statistics)
+    included: bool = True
+    #: "withdrawn", "excluded" or "" (with the reason given)
+    status: str = ""
+    status_reason: str = ""
+    #: the mark (services.marks.Mark) and the group's id
+    mark: Any = None
+    group_id: int | None = None
 
 
 @dataclasses.dataclass
@@ -118,6 +125,11 @@ class Stats:
     note: str = ""
     reference: float | None = None
     reference_U: float | None = None
+    #: what ``reference`` is: the mean of the runs' verdict references, and how they were judged
+    reference_label: str = ""
+    #: the value as published (context, no verdict) and its state ("infinite dilution")
+    published: float | None = None
+    published_state: str = ""
 
 
 @dataclasses.dataclass
@@ -131,6 +143,8 @@ class Dashboard:
     flag_counts: dict[str, int]
     sort: str
     descending: bool
+    #: feedback that every group gets, said once above the groups' own
+    common_feedback: list[str] = dataclasses.field(default_factory=list)
 
 
 def _unit(main: str) -> str:
@@ -145,13 +159,22 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
             Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
             Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
             Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.budget, res_in.value, Result.checks,
+            Result.budget, res_in.value, RunReview.withdrawn, RunReview.withdrawn_reason, RunReview.excluded,
+            RunReview.excluded_reason, RunReview.accepted, RunReview.mark_points, RunReview.mark_reason, Group.id,
+            included_in_statistics().label("included"),
+            *_checks_column(),
         )
+        .outerjoin(RunReview, RunReview.run_id == Run.id)
         .join(Group, Group.id == Run.group_id)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
         .outerjoin(res_in, sa.and_(res_in.run_id == Run.id, res_in.field == "thermometer.resolution"))
         .where(Group.section_id.in_(section_ids))
     )
+
+
+def _checks_column() -> list[Any]:
+    checks = getattr(Result, "checks", None)
+    return [checks] if checks is not None else []
 
 
 def _first_calibrations(session: so.Session, calorimeter_ids: set[int]) -> dict[int, Any]:
@@ -166,8 +189,15 @@ def _first_calibrations(session: so.Session, calorimeter_ids: set[int]) -> dict[
 
 
 def _measurement(kind: str, comparison: dict[str, Any] | None) -> str:
+    """Return what a result measures: its kind and its reference's name, without the published state.
+
+    The state (", infinite dilution") is left out because the verdict is judged at each run's own
+    conditions where cupcal can carry the reference there; the published value is context.
+    """
     ref = (comparison or {}).get("reference") or {}
     name = ref.get("name") if isinstance(ref, dict) else None
+    if isinstance(name, str):
+        name = name.replace(", infinite dilution", "")
     return f"{kind} · {name}" if name else kind
 
 
@@ -175,20 +205,36 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     """Return the dashboard rows of the current results of the sections' runs, flags set."""
     names = {s.id: s.name for s in sections}
     raw = session.execute(_query(list(names))).all()
+    schemes = {sid: scheme_of(session, sid)[0] for sid in names}
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
     for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, budget, resolution, checks) in raw:
+         comparison, budget, resolution, withdrawn, w_reason, excluded, x_reason, accepted, mark_points, mark_reason,
+         group_id, included, *checks) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
-        en = comp.get("En_adjusted") if comp.get("En_adjusted") is not None else comp.get("En")
-        ref = comp.get("reference") or {}
-        refv = comp.get("adjusted_reference") if comp.get("adjusted_reference") is not None else ref.get("value")
+        vd = verdict(comp)
+        en = vd.En if vd is not None else None
         row = Row(rid, title, kind, sid, names.get(sid, ""), gname, bench or "", _measurement(kind, comp),
-                  _unit(main), value, u, U, dT, resolution, en, refv, comp.get("U_reference"))
-        if en is not None and abs(en) > 1:
+                  _unit(main), value, u, U, dT, resolution, en, vd.reference if vd else None,
+                  vd.U_reference if vd else None)
+        row.verdict = vd
+        row.included = bool(included)
+        if withdrawn:
+            row.status, row.status_reason = "withdrawn", w_reason or ""
+        elif excluded:
+            row.status, row.status_reason = "excluded", x_reason or ""
+        row.group_id = group_id
+        row.mark = run_mark(schemes[sid], vd, included=row.included, status=row.status, override=mark_points,
+                            override_reason=mark_reason or "")
+        if run_flagged(SimpleNamespace(checks=checks[0] if checks else None)) and not accepted:
+            row.flags.append("check")
+            row.notes["check"] = (flag_text(checks[0]) + " (left out of the statistics until staff accept it)")
+            row.included = False
+        if vd is not None and not vd.satisfactory:
             row.flags.append("En")
-            row.notes["En"] = f"En = {en:+.2f}: the result and the reference differ by more than their uncertainties allow"
+            row.notes["En"] = (f"E_n = {en:+.2f} against the {vd.label}: the result and the reference differ by more "
+                               "than their uncertainties allow")
         if resolution is not None and abs(dT) < 10 * resolution:
             row.flags.append("small-dT")
             row.notes["small-dT"] = f"|ΔT| = {abs(dT):.3g} K is under 10 × the resolution {resolution:g} K"
@@ -206,10 +252,6 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                 row.notes["no-calibration"] = ("the calorimeter's heat capacity came from the run file, and "
                                                + ("no calorimeter is named" if calo_id is None else
                                                   "the calorimeter had no calibration on record"))
-        if flagged_checks(checks):
-            row.flags.append("checks")
-            row.notes["checks"] = flag_text(checks)
-            row.excluded = True
         lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
         row.type_b = shared_type_b(budget_lines(lines))
         if lines:
@@ -242,7 +284,7 @@ def _overdue_flags(session: so.Session, rows: list[Row]) -> None:
 def _grubbs_flags(rows: list[Row]) -> None:
     cells: dict[tuple[Any, str], list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None and not r.excluded:
+        if r.value is not None and r.included:
             cells[(r.section_id, r.measurement)].append(r)
     for members in cells.values():
         if len(members) < 3:
@@ -256,10 +298,10 @@ def _grubbs_flags(rows: list[Row]) -> None:
 
 
 def statistics(rows: list[Row]) -> list[Stats]:
-    """Return the statistics of each measurement (most results first)."""
+    """Return the statistics of each measurement (most results first), of the included runs only."""
     by: dict[str, list[Row]] = defaultdict(list)
     for r in rows:
-        if r.value is not None and not r.excluded:
+        if r.value is not None and r.included:
             by[r.measurement].append(r)
     out: list[Stats] = []
     for meas, members in sorted(by.items(), key=lambda kv: -len(kv[1])):
@@ -271,88 +313,22 @@ def statistics(rows: list[Row]) -> list[Stats]:
         for m in members:
             cells[(m.section_id, m.group)].append(m.value)
         st = Stats(meas, members[0].unit, n, len(cells), mean, sd)
-        refs = Counter(m.reference for m in members if m.reference is not None)
-        if refs:
-            st.reference = refs.most_common(1)[0][0]
-            st.reference_U = next((m.reference_U for m in members if m.reference == st.reference), None)
+        judged = [m for m in members if m.verdict is not None]
+        if judged:
+            st.reference = sum(m.verdict.reference for m in judged) / len(judged)
+            st.reference_U = sum(m.verdict.U_reference for m in judged) / len(judged)
+            bases = {m.verdict.basis for m in judged}
+            st.reference_label = ("reference at the runs' conditions (mean)" if bases == {"conditions"} else
+                                  "reference as published" if bases == {"published"} else
+                                  "reference at the runs' conditions where known, else as published (mean)")
+            st.published = judged[0].verdict.published
+            st.published_state = judged[0].verdict.published_state
         try:
             p = iso5725(list(cells.values()))
             st.s_r, st.s_L, st.s_R, st.r, st.R = p.s_r, p.s_L, p.s_R, p.r, p.R
         except InputError as exc:
             st.note = f"no repeatability/reproducibility: {exc}"
         out.append(st)
-    return out
-
-
-_ADVICE: list[tuple[str, str]] = [
-    ("calorimeter.heat_capacity", "calibrate the cup yourself (an electrical or mixing calibration, repeated) so its "
-                                  "heat capacity is known better, or use more solution so the cup takes a smaller share of the heat"),
-    ("delta_t.fit", "record steady fore and after periods (3–5 minutes before mixing, 5–10 minutes after), keep the lid on "
-                    "and stir at a constant rate, so the drift lines are well defined"),
-    ("delta_t.resolution", "use a thermometer with a finer resolution, or more substance for a larger temperature change"),
-    ("delta_t.mixing_time", "note the exact time you add the substance (or pour), and add it in one go"),
-    ("delta_t.method", "keep the temperature change moderate and the log long enough after the change"),
-    ("mixture.specific_heat_capacity", "give the solution's specific heat capacity with a smaller uncertainty "
-                                       "(a measured value, or leave it out so the property model supplies it)"),
-    ("mass", "weigh on a balance with a finer reading, or use a larger sample"),
-    ("volume", "measure the volumes with a volumetric pipette or a burette instead of a measuring cylinder"),
-    ("concentration", "use standardised solutions and state their concentration with its uncertainty"),
-    ("density", "give the densities with a smaller uncertainty (or leave them to the property models)"),
-    ("purity", "use a purer reagent or state its purity from the supplier's certificate"),
-    ("heater", "measure the heater's voltage, current and time with better meters"),
-    ("temperature", "read the second solution's temperature with the same calibrated thermometer just before pouring"),
-]
-_FLAG_ADVICE = {
-    "En": "Your result differs from the reference value by more than the uncertainties explain (|En| > 1): check the "
-          "masses, volumes and calorimeter constant you entered, and look for heat lost before the lid was on.",
-    "outlier": "One of your results lies far from the rest of the section (Grubbs test): look for a mistake in that run "
-               "before repeating it.",
-    "small-dT": "Your temperature change was under 10 × the thermometer's resolution: use more substance or a finer "
-                "thermometer.",
-    "drift": "The temperature drifted strongly before or after the change: let the solutions reach room temperature "
-             "first, use the lid and check that the stirrer does not heat.",
-    "short-after": "The log after the change was too short: keep recording for at least 5 minutes after the temperature "
-                   "has settled.",
-    "overdue": "The calorimeter's calibration was overdue when you measured: have it calibrated, then re-analyse.",
-    "no-calibration": "The calorimeter you used has no calibration on record: calibrate it (or have it calibrated) and "
-                      "name it in the run file.",
-    "checks": "A plausibility check warns about your run (see the run page): check the amounts you entered. The run "
-              "stays out of the section's statistics until staff accept it.",
-}
-
-
-def _advice(name: str) -> str:
-    for key, text in _ADVICE:
-        if name == key or name.startswith(key) or name.endswith("." + key) or key in name.split(".")[-1]:
-            return text
-    return "give this input with a smaller uncertainty"
-
-
-def group_feedback(rows: list[Row]) -> dict[str, list[str]]:
-    """Return plain-words feedback per group from its runs' budgets and flags."""
-    by: dict[str, list[Row]] = defaultdict(list)
-    for r in rows:
-        by[r.group].append(r)
-    out: dict[str, list[str]] = {}
-    for group, members in sorted(by.items()):
-        lines: list[str] = []
-        tops = Counter(m.top_input for m in members if m.top_input)
-        if tops:
-            name, count = tops.most_common(1)[0]
-            ex = next(m for m in members if m.top_input == name)
-            shares = [m.top_share for m in members if m.top_input == name]
-            lines.append(
-                f"In {count} of your {len(members)} run(s) the largest part of the uncertainty came from the "
-                f"{ex.top_label or name} (about {100 * sum(shares) / len(shares):.0f} % of the variance). "
-                f"Next time: {_advice(name)}.")
-        flags = Counter(f for m in members for f in m.flags)
-        for flag in FLAGS:
-            if flags.get(flag):
-                runs = ", ".join(f"#{m.run_id}" for m in members if flag in m.flags)
-                lines.append(f"{_FLAG_ADVICE[flag]} (run {runs})")
-        if not flags:
-            lines.append("No flags: your runs agree with the reference and with the section.")
-        out[group] = lines
     return out
 
 
@@ -377,8 +353,9 @@ def _build(title: str, rows: list[Row], sort: str, descending: bool) -> Dashboar
         raise Invalid(f"unknown sort key {sort!r}; expected one of: {', '.join(SORT_KEYS)}", field="sort")
     rows.sort(key=_sort_key(sort), reverse=descending)
     counts = Counter(f for r in rows for f in r.flags)
-    return Dashboard(title, rows, statistics(rows), group_feedback(rows), {f: counts.get(f, 0) for f in FLAGS},
-                     sort, descending)
+    common, feedback = split_feedback(rows)
+    return Dashboard(title, rows, statistics(rows), feedback, {f: counts.get(f, 0) for f in FLAGS},
+                     sort, descending, common)
 
 
 def section_dashboard(session: so.Session, actor: Person, section_id: int, *, sort: str = "group",
@@ -386,7 +363,17 @@ def section_dashboard(session: so.Session, actor: Person, section_id: int, *, so
     """Return the dashboard of a section (students: only their own section)."""
     section = get_section(session, actor, section_id)
     title = f"{section.course.name} · {section.name}"
-    return _build(title, collect_rows(session, [section]), sort, descending)
+    return _build(title, _for_viewer(actor, collect_rows(session, [section])), sort, descending)
+
+
+def _for_viewer(actor: Person, rows: list[Row]) -> list[Row]:
+    """Keep other groups' marks and review reasons from a student (they see only their own)."""
+    if actor.role != "student":
+        return rows
+    for r in rows:
+        if r.group_id != actor.group_id:
+            r.mark, r.status_reason = None, ""
+    return rows
 
 
 def course_dashboard(session: so.Session, actor: Person, course_id: int, *, sort: str = "section",

@@ -10,6 +10,7 @@ import dataclasses
 import datetime as dt
 import tomllib
 from pathlib import Path
+from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
@@ -36,7 +37,21 @@ PEOPLE = (
     ("Mira Okonjo-Lind", "mira.okonjo-lind@ternhollow.example", "student", "Heron A"),
     ("Tomas Vesterby-Quail", "tomas.vesterby-quail@ternhollow.example", "student", "Heron A"),
     ("Priya Stenhammar-Oduya", "priya.stenhammar-oduya@ternhollow.example", "student", "Heron B"),
+    ("Lucan Ferreira-Holt", "lucan.ferreira-holt@ternhollow.example", "student", "Kestrel A"),
+    ("Saoirse Adebayo-Klint", "saoirse.adebayo-klint@ternhollow.example", "student", "Kestrel B"),
 )
+#: the course's two sections and their groups
+SECTIONS = (("Tuesday morning", ("Heron A", "Heron B")), ("Thursday afternoon", ("Kestrel A", "Kestrel B")))
+#: staff comments of the demo: (group, or run file stem, text)
+COMMENTS = (
+    ("Heron A", "Both KCl runs have clean, flat drift lines. Next time note the room temperature on the sheet too."),
+    ("Kestrel A", "Your two runs agree within their uncertainties; write down the balance's last digit as you read it."),
+    ("Kestrel B", "Run 2 needs a look: see the comment on the run."),
+    ("kestrel-b-kcl-2", "The mass reads 0.378 g, ten times less than your other run: check the balance reading "
+                        "in your notebook before you repeat it."),
+)
+#: the class run the demo coordinator excluded from the statistics, with the reason
+EXCLUDED = ("kestrel-b-kcl-2", "mass written with the decimal point one place off (0.378 g for 3.780 g)")
 #: a second, invented cup whose last calibration is old, so the home page shows one due
 SPARE_CUP = ("Cup TH-09 (single foam cup, card lid)", "21.0 ± 3.0 J/K", 120)
 _ORDER = {"electrical-calibration": 0, "mixing-calibration": 1}
@@ -112,6 +127,7 @@ def load_demo(
             options=AnalysisOptions(monte_carlo_trials=monte_carlo_trials, seed=20250311),
         ))
         _approve_proposals(session, technician)
+    _load_class(session, coordinator, course.id, groups, people, demo_dir / "class")
     return demo_sign_ins()
 
 
@@ -121,6 +137,42 @@ def _approve_proposals(session: so.Session, technician: Person) -> None:
 
     for cal_id in session.scalars(sa.select(Calibration.id).where(Calibration.status == "proposed")).all():
         approve_calibration(session, technician, cal_id, confirm=True)
+
+
+def _load_class(session: so.Session, coordinator: Person, course_id: int, groups: dict[str, Any],
+                people: dict[str, Person], class_dir: Path) -> None:
+    """Put the groups into the course's two sections and record the class practical's runs.
+
+    The class runs are analysed without the Monte Carlo check, as a bulk import does; staff
+    comments are added and the run with a typing slip is excluded from the statistics.
+    """
+    from webapp.services.classes import create_section
+    from webapp.services.comments import add_group_comment
+    from webapp.services.comments import add_run_comment
+    from webapp.services.review import review_run
+
+    for name, members in SECTIONS:
+        section = create_section(session, coordinator, course_id=course_id, name=name)
+        for g in members:
+            groups[g].section_id = section.id
+    session.commit()
+    stems: dict[str, int] = {}
+    for path in sorted(class_dir.glob("*.toml")):
+        info = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {})
+        author = people.get(info.get("operator"), coordinator)
+        csv = path.with_suffix(".csv")
+        run = record_run(session, author, RunUpload(
+            run_toml=path.read_text(encoding="utf-8"), run_file_name=path.name, readings=csv.read_bytes(),
+            readings_name=csv.name, group_id=groups[info["group"]].id,
+            options=AnalysisOptions(monte_carlo_trials=0)))
+        stems[path.stem] = run.id
+    for target, text in COMMENTS:
+        if target in groups:
+            add_group_comment(session, coordinator, groups[target].id, text)
+        elif target in stems:
+            add_run_comment(session, coordinator, stems[target], text)
+    if EXCLUDED[0] in stems:
+        review_run(session, coordinator, stems[EXCLUDED[0]], "exclude", EXCLUDED[1])
 
 
 def _kind(path: Path) -> str:

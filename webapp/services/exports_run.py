@@ -21,6 +21,8 @@ from typing import Any
 
 import sqlalchemy.orm as so
 from calc import __version__
+from calc.refdata.comparison import verdict
+from calc.refdata.comparison import verdict_record
 
 from webapp.models import Person
 from webapp.models import Result
@@ -87,6 +89,7 @@ def result_document(result: Result) -> dict[str, Any]:
         "warnings": result.warnings,
         "checks": result.checks,
         "comparison": result.comparison,
+        "verdict": verdict_record(verdict(result.comparison)),
         "cautions": result.cautions,
         "properties": result.properties,
         "monte_carlo": result.monte_carlo,
@@ -169,7 +172,8 @@ def result_rows(run: Run) -> Iterable[list[Any]]:
         main = result_value(r, r.main) or (None, None, "")
         dt_ = result_value(r, "corrected_delta_t") or (None, None, "")
         heat = result_value(r, "heat") or (None, None, "")
-        en = (r.comparison or {}).get("En") if isinstance(r.comparison, dict) else None
+        vd = verdict(r.comparison)
+        en = vd.En if vd is not None else None
         yield [run.id, r.id, "yes" if r.is_current else "no", run.title, run.kind, r.method, r.main,
                main[0], main[1], r.expanded_uncertainty, r.coverage_factor, main[2], dt_[0], dt_[1],
                heat[0], heat[1], en, "; ".join(str(w) for w in (r.warnings or [])), run.author.name,

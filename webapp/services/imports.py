@@ -9,7 +9,10 @@ a single upload, and a Monte Carlo check can be made later by re-analysing a run
 
 Which group a run belongs to: the mapping CSV (columns ``file, group`` and optionally
 ``bench``), else ``[info] group`` of the run file, else the start of the file name
-(``G07-run2.toml`` → group ``G07``). The group must belong to the section.
+(``G07-run2.toml`` → group ``G07``). The group must belong to the section, unless the import is
+asked to create missing groups (``create_groups``): then a group named by ``[info] group`` (or the
+mapping) that does not exist yet is created in the section, in the same transaction as its first
+run; a name taken by a group of another section is still refused (group names are unique).
 """
 
 from __future__ import annotations
@@ -258,6 +261,7 @@ def import_files(
     *,
     mapping: str | None = None,
     progress: Callable[[str], None] | None = None,
+    create_groups: bool = False,
 ) -> ImportReport:
     """Import every run file among ``files`` into a section and report each file.
 
@@ -271,6 +275,9 @@ def import_files(
         say the group.
     progress:
         Called with each run file's path after it is handled (for progress bars).
+    create_groups:
+        Create a group that the mapping or ``[info] group`` names and that does not exist yet
+        (in this section).
 
     Raises
     ------
@@ -289,8 +296,9 @@ def import_files(
     used: set[str] = set()
     runs = sorted(p for p in files if p.lower().endswith(".toml"))
     options = AnalysisOptions(monte_carlo_trials=0)
+    maker = _GroupMaker(section, actor) if create_groups else None
     for path in runs:
-        item = _import_one(session, actor, path, files, maps, groups, benches, section_name, options, used)
+        item = _import_one(session, actor, path, files, maps, groups, benches, section_name, options, used, maker)
         report.items.append(item)
         if progress is not None:
             progress(path)
@@ -300,10 +308,42 @@ def import_files(
     return report
 
 
+class _GroupMaker:
+    """Creates the groups an import names that do not exist yet, in the import's section."""
+
+    def __init__(self, section: Any, actor: Person) -> None:
+        self.section_id, self.course_id, self.actor = section.id, section.course_id, actor
+        self.created: dict[str, Group] = {}
+
+    def make(self, session: so.Session, name: str, path: str, groups: dict[str, Group]) -> Group:
+        """Return a new group ``name`` of the section (added to ``groups``), flushed with the run to come."""
+        from webapp.services.audit import record_change
+
+        name = name.strip()
+        if not name or len(name) > 120:
+            raise Invalid(f"{path}, field 'info.group': a group name has 1 to 120 characters", field="group")
+        other = session.scalar(sa.select(Group).where(Group.name == name))
+        if other is not None:
+            raise Invalid(f"{path}, field 'info.group': group {name!r} belongs to another section; group names "
+                          "are unique in the notebook", field="group")
+        group = Group(name=name, course_id=self.course_id, section_id=self.section_id)
+        session.add(group)
+        session.flush()
+        record_change(session, self.actor, "group", group.id, "created", None, f"{name} (bulk import)")
+        groups[name] = self.created[name] = group
+        return group
+
+    def forget(self, groups: dict[str, Group]) -> None:
+        """Drop the groups made for a run that was not stored (rolled back with it)."""
+        for name in self.created:
+            groups.pop(name, None)
+        self.created.clear()
+
+
 def _import_one(
     session: so.Session, actor: Person, path: str, files: dict[str, bytes], maps: dict[str, Mapping],
     groups: dict[str, Group], benches: dict[str, Bench], section_name: str, options: AnalysisOptions,
-    used: set[str],
+    used: set[str], maker: _GroupMaker | None = None,
 ) -> ImportItem:
     raw = files[path]
     try:
@@ -326,7 +366,7 @@ def _import_one(
         m = maps.get(base)
         group = bench = None
         if m is not None:
-            group = groups.get(m.group)
+            group = groups.get(m.group) or (maker.make(session, m.group, path, groups) if maker else None)
             if group is None:
                 raise Invalid(f"{path}: the mapping names group {m.group!r}, which is not in section "
                               f"{section_name!r}", field="group")
@@ -338,7 +378,7 @@ def _import_one(
         else:
             named = _info_group(text)
             if named is not None:
-                group = groups.get(named)
+                group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
                 if group is None:
                     raise Invalid(f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}",
                                   field="group")
@@ -352,9 +392,13 @@ def _import_one(
                            calorimeter_id=bench.calorimeter_id if bench is not None else None,
                            group_id=group.id, options=options)
         run = _record(session, actor, upload, digest, bench)
-        return ImportItem(path, "stored", f"run #{run.id}", run.id, group.name)
+        made = maker is not None and maker.created.pop(group.name, None) is not None
+        return ImportItem(path, "stored", f"run #{run.id}" + (f"; group {group.name!r} created" if made else ""),
+                          run.id, group.name)
     except ServiceError as exc:
         session.rollback()
+        if maker is not None:
+            maker.forget(groups)
         return ImportItem(path, "error", exc.message)
     except sa.exc.DBAPIError as exc:
         session.rollback()  # nothing of this run is stored

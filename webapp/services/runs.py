@@ -331,7 +331,8 @@ def runs_query(
         sa.select(Run, Result)
         .outerjoin(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
         .where(visible_runs_clause(actor))
-        .options(so.joinedload(Run.author), so.joinedload(Run.group), so.joinedload(Run.calorimeter))
+        .options(so.joinedload(Run.author), so.joinedload(Run.group), so.joinedload(Run.calorimeter),
+                 so.selectinload(Run.review))
         .order_by(Run.created_at.desc(), Run.id.desc())
     )
     if kind is not None:

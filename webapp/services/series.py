@@ -119,7 +119,7 @@ def group_series(rows: list[Any], session: so.Session | None = None) -> list[dic
     """
     cells: dict[tuple[str, str], list[Any]] = defaultdict(list)
     for r in rows:
-        if r.value is not None and not getattr(r, "excluded", False):  # runs a check warns about stay out
+        if r.value is not None and getattr(r, "included", True) and not getattr(r, "excluded", False):
             cells[(r.group, r.measurement)].append(r)
     out = []
     for (group, meas), members in sorted(cells.items()):
