@@ -94,7 +94,8 @@ def test_round_trip_of_a_run_using_a_calibration(client: Any, lab: Any, session:
     _same_run(session, run_id, r.get_json()["id"])
     # once another heat capacity is in force, the numbers could not be reproduced: refused
     r = client.post(f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations",
-                    json={"heat_capacity": "25.0 ± 2.0 J/K"}, headers=lab.auth("coord"))
+                    json={"heat_capacity": "25.0 ± 2.0 J/K", "measured_on": "2026-11-30", "restart": True},
+                    headers=lab.auth("coord"))
     assert r.status_code == 201, r.get_json()
     r = client.post("/api/packages", json=doc, headers=lab.auth("a1"))
     assert r.status_code == 400 and r.get_json()["field"] == "provenance.calibration"
