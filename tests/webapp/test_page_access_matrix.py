@@ -148,7 +148,8 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
                "write": issue_scoped_token(session, a1, "p-write", "write")[1]}
     link = client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("a1")).get_json()["url"]
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": sections[0],
-            "calorimeter_id": lab.calorimeter_id, "calibration_id": _spare_calibration(session, lab), "link": parse_qs(urlsplit(link).query)["link"][0],
+            "calorimeter_id": lab.calorimeter_id, "calibration_id": _spare_calibration(session, lab),
+            "link": parse_qs(urlsplit(link).query)["link"][0],
             "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()}}
 
 
