@@ -5,7 +5,8 @@ makes ``test_every_documented_operation_has_a_row`` fail. Expected codes follow 
 webapp/services/access.py and the README (common practice of this project, no outside source):
 no credentials → 401; a read token may only GET (403 otherwise); a student sees only their own
 group's runs (404 for another group's, so their existence is not revealed); coordinators alone
-manage calorimeters, courses, sections, groups, series and webhooks (403); technicians see and
+manage calorimeters, courses, sections, groups, series and webhooks (403); technicians and
+coordinators record, approve and withdraw calibrations; technicians see and
 change every run. The run is a1's (group A); ``read``/``write`` are a1's scoped tokens.
 Write requests carry a minimal valid body where one is cheap; where a cheap valid body is
 not possible (packages, imports, rosters), an empty one is sent and a caller let through
@@ -69,7 +70,12 @@ EXPECTED: dict[tuple[str, str], dict[str, int]] = {
     ("patch", "/api/calorimeters/{calorimeter_id}"): row(401, 403, 403, 403, 200, 403, 403),
     ("patch", "/api/runs/{run_id}"): row(401, 404, 200, 200, 200, 403, 200),
     ("post", "/api/calorimeters"): row(401, 403, 403, 403, 201, 403, 403),
-    ("post", "/api/calorimeters/{calorimeter_id}/calibrations"): row(401, 403, 403, 403, 201, 403, 403),
+    ("post", "/api/calorimeters/{calorimeter_id}/calibrations"): row(401, 403, 403, 201, 201, 403, 403),
+    ("post", "/api/calibrations/{calibration_id}/approve"): row(401, 403, 403, 200, 200, 403, 403),
+    ("post", "/api/calibrations/{calibration_id}/withdraw"): row(401, 403, 403, 200, 200, 403, 403),
+    ("get", "/api/calibrations/{calibration_id}/runs"): row(401, 200, 200, 200, 200, 200, 200),
+    # the spare cup's only calibration is its value in force: staff are told to withdraw it first
+    ("post", "/api/calibrations/{calibration_id}/reanalyse-runs"): row(401, 403, 403, 400, 400, 403, 403),
     ("post", "/api/courses"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/groups"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/packages"): row(401, 400, 400, 400, 400, 403, 400),
@@ -129,7 +135,10 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     headers["write"] = {"Authorization": f"Bearer {issue_scoped_token(session, a1, 'm-write', 'write')[1]}"}
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": section_id,
             "run2": run2, "series_id": series_id, "webhook_id": r.get_json()["id"], "calorimeter_id": lab.calorimeter_id,
-            "group_id": lab.groups["A"], "headers": headers}
+            "group_id": lab.groups["A"],
+            "calibration_id": client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}", headers=coord).get_json()[
+                "current_calibration"]["id"],
+            "headers": headers}
 
 
 def _fresh_run(client: Any, lab: Any, w: dict[str, Any]) -> int:
@@ -142,20 +151,38 @@ def _fresh_webhook(client: Any, lab: Any, w: dict[str, Any]) -> int:
 
 
 #: path parameters that must be made anew for each caller (the request changes or removes them)
+def _fresh_proposal(client: Any, lab: Any, w: dict[str, Any]) -> int:
+    """A student's calibration run on the cup: a proposal to approve."""
+    run = _created(upload(client, lab.auth("a1"), "cal-electrical-01", monte_carlo=0))
+    items = client.get(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=lab.auth("a1")).get_json()
+    return next(c["id"] for c in items["items"] if c["run_id"] == run)
+
+
+def _fresh_calibration(client: Any, lab: Any, w: dict[str, Any]) -> int:
+    r = client.post(f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations", headers=lab.auth("coord"),
+                    json={"heat_capacity": "21.0 ± 3.0 J/K", "measured_on": "2026-11-30"})
+    return _created(r)
+
+
 FRESH: dict[tuple[str, str], tuple[str, Callable[..., int]]] = {
     ("post", "/api/runs/{run_id}/lock"): ("run_id", _fresh_run),
+    ("post", "/api/calibrations/{calibration_id}/approve"): ("calibration_id", _fresh_proposal),
+    ("post", "/api/calibrations/{calibration_id}/withdraw"): ("calibration_id", _fresh_calibration),
     ("delete", "/api/webhooks/{webhook_id}"): ("webhook_id", _fresh_webhook),
     ("post", "/api/runs/{run_id}/review"): ("run_id", _fresh_run),
 }
 
 #: request bodies (``who`` keeps names unique between callers); the rest send none
 BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = {
-    ("patch", "/api/runs/{run_id}"): lambda who, w: {"json": {"notes": f"seen by {who}"}},
+    ("patch", "/api/runs/{run_id}"): lambda who, w: {"json": {"notes": f"seen by {who}"},
+                                                    "headers": {"If-Match": "*"}},
     ("post", "/api/runs/{run_id}/analyses"): lambda who, w: {"json": {"monte_carlo": 0}},
     ("post", "/api/calorimeters"): lambda who, w: {"json": {"name": f"Cup {who}"}},
-    ("patch", "/api/calorimeters/{calorimeter_id}"): lambda who, w: {"json": {"location": f"bench {who}"}},
+    ("patch", "/api/calorimeters/{calorimeter_id}"): lambda who, w: {"json": {"location": f"bench {who}"},
+                                                                    "headers": {"If-Match": "*"}},
     ("post", "/api/calorimeters/{calorimeter_id}/calibrations"): lambda who, w: {
-        "json": {"heat_capacity": "20.0 ± 2.0 J/K"}},
+        "json": {"heat_capacity": "20.0 ± 2.0 J/K", "measured_on": "2026-11-30"}},
+    ("post", "/api/calibrations/{calibration_id}/withdraw"): lambda who, w: {"json": {"reason": f"by {who}"}},
     ("post", "/api/groups"): lambda who, w: {"json": {"name": f"Group {who}"}},
     ("post", "/api/courses"): lambda who, w: {"json": {"name": f"Course {who}"}},
     ("post", "/api/sections"): lambda who, w: {"json": {"course_id": w["course_id"], "name": f"S {who}"}},
@@ -194,7 +221,11 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "series_id", "webhook_id",
+<<<<<<< HEAD
                                 "calorimeter_id", "group_id")} | PATH_VALUES
+=======
+                                "calorimeter_id", "calibration_id")} | PATH_VALUES
+>>>>>>> h/lockcal
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)
@@ -202,7 +233,8 @@ def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who:
     if method == "get" and path == "/api/exports":
         url += f"?run_ids={w['run_id']}&format=csv"
     kwargs = BODIES.get((method, path), lambda who, w: {})(who, w)
-    r = client.open(url, method=method.upper(), headers=w["headers"][who], **kwargs)
+    headers = {**w["headers"][who], **kwargs.pop("headers", {})}
+    r = client.open(url, method=method.upper(), headers=headers, **kwargs)
     return r.status_code
 
 

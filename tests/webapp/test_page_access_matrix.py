@@ -53,6 +53,7 @@ def row(*outcomes: int | str) -> dict[str, int | str]:
 
 ALL_SIGNED_IN = row(L, 200, 200, 200, 200, L, L)
 COORDINATOR_FORM = row(L, 403, 403, 403, R, L, L)
+STAFF_FORM = row(L, 403, 403, R, R, L, L)  # technicians and coordinators (calibrations)
 STAFF_ONLY = row(L, 403, 403, 200, 200, L, L)
 A1S_RUN = row(L, 404, 200, 200, 200, L, L)
 
@@ -70,7 +71,11 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("GET", "/calorimeters/<int:calorimeter_id>"): ALL_SIGNED_IN,
     ("GET", "/calorimeters/<int:calorimeter_id>/control"): ALL_SIGNED_IN,  # see test_control_chart_hides_...
     ("POST", "/calorimeters/<int:calorimeter_id>/edit"): COORDINATOR_FORM,
-    ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): COORDINATOR_FORM,
+    ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): STAFF_FORM,
+    # the calibration actions flash their outcome (approved, withdrawn, or why not) and go back to the page
+    ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/approve"): STAFF_FORM,
+    ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/withdraw"): STAFF_FORM,
+    ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyse-runs"): STAFF_FORM,
     ("GET", "/calorimeters/<int:calorimeter_id>/history.svg"): ALL_SIGNED_IN,
     ("GET", "/classes/"): ALL_SIGNED_IN,
     ("POST", "/classes/courses"): COORDINATOR_FORM,
@@ -161,7 +166,8 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     link = client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("a1")).get_json()["url"]
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": sections[0],
             "group_id": lab.groups["A"], "person_id": lab.ids["a2"], "a2_id": lab.ids["a2"],
-            "calorimeter_id": lab.calorimeter_id, "link": parse_qs(urlsplit(link).query)["link"][0],
+            "calorimeter_id": lab.calorimeter_id, "calibration_id": _spare_calibration(session, lab),
+            "link": parse_qs(urlsplit(link).query)["link"][0],
             "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()}}
 
 
@@ -207,6 +213,10 @@ def _fresh_token(app: Any, lab: Any, w: dict[str, Any]) -> int:
         return issue_scoped_token(s, s.get(Person, lab.ids["a1"]), "to revoke", "read")[0].id
     finally:
         s.close()
+
+
+def _spare_calibration(session: Any, lab: Any) -> int:
+    return int(session.scalar(sa.select(Calibration.id).where(Calibration.calorimeter_id == lab.spare_calorimeter_id)))
 
 
 #: path parameters made anew for each caller (the request changes them)
@@ -269,7 +279,7 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
     ("POST", "/calorimeters/<int:calorimeter_id>/edit"): lambda who, w: {
         "edit-name": "Cup TH-07 (two nested foam cups, lid)", "edit-parts": "two cups", "edit-location": f"by {who}"},
     ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): lambda who, w: {
-        "hc-heat_capacity": "19.0 ± 1.5 J/K", "hc-note": f"entered by {who}"},
+        "hc-heat_capacity": "19.0 ± 1.5 J/K", "hc-note": f"entered by {who}", "hc-measured_on": "2026-11-30"},
     ("POST", "/classes/courses"): lambda who, w: {"name": f"Course {who}"},
     ("POST", "/classes/courses/<int:course_id>/sections"): lambda who, w: {"name": f"Section {who}"},
     ("POST", "/classes/roster"): lambda who, w: {
@@ -302,7 +312,7 @@ EFFECTS: dict[tuple[str, str], tuple[Callable[[Any], int], int]] = {
     ("POST", "/auth/tokens/<int:token_id>/revoke"): (_count(ApiToken, ApiToken.revoked_at.is_not(None)), 1),
     ("POST", "/calorimeters/"): (_count(Calorimeter), 1),
     ("POST", "/calorimeters/<int:calorimeter_id>/edit"): (_count(AuditEntry, AuditEntry.entity == "calorimeter"), 1),
-    ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): (_count(Calibration), 1),
+    ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): (_count(Calibration, Calibration.pool.is_(None)), 2),
     ("POST", "/classes/courses"): (_count(Course), 1),
     ("POST", "/classes/courses/<int:course_id>/sections"): (_count(Section), 1),
     ("POST", "/classes/roster"): (_count(Person), 1),
@@ -338,7 +348,7 @@ def _query(rule: str, w: dict[str, Any], link: str | None) -> str:
 def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str, link: str | None = None) -> Any:
     """Send one route's request as ``who`` (with a signed ``link`` on the embed routes) and return the response."""
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "calorimeter_id", "group_id",
-                                "person_id")}
+                                "person_id", "calibration_id")}
     values |= PATH_VALUES.get(rule, {})
     if (method, rule) in FRESH:
         name, make = FRESH[(method, rule)]

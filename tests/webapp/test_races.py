@@ -129,3 +129,15 @@ def test_the_webhook_queued_at_the_lock_carries_the_signed_result(client: Any, l
     body = json.loads(session.scalar(sa.select(WebhookDelivery.body).where(WebhookDelivery.run_id == run_id)))
     assert body["result"]["id"] == newest and body["result"]["method"] == "naive"
     assert body["signed"] == {"result_id": newest, "content_hash": locked["locked_hash"]}
+
+
+def test_a_stale_calorimeter_write_gets_409_with_its_current_state(client: Any, lab: Any) -> None:
+    url = f"/api/calorimeters/{lab.calorimeter_id}"
+    h = lab.auth("coord")
+    etag = client.get(url, headers=h).headers["ETag"]
+    r = client.patch(url, headers={**h, "If-Match": etag}, json={"location": "Room 3B"})
+    assert r.status_code == 200 and r.headers["ETag"] != etag
+    r = client.patch(url, headers={**h, "If-Match": etag}, json={"location": "Room 4C"})
+    assert r.status_code == 409 and r.get_json()["current"]["calorimeter"]["location"] == "Room 3B"
+    assert client.patch(url, headers=h, json={"location": "Room 4C"}).status_code == 428
+    assert client.get(url, headers=h).get_json()["location"] == "Room 3B"

@@ -175,11 +175,6 @@ def calorimeters_due(
     return sorted(out, key=lambda cw: (cw[1] is not None, cw[1] or dt.datetime.min, cw[0].name))
 
 
-def runs_using(calibration_id: int) -> sa.Select[tuple[Run]]:
-    """Return the query of the runs whose C_cal came from this calibration."""
-    return sa.select(Run).where(Run.calibration_id == calibration_id).order_by(Run.id)
-
-
 def _describe(cal: Calibration | None) -> str | None:
     if cal is None:
         return None

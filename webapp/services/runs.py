@@ -158,6 +158,8 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     result.created_by = actor
     session.add_all([run, result])
     try:
+        if calibration is not None:
+            _still_in_force(session, calibration)
         if spec.kind in CALIBRATION_KINDS and calorimeter is not None:
             session.flush()
             from webapp.services.calibrations import calibration_from_result
@@ -168,6 +170,17 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
         session.rollback()
         raise Conflict("the run could not be stored (it conflicts with stored data)") from None
     return run
+
+
+def _still_in_force(session: so.Session, calibration: Calibration) -> None:
+    """Check, in the writing transaction, that the value the run was analysed with is still in force."""
+    session.flush()  # SQLite's write transaction starts here; PostgreSQL locks the calorimeter's row next
+    session.execute(sa.select(Calorimeter.id).where(Calorimeter.id == calibration.calorimeter_id).with_for_update())
+    now = current_calibration(session, calibration.calorimeter_id)
+    if now is None or now.id != calibration.id:
+        session.rollback()
+        raise Conflict("the calorimeter's heat capacity in force changed while the run was analysed; nothing was "
+                       "saved, send it again", field="calorimeter.heat_capacity")
 
 
 def reanalyse_run(session: so.Session, actor: Person, run: Run, options: AnalysisOptions,
