@@ -221,11 +221,7 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "series_id", "webhook_id",
-<<<<<<< HEAD
-                                "calorimeter_id", "group_id")} | PATH_VALUES
-=======
-                                "calorimeter_id", "calibration_id")} | PATH_VALUES
->>>>>>> h/lockcal
+                                "calorimeter_id", "group_id", "calibration_id")} | PATH_VALUES
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)
