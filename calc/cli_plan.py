@@ -71,29 +71,30 @@ def plan_record(plan: Any) -> dict[str, Any]:
 
 def format_plan(plan: Any) -> str:
     """Return the human-readable plan."""
-    from calc.report import format_value
+    from calc import formatting as fmt
 
+    label = "C_cal" if plan.result_unit == "J/K" else "ΔH"
     lines = [f"Plan of a {plan.kind} run", ""]
-    lines.append(f"  expected ΔH       {plan.predicted_result:.2f} {plan.result_unit}")
+    lines.append(f"  expected {label:<8} {fmt.like(plan.predicted_result, plan.predicted_U, plan.result_unit)}")
     lines.append(f"                    from {plan.expected_note}")
-    lines.append(f"  predicted ΔT      {format_value(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
-                 f"(start {plan.start_temperature_K - 273.15:.1f} °C; useful |ΔT| {plan.window[0]:g}–{plan.window[1]:g} K)")
-    d = max(0, 1 - math.floor(math.log10(plan.predicted_U))) if plan.predicted_U > 0 else 3
-    rel = 100 * plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else math.nan
-    lines.append(f"  predicted ΔH      {plan.predicted_result:.{d}f} ± {plan.predicted_U:.{d}f} {plan.result_unit}  "
-                 f"(U at 95 %, k = {plan.coverage_factor:.2f}; {rel:.1f} %)")
+    lines.append(f"  predicted ΔT      {fmt.measured(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
+                 f"(start {fmt.temperature(plan.start_temperature_K)}; useful |ΔT| "
+                 f"{fmt.number(plan.window[0], trim=True)} to {fmt.number(plan.window[1], 'K', trim=True)})")
+    rel = plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else None
+    lines.append(f"  predicted {label:<7} {fmt.measured(plan.predicted_result, plan.predicted_U, plan.result_unit)}  "
+                 f"(U at 95 %, k = {fmt.fixed(plan.coverage_factor, 2)}; {fmt.percent(rel)})")
     lines.append("")
     lines.append("what limits the result (share of u²(ΔH)):")
     for e in plan.equipment:
         if e.share >= 0.001:
-            lines.append(f"  {100 * e.share:5.1f} %  {e.equipment}")
+            lines.append(f"  {fmt.percent(e.share):>7}  {e.equipment}")
     lines.append(f"  → limited by: {plan.limiting}")
     if plan.suggestion is not None:
         s = plan.suggestion
         lines.append("")
         lines.append(f"amount: {s.message}")
-        lines.append(f"  {s.quantity}: {s.low:.3g}–{s.high:.3g} {s.unit} keeps |ΔT| in the window; "
-                     f"recommended {s.recommended:.3g} {s.unit}")
+        lines.append(f"  {s.quantity}: {fmt.number(s.low)} to {fmt.number(s.high, s.unit)} keeps |ΔT| in the "
+                     f"window; recommended {fmt.number(s.recommended, s.unit)}")
     if plan.warnings:
         lines.append("")
         lines.append("warnings:")

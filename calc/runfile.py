@@ -397,9 +397,9 @@ def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> 
             )
     if kind == "dissolution":
         purity = sections["solute"].get("purity")
-        if purity is not None and not (0 < purity.value <= 1):
+        if purity is not None and not (0 < purity.m_as("") <= 1):
             raise InputError(
-                f"expected a mass fraction between 0 and 1, got '{purity.text}'",
+                f"expected a mass fraction between 0 and 1 (or 0 % to 100 %), got '{purity.text}'",
                 source=source,
                 field="solute.purity",
             )

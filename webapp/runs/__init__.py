@@ -6,6 +6,5 @@ from flask import Blueprint
 
 bp = Blueprint("runs", __name__, url_prefix="/runs")
 
-from webapp.runs import filters  # noqa: E402,F401  (registers the template filters)
 from webapp.runs import new  # noqa: E402,F401  (registers the routes)
 from webapp.runs import views  # noqa: E402,F401  (registers the routes)
