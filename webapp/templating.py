@@ -95,10 +95,35 @@ def unit_text(unit: str | None) -> str:
     return fmt.unit_text(unit)
 
 
+def entered_units(source: Any) -> dict[str, str]:
+    """Return {run-file field: unit as written} from a calc Analysis or a run's stored inputs."""
+    if source is None:
+        return {}
+    if hasattr(source, "spec"):
+        from calc.report import entered_units as of_analysis
+
+        return of_analysis(source)
+    return {i.field: i.unit for i in source if getattr(i, "unit", None)}
+
+
+def budget_value(line: Any, entered: dict[str, str] | None = None) -> str:
+    """Return a budget input's value rounded to match its u, with its unit.
+
+    An absolute temperature is shown in the unit the user entered (44.60 °C, not 317.75 K).
+    """
+    get = line.get if isinstance(line, dict) else (lambda k: getattr(line, k, None))
+    value, u, unit = get("value"), get("standard_uncertainty"), get("unit") or ""
+    written = (entered or {}).get(get("input") or get("name") or "")
+    if unit == "K" and written and fmt.unit_text(written) in ("°C", "°F"):
+        scale, shown, shown_unit = fmt.temperature_in(float(value), written)
+        return fmt.like(shown, (u or 0) * scale, shown_unit)
+    return fmt.like(value, u, unit)
+
+
 FILTERS = {
     "pm": pm, "when": when, "sig": sig, "fixed": fixed, "signed": signed, "like": like, "unc": unc,
     "interval": interval, "pct": pct, "secs": secs, "celsius": celsius, "temp": temp, "dof": dof,
-    "unit_text": unit_text,
+    "unit_text": unit_text, "entered_units": entered_units, "budget_value": budget_value,
 }
 
 
