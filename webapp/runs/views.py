@@ -14,7 +14,13 @@ from flask_login import current_user
 from flask_login import login_required
 
 from webapp.auth.forms import ConfirmForm
+from calc.runfile import KINDS
 from webapp.db import get_session
+from webapp.services.calorimeters import calorimeters_query
+from webapp.services.run_list import FLAGS as RUN_FLAGS
+from webapp.services.run_list import SORTS as RUN_SORTS
+from webapp.services.run_list import filtered_runs_query
+from webapp.services.run_list import read_filter
 from webapp.plot_cache import budget_plot
 from webapp.plot_cache import draw_result_plots
 from webapp.plot_cache import run_plot
@@ -45,8 +51,11 @@ def index():  # type: ignore[no-untyped-def]
     """List the runs I may see, newest first, a page at a time."""
     page = request.args.get("page", 1, type=int) or 1
     per_page = int(current_app.config["PAGE_SIZE"])
-    result = paginate(get_session(), runs_query(current_user), page, per_page)
-    return render_template("runs/index.html", page=result)
+    chosen = read_filter(request.args)
+    session = get_session()
+    result = paginate(session, filtered_runs_query(current_user, chosen), page, per_page)
+    return render_template("runs/index.html", page=result, chosen=chosen, kinds=KINDS, flags=RUN_FLAGS,
+                           sorts=RUN_SORTS, cups=[c.name for c in session.scalars(calorimeters_query())])
 
 
 @bp.route("/<int:run_id>")
@@ -149,3 +158,14 @@ def _attachment(name: str) -> str:
     """Return a Content-Disposition header value for a stored file name (ASCII, quotes dropped)."""
     safe = "".join(ch for ch in name if ch.isascii() and ch.isprintable() and ch not in '"\\')
     return f'attachment; filename="{safe or "file"}"'
+
+
+@bp.route("/samples")
+@login_required
+def series_index():  # type: ignore[no-untyped-def]
+    """Replicates by sample (lot): each sample's runs with mean, t 95 % interval and ν_eff."""
+    from webapp.services.samples import sample_series
+
+    sample = (request.args.get("sample") or "").strip()
+    return render_template("runs/samples.html", series=sample_series(get_session(), current_user, sample=sample),
+                           sample=sample)
