@@ -30,6 +30,7 @@ from webapp.runs import bp
 from webapp.runs.forms import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
+from webapp.services.errors import Forbidden
 from webapp.services.errors import ServiceError
 from webapp.services.pages import result_of
 from webapp.services.pages import run_page
@@ -125,6 +126,20 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
     draw_result_plots(run, result)  # into the cache now, so the page opens at once
     flash("Analysed again; the earlier result is kept.")
     return redirect(url_for("runs.detail", run_id=run_id))
+
+
+@bp.route("/<int:run_id>/lock", methods=["GET"])
+@login_required
+def lock_confirm(run_id: int):  # type: ignore[no-untyped-def]
+    """The step before signing: what locking means, the result that will be final, and the button."""
+    page = run_page(get_session(), current_user, run_id)
+    if page.run.locked:
+        flash("This run is locked (signed) already.")
+        return redirect(url_for("runs.detail", run_id=run_id))
+    if not page.may_lock:
+        raise Forbidden("only the run's author or a coordinator may lock (sign) it")
+    return render_template("runs/lock_confirm.html", run=page.run, result=page.result, lock_form=ConfirmForm(),
+                           unit=main_value(page.result)[2] if page.result is not None else "")
 
 
 @bp.route("/<int:run_id>/lock", methods=["POST"])
