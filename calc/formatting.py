@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 import warnings
+from functools import lru_cache
 from typing import Any
 
 DASH = "—"
@@ -123,6 +124,11 @@ def measured(value: Any, u: Any, unit: str = "", *, digits: int = UNCERTAINTY_DI
         return DASH
     if s is None or s <= 0:
         return number(v, unit, digits=6, trim=True)
+    return _measured(v, s, unit, digits)
+
+
+@lru_cache(maxsize=8192)  # pages print the same stored results again and again
+def _measured(v: float, s: float, unit: str, digits: int) -> str:
     magnitude = max(abs(v), s)
     if not (_FIXED_RANGE[0] <= magnitude < _FIXED_RANGE[1]):
         spec = f".{digits}uP"  # (1.20±0.05)×10⁻⁵: fixed-point would be all zeros

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import threading
 from collections import Counter
 from collections import defaultdict
 from typing import Any
@@ -135,7 +136,7 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
             Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
             Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
             Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.budget, res_in.value,
+            Result.id, Result.created_at, res_in.value,
         )
         .join(Group, Group.id == Run.group_id)
         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
@@ -161,14 +162,47 @@ def _measurement(kind: str, comparison: dict[str, Any] | None) -> str:
     return f"{kind} · {name}" if name else kind
 
 
+#: (database, result id, its time) → (shared Type B part, largest budget line): a result's budget never
+#: changes (a new analysis is a new result), so the dashboard reads each budget once per process
+_DIGESTS: dict[tuple[str, int, Any], tuple[tuple[float, float], tuple[str, str, float]]] = {}
+_DIGESTS_MAX = 20000
+_DIGESTS_LOCK = threading.Lock()
+
+
+def _digest(budget: list[Any] | None) -> tuple[tuple[float, float], tuple[str, str, float]]:
+    lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
+    top = max(lines, key=lambda b: b["share"]) if lines else None
+    largest = (top.get("input", ""), top.get("label", ""), float(top["share"])) if top else ("", "", 0.0)
+    return shared_type_b(budget_lines(lines)), largest
+
+
+def _budget_digests(session: so.Session, keys: list[tuple[int, Any]]
+                    ) -> dict[tuple[int, Any], tuple[tuple[float, float], tuple[str, str, float]]]:
+    """Return the budget digest of each (result id, created at), reading only budgets not seen before."""
+    db = str(session.get_bind().url)
+    with _DIGESTS_LOCK:
+        out = {k: _DIGESTS[(db, *k)] for k in keys if (db, *k) in _DIGESTS}
+    missing = [k for k in keys if k not in out]
+    for start in range(0, len(missing), 500):
+        chunk = {rid: at for rid, at in missing[start:start + 500]}
+        for rid, budget in session.execute(sa.select(Result.id, Result.budget).where(Result.id.in_(chunk))):
+            out[(rid, chunk[rid])] = _digest(budget)
+    with _DIGESTS_LOCK:
+        if len(_DIGESTS) + len(missing) > _DIGESTS_MAX:
+            _DIGESTS.clear()
+        _DIGESTS.update({(db, *k): out[k] for k in missing if k in out})
+    return out
+
+
 def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     """Return the dashboard rows of the current results of the sections' runs, flags set."""
     names = {s.id: s.name for s in sections}
     raw = session.execute(_query(list(names))).all()
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
+    digests = _budget_digests(session, [(r[18], r[19]) for r in raw])
     for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, budget, resolution) in raw:
+         comparison, result_id, result_at, resolution) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
         en = comp.get("En_adjusted") if comp.get("En_adjusted") is not None else comp.get("En")
@@ -196,11 +230,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                 row.notes["no-calibration"] = ("the calorimeter's heat capacity came from the run file, and "
                                                + ("no calorimeter is named" if calo_id is None else
                                                   "the calorimeter had no calibration on record"))
-        lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
-        row.type_b = shared_type_b(budget_lines(lines))
-        if lines:
-            top = max(lines, key=lambda b: b["share"])
-            row.top_input, row.top_label, row.top_share = top.get("input", ""), top.get("label", ""), float(top["share"])
+        row.type_b, (row.top_input, row.top_label, row.top_share) = digests[(result_id, result_at)]
         rows.append(row)
     _grubbs_flags(rows)
     return rows
