@@ -30,6 +30,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc import formatting as fmt
 from calc.errors import InputError
 from calc.replicates import shared_type_b
 from calc.stats import grubbs
@@ -215,7 +216,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
             row.notes["En"] = f"En = {en:+.2f}: the result and the reference differ by more than their uncertainties allow"
         if resolution is not None and abs(dT) < 10 * resolution:
             row.flags.append("small-dT")
-            row.notes["small-dT"] = f"|ΔT| = {abs(dT):.3g} K is under 10 × the resolution {resolution:g} K"
+            row.notes["small-dT"] = f"|ΔT| = {fmt.number(abs(dT), 'K')} is under 10 × the resolution {fmt.number(resolution, 'K', trim=True)}"
         for w in warnings or []:
             if w.startswith("large drift") and "drift" not in row.flags:
                 row.flags.append("drift")
@@ -249,7 +250,7 @@ def _grubbs_flags(rows: list[Row]) -> None:
             m = members[g.index]
             m.flags.append("outlier")
             m.notes["outlier"] = (f"G = {g.G:.2f} > G_crit = {g.G_crit:.2f} among {g.n} results "
-                                  f"(section mean {g.mean:.4g} {m.unit})")
+                                  f"(section mean {fmt.number(g.mean, m.unit, digits=4)})")
 
 
 def statistics(rows: list[Row]) -> list[Stats]:
