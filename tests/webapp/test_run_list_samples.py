@@ -71,3 +71,12 @@ def test_samples_page_gives_mean_t_interval_and_dof(client: Any, lab: Any, lots:
     # one run of lot B: no statistics, said plainly
     assert "at least two" in html.split("LOT-B2</a>")[1].split("</tr>")[0]
     assert client.get("/runs/samples?sample=" + "x" * 201).status_code == 400
+
+
+def test_a_96000_character_title_is_refused_with_its_field(client: Any, lab: Any) -> None:
+    toml, _ = demo_files("diss-kcl-01")
+    toml = re.sub(r'title = "[^"]*"', 'title = "' + "T" * 96000 + '"', toml, count=1)
+    r = upload(client, lab.auth("a1"), "diss-kcl-01", toml=toml, monte_carlo=0)
+    body = r.get_json()
+    assert r.status_code == 400 and body["field"] == "info.title", body
+    assert "96,000 characters" in body["error"] and "300" in body["error"]
