@@ -81,3 +81,14 @@ def test_planning_page_plans_every_kind(client: Any, lab: Any, kind: str, fields
     html = r.get_data(as_text=True)
     assert r.status_code == 200, html.split('id="error-summary"')[-1][:500]
     assert "Predicted ΔT" in html and " K</td>" in html
+
+
+def test_plan_api_takes_the_calibration_kinds(client: Any, lab: Any) -> None:
+    body = {"kind": "mixing-calibration", "water_volume": "50.0 ± 0.1 mL", "warm_volume": "50.0 ± 0.1 mL",
+            "warm_temperature": "45.0 ± 0.1 degC", "calorimeter_heat_capacity": "20 ± 5 J/K",
+            "thermometer_resolution": 0.01}
+    r = client.post("/api/plan", json=body, headers=lab.auth("b1"))
+    assert r.status_code == 200, r.get_json()
+    assert r.get_json()["molar_enthalpy"]["unit"] == "J/K" and r.get_json()["predicted_delta_t"]["value"] > 5
+    r = client.post("/api/plan", json={**body, "warm_temperature": "10 degC"}, headers=lab.auth("b1"))
+    assert r.status_code == 400 and "warm" in r.get_json()["error"]
