@@ -44,6 +44,12 @@ def test_runs_list_searches_filters_and_sorts(client: Any, lab: Any, lots: dict[
     order = [t for t in re.findall(r">(Lot [AB] \w+)</a>", html)]
     assert order == sorted(order) and len(order) == 4
     assert "Lot A" not in client.get("/runs/?kind=neutralization").get_data(as_text=True)
+    # flags: every run here has a result and is open; the warnings filter is a valid query on both databases
+    assert "No runs match" in client.get("/runs/?flag=no-result").get_data(as_text=True)
+    assert "No runs match" in client.get("/runs/?flag=signed").get_data(as_text=True)
+    assert client.get("/runs/?flag=open").get_data(as_text=True).count("Lot A") == 3
+    with_warnings = client.get("/runs/?flag=warnings&sort=cup")
+    assert with_warnings.status_code == 200
     for bad in ("kind=bogus", "sort=bogus", "flag=bogus", "q=" + "x" * 201):
         r = client.get(f"/runs/?{bad}")
         assert r.status_code == 400, bad
