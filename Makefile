@@ -14,9 +14,10 @@ $(STAMP): $(BIN)/python pyproject.toml
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $(STAMP)
 
-# the notebook: migrations, the demo lab if the database is empty, http://127.0.0.1:5000
+# the notebook: migrations, the demo lab if the database is empty, http://127.0.0.1:$(PORT)
+PORT ?= 5000
 run: $(STAMP)
-	$(BIN)/cupcal serve
+	$(BIN)/cupcal serve --port $(PORT)
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -n 2 -q

@@ -44,6 +44,7 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.analysis import kind_warnings, resolve_properties
+from calc.plan_kinds import CALIBRATION_KINDS, PLAN_KINDS, build_sections, solve_delta_t
 from calc.deltat.methods import resolution_term  # the analysis's own resolution term
 from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
 from calc.errors import InputError
@@ -55,7 +56,7 @@ from calc.io.runfile import RunSpec, parse_run
 __all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
            "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
 
-PLANNED_KINDS = ("dissolution", "neutralization")
+PLANNED_KINDS = tuple(PLAN_KINDS)
 MIN_DELTA_T_K = 1.0
 MAX_DELTA_T_K = 10.0
 RESOLUTION_MULTIPLE = 20.0
@@ -64,7 +65,7 @@ HOT_RISE_K = 10.0
 AFTER_ADVISED_S = 300.0
 #: Typical release time constants (docs/methods.md §7.2): salts dissolve in 20–120 s, a poured
 #: neutralization mixes in 2–5 s.
-DEFAULT_RELEASE_S = {"dissolution": 60.0, "neutralization": 5.0}
+DEFAULT_RELEASE_S = {k: v.release_s for k, v in PLAN_KINDS.items()}
 _SMOOTHING_S = 15.0
 _MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
 
@@ -252,24 +253,28 @@ class _Design:
     enthalpy: float | None  # given expected ΔH, kJ/mol
     substances: list[str]
 
+    expected_cal: float | None = None  # J/K: a calibration's expected heat capacity
+
     @property
     def two_solution(self) -> bool:
-        return self.kind == "neutralization"
+        return PLAN_KINDS[self.kind].two_solution
+
+    @property
+    def main(self) -> str:
+        return PLAN_KINDS[self.kind].main
 
     def scaled(self, factor: float) -> _Design:
         secs = {k: dict(v) for k, v in self.sections.items()}
-        keys = [("solute", "mass")] if self.kind == "dissolution" else [("acid", "concentration"), ("base", "concentration")]
-        for sec, name in keys:
+        for sec, name in PLAN_KINDS[self.kind].scaled:
             m = secs[sec][name]
             secs[sec][name] = Measured(m.value * factor, m.u, m.unit, m.distribution, f"{m.value * factor!r} {m.unit}")
         return replace(self, sections=secs)
 
     def amount(self) -> tuple[str, float, str]:
-        if self.kind == "dissolution":
-            m = self.sections["solute"]["mass"]
-            return "solute.mass", m.value, m.unit
-        m = self.sections["acid"]["concentration"]
-        return "acid.concentration and base.concentration (scaled together)", m.value, m.unit
+        keys = PLAN_KINDS[self.kind].scaled
+        m = self.sections[keys[0][0]][keys[0][1]]
+        names = " and ".join(f"{sec}.{name}" for sec, name in keys)
+        return names + (" (scaled together)" if len(keys) > 1 else ""), m.value, m.unit
 
     def run_file(self) -> str:
         lines = [f'kind = "{self.kind}"', 'readings = "readings.csv"  # the log to be recorded', "",
@@ -277,6 +282,9 @@ class _Design:
         for sec, fields in self.sections.items():
             lines += ["", f"[{sec}]"]
             for name, v in fields.items():
+                if isinstance(v, int):
+                    lines.append(f"{name} = {v}")
+                    continue
                 text = v if isinstance(v, str) else f"{v.value:.6g} ± {v.u:.2g} {v.unit}"
                 lines.append(f'{name} = "{text}"')
         return "\n".join(lines) + "\n"
@@ -295,6 +303,8 @@ _Evaluation = NamedTuple("_Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("pr
 
 
 def _expected(design: _Design, molality: float | None, T: float) -> tuple[float, str]:
+    if design.expected_cal is not None:
+        return design.expected_cal, "the heat capacity the calorimeter is expected to have (as given)"
     if design.enthalpy is not None:
         return design.enthalpy, "expected ΔH as given"
     from calc.refdata.reference import find_reference
@@ -317,7 +327,7 @@ def _expected(design: _Design, molality: float | None, T: float) -> tuple[float,
 def _evaluate(design: _Design) -> _Evaluation:
     """Predict ΔT from the expected ΔH through the run kind's own model (iterated for properties)."""
     spec = design.spec()
-    main = "molar_enthalpy"
+    main = design.main
     value = 0.0
     for _ in range(6):
         dt = _delta_t(value, design.T0, design.thermo, design.two_solution)
@@ -325,14 +335,12 @@ def _evaluate(design: _Design) -> _Evaluation:
         model = build_model(spec, dt, props)
         expected, note = _expected(design, model.molality, design.T0)
         x = {inp.name: inp.value for inp in model.inputs}
-        h = []
-        for probe in (1.0, 2.0):
-            x["delta_t.fit"] = probe
-            h.append(float(model.model(x)[main]))
-        slope = h[1] - h[0]
-        if slope == 0 or not math.isfinite(slope):
-            raise InputError("the planned amounts give no temperature change: check the amounts", field="amount")
-        new = (expected - (h[0] - slope)) / slope
+
+        def output(d: float, x: dict[str, Any] = x, model: ModelSpec = model) -> float:
+            x["delta_t.fit"] = d
+            return float(model.model(x)[main])
+
+        new = solve_delta_t(output, expected)
         done = abs(new - value) <= 1e-7 * max(abs(new), 1e-3)
         value = new
         if done:
@@ -414,6 +422,7 @@ def plan_run(
     release_time: float | None = None,
     probe_time: float = 5.0,
     molar_enthalpy: float | None = None,
+    kind_inputs: dict[str, Any] | None = None,
 ) -> Plan:
     """Predict a run's temperature change and the uncertainty of its ΔH before it is made.
 
@@ -462,31 +471,22 @@ def plan_run(
     tau_r = DEFAULT_RELEASE_S[kind] if release_time is None else release_time
     th = _Thermo(q, sigma, float(noise_correlation), *(_number(v, n) for v, n in (
         (interval, "interval"), (fore, "fore"), (after, "after"), (tau_r, "release_time"), (probe_time, "probe_time"))))
-    sections: dict[str, dict[str, Any]] = {
-        "calorimeter": {"heat_capacity": _measured(calorimeter_heat_capacity, "calorimeter_heat_capacity", "J/K")}}
-    if kind == "dissolution":
-        if not formula:
-            raise InputError("missing: the solute's formula, e.g. KCl", field="formula")
-        sections["water"] = {"volume": _amount(water_volume, "water_volume", "mL", volume_u)}
-        sections["solute"] = {"formula": formula.strip(), "mass": _amount(mass, "mass", "g", balance_u)}
-        substances = [formula.strip()]
+    cal = _measured(calorimeter_heat_capacity, "calorimeter_heat_capacity", "J/K")
+    params = dict(formula=formula, mass=mass, water_volume=water_volume, acid=acid, base=base,
+                  acid_concentration=acid_concentration, base_concentration=base_concentration,
+                  acid_volume=acid_volume, base_volume=base_volume, base_temperature=base_temperature,
+                  balance_u=balance_u, volume_u=volume_u, molar_enthalpy=molar_enthalpy, **(kind_inputs or {}))
+    built, substances = build_sections(kind, params, _amount, _measured, T0, math.sqrt(q * q / 12.0 + sigma * sigma))
+    sections: dict[str, dict[str, Any]] = {}
+    expected_cal = None
+    if kind in CALIBRATION_KINDS:
+        expected_cal = cal.m_as("J/K")  # what the calibration should find; not an input of its model
+        if not expected_cal > 0:
+            raise InputError(f"expected a heat capacity > 0 J/K, got {cal.text!r}", field="calorimeter_heat_capacity")
     else:
-        if not acid or not base:
-            raise InputError("missing: the acid's and the base's formulas, e.g. HCl and NaOH",
-                             field="acid" if not acid else "base")
-        if base_temperature is None:
-            u_read = math.sqrt(q * q / 12.0 + sigma * sigma)
-            tb = Measured(T0 - 273.15, u_read, "degC", "normal", f"{T0 - 273.15:.2f} ± {u_read:.2g} degC")
-        else:
-            tb = _measured(base_temperature, "base_temperature", "K")
-        sections["acid"] = {"formula": acid.strip(),
-                            "concentration": _amount(acid_concentration, "acid_concentration", "mol/L"),
-                            "volume": _amount(acid_volume, "acid_volume", "mL", volume_u)}
-        sections["base"] = {"formula": base.strip(),
-                            "concentration": _amount(base_concentration, "base_concentration", "mol/L"),
-                            "volume": _amount(base_volume, "base_volume", "mL", volume_u), "temperature": tb}
-        substances = [acid.strip(), base.strip()]
-    design = _Design(kind, sections, T0, th, molar_enthalpy, substances)
+        sections["calorimeter"] = {"heat_capacity": cal}
+    sections.update(built)
+    design = _Design(kind, sections, T0, th, molar_enthalpy, substances, expected_cal)
     ev = _evaluate(design)
     gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
     dT = ev.dt.value

@@ -1,8 +1,8 @@
 """Turn an :class:`calc.analysis.Analysis` into a readable report or a JSON record.
 
-All rounding of results for people happens here (two significant digits of the
-uncertainty, the value to the same decimal place), so the command line and the
-web app show the same numbers.
+Every number is printed through :mod:`calc.formatting` (two significant digits of the
+uncertainty, the value to the same decimal place, units always), the formatter the web pages
+and the exports use too, so every surface shows the same numbers.
 """
 
 from __future__ import annotations
@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from calc import formatting as fmt
 from calc.analysis import Analysis
 from calc.refdata.comparison import verdict, verdict_lines, verdict_record
 
@@ -62,16 +63,29 @@ def error_record(input_path: str, message: str) -> dict[str, Any]:
     return {"input": input_path, "error": message}
 
 
-def _decimals(u: float, sig: int = 2) -> int:
-    if u <= 0 or not math.isfinite(u):
-        return 4
-    return max(0, sig - 1 - math.floor(math.log10(u)))
-
-
 def format_value(value: float, u: float, unit: str, sig: int = 2) -> str:
-    """Return ``value ± u unit`` rounded to ``sig`` significant digits of ``u``."""
-    d = _decimals(u, sig)
-    return f"{value:.{d}f} ± {u:.{d}f} {unit}"
+    """Return ``value ± u unit`` rounded to ``sig`` significant digits of ``u`` (calc.formatting)."""
+    return fmt.measured(value, u, unit, digits=sig)
+
+
+def entered_units(analysis: Analysis) -> dict[str, str]:
+    """Return the unit each run-file field was written in, by dotted name ("warm_water.temperature")."""
+    out: dict[str, str] = {}
+    for section, fields in analysis.spec.sections.items():
+        if not isinstance(fields, dict):
+            continue
+        for name, field in fields.items():
+            unit = getattr(field, "unit", None)
+            if isinstance(unit, str):
+                out[f"{section}.{name}"] = unit
+    return out
+
+
+def format_input(value: float, u: float, unit: str, entered: str | None) -> str:
+    """Return a budget input ± u with its unit; an absolute temperature in the unit entered."""
+    if unit == "K" and entered and fmt.unit_text(entered) in ("°C", "°F"):
+        return fmt.temperature(value, u, entered)
+    return fmt.measured(value, u, unit)
 
 
 def format_report(analysis: Analysis, input_path: str) -> str:
@@ -116,45 +130,44 @@ def format_report(analysis: Analysis, input_path: str) -> str:
     v, u, unit = analysis.value(main)
     g = analysis.gum
     label = "ΔH" if main == "molar_enthalpy" else "C_cal"
-    d = _decimals(g.expanded_uncertainty)
-    dof = "∞" if not math.isfinite(g.dof_eff) else (f"{g.dof_eff:.0f}" if g.dof_eff < 1e4 else "> 10⁴")
+    U = g.expanded_uncertainty
     lines.append(
-        f"  {label:<17} {v:.{d}f} ± {g.expanded_uncertainty:.{d}f} {unit}  "
-        f"(U at 95 %, k = {g.coverage_factor:.2f}, ν_eff = {dof}; u_c = {u:.{_decimals(u)}f} {unit})"
+        f"  {label:<17} {fmt.measured(v, U, unit)}  (U at 95 %, k = {fmt.fixed(g.coverage_factor, 2)}, "
+        f"ν_eff = {fmt.dof(g.dof_eff)}; u_c = {fmt.uncertainty(u, unit)})"
     )
     if analysis.model.amount_note:
         lines.append(f"                    {analysis.model.amount_note}")
     if analysis.model.reference_temperature:
         t_ref = analysis.model.reference_temperature - 273.15
         mol = analysis.model.molality
-        extra = f", final molality {mol:.3g} mol/kg" if mol else ""
-        lines.append(f"                    at {t_ref:.2f} °C{extra}")
+        extra = f", final molality {fmt.number(mol, 'mol/kg')}" if mol else ""
+        lines.append(f"                    at {fmt.fixed(t_ref, 2, '°C')}{extra}")
     mc = analysis.monte_carlo
     if mc is not None:
         mc_word = "agrees with" if mc.agrees else "DIFFERS from"
         lines.append(
-            f"  Monte Carlo       95 % interval [{mc.low:.{d}f}, {mc.high:.{d}f}] {unit} "
+            f"  Monte Carlo       95 % interval {fmt.interval(mc.low, mc.high, unit, u=U)} "
             f"({mc.trials} trials) {mc_word} the GUM interval"
         )
     lines.append("")
     lines.append("uncertainty budget (largest first):")
-    lines.append(f"  {'input':<46} {'value':>12} {'u':>10} {'share':>7}")
+    entered = entered_units(analysis)
+    lines.append(f"  {'share':>7}  {'value ± u':<30} input")
     for b in g.budget[:TOP_BUDGET_LINES]:
         if b.share <= 0:
             continue
-        lines.append(
-            f"  {b.label[:46]:<46} {b.value:>12.6g} {b.standard_uncertainty:>10.3g} {100 * b.share:>6.1f}%"
-        )
+        shown = format_input(b.value, b.standard_uncertainty, b.unit, entered.get(b.name))
+        lines.append(f"  {fmt.percent(b.share):>7}  {shown:<30} {b.label or b.name}")
     rest = [b for b in g.budget[TOP_BUDGET_LINES:] if b.share > 0]
     if rest:
-        lines.append(f"  … {len(rest)} more inputs, {100 * sum(b.share for b in rest):.1f} % together")
+        lines.append(f"  … {len(rest)} more inputs, {fmt.percent(sum(b.share for b in rest))} together")
     cmp_ = analysis.comparison
     if cmp_ is not None:
         lines.append("")
         ref = cmp_.reference
         lines.append(
-            f"reference as published: {ref.value:.2f} ± {ref.u:.2f} {ref.unit} ({ref.quantity}, "
-            f"{ref.temperature_K - 273.15:.2f} °C) — {ref.source}"
+            f"reference as published: {fmt.measured(ref.value, ref.u, ref.unit)} ({ref.quantity}, "
+            f"{fmt.temperature(ref.temperature_K)}) — {ref.source}"
         )
         v = verdict(cmp_)
         if v is not None:

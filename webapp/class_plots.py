@@ -13,6 +13,7 @@ from typing import Any
 import functools
 
 import numpy as np
+from calc import formatting as fmt
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
@@ -67,9 +68,9 @@ def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequenc
         if reference_U:
             ax.axvspan(reference - reference_U, reference + reference_U, color=_C["sky_blue"], alpha=0.25,
                        linewidth=0, gid="cc-ref-band")
-            handles.append(Patch(facecolor=_C["sky_blue"], alpha=0.4, label=f"reference ± U ({reference_U:.3g} {unit})"))
+            handles.append(Patch(facecolor=_C["sky_blue"], alpha=0.4, label=f"reference ± U ({fmt.uncertainty(reference_U, unit)})"))
         ax.axvline(reference, color=_C["black"], linestyle=(0, (5, 2)), linewidth=1.3, gid="cc-ref")
-        handles.append(Line2D([], [], color=_C["black"], linestyle=(0, (5, 2)), label=f"reference {reference:.4g} {unit}"))
+        handles.append(Line2D([], [], color=_C["black"], linestyle=(0, (5, 2)), label=f"reference {fmt.like(reference, reference_U, unit)}"))
     if (~f).any():
         ax.plot(v[~f], y[~f], linestyle="none", marker="o", markersize=4.5, color=_C["blue"], alpha=0.8,
                 markeredgewidth=0, gid="cc-results")
@@ -89,9 +90,9 @@ def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequenc
         _legend_below(fig, ax, handles, ncols=min(len(handles), 4))
     desc = f"{v.size} results of {measurement} in {len(cats)} row(s)"
     if v.size:
-        desc += f", from {v.min():.4g} to {v.max():.4g} {unit}, {int(f.sum())} flagged"
+        desc += f", from {fmt.interval(v.min(), v.max(), unit, u=reference_U)}, {int(f.sum())} flagged"
     if reference is not None:
-        desc += f"; reference {reference:.4g} {unit}"
+        desc += f"; reference {fmt.like(reference, reference_U, unit)}"
     return _to_svg(fig, "Distribution of results", desc + ".")
 
 
@@ -121,7 +122,7 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
                 markeredgecolor=_C["black"], markeredgewidth=0.5, gid="cc-violations")
     handles = [
         Line2D([], [], color=_C["blue"], marker="o", label="result"),
-        Line2D([], [], color=_C["black"], label=f"centre {limits.centre:.4g} {unit}"),
+        Line2D([], [], color=_C["black"], label=f"centre {fmt.like(limits.centre, limits.sigma, unit)}"),
         Line2D([], [], color=_C["bluish_green"], linestyle=(0, (1, 2)), label="±1 s"),
         Line2D([], [], color=_C["orange"], linestyle=(0, (4, 2)), label="±2 s"),
         Line2D([], [], color=_C["vermillion"], label="±3 s"),
@@ -137,6 +138,6 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
     ax.set_xlim(0.5, max(v.size, 2) + 0.5)
     _heading(fig, "Control chart", standard)
     _legend_below(fig, ax, handles, ncols=4)
-    desc = (f"{v.size} results of {standard}; centre {limits.centre:.4g} {unit}, s = {limits.sigma:.3g} {unit} "
+    desc = (f"{v.size} results of {standard}; centre {fmt.like(limits.centre, limits.sigma, unit)}, s = {fmt.uncertainty(limits.sigma, unit)} "
             f"from the first {baseline} points; {int(f.sum())} point(s) break a run rule")
     return _to_svg(fig, "Control chart", desc + ".")

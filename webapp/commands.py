@@ -136,7 +136,17 @@ def load_demo_command(demo_dir: Path) -> None:
 @click.option("--workers", default=1, show_default=True, type=click.IntRange(1, 64),
               help="Worker processes; more than 1 serves with gunicorn (for a lab, not one desk).")
 def serve(host: str, port: int, demo: bool, workers: int) -> None:
-    """Apply migrations, load the demo into an empty database, and serve the notebook."""
+    """Apply migrations, load the demo into an empty database, and serve the notebook.
+
+    The port is checked first: a busy port stops here with a clear message (exit status 2),
+    before anything is migrated or printed as served.
+    """
+    from webapp.serving import port_problem
+
+    problem = port_problem(host, port)
+    if problem:
+        click.echo(f"cupcal serve: error: {problem}", err=True)
+        sys.exit(2)
     from webapp.db import new_session
     from webapp.migrate import upgrade as do_upgrade
     from webapp.services.demo import demo_sign_ins
@@ -161,7 +171,11 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
                "(Ctrl-C stops)")
     if not app.config.get("SESSION_COOKIE_SECURE"):
         click.echo("the session cookie is not marked Secure (plain http); behind HTTPS set CUPCAL_HTTPS=1")
-    serve_app(app, host, port, workers, click.echo)
+    try:
+        serve_app(app, host, port, workers, click.echo)
+    except OSError as exc:  # taken between the check and the start
+        click.echo(f"cupcal serve: error: cannot listen on {host}:{port}: {exc.strerror or exc}", err=True)
+        sys.exit(2)
 
 
 @click.command("import")

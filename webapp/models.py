@@ -223,6 +223,8 @@ class Run(Base):
     bench: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
     performed_on: so.Mapped[str] = so.mapped_column(sa.String(40), default="")
     notes: so.Mapped[str] = so.mapped_column(sa.Text, default="")
+    #: the run file's ``[info] sample``: the sample or lot, for series of replicates
+    sample: so.Mapped[str] = so.mapped_column(sa.String(200), default="", server_default="", index=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)
     calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
     #: the calibration that supplied C_cal (None when the run file gave it); added after

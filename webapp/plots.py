@@ -31,6 +31,7 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
+from calc import formatting as fmt
 from calc.deltat.drift import phi
 
 if TYPE_CHECKING:
@@ -196,15 +197,17 @@ def budget_rows(budget: Sequence[BudgetLine], top: int = 8) -> list[tuple[str, f
     return rows
 
 
-def _decimals(u: float, sig: int = 2) -> int:
-    if not (u > 0 and math.isfinite(u)):
-        return 4
-    return max(0, sig - 1 - math.floor(math.log10(u)))
+def _places(u: float) -> int:
+    """Decimals of a value with uncertainty ``u`` (calc.formatting; four when u is zero)."""
+    return fmt.decimals_for(u) if u > 0 and math.isfinite(u) else 4
+
+
+def _fmt_u(u: float, unit: str) -> str:
+    return fmt.uncertainty(u, unit).replace("-", "−")
 
 
 def _fmt(value: float, u: float, unit: str) -> str:
-    d = _decimals(u)
-    return f"{_num(value, d)} ± {_num(u, d)} {unit}"
+    return fmt.measured(value, u, unit).replace("-", "−")
 
 
 def _num(x: float, d: int) -> str:
@@ -385,9 +388,8 @@ def _draw_delta_t(ax: Any, analysis: Analysis, ts: float) -> list[Any]:
         arrowstyle="<|-|>", color=purple, linewidth=1.6, shrinkA=0, shrinkB=0, mutation_scale=9))
     ax.text(t_at - 0.012 * span, (start + end) / 2, "ΔT", ha="right", va="center", fontsize=_FS_LABEL,
             fontweight="bold", bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.85))
-    d = _decimals(dt.u)
     handles.append(Line2D([], [], color=purple, linewidth=1.6, marker="|", markersize=8,
-                          label=f"corrected ΔT = {_num(dt.value, d)} K, u = {_num(dt.u, d)} K"))
+                          label=f"corrected ΔT = {_num(dt.value, _places(dt.u))} K, u = {_num(dt.u, _places(dt.u))} K"))
     return handles
 
 
@@ -413,9 +415,8 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
     title = analysis.spec.get("info", "title") or f"{analysis.kind} run"
     _heading(fig, str(title), f"{analysis.kind} · corrected ΔT by the {dt.method} method")
     _legend_below(fig, ax, handles, ncols=3)
-    d = _decimals(dt.u)
-    desc = (f"{_describe_log(t, y, analysis.periods)} Corrected temperature change {_num(dt.value, d)} K with "
-            f"standard uncertainty {_num(dt.u, d)} K by the {dt.method} method.")
+    desc = (f"{_describe_log(t, y, analysis.periods)} Corrected temperature change "
+            f"{_fmt(dt.value, dt.u, 'K')} (standard uncertainty) by the {dt.method} method.")
     return fig, f"Temperature log: {title}", desc
 
 
@@ -467,7 +468,7 @@ def budget_plot_svg(budget: list[BudgetLine], *, unit: str, top: int = 8) -> str
         ax.barh(yp, 100 * share, height=0.62, color=_C["sky_blue"] if other else _C["blue"],
                 hatch="///" if other else None, edgecolor=_C["black"] if other else _C["blue"], linewidth=0.5,
                 gid=f"cc-bar-{i}")
-        ax.text(100 * share, yp, f"  {100 * share:.1f} %  ({_num(contrib, _decimals(contrib))} {unit})",
+        ax.text(100 * share, yp, f"  {100 * share:.1f} %  ({_fmt_u(contrib, unit)})",
                 va="center", ha="left", fontsize=_FS_NOTE, color=_C["black"])
     ax.set_yticks(ypos, [_plain(textwrap.fill(r[0], 40)) for r in rows], fontsize=_FS_NOTE)
     ax.set_ylim(-0.6, len(rows) - 0.4)
@@ -475,7 +476,7 @@ def budget_plot_svg(budget: list[BudgetLine], *, unit: str, top: int = 8) -> str
     ax.set_xlabel("share of the variance u_c² / %", fontsize=_FS_LABEL)
     _heading(fig, "Uncertainty budget",
              f"share of the combined variance; in parentheses the contribution |c_i|·u(x_i) in {unit}")
-    desc = "; ".join(f"{label}: {100 * s:.1f} % of the variance, contribution {contrib:.3g} {unit}"
+    desc = "; ".join(f"{label}: {fmt.percent(s)} of the variance, contribution {fmt.uncertainty(contrib, unit)}"
                      for label, s, contrib in rows) or "no uncertainty contributions"
     return _to_svg(fig, "Uncertainty budget", desc + ".")
 

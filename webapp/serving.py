@@ -49,3 +49,25 @@ def _gunicorn(base: type, app: Flask, host: str, port: int, workers: int) -> Any
             return app
 
     return Notebook()
+
+
+def port_problem(host: str, port: int) -> str | None:
+    """Return why the notebook cannot listen on ``host:port`` (busy, no such address), or None."""
+    import errno
+    import socket
+
+    try:
+        infos = socket.getaddrinfo(host, port, type=socket.SOCK_STREAM)
+    except socket.gaierror as exc:
+        return f"cannot listen on {host}:{port}: unknown address ({exc.strerror})"
+    family, kind, proto, _name, address = infos[0]
+    with socket.socket(family, kind, proto) as probe:
+        probe.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)  # as the servers themselves bind
+        try:
+            probe.bind(address)
+        except OSError as exc:
+            if exc.errno == errno.EADDRINUSE:
+                return (f"port {port} on {host} is already in use (another cupcal or another program); "
+                        f"choose another with --port, e.g. cupcal serve --port {port + 1} (make run PORT={port + 1})")
+            return f"cannot listen on {host}:{port}: {exc.strerror or exc}"
+    return None

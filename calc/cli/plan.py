@@ -24,6 +24,9 @@ _OPTION_OF = {
     "probe_time": "--probe-time", "molar_enthalpy": "--enthalpy", "delta_t_window": "--min-change/--max-change",
     "balance_u": "--balance", "volume_u": "--glassware",
     "solute.formula": "--formula", "acid.formula": "--acid", "base.formula": "--base",
+    "heater_voltage": "--heater-voltage", "heater_current": "--heater-current", "heater_duration": "--heater-time",
+    "warm_volume": "--warm-volume", "warm_temperature": "--warm-temperature", "coefficient": "--coefficient",
+    "reaction.limiting_reagent": "--formula",
 }
 
 
@@ -71,29 +74,31 @@ def plan_record(plan: Any) -> dict[str, Any]:
 
 def format_plan(plan: Any) -> str:
     """Return the human-readable plan."""
-    from calc.report import format_value
+    from calc import formatting as fmt
 
-    lines = [f"Plan of a {plan.kind} run", ""]
-    lines.append(f"  expected ΔH       {plan.predicted_result:.2f} {plan.result_unit}")
+    label = "C_cal" if plan.result_unit == "J/K" else "ΔH"
+    article = "an" if plan.kind[:1] in "aeiou" else "a"
+    lines = [f"Plan of {article} {plan.kind} run", ""]
+    lines.append(f"  expected {label:<8} {fmt.like(plan.predicted_result, plan.predicted_U, plan.result_unit)}")
     lines.append(f"                    from {plan.expected_note}")
-    lines.append(f"  predicted ΔT      {format_value(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
-                 f"(start {plan.start_temperature_K - 273.15:.1f} °C; useful |ΔT| {plan.window[0]:g}–{plan.window[1]:g} K)")
-    d = max(0, 1 - math.floor(math.log10(plan.predicted_U))) if plan.predicted_U > 0 else 3
-    rel = 100 * plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else math.nan
-    lines.append(f"  predicted ΔH      {plan.predicted_result:.{d}f} ± {plan.predicted_U:.{d}f} {plan.result_unit}  "
-                 f"(U at 95 %, k = {plan.coverage_factor:.2f}; {rel:.1f} %)")
+    lines.append(f"  predicted ΔT      {fmt.measured(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
+                 f"(start {fmt.temperature(plan.start_temperature_K)}; useful |ΔT| "
+                 f"{fmt.number(plan.window[0], trim=True)} to {fmt.number(plan.window[1], 'K', trim=True)})")
+    rel = plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else None
+    lines.append(f"  predicted {label:<7} {fmt.measured(plan.predicted_result, plan.predicted_U, plan.result_unit)}  "
+                 f"(U at 95 %, k = {fmt.fixed(plan.coverage_factor, 2)}; {fmt.percent(rel)})")
     lines.append("")
-    lines.append("what limits the result (share of u²(ΔH)):")
+    lines.append(f"what limits the result (share of u²({label})):")
     for e in plan.equipment:
         if e.share >= 0.001:
-            lines.append(f"  {100 * e.share:5.1f} %  {e.equipment}")
+            lines.append(f"  {fmt.percent(e.share):>7}  {e.equipment}")
     lines.append(f"  → limited by: {plan.limiting}")
     if plan.suggestion is not None:
         s = plan.suggestion
         lines.append("")
         lines.append(f"amount: {s.message}")
-        lines.append(f"  {s.quantity}: {s.low:.3g}–{s.high:.3g} {s.unit} keeps |ΔT| in the window; "
-                     f"recommended {s.recommended:.3g} {s.unit}")
+        lines.append(f"  {s.quantity}: {fmt.number(s.low)} to {fmt.number(s.high, s.unit)} keeps |ΔT| in the "
+                     f"window; recommended {fmt.number(s.recommended, s.unit)}")
     if plan.warnings:
         lines.append("")
         lines.append("warnings:")
@@ -154,10 +159,18 @@ def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) ->
 
 
 @click.command("plan")
-@click.argument("kind", type=click.Choice(["dissolution", "neutralization"]))
-@click.option("--formula", help="Solute to dissolve, e.g. KCl (dissolution).")
-@click.option("--mass", help='Mass of solute, e.g. "3.00 g" (dissolution).')
-@click.option("--water", help='Water in the cup, e.g. "100.0 mL" (dissolution).')
+@click.argument("kind", type=click.Choice(["dissolution", "neutralization", "electrical-calibration",
+                                           "mixing-calibration", "reaction"]))
+@click.option("--formula", help="Solute to dissolve, e.g. KCl (dissolution); the limiting reagent, e.g. Mg (reaction).")
+@click.option("--mass", help='Mass of solute or limiting reagent, e.g. "3.00 g" (dissolution, reaction).')
+@click.option("--water", help='Water (or solution) in the cup, e.g. "100.0 mL" (all kinds but neutralization).')
+@click.option("--heater-voltage", help='Heater voltage, e.g. "5.00 ± 0.01 V" (electrical-calibration).')
+@click.option("--heater-current", help='Heater current, e.g. "1.000 ± 0.002 A" (electrical-calibration).')
+@click.option("--heater-time", help='Time the heater is on, e.g. "120.0 ± 0.2 s" (electrical-calibration).')
+@click.option("--warm-volume", help='Warm water poured in, e.g. "50.0 mL" (mixing-calibration).')
+@click.option("--warm-temperature", help='Warm water temperature, e.g. "45.0 ± 0.1 degC" (mixing-calibration).')
+@click.option("--coefficient", type=int, default=1, show_default=True,
+              help="Stoichiometric coefficient of the limiting reagent (reaction).")
 @click.option("--acid", help="Acid in the cup, e.g. HCl (neutralization).")
 @click.option("--base", help="Base poured in, e.g. NaOH (neutralization).")
 @click.option("--acid-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
@@ -165,7 +178,8 @@ def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) ->
 @click.option("--acid-volume", help='Acid in the cup, e.g. "50.0 mL".')
 @click.option("--base-volume", help='Base poured in, e.g. "50.0 mL".')
 @click.option("--base-temperature", help="Temperature of the base before pouring (default: the start temperature).")
-@click.option("--calorimeter", required=True, help='Calorimeter heat capacity, e.g. "18 ± 2 J/K".')
+@click.option("--calorimeter", required=True,
+              help='Calorimeter heat capacity, e.g. "18 ± 2 J/K" (for a calibration: the value it should find).')
 @click.option("--resolution", required=True, help='Thermometer resolution, e.g. "0.01 K".')
 @click.option("--noise", default="0.005 K", show_default=True, help="Thermometer noise (standard deviation).")
 @click.option("--noise-correlation", type=float, default=0.0, show_default=True,
@@ -187,6 +201,11 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
 
     Example: cupcal plan dissolution --formula KCl --mass "3.0 g" --water "100 mL"
     --calorimeter "18 ± 2 J/K" --resolution "0.01 K" --balance "0.0002 g" --glassware "0.1 mL"
+
+    Each kind takes its own amounts: dissolution (--formula, --mass, --water); neutralization
+    (--acid, --base, their concentrations and volumes); electrical-calibration (--water,
+    --heater-voltage, --heater-current, --heater-time); mixing-calibration (--water,
+    --warm-volume, --warm-temperature); reaction (--formula, --mass, --water, --enthalpy).
     """
     from calc.plan import MIN_DELTA_T_K, RESOLUTION_MULTIPLE, plan_run
 
@@ -209,6 +228,9 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
             volume_u=_quantity(opts["glassware"], "--glassware", "mL"),
             temperature=_quantity(opts["temperature"], "--temperature", "K", bare=False), delta_t_window=window,
             molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"), **seconds,
+            kind_inputs={"heater_voltage": opts["heater_voltage"], "heater_current": opts["heater_current"],
+                         "heater_duration": opts["heater_time"], "warm_volume": opts["warm_volume"],
+                         "warm_temperature": opts["warm_temperature"], "coefficient": opts["coefficient"]},
         )
     except CupcalError as exc:
         click.echo(f"cupcal plan: error: {_message(exc)}", err=True)

@@ -381,10 +381,20 @@ def _parse_section(name: str, values: dict[str, Any], fields: dict[str, Field], 
     return out
 
 
+#: The longest text a run file's free-text field may hold (notes are longer than names).
+TEXT_LIMITS = {"info.title": 300, "info.operator": 200, "info.bench": 120, "info.date": 40,
+               "info.notes": 5000, "info.sample": 200, "info.group": 120}
+DEFAULT_TEXT_LIMIT = 200
+
+
 def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: str) -> Any:
     if kind == "s":
         if not isinstance(value, str):
             raise InputError("expected text (a string)", source=source, field=dotted)
+        limit = TEXT_LIMITS.get(dotted, DEFAULT_TEXT_LIMIT)
+        if len(value) > limit:
+            raise InputError(f"the text is {len(value):,} characters long; at most {limit:,} are allowed",
+                             source=source, field=dotted)
         return value
     if kind == "f":
         if not isinstance(value, str) or not value.strip():
@@ -441,9 +451,9 @@ def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> 
             )
     if kind in ("dissolution", "dissolution-with-calibration"):
         purity = sections["solute"].get("purity")
-        if purity is not None and not (0 < purity.value <= 1):
+        if purity is not None and not (0 < purity.m_as("") <= 1):
             raise InputError(
-                f"expected a mass fraction between 0 and 1, got '{purity.text}'",
+                f"expected a mass fraction between 0 and 1 (or 0 % to 100 %), got '{purity.text}'",
                 source=source,
                 field="solute.purity",
             )

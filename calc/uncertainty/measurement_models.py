@@ -139,7 +139,7 @@ def _dissolution(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
         return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / n / 1000.0}
 
     water_g = inputs[0].value * inputs[1].value
-    n_mol = inputs[2].value * (purity.value if purity is not None else 1.0) / M
+    n_mol = inputs[2].value * (purity.m_as("") if purity is not None else 1.0) / M
     return ModelSpec(
         inputs, model, "molar_enthalpy", "kJ/mol",
         amount_note=f"per mole of {formula} dissolved",

@@ -112,7 +112,7 @@ def test_dashboard_and_export_of_900_runs(classroom: dict[str, Any]) -> None:
     t0 = time.perf_counter()
     r = client.get(f"/classes/sections/{sid}/dashboard")
     print(f"dashboard page, first request (plot drawn, not yet cached): {1000 * (time.perf_counter() - t0):.0f} ms")
-    assert r.status_code == 200 and r.get_data(as_text=True).count("<tr>") > 900
+    assert r.status_code == 200 and "page 1 of 6" in r.get_data(as_text=True)  # 300 groups, 50 a page
     med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc"), 10)
     print(f"dashboard page, 900 runs, re-sorted (plot from its cache; table, statistics, feedback, group series): median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 300 ms)")
     med, p95 = time_ms(lambda: client.get(f"/api/sections/{sid}/dashboard"), 10)

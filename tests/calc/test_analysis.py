@@ -66,3 +66,20 @@ def test_mixing_time_is_detected_when_absent(tmp_path):
     a = analyze_run(path)
     assert a.periods.mixing_time_detected
     assert abs(a.periods.mixing_time - 240.0) <= 10.0  # the demo's true mixing time (invented data)
+
+
+def test_a_purity_in_percent_gives_the_same_result_as_the_fraction(tmp_path):
+    # 99.5 % and 0.995 are the same mass fraction (SI Brochure, 9th ed.: % = 0.01)
+    out = {}
+    for name, purity in (("pct", "99.5 ± 0.2 %"), ("frac", "0.995 ± 0.002")):
+        folder = tmp_path / name
+        folder.mkdir()
+        for ext in (".toml", ".csv"):
+            shutil.copy(DEMO / f"diss-kcl-01{ext}", folder / f"diss-kcl-01{ext}")
+        toml = folder / "diss-kcl-01.toml"
+        toml.write_text(toml.read_text(encoding="utf-8").replace("[solute]\n", f'[solute]\npurity = "{purity}"\n', 1),
+                        encoding="utf-8")
+        a = analyze_run(toml, monte_carlo_trials=0)
+        out[name] = (a.gum.values["molar_enthalpy"], a.gum.uncertainties["molar_enthalpy"])
+    assert out["pct"][0] == pytest.approx(out["frac"][0], rel=1e-12)
+    assert out["pct"][1] == pytest.approx(out["frac"][1], rel=1e-9)

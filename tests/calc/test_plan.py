@@ -180,7 +180,7 @@ def test_plan_errors_name_the_input():
                  calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
     assert err.value.field == "mass"
     with pytest.raises(InputError, match="cannot plan"):
-        plan_run("reaction", calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
+        plan_run("titration", calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
     with pytest.raises(InputError) as err:
         plan_run("dissolution", formula="KCl", mass="3 g", water_volume="100 mL",
                  calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=-0.01)
@@ -219,3 +219,64 @@ def test_cli_plan_errors_are_one_line_with_exit_2(args, needle):
     assert res.exit_code == 2
     lines = res.output.strip().splitlines()
     assert len(lines) == 1 and needle in lines[0] and "Traceback" not in res.output
+
+
+# ----------------------------------------------------------------- every kind is planned
+
+
+def _props(plan, key):
+    return plan.properties.values[key][0]
+
+
+def test_plan_an_electrical_calibration_by_joules_law():
+    # Joule heating Q = U·I·t and the heat balance Q = (m c + C_cal) ΔT (common practice, no source)
+    plan = plan_run("electrical-calibration", calorimeter_heat_capacity="20 ± 5 J/K", thermometer_resolution=0.01,
+                    water_volume="100.0 ± 0.1 mL", temperature=T_ROOM,
+                    kind_inputs=dict(heater_voltage="5.00 ± 0.01 V", heater_current="1.000 ± 0.002 A",
+                                     heater_duration="120.0 ± 0.2 s"))
+    m_c = 100.0 * _props(plan, "water.density") * _props(plan, "mixture.specific_heat_capacity")
+    assert plan.predicted_result == pytest.approx(20.0, rel=1e-6)
+    assert plan.predicted_delta_t == pytest.approx(5.0 * 1.0 * 120.0 / (m_c + 20.0), rel=1e-6)
+    assert plan.result_unit == "J/K" and "heater.duration" in plan.suggestion.quantity
+
+
+def test_plan_a_mixing_calibration_by_the_first_law():
+    # warm water gives up what the cool water and the cup take up (common practice, no source)
+    plan = plan_run("mixing-calibration", calorimeter_heat_capacity="20 ± 5 J/K", thermometer_resolution=0.01,
+                    water_volume="50.0 ± 0.1 mL", temperature=T_ROOM,
+                    kind_inputs=dict(warm_volume="50.0 ± 0.1 mL", warm_temperature="45.00 ± 0.05 degC"))
+    dT = plan.predicted_delta_t
+    assert 9.0 < dT < 12.0 and plan.predicted_result == pytest.approx(20.0, rel=1e-6)
+    # the cool side at T_ROOM rises by ΔT, the warm water falls from 45 °C to T_ROOM + ΔT: water's c within 0.3 %
+    warm_drop = 45.0 + 273.15 - (T_ROOM + dT)
+    ratio = (50.0 * warm_drop) / (50.0 * dT + 20.0 / 4.18 * dT)
+    assert ratio == pytest.approx(1.0, rel=0.01)
+
+
+def test_plan_a_reaction_with_a_given_enthalpy():
+    # Mg + 2 H+ → Mg2+ + H2: ΔrH ≈ −466 kJ/mol (from memory); n = m / M with M from the molmass package
+    plan = plan_run("reaction", calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01,
+                    water_volume="100.0 ± 0.1 mL", formula="Mg", mass="0.1000 ± 0.0002 g", molar_enthalpy=-466.0,
+                    temperature=T_ROOM)
+    n = 0.1 / Formula("Mg").mass
+    c_total = 100.0 * _props(plan, "solution.density") * _props(plan, "mixture.specific_heat_capacity") + 20.0
+    assert plan.predicted_delta_t == pytest.approx(n * 466.0e3 / c_total, rel=1e-6)
+    assert any("Mg" in c.substance for c in plan.cautions)
+    with pytest.raises(InputError) as exc:
+        plan_run("reaction", calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01,
+                 water_volume="100.0 mL", formula="Mg", mass="0.1 g")
+    assert exc.value.field == "molar_enthalpy"
+
+
+@pytest.mark.parametrize("args", [
+    ["electrical-calibration", "--water", "100 mL", "--heater-voltage", "5.00 V", "--heater-current", "1.000 A",
+     "--heater-time", "120 s"],
+    ["mixing-calibration", "--water", "50 mL", "--warm-volume", "50 mL", "--warm-temperature", "45.0 degC"],
+    ["reaction", "--formula", "Mg", "--mass", "0.1000 g", "--water", "100 mL", "--enthalpy", "-466 kJ/mol"],
+])
+def test_cli_plans_every_kind(args):
+    r = CliRunner().invoke(cli, ["plan", *args, "--calorimeter", "20 ± 3 J/K", "--resolution", "0.01 K"])
+    assert r.exit_code == 0, r.output
+    assert "predicted ΔT" in r.output and "planned run file" in r.output
+    r = CliRunner().invoke(cli, ["plan", args[0], "--calorimeter", "20 ± 3 J/K", "--resolution", "0.01 K"])
+    assert r.exit_code == 2 and "--" in r.output and "Traceback" not in r.output

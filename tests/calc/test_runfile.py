@@ -121,3 +121,22 @@ def test_value_without_uncertainty_gets_half_a_last_digit_rectangular():
     # half a unit of the last digit (0.1 mL) as a rectangular half-width: 0.05/√3 = 0.0289 mL
     assert v.u_as("mL") == pytest.approx(0.05 / 3**0.5)
     assert v.distribution == "rectangular"
+
+
+def test_purity_in_percent_is_a_mass_fraction(tmp_path):
+    # "%" is a unit: 99.5 % = 0.995 (SI Brochure, 9th ed.: % = 0.01); the model uses the fraction
+    text = GOOD.replace('[solute]\n', '[solute]\npurity = "99.5 ± 0.2 %"\n', 1)
+    spec = parse_run(text, source="run.toml")
+    purity = spec.sections["solute"]["purity"]
+    assert purity.m_as("") == pytest.approx(0.995) and purity.u_as("") == pytest.approx(0.002)
+    bad = GOOD.replace('[solute]\n', '[solute]\npurity = "120 %"\n', 1)
+    with pytest.raises(InputError) as exc:
+        parse_run(bad, source="run.toml")
+    assert exc.value.field == "solute.purity"
+
+
+def test_text_fields_have_length_limits(tmp_path):
+    text = GOOD + '[info]\ntitle = "' + "t" * 96000 + '"\n'
+    with pytest.raises(InputError) as exc:
+        parse_run(text, source="run.toml")
+    assert exc.value.field == "info.title" and "96,000 characters" in str(exc.value) and "300" in str(exc.value)

@@ -78,3 +78,22 @@ def make_class(session: Any, coordinator_id: int) -> ClassLab:
     mon = session.scalar(sa.select(Section).where(Section.name == "Mon AM"))
     tue = session.scalar(sa.select(Section).where(Section.name == "Tue PM"))
     return ClassLab(mon.id, tue.id, mon.course_id)
+
+
+def build_section(session: Any, lab: Any, tmp_path: Path) -> Any:
+    """Import a crafted section: 6 ordinary KCl runs, one with ΔH far off, one with a tiny ΔT.
+
+    Shared by the dashboard tests.
+    """
+    cl = make_class(session, lab.ids["coord"])
+    d = tmp_path / "crafted"
+    for i, g in enumerate(["M01", "M01", "M02", "M02", "M03", "M03"]):
+        simulated_run(d, f"{g}-run{i}", 100 + i, calorimeter_name="Spare cup" if i == 0 else "simulated cup")
+    simulated_run(d, "M04-far", 200, molar_enthalpy_kJ_mol=24.0)  # a Grubbs outlier among 17.2 kJ/mol
+    simulated_run(d, "M04-tiny", 201, solute_mass_g=0.40, resolution=0.05)  # |ΔT| ≈ 0.3 K < 10 × 0.05 K
+    from webapp.models import Person
+    from webapp.services.imports import files_from_folder, import_files
+
+    report = import_files(session, session.get(Person, lab.ids["coord"]), cl.section_id, files_from_folder(d))
+    assert report.count("stored") == 8, report.as_dict()
+    return cl, {i.file: i.run_id for i in report.items}

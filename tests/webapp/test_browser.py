@@ -11,158 +11,20 @@ browser the tests skip with a message saying what to install, unless
 
 from __future__ import annotations
 
-import os
 import re
-import shutil
-import tempfile
-import threading
-from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
 
+from tests.webapp.browser_support import STUDENT
+from tests.webapp.browser_support import _click
+from tests.webapp.browser_support import _image_drawn
+from tests.webapp.browser_support import _shot
+from tests.webapp.browser_support import _sign_in
+from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
+from tests.webapp.browser_support import server  # noqa: F401  (fixture)
 from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import FAST_HASH
-
-CHROMIUM = Path("/usr/bin/chromium")
-CHROMEDRIVER = Path("/usr/bin/chromedriver")
-INSTALL_HINT = ("headless Chromium is needed for the browser tests: install Debian's browser and its driver "
-                "(apt-get install chromium chromium-driver)")
-STUDENT = "tomas.vesterby-quail@ternhollow.example"  # invented demo person (group Heron A)
-WAIT_S = 20
-
-
-def _unavailable() -> str | None:
-    missing = [str(p) for p in (CHROMIUM, CHROMEDRIVER) if not p.exists()]
-    if missing:
-        return f"{', '.join(missing)} not found; {INSTALL_HINT}"
-    try:
-        import selenium  # noqa: F401
-    except ImportError:
-        return "the selenium package is missing: install the test extras (pip install -e '.[test]')"
-    return None
-
-
-def _skip_or_fail(reason: str) -> None:
-    if os.environ.get("CUPCAL_REQUIRE_BROWSER") == "1":
-        pytest.fail(f"CUPCAL_REQUIRE_BROWSER=1 but: {reason}")
-    pytest.skip(reason)
-
-
-@pytest.fixture(scope="module")
-def server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
-    """Serve the notebook on 127.0.0.1 (a free port) from a migrated SQLite file with the demo lab."""
-    reason = _unavailable()
-    if reason:
-        _skip_or_fail(reason)
-    from werkzeug.serving import make_server
-
-    from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
-    from webapp.migrate import upgrade
-    from webapp.services.demo import load_demo
-
-    folder = tmp_path_factory.mktemp("browser")
-    url = f"sqlite:///{folder / 'notebook.sqlite3'}"
-    upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "browser tests", "PASSWORD_METHOD": FAST_HASH,
-                      "MONTE_CARLO_TRIALS": 2000})
-    app.instance_path = str(folder / "instance")
-    session = new_session(app)
-    try:
-        load_demo(session, password_method=FAST_HASH, monte_carlo_trials=0)
-    finally:
-        session.close()
-    httpd = make_server("127.0.0.1", 0, app, threaded=True)
-    thread = threading.Thread(target=httpd.serve_forever, daemon=True)
-    thread.start()
-    try:
-        yield f"http://127.0.0.1:{httpd.server_port}"
-    finally:
-        httpd.shutdown()
-        thread.join(10)
-        get_engine(app).dispose()
-
-
-@pytest.fixture(scope="module")
-def browser(server: str) -> Iterator[Any]:
-    """Start headless Chromium through Debian's chromedriver (nothing is downloaded)."""
-    os.environ.setdefault("SE_AVOID_STATS", "true")  # Selenium's own usage statistics: off
-    os.environ.setdefault("SE_OFFLINE", "true")  # and no download, should anything ask for one
-    from selenium import webdriver
-    from selenium.webdriver.chrome.service import Service
-
-    profile = tempfile.mkdtemp(prefix="cupcal-chromium-")
-    options = webdriver.ChromeOptions()
-    options.binary_location = str(CHROMIUM)
-    for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                "--disable-dev-shm-usage", f"--user-data-dir={profile}", "--window-size=1280,1000"):
-        options.add_argument(arg)
-    try:
-        driver = webdriver.Chrome(service=Service(executable_path=str(CHROMEDRIVER)), options=options)
-    except Exception as exc:  # noqa: BLE001 - a browser that cannot start is a missing browser
-        shutil.rmtree(profile, ignore_errors=True)
-        _skip_or_fail(f"Chromium did not start ({type(exc).__name__}: {str(exc).splitlines()[0]}); {INSTALL_HINT}")
-    driver.set_page_load_timeout(WAIT_S)
-    try:
-        yield driver
-    finally:
-        driver.quit()
-        shutil.rmtree(profile, ignore_errors=True)
-
-
-# ---------------------------------------------------------------- helpers
-
-
-def _shot(driver: Any, name: str) -> None:
-    folder = os.environ.get("CUPCAL_SCREENSHOTS")
-    if not folder:
-        return
-    Path(folder).mkdir(parents=True, exist_ok=True)
-    height = driver.execute_script("return document.documentElement.scrollHeight")
-    driver.set_window_size(1280, min(int(height) + 120, 9000))
-    driver.save_screenshot(str(Path(folder) / f"{name}.png"))
-    driver.set_window_size(1280, 1000)
-
-
-def _wait(driver: Any, css: str) -> Any:
-    from selenium.webdriver.common.by import By
-    from selenium.webdriver.support import expected_conditions as ec
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    return WebDriverWait(driver, WAIT_S).until(ec.presence_of_element_located((By.CSS_SELECTOR, css)))
-
-
-def _click(driver: Any, css: str) -> None:
-    """Click a button and wait for the page it leads to."""
-    from selenium.webdriver.common.by import By
-    from selenium.webdriver.support import expected_conditions as ec
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    old = driver.find_element(By.TAG_NAME, "html")
-    driver.find_element(By.CSS_SELECTOR, css).click()
-    WebDriverWait(driver, WAIT_S).until(ec.staleness_of(old))
-    _wait(driver, "footer")
-
-
-def _image_drawn(driver: Any, src_part: str) -> bool:
-    return bool(driver.execute_script(
-        "const i = [...document.images].find(i => i.src.includes(arguments[0]));"
-        "return !!i && i.complete && i.naturalWidth > 300;", src_part))
-
-
-def _sign_in(driver: Any, server: str, email: str) -> None:
-    from selenium.webdriver.common.by import By
-
-    driver.get(server + "/")
-    assert "/auth/login" in driver.current_url  # signed out: sent to the sign-in form
-    driver.find_element(By.ID, "email").send_keys(email)
-    driver.find_element(By.ID, "password").send_keys("tern-hollow-demo")
-    _click(driver, "main form button[type=submit]")
-    assert driver.find_element(By.TAG_NAME, "h1").text == "Notebook"
 
 
 # ---------------------------------------------------------------- scenarios
@@ -217,8 +79,10 @@ def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> No
     assert _image_drawn(d, "/plot.svg")
     _shot(d, "run-reanalysed")
 
-    # lock (sign) it: the edit forms are gone and a direct POST is refused
+    # lock (sign) it: a confirmation step first, then the edit forms are gone and a direct POST is refused
     _click(d, "form.lock button[type=submit]")
+    assert "cannot be undone" in d.find_element(By.CSS_SELECTOR, ".confirm").text
+    _click(d, "form.lock-confirm button[type=submit]")
     assert "locked" in d.find_element(By.CSS_SELECTOR, ".flash").text
     assert d.find_elements(By.CSS_SELECTOR, "form.reanalyse") == []
     assert d.find_elements(By.CSS_SELECTOR, "form.lock") == []
@@ -310,7 +174,7 @@ def test_download_a_section_archive_and_import_another_notebooks(browser: Any, s
 
 
 def test_a_missing_browser_skips_with_what_to_install_or_fails_under_ci(monkeypatch: pytest.MonkeyPatch) -> None:
-    import tests.webapp.test_browser as here
+    import tests.webapp.browser_support as here
 
     monkeypatch.setattr(here, "CHROMIUM", Path("/nonexistent/chromium"))
     reason = here._unavailable()

@@ -84,15 +84,38 @@ def test_serve_migrates_loads_the_demo_and_prints_sign_ins(env: str, monkeypatch
                                             "MONTE_CARLO_TRIALS": 0})
     called = {}
     monkeypatch.setattr("flask.Flask.run", lambda self, **kw: called.update(kw))
-    r = CliRunner().invoke(cli, ["serve"])
+    port = _free_port()
+    r = CliRunner().invoke(cli, ["serve", "--port", str(port)])
     assert r.exit_code == 0, r.output
-    assert "http://127.0.0.1:5000" in r.output and "kasper.lindqvist-mayo@ternhollow.example" in r.output
-    assert called["host"] == "127.0.0.1" and called["port"] == 5000
+    assert f"http://127.0.0.1:{port}" in r.output and "kasper.lindqvist-mayo@ternhollow.example" in r.output
+    assert called["host"] == "127.0.0.1" and called["port"] == port
     folder = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
     n_demo = len([*folder.glob("*.toml"), *(folder / "class").glob("*.toml")])
     assert _rows(env, "select count(*) from runs")[0][0] == n_demo
-    r = CliRunner().invoke(cli, ["serve"])  # second start: nothing loaded twice
+    r = CliRunner().invoke(cli, ["serve", "--port", str(port)])  # second start: nothing loaded twice
     assert r.exit_code == 0 and _rows(env, "select count(*) from runs")[0][0] == n_demo
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+def test_serve_refuses_a_busy_port_before_saying_it_serves(env: str) -> None:
+    import socket
+
+    with socket.socket() as busy:
+        busy.bind(("127.0.0.1", 0))
+        busy.listen()
+        port = busy.getsockname()[1]
+        r = CliRunner().invoke(cli, ["serve", "--port", str(port)])
+    assert r.exit_code == 2
+    assert f"port {port} on 127.0.0.1 is already in use" in r.output and "--port" in r.output
+    assert "serving on" not in r.output and "Traceback" not in r.output
+    assert not Path(env.removeprefix("sqlite:///")).exists()  # nothing migrated either
 
 
 def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_path: Path) -> None:

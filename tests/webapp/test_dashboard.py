@@ -9,6 +9,7 @@ import pytest
 
 from calc.statistics.precision import grubbs
 from calc.statistics.precision import iso5725
+from tests.webapp.class_fixtures import build_section
 from tests.webapp.class_fixtures import make_class
 from tests.webapp.class_fixtures import simulated_run
 from webapp.models import Person
@@ -16,20 +17,6 @@ from webapp.services.dashboard import section_dashboard
 from webapp.services.errors import NotFound
 from webapp.services.imports import files_from_folder
 from webapp.services.imports import import_files
-
-
-def build_section(session: Any, lab: Any, tmp_path: Path) -> Any:
-    """Import a crafted section: 6 ordinary KCl runs, one with ΔH far off, one with a tiny ΔT."""
-    cl = make_class(session, lab.ids["coord"])
-    d = tmp_path / "crafted"
-    for i, g in enumerate(["M01", "M01", "M02", "M02", "M03", "M03"]):
-        simulated_run(d, f"{g}-run{i}", 100 + i, calorimeter_name="Spare cup" if i == 0 else "simulated cup")
-    # a Grubbs outlier among 17.2 kJ/mol, yet within the 15 % the ΔT plausibility check allows
-    simulated_run(d, "M04-far", 200, molar_enthalpy_kJ_mol=19.0)
-    simulated_run(d, "M04-tiny", 201, solute_mass_g=0.40, resolution=0.05)  # |ΔT| ≈ 0.3 K < 10 × 0.05 K
-    report = import_files(session, session.get(Person, lab.ids["coord"]), cl.section_id, files_from_folder(d))
-    assert report.count("stored") == 8, report.as_dict()
-    return cl, {i.file: i.run_id for i in report.items}
 
 
 def test_flags_each_triggered_by_a_crafted_run(session: Any, lab: Any, tmp_path: Path) -> None:

@@ -97,7 +97,9 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("GET", "/runs/"): ALL_SIGNED_IN,
     ("GET", "/runs/<int:run_id>"): A1S_RUN,
     ("GET", "/runs/<int:run_id>/<string:which>"): A1S_RUN,
+    ("GET", "/runs/<int:run_id>/lock"): row(L, 404, 200, 403, 200, L, L),  # the confirmation step
     ("POST", "/runs/<int:run_id>/lock"): row(L, 404, R, 403, R, L, L),  # a fresh run of a1's per caller
+    ("GET", "/runs/samples"): ALL_SIGNED_IN,
     ("POST", "/runs/<int:run_id>/reanalyse"): row(L, 404, R, R, R, L, L),
     ("GET", "/runs/<int:run_id>/results/<int:result_id>/<string:which>.svg"): A1S_RUN,
     ("GET", "/runs/new"): ALL_SIGNED_IN,

@@ -68,7 +68,13 @@ def test_run_page_shows_plot_result_budget_comparison_and_cautions(client: Any, 
     # the comparison: reference value, source, difference, E_n, the not-like-for-like notes
     cmp = detail["comparison"]
     assert cmp["reference"]["name"] in html and "Wagman" in html  # NBS tables (1982)
-    assert f"{cmp['En']:+.2f}" in html and f"{cmp['difference']:+.3f}" in html
+    from calc import formatting
+
+    unit = cmp["reference"]["unit"]
+    assert f"{cmp['En']:+.2f}" in html
+    # the difference carries its unit and is rounded like U (no bare "difference 0.726")
+    assert formatting.like(cmp["difference"], cmp["U_measured"], unit, signed=True) in html
+    assert unit in formatting.like(cmp["difference"], cmp["U_measured"], unit, signed=True)
     for note in cmp["notes"]:
         assert note.replace("'", "&#39;") in html
     # the cautions, first on the page: NaOH is H314 (GHS/CLP harmonised classification, from memory)

@@ -200,6 +200,8 @@ _PLAN_NUMBERS = ("thermometer_resolution", "thermometer_noise", "noise_correlati
                  "temperature", "interval", "fore", "after", "release_time", "probe_time", "molar_enthalpy")
 _PLAN_TEXTS = ("formula", "mass", "water_volume", "acid", "base", "acid_concentration", "base_concentration",
                "acid_volume", "base_volume", "base_temperature", "calorimeter_heat_capacity")
+#: amounts of the calibration and reaction kinds (calc.plan_kinds)
+_PLAN_KIND_TEXTS = ("heater_voltage", "heater_current", "heater_duration", "warm_volume", "warm_temperature")
 
 
 @bp.post("/plan")
@@ -212,7 +214,7 @@ def plan_route():  # type: ignore[no-untyped-def]
     from webapp.api.params import as_float
 
     data = json_object()
-    unknown = sorted(set(data) - set(_PLAN_NUMBERS) - set(_PLAN_TEXTS) - {"kind"})
+    unknown = sorted(set(data) - set(_PLAN_NUMBERS) - set(_PLAN_TEXTS) - set(_PLAN_KIND_TEXTS) - {"kind", "coefficient"})
     if unknown:
         raise Invalid(f"unknown field(s): {', '.join(unknown)}", field=unknown[0])
     kw: dict[str, Any] = {}
@@ -222,6 +224,14 @@ def plan_route():  # type: ignore[no-untyped-def]
     for k in _PLAN_TEXTS:
         if data.get(k) is not None:
             kw[k] = as_text(data[k], k)
+    extra: dict[str, Any] = {k: as_text(data[k], k) for k in _PLAN_KIND_TEXTS if data.get(k) is not None}
+    if data.get("coefficient") is not None:
+        c = as_float(data["coefficient"], "coefficient")
+        if c != int(c) or c < 1:
+            raise Invalid("expected a whole number ≥ 1", field="coefficient")
+        extra["coefficient"] = int(c)
+    if extra:
+        kw["kind_inputs"] = extra
     if "thermometer_resolution" not in kw or "calorimeter_heat_capacity" not in kw:
         raise Invalid("missing: thermometer_resolution and calorimeter_heat_capacity are required",
                       field="thermometer_resolution" if "thermometer_resolution" not in kw else "calorimeter_heat_capacity")
@@ -337,8 +347,10 @@ PATHS.update({
     "/api/plan": {
         "post": _op("Plan a run: predicted ΔT, u(ΔH), budget by equipment, suggestion, cautions",
                     _json(_OBJ, "The plan"), 400, 401, body=_body(
-                        {"kind": {"type": "string", "enum": ["dissolution", "neutralization"]},
+                        {"kind": {"type": "string", "enum": ["dissolution", "neutralization", "electrical-calibration",
+                                                             "mixing-calibration", "reaction"]},
                          **{k: {"type": "number"} for k in _PLAN_NUMBERS},
-                         **{k: {"type": "string"} for k in _PLAN_TEXTS}},
+                         **{k: {"type": "string"} for k in _PLAN_TEXTS + _PLAN_KIND_TEXTS},
+                         "coefficient": {"type": "integer", "minimum": 1}},
                         ["kind", "thermometer_resolution", "calorimeter_heat_capacity"]))},
 })

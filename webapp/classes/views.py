@@ -21,6 +21,8 @@ from webapp.classes.forms import RosterForm
 from webapp.classes.forms import SectionForm
 from webapp.db import get_session
 from webapp.services.access import require_coordinator
+from webapp.services.board_view import BoardPage
+from webapp.services.board_view import board_page
 from webapp.services.calorimeters import calorimeters_query
 from webapp.services.classes import courses_query
 from webapp.services.classes import create_bench
@@ -49,6 +51,17 @@ MAX_PLOT_ROWS = 40
 
 def _sort_args(default: str) -> tuple[str, bool]:
     return request.args.get("sort", default), request.args.get("dir", "asc") == "desc"
+
+
+def _view_args(board: Dashboard) -> tuple[BoardPage, dict[str, str]]:
+    """Return the page of the board the request asks for, and the query arguments to keep."""
+    page = request.args.get("page", "1")
+    if not page.isdigit():
+        raise Invalid("expected a page number", field="page")
+    shown = board_page(board.rows, query=request.args.get("q", ""), flag=request.args.get("flag", ""),
+                       page=int(page), flags=FLAGS)
+    keep = {k: v for k, v in (("q", shown.query), ("flag", shown.flag)) if v}
+    return shown, keep
 
 
 def _plot(board: Dashboard, by_section: bool) -> str | None:
@@ -173,10 +186,12 @@ def section_board(section_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     sort, desc = _sort_args("group")
     board = section_dashboard(session, current_user, section_id, sort=sort, descending=desc)
+    shown, keep = _view_args(board)
     group_ids = {r.group: r.group_id for r in board.rows if r.group_id is not None}
     return render_template("classes/dashboard.html", board=board, plot=_plot(board, False), flags=FLAGS,
                            series=group_series(board.rows, session), endpoint="classes.section_board",
-                           args={"section_id": section_id}, export="classes.section_export", group_ids=group_ids,
+                           args={"section_id": section_id}, export="classes.section_export", shown=shown,
+                           link={"section_id": section_id, **keep}, group_ids=group_ids,
                            group_comments=group_comments(session, current_user, list(group_ids.values())))
 
 
@@ -186,9 +201,11 @@ def course_board(course_id: int):  # type: ignore[no-untyped-def]
     """The dashboard of a whole course."""
     sort, desc = _sort_args("section")
     board = course_dashboard(get_session(), current_user, course_id, sort=sort, descending=desc)
+    shown, keep = _view_args(board)
     return render_template("classes/dashboard.html", board=board, plot=_plot(board, True), flags=FLAGS,
                            series=None, endpoint="classes.course_board", args={"course_id": course_id},
-                           export="classes.course_export")
+                           export="classes.course_export", shown=shown,
+                           link={"course_id": course_id, **keep})
 
 
 def _export(board: Dashboard, fmt: str, stem: str) -> Response:

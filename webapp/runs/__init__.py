@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from webapp.runs.blueprint import bp
-from webapp.runs import filters  # noqa: F401  (registers the template filters)
 from webapp.runs import new  # noqa: F401  (registers the routes)
 from webapp.runs import views  # noqa: F401  (registers the routes)
 

@@ -14,7 +14,13 @@ from flask_login import current_user
 from flask_login import login_required
 
 from webapp.auth.forms import ConfirmForm
+from calc.io.runfile import KINDS
 from webapp.db import get_session
+from webapp.services.calorimeters import calorimeters_query
+from webapp.services.run_list import FLAGS as RUN_FLAGS
+from webapp.services.run_list import SORTS as RUN_SORTS
+from webapp.services.run_list import filtered_runs_query
+from webapp.services.run_list import read_filter
 from webapp.plot_cache import budget_plot
 from webapp.plot_cache import draw_result_plots
 from webapp.plot_cache import run_plot
@@ -24,6 +30,7 @@ from webapp.runs.blueprint import bp
 from webapp.runs.forms import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
+from webapp.services.errors import Forbidden
 from webapp.services.errors import ServiceError
 from webapp.services.pages import result_of
 from webapp.services.pages import run_page
@@ -32,7 +39,6 @@ from webapp.services.runs import lock_run
 from webapp.services.runs import paginate
 from webapp.services.runs import reanalyse_run
 from webapp.services.review_page import review_panel
-from webapp.services.runs import runs_query
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"
@@ -46,8 +52,11 @@ def index():  # type: ignore[no-untyped-def]
     """List the runs I may see, newest first, a page at a time."""
     page = request.args.get("page", 1, type=int) or 1
     per_page = int(current_app.config["PAGE_SIZE"])
-    result = paginate(get_session(), runs_query(current_user), page, per_page)
-    return render_template("runs/index.html", page=result)
+    chosen = read_filter(request.args)
+    session = get_session()
+    result = paginate(session, filtered_runs_query(current_user, chosen), page, per_page)
+    return render_template("runs/index.html", page=result, chosen=chosen, kinds=KINDS, flags=RUN_FLAGS,
+                           sorts=RUN_SORTS, cups=[c.name for c in session.scalars(calorimeters_query())])
 
 
 @bp.route("/<int:run_id>")
@@ -120,6 +129,20 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
     return redirect(url_for("runs.detail", run_id=run_id))
 
 
+@bp.route("/<int:run_id>/lock", methods=["GET"])
+@login_required
+def lock_confirm(run_id: int):  # type: ignore[no-untyped-def]
+    """The step before signing: what locking means, the result that will be final, and the button."""
+    page = run_page(get_session(), current_user, run_id)
+    if page.run.locked:
+        flash("This run is locked (signed) already.")
+        return redirect(url_for("runs.detail", run_id=run_id))
+    if not page.may_lock:
+        raise Forbidden("only the run's author or a coordinator may lock (sign) it")
+    return render_template("runs/lock_confirm.html", run=page.run, result=page.result, lock_form=ConfirmForm(),
+                           unit=main_value(page.result)[2] if page.result is not None else "")
+
+
 @bp.route("/<int:run_id>/lock", methods=["POST"])
 @login_required
 def lock(run_id: int):  # type: ignore[no-untyped-def]
@@ -151,3 +174,14 @@ def _attachment(name: str) -> str:
     """Return a Content-Disposition header value for a stored file name (ASCII, quotes dropped)."""
     safe = "".join(ch for ch in name if ch.isascii() and ch.isprintable() and ch not in '"\\')
     return f'attachment; filename="{safe or "file"}"'
+
+
+@bp.route("/samples")
+@login_required
+def series_index():  # type: ignore[no-untyped-def]
+    """Replicates by sample (lot): each sample's runs with mean, t 95 % interval and ν_eff."""
+    from webapp.services.samples import sample_series
+
+    sample = (request.args.get("sample") or "").strip()
+    return render_template("runs/samples.html", series=sample_series(get_session(), current_user, sample=sample),
+                           sample=sample)

@@ -14,7 +14,6 @@ import sqlalchemy.orm as so
 from webapp.models import Calibration
 from webapp.models import Calorimeter
 from webapp.models import Person
-from webapp.models import Run
 from webapp.models import utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import threading
 from collections import Counter
 from collections import defaultdict
 from types import SimpleNamespace
@@ -32,6 +33,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc import formatting as fmt
 from calc.refdata.comparison import verdict
 from calc.errors import InputError
 from calc.statistics.replicates import shared_type_b
@@ -159,10 +161,9 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
             Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
             Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
             Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.budget, res_in.value, RunReview.withdrawn, RunReview.withdrawn_reason, RunReview.excluded,
-            RunReview.excluded_reason, RunReview.accepted, RunReview.mark_points, RunReview.mark_reason, Group.id,
-            included_in_statistics().label("included"),
-            *_checks_column(),
+            Result.id, Result.created_at, res_in.value, RunReview.withdrawn, RunReview.withdrawn_reason,
+            RunReview.excluded, RunReview.excluded_reason, RunReview.accepted, RunReview.mark_points,
+            RunReview.mark_reason, Group.id, included_in_statistics().label("included"), Result.checks,
         )
         .outerjoin(RunReview, RunReview.run_id == Run.id)
         .join(Group, Group.id == Run.group_id)
@@ -170,11 +171,6 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
         .outerjoin(res_in, sa.and_(res_in.run_id == Run.id, res_in.field == "thermometer.resolution"))
         .where(Group.section_id.in_(section_ids))
     )
-
-
-def _checks_column() -> list[Any]:
-    checks = getattr(Result, "checks", None)
-    return [checks] if checks is not None else []
 
 
 def _first_calibrations(session: so.Session, calorimeter_ids: set[int]) -> dict[int, Any]:
@@ -201,6 +197,38 @@ def _measurement(kind: str, comparison: dict[str, Any] | None) -> str:
     return f"{kind} · {name}" if name else kind
 
 
+#: (database, result id, its time) → (shared Type B part, largest budget line): a result's budget never
+#: changes (a new analysis is a new result), so the dashboard reads each budget once per process
+_DIGESTS: dict[tuple[str, int, Any], tuple[tuple[float, float], tuple[str, str, float]]] = {}
+_DIGESTS_MAX = 20000
+_DIGESTS_LOCK = threading.Lock()
+
+
+def _digest(budget: list[Any] | None) -> tuple[tuple[float, float], tuple[str, str, float]]:
+    lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
+    top = max(lines, key=lambda b: b["share"]) if lines else None
+    largest = (top.get("input", ""), top.get("label", ""), float(top["share"])) if top else ("", "", 0.0)
+    return shared_type_b(budget_lines(lines)), largest
+
+
+def _budget_digests(session: so.Session, keys: list[tuple[int, Any]]
+                    ) -> dict[tuple[int, Any], tuple[tuple[float, float], tuple[str, str, float]]]:
+    """Return the budget digest of each (result id, created at), reading only budgets not seen before."""
+    db = str(session.get_bind().url)
+    with _DIGESTS_LOCK:
+        out = {k: _DIGESTS[(db, *k)] for k in keys if (db, *k) in _DIGESTS}
+    missing = [k for k in keys if k not in out]
+    for start in range(0, len(missing), 500):
+        chunk = {rid: at for rid, at in missing[start:start + 500]}
+        for rid, budget in session.execute(sa.select(Result.id, Result.budget).where(Result.id.in_(chunk))):
+            out[(rid, chunk[rid])] = _digest(budget)
+    with _DIGESTS_LOCK:
+        if len(_DIGESTS) + len(missing) > _DIGESTS_MAX:
+            _DIGESTS.clear()
+        _DIGESTS.update({(db, *k): out[k] for k in missing if k in out})
+    return out
+
+
 def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     """Return the dashboard rows of the current results of the sections' runs, flags set."""
     names = {s.id: s.name for s in sections}
@@ -208,9 +236,10 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     schemes = {sid: scheme_of(session, sid)[0] for sid in names}
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
+    digests = _budget_digests(session, [(r[18], r[19]) for r in raw])
     for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, budget, resolution, withdrawn, w_reason, excluded, x_reason, accepted, mark_points, mark_reason,
-         group_id, included, *checks) in raw:
+         comparison, result_id, result_at, resolution, withdrawn, w_reason, excluded, x_reason, accepted, mark_points,
+         mark_reason, group_id, included, checks) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
         vd = verdict(comp)
@@ -227,9 +256,9 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
         row.group_id = group_id
         row.mark = run_mark(schemes[sid], vd, included=row.included, status=row.status, override=mark_points,
                             override_reason=mark_reason or "")
-        if run_flagged(SimpleNamespace(checks=checks[0] if checks else None)) and not accepted:
+        if run_flagged(SimpleNamespace(checks=checks)) and not accepted:
             row.flags.append("check")
-            row.notes["check"] = (flag_text(checks[0]) + " (left out of the statistics until staff accept it)")
+            row.notes["check"] = (flag_text(checks) + " (left out of the statistics until staff accept it)")
             row.included = False
         if vd is not None and not vd.satisfactory:
             row.flags.append("En")
@@ -237,7 +266,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                                "than their uncertainties allow")
         if resolution is not None and abs(dT) < 10 * resolution:
             row.flags.append("small-dT")
-            row.notes["small-dT"] = f"|ΔT| = {abs(dT):.3g} K is under 10 × the resolution {resolution:g} K"
+            row.notes["small-dT"] = f"|ΔT| = {fmt.number(abs(dT), 'K')} is under 10 × the resolution {fmt.number(resolution, 'K', trim=True)}"
         for w in warnings or []:
             if w.startswith("large drift") and "drift" not in row.flags:
                 row.flags.append("drift")
@@ -252,11 +281,7 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
                 row.notes["no-calibration"] = ("the calorimeter's heat capacity came from the run file, and "
                                                + ("no calorimeter is named" if calo_id is None else
                                                   "the calorimeter had no calibration on record"))
-        lines = [b for b in (budget or []) if isinstance(b, dict) and b.get("share") is not None]
-        row.type_b = shared_type_b(budget_lines(lines))
-        if lines:
-            top = max(lines, key=lambda b: b["share"])
-            row.top_input, row.top_label, row.top_share = top.get("input", ""), top.get("label", ""), float(top["share"])
+        row.type_b, (row.top_input, row.top_label, row.top_share) = digests[(result_id, result_at)]
         rows.append(row)
     _overdue_flags(session, rows)
     _grubbs_flags(rows)
@@ -294,7 +319,7 @@ def _grubbs_flags(rows: list[Row]) -> None:
             m = members[g.index]
             m.flags.append("outlier")
             m.notes["outlier"] = (f"G = {g.G:.2f} > G_crit = {g.G_crit:.2f} among {g.n} results "
-                                  f"(section mean {g.mean:.4g} {m.unit})")
+                                  f"(section mean {fmt.number(g.mean, m.unit, digits=4)})")
 
 
 def statistics(rows: list[Row]) -> list[Stats]:

@@ -22,7 +22,6 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from webapp.models import Person
-from webapp.models import Result
 from webapp.models import Run
 from webapp.models import RunReview
 from webapp.models import utcnow

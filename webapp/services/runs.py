@@ -447,6 +447,7 @@ def _new_run(
         bench=(info.get("bench") or "")[:120],
         performed_on=(info.get("date") or "")[:40],
         notes=info.get("notes") or "",
+        sample=(info.get("sample") or "").strip()[:200],
         created_at=utcnow(),
         calorimeter=calorimeter,
         calibration=calibration,

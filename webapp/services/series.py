@@ -42,8 +42,12 @@ def _main(result: Result) -> tuple[float | None, str]:
     return result.calorimeter_heat_capacity_j_k, "J/K"
 
 
-def summarise_runs(runs: list[tuple[Run, Result]]) -> dict[str, Any]:
-    """Return the series statistics of runs with their current results (at least 2, one kind)."""
+def summarise_runs(runs: list[tuple[Run, Result]], *, first_budget: list[dict[str, Any]] | None = None
+                   ) -> dict[str, Any]:
+    """Return the series statistics of runs with their current results (at least 2, one kind).
+
+    ``first_budget``: the first run's budget when the caller has read it already (else it is loaded).
+    """
     if len(runs) < 2:
         raise Invalid(f"a series needs at least 2 runs with a result, got {len(runs)}", field="run_ids")
     kinds = {res.main for _run, res in runs}
@@ -55,7 +59,7 @@ def summarise_runs(runs: list[tuple[Run, Result]]) -> dict[str, Any]:
         if v is None:
             raise Invalid(f"run {_run.id} has no value of its main result", field="run_ids")
         values.append(v)
-    ub, nub = shared_type_b(budget_lines(runs[0][1].budget))
+    ub, nub = shared_type_b(budget_lines(runs[0][1].budget if first_budget is None else first_budget))
     try:
         s = summarise_series(values, type_b_u=ub, type_b_dof=nub)
     except InputError as exc:

@@ -1,0 +1,120 @@
+"""The planned amounts of each run kind, as run-file sections for :func:`calc.plan.plan_run`.
+
+One entry per kind: which sections the plan writes, which amount the suggestion scales to
+bring |ΔT| into the useful window, whether a second solution is poured in, and what the
+expected result is (a reference enthalpy, a given ΔH, or, for a calibration, the heat
+capacity the calorimeter is expected to have).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+from calc.errors import InputError
+from calc.io.quantities import Measured
+
+CALIBRATION_KINDS = ("electrical-calibration", "mixing-calibration")
+
+
+@dataclass(frozen=True)
+class PlanKind:
+    """How one kind is planned: the amounts scaled together and whether two solutions mix."""
+
+    name: str
+    scaled: tuple[tuple[str, str], ...]
+    two_solution: bool
+    release_s: float
+    main: str
+
+
+PLAN_KINDS: dict[str, PlanKind] = {
+    "dissolution": PlanKind("dissolution", (("solute", "mass"),), False, 60.0, "molar_enthalpy"),
+    "neutralization": PlanKind("neutralization", (("acid", "concentration"), ("base", "concentration")), True, 5.0,
+                               "molar_enthalpy"),
+    # the heater's energy spreads over its time on; a poured warm water mixes in seconds
+    "electrical-calibration": PlanKind("electrical-calibration", (("heater", "duration"),), False, 60.0,
+                                       "calorimeter_heat_capacity"),
+    "mixing-calibration": PlanKind("mixing-calibration", (("warm_water", "volume"),), True, 5.0,
+                                   "calorimeter_heat_capacity"),
+    "reaction": PlanKind("reaction", (("reaction", "mass"),), False, 60.0, "molar_enthalpy"),
+}
+
+
+def _text(value: str | None, name: str, what: str) -> str:
+    if not value or not str(value).strip():
+        raise InputError(f"missing: {what}", field=name)
+    return str(value).strip()
+
+
+def build_sections(kind: str, p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
+                   T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+    """Return (run-file sections, substances) of a planned ``kind`` run from the parameters ``p``.
+
+    ``amount`` and ``measured`` are the plan's readers of a positive amount and a quantity (they
+    name the parameter in their errors); ``u_read`` is the thermometer's reading uncertainty.
+    """
+    volume_u, balance_u = p.get("volume_u"), p.get("balance_u")
+    if kind == "dissolution":
+        formula = _text(p.get("formula"), "formula", "the solute's formula, e.g. KCl")
+        return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
+                 "solute": {"formula": formula, "mass": amount(p.get("mass"), "mass", "g", balance_u)}}, [formula])
+    if kind == "neutralization":
+        acid = _text(p.get("acid"), "acid", "the acid's formula, e.g. HCl")
+        base = _text(p.get("base"), "base", "the base's formula, e.g. NaOH")
+        tb = p.get("base_temperature")
+        tb = (Measured(T0 - 273.15, u_read, "degC", "normal", f"{T0 - 273.15:.2f} ± {u_read:.2g} degC")
+              if tb is None else measured(tb, "base_temperature", "K"))
+        return ({"acid": {"formula": acid, "concentration": amount(p.get("acid_concentration"), "acid_concentration", "mol/L"),
+                          "volume": amount(p.get("acid_volume"), "acid_volume", "mL", volume_u)},
+                 "base": {"formula": base, "concentration": amount(p.get("base_concentration"), "base_concentration", "mol/L"),
+                          "volume": amount(p.get("base_volume"), "base_volume", "mL", volume_u), "temperature": tb}},
+                [acid, base])
+    if kind == "electrical-calibration":
+        return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
+                 "heater": {"voltage": amount(p.get("heater_voltage"), "heater_voltage", "V"),
+                            "current": amount(p.get("heater_current"), "heater_current", "A"),
+                            "duration": amount(p.get("heater_duration"), "heater_duration", "s")}}, [])
+    if kind == "mixing-calibration":
+        warm = measured(p.get("warm_temperature"), "warm_temperature", "K")
+        if not warm.m_as("K") > T0 + 1.0:
+            raise InputError(f"the warm water must be warmer than the start temperature "
+                             f"({T0 - 273.15:.1f} °C), got {warm.text!r}", field="warm_temperature")
+        return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
+                 "warm_water": {"volume": amount(p.get("warm_volume"), "warm_volume", "mL", volume_u),
+                                "temperature": warm}}, [])
+    if kind == "reaction":
+        formula = _text(p.get("formula"), "formula", "the formula of the reagent added, e.g. Mg")
+        if p.get("molar_enthalpy") is None:
+            raise InputError("a reaction has no reference value here: give the expected ΔH, e.g. -460 kJ/mol",
+                             field="molar_enthalpy")
+        mass = amount(p.get("mass"), "mass", "g", balance_u)
+        coefficient = int(p.get("coefficient") or 1)
+        if coefficient < 1:
+            raise InputError(f"expected a whole number ≥ 1, got {coefficient}", field="coefficient")
+        return ({"solution": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
+                 "reaction": {"limiting_reagent": formula, "mass": mass, "coefficient": coefficient}}, [formula])
+    raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLAN_KINDS)}", field="kind")
+
+
+def solve_delta_t(f: Callable[[float], float], target: float) -> float:
+    """Return the ΔT at which the model's main output ``f(ΔT)`` equals ``target`` (secant method).
+
+    Linear models (enthalpies) converge in one step; a calibration's C = Q/ΔT − m·c in a few.
+    """
+    x0, x1 = 1.0, 2.0
+    f0, f1 = f(x0) - target, f(x1) - target
+    for _ in range(60):
+        if f1 == f0 or not (math.isfinite(f0) and math.isfinite(f1)):
+            break
+        x2 = x1 - f1 * (x1 - x0) / (f1 - f0)
+        if x2 == 0 or not math.isfinite(x2):
+            break
+        if abs(x2 - x1) <= 1e-10 * max(abs(x2), 1e-6):
+            return x2
+        x0, f0, x1 = x1, f1, x2
+        f1 = f(x1) - target
+    raise InputError("the planned amounts give no temperature change that matches the expected result: "
+                     "check the amounts", field="amount")
