@@ -65,11 +65,11 @@ def test_flagged_run_is_left_out_of_section_statistics(session: Any, lab: Any, t
     assert report.count("stored") == 5, report.as_dict()
     board = section_dashboard(session, coord, cl.section_id)
     typo = next(r for r in board.rows if r.group == "M03")
-    assert typo.excluded and "checks" in typo.flags and "solubility" in typo.notes["checks"]
-    kept = [r.value for r in board.rows if not r.excluded]
+    assert not typo.included and "check" in typo.flags and "solubility" in typo.notes["check"]
+    kept = [r.value for r in board.rows if r.included]
     st = board.stats[0]
     assert st.n == 4 and abs(st.mean - sum(kept) / 4) < 1e-12
-    assert board.flag_counts["checks"] == 1
+    assert board.flag_counts["check"] == 1
 
 
 def test_dashboard_page_explains_the_mark_in_text(client: Any, session: Any, lab: Any, tmp_path: Path) -> None:
