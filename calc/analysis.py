@@ -20,6 +20,7 @@ from calc.deltat import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
 from calc.errors import AnalysisError
 from calc.gum import GumResult, MonteCarloResult, monte_carlo, propagate
 from calc.models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
+from calc.logprep import PreparedLog, gap_warnings, prepare_log
 from calc.periods import Periods, find_periods
 from calc.readings import Readings, read_readings
 from calc.runfile import RunSpec, load_run
@@ -55,6 +56,8 @@ class Analysis:
     comparison: Any = None
     cautions: list[Any] = field(default_factory=list)
     software_version: str = __version__
+    rejected: list[dict] = field(default_factory=list)  # readings rejected as spikes
+    gaps: list[tuple[float, float]] = field(default_factory=list)  # gaps in the log, s
 
     @property
     def kind(self) -> str:
@@ -118,35 +121,46 @@ def analyze_spec(
     seed: int | None = None,
     fore: tuple[float, float] | None = None,
     after: tuple[float, float] | None = None,
+    mixing_time: tuple[float, float] | None = None,
     with_reference: bool = True,
 ) -> Analysis:
     """Analyse an already parsed run and log (used by the web app for re-analysis).
 
-    ``with_reference=False`` skips the reference comparison and the cautions (the JSON
-    record carries neither), which keeps batch analysis fast.
+    ``mixing_time`` (value, standard uncertainty in s) overrides the run file's. Before the
+    periods are found, repeated time stamps are merged and spikes rejected
+    (:mod:`calc.logprep`). ``with_reference=False`` skips the reference comparison and the
+    cautions (the JSON record carries neither), which keeps batch analysis fast.
     """
     two = spec.kind in ("neutralization", "mixing-calibration")
-    mix = spec.mixing_time
+    prep = prepare_log(readings.time_s, readings.temperature_K, resolution=spec.resolution_K, lines=readings.lines)
+    if mixing_time is not None:
+        t_mix, u_mix = float(mixing_time[0]), float(mixing_time[1])
+    elif spec.mixing_time is not None:
+        t_mix, u_mix = spec.mixing_time.m_as("s"), spec.mixing_time.u_as("s")
+    else:
+        t_mix, u_mix = None, 0.0
     periods = find_periods(
-        readings.time_s,
-        readings.temperature_K,
+        prep.t,
+        prep.y,
         resolution=spec.resolution_K,
-        mixing_time=None if mix is None else mix.m_as("s"),
-        u_mixing_time=0.0 if mix is None else mix.u_as("s"),
+        mixing_time=t_mix,
+        u_mixing_time=u_mix,
         fore=fore or spec.fore_period,
         after=after or spec.after_period,
         two_solution=two,
         source=readings.source,
-        lines=readings.lines,
+        lines=prep.lines,
     )
-    log = Log(readings.time_s, readings.temperature_K, periods, spec.resolution_K, two_solution=two)
-    dt = corrected_delta_t(log, method or spec.method or DEFAULT_METHOD)
+    log = Log(prep.t, prep.y, periods, spec.resolution_K, two_solution=two)
+    method_name = method or spec.method or DEFAULT_METHOD
+    dt = corrected_delta_t(log, method_name)
     if not math.isfinite(dt.value) or dt.value == 0.0:
         raise AnalysisError(f"{readings.source}: no usable temperature change was found")
+    _extra_terms(log, dt, method_name, prep)
     props = resolve_properties(spec, dt)
     model = build_model(spec, dt, props)
     gum = propagate(model.inputs, model.model, model.main)
-    warnings: list[str] = []
+    warnings: list[str] = list(prep.warnings)
     warnings.extend(dt.warnings)
     warnings.extend(props.warnings)
     warnings.extend(kind_warnings(spec, dt, gum, model))
@@ -159,10 +173,30 @@ def analyze_spec(
                 f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] {unit} differs from the GUM interval "
                 f"by more than the tolerance ({mc.tolerance:.2g} {unit}); report the Monte Carlo interval"
             )
-    analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
+    analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings,
+                        rejected=prep.rejected, gaps=prep.gaps)
     if with_reference:
         _attach_reference(analysis)
     return analysis
+
+
+def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
+    """Add the budget terms the drift fits do not see, and their warnings (docs/methods.md)."""
+    from calc.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term
+    from calc.deltat import METHODS
+
+    p = log.periods
+    dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))
+    dt.u_drift_resolution = quantisation_drift_term(log, dt.value)
+    if method_name == "regnault-pfaundler":
+        dt.u_model, diff = inadequacy_term(log, dt)
+        if dt.u_model > 0 and dt.u_model**2 > 0.5 * dt.u**2:
+            dt.warnings.append(
+                f"the drift does not follow one Newtonian law (the after period alone gives a ΔT "
+                f"{diff:+.3g} K different): this model-inadequacy term dominates the uncertainty; "
+                "check for a changing room temperature, evaporation or a heating stirrer"
+            )
+    dt.warnings.extend(gap_warnings(prep.gaps, p.mixing_time, p.main_end))
 
 
 # ------------------------------------------------------------------ properties
