@@ -182,19 +182,21 @@ def analyze_spec(
 
 def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
     """Add the budget terms the drift fits do not see, and their warnings (docs/methods.md)."""
-    from calc.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term
+    from calc.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term, room_drift_term
     from calc.deltat import METHODS
 
     p = log.periods
     dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))
     dt.u_drift_resolution = quantisation_drift_term(log, dt.value)
     if method_name == "regnault-pfaundler":
-        dt.u_model, diff = inadequacy_term(log, dt)
-        if dt.u_model > 0 and dt.u_model**2 > 0.5 * dt.u**2:
+        u_dis, diff = inadequacy_term(log, dt)
+        dt.u_model = math.hypot(u_dis, room_drift_term(log, dt))
+        if dt.u_model**2 > 0.5 * dt.u**2:
+            why = (f"the after period alone gives a ΔT {diff:+.3g} K different" if u_dis > 0
+                   else "the main period is long, so an unseen change of the room temperature weighs heavily")
             dt.warnings.append(
-                f"the drift does not follow one Newtonian law (the after period alone gives a ΔT "
-                f"{diff:+.3g} K different): this model-inadequacy term dominates the uncertainty; "
-                "check for a changing room temperature, evaporation or a heating stirrer"
+                f"the drift model's inadequacy dominates the uncertainty of ΔT ({why}); check for a changing "
+                "room temperature, evaporation or a heating stirrer, and keep the main period short"
             )
     dt.warnings.extend(gap_warnings(prep.gaps, p.mixing_time, p.main_end))
 

@@ -21,7 +21,12 @@ import numpy as np
 
 from calc.drift import fit_newton_single
 
-__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term"]
+__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term"]
+
+#: Standard uncertainty of an unseen linear change of the room temperature, K/s: a room that
+#: warms or cools by up to about 1 K/h over a run, taken as rectangular (±1 K/h, u = 1/√3 K/h).
+#: Common practice, no source: a teaching lab without climate control.
+ROOM_DRIFT_U = 1.0 / 3600.0 / math.sqrt(3.0)
 
 
 def slope_floor(q: float, s: float, length: float) -> float:
@@ -84,8 +89,8 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
 
     The regnault-pfaundler value uses one Newtonian drift law for the fore and after periods.
     The same ΔT with the after period's own drift law and the fore line's level at the mixing
-    time is a second, applicable estimate. Their disagreement beyond twice what the after fit's
-    own scatter explains is taken as a rectangular half-width.
+    time is a second, applicable estimate. Their disagreement beyond what the after fit's
+    own scatter explains (three standard uncertainties) is taken as a rectangular half-width.
     """
     c = dt.construction
     if log.two_solution or "newton_joint" not in c:
@@ -109,5 +114,32 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
     # the after-only law's own uncertainty in the drift correction
     J = np.array([1.0 - k * (t_f - t_i), -(t_f - t_i), -(y_f * (t_f - t_i) - integ)])
     u_alt = math.sqrt(max(float(J @ nf.cov @ J), 0.0) + fore.var_at(t_i))
-    excess = max(abs(d) - 2.0 * math.hypot(u_alt, dt.u_fit), 0.0)
+    excess = max(abs(d) - 3.0 * math.hypot(u_alt, dt.u_fit), 0.0)
     return excess / math.sqrt(3.0), d
+
+
+def room_drift_term(log, dt) -> float:
+    """Return the ΔT standard uncertainty from a room temperature that changes linearly (K).
+
+    With an environment drifting at β the true law is g = G + k(y_i − T) + c(t − t_i), c = kβ.
+    One Newtonian law fitted to the fore and after windows (centres t_fc, t_ac) absorbs c into
+    g_i and k; the drift correction is then off by
+    c·[(t_fc − t_i)·D + (t_ac − t_fc)·B/(y_i − T_ac) − D²/2], with D = t_f − t_i and
+    B = ∫(y_i − T) dt over the main period. β is unknown: its standard uncertainty is ROOM_DRIFT_U.
+    """
+    c = dt.construction
+    if "newton_joint" not in c:
+        return 0.0
+    y_i = float(c["newton_joint"][0])
+    k = math.hypot(max(float(c.get("k_per_s", 0.0)), 0.0), float(c.get("u_k_per_s", 0.0)))
+    t_i, t_f = log.periods.mixing_time, log.periods.main_end
+    D = t_f - t_i
+    fore, after = log.line("fore"), log.line("after")
+    if abs(y_i - after.a) < 1e-9 or D <= 0:
+        return 0.0
+    m = (log.t > t_i) & (log.t < t_f)
+    tt = np.concatenate([[t_i], log.t[m], [t_f]])
+    yy = np.concatenate([[y_i], log.y[m], [after.at(t_f)]])
+    B = float(np.sum(0.5 * ((y_i - yy[1:]) + (y_i - yy[:-1])) * np.diff(tt)))
+    lever = (fore.t_mean - t_i) * D + (after.t_mean - fore.t_mean) * B / (y_i - after.a) - 0.5 * D * D
+    return k * ROOM_DRIFT_U * abs(lever)

@@ -68,7 +68,10 @@ def _spikes(y: np.ndarray, resolution: float) -> np.ndarray:
         return np.zeros(y.size, dtype=bool)
     r = y - running_median(y, SPIKE_HALF_WIDTH)
     mad = float(np.median(np.abs(r - np.median(r)))) * 1.4826
-    thr = max(SPIKE_SIGMAS * mad, 3.0 * resolution, 1e-9)
+    # slow (correlated) noise hides from a short median: judge also against a wide one
+    rw = y - running_median(y, 5 * SPIKE_HALF_WIDTH)
+    mad_w = float(np.median(np.abs(rw - np.median(rw)))) * 1.4826
+    thr = max(SPIKE_SIGMAS * mad, 5.0 * mad_w, 3.0 * resolution, 1e-9)
     out = np.abs(r) > thr
     if not out.any():
         return out

@@ -23,6 +23,10 @@ __all__ = ["Periods", "find_periods", "MIN_WINDOW_POINTS"]
 
 #: Fewest readings accepted in the fore or after period.
 MIN_WINDOW_POINTS = 8
+#: Longest stretch after mixing searched for the end of the main period, s.
+MAIN_SEARCH_S = 3600.0
+#: Longest after period taken by default, s (the drift law is local; a long log is cut here).
+AFTER_MAX_S = 1200.0
 
 
 @dataclass
@@ -176,7 +180,9 @@ def _find_main_end(
 ) -> tuple[float, float, float | None, list[str]]:
     """Return (t_f, end of log, rough τ, warnings) from the running corrected change."""
     warnings: list[str] = []
-    post = t > t_m
+    # the release is judged on at most MAIN_SEARCH_S after mixing: in a long log the drift law
+    # of the late readings (room temperature change) says nothing about the main period
+    post = (t > t_m) & (t <= t_m + MAIN_SEARCH_S)
     tp = t[post]
     yp = y[post]
     if tp.size < 2 * MIN_WINDOW_POINTS:
@@ -229,7 +235,7 @@ def _find_main_end(
     tau = max((t90 - t50) / math.log(5.0), dt)
     t_f = t90 + 6.0 * tau
     min_after = max(MIN_WINDOW_POINTS * dt, 60.0)
-    t_end = float(t[-1])
+    t_end = min(float(t[-1]), t_f + AFTER_MAX_S)
     if t_end - t_f < min_after:
         t_f_new = t_end - min_after
         warnings.append(
