@@ -120,7 +120,7 @@ class RunOptions(TypedDict, total=False):
     spikes: int  # number of wild readings (loose contact), each 1–2 readings wide
     spike_K: float  # typical spike size, K (each drawn 0.5–1.5 times this, either sign)
     drop_fraction: float  # share of rows dropped at random
-    jitter_s: float  # sampling times off the grid by up to ± this, s (stamped to 0.1 s)
+    jitter_s: float  # time stamps off the true sampling times by up to ± this, s (stamped to 0.1 s)
     omit_mixing_time: bool  # leave mixing_time out of the run file
 
 
@@ -186,8 +186,6 @@ class RunContext:
         stated_tm = t_m + o["mark_error_s"] + (rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)
         n = int(math.floor((t_m + o["after_s"]) / o["dt"] + 1e-9)) + 1
         times = np.round(np.arange(n) * o["dt"], 9)
-        if o["jitter_s"] > 0:
-            times = np.sort(np.clip(times + rng.uniform(-o["jitter_s"], o["jitter_s"], n), 0.0, None))
         contents, probe = model.solve(times)
         phi = math.exp(-o["dt"] / o["stir_tau_s"]) if o["stir_tau_s"] > 0 else o["phi"]
         readings = read_probe(rng, probe, noise=o["noise"], phi=phi, resolution=o["resolution"],
@@ -234,8 +232,10 @@ def _artefacts(rng: np.random.Generator, o: Mapping[str, Any], times: np.ndarray
     keep = np.ones(n, dtype=bool)
     if o["drop_fraction"] > 0:
         keep[1:-1] = rng.uniform(size=n - 2) >= o["drop_fraction"]
-    if o["jitter_s"] > 0:
-        times = np.round(times, 1)
+    if o["jitter_s"] > 0:  # the logger's clock stamps each reading off its true time
+        times = np.round(times + rng.uniform(-o["jitter_s"], o["jitter_s"], n), 1)
+        order = np.argsort(times, kind="stable")
+        times, readings, contents, probe, keep = (a[order] for a in (times, readings, contents, probe, keep))
     return times[keep], readings[keep], contents[keep], probe[keep]
 
 

@@ -65,8 +65,10 @@ def _stated(rng, value: float, u: float, unit: str, places: int) -> str:
 
 def _room(rng):
     t0 = rng.uniform(18, 25)
-    trend = rng.uniform(-1.0, 1.0) / 3600.0
-    amp, period, phase = rng.uniform(0, 0.3), rng.uniform(1800, 7200), rng.uniform(0, 2 * math.pi)
+    # a trend of up to ±0.8 K/h plus a slow swing (air handling) of up to 0.08 K: the room's rate of
+    # change stays within about 1–2 K/h, the range the issue calls realistic
+    trend = rng.uniform(-0.8, 0.8) / 3600.0
+    amp, period, phase = rng.uniform(0, 0.08), rng.uniform(1800, 7200), rng.uniform(0, 2 * math.pi)
     return lambda t: t0 + trend * t + amp * math.sin(2 * math.pi * t / period + phase), t0
 
 
@@ -214,7 +216,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         c_before, c_after = c_a + c_cal, c_a + c_b + c_cal
         if kind == "neutralization":
             conc = rng.uniform(0.5, 1.5)
-            n_mol = conc * v_a / 1000
+            n_mol = min(conc * v_a, 1.05 * conc * v_b) / 1000  # the limiting reagent's amount
             dh = -57.0 * rng.uniform(0.97, 1.03)
             q_heat = -dh * 1000 * n_mol
             t_b = t0 + rng.uniform(-1.0, 1.0)
