@@ -100,7 +100,8 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
         return 0.0, 0.0
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     fore = log.line("fore")
-    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.get("k_per_s", 0.0), 0.0))
+    # started from the joint law's k, a few steps suffice; an unconverged fit gives no term
+    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.get("k_per_s", 0.0), 0.0), max_iter=8)
     if not nf.converged or not np.all(np.isfinite(nf.cov)):
         return 0.0, 0.0
     y_f, g_f, k = nf.params

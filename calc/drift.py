@@ -176,7 +176,8 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
 VarproModel = Callable[[float], tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]]
 
 
-def _varpro(model: VarproModel, y: np.ndarray, k0: float) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
+def _varpro(model: VarproModel, y: np.ndarray, k0: float,
+            max_iter: int = 30) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
     """Solve a model that is linear in its parameters β at fixed k, and nonlinear in k.
 
     ``model(k)`` returns the design matrix X(k) and a function giving ∂(Xβ)/∂k for given β.
@@ -186,7 +187,7 @@ def _varpro(model: VarproModel, y: np.ndarray, k0: float) -> tuple[float, np.nda
     """
     k = float(k0)
     converged = False
-    for _ in range(30):
+    for _ in range(max_iter):
         X, dk_of = model(k)
         beta, *_ = np.linalg.lstsq(X, y, rcond=None)
         r = y - X @ beta
@@ -274,7 +275,7 @@ def fit_newton_joint(
     )
 
 
-def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0) -> NewtonFit:
+def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0, max_iter: int = 30) -> NewtonFit:
     """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k).
 
     Used for the after period of two-solution runs, whose heat-exchange constant
@@ -286,7 +287,7 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0)
         X = np.column_stack([np.ones_like(x), phi(k, x)])
         return X, lambda beta: beta[1] * _dphi_dk(k, x)
 
-    k, beta, X, J, converged = _varpro(model, y, k0)
+    k, beta, X, J, converged = _varpro(model, y, k0, max_iter)
     resid = y - X @ beta
     n = y.size
     s2 = float(np.dot(resid, resid)) / max(n - 3, 1)

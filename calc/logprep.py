@@ -11,7 +11,6 @@ the main period is reported as a warning.
 from __future__ import annotations
 
 import math
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -41,15 +40,13 @@ class PreparedLog:
 
 
 def running_median(y: np.ndarray, half: int) -> np.ndarray:
-    """Return the running median of ``y`` over 2·half + 1 readings (shrinking at the ends)."""
+    """Return the running median of ``y`` over 2·half + 1 readings (the ends padded with the end values)."""
     n = y.size
     if n == 0 or half <= 0:
         return y.copy()
-    pad = np.concatenate([np.full(half, np.nan), y, np.full(half, np.nan)])
+    pad = np.concatenate([np.full(half, y[0]), y, np.full(half, y[-1])])
     win = np.lib.stride_tricks.sliding_window_view(pad, 2 * half + 1)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)  # an all-NaN window gives NaN, as wanted
-        return np.nanmedian(win, axis=1)
+    return np.median(win, axis=1)
 
 
 def _merge_duplicates(t: np.ndarray, y: np.ndarray, lines: np.ndarray | None):
@@ -68,6 +65,8 @@ def _spikes(y: np.ndarray, resolution: float) -> np.ndarray:
         return np.zeros(y.size, dtype=bool)
     r = y - running_median(y, SPIKE_HALF_WIDTH)
     mad = float(np.median(np.abs(r - np.median(r)))) * 1.4826
+    if not (np.abs(r) > max(SPIKE_SIGMAS * mad, 3.0 * resolution, 1e-9)).any():
+        return np.zeros(y.size, dtype=bool)  # nothing stands out even before the stricter test
     # slow (correlated) noise hides from a short median: judge also against a wide one
     rw = y - running_median(y, 5 * SPIKE_HALF_WIDTH)
     mad_w = float(np.median(np.abs(rw - np.median(rw)))) * 1.4826
@@ -105,7 +104,7 @@ def prepare_log(t: np.ndarray, y: np.ndarray, *, resolution: float, lines: np.nd
     spike = _spikes(y, resolution)
     rejected = []
     if spike.any():
-        med = running_median(np.where(spike, np.nan, y), SPIKE_HALF_WIDTH)
+        med = running_median(y, SPIKE_HALF_WIDTH)
         for i in np.flatnonzero(spike):
             rejected.append({
                 "time_s": float(t[i]), "temperature_K": float(y[i]),

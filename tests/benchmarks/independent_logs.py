@@ -60,7 +60,9 @@ class IndependentLog:
 
 
 def _stated(rng, value: float, u: float, unit: str, places: int) -> str:
-    return f"{value + rng.normal(0, u):.{places}f} ± {u:.{places}f} {unit}"
+    """Return the run-file text of a stated value: the truth plus a normal draw (none when rng is None)."""
+    drawn = value + (rng.normal(0, u) if rng is not None else 0.0)
+    return f"{drawn:.{places}f} ± {u:.{places}f} {unit}"
 
 
 def _room(rng):
@@ -147,6 +149,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
     rng = np.random.default_rng([10_000_019, seed, sum(map(ord, kind))])
     room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)
     t0 = room(0.0) + (rng.uniform(-1.5, 1.5) if artefacts else rng.uniform(-1, 1))
+    srng = rng if artefacts else None  # near noise-free logs state the true inputs exactly
     c_cal = rng.uniform(5, 60)
     tau_h = rng.uniform(20, 180) * 60
     tau_p = rng.uniform(0.5, 12)
@@ -176,15 +179,15 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         rel_end = t_m + tau_r * 12
         dT_true = q_heat / c_after
         truth, scale, key = dh, abs(dh), "molar_enthalpy"
-        cal = f'heat_capacity = "{c_cal + rng.normal(0, 2.0):.1f} ± 2.0 J/K"'
+        cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
         if kind == "dissolution":
-            body += ["[water]", f'volume = "{_stated(rng, vol, u_vol, "mL", 2)}"',
+            body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
                      'density = "0.9980 ± 0.0010 g/mL"', "[solute]", f'formula = "{salt}"',
-                     f'mass = "{_stated(rng, mass, u_mass, "g", 4)}"',
+                     f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
                      "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
         else:
-            stated_mass = _stated(rng, mass, u_mass, "g", 4)
-            body += ["[solution]", f'volume = "{_stated(rng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
+            stated_mass = _stated(srng, mass, u_mass, "g", 4)
+            body += ["[solution]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
                      "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"',
                      "[reaction]", 'equation = "Mg(s) + 2 H+(aq) -> Mg2+(aq) + H2(g)"', 'limiting_reagent = "Mg"',
                      f'mass = "{stated_mass}"', "coefficient = 1"]
@@ -206,9 +209,9 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         dT_true = p_on * t_d / c_after
         truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
         cal = None
-        body += ["[water]", f'volume = "{_stated(rng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
-                 "[heater]", f'voltage = "{_stated(rng, volt, 0.005, "V", 3)}"',
-                 f'current = "{_stated(rng, amp, 0.001, "A", 4)}"', f'duration = "{_stated(rng, t_d, 0.1, "s", 1)}"',
+        body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
+                 "[heater]", f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
+                 f'current = "{_stated(srng, amp, 0.001, "A", 4)}"', f'duration = "{_stated(srng, t_d, 0.1, "s", 2)}"',
                  "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
     else:  # two liquids
         v_a, v_b = rng.uniform(25, 60), rng.uniform(25, 60)
@@ -224,12 +227,12 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             power = _weibull_power(q_heat, tau_r, rng.uniform(1.0, 1.6))
             rel_end = t_m + 12 * tau_r
             truth, scale, key = dh, abs(dh), "molar_enthalpy"
-            cal = f'heat_capacity = "{c_cal + rng.normal(0, 2.0):.1f} ± 2.0 J/K"'
-            body += ["[acid]", 'formula = "HCl"', f'concentration = "{_stated(rng, conc, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(rng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"', "equivalents = 1",
-                     "[base]", 'formula = "NaOH"', f'concentration = "{_stated(rng, conc * 1.05, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(rng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     f'temperature = "{_stated(rng, t_b, 0.05, "degC", 3)}"', "equivalents = 1"]
+            cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
+            body += ["[acid]", 'formula = "HCl"', f'concentration = "{_stated(srng, conc, 0.005, "mol/L", 4)}"',
+                     f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"', "equivalents = 1",
+                     "[base]", 'formula = "NaOH"', f'concentration = "{_stated(srng, conc * 1.05, 0.005, "mol/L", 4)}"',
+                     f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
+                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"', "equivalents = 1"]
         else:
             t_b = t0 + rng.uniform(15, 25)
             power = lambda u: 0.0  # noqa: E731
@@ -237,9 +240,9 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             q_heat = 0.0
             truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
             cal = None
-            body += ["[water]", f'volume = "{_stated(rng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     "[warm_water]", f'volume = "{_stated(rng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     f'temperature = "{_stated(rng, t_b, 0.05, "degC", 3)}"']
+            body += ["[water]", f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
+                     "[warm_water]", f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
+                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"']
         body += ["[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
         jump = ("mix", c_b, t_b)
         dT_true = None  # set below from the contents at t_m
@@ -294,7 +297,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         stamps = np.round(stamps)  # a logger that stamps whole seconds at 2 Hz
     stamps, y = stamps[keep], y[keep]
     temp_dec = max(0, -int(math.floor(math.log10(resolution) + 1e-9)))
-    stated_tm = t_m + rng.normal(0, 0.5)
+    stated_tm = t_m + (rng.normal(0, 0.5) if artefacts else 0.0)
     head = ['kind = "' + kind + '"', 'readings = "indep.csv"']
     if mixing_given:
         head.append(f'mixing_time = "{stated_tm:.2f} ± 0.50 s"')
