@@ -16,7 +16,8 @@ Two steps:
 
 Refusals (an :class:`InputError` naming ``mixing_time``): a change that is small against the
 noise (likelihood ratio of the segmented fit against a plain line, or a swing under 6 noise
-standard deviations) and two separate candidates of about equal likelihood.
+standard deviations), two separate changes of about the same size in the log, and two separate
+breakpoints of about equal likelihood.
 """
 
 from __future__ import annotations
@@ -119,6 +120,7 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     ee[inner] = e[inner]
     i_max = int(np.argmax(np.abs(ee)))
     peak = ee[i_max]
+    _check_separate_changes(t, ee, i_max)
     above = np.flatnonzero(np.sign(peak) * ee[: i_max + 1] >= 0.5 * abs(peak))
     i_s = int(above[0]) if above.size else i_max
     # noise from second differences (robust; spikes were screened before)
@@ -188,6 +190,32 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     u_tau = max(sd, dt / math.sqrt(12.0))
     _check_ambiguous(taus, p, tau, u_tau, dt)
     return MixingTime(time=tau, u=u_tau, lr=lr, swing_sigmas=swing_sig)
+
+
+def _check_separate_changes(t: np.ndarray, ee: np.ndarray, i_max: int) -> None:
+    """Refuse when the log holds two separate changes of about the same size (either sign).
+
+    Stretches where |edge| exceeds half the largest value are the changes; two stretches with
+    |edge| under a quarter of it between them are separate, and a second one reaching 70 % of the
+    largest makes the choice of "the" mixing time a guess.
+    """
+    a = np.abs(ee)
+    top = a[i_max]
+    if top <= 0:
+        return
+    high = a >= 0.5 * top
+    low = a < 0.25 * top
+    idx = np.flatnonzero(high)
+    for j in idx:
+        if abs(j - i_max) < 2 or a[j] < 0.7 * top:
+            continue
+        lo, hi = sorted((j, i_max))
+        if low[lo:hi].any():
+            raise InputError(
+                f"the log holds two temperature changes of about the same size (near {t[min(j, i_max)]:.0f} s "
+                f"and {t[max(j, i_max)]:.0f} s); {_ASK}",
+                field="mixing_time",
+            )
 
 
 def _check_ambiguous(taus: np.ndarray, p: np.ndarray, tau: float, u_tau: float, dt: float) -> None:
