@@ -33,14 +33,15 @@ def slope_floor(q: float, s: float, length: float) -> float:
     """Return the standard uncertainty floor of a slope fitted over ``length`` seconds at resolution q.
 
     Without dither a straight drift that moves less than one step q over the window may read
-    as a flat staircase: its slope is known only to within ±q/length (rectangular:
-    u = q/(length·√3)). Noise of standard deviation σ beyond the quantisation share q²/12
+    as a flat staircase. Where the level sits within its step (offset δ) decides how far it can
+    drift unseen: up by q − δ or down by δ, so the hidden slope lies in an interval of width
+    q/length (rectangular: u = q/(length·√12)). Noise of standard deviation σ beyond the quantisation share q²/12
     dithers the quantiser and shrinks this like exp(−2π²σ²/q²), as in the level term.
     """
     if q <= 0 or length <= 0:
         return 0.0
     sigma2 = max(s * s - q * q / 12.0, 0.0)
-    return q / (length * math.sqrt(3.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
+    return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
 
 
 def quantisation_drift_term(log, dt_value: float) -> float:

@@ -110,7 +110,8 @@ def test_repeated_stamps_are_merged_and_gaps_in_the_main_period_warned():
 
 
 def test_slope_floor_from_the_resolution():
-    # a flat staircase over 300 s at 0.1 K says the slope is within ±q/300 s: u = q/(300·√3)
-    assert slope_floor(0.1, 0.1 / np.sqrt(12.0), 300.0) == pytest.approx(0.1 / (300 * np.sqrt(3.0)))
+    # a flat staircase over 300 s at 0.1 K hides a slope in an interval q/300 s wide (the level can
+    # drift up by q − δ or down by δ, δ its offset within the step): u = q/(300·√12)
+    assert slope_floor(0.1, 0.1 / np.sqrt(12.0), 300.0) == pytest.approx(0.1 / (300 * np.sqrt(12.0)))
     # noise well above the step dithers the quantiser: the floor vanishes
     assert slope_floor(0.001, 0.01, 300.0) < 1e-12
