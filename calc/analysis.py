@@ -164,6 +164,7 @@ def analyze_spec(
     warnings.extend(dt.warnings)
     warnings.extend(props.warnings)
     warnings.extend(kind_warnings(spec, dt, gum, model))
+    warnings.extend(_wide_interval_warning(gum, model.main))
     mc = None
     if monte_carlo_trials and monte_carlo_trials > 0:
         mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
@@ -178,6 +179,20 @@ def analyze_spec(
     if with_reference:
         _attach_reference(analysis)
     return analysis
+
+
+#: A result whose 95 % interval is wider than this share of its value gets a warning naming the
+#: largest contribution (a result more than 5 % off must never pass without a word).
+WIDE_INTERVAL = 0.05
+
+
+def _wide_interval_warning(gum: GumResult, main: str) -> list[str]:
+    v, U = gum.values[main], gum.expanded_uncertainty
+    if not (math.isfinite(v) and math.isfinite(U)) or v == 0 or U <= WIDE_INTERVAL * abs(v):
+        return []
+    top = max(gum.budget, key=lambda b: b.share, default=None)
+    why = f"; the largest contribution is {top.label} ({100 * top.share:.0f} % of the variance)" if top else ""
+    return [f"the 95 % interval is ±{100 * U / abs(v):.1f} % of the result (over {100 * WIDE_INTERVAL:.0f} %){why}"]
 
 
 def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
