@@ -27,6 +27,7 @@ from calc.deltat.periods import Periods, find_periods
 from calc.io.readings import Readings, read_readings
 from calc.io.runfile import RunSpec, load_run
 from calc.refdata.solutes import STRONG_ACIDS
+from calc.deltat.logprep import PreparedLog, gap_warnings, prepare_log
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -57,6 +58,8 @@ class Analysis:
     cautions: list[Any] = field(default_factory=list)
     checks: list[Check] = field(default_factory=list)
     software_version: str = __version__
+    rejected: list[dict] = field(default_factory=list)  # readings rejected as spikes
+    gaps: list[tuple[float, float]] = field(default_factory=list)  # gaps in the log, s
 
     @property
     def kind(self) -> str:
@@ -120,14 +123,17 @@ def analyze_spec(
     seed: int | None = None,
     fore: tuple[float, float] | None = None,
     after: tuple[float, float] | None = None,
+    mixing_time: tuple[float, float] | None = None,
     with_reference: bool = True,
     calorimeter_type: str | None = None,
     history: Sequence[tuple[float, float]] | None = None,
 ) -> Analysis:
     """Analyse an already parsed run and log (used by the web app for re-analysis).
 
-    ``with_reference=False`` skips the reference comparison and the cautions (the JSON
-    record carries neither), which keeps batch analysis fast. ``calorimeter_type`` (else the
+    ``mixing_time`` (value, standard uncertainty in s) overrides the run file's. Before the
+    periods are found, repeated time stamps are merged and spikes rejected
+    (:mod:`calc.deltat.logprep`). ``with_reference=False`` skips the reference comparison and the
+    cautions (the JSON record carries neither), which keeps batch analysis fast. ``calorimeter_type`` (else the
     run file's ``[calorimeter] type``) and ``history`` (the calorimeter's earlier calibrations,
     (value, u) in J/K) feed the plausibility checks of :mod:`calc.checks`.
     """
@@ -138,36 +144,45 @@ def analyze_spec(
                               fore=fore, after=after, with_reference=with_reference,
                               calorimeter_type=calorimeter_type, history=history)
     two = spec.kind in ("neutralization", "mixing-calibration")
-    mix = spec.mixing_time
+    prep = prepare_log(readings.time_s, readings.temperature_K, resolution=spec.resolution_K, lines=readings.lines)
+    if mixing_time is not None:
+        t_mix, u_mix = float(mixing_time[0]), float(mixing_time[1])
+    elif spec.mixing_time is not None:
+        t_mix, u_mix = spec.mixing_time.m_as("s"), spec.mixing_time.u_as("s")
+    else:
+        t_mix, u_mix = None, 0.0
     periods = find_periods(
-        readings.time_s,
-        readings.temperature_K,
+        prep.t,
+        prep.y,
         resolution=spec.resolution_K,
-        mixing_time=None if mix is None else mix.m_as("s"),
-        u_mixing_time=0.0 if mix is None else mix.u_as("s"),
+        mixing_time=t_mix,
+        u_mixing_time=u_mix,
         fore=fore or spec.fore_period,
         after=after or spec.after_period,
         two_solution=two,
         source=readings.source,
-        lines=readings.lines,
+        lines=prep.lines,
     )
     duration = _heater_duration(spec)
     if duration is not None:
-        periods = heater_periods(readings.time_s, periods, duration, source=readings.source,
+        periods = heater_periods(prep.t, periods, duration, source=readings.source,
                                  after_given=(after or spec.after_period) is not None)
-    log = Log(readings.time_s, readings.temperature_K, periods, spec.resolution_K, two_solution=two)
-    dt = corrected_delta_t(log, method or spec.method or DEFAULT_METHOD)
+    log = Log(prep.t, prep.y, periods, spec.resolution_K, two_solution=two)
+    method_name = method or spec.method or DEFAULT_METHOD
+    dt = corrected_delta_t(log, method_name)
     if duration is not None:
-        dt = _with_lag_term(dt, readings, periods, spec, duration, method or spec.method or DEFAULT_METHOD)
+        dt = _with_lag_term(dt, prep.t, prep.y, periods, spec, duration, method_name)
     if not math.isfinite(dt.value) or dt.value == 0.0:
         raise AnalysisError(f"{readings.source}: no usable temperature change was found")
+    _extra_terms(log, dt, method_name, prep)
     props = resolve_properties(spec, dt)
     model = build_model(spec, dt, props)
     gum = propagate(model.inputs, model.model, model.main)
-    warnings: list[str] = []
+    warnings: list[str] = list(prep.warnings)
     warnings.extend(dt.warnings)
     warnings.extend(props.warnings)
     warnings.extend(kind_warnings(spec, dt, gum, model))
+    warnings.extend(_wide_interval_warning(gum, model.main))
     mc = None
     if monte_carlo_trials and monte_carlo_trials > 0:
         mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
@@ -177,7 +192,8 @@ def analyze_spec(
                 f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] {unit} differs from the GUM interval "
                 f"by more than the tolerance ({mc.tolerance:.2g} {unit}); report the Monte Carlo interval"
             )
-    analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
+    analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings,
+                        rejected=prep.rejected, gaps=prep.gaps)
     if with_reference:
         _attach_reference(analysis)
     analysis.checks = run_checks(analysis, calorimeter_type=calorimeter_type, history=history,
@@ -207,16 +223,50 @@ def _heater_duration(spec: RunSpec) -> float | None:
     return spec.get("heater", "duration").m_as("s")
 
 
-def _with_lag_term(dt: DeltaT, readings: Readings, periods: Periods, spec: RunSpec, duration: float,
+def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, duration: float,
                    method: str) -> DeltaT:
     """Widen ΔT's method term when the after period starts soon after the heater stops."""
-    t, y = readings.time_s, readings.temperature_K
 
     def redo(after: tuple[float, float]) -> float:
         moved = replace(periods, after=after, main_end=after[0])
         return corrected_delta_t(Log(t, y, moved, spec.resolution_K), method).value
 
     return widened(dt, lag_term(dt.value, periods, t, duration, redo))
+
+
+#: A result whose 95 % interval is wider than this share of its value gets a warning naming the
+#: largest contribution (a result more than 5 % off must never pass without a word).
+WIDE_INTERVAL = 0.05
+
+
+def _wide_interval_warning(gum: GumResult, main: str) -> list[str]:
+    v, U = gum.values[main], gum.expanded_uncertainty
+    if not (math.isfinite(v) and math.isfinite(U)) or v == 0 or U <= WIDE_INTERVAL * abs(v):
+        return []
+    top = max(gum.budget, key=lambda b: b.share, default=None)
+    why = f"; the largest contribution is {top.label} ({100 * top.share:.0f} % of the variance)" if top else ""
+    return [f"the 95 % interval is ±{100 * U / abs(v):.1f} % of the result (over {100 * WIDE_INTERVAL:.0f} %){why}"]
+
+
+def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
+    """Add the budget terms the drift fits do not see, and their warnings (docs/methods.md)."""
+    from calc.deltat.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term, room_drift_term
+    from calc.deltat.methods import METHODS
+
+    p = log.periods
+    dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))
+    dt.u_drift_resolution = quantisation_drift_term(log, dt.value)
+    if method_name == "regnault-pfaundler":
+        u_dis, diff = inadequacy_term(log, dt)
+        dt.u_model = math.hypot(u_dis, room_drift_term(log, dt))
+        if dt.u_model**2 > 0.5 * dt.u**2:
+            why = (f"the after period alone gives a ΔT {diff:+.3g} K different" if u_dis > 0
+                   else "the main period is long, so an unseen change of the room temperature weighs heavily")
+            dt.warnings.append(
+                f"the drift model's inadequacy dominates the uncertainty of ΔT ({why}); check for a changing "
+                "room temperature, evaporation or a heating stirrer, and keep the main period short"
+            )
+    dt.warnings.extend(gap_warnings(prep.gaps, p.mixing_time, p.main_end))
 
 
 # ------------------------------------------------------------------ properties

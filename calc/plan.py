@@ -47,6 +47,7 @@ from calc.analysis import kind_warnings, resolve_properties
 from calc.plan_kinds import CALIBRATION_KINDS, PLAN_KINDS, build_sections, solve_delta_t
 from calc.deltat.methods import resolution_term  # the analysis's own resolution term
 from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
+from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
 from calc.errors import InputError
 from calc.uncertainty.gum import BudgetLine, GumResult, propagate
 from calc.io.quantities import Measured, parse_measured
@@ -75,6 +76,7 @@ MeasuredLike = Measured | str
 _EQUIPMENT = {
     "calorimeter.heat_capacity": "calorimeter heat capacity (its calibration)",
     "delta_t.resolution_start": "thermometer resolution", "delta_t.resolution_end": "thermometer resolution",
+    "delta_t.drift_resolution": "thermometer resolution", "delta_t.model": "drift model (room, evaporation)",
     "delta_t.fit": "thermometer noise (drift fits)", "acid.temperature": "thermometer noise (drift fits)",
     "delta_t.method": "ΔT correction method", "delta_t.mixing_time": "mixing time",
     "solute.mass": "balance", "reaction.mass": "balance", "solute.purity": "reagent purity",
@@ -235,12 +237,15 @@ def _delta_t(value: float, T0: float, th: _Thermo, two_solution: bool) -> DeltaT
     v_f, n_f = level_var(tm["fore_window_s"], tm["extrapolation_fore_s"])
     v_a, n_a = level_var(tm["after_window_s"], tm["extrapolation_after_s"])
     dof = (min(n_a / infl - 3.0, n_f / infl - 2.0) if two_solution else (n_f + n_a) / infl - 4.0)
+    # the analysis's floor on the drift slopes from the resolution (calc.deltat.budget_terms.slope_floor)
+    u_b = math.hypot(slope_floor(th.q, s_read, tm["fore_window_s"]), slope_floor(th.q, s_read, tm["after_window_s"]))
     return DeltaT(
         method=DEFAULT_METHOD, value=value, u_fit=math.sqrt(v_f + v_a), dof_fit=max(dof, 1.0),
         u_resolution_start=u_res, u_resolution_end=u_res,
         u_method=METHOD_TERMS[DEFAULT_METHOD] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,
         start_temperature=T0, u_start_temperature=math.sqrt(s2 * infl * 4.0 / n_f),  # fore line at its end
         end_temperature=T0 + value,
+        u_drift_resolution=0.5 * tm["main_s"] * u_b,
     )
 
 
@@ -503,7 +508,8 @@ def plan_run(
     return Plan(
         kind=kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,
         delta_t_components={"fit": ev.dt.u_fit, "resolution_start": ev.dt.u_resolution_start,
-                            "resolution_end": ev.dt.u_resolution_end, "method": ev.dt.u_method},
+                            "resolution_end": ev.dt.u_resolution_end, "method": ev.dt.u_method,
+                            "drift_resolution": ev.dt.u_drift_resolution},
         predicted_result=gum.values[ev.model.main], predicted_u=gum.uncertainties[ev.model.main],
         predicted_U=gum.expanded_uncertainty, coverage_factor=gum.coverage_factor, dof_eff=gum.dof_eff,
         result_unit=ev.model.main_unit, expected_note=ev.note, start_temperature_K=T0, window=window,

@@ -50,12 +50,23 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "coverage_factor": _num(analysis.gum.coverage_factor),
         "method": analysis.delta_t.method,
         "budget": [b.as_dict() for b in analysis.gum.budget],
+        "mixing_time": _mixing_record(analysis),
+        "periods": {"fore_s": list(analysis.periods.fore), "after_s": list(analysis.periods.after),
+                    "main_end_s": _num(analysis.periods.main_end)},
+        "rejected_readings": [dict(r) for r in analysis.rejected],
+        "gaps_s": [list(g) for g in analysis.gaps],
         "warnings": list(analysis.warnings),
         "checks": [c.as_dict() for c in analysis.checks],
         **({"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
            if "heat_capacity_total" in analysis.gum.values else {}),
         "comparison": verdict_record(verdict(analysis.comparison)),
     }
+
+
+def _mixing_record(analysis: Analysis) -> dict[str, Any]:
+    p = analysis.periods
+    return {"value": _num(p.mixing_time), "standard_uncertainty": _num(p.u_mixing_time), "unit": "s",
+            "detected": bool(p.mixing_time_detected)}
 
 
 def error_record(input_path: str, message: str) -> dict[str, Any]:
@@ -109,6 +120,16 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         f"periods: fore {p.fore[0]:.0f}–{p.fore[1]:.0f} s, mixing at {p.mixing_time:.1f} s ({mix}), "
         f"after {p.after[0]:.0f}–{p.after[1]:.0f} s"
     )
+    if p.mixing_time_detected:
+        lines.append(f"mixing time: {p.mixing_time:.1f} ± {p.u_mixing_time:.1f} s, detected from the log "
+                     "(give mixing_time in the run file if you noted it)")
+    if analysis.rejected:
+        lines.append("readings rejected as spikes (left out of every fit and of the integral):")
+        for r in analysis.rejected[:20]:
+            where = f"line {r['line']}" if r.get("line") is not None else "—"
+            lines.append(f"  {where}: {r['time_s']:g} s, {r['temperature_K'] - 273.15:.4g} °C")
+        if len(analysis.rejected) > 20:
+            lines.append(f"  … {len(analysis.rejected) - 20} more")
     lines.append(f"method: {dt.method}")
     events = dt.construction.get("events", [])
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)

@@ -397,6 +397,10 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
     """Build the run plot; return the figure, its title and its text description."""
     dt = analysis.delta_t
     t, y = analysis.readings.time_s, analysis.readings.temperature_K
+    rejected = getattr(analysis, "rejected", None) or []
+    if rejected:  # spikes are drawn as marks, not as part of the line, and do not set the scale
+        wild = np.isin(t, [r["time_s"] for r in rejected]) & np.isin(y, [r["temperature_K"] for r in rejected])
+        t, y = t[~wild], y[~wild]
     ts, tunit = _time_scale(t)
     fig = _figure(width_in, height_in)
     ax = _margins(fig, left=0.75, right=0.25, top=0.72, bottom=1.15)
@@ -412,6 +416,13 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
         lo, hi = min(lo, dt.start_temperature, dt.end_temperature), max(hi, dt.start_temperature, dt.end_temperature)
         handles += _draw_delta_t(ax, analysis, ts)
     _finish_log_axes(ax, t, lo, hi, ts, tunit)
+    if rejected:
+        y0, y1 = ax.get_ylim()
+        rt = np.array([r["time_s"] for r in rejected]) / ts
+        ry = np.clip(np.array([r["temperature_K"] for r in rejected]) - _KELVIN_OFFSET, y0, y1)
+        ax.plot(rt, ry, linestyle="none", marker="x", markersize=6, color=_C["vermillion"], gid="cc-rejected")
+        handles.append(Line2D([], [], linestyle="none", marker="x", color=_C["vermillion"],
+                              label=f"rejected as spike ({len(rejected)}; off-scale ones at the edge)"))
     title = analysis.spec.get("info", "title") or f"{analysis.kind} run"
     _heading(fig, str(title), f"{analysis.kind} · corrected ΔT by the {dt.method} method")
     _legend_below(fig, ax, handles, ncols=3)

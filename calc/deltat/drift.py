@@ -26,8 +26,18 @@ __all__ = [
 ]
 
 
+#: Largest lag-1 autocorrelation used (stirring noise correlated over 30 s read every second
+#: has ρ ≈ 0.97).
+RHO_MAX = 0.98
+
+
 def lag1_autocorrelation(resid: np.ndarray) -> float:
-    """Return the lag-1 autocorrelation of residuals, clipped to [0, 0.95]."""
+    """Return the lag-1 autocorrelation of residuals, corrected for its small-sample bias, in [0, RHO_MAX].
+
+    The sample value from n residuals of a fit is biased low by about (1 + 3ρ)/n (the first-order
+    bias of the lag-1 estimate of an AR(1) series with its mean removed); with correlation times
+    of 5–30 s and windows of a few minutes that bias alone halves the variance inflation.
+    """
     r = np.asarray(resid, dtype=float)
     if r.size < 4:
         return 0.0
@@ -36,12 +46,25 @@ def lag1_autocorrelation(resid: np.ndarray) -> float:
     if den <= 0.0:
         return 0.0
     rho = float(np.dot(r[:-1], r[1:])) / den
-    return min(max(rho, 0.0), 0.95)
+    if rho > 0.0:
+        rho += (1.0 + 3.0 * rho) / r.size
+    return min(max(rho, 0.0), RHO_MAX)
 
 
 def inflation(rho: float) -> float:
     """Return the AR(1) variance inflation factor (1+ρ)/(1−ρ)."""
     return (1.0 + rho) / (1.0 - rho)
+
+
+def _resid_dof(n: int, p: int, f: float) -> float:
+    """Return the divisor that makes a residual sum of squares an unbiased noise variance.
+
+    With correlated noise each of the p fitted parameters takes up about f readings' worth of
+    the scatter (f the variance inflation), not one: E[RSS] ≈ σ²(n − p·f). The divisor is kept
+    at one fifth of n or more, so a window shorter than a few correlation times does not
+    divide by almost nothing.
+    """
+    return max(n - p * f, 0.2 * n, 1.0)
 
 
 @dataclass(frozen=True)
@@ -81,9 +104,9 @@ def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
     a = float(y.mean())
     b = float(np.dot(tc, y - a) / stt) if stt > 0 else 0.0
     resid = y - a - b * tc
-    s2 = float(np.dot(resid, resid)) / max(n - 2, 1)
     rho = lag1_autocorrelation(resid)
     f = inflation(rho)
+    s2 = float(np.dot(resid, resid)) / _resid_dof(n, 2, f)
     n_eff = n / f
     return LineFit(
         a=a,
@@ -176,7 +199,8 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
 VarproModel = Callable[[float], tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]]
 
 
-def _varpro(model: VarproModel, y: np.ndarray, k0: float) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
+def _varpro(model: VarproModel, y: np.ndarray, k0: float,
+            max_iter: int = 30) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
     """Solve a model that is linear in its parameters β at fixed k, and nonlinear in k.
 
     ``model(k)`` returns the design matrix X(k) and a function giving ∂(Xβ)/∂k for given β.
@@ -186,7 +210,7 @@ def _varpro(model: VarproModel, y: np.ndarray, k0: float) -> tuple[float, np.nda
     """
     k = float(k0)
     converged = False
-    for _ in range(30):
+    for _ in range(max_iter):
         X, dk_of = model(k)
         beta, *_ = np.linalg.lstsq(X, y, rcond=None)
         r = y - X @ beta
@@ -252,9 +276,9 @@ def fit_newton_joint(
     rho_f = lag1_autocorrelation(rf)
     rho_a = lag1_autocorrelation(ra)
     rho = max(rho_f, rho_a)
-    dof_share = max(n - p, 1) / n
-    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / max(rf.size * dof_share, 1.0)
-    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / max(ra.size * dof_share, 1.0)
+    # two of the four parameters belong to each window
+    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, inflation(rho_f))
+    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, inflation(rho_a))
     omega = np.concatenate([np.full(nf_, v_f), np.full(ra.size, v_a)])
     try:
         a_inv = np.linalg.inv(J.T @ J)
@@ -274,7 +298,7 @@ def fit_newton_joint(
     )
 
 
-def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0) -> NewtonFit:
+def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0, max_iter: int = 30) -> NewtonFit:
     """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k).
 
     Used for the after period of two-solution runs, whose heat-exchange constant
@@ -286,12 +310,12 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0)
         X = np.column_stack([np.ones_like(x), phi(k, x)])
         return X, lambda beta: beta[1] * _dphi_dk(k, x)
 
-    k, beta, X, J, converged = _varpro(model, y, k0)
+    k, beta, X, J, converged = _varpro(model, y, k0, max_iter)
     resid = y - X @ beta
     n = y.size
-    s2 = float(np.dot(resid, resid)) / max(n - 3, 1)
     rho = lag1_autocorrelation(resid)
     f = inflation(rho)
+    s2 = float(np.dot(resid, resid)) / _resid_dof(n, 3, f)
     try:
         cov = f * s2 * np.linalg.inv(J.T @ J)
     except np.linalg.LinAlgError:

@@ -105,6 +105,8 @@ class DeltaT:
     end_temperature: float  # K: adiabatic end level T(t_i) + ΔT
     construction: dict = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    u_drift_resolution: float = 0.0  # quantisation floor of the drift slopes, rectangular
+    u_model: float = 0.0  # model inadequacy (disagreement of applicable drift laws), rectangular
 
     @property
     def u(self) -> float:
@@ -115,6 +117,8 @@ class DeltaT:
             + self.u_resolution_end**2
             + self.u_method**2
             + self.u_mixing_time**2
+            + self.u_drift_resolution**2
+            + self.u_model**2
         )
 
 

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from calc.deltat.changepoint import detect_mixing_time as _detect
 from calc.deltat.drift import fit_line
 from calc.errors import InputError
 
@@ -22,6 +23,10 @@ __all__ = ["Periods", "find_periods", "MIN_WINDOW_POINTS"]
 
 #: Fewest readings accepted in the fore or after period.
 MIN_WINDOW_POINTS = 8
+#: Longest stretch after mixing searched for the end of the main period, s.
+MAIN_SEARCH_S = 3600.0
+#: Longest after period taken by default, s (the drift law is local; a long log is cut here).
+AFTER_MAX_S = 1200.0
 
 
 @dataclass
@@ -38,49 +43,14 @@ class Periods:
     warnings: list[str] = field(default_factory=list)
 
 
-def _robust_sigma(x: np.ndarray) -> float:
-    if x.size < 3:
-        return 0.0
-    d = np.abs(np.diff(x))
-    # differences of white noise have σ√2; median of |N(0,1)| is 0.6745
-    return float(np.median(d) / 0.6745 / math.sqrt(2.0))
-
-
 def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float) -> tuple[float, float]:
     """Return the detected mixing time and its standard uncertainty (s).
 
-    The fore drift line is fitted to the first fifth of the log; the mixing time
-    is the last reading before the curve leaves that line for good (beyond
-    max(6σ, 2q, 2 % of the full swing) for three readings in a row).
+    A change-point search over the whole log (:mod:`calc.deltat.changepoint`); raises an
+    :class:`InputError` naming ``mixing_time`` when the change is unclear.
     """
-    n = t.size
-    n0 = max(MIN_WINDOW_POINTS, n // 5)
-    line = fit_line(t[:n0], y[:n0])
-    resid = y - line.at(t)  # vectorised: a + b (t − t̄)
-    sigma = max(line.s, _robust_sigma(y[:n0]))
-    swing = float(np.max(np.abs(resid)))
-    thr = max(6.0 * sigma, 2.0 * resolution, 0.02 * swing)
-    out = np.abs(resid) > thr
-    # first index where three consecutive readings are out
-    run = out[:-2] & out[1:-1] & out[2:]
-    idx = np.flatnonzero(run)
-    if idx.size == 0:
-        raise InputError(
-            "could not find the mixing time: the log shows no clear temperature change; "
-            "give mixing_time in the run file",
-            field="mixing_time",
-        )
-    j = int(idx[0])
-    # walk back to the last reading still on the fore line (within 2σ or one step)
-    back = max(2.0 * sigma, 0.5 * resolution)
-    i = j
-    while i > 0 and abs(resid[i - 1]) > back:
-        i -= 1
-    i = max(i - 1, 0)
-    dt = float(np.median(np.diff(t)))
-    t_m = float(t[i])
-    u = max((float(t[j]) - t_m) / math.sqrt(12.0), dt / math.sqrt(12.0))
-    return t_m, u
+    found = _detect(t, y, resolution, min_fore_points=MIN_WINDOW_POINTS)
+    return found.time, found.u
 
 
 def _window_mask(t: np.ndarray, a: float, b: float) -> np.ndarray:
@@ -210,7 +180,9 @@ def _find_main_end(
 ) -> tuple[float, float, float | None, list[str]]:
     """Return (t_f, end of log, rough τ, warnings) from the running corrected change."""
     warnings: list[str] = []
-    post = t > t_m
+    # the release is judged on at most MAIN_SEARCH_S after mixing: in a long log the drift law
+    # of the late readings (room temperature change) says nothing about the main period
+    post = (t > t_m) & (t <= t_m + MAIN_SEARCH_S)
     tp = t[post]
     yp = y[post]
     if tp.size < 2 * MIN_WINDOW_POINTS:
@@ -263,7 +235,7 @@ def _find_main_end(
     tau = max((t90 - t50) / math.log(5.0), dt)
     t_f = t90 + 6.0 * tau
     min_after = max(MIN_WINDOW_POINTS * dt, 60.0)
-    t_end = float(t[-1])
+    t_end = min(float(t[-1]), t_f + AFTER_MAX_S)
     if t_end - t_f < min_after:
         t_f_new = t_end - min_after
         warnings.append(

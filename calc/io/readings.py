@@ -473,15 +473,16 @@ def _checked(
         )
         raise InputError(message, source=source, line=int(numbers[i]))
     steps = np.diff(times)
-    if not (steps > 0).all():
+    # a repeated time stamp is kept (the analysis merges it); a time going back is refused
+    if not (steps >= 0).all() or (times == times[0]).all():
         if (times == times[0]).all():
             message = f"all {count} times are equal ({times[0]:g} s); expected strictly "
             message += "increasing times in the first column"
             raise InputError(message, source=source, line=int(numbers[1]))
-        i = int(np.flatnonzero(steps <= 0)[0])
+        i = int(np.flatnonzero(steps < 0)[0])
         message = (
-            f"the time {times[i + 1]:g} s is not after the time {times[i]:g} s on line "
-            f"{int(numbers[i])}; expected strictly increasing times"
+            f"the time {times[i + 1]:g} s is before the time {times[i]:g} s on line "
+            f"{int(numbers[i])}; expected increasing times"
         )
         raise InputError(message, source=source, line=int(numbers[i + 1]))
     return Readings(times, kelvin, numbers, source, layout.time_unit, unit)

@@ -116,6 +116,12 @@ class RunOptions(TypedDict, total=False):
     uncertainties: Mapping[str, float]  # overrides of DEFAULT_UNCERTAINTIES
     info: Mapping[str, str]  # the [info] table
     calorimeter_name: str
+    stir_tau_s: float  # s, correlation time of the AR(1) noise (> 0 overrides phi: φ = e^(−dt/τ))
+    spikes: int  # number of wild readings (loose contact), each 1–2 readings wide
+    spike_K: float  # typical spike size, K (each drawn 0.5–1.5 times this, either sign)
+    drop_fraction: float  # share of rows dropped at random
+    jitter_s: float  # time stamps off the true sampling times by up to ± this, s (stamped to 0.1 s)
+    omit_mixing_time: bool  # leave mixing_time out of the run file
 
 
 _OPTION_DEFAULTS: dict[str, Any] = {
@@ -123,6 +129,8 @@ _OPTION_DEFAULTS: dict[str, Any] = {
     "phi": 0.0, "resolution": 0.01, "fore_s": 300.0, "after_s": 600.0, "dt": 1.0, "perturb_inputs": False,
     "p_stir_W": 0.002, "room_drift_K_per_h": 0.0, "gain": 0.0, "offset_K": 0.0, "mark_error_s": 0.0,
     "uncertainties": {}, "info": {}, "calorimeter_name": "simulated cup",
+    "stir_tau_s": 0.0, "spikes": 0, "spike_K": 0.5, "drop_fraction": 0.0, "jitter_s": 0.0,
+    "omit_mixing_time": False,
 }
 
 
@@ -179,14 +187,16 @@ class RunContext:
         n = int(math.floor((t_m + o["after_s"]) / o["dt"] + 1e-9)) + 1
         times = np.round(np.arange(n) * o["dt"], 9)
         contents, probe = model.solve(times)
-        readings = read_probe(rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"],
+        phi = math.exp(-o["dt"] / o["stir_tau_s"]) if o["stir_tau_s"] > 0 else o["phi"]
+        readings = read_probe(rng, probe, noise=o["noise"], phi=phi, resolution=o["resolution"],
                               gain=o["gain"], offset=o["offset_K"])
+        times, readings, contents, probe = _artefacts(rng, o, times, readings, contents, probe)
         info = dict(o["info"])
         info.setdefault("title", f"simulated {self.kind} run")
         info.setdefault("notes", "synthetic data with a known truth (calc.simulation.simulator)")
         cal = body.pop("calorimeter", {})
-        run: dict[str, Any] = {"kind": self.kind, "readings": "readings.csv",
-                               "mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s", "info": info,
+        mix = {} if o["omit_mixing_time"] else {"mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s"}
+        run: dict[str, Any] = {"kind": self.kind, "readings": "readings.csv", **mix, "info": info,
                                "calorimeter": {"name": o["calorimeter_name"], **cal},
                                "thermometer": {"resolution": f"{o['resolution']:g} K"}, **body}
         t_ref = t_a if reference != "T_mix" else t_mix
@@ -206,6 +216,27 @@ class RunContext:
             offset_K=o["offset_K"], room_drift_K_per_h=o["room_drift_K_per_h"], seed=self.seed,
             inputs=dict(self.inputs), model=model)
         return SimulatedRun(times, readings, run, truth, contents, probe)
+
+
+def _artefacts(rng: np.random.Generator, o: Mapping[str, Any], times: np.ndarray, readings: np.ndarray,
+               contents: np.ndarray, probe: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Add spikes, drop rows and stamp jittered times to 0.1 s (after the readings are drawn)."""
+    n = times.size
+    readings = readings.copy()
+    q = o["resolution"]
+    for _ in range(int(o["spikes"])):
+        i = int(rng.integers(5, max(n - 6, 6)))
+        width = int(rng.integers(1, 3))
+        size = o["spike_K"] * rng.uniform(0.5, 1.5) * rng.choice([-1.0, 1.0])
+        readings[i:i + width] = q * np.round((readings[i:i + width] + size) / q)
+    keep = np.ones(n, dtype=bool)
+    if o["drop_fraction"] > 0:
+        keep[1:-1] = rng.uniform(size=n - 2) >= o["drop_fraction"]
+    if o["jitter_s"] > 0:  # the logger's clock stamps each reading off its true time
+        times = np.round(times + rng.uniform(-o["jitter_s"], o["jitter_s"], n), 1)
+        order = np.argsort(times, kind="stable")
+        times, readings, contents, probe, keep = (a[order] for a in (times, readings, contents, probe, keep))
+    return times[keep], readings[keep], contents[keep], probe[keep]
 
 
 def _decimals(u: float) -> int:
@@ -261,7 +292,9 @@ def write_run(sim: SimulatedRun, directory: str | Path, stem: str) -> Path:
     run = {**sim.run, "readings": f"{stem}.csv"}
     toml_path = directory / f"{stem}.toml"
     toml_path.write_text(_toml(run), encoding="utf-8")
-    dt_places = max(1, _places(float(np.min(np.diff(sim.time_s)))) if sim.time_s.size > 1 else 1)
+    steps = np.diff(sim.time_s)
+    steps = steps[steps > 0]
+    dt_places = max(1, _places(float(np.min(steps)))) if steps.size else 1
     y_places = _places(sim.truth.resolution_K)
     rows = [f"{t:.{dt_places}f},{y:.{y_places}f}" for t, y in zip(sim.time_s, sim.reading_C)]
     (directory / f"{stem}.csv").write_text("time_s,temperature_C\n" + "\n".join(rows) + "\n", encoding="utf-8")

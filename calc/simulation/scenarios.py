@@ -21,7 +21,8 @@ _SALTS = {"KCl": 17.22, "NH4NO3": 25.7, "NH4Cl": 14.8, "NaOH": -44.5, "CaCl2": -
 
 
 def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: bool = True,
-                    perturb_inputs: bool | None = None, release: str | None = None) -> SimulatedRun:
+                    perturb_inputs: bool | None = None, release: str | None = None,
+                    extra: dict[str, Any] | None = None) -> SimulatedRun:
     """Simulate one run of ``kind`` with parameters drawn from the ranges of docs/methods.md §7.2.
 
     ``noisy=False`` gives noise-free readings at 0.0001 K resolution; ``perturb_inputs`` defaults to
@@ -39,6 +40,9 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
         Random generator, or an integer seed.
     noisy, perturb_inputs, release:
         See above.
+    extra:
+        Options that override the drawn ones (any :class:`calc.simulation.run.RunOptions` key), plus
+        ``after_add_s`` (more log after the change), ``salt`` and ``tau_r`` (dissolution).
 
     Returns
     -------
@@ -54,11 +58,16 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
         "noise": uni(0.002, 0.02) if noisy else 0.0, "phi": uni(0, 0.6) if noisy else 0.0,
         "resolution": float(gen.choice([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1])) if noisy else 0.0001}
 
+    extra = dict(extra or {})
+    after_add = float(extra.pop("after_add_s", 0.0))
+    salt_forced, tau_forced = extra.pop("salt", None), extra.pop("tau_r", None)
+    opts.update(extra)
+
     def pick_release() -> str:
         return release or ("first-order" if gen.uniform() < 0.7 else "sphere")
 
     def after(slow: float) -> float:
-        return 10 * slow + 5 * opts["tau_s"] + uni(300, 900)
+        return 10 * slow + 5 * opts["tau_s"] + uni(300, 900) + after_add
 
     def c_guess(vol: float) -> float:  # J/K, only to size the sample or the heater pulse
         return vol * 4.18 + opts["c_cal"]
@@ -66,6 +75,7 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
     if kind == "dissolution":
         salt = str(gen.choice(sorted(_SALTS)))
         vol, tau_r, rel = uni(50, 100), uni(10, 120), pick_release()
+        salt, tau_r = salt_forced or salt, tau_forced or tau_r
         mass = uni(1, 5) * c_guess(vol) / abs(_SALTS[salt] * 1000) * formula_molar_mass(salt, "solute.formula")
         return simulate_dissolution(gen, formula=salt, molar_enthalpy_kJ_mol=_SALTS[salt], solute_mass_g=mass,
                                     water_volume_mL=vol, tau_r=tau_r, release=rel, after_s=after(tau_r), **opts)

@@ -94,6 +94,10 @@ def _dt_inputs(dt: DeltaT) -> list[Input]:
               label="thermometer resolution, end level"),
         Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
         Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
+        Input("delta_t.drift_resolution", 0.0, dt.u_drift_resolution, "K", "rectangular",
+              label="thermometer resolution, drift slopes"),
+        Input("delta_t.model", 0.0, dt.u_model, "K", "rectangular",
+              label="drift model inadequacy (fore+after law against after-only law)"),
     ]
 
 
@@ -104,6 +108,8 @@ def _dT(x: Mapping[str, Any]) -> Any:
         - x["delta_t.resolution_start"]
         + x["delta_t.method"]
         + x["delta_t.mixing_time"]
+        + x["delta_t.drift_resolution"]
+        + x["delta_t.model"]
     )
 
 

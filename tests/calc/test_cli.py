@@ -44,7 +44,12 @@ def test_json_record_has_exactly_the_public_keys(run_file):
     assert set(rec) == {
         "input", "kind", "corrected_delta_t", "heat", "molar_enthalpy", "expanded_uncertainty",
         "coverage_factor", "method", "budget", "warnings", "checks", "comparison",
+        # the issue on real bench logs asks every output to show the mixing time (and whether it was
+        # detected), the periods, the readings rejected as spikes and the gaps
+        "mixing_time", "periods", "rejected_readings", "gaps_s",
     }
+    assert rec["mixing_time"] == {"value": 240.0, "standard_uncertainty": 1.0, "unit": "s", "detected": False}
+    assert rec["rejected_readings"] == [] and rec["gaps_s"] == []
     assert rec["input"] == str(run_file)
     # the verdict in the JSON is the one the text report prints
     cmp_ = rec["comparison"]

@@ -159,7 +159,8 @@ def test_the_limiting_equipment_follows_the_largest_share():
                       calorimeter_heat_capacity="15 ± 0.5 J/K", thermometer_resolution=0.1, thermometer_noise=0.002)
     assert coarse.limiting == "thermometer resolution"
     assert coarse.equipment[0].share == pytest.approx(
-        sum(b.share for b in coarse.budget if b.name.startswith("delta_t.resolution")))
+        # the resolution enters the start and end levels and (a floor on) the drift slopes
+        sum(b.share for b in coarse.budget if b.name.startswith(("delta_t.resolution", "delta_t.drift_resolution"))))
     assert any("10 × the thermometer resolution" in w for w in coarse.warnings)
     assert coarse.window == (2.0, 10.0)  # 20 × 0.1 K
     poor_cal = _kcl_plan(u_cal=10.0)

@@ -336,3 +336,28 @@ def test_room_drift_matches_closed_form_and_ode() -> None:
     contents, probe = model.solve(sim.time_s, method="ode")
     assert np.max(np.abs(contents - sim.contents_C)) < 1e-6
     assert np.max(np.abs(probe - sim.probe_C)) < 1e-6
+
+
+def test_bench_artefacts_are_drawn_as_asked():
+    # spikes, dropped rows, jittered stamps, correlated stirring noise and a run file without mixing_time
+    from calc.simulation.realistic import realistic_scenario
+    from calc.simulation.simulator import simulate_dissolution
+
+    clean = simulate_dissolution(8, fore_s=200.0, after_s=800.0, noise=0.0, resolution=0.001)
+    sim = simulate_dissolution(8, fore_s=200.0, after_s=800.0, noise=0.0, resolution=0.001, spikes=3, spike_K=1.0,
+                               drop_fraction=0.05, jitter_s=0.3, omit_mixing_time=True)
+    assert "mixing_time" not in sim.run and "mixing_time" in clean.run
+    assert 0.85 * clean.time_s.size < sim.time_s.size < clean.time_s.size  # about 5 % dropped
+    off = np.abs(sim.time_s - np.round(sim.time_s))
+    assert off.max() > 0.05 and off.max() <= 0.31  # stamps off the 1 s grid by up to 0.3 s
+    wild = np.abs(sim.reading_C - np.interp(sim.time_s, clean.time_s, clean.reading_C)) > 0.4
+    assert 3 <= wild.sum() <= 6  # three spikes, one or two readings wide
+    # correlated stirring noise: φ = e^(−Δt/τ) sets the lag-1 autocorrelation of the noise
+    corr = simulate_dissolution(9, fore_s=3000.0, after_s=60.0, noise=0.01, stir_tau_s=20.0, resolution=1e-6)
+    e = corr.reading_C[:2900] - corr.probe_C[:2900]
+    rho = float(np.corrcoef(e[:-1], e[1:])[0, 1])
+    assert abs(rho - np.exp(-1 / 20.0)) < 0.03
+    for q in (0.001, 0.01, 0.1):
+        r = realistic_scenario("dissolution", 3, resolution=q, mixing_given=False)
+        steps = r.reading_C / q
+        assert np.allclose(steps, np.round(steps), atol=1e-6)

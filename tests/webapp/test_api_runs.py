@@ -195,3 +195,16 @@ def test_no_route_answers_junk_with_a_5xx(app: Any, client: Any, lab: Any) -> No
                     assert r.status_code < 500, (method, path, who, data, r.get_data(as_text=True))
                     if r.status_code >= 400:
                         assert r.get_json()["error"], (method, path, data)
+
+
+def test_reanalyse_with_a_mixing_time(client: Any, lab: Any) -> None:
+    run = upload(client, lab.auth("a1"), "diss-kcl-01").get_json()
+    r = client.post(f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"),
+                    json={"mixing_time": [241.0, 2.0], "monte_carlo": 0})
+    assert r.status_code == 201, r.get_json()
+    mix = r.get_json()["periods"]["mixing_time"]
+    assert mix["value"] == 241.0 and mix["standard_uncertainty"] == 2.0 and not mix["detected"]
+    r = client.post(f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"), json={"mixing_time": "soon"})
+    assert r.status_code == 400 and r.get_json()["field"] == "mixing_time"
+    r = client.post(f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"), json={"mixing_time": 99999})
+    assert r.status_code == 400 and "outside the log" in r.get_json()["error"]

@@ -20,12 +20,12 @@ import pytest
 
 from tests.webapp.conftest import DEMO
 from tests.webapp.conftest import FAST_HASH
-from tests.webapp.test_browser import _click
-from tests.webapp.test_browser import _shot
-from tests.webapp.test_browser import _skip_or_fail
-from tests.webapp.test_browser import _unavailable
-from tests.webapp.test_browser import _wait
-from tests.webapp.test_browser import browser  # noqa: F401  (the Chromium fixture, on this module's server)
+from tests.webapp.browser_support import _click
+from tests.webapp.browser_support import _shot
+from tests.webapp.browser_support import _skip_or_fail
+from tests.webapp.browser_support import _unavailable
+from tests.webapp.browser_support import _wait
+from tests.webapp.browser_support import browser  # noqa: F401  (the Chromium fixture, on this module's server)
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 STUDENT = "lucan.ferreira-holt@ternhollow.example"

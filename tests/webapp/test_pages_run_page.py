@@ -107,12 +107,15 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, n
     assert "regnault-pfaundler" in svg  # the earlier result's own method, not the current one's
     assert client.get(f"/runs/{neut_run}/results/{ids[0] + 1000}/plot.svg").status_code == 404
     assert client.get(f"/runs/{neut_run}?result=999999").status_code == 404
-    # a bad period: the message next to the period, nothing added
+    # a bad period: 400 with the page, the message next to the period and the typed values kept
+    # (a redirect would lose what was typed), nothing added
     r = client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": csrf_token(html), "method": "naive",
                                                         "after_start": "500", "after_end": "400"})
-    page = client.get(r.headers["Location"]).get_data(as_text=True)
+    assert r.status_code == 400
+    page = r.get_data(as_text=True)
     reanalyse_form = page[page.index('id="reanalyse"'):]
     assert "must end after it starts" in reanalyse_form
+    assert 'value="500"' in reanalyse_form and 'value="400"' in reanalyse_form
     assert len(list(session.scalars(sa.select(Result.id).where(Result.run_id == neut_run)))) == 2
 
 

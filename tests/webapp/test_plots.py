@@ -484,3 +484,14 @@ def test_reanalysed_run_renders():
     assert b.periods.after[0] == 330.0
     root = assert_self_contained_and_accessible(run_plot_svg(b))
     assert "Neutralization" in root.find(f"{SVG_NS}title").text
+
+
+def test_spikes_are_marked_and_do_not_set_the_scale(tmp_path):
+    # two wild readings (a loose contact): the analysis leaves them out, the plot marks them
+    sim = simulate_dissolution(12, fore_s=240.0, after_s=700.0, resolution=0.001, spikes=2, spike_K=3.0)
+    a = analyze_run(write_run(sim, tmp_path, "spiky"), with_reference=False)
+    assert 1 <= len(a.rejected) <= 4
+    svg = run_plot_svg(a)
+    root = assert_self_contained_and_accessible(svg)
+    assert any((el.get("id") or "").endswith("-rejected") for el in root.iter())
+    assert any("rejected as spike" in t for t in texts(root))

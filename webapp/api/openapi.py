@@ -59,6 +59,10 @@ _OPTIONS_PROPS: dict[str, Any] = {
               "description": "after period [start, end] in s"},
     "monte_carlo": {"type": "integer", "minimum": 0, "description": "Monte Carlo trials (JCGM 101); 0: none"},
     "seed": {"type": "integer", "minimum": 0},
+    "mixing_time": {"oneOf": [{"type": "number"},
+                              {"type": "array", "items": {"type": "number"}, "minItems": 2, "maxItems": 2}],
+                    "description": "mixing time in s, or [value, standard uncertainty] (default uncertainty 1 s); "
+                                   "overrides the run file's, and is not detected from the log"},
 }
 
 _QTY = {"type": "object", "properties": {"value": {"type": ["number", "null"]},

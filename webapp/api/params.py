@@ -166,7 +166,22 @@ def analysis_options(data: dict[str, Any]) -> AnalysisOptions:
         after=period(data, "after"),
         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]) if trials is None else trials,
         seed=as_int(data.get("seed"), "seed", low=0, high=2**32 - 1),
+        mixing_time=_mixing_time(data),
     ).checked()
+
+
+def _mixing_time(data: dict[str, Any]) -> tuple[float, float] | None:
+    """Return (mixing time, standard uncertainty) in s from ``mixing_time`` (a number or [value, u])."""
+    raw = data.get("mixing_time")
+    if raw is None:
+        return None
+    if isinstance(raw, bool) or not isinstance(raw, (int, float, list)):
+        raise Invalid("expected the mixing time in seconds, like 180 or [180, 1]", field="mixing_time")
+    if isinstance(raw, list):
+        if len(raw) != 2 or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in raw):
+            raise Invalid("expected the mixing time in seconds, like 180 or [180, 1]", field="mixing_time")
+        return float(raw[0]), float(raw[1])
+    return float(raw), 1.0
 
 
 def page_args() -> tuple[int, int]:

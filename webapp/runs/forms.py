@@ -17,6 +17,15 @@ class ReanalyseForm(FlaskForm):
     fore_end = FloatField("to (s)", validators=[Optional()])
     after_start = FloatField("After period from (s)", validators=[Optional()])
     after_end = FloatField("to (s)", validators=[Optional()])
+    mixing_time = FloatField("Mixing time (s)", validators=[Optional()])
+    mixing_time_u = FloatField("± (s)", validators=[Optional()])
+
+    def mixing(self) -> tuple[float, float] | None:
+        """Return (mixing time, its standard uncertainty) entered, or None when left blank."""
+        if self.mixing_time.data is None:
+            return None
+        u = self.mixing_time_u.data
+        return (self.mixing_time.data, 1.0 if u is None else u)
 
     def period(self, which: str) -> tuple[float, float] | None:
         """Return the period entered, or None when both ends are empty."""

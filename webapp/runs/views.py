@@ -43,7 +43,8 @@ from webapp.services.review_page import review_panel
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"
 _FORM_FIELDS = {"method": "method", "fore": "fore", "after": "after", "fore_start": "fore", "fore_end": "fore",
-                "after_start": "after", "after_end": "after"}
+                "after_start": "after", "after_end": "after", "mixing_time": "mixing_time",
+                "mixing_time_u": "mixing_time"}
 
 
 @bp.route("/")
@@ -63,14 +64,21 @@ def index():  # type: ignore[no-untyped-def]
 @login_required
 def detail(run_id: int):  # type: ignore[no-untyped-def]
     """Show a run: cautions, plot, result, budget, comparison, every result; re-analyse and lock."""
-    page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
-    form = ReanalyseForm()
-    if page.result is not None:
-        form.method.data = page.result.method
     field_errors: dict[str, list[str]] = {}
     for category, message in get_flashed_messages(with_categories=True):
         if category.startswith(FIELD_FLASH):
             field_errors.setdefault(category[len(FIELD_FLASH):], []).append(message)
+    return _detail_page(run_id, None, field_errors)
+
+
+def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]],
+                 status: int = 200):  # type: ignore[no-untyped-def]
+    """Render the run page; a refused re-analysis passes its form so that what was typed stays."""
+    page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
+    if form is None:
+        form = ReanalyseForm(formdata=None)
+        if page.result is not None:
+            form.method.data = page.result.method
     return render_template(
         "runs/detail.html",
         page=page,
@@ -81,7 +89,7 @@ def detail(run_id: int):  # type: ignore[no-untyped-def]
         field_errors=field_errors,
         lock_form=ConfirmForm(),
         review=review_panel(get_session(), current_user, page.run),
-    )
+    ), status
 
 
 @bp.route("/<int:run_id>/results/<int:result_id>/<string:which>.svg")
@@ -106,14 +114,15 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
     require_editable(current_user, run)  # a signed run is refused (409) whatever the form holds
     form = ReanalyseForm()
     if not form.validate_on_submit():
+        errors: dict[str, list[str]] = {}
         for name, messages in form.errors.items():
-            for m in messages:
-                flash(m, FIELD_FLASH + _FORM_FIELDS.get(str(name), "form"))
-        return redirect(url_for("runs.detail", run_id=run.id) + "#reanalyse")
+            errors.setdefault(_FORM_FIELDS.get(str(name), "form"), []).extend(messages)
+        return _detail_page(run.id, form, errors, 400)
     options = AnalysisOptions(
         method=form.method.data,
         fore=form.period("fore"),
         after=form.period("after"),
+        mixing_time=form.mixing(),
         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]),
     )
     try:
@@ -122,8 +131,8 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
         session.rollback()
         if exc.status in (403, 409):
             raise
-        flash(exc.message, FIELD_FLASH + _FORM_FIELDS.get(exc.field or "", "form"))
-        return redirect(url_for("runs.detail", run_id=run_id) + "#reanalyse")
+        # the page again, with what was typed and the message beside its field (the same text as the API's 400)
+        return _detail_page(run_id, form, {_FORM_FIELDS.get(exc.field or "", "form"): [exc.message]}, 400)
     draw_result_plots(run, result)  # into the cache now, so the page opens at once
     flash("Analysed again; the earlier result is kept.")
     return redirect(url_for("runs.detail", run_id=run_id))

@@ -51,6 +51,7 @@ class AnalysisOptions:
     after: tuple[float, float] | None = None
     monte_carlo_trials: int = 0
     seed: int | None = None
+    mixing_time: tuple[float, float] | None = None  # (s, standard uncertainty in s); overrides the run file
 
     def checked(self) -> AnalysisOptions:
         """Return the options after checking them.
@@ -69,6 +70,13 @@ class AnalysisOptions:
             if not period[1] > period[0]:
                 raise Invalid(f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)",
                               field=name)
+        if self.mixing_time is not None:
+            v, u = self.mixing_time
+            if not (isinstance(v, (int, float)) and math.isfinite(v)):
+                raise Invalid("expected the mixing time in seconds on the log's clock, like 180", field="mixing_time")
+            if not (isinstance(u, (int, float)) and math.isfinite(u) and u >= 0):
+                raise Invalid("expected the mixing time's standard uncertainty in seconds (0 or more)",
+                              field="mixing_time")
         if not 0 <= self.monte_carlo_trials <= MAX_MONTE_CARLO_TRIALS:
             raise Invalid(f"expected 0 to {MAX_MONTE_CARLO_TRIALS} trials", field="monte_carlo")
         return self
@@ -188,6 +196,7 @@ def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions, *,
             after=options.after,
             calorimeter_type=spec.get("calorimeter", "type") or calorimeter_type,
             history=history,
+            mixing_time=options.mixing_time,
         )
     except InputError as exc:
         raise invalid(exc, "run_file") from None

@@ -288,10 +288,13 @@ def analysis_of(run: Run, result: Result | None = None) -> Analysis:
     text = decode_readings(run.readings_raw, run.readings_name)
     spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
     given = result.periods_given
+    # a mixing time typed in "Analyse again" is stored with the result as not detected
+    typed_mix = spec.mixing_time is None and not result.mixing_time_detected
     return run_analysis(spec, readings, AnalysisOptions(
         method=result.method,
         fore=(result.fore_start_s, result.fore_end_s) if given else None,
         after=(result.after_start_s, result.after_end_s) if given else None,
+        mixing_time=(result.mixing_time_s, result.mixing_time_s_std) if typed_mix else None,
     ), **_check_context(run.calorimeter, run))
 
 

@@ -1,0 +1,147 @@
+"""Extra terms of the ΔT budget that the drift fits alone do not see.
+
+* :func:`quantisation_drift_term`: a floor on the drift slopes' uncertainty from the thermometer
+  resolution (a staircase of readings says little about a slope smaller than one step per window).
+* :func:`mixing_time_term`: what the uncertainty of a detected mixing time does to ΔT, found by
+  analysing again with the mixing time moved by ± its standard uncertainty.
+* :func:`inadequacy_term`: how far ΔT moves when the final system's drift law is taken from the
+  after period alone instead of from the fore and after periods together (a room temperature that
+  changes, evaporation, a stirrer that heats, or any other departure from one Newtonian law).
+
+Each is written out in ``docs/methods.md``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Callable
+
+import numpy as np
+
+from calc.deltat.drift import fit_newton_single
+
+__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term"]
+
+#: Standard uncertainty of an unseen linear change of the room temperature, K/s: a room that
+#: warms or cools by up to about 1 K/h over a run, taken as rectangular (±1 K/h, u = 1/√3 K/h).
+#: Common practice, no source: a teaching lab without climate control.
+ROOM_DRIFT_U = 1.0 / 3600.0 / math.sqrt(3.0)
+
+
+def slope_floor(q: float, s: float, length: float) -> float:
+    """Return the standard uncertainty floor of a slope fitted over ``length`` seconds at resolution q.
+
+    Without dither a straight drift that moves less than one step q over the window may read
+    as a flat staircase. Where the level sits within its step (offset δ) decides how far it can
+    drift unseen: up by q − δ or down by δ, so the hidden slope lies in an interval of width
+    q/length (rectangular: u = q/(length·√12)). Noise of standard deviation σ beyond the quantisation share q²/12
+    dithers the quantiser and shrinks this like exp(−2π²σ²/q²), as in the level term.
+    """
+    if q <= 0 or length <= 0:
+        return 0.0
+    sigma2 = max(s * s - q * q / 12.0, 0.0)
+    return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
+
+
+def quantisation_drift_term(log, dt_value: float) -> float:
+    """Return the ΔT standard uncertainty from the slopes' quantisation floors (K)."""
+    q = log.resolution
+    if q <= 0:
+        return 0.0
+    p = log.periods
+    tf_, _ = log.window("fore")
+    ta_, _ = log.window("after")
+    if tf_.size < 3 or ta_.size < 3:
+        return 0.0
+    u_bf = slope_floor(q, log.line("fore").s, float(tf_[-1] - tf_[0]))
+    u_ba = slope_floor(q, log.line("after").s, float(ta_[-1] - ta_[0]))
+    dur = max(p.main_end - p.mixing_time, 0.0)
+    # the drift correction takes the fore drift over about the first part of the main period
+    # and the after drift over the rest; half and half is the fair split without more knowledge
+    return 0.5 * dur * math.hypot(u_bf, u_ba)
+
+
+def mixing_time_term(log, method_fn: Callable, value: float) -> float:
+    """Return |ΔT(t_m + u) − ΔT(t_m − u)|/2 for a detected mixing time (K), 0 when it is given."""
+    p = log.periods
+    u = p.u_mixing_time
+    if not p.mixing_time_detected or u <= 0:
+        return 0.0
+    vals = []
+    for sign in (1.0, -1.0):
+        t_m = p.mixing_time + sign * u
+        before = log.t[log.t <= t_m]
+        if before.size < 8 or t_m >= p.main_end:
+            continue
+        per = replace(p, mixing_time=t_m, fore=(p.fore[0], float(before[-1])), warnings=[])
+        shifted = type(log)(log.t, log.y, per, log.resolution, two_solution=log.two_solution)
+        try:
+            vals.append(method_fn(shifted).value)
+        except Exception:  # noqa: BLE001 - a failed shifted fit says only that the sensitivity is unknown
+            continue
+    if not vals:
+        return 0.0
+    return max(abs(v - value) for v in vals)
+
+
+def inadequacy_term(log, dt) -> tuple[float, float]:
+    """Return (standard uncertainty from model inadequacy, the raw disagreement) in K.
+
+    The regnault-pfaundler value uses one Newtonian drift law for the fore and after periods.
+    The same ΔT with the after period's own drift law and the fore line's level at the mixing
+    time is a second, applicable estimate. Their disagreement beyond what the after fit's
+    own scatter explains (three standard uncertainties) is taken as a rectangular half-width.
+    """
+    c = dt.construction
+    if log.two_solution or "newton_joint" not in c:
+        return 0.0, 0.0
+    ta_, ya_ = log.window("after")
+    if ta_.size < 8:
+        return 0.0, 0.0
+    t_i, t_f = log.periods.mixing_time, log.periods.main_end
+    fore = log.line("fore")
+    # started from the joint law's k, a few steps suffice; an unconverged fit gives no term
+    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.get("k_per_s", 0.0), 0.0), max_iter=8)
+    if not nf.converged or not np.all(np.isfinite(nf.cov)):
+        return 0.0, 0.0
+    y_f, g_f, k = nf.params
+    m = (log.t > t_i) & (log.t < t_f)
+    tt = np.concatenate([[t_i], log.t[m], [t_f]])
+    T_A = fore.at(t_i)
+    yy = np.concatenate([[T_A], log.y[m], [y_f]])
+    integ = float(np.sum(0.5 * (yy[1:] + yy[:-1]) * np.diff(tt)))
+    alt = (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+    d = alt - dt.value
+    # the after-only law's own uncertainty in the drift correction
+    J = np.array([1.0 - k * (t_f - t_i), -(t_f - t_i), -(y_f * (t_f - t_i) - integ)])
+    u_alt = math.sqrt(max(float(J @ nf.cov @ J), 0.0) + fore.var_at(t_i))
+    excess = max(abs(d) - 3.0 * math.hypot(u_alt, dt.u_fit), 0.0)
+    return excess / math.sqrt(3.0), d
+
+
+def room_drift_term(log, dt) -> float:
+    """Return the ΔT standard uncertainty from a room temperature that changes linearly (K).
+
+    With an environment drifting at β the true law is g = G + k(y_i − T) + c(t − t_i), c = kβ.
+    One Newtonian law fitted to the fore and after windows (centres t_fc, t_ac) absorbs c into
+    g_i and k; the drift correction is then off by
+    c·[(t_fc − t_i)·D + (t_ac − t_fc)·B/(y_i − T_ac) − D²/2], with D = t_f − t_i and
+    B = ∫(y_i − T) dt over the main period. β is unknown: its standard uncertainty is ROOM_DRIFT_U.
+    """
+    c = dt.construction
+    if "newton_joint" not in c:
+        return 0.0
+    y_i = float(c["newton_joint"][0])
+    k = math.hypot(max(float(c.get("k_per_s", 0.0)), 0.0), float(c.get("u_k_per_s", 0.0)))
+    t_i, t_f = log.periods.mixing_time, log.periods.main_end
+    D = t_f - t_i
+    fore, after = log.line("fore"), log.line("after")
+    if abs(y_i - after.a) < 1e-9 or D <= 0:
+        return 0.0
+    m = (log.t > t_i) & (log.t < t_f)
+    tt = np.concatenate([[t_i], log.t[m], [t_f]])
+    yy = np.concatenate([[y_i], log.y[m], [after.at(t_f)]])
+    B = float(np.sum(0.5 * ((y_i - yy[1:]) + (y_i - yy[:-1])) * np.diff(tt)))
+    lever = (fore.t_mean - t_i) * D + (after.t_mean - fore.t_mean) * B / (y_i - after.a) - 0.5 * D * D
+    return k * ROOM_DRIFT_U * abs(lever)
