@@ -132,7 +132,9 @@ def _one(session: so.Session, actor: Person, cal: Calorimeter, c: Any, pool: dic
     row, added = _same(session, cal, f), 0
     if row is None:
         require_coordinator(actor, "add calibrations")
-        row = Calibration(calorimeter=cal, pool=pool, **f)
+        row = Calibration(calorimeter=cal, **f)
+        if pool is not None:  # left unset otherwise: a JSON null is not SQL NULL, and "not a pool" is NULL
+            row.pool = pool
         session.add(row)
         session.flush()
         added = 1
