@@ -24,7 +24,9 @@ from webapp.models import Person
 from webapp.models import Run
 from webapp.services import eln
 from webapp.services.analysis import AnalysisOptions
+from webapp.services.calibrations import current_calibration
 from webapp.services.calibrations import enter_heat_capacity
+from webapp.services.calibrations import pool_candidates
 from webapp.services.calibrations import withdraw_calibration
 from webapp.services.demo import PEOPLE
 from webapp.services.demo import SPARE_CUP
@@ -101,8 +103,12 @@ def snapshot(session: Any) -> dict[str, Any]:
     for cal in session.scalars(sa.select(Calorimeter).order_by(Calorimeter.name)):
         history = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
                                   .order_by(Calibration.taken_at, Calibration.created_at)).all()
+        in_force = current_calibration(session, cal.id)
         cals.append((cal.name, cal.parts, cal.location, cal.calibration_interval_days, cal.vessel_type,
-                     [_calibration(c, history) for c in history]))
+                     [_calibration(c, history) for c in history],
+                     # what the notebook's rules find: the value in force and the measurements it may pool
+                     in_force and _calibration(in_force, history),
+                     [_calibration(c, history) for c in pool_candidates(session, cal.id)]))
     return {"runs": runs, "calorimeters": cals}
 
 

@@ -116,6 +116,7 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
     assert {c[7] for c in cals} == {"approved", "withdrawn"} and any(c[12] for c in cals)  # a reason
     assert sum(1 for c in cals if c[15]) == 2 and sum(1 for c in cals if c[5]) == 2  # pools; runs' own
     assert {cal[4] for cal in mine["calorimeters"]} == {"foam-cups"}
+    assert all(cal[6] is not None and cal[7] for cal in mine["calorimeters"])  # each has a value in force
     assert any(r["review"] and r["review"][2] for r in mine["runs"])  # the excluded class run
     assert [r["lock"] for r in mine["runs"]].count((True, True, True)) == 1
     withdrawn = session.scalar(sa.select(Calibration).where(Calibration.status == "withdrawn",
