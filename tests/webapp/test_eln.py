@@ -299,12 +299,12 @@ def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, se
         get_engine(other).dispose()
 
 
-def _retouched(data: bytes, change: Any) -> bytes:
-    """Return the archive with one run's cupcal-export.json changed and its sha256 and size made to fit."""
+def _retouched(data: bytes, change: Any, name: str = "cupcal-export.json") -> bytes:
+    """Return the archive with one run's cupcal-export.json (or the last ``name``) changed, sha256 and size fitted."""
     with zipfile.ZipFile(io.BytesIO(data)) as z:
         entries = {n: z.read(n) for n in z.namelist()}
     root = next(iter(entries)).split("/")[0]
-    target = sorted(n for n in entries if n.endswith("/cupcal-export.json"))[-1]
+    target = sorted(n for n in entries if n.endswith(f"/{name}"))[-1]
     doc = json.loads(entries[target])
     change(doc)
     entries[target] = json.dumps(doc).encode()
@@ -326,3 +326,25 @@ def test_a_result_changed_in_the_archive_is_not_stored(source: Any, session: Any
     errors = [i for i in report.items if i.outcome == "error"]
     assert len(errors) == 1 and "does not reproduce the archive's result" in errors[0].message
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == len(source["snapshot"]["runs"]) - 1
+
+
+@pytest.mark.parametrize(("change", "expected"), [
+    (lambda c: c["calibrations"][0].update(status="trusted"), "calibrations[0].status: expected one of"),
+    (lambda c: c["calibrations"][-1]["pool"].update(members=[99999]), "pool.members: expected ids of calibrations"),
+    (lambda c: c.update(vessel_type="teapot"), "vessel_type: expected one of"),
+])
+def test_a_calorimeter_file_with_a_wrong_field_is_refused_by_name(source: Any, session: Any, change: Any,
+                                                                 expected: str) -> None:
+    src = new_session(source["app"])
+    try:
+        cup = src.scalar(sa.select(Calorimeter).where(Calorimeter.calibrations.any(Calibration.pool.is_not(None)))
+                         .order_by(Calorimeter.name))
+        data = eln.build(src, [], [cup], "cals", "a calorimeter")
+    finally:
+        src.close()
+    before = counts(session)
+    report = import_eln(session, _coordinator(session), _retouched(data, change, "calorimeter.json"),
+                        source="cals.eln", password_method=FAST_HASH)
+    errors = [i.message for i in report.items if i.outcome == "error"]
+    assert len(errors) == 1 and expected in errors[0] and "calorimeter.json" in errors[0], errors
+    assert counts(session)[2:4] == before[2:4]  # no calorimeter, no calibration
