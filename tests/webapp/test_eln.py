@@ -37,6 +37,7 @@ from webapp.services import eln
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
+from webapp.services.integrity import check_database
 from webapp.services.people import create_person
 
 
@@ -119,6 +120,8 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
     assert all(cal[6] is not None and cal[7] for cal in mine["calorimeters"])  # each has a value in force
     assert any(r["review"] and r["review"][2] for r in mine["runs"])  # the excluded class run
     assert [r["lock"] for r in mine["runs"]].count((True, True, True)) == 1
+    integrity = check_database(session.get_bind())  # `cupcal db check`: the signed run verifies here too
+    assert integrity.ok and "1 signed with a content hash" in integrity.summary(), integrity.summary()
     withdrawn = session.scalar(sa.select(Calibration).where(Calibration.status == "withdrawn",
                                                             Calibration.pool.is_(None)))
     withdrawn.withdrawn_reason += "."

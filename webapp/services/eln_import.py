@@ -180,9 +180,7 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
         if existing is not None:
             return existing, "unchanged"
         run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path, job.stamps,
-                          job.known)
-        record_change(job.session, job.actor, "run", run.id, "imported", None,
-                      f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
+                          job.known, f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
         job.session.commit()
         return run.id, "stored"
 

@@ -35,6 +35,7 @@ from webapp.services.analysis import needs_supplied_heat_capacity
 from webapp.services.analysis import parse_inputs
 from webapp.services.analysis import result_from_analysis
 from webapp.services.analysis import run_analysis
+from webapp.services.audit import record_change
 from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.concurrency import content_hash as signed_hash
@@ -269,12 +270,13 @@ def calibration_stamps(doc: Any) -> dict[tuple[Any, ...], str]:
 
 def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, bytes], people: People,
                 groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None,
-                known: Known | None = None) -> Run:
+                known: Known | None = None, imported: str | None = None) -> Run:
     """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit).
 
     ``known`` (from the archive's ``calorimeter.json`` files) ties the calibrations the run measured
     to their results; without them (an archive of format 1) they are recorded anew, ``stamps``
-    (:func:`calibration_stamps`) giving them their time of storing.
+    (:func:`calibration_stamps`) giving them their time of storing. ``imported`` (by ``actor``) is
+    audited before the restored trail, so a signed run has no entry after its lock.
     """
     if not isinstance(doc, dict) or doc.get("format") != FORMAT or doc.get("format_version") != 1:
         raise Invalid(f"{where}: expected a cupcal run export (format {FORMAT!r}, version 1)", field="format")
@@ -311,6 +313,8 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         if run.kind in CALIBRATION_KINDS and cal is not None:
             _measured(session, cal, run, result, rdoc, doc, known, stamps)
     session.flush()
+    if imported is not None:
+        record_change(session, actor, "run", run.id, "imported", None, imported)
     _audit(session, run, doc, people)
     _review(session, run, doc, people)
     session.flush()
