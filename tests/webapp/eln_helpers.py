@@ -108,7 +108,8 @@ def snapshot(session: Any) -> dict[str, Any]:
                      [_calibration(c, history) for c in history],
                      # what the notebook's rules find: the value in force and the measurements it may pool
                      in_force and _calibration(in_force, history),
-                     [_calibration(c, history) for c in pool_candidates(session, cal.id)]))
+                     [_calibration(c, history) for c in pool_candidates(session, cal.id)],
+                     _cup_trail(session, cal, history)))
     return {"runs": runs, "calorimeters": cals}
 
 
@@ -132,6 +133,16 @@ def _calibration(c: Calibration, history: list[Calibration]) -> tuple[Any, ...]:
     return (c.heat_capacity_j_k, c.heat_capacity_j_k_std, _at(c.taken_at), _at(c.created_at), _email(c.created_by),
             run, None if c.result is not None else c.note, c.status, _email(c.approved_by), _at(c.approved_at),
             _email(c.withdrawn_by), _at(c.withdrawn_at), c.withdrawn_reason, c.restart, _at(c.in_force_at), pool)
+
+
+def _cup_trail(session: Any, cal: Calorimeter, history: list[Calibration]) -> list[tuple[Any, ...]]:
+    """Return the audit entries of a calorimeter and its calibrations (those by their place in the history)."""
+    place = {c.id: i for i, c in enumerate(history)}
+    rows = session.scalars(sa.select(AuditEntry).where(sa.or_(
+        sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
+        sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(list(place))))).order_by(AuditEntry.id))
+    return [(e.at.isoformat(), _email(e.person), e.entity, place.get(e.entity_id) if e.entity == "calibration" else 0,
+             e.field, e.old, e.new) for e in rows]
 
 
 def _review(run: Run) -> tuple[Any, ...] | None:

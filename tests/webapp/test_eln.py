@@ -118,6 +118,7 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
     assert sum(1 for c in cals if c[15]) == 2 and sum(1 for c in cals if c[5]) == 2  # pools; runs' own
     assert {cal[4] for cal in mine["calorimeters"]} == {"foam-cups"}
     assert all(cal[6] is not None and cal[7] for cal in mine["calorimeters"])  # each has a value in force
+    assert sum(len(cal[8]) for cal in mine["calorimeters"]) >= 8  # calibrations' and cups' audit entries
     assert any(r["review"] and r["review"][2] for r in mine["runs"])  # the excluded class run
     assert [r["lock"] for r in mine["runs"]].count((True, True, True)) == 1
     integrity = check_database(session.get_bind())  # `cupcal db check`: the signed run verifies here too

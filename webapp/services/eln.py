@@ -255,7 +255,20 @@ def calorimeter_document(cal: Calorimeter) -> dict[str, Any]:
         "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": _iso(cal.created_at),
         "calibration_interval_days": cal.calibration_interval_days, "vessel_type": cal.vessel_type,
         "calibrations": [calibration_document(c) for c in sorted(cal.calibrations, key=lambda c: (c.taken_at, c.id))],
+        "audit_trail": calorimeter_trail(cal),
     }
+
+
+def calorimeter_trail(cal: Calorimeter) -> list[dict[str, Any]]:
+    """Return the audit entries of the calorimeter and of its calibrations, oldest first (ids of this notebook)."""
+    session = so.object_session(cal)
+    if session is None:
+        return []
+    ids = [c.id for c in cal.calibrations]
+    rows = session.scalars(sa.select(AuditEntry).options(so.joinedload(AuditEntry.person)).where(sa.or_(
+        sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
+        sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(ids)))).order_by(AuditEntry.id))
+    return [entry_as_dict(e) for e in rows]
 
 
 def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:

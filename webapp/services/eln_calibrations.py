@@ -42,6 +42,8 @@ class Known:
     by_result: dict[tuple[str, int, int], int] = dataclasses.field(default_factory=dict)
     #: (calorimeter name, run id there) → calibration ids here measured by that run
     of_run: dict[tuple[str, int], set[int]] = dataclasses.field(default_factory=dict)
+    #: (calorimeter name, calibration id there) of the calibrations this import added
+    added: set[tuple[str, int]] = dataclasses.field(default_factory=set)
 
 
 def _time(c: dict[str, Any], key: str, where: str, *, required: bool = False) -> dt.datetime | None:
@@ -141,6 +143,8 @@ def _one(session: so.Session, actor: Person, cal: Calorimeter, c: Any, pool: dic
     source = c.get("id")
     if isinstance(source, int):
         known.by_source[(cal.name, source)] = row.id
+        if added:
+            known.added.add((cal.name, source))
     run, result = c.get("from_run"), c.get("from_result")
     if isinstance(run, int) and isinstance(result, int):
         known.by_result[(cal.name, run, result)] = row.id
@@ -171,3 +175,27 @@ def new_calorimeter(session: so.Session, actor: Person, doc: dict[str, Any], whe
     session.add(cal)
     session.flush()
     return cal
+
+
+def restore_trail(session: so.Session, cal: Calorimeter, entries: Any, people: Any, known: Known, *,
+                  new_calorimeter: bool, where: str) -> None:
+    """Store the audit entries of the calorimeter (when it is new here) and of the calibrations just added."""
+    from webapp.models import AuditEntry
+    from webapp.services.eln_restore import when
+
+    if not isinstance(entries, list):
+        raise Invalid(f"{where}: audit_trail: expected a list", field="audit_trail")
+    for i, e in enumerate(entries):
+        if not isinstance(e, dict) or not isinstance(e.get("field"), str) or not isinstance(e.get("entity_id"), int):
+            raise Invalid(f"{where}: audit_trail[{i}]: expected an object with 'entity_id' and 'field'",
+                          field="audit_trail")
+        if e.get("entity") == "calorimeter" and new_calorimeter:
+            entity_id = cal.id
+        elif e.get("entity") == "calibration" and (cal.name, e["entity_id"]) in known.added:
+            entity_id = known.by_source[(cal.name, e["entity_id"])]
+        else:
+            continue
+        session.add(AuditEntry(at=when(e.get("at"), f"audit_trail[{i}].at"), person=people.get(e.get("person")),
+                               entity=e["entity"], entity_id=entity_id, field=e["field"][:80],
+                               old=None if e.get("old") is None else str(e["old"]),
+                               new=None if e.get("new") is None else str(e["new"])))

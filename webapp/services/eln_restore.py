@@ -42,6 +42,7 @@ from webapp.services.concurrency import content_hash as signed_hash
 from webapp.services.eln_calibrations import Known
 from webapp.services.eln_calibrations import new_calorimeter
 from webapp.services.eln_calibrations import restore_calibrations
+from webapp.services.eln_calibrations import restore_trail
 from webapp.services.errors import Invalid
 from webapp.services.exports_run import FORMAT
 from webapp.services.exports_run import result_document
@@ -121,7 +122,10 @@ def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: Pe
     if doc.get("format_version") == 1:
         added = _restore_v1(session, actor, cal, entries, people, where)
     else:
-        added = restore_calibrations(session, actor, cal, entries, people, known or Known(), where)
+        known = known or Known()
+        added = restore_calibrations(session, actor, cal, entries, people, known, where)
+        restore_trail(session, cal, doc.get("audit_trail") or [], people, known, new_calorimeter=not existed,
+                      where=where)
     session.commit()
     done = [] if existed else ["added"]
     done.append(f"{added} calibration(s) added" if added else "no calibration to add")
