@@ -24,8 +24,14 @@ from webapp.models import Person
 from webapp.models import Run
 from webapp.services import eln
 from webapp.services.analysis import AnalysisOptions
+from webapp.services.calibrations import current_calibration
+from webapp.services.calibrations import enter_heat_capacity
+from webapp.services.calibrations import pool_candidates
+from webapp.services.calibrations import withdraw_calibration
 from webapp.services.demo import PEOPLE
+from webapp.services.demo import SPARE_CUP
 from webapp.services.demo import load_demo
+from webapp.services.concurrency import content_hash
 from webapp.services.exports_run import run_document
 from webapp.services.runs import lock_run
 from webapp.services.runs import reanalyse_run
@@ -50,11 +56,20 @@ def demo_source(folder: Path, monte_carlo_trials: int = 2000) -> tuple[Any, byte
         update_run(s, coord, target, {"notes": "Lid refitted after 200 s (invented).", "bench": "B-2"})
         reanalyse_run(s, coord, target, AnalysisOptions(method="linear-extrapolation", monte_carlo_trials=500, seed=7))
         lock_run(s, coord, runs[-1])
+        _withdrawn_calibration(s, coord)
         with app.app_context():
             _name, data = eln.export_notebook(s, coord, eln.report_renderer())
     finally:
         s.close()
     return app, data
+
+
+def _withdrawn_calibration(session: Any, coord: Person) -> None:
+    """Type a second heat capacity for the spare cup (pooled with its first), then withdraw it with a reason."""
+    spare = session.scalar(sa.select(Calorimeter).where(Calorimeter.name == SPARE_CUP[0]))
+    typed = enter_heat_capacity(session, coord, spare, "20.4 ± 2.5 J/K", "2026-01-05",
+                                "typed from the bench log (invented)", confirm=True)
+    withdraw_calibration(session, coord, typed.id, "the bench log belonged to another cup (invented)")
 
 
 def _strip_ids(doc: dict[str, Any]) -> dict[str, Any]:
@@ -81,16 +96,68 @@ def snapshot(session: Any) -> dict[str, Any]:
                         for e in session.scalars(sa.select(AuditEntry).where(
                             AuditEntry.entity == "run", AuditEntry.entity_id == run.id,
                             AuditEntry.field != "imported").order_by(AuditEntry.id))]
+        doc["review"] = _review(run)
+        doc["lock"] = _lock(run)
         runs.append(doc)
     cals = []
     for cal in session.scalars(sa.select(Calorimeter).order_by(Calorimeter.name)):
         history = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
-                                  .order_by(Calibration.taken_at, Calibration.id)).all()
-        cals.append((cal.name, cal.parts, cal.location, cal.calibration_interval_days, [
-            (c.heat_capacity_j_k, c.heat_capacity_j_k_std, c.taken_at.isoformat(), c.created_at.isoformat(),
-             c.created_by.email if c.created_by else None, c.result is not None,
-             None if c.result is not None else c.note) for c in history]))
+                                  .order_by(Calibration.taken_at, Calibration.created_at)).all()
+        in_force = current_calibration(session, cal.id)
+        cals.append((cal.name, cal.parts, cal.location, cal.calibration_interval_days, cal.vessel_type,
+                     [_calibration(c, history) for c in history],
+                     # what the notebook's rules find: the value in force and the measurements it may pool
+                     in_force and _calibration(in_force, history),
+                     [_calibration(c, history) for c in pool_candidates(session, cal.id)],
+                     _cup_trail(session, cal, history)))
     return {"runs": runs, "calorimeters": cals}
+
+
+def _email(p: Any) -> str | None:
+    return p.email if p is not None else None
+
+
+def _at(t: dt.datetime | None) -> str | None:
+    return t.isoformat() if t is not None else None
+
+
+def _calibration(c: Calibration, history: list[Calibration]) -> tuple[Any, ...]:
+    """Return what defines a calibration; a pool's members and left-out ones by their place in the history."""
+    place = {h.id: i for i, h in enumerate(history)}
+    pool = None
+    if c.pool is not None:
+        pool = {k: ([place[i] for i in v] if k in ("members", "excluded") else v) for k, v in c.pool.items()}
+    run = None
+    if c.result is not None:  # the run (recorded when, which of its results) that measured it
+        run = (c.result.run.created_at.isoformat(), [r.id for r in c.result.run.results].index(c.result_id))
+    return (c.heat_capacity_j_k, c.heat_capacity_j_k_std, _at(c.taken_at), _at(c.created_at), _email(c.created_by),
+            run, None if c.result is not None else c.note, c.status, _email(c.approved_by), _at(c.approved_at),
+            _email(c.withdrawn_by), _at(c.withdrawn_at), c.withdrawn_reason, c.restart, _at(c.in_force_at), pool)
+
+
+def _cup_trail(session: Any, cal: Calorimeter, history: list[Calibration]) -> list[tuple[Any, ...]]:
+    """Return the audit entries of a calorimeter and its calibrations (those by their place in the history)."""
+    place = {c.id: i for i, c in enumerate(history)}
+    rows = session.scalars(sa.select(AuditEntry).where(sa.or_(
+        sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
+        sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(list(place))))).order_by(AuditEntry.id))
+    return [(e.at.isoformat(), _email(e.person), e.entity, place.get(e.entity_id) if e.entity == "calibration" else 0,
+             e.field, e.old, e.new) for e in rows]
+
+
+def _review(run: Run) -> tuple[Any, ...] | None:
+    r = run.review
+    if r is None:
+        return None
+    return (r.withdrawn, r.withdrawn_reason, r.excluded, r.excluded_reason, r.accepted, r.accepted_reason,
+            r.mark_points, r.mark_reason, _at(r.updated_at))
+
+
+def _lock(run: Run) -> tuple[Any, ...]:
+    """Return whether the lock signed the current result and its hash fits what is stored."""
+    current = run.current_result
+    return (run.locked, run.locked_result_id is not None and run.locked_result_id == (current and current.id),
+            run.locked_hash is not None and run.locked_hash == content_hash(run, current))
 
 
 def counts(session: Any) -> tuple[int, ...]:

@@ -29,6 +29,7 @@ from tests.webapp.eln_helpers import file_entity
 from tests.webapp.eln_helpers import snapshot
 from tests.webapp.eln_helpers import zip_of
 from webapp.db import new_session
+from webapp.models import Calibration
 from webapp.models import Calorimeter
 from webapp.models import Person
 from webapp.models import Run
@@ -36,6 +37,7 @@ from webapp.services import eln
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
+from webapp.services.integrity import check_database
 from webapp.services.people import create_person
 
 
@@ -72,7 +74,7 @@ def test_written_archive_passes_the_rocrate_reader_and_our_checks(source: Any, t
     assert crate_.root_dataset["name"] == "cupcal-notebook"
     ids = {e.id.rstrip("/").split("/")[-1] + ("/" if e.id.endswith("/") else "") for e in crate_.data_entities}
     experiments = [e for e in checked.entities.values() if e["@id"].startswith("run-") and e["@id"].endswith("/")]
-    assert len(experiments) == len(source["snapshot"]["runs"]) == 6
+    assert len(experiments) == len(source["snapshot"]["runs"]) == 14  # the demo lab's runs
     for e in experiments:
         assert e["@type"] == "Dataset" and e["name"] and e["dateCreated"] and e["dateModified"]
         author = checked.entities[e["author"]["@id"]]
@@ -108,13 +110,31 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
     assert report.count("error") == 0, [i for i in report.items if i.outcome == "error"]
     assert report.count("stored") >= 6
     session.expire_all()
-    assert snapshot(session) == source["snapshot"]
+    mine = snapshot(session)
+    assert mine == source["snapshot"]
+    # the snapshot holds what defines the calibrations and runs, so a difference there would show
+    cals = [c for cal in mine["calorimeters"] for c in cal[5]]
+    assert {c[7] for c in cals} == {"approved", "withdrawn"} and any(c[12] for c in cals)  # a reason
+    assert sum(1 for c in cals if c[15]) == 2 and sum(1 for c in cals if c[5]) == 2  # pools; runs' own
+    assert {cal[4] for cal in mine["calorimeters"]} == {"foam-cups"}
+    assert all(cal[6] is not None and cal[7] for cal in mine["calorimeters"])  # each has a value in force
+    assert sum(len(cal[8]) for cal in mine["calorimeters"]) >= 8  # calibrations' and cups' audit entries
+    assert any(r["review"] and r["review"][2] for r in mine["runs"])  # the excluded class run
+    assert [r["lock"] for r in mine["runs"]].count((True, True, True)) == 1
+    integrity = check_database(session.get_bind())  # `cupcal db check`: the signed run verifies here too
+    assert integrity.ok and "1 signed with a content hash" in integrity.summary(), integrity.summary()
+    withdrawn = session.scalar(sa.select(Calibration).where(Calibration.status == "withdrawn",
+                                                            Calibration.pool.is_(None)))
+    withdrawn.withdrawn_reason += "."
+    assert snapshot(session) != source["snapshot"]
+    session.rollback()
+    n = len(source["snapshot"]["runs"])
     # every file of the archive is reported once
-    assert len({i.file for i in report.items if i.outcome != "stored" or i.run_id}) >= 6 * 6
+    assert len({i.file for i in report.items if i.outcome != "stored" or i.run_id}) >= n * 6
     # importing again stores nothing new
     before = counts(session)
     again = import_eln(session, me, source["archive"], source="cupcal-notebook.eln", password_method=FAST_HASH)
-    assert again.count("unchanged") == 6 and counts(session) == before
+    assert again.count("unchanged") == n and counts(session) == before
     # people who were not here cannot sign in
     newcomers = session.scalars(sa.select(Person).where(Person.id != me.id)).all()
     assert newcomers and not any(p.active for p in newcomers)
@@ -140,7 +160,7 @@ def test_a_technician_cannot_add_calorimeters_and_the_runs_that_need_them_wait(s
     report = import_eln(session, tech, source["archive"], source="x.eln", password_method=FAST_HASH)
     errors = [i.message for i in report.items if i.outcome == "error"]
     assert len(errors) == 1 and "only a coordinator may import signed runs" in errors[0]
-    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 5
+    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == len(source["snapshot"]["runs"]) - 1
     assert not any(r.locked for r in session.scalars(sa.select(Run)))
 
 
@@ -283,12 +303,12 @@ def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, se
         get_engine(other).dispose()
 
 
-def _retouched(data: bytes, change: Any) -> bytes:
-    """Return the archive with one run's cupcal-export.json changed and its sha256 and size made to fit."""
+def _retouched(data: bytes, change: Any, name: str = "cupcal-export.json") -> bytes:
+    """Return the archive with one run's cupcal-export.json (or the last ``name``) changed, sha256 and size fitted."""
     with zipfile.ZipFile(io.BytesIO(data)) as z:
         entries = {n: z.read(n) for n in z.namelist()}
     root = next(iter(entries)).split("/")[0]
-    target = sorted(n for n in entries if n.endswith("/cupcal-export.json"))[-1]
+    target = sorted(n for n in entries if n.endswith(f"/{name}"))[-1]
     doc = json.loads(entries[target])
     change(doc)
     entries[target] = json.dumps(doc).encode()
@@ -309,4 +329,26 @@ def test_a_result_changed_in_the_archive_is_not_stored(source: Any, session: Any
     report = import_eln(session, me, _retouched(source["archive"], nudge), source="x.eln", password_method=FAST_HASH)
     errors = [i for i in report.items if i.outcome == "error"]
     assert len(errors) == 1 and "does not reproduce the archive's result" in errors[0].message
-    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 5
+    assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == len(source["snapshot"]["runs"]) - 1
+
+
+@pytest.mark.parametrize(("change", "expected"), [
+    (lambda c: c["calibrations"][0].update(status="trusted"), "calibrations[0].status: expected one of"),
+    (lambda c: c["calibrations"][-1]["pool"].update(members=[99999]), "pool.members: expected ids of calibrations"),
+    (lambda c: c.update(vessel_type="teapot"), "vessel_type: expected one of"),
+])
+def test_a_calorimeter_file_with_a_wrong_field_is_refused_by_name(source: Any, session: Any, change: Any,
+                                                                 expected: str) -> None:
+    src = new_session(source["app"])
+    try:
+        cup = src.scalar(sa.select(Calorimeter).where(Calorimeter.calibrations.any(Calibration.pool.is_not(None)))
+                         .order_by(Calorimeter.name))
+        data = eln.build(src, [], [cup], "cals", "a calorimeter")
+    finally:
+        src.close()
+    before = counts(session)
+    report = import_eln(session, _coordinator(session), _retouched(data, change, "calorimeter.json"),
+                        source="cals.eln", password_method=FAST_HASH)
+    errors = [i.message for i in report.items if i.outcome == "error"]
+    assert len(errors) == 1 and expected in errors[0] and "calorimeter.json" in errors[0], errors
+    assert counts(session)[2:4] == before[2:4]  # no calorimeter, no calibration

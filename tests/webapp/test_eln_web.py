@@ -135,8 +135,10 @@ def test_cupcal_export_and_import_commands(env: str, tmp_path: Path, monkeypatch
     assert r.exit_code == 0, r.output
     assert runner.invoke(cli, ["export", "--as", me]).exit_code == 2  # nothing chosen
     assert runner.invoke(cli, ["export", "--run", "999", "--as", me]).exit_code == 2
+    with zipfile.ZipFile(archive) as z:
+        runs = {n.split("/")[1] for n in z.namelist() if n.split("/")[1].startswith("run-")}
     r = runner.invoke(cli, ["import", str(archive), "--as", me])
-    assert r.exit_code == 0 and "6 unchanged" in r.output, r.output
+    assert len(runs) == 14 and r.exit_code == 0 and f"{len(runs)} unchanged" in r.output, r.output
     (tmp_path / "bad.eln").write_bytes(zip_of([("a/x", b"1"), ("b/y", b"2")]))
     r = runner.invoke(cli, ["import", str(tmp_path / "bad.eln"), "--as", me])
     assert r.exit_code == 2 and "2 folders at the root" in r.output

@@ -57,6 +57,8 @@ NAMESPACE = "urn:cupcal:terms:"
 CRATE_CONTEXT: list[Any] = [CONTEXT, {"cupcal": NAMESPACE, "contentType": "http://schema.org/encodingFormat"}]
 CALORIMETER_NAME = "calorimeter.json"
 CALORIMETER_FORMAT = "cupcal-calorimeter-export"
+#: 2: every calibration with its id, status, approval, withdrawal, restart, time in force and pool; the type
+CALORIMETER_VERSION = 2
 RESULT_NAME = "result.json"
 REPORT_NAME = "report.html"
 #: most runs in one archive (a section of a large class fits)
@@ -145,7 +147,24 @@ def _export_doc(run: Run, doc: dict[str, Any], run_path: str, readings_path: str
         doc["files"][which] = entry
     doc["audit_trail"] = audit
     doc["content_hash"] = run.content_hash
+    doc["review"] = review_document(run)
     return json.dumps(doc, ensure_ascii=False, allow_nan=False).encode("utf-8")
+
+
+def review_document(run: Run) -> dict[str, Any] | None:
+    """Return the run's review (withdrawn, excluded, accepted, a mark by hand), or None when it has none."""
+    r = run.review
+    if r is None:
+        return None
+    return {"withdrawn": r.withdrawn, "withdrawn_reason": r.withdrawn_reason, "excluded": r.excluded,
+            "excluded_reason": r.excluded_reason, "accepted": r.accepted, "accepted_reason": r.accepted_reason,
+            "mark_points": r.mark_points, "mark_reason": r.mark_reason, "updated_at": _iso(r.updated_at),
+            "updated_by": r.updated_by_id and _who_id(run, r.updated_by_id)}
+
+
+def _who_id(run: Run, person_id: int) -> dict[str, str] | None:
+    session = so.object_session(run)
+    return _who(session.get(Person, person_id)) if session is not None else None
 
 
 def _modified(run: Run) -> dt.datetime:
@@ -192,6 +211,8 @@ def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, f
     }
     if run.operator:
         entity["cupcal:operator"] = run.operator
+    if run.review is not None:
+        entity["cupcal:withdrawn"], entity["cupcal:excluded"] = run.review.withdrawn, run.review.excluded
     if run.calorimeter is not None:
         entity["cupcal:calorimeter"] = run.calorimeter.name
     if res is not None:
@@ -207,20 +228,47 @@ def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, f
 # ----------------------------------------------------------------- a calorimeter
 
 
+def _who(p: Person | None) -> dict[str, str] | None:
+    return None if p is None else {"name": p.name, "email": p.email}
+
+
+def calibration_document(c: Calibration) -> dict[str, Any]:
+    """Return one calibration with what defines it; ``id`` is its id here, which a pool's members name."""
+    return {
+        "id": c.id,
+        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
+                          "unit": "J/K"},
+        "taken_at": _iso(c.taken_at), "created_at": _iso(c.created_at), "note": c.note,
+        "created_by": _who(c.created_by),
+        "from_run": c.result.run_id if c.result is not None else None, "from_result": c.result_id,
+        "status": c.status, "approved_by": _who(c.approved_by), "approved_at": _iso(c.approved_at),
+        "withdrawn_by": _who(c.withdrawn_by), "withdrawn_at": _iso(c.withdrawn_at),
+        "withdrawn_reason": c.withdrawn_reason, "restart": c.restart, "in_force_at": _iso(c.in_force_at),
+        "pool": c.pool,
+    }
+
+
 def calorimeter_document(cal: Calorimeter) -> dict[str, Any]:
     """Return a calorimeter with its calibrations, oldest first, as JSON-ready data."""
     return {
-        "format": CALORIMETER_FORMAT, "format_version": 1,
+        "format": CALORIMETER_FORMAT, "format_version": CALORIMETER_VERSION,
         "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": _iso(cal.created_at),
-        "calibration_interval_days": cal.calibration_interval_days,
-        "calibrations": [{
-            "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
-                              "unit": "J/K"},
-            "taken_at": _iso(c.taken_at), "created_at": _iso(c.created_at), "note": c.note,
-            "created_by": None if c.created_by is None else {"name": c.created_by.name, "email": c.created_by.email},
-            "from_run": c.result.run_id if c.result is not None else None,
-        } for c in sorted(cal.calibrations, key=lambda c: (c.taken_at, c.id))],
+        "calibration_interval_days": cal.calibration_interval_days, "vessel_type": cal.vessel_type,
+        "calibrations": [calibration_document(c) for c in sorted(cal.calibrations, key=lambda c: (c.taken_at, c.id))],
+        "audit_trail": calorimeter_trail(cal),
     }
+
+
+def calorimeter_trail(cal: Calorimeter) -> list[dict[str, Any]]:
+    """Return the audit entries of the calorimeter and of its calibrations, oldest first (ids of this notebook)."""
+    session = so.object_session(cal)
+    if session is None:
+        return []
+    ids = [c.id for c in cal.calibrations]
+    rows = session.scalars(sa.select(AuditEntry).options(so.joinedload(AuditEntry.person)).where(sa.or_(
+        sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
+        sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(ids)))).order_by(AuditEntry.id))
+    return [entry_as_dict(e) for e in rows]
 
 
 def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
@@ -241,7 +289,7 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
         "author": archive.person(created_by.created_by) if created_by else None,
         "dateCreated": _iso(cal.created_at),
         "dateModified": _iso(max([cal.created_at] + [c.created_at for c in cal.calibrations])),
-        "hasPart": [{"@id": path}], "cupcal:calorimeter": cal.name,
+        "hasPart": [{"@id": path}], "cupcal:calorimeter": cal.name, "cupcal:vesselType": cal.vessel_type,
     })
     if archive.graph[-1]["author"] is None:
         del archive.graph[-1]["author"]
@@ -274,7 +322,7 @@ def _load(query: sa.Select[tuple[Run]]) -> sa.Select[tuple[Run]]:
         so.selectinload(Run.results).undefer_group("detail").selectinload(Result.created_by),
         so.selectinload(Run.inputs), so.joinedload(Run.author), so.joinedload(Run.locked_by),
         so.joinedload(Run.group), so.joinedload(Run.calorimeter),
-        so.joinedload(Run.calibration).joinedload(Calibration.calorimeter),
+        so.joinedload(Run.calibration).joinedload(Calibration.calorimeter), so.selectinload(Run.review),
     ).order_by(Run.id)
 
 

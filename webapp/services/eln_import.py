@@ -31,6 +31,7 @@ from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
 from webapp.services.eln import CALORIMETER_FORMAT
 from webapp.services.eln import CALORIMETER_NAME
+from webapp.services.eln_calibrations import Known
 from webapp.services.eln_check import ELN_LIMITS
 from webapp.services.eln_check import ElnArchive
 from webapp.services.eln_check import read_archive
@@ -66,6 +67,7 @@ class _Import:
         self.password_method = password_method
         self.accounts: set[str] = set()
         self.stamps: dict[tuple[Any, ...], str] = {}
+        self.known = Known()
         self.fresh()
 
     def fresh(self) -> None:
@@ -140,7 +142,8 @@ def _calorimeters(job: _Import, folders: dict[str, list[str]]) -> None:
         if not isinstance(doc, dict) or doc.get("format") != CALORIMETER_FORMAT:
             continue
         job.stamps.update(calibration_stamps(doc))
-        message = job.attempt(path, lambda: restore_calorimeter(job.session, job.actor, doc, job.people, path))
+        message = job.attempt(path, lambda: restore_calorimeter(job.session, job.actor, doc, job.people, path,
+                                                                       job.known))
         if message is not None:
             job.item(path, "stored", message)
 
@@ -176,9 +179,8 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
         existing = _existing(job.session, digest) or _same_run(job.session, doc, digest)
         if existing is not None:
             return existing, "unchanged"
-        run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path, job.stamps)
-        record_change(job.session, job.actor, "run", run.id, "imported", None,
-                      f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
+        run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path, job.stamps,
+                          job.known, f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
         job.session.commit()
         return run.id, "stored"
 

@@ -27,6 +27,7 @@ from webapp.models import Group
 from webapp.models import Person
 from webapp.models import Result
 from webapp.models import Run
+from webapp.models import RunReview
 from webapp.services.access import require_coordinator
 from webapp.services.analysis import decode_readings
 from webapp.services.analysis import inputs_from_spec
@@ -34,8 +35,14 @@ from webapp.services.analysis import needs_supplied_heat_capacity
 from webapp.services.analysis import parse_inputs
 from webapp.services.analysis import result_from_analysis
 from webapp.services.analysis import run_analysis
+from webapp.services.audit import record_change
 from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
+from webapp.services.concurrency import content_hash as signed_hash
+from webapp.services.eln_calibrations import Known
+from webapp.services.eln_calibrations import new_calorimeter
+from webapp.services.eln_calibrations import restore_calibrations
+from webapp.services.eln_calibrations import restore_trail
 from webapp.services.errors import Invalid
 from webapp.services.exports_run import FORMAT
 from webapp.services.exports_run import result_document
@@ -53,7 +60,7 @@ MAX_RESULTS = 100
 #: the parts of a result that must come back number for number
 COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
             "outputs", "options", "mixing_time", "budget", "warnings", "comparison", "cautions", "properties",
-            "monte_carlo")
+            "monte_carlo", "checks")
 
 
 def when(text: Any, field: str) -> dt.datetime:
@@ -97,28 +104,38 @@ class People:
 # ----------------------------------------------------------------- calorimeters
 
 
-def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: People, where: str) -> str:
+def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: People, where: str,
+                        known: Known | None = None) -> str:
     """Add the calorimeter of ``calorimeter.json`` (when new) and the calibrations it lacks; commit.
 
-    Calibrations measured by a run come back with that run; the others are added here.
-    Return what was done.
+    Format 2 brings every calibration as written (:mod:`webapp.services.eln_calibrations`), those
+    measured by runs too (``known`` learns them, for the runs); in format 1, calibrations measured
+    by a run come back with that run. Return what was done.
     """
     if not isinstance(doc, dict) or not isinstance(doc.get("name"), str) or not doc["name"].strip():
         raise Invalid(f"{where}: expected a calorimeter with a 'name'", field="calorimeter")
-    cal = find_calorimeter(session, doc["name"])
-    done = []
-    if cal is None:
-        require_coordinator(actor, "add calorimeters")
-        cal = Calorimeter(name=doc["name"].strip()[:200], parts=str(doc.get("parts") or ""),
-                          location=str(doc.get("location") or "")[:200],
-                          calibration_interval_days=doc.get("calibration_interval_days"))
-        if doc.get("created_at"):
-            cal.created_at = when(doc["created_at"], "created_at")
-        session.add(cal)
-        session.flush()
-        done.append("added")
+    existed = find_calorimeter(session, doc["name"]) is not None
+    cal = new_calorimeter(session, actor, doc, where)
+    entries = doc.get("calibrations") or []
+    if not isinstance(entries, list):
+        raise Invalid(f"{where}: calibrations: expected a list", field="calibrations")
+    if doc.get("format_version") == 1:
+        added = _restore_v1(session, actor, cal, entries, people, where)
+    else:
+        known = known or Known()
+        added = restore_calibrations(session, actor, cal, entries, people, known, where)
+        restore_trail(session, cal, doc.get("audit_trail") or [], people, known, new_calorimeter=not existed,
+                      where=where)
+    session.commit()
+    done = [] if existed else ["added"]
+    done.append(f"{added} calibration(s) added" if added else "no calibration to add")
+    return f"calorimeter {cal.name!r}: " + ", ".join(done)
+
+
+def _restore_v1(session: so.Session, actor: Person, cal: Calorimeter, entries: list[Any], people: People,
+                where: str) -> int:
     added = 0
-    for i, c in enumerate(doc.get("calibrations") or []):
+    for i, c in enumerate(entries):
         if not isinstance(c, dict) or c.get("from_run") is not None:
             continue
         hc = c.get("heat_capacity") or {}
@@ -133,9 +150,7 @@ def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: Pe
                                     created_by=people.get(c.get("created_by")),
                                     created_at=when(c.get("created_at") or c["taken_at"], "created_at")))
             added += 1
-    session.commit()
-    done.append(f"{added} calibration(s) added" if added else "no calibration to add")
-    return f"calorimeter {cal.name!r}: " + ", ".join(done)
+    return added
 
 
 def find_calibration(session: so.Session, cal: Calorimeter, value: float, u: float,
@@ -152,7 +167,7 @@ def find_calibration(session: so.Session, cal: Calorimeter, value: float, u: flo
 
 
 def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, Any], run_toml: str,
-                     where: str) -> tuple[Calorimeter | None, Calibration | None]:
+                     where: str, known: Known) -> tuple[Calorimeter | None, Calibration | None]:
     name = info.get("calorimeter")
     cal = find_calorimeter(session, name) if isinstance(name, str) and name else None
     if name and cal is None:
@@ -164,7 +179,10 @@ def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, A
         return cal, None
     hc = exported.get("heat_capacity") or {}
     found = None
-    if cal is not None:
+    mine = known.by_source.get((cal.name, exported.get("id"))) if cal is not None else None
+    if mine is not None:
+        found = session.get(Calibration, mine)
+    elif cal is not None:
         found = find_calibration(session, cal, hc.get("value"), hc.get("standard_uncertainty"),
                                  when(exported["taken_at"], "provenance.calibration.taken_at")
                                  if exported.get("taken_at") else None)
@@ -207,9 +225,20 @@ def _details(session: so.Session, actor: Person, run: Run, doc: dict[str, Any], 
         run.created_at = when(prov["recorded_at"], "provenance.recorded_at")
     if prov.get("locked"):
         require_coordinator(actor, "import signed runs (they keep their signatures)")
-        run.locked = True
-        run.locked_by = people.get(prov.get("locked_by"))
-        run.locked_at = when(prov.get("locked_at"), "provenance.locked_at")
+        when(prov.get("locked_at"), "provenance.locked_at")  # refused early when it is not a time
+
+
+def _sign(run: Run, doc: dict[str, Any], people: People) -> None:
+    """Sign the restored run as the archive says, last (a signed run can no longer change)."""
+    prov = doc.get("provenance") or {}
+    if not prov.get("locked"):
+        return
+    current = run.current_result
+    run.locked_result_id = current.id if current is not None else None
+    run.locked_hash = signed_hash(run, current)  # the same content, signed with this notebook's ids
+    run.locked_by = people.get(prov.get("locked_by"))
+    run.locked_at = when(prov.get("locked_at"), "provenance.locked_at")
+    run.locked = True
 
 
 def _audit(session: so.Session, run: Run, doc: dict[str, Any], people: People) -> None:
@@ -244,13 +273,18 @@ def calibration_stamps(doc: Any) -> dict[tuple[Any, ...], str]:
 
 
 def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, bytes], people: People,
-                groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None) -> Run:
+                groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None,
+                known: Known | None = None, imported: str | None = None) -> Run:
     """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit).
 
-    ``stamps`` (:func:`calibration_stamps`) give the calibrations the run measured their time of storing.
+    ``known`` (from the archive's ``calorimeter.json`` files) ties the calibrations the run measured
+    to their results; without them (an archive of format 1) they are recorded anew, ``stamps``
+    (:func:`calibration_stamps`) giving them their time of storing. ``imported`` (by ``actor``) is
+    audited before the restored trail, so a signed run has no entry after its lock.
     """
     if not isinstance(doc, dict) or doc.get("format") != FORMAT or doc.get("format_version") != 1:
         raise Invalid(f"{where}: expected a cupcal run export (format {FORMAT!r}, version 1)", field="format")
+    known = known or Known()
     run_name, run_bytes = _file(doc, "run_file", blobs)
     readings_name, readings = _file(doc, "readings", blobs)
     try:
@@ -258,7 +292,7 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     except UnicodeDecodeError:
         raise Invalid(f"{where}: the run file is not UTF-8 text", field="files.run_file") from None
     run_name, readings_name = upload_file_name(run_name, "run_file"), upload_file_name(readings_name, "readings")
-    cal, calibration = _calibration_for(session, doc.get("run") or {}, doc, run_toml, where)
+    cal, calibration = _calibration_for(session, doc.get("run") or {}, doc, run_toml, where, known)
     spec, rd = parse_inputs(run_toml, run_name, decode_readings(readings, readings_name), readings_name, calibration)
     author = people.get((doc.get("provenance") or {}).get("recorded_by")) or actor
     upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings, readings_name=readings_name)
@@ -267,23 +301,84 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     run.content_hash = content_hash(run_bytes, readings)
     _details(session, actor, run, doc, people, groups)
     session.add(run)
+    source_id = (doc.get("run") or {}).get("id")
+    own = known.of_run.get((cal.name, source_id), set()) if cal is not None else set()
     for rdoc in _results_in_order(doc, where):
         options = _options({"result": rdoc}, 0).checked()
-        result = result_from_analysis(run_analysis(spec, rd, options), input_name=run_name,
-                                      periods_given=_periods_given(options))
+        analysed_at = when(rdoc["analysed_at"], "result.analysed_at") if rdoc.get("analysed_at") else None
+        result = result_from_analysis(run_analysis(spec, rd, options, **_check_context(session, cal, own, analysed_at)),
+                                      input_name=run_name, periods_given=_periods_given(options))
         result.run, result.is_current = run, rdoc is doc["result"]
         session.add(result)
         result.created_by = people.get(rdoc.get("analysed_by"))
-        if rdoc.get("analysed_at"):
-            result.created_at = when(rdoc["analysed_at"], "result.analysed_at")
+        if analysed_at is not None:
+            result.created_at = analysed_at
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
-            session.flush()  # the calibration's note names the run
-            c = calibration_from_result(session, cal, result, result.created_by)
-            stamp = (stamps or {}).get((cal.name, (doc.get("run") or {}).get("id"), c.heat_capacity_j_k,
-                                        c.heat_capacity_j_k_std))
-            if stamp:
-                c.created_at = when(stamp, "calibrations.created_at")
+            _measured(session, cal, run, result, rdoc, doc, known, stamps)
     session.flush()
+    if imported is not None:
+        record_change(session, actor, "run", run.id, "imported", None, imported)
     _audit(session, run, doc, people)
+    _review(session, run, doc, people)
+    session.flush()
+    _sign(run, doc, people)
     return run
+
+
+def _check_context(session: so.Session, cal: Calorimeter | None, own: set[int],
+                   at: dt.datetime | None) -> dict[str, Any]:
+    """Return the cup's type and its history as it stood when the result was made (the plausibility checks)."""
+    if cal is None:
+        return {}
+    rows = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
+                           .order_by(Calibration.taken_at, Calibration.id)).all()
+    history = [(c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in rows
+               if c.id not in own and (at is None or c.created_at <= at)]
+    return {"calorimeter_type": cal.vessel_type, "history": history}
+
+
+def _measured(session: so.Session, cal: Calorimeter, run: Run, result: Result, rdoc: dict[str, Any],
+              doc: dict[str, Any], known: Known, stamps: dict[tuple[Any, ...], str] | None) -> None:
+    """Tie the calibration this result measured to it (or record it anew for an archive of format 1)."""
+    source_id = (doc.get("run") or {}).get("id")
+    mine = known.by_result.get((cal.name, source_id, rdoc.get("id")))
+    if mine is not None:
+        row = session.get(Calibration, mine)
+        if row is not None and row.result_id is None:
+            row.result = result
+        return
+    if (cal.name, source_id) in known.of_run:
+        return  # the archive lists this run's calibrations, and none from this result
+    session.flush()  # the calibration's note names the run
+    c = calibration_from_result(session, cal, result, result.created_by)
+    stamp = (stamps or {}).get((cal.name, source_id, c.heat_capacity_j_k, c.heat_capacity_j_k_std))
+    if stamp:
+        c.created_at = when(stamp, "calibrations.created_at")
+
+
+def _review(session: so.Session, run: Run, doc: dict[str, Any], people: People) -> None:
+    """Store the run's review (withdrawn, excluded, accepted, a mark by hand) as written."""
+    r = doc.get("review")
+    if r is None:
+        return
+    if not isinstance(r, dict):
+        raise Invalid("expected an object", field="review")
+    row = RunReview(run_id=run.id)
+    for key in ("withdrawn", "excluded", "accepted"):
+        if not isinstance(r.get(key, False), bool):
+            raise Invalid(f"review.{key}: expected true or false", field="review")
+        setattr(row, key, r.get(key, False))
+        setattr(row, f"{key}_reason", str(r.get(f"{key}_reason") or ""))
+    points = r.get("mark_points")
+    if points is not None and (isinstance(points, bool) or not isinstance(points, (int, float))
+                               or not math.isfinite(points)):
+        raise Invalid("review.mark_points: expected a number or null", field="review")
+    row.mark_points, row.mark_reason = points, str(r.get("mark_reason") or "")
+    if r.get("updated_at"):
+        row.updated_at = when(r["updated_at"], "review.updated_at")
+    who = people.get(r.get("updated_by"))
+    if who is not None:
+        session.flush()
+        row.updated_by_id = who.id
+    session.add(row)
