@@ -17,7 +17,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from calc import limits
 from calc.errors import InputError
+from calc.limits import require_number
 from calc.measured import Measured, parse_measured
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA"]
@@ -356,6 +358,9 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
     if kind == "i":
         if isinstance(value, bool) or not isinstance(value, int) or value < 1:
             raise InputError("expected a positive whole number", source=source, field=dotted)
+        top = limits.get("equivalents")
+        require_number(value, f"at most {top:g} (limit equivalents)", field=dotted, source=source,
+                       minimum=1, maximum=top)
         return value
     if kind == "n":
         return parse_measured(value, field=dotted, expected="", source=source)
@@ -371,11 +376,27 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
         v = m.value * factor
         if not (v > 0 and math.isfinite(v)):
             raise InputError(f"expected a positive resolution, got '{m.text}'", source=source, field=dotted)
+        low, high = limits.bounds_for_unit("resolution_K")
+        require_number(v, f"a resolution in K (physical bounds) in '{limits.shorten(m.text)}'", field=dotted,
+                       source=source, minimum=low, maximum=high)
         return v
     m = parse_measured(value, field=dotted, expected=unit or "", source=source)
     if unit not in ("K",) and m.value <= 0 and not dotted.endswith("heat_capacity"):
         raise InputError(f"expected a positive value, got '{m.text}'", source=source, field=dotted)
+    _within_bounds(m, unit or "", dotted, source)
     return m
+
+
+def _within_bounds(m: Measured, unit: str, dotted: str, source: str) -> None:
+    """Refuse a value or uncertainty beyond the physical bounds of its unit (calc.limits.PHYSICAL_BOUNDS)."""
+    low, high = limits.bounds_for_unit(unit)
+    if not math.isfinite(high):
+        return
+    value, u = m.m_as(unit), m.u_as(unit)
+    what = f"a value in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'"
+    require_number(value, what, field=dotted, source=source, minimum=low, maximum=high)
+    require_number(u, f"an uncertainty in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'",
+                   field=dotted, source=source, minimum=0, maximum=high - low)
 
 
 def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
