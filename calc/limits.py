@@ -186,9 +186,13 @@ def require_number(x: Any, what: str, *, field: str | None = None, minimum: floa
     return value
 
 
+def _num(x: float) -> str:
+    return str(int(x)) if float(x).is_integer() and abs(x) < 1e15 else f"{x:g}"
+
+
 def _range(minimum: float | None, maximum: float | None, exclusive: bool) -> str:
-    low = None if minimum is None else (f"more than {minimum:g}" if exclusive else f"at least {minimum:g}")
-    high = None if maximum is None else f"at most {maximum:g}"
+    low = None if minimum is None else (f"more than {_num(minimum)}" if exclusive else f"at least {_num(minimum)}")
+    high = None if maximum is None else f"at most {_num(maximum)}"
     return " and ".join(p for p in (low, high) if p) or "a number"
 
 
@@ -198,7 +202,7 @@ def require_size(size: float, name: str, *, what: str | None = None, source: str
     limit = get(name)
     if size > limit:
         spec = TABLE[name]
-        raise LimitExceeded(f"{what or spec.what} is over the limit {name} = {limit:g} {spec.unit}".rstrip(),
+        raise LimitExceeded(f"{what or spec.what} is over the limit {name} = {_num(limit)} {spec.unit}".rstrip(),
                             limit=name, source=source, field=field, line=line)
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import stat
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -191,8 +192,14 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
     """
     p = Path(path)
     src = source or str(path)
+    cap = int(limits.get("run_file_bytes"))
     try:
-        text = p.read_text(encoding="utf-8-sig")
+        with open(p, "rb") as handle:
+            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
+                raise InputError("is not a regular file; expected a run file (.toml)", source=src)
+            data = handle.read(cap + 1)
+        limits.require_size(len(data), "run_file_bytes", what="the run file", source=src)
+        text = data.decode("utf-8-sig")
     except FileNotFoundError:
         raise InputError("file not found", source=src) from None
     except IsADirectoryError:
@@ -201,6 +208,8 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
         raise InputError("is not UTF-8 text; expected a TOML run file", source=src) from None
     except OSError as exc:
         raise InputError(f"cannot be read ({exc.strerror})", source=src) from None
+    except ValueError:  # a NUL byte in the path
+        raise InputError("is not a usable path (it contains a NUL byte)", source=limits.shorten(repr(src))) from None
     return parse_run(text, source=src, base_dir=p.parent, path=p)
 
 
