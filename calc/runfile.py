@@ -8,6 +8,7 @@ dimensioned fields with a message that names the field and what was expected.
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import math
 import os
@@ -40,13 +41,14 @@ KINDS = (
 #  "s"   free string
 #  "f"   chemical formula (string)
 #  "i"   positive integer
+#  "d"   a date (or date and time) in ISO 8601, as a string or a TOML date
 Field = tuple[str, str | None, bool]
 
 _INFO: dict[str, Field] = {
     "title": ("s", None, False),
     "operator": ("s", None, False),
     "bench": ("s", None, False),
-    "date": ("s", None, False),
+    "date": ("d", None, False),
     "notes": ("s", None, False),
     "sample": ("s", None, False),
     "group": ("s", None, False),
@@ -357,6 +359,8 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
         if not isinstance(value, str):
             raise InputError("expected text (a string)", source=source, field=dotted)
         return value
+    if kind == "d":
+        return iso_date(value, dotted, source)
     if kind == "f":
         if not isinstance(value, str) or not value.strip():
             raise InputError("expected a chemical formula such as 'KCl'", source=source, field=dotted)
@@ -406,6 +410,29 @@ def _within_bounds(m: Measured, unit: str, dotted: str, source: str) -> None:
     require_number(value, what, field=dotted, source=source, minimum=low, maximum=high)
     require_number(u, f"an uncertainty in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'",
                    field=dotted, source=source, minimum=0, maximum=high - low)
+
+
+def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -> str:
+    """Return a date (or date and time) written in ISO 8601 as its text; anything else is an InputError.
+
+    ``2025-03-13``, ``2025-03-13T14:05``, ``2025-03-13 14:05:00+01:00`` and a TOML date are taken;
+    ``yesterday``, ``13/03/2025`` and ``March 13`` are refused (ISO 8601-1:2019, extended format).
+    """
+    if isinstance(value, (dt.date, dt.datetime)):
+        return value.isoformat()
+    if isinstance(value, str) and len(value) <= 40 and value.isascii() and _ISO_DATE_RE.match(value.strip()):
+        text = value.strip()
+        try:
+            (dt.date.fromisoformat if len(text) == 10 else dt.datetime.fromisoformat)(text)
+            return text
+        except ValueError:
+            pass
+    shown = limits.shorten(value if isinstance(value, str) else repr(value))
+    raise InputError(f"expected a date in ISO 8601 like 2025-03-13 (or 2025-03-13T14:05), got {shown!r}",
+                     source=source, field=dotted)
+
+
+_ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,6})?)?(?:Z|[+-]\d{2}:\d{2})?)?$")
 
 
 def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:

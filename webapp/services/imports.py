@@ -222,7 +222,7 @@ def content_hash(run_toml: bytes, readings: bytes) -> str:
 def _readings_name(toml_text: str, path: str) -> str:
     try:
         data = tomllib.loads(toml_text.lstrip("\ufeff"))
-    except tomllib.TOMLDecodeError as exc:
+    except (ValueError, RecursionError) as exc:  # TOMLDecodeError, a 5000-digit number, deep nesting
         raise Invalid(f"{path}: not a valid run file: {exc}", field="run_file") from None
     name = data.get("readings")
     if not isinstance(name, str) or not name.strip():
@@ -233,7 +233,7 @@ def _readings_name(toml_text: str, path: str) -> str:
 def _info_group(toml_text: str) -> str | None:
     try:
         info = tomllib.loads(toml_text.lstrip("\ufeff")).get("info")
-    except tomllib.TOMLDecodeError:
+    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
         return None
     g = info.get("group") if isinstance(info, dict) else None
     return g.strip() if isinstance(g, str) and g.strip() else None
