@@ -28,6 +28,7 @@ from webapp.models import Run
 from webapp.services import exports_run
 from webapp.services import report_pdf as report_pdf_service
 from webapp.services import webhooks
+from webapp.services.webhook_guard import guard_from_config
 from webapp.services.errors import Invalid
 from webapp.services.errors import TooLarge
 from webapp.models import MAX_ID
@@ -163,7 +164,8 @@ def list_hooks():  # type: ignore[no-untyped-def]
 def add_hook():  # type: ignore[no-untyped-def]
     """Add a webhook (coordinators); its signing secret is returned once."""
     hook, secret = webhooks.add_webhook(get_session(), actor(), as_text(json_object().get("url"), "url",
-                                                                         required=True) or "")
+                                                                         required=True) or "",
+                                        guard_from_config(current_app.config))
     response = jsonify(_hook_json(hook, secret))
     response.status_code = 201
     return response
