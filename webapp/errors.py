@@ -10,6 +10,8 @@ from typing import Any
 
 import sqlalchemy as sa
 
+from calc.errors import CupcalError
+from calc.limits import LimitExceeded
 from flask import Flask
 from flask import Response
 from flask import jsonify
@@ -69,6 +71,16 @@ def init_app(app: Flask) -> None:
         if wants_json():
             return json_error(exc.status, exc.message, exc.field)
         return _page_error(exc.status, "That did not work", exc.message)
+
+    @app.errorhandler(CupcalError)
+    def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]
+        # a limit of calc.limits passed (413) or other bad input that calc found (400)
+        status = 413 if isinstance(exc, LimitExceeded) else 400
+        field = getattr(exc, "field", None)
+        _roll_back_request_session()
+        if wants_json():
+            return json_error(status, str(exc), field)
+        return _page_error(status, "Too large" if status == 413 else "That did not work", str(exc))
 
     @app.errorhandler(CSRFError)
     def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]

@@ -27,6 +27,7 @@ from pathlib import Path
 from typing import Any
 
 import sqlalchemy as sa
+from calc import limits as calc_limits
 import sqlalchemy.orm as so
 
 from webapp.models import Bench
@@ -36,6 +37,7 @@ from webapp.models import Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
+from webapp.services.errors import Conflict
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.errors import storage_error
@@ -46,6 +48,21 @@ from webapp.services.runs import record_run
 MAX_FILES = 5000
 MAX_TOTAL_BYTES = 512 * 1024 * 1024
 MAX_FILE_BYTES = 16 * 1024 * 1024
+
+
+class Files(dict[str, bytes]):
+    """The files of an import by relative path, and the names that occurred more than once
+    (``duplicates``: name → count); a duplicated name is refused, since which copy is meant is unknown."""
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        self.duplicates: dict[str, int] = {}
+
+    def add(self, name: str, content: bytes) -> None:
+        """Add a file; a name seen before is recorded as a duplicate (its first content kept aside)."""
+        if name in self:
+            self.duplicates[name] = self.duplicates.get(name, 1) + 1
+        self[name] = content
 
 
 @dataclasses.dataclass(frozen=True)
@@ -107,7 +124,7 @@ def _safe_name(name: str, where: str) -> str:
     return "/".join(parts)
 
 
-def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "archive") -> dict[str, bytes]:
+def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "archive") -> Files:
     """Return the files of a zip archive by relative path, refusing unsafe archives.
 
     :raise Invalid: for a file that is not a zip, a path that is absolute or leads out of the
@@ -131,7 +148,7 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
                     f"{source}: refused: the archive unpacks to more than "
                     f"{(limits.max_file_bytes if info.file_size > limits.max_file_bytes else limits.max_total_bytes) // 2**20} MiB "
                     f"({info.filename!r}); is it a zip bomb?", field="archive")
-        out: dict[str, bytes] = {}
+        out = Files()
         read = 0
         for info in infos:
             name = _safe_name(info.filename, source)
@@ -143,7 +160,7 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
             read += len(content)
             if len(content) > limits.max_file_bytes or read > limits.max_total_bytes:  # pragma: no cover - sizes lie
                 raise Invalid(f"{source}: refused: the archive unpacks to more than its stated size", field="archive")
-            out[name] = content
+            out.add(name, content)
     return out
 
 
@@ -286,8 +303,13 @@ def import_files(
     benches = {b.name: b for b in session.scalars(sa.select(Bench).where(Bench.section_id == section.id))}
     section_name = section.name
     report = ImportReport()
-    used: set[str] = set()
-    runs = sorted(p for p in files if p.lower().endswith(".toml"))
+    duplicates = getattr(files, "duplicates", {})
+    for name, count in sorted(duplicates.items()):
+        report.items.append(ImportItem(name, "error", f"{name}: refused: the archive holds {count} entries of this "
+                                       "name, so which one is meant is unknown; rename them"))
+    used: set[str] = set(duplicates)
+    runs = sorted(p for p in files if p.lower().endswith(".toml") and p not in duplicates)
+    check_totals(files, runs)
     options = AnalysisOptions(monte_carlo_trials=0)
     for path in runs:
         item = _import_one(session, actor, path, files, maps, groups, benches, section_name, options, used)
@@ -300,12 +322,39 @@ def import_files(
     return report
 
 
+def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
+    """Refuse an import whose run files and readings pass the limits import_files or import_total_bytes.
+
+    A readings file named by several run files is counted once per run file that uses it (each
+    run stores its own copy: a small zip of many run files sharing one large log would otherwise
+    grow the database far beyond the zip's size).
+    """
+    calc_limits.require_size(len(runs), "import_files", what=f"the import's {len(runs)} run files", field="archive")
+    total = 0
+    for path in runs:
+        total += len(files[path])
+        rname = _readings_name_or_none(files[path])
+        if rname is not None:
+            total += len(files.get(posixpath.normpath(posixpath.join(posixpath.dirname(path), rname)), b""))
+    calc_limits.require_size(total, "import_total_bytes", field="archive",
+                             what=f"the import's run files and readings ({total} bytes, a shared readings file "
+                                  "counted once per run file that uses it)")
+
+
+def _readings_name_or_none(raw: bytes) -> str | None:
+    try:
+        return _readings_name(raw.decode("utf-8-sig"), "")
+    except (Invalid, UnicodeDecodeError):
+        return None
+
+
 def _import_one(
     session: so.Session, actor: Person, path: str, files: dict[str, bytes], maps: dict[str, Mapping],
     groups: dict[str, Group], benches: dict[str, Bench], section_name: str, options: AnalysisOptions,
     used: set[str],
 ) -> ImportItem:
     raw = files[path]
+    digest = ""
     try:
         try:
             text = raw.decode("utf-8-sig")
@@ -314,6 +363,8 @@ def _import_one(
                           field="run_file") from None
         rname = _readings_name(text, path)
         rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+        if rpath in getattr(files, "duplicates", {}):
+            raise Invalid(f"{path}, field 'readings': {rname!r} occurs more than once in the archive", field="readings")
         if rpath not in files:
             raise Invalid(f"{path}, field 'readings': {rname!r} is not among the imported files", field="readings")
         used.add(rpath)
@@ -355,6 +406,11 @@ def _import_one(
         return ImportItem(path, "stored", f"run #{run.id}", run.id, group.name)
     except ServiceError as exc:
         session.rollback()
+        if isinstance(exc, Conflict) and digest:
+            # the same files stored by an import running at the same time: unchanged, not a conflict
+            existing = session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
+            if existing is not None:
+                return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
         return ImportItem(path, "error", exc.message)
     except sa.exc.DBAPIError as exc:
         session.rollback()  # nothing of this run is stored
