@@ -207,6 +207,8 @@ class Run(Base):
     locked_at: so.Mapped[Optional[dt.datetime]]
     #: SHA-256 of the run file and the readings as imported in bulk (re-import changes nothing)
     content_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
+    #: the one-time token of the page form that saved the run (a double submit saves one run)
+    submit_token: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
     bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
 
     author: so.Mapped[Person] = so.relationship(foreign_keys=[author_id])
@@ -415,3 +417,14 @@ class WebhookDelivery(Base):
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
     webhook: so.Mapped[Webhook] = so.relationship(back_populates="deliveries")
+
+
+class SignInFailure(Base):
+    """A failed sign-in: the e-mail address tried and the client address (for throttling)."""
+
+    __tablename__ = "sign_in_failures"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    email: so.Mapped[str] = so.mapped_column(sa.String(254), index=True)
+    address: so.Mapped[str] = so.mapped_column(sa.String(64), index=True)
+    at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)

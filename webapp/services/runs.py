@@ -67,6 +67,8 @@ class RunUpload:
     calorimeter_id: int | None = None
     group_id: int | None = None
     options: AnalysisOptions = AnalysisOptions()
+    #: the one-time token of the page form (unique on the run: a second save with it is refused)
+    submit_token: str | None = None
 
 
 @dataclasses.dataclass
@@ -398,6 +400,7 @@ def _new_run(
         created_at=utcnow(),
         calorimeter=calorimeter,
         calibration=calibration,
+        submit_token=upload.submit_token,
     )
 
 
@@ -406,3 +409,8 @@ def _describe_result(result: Result | None) -> str | None:
         return None
     return f"#{result.id} {result.method}, fore {result.fore_start_s:g}–{result.fore_end_s:g} s, " \
         f"after {result.after_start_s:g}–{result.after_end_s:g} s"
+
+
+def run_for_submit_token(session: so.Session, token: str) -> Run | None:
+    """Return the run a page form with this one-time token saved already, if any."""
+    return session.scalar(sa.select(Run).where(Run.submit_token == token))
