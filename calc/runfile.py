@@ -217,6 +217,7 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
 
 def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Path | None = None) -> RunSpec:
     """Validate run-file text; ``base_dir`` resolves the readings path."""
+    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
