@@ -96,8 +96,14 @@ def init_app(app: Flask) -> None:
     def _http_error(exc: HTTPException):  # type: ignore[no-untyped-def]
         status = exc.code or 500
         if wants_json():
-            return json_error(status, exc.description or exc.name)
-        return _page_error(status, exc.name, exc.description or "")
+            response, status = json_error(status, exc.description or exc.name)
+        else:
+            page, status = _page_error(status, exc.name, exc.description or "")
+            response = Response(page, status=status, mimetype="text/html")
+        for name, value in exc.get_headers():  # e.g. Allow of a 405 (RFC 9110, 15.5.6)
+            if name.lower() != "content-type":
+                response.headers[name] = value
+        return response, status
 
     @app.errorhandler(sa.exc.OperationalError)
     @app.errorhandler(sa.exc.InterfaceError)
