@@ -96,6 +96,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     if trials > {**calc_limits.DEFAULTS, **app.config["LIMITS"]}["monte_carlo_trials"]:
         raise RuntimeError("cupcal configuration: MONTE_CARLO_TRIALS is over the limit monte_carlo_trials")
     app.before_request(lambda: calc_limits.set_for_context(app.config["LIMITS"]))
+    app.before_request(_no_nul_in_text)
     app.url_value_preprocessor(_ids_in_range)
     db.init_app(app)
     auth.init_app(app)
@@ -115,6 +116,17 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app
+
+
+def _no_nul_in_text() -> None:
+    """Refuse NUL in query and form values before any view reads them (PostgreSQL cannot store it)."""
+    from flask import request
+
+    from webapp.services.jsontext import refuse_nul_in_form
+
+    refuse_nul_in_form(request.args)
+    if request.mimetype in ("multipart/form-data", "application/x-www-form-urlencoded"):
+        refuse_nul_in_form(request.form)
 
 
 def _ids_in_range(_endpoint: str | None, values: dict[str, Any] | None) -> None:

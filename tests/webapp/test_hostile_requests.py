@@ -113,3 +113,11 @@ def test_plan_at_the_extremes(client: Any, lab: Any) -> None:
         for v in (1e308, 1e-320, -1e308, 0, 1e6):
             r = client.post("/api/plan", json={**base, k: v}, headers=lab.auth("a1"))
             assert r.status_code in (200, 400, 413), (k, v, r.status_code, r.get_data(as_text=True)[:300])
+
+
+def test_nul_characters_are_refused_before_the_database(client: Any, lab: Any) -> None:
+    # found by schemathesis on PostgreSQL, which cannot store U+0000 in text (a 500)
+    r = client.post("/api/calorimeters", json={"name": "cup\x00"}, headers=lab.auth("coord"))
+    assert r.status_code == 400 and r.get_json()["field"] == "name"
+    r = client.get("/api/runs?kind=a%00b", headers=lab.auth("coord"))
+    assert r.status_code == 400 and r.get_json()["field"] == "kind"

@@ -1,7 +1,7 @@
 """JSON from callers: parsed with every failure as an Invalid that names the field.
 
-Nesting deeper than the limit ``json_depth`` (calc.limits) is refused, and so is text that is
-not Unicode (a lone surrogate such as ``"\\ud800"`` is valid JSON but cannot be encoded as
+Nesting deeper than the limit ``json_depth`` (calc.limits) is refused, and so is text holding
+NUL (PostgreSQL cannot store it) or text that is not Unicode (a lone surrogate such as ``"\\ud800"`` is valid JSON but cannot be encoded as
 UTF-8, so it could be neither stored nor shown).
 """
 
@@ -41,6 +41,15 @@ def _unicode(text: str, field: str) -> None:
         text.encode("utf-8")
     except UnicodeEncodeError as exc:
         raise Invalid(f"character {exc.start + 1} is a lone surrogate, not Unicode text", field=field) from None
+    if "\x00" in text:  # PostgreSQL cannot store it in text, and no field of ours needs it
+        raise Invalid(f"character {text.index(chr(0)) + 1} is NUL (U+0000), which text may not hold", field=field)
+
+
+def refuse_nul_in_form(values: Any) -> None:
+    """Refuse (400) a form or query value holding NUL (U+0000), naming the field."""
+    for name, value in values.items(multi=True):
+        if "\x00" in name or (isinstance(value, str) and "\x00" in value):
+            raise Invalid("NUL (U+0000) is not allowed in text", field=limits.shorten(name.replace("\x00", "?")))
 
 
 def load_json(raw: bytes | str, field: str = "body") -> Any:
