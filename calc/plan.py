@@ -376,8 +376,11 @@ def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggest
     if lo >= hi:
         return None
     quantity, current, unit = design.amount()
-    f_lo, _ = _solve_amount(design, lo)
-    f_hi, _ = _solve_amount(design, hi)
+    try:
+        f_lo, _ = _solve_amount(design, lo)
+        f_hi, _ = _solve_amount(design, hi)
+    except InputError:  # the amounts for the window pass the physical bounds (calc.limits): no suggestion
+        return None
     a = abs(dT)
     if lo <= a <= hi:
         rec, rec_dt = 1.0, dT
@@ -385,7 +388,10 @@ def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggest
     else:
         target = lo * 1.25 if a < lo else hi * 0.8
         target = min(max(target, lo), hi)
-        rec, rec_dt = _solve_amount(design, target)
+        try:
+            rec, rec_dt = _solve_amount(design, target)
+        except InputError:
+            return None
         why = "too small against the thermometer and the drift" if a < lo else "too large (far from room temperature)"
         msg = f"|ΔT| = {a:.2f} K is {why}: use about {current * rec:.3g} {unit} for |ΔT| ≈ {abs(rec_dt):.2f} K"
     return Suggestion(quantity, unit, current, current * f_lo, current * f_hi, current * rec, rec_dt, msg)

@@ -121,3 +121,17 @@ def test_nul_characters_are_refused_before_the_database(client: Any, lab: Any) -
     assert r.status_code == 400 and r.get_json()["field"] == "name"
     r = client.get("/api/runs?kind=a%00b", headers=lab.auth("coord"))
     assert r.status_code == 400 and r.get_json()["field"] == "kind"
+
+
+def test_the_new_run_form_takes_iso_dates_only(client: Any, lab: Any) -> None:
+    from tests.webapp.conftest import sign_in
+    from tests.webapp.test_pages_runs import form_from_demo
+    from tests.webapp.test_pages_runs import post_form
+
+    sign_in(client, "a1@lab.example")
+    _toml, csv = demo_files("diss-kcl-01")
+    fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
+    for bad in ("yesterday", "13/03/2025", "2025-02-30"):
+        r = post_form(client, "dissolution", {**fields, "info.date": bad}, csv=csv)
+        assert r.status_code == 400 and "ISO 8601" in r.get_data(as_text=True), bad
+    assert post_form(client, "dissolution", {**fields, "info.date": "2025-03-13"}, csv=csv).status_code == 200
