@@ -7,8 +7,9 @@ The inputs are a hypothesis sample of the allowed ranges (calc/limits.py, the pl
 plus their extremes: the largest readings file the limits let through (rows and bytes), the most
 Monte Carlo trials, the finest resolution under the greatest noise, the longest periods. Time is
 the wall time of the request (Flask test client, SQLite, the default settings but the database);
-memory is the peak of the allocations made during a second, identical request, traced by
-tracemalloc (Python and numpy allocations; tracing slows the work, so it is not timed). Refused inputs
+memory is the peak resident memory of the whole process: each input runs in a child forked from the
+warmed-up test process (libraries loaded, nothing left over from other inputs), whose ru_maxrss
+is read at the end, so it includes everything the process holds, not only the request. Refused inputs
 are timed too (they must be cheap) but the figure is for the accepted ones.
 """
 
@@ -17,7 +18,8 @@ from __future__ import annotations
 import io
 import json
 import time
-import tracemalloc
+import os
+import resource
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -41,22 +43,47 @@ SECONDS, MEGABYTES = 5.0, 300.0
 RESULTS: list[tuple[str, int, float, float, str]] = []  # (what, status, s, MB, the input)
 
 
-def measure(what: str, fn: Callable[[], Any], detail: Any = "") -> Any:
-    """Call ``fn`` twice: once timed, once with its allocations traced; record both; return the first result."""
-    start = time.perf_counter()
-    out = fn()
-    took = time.perf_counter() - start
-    tracemalloc.start()
-    try:
-        fn()
-        peak = tracemalloc.get_traced_memory()[1] / 2**20
-    finally:
-        tracemalloc.stop()
-    status = getattr(out, "status_code", None)
-    if status is None:
-        status = 200 if getattr(out, "exit_code", 0) == 0 else 400
-    RESULTS.append((what, status, took, peak, str(detail)[:300]))
-    return out
+def _rss_mb() -> float:
+    with open("/proc/self/statm", encoding="ascii") as fh:
+        return int(fh.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2**20
+
+
+def measure(what: str, fn: Callable[[], Any], detail: Any = "") -> int:
+    """Run ``fn`` once in a forked child (warm imports, no state from other inputs); record its wall time
+    and the child's peak resident memory (the whole process, not only the request); return its status."""
+    read_end, write_end = os.pipe()
+    pid = os.fork()
+    if pid == 0:  # the child: its own database connections, then the request, then its figures
+        os.close(read_end)
+        code = 0
+        try:
+            if WORLD.get("app") is not None:
+                get_engine(WORLD["app"]).dispose(close=False)
+            start = time.perf_counter()
+            out = fn()
+            took = time.perf_counter() - start
+            status = getattr(out, "status_code", None)
+            if status is None:
+                status = 200 if getattr(out, "exit_code", 0) == 0 else 400
+                if "internal error" in getattr(out, "output", ""):
+                    status = 500
+            peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+            os.write(write_end, json.dumps([status, took, peak]).encode())
+        except BaseException as exc:  # noqa: BLE001 - reported to the parent
+            os.write(write_end, json.dumps([599, 0.0, 0.0, repr(exc)[:300]]).encode())
+            code = 1
+        finally:
+            os._exit(code)
+    os.close(write_end)
+    with os.fdopen(read_end, "rb") as fh:
+        data = json.loads(fh.read() or b"[599, 0, 0]")
+    os.waitpid(pid, 0)
+    status, took, peak = data[0], data[1], data[2]
+    RESULTS.append((what, status, took, peak, str(detail)[:300] + (" " + data[3] if len(data) > 3 else "")))
+    return int(status)
+
+
+WORLD: dict[str, Any] = {}
 
 
 @pytest.fixture(scope="module")
@@ -74,6 +101,8 @@ def world(tmp_path_factory: pytest.TempPathFactory) -> Any:
                           password_method=FAST_HASH)
     token = issue_token(s, coord, "bench")[1]
     s.close()
+    WORLD["app"] = app
+    print(f"\nresident memory of the test process before the inputs: {_rss_mb():.0f} MB")
     yield {"app": app, "client": app.test_client(), "auth": {"Authorization": f"Bearer {token}"}, "dir": d}
     get_engine(app).dispose()
     _report()
@@ -142,8 +171,7 @@ def test_plan(world: Any) -> None:
               suppress_health_check=list(HealthCheck))
     @given(plan_inputs())
     def one(body: dict[str, Any]) -> None:
-        r = measure("POST /api/plan", lambda: client.post("/api/plan", json=body, headers=auth), body)
-        assert r.status_code < 500, r.get_data(as_text=True)[:300]
+        assert measure("POST /api/plan", lambda: client.post("/api/plan", json=body, headers=auth), body) < 500
 
     one()
     extremes = {"thermometer_resolution": 1e-9, "thermometer_noise": 10.0, "interval": 1e-3, "fore": 1e6,
@@ -180,7 +208,6 @@ def test_runs_packages_and_command_line(world: Any) -> None:
         cases.append((rows, trials, method))
 
     sample()
-    ids = []
     for i, (rows, trials, method) in enumerate(cases):
         toml, csv, path = _run_files(d, rows, i)
         data: dict[str, Any] = {"run_file": (io.BytesIO(toml.encode()), path.name),
@@ -188,27 +215,25 @@ def test_runs_packages_and_command_line(world: Any) -> None:
                                 "monte_carlo": str(trials), "seed": "7"}
         if method:
             data["method"] = method
-        r = measure("POST /api/runs", lambda: client.post("/api/runs", data=data, headers=auth,
-                                                         content_type="multipart/form-data"), (rows, trials, method))
-        assert r.status_code < 500, r.get_data(as_text=True)[:300]
-        if r.status_code == 201:
-            ids.append(r.get_json()["id"])
+        status = measure("POST /api/runs", lambda: client.post("/api/runs", data=data, headers=auth,
+                                                              content_type="multipart/form-data"), (rows, trials, method))
+        assert status < 500
         args = ["analyze", str(path), "--monte-carlo", str(trials), "--seed", "7"] + (["--method", method]
                                                                                       if method else [])
-        out = measure("cupcal analyze", lambda: CliRunner().invoke(_cli(), args))
-        assert "internal error" not in out.output
+        assert measure("cupcal analyze", lambda: CliRunner().invoke(_cli(), args), args) < 500
     # a run over the limits is refused, cheaply
     big_toml, big_csv, _p = _run_files(d, int(limits.DEFAULTS["readings_rows"]) + 1000, 99)
     measure("POST /api/runs", lambda: client.post("/api/runs", headers=auth, content_type="multipart/form-data",
                                                  data={"run_file": (io.BytesIO(big_toml.encode()), "x.toml"),
                                                        "readings": (io.BytesIO(big_csv), "x.csv")}))
-    for run_id in ids[:4]:
+    ids = [r["id"] for r in client.get("/api/runs?per_page=4", headers=auth).get_json()["items"]]
+    for run_id in ids:
         doc = client.get(f"/api/runs/{run_id}/export/json", headers=auth).get_data()
         crate = client.get(f"/api/runs/{run_id}/export/ro-crate", headers=auth).get_data()
         for body, ctype in ((doc, "application/json"), (crate, "application/zip")):
-            r = measure("POST /api/packages", lambda: client.post("/api/packages", data=body, content_type=ctype,
-                                                                 headers=auth))
-            assert r.status_code in (201, 400, 409), r.get_data(as_text=True)[:300]
+            status = measure("POST /api/packages", lambda: client.post("/api/packages", data=body, content_type=ctype,
+                                                                      headers=auth), (run_id, ctype))
+            assert status in (201, 400, 409)
     for extra in (["--resolution", "0.000000001 K", "--noise", "10 K"], ["--interval", "0.001 s", "--after", "1000000 s"]):
         args = ["plan", "dissolution", "--formula", "KCl", "--mass", "3 g", "--water", "100 mL", "--calorimeter",
                 "18 ± 2 J/K", "--resolution", "0.01 K", *extra]
