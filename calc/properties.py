@@ -328,6 +328,10 @@ def _laliberte(kind: str, T_K: float, ws: tuple[float, ...], cas: tuple[str, ...
         return float(fn(T_K, list(ws), list(cas)))
     except KeyError:
         return math.nan  # the thermo package has no coefficients for one of the solutes
+    except (ArithmeticError, ValueError):
+        # far outside the model (no water left: 0.0 ** negative; found by command-line fuzzing of
+        # `cupcal plan`, whose suggestion scales a stock up): no value, as for a missing solute
+        return math.nan
 
 
 def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float], rows: dict) -> float:

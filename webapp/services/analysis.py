@@ -40,7 +40,6 @@ from webapp.services.errors import TooLarge
 
 #: kinds whose model needs the calorimeter's heat capacity
 NEEDS_HEAT_CAPACITY = ("dissolution", "neutralization", "reaction")
-#: most Monte Carlo trials one request may ask for
 
 _HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re.MULTILINE)
 
@@ -83,7 +82,7 @@ class AnalysisOptions:
         return self
 
 
-def invalid(exc: InputError | AnalysisError, default_field: str) -> Invalid:
+def invalid(exc: InputError | AnalysisError, default_field: str) -> Invalid | TooLarge:
     """Return the :class:`Invalid` carrying calc's message for ``exc``."""
     field = getattr(exc, "field", None) or default_field
     if isinstance(exc, LimitExceeded):
