@@ -66,7 +66,8 @@ class AnalysisOptions:
         for name, period in (("fore", self.fore), ("after", self.after)):
             if period is None:
                 continue
-            if len(period) != 2 or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in period):
+            if len(period) != 2 or not all(isinstance(x, int) and not isinstance(x, bool)
+                                           or isinstance(x, float) and math.isfinite(x) for x in period):
                 raise Invalid("expected two times in seconds, like [0, 170]", field=name)
             try:
                 check_options(0, None, **{name: period})
