@@ -12,6 +12,7 @@ import os
 from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from collections.abc import Sequence
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -19,7 +20,7 @@ import numpy as np
 from calc import __version__
 from calc.checks import Check, run_checks
 from calc.deltat.methods import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
-from calc.errors import AnalysisError, CupcalError
+from calc.errors import AnalysisError, CupcalError, InputError
 from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.uncertainty.gum import GumResult, MonteCarloResult, monte_carlo, propagate
 from calc.uncertainty.measurement_models import EQUIVALENTS, MAIN_OUTPUT, ModelSpec, Properties, build_model
@@ -28,6 +29,8 @@ from calc.io.readings import Readings, read_readings
 from calc.io.runfile import RunSpec, load_run
 from calc.refdata.solutes import STRONG_ACIDS
 from calc.deltat.logprep import PreparedLog, gap_warnings, prepare_log
+from calc import limits
+from calc.limits import require_number
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -76,6 +79,36 @@ class Analysis:
         return self.gum.values[key], self.gum.uncertainties[key], OUTPUT_UNITS[key]
 
 
+def check_options(trials: Any, seed: Any, fore: Any = None, after: Any = None) -> None:
+    """Refuse Monte Carlo trials over the limit ``monte_carlo_trials``, a seed outside 0…2³²−1, or
+    periods beyond ±10⁶ s, naming the option."""
+    require_number(trials, "Monte Carlo trials", field="monte_carlo", minimum=0, whole=True)
+    limits.require_size(trials, "monte_carlo_trials", what=f"{trials} Monte Carlo trials", field="monte_carlo")
+    if seed is not None:
+        require_number(seed, "the Monte Carlo seed", field="seed", minimum=0, maximum=2**32 - 1, whole=True)
+    for name, period in (("fore", fore), ("after", after)):
+        for end in period or ():
+            require_number(end, f"the {name} period's ends in s", field=name, minimum=-1e6, maximum=1e6)
+
+
+def confined_readings(readings: Path, folder: Path, source: str) -> Path:
+    """Return ``readings`` when it resolves inside ``folder`` (the run file's), else raise InputError.
+
+    A run file may not send the command line to read ``../../etc/passwd`` or ``/dev/zero``;
+    :func:`calc.io.readings.read_readings` then checks that it is a regular file and caps its size.
+    """
+    try:
+        target = readings.resolve()
+        inside = target.is_relative_to(folder.resolve())
+    except (OSError, ValueError, RuntimeError):  # a NUL byte in the path, a symlink loop
+        raise InputError("is not a usable path; expected a readings file beside the run file",
+                         source=source, field="readings") from None
+    if not inside:
+        raise InputError("must name a file in the run file's folder (or below it), "
+                         f"got {limits.shorten(str(readings.name))!r} outside it", source=source, field="readings")
+    return target
+
+
 def analyze_run(
     path: str | os.PathLike[str],
     *,
@@ -107,9 +140,11 @@ def analyze_run(
         When the readings cannot give a trustworthy result.
     """
     src = source or str(path)
+    check_options(monte_carlo_trials, seed)
     spec = load_run(path, source=src)
-    rsrc = os.path.join(os.path.dirname(src), str(spec.raw.get("readings")))
-    readings = read_readings(spec.readings_path, source=rsrc, column=spec.temperature_column)
+    rsrc = os.path.join(os.path.dirname(src), limits.shorten(str(spec.raw.get("readings"))))
+    readings = read_readings(confined_readings(spec.readings_path, Path(path).parent, src), source=rsrc,
+                             column=spec.temperature_column)
     return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                         with_reference=with_reference)
 
@@ -137,6 +172,7 @@ def analyze_spec(
     run file's ``[calorimeter] type``) and ``history`` (the calorimeter's earlier calibrations,
     (value, u) in J/K) feed the plausibility checks of :mod:`calc.checks`.
     """
+    check_options(monte_carlo_trials, seed, fore, after)
     if spec.kind == "dissolution-with-calibration":
         from calc.insitu import analyze_insitu
 

@@ -53,6 +53,8 @@ from calc.uncertainty.gum import BudgetLine, GumResult, propagate
 from calc.io.quantities import Measured, parse_measured
 from calc.uncertainty.measurement_models import ModelSpec, Properties, build_model
 from calc.io.runfile import RunSpec, parse_run
+from calc import limits
+from calc.limits import require_number
 
 __all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
            "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
@@ -68,6 +70,8 @@ AFTER_ADVISED_S = 300.0
 #: neutralization mixes in 2–5 s.
 DEFAULT_RELEASE_S = {k: v.release_s for k, v in PLAN_KINDS.items()}
 _SMOOTHING_S = 15.0
+#: above this noise/resolution ratio the readings' SD has its closed form (keeps the grid small)
+_SHEPPARD_RATIO = 5.0
 _MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
 
 MeasuredLike = Measured | str
@@ -184,14 +188,19 @@ def _amount(value: MeasuredLike | None, name: str, unit: str, u: float | None = 
     return m
 
 
+#: bounds of the planner's plain numbers (name → (least, greatest)); see calc.limits.PHYSICAL_BOUNDS
+_NUMBER_BOUNDS = {
+    "thermometer_resolution": limits.PHYSICAL_BOUNDS["resolution_K"], "thermometer_noise": (0.0, 10.0),
+    "temperature": (1.0, 1000.0), "interval": (1e-3, 1e5), "fore": (1.0, 1e6), "after": (1.0, 1e6),
+    "release_time": (1e-3, 1e5), "probe_time": (1e-3, 1e5), "balance_u": (0.0, 1e3), "volume_u": (0.0, 1e3),
+    "molar_enthalpy": (-1e5, 1e5),
+}
+
+
 def _number(value: float, name: str, *, positive: bool = True) -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"expected a number, got {value!r}", field=name) from None
-    if not (math.isfinite(x) and (x > 0 if positive else x >= 0)):
-        raise InputError(f"expected a number {'>' if positive else '≥'} 0, got {value!r}", field=name)
-    return x
+    low, high = _NUMBER_BOUNDS.get(name, (0.0, math.inf))
+    return require_number(value, name, field=name, minimum=low, maximum=high,
+                          exclusive_minimum=positive and low == 0.0)
 
 
 _Thermo = NamedTuple("_Thermo", [("q", float), ("sigma", float), ("phi", float), ("interval", float),
@@ -215,6 +224,10 @@ def _reading_sd(q: float, sigma: float) -> tuple[float, float]:
     u = (np.arange(32) + 0.5) / 32 * q
     if sigma <= 0:
         sd = np.zeros_like(u)
+    elif sigma > _SHEPPARD_RATIO * q:
+        # Sheppard's correction: var = σ² + q²/12, exact to within exp(−2π²σ²/q²) (< 1e-200 here);
+        # the grid below would need (q + 12σ)/q rows (a noise of 1000 K read to 0.01 K: 10⁶ rows × 32)
+        sd = np.full_like(u, math.sqrt(sigma * sigma + q * q / 12.0))
     else:
         k = np.arange(math.floor(-6 * sigma / q) - 1, math.ceil((q + 6 * sigma) / q) + 2)[:, None] * q
         p = sps.norm.cdf((k + q / 2 - u) / sigma) - sps.norm.cdf((k - q / 2 - u) / sigma)
@@ -376,8 +389,11 @@ def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggest
     if lo >= hi:
         return None
     quantity, current, unit = design.amount()
-    f_lo, _ = _solve_amount(design, lo)
-    f_hi, _ = _solve_amount(design, hi)
+    try:
+        f_lo, _ = _solve_amount(design, lo)
+        f_hi, _ = _solve_amount(design, hi)
+    except InputError:  # the amounts for the window pass the physical bounds (calc.limits): no suggestion
+        return None
     a = abs(dT)
     if lo <= a <= hi:
         rec, rec_dt = 1.0, dT
@@ -385,7 +401,10 @@ def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggest
     else:
         target = lo * 1.25 if a < lo else hi * 0.8
         target = min(max(target, lo), hi)
-        rec, rec_dt = _solve_amount(design, target)
+        try:
+            rec, rec_dt = _solve_amount(design, target)
+        except InputError:
+            return None
         why = "too small against the thermometer and the drift" if a < lo else "too large (far from room temperature)"
         msg = f"|ΔT| = {a:.2f} K is {why}: use about {current * rec:.3g} {unit} for |ΔT| ≈ {abs(rec_dt):.2f} K"
     return Suggestion(quantity, unit, current, current * f_lo, current * f_hi, current * rec, rec_dt, msg)
@@ -469,10 +488,15 @@ def plan_run(
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLANNED_KINDS)}", field="kind")
     q = _number(thermometer_resolution, "thermometer_resolution")
     sigma = _number(thermometer_noise, "thermometer_noise", positive=False)
-    if not 0.0 <= noise_correlation < 0.95:
+    if not isinstance(noise_correlation, (int, float)) or not 0.0 <= noise_correlation < 0.95:
         raise InputError(f"expected a noise correlation between 0 and 0.95, got {noise_correlation!r}",
                          field="noise_correlation")
     T0 = _number(temperature, "temperature")
+    if molar_enthalpy is not None:
+        molar_enthalpy = _number(molar_enthalpy, "molar_enthalpy", positive=False)
+    for name, value in (("balance_u", balance_u), ("volume_u", volume_u)):
+        if value is not None:
+            _number(value, name, positive=False)
     tau_r = DEFAULT_RELEASE_S[kind] if release_time is None else release_time
     th = _Thermo(q, sigma, float(noise_correlation), *(_number(v, n) for v, n in (
         (interval, "interval"), (fore, "fore"), (after, "after"), (tau_r, "release_time"), (probe_time, "probe_time"))))
@@ -498,8 +522,9 @@ def plan_run(
     window = (max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q), MAX_DELTA_T_K)
     if delta_t_window is not None:
         window = (float(delta_t_window[0]), float(delta_t_window[1]))
-        if not 0 < window[0] < window[1]:
-            raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r}", field="delta_t_window")
+        if not 0 < window[0] < window[1] <= 1000.0:
+            raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r} (at most 1000 K)",
+                             field="delta_t_window")
     warnings = _warnings(design, ev, gum, window)
     suggestion = _suggest(design, dT, window)
     equipment = _equipment(gum.budget)

@@ -38,7 +38,11 @@ DEFAULTS: dict[str, Any] = {
     "CUPCAL_HTTPS": False,  # True (or env CUPCAL_HTTPS=1) behind HTTPS: Secure session cookie, HSTS (webapp/security.py)
     "EMBED_FRAME_ANCESTORS": "'self'",  # CSP frame-ancestors of the /embed/ routes only, e.g. "https://eln.example"
     "EMBED_LINK_MAX_AGE": 7 * 24 * 3600,  # seconds a signed card link stays valid
-    "TRUST_PROXY_USER_HEADER": None,  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
+    "TRUST_PROXY_USER_HEADER": None,
+    # overrides of calc.limits (README, "Limits"), e.g. {"monte_carlo_trials": 20_000}; same keys as CUPCAL_LIMITS
+    "LIMITS": {},
+    "WEBHOOK_REQUIRE_HTTPS": None,  # None: required when CUPCAL_HTTPS is on (production); True/False to force
+    "WEBHOOK_ALLOW_PRIVATE": False,  # tests only: let a webhook reach a local receiver (never in production)  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
 }
 
 
@@ -83,6 +87,17 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.mounting import init_proxy_user
     from webapp.services import webhooks
 
+    from calc import limits as calc_limits
+
+    try:
+        app.config["LIMITS"] = calc_limits.checked(app.config.get("LIMITS") or {})
+    except calc_limits.InputError as exc:
+        raise RuntimeError(f"cupcal configuration: {exc}") from None
+    trials = int(app.config["MONTE_CARLO_TRIALS"])
+    if trials > {**calc_limits.DEFAULTS, **app.config["LIMITS"]}["monte_carlo_trials"]:
+        raise RuntimeError("cupcal configuration: MONTE_CARLO_TRIALS is over the limit monte_carlo_trials")
+    app.before_request(lambda: calc_limits.set_for_context(app.config["LIMITS"]))
+    app.before_request(_no_nul_in_text)
     app.url_value_preprocessor(_ids_in_range)
     db.init_app(app)
     auth.init_app(app)
@@ -103,6 +118,26 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app
+
+
+#: endpoints that take a bulk import, whose own size limit (IMPORT_MAX_UPLOAD_BYTES) must be set before
+#: anything reads the body (the check below reads the form)
+_IMPORT_ENDPOINTS = frozenset({"api.import_runs_route", "api.import_eln_route"})
+
+
+def _no_nul_in_text() -> None:
+    """Refuse NUL in query and form values before any view reads them (PostgreSQL cannot store it)."""
+    from flask import current_app
+    from flask import request
+
+    from webapp.imports.views import IMPORT_MAX_UPLOAD_BYTES
+    from webapp.services.jsontext import refuse_nul_in_form
+
+    if request.blueprint == "imports" or request.endpoint in _IMPORT_ENDPOINTS:
+        request.max_content_length = int(current_app.config.get("IMPORT_MAX_UPLOAD_BYTES", IMPORT_MAX_UPLOAD_BYTES))
+    refuse_nul_in_form(request.args)
+    if request.mimetype in ("multipart/form-data", "application/x-www-form-urlencoded"):
+        refuse_nul_in_form(request.form)
 
 
 def _ids_in_range(_endpoint: str | None, values: dict[str, Any] | None) -> None:

@@ -11,6 +11,8 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
+from calc.errors import CupcalError
+from calc.limits import LimitExceeded
 from flask import Flask
 from flask import Response
 from flask import jsonify
@@ -83,6 +85,15 @@ def init_app(app: Flask) -> None:
     def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
         return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
                                     "saved. Reload it, then make your change again"))
+    @app.errorhandler(CupcalError)
+    def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]
+        # a limit of calc.limits passed (413) or other bad input that calc found (400)
+        status = 413 if isinstance(exc, LimitExceeded) else 400
+        field = getattr(exc, "field", None)
+        _roll_back_request_session()
+        if wants_json():
+            return json_error(status, str(exc), field)
+        return _page_error(status, "Too large" if status == 413 else "That did not work", str(exc))
 
     @app.errorhandler(CSRFError)
     def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]
@@ -98,8 +109,14 @@ def init_app(app: Flask) -> None:
     def _http_error(exc: HTTPException):  # type: ignore[no-untyped-def]
         status = exc.code or 500
         if wants_json():
-            return json_error(status, exc.description or exc.name)
-        return _page_error(status, exc.name, exc.description or "")
+            response, status = json_error(status, exc.description or exc.name)
+        else:
+            page, status = _page_error(status, exc.name, exc.description or "")
+            response = Response(page, status=status, mimetype="text/html")
+        for name, value in exc.get_headers():  # e.g. Allow of a 405 (RFC 9110, 15.5.6)
+            if name.lower() != "content-type":
+                response.headers[name] = value
+        return response, status
 
     @app.errorhandler(sa.exc.OperationalError)
     @app.errorhandler(sa.exc.InterfaceError)

@@ -237,6 +237,8 @@ class Run(Base):
     locked_at: so.Mapped[Optional[dt.datetime]]
     #: SHA-256 of the run file and the readings as imported in bulk (re-import changes nothing)
     content_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
+    #: the one-time token of the page form that saved the run (a double submit saves one run)
+    submit_token: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
     bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
     #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
     version: so.Mapped[int] = so.mapped_column(default=1, server_default="1")
@@ -532,3 +534,12 @@ class MarkingScheme(Base):
     bands: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON)
     updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     updated_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+class SignInFailure(Base):
+    """A failed sign-in: the e-mail address tried and the client address (for throttling)."""
+
+    __tablename__ = "sign_in_failures"
+
+    id: so.Mapped[int] = so.mapped_column(primary_key=True)
+    email: so.Mapped[str] = so.mapped_column(sa.String(254), index=True)
+    address: so.Mapped[str] = so.mapped_column(sa.String(64), index=True)
+    at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)

@@ -18,7 +18,7 @@ __all__ = ["analyze", "methods"]
 
 
 @click.command()
-@click.argument("runs", nargs=-1, required=True, type=click.Path(dir_okay=False))
+@click.argument("runs", nargs=-1, required=True)  # plain text: load_run names every unreadable path
 @click.option(
     "--method",
     type=click.Choice(sorted(METHODS)),
@@ -28,17 +28,24 @@ __all__ = ["analyze", "methods"]
 @click.option(
     "--monte-carlo",
     "trials",
-    type=click.IntRange(min=0),
+    type=int,
     default=100_000,
     show_default=True,
-    help="Monte Carlo trials for the JCGM 101 check; 0 turns it off.",
+    help="Monte Carlo trials for the JCGM 101 check; 0 turns it off (at most the limit monte_carlo_trials).",
 )
 @click.option("--seed", type=int, default=None, help="Seed of the Monte Carlo generator.")
 @click.option("--json", "as_json", is_flag=True, help="One JSON object per line and per input.")
 def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | None, as_json: bool) -> None:
     """Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."""
-    from calc.analysis import analyze_run
+    from calc.analysis import analyze_run, check_options
     from calc.report import error_record, format_report, to_record
+
+    try:
+        check_options(trials, seed)  # once, as one line, before any file
+    except CupcalError as exc:
+        option = {"monte_carlo": "--monte-carlo", "seed": "--seed"}.get(getattr(exc, "field", None) or "", "option")
+        click.echo(f"cupcal analyze: error: {option}: {exc.message}", err=True)
+        sys.exit(2)
 
     failed = 0
     out = sys.stdout

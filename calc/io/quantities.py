@@ -256,7 +256,16 @@ def parse_measured(
         return Measured(value, default_uncertainty(number), "", "rectangular", number)
     if text is None:
         raise _error("the entry is missing", expected, field, source)
-    raise _error(f"got a {type(text).__name__} ({text!r})", expected, field, source)
+    raise _error(f"got a {type(text).__name__} ({_shown(text)})", expected, field, source)
+
+
+def _shown(value: object) -> str:
+    """Return the repr of ``value`` cut to a few dozen characters (a list may be huge)."""
+    try:
+        text = repr(value)
+    except (RecursionError, ValueError):
+        return "(too large to show)"
+    return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _build(

@@ -37,11 +37,13 @@ when the unit is °C (looks like kelvin), a median below 150 when the unit is K
 from __future__ import annotations
 
 import os
+import stat
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
+from calc import limits
 from calc.errors import InputError
 from calc.io.logger_formats import normalise_export
 
@@ -165,13 +167,17 @@ def read_readings(
         If the file cannot be read, is not text, or fails a check of :func:`parse_readings`.
     """
     name = source if source is not None else os.fspath(path)
+    cap = int(limits.get("readings_bytes"))
     try:
         with open(path, "rb") as handle:
-            data = handle.read()
+            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
+                raise InputError("is not a regular file; expected a CSV thermometer log", source=name)
+            data = handle.read(cap + 1)
     except FileNotFoundError:
         raise InputError("file not found; expected a CSV thermometer log", source=name) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror})", source=name) from None
+    except (OSError, ValueError) as exc:  # ValueError: a NUL byte in the path
+        raise InputError(f"cannot read the file ({getattr(exc, 'strerror', None) or exc})", source=name) from None
+    limits.require_size(len(data), "readings_bytes", what="the readings file", source=name)
     if b"\x00" in data:
         message = "this is not a text file (it contains NUL bytes); expected a CSV log"
         raise InputError(message, source=name)
@@ -205,7 +211,10 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
         Naming the line and what was expected, for the problems listed in the module
         docstring.
     """
+    limits.require_size(len(text), "readings_bytes", what=f"the readings file ({len(text)} characters)",
+                        source=source)
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()
+    limits.require_size(len(lines), "readings_rows", what=f"the readings file ({len(lines)} lines)", source=source)
     export = normalise_export(lines, column, source)  # instrument exports, line for line
     if export is not None:
         lines = export.lines
@@ -214,7 +223,8 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
         message = f"the file is empty; expected {_EXPECTED_HEADER} and at least "
         raise InputError(message + f"{MIN_READINGS} readings", source=source)
     layout = _read_layout(lines[first], first, source)
-    parsed = _parse_fast(lines, layout) or _parse_careful(lines, layout, source)
+    long_lines = max(map(len, lines)) > 3 * limits.get("cell_chars") + 8  # a cell may be over the limit
+    parsed = (None if long_lines else _parse_fast(lines, layout)) or _parse_careful(lines, layout, source)
     return _checked(*parsed, layout, source)
 
 
@@ -252,7 +262,7 @@ def _read_layout(line: str, index: int, source: str) -> _Layout:
     number = index + 1
     if len(cells) < 2:
         message = (
-            f"could not read the first line {cells[0]!r} as a header or as two numbers; "
+            f"could not read the first line {limits.shorten(cells[0])!r} as a header or as two numbers; "
             f"expected {_EXPECTED_HEADER}, or two numeric columns (time in s, temperature "
             "in °C) separated by ',', ';' or a tab"
         )
@@ -261,7 +271,7 @@ def _read_layout(line: str, index: int, source: str) -> _Layout:
     kind1, unit1 = _header_cell(cells[1], "second", source, number)
     if (kind0, kind1) != ("time", "temperature"):
         message = (
-            f"the header names {kind0} ({cells[0]!r}) then {kind1} ({cells[1]!r}); "
+            f"the header names {kind0} ({limits.shorten(cells[0])!r}) then {kind1} ({limits.shorten(cells[1])!r}); "
             "expected time in the first column and temperature in the second"
         )
         raise InputError(message, source=source, line=number)
@@ -282,12 +292,12 @@ def _header_cell(cell: str, column: str, source: str, line: int) -> tuple[str, s
         name, _, unit = cell.partition("/") if "/" in cell else cell.rpartition("_")
         name, unit = name.strip(), unit.strip()
     else:
-        message = f"the header cell {cell!r} ({column} column) gives no unit; expected "
+        message = f"the header cell {limits.shorten(cell)!r} ({column} column) gives no unit; expected "
         raise InputError(message + _EXPECTED_HEADER, source=source, line=line)
     key = unit.lower()
     kind = "time" if key in _TIME_UNITS else "temperature" if key in _TEMPERATURE_UNITS else ""
     if not kind:
-        message = f"unknown unit {unit!r} in the header cell {cell!r} ({column} column)"
+        message = f"unknown unit {unit!r} in the header cell {limits.shorten(cell)!r} ({column} column)"
         raise InputError(f"{message}; expected {_UNITS_HELP}", source=source, line=line)
     named = {"t": "time", "T": "temperature"}.get(name)
     if named is None:
@@ -295,7 +305,7 @@ def _header_cell(cell: str, column: str, source: str, line: int) -> tuple[str, s
         named = "time" if lowered in _TIME_NAMES else None
         named = "temperature" if lowered in _TEMPERATURE_NAMES else named
     if named is not None and named != kind:
-        message = f"the header cell {cell!r} names a {named} but gives the {kind} unit {unit!r}"
+        message = f"the header cell {limits.shorten(cell)!r} names a {named} but gives the {kind} unit {unit!r}"
         raise InputError(f"{message}; expected {_UNITS_HELP}", source=source, line=line)
     return kind, key
 
@@ -351,9 +361,12 @@ def _parse_careful(lines: list[str], layout: _Layout, source: str) -> _Parsed:
             continue
         line = index + 1
         cells = _cells(lines[index], delimiter)
+        for cell in cells:
+            limits.require_size(len(cell), "cell_chars", what=f"the cell {limits.shorten(cell)!r} "
+                                f"({len(cell)} characters)", source=source, line=line)
         if len(cells) < 2:
             shown = {"\t": "a tab", ";": "';'", ",": "','"}[delimiter]
-            message = f"found 1 cell ({cells[0]!r}); expected 2 cells, time and temperature, "
+            message = f"found 1 cell ({limits.shorten(cells[0])!r}); expected 2 cells, time and temperature, "
             raise InputError(message + f"separated by {shown}", source=source, line=line)
         if len(cells) > most:
             if layout.columns is None:
@@ -384,18 +397,18 @@ def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
     if layout.seconds_per_unit is None:
         clock = _CLOCK_RE.fullmatch(cell.replace(",", ".") if layout.delimiter != "," else cell)
         if clock is None:
-            message = f"the time cell {cell!r} is not a clock time; expected {unit} like '3:05'"
+            message = f"the time cell {limits.shorten(cell)!r} is not a clock time; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
         sign, hours, minutes, seconds = clock.groups()
         if float(seconds) >= 60 or (hours is not None and float(minutes) >= 60):
-            message = f"the time cell {cell!r} is not a valid clock time; expected {unit} "
+            message = f"the time cell {limits.shorten(cell)!r} is not a valid clock time; expected {unit} "
             message += "with minutes and seconds below 60"
             raise InputError(message, source=source, line=line)
         # float(), not int(): int() refuses more than 4300 digits and a huge int
         # overflows when mixed with floats (found by the hostile-input tests).
         value = 3600.0 * float(hours or 0) + 60.0 * float(minutes) + float(seconds)
         if not np.isfinite(value):
-            message = f"the time cell {cell!r} is too large; expected {unit} like '3:05'"
+            message = f"the time cell {limits.shorten(cell)!r} is too large; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
         return -value if sign == "-" else value
     value = _number(cell, layout.delimiter)
@@ -403,7 +416,7 @@ def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
         return value * layout.seconds_per_unit
     if _CLOCK_RE.fullmatch(cell):
         said = "file has no header" if layout.header_line is None else f"header says {unit}"
-        message = f"the time cell {cell!r} is a clock time but the {said}; expected a time in "
+        message = f"the time cell {limits.shorten(cell)!r} is a clock time but the {said}; expected a time in "
         message += f"{unit}, or 'time (mm:ss)' in the header"
     else:
         message = _not_a_number("time", cell, f"a time in {unit} like '12.5'")
@@ -425,8 +438,8 @@ def _not_a_number(column: str, cell: str, expected: str) -> str:
     if not cell:
         return f"the {column} cell is empty; expected {expected}"
     if _NONFINITE_RE.fullmatch(cell) or _NUMBER_RE.fullmatch(cell.replace(",", ".")):
-        return f"the {column} cell {cell!r} is not finite (NaN or infinity); expected {expected}"
-    return f"the {column} cell {cell!r} is not a number; expected {expected}"
+        return f"the {column} cell {limits.shorten(cell)!r} is not finite (NaN or infinity); expected {expected}"
+    return f"the {column} cell {limits.shorten(cell)!r} is not a number; expected {expected}"
 
 
 def _checked(

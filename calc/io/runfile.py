@@ -8,16 +8,20 @@ dimensioned fields with a message that names the field and what was expected.
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import math
 import os
+import stat
 import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from calc import limits
 from calc.errors import InputError
+from calc.limits import require_number
 from calc.io.quantities import Measured, parse_measured
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
@@ -38,13 +42,14 @@ KINDS = (
 #  "s"   free string
 #  "f"   chemical formula (string)
 #  "i"   positive integer
+#  "d"   a date (or date and time) in ISO 8601, as a string or a TOML date
 Field = tuple[str, str | None, bool]
 
 _INFO: dict[str, Field] = {
     "title": ("s", None, False),
     "operator": ("s", None, False),
     "bench": ("s", None, False),
-    "date": ("s", None, False),
+    "date": ("d", None, False),
     "notes": ("s", None, False),
     "sample": ("s", None, False),
     "group": ("s", None, False),
@@ -211,8 +216,14 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
     """
     p = Path(path)
     src = source or str(path)
+    cap = int(limits.get("run_file_bytes"))
     try:
-        text = p.read_text(encoding="utf-8-sig")
+        with open(p, "rb") as handle:
+            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
+                raise InputError("is not a regular file; expected a run file (.toml)", source=src)
+            data = handle.read(cap + 1)
+        limits.require_size(len(data), "run_file_bytes", what="the run file", source=src)
+        text = data.decode("utf-8-sig")
     except FileNotFoundError:
         raise InputError("file not found", source=src) from None
     except IsADirectoryError:
@@ -221,11 +232,14 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
         raise InputError("is not UTF-8 text; expected a TOML run file", source=src) from None
     except OSError as exc:
         raise InputError(f"cannot be read ({exc.strerror})", source=src) from None
+    except ValueError:  # a NUL byte in the path
+        raise InputError("is not a usable path (it contains a NUL byte)", source=limits.shorten(repr(src))) from None
     return parse_run(text, source=src, base_dir=p.parent, path=p)
 
 
 def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Path | None = None) -> RunSpec:
     """Validate run-file text; ``base_dir`` resolves the readings path."""
+    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -396,6 +410,8 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
             raise InputError(f"the text is {len(value):,} characters long; at most {limit:,} are allowed",
                              source=source, field=dotted)
         return value
+    if kind == "d":
+        return iso_date(value, dotted, source)
     if kind == "f":
         if not isinstance(value, str) or not value.strip():
             raise InputError("expected a chemical formula such as 'KCl'", source=source, field=dotted)
@@ -406,6 +422,9 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
     if kind == "i":
         if isinstance(value, bool) or not isinstance(value, int) or value < 1:
             raise InputError("expected a positive whole number", source=source, field=dotted)
+        top = limits.get("equivalents")
+        require_number(value, f"at most {top:g} (limit equivalents)", field=dotted, source=source,
+                       minimum=1, maximum=top)
         return value
     if kind == "n":
         return parse_measured(value, field=dotted, expected="", source=source)
@@ -421,11 +440,50 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
         v = m.value * factor
         if not (v > 0 and math.isfinite(v)):
             raise InputError(f"expected a positive resolution, got '{m.text}'", source=source, field=dotted)
+        low, high = limits.bounds_for_unit("resolution_K")
+        require_number(v, f"a resolution in K (physical bounds) in '{limits.shorten(m.text)}'", field=dotted,
+                       source=source, minimum=low, maximum=high)
         return v
     m = parse_measured(value, field=dotted, expected=unit or "", source=source)
     if unit not in ("K",) and m.value <= 0 and not dotted.endswith("heat_capacity"):
         raise InputError(f"expected a positive value, got '{m.text}'", source=source, field=dotted)
+    _within_bounds(m, unit or "", dotted, source)
     return m
+
+
+def _within_bounds(m: Measured, unit: str, dotted: str, source: str) -> None:
+    """Refuse a value or uncertainty beyond the physical bounds of its unit (calc.limits.PHYSICAL_BOUNDS)."""
+    low, high = limits.bounds_for_unit(unit)
+    if not math.isfinite(high):
+        return
+    value, u = m.m_as(unit), m.u_as(unit)
+    what = f"a value in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'"
+    require_number(value, what, field=dotted, source=source, minimum=low, maximum=high)
+    require_number(u, f"an uncertainty in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'",
+                   field=dotted, source=source, minimum=0, maximum=high - low)
+
+
+def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -> str:
+    """Return a date (or date and time) written in ISO 8601 as its text; anything else is an InputError.
+
+    ``2025-03-13``, ``2025-03-13T14:05``, ``2025-03-13 14:05:00+01:00`` and a TOML date are taken;
+    ``yesterday``, ``13/03/2025`` and ``March 13`` are refused (ISO 8601-1:2019, extended format).
+    """
+    if isinstance(value, (dt.date, dt.datetime)):
+        return value.isoformat()
+    if isinstance(value, str) and len(value) <= 40 and value.isascii() and _ISO_DATE_RE.match(value.strip()):
+        text = value.strip()
+        try:
+            (dt.date.fromisoformat if len(text) == 10 else dt.datetime.fromisoformat)(text)
+            return text
+        except ValueError:
+            pass
+    shown = limits.shorten(value if isinstance(value, str) else repr(value))
+    raise InputError(f"expected a date in ISO 8601 like 2025-03-13 (or 2025-03-13T14:05), got {shown!r}",
+                     source=source, field=dotted)
+
+
+_ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,6})?)?(?:Z|[+-]\d{2}:\d{2})?)?$")
 
 
 def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:

@@ -15,6 +15,7 @@ from functools import lru_cache
 
 import molmass
 
+from calc import limits
 from calc.errors import InputError
 
 __all__ = ["HYDRATE_DOTS", "normalise", "molar_mass", "element_counts", "element_composition",
@@ -68,10 +69,36 @@ def molar_mass(formula: str, *, field: str | None = None, source: str | None = N
     InputError
         When the formula cannot be read.
     """
-    mass = float(_formula(formula, field, source).mass)
+    if isinstance(formula, str):
+        limits.require_size(len(formula), "formula_chars", what=f"the formula of {len(formula)} characters",
+                            field=field, source=source)
+    parsed = _formula(formula, field, source)
+    mass = float(parsed.mass)
     if not math.isfinite(mass) or mass <= 0:
         raise InputError(f"the formula '{formula}' has no mass", field=field, source=source)
+    counts = {item.symbol: int(item.count) for item in parsed.composition().values()}
+    _check_size(formula, counts, mass, field, source)
     return mass
+
+
+def _check_size(formula: str, counts: dict[str, int], mass: float, field: str | None, source: str | None) -> None:
+    """Refuse a formula beyond the limits formula_count, formula_atoms and molar_mass (calc.limits)."""
+    shown = limits.shorten(formula)
+    for symbol, count in counts.items():
+        if count > limits.get("formula_count"):
+            raise InputError(f"the formula '{shown}' has {_many(count)} atoms of {symbol}; at most "
+                             f"{limits.get('formula_count'):g} (limit formula_count)", field=field, source=source)
+    total = sum(counts.values())
+    if total > limits.get("formula_atoms"):
+        raise InputError(f"the formula '{shown}' has {_many(total)} atoms; at most "
+                         f"{limits.get('formula_atoms'):g} (limit formula_atoms)", field=field, source=source)
+    if mass > limits.get("molar_mass"):
+        raise InputError(f"the formula '{shown}' has a molar mass of {mass:.4g} g/mol; at most "
+                         f"{limits.get('molar_mass'):g} g/mol (limit molar_mass)", field=field, source=source)
+
+
+def _many(n: int) -> str:
+    return str(n) if n < 10**30 else "more than 10^30"
 
 
 def element_counts(formula: str, *, field: str | None = None) -> dict[str, int]:

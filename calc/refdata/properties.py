@@ -258,11 +258,18 @@ def _laliberte_row(formula: str) -> laliberte.LaliberteRow | None:
 
 @lru_cache(maxsize=4096)
 def _laliberte(kind: str, T_K: float, fractions: tuple[tuple[laliberte.LaliberteRow, float], ...]) -> float:
-    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)), cached on rounded inputs."""
+    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)), cached on rounded inputs.
+
+    Far outside the model (no water left, found by command-line fuzzing) the equations divide by zero
+    or overflow: that gives no value (NaN) and the caller falls back, never an internal error.
+    """
     t_c = T_K - 273.15
-    if kind == "density":
-        return laliberte.density(t_c, dict(fractions))
-    return laliberte.specific_heat(t_c, dict(fractions), 1000.0 * water_specific_heat(T_K).value)
+    try:
+        if kind == "density":
+            return laliberte.density(t_c, dict(fractions))
+        return laliberte.specific_heat(t_c, dict(fractions), 1000.0 * water_specific_heat(T_K).value)
+    except (ArithmeticError, ValueError):
+        return math.nan
 
 
 def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],

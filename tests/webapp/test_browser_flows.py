@@ -180,7 +180,7 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     table = d.find_element(*_by("table.runs")).text
     assert "Wren 1" in table and "Wren 3" in table
     run_link = d.find_element(*_by("table.runs tbody tr td a"))
-    run_id = int(run_link.text)
+    run_id = int(run_link.get_attribute("href").rstrip("/").split("/")[-1])
     # exclude a run, with a reason
     d.get(f"{server}/runs/{run_id}")
     _fill(d, "#reason-exclude", "the stirrer stopped half way (lab notes)")
@@ -193,6 +193,7 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     assert "Comment saved" in _flash(d)
     d.get(f"{server}/classes/sections/{section_id}/dashboard")
     box = next(e for e in d.find_elements(*_by("textarea[id^=group-comment-]")))
+    box.find_element("xpath", "./ancestor::details/summary").click()  # each group's feedback opens on a click
     box.send_keys("Wren groups: weigh by difference next week.")
     _click(d, f"#{box.get_attribute('id')} ~ button")
     assert "Comment saved" in _flash(d)
@@ -204,7 +205,8 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     _click(d, "main form button[type=submit]")
     assert "Marking scheme saved" in _flash(d)
     d.get(f"{server}/classes/sections/{section_id}/dashboard")
-    ids = [int(a.text) for a in d.find_elements(*_by("table.runs tbody tr td:first-child a"))]
+    ids = [int(a.get_attribute("href").rstrip("/").split("/")[-1])
+           for a in d.find_elements(*_by("table.runs tbody tr td:first-child a"))]
     marked = next(i for i in ids if i != run_id)
     d.get(f"{server}/runs/{marked}")
     assert re.search(r"Mark: \d+ points \(scheme", d.find_element(*_by("#mark")).text)

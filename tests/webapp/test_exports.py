@@ -9,7 +9,7 @@ from typing import Any
 
 from openpyxl import load_workbook
 
-from tests.webapp.test_dashboard import build_section
+from tests.webapp.class_fixtures import build_section
 from webapp.models import Run
 from webapp.services.exports import neutralise
 

@@ -223,3 +223,107 @@ def test_missing_groups_are_created_from_info_group_when_asked(session: Any, lab
     assert {"N21", "N22"} <= names and "N23" not in names
     assert session.scalar(sa.select(sa.func.count()).select_from(AuditEntry).where(
         AuditEntry.entity == "group", AuditEntry.field == "created")) == 2
+# ----------------------------------------------------------------- issue 12: duplicates, totals, races
+
+
+def test_duplicate_entry_names_are_refused_one_report_line_each(session: Any, lab: Any, tmp_path: Path) -> None:
+    cl = make_class(session, lab.ids["coord"])
+    coord = session.get(Person, lab.ids["coord"])
+    d = tmp_path / "dup"
+    simulated_run(d, "M01-run1", 1)
+    simulated_run(d, "M02-run1", 2)
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as zf:
+        for p in sorted(d.iterdir()):
+            zf.write(p, p.name)
+        import warnings
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # zipfile warns about a duplicate name: that is the attack
+            zf.writestr("M01-run1.toml", "kind = 'dissolution'\n")  # a second M01-run1.toml
+            zf.writestr("./M02-run1.csv", "time_s,temperature_C\n")  # the same name after normalising
+    files = files_from_zip(buf.getvalue())
+    assert files.duplicates == {"M01-run1.toml": 2, "M02-run1.csv": 2}
+    report = import_files(session, coord, cl.section_id, files)
+    by = {i.file: i for i in report.items}
+    assert by["M01-run1.toml"].outcome == "error" and "2 entries" in by["M01-run1.toml"].message
+    assert by["M02-run1.csv"].outcome == "error" and "2 entries" in by["M02-run1.csv"].message
+    assert by["M02-run1.toml"].outcome == "error" and "more than once" in by["M02-run1.toml"].message
+    assert [i.file for i in report.items].count("M01-run1.toml") == 1
+    assert _counts(session)[0] == 0
+
+
+def test_a_readings_file_shared_by_many_runs_counts_once_per_use(session: Any, lab: Any, tmp_path: Path) -> None:
+    from calc import limits
+    from calc.limits import LimitExceeded
+
+    cl = make_class(session, lab.ids["coord"])
+    coord = session.get(Person, lab.ids["coord"])
+    d = tmp_path / "shared"
+    simulated_run(d, "M01-run1", 1)
+    toml = (d / "M01-run1.toml").read_text(encoding="utf-8")
+    size = (d / "M01-run1.csv").stat().st_size
+    for i in range(2, 12):
+        (d / f"M01-run{i}.toml").write_text(toml.replace("title = ", f"# copy {i}\ntitle = "), encoding="utf-8")
+    files = files_from_zip(zip_folder(d))
+    with limits.use({"import_total_bytes": 5 * size}):  # 11 uses of the log: over; the zip holds it once
+        with pytest.raises(LimitExceeded) as err:
+            import_files(session, coord, cl.section_id, files)
+    assert "import_total_bytes" in str(err.value)
+    assert _counts(session)[0] == 0
+    with limits.use({"import_files": 3}):
+        with pytest.raises(LimitExceeded, match="import_files"):
+            import_files(session, coord, cl.section_id, files)
+
+
+def test_the_limit_answers_413_through_the_api(client: Any, lab: Any, session: Any, app: Any,
+                                              tmp_path: Path) -> None:
+    cl = make_class(session, lab.ids["coord"])
+    d = tmp_path / "api"
+    simulated_run(d, "M01-run1", 1)
+    for i in range(2, 5):
+        (d / f"M01-run{i}.toml").write_text((d / "M01-run1.toml").read_text(encoding="utf-8") + f"\n# {i}\n",
+                                            encoding="utf-8")
+    app.config["LIMITS"] = {"import_files": 2}
+    r = client.post(f"/api/sections/{cl.section_id}/imports", headers=lab.auth("coord"),
+                    data={"archive": (io.BytesIO(zip_folder(d)), "runs.zip")}, content_type="multipart/form-data")
+    assert r.status_code == 413 and "import_files" in r.get_json()["error"]
+
+
+def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(app: Any, lab: Any, session: Any,
+                                                                              tmp_path: Path,
+                                                                              monkeypatch: pytest.MonkeyPatch) -> None:
+    import threading
+
+    from webapp.db import new_session
+    from webapp.services import imports
+
+    cl = make_class(session, lab.ids["coord"])
+    d = tmp_path / "race"
+    simulated_run(d, "M01-run1", 1)
+    files = files_from_folder(d)
+    barrier = threading.Barrier(2, timeout=30)
+    real = imports.record_run
+
+    def both_past_the_hash_check(*args: Any, **kwargs: Any) -> Any:
+        barrier.wait()  # both imports have looked for the content hash and found nothing
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(imports, "record_run", both_past_the_hash_check)
+    reports: list[Any] = []
+
+    def run() -> None:
+        s = new_session(app)
+        try:
+            reports.append(import_files(s, s.get(Person, lab.ids["coord"]), cl.section_id, files))
+        finally:
+            s.close()
+
+    threads = [threading.Thread(target=run) for _ in range(2)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(60)
+    outcomes = sorted(r.items[0].outcome for r in reports)
+    assert outcomes == ["stored", "unchanged"], [(i.outcome, i.message) for r in reports for i in r.items]
+    assert _counts(session)[0] == 1

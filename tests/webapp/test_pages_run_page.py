@@ -16,7 +16,7 @@ import sqlalchemy as sa
 from tests.webapp.conftest import csrf_token
 from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
-from tests.webapp.test_pages_runs import counts
+from tests.webapp.page_helpers import counts
 from webapp.models import Result
 from webapp.plot_cache import PlotCache
 from webapp.plot_cache import plot_cache

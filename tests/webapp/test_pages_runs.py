@@ -22,77 +22,18 @@ from calc.io.runfile import REQUIRED_SECTIONS
 from calc.io.runfile import SCHEMA
 from calc.io.runfile import parse_run
 
+from tests.webapp.page_helpers import counts
+from tests.webapp.page_helpers import form_from_demo
+from tests.webapp.page_helpers import post_form
+from tests.webapp.page_helpers import hidden
+from tests.webapp.page_helpers import field_row
 from tests.webapp.conftest import DEMO
 from tests.webapp.conftest import csrf_token
 from tests.webapp.conftest import demo_files
 from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import without_heat_capacity
-from webapp.models import Result
 from webapp.models import Run
 from webapp.plot_cache import plot_cache
-
-_MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")
-
-
-def counts(session: Any) -> tuple[int, int]:
-    """Return the numbers of stored runs and results."""
-    session.expire_all()
-    return (session.scalar(sa.select(sa.func.count()).select_from(Run)),
-            session.scalar(sa.select(sa.func.count()).select_from(Result)))
-
-
-def form_from_demo(name: str, calorimeter_id: int | None = None) -> dict[str, Any]:
-    """Return the form fields a person would type for a demo run file (value, ± u, unit apart)."""
-    data = tomllib.loads((DEMO / f"{name}.toml").read_text(encoding="utf-8"))
-    form: dict[str, Any] = {}
-    for key, value in data.items():
-        if key == "mixing_time":
-            m = _MEASURED.match(value)
-            assert m
-            form.update({"mixing_time": m["v"], "mixing_time.u": m["u"] or "", "mixing_time.unit": m["unit"]})
-        if not isinstance(value, dict):
-            continue
-        for field, v in value.items():
-            dotted = f"{key}.{field}"
-            if dotted == "calorimeter.name":
-                continue
-            kind = SCHEMA[data["kind"]][key][field][0]
-            if kind in ("q", "dq", "n"):
-                m = _MEASURED.match(str(v))
-                assert m, v
-                form[dotted] = m["v"]
-                if kind != "dq":
-                    form[dotted + ".u"] = m["u"] or ""
-                if kind != "n":
-                    form[dotted + ".unit"] = m["unit"]
-            else:
-                form[dotted] = str(v)
-    if calorimeter_id is not None:
-        form["calorimeter_id"] = str(calorimeter_id)
-    return form
-
-
-def post_form(client: Any, kind: str, fields: dict[str, Any], *, csv: bytes | None, csv_name: str = "run.csv",
-              action: str = "preview", extra: dict[str, str] | None = None) -> Any:
-    token = csrf_token(client.get(f"/runs/new/{kind}").get_data(as_text=True))
-    data: dict[str, Any] = {**fields, "csrf_token": token, "action": action, **(extra or {})}
-    if csv is not None:
-        data["readings"] = (io.BytesIO(csv), csv_name)
-    return client.post(f"/runs/new/{kind}", data=data, content_type="multipart/form-data")
-
-
-def hidden(html: str, name: str) -> str:
-    m = re.search(rf'name="{re.escape(name)}" value="([^"]*)"', html)
-    assert m, f"no hidden field {name}"
-    return m.group(1)
-
-
-def field_row(html: str, html_id: str) -> str:
-    """Return the HTML of one field's row (its inputs, hint and error)."""
-    start = html.index(f'id="{html_id}-row"')
-    end = html.find('class="field-row', start + 10)
-    return html[start:end if end > 0 else len(html)]
-
 
 # ---------------------------------------------------------------- the form of each kind
 
@@ -236,7 +177,7 @@ def test_save_stores_the_run_file_built_from_the_fields(client: Any, lab: Any, s
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     preview = post_form(client, "dissolution", fields, csv=csv, csv_name="diss-kcl-01.csv").get_data(as_text=True)
     # save without sending the file again: the preview carries it
-    carried = {"previewed": hidden(preview, "previewed"), "readings_packed": hidden(preview, "readings_packed"),
+    carried = {"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token"), "readings_packed": hidden(preview, "readings_packed"),
                "readings_name": hidden(preview, "readings_name")}
     r = post_form(client, "dissolution", fields, csv=None, action="save", extra=carried)
     assert r.status_code == 302, r.get_data(as_text=True)[:2000]
@@ -272,7 +213,7 @@ def test_save_stores_only_what_was_previewed(client: Any, lab: Any, session: Any
     preview = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     changed = {**fields, "solute.mass": "3.80000"}
     r = post_form(client, "dissolution", changed, csv=csv, action="save",
-                  extra={"previewed": hidden(preview, "previewed")})
+                  extra={"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token")})
     assert r.status_code == 200
     assert "The entries changed after the last preview" in r.get_data(as_text=True)
     r = post_form(client, "dissolution", fields, csv=csv, action="save")  # no preview at all
@@ -287,7 +228,7 @@ def test_the_calibration_in_force_supplies_a_blank_heat_capacity(client: Any, la
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "21.0 ± 3.0 J/K" in html and "Spare cup" in html  # the lab's hand-entered value, used
     r = post_form(client, "dissolution", fields, csv=csv, action="save",
-                  extra={"previewed": hidden(html, "previewed")})
+                  extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")})
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.calibration is not None and run.calibration.heat_capacity_j_k == 21.0
@@ -323,7 +264,7 @@ def test_staff_choose_the_group_and_it_is_written_into_the_run_file(client: Any,
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "equal-area" in html and "0–200 s" in html  # the method and fore period asked for
     r = post_form(client, "dissolution", fields, csv=csv, action="save",
-                  extra={"previewed": hidden(html, "previewed")})
+                  extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")})
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.group_id == lab.groups["B"]
@@ -352,7 +293,7 @@ def test_upload_files_preview_then_save_exactly_as_sent(client: Any, lab: Any, s
     assert r.status_code == 200 and "Preview of the temperature readings" in html
     assert "H314" in html  # NaOH: GHS H314 (EU CLP harmonised classification, from memory)
     assert counts(session) == (0, 0)
-    data = {"csrf_token": token, "action": "save", "previewed": hidden(html, "previewed")}
+    data = {"csrf_token": token, "action": "save", "previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")}
     for field in ("run_file", "readings"):
         data[f"{field}_packed"] = hidden(html, f"{field}_packed")
         data[f"{field}_name"] = hidden(html, f"{field}_name")

@@ -16,7 +16,7 @@ import sqlalchemy as sa
 
 from tests.webapp.conftest import sign_in
 from tests.webapp.conftest import upload
-from tests.webapp.test_dashboard import build_section
+from tests.webapp.class_fixtures import build_section
 from webapp.models import AuditEntry
 from webapp.models import Person
 from webapp.models import Result

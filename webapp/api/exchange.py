@@ -14,6 +14,7 @@ from flask import url_for
 
 from webapp.api.blueprint import bp
 from webapp.api.params import actor
+from webapp.api.params import as_int
 from webapp.api.params import as_text
 from webapp.api.params import coordinators_only
 from webapp.api.params import json_object
@@ -25,7 +26,10 @@ from webapp.embed import links
 from webapp.services import exports_run
 from webapp.services.run_report import report_html, report_pdf
 from webapp.services import webhooks
+from webapp.services.webhook_guard import guard_from_config
 from webapp.services.errors import Invalid
+from webapp.services.errors import TooLarge
+from webapp.models import MAX_ID
 from webapp.services.packages import import_package
 from webapp.services.rocrate import crate_zip, export_selection_zip
 from webapp.services.runs import get_run
@@ -65,11 +69,17 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
     raise Invalid(f"unknown format {fmt!r}; expected one of: {', '.join(EXPORT_FORMATS)}", field="fmt")
 
 
+MAX_SELECTED_RUNS = 500
+
+
 def _run_ids(raw: str | None) -> list[int]:
+    parts = [x for x in (raw or "").split(",") if x.strip()]
+    if len(parts) > MAX_SELECTED_RUNS:
+        raise TooLarge(f"at most {MAX_SELECTED_RUNS} runs in one export, got {len(parts)}", field="run_ids")
     try:
-        return [int(x) for x in (raw or "").split(",") if x.strip()]
-    except ValueError:
-        raise Invalid("expected run ids separated by commas, like 3,7,12", field="run_ids") from None
+        return [as_int(x, "run_ids", low=1, high=MAX_ID) or 0 for x in parts]
+    except Invalid:
+        raise Invalid("expected run ids (1 to 2147483647) separated by commas, like 3,7,12", field="run_ids") from None
 
 
 @bp.get("/exports")
@@ -147,7 +157,8 @@ def list_hooks():  # type: ignore[no-untyped-def]
 def add_hook():  # type: ignore[no-untyped-def]
     """Add a webhook (coordinators); its signing secret is returned once."""
     hook, secret = webhooks.add_webhook(get_session(), actor(), as_text(json_object().get("url"), "url",
-                                                                         required=True) or "")
+                                                                         required=True) or "",
+                                        guard_from_config(current_app.config))
     response = jsonify(_hook_json(hook, secret))
     response.status_code = 201
     return response

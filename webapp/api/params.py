@@ -8,6 +8,9 @@ from collections.abc import Callable
 from typing import Any
 from typing import TypeVar
 
+from calc import limits
+from calc.errors import InputError
+from calc.limits import require_number
 from flask import current_app
 from flask import g
 from flask import request
@@ -17,6 +20,8 @@ from webapp.models import Person
 from webapp.services.access import require_coordinator
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Invalid
+from webapp.services.jsontext import checked_json  # noqa: F401  (used by the views)
+from webapp.services.jsontext import load_json
 
 _View = TypeVar("_View", bound=Callable[..., Any])
 
@@ -78,7 +83,7 @@ def coordinators_only(what: str) -> Callable[[_View], _View]:
 
 def json_object() -> dict[str, Any]:
     """Return the JSON object of the request body."""
-    data = request.get_json(silent=True)
+    data = load_json(request.get_data(cache=True)) if request.is_json else None
     if not isinstance(data, dict):
         raise Invalid("expected a JSON object in the request body (Content-Type: application/json)", field="body")
     return data
@@ -98,18 +103,20 @@ def as_int(value: Any, field: str, *, low: int | None = None, high: int | None =
     if isinstance(value, bool):
         raise Invalid("expected a whole number", field=field)
     if isinstance(value, str):
-        try:
-            value = int(value.strip())
-        except ValueError:
-            raise Invalid(f"expected a whole number, got {value!r}", field=field) from None
-    if isinstance(value, float) and value.is_integer():
+        text = value.strip()
+        if not (text.isascii() and text.lstrip("+-").isdigit()) or len(text) > limits.get("number_digits"):
+            raise Invalid(f"expected a whole number (digits 0-9, at most {limits.get('number_digits'):g}), "
+                          f"got {limits.shorten(repr(value))}", field=field)
+        value = int(text)
+    if isinstance(value, float) and math.isfinite(value) and value.is_integer():
         value = int(value)
     if not isinstance(value, int):
         raise Invalid("expected a whole number", field=field)
+    shown = value if abs(value) < 10**30 else "a number of more than 30 digits"
     if (low is not None and value < low) or (high is not None and value > high):
-        raise Invalid(f"expected a number from {low} to {high}, got {value}", field=field)
+        raise Invalid(f"expected a number from {low} to {high}, got {shown}", field=field)
     if field.endswith("_id") and not 0 < value <= MAX_ID:
-        raise Invalid(f"expected an id from 1 to {MAX_ID}, got {value}", field=field)
+        raise Invalid(f"expected an id from 1 to {MAX_ID}, got {shown}", field=field)
     return value
 
 
@@ -117,15 +124,18 @@ def as_float(value: Any, field: str) -> float | None:
     """Return ``value`` as a finite float (None stays None)."""
     if value is None or value == "":
         return None
-    if isinstance(value, bool):
-        raise Invalid("expected a number", field=field)
+    if isinstance(value, str):
+        text = value.strip()
+        if not text.isascii() or len(text) > limits.get("number_digits"):
+            raise Invalid(f"expected a number, got {limits.shorten(repr(value))}", field=field)
+        try:
+            value = float(text)
+        except ValueError:
+            raise Invalid(f"expected a number, got {limits.shorten(repr(value))}", field=field) from None
     try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise Invalid(f"expected a number, got {value!r}", field=field) from None
-    if not math.isfinite(v):
-        raise Invalid("expected a finite number", field=field)
-    return v
+        return require_number(value, "expected a finite number", field=field)
+    except InputError as exc:
+        raise Invalid(exc.message, field=field) from None
 
 
 def as_text(value: Any, field: str, *, required: bool = False) -> str | None:
@@ -159,7 +169,7 @@ def period(data: dict[str, Any], which: str) -> tuple[float, float] | None:
 
 def analysis_options(data: dict[str, Any]) -> AnalysisOptions:
     """Return the analysis options of a request (method, fore, after, monte_carlo, seed)."""
-    trials = as_int(data.get("monte_carlo"), "monte_carlo", low=0, high=200_000)
+    trials = as_int(data.get("monte_carlo"), "monte_carlo", low=0, high=int(limits.get("monte_carlo_trials")))
     return AnalysisOptions(
         method=as_text(data.get("method"), "method") or None,
         fore=period(data, "fore"),

@@ -6,6 +6,7 @@ from urllib.parse import urlsplit
 
 import sqlalchemy as sa
 from flask import flash
+from flask import make_response
 from flask import redirect
 from flask import render_template
 from flask import request
@@ -22,6 +23,7 @@ from webapp.auth.forms import TokenForm
 from webapp.db import get_session
 from webapp.models import ApiToken
 from webapp.services import people
+from webapp.services import throttle
 from webapp.services.errors import ServiceError
 
 
@@ -41,10 +43,22 @@ def login():  # type: ignore[no-untyped-def]
         return redirect(url_for("main.index"))
     form = LoginForm()
     if form.validate_on_submit():
-        person = people.authenticate(get_session(), form.email.data or "", form.password.data or "")
+        session = get_session()
+        email = (form.email.data or "").strip().lower()
+        address = request.remote_addr or "unknown"
+        try:
+            throttle.check(session, email, address)
+        except throttle.TooManyAttempts as exc:
+            form.password.errors.append(exc.message)
+            response = make_response(render_template("auth/login.html", form=form), 429)
+            response.headers["Retry-After"] = str(exc.retry_after)
+            return response
+        person = people.authenticate(session, email, form.password.data or "")
         if person is not None:
+            throttle.record_success(session, email)
             login_user(person)
             return redirect(_safe_next(request.args.get("next")))
+        throttle.record_failure(session, email, address)
         form.password.errors.append("E-mail address or password is wrong.")
     status = 400 if request.method == "POST" else 200
     return render_template("auth/login.html", form=form), status

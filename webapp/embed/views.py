@@ -20,6 +20,7 @@ from markupsafe import escape
 from webapp.db import get_session
 from webapp.embed.blueprint import bp
 from webapp.embed import links
+from webapp.models import MAX_ID
 from webapp.models import Person
 from webapp.models import Run
 from webapp.quantities import result_value
@@ -101,6 +102,12 @@ def card(run_id: int):  # type: ignore[no-untyped-def]
                            version=__version__)
 
 
+def _pixels_or_id(text: str, most: int) -> bool:
+    """Tell whether ``text`` is a whole number from 1 to ``most`` in ASCII digits (``str.isdigit`` also
+    takes '٣' and '²', and a 5000-digit number cannot even be turned into an int)."""
+    return text.isascii() and text.isdigit() and len(text) <= len(str(most)) and 0 < int(text) <= most
+
+
 @bp.get("/oembed")
 def oembed():  # type: ignore[no-untyped-def]
     """Return the oEmbed 1.0 ``rich`` response for a card URL (or a run page URL)."""
@@ -114,7 +121,7 @@ def oembed():  # type: ignore[no-untyped-def]
     if root and path.startswith(root):
         path = path[len(root):]
     segs = [s for s in path.split("/") if s]
-    if len(segs) < 2 or segs[-2] != "runs" or not segs[-1].isdigit():
+    if len(segs) < 2 or segs[-2] != "runs" or not _pixels_or_id(segs[-1], MAX_ID):
         raise NotFound("expected the URL of a run's card (…/embed/runs/<id>) or page (…/runs/<id>)", field="url")
     run_id = int(segs[-1])
     link = (parse_qs(parts.query).get("link") or [None])[0] or request.args.get("link")
@@ -123,8 +130,8 @@ def oembed():  # type: ignore[no-untyped-def]
     width, height = CARD_WIDTH, CARD_HEIGHT
     for name in ("maxwidth", "maxheight"):
         raw = request.args.get(name)
-        if raw is not None and not raw.isdigit():
-            raise Invalid("expected a whole number of pixels", field=name)
+        if raw is not None and not _pixels_or_id(raw, 100_000):
+            raise Invalid("expected a whole number of pixels from 1 to 100000 (digits 0-9)", field=name)
     if request.args.get("maxwidth"):
         width = min(width, int(request.args["maxwidth"]))
     if request.args.get("maxheight"):

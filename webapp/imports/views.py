@@ -18,6 +18,7 @@ from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
+from webapp.services.imports import Files
 from webapp.services.imports import files_from_zip
 from webapp.services.imports import import_files
 
@@ -39,15 +40,15 @@ def _larger_uploads() -> None:
     request.max_content_length = int(current_app.config.get("IMPORT_MAX_UPLOAD_BYTES", IMPORT_MAX_UPLOAD_BYTES))
 
 
-def _files(form: ImportForm) -> dict[str, bytes]:
+def _files(form: ImportForm) -> Files:
     if form.archive.data and form.archive.data.filename:
         return files_from_zip(form.archive.data.read(), source=form.archive.data.filename)
-    out: dict[str, bytes] = {}
+    out = Files()
     for f in form.files.data or []:
         if f and f.filename:
             name = f.filename.replace("\\", "/")
             # a browser sends "folder/sub/file": keep the path below the chosen folder
-            out[name.split("/", 1)[1] if "/" in name else name] = f.read()
+            out.add(name.split("/", 1)[1] if "/" in name else name, f.read())
     if not out:
         raise Invalid("choose a zip file or the files of a folder", field="archive")
     return out

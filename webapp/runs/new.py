@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import secrets
 from pathlib import PurePosixPath
 from typing import Any
 
@@ -42,6 +43,7 @@ from webapp.runs.uploads import Carried
 from webapp.runs.uploads import digest
 from webapp.runs.uploads import file_from_request
 from webapp.services.analysis import AnalysisOptions
+from webapp.services.errors import Conflict
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.pages import Preview
@@ -50,6 +52,7 @@ from webapp.services.pages import group_choices
 from webapp.services.pages import preview_run
 from webapp.services.runs import RunUpload
 from webapp.services.runs import record_run
+from webapp.services.runs import run_for_submit_token
 
 
 def _methods() -> list[tuple[str, str]]:
@@ -98,9 +101,22 @@ def _analyse(upload: RunUpload, action: str, previewed: str, fingerprint: str) -
     session = get_session()
     changed = action == "save" and previewed != fingerprint
     if action == "save" and not changed:
-        trials = int(current_app.config["MONTE_CARLO_TRIALS"])
-        saved = dataclasses.replace(upload, options=AnalysisOptions(monte_carlo_trials=trials))
-        return _after_save(record_run(session, current_user, saved)), None, False
+        token = request.form.get("submit_token", "")
+        if not (16 <= len(token) <= 64 and token.isascii()):
+            raise Invalid("the form has no valid one-time token; preview the run again, then save", field="")
+        done = run_for_submit_token(session, token)
+        if done is None:
+            trials = int(current_app.config["MONTE_CARLO_TRIALS"])
+            saved = dataclasses.replace(upload, options=AnalysisOptions(monte_carlo_trials=trials), submit_token=token)
+            try:
+                return _after_save(record_run(session, current_user, saved)), None, False
+            except Conflict:
+                session.rollback()  # the same form saved at the same moment by a second click
+                done = run_for_submit_token(session, token)
+                if done is None:
+                    raise
+        flash(f"Run {done.id} was saved already by this form; it was not saved twice.")
+        return redirect(url_for("runs.detail", run_id=done.id)), None, False
     return None, preview_run(session, upload), changed
 
 
@@ -118,6 +134,7 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
         default_method=DEFAULT_METHOD, calorimeters=calorimeter_choices(session),
         groups=group_choices(session, current_user), references=reference_names(),
         errors={}, preview=None, readings=None, run_toml=None, fingerprint="", changed=False,
+        submit_token=secrets.token_urlsafe(24),  # one-time: a double submit of "Save" saves one run
     )
     if request.method == "GET":
         values = default_values(sections, operator=current_user.name, date=dt.date.today().isoformat())
@@ -187,7 +204,7 @@ def upload():  # type: ignore[no-untyped-def]
     context: dict[str, Any] = dict(
         form=form, calorimeters=calorimeter_choices(session), groups=group_choices(session, current_user),
         errors={}, preview=None, run_file=None, readings=None, fingerprint="", changed=False,
-        calorimeter_id="", group_id="",
+        calorimeter_id="", group_id="", submit_token=secrets.token_urlsafe(24),
     )
     if request.method == "GET":
         return render_template("runs/upload.html", **context)

@@ -18,6 +18,9 @@ from typing import Any
 import numpy as np
 from calc.analysis import Analysis
 from calc.analysis import analyze_spec
+from calc.analysis import check_options
+from calc import limits
+from calc.limits import LimitExceeded
 from calc.deltat.methods import DEFAULT_METHOD
 from calc.deltat.methods import METHODS
 from calc.errors import AnalysisError
@@ -33,11 +36,10 @@ from webapp.models import Calibration
 from webapp.models import Result
 from webapp.models import RunInput
 from webapp.services.errors import Invalid
+from webapp.services.errors import TooLarge
 
 #: kinds whose model needs the calorimeter's heat capacity
 NEEDS_HEAT_CAPACITY = ("dissolution", "neutralization", "reaction")
-#: most Monte Carlo trials one request may ask for
-MAX_MONTE_CARLO_TRIALS = 200_000
 
 _HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re.MULTILINE)
 
@@ -59,14 +61,19 @@ class AnalysisOptions:
         :raise Invalid: for an unknown method, a period that is not two increasing
             finite times, or a Monte Carlo trial count out of range
         """
-        if self.method is not None and self.method not in METHODS:
-            raise Invalid(f"unknown method {self.method!r}; expected one of: {', '.join(sorted(METHODS))}",
-                          field="method")
+        if self.method is not None and (not isinstance(self.method, str) or self.method not in METHODS):
+            raise Invalid(f"unknown method {limits.shorten(repr(self.method))}; expected one of: "
+                          f"{', '.join(sorted(METHODS))}", field="method")
         for name, period in (("fore", self.fore), ("after", self.after)):
             if period is None:
                 continue
-            if len(period) != 2 or not all(isinstance(x, (int, float)) and math.isfinite(x) for x in period):
+            if len(period) != 2 or not all(isinstance(x, int) and not isinstance(x, bool)
+                                           or isinstance(x, float) and math.isfinite(x) for x in period):
                 raise Invalid("expected two times in seconds, like [0, 170]", field=name)
+            try:
+                check_options(0, None, **{name: period})
+            except InputError as exc:
+                raise invalid(exc, name) from None
             if not period[1] > period[0]:
                 raise Invalid(f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)",
                               field=name)
@@ -77,14 +84,18 @@ class AnalysisOptions:
             if not (isinstance(u, (int, float)) and math.isfinite(u) and u >= 0):
                 raise Invalid("expected the mixing time's standard uncertainty in seconds (0 or more)",
                               field="mixing_time")
-        if not 0 <= self.monte_carlo_trials <= MAX_MONTE_CARLO_TRIALS:
-            raise Invalid(f"expected 0 to {MAX_MONTE_CARLO_TRIALS} trials", field="monte_carlo")
+        try:
+            check_options(self.monte_carlo_trials, self.seed)
+        except InputError as exc:
+            raise invalid(exc, "monte_carlo") from None
         return self
 
 
-def invalid(exc: InputError | AnalysisError, default_field: str) -> Invalid:
+def invalid(exc: InputError | AnalysisError, default_field: str) -> Invalid | TooLarge:
     """Return the :class:`Invalid` carrying calc's message for ``exc``."""
     field = getattr(exc, "field", None) or default_field
+    if isinstance(exc, LimitExceeded):
+        return TooLarge(str(exc), field=field)
     return Invalid(str(exc), field=field)
 
 
@@ -103,7 +114,7 @@ def needs_supplied_heat_capacity(run_toml: str) -> bool:
     """Return whether the run's kind needs C_cal and its file does not give it."""
     try:
         data = tomllib.loads(run_toml.lstrip("\ufeff"))
-    except tomllib.TOMLDecodeError:
+    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
         return False  # parse_run reports it with the line
     if data.get("kind") not in NEEDS_HEAT_CAPACITY:
         return False
@@ -115,7 +126,7 @@ def calorimeter_name_in(run_toml: str) -> str | None:
     """Return the run file's ``[calorimeter] name``, if it has a readable one."""
     try:
         cal = tomllib.loads(run_toml.lstrip("\ufeff")).get("calorimeter")
-    except tomllib.TOMLDecodeError:
+    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
         return None
     name = cal.get("name") if isinstance(cal, dict) else None
     return name.strip() if isinstance(name, str) and name.strip() else None

@@ -46,8 +46,19 @@ class Known:
     added: set[tuple[str, int]] = dataclasses.field(default_factory=set)
 
 
+def when(text: Any, field: str) -> dt.datetime:
+    """Return a time of the archive (ISO 8601, UTC) as a naive UTC datetime."""
+    if not isinstance(text, str):
+        raise Invalid("expected a date and time (ISO 8601)", field=field)
+    try:
+        t = dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
+    except ValueError:
+        raise Invalid(f"expected a date and time (ISO 8601), got {text!r}", field=field) from None
+    return t.astimezone(dt.timezone.utc).replace(tzinfo=None) if t.tzinfo else t
+
+
+
 def _time(c: dict[str, Any], key: str, where: str, *, required: bool = False) -> dt.datetime | None:
-    from webapp.services.eln_restore import when
 
     if c.get(key) is None and not required:
         return None
@@ -154,7 +165,6 @@ def _one(session: so.Session, actor: Person, cal: Calorimeter, c: Any, pool: dic
 
 def new_calorimeter(session: so.Session, actor: Person, doc: dict[str, Any], where: str) -> Calorimeter:
     """Return the calorimeter of the file, adding it (a coordinator) when this notebook lacks it."""
-    from webapp.services.eln_restore import when
 
     cal = find_calorimeter(session, doc["name"])
     if cal is not None:
@@ -181,7 +191,6 @@ def restore_trail(session: so.Session, cal: Calorimeter, entries: Any, people: A
                   new_calorimeter: bool, where: str) -> None:
     """Store the audit entries of the calorimeter (when it is new here) and of the calibrations just added."""
     from webapp.models import AuditEntry
-    from webapp.services.eln_restore import when
 
     if not isinstance(entries, list):
         raise Invalid(f"{where}: audit_trail: expected a list", field="audit_trail")

@@ -40,6 +40,7 @@ from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.concurrency import content_hash as signed_hash
 from webapp.services.eln_calibrations import Known
+from webapp.services.eln_calibrations import when
 from webapp.services.eln_calibrations import new_calorimeter
 from webapp.services.eln_calibrations import restore_calibrations
 from webapp.services.eln_calibrations import restore_trail
@@ -61,17 +62,6 @@ MAX_RESULTS = 100
 COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
             "outputs", "options", "mixing_time", "budget", "warnings", "comparison", "cautions", "properties",
             "monte_carlo", "checks")
-
-
-def when(text: Any, field: str) -> dt.datetime:
-    """Return a time of the archive (ISO 8601, UTC) as a naive UTC datetime."""
-    if not isinstance(text, str):
-        raise Invalid("expected a date and time (ISO 8601)", field=field)
-    try:
-        t = dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
-    except ValueError:
-        raise Invalid(f"expected a date and time (ISO 8601), got {text!r}", field=field) from None
-    return t.astimezone(dt.timezone.utc).replace(tzinfo=None) if t.tzinfo else t
 
 
 class People:

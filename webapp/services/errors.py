@@ -23,6 +23,12 @@ class Invalid(ServiceError):
     status = 400
 
 
+class TooLarge(ServiceError):
+    """A limit of calc.limits (or of the notebook) was passed; the message names it."""
+
+    status = 413
+
+
 class NotSignedIn(ServiceError):
     """The request carries no valid session or token."""
 

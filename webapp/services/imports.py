@@ -30,6 +30,7 @@ from pathlib import Path
 from typing import Any
 
 import sqlalchemy as sa
+from calc import limits as calc_limits
 import sqlalchemy.orm as so
 
 from webapp.models import Bench
@@ -39,6 +40,7 @@ from webapp.models import Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.classes import get_section
 from webapp.services.classes import require_staff
+from webapp.services.errors import Conflict
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.errors import storage_error
@@ -49,6 +51,21 @@ from webapp.services.runs import record_run
 MAX_FILES = 5000
 MAX_TOTAL_BYTES = 512 * 1024 * 1024
 MAX_FILE_BYTES = 16 * 1024 * 1024
+
+
+class Files(dict[str, bytes]):
+    """The files of an import by relative path, and the names that occurred more than once
+    (``duplicates``: name → count); a duplicated name is refused, since which copy is meant is unknown."""
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        self.duplicates: dict[str, int] = {}
+
+    def add(self, name: str, content: bytes) -> None:
+        """Add a file; a name seen before is recorded as a duplicate (its first content kept aside)."""
+        if name in self:
+            self.duplicates[name] = self.duplicates.get(name, 1) + 1
+        self[name] = content
 
 
 @dataclasses.dataclass(frozen=True)
@@ -110,7 +127,7 @@ def _safe_name(name: str, where: str) -> str:
     return "/".join(parts)
 
 
-def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "archive") -> dict[str, bytes]:
+def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "archive") -> Files:
     """Return the files of a zip archive by relative path, refusing unsafe archives.
 
     :raise Invalid: for a file that is not a zip, a path that is absolute or leads out of the
@@ -134,7 +151,7 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
                     f"{source}: refused: the archive unpacks to more than "
                     f"{(limits.max_file_bytes if info.file_size > limits.max_file_bytes else limits.max_total_bytes) // 2**20} MiB "
                     f"({info.filename!r}); is it a zip bomb?", field="archive")
-        out: dict[str, bytes] = {}
+        out = Files()
         read = 0
         for info in infos:
             name = _safe_name(info.filename, source)
@@ -146,7 +163,7 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
             read += len(content)
             if len(content) > limits.max_file_bytes or read > limits.max_total_bytes:  # pragma: no cover - sizes lie
                 raise Invalid(f"{source}: refused: the archive unpacks to more than its stated size", field="archive")
-            out[name] = content
+            out.add(name, content)
     return out
 
 
@@ -225,7 +242,7 @@ def content_hash(run_toml: bytes, readings: bytes) -> str:
 def _readings_name(toml_text: str, path: str) -> str:
     try:
         data = tomllib.loads(toml_text.lstrip("\ufeff"))
-    except tomllib.TOMLDecodeError as exc:
+    except (ValueError, RecursionError) as exc:  # TOMLDecodeError, a 5000-digit number, deep nesting
         raise Invalid(f"{path}: not a valid run file: {exc}", field="run_file") from None
     name = data.get("readings")
     if not isinstance(name, str) or not name.strip():
@@ -236,7 +253,7 @@ def _readings_name(toml_text: str, path: str) -> str:
 def _info_group(toml_text: str) -> str | None:
     try:
         info = tomllib.loads(toml_text.lstrip("\ufeff")).get("info")
-    except tomllib.TOMLDecodeError:
+    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
         return None
     g = info.get("group") if isinstance(info, dict) else None
     return g.strip() if isinstance(g, str) and g.strip() else None
@@ -293,8 +310,13 @@ def import_files(
     benches = {b.name: b for b in session.scalars(sa.select(Bench).where(Bench.section_id == section.id))}
     section_name = section.name
     report = ImportReport()
-    used: set[str] = set()
-    runs = sorted(p for p in files if p.lower().endswith(".toml"))
+    duplicates = getattr(files, "duplicates", {})
+    for name, count in sorted(duplicates.items()):
+        report.items.append(ImportItem(name, "error", f"{name}: refused: the archive holds {count} entries of this "
+                                       "name, so which one is meant is unknown; rename them"))
+    used: set[str] = set(duplicates)
+    runs = sorted(p for p in files if p.lower().endswith(".toml") and p not in duplicates)
+    check_totals(files, runs)
     options = AnalysisOptions(monte_carlo_trials=0)
     maker = _GroupMaker(section, actor) if create_groups else None
     for path in runs:
@@ -338,6 +360,30 @@ class _GroupMaker:
         for name in self.created:
             groups.pop(name, None)
         self.created.clear()
+def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
+    """Refuse an import whose run files and readings pass the limits import_files or import_total_bytes.
+
+    A readings file named by several run files is counted once per run file that uses it (each
+    run stores its own copy: a small zip of many run files sharing one large log would otherwise
+    grow the database far beyond the zip's size).
+    """
+    calc_limits.require_size(len(runs), "import_files", what=f"the import's {len(runs)} run files", field="archive")
+    total = 0
+    for path in runs:
+        total += len(files[path])
+        rname = _readings_name_or_none(files[path])
+        if rname is not None:
+            total += len(files.get(posixpath.normpath(posixpath.join(posixpath.dirname(path), rname)), b""))
+    calc_limits.require_size(total, "import_total_bytes", field="archive",
+                             what=f"the import's run files and readings ({total} bytes, a shared readings file "
+                                  "counted once per run file that uses it)")
+
+
+def _readings_name_or_none(raw: bytes) -> str | None:
+    try:
+        return _readings_name(raw.decode("utf-8-sig"), "")
+    except (Invalid, UnicodeDecodeError):
+        return None
 
 
 def _import_one(
@@ -346,6 +392,7 @@ def _import_one(
     used: set[str], maker: _GroupMaker | None = None,
 ) -> ImportItem:
     raw = files[path]
+    digest = ""
     try:
         try:
             text = raw.decode("utf-8-sig")
@@ -354,6 +401,8 @@ def _import_one(
                           field="run_file") from None
         rname = _readings_name(text, path)
         rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+        if rpath in getattr(files, "duplicates", {}):
+            raise Invalid(f"{path}, field 'readings': {rname!r} occurs more than once in the archive", field="readings")
         if rpath not in files:
             raise Invalid(f"{path}, field 'readings': {rname!r} is not among the imported files", field="readings")
         used.add(rpath)
@@ -399,6 +448,11 @@ def _import_one(
         session.rollback()
         if maker is not None:
             maker.forget(groups)
+        if isinstance(exc, Conflict) and digest:
+            # the same files stored by an import running at the same time: unchanged, not a conflict
+            existing = session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
+            if existing is not None:
+                return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
         return ImportItem(path, "error", exc.message)
     except sa.exc.DBAPIError as exc:
         session.rollback()  # nothing of this run is stored

@@ -73,6 +73,8 @@ class RunUpload:
     calorimeter_id: int | None = None
     group_id: int | None = None
     options: AnalysisOptions = AnalysisOptions()
+    #: the one-time token of the page form (unique on the run: a second save with it is refused)
+    submit_token: str | None = None
 
 
 @dataclasses.dataclass
@@ -454,4 +456,10 @@ def _new_run(
         created_at=utcnow(),
         calorimeter=calorimeter,
         calibration=calibration,
+        submit_token=upload.submit_token,
     )
+
+
+def run_for_submit_token(session: so.Session, token: str) -> Run | None:
+    """Return the run a page form with this one-time token saved already, if any."""
+    return session.scalar(sa.select(Run).where(Run.submit_token == token))

@@ -10,7 +10,9 @@ Each POST carries ``X-Cupcal-Event``, ``X-Cupcal-Delivery`` (the delivery id) an
 ``X-Cupcal-Signature: sha256=<hex>``, the HMAC-SHA256 of the exact body bytes keyed with the
 webhook's secret. A failed attempt (no 2xx answer) is retried after ``base · 2^(n-1)`` seconds
 (n = attempts so far) until :data:`MAX_ATTEMPTS`; then the delivery is "failed". Every
-attempt's status, code and error stay in the delivery log.
+attempt's status, code and error stay in the delivery log (never the receiver's answer).
+What a delivery may reach (public addresses only, no redirects, a timeout, a cap on the
+answer) is :mod:`webapp.services.webhook_guard`.
 """
 
 from __future__ import annotations
@@ -20,10 +22,7 @@ import hashlib
 import hmac
 import json
 import secrets
-import urllib.error
-import urllib.request
 from typing import Any
-from urllib.parse import urlsplit
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
@@ -34,8 +33,10 @@ from webapp.models import Webhook
 from webapp.models import WebhookDelivery
 from webapp.models import utcnow
 from webapp.services.access import require_coordinator
-from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
+from webapp.services.webhook_guard import Guard
+from webapp.services.webhook_guard import check_url
+from webapp.services.webhook_guard import post
 
 EVENT = "run.locked"
 MAX_ATTEMPTS = 6
@@ -53,13 +54,15 @@ def verify_signature(secret: str, body: bytes, header: str) -> bool:
     return hmac.compare_digest(sign(secret, body), header or "")
 
 
-def add_webhook(session: so.Session, actor: Person, url: str) -> tuple[Webhook, str]:
-    """Add a webhook (coordinators only) and commit; return it with its secret."""
+def add_webhook(session: so.Session, actor: Person, url: str, guard: Guard = Guard()) -> tuple[Webhook, str]:
+    """Add a webhook (coordinators only) and commit; return it with its secret.
+
+    :raise Invalid: for a URL that is not http(s) (https only under ``guard.require_https``) or
+        that names a local or private address (:mod:`webapp.services.webhook_guard`)
+    """
     require_coordinator(actor, "manage webhooks")
     url = (url or "").strip()
-    parts = urlsplit(url)
-    if parts.scheme not in ("http", "https") or not parts.netloc or len(url) > 2000:
-        raise Invalid("expected an http:// or https:// URL", field="url")
+    check_url(url, guard)
     hook = Webhook(url=url, secret=secrets.token_hex(32), created_by_id=actor.id, active=True)
     session.add(hook)
     session.commit()
@@ -141,17 +144,8 @@ def backoff(attempts: int, base: float = BACKOFF_BASE_S) -> dt.timedelta:
     return dt.timedelta(seconds=base * 2 ** max(0, attempts - 1))
 
 
-def _post(url: str, body: bytes, headers: dict[str, str], timeout: float) -> int:
-    req = urllib.request.Request(url, data=body, headers=headers, method="POST")
-    try:
-        with urllib.request.urlopen(req, timeout=timeout) as resp:  # noqa: S310 - http(s) only, checked on add
-            return int(resp.status)
-    except urllib.error.HTTPError as exc:
-        return int(exc.code)
-
-
 def attempt(session: so.Session, delivery: WebhookDelivery, *, now: dt.datetime | None = None,
-            timeout: float = 5.0, base: float = BACKOFF_BASE_S) -> bool:
+            timeout: float | None = None, base: float = BACKOFF_BASE_S, guard: Guard = Guard()) -> bool:
     """POST one delivery once, record the attempt, commit, and return whether it was accepted (2xx)."""
     now = now or utcnow()
     body = delivery.body.encode("utf-8")
@@ -161,7 +155,7 @@ def attempt(session: so.Session, delivery: WebhookDelivery, *, now: dt.datetime 
     delivery.attempts += 1
     delivery.last_attempt_at = now
     try:
-        code: int | None = _post(delivery.webhook.url, body, headers, timeout)
+        code: int | None = post(delivery.webhook.url, body, headers, guard, timeout)
         error = "" if 200 <= (code or 0) < 300 else f"answered HTTP {code}"
     except (OSError, ValueError) as exc:
         code, error = None, f"{type(exc).__name__}: {exc}"[:500]
@@ -179,15 +173,15 @@ def attempt(session: so.Session, delivery: WebhookDelivery, *, now: dt.datetime 
     return not error
 
 
-def deliver_due(session: so.Session, *, now: dt.datetime | None = None, timeout: float = 5.0,
-                base: float = BACKOFF_BASE_S) -> list[WebhookDelivery]:
+def deliver_due(session: so.Session, *, now: dt.datetime | None = None, timeout: float | None = None,
+                base: float = BACKOFF_BASE_S, guard: Guard = Guard()) -> list[WebhookDelivery]:
     """Attempt every pending delivery whose next attempt is due; return those attempted."""
     now = now or utcnow()
     due = session.scalars(sa.select(WebhookDelivery).where(
         WebhookDelivery.status == "pending", WebhookDelivery.next_attempt_at <= now).order_by(WebhookDelivery.id)
     ).all()
     for d in due:
-        attempt(session, d, now=now, timeout=timeout, base=base)
+        attempt(session, d, now=now, timeout=timeout, base=base, guard=guard)
     return list(due)
 
 
