@@ -55,7 +55,7 @@ TABLE: dict[str, Limit] = {
     "equivalents": Limit(10, "", "equivalents of an acid or base"),
     "number_digits": Limit(50, "digits", "digits of one number in a request"),
     "json_depth": Limit(32, "levels", "nesting of a JSON request body"),
-    "import_files": Limit(500, "files", "run files in one import"),
+    "import_files": Limit(2000, "files", "run files in one import (a term of a large class)"),
     "import_total_bytes": Limit(64 * 1024 * 1024, "bytes",
                                 "run files and readings of one import, a shared readings file once per use"),
     "webhook_timeout_s": Limit(5, "s", "time to wait for a webhook receiver"),
