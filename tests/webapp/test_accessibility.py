@@ -90,13 +90,17 @@ def _pages(d: Any, server: str, role: str) -> list[str]:
     pages = ["/", "/runs/", "/runs/?q=KCl&sort=title&dir=asc", "/runs/samples", "/runs/new", "/runs/new/dissolution",
              "/runs/upload", "/calorimeters/", "/classes/", "/plan", "/plan?kind=mixing-calibration",
              "/plan?kind=dissolution&go=1&formula=KCl&mass=lots&water_volume=100+g",  # the error summary
-             "/plan?kind=dissolution&go=1", "/auth/tokens", "/runs/987654"]  # the last: the error page
+             "/plan?kind=dissolution&go=1", "/auth/tokens", "/auth/password", "/runs/new/dissolution-with-calibration",
+             "/runs/987654"]  # the last: the error page
     pages += [p for p in (run, cup, f"{cup}/control" if cup else None, section, board) if p]
     if role != "student":
         course = _first_link(d, server, "/classes/", r"^/classes/courses/\d+/dashboard")
         pages += [p for p in (course, section and section.replace("/classes/sections/", "/imports/sections/")) if p]
+        pages += ["/imports/eln"] + ([f"{section}/marking"] if section else [])
     if role == "coordinator" and run:
         pages.append(f"{run}/lock")
+    if role == "coordinator" and section:
+        pages.append(section.replace("/classes/sections/", "/auth/sections/") + "/accounts")
     return pages
 
 
