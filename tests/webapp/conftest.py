@@ -253,3 +253,15 @@ def approve_proposals(client: Any, lab: Lab, calorimeter_id: int | None = None, 
             assert r.status_code == 200, r.get_json()
             done.append(c["id"])
     return done
+
+
+def pytest_collection_modifyitems(items: list[Any]) -> None:
+    """Run a browser test again when Chromium loses a node the page had just replaced.
+
+    Chromium 156 now and then answers a WebDriver call with "Node with given id does not belong to
+    the document" while a page swaps an element (seen on this machine in 2 of about 30 suite runs);
+    only that error is retried, at most twice, so every other failure still fails the run.
+    """
+    for item in items:
+        if "browser" in getattr(item, "fixturenames", ()):
+            item.add_marker(pytest.mark.flaky(reruns=2, only_rerun=["does not belong to the document"]))
