@@ -142,7 +142,11 @@ def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_pa
             except requests.RequestException:
                 time.sleep(0.2)
         assert status == 200, (tmp_path / "serve.log").read_text(errors="replace")
+        deadline = time.monotonic() + 30  # the first worker may answer before the second has started
         workers = psutil.Process(proc.pid).children()
+        while len(workers) < 2 and time.monotonic() < deadline:
+            time.sleep(0.2)
+            workers = psutil.Process(proc.pid).children()
         assert len(workers) == 2, workers
         proc.send_signal(signal.SIGTERM)  # gunicorn's graceful stop
         assert proc.wait(timeout=30) == 0
