@@ -395,11 +395,12 @@ def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, mon
                    seed: int | None, fore: tuple[float, float] | None, after: tuple[float, float] | None,
                    with_reference: bool, calorimeter_type: str | None,
                    history: Any) -> Any:
-    """Analyse a dissolution-with-calibration run end to end; return a :class:`calc.analysis.Analysis`."""
+    """Analyse a dissolution-with-calibration run end to end; return a :class:`calc.result.Analysis`."""
     from dataclasses import replace
 
-    from calc import analysis as an
     from calc.checks import run_checks
+    from calc.referencing import attach_reference, run_reference
+    from calc.result import Analysis
     from calc.uncertainty.gum import monte_carlo, propagate
 
     if (method or spec.method or "regnault-pfaundler") != "regnault-pfaundler":
@@ -434,11 +435,11 @@ def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, mon
         if not mc.agrees:
             warnings.append(f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] kJ/mol differs from the GUM "
                             "interval by more than the tolerance; report the Monte Carlo interval")
-    result = an.Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
+    result = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings)
     if with_reference:
-        an._attach_reference(result)
+        attach_reference(result)
     result.checks = run_checks(result, calorimeter_type=calorimeter_type, history=history,
-                               reference=an._run_reference(spec))
+                               reference=run_reference(spec))
     return result
 
 

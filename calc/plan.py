@@ -2,7 +2,7 @@
 
 The prediction uses the analysis's own pieces: the planned amounts become a run file
 (:func:`calc.io.runfile.parse_run`), the property models supply densities and the solution's heat
-capacity (:func:`calc.analysis.resolve_properties`), the kind's model is built by
+capacity (:func:`calc.composition.resolve_properties`), the kind's model is built by
 :func:`calc.uncertainty.measurement_models.build_model` and propagated by :func:`calc.uncertainty.gum.propagate`. Only the corrected
 temperature change is predicted instead of measured:
 
@@ -43,7 +43,8 @@ from typing import Any, NamedTuple
 import numpy as np
 from scipy import stats as sps
 
-from calc.analysis import kind_warnings, resolve_properties
+from calc.composition import resolve_properties
+from calc.run_warnings import kind_warnings
 from calc.plan_kinds import CALIBRATION_KINDS, PLAN_KINDS, build_sections, solve_delta_t
 from calc.deltat.methods import resolution_term  # the analysis's own resolution term
 from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT

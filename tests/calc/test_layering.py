@@ -106,8 +106,6 @@ def test_tarjan_finds_a_known_cycle():
 #: once it is gone (then delete it here).
 KNOWN_CYCLES = {
     ("calc.deltat.methods", "calc.deltat.modelfit"),
-    # the in-situ kind's end-to-end analysis reuses the analysis's helpers and the analysis dispatches to it
-    ("calc.analysis", "calc.insitu"),
 }
 
 

@@ -1,0 +1,155 @@
+"""The final solution of a run and the properties its model needs.
+
+:func:`resolve_properties` supplies the densities and the heat capacity a kind's measurement model
+uses (a value in the run file always wins, else the property models of :mod:`calc.refdata.properties`);
+:func:`final_composition` gives the solutes and water of the final solution (for the heat capacity
+and the concentration check).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from calc.deltat.methods import DeltaT
+from calc.io.runfile import RunSpec
+from calc.refdata.solutes import STRONG_ACIDS
+from calc.uncertainty.measurement_models import EQUIVALENTS, Properties
+
+__all__ = ["resolve_properties", "final_composition"]
+
+def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
+    """Return the densities and heat capacity the model needs.
+
+    A value in the run file always wins; otherwise the property models of
+    :mod:`calc.refdata.properties` supply it and the source is recorded.
+    """
+    import importlib
+
+    class _Lazy:
+        def __getattr__(self, name: str) -> Any:
+            return getattr(importlib.import_module("calc.refdata.properties"), name)
+
+    pm: Any = _Lazy()
+    props = Properties()
+    T0 = dt.start_temperature
+    T_mean = T0 + 0.5 * dt.value
+
+    def explicit(section: str, name: str, key: str, unit: str) -> bool:
+        m = spec.get(section, name)
+        if m is None:
+            return False
+        props.add(key, m.m_as(unit), m.u_as(unit), unit, "run file")
+        return True
+
+    def water_density(key: str, T: float) -> tuple[float, float]:
+        pv = pm.water_density(T)
+        props.add(key, pv.value, pv.u, "g/mL", f"{pv.model} at {T - 273.15:.1f} °C")
+        return pv.value, pv.u
+
+    kind = spec.kind
+    if kind in ("dissolution", "electrical-calibration", "mixing-calibration"):
+        if not explicit("water", "density", "water.density", "g/mL"):
+            water_density("water.density", T0)
+    if kind == "mixing-calibration":
+        if not explicit("warm_water", "density", "warm_water.density", "g/mL"):
+            water_density("warm_water.density", spec.get("warm_water", "temperature").m_as("K"))
+    if kind == "reaction":
+        if not explicit("solution", "density", "solution.density", "g/mL"):
+            water_density("solution.density", T0)
+            props.warnings.append(
+                "solution density not given: the density of water was used; give [solution] density"
+            )
+    if kind == "neutralization":
+        for sec in ("acid", "base"):
+            if not explicit(sec, "density", f"{sec}.density", "g/mL"):
+                T = T0 if sec == "acid" else spec.get("base", "temperature").m_as("K")
+                pv = _stock_density(pm, spec, sec, T)
+                props.add(f"{sec}.density", pv.value, pv.u, "g/mL", f"{pv.model} at {T - 273.15:.1f} °C")
+    if explicit("mixture", "specific_heat_capacity", "mixture.specific_heat_capacity", "J/(g*K)"):
+        return props
+    solutes, water_g = final_composition(spec, props)
+    if solutes:
+        dens, cp = pm.solution_properties(solutes, water_g, T_mean)
+    else:
+        cp = pm.water_specific_heat(T_mean)
+    props.add("mixture.specific_heat_capacity", cp.value, cp.u, "J/(g*K)", f"{cp.model} at {T_mean - 273.15:.1f} °C")
+    if "fallback" in cp.model.lower() and solutes:
+        props.warnings.append(
+            "no solution model covers " + ", ".join(solutes) + ": the heat capacity of water was used with a "
+            "larger uncertainty; give [mixture] specific_heat_capacity for a better result"
+        )
+    if kind == "reaction" and not solutes:
+        props.warnings.append(
+            "specific heat capacity of the final solution not given: that of water was used; "
+            "give [mixture] specific_heat_capacity"
+        )
+    return props
+
+
+def _stock_density(pm: Any, spec: RunSpec, sec: str, T: float) -> Any:
+    from calc.refdata.formula import molar_mass
+
+    formula = spec.get(sec, "formula")
+    c = spec.get(sec, "concentration").m_as("mol/L")
+    M = molar_mass(formula)
+    rho = pm.water_density(T)
+    # iterate: mass of solute per litre is c·M; water mass per litre is 1000ρ − cM
+    for _ in range(4):
+        water_g = 1000.0 * rho.value - c * M
+        if water_g <= 0:
+            break
+        rho, _cp = pm.solution_properties({formula: c * M}, water_g, T)
+    return rho
+
+
+#: Cation of each strong base; anions come from calc.refdata.solutes.STRONG_ACIDS and ion charges
+#: from calc.uncertainty.measurement_models.EQUIVALENTS (H⁺ or OH⁻ per formula unit).
+_CATIONS = {"NaOH": "Na", "KOH": "K", "LiOH": "Li", "Ba(OH)2": "Ba", "Ca(OH)2": "Ca"}
+
+
+def final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
+    """Return the solutes (formula → g) and water mass (g) of the final solution."""
+    from calc.refdata.formula import molar_mass
+
+    kind = spec.kind
+    if kind == "dissolution":
+        rho = props.values["water.density"][0]
+        water_g = spec.get("water", "volume").m_as("mL") * rho
+        return {spec.get("solute", "formula"): spec.get("solute", "mass").m_as("g")}, water_g
+    if kind == "neutralization":
+        acid, base = spec.get("acid", "formula"), spec.get("base", "formula")
+        na = spec.get("acid", "concentration").m_as("mol/L") * spec.get("acid", "volume").m_as("mL") / 1000
+        nb = spec.get("base", "concentration").m_as("mol/L") * spec.get("base", "volume").m_as("mL") / 1000
+        total = (spec.get("acid", "volume").m_as("mL") * props.values["acid.density"][0]
+                 + spec.get("base", "volume").m_as("mL") * props.values["base.density"][0])
+        if acid in STRONG_ACIDS and base in _CATIONS:
+            an, za = STRONG_ACIDS[acid], _eq(acid)
+            cat, zb = _CATIONS[base], _eq(base)
+            # salt formula with charge balance, e.g. Na2SO4, BaCl2
+            g = math.gcd(za, zb)
+            ncat, nan = za // g, zb // g
+            salt = (cat if ncat == 1 else f"{cat}{ncat}") + (an if nan == 1 else f"({an}){nan}")
+            h = na * _eq(acid)
+            oh = nb * _eq(base)
+            xi = min(h, oh)
+            n_salt = xi / (ncat * zb)
+            solutes = {salt: n_salt * molar_mass(salt)}
+            if h > oh:
+                solutes[acid] = (h - oh) / _eq(acid) * molar_mass(acid)
+            elif oh > h:
+                solutes[base] = (oh - h) / _eq(base) * molar_mass(base)
+            water_g = total - sum(solutes.values())
+            return solutes, water_g
+        return {acid: na * molar_mass(acid), base: nb * molar_mass(base)}, total - na * molar_mass(acid) - nb * molar_mass(base)
+    if kind == "reaction":
+        sol = spec.sections.get("solute")
+        if sol is not None:
+            rho = props.values["solution.density"][0]
+            return {sol["formula"]: sol["mass"].m_as("g")}, spec.get("solution", "volume").m_as("mL") * rho
+        return {}, 0.0
+    return {}, 0.0
+
+
+def _eq(formula: str) -> int:
+    return EQUIVALENTS.get(formula, 1)
