@@ -26,12 +26,13 @@ from calc.deltat.periods import Periods, find_periods
 from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings, read_readings
 from calc.io.runfile import RunSpec, load_run
+from calc.kinds import get_kind
 from calc.limits import require_number
 from calc.referencing import attach_reference, run_reference
 from calc.result import OUTPUT_UNITS, Analysis
 from calc.run_warnings import kind_warnings, monte_carlo_warning, wide_interval_warning
 from calc.uncertainty.gum import monte_carlo, propagate
-from calc.uncertainty.measurement_models import MAIN_OUTPUT, build_model
+from calc.uncertainty.measurement_models import build_model
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -130,12 +131,12 @@ def analyze_spec(
     (value, u) in J/K) feed the plausibility checks of :mod:`calc.checks`.
     """
     check_options(monte_carlo_trials, seed, fore, after)
-    if spec.kind == "dissolution-with-calibration":
-        from calc.insitu import analyze_insitu
-
-        return analyze_insitu(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
+    kind = get_kind(spec.kind)
+    analyze = kind.hook("analyze")
+    if analyze is not None:  # a kind with an analysis of its own (the in-situ calibration)
+        return analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                               fore=fore, after=after, with_reference=with_reference,
-                              calorimeter_type=calorimeter_type, history=history)
+                       calorimeter_type=calorimeter_type, history=history)
     prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
     props = resolve_properties(spec, dt)
     model = build_model(spec, dt, props)
@@ -145,7 +146,7 @@ def analyze_spec(
     mc = None
     if monte_carlo_trials and monte_carlo_trials > 0:
         mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
-        warnings.extend(monte_carlo_warning(mc, MAIN_OUTPUT[spec.kind][1]))
+        warnings.extend(monte_carlo_warning(mc, kind.main_unit))
     analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings,
                         rejected=prep.rejected, gaps=prep.gaps)
     if with_reference:
@@ -160,7 +161,7 @@ def _corrected_delta_t(spec: RunSpec, readings: Readings, method: str | None, fo
                        after: tuple[float, float] | None,
                        mixing_time: tuple[float, float] | None) -> tuple[PreparedLog, Periods, DeltaT]:
     """Return the prepared log, its periods and the corrected ΔT with every budget term."""
-    two = spec.kind in ("neutralization", "mixing-calibration")
+    two = get_kind(spec.kind).two_solution
     prep = prepare_log(readings.time_s, readings.temperature_K, resolution=spec.resolution_K, lines=readings.lines)
     if mixing_time is not None:
         t_mix, u_mix = float(mixing_time[0]), float(mixing_time[1])
@@ -188,7 +189,7 @@ def _corrected_delta_t(spec: RunSpec, readings: Readings, method: str | None, fo
 
 def _heater_duration(spec: RunSpec) -> float | None:
     """Return the heater's stated duration (s) of an electrical calibration, else None."""
-    if spec.kind != "electrical-calibration":
+    if not get_kind(spec.kind).timed_heater:
         return None
     return spec.get("heater", "duration").m_as("s")
 

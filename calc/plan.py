@@ -45,7 +45,7 @@ from scipy import stats as sps
 
 from calc.composition import resolve_properties
 from calc.run_warnings import kind_warnings
-from calc.plan_kinds import CALIBRATION_KINDS, PLAN_KINDS, build_sections, solve_delta_t
+from calc.plan_kinds import PLAN_KINDS, build_sections, solve_delta_t
 from calc.deltat.methods import resolution_term  # the analysis's own resolution term
 from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
 from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
@@ -54,6 +54,7 @@ from calc.uncertainty.gum import BudgetLine, GumResult, propagate
 from calc.io.quantities import Measured, parse_measured
 from calc.uncertainty.measurement_models import ModelSpec, Properties, build_model
 from calc.io.runfile import RunSpec, parse_run
+from calc.kinds import get_kind
 from calc import limits
 from calc.limits import require_number
 
@@ -329,8 +330,8 @@ def _expected(design: _Design, molality: float | None, T: float) -> tuple[float,
     from calc.refdata.reference import find_reference
 
     sec = design.sections
-    ref = (find_reference("dissolution", formula=sec["solute"]["formula"]) if design.kind == "dissolution" else
-           find_reference("neutralization", acid=sec["acid"]["formula"], base=sec["base"]["formula"]))
+    ref = find_reference(get_kind(design.kind).compared_with, formula=sec.get("solute", {}).get("formula"),
+                         acid=sec.get("acid", {}).get("formula"), base=sec.get("base", {}).get("formula"))
     if ref is None:
         what = ", ".join(design.substances)
         raise InputError(f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
@@ -509,7 +510,7 @@ def plan_run(
     built, substances = build_sections(kind, params, _amount, _measured, T0, math.sqrt(q * q / 12.0 + sigma * sigma))
     sections: dict[str, dict[str, Any]] = {}
     expected_cal = None
-    if kind in CALIBRATION_KINDS:
+    if get_kind(kind).is_calibration:
         expected_cal = cal.m_as("J/K")  # what the calibration should find; not an input of its model
         if not expected_cal > 0:
             raise InputError(f"expected a heat capacity > 0 J/K, got {cal.text!r}", field="calorimeter_heat_capacity")

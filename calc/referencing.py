@@ -11,17 +11,14 @@ from typing import Any
 
 from calc.errors import CupcalError
 from calc.io.runfile import RunSpec
+from calc.kinds import get_kind
 from calc.result import Analysis
 
 __all__ = ["attach_reference", "run_reference"]
 
-#: kinds compared with the reference values of another kind
-_REFERENCE_KIND = {"dissolution-with-calibration": "dissolution"}
-
-
 def _reference_args(spec: RunSpec) -> tuple[str, str | None, str | None, str | None, str | None]:
     r = spec.sections.get("reaction", {})
-    return (_REFERENCE_KIND.get(spec.kind, spec.kind), spec.get("solute", "formula") or r.get("limiting_reagent"),
+    return (get_kind(spec.kind).compared_with, spec.get("solute", "formula") or r.get("limiting_reagent"),
             spec.get("acid", "formula"), spec.get("base", "formula"), spec.get("reference", "name"))
 
 

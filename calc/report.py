@@ -1,4 +1,4 @@
-"""Turn an :class:`calc.analysis.Analysis` into a readable report or a JSON record.
+"""Turn an :class:`calc.result.Analysis` into a readable report or a JSON record.
 
 Every number is printed through :mod:`calc.formatting` (two significant digits of the
 uncertainty, the value to the same decimal place, units always), the formatter the web pages
@@ -11,22 +11,13 @@ import math
 from typing import Any
 
 from calc import formatting as fmt
-from calc.analysis import Analysis
+from calc.kinds import get_kind
 from calc.refdata.comparison import verdict, verdict_lines, verdict_record
+from calc.result import Analysis
 
 __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BUDGET_LINES"]
 
 TOP_BUDGET_LINES = 5
-
-_KIND_TITLES = {
-    "dissolution": "Enthalpy of solution",
-    "neutralization": "Enthalpy of neutralization",
-    "reaction": "Enthalpy of reaction",
-    "electrical-calibration": "Electrical calibration",
-    "mixing-calibration": "Calibration by mixing warm and cool water",
-    "dissolution-with-calibration": "Enthalpy of solution with an in-situ electrical calibration",
-}
-
 
 def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
@@ -103,7 +94,7 @@ def format_report(analysis: Analysis, input_path: str) -> str:
     """Return the human-readable report of one run."""
     spec = analysis.spec
     lines: list[str] = []
-    title = _KIND_TITLES.get(spec.kind, spec.kind)
+    title = get_kind(spec.kind).title
     info = spec.sections.get("info", {})
     head = f"{input_path} — {title}"
     if info.get("title"):
@@ -239,9 +230,6 @@ def format_cautions(analysis: Analysis) -> list[str]:
         out.append(f"  {c.substance}: {sig}{statements}{pict}")
         if c.note:
             out.append(f"    {c.note}")
-    if analysis.spec.kind in ("electrical-calibration",):
-        out.append("  mains-free low-voltage supply only; keep the heater immersed while it is on")
-    if analysis.spec.kind in ("mixing-calibration",):
-        out.append("  hot water scalds: handle warm water with care")
+    out.extend(f"  {caution}" for caution in get_kind(analysis.spec.kind).procedure_cautions)
     out.append(f"  {general}")
     return out

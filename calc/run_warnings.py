@@ -10,6 +10,7 @@ import math
 
 from calc.deltat.methods import DeltaT
 from calc.io.runfile import RunSpec
+from calc.kinds import get_kind
 from calc.uncertainty.gum import GumResult, MonteCarloResult
 from calc.uncertainty.measurement_models import ModelSpec
 
@@ -39,13 +40,13 @@ def monte_carlo_warning(mc: MonteCarloResult, unit: str) -> list[str]:
 
 
 def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -> list[str]:
-    """Return the warnings of a run's kind: an uncertain heat capacity, a carbonate, a concentrated stock, …"""
+    """Return the warnings of a run's kind: an uncertain heat capacity, then the kind's ``warnings`` hook."""
     out: list[str] = []
-    kind = spec.kind
-    if kind in ("electrical-calibration", "mixing-calibration"):
+    kind = get_kind(spec.kind)
+    if kind.is_calibration:
         # a heat capacity outside its type's range is a plausibility check (calc.checks)
-        c = gum.values["calorimeter_heat_capacity"]
-        u = gum.uncertainties["calorimeter_heat_capacity"]
+        c = gum.values[kind.main_output]
+        u = gum.uncertainties[kind.main_output]
         if c > 0 and u / c > 0.2:
             out.append(
                 f"the calorimeter heat capacity is uncertain by {100 * u / c:.0f} % (over 20 %): "
@@ -55,22 +56,35 @@ def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -
         cal = spec.get("calorimeter", "heat_capacity")
         if cal is not None and cal.value > 0 and cal.u_as("J/K") / cal.m_as("J/K") > 0.2:
             out.append("the calorimeter heat capacity is uncertain by more than 20 %: it limits the result")
-    if kind == "neutralization":
-        base = spec.get("base", "formula")
-        if base in ("Na2CO3", "NaHCO3", "K2CO3", "KHCO3"):
-            out.append("a carbonate base gives off CO2: the product state and the heat are ill-defined")
-        for sec in ("acid", "base"):
-            c = spec.get(sec, "concentration").m_as("mol/L")
-            if c > 2.0:
-                out.append(
-                    f"{sec} stock is concentrated ({c:g} mol/L): its heat of dilution is counted with the "
-                    "reaction; use ≤ 1 mol/L"
-                )
-    if kind == "dissolution":
-        formula = spec.get("solute", "formula")
-        if formula in ("NaOH", "KOH", "CaCl2", "MgCl2", "LiCl"):
+    own = kind.hook("warnings")
+    if own is not None:
+        out.extend(own(spec))
+    return out
+
+
+# ------------------------------------------------------------------ the kinds' ``warnings`` hooks
+
+
+def neutralization_warnings(spec: RunSpec) -> list[str]:
+    """A carbonate base, a concentrated stock."""
+    out: list[str] = []
+    base = spec.get("base", "formula")
+    if base in ("Na2CO3", "NaHCO3", "K2CO3", "KHCO3"):
+        out.append("a carbonate base gives off CO2: the product state and the heat are ill-defined")
+    for sec in ("acid", "base"):
+        c = spec.get(sec, "concentration").m_as("mol/L")
+        if c > 2.0:
             out.append(
-                f"{formula} takes up water from the air: weigh it quickly from a closed container or the "
-                "amount will be overstated"
+                f"{sec} stock is concentrated ({c:g} mol/L): its heat of dilution is counted with the "
+                "reaction; use ≤ 1 mol/L"
             )
     return out
+
+
+def dissolution_warnings(spec: RunSpec) -> list[str]:
+    """A solute that takes up water from the air."""
+    formula = spec.get("solute", "formula")
+    if formula in ("NaOH", "KOH", "CaCl2", "MgCl2", "LiCl"):
+        return [f"{formula} takes up water from the air: weigh it quickly from a closed container or the "
+                "amount will be overstated"]
+    return []

@@ -15,12 +15,14 @@ from typing import Optional
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
+from calc.kinds import calibration_kinds
+
 ROLES = ("coordinator", "technician", "student")
 #: who may record or approve a calibration in force (staff)
 STAFF_ROLES = ("coordinator", "technician")
 #: a calibration's standing: in the pool of the value in force, a student's proposal, or withdrawn
 CALIBRATION_STATUSES = ("approved", "proposed", "withdrawn")
-CALIBRATION_KINDS = ("electrical-calibration", "mixing-calibration")
+CALIBRATION_KINDS = calibration_kinds()
 #: the largest id an INTEGER column holds on both databases (a larger number names nothing)
 MAX_ID = 2**31 - 1
 

@@ -33,6 +33,7 @@ from matplotlib.patches import Patch
 
 from calc import formatting as fmt
 from calc.deltat.drift import phi
+from calc.kinds import get_kind
 
 if TYPE_CHECKING:
     from calc.analysis import Analysis
@@ -406,7 +407,7 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
     ax = _margins(fig, left=0.75, right=0.25, top=0.72, bottom=1.15)
     _style_axes(ax)
     handles = _draw_log(ax, t, y, analysis.periods, ts)
-    two = analysis.kind in ("neutralization", "mixing-calibration")
+    two = get_kind(analysis.kind).two_solution
     for name, (tt, yy) in drift_curves(analysis).items():
         style = _CURVE_STYLE.get(name, dict(color=_C["bluish_green"], linestyle="--", linewidth=1.4))
         ax.plot(tt / ts, yy - _KELVIN_OFFSET, gid=f"cc-curve-{name}", **style)

@@ -23,17 +23,11 @@ from calc import limits
 from calc.errors import InputError
 from calc.limits import require_number
 from calc.io.quantities import Measured, parse_measured
+from calc.kinds import get_kind, kind_names
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
 
-KINDS = (
-    "dissolution",
-    "neutralization",
-    "electrical-calibration",
-    "mixing-calibration",
-    "reaction",
-    "dissolution-with-calibration",
-)
+KINDS = kind_names()
 
 # A field is (kind of value, expected unit or None, required).
 #  "q"   measured quantity with units ("value ± u unit")
@@ -157,15 +151,8 @@ SCHEMA["dissolution-with-calibration"] = {
     "heater_2": _HEATER_AT,
 }
 
-#: Sections every run of a kind must have.
-REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {
-    "dissolution": ("calorimeter", "thermometer", "water", "solute"),
-    "neutralization": ("calorimeter", "thermometer", "acid", "base"),
-    "electrical-calibration": ("thermometer", "water", "heater"),
-    "mixing-calibration": ("thermometer", "water", "warm_water"),
-    "reaction": ("calorimeter", "thermometer", "solution", "reaction"),
-    "dissolution-with-calibration": ("thermometer", "water", "solute", "heater"),
-}
+#: Sections every run of a kind must have (:mod:`calc.kinds`).
+REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {k: get_kind(k).required_sections for k in KINDS}
 
 _TOP: dict[str, Field] = {
     "kind": ("s", None, True),
@@ -311,7 +298,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     method = top.get("method")
     if method is not None and not isinstance(method, str):
         raise InputError("expected a method name (a string)", source=source, field="method")
-    _kind_rules(kind, sections, source)
+    _section_rules(sections, source)
     column = _parse_column(top.get("temperature_column"), source)
     return RunSpec(
         path=path,
@@ -486,13 +473,13 @@ def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -
 _ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,6})?)?(?:Z|[+-]\d{2}:\d{2})?)?$")
 
 
-def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
+def _section_rules(sections: dict[str, dict[str, Any]], source: str) -> None:
     ctype = sections.get("calorimeter", {}).get("type")
     if ctype is not None and ctype not in CALORIMETER_TYPES:
         raise InputError(f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
                          source=source, field="calorimeter.type")
-    if kind == "reaction":
-        r = sections["reaction"]
+    r = sections.get("reaction")
+    if r is not None:
         has_amount = "amount" in r
         has_mass = "mass" in r
         if has_amount == has_mass:
@@ -507,7 +494,7 @@ def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> 
                 source=source,
                 field="reaction.limiting_reagent",
             )
-    if kind in ("dissolution", "dissolution-with-calibration"):
+    if "solute" in sections:
         purity = sections["solute"].get("purity")
         if purity is not None and not (0 < purity.m_as("") <= 1):
             raise InputError(

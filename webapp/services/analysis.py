@@ -31,6 +31,8 @@ from calc.io.readings import parse_readings
 from calc.report import to_record
 from calc.io.runfile import RunSpec
 from calc.io.runfile import parse_run
+from calc.kinds import get_kind
+from calc.kinds import kind_names
 
 from webapp.models import Calibration
 from webapp.models import Result
@@ -39,7 +41,7 @@ from webapp.services.errors import Invalid
 from webapp.services.errors import TooLarge
 
 #: kinds whose model needs the calorimeter's heat capacity
-NEEDS_HEAT_CAPACITY = ("dissolution", "neutralization", "reaction")
+NEEDS_HEAT_CAPACITY = tuple(k for k in kind_names() if get_kind(k).needs_heat_capacity)
 
 _HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re.MULTILINE)
 
