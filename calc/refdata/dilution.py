@@ -22,7 +22,6 @@ from calc.refdata.species import T_REF_K, citation
 __all__ = [
     "PhiL",
     "phi_L",
-    "relative_apparent_molar_enthalpy",
     "model_spread_u",
 ]
 
@@ -130,16 +129,3 @@ def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
     value = A_H / _B * math.log(1.0 + _B * math.sqrt(m)) / 1000.0
     u = 2.0 * R_GAS * T * T * m * _BL_MAX / 1000.0
     return PhiL(value, u, "Debye–Hückel (long-range term only)", citation("DH_LIMIT"))
-
-
-def relative_apparent_molar_enthalpy(
-    formula: str, molality: float, T_K: float = T_REF_K
-) -> tuple[float, float] | None:
-    """Return (φ_L, u) in kJ/mol at a molality, or None when no published model applies.
-
-    ΔsolH(m) = ΔsolH° + φ_L(m); see :func:`phi_L` for the models and their uncertainty.
-    """
-    result = phi_L(formula, molality, T_K)
-    if result is None:
-        return None
-    return result.value, result.u

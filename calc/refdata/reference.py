@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from calc.refdata.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
+from calc.refdata.dilution import PhiL, phi_L
 from calc.errors import InputError
 from calc.refdata.hess import citation, formation_enthalpy, hess
 from calc.refdata.formula import element_composition, molar_mass
@@ -34,7 +34,6 @@ __all__ = [
     "neutralization_reference",
     "find_reference",
     "reference_names",
-    "relative_apparent_molar_enthalpy",
     "phi_L",
     "dissolution_products",
     "solute_formation_entry",

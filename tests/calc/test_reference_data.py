@@ -25,7 +25,6 @@ from calc.refdata.reference import (
     find_reference,
     neutralization_reference,
     phi_L,
-    relative_apparent_molar_enthalpy,
     solution_enthalpy,
     tabulated_solution_enthalpies,
 )
@@ -355,7 +354,7 @@ def test_phi_L_tends_to_the_debye_huckel_limiting_law() -> None:
     _, a_h = debye_huckel_slopes(298.15)
     assert a_h / 1000.0 == pytest.approx(1.99, rel=0.015)
     m = 1e-5
-    value, _ = relative_apparent_molar_enthalpy("KCl", m)
+    value = phi_L("KCl", m).value
     assert value == pytest.approx(a_h / 1000.0 * math.sqrt(m), rel=0.01)
 
 
@@ -364,14 +363,14 @@ def test_phi_L_magnitude_for_1_1_salts() -> None:
     # kJ/mol at most.
     for salt in ("NaCl", "KCl"):
         for m in (0.1, 0.5, 1.0):
-            v, _ = relative_apparent_molar_enthalpy(salt, m)
+            v = phi_L(salt, m).value
             assert -0.5 < v < 0.6
 
 
 def test_phi_L_of_an_acid_is_larger() -> None:
     # docs/methods.md §4.6: φ_L is much larger for acids than for 1:1 salts.
-    hcl, _ = relative_apparent_molar_enthalpy("HCl", 1.0)
-    nacl, _ = relative_apparent_molar_enthalpy("NaCl", 1.0)
+    hcl = phi_L("HCl", 1.0).value
+    nacl = phi_L("NaCl", 1.0).value
     assert hcl > 0.6 and hcl > 3 * abs(nacl)
 
 
