@@ -45,7 +45,7 @@ import numpy as np
 
 from calc import limits
 from calc.errors import InputError
-from calc.io.logger_formats import normalise_export
+from calc.io.logger_formats import normalize_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]
 
@@ -215,7 +215,7 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
                         source=source)
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()
     limits.require_size(len(lines), "readings_rows", what=f"the readings file ({len(lines)} lines)", source=source)
-    export = normalise_export(lines, column, source)  # instrument exports, line for line
+    export = normalize_export(lines, column, source)  # instrument exports, line for line
     if export is not None:
         lines = export.lines
     first = next((i for i, line in enumerate(lines) if not _skipped(line)), None)
