@@ -3,11 +3,14 @@
 Water
     Density and isobaric specific heat capacity at 0.101325 MPa from the IAPWS-95
     formulation (Wagner & Pruß, J. Phys. Chem. Ref. Data 31, 387 (2002)) as implemented
-    by the ``iapws`` package. One IAPWS-95 call takes a few milliseconds, so values are
-    computed on a 0.25 K grid on first use and interpolated with a four-point (cubic)
-    Lagrange polynomial; the interpolation error is below 1e-10 relative (measured over
-    0-90 degC against direct IAPWS-95 calls; the tests require < 1e-6, see
-    ``tests/calc/test_properties.py``).
+    by the ``iapws`` package. One IAPWS-95 call takes a few milliseconds (and importing
+    ``iapws`` loads ``scipy.optimize``), so cupcal ships the values on a 0.25 K grid,
+    ``calc/refdata/data/iapws95_water_grid.csv`` (written by ``python -m calc.refdata.properties``
+    from ``iapws``; the tests check every node against ``iapws``), and interpolates them with a
+    four-point (cubic) Lagrange polynomial; the interpolation error is below 1e-10 relative
+    (measured over 0-90 degC against direct IAPWS-95 calls; the tests require < 1e-6, see
+    ``tests/calc/test_properties.py``). The static dielectric constant (IAPWS 1997 release,
+    from the node's IAPWS-95 density) is interpolated the same way.
 
     Stated standard uncertainties (cupcal's choice): the uncertainties that the IAPWS-95
     release gives for liquid water at ambient pressure, taken as standard uncertainties
@@ -88,36 +91,53 @@ class PropertyValue:
 # --------------------------------------------------------------------------- water
 
 
+#: The shipped grid: nodes ``i`` at T = i · 0.25 K (IAPWS-95 at 0.101325 MPa, from ``iapws``).
+GRID_FILE = "iapws95_water_grid.csv"
+#: Node range of the shipped grid: 272.5 K to 363.75 K, the model's range plus the nodes that the
+#: interpolation and the Debye–Hückel slopes' ±0.25 K differences reach.
+GRID_NODES = (1090, 1455)
+
+
 class _WaterGrid:
-    """Lazily filled table of IAPWS-95 density (g/mL) and c_p (J/(g K)) on a 0.25 K grid."""
+    """Table of IAPWS-95 density (g/mL), c_p (J/(g K)) and dielectric constant on a 0.25 K grid.
+
+    The nodes come from the shipped file; a node outside it is computed with ``iapws`` on first use.
+    """
 
     def __init__(self) -> None:
-        self._nodes: dict[int, tuple[float, float]] = {}
+        self._nodes: dict[int, tuple[float, float, float]] | None = None
 
-    def _node(self, i: int) -> tuple[float, float]:
+    def _load(self) -> dict[int, tuple[float, float, float]]:
+        import csv
+        from importlib import resources
+
+        nodes: dict[int, tuple[float, float, float]] = {}
+        with (resources.files("calc.refdata") / "data" / GRID_FILE).open(encoding="utf-8", newline="") as fh:
+            for row in csv.DictReader(line for line in fh if not line.startswith("#")):
+                nodes[int(row["node"])] = (float(row["density_g_mL"]), float(row["cp_J_gK"]),
+                                           float(row["dielectric_constant"]))
+        return nodes
+
+    def _node(self, i: int) -> tuple[float, float, float]:
+        if self._nodes is None:
+            self._nodes = self._load()
         node = self._nodes.get(i)
         if node is None:
-            node = _iapws_direct(i * _STEP_K)
+            node = iapws_node(i)
             self._nodes[i] = node
         return node
 
-    def values(self, T_K: float) -> tuple[float, float]:
+    def values(self, T_K: float) -> tuple[float, float, float]:
         x = T_K / _STEP_K
         i = math.floor(x)
         s = x - i
-        r0, c0 = self._node(i - 1)
-        r1, c1 = self._node(i)
-        r2, c2 = self._node(i + 1)
-        r3, c3 = self._node(i + 2)
+        n0, n1, n2, n3 = (self._node(i + j) for j in (-1, 0, 1, 2))
         # Lagrange weights on nodes -1, 0, 1, 2 at fractional position s in [0, 1).
         w0 = -s * (s - 1.0) * (s - 2.0) / 6.0
         w1 = (s + 1.0) * (s - 1.0) * (s - 2.0) / 2.0
         w2 = -(s + 1.0) * s * (s - 2.0) / 2.0
         w3 = (s + 1.0) * s * (s - 1.0) / 6.0
-        return (
-            w0 * r0 + w1 * r1 + w2 * r2 + w3 * r3,
-            w0 * c0 + w1 * c1 + w2 * c2 + w3 * c3,
-        )
+        return tuple(w0 * a + w1 * b + w2 * c + w3 * d for a, b, c, d in zip(n0, n1, n2, n3))  # type: ignore[return-value]
 
 
 def _iapws_direct(T_K: float) -> tuple[float, float]:
@@ -130,6 +150,29 @@ def _iapws_direct(T_K: float) -> tuple[float, float]:
         warnings.simplefilter("ignore")
         state = iapws.IAPWS95(T=T_K, P=P_MPA)
     return float(state.rho) / 1000.0, float(state.cp)
+
+
+def iapws_node(i: int) -> tuple[float, float, float]:
+    """Return node ``i`` of the grid from ``iapws``: (density g/mL, c_p J/(g K), dielectric constant)."""
+    from iapws._iapws import _Dielectric
+
+    T = i * _STEP_K
+    rho, cp = _iapws_direct(T)
+    return rho, cp, float(_Dielectric(rho * 1000.0, T))
+
+
+def write_grid(path: str) -> None:
+    """Write the grid file (:data:`GRID_FILE`) from ``iapws``: node, T, density, c_p, dielectric constant."""
+    import iapws
+
+    with open(path, "w", encoding="utf-8", newline="\n") as fh:
+        fh.write(f"# IAPWS-95 liquid water at 0.101325 MPa (Wagner & Pruss 2002) and its static dielectric constant\n"
+                 f"# (IAPWS 1997 release), computed by the iapws package {iapws.__version__} on a 0.25 K grid;\n"
+                 "# written by `python -m calc.refdata.properties`, checked against iapws by tests/calc/test_properties.py\n")
+        fh.write("node,T_K,density_g_mL,cp_J_gK,dielectric_constant\n")
+        for i in range(GRID_NODES[0], GRID_NODES[1] + 1):
+            rho, cp, eps = iapws_node(i)
+            fh.write(f"{i},{i * _STEP_K!r},{rho!r},{cp!r},{eps!r}\n")
 
 
 _WATER = _WaterGrid()
@@ -166,7 +209,7 @@ def water_density(T_K: float) -> PropertyValue:
     InputError
         If the temperature is out of range.
     """
-    rho, _ = _WATER.values(_check_T(T_K))
+    rho = _WATER.values(_check_T(T_K))[0]
     return PropertyValue(rho, U_REL_WATER_DENSITY * rho, "g/mL", IAPWS_MODEL)
 
 
@@ -183,7 +226,7 @@ def water_specific_heat(T_K: float) -> PropertyValue:
     PropertyValue
         Value in J/(g*K) with a standard uncertainty of 1e-3 relative.
     """
-    _, cp = _WATER.values(_check_T(T_K))
+    cp = _WATER.values(_check_T(T_K))[1]
     return PropertyValue(cp, U_REL_WATER_CP * cp, "J/(g*K)", IAPWS_MODEL)
 
 
@@ -191,14 +234,11 @@ def water_specific_heat(T_K: float) -> PropertyValue:
 def water_dielectric_constant(T_K: float) -> float:
     """Return the static relative permittivity of water at T_K and 0.101325 MPa.
 
-    Uses the IAPWS 1997 release on the static dielectric constant (``iapws`` package)
-    with the IAPWS-95 density (from the interpolated grid: a direct IAPWS-95 call costs
-    several milliseconds).
+    The IAPWS 1997 release on the static dielectric constant (``iapws`` package) at the IAPWS-95
+    density, interpolated on the shipped grid like the density (within 1e-9 relative of the
+    release at the interpolated density; tests/calc/test_properties.py).
     """
-    from iapws._iapws import _Dielectric
-
-    rho = water_density(T_K).value * 1000.0  # kg/m3
-    return float(_Dielectric(rho, T_K))
+    return float(_WATER.values(_check_T(T_K))[2])
 
 
 _N_A = 6.02214076e23
@@ -397,3 +437,9 @@ def solution_properties(
     else:
         heat = _fallback(cp_w, w_solutes, FALLBACK_HALF_WIDTH_CP, why)
     return density, heat
+
+
+if __name__ == "__main__":  # pragma: no cover - regenerates the shipped grid
+    from importlib import resources
+
+    write_grid(str(resources.files("calc.refdata") / "data" / GRID_FILE))
