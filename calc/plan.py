@@ -287,15 +287,14 @@ def plan_run(
     """
     if kind not in PLANNED_KINDS:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLANNED_KINDS)}", field="kind")
-    th, T0, molar_enthalpy = _checked_numbers(
-        kind, thermometer_resolution, thermometer_noise, noise_correlation, temperature, molar_enthalpy,
-        balance_u, volume_u, (interval, fore, after, release_time, probe_time))
+    th, T0, molar_enthalpy = _checked_numbers(kind, thermometer_resolution, thermometer_noise, noise_correlation,
+                                              temperature, molar_enthalpy, balance_u, volume_u,
+                                              (interval, fore, after, release_time, probe_time))
     params = dict(formula=formula, mass=mass, water_volume=water_volume, acid=acid, base=base,
                   acid_concentration=acid_concentration, base_concentration=base_concentration,
                   acid_volume=acid_volume, base_volume=base_volume, base_temperature=base_temperature,
                   balance_u=balance_u, volume_u=volume_u, molar_enthalpy=molar_enthalpy, **(kind_inputs or {}))
-    design = _design(kind, calorimeter_heat_capacity, params, T0, th, molar_enthalpy)
-    ev = evaluate(design)
+    ev = evaluate(design := _design(kind, calorimeter_heat_capacity, params, T0, th, molar_enthalpy))
     gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
     return _plan(design, ev, gum, _window(delta_t_window, th.q))
 
