@@ -15,7 +15,7 @@ any layer, and the layer that calls it is the one that imports it):
 ``warnings``
     ``(spec) -> list[str]``, the kind's own warnings (:mod:`calc.run_warnings`).
 ``analyze``
-    replaces the whole single-event analysis (the in-situ kind, :mod:`calc.insitu`).
+    replaces the whole single-event analysis (the in-situ kind, :mod:`calc.insitu_analysis`).
 ``plan_sections``
     ``(p, amount, measured, T0, u_read) -> (sections, substances)``, the planned amounts
     (:mod:`calc.plan_kinds`); a kind without it cannot be planned.
@@ -163,7 +163,7 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType({k.name: k for k in (
         "A solid dissolved, then a heater pulse in the same log: ΔH per mole of solute, the heat capacity of "
         "cup + solution from the heater.",
         ("thermometer", "water", "solute", "heater"), "molar_enthalpy", "kJ/mol", reference_kind="dissolution",
-        hooks={"analyze": "calc.insitu:analyze_insitu",
+        hooks={"analyze": "calc.insitu_analysis:analyze_insitu",
                "simulate": "calc.simulation.insitu:simulate_dissolution_with_calibration"}),
 )})
 
