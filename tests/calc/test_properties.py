@@ -14,6 +14,7 @@ import iapws
 import pytest
 
 from calc.errors import InputError
+from calc.refdata.water import _iapws_direct
 from calc.refdata.properties import (
     FALLBACK_HALF_WIDTH_CP,
     FALLBACK_HALF_WIDTH_DENSITY,
@@ -22,7 +23,6 @@ from calc.refdata.properties import (
     T_MAX_K,
     T_MIN_K,
     PropertyValue,
-    _iapws_direct,
     _laliberte_table,
     debye_huckel_slopes,
     solution_properties,
