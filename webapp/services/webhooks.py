@@ -101,7 +101,7 @@ def deliveries_of(session: so.Session, actor: Person, webhook_id: int) -> list[W
 
 def payload(run: Run) -> dict[str, Any]:
     """Return the event body of a locked run: its current result ± u with units, and who signed it."""
-    from webapp.services.exports_run import outputs_of
+    from webapp.exports.document import outputs_of
 
     r = run.current_result
     return {
