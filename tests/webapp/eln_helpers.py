@@ -32,7 +32,7 @@ from webapp.services.demo import PEOPLE
 from webapp.services.demo import SPARE_CUP
 from webapp.services.demo import load_demo
 from webapp.services.concurrency import content_hash
-from webapp.services.exports_run import run_document
+from webapp.exports.document import run_document
 from webapp.services.runs import lock_run
 from webapp.services.runs import reanalyse_run
 from webapp.services.runs import update_run

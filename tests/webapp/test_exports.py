@@ -11,7 +11,7 @@ from openpyxl import load_workbook
 
 from tests.webapp.class_fixtures import build_section
 from webapp.models import Run
-from webapp.services.exports import neutralise
+from webapp.exports.cells import neutralise
 
 
 def test_neutralise_formula_cells() -> None:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sqlalchemy as sa
 from flask import jsonify
 from flask import request
 from flask import url_for
@@ -21,8 +20,6 @@ from webapp.api.schemas import course_json
 from webapp.api.schemas import group_json
 from webapp.api.schemas import page_json
 from webapp.db import get_session
-from webapp.models import Course
-from webapp.models import Group
 from webapp.services.calorimeters import calibration_history
 from webapp.services.calorimeters import calorimeters_query
 from webapp.services.calorimeters import create_calorimeter
@@ -30,6 +27,8 @@ from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import enter_heat_capacity
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.calorimeters import update_calorimeter
+from webapp.services.classes import courses_query
+from webapp.services.classes import groups_query
 from webapp.services.control import set_interval
 from webapp.services.people import create_course
 from webapp.services.people import create_group
@@ -196,7 +195,7 @@ def reanalyse_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-
 @bp.get("/groups")
 def list_groups():  # type: ignore[no-untyped-def]
     """List the groups."""
-    groups = get_session().scalars(sa.select(Group).order_by(Group.name)).all()
+    groups = get_session().scalars(groups_query()).all()
     return jsonify({"items": [group_json(g) for g in groups]})
 
 
@@ -213,7 +212,7 @@ def create_group_route():  # type: ignore[no-untyped-def]
 @bp.get("/courses")
 def list_courses():  # type: ignore[no-untyped-def]
     """List the courses."""
-    courses = get_session().scalars(sa.select(Course).order_by(Course.name)).all()
+    courses = get_session().scalars(courses_query()).all()
     return jsonify({"items": [course_json(c) for c in courses]})
 
 

@@ -244,18 +244,17 @@ def plan_route():  # type: ignore[no-untyped-def]
 
 # ----------------------------------------------------------------- OpenAPI document of these routes
 
-from webapp.api.openapi import PATHS  # noqa: E402
-from webapp.api.openapi import SCHEMAS  # noqa: E402
-from webapp.api.openapi import _body  # noqa: E402
-from webapp.api.openapi import _id  # noqa: E402
-from webapp.api.openapi import _json  # noqa: E402
-from webapp.api.openapi import _list_of  # noqa: E402
-from webapp.api.openapi import _op  # noqa: E402
-from webapp.api.openapi import _ref  # noqa: E402
+from webapp.api.openapi import register  # noqa: E402
+from webapp.api.openapi import request_body as _body  # noqa: E402
+from webapp.api.openapi import path_param as _id  # noqa: E402
+from webapp.api.openapi import json_response as _json  # noqa: E402
+from webapp.api.openapi import list_of as _list_of  # noqa: E402
+from webapp.api.openapi import operation as _op  # noqa: E402
+from webapp.api.openapi import schema_ref as _ref  # noqa: E402
 
 _OBJ = {"type": "object"}
 _NUM = {"type": ["number", "null"]}
-SCHEMAS.update({
+register(schemas={
     "Bench": {"type": "object", "properties": {
         "id": {"type": "integer"}, "name": {"type": "string"}, "section_id": {"type": "integer"},
         "calorimeter_id": {"type": ["integer", "null"]}, "thermometer": {"type": "string"},
@@ -290,7 +289,7 @@ SCHEMAS.update({
 _SORT = [{"name": "sort", "in": "query", "schema": {"type": "string"}},
          {"name": "dir", "in": "query", "schema": {"type": "string", "enum": ["asc", "desc"]}}]
 _SEC = [_id("section_id")]
-PATHS.update({
+register({
     "/api/sections": {
         "get": _op("List the sections you may see", _json(_list_of(_ref("Section")), "Sections"), 401),
         "post": _op("Add a section to a course (coordinators)", _json(_ref("Section"), "The new section"),

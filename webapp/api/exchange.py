@@ -23,15 +23,18 @@ from webapp.api.schemas import iso
 from webapp.api.schemas import run_json
 from webapp.db import get_session
 from webapp.embed import links
-from webapp.services import exports_run
-from webapp.services.run_report import report_html, report_pdf
+from webapp.exports.document import export_json
+from webapp.exports.document import selected_runs
+from webapp.exports.results_csv import export_csv
+from webapp.exports.report import report_html, report_pdf
 from webapp.services import webhooks
 from webapp.services.webhook_guard import guard_from_config
 from webapp.services.errors import Invalid
 from webapp.services.errors import TooLarge
 from webapp.models import MAX_ID
 from webapp.services.packages import import_package
-from webapp.services.rocrate import crate_zip, export_selection_zip
+from webapp.exports.bundle import export_selection_zip
+from webapp.exports.rocrate import crate_zip
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
 
@@ -49,10 +52,10 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
     """Export a run: json, csv, html (printable report), pdf (the same report), ro-crate (zip) or eln."""
     run = get_run(get_session(), actor(), run_id)
     if fmt == "json":
-        return _download(exports_run.export_json(get_session(), actor(), run_id), "application/json",
+        return _download(export_json(get_session(), actor(), run_id), "application/json",
                          f"cupcal-run-{run.id}.json")
     if fmt == "csv":
-        return _download(exports_run.export_csv([run]), "text/csv", f"cupcal-run-{run.id}.csv")
+        return _download(export_csv([run]), "text/csv", f"cupcal-run-{run.id}.csv")
     if fmt == "html":
         response = Response(report_html(run), mimetype="text/html")
         response.headers["Content-Security-Policy"] = "default-src 'none'; img-src data:; style-src 'unsafe-inline'"
@@ -85,12 +88,12 @@ def _run_ids(raw: str | None) -> list[int]:
 @bp.get("/exports")
 def export_selection():  # type: ignore[no-untyped-def]
     """Export a selection of runs (``run_ids=3,7``): zip (CSV, JSON and RO-Crate per run) or csv."""
-    runs = exports_run.selected_runs(get_session(), actor(), _run_ids(request.args.get("run_ids")))
+    runs = selected_runs(get_session(), actor(), _run_ids(request.args.get("run_ids")))
     fmt = request.args.get("format", "zip")
     if fmt == "zip":
         return _download(export_selection_zip(runs), "application/zip", "cupcal-runs.zip")
     if fmt == "csv":
-        return _download(exports_run.export_csv(runs), "text/csv", "cupcal-runs.csv")
+        return _download(export_csv(runs), "text/csv", "cupcal-runs.csv")
     if fmt == "eln":
         from webapp.services import eln
 

@@ -6,6 +6,7 @@ and that the document is valid OpenAPI (openapi-spec-validator).
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 from calc import __version__
@@ -41,6 +42,17 @@ def _op(summary: str, ok: dict[str, Any], *codes: int, params: list[dict[str, An
     if public:
         op["security"] = []
     return op
+
+
+def register(paths: Mapping[str, Any] | None = None, schemas: Mapping[str, Any] | None = None) -> None:
+    """Add another API module's paths and component schemas to the document (at its import).
+
+    :raise ValueError: for a path or schema that is documented already (a second entry would hide the first)
+    """
+    for table, new in ((PATHS, paths or {}), (SCHEMAS, schemas or {})):
+        if twice := sorted(set(table) & set(new)):
+            raise ValueError(f"OpenAPI entries documented twice: {', '.join(twice)}")
+        table.update(new)
 
 
 _IF_MATCH = {"name": "If-Match", "in": "header", "required": False, "schema": {"type": "string"},
@@ -335,3 +347,7 @@ def document() -> dict[str, Any]:
 def openapi():  # type: ignore[no-untyped-def]
     """Return the OpenAPI document (no token needed)."""
     return jsonify(document())
+
+
+#: the builders of entries, public for the API modules that :func:`register` their own
+schema_ref, json_response, path_param, operation, request_body, list_of = _ref, _json, _id, _op, _body, _list_of

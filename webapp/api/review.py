@@ -7,11 +7,11 @@ from typing import Any
 from flask import jsonify
 
 from webapp.api.blueprint import bp
-from webapp.api.openapi import PATHS
-from webapp.api.openapi import _body
-from webapp.api.openapi import _id
-from webapp.api.openapi import _json
-from webapp.api.openapi import _op
+from webapp.api.openapi import register
+from webapp.api.openapi import request_body as _body
+from webapp.api.openapi import path_param as _id
+from webapp.api.openapi import json_response as _json
+from webapp.api.openapi import operation as _op
 from webapp.api.params import actor
 from webapp.api.params import as_float
 from webapp.api.params import json_object
@@ -102,7 +102,7 @@ def get_scheme(section_id: int):  # type: ignore[no-untyped-def]
 
 _RUN = [_id("run_id")]
 _OBJ = {"type": "object"}
-PATHS.update({
+register({
     "/api/runs/{run_id}/review": {
         "post": _op("Withdraw, restore, exclude, include, accept or unaccept a run, with a reason (audited)",
                     _json(_OBJ, "What is now decided on the run"), 400, 401, 403, 404, 409, params=_RUN,

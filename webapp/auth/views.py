@@ -4,7 +4,6 @@ from __future__ import annotations
 
 from urllib.parse import urlsplit
 
-import sqlalchemy as sa
 from flask import flash
 from flask import make_response
 from flask import redirect
@@ -21,9 +20,10 @@ from webapp.auth.forms import ConfirmForm
 from webapp.auth.forms import LoginForm
 from webapp.auth.forms import TokenForm
 from webapp.db import get_session
-from webapp.models import ApiToken
 from webapp.services import people
 from webapp.services import throttle
+from webapp.services.tokens import issue_scoped_token
+from webapp.services.tokens import tokens_of
 from webapp.services.errors import ServiceError
 
 
@@ -82,12 +82,8 @@ def tokens():  # type: ignore[no-untyped-def]
     form = TokenForm()
     secret = None
     if form.validate_on_submit():
-        from webapp.services.tokens import issue_scoped_token
-
         _token, secret = issue_scoped_token(session, current_user, form.label.data or "", form.scope.data or "read")
-    mine = session.scalars(
-        sa.select(ApiToken).where(ApiToken.person_id == current_user.id).order_by(ApiToken.id.desc())
-    ).all()
+    mine = tokens_of(session, current_user)
     return render_template("auth/tokens.html", form=form, tokens=mine, secret=secret, revoke_form=ConfirmForm())
 
 

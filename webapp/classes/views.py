@@ -37,9 +37,9 @@ from webapp.services.dashboard import course_dashboard
 from webapp.services.dashboard import section_dashboard
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
-from webapp.services.exports import export_csv
-from webapp.services.exports import export_xlsx
-from webapp.services.exports import grading_extras
+from webapp.exports.grading import grading_csv
+from webapp.exports.grading import grading_xlsx
+from webapp.exports.grading import grading_extras
 from webapp.services.people import create_course
 from webapp.services.comments import group_comments
 from webapp.services.series import group_series
@@ -211,12 +211,12 @@ def course_board(course_id: int):  # type: ignore[no-untyped-def]
 def _export(board: Dashboard, fmt: str, stem: str) -> Response:
     extras = grading_extras(get_session(), board)
     if fmt == "xlsx":
-        return Response(export_xlsx(board, extras),
+        return Response(grading_xlsx(board, extras),
                         mimetype="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                         headers={"Content-Disposition": f'attachment; filename="{stem}.xlsx"'})
     if fmt != "csv":
         raise Invalid("expected format csv or xlsx", field="format")
-    return Response(export_csv(board, extras), mimetype="text/csv",
+    return Response(grading_csv(board, extras), mimetype="text/csv",
                     headers={"Content-Disposition": f'attachment; filename="{stem}.csv"'})
 
 

@@ -196,7 +196,7 @@ def links_csv(links: list[IssuedLink], base_url: str) -> str:
     import csv
     import io
 
-    from webapp.services.exports import neutralise
+    from webapp.exports.cells import neutralise
 
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")

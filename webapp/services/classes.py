@@ -101,6 +101,11 @@ def courses_query() -> sa.Select[tuple[Course]]:
     return sa.select(Course).order_by(Course.name)
 
 
+def groups_query() -> sa.Select[tuple[Group]]:
+    """Return the query of every group by name (the API's list of groups)."""
+    return sa.select(Group).order_by(Group.name)
+
+
 # ----------------------------------------------------------------- operations
 
 

@@ -4,7 +4,7 @@ An archive is a zip holding exactly one folder, named like the archive, with
 ``ro-crate-metadata.json`` (RO-Crate 1.1) and one sub-folder per experiment:
 
 - ``run-<id>/``: the run file and the log exactly as uploaded, ``result.json`` (the current
-  result), ``cupcal-export.json`` (the run's full JSON export of :mod:`exports_run`, with the
+  result), ``cupcal-export.json`` (the run's full JSON export of :mod:`webapp.exports.document`, with the
   audit trail, which an import reads back exactly), ``report.html`` (and ``report.pdf`` in a
   one-run archive) and SVG plots;
 - ``calorimeter-<id>/``: ``calorimeter.json`` with the calorimeter and its calibrations.
@@ -43,13 +43,13 @@ from webapp.services.calorimeters import get_calorimeter
 from webapp.services.classes import get_section
 from webapp.services.eln_plots import plots_of
 from webapp.services.errors import Invalid
-from webapp.services.exports_run import _iso
-from webapp.services.exports_run import run_document
-from webapp.services.exports_run import selected_runs
-from webapp.services.rocrate import CONTEXT
-from webapp.services.rocrate import EXPORT_NAME
-from webapp.services.rocrate import METADATA
-from webapp.services.rocrate import PROFILE
+from webapp.exports.document import iso
+from webapp.exports.document import run_document
+from webapp.exports.document import selected_runs
+from webapp.exports.rocrate import CONTEXT
+from webapp.exports.rocrate import EXPORT_NAME
+from webapp.exports.rocrate import METADATA
+from webapp.exports.rocrate import PROFILE
 
 #: the namespace of cupcal's own terms in the metadata
 NAMESPACE = "urn:cupcal:terms:"
@@ -158,7 +158,7 @@ def review_document(run: Run) -> dict[str, Any] | None:
         return None
     return {"withdrawn": r.withdrawn, "withdrawn_reason": r.withdrawn_reason, "excluded": r.excluded,
             "excluded_reason": r.excluded_reason, "accepted": r.accepted, "accepted_reason": r.accepted_reason,
-            "mark_points": r.mark_points, "mark_reason": r.mark_reason, "updated_at": _iso(r.updated_at),
+            "mark_points": r.mark_points, "mark_reason": r.mark_reason, "updated_at": iso(r.updated_at),
             "updated_by": r.updated_by_id and _who_id(run, r.updated_by_id)}
 
 
@@ -205,7 +205,7 @@ def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, f
     entity: dict[str, Any] = {
         "@id": folder, "@type": "Dataset", "name": run.title or run.run_file_name,
         "description": summary_text(run, doc), "author": archive.person(run.author),
-        "dateCreated": _iso(run.created_at), "dateModified": _iso(_modified(run)),
+        "dateCreated": iso(run.created_at), "dateModified": iso(_modified(run)),
         "keywords": ["calorimetry", run.kind], "hasPart": [{"@id": f} for f in files],
         "cupcal:kind": run.kind, "cupcal:runId": run.id, "cupcal:locked": run.locked,
     }
@@ -238,12 +238,12 @@ def calibration_document(c: Calibration) -> dict[str, Any]:
         "id": c.id,
         "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
                           "unit": "J/K"},
-        "taken_at": _iso(c.taken_at), "created_at": _iso(c.created_at), "note": c.note,
+        "taken_at": iso(c.taken_at), "created_at": iso(c.created_at), "note": c.note,
         "created_by": _who(c.created_by),
         "from_run": c.result.run_id if c.result is not None else None, "from_result": c.result_id,
-        "status": c.status, "approved_by": _who(c.approved_by), "approved_at": _iso(c.approved_at),
-        "withdrawn_by": _who(c.withdrawn_by), "withdrawn_at": _iso(c.withdrawn_at),
-        "withdrawn_reason": c.withdrawn_reason, "restart": c.restart, "in_force_at": _iso(c.in_force_at),
+        "status": c.status, "approved_by": _who(c.approved_by), "approved_at": iso(c.approved_at),
+        "withdrawn_by": _who(c.withdrawn_by), "withdrawn_at": iso(c.withdrawn_at),
+        "withdrawn_reason": c.withdrawn_reason, "restart": c.restart, "in_force_at": iso(c.in_force_at),
         "pool": c.pool,
     }
 
@@ -252,7 +252,7 @@ def calorimeter_document(cal: Calorimeter) -> dict[str, Any]:
     """Return a calorimeter with its calibrations, oldest first, as JSON-ready data."""
     return {
         "format": CALORIMETER_FORMAT, "format_version": CALORIMETER_VERSION,
-        "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": _iso(cal.created_at),
+        "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": iso(cal.created_at),
         "calibration_interval_days": cal.calibration_interval_days, "vessel_type": cal.vessel_type,
         "calibrations": [calibration_document(c) for c in sorted(cal.calibrations, key=lambda c: (c.taken_at, c.id))],
         "audit_trail": calorimeter_trail(cal),
@@ -287,8 +287,8 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
         "description": f"Calorimeter {cal.name} ({cal.parts or 'parts not given'}; {cal.location or 'no location'}). "
                        f"Calibrations: {history or 'none'}.",
         "author": archive.person(created_by.created_by) if created_by else None,
-        "dateCreated": _iso(cal.created_at),
-        "dateModified": _iso(max([cal.created_at] + [c.created_at for c in cal.calibrations])),
+        "dateCreated": iso(cal.created_at),
+        "dateModified": iso(max([cal.created_at] + [c.created_at for c in cal.calibrations])),
         "hasPart": [{"@id": path}], "cupcal:calorimeter": cal.name, "cupcal:vesselType": cal.vessel_type,
     })
     if archive.graph[-1]["author"] is None:
@@ -300,7 +300,7 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
 
 def finish(archive: Archive, description: str) -> None:
     """Write the metadata (the descriptor, the root dataset, every entity) into the archive."""
-    now = _iso(_utc_now())
+    now = iso(_utc_now())
     graph: list[dict[str, Any]] = [
         {"@id": METADATA, "@type": "CreativeWork", "about": {"@id": "./"}, "conformsTo": {"@id": PROFILE},
          "dateCreated": now, "sdPublisher": {"@id": "#cupcal"}},
@@ -407,8 +407,8 @@ def report_renderer(pdf: bool = False) -> Any:
 
     The PDF takes about a second a run, so it is made for one-run archives only.
     """
-    from webapp.services.run_report import report_html
-    from webapp.services.run_report import report_pdf
+    from webapp.exports.report import report_html
+    from webapp.exports.report import report_pdf
 
     def render(run: Run) -> dict[str, bytes]:
         out = {REPORT_NAME: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "")

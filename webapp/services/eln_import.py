@@ -43,15 +43,15 @@ from webapp.services.eln_restore import when
 from webapp.services.errors import Invalid
 from webapp.services.errors import ServiceError
 from webapp.services.errors import storage_error
-from webapp.services.exports_run import FORMAT
+from webapp.exports.document import FORMAT
 from webapp.services.imports import ImportItem
 from webapp.services.imports import ImportReport
 from webapp.services.imports import Limits
 from webapp.services.imports import _readings_name
 from webapp.services.imports import _record
 from webapp.services.imports import content_hash
-from webapp.services.rocrate import EXPORT_NAME
-from webapp.services.rocrate import METADATA
+from webapp.exports.rocrate import EXPORT_NAME
+from webapp.exports.rocrate import METADATA
 from webapp.services.runs import RunUpload
 
 DEFAULT_PASSWORD_METHOD = "scrypt"

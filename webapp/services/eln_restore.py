@@ -45,8 +45,8 @@ from webapp.services.eln_calibrations import new_calorimeter
 from webapp.services.eln_calibrations import restore_calibrations
 from webapp.services.eln_calibrations import restore_trail
 from webapp.services.errors import Invalid
-from webapp.services.exports_run import FORMAT
-from webapp.services.exports_run import result_document
+from webapp.exports.document import FORMAT
+from webapp.exports.document import result_document
 from webapp.services.imports import content_hash
 from webapp.services.packages import _file
 from webapp.services.packages import _options

@@ -30,10 +30,10 @@ from webapp.services.calorimeters import current_calibration
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Invalid
 from webapp.services.jsontext import load_json
-from webapp.services.exports_run import FORMAT
-from webapp.services.rocrate import EXPORT_NAME
-from webapp.services.rocrate import METADATA
-from webapp.services.rocrate import PROFILE
+from webapp.exports.document import FORMAT
+from webapp.exports.rocrate import EXPORT_NAME
+from webapp.exports.rocrate import METADATA
+from webapp.exports.rocrate import PROFILE
 from webapp.services.runs import RunUpload
 from webapp.services.runs import record_run
 

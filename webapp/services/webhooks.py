@@ -2,8 +2,8 @@
 
 The event is ``run.locked``: a run's result is final when the run is signed (locked), since
 nothing about it may change afterwards. The delivery rows are added in the transaction that
-locks the run (a ``before_flush`` listener, so every path that locks a run is covered) and
-sent by :func:`deliver_due` (``cupcal webhooks deliver``, or after the lock request when
+locks the run (a ``before_flush`` session hook, :mod:`webapp.db.webhook_queue`, so every path
+that locks a run is covered) and sent by :func:`deliver_due` (``cupcal webhooks deliver``, or after the lock request when
 ``WEBHOOKS_DELIVER_INLINE`` is set).
 
 Each POST carries ``X-Cupcal-Event``, ``X-Cupcal-Delivery`` (the delivery id) and
@@ -20,7 +20,6 @@ from __future__ import annotations
 import datetime as dt
 import hashlib
 import hmac
-import json
 import secrets
 from typing import Any
 
@@ -101,7 +100,7 @@ def deliveries_of(session: so.Session, actor: Person, webhook_id: int) -> list[W
 
 def payload(run: Run) -> dict[str, Any]:
     """Return the event body of a locked run: its current result ± u with units, and who signed it."""
-    from webapp.services.exports_run import outputs_of
+    from webapp.exports.document import outputs_of
 
     r = run.current_result
     return {
@@ -115,28 +114,6 @@ def payload(run: Run) -> dict[str, Any]:
             "coverage_factor": r.coverage_factor, "method": r.method, "software_version": r.software_version,
         },
     }
-
-
-def _queue_on_lock(session: so.Session, _ctx: Any, _instances: Any) -> None:
-    for obj in list(session.dirty):
-        if not isinstance(obj, Run):
-            continue
-        hist = sa.inspect(obj).attrs.locked.history
-        if not (hist.added and hist.added[0] is True):
-            continue
-        hooks = session.scalars(sa.select(Webhook).where(Webhook.active.is_(True))).all()
-        if not hooks:
-            continue
-        body = json.dumps(payload(obj), ensure_ascii=False, sort_keys=True)
-        for hook in hooks:
-            session.add(WebhookDelivery(webhook=hook, event=EVENT, run_id=obj.id, body=body, status="pending",
-                                        attempts=0, next_attempt_at=utcnow(), last_error=""))
-
-
-def install(factory: so.sessionmaker[so.Session]) -> None:
-    """Queue webhook deliveries whenever a session of ``factory`` locks a run."""
-    if not sa.event.contains(factory, "before_flush", _queue_on_lock):
-        sa.event.listen(factory, "before_flush", _queue_on_lock)
 
 
 def backoff(attempts: int, base: float = BACKOFF_BASE_S) -> dt.timedelta:

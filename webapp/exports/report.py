@@ -5,8 +5,8 @@ from __future__ import annotations
 from flask import render_template
 
 from webapp.models import Run
-from webapp.services import exports_run
-from webapp.services.report_pdf import html_to_pdf, plot_png_uri
+from webapp.exports.document import run_document
+from webapp.exports.pdf import html_to_pdf, plot_png_uri
 
 __all__ = ["report_html", "report_pdf"]
 
@@ -15,7 +15,7 @@ def report_html(run: Run, plot_uri: str | None = None) -> str:
     """Return the printable HTML report of a run (print styles; the plot inline, SVG unless ``plot_uri`` is given)."""
     from webapp.embed.views import plot_data_uri
 
-    doc = exports_run.run_document(run)
+    doc = run_document(run)
     if plot_uri is None:
         plot_uri = plot_data_uri(run) if run.current_result else ""
     return render_template("exchange/report.html", run=run, result=run.current_result, doc=doc, plot_uri=plot_uri)

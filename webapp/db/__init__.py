@@ -3,7 +3,9 @@
 The engine is made by :func:`init_app` and kept in ``app.extensions``; the session
 is opened on first use in a request (:func:`get_session`), cached on ``g`` and
 closed in teardown, rolled back when the request failed. One ``connect`` listener
-sets the SQLite pragmas (WAL, foreign keys, busy timeout).
+sets the SQLite pragmas (WAL, foreign keys, busy timeout). The session factory carries the
+session hooks: :mod:`webapp.db.locked_runs` (a signed run cannot change) and
+:mod:`webapp.db.webhook_queue` (locking a run queues its webhook deliveries).
 """
 
 from __future__ import annotations
@@ -53,9 +55,11 @@ def init_app(app: Flask) -> None:
     """Create the app's engine and session factory and register the teardown."""
     engine = make_engine(app.config["DATABASE_URL"], busy_timeout_ms=app.config["SQLITE_BUSY_TIMEOUT_MS"])
     factory = so.sessionmaker(bind=engine)
-    from webapp.services.locking import install
+    from webapp.db import locked_runs
+    from webapp.db import webhook_queue
 
-    install(factory)  # signed runs stay immutable whatever path writes
+    locked_runs.install(factory)  # signed runs stay immutable whatever path writes
+    webhook_queue.install(factory)  # queue webhook deliveries when a run is locked
     app.extensions[_EXT] = {"engine": engine, "sessionmaker": factory}
     app.teardown_appcontext(close_session)
 

@@ -6,7 +6,7 @@ value to the same decimal place (``result`` gives both as text with the unit); E
 Statistics are rounded the same way against their standard deviation.
 
 Cells that a spreadsheet would run as a formula (text starting with ``=``, ``+``, ``-``, ``@``,
-a tab or a carriage return) get a leading apostrophe (OWASP "CSV injection"); numbers are
+a tab or a carriage return) get a leading apostrophe (:mod:`webapp.exports.cells`); numbers are
 written as numbers.
 """
 
@@ -19,6 +19,7 @@ import math
 from collections.abc import Iterator
 from typing import Any
 
+from webapp.exports.cells import neutralise
 from webapp.services.dashboard import FLAGS
 from webapp.services.dashboard import Dashboard
 
@@ -27,15 +28,6 @@ COLUMNS = ("run", "section", "group", "names", "bench", "title", "kind", "measur
            "mark", "mark_source", "mark_detail", "feedback", "comments")
 STATS_COLUMNS = ("measurement", "unit", "results", "groups", "mean", "sd", "s_r", "s_L", "s_R", "r", "R",
                  "reference", "note")
-_DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
-
-
-def neutralise(value: Any) -> Any:
-    """Return ``value`` safe for a spreadsheet: text that starts like a formula gets a leading apostrophe."""
-    if isinstance(value, str) and value.startswith(_DANGEROUS):
-        return "'" + value
-    return value
-
 
 def gum_round(value: float | None, U: float | None) -> tuple[float | None, float | None, int]:
     """Return value and U rounded by the GUM rule (U to two significant digits) and the decimals used."""
@@ -118,7 +110,7 @@ def stats_rows(board: Dashboard) -> Iterator[list[Any]]:
                r(s.r), r(s.R), r(s.reference), neutralise(s.note)]
 
 
-def export_csv(board: Dashboard, extras: GradingExtras | None = None) -> str:
+def grading_csv(board: Dashboard, extras: GradingExtras | None = None) -> str:
     """Return the runs, then a blank line and the statistics, as CSV text."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")
@@ -132,7 +124,7 @@ def export_csv(board: Dashboard, extras: GradingExtras | None = None) -> str:
     return buf.getvalue()
 
 
-def export_xlsx(board: Dashboard, extras: GradingExtras | None = None) -> bytes:
+def grading_xlsx(board: Dashboard, extras: GradingExtras | None = None) -> bytes:
     """Return a workbook (openpyxl) with the sheets ``runs``, ``statistics`` and ``flags``."""
     from openpyxl import Workbook
 

@@ -18,7 +18,7 @@ from calc import __version__
 
 from webapp.models import Person
 from webapp.models import Run
-from webapp.services.exports_run import export_csv, run_document
+from webapp.exports.document import run_document
 
 METADATA = "ro-crate-metadata.json"
 EXPORT_NAME = "cupcal-export.json"
@@ -91,14 +91,3 @@ def crate_zip(run: Run) -> bytes:
             z.writestr(name, data)
     return out.getvalue()
 
-
-def export_selection_zip(runs: list[Run], crate: bool = True) -> bytes:
-    """Return a zip of a selection: ``results.csv``, and per run its JSON export and RO-Crate zip."""
-    out = io.BytesIO()
-    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as z:
-        z.writestr("results.csv", export_csv(runs))
-        for run in runs:
-            z.writestr(f"run-{run.id}.json", json.dumps(run_document(run), ensure_ascii=False, indent=2))
-            if crate:
-                z.writestr(f"run-{run.id}.crate.zip", crate_zip(run))
-    return out.getvalue()

@@ -1,4 +1,4 @@
-"""Keep signed runs immutable on every path: a flush that would change one fails.
+"""Session hook: keep signed runs immutable on every path; a flush that would change one fails.
 
 :func:`guard_locked_runs` is registered on the app's session factory
 (:func:`webapp.db.init_app`), so it holds for views, the API, commands and any

@@ -1,4 +1,4 @@
-"""Exports of runs for a lab notebook: one JSON document per run, CSV rows per result, a zip per selection.
+"""The JSON export of one run for a lab notebook, and the runs of a selection.
 
 The JSON export carries everything needed to reproduce the run: the run file text and the
 readings exactly as stored (UTF-8 text, or base64 when the bytes are not UTF-8), every output
@@ -11,10 +11,8 @@ viewing the run (:func:`webapp.services.runs.get_run`).
 from __future__ import annotations
 
 import base64
-import csv
 import datetime as dt
 import hashlib
-import io
 import json
 from collections.abc import Iterable
 from typing import Any
@@ -31,7 +29,6 @@ from webapp.quantities import RESULT_OUTPUTS
 from webapp.quantities import result_value
 from webapp.services.errors import Invalid
 from webapp.services.errors import NotFound
-from webapp.services.exports import neutralise
 from webapp.services.runs import get_run
 
 FORMAT = "cupcal-run-export"
@@ -39,13 +36,9 @@ FORMAT_VERSION = 1
 #: most runs in one selection export
 MAX_SELECTION = 200
 
-CSV_COLUMNS = ("run", "result", "current", "title", "kind", "method", "measurement", "value",
-               "standard_uncertainty", "expanded_uncertainty", "coverage_factor", "unit",
-               "corrected_delta_t_K", "corrected_delta_t_K_u", "heat_J", "heat_J_u", "En", "warnings",
-               "author", "recorded_at", "analysed_at", "calibration_id", "locked", "software_version")
 
-
-def _iso(value: dt.datetime | None) -> str | None:
+def iso(value: dt.datetime | None) -> str | None:
+    """Return a stored (naive UTC) time as ISO 8601 with ``Z``, or None."""
     return None if value is None else value.isoformat() + "Z"
 
 
@@ -94,7 +87,7 @@ def result_document(result: Result) -> dict[str, Any]:
         "properties": result.properties,
         "monte_carlo": result.monte_carlo,
         "software_version": result.software_version,
-        "analysed_at": _iso(result.created_at),
+        "analysed_at": iso(result.created_at),
         "analysed_by": _person(result.created_by),
     }
 
@@ -118,7 +111,7 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
         "format": FORMAT,
         "format_version": FORMAT_VERSION,
         "software": {"name": "cupcal", "version": __version__},
-        "exported_at": _iso(exported_at or dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)),
+        "exported_at": iso(exported_at or dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)),
         "run": {
             "id": run.id, "kind": run.kind, "title": run.title, "operator": run.operator, "bench": run.bench,
             "performed_on": run.performed_on, "notes": run.notes, "points": run.points,
@@ -135,19 +128,19 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
         "earlier_results": [result_document(r) for r in run.results if r is not current],
         "provenance": {
             "recorded_by": _person(run.author),
-            "recorded_at": _iso(run.created_at),
+            "recorded_at": iso(run.created_at),
             "calibration": None if cal is None else {
                 "id": cal.id,
                 "calorimeter": cal.calorimeter.name,
                 "heat_capacity": {"value": cal.heat_capacity_j_k, "standard_uncertainty": cal.heat_capacity_j_k_std,
                                   "unit": "J/K"},
-                "taken_at": _iso(cal.taken_at),
+                "taken_at": iso(cal.taken_at),
                 "from_run": cal.result.run_id if cal.result is not None else None,
                 "note": cal.note,
             },
             "locked": run.locked,
             "locked_by": _person(run.locked_by),
-            "locked_at": _iso(run.locked_at),
+            "locked_at": iso(run.locked_at),
         },
     }
 
@@ -156,40 +149,6 @@ def export_json(session: so.Session, actor: Person, run_id: int) -> str:
     """Return the JSON export of a run ``actor`` may see."""
     return json.dumps(run_document(get_run(session, actor, run_id)), ensure_ascii=False, indent=2,
                       allow_nan=False)
-
-
-def _cell(v: Any) -> Any:
-    if v is None:
-        return ""
-    if isinstance(v, float):
-        return repr(v)
-    return neutralise(v) if isinstance(v, str) else v
-
-
-def result_rows(run: Run) -> Iterable[list[Any]]:
-    """Yield one CSV row per result of ``run``, oldest first (text neutralised against formulas)."""
-    for r in run.results:
-        main = result_value(r, r.main) or (None, None, "")
-        dt_ = result_value(r, "corrected_delta_t") or (None, None, "")
-        heat = result_value(r, "heat") or (None, None, "")
-        vd = verdict(r.comparison)
-        en = vd.En if vd is not None else None
-        yield [run.id, r.id, "yes" if r.is_current else "no", run.title, run.kind, r.method, r.main,
-               main[0], main[1], r.expanded_uncertainty, r.coverage_factor, main[2], dt_[0], dt_[1],
-               heat[0], heat[1], en, "; ".join(str(w) for w in (r.warnings or [])), run.author.name,
-               _iso(run.created_at), _iso(r.created_at), run.calibration_id, "yes" if run.locked else "no",
-               r.software_version]
-
-
-def export_csv(runs: Iterable[Run]) -> str:
-    """Return CSV text: a header, then one row per result of each run."""
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\r\n")
-    w.writerow(CSV_COLUMNS)
-    for run in runs:
-        for row in result_rows(run):
-            w.writerow([_cell(v) for v in row])
-    return buf.getvalue()
 
 
 def selected_runs(session: so.Session, actor: Person, run_ids: Iterable[int]) -> list[Run]:
