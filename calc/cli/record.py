@@ -21,11 +21,12 @@ _KINDS = ("dissolution", "neutralization", "electrical-calibration", "mixing-cal
 
 
 def _profile(device: str | None, pattern: str | None, unit: str | None, simulate: bool) -> Any:
-    from calc.live.devices import PROFILES, load_profile, make_profile
+    from calc.live.devices import PROFILES, load_profile, make_profile, temperature_unit
 
     if pattern is not None or unit is not None:
         if pattern is None or unit is None or device is not None:
             raise InputError("give --pattern and --unit together, and not with --device", field="--pattern")
+        temperature_unit(unit, where="--unit")  # refused naming --unit, before the pattern is looked at
         return make_profile("command line", pattern, unit, where="--pattern")
     if device is None:
         return PROFILES["stamped-kelvin" if simulate else "bare-celsius"]
@@ -83,9 +84,7 @@ def _streamer(notebook: str | None, token: str | None, run_text: str | None, tar
               sidecar: Any, side_file: Path) -> Any:
     from calc.live.stream import NotebookClient, Streamer
 
-    if notebook is None:
-        if token is not None:
-            raise InputError("--token needs --notebook URL", field="--token")
+    if notebook is None:  # a token in CUPCAL_TOKEN without --notebook is simply not used
         return None
     if not token or run_text is None:
         missing = "--token (or CUPCAL_TOKEN)" if not token else "--run-file"
@@ -121,7 +120,7 @@ def _finish(streamer: Any, out: Path) -> None:
         answer = streamer.client.finish(streamer.live_id, out.read_text(encoding="utf-8"))
     except CupcalError as exc:
         raise InputError(f"could not finish the live run {streamer.live_id} ({exc}); the log is kept, "
-                         "run the same command with --finish again", source=str(out)) from None
+                         "upload the log with its run file", source=str(out)) from None
     click.echo(f"notebook: stored as run {answer.get('run_id')} ({answer.get('run_url', '')})")
 
 
@@ -186,7 +185,18 @@ def record_command(out: Path, **opts: Any) -> None:
     written row by row (flushed and synced), and running the same command again resumes it.
     Ctrl-C or SIGTERM ends the recording cleanly. See docs/recording.md.
     """
-    from calc.live.recorder import Recorder, open_log
+    try:
+        parts = _open(out, opts)
+    except InputError as exc:
+        where = f"{exc.field}: " if exc.field and exc.field.startswith("--") and not exc.source else ""
+        click.echo(f"cupcal record: {where}{exc.message if where else exc}", err=True)
+        raise click.exceptions.Exit(2) from None
+    _record(out, opts, *parts)
+
+
+def _open(out: Path, opts: dict[str, Any]) -> tuple[Any, ...]:
+    """Check the options, open the source, then the log (so a bad port leaves no file behind)."""
+    from calc.live.recorder import open_log
 
     profile = _profile(opts["device"], opts["pattern"], opts["unit"], opts["simulate"] is not None)
     sim = thermo = None
@@ -194,34 +204,53 @@ def record_command(out: Path, **opts: Any) -> None:
         sim, thermo = _simulator().simulated_thermometer(opts["simulate"], opts["seed"], profile,
                                                          speed=opts["speed"], garble=opts["garble"])
     run_text = _run_text(opts["run_file"], sim, out)
-    log, sidecar, side_file = open_log(out)
+    source = _source(opts["port"], opts["baud"], opts["command"], opts["follow"], opts["from_start"], thermo)
     try:
-        streamer = _streamer(opts["notebook"], opts["token"], run_text, opts["target_u"], sidecar, side_file)
-        source = _source(opts["port"], opts["baud"], opts["command"], opts["follow"], opts["from_start"], thermo)
+        log, sidecar, side_file = open_log(out)
+        try:
+            streamer = _streamer(opts["notebook"], opts["token"], run_text, opts["target_u"], sidecar, side_file)
+        except BaseException:
+            log.close()
+            raise
     except BaseException:
-        log.close()
+        source.close()
+        if thermo is not None:
+            thermo.close()
         raise
+    return profile, sim, thermo, source, log, sidecar, side_file, streamer
+
+
+def _record(out: Path, opts: dict[str, Any], profile: Any, sim: Any, thermo: Any, source: Any, log: Any,
+            sidecar: Any, side_file: Path, streamer: Any) -> None:
+    """Record until stopped, then close everything, print the summary and finish if asked."""
+    from calc.live.recorder import Recorder
+
     _start_message(out, log, source, profile, sim)
     echo = None if opts["quiet"] else (lambda seq, t, c: click.echo(f"{seq:6d}  {t:10.3f} s  {c:9.4f} °C"))
     recorder = Recorder(source, profile, log, sidecar, side_file, on_bad_line=lambda text: click.echo(
         f"refused line: {text}", err=True), on_reading=_both(echo, streamer))
     if streamer is not None:
         streamer.start(list(log.rows))
-    try:
-        with _Stop() as stop:
+    with _Stop() as stop:
+        try:
             summary = recorder.run(stop.event.is_set, max_readings=opts["max_readings"],
                                    idle_stop=None if thermo is None else thermo.done.is_set)
-    finally:
-        source.close()
-        log.close()
-        if thermo is not None:
-            thermo.close()
-    sent_all = streamer.close() if streamer is not None else True
-    _summary(summary, out, log, streamer, sent_all)
-    if sim is not None:
-        _truth(sim, out)
-    if opts["finish"] and streamer is not None:
-        _finish(streamer, out)
+        finally:
+            source.close()
+            log.close()
+            if thermo is not None:
+                thermo.close()
+        if streamer is not None and streamer.pending and streamer.refused is None:
+            click.echo(f"notebook: sending the last {streamer.pending} reading(s) (at most 10 s)…", err=True)
+        sent_all = streamer.close(wait_s=10.0) if streamer is not None else True
+        _summary(summary, out, log, streamer, sent_all)
+        if sim is not None:
+            _truth(sim, out)
+        if opts["finish"] and streamer is not None and not summary.failed:
+            _finish(streamer, out)
+        elif opts["finish"] and streamer is not None:
+            click.echo("notebook: not finished, the recording ended by a fault; run the same command again "
+                       "to go on recording into the same live run", err=True)
     if summary.failed:
         raise click.exceptions.Exit(2)
 

@@ -9,7 +9,9 @@ resumes it: a torn last row is cut off, time and the reading number (``seq``) go
 
 Times: without device time stamps, t is the wall-clock time since the first start (so a pause while
 the recorder was down shows as a gap); with them, t is the device's stamp as sent (its clock goes on
-while the recorder is down). A reading whose time is not after the previous one is refused like a line that does not match.
+while the recorder is down). A reading whose time is before the previous one is refused like a line
+that does not match; an equal time is kept (a burst of lines within a millisecond; the analysis merges
+repeated times, see :mod:`calc.io.readings`).
 """
 
 from __future__ import annotations
@@ -180,8 +182,8 @@ class Recorder:
             self._refuse(line, f"does not match the device profile {self.profile.name!r}")
             return False
         t = self._time(reading.device_time_s)
-        if self.log.rows and not round(t, 3) > self.log.rows[-1][0]:
-            self._refuse(line, f"its time {t:.3f} s is not after the previous reading's {self.log.rows[-1][0]:.3f} s")
+        if self.log.rows and round(t, 3) < self.log.rows[-1][0]:  # an equal time is kept: the analysis merges it
+            self._refuse(line, f"its time {t:.3f} s is before the previous reading's {self.log.rows[-1][0]:.3f} s")
             return False
         seq = self.log.append(t, reading.temperature_c)
         self.summary.recorded += 1

@@ -94,11 +94,16 @@ class SimThermometer:
         self._master, self._slave = master, slave  # the slave stays open here so the pty outlives a reader
         return os.ttyname(slave)
 
-    def start(self) -> None:
-        """Start playing into the pseudo-terminal (after the reader has opened it: opening flushes the port)."""
+    def start(self, delay_s: float = 0.0) -> None:
+        """Start playing into the pseudo-terminal after ``delay_s``.
+
+        Start once the reader has the port open (pyserial empties a port's input when it opens it), or
+        give the reader ``delay_s`` to open it.
+        """
         if self._master is None:
             raise RuntimeError("open_pty() first")
-        self._thread = threading.Thread(target=self.play, args=(self._write_master,), name="cupcal-simthermo",
+        self._thread = threading.Thread(target=self.play, args=(self._write_master,),
+                                        kwargs={"start": time.monotonic() + delay_s}, name="cupcal-simthermo",
                                         daemon=True)
         self._thread.start()
 

@@ -63,10 +63,10 @@ def test_every_refused_line_is_counted_and_the_first_five_shown(tmp_path):
     assert summary.ended_by == "the list ended"
 
 
-def test_a_time_going_back_is_refused_not_written(tmp_path):
-    summary, shown = _record(tmp_path / "r.csv", ["10.0;295", "9.0;295", "11.0;295"])
-    assert summary.recorded == 2 and summary.bad_lines == 1
-    assert "its time 9.000 s is not after the previous reading's 10.000 s" in shown[0]
+def test_a_time_going_back_is_refused_not_written_and_an_equal_time_kept(tmp_path):
+    summary, shown = _record(tmp_path / "r.csv", ["10.0;295", "9.0;295", "11.0;295", "11.0;295.1"])
+    assert summary.recorded == 3 and summary.bad_lines == 1
+    assert "its time 9.000 s is before the previous reading's 10.000 s" in shown[0]
 
 
 def test_a_restart_resumes_the_same_log_and_cuts_a_torn_last_row(tmp_path):
