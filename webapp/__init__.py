@@ -84,6 +84,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.planning import bp as planning_bp
     from webapp.embed import bp as embed_bp
     from webapp.review import bp as review_bp
+    from webapp.live import bp as live_bp
     from webapp.mounting import init_proxy_user
     from webapp.services import webhooks
 
@@ -114,6 +115,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.register_blueprint(planning_bp)
     app.register_blueprint(embed_bp)
     app.register_blueprint(review_bp)
+    app.register_blueprint(live_bp)
     webhooks.install(app.extensions["cupcal_db"]["sessionmaker"])  # queue deliveries when a run is locked
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
