@@ -22,39 +22,43 @@ from webapp.services.classes import can_view_section
 from webapp.services.classes import get_section
 from webapp.services.errors import NotFound
 from webapp.services.errors import ServiceError
-from webapp.services.live_view import change_mark
 from webapp.services.live_view import room_item
 from webapp.services.live_view import room_runs
 from webapp.services.live_view import section_target
 from webapp.services.live_view import set_section_target
 
 
-def parse_room_cursor(text: str | None) -> dict[int, tuple[int, int | None]]:
-    """Return {live run id: (readings seen, advice seen)} from ``"id:seq:advice,…"`` (bad parts skipped)."""
-    seen: dict[int, tuple[int, int | None]] = {}
+#: what a room view has of one live run: readings seen, advice seen, state
+Seen = dict[int, tuple[int, int, str]]
+_STATES = {"r": "recording", "f": "finished", "a": "abandoned"}
+
+
+def parse_room_cursor(text: str | None) -> Seen:
+    """Return what a room view has, from ``"id:seq:advice:state,…"`` (state r, f or a; bad parts skipped)."""
+    seen: Seen = {}
     for part in (text or "").split(",")[:500]:
         bits = part.split(":")
-        if len(bits) == 3 and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits):
-            seen[int(bits[0])] = (int(bits[1]), int(bits[2]))
+        if (len(bits) == 4 and bits[3] in _STATES
+                and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits[:3])):
+            seen[int(bits[0])] = (int(bits[1]), int(bits[2]), _STATES[bits[3]])
     return seen
 
 
-def room_cursor(seen: dict[int, tuple[int, int | None]]) -> str:
+def room_cursor(seen: Seen) -> str:
     """Return the event id that lets a reconnecting room view resume."""
-    return ",".join(f"{k}:{s}:{a if a is not None else -2}" for k, (s, a) in sorted(seen.items()))
+    return ",".join(f"{k}:{s}:{a}:{state[0]}" for k, (s, a, state) in sorted(seen.items()))
 
 
-def room_update(session: Any, section: Section, seen: dict[int, tuple[int, int | None]],
-                marks: dict[int, Any]) -> list[dict[str, Any]]:
-    """Return the tiles that changed since ``seen`` (and ``marks``), updating both."""
+def room_update(session: Any, section: Section, seen: Seen) -> list[dict[str, Any]]:
+    """Return the tiles that changed since ``seen``, updating it."""
     items = []
     for live in room_runs(session, section):
-        if marks.get(live.id) == change_mark(live):
+        now = (live.last_seq, live.advice_seq, live.state)
+        if seen.get(live.id) == now:
             continue
-        after, advice = seen.get(live.id, (-1, None))
+        after, advice, _state = seen.get(live.id, (-1, None, ""))
         items.append(room_item(session, live, after, advice))
-        seen[live.id] = (live.last_seq, live.advice_seq)
-        marks[live.id] = change_mark(live)
+        seen[live.id] = now
     return items
 
 
@@ -64,8 +68,8 @@ def room(section_id: int):  # type: ignore[no-untyped-def]
     """All the section's live runs: bench, group, status line, a small curve and the warnings."""
     session = get_session()
     section = get_section(session, current_user, section_id)
-    seen: dict[int, tuple[int, int | None]] = {}
-    tiles = room_update(session, section, seen, {})
+    seen: Seen = {}
+    tiles = room_update(session, section, seen)
     return render_template("live/room.html", section=section, tiles=tiles, cursor=room_cursor(seen),
                            target=section_target(session, section.id), form=TargetForm(
                                target_u=section_target(session, section.id)))
@@ -78,7 +82,7 @@ def room_poll(section_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     section = get_section(session, current_user, section_id)
     seen = parse_room_cursor(request.args.get("since"))
-    tiles = room_update(session, section, seen, {})
+    tiles = room_update(session, section, seen)
     return {"items": tiles, "cursor": room_cursor(seen)}
 
 
@@ -89,13 +93,12 @@ def room_events(section_id: int):  # type: ignore[no-untyped-def]
     get_section(get_session(), current_user, section_id)
     who = viewer()
     seen = parse_room_cursor(request.headers.get("Last-Event-ID") or request.args.get("since"))
-    marks: dict[int, Any] = {}
 
     def read(session: Any) -> list[tuple[str, dict[str, Any], str | None]]:
         section = session.get(Section, section_id)
         if section is None or not can_view_section(who, section):
             raise NotFound(f"no section with id {section_id}")
-        items = room_update(session, section, seen, marks)
+        items = room_update(session, section, seen)
         cursor = room_cursor(seen)
         return [("room", {"items": items, "cursor": cursor}, cursor)] if items else []
 

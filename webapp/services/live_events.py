@@ -54,17 +54,21 @@ class _Listener:
     def _run(self) -> None:
         import psycopg
 
+        pause = 0.5
         while True:
             try:
                 with psycopg.connect(self.dsn, autocommit=True) as conn:
                     conn.execute(f"LISTEN {CHANNEL}")
+                    pause = 0.5
                     self._bump()  # (re)connected: anything may have been missed, look again
                     for _notice in conn.notifies():
                         self._bump()
             except Exception as exc:  # noqa: BLE001 - the server went away: reconnect after a pause
-                _log.warning("live updates: listening connection lost (%s); reconnecting", exc)
-                self._bump()
-                time.sleep(1.0)
+                if pause == 0.5:
+                    _log.warning("live updates: listening connection lost (%s); reconnecting", exc)
+                self._bump()  # streams fall back to reading the tables every SAFETY_POLL_S meanwhile
+                time.sleep(pause)
+                pause = min(pause * 2, 30.0)
 
     def wait(self, seen: int, timeout: float) -> int:
         """Wait until a notice arrives after ``seen`` (or ``timeout`` s); return the count now."""
