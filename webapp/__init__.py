@@ -42,6 +42,7 @@ DEFAULTS: dict[str, Any] = {
     # overrides of calc.limits (README, "Limits"), e.g. {"monte_carlo_trials": 20_000}; same keys as CUPCAL_LIMITS
     "LIMITS": {},
     "WEBHOOK_REQUIRE_HTTPS": None,  # None: required when CUPCAL_HTTPS is on (production); True/False to force
+    "LIVE_STREAM_SECONDS": 50,  # a live page's event stream ends after this long; the browser reconnects
     "WEBHOOK_ALLOW_PRIVATE": False,  # tests only: let a webhook reach a local receiver (never in production)  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
 }
 

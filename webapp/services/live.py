@@ -203,14 +203,15 @@ def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any) -> 
     begin_write(session)
     live = lock_row(session, LiveRun, live_id)
     _require_steer(actor, live)
-    new = [r for r in rows if r[0] > live.last_seq]
+    fresh = [(i, r) for i, r in enumerate(rows) if r[0] > live.last_seq]
+    new = [r for _i, r in fresh]
     if new and live.state != "recording":
         raise Conflict(f"live run {live.id} is {live.state}; it takes no more readings", field="state")
     last_t = session.scalar(sa.select(LiveReading.time_s).where(
         LiveReading.live_run_id == live.id, LiveReading.seq == live.last_seq))
     expected = live.last_seq + 1
-    for seq, t, _temp in new:
-        where = f"readings[{rows.index((seq, t, _temp))}]"
+    for i, (seq, t, _temp) in fresh:
+        where = f"readings[{i}]"
         if seq != expected:
             raise Invalid(f"expected sequence number {expected} (readings are numbered 0, 1, 2, … with no gap), "
                           f"got {seq}", field=f"{where}[0]")
