@@ -36,6 +36,10 @@
       text("est-quantity", st.shown.quantity || "Result");
       text("est-periods", st.shown.periods || "none yet");
       root.setAttribute("data-phase", a.phase || "");
+      if (st.runUrl) {
+        document.getElementById("live-stored-link").href = st.runUrl;
+        document.getElementById("live-stored").hidden = false;
+      }
       root.setAttribute("data-seq", String(st.seq));
       alerts();
     }
