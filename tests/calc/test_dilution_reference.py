@@ -33,11 +33,11 @@ P_DBAR = 10.1325  # 1 atm in pytzer's unit (dbar)
 
 SALTS = {"NaCl": ("Na", "Cl"), "KCl": ("K", "Cl"), "HCl": ("H", "Cl")}
 WIDE = {"NaCl": "bC_Na_Cl_A92ii", "KCl": "bC_K_Cl_A99", "HCl": "bC_H_Cl_CMR93"}
-TEMPS_C = (15.0, 25.0, 35.0)
+TEMPS_C = (15.0, 20.0, 25.0, 35.0)
 MOLALITIES = (0.05, 0.1, 0.2, 0.3, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
 
 #: Cells where calc is more than 2 u(φ_L) from the wide-range model, with the measured distance in u
-#: (calc − reference)/u. At 15 °C calc's temperature dependence (A_H(T) and T² with the enthalpy
+#: (calc − reference)/u. At 15 and 20 °C calc's temperature dependence (A_H(T) and T² with the enthalpy
 #: parameters of 25 °C held fixed) misses the heat-capacity term φ_J = ∂φ_L/∂T, about
 #: +0.04 kJ mol⁻¹ K⁻¹ near 1 mol/kg in every wide-range model pytzer carries; calc's "2 % of φ_L per
 #: K" is near zero where φ_L crosses zero.
@@ -46,7 +46,9 @@ OFF = {
     ("NaCl", 15.0, 2.0): 3.3, ("NaCl", 15.0, 3.0): 2.7,
     ("KCl", 15.0, 0.3): 2.0, ("KCl", 15.0, 0.5): 2.1, ("KCl", 15.0, 0.75): 3.1, ("KCl", 15.0, 1.0): 3.8,
     ("KCl", 15.0, 1.5): 3.1, ("KCl", 15.0, 2.0): 2.7, ("KCl", 15.0, 3.0): 2.1,
-    ("HCl", 25.0, 3.0): -2.5,
+    ("NaCl", 20.0, 1.0): 2.6, ("NaCl", 20.0, 1.5): 2.4, ("NaCl", 20.0, 2.0): 2.1,
+    ("KCl", 20.0, 1.0): 2.3, ("KCl", 20.0, 1.5): 2.05,
+    ("HCl", 20.0, 3.0): -2.01, ("HCl", 25.0, 3.0): -2.5,
 }
 
 
@@ -93,7 +95,7 @@ def _cells():
                 key = (salt, tc, m)
                 marks = []
                 if key in OFF:
-                    why = ("HCl above 2 mol/kg at 25 °C" if salt == "HCl" else
+                    why = ("HCl at 3 mol/kg" if salt == "HCl" else
                            "no heat-capacity term: φ_L's temperature dependence away from 25 °C")
                     marks.append(pytest.mark.xfail(
                         strict=True, reason=f"calc is {OFF[key]:+.1f} u from {WIDE[salt]}: {why} (docs/methods.md §8.7)"))
