@@ -19,7 +19,8 @@ import numpy as np
 
 from calc import __version__
 from calc.checks import Check, run_checks
-from calc.deltat.methods import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
+from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
+from calc.deltat.registry import corrected_delta_t
 from calc.errors import AnalysisError, CupcalError, InputError
 from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.uncertainty.gum import GumResult, MonteCarloResult, monte_carlo, propagate
@@ -287,7 +288,7 @@ def _wide_interval_warning(gum: GumResult, main: str) -> list[str]:
 def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
     """Add the budget terms the drift fits do not see, and their warnings (docs/methods.md)."""
     from calc.deltat.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term, room_drift_term
-    from calc.deltat.methods import METHODS
+    from calc.deltat.registry import METHODS
 
     p = log.periods
     dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))

@@ -12,6 +12,7 @@ from typing import Any
 
 from calc import formatting as fmt
 from calc.analysis import Analysis
+from calc.deltat.constructions import SharedFitConstruction
 from calc.refdata.comparison import verdict, verdict_lines, verdict_record
 
 __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BUDGET_LINES"]
@@ -131,14 +132,15 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         if len(analysis.rejected) > 20:
             lines.append(f"  … {len(analysis.rejected) - 20} more")
     lines.append(f"method: {dt.method}")
-    events = dt.construction.get("events", [])
+    shared = dt.construction if isinstance(dt.construction, SharedFitConstruction) else None
+    events = shared.events if shared else ()
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
     for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
             lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
                          f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
                          f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
-                         f"{dt.construction['correlation'][d_index][i]:+.2f})")
+                         f"{shared.correlation[d_index][i]:+.2f})")
     lines.append("")
     v, u, unit = analysis.value("corrected_delta_t")
     lines.append(f"  corrected ΔT      {format_value(v, u, unit)}")
