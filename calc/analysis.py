@@ -21,7 +21,8 @@ from calc.checks import run_checks
 from calc.composition import final_composition, resolve_properties
 from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.deltat.logprep import PreparedLog, gap_warnings, prepare_log
-from calc.deltat.methods import DEFAULT_METHOD, DeltaT, Log, corrected_delta_t
+from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
+from calc.deltat.registry import corrected_delta_t
 from calc.deltat.periods import Periods, find_periods
 from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings, read_readings
@@ -208,7 +209,7 @@ def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, 
 def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> None:
     """Add the budget terms the drift fits do not see, and their warnings (docs/methods.md)."""
     from calc.deltat.budget_terms import inadequacy_term, mixing_time_term, quantisation_drift_term, room_drift_term
-    from calc.deltat.methods import METHODS
+    from calc.deltat.registry import METHODS
 
     p = log.periods
     dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))

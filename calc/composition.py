@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
 from calc.refdata.solutes import STRONG_ACIDS

@@ -34,7 +34,7 @@ from typing import Any
 import numpy as np
 from scipy.optimize import least_squares
 
-from calc.deltat.methods import resolution_term
+from calc.deltat.base import resolution_term
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation, phi
 from calc.errors import AnalysisError, InputError
 from calc.deltat.heater import HEATER_LAG_S

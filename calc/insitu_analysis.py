@@ -12,7 +12,8 @@ from typing import Any
 
 import numpy as np
 
-from calc.deltat.methods import METHOD_TERMS, DeltaT
+from calc.deltat.base import METHOD_TERMS, DeltaT
+from calc.deltat.constructions import SharedFitConstruction
 from calc.errors import AnalysisError, InputError
 from calc.insitu import SharedFit, insitu_periods, shared_fit
 from calc.io.readings import Readings
@@ -113,14 +114,13 @@ def dissolution_delta_t(fit: SharedFit) -> DeltaT:
     i = names.index("dissolution")
     value = float(fit.delta_t[i])
     t_i, _t_f = fit.levels[i]
-    construction = {"t_i": fit.events[i].start, "t_f": fit.events[i].main_end, "k_per_s": fit.k,
-                    "shared_windows": [list(w) for w in fit.windows],
-                    "events": [{"name": e.name, "start": e.start, "main_end": e.main_end,
-                                "delta_t": float(fit.delta_t[j]),
-                                "u_fit": float(math.sqrt(max(fit.cov_delta_t[j, j], 0.0)))}
-                               for j, e in enumerate(fit.events)],
-                    "correlation": _correlation(fit.cov_delta_t).tolist(),
-                    "residual_sd_K": fit.residual_sd, "autocorrelation": fit.rho}
+    construction = SharedFitConstruction(
+        t_i=fit.events[i].start, t_f=fit.events[i].main_end, k_per_s=fit.k,
+        shared_windows=tuple(tuple(w) for w in fit.windows),
+        events=tuple({"name": e.name, "start": e.start, "main_end": e.main_end, "delta_t": float(fit.delta_t[j]),
+                      "u_fit": float(math.sqrt(max(fit.cov_delta_t[j, j], 0.0)))} for j, e in enumerate(fit.events)),
+        correlation=tuple(tuple(r) for r in _correlation(fit.cov_delta_t).tolist()),
+        residual_sd_K=fit.residual_sd, autocorrelation=fit.rho)
     return DeltaT(method="regnault-pfaundler", value=value, u_fit=math.sqrt(max(fit.cov_delta_t[i, i], 0.0)),
                   dof_fit=math.inf, u_resolution_start=fit.resolution_u[i], u_resolution_end=fit.resolution_u[i + 1],
                   u_method=METHOD_TERMS["regnault-pfaundler"] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,

@@ -13,7 +13,7 @@ temperature change is predicted instead of measured:
 * its uncertainty components as the default Regnault–Pfaundler method would report them for
   readings every ``interval`` with noise σ (lag-1 correlation φ) and resolution q:
 
-  - each level keeps the resolution term of :mod:`calc.deltat.methods`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
+  - each level keeps the resolution term of :mod:`calc.deltat.base`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
     with s the readings' SD, averaged over where a steady level sits within a step (s is the SD of
     q·round((T + σZ)/q), computed from the normal distribution; with σ ≪ q readings stick to one
     value and keep the full q/√12);
@@ -25,7 +25,7 @@ temperature change is predicted instead of measured:
     release time constants past the 90 % point, plus its 15 s smoothing), so L_after = ``after`` −
     that; t_x ≈ t_m + τ_r + τ_s, and for two solutions the fore line is read at t_m itself.
     Checked against simulated runs analysed end to end (tests/calc/test_plan.py);
-  - the method term of :data:`calc.deltat.methods.METHOD_TERMS`; no mixing-time term (the Newtonian
+  - the method term of :data:`calc.deltat.base.METHOD_TERMS`; no mixing-time term (the Newtonian
     correction does not need the mixing time).
 
 Useful window of |ΔT|: at least 20 × the resolution and 1 K (resolution and drift corrections stay

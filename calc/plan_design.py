@@ -17,8 +17,8 @@ from scipy import stats as sps
 
 from calc.composition import resolve_properties
 from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
-from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
-from calc.deltat.methods import resolution_term  # the analysis's own resolution term
+from calc.deltat.base import DEFAULT_METHOD, METHOD_TERMS, DeltaT
+from calc.deltat.base import resolution_term  # the analysis's own resolution term
 from calc.errors import InputError
 from calc.io.quantities import Measured
 from calc.io.runfile import RunSpec, parse_run

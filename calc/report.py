@@ -11,6 +11,7 @@ import math
 from typing import Any
 
 from calc import formatting as fmt
+from calc.deltat.constructions import SharedFitConstruction
 from calc.kinds import get_kind
 from calc.refdata.comparison import verdict, verdict_lines, verdict_record
 from calc.result import Analysis
@@ -146,14 +147,15 @@ def _head_lines(analysis: Analysis, input_path: str) -> list[str]:
         if len(analysis.rejected) > 20:
             lines.append(f"  … {len(analysis.rejected) - 20} more")
     lines.append(f"method: {dt.method}")
-    events = dt.construction.get("events", [])
+    shared = dt.construction if isinstance(dt.construction, SharedFitConstruction) else None
+    events = shared.events if shared else ()
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
     for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
             lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
                          f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
                          f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
-                         f"{dt.construction['correlation'][d_index][i]:+.2f})")
+                         f"{shared.correlation[d_index][i]:+.2f})")
     return lines
 
 

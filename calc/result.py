@@ -11,7 +11,7 @@ from typing import Any
 
 from calc import __version__
 from calc.checks import Check
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.deltat.periods import Periods
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec

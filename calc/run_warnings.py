@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
 from calc.uncertainty.gum import GumResult, MonteCarloResult

@@ -16,7 +16,7 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.errors import InputError
 from calc.uncertainty.gum import Input, xmin
 from calc.io.quantities import Measured
