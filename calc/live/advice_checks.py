@@ -13,7 +13,7 @@ from calc import limits
 from calc.errors import InputError
 from calc.io.runfile import RunSpec, parse_run
 from calc.live.advice_text import DEFAULT_TARGET
-from calc.uncertainty.measurement_models import MAIN_OUTPUT
+from calc.kinds import get_kind
 
 __all__ = ["checked_spec", "checked_arrays", "checked_target", "LIVE_READINGS_NAME"]
 
@@ -71,7 +71,7 @@ def _numbers(values: Any, name: str, source: str) -> np.ndarray:
 
 def checked_target(target_u: Any, spec: RunSpec) -> float:
     """Return the target U in the main output's unit (the default of docs/methods.md §9.3 when None)."""
-    unit = MAIN_OUTPUT[spec.kind][1]
+    unit = get_kind(spec.kind).main_unit
     if target_u is None:
         return DEFAULT_TARGET[unit]
     if isinstance(target_u, bool) or not isinstance(target_u, (int, float)) or not math.isfinite(target_u) \

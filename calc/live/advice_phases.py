@@ -20,7 +20,7 @@ from calc.live import advice_signals as sig
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
 from calc.live.advice_text import ADD_NOW, UNDER_WAY, duration, target_text
-from calc.uncertainty.measurement_models import MAIN_OUTPUT
+from calc.kinds import get_kind
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
            "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S"]
@@ -49,7 +49,7 @@ class State:
     @property
     def unit(self) -> str:
         """The main output's unit."""
-        return MAIN_OUTPUT[self.spec.kind][1]
+        return get_kind(self.spec.kind).main_unit
 
 
 def require_time(now_s: Any) -> None:
