@@ -98,13 +98,15 @@ def _streamer(notebook: str | None, token: str | None, run_text: str | None, tar
     sidecar.write(side_file)
 
     def remember(live_id: int) -> None:
+        if sidecar.live_run_id not in (None, live_id):
+            click.echo(f"notebook: it gave live run {live_id}, not {sidecar.live_run_id} as before", err=True)
         if sidecar.live_run_id != live_id:
             sidecar.live_run_id = live_id
             sidecar.write(side_file)
         click.echo(f"notebook: live run {live_id} ({notebook.rstrip('/')}/live/{live_id})", err=True)
 
     return Streamer(NotebookClient(notebook, token), run_text, sidecar.client_key, target_u=target_u,
-                    live_id=sidecar.live_run_id, on_live_id=remember,
+                    on_live_id=remember,
                     on_message=lambda text: click.echo(f"notebook: {text}", err=True))
 
 

@@ -83,3 +83,18 @@ def test_more_than_a_batch_goes_in_several_posts():
         posts = [r for r in nb.requests if r[1].endswith("/readings")]
         assert len(nb.runs[streamer.live_id].readings) == 2500
         assert len(posts) == 3 and all(status == 200 for _, _, status in posts)  # 1000 + 1000 + 500
+
+
+def test_a_conflict_makes_the_streamer_ask_for_the_notebooks_last_seq_and_go_on():
+    with FakeNotebook() as nb:
+        messages = []
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-4", on_message=messages.append)
+        streamer.start([(float(s), 21.0) for s in range(5)])
+        _wait(lambda: streamer.acked == 4)
+        with nb.lock:  # the notebook lost its last two readings (say, restored from a backup)
+            del nb.runs[streamer.live_id].readings[3:]
+        for seq in range(5, 8):
+            streamer.add(seq, float(seq), 21.0)
+        assert streamer.close(wait_s=15) is True
+        assert [r[0] for r in nb.runs[streamer.live_id].readings] == list(range(8))
+        assert any("409" in m for m in messages) and streamer.refused is None
