@@ -67,10 +67,13 @@ class NotebookClient:
             reason = getattr(exc, "reason", exc)
             raise Unreachable(f"cannot reach the notebook at {self.base} ({reason})") from None
 
-    def create_live_run(self, run_text: str, client_key: str, target_u: float | None) -> tuple[int, int]:
-        """Create the live run, or find it again by ``client_key``; return (id, last_seq)."""
+    def create_live_run(self, run_text: str, client_key: str, target_u: float | None) -> tuple[int, int, str]:
+        """Create the live run, or find it again by ``client_key``; return (id, last_seq, state)."""
         answer = self._post("/api/live-runs", {"run_file": run_text, "client_key": client_key, "target_u": target_u})
-        return int(answer["id"]), int(answer.get("last_seq", -1))
+        try:
+            return int(answer["id"]), int(answer.get("last_seq", -1)), str(answer.get("state", "recording"))
+        except (KeyError, TypeError, ValueError):
+            raise Unreachable(f"the notebook's answer has no live-run id ({str(answer)[:80]})") from None
 
     def post_readings(self, live_id: int, rows: list[list[float]]) -> int:
         """Post ``[[seq, time_s, temperature_c], …]``; return the notebook's last_seq."""
@@ -98,6 +101,7 @@ class Streamer:
                  on_message: Callable[[str], None] | None = None) -> None:
         self.client, self.run_text, self.client_key, self.target_u = client, run_text, client_key, target_u
         self.live_id: int | None = None
+        self.state = "recording"
         self._synced = False  # whether acked holds the notebook's last_seq
         self.on_live_id = on_live_id or (lambda live_id: None)
         self.on_message = on_message or (lambda text: None)
@@ -127,7 +131,8 @@ class Streamer:
         readings it already has, so only the missing ones are sent) and again after a 409.
         """
         if not self._synced or self.live_id is None:
-            self.live_id, self.acked = self.client.create_live_run(self.run_text, self.client_key, self.target_u)
+            self.live_id, self.acked, self.state = self.client.create_live_run(self.run_text, self.client_key,
+                                                                               self.target_u)
             self._synced = True
             self.on_live_id(self.live_id)
         return self.live_id
@@ -141,6 +146,8 @@ class Streamer:
             pending = self.rows[self.acked + 1: self.acked + 1 + BATCH]
         if not pending:
             return False
+        if self.state != "recording":  # finished or abandoned in the notebook meanwhile
+            raise Refused(f"the live run {self.live_id} is {self.state} in the notebook and takes no more readings")
         before = self.acked
         try:
             self.acked = self.client.post_readings(self.live_id, pending)  # type: ignore[arg-type]

@@ -98,3 +98,15 @@ def test_a_conflict_makes_the_streamer_ask_for_the_notebooks_last_seq_and_go_on(
         assert streamer.close(wait_s=15) is True
         assert [r[0] for r in nb.runs[streamer.live_id].readings] == list(range(8))
         assert any("409" in m for m in messages) and streamer.refused is None
+
+
+def test_a_live_run_finished_in_the_notebook_stops_the_streaming_with_a_message():
+    with FakeNotebook() as nb:
+        messages = []
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-5", on_message=messages.append)
+        streamer.start([(0.0, 21.0)])
+        _wait(lambda: streamer.acked == 0)
+        nb.runs[streamer.live_id].state = "finished"
+        streamer.add(1, 1.0, 21.0)
+        assert streamer.close(wait_s=10) is False
+        assert "is finished in the notebook and takes no more readings" in (streamer.refused or "")
