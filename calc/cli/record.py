@@ -202,6 +202,8 @@ def _open(out: Path, opts: dict[str, Any]) -> tuple[Any, ...]:
 
     profile = _profile(opts["device"], opts["pattern"], opts["unit"], opts["simulate"] is not None)
     sim = thermo = None
+    if not opts["simulate"] and (opts["speed"] != 1.0 or opts["garble"] or opts["seed"] is not None):
+        raise InputError("--speed, --seed and --garble go with --simulate KIND", field="--simulate")
     if opts["simulate"]:
         sim, thermo = _simulator().simulated_thermometer(opts["simulate"], opts["seed"], profile,
                                                          speed=opts["speed"], garble=opts["garble"])
@@ -258,9 +260,14 @@ def _record(out: Path, opts: dict[str, Any], profile: Any, sim: Any, thermo: Any
 
 
 def _both(echo: Any, streamer: Any) -> Any:
+    printing = [echo is not None]
+
     def on_reading(seq: int, t: float, c: float) -> None:
-        if echo is not None:
-            echo(seq, t, c)
+        if printing[0]:
+            try:
+                echo(seq, t, c)
+            except OSError:  # stdout closed (`… | head`): stop printing, never stop recording
+                printing[0] = False
         if streamer is not None:
             streamer.add(seq, t, c)
     return on_reading

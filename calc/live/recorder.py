@@ -214,7 +214,12 @@ class Recorder:
                     self.summary.ended_by = "the simulated run is over"
                     break
                 continue
-            self.handle(line)
+            try:
+                self.handle(line)
+            except OSError as exc:  # a full disk, a removed USB stick: the rows before are on disk
+                self.summary.ended_by = f"cannot write to the log ({exc.strerror or exc}); the rows before are kept"
+                self.summary.failed = True
+                break
         else:
             self.summary.ended_by = "stopped (Ctrl-C or SIGTERM)"
         return self.summary

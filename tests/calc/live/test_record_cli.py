@@ -54,6 +54,7 @@ def test_a_busy_port_is_one_line_and_exit_2(tmp_path):
     (["--pattern", "(?P<value>\\S+)", "--unit", "C"], "--unit: the unit 'C' is not a temperature"),
     (["--device", "no-such-probe"], "--device: unknown device 'no-such-probe'"),
     (["--speed", "2", "--simulate", "dissolution", "--device", "bare-celsius"], "--speed: a speed other than 1"),
+    (["--speed", "2"], "--simulate: --speed, --seed and --garble go with --simulate KIND"),
 ])
 def test_unreadable_units_and_devices_are_refused_by_name(tmp_path, args, said):
     res = _invoke(tmp_path / "run.csv", "--port", "/dev/null", *args) if "--simulate" not in args else \

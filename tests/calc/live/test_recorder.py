@@ -134,3 +134,23 @@ def test_a_log_row_is_on_disk_before_append_returns(tmp_path):
     # read through a second handle while the first is still open: the row is there already
     assert seq == 0 and path.read_text() == f"{HEADER}\n1.500,21.2500\n"
     log.close()
+
+
+def test_a_full_disk_ends_the_recording_with_a_message_and_keeps_the_rows_before(tmp_path, monkeypatch):
+    path = tmp_path / "r.csv"
+    log, sidecar, side = open_log(path)
+    write = CsvLog._write
+
+    def fill_up(self, line):
+        if len(self.rows) >= 3:
+            raise OSError(28, "No space left on device")
+        write(self, line)
+
+    monkeypatch.setattr(CsvLog, "_write", fill_up)
+    recorder = Recorder(ListSource([f"{t}.0;295.0" for t in range(10)]), PROFILES["stamped-kelvin"], log,
+                        sidecar, side)
+    summary = recorder.run(lambda: False)
+    log.close()
+    assert summary.failed and summary.recorded == 3
+    assert summary.ended_by == "cannot write to the log (No space left on device); the rows before are kept"
+    assert path.read_text().splitlines()[1:] == ["0.000,21.8500", "1.000,21.8500", "2.000,21.8500"]
