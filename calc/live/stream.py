@@ -111,6 +111,7 @@ class Streamer:
         self.last_problem: str | None = None
         self._wake = threading.Condition()
         self._stopping = False
+        self._hurry = threading.Event()
         self._thread = threading.Thread(target=self._loop, name="cupcal-notebook-stream", daemon=True)
 
     def start(self, existing: Sequence[tuple[float, float]] = ()) -> None:
@@ -170,9 +171,11 @@ class Streamer:
                 if self.last_problem is None:
                     self.on_message(f"{exc}; recording goes on, will retry")
                 self.last_problem, worked = str(exc), False
-                with self._wake:
-                    self._wake.wait(pause)
-                pause = min(MAX_PAUSE_S, pause * 2)
+                # new readings do not cut the pause short (that would retry at the reading rate); close() does
+                if not self._hurry.wait(pause):
+                    pause = min(MAX_PAUSE_S, pause * 2)
+                else:
+                    time.sleep(0.2)
                 if self._stopping:
                     return
                 continue
@@ -195,8 +198,9 @@ class Streamer:
     def close(self, *, wait_s: float = 10.0) -> bool:
         """Send what is left (for at most ``wait_s``), stop the thread; return whether all was sent."""
         deadline = time.monotonic() + wait_s
+        self._hurry.set()  # cut a retry pause short
         with self._wake:
-            self._wake.notify()  # cut a retry pause short
+            self._wake.notify()
         while self._thread.is_alive() and self.pending > 0 and self.refused is None and time.monotonic() < deadline:
             time.sleep(0.05)
         with self._wake:

@@ -110,3 +110,17 @@ def test_a_live_run_finished_in_the_notebook_stops_the_streaming_with_a_message(
         streamer.add(1, 1.0, 21.0)
         assert streamer.close(wait_s=10) is False
         assert "is finished in the notebook and takes no more readings" in (streamer.refused or "")
+
+
+def test_retries_back_off_while_readings_keep_coming():
+    with FakeNotebook() as nb:
+        nb.down = True
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-6")
+        streamer.start()
+        for seq in range(40):  # 40 readings over 2 s: retries after 0.5, 1 and 2 s, not one per reading
+            streamer.add(seq, float(seq), 21.0)
+            time.sleep(0.05)
+        attempts = len(nb.requests)
+        nb.down = False
+        assert streamer.close(wait_s=10) is True
+        assert 2 <= attempts <= 4 and len(nb.runs[streamer.live_id].readings) == 40
