@@ -26,7 +26,7 @@ from calc.live.devices import PROFILES
 from calc.live.recorder import sidecar_path
 from calc.live.simthermo import SimThermometer
 from tests.calc.live.fake_notebook import FakeNotebook
-from tests.calc.live.helpers import readings_lost, rows, start_recorder, wait_rows
+from tests.calc.live.record_helpers import readings_lost, rows, start_recorder, wait_rows
 
 TRIALS = 24
 LATENCY_READINGS = 90
