@@ -76,7 +76,7 @@ def _common_warnings(st: State, fore: sig.ForeState | None) -> list[Warning_]:
                             f"out, the last at {recent[-1]['time_s']:g} s; check the thermometer's contact",
                             recent[-1]["time_s"]))
     if fore is not None:
-        if abs(fore.slope_k_per_min) > sig.FORE_DRIFT_LIMIT_K_PER_MIN:
+        if fore.drifting:
             out.append(Warning_("fore_drift", f"the fore period drifts by {fore.slope_k_per_min:+.3f} K/min (limit "
                                 f"±{sig.FORE_DRIFT_LIMIT_K_PER_MIN:g} K/min): is the liquid at room temperature?",
                                 fore.slope_k_per_min))

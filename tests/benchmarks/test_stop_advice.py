@@ -62,6 +62,7 @@ class Replay:
     waited_s: float | None = None  # how long it really took from that advice to "you can stop"
     calls: int = 0
     slowest_s: float = 0.0
+    raised: set = None  # warning codes raised at any call (no simulated run has its probe out)
 
 
 def _truth(sim: SimulatedRun) -> float:
@@ -83,7 +84,7 @@ def _replay(i: int, folder) -> Replay:
     kind, res = KINDS[i % len(KINDS)], RESOLUTIONS[(i // len(KINDS)) % len(RESOLUTIONS)]
     sim = realistic_scenario(kind, rng, resolution=res, mixing_given=bool(rng.uniform() < 0.5),
                              longer_s=FIXED_AFTER_S + 300.0)
-    rep = Replay(kind, res, "error")
+    rep = Replay(kind, res, "error", raised=set())
     try:
         full = analyze_run(write_run(sim, folder, f"full{i}"), with_reference=False)
         fixed_end = min(full.periods.main_end + FIXED_AFTER_S, float(sim.time_s[-1]))
@@ -102,6 +103,7 @@ def _replay(i: int, folder) -> Replay:
         a = advise(text, t[:n], y[:n], target_u=rep.target, now_s=float(t[n - 1]))
         rep.slowest_s = max(rep.slowest_s, time.perf_counter() - t0)
         rep.calls += 1
+        rep.raised |= {w.code for w in a.warnings}
         if a.phase == "after" and first_after is None and a.seconds_more is not None:
             first_after = (float(t[n - 1]), a.seconds_more)
         if a.phase == "can_stop":
@@ -149,6 +151,10 @@ def _table(reps: list[Replay]) -> None:
         ratio = [w / f for f, w in fc if f > 0]
         print(f"first after-period forecast: median real wait / forecast wait = {statistics.median(ratio):.2f} "
               f"(quartiles {np.percentile(ratio, 25):.2f}–{np.percentile(ratio, 75):.2f}, {len(ratio)} runs)")
+    codes = ("fore_drift", "spike", "probe_out", "readings_stopped", "fore_short", "too_noisy")
+    print("runs with each warning at least once: " + ", ".join(
+        f"{c} {sum(c in (x.raised or ()) for x in reps)}" for c in codes)
+        + " (no run has its probe out or its readings stopped)")
     calls = sum(x.calls for x in reps)
     print(f"advice calls: {calls}; slowest call {max(x.slowest_s for x in reps) * 1000:.0f} ms")
 
