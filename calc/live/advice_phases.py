@@ -19,7 +19,7 @@ from calc.io.runfile import RunSpec
 from calc.live import advice_signals as sig
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
-from calc.live.advice_text import ADD_NOW, UNDER_WAY, default_target, duration, target_text
+from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
 from calc.uncertainty.measurement_models import MAIN_OUTPUT
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
@@ -182,7 +182,7 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
     flat = fc.first(lambda x: x >= wait and fc.gain(x) < MIN_GAIN)
     floor = fc.expanded(flat if flat is not None else 1e9)
     why = (f"{target_text(target, unit)} cannot be reached: U stays near "
-           f"{target_text(floor, unit)[4:]} ({_main_line(fc)})")
+           f"{amount_text(floor, unit)} ({_main_line(fc)})")
     if flat == 0.0:
         return {"phase": "can_stop", "status": f"you can stop now: more readings would lower U by less than "
                 f"{MIN_GAIN * 100:.0f} %; {why}", "seconds_more": 0.0}
@@ -197,9 +197,10 @@ def _main_line(fc: Forecast) -> str:
 
 def _after_change_warnings(st: State, fore: sig.ForeState | None, t_m: float) -> list[Warning_]:
     out: list[Warning_] = []
-    if fore is not None and fore.length < sig.FORE_MIN_S:
-        out.append(Warning_("fore_short", f"the fore period lasted only {fore.length:.0f} s; "
-                            f"{sig.FORE_TARGET_S / 60:.0f} minutes are advised", fore.length))
+    length = t_m - float(st.prep.t[0])
+    if fore is None or length < sig.FORE_MIN_S:
+        out.append(Warning_("fore_short", f"the fore period lasted only {length:.0f} s; "
+                            f"{sig.FORE_TARGET_S / 60:.0f} minutes are advised", length))
     if fore is not None:
         room = fore.line.at(t_m)
         hit = sig.probe_out(st.prep, t_m, room, st.spec.resolution_K)

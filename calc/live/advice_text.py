@@ -6,7 +6,7 @@ import math
 
 from calc import formatting
 
-__all__ = ["ADD_NOW", "UNDER_WAY", "duration", "target_text", "DEFAULT_TARGET", "default_target"]
+__all__ = ["ADD_NOW", "UNDER_WAY", "duration", "amount_text", "target_text", "DEFAULT_TARGET", "default_target"]
 
 #: What the person at the bench does at the mixing time, by run kind.
 ADD_NOW = {
@@ -46,6 +46,11 @@ def duration(seconds: float) -> str:
     return f"{int(math.ceil(seconds / 60.0))} min"
 
 
+def amount_text(value: float, unit: str) -> str:
+    """Return an uncertainty as the status lines show it: two significant digits, trailing zeros trimmed."""
+    return formatting.number(value, unit, digits=2, trim=True)
+
+
 def target_text(target: float, unit: str) -> str:
-    """Return "U ≤ 0.5 kJ/mol" for a target (two significant digits, trailing zeros trimmed)."""
-    return "U ≤ " + formatting.number(target, unit, digits=2, trim=True)
+    """Return "U ≤ 0.5 kJ/mol" for a target."""
+    return "U ≤ " + amount_text(target, unit)
