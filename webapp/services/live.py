@@ -16,6 +16,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc.io.readings import CELSIUS_RANGE
 
 from webapp.models import Bench
 from webapp.models import Calorimeter
@@ -42,8 +43,8 @@ MAX_BATCH = 1000
 #: the largest target U accepted (any unit): beyond it a target means nothing
 MAX_TARGET_U = 1e6
 _KEY = re.compile(r"[A-Za-z0-9._:-]{1,64}")
-#: plausible liquid temperatures of a coffee-cup run, °C (common practice, no source)
-T_RANGE_C = (-40.0, 150.0)
+#: the temperatures calc reads as °C (calc.io.readings.CELSIUS_RANGE): the advisor refuses others
+T_RANGE_C = CELSIUS_RANGE
 
 
 @dataclasses.dataclass(frozen=True)
