@@ -195,3 +195,18 @@ def test_a_failing_advisor_keeps_the_readings(client: Any, lab: Any, monkeypatch
     assert r.status_code == 200 and r.get_json()["last_seq"] == 4
     got = client.get(f"/api/live-runs/{live}", headers=h).get_json()
     assert got["n_readings"] == 5 and got["advice"]["phase"] == "refused" and "advisor failed" in got["advice"]["status"]
+
+
+def test_advice_waits_for_enough_new_log_time(app: Any, client: Any, lab: Any, monkeypatch: Any) -> None:
+    import calc.live.advisor as advisor
+
+    calls: list[int] = []
+    real = advisor.advise
+    monkeypatch.setattr(advisor, "advise", lambda *a, **k: calls.append(len(a[1])) or real(*a, **k))
+    app.config["LIVE_ADVICE_EVERY_S"] = 3.0
+    h = lab.auth("a1")
+    live = start_live(client, h).get_json()["id"]
+    for i in range(5):  # the demo log reads every 2 s: t = 0, 2, 4, 6, 8
+        client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), i, i + 1)}, headers=h)
+    # created (no readings), then t = 0 (first readings), t = 4 (4 s after 0), t = 8 (4 s after 4)
+    assert calls == [0, 1, 3, 5]

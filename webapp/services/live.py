@@ -194,8 +194,10 @@ def checked_rows(raw: Any) -> list[tuple[int, float, float]]:
     return rows
 
 
-def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any) -> tuple[int, int]:
-    """Store the new readings of a batch (those at or below ``last_seq`` are ignored) and commit.
+def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any,
+                 advice_every_s: float = 0.0) -> tuple[int, int]:
+    """Store the new readings of a batch (those at or below ``last_seq`` are ignored) and commit; then
+    advise again, when the newest reading is ``advice_every_s`` or more (log clock) after the last advised.
 
     :return: how many were new, and the run's last sequence number
     """
@@ -225,9 +227,11 @@ def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any) -> 
         live.last_seq = new[-1][0]
         live.updated_at = utcnow()
         notify(session, live.id)
-    last_seq = live.last_seq
+    last_seq, advised = live.last_seq, live.advice_seq
+    advised_t = session.scalar(sa.select(LiveReading.time_s).where(
+        LiveReading.live_run_id == live.id, LiveReading.seq == advised)) if advised >= 0 else None
     session.commit()
-    if new:
+    if new and (advised_t is None or last_t is None or last_t - advised_t >= advice_every_s):
         refresh_advice(session, live_id)
     return len(new), last_seq
 
