@@ -178,22 +178,27 @@ def parse_measured(
             return _build(value_text, u_text, unit_text, text, field, expected, source)
         raise _unreadable(text, field=field, expected=expected, source=source)
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        try:
-            number = repr(text)
-        except ValueError:  # an int beyond Python's 4300-digit int-to-str limit (found by tests)
-            number = "(a whole number of thousands of digits)"
-        if expected != "":
-            raise _error(f"missing unit: got the bare number {number}", expected, field, source)
-        try:
-            value = float(text)
-        except OverflowError:
-            value = math.inf
-        if not math.isfinite(value):
-            raise _error(f"the value {number} is not finite", expected, field, source)
-        return Measured(value, default_uncertainty(number), "", "rectangular", number)
+        return _bare_number(text, field=field, expected=expected, source=source)
     if text is None:
         raise _error("the entry is missing", expected, field, source)
     raise _error(f"got a {type(text).__name__} ({_shown(text)})", expected, field, source)
+
+
+def _bare_number(text: int | float, *, field: str, expected: str, source: str | None) -> Measured:
+    """Return a bare number as a dimensionless :class:`Measured` (refused when a unit is expected)."""
+    try:
+        number = repr(text)
+    except ValueError:  # an int beyond Python's 4300-digit int-to-str limit (found by tests)
+        number = "(a whole number of thousands of digits)"
+    if expected != "":
+        raise _error(f"missing unit: got the bare number {number}", expected, field, source)
+    try:
+        value = float(text)
+    except OverflowError:
+        value = math.inf
+    if not math.isfinite(value):
+        raise _error(f"the value {number} is not finite", expected, field, source)
+    return Measured(value, default_uncertainty(number), "", "rectangular", number)
 
 
 def _shown(value: object) -> str:
