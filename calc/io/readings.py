@@ -37,7 +37,6 @@ when the unit is °C (looks like kelvin), a median below 150 when the unit is K
 from __future__ import annotations
 
 import os
-import stat
 import re
 from dataclasses import dataclass
 
@@ -46,6 +45,7 @@ import numpy as np
 from calc import limits
 from calc.errors import InputError
 from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
+from calc.io.files import read_limited
 from calc.io.logger_formats import normalize_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]
@@ -123,17 +123,8 @@ def read_readings(
         If the file cannot be read, is not text, or fails a check of :func:`parse_readings`.
     """
     name = source if source is not None else os.fspath(path)
-    cap = int(limits.get("readings_bytes"))
-    try:
-        with open(path, "rb") as handle:
-            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
-                raise InputError("is not a regular file; expected a CSV thermometer log", source=name)
-            data = handle.read(cap + 1)
-    except FileNotFoundError:
-        raise InputError("file not found; expected a CSV thermometer log", source=name) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL byte in the path
-        raise InputError(f"cannot read the file ({getattr(exc, 'strerror', None) or exc})", source=name) from None
-    limits.require_size(len(data), "readings_bytes", what="the readings file", source=name)
+    data = read_limited(path, limit="readings_bytes", what="the readings file", expected="a CSV thermometer log",
+                        source=name)
     if b"\x00" in data:
         message = "this is not a text file (it contains NUL bytes); expected a CSV log"
         raise InputError(message, source=name)

@@ -12,7 +12,6 @@ import datetime as dt
 import json
 import math
 import os
-import stat
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -22,6 +21,7 @@ from typing import Any
 from calc import limits
 from calc.errors import InputError
 from calc.limits import require_number
+from calc.io.files import read_limited
 from calc.io.quantities import Measured, parse_measured
 from calc.io.schema import CALORIMETER_TYPES, KINDS, REQUIRED_SECTIONS, SCHEMA, TOP_FIELDS, Field
 
@@ -66,24 +66,11 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
     """
     p = Path(path)
     src = source or str(path)
-    cap = int(limits.get("run_file_bytes"))
+    data = read_limited(p, limit="run_file_bytes", what="the run file", expected="a run file (.toml)", source=src)
     try:
-        with open(p, "rb") as handle:
-            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
-                raise InputError("is not a regular file; expected a run file (.toml)", source=src)
-            data = handle.read(cap + 1)
-        limits.require_size(len(data), "run_file_bytes", what="the run file", source=src)
         text = data.decode("utf-8-sig")
-    except FileNotFoundError:
-        raise InputError("file not found", source=src) from None
-    except IsADirectoryError:
-        raise InputError("is a directory, expected a run file (.toml)", source=src) from None
     except UnicodeDecodeError:
         raise InputError("is not UTF-8 text; expected a TOML run file", source=src) from None
-    except OSError as exc:
-        raise InputError(f"cannot be read ({exc.strerror})", source=src) from None
-    except ValueError:  # a NUL byte in the path
-        raise InputError("is not a usable path (it contains a NUL byte)", source=limits.shorten(repr(src))) from None
     return parse_run(text, source=src, base_dir=p.parent, path=p)
 
 

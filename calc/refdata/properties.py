@@ -152,19 +152,20 @@ def solution_properties(
     w_solutes = sum(anhydrous.values()) / total
     rows = {f: _laliberte_row(f) for f in anhydrous}
     fractions = {f: m / total for f, m in anhydrous.items()}
-    rho, why = _laliberte_value("density", T, w_solutes, fractions, rows)
-    rho /= 1000.0
-    if why is None:
-        density = PropertyValue(rho, U_REL_LALIBERTE_DENSITY * rho, "g/mL", LALIBERTE_MODEL)
-    else:
-        density = _fallback(rho_w, w_solutes, FALLBACK_HALF_WIDTH_DENSITY, why)
-    cp, why = _laliberte_value("heat capacity", T, w_solutes, fractions, rows)
-    cp /= 1000.0
-    if why is None:
-        heat = PropertyValue(cp, U_REL_LALIBERTE_CP * cp, "J/(g*K)", LALIBERTE_MODEL)
-    else:
-        heat = _fallback(cp_w, w_solutes, FALLBACK_HALF_WIDTH_CP, why)
-    return density, heat
+    model = (T, w_solutes, fractions, rows)
+    return (_solution_value("density", model, U_REL_LALIBERTE_DENSITY, rho_w, FALLBACK_HALF_WIDTH_DENSITY),
+            _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP))
+
+
+def _solution_value(quantity: str, model: tuple, u_rel: float, water: PropertyValue,
+                    half_width: float) -> PropertyValue:
+    """Return Laliberté's ``quantity`` (kg/m³ or J/(kg K), given in g/mL or J/(g K)), or the water fallback."""
+    T, w_solutes, fractions, rows = model
+    value, why = _laliberte_value(quantity, T, w_solutes, fractions, rows)
+    if why is not None:
+        return _fallback(water, w_solutes, half_width, why)
+    value /= 1000.0
+    return PropertyValue(value, u_rel * value, water.unit, LALIBERTE_MODEL)
 
 
 def _anhydrous(solutes: dict[str, float], water_mass_g: float) -> tuple[float, dict[str, float]]:
