@@ -23,7 +23,7 @@ import time
 import uuid
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from typing import Any, Callable
 
 from calc.errors import InputError
 from calc.live.devices import DeviceProfile
@@ -84,19 +84,36 @@ class Sidecar:
         _sync_directory(path.parent)
 
 
+def _lock(handle: Any, path: Path) -> None:
+    """Hold an exclusive lock on the log, so that a second recorder on the same file is refused."""
+    try:
+        import fcntl
+    except ImportError:  # Windows: no advisory locks here
+        return
+    try:
+        fcntl.flock(handle.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        raise InputError("another `cupcal record` is writing this log; stop it first, or choose another file",
+                         source=str(path)) from None
+
+
 class CsvLog:
     """The CSV log, opened for appending; :attr:`rows` holds every (time_s, °C) in it."""
 
     def __init__(self, path: Path) -> None:
         self.path = path
         self.rows: list[tuple[float, float]] = []
-        self.resumed = path.exists() and path.stat().st_size > 0
-        if self.resumed:
-            self._read_existing()
-            self._handle = open(path, "a", encoding="utf-8", newline="\n")  # noqa: SIM115
-        else:
-            self._handle = open(path, "w", encoding="utf-8", newline="\n")  # noqa: SIM115
-            self._write(HEADER)
+        self._handle = open(path, "a", encoding="utf-8", newline="\n")  # noqa: SIM115 - held while recording
+        try:
+            _lock(self._handle, path)
+            self.resumed = os.fstat(self._handle.fileno()).st_size > 0
+            if self.resumed:
+                self._read_existing()  # appends then go to the (possibly cut) end
+            else:
+                self._write(HEADER)
+        except BaseException:
+            self._handle.close()
+            raise
 
     def _read_existing(self) -> None:
         """Read the rows already in the file; cut off a torn last row (a crash mid-write)."""
