@@ -176,7 +176,7 @@ class _Stop:
 @click.option("--notebook", help="Stream to the notebook at this address, e.g. https://lab.example/.")
 @click.option("--token", envvar="CUPCAL_TOKEN", help="API token with the live scope (or set CUPCAL_TOKEN).")
 @click.option("--run-file", help="The run file (.toml) of this run, sent to the notebook.")
-@click.option("--target-u", type=float, help="Target expanded uncertainty for the notebook's advice.")
+@click.option("--target-u", type=click.FloatRange(min=0, min_open=True), help="Target expanded uncertainty for the notebook's advice.")
 @click.option("--finish", is_flag=True, help="When recording ends, ask the notebook to analyse and store the run.")
 @click.option("--max-readings", type=click.IntRange(1), help="Stop after this many readings.")
 @click.option("--quiet", is_flag=True, help="Do not print each reading.")

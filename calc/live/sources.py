@@ -75,6 +75,8 @@ def _port_message(port: str, exc: Exception) -> str:
         return f"the serial port {port!r} does not exist; check the cable and the name (e.g. /dev/ttyUSB0 or COM3)"
     if errno in (11, 16) or "busy" in text.lower() or "exclusively lock" in text or "Resource temporarily" in text:
         return f"the serial port {port!r} is busy: another program holds it; close that program and try again"
+    if errno == 21 or "Inappropriate ioctl" in text or "Is a directory" in text:
+        return f"{port!r} is not a serial port; expected a device such as /dev/ttyUSB0 or COM3"
     if "Access is denied" in text:  # Windows says so for a port another program holds
         return f"the serial port {port!r} is busy or not open to you: close any program that holds it and try again"
     if errno == 13 or "Permission denied" in text:

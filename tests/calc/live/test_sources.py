@@ -18,6 +18,7 @@ from calc.live.sources import MAX_LINE, _Lines, _port_message
                             "specified.', None, 2)"), "does not exist"),
     (serial.SerialException("could not open port 'COM3': PermissionError(13, 'Access is denied.', None, 5)"),
      "is busy or not open to you"),
+    (serial.SerialException("Could not configure port: (25, 'Inappropriate ioctl for device')"), "is not a serial port"),
 ])
 def test_a_port_that_cannot_be_opened_gets_one_plain_line(exc, said):
     message = _port_message("P", exc)
