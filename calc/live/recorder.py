@@ -5,7 +5,9 @@ to, flushed and ``os.fsync``-ed after every reading, so a pulled cable, a crash 
 most the reading being written. Beside it a small sidecar file ``<log>.live.json`` (written atomically:
 temporary file, fsync, rename) holds what a restart needs: the wall-clock time of t = 0 and the
 notebook's ``client_key`` and live-run id. Starting again with the same log
-resumes it: a torn last row is cut off, time and the reading number (``seq``) go on.
+resumes it: a torn last row is cut off, time and the reading number (``seq``) go on. While a recorder
+writes a log it holds an exclusive lock on it (``flock``, where the system has it), so a second
+recorder on the same file is refused.
 
 Times: without device time stamps, t is the wall-clock time since the first start (so a pause while
 the recorder was down shows as a gap); with them, t is the device's stamp as sent (its clock goes on
