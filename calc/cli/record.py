@@ -166,17 +166,20 @@ class _Stop:
 @click.option("--follow", help="Read lines another program appends to this file.")
 @click.option("--from-start", is_flag=True, help="With --follow: read the lines already in the file too.")
 @click.option("--simulate", type=click.Choice(_KINDS), help="Read a simulated thermometer playing a KIND run.")
-@click.option("--speed", type=float, default=1.0, show_default=True, help="With --simulate: play this many times faster.")
+@click.option("--speed", type=float, default=1.0, show_default=True,
+              help="With --simulate: play this many times faster.")
 @click.option("--seed", type=int, default=None, help="With --simulate: the seed of the simulated run.")
 @click.option("--garble", type=float, default=0.0, show_default=True,
               help="With --simulate: share of extra garbled lines, as from a flaky cable.")
-@click.option("--device", help="A built-in device profile (bare-celsius, stamped-kelvin, labelled-fahrenheit) or a .toml file.")
+@click.option("--device",
+              help="A built-in device profile (bare-celsius, stamped-kelvin, labelled-fahrenheit) or a .toml file.")
 @click.option("--pattern", help="A regular expression with a (?P<value>…) group (and optionally (?P<time>…)).")
 @click.option("--unit", help="The unit of --pattern's value: °C (degC), K or °F (degF).")
 @click.option("--notebook", help="Stream to the notebook at this address, e.g. https://lab.example/.")
 @click.option("--token", envvar="CUPCAL_TOKEN", help="API token with the live scope (or set CUPCAL_TOKEN).")
 @click.option("--run-file", help="The run file (.toml) of this run, sent to the notebook.")
-@click.option("--target-u", type=float, help="Target expanded uncertainty for the notebook's advice.")
+@click.option("--target-u", type=click.FloatRange(min=0, min_open=True),
+              help="Target expanded uncertainty for the notebook's advice.")
 @click.option("--finish", is_flag=True, help="When recording ends, ask the notebook to analyse and store the run.")
 @click.option("--max-readings", type=click.IntRange(1), help="Stop after this many readings.")
 @click.option("--quiet", is_flag=True, help="Do not print each reading.")

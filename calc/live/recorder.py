@@ -5,7 +5,9 @@ to, flushed and ``os.fsync``-ed after every reading, so a pulled cable, a crash 
 most the reading being written. Beside it a small sidecar file ``<log>.live.json`` (written atomically:
 temporary file, fsync, rename) holds what a restart needs: the wall-clock time of t = 0 and the
 notebook's ``client_key`` and live-run id. Starting again with the same log
-resumes it: a torn last row is cut off, time and the reading number (``seq``) go on.
+resumes it: a torn last row is cut off, time and the reading number (``seq``) go on. While a recorder
+writes a log it holds an exclusive lock on it (``flock``, where the system has it), so a second
+recorder on the same file is refused.
 
 Times: without device time stamps, t is the wall-clock time since the first start (so a pause while
 the recorder was down shows as a gap); with them, t is the device's stamp as sent (its clock goes on
@@ -23,7 +25,7 @@ import time
 import uuid
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from typing import Any, Callable
 
 from calc.errors import InputError
 from calc.live.devices import DeviceProfile
@@ -84,19 +86,36 @@ class Sidecar:
         _sync_directory(path.parent)
 
 
+def _lock(handle: Any, path: Path) -> None:
+    """Hold an exclusive lock on the log, so that a second recorder on the same file is refused."""
+    try:
+        import fcntl
+    except ImportError:  # Windows: no advisory locks here
+        return
+    try:
+        fcntl.flock(handle.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        raise InputError("another `cupcal record` is writing this log; stop it first, or choose another file",
+                         source=str(path)) from None
+
+
 class CsvLog:
     """The CSV log, opened for appending; :attr:`rows` holds every (time_s, °C) in it."""
 
     def __init__(self, path: Path) -> None:
         self.path = path
         self.rows: list[tuple[float, float]] = []
-        self.resumed = path.exists() and path.stat().st_size > 0
-        if self.resumed:
-            self._read_existing()
-            self._handle = open(path, "a", encoding="utf-8", newline="\n")  # noqa: SIM115
-        else:
-            self._handle = open(path, "w", encoding="utf-8", newline="\n")  # noqa: SIM115
-            self._write(HEADER)
+        self._handle = open(path, "a", encoding="utf-8", newline="\n")  # noqa: SIM115 - held while recording
+        try:
+            _lock(self._handle, path)
+            self.resumed = os.fstat(self._handle.fileno()).st_size > 0
+            if self.resumed:
+                self._read_existing()  # appends then go to the (possibly cut) end
+            else:
+                self._write(HEADER)
+        except BaseException:
+            self._handle.close()
+            raise
 
     def _read_existing(self) -> None:
         """Read the rows already in the file; cut off a torn last row (a crash mid-write)."""

@@ -90,7 +90,8 @@ class SimThermometer:
             import tty
         except ImportError:
             raise InputError("the simulated thermometer needs a pseudo-terminal (Linux or macOS); on this system, "
-                             "use --command or --follow with a program that prints readings", field="--simulate") from None
+                             "use --command or --follow with a program that prints readings",
+                             field="--simulate") from None
 
         master, slave = pty.openpty()
         tty.setraw(slave)  # no echo, no line editing: bytes pass as a serial line passes them

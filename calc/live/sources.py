@@ -49,8 +49,13 @@ class _Lines:
     def __init__(self) -> None:
         self.buffer = b""
         self.ready: list[str] = []
+        self._after_cr = False  # the last byte fed was a CR: an LF right after it ends no second line
 
     def feed(self, data: bytes) -> None:
+        if self._after_cr and data.startswith(b"\n"):
+            data = data[1:]
+        if data:
+            self._after_cr = data.endswith(b"\r")
         self.buffer += data.replace(b"\r\n", b"\n").replace(b"\r", b"\n")
         *lines, self.buffer = self.buffer.split(b"\n")
         if len(self.buffer) > MAX_LINE:
@@ -70,6 +75,10 @@ def _port_message(port: str, exc: Exception) -> str:
         return f"the serial port {port!r} does not exist; check the cable and the name (e.g. /dev/ttyUSB0 or COM3)"
     if errno in (11, 16) or "busy" in text.lower() or "exclusively lock" in text or "Resource temporarily" in text:
         return f"the serial port {port!r} is busy: another program holds it; close that program and try again"
+    if errno == 21 or "Inappropriate ioctl" in text or "Is a directory" in text:
+        return f"{port!r} is not a serial port; expected a device such as /dev/ttyUSB0 or COM3"
+    if "Access is denied" in text:  # Windows says so for a port another program holds
+        return f"the serial port {port!r} is busy or not open to you: close any program that holds it and try again"
     if errno == 13 or "Permission denied" in text:
         return f"no permission to open the serial port {port!r}; ask for access to it (e.g. the dialout group)"
     return f"cannot open the serial port {port!r}: {text.splitlines()[0] if text else exc.__class__.__name__}"

@@ -2,7 +2,8 @@
 
 It follows the contract the notebook implements: ``POST /api/live-runs`` (idempotent on
 ``client_key``), ``POST /api/live-runs/<id>/readings`` (seq consecutive from 0, seq ≤ last_seq
-ignored, at most 1000 per post, times strictly increasing, 409 once the run is not recording), ``POST /api/live-runs/<id>/finish`` and ``GET /api/live-runs/<id>``,
+ignored, at most 1000 per post, times strictly increasing, 409 once the run is not recording),
+``POST /api/live-runs/<id>/finish`` and ``GET /api/live-runs/<id>``,
 JSON bodies, ``Authorization: Bearer <token>``. It records when each reading arrived, and can be
 told to answer 503 (``down = True``) to play a network fault.
 """

@@ -15,7 +15,8 @@ from calc.live.devices import PROFILES, load_profile, make_profile, temperature_
     ("stamped-kelvin", "12.0;294.520", 12.0, 21.370),
     ("stamped-kelvin", "12.5\t273.15", 12.5, 0.0),
     ("stamped-kelvin", "3 300.00", 3.0, 26.85),
-    # t/°C = (t/°F − 32)/1.8 (NIST SP 811, B.9; 98.6 °F = 37 °C and 212 °F = 100 °C, common practice, no source)
+    # t/°C = (t/°F − 32)/1.8 (NIST SP 811, 2008 ed., B.9, from memory);
+    # 98.6 °F = 37 °C and 212 °F = 100 °C (common practice, no source)
     ("labelled-fahrenheit", "TEMP: 98.60 F", None, 37.0),
     ("labelled-fahrenheit", "T=212 °F", None, 100.0),
     ("labelled-fahrenheit", "TEMP 32.00F", None, 0.0),
@@ -56,7 +57,8 @@ def test_temperature_units_are_read_through_pint(text):
 @pytest.mark.parametrize(("text", "said"), [
     ("grad Celsius", "unknown unit 'grad Celsius'"), ("℃", "unknown unit '℃'"), ("", "unknown unit ''"),
     # pint reads a bare C as the coulomb and F as the farad (SI symbols, SI Brochure Table 4)
-    ("C", "'C' is not a temperature"), ("F", "'F' is not a temperature"), ("m", "'m' is not a temperature"), ("furlong", "'furlong' is not a temperature"),
+    ("C", "'C' is not a temperature"), ("F", "'F' is not a temperature"), ("m", "'m' is not a temperature"),
+    ("furlong", "'furlong' is not a temperature"),
 ])
 def test_unreadable_units_are_refused_by_name(text, said):
     with pytest.raises(InputError) as info:

@@ -75,7 +75,7 @@ def test_fahrenheit_lines_on_a_pty_are_read_through_pyserial_and_logged_in_celsi
         thermo.close()
     assert res.exit_code == 0, res.output
     logged = read_readings(tmp_path / "run.csv").temperature_K - 273.15
-    # t/°C = (t/°F − 32)/1.8 (NIST SP 811, B.9): 68 °F = 20 °C, 98.6 °F = 37 °C, 212 °F = 100 °C
+    # t/°C = (t/°F − 32)/1.8 (NIST SP 811, 2008 ed., B.9, from memory): 68 °F = 20 °C, 98.6 °F = 37 °C, 212 °F = 100 °C
     assert np.allclose(logged, [20.0, 21.25, 37.0, 100.0] * 5, atol=1e-4)
     garbled = sum(line not in {PROFILES["labelled-fahrenheit"].format(0, c) for c in logged}
                   for _, line in thermo.written)

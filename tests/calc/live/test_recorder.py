@@ -154,3 +154,16 @@ def test_a_full_disk_ends_the_recording_with_a_message_and_keeps_the_rows_before
     assert summary.failed and summary.recorded == 3
     assert summary.ended_by == "cannot write to the log (No space left on device); the rows before are kept"
     assert path.read_text().splitlines()[1:] == ["0.000,21.8500", "1.000,21.8500", "2.000,21.8500"]
+
+
+def test_a_second_recorder_on_the_same_log_is_refused(tmp_path):
+    path = tmp_path / "r.csv"
+    log, _sidecar, _side = open_log(path)
+    try:
+        with pytest.raises(InputError, match="another `cupcal record` is writing this log"):
+            open_log(path)
+    finally:
+        log.close()
+    second, _sidecar, _side = open_log(path)  # free again once the first has closed it
+    second.close()
+    assert path.read_text() == HEADER + "\n"
