@@ -382,19 +382,9 @@ def reaction_lookup(*, formula: str | None, equation: str | None, **_: str | Non
                 return ref
     if equation:
         r = hess(equation)
-        return ReferenceValue(
-            name=f"reaction {r.equation}",
-            quantity="standard reaction enthalpy (Hess's law)",
-            value=r.value,
-            u=r.u,
-            unit="kJ/mol",
-            temperature_K=T_REF_K,
-            molality=None,
-            source=r.source,
-            delta_cp=r.delta_cp,
-            delta_cp_u=r.delta_cp_u,
-            note="; ".join(r.notes),
-        )
+        return ReferenceValue(name=f"reaction {r.equation}", quantity="standard reaction enthalpy (Hess's law)",
+                              value=r.value, u=r.u, unit="kJ/mol", temperature_K=T_REF_K, molality=None,
+                              source=r.source, delta_cp=r.delta_cp, delta_cp_u=r.delta_cp_u, note="; ".join(r.notes))
     return None
 
 
