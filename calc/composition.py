@@ -89,7 +89,7 @@ def warm_water_properties(spec: RunSpec, props: Properties, T0: float) -> None:
         _water_density(props, "warm_water.density", spec.get("warm_water", "temperature").m_as("K"))
 
 
-def solution_properties(spec: RunSpec, props: Properties, T0: float) -> None:
+def reaction_solution_properties(spec: RunSpec, props: Properties, T0: float) -> None:
     """A solution of unstated composition: its density (else water's, with a warning)."""
     if not _explicit(spec, props, "solution", "density", "g/mL"):
         _water_density(props, "solution.density", T0)
