@@ -186,3 +186,16 @@ def test_every_environment_switch_of_the_tests_is_documented():
     docs = _text(WEB_README, README, DEVELOPERS)
     missing = sorted(n for n in used if not _named(n, docs))
     assert missing == [], "CUPCAL_* variables of the tests not named in DEVELOPERS.md or the READMEs: " + ", ".join(missing)
+
+
+# ------------------------------------------------------------------------------ package guides
+
+
+def test_the_statistics_package_says_what_each_module_is_for():
+    import calc.statistics
+
+    modules = sorted(p.stem for p in (ROOT / "calc" / "statistics").glob("*.py") if p.stem != "__init__")
+    lines = (calc.statistics.__doc__ or "").splitlines()
+    assert len(modules) >= 4
+    missing = [m for m in modules if not any(line.startswith(f"- ``{m}``: ") for line in lines)]
+    assert missing == [], "modules of calc/statistics without their line in the package docstring: " + ", ".join(missing)
