@@ -204,21 +204,27 @@ def gunicorn(app_spec: str, env: dict[str, str], workers: int, tmp: Path, ready_
          "--error-logfile", str(log), app_spec],
         env={**os.environ, **env}, cwd=str(tmp), start_new_session=True,
     )
+    with served(proc, log, f"http://127.0.0.1:{port}{ready_path}", workers):
+        yield proc, port
+
+
+@contextlib.contextmanager
+def served(proc: subprocess.Popen, log: Path, ready_url: str, workers: int) -> Iterator[None]:
+    """Wait (90 s at most) until gunicorn ``proc`` answers ``ready_url`` with its ``workers`` up; when the
+    block ends, stop it and print the error lines of its ``log``."""
     try:
         deadline = time.time() + 90
         while True:
             if proc.poll() is not None:
                 raise RuntimeError(f"gunicorn exited with {proc.returncode}:\n{log.read_text()[-3000:]}")
-            try:
-                with urllib.request.urlopen(f"http://127.0.0.1:{port}{ready_path}", timeout=5) as r:
+            with contextlib.suppress(OSError):
+                with urllib.request.urlopen(ready_url, timeout=5) as r:
                     if r.status == 200 and len(psutil.Process(proc.pid).children()) >= workers:
                         break
-            except OSError:
-                pass
             if time.time() > deadline:
                 raise RuntimeError(f"gunicorn did not answer in 90 s:\n{log.read_text()[-3000:]}")
             time.sleep(0.3)
-        yield proc, port
+        yield
     finally:
         proc.terminate()
         try:
