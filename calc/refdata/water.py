@@ -157,40 +157,15 @@ def _check_T(T_K: float, what: str = "temperature") -> float:
 
 
 def water_density(T_K: float) -> ModelledProperty:
-    """Return the density of liquid water at T_K and 0.101325 MPa (IAPWS-95), in g/mL.
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    ModelledProperty
-        Value in g/mL with a standard uncertainty of 1e-6 relative.
-
-    Raises
-    ------
-    InputError
-        If the temperature is out of range.
-    """
+    """Return the density of liquid water at ``T_K`` (273.15 K to 363.15 K, else :class:`InputError`) and
+    0.101325 MPa from IAPWS-95, in g/mL, with a standard uncertainty of 1e-6 relative."""
     rho = _WATER.values(_check_T(T_K))[0]
     return ModelledProperty(rho, U_REL_WATER_DENSITY * rho, "g/mL", IAPWS_MODEL)
 
 
 def water_specific_heat(T_K: float) -> ModelledProperty:
-    """Return the isobaric specific heat capacity of liquid water (IAPWS-95), in J/(g K).
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    ModelledProperty
-        Value in J/(g*K) with a standard uncertainty of 1e-3 relative.
-    """
+    """Return the isobaric specific heat capacity of liquid water at ``T_K`` (273.15 K to 363.15 K, else
+    :class:`InputError`) from IAPWS-95, in J/(g K), with a standard uncertainty of 1e-3 relative."""
     cp = _WATER.values(_check_T(T_K))[1]
     return ModelledProperty(cp, U_REL_WATER_CP * cp, "J/(g*K)", IAPWS_MODEL)
 
