@@ -98,13 +98,15 @@ def _streamer(notebook: str | None, token: str | None, run_text: str | None, tar
     sidecar.write(side_file)
 
     def remember(live_id: int) -> None:
+        if sidecar.live_run_id not in (None, live_id):
+            click.echo(f"notebook: it gave live run {live_id}, not {sidecar.live_run_id} as before", err=True)
         if sidecar.live_run_id != live_id:
             sidecar.live_run_id = live_id
             sidecar.write(side_file)
         click.echo(f"notebook: live run {live_id} ({notebook.rstrip('/')}/live/{live_id})", err=True)
 
     return Streamer(NotebookClient(notebook, token), run_text, sidecar.client_key, target_u=target_u,
-                    live_id=sidecar.live_run_id, on_live_id=remember,
+                    on_live_id=remember,
                     on_message=lambda text: click.echo(f"notebook: {text}", err=True))
 
 
@@ -200,6 +202,8 @@ def _open(out: Path, opts: dict[str, Any]) -> tuple[Any, ...]:
 
     profile = _profile(opts["device"], opts["pattern"], opts["unit"], opts["simulate"] is not None)
     sim = thermo = None
+    if not opts["simulate"] and (opts["speed"] != 1.0 or opts["garble"] or opts["seed"] is not None):
+        raise InputError("--speed, --seed and --garble go with --simulate KIND", field="--simulate")
     if opts["simulate"]:
         sim, thermo = _simulator().simulated_thermometer(opts["simulate"], opts["seed"], profile,
                                                          speed=opts["speed"], garble=opts["garble"])
@@ -256,9 +260,14 @@ def _record(out: Path, opts: dict[str, Any], profile: Any, sim: Any, thermo: Any
 
 
 def _both(echo: Any, streamer: Any) -> Any:
+    printing = [echo is not None]
+
     def on_reading(seq: int, t: float, c: float) -> None:
-        if echo is not None:
-            echo(seq, t, c)
+        if printing[0]:
+            try:
+                echo(seq, t, c)
+            except OSError:  # stdout closed (`… | head`): stop printing, never stop recording
+                printing[0] = False
         if streamer is not None:
             streamer.add(seq, t, c)
     return on_reading

@@ -23,146 +23,9 @@ from calc.errors import InputError
 from calc.limits import require_number
 from calc.io.files import read_limited
 from calc.io.quantities import Measured, parse_measured
-from calc.kinds import get_kind, kind_names
+from calc.io.schema import CALORIMETER_TYPES, KINDS, REQUIRED_SECTIONS, SCHEMA, TOP_FIELDS, Field
 
-__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
-
-KINDS = kind_names()
-
-# A field is (kind of value, expected unit or None, required).
-#  "q"   measured quantity with units ("value ± u unit")
-#  "dq"  a temperature *difference* such as a resolution (degC counts as K)
-#  "n"   dimensionless measured quantity (bare number or "value ± u")
-#  "s"   free string
-#  "f"   chemical formula (string)
-#  "i"   positive integer
-#  "d"   a date (or date and time) in ISO 8601, as a string or a TOML date
-Field = tuple[str, str | None, bool]
-
-_INFO: dict[str, Field] = {
-    "title": ("s", None, False),
-    "operator": ("s", None, False),
-    "bench": ("s", None, False),
-    "date": ("d", None, False),
-    "notes": ("s", None, False),
-    "sample": ("s", None, False),
-    "group": ("s", None, False),
-}
-_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False), "type": ("s", None, False)}
-_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False),
-                                   "type": ("s", None, False)}
-#: Calorimeter types (``[calorimeter] type``); their plausible heat capacities are in calc.checks.
-CALORIMETER_TYPES = ("foam-cups", "dewar", "jacketed", "other")
-_THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}
-_MIXTURE: dict[str, Field] = {"specific_heat_capacity": ("q", "J/(g*K)", False)}
-_WATER: dict[str, Field] = {"volume": ("q", "mL", True), "density": ("q", "g/mL", False)}
-_REFERENCE: dict[str, Field] = {"name": ("s", None, False)}
-
-_COMMON: dict[str, dict[str, Field]] = {
-    "info": _INFO,
-    "thermometer": _THERMO,
-    "mixture": _MIXTURE,
-    "reference": _REFERENCE,
-}
-
-SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
-    "dissolution": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "water": _WATER,
-        "solute": {
-            "formula": ("f", None, True),
-            "mass": ("q", "g", True),
-            "purity": ("n", "", False),
-            "name": ("s", None, False),
-        },
-    },
-    "neutralization": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "acid": {
-            "formula": ("f", None, True),
-            "concentration": ("q", "mol/L", True),
-            "volume": ("q", "mL", True),
-            "density": ("q", "g/mL", False),
-            "equivalents": ("i", None, False),
-            "temperature": ("q", "K", False),
-        },
-        "base": {
-            "formula": ("f", None, True),
-            "concentration": ("q", "mol/L", True),
-            "volume": ("q", "mL", True),
-            "density": ("q", "g/mL", False),
-            "temperature": ("q", "K", True),
-            "equivalents": ("i", None, False),
-        },
-    },
-    "electrical-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
-        "heater": {
-            "voltage": ("q", "V", True),
-            "current": ("q", "A", True),
-            "duration": ("q", "s", True),
-        },
-    },
-    "mixing-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
-        "warm_water": {
-            "volume": ("q", "mL", True),
-            "temperature": ("q", "K", True),
-            "density": ("q", "g/mL", False),
-        },
-    },
-    "reaction": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "solution": _WATER,
-        "solute": {
-            "formula": ("f", None, True),
-            "mass": ("q", "g", True),
-            "name": ("s", None, False),
-        },
-        "reaction": {
-            "equation": ("s", None, False),
-            "limiting_reagent": ("f", None, False),
-            "amount": ("q", "mol", False),
-            "mass": ("q", "g", False),
-            "coefficient": ("i", None, False),
-        },
-    },
-}
-
-_HEATER_AT: dict[str, Field] = {
-    "voltage": ("q", "V", True),
-    "current": ("q", "A", True),
-    "duration": ("q", "s", True),
-    "start": ("q", "s", True),
-}
-SCHEMA["dissolution-with-calibration"] = {
-    **_COMMON,
-    "calorimeter": {"name": ("s", None, False), "type": ("s", None, False)},
-    "water": _WATER,
-    "solute": SCHEMA["dissolution"]["solute"],
-    "heater": _HEATER_AT,
-    "heater_2": _HEATER_AT,
-}
-
-#: Sections every run of a kind must have (:mod:`calc.kinds`).
-REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {k: get_kind(k).required_sections for k in KINDS}
-
-_TOP: dict[str, Field] = {
-    "kind": ("s", None, True),
-    "readings": ("s", None, True),
-    "mixing_time": ("q", "s", False),
-    "fore_period": ("p", "s", False),
-    "after_period": ("p", "s", False),
-    "method": ("s", None, False),
-    "temperature_column": ("c", None, False),
-}
+__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "REQUIRED_SECTIONS", "CALORIMETER_TYPES"]
 
 _DELTA_FACTORS = {"K": 1.0, "kelvin": 1.0, "degC": 1.0, "°C": 1.0, "℃": 1.0, "mK": 1e-3, "degF": 5 / 9, "°F": 5 / 9}
 
@@ -213,23 +76,7 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
 
 def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Path | None = None) -> RunSpec:
     """Validate run-file text; ``base_dir`` resolves the readings path."""
-    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        msg = str(exc)
-        found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
-        line = int(found.group(1)) if found else None
-        msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
-        raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
-    except RecursionError:
-        # tomllib recurses once per nesting level: "x = [[[[…" ~1000 deep
-        # exhausted the stack (found by the hostile-input tests).
-        raise InputError("not valid run-file TOML: arrays or tables nested too deeply", source=source) from None
-    except ValueError:
-        # tomllib reads integers with int(), which refuses more than 4300 digits
-        # (found by the hostile-input tests with "x = 999…9").
-        raise InputError("not valid run-file TOML: a number has too many digits", source=source) from None
+    data = _toml(text, source)
     kind = data.get("kind")
     if kind is None:
         raise InputError(f"missing; expected one of: {', '.join(KINDS)}", source=source, field="kind")
@@ -237,36 +84,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
         raise InputError(
             f"unknown kind '{kind}'; expected one of: {', '.join(KINDS)}", source=source, field="kind"
         )
-    schema = SCHEMA[kind]
-    sections: dict[str, dict[str, Any]] = {}
-    top: dict[str, Any] = {}
-    for key, value in data.items():
-        if isinstance(value, dict):
-            if key not in schema:
-                raise InputError(
-                    f"unknown section [{key}] for a {kind} run; expected sections: "
-                    + ", ".join(f"[{s}]" for s in schema),
-                    source=source,
-                    field=_key(key),
-                )
-            sections[key] = _parse_section(key, value, schema[key], source)
-        else:
-            if key not in _TOP:
-                raise InputError(
-                    f"unknown field; expected top-level fields: {', '.join(_TOP)} and sections "
-                    + ", ".join(f"[{s}]" for s in schema),
-                    source=source,
-                    field=_key(key),
-                )
-            top[key] = value
-    for sec in REQUIRED_SECTIONS[kind]:
-        if sec not in sections:
-            required = [n for n, f in schema[sec].items() if f[2]]
-            raise InputError(
-                f"missing section [{sec}] (a {kind} run needs it, with {', '.join(required)})",
-                source=source,
-                field=sec,
-            )
+    sections, top = _split(data, kind, source)
     readings = top.get("readings")
     if not isinstance(readings, str) or not readings.strip():
         raise InputError(
@@ -300,6 +118,62 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
         temperature_column=column,
         raw=data,
     )
+
+
+def _toml(text: str, source: str) -> dict[str, Any]:
+    """Return the TOML document of a run file, or an InputError naming the line."""
+    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        line = int(found.group(1)) if found else None
+        msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
+        raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
+    except RecursionError:
+        # tomllib recurses once per nesting level: "x = [[[[…" ~1000 deep
+        # exhausted the stack (found by the hostile-input tests).
+        raise InputError("not valid run-file TOML: arrays or tables nested too deeply", source=source) from None
+    except ValueError:
+        # tomllib reads integers with int(), which refuses more than 4300 digits
+        # (found by the hostile-input tests with "x = 999…9").
+        raise InputError("not valid run-file TOML: a number has too many digits", source=source) from None
+
+
+def _split(data: dict[str, Any], kind: str, source: str) -> tuple[dict[str, dict[str, Any]], dict[str, Any]]:
+    """Return the parsed sections and the top-level fields; refuse unknown ones and missing sections."""
+    schema = SCHEMA[kind]
+    sections: dict[str, dict[str, Any]] = {}
+    top: dict[str, Any] = {}
+    for key, value in data.items():
+        if isinstance(value, dict):
+            if key not in schema:
+                raise InputError(
+                    f"unknown section [{key}] for a {kind} run; expected sections: "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=_key(key),
+                )
+            sections[key] = _parse_section(key, value, schema[key], source)
+        else:
+            if key not in TOP_FIELDS:
+                raise InputError(
+                    f"unknown field; expected top-level fields: {', '.join(TOP_FIELDS)} and sections "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=_key(key),
+                )
+            top[key] = value
+    for sec in REQUIRED_SECTIONS[kind]:
+        if sec not in sections:
+            required = [n for n, f in schema[sec].items() if f[2]]
+            raise InputError(
+                f"missing section [{sec}] (a {kind} run needs it, with {', '.join(required)})",
+                source=source,
+                field=sec,
+            )
+    return sections, top
 
 
 _BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")

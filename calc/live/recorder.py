@@ -9,9 +9,10 @@ resumes it: a torn last row is cut off, time and the reading number (``seq``) go
 
 Times: without device time stamps, t is the wall-clock time since the first start (so a pause while
 the recorder was down shows as a gap); with them, t is the device's stamp as sent (its clock goes on
-while the recorder is down). A reading whose time is before the previous one is refused like a line
-that does not match; an equal time is kept (a burst of lines within a millisecond; the analysis merges
-repeated times, see :mod:`calc.io.readings`).
+while the recorder is down). Times increase strictly (the notebook requires it): a device stamp that is
+not after the previous one is refused like a line that does not match; a host-clock time that is not
+(a burst of lines within a millisecond, a clock set back across a restart) becomes the previous time
+plus 1 ms.
 """
 
 from __future__ import annotations
@@ -164,7 +165,12 @@ class Recorder:
         if device_time is not None:  # the device's own clock, which goes on while the recorder is down
             return device_time
         # wall clock at start (survives restarts), monotonic since (immune to clock steps while running)
-        return self._epoch0 - self.sidecar.t0_epoch + time.monotonic() - self._mono0
+        t = round(self._epoch0 - self.sidecar.t0_epoch + time.monotonic() - self._mono0, 3)
+        if self.log.rows and t <= self.log.rows[-1][0]:
+            # a burst of lines within a millisecond, or a computer clock set back across a restart:
+            # 1 ms after the previous reading, far below how well the host clock dates a line anyway
+            t = self.log.rows[-1][0] + 0.001
+        return t
 
     def _refuse(self, line: str, why: str) -> None:
         self.summary.bad_lines += 1
@@ -182,8 +188,8 @@ class Recorder:
             self._refuse(line, f"does not match the device profile {self.profile.name!r}")
             return False
         t = self._time(reading.device_time_s)
-        if self.log.rows and round(t, 3) < self.log.rows[-1][0]:  # an equal time is kept: the analysis merges it
-            self._refuse(line, f"its time {t:.3f} s is before the previous reading's {self.log.rows[-1][0]:.3f} s")
+        if self.log.rows and round(t, 3) <= self.log.rows[-1][0]:
+            self._refuse(line, f"its time {t:.3f} s is not after the previous reading's {self.log.rows[-1][0]:.3f} s")
             return False
         seq = self.log.append(t, reading.temperature_c)
         self.summary.recorded += 1
@@ -208,7 +214,12 @@ class Recorder:
                     self.summary.ended_by = "the simulated run is over"
                     break
                 continue
-            self.handle(line)
+            try:
+                self.handle(line)
+            except OSError as exc:  # a full disk, a removed USB stick: the rows before are on disk
+                self.summary.ended_by = f"cannot write to the log ({exc.strerror or exc}); the rows before are kept"
+                self.summary.failed = True
+                break
         else:
             self.summary.ended_by = "stopped (Ctrl-C or SIGTERM)"
         return self.summary

@@ -85,8 +85,12 @@ class SimThermometer:
 
     def open_pty(self) -> str:
         """Make a pseudo-terminal; return the port name to open (e.g. /dev/pts/3)."""
-        import pty
-        import tty
+        try:
+            import pty
+            import tty
+        except ImportError:
+            raise InputError("the simulated thermometer needs a pseudo-terminal (Linux or macOS); on this system, "
+                             "use --command or --follow with a program that prints readings", field="--simulate") from None
 
         master, slave = pty.openpty()
         tty.setraw(slave)  # no echo, no line editing: bytes pass as a serial line passes them

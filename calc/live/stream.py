@@ -17,7 +17,7 @@ import threading
 import time
 import urllib.error
 import urllib.request
-from typing import Any, Callable
+from typing import Any, Callable, Sequence
 
 from calc.errors import CupcalError
 
@@ -35,6 +35,10 @@ class Unreachable(CupcalError):
 
 class Refused(CupcalError):
     """The notebook refused the request for a reason retrying will not mend."""
+
+
+class Conflict(Refused):
+    """The notebook answered 409: its state differs from what the request assumed."""
 
 
 class NotebookClient:
@@ -57,15 +61,19 @@ class NotebookClient:
             message = _error_text(exc)
             if exc.code in (408, 429) or exc.code >= 500:
                 raise Unreachable(f"the notebook answered {exc.code} ({message})") from None
-            raise Refused(f"the notebook refused {path} with {exc.code}: {message}") from None
+            refusal = Conflict if exc.code == 409 else Refused
+            raise refusal(f"the notebook refused {path} with {exc.code}: {message}") from None
         except (urllib.error.URLError, OSError, ValueError) as exc:  # refused, timed out, reset, bad JSON
             reason = getattr(exc, "reason", exc)
             raise Unreachable(f"cannot reach the notebook at {self.base} ({reason})") from None
 
-    def create_live_run(self, run_text: str, client_key: str, target_u: float | None) -> tuple[int, int]:
-        """Create the live run, or find it again by ``client_key``; return (id, last_seq)."""
+    def create_live_run(self, run_text: str, client_key: str, target_u: float | None) -> tuple[int, int, str]:
+        """Create the live run, or find it again by ``client_key``; return (id, last_seq, state)."""
         answer = self._post("/api/live-runs", {"run_file": run_text, "client_key": client_key, "target_u": target_u})
-        return int(answer["id"]), int(answer.get("last_seq", -1))
+        try:
+            return int(answer["id"]), int(answer.get("last_seq", -1)), str(answer.get("state", "recording"))
+        except (KeyError, TypeError, ValueError):
+            raise Unreachable(f"the notebook's answer has no live-run id ({str(answer)[:80]})") from None
 
     def post_readings(self, live_id: int, rows: list[list[float]]) -> int:
         """Post ``[[seq, time_s, temperature_c], …]``; return the notebook's last_seq."""
@@ -89,10 +97,12 @@ class Streamer:
     """Post readings from a background thread (see the module docstring)."""
 
     def __init__(self, client: NotebookClient, run_text: str, client_key: str, *, target_u: float | None = None,
-                 live_id: int | None = None, on_live_id: Callable[[int], None] | None = None,
+                 on_live_id: Callable[[int], None] | None = None,
                  on_message: Callable[[str], None] | None = None) -> None:
         self.client, self.run_text, self.client_key, self.target_u = client, run_text, client_key, target_u
-        self.live_id = live_id
+        self.live_id: int | None = None
+        self.state = "recording"
+        self._synced = False  # whether acked holds the notebook's last_seq
         self.on_live_id = on_live_id or (lambda live_id: None)
         self.on_message = on_message or (lambda text: None)
         self.rows: list[list[float]] = []  # every reading, by seq
@@ -101,9 +111,10 @@ class Streamer:
         self.last_problem: str | None = None
         self._wake = threading.Condition()
         self._stopping = False
+        self._hurry = threading.Event()
         self._thread = threading.Thread(target=self._loop, name="cupcal-notebook-stream", daemon=True)
 
-    def start(self, existing: list[tuple[float, float]] = ()) -> None:  # type: ignore[assignment]
+    def start(self, existing: Sequence[tuple[float, float]] = ()) -> None:
         """Start the thread; ``existing`` are the log's rows from before a restart (seq 0…)."""
         self.rows = [[seq, t, c] for seq, (t, c) in enumerate(existing)]
         self._thread.start()
@@ -115,22 +126,37 @@ class Streamer:
             self._wake.notify()
 
     def ensure_live_run(self) -> int:
-        """Create (or find again, by client_key) the live run if not done yet; return its id."""
-        if self.live_id is None:
-            self.live_id, self.acked = self.client.create_live_run(self.run_text, self.client_key, self.target_u)
+        """Create the live run, or find it again by client_key and learn its last_seq; return its id.
+
+        Posted once at the start (after a restart too: the notebook answers with the same id and the
+        readings it already has, so only the missing ones are sent) and again after a 409.
+        """
+        if not self._synced or self.live_id is None:
+            self.live_id, self.acked, self.state = self.client.create_live_run(self.run_text, self.client_key,
+                                                                               self.target_u)
+            self._synced = True
             self.on_live_id(self.live_id)
         return self.live_id
 
     def _step(self) -> bool:
         """Do one request if there is work; return whether there was any."""
-        if self.live_id is None:
+        if not self._synced:
             self.ensure_live_run()
             return True
         with self._wake:
             pending = self.rows[self.acked + 1: self.acked + 1 + BATCH]
         if not pending:
             return False
-        self.acked = max(self.acked, self.client.post_readings(self.live_id, pending))
+        if self.state != "recording":  # finished or abandoned in the notebook meanwhile
+            raise Refused(f"the live run {self.live_id} is {self.state} in the notebook and takes no more readings")
+        before = self.acked
+        try:
+            self.acked = self.client.post_readings(self.live_id, pending)  # type: ignore[arg-type]
+        except Conflict:  # the notebook holds other readings than we think: ask it again
+            self._synced = False
+            raise Unreachable("the notebook's readings differ from ours (409); asking it for its last_seq") from None
+        if self.acked <= before:  # stored none: do not post the same batch again at once
+            raise Unreachable(f"the notebook stored none of {len(pending)} readings (last_seq {self.acked})")
         return True
 
     def _loop(self) -> None:
@@ -145,9 +171,11 @@ class Streamer:
                 if self.last_problem is None:
                     self.on_message(f"{exc}; recording goes on, will retry")
                 self.last_problem, worked = str(exc), False
-                with self._wake:
-                    self._wake.wait(pause)
-                pause = min(MAX_PAUSE_S, pause * 2)
+                # new readings do not cut the pause short (that would retry at the reading rate); close() does
+                if not self._hurry.wait(pause):
+                    pause = min(MAX_PAUSE_S, pause * 2)
+                else:
+                    time.sleep(0.2)
                 if self._stopping:
                     return
                 continue
@@ -170,8 +198,9 @@ class Streamer:
     def close(self, *, wait_s: float = 10.0) -> bool:
         """Send what is left (for at most ``wait_s``), stop the thread; return whether all was sent."""
         deadline = time.monotonic() + wait_s
+        self._hurry.set()  # cut a retry pause short
         with self._wake:
-            self._wake.notify()  # cut a retry pause short
+            self._wake.notify()
         while self._thread.is_alive() and self.pending > 0 and self.refused is None and time.monotonic() < deadline:
             time.sleep(0.05)
         with self._wake:

@@ -46,6 +46,8 @@ def parse_args(argv: list[str] | None) -> argparse.Namespace:
     p.add_argument("--duration", type=float, default=120.0, help="seconds of recording")
     p.add_argument("--workers", type=int, default=2)
     p.add_argument("--page", action="store_true", help="follow run 1's live page (else the room view)")
+    p.add_argument("--preload", type=int, default=0,
+                   help="readings each run holds before the measured window (the advisor's cost grows with them)")
     return p.parse_args(argv)
 
 
@@ -61,12 +63,13 @@ class Recorder(threading.Thread):
         self.acked: list[int] = []
         self.failures: list[str] = []
         self.post_s: list[float] = []
+        self.first_seq = 0
 
     def run(self) -> None:
         rows = demo_rows()
-        seq = 0
+        seq = self.first_seq
         while True:
-            due = self.t0 + seq / self.rate
+            due = self.t0 + (seq - self.first_seq) / self.rate
             if due > self.until:
                 return
             time.sleep(max(0.0, due - time.monotonic()))
@@ -76,7 +79,7 @@ class Recorder(threading.Thread):
                 try:
                     start = time.monotonic()
                     r = self.session.post(f"{self.base}/api/live-runs/{self.live_id}/readings",
-                                          json={"readings": [[seq, seq / self.rate, temp]]}, timeout=30)
+                                          json={"readings": [[seq, float(seq), temp]]}, timeout=30)
                     self.post_s.append(time.monotonic() - start)
                     if r.status_code == 200:
                         self.acked.append(seq)
@@ -88,8 +91,9 @@ class Recorder(threading.Thread):
             seq += 1
 
 
-def start_runs(base: str, benches: list[tuple[str, str]]) -> list[int]:
-    """Create one live run per bench (through the API, as `cupcal record` does); return their ids."""
+def start_runs(base: str, benches: list[tuple[str, str]], preload: int) -> list[int]:
+    """Create one live run per bench (through the API, as `cupcal record` does) holding ``preload``
+    readings already; return their ids."""
     ids = []
     text = live_run_file()
     for i, (bench, token) in enumerate(benches):
@@ -98,6 +102,11 @@ def start_runs(base: str, benches: list[tuple[str, str]]) -> list[int]:
                           headers={"Authorization": f"Bearer {token}"}, timeout=60)
         r.raise_for_status()
         ids.append(r.json()["id"])
+        rows = demo_rows()
+        for start in range(0, preload, 1000):
+            batch = [[k, float(k), rows[k % len(rows)][1]] for k in range(start, min(preload, start + 1000))]
+            requests.post(f"{base}/api/live-runs/{ids[-1]}/readings", json={"readings": batch},
+                          headers={"Authorization": f"Bearer {token}"}, timeout=120).raise_for_status()
     return ids
 
 
@@ -122,7 +131,7 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
                     arrived.setdefault((item["id"], r[0]), t)
 
     with gunicorn(url, args.workers, tmp) as (proc, base):
-        ids = start_runs(base, setup["benches"])
+        ids = start_runs(base, setup["benches"], args.preload)
         viewer = signed_in(base, COORDINATOR)
         path = f"/live/{ids[0]}/events?after=-1" if args.page else f"/classes/sections/{setup['section_id']}/live/events"
         reader = StreamReader(viewer, base + path, on_event)
@@ -134,6 +143,7 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
                      for i, ((_b, tok), lid) in enumerate(zip(setup["benches"], ids))]
         cpu0, db0, w0 = tree_cpu_s(proc.pid), tree_cpu_s(db_pid), time.monotonic()
         for rec in recorders:
+            rec.first_seq = args.preload
             rec.start()
         for rec in recorders:
             rec.join()
@@ -147,7 +157,7 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
     lost = sorted(k for k in acked if k[0] in followed and k not in arrived)
     return {"acked": len(acked), "followed": sum(1 for k in acked if k[0] in followed), "lost": len(lost),
             "lost_first": lost[:5], "stored": stored_counts(url, ids), "acked_by_run": {
-                rec.live_id: len(rec.acked) for rec in recorders},
+                rec.live_id: args.preload + len(rec.acked) for rec in recorders},
             "latency_s": {"median": statistics.median(latencies) if latencies else None,
                           "p95": percentile(latencies, 0.95), "max": latencies[-1] if latencies else None,
                           "n": len(latencies)},
@@ -198,8 +208,9 @@ def main(argv: list[str] | None = None) -> int:
     with tempfile.TemporaryDirectory(prefix="cupcal-live-bench-") as tmp, \
             fresh_database(args.db, Path(tmp)) as (url, db_text, db_pid):
         res = measure(args, url, db_pid, Path(tmp))
-    res.update(config={"db": db_text, "runs": args.runs, "rate_per_s": args.rate, "duration_s": args.duration,
-                       "workers": args.workers, "followed": "live page of run 1" if args.page else "room view"})
+    res.update(config={"db": db_text, "runs": args.runs, "preload": args.preload, "rate_per_s": args.rate,
+                       "duration_s": args.duration, "workers": args.workers,
+                       "followed": "live page of run 1" if args.page else "room view"})
     limit = 1.0 if args.page else 2.0
     bad = problems(res, limit)
     lat = res["latency_s"]

@@ -16,7 +16,9 @@ import numpy as np
 from calc.statistics.control_charts import control_chart
 from calc.plan import plan_run
 from calc.statistics.replicates import summarize_series
-from calc.statistics.precision import cochran, grubbs, iso5725, mandel_h_k, robust_mean_sd
+from calc.statistics.cochran_test import cochran
+from calc.statistics.precision import grubbs, iso5725, mandel_h_k
+from calc.statistics.robust import robust_mean_sd
 
 
 def _best_of(fn, repeat: int = 5) -> float:

@@ -22,18 +22,10 @@ MAX_FUNCTION_LINES = 60
 
 #: Modules over MAX_MODULE_LINES: path → reason (not yet split; to be taken apart).
 LONG_MODULES: dict[str, str] = {
-    "calc/io/quantities.py": "the measured-quantity parser with all its accepted spellings, not yet split",
-    "calc/io/readings.py": "the thermometer-log reader and its per-line error messages, not yet split",
-    "calc/io/runfile.py": "the run-file schema and its parser in one module",
-    "calc/statistics/precision.py": "class outliers and ISO 5725-2 precision in one module",
 }
 
 #: Functions over MAX_FUNCTION_LINES: "path::qualified name" → reason.
 LONG_FUNCTIONS: dict[str, str] = {
-    "calc/io/quantities.py::parse_measured": "one parser for all the accepted spellings of a quantity",
-    "calc/io/runfile.py::parse_run": "reads and checks every section of a run file in one pass",
-    "calc/refdata/comparison.py::compare": "the comparison with a reference and all its special cases in one function",
-    "calc/refdata/hess.py::hess": "Hess's-law combination and its input checks in one function",
     "calc/simulation/insitu.py::simulate_dissolution_with_calibration": "one simulated scenario written out in full",
     "calc/simulation/kinds.py::simulate_neutralization": "one simulated scenario written out in full",
     "calc/uncertainty/gum.py::propagate": "GUM propagation with its degrees of freedom and budget in one function",

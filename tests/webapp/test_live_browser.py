@@ -101,9 +101,11 @@ def test_spike_and_probe_out_warnings_appear_at_once(browser: Any, server: str) 
     d.get(f"{server}/live/{live}")
     _api(server, f"/api/live-runs/{live}/readings", {"readings": spiky})
     assert _alert(d, "spike", timeout=5)
-    out = [list(r) for r in batch(rows, 0, 60)]
-    for i in range(40, 60):  # the probe lifted out: the reading falls fast towards the air's 18 °C
-        out[i][2] = rows[39][1] - (rows[39][1] - 18.0) * (1 - 0.8 ** (i - 39))
+    whole = demo_rows()[:230]  # through the addition (at 240 s) into the after period
+    out = [list(r) for r in batch(whole, 0, 230)]
+    room = whole[0][1]
+    for i in range(200, 230):  # from 400 s the probe is out: the reading moves most of the way to the room's
+        out[i][2] += 0.6 * (room - out[i][2])
     probe = _api(server, "/api/live-runs", {"run_file": live_run_file(), "client_key": "browser-probe"})["id"]
     d.get(f"{server}/live/{probe}")
     _api(server, f"/api/live-runs/{probe}/readings", {"readings": out})

@@ -156,3 +156,57 @@ def test_target_forms_and_finishing_from_the_page(client: Any, lab: Any, session
     r = client.post(f"/live/{live}/finish", data={"csrf_token": csrf_token(page)})
     assert r.status_code == 303 and re.search(r"/runs/\d+$", r.headers["Location"])
     assert client.get(f"/api/live-runs/{live}", headers=h).get_json()["state"] == "finished"
+
+
+def test_the_advisor_runs_once_per_batch_and_never_for_a_page(client: Any, lab: Any, monkeypatch: Any) -> None:
+    import calc.live.advisor as advisor
+
+    calls: list[int] = []
+    real = advisor.advise
+
+    def counting(*args: Any, **kwargs: Any) -> Any:
+        calls.append(len(args[1]))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(advisor, "advise", counting)
+    h = lab.auth("a1")
+    live = start_live(client, h).get_json()["id"]
+    assert calls == [0]  # the first advice: no readings yet
+    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 30)}, headers=h)
+    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 30)}, headers=h)  # a retry
+    assert calls == [0, 30]  # the retry stored nothing new: no new advice
+    sign_in(client, "a1@lab.example")
+    for url in (f"/live/{live}", f"/live/{live}/update.json", "/live/"):
+        assert client.get(url).status_code == 200
+    assert client.get(f"/api/live-runs/{live}", headers=h).status_code == 200
+    assert calls == [0, 30]
+
+
+def test_a_failing_advisor_keeps_the_readings(client: Any, lab: Any, monkeypatch: Any) -> None:
+    import calc.live.advisor as advisor
+
+    def broken(*_args: Any, **_kwargs: Any) -> Any:
+        raise RuntimeError("simulated fault")
+
+    h = lab.auth("a1")
+    live = start_live(client, h).get_json()["id"]
+    monkeypatch.setattr(advisor, "advise", broken)
+    r = client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 5)}, headers=h)
+    assert r.status_code == 200 and r.get_json()["last_seq"] == 4
+    got = client.get(f"/api/live-runs/{live}", headers=h).get_json()
+    assert got["n_readings"] == 5 and got["advice"]["phase"] == "refused" and "advisor failed" in got["advice"]["status"]
+
+
+def test_advice_waits_for_enough_new_log_time(app: Any, client: Any, lab: Any, monkeypatch: Any) -> None:
+    import calc.live.advisor as advisor
+
+    calls: list[int] = []
+    real = advisor.advise
+    monkeypatch.setattr(advisor, "advise", lambda *a, **k: calls.append(len(a[1])) or real(*a, **k))
+    app.config["LIVE_ADVICE_EVERY_S"] = 3.0
+    h = lab.auth("a1")
+    live = start_live(client, h).get_json()["id"]
+    for i in range(5):  # the demo log reads every 2 s: t = 0, 2, 4, 6, 8
+        client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), i, i + 1)}, headers=h)
+    # created (no readings), then t = 0 (first readings), t = 4 (4 s after 0), t = 8 (4 s after 4)
+    assert calls == [0, 1, 3, 5]

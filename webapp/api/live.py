@@ -7,6 +7,7 @@ The recorder creates a live run (idempotent on its client key), posts readings i
 
 from __future__ import annotations
 
+from flask import current_app
 from flask import jsonify
 from flask import url_for
 
@@ -52,7 +53,8 @@ def live_readings(live_id: int):  # type: ignore[no-untyped-def]
     data = json_object()
     if "readings" not in data:
         raise Invalid("missing; expected a list of [seq, time_s, temperature_c]", field="readings")
-    stored, last_seq = add_readings(get_session(), actor(), live_id, data["readings"])
+    every = float(current_app.config.get("LIVE_ADVICE_EVERY_S", 0.0))
+    stored, last_seq = add_readings(get_session(), actor(), live_id, data["readings"], every)
     return jsonify({"stored": stored, "last_seq": last_seq})
 
 

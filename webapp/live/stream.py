@@ -37,9 +37,9 @@ def event_text(name: str, data: dict[str, Any], event_id: str | None = None) -> 
     return f"{head}event: {name}\ndata: {json.dumps(data, separators=(',', ':'), allow_nan=False)}\n\n"
 
 
-def _events(app: Flask, read: Reader, seconds: float) -> Iterator[str]:
+def _events(app: Flask, read: Reader, seconds: float, live_id: int | None) -> Iterator[str]:
     session = new_session(app)
-    waiter = Waiter(get_engine(app))
+    waiter = Waiter(get_engine(app), live_id)
     end = time.monotonic() + seconds
     last_sent = 0.0
     try:
@@ -61,11 +61,11 @@ def _events(app: Flask, read: Reader, seconds: float) -> Iterator[str]:
         session.close()
 
 
-def event_stream(read: Reader) -> Response:
-    """Return the streaming response of ``read``'s events."""
+def event_stream(read: Reader, live_id: int | None = None) -> Response:
+    """Return the streaming response of ``read``'s events (woken by changes of ``live_id``; None: any run)."""
     app = current_app._get_current_object()  # type: ignore[attr-defined]
     seconds = float(app.config.get("LIVE_STREAM_SECONDS", STREAM_SECONDS))
-    response = Response(_events(app, read, seconds), mimetype="text/event-stream")
+    response = Response(_events(app, read, seconds, live_id), mimetype="text/event-stream")
     response.headers["Cache-Control"] = "no-store"
     response.headers["X-Accel-Buffering"] = "no"  # a proxy in front must not hold the events back
     return response

@@ -107,7 +107,7 @@ def events(live_id: int):  # type: ignore[no-untyped-def]
         seen.update(seq=live.last_seq, advice=live.advice_seq, mark=change_mark(live))
         return [("update", out, f"{live.last_seq}.{live.advice_seq}")]
 
-    return event_stream(read)
+    return event_stream(read, live_id)
 
 
 @bp.route("/live/<int:live_id>/target", methods=["POST"])

@@ -16,6 +16,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from calc.io.readings import CELSIUS_RANGE
 
 from webapp.models import Bench
 from webapp.models import Calorimeter
@@ -42,8 +43,8 @@ MAX_BATCH = 1000
 #: the largest target U accepted (any unit): beyond it a target means nothing
 MAX_TARGET_U = 1e6
 _KEY = re.compile(r"[A-Za-z0-9._:-]{1,64}")
-#: plausible liquid temperatures of a coffee-cup run, °C (common practice, no source)
-T_RANGE_C = (-40.0, 150.0)
+#: the temperatures calc reads as °C (calc.io.readings.CELSIUS_RANGE): the advisor refuses others
+T_RANGE_C = CELSIUS_RANGE
 
 
 @dataclasses.dataclass(frozen=True)
@@ -193,8 +194,10 @@ def checked_rows(raw: Any) -> list[tuple[int, float, float]]:
     return rows
 
 
-def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any) -> tuple[int, int]:
-    """Store the new readings of a batch (those at or below ``last_seq`` are ignored) and commit.
+def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any,
+                 advice_every_s: float = 0.0) -> tuple[int, int]:
+    """Store the new readings of a batch (those at or below ``last_seq`` are ignored) and commit; then
+    advise again, when the newest reading is ``advice_every_s`` or more (log clock) after the last advised.
 
     :return: how many were new, and the run's last sequence number
     """
@@ -224,9 +227,11 @@ def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any) -> 
         live.last_seq = new[-1][0]
         live.updated_at = utcnow()
         notify(session, live.id)
-    last_seq = live.last_seq
+    last_seq, advised = live.last_seq, live.advice_seq
+    advised_t = session.scalar(sa.select(LiveReading.time_s).where(
+        LiveReading.live_run_id == live.id, LiveReading.seq == advised)) if advised >= 0 else None
     session.commit()
-    if new:
+    if new and (advised_t is None or last_t is None or last_t - advised_t >= advice_every_s):
         refresh_advice(session, live_id)
     return len(new), last_seq
 

@@ -8,6 +8,7 @@ lock); its answer is then written only if no newer one was written meanwhile (``
 from __future__ import annotations
 
 import json
+import logging
 from typing import Any
 
 import sqlalchemy as sa
@@ -23,6 +24,8 @@ from webapp.services.errors import Invalid
 from webapp.services.live_events import notify
 from webapp.services.live_runfile import analysis_text
 from webapp.services.live_runfile import calibration_for
+
+_log = logging.getLogger(__name__)
 
 
 def effective_target(session: so.Session, live: LiveRun) -> tuple[float | None, str]:
@@ -79,6 +82,9 @@ def refresh_advice(session: so.Session, live_id: int) -> None:
         advice = json.dumps(compute_advice(session, live), allow_nan=False)
     except ValueError:  # a NaN or infinity in the answer: nothing a page could draw
         advice = json.dumps(_refused("the advisor's numbers were not finite"))
+    except Exception:  # noqa: BLE001 - the readings are stored already; a fault of the advisor must not undo that
+        _log.exception("live run %s: the advisor failed", live_id)
+        advice = json.dumps(_refused("the advisor failed on these readings (the notebook's log says why)"))
     session.rollback()
     done = session.execute(sa.update(LiveRun).where(LiveRun.id == live_id,
                                                     sa.or_(LiveRun.advice_seq < seq, LiveRun.advice_seq == -1))

@@ -24,6 +24,8 @@ CHANNEL = "cupcal_live"
 SQLITE_POLL_S = 0.3
 #: the longest a stream waits for a notice before reading the tables anyway (a missed notice costs this)
 SAFETY_POLL_S = 5.0
+#: the shortest time between two reads of one stream, s: a burst of notices is read once
+MIN_GAP_S = 0.1
 
 _log = logging.getLogger(__name__)
 
@@ -42,14 +44,26 @@ class _Listener:
         self.dsn = dsn
         self.pid = os.getpid()
         self.count = 0
+        self.per_run: dict[int, int] = {}  # live run id → the count at its last notice
         self.cond = threading.Condition()
         self.thread = threading.Thread(target=self._run, name="cupcal-live-listen", daemon=True)
         self.thread.start()
 
-    def _bump(self) -> None:
+    def _bump(self, payload: str | None = None) -> None:
         with self.cond:
             self.count += 1
+            if payload is not None and payload.isdigit():
+                self.per_run[int(payload)] = self.count
+            else:  # (re)connected or lost: every stream must look again
+                self.per_run.clear()
+                self.per_run[-1] = self.count
             self.cond.notify_all()
+
+    def mark(self, live_id: int | None) -> int:
+        """Return the count that tells a stream following ``live_id`` (None: any run) that something changed."""
+        if live_id is None:
+            return self.count
+        return max(self.per_run.get(live_id, 0), self.per_run.get(-1, 0))
 
     def _run(self) -> None:
         import psycopg
@@ -61,8 +75,8 @@ class _Listener:
                     conn.execute(f"LISTEN {CHANNEL}")
                     pause = 0.5
                     self._bump()  # (re)connected: anything may have been missed, look again
-                    for _notice in conn.notifies():
-                        self._bump()
+                    for notice in conn.notifies():
+                        self._bump(notice.payload)
             except Exception as exc:  # noqa: BLE001 - the server went away: reconnect after a pause
                 if pause == 0.5:
                     _log.warning("live updates: listening connection lost (%s); reconnecting", exc)
@@ -70,11 +84,12 @@ class _Listener:
                 time.sleep(pause)
                 pause = min(pause * 2, 30.0)
 
-    def wait(self, seen: int, timeout: float) -> int:
-        """Wait until a notice arrives after ``seen`` (or ``timeout`` s); return the count now."""
+    def wait(self, live_id: int | None, seen: int, timeout: float) -> int:
+        """Wait until a notice about ``live_id`` (None: any) arrives after ``seen``, or ``timeout`` s;
+        return the mark now."""
         with self.cond:
-            self.cond.wait_for(lambda: self.count != seen, timeout)
-            return self.count
+            self.cond.wait_for(lambda: self.mark(live_id) != seen, timeout)
+            return self.mark(live_id)
 
 
 _listeners: dict[str, _Listener] = {}
@@ -93,13 +108,21 @@ def _listener(engine: sa.Engine) -> _Listener:
 class Waiter:
     """What an event stream waits on between two reads of the tables."""
 
-    def __init__(self, engine: sa.Engine) -> None:
+    def __init__(self, engine: sa.Engine, live_id: int | None = None) -> None:
+        self.live_id = live_id
         self.listener = _listener(engine) if engine.dialect.name == "postgresql" else None
-        self.seen = self.listener.count if self.listener is not None else 0
+        self.seen = self.listener.mark(live_id) if self.listener is not None else 0
+        self.last = 0.0
 
     def wait(self, timeout: float) -> None:
-        """Return after a notice (PostgreSQL), after :data:`SQLITE_POLL_S` (SQLite), or at ``timeout``."""
+        """Return after a notice about the stream's run (PostgreSQL), after :data:`SQLITE_POLL_S` (SQLite),
+        or at ``timeout``; never sooner than :data:`MIN_GAP_S` after the last return."""
+        gap = MIN_GAP_S - (time.monotonic() - self.last)
+        if gap > 0:
+            time.sleep(gap)
+        timeout = max(timeout - max(gap, 0.0), 0.0)
         if self.listener is None:
-            time.sleep(min(SQLITE_POLL_S, max(timeout, 0.0)))
-            return
-        self.seen = self.listener.wait(self.seen, min(SAFETY_POLL_S, max(timeout, 0.0)))
+            time.sleep(min(SQLITE_POLL_S, timeout))
+        else:
+            self.seen = self.listener.wait(self.live_id, self.seen, min(SAFETY_POLL_S, timeout))
+        self.last = time.monotonic()

@@ -2,7 +2,7 @@
 
 It follows the contract the notebook implements: ``POST /api/live-runs`` (idempotent on
 ``client_key``), ``POST /api/live-runs/<id>/readings`` (seq consecutive from 0, seq ≤ last_seq
-ignored, at most 1000 per post), ``POST /api/live-runs/<id>/finish`` and ``GET /api/live-runs/<id>``,
+ignored, at most 1000 per post, times strictly increasing, 409 once the run is not recording), ``POST /api/live-runs/<id>/finish`` and ``GET /api/live-runs/<id>``,
 JSON bodies, ``Authorization: Bearer <token>``. It records when each reading arrived, and can be
 told to answer 503 (``down = True``) to play a network fault.
 """
@@ -81,6 +81,9 @@ class FakeNotebook:
                 return 200, {"id": run.id, "state": run.state, "last_seq": run.last_seq,
                              "n_readings": len(run.readings), "advice": None, "run_id": None}
             if method == "POST" and match.group(2) == "/readings":
+                if run.state != "recording":
+                    return 409, {"error": f"live run {run.id} is {run.state}; it takes no more readings",
+                                 "field": "state"}
                 return self._readings(run, data)
             if method == "POST" and match.group(2) == "/finish":
                 run.state, run.csv = "finished", data.get("readings_csv")
@@ -93,10 +96,10 @@ class FakeNotebook:
             return 400, {"error": "client_key and run_file are required strings", "field": "client_key"}
         for run in self.runs.values():
             if run.client_key == key:
-                return 200, {"id": run.id, "page_url": f"/live/{run.id}", "last_seq": run.last_seq}
+                return 200, {"id": run.id, "page_url": f"/live/{run.id}", "last_seq": run.last_seq, "state": run.state}
         run = LiveRun(len(self.runs) + 1, key, text, data.get("target_u"))
         self.runs[run.id] = run
-        return 201, {"id": run.id, "page_url": f"/live/{run.id}", "last_seq": run.last_seq}
+        return 201, {"id": run.id, "page_url": f"/live/{run.id}", "last_seq": run.last_seq, "state": run.state}
 
     def _readings(self, run: LiveRun, data: dict[str, Any]) -> tuple[int, dict[str, Any]]:
         rows = data.get("readings")
@@ -105,9 +108,13 @@ class FakeNotebook:
         if len(rows) > 1000:
             return 413, {"error": f"{len(rows)} readings in one post; at most 1000", "field": "readings"}
         stored, now = 0, time.monotonic()
+        last_t = run.readings[-1][1] if run.readings else None
         for seq, t, c in rows:
             if seq <= run.last_seq:
                 continue
+            if last_t is not None and t <= last_t:  # the notebook takes strictly increasing times
+                return 400, {"error": f"expected a time after {last_t!r} s, got {t!r}", "field": "readings"}
+            last_t = t
             if seq != run.last_seq + 1:
                 return 409, {"error": f"seq {seq} after last_seq {run.last_seq}; expected consecutive seq",
                              "field": "readings"}

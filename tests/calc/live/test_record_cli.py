@@ -4,9 +4,7 @@ Ctrl-C and SIGTERM, and kill -9 followed by a restart that resumes the same log 
 from __future__ import annotations
 
 import json
-import os
 import signal
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -21,9 +19,8 @@ from calc.io.readings import read_readings
 from calc.live.devices import PROFILES
 from calc.live.recorder import HEADER, sidecar_path
 from calc.live.simthermo import SimThermometer
-from tests.calc.live.fake_notebook import TOKEN, FakeNotebook
-
-ROOT = Path(__file__).resolve().parents[3]
+from tests.calc.live.fake_notebook import FakeNotebook
+from tests.calc.live.record_helpers import readings_lost, rows, start_recorder, wait_rows
 
 
 def _invoke(*args):
@@ -57,6 +54,7 @@ def test_a_busy_port_is_one_line_and_exit_2(tmp_path):
     (["--pattern", "(?P<value>\\S+)", "--unit", "C"], "--unit: the unit 'C' is not a temperature"),
     (["--device", "no-such-probe"], "--device: unknown device 'no-such-probe'"),
     (["--speed", "2", "--simulate", "dissolution", "--device", "bare-celsius"], "--speed: a speed other than 1"),
+    (["--speed", "2"], "--simulate: --speed, --seed and --garble go with --simulate KIND"),
 ])
 def test_unreadable_units_and_devices_are_refused_by_name(tmp_path, args, said):
     res = _invoke(tmp_path / "run.csv", "--port", "/dev/null", *args) if "--simulate" not in args else \
@@ -112,33 +110,15 @@ def test_a_command_and_a_followed_file_are_sources_too(tmp_path):
     assert read_readings(tmp_path / "f.csv").time_s[0] == 10.0
 
 
-def _start(out: Path, port: str, *extra: str) -> subprocess.Popen:
-    env = {**os.environ, "PYTHONPATH": str(ROOT), "CUPCAL_TOKEN": TOKEN}
-    return subprocess.Popen([sys.executable, "-m", "calc.cli", "record", str(out), "--port", port,
-                             "--device", "stamped-kelvin", "--quiet", *extra],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-
-
-def _rows(out: Path) -> list[str]:
-    return out.read_text().splitlines()[1:] if out.exists() else []
-
-
-def _wait_rows(out: Path, n: int, seconds: float = 30.0) -> None:
-    deadline = time.monotonic() + seconds
-    while len(_rows(out)) < n:
-        assert time.monotonic() < deadline, f"fewer than {n} rows after {seconds} s"
-        time.sleep(0.02)
-
-
 @pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM])
 def test_ctrl_c_and_sigterm_end_cleanly(tmp_path, signum):
     thermo = SimThermometer(np.arange(2000) * 0.05, np.full(2000, 21.0), PROFILES["stamped-kelvin"])
     port = thermo.open_pty()
     out = tmp_path / "run.csv"
-    proc = _start(out, port)
+    proc = start_recorder(out, port)
     thermo.start()
     try:
-        _wait_rows(out, 5)
+        wait_rows(out, 5)
         proc.send_signal(signum)
         stdout, stderr = proc.communicate(timeout=30)
     finally:
@@ -147,15 +127,7 @@ def test_ctrl_c_and_sigterm_end_cleanly(tmp_path, signum):
     assert "ended: stopped (Ctrl-C or SIGTERM)" in stdout and "Traceback" not in stderr
     text = out.read_text()
     assert text.startswith(HEADER + "\n") and text.endswith("\n")
-    assert f"{len(_rows(out))} in the log" in stdout
-
-
-def _readings_lost(thermo: SimThermometer, rows: list[str], killed_at: float) -> int:
-    """Count the lines sent while a recorder was up (from its first logged line to its kill) not in its rows."""
-    logged = {f"{float(row.split(',')[0]):.1f}" for row in rows}
-    first = min(float(stamp) for stamp in logged)
-    sent = [line.split(";")[0] for at, line in thermo.written if at < killed_at and float(line.split(";")[0]) >= first]
-    return sum(stamp not in logged for stamp in sent)
+    assert f"{len(rows(out))} in the log" in stdout
 
 
 @pytest.mark.slow
@@ -170,27 +142,27 @@ def test_kill_9_loses_at_most_the_last_reading_and_a_restart_resumes_the_log_and
         thermo.start()
         try:
             for crash in range(3):
-                before = len(_rows(out))
-                proc = _start(out, port, *args)
-                _wait_rows(out, before + 10)
+                before = len(rows(out))
+                proc = start_recorder(out, port, *args)
+                wait_rows(out, before + 10)
                 killed_at = time.monotonic()
                 proc.send_signal(signal.SIGKILL)
                 proc.wait(timeout=10)
-                assert _readings_lost(thermo, _rows(out)[before:], killed_at) <= 1
-            proc = _start(out, port, *args, "--finish")
-            _wait_rows(out, len(_rows(out)) + 20)
+                assert readings_lost(thermo, rows(out)[before:], killed_at) <= 1
+            proc = start_recorder(out, port, *args, "--finish")
+            wait_rows(out, len(rows(out)) + 20)
             proc.send_signal(signal.SIGINT)
             stdout, stderr = proc.communicate(timeout=30)
         finally:
             thermo.close()
         assert proc.returncode == 0, stderr
-        rows = _rows(out)
-        times = [float(r.split(",")[0]) for r in rows]
+        logged = rows(out)
+        times = [float(r.split(",")[0]) for r in logged]
         assert times == sorted(times) and len(set(times)) == len(times)
         assert len(nb.runs) == 1  # every restart found the same live run by its client_key
         run = nb.runs[1]
         assert json.loads(sidecar_path(out).read_text())["live_run_id"] == 1
-        assert [r[0] for r in run.readings] == list(range(len(rows)))
-        assert [f"{r[1]:.3f},{r[2]:.4f}" for r in run.readings] == rows
+        assert [r[0] for r in run.readings] == list(range(len(logged)))
+        assert [f"{r[1]:.3f},{r[2]:.4f}" for r in run.readings] == logged
         assert run.state == "finished" and run.csv == out.read_text()
         assert "stored as run 1001" in stdout

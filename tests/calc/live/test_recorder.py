@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import time
 
+import numpy as np
 import pytest
 
 from calc.errors import InputError
@@ -63,10 +64,21 @@ def test_every_refused_line_is_counted_and_the_first_five_shown(tmp_path):
     assert summary.ended_by == "the list ended"
 
 
-def test_a_time_going_back_is_refused_not_written_and_an_equal_time_kept(tmp_path):
+def test_a_device_time_not_after_the_previous_is_refused_not_written(tmp_path):
     summary, shown = _record(tmp_path / "r.csv", ["10.0;295", "9.0;295", "11.0;295", "11.0;295.1"])
-    assert summary.recorded == 3 and summary.bad_lines == 1
-    assert "its time 9.000 s is before the previous reading's 10.000 s" in shown[0]
+    assert summary.recorded == 2 and summary.bad_lines == 2
+    assert "its time 9.000 s is not after the previous reading's 10.000 s" in shown[0]
+    assert "its time 11.000 s is not after the previous reading's 11.000 s" in shown[1]
+
+
+def test_host_clock_times_increase_strictly_in_a_burst_and_after_a_clock_set_back(tmp_path):
+    path = tmp_path / "r.csv"
+    summary, _ = _record(path, ["21.0"] * 50, profile="bare-celsius")  # 50 lines read within a few ms
+    clock = iter([0.0, 0.0])  # the computer's clock set back to before the first start
+    _record(path, ["21.5"] * 3, profile="bare-celsius", clock=lambda: next(clock))
+    times = read_readings(path).time_s
+    assert summary.recorded == 50 and times.size == 53
+    assert (np.diff(times) > 0).all()
 
 
 def test_a_restart_resumes_the_same_log_and_cuts_a_torn_last_row(tmp_path):
@@ -122,3 +134,23 @@ def test_a_log_row_is_on_disk_before_append_returns(tmp_path):
     # read through a second handle while the first is still open: the row is there already
     assert seq == 0 and path.read_text() == f"{HEADER}\n1.500,21.2500\n"
     log.close()
+
+
+def test_a_full_disk_ends_the_recording_with_a_message_and_keeps_the_rows_before(tmp_path, monkeypatch):
+    path = tmp_path / "r.csv"
+    log, sidecar, side = open_log(path)
+    write = CsvLog._write
+
+    def fill_up(self, line):
+        if len(self.rows) >= 3:
+            raise OSError(28, "No space left on device")
+        write(self, line)
+
+    monkeypatch.setattr(CsvLog, "_write", fill_up)
+    recorder = Recorder(ListSource([f"{t}.0;295.0" for t in range(10)]), PROFILES["stamped-kelvin"], log,
+                        sidecar, side)
+    summary = recorder.run(lambda: False)
+    log.close()
+    assert summary.failed and summary.recorded == 3
+    assert summary.ended_by == "cannot write to the log (No space left on device); the rows before are kept"
+    assert path.read_text().splitlines()[1:] == ["0.000,21.8500", "1.000,21.8500", "2.000,21.8500"]

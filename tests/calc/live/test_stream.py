@@ -83,3 +83,44 @@ def test_more_than_a_batch_goes_in_several_posts():
         posts = [r for r in nb.requests if r[1].endswith("/readings")]
         assert len(nb.runs[streamer.live_id].readings) == 2500
         assert len(posts) == 3 and all(status == 200 for _, _, status in posts)  # 1000 + 1000 + 500
+
+
+def test_a_conflict_makes_the_streamer_ask_for_the_notebooks_last_seq_and_go_on():
+    with FakeNotebook() as nb:
+        messages = []
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-4", on_message=messages.append)
+        streamer.start([(float(s), 21.0) for s in range(5)])
+        _wait(lambda: streamer.acked == 4)
+        with nb.lock:  # the notebook lost its last two readings (say, restored from a backup)
+            del nb.runs[streamer.live_id].readings[3:]
+        for seq in range(5, 8):
+            streamer.add(seq, float(seq), 21.0)
+        assert streamer.close(wait_s=15) is True
+        assert [r[0] for r in nb.runs[streamer.live_id].readings] == list(range(8))
+        assert any("409" in m for m in messages) and streamer.refused is None
+
+
+def test_a_live_run_finished_in_the_notebook_stops_the_streaming_with_a_message():
+    with FakeNotebook() as nb:
+        messages = []
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-5", on_message=messages.append)
+        streamer.start([(0.0, 21.0)])
+        _wait(lambda: streamer.acked == 0)
+        nb.runs[streamer.live_id].state = "finished"
+        streamer.add(1, 1.0, 21.0)
+        assert streamer.close(wait_s=10) is False
+        assert "is finished in the notebook and takes no more readings" in (streamer.refused or "")
+
+
+def test_retries_back_off_while_readings_keep_coming():
+    with FakeNotebook() as nb:
+        nb.down = True
+        streamer = Streamer(NotebookClient(nb.url, TOKEN), RUN, "key-6")
+        streamer.start()
+        for seq in range(40):  # 40 readings over 2 s: retries after 0.5, 1 and 2 s, not one per reading
+            streamer.add(seq, float(seq), 21.0)
+            time.sleep(0.05)
+        attempts = len(nb.requests)
+        nb.down = False
+        assert streamer.close(wait_s=10) is True
+        assert 2 <= attempts <= 4 and len(nb.runs[streamer.live_id].readings) == 40
