@@ -216,7 +216,7 @@ def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> N
     dt.u_drift_resolution = quantisation_drift_term(log, dt.value)
     if method_name == "regnault-pfaundler":
         u_dis, diff = inadequacy_term(log, dt)
-        dt.u_model = math.hypot(u_dis, room_drift_term(log, dt))
+        dt.u_model = math.hypot(u_dis, room_drift_term(log, dt, METHODS[method_name]))
         if dt.u_model**2 > 0.5 * dt.u**2:
             why = (f"the after period alone gives a ΔT {diff:+.3g} K different" if u_dis > 0
                    else "the main period is long, so an unseen change of the room temperature weighs heavily")

@@ -35,6 +35,7 @@ __all__ = [
     "method_term",
     "resolution_term",
     "resolution_terms",
+    "sweep_factor",
     "need_windows",
     "line_fits",
 ]
@@ -135,21 +136,41 @@ def method_term(name: str, value: float) -> float:
     return METHOD_TERMS.get(name, 0.01) * abs(value) / math.sqrt(3.0)
 
 
-def resolution_term(q: float, s: float, span: float = 0.0) -> float:
+def sweep_factor(steps: float) -> float:
+    """Return how much of a level's quantisation error survives a drift that sweeps ``steps`` steps.
+
+    The quantisation error of a reading is a periodic function of where the signal sits within its
+    step; its first harmonic is what a fit keeps (docs/methods.md §8.2). A level read at the edge of
+    a window by a straight-line fit weights the readings by w(u) = 4 − 6u (u from the edge, 0 to 1,
+    ∫w du = 1), so a drift through m steps leaves |∫ w(u) e^{2πimu} du| of that harmonic:
+    1 at m = 0, about 1/m for large m (never more than 1).
+    """
+    a = 2.0 * math.pi * abs(steps)
+    if a < 1e-6:
+        return 1.0
+    e = complex(math.cos(a), math.sin(a))
+    i0 = (e - 1.0) / (1j * a)
+    i1 = e / (1j * a) + (e - 1.0) / (a * a)
+    return min(1.0, abs(4.0 * i0 - 6.0 * i1))
+
+
+def resolution_term(q: float, s: float, steps: float = 0.0) -> float:
     """Return the standard uncertainty a thermometer resolution q leaves in a fitted level.
 
     Without dither a level read at resolution q is off by up to ±q/2 (rectangular, u = q/√12;
     GUM F.2.2.1). Two things dither the quantiser: noise of standard deviation σ, which shrinks
     the mean quantisation error like its first Fourier harmonic, exp(−2π²σ²/q²) (the classical
-    result for quantisation of a signal with Gaussian noise). σ is the residual SD less the
-    quantisation share q²/12, so a drift that merely steps through the levels earns no
-    credit (measured on simulated runs: crediting it left the intervals too short).
+    result for quantisation of a signal with Gaussian noise), and a drift that sweeps the signal
+    through ``steps`` steps over the window, which averages that harmonic out
+    (:func:`sweep_factor`). σ is the residual SD less the quantisation share q²/12: the sawtooth a
+    sweeping drift leaves in the residuals is quantisation, not noise, and the fit's own
+    (autocorrelation-inflated) uncertainty already carries it.
     """
     if q <= 0:
         return 0.0
     sigma2 = max(s * s - q * q / 12.0, 0.0)
     factor = math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
-    return q / math.sqrt(12.0) * factor
+    return q / math.sqrt(12.0) * factor * sweep_factor(steps)
 
 
 def resolution_terms(log: Log) -> tuple[float, float]:
@@ -161,7 +182,9 @@ def resolution_terms(log: Log) -> tuple[float, float]:
     for which in ("fore", "after"):
         tw, _yw = log.window(which)
         if tw.size > 2:
-            out.append(resolution_term(log.resolution, log.line(which).s))
+            line = log.line(which)
+            steps = abs(line.b) * float(tw[-1] - tw[0]) / log.resolution if log.resolution > 0 else 0.0
+            out.append(resolution_term(log.resolution, line.s, steps))
         else:
             out.append(log.resolution / math.sqrt(12.0))
     log._lines["resolution_terms"] = (out[0], out[1])

@@ -19,10 +19,12 @@ from typing import Callable
 
 import numpy as np
 
-from calc.deltat.constructions import JointNewtonConstruction
-from calc.deltat.drift import fit_newton_single
+from calc.deltat.base import sweep_factor
+from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
+from calc.deltat.drift import fit_newton_single, phi
 
-__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term"]
+__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term",
+           "room_response"]
 
 #: Standard uncertainty of an unseen linear change of the room temperature, K/s: a room that
 #: warms or cools by up to about 1 K/h over a run, taken as rectangular (±1 K/h, u = 1/√3 K/h).
@@ -30,19 +32,22 @@ __all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadeq
 ROOM_DRIFT_U = 1.0 / 3600.0 / math.sqrt(3.0)
 
 
-def slope_floor(q: float, s: float, length: float) -> float:
+def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
     """Return the standard uncertainty floor of a slope fitted over ``length`` seconds at resolution q.
 
     Without dither a straight drift that moves less than one step q over the window may read
     as a flat staircase. Where the level sits within its step (offset δ) decides how far it can
     drift unseen: up by q − δ or down by δ, so the hidden slope lies in an interval of width
     q/length (rectangular: u = q/(length·√12)). Noise of standard deviation σ beyond the quantisation share q²/12
-    dithers the quantiser and shrinks this like exp(−2π²σ²/q²), as in the level term.
+    dithers the quantiser and shrinks this like exp(−2π²σ²/q²), as in the level term. A drift that
+    sweeps ``steps`` steps over the window shows itself in the times the readings change, so the
+    floor shrinks like the level term (:func:`calc.deltat.base.sweep_factor`, about 1/steps).
     """
     if q <= 0 or length <= 0:
         return 0.0
     sigma2 = max(s * s - q * q / 12.0, 0.0)
-    return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
+    return (q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
+            * sweep_factor(steps))
 
 
 def quantisation_drift_term(log, dt_value: float) -> float:
@@ -55,8 +60,10 @@ def quantisation_drift_term(log, dt_value: float) -> float:
     ta_, _ = log.window("after")
     if tf_.size < 3 or ta_.size < 3:
         return 0.0
-    u_bf = slope_floor(q, log.line("fore").s, float(tf_[-1] - tf_[0]))
-    u_ba = slope_floor(q, log.line("after").s, float(ta_[-1] - ta_[0]))
+    lf, la = log.line("fore"), log.line("after")
+    len_f, len_a = float(tf_[-1] - tf_[0]), float(ta_[-1] - ta_[0])
+    u_bf = slope_floor(q, lf.s, len_f, abs(lf.b) * len_f / q)
+    u_ba = slope_floor(q, la.s, len_a, abs(la.b) * len_a / q)
     dur = max(p.main_end - p.mixing_time, 0.0)
     # the drift correction takes the fore drift over about the first part of the main period
     # and the after drift over the rest; half and half is the fair split without more knowledge
@@ -121,28 +128,41 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
     return excess / math.sqrt(3.0), d
 
 
-def room_drift_term(log, dt) -> float:
+def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
+    """Return what an environment drift adds to the readings: δ(t) = c·[x − φ(k, x)]/k, x = t − t_i.
+
+    With the room drifting at β the drift law gains c·(t − t_i), c = kβ; the contents follow
+    dδ/dt = −kδ + c·(t − t_i) with δ(t_i) = 0 (the fit absorbs any other start). For k → 0,
+    δ → c·x²/2.
+    """
+    x = np.asarray(t, dtype=float) - t_i
+    if abs(k) < 1e-12:
+        return 0.5 * c * x * x
+    return c * (x - phi(k, x)) / k
+
+
+def room_drift_term(log, dt, method_fn: Callable) -> float:
     """Return the ΔT standard uncertainty from a room temperature that changes linearly (K).
 
-    With an environment drifting at β the true law is g = G + k(y_i − T) + c(t − t_i), c = kβ.
-    One Newtonian law fitted to the fore and after windows (centres t_fc, t_ac) absorbs c into
-    g_i and k; the drift correction is then off by
-    c·[(t_fc − t_i)·D + (t_ac − t_fc)·B/(y_i − T_ac) − D²/2], with D = t_f − t_i and
-    B = ∫(y_i − T) dt over the main period. β is unknown: its standard uncertainty is ROOM_DRIFT_U.
+    The effect is propagated through the method itself: the readings get the response
+    :func:`room_response` to a room drifting at the half-width β = ±1 K/h, the method is run again
+    on them with the same periods, and the change of ΔT is the half-width of a rectangular term
+    (β unknown within ±1 K/h, u = half-width/√3). The exchange constant is k = √(k̂² + u(k̂)²) of the
+    method's Newtonian law, so a k fitted near zero still leaves a term. Methods without a
+    Newtonian law get no term (docs/methods.md §8.5).
     """
     c = dt.construction
-    if not isinstance(c, JointNewtonConstruction):
+    if not isinstance(c, NewtonianConstruction):
         return 0.0
-    y_i = float(c.newton_joint[0])
     k = math.hypot(max(float(c.k_per_s), 0.0), float(c.u_k_per_s))
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
-    D = t_f - t_i
-    fore, after = log.line("fore"), log.line("after")
-    if abs(y_i - after.a) < 1e-9 or D <= 0:
+    if not (math.isfinite(k) and k > 0) or t_f <= t_i:
         return 0.0
-    m = (log.t > t_i) & (log.t < t_f)
-    tt = np.concatenate([[t_i], log.t[m], [t_f]])
-    yy = np.concatenate([[y_i], log.y[m], [after.at(t_f)]])
-    B = float(np.sum(0.5 * ((y_i - yy[1:]) + (y_i - yy[:-1])) * np.diff(tt)))
-    lever = (fore.t_mean - t_i) * D + (after.t_mean - fore.t_mean) * B / (y_i - after.a) - 0.5 * D * D
-    return k * ROOM_DRIFT_U * abs(lever)
+    beta = ROOM_DRIFT_U * math.sqrt(3.0)  # the half-width, K/s
+    moved = type(log)(log.t, log.y + room_response(log.t, t_i, k, k * beta), log.periods, log.resolution,
+                      two_solution=log.two_solution)
+    try:
+        other = method_fn(moved).value
+    except Exception:  # noqa: BLE001 - a failed refit says only that the sensitivity is unknown
+        return 0.0
+    return abs(other - dt.value) / math.sqrt(3.0)
