@@ -15,6 +15,7 @@ from calc.errors import CupcalError
 from calc.limits import LimitExceeded
 from flask import Flask
 from flask import Response
+from flask import current_app
 from flask import jsonify
 from flask import render_template
 from flask import request
@@ -65,75 +66,91 @@ def _roll_back_request_session() -> None:
             pass
 
 
+def _service_error(exc: ServiceError):  # type: ignore[no-untyped-def]
+    _roll_back_request_session()
+    if wants_json():
+        response, status = json_error(exc.status, exc.message, exc.field)
+        current = getattr(exc, "current", None)
+        if current:
+            response = jsonify({**response.get_json(), "current": current})
+        return response, status
+    if isinstance(exc, Stale):
+        return _page_error(exc.status, "Changed by someone else", exc.message)
+    return _page_error(exc.status, "That did not work", exc.message)
+
+
+def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
+    return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
+                                "saved. Reload it, then make your change again"))
+
+
+def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]
+    # a limit of calc.limits passed (413) or other bad input that calc found (400)
+    status = 413 if isinstance(exc, LimitExceeded) else 400
+    field = getattr(exc, "field", None)
+    _roll_back_request_session()
+    if wants_json():
+        return json_error(status, str(exc), field)
+    return _page_error(status, "Too large" if status == 413 else "That did not work", str(exc))
+
+
+def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]
+    return _page_error(400, "The form has expired", "Reload the page and send the form again.")
+
+
+def _too_large(exc: RequestEntityTooLarge):  # type: ignore[no-untyped-def]
+    if wants_json():
+        return json_error(413, _too_large_message(), "upload")
+    return _page_error(413, "Upload too large", _too_large_message())
+
+
+def _http_error(exc: HTTPException):  # type: ignore[no-untyped-def]
+    status = exc.code or 500
+    if wants_json():
+        response, status = json_error(status, exc.description or exc.name)
+    else:
+        page, status = _page_error(status, exc.name, exc.description or "")
+        response = Response(page, status=status, mimetype="text/html")
+    for name, value in exc.get_headers():  # e.g. Allow of a 405 (RFC 9110, 15.5.6)
+        if name.lower() != "content-type":
+            response.headers[name] = value
+    return response, status
+
+
+def _storage_error(exc: sa.exc.DBAPIError):  # type: ignore[no-untyped-def]
+    _roll_back_request_session()
+    failure = storage_error(exc)
+    if failure is None:  # not an operational failure after all
+        return _unexpected(exc)
+    current_app.logger.error("database failure on %s %s: %s", request.method, request.path, failure.message)
+    if wants_json():
+        return json_error(failure.status, failure.message)
+    return _page_error(failure.status, "Not saved", failure.message)
+
+
+def _unexpected(exc: Exception):  # type: ignore[no-untyped-def]
+    current_app.logger.exception("unexpected error on %s %s", request.method, request.path)
+    _roll_back_request_session()
+    if wants_json():
+        return json_error(500, "internal error; the request was not carried out")
+    return _page_error(500, "Internal error", "The request was not carried out.")
+
+
+#: every handler with the errors it answers (Flask picks the most specific class, whatever the order)
+HANDLERS = (
+    (ServiceError, _service_error),
+    (so.exc.StaleDataError, _stale_row),
+    (CupcalError, _calc_error),
+    (CSRFError, _csrf_error),
+    (RequestEntityTooLarge, _too_large),
+    (HTTPException, _http_error),
+    (sa.exc.InterfaceError, _storage_error),
+    (sa.exc.OperationalError, _storage_error),
+    (Exception, _unexpected),
+)
+
+
 def init_app(app: Flask) -> None:
     """Register the error handlers."""
-
-    @app.errorhandler(ServiceError)
-    def _service_error(exc: ServiceError):  # type: ignore[no-untyped-def]
-        _roll_back_request_session()
-        if wants_json():
-            response, status = json_error(exc.status, exc.message, exc.field)
-            current = getattr(exc, "current", None)
-            if current:
-                response = jsonify({**response.get_json(), "current": current})
-            return response, status
-        if isinstance(exc, Stale):
-            return _page_error(exc.status, "Changed by someone else", exc.message)
-        return _page_error(exc.status, "That did not work", exc.message)
-
-    @app.errorhandler(so.exc.StaleDataError)
-    def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
-        return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
-                                    "saved. Reload it, then make your change again"))
-    @app.errorhandler(CupcalError)
-    def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]
-        # a limit of calc.limits passed (413) or other bad input that calc found (400)
-        status = 413 if isinstance(exc, LimitExceeded) else 400
-        field = getattr(exc, "field", None)
-        _roll_back_request_session()
-        if wants_json():
-            return json_error(status, str(exc), field)
-        return _page_error(status, "Too large" if status == 413 else "That did not work", str(exc))
-
-    @app.errorhandler(CSRFError)
-    def _csrf_error(exc: CSRFError):  # type: ignore[no-untyped-def]
-        return _page_error(400, "The form has expired", "Reload the page and send the form again.")
-
-    @app.errorhandler(RequestEntityTooLarge)
-    def _too_large(exc: RequestEntityTooLarge):  # type: ignore[no-untyped-def]
-        if wants_json():
-            return json_error(413, _too_large_message(), "upload")
-        return _page_error(413, "Upload too large", _too_large_message())
-
-    @app.errorhandler(HTTPException)
-    def _http_error(exc: HTTPException):  # type: ignore[no-untyped-def]
-        status = exc.code or 500
-        if wants_json():
-            response, status = json_error(status, exc.description or exc.name)
-        else:
-            page, status = _page_error(status, exc.name, exc.description or "")
-            response = Response(page, status=status, mimetype="text/html")
-        for name, value in exc.get_headers():  # e.g. Allow of a 405 (RFC 9110, 15.5.6)
-            if name.lower() != "content-type":
-                response.headers[name] = value
-        return response, status
-
-    @app.errorhandler(sa.exc.OperationalError)
-    @app.errorhandler(sa.exc.InterfaceError)
-    def _storage_error(exc: sa.exc.DBAPIError):  # type: ignore[no-untyped-def]
-        _roll_back_request_session()
-        failure = storage_error(exc)
-        if failure is None:  # not an operational failure after all
-            return _unexpected(exc)
-        app.logger.error("database failure on %s %s: %s", request.method, request.path, failure.message)
-        if wants_json():
-            return json_error(failure.status, failure.message)
-        return _page_error(failure.status, "Not saved", failure.message)
-
-    @app.errorhandler(Exception)
-    def _unexpected(exc: Exception):  # type: ignore[no-untyped-def]
-        app.logger.exception("unexpected error on %s %s", request.method, request.path)
-        _roll_back_request_session()
-        if wants_json():
-            return json_error(500, "internal error; the request was not carried out")
-        return _page_error(500, "Internal error", "The request was not carried out.")
+    for kind, handler in HANDLERS:
+        app.register_error_handler(kind, handler)

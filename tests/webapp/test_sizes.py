@@ -41,8 +41,6 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
 LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
     "__init__.py::create_app": (70, "the app factory: settings in their order of precedence, then every "
                                     "blueprint; another change (live runs) adds to it now"),
-    "error_handlers.py::init_app": (72, "one nested handler per kind of error, registered in the order "
-                                        "Flask must try them; not yet moved to module-level handlers"),
     "runs/new.py::new_kind": (67, "the new-run page of one kind, preview and save; runs/ is being edited by "
                                   "another change (live runs) now"),
     "runs/new.py::upload": (64, "the run-file upload page, preview and save; runs/ is being edited by another "
