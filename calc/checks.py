@@ -146,8 +146,8 @@ def _water_g(analysis: Any) -> float | None:
         volume = spec.get(section, "volume")
         if volume is not None and density in analysis.properties.values:
             return volume.m_as("mL") * analysis.properties.values[density][0]
-    if spec.kind == "neutralization":
-        vals = analysis.properties.values
+    vals = analysis.properties.values
+    if all(f"{s}.density" in vals for s in ("acid", "base")):  # two stocks mixed (a neutralization)
         return sum(spec.get(s, "volume").m_as("mL") * vals[f"{s}.density"][0] for s in ("acid", "base"))
     return None
 

@@ -2,7 +2,7 @@
 
 The prediction uses the analysis's own pieces: the planned amounts become a run file
 (:func:`calc.io.runfile.parse_run`), the property models supply densities and the solution's heat
-capacity (:func:`calc.analysis.resolve_properties`), the kind's model is built by
+capacity (:func:`calc.composition.resolve_properties`), the kind's model is built by
 :func:`calc.uncertainty.measurement_models.build_model` and propagated by :func:`calc.uncertainty.gum.propagate`. Only the corrected
 temperature change is predicted instead of measured:
 
@@ -13,7 +13,7 @@ temperature change is predicted instead of measured:
 * its uncertainty components as the default Regnault–Pfaundler method would report them for
   readings every ``interval`` with noise σ (lag-1 correlation φ) and resolution q:
 
-  - each level keeps the resolution term of :mod:`calc.deltat.methods`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
+  - each level keeps the resolution term of :mod:`calc.deltat.base`, ``q/√12 · exp(−2π²(s² − q²/12)/q²)``
     with s the readings' SD, averaged over where a steady level sits within a step (s is the SD of
     q·round((T + σZ)/q), computed from the normal distribution; with σ ≪ q readings stick to one
     value and keep the full q/√12);
@@ -25,7 +25,7 @@ temperature change is predicted instead of measured:
     release time constants past the 90 % point, plus its 15 s smoothing), so L_after = ``after`` −
     that; t_x ≈ t_m + τ_r + τ_s, and for two solutions the fore line is read at t_m itself.
     Checked against simulated runs analysed end to end (tests/calc/test_plan.py);
-  - the method term of :data:`calc.deltat.methods.METHOD_TERMS`; no mixing-time term (the Newtonian
+  - the method term of :data:`calc.deltat.base.METHOD_TERMS`; no mixing-time term (the Newtonian
     correction does not need the mixing time).
 
 Useful window of |ΔT|: at least 20 × the resolution and 1 K (resolution and drift corrections stay
@@ -37,24 +37,19 @@ share of u²(ΔH), budget lines grouped by what they come from (:func:`equipment
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
-from typing import Any, NamedTuple
+from dataclasses import dataclass, field
+from typing import Any
 
-import numpy as np
-from scipy import stats as sps
-
-from calc.analysis import kind_warnings, resolve_properties
-from calc.plan_kinds import CALIBRATION_KINDS, PLAN_KINDS, build_sections, solve_delta_t
-from calc.deltat.methods import resolution_term  # the analysis's own resolution term
-from calc.deltat.methods import DEFAULT_METHOD, METHOD_TERMS, DeltaT
-from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
-from calc.errors import InputError
-from calc.uncertainty.gum import BudgetLine, GumResult, propagate
-from calc.io.quantities import Measured, parse_measured
-from calc.uncertainty.measurement_models import ModelSpec, Properties, build_model
-from calc.io.runfile import RunSpec, parse_run
 from calc import limits
+from calc.errors import InputError
+from calc.io.quantities import Measured, parse_measured
+from calc.kinds import get_kind
 from calc.limits import require_number
+from calc.plan_design import (AFTER_ADVISED_S, HOT_RISE_K, Design, Thermo, evaluate, plan_warnings,  # noqa: F401
+                              timing)
+from calc.plan_kinds import PLAN_KINDS, build_sections
+from calc.uncertainty.gum import BudgetLine, GumResult, propagate
+from calc.uncertainty.measurement_models import Properties
 
 __all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
            "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
@@ -63,16 +58,9 @@ PLANNED_KINDS = tuple(PLAN_KINDS)
 MIN_DELTA_T_K = 1.0
 MAX_DELTA_T_K = 10.0
 RESOLUTION_MULTIPLE = 20.0
-HOT_RISE_K = 10.0
-#: After-period length the analysis advises (it warns below 120 s; 5 minutes are advised).
-AFTER_ADVISED_S = 300.0
 #: Typical release time constants (docs/methods.md §7.2): salts dissolve in 20–120 s, a poured
 #: neutralization mixes in 2–5 s.
 DEFAULT_RELEASE_S = {k: v.release_s for k, v in PLAN_KINDS.items()}
-_SMOOTHING_S = 15.0
-#: above this noise/resolution ratio the readings' SD has its closed form (keeps the grid small)
-_SHEPPARD_RATIO = 5.0
-_MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
 
 MeasuredLike = Measured | str
 
@@ -203,180 +191,14 @@ def _number(value: float, name: str, *, positive: bool = True) -> float:
                           exclusive_minimum=positive and low == 0.0)
 
 
-_Thermo = NamedTuple("_Thermo", [("q", float), ("sigma", float), ("phi", float), ("interval", float),
-                                  ("fore", float), ("after", float), ("tau_r", float), ("tau_s", float)])
-
-
-def _timing(th: _Thermo, two_solution: bool) -> dict[str, float]:
-    main = _MAIN_FACTOR * th.tau_r + th.tau_s + _SMOOTHING_S
-    after_window = max(th.after - main, 60.0)
-    d_fore = 0.0 if two_solution else th.tau_r + th.tau_s
-    return {"main_s": main, "after_window_s": after_window, "fore_window_s": th.fore,
-            "extrapolation_fore_s": d_fore, "extrapolation_after_s": main - d_fore}
-
-
-def _reading_sd(q: float, sigma: float) -> tuple[float, float]:
-    """Return (RMS residual SD the fits see, mean resolution term) over the level's place in a step.
-
-    A reading is q·round((T + σZ)/q); where a steady level sits within a step (offset u, uniform)
-    decides the readings' scatter: with σ ≪ q they stick to one value (SD 0, so no dither credit).
-    """
-    u = (np.arange(32) + 0.5) / 32 * q
-    if sigma <= 0:
-        sd = np.zeros_like(u)
-    elif sigma > _SHEPPARD_RATIO * q:
-        # Sheppard's correction: var = σ² + q²/12, exact to within exp(−2π²σ²/q²) (< 1e-200 here);
-        # the grid below would need (q + 12σ)/q rows (a noise of 1000 K read to 0.01 K: 10⁶ rows × 32)
-        sd = np.full_like(u, math.sqrt(sigma * sigma + q * q / 12.0))
-    else:
-        k = np.arange(math.floor(-6 * sigma / q) - 1, math.ceil((q + 6 * sigma) / q) + 2)[:, None] * q
-        p = sps.norm.cdf((k + q / 2 - u) / sigma) - sps.norm.cdf((k - q / 2 - u) / sigma)
-        mean = (p * k).sum(axis=0)
-        sd = np.sqrt(np.maximum((p * k * k).sum(axis=0) - mean**2, 0.0))
-    return math.sqrt(float(np.mean(sd**2))), float(np.mean([resolution_term(q, float(x)) for x in sd]))
-
-
-def _delta_t(value: float, T0: float, th: _Thermo, two_solution: bool) -> DeltaT:
-    """Return the DeltaT the analysis would report for a planned change ``value``."""
-    tm = _timing(th, two_solution)
-    s_read, u_res = _reading_sd(th.q, th.sigma)
-    s2 = s_read**2
-    infl = (1.0 + th.phi) / (1.0 - th.phi)
-
-    def level_var(L: float, d: float) -> tuple[float, float]:
-        n = L / th.interval + 1.0
-        return s2 * infl * (1.0 / n + 12.0 * (L / 2.0 + d) ** 2 / (n * L * L)), n
-
-    v_f, n_f = level_var(tm["fore_window_s"], tm["extrapolation_fore_s"])
-    v_a, n_a = level_var(tm["after_window_s"], tm["extrapolation_after_s"])
-    dof = (min(n_a / infl - 3.0, n_f / infl - 2.0) if two_solution else (n_f + n_a) / infl - 4.0)
-    # the analysis's floor on the drift slopes from the resolution (calc.deltat.budget_terms.slope_floor)
-    u_b = math.hypot(slope_floor(th.q, s_read, tm["fore_window_s"]), slope_floor(th.q, s_read, tm["after_window_s"]))
-    return DeltaT(
-        method=DEFAULT_METHOD, value=value, u_fit=math.sqrt(v_f + v_a), dof_fit=max(dof, 1.0),
-        u_resolution_start=u_res, u_resolution_end=u_res,
-        u_method=METHOD_TERMS[DEFAULT_METHOD] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,
-        start_temperature=T0, u_start_temperature=math.sqrt(s2 * infl * 4.0 / n_f),  # fore line at its end
-        end_temperature=T0 + value,
-        u_drift_resolution=0.5 * tm["main_s"] * u_b,
-    )
-
-
-@dataclass
-class _Design:
-    kind: str
-    sections: dict[str, dict[str, Any]]
-    T0: float
-    thermo: _Thermo
-    enthalpy: float | None  # given expected ΔH, kJ/mol
-    substances: list[str]
-
-    expected_cal: float | None = None  # J/K: a calibration's expected heat capacity
-
-    @property
-    def two_solution(self) -> bool:
-        return PLAN_KINDS[self.kind].two_solution
-
-    @property
-    def main(self) -> str:
-        return PLAN_KINDS[self.kind].main
-
-    def scaled(self, factor: float) -> _Design:
-        secs = {k: dict(v) for k, v in self.sections.items()}
-        for sec, name in PLAN_KINDS[self.kind].scaled:
-            m = secs[sec][name]
-            secs[sec][name] = Measured(m.value * factor, m.u, m.unit, m.distribution, f"{m.value * factor!r} {m.unit}")
-        return replace(self, sections=secs)
-
-    def amount(self) -> tuple[str, float, str]:
-        keys = PLAN_KINDS[self.kind].scaled
-        m = self.sections[keys[0][0]][keys[0][1]]
-        names = " and ".join(f"{sec}.{name}" for sec, name in keys)
-        return names + (" (scaled together)" if len(keys) > 1 else ""), m.value, m.unit
-
-    def run_file(self) -> str:
-        lines = [f'kind = "{self.kind}"', 'readings = "readings.csv"  # the log to be recorded', "",
-                 "[thermometer]", f'resolution = "{self.thermo.q:g} K"']
-        for sec, fields in self.sections.items():
-            lines += ["", f"[{sec}]"]
-            for name, v in fields.items():
-                if isinstance(v, int):
-                    lines.append(f"{name} = {v}")
-                    continue
-                text = v if isinstance(v, str) else f"{v.value:.6g} ± {v.u:.2g} {v.unit}"
-                lines.append(f'{name} = "{text}"')
-        return "\n".join(lines) + "\n"
-
-    def spec(self) -> RunSpec:
-        spec = parse_run(self.run_file(), source="plan")
-        for sec, fields in self.sections.items():  # keep each input's own distribution
-            for name, v in fields.items():
-                if isinstance(v, Measured):
-                    spec.sections[sec][name] = v
-        return spec
-
-
-_Evaluation = NamedTuple("_Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", Properties),
-                                          ("model", ModelSpec), ("expected", float), ("note", str)])
-
-
-def _expected(design: _Design, molality: float | None, T: float) -> tuple[float, str]:
-    if design.expected_cal is not None:
-        return design.expected_cal, "the heat capacity the calorimeter is expected to have (as given)"
-    if design.enthalpy is not None:
-        return design.enthalpy, "expected ΔH as given"
-    from calc.refdata.reference import find_reference
-
-    sec = design.sections
-    ref = (find_reference("dissolution", formula=sec["solute"]["formula"]) if design.kind == "dissolution" else
-           find_reference("neutralization", acid=sec["acid"]["formula"], base=sec["base"]["formula"]))
-    if ref is None:
-        what = ", ".join(design.substances)
-        raise InputError(f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
-                         field="molar_enthalpy")
-    from calc.refdata.comparison import compare
-
-    c = compare(ref.value, 0.0, ref, molality=molality, T_K=T) if ref.u > 0 else None
-    if c is not None and c.adjusted_reference is not None:
-        return c.adjusted_reference, f"{ref.name} ({ref.value:.2f} kJ/mol; {'; '.join(c.adjustments)}) — {ref.source}"
-    return ref.value, f"{ref.name} ({ref.value:.2f} kJ/mol) — {ref.source}"
-
-
-def _evaluate(design: _Design) -> _Evaluation:
-    """Predict ΔT from the expected ΔH through the run kind's own model (iterated for properties)."""
-    spec = design.spec()
-    main = design.main
-    value = 0.0
-    for _ in range(6):
-        dt = _delta_t(value, design.T0, design.thermo, design.two_solution)
-        props = resolve_properties(spec, dt)
-        model = build_model(spec, dt, props)
-        expected, note = _expected(design, model.molality, design.T0)
-        x = {inp.name: inp.value for inp in model.inputs}
-
-        def output(d: float, x: dict[str, Any] = x, model: ModelSpec = model) -> float:
-            x["delta_t.fit"] = d
-            return float(model.model(x)[main])
-
-        new = solve_delta_t(output, expected)
-        done = abs(new - value) <= 1e-7 * max(abs(new), 1e-3)
-        value = new
-        if done:
-            break
-    dt = _delta_t(value, design.T0, design.thermo, design.two_solution)
-    props = resolve_properties(spec, dt)
-    model = build_model(spec, dt, props)
-    return _Evaluation(spec, dt, props, model, expected, note)
-
-
-def _solve_amount(design: _Design, target: float) -> tuple[float, float]:
+def _solve_amount(design: Design, target: float) -> tuple[float, float]:
     """Return (scale factor of the amount, ΔT) that gives |ΔT| = ``target``."""
-    factor, dT = 1.0, _evaluate(design).dt.value
+    factor, dT = 1.0, evaluate(design).dt.value
     for _ in range(8):
         if dT == 0:
             break
         new = factor * target / abs(dT)
-        dT = _evaluate(design.scaled(new)).dt.value
+        dT = evaluate(design.scaled(new)).dt.value
         if abs(new - factor) <= 1e-5 * new:
             factor = new
             break
@@ -384,7 +206,7 @@ def _solve_amount(design: _Design, target: float) -> tuple[float, float]:
     return factor, dT
 
 
-def _suggest(design: _Design, dT: float, window: tuple[float, float]) -> Suggestion | None:
+def _suggest(design: Design, dT: float, window: tuple[float, float]) -> Suggestion | None:
     lo, hi = window
     if lo >= hi:
         return None
@@ -420,43 +242,26 @@ def _equipment(budget: list[BudgetLine]) -> list[EquipmentShare]:
 
 
 def plan_run(
-    kind: str,
-    *,
-    calorimeter_heat_capacity: MeasuredLike,
-    thermometer_resolution: float,
-    thermometer_noise: float = 0.005,
-    noise_correlation: float = 0.0,
-    formula: str | None = None,
-    mass: MeasuredLike | None = None,
-    water_volume: MeasuredLike | None = None,
-    acid: str | None = None,
-    base: str | None = None,
-    acid_concentration: MeasuredLike | None = None,
-    base_concentration: MeasuredLike | None = None,
-    acid_volume: MeasuredLike | None = None,
-    base_volume: MeasuredLike | None = None,
-    base_temperature: MeasuredLike | None = None,
-    balance_u: float | None = None,
-    volume_u: float | None = None,
-    temperature: float = 295.15,
-    delta_t_window: tuple[float, float] | None = None,
-    interval: float = 2.0,
-    fore: float = 180.0,
-    after: float = 900.0,
-    release_time: float | None = None,
-    probe_time: float = 5.0,
-    molar_enthalpy: float | None = None,
-    kind_inputs: dict[str, Any] | None = None,
+    kind: str, *, calorimeter_heat_capacity: MeasuredLike, thermometer_resolution: float,
+    thermometer_noise: float = 0.005, noise_correlation: float = 0.0,
+    formula: str | None = None, mass: MeasuredLike | None = None, water_volume: MeasuredLike | None = None,
+    acid: str | None = None, base: str | None = None, acid_concentration: MeasuredLike | None = None,
+    base_concentration: MeasuredLike | None = None, acid_volume: MeasuredLike | None = None,
+    base_volume: MeasuredLike | None = None, base_temperature: MeasuredLike | None = None,
+    balance_u: float | None = None, volume_u: float | None = None, temperature: float = 295.15,
+    delta_t_window: tuple[float, float] | None = None, interval: float = 2.0, fore: float = 180.0,
+    after: float = 900.0, release_time: float | None = None, probe_time: float = 5.0,
+    molar_enthalpy: float | None = None, kind_inputs: dict[str, Any] | None = None,
 ) -> Plan:
     """Predict a run's temperature change and the uncertainty of its ΔH before it is made.
 
     Parameters
     ----------
     kind:
-        ``"dissolution"`` (``formula``, ``mass``, ``water_volume``) or ``"neutralization"``
-        (``acid``, ``acid_concentration``, ``acid_volume`` in the cup; ``base``,
-        ``base_concentration``, ``base_volume`` poured in at ``base_temperature``, by default the
-        start temperature read with the same thermometer).
+        A kind with a ``plan_sections`` hook (:mod:`calc.kinds`), its amounts as in :mod:`calc.plan_kinds`:
+        e.g. ``"dissolution"`` (``formula``, ``mass``, ``water_volume``); ``"neutralization"`` (``acid``,
+        ``acid_concentration``, ``acid_volume`` in the cup, ``base``… poured in at ``base_temperature``,
+        by default the start temperature); others in ``kind_inputs``.
     calorimeter_heat_capacity:
         With its uncertainty, e.g. ``"18 ± 2 J/K"``.
     thermometer_resolution, thermometer_noise, noise_correlation:
@@ -474,10 +279,6 @@ def plan_run(
     molar_enthalpy:
         Expected ΔH in kJ/mol, when the reference library has none (or to override it).
 
-    Returns
-    -------
-    Plan
-
     Raises
     ------
     InputError
@@ -486,95 +287,85 @@ def plan_run(
     """
     if kind not in PLANNED_KINDS:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLANNED_KINDS)}", field="kind")
-    q = _number(thermometer_resolution, "thermometer_resolution")
-    sigma = _number(thermometer_noise, "thermometer_noise", positive=False)
-    if not isinstance(noise_correlation, (int, float)) or not 0.0 <= noise_correlation < 0.95:
-        raise InputError(f"expected a noise correlation between 0 and 0.95, got {noise_correlation!r}",
-                         field="noise_correlation")
+    th, T0, molar_enthalpy = _checked_numbers(kind, thermometer_resolution, thermometer_noise, noise_correlation,
+                                              temperature, molar_enthalpy, balance_u, volume_u,
+                                              (interval, fore, after, release_time, probe_time))
+    params = dict(formula=formula, mass=mass, water_volume=water_volume, acid=acid, base=base,
+                  acid_concentration=acid_concentration, base_concentration=base_concentration,
+                  acid_volume=acid_volume, base_volume=base_volume, base_temperature=base_temperature,
+                  balance_u=balance_u, volume_u=volume_u, molar_enthalpy=molar_enthalpy, **(kind_inputs or {}))
+    ev = evaluate(design := _design(kind, calorimeter_heat_capacity, params, T0, th, molar_enthalpy))
+    gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
+    return _plan(design, ev, gum, _window(delta_t_window, th.q))
+
+
+def _checked_numbers(kind: str, q: float, sigma: float, phi: Any, temperature: float, molar_enthalpy: float | None,
+                     balance_u: float | None, volume_u: float | None,
+                     times: tuple[float, float, float, float | None, float]) -> tuple[Thermo, float, float | None]:
+    """Return the thermometer and timing, the start temperature and the expected ΔH, each within its bounds."""
+    q = _number(q, "thermometer_resolution")
+    sigma = _number(sigma, "thermometer_noise", positive=False)
+    if not isinstance(phi, (int, float)) or not 0.0 <= phi < 0.95:
+        raise InputError(f"expected a noise correlation between 0 and 0.95, got {phi!r}", field="noise_correlation")
     T0 = _number(temperature, "temperature")
     if molar_enthalpy is not None:
         molar_enthalpy = _number(molar_enthalpy, "molar_enthalpy", positive=False)
     for name, value in (("balance_u", balance_u), ("volume_u", volume_u)):
         if value is not None:
             _number(value, name, positive=False)
+    interval, fore, after, release_time, probe_time = times
     tau_r = DEFAULT_RELEASE_S[kind] if release_time is None else release_time
-    th = _Thermo(q, sigma, float(noise_correlation), *(_number(v, n) for v, n in (
+    th = Thermo(q, sigma, float(phi), *(_number(v, n) for v, n in (
         (interval, "interval"), (fore, "fore"), (after, "after"), (tau_r, "release_time"), (probe_time, "probe_time"))))
+    return th, T0, molar_enthalpy
+
+
+def _design(kind: str, calorimeter_heat_capacity: MeasuredLike, params: dict[str, Any], T0: float, th: Thermo,
+            molar_enthalpy: float | None) -> Design:
+    """Return the planned run: the calorimeter (or a calibration's expected value) and the kind's amounts."""
     cal = _measured(calorimeter_heat_capacity, "calorimeter_heat_capacity", "J/K")
-    params = dict(formula=formula, mass=mass, water_volume=water_volume, acid=acid, base=base,
-                  acid_concentration=acid_concentration, base_concentration=base_concentration,
-                  acid_volume=acid_volume, base_volume=base_volume, base_temperature=base_temperature,
-                  balance_u=balance_u, volume_u=volume_u, molar_enthalpy=molar_enthalpy, **(kind_inputs or {}))
-    built, substances = build_sections(kind, params, _amount, _measured, T0, math.sqrt(q * q / 12.0 + sigma * sigma))
+    built, substances = build_sections(kind, params, _amount, _measured, T0,
+                                       math.sqrt(th.q * th.q / 12.0 + th.sigma * th.sigma))
     sections: dict[str, dict[str, Any]] = {}
     expected_cal = None
-    if kind in CALIBRATION_KINDS:
+    if get_kind(kind).is_calibration:
         expected_cal = cal.m_as("J/K")  # what the calibration should find; not an input of its model
         if not expected_cal > 0:
             raise InputError(f"expected a heat capacity > 0 J/K, got {cal.text!r}", field="calorimeter_heat_capacity")
     else:
         sections["calorimeter"] = {"heat_capacity": cal}
     sections.update(built)
-    design = _Design(kind, sections, T0, th, molar_enthalpy, substances, expected_cal)
-    ev = _evaluate(design)
-    gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
-    dT = ev.dt.value
-    window = (max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q), MAX_DELTA_T_K)
-    if delta_t_window is not None:
-        window = (float(delta_t_window[0]), float(delta_t_window[1]))
-        if not 0 < window[0] < window[1] <= 1000.0:
-            raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r} (at most 1000 K)",
-                             field="delta_t_window")
-    warnings = _warnings(design, ev, gum, window)
-    suggestion = _suggest(design, dT, window)
-    equipment = _equipment(gum.budget)
+    return Design(kind, sections, T0, th, molar_enthalpy, substances, expected_cal)
+
+
+def _window(delta_t_window: tuple[float, float] | None, q: float) -> tuple[float, float]:
+    """Return the useful |ΔT| window: the one given, else (max(1 K, 20 q), 10 K)."""
+    if delta_t_window is None:
+        return (max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q), MAX_DELTA_T_K)
+    window = (float(delta_t_window[0]), float(delta_t_window[1]))
+    if not 0 < window[0] < window[1] <= 1000.0:
+        raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r} (at most 1000 K)",
+                         field="delta_t_window")
+    return window
+
+
+def _plan(design: Design, ev: Any, gum: GumResult, window: tuple[float, float]) -> Plan:
+    """Return the :class:`Plan` of an evaluated design."""
     from calc.refdata.hazards import cautions_for
 
+    dT = ev.dt.value
+    warnings = plan_warnings(design, ev, gum, window)
+    suggestion = _suggest(design, dT, window)
+    equipment = _equipment(gum.budget)
     return Plan(
-        kind=kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,
+        kind=design.kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,
         delta_t_components={"fit": ev.dt.u_fit, "resolution_start": ev.dt.u_resolution_start,
                             "resolution_end": ev.dt.u_resolution_end, "method": ev.dt.u_method,
                             "drift_resolution": ev.dt.u_drift_resolution},
         predicted_result=gum.values[ev.model.main], predicted_u=gum.uncertainties[ev.model.main],
         predicted_U=gum.expanded_uncertainty, coverage_factor=gum.coverage_factor, dof_eff=gum.dof_eff,
-        result_unit=ev.model.main_unit, expected_note=ev.note, start_temperature_K=T0, window=window,
+        result_unit=ev.model.main_unit, expected_note=ev.note, start_temperature_K=design.T0, window=window,
         budget=gum.budget, equipment=equipment, limiting=equipment[0].equipment if equipment else "",
-        suggestion=suggestion, warnings=warnings, cautions=cautions_for(substances), properties=ev.props,
-        run_file=design.run_file(), timing=_timing(th, design.two_solution),
+        suggestion=suggestion, warnings=warnings, cautions=cautions_for(design.substances), properties=ev.props,
+        run_file=design.run_file(), timing=timing(design.thermo, design.two_solution),
     )
-
-
-def _warnings(design: _Design, ev: _Evaluation, gum: GumResult, window: tuple[float, float]) -> list[str]:
-    out: list[str] = []
-    dT, q = ev.dt.value, design.thermo.q
-    a = abs(dT)
-    lo, hi = window
-    if lo >= hi:
-        out.append(f"no useful window: the thermometer resolution {q:g} K needs |ΔT| ≥ {lo:g} K; use a finer thermometer")
-    elif a < lo:
-        out.append(f"the predicted |ΔT| = {a:.2f} K is below the useful window ({lo:g}–{hi:g} K)")
-    elif a > hi:
-        out.append(f"the predicted |ΔT| = {a:.2f} K is above the useful window ({lo:g}–{hi:g} K)")
-    if a < 10 * q:
-        out.append(f"|ΔT| is under 10 × the thermometer resolution ({10 * q:g} K): the resolution dominates")
-    if dT > HOT_RISE_K:
-        out.append(
-            f"HOT: the solution will warm by about {dT:.1f} K to about {design.T0 + dT - 273.15:.0f} °C; "
-            "use smaller amounts, add the reagent in portions with stirring, and handle the cup with care"
-        )
-    tm = _timing(design.thermo, design.two_solution)
-    if design.thermo.after - tm["main_s"] < AFTER_ADVISED_S:
-        out.append(
-            f"record at least {tm['main_s'] + AFTER_ADVISED_S:.0f} s after mixing: the release needs about "
-            f"{tm['main_s']:.0f} s and the after period should then last 5 minutes"
-        )
-    if design.thermo.fore < 60.0:
-        out.append("the fore period is short: 3–5 minutes of readings before mixing are advised")
-    for sec, fields in design.sections.items():
-        for name, v in fields.items():
-            if isinstance(v, Measured) and v.distribution != "normal" and name in ("mass", "volume", "heat_capacity"):
-                out.append(f"{sec}.{name} {v.text!r} has no ±: its uncertainty is taken from the last digit "
-                           f"({v.u:.2g} {v.unit}); give the balance's, glassware's or calibration's uncertainty")
-    out.extend(ev.props.warnings)
-    out.extend(kind_warnings(ev.spec, ev.dt, gum, ev.model))
-    return out

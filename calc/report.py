@@ -1,4 +1,4 @@
-"""Turn an :class:`calc.analysis.Analysis` into a readable report or a JSON record.
+"""Turn an :class:`calc.result.Analysis` into a readable report or a JSON record.
 
 Every number is printed through :mod:`calc.formatting` (two significant digits of the
 uncertainty, the value to the same decimal place, units always), the formatter the web pages
@@ -11,22 +11,14 @@ import math
 from typing import Any
 
 from calc import formatting as fmt
-from calc.analysis import Analysis
+from calc.deltat.constructions import SharedFitConstruction
+from calc.kinds import get_kind
 from calc.refdata.comparison import verdict, verdict_lines, verdict_record
+from calc.result import Analysis
 
 __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BUDGET_LINES"]
 
 TOP_BUDGET_LINES = 5
-
-_KIND_TITLES = {
-    "dissolution": "Enthalpy of solution",
-    "neutralization": "Enthalpy of neutralization",
-    "reaction": "Enthalpy of reaction",
-    "electrical-calibration": "Electrical calibration",
-    "mixing-calibration": "Calibration by mixing warm and cool water",
-    "dissolution-with-calibration": "Enthalpy of solution with an in-situ electrical calibration",
-}
-
 
 def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
@@ -101,9 +93,33 @@ def format_input(value: float, u: float, unit: str, entered: str | None) -> str:
 
 def format_report(analysis: Analysis, input_path: str) -> str:
     """Return the human-readable report of one run."""
+    lines = _head_lines(analysis, input_path)
+    lines.append("")
+    lines.extend(_result_lines(analysis))
+    lines.append("")
+    lines.extend(_budget_lines(analysis))
+    lines.extend(_reference_lines(analysis))
+    lines.extend(_property_lines(analysis))
+    if analysis.checks:
+        lines.append("")
+        lines.append("plausibility checks:")
+        for c in analysis.checks:
+            lines.append(f"  {'!' if c.severity == 'warning' else 'i'} [{c.code}] {c.message}")
+    if analysis.warnings:
+        lines.append("")
+        lines.append("warnings:")
+        for w in analysis.warnings:
+            lines.append(f"  ! {w}")
+    lines.append("")
+    lines.extend(format_cautions(analysis))
+    return "\n".join(lines)
+
+
+def _head_lines(analysis: Analysis, input_path: str) -> list[str]:
+    """The heading, who and where, the periods, rejected readings, the method and other events."""
     spec = analysis.spec
     lines: list[str] = []
-    title = _KIND_TITLES.get(spec.kind, spec.kind)
+    title = get_kind(spec.kind).title
     info = spec.sections.get("info", {})
     head = f"{input_path} — {title}"
     if info.get("title"):
@@ -131,15 +147,21 @@ def format_report(analysis: Analysis, input_path: str) -> str:
         if len(analysis.rejected) > 20:
             lines.append(f"  … {len(analysis.rejected) - 20} more")
     lines.append(f"method: {dt.method}")
-    events = dt.construction.get("events", [])
+    shared = dt.construction if isinstance(dt.construction, SharedFitConstruction) else None
+    events = shared.events if shared else ()
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
     for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
             lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
                          f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
                          f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
-                         f"{dt.construction['correlation'][d_index][i]:+.2f})")
-    lines.append("")
+                         f"{shared.correlation[d_index][i]:+.2f})")
+    return lines
+
+
+def _result_lines(analysis: Analysis) -> list[str]:
+    """ΔT, the heat, the main result ± U with k and ν_eff, its basis, and the Monte Carlo check."""
+    lines: list[str] = []
     v, u, unit = analysis.value("corrected_delta_t")
     lines.append(f"  corrected ΔT      {format_value(v, u, unit)}")
     v, u, unit = analysis.value("heat")
@@ -170,8 +192,13 @@ def format_report(analysis: Analysis, input_path: str) -> str:
             f"  Monte Carlo       95 % interval {fmt.interval(mc.low, mc.high, unit, u=U)} "
             f"({mc.trials} trials) {mc_word} the GUM interval"
         )
-    lines.append("")
-    lines.append("uncertainty budget (largest first):")
+    return lines
+
+
+def _budget_lines(analysis: Analysis) -> list[str]:
+    """The largest lines of the uncertainty budget, the rest summed."""
+    g = analysis.gum
+    lines = ["uncertainty budget (largest first):"]
     entered = entered_units(analysis)
     lines.append(f"  {'share':>7}  {'value ± u':<30} input")
     for b in g.budget[:TOP_BUDGET_LINES]:
@@ -182,40 +209,34 @@ def format_report(analysis: Analysis, input_path: str) -> str:
     rest = [b for b in g.budget[TOP_BUDGET_LINES:] if b.share > 0]
     if rest:
         lines.append(f"  … {len(rest)} more inputs, {fmt.percent(sum(b.share for b in rest))} together")
+    return lines
+
+
+def _reference_lines(analysis: Analysis) -> list[str]:
+    """The reference as published and the verdict of the comparison (none: no lines)."""
     cmp_ = analysis.comparison
-    if cmp_ is not None:
-        lines.append("")
-        ref = cmp_.reference
-        lines.append(
-            f"reference as published: {fmt.measured(ref.value, ref.u, ref.unit)} ({ref.quantity}, "
-            f"{fmt.temperature(ref.temperature_K)}) — {ref.source}"
-        )
-        v = verdict(cmp_)
-        if v is not None:
-            lines.extend(f"  {line}" for line in verdict_lines(v))
-        for n in cmp_.notes:
-            lines.append(f"  note: {n}")
-    props = [
-        (k, v) for k, v in analysis.properties.values.items() if v[3] != "run file"
-    ]
-    if props:
-        lines.append("")
-        lines.append("properties not in the run file:")
-        for k, (val, unc, unit, src) in props:
-            lines.append(f"  {k}: {format_value(val, unc, unit)} ({src})")
-    if analysis.checks:
-        lines.append("")
-        lines.append("plausibility checks:")
-        for c in analysis.checks:
-            lines.append(f"  {'!' if c.severity == 'warning' else 'i'} [{c.code}] {c.message}")
-    if analysis.warnings:
-        lines.append("")
-        lines.append("warnings:")
-        for w in analysis.warnings:
-            lines.append(f"  ! {w}")
-    lines.append("")
-    lines.extend(format_cautions(analysis))
-    return "\n".join(lines)
+    if cmp_ is None:
+        return []
+    ref = cmp_.reference
+    lines = ["", f"reference as published: {fmt.measured(ref.value, ref.u, ref.unit)} ({ref.quantity}, "
+                 f"{fmt.temperature(ref.temperature_K)}) — {ref.source}"]
+    v = verdict(cmp_)
+    if v is not None:
+        lines.extend(f"  {line}" for line in verdict_lines(v))
+    for n in cmp_.notes:
+        lines.append(f"  note: {n}")
+    return lines
+
+
+def _property_lines(analysis: Analysis) -> list[str]:
+    """The properties the model took from the property models, with their sources."""
+    props = [(k, v) for k, v in analysis.properties.values.items() if v[3] != "run file"]
+    if not props:
+        return []
+    lines = ["", "properties not in the run file:"]
+    for k, (val, unc, unit, src) in props:
+        lines.append(f"  {k}: {format_value(val, unc, unit)} ({src})")
+    return lines
 
 
 def format_cautions(analysis: Analysis) -> list[str]:
@@ -239,9 +260,6 @@ def format_cautions(analysis: Analysis) -> list[str]:
         out.append(f"  {c.substance}: {sig}{statements}{pict}")
         if c.note:
             out.append(f"    {c.note}")
-    if analysis.spec.kind in ("electrical-calibration",):
-        out.append("  mains-free low-voltage supply only; keep the heater immersed while it is on")
-    if analysis.spec.kind in ("mixing-calibration",):
-        out.append("  hot water scalds: handle warm water with care")
+    out.extend(f"  {caution}" for caution in get_kind(analysis.spec.kind).procedure_cautions)
     out.append(f"  {general}")
     return out

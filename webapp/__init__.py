@@ -42,6 +42,10 @@ DEFAULTS: dict[str, Any] = {
     # overrides of calc.limits (README, "Limits"), e.g. {"monte_carlo_trials": 20_000}; same keys as CUPCAL_LIMITS
     "LIMITS": {},
     "WEBHOOK_REQUIRE_HTTPS": None,  # None: required when CUPCAL_HTTPS is on (production); True/False to force
+    "LIVE_STREAM_SECONDS": 50,
+    # a live run is advised again once its newest reading is this many seconds (log clock) past the last
+    # advised one (0: every batch); the advisor's cost grows with the log, and 30 benches share the server
+    "LIVE_ADVICE_EVERY_S": 3.0,  # a live page's event stream ends after this long; the browser reconnects
     "WEBHOOK_ALLOW_PRIVATE": False,  # tests only: let a webhook reach a local receiver (never in production)  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
 }
 
@@ -84,6 +88,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.planning import bp as planning_bp
     from webapp.embed import bp as embed_bp
     from webapp.review import bp as review_bp
+    from webapp.live import bp as live_bp
     from webapp.mounting import init_proxy_user
 
     from calc import limits as calc_limits
@@ -113,6 +118,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.register_blueprint(planning_bp)
     app.register_blueprint(embed_bp)
     app.register_blueprint(review_bp)
+    app.register_blueprint(live_bp)
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
     return app

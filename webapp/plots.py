@@ -19,7 +19,7 @@ import math
 import re
 import textwrap
 import threading
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from datetime import datetime, timedelta
 from typing import TYPE_CHECKING, Any
 from xml.sax.saxutils import escape
@@ -32,7 +32,8 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from calc import formatting as fmt
-from calc.deltat.drift import phi
+from calc.deltat.constructions import EqualAreaConstruction
+from calc.kinds import get_kind
 
 if TYPE_CHECKING:
     from calc.analysis import Analysis
@@ -103,78 +104,15 @@ def decimate_minmax(t: np.ndarray, y: np.ndarray, max_points: int = MAX_DRAWN_PO
     return t[idx], y[idx]
 
 
-def _grid(a: float, b: float, *must: float, n: int = 240) -> np.ndarray:
-    pts = [p for p in must if a <= p <= b]
-    return np.unique(np.concatenate([np.linspace(a, b, n), pts]))
-
-
-def _newton(y0: float, g0: float, k: float, t0: float) -> Callable[[np.ndarray], np.ndarray]:
-    # y(t) = y0 + g0·φ(k, t − t0): the solution of dT/dt = g0 + k (y0 − T) through (t0, y0)
-    return lambda t: y0 + g0 * phi(k, np.asarray(t, dtype=float) - t0)
-
-
-def _line(a: float, b: float, t_mean: float) -> Callable[[np.ndarray], np.ndarray]:
-    return lambda t: a + b * (np.asarray(t, dtype=float) - t_mean)
-
-
 def drift_curves(analysis: Analysis) -> dict[str, tuple[np.ndarray, np.ndarray]]:
     """Return the drift model of the ΔT method as named curves ``name → (t / s, T / K)``.
 
-    ``regnault-pfaundler``: ``fore`` (Newtonian fore drift, to t_f for one-solution runs, the
-    fore line to t_i for two-solution runs) and ``after`` (Newtonian after drift from t_i).
-    ``linear-extrapolation`` and ``equal-area``: the ``fore`` and ``after`` lines, meeting t_x.
-    ``model-fit``: the fitted probe reading ``model``. ``naive``: the ``start`` and ``extreme``
-    levels. Unknown methods or missing construction data give an empty dict.
+    The method's construction draws them over the log (:mod:`calc.deltat.constructions`):
+    ``fore`` and ``after`` (Newtonian drifts or straight lines), ``model`` (model-fit) or
+    ``start`` and ``extreme`` (naive). A construction with nothing to draw gives an empty dict.
     """
-    dt = analysis.delta_t
-    c = dt.construction
     t = analysis.readings.time_s
-    t0, t1 = float(t[0]), float(t[-1])
-    t_i = float(c.get("t_i", analysis.periods.mixing_time))
-    t_f = float(c.get("t_f", analysis.periods.main_end))
-    out: dict[str, tuple[np.ndarray, np.ndarray]] = {}
-    if dt.method == "regnault-pfaundler":
-        if "newton_joint" in c:
-            y_i, y_f, g_i, k = c["newton_joint"]
-            g_f = g_i + k * (y_i - y_f)
-            tt = _grid(t0, t_f, t_i)
-            out["fore"] = (tt, _newton(y_i, g_i, k, t_i)(tt))
-            tt = _grid(t_i, t1, t_f)
-            out["after"] = (tt, _newton(y_f, g_f, k, t_f)(tt))
-        elif "after_newton" in c and "fore_line" in c:
-            tt = _grid(t0, t_i)
-            out["fore"] = (tt, _line(*c["fore_line"])(tt))
-            y_f, g_f, k, tf_ = c["after_newton"]
-            tt = _grid(t_i, t1, tf_)
-            out["after"] = (tt, _newton(y_f, g_f, k, tf_)(tt))
-    elif dt.method in ("linear-extrapolation", "equal-area"):
-        if "fore_line" in c and "after_line" in c:
-            t_x = float(c.get("t_x", t_i))
-            tt = _grid(t0, t_x)
-            out["fore"] = (tt, _line(*c["fore_line"])(tt))
-            tt = _grid(t_x, t1)
-            out["after"] = (tt, _line(*c["after_line"])(tt))
-    elif dt.method == "model-fit" and "params" in c:
-        from calc.deltat.modelfit import probe_reading
-
-        p = c["params"]
-        if c.get("two_solution"):
-            T_inf, k, D, lkr, ls = p
-            T_m = dt.start_temperature
-            tt = _grid(t_i, t1)
-        else:
-            T_inf, k, T_m, D, lkr, ls = p
-            tt = _grid(t0, t1, t_i)
-        u = tt - t_i
-        post = probe_reading(np.maximum(u, 0.0), T_inf, k, T_m, D, math.exp(lkr), math.exp(ls))
-        pre = T_inf + (T_m - T_inf) * np.exp(-k * np.minimum(u, 0.0))
-        out["model"] = (tt, np.where(u < 0, pre, post))
-    elif dt.method == "naive":
-        tt = np.array([float(analysis.periods.fore[0]), t_i])
-        out["start"] = (tt, np.full(2, dt.start_temperature))
-        tt = np.array([t_i, t1])
-        out["extreme"] = (tt, np.full(2, dt.end_temperature))
-    return out
+    return analysis.delta_t.construction.curves(float(t[0]), float(t[-1]))
 
 
 def budget_rows(budget: Sequence[BudgetLine], top: int = 8) -> list[tuple[str, float, float]]:
@@ -374,12 +312,13 @@ def _draw_delta_t(ax: Any, analysis: Analysis, ts: float) -> list[Any]:
     """Draw the corrected ΔT as a double arrow at t_i (t_x for equal-area); return legend handles."""
     dt, c = analysis.delta_t, analysis.delta_t.construction
     t = analysis.readings.time_s
-    t_at = float(c.get("t_x", c.get("t_i", analysis.periods.mixing_time))) / ts
+    at = c.delta_t_time
+    t_at = float(analysis.periods.mixing_time if at is None else at) / ts
     start, end = dt.start_temperature - _KELVIN_OFFSET, dt.end_temperature - _KELVIN_OFFSET
     span = (float(t[-1]) - float(t[0])) / ts
     purple = _C["reddish_purple"]
     handles = []
-    if dt.method == "equal-area" and "t_x" in c:
+    if isinstance(c, EqualAreaConstruction):
         ax.axvline(t_at, color=purple, linestyle=(0, (1, 1.5)), linewidth=1.0)
         handles.append(Line2D([], [], color=purple, linestyle=(0, (1, 1.5)), label="equal-area time t_x"))
     for level in (start, end):
@@ -406,7 +345,7 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
     ax = _margins(fig, left=0.75, right=0.25, top=0.72, bottom=1.15)
     _style_axes(ax)
     handles = _draw_log(ax, t, y, analysis.periods, ts)
-    two = analysis.kind in ("neutralization", "mixing-calibration")
+    two = get_kind(analysis.kind).two_solution
     for name, (tt, yy) in drift_curves(analysis).items():
         style = _CURVE_STYLE.get(name, dict(color=_C["bluish_green"], linestyle="--", linewidth=1.4))
         ax.plot(tt / ts, yy - _KELVIN_OFFSET, gid=f"cc-curve-{name}", **style)

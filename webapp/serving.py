@@ -15,6 +15,10 @@ from typing import Any
 from flask import Flask
 
 
+#: threads per gunicorn worker (the gthread worker class): open event streams plus ordinary requests
+GTHREAD_THREADS = 32
+
+
 def serve_app(app: Flask, host: str, port: int, workers: int, say: Callable[[str], None]) -> None:
     """Serve ``app`` on ``host:port`` with ``workers`` processes (1: Werkzeug's threaded server)."""
     from webapp.db import get_engine
@@ -37,7 +41,10 @@ def _gunicorn(base: type, app: Flask, host: str, port: int, workers: int) -> Any
     def post_fork(_server: Any, _worker: Any) -> None:
         get_engine(app).dispose(close=False)  # leave the parent's connections alone, open new ones
 
+    # threads: a live run's event stream holds one thread for up to a minute (webapp/live/stream.py);
+    # a sync worker would serve nothing else meanwhile
     options = {"bind": f"{host}:{port}", "workers": workers, "post_fork": post_fork,
+               "worker_class": "gthread", "threads": GTHREAD_THREADS,
                "timeout": 120, "accesslog": "-", "errorlog": "-"}
 
     class Notebook(base):  # type: ignore[misc,valid-type]

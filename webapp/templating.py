@@ -10,6 +10,7 @@ import datetime as dt
 from typing import Any
 
 from calc import formatting as fmt
+from calc.kinds import get_kind
 from calc.refdata.comparison import verdict
 from calc.refdata.hazards import general_caution
 from flask import Flask
@@ -144,6 +145,7 @@ def init_app(app: Flask) -> None:
     app.jinja_env.filters.update(FILTERS)
     app.jinja_env.globals["signout_form"] = ConfirmForm
     app.jinja_env.globals["general_caution"] = general_caution
+    app.jinja_env.globals["run_kind"] = get_kind
     app.jinja_env.globals["run_flagged"] = run_flagged
     app.jinja_env.globals["flagged_checks"] = flagged_checks
     app.jinja_env.globals["flag_text"] = flag_text

@@ -11,7 +11,8 @@ import sys
 
 import click
 
-from calc.deltat.methods import DEFAULT_METHOD, METHODS
+from calc.deltat.base import DEFAULT_METHOD
+from calc.deltat.registry import METHODS
 from calc.errors import CupcalError
 
 __all__ = ["analyze", "methods"]
@@ -86,7 +87,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
 @click.command()
 def methods() -> None:
     """List the corrected-ΔT methods."""
-    from calc.deltat.methods import METHOD_TERMS
+    from calc.deltat.base import METHOD_TERMS
 
     for name in sorted(METHODS):
         mark = " (default)" if name == DEFAULT_METHOD else ""

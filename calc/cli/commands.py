@@ -43,6 +43,8 @@ COMMANDS: dict[str, CommandEntry] = {
                          "Compute the standard reaction enthalpy of EQUATION from the ΔfH° table."),
     "plan": CommandEntry("calc.cli.plan:plan_command",
                          "Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts."),
+    "record": CommandEntry("calc.cli.record:record_command",
+                           "Record a thermometer to a CSV log as it reads, and stream the readings to the notebook."),
     "serve": CommandEntry("webapp.commands:serve",
                           "Apply migrations, load the demo into an empty database, and serve the notebook.", needs="flask"),
     "db": CommandEntry("webapp.commands:db", "Manage the notebook's database (Alembic migrations).", needs="flask"),

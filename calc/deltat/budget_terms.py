@@ -19,6 +19,7 @@ from typing import Callable
 
 import numpy as np
 
+from calc.deltat.constructions import JointNewtonConstruction
 from calc.deltat.drift import fit_newton_single
 
 __all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term"]
@@ -94,7 +95,7 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
     own scatter explains (three standard uncertainties) is taken as a rectangular half-width.
     """
     c = dt.construction
-    if log.two_solution or "newton_joint" not in c:
+    if log.two_solution or not isinstance(c, JointNewtonConstruction):
         return 0.0, 0.0
     ta_, ya_ = log.window("after")
     if ta_.size < 8:
@@ -102,7 +103,7 @@ def inadequacy_term(log, dt) -> tuple[float, float]:
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     fore = log.line("fore")
     # started from the joint law's k, a few steps suffice; an unconverged fit gives no term
-    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.get("k_per_s", 0.0), 0.0), max_iter=8)
+    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.k_per_s, 0.0), max_iter=8)
     if not nf.converged or not np.all(np.isfinite(nf.cov)):
         return 0.0, 0.0
     y_f, g_f, k = nf.params
@@ -130,10 +131,10 @@ def room_drift_term(log, dt) -> float:
     B = ∫(y_i − T) dt over the main period. β is unknown: its standard uncertainty is ROOM_DRIFT_U.
     """
     c = dt.construction
-    if "newton_joint" not in c:
+    if not isinstance(c, JointNewtonConstruction):
         return 0.0
-    y_i = float(c["newton_joint"][0])
-    k = math.hypot(max(float(c.get("k_per_s", 0.0)), 0.0), float(c.get("u_k_per_s", 0.0)))
+    y_i = float(c.newton_joint[0])
+    k = math.hypot(max(float(c.k_per_s), 0.0), float(c.u_k_per_s))
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     D = t_f - t_i
     fore, after = log.line("fore"), log.line("after")

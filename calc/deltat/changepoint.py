@@ -112,6 +112,29 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     h = int(min(max(round(EDGE_HALF_S / dt), 3), max(n // 8, 3)))
     if n < 2 * min_fore_points + 2 * h:
         raise InputError(f"the log is too short to find the mixing time ({n} readings); {_ASK}", field="mixing_time")
+    t_s = _change_onset(t, y, h)
+    sigma = _noise_sd(y, resolution)
+    w, cand_t = _search_window(t, t_s, h * dt, dt, min_fore_points)
+    tw, yw = t[w], y[w]
+    scale = max(float(tw[-1] - tw[0]), 1.0)
+    taus, rss = _scan(tw, yw, cand_t, scale)
+    j = int(np.argmin(rss))
+    tau = float(taus[j])
+    lr, swing_sig, rss1, n_eff, floor = _strength(tw, yw, tau, scale, float(rss[j]), resolution, sigma)
+    if lr < MIN_LR or swing_sig < 6.0:
+        raise InputError(
+            f"no clear start of the temperature change was found (the change near {t_s:.0f} s is "
+            f"{swing_sig:.1f} noise standard deviations); {_ASK}",
+            field="mixing_time",
+        )
+    p, u_tau = _likelihood(taus, rss, floor, rss1, n_eff, dt)
+    _check_ambiguous(taus, p, tau, u_tau, dt)
+    return MixingTime(time=tau, u=u_tau, lr=lr, swing_sigmas=swing_sig)
+
+
+def _change_onset(t: np.ndarray, y: np.ndarray, h: int) -> float:
+    """Return t_s: the first reading where the edge statistic reaches half its largest magnitude."""
+    n = t.size
     e = _edge(t, y, h)
     inner = slice(h, n - h)
     # no drift is taken off: a long heater pulse can fill most of the log, so a median of e
@@ -123,39 +146,50 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     _check_separate_changes(t, ee, i_max)
     above = np.flatnonzero(np.sign(peak) * ee[: i_max + 1] >= 0.5 * abs(peak))
     i_s = int(above[0]) if above.size else i_max
-    # noise from second differences (robust; spikes were screened before)
+    return float(t[i_s])
+
+
+def _noise_sd(y: np.ndarray, resolution: float) -> float:
+    """Return the noise SD from second differences (robust; spikes were screened before)."""
     d2 = np.diff(y, 2)
     sigma = float(np.median(np.abs(d2 - np.median(d2)))) * 1.4826 / math.sqrt(6.0)
-    sigma = max(sigma, resolution / math.sqrt(12.0), 1e-6)
-    # window: fore drift before t_s, and the early part of the change after it
-    t_s = float(t[i_s])
-    span = h * dt
+    return max(sigma, resolution / math.sqrt(12.0), 1e-6)
+
+
+def _search_window(t: np.ndarray, t_s: float, span: float, dt: float,
+                   min_fore_points: int) -> tuple[np.ndarray, np.ndarray]:
+    """Return the mask of the fitted readings (fore drift before t_s, the early change after it) and the candidate τ."""
+    n = t.size
     lo = max(float(t[0]), t_s - FORE_WINDOW_S)
     hi = min(float(t[-1]), t_s + POST_SPANS * span)
     w = (t >= lo) & (t <= hi)
-    tw, yw = t[w], y[w]
     t_first_ok = float(t[min(min_fore_points, n - 1)])
     s_lo = max(t_s - 3.0 * span - 30.0, t_first_ok, lo + 2 * dt)
     s_hi = min(t_s + 0.5 * span, hi - 3 * dt)
     cand_t = t[(t >= s_lo) & (t <= s_hi)]
-    if cand_t.size < 2 or tw.size < 12:
+    if cand_t.size < 2 or np.count_nonzero(w) < 12:
         raise InputError(
             f"the temperature change near {t_s:.0f} s starts too close to the start of the log to find "
             f"the mixing time; {_ASK}",
             field="mixing_time",
         )
-    scale = max(float(tw[-1] - tw[0]), 1.0)
-    # coarse scan on the readings, then the mid-points next to the best one
+    return w, cand_t
+
+
+def _scan(tw: np.ndarray, yw: np.ndarray, cand_t: np.ndarray, scale: float) -> tuple[np.ndarray, np.ndarray]:
+    """Return the breakpoints τ tried (the readings, then the mid-points next to the best one) and their RSS."""
     rss_c = _rss_scan(tw, yw, cand_t, scale)
     jc = int(np.argmin(rss_c))
     mids = 0.5 * (cand_t[1:] + cand_t[:-1])
     near = mids[max(jc - 3, 0): jc + 3]
     taus = np.concatenate([cand_t, near])
     order = np.argsort(taus)
-    taus = taus[order]
-    rss = np.concatenate([rss_c, _rss_scan(tw, yw, near, scale)])[order]
-    j = int(np.argmin(rss))
-    tau = float(taus[j])
+    return taus[order], np.concatenate([rss_c, _rss_scan(tw, yw, near, scale)])[order]
+
+
+def _strength(tw: np.ndarray, yw: np.ndarray, tau: float, scale: float, rss_best: float, resolution: float,
+              sigma: float) -> tuple[float, float, float, float, float]:
+    """Return (2 ln likelihood ratio against a plain line, swing in noise SDs, RSS floored, n_eff, RSS floor)."""
     # residuals of the best fit give n_eff
     X = _design(tw, tau, scale)[0]
     x = X[:, 1]
@@ -168,18 +202,17 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     b0, *_ = np.linalg.lstsq(X0, yw, rcond=None)
     r0 = yw - X0 @ b0
     floor = tw.size * (resolution**2 / 12.0 + 1e-12)
-    rss1 = max(float(rss[j]), floor)
+    rss1 = max(rss_best, floor)
     rss0 = max(float(np.dot(r0, r0)), floor)
     lr = n_eff * math.log(rss0 / rss1)
     swing = abs(float(yw[-1] - (beta[0] + beta[1] * x[-1])))
     sigma = max(sigma, math.sqrt(rss1 / tw.size))
-    swing_sig = swing / max(sigma, 1e-12)
-    if lr < MIN_LR or swing_sig < 6.0:
-        raise InputError(
-            f"no clear start of the temperature change was found (the change near {t_s:.0f} s is "
-            f"{swing_sig:.1f} noise standard deviations); {_ASK}",
-            field="mixing_time",
-        )
+    return lr, swing / max(sigma, 1e-12), rss1, n_eff, floor
+
+
+def _likelihood(taus: np.ndarray, rss: np.ndarray, floor: float, rss1: float, n_eff: float,
+                dt: float) -> tuple[np.ndarray, float]:
+    """Return the relative likelihood of each τ and the standard deviation of the normalised likelihood."""
     loglik = -0.5 * n_eff * np.log(np.maximum(rss, floor) / rss1)
     p = np.exp(np.maximum(loglik, -700.0))
     wts = np.gradient(taus)
@@ -187,9 +220,7 @@ def detect_mixing_time(t: np.ndarray, y: np.ndarray, resolution: float, *, min_f
     post /= post.sum()
     mean = float(np.dot(post, taus))
     sd = math.sqrt(max(float(np.dot(post, (taus - mean) ** 2)), 0.0))
-    u_tau = max(sd, dt / math.sqrt(12.0))
-    _check_ambiguous(taus, p, tau, u_tau, dt)
-    return MixingTime(time=tau, u=u_tau, lr=lr, swing_sigmas=swing_sig)
+    return p, max(sd, dt / math.sqrt(12.0))
 
 
 def _check_separate_changes(t: np.ndarray, ee: np.ndarray, i_max: int) -> None:

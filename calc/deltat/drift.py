@@ -235,6 +235,18 @@ def _varpro(model: VarproModel, y: np.ndarray, k0: float,
     return k, beta, X, np.column_stack([X, dk_of(beta)]), converged
 
 
+def _window_variances(resid: np.ndarray, n_fore: int) -> tuple[np.ndarray, float]:
+    """Return each reading's noise variance, AR(1)-inflated per window, and the larger lag-1 autocorrelation."""
+    rf = resid[:n_fore]
+    ra = resid[n_fore:]
+    rho_f = lag1_autocorrelation(rf)
+    rho_a = lag1_autocorrelation(ra)
+    # two of the four parameters belong to each window
+    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, inflation(rho_f))
+    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, inflation(rho_a))
+    return np.concatenate([np.full(n_fore, v_f), np.full(ra.size, v_a)]), max(rho_f, rho_a)
+
+
 def fit_newton_joint(
     t_fore: np.ndarray,
     y_fore: np.ndarray,
@@ -271,15 +283,7 @@ def fit_newton_joint(
     n = y.size
     p = 4
     s2 = float(np.dot(resid, resid)) / max(n - p, 1)
-    rf = resid[:nf_]
-    ra = resid[nf_:]
-    rho_f = lag1_autocorrelation(rf)
-    rho_a = lag1_autocorrelation(ra)
-    rho = max(rho_f, rho_a)
-    # two of the four parameters belong to each window
-    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, inflation(rho_f))
-    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, inflation(rho_a))
-    omega = np.concatenate([np.full(nf_, v_f), np.full(ra.size, v_a)])
+    omega, rho = _window_variances(resid, nf_)
     try:
         a_inv = np.linalg.inv(J.T @ J)
         cov = a_inv @ (J.T @ (J * omega[:, None])) @ a_inv

@@ -103,9 +103,25 @@ def find_periods(
                 field="mixing_time",
                 source=source,
             )
-    dt = float(np.median(np.diff(t)))
+    fa, fb = _fore_period(t, t_m, fore, source, lines, warnings)
+    aa, ab, tau = _after_period(t, y, t_m, (fa, fb), after, two_solution, source, warnings)
+    t_f = aa
+    _check_after_period(t, (aa, ab), after is not None, source, lines, warnings)
+    return Periods(
+        fore=(fa, fb),
+        after=(aa, ab),
+        mixing_time=t_m,
+        u_mixing_time=u_tm,
+        mixing_time_detected=detected,
+        main_end=t_f,
+        release_time_constant=tau,
+        warnings=warnings,
+    )
 
-    # Fore period: from the start to the last reading before mixing.
+
+def _fore_period(t: np.ndarray, t_m: float, fore: tuple[float, float] | None, source: str | None,
+                 lines: np.ndarray | None, warnings: list[str]) -> tuple[float, float]:
+    """Return the fore period (given, or from the start to the last reading before mixing); check its readings."""
     if fore is not None:
         fa, fb = fore
         if fb > t_m + 1e-9:
@@ -129,8 +145,13 @@ def find_periods(
         warnings.append(
             f"fore period is short ({fb - fa:.0f} s); 3–5 minutes of drift before mixing are advised"
         )
+    return fa, fb
 
-    tau = None
+
+def _after_period(t: np.ndarray, y: np.ndarray, t_m: float, fore: tuple[float, float],
+                  after: tuple[float, float] | None, two_solution: bool, source: str | None,
+                  warnings: list[str]) -> tuple[float, float, float | None]:
+    """Return the after period (given, or from the end of the main period found in the log) and the rough τ."""
     if after is not None:
         aa, ab = after
         if aa < t_m:
@@ -139,35 +160,75 @@ def find_periods(
                 field="after_period",
                 source=source,
             )
-        t_f = aa
-    else:
-        t_f, ab, tau, w = _find_main_end(t, y, t_m, (fa, fb), dt, two_solution)
-        aa = t_f
-        warnings.extend(w)
-    mask_after = _window_mask(t, aa, ab)
-    nafter = int(np.count_nonzero(mask_after))
+        return aa, ab, None
+    dt = float(np.median(np.diff(t)))
+    t_f, ab, tau, w = _find_main_end(t, y, t_m, fore, dt, two_solution)
+    warnings.extend(w)
+    return t_f, ab, tau
+
+
+def _check_after_period(t: np.ndarray, after: tuple[float, float], given: bool, source: str | None,
+                        lines: np.ndarray | None, warnings: list[str]) -> None:
+    """Refuse an after period with too few readings; warn about a short one."""
+    aa, ab = after
+    nafter = int(np.count_nonzero(_window_mask(t, aa, ab)))
     if nafter < MIN_WINDOW_POINTS:
         last_line = f" (the log ends at line {int(lines[-1])})" if lines is not None else ""
         raise InputError(
             f"too few readings after mixing: {nafter} in the after period{last_line}, "
             f"at least {MIN_WINDOW_POINTS} expected (5–10 minutes of readings after the change are advised)",
-            field="after_period" if after is not None else None,
+            field="after_period" if given else None,
             source=source,
         )
     if ab - aa < 120.0:
         warnings.append(
             f"after period is short ({ab - aa:.0f} s); at least 5 minutes after the change are advised"
         )
-    return Periods(
-        fore=(fa, fb),
-        after=(aa, ab),
-        mixing_time=t_m,
-        u_mixing_time=u_tm,
-        mixing_time_detected=detected,
-        main_end=t_f,
-        release_time_constant=tau,
-        warnings=warnings,
-    )
+
+
+def _preliminary_law(t: np.ndarray, y: np.ndarray, tp: np.ndarray, yp: np.ndarray, fore: tuple[float, float],
+                     two_solution: bool) -> tuple[float, float, float]:
+    """Return a rough drift law (g_f, T_f, k) from the late half of the post-mixing log and the fore period."""
+    half = tp.size // 2
+    late = fit_line(tp[half:], yp[half:])
+    g_f, T_f = late.b, late.a
+    k = 0.0
+    if not two_solution:
+        fm = _window_mask(t, *fore)
+        fl = fit_line(t[fm], y[fm])
+        dT = T_f - fl.a
+        noise = max(late.s, fl.s, 1e-4)
+        if abs(dT) > 20 * noise:
+            k = (fl.b - g_f) / dT
+            if not (0.0 <= k < 1 / 300.0):
+                k = 0.0
+    return g_f, T_f, k
+
+
+def _running_change(t: np.ndarray, y: np.ndarray, t_m: float, tp: np.ndarray, yp: np.ndarray,
+                    law: tuple[float, float, float]) -> np.ndarray:
+    """Return D(t) = T(t) − T(t_m) − ∫ g(T) dt at the readings after mixing."""
+    g_f, T_f, k = law
+    # y at the mixing time: the fore line's value is the best start level
+    i_m = int(np.searchsorted(t, t_m))
+    y_m = float(y[max(i_m - 1, 0)])
+    g = g_f + k * (T_f - yp)  # drift at each reading
+    # cumulative trapezoid of the drift from t_m
+    tt = np.concatenate([[t_m], tp])
+    gg = np.concatenate([[g_f + k * (T_f - y_m)], g])
+    cum = np.concatenate([[0.0], np.cumsum(0.5 * (gg[1:] + gg[:-1]) * np.diff(tt))])[1:]
+    return yp - y_m - cum
+
+
+def _smoothed(D: np.ndarray, dt: float) -> np.ndarray:
+    """Return D smoothed over ~15 s (running mean), to find its crossings robustly."""
+    w = max(1, int(round(15.0 / dt)))
+    if w > 1 and D.size > 3 * w:
+        kernel = np.ones(w) / w
+        Ds = np.convolve(D, kernel, mode="same")
+        Ds[: w // 2] = D[: w // 2]
+        return Ds
+    return D
 
 
 def _find_main_end(
@@ -187,42 +248,11 @@ def _find_main_end(
     yp = y[post]
     if tp.size < 2 * MIN_WINDOW_POINTS:
         return float(tp[0]) if tp.size else t_m, float(t[-1]), None, warnings
-    # Preliminary drift law from the late half of the post-mixing log and the fore period.
-    half = tp.size // 2
-    late = fit_line(tp[half:], yp[half:])
-    g_f, T_f = late.b, late.a
-    k = 0.0
-    if not two_solution:
-        fm = _window_mask(t, *fore)
-        fl = fit_line(t[fm], y[fm])
-        dT = T_f - fl.a
-        noise = max(late.s, fl.s, 1e-4)
-        if abs(dT) > 20 * noise:
-            k = (fl.b - g_f) / dT
-            if not (0.0 <= k < 1 / 300.0):
-                k = 0.0
-    # y at the mixing time: the fore line's value is the best start level
-    i_m = int(np.searchsorted(t, t_m))
-    y_m = float(y[max(i_m - 1, 0)])
-    g = g_f + k * (T_f - yp)  # drift at each reading
-    # cumulative trapezoid of the drift from t_m
-    tt = np.concatenate([[t_m], tp])
-    gg = np.concatenate([[g_f + k * (T_f - y_m)], g])
-    cum = np.concatenate([[0.0], np.cumsum(0.5 * (gg[1:] + gg[:-1]) * np.diff(tt))])[1:]
-    D = yp - y_m - cum
-    tail = D[int(0.7 * D.size) :]
-    plateau = float(np.median(tail))
+    D = _running_change(t, y, t_m, tp, yp, _preliminary_law(t, y, tp, yp, fore, two_solution))
+    plateau = float(np.median(D[int(0.7 * D.size):]))
     if plateau == 0:
         return float(tp[0]), float(t[-1]), None, warnings
-    # smooth over ~15 s to find the crossings robustly
-    w = max(1, int(round(15.0 / dt)))
-    if w > 1 and D.size > 3 * w:
-        kernel = np.ones(w) / w
-        Ds = np.convolve(D, kernel, mode="same")
-        Ds[: w // 2] = D[: w // 2]
-    else:
-        Ds = D
-    frac = Ds / plateau
+    frac = _smoothed(D, dt) / plateau
 
     def first_cross(level: float) -> float | None:
         idx = np.flatnonzero(frac >= level)

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 from calc.errors import InputError
 
-__all__ = ["Export", "normalise_export", "TEMPERATURE_COLUMN_HELP"]
+__all__ = ["Export", "normalize_export", "TEMPERATURE_COLUMN_HELP"]
 
 TEMPERATURE_COLUMN_HELP = (
     'set temperature_column in the run file to the column\'s header name (e.g. "T2") or to its '
@@ -75,7 +75,7 @@ class _Column:
     written: str  # the cell as written
 
 
-def normalise_export(lines: list[str], column: str | int | None, source: str) -> Export | None:
+def normalize_export(lines: list[str], column: str | int | None, source: str) -> Export | None:
     """Return ``lines`` rewritten as a two-column log, or None when they need no rewriting.
 
     Raises

@@ -30,7 +30,9 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from calc.errors import InputError
-from calc.io.units import Q_, parse_unit, ureg
+from calc.io.unit_text import (TEXT, canonical_unit, check_unit, describe_dimension, expectation,
+                               is_absolute_temperature, is_time)
+from calc.io.units import Q_, ureg
 
 __all__ = ["Measured", "parse_measured", "describe_dimension", "default_uncertainty"]
 
@@ -51,61 +53,10 @@ _CLOCK_RE = re.compile(
     re.ASCII,
 )
 _NONFINITE_RE = re.compile(r"\s*\(?\s*[+-]?(?:nan|inf|infinity)\b", re.IGNORECASE)
-_PM_IN_UNIT_RE = re.compile(_PM)
-_TEXT = "\x00"  # stands for the whole entry in cached problem messages
 # Longest entry read. Hostile-input tests found that pint's unit parser and the
 # clock pattern take time quadratic in the length (a 20 000-character unit took
 # ~3 s); real entries such as "(0.0500 ± 0.0002) mol/L" are far shorter.
 MAX_ENTRY_LENGTH = 200
-
-# Spellings that pint does not read (or reads as something else) mapped to pint names.
-_UNIT_SPELLINGS = {
-    "°C": "degC",
-    "℃": "degC",
-    "ºC": "degC",
-    "° C": "degC",
-    "deg C": "degC",
-    "°F": "degF",
-    "℉": "degF",
-    "ºF": "degF",
-    "° F": "degF",
-    "deg F": "degF",
-    "°K": "K",
-}
-
-# (reference unit, words, example) for describing dimensions in messages.
-_DIMENSIONS: tuple[tuple[str, str, str], ...] = (
-    ("", "dimensionless number", "0.50 ± 0.01"),
-    ("mL", "volume", "100.0 ± 0.1 mL"),
-    ("g", "mass", "5.000 ± 0.001 g"),
-    ("mol", "amount of substance", "0.0500 ± 0.0002 mol"),
-    ("mol/L", "amount concentration", "1.000 ± 0.005 mol/L"),
-    ("mol/kg", "molality", "1.000 ± 0.005 mol/kg"),
-    ("g/mL", "density", "1.00 ± 0.01 g/mL"),
-    ("g/mol", "molar mass", "58.44 ± 0.01 g/mol"),
-    ("K", "temperature", "21.50 ± 0.05 °C"),
-    ("s", "time", "180 ± 1 s"),
-    ("J", "energy", "1500 ± 10 J"),
-    ("kJ/mol", "molar energy", "-57.0 ± 0.5 kJ/mol"),
-    ("J/K", "heat capacity", "25 ± 3 J/K"),
-    ("J/(g*K)", "specific heat capacity", "4.18 ± 0.01 J/(g*K)"),
-    ("J/(mol*K)", "molar heat capacity", "75.3 ± 0.1 J/(mol*K)"),
-    ("W", "power", "10.00 ± 0.05 W"),
-    ("W/K", "heat-loss coefficient", "0.010 ± 0.002 W/K"),
-    ("K/s", "temperature drift rate", "0.0010 ± 0.0002 K/s"),
-    ("1/s", "rate", "0.010 ± 0.001 1/s"),
-    ("V", "voltage", "12.00 ± 0.01 V"),
-    ("A", "current", "1.500 ± 0.002 A"),
-    ("ohm", "resistance", "8.00 ± 0.01 ohm"),
-    ("C", "electric charge", "100.0 ± 0.1 C"),
-    ("F", "capacitance", "1.0 ± 0.1 F"),
-    ("m", "length", "0.100 ± 0.001 m"),
-    ("m**2", "area", "0.0100 ± 0.0001 m**2"),
-    ("Pa", "pressure", "101325 ± 100 Pa"),
-)
-
-_RELATIVE_UNITS = ("%", "percent", "ppm", "permille", "‰")
-
 
 @dataclass(frozen=True, slots=True)
 class Measured:
@@ -178,20 +129,6 @@ def default_uncertainty(number_text: str) -> float:
         return math.inf
 
 
-def describe_dimension(unit: str) -> str:
-    """Return the dimension of ``unit`` in words, e.g. ``"volume"`` for ``"mL"``.
-
-    Unknown dimensions are described by pint's dimensionality, e.g.
-    ``"quantity of dimension [length] ** 4"``.
-
-    Raises
-    ------
-    pint.UndefinedUnitError
-        If ``unit`` is not a unit.
-    """
-    return _describe(_canonical_unit(unit))
-
-
 def parse_measured(
     text: str | int | float, *, field: str, expected: str, source: str | None = None
 ) -> Measured:
@@ -232,7 +169,7 @@ def parse_measured(
         if ":" in written:
             clock = _CLOCK_RE.fullmatch(written)
             if clock is not None:
-                if not _is_time(expected):
+                if not is_time(expected):
                     raise _error(f"got the clock time {text!r}", expected, field, source)
                 return _parse_clock(clock, text, field=field, expected=expected, source=source)
         match = _MEASURED_RE.fullmatch(written)
@@ -241,22 +178,27 @@ def parse_measured(
             return _build(value_text, u_text, unit_text, text, field, expected, source)
         raise _unreadable(text, field=field, expected=expected, source=source)
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        try:
-            number = repr(text)
-        except ValueError:  # an int beyond Python's 4300-digit int-to-str limit (found by tests)
-            number = "(a whole number of thousands of digits)"
-        if expected != "":
-            raise _error(f"missing unit: got the bare number {number}", expected, field, source)
-        try:
-            value = float(text)
-        except OverflowError:
-            value = math.inf
-        if not math.isfinite(value):
-            raise _error(f"the value {number} is not finite", expected, field, source)
-        return Measured(value, default_uncertainty(number), "", "rectangular", number)
+        return _bare_number(text, field=field, expected=expected, source=source)
     if text is None:
         raise _error("the entry is missing", expected, field, source)
     raise _error(f"got a {type(text).__name__} ({_shown(text)})", expected, field, source)
+
+
+def _bare_number(text: int | float, *, field: str, expected: str, source: str | None) -> Measured:
+    """Return a bare number as a dimensionless :class:`Measured` (refused when a unit is expected)."""
+    try:
+        number = repr(text)
+    except ValueError:  # an int beyond Python's 4300-digit int-to-str limit (found by tests)
+        number = "(a whole number of thousands of digits)"
+    if expected != "":
+        raise _error(f"missing unit: got the bare number {number}", expected, field, source)
+    try:
+        value = float(text)
+    except OverflowError:
+        value = math.inf
+    if not math.isfinite(value):
+        raise _error(f"the value {number} is not finite", expected, field, source)
+    return Measured(value, default_uncertainty(number), "", "rectangular", number)
 
 
 def _shown(value: object) -> str:
@@ -298,11 +240,11 @@ def _build(
             problem = f"the uncertainty in {text!r} is negative; a standard uncertainty is >= 0"
             raise _error(problem, expected, field, source)
         distribution = "normal"
-    unit, problem = _check_unit(unit_text, expected)
+    unit, problem = check_unit(unit_text, expected)
     if problem is not None:
-        raise _error(problem.replace(_TEXT, repr(text)), expected, field, source)
+        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
     measured = Measured(value, u, unit, distribution, text)
-    if _is_absolute_temperature(expected) and measured.m_as("K") < 0:
+    if is_absolute_temperature(expected) and measured.m_as("K") < 0:
         raise _error(f"{text!r} is below absolute zero", expected, field, source)
     return measured
 
@@ -347,9 +289,9 @@ def _parse_clock(
     if not unit_text:
         problem = f"{text!r} gives no unit for the uncertainty, e.g. '3:00 ± 2 s'"
         raise _error(problem, expected, field, source)
-    unit, problem = _check_unit(unit_text, "s")
+    unit, problem = check_unit(unit_text, "s")
     if problem is not None:
-        raise _error(problem.replace(_TEXT, repr(text)), expected, field, source)
+        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
     u_s = u * _affine(unit, "s")[0]
     if not math.isfinite(u_s):  # e.g. "1:00 ± 1e308 h" overflows in seconds
         raise _error(f"the uncertainty in {text!r} is too large", expected, field, source)
@@ -359,115 +301,8 @@ def _parse_clock(
 def _error(problem: str, expected: str, field: str, source: str | None) -> InputError:
     """Build the InputError for ``problem``, saying what was expected."""
     joiner = ", " if problem.startswith("got ") else "; "
-    message = f"expected {_expectation(expected)}{joiner}{problem}"
+    message = f"expected {expectation(expected)}{joiner}{problem}"
     return InputError(message, field=field, source=source)
-
-
-@lru_cache(maxsize=256)
-def _expectation(expected: str) -> str:
-    """Return words such as ``"a volume like '100.0 ± 0.1 mL'"`` for a reference unit."""
-    words, example = _words_and_example(_canonical_unit(expected))
-    if _is_absolute_temperature(expected):
-        return f"a temperature like '{example}' (°C, degC, K or °F)"
-    if _is_time(expected):
-        return f"a time like '{example}' (s, min, h, or m:ss like '3:00')"
-    if words.startswith("quantity of dimension"):
-        return f"a {words} like '1.0 ± 0.1 {expected}'"
-    return f"{_article(words)} {words} like '{example}'"
-
-
-def _article(words: str) -> str:
-    """Return "a" or "an" for ``words``."""
-    return "an" if words and words[0] in "aeiou" else "a"
-
-
-def _canonical_unit(unit: str) -> str:
-    """Return ``unit`` with degree signs rewritten into the names pint reads."""
-    unit = unit.strip()
-    spelled = _UNIT_SPELLINGS.get(unit)
-    if spelled is not None:
-        return spelled
-    if "°" in unit or "℃" in unit or "℉" in unit:
-        for written, name in _UNIT_SPELLINGS.items():
-            unit = unit.replace(written, name)
-    return unit
-
-
-@lru_cache(maxsize=1)
-def _dimension_table() -> dict[object, tuple[str, str]]:
-    """Map pint dimensionalities to (words, example)."""
-    return {parse_unit(ref).dimensionality: (words, ex) for ref, words, ex in _DIMENSIONS}
-
-
-def _words_and_example(unit: str) -> tuple[str, str]:
-    """Return (words, example) for the dimension of an already canonical unit."""
-    dimensionality = parse_unit(unit).dimensionality
-    found = _dimension_table().get(dimensionality)
-    if found is not None:
-        return found
-    return f"quantity of dimension {dimensionality}", f"1.0 ± 0.1 {unit}"
-
-
-def _describe(unit: str) -> str:
-    """Return the words for the dimension of an already canonical unit."""
-    return _words_and_example(unit)[0]
-
-
-@lru_cache(maxsize=64)
-def _is_absolute_temperature(expected: str) -> bool:
-    """Tell whether ``expected`` is a temperature unit (absolute temperatures)."""
-    return parse_unit(_canonical_unit(expected)).dimensionality == parse_unit("K").dimensionality
-
-
-@lru_cache(maxsize=64)
-def _is_time(expected: str) -> bool:
-    """Tell whether ``expected`` is a time unit."""
-    return parse_unit(expected).dimensionality == parse_unit("s").dimensionality
-
-
-@lru_cache(maxsize=2048)
-def _check_unit(unit_text: str, expected: str) -> tuple[str, str | None]:
-    """Return (canonical unit, problem) for a written unit and an expected one.
-
-    ``problem`` is ``None`` when the unit is fine, else a message in which
-    ``_TEXT`` stands for the whole entry. Cached: the same few units repeat
-    across thousands of run files.
-    """
-    t = _TEXT
-    if _PM_IN_UNIT_RE.match(unit_text):
-        return unit_text, f"the uncertainty after '±' in {t} is not a finite number"
-    if _PM_IN_UNIT_RE.search(unit_text):
-        return unit_text, f"got {t}; write the uncertainty before the unit: 'value ± u unit'"
-    if re.match(r",\d", unit_text):
-        return unit_text, f"{t} uses a decimal comma; write a decimal point"
-    if unit_text[:1] == ":":
-        return unit_text, f"could not read {t}; write clock times as m:ss or h:mm:ss, no unit"
-    if unit_text and unit_text[0] in ".0123456789":
-        return unit_text, f"could not read {t} as one number followed by a unit"
-    unit = _canonical_unit(unit_text)
-    expected_unit = parse_unit(_canonical_unit(expected))
-    if not unit:
-        if expected_unit.dimensionless:
-            return "", None
-        return "", f"missing unit in {t}"
-    if expected != "" and any(rel in unit for rel in _RELATIVE_UNITS):
-        return unit, (
-            f"got {t}; a relative (%) uncertainty is not accepted, "
-            "give the standard uncertainty in the unit of the value"
-        )
-    try:
-        parsed = parse_unit(unit)
-    except Exception:  # pint raises several types for unreadable units
-        return unit, f"unknown unit '{unit_text}' in {t}"
-    if parsed.dimensionality != expected_unit.dimensionality:
-        got = _describe(unit)
-        hint = ""
-        if _is_absolute_temperature(expected) and unit in ("C", "F"):
-            hint = f"; '{unit}' is the {got} unit, write °{unit} or deg{unit} for degrees"
-        return unit, f"got {t} ({_article(got)} {got}){hint}"
-    if _is_absolute_temperature(expected) and "delta_" in unit:
-        return unit, f"got the temperature difference {t}; give an absolute temperature"
-    return unit, None
 
 
 @lru_cache(maxsize=2048)
@@ -478,7 +313,7 @@ def _affine(unit: str, target: str) -> tuple[float, float]:
     degF) get their scale from the ratio of root-unit factors, so 1 degC of
     difference is exactly 1 K.
     """
-    unit, target = _canonical_unit(unit), _canonical_unit(target)
+    unit, target = canonical_unit(unit), canonical_unit(target)
     if unit == target:
         return 1.0, 0.0
     offset = float(Q_(0.0, unit).m_as(target))

@@ -37,7 +37,6 @@ when the unit is °C (looks like kelvin), a median below 150 when the unit is K
 from __future__ import annotations
 
 import os
-import stat
 import re
 from dataclasses import dataclass
 
@@ -45,7 +44,9 @@ import numpy as np
 
 from calc import limits
 from calc.errors import InputError
-from calc.io.logger_formats import normalise_export
+from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
+from calc.io.files import read_limited
+from calc.io.logger_formats import normalize_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]
 
@@ -57,42 +58,10 @@ CELSIUS_RANGE = (-50.0, 150.0)
 
 _KELVIN_MEDIAN = 150.0  # a median above this in "°C" (or below it in "K") means the wrong unit
 _KELVIN_OFFSET = 273.15  # 0 °C in kelvin (SI Brochure, 9th ed., 2.3.1)
-_OWN_HEADER = "time_s,temperature_C"
 
-# header unit (lower case) -> (canonical name, seconds per unit; None for clock times).
-# 1 min = 60 s and 1 h = 3600 s (SI Brochure, 9th ed., Table 8).
-_TIME_UNITS: dict[str, tuple[str, float | None]] = {
-    **dict.fromkeys(("s", "sec", "secs", "second", "seconds"), ("s", 1.0)),
-    "ms": ("ms", 1e-3),
-    **dict.fromkeys(("min", "mins", "minute", "minutes"), ("min", 60.0)),
-    **dict.fromkeys(("h", "hr", "hour", "hours"), ("h", 3600.0)),
-    **dict.fromkeys(("mm:ss", "m:ss", "min:s", "min:sec"), ("mm:ss", None)),
-    **dict.fromkeys(("h:mm:ss", "hh:mm:ss", "h:m:s"), ("h:mm:ss", None)),
-}
-_TEMPERATURE_UNITS: dict[str, str] = {
-    **dict.fromkeys(("c", "°c", "ºc", "℃", "degc", "deg c", "° c", "celsius"), "degC"),
-    **dict.fromkeys(("k", "kelvin"), "K"),
-    **dict.fromkeys(("f", "°f", "ºf", "℉", "degf", "deg f", "° f", "fahrenheit"), "degF"),
-}
+
 _UNIT_SYMBOL = {"degC": "°C", "K": "K", "degF": "°F"}
-_TIME_NAMES = {"time", "elapsed", "elapsed time", "elapsed_time", "clock", "zeit"}
-_TEMPERATURE_NAMES = {"temp", "temperature", "theta", "θ", "temperatur"}
-_EXPECTED_HEADER = (
-    "a header like 'time_s,temperature_C', 't/s;T/K' or 'time (min),Temperature (°F)'"
-)
-_UNITS_HELP = "s, ms, min, h, mm:ss or h:mm:ss for time and °C, K or °F for temperature"
-
-# re.ASCII: "\d" is 0-9 only. Without it a cell "٣" (an Arabic-Indic three)
-# was read as 3 by the line-by-line path (found by the hostile-input tests).
-_NUMBER_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?", re.ASCII)
-_CLOCK_RE = re.compile(r"([+-])?(?:(\d+):)?(\d+):(\d\d(?:\.\d*)?)", re.ASCII)
-_BRACKET_RE = re.compile(r"(.*?)\s*[(\[]\s*(.*?)\s*[)\]]")
 _NONFINITE_RE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
-# _BRACKET_RE backtracks in time quadratic in a run of spaces ("time" + 20 000
-# spaces + "(s" took ~2 s; found by the hostile-input tests), so longer header
-# cells are refused before it runs. Real ones are like "Temperature (°F)".
-_MAX_HEADER_CELL = 100
-
 _Parsed = tuple[np.ndarray, np.ndarray, np.ndarray]  # times (s), temperatures, line numbers
 
 
@@ -129,19 +98,6 @@ class Readings:
         return int(self.time_s.size)
 
 
-@dataclass(frozen=True)
-class _Layout:
-    """What the first non-comment line says about the file."""
-
-    delimiter: str
-    header_line: int | None  # 1-based line of the header, None if there is none
-    first_row: int  # 0-based index (into the list of lines) of the first data line
-    time_unit: str
-    seconds_per_unit: float | None  # None for clock times
-    temperature_unit: str
-    columns: int | None  # header columns; None without a header
-
-
 def read_readings(
     path: str | os.PathLike[str], *, source: str | None = None, column: str | int | None = None
 ) -> Readings:
@@ -167,17 +123,8 @@ def read_readings(
         If the file cannot be read, is not text, or fails a check of :func:`parse_readings`.
     """
     name = source if source is not None else os.fspath(path)
-    cap = int(limits.get("readings_bytes"))
-    try:
-        with open(path, "rb") as handle:
-            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
-                raise InputError("is not a regular file; expected a CSV thermometer log", source=name)
-            data = handle.read(cap + 1)
-    except FileNotFoundError:
-        raise InputError("file not found; expected a CSV thermometer log", source=name) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL byte in the path
-        raise InputError(f"cannot read the file ({getattr(exc, 'strerror', None) or exc})", source=name) from None
-    limits.require_size(len(data), "readings_bytes", what="the readings file", source=name)
+    data = read_limited(path, limit="readings_bytes", what="the readings file", expected="a CSV thermometer log",
+                        source=name)
     if b"\x00" in data:
         message = "this is not a text file (it contains NUL bytes); expected a CSV log"
         raise InputError(message, source=name)
@@ -215,102 +162,20 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
                         source=source)
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()
     limits.require_size(len(lines), "readings_rows", what=f"the readings file ({len(lines)} lines)", source=source)
-    export = normalise_export(lines, column, source)  # instrument exports, line for line
+    export = normalize_export(lines, column, source)  # instrument exports, line for line
     if export is not None:
         lines = export.lines
-    first = next((i for i, line in enumerate(lines) if not _skipped(line)), None)
+    first = next((i for i, line in enumerate(lines) if not skipped(line)), None)
     if first is None:
-        message = f"the file is empty; expected {_EXPECTED_HEADER} and at least "
+        message = f"the file is empty; expected {EXPECTED_HEADER} and at least "
         raise InputError(message + f"{MIN_READINGS} readings", source=source)
-    layout = _read_layout(lines[first], first, source)
+    layout = read_layout(lines[first], first, source)
     long_lines = max(map(len, lines)) > 3 * limits.get("cell_chars") + 8  # a cell may be over the limit
     parsed = (None if long_lines else _parse_fast(lines, layout)) or _parse_careful(lines, layout, source)
     return _checked(*parsed, layout, source)
 
 
-def _skipped(line: str) -> bool:
-    """Tell whether ``line`` is blank or a comment."""
-    stripped = line.strip()
-    return not stripped or stripped.startswith("#")
-
-
-def _cells(line: str, delimiter: str) -> list[str]:
-    """Split a line into unquoted, stripped cells, dropping trailing empty cells after two."""
-    cells = []
-    for cell in line.split(delimiter):
-        cell = cell.strip()
-        if len(cell) >= 2 and cell[0] == cell[-1] == '"':
-            cell = cell[1:-1].strip()
-        cells.append(cell)
-    while len(cells) > 2 and not cells[-1]:
-        cells.pop()
-    return cells
-
-
-def _read_layout(line: str, index: int, source: str) -> _Layout:
-    """Work out separator, header and units from the first non-comment line."""
-    if line.strip() == _OWN_HEADER:
-        return _Layout(",", index + 1, index + 1, "s", 1.0, "degC", 2)
-    delimiter = "\t" if "\t" in line else ";" if ";" in line else ","
-    cells = _cells(line, delimiter)
-    first_cell = cells[0].replace(",", ".") if delimiter != "," else cells[0]
-    if _NUMBER_RE.fullmatch(first_cell):
-        return _Layout(delimiter, None, index, "s", 1.0, "degC", None)
-    if _CLOCK_RE.fullmatch(first_cell):
-        unit = "h:mm:ss" if first_cell.count(":") == 2 else "mm:ss"
-        return _Layout(delimiter, None, index, unit, None, "degC", None)
-    number = index + 1
-    if len(cells) < 2:
-        message = (
-            f"could not read the first line {limits.shorten(cells[0])!r} as a header or as two numbers; "
-            f"expected {_EXPECTED_HEADER}, or two numeric columns (time in s, temperature "
-            "in °C) separated by ',', ';' or a tab"
-        )
-        raise InputError(message, source=source, line=number)
-    kind0, unit0 = _header_cell(cells[0], "first", source, number)
-    kind1, unit1 = _header_cell(cells[1], "second", source, number)
-    if (kind0, kind1) != ("time", "temperature"):
-        message = (
-            f"the header names {kind0} ({limits.shorten(cells[0])!r}) then {kind1} ({limits.shorten(cells[1])!r}); "
-            "expected time in the first column and temperature in the second"
-        )
-        raise InputError(message, source=source, line=number)
-    time_unit, seconds = _TIME_UNITS[unit0]
-    unit = _TEMPERATURE_UNITS[unit1]
-    return _Layout(delimiter, number, index + 1, time_unit, seconds, unit, len(cells))
-
-
-def _header_cell(cell: str, column: str, source: str, line: int) -> tuple[str, str]:
-    """Return ("time" | "temperature", unit key) for one header cell."""
-    if len(cell) > _MAX_HEADER_CELL:
-        message = f"the header cell ({column} column) is {len(cell)} characters long; expected "
-        raise InputError(message + _EXPECTED_HEADER, source=source, line=line)
-    bracket = _BRACKET_RE.fullmatch(cell)
-    if bracket is not None:
-        name, unit = bracket.groups()
-    elif "/" in cell or "_" in cell:
-        name, _, unit = cell.partition("/") if "/" in cell else cell.rpartition("_")
-        name, unit = name.strip(), unit.strip()
-    else:
-        message = f"the header cell {limits.shorten(cell)!r} ({column} column) gives no unit; expected "
-        raise InputError(message + _EXPECTED_HEADER, source=source, line=line)
-    key = unit.lower()
-    kind = "time" if key in _TIME_UNITS else "temperature" if key in _TEMPERATURE_UNITS else ""
-    if not kind:
-        message = f"unknown unit {unit!r} in the header cell {limits.shorten(cell)!r} ({column} column)"
-        raise InputError(f"{message}; expected {_UNITS_HELP}", source=source, line=line)
-    named = {"t": "time", "T": "temperature"}.get(name)
-    if named is None:
-        lowered = name.lower()
-        named = "time" if lowered in _TIME_NAMES else None
-        named = "temperature" if lowered in _TEMPERATURE_NAMES else named
-    if named is not None and named != kind:
-        message = f"the header cell {limits.shorten(cell)!r} names a {named} but gives the {kind} unit {unit!r}"
-        raise InputError(f"{message}; expected {_UNITS_HELP}", source=source, line=line)
-    return kind, key
-
-
-def _parse_fast(lines: list[str], layout: _Layout) -> _Parsed | None:
+def _parse_fast(lines: list[str], layout: Layout) -> _Parsed | None:
     """Convert all data lines at once; return None if anything needs a closer look.
 
     Only clean files take this path: ASCII, no blank or comment lines between
@@ -349,7 +214,7 @@ def _parse_fast(lines: list[str], layout: _Layout) -> _Parsed | None:
     return times, values[:, 1].copy(), numbers
 
 
-def _parse_careful(lines: list[str], layout: _Layout, source: str) -> _Parsed:
+def _parse_careful(lines: list[str], layout: Layout, source: str) -> _Parsed:
     """Convert the data lines one by one, naming the line of the first problem."""
     times: list[float] = []
     temperatures: list[float] = []
@@ -357,10 +222,10 @@ def _parse_careful(lines: list[str], layout: _Layout, source: str) -> _Parsed:
     delimiter = layout.delimiter
     most = layout.columns or 2
     for index in range(layout.first_row, len(lines)):
-        if _skipped(lines[index]):
+        if skipped(lines[index]):
             continue
         line = index + 1
-        cells = _cells(lines[index], delimiter)
+        cells = split_cells(lines[index], delimiter)
         for cell in cells:
             limits.require_size(len(cell), "cell_chars", what=f"the cell {limits.shorten(cell)!r} "
                                 f"({len(cell)} characters)", source=source, line=line)
@@ -371,7 +236,7 @@ def _parse_careful(lines: list[str], layout: _Layout, source: str) -> _Parsed:
         if len(cells) > most:
             if layout.columns is None:
                 found = f"found {len(cells)} cells but the file has no header"
-                wanted = "two columns (time in s, temperature in °C), or " + _EXPECTED_HEADER
+                wanted = "two columns (time in s, temperature in °C), or " + EXPECTED_HEADER
             else:
                 found = f"found {len(cells)} cells"
                 wanted = f"at most {most} cells, as in the header"
@@ -388,14 +253,14 @@ def _number(cell: str, delimiter: str) -> float | None:
     """Return the number in ``cell`` (decimal comma allowed unless the separator is ',')."""
     if delimiter != ",":
         cell = cell.replace(",", ".")
-    return float(cell) if _NUMBER_RE.fullmatch(cell) else None
+    return float(cell) if NUMBER_RE.fullmatch(cell) else None
 
 
-def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
+def _time_cell(cell: str, layout: Layout, source: str, line: int) -> float:
     """Return the time in seconds from one cell."""
     unit = layout.time_unit
     if layout.seconds_per_unit is None:
-        clock = _CLOCK_RE.fullmatch(cell.replace(",", ".") if layout.delimiter != "," else cell)
+        clock = CLOCK_RE.fullmatch(cell.replace(",", ".") if layout.delimiter != "," else cell)
         if clock is None:
             message = f"the time cell {limits.shorten(cell)!r} is not a clock time; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
@@ -414,7 +279,7 @@ def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
     value = _number(cell, layout.delimiter)
     if value is not None and np.isfinite(value):
         return value * layout.seconds_per_unit
-    if _CLOCK_RE.fullmatch(cell):
+    if CLOCK_RE.fullmatch(cell):
         said = "file has no header" if layout.header_line is None else f"header says {unit}"
         message = f"the time cell {limits.shorten(cell)!r} is a clock time but the {said}; expected a time in "
         message += f"{unit}, or 'time (mm:ss)' in the header"
@@ -423,7 +288,7 @@ def _time_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
     raise InputError(message, source=source, line=line)
 
 
-def _temperature_cell(cell: str, layout: _Layout, source: str, line: int) -> float:
+def _temperature_cell(cell: str, layout: Layout, source: str, line: int) -> float:
     """Return the temperature, in the file's unit, from one cell."""
     value = _number(cell, layout.delimiter)
     if value is not None and np.isfinite(value):
@@ -437,13 +302,13 @@ def _not_a_number(column: str, cell: str, expected: str) -> str:
     """Return the message for a cell that is not a finite number."""
     if not cell:
         return f"the {column} cell is empty; expected {expected}"
-    if _NONFINITE_RE.fullmatch(cell) or _NUMBER_RE.fullmatch(cell.replace(",", ".")):
+    if _NONFINITE_RE.fullmatch(cell) or NUMBER_RE.fullmatch(cell.replace(",", ".")):
         return f"the {column} cell {limits.shorten(cell)!r} is not finite (NaN or infinity); expected {expected}"
     return f"the {column} cell {limits.shorten(cell)!r} is not a number; expected {expected}"
 
 
 def _checked(
-    times: np.ndarray, temperatures: np.ndarray, numbers: np.ndarray, layout: _Layout, source: str
+    times: np.ndarray, temperatures: np.ndarray, numbers: np.ndarray, layout: Layout, source: str
 ) -> Readings:
     """Check count, temperature plausibility and time order; convert to kelvin."""
     count = times.size

@@ -12,7 +12,6 @@ import datetime as dt
 import json
 import math
 import os
-import stat
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -22,160 +21,11 @@ from typing import Any
 from calc import limits
 from calc.errors import InputError
 from calc.limits import require_number
+from calc.io.files import read_limited
 from calc.io.quantities import Measured, parse_measured
+from calc.io.schema import CALORIMETER_TYPES, KINDS, REQUIRED_SECTIONS, SCHEMA, TOP_FIELDS, Field
 
-__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "CALORIMETER_TYPES"]
-
-KINDS = (
-    "dissolution",
-    "neutralization",
-    "electrical-calibration",
-    "mixing-calibration",
-    "reaction",
-    "dissolution-with-calibration",
-)
-
-# A field is (kind of value, expected unit or None, required).
-#  "q"   measured quantity with units ("value ± u unit")
-#  "dq"  a temperature *difference* such as a resolution (degC counts as K)
-#  "n"   dimensionless measured quantity (bare number or "value ± u")
-#  "s"   free string
-#  "f"   chemical formula (string)
-#  "i"   positive integer
-#  "d"   a date (or date and time) in ISO 8601, as a string or a TOML date
-Field = tuple[str, str | None, bool]
-
-_INFO: dict[str, Field] = {
-    "title": ("s", None, False),
-    "operator": ("s", None, False),
-    "bench": ("s", None, False),
-    "date": ("d", None, False),
-    "notes": ("s", None, False),
-    "sample": ("s", None, False),
-    "group": ("s", None, False),
-}
-_CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False), "type": ("s", None, False)}
-_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False),
-                                   "type": ("s", None, False)}
-#: Calorimeter types (``[calorimeter] type``); their plausible heat capacities are in calc.checks.
-CALORIMETER_TYPES = ("foam-cups", "dewar", "jacketed", "other")
-_THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}
-_MIXTURE: dict[str, Field] = {"specific_heat_capacity": ("q", "J/(g*K)", False)}
-_WATER: dict[str, Field] = {"volume": ("q", "mL", True), "density": ("q", "g/mL", False)}
-_REFERENCE: dict[str, Field] = {"name": ("s", None, False)}
-
-_COMMON: dict[str, dict[str, Field]] = {
-    "info": _INFO,
-    "thermometer": _THERMO,
-    "mixture": _MIXTURE,
-    "reference": _REFERENCE,
-}
-
-SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
-    "dissolution": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "water": _WATER,
-        "solute": {
-            "formula": ("f", None, True),
-            "mass": ("q", "g", True),
-            "purity": ("n", "", False),
-            "name": ("s", None, False),
-        },
-    },
-    "neutralization": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "acid": {
-            "formula": ("f", None, True),
-            "concentration": ("q", "mol/L", True),
-            "volume": ("q", "mL", True),
-            "density": ("q", "g/mL", False),
-            "equivalents": ("i", None, False),
-            "temperature": ("q", "K", False),
-        },
-        "base": {
-            "formula": ("f", None, True),
-            "concentration": ("q", "mol/L", True),
-            "volume": ("q", "mL", True),
-            "density": ("q", "g/mL", False),
-            "temperature": ("q", "K", True),
-            "equivalents": ("i", None, False),
-        },
-    },
-    "electrical-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
-        "heater": {
-            "voltage": ("q", "V", True),
-            "current": ("q", "A", True),
-            "duration": ("q", "s", True),
-        },
-    },
-    "mixing-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
-        "warm_water": {
-            "volume": ("q", "mL", True),
-            "temperature": ("q", "K", True),
-            "density": ("q", "g/mL", False),
-        },
-    },
-    "reaction": {
-        **_COMMON,
-        "calorimeter": _CAL,
-        "solution": _WATER,
-        "solute": {
-            "formula": ("f", None, True),
-            "mass": ("q", "g", True),
-            "name": ("s", None, False),
-        },
-        "reaction": {
-            "equation": ("s", None, False),
-            "limiting_reagent": ("f", None, False),
-            "amount": ("q", "mol", False),
-            "mass": ("q", "g", False),
-            "coefficient": ("i", None, False),
-        },
-    },
-}
-
-_HEATER_AT: dict[str, Field] = {
-    "voltage": ("q", "V", True),
-    "current": ("q", "A", True),
-    "duration": ("q", "s", True),
-    "start": ("q", "s", True),
-}
-SCHEMA["dissolution-with-calibration"] = {
-    **_COMMON,
-    "calorimeter": {"name": ("s", None, False), "type": ("s", None, False)},
-    "water": _WATER,
-    "solute": SCHEMA["dissolution"]["solute"],
-    "heater": _HEATER_AT,
-    "heater_2": _HEATER_AT,
-}
-
-#: Sections every run of a kind must have.
-REQUIRED_SECTIONS: dict[str, tuple[str, ...]] = {
-    "dissolution": ("calorimeter", "thermometer", "water", "solute"),
-    "neutralization": ("calorimeter", "thermometer", "acid", "base"),
-    "electrical-calibration": ("thermometer", "water", "heater"),
-    "mixing-calibration": ("thermometer", "water", "warm_water"),
-    "reaction": ("calorimeter", "thermometer", "solution", "reaction"),
-    "dissolution-with-calibration": ("thermometer", "water", "solute", "heater"),
-}
-
-_TOP: dict[str, Field] = {
-    "kind": ("s", None, True),
-    "readings": ("s", None, True),
-    "mixing_time": ("q", "s", False),
-    "fore_period": ("p", "s", False),
-    "after_period": ("p", "s", False),
-    "method": ("s", None, False),
-    "temperature_column": ("c", None, False),
-}
+__all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "REQUIRED_SECTIONS", "CALORIMETER_TYPES"]
 
 _DELTA_FACTORS = {"K": 1.0, "kelvin": 1.0, "degC": 1.0, "°C": 1.0, "℃": 1.0, "mK": 1e-3, "degF": 5 / 9, "°F": 5 / 9}
 
@@ -216,46 +66,17 @@ def load_run(path: str | os.PathLike[str], *, source: str | None = None) -> RunS
     """
     p = Path(path)
     src = source or str(path)
-    cap = int(limits.get("run_file_bytes"))
+    data = read_limited(p, limit="run_file_bytes", what="the run file", expected="a run file (.toml)", source=src)
     try:
-        with open(p, "rb") as handle:
-            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):
-                raise InputError("is not a regular file; expected a run file (.toml)", source=src)
-            data = handle.read(cap + 1)
-        limits.require_size(len(data), "run_file_bytes", what="the run file", source=src)
         text = data.decode("utf-8-sig")
-    except FileNotFoundError:
-        raise InputError("file not found", source=src) from None
-    except IsADirectoryError:
-        raise InputError("is a directory, expected a run file (.toml)", source=src) from None
     except UnicodeDecodeError:
         raise InputError("is not UTF-8 text; expected a TOML run file", source=src) from None
-    except OSError as exc:
-        raise InputError(f"cannot be read ({exc.strerror})", source=src) from None
-    except ValueError:  # a NUL byte in the path
-        raise InputError("is not a usable path (it contains a NUL byte)", source=limits.shorten(repr(src))) from None
     return parse_run(text, source=src, base_dir=p.parent, path=p)
 
 
 def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Path | None = None) -> RunSpec:
     """Validate run-file text; ``base_dir`` resolves the readings path."""
-    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        msg = str(exc)
-        found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
-        line = int(found.group(1)) if found else None
-        msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
-        raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
-    except RecursionError:
-        # tomllib recurses once per nesting level: "x = [[[[…" ~1000 deep
-        # exhausted the stack (found by the hostile-input tests).
-        raise InputError("not valid run-file TOML: arrays or tables nested too deeply", source=source) from None
-    except ValueError:
-        # tomllib reads integers with int(), which refuses more than 4300 digits
-        # (found by the hostile-input tests with "x = 999…9").
-        raise InputError("not valid run-file TOML: a number has too many digits", source=source) from None
+    data = _toml(text, source)
     kind = data.get("kind")
     if kind is None:
         raise InputError(f"missing; expected one of: {', '.join(KINDS)}", source=source, field="kind")
@@ -263,36 +84,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
         raise InputError(
             f"unknown kind '{kind}'; expected one of: {', '.join(KINDS)}", source=source, field="kind"
         )
-    schema = SCHEMA[kind]
-    sections: dict[str, dict[str, Any]] = {}
-    top: dict[str, Any] = {}
-    for key, value in data.items():
-        if isinstance(value, dict):
-            if key not in schema:
-                raise InputError(
-                    f"unknown section [{key}] for a {kind} run; expected sections: "
-                    + ", ".join(f"[{s}]" for s in schema),
-                    source=source,
-                    field=_key(key),
-                )
-            sections[key] = _parse_section(key, value, schema[key], source)
-        else:
-            if key not in _TOP:
-                raise InputError(
-                    f"unknown field; expected top-level fields: {', '.join(_TOP)} and sections "
-                    + ", ".join(f"[{s}]" for s in schema),
-                    source=source,
-                    field=_key(key),
-                )
-            top[key] = value
-    for sec in REQUIRED_SECTIONS[kind]:
-        if sec not in sections:
-            required = [n for n, f in schema[sec].items() if f[2]]
-            raise InputError(
-                f"missing section [{sec}] (a {kind} run needs it, with {', '.join(required)})",
-                source=source,
-                field=sec,
-            )
+    sections, top = _split(data, kind, source)
     readings = top.get("readings")
     if not isinstance(readings, str) or not readings.strip():
         raise InputError(
@@ -311,7 +103,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     method = top.get("method")
     if method is not None and not isinstance(method, str):
         raise InputError("expected a method name (a string)", source=source, field="method")
-    _kind_rules(kind, sections, source)
+    _section_rules(sections, source)
     column = _parse_column(top.get("temperature_column"), source)
     return RunSpec(
         path=path,
@@ -326,6 +118,62 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
         temperature_column=column,
         raw=data,
     )
+
+
+def _toml(text: str, source: str) -> dict[str, Any]:
+    """Return the TOML document of a run file, or an InputError naming the line."""
+    limits.require_size(len(text), "run_file_bytes", what=f"the run file ({len(text)} characters)", source=source)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        line = int(found.group(1)) if found else None
+        msg = re.sub(r"\s*\(at line \d+, column (\d+)\)", r" (column \1)", msg)
+        raise InputError(f"not valid TOML: {msg}", source=source, line=line) from None
+    except RecursionError:
+        # tomllib recurses once per nesting level: "x = [[[[…" ~1000 deep
+        # exhausted the stack (found by the hostile-input tests).
+        raise InputError("not valid run-file TOML: arrays or tables nested too deeply", source=source) from None
+    except ValueError:
+        # tomllib reads integers with int(), which refuses more than 4300 digits
+        # (found by the hostile-input tests with "x = 999…9").
+        raise InputError("not valid run-file TOML: a number has too many digits", source=source) from None
+
+
+def _split(data: dict[str, Any], kind: str, source: str) -> tuple[dict[str, dict[str, Any]], dict[str, Any]]:
+    """Return the parsed sections and the top-level fields; refuse unknown ones and missing sections."""
+    schema = SCHEMA[kind]
+    sections: dict[str, dict[str, Any]] = {}
+    top: dict[str, Any] = {}
+    for key, value in data.items():
+        if isinstance(value, dict):
+            if key not in schema:
+                raise InputError(
+                    f"unknown section [{key}] for a {kind} run; expected sections: "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=_key(key),
+                )
+            sections[key] = _parse_section(key, value, schema[key], source)
+        else:
+            if key not in TOP_FIELDS:
+                raise InputError(
+                    f"unknown field; expected top-level fields: {', '.join(TOP_FIELDS)} and sections "
+                    + ", ".join(f"[{s}]" for s in schema),
+                    source=source,
+                    field=_key(key),
+                )
+            top[key] = value
+    for sec in REQUIRED_SECTIONS[kind]:
+        if sec not in sections:
+            required = [n for n, f in schema[sec].items() if f[2]]
+            raise InputError(
+                f"missing section [{sec}] (a {kind} run needs it, with {', '.join(required)})",
+                source=source,
+                field=sec,
+            )
+    return sections, top
 
 
 _BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")
@@ -486,13 +334,13 @@ def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -
 _ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,6})?)?(?:Z|[+-]\d{2}:\d{2})?)?$")
 
 
-def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> None:
+def _section_rules(sections: dict[str, dict[str, Any]], source: str) -> None:
     ctype = sections.get("calorimeter", {}).get("type")
     if ctype is not None and ctype not in CALORIMETER_TYPES:
         raise InputError(f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
                          source=source, field="calorimeter.type")
-    if kind == "reaction":
-        r = sections["reaction"]
+    r = sections.get("reaction")
+    if r is not None:
         has_amount = "amount" in r
         has_mass = "mass" in r
         if has_amount == has_mass:
@@ -507,7 +355,7 @@ def _kind_rules(kind: str, sections: dict[str, dict[str, Any]], source: str) -> 
                 source=source,
                 field="reaction.limiting_reagent",
             )
-    if kind in ("dissolution", "dissolution-with-calibration"):
+    if "solute" in sections:
         purity = sections["solute"].get("purity")
         if purity is not None and not (0 < purity.m_as("") <= 1):
             raise InputError(

@@ -184,8 +184,8 @@ def compare(
     Returns
     -------
     Comparison
-        Difference, relative difference, E_n, verdict, and notes on what is not like for
-        like with the size of the effect where the data exist.
+        Difference, relative difference, E_n, verdict, and notes on what is not like for like
+        with the size of the effect where the data exist (then judged against the carried reference).
 
     Raises
     ------
@@ -202,38 +202,47 @@ def compare(
     diff = x - x_ref
     rel = diff / abs(x_ref) if x_ref != 0.0 else math.nan
     En = _en(diff, U, U_ref)
-
     notes: list[str] = []
     adjustments: list[str] = []
-    shift = 0.0
-    u2 = reference.u**2
+    t_shift, t_u2 = _temperature_effect(reference, T, notes, adjustments)
+    m = _number(molality, "molality") if molality is not None else None
+    if m is not None and m < 0:
+        raise InputError(f"molality must not be negative, got {molality!r}")
+    d_shift, d_u2 = _dilution_effect(reference, m, T, notes, adjustments)
+    result = Comparison(reference=reference, measured=x, U_measured=U, difference=diff, relative_difference=rel,
+                        En=En, satisfactory=abs(En) <= 1.0, notes=notes, U_reference=U_ref, adjustments=adjustments,
+                        basis="published", difference_published=diff, relative_difference_published=rel,
+                        En_published=En)
+    if adjustments:
+        _judge_at_conditions(result, 0.0 + t_shift + d_shift, reference.u**2 + t_u2 + d_u2)
+    return result
 
-    # Temperature (Kirchhoff with a constant ΔCp).
+
+def _temperature_effect(reference: ReferenceValue, T: float, notes: list[str],
+                        adjustments: list[str]) -> tuple[float, float]:
+    """Note the temperature difference; return the Kirchhoff shift (kJ/mol) and its variance (0 when none)."""
     dT = T - reference.temperature_K
-    if abs(dT) >= TEMPERATURE_NOTE_K:
-        where = f"the reference holds at {reference.temperature_K:.2f} K, the run at {T:.2f} K"
-        if reference.delta_cp is not None:
-            eff = reference.delta_cp * dT
-            u_eff = abs((reference.delta_cp_u or 0.0) * dT)
-            notes.append(
-                f"{where}: by Kirchhoff's law (ΔCp = {reference.delta_cp * 1000:.1f} "
-                f"J/(mol K)) the value at the run's temperature differs by {eff:+.3f} ± "
-                f"{u_eff:.3f} kJ/mol"
-                + (" (constant ΔCp assumed over more than 10 K)" if abs(dT) > FAR_TEMPERATURE_K else "")
-            )
-            shift += eff
-            u2 += u_eff**2
-            adjustments.append(f"Kirchhoff {eff:+.3f} kJ/mol")
-        else:
-            notes.append(f"{where}; no ΔCp data, so the size of the effect is unknown")
+    if abs(dT) < TEMPERATURE_NOTE_K:
+        return 0.0, 0.0
+    where = f"the reference holds at {reference.temperature_K:.2f} K, the run at {T:.2f} K"
+    if reference.delta_cp is None:
+        notes.append(f"{where}; no ΔCp data, so the size of the effect is unknown")
+        return 0.0, 0.0
+    eff = reference.delta_cp * dT
+    u_eff = abs((reference.delta_cp_u or 0.0) * dT)
+    notes.append(
+        f"{where}: by Kirchhoff's law (ΔCp = {reference.delta_cp * 1000:.1f} "
+        f"J/(mol K)) the value at the run's temperature differs by {eff:+.3f} ± "
+        f"{u_eff:.3f} kJ/mol"
+        + (" (constant ΔCp assumed over more than 10 K)" if abs(dT) > FAR_TEMPERATURE_K else "")
+    )
+    adjustments.append(f"Kirchhoff {eff:+.3f} kJ/mol")
+    return eff, u_eff**2
 
-    # Molality.
-    if molality is not None:
-        m = _number(molality, "molality")
-        if m < 0:
-            raise InputError(f"molality must not be negative, got {molality!r}")
-    else:
-        m = None
+
+def _dilution_effect(reference: ReferenceValue, m: float | None, T: float, notes: list[str],
+                     adjustments: list[str]) -> tuple[float, float]:
+    """Note the concentration difference; return the φ_L shift (kJ/mol) and its variance (0 when none)."""
     if reference.conditions and reference.molality is None:
         notes.append(
             f"the reference holds for: {reference.conditions}; compare only runs made "
@@ -247,11 +256,7 @@ def compare(
                 "tenths of a kJ/mol (not corrected here)"
             )
     elif m is None:
-        state = (
-            "infinite dilution"
-            if reference.molality is None
-            else f"{reference.molality:g} mol/kg"
-        )
+        state = "infinite dilution" if reference.molality is None else f"{reference.molality:g} mol/kg"
         notes.append(
             f"the reference is at {state}; the run's molality is not known, so the "
             "dilution effect cannot be judged"
@@ -273,51 +278,36 @@ def compare(
                     f"relative apparent molar enthalpy ({at_run.model}) changes the expected "
                     f"value by {eff:+.3f} ± {u_eff:.3f} kJ/mol"
                 )
-                shift += eff
-                u2 += u_eff**2
                 adjustments.append(f"dilution {eff:+.3f} kJ/mol ({at_run.model})")
-            else:
-                notes.append(
-                    f"the reference is at {ref_state}, the run at {m:.4g} mol/kg; cupcal has "
-                    f"no φ_L model for {reference.formula} at this molality, so the size of "
-                    "the dilution effect is unknown (for 1:1 salts at 0.1-1 mol/kg it is a "
-                    "few tenths of a kJ/mol; larger for 2:1 salts, acids and hydroxides)"
-                )
+                return eff, u_eff**2
+            notes.append(
+                f"the reference is at {ref_state}, the run at {m:.4g} mol/kg; cupcal has "
+                f"no φ_L model for {reference.formula} at this molality, so the size of "
+                "the dilution effect is unknown (for 1:1 salts at 0.1-1 mol/kg it is a "
+                "few tenths of a kJ/mol; larger for 2:1 salts, acids and hydroxides)"
+            )
+    return 0.0, 0.0
 
-    result = Comparison(
-        reference=reference,
-        measured=x,
-        U_measured=U,
-        difference=diff,
-        relative_difference=rel,
-        En=En,
-        satisfactory=abs(En) <= 1.0,
-        notes=notes,
-        U_reference=U_ref,
-        adjustments=adjustments,
-        basis="published",
-        difference_published=diff,
-        relative_difference_published=rel,
-        En_published=En,
+
+def _judge_at_conditions(result: Comparison, shift: float, u2: float) -> None:
+    """Judge ``result`` against the reference carried to the run's conditions (in place)."""
+    x, U = result.measured, result.U_measured
+    adj = result.reference.value + shift
+    u_adj = math.sqrt(u2)
+    en_adj = _en(x - adj, U, 2.0 * u_adj)
+    result.adjusted_reference = adj
+    result.adjusted_u = u_adj
+    result.En_adjusted = en_adj
+    # the adjusted reference is the one the verdict is judged against
+    result.basis = "conditions"
+    result.difference = x - adj
+    result.relative_difference = (x - adj) / abs(adj) if adj != 0.0 else math.nan
+    result.En = en_adj
+    result.satisfactory = abs(en_adj) <= 1.0
+    result.notes.append(
+        f"reference carried to the run's conditions: {adj:.3f} ± {u_adj:.3f} kJ/mol (u); "
+        "this is the value the result is judged against"
     )
-    if adjustments:
-        adj = x_ref + shift
-        u_adj = math.sqrt(u2)
-        en_adj = _en(x - adj, U, 2.0 * u_adj)
-        result.adjusted_reference = adj
-        result.adjusted_u = u_adj
-        result.En_adjusted = en_adj
-        # the adjusted reference is the one the verdict is judged against
-        result.basis = "conditions"
-        result.difference = x - adj
-        result.relative_difference = (x - adj) / abs(adj) if adj != 0.0 else math.nan
-        result.En = en_adj
-        result.satisfactory = abs(en_adj) <= 1.0
-        notes.append(
-            f"reference carried to the run's conditions: {adj:.3f} ± {u_adj:.3f} kJ/mol (u); "
-            "this is the value the result is judged against"
-        )
-    return result
 
 
 def verdict_record(v: Verdict | None) -> dict[str, object] | None:

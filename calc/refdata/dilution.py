@@ -22,7 +22,6 @@ from calc.refdata.species import T_REF_K, citation
 __all__ = [
     "PhiL",
     "phi_L",
-    "relative_apparent_molar_enthalpy",
     "model_spread_u",
 ]
 
@@ -50,7 +49,9 @@ _BL_MAX = 1.5e-3  # kg/(mol K): bound on |B^L| of 1:1 salts, for the DH fallback
 
 #: Half-width (kJ/mol) of the disagreement between this Pitzer term and wide-range models at 1 mol/kg:
 #: for KCl this code gives φ_L = +0.007 kJ/mol where wide-range models give −0.11 to −0.17 kJ/mol
-#: (as reported in the project's issue 11; the models compared there were not re-checked here).
+#: (as reported in the project's issue 11). Re-checked with pytzer (tests/calc/test_dilution_reference.py,
+#: docs/methods.md §8.7): KCl at 1 mol/kg, 25 °C, −0.06 to −0.23 kJ/mol over the six wide-range
+#: parameter sets pytzer carries, Archer's −0.105; NaCl (Archer) −0.088.
 MODEL_SPREAD_AT_1_MOLAL = 0.18
 MODEL_SPREAD_SOURCE = (
     "model-spread term from the disagreement with wide-range models at 1 mol/kg (KCl: −0.11 to −0.17 kJ/mol "
@@ -130,16 +131,3 @@ def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
     value = A_H / _B * math.log(1.0 + _B * math.sqrt(m)) / 1000.0
     u = 2.0 * R_GAS * T * T * m * _BL_MAX / 1000.0
     return PhiL(value, u, "Debye–Hückel (long-range term only)", citation("DH_LIMIT"))
-
-
-def relative_apparent_molar_enthalpy(
-    formula: str, molality: float, T_K: float = T_REF_K
-) -> tuple[float, float] | None:
-    """Return (φ_L, u) in kJ/mol at a molality, or None when no published model applies.
-
-    ΔsolH(m) = ΔsolH° + φ_L(m); see :func:`phi_L` for the models and their uncertainty.
-    """
-    result = phi_L(formula, molality, T_K)
-    if result is None:
-        return None
-    return result.value, result.u

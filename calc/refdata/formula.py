@@ -18,7 +18,7 @@ import molmass
 from calc import limits
 from calc.errors import InputError
 
-__all__ = ["HYDRATE_DOTS", "normalise", "molar_mass", "element_counts", "element_composition",
+__all__ = ["HYDRATE_DOTS", "normalize", "molar_mass", "element_counts", "element_composition",
            "split_hydrate"]
 
 #: The marks people write between a salt and its water of crystallisation: full stop, middle dot,
@@ -28,7 +28,7 @@ HYDRATE_DOTS = (".", "·", "•", "∙", "⋅", "*")
 _EXAMPLES = "expected something like 'KCl', 'NH4NO3' or 'CuSO4.5H2O'"
 
 
-def normalise(formula: str) -> str:
+def normalize(formula: str) -> str:
     """Return ``formula`` stripped, with every hydrate dot written as ``.`` (molmass's form)."""
     text = formula.strip()
     for dot in HYDRATE_DOTS[1:]:
@@ -38,7 +38,7 @@ def normalise(formula: str) -> str:
 
 @lru_cache(maxsize=4096)
 def _parse(formula: str) -> molmass.Formula:
-    return molmass.Formula(normalise(formula))
+    return molmass.Formula(normalize(formula))
 
 
 def _formula(formula: object, field: str | None, source: str | None) -> molmass.Formula:
@@ -121,7 +121,7 @@ def split_hydrate(formula: str, *, field: str | None = None) -> tuple[str, int]:
 
     A formula without water of crystallisation returns ``(formula, 0)``.
     """
-    parts = normalise(formula).split(".")
+    parts = normalize(formula).split(".")
     n_water = 0
     for part in parts[1:]:
         digits = part[: len(part) - len(part.lstrip("0123456789"))]

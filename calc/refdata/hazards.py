@@ -76,12 +76,19 @@ def _plain(name: str) -> str:
 
 
 @lru_cache(maxsize=1)
-def _index() -> dict[object, str]:
+def _name_index() -> dict[str, str]:
+    """Return every name and alias (as :func:`_plain` writes it) → data key."""
     hazards, _ = _data()
-    index: dict[object, str] = {}
+    return {_plain(name): key for key, entry in hazards.items() for name in [key, *entry.get("aliases", [])]}
+
+
+@lru_cache(maxsize=1)
+def _composition_index() -> dict[tuple, str]:
+    """Return the element composition of every formula-like name → data key (built only when a name misses)."""
+    hazards, _ = _data()
+    index: dict[tuple, str] = {}
     for key, entry in hazards.items():
         for name in [key, *entry.get("aliases", [])]:
-            index[_plain(name)] = key
             if _STATE_RE.search(name) or " " in name.strip():
                 continue  # "HCl(g)" is its own entry; the formula HCl stays hydrochloric acid
             comp = _key(name)
@@ -94,10 +101,11 @@ def _lookup(formula: str) -> tuple[str | None, str]:
     """Return (data key, remark) for a formula, or (None, '')."""
     from calc.refdata.formula import split_hydrate
 
-    index = _index()
     text = formula.strip()
-    if _plain(text) in index:
-        return index[_plain(text)], ""
+    names = _name_index()
+    if _plain(text) in names:
+        return names[_plain(text)], ""
+    index = _composition_index()
     comp = _key(text)
     if comp is not None and comp in index:
         return index[comp], ""

@@ -169,13 +169,24 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
     left = _parse_side(parts[0], "reactants", equation)
     right = _parse_side(parts[1], "products", equation)
     index = formation_index()
-
     signed: list[tuple[Fraction, Species, str]] = []
     for coef, text in left:
         signed.append((-coef, parse_species(text), text))
     for coef, text in right:
         signed.append((coef, parse_species(text), text))
+    _check_balanced(equation, signed, index)
+    result, missing_cp = _at_298(signed, index)
+    try:
+        T = float(T_K)
+    except (TypeError, ValueError):
+        raise InputError(f"temperature must be a number in kelvin, got {T_K!r}") from None
+    if abs(T - T_REF_K) > 1e-9:
+        _kirchhoff(result, T, missing_cp)
+    return result
 
+
+def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]], index: dict) -> None:
+    """Refuse unknown species and an equation not balanced in its elements or charge, naming each."""
     problems: list[str] = []
     unknown = [
         f"{text!r} ({unknown_species_hint(sp)})" for _, sp, text in signed if sp.key() not in index
@@ -202,6 +213,9 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
     if problems:
         raise InputError(f"equation {equation!r}: " + ". ".join(problems))
 
+
+def _at_298(signed: list[tuple[Fraction, Species, str]], index: dict) -> tuple[HessResult, list[str]]:
+    """Return the result at 298.15 K (with ΔrCp when every species has Cp°) and the species without Cp°."""
     terms: list[HessTerm] = []
     for coef, sp, _ in signed:
         e = index[sp.key()]
@@ -219,7 +233,6 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
         "standard uncertainty propagated as if the table entries were independent "
         "(the NBS tables are internally correlated)"
     )
-
     missing_cp = [t.species for t in terms if t.cp is None]
     if missing_cp:
         dcp = dcp_u = None
@@ -228,47 +241,34 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
         dcp_u = math.sqrt(
             sum((float(t.coefficient) * _cp_u(index[parse_species(t.species).key()])) ** 2 for t in terms)
         ) / 1000.0
-
     canonical = " -> ".join(
         " + ".join(f"{_fmt_coef(abs(c))}{index[sp.key()].display}" for c, sp, _ in signed if (c < 0) == is_left)
         for is_left in (True, False)
     )
-    result = HessResult(
-        equation=canonical,
-        value=value,
-        u=u,
-        unit="kJ/mol",
-        terms=terms,
-        source="; ".join(citation(s) for s in source_ids),
-        temperature_K=T_REF_K,
-        value_298=value,
-        u_298=u,
-        delta_cp=dcp,
-        delta_cp_u=dcp_u,
-        notes=notes,
-    )
-    try:
-        T = float(T_K)
-    except (TypeError, ValueError):
-        raise InputError(f"temperature must be a number in kelvin, got {T_K!r}") from None
-    if abs(T - T_REF_K) > 1e-9:
-        if not (_T_RANGE_K[0] <= T <= _T_RANGE_K[1]):
-            raise InputError(
-                f"temperature {T:.2f} K is outside {_T_RANGE_K[0]:.2f} K to {_T_RANGE_K[1]:.2f} K, "
-                "where a constant-ΔrCp Kirchhoff correction is used"
-            )
-        if dcp is None:
-            raise InputError(
-                f"no Kirchhoff correction to {T:.2f} K: the table has no Cp° for "
-                + ", ".join(missing_cp)
-            )
-        dT = T - T_REF_K
-        result.temperature_K = T
-        result.value = value + dcp * dT
-        result.u = math.hypot(u, (dcp_u or 0.0) * dT)
-        result.notes.append(
-            f"Kirchhoff correction from 298.15 K with constant ΔrCp = {dcp * 1000:.1f} "
-            f"± {(dcp_u or 0.0) * 1000:.1f} J/(mol K): {dcp * dT:+.3f} kJ/mol "
-            "(Cp° uncertainties are cupcal's estimates)"
+    return HessResult(equation=canonical, value=value, u=u, unit="kJ/mol", terms=terms,
+                      source="; ".join(citation(s) for s in source_ids), temperature_K=T_REF_K, value_298=value,
+                      u_298=u, delta_cp=dcp, delta_cp_u=dcp_u, notes=notes), missing_cp
+
+
+def _kirchhoff(result: HessResult, T: float, missing_cp: list[str]) -> None:
+    """Carry the result from 298.15 K to ``T`` with a constant ΔrCp (in place)."""
+    if not (_T_RANGE_K[0] <= T <= _T_RANGE_K[1]):
+        raise InputError(
+            f"temperature {T:.2f} K is outside {_T_RANGE_K[0]:.2f} K to {_T_RANGE_K[1]:.2f} K, "
+            "where a constant-ΔrCp Kirchhoff correction is used"
         )
-    return result
+    dcp, dcp_u = result.delta_cp, result.delta_cp_u
+    if dcp is None:
+        raise InputError(
+            f"no Kirchhoff correction to {T:.2f} K: the table has no Cp° for "
+            + ", ".join(missing_cp)
+        )
+    dT = T - T_REF_K
+    result.temperature_K = T
+    result.value = result.value_298 + dcp * dT
+    result.u = math.hypot(result.u_298, (dcp_u or 0.0) * dT)
+    result.notes.append(
+        f"Kirchhoff correction from 298.15 K with constant ΔrCp = {dcp * 1000:.1f} "
+        f"± {(dcp_u or 0.0) * 1000:.1f} J/(mol K): {dcp * dT:+.3f} kJ/mol "
+        "(Cp° uncertainties are cupcal's estimates)"
+    )

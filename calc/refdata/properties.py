@@ -1,18 +1,8 @@
 """Property models for water and aqueous solutions.
 
 Water
-    Density and isobaric specific heat capacity at 0.101325 MPa from the IAPWS-95
-    formulation (Wagner & Pruß, J. Phys. Chem. Ref. Data 31, 387 (2002)) as implemented
-    by the ``iapws`` package. One IAPWS-95 call takes a few milliseconds, so values are
-    computed on a 0.25 K grid on first use and interpolated with a four-point (cubic)
-    Lagrange polynomial; the interpolation error is below 1e-10 relative (measured over
-    0-90 degC against direct IAPWS-95 calls; the tests require < 1e-6, see
-    ``tests/calc/test_properties.py``).
-
-    Stated standard uncertainties (cupcal's choice): the uncertainties that the IAPWS-95
-    release gives for liquid water at ambient pressure, taken as standard uncertainties
-    (conservative): 1e-6 relative for density and 1e-3 relative for c_p (from memory;
-    Wagner & Pruß 2002).
+    IAPWS-95 density and heat capacity, the static dielectric constant and the Debye–Hückel slopes
+    come from :mod:`calc.refdata.water` (re-exported here).
 
 Aqueous electrolyte solutions
     Density from the Laliberté & Cooper model (J. Chem. Eng. Data 49, 1141 (2004)) and
@@ -39,13 +29,15 @@ Fallback
 from __future__ import annotations
 
 import math
-import warnings
-from dataclasses import dataclass
 from functools import lru_cache
 
 from calc.errors import InputError
 from calc.refdata import laliberte
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
+from calc.refdata.water import (GRID_FILE, GRID_NODES, IAPWS_MODEL, R_GAS, T_MAX_K, T_MIN_K,  # noqa: F401
+                                U_REL_WATER_CP, U_REL_WATER_DENSITY, PropertyValue, _check_T, _iapws_direct,
+                                debye_huckel_slopes, water_density, water_dielectric_constant,
+                                water_specific_heat)
 
 __all__ = [
     "PropertyValue",
@@ -58,185 +50,13 @@ __all__ = [
     "T_MAX_K",
 ]
 
-IAPWS_MODEL = "IAPWS-95 (iapws package)"
 LALIBERTE_MODEL = "Laliberté (2004, 2009)"
 FALLBACK_MODEL = "water fallback"
 
-P_MPA = 0.101325
-T_MIN_K = 273.15
-T_MAX_K = 363.15
-_STEP_K = 0.25
-
-U_REL_WATER_DENSITY = 1e-6
-U_REL_WATER_CP = 1e-3
 U_REL_LALIBERTE_DENSITY = 5e-4
 U_REL_LALIBERTE_CP = 3e-3
 FALLBACK_HALF_WIDTH_DENSITY = 1.25
 FALLBACK_HALF_WIDTH_CP = 1.75
-
-
-@dataclass(frozen=True)
-class PropertyValue:
-    """A property value with its standard uncertainty, unit and the model that gave it."""
-
-    value: float
-    u: float
-    unit: str
-    model: str
-
-
-# --------------------------------------------------------------------------- water
-
-
-class _WaterGrid:
-    """Lazily filled table of IAPWS-95 density (g/mL) and c_p (J/(g K)) on a 0.25 K grid."""
-
-    def __init__(self) -> None:
-        self._nodes: dict[int, tuple[float, float]] = {}
-
-    def _node(self, i: int) -> tuple[float, float]:
-        node = self._nodes.get(i)
-        if node is None:
-            node = _iapws_direct(i * _STEP_K)
-            self._nodes[i] = node
-        return node
-
-    def values(self, T_K: float) -> tuple[float, float]:
-        x = T_K / _STEP_K
-        i = math.floor(x)
-        s = x - i
-        r0, c0 = self._node(i - 1)
-        r1, c1 = self._node(i)
-        r2, c2 = self._node(i + 1)
-        r3, c3 = self._node(i + 2)
-        # Lagrange weights on nodes -1, 0, 1, 2 at fractional position s in [0, 1).
-        w0 = -s * (s - 1.0) * (s - 2.0) / 6.0
-        w1 = (s + 1.0) * (s - 1.0) * (s - 2.0) / 2.0
-        w2 = -(s + 1.0) * s * (s - 2.0) / 2.0
-        w3 = (s + 1.0) * s * (s - 1.0) / 6.0
-        return (
-            w0 * r0 + w1 * r1 + w2 * r2 + w3 * r3,
-            w0 * c0 + w1 * c1 + w2 * c2 + w3 * c3,
-        )
-
-
-def _iapws_direct(T_K: float) -> tuple[float, float]:
-    """Return IAPWS-95 (density g/mL, c_p J/(g K)) at T_K and 0.101325 MPa, uncached."""
-    import iapws
-
-    with warnings.catch_warnings():
-        # Nodes just below 273.16 K are metastable liquid; iapws warns but the
-        # formulation is valid there.
-        warnings.simplefilter("ignore")
-        state = iapws.IAPWS95(T=T_K, P=P_MPA)
-    return float(state.rho) / 1000.0, float(state.cp)
-
-
-_WATER = _WaterGrid()
-
-
-def _check_T(T_K: float, what: str = "temperature") -> float:
-    try:
-        T = float(T_K)
-    except (TypeError, ValueError):
-        raise InputError(f"{what} must be a number in kelvin, got {T_K!r}") from None
-    if not (T_MIN_K <= T <= T_MAX_K):
-        raise InputError(
-            f"{what} {T:.2f} K is outside the range of cupcal's water model "
-            f"({T_MIN_K:.2f} K to {T_MAX_K:.2f} K, i.e. 0 degC to 90 degC)"
-        )
-    return T
-
-
-def water_density(T_K: float) -> PropertyValue:
-    """Return the density of liquid water at T_K and 0.101325 MPa (IAPWS-95), in g/mL.
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    PropertyValue
-        Value in g/mL with a standard uncertainty of 1e-6 relative.
-
-    Raises
-    ------
-    InputError
-        If the temperature is out of range.
-    """
-    rho, _ = _WATER.values(_check_T(T_K))
-    return PropertyValue(rho, U_REL_WATER_DENSITY * rho, "g/mL", IAPWS_MODEL)
-
-
-def water_specific_heat(T_K: float) -> PropertyValue:
-    """Return the isobaric specific heat capacity of liquid water (IAPWS-95), in J/(g K).
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    PropertyValue
-        Value in J/(g*K) with a standard uncertainty of 1e-3 relative.
-    """
-    _, cp = _WATER.values(_check_T(T_K))
-    return PropertyValue(cp, U_REL_WATER_CP * cp, "J/(g*K)", IAPWS_MODEL)
-
-
-@lru_cache(maxsize=256)
-def water_dielectric_constant(T_K: float) -> float:
-    """Return the static relative permittivity of water at T_K and 0.101325 MPa.
-
-    Uses the IAPWS 1997 release on the static dielectric constant (``iapws`` package)
-    with the IAPWS-95 density (from the interpolated grid: a direct IAPWS-95 call costs
-    several milliseconds).
-    """
-    from iapws._iapws import _Dielectric
-
-    rho = water_density(T_K).value * 1000.0  # kg/m3
-    return float(_Dielectric(rho, T_K))
-
-
-_N_A = 6.02214076e23
-_E = 1.602176634e-19
-_EPS0 = 8.8541878128e-12
-_K_B = 1.380649e-23
-R_GAS = 8.314462618
-
-
-def _a_phi(T_K: float) -> float:
-    # density from the interpolated IAPWS-95 grid (a direct IAPWS-95 call costs ~7 ms)
-    rho = water_density(T_K).value * 1000.0  # kg/m3
-    eps = water_dielectric_constant(T_K)
-    return (
-        math.sqrt(2.0 * math.pi * _N_A * rho)
-        * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5
-        / 3.0
-    )
-
-
-def debye_huckel_slopes(T_K: float) -> tuple[float, float]:
-    """Return the Debye–Hückel slopes (A_phi, A_H) of water at T_K and 0.101325 MPa.
-
-    ``A_phi`` is the osmotic-coefficient slope in kg^(1/2) mol^(-1/2) and
-    ``A_H = 4 R T^2 (dA_phi/dT)_p`` the enthalpy slope in J kg^(1/2) mol^(-3/2)
-    (Pitzer's convention), both from IAPWS-95 density and the IAPWS dielectric constant.
-    The temperature is rounded to 0.05 K (A_H changes by about 1.5 % per K, so the
-    rounding changes φ_L by under 0.04 %), which lets a batch reuse the slopes.
-    """
-    return _dh_slopes(round(float(_check_T(T_K)) * 20.0) / 20.0)
-
-
-@lru_cache(maxsize=1024)
-def _dh_slopes(T: float) -> tuple[float, float]:
-    h = 0.25
-    a = _a_phi(T)
-    dadT = (_a_phi(T + h) - _a_phi(T - h)) / (2.0 * h)
-    return a, 4.0 * R_GAS * T * T * dadT
 
 
 # ----------------------------------------------------------------------- Laliberté
@@ -323,6 +143,33 @@ def solution_properties(
         For a negative mass, no water, an unreadable formula or a temperature out of range.
     """
     T = _check_T(T_K)
+    m_water, anhydrous = _anhydrous(solutes, water_mass_g)
+    rho_w = water_density(T)
+    cp_w = water_specific_heat(T)
+    if not anhydrous:
+        return rho_w, cp_w
+    total = m_water + sum(anhydrous.values())
+    w_solutes = sum(anhydrous.values()) / total
+    rows = {f: _laliberte_row(f) for f in anhydrous}
+    fractions = {f: m / total for f, m in anhydrous.items()}
+    model = (T, w_solutes, fractions, rows)
+    return (_solution_value("density", model, U_REL_LALIBERTE_DENSITY, rho_w, FALLBACK_HALF_WIDTH_DENSITY),
+            _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP))
+
+
+def _solution_value(quantity: str, model: tuple, u_rel: float, water: PropertyValue,
+                    half_width: float) -> PropertyValue:
+    """Return Laliberté's ``quantity`` (kg/m³ or J/(kg K), given in g/mL or J/(g K)), or the water fallback."""
+    T, w_solutes, fractions, rows = model
+    value, why = _laliberte_value(quantity, T, w_solutes, fractions, rows)
+    if why is not None:
+        return _fallback(water, w_solutes, half_width, why)
+    value /= 1000.0
+    return PropertyValue(value, u_rel * value, water.unit, LALIBERTE_MODEL)
+
+
+def _anhydrous(solutes: dict[str, float], water_mass_g: float) -> tuple[float, dict[str, float]]:
+    """Return the water (g, with the water of crystallisation of hydrates) and the anhydrous solutes (g)."""
     try:
         m_water = float(water_mass_g)
     except (TypeError, ValueError):
@@ -348,52 +195,27 @@ def solution_properties(
             m_water += m
             continue
         anhydrous[base] = anhydrous.get(base, 0.0) + m
+    return m_water, anhydrous
 
-    rho_w = water_density(T)
-    cp_w = water_specific_heat(T)
-    if not anhydrous:
-        return rho_w, cp_w
 
-    total = m_water + sum(anhydrous.values())
-    w_solutes = sum(anhydrous.values()) / total
+def _laliberte_value(kind: str, T: float, w_solutes: float, fractions: dict[str, float],
+                     rows: dict[str, laliberte.LaliberteRow | None]) -> tuple[float, str | None]:
+    """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)) and None, else (nan, why not)."""
     t = T - 273.15
-    rows = {f: _laliberte_row(f) for f in anhydrous}
     missing = [f for f, r in rows.items() if r is None]
-
-    def reason_for(kind: str) -> str | None:
-        if missing:
-            return "no Laliberté data for " + ", ".join(missing)
-        for f, r in rows.items():
-            assert r is not None
-            coeffs = r.density if kind == "density" else r.cp
-            t_min, t_max, w_max = r.density_range if kind == "density" else r.cp_range
-            if coeffs is None:
-                return f"no Laliberté {kind} data for {f}"
-            if not (t_min <= t <= t_max):
-                return f"{t:.1f} degC is outside the Laliberté {kind} range of {f} ({t_min:g} to {t_max:g} degC)"
-            if w_solutes > w_max:
-                return f"solute mass fraction {w_solutes:.3f} exceeds the Laliberté {kind} range of {f} ({w_max:.3f})"
-        return None
-
-    why = reason_for("density")
-    if why is None:
-        fractions = {f: m / total for f, m in anhydrous.items()}
-        rho = _laliberte_call("density", T, fractions, rows) / 1000.0
-        if not math.isfinite(rho):
-            why = "no finite Laliberté density for " + ", ".join(anhydrous)
-    if why is None:
-        density = PropertyValue(rho, U_REL_LALIBERTE_DENSITY * rho, "g/mL", LALIBERTE_MODEL)
-    else:
-        density = _fallback(rho_w, w_solutes, FALLBACK_HALF_WIDTH_DENSITY, why)
-
-    why = reason_for("heat capacity")
-    if why is None:
-        fractions = {f: m / total for f, m in anhydrous.items()}
-        cp = _laliberte_call("heat capacity", T, fractions, rows) / 1000.0
-        if not math.isfinite(cp):
-            why = "no finite Laliberté heat capacity for " + ", ".join(anhydrous)
-    if why is None:
-        heat = PropertyValue(cp, U_REL_LALIBERTE_CP * cp, "J/(g*K)", LALIBERTE_MODEL)
-    else:
-        heat = _fallback(cp_w, w_solutes, FALLBACK_HALF_WIDTH_CP, why)
-    return density, heat
+    if missing:
+        return math.nan, "no Laliberté data for " + ", ".join(missing)
+    for f, r in rows.items():
+        assert r is not None
+        coeffs = r.density if kind == "density" else r.cp
+        t_min, t_max, w_max = r.density_range if kind == "density" else r.cp_range
+        if coeffs is None:
+            return math.nan, f"no Laliberté {kind} data for {f}"
+        if not (t_min <= t <= t_max):
+            return math.nan, f"{t:.1f} degC is outside the Laliberté {kind} range of {f} ({t_min:g} to {t_max:g} degC)"
+        if w_solutes > w_max:
+            return math.nan, f"solute mass fraction {w_solutes:.3f} exceeds the Laliberté {kind} range of {f} ({w_max:.3f})"
+    value = _laliberte_call(kind, T, fractions, rows)
+    if not math.isfinite(value):
+        return math.nan, f"no finite Laliberté {kind} for " + ", ".join(fractions)
+    return value, None

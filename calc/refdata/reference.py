@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from calc.refdata.dilution import PhiL, phi_L, relative_apparent_molar_enthalpy
+from calc.refdata.dilution import PhiL, phi_L
 from calc.errors import InputError
 from calc.refdata.hess import citation, formation_enthalpy, hess
 from calc.refdata.formula import element_composition, molar_mass
@@ -34,7 +34,6 @@ __all__ = [
     "neutralization_reference",
     "find_reference",
     "reference_names",
-    "relative_apparent_molar_enthalpy",
     "phi_L",
     "dissolution_products",
     "solute_formation_entry",
@@ -225,25 +224,22 @@ def certified_references() -> list[ReferenceValue]:
 
 def _acid_species(acid: str) -> tuple[str, str] | None:
     """Return (species consumed, conjugate species formed) for an acid, or None."""
-    base = strip_state(acid)[0]
-    for formula in STRONG_ACIDS:
-        if _same_formula(base, formula):
-            return "H+(aq)", ""
-    for formula, conj in WEAK_ACIDS.items():
-        if _same_formula(base, formula):
-            return f"{formula}(aq)", f"{conj}-(aq)"
-    return None
+    return _species(strip_state(acid)[0], STRONG_ACIDS, "H+(aq)", WEAK_ACIDS, "-")
 
 
 def _base_species(base_formula: str) -> tuple[str, str] | None:
+    """Return (species consumed, conjugate species formed) for a base, or None."""
     base = strip_state(base_formula)[0]
-    base = _BASE_ALIASES.get(base, base)
-    for formula in STRONG_BASES:
-        if _same_formula(base, formula):
-            return "OH-(aq)", ""
-    for formula, conj in WEAK_BASES.items():
-        if _same_formula(base, formula):
-            return f"{formula}(aq)", f"{conj}+(aq)"
+    return _species(_BASE_ALIASES.get(base, base), STRONG_BASES, "OH-(aq)", WEAK_BASES, "+")
+
+
+def _species(name: str, strong, strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
+    """Match ``name`` against the strong ones (consuming ``strong_ion``), then the weak ones (formula → conjugate)."""
+    if any(_same_formula(name, formula) for formula in strong):
+        return strong_ion, ""
+    for formula, conj in weak.items():
+        if _same_formula(name, formula):
+            return f"{formula}(aq)", f"{conj}{charge}(aq)"
     return None
 
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from math import gcd
 
-from calc.refdata.formula import element_composition, normalise, split_hydrate
+from calc.refdata.formula import element_composition, normalize, split_hydrate
 from calc.refdata.species import FormationEntry, formation_index, formation_table
 
 __all__ = [
@@ -82,7 +82,7 @@ def dissolution_products(formula: str) -> list[tuple[int, FormationEntry]] | Non
 def solute_formation_entry(formula: str) -> FormationEntry | None:
     """Return the ΔfH° entry of a solute before dissolving (solid, else liquid, else gas)."""
     base, state = strip_state(formula)
-    text = normalise(base)
+    text = normalize(base)
     index = formation_index()
     for st in [state] if state else ["s", "l", "g"]:
         entry = index.get((element_composition(text), 0, st))

@@ -22,7 +22,7 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
-from calc.refdata.formula import element_composition, normalise
+from calc.refdata.formula import element_composition, normalize
 
 __all__ = [
     "T_REF_K", "FormationEntry", "Species", "citation", "formation_enthalpy", "formation_index",
@@ -190,7 +190,7 @@ def _candidates(text: str) -> list[Species]:
         raise InputError(
             f"unknown state {m.group('state')!r} in {raw!r}: use s, l, g or aq"
         )
-    body = normalise(m.group("body").replace(" ", ""))
+    body = normalize(m.group("body").replace(" ", ""))
     readings: list[tuple[str, int]] = []
     explicit = re.match(r"^(.+?)(?:\^|\[)(\d*)([+-])\]?$", body)
     sign_first = re.match(r"^(.+?)([+-])(\d+)$", body)

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from calc.errors import InputError
+from calc.kinds import REGISTRY
 from calc.simulation.kinds import formula_molar_mass
 from calc.simulation.kinds import simulate_dissolution
 from calc.simulation.kinds import simulate_electrical_calibration
@@ -62,42 +64,82 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
     after_add = float(extra.pop("after_add_s", 0.0))
     salt_forced, tau_forced = extra.pop("salt", None), extra.pop("tau_r", None)
     opts.update(extra)
+    kind_entry = REGISTRY.get(kind)
+    draw = kind_entry.hook("scenario") if kind_entry is not None else None
+    if draw is None:
+        raise InputError(f"unknown kind {kind!r}; expected one of "
+                         f"{', '.join(k.name for k in REGISTRY.values() if k.has('scenario'))}", field="kind")
+    return draw(Draw(gen, opts, release, after_add, salt_forced, tau_forced))
 
-    def pick_release() -> str:
-        return release or ("first-order" if gen.uniform() < 0.7 else "sphere")
 
-    def after(slow: float) -> float:
-        return 10 * slow + 5 * opts["tau_s"] + uni(300, 900) + after_add
+@dataclass(frozen=True)
+class Draw:
+    """What a kind's ``scenario`` hook draws from: the generator, the shared options and the overrides."""
 
-    def c_guess(vol: float) -> float:  # J/K, only to size the sample or the heater pulse
-        return vol * 4.18 + opts["c_cal"]
+    gen: np.random.Generator
+    opts: dict[str, Any]
+    release: str | None
+    after_add: float
+    salt: str | None
+    tau_r: float | None
 
-    if kind == "dissolution":
-        salt = str(gen.choice(sorted(_SALTS)))
-        vol, tau_r, rel = uni(50, 100), uni(10, 120), pick_release()
-        salt, tau_r = salt_forced or salt, tau_forced or tau_r
-        mass = uni(1, 5) * c_guess(vol) / abs(_SALTS[salt] * 1000) * formula_molar_mass(salt, "solute.formula")
-        return simulate_dissolution(gen, formula=salt, molar_enthalpy_kJ_mol=_SALTS[salt], solute_mass_g=mass,
-                                    water_volume_mL=vol, tau_r=tau_r, release=rel, after_s=after(tau_r), **opts)
-    if kind == "neutralization":
-        v_a, tau_r, conc = uni(25, 50), uni(2, 10), round(uni(0.5, 1.5), 2)
-        return simulate_neutralization(gen, acid_concentration=conc, base_concentration=conc * uni(1.0, 1.1),
-                                       acid_volume_mL=v_a, base_volume_mL=v_a * uni(0.95, 1.05), tau_r=tau_r,
-                                       base_temperature_offset=uni(-1, 1), after_s=after(tau_r), **opts)
-    if kind == "electrical-calibration":
-        vol, volt, amp = uni(50, 100), uni(3, 12), uni(0.5, 2)
-        t_d = float(np.clip(uni(1, 5) * c_guess(vol) / (volt * amp), 30, 600))
-        return simulate_electrical_calibration(gen, water_volume_mL=vol, voltage_V=volt, current_A=amp,
-                                               duration_s=t_d, after_s=after(t_d / 10), **opts)
-    if kind == "mixing-calibration":
-        return simulate_mixing_calibration(gen, water_volume_mL=uni(40, 55), warm_volume_mL=uni(40, 45),
-                                           warm_temperature_C=opts["t_initial_C"] + uni(15, 25),
-                                           after_s=after(0.0), **opts)
-    if kind == "reaction":
-        tau_r, rel = uni(10, 60), pick_release()
-        vol = uni(50, 100)
-        mass = uni(2, 6) * c_guess(vol) / 466.9e3 * formula_molar_mass("Mg", "reaction.limiting_reagent")
-        return simulate_reaction(gen, reagent_mass_g=mass, solution_volume_mL=vol, tau_r=tau_r, release=rel,
-                                 after_s=after(tau_r), **opts)
-    raise InputError(f"unknown kind {kind!r}; expected one of dissolution, neutralization, "
-                     "electrical-calibration, mixing-calibration, reaction", field="kind")
+    def uni(self, *args: float) -> float:
+        """Return one uniform draw (no arguments: on [0, 1))."""
+        return self.gen.uniform(*args)
+
+    def pick_release(self) -> str:
+        """Return the release model asked for, else first-order (70 %) or a shrinking sphere."""
+        return self.release or ("first-order" if self.gen.uniform() < 0.7 else "sphere")
+
+    def after(self, slow: float) -> float:
+        """Return the log's length after the change: 10 × the slowest time, 5 τ_s and 5–15 min more."""
+        return 10 * slow + 5 * self.opts["tau_s"] + self.uni(300, 900) + self.after_add
+
+    def c_guess(self, vol: float) -> float:
+        """Return a rough heat capacity (J/K), only to size the sample or the heater pulse."""
+        return vol * 4.18 + self.opts["c_cal"]
+
+
+# ------------------------------------------------------------------ the kinds' ``scenario`` hooks
+
+
+def draw_dissolution(d: Draw) -> SimulatedRun:
+    """A salt of :data:`_SALTS` in 50–100 mL, sized for |ΔT_ad| of 1–5 K."""
+    salt = str(d.gen.choice(sorted(_SALTS)))
+    vol, tau_r, rel = d.uni(50, 100), d.uni(10, 120), d.pick_release()
+    salt, tau_r = d.salt or salt, d.tau_r or tau_r
+    mass = d.uni(1, 5) * d.c_guess(vol) / abs(_SALTS[salt] * 1000) * formula_molar_mass(salt, "solute.formula")
+    return simulate_dissolution(d.gen, formula=salt, molar_enthalpy_kJ_mol=_SALTS[salt], solute_mass_g=mass,
+                                water_volume_mL=vol, tau_r=tau_r, release=rel, after_s=d.after(tau_r), **d.opts)
+
+
+def draw_neutralization(d: Draw) -> SimulatedRun:
+    """0.5–1.5 mol/L stocks, 25–50 mL each, up to 10 % excess base."""
+    v_a, tau_r, conc = d.uni(25, 50), d.uni(2, 10), round(d.uni(0.5, 1.5), 2)
+    return simulate_neutralization(d.gen, acid_concentration=conc, base_concentration=conc * d.uni(1.0, 1.1),
+                                   acid_volume_mL=v_a, base_volume_mL=v_a * d.uni(0.95, 1.05), tau_r=tau_r,
+                                   base_temperature_offset=d.uni(-1, 1), after_s=d.after(tau_r), **d.opts)
+
+
+def draw_electrical_calibration(d: Draw) -> SimulatedRun:
+    """A heater pulse of 30–600 s sized for |ΔT| of 1–5 K."""
+    vol, volt, amp = d.uni(50, 100), d.uni(3, 12), d.uni(0.5, 2)
+    t_d = float(np.clip(d.uni(1, 5) * d.c_guess(vol) / (volt * amp), 30, 600))
+    return simulate_electrical_calibration(d.gen, water_volume_mL=vol, voltage_V=volt, current_A=amp,
+                                           duration_s=t_d, after_s=d.after(t_d / 10), **d.opts)
+
+
+def draw_mixing_calibration(d: Draw) -> SimulatedRun:
+    """40–45 mL of water 15–25 K warmer poured into 40–55 mL."""
+    return simulate_mixing_calibration(d.gen, water_volume_mL=d.uni(40, 55), warm_volume_mL=d.uni(40, 45),
+                                       warm_temperature_C=d.opts["t_initial_C"] + d.uni(15, 25),
+                                       after_s=d.after(0.0), **d.opts)
+
+
+def draw_reaction(d: Draw) -> SimulatedRun:
+    """Magnesium in acid, sized for |ΔT| of 2–6 K."""
+    tau_r, rel = d.uni(10, 60), d.pick_release()
+    vol = d.uni(50, 100)
+    mass = d.uni(2, 6) * d.c_guess(vol) / 466.9e3 * formula_molar_mass("Mg", "reaction.limiting_reagent")
+    return simulate_reaction(d.gen, reagent_mass_g=mass, solution_volume_mL=vol, tau_r=tau_r, release=rel,
+                             after_s=d.after(tau_r), **d.opts)

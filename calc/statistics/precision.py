@@ -13,8 +13,9 @@ of :mod:`scipy.stats`, never from typed tables:
 * Mandel's h and k, with their critical values
   ``h = (p−1)t/√(p(t²+p−2))`` (t two-sided at α, p−2 degrees of freedom) and
   ``k = √(p/(1+(p−1)/F))`` (F upper α quantile, n−1 and (p−1)(n−1) degrees of freedom).
-* Cochran's C = s²_max/Σs_i², critical value ``1/(1+(p−1)/F)`` with F at α/p.
-* Algorithm A of ISO 13528 (robust mean and standard deviation).
+* Cochran's C = s²_max/Σs_i², critical value ``1/(1+(p−1)/F)`` with F at α/p
+  (:mod:`calc.statistics.cochran_test`).
+* Algorithm A of ISO 13528, robust mean and standard deviation (:mod:`calc.statistics.robust`).
 
 These tests *flag*; they never delete a result (docs/methods.md §6.3, ISO 5725-2 practice).
 """
@@ -22,7 +23,6 @@ These tests *flag*; they never delete a result (docs/methods.md §6.3, ISO 5725-
 from __future__ import annotations
 
 import math
-from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -40,24 +40,12 @@ __all__ = [
     "mandel_h_k",
     "mandel_h_critical",
     "mandel_k_critical",
-    "CochranResult",
-    "cochran",
-    "cochran_critical",
-    "RobustEstimate",
-    "robust_mean_sd",
     "LIMIT_FACTOR",
 ]
 
 #: Factor from a precision standard deviation to the 95 % limit of the difference of two results
 #: (ISO 5725-6 uses 2.8 ≈ 1.96·√2; docs/methods.md §6.4).
 LIMIT_FACTOR = 2.8
-
-#: Algorithm A constants (ISO 13528 Annex C; docs/methods.md §6.1): MAD → σ for normal data, the
-#: winsorizing half-width in units of s*, and the correction of the SD of winsorized normal data.
-_MAD_FACTOR = 1.483
-_WINSOR = 1.5
-_WINSOR_SD_FACTOR = 1.134
-
 
 # ---------------------------------------------------------------------------- helpers
 
@@ -92,7 +80,7 @@ def finite_series(
     return x
 
 
-def _cells(cells: Sequence[Sequence[float]], minimum_cells: int = 2) -> list[np.ndarray]:
+def cell_arrays(cells: Sequence[Sequence[float]], minimum_cells: int = 2) -> list[np.ndarray]:
     """Return the cells (one list of replicates per group) as arrays, validated."""
     if isinstance(cells, np.ndarray) and cells.ndim == 2:
         cells = list(cells)
@@ -136,7 +124,7 @@ class GrubbsResult:
     sd: float
 
 
-def _check_alpha(alpha: float) -> float:
+def checked_alpha(alpha: float) -> float:
     a = float(alpha)
     if not 0.0 < a < 1.0:
         raise InputError(f"significance level must lie between 0 and 1, got {alpha!r}", field="alpha")
@@ -162,7 +150,7 @@ def grubbs_critical(n: int, alpha: float = 0.05) -> float:
     """
     if int(n) != n or n < 3:
         raise InputError(f"the Grubbs test needs at least 3 values, got {n}")
-    a = _check_alpha(alpha)
+    a = checked_alpha(alpha)
     t = float(sps.t.isf(a / (2 * n), n - 2))
     return (n - 1) / math.sqrt(n) * math.sqrt(t * t / (n - 2 + t * t))
 
@@ -265,7 +253,7 @@ def iso5725(cells: Sequence[Sequence[float]]) -> Precision:
     InputError
         For fewer than two groups, an empty group, a non-finite value, or no replicates at all.
     """
-    cs = _cells(cells)
+    cs = cell_arrays(cells)
     n = np.array([c.size for c in cs], dtype=float)
     means = np.array([c.mean() for c in cs])
     p = len(cs)
@@ -314,7 +302,7 @@ def mandel_h_k(cells: Sequence[Sequence[float]]) -> tuple[np.ndarray, np.ndarray
         (h, k), one value per group. h is all zero when the cell means are equal, and k all zero
         when no group shows any scatter.
     """
-    cs = _cells(cells)
+    cs = cell_arrays(cells)
     means = np.array([c.mean() for c in cs])
     s_m = float(means.std(ddof=1))
     h = (means - means.mean()) / s_m if s_m > 0 else np.zeros(means.size)
@@ -336,7 +324,7 @@ def mandel_h_critical(p: int, alpha: float = 0.05) -> float:
     """
     if int(p) != p or p < 3:
         raise InputError(f"Mandel's h needs at least 3 groups, got {p}")
-    a = _check_alpha(alpha)
+    a = checked_alpha(alpha)
     t = float(sps.t.isf(a / 2, p - 2))
     return (p - 1) * t / math.sqrt(p * (t * t + p - 2))
 
@@ -349,114 +337,6 @@ def mandel_k_critical(p: int, n: int, alpha: float = 0.05) -> float:
     """
     if int(p) != p or p < 2 or int(n) != n or n < 2:
         raise InputError(f"Mandel's k needs at least 2 groups of at least 2 replicates, got p={p}, n={n}")
-    a = _check_alpha(alpha)
+    a = checked_alpha(alpha)
     F = float(sps.f.isf(a, n - 1, (p - 1) * (n - 1)))
     return math.sqrt(p / (1.0 + (p - 1) / F))
-
-
-# ---------------------------------------------------------------------------- Cochran
-
-
-@dataclass(frozen=True)
-class CochranResult:
-    """Outcome of Cochran's test for the largest within-group variance.
-
-    ``n`` is the number of replicates the critical value uses: that of most groups (ISO 5725-2
-    practice when the numbers differ).
-    """
-
-    C: float
-    C_crit: float
-    index: int
-    is_outlier: bool
-    p: int
-    n: int
-    alpha: float
-
-
-def cochran_critical(p: int, n: int, alpha: float = 0.05) -> float:
-    """Return Cochran's critical value for ``p`` groups of ``n`` replicates at ``alpha``.
-
-    ``C = 1/(1 + (p−1)/F)`` with F the upper α/p quantile of the F distribution with n−1 and
-    (p−1)(n−1) degrees of freedom (the usual closed form).
-    """
-    if int(p) != p or p < 2 or int(n) != n or n < 2:
-        raise InputError(f"Cochran's test needs at least 2 groups of at least 2 replicates, got p={p}, n={n}")
-    a = _check_alpha(alpha)
-    F = float(sps.f.isf(a / p, n - 1, (p - 1) * (n - 1)))
-    return 1.0 / (1.0 + (p - 1) / F)
-
-
-def cochran(cells: Sequence[Sequence[float]], alpha: float = 0.05) -> CochranResult:
-    """Test the largest within-group variance (Cochran's C = s²_max / Σ s_i²).
-
-    Groups of a single result are left out. Raises :class:`InputError` when fewer than two
-    groups have replicates or no group shows any scatter.
-    """
-    all_cells = _cells(cells)
-    idx_map = [i for i, c in enumerate(all_cells) if c.size > 1]
-    cs = [all_cells[i] for i in idx_map]
-    if len(cs) < 2:
-        raise InputError("Cochran's test needs at least two groups with two or more results")
-    var = np.array([c.var(ddof=1) for c in cs])
-    total = float(var.sum())
-    if total <= 0:
-        raise InputError("Cochran's test: no group shows any scatter")
-    j = int(np.argmax(var))
-    counts = Counter(c.size for c in cs)
-    n = max(counts, key=lambda k: (counts[k], k))
-    C = float(var[j] / total)
-    crit = cochran_critical(len(cs), n, alpha)
-    return CochranResult(C, crit, idx_map[j], C > crit, len(cs), int(n), float(alpha))
-
-
-# ------------------------------------------------------------------------ Algorithm A
-
-
-@dataclass(frozen=True)
-class RobustEstimate:
-    """Robust mean x* and standard deviation s* by Algorithm A (ISO 13528 Annex C)."""
-
-    mean: float
-    sd: float
-    iterations: int
-    converged: bool
-
-
-def robust_mean_sd(
-    values: Sequence[float] | np.ndarray, *, rtol: float = 1e-9, max_iterations: int = 500
-) -> RobustEstimate:
-    """Return the robust mean and standard deviation of ``values`` by Algorithm A.
-
-    Start from x* = median and s* = 1.483·median|x_i − x*|; then repeat: winsorize the values to
-    x* ± 1.5 s*, set x* to their mean and s* to 1.134 times their standard deviation, until
-    neither changes by more than ``rtol`` relative (ISO 13528 asks for no change in the third
-    significant figure; iterating to the fixed point is stricter).
-
-    Parameters
-    ----------
-    values:
-        At least 3 results.
-    rtol, max_iterations:
-        Stopping rule.
-
-    Returns
-    -------
-    RobustEstimate
-        ``sd`` is 0 when more than half the values are equal (s* starts at 0).
-    """
-    x = finite_series(values, "Algorithm A", 3)
-    xs = float(np.median(x))
-    ss = _MAD_FACTOR * float(np.median(np.abs(x - xs)))
-    if ss == 0.0:
-        return RobustEstimate(xs, 0.0, 0, True)
-    for it in range(1, max_iterations + 1):
-        d = _WINSOR * ss
-        w = np.clip(x, xs - d, xs + d)
-        new_x = float(w.mean())
-        new_s = _WINSOR_SD_FACTOR * float(w.std(ddof=1))
-        done = abs(new_x - xs) <= rtol * max(abs(new_x), ss) and abs(new_s - ss) <= rtol * ss
-        xs, ss = new_x, new_s
-        if done:
-            return RobustEstimate(xs, ss, it, True)
-    return RobustEstimate(xs, ss, max_iterations, False)

@@ -33,7 +33,7 @@ from calc.statistics.precision import finite_series
 
 __all__ = [
     "SeriesSummary",
-    "summarise_series",
+    "summarize_series",
     "BirgeResult",
     "birge_ratio",
     "shared_type_b",
@@ -94,7 +94,7 @@ class SeriesSummary:
     U: float
 
 
-def summarise_series(
+def summarize_series(
     values: Sequence[float] | np.ndarray,
     *,
     type_b_u: float | None = None,

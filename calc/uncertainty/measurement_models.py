@@ -6,8 +6,7 @@ temperature change enters as its value plus zero-valued error components (fit,
 resolution at start and end, method, mixing time), so that the budget shows
 each one and the Monte Carlo draws each from its own distribution.
 
-To add a run kind: add its schema in :mod:`calc.io.runfile`, write a builder here
-and register it in :data:`BUILDERS`.
+A kind's builder is its ``model`` hook in :mod:`calc.kinds` (DEVELOPERS.md, "Adding a run kind").
 """
 
 from __future__ import annotations
@@ -17,24 +16,16 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.errors import InputError
 from calc.uncertainty.gum import Input, xmin
 from calc.io.quantities import Measured
 from calc.refdata.formula import molar_mass
 from calc.io.runfile import RunSpec
+from calc.kinds import get_kind
 
-__all__ = ["ModelSpec", "Properties", "build_model", "BUILDERS", "MAIN_OUTPUT", "EQUIVALENTS"]
-
-#: Main output of each kind: (key, unit)
-MAIN_OUTPUT: dict[str, tuple[str, str]] = {
-    "dissolution": ("molar_enthalpy", "kJ/mol"),
-    "neutralization": ("molar_enthalpy", "kJ/mol"),
-    "reaction": ("molar_enthalpy", "kJ/mol"),
-    "electrical-calibration": ("calorimeter_heat_capacity", "J/K"),
-    "mixing-calibration": ("calorimeter_heat_capacity", "J/K"),
-    "dissolution-with-calibration": ("molar_enthalpy", "kJ/mol"),  # model in calc.insitu
-}
+__all__ = ["ModelSpec", "Properties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
+           "mixing_model", "reaction_model", "EQUIVALENTS"]
 
 #: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).
 EQUIVALENTS: dict[str, int] = {
@@ -121,7 +112,7 @@ def _cal_input(spec: RunSpec) -> Input:
 # ---------------------------------------------------------------- builders
 
 
-def _dissolution(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def dissolution_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     formula = spec.get("solute", "formula")
     M = molar_mass(formula, field="solute.formula", source=spec.source)
     purity = spec.get("solute", "purity")
@@ -170,7 +161,7 @@ def _equivalents(spec: RunSpec, section: str) -> int:
     )
 
 
-def _neutralization(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def neutralization_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     eq_a = _equivalents(spec, "acid")
     eq_b = _equivalents(spec, "base")
     inputs = [
@@ -215,7 +206,7 @@ def _neutralization(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     )
 
 
-def _electrical(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def electrical_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     inputs = [
         _q("heater.voltage", spec.get("heater", "voltage"), "V", "heater voltage"),
         _q("heater.current", spec.get("heater", "current"), "A", "heater current"),
@@ -236,7 +227,7 @@ def _electrical(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-def _mixing(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def mixing_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     inputs = [
         _q("water.volume", spec.get("water", "volume"), "mL", "cool water volume"),
         _prop("water.density", props, "cool water density"),
@@ -264,7 +255,7 @@ def _mixing(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-def _reaction(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def reaction_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
     r = spec.sections["reaction"]
     nu = int(r.get("coefficient", 1))
     solute = spec.sections.get("solute")
@@ -299,15 +290,9 @@ def _reaction(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-BUILDERS: dict[str, Callable[[RunSpec, DeltaT, Properties], ModelSpec]] = {
-    "dissolution": _dissolution,
-    "neutralization": _neutralization,
-    "electrical-calibration": _electrical,
-    "mixing-calibration": _mixing,
-    "reaction": _reaction,
-}
-
-
 def build_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
-    """Return the measurement model of ``spec``'s kind."""
-    return BUILDERS[spec.kind](spec, dt, props)
+    """Return the measurement model of ``spec``'s kind (its ``model`` hook in :mod:`calc.kinds`)."""
+    builder = get_kind(spec.kind).hook("model")
+    if builder is None:
+        raise InputError(f"a {spec.kind} run has no single-event measurement model", source=spec.source, field="kind")
+    return builder(spec, dt, props)

@@ -15,8 +15,10 @@ import numpy as np
 
 from calc.statistics.control_charts import control_chart
 from calc.plan import plan_run
-from calc.statistics.replicates import summarise_series
-from calc.statistics.precision import cochran, grubbs, iso5725, mandel_h_k, robust_mean_sd
+from calc.statistics.replicates import summarize_series
+from calc.statistics.cochran_test import cochran
+from calc.statistics.precision import grubbs, iso5725, mandel_h_k
+from calc.statistics.robust import robust_mean_sd
 
 
 def _best_of(fn, repeat: int = 5) -> float:
@@ -41,7 +43,7 @@ def test_statistics_of_a_whole_class():
             mandel_h_k(cells)
             cochran(cells)
             for c in cells:
-                summarise_series(c, type_b_u=0.1)
+                summarize_series(c, type_b_u=0.1)
         iso5725([c for cells in sections for c in cells])
 
     t = _best_of(week)

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from calc.deltat.methods import METHODS, Log, corrected_delta_t
+from calc.deltat.base import Log
+from calc.deltat.registry import METHODS, corrected_delta_t
 from calc.deltat.periods import find_periods
 from tests.calc.closed_form import probe_temperature, true_temperature
 
@@ -74,8 +75,8 @@ def test_model_fit_recovers_release_and_probe_time_constants():
     log = _log(BASE)
     dt = corrected_delta_t(log, "model-fit")
     assert dt.value == pytest.approx(BASE["D"], rel=5e-4)
-    assert dt.construction["release_time_constant_s"] == pytest.approx(20.0, rel=0.02)
-    assert dt.construction["probe_time_constant_s"] == pytest.approx(5.0, rel=0.05)
+    assert dt.construction.release_time_constant_s == pytest.approx(20.0, rel=0.02)
+    assert dt.construction.probe_time_constant_s == pytest.approx(5.0, rel=0.05)
 
 
 def test_naive_matches_the_closed_form_peak_and_is_biased_low():
@@ -102,7 +103,7 @@ def test_linear_extrapolation_bias_grows_with_release_time():
 def test_equal_area_time_is_where_the_areas_balance():
     log = _log(BASE)
     dt = corrected_delta_t(log, "equal-area")
-    t_x = dt.construction["t_x"]
+    t_x = dt.construction.t_x
     # the equal-area time of a first-order rise with lag sits roughly τ_r + τ_s after mixing
     assert 300 + 10 < t_x < 300 + 60
     assert dt.value == pytest.approx(BASE["D"], rel=0.005)

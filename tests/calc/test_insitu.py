@@ -45,7 +45,7 @@ def test_holds_the_true_enthalpy_and_heat_capacity(tmp_path: Path, seed: int, kw
         assert abs(value - truth) / abs(truth) < 0.003  # near noise-free: within 0.3 %
     assert a.monte_carlo is not None and a.monte_carlo.agrees
     # the two ΔT share the drift fits: their correlation is kept and reported
-    corr = a.delta_t.construction["correlation"]
+    corr = a.delta_t.construction.correlation
     assert corr[0][1] != 0.0 and abs(corr[0][1]) < 1.0 and corr[0][1] == pytest.approx(corr[1][0])
 
 
@@ -97,7 +97,7 @@ def test_calibration_before_and_on_both_sides(tmp_path: Path, pulses: str) -> No
     expected = sim.truth.molar_enthalpy_kJ_mol * (c_i / c_f if pulses == "before" else 0.5 * (c_i + c_f) / c_f)
     assert a.gum.values["molar_enthalpy"] == pytest.approx(expected, rel=0.002)
     assert ("end" if pulses == "before" else "middle") in a.model.amount_note
-    assert len(a.delta_t.construction["events"]) == (2 if pulses == "before" else 3)
+    assert len(a.delta_t.construction.events) == (2 if pulses == "before" else 3)
 
 
 def test_heater_measured_heat_capacity_is_checked_against_the_cup_type(tmp_path: Path) -> None:

@@ -6,7 +6,7 @@ import math
 
 import pytest
 
-from calc.deltat.methods import DeltaT
+from calc.deltat.base import DeltaT
 from calc.uncertainty.gum import propagate
 from calc.uncertainty.measurement_models import Properties, build_model
 from calc.io.runfile import parse_run

@@ -14,15 +14,20 @@ import iapws
 import pytest
 
 from calc.errors import InputError
+from calc.refdata.water import _iapws_direct
 from calc.refdata.properties import (
     FALLBACK_HALF_WIDTH_CP,
     FALLBACK_HALF_WIDTH_DENSITY,
+    GRID_FILE,
+    GRID_NODES,
+    T_MAX_K,
+    T_MIN_K,
     PropertyValue,
-    _iapws_direct,
     _laliberte_table,
     debye_huckel_slopes,
     solution_properties,
     water_density,
+    water_dielectric_constant,
     water_specific_heat,
 )
 
@@ -83,6 +88,46 @@ def test_interpolation_error_below_1e_6_relative(T: float) -> None:
     rho_direct, cp_direct = _iapws_direct(T)
     assert water_density(T).value == pytest.approx(rho_direct, rel=1e-6)
     assert water_specific_heat(T).value == pytest.approx(cp_direct, rel=1e-6)
+
+
+def test_every_node_of_the_shipped_grid_is_what_iapws_computes() -> None:
+    # Reference: the iapws package (IAPWS-95 at 0.101325 MPa, IAPWS 1997 dielectric constant), node by node.
+    from iapws._iapws import _Dielectric
+
+    path = resources.files("calc.refdata") / "data" / GRID_FILE
+    with path.open(encoding="utf-8", newline="") as fh:
+        rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
+    assert [int(r["node"]) for r in rows] == list(range(GRID_NODES[0], GRID_NODES[1] + 1))
+    assert float(rows[0]["T_K"]) <= T_MIN_K - 0.5 and float(rows[-1]["T_K"]) >= T_MAX_K + 0.5
+    for row in rows:
+        T = float(row["T_K"])
+        rho, cp = _iapws_direct(T)
+        assert float(row["density_g_mL"]) == pytest.approx(rho, rel=1e-12), T
+        assert float(row["cp_J_gK"]) == pytest.approx(cp, rel=1e-12), T
+        assert float(row["dielectric_constant"]) == pytest.approx(_Dielectric(rho * 1000.0, T), rel=1e-12), T
+
+
+@pytest.mark.parametrize("T", [273.15, 277.13, 298.15, 303.401, 341.7, 363.15])
+def test_dielectric_constant_is_the_iapws_release_at_the_iapws95_density(T: float) -> None:
+    # Reference: iapws package, IAPWS 1997 static dielectric constant at the direct IAPWS-95 density;
+    # 78.4 at 25 °C (IAPWS R8-97 table, from memory).
+    from iapws._iapws import _Dielectric
+
+    rho, _cp = _iapws_direct(T)
+    assert water_dielectric_constant(T) == pytest.approx(_Dielectric(rho * 1000.0, T), rel=1e-9)
+    if T == 298.15:
+        assert water_dielectric_constant(T) == pytest.approx(78.4, abs=0.05)
+
+
+def test_the_water_model_does_not_import_iapws() -> None:
+    # the grid is shipped: analysing a run need not load iapws (and scipy.optimize with it)
+    import subprocess
+    import sys
+
+    code = ("import sys\nfrom calc.refdata.properties import water_density, debye_huckel_slopes\n"
+            "water_density(298.15); debye_huckel_slopes(298.15)\nprint('iapws' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
 
 
 def test_water_uncertainties_follow_the_stated_rule() -> None:

@@ -9,7 +9,7 @@ import pytest
 
 from calc.errors import InputError
 from calc.uncertainty.gum import BudgetLine, coverage_factor
-from calc.statistics.replicates import birge_ratio, shared_type_b, summarise_series
+from calc.statistics.replicates import birge_ratio, shared_type_b, summarize_series
 
 # GUM (JCGM 100:2008) Table G.2, t_p(ν) for p = 95 % (from memory; docs/methods.md §5.2 for 2, 3, 4, 9, ∞).
 GUM_G2_95 = {1: 12.71, 2: 4.30, 3: 3.18, 4: 2.78, 5: 2.57, 6: 2.45, 7: 2.36, 8: 2.31, 9: 2.26, 10: 2.23,
@@ -18,7 +18,7 @@ GUM_G2_95 = {1: 12.71, 2: 4.30, 3: 3.18, 4: 2.78, 5: 2.57, 6: 2.45, 7: 2.36, 8: 
 
 @pytest.mark.parametrize("nu", sorted(GUM_G2_95))
 def test_student_t_factors_match_gum_table_g2(nu):
-    s = summarise_series(np.arange(nu + 1, dtype=float))
+    s = summarize_series(np.arange(nu + 1, dtype=float))
     assert s.dof == nu
     digits = 3 if nu == 100 else 2  # the table's precision
     assert s.t95 == pytest.approx(GUM_G2_95[nu], abs=0.6 * 10.0**-digits)
@@ -31,7 +31,7 @@ def test_infinite_degrees_of_freedom_give_1_96():
 
 def test_series_statistics_by_hand():
     # own arithmetic: mean 17.3, s = 0.2, u = 0.2/√3, interval mean ± t(2)·u with t(2) = 4.303
-    s = summarise_series([17.1, 17.5, 17.3])
+    s = summarize_series([17.1, 17.5, 17.3])
     assert s.n == 3 and s.mean == pytest.approx(17.3)
     assert s.sd == pytest.approx(0.2)
     assert s.u_mean == pytest.approx(0.2 / math.sqrt(3))
@@ -43,13 +43,13 @@ def test_series_statistics_by_hand():
 
 def test_welch_satterthwaite_with_an_equal_exact_type_b_part():
     # GUM G.2b algebra: u_B = u_A with ν_B = ∞ gives u_c = √2 u_A and ν_eff = 4(n − 1)
-    s = summarise_series([10.0, 10.4, 10.1, 10.3], type_b_u=None)
-    t = summarise_series([10.0, 10.4, 10.1, 10.3], type_b_u=s.u_mean)
+    s = summarize_series([10.0, 10.4, 10.1, 10.3], type_b_u=None)
+    t = summarize_series([10.0, 10.4, 10.1, 10.3], type_b_u=s.u_mean)
     assert t.u_combined == pytest.approx(math.sqrt(2) * s.u_mean)
     assert t.dof_eff == pytest.approx(12.0)
     assert t.k == pytest.approx(coverage_factor(12.0))
     # a Type B part with finite ν (GUM G.4.2: ν = ½ (Δu/u)⁻², 25 % reliability → 8)
-    v = summarise_series([10.0, 10.4, 10.1, 10.3], type_b_u=s.u_mean, type_b_dof=8)
+    v = summarize_series([10.0, 10.4, 10.1, 10.3], type_b_u=s.u_mean, type_b_dof=8)
     assert v.dof_eff == pytest.approx(4 * s.u_mean**4 / (s.u_mean**4 / 3 + s.u_mean**4 / 8))
 
 
@@ -64,7 +64,7 @@ def test_expanded_uncertainty_covers_the_truth_95_percent_of_the_time(n, u_b):
     trials = 10_000
     for _ in range(trials):
         x = rng.normal(0.0, u_b) + rng.normal(0.0, 1.0, n) if u_b else rng.normal(0.0, 1.0, n)
-        s = summarise_series(x, type_b_u=u_b)
+        s = summarize_series(x, type_b_u=u_b)
         hits += abs(s.mean) <= s.U
     assert hits / trials == pytest.approx(0.95, abs=0.015)
 
@@ -103,9 +103,9 @@ def test_birge_ratio_near_one_when_the_stated_uncertainties_are_right():
 
 def test_series_input_errors():
     with pytest.raises(InputError, match="at least 2"):
-        summarise_series([17.2])
+        summarize_series([17.2])
     with pytest.raises(InputError, match="type_b_u"):
-        summarise_series([1.0, 2.0], type_b_u=-1.0)
+        summarize_series([1.0, 2.0], type_b_u=-1.0)
     with pytest.raises(InputError, match="uncertainty 2 must be > 0"):
         birge_ratio([1.0, 2.0], [1.0, 0.0])
     with pytest.raises(InputError, match="2 results but 3 uncertainties"):

@@ -46,7 +46,8 @@ def test_intervals_hold_under_stirring_noise_correlated_over_5_to_30_s(tau_c):
     # correlation; a 95 % interval k·u (k from the fit's degrees of freedom) must hold the truth.
     from scipy.stats import t as student
 
-    from calc.deltat.methods import Log, corrected_delta_t
+    from calc.deltat.base import Log
+    from calc.deltat.registry import corrected_delta_t
     from calc.deltat.periods import find_periods
     from calc.simulation.simulator import simulate_dissolution
 

@@ -14,17 +14,16 @@ import pytest
 from scipy import stats as sps
 
 from calc.errors import InputError
+from calc.statistics.cochran_test import cochran, cochran_critical
 from calc.statistics.precision import (
-    cochran,
-    cochran_critical,
     grubbs,
     grubbs_critical,
     iso5725,
     mandel_h_critical,
     mandel_h_k,
     mandel_k_critical,
-    robust_mean_sd,
 )
+from calc.statistics.robust import robust_mean_sd
 
 # ISO 5725-2 (1994) Table 5, Grubbs' test critical values for one largest or one smallest
 # observation, upper 5 % and upper 1 % columns (from memory; also docs/methods.md §6.3 for 5 %).

@@ -51,6 +51,21 @@ def PREPARE_DEMO(session: Any) -> None:  # noqa: N802 - looked up by browser_sup
     for run in session.scalars(sa.select(Run).where(Run.kind == "dissolution")):
         run.sample = "LOT-K7"
     session.commit()
+    _live_run(session)
+
+
+def _live_run(session: Any) -> None:
+    """A live run of the demo student, part recorded, so the live page, the list and the room view have content."""
+    import sqlalchemy as sa
+
+    from tests.webapp.browser_support import STUDENT
+    from tests.webapp.live_helpers import batch, demo_rows, live_run_file
+    from webapp.models import Person
+    from webapp.services.live import LiveCreate, add_readings, create_live_run
+
+    student = session.scalar(sa.select(Person).where(Person.email == STUDENT))
+    live, _new = create_live_run(session, student, LiveCreate(run_file=live_run_file(), client_key="axe-live"))
+    add_readings(session, student, live.id, batch(demo_rows(), 0, 200))
 
 
 def _axe_source() -> str:
@@ -93,6 +108,8 @@ def _pages(d: Any, server: str, role: str) -> list[str]:
              "/plan?kind=dissolution&go=1", "/auth/tokens", "/auth/password", "/runs/new/dissolution-with-calibration",
              "/runs/987654"]  # the last: the error page
     pages += [p for p in (run, cup, f"{cup}/control" if cup else None, section, board) if p]
+    live = _first_link(d, server, "/live/", r"^/live/\d+$")
+    pages += ["/live/"] + [p for p in (live, section and f"{section}/live") if p]
     if role != "student":
         course = _first_link(d, server, "/classes/", r"^/classes/courses/\d+/dashboard")
         pages += [p for p in (course, section and section.replace("/classes/sections/", "/imports/sections/")) if p]

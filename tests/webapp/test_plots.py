@@ -21,7 +21,8 @@ import numpy as np
 import pytest
 
 from calc.analysis import Analysis, analyze_run, analyze_spec
-from calc.deltat.methods import METHODS
+from calc.deltat.constructions import Construction
+from calc.deltat.registry import METHODS
 from calc.uncertainty.gum import BudgetLine
 from calc.deltat.periods import find_periods
 from calc.io.readings import Readings
@@ -190,7 +191,7 @@ def _rms_on(a: Analysis, curve: tuple[np.ndarray, np.ndarray], window: tuple[flo
 @pytest.mark.parametrize("name", NAMES)
 def test_newtonian_drift_curves_solve_one_law_and_give_back_delta_t(name):
     a = analysis(name, "regnault-pfaundler")
-    c = a.delta_t.construction
+    c = a.delta_t.construction.to_dict()  # the stored form: what the notebook keeps and exports
     curves = drift_curves(a)
     assert set(curves) == {"fore", "after"}
     t_i, t_f = c["t_i"], c["t_f"]
@@ -224,7 +225,7 @@ def test_newtonian_drift_curves_solve_one_law_and_give_back_delta_t(name):
 def test_straight_drift_lines_meet_delta_t_at_t_x(name, method):
     a = analysis(name, method)
     curves = drift_curves(a)
-    t_x = a.delta_t.construction["t_x"]
+    t_x = a.delta_t.construction.t_x
     if method == "linear-extrapolation":
         assert t_x == a.periods.mixing_time
     fore, after = curves["fore"], curves["after"]
@@ -243,7 +244,7 @@ def test_straight_drift_lines_meet_delta_t_at_t_x(name, method):
 def test_model_curve_starts_at_the_start_level_and_follows_the_after_period(name):
     a = analysis(name, "model-fit")
     (tt, yy), = drift_curves(a).values()
-    t_i = a.delta_t.construction["t_i"]
+    t_i = a.delta_t.construction.t_i
     assert _at((tt, yy), t_i) == pytest.approx(a.delta_t.start_temperature, abs=1e-9)
     t, y = a.readings.time_s, a.readings.temperature_K
     m = (t >= a.periods.after[0]) & (t <= a.periods.after[1])
@@ -266,7 +267,7 @@ def test_naive_levels_are_the_start_and_the_extreme_reading(name):
 
 def test_unknown_method_draws_no_curve_but_still_renders():
     a = analysis("diss-kcl-01", "naive")
-    b = replace(a, delta_t=replace(a.delta_t, method="someone-elses-method", construction={}))
+    b = replace(a, delta_t=replace(a.delta_t, method="someone-elses-method", construction=Construction()))
     assert drift_curves(b) == {}
     assert_self_contained_and_accessible(run_plot_svg(b))
 

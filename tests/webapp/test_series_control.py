@@ -10,7 +10,7 @@ import pytest
 
 from calc.statistics.control_charts import control_chart
 from calc.statistics.replicates import shared_type_b
-from calc.statistics.replicates import summarise_series
+from calc.statistics.replicates import summarize_series
 from tests.webapp.class_fixtures import make_class
 from tests.webapp.class_fixtures import simulated_run
 from webapp.models import Person
@@ -39,7 +39,7 @@ def test_series_statistics_equal_calc_replicates(client: Any, session: Any, lab:
     runs = [session.get(Run, i) for i in run_ids]
     values = [x.current_result.molar_enthalpy_kj_mol for x in runs]
     ub, nub = shared_type_b(budget_lines(runs[0].current_result.budget))
-    want = summarise_series(values, type_b_u=ub, type_b_dof=nub)
+    want = summarize_series(values, type_b_u=ub, type_b_dof=nub)
     assert ub > 0
     for key in ("mean", "sd", "u_mean", "t95", "u_combined", "k", "U"):
         assert math.isclose(got[key], getattr(want, key), rel_tol=1e-12), key

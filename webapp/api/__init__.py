@@ -16,5 +16,6 @@ from webapp.api import runs  # noqa: F401
 from webapp.api import exchange  # noqa: F401
 from webapp.api import eln  # noqa: F401
 from webapp.api import review  # noqa: F401
+from webapp.api import live  # noqa: F401
 
 __all__ = ['bp']

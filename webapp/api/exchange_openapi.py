@@ -32,7 +32,7 @@ _DELIVERY = {"type": "object", "properties": {
     "created_at": {"type": "string", "format": "date-time"}}}
 _TOKEN = {"type": "object", "properties": {
     "id": {"type": "integer"}, "label": {"type": "string"}, "prefix": {"type": "string"},
-    "scope": {"type": "string", "enum": ["read", "write"]}, "created_at": {"type": "string", "format": "date-time"},
+    "scope": {"type": "string", "enum": ["read", "write", "live"]}, "created_at": {"type": "string", "format": "date-time"},
     "last_used_at": {"type": ["string", "null"], "format": "date-time"},
     "revoked_at": {"type": ["string", "null"], "format": "date-time"}}}
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from calc.deltat.methods import DEFAULT_METHOD
-from calc.deltat.methods import METHODS
+from calc.deltat.base import DEFAULT_METHOD
+from calc.deltat.registry import METHODS
 from flask import Response
 from flask import jsonify
 from flask import request

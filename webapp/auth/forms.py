@@ -22,7 +22,7 @@ class TokenForm(FlaskForm):
     """A label for a new API token."""
 
     label = StringField("Label", validators=[Length(max=120)])
-    scope = SelectField("Scope", choices=["read", "write"],
+    scope = SelectField("Scope", choices=["read", "write", "live"],
                         default="read")
 
 

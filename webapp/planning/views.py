@@ -12,6 +12,7 @@ from typing import Any
 
 from calc.errors import CupcalError, InputError
 from calc.io.quantities import parse_measured
+from calc.kinds import get_kind
 from flask import render_template
 from flask import request
 from flask_login import login_required
@@ -62,10 +63,7 @@ KIND_FIELDS = {
     "mixing-calibration": ("water_volume", "warm_volume", "warm_temperature"),
     "reaction": ("formula", "mass", "water_volume", "enthalpy"),
 }
-KIND_TITLES = {"dissolution": "Dissolution of a solid", "neutralization": "Neutralization (acid and base)",
-               "electrical-calibration": "Calibration with an electric heater",
-               "mixing-calibration": "Calibration by mixing warm and cool water",
-               "reaction": "Reaction of a weighed reagent"}
+KIND_TITLES = {k: get_kind(k).title for k in KIND_FIELDS}
 COMMON = ("calorimeter", "resolution", "noise", "temperature")
 #: calc.plan parameter (or the field an error names) → the form field it is shown under
 _FIELD_OF = {"calorimeter_heat_capacity": "calorimeter", "thermometer_resolution": "resolution",

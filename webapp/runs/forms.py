@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from calc.deltat.methods import METHODS
+from calc.deltat.registry import METHODS
 from flask_wtf import FlaskForm
 from wtforms import FloatField
 from wtforms import SelectField

@@ -14,8 +14,8 @@ import secrets
 from pathlib import PurePosixPath
 from typing import Any
 
-from calc.deltat.methods import DEFAULT_METHOD
-from calc.deltat.methods import METHODS
+from calc.deltat.base import DEFAULT_METHOD
+from calc.deltat.registry import METHODS
 from calc.refdata.reference import reference_names
 from calc.io.runfile import KINDS
 from flask import abort

@@ -20,21 +20,10 @@ from calc.io.quantities import parse_measured
 from calc.io.runfile import KINDS
 from calc.io.runfile import REQUIRED_SECTIONS
 from calc.io.runfile import SCHEMA
+from calc.kinds import get_kind
 
-#: what each kind measures (shown when choosing a kind)
-KIND_TITLES = {
-    "dissolution": ("Dissolution", "A solid dissolved in water: ΔH per mole of solute."),
-    "neutralization": ("Neutralization", "A base poured into an acid: ΔH per mole of water formed."),
-    "electrical-calibration": ("Electrical calibration",
-                               "A heater's known energy: the calorimeter's heat capacity."),
-    "mixing-calibration": ("Warm-water calibration",
-                           "Warm water poured into cool water: the calorimeter's heat capacity."),
-    "reaction": ("Reaction", "A reaction in solution: ΔH per mole of reaction as written."),
-    "dissolution-with-calibration": (
-        "Dissolution with in-situ calibration",
-        "A solid dissolved, then a heater pulse in the same log: ΔH per mole of solute, the heat capacity of "
-        "cup + solution from the heater."),
-}
+#: each kind's title and what it measures (shown when choosing a kind; calc.kinds)
+KIND_TITLES = {k: (get_kind(k).title, get_kind(k).summary) for k in KINDS}
 
 _SECTION_TITLES = {
     "info": "About the run",
@@ -226,7 +215,7 @@ def form_sections(kind: str) -> list[FormSection]:
         hint = _SECTION_HINTS.get(name, "" if name in required or name in ("", "info") else "Optional section.")
         if name == "calorimeter" and name not in required:
             hint = "The calorimeter whose heat capacity this run measures: the result is added to its history."
-            if kind == "dissolution-with-calibration":
+            if not get_kind(kind).is_calibration:
                 hint = ("The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
                         "the heat capacity of cup + solution.")
         out.append(FormSection(name, _SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint,

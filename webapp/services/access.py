@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 
+from webapp.models import LiveRun
 from webapp.models import Person
 from webapp.models import Run
 from webapp.services.errors import Forbidden
@@ -66,3 +67,15 @@ def visible_runs_clause(person: Person) -> sa.ColumnElement[bool]:
     if person.group_id is None:
         return own
     return sa.or_(Run.group_id == person.group_id, own)
+
+
+def can_view_live_run(person: Person, live: LiveRun) -> bool:
+    """Return whether ``person`` may follow a live run: staff, its owner, or the owner's group."""
+    if person.role in ("coordinator", "technician") or live.owner_id == person.id:
+        return True
+    return person.group_id is not None and live.group_id == person.group_id
+
+
+def can_steer_live_run(person: Person, live: LiveRun) -> bool:
+    """Return whether ``person`` may set a live run's target U or finish it: its owner, its group, staff."""
+    return can_view_live_run(person, live)

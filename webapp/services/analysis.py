@@ -21,8 +21,8 @@ from calc.analysis import analyze_spec
 from calc.analysis import check_options
 from calc import limits
 from calc.limits import LimitExceeded
-from calc.deltat.methods import DEFAULT_METHOD
-from calc.deltat.methods import METHODS
+from calc.deltat.base import DEFAULT_METHOD
+from calc.deltat.registry import METHODS
 from calc.errors import AnalysisError
 from calc.errors import InputError
 from calc.io.quantities import Measured
@@ -31,6 +31,8 @@ from calc.io.readings import parse_readings
 from calc.report import to_record
 from calc.io.runfile import RunSpec
 from calc.io.runfile import parse_run
+from calc.kinds import get_kind
+from calc.kinds import kind_names
 
 from webapp.models import Calibration
 from webapp.models import Result
@@ -39,7 +41,7 @@ from webapp.services.errors import Invalid
 from webapp.services.errors import TooLarge
 
 #: kinds whose model needs the calorimeter's heat capacity
-NEEDS_HEAT_CAPACITY = ("dissolution", "neutralization", "reaction")
+NEEDS_HEAT_CAPACITY = tuple(k for k in kind_names() if get_kind(k).needs_heat_capacity)
 
 _HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re.MULTILINE)
 
@@ -258,7 +260,7 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
                       field="readings")
     warnings = list(analysis.warnings) + [w for w in p.warnings if w not in analysis.warnings]
     construction = {
-        **_jsonable(d.construction),
+        **_jsonable(d.construction.to_dict()),
         "start_temperature_K": finite_or_none(d.start_temperature),
         "u_start_temperature_K": finite_or_none(d.u_start_temperature),
         "end_temperature_K": finite_or_none(d.end_temperature),

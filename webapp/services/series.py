@@ -1,7 +1,7 @@
 """Series of repeat runs: mean, SD, u of the mean, t 95 % interval and the shared Type B part.
 
 A series is either stored (a named list of runs) or formed on the fly from a group's runs of
-one measurement (kind + reference). The statistics are :func:`calc.statistics.replicates.summarise_series`
+one measurement (kind + reference). The statistics are :func:`calc.statistics.replicates.summarize_series`
 of the runs' main results, combined with the non-averaging Type B part of the first run's
 budget (:func:`calc.statistics.replicates.shared_type_b`: calorimeter heat capacity, solution heat
 capacity, densities, concentrations, purity, ΔT method).
@@ -18,7 +18,7 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from calc.errors import InputError
-from calc.statistics.replicates import shared_type_b, summarise_series
+from calc.statistics.replicates import shared_type_b, summarize_series
 from webapp.models import MAX_ID, Person, Result, Run, Series, SeriesRun
 from webapp.services.access import can_view_run, require_coordinator
 from webapp.services.errors import Invalid, NotFound
@@ -61,7 +61,7 @@ def summarise_runs(runs: list[tuple[Run, Result]], *, first_budget: list[dict[st
         values.append(v)
     ub, nub = shared_type_b(budget_lines(runs[0][1].budget if first_budget is None else first_budget))
     try:
-        s = summarise_series(values, type_b_u=ub, type_b_dof=nub)
+        s = summarize_series(values, type_b_u=ub, type_b_dof=nub)
     except InputError as exc:
         raise Invalid(str(exc), field="run_ids") from None
     fin = (lambda x: x if math.isfinite(x) else None)
@@ -132,7 +132,7 @@ def group_series(rows: list[Any], session: so.Session | None = None) -> list[dic
         members = sorted(members, key=lambda m: m.run_id)
         ub, nub = members[0].type_b
         try:
-            s = summarise_series([m.value for m in members], type_b_u=ub, type_b_dof=nub)
+            s = summarize_series([m.value for m in members], type_b_u=ub, type_b_dof=nub)
         except InputError:
             continue
         fin = (lambda x: x if math.isfinite(x) else None)

@@ -1,4 +1,5 @@
-"""API token scopes: "read" tokens may only read; "write" tokens may do all their owner may.
+"""API token scopes: "read" tokens may only read; "write" tokens may do all their owner may; "live"
+tokens may only record live runs (a recorder on a lab bench holds one).
 
 Tokens are made by :func:`webapp.services.people.issue_token` (shown once, stored as a SHA-256
 hash, revocable, last use recorded); this module adds the scope.
@@ -16,12 +17,13 @@ from webapp.services.errors import Invalid
 from webapp.services.people import issue_token
 from webapp.services.people import token_for_secret  # noqa: F401  (re-exported)
 
-SCOPES = ("read", "write")
+#: "live" tokens may only create live runs, post their readings, set their target and finish them
+SCOPES = ("read", "write", "live")
 
 
 def issue_scoped_token(session: so.Session, person: Person, label: str = "", scope: str = "write"
                        ) -> tuple[ApiToken, str]:
-    """Create a token with ``scope`` ("read" or "write") and commit; return it with its secret (shown once)."""
+    """Create a token with ``scope`` ("read", "write" or "live") and commit; return it with its secret (shown once)."""
     if scope not in SCOPES:
         raise Invalid(f"unknown scope {scope!r}; expected one of: {', '.join(SCOPES)}", field="scope")
     return issue_token(session, person, label, scope)

@@ -1,0 +1,167 @@
+"""ΔT method ``regnault-pfaundler`` (the default): Newtonian Regnault–Pfaundler.
+
+One Newtonian drift law dT/dt = g(T) is fitted jointly to the fore and after periods;
+ΔT = T(t_f) − T(t_i) − ∫ g(T) dt over the main period, the integral taken on the readings
+(docs/methods.md §2.3). Two-solution runs take the drift law from the after period alone and
+start from the fore line's value at the mixing time.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from calc.deltat.base import DeltaT, Log, method_term, need_windows, register_method, resolution_terms
+from calc.deltat.constructions import AfterNewtonConstruction, JointNewtonConstruction, NewtonianConstruction
+from calc.deltat.drift import LineFit, NewtonFit, fit_newton_joint, fit_newton_single
+
+__all__ = ["regnault_pfaundler", "classic_k"]
+
+_NOT_NEWTONIAN_TWO = (
+    "after-period drift is not Newtonian (exchange constant k < 0): "
+    "room temperature change, evaporation or an unfinished process?"
+)
+_NOT_NEWTONIAN_ONE = (
+    "drift is not Newtonian (exchange constant k < 0): room temperature change, "
+    "evaporation, a heating stir plate or an unfinished process?"
+)
+
+
+def _trapz_parts(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[float, float, float, np.ndarray]:
+    """Split ∫_a^b y dt (trapezoid rule) into the readings' part and the end values' weights.
+
+    Returns (inner, w_a, w_b, w_inner) with ∫ = inner + w_a·y(a) + w_b·y(b), so the end
+    levels (fit parameters) can vary without recomputing the sum over the readings.
+    """
+    m = (t > a) & (t < b)
+    idx = np.flatnonzero(m)
+    tt = np.concatenate([[a], t[idx], [b]])
+    d = np.diff(tt)
+    w = np.zeros(tt.size)
+    w[:-1] += 0.5 * d
+    w[1:] += 0.5 * d
+    return float(np.dot(w[1:-1], y[idx])), float(w[0]), float(w[-1]), w[1:-1]
+
+
+def _numgrad(f: Callable[[np.ndarray], float], p: np.ndarray, cov: np.ndarray) -> np.ndarray:
+    """Central-difference gradient of ``f`` at ``p``, steps of 1/1000 of each parameter's SD."""
+    g = np.empty(p.size)
+    sd = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    for i in range(p.size):
+        h = sd[i] * 1e-3 if sd[i] > 0 and math.isfinite(sd[i]) else 1e-8 * max(abs(p[i]), 1.0)
+        pp = p.copy()
+        pm = p.copy()
+        pp[i] += h
+        pm[i] -= h
+        g[i] = (f(pp) - f(pm)) / (2 * h)
+    return g
+
+
+def _quad_form(g: np.ndarray, cov: np.ndarray) -> float:
+    v = float(g @ cov @ g)
+    return v if v > 0 and math.isfinite(v) else 0.0
+
+
+def classic_k(fore: LineFit, after: LineFit) -> float:
+    """Return the exchange constant from the two drift lines' slopes and levels (0 when implausible)."""
+    dT = after.a - fore.a
+    if abs(dT) < 1e-6:
+        return 0.0
+    k = (fore.b - after.b) / dT
+    return k if 0.0 <= k < 1 / 300.0 else 0.0
+
+
+@dataclass(frozen=True)
+class _Setup:
+    """What differs between one- and two-solution runs: the fit, ΔT(parameters) and the start level."""
+
+    fit: NewtonFit
+    delta_t_of: Callable[[np.ndarray], float]
+    extra_var: float  # variance entering besides the fit parameters (the fore line's level)
+    dof: float
+    i_k: int  # index of k in the parameters
+    not_newtonian: str
+    start: float
+    u_start: float
+
+
+def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) -> _Setup:
+    """Drift law of the final system from the after period alone; start level from the fore line."""
+    inner, w_a, w_b = parts
+    t_i, t_f = log.periods.mixing_time, log.periods.main_end
+    ta_, ya_ = log.window("after")
+    nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
+    T_A = fore.at(t_i)
+    var_TA = fore.var_at(t_i)
+
+    def dT_of(p: np.ndarray) -> float:
+        y_f, g_f, k = p
+        integ = inner + w_a * T_A + w_b * y_f
+        return (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+
+    # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
+    return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA))
+
+
+def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, float, float]) -> _Setup:
+    """One Newtonian law fitted to the fore and after periods together."""
+    inner, w_a, w_b = parts
+    t_i, t_f = log.periods.mixing_time, log.periods.main_end
+    tf_, yf_, ta_, ya_ = need_windows(log)
+    nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=classic_k(fore, after))
+
+    def dT_of(p: np.ndarray) -> float:
+        y_i, y_f, g_i, k = p
+        integ = inner + w_a * y_i + w_b * y_f
+        return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
+
+    start, u_start = float(nf.params[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
+    return _Setup(nf, dT_of, 0.0, nf.dof, 3, _NOT_NEWTONIAN_ONE, start, u_start)
+
+
+def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
+    common = dict(
+        t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=nf.k, u_k_per_s=u_k,
+        convergence_temperature_K=nf.convergence_temperature(),
+        fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean),
+        autocorrelation=nf.rho, residual_sd_K=nf.s,
+    )
+    if log.two_solution:
+        return AfterNewtonConstruction(**common, after_newton=(*(float(v) for v in nf.params), log.periods.main_end))
+    y_i, y_f, g_i, k = (float(v) for v in nf.params)
+    return JointNewtonConstruction(**common, newton_joint=(y_i, y_f, g_i, k))
+
+
+@register_method("regnault-pfaundler")
+def regnault_pfaundler(log: Log) -> DeltaT:
+    """Newtonian Regnault–Pfaundler: one drift law fitted to both periods, exchange integrated on the readings."""
+    need_windows(log)
+    fore, after = log.line("fore"), log.line("after")
+    inner, w_a, w_b, w = _trapz_parts(log.t, log.y, log.periods.mixing_time, log.periods.main_end)
+    parts = (inner, w_a, w_b)
+    setup = _two_solution(log, fore, parts) if log.two_solution else _one_solution(log, fore, after, parts)
+    nf, k = setup.fit, setup.fit.k
+    value = setup.delta_t_of(nf.params)
+    var = (_quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov) + setup.extra_var
+           + (k * nf.s) ** 2 * float(np.dot(w, w)))
+    u_k = math.sqrt(max(nf.cov[setup.i_k, setup.i_k], 0.0))
+    warnings = [setup.not_newtonian] if k < 0 and abs(k) > 2 * u_k else []
+    res_start, res_end = resolution_terms(log)
+    return DeltaT(
+        method="regnault-pfaundler",
+        value=value,
+        u_fit=math.sqrt(var),
+        dof_fit=setup.dof,
+        u_resolution_start=res_start,
+        u_resolution_end=res_end,
+        u_method=method_term("regnault-pfaundler", value),
+        u_mixing_time=0.0,  # the Newtonian correction needs no exact mixing time
+        start_temperature=setup.start,
+        u_start_temperature=setup.u_start,
+        end_temperature=setup.start + value,
+        construction=_construction(log, nf, u_k, fore, after),
+        warnings=warnings,
+    )

@@ -1,0 +1,1 @@
+"""Live runs: recording a thermometer as it reads, and advising while it records (docs/recording.md)."""

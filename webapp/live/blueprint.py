@@ -1,0 +1,7 @@
+"""The ``live`` blueprint object; the routes live beside it."""
+
+from __future__ import annotations
+
+from flask import Blueprint
+
+bp = Blueprint("live", __name__)
