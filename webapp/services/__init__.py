@@ -28,6 +28,12 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``integrity``: ``cupcal db check``: the database's own check, foreign keys, complete runs, hashes
 - ``integrity_locks``: the part of ``cupcal db check`` for signed runs and the audit chain
 - ``jsontext``: JSON from callers, every failure an ``Invalid`` naming the field
+- ``live``: live runs: created by a recorder, fed readings as they come, finished into a stored run
+- ``live_advice``: the advisor's answer for a live run, once per batch of readings, kept on the row
+- ``live_events``: how a change to a live run reaches every server process's pages (through the database)
+- ``live_finish``: finishing a live run: its log analysed and stored like an uploaded run
+- ``live_runfile``: a live run's run file, checked at the start, completed for the advisor and the stored run
+- ``live_view``: what pages, event streams and the API read of live runs
 - ``marks``: marking schemes, the marks they give, marks set by hand
 - ``package_import``: importing our own run packages (JSON export, RO-Crate zip) to the same numbers
 - ``page_data``: read-only data of the pages and the preview of an upload
