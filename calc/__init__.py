@@ -23,7 +23,7 @@ __version__ = "0.1.0"
 #: public name → the module that defines it (imported on first use)
 _PUBLIC: dict[str, str] = {
     "analyze_run": "calc.analysis",
-    "Analysis": "calc.analysis",
+    "Analysis": "calc.result",
     "CupcalError": "calc.errors",
     "InputError": "calc.errors",
     "AnalysisError": "calc.errors",

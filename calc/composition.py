@@ -15,7 +15,7 @@ from calc.deltat.base import DeltaT
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
 from calc.refdata.solutes import STRONG_ACIDS
-from calc.uncertainty.measurement_models import EQUIVALENTS, Properties
+from calc.uncertainty.measurement_models import EQUIVALENTS, RunProperties
 
 __all__ = ["resolve_properties", "final_composition"]
 
@@ -27,7 +27,7 @@ def _property_models() -> Any:
     return importlib.import_module("calc.refdata.properties")
 
 
-def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
+def resolve_properties(spec: RunSpec, dt: DeltaT) -> RunProperties:
     """Return the densities and heat capacity the model needs.
 
     A value in the run file always wins; otherwise the property models of
@@ -35,7 +35,7 @@ def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
     the kind's ``properties`` hook (:mod:`calc.kinds`), the solution's heat capacity from its final
     composition (the ``composition`` hook; water when it has none).
     """
-    props = Properties()
+    props = RunProperties()
     T0 = dt.start_temperature
     T_mean = T0 + 0.5 * dt.value
     kind = get_kind(spec.kind)
@@ -59,7 +59,7 @@ def resolve_properties(spec: RunSpec, dt: DeltaT) -> Properties:
     return props
 
 
-def _explicit(spec: RunSpec, props: Properties, section: str, name: str, unit: str) -> bool:
+def _explicit(spec: RunSpec, props: RunProperties, section: str, name: str, unit: str) -> bool:
     """Record ``[section] name`` from the run file when it is there; return whether it was."""
     m = spec.get(section, name)
     if m is None:
@@ -68,7 +68,7 @@ def _explicit(spec: RunSpec, props: Properties, section: str, name: str, unit: s
     return True
 
 
-def _water_density(props: Properties, key: str, T: float) -> None:
+def _water_density(props: RunProperties, key: str, T: float) -> None:
     pv = _property_models().water_density(T)
     props.add(key, pv.value, pv.u, "g/mL", f"{pv.model} at {T - 273.15:.1f} °C")
 
@@ -76,20 +76,20 @@ def _water_density(props: Properties, key: str, T: float) -> None:
 # ------------------------------------------------------------------ the kinds' ``properties`` hooks
 
 
-def water_properties(spec: RunSpec, props: Properties, T0: float) -> None:
+def water_properties(spec: RunSpec, props: RunProperties, T0: float) -> None:
     """Water in the cup: its density at the start temperature."""
     if not _explicit(spec, props, "water", "density", "g/mL"):
         _water_density(props, "water.density", T0)
 
 
-def warm_water_properties(spec: RunSpec, props: Properties, T0: float) -> None:
+def warm_water_properties(spec: RunSpec, props: RunProperties, T0: float) -> None:
     """Cool water in the cup and warm water poured in: each one's density at its own temperature."""
     water_properties(spec, props, T0)
     if not _explicit(spec, props, "warm_water", "density", "g/mL"):
         _water_density(props, "warm_water.density", spec.get("warm_water", "temperature").m_as("K"))
 
 
-def solution_properties(spec: RunSpec, props: Properties, T0: float) -> None:
+def reaction_solution_properties(spec: RunSpec, props: RunProperties, T0: float) -> None:
     """A solution of unstated composition: its density (else water's, with a warning)."""
     if not _explicit(spec, props, "solution", "density", "g/mL"):
         _water_density(props, "solution.density", T0)
@@ -103,7 +103,7 @@ def solution_properties(spec: RunSpec, props: Properties, T0: float) -> None:
         )
 
 
-def stock_properties(spec: RunSpec, props: Properties, T0: float) -> None:
+def stock_properties(spec: RunSpec, props: RunProperties, T0: float) -> None:
     """An acid stock in the cup and a base stock poured in: each one's density at its own temperature."""
     for sec in ("acid", "base"):
         if not _explicit(spec, props, sec, "density", "g/mL"):
@@ -133,7 +133,7 @@ def _stock_density(pm: Any, spec: RunSpec, sec: str, T: float) -> Any:
 _CATIONS = {"NaOH": "Na", "KOH": "K", "LiOH": "Li", "Ba(OH)2": "Ba", "Ca(OH)2": "Ca"}
 
 
-def final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
+def final_composition(spec: RunSpec, props: RunProperties) -> tuple[dict[str, float], float]:
     """Return the solutes (formula → g) and water mass (g) of the final solution (none: water alone)."""
     composition = get_kind(spec.kind).hook("composition")
     return composition(spec, props) if composition is not None else ({}, 0.0)
@@ -142,14 +142,14 @@ def final_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float
 # ------------------------------------------------------------------ the kinds' ``composition`` hooks
 
 
-def dissolution_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
+def dissolution_composition(spec: RunSpec, props: RunProperties) -> tuple[dict[str, float], float]:
     """The solute weighed in and the water in the cup."""
     rho = props.values["water.density"][0]
     water_g = spec.get("water", "volume").m_as("mL") * rho
     return {spec.get("solute", "formula"): spec.get("solute", "mass").m_as("g")}, water_g
 
 
-def reaction_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
+def reaction_composition(spec: RunSpec, props: RunProperties) -> tuple[dict[str, float], float]:
     """The solute, when the run file names one, in the solution; else unknown (water alone)."""
     sol = spec.sections.get("solute")
     if sol is None:
@@ -158,7 +158,7 @@ def reaction_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, fl
     return {sol["formula"]: sol["mass"].m_as("g")}, spec.get("solution", "volume").m_as("mL") * rho
 
 
-def neutralization_composition(spec: RunSpec, props: Properties) -> tuple[dict[str, float], float]:
+def neutralization_composition(spec: RunSpec, props: RunProperties) -> tuple[dict[str, float], float]:
     """The salt formed and the excess acid or base (a strong acid and a known base), else the two stocks."""
     from calc.refdata.formula import molar_mass
 

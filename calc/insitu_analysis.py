@@ -20,7 +20,7 @@ from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
 from calc.refdata.formula import molar_mass
 from calc.uncertainty.gum import Input
-from calc.uncertainty.measurement_models import ModelSpec, Properties
+from calc.uncertainty.measurement_models import ModelSpec, RunProperties
 
 __all__ = ["build_insitu_model", "dissolution_delta_t", "analyze_insitu"]
 
@@ -61,7 +61,7 @@ def _insitu_inputs(spec: RunSpec, fit: SharedFit) -> list[Input]:
     return inputs
 
 
-def build_insitu_model(spec: RunSpec, fit: SharedFit, props: Properties) -> ModelSpec:
+def build_insitu_model(spec: RunSpec, fit: SharedFit, props: RunProperties) -> ModelSpec:
     """Return the inputs and model: C from the heater pulse(s), ΔH = −C ΔT_dissolution / n."""
     names = [e.name for e in fit.events]
     chol = np.linalg.cholesky(fit.cov_delta_t + np.eye(len(names)) * 1e-18)
@@ -159,7 +159,7 @@ def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, mon
         if ev.name != "dissolution" and not value > 0:
             raise AnalysisError(f"{readings.source}: the {ev.name.replace('_', ' ')} pulse at {ev.start:g} s gave no "
                                 "temperature rise; check its start time and duration")
-    props = Properties()
+    props = RunProperties()
     water_density = spec.get("water", "density")
     if water_density is not None:
         props.add("water.density", water_density.m_as("g/mL"), water_density.u_as("g/mL"), "g/mL", "run file")

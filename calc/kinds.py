@@ -16,6 +16,9 @@ any layer, and the layer that calls it is the one that imports it):
     ``(spec) -> list[str]``, the kind's own warnings (:mod:`calc.run_warnings`).
 ``analyze``
     replaces the whole single-event analysis (the in-situ kind, :mod:`calc.insitu_analysis`).
+``reference``
+    ``(formula=, acid=, base=, equation=) -> ReferenceValue | None``, the published value a result is
+    compared with (:mod:`calc.refdata.reference`).
 ``plan_sections``
     ``(p, amount, measured, T0, u_read) -> (sections, substances)``, the planned amounts
     (:mod:`calc.plan_kinds`); a kind without it cannot be planned.
@@ -113,6 +116,7 @@ _RW = "calc.run_warnings"
 _PK = "calc.plan_kinds"
 _SK = "calc.simulation.kinds"
 _SC = "calc.simulation.scenarios"
+_RF = "calc.refdata.reference"
 
 _HEATER_CAUTION = "mains-free low-voltage supply only; keep the heater immersed while it is on"
 
@@ -123,7 +127,8 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType({k.name: k for k in (
         plan_scaled=(("solute", "mass"),), release_s=60.0,
         hooks={"model": f"{_MM}:dissolution_model", "properties": f"{_CO}:water_properties",
                "composition": f"{_CO}:dissolution_composition", "warnings": f"{_RW}:dissolution_warnings",
-               "plan_sections": f"{_PK}:dissolution_sections", "simulate": f"{_SK}:simulate_dissolution",
+               "reference": f"{_RF}:dissolution_lookup", "plan_sections": f"{_PK}:dissolution_sections",
+               "simulate": f"{_SK}:simulate_dissolution",
                "scenario": f"{_SC}:draw_dissolution"}),
     RunKind(
         "neutralization", "Neutralization", "A base poured into an acid: ΔH per mole of water formed.",
@@ -131,7 +136,8 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType({k.name: k for k in (
         plan_scaled=(("acid", "concentration"), ("base", "concentration")), release_s=5.0,
         hooks={"model": f"{_MM}:neutralization_model", "properties": f"{_CO}:stock_properties",
                "composition": f"{_CO}:neutralization_composition", "warnings": f"{_RW}:neutralization_warnings",
-               "plan_sections": f"{_PK}:neutralization_sections", "simulate": f"{_SK}:simulate_neutralization",
+               "reference": f"{_RF}:neutralization_lookup", "plan_sections": f"{_PK}:neutralization_sections",
+               "simulate": f"{_SK}:simulate_neutralization",
                "scenario": f"{_SC}:draw_neutralization"}),
     RunKind(
         # the heater's energy spreads over its time on
@@ -155,8 +161,9 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType({k.name: k for k in (
         "reaction", "Reaction", "A reaction in solution: ΔH per mole of reaction as written.",
         ("calorimeter", "thermometer", "solution", "reaction"), "molar_enthalpy", "kJ/mol",
         plan_scaled=(("reaction", "mass"),), release_s=60.0,
-        hooks={"model": f"{_MM}:reaction_model", "properties": f"{_CO}:solution_properties",
-               "composition": f"{_CO}:reaction_composition", "plan_sections": f"{_PK}:reaction_sections",
+        hooks={"model": f"{_MM}:reaction_model", "properties": f"{_CO}:reaction_solution_properties",
+               "composition": f"{_CO}:reaction_composition", "reference": f"{_RF}:reaction_lookup",
+               "plan_sections": f"{_PK}:reaction_sections",
                "simulate": f"{_SK}:simulate_reaction", "scenario": f"{_SC}:draw_reaction"}),
     RunKind(
         "dissolution-with-calibration", "Dissolution with in-situ calibration",

@@ -49,7 +49,7 @@ from calc.plan_design import (AFTER_ADVISED_S, HOT_RISE_K, Design, Thermo, evalu
                               timing)
 from calc.plan_kinds import PLAN_KINDS, build_sections
 from calc.uncertainty.gum import BudgetLine, GumResult, propagate
-from calc.uncertainty.measurement_models import Properties
+from calc.uncertainty.measurement_models import RunProperties
 
 __all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
            "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
@@ -149,7 +149,7 @@ class Plan:
     suggestion: Suggestion | None
     warnings: list[str]
     cautions: list[Any]
-    properties: Properties
+    properties: RunProperties
     run_file: str
     timing: dict[str, float] = field(default_factory=dict)
 

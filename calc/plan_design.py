@@ -26,7 +26,7 @@ from calc.kinds import get_kind
 from calc.plan_kinds import PLAN_KINDS, solve_delta_t
 from calc.run_warnings import kind_warnings
 from calc.uncertainty.gum import GumResult
-from calc.uncertainty.measurement_models import ModelSpec, Properties, build_model
+from calc.uncertainty.measurement_models import ModelSpec, RunProperties, build_model
 
 __all__ = ["Thermo", "Design", "Evaluation", "timing", "reading_sd", "planned_delta_t", "evaluate",
            "plan_warnings", "HOT_RISE_K", "AFTER_ADVISED_S"]
@@ -153,7 +153,7 @@ class Design:
         return spec
 
 
-Evaluation = NamedTuple("Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", Properties),
+Evaluation = NamedTuple("Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", RunProperties),
                                           ("model", ModelSpec), ("expected", float), ("note", str)])
 
 

@@ -1,9 +1,9 @@
 """The planned amounts of each run kind, as run-file sections for :func:`calc.plan.plan_run`.
 
-One entry per kind: which sections the plan writes, which amount the suggestion scales to
-bring |ΔT| into the useful window, whether a second solution is poured in, and what the
-expected result is (a reference enthalpy, a given ΔH, or, for a calibration, the heat
-capacity the calorimeter is expected to have).
+Each plannable kind's ``plan_sections`` hook (:mod:`calc.kinds`) is here: which sections the plan
+writes from the planner's parameters. :data:`PLAN_KINDS` is the registry as the planner sees it:
+which amount the suggestion scales to bring |ΔT| into the useful window, whether a second
+solution is poured in, the typical release time and the main output.
 """
 
 from __future__ import annotations
@@ -15,9 +15,7 @@ from typing import Any
 
 from calc.errors import InputError
 from calc.io.quantities import Measured
-from calc.kinds import calibration_kinds, get_kind, plannable_kinds
-
-CALIBRATION_KINDS = calibration_kinds()
+from calc.kinds import get_kind, plannable_kinds
 
 
 @dataclass(frozen=True)

@@ -16,7 +16,7 @@ from calc.deltat.periods import Periods
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
 from calc.uncertainty.gum import GumResult, MonteCarloResult
-from calc.uncertainty.measurement_models import ModelSpec, Properties
+from calc.uncertainty.measurement_models import ModelSpec, RunProperties
 
 __all__ = ["Analysis", "OUTPUT_UNITS"]
 
@@ -39,7 +39,7 @@ class Analysis:
     delta_t: DeltaT
     model: ModelSpec
     gum: GumResult
-    properties: Properties
+    properties: RunProperties
     monte_carlo: MonteCarloResult | None = None
     warnings: list[str] = field(default_factory=list)
     comparison: Any = None

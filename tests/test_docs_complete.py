@@ -4,8 +4,8 @@
   pyproject.toml) has a row of its own in README.md's command table;
 * every ΔT method of ``calc.METHODS`` has a paragraph starting "Method `name`" in docs/methods.md;
 * every setting of the notebook (``webapp.DEFAULTS``, and any key the code reads with a default of its
-  own, ``config.get("KEY", default)``) and every ``CUPCAL_*`` environment variable that calc or webapp
-  reads is named in webapp/README.md or README.md; the ones only the tests and benchmarks read are named
+  own, ``config.get("KEY", default)``) has a row in webapp/README.md's "Settings" table, and every
+  ``CUPCAL_*`` environment variable that calc or webapp reads is named in webapp/README.md or README.md; the ones only the tests and benchmarks read are named
   in DEVELOPERS.md, README.md or webapp/README.md.
 
 The code is read as text (``ast``), so the check needs neither flask nor a database.
@@ -163,13 +163,24 @@ def test_the_readers_find_what_they_look_for():
     assert settings_read_with_a_default(tree) == {"PLOT_BYTES"}
 
 
-def test_every_setting_of_the_notebook_is_documented():
+def settings_table(text: str) -> set[str]:
+    """Return the names in the first cells of the table under webapp/README.md's "## Settings"."""
+    section = text.split("\n## Settings\n", 1)[1].split("\n## ", 1)[0] if "\n## Settings\n" in text else ""
+    return {name for line in section.splitlines() if line.startswith("| `")
+            for name in re.findall(r"`([A-Z][A-Z0-9_]+)`", line.split(" | ")[0])}
+
+
+def test_the_settings_table_is_read():
+    text = "x\n## Settings\n| setting | default |\n|---|---|\n| `A_B`, `CC` | 1 `DD` |\n\n## Next\n| `EE` | 2 |\n"
+    assert settings_table(text) == {"A_B", "CC"}
+
+
+def test_every_setting_of_the_notebook_has_a_row():
     trees = [tree for _, tree in _python_files("webapp")]
     settings = default_settings().union(*(settings_read_with_a_default(t) for t in trees))
     assert {"LIVE_STREAM_SECONDS", "DATABASE_URL", "LIMITS"} <= settings
-    docs = _text(WEB_README, README)
-    missing = sorted(s for s in settings if not _named(s, docs))
-    assert missing == [], "settings named in neither webapp/README.md nor README.md: " + ", ".join(missing)
+    missing = sorted(settings - settings_table(_text(WEB_README)))
+    assert missing == [], "settings without a row in webapp/README.md's Settings table: " + ", ".join(missing)
 
 
 def test_every_environment_variable_is_documented():
@@ -186,3 +197,16 @@ def test_every_environment_switch_of_the_tests_is_documented():
     docs = _text(WEB_README, README, DEVELOPERS)
     missing = sorted(n for n in used if not _named(n, docs))
     assert missing == [], "CUPCAL_* variables of the tests not named in DEVELOPERS.md or the READMEs: " + ", ".join(missing)
+
+
+# ------------------------------------------------------------------------------ package guides
+
+
+def test_the_statistics_package_says_what_each_module_is_for():
+    import calc.statistics
+
+    modules = sorted(p.stem for p in (ROOT / "calc" / "statistics").glob("*.py") if p.stem != "__init__")
+    lines = (calc.statistics.__doc__ or "").splitlines()
+    assert len(modules) >= 4
+    missing = [m for m in modules if not any(line.startswith(f"- ``{m}``: ") for line in lines)]
+    assert missing == [], "modules of calc/statistics without their line in the package docstring: " + ", ".join(missing)

@@ -10,6 +10,7 @@ from typing import Any
 import click
 
 from calc.errors import CupcalError, InputError
+from calc.kinds import plannable_kinds
 
 __all__ = ["plan_command", "plan_record", "format_plan"]
 
@@ -159,8 +160,7 @@ def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) ->
 
 
 @click.command("plan")
-@click.argument("kind", type=click.Choice(["dissolution", "neutralization", "electrical-calibration",
-                                           "mixing-calibration", "reaction"]))
+@click.argument("kind", type=click.Choice(list(plannable_kinds())))
 @click.option("--formula", help="Solute to dissolve, e.g. KCl (dissolution); the limiting reagent, e.g. Mg (reaction).")
 @click.option("--mass", help='Mass of solute or limiting reagent, e.g. "3.00 g" (dissolution, reaction).')
 @click.option("--water", help='Water (or solution) in the cup, e.g. "100.0 mL" (all kinds but neutralization).')

@@ -35,12 +35,12 @@ from calc.errors import InputError
 from calc.refdata import laliberte
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
 from calc.refdata.water import (GRID_FILE, GRID_NODES, IAPWS_MODEL, R_GAS, T_MAX_K, T_MIN_K,  # noqa: F401
-                                U_REL_WATER_CP, U_REL_WATER_DENSITY, PropertyValue, _check_T, _iapws_direct,
+                                U_REL_WATER_CP, U_REL_WATER_DENSITY, ModelledProperty, _check_T, _iapws_direct,
                                 debye_huckel_slopes, water_density, water_dielectric_constant,
                                 water_specific_heat)
 
 __all__ = [
-    "PropertyValue",
+    "ModelledProperty",
     "water_density",
     "water_specific_heat",
     "water_dielectric_constant",
@@ -103,10 +103,10 @@ def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],
 
 
 def _fallback(
-    water: PropertyValue, w_total: float, half_width: float, reason: str
-) -> PropertyValue:
+    water: ModelledProperty, w_total: float, half_width: float, reason: str
+) -> ModelledProperty:
     u_extra = water.value * half_width * w_total / math.sqrt(3.0)
-    return PropertyValue(
+    return ModelledProperty(
         water.value,
         math.hypot(water.u, u_extra),
         water.unit,
@@ -116,7 +116,7 @@ def _fallback(
 
 def solution_properties(
     solutes: dict[str, float], water_mass_g: float, T_K: float
-) -> tuple[PropertyValue, PropertyValue]:
+) -> tuple[ModelledProperty, ModelledProperty]:
     """Return the density (g/mL) and specific heat capacity (J/(g K)) of a solution.
 
     Parameters
@@ -131,7 +131,7 @@ def solution_properties(
 
     Returns
     -------
-    tuple of PropertyValue
+    tuple of ModelledProperty
         (density, specific heat). Each records the model used: Laliberté when the table
         covers every solute within its fitted range, else the water fallback with an
         extra uncertainty ``1.25 w/sqrt(3)`` (density) or ``1.75 w/sqrt(3)`` (c_p)
@@ -157,15 +157,15 @@ def solution_properties(
             _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP))
 
 
-def _solution_value(quantity: str, model: tuple, u_rel: float, water: PropertyValue,
-                    half_width: float) -> PropertyValue:
+def _solution_value(quantity: str, model: tuple, u_rel: float, water: ModelledProperty,
+                    half_width: float) -> ModelledProperty:
     """Return Laliberté's ``quantity`` (kg/m³ or J/(kg K), given in g/mL or J/(g K)), or the water fallback."""
     T, w_solutes, fractions, rows = model
     value, why = _laliberte_value(quantity, T, w_solutes, fractions, rows)
     if why is not None:
         return _fallback(water, w_solutes, half_width, why)
     value /= 1000.0
-    return PropertyValue(value, u_rel * value, water.unit, LALIBERTE_MODEL)
+    return ModelledProperty(value, u_rel * value, water.unit, LALIBERTE_MODEL)
 
 
 def _anhydrous(solutes: dict[str, float], water_mass_g: float) -> tuple[float, dict[str, float]]:

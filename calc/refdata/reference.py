@@ -20,6 +20,7 @@ from importlib import resources
 
 from calc.refdata.dilution import PhiL, phi_L
 from calc.errors import InputError
+from calc.kinds import REGISTRY
 from calc.refdata.hess import citation, formation_enthalpy, hess
 from calc.refdata.formula import element_composition, molar_mass
 from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
@@ -337,8 +338,9 @@ def find_reference(
     Parameters
     ----------
     kind:
-        Run kind: ``"dissolution"``, ``"neutralization"``, ``"reaction"`` (the two
-        calibration kinds have no reference and give None).
+        Run kind (:mod:`calc.kinds`): its ``reference`` hook looks the value up
+        (``"dissolution"``, ``"neutralization"``, ``"reaction"``); a kind without one
+        (the calibrations) or an unknown kind gives None.
     formula, acid, base, equation:
         What the run dissolved, neutralized or reacted.
     name:
@@ -351,30 +353,35 @@ def find_reference(
     """
     if name:
         return _by_name(name)
-    if kind == "dissolution" and formula:
-        return solution_enthalpy(formula)
-    if kind == "neutralization" and acid and base:
-        return neutralization_reference(acid, base)
-    if kind == "reaction":
-        if formula:
-            for ref, k, _ in _certified():
-                if k == "reaction" and ref.formula and _safe_same(formula, ref.formula):
-                    return ref
-        if equation:
-            r = hess(equation)
-            return ReferenceValue(
-                name=f"reaction {r.equation}",
-                quantity="standard reaction enthalpy (Hess's law)",
-                value=r.value,
-                u=r.u,
-                unit="kJ/mol",
-                temperature_K=T_REF_K,
-                molality=None,
-                source=r.source,
-                delta_cp=r.delta_cp,
-                delta_cp_u=r.delta_cp_u,
-                note="; ".join(r.notes),
-            )
+    entry = REGISTRY.get(kind)
+    lookup = entry.hook("reference") if entry is not None else None
+    return lookup(formula=formula, acid=acid, base=base, equation=equation) if lookup is not None else None
+
+
+# ------------------------------------------------------------------ the kinds' ``reference`` hooks
+
+
+def dissolution_lookup(*, formula: str | None, **_: str | None) -> ReferenceValue | None:
+    """The tabulated enthalpy of solution of ``formula``."""
+    return solution_enthalpy(formula) if formula else None
+
+
+def neutralization_lookup(*, acid: str | None, base: str | None, **_: str | None) -> ReferenceValue | None:
+    """The enthalpy of neutralization of ``acid`` by ``base``."""
+    return neutralization_reference(acid, base) if acid and base else None
+
+
+def reaction_lookup(*, formula: str | None, equation: str | None, **_: str | None) -> ReferenceValue | None:
+    """A certified reaction of ``formula`` (THAM), else the Hess's-law value of ``equation``."""
+    if formula:
+        for ref, k, _k in _certified():
+            if k == "reaction" and ref.formula and _safe_same(formula, ref.formula):
+                return ref
+    if equation:
+        r = hess(equation)
+        return ReferenceValue(name=f"reaction {r.equation}", quantity="standard reaction enthalpy (Hess's law)",
+                              value=r.value, u=r.u, unit="kJ/mol", temperature_K=T_REF_K, molality=None,
+                              source=r.source, delta_cp=r.delta_cp, delta_cp_u=r.delta_cp_u, note="; ".join(r.notes))
     return None
 
 

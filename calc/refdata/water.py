@@ -28,7 +28,7 @@ from functools import lru_cache
 
 from calc.errors import InputError
 
-__all__ = ["PropertyValue", "water_density", "water_specific_heat", "water_dielectric_constant",
+__all__ = ["ModelledProperty", "water_density", "water_specific_heat", "water_dielectric_constant",
            "debye_huckel_slopes", "T_MIN_K", "T_MAX_K", "R_GAS", "GRID_FILE", "GRID_NODES", "write_grid"]
 
 IAPWS_MODEL = "IAPWS-95 (iapws package)"
@@ -43,8 +43,9 @@ U_REL_WATER_CP = 1e-3
 
 
 @dataclass(frozen=True)
-class PropertyValue:
-    """A property value with its standard uncertainty, unit and the model that gave it."""
+class ModelledProperty:
+    """One property (a density or a specific heat capacity) as a named model gives it (IAPWS-95,
+    Laliberté, the water fallback), with its standard uncertainty and unit."""
 
     value: float
     u: float
@@ -155,43 +156,18 @@ def _check_T(T_K: float, what: str = "temperature") -> float:
     return T
 
 
-def water_density(T_K: float) -> PropertyValue:
-    """Return the density of liquid water at T_K and 0.101325 MPa (IAPWS-95), in g/mL.
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    PropertyValue
-        Value in g/mL with a standard uncertainty of 1e-6 relative.
-
-    Raises
-    ------
-    InputError
-        If the temperature is out of range.
-    """
+def water_density(T_K: float) -> ModelledProperty:
+    """Return the density of liquid water at ``T_K`` (273.15 K to 363.15 K, else :class:`InputError`) and
+    0.101325 MPa from IAPWS-95, in g/mL, with a standard uncertainty of 1e-6 relative."""
     rho = _WATER.values(_check_T(T_K))[0]
-    return PropertyValue(rho, U_REL_WATER_DENSITY * rho, "g/mL", IAPWS_MODEL)
+    return ModelledProperty(rho, U_REL_WATER_DENSITY * rho, "g/mL", IAPWS_MODEL)
 
 
-def water_specific_heat(T_K: float) -> PropertyValue:
-    """Return the isobaric specific heat capacity of liquid water (IAPWS-95), in J/(g K).
-
-    Parameters
-    ----------
-    T_K:
-        Temperature in kelvin, 273.15 K to 363.15 K.
-
-    Returns
-    -------
-    PropertyValue
-        Value in J/(g*K) with a standard uncertainty of 1e-3 relative.
-    """
+def water_specific_heat(T_K: float) -> ModelledProperty:
+    """Return the isobaric specific heat capacity of liquid water at ``T_K`` (273.15 K to 363.15 K, else
+    :class:`InputError`) from IAPWS-95, in J/(g K), with a standard uncertainty of 1e-3 relative."""
     cp = _WATER.values(_check_T(T_K))[1]
-    return PropertyValue(cp, U_REL_WATER_CP * cp, "J/(g*K)", IAPWS_MODEL)
+    return ModelledProperty(cp, U_REL_WATER_CP * cp, "J/(g*K)", IAPWS_MODEL)
 
 
 @lru_cache(maxsize=256)

@@ -24,7 +24,7 @@ from calc.refdata.formula import molar_mass
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
 
-__all__ = ["ModelSpec", "Properties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
+__all__ = ["ModelSpec", "RunProperties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
            "mixing_model", "reaction_model", "EQUIVALENTS"]
 
 #: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).
@@ -35,8 +35,10 @@ EQUIVALENTS: dict[str, int] = {
 
 
 @dataclass
-class Properties:
-    """Property values used by a model, each with where it came from."""
+class RunProperties:
+    """The property values one run's measurement model uses (densities and heat capacities of the water,
+    warm water, solution or stock), each with its standard uncertainty, unit and source, and the warnings
+    raised finding them; one bundle per run (:func:`calc.composition.resolve_properties`)."""
 
     values: dict[str, tuple[float, float, str, str]] = field(default_factory=dict)  # name -> (value, u, unit, source)
     warnings: list[str] = field(default_factory=list)
@@ -70,7 +72,7 @@ def _t(name: str, m: Measured, label: str) -> Input:
     return Input(name, m.m_as("K"), m.u_as("K"), "K", dist, label=label)
 
 
-def _prop(name: str, props: Properties, label: str) -> Input:
+def _prop(name: str, props: RunProperties, label: str) -> Input:
     v, u, unit, source = props.values[name]
     return Input(name, v, u, unit, "normal", label=f"{label} [{source}]")
 
@@ -112,7 +114,7 @@ def _cal_input(spec: RunSpec) -> Input:
 # ---------------------------------------------------------------- builders
 
 
-def dissolution_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def dissolution_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     formula = spec.get("solute", "formula")
     M = molar_mass(formula, field="solute.formula", source=spec.source)
     purity = spec.get("solute", "purity")
@@ -161,7 +163,7 @@ def _equivalents(spec: RunSpec, section: str) -> int:
     )
 
 
-def neutralization_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     eq_a = _equivalents(spec, "acid")
     eq_b = _equivalents(spec, "base")
     inputs = [
@@ -206,7 +208,7 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelS
     )
 
 
-def electrical_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def electrical_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     inputs = [
         _q("heater.voltage", spec.get("heater", "voltage"), "V", "heater voltage"),
         _q("heater.current", spec.get("heater", "current"), "A", "heater current"),
@@ -227,7 +229,7 @@ def electrical_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-def mixing_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     inputs = [
         _q("water.volume", spec.get("water", "volume"), "mL", "cool water volume"),
         _prop("water.density", props, "cool water density"),
@@ -255,7 +257,7 @@ def mixing_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-def reaction_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     r = spec.sections["reaction"]
     nu = int(r.get("coefficient", 1))
     solute = spec.sections.get("solute")
@@ -290,7 +292,7 @@ def reaction_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
                      reference_temperature=dt.start_temperature)
 
 
-def build_model(spec: RunSpec, dt: DeltaT, props: Properties) -> ModelSpec:
+def build_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     """Return the measurement model of ``spec``'s kind (its ``model`` hook in :mod:`calc.kinds`)."""
     builder = get_kind(spec.kind).hook("model")
     if builder is None:

@@ -16,13 +16,13 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
-import psutil
 import requests
 
 from tests.benchmarks.load_test import FAST_HASH
 from tests.benchmarks.load_test import GUNICORN
 from tests.benchmarks.load_test import REPO
 from tests.benchmarks.load_test import free_port
+from tests.benchmarks.load_test import served
 from webapp.serving import GTHREAD_THREADS
 
 PASSWORD = "live bench password"
@@ -77,30 +77,8 @@ def gunicorn(url: str, workers: int, tmp: Path) -> Iterator[tuple[Any, str]]:
          "--bind", f"127.0.0.1:{port}", "--chdir", str(REPO), "--timeout", "120", "--error-logfile", str(log),
          "webapp:create_app()"], env=env, cwd=str(tmp), start_new_session=True)
     base = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.time() + 90
-        while True:
-            if proc.poll() is not None:
-                raise RuntimeError(f"gunicorn exited with {proc.returncode}:\n{log.read_text()[-3000:]}")
-            with contextlib.suppress(OSError):
-                with urllib.request.urlopen(base + "/auth/login", timeout=5) as r:
-                    if r.status == 200 and len(psutil.Process(proc.pid).children()) >= workers:
-                        break
-            if time.time() > deadline:
-                raise RuntimeError(f"gunicorn did not answer in 90 s:\n{log.read_text()[-3000:]}")
-            time.sleep(0.3)
+    with served(proc, log, base + "/auth/login", workers):
         yield proc, base
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(30)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait(10)
-        errors = [ln for ln in log.read_text(errors="replace").splitlines()
-                  if "[ERROR]" in ln or "Traceback" in ln or "WORKER TIMEOUT" in ln] if log.exists() else []
-        if errors:
-            print(f"gunicorn log ({log}) has {len(errors)} error lines, first: " + " | ".join(errors[:5]))
 
 
 def signed_in(base: str, email: str) -> requests.Session:

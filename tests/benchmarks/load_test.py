@@ -102,25 +102,38 @@ def fresh_database(kind: str, tmp: Path) -> Iterator[tuple[str, str, int | None]
         server.stop()
 
 
-def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
-    """Migrate and seed the database; return each client's (e-mail, token) and the Monte Carlo trials."""
+@contextlib.contextmanager
+def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
+    """Migrate the database at ``url``; yield (app, session, coordinator, technician), both people named
+    after ``who`` (``coord@<who>.example``); close the session and the engine afterwards."""
     from webapp import create_app
     from webapp.db import get_engine
     from webapp.db import new_session
     from webapp.migrate import upgrade
-    from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
     from webapp.services.people import create_person
-    from webapp.services.people import issue_token
 
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "seed"})
     s = new_session(app)
     try:
-        coord = create_person(s, email="coord@load.example", name="Coordinator Load", role="coordinator",
+        coord = create_person(s, email=f"coord@{who}.example", name=f"Coordinator {who.title()}", role="coordinator",
                               password=PASSWORD, password_method=FAST_HASH)
-        create_person(s, email="tech@load.example", name="Technician Load", role="technician",
-                      password=PASSWORD, password_method=FAST_HASH)
+        tech = create_person(s, email=f"tech@{who}.example", name=f"Technician {who.title()}", role="technician",
+                             password=PASSWORD, password_method=FAST_HASH)
+        yield app, s, coord, tech
+    finally:
+        s.close()
+        get_engine(app).dispose()
+
+
+def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
+    """Migrate and seed the database; return each client's (e-mail, token) and the Monte Carlo trials."""
+    from webapp.services.calorimeters import create_calorimeter
+    from webapp.services.people import create_group
+    from webapp.services.people import create_person
+    from webapp.services.people import issue_token
+
+    with seeded(url, "load") as (app, s, coord, _tech):
         create_calorimeter(s, coord, name=CALORIMETER, parts="two nested foam cups, lid")
         groups = [create_group(s, coord, name=f"Load group {g + 1}") for g in range((clients + 3) // 4)]
         out = []
@@ -130,9 +143,6 @@ def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
                               group=groups[i // 4], password_method=FAST_HASH)
             out.append((email, issue_token(s, p, "load test", scope="write")[1]))
         return out, int(app.config["MONTE_CARLO_TRIALS"])
-    finally:
-        s.close()
-        get_engine(app).dispose()
 
 
 def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, Any]:
@@ -204,21 +214,27 @@ def gunicorn(app_spec: str, env: dict[str, str], workers: int, tmp: Path, ready_
          "--error-logfile", str(log), app_spec],
         env={**os.environ, **env}, cwd=str(tmp), start_new_session=True,
     )
+    with served(proc, log, f"http://127.0.0.1:{port}{ready_path}", workers):
+        yield proc, port
+
+
+@contextlib.contextmanager
+def served(proc: subprocess.Popen, log: Path, ready_url: str, workers: int) -> Iterator[None]:
+    """Wait (90 s at most) until gunicorn ``proc`` answers ``ready_url`` with its ``workers`` up; when the
+    block ends, stop it and print the error lines of its ``log``."""
     try:
         deadline = time.time() + 90
         while True:
             if proc.poll() is not None:
                 raise RuntimeError(f"gunicorn exited with {proc.returncode}:\n{log.read_text()[-3000:]}")
-            try:
-                with urllib.request.urlopen(f"http://127.0.0.1:{port}{ready_path}", timeout=5) as r:
+            with contextlib.suppress(OSError):
+                with urllib.request.urlopen(ready_url, timeout=5) as r:
                     if r.status == 200 and len(psutil.Process(proc.pid).children()) >= workers:
                         break
-            except OSError:
-                pass
             if time.time() > deadline:
                 raise RuntimeError(f"gunicorn did not answer in 90 s:\n{log.read_text()[-3000:]}")
             time.sleep(0.3)
-        yield proc, port
+        yield
     finally:
         proc.terminate()
         try:

@@ -29,6 +29,7 @@ from tests.benchmarks.load_test import PASSWORD
 from tests.benchmarks.load_test import RESULTS
 from tests.benchmarks.load_test import fresh_database
 from tests.benchmarks.load_test import gunicorn
+from tests.benchmarks.load_test import seeded
 from tests.webapp.race_trials import DEMO
 from tests.webapp.race_trials import Tally
 from tests.webapp.race_trials import lock_vs_calibration
@@ -42,23 +43,12 @@ CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 
 def seed(url: str) -> tuple[dict[str, str], int, int]:
     """Migrate and seed: a coordinator, a technician, two students of one group (tokens), two cups."""
-    from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
-    from webapp.migrate import upgrade
     from webapp.services.calorimeters import create_calorimeter
     from webapp.services.people import create_group
     from webapp.services.people import create_person
     from webapp.services.people import issue_token
 
-    upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "seed"})
-    s = new_session(app)
-    try:
-        coord = create_person(s, email="coord@race.example", name="Coordinator Race", role="coordinator",
-                              password=PASSWORD, password_method=FAST_HASH)
-        tech = create_person(s, email="tech@race.example", name="Technician Race", role="technician",
-                             password=PASSWORD, password_method=FAST_HASH)
+    with seeded(url, "race") as (_app, s, coord, tech):
         group = create_group(s, coord, name="Race group")
         a1 = create_person(s, email="a1@race.example", name="Student One", role="student", password=PASSWORD,
                            group=group, password_method=FAST_HASH)
@@ -70,9 +60,6 @@ def seed(url: str) -> tuple[dict[str, str], int, int]:
         tokens = {k: issue_token(s, p, "races", scope="write")[1]
                   for k, p in (("author", a1), ("peer", a2), ("other", coord), ("tech", tech))}
         return tokens, cup.id, other.id
-    finally:
-        s.close()
-        get_engine(app).dispose()
 
 
 def http_caller(port: int) -> Any:

@@ -12,50 +12,27 @@ import re
 import time
 from typing import Any
 
-import numpy as np
 import pytest
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
-from tests.benchmarks.webapp_bench import FAST
+from tests.benchmarks.classroom import class_notebook
+from tests.benchmarks.classroom import simulate_class
 from tests.benchmarks.webapp_bench import PeakRSS
 from tests.benchmarks.webapp_bench import time_ms
-from webapp import create_app
 from webapp.db import get_engine
-from webapp.db import new_session
-from webapp.migrate import upgrade
-from webapp.services.classes import import_roster
 from webapp.services.imports import files_from_folder
 from webapp.services.imports import import_files
-from webapp.services.people import create_person
 
 GROUPS, REPEATS = 300, 3
+
+
 @pytest.fixture(scope="module")
 def classroom(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Any]:
     d = tmp_path_factory.mktemp("class-scale")
     runs = d / "runs"
-    rng = np.random.default_rng(2024)
     t0 = time.perf_counter()
-    for g in range(GROUPS):
-        for k in range(REPEATS):
-            sim = simulate_dissolution(rng, solute_mass_g=float(rng.uniform(3.0, 4.5)), noise=0.003,
-                                       fore_s=240.0, after_s=600.0, dt=2.0, perturb_inputs=True,
-                                       resolution=float(rng.choice([0.001, 0.01])))
-            write_run(sim, runs, f"G{g:03d}-run{k + 1}")
+    simulate_class(runs, GROUPS, REPEATS, 2024, resolutions=(0.001, 0.01))
     print(f"\nsimulated {GROUPS * REPEATS} runs in {time.perf_counter() - t0:.1f} s (not timed below)")
-    url = f"sqlite:///{d / 'class.sqlite3'}"
-    upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
-    s = new_session(app)
-    coord = create_person(s, email="coord@bench.example", name="Coordinator", role="coordinator",
-                          password="benchmark password", password_method=FAST)
-    roster = "course,section,group,name,email,role\n" + "".join(
-        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS))
-    import_roster(s, coord, roster, password_method=FAST)
-    from webapp.models import Section
-    import sqlalchemy as sa
-
-    section_id = s.scalar(sa.select(Section.id))
+    app, s, coord, section_id = class_notebook(d / "class.sqlite3", GROUPS)
     yield {"app": app, "session": s, "coord": coord, "runs": runs, "section_id": section_id}
     s.close()
     get_engine(app).dispose()

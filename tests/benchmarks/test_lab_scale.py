@@ -11,60 +11,40 @@ from __future__ import annotations
 
 import re
 import time
+from pathlib import Path
 from typing import Any
 
-import numpy as np
 import pytest
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from tests.benchmarks.classroom import COORDINATOR
+from tests.benchmarks.classroom import class_notebook
+from tests.benchmarks.classroom import simulate_class
 from tests.benchmarks.webapp_bench import time_ms
-from webapp import create_app
 from webapp.db import get_engine
-from webapp.db import new_session
-from webapp.migrate import upgrade
-from webapp.services.classes import import_roster
 from webapp.services.imports import files_from_folder
 from webapp.services.imports import import_files
-from webapp.services.people import create_person
 
 GROUPS, REPEATS = int(__import__("os").environ.get("LAB_GROUPS", 80)), 3
-FAST = "scrypt:1024:8:1"
 TARGETS_MS = {"dashboard": 300.0, "export": 1000.0, "series": 200.0}
+
+
+def _name_the_sample(path: Path, group: int) -> None:
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text.replace("[info]\n", f'[info]\nsample = "LOT-{group:03d}"\n', 1), encoding="utf-8")
 
 
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory: pytest.TempPathFactory) -> Any:
     d = tmp_path_factory.mktemp("lab-scale")
     runs = d / "runs"
-    rng = np.random.default_rng(1313)
-    for g in range(GROUPS):
-        for k in range(REPEATS):
-            sim = simulate_dissolution(rng, solute_mass_g=float(rng.uniform(3.0, 4.5)), noise=0.003, fore_s=240.0,
-                                       after_s=600.0, dt=2.0, perturb_inputs=True, resolution=0.01)
-            path = write_run(sim, runs, f"G{g:03d}-run{k + 1}")
-            text = path.read_text(encoding="utf-8")
-            path.write_text(text.replace("[info]\n", f'[info]\nsample = "LOT-{g:03d}"\n', 1), encoding="utf-8")
-    url = f"sqlite:///{d / 'lab.sqlite3'}"
-    upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
-    s = new_session(app)
-    coord = create_person(s, email="coord@bench.example", name="Coordinator", role="coordinator",
-                          password="benchmark password", password_method=FAST)
-    roster = "course,section,group,name,email,role\n" + "".join(
-        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS))
-    import_roster(s, coord, roster, password_method=FAST)
-    import sqlalchemy as sa
-
-    from webapp.models import Section
-
-    section_id = s.scalar(sa.select(Section.id))
+    simulate_class(runs, GROUPS, REPEATS, 1313, edit=_name_the_sample)
+    app, s, coord, section_id = class_notebook(d / "lab.sqlite3", GROUPS)
     report = import_files(s, coord, section_id, files_from_folder(runs))
     assert report.count("stored") == GROUPS * REPEATS, report.summary
     client = app.test_client()
     page = client.get("/auth/login").get_data(as_text=True)
     csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
-    client.post("/auth/login", data={"email": "coord@bench.example", "password": "benchmark password",
+    client.post("/auth/login", data={"email": COORDINATOR[0], "password": COORDINATOR[1],
                                      "csrf_token": csrf})
     yield client, section_id
     s.close()

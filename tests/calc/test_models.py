@@ -8,7 +8,7 @@ import pytest
 
 from calc.deltat.base import DeltaT
 from calc.uncertainty.gum import propagate
-from calc.uncertainty.measurement_models import Properties, build_model
+from calc.uncertainty.measurement_models import RunProperties, build_model
 from calc.io.runfile import parse_run
 
 
@@ -41,7 +41,7 @@ specific_heat_capacity = "3.960 ± 0.010 J/(g*K)"
 
 def test_neutralization_heat_balance_by_hand():
     spec = parse_run(NEUT, source="n.toml")
-    props = Properties()
+    props = RunProperties()
     props.add("acid.density", 1.016, 0.001, "g/mL", "run file")
     props.add("base.density", 1.040, 0.001, "g/mL", "run file")
     props.add("mixture.specific_heat_capacity", 3.960, 0.010, "J/(g*K)", "run file")
@@ -80,7 +80,7 @@ specific_heat_capacity = "4.181 ± 0.002 J/(g*K)"
 
 def test_electrical_calibration_by_hand():
     spec = parse_run(ELEC, source="e.toml")
-    props = Properties()
+    props = RunProperties()
     props.add("water.density", 0.9978, 0.0002, "g/mL", "run file")
     props.add("mixture.specific_heat_capacity", 4.181, 0.002, "J/(g*K)", "run file")
     ms = build_model(spec, _dt(1.7200, 294.0), props)

@@ -22,7 +22,7 @@ from calc.refdata.properties import (
     GRID_NODES,
     T_MAX_K,
     T_MIN_K,
-    PropertyValue,
+    ModelledProperty,
     _laliberte_table,
     debye_huckel_slopes,
     solution_properties,
@@ -291,7 +291,7 @@ def test_bad_solution_input_is_an_input_error(solutes: dict, water: float) -> No
 
 
 def test_property_value_is_frozen() -> None:
-    v = PropertyValue(1.0, 0.1, "g/mL", "x")
+    v = ModelledProperty(1.0, 0.1, "g/mL", "x")
     with pytest.raises(AttributeError):
         v.value = 2.0  # type: ignore[misc]
 
