@@ -76,7 +76,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
 
     from webapp import auth
     from webapp import db
-    from webapp import errors
+    from webapp import error_handlers
     from webapp import security
     from webapp import templating
     from webapp.api import bp as api_bp
@@ -106,7 +106,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     db.init_app(app)
     auth.init_app(app)
     templating.init_app(app)
-    errors.init_app(app)
+    error_handlers.init_app(app)
     security.init_app(app)
     app.register_blueprint(auth.bp)
     app.register_blueprint(main_bp)

@@ -169,6 +169,9 @@ class CommandSource(Source):
                 self._process.wait(timeout=5)
             except subprocess.TimeoutExpired:
                 self._process.kill()
+        self._thread.join(timeout=5)  # the command has ended: its pipe gives end of file
+        if self._process.stdout is not None and not self._thread.is_alive():
+            self._process.stdout.close()  # else the pipe is closed only when collected (a ResourceWarning)
 
 
 class FollowSource(Source):

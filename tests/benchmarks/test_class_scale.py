@@ -9,45 +9,20 @@ peak memory ≤ 400 MB (RSS, psutil); dashboard for 900 runs ≤ 300 ms server t
 from __future__ import annotations
 
 import re
-import threading
 import time
 from typing import Any
 
-import psutil
 import pytest
 
 from tests.benchmarks.classroom import class_notebook
 from tests.benchmarks.classroom import simulate_class
+from tests.benchmarks.webapp_bench import PeakRSS
 from tests.benchmarks.webapp_bench import time_ms
 from webapp.db import get_engine
 from webapp.services.imports import files_from_folder
 from webapp.services.imports import import_files
 
 GROUPS, REPEATS = 300, 3
-
-
-class PeakRSS:
-    """Sample this process's resident memory every 20 ms in a thread; ``peak`` in bytes."""
-
-    def __init__(self) -> None:
-        self.proc = psutil.Process()
-        self.peak = self.proc.memory_info().rss
-        self._stop = threading.Event()
-        self._t = threading.Thread(target=self._run, daemon=True)
-
-    def _run(self) -> None:
-        while not self._stop.is_set():
-            self.peak = max(self.peak, self.proc.memory_info().rss)
-            time.sleep(0.02)
-
-    def __enter__(self) -> PeakRSS:
-        self._t.start()
-        return self
-
-    def __exit__(self, *exc: Any) -> None:
-        self._stop.set()
-        self._t.join()
-        self.peak = max(self.peak, self.proc.memory_info().rss)
 
 
 @pytest.fixture(scope="module")

@@ -23,13 +23,13 @@ import sqlalchemy as sa
 
 from calc.simulation.simulator import simulate_dissolution
 from calc.simulation.simulator import write_run
-from tests.benchmarks.test_class_scale import FAST
-from tests.benchmarks.test_class_scale import PeakRSS
+from tests.benchmarks.webapp_bench import FAST
+from tests.benchmarks.webapp_bench import PeakRSS
 from tests.webapp.eln_helpers import counts
 from tests.webapp.eln_helpers import demo_source
 from tests.webapp.eln_helpers import dispose
+from tests.webapp.eln_helpers import HOSTILE
 from tests.webapp.eln_helpers import snapshot
-from tests.webapp.test_eln import HOSTILE
 from webapp import create_app
 from webapp.db import new_session
 from webapp.migrate import upgrade

@@ -12,7 +12,7 @@ import time
 from collections import Counter
 from typing import Any
 
-from tests.calc.test_cli_fuzz import fuzz_cli
+from tests.calc.cli_fuzzing import fuzz_cli
 from tests.webapp.conftest import app  # noqa: F401  (fixtures: SQLite and PostgreSQL)
 from tests.webapp.conftest import database_url  # noqa: F401
 from tests.webapp.conftest import lab  # noqa: F401
@@ -20,7 +20,7 @@ from tests.webapp.conftest import pg_database  # noqa: F401
 from tests.webapp.conftest import pg_server  # noqa: F401
 from tests.webapp.conftest import session  # noqa: F401
 from tests.webapp.conftest import sqlite_template  # noqa: F401
-from tests.webapp.test_fuzz_requests import fuzz
+from tests.webapp.fuzzing import fuzz
 
 PER_DATABASE = 5000
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import io
 import re
 import statistics
+import threading
 import time
 from collections.abc import Callable
 from collections.abc import Iterator
@@ -12,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import psutil
 
 from calc.simulation.simulator import simulate_dissolution
 from calc.simulation.simulator import write_run
@@ -23,6 +25,31 @@ from webapp.services.people import create_person
 from webapp.services.people import issue_token
 
 PASSWORD = "benchmark password"
+FAST = "scrypt:1024:8:1"  # a quick password hash for benchmark accounts
+
+
+class PeakRSS:
+    """Sample this process's resident memory every 20 ms in a thread; ``peak`` in bytes."""
+
+    def __init__(self) -> None:
+        self.proc = psutil.Process()
+        self.peak = self.proc.memory_info().rss
+        self._stop = threading.Event()
+        self._t = threading.Thread(target=self._run, daemon=True)
+
+    def _run(self) -> None:
+        while not self._stop.is_set():
+            self.peak = max(self.peak, self.proc.memory_info().rss)
+            time.sleep(0.02)
+
+    def __enter__(self) -> PeakRSS:
+        self._t.start()
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self._stop.set()
+        self._t.join()
+        self.peak = max(self.peak, self.proc.memory_info().rss)
 
 
 def time_ms(fn: Callable[[], Any], n: int, before: Callable[[], None] | None = None) -> tuple[float, float]:

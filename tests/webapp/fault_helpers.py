@@ -131,8 +131,8 @@ def start_server(url: str, log: Path, workers: int = 2) -> tuple[subprocess.Pope
     port = free_port()
     cmd = [sys.executable, "-m", "gunicorn", "--workers", str(workers), "--bind", f"127.0.0.1:{port}",
            "--timeout", "120", "webapp:create_app()"]
-    fh = log.open("ab")
-    proc = subprocess.Popen(cmd, env=env_for(url), cwd=ROOT, stdout=fh, stderr=fh, start_new_session=True)
+    with log.open("ab") as fh:  # the server writes to its own copy of the descriptor; ours is closed at once
+        proc = subprocess.Popen(cmd, env=env_for(url), cwd=ROOT, stdout=fh, stderr=fh, start_new_session=True)
     base = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + 60
     try:

@@ -156,7 +156,8 @@ def test_cupcal_users_sets_passwords_and_makes_links(app: Any, session: Any, lab
     r = runner.invoke(cli, ["users", "links", "--section", str(section_id), "--csv", str(out),
                             "--base-url", "https://lab.example/cupcal"])
     assert r.exit_code == 0, r.output
-    rows = list(csv.DictReader(out.open(encoding="utf-8")))
+    with out.open(encoding="utf-8") as fh:
+        rows = list(csv.DictReader(fh))
     assert sorted(x["email"] for x in rows) == ["nell@lab.example", "oren@lab.example"]
     assert all(re.fullmatch(r"https://lab\.example/cupcal/auth/link/[\w-]+", x["link"]) for x in rows)
     secret = rows[0]["link"].rsplit("/", 1)[1]

@@ -152,4 +152,5 @@ def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_pa
         assert proc.wait(timeout=30) == 0
     finally:
         kill_group(proc)
+        log.close()
     assert "with 2 worker processes" in (tmp_path / "serve.log").read_text(errors="replace")

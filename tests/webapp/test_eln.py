@@ -28,6 +28,7 @@ from tests.webapp.eln_helpers import dispose
 from tests.webapp.eln_helpers import file_entity
 from tests.webapp.eln_helpers import snapshot
 from tests.webapp.eln_helpers import zip_of
+from tests.webapp.eln_helpers import HOSTILE
 from webapp.db import new_session
 from webapp.models import Calibration
 from webapp.models import Calorimeter
@@ -199,55 +200,6 @@ def test_other_notebooks_run_folders_become_runs_and_every_other_file_is_reporte
 
 
 # ----------------------------------------------------------------- hostile archives
-
-
-def _good_parts() -> tuple[dict[str, bytes], list[dict[str, Any]]]:
-    files = {"exp/run.toml": (DEMO / "diss-kcl-01.toml").read_bytes(),
-             "exp/diss-kcl-01.csv": (DEMO / "diss-kcl-01.csv").read_bytes()}
-    return files, [file_entity(p, d) for p, d in files.items()] + [
-        {"@id": "exp/", "@type": "Dataset", "name": "e", "hasPart": [{"@id": p} for p in files]}]
-
-
-def _archive(root: str = "a", *, meta: bytes | None = None, extra: list[tuple[str, bytes]] = (),
-             tamper: bytes | None = None, graph_extra: list[dict[str, Any]] = (), parts_extra: list[str] = ()) -> bytes:
-    files, graph = _good_parts()
-    if tamper is not None:
-        files["exp/diss-kcl-01.csv"] = tamper
-    meta = meta if meta is not None else crate(graph + list(graph_extra), ["exp/", *parts_extra])
-    return zip_of([(f"{root}/ro-crate-metadata.json", meta)] + [(f"{root}/{p}", d) for p, d in files.items()]
-                  + list(extra))
-
-
-def _bomb() -> bytes:
-    return _archive(extra=[("a/exp/zeros.bin", bytes(17 * 1024 * 1024))])
-
-
-HOSTILE = {
-    "not a zip": (lambda: b"PK\x03\x04 this is not really a zip", "not a zip archive"),
-    "two root folders": (lambda: _archive(extra=[("b/x.txt", b"x")]), "2 folders at the root"),
-    "a file beside the root folder": (lambda: _archive(extra=[("readme.txt", b"x")]), "sits beside the root folder"),
-    "a path leaving the root": (lambda: _archive(extra=[("a/../../etc/passwd", b"x")]), "leads out of the archive"),
-    "an absolute path": (lambda: _archive(extra=[("/etc/cron.d/x", b"x")]), "is an absolute path"),
-    "hasPart leaving the root": (lambda: _archive(parts_extra=["../outside.txt"]), "a path that leaves the root"),
-    "no metadata": (lambda: zip_of([("a/exp/run.toml", b"x")]), "no a/ro-crate-metadata.json"),
-    "metadata not JSON": (lambda: _archive(meta=b"{not json"), "is not JSON"),
-    "metadata not JSON-LD": (lambda: _archive(meta=json.dumps({"@context": CONTEXT_BAD, "@graph": []}).encode()),
-                             "is not valid JSON-LD"),
-    "an @id that is a number": (lambda: _archive(meta=json.dumps({
-        "@context": "https://w3id.org/ro/crate/1.1/context", "@graph": [{"@id": 5}]}).encode()), "is not valid JSON-LD"),
-    "no root dataset": (lambda: _archive(meta=json.dumps({"@context": "https://w3id.org/ro/crate/1.1/context",
-                                                          "@graph": [{"@id": "ro-crate-metadata.json",
-                                                                      "about": {"@id": "./"}}]}).encode()),
-                        "no root Dataset"),
-    "sha256 mismatch": (lambda: _archive(tamper=b"time_s,temperature_C\n0,20\n"), "does not match its bytes"),
-    "hasPart names a missing file": (lambda: _archive(parts_extra=["exp/ghost.csv"]), "which is not in the archive"),
-    "an entry twice": (lambda: _archive(extra=[("a/exp/run.toml", b"shadow")]), "is in the archive twice"),
-    "over the size limit (zip bomb)": (_bomb, "is it a zip bomb"),
-    "one file under two spellings": (lambda: _archive(extra=[("a/exp/./run.toml", b"shadow")]),
-                                     "two entries name the same file"),
-    "metadata nested too deeply": (lambda: _archive(meta=b"[" * 100_000 + b"]" * 100_000), "nested too deeply"),
-}
-CONTEXT_BAD = {"@vocab": 42}
 
 
 @pytest.mark.parametrize("case", sorted(HOSTILE))

@@ -69,9 +69,9 @@ def test_pages_api_and_static_files_carry_the_headers(client: Any, lab: Any) -> 
     assert missing.status_code == 404
     _assert_locked_down(missing)
     for name in ("style.css", "import-progress.js"):
-        r = client.get(f"/static/{name}")
-        assert r.status_code == 200, name
-        _assert_locked_down(r)
+        with client.get(f"/static/{name}") as r:  # a file response: closed here, not when collected
+            assert r.status_code == 200, name
+            _assert_locked_down(r)
 
 
 def test_embed_routes_keep_their_own_frame_policy(client: Any, lab: Any, app: Any) -> None:
@@ -130,9 +130,9 @@ def test_the_import_page_loads_its_script_from_static(client: Any, lab: Any, ses
     assert r.status_code == 200
     _assert_locked_down(r)
     assert '/static/import-progress.js"' in r.get_data(as_text=True)
-    js = client.get("/static/import-progress.js")
-    assert js.mimetype in ("text/javascript", "application/javascript")
-    assert b"import-progress" in js.data
+    with client.get("/static/import-progress.js") as js:
+        assert js.mimetype in ("text/javascript", "application/javascript")
+        assert b"import-progress" in js.data
 
 
 # ---------------------------------------------------------------- cookies

@@ -8,7 +8,7 @@ from flask import request
 from flask_login import current_user
 
 from webapp.db import get_session
-from webapp.errors import json_error
+from webapp.error_handlers import json_error
 from webapp.services.errors import Forbidden
 from webapp.services.tokens import token_for_secret
 

@@ -32,7 +32,7 @@ from webapp.services.webhook_guard import guard_from_config
 from webapp.services.errors import Invalid
 from webapp.services.errors import TooLarge
 from webapp.models import MAX_ID
-from webapp.services.packages import import_package
+from webapp.services.package_import import import_package
 from webapp.exports.bundle import export_selection_zip
 from webapp.exports.rocrate import crate_zip
 from webapp.services.runs import get_run

@@ -4,11 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from webapp.api.openapi import PATHS
-from webapp.api.openapi import _body
-from webapp.api.openapi import _id
-from webapp.api.openapi import _json
-from webapp.api.openapi import _op
+from webapp.api.openapi import register
+from webapp.api.openapi import request_body as _body
+from webapp.api.openapi import path_param as _id
+from webapp.api.openapi import json_response as _json
+from webapp.api.openapi import operation as _op
 
 _LIVE_ID = [_id("live_id")]
 _ADVICE = {"type": "object", "description": "the advisor's latest answer: phase, status (one plain line), "
@@ -63,4 +63,4 @@ LIVE_PATHS: dict[str, Any] = {
                          "The section's target"), 400, 401, 403, 404, params=[_id("section_id")], body=_TARGET)},
 }
 
-PATHS.update(LIVE_PATHS)
+register(LIVE_PATHS)

@@ -6,6 +6,7 @@ from flask_wtf import FlaskForm
 from calc.checks import CALORIMETER_TYPES
 from wtforms import BooleanField
 from wtforms import IntegerField
+from wtforms import SelectChoice
 from wtforms import SelectField
 from wtforms import StringField
 from wtforms import TextAreaField
@@ -21,7 +22,7 @@ class CalorimeterForm(FlaskForm):
     parts = TextAreaField("Parts", validators=[Length(max=2000)])
     location = StringField("Location", validators=[Length(max=200)])
     vessel_type = SelectField(
-        "Type", choices=[(key, value[3]) for key, value in CALORIMETER_TYPES.items()], default="foam-cups",
+        "Type", choices=[SelectChoice(key, value[3]) for key, value in CALORIMETER_TYPES.items()], default="foam-cups",
         description="what the calorimeter is: the plausible range of its heat capacity follows it")
     heat_capacity = StringField("Heat capacity (optional)", validators=[Length(max=100)],
                                 description='value ± standard uncertainty, e.g. "18.6 ± 2.0 J/K"')

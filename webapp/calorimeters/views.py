@@ -30,8 +30,8 @@ from webapp.services.calorimeters import get_calorimeter
 from webapp.services.calorimeters import update_calorimeter
 from webapp.services.control import set_interval
 from webapp.services.errors import ServiceError
-from webapp.services.pages import calorimeter_choices
-from webapp.services.pages import calorimeter_page
+from webapp.services.page_data import calorimeter_choices
+from webapp.services.page_data import calorimeter_page
 
 
 def _form_errors(form: Any) -> dict[str, str]:

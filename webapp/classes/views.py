@@ -11,6 +11,7 @@ from flask import request
 from flask import url_for
 from flask_login import current_user
 from flask_login import login_required
+from wtforms import SelectChoice
 
 from webapp.class_plots import control_chart_svg
 from webapp.class_plots import distribution_svg
@@ -157,7 +158,8 @@ def section(section_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     sec = get_section(session, current_user, section_id)
     form = BenchForm()
-    form.calorimeter_id.choices = [(0, "—")] + [(c.id, c.name) for c in session.scalars(calorimeters_query())]
+    form.calorimeter_id.choices = [SelectChoice(0, "—")] + [SelectChoice(c.id, c.name)
+                                                       for c in session.scalars(calorimeters_query())]
     status = 200
     if request.method == "POST":
         require_coordinator(current_user, "manage benches")  # after get_section: not-yours stays 404

@@ -48,8 +48,8 @@ from webapp.services.errors import Invalid
 from webapp.exports.document import FORMAT
 from webapp.exports.document import result_document
 from webapp.services.imports import content_hash
-from webapp.services.packages import _file
-from webapp.services.packages import _options
+from webapp.services.package_import import _file
+from webapp.services.package_import import _options
 from webapp.services.people import hash_password
 from webapp.services.runs import RunUpload
 from webapp.services.runs import _new_run

@@ -147,7 +147,7 @@ def test_kill_9_loses_at_most_the_last_reading_and_a_restart_resumes_the_log_and
                 wait_rows(out, before + 10)
                 killed_at = time.monotonic()
                 proc.send_signal(signal.SIGKILL)
-                proc.wait(timeout=10)
+                proc.communicate(timeout=10)  # waits, and closes its pipes (not left to the collector)
                 assert readings_lost(thermo, rows(out)[before:], killed_at) <= 1
             proc = start_recorder(out, port, *args, "--finish")
             wait_rows(out, len(rows(out)) + 20)
