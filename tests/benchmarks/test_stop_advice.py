@@ -150,7 +150,9 @@ def _table(reps: list[Replay]) -> None:
               f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}")
     unreach = [x for x in reps if x.outcome == "unreachable"]
     print(f"'cannot be reached' in {len(unreach)} runs; in {sum(x.u_fixed > x.target for x in unreach)} of them "
-          "the fixed 10-minute after period did not reach the target either")
+          "the fixed 10-minute after period did not reach the target either; truth in the final interval "
+          f"{_share([x.covered_stop for x in unreach])} at the stop, {_share([x.covered_fixed for x in unreach])} "
+          "with the fixed 10 minutes")
     fc = [(x.forecast_s, x.waited_s) for x in reps if x.forecast_s]
     if fc:
         ratio = [w / f for f, w in fc if f > 0]
