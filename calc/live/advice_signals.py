@@ -123,8 +123,12 @@ def find_change(t: np.ndarray, y: np.ndarray, q: float, given: float | None) -> 
     if np.count_nonzero(before) < MIN_WINDOW_POINTS or np.count_nonzero(after) < 3:
         return None
     line = fit_line(t[before], y[before])
-    off = np.abs(y[after][-3:] - (line.a + line.b * (t[after][-3:] - line.t_mean)))
-    if not np.all(off > max(6.0 * line.s, 3.0 * q)):
+    last_t, last_y = t[after][-3:], y[after][-3:]
+    off = np.abs(last_y - (line.a + line.b * (last_t - line.t_mean)))
+    # off by 6 SDs of a reading about the extrapolated line: its own scatter and the line's
+    # uncertainty there (inflated for correlated noise), so a short fore period's wander is no change
+    spread = np.sqrt(line.s**2 + np.array([line.var_at(float(x)) for x in last_t]))
+    if not np.all(off > np.maximum(6.0 * spread, 3.0 * q)):
         return None
     return float(t_m), float(u)
 

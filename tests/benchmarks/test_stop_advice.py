@@ -55,6 +55,7 @@ class Replay:
     outcome: str  # "stopped", "unreachable", "never", "error"
     final_u: float | None = None
     target: float | None = None
+    u_fixed: float | None = None  # U with the fixed 10-minute after period
     covered_stop: bool | None = None
     covered_fixed: bool | None = None
     saved_s: float | None = None
@@ -92,7 +93,8 @@ def _replay(i: int, folder) -> Replay:
     except CupcalError:
         return rep
     truth = _truth(sim)
-    rep.target = fixed.gum.expanded_uncertainty * float(rng.uniform(0.8, 1.6))
+    rep.u_fixed = fixed.gum.expanded_uncertainty
+    rep.target = rep.u_fixed * float(rng.uniform(0.8, 1.6))
     rep.covered_fixed = abs(fixed.gum.values[fixed.main] - truth) <= fixed.gum.expanded_uncertainty
     text = write_run(sim, folder, f"live{i}").read_text(encoding="utf-8")
     t, y = sim.time_s, sim.reading_C
@@ -146,6 +148,11 @@ def _table(reps: list[Replay]) -> None:
               f"{_share([x.final_u <= x.target for x in st]):>16s} {_share([x.covered_stop for x in st]):>16s} "
               f"{_share([x.covered_fixed for x in st]):>16s} "
               f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}")
+    unreach = [x for x in reps if x.outcome == "unreachable"]
+    print(f"'cannot be reached' in {len(unreach)} runs; in {sum(x.u_fixed > x.target for x in unreach)} of them "
+          "the fixed 10-minute after period did not reach the target either; truth in the final interval "
+          f"{_share([x.covered_stop for x in unreach])} at the stop, {_share([x.covered_fixed for x in unreach])} "
+          "with the fixed 10 minutes")
     fc = [(x.forecast_s, x.waited_s) for x in reps if x.forecast_s]
     if fc:
         ratio = [w / f for f, w in fc if f > 0]
