@@ -52,20 +52,20 @@ def test_a_save_without_the_token_saves_nothing(client: Any, lab: Any, session: 
 
 def test_two_saves_at_the_same_moment_make_one_run(app: Any, lab: Any, session: Any,
                                                    monkeypatch: pytest.MonkeyPatch) -> None:
-    from webapp.runs import new
+    from webapp.runs import create_views
 
     clients = [app.test_client(), app.test_client()]
     for c in clients:
         sign_in(c, "a1@lab.example")
     fields, extra, csv = _preview(clients[0], lab)
     barrier = threading.Barrier(2, timeout=30)
-    real = new.record_run
+    real = create_views.record_run
 
     def both_past_the_token_check(*args: Any, **kwargs: Any) -> Any:
         barrier.wait()  # both requests have looked for the token and found no run
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(new, "record_run", both_past_the_token_check)
+    monkeypatch.setattr(create_views, "record_run", both_past_the_token_check)
     answers: list[Any] = []
 
     def press(c: Any) -> None:

@@ -27,13 +27,13 @@ from webapp.plot_cache import run_plot
 from webapp.plot_cache import svg_response
 from webapp.quantities import main_value
 from webapp.runs.blueprint import bp
-from webapp.runs.forms import ReanalyseForm
+from webapp.runs.reanalyse_form import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Forbidden
 from webapp.services.errors import ServiceError
-from webapp.services.pages import result_of
-from webapp.services.pages import run_page
+from webapp.services.page_data import result_of
+from webapp.services.page_data import run_page
 from webapp.services.runs import get_run
 from webapp.services.runs import lock_run
 from webapp.services.runs import paginate

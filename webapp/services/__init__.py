@@ -37,7 +37,6 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``marks``: marking schemes, the marks they give, marks set by hand
 - ``package_import``: importing our own run packages (JSON export, RO-Crate zip) to the same numbers
 - ``page_data``: read-only data of the pages and the preview of an upload
-- ``pages``: old name of ``page_data``, kept for ``webapp/runs/`` until it imports ``page_data``
 - ``people``: people, groups, courses, API tokens, signing in
 - ``result_store``: making a new result a run's current one, audited
 - ``review``: withdraw, exclude, accept; which runs count
