@@ -20,6 +20,8 @@ What is tabulated, per salt, molality and temperature:
   25 °C of the Silvester & Pitzer (1978) first-derivative model (calc's earlier term; at 25 °C it is a
   genuine fit, away from 25 °C it lacks the heat-capacity term, so it is only used at 25 °C).
   Models whose parameters do not change with temperature give no enthalpy term and are skipped.
+  The half-width at a molality is never taken smaller than at any lower molality of the same
+  temperature (two models that cross agree there by accident, not because φ_L is known better).
 """
 
 from __future__ import annotations
@@ -112,7 +114,8 @@ def main() -> None:
         sp78, _, _ = _model(cat, ani, "SP78")  # (pytzer reloads in place: evaluate each model at once)
         i25 = int(np.argmin(np.abs(T_GRID - 298.15)))
         dev25 = np.abs(sp78(T_GRID[i25 : i25 + 1], m)[0] - ref[i25])
-        u = np.maximum(dev, dev25[None, :]) / math.sqrt(3.0)
+        # never smaller than at a lower molality: where two models cross they agree by accident
+        u = np.maximum.accumulate(np.maximum(dev, dev25[None, :]), axis=1) / math.sqrt(3.0)
         for i, T in enumerate(T_GRID):
             for j, mj in enumerate(s**2):
                 sr = 0.0 if mj == 0 else short[i, j]

@@ -21,6 +21,7 @@ from typing import NamedTuple
 import pytest
 
 from calc.errors import InputError
+from calc.refdata.dilution import WIDE_RANGE_MODEL
 from calc.refdata.hess import Species, formation_table, hess, parse_species
 from calc.refdata.reference import (
     certified_references,
@@ -345,14 +346,14 @@ def test_unknown_solute_has_no_reference() -> None:
 
 def test_srm_1655_reproduced_from_infinite_dilution_and_phi_L() -> None:
     # SRM 1655 (Kilday 1980, from memory): 17.584 kJ/mol at 0.111 mol/kg, 298.15 K.
-    # Route: ΔsolH°(KCl) (CRC table, from memory) + φ_L(0.111 mol/kg) (Pitzer with the
-    # Silvester & Pitzer 1978 parameters, from memory).
+    # Route: ΔsolH°(KCl) (CRC table, from memory) + φ_L(0.111 mol/kg) (Archer's 1999 KCl model,
+    # tabulated from pytzer, docs/methods.md §4.6).
     srm = find_reference("dissolution", name="SRM 1655")
     assert srm is not None and srm.molality == pytest.approx(0.111) and srm.value == 17.584
     inf = solution_enthalpy("KCl")
     assert inf is not None and inf.molality is None
     phi = phi_L("KCl", 0.111, 298.15)
-    assert phi is not None and phi.model == "Pitzer"
+    assert phi is not None and phi.model == WIDE_RANGE_MODEL
     predicted = inf.value + phi.value
     tol = 2.0 * math.sqrt(inf.u**2 + phi.u**2 + srm.u**2)
     assert abs(predicted - srm.value) <= tol, (predicted, tol)
