@@ -120,7 +120,7 @@ def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]
             raise InputError(f"{path}: the grid of {salt} has holes (expected every √m × t_C)")
         table = _Table(RegularGridInterpolator((s, t), short, method="cubic"),
                        RegularGridInterpolator((s, t), u, method="linear"),
-                       float(s[-1] ** 2), (float(t[0]), float(t[-1])))
+                       max(float(r["m"]) for r in mine), (float(t[0]), float(t[-1])))
         out[element_composition(salt)] = (source, table)
     return out
 
@@ -138,7 +138,7 @@ def _from_wide_range(comp: tuple[tuple[str, int], ...], m: float, T: float, A_H:
     t = T - 273.15
     if m > table.m_max * (1 + 1e-9) or not (table.t_range[0] <= t <= table.t_range[1]):
         return None
-    x = [[min(math.sqrt(m), math.sqrt(table.m_max)), t]]
+    x = [[min(math.sqrt(m), float(table.short.grid[0][-1])), t]]  # the last √m is rounded in the file
     long_range = _long_range(m, A_H)
     value = long_range + float(table.short(x)[0])
     u = math.hypot(float(table.u(x)[0]), U_REL_LONG_RANGE * long_range, U_INTERPOLATION)

@@ -445,6 +445,18 @@ def test_phi_L_of_an_acid_is_larger() -> None:
     assert hcl > 0.6 and hcl > 3 * abs(nacl)
 
 
+@pytest.mark.parametrize(("salt", "m_max"), [("NaCl", 6.0), ("KCl", 4.5), ("HCl", 4.5)])
+def test_phi_L_wide_range_table_covers_its_stated_range(salt: str, m_max: float) -> None:
+    # docs/methods.md §4.6: the table runs 0–50 °C up to 6.0 (NaCl) or 4.5 mol/kg; beyond it no value
+    # (from 0.5 °C: at exactly 0 °C calc's Debye–Hückel slope steps below its water model's range)
+    for T in (273.65, 298.15, 323.15):
+        for m in (1e-4, 0.111, m_max):
+            got = phi_L(salt, m, T)
+            assert got is not None and got.model == WIDE_RANGE_MODEL and got.u > 0, (salt, m, T)
+    assert phi_L(salt, m_max * 1.01, 298.15) is None
+    assert phi_L(salt, 1.0, 323.65) is None
+
+
 def test_phi_L_fallback_and_none() -> None:
     fb = phi_L("KBr", 0.05)
     assert fb is not None and fb.model.startswith("Debye")
