@@ -82,7 +82,7 @@ def model_spread_u(molality: float) -> float:
 
 #: Source id (``sources.toml``) of each salt's wide-range table.
 WIDE_RANGE_SOURCES = {"NaCl": "PHIL_A92", "KCl": "PHIL_A99", "HCl": "PHIL_CMR93"}
-WIDE_RANGE_MODEL = "Pitzer, wide-range model (tabulated)"
+WIDE_RANGE_MODEL = "Pitzer wide-range model, tabulated"
 #: Interpolation term, kJ/mol: the cubic interpolant in (√m, t) was at most 0.00014 kJ/mol from
 #: the models themselves at 63 points per salt between the grid lines (0.5–49.5 °C, 0.003–4.4
 #: mol/kg; docs/methods.md §4.6); rounded up to 0.001.
