@@ -32,7 +32,6 @@ from pathlib import Path
 import jax
 import jax.numpy as jnp
 import numpy as np
-
 import pytzer as pz
 from pytzer import debyehueckel, parameters, unsymmetrical
 from pytzer.libraries import Library

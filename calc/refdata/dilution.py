@@ -25,10 +25,10 @@ from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
 
 __all__ = [
-    "PhiL",
     "WIDE_RANGE_MODEL",
-    "phi_L",
+    "PhiL",
     "model_spread_u",
+    "phi_L",
 ]
 
 

@@ -27,12 +27,17 @@ The models are named by pytzer's keys; authors and years above are from memory. 
 
 from __future__ import annotations
 
-import pytest
-
 import jax  # pytzer's array library (CPU); both in the `test` extra
+import pytest
 import pytzer as pz
 
-from calc.refdata.dilution import U_INTERPOLATION, U_REL_LONG_RANGE, WIDE_RANGE_MODEL, _long_range, phi_L
+from calc.refdata.dilution import (
+    U_INTERPOLATION,
+    U_REL_LONG_RANGE,
+    WIDE_RANGE_MODEL,
+    _long_range,
+    phi_L,
+)
 from calc.refdata.properties import debye_huckel_slopes
 
 R_GAS = 8.314462618  # J/(mol K), CODATA 2018
