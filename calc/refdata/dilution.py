@@ -2,7 +2,7 @@
 
 ΔsolH(m) = ΔsolH° + φ_L(m). For NaCl, KCl and HCl the short-range part of φ_L(m, T) is interpolated in
 ``calc/refdata/data/phi_L_wide_range.csv`` (tabulated once from wide-range Pitzer models by
-``tools/make_phi_L.py``); else Pitzer's equation with the 25 °C enthalpy parameters of
+``tests/tools/make_phi_L.py``); else Pitzer's equation with the 25 °C enthalpy parameters of
 ``calc/refdata/data/pitzer_enthalpy.csv``; else the Debye–Hückel term alone for a dilute 1:1
 electrolyte. :func:`phi_L` states the models and their uncertainty (docs/methods.md §4.6).
 """

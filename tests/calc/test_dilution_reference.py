@@ -15,7 +15,7 @@ Three checks (docs/methods.md §4.6, §8.7):
 * **Wide-range models.** NaCl: Archer (1992) (``bC_Na_Cl_A92ii``); KCl: Archer (1999)
   (``bC_K_Cl_A99``); HCl: the model pytzer keys CMR93 (``bC_H_Cl_CMR93``); all with pytzer's
   Archer & Wang (1990) A_φ. calc's φ_L comes from a table made from these models by
-  ``tools/make_phi_L.py`` on a grid in √m and whole degrees; it must lie within two of its own
+  ``tests/tools/make_phi_L.py`` on a grid in √m and whole degrees; it must lie within two of its own
   standard uncertainties (k = 2) of the model evaluated here, live, at molalities and temperatures
   mostly off that grid (17.3 °C is off the temperature grid).
 * **Interpolation.** Closer still: within calc's stated interpolation and Debye–Hückel terms, so a
