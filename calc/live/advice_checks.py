@@ -12,7 +12,6 @@ import numpy as np
 from calc import limits
 from calc.errors import InputError
 from calc.io.runfile import RunSpec, parse_run
-from calc.live.advice_text import DEFAULT_TARGET
 from calc.uncertainty.measurement_models import MAIN_OUTPUT
 
 __all__ = ["checked_spec", "checked_arrays", "checked_target", "LIVE_READINGS_NAME"]
@@ -69,11 +68,11 @@ def _numbers(values: Any, name: str, source: str) -> np.ndarray:
     return a
 
 
-def checked_target(target_u: Any, spec: RunSpec) -> float:
-    """Return the target U in the main output's unit (the default of docs/methods.md §9.3 when None)."""
+def checked_target(target_u: Any, spec: RunSpec) -> float | None:
+    """Return the target U in the main output's unit (None: the default of docs/methods.md §9.3, set later)."""
     unit = MAIN_OUTPUT[spec.kind][1]
     if target_u is None:
-        return DEFAULT_TARGET[unit]
+        return None
     if isinstance(target_u, bool) or not isinstance(target_u, (int, float)) or not math.isfinite(target_u) \
             or target_u <= 0:
         raise InputError(f"expected a positive number in {unit}, got {target_u!r}", field="target_u")

@@ -46,6 +46,7 @@ class Forecast:
     after_length: float
     level_var: Any  # L -> level variance of the after line per reading variance (relative)
     floor_ratio: Any  # L -> (slope floor at L / slope floor now)²
+    largest: str = ""  # label of the largest budget line the after period does not change
 
     def expanded(self, extra_s: float) -> float:
         """Return the forecast U after ``extra_s`` more seconds of after period (capped as the analysis caps it)."""
@@ -70,6 +71,9 @@ class Forecast:
         return None
 
 
+_AFTER_LINES = ("delta_t.fit", "delta_t.drift_resolution")
+
+
 def _window(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[np.ndarray, np.ndarray]:
     m = (t >= a - 1e-9) & (t <= b + 1e-9)
     return t[m], y[m]
@@ -80,8 +84,8 @@ def forecast(analysis: Any, t: np.ndarray, y: np.ndarray) -> Forecast:
     gum, p = analysis.gum, analysis.periods
     q = analysis.spec.resolution_K
     contrib = {line.name: line.contribution for line in gum.budget}
-    c_fit = contrib.get("delta_t.fit", 0.0) ** 2
-    c_res = contrib.get("delta_t.drift_resolution", 0.0) ** 2
+    others = sorted((line for line in gum.budget if line.name not in _AFTER_LINES), key=lambda b: -b.contribution)
+    c_fit, c_res = (contrib.get(name, 0.0) ** 2 for name in _AFTER_LINES)
     total = gum.uncertainties[gum.main] ** 2
     tf_, yf = _window(t, y, *p.fore)
     ta_, ya = _window(t, y, *p.after)
@@ -109,4 +113,4 @@ def forecast(analysis: Any, t: np.ndarray, y: np.ndarray) -> Forecast:
         expanded_now=gum.expanded_uncertainty, k=gum.coverage_factor,
         fixed_var=max(total - c_fit - c_res, 0.0), fit_fore=c_fit * (1 - share), fit_after=c_fit * share,
         res_fore=c_res * (1 - rshare), res_after=c_res * rshare, after_length=La,
-        level_var=level_after, floor_ratio=floor_ratio)
+        level_var=level_after, floor_ratio=floor_ratio, largest=others[0].label if others else "")

@@ -19,7 +19,7 @@ from calc.io.runfile import RunSpec
 from calc.live import advice_signals as sig
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
-from calc.live.advice_text import ADD_NOW, UNDER_WAY, duration, target_text
+from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
 from calc.uncertainty.measurement_models import MAIN_OUTPUT
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
@@ -32,6 +32,8 @@ MIN_LIVE_READINGS = 10
 #: The shortest after period the advisor lets a run stop with, s (the analysis warns below 120 s, §1;
 #: 5 minutes are the usual advice; 3 minutes with a forecast that says more would not help).
 MIN_AFTER_STOP_S = 180.0
+#: Spikes are warned about while they are this recent, s (the final analysis lists them all).
+SPIKE_RECENT_S = 120.0
 #: The shortest after period the advisor calls one (a shorter one is not told from the end of the change), s.
 MIN_AFTER_S = 60.0
 _KELVIN = 273.15
@@ -42,7 +44,7 @@ class State:
     """What every phase needs: the run, the target U, the prepared log and the clock."""
 
     spec: RunSpec
-    target: float
+    target: float | None  # None: the default target, from the provisional value
     prep: PreparedLog
     now_s: float | None
 
@@ -68,12 +70,13 @@ def stopped(t: np.ndarray, now_s: float | None) -> list[Warning_]:
 
 def _common_warnings(st: State, fore: sig.ForeState | None) -> list[Warning_]:
     out = stopped(st.prep.t, st.now_s)
-    if st.prep.rejected:
-        last = st.prep.rejected[-1]
-        out.append(Warning_("spike", f"{len(st.prep.rejected)} wild reading(s) left out, the last at "
-                            f"{last['time_s']:g} s; check the thermometer's contact", last["time_s"]))
+    recent = [r for r in st.prep.rejected if r["time_s"] >= float(st.prep.t[-1]) - SPIKE_RECENT_S]
+    if recent:
+        out.append(Warning_("spike", f"{len(recent)} wild reading(s) in the last {SPIKE_RECENT_S / 60:.0f} min left "
+                            f"out, the last at {recent[-1]['time_s']:g} s; check the thermometer's contact",
+                            recent[-1]["time_s"]))
     if fore is not None:
-        if abs(fore.slope_k_per_min) > sig.FORE_DRIFT_LIMIT_K_PER_MIN:
+        if fore.drifting:
             out.append(Warning_("fore_drift", f"the fore period drifts by {fore.slope_k_per_min:+.3f} K/min (limit "
                                 f"±{sig.FORE_DRIFT_LIMIT_K_PER_MIN:g} K/min): is the liquid at room temperature?",
                                 fore.slope_k_per_min))
@@ -150,7 +153,8 @@ def later_phase(st: State, change: tuple[float, float], analysis: Any) -> dict:
     periods["after"] = [a0, a1]
     m = (t >= a0 - 1e-9) & (t <= a1 + 1e-9)
     lines.append(_line(fit_line(t[m], st.prep.y[m]), t_m, a1))
-    return {**base, **_after_status(st, forecast(analysis, st.prep.t, st.prep.y), a1 - a0)}
+    target = st.target if st.target is not None else default_target(st.unit, base["estimate"]["value"])
+    return {**base, **_after_status(st, target, forecast(analysis, st.prep.t, st.prep.y), a1 - a0)}
 
 
 def _main_left(st: State, analysis: Any, t_m: float) -> float | None:
@@ -164,9 +168,9 @@ def _main_left(st: State, analysis: Any, t_m: float) -> float | None:
     return None if end is None else max(end - float(st.prep.t[-1]), 0.0)
 
 
-def _after_status(st: State, fc: Forecast, length: float) -> dict:
+def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict:
     """The after period's status: how long for U ≤ target, or that the run can stop."""
-    target, unit = st.target, st.unit
+    unit = st.unit
     wait = max(MIN_AFTER_STOP_S - length, 0.0)
     good = fc.first(lambda x: x >= wait and fc.expanded(x) <= target and fc.gain(x) < MIN_GAIN)
     if good == 0.0:
@@ -178,7 +182,7 @@ def _after_status(st: State, fc: Forecast, length: float) -> dict:
     flat = fc.first(lambda x: x >= wait and fc.gain(x) < MIN_GAIN)
     floor = fc.expanded(flat if flat is not None else 1e9)
     why = (f"{target_text(target, unit)} cannot be reached: U stays near "
-           f"{target_text(floor, unit)[4:]} ({_main_line(fc)})")
+           f"{amount_text(floor, unit)} ({_main_line(fc)})")
     if flat == 0.0:
         return {"phase": "can_stop", "status": f"you can stop now: more readings would lower U by less than "
                 f"{MIN_GAIN * 100:.0f} %; {why}", "seconds_more": 0.0}
@@ -187,17 +191,16 @@ def _after_status(st: State, fc: Forecast, length: float) -> dict:
 
 
 def _main_line(fc: Forecast) -> str:
-    """Say what keeps U up once the after period no longer helps."""
-    fixed = fc.fixed_var + fc.fit_fore + fc.res_fore
-    share = fixed / max(fixed + fc.fit_after + fc.res_after, 1e-300)
-    return f"{share:.0%} of it does not depend on the after period"
+    """Say what keeps U up once the after period no longer helps: the largest budget line it leaves."""
+    return f"the largest term left is {fc.largest}" if fc.largest else "the drift fits' own scatter"
 
 
 def _after_change_warnings(st: State, fore: sig.ForeState | None, t_m: float) -> list[Warning_]:
     out: list[Warning_] = []
-    if fore is not None and fore.length < sig.FORE_MIN_S:
-        out.append(Warning_("fore_short", f"the fore period lasted only {fore.length:.0f} s; "
-                            f"{sig.FORE_TARGET_S / 60:.0f} minutes are advised", fore.length))
+    length = t_m - float(st.prep.t[0])
+    if fore is None or length < sig.FORE_MIN_S:
+        out.append(Warning_("fore_short", f"the fore period lasted only {length:.0f} s; "
+                            f"{sig.FORE_TARGET_S / 60:.0f} minutes are advised", length))
     if fore is not None:
         room = fore.line.at(t_m)
         hit = sig.probe_out(st.prep, t_m, room, st.spec.resolution_K)

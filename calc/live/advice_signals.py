@@ -65,6 +65,12 @@ class ForeState:
     steady: bool
     slope_k_per_min: float
     noise_k: float
+    u_slope_k_per_min: float = 0.0  # standard uncertainty of the slope, with the resolution floor
+
+    @property
+    def drifting(self) -> bool:
+        """True when the slope is beyond the limit by more than two standard uncertainties."""
+        return abs(self.slope_k_per_min) > FORE_DRIFT_LIMIT_K_PER_MIN + 2.0 * self.u_slope_k_per_min
 
     @property
     def length(self) -> float:
@@ -94,7 +100,8 @@ def fore_state(t: np.ndarray, y: np.ndarray, q: float) -> ForeState | None:
         ua = math.hypot(math.sqrt(a.var_b), slope_floor(q, a.s, float(t[half - 1] - t[0])))
         ub = math.hypot(math.sqrt(b.var_b), slope_floor(q, b.s, float(t[-1] - t[half])))
         steady = abs(a.b - b.b) <= 3.0 * math.hypot(ua, ub) + _STEADY_TOLERANCE
-    return ForeState(line, float(t[0]), float(t[-1]), steady, line.b * 60.0, noise_sd(y, q))
+    u_b = math.hypot(math.sqrt(line.var_b), slope_floor(q, line.s, float(t[-1] - t[0])))
+    return ForeState(line, float(t[0]), float(t[-1]), steady, line.b * 60.0, noise_sd(y, q), u_b * 60.0)
 
 
 def find_change(t: np.ndarray, y: np.ndarray, q: float, given: float | None) -> tuple[float, float] | None:

@@ -6,7 +6,7 @@ import math
 
 from calc import formatting
 
-__all__ = ["ADD_NOW", "UNDER_WAY", "duration", "target_text", "DEFAULT_TARGET"]
+__all__ = ["ADD_NOW", "UNDER_WAY", "duration", "amount_text", "target_text", "DEFAULT_TARGET", "default_target"]
 
 #: What the person at the bench does at the mixing time, by run kind.
 ADD_NOW = {
@@ -27,9 +27,16 @@ UNDER_WAY = {
 }
 
 #: Target expanded uncertainty U when none is given, by the main output's unit (docs/methods.md §9.3):
-#: 1 kJ/mol for molar enthalpies and 2 J/K for calorimeter heat capacities (common practice, no
-#: source: about what a careful coffee-cup run reaches).
-DEFAULT_TARGET = {"kJ/mol": 1.0, "J/K": 2.0}
+#: (floor, share of the value): the larger of 1 kJ/mol and 2 % of a molar enthalpy, the larger of
+#: 2 J/K and 10 % of a calorimeter heat capacity (a small difference of large heat capacities).
+#: Common practice, no source: about what a careful coffee-cup run reaches.
+DEFAULT_TARGET = {"kJ/mol": (1.0, 0.02), "J/K": (2.0, 0.10)}
+
+
+def default_target(unit: str, value: float) -> float:
+    """Return the default target U for a main output of ``value`` in ``unit``."""
+    floor, share = DEFAULT_TARGET[unit]
+    return max(floor, share * abs(value)) if math.isfinite(value) else floor
 
 
 def duration(seconds: float) -> str:
@@ -39,6 +46,11 @@ def duration(seconds: float) -> str:
     return f"{int(math.ceil(seconds / 60.0))} min"
 
 
+def amount_text(value: float, unit: str) -> str:
+    """Return an uncertainty as the status lines show it: two significant digits, trailing zeros trimmed."""
+    return formatting.number(value, unit, digits=2, trim=True)
+
+
 def target_text(target: float, unit: str) -> str:
-    """Return "U ≤ 0.5 kJ/mol" for a target (two significant digits, trailing zeros trimmed)."""
-    return "U ≤ " + formatting.number(target, unit, digits=2, trim=True)
+    """Return "U ≤ 0.5 kJ/mol" for a target."""
+    return "U ≤ " + amount_text(target, unit)

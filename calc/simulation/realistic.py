@@ -21,11 +21,12 @@ __all__ = ["realistic_scenario"]
 
 
 def realistic_scenario(kind: str, rng: np.random.Generator | int | None, *, resolution: float,
-                       mixing_given: bool, artefacts: bool = True) -> SimulatedRun:
+                       mixing_given: bool, artefacts: bool = True, longer_s: float = 0.0) -> SimulatedRun:
     """Simulate one run of ``kind`` at thermometer ``resolution`` (K) with bench artefacts.
 
     ``artefacts=False`` gives a near noise-free log (noise 0.0002 K, no spikes, no drift, no
-    dropped rows) at the same resolution, for the trueness figure.
+    dropped rows) at the same resolution, for the trueness figure. ``longer_s`` records that many
+    seconds more after the change (the live-advice figure compares with a fixed 10-minute after period).
     """
     gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
     uni = gen.uniform
@@ -40,6 +41,8 @@ def realistic_scenario(kind: str, rng: np.random.Generator | int | None, *, reso
             extra["after_add_s"] = uni(1800, 9000)  # long logs, up to about three hours
     else:
         extra.update(noise=0.0002, phi=0.0)
+    if longer_s:
+        extra["after_add_s"] = extra.get("after_add_s", 0.0) + longer_s
     if kind == "dissolution" and uni() < 0.3:
         extra.update(salt=str(gen.choice(["KCl", "NH4NO3", "NH4Cl"])), tau_r=uni(60, 240))
     return random_scenario(kind, gen, noisy=artefacts, extra=extra)

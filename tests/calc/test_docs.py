@@ -112,6 +112,7 @@ def test_methods_document_has_the_agreed_numbering():
         "6", "6.1", "6.2", "6.3", "6.4",
         "7", "7.1", "7.2",
         "8", "8.1", "8.2", "8.3", "8.4", "8.5", "8.6",
+        "9", "9.1", "9.2", "9.3", "9.4",
     }
     assert sections() == expected
     assert "## References" in METHODS_MD.read_text(encoding="utf-8")
