@@ -16,7 +16,7 @@
       if (d.readings && d.readings.length) {
         C.merge(st.rows, d.readings);
         st.seq = st.rows[st.rows.length - 1][0];
-        st.lastReading = Date.now();
+        st.lastReading = Date.now() - 1000 * (d.stale_s || 0);  // the server knows when it came
       }
       if (d.advice) { st.advice = d.advice; st.adviceSeq = d.advice_seq; st.shown = d.shown || {}; }
       st.state = d.state || st.state;
