@@ -81,7 +81,7 @@
       if (s.textContent !== line) { s.textContent = line; }
     }
 
-    apply(JSON.parse(document.getElementById("room-data").textContent));
+    apply(JSON.parse(root.getAttribute("data-initial")));
     C.follow({
       eventName: "room",
       eventsUrl: function () { return root.getAttribute("data-events") + "?since=" + encodeURIComponent(cursor); },

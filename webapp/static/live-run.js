@@ -7,7 +7,7 @@
   function start() {
     var root = document.getElementById("live-run");
     if (!root || !window.cupcalCurve) { return; }
-    var C = window.cupcalCurve, first = JSON.parse(document.getElementById("live-data").textContent);
+    var C = window.cupcalCurve, first = JSON.parse(root.getAttribute("data-initial"));
     var st = {rows: [], advice: first.advice || {}, seq: -1, adviceSeq: first.advice_seq, state: first.state,
       shown: first.shown || {}, lastReading: Date.now() - 1000 * (first.stale_s || 0), lastWord: Date.now()};
     root.setAttribute("data-mode", "starting");
