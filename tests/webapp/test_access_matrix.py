@@ -24,6 +24,7 @@ from typing import Any
 import pytest
 
 from tests.webapp.conftest import demo_files, upload
+from tests.webapp.live_helpers import live_run_file
 from webapp.models import Person
 from webapp.services.tokens import issue_scoped_token
 
@@ -86,6 +87,13 @@ EXPECTED: dict[tuple[str, str], dict[str, int]] = {
     ("post", "/api/runs/{run_id}/embed-link"): row(401, 404, 200, 200, 200, 403, 200),
     ("post", "/api/runs/{run_id}/lock"): row(401, 404, 200, 403, 200, 403, 200),
     ("post", "/api/sections"): row(401, 403, 403, 403, 201, 403, 403),
+    # live runs: a1's live run; a finish with no readings yet is refused (400) for those let through
+    ("post", "/api/live-runs"): row(401, 201, 201, 201, 201, 403, 201),
+    ("get", "/api/live-runs/{live_id}"): row(401, 404, 200, 200, 200, 200, 200),
+    ("post", "/api/live-runs/{live_id}/readings"): row(401, 404, 200, 200, 200, 403, 200),
+    ("post", "/api/live-runs/{live_id}/finish"): row(401, 404, 400, 400, 400, 403, 400),
+    ("put", "/api/live-runs/{live_id}/target"): row(401, 404, 200, 200, 200, 403, 200),
+    ("put", "/api/sections/{section_id}/live-target"): row(401, 403, 403, 403, 200, 403, 403),
     ("post", "/api/sections/{section_id}/benches"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/sections/{section_id}/imports"): row(401, 403, 403, 400, 400, 403, 403),
     ("post", "/api/series"): row(401, 403, 403, 403, 201, 403, 403),
@@ -136,6 +144,8 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": section_id,
             "run2": run2, "series_id": series_id, "webhook_id": r.get_json()["id"], "calorimeter_id": lab.calorimeter_id,
             "group_id": lab.groups["A"],
+            "live_id": _created(client.post("/api/live-runs", headers=lab.auth("a1"),
+                                            json={"run_file": live_run_file(), "client_key": "matrix"})),
             "calibration_id": client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}", headers=coord).get_json()[
                 "current_calibration"]["id"],
             "headers": headers}
@@ -186,6 +196,11 @@ BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] =
     ("post", "/api/groups"): lambda who, w: {"json": {"name": f"Group {who}"}},
     ("post", "/api/courses"): lambda who, w: {"json": {"name": f"Course {who}"}},
     ("post", "/api/sections"): lambda who, w: {"json": {"course_id": w["course_id"], "name": f"S {who}"}},
+    ("post", "/api/live-runs"): lambda who, w: {"json": {"run_file": live_run_file(), "client_key": f"m-{who}"}},
+    ("post", "/api/live-runs/{live_id}/readings"): lambda who, w: {"json": {"readings": []}},
+    ("post", "/api/live-runs/{live_id}/finish"): lambda who, w: {"json": {}},
+    ("put", "/api/live-runs/{live_id}/target"): lambda who, w: {"json": {"target_u": None}},
+    ("put", "/api/sections/{section_id}/live-target"): lambda who, w: {"json": {"target_u": 0.5}},
     ("post", "/api/sections/{section_id}/benches"): lambda who, w: {"json": {"name": f"Bench {who}"}},
     ("post", "/api/series"): lambda who, w: {"json": {"name": f"Series {who}", "run_ids": [w["run_id"], w["run2"]]}},
     ("post", "/api/webhooks"): lambda who, w: {"json": {"url": f"https://hooks.example.org/{who}"}},
@@ -221,7 +236,7 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "series_id", "webhook_id",
-                                "calorimeter_id", "group_id", "calibration_id")} | PATH_VALUES
+                                "calorimeter_id", "group_id", "calibration_id", "live_id")} | PATH_VALUES
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)

@@ -132,6 +132,10 @@ def test_the_page_falls_back_to_polling_and_the_room_view_shows_the_bench(browse
     d.get(f"{server}{section}/live")
     tile = _until(d, "const t = document.getElementById('tile-' + arguments[0]); return t && t.textContent;", str(live))
     assert "Bench Heron-5" in tile and "30 readings" in tile
+    # the earlier runs of this module stopped reading long ago: their tiles say so from the first paint
+    assert _until(d, "return document.querySelectorAll('.tile-warnings li').length && "
+                     "[...document.querySelectorAll('.tile-warnings li')].some(li => li.textContent.includes("
+                     "'No new reading'));")
     _api(server, f"/api/live-runs/{live}/readings", {"readings": batch(rows, 30, 40)})
     _until(d, "return document.getElementById('tile-' + arguments[0]).textContent.includes('40 readings');",
            str(live), timeout=5)

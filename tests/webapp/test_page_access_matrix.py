@@ -35,6 +35,7 @@ import pytest
 import sqlalchemy as sa
 
 from tests.webapp.conftest import PASSWORD, csrf_token, demo_files, sign_in, upload
+from tests.webapp.live_helpers import live_run_file
 from webapp.models import ApiToken, AuditEntry, Bench, Calibration, Calorimeter, Course, Group, Person, Result, Run
 from webapp.models import Comment, MarkingScheme, RunInput, RunReview, Section, SignInLink
 from webapp.services.tokens import issue_scoped_token
@@ -56,6 +57,7 @@ COORDINATOR_FORM = row(L, 403, 403, 403, R, L, L)
 STAFF_FORM = row(L, 403, 403, R, R, L, L)  # technicians and coordinators (calibrations)
 STAFF_ONLY = row(L, 403, 403, 200, 200, L, L)
 A1S_RUN = row(L, 404, 200, 200, 200, L, L)
+COORDINATOR_FORM_404 = row(L, 404, 403, 403, R, L, L)  # a section b1 may not see, coordinators only
 
 #: the outcome of each route for each caller (columns: anon, b1, a1, tech, coord, read, write)
 EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
@@ -86,6 +88,17 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("GET", "/classes/sections/<int:section_id>"): row(L, 404, 200, 200, 200, L, L),
     ("POST", "/classes/sections/<int:section_id>"): row(L, 404, 403, 403, R, L, L),  # a bench
     ("GET", "/classes/sections/<int:section_id>/dashboard"): row(L, 404, 200, 200, 200, L, L),
+    # live runs: a1's live run (group A, section S1); its event streams end after 0.2 s here
+    ("GET", "/live/"): ALL_SIGNED_IN,
+    ("GET", "/live/<int:live_id>"): A1S_RUN,
+    ("GET", "/live/<int:live_id>/update.json"): A1S_RUN,
+    ("GET", "/live/<int:live_id>/events"): A1S_RUN,
+    ("POST", "/live/<int:live_id>/target"): row(L, 404, R, R, R, L, L),
+    ("POST", "/live/<int:live_id>/finish"): row(L, 404, R, R, R, L, L),  # no readings yet: refused, said on the page
+    ("GET", "/classes/sections/<int:section_id>/live"): row(L, 404, 200, 200, 200, L, L),
+    ("GET", "/classes/sections/<int:section_id>/live/update.json"): row(L, 404, 200, 200, 200, L, L),
+    ("GET", "/classes/sections/<int:section_id>/live/events"): row(L, 404, 200, 200, 200, L, L),
+    ("POST", "/classes/sections/<int:section_id>/live/target"): COORDINATOR_FORM_404,
     ("GET", "/classes/sections/<int:section_id>/export.<fmt>"): STAFF_ONLY,
     ("GET", "/embed/runs/<int:run_id>"): row(401, 404, 200, 200, 200, 200, 200),
     ("GET", "/imports/sections/<int:section_id>"): STAFF_ONLY,
@@ -166,8 +179,11 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     headers = {"read": issue_scoped_token(session, a1, "p-read", "read")[1],
                "write": issue_scoped_token(session, a1, "p-write", "write")[1]}
     link = client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("a1")).get_json()["url"]
+    client.application.config["LIVE_STREAM_SECONDS"] = 0.2
+    live_id = client.post("/api/live-runs", headers=lab.auth("a1"), json={
+        "run_file": live_run_file(), "client_key": "matrix"}).get_json()["id"]
     return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": sections[0],
-            "group_id": lab.groups["A"], "person_id": lab.ids["a2"], "a2_id": lab.ids["a2"],
+            "group_id": lab.groups["A"], "person_id": lab.ids["a2"], "live_id": live_id, "a2_id": lab.ids["a2"],
             "calorimeter_id": lab.calorimeter_id, "calibration_id": _spare_calibration(session, lab),
             "link": parse_qs(urlsplit(link).query)["link"][0],
             "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()}}
@@ -350,7 +366,7 @@ def _query(rule: str, w: dict[str, Any], link: str | None) -> str:
 def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str, link: str | None = None) -> Any:
     """Send one route's request as ``who`` (with a signed ``link`` on the embed routes) and return the response."""
     values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "calorimeter_id", "group_id",
-                                "person_id", "calibration_id")}
+                                "person_id", "calibration_id", "live_id")}
     values |= PATH_VALUES.get(rule, {})
     if (method, rule) in FRESH:
         name, make = FRESH[(method, rule)]

@@ -15,6 +15,7 @@ from webapp.api import live_openapi  # noqa: F401  (documents these routes)
 from webapp.api.blueprint import bp
 from webapp.api.params import actor
 from webapp.api.params import as_int
+from webapp.api.params import coordinators_only
 from webapp.api.params import json_object
 from webapp.db import get_session
 from webapp.services.errors import Invalid
@@ -84,6 +85,7 @@ def live_target(live_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.put("/sections/<int:section_id>/live-target", endpoint="section_live_target")
+@coordinators_only("set a section's target uncertainty")
 def section_live_target(section_id: int):  # type: ignore[no-untyped-def]
     """Set a section's default target U for its live runs (coordinators; null clears it)."""
     from webapp.services.classes import get_section

@@ -18,6 +18,7 @@ from webapp.live.stream import event_stream
 from webapp.live.views import TargetForm
 from webapp.live.views import viewer
 from webapp.models import Section
+from webapp.services.access import require_coordinator
 from webapp.services.classes import can_view_section
 from webapp.services.classes import get_section
 from webapp.services.errors import NotFound
@@ -110,6 +111,8 @@ def room_events(section_id: int):  # type: ignore[no-untyped-def]
 def room_target(section_id: int):  # type: ignore[no-untyped-def]
     """Set the section's default target U (coordinators); empty clears it."""
     session = get_session()
+    get_section(session, current_user, section_id)  # not yours: 404
+    require_coordinator(current_user, "set a section's target uncertainty")  # before the form is read
     section = get_section(session, current_user, section_id)
     form = TargetForm()
     if not form.validate_on_submit():
@@ -123,4 +126,4 @@ def room_target(section_id: int):  # type: ignore[no-untyped-def]
             if exc.status in (403, 404):
                 raise
             flash(exc.message, "error")
-    return redirect(url_for("live.room", section_id=section_id)), 303
+    return redirect(url_for("live.room", section_id=section_id))

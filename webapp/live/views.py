@@ -110,14 +110,24 @@ def events(live_id: int):  # type: ignore[no-untyped-def]
     return event_stream(read, live_id)
 
 
+def _steerable(live_id: int) -> None:
+    """Raise NotFound or Forbidden unless the person may change this live run."""
+    from webapp.services.access import can_steer_live_run
+    from webapp.services.errors import Forbidden
+
+    if not can_steer_live_run(current_user, get_live_run(get_session(), current_user, live_id)):
+        raise Forbidden("only the live run's owner, their group or staff may change it")
+
+
 @bp.route("/live/<int:live_id>/target", methods=["POST"])
 @login_required
 def target(live_id: int):  # type: ignore[no-untyped-def]
     """Set the run's own target U (empty: the section's default, else the advisor's)."""
+    _steerable(live_id)  # not yours: 404 (or 403) whatever the form holds
     form = TargetForm()
     if not form.validate_on_submit():
         flash("Target U: expected a positive number, or leave it empty for the default.", "error")
-        return redirect(url_for("live.page", live_id=live_id)), 303
+        return redirect(url_for("live.page", live_id=live_id))
     value = float(form.target_u.data) if form.target_u.data is not None else None
     try:
         set_target(get_session(), current_user, live_id, value)
@@ -126,16 +136,17 @@ def target(live_id: int):  # type: ignore[no-untyped-def]
         if exc.status in (403, 404):
             raise
         flash(exc.message, "error")
-    return redirect(url_for("live.page", live_id=live_id)), 303
+    return redirect(url_for("live.page", live_id=live_id))
 
 
 @bp.route("/live/<int:live_id>/finish", methods=["POST"])
 @login_required
 def finish(live_id: int):  # type: ignore[no-untyped-def]
     """Stop following: analyse the readings and store them as a run, then show the run."""
+    _steerable(live_id)
     if not FinishForm().validate_on_submit():
         flash("The form expired; send it again.", "error")
-        return redirect(url_for("live.page", live_id=live_id)), 303
+        return redirect(url_for("live.page", live_id=live_id))
     session = get_session()
     try:
         run = finish_live_run(session, current_user, live_id)
@@ -144,6 +155,6 @@ def finish(live_id: int):  # type: ignore[no-untyped-def]
         if exc.status in (403, 404):
             raise
         flash(f"Not stored: {exc.message}", "error")
-        return redirect(url_for("live.page", live_id=live_id)), 303
+        return redirect(url_for("live.page", live_id=live_id))
     flash("The live run is stored as this run, analysed like any upload.")
-    return redirect(url_for("runs.detail", run_id=run.id)), 303
+    return redirect(url_for("runs.detail", run_id=run.id))

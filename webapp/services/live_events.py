@@ -117,12 +117,12 @@ class Waiter:
     def wait(self, timeout: float) -> None:
         """Return after a notice about the stream's run (PostgreSQL), after :data:`SQLITE_POLL_S` (SQLite),
         or at ``timeout``; never sooner than :data:`MIN_GAP_S` after the last return."""
+        if self.listener is None:  # the poll's own period keeps reads apart
+            time.sleep(min(SQLITE_POLL_S, max(timeout, 0.0)))
+            return
         gap = MIN_GAP_S - (time.monotonic() - self.last)
         if gap > 0:
             time.sleep(gap)
         timeout = max(timeout - max(gap, 0.0), 0.0)
-        if self.listener is None:
-            time.sleep(min(SQLITE_POLL_S, timeout))
-        else:
-            self.seen = self.listener.wait(self.live_id, self.seen, min(SAFETY_POLL_S, timeout))
+        self.seen = self.listener.wait(self.live_id, self.seen, min(SAFETY_POLL_S, timeout))
         self.last = time.monotonic()

@@ -80,7 +80,7 @@ def shown_numbers(advice: dict[str, Any]) -> dict[str, str]:
         if est.get("value") is not None:
             out["value"] = fmt.measured(est["value"], est.get("expanded_u"), est.get("unit") or "") + \
                 " (± U, k ≈ 2)"
-            out["quantity"] = str(est.get("quantity") or "Result")
+            out["quantity"] = str(est.get("quantity") or "Result").replace("_", " ").capitalize()
     except (TypeError, ValueError):
         pass  # an advisor answer of another shape: the page shows dashes
     found = [f"fore {fmt.number(p[0], digits=4, trim=True)}–{fmt.number(p[1], 's', digits=4, trim=True)}"
