@@ -135,3 +135,15 @@ def test_the_new_run_form_takes_iso_dates_only(client: Any, lab: Any) -> None:
         r = post_form(client, "dissolution", {**fields, "info.date": bad}, csv=csv)
         assert r.status_code == 400 and "ISO 8601" in r.get_data(as_text=True), bad
     assert post_form(client, "dissolution", {**fields, "info.date": "2025-03-13"}, csv=csv).status_code == 200
+
+
+def test_a_form_part_with_no_name_is_not_a_server_error() -> None:
+    """A multipart part may come with no name (seen from a request fuzzer); the NUL screen must not crash on it."""
+    from werkzeug.datastructures import MultiDict
+
+    from webapp.services.errors import Invalid
+    from webapp.services.jsontext import refuse_nul_in_form
+
+    refuse_nul_in_form(MultiDict([(None, "plain"), ("title", "x")]))  # no exception: nothing to refuse
+    with pytest.raises(Invalid):
+        refuse_nul_in_form(MultiDict([(None, "a\x00b")]))

@@ -48,6 +48,7 @@ def _unicode(text: str, field: str) -> None:
 def refuse_nul_in_form(values: Any) -> None:
     """Refuse (400) a form or query value holding NUL (U+0000), naming the field."""
     for name, value in values.items(multi=True):
+        name = name if isinstance(name, str) else ""  # a multipart part may come with no name at all
         if "\x00" in name or (isinstance(value, str) and "\x00" in value):
             raise Invalid("NUL (U+0000) is not allowed in text", field=limits.shorten(name.replace("\x00", "?")))
 
