@@ -168,8 +168,10 @@ def propagate(inputs: list[Input], model: Model, main: str, p: float = 0.95) -> 
     ]
     budget.sort(key=lambda b: -b.share)
     # Welch–Satterthwaite (GUM G.2b)
-    denom = sum(ci**4 / inp.dof for inp, _, ci in contribs if math.isfinite(inp.dof) and ci > 0)
-    dof = (uc2**2 / denom) if denom > 0 else math.inf
+    # written with the shares ci²/uc² (≤ 1): uc2**2 overflows for the huge U of a log that barely fits
+    denom = (sum((ci * ci / uc2) ** 2 / inp.dof for inp, _, ci in contribs if math.isfinite(inp.dof) and ci > 0)
+             if 0 < uc2 < math.inf else 0.0)
+    dof = 1.0 / denom if denom > 0 else math.inf
     k = coverage_factor(dof, p)
     return GumResult(
         values=values,

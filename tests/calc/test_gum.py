@@ -51,6 +51,14 @@ def test_welch_satterthwaite_and_coverage_factor():
     assert coverage_factor(10) == pytest.approx(2.228, abs=1e-3)
 
 
+def test_welch_satterthwaite_survives_a_huge_uncertainty():
+    # the same two lines as above scaled by 1e100 (a drift fit that barely fits a short live log):
+    # ν_eff is scale-free, still 16 (GUM G.2b), where u_c⁴ itself overflows a float
+    inputs = [Input("a", 0.0, 1e100, "K", "t", dof=4), Input("b", 0.0, 1e100, "K")]
+    g = propagate(inputs, lambda x: {"y": x["a"] + x["b"]}, "y")
+    assert g.dof_eff == pytest.approx(16.0)
+
+
 def test_monte_carlo_agrees_on_a_linear_model():
     inputs = [Input("a", 10.0, 0.3, "K"), Input("b", 5.0, 0.4, "K", "rectangular")]
     model = lambda x: {"y": x["a"] - x["b"]}  # noqa: E731
