@@ -148,6 +148,7 @@ def _table(reps: list[Replay]) -> None:
               f"{_share([x.final_u <= x.target for x in st]):>16s} {_share([x.covered_stop for x in st]):>16s} "
               f"{_share([x.covered_fixed for x in st]):>16s} "
               f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}")
+    _strict(reps)
     unreach = [x for x in reps if x.outcome == "unreachable"]
     print(f"'cannot be reached' in {len(unreach)} runs; in {sum(x.u_fixed > x.target for x in unreach)} of them "
           "the fixed 10-minute after period did not reach the target either; truth in the final interval "
@@ -164,6 +165,25 @@ def _table(reps: list[Replay]) -> None:
         + " (no run has its probe out or its readings stopped)")
     calls = sum(x.calls for x in reps)
     print(f"advice calls: {calls}; slowest call {max(x.slowest_s for x in reps) * 1000:.0f} ms")
+
+
+def _strict(reps: list[Replay]) -> None:
+    """The issue's figure read strictly: every "you can stop" (both variants), and the pessimistic "cannot"."""
+    said = [x for x in reps if x.outcome in ("stopped", "unreachable")]
+    print(f"strict: of all {len(said)} runs told 'you can stop' (either variant), final U ≤ target in "
+          f"{_share([x.final_u <= x.target for x in said])}")
+    reachable = [x for x in reps if x.u_fixed is not None and x.u_fixed <= x.target]
+    wrong = [x for x in reachable if x.outcome == "unreachable"]
+    n_un = sum(x.outcome == "unreachable" for x in reps)
+    print(f"strict: of {len(reachable)} runs whose fixed 10 minutes reached the target, told 'cannot be reached' "
+          f"in {len(wrong)} ({len(wrong)} of the {n_un} 'cannot be reached' runs were too pessimistic)")
+    dump = os.environ.get("CUPCAL_STOP_DUMP")
+    if dump:
+        import json
+        rows = [{k: (sorted(v) if isinstance(v, set) else v) for k, v in vars(x).items()} | {"i": i}
+                for i, x in enumerate(reps)]
+        with open(dump, "w", encoding="utf-8") as fh:
+            json.dump(rows, fh, indent=1)
 
 
 @pytest.mark.slow
