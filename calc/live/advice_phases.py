@@ -23,7 +23,7 @@ from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_targe
 from calc.kinds import get_kind
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
-           "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S"]
+           "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S", "HOLD_GAIN"]
 
 #: Kinds with one event per log, which the advisor follows.
 LIVE_KINDS = tuple(ADD_NOW)
@@ -32,6 +32,9 @@ MIN_LIVE_READINGS = 10
 #: The shortest after period the advisor lets a run stop with, s (the analysis warns below 120 s, §1;
 #: 5 minutes are the usual advice; 3 minutes with a forecast that says more would not help).
 MIN_AFTER_STOP_S = 180.0
+#: Once the advice said "you can stop", it goes back to "after" only when more readings would lower U by
+#: this fraction or more (a hysteresis above MIN_GAIN: the gain of a noisy log wobbles around its limit).
+HOLD_GAIN = 1.5 * MIN_GAIN
 #: Spikes are warned about while they are this recent, s (the final analysis lists them all).
 SPIKE_RECENT_S = 120.0
 #: The shortest after period the advisor calls one (a shorter one is not told from the end of the change), s.
@@ -47,6 +50,7 @@ class State:
     target: float | None  # None: the default target, from the provisional value
     prep: PreparedLog
     now_s: float | None
+    held: bool = False  # the previous advice said "you can stop": leaving that needs a clearer gain (HOLD_GAIN)
 
     @property
     def unit(self) -> str:
@@ -172,20 +176,20 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
     """The after period's status: how long for U ≤ target, or that the run can stop."""
     unit = st.unit
     wait = max(MIN_AFTER_STOP_S - length, 0.0)
-    good = fc.first(lambda x: x >= wait and fc.expanded(x) <= target and fc.gain(x) < MIN_GAIN)
+    limit = HOLD_GAIN if st.held else MIN_GAIN
+    stop = f"you can stop now: more readings would lower U by less than {limit * 100:.0f} %"
+    good = fc.first(lambda x: x >= wait and fc.expanded(x) <= target and fc.gain(x) < limit)
     if good == 0.0:
-        return {"phase": "can_stop", "status": f"you can stop now: more readings would lower U by less than "
-                f"{MIN_GAIN * 100:.0f} %", "seconds_more": 0.0}
+        return {"phase": "can_stop", "status": stop, "seconds_more": 0.0}
     if good is not None:
         return {"phase": "after", "status": f"after period: {duration(good)} more for {target_text(target, unit)}",
                 "seconds_more": good}
-    flat = fc.first(lambda x: x >= wait and fc.gain(x) < MIN_GAIN)
+    flat = fc.first(lambda x: x >= wait and fc.gain(x) < limit)
     floor = fc.expanded(flat if flat is not None else 1e9)
     why = (f"{target_text(target, unit)} cannot be reached: U stays near "
            f"{amount_text(floor, unit)} ({_main_line(fc)})")
     if flat == 0.0:
-        return {"phase": "can_stop", "status": f"you can stop now: more readings would lower U by less than "
-                f"{MIN_GAIN * 100:.0f} %; {why}", "seconds_more": 0.0}
+        return {"phase": "can_stop", "status": f"{stop}; {why}", "seconds_more": 0.0}
     return {"phase": "after", "status": f"after period: {duration(flat or HORIZON_S)} more; {why}",
             "seconds_more": flat}
 

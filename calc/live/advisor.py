@@ -4,7 +4,7 @@
 :class:`Advice`: the phase, one plain status line, the seconds still to wait, a provisional
 estimate of ΔT and of the main output ± U from the same analysis as the final one
 (:func:`calc.analysis.analyze_spec`), the periods and drift lines for a plot, and warnings.
-It keeps no state between calls. docs/methods.md §9.
+It keeps no state between calls; the caller may pass the previous phase (hysteresis). docs/methods.md §9.
 """
 
 from __future__ import annotations
@@ -66,20 +66,28 @@ def _plain(v: Any) -> Any:
 
 
 def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
-           target_u: float | None = None, now_s: float | None = None, source: str = "live run") -> Advice:
+           target_u: float | None = None, now_s: float | None = None, source: str = "live run",
+           previous_phase: str | None = None) -> Advice:
     """Return the advice for a live run (see the module docstring and docs/methods.md §9).
+
+    ``previous_phase`` is the phase of the previous advice on the same run, if any: after a
+    "can_stop" the advice leaves it only on a clearer gain (``advice_phases.HOLD_GAIN``).
 
     Raises
     ------
     InputError
         For a bad run file (naming its field), readings that are not numbers, times that go back,
-        temperatures outside −50…150 °C, or a target U that is not a positive number.
+        temperatures outside −50…150 °C, a target U that is not a positive number, or a
+        previous phase that is not one of ``PHASES``.
     """
     spec = checked_spec(run_text, source)
     t, y_c = checked_arrays(times_s, temps_c, source, CELSIUS_RANGE)
     target = checked_target(target_u, spec)
     if now_s is not None:
         phases.require_time(now_s)
+    if previous_phase is not None and previous_phase not in PHASES:
+        raise InputError(f"expected the previous phase to be one of {', '.join(PHASES)}, got {previous_phase!r}",
+                         field="previous_phase")
     if spec.kind not in phases.LIVE_KINDS:
         return Advice("refused", f"no live advice for {spec.kind} runs (several events in one log); "
                       "record the whole log and analyse it afterwards")
@@ -92,7 +100,7 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     prep = prepare_log(t, y, resolution=q, lines=lines)
     readings = Readings(t, y, lines, source, "s", "degC")
     given = spec.mixing_time.m_as("s") if spec.mixing_time is not None else None
-    state = phases.State(spec, target, prep, now_s)
+    state = phases.State(spec, target, prep, now_s, held=previous_phase == "can_stop")
     change = phases.find_change(prep.t, prep.y, q, given)
     if change is None:
         return _advice(phases.fore_phase(state))

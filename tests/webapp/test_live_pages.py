@@ -183,6 +183,33 @@ def test_the_advisor_runs_once_per_batch_and_never_for_a_page(client: Any, lab: 
     assert calls == [0, 30]
 
 
+def test_the_stored_phase_goes_back_to_the_advisor(client: Any, lab: Any, session: Any, monkeypatch: Any) -> None:
+    """The advisor keeps no state: its hysteresis (docs/methods.md §9.1) gets the phase stored on the row."""
+    import json
+
+    import calc.live.advisor as advisor
+    from webapp.models import LiveRun
+
+    given: list[Any] = []
+    real = advisor.advise
+
+    def recording(*args: Any, **kwargs: Any) -> Any:
+        given.append(kwargs.get("previous_phase"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(advisor, "advise", recording)
+    h = lab.auth("a1")
+    live = start_live(client, h).get_json()["id"]
+    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 5)}, headers=h)
+    row = session.get(LiveRun, live)
+    session.refresh(row)
+    assert json.loads(row.advice_json)["phase"] == "waiting"
+    row.advice_json = json.dumps({**json.loads(row.advice_json), "phase": "can_stop"})
+    session.commit()
+    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 5, 15)}, headers=h)
+    assert given == [None, "waiting", "can_stop"]
+
+
 def test_a_failing_advisor_keeps_the_readings(client: Any, lab: Any, monkeypatch: Any) -> None:
     import calc.live.advisor as advisor
 

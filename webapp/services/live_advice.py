@@ -60,10 +60,21 @@ def compute_advice(session: so.Session, live: LiveRun) -> dict[str, Any]:
     target, _where = effective_target(session, live)
     try:
         advice = advise(text, [r[1] for r in rows], [r[2] for r in rows], target_u=target,
-                        source=f"live run {live.id}")
+                        source=f"live run {live.id}", previous_phase=previous_phase(live))
     except (InputError, AnalysisError) as exc:
         return _refused(str(exc))
     return advice.to_dict()
+
+
+def previous_phase(live: LiveRun) -> str | None:
+    """Return the phase of the advice stored on the row (the advisor's hysteresis needs it), or None."""
+    from calc.live.advisor import PHASES
+
+    try:
+        phase = json.loads(live.advice_json or "null")["phase"]
+    except (ValueError, TypeError, KeyError):
+        return None
+    return phase if phase in PHASES else None
 
 
 def _refused(message: str) -> dict[str, Any]:
