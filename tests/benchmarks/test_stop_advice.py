@@ -187,6 +187,10 @@ def _strict(reps: list[Replay]) -> None:
 
 
 @pytest.mark.slow
+# a provisional Newtonian fit of a few minutes of a wild log can overflow its covariance (calc/deltat/drift.py);
+# the advisor then answers without an estimate or with a wide one, which this figure is about, not the warning
+@pytest.mark.filterwarnings("ignore:overflow encountered:RuntimeWarning",
+                            "ignore:invalid value encountered:RuntimeWarning")
 def test_stop_advice(tmp_path):
     reps = [_replay(i, tmp_path) for i in range(N_RUNS)]
     _table(reps)
