@@ -138,10 +138,14 @@ def analyze_spec(
         return analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                               fore=fore, after=after, with_reference=with_reference,
                        calorimeter_type=calorimeter_type, history=history)
-    prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
-    props = resolve_properties(spec, dt)
-    model = build_model(spec, dt, props)
-    gum = propagate(model.inputs, model.model, model.main)
+    try:
+        prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
+        props = resolve_properties(spec, dt)
+        model = build_model(spec, dt, props)
+        gum = propagate(model.inputs, model.model, model.main)
+    except OverflowError:  # a drift fit of a few readings whose uncertainty is beyond any float
+        raise AnalysisError(f"{readings.source}: the drift fits do not pin down the temperature change (their "
+                            "uncertainty overflows); is the after period long enough?") from None
     warnings: list[str] = [*prep.warnings, *dt.warnings, *props.warnings, *kind_warnings(spec, dt, gum, model),
                            *wide_interval_warning(gum, model.main)]
     mc = None
