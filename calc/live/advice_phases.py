@@ -35,6 +35,8 @@ MIN_AFTER_STOP_S = 180.0
 #: Once the advice said "you can stop", it goes back to "after" only when more readings would lower U by
 #: this fraction or more (a hysteresis above MIN_GAIN: the gain of a noisy log wobbles around its limit).
 HOLD_GAIN = 1.5 * MIN_GAIN
+#: When U still falls faster than the forecast says, the advice looks again after this long, s.
+RECHECK_S = 60.0
 #: Spikes are warned about while they are this recent, s (the final analysis lists them all).
 SPIKE_RECENT_S = 120.0
 #: The shortest after period the advisor calls one (a shorter one is not told from the end of the change), s.
@@ -51,6 +53,7 @@ class State:
     prep: PreparedLog
     now_s: float | None
     held: bool = False  # the previous advice said "you can stop": leaving that needs a clearer gain (HOLD_GAIN)
+    earlier: Any = None  # end_s -> U of the same analysis on the readings up to end_s (None: not known)
 
     @property
     def unit(self) -> str:
@@ -189,9 +192,27 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
     why = (f"{target_text(target, unit)} cannot be reached: U stays near "
            f"{amount_text(floor, unit)} ({_main_line(fc)})")
     if flat == 0.0:
+        fell = _recent_gain(st, fc)
+        if fell is not None and fell >= limit:
+            return {"phase": "after", "status": f"after period: U fell by {fell * 100:.0f} % in the last "
+                    f"{duration(HORIZON_S)}, more than forecast; {duration(RECHECK_S)} more, then the advice "
+                    "looks again", "seconds_more": RECHECK_S}
         return {"phase": "can_stop", "status": f"{stop}; {why}", "seconds_more": 0.0}
     return {"phase": "after", "status": f"after period: {duration(flat or HORIZON_S)} more; {why}",
             "seconds_more": flat}
+
+
+def _recent_gain(st: State, fc: Forecast) -> float | None:
+    """Return by how much U fell over the last HORIZON_S of readings (None: not known).
+
+    The forecast holds every line but the after fits' fixed; the mixing-time, model and heater-lag
+    lines also shrink as the after period grows. Before the advice says a target cannot be reached,
+    what the readings really did is checked against it (docs/methods.md §9.4).
+    """
+    if st.earlier is None or st.prep.t.size == 0:
+        return None
+    then = st.earlier(float(st.prep.t[-1]) - HORIZON_S)
+    return None if then is None or not then > 0 else 1.0 - fc.expanded_now / then
 
 
 def _main_line(fc: Forecast) -> str:

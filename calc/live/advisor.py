@@ -100,7 +100,8 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     prep = prepare_log(t, y, resolution=q, lines=lines)
     readings = Readings(t, y, lines, source, "s", "degC")
     given = spec.mixing_time.m_as("s") if spec.mixing_time is not None else None
-    state = phases.State(spec, target, prep, now_s, held=previous_phase == "can_stop")
+    state = phases.State(spec, target, prep, now_s, held=previous_phase == "can_stop",
+                         earlier=_earlier_u(spec, readings))
     change = phases.find_change(prep.t, prep.y, q, given)
     if change is None:
         return _advice(phases.fore_phase(state))
@@ -109,6 +110,20 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     except (InputError, AnalysisError):
         analysis = None
     return _advice(phases.later_phase(state, change, analysis))
+
+
+def _earlier_u(spec: Any, readings: Readings) -> Any:
+    """Return end_s -> U of the same analysis on the readings up to ``end_s`` (None: it fails there)."""
+
+    def u_at(end_s: float) -> float | None:
+        m = readings.time_s <= end_s + 1e-9
+        part = Readings(readings.time_s[m], readings.temperature_K[m], readings.lines[m], readings.source, "s", "degC")
+        try:
+            return analyze_spec(spec, part, with_reference=False).gum.expanded_uncertainty
+        except (InputError, AnalysisError):
+            return None
+
+    return u_at
 
 
 def _advice(parts: dict) -> Advice:

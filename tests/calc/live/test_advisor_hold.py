@@ -31,7 +31,7 @@ def forecast_with_gain(gain: float) -> Forecast:
 
 
 def status(fc: Forecast, held: bool, target: float = 1.5) -> dict:
-    return _after_status(SimpleNamespace(unit="kJ/mol", held=held), target, fc, L0)
+    return _after_status(SimpleNamespace(unit="kJ/mol", held=held, earlier=None), target, fc, L0)
 
 
 def test_a_gain_between_the_two_limits_keeps_a_stop_but_does_not_start_one():
