@@ -2,7 +2,9 @@
 
 (a) one live run at 1 reading/s, its live page's event stream open: the latency from POST to the
 stream, median and p95 (target: p95 ≤ 1 s); (b) 30 live runs at once at 1 reading/s each, the room
-view open, on gunicorn with 2 workers: no reading lost, p95 ≤ 2 s, and the server's CPU. Each on
+view open, on gunicorn with 2 workers: no reading lost, p95 ≤ 2 s, and the server's CPU; (c) as (a), but
+the readings go to one gunicorn and the page's stream is read from a second one on the same database
+(p95 ≤ 2 s; tests/webapp/test_live_two_servers.py checks every reading and the order). Each on
 SQLite and on PostgreSQL. Nothing is timed here: a test fails when the script finds a problem; the
 figures are printed and written to ``bench-results/live-*.json``. ``CUPCAL_LIVE_ARGS="--duration 20"``
 gives a quick pass (default: 60 s for (a), 120 s for (b)).
@@ -42,4 +44,11 @@ def test_thirty_live_runs_with_the_room_view(db: str) -> None:
     _needs_postgres(db)
     # each run holds 400 readings (6.7 min of a log at 1/s) first: the advisor's cost grows with the log
     assert main(["--db", db, "--runs", "30", "--duration", "120", "--preload", "400", *_extra()]) == 0, \
+        "see the problems above"
+
+
+@pytest.mark.parametrize("db", ["sqlite", "postgresql"])
+def test_live_page_latency_across_two_servers(db: str) -> None:
+    _needs_postgres(db)
+    assert main(["--db", db, "--runs", "1", "--page", "--servers", "2", "--duration", "60", *_extra()]) == 0, \
         "see the problems above"
