@@ -115,6 +115,15 @@ def coverage_factor(dof: float, p: float = 0.95) -> float:
     return float(stdtrit(max(dof, 1.0), 0.5 + p / 2))
 
 
+def _welch_satterthwaite(contribs: list[tuple[Input, float, float]], uc2: float) -> float:
+    """Return the effective degrees of freedom (GUM G.2b), written with the shares ci²/uc² (≤ 1):
+    uc2**2 itself overflows for the huge U of a log that barely fits."""
+    if not 0 < uc2 < math.inf:
+        return math.inf
+    denom = sum((ci * ci / uc2) ** 2 / inp.dof for inp, _, ci in contribs if math.isfinite(inp.dof) and ci > 0)
+    return 1.0 / denom if denom > 0 else math.inf
+
+
 def propagate(inputs: list[Input], model: Model, main: str, p: float = 0.95) -> GumResult:
     """Propagate ``inputs`` through ``model`` by the GUM law (first order).
 
@@ -144,12 +153,8 @@ def propagate(inputs: list[Input], model: Model, main: str, p: float = 0.95) -> 
             uncs[key] = 0.0
     y = out[main]
     derivs = y.derivatives if isinstance(y, AffineScalarFunc) else {}
-    contribs: list[tuple[Input, float, float]] = []
-    for inp in inputs:
-        c = 0.0
-        if inp.name in variables:
-            c = float(derivs.get(variables[inp.name], 0.0))
-        contribs.append((inp, c, abs(c) * inp.u))
+    coefs = [float(derivs.get(variables[inp.name], 0.0)) if inp.name in variables else 0.0 for inp in inputs]
+    contribs: list[tuple[Input, float, float]] = [(inp, c, abs(c) * inp.u) for inp, c in zip(inputs, coefs)]
     uc2 = sum(ci**2 for _, _, ci in contribs)
     budget = [
         BudgetLine(
@@ -167,11 +172,7 @@ def propagate(inputs: list[Input], model: Model, main: str, p: float = 0.95) -> 
         for inp, c, ci in contribs
     ]
     budget.sort(key=lambda b: -b.share)
-    # Welch–Satterthwaite (GUM G.2b)
-    # written with the shares ci²/uc² (≤ 1): uc2**2 overflows for the huge U of a log that barely fits
-    denom = (sum((ci * ci / uc2) ** 2 / inp.dof for inp, _, ci in contribs if math.isfinite(inp.dof) and ci > 0)
-             if 0 < uc2 < math.inf else 0.0)
-    dof = 1.0 / denom if denom > 0 else math.inf
+    dof = _welch_satterthwaite(contribs, uc2)
     k = coverage_factor(dof, p)
     return GumResult(
         values=values,

@@ -28,7 +28,6 @@ LONG_MODULES: dict[str, str] = {
 LONG_FUNCTIONS: dict[str, str] = {
     "calc/simulation/insitu.py::simulate_dissolution_with_calibration": "one simulated scenario written out in full",
     "calc/simulation/kinds.py::simulate_neutralization": "one simulated scenario written out in full",
-    "calc/uncertainty/gum.py::propagate": "GUM propagation with its degrees of freedom and budget in one function",
 }
 
 
