@@ -77,10 +77,19 @@ def _prop(name: str, props: RunProperties, label: str) -> Input:
     return Input(name, v, u, unit, "normal", label=f"{label} [{source}]")
 
 
-def _dt_inputs(dt: DeltaT) -> list[Input]:
+def _dt_inputs(dt: DeltaT, *, start_apart: bool = False) -> list[Input]:
+    """Return ΔT's error components; ``start_apart``: the fore line's level is left out of the fit term.
+
+    A two-solution run's ΔT starts from the fore line's value at the mixing time, so its fit term
+    holds that level's variance. Its model takes the level as an input of its own
+    (:func:`_start_input`) and subtracts it from ΔT, so the level is counted once, with its true
+    sensitivities (docs/methods.md §5.5).
+    """
+    u_fit = math.sqrt(max(dt.u_fit**2 - dt.u_start_temperature**2, 0.0)) if start_apart else dt.u_fit
+    what = "drift fits without the start level" if start_apart else "drift fits"
     return [
-        Input("delta_t.fit", dt.value, dt.u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
-              dt.dof_fit, label=f"corrected ΔT, drift fits ({dt.method})"),
+        Input("delta_t.fit", dt.value, u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
+              dt.dof_fit, label=f"corrected ΔT, {what} ({dt.method})"),
         Input("delta_t.resolution_start", 0.0, dt.u_resolution_start, "K", "rectangular",
               label="thermometer resolution, start level"),
         Input("delta_t.resolution_end", 0.0, dt.u_resolution_end, "K", "rectangular",
@@ -92,6 +101,16 @@ def _dt_inputs(dt: DeltaT) -> list[Input]:
         Input("delta_t.model", 0.0, dt.u_model, "K", "rectangular",
               label="drift model inadequacy (fore+after law against after-only law)"),
     ]
+
+
+def _start_input(name: str, dt: DeltaT, label: str) -> Input:
+    """The fore line's level at the mixing time (a two-solution run's start temperature)."""
+    return Input(name, dt.start_temperature, dt.u_start_temperature, "K", "normal", label=label)
+
+
+def _dT_from_start(x: Mapping[str, Any], name: str, start0: float) -> Any:
+    """ΔT of a two-solution run: the end level minus the start level ``x[name]`` (value at ``start0``)."""
+    return _dT(x) - (x[name] - start0)
 
 
 def _dT(x: Mapping[str, Any]) -> Any:
@@ -176,16 +195,16 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
         _t("base.temperature", spec.get("base", "temperature"), "base temperature before pouring"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
         _cal_input(spec),
-        Input("acid.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
-              label="acid temperature at mixing (fore drift line)"),
-        *_dt_inputs(dt),
+        _start_input("acid.temperature", dt, "acid temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt, start_apart=True),
     ]
+    T_A0 = dt.start_temperature
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         m_a = x["acid.volume"] * x["acid.density"]
         m_b = x["base.volume"] * x["base.density"]
         cp = x["mixture.specific_heat_capacity"]
-        dT = _dT(x)
+        dT = _dT_from_start(x, "acid.temperature", T_A0)  # the start level counted once, in ΔT and in T_A
         C_final = (m_a + m_b) * cp + x["calorimeter.heat_capacity"]
         # the acid's start level carries the start-resolution error of ΔT as well
         T_A = x["acid.temperature"] + x["delta_t.resolution_start"]
@@ -237,16 +256,16 @@ def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
         _prop("warm_water.density", props, "warm water density"),
         _t("warm_water.temperature", spec.get("warm_water", "temperature"), "warm water temperature before pouring"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
-        Input("water.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
-              label="cool water temperature at mixing (fore drift line)"),
-        *_dt_inputs(dt),
+        _start_input("water.temperature", dt, "cool water temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt, start_apart=True),
     ]
+    T_c0 = dt.start_temperature
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         cp = x["mixture.specific_heat_capacity"]
         c_cool = x["water.volume"] * x["water.density"] * cp
         c_warm = x["warm_water.volume"] * x["warm_water.density"] * cp
-        dT = _dT(x)
+        dT = _dT_from_start(x, "water.temperature", T_c0)  # the start level counted once, in ΔT and in T_c
         T_c = x["water.temperature"] + x["delta_t.resolution_start"]
         T_end = T_c + dT
         heat = c_warm * (x["warm_water.temperature"] - T_end)
