@@ -16,9 +16,9 @@ import numpy as np
 
 from calc.deltat.base import DeltaT, Log, method_term, need_windows, register_method, resolution_terms
 from calc.deltat.constructions import AfterNewtonConstruction, JointNewtonConstruction, NewtonianConstruction
-from calc.deltat.drift import LineFit, NewtonFit, fit_newton_joint, fit_newton_single
+from calc.deltat.drift import LineFit, NewtonFit, fit_line, fit_newton_joint, fit_newton_single
 
-__all__ = ["regnault_pfaundler", "classic_k"]
+__all__ = ["regnault_pfaundler", "classic_k", "fore_curvature"]
 
 _NOT_NEWTONIAN_TWO = (
     "after-period drift is not Newtonian (exchange constant k < 0): "
@@ -74,6 +74,25 @@ def classic_k(fore: LineFit, after: LineFit) -> float:
     return k if 0.0 <= k < 1 / 300.0 else 0.0
 
 
+def fore_curvature(log: Log, fore: LineFit, k: float) -> float:
+    """Return what a Newtonian fore drift adds to the straight fore line's value at the mixing time (K).
+
+    Before mixing the contents follow T' = k_A (T_∞ − T), so T'' = −k_A T' ≈ −k_A b: the drift is
+    bent, and a straight line fitted over the fore window and carried to t_i misses by
+    (T''/2)·G, G the line's own extrapolation of (t − t_i)² to t_i (about −L²/6 for a window of
+    length L ending at t_i). The returned correction is k_A b G/2, with k_A taken as the after
+    law's k (the exchange constant of the cup before mixing is not fitted); the caller takes the
+    correction itself as the half-width of a rectangular term, i.e. k_A anywhere in 0–2k
+    (docs/methods.md §8.8).
+    """
+    tf_, _ = log.window("fore")
+    if k <= 0.0 or tf_.size < 3:
+        return 0.0
+    t_i = log.periods.mixing_time
+    G = fit_line(tf_, (tf_ - t_i) ** 2).at(t_i)
+    return 0.5 * k * fore.b * G
+
+
 @dataclass(frozen=True)
 class _Setup:
     """What differs between one- and two-solution runs: the fit, ΔT(parameters) and the start level."""
@@ -94,8 +113,9 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     ta_, ya_ = log.window("after")
     nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
-    T_A = fore.at(t_i)
-    var_TA = fore.var_at(t_i)
+    bend = fore_curvature(log, fore, max(nf.k, 0.0))
+    T_A = fore.at(t_i) + bend
+    var_TA = fore.var_at(t_i) + bend * bend / 3.0
 
     def dT_of(p: np.ndarray) -> float:
         y_f, g_f, k = p
