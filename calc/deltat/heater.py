@@ -35,6 +35,9 @@ __all__ = ["HEATER_LAG_S", "MIN_LAG_S", "heater_off_time", "after_heater_off", "
 HEATER_LAG_S = 30.0
 #: The shortest lag accepted, with a widened uncertainty.
 MIN_LAG_S = 10.0
+#: An after period at least this long (and starting HEATER_LAG_S or more after switch-off) gets no
+#: stability term: five minutes, as the warning advises (docs/methods.md §8.9).
+SETTLED_AFTER_S = 300.0
 
 
 def heater_off_time(mixing_time: float, duration_s: float) -> float:
@@ -89,11 +92,11 @@ def lag_term(dt_value: float, periods: Periods, t: np.ndarray, duration_s: float
 
     ``redo(after)`` returns ΔT with another after period. The half-width is the change of ΔT when
     the after period starts half-way through the readings left (rectangular, u = a/√3); zero when the
-    after period starts :data:`HEATER_LAG_S` or more after the heater stops and lasts 2 minutes.
+    after period starts :data:`HEATER_LAG_S` or more after the heater stops and lasts :data:`SETTLED_AFTER_S`.
     """
     t_off = heater_off_time(periods.mixing_time, duration_s)
     start, end = periods.after
-    if start >= t_off + HEATER_LAG_S - 1e-9 and end - start >= 120.0:
+    if start >= t_off + HEATER_LAG_S - 1e-9 and end - start >= SETTLED_AFTER_S:
         return 0.0
     later = t[(t >= 0.5 * (start + end)) & (t <= end)]
     if later.size < MIN_WINDOW_POINTS // 2 or later[0] <= start:
