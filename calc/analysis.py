@@ -19,11 +19,11 @@ import numpy as np
 from calc import limits
 from calc.checks import run_checks
 from calc.composition import final_composition, resolve_properties
+from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
 from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.deltat.logprep import PreparedLog, gap_warnings, prepare_log
-from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
-from calc.deltat.registry import corrected_delta_t
 from calc.deltat.periods import Periods, find_periods
+from calc.deltat.registry import corrected_delta_t
 from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings, read_readings
 from calc.io.runfile import RunSpec, load_run

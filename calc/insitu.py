@@ -36,9 +36,9 @@ from scipy.optimize import least_squares
 
 from calc.deltat.base import resolution_term
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation, phi
-from calc.errors import AnalysisError, InputError
 from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.periods import MIN_WINDOW_POINTS, Periods, detect_mixing_time, find_periods
+from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
 

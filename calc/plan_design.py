@@ -16,9 +16,13 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.composition import resolve_properties
+from calc.deltat.base import (
+    DEFAULT_METHOD,
+    METHOD_TERMS,
+    DeltaT,
+    resolution_term,  # the analysis's own resolution term
+)
 from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
-from calc.deltat.base import DEFAULT_METHOD, METHOD_TERMS, DeltaT
-from calc.deltat.base import resolution_term  # the analysis's own resolution term
 from calc.errors import InputError
 from calc.io.quantities import Measured
 from calc.io.runfile import RunSpec, parse_run
@@ -40,8 +44,15 @@ SHEPPARD_RATIO = 5.0
 MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
 
 
-Thermo = NamedTuple("Thermo", [("q", float), ("sigma", float), ("phi", float), ("interval", float),
-                                  ("fore", float), ("after", float), ("tau_r", float), ("tau_s", float)])
+class Thermo(NamedTuple):
+    q: float
+    sigma: float
+    phi: float
+    interval: float
+    fore: float
+    after: float
+    tau_r: float
+    tau_s: float
 
 
 def timing(th: Thermo, two_solution: bool) -> dict[str, float]:
@@ -153,8 +164,13 @@ class Design:
         return spec
 
 
-Evaluation = NamedTuple("Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", RunProperties),
-                                          ("model", ModelSpec), ("expected", float), ("note", str)])
+class Evaluation(NamedTuple):
+    spec: RunSpec
+    dt: DeltaT
+    props: RunProperties
+    model: ModelSpec
+    expected: float
+    note: str
 
 
 def expected_result(design: Design, molality: float | None, T: float) -> tuple[float, str]:

@@ -17,8 +17,7 @@ def find_section(session, text: str):  # type: ignore[no-untyped-def]
     """Return the section given as an id or as ``COURSE/SECTION``."""
     import sqlalchemy as sa
 
-    from webapp.models import Course
-    from webapp.models import Section
+    from webapp.models import Course, Section
 
     text = text.strip()
     if text.isdigit():

@@ -58,8 +58,7 @@ def downgrade(revision: str) -> None:
 @db.command()
 def current() -> None:
     """Show the revision the database is at."""
-    from webapp.migrate import current_revision
-    from webapp.migrate import head_revision
+    from webapp.migrate import current_revision, head_revision
 
     app = command_app()
     rev = current_revision(_url(app))
@@ -96,8 +95,7 @@ def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
 def _load_demo(app, demo_dir: Path) -> bool:  # type: ignore[no-untyped-def]
     """Load the demo into an empty database; return whether it was loaded."""
     from webapp.db import new_session
-    from webapp.services.demo import is_empty
-    from webapp.services.demo import load_demo
+    from webapp.services.demo import is_empty, load_demo
     from webapp.services.errors import ServiceError
 
     with app.app_context():
@@ -149,8 +147,7 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
         sys.exit(2)
     from webapp.db import new_session
     from webapp.migrate import upgrade as do_upgrade
-    from webapp.services.demo import demo_sign_ins
-    from webapp.services.demo import has_demo
+    from webapp.services.demo import demo_sign_ins, has_demo
 
     app = command_app()
     do_upgrade(_url(app), "head")
@@ -205,10 +202,7 @@ def import_command(path: Path, section_text: str | None, mapping: Path | None, e
     from webapp.db import new_session
     from webapp.models import Person
     from webapp.services.errors import ServiceError
-    from webapp.services.imports import files_from_folder
-    from webapp.services.imports import files_from_zip
-    from webapp.services.imports import import_files
-    from webapp.services.imports import runs_in
+    from webapp.services.imports import files_from_folder, files_from_zip, import_files, runs_in
 
     app = command_app()
     with app.app_context():
@@ -252,8 +246,7 @@ def backup_command(out: Path, force: bool) -> None:
     SQLite: a copy made with SQLite's online backup API. PostgreSQL: a pg_dump
     custom-format archive (needs pg_dump on this machine).
     """
-    from webapp.backup import BackupError
-    from webapp.backup import backup
+    from webapp.backup import BackupError, backup
 
     app = command_app()
     try:
@@ -271,8 +264,7 @@ def restore_command(source: Path, force: bool) -> None:
 
     Only an empty database is restored into, unless --force. Stop the notebook first.
     """
-    from webapp.backup import BackupError
-    from webapp.backup import restore
+    from webapp.backup import BackupError, restore
 
     app = command_app()
     try:

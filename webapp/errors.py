@@ -10,21 +10,13 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from flask import Flask, Response, jsonify, render_template, request
+from flask_wtf.csrf import CSRFError
+from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from calc.errors import CupcalError
 from calc.limits import LimitExceeded
-from flask import Flask
-from flask import Response
-from flask import jsonify
-from flask import render_template
-from flask import request
-from flask_wtf.csrf import CSRFError
-from werkzeug.exceptions import HTTPException
-from werkzeug.exceptions import RequestEntityTooLarge
-
-from webapp.services.errors import ServiceError
-from webapp.services.errors import Stale
-from webapp.services.errors import storage_error
+from webapp.services.errors import ServiceError, Stale, storage_error
 
 
 def wants_json() -> bool:

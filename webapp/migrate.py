@@ -16,6 +16,7 @@ from alembic.config import Config
 
 from webapp.db import normalize_url
 
+
 def _migrations_dir() -> Path:
     """Return the folder of the Alembic migrations: the copy a wheel carries inside the package
     (``webapp/_migrations``, made by setup.py), else the repository's ``migrations/`` (editable)."""

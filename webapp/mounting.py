@@ -15,8 +15,7 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping
 from typing import Any
 
-from flask import Flask
-from flask import current_app
+from flask import Flask, current_app
 from werkzeug.middleware.dispatcher import DispatcherMiddleware
 
 

@@ -13,19 +13,13 @@ import datetime as dt
 import textwrap
 import threading
 from collections import OrderedDict
-from collections.abc import Callable
-from collections.abc import Hashable
-from collections.abc import Sequence
+from collections.abc import Callable, Hashable, Sequence
 from xml.sax.saxutils import escape
 
-from calc.uncertainty.gum import BudgetLine
-from flask import Flask
-from flask import Response
-from flask import current_app
+from flask import Flask, Response, current_app
 
-from webapp.models import Calibration
-from webapp.models import Result
-from webapp.models import Run
+from calc.uncertainty.gum import BudgetLine
+from webapp.models import Calibration, Result, Run
 from webapp.quantities import main_value
 
 _EXT = "cupcal_plot_cache"

@@ -15,9 +15,7 @@ plain http://127.0.0.1 keeps working; turn it on whenever the notebook is served
 
 from __future__ import annotations
 
-from flask import Flask
-from flask import Response
-from flask import request
+from flask import Flask, Response, request
 
 #: the policy of every page, API answer and static file that sets none of its own
 CSP = ("default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; object-src 'none'; "

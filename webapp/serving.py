@@ -14,7 +14,6 @@ from typing import Any
 
 from flask import Flask
 
-
 #: threads per gunicorn worker (the gthread worker class): open event streams plus ordinary requests
 GTHREAD_THREADS = 32
 

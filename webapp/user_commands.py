@@ -37,10 +37,9 @@ def _session() -> Iterator[tuple[Any, Any]]:
 
 
 def _people(session: Any, keys: tuple[str, ...], section: int | None) -> list[Any]:
-    from webapp.services.accounts import find_person
-    from webapp.services.accounts import section_people
-    from webapp.services.errors import ServiceError
     from webapp.models import Section
+    from webapp.services.accounts import find_person, section_people
+    from webapp.services.errors import ServiceError
 
     people: list[Any] = []
     if section is not None:
@@ -111,8 +110,7 @@ def set_password(person: str, password_stdin: bool, keep: bool) -> None:
               help="Write the links to this CSV file (name, email, group, link, expires) instead of printing them.")
 def links(people: tuple[str, ...], section: int | None, base_url: str, days: int, csv_path: Path | None) -> None:
     """Make one-time sign-in links for PEOPLE (e-mail addresses or ids) or a whole --section."""
-    from webapp.services.accounts import issue_links
-    from webapp.services.accounts import links_csv
+    from webapp.services.accounts import issue_links, links_csv
     from webapp.services.errors import ServiceError
 
     with _session() as (_app, session):

@@ -19,9 +19,9 @@ def webhooks() -> None:
               help="seconds to wait for each receiver (default: the limit webhook_timeout_s)")
 def deliver(loop: float | None, timeout: float | None) -> None:
     """Attempt every pending delivery whose next attempt is due; print one line per attempt."""
+    from calc import limits
     from webapp import create_app
     from webapp.db import new_session
-    from calc import limits
     from webapp.services.webhook_guard import guard_from_config
     from webapp.services.webhooks import deliver_due
 

@@ -18,8 +18,8 @@ from typing import Any, NamedTuple
 
 import click
 
-from calc.errors import CupcalError
 from calc import __version__
+from calc.errors import CupcalError
 
 __all__ = ["COMMANDS", "cli", "main"]
 

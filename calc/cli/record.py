@@ -148,7 +148,7 @@ class _Stop:
         self.event = threading.Event()
         self._old: dict[int, Any] = {}
 
-    def __enter__(self) -> "_Stop":
+    def __enter__(self) -> _Stop:
         for signum in (signal.SIGINT, signal.SIGTERM):
             self._old[signum] = signal.signal(signum, lambda *_: self.event.set())
         return self

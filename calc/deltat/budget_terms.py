@@ -14,8 +14,8 @@ Each is written out in ``docs/methods.md``.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import replace
-from typing import Callable
 
 import numpy as np
 

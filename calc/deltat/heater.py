@@ -24,8 +24,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from calc.errors import InputError
 from calc.deltat.periods import MIN_WINDOW_POINTS, Periods
+from calc.errors import InputError
 
 __all__ = ["HEATER_LAG_S", "MIN_LAG_S", "heater_off_time", "after_heater_off", "lag_term", "widened",
            "heater_periods"]

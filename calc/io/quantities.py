@@ -30,8 +30,15 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from calc.errors import InputError
-from calc.io.unit_text import (TEXT, canonical_unit, check_unit, describe_dimension, expectation,
-                               is_absolute_temperature, is_time)
+from calc.io.unit_text import (
+    TEXT,
+    canonical_unit,
+    check_unit,
+    describe_dimension,
+    expectation,
+    is_absolute_temperature,
+    is_time,
+)
 from calc.io.units import Q_, ureg
 
 __all__ = ["Measured", "parse_measured", "describe_dimension", "default_uncertainty"]

@@ -44,8 +44,8 @@ import numpy as np
 
 from calc import limits
 from calc.errors import InputError
-from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
 from calc.io.files import read_limited
+from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
 from calc.io.logger_formats import normalize_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]

@@ -20,10 +20,10 @@ from typing import Any
 
 from calc import limits
 from calc.errors import InputError
-from calc.limits import require_number
 from calc.io.files import read_limited
 from calc.io.quantities import Measured, parse_measured
 from calc.io.schema import CALORIMETER_TYPES, KINDS, REQUIRED_SECTIONS, SCHEMA, TOP_FIELDS, Field
+from calc.limits import require_number
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "REQUIRED_SECTIONS", "CALORIMETER_TYPES"]
 

@@ -15,7 +15,6 @@ from functools import lru_cache
 import pint
 
 
-
 def _registry() -> pint.UnitRegistry:
     try:
         return pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")

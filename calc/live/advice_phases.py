@@ -16,11 +16,11 @@ from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.logprep import PreparedLog
 from calc.errors import InputError
 from calc.io.runfile import RunSpec
+from calc.kinds import get_kind
 from calc.live import advice_signals as sig
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
 from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
-from calc.kinds import get_kind
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
            "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S"]

@@ -23,9 +23,10 @@ import json
 import os
 import time
 import uuid
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from calc.errors import InputError
 from calc.live.devices import DeviceProfile
@@ -64,7 +65,7 @@ class Sidecar:
     notebook: str | None = None
 
     @classmethod
-    def read(cls, path: Path) -> "Sidecar":
+    def read(cls, path: Path) -> Sidecar:
         """Read the sidecar at ``path``; refuse one that is not ours."""
         try:
             data = json.loads(path.read_text(encoding="utf-8"))

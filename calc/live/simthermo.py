@@ -16,7 +16,7 @@ from __future__ import annotations
 import os
 import threading
 import time
-from typing import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 
 import numpy as np
 

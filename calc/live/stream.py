@@ -17,7 +17,8 @@ import threading
 import time
 import urllib.error
 import urllib.request
-from typing import Any, Callable, Sequence
+from collections.abc import Callable, Sequence
+from typing import Any
 
 from calc.errors import CupcalError
 

@@ -34,10 +34,23 @@ from functools import lru_cache
 from calc.errors import InputError
 from calc.refdata import laliberte
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
-from calc.refdata.water import (GRID_FILE, GRID_NODES, IAPWS_MODEL, R_GAS, T_MAX_K, T_MIN_K,  # noqa: F401
-                                U_REL_WATER_CP, U_REL_WATER_DENSITY, ModelledProperty, _check_T, _iapws_direct,
-                                debye_huckel_slopes, water_density, water_dielectric_constant,
-                                water_specific_heat)
+from calc.refdata.water import (  # noqa: F401
+    GRID_FILE,
+    GRID_NODES,
+    IAPWS_MODEL,
+    R_GAS,
+    T_MAX_K,
+    T_MIN_K,
+    U_REL_WATER_CP,
+    U_REL_WATER_DENSITY,
+    ModelledProperty,
+    _check_T,
+    _iapws_direct,
+    debye_huckel_slopes,
+    water_density,
+    water_dielectric_constant,
+    water_specific_heat,
+)
 
 __all__ = [
     "ModelledProperty",

@@ -18,11 +18,11 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from calc.refdata.dilution import PhiL, phi_L
 from calc.errors import InputError
 from calc.kinds import REGISTRY
-from calc.refdata.hess import citation, formation_enthalpy, hess
+from calc.refdata.dilution import PhiL, phi_L
 from calc.refdata.formula import element_composition, molar_mass
+from calc.refdata.hess import citation, formation_enthalpy, hess
 from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [

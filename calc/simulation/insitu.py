@@ -10,23 +10,13 @@ difference of two :class:`~calc.simulation.model.LumpedModel` runs with and with
 from __future__ import annotations
 
 import math
-from typing import Any
-from typing import Unpack
+from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.kinds import WATER_CP
-from calc.simulation.kinds import WATER_DENSITY
-from calc.simulation.kinds import _release_kw
-from calc.simulation.kinds import _solid_in_liquid
-from calc.simulation.kinds import formula_molar_mass
-from calc.simulation.model import LumpedModel
-from calc.simulation.model import read_probe
-from calc.simulation.run import RunContext
-from calc.simulation.run import RunOptions
-from calc.simulation.run import SimTruth
-from calc.simulation.run import SimulatedRun
-from calc.simulation.run import _decimals
+from calc.simulation.kinds import WATER_CP, WATER_DENSITY, _release_kw, _solid_in_liquid, formula_molar_mass
+from calc.simulation.model import LumpedModel, read_probe
+from calc.simulation.run import RunContext, RunOptions, SimTruth, SimulatedRun, _decimals
 
 __all__ = ["simulate_dissolution_with_calibration"]
 

@@ -14,8 +14,8 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulation.scenarios import random_scenario
 from calc.simulation.run import SimulatedRun
+from calc.simulation.scenarios import random_scenario
 
 __all__ = ["realistic_scenario"]
 

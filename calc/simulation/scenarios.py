@@ -9,12 +9,14 @@ import numpy as np
 
 from calc.errors import InputError
 from calc.kinds import REGISTRY
-from calc.simulation.kinds import formula_molar_mass
-from calc.simulation.kinds import simulate_dissolution
-from calc.simulation.kinds import simulate_electrical_calibration
-from calc.simulation.kinds import simulate_mixing_calibration
-from calc.simulation.kinds import simulate_neutralization
-from calc.simulation.kinds import simulate_reaction
+from calc.simulation.kinds import (
+    formula_molar_mass,
+    simulate_dissolution,
+    simulate_electrical_calibration,
+    simulate_mixing_calibration,
+    simulate_neutralization,
+    simulate_reaction,
+)
 from calc.simulation.run import SimulatedRun
 
 __all__ = ["random_scenario"]

@@ -18,11 +18,11 @@ from typing import Any
 
 from calc.deltat.base import DeltaT
 from calc.errors import InputError
-from calc.uncertainty.gum import Input, xmin
 from calc.io.quantities import Measured
-from calc.refdata.formula import molar_mass
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
+from calc.refdata.formula import molar_mass
+from calc.uncertainty.gum import Input, xmin
 
 __all__ = ["ModelSpec", "RunProperties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
            "mixing_model", "reaction_model", "EQUIVALENTS"]

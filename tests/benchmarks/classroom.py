@@ -12,8 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 
 #: a cheap password hash: sign-in is not what these benchmarks measure
 FAST = "scrypt:1024:8:1"

@@ -26,16 +26,9 @@ from typing import Any
 
 import requests
 
-from tests.benchmarks.live_setup import COORDINATOR
-from tests.benchmarks.live_setup import StreamReader
-from tests.benchmarks.live_setup import gunicorn
-from tests.benchmarks.live_setup import seed
-from tests.benchmarks.live_setup import signed_in
-from tests.benchmarks.load_test import RESULTS
-from tests.benchmarks.load_test import fresh_database
-from tests.benchmarks.load_test import tree_cpu_s
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
+from tests.benchmarks.live_setup import COORDINATOR, StreamReader, gunicorn, seed, signed_in
+from tests.benchmarks.load_test import RESULTS, fresh_database, tree_cpu_s
+from tests.webapp.live_helpers import demo_rows, live_run_file
 
 
 def parse_args(argv: list[str] | None) -> argparse.Namespace:

@@ -10,19 +10,13 @@ import re
 import subprocess
 import threading
 import time
-import urllib.request
-from collections.abc import Callable
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
 import requests
 
-from tests.benchmarks.load_test import FAST_HASH
-from tests.benchmarks.load_test import GUNICORN
-from tests.benchmarks.load_test import REPO
-from tests.benchmarks.load_test import free_port
-from tests.benchmarks.load_test import served
+from tests.benchmarks.load_test import FAST_HASH, GUNICORN, REPO, free_port, served
 from webapp.serving import GTHREAD_THREADS
 
 PASSWORD = "live bench password"
@@ -33,14 +27,10 @@ def seed(url: str, runs: int) -> dict[str, Any]:
     """Migrate; make a coordinator, one section with ``runs`` benches and groups, a student with a "live"
     token per bench; return the section id and each bench's (name, token)."""
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
-    from webapp.services.classes import create_bench
-    from webapp.services.classes import create_section
-    from webapp.services.people import create_course
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
+    from webapp.services.classes import create_bench, create_section
+    from webapp.services.people import create_course, create_group, create_person
     from webapp.services.tokens import issue_scoped_token
 
     upgrade(url)

@@ -16,8 +16,7 @@ import re
 import resource
 import time
 import uuid
-from dataclasses import dataclass
-from dataclasses import field
+from dataclasses import dataclass, field
 from typing import Any
 from urllib.parse import urlencode
 

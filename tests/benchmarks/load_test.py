@@ -45,11 +45,7 @@ from typing import Any
 import psutil
 import sqlalchemy as sa
 
-from tests.benchmarks.load_clients import ClientPlan
-from tests.benchmarks.load_clients import ClientReport
-from tests.benchmarks.load_clients import run_client
-from tests.benchmarks.load_clients import summarise
-from tests.benchmarks.load_clients import table
+from tests.benchmarks.load_clients import ClientPlan, ClientReport, run_client, summarise, table
 
 REPO = Path(__file__).resolve().parents[2]
 RESULTS = REPO / "bench-results"
@@ -107,8 +103,7 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
     """Migrate the database at ``url``; yield (app, session, coordinator, technician), both people named
     after ``who`` (``coord@<who>.example``); close the session and the engine afterwards."""
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.people import create_person
 
@@ -129,9 +124,7 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
 def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
     """Migrate and seed the database; return each client's (e-mail, token) and the Monte Carlo trials."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
     with seeded(url, "load") as (app, s, coord, _tech):
         create_calorimeter(s, coord, name=CALORIMETER, parts="two nested foam cups, lid")
@@ -148,8 +141,7 @@ def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
 def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, Any]:
     """Compare the stored runs with the acknowledged ones: lost, unacknowledged, duplicated, results."""
     from webapp.db import make_engine
-    from webapp.models import Result
-    from webapp.models import Run
+    from webapp.models import Result, Run
     from webapp.services.integrity import check_database as integrity_check
 
     engine = make_engine(url)

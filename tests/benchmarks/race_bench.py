@@ -24,19 +24,16 @@ import urllib.request
 from pathlib import Path
 from typing import Any
 
-from tests.benchmarks.load_test import FAST_HASH
-from tests.benchmarks.load_test import PASSWORD
-from tests.benchmarks.load_test import RESULTS
-from tests.benchmarks.load_test import fresh_database
-from tests.benchmarks.load_test import gunicorn
-from tests.benchmarks.load_test import seeded
-from tests.webapp.race_trials import DEMO
-from tests.webapp.race_trials import Tally
-from tests.webapp.race_trials import lock_vs_calibration
-from tests.webapp.race_trials import lock_vs_patch
-from tests.webapp.race_trials import lock_vs_reanalysis
-from tests.webapp.race_trials import lost_updates
-from tests.webapp.race_trials import upload_run
+from tests.benchmarks.load_test import FAST_HASH, PASSWORD, RESULTS, fresh_database, gunicorn, seeded
+from tests.webapp.race_trials import (
+    DEMO,
+    Tally,
+    lock_vs_calibration,
+    lock_vs_patch,
+    lock_vs_reanalysis,
+    lost_updates,
+    upload_run,
+)
 
 CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 
@@ -44,9 +41,7 @@ CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 def seed(url: str) -> tuple[dict[str, str], int, int]:
     """Migrate and seed: a coordinator, a technician, two students of one group (tokens), two cups."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
     with seeded(url, "race") as (_app, s, coord, tech):
         group = create_group(s, coord, name="Race group")

@@ -17,9 +17,9 @@ from __future__ import annotations
 
 import io
 import json
-import time
 import os
 import resource
+import time
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -35,8 +35,7 @@ from calc.simulation.kinds import simulate_dissolution
 from calc.simulation.run import write_run
 from tests.webapp.conftest import FAST_HASH
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 
 SECONDS, MEGABYTES = 5.0, 300.0
@@ -93,8 +92,7 @@ def world(tmp_path_factory: pytest.TempPathFactory) -> Any:
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "PASSWORD_METHOD": FAST_HASH})
     app.instance_path = str(d / "instance")
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_person, issue_token
 
     s = new_session(app)
     coord = create_person(s, email="c@lab.example", name="C", role="coordinator", password="x" * 12,

@@ -16,12 +16,10 @@ from typing import Any
 import psutil
 import pytest
 
-from tests.benchmarks.classroom import class_notebook
-from tests.benchmarks.classroom import simulate_class
+from tests.benchmarks.classroom import class_notebook, simulate_class
 from tests.benchmarks.webapp_bench import time_ms
 from webapp.db import get_engine
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 GROUPS, REPEATS = 300, 3
 

@@ -21,14 +21,9 @@ import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
-from tests.benchmarks.test_class_scale import FAST
-from tests.benchmarks.test_class_scale import PeakRSS
-from tests.webapp.eln_helpers import counts
-from tests.webapp.eln_helpers import demo_source
-from tests.webapp.eln_helpers import dispose
-from tests.webapp.eln_helpers import snapshot
+from calc.simulation.simulator import simulate_dissolution, write_run
+from tests.benchmarks.test_class_scale import FAST, PeakRSS
+from tests.webapp.eln_helpers import counts, demo_source, dispose, snapshot
 from tests.webapp.test_eln import HOSTILE
 from webapp import create_app
 from webapp.db import new_session
@@ -38,8 +33,7 @@ from webapp.services import eln
 from webapp.services.classes import import_roster
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.people import create_person
 
 GROUPS, REPEATS = 300, 3

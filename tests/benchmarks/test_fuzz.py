@@ -13,13 +13,15 @@ from collections import Counter
 from typing import Any
 
 from tests.calc.test_cli_fuzz import fuzz_cli
-from tests.webapp.conftest import app  # noqa: F401  (fixtures: SQLite and PostgreSQL)
-from tests.webapp.conftest import database_url  # noqa: F401
-from tests.webapp.conftest import lab  # noqa: F401
-from tests.webapp.conftest import pg_database  # noqa: F401
-from tests.webapp.conftest import pg_server  # noqa: F401
-from tests.webapp.conftest import session  # noqa: F401
-from tests.webapp.conftest import sqlite_template  # noqa: F401
+from tests.webapp.conftest import (
+    app,  # noqa: F401  (fixtures: SQLite and PostgreSQL)
+    database_url,  # noqa: F401
+    lab,  # noqa: F401
+    pg_database,  # noqa: F401
+    pg_server,  # noqa: F401
+    session,  # noqa: F401
+    sqlite_template,  # noqa: F401
+)
 from tests.webapp.test_fuzz_requests import fuzz
 
 PER_DATABASE = 5000

@@ -16,12 +16,10 @@ import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 from tests.benchmarks.webapp_bench import time_ms
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 
 GROUPS, REPEATS = 80, 3
@@ -30,16 +28,11 @@ FAST = "scrypt:1024:8:1"
 
 @pytest.fixture(scope="module")
 def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
-    from webapp.models import Group
-    from webapp.models import Run
-    from webapp.models import Section
+    from webapp.models import Group, Run, Section
     from webapp.services.classes import import_roster
-    from webapp.services.comments import add_group_comment
-    from webapp.services.comments import add_run_comment
-    from webapp.services.imports import files_from_folder
-    from webapp.services.imports import import_files
-    from webapp.services.marks import set_mark
-    from webapp.services.marks import set_scheme
+    from webapp.services.comments import add_group_comment, add_run_comment
+    from webapp.services.imports import files_from_folder, import_files
+    from webapp.services.marks import set_mark, set_scheme
     from webapp.services.people import create_person
     from webapp.services.review import review_run
 

@@ -16,13 +16,10 @@ from typing import Any
 
 import pytest
 
-from tests.benchmarks.classroom import COORDINATOR
-from tests.benchmarks.classroom import class_notebook
-from tests.benchmarks.classroom import simulate_class
+from tests.benchmarks.classroom import COORDINATOR, class_notebook, simulate_class
 from tests.benchmarks.webapp_bench import time_ms
 from webapp.db import get_engine
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 GROUPS, REPEATS = int(__import__("os").environ.get("LAB_GROUPS", 80)), 3
 TARGETS_MS = {"dashboard": 300.0, "export": 1000.0, "series": 200.0}

@@ -18,8 +18,8 @@ import psutil
 import pytest
 
 from calc.analysis import analyze_run
-from calc.uncertainty.gum import monte_carlo
 from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run
+from calc.uncertainty.gum import monte_carlo
 
 N_FILES = 1000
 

@@ -13,11 +13,11 @@ import time
 
 import numpy as np
 
-from calc.statistics.control_charts import control_chart
 from calc.plan import plan_run
-from calc.statistics.replicates import summarize_series
 from calc.statistics.cochran_test import cochran
+from calc.statistics.control_charts import control_chart
 from calc.statistics.precision import grubbs, iso5725, mandel_h_k
+from calc.statistics.replicates import summarize_series
 from calc.statistics.robust import robust_mean_sd
 
 

@@ -13,11 +13,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.benchmarks.webapp_bench import app_with_a_long_run
-from tests.benchmarks.webapp_bench import time_ms
+from tests.benchmarks.webapp_bench import app_with_a_long_run, time_ms
 from webapp.db import new_session
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Result, Run
 
 PASSWORD = "benchmark password"
 N_RUNS = 5000

@@ -6,21 +6,17 @@ import io
 import re
 import statistics
 import time
-from collections.abc import Callable
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
-from webapp.services.people import create_person
-from webapp.services.people import issue_token
+from webapp.services.people import create_person, issue_token
 
 PASSWORD = "benchmark password"
 

@@ -34,9 +34,9 @@ import numpy as np
 import statsmodels.api as sm
 from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
+from calc.deltat.base import resolution_term
 from calc.deltat.budget_terms import slope_floor
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation
-from calc.deltat.base import resolution_term
 from calc.deltat.logprep import prepare_log
 from calc.simulation.realistic import realistic_scenario
 

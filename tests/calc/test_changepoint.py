@@ -14,8 +14,8 @@ import pytest
 from calc.analysis import analyze_run
 from calc.deltat.budget_terms import slope_floor
 from calc.deltat.changepoint import detect_mixing_time
-from calc.errors import InputError
 from calc.deltat.logprep import gap_warnings, prepare_log
+from calc.errors import InputError
 from calc.simulation.simulator import simulate_dissolution, simulate_electrical_calibration, write_run
 
 

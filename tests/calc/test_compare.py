@@ -10,8 +10,8 @@ import math
 
 import pytest
 
-from calc.refdata.comparison import compare
 from calc.errors import InputError
+from calc.refdata.comparison import compare
 from calc.refdata.reference import ReferenceValue, find_reference, neutralization_reference, solution_enthalpy
 
 

@@ -15,8 +15,8 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from calc.deltat.base import Log
-from calc.deltat.registry import METHODS, corrected_delta_t
 from calc.deltat.periods import find_periods
+from calc.deltat.registry import METHODS, corrected_delta_t
 from tests.calc.closed_form import probe_temperature, true_temperature
 
 BASE = dict(T_inf=295.15, k=1 / 3600, T0=294.65, t_m=300.0, D=2.0, k_r=1 / 20, s=1 / 5)

@@ -21,9 +21,8 @@ Two checks (docs/methods.md §8.7):
 
 from __future__ import annotations
 
-import pytest
-
 import jax  # pytzer's array library (CPU); both in the `test` extra
+import pytest
 import pytzer as pz
 
 from calc.refdata.dilution import phi_L

@@ -14,7 +14,6 @@ import iapws
 import pytest
 
 from calc.errors import InputError
-from calc.refdata.water import _iapws_direct
 from calc.refdata.properties import (
     FALLBACK_HALF_WIDTH_CP,
     FALLBACK_HALF_WIDTH_DENSITY,
@@ -30,6 +29,7 @@ from calc.refdata.properties import (
     water_dielectric_constant,
     water_specific_heat,
 )
+from calc.refdata.water import _iapws_direct
 
 # --------------------------------------------------------------------------- water
 

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from calc.errors import InputError
-from calc.uncertainty.gum import BudgetLine, coverage_factor
 from calc.statistics.replicates import birge_ratio, shared_type_b, summarize_series
+from calc.uncertainty.gum import BudgetLine, coverage_factor
 
 # GUM (JCGM 100:2008) Table G.2, t_p(ν) for p = 95 % (from memory; docs/methods.md §5.2 for 2, 3, 4, 9, ∞).
 GUM_G2_95 = {1: 12.71, 2: 4.30, 3: 3.18, 4: 2.78, 5: 2.57, 6: 2.45, 7: 2.36, 8: 2.31, 9: 2.26, 10: 2.23,

@@ -14,16 +14,18 @@ from molmass import Formula
 from scipy.integrate import quad
 
 from calc.errors import InputError
-from calc.simulation.simulator import LumpedModel
-from calc.simulation.simulator import ar1_noise
-from calc.simulation.simulator import first_order_release_curve
-from calc.simulation.simulator import random_scenario
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import simulate_electrical_calibration
-from calc.simulation.simulator import simulate_mixing_calibration
-from calc.simulation.simulator import simulate_neutralization
-from calc.simulation.simulator import simulate_reaction
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import (
+    LumpedModel,
+    ar1_noise,
+    first_order_release_curve,
+    random_scenario,
+    simulate_dissolution,
+    simulate_electrical_calibration,
+    simulate_mixing_calibration,
+    simulate_neutralization,
+    simulate_reaction,
+    write_run,
+)
 
 REPO = Path(__file__).resolve().parents[2]
 KINDS = ("dissolution", "neutralization", "electrical-calibration", "mixing-calibration", "reaction")

@@ -47,8 +47,8 @@ def test_intervals_hold_under_stirring_noise_correlated_over_5_to_30_s(tau_c):
     from scipy.stats import t as student
 
     from calc.deltat.base import Log
-    from calc.deltat.registry import corrected_delta_t
     from calc.deltat.periods import find_periods
+    from calc.deltat.registry import corrected_delta_t
     from calc.simulation.simulator import simulate_dissolution
 
     n, held = 80, 0

@@ -53,8 +53,7 @@ def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequ
     from werkzeug.serving import make_server
 
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.demo import load_demo
 

@@ -21,12 +21,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.postgres import PostgresServer
-from tests.webapp.postgres import PostgresUnavailable
-from tests.webapp.postgres import start_server
+from tests.webapp.postgres import PostgresServer, PostgresUnavailable, start_server
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 from webapp.models import Base
 
@@ -173,9 +170,7 @@ def lab(app: Any, session: Any) -> Lab:
     ``cup`` has no heat capacity yet; ``spare`` has one entered by hand.
     """
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
     coord = create_person(session, email="coord@lab.example", name="Coordinator C", role="coordinator",
                           password=PASSWORD, password_method=FAST_HASH)

@@ -14,28 +14,16 @@ from typing import Any
 import sqlalchemy as sa
 
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
+from webapp.exports.document import run_document
 from webapp.migrate import upgrade
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Run
+from webapp.models import AuditEntry, Calibration, Calorimeter, Person, Run
 from webapp.services import eln
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.calibrations import current_calibration
-from webapp.services.calibrations import enter_heat_capacity
-from webapp.services.calibrations import pool_candidates
-from webapp.services.calibrations import withdraw_calibration
-from webapp.services.demo import PEOPLE
-from webapp.services.demo import SPARE_CUP
-from webapp.services.demo import load_demo
+from webapp.services.calibrations import current_calibration, enter_heat_capacity, pool_candidates, withdraw_calibration
 from webapp.services.concurrency import content_hash
-from webapp.exports.document import run_document
-from webapp.services.runs import lock_run
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import update_run
+from webapp.services.demo import PEOPLE, SPARE_CUP, load_demo
+from webapp.services.runs import lock_run, reanalyse_run, update_run
 
 FAST_HASH = "scrypt:1024:8:1"
 FIXED = dt.datetime(2026, 1, 1)

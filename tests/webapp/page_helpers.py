@@ -9,12 +9,9 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import DEMO
 from calc.io.runfile import SCHEMA
-
-from tests.webapp.conftest import csrf_token
-from webapp.models import Result
-from webapp.models import Run
+from tests.webapp.conftest import DEMO, csrf_token
+from webapp.models import Result, Run
 
 _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")
 

@@ -20,8 +20,7 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from webapp.models import AuditEntry
-from webapp.models import Run
+from webapp.models import AuditEntry, Run
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 Caller = Callable[..., tuple[int, Any]]
@@ -64,9 +63,9 @@ class Tally:
 
 def lock_problems(engine: sa.Engine, run_id: int) -> list[str]:
     """Return what ``cupcal db check`` finds wrong with one locked run."""
-    from webapp.services.integrity_locks import _run_problems
-
     import sqlalchemy.orm as so
+
+    from webapp.services.integrity_locks import _run_problems
 
     with so.Session(engine) as s:
         run = s.get(Run, run_id)

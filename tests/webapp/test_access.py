@@ -11,8 +11,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import sign_in, upload
 
 # run recorded by a1 (group A)
 VIEW = {"coord": 200, "tech": 200, "a1": 200, "a2": 200, "b1": 404}

@@ -18,9 +18,11 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
+from tests.webapp.browser_support import (
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
 
 AXE = Path(__file__).resolve().parents[1] / "vendor" / "axe-core" / "axe.min.js"
 AXE_SHA256 = "880970c081707360e64f34cea25ff91892f5bc95675b0776925b9709dd8a68bb"  # axe-core 4.10.3 from npm

@@ -18,12 +18,8 @@ import pytest
 import sqlalchemy as sa
 from click.testing import CliRunner
 
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from webapp.models import AuditEntry
-from webapp.models import Person
-from webapp.models import SignInLink
+from tests.webapp.conftest import FAST_HASH, csrf_token, sign_in
+from webapp.models import AuditEntry, Person, SignInLink
 
 
 def _section_with_students(session: Any, coordinator_id: int) -> int:
@@ -89,8 +85,7 @@ def test_sign_in_link_then_own_password(app: Any, client: Any, session: Any, lab
 
 
 def test_a_newer_link_replaces_the_older_and_links_expire(app: Any, session: Any, lab: Any) -> None:
-    from webapp.services.accounts import issue_links
-    from webapp.services.accounts import use_link
+    from webapp.services.accounts import issue_links, use_link
 
     _section_with_students(session, lab.ids["coord"])
     oren = session.scalar(sa.select(Person).where(Person.email == "oren@lab.example"))

@@ -9,11 +9,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.conftest import demo_files, upload
+from webapp.models import Result, Run, RunInput
 
 
 def test_create_read_and_download_exactly_as_uploaded(client: Any, lab: Any) -> None:

@@ -8,14 +8,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import ApiToken
-from webapp.models import Person
-from webapp.services.people import create_person
-from webapp.services.people import hash_password
+from tests.webapp.conftest import PASSWORD, csrf_token, sign_in, upload
+from webapp.models import ApiToken, Person
+from webapp.services.people import create_person, hash_password
 
 
 def test_default_password_hash_is_werkzeug_scrypt() -> None:
@@ -36,8 +31,7 @@ def test_passwords_are_stored_hashed_and_checked(client: Any, session: Any, lab:
 
 
 def test_short_passwords_and_bad_addresses_are_refused(session: Any, lab: Any) -> None:
-    from webapp.services.errors import Conflict
-    from webapp.services.errors import Invalid
+    from webapp.services.errors import Conflict, Invalid
 
     with pytest.raises(Invalid, match="at least"):
         create_person(session, email="x@lab.example", name="X", role="student", password="short")

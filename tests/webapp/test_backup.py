@@ -17,10 +17,7 @@ import sqlalchemy as sa
 from click.testing import CliRunner
 
 from calc.cli.commands import cli
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import create_database
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import FAST_HASH, create_database, demo_files, upload
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.models import Base

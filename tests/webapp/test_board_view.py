@@ -9,8 +9,8 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import sign_in
 from tests.webapp.class_fixtures import build_section
+from tests.webapp.conftest import sign_in
 from webapp.services.board_view import board_page
 from webapp.services.errors import Invalid
 

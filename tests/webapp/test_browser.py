@@ -17,15 +17,16 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.browser_support import STUDENT
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _image_drawn
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
+from tests.webapp.browser_support import (
+    STUDENT,
+    _click,
+    _image_drawn,
+    _shot,
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
 from tests.webapp.conftest import DEMO
-
 
 # ---------------------------------------------------------------- scenarios
 
@@ -140,9 +141,7 @@ def test_the_form_shows_errors_at_their_fields_then_previews(browser: Any, serve
 def test_download_a_section_archive_and_import_another_notebooks(browser: Any, server: str, tmp_path: Path) -> None:
     from selenium.webdriver.common.by import By
 
-    from tests.webapp.eln_helpers import crate
-    from tests.webapp.eln_helpers import file_entity
-    from tests.webapp.eln_helpers import zip_of
+    from tests.webapp.eln_helpers import crate, file_entity, zip_of
 
     d = browser
     d.delete_all_cookies()

@@ -18,14 +18,15 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _skip_or_fail
-from tests.webapp.browser_support import _unavailable
-from tests.webapp.browser_support import _wait
-from tests.webapp.browser_support import browser  # noqa: F401  (the Chromium fixture, on this module's server)
+from tests.webapp.browser_support import (
+    _click,
+    _shot,
+    _skip_or_fail,
+    _unavailable,
+    _wait,
+    browser,  # noqa: F401  (the Chromium fixture, on this module's server)
+)
+from tests.webapp.conftest import DEMO, FAST_HASH
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 STUDENT = "lucan.ferreira-holt@ternhollow.example"
@@ -40,8 +41,7 @@ def lab_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, 
     from werkzeug.serving import make_server
 
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.demo import load_demo
 
@@ -116,7 +116,7 @@ def _class_zip(folder: Path) -> Path:
         for stem, group in plan:
             toml = (DEMO / "class" / f"{stem}.toml").read_text(encoding="utf-8")
             toml = re.sub(r'(?m)^group = ".*"$', f'group = "{group}"', toml)
-            toml = toml.replace('title = "', f'title = "Wren practical: ', 1)
+            toml = toml.replace('title = "', 'title = "Wren practical: ', 1)
             z.writestr(f"{stem}.toml", toml)
             z.write(DEMO / "class" / f"{stem}.csv", f"{stem}.csv")
     return out

@@ -12,11 +12,13 @@ import re
 from pathlib import Path
 from typing import Any
 
+from tests.webapp.browser_support import (
+    _click,
+    _sign_in,
+    browser,  # noqa: F401 - the fixtures, module-scoped here too
+    server,  # noqa: F401
+)
 from tests.webapp.conftest import DEMO
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401 - the fixtures, module-scoped here too
-from tests.webapp.browser_support import server  # noqa: F401
 
 TECHNICIAN = "kasper.lindqvist-mayo@ternhollow.example"  # invented demo person
 CUP = "Cup TH-07 (two nested foam cups, lid)"

@@ -10,12 +10,7 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import approve_proposals
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import without_heat_capacity
+from tests.webapp.conftest import approve_proposals, csrf_token, demo_files, sign_in, upload, without_heat_capacity
 from webapp.models import Calibration
 
 TODAY = dt.date.today().isoformat()
@@ -151,8 +146,7 @@ def test_the_control_chart_plots_the_cups_own_heat_capacity_by_default(client: A
 def test_the_dashboard_flags_a_run_on_an_overdue_cup(client: Any, lab: Any, session: Any) -> None:
     from types import SimpleNamespace
 
-    from webapp.services.dashboard import FLAGS
-    from webapp.services.dashboard import _overdue_flags
+    from webapp.services.dashboard import FLAGS, _overdue_flags
 
     toml = without_heat_capacity(demo_files("diss-kcl-01")[0])  # [info] date = 2025-03-12
     assert _enter(client, lab, "18.6 ± 0.5 J/K", "2025-01-10").status_code == 201  # due 2025-02-09

@@ -15,18 +15,12 @@ from typing import Any
 import sqlalchemy as sa
 
 from calc.simulation.simulator import simulate_electrical_calibration, write_run
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
+from tests.webapp.class_fixtures import make_class, simulated_run
+from tests.webapp.conftest import demo_files, sign_in, upload
+from webapp.models import Person, Result, Run
 from webapp.services.checks import run_flagged
 from webapp.services.dashboard import section_dashboard
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 
 def typo_toml() -> str:

@@ -7,16 +7,10 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.class_fixtures import ROSTER
-from tests.webapp.class_fixtures import make_class
+from tests.webapp.class_fixtures import ROSTER, make_class
 from tests.webapp.conftest import FAST_HASH
-from webapp.models import Bench
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Section
-from webapp.services.classes import RosterInvalid
-from webapp.services.classes import create_bench
-from webapp.services.classes import import_roster
+from webapp.models import Bench, Group, Person, Section
+from webapp.services.classes import RosterInvalid, create_bench, import_roster
 from webapp.services.errors import Forbidden
 
 

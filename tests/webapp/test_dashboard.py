@@ -7,16 +7,12 @@ from typing import Any
 
 import pytest
 
-from calc.statistics.precision import grubbs
-from calc.statistics.precision import iso5725
-from tests.webapp.class_fixtures import build_section
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
+from calc.statistics.precision import grubbs, iso5725
+from tests.webapp.class_fixtures import build_section, make_class, simulated_run
 from webapp.models import Person
 from webapp.services.dashboard import section_dashboard
 from webapp.services.errors import NotFound
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 
 def test_flags_each_triggered_by_a_crafted_run(session: Any, lab: Any, tmp_path: Path) -> None:

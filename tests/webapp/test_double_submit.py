@@ -8,11 +8,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import form_from_demo
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import post_form
+from tests.webapp.conftest import demo_files, sign_in
+from tests.webapp.page_helpers import form_from_demo, hidden, post_form
 from webapp.models import Run
 
 

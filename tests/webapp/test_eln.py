@@ -20,19 +20,9 @@ import sqlalchemy as sa
 from rocrate.rocrate import ROCrate
 
 from tests.webapp.conftest import DEMO
-from tests.webapp.eln_helpers import FAST_HASH
-from tests.webapp.eln_helpers import counts
-from tests.webapp.eln_helpers import crate
-from tests.webapp.eln_helpers import demo_source
-from tests.webapp.eln_helpers import dispose
-from tests.webapp.eln_helpers import file_entity
-from tests.webapp.eln_helpers import snapshot
-from tests.webapp.eln_helpers import zip_of
+from tests.webapp.eln_helpers import FAST_HASH, counts, crate, demo_source, dispose, file_entity, snapshot, zip_of
 from webapp.db import new_session
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Run
+from webapp.models import Calibration, Calorimeter, Person, Run
 from webapp.services import eln
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
@@ -276,8 +266,7 @@ def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, se
     from webapp.db import get_engine
     from webapp.migrate import upgrade
     from webapp.services.analysis import AnalysisOptions
-    from webapp.services.runs import RunUpload
-    from webapp.services.runs import record_run
+    from webapp.services.runs import RunUpload, record_run
 
     me = _coordinator(session)
     toml, csv = demo_files("diss-kcl-01")

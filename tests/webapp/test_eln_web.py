@@ -12,14 +12,11 @@ import sqlalchemy as sa
 from click.testing import CliRunner
 
 from calc.cli.commands import cli
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import PASSWORD, sign_in, upload
 from tests.webapp.eln_helpers import zip_of
 from webapp.models import Run
 from webapp.services.classes import create_section
-from webapp.services.people import create_course
-from webapp.services.people import create_group
+from webapp.services.people import create_course, create_group
 
 
 def _root(data: bytes) -> set[str]:

@@ -10,8 +10,8 @@ from typing import Any
 from openpyxl import load_workbook
 
 from tests.webapp.class_fixtures import build_section
-from webapp.models import Run
 from webapp.exports.cells import neutralise
+from webapp.models import Run
 
 
 def test_neutralise_formula_cells() -> None:

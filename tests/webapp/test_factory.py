@@ -9,8 +9,7 @@ import sqlalchemy as sa
 
 import webapp
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import normalize_url
+from webapp.db import get_engine, normalize_url
 
 
 def test_no_app_at_module_level() -> None:

@@ -20,20 +20,21 @@ import pytest
 import requests
 import sqlalchemy as sa
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import zip_folder
-from tests.webapp.fault_helpers import ROOT
-from tests.webapp.fault_helpers import assert_sound
-from tests.webapp.fault_helpers import count_runs
-from tests.webapp.fault_helpers import cupcal
-from tests.webapp.fault_helpers import distinct_hashes
-from tests.webapp.fault_helpers import env_for
-from tests.webapp.fault_helpers import import_args
-from tests.webapp.fault_helpers import kill_group
-from tests.webapp.fault_helpers import outcomes
-from tests.webapp.fault_helpers import start_server
-from tests.webapp.fault_helpers import wait_for_runs
-from tests.webapp.fault_helpers import write_runs
+from tests.webapp.class_fixtures import make_class, zip_folder
+from tests.webapp.fault_helpers import (
+    ROOT,
+    assert_sound,
+    count_runs,
+    cupcal,
+    distinct_hashes,
+    env_for,
+    import_args,
+    kill_group,
+    outcomes,
+    start_server,
+    wait_for_runs,
+    write_runs,
+)
 
 # kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
 pytestmark = pytest.mark.slow

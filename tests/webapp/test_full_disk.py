@@ -18,16 +18,8 @@ from typing import Any
 import pytest
 
 from tests.webapp.class_fixtures import make_class
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.fault_helpers import assert_sound
-from tests.webapp.fault_helpers import count_runs
-from tests.webapp.fault_helpers import cupcal
-from tests.webapp.fault_helpers import import_args
-from tests.webapp.fault_helpers import outcomes
-from tests.webapp.fault_helpers import scalar
-from tests.webapp.fault_helpers import write_runs
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from tests.webapp.fault_helpers import assert_sound, count_runs, cupcal, import_args, outcomes, scalar, write_runs
 
 # kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
 pytestmark = pytest.mark.slow
@@ -63,8 +55,7 @@ def database_url(request: pytest.FixtureRequest, small_disk: Path) -> Iterator[s
         shutil.copyfile(request.getfixturevalue("sqlite_template"), path)
         yield f"sqlite:///{path}"
         return
-    from tests.webapp.conftest import create_database
-    from tests.webapp.conftest import start_or_skip
+    from tests.webapp.conftest import create_database, start_or_skip
     from webapp.migrate import upgrade
 
     # the write-ahead log lives off the small disk, as production set-ups often keep it: a full data

@@ -10,17 +10,10 @@ from __future__ import annotations
 from collections import Counter
 from typing import Any
 
-from hypothesis import HealthCheck
-from hypothesis import given
-from hypothesis import settings
+from hypothesis import HealthCheck, given, settings
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.fuzzing import is_server_error
-from tests.webapp.fuzzing import requests
-from tests.webapp.fuzzing import send
-from tests.webapp.fuzzing import targets
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from tests.webapp.fuzzing import is_server_error, requests, send, targets
 
 
 def fuzz(app: Any, lab: Any, examples: int, who: str = "coord",

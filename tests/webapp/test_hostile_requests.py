@@ -7,8 +7,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import demo_files, upload
 
 
 def _ok4xx(r: Any) -> None:
@@ -125,8 +124,7 @@ def test_nul_characters_are_refused_before_the_database(client: Any, lab: Any) -
 
 def test_the_new_run_form_takes_iso_dates_only(client: Any, lab: Any) -> None:
     from tests.webapp.conftest import sign_in
-    from tests.webapp.page_helpers import form_from_demo
-    from tests.webapp.page_helpers import post_form
+    from tests.webapp.page_helpers import form_from_demo, post_form
 
     sign_in(client, "a1@lab.example")
     _toml, csv = demo_files("diss-kcl-01")

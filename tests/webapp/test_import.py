@@ -11,18 +11,10 @@ import pytest
 import sqlalchemy as sa
 from click.testing import CliRunner
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from tests.webapp.class_fixtures import zip_folder
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.class_fixtures import make_class, simulated_run, zip_folder
+from webapp.models import Person, Result, Run, RunInput
 from webapp.services.errors import Invalid
-from webapp.services.imports import Limits
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import files_from_zip
-from webapp.services.imports import import_files
+from webapp.services.imports import Limits, files_from_folder, files_from_zip, import_files
 
 
 def _counts(session: Any) -> tuple[int, int, int]:
@@ -144,8 +136,7 @@ def test_import_over_the_api_and_the_web_page(client: Any, lab: Any, session: An
     r = client.post(f"/api/sections/{cl.section_id}/imports", data={"archive": (io.BytesIO(bad), "s.zip")},
                     headers=lab.auth("coord"), content_type="multipart/form-data")
     assert r.status_code == 400 and "leads out of the archive" in r.get_json()["error"]
-    from tests.webapp.conftest import csrf_token
-    from tests.webapp.conftest import sign_in
+    from tests.webapp.conftest import csrf_token, sign_in
 
     sign_in(client, "coord@lab.example")
     page = client.get(f"/imports/sections/{cl.section_id}")
@@ -199,8 +190,7 @@ def _with_group(path: Path, group: str) -> None:
 
 
 def test_missing_groups_are_created_from_info_group_when_asked(session: Any, lab: Any, tmp_path: Path) -> None:
-    from webapp.models import AuditEntry
-    from webapp.models import Group
+    from webapp.models import AuditEntry, Group
 
     cl = make_class(session, lab.ids["coord"])
     coord = session.get(Person, lab.ids["coord"])

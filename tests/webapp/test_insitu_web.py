@@ -17,8 +17,7 @@ import sqlalchemy as sa
 from calc.simulation.insitu import simulate_dissolution_with_calibration
 from calc.simulation.simulator import write_run
 from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import post_form
+from tests.webapp.page_helpers import hidden, post_form
 from webapp.models import Result
 
 _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")

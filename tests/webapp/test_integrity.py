@@ -13,14 +13,12 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
+from tests.webapp.class_fixtures import make_class, simulated_run
 from tests.webapp.conftest import upload
 from tests.webapp.fault_helpers import cupcal
 from webapp.db import get_engine
 from webapp.models import Person
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.integrity import check_database
 
 

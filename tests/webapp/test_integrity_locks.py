@@ -11,9 +11,7 @@ import sqlalchemy as sa
 
 from tests.webapp.conftest import upload
 from webapp.db import get_engine
-from webapp.models import AuditEntry
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import AuditEntry, Result, Run
 from webapp.services.integrity import check_database
 
 

@@ -7,14 +7,9 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
-from tests.webapp.live_helpers import start_live
-from webapp.models import LiveReading
-from webapp.models import Person
+from tests.webapp.conftest import demo_files, upload
+from tests.webapp.live_helpers import batch, demo_rows, live_run_file, start_live
+from webapp.models import LiveReading, Person
 from webapp.services.tokens import issue_scoped_token
 
 

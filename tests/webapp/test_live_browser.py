@@ -9,15 +9,15 @@ from typing import Any
 
 import requests
 
-from tests.webapp.browser_support import STUDENT
-from tests.webapp.browser_support import WAIT_S
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
+from tests.webapp.browser_support import (
+    STUDENT,
+    WAIT_S,
+    _shot,
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
+from tests.webapp.live_helpers import batch, demo_rows, live_run_file
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 TOKENS: dict[str, str] = {}

@@ -10,13 +10,9 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import start_live
-from webapp.models import Group
-from webapp.models import Person
+from tests.webapp.conftest import csrf_token, sign_in
+from tests.webapp.live_helpers import batch, demo_rows, start_live
+from webapp.models import Group, Person
 
 
 @pytest.fixture

@@ -7,18 +7,11 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import AuditEntry
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from webapp.models import AuditEntry, Person, Result, Run, RunInput
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import RunLocked
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import update_run
+from webapp.services.runs import reanalyse_run, update_run
 
 
 @pytest.fixture

@@ -7,12 +7,9 @@ from typing import Any
 import pytest
 from flask import Flask
 
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import csrf_token
+from tests.webapp.conftest import FAST_HASH, PASSWORD, csrf_token
 from webapp import mount
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.services.people import create_person
 
 SETTINGS = {"TESTING": True, "SECRET_KEY": "test secret", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 0}

@@ -17,9 +17,7 @@ from typing import Any
 import pytest
 from click.testing import CliRunner
 
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import DEMO, sign_in, upload
 
 
 def _put_group_in_section(session: Any, group_id: int) -> int:
@@ -52,7 +50,7 @@ def test_the_same_verdict_on_every_surface(app: Any, client: Any, session: Any, 
 
     # the command line, on the same files
     text = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(DEMO / "diss-kcl-01.toml")]).output
-    assert f"verdict against the reference at the run's conditions" in text and f"E_n = {en} ({word}" in text
+    assert "verdict against the reference at the run's conditions" in text and f"E_n = {en} ({word}" in text
     js = CliRunner().invoke(cli, ["analyze", "--json", str(DEMO / "diss-kcl-01.toml")]).output
     assert f"{json.loads(js)['comparison']['En']:+.2f}" == en
 

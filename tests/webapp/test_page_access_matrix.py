@@ -35,8 +35,24 @@ import pytest
 import sqlalchemy as sa
 
 from tests.webapp.conftest import PASSWORD, csrf_token, demo_files, sign_in, upload
-from webapp.models import ApiToken, AuditEntry, Bench, Calibration, Calorimeter, Course, Group, Person, Result, Run
-from webapp.models import Comment, MarkingScheme, RunInput, RunReview, Section, SignInLink
+from webapp.models import (
+    ApiToken,
+    AuditEntry,
+    Bench,
+    Calibration,
+    Calorimeter,
+    Comment,
+    Course,
+    Group,
+    MarkingScheme,
+    Person,
+    Result,
+    Run,
+    RunInput,
+    RunReview,
+    Section,
+    SignInLink,
+)
 from webapp.services.tokens import issue_scoped_token
 
 ACTORS = ("anon", "b1", "a1", "tech", "coord", "read", "write")

@@ -7,9 +7,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import csrf_token, sign_in, upload
 
 
 @pytest.fixture

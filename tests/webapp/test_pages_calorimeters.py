@@ -8,15 +8,8 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import approve_proposals
-from tests.webapp.conftest import without_heat_capacity
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
+from tests.webapp.conftest import approve_proposals, csrf_token, demo_files, sign_in, upload, without_heat_capacity
+from webapp.models import AuditEntry, Calibration, Calorimeter
 
 
 def test_history_plot_table_and_the_runs_of_each_calibration(client: Any, lab: Any, session: Any) -> None:

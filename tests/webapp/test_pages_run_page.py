@@ -13,14 +13,10 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import csrf_token, sign_in, upload
 from tests.webapp.page_helpers import counts
 from webapp.models import Result
-from webapp.plot_cache import PlotCache
-from webapp.plot_cache import plot_cache
-
+from webapp.plot_cache import PlotCache, plot_cache
 
 # ---------------------------------------------------------------- the run page
 

@@ -16,22 +16,12 @@ from typing import Any
 
 import pytest
 import sqlalchemy as sa
+
 from calc.analysis import analyze_run
 from calc.io.quantities import Measured
-from calc.io.runfile import REQUIRED_SECTIONS
-from calc.io.runfile import SCHEMA
-from calc.io.runfile import parse_run
-
-from tests.webapp.page_helpers import counts
-from tests.webapp.page_helpers import form_from_demo
-from tests.webapp.page_helpers import post_form
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import field_row
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import without_heat_capacity
+from calc.io.runfile import REQUIRED_SECTIONS, SCHEMA, parse_run
+from tests.webapp.conftest import DEMO, csrf_token, demo_files, sign_in, without_heat_capacity
+from tests.webapp.page_helpers import counts, field_row, form_from_demo, hidden, post_form
 from webapp.models import Run
 from webapp.plot_cache import plot_cache
 

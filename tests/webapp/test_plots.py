@@ -14,7 +14,7 @@ import xml.etree.ElementTree as ET
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from datetime import datetime, timedelta
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 import numpy as np
@@ -22,12 +22,12 @@ import pytest
 
 from calc.analysis import Analysis, analyze_run, analyze_spec
 from calc.deltat.constructions import Construction
-from calc.deltat.registry import METHODS
-from calc.uncertainty.gum import BudgetLine
 from calc.deltat.periods import find_periods
+from calc.deltat.registry import METHODS
 from calc.io.readings import Readings
 from calc.io.runfile import parse_run
 from calc.simulation.simulator import simulate_dissolution, write_run
+from calc.uncertainty.gum import BudgetLine
 from webapp import plots
 from webapp.plots import (
     MAX_DRAWN_POINTS,
@@ -48,12 +48,12 @@ ALL_METHODS = ["regnault-pfaundler", "linear-extrapolation", "equal-area", "mode
 SVG_NS = "{http://www.w3.org/2000/svg}"
 
 
-@lru_cache(maxsize=None)
+@cache
 def analysis(name: str, method: str) -> Analysis:
     return analyze_run(ROOT / "fixtures" / "demo" / f"{name}.toml", method=method, with_reference=False)
 
 
-@lru_cache(maxsize=None)
+@cache
 def run_svg(name: str, method: str) -> str:
     return run_plot_svg(analysis(name, method))
 

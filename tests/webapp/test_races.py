@@ -12,15 +12,16 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import without_heat_capacity
-from tests.webapp.race_trials import Tally
-from tests.webapp.race_trials import in_process_caller
-from tests.webapp.race_trials import lock_vs_calibration
-from tests.webapp.race_trials import lock_vs_patch
-from tests.webapp.race_trials import lock_vs_reanalysis
-from tests.webapp.race_trials import lost_updates
-from tests.webapp.race_trials import upload_run
+from tests.webapp.conftest import demo_files, without_heat_capacity
+from tests.webapp.race_trials import (
+    Tally,
+    in_process_caller,
+    lock_vs_calibration,
+    lock_vs_patch,
+    lock_vs_reanalysis,
+    lost_updates,
+    upload_run,
+)
 from webapp.db import get_engine
 
 TRIALS = 3
@@ -87,8 +88,7 @@ def test_a_stale_write_gets_409_with_the_current_state(client: Any, lab: Any) ->
 
 
 def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: Any, lab: Any) -> None:
-    from tests.webapp.conftest import csrf_token
-    from tests.webapp.conftest import sign_in
+    from tests.webapp.conftest import csrf_token, sign_in
 
     call = in_process_caller(client.application)
     run_id = upload_run(call, lab.tokens["a1"])
@@ -114,8 +114,7 @@ def test_the_webhook_queued_at_the_lock_carries_the_signed_result(client: Any, l
 
     import sqlalchemy as sa
 
-    from webapp.models import Webhook
-    from webapp.models import WebhookDelivery
+    from webapp.models import Webhook, WebhookDelivery
 
     session.add(Webhook(url="https://receiver.example.org/hook", secret="s" * 64, active=True))
     session.commit()

@@ -14,12 +14,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
 from tests.webapp.class_fixtures import build_section
-from webapp.models import AuditEntry
-from webapp.models import Person
-from webapp.models import Result
+from tests.webapp.conftest import sign_in, upload
+from webapp.models import AuditEntry, Person, Result
 from webapp.services.dashboard import section_dashboard
 
 
@@ -207,8 +204,7 @@ def test_students_see_only_their_own_groups_marks(client: Any, session: Any, lab
 ])
 def test_band_text_is_checked_with_a_clear_message(text: str, message: str) -> None:
     from webapp.services.errors import Invalid
-    from webapp.services.marks import band_points
-    from webapp.services.marks import parse_bands
+    from webapp.services.marks import band_points, parse_bands
 
     with pytest.raises(Invalid, match=message):
         parse_bands(text, "en_bands")

@@ -15,12 +15,10 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from calc import __version__
 from rocrate.rocrate import ROCrate
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import without_heat_capacity
+from calc import __version__
+from tests.webapp.conftest import demo_files, upload, without_heat_capacity
 from webapp.models import Run
 
 NUMBERS = ("value", "standard_uncertainty", "expanded_uncertainty", "coverage_factor")

@@ -8,9 +8,7 @@ from typing import Any
 import pytest
 from scipy import stats as sps
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import demo_files, sign_in, upload
 
 
 def _with_sample(name: str, sample: str, title: str, mass: str | None = None) -> str:

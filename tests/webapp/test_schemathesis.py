@@ -14,7 +14,6 @@ import tempfile
 from pathlib import Path
 from typing import Any
 
-import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
 from schemathesis.checks import not_a_server_error
@@ -30,14 +29,14 @@ from schemathesis.specs.openapi.checks import (
     use_after_free,
 )
 
+from webapp import create_app
+
 #: every check schemathesis has for a single call, but positive_data_acceptance: the document is looser
 #: than the server (an empty "name", a run file that is valid text but not a valid run), so a
 #: schema-valid request may rightly get 400; max_response_time needs a budget (the benchmarks time it)
 ALL_CHECKS = [not_a_server_error, status_code_conformance, response_schema_conformance, content_type_conformance,
               response_headers_conformance, negative_data_rejection, ignored_auth, missing_required_header,
               unsupported_method, use_after_free]
-
-from webapp import create_app
 
 
 def _schema_app() -> Any:

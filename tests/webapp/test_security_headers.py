@@ -13,9 +13,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import FAST_HASH, sign_in, upload
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.security import CSP

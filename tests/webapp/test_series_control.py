@@ -9,14 +9,10 @@ from typing import Any
 import pytest
 
 from calc.statistics.control_charts import control_chart
-from calc.statistics.replicates import shared_type_b
-from calc.statistics.replicates import summarize_series
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from webapp.models import Person
-from webapp.models import Run
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from calc.statistics.replicates import shared_type_b, summarize_series
+from tests.webapp.class_fixtures import make_class, simulated_run
+from webapp.models import Person, Run
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.series import budget_lines
 
 
@@ -89,9 +85,8 @@ def test_control_chart_flags_and_calibration_due(client: Any, session: Any, lab:
 def test_calibration_interval_per_calorimeter(session: Any, lab: Any) -> None:
     import datetime as dt
 
-    from webapp.services.control import calibration_info
-    from webapp.services.control import set_interval
     from webapp.models import Calorimeter
+    from webapp.services.control import calibration_info, set_interval
 
     cal = session.get(Calorimeter, lab.spare_calorimeter_id)
     set_interval(session, session.get(Person, lab.ids["coord"]), cal, 7)

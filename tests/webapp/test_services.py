@@ -9,28 +9,17 @@ from typing import Any
 
 import pytest
 import sqlalchemy as sa
+
 from calc.analysis import analyze_spec
 from calc.io.readings import parse_readings
 from calc.io.runfile import parse_run
-
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import without_heat_capacity
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
-from webapp.quantities import result_quantity
-from webapp.quantities import series
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import supply_heat_capacity
+from tests.webapp.conftest import demo_files, without_heat_capacity
+from webapp.models import AuditEntry, Calibration, Calorimeter, Person, Result, Run, RunInput
+from webapp.quantities import result_quantity, series
+from webapp.services.analysis import AnalysisOptions, supply_heat_capacity
 from webapp.services.calorimeters import current_calibration
 from webapp.services.errors import Invalid
-from webapp.services.runs import RunUpload
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import record_run
+from webapp.services.runs import RunUpload, reanalyse_run, record_run
 
 
 def _upload(name: str, toml: str | None = None, csv: bytes | None = None, **kw: Any) -> RunUpload:
@@ -195,7 +184,7 @@ def test_calorimeters_due_lists_the_stale_and_the_uncalibrated(session: Any, lab
 
     due = calorimeters_due(session, max_age_days=30)
     assert [c.id for c, _ in due] == [lab.calorimeter_id]  # never calibrated; the spare is fresh
-    later = dt.datetime.now(dt.timezone.utc).replace(tzinfo=None) + dt.timedelta(days=31)
+    later = dt.datetime.now(dt.UTC).replace(tzinfo=None) + dt.timedelta(days=31)
     assert {c.id for c, _ in calorimeters_due(session, max_age_days=30, now=later)} == {
         lab.calorimeter_id, lab.spare_calorimeter_id}
     assert session.get(Calorimeter, lab.spare_calorimeter_id) is not None

@@ -8,8 +8,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import PASSWORD
+from tests.webapp.conftest import PASSWORD, csrf_token
 
 
 def _try(client: Any, email: str, password: str, address: str = "203.0.113.7") -> Any:

@@ -12,18 +12,13 @@ forms as read by inet_aton (POSIX; common practice, no source).
 from __future__ import annotations
 
 import threading
-from http.server import BaseHTTPRequestHandler
-from http.server import ThreadingHTTPServer
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
 import pytest
 
 from webapp.services.errors import Invalid
-from webapp.services.webhook_guard import Guard
-from webapp.services.webhook_guard import check_url
-from webapp.services.webhook_guard import literal_address
-from webapp.services.webhook_guard import post
-from webapp.services.webhook_guard import refusal
+from webapp.services.webhook_guard import Guard, check_url, literal_address, post, refusal
 
 REFUSED_HOSTS = [
     "127.0.0.1",            # loopback

@@ -8,8 +8,7 @@ import hmac
 import json
 import threading
 from collections.abc import Iterator
-from http.server import BaseHTTPRequestHandler
-from http.server import ThreadingHTTPServer
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
 import pytest
@@ -17,9 +16,8 @@ from click.testing import CliRunner
 
 from tests.webapp.conftest import upload
 from webapp.models import WebhookDelivery
-from webapp.services.webhooks import backoff
 from webapp.services.webhook_guard import Guard
-from webapp.services.webhooks import deliver_due
+from webapp.services.webhooks import backoff, deliver_due
 
 #: these tests use a receiver on 127.0.0.1, which the notebook refuses unless told it is a test
 LOCAL = Guard(allow_private=True)

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import g
-from flask import request
+from flask import Blueprint, g, request
 from flask_login import current_user
 
 from webapp.db import get_session

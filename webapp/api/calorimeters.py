@@ -2,36 +2,24 @@
 
 from __future__ import annotations
 
-from flask import jsonify
-from flask import request
-from flask import url_for
+from flask import jsonify, request, url_for
 
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import coordinators_only
-from webapp.api.params import expected_version
-from webapp.api.params import json_object
-from webapp.api.params import page_args
-from webapp.api.schemas import calibration_json
-from webapp.api.schemas import calorimeter_json
-from webapp.api.schemas import course_json
-from webapp.api.schemas import group_json
-from webapp.api.schemas import page_json
+from webapp.api.params import actor, as_int, as_text, coordinators_only, expected_version, json_object, page_args
+from webapp.api.schemas import calibration_json, calorimeter_json, course_json, group_json, page_json
 from webapp.db import get_session
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.calorimeters import create_calorimeter
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import enter_heat_capacity
-from webapp.services.calorimeters import get_calorimeter
-from webapp.services.calorimeters import update_calorimeter
-from webapp.services.classes import courses_query
-from webapp.services.classes import groups_query
+from webapp.services.calorimeters import (
+    calibration_history,
+    calorimeters_query,
+    create_calorimeter,
+    current_calibration,
+    enter_heat_capacity,
+    get_calorimeter,
+    update_calorimeter,
+)
+from webapp.services.classes import courses_query, groups_query
 from webapp.services.control import set_interval
-from webapp.services.people import create_course
-from webapp.services.people import create_group
+from webapp.services.people import create_course, create_group
 from webapp.services.runs import paginate
 
 
@@ -158,8 +146,7 @@ def approve_calibration_route(calibration_id: int):  # type: ignore[no-untyped-d
 @bp.post("/calibrations/<int:calibration_id>/withdraw")
 def withdraw_calibration_route(calibration_id: int):  # type: ignore[no-untyped-def]
     """Withdraw a calibration (staff, with a ``reason``); answers with the runs that used it."""
-    from webapp.services.calibrations import runs_using
-    from webapp.services.calibrations import withdraw_calibration
+    from webapp.services.calibrations import runs_using, withdraw_calibration
 
     session = get_session()
     data = json_object()
@@ -170,9 +157,8 @@ def withdraw_calibration_route(calibration_id: int):  # type: ignore[no-untyped-
 @bp.get("/calibrations/<int:calibration_id>/runs")
 def calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
     """List the runs whose C_cal came from this calibration (or a pooled value that held it)."""
-    from webapp.services.calibrations import get_calibration
-    from webapp.services.calibrations import runs_using
     from webapp.services.access import can_view_run
+    from webapp.services.calibrations import get_calibration, runs_using
 
     session = get_session()
     cal = get_calibration(session, calibration_id)

@@ -6,10 +6,7 @@ A run's archive and a selection's are ``/api/runs/<id>/export/eln`` and
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import jsonify
-from flask import request
+from flask import Response, current_app, jsonify, request
 
 from webapp.api.blueprint import bp
 from webapp.api.params import actor

@@ -5,38 +5,26 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
-from flask import Response
-from flask import current_app
+from flask import Response, current_app, jsonify, request, url_for
 
-from flask import jsonify
-from flask import request
-from flask import url_for
-
-from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import coordinators_only
-from webapp.api.params import json_object
 from webapp.api import exchange_openapi  # noqa: F401  (documents these routes)
-from webapp.api.schemas import iso
-from webapp.api.schemas import run_json
+from webapp.api.blueprint import bp
+from webapp.api.params import actor, as_int, as_text, coordinators_only, json_object
+from webapp.api.schemas import iso, run_json
 from webapp.db import get_session
 from webapp.embed import links
-from webapp.exports.document import export_json
-from webapp.exports.document import selected_runs
-from webapp.exports.results_csv import export_csv
-from webapp.exports.report import report_html, report_pdf
-from webapp.services import webhooks
-from webapp.services.webhook_guard import guard_from_config
-from webapp.services.errors import Invalid
-from webapp.services.errors import TooLarge
-from webapp.models import MAX_ID
-from webapp.services.packages import import_package
 from webapp.exports.bundle import export_selection_zip
+from webapp.exports.document import export_json, selected_runs
+from webapp.exports.report import report_html, report_pdf
+from webapp.exports.results_csv import export_csv
 from webapp.exports.rocrate import crate_zip
+from webapp.models import MAX_ID
+from webapp.services import webhooks
+from webapp.services.errors import Invalid, TooLarge
+from webapp.services.packages import import_package
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
+from webapp.services.webhook_guard import guard_from_config
 
 EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate", "eln")
 
@@ -128,7 +116,7 @@ def embed_link(run_id: int):  # type: ignore[no-untyped-def]
     run = get_run(get_session(), actor(), run_id)
     token = links.issue(current_app.config["SECRET_KEY"], run.id, actor().id)
     max_age = int(current_app.config["EMBED_LINK_MAX_AGE"])
-    expires = dt.datetime.fromtimestamp(int(links.clock()) + max_age, dt.timezone.utc).replace(tzinfo=None)
+    expires = dt.datetime.fromtimestamp(int(links.clock()) + max_age, dt.UTC).replace(tzinfo=None)
     card = url_for("embed.card", run_id=run.id, link=token, _external=True)
     return jsonify({"url": card, "expires_at": iso(expires), "max_age": max_age,
                     "oembed": url_for("embed.oembed", url=card, format="json", _external=True)})

@@ -7,25 +7,17 @@ The recorder creates a live run (idempotent on its client key), posts readings i
 
 from __future__ import annotations
 
-from flask import current_app
-from flask import jsonify
-from flask import url_for
+from flask import current_app, jsonify, url_for
 
 from webapp.api import live_openapi  # noqa: F401  (documents these routes)
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import json_object
+from webapp.api.params import actor, as_int, json_object
 from webapp.db import get_session
 from webapp.services.errors import Invalid
-from webapp.services.live import LiveCreate
-from webapp.services.live import add_readings
-from webapp.services.live import create_live_run
-from webapp.services.live import get_live_run
-from webapp.services.live import set_target
+from webapp.services.live import LiveCreate, add_readings, create_live_run, get_live_run, set_target
 from webapp.services.live_finish import finish_live_run
-from webapp.services.live_view import live_json
-from webapp.services.live_view import set_section_target
+from webapp.services.live_view import live_json, set_section_target
+
 
 @bp.post("/live-runs", endpoint="create_live_run")
 def create_live_run_route():  # type: ignore[no-untyped-def]

@@ -4,11 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from webapp.api.openapi import PATHS
-from webapp.api.openapi import _body
-from webapp.api.openapi import _id
-from webapp.api.openapi import _json
-from webapp.api.openapi import _op
+from webapp.api.openapi import PATHS, _body, _id, _json, _op
 
 _LIVE_ID = [_id("live_id")]
 _ADVICE = {"type": "object", "description": "the advisor's latest answer: phase, status (one plain line), "

@@ -5,23 +5,21 @@ from __future__ import annotations
 import functools
 import math
 from collections.abc import Callable
-from typing import Any
-from typing import TypeVar
+from typing import Any, TypeVar
+
+from flask import current_app, g, request
 
 from calc import limits
 from calc.errors import InputError
 from calc.limits import require_number
-from flask import current_app
-from flask import g
-from flask import request
-
-from webapp.models import MAX_ID
-from webapp.models import Person
+from webapp.models import MAX_ID, Person
 from webapp.services.access import require_coordinator
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Invalid
-from webapp.services.jsontext import checked_json  # noqa: F401  (used by the views)
-from webapp.services.jsontext import load_json
+from webapp.services.jsontext import (
+    checked_json,  # noqa: F401  (used by the views)
+    load_json,
+)
 
 _View = TypeVar("_View", bound=Callable[..., Any])
 

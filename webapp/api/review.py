@@ -7,25 +7,17 @@ from typing import Any
 from flask import jsonify
 
 from webapp.api.blueprint import bp
-from webapp.api.openapi import register
-from webapp.api.openapi import request_body as _body
-from webapp.api.openapi import path_param as _id
 from webapp.api.openapi import json_response as _json
 from webapp.api.openapi import operation as _op
-from webapp.api.params import actor
-from webapp.api.params import as_float
-from webapp.api.params import json_object
+from webapp.api.openapi import path_param as _id
+from webapp.api.openapi import register
+from webapp.api.openapi import request_body as _body
+from webapp.api.params import actor, as_float, json_object
 from webapp.db import get_session
-from webapp.models import Comment
-from webapp.models import RunReview
+from webapp.models import Comment, RunReview
 from webapp.services import comments as comment_service
-from webapp.services.marks import bands_text
-from webapp.services.marks import scheme_of
-from webapp.services.marks import set_mark
-from webapp.services.marks import set_scheme
-from webapp.services.review import ACTIONS
-from webapp.services.review import review_run
-from webapp.services.review import state_of
+from webapp.services.marks import bands_text, scheme_of, set_mark, set_scheme
+from webapp.services.review import ACTIONS, review_run, state_of
 
 
 def comment_json(c: Comment) -> dict[str, Any]:

@@ -5,19 +5,11 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
-from calc.refdata.comparison import verdict
-from calc.refdata.comparison import verdict_record
 from flask import url_for
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Course
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.quantities import RESULT_OUTPUTS
-from webapp.quantities import result_value
+from calc.refdata.comparison import verdict, verdict_record
+from webapp.models import Calibration, Calorimeter, Course, Group, Person, Result, Run
+from webapp.quantities import RESULT_OUTPUTS, result_value
 from webapp.services.runs import Page
 
 

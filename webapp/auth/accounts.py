@@ -5,16 +5,8 @@ Views parse the form, call one service (:mod:`webapp.services.accounts`) and ren
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
-from flask_login import login_user
+from flask import Response, current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required, login_user
 
 from webapp.auth.blueprint import bp
 from webapp.db import get_session

@@ -3,12 +3,8 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import EmailField
-from wtforms import PasswordField
-from wtforms import SelectField
-from wtforms import StringField
-from wtforms.validators import DataRequired
-from wtforms.validators import Length
+from wtforms import EmailField, PasswordField, SelectField, StringField
+from wtforms.validators import DataRequired, Length
 
 
 class LoginForm(FlaskForm):

@@ -3,15 +3,10 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
+from wtforms import BooleanField, IntegerField, SelectField, StringField, TextAreaField
+from wtforms.validators import Length, NumberRange, Optional
+
 from calc.checks import CALORIMETER_TYPES
-from wtforms import BooleanField
-from wtforms import IntegerField
-from wtforms import SelectField
-from wtforms import StringField
-from wtforms import TextAreaField
-from wtforms.validators import Length
-from wtforms.validators import NumberRange
-from wtforms.validators import Optional
 
 
 class CalorimeterForm(FlaskForm):

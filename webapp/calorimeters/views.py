@@ -5,33 +5,25 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Any
 
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
 from webapp.calorimeters.blueprint import bp
-from webapp.calorimeters.forms import CalorimeterEditForm
-from webapp.calorimeters.forms import CalorimeterForm
-from webapp.calorimeters.forms import HeatCapacityForm
+from webapp.calorimeters.forms import CalorimeterEditForm, CalorimeterForm, HeatCapacityForm
 from webapp.db import get_session
-from webapp.plot_cache import history_plot
-from webapp.plot_cache import svg_response
+from webapp.plot_cache import history_plot, svg_response
 from webapp.services.access import is_coordinator
 from webapp.services.calibrations import is_staff
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import create_calorimeter
-from webapp.services.calorimeters import enter_heat_capacity
-from webapp.services.calorimeters import get_calorimeter
-from webapp.services.calorimeters import update_calorimeter
+from webapp.services.calorimeters import (
+    calibration_history,
+    create_calorimeter,
+    enter_heat_capacity,
+    get_calorimeter,
+    update_calorimeter,
+)
 from webapp.services.control import set_interval
 from webapp.services.errors import ServiceError
-from webapp.services.pages import calorimeter_choices
-from webapp.services.pages import calorimeter_page
+from webapp.services.pages import calorimeter_choices, calorimeter_page
 
 
 def _form_errors(form: Any) -> dict[str, str]:
@@ -203,8 +195,7 @@ def approve(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untype
 @login_required
 def withdraw(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
     """Withdraw a calibration (staff, with a reason) and list the runs that used it."""
-    from webapp.services.calibrations import runs_using
-    from webapp.services.calibrations import withdraw_calibration
+    from webapp.services.calibrations import runs_using, withdraw_calibration
 
     def act(session: Any) -> str:
         cal = withdraw_calibration(session, current_user, calibration_id, request.form.get("reason", ""))

@@ -2,48 +2,31 @@
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import Response, current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
-from webapp.class_plots import control_chart_svg
-from webapp.class_plots import distribution_svg
+from webapp.class_plots import control_chart_svg, distribution_svg
 from webapp.classes.blueprint import bp
-from webapp.classes.forms import BenchForm
-from webapp.classes.forms import CourseForm
-from webapp.classes.forms import RosterForm
-from webapp.classes.forms import SectionForm
+from webapp.classes.forms import BenchForm, CourseForm, RosterForm, SectionForm
 from webapp.db import get_session
+from webapp.exports.grading import grading_csv, grading_extras, grading_xlsx
 from webapp.services.access import require_coordinator
-from webapp.services.board_view import BoardPage
-from webapp.services.board_view import board_page
+from webapp.services.board_view import BoardPage, board_page
 from webapp.services.calorimeters import calorimeters_query
-from webapp.services.classes import courses_query
-from webapp.services.classes import create_bench
-from webapp.services.classes import create_section
-from webapp.services.classes import get_section
-from webapp.services.classes import import_roster
-from webapp.services.classes import visible_sections
-from webapp.services.control import control_view
-from webapp.services.dashboard import FLAGS
-from webapp.services.dashboard import Dashboard
-from webapp.services.dashboard import course_dashboard
-from webapp.services.dashboard import section_dashboard
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.exports.grading import grading_csv
-from webapp.exports.grading import grading_xlsx
-from webapp.exports.grading import grading_extras
-from webapp.services.people import create_course
+from webapp.services.classes import (
+    courses_query,
+    create_bench,
+    create_section,
+    get_section,
+    import_roster,
+    visible_sections,
+)
 from webapp.services.comments import group_comments
+from webapp.services.control import control_view
+from webapp.services.dashboard import FLAGS, Dashboard, course_dashboard, section_dashboard
+from webapp.services.errors import Invalid, ServiceError
+from webapp.services.people import create_course
 from webapp.services.series import group_series
-
 
 #: a section plot shows one row per group up to this many groups, else one row for all
 MAX_PLOT_ROWS = 40

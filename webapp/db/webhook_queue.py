@@ -13,12 +13,8 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Run
-from webapp.models import Webhook
-from webapp.models import WebhookDelivery
-from webapp.models import utcnow
-from webapp.services.webhooks import EVENT
-from webapp.services.webhooks import payload
+from webapp.models import Run, Webhook, WebhookDelivery, utcnow
+from webapp.services.webhooks import EVENT, payload
 
 
 def _queue_on_lock(session: so.Session, _ctx: Any, _instances: Any) -> None:

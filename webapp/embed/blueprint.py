@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import Response
-from flask import current_app
+from flask import Blueprint, Response, current_app
 
 bp = Blueprint("embed", __name__)
 

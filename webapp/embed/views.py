@@ -3,32 +3,21 @@
 from __future__ import annotations
 
 import base64
-from urllib.parse import parse_qs
-from urllib.parse import urlsplit
+from urllib.parse import parse_qs, urlsplit
 
-from calc import __version__
-from calc.refdata.comparison import verdict
-from flask import abort
-from flask import current_app
-from flask import jsonify
-from flask import render_template
-from flask import request
-from flask import url_for
+from flask import abort, current_app, jsonify, render_template, request, url_for
 from flask_login import current_user
 from markupsafe import escape
 
+from calc import __version__
+from calc.refdata.comparison import verdict
 from webapp.db import get_session
-from webapp.embed.blueprint import bp
 from webapp.embed import links
-from webapp.models import MAX_ID
-from webapp.models import Person
-from webapp.models import Run
+from webapp.embed.blueprint import bp
+from webapp.models import MAX_ID, Person, Run
 from webapp.quantities import result_value
 from webapp.services.checks import flagged_checks
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.errors import NotSignedIn
+from webapp.services.errors import Forbidden, Invalid, NotFound, NotSignedIn
 from webapp.services.runs import get_run
 from webapp.services.tokens import token_for_secret
 

@@ -18,17 +18,12 @@ from collections.abc import Iterable
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc import __version__
-from calc.refdata.comparison import verdict
-from calc.refdata.comparison import verdict_record
 
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.quantities import RESULT_OUTPUTS
-from webapp.quantities import result_value
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from calc import __version__
+from calc.refdata.comparison import verdict, verdict_record
+from webapp.models import Person, Result, Run
+from webapp.quantities import RESULT_OUTPUTS, result_value
+from webapp.services.errors import Invalid, NotFound
 from webapp.services.runs import get_run
 
 FORMAT = "cupcal-run-export"
@@ -111,7 +106,7 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
         "format": FORMAT,
         "format_version": FORMAT_VERSION,
         "software": {"name": "cupcal", "version": __version__},
-        "exported_at": iso(exported_at or dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)),
+        "exported_at": iso(exported_at or dt.datetime.now(dt.UTC).replace(tzinfo=None)),
         "run": {
             "id": run.id, "kind": run.kind, "title": run.title, "operator": run.operator, "bench": run.bench,
             "performed_on": run.performed_on, "notes": run.notes, "points": run.points,

@@ -20,8 +20,7 @@ from collections.abc import Iterator
 from typing import Any
 
 from webapp.exports.cells import neutralise
-from webapp.services.dashboard import FLAGS
-from webapp.services.dashboard import Dashboard
+from webapp.services.dashboard import FLAGS, Dashboard
 
 COLUMNS = ("run", "section", "group", "names", "bench", "title", "kind", "measurement", "value",
            "expanded_uncertainty", "unit", "result", "En", "judged_against", "flags", "flag_details", "counts",
@@ -60,8 +59,7 @@ def grading_extras(session: Any, board: Dashboard) -> GradingExtras:
     """Return the names and comments the grading export needs, in three queries."""
     import sqlalchemy as sa
 
-    from webapp.models import Comment
-    from webapp.models import Person
+    from webapp.models import Comment, Person
 
     group_ids = {r.group_id for r in board.rows if r.group_id is not None}
     run_ids = {r.run_id for r in board.rows}

@@ -12,7 +12,6 @@ from collections.abc import Iterable
 from typing import Any
 
 from calc.refdata.comparison import verdict
-
 from webapp.exports.cells import csv_cell
 from webapp.exports.document import iso
 from webapp.models import Run

@@ -4,29 +4,17 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
 from webapp.db import get_session
 from webapp.live.blueprint import bp
 from webapp.live.stream import event_stream
-from webapp.live.views import TargetForm
-from webapp.live.views import viewer
+from webapp.live.views import TargetForm, viewer
 from webapp.models import Section
-from webapp.services.classes import can_view_section
-from webapp.services.classes import get_section
-from webapp.services.errors import NotFound
-from webapp.services.errors import ServiceError
-from webapp.services.live_view import room_item
-from webapp.services.live_view import room_runs
-from webapp.services.live_view import section_target
-from webapp.services.live_view import set_section_target
-
+from webapp.services.classes import can_view_section, get_section
+from webapp.services.errors import NotFound, ServiceError
+from webapp.services.live_view import room_item, room_runs, section_target, set_section_target
 
 #: what a room view has of one live run: readings seen, advice seen, state
 Seen = dict[int, tuple[int, int, str]]

@@ -5,32 +5,21 @@ from __future__ import annotations
 from types import SimpleNamespace
 from typing import Any
 
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from wtforms import DecimalField
-from wtforms.validators import NumberRange
-from wtforms.validators import Optional
+from wtforms.validators import NumberRange, Optional
 
 from webapp.db import get_session
 from webapp.live.blueprint import bp
-from webapp.live.stream import event_stream
-from webapp.live.stream import parse_cursor
+from webapp.live.stream import event_stream, parse_cursor
 from webapp.models import LiveRun
 from webapp.services.errors import ServiceError
-from webapp.services.live import get_live_run
-from webapp.services.live import set_target
+from webapp.services.live import get_live_run, set_target
 from webapp.services.live_finish import finish_live_run
 from webapp.services.live_runfile import toml_data
-from webapp.services.live_view import change_mark
-from webapp.services.live_view import require_live
-from webapp.services.live_view import update_of
-from webapp.services.live_view import visible_live_runs
+from webapp.services.live_view import change_mark, require_live, update_of, visible_live_runs
 
 
 def viewer() -> SimpleNamespace:

@@ -10,13 +10,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from flask import render_template, request
+from flask_login import login_required
+
 from calc.errors import CupcalError, InputError
 from calc.io.quantities import parse_measured
 from calc.kinds import get_kind
-from flask import render_template
-from flask import request
-from flask_login import login_required
-
 from webapp.planning.blueprint import bp
 
 MAX_FIELD_LENGTH = 100

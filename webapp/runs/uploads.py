@@ -13,8 +13,7 @@ import hashlib
 import zlib
 from dataclasses import dataclass
 
-from flask import current_app
-from flask import request
+from flask import current_app, request
 
 from webapp.services.errors import Invalid
 

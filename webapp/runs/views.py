@@ -2,43 +2,26 @@
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import flash
-from flask import get_flashed_messages
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import Response, current_app, flash, get_flashed_messages, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
-from webapp.auth.forms import ConfirmForm
 from calc.io.runfile import KINDS
+from webapp.auth.forms import ConfirmForm
 from webapp.db import get_session
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.run_list import FLAGS as RUN_FLAGS
-from webapp.services.run_list import SORTS as RUN_SORTS
-from webapp.services.run_list import filtered_runs_query
-from webapp.services.run_list import read_filter
-from webapp.plot_cache import budget_plot
-from webapp.plot_cache import draw_result_plots
-from webapp.plot_cache import run_plot
-from webapp.plot_cache import svg_response
+from webapp.plot_cache import budget_plot, draw_result_plots, run_plot, svg_response
 from webapp.quantities import main_value
 from webapp.runs.blueprint import bp
 from webapp.runs.forms import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.errors import Forbidden
-from webapp.services.errors import ServiceError
-from webapp.services.pages import result_of
-from webapp.services.pages import run_page
-from webapp.services.runs import get_run
-from webapp.services.runs import lock_run
-from webapp.services.runs import paginate
-from webapp.services.runs import reanalyse_run
+from webapp.services.calorimeters import calorimeters_query
+from webapp.services.errors import Forbidden, ServiceError
+from webapp.services.pages import result_of, run_page
 from webapp.services.review_page import review_panel
+from webapp.services.run_list import FLAGS as RUN_FLAGS
+from webapp.services.run_list import SORTS as RUN_SORTS
+from webapp.services.run_list import filtered_runs_query, read_filter
+from webapp.services.runs import get_run, lock_run, paginate, reanalyse_run
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"

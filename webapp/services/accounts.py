@@ -23,18 +23,11 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 from werkzeug.security import check_password_hash
 
-from webapp.models import MAX_ID
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import SignInLink
-from webapp.models import utcnow
+from webapp.models import MAX_ID, Group, Person, SignInLink, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.people import DEFAULT_PASSWORD_METHOD
-from webapp.services.people import MIN_PASSWORD_LENGTH
-from webapp.services.people import hash_password
+from webapp.services.errors import Invalid, NotFound
+from webapp.services.people import DEFAULT_PASSWORD_METHOD, MIN_PASSWORD_LENGTH, hash_password
 
 SIGN_IN_LINK_DAYS = 14
 MAX_PASSWORD_LENGTH = 200

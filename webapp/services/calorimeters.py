@@ -7,20 +7,15 @@ from collections.abc import Mapping
 from typing import Any
 
 import sqlalchemy as sa
-from calc.checks import DEFAULT_CALORIMETER_TYPE
-from calc.io.runfile import CALORIMETER_TYPES
 import sqlalchemy.orm as so
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import utcnow
+from calc.checks import DEFAULT_CALORIMETER_TYPE
+from calc.io.runfile import CALORIMETER_TYPES
+from webapp.models import Calibration, Calorimeter, Person, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.calibrations import parse_heat_capacity
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Conflict, Invalid, NotFound
 
 #: fields of a calorimeter that can be edited (each change is audited)
 EDITABLE_FIELDS = ("name", "parts", "location", "vessel_type")
@@ -100,8 +95,7 @@ def update_calorimeter(
 
     The row is read again under a row lock; an older ``expected_version`` is refused (409).
     """
-    from webapp.services.concurrency import check_version
-    from webapp.services.concurrency import locked_calorimeter
+    from webapp.services.concurrency import check_version, locked_calorimeter
 
     require_coordinator(actor, "manage calorimeters")
     for key in changes:

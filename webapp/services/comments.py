@@ -9,13 +9,10 @@ from __future__ import annotations
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Comment
-from webapp.models import Group
-from webapp.models import Person
+from webapp.models import Comment, Group, Person
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Invalid, NotFound
 from webapp.services.runs import get_run
 
 MAX_COMMENT = 4000

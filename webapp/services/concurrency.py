@@ -20,11 +20,8 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Calorimeter
-from webapp.models import Result
-from webapp.models import Run
-from webapp.services.errors import NotFound
-from webapp.services.errors import Stale
+from webapp.models import Calorimeter, Result, Run
+from webapp.services.errors import NotFound, Stale
 
 #: the run details a lock signs, besides the files and the result
 SIGNED_FIELDS = ("kind", "title", "operator", "bench", "performed_on", "notes", "group_id", "calorimeter_id",

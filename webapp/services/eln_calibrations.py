@@ -20,11 +20,9 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.io.runfile import CALORIMETER_TYPES
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
+from calc.io.runfile import CALORIMETER_TYPES
+from webapp.models import Calibration, Calorimeter, Person
 from webapp.services.access import require_coordinator
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Invalid
@@ -54,7 +52,7 @@ def when(text: Any, field: str) -> dt.datetime:
         t = dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
     except ValueError:
         raise Invalid(f"expected a date and time (ISO 8601), got {text!r}", field=field) from None
-    return t.astimezone(dt.timezone.utc).replace(tzinfo=None) if t.tzinfo else t
+    return t.astimezone(dt.UTC).replace(tzinfo=None) if t.tzinfo else t
 
 
 

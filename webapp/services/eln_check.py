@@ -20,11 +20,9 @@ import zipfile
 from typing import Any
 from urllib.parse import unquote
 
-from webapp.services.errors import Invalid
-from webapp.services.imports import MAX_FILES
-from webapp.services.imports import Limits
-from webapp.services.imports import files_from_zip
 from webapp.exports.rocrate import METADATA
+from webapp.services.errors import Invalid
+from webapp.services.imports import MAX_FILES, Limits, files_from_zip
 
 #: the bulk import's limits, with room for the files an experiment folder holds beside its run file and log
 #: (a bulk import counts two files a run; a cupcal run folder holds up to eight)

@@ -24,34 +24,18 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
+from webapp.exports.document import FORMAT
+from webapp.exports.rocrate import EXPORT_NAME, METADATA
+from webapp.models import Person, Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.eln import CALORIMETER_FORMAT
-from webapp.services.eln import CALORIMETER_NAME
+from webapp.services.eln import CALORIMETER_FORMAT, CALORIMETER_NAME
 from webapp.services.eln_calibrations import Known
-from webapp.services.eln_check import ELN_LIMITS
-from webapp.services.eln_check import ElnArchive
-from webapp.services.eln_check import read_archive
-from webapp.services.eln_restore import People
-from webapp.services.eln_restore import calibration_stamps
-from webapp.services.eln_restore import restore_calorimeter
-from webapp.services.eln_restore import restore_run
-from webapp.services.eln_restore import when
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.errors import storage_error
-from webapp.exports.document import FORMAT
-from webapp.services.imports import ImportItem
-from webapp.services.imports import ImportReport
-from webapp.services.imports import Limits
-from webapp.services.imports import _readings_name
-from webapp.services.imports import _record
-from webapp.services.imports import content_hash
-from webapp.exports.rocrate import EXPORT_NAME
-from webapp.exports.rocrate import METADATA
+from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
+from webapp.services.eln_restore import People, calibration_stamps, restore_calorimeter, restore_run, when
+from webapp.services.errors import Invalid, ServiceError, storage_error
+from webapp.services.imports import ImportItem, ImportReport, Limits, _readings_name, _record, content_hash
 from webapp.services.runs import RunUpload
 
 DEFAULT_PASSWORD_METHOD = "scrypt"

@@ -12,8 +12,7 @@ from xml.sax.saxutils import escape
 
 import numpy as np
 
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Result, Run
 from webapp.plots import decimate_minmax
 from webapp.quantities import series
 

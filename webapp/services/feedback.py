@@ -6,8 +6,7 @@ for all groups; each group reads only what is specific to it (:func:`split_feedb
 
 from __future__ import annotations
 
-from collections import Counter
-from collections import defaultdict
+from collections import Counter, defaultdict
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:

@@ -22,9 +22,7 @@ import dataclasses
 
 import sqlalchemy as sa
 
-from webapp.models import Base
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Base, Result, Run
 
 #: more problems than this of one kind are counted, not listed
 MAX_LISTED = 20
@@ -64,8 +62,7 @@ def check_database(engine: sa.Engine) -> IntegrityReport:
         _foreign_keys(conn, report)
         _runs_complete(conn, report)
         _content_hashes(conn, report)
-        from webapp.services.integrity_locks import check_audit_chain
-        from webapp.services.integrity_locks import check_locks
+        from webapp.services.integrity_locks import check_audit_chain, check_locks
 
         check_locks(conn, report, _listed)
         check_audit_chain(conn, report, _listed)

@@ -15,9 +15,7 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import AuditEntry
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import AuditEntry, Result, Run
 from webapp.services.concurrency import content_hash
 
 

@@ -11,7 +11,6 @@ import json
 from typing import Any
 
 from calc import limits
-
 from webapp.services.errors import Invalid
 
 

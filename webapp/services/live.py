@@ -16,27 +16,15 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.io.readings import CELSIUS_RANGE
 
-from webapp.models import Bench
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import LiveReading
-from webapp.models import LiveRun
-from webapp.models import Person
-from webapp.models import utcnow
-from webapp.services.access import can_steer_live_run
-from webapp.services.access import can_view_live_run
-from webapp.services.concurrency import begin_write
-from webapp.services.concurrency import lock_row
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from calc.io.readings import CELSIUS_RANGE
+from webapp.models import Bench, Calorimeter, Group, LiveReading, LiveRun, Person, utcnow
+from webapp.services.access import can_steer_live_run, can_view_live_run
+from webapp.services.concurrency import begin_write, lock_row
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
 from webapp.services.live_advice import refresh_advice
 from webapp.services.live_events import notify
-from webapp.services.live_runfile import checked_run_file
-from webapp.services.live_runfile import toml_data
+from webapp.services.live_runfile import checked_run_file, toml_data
 
 #: the most readings one POST may carry
 MAX_BATCH = 1000

@@ -13,17 +13,12 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.errors import AnalysisError
-from calc.errors import InputError
 
-from webapp.models import Calibration
-from webapp.models import LiveReading
-from webapp.models import LiveRun
-from webapp.models import LiveSectionTarget
+from calc.errors import AnalysisError, InputError
+from webapp.models import Calibration, LiveReading, LiveRun, LiveSectionTarget
 from webapp.services.errors import Invalid
 from webapp.services.live_events import notify
-from webapp.services.live_runfile import analysis_text
-from webapp.services.live_runfile import calibration_for
+from webapp.services.live_runfile import analysis_text, calibration_for
 
 _log = logging.getLogger(__name__)
 

@@ -13,14 +13,11 @@ from pathlib import PurePosixPath
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc.errors import InputError
-from calc.io.runfile import RunSpec
-from calc.io.runfile import parse_run
 
+from calc.errors import InputError
+from calc.io.runfile import RunSpec, parse_run
 from webapp.models import Calibration
-from webapp.services.analysis import invalid
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import supply_heat_capacity
+from webapp.services.analysis import invalid, needs_supplied_heat_capacity, supply_heat_capacity
 from webapp.services.errors import Invalid
 
 #: the name a live run's file is stored under (the recorder sends text, not a file)

@@ -9,18 +9,11 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import LiveReading
-from webapp.models import LiveRun
-from webapp.models import LiveSectionTarget
-from webapp.models import Person
-from webapp.models import Section
-from webapp.models import utcnow
-from webapp.services.access import can_view_live_run
-from webapp.services.access import require_coordinator
+from webapp.models import LiveReading, LiveRun, LiveSectionTarget, Person, Section, utcnow
+from webapp.services.access import can_view_live_run, require_coordinator
 from webapp.services.errors import NotFound
 from webapp.services.live import checked_target
-from webapp.services.live_advice import effective_target
-from webapp.services.live_advice import readings_of
+from webapp.services.live_advice import effective_target, readings_of
 
 #: a room view shows the section's live runs recording now or changed within this many hours
 ROOM_HOURS = 6

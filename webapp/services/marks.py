@@ -21,16 +21,11 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import MarkingScheme
-from webapp.models import Person
-from webapp.models import RunReview
-from webapp.models import utcnow
+from webapp.models import MarkingScheme, Person, RunReview, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
+from webapp.services.classes import get_section, require_staff
+from webapp.services.errors import Conflict, Invalid
 from webapp.services.runs import get_run
 
 #: used until a coordinator sets a section's own scheme

@@ -19,23 +19,17 @@ import zipfile
 from typing import Any
 
 import sqlalchemy.orm as so
+
 from calc.errors import InputError
 from calc.limits import require_number
-
-from webapp.models import Person
-from webapp.models import Run
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import find_calorimeter
+from webapp.exports.document import FORMAT
+from webapp.exports.rocrate import EXPORT_NAME, METADATA, PROFILE
+from webapp.models import Person, Run
+from webapp.services.analysis import AnalysisOptions, needs_supplied_heat_capacity
+from webapp.services.calorimeters import current_calibration, find_calorimeter
 from webapp.services.errors import Invalid
 from webapp.services.jsontext import load_json
-from webapp.exports.document import FORMAT
-from webapp.exports.rocrate import EXPORT_NAME
-from webapp.exports.rocrate import METADATA
-from webapp.exports.rocrate import PROFILE
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
+from webapp.services.runs import RunUpload, record_run
 
 MAX_PACKAGE_BYTES = 16 * 1024 * 1024
 

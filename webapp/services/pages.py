@@ -13,28 +13,14 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.analysis import Analysis
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.services.access import can_edit_run
-from webapp.services.access import can_lock_run
-from webapp.services.access import can_view_run
-from webapp.services.access import visible_runs_clause
+from calc.analysis import Analysis
+from webapp.models import Calibration, Calorimeter, Group, Person, Result, Run
+from webapp.services.access import can_edit_run, can_lock_run, can_view_run, visible_runs_clause
 from webapp.services.audit import audit_trail
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import get_calorimeter
+from webapp.services.calorimeters import calibration_history, calorimeters_query, current_calibration, get_calorimeter
 from webapp.services.errors import NotFound
-from webapp.services.runs import RunUpload
-from webapp.services.runs import analyse_upload
-from webapp.services.runs import get_run
-from webapp.services.runs import runs_query
+from webapp.services.runs import RunUpload, analyse_upload, get_run, runs_query
 
 
 @dataclasses.dataclass
@@ -153,8 +139,7 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
                      latest_runs: int = 20) -> CalorimeterPage:
     """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
     (directly, or through a pooled value that held it)."""
-    from webapp.services.calibrations import current_calibration
-    from webapp.services.calibrations import members_of
+    from webapp.services.calibrations import current_calibration, members_of
 
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id).options(so.joinedload(Calibration.result))))

@@ -4,9 +4,7 @@ from __future__ import annotations
 
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Person, Result, Run
 from webapp.services.audit import record_change
 from webapp.services.concurrency import bump
 

@@ -21,16 +21,10 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
-from webapp.models import RunReview
-from webapp.models import utcnow
+from webapp.models import Person, Run, RunReview, utcnow
 from webapp.services.audit import record_change
 from webapp.services.checks import run_flagged
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import RunLocked
+from webapp.services.errors import Conflict, Forbidden, Invalid, RunLocked
 from webapp.services.runs import get_run
 
 MAX_REASON = 2000

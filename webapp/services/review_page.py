@@ -6,20 +6,12 @@ import dataclasses
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc.refdata.comparison import verdict
 
-from webapp.models import Comment
-from webapp.models import Person
-from webapp.models import Run
+from calc.refdata.comparison import verdict
+from webapp.models import Comment, Person, Run
 from webapp.services.comments import run_comments
-from webapp.services.marks import Mark
-from webapp.services.marks import run_mark
-from webapp.services.marks import scheme_of
-from webapp.services.review import ReviewState
-from webapp.services.review import is_staff
-from webapp.services.review import review_of
-from webapp.services.review import run_flagged
-from webapp.services.review import state_of
+from webapp.services.marks import Mark, run_mark, scheme_of
+from webapp.services.review import ReviewState, is_staff, review_of, run_flagged, state_of
 
 
 @dataclasses.dataclass

@@ -8,52 +8,33 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping
-from typing import Any
-from typing import Generic
-from typing import TypeVar
+from typing import Any, Generic, TypeVar
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+
 from calc.analysis import Analysis
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
-
-from webapp.models import CALIBRATION_KINDS
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import utcnow
-from webapp.services.access import can_lock_run
-from webapp.services.access import can_view_run
-from webapp.services.access import require_editable
-from webapp.services.access import visible_runs_clause
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import calorimeter_name_in
-from webapp.services.analysis import decode_readings
-from webapp.services.analysis import encode_series
-from webapp.services.analysis import inputs_from_spec
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import parse_inputs
-from webapp.services.analysis import result_from_analysis
-from webapp.services.analysis import run_analysis
+from webapp.models import CALIBRATION_KINDS, Calibration, Calorimeter, Group, Person, Result, Run, utcnow
+from webapp.services.access import can_lock_run, can_view_run, require_editable, visible_runs_clause
+from webapp.services.analysis import (
+    AnalysisOptions,
+    calorimeter_name_in,
+    decode_readings,
+    encode_series,
+    inputs_from_spec,
+    needs_supplied_heat_capacity,
+    parse_inputs,
+    result_from_analysis,
+    run_analysis,
+)
 from webapp.services.audit import record_change
-from webapp.services.result_store import store_result
+from webapp.services.calorimeters import current_calibration, find_calorimeter
 from webapp.services.checks import history_of
-from webapp.services.concurrency import check_version
-from webapp.services.concurrency import content_hash
-from webapp.services.concurrency import locked_run
-from webapp.services.concurrency import run_state
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import find_calorimeter
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.errors import RunLocked
-from webapp.services.errors import Stale
+from webapp.services.concurrency import check_version, content_hash, locked_run, run_state
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound, RunLocked, Stale
+from webapp.services.result_store import store_result
 
 T = TypeVar("T")
 

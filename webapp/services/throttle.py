@@ -19,10 +19,9 @@ import math
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc import limits
 
-from webapp.models import SignInFailure
-from webapp.models import utcnow
+from calc import limits
+from webapp.models import SignInFailure, utcnow
 from webapp.services.errors import ServiceError
 
 log = logging.getLogger("cupcal.sign_in")

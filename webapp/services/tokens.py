@@ -10,12 +10,12 @@ from __future__ import annotations
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import ApiToken
-from webapp.models import Person
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.people import issue_token
-from webapp.services.people import token_for_secret  # noqa: F401  (re-exported)
+from webapp.models import ApiToken, Person
+from webapp.services.errors import Forbidden, Invalid
+from webapp.services.people import (
+    issue_token,
+    token_for_secret,  # noqa: F401  (re-exported)
+)
 
 #: "live" tokens may only create live runs, post their readings, set their target and finish them
 SCOPES = ("read", "write", "live")

@@ -27,7 +27,6 @@ from typing import Any
 from urllib.parse import urlsplit
 
 from calc import limits
-
 from webapp.services.errors import Invalid
 
 Address = ipaddress.IPv4Address | ipaddress.IPv6Address

@@ -26,16 +26,10 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
-from webapp.models import Webhook
-from webapp.models import WebhookDelivery
-from webapp.models import utcnow
+from webapp.models import Person, Run, Webhook, WebhookDelivery, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.errors import NotFound
-from webapp.services.webhook_guard import Guard
-from webapp.services.webhook_guard import check_url
-from webapp.services.webhook_guard import post
+from webapp.services.webhook_guard import Guard, check_url, post
 
 EVENT = "run.locked"
 MAX_ATTEMPTS = 6

@@ -54,7 +54,7 @@ class FakeNotebook:
     def url(self) -> str:
         return f"http://127.0.0.1:{self.server.server_address[1]}"
 
-    def __enter__(self) -> "FakeNotebook":
+    def __enter__(self) -> FakeNotebook:
         self.thread.start()
         return self
 

@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 
 from calc.analysis import analyze_run
-from calc.live.advisor import PHASES, advise
 from calc.live.advice_signals import FORE_TARGET_S
+from calc.live.advisor import PHASES, advise
 from calc.simulation import simulator
 from tests.calc.live.helpers import live_run, upto
 

@@ -7,7 +7,6 @@ import json
 import signal
 import sys
 import time
-from pathlib import Path
 
 import numpy as np
 import pytest
