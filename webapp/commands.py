@@ -87,7 +87,7 @@ def check() -> None:
 
 
 def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
-    click.echo("Demo sign-ins (invented people; password for all: %s):" % sign_ins[0].password)
+    click.echo(f"Demo sign-ins (invented people; password for all: {sign_ins[0].password}):")
     for s in sign_ins:
         click.echo(f"  {s.role:<12} {s.email:<45} {s.name}")
 

@@ -1,7 +1,7 @@
 """Create the notebook tables: people, groups, calorimeters, runs, results, audit
 
 Revision ID: 0001
-Revises: 
+Revises:
 Create Date: 2026-12-02
 """
 

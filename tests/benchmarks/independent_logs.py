@@ -147,7 +147,7 @@ def _integrate(rhs, t_end: float, breaks: list[float], z0: list[float], t_eval: 
 def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, artefacts: bool = True) -> IndependentLog:
     """Generate one truth-known run of ``kind`` (see the module docstring)."""
     rng = np.random.default_rng([10_000_019, seed, sum(map(ord, kind))])
-    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)
+    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)  # noqa: B008 (one constant room temperature, drawn once)
     t0 = room(0.0) + (rng.uniform(-1.5, 1.5) if artefacts else rng.uniform(-1, 1))
     srng = rng if artefacts else None  # near noise-free logs state the true inputs exactly
     c_cal = rng.uniform(5, 60)

@@ -43,7 +43,7 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
     trials, live_id = [], None
     thermo.start()
     try:
-        for trial in range(TRIALS):
+        for _trial in range(TRIALS):
             earlier = rows(out)
             before, inode = len(earlier), out.stat().st_ino if out.exists() else None
             proc = start_recorder(out, port, *args)

@@ -66,12 +66,12 @@ def json_values() -> st.SearchStrategy[Any]:
 
 def _raw_json(kind: str, key: str, depth: int) -> str:
     if kind == "deep":
-        return '{"%s": %s0%s}' % (key, "[" * depth, "]" * depth)
+        return f'{{"{key}": {"[" * depth}0{"]" * depth}}}'
     if kind == "digits":
-        return '{"%s": %s}' % (key, "9" * depth)
+        return f'{{"{key}": {"9" * depth}}}'
     if kind == "surrogate":
-        return '{"%s": "a\\ud800b"}' % key
-    return '{"%s": ' % key  # cut short
+        return f'{{"{key}": "a\\ud800b"}}'
+    return f'{{"{key}": '  # cut short
 
 
 def bodies() -> st.SearchStrategy[tuple[str, str]]:

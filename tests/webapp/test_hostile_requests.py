@@ -57,15 +57,33 @@ def test_packages_with_wrong_types(client: Any, lab: Any, run_id: int) -> None:
     export = client.get(f"/api/runs/{run_id}/export/json", headers=lab.auth("coord")).get_json()
     bad = []
     for key, value in (("result", "x"), ("files", []), ("run", []), ("provenance", []), ("format_version", 2**80)):
-        d = dict(export); d[key] = value; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"]["method"] = []; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"] = "x"; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = {"trials": 10, "seed": -1}; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = {"trials": 10**12, "seed": 1}; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = "x"; bad.append(d)
-    d = json.loads(json.dumps(export)); d["run"]["calorimeter"] = ["x"]; bad.append(d)
-    d = json.loads(json.dumps(export)); d["files"]["run_file"]["sha256"] = 5; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"].update(fore=[1e308, 1e309], periods_given=True); bad.append(d)
+        d = dict(export)
+        d[key] = value
+        bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"]["method"] = []
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"] = "x"
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = {"trials": 10, "seed": -1}
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = {"trials": 10**12, "seed": 1}
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = "x"
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["run"]["calorimeter"] = ["x"]
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["files"]["run_file"]["sha256"] = 5
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"].update(fore=[1e308, 1e309], periods_given=True)
+    bad.append(d)
     for i, doc in enumerate(bad):
         r = client.post("/api/packages", data=json.dumps(doc), content_type="application/json",
                         headers=lab.auth("coord"))

@@ -36,7 +36,7 @@ def test_the_form_of_each_kind_has_the_fields_of_the_run_file_schema(client: Any
         names = set(re.findall(r'name="([^"]+)"', html))
         assert "readings" in names and "calorimeter_id" in names and "csrf_token" in names
         for section, fields in schema.items():
-            for field, (ftype, unit, _required) in fields.items():
+            for field, (ftype, _unit, _required) in fields.items():
                 dotted = f"{section}.{field}"
                 if dotted == "calorimeter.name":
                     continue  # the calorimeter select

@@ -230,7 +230,7 @@ def test_straight_drift_lines_meet_delta_t_at_t_x(name, method):
         assert t_x == a.periods.mixing_time
     fore, after = curves["fore"], curves["after"]
     assert fore[0][-1] == pytest.approx(t_x) and after[0][0] == pytest.approx(t_x)
-    for tt, yy in (fore, after):
+    for _tt, yy in (fore, after):
         assert np.max(np.abs(np.diff(yy, 2))) < 1e-9  # straight
     assert _at(fore, t_x) == pytest.approx(a.delta_t.start_temperature, abs=1e-9)
     assert _at(after, t_x) == pytest.approx(a.delta_t.end_temperature, abs=1e-9)

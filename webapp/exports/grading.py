@@ -102,7 +102,7 @@ def stats_rows(board: Dashboard) -> Iterator[list[Any]]:
         d = gum_round(s.mean, s.sd)[2] + 1 if s.sd else 4
 
         def r(x: float | None) -> float | None:
-            return None if x is None else round(x, d)
+            return None if x is None else round(x, d)  # noqa: B023 (called within this iteration)
 
         yield [neutralise(s.measurement), s.unit, s.n, s.groups, r(s.mean), r(s.sd), r(s.s_r), r(s.s_L), r(s.s_R),
                r(s.r), r(s.R), r(s.reference), neutralise(s.note)]

@@ -126,7 +126,7 @@ def _calorimeters(job: _Import, folders: dict[str, list[str]]) -> None:
         if not isinstance(doc, dict) or doc.get("format") != CALORIMETER_FORMAT:
             continue
         job.stamps.update(calibration_stamps(doc))
-        message = job.attempt(path, lambda: restore_calorimeter(job.session, job.actor, doc, job.people, path,
+        message = job.attempt(path, lambda doc=doc, path=path: restore_calorimeter(job.session, job.actor, doc, job.people, path,
                                                                        job.known))
         if message is not None:
             job.item(path, "stored", message)
@@ -186,7 +186,7 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
 
 def _foreign_runs(job: _Import, folders: dict[str, list[str]]) -> None:
     files = job.archive.files
-    for folder, paths in folders.items():
+    for paths in folders.values():
         for path in paths:
             if not path.lower().endswith(".toml") or path in job.done:
                 continue

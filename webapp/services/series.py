@@ -36,6 +36,11 @@ def budget_lines(budget: list[dict[str, Any]]) -> list[SimpleNamespace]:
     return out
 
 
+def _finite_or_none(x: float) -> float | None:
+    """Return ``x``, or None for an infinite degree of freedom (JSON has no infinity)."""
+    return x if math.isfinite(x) else None
+
+
 def _main(result: Result) -> tuple[float | None, str]:
     if result.main == "molar_enthalpy":
         return result.molar_enthalpy_kj_mol, "kJ/mol"
@@ -64,11 +69,10 @@ def summarise_runs(runs: list[tuple[Run, Result]], *, first_budget: list[dict[st
         s = summarize_series(values, type_b_u=ub, type_b_dof=nub)
     except InputError as exc:
         raise Invalid(str(exc), field="run_ids") from None
-    fin = (lambda x: x if math.isfinite(x) else None)
     return {"unit": unit, "run_ids": [r.id for r, _ in runs], "values": values, "n": s.n, "mean": s.mean,
             "sd": s.sd, "u_mean": s.u_mean, "dof": s.dof, "t95": s.t95, "ci95": list(s.ci95),
-            "type_b_u": s.type_b_u, "type_b_dof": fin(s.type_b_dof), "u_combined": s.u_combined,
-            "dof_eff": fin(s.dof_eff), "k": s.k, "U": s.U}
+            "type_b_u": s.type_b_u, "type_b_dof": _finite_or_none(s.type_b_dof), "u_combined": s.u_combined,
+            "dof_eff": _finite_or_none(s.dof_eff), "k": s.k, "U": s.U}
 
 
 def _current(session: so.Session, run_ids: list[int]) -> list[tuple[Run, Result]]:
@@ -135,10 +139,9 @@ def group_series(rows: list[Any], session: so.Session | None = None) -> list[dic
             s = summarize_series([m.value for m in members], type_b_u=ub, type_b_dof=nub)
         except InputError:
             continue
-        fin = (lambda x: x if math.isfinite(x) else None)
         out.append({"group": group, "measurement": meas, "unit": members[0].unit,
                     "run_ids": [m.run_id for m in members], "values": [m.value for m in members], "n": s.n,
                     "mean": s.mean, "sd": s.sd, "u_mean": s.u_mean, "dof": s.dof, "t95": s.t95,
-                    "ci95": list(s.ci95), "type_b_u": s.type_b_u, "type_b_dof": fin(s.type_b_dof),
-                    "u_combined": s.u_combined, "dof_eff": fin(s.dof_eff), "k": s.k, "U": s.U})
+                    "ci95": list(s.ci95), "type_b_u": s.type_b_u, "type_b_dof": _finite_or_none(s.type_b_dof),
+                    "u_combined": s.u_combined, "dof_eff": _finite_or_none(s.dof_eff), "k": s.k, "U": s.U})
     return out

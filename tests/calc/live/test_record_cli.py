@@ -140,7 +140,7 @@ def test_kill_9_loses_at_most_the_last_reading_and_a_restart_resumes_the_log_and
         args = ("--notebook", nb.url, "--run-file", str(run_file))
         thermo.start()
         try:
-            for crash in range(3):
+            for _crash in range(3):
                 before = len(rows(out))
                 proc = start_recorder(out, port, *args)
                 wait_rows(out, before + 10)
