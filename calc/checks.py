@@ -30,10 +30,11 @@ import math
 from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass
 from functools import lru_cache
-from importlib import resources
 from typing import Any
 
 import numpy as np
+
+from calc.refdata.datafiles import open_data
 
 __all__ = ["Check", "run_checks", "solubility", "plausible_heat_capacity", "CALORIMETER_TYPES",
            "DEFAULT_CALORIMETER_TYPE", "NEAR_SATURATION", "DELTA_T_TOLERANCE", "HISTORY_K"]
@@ -81,7 +82,7 @@ def _solubility_table() -> dict[str, tuple[np.ndarray, np.ndarray, str]]:
     from calc.refdata.species import citation
 
     rows: dict[str, list[tuple[float, float, str]]] = {}
-    with (resources.files("calc.refdata") / "data" / "solubility.csv").open(encoding="utf-8", newline="") as fh:
+    with open_data("solubility.csv") as fh:
         for row in csv.DictReader(fh):
             rows.setdefault(row["formula"], []).append(
                 (float(row["t_C"]), float(row["g_per_100g_water"]), row["source"]))
@@ -145,10 +146,10 @@ def _water_g(analysis: Any) -> float | None:
     for section, density in (("water", "water.density"), ("solution", "solution.density")):
         volume = spec.get(section, "volume")
         if volume is not None and density in analysis.properties.values:
-            return volume.m_as("mL") * analysis.properties.values[density][0]
+            return float(volume.m_as("mL") * analysis.properties.values[density][0])
     vals = analysis.properties.values
     if all(f"{s}.density" in vals for s in ("acid", "base")):  # two stocks mixed (a neutralization)
-        return sum(spec.get(s, "volume").m_as("mL") * vals[f"{s}.density"][0] for s in ("acid", "base"))
+        return float(sum(spec.get(s, "volume").m_as("mL") * vals[f"{s}.density"][0] for s in ("acid", "base")))
     return None
 
 
@@ -244,9 +245,9 @@ def _heat_capacity_check(analysis: Any, calorimeter_type: str | None) -> Check |
     if analysis.main == "calorimeter_heat_capacity":
         c, u = analysis.gum.values[analysis.main], analysis.gum.uncertainties[analysis.main]
         what = "measured"
-    elif "heat_capacity_total" in analysis.gum.values and _water_g(analysis):
+    elif "heat_capacity_total" in analysis.gum.values and (water_g := _water_g(analysis)):
         # an in-situ heater measures cup + solution: less the water's share, roughly the cup's
-        c = analysis.gum.values["heat_capacity_total"] - _water_g(analysis) * _WATER_CP
+        c = analysis.gum.values["heat_capacity_total"] - water_g * _WATER_CP
         u = analysis.gum.uncertainties["heat_capacity_total"]
         what = "implied (heater's cup + solution less the water)"
     else:

@@ -152,6 +152,7 @@ def _head_lines(analysis: Analysis, input_path: str) -> list[str]:
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
     for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
+            assert shared is not None  # the events are the shared fit's
             lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
                          f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
                          f"{ev['u_fit']:.2g} K, correlation with the dissolution's "

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+from typing import Any
 
 import click
 
@@ -29,7 +30,7 @@ def parse_temperature(text: str) -> float:
     except ValueError:
         pass
     try:
-        q = Q_(raw)
+        q: Any = Q_(raw)
         return float(q.to("kelvin").magnitude)
     except (DimensionalityError, UndefinedUnitError, AttributeError, ValueError, TypeError) as exc:
         raise InputError(

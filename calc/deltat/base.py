@@ -15,6 +15,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -66,7 +67,7 @@ class Log:
     periods: Periods
     resolution: float  # K
     two_solution: bool = False
-    _lines: dict = field(default_factory=dict, repr=False)
+    _lines: dict[str, Any] = field(default_factory=dict, repr=False)
 
     def line(self, which: str) -> LineFit:
         """Return the straight-line fit of the whole 'fore' or 'after' period (cached)."""

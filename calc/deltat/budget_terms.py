@@ -19,7 +19,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from calc.deltat.base import sweep_factor
+from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
 from calc.deltat.drift import fit_newton_single, phi
 
@@ -50,7 +50,7 @@ def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
             * sweep_factor(steps))
 
 
-def quantisation_drift_term(log, dt_value: float) -> float:
+def quantisation_drift_term(log: Log, dt_value: float) -> float:
     """Return the ΔT standard uncertainty from the slopes' quantisation floors (K)."""
     q = log.resolution
     if q <= 0:
@@ -70,7 +70,7 @@ def quantisation_drift_term(log, dt_value: float) -> float:
     return 0.5 * dur * math.hypot(u_bf, u_ba)
 
 
-def mixing_time_term(log, method_fn: Callable, value: float) -> float:
+def mixing_time_term(log: Log, method_fn: Callable[[Log], DeltaT], value: float) -> float:
     """Return |ΔT(t_m + u) − ΔT(t_m − u)|/2 for a detected mixing time (K), 0 when it is given."""
     p = log.periods
     u = p.u_mixing_time
@@ -93,7 +93,7 @@ def mixing_time_term(log, method_fn: Callable, value: float) -> float:
     return max(abs(v - value) for v in vals)
 
 
-def inadequacy_term(log, dt) -> tuple[float, float]:
+def inadequacy_term(log: Log, dt: DeltaT) -> tuple[float, float]:
     """Return (standard uncertainty from model inadequacy, the raw disagreement) in K.
 
     The regnault-pfaundler value uses one Newtonian drift law for the fore and after periods.
@@ -141,7 +141,7 @@ def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
     return c * (x - phi(k, x)) / k
 
 
-def room_drift_term(log, dt, method_fn: Callable) -> float:
+def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) -> float:
     """Return the ΔT standard uncertainty from a room temperature that changes linearly (K).
 
     The effect is propagated through the method itself: the readings get the response

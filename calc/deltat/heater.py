@@ -21,11 +21,15 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from calc.deltat.periods import MIN_WINDOW_POINTS, Periods
 from calc.errors import InputError
+
+if TYPE_CHECKING:  # for the annotations only: heater does not import base at run time
+    from calc.deltat.base import DeltaT
 
 __all__ = ["HEATER_LAG_S", "MIN_LAG_S", "heater_off_time", "after_heater_off", "lag_term", "widened",
            "heater_periods"]
@@ -105,7 +109,7 @@ def lag_term(dt_value: float, periods: Periods, t: np.ndarray, duration_s: float
     return abs(other - dt_value) / math.sqrt(3.0)
 
 
-def widened(dt, extra_u: float):  # noqa: ANN001, ANN201 - DeltaT in, DeltaT out (no import cycle)
+def widened(dt: DeltaT, extra_u: float) -> DeltaT:
     """Return ``dt`` with ``extra_u`` added in quadrature to its method term."""
     if extra_u <= 0:
         return dt

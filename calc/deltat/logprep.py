@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -33,7 +34,7 @@ class PreparedLog:
     t: np.ndarray
     y: np.ndarray
     lines: np.ndarray | None
-    rejected: list[dict] = field(default_factory=list)  # {"time_s", "temperature_K", "line", "offset_K"}
+    rejected: list[dict[str, Any]] = field(default_factory=list)  # {"time_s", "temperature_K", "line", "offset_K"}
     gaps: list[tuple[float, float]] = field(default_factory=list)
     merged_duplicates: int = 0
     warnings: list[str] = field(default_factory=list)

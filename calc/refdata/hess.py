@@ -18,6 +18,7 @@ from calc.refdata.species import (
     T_REF_K,
     FormationEntry,
     Species,
+    SpeciesKey,
     citation,
     formation_enthalpy,
     formation_index,
@@ -185,7 +186,8 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
     return result
 
 
-def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]], index: dict) -> None:
+def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]],
+                    index: dict[SpeciesKey, FormationEntry]) -> None:
     """Refuse unknown species and an equation not balanced in its elements or charge, naming each."""
     problems: list[str] = []
     unknown = [
@@ -214,7 +216,8 @@ def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]], 
         raise InputError(f"equation {equation!r}: " + ". ".join(problems))
 
 
-def _at_298(signed: list[tuple[Fraction, Species, str]], index: dict) -> tuple[HessResult, list[str]]:
+def _at_298(signed: list[tuple[Fraction, Species, str]],
+            index: dict[SpeciesKey, FormationEntry]) -> tuple[HessResult, list[str]]:
     """Return the result at 298.15 K (with ΔrCp when every species has Cp°) and the species without Cp°."""
     terms: list[HessTerm] = []
     for coef, sp, _ in signed:
@@ -237,7 +240,7 @@ def _at_298(signed: list[tuple[Fraction, Species, str]], index: dict) -> tuple[H
     if missing_cp:
         dcp = dcp_u = None
     else:
-        dcp = sum(float(t.coefficient) * t.cp for t in terms) / 1000.0  # type: ignore[operator]
+        dcp = sum(float(t.coefficient) * t.cp for t in terms if t.cp is not None) / 1000.0  # none is None here
         dcp_u = math.sqrt(
             sum((float(t.coefficient) * _cp_u(index[parse_species(t.species).key()])) ** 2 for t in terms)
         ) / 1000.0

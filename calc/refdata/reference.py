@@ -20,6 +20,7 @@ from importlib import resources
 
 from calc.errors import InputError
 from calc.kinds import REGISTRY
+from calc.refdata.datafiles import open_data
 from calc.refdata.dilution import PhiL, phi_L
 from calc.refdata.formula import element_composition, molar_mass
 from calc.refdata.hess import citation, formation_enthalpy, hess
@@ -112,8 +113,7 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
 
 @lru_cache(maxsize=1)
 def _solution_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc.refdata") / "data" / "solution_enthalpies.csv"
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data("solution_enthalpies.csv") as fh:
         return tuple(csv.DictReader(fh))
 
 

@@ -22,6 +22,7 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
+from calc.refdata.datafiles import open_data
 from calc.refdata.formula import element_composition, normalize
 
 __all__ = [
@@ -53,6 +54,10 @@ _STATE_ALIASES = {
 _STATE_WORDS = {"s": "solid", "l": "liquid", "g": "gas", "aq": "aqueous"}
 
 
+#: the lookup key of a species: (element composition, charge, state)
+SpeciesKey = tuple[tuple[tuple[str, int], ...], int, str]
+
+
 @dataclass(frozen=True)
 class Species:
     """A chemical species: neutral formula, charge and physical state (s, l, g, aq)."""
@@ -73,7 +78,7 @@ class Species:
                 text += ("^" if text[-1].isdigit() else "") + f"{mag}{sign}"
         return f"{text}({self.state})"
 
-    def key(self) -> tuple[tuple[tuple[str, int], ...], int, str]:
+    def key(self) -> SpeciesKey:
         """Return the lookup key (element composition, charge, state)."""
         return (element_composition(self.formula), self.charge, self.state)
 
@@ -131,11 +136,10 @@ def _u_from_digits(text: str) -> float:
 
 
 @lru_cache(maxsize=1)
-def _table() -> tuple[dict[tuple, FormationEntry], tuple[FormationEntry, ...]]:
-    path = resources.files("calc.refdata") / "data" / "formation_nbs1982.csv"
-    index: dict[tuple, FormationEntry] = {}
+def _table() -> tuple[dict[SpeciesKey, FormationEntry], tuple[FormationEntry, ...]]:
+    index: dict[SpeciesKey, FormationEntry] = {}
     rows: list[FormationEntry] = []
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data("formation_nbs1982.csv") as fh:
         for line_no, row in enumerate(csv.DictReader(fh), start=2):
             species = Species(row["formula"], int(row["charge"]), row["state"])
             raw = row["dfH_kJ_mol"]
@@ -167,7 +171,7 @@ def formation_table() -> tuple[FormationEntry, ...]:
     return _table()[1]
 
 
-def formation_index() -> dict[tuple, FormationEntry]:
+def formation_index() -> dict[SpeciesKey, FormationEntry]:
     """Return the table keyed by ``Species.key()`` (composition, charge, state)."""
     return _table()[0]
 

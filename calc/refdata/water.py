@@ -74,10 +74,11 @@ class _WaterGrid:
 
     def _load(self) -> dict[int, tuple[float, float, float]]:
         import csv
-        from importlib import resources
+
+        from calc.refdata.datafiles import open_data
 
         nodes: dict[int, tuple[float, float, float]] = {}
-        with (resources.files("calc.refdata") / "data" / GRID_FILE).open(encoding="utf-8", newline="") as fh:
+        with open_data(GRID_FILE) as fh:
             for row in csv.DictReader(line for line in fh if not line.startswith("#")):
                 nodes[int(row["node"])] = (float(row["density_g_mL"]), float(row["cp_J_gK"]),
                                            float(row["dielectric_constant"]))
