@@ -12,7 +12,7 @@ import os
 from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -192,7 +192,7 @@ def _heater_duration(spec: RunSpec) -> float | None:
     """Return the heater's stated duration (s) of an electrical calibration, else None."""
     if not get_kind(spec.kind).timed_heater:
         return None
-    return spec.get("heater", "duration").m_as("s")
+    return cast("float | None", spec.get("heater", "duration").m_as("s"))
 
 
 def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, duration: float,

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from scipy.optimize import least_squares
@@ -180,7 +180,7 @@ def _dissolution_end(t: np.ndarray, y: np.ndarray, t_m: float, nxt: float, spec:
 
 def _window_model(params: np.ndarray, j: int, t: np.ndarray, c: float, t_ref: float) -> np.ndarray:
     level, a, k = params[j], params[-2], params[-1]
-    return level + (a - k * (level - t_ref)) * phi(k, t - c)
+    return cast(np.ndarray, level + (a - k * (level - t_ref)) * phi(k, t - c))
 
 
 def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[float, float]],
@@ -265,7 +265,7 @@ def _event_delta_t(t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[f
         t_f = float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])
         a, k = p[-2], p[-1]
         integral_t = inner_sum + w_a * t_i + w_b * t_f
-        return (t_f - t_i) - (a * span - k * (integral_t - t_ref * span))
+        return cast(float, (t_f - t_i) - (a * span - k * (integral_t - t_ref * span)))
 
     return f
 

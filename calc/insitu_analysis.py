@@ -8,7 +8,7 @@ factor.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -130,7 +130,7 @@ def dissolution_delta_t(fit: SharedFit) -> DeltaT:
 
 def _correlation(cov: np.ndarray) -> np.ndarray:
     d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
-    return cov / np.outer(d, d)
+    return cast(np.ndarray, cov / np.outer(d, d))
 
 
 def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, monte_carlo_trials: int,

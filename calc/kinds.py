@@ -38,7 +38,7 @@ import importlib
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import Any, cast
 
 __all__ = ["RunKind", "REGISTRY", "get_kind", "kind_names", "calibration_kinds", "plannable_kinds",
            "CALIBRATION_OUTPUT"]
@@ -107,7 +107,7 @@ class RunKind:
         if target is None:
             return None
         module, _, attribute = target.partition(":")
-        return getattr(importlib.import_module(module), attribute)
+        return cast("Callable[..., Any] | None", getattr(importlib.import_module(module), attribute))
 
 
 _MM = "calc.uncertainty.measurement_models"

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 from calc.errors import InputError
 from calc.io.quantities import Measured
@@ -52,7 +52,7 @@ def build_sections(kind: str, p: dict[str, Any], amount: Callable[..., Measured]
     sections = get_kind(kind).hook("plan_sections") if kind in PLAN_KINDS else None
     if sections is None:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLAN_KINDS)}", field="kind")
-    return sections(p, amount, measured, T0, u_read)
+    return cast("tuple[dict[str, dict[str, Any]], list[str]]", sections(p, amount, measured, T0, u_read))
 
 
 # ------------------------------------------------------------------ the kinds' ``plan_sections`` hooks

@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -178,7 +178,7 @@ def resolution_terms(log: Log) -> tuple[float, float]:
     """Return the resolution terms of the start and end levels (from the fore and after windows)."""
     cached = log._lines.get("resolution_terms")
     if cached is not None:
-        return cached
+        return cast("tuple[float, float]", cached)
     out = []
     for which in ("fore", "after"):
         tw, _yw = log.window(which)

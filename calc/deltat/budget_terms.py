@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import replace
+from typing import cast
 
 import numpy as np
 
@@ -138,7 +139,7 @@ def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
     x = np.asarray(t, dtype=float) - t_i
     if abs(k) < 1e-12:
         return 0.5 * c * x * x
-    return c * (x - phi(k, x)) / k
+    return cast(np.ndarray, c * (x - phi(k, x)) / k)
 
 
 def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) -> float:

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -88,7 +89,7 @@ def _rss_scan(tw: np.ndarray, yw: np.ndarray, taus: np.ndarray, scale: float) ->
     A += np.eye(A.shape[-1])[None] * 1e-12 * np.trace(A, axis1=1, axis2=2)[:, None, None]
     beta = np.linalg.solve(A, b[..., None])[..., 0]
     r = yw[None, :] - np.einsum("mni,mi->mn", X, beta)
-    return np.einsum("mn,mn->m", r, r)
+    return cast(np.ndarray, np.einsum("mn,mn->m", r, r))
 
 
 def _lag1(r: np.ndarray) -> float:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -124,14 +125,14 @@ def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
 def phi(k: float, x: np.ndarray) -> np.ndarray:
     """Return (1 − e^{−k x})/k, continuous at k = 0 (equal to x there)."""
     if abs(k) < 1e-12:
-        return x - 0.5 * k * x * x
+        return cast(np.ndarray, x - 0.5 * k * x * x)
     return -np.expm1(-k * x) / k
 
 
 def _dphi_dk(k: float, x: np.ndarray) -> np.ndarray:
     # d/dk [(1 − e^{−kx})/k] = [x k e^{−kx} − (1 − e^{−kx})]/k²  → −x²/2 at k = 0
     if abs(k) < 1e-9:
-        return -0.5 * x * x + (k * x**3) / 3.0
+        return cast(np.ndarray, -0.5 * x * x + (k * x**3) / 3.0)
     e = np.exp(-k * x)
     return (x * k * e + np.expm1(-k * x)) / (k * k)
 
@@ -166,9 +167,9 @@ class NewtonFit:
         """Return the drift rate g(T) in K/s."""
         if self.t_i is not None:
             y_i, _y_f, g_i, k = self.params
-            return g_i + k * (y_i - temperature)
+            return cast("np.ndarray | float", g_i + k * (y_i - temperature))
         y_f, g_f, k = self.params
-        return g_f + k * (y_f - temperature)
+        return cast("np.ndarray | float", g_f + k * (y_f - temperature))
 
     def convergence_temperature(self) -> float:
         """Return T∞ (where the drift is zero); inf when k is zero."""

@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -76,7 +77,7 @@ def _problem(log: Log, rp: DeltaT) -> _Problem:
 
         def resid2(p: np.ndarray) -> np.ndarray:
             T_inf, k, D, lkr, ls = p
-            return probe_reading(tp, T_inf, k, T_m, D, math.exp(lkr), math.exp(ls)) - yp
+            return cast(np.ndarray, probe_reading(tp, T_inf, k, T_m, D, math.exp(lkr), math.exp(ls)) - yp)
 
         p0 = np.array([tinf0, k0, rp.value, math.log(kr0), math.log(s0)])
         lb = [-np.inf, -1 / 600.0, -np.inf, lkr_lo, ls_lo]

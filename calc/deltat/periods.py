@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import cast
 
 import numpy as np
 
@@ -217,7 +218,7 @@ def _running_change(t: np.ndarray, y: np.ndarray, t_m: float, tp: np.ndarray, yp
     tt = np.concatenate([[t_m], tp])
     gg = np.concatenate([[g_f + k * (T_f - y_m)], g])
     cum = np.concatenate([[0.0], np.cumsum(0.5 * (gg[1:] + gg[:-1]) * np.diff(tt))])[1:]
-    return yp - y_m - cum
+    return cast(np.ndarray, yp - y_m - cum)
 
 
 def _smoothed(D: np.ndarray, dt: float) -> np.ndarray:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -100,7 +101,7 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     def dT_of(p: np.ndarray) -> float:
         y_f, g_f, k = p
         integ = inner + w_a * T_A + w_b * y_f
-        return (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+        return cast(float, (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ))
 
     # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
     return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA))
@@ -116,7 +117,7 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
     def dT_of(p: np.ndarray) -> float:
         y_i, y_f, g_i, k = p
         integ = inner + w_a * y_i + w_b * y_f
-        return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
+        return cast(float, (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ))
 
     start, u_start = float(nf.params[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
     return _Setup(nf, dT_of, 0.0, nf.dof, 3, _NOT_NEWTONIAN_ONE, start, u_start)

@@ -28,6 +28,7 @@ import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import cast
 
 from calc.errors import InputError
 from calc.io.unit_text import (
@@ -131,7 +132,7 @@ def default_uncertainty(number_text: str) -> float:
     # Exponents this large give inf (or 0), which the caller rejects.
     shift = float(exponent) if exponent else 0.0
     try:
-        return 0.5 * 10.0 ** (shift - len(fraction)) / _SQRT3
+        return cast(float, 0.5 * 10.0 ** (shift - len(fraction)) / _SQRT3)
     except OverflowError:
         return math.inf
 
@@ -247,9 +248,9 @@ def _build(
             problem = f"the uncertainty in {text!r} is negative; a standard uncertainty is >= 0"
             raise _error(problem, expected, field, source)
         distribution = "normal"
-    unit, problem = check_unit(unit_text, expected)
-    if problem is not None:
-        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
+    unit, unit_problem = check_unit(unit_text, expected)
+    if unit_problem is not None:
+        raise _error(unit_problem.replace(TEXT, repr(text)), expected, field, source)
     measured = Measured(value, u, unit, distribution, text)
     if is_absolute_temperature(expected) and measured.m_as("K") < 0:
         raise _error(f"{text!r} is below absolute zero", expected, field, source)
@@ -296,9 +297,9 @@ def _parse_clock(
     if not unit_text:
         problem = f"{text!r} gives no unit for the uncertainty, e.g. '3:00 ± 2 s'"
         raise _error(problem, expected, field, source)
-    unit, problem = check_unit(unit_text, "s")
-    if problem is not None:
-        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
+    unit, unit_problem = check_unit(unit_text, "s")
+    if unit_problem is not None:
+        raise _error(unit_problem.replace(TEXT, repr(text)), expected, field, source)
     u_s = u * _affine(unit, "s")[0]
     if not math.isfinite(u_s):  # e.g. "1:00 ± 1e308 h" overflows in seconds
         raise _error(f"the uncertainty in {text!r} is too large", expected, field, source)

@@ -276,9 +276,9 @@ def _time_cell(cell: str, layout: Layout, source: str, line: int) -> float:
             message = f"the time cell {limits.shorten(cell)!r} is too large; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
         return -value if sign == "-" else value
-    value = _number(cell, layout.delimiter)
-    if value is not None and np.isfinite(value):
-        return value * layout.seconds_per_unit
+    number = _number(cell, layout.delimiter)
+    if number is not None and np.isfinite(number):
+        return number * layout.seconds_per_unit
     if CLOCK_RE.fullmatch(cell):
         said = "file has no header" if layout.header_line is None else f"header says {unit}"
         message = f"the time cell {limits.shorten(cell)!r} is a clock time but the {said}; expected a time in "

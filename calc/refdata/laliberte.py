@@ -23,6 +23,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
+from typing import cast
 
 __all__ = ["LaliberteRow", "laliberte_rows", "density", "specific_heat", "water_density"]
 
@@ -88,7 +89,7 @@ def _apparent_density(c: tuple[float, ...], t_c: float, w_solutes: float) -> flo
 def _apparent_cp(a: tuple[float, ...], t_c: float, w_solutes: float) -> float:
     a1, a2, a3, a4, a5, a6 = a
     alpha = a2 * t_c + a3 * math.exp(0.01 * t_c) + a4 * w_solutes
-    return 1000.0 * (a1 * math.exp(alpha) + a5 * w_solutes ** a6)
+    return cast(float, 1000.0 * (a1 * math.exp(alpha) + a5 * w_solutes ** a6))
 
 
 def density(t_c: float, fractions: Mapping[LaliberteRow, float]) -> float:

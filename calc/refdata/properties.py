@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import math
 from functools import lru_cache
+from typing import Any
 
 from calc.errors import InputError
 from calc.refdata import laliberte
@@ -170,7 +171,7 @@ def solution_properties(
             _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP))
 
 
-def _solution_value(quantity: str, model: tuple, u_rel: float, water: ModelledProperty,
+def _solution_value(quantity: str, model: tuple[Any, ...], u_rel: float, water: ModelledProperty,
                     half_width: float) -> ModelledProperty:
     """Return Laliberté's ``quantity`` (kg/m³ or J/(kg K), given in g/mL or J/(g K)), or the water fallback."""
     T, w_solutes, fractions, rows = model

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import csv
 import tomllib
+from collections.abc import Iterable
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
@@ -234,7 +235,7 @@ def _base_species(base_formula: str) -> tuple[str, str] | None:
     return _species(_BASE_ALIASES.get(base, base), STRONG_BASES, "OH-(aq)", WEAK_BASES, "+")
 
 
-def _species(name: str, strong, strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
+def _species(name: str, strong: Iterable[str], strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
     """Match ``name`` against the strong ones (consuming ``strong_ion``), then the weak ones (formula → conjugate)."""
     if any(_same_formula(name, formula) for formula in strong):
         return strong_ion, ""

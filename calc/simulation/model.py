@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 from scipy.integrate import solve_ivp
@@ -211,7 +212,7 @@ def ar1_noise(rng: np.random.Generator, n: int, sigma: float, phi: float) -> np.
     eta = rng.standard_normal(n) * sigma * math.sqrt(1 - phi**2)
     if n:
         eta[0] /= math.sqrt(1 - phi**2)  # stationary start: e_0 ~ N(0, sigma²)
-    return lfilter([1.0], [1.0, -phi], eta)
+    return cast(np.ndarray, lfilter([1.0], [1.0, -phi], eta))
 
 
 def read_probe(rng: np.random.Generator, probe: np.ndarray, *, noise: float, phi: float, resolution: float,
@@ -220,4 +221,4 @@ def read_probe(rng: np.random.Generator, probe: np.ndarray, *, noise: float, phi
     if not resolution > 0:
         raise InputError(f"resolution must be > 0 K, got {resolution}", field="thermometer.resolution")
     x = probe * (1 + gain) + offset + ar1_noise(rng, probe.size, noise, phi)
-    return resolution * np.round(x / resolution)
+    return cast(np.ndarray, resolution * np.round(x / resolution))
