@@ -103,7 +103,8 @@ class _WaterGrid:
         w1 = (s + 1.0) * (s - 1.0) * (s - 2.0) / 2.0
         w2 = -(s + 1.0) * s * (s - 2.0) / 2.0
         w3 = (s + 1.0) * s * (s - 1.0) / 6.0
-        return tuple(w0 * a + w1 * b + w2 * c + w3 * d for a, b, c, d in zip(n0, n1, n2, n3))  # type: ignore[return-value]
+        rho, cp, eps = (w0 * a + w1 * b + w2 * c + w3 * d for a, b, c, d in zip(n0, n1, n2, n3))
+        return rho, cp, eps
 
 
 def _iapws_direct(T_K: float) -> tuple[float, float]:
