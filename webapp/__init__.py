@@ -56,8 +56,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     :param config: settings that override all others (tests pass ``DATABASE_URL`` here)
     """
     folder = os.environ.get("CUPCAL_INSTANCE_PATH")  # e.g. /var/lib/cupcal; default: instance/ beside the code
-    app = Flask(__name__, instance_relative_config=True,
-                instance_path=os.path.abspath(folder) if folder else None)
+    app = Flask(__name__, instance_relative_config=True, instance_path=os.path.abspath(folder) if folder else None)
     app.config.from_mapping(DEFAULTS)
     app.config.from_pyfile("config.py", silent=True)
     if os.environ.get("DATABASE_URL"):

@@ -37,9 +37,17 @@ def distribution_svg(values: Sequence[float], rows: Sequence[str], flagged: Sequ
     return _distribution_cached(tuple(values), tuple(rows), tuple(flagged), **kw)
 
 
-def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequence[bool], *, unit: str,
-                     measurement: str, reference: float | None = None, reference_U: float | None = None,
-                     width_in: float = 7.5) -> str:
+def _distribution(
+    values: Sequence[float],
+    rows: Sequence[str],
+    flagged: Sequence[bool],
+    *,
+    unit: str,
+    measurement: str,
+    reference: float | None = None,
+    reference_U: float | None = None,
+    width_in: float = 7.5,
+) -> str:
     """Return a strip plot of results, one row per category (section or group), with the reference band.
 
     ``rows`` names each result's row; ``flagged`` results are drawn as vermillion triangles,
@@ -58,20 +66,65 @@ def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequenc
     handles: list[Any] = []
     if reference is not None:
         if reference_U:
-            ax.axvspan(reference - reference_U, reference + reference_U, color=_C["sky_blue"], alpha=0.25,
-                       linewidth=0, gid="cc-ref-band")
-            handles.append(Patch(facecolor=_C["sky_blue"], alpha=0.4, label=f"reference ± U ({fmt.uncertainty(reference_U, unit)})"))
+            ax.axvspan(
+                reference - reference_U,
+                reference + reference_U,
+                color=_C["sky_blue"],
+                alpha=0.25,
+                linewidth=0,
+                gid="cc-ref-band",
+            )
+            handles.append(
+                Patch(
+                    facecolor=_C["sky_blue"], alpha=0.4, label=f"reference ± U ({fmt.uncertainty(reference_U, unit)})"
+                )
+            )
         ax.axvline(reference, color=_C["black"], linestyle=(0, (5, 2)), linewidth=1.3, gid="cc-ref")
-        handles.append(Line2D([], [], color=_C["black"], linestyle=(0, (5, 2)), label=f"reference {fmt.like(reference, reference_U, unit)}"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=_C["black"],
+                linestyle=(0, (5, 2)),
+                label=f"reference {fmt.like(reference, reference_U, unit)}",
+            )
+        )
     if (~f).any():
-        ax.plot(v[~f], y[~f], linestyle="none", marker="o", markersize=4.5, color=_C["blue"], alpha=0.8,
-                markeredgewidth=0, gid="cc-results")
+        ax.plot(
+            v[~f],
+            y[~f],
+            linestyle="none",
+            marker="o",
+            markersize=4.5,
+            color=_C["blue"],
+            alpha=0.8,
+            markeredgewidth=0,
+            gid="cc-results",
+        )
         handles.append(Line2D([], [], linestyle="none", marker="o", color=_C["blue"], label="result"))
     if f.any():
-        ax.plot(v[f], y[f], linestyle="none", marker="^", markersize=6, color=_C["vermillion"],
-                markeredgecolor=_C["black"], markeredgewidth=0.5, gid="cc-flagged")
-        handles.append(Line2D([], [], linestyle="none", marker="^", color=_C["vermillion"],
-                              markeredgecolor=_C["black"], label="flagged result"))
+        ax.plot(
+            v[f],
+            y[f],
+            linestyle="none",
+            marker="^",
+            markersize=6,
+            color=_C["vermillion"],
+            markeredgecolor=_C["black"],
+            markeredgewidth=0.5,
+            gid="cc-flagged",
+        )
+        handles.append(
+            Line2D(
+                [],
+                [],
+                linestyle="none",
+                marker="^",
+                color=_C["vermillion"],
+                markeredgecolor=_C["black"],
+                label="flagged result",
+            )
+        )
     ax.set_yticks(range(len(cats)))
     ax.set_yticklabels([_plain(c) for c in cats], fontsize=8)
     ax.set_ylim(-0.6, len(cats) - 0.4)
@@ -88,9 +141,18 @@ def _distribution(values: Sequence[float], rows: Sequence[str], flagged: Sequenc
     return _to_svg(fig, "Distribution of results", desc + ".")
 
 
-def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bool], *, unit: str,
-                      standard: str, baseline: int, width_in: float = 7.5, height_in: float = 3.9,
-                      xlabel: str = "run, in time order") -> str:
+def control_chart_svg(
+    values: Sequence[float],
+    limits: Any,
+    flagged: Sequence[bool],
+    *,
+    unit: str,
+    standard: str,
+    baseline: int,
+    width_in: float = 7.5,
+    height_in: float = 3.9,
+    xlabel: str = "run, in time order",
+) -> str:
     """Return an individuals control chart: points in time order, centre line, ±1/2/3 s limits.
 
     ``limits`` is a :class:`calc.statistics.control_charts.ControlLimits`; points breaking a run rule
@@ -104,22 +166,41 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
     _style_axes(ax)
     ax.axvspan(0.5, baseline + 0.5, color=_C["yellow"], alpha=0.18, linewidth=0, gid="cc-baseline")
     ax.axhline(limits.centre, color=_C["black"], linewidth=1.2, gid="cc-centre")
-    for k, style, colour in ((1, (0, (1, 2)), _C["bluish_green"]), (2, (0, (4, 2)), _C["orange"]),
-                             (3, "-", _C["vermillion"])):
+    for k, style, colour in (
+        (1, (0, (1, 2)), _C["bluish_green"]),
+        (2, (0, (4, 2)), _C["orange"]),
+        (3, "-", _C["vermillion"]),
+    ):
         for sign in (-1, 1):
             ax.axhline(limits.centre + sign * k * limits.sigma, color=colour, linestyle=style, linewidth=1.0)
     ax.plot(x, v, color=_C["blue"], linewidth=0.8, marker="o", markersize=4, gid="cc-points")
     if f.any():
-        ax.plot(x[f], v[f], linestyle="none", marker="^", markersize=7, color=_C["vermillion"],
-                markeredgecolor=_C["black"], markeredgewidth=0.5, gid="cc-violations")
+        ax.plot(
+            x[f],
+            v[f],
+            linestyle="none",
+            marker="^",
+            markersize=7,
+            color=_C["vermillion"],
+            markeredgecolor=_C["black"],
+            markeredgewidth=0.5,
+            gid="cc-violations",
+        )
     handles = [
         Line2D([], [], color=_C["blue"], marker="o", label="result"),
         Line2D([], [], color=_C["black"], label=f"centre {fmt.like(limits.centre, limits.sigma, unit)}"),
         Line2D([], [], color=_C["bluish_green"], linestyle=(0, (1, 2)), label="±1 s"),
         Line2D([], [], color=_C["orange"], linestyle=(0, (4, 2)), label="±2 s"),
         Line2D([], [], color=_C["vermillion"], label="±3 s"),
-        Line2D([], [], linestyle="none", marker="^", color=_C["vermillion"], markeredgecolor=_C["black"],
-               label="run rule broken"),
+        Line2D(
+            [],
+            [],
+            linestyle="none",
+            marker="^",
+            color=_C["vermillion"],
+            markeredgecolor=_C["black"],
+            label="run rule broken",
+        ),
         Patch(facecolor=_C["yellow"], alpha=0.35, label=f"baseline ({baseline} points)"),
     ]
     ax.set_xlabel(xlabel, fontsize=_FS_LABEL)
@@ -130,6 +211,8 @@ def control_chart_svg(values: Sequence[float], limits: Any, flagged: Sequence[bo
     ax.set_xlim(0.5, max(v.size, 2) + 0.5)
     _heading(fig, "Control chart", standard)
     _legend_below(fig, ax, handles, ncols=4)
-    desc = (f"{v.size} results of {standard}; centre {fmt.like(limits.centre, limits.sigma, unit)}, s = {fmt.uncertainty(limits.sigma, unit)} "
-            f"from the first {baseline} points; {int(f.sum())} point(s) break a run rule")
+    desc = (
+        f"{v.size} results of {standard}; centre {fmt.like(limits.centre, limits.sigma, unit)}, s = {fmt.uncertainty(limits.sigma, unit)} "
+        f"from the first {baseline} points; {int(f.sum())} point(s) break a run rule"
+    )
     return _to_svg(fig, "Control chart", desc + ".")

@@ -29,7 +29,9 @@ def find_section(session, text: str):  # type: ignore[no-untyped-def]
             q = q.where(Course.name == course.strip())
         found = session.scalars(q).all()
         if len(found) > 1:
-            raise click.BadParameter(f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section")
+            raise click.BadParameter(
+                f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section"
+            )
         section = found[0] if found else None
     if section is None:
         raise click.BadParameter(f"no section {text!r} (give its id or COURSE/SECTION)", param_hint="--section")

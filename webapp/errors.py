@@ -40,8 +40,10 @@ def _too_large_message() -> str:
     # the limit of this request: a run upload's (MAX_CONTENT_LENGTH) or a bulk import's
     # (IMPORT_MAX_UPLOAD_BYTES), which its view sets before reading the body
     limit = request.max_content_length or 0
-    return (f"the upload is larger than the limit of {limit // 1024} KiB for this request "
-            "(all its files together); nothing was read or saved")
+    return (
+        f"the upload is larger than the limit of {limit // 1024} KiB for this request "
+        "(all its files together); nothing was read or saved"
+    )
 
 
 def _roll_back_request_session() -> None:
@@ -75,8 +77,13 @@ def init_app(app: Flask) -> None:
 
     @app.errorhandler(so.exc.StaleDataError)
     def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
-        return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
-                                    "saved. Reload it, then make your change again"))
+        return _service_error(
+            Stale(
+                "it was changed by someone else while this request ran; nothing was "
+                "saved. Reload it, then make your change again"
+            )
+        )
+
     @app.errorhandler(CupcalError)
     def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]
         # a limit of calc.limits passed (413) or other bad input that calc found (400)

@@ -24,8 +24,10 @@ def _migrations_dir() -> Path:
     for folder in (here / "_migrations", here.parent / "migrations"):
         if (folder / "env.py").is_file():
             return folder
-    raise RuntimeError(f"the migrations are missing: neither {here / '_migrations'} nor {here.parent / 'migrations'} "
-                       "holds env.py; reinstall cupcal")
+    raise RuntimeError(
+        f"the migrations are missing: neither {here / '_migrations'} nor {here.parent / 'migrations'} "
+        "holds env.py; reinstall cupcal"
+    )
 
 
 MIGRATIONS_DIR = _migrations_dir()

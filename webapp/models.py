@@ -191,9 +191,7 @@ class Calibration(Base):
     #: a pooled value: {"members": [ids], "excluded": [ids], "chi2", "dof", "birge", ...}; None for a measurement
     pool: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON)
 
-    calorimeter: so.Mapped[Calorimeter] = so.relationship(
-        back_populates="calibrations", foreign_keys=[calorimeter_id]
-    )
+    calorimeter: so.Mapped[Calorimeter] = so.relationship(back_populates="calibrations", foreign_keys=[calorimeter_id])
     result: so.Mapped[Result | None] = so.relationship(foreign_keys=[result_id])
     created_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[created_by_id])
     approved_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[approved_by_id])
@@ -214,9 +212,7 @@ class Run(Base):
     readings_raw: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="files")
     #: parsed series, little-endian float64 (s and K); see webapp.quantities.series
     series_time_s: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="series")
-    series_temperature_k: so.Mapped[bytes] = so.mapped_column(
-        sa.LargeBinary, deferred=True, deferred_group="series"
-    )
+    series_temperature_k: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="series")
     points: so.Mapped[int]
     author_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
     operator: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
@@ -230,9 +226,7 @@ class Run(Base):
     calorimeter_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
     #: the calibration that supplied C_cal (None when the run file gave it); added after
     #: both tables exist, since calibrations → results → runs → calibrations is a cycle
-    calibration_id: so.Mapped[int | None] = so.mapped_column(
-        sa.ForeignKey("calibrations.id", use_alter=True)
-    )
+    calibration_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calibrations.id", use_alter=True))
     locked: so.Mapped[bool] = so.mapped_column(default=False)
     locked_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     locked_at: so.Mapped[dt.datetime | None]
@@ -244,9 +238,7 @@ class Run(Base):
     #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
     version: so.Mapped[int] = so.mapped_column(default=1, server_default="1")
     #: what the lock signed: the current result then and the SHA-256 of the run's content
-    locked_result_id: so.Mapped[int | None] = so.mapped_column(
-        sa.ForeignKey("results.id", use_alter=True)
-    )
+    locked_result_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("results.id", use_alter=True))
     locked_hash: so.Mapped[str | None] = so.mapped_column(sa.String(64))
 
     __mapper_args__ = {"version_id_col": version}
@@ -322,15 +314,11 @@ class Result(Base):
     dof_eff: so.Mapped[float | None]
     budget: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     warnings: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
-    comparison: so.Mapped[dict[str, Any] | None] = so.mapped_column(
-        sa.JSON, deferred=True, deferred_group="detail"
-    )
+    comparison: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     cautions: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     construction: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     properties: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
-    monte_carlo: so.Mapped[dict[str, Any] | None] = so.mapped_column(
-        sa.JSON, deferred=True, deferred_group="detail"
-    )
+    monte_carlo: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     record: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     #: plausibility checks of calc.checks ({"code", "severity", "message", "value"}); not deferred, since
     #: lists, dashboards and control charts leave out runs with warning checks (None: analysed before them)
@@ -511,9 +499,7 @@ class Comment(Base):
     """A comment by staff on one run or on one group's work; the group's students read it."""
 
     __tablename__ = "comments"
-    __table_args__ = (
-        sa.CheckConstraint("(run_id IS NULL) <> (group_id IS NULL)", name="one_target"),
-    )
+    __table_args__ = (sa.CheckConstraint("(run_id IS NULL) <> (group_id IS NULL)", name="one_target"),)
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     run_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
@@ -535,6 +521,8 @@ class MarkingScheme(Base):
     bands: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON)
     updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     updated_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
+
+
 class SignInFailure(Base):
     """A failed sign-in: the e-mail address tried and the client address (for throttling)."""
 
@@ -558,8 +546,10 @@ class LiveRun(Base):
     """
 
     __tablename__ = "live_runs"
-    __table_args__ = (sa.UniqueConstraint("owner_id", "client_key"),
-                      sa.CheckConstraint("state IN ('recording', 'finished', 'abandoned')", name="state"))
+    __table_args__ = (
+        sa.UniqueConstraint("owner_id", "client_key"),
+        sa.CheckConstraint("state IN ('recording', 'finished', 'abandoned')", name="state"),
+    )
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     owner_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
@@ -595,8 +585,7 @@ class LiveReading(Base):
 
     __tablename__ = "live_readings"
 
-    live_run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("live_runs.id", ondelete="CASCADE"),
-                                                   primary_key=True)
+    live_run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("live_runs.id", ondelete="CASCADE"), primary_key=True)
     seq: so.Mapped[int] = so.mapped_column(primary_key=True, autoincrement=False)
     time_s: so.Mapped[float]
     temperature_c: so.Mapped[float]

@@ -19,8 +19,9 @@ from flask import Flask, current_app
 from werkzeug.middleware.dispatcher import DispatcherMiddleware
 
 
-def mount(host_app: Any, prefix: str, config: Mapping[str, Any] | None,
-          create_app: Callable[[Mapping[str, Any]], Flask]) -> Flask:
+def mount(
+    host_app: Any, prefix: str, config: Mapping[str, Any] | None, create_app: Callable[[Mapping[str, Any]], Flask]
+) -> Flask:
     """Serve a new cupcal app under ``prefix`` of ``host_app`` (a Flask app or any WSGI app); return it.
 
     :param prefix: the URL prefix, starting with "/" and not ending with one
@@ -35,8 +36,10 @@ def mount(host_app: Any, prefix: str, config: Mapping[str, Any] | None,
     if isinstance(host_app, Flask):
         host_app.wsgi_app = DispatcherMiddleware(host_app.wsgi_app, {prefix: app})  # type: ignore[method-assign]
     else:
-        raise TypeError("expected a Flask app; for another WSGI app use "
-                        "DispatcherMiddleware(host, {prefix: create_app(...)}) yourself")
+        raise TypeError(
+            "expected a Flask app; for another WSGI app use "
+            "DispatcherMiddleware(host, {prefix: create_app(...)}) yourself"
+        )
     return app
 
 

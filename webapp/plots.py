@@ -41,8 +41,16 @@ if TYPE_CHECKING:
     from calc.uncertainty.gum import BudgetLine
 
 __all__ = [
-    "OKABE_ITO", "MAX_DRAWN_POINTS", "run_plot_svg", "run_plot_png", "budget_plot_svg", "calibration_history_svg",
-    "preview_plot_svg", "drift_curves", "budget_rows", "decimate_minmax",
+    "OKABE_ITO",
+    "MAX_DRAWN_POINTS",
+    "run_plot_svg",
+    "run_plot_png",
+    "budget_plot_svg",
+    "calibration_history_svg",
+    "preview_plot_svg",
+    "drift_curves",
+    "budget_rows",
+    "decimate_minmax",
 ]
 
 #: The Okabe–Ito colour-blind-safe palette (Okabe & Ito, "Color Universal Design", 2002/2008).
@@ -130,8 +138,13 @@ def budget_rows(budget: Sequence[BudgetLine], top: int = 8) -> list[tuple[str, f
         shown, rest = lines[:top], lines[top:]
     rows = [(b.label or b.name, float(b.share), float(b.contribution)) for b in shown]
     if rest:
-        rows.append((f"other ({len(rest)} inputs)", float(sum(b.share for b in rest)),
-                     math.sqrt(sum(b.contribution**2 for b in rest))))
+        rows.append(
+            (
+                f"other ({len(rest)} inputs)",
+                float(sum(b.share for b in rest)),
+                math.sqrt(sum(b.contribution**2 for b in rest)),
+            )
+        )
     return rows
 
 
@@ -182,11 +195,26 @@ def _margins(fig: Figure, *, left: float, right: float, top: float, bottom: floa
 
 def _heading(fig: Figure, title: str, subtitle: str | None = None) -> None:
     h = fig.get_size_inches()[1]
-    fig.text(0.12 / fig.get_size_inches()[0], 1 - 0.1 / h, _plain(title), ha="left", va="top",
-             fontsize=_FS_TITLE, fontweight="bold", color=_C["black"])
+    fig.text(
+        0.12 / fig.get_size_inches()[0],
+        1 - 0.1 / h,
+        _plain(title),
+        ha="left",
+        va="top",
+        fontsize=_FS_TITLE,
+        fontweight="bold",
+        color=_C["black"],
+    )
     if subtitle:
-        fig.text(0.12 / fig.get_size_inches()[0], 1 - 0.32 / h, _plain(subtitle), ha="left", va="top",
-                 fontsize=_FS_NOTE, color="#4d4d4d")
+        fig.text(
+            0.12 / fig.get_size_inches()[0],
+            1 - 0.32 / h,
+            _plain(subtitle),
+            ha="left",
+            va="top",
+            fontsize=_FS_NOTE,
+            color="#4d4d4d",
+        )
 
 
 _TAG = re.compile(r"(<[^<>!?]+>)")
@@ -232,7 +260,7 @@ def _to_svg(fig: Figure, title: str, desc: str) -> str:
     )
     start = svg.index("<svg")
     end = svg.index(">", start)
-    return svg[:end] + head + svg[end + 1:]
+    return svg[:end] + head + svg[end + 1 :]
 
 
 def _time_scale(t: np.ndarray) -> tuple[float, str]:
@@ -247,12 +275,19 @@ def _draw_log(ax: Any, t: np.ndarray, y_K: np.ndarray, periods: Periods, ts: flo
     ax.axvspan(fa / ts, fb / ts, color=_C["sky_blue"], alpha=0.16, linewidth=0, gid="cc-fore-period")
     ax.axvspan(aa / ts, ab / ts, color=_C["orange"], alpha=0.16, linewidth=0, gid="cc-after-period")
     for (a, b), name in (((fa, fb), "fore"), ((aa, ab), "after")):
-        ax.text((a + b) / 2 / ts, 0.985, name, transform=ax.get_xaxis_transform(), ha="center", va="top",
-                fontsize=_FS_NOTE, color="#4d4d4d")
+        ax.text(
+            (a + b) / 2 / ts,
+            0.985,
+            name,
+            transform=ax.get_xaxis_transform(),
+            ha="center",
+            va="top",
+            fontsize=_FS_NOTE,
+            color="#4d4d4d",
+        )
     td, yd = decimate_minmax(t, y_K)
     ax.plot(td / ts, yd - _KELVIN_OFFSET, color=_C["black"], linewidth=0.9, gid="cc-readings")
-    ax.axvline(periods.mixing_time / ts, color=_C["black"], linestyle=(0, (1, 2)), linewidth=1.0,
-               gid="cc-mixing-time")
+    ax.axvline(periods.mixing_time / ts, color=_C["black"], linestyle=(0, (1, 2)), linewidth=1.0, gid="cc-mixing-time")
     label = "mixing time" + ("" if not periods.mixing_time_detected else " (detected)")
     return [
         Line2D([], [], color=_C["black"], linewidth=0.9, label="readings"),
@@ -264,8 +299,16 @@ def _draw_log(ax: Any, t: np.ndarray, y_K: np.ndarray, periods: Periods, ts: flo
 
 def _legend_below(fig: Figure, ax: Any, handles: list[Any], ncols: int) -> None:
     h = fig.get_size_inches()[1]
-    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(ax.get_position().x0 - 0.01, 0.06 / h / 4),
-               ncols=ncols, frameon=False, fontsize=_FS_NOTE, handlelength=2.6, columnspacing=1.4)
+    fig.legend(
+        handles=handles,
+        loc="lower left",
+        bbox_to_anchor=(ax.get_position().x0 - 0.01, 0.06 / h / 4),
+        ncols=ncols,
+        frameon=False,
+        fontsize=_FS_NOTE,
+        handlelength=2.6,
+        columnspacing=1.4,
+    )
 
 
 # ------------------------------------------------------------------ public plots
@@ -323,12 +366,33 @@ def _draw_delta_t(ax: Any, analysis: Analysis, ts: float) -> list[Any]:
         handles.append(Line2D([], [], color=purple, linestyle=(0, (1, 1.5)), label="equal-area time t_x"))
     for level in (start, end):
         ax.plot([t_at - 0.025 * span, t_at + 0.025 * span], [level, level], color=purple, linewidth=1.2)
-    ax.annotate("", xy=(t_at, end), xytext=(t_at, start), arrowprops=dict(
-        arrowstyle="<|-|>", color=purple, linewidth=1.6, shrinkA=0, shrinkB=0, mutation_scale=9))
-    ax.text(t_at - 0.012 * span, (start + end) / 2, "ΔT", ha="right", va="center", fontsize=_FS_LABEL,
-            fontweight="bold", bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.85))
-    handles.append(Line2D([], [], color=purple, linewidth=1.6, marker="|", markersize=8,
-                          label=f"corrected ΔT = {_num(dt.value, _places(dt.u))} K, u = {_num(dt.u, _places(dt.u))} K"))
+    ax.annotate(
+        "",
+        xy=(t_at, end),
+        xytext=(t_at, start),
+        arrowprops=dict(arrowstyle="<|-|>", color=purple, linewidth=1.6, shrinkA=0, shrinkB=0, mutation_scale=9),
+    )
+    ax.text(
+        t_at - 0.012 * span,
+        (start + end) / 2,
+        "ΔT",
+        ha="right",
+        va="center",
+        fontsize=_FS_LABEL,
+        fontweight="bold",
+        bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.85),
+    )
+    handles.append(
+        Line2D(
+            [],
+            [],
+            color=purple,
+            linewidth=1.6,
+            marker="|",
+            markersize=8,
+            label=f"corrected ΔT = {_num(dt.value, _places(dt.u))} K, u = {_num(dt.u, _places(dt.u))} K",
+        )
+    )
     return handles
 
 
@@ -360,13 +424,23 @@ def _run_figure(analysis: Analysis, width_in: float, height_in: float) -> tuple[
         rt = np.array([r["time_s"] for r in rejected]) / ts
         ry = np.clip(np.array([r["temperature_K"] for r in rejected]) - _KELVIN_OFFSET, y0, y1)
         ax.plot(rt, ry, linestyle="none", marker="x", markersize=6, color=_C["vermillion"], gid="cc-rejected")
-        handles.append(Line2D([], [], linestyle="none", marker="x", color=_C["vermillion"],
-                              label=f"rejected as spike ({len(rejected)}; off-scale ones at the edge)"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                linestyle="none",
+                marker="x",
+                color=_C["vermillion"],
+                label=f"rejected as spike ({len(rejected)}; off-scale ones at the edge)",
+            )
+        )
     title = analysis.spec.get("info", "title") or f"{analysis.kind} run"
     _heading(fig, str(title), f"{analysis.kind} · corrected ΔT by the {dt.method} method")
     _legend_below(fig, ax, handles, ncols=3)
-    desc = (f"{_describe_log(t, y, analysis.periods)} Corrected temperature change "
-            f"{_fmt(dt.value, dt.u, 'K')} (standard uncertainty) by the {dt.method} method.")
+    desc = (
+        f"{_describe_log(t, y, analysis.periods)} Corrected temperature change "
+        f"{_fmt(dt.value, dt.u, 'K')} (standard uncertainty) by the {dt.method} method."
+    )
     return fig, f"Temperature log: {title}", desc
 
 
@@ -384,8 +458,9 @@ def run_plot_png(analysis: Analysis, *, width_in: float = 7.5, height_in: float 
     return buf.getvalue()
 
 
-def preview_plot_svg(time_s: np.ndarray, temperature_K: np.ndarray, periods: Periods, *,
-                     width_in: float = 7.5, height_in: float = 3.6) -> str:
+def preview_plot_svg(
+    time_s: np.ndarray, temperature_K: np.ndarray, periods: Periods, *, width_in: float = 7.5, height_in: float = 3.6
+) -> str:
     """Return the quick SVG plot of an uploaded log: readings, detected periods and mixing time."""
     t = np.asarray(time_s, dtype=float)
     y = np.asarray(temperature_K, dtype=float)
@@ -409,34 +484,69 @@ def budget_plot_svg(budget: list[BudgetLine], *, unit: str, top: int = 8) -> str
     ax.spines["left"].set_visible(False)
     ax.tick_params(axis="y", length=0)
     if not rows:
-        ax.text(0.5, 0.5, "no uncertainty contributions", transform=ax.transAxes, ha="center", va="center",
-                fontsize=_FS_LABEL)
+        ax.text(
+            0.5,
+            0.5,
+            "no uncertainty contributions",
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=_FS_LABEL,
+        )
         ax.set_yticks([])
     ypos = np.arange(len(rows))[::-1]
     for i, ((label, share, contrib), yp) in enumerate(zip(rows, ypos)):
         other = label.startswith("other (") and i == len(rows) - 1 and len(rows) > top
-        ax.barh(yp, 100 * share, height=0.62, color=_C["sky_blue"] if other else _C["blue"],
-                hatch="///" if other else None, edgecolor=_C["black"] if other else _C["blue"], linewidth=0.5,
-                gid=f"cc-bar-{i}")
-        ax.text(100 * share, yp, f"  {100 * share:.1f} %  ({_fmt_u(contrib, unit)})",
-                va="center", ha="left", fontsize=_FS_NOTE, color=_C["black"])
+        ax.barh(
+            yp,
+            100 * share,
+            height=0.62,
+            color=_C["sky_blue"] if other else _C["blue"],
+            hatch="///" if other else None,
+            edgecolor=_C["black"] if other else _C["blue"],
+            linewidth=0.5,
+            gid=f"cc-bar-{i}",
+        )
+        ax.text(
+            100 * share,
+            yp,
+            f"  {100 * share:.1f} %  ({_fmt_u(contrib, unit)})",
+            va="center",
+            ha="left",
+            fontsize=_FS_NOTE,
+            color=_C["black"],
+        )
     ax.set_yticks(ypos, [_plain(textwrap.fill(r[0], 40)) for r in rows], fontsize=_FS_NOTE)
     ax.set_ylim(-0.6, len(rows) - 0.4)
     ax.set_xlim(0, 100 * max((r[1] for r in rows), default=1.0) * 1.02 or 1.0)
     ax.set_xlabel("share of the variance u_c² / %", fontsize=_FS_LABEL)
-    _heading(fig, "Uncertainty budget",
-             f"share of the combined variance; in parentheses the contribution |c_i|·u(x_i) in {unit}")
-    desc = "; ".join(f"{label}: {fmt.percent(s)} of the variance, contribution {fmt.uncertainty(contrib, unit)}"
-                     for label, s, contrib in rows) or "no uncertainty contributions"
+    _heading(
+        fig,
+        "Uncertainty budget",
+        f"share of the combined variance; in parentheses the contribution |c_i|·u(x_i) in {unit}",
+    )
+    desc = (
+        "; ".join(
+            f"{label}: {fmt.percent(s)} of the variance, contribution {fmt.uncertainty(contrib, unit)}"
+            for label, s, contrib in rows
+        )
+        or "no uncertainty contributions"
+    )
     return _to_svg(fig, "Uncertainty budget", desc + ".")
 
 
 _UNCERTAINTY_KINDS = {"expanded": "expanded uncertainty U (about 95 %)", "standard": "standard uncertainty u"}
 
 
-def calibration_history_svg(points: list[tuple[datetime, float, float]], *, unit: str = "J/K",
-                            current: tuple[float, float] | None = None, uncertainty: str = "expanded",
-                            width_in: float = 7.5, height_in: float = 3.8) -> str:
+def calibration_history_svg(
+    points: list[tuple[datetime, float, float]],
+    *,
+    unit: str = "J/K",
+    current: tuple[float, float] | None = None,
+    uncertainty: str = "expanded",
+    width_in: float = 7.5,
+    height_in: float = 3.8,
+) -> str:
     """Return the SVG plot of calorimeter heat capacity against date, with error bars.
 
     ``points`` are ``(date, value, uncertainty)``; ``current`` is the value in use with its
@@ -456,10 +566,28 @@ def calibration_history_svg(points: list[tuple[datetime, float, float]], *, unit
         v = np.array([p[1] for p in pts], dtype=float)
         u = np.array([p[2] for p in pts], dtype=float)
         ax.errorbar(x, v, yerr=u, fmt="none", color=_C["blue"], ecolor=_C["blue"], elinewidth=1.1, capsize=3)
-        ax.plot(x, v, linestyle="none", marker="o", markersize=5, color=_C["blue"], markeredgecolor=_C["black"],
-                markeredgewidth=0.6, gid="cc-cal-points")
-        handles.append(Line2D([], [], linestyle="none", marker="o", color=_C["blue"], markeredgecolor=_C["black"],
-                              label=f"calibrations (bars: {kind})"))
+        ax.plot(
+            x,
+            v,
+            linestyle="none",
+            marker="o",
+            markersize=5,
+            color=_C["blue"],
+            markeredgecolor=_C["black"],
+            markeredgewidth=0.6,
+            gid="cc-cal-points",
+        )
+        handles.append(
+            Line2D(
+                [],
+                [],
+                linestyle="none",
+                marker="o",
+                color=_C["blue"],
+                markeredgecolor=_C["black"],
+                label=f"calibrations (bars: {kind})",
+            )
+        )
         if len(pts) == 1 or (x[-1] - x[0]) < timedelta(days=2):
             mid = x[0] + (x[-1] - x[0]) / 2
             ax.set_xlim(mid - timedelta(days=3), mid + timedelta(days=3))
@@ -467,15 +595,30 @@ def calibration_history_svg(points: list[tuple[datetime, float, float]], *, unit
         ax.xaxis.set_major_locator(loc)
         ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(loc))
     else:
-        ax.text(0.5, 0.5, "no calibrations recorded yet", transform=ax.transAxes, ha="center", va="center",
-                fontsize=_FS_LABEL)
+        ax.text(
+            0.5,
+            0.5,
+            "no calibrations recorded yet",
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=_FS_LABEL,
+        )
         ax.set_xticks([])
     if current is not None:
         cv, cu = current
         ax.axhspan(cv - cu, cv + cu, color=_C["orange"], alpha=0.18, linewidth=0, gid="cc-current-band")
         ax.axhline(cv, color=_C["vermillion"], linestyle=(0, (6, 2.5)), linewidth=1.4, gid="cc-current")
-        handles.append(Line2D([], [], color=_C["vermillion"], linestyle=(0, (6, 2.5)), linewidth=1.4,
-                              label=f"in use: {_fmt(cv, cu, unit)}"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=_C["vermillion"],
+                linestyle=(0, (6, 2.5)),
+                linewidth=1.4,
+                label=f"in use: {_fmt(cv, cu, unit)}",
+            )
+        )
         handles.append(Patch(facecolor=_C["orange"], alpha=0.35, label=f"in use ± {kind.split(' (')[0]}"))
     ax.set_ylabel(f"heat capacity / ({unit})", fontsize=_FS_LABEL)
     ax.set_xlabel("date", fontsize=_FS_LABEL)
@@ -484,8 +627,10 @@ def calibration_history_svg(points: list[tuple[datetime, float, float]], *, unit
         _legend_below(fig, ax, handles, ncols=2)
     desc = f"{len(pts)} calibrations"
     if pts:
-        desc += (f" from {pts[0][0]:%Y-%m-%d} to {pts[-1][0]:%Y-%m-%d}, values "
-                 f"{min(p[1] for p in pts):.4g} to {max(p[1] for p in pts):.4g} {unit} ({kind})")
+        desc += (
+            f" from {pts[0][0]:%Y-%m-%d} to {pts[-1][0]:%Y-%m-%d}, values "
+            f"{min(p[1] for p in pts):.4g} to {max(p[1] for p in pts):.4g} {unit} ({kind})"
+        )
     if current is not None:
         desc += f"; value in use {_fmt(current[0], current[1], unit)}"
     return _to_svg(fig, "Calorimeter heat capacity history", desc + ".")

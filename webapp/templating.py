@@ -131,9 +131,23 @@ def day(value: dt.datetime | dt.date | None) -> str:
 
 
 FILTERS = {
-    "pm": pm, "when": when, "sig": sig, "fixed": fixed, "signed": signed, "like": like, "unc": unc,
-    "interval": interval, "pct": pct, "secs": secs, "celsius": celsius, "temp": temp, "dof": dof,
-    "unit_text": unit_text, "entered_units": entered_units, "budget_value": budget_value, "day": day,
+    "pm": pm,
+    "when": when,
+    "sig": sig,
+    "fixed": fixed,
+    "signed": signed,
+    "like": like,
+    "unc": unc,
+    "interval": interval,
+    "pct": pct,
+    "secs": secs,
+    "celsius": celsius,
+    "temp": temp,
+    "dof": dof,
+    "unit_text": unit_text,
+    "entered_units": entered_units,
+    "budget_value": budget_value,
+    "day": day,
     "verdict": verdict,
 }
 

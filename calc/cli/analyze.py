@@ -92,4 +92,6 @@ def methods() -> None:
     for name in sorted(METHODS):
         mark = " (default)" if name == DEFAULT_METHOD else ""
         doc = (METHODS[name].__doc__ or "").strip().splitlines()
-        click.echo(f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)")
+        click.echo(
+            f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)"
+        )

@@ -53,14 +53,9 @@ def _human(r: HessResult) -> str:
     width = max(len(t.species) for t in r.terms)
     for t in r.terms:
         side = "reactant" if t.coefficient < 0 else "product "
-        lines.append(
-            f"  {side} {abs(t.coefficient)!s:>5} × {t.species:<{width}}  "
-            f"ΔfH° = {_fmt(t.dfH, t.u)} kJ/mol"
-        )
+        lines.append(f"  {side} {abs(t.coefficient)!s:>5} × {t.species:<{width}}  ΔfH° = {_fmt(t.dfH, t.u)} kJ/mol")
     lines.append("")
-    lines.append(
-        f"ΔrH° ({r.temperature_K:.2f} K) = {_fmt(r.value, r.u)} kJ/mol  (standard uncertainty)"
-    )
+    lines.append(f"ΔrH° ({r.temperature_K:.2f} K) = {_fmt(r.value, r.u)} kJ/mol  (standard uncertainty)")
     if r.delta_cp is not None:
         lines.append(f"ΔrCp° = {r.delta_cp * 1000:.1f} ± {(r.delta_cp_u or 0) * 1000:.1f} J/(mol K)")
     for note in r.notes:

@@ -24,8 +24,14 @@ from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
 from calc.deltat.drift import fit_newton_single, phi
 
-__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term",
-           "room_response"]
+__all__ = [
+    "slope_floor",
+    "quantisation_drift_term",
+    "mixing_time_term",
+    "inadequacy_term",
+    "room_drift_term",
+    "room_response",
+]
 
 #: Standard uncertainty of an unseen linear change of the room temperature, K/s: a room that
 #: warms or cools by up to about 1 K/h over a run, taken as rectangular (±1 K/h, u = 1/√3 K/h).
@@ -47,8 +53,7 @@ def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
     if q <= 0 or length <= 0:
         return 0.0
     sigma2 = max(s * s - q * q / 12.0, 0.0)
-    return (q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
-            * sweep_factor(steps))
+    return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q)) * sweep_factor(steps)
 
 
 def quantisation_drift_term(log: Log, dt_value: float) -> float:
@@ -160,8 +165,13 @@ def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) ->
     if not (math.isfinite(k) and k > 0) or t_f <= t_i:
         return 0.0
     beta = ROOM_DRIFT_U * math.sqrt(3.0)  # the half-width, K/s
-    moved = type(log)(log.t, log.y + room_response(log.t, t_i, k, k * beta), log.periods, log.resolution,
-                      two_solution=log.two_solution)
+    moved = type(log)(
+        log.t,
+        log.y + room_response(log.t, t_i, k, k * beta),
+        log.periods,
+        log.resolution,
+        two_solution=log.two_solution,
+    )
     try:
         other = method_fn(moved).value
     except Exception:  # noqa: BLE001 - a failed refit says only that the sensitivity is unknown

@@ -200,8 +200,9 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
 VarproModel = Callable[[float], tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]]
 
 
-def _varpro(model: VarproModel, y: np.ndarray, k0: float,
-            max_iter: int = 30) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
+def _varpro(
+    model: VarproModel, y: np.ndarray, k0: float, max_iter: int = 30
+) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
     """Solve a model that is linear in its parameters β at fixed k, and nonlinear in k.
 
     ``model(k)`` returns the design matrix X(k) and a function giving ∂(Xβ)/∂k for given β.

@@ -50,8 +50,9 @@ def running_median(y: np.ndarray, half: int) -> np.ndarray:
     return cast(np.ndarray, np.median(win, axis=1))
 
 
-def _merge_duplicates(t: np.ndarray, y: np.ndarray, lines: np.ndarray | None
-                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, int]:
+def _merge_duplicates(
+    t: np.ndarray, y: np.ndarray, lines: np.ndarray | None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, int]:
     keep = np.concatenate([[True], np.diff(t) > 0])
     if keep.all():
         return t, y, lines, 0
@@ -108,11 +109,14 @@ def prepare_log(t: np.ndarray, y: np.ndarray, *, resolution: float, lines: np.nd
     if spike.any():
         med = running_median(y, SPIKE_HALF_WIDTH)
         for i in np.flatnonzero(spike):
-            rejected.append({
-                "time_s": float(t[i]), "temperature_K": float(y[i]),
-                "line": int(lines[i]) if lines is not None else None,
-                "offset_K": float(y[i] - med[i]) if math.isfinite(med[i]) else None,
-            })
+            rejected.append(
+                {
+                    "time_s": float(t[i]),
+                    "temperature_K": float(y[i]),
+                    "line": int(lines[i]) if lines is not None else None,
+                    "offset_K": float(y[i] - med[i]) if math.isfinite(med[i]) else None,
+                }
+            )
         where = ", ".join(
             (f"line {r['line']}" if r["line"] is not None else f"{r['time_s']:g} s") for r in rejected[:6]
         ) + (" …" if len(rejected) > 6 else "")

@@ -110,7 +110,7 @@ def _solve(pr: _Problem):  # noqa: ANN202 - returns (scipy result, covariance, d
     r = fit.fun
     n, npar = r.size, p0.size
     s2 = float(np.dot(r, r)) / max(n - npar, 1)
-    rho = max(lag1_autocorrelation(r[:pr.n_fore]) if pr.n_fore > 3 else 0.0, lag1_autocorrelation(r[pr.n_fore:]))
+    rho = max(lag1_autocorrelation(r[: pr.n_fore]) if pr.n_fore > 3 else 0.0, lag1_autocorrelation(r[pr.n_fore :]))
     f = inflation(rho)
     J = fit.jac
     try:
@@ -163,10 +163,15 @@ def model_fit(log: Log) -> DeltaT:
         u_start_temperature=rp.u_start_temperature,
         end_temperature=start + D,
         construction=ModelFitConstruction(
-            t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=float(fit.x[1]),
-            release_time_constant_s=math.exp(-fit.x[-2]), probe_time_constant_s=math.exp(-fit.x[-1]),
-            convergence_temperature_K=float(fit.x[0]), params=tuple(float(v) for v in fit.x),
-            two_solution=log.two_solution, start_level=start,
+            t_i=log.periods.mixing_time,
+            t_f=log.periods.main_end,
+            k_per_s=float(fit.x[1]),
+            release_time_constant_s=math.exp(-fit.x[-2]),
+            probe_time_constant_s=math.exp(-fit.x[-1]),
+            convergence_temperature_K=float(fit.x[0]),
+            params=tuple(float(v) for v in fit.x),
+            two_solution=log.two_solution,
+            start_level=start,
         ),
         warnings=_warnings(log, fit, D, uD, rp),
     )

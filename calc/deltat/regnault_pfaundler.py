@@ -125,10 +125,15 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
 
 def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
     common = dict(
-        t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=nf.k, u_k_per_s=u_k,
+        t_i=log.periods.mixing_time,
+        t_f=log.periods.main_end,
+        k_per_s=nf.k,
+        u_k_per_s=u_k,
         convergence_temperature_K=nf.convergence_temperature(),
-        fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean),
-        autocorrelation=nf.rho, residual_sd_K=nf.s,
+        fore_line=(fore.a, fore.b, fore.t_mean),
+        after_line=(after.a, after.b, after.t_mean),
+        autocorrelation=nf.rho,
+        residual_sd_K=nf.s,
     )
     if log.two_solution:
         return AfterNewtonConstruction(**common, after_newton=(*(float(v) for v in nf.params), log.periods.main_end))
@@ -146,8 +151,11 @@ def regnault_pfaundler(log: Log) -> DeltaT:
     setup = _two_solution(log, fore, parts) if log.two_solution else _one_solution(log, fore, after, parts)
     nf, k = setup.fit, setup.fit.k
     value = setup.delta_t_of(nf.params)
-    var = (_quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov) + setup.extra_var
-           + (k * nf.s) ** 2 * float(np.dot(w, w)))
+    var = (
+        _quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov)
+        + setup.extra_var
+        + (k * nf.s) ** 2 * float(np.dot(w, w))
+    )
     u_k = math.sqrt(max(nf.cov[setup.i_k, setup.i_k], 0.0))
     warnings = [setup.not_newtonian] if k < 0 and abs(k) > 2 * u_k else []
     res_start, res_end = resolution_terms(log)

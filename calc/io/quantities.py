@@ -66,6 +66,7 @@ _NONFINITE_RE = re.compile(r"\s*\(?\s*[+-]?(?:nan|inf|infinity)\b", re.IGNORECAS
 # ~3 s); real entries such as "(0.0500 ± 0.0002) mol/L" are far shorter.
 MAX_ENTRY_LENGTH = 200
 
+
 @dataclass(frozen=True, slots=True)
 class Measured:
     """A measured value with its standard uncertainty and unit.
@@ -109,9 +110,7 @@ class Measured:
     def to(self, unit: str) -> Measured:
         """Return the same measurement expressed in ``unit``."""
         scale, offset = _affine(self.unit, unit)
-        return Measured(
-            self.value * scale + offset, self.u * scale, unit, self.distribution, self.text
-        )
+        return Measured(self.value * scale + offset, self.u * scale, unit, self.distribution, self.text)
 
 
 def default_uncertainty(number_text: str) -> float:
@@ -137,9 +136,7 @@ def default_uncertainty(number_text: str) -> float:
         return math.inf
 
 
-def parse_measured(
-    text: str | int | float, *, field: str, expected: str, source: str | None = None
-) -> Measured:
+def parse_measured(text: str | int | float, *, field: str, expected: str, source: str | None = None) -> Measured:
     """Parse ``"value ± u unit"`` into a :class:`Measured` of the expected dimension.
 
     Parameters
@@ -270,9 +267,7 @@ def _unreadable(text: str, *, field: str, expected: str, source: str | None) -> 
     return _error(f"{text!r} does not start with a number", expected, field, source)
 
 
-def _parse_clock(
-    clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None
-) -> Measured:
+def _parse_clock(clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None) -> Measured:
     """Turn a matched ``m:ss`` / ``h:mm:ss`` time into seconds."""
     # float(), not int(): int() refuses more than 4300 digits and a huge int
     # overflows when mixed with floats (both found by the hostile-input tests).

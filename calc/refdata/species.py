@@ -26,8 +26,15 @@ from calc.refdata.datafiles import open_data
 from calc.refdata.formula import element_composition, normalize
 
 __all__ = [
-    "T_REF_K", "FormationEntry", "Species", "citation", "formation_enthalpy", "formation_index",
-    "formation_table", "parse_species", "unknown_species_hint",
+    "T_REF_K",
+    "FormationEntry",
+    "Species",
+    "citation",
+    "formation_enthalpy",
+    "formation_index",
+    "formation_table",
+    "parse_species",
+    "unknown_species_hint",
 ]
 
 T_REF_K = 298.15
@@ -151,9 +158,7 @@ def _table() -> tuple[dict[SpeciesKey, FormationEntry], tuple[FormationEntry, ..
             else:
                 u = _u_from_digits(raw)
             cp = float(row["cp_J_mol_K"]) if row["cp_J_mol_K"].strip() else None
-            entry = FormationEntry(
-                species, row["name"], value, u, cp, row["source"], row["note"], row["cas"]
-            )
+            entry = FormationEntry(species, row["name"], value, u, cp, row["source"], row["note"], row["cas"])
             key = species.key()
             if key in index:
                 raise InputError(
@@ -191,9 +196,7 @@ def _candidates(text: str) -> list[Species]:
         )
     state = _STATE_ALIASES.get(m.group("state").lower())
     if state is None:
-        raise InputError(
-            f"unknown state {m.group('state')!r} in {raw!r}: use s, l, g or aq"
-        )
+        raise InputError(f"unknown state {m.group('state')!r} in {raw!r}: use s, l, g or aq")
     body = normalize(m.group("body").replace(" ", ""))
     readings: list[tuple[str, int]] = []
     explicit = re.match(r"^(.+?)(?:\^|\[)(\d*)([+-])\]?$", body)
@@ -283,9 +286,7 @@ def unknown_species_hint(sp: Species) -> str:
     """Return why a species is not in the table, naming the forms of its formula that are."""
     comp = element_composition(sp.formula)
     others = [
-        e.display
-        for key, e in _table()[0].items()
-        if key[0] == comp and (key[1], key[2]) != (sp.charge, sp.state)
+        e.display for key, e in _table()[0].items() if key[0] == comp and (key[1], key[2]) != (sp.charge, sp.state)
     ]
     if others:
         return "not in the NBS 1982 table of cupcal; the table has " + ", ".join(others)

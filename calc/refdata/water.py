@@ -28,8 +28,19 @@ from functools import lru_cache
 
 from calc.errors import InputError
 
-__all__ = ["ModelledProperty", "water_density", "water_specific_heat", "water_dielectric_constant",
-           "debye_huckel_slopes", "T_MIN_K", "T_MAX_K", "R_GAS", "GRID_FILE", "GRID_NODES", "write_grid"]
+__all__ = [
+    "ModelledProperty",
+    "water_density",
+    "water_specific_heat",
+    "water_dielectric_constant",
+    "debye_huckel_slopes",
+    "T_MIN_K",
+    "T_MAX_K",
+    "R_GAS",
+    "GRID_FILE",
+    "GRID_NODES",
+    "write_grid",
+]
 
 IAPWS_MODEL = "IAPWS-95 (iapws package)"
 
@@ -80,8 +91,11 @@ class _WaterGrid:
         nodes: dict[int, tuple[float, float, float]] = {}
         with open_data(GRID_FILE) as fh:
             for row in csv.DictReader(line for line in fh if not line.startswith("#")):
-                nodes[int(row["node"])] = (float(row["density_g_mL"]), float(row["cp_J_gK"]),
-                                           float(row["dielectric_constant"]))
+                nodes[int(row["node"])] = (
+                    float(row["density_g_mL"]),
+                    float(row["cp_J_gK"]),
+                    float(row["dielectric_constant"]),
+                )
         return nodes
 
     def _node(self, i: int) -> tuple[float, float, float]:
@@ -133,9 +147,11 @@ def write_grid(path: str) -> None:
     import iapws
 
     with open(path, "w", encoding="utf-8", newline="\n") as fh:
-        fh.write(f"# IAPWS-95 liquid water at 0.101325 MPa (Wagner & Pruss 2002) and its static dielectric constant\n"
-                 f"# (IAPWS 1997 release), computed by the iapws package {iapws.__version__} on a 0.25 K grid;\n"
-                 "# written by `python -m calc.refdata.water`, checked against iapws by tests/calc/test_properties.py\n")
+        fh.write(
+            f"# IAPWS-95 liquid water at 0.101325 MPa (Wagner & Pruss 2002) and its static dielectric constant\n"
+            f"# (IAPWS 1997 release), computed by the iapws package {iapws.__version__} on a 0.25 K grid;\n"
+            "# written by `python -m calc.refdata.water`, checked against iapws by tests/calc/test_properties.py\n"
+        )
         fh.write("node,T_K,density_g_mL,cp_J_gK,dielectric_constant\n")
         for i in range(GRID_NODES[0], GRID_NODES[1] + 1):
             rho, cp, eps = iapws_node(i)
@@ -194,11 +210,7 @@ def _a_phi(T_K: float) -> float:
     # density from the interpolated IAPWS-95 grid (a direct IAPWS-95 call costs ~7 ms)
     rho = water_density(T_K).value * 1000.0  # kg/m3
     eps = water_dielectric_constant(T_K)
-    return (
-        math.sqrt(2.0 * math.pi * _N_A * rho)
-        * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5
-        / 3.0
-    )
+    return math.sqrt(2.0 * math.pi * _N_A * rho) * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5 / 3.0
 
 
 def debye_huckel_slopes(T_K: float) -> tuple[float, float]:

@@ -33,8 +33,10 @@ def test_ten_thousand_hostile_requests_get_no_5xx(app: Any, lab: Any, database_u
     sent, failures = fuzz(app, lab, PER_DATABASE, statuses=statuses)
     took = time.perf_counter() - start
     db = database_url.split(":", 1)[0]
-    print(f"\nfuzz on {db}: {sent} requests in {took:.0f} s; by status: {dict(sorted(statuses.items()))}; "
-          f"5xx: {len(failures)}")
+    print(
+        f"\nfuzz on {db}: {sent} requests in {took:.0f} s; by status: {dict(sorted(statuses.items()))}; "
+        f"5xx: {len(failures)}"
+    )
     for f in failures[:20]:
         print("  ", f)
     assert sent >= PER_DATABASE * 0.95

@@ -48,8 +48,10 @@ def test_run_page_with_a_2000_point_log(bench: dict[str, Any]) -> None:
             s.close()
 
     pmed, pp95 = time_ms(with_plots, 15)
-    print(f"what the finished page adds (re-analysis + run and budget SVG): median {pmed:.1f} ms, p95 {pp95:.1f} ms;"
-          f" page total ≈ {med + pmed:.0f} ms")
+    print(
+        f"what the finished page adds (re-analysis + run and budget SVG): median {pmed:.1f} ms, p95 {pp95:.1f} ms;"
+        f" page total ≈ {med + pmed:.0f} ms"
+    )
     assert med <= 150
 
 

@@ -41,13 +41,26 @@ MOLALITIES = (0.05, 0.1, 0.2, 0.3, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
 #: +0.04 kJ mol⁻¹ K⁻¹ near 1 mol/kg in every wide-range model pytzer carries; calc's "2 % of φ_L per
 #: K" is near zero where φ_L crosses zero.
 OFF = {
-    ("NaCl", 15.0, 0.5): 2.2, ("NaCl", 15.0, 0.75): 3.5, ("NaCl", 15.0, 1.0): 4.4, ("NaCl", 15.0, 1.5): 3.8,
-    ("NaCl", 15.0, 2.0): 3.3, ("NaCl", 15.0, 3.0): 2.7,
-    ("KCl", 15.0, 0.3): 2.0, ("KCl", 15.0, 0.5): 2.1, ("KCl", 15.0, 0.75): 3.1, ("KCl", 15.0, 1.0): 3.8,
-    ("KCl", 15.0, 1.5): 3.1, ("KCl", 15.0, 2.0): 2.7, ("KCl", 15.0, 3.0): 2.1,
-    ("NaCl", 20.0, 1.0): 2.6, ("NaCl", 20.0, 1.5): 2.4, ("NaCl", 20.0, 2.0): 2.1,
-    ("KCl", 20.0, 1.0): 2.3, ("KCl", 20.0, 1.5): 2.05,
-    ("HCl", 20.0, 3.0): -2.01, ("HCl", 25.0, 3.0): -2.5,
+    ("NaCl", 15.0, 0.5): 2.2,
+    ("NaCl", 15.0, 0.75): 3.5,
+    ("NaCl", 15.0, 1.0): 4.4,
+    ("NaCl", 15.0, 1.5): 3.8,
+    ("NaCl", 15.0, 2.0): 3.3,
+    ("NaCl", 15.0, 3.0): 2.7,
+    ("KCl", 15.0, 0.3): 2.0,
+    ("KCl", 15.0, 0.5): 2.1,
+    ("KCl", 15.0, 0.75): 3.1,
+    ("KCl", 15.0, 1.0): 3.8,
+    ("KCl", 15.0, 1.5): 3.1,
+    ("KCl", 15.0, 2.0): 2.7,
+    ("KCl", 15.0, 3.0): 2.1,
+    ("NaCl", 20.0, 1.0): 2.6,
+    ("NaCl", 20.0, 1.5): 2.4,
+    ("NaCl", 20.0, 2.0): 2.1,
+    ("KCl", 20.0, 1.0): 2.3,
+    ("KCl", 20.0, 1.5): 2.05,
+    ("HCl", 20.0, 3.0): -2.01,
+    ("HCl", 25.0, 3.0): -2.5,
 }
 
 
@@ -94,10 +107,17 @@ def _cells():
                 key = (salt, tc, m)
                 marks = []
                 if key in OFF:
-                    why = ("HCl at 3 mol/kg" if salt == "HCl" else
-                           "no heat-capacity term: φ_L's temperature dependence away from 25 °C")
-                    marks.append(pytest.mark.xfail(
-                        strict=True, reason=f"calc is {OFF[key]:+.1f} u from {WIDE[salt]}: {why} (docs/methods.md §8.7)"))
+                    why = (
+                        "HCl at 3 mol/kg"
+                        if salt == "HCl"
+                        else "no heat-capacity term: φ_L's temperature dependence away from 25 °C"
+                    )
+                    marks.append(
+                        pytest.mark.xfail(
+                            strict=True,
+                            reason=f"calc is {OFF[key]:+.1f} u from {WIDE[salt]}: {why} (docs/methods.md §8.7)",
+                        )
+                    )
                 yield pytest.param(*key, marks=marks, id=f"{salt}-{tc:g}C-{m:g}")
 
 
@@ -119,7 +139,8 @@ def test_phi_L_within_two_u_of_the_wide_range_model(wide_range, salt, tc, m):
     assert got is not None
     assert abs(got.value - ref) <= 2.0 * got.u, (
         f"{salt} {tc} °C {m} mol/kg: calc {got.value:+.3f} ± {got.u:.3f}, {WIDE[salt]} {ref:+.3f} kJ/mol "
-        f"({(got.value - ref) / got.u:+.2f} u)")
+        f"({(got.value - ref) / got.u:+.2f} u)"
+    )
 
 
 def test_model_spread_at_1_molal_covers_the_wide_range_models_at_25C(wide_range):

@@ -24,44 +24,158 @@ from hypothesis import strategies as st
 TEMPLATES = Path(__file__).resolve().parents[2] / "webapp" / "templates"
 
 #: every form field name in the templates, and the run form's generated fields
-FORM_FIELDS = sorted({m for p in TEMPLATES.rglob("*.html")
-                      for m in re.findall(r'name="([A-Za-z_][\w.\-]*)"', p.read_text(encoding="utf-8"))}
-                     | {"email", "password", "label", "scope", "name", "heat_capacity", "notes"})
+FORM_FIELDS = sorted(
+    {
+        m
+        for p in TEMPLATES.rglob("*.html")
+        for m in re.findall(r'name="([A-Za-z_][\w.\-]*)"', p.read_text(encoding="utf-8"))
+    }
+    | {"email", "password", "label", "scope", "name", "heat_capacity", "notes"}
+)
 
 #: JSON field names the API reads (and a few it does not)
 JSON_FIELDS = [
-    "title", "notes", "run_toml", "readings_csv", "run_file_name", "readings_name", "calorimeter_id", "group_id",
-    "monte_carlo", "seed", "method", "fore", "after", "fore_start", "fore_end", "name", "run_ids", "url", "kind",
-    "thermometer_resolution", "thermometer_noise", "noise_correlation", "balance_u", "volume_u", "temperature",
-    "interval", "release_time", "probe_time", "molar_enthalpy", "formula", "mass", "water_volume", "acid", "base",
-    "acid_concentration", "base_concentration", "acid_volume", "base_volume", "base_temperature",
-    "calorimeter_heat_capacity", "heat_capacity", "calibration_interval_days", "course_id", "section_id", "term",
-    "thermometer", "location", "parts", "email", "role", "format", "format_version", "files", "result", "run",
-    "provenance", "scope", "label", "unknown_field",
+    "title",
+    "notes",
+    "run_toml",
+    "readings_csv",
+    "run_file_name",
+    "readings_name",
+    "calorimeter_id",
+    "group_id",
+    "monte_carlo",
+    "seed",
+    "method",
+    "fore",
+    "after",
+    "fore_start",
+    "fore_end",
+    "name",
+    "run_ids",
+    "url",
+    "kind",
+    "thermometer_resolution",
+    "thermometer_noise",
+    "noise_correlation",
+    "balance_u",
+    "volume_u",
+    "temperature",
+    "interval",
+    "release_time",
+    "probe_time",
+    "molar_enthalpy",
+    "formula",
+    "mass",
+    "water_volume",
+    "acid",
+    "base",
+    "acid_concentration",
+    "base_concentration",
+    "acid_volume",
+    "base_volume",
+    "base_temperature",
+    "calorimeter_heat_capacity",
+    "heat_capacity",
+    "calibration_interval_days",
+    "course_id",
+    "section_id",
+    "term",
+    "thermometer",
+    "location",
+    "parts",
+    "email",
+    "role",
+    "format",
+    "format_version",
+    "files",
+    "result",
+    "run",
+    "provenance",
+    "scope",
+    "label",
+    "unknown_field",
 ]
 
-_HOSTILE_TEXT = ["", " ", "\ud800", "a\udfffb", "٣", "१२", "²", "9" * 5000, "1e308", "-1e308", "1e-320", "nan",
-                 "inf", "-1", "0", "2147483648", str(2**70), "../../etc/passwd", "/dev/zero", "a\x00b",
-                 "<script>x</script>", "' OR 1=1 --", "x" * 3000, "KCl", "K999999999999999999999Cl", "3 g",
-                 "1e308 g", "100 mL", "0.01 K", "yesterday", "2025-03-13", "http://127.0.0.1/x", "dissolution",
-                 "neutralization", "regnault-pfaundler"]
-_HOSTILE_NUMBERS = [0, -1, 1, 2**31, 2**63, 2**64 + 1, -(2**70), 10**30, 1e308, -1e308, 1e-320, 5e-324, 1e30,
-                    0.5, 3.0, 1000, 3000]
+_HOSTILE_TEXT = [
+    "",
+    " ",
+    "\ud800",
+    "a\udfffb",
+    "٣",
+    "१२",
+    "²",
+    "9" * 5000,
+    "1e308",
+    "-1e308",
+    "1e-320",
+    "nan",
+    "inf",
+    "-1",
+    "0",
+    "2147483648",
+    str(2**70),
+    "../../etc/passwd",
+    "/dev/zero",
+    "a\x00b",
+    "<script>x</script>",
+    "' OR 1=1 --",
+    "x" * 3000,
+    "KCl",
+    "K999999999999999999999Cl",
+    "3 g",
+    "1e308 g",
+    "100 mL",
+    "0.01 K",
+    "yesterday",
+    "2025-03-13",
+    "http://127.0.0.1/x",
+    "dissolution",
+    "neutralization",
+    "regnault-pfaundler",
+]
+_HOSTILE_NUMBERS = [
+    0,
+    -1,
+    1,
+    2**31,
+    2**63,
+    2**64 + 1,
+    -(2**70),
+    10**30,
+    1e308,
+    -1e308,
+    1e-320,
+    5e-324,
+    1e30,
+    0.5,
+    3.0,
+    1000,
+    3000,
+]
 
 
 def scalars() -> st.SearchStrategy[Any]:
     """Hostile JSON scalars."""
     return st.one_of(
-        st.sampled_from(_HOSTILE_TEXT), st.sampled_from(_HOSTILE_NUMBERS), st.booleans(), st.none(),
-        st.integers(), st.floats(allow_nan=False, allow_infinity=False), st.text(max_size=20),
+        st.sampled_from(_HOSTILE_TEXT),
+        st.sampled_from(_HOSTILE_NUMBERS),
+        st.booleans(),
+        st.none(),
+        st.integers(),
+        st.floats(allow_nan=False, allow_infinity=False),
+        st.text(max_size=20),
     )
 
 
 def json_values() -> st.SearchStrategy[Any]:
     """Hostile JSON values: scalars, lists and objects, a few levels deep."""
-    return st.recursive(scalars(), lambda inner: st.one_of(
-        st.lists(inner, max_size=4), st.dictionaries(st.sampled_from(JSON_FIELDS), inner, max_size=4)),
-        max_leaves=12)
+    return st.recursive(
+        scalars(),
+        lambda inner: st.one_of(
+            st.lists(inner, max_size=4), st.dictionaries(st.sampled_from(JSON_FIELDS), inner, max_size=4)
+        ),
+        max_leaves=12,
+    )
 
 
 def _raw_json(kind: str, key: str, depth: int) -> str:
@@ -77,21 +191,52 @@ def _raw_json(kind: str, key: str, depth: int) -> str:
 def bodies() -> st.SearchStrategy[tuple[str, str]]:
     """(content type, body text) of a JSON request: generated objects, or raw text json.dumps cannot write."""
     objects = st.dictionaries(st.sampled_from(JSON_FIELDS), json_values(), max_size=8).map(
-        lambda d: ("application/json", json.dumps(d, allow_nan=False)))
-    raw = st.builds(lambda k, key, d: ("application/json", _raw_json(k, key, d)),
-                    st.sampled_from(["deep", "digits", "surrogate", "cut"]), st.sampled_from(JSON_FIELDS),
-                    st.sampled_from([40, 1000, 5000, 10_000, 100_000]))
-    other = st.sampled_from([("application/json", "[]"), ("application/json", "null"), ("text/plain", "x"),
-                             ("application/json", "1e999"), ("application/json", '"\\ud800"')])
+        lambda d: ("application/json", json.dumps(d, allow_nan=False))
+    )
+    raw = st.builds(
+        lambda k, key, d: ("application/json", _raw_json(k, key, d)),
+        st.sampled_from(["deep", "digits", "surrogate", "cut"]),
+        st.sampled_from(JSON_FIELDS),
+        st.sampled_from([40, 1000, 5000, 10_000, 100_000]),
+    )
+    other = st.sampled_from(
+        [
+            ("application/json", "[]"),
+            ("application/json", "null"),
+            ("text/plain", "x"),
+            ("application/json", "1e999"),
+            ("application/json", '"\\ud800"'),
+        ]
+    )
     return st.one_of(objects, objects, objects, raw, other)
 
 
 def query_strings() -> st.SearchStrategy[dict[str, str]]:
     """Query parameters with hostile values."""
-    names = ["page", "per_page", "kind", "calorimeter_id", "group_id", "run_ids", "format", "sort", "dir",
-             "standard", "baseline", "url", "maxwidth", "maxheight", "link", "q", "status"]
-    return st.dictionaries(st.sampled_from(names), st.sampled_from(_HOSTILE_TEXT).filter(
-        lambda s: "\ud800" not in s and "\udfff" not in s), max_size=4)
+    names = [
+        "page",
+        "per_page",
+        "kind",
+        "calorimeter_id",
+        "group_id",
+        "run_ids",
+        "format",
+        "sort",
+        "dir",
+        "standard",
+        "baseline",
+        "url",
+        "maxwidth",
+        "maxheight",
+        "link",
+        "q",
+        "status",
+    ]
+    return st.dictionaries(
+        st.sampled_from(names),
+        st.sampled_from(_HOSTILE_TEXT).filter(lambda s: "\ud800" not in s and "\udfff" not in s),
+        max_size=4,
+    )
 
 
 #: not fuzzed: the static files, and signing out or revoking a token (which would end the fuzzing
@@ -123,8 +268,28 @@ def _url(rule: str, draw: Any, ids: list[int]) -> str:
         conv = m.group(1) or "string"
         if conv == "int":
             return str(draw(st.sampled_from(ids + [0, 2**31 - 1, 2**31, 2**64 + 1, 10**30])))
-        return quote(draw(st.sampled_from(["json", "csv", "html", "ro-crate", "pdf", "run_file", "readings",
-                                           "dissolution", "neutralization", "x", "٣", "a" * 300])), safe="")
+        return quote(
+            draw(
+                st.sampled_from(
+                    [
+                        "json",
+                        "csv",
+                        "html",
+                        "ro-crate",
+                        "pdf",
+                        "run_file",
+                        "readings",
+                        "dissolution",
+                        "neutralization",
+                        "x",
+                        "٣",
+                        "a" * 300,
+                    ]
+                )
+            ),
+            safe="",
+        )
+
     return re.sub(r"<(?:(\w+)(?:\([^)]*\))?:)?\w+>", fill, rule)
 
 
@@ -135,23 +300,44 @@ def requests(draw: Any, t: Targets) -> dict[str, Any]:
     url = _url(rule, draw, t.ids)
     req: dict[str, Any] = {"method": method, "path": url, "query_string": draw(query_strings())}
     if rule == "/oembed":
-        req["query_string"] = {"url": draw(st.sampled_from([f"http://localhost/embed/runs/{i}" for i in t.ids]
-                                                            + ["http://localhost/embed/runs/٣", "x", "",
-                                                               "http://localhost/embed/runs/" + "9" * 5000])),
-                               "format": draw(st.sampled_from(["json", "xml", ""])),
-                               **draw(query_strings())}
+        req["query_string"] = {
+            "url": draw(
+                st.sampled_from(
+                    [f"http://localhost/embed/runs/{i}" for i in t.ids]
+                    + ["http://localhost/embed/runs/٣", "x", "", "http://localhost/embed/runs/" + "9" * 5000]
+                )
+            ),
+            "format": draw(st.sampled_from(["json", "xml", ""])),
+            **draw(query_strings()),
+        }
     if method in ("POST", "PATCH", "PUT", "DELETE"):
         if rule.startswith("/api/"):
             ctype, text = draw(bodies())
             req.update(content_type=ctype, data=text.encode("utf-8", "surrogatepass"))
         else:
-            form = draw(st.dictionaries(st.sampled_from(FORM_FIELDS), st.sampled_from(_HOSTILE_TEXT).filter(
-                lambda s: "\ud800" not in s and "\udfff" not in s), max_size=8))
+            form = draw(
+                st.dictionaries(
+                    st.sampled_from(FORM_FIELDS),
+                    st.sampled_from(_HOSTILE_TEXT).filter(lambda s: "\ud800" not in s and "\udfff" not in s),
+                    max_size=8,
+                )
+            )
             if draw(st.booleans()):
-                name = draw(st.sampled_from(["run_file", "readings", "archive", "mapping", "roster", "files",
-                                             "package"]))
-                content = draw(st.sampled_from([b"", b"\x00\xff", b"kind = 'dissolution'\n", b"PK\x03\x04",
-                                                b"time_s,temperature_C\n" + b"0,1\n" * 50, b"[" * 5000]))
+                name = draw(
+                    st.sampled_from(["run_file", "readings", "archive", "mapping", "roster", "files", "package"])
+                )
+                content = draw(
+                    st.sampled_from(
+                        [
+                            b"",
+                            b"\x00\xff",
+                            b"kind = 'dissolution'\n",
+                            b"PK\x03\x04",
+                            b"time_s,temperature_C\n" + b"0,1\n" * 50,
+                            b"[" * 5000,
+                        ]
+                    )
+                )
                 form[name] = (io.BytesIO(content), "x.bin")
             req.update(data=form, content_type="multipart/form-data", csrf=True)
     return req

@@ -45,8 +45,11 @@ def _upload(d: Any, server: str, toml: Path) -> str:
     return d.find_element(By.ID, "preview").text
 
 
-def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(browser: Any, server: str,  # noqa: F811
-                                                                        tmp_path: Path) -> None:
+def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(
+    browser: Any,
+    server: str,  # noqa: F811
+    tmp_path: Path,
+) -> None:
     from selenium.webdriver.common.by import By
 
     d = browser
@@ -73,7 +76,7 @@ def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(browser: 
     assert "heat capacity of this calorimeter" in chart.text and "2025-03-11" in chart.text
     svg = chart.find_element(By.CSS_SELECTOR, "figure svg").get_attribute("innerHTML")
     texts = re.findall(r"<text[^>]*>([^<]*)</text>", svg)
-    ticks = texts[:texts.index("calibration, in the order measured")]
+    ticks = texts[: texts.index("calibration, in the order measured")]
     assert ticks and all(t.isdigit() for t in ticks)
 
     # 4. a heat capacity typed with a slip (28.6 for 18.6): refused until confirmed, then in force

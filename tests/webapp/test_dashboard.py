@@ -60,8 +60,9 @@ def test_sorting_and_access(client: Any, session: Any, lab: Any, tmp_path: Path)
     r = client.get(f"/api/sections/{cl.section_id}/dashboard?sort=value&dir=desc", headers=lab.auth("coord"))
     values = [row["value"] for row in r.get_json()["rows"]]
     assert values == sorted(values, reverse=True)
-    assert client.get(f"/api/sections/{cl.section_id}/dashboard?sort=bogus",
-                      headers=lab.auth("coord")).status_code == 400
+    assert (
+        client.get(f"/api/sections/{cl.section_id}/dashboard?sort=bogus", headers=lab.auth("coord")).status_code == 400
+    )
     # a student of another section (a1 is in Group A, no section) cannot see it
     assert client.get(f"/api/sections/{cl.section_id}/dashboard", headers=lab.auth("a1")).status_code == 404
     assert client.get(f"/api/courses/{cl.course_id}/dashboard", headers=lab.auth("a1")).status_code == 403

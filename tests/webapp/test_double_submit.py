@@ -47,8 +47,9 @@ def test_a_save_without_the_token_saves_nothing(client: Any, lab: Any, session: 
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
 
 
-def test_two_saves_at_the_same_moment_make_one_run(app: Any, lab: Any, session: Any,
-                                                   monkeypatch: pytest.MonkeyPatch) -> None:
+def test_two_saves_at_the_same_moment_make_one_run(
+    app: Any, lab: Any, session: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
     from webapp.runs import new
 
     clients = [app.test_client(), app.test_client()]

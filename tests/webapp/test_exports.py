@@ -35,7 +35,7 @@ def test_csv_and_xlsx_exports(client: Any, session: Any, lab: Any, tmp_path: Pat
     assert r.status_code == 200 and r.mimetype == "text/csv"
     rows = list(csv.reader(io.StringIO(r.get_data(as_text=True))))
     header = rows[0]
-    runs = rows[1:rows.index([])]
+    runs = rows[1 : rows.index([])]
     assert len(runs) == 8
     titles = [row[header.index("title")] for row in runs]
     assert "'" + run.title in titles and run.title not in titles

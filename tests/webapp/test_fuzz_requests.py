@@ -16,8 +16,9 @@ from tests.webapp.conftest import csrf_token, sign_in, upload
 from tests.webapp.fuzzing import is_server_error, requests, send, targets
 
 
-def fuzz(app: Any, lab: Any, examples: int, who: str = "coord",
-         statuses: Counter[int] | None = None) -> tuple[int, list[str]]:
+def fuzz(
+    app: Any, lab: Any, examples: int, who: str = "coord", statuses: Counter[int] | None = None
+) -> tuple[int, list[str]]:
     """Send ``examples`` generated requests as ``who`` (token and signed-in session); return (sent, failures).
 
     ``statuses`` (when given) counts the answers by status code."""
@@ -31,8 +32,9 @@ def fuzz(app: Any, lab: Any, examples: int, who: str = "coord",
     failures: list[str] = []
     sent = [0]
 
-    @settings(max_examples=examples, deadline=None, derandomize=True, database=None,
-              suppress_health_check=list(HealthCheck))
+    @settings(
+        max_examples=examples, deadline=None, derandomize=True, database=None, suppress_health_check=list(HealthCheck)
+    )
     @given(requests(t))
     def one(req: dict[str, Any]) -> None:
         response = send(client, req, lab.auth(who), token)
@@ -40,8 +42,10 @@ def fuzz(app: Any, lab: Any, examples: int, who: str = "coord",
         if statuses is not None:
             statuses[response.status_code] += 1
         if is_server_error(response):
-            failures.append(f"{response.status_code} {req['method']} {req['path']} "
-                            f"{str(req.get('query_string'))[:200]} {str(req.get('data'))[:300]}")
+            failures.append(
+                f"{response.status_code} {req['method']} {req['path']} "
+                f"{str(req.get('query_string'))[:200]} {str(req.get('data'))[:300]}"
+            )
 
     one()
     return sent[0], failures

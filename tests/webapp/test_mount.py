@@ -26,8 +26,9 @@ def host(database_url: str) -> Any:
 
     cupcal = mount(host, "/cupcal", {**SETTINGS, "DATABASE_URL": database_url})
     s = new_session(cupcal)
-    create_person(s, email="ida@lab.example", name="Ida", role="technician", password=PASSWORD,
-                  password_method=FAST_HASH)
+    create_person(
+        s, email="ida@lab.example", name="Ida", role="technician", password=PASSWORD, password_method=FAST_HASH
+    )
     s.close()
     yield host, cupcal
     get_engine(cupcal).dispose()
@@ -41,8 +42,9 @@ def test_host_serves_cupcal_under_its_prefix(host: Any) -> None:
     assert r.status_code == 302 and r.headers["Location"].startswith("/cupcal/auth/login")
     page = c.get("/cupcal/auth/login").get_data(as_text=True)
     assert 'href="/cupcal/static/' in page
-    r = c.post("/cupcal/auth/login", data={"email": "ida@lab.example", "password": PASSWORD,
-                                           "csrf_token": csrf_token(page)})
+    r = c.post(
+        "/cupcal/auth/login", data={"email": "ida@lab.example", "password": PASSWORD, "csrf_token": csrf_token(page)}
+    )
     assert r.status_code == 302 and r.headers["Location"] == "/cupcal/"
     cookie = c.get_cookie("cupcal_session", path="/cupcal")
     assert cookie is not None and c.get_cookie("session") is None  # the host's cookie is left alone

@@ -57,7 +57,10 @@ def test_the_same_verdict_on_every_surface(app: Any, client: Any, session: Any, 
     # the run page: the verdict row, and the published E_n only as context
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{run_id}").get_data(as_text=True)
-    assert f"E<sub>n</sub> = {en}</span>:" in html and f'<span class="{"ok" if v["satisfactory"] else "bad"}">{word}' in html
+    assert (
+        f"E<sub>n</sub> = {en}</span>:" in html
+        and f'<span class="{"ok" if v["satisfactory"] else "bad"}">{word}' in html
+    )
     assert "Context only, no verdict" in html
     assert html.count('class="bad">not satisfactory') == (0 if v["satisfactory"] else 1)
 
@@ -82,7 +85,8 @@ def test_the_same_verdict_on_every_surface(app: Any, client: Any, session: Any, 
     assert f"{row['en']:+.2f}" == en and ("En" in row["flags"]) == (not v["satisfactory"])
     page = client.get(f"/classes/sections/{section_id}/dashboard").get_data(as_text=True)
     assert en in page and "reference at the runs&#39; conditions (mean)" in page
-    grading = list(csv.DictReader(io.StringIO(
-        client.get(f"/classes/sections/{section_id}/export.csv").get_data(as_text=True))))
+    grading = list(
+        csv.DictReader(io.StringIO(client.get(f"/classes/sections/{section_id}/export.csv").get_data(as_text=True)))
+    )
     g = next(x for x in grading if x["run"] == str(run_id))
     assert f"{float(g['En']):+.2f}" == en

@@ -82,8 +82,11 @@ def test_a_stale_write_gets_409_with_the_current_state(client: Any, lab: Any) ->
     assert "changed by someone else" in body["error"] and body["current"]["run"]["title"] == "first"
     r = client.patch(f"/api/runs/{run_id}", headers=lab.auth("coord"), json={"title": "third"})
     assert r.status_code == 428 and "If-Match" in r.get_json()["error"]  # a write must say what it changes
-    r = client.patch(f"/api/runs/{run_id}", headers=lab.auth("coord"),
-                     json={"title": "fourth", "version": body["current"]["run"]["version"]})
+    r = client.patch(
+        f"/api/runs/{run_id}",
+        headers=lab.auth("coord"),
+        json={"title": "fourth", "version": body["current"]["run"]["version"]},
+    )
     assert r.status_code == 200 and r.get_json()["title"] == "fourth"
 
 
@@ -97,8 +100,11 @@ def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: An
     version = int(__import__("re").search(r'name="version" value="(\d+)"', page).group(1))
     token = csrf_token(page)
     # someone else changes the run after the page was read
-    r = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("coord"), "If-Match": f'"{version}"'},
-                     json={"notes": "checked by the coordinator"})
+    r = client.patch(
+        f"/api/runs/{run_id}",
+        headers={**lab.auth("coord"), "If-Match": f'"{version}"'},
+        json={"notes": "checked by the coordinator"},
+    )
     assert r.status_code == 200
     r = client.post(f"/runs/{run_id}/lock", data={"csrf_token": token, "version": str(version)})
     html = r.get_data(as_text=True)

@@ -63,8 +63,9 @@ def receiver() -> Iterator[Receiver]:
         rec.server.server_close()
 
 
-def test_locking_a_run_posts_a_signed_event_retried_with_backoff(client: Any, lab: Any, session: Any,
-                                                                  receiver: Receiver) -> None:
+def test_locking_a_run_posts_a_signed_event_retried_with_backoff(
+    client: Any, lab: Any, session: Any, receiver: Receiver
+) -> None:
     r = client.post("/api/webhooks", json={"url": receiver.url}, headers=lab.auth("coord"))
     assert r.status_code == 201
     hook = r.get_json()
@@ -115,14 +116,17 @@ def test_backoff_doubles_and_gives_up(client: Any, lab: Any, session: Any) -> No
 
 def test_only_coordinators_manage_webhooks(client: Any, lab: Any) -> None:
     for who in ("tech", "a1"):
-        assert client.post("/api/webhooks", json={"url": "http://127.0.0.1/x"}, headers=lab.auth(who)).status_code == 403
+        assert (
+            client.post("/api/webhooks", json={"url": "http://127.0.0.1/x"}, headers=lab.auth(who)).status_code == 403
+        )
         assert client.get("/api/webhooks", headers=lab.auth(who)).status_code == 403
     r = client.post("/api/webhooks", json={"url": "ftp://example.org/x"}, headers=lab.auth("coord"))
     assert r.status_code == 400 and r.get_json()["field"] == "url"
 
 
-def test_deliver_command(client: Any, lab: Any, receiver: Receiver, database_url: str,
-                         monkeypatch: pytest.MonkeyPatch) -> None:
+def test_deliver_command(
+    client: Any, lab: Any, receiver: Receiver, database_url: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
     from webapp.webhook_commands import webhooks
 
     client.post("/api/webhooks", json={"url": receiver.url}, headers=lab.auth("coord"))

@@ -20,4 +20,4 @@ from webapp.api import (
 )
 from webapp.api.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

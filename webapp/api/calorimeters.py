@@ -55,8 +55,10 @@ def create_calorimeter_route():  # type: ignore[no-untyped-def]
         vessel_type=as_text(data.get("vessel_type"), "vessel_type") or None,
         measured_on=as_text(data.get("measured_on"), "measured_on") or None,
     )
-    return _created(calorimeter_json(cal, current_calibration(session, cal.id)),
-                    url_for("api.get_calorimeter", calorimeter_id=cal.id))
+    return _created(
+        calorimeter_json(cal, current_calibration(session, cal.id)),
+        url_for("api.get_calorimeter", calorimeter_id=cal.id),
+    )
 
 
 @bp.get("/calorimeters/<int:calorimeter_id>", endpoint="get_calorimeter")
@@ -85,8 +87,9 @@ def patch_calorimeter(calorimeter_id: int):  # type: ignore[no-untyped-def]
     interval_given = "calibration_interval_days" in changes
     # checked before anything is stored (null: the notebook's default interval)
     days = as_int(changes.pop("calibration_interval_days", None), "calibration_interval_days", low=1, high=3650)
-    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), changes, version,
-                             commit=not interval_given)
+    cal = update_calorimeter(
+        session, actor(), get_calorimeter(session, calorimeter_id), changes, version, commit=not interval_given
+    )
     if interval_given:
         set_interval(session, actor(), cal, days)
     response = jsonify(calorimeter_json(cal, current_calibration(session, cal.id)))
@@ -115,11 +118,16 @@ def enter_calibration(calorimeter_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     data = json_object()
     cal = get_calorimeter(session, calorimeter_id)
-    entry = enter_heat_capacity(session, actor(), cal,
-                                as_text(data.get("heat_capacity"), "heat_capacity", required=True) or "",
-                                as_text(data.get("measured_on"), "measured_on"),
-                                as_text(data.get("note"), "note") or "",
-                                confirm=_flag(data, "confirm"), restart=_flag(data, "restart"))
+    entry = enter_heat_capacity(
+        session,
+        actor(),
+        cal,
+        as_text(data.get("heat_capacity"), "heat_capacity", required=True) or "",
+        as_text(data.get("measured_on"), "measured_on"),
+        as_text(data.get("note"), "note") or "",
+        confirm=_flag(data, "confirm"),
+        restart=_flag(data, "restart"),
+    )
     return _created(calibration_json(entry), url_for("api.get_calorimeter", calorimeter_id=cal.id))
 
 
@@ -138,8 +146,9 @@ def approve_calibration_route(calibration_id: int):  # type: ignore[no-untyped-d
     from webapp.services.calibrations import approve_calibration
 
     data = dict(json_object()) if request.data else {}
-    cal = approve_calibration(get_session(), actor(), calibration_id, confirm=_flag(data, "confirm"),
-                              restart=_flag(data, "restart"))
+    cal = approve_calibration(
+        get_session(), actor(), calibration_id, confirm=_flag(data, "confirm"), restart=_flag(data, "restart")
+    )
     return jsonify(calibration_json(cal))
 
 
@@ -163,8 +172,13 @@ def calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     cal = get_calibration(session, calibration_id)
     runs = [r for r in runs_using(session, cal) if can_view_run(actor(), r)]
-    return jsonify({"items": [{"id": r.id, "title": r.title, "locked": r.locked, "calibration_id": r.calibration_id}
-                              for r in runs]})
+    return jsonify(
+        {
+            "items": [
+                {"id": r.id, "title": r.title, "locked": r.locked, "calibration_id": r.calibration_id} for r in runs
+            ]
+        }
+    )
 
 
 @bp.post("/calibrations/<int:calibration_id>/reanalyse-runs")
@@ -173,9 +187,14 @@ def reanalyse_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-
     from webapp.services.calibrations import reanalyse_runs_using
 
     done = reanalyse_runs_using(get_session(), actor(), calibration_id)
-    return jsonify({"calibration": calibration_json(done.calibration) if done.calibration else None,
-                    "reanalysed": done.reanalysed, "locked": done.locked,
-                    "failed": [{"run_id": i, "error": m} for i, m in done.failed]})
+    return jsonify(
+        {
+            "calibration": calibration_json(done.calibration) if done.calibration else None,
+            "reanalysed": done.reanalysed,
+            "locked": done.locked,
+            "failed": [{"run_id": i, "error": m} for i, m in done.failed],
+        }
+    )
 
 
 @bp.get("/groups")
@@ -190,8 +209,12 @@ def list_groups():  # type: ignore[no-untyped-def]
 def create_group_route():  # type: ignore[no-untyped-def]
     """Add a group (coordinators)."""
     data = json_object()
-    group = create_group(get_session(), actor(), name=as_text(data.get("name"), "name", required=True) or "",
-                         course_id=as_int(data.get("course_id"), "course_id"))
+    group = create_group(
+        get_session(),
+        actor(),
+        name=as_text(data.get("name"), "name", required=True) or "",
+        course_id=as_int(data.get("course_id"), "course_id"),
+    )
     return _created(group_json(group), url_for("api.list_groups"))
 
 
@@ -207,6 +230,10 @@ def list_courses():  # type: ignore[no-untyped-def]
 def create_course_route():  # type: ignore[no-untyped-def]
     """Add a course (coordinators)."""
     data = json_object()
-    course = create_course(get_session(), actor(), name=as_text(data.get("name"), "name", required=True) or "",
-                           term=as_text(data.get("term"), "term") or "")
+    course = create_course(
+        get_session(),
+        actor(),
+        name=as_text(data.get("name"), "name", required=True) or "",
+        term=as_text(data.get("term"), "term") or "",
+    )
     return _created(course_json(course), url_for("api.list_courses"))

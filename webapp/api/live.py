@@ -28,12 +28,26 @@ def create_live_run_route():  # type: ignore[no-untyped-def]
         if key not in known:
             raise Invalid(f"unknown field; expected: {', '.join(sorted(known))}", field=key)
     session = get_session()
-    live, new = create_live_run(session, actor(), LiveCreate(
-        run_file=data.get("run_file"), client_key=data.get("client_key"), target_u=data.get("target_u"),
-        calorimeter_id=as_int(data.get("calorimeter_id"), "calorimeter_id"),
-        group_id=as_int(data.get("group_id"), "group_id"), bench_id=as_int(data.get("bench_id"), "bench_id")))
-    response = jsonify({"id": live.id, "page_url": url_for("live.page", live_id=live.id), "last_seq": live.last_seq,
-                        "state": live.state})
+    live, new = create_live_run(
+        session,
+        actor(),
+        LiveCreate(
+            run_file=data.get("run_file"),
+            client_key=data.get("client_key"),
+            target_u=data.get("target_u"),
+            calorimeter_id=as_int(data.get("calorimeter_id"), "calorimeter_id"),
+            group_id=as_int(data.get("group_id"), "group_id"),
+            bench_id=as_int(data.get("bench_id"), "bench_id"),
+        ),
+    )
+    response = jsonify(
+        {
+            "id": live.id,
+            "page_url": url_for("live.page", live_id=live.id),
+            "last_seq": live.last_seq,
+            "state": live.state,
+        }
+    )
     response.status_code = 201 if new else 200
     response.headers["Location"] = url_for("api.get_live_run", live_id=live.id)
     return response
@@ -85,5 +99,6 @@ def section_live_target(section_id: int):  # type: ignore[no-untyped-def]
         raise Invalid("missing; expected a positive number or null", field="target_u")
     session = get_session()
     section = get_section(session, actor(), section_id)
-    return jsonify({"section_id": section.id,
-                    "target_u": set_section_target(session, actor(), section, data["target_u"])})
+    return jsonify(
+        {"section_id": section.id, "target_u": set_section_target(session, actor(), section, data["target_u"])}
+    )

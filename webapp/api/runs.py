@@ -38,8 +38,14 @@ def me():  # type: ignore[no-untyped-def]
 @bp.get("/methods")
 def methods():  # type: ignore[no-untyped-def]
     """Return the corrected-ΔT methods."""
-    items = [{"name": name, "description": (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "",
-              "default": name == DEFAULT_METHOD} for name, fn in sorted(METHODS.items())]
+    items = [
+        {
+            "name": name,
+            "description": (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "",
+            "default": name == DEFAULT_METHOD,
+        }
+        for name, fn in sorted(METHODS.items())
+    ]
     return jsonify({"items": items})
 
 
@@ -77,8 +83,9 @@ def _upload_from_request() -> RunUpload:
         try:
             run_toml = run_file.read().decode("utf-8")
         except UnicodeDecodeError as exc:
-            raise Invalid(f"{run_name}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
-                          field="run_file") from None
+            raise Invalid(
+                f"{run_name}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
+            ) from None
         readings = readings_file.read()
     if not run_toml or not run_toml.strip():
         raise Invalid("the run file is empty", field="run_file")

@@ -8,4 +8,4 @@ from webapp.auth import (
 )
 from webapp.auth.blueprint import bp, csrf, init_app, login_manager
 
-__all__ = ['bp', 'login_manager', 'csrf', 'init_app']
+__all__ = ["bp", "login_manager", "csrf", "init_app"]

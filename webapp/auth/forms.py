@@ -18,8 +18,7 @@ class TokenForm(FlaskForm):
     """A label for a new API token."""
 
     label = StringField("Label", validators=[Length(max=120)])
-    scope = SelectField("Scope", choices=["read", "write", "live"],
-                        default="read")
+    scope = SelectField("Scope", choices=["read", "write", "live"], default="read")
 
 
 class ConfirmForm(FlaskForm):

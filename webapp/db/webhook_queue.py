@@ -29,8 +29,18 @@ def _queue_on_lock(session: so.Session, _ctx: Any, _instances: Any) -> None:
             continue
         body = json.dumps(payload(obj), ensure_ascii=False, sort_keys=True)
         for hook in hooks:
-            session.add(WebhookDelivery(webhook=hook, event=EVENT, run_id=obj.id, body=body, status="pending",
-                                        attempts=0, next_attempt_at=utcnow(), last_error=""))
+            session.add(
+                WebhookDelivery(
+                    webhook=hook,
+                    event=EVENT,
+                    run_id=obj.id,
+                    body=body,
+                    status="pending",
+                    attempts=0,
+                    next_attempt_at=utcnow(),
+                    last_error="",
+                )
+            )
 
 
 def install(factory: so.sessionmaker[so.Session]) -> None:

@@ -11,4 +11,4 @@ from __future__ import annotations
 from webapp.embed import views  # noqa: F401  (registers the routes)
 from webapp.embed.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -11,8 +11,8 @@ bp = Blueprint("embed", __name__)
 def _frame_policy(response: Response) -> Response:
     ancestors = current_app.config.get("EMBED_FRAME_ANCESTORS") or "'self'"
     response.headers["Content-Security-Policy"] = (
-        "default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; "
-        f"frame-ancestors {ancestors}")
+        f"default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; frame-ancestors {ancestors}"
+    )
     response.headers["X-Content-Type-Options"] = "nosniff"
     response.headers["Referrer-Policy"] = "no-referrer"
     response.headers["Cache-Control"] = "private, no-store"

@@ -8,4 +8,4 @@ from webapp.imports import (
 )
 from webapp.imports.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

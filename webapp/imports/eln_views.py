@@ -36,8 +36,13 @@ def eln():  # type: ignore[no-untyped-def]
                 f = form.archive.data
                 if not f or not f.filename:
                     raise Invalid("choose an .eln archive", field="archive")
-                report = import_eln(session, current_user, f.read(), source=f.filename,
-                                    password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"))
+                report = import_eln(
+                    session,
+                    current_user,
+                    f.read(),
+                    source=f.filename,
+                    password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"),
+                )
             except ServiceError as exc:
                 session.rollback()
                 if exc.status in (403, 404):

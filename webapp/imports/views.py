@@ -65,9 +65,17 @@ def new(section_id: int):  # type: ignore[no-untyped-def]
                     try:
                         mapping = form.mapping.data.read().decode("utf-8-sig")
                     except UnicodeDecodeError:
-                        raise Invalid("the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping") from None
-                report = import_files(session, current_user, section.id, _files(form), mapping=mapping,
-                                      create_groups=bool(form.create_groups.data))
+                        raise Invalid(
+                            "the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping"
+                        ) from None
+                report = import_files(
+                    session,
+                    current_user,
+                    section.id,
+                    _files(form),
+                    mapping=mapping,
+                    create_groups=bool(form.create_groups.data),
+                )
             except ServiceError as exc:
                 session.rollback()
                 if exc.status in (403, 404):

@@ -10,4 +10,4 @@ from webapp.live import (
 )
 from webapp.live.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -26,8 +26,7 @@ def parse_room_cursor(text: str | None) -> Seen:
     seen: Seen = {}
     for part in (text or "").split(",")[:500]:
         bits = part.split(":")
-        if (len(bits) == 4 and bits[3] in _STATES
-                and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits[:3])):
+        if len(bits) == 4 and bits[3] in _STATES and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits[:3]):
             seen[int(bits[0])] = (int(bits[1]), int(bits[2]), _STATES[bits[3]])
     return seen
 
@@ -58,9 +57,14 @@ def room(section_id: int):  # type: ignore[no-untyped-def]
     section = get_section(session, current_user, section_id)
     seen: Seen = {}
     tiles = room_update(session, section, seen)
-    return render_template("live/room.html", section=section, tiles=tiles, cursor=room_cursor(seen),
-                           target=section_target(session, section.id), form=TargetForm(
-                               target_u=section_target(session, section.id)))
+    return render_template(
+        "live/room.html",
+        section=section,
+        tiles=tiles,
+        cursor=room_cursor(seen),
+        target=section_target(session, section.id),
+        form=TargetForm(target_u=section_target(session, section.id)),
+    )
 
 
 @bp.route("/classes/sections/<int:section_id>/live/update.json")

@@ -25,8 +25,12 @@ from webapp.services.live_view import change_mark, require_live, update_of, visi
 def viewer() -> SimpleNamespace:
     """Return who is asking, as plain values a stream can keep after the request's session closed."""
     group = current_user.group
-    return SimpleNamespace(id=current_user.id, role=current_user.role, group_id=current_user.group_id,
-                           group=SimpleNamespace(section_id=group.section_id) if group is not None else None)
+    return SimpleNamespace(
+        id=current_user.id,
+        role=current_user.role,
+        group_id=current_user.group_id,
+        group=SimpleNamespace(section_id=group.section_id) if group is not None else None,
+    )
 
 
 class TargetForm(FlaskForm):
@@ -65,8 +69,9 @@ def page(live_id: int):  # type: ignore[no-untyped-def]
     live = get_live_run(session, current_user, live_id)
     data = update_of(session, live, -1, None)
     form = TargetForm(target_u=live.target_u)
-    return render_template("live/page.html", live=live, data=data, form=form, finish_form=FinishForm(),
-                           cautions=_cautions(live))
+    return render_template(
+        "live/page.html", live=live, data=data, form=form, finish_form=FinishForm(), cautions=_cautions(live)
+    )
 
 
 @bp.route("/live/<int:live_id>/update.json")
@@ -85,7 +90,9 @@ def events(live_id: int):  # type: ignore[no-untyped-def]
     """The live run's Server-Sent Events: ``update`` when readings, advice or state change; ``ping`` else."""
     get_live_run(get_session(), current_user, live_id)  # 404 before the stream starts
     who = viewer()
-    cursor = request.headers.get("Last-Event-ID") or f"{request.args.get('after', '-1')}.{request.args.get('advice', '')}"
+    cursor = (
+        request.headers.get("Last-Event-ID") or f"{request.args.get('after', '-1')}.{request.args.get('advice', '')}"
+    )
     seen = {"seq": parse_cursor(cursor)[0], "advice": parse_cursor(cursor)[1], "mark": None}
 
     def read(session: Any) -> list[tuple[str, dict[str, Any], str | None]]:

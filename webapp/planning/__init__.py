@@ -5,4 +5,4 @@ from __future__ import annotations
 from webapp.planning import views  # noqa: F401  (registers the routes)
 from webapp.planning.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -14,9 +14,14 @@ from webapp.services.errors import Invalid, ServiceError
 from webapp.services.marks import bands_text, scheme_of, set_mark, set_scheme
 from webapp.services.review import review_run
 
-_DONE = {"withdraw": "Run withdrawn.", "restore": "Run restored.", "exclude": "Run excluded from the statistics.",
-         "include": "Run counted in the statistics again.", "accept": "Run accepted.",
-         "unaccept": "Acceptance taken back."}
+_DONE = {
+    "withdraw": "Run withdrawn.",
+    "restore": "Run restored.",
+    "exclude": "Run excluded from the statistics.",
+    "include": "Run counted in the statistics again.",
+    "accept": "Run accepted.",
+    "unaccept": "Acceptance taken back.",
+}
 
 
 def _back(run_id: int, anchor: str = "review") -> str:

@@ -8,4 +8,4 @@ from webapp.runs import (
 )
 from webapp.runs.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -42,8 +42,9 @@ from webapp.services.runs import RunUpload, record_run, run_for_submit_token
 
 
 def _methods() -> list[tuple[str, str]]:
-    return [(name, (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "")
-            for name, fn in sorted(METHODS.items())]
+    return [
+        (name, (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "") for name, fn in sorted(METHODS.items())
+    ]
 
 
 @bp.route("/new")
@@ -116,10 +117,21 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
     sections = form_sections(kind)
     form = ConfirmForm()
     context: dict[str, Any] = dict(
-        kind=kind, kind_title=KIND_TITLES[kind], sections=sections, form=form, methods=_methods(),
-        default_method=DEFAULT_METHOD, calorimeters=calorimeter_choices(session),
-        groups=group_choices(session, current_user), references=reference_names(),
-        errors={}, preview=None, readings=None, run_toml=None, fingerprint="", changed=False,
+        kind=kind,
+        kind_title=KIND_TITLES[kind],
+        sections=sections,
+        form=form,
+        methods=_methods(),
+        default_method=DEFAULT_METHOD,
+        calorimeters=calorimeter_choices(session),
+        groups=group_choices(session, current_user),
+        references=reference_names(),
+        errors={},
+        preview=None,
+        readings=None,
+        run_toml=None,
+        fingerprint="",
+        changed=False,
         submit_token=secrets.token_urlsafe(24),  # one-time: a double submit of "Save" saves one run
     )
     if request.method == "GET":
@@ -157,15 +169,22 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
 
     assert readings is not None
     run_name = (PurePosixPath(readings.name).stem or kind) + ".toml"
-    run_toml = build_run_toml(kind, values, readings_name=readings.name,
-                              calorimeter_name=calorimeter.name if calorimeter else None)
-    upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings.data,
-                       readings_name=readings.name, calorimeter_id=calorimeter.id if calorimeter else None)
+    run_toml = build_run_toml(
+        kind, values, readings_name=readings.name, calorimeter_name=calorimeter.name if calorimeter else None
+    )
+    upload = RunUpload(
+        run_toml=run_toml,
+        run_file_name=run_name,
+        readings=readings.data,
+        readings_name=readings.name,
+        calorimeter_id=calorimeter.id if calorimeter else None,
+    )
     fingerprint = digest(kind, run_toml, readings.data, str(upload.calorimeter_id))
     context.update(run_toml=run_toml, fingerprint=fingerprint)
     try:
-        response, preview, changed = _analyse(upload, request.form.get("action", "preview"),
-                                              request.form.get("previewed", ""), fingerprint)
+        response, preview, changed = _analyse(
+            upload, request.form.get("action", "preview"), request.form.get("previewed", ""), fingerprint
+        )
     except ServiceError as exc:
         get_session().rollback()
         key = error_key(exc.field, sections)
@@ -177,8 +196,13 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
     return render_template("runs/new_kind.html", **context)
 
 
-_UPLOAD_FIELDS = {"run_file": "run_file", "readings": "readings", "calorimeter_id": "calorimeter_id",
-                  "calorimeter.heat_capacity": "calorimeter_id", "group_id": "group_id"}
+_UPLOAD_FIELDS = {
+    "run_file": "run_file",
+    "readings": "readings",
+    "calorimeter_id": "calorimeter_id",
+    "calorimeter.heat_capacity": "calorimeter_id",
+    "group_id": "group_id",
+}
 
 
 @bp.route("/upload", methods=["GET", "POST"])
@@ -188,9 +212,18 @@ def upload():  # type: ignore[no-untyped-def]
     session = get_session()
     form = ConfirmForm()
     context: dict[str, Any] = dict(
-        form=form, calorimeters=calorimeter_choices(session), groups=group_choices(session, current_user),
-        errors={}, preview=None, run_file=None, readings=None, fingerprint="", changed=False,
-        calorimeter_id="", group_id="", submit_token=secrets.token_urlsafe(24),
+        form=form,
+        calorimeters=calorimeter_choices(session),
+        groups=group_choices(session, current_user),
+        errors={},
+        preview=None,
+        run_file=None,
+        readings=None,
+        fingerprint="",
+        changed=False,
+        calorimeter_id="",
+        group_id="",
+        submit_token=secrets.token_urlsafe(24),
     )
     if request.method == "GET":
         return render_template("runs/upload.html", **context)
@@ -210,8 +243,12 @@ def upload():  # type: ignore[no-untyped-def]
         elif not carried.data.strip():
             errors[field] = "the file is empty"
     run_file, readings = files.get("run_file"), files.get("readings")
-    context.update(run_file=run_file, readings=readings, calorimeter_id=request.form.get("calorimeter_id", ""),
-                   group_id=request.form.get("group_id", ""))
+    context.update(
+        run_file=run_file,
+        readings=readings,
+        calorimeter_id=request.form.get("calorimeter_id", ""),
+        group_id=request.form.get("group_id", ""),
+    )
     run_toml = ""
     if run_file is not None and "run_file" not in errors:
         try:
@@ -232,13 +269,20 @@ def upload():  # type: ignore[no-untyped-def]
         return render_template("runs/upload.html", **context), 400
 
     assert run_file is not None and readings is not None
-    upload_ = RunUpload(run_toml=run_toml, run_file_name=run_file.name, readings=readings.data,
-                        readings_name=readings.name, calorimeter_id=cid, group_id=group_id)
+    upload_ = RunUpload(
+        run_toml=run_toml,
+        run_file_name=run_file.name,
+        readings=readings.data,
+        readings_name=readings.name,
+        calorimeter_id=cid,
+        group_id=group_id,
+    )
     fingerprint = digest(run_toml, run_file.name, readings.data, readings.name, str(cid), str(group_id))
     context["fingerprint"] = fingerprint
     try:
-        response, preview, changed = _analyse(upload_, request.form.get("action", "preview"),
-                                              request.form.get("previewed", ""), fingerprint)
+        response, preview, changed = _analyse(
+            upload_, request.form.get("action", "preview"), request.form.get("previewed", ""), fingerprint
+        )
     except ServiceError as exc:
         get_session().rollback()
         context["errors"] = {_UPLOAD_FIELDS.get(exc.field or "", "run_file" if exc.field else ""): exc.message}

@@ -72,7 +72,7 @@ _HINTS = {
     "fore_period": "in seconds on the log's clock; blank: found from the log",
     "after_period": "in seconds on the log's clock; blank: found from the log",
     "temperature_column": "only for a log with several temperature columns: its header name (T2) or column number "
-                          "counted from 1 (3)",
+    "counted from 1 (3)",
     "heater.start": "when the heater is switched on, in seconds on the log's clock",
     "heater_2.start": "when the second pulse is switched on, in seconds on the log's clock",
     "solute.purity": "mass fraction, 0 to 1",
@@ -98,8 +98,13 @@ _UNITS = {
 }
 _RESOLUTION_UNITS = ("K", "mK", "degC")
 #: which special control a field gets instead of a plain input
-_SPECIAL = {"calorimeter.name": "calorimeter", "info.group": "group", "info.notes": "long", "info.date": "date",
-            "reference.name": "reference"}
+_SPECIAL = {
+    "calorimeter.name": "calorimeter",
+    "info.group": "group",
+    "info.notes": "long",
+    "info.date": "date",
+    "reference.name": "reference",
+}
 _SECTION_ORDER_FIRST = ("calorimeter", "thermometer")
 _SECTION_ORDER_LAST = ("mixture", "", "reference", "info")
 _INT_RE = re.compile(r"\s*\d+\s*")
@@ -183,8 +188,9 @@ def _top_fields() -> tuple[FormField, ...]:
         FormField("", "method", "method", None, False, _LABELS["method"], ""),
         FormField("", "fore_period", "period", "s", False, _LABELS["fore_period"], _HINTS["fore_period"]),
         FormField("", "after_period", "period", "s", False, _LABELS["after_period"], _HINTS["after_period"]),
-        FormField("", "temperature_column", "s", None, False, _LABELS["temperature_column"],
-                  _HINTS["temperature_column"]),
+        FormField(
+            "", "temperature_column", "s", None, False, _LABELS["temperature_column"], _HINTS["temperature_column"]
+        ),
     )
 
 
@@ -204,8 +210,7 @@ def form_sections(kind: str) -> list[FormSection]:
         elif name == "calorimeter":
             # the select first; a calibration run measures the heat capacity, so it has no field for it
             items = sorted(schema[name].items(), key=lambda kv: kv[0] != "name")
-            fields = tuple(_field(name, f, spec) for f, spec in items
-                           if f != "heat_capacity" or name in required)
+            fields = tuple(_field(name, f, spec) for f, spec in items if f != "heat_capacity" or name in required)
         elif name in schema:
             fields = tuple(_field(name, f, spec) for f, spec in schema[name].items())
         else:
@@ -214,10 +219,15 @@ def form_sections(kind: str) -> list[FormSection]:
         if name == "calorimeter" and name not in required:
             hint = "The calorimeter whose heat capacity this run measures: the result is added to its history."
             if not get_kind(kind).is_calibration:
-                hint = ("The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
-                        "the heat capacity of cup + solution.")
-        out.append(FormSection(name, _SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint,
-                               name in required, fields))
+                hint = (
+                    "The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
+                    "the heat capacity of cup + solution."
+                )
+        out.append(
+            FormSection(
+                name, _SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint, name in required, fields
+            )
+        )
     return out
 
 
@@ -292,8 +302,11 @@ def check_values(kind: str, values: Mapping[str, str], *, calorimeter_chosen: bo
             if blank:
                 if used and f.required:
                     errors[f.key] = f"required: {_example(f)}"
-                elif (f.key == "calorimeter.heat_capacity" and "calorimeter" in REQUIRED_SECTIONS[kind]
-                      and not calorimeter_chosen):
+                elif (
+                    f.key == "calorimeter.heat_capacity"
+                    and "calorimeter" in REQUIRED_SECTIONS[kind]
+                    and not calorimeter_chosen
+                ):
                     errors[f.key] = "give the heat capacity, or choose a calorimeter that has been calibrated"
                 continue
             if f.control in ("q", "n", "dq"):
@@ -352,8 +365,9 @@ def _toml_value(values: Mapping[str, str], f: FormField) -> str:
     return toml_string(text)
 
 
-def build_run_toml(kind: str, values: Mapping[str, str], *, readings_name: str,
-                   calorimeter_name: str | None = None) -> str:
+def build_run_toml(
+    kind: str, values: Mapping[str, str], *, readings_name: str, calorimeter_name: str | None = None
+) -> str:
     """Return the run file (TOML text) the form's values describe.
 
     ``calorimeter_name`` is written as ``[calorimeter] name`` (the select posts an id).
@@ -385,8 +399,13 @@ def error_key(field: str | None, sections: list[FormSection]) -> str:
     """Return the form field a service error's ``field`` belongs to ("" when none fits)."""
     if not field:
         return ""
-    aliases = {"fore": "fore_period", "after": "after_period", "calorimeter_id": "calorimeter.name",
-               "group_id": "info.group", "readings": "readings"}
+    aliases = {
+        "fore": "fore_period",
+        "after": "after_period",
+        "calorimeter_id": "calorimeter.name",
+        "group_id": "info.group",
+        "readings": "readings",
+    }
     if field in aliases:
         return aliases[field]
     keys = {f.key for sec in sections for f in sec.fields} | {sec.name for sec in sections if sec.name}

@@ -63,8 +63,9 @@ def file_from_request(field: str) -> Carried | None:
     packed = request.form.get(f"{field}_packed", "")
     if packed:
         limit = int(current_app.config.get("MAX_CONTENT_LENGTH") or 4 * 1024 * 1024)
-        return Carried(_base_name(request.form.get(f"{field}_name", "")) or f"{field}.txt",
-                       unpack(packed, field, limit))
+        return Carried(
+            _base_name(request.form.get(f"{field}_name", "")) or f"{field}.txt", unpack(packed, field, limit)
+        )
     return None
 
 

@@ -25,9 +25,17 @@ from webapp.services.runs import get_run, lock_run, paginate, reanalyse_run
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"
-_FORM_FIELDS = {"method": "method", "fore": "fore", "after": "after", "fore_start": "fore", "fore_end": "fore",
-                "after_start": "after", "after_end": "after", "mixing_time": "mixing_time",
-                "mixing_time_u": "mixing_time"}
+_FORM_FIELDS = {
+    "method": "method",
+    "fore": "fore",
+    "after": "after",
+    "fore_start": "fore",
+    "fore_end": "fore",
+    "after_start": "after",
+    "after_end": "after",
+    "mixing_time": "mixing_time",
+    "mixing_time_u": "mixing_time",
+}
 
 
 @bp.route("/")
@@ -39,8 +47,15 @@ def index():  # type: ignore[no-untyped-def]
     chosen = read_filter(request.args)
     session = get_session()
     result = paginate(session, filtered_runs_query(current_user, chosen), page, per_page)
-    return render_template("runs/index.html", page=result, chosen=chosen, kinds=KINDS, flags=RUN_FLAGS,
-                           sorts=RUN_SORTS, cups=[c.name for c in session.scalars(calorimeters_query())])
+    return render_template(
+        "runs/index.html",
+        page=result,
+        chosen=chosen,
+        kinds=KINDS,
+        flags=RUN_FLAGS,
+        sorts=RUN_SORTS,
+        cups=[c.name for c in session.scalars(calorimeters_query())],
+    )
 
 
 @bp.route("/<int:run_id>")
@@ -50,12 +65,11 @@ def detail(run_id: int):  # type: ignore[no-untyped-def]
     field_errors: dict[str, list[str]] = {}
     for category, message in get_flashed_messages(with_categories=True):
         if category.startswith(FIELD_FLASH):
-            field_errors.setdefault(category[len(FIELD_FLASH):], []).append(message)
+            field_errors.setdefault(category[len(FIELD_FLASH) :], []).append(message)
     return _detail_page(run_id, None, field_errors)
 
 
-def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]],
-                 status: int = 200):  # type: ignore[no-untyped-def]
+def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]], status: int = 200):  # type: ignore[no-untyped-def]
     """Render the run page; a refused re-analysis passes its form so that what was typed stays."""
     page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
     if form is None:
@@ -131,8 +145,13 @@ def lock_confirm(run_id: int):  # type: ignore[no-untyped-def]
         return redirect(url_for("runs.detail", run_id=run_id))
     if not page.may_lock:
         raise Forbidden("only the run's author or a coordinator may lock (sign) it")
-    return render_template("runs/lock_confirm.html", run=page.run, result=page.result, lock_form=ConfirmForm(),
-                           unit=main_value(page.result)[2] if page.result is not None else "")
+    return render_template(
+        "runs/lock_confirm.html",
+        run=page.run,
+        result=page.result,
+        lock_form=ConfirmForm(),
+        unit=main_value(page.result)[2] if page.result is not None else "",
+    )
 
 
 @bp.route("/<int:run_id>/lock", methods=["POST"])
@@ -154,11 +173,13 @@ def download(run_id: int, which: str):  # type: ignore[no-untyped-def]
     """Send the run file or the readings exactly as uploaded."""
     run = get_run(get_session(), current_user, run_id)
     if which == "run-file":
-        return Response(run.run_toml, mimetype="application/toml",
-                        headers={"Content-Disposition": _attachment(run.run_file_name)})
+        return Response(
+            run.run_toml, mimetype="application/toml", headers={"Content-Disposition": _attachment(run.run_file_name)}
+        )
     if which == "readings":
-        return Response(run.readings_raw, mimetype="text/csv",
-                        headers={"Content-Disposition": _attachment(run.readings_name)})
+        return Response(
+            run.readings_raw, mimetype="text/csv", headers={"Content-Disposition": _attachment(run.readings_name)}
+        )
     return render_template("error.html", status=404, title="Not Found", message="No such file."), 404
 
 
@@ -175,5 +196,6 @@ def series_index():  # type: ignore[no-untyped-def]
     from webapp.services.samples import sample_series
 
     sample = (request.args.get("sample") or "").strip()
-    return render_template("runs/samples.html", series=sample_series(get_session(), current_user, sample=sample),
-                           sample=sample)
+    return render_template(
+        "runs/samples.html", series=sample_series(get_session(), current_user, sample=sample), sample=sample
+    )

@@ -55,28 +55,34 @@ class AnalysisOptions:
             finite times, or a Monte Carlo trial count out of range
         """
         if self.method is not None and (not isinstance(self.method, str) or self.method not in METHODS):
-            raise Invalid(f"unknown method {limits.shorten(repr(self.method))}; expected one of: "
-                          f"{', '.join(sorted(METHODS))}", field="method")
+            raise Invalid(
+                f"unknown method {limits.shorten(repr(self.method))}; expected one of: {', '.join(sorted(METHODS))}",
+                field="method",
+            )
         for name, period in (("fore", self.fore), ("after", self.after)):
             if period is None:
                 continue
-            if len(period) != 2 or not all(isinstance(x, int) and not isinstance(x, bool)
-                                           or isinstance(x, float) and math.isfinite(x) for x in period):
+            if len(period) != 2 or not all(
+                isinstance(x, int) and not isinstance(x, bool) or isinstance(x, float) and math.isfinite(x)
+                for x in period
+            ):
                 raise Invalid("expected two times in seconds, like [0, 170]", field=name)
             try:
                 check_options(0, None, **{name: period})
             except InputError as exc:
                 raise invalid(exc, name) from None
             if not period[1] > period[0]:
-                raise Invalid(f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)",
-                              field=name)
+                raise Invalid(
+                    f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)", field=name
+                )
         if self.mixing_time is not None:
             v, u = self.mixing_time
             if not (isinstance(v, (int, float)) and math.isfinite(v)):
                 raise Invalid("expected the mixing time in seconds on the log's clock, like 180", field="mixing_time")
             if not (isinstance(u, (int, float)) and math.isfinite(u) and u >= 0):
-                raise Invalid("expected the mixing time's standard uncertainty in seconds (0 or more)",
-                              field="mixing_time")
+                raise Invalid(
+                    "expected the mixing time's standard uncertainty in seconds (0 or more)", field="mixing_time"
+                )
         try:
             check_options(self.monte_carlo_trials, self.seed)
         except InputError as exc:
@@ -148,7 +154,7 @@ def supply_heat_capacity(run_toml: str, calibration: Calibration, source: str) -
                 "written as a table header; give heat_capacity in the run file",
                 field="calorimeter.heat_capacity",
             )
-        text = run_toml[: match.end()] + "\n" + line + run_toml[match.end():]
+        text = run_toml[: match.end()] + "\n" + line + run_toml[match.end() :]
     check = tomllib.loads(text)["calorimeter"].get("heat_capacity")
     if check != heat_capacity_text(calibration):  # pragma: no cover - guards the text edit
         raise Invalid(f"{source}: could not supply the heat capacity", field="calorimeter.heat_capacity")
@@ -177,9 +183,14 @@ def parse_inputs(
     return spec, readings
 
 
-def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions, *,
-                 calorimeter_type: str | None = None,
-                 history: list[tuple[float, float]] | None = None) -> Analysis:
+def run_analysis(
+    spec: RunSpec,
+    readings: Readings,
+    options: AnalysisOptions,
+    *,
+    calorimeter_type: str | None = None,
+    history: list[tuple[float, float]] | None = None,
+) -> Analysis:
     """Analyse with calc; its errors become :class:`Invalid`.
 
     ``calorimeter_type`` (the calorimeter record's type, unless the run file states one) and
@@ -221,9 +232,16 @@ def inputs_from_spec(spec: RunSpec, calibration: Calibration | None) -> list[Run
                 origin = supplied if (supplied and dotted == "calorimeter.heat_capacity") else "run file"
                 rows.append(_input_row(dotted, value, origin))
             elif dotted == "thermometer.resolution":
-                rows.append(RunInput(field=dotted, value=float(value), std_uncertainty=None, unit="K",
-                                     text=str(spec.raw.get("thermometer", {}).get("resolution", "")),
-                                     origin="run file"))
+                rows.append(
+                    RunInput(
+                        field=dotted,
+                        value=float(value),
+                        std_uncertainty=None,
+                        unit="K",
+                        text=str(spec.raw.get("thermometer", {}).get("resolution", "")),
+                        origin="run file",
+                    )
+                )
     return rows
 
 
@@ -247,8 +265,9 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
     h_v, h_u = value("molar_enthalpy")
     c_v, c_u = value("calorimeter_heat_capacity")
     if None in (dt_v, dt_u, q_v, q_u) or not math.isfinite(gum.expanded_uncertainty):
-        raise Invalid(f"{input_name}: the analysis gave no finite result; check the inputs and the log",
-                      field="readings")
+        raise Invalid(
+            f"{input_name}: the analysis gave no finite result; check the inputs and the log", field="readings"
+        )
     warnings = list(analysis.warnings) + [w for w in p.warnings if w not in analysis.warnings]
     construction = {
         **_jsonable(d.construction.to_dict()),
@@ -293,8 +312,15 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
         comparison=_jsonable(dataclasses.asdict(analysis.comparison)) if analysis.comparison is not None else None,
         cautions=_jsonable([dataclasses.asdict(c) for c in analysis.cautions]),
         construction=construction,
-        properties={k: {"value": finite_or_none(v[0]), "standard_uncertainty": finite_or_none(v[1]), "unit": v[2], "source": v[3]}
-                    for k, v in analysis.properties.values.items()},
+        properties={
+            k: {
+                "value": finite_or_none(v[0]),
+                "standard_uncertainty": finite_or_none(v[1]),
+                "unit": v[2],
+                "source": v[3],
+            }
+            for k, v in analysis.properties.values.items()
+        },
         monte_carlo=_jsonable(dataclasses.asdict(analysis.monte_carlo)) if analysis.monte_carlo else None,
         record=_jsonable(to_record(analysis, input_name)),
         checks=_jsonable([c.as_dict() for c in analysis.checks]),

@@ -45,8 +45,10 @@ def calorimeters_query() -> sa.Select[tuple[Calorimeter]]:
 def check_vessel_type(value: str) -> str:
     """Return a calorimeter type of calc's list, or raise :class:`Invalid` naming the field."""
     if value not in CALORIMETER_TYPES:
-        raise Invalid(f"field 'vessel_type': unknown calorimeter type {value!r}; expected one of: "
-                      f"{', '.join(CALORIMETER_TYPES)}", field="vessel_type")
+        raise Invalid(
+            f"field 'vessel_type': unknown calorimeter type {value!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
+            field="vessel_type",
+        )
     return value
 
 
@@ -80,16 +82,32 @@ def create_calorimeter(
         value, u = parse_heat_capacity(heat_capacity)
         when = parse_measured_date(measured_on)
         now = utcnow()
-        session.add(Calibration(calorimeter=cal, heat_capacity_j_k=value, heat_capacity_j_k_std=u, taken_at=when,
-                                note=f"entered by {actor.name}", created_by=actor, status="approved",
-                                approved_by=actor, approved_at=now, in_force_at=now))
+        session.add(
+            Calibration(
+                calorimeter=cal,
+                heat_capacity_j_k=value,
+                heat_capacity_j_k_std=u,
+                taken_at=when,
+                note=f"entered by {actor.name}",
+                created_by=actor,
+                status="approved",
+                approved_by=actor,
+                approved_at=now,
+                in_force_at=now,
+            )
+        )
     session.commit()
     return cal
 
 
 def update_calorimeter(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, changes: Mapping[str, Any],
-    expected_version: int | None = None, *, commit: bool = True,
+    session: so.Session,
+    actor: Person,
+    calorimeter: Calorimeter,
+    changes: Mapping[str, Any],
+    expected_version: int | None = None,
+    *,
+    commit: bool = True,
 ) -> Calorimeter:
     """Change a calorimeter's name, parts or location (coordinators only), audited, and commit.
 
@@ -125,8 +143,15 @@ def update_calorimeter(
 
 
 def enter_heat_capacity(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str, measured_on: Any = None,
-    note: str = "", *, confirm: bool = False, restart: bool = False,
+    session: so.Session,
+    actor: Person,
+    calorimeter: Calorimeter,
+    heat_capacity: str,
+    measured_on: Any = None,
+    note: str = "",
+    *,
+    confirm: bool = False,
+    restart: bool = False,
 ) -> Calibration:
     """Record a heat capacity measured elsewhere on a given date (staff), audited, and commit."""
     from webapp.services.calibrations import enter_heat_capacity as enter

@@ -161,8 +161,13 @@ def create_bench(
     resolution = parse_resolution(thermometer_resolution)
     if session.scalar(sa.select(Bench.id).where(Bench.section_id == section.id, Bench.name == name)):
         raise Conflict(f"section {section.name!r} has a bench named {name!r} already", field="name")
-    bench = Bench(section=section, name=name, calorimeter_id=calorimeter_id, thermometer=thermometer,
-                  thermometer_resolution_k=resolution)
+    bench = Bench(
+        section=section,
+        name=name,
+        calorimeter_id=calorimeter_id,
+        thermometer=thermometer,
+        thermometer_resolution_k=resolution,
+    )
     session.add(bench)
     session.commit()
     return bench
@@ -209,8 +214,9 @@ def _roster_rows(text: str, source: str) -> tuple[list[_Row], list[str]]:
         raise RosterInvalid([f"{source}, line 1: empty file; expected the columns {', '.join(ROSTER_COLUMNS)}"])
     missing = [c for c in ("name", "email", "role") if c not in header]
     if missing:
-        raise RosterInvalid([f"{source}, line 1: missing column(s) {', '.join(missing)}; "
-                             f"expected {', '.join(ROSTER_COLUMNS)}"])
+        raise RosterInvalid(
+            [f"{source}, line 1: missing column(s) {', '.join(missing)}; expected {', '.join(ROSTER_COLUMNS)}"]
+        )
     reader.fieldnames = header
     rows: list[_Row] = []
     errors: list[str] = []
@@ -225,13 +231,26 @@ def _roster_rows(text: str, source: str) -> tuple[list[_Row], list[str]]:
         vals = {k: (raw.get(k) or "").strip() for k in ROSTER_COLUMNS}
         if not any(vals.values()):
             continue
-        rows.append(_Row(line, vals["course"], vals["section"], vals["group"], vals["name"],
-                         vals["email"].lower(), vals["role"].lower()))
+        rows.append(
+            _Row(
+                line,
+                vals["course"],
+                vals["section"],
+                vals["group"],
+                vals["name"],
+                vals["email"].lower(),
+                vals["role"].lower(),
+            )
+        )
     return rows, errors
 
 
 def import_roster(
-    session: so.Session, actor: Person, text: str, *, source: str = "roster.csv",
+    session: so.Session,
+    actor: Person,
+    text: str,
+    *,
+    source: str = "roster.csv",
     password_method: str = DEFAULT_PASSWORD_METHOD,
 ) -> RosterReport:
     """Import a roster CSV (coordinators only): people, and the courses, sections and groups they name.
@@ -245,8 +264,9 @@ def import_roster(
     rows, errors = _roster_rows(text, source)
     seen: dict[str, int] = {}
     courses = {c.name: c for c in session.scalars(sa.select(Course))}
-    sections = {(s.course.name, s.name): s for s in session.scalars(sa.select(Section).options(
-        so.joinedload(Section.course)))}
+    sections = {
+        (s.course.name, s.name): s for s in session.scalars(sa.select(Section).options(so.joinedload(Section.course)))
+    }
     groups = {g.name: g for g in session.scalars(sa.select(Group).options(so.joinedload(Group.section)))}
     people = {p.email: p for p in session.scalars(sa.select(Person).where(Person.email.in_([r.email for r in rows])))}
     planned_groups: dict[str, tuple[str, str]] = {}
@@ -262,8 +282,12 @@ def import_roster(
             errors.append(f"{where}, column role: expected one of {', '.join(ROLES)}, got {r.role!r}")
         if not r.name:
             errors.append(f"{where}, column name: must not be empty")
-        for col, val, lim in (("course", r.course, 120), ("section", r.section, 120), ("group", r.group, 120),
-                              ("name", r.name, 120)):
+        for col, val, lim in (
+            ("course", r.course, 120),
+            ("section", r.section, 120),
+            ("group", r.group, 120),
+            ("name", r.name, 120),
+        ):
             if len(val) > lim:
                 errors.append(f"{where}, column {col}: at most {lim} characters")
         if r.group and not (r.course and r.section):
@@ -277,8 +301,10 @@ def import_roster(
             g = groups.get(r.group)
             if g is not None and (g.section is None or (g.section.course.name, g.section.name) != key):
                 other = f"section {g.section.name!r}" if g.section else "no section"
-                errors.append(f"{where}, column group: group {r.group!r} exists already in {other}; "
-                              "group names are unique in the notebook")
+                errors.append(
+                    f"{where}, column group: group {r.group!r} exists already in {other}; "
+                    "group names are unique in the notebook"
+                )
             elif planned_groups.setdefault(r.group, key) != key:
                 errors.append(f"{where}, column group: group {r.group!r} is given another section on an earlier line")
         p = people.get(r.email)
@@ -313,8 +339,15 @@ def import_roster(
                 report.groups_created.append(r.group)
         p = people.get(r.email)
         if p is None:
-            session.add(Person(email=r.email, name=r.name, role=r.role, group=group,
-                               password_hash=hash_password(secrets.token_urlsafe(24), password_method)))
+            session.add(
+                Person(
+                    email=r.email,
+                    name=r.name,
+                    role=r.role,
+                    group=group,
+                    password_hash=hash_password(secrets.token_urlsafe(24), password_method),
+                )
+            )
             report.people_created.append(r.email)
         elif group is not None and p.group_id != getattr(group, "id", None):
             p.group = group

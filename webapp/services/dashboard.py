@@ -146,13 +146,37 @@ def _query(section_ids: list[int]) -> sa.Select[Any]:
     res_in = sa.orm.aliased(RunInput)
     return (
         sa.select(
-            Run.id, Run.title, Run.kind, Run.bench, Run.calibration_id, Run.calorimeter_id, Run.created_at,
-            Group.name, Group.section_id, Result.main, Result.molar_enthalpy_kj_mol, Result.molar_enthalpy_kj_mol_std,
-            Result.calorimeter_heat_capacity_j_k, Result.calorimeter_heat_capacity_j_k_std,
-            Result.expanded_uncertainty, Result.corrected_delta_t_k, Result.warnings, Result.comparison,
-            Result.id, Result.created_at, res_in.value, RunReview.withdrawn, RunReview.withdrawn_reason,
-            RunReview.excluded, RunReview.excluded_reason, RunReview.accepted, RunReview.mark_points,
-            RunReview.mark_reason, Group.id, included_in_statistics().label("included"), Result.checks,
+            Run.id,
+            Run.title,
+            Run.kind,
+            Run.bench,
+            Run.calibration_id,
+            Run.calorimeter_id,
+            Run.created_at,
+            Group.name,
+            Group.section_id,
+            Result.main,
+            Result.molar_enthalpy_kj_mol,
+            Result.molar_enthalpy_kj_mol_std,
+            Result.calorimeter_heat_capacity_j_k,
+            Result.calorimeter_heat_capacity_j_k_std,
+            Result.expanded_uncertainty,
+            Result.corrected_delta_t_k,
+            Result.warnings,
+            Result.comparison,
+            Result.id,
+            Result.created_at,
+            res_in.value,
+            RunReview.withdrawn,
+            RunReview.withdrawn_reason,
+            RunReview.excluded,
+            RunReview.excluded_reason,
+            RunReview.accepted,
+            RunReview.mark_points,
+            RunReview.mark_reason,
+            Group.id,
+            included_in_statistics().label("included"),
+            Result.checks,
         )
         .outerjoin(RunReview, RunReview.run_id == Run.id)
         .join(Group, Group.id == Run.group_id)
@@ -200,15 +224,16 @@ def _digest(budget: list[Any] | None) -> tuple[tuple[float, float], tuple[str, s
     return shared_type_b(budget_lines(lines)), largest
 
 
-def _budget_digests(session: so.Session, keys: list[tuple[int, Any]]
-                    ) -> dict[tuple[int, Any], tuple[tuple[float, float], tuple[str, str, float]]]:
+def _budget_digests(
+    session: so.Session, keys: list[tuple[int, Any]]
+) -> dict[tuple[int, Any], tuple[tuple[float, float], tuple[str, str, float]]]:
     """Return the budget digest of each (result id, created at), reading only budgets not seen before."""
     db = str(session.get_bind().url)
     with _DIGESTS_LOCK:
         out = {k: _DIGESTS[(db, *k)] for k in keys if (db, *k) in _DIGESTS}
     missing = [k for k in keys if k not in out]
     for start in range(0, len(missing), 500):
-        chunk = {rid: at for rid, at in missing[start:start + 500]}
+        chunk = {rid: at for rid, at in missing[start : start + 500]}
         for rid, budget in session.execute(sa.select(Result.id, Result.budget).where(Result.id.in_(chunk))):
             out[(rid, chunk[rid])] = _digest(budget)
     with _DIGESTS_LOCK:
@@ -226,16 +251,62 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
     first_cal = _first_calibrations(session, {r[5] for r in raw if r[5] is not None})
     rows: list[Row] = []
     digests = _budget_digests(session, [(r[18], r[19]) for r in raw])
-    for (rid, title, kind, bench, cal_id, calo_id, created, gname, sid, main, h, hu, c, cu, U, dT, warnings,
-         comparison, result_id, result_at, resolution, withdrawn, w_reason, excluded, x_reason, accepted, mark_points,
-         mark_reason, group_id, included, checks) in raw:
+    for (
+        rid,
+        title,
+        kind,
+        bench,
+        cal_id,
+        calo_id,
+        created,
+        gname,
+        sid,
+        main,
+        h,
+        hu,
+        c,
+        cu,
+        U,
+        dT,
+        warnings,
+        comparison,
+        result_id,
+        result_at,
+        resolution,
+        withdrawn,
+        w_reason,
+        excluded,
+        x_reason,
+        accepted,
+        mark_points,
+        mark_reason,
+        group_id,
+        included,
+        checks,
+    ) in raw:
         value, u = (h, hu) if main == "molar_enthalpy" else (c, cu)
         comp = comparison or {}
         vd = verdict(comp)
         en = vd.En if vd is not None else None
-        row = Row(rid, title, kind, sid, names.get(sid, ""), gname, bench or "", _measurement(kind, comp),
-                  _unit(main), value, u, U, dT, resolution, en, vd.reference if vd else None,
-                  vd.U_reference if vd else None)
+        row = Row(
+            rid,
+            title,
+            kind,
+            sid,
+            names.get(sid, ""),
+            gname,
+            bench or "",
+            _measurement(kind, comp),
+            _unit(main),
+            value,
+            u,
+            U,
+            dT,
+            resolution,
+            en,
+            vd.reference if vd else None,
+            vd.U_reference if vd else None,
+        )
         row.verdict = vd
         row.included = bool(included)
         if withdrawn:
@@ -243,19 +314,29 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
         elif excluded:
             row.status, row.status_reason = "excluded", x_reason or ""
         row.group_id = group_id
-        row.mark = run_mark(schemes[sid], vd, included=row.included, status=row.status, override=mark_points,
-                            override_reason=mark_reason or "")
+        row.mark = run_mark(
+            schemes[sid],
+            vd,
+            included=row.included,
+            status=row.status,
+            override=mark_points,
+            override_reason=mark_reason or "",
+        )
         if run_flagged(SimpleNamespace(checks=checks)) and not accepted:
             row.flags.append("check")
-            row.notes["check"] = (flag_text(checks) + " (left out of the statistics until staff accept it)")
+            row.notes["check"] = flag_text(checks) + " (left out of the statistics until staff accept it)"
             row.included = False
         if vd is not None and not vd.satisfactory:
             row.flags.append("En")
-            row.notes["En"] = (f"E_n = {en:+.2f} against the {vd.label}: the result and the reference differ by more "
-                               "than their uncertainties allow")
+            row.notes["En"] = (
+                f"E_n = {en:+.2f} against the {vd.label}: the result and the reference differ by more "
+                "than their uncertainties allow"
+            )
         if resolution is not None and abs(dT) < 10 * resolution:
             row.flags.append("small-dT")
-            row.notes["small-dT"] = f"|ΔT| = {fmt.number(abs(dT), 'K')} is under 10 × the resolution {fmt.number(resolution, 'K', trim=True)}"
+            row.notes["small-dT"] = (
+                f"|ΔT| = {fmt.number(abs(dT), 'K')} is under 10 × the resolution {fmt.number(resolution, 'K', trim=True)}"
+            )
         for w in warnings or []:
             if w.startswith("large drift") and "drift" not in row.flags:
                 row.flags.append("drift")
@@ -267,9 +348,9 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
             first = first_cal.get(calo_id) if calo_id is not None else None
             if first is None or first > created:
                 row.flags.append("no-calibration")
-                row.notes["no-calibration"] = ("the calorimeter's heat capacity came from the run file, and "
-                                               + ("no calorimeter is named" if calo_id is None else
-                                                  "the calorimeter had no calibration on record"))
+                row.notes["no-calibration"] = "the calorimeter's heat capacity came from the run file, and " + (
+                    "no calorimeter is named" if calo_id is None else "the calorimeter had no calibration on record"
+                )
         row.type_b, (row.top_input, row.top_label, row.top_share) = digests[(result_id, result_at)]
         rows.append(row)
     _overdue_flags(session, rows)
@@ -284,8 +365,12 @@ def _overdue_flags(session: so.Session, rows: list[Row]) -> None:
     by_id = {r.run_id: r for r in rows}
     if not by_id:
         return
-    q = (sa.select(Run, Calibration, Calorimeter).join(Calibration, Run.calibration_id == Calibration.id)
-         .outerjoin(Calorimeter, Run.calorimeter_id == Calorimeter.id).where(Run.id.in_(list(by_id))))
+    q = (
+        sa.select(Run, Calibration, Calorimeter)
+        .join(Calibration, Run.calibration_id == Calibration.id)
+        .outerjoin(Calorimeter, Run.calorimeter_id == Calorimeter.id)
+        .where(Run.id.in_(list(by_id)))
+    )
     for run, cal, calo in session.execute(q):
         note = overdue_note(measured_at(run).date(), cal, calo, DUE_DAYS)
         if note:
@@ -305,8 +390,10 @@ def _grubbs_flags(rows: list[Row]) -> None:
         if g.is_outlier:
             m = members[g.index]
             m.flags.append("outlier")
-            m.notes["outlier"] = (f"G = {g.G:.2f} > G_crit = {g.G_crit:.2f} among {g.n} results "
-                                  f"(section mean {fmt.number(g.mean, m.unit, digits=4)})")
+            m.notes["outlier"] = (
+                f"G = {g.G:.2f} > G_crit = {g.G_crit:.2f} among {g.n} results "
+                f"(section mean {fmt.number(g.mean, m.unit, digits=4)})"
+            )
 
 
 def statistics(rows: list[Row]) -> list[Stats]:
@@ -330,9 +417,13 @@ def statistics(rows: list[Row]) -> list[Stats]:
             st.reference = sum(m.verdict.reference for m in judged) / len(judged)
             st.reference_U = sum(m.verdict.U_reference for m in judged) / len(judged)
             bases = {m.verdict.basis for m in judged}
-            st.reference_label = ("reference at the runs' conditions (mean)" if bases == {"conditions"} else
-                                  "reference as published" if bases == {"published"} else
-                                  "reference at the runs' conditions where known, else as published (mean)")
+            st.reference_label = (
+                "reference at the runs' conditions (mean)"
+                if bases == {"conditions"}
+                else "reference as published"
+                if bases == {"published"}
+                else "reference at the runs' conditions where known, else as published (mean)"
+            )
             st.published = judged[0].verdict.published
             st.published_state = judged[0].verdict.published_state
         try:
@@ -366,12 +457,14 @@ def _build(title: str, rows: list[Row], sort: str, descending: bool) -> Dashboar
     rows.sort(key=_sort_key(sort), reverse=descending)
     counts = Counter(f for r in rows for f in r.flags)
     common, feedback = split_feedback(rows)
-    return Dashboard(title, rows, statistics(rows), feedback, {f: counts.get(f, 0) for f in FLAGS},
-                     sort, descending, common)
+    return Dashboard(
+        title, rows, statistics(rows), feedback, {f: counts.get(f, 0) for f in FLAGS}, sort, descending, common
+    )
 
 
-def section_dashboard(session: so.Session, actor: Person, section_id: int, *, sort: str = "group",
-                      descending: bool = False) -> Dashboard:
+def section_dashboard(
+    session: so.Session, actor: Person, section_id: int, *, sort: str = "group", descending: bool = False
+) -> Dashboard:
     """Return the dashboard of a section (students: only their own section)."""
     section = get_section(session, actor, section_id)
     title = f"{section.course.name} · {section.name}"
@@ -388,8 +481,9 @@ def _for_viewer(actor: Person, rows: list[Row]) -> list[Row]:
     return rows
 
 
-def course_dashboard(session: so.Session, actor: Person, course_id: int, *, sort: str = "section",
-                     descending: bool = False) -> Dashboard:
+def course_dashboard(
+    session: so.Session, actor: Person, course_id: int, *, sort: str = "section", descending: bool = False
+) -> Dashboard:
     """Return the dashboard of a whole course (coordinators and technicians); Grubbs stays per section."""
     require_staff(actor, "see a whole course's dashboard")
     course = get_course(session, course_id)

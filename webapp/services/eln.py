@@ -52,8 +52,15 @@ RESULT_NAME = "result.json"
 REPORT_NAME = "report.html"
 #: most runs in one archive (a section of a large class fits)
 MAX_RUNS = 5000
-_MEDIA = {".toml": "application/toml", ".csv": "text/csv", ".json": "application/json", ".html": "text/html",
-          ".svg": "image/svg+xml", ".txt": "text/plain", ".pdf": "application/pdf"}
+_MEDIA = {
+    ".toml": "application/toml",
+    ".csv": "text/csv",
+    ".json": "application/json",
+    ".html": "text/html",
+    ".svg": "image/svg+xml",
+    ".txt": "text/plain",
+    ".pdf": "application/pdf",
+}
 
 
 @dataclasses.dataclass
@@ -71,10 +78,18 @@ class Archive:
         """Write a file under ``folder`` and add its ``File`` entity; return its id."""
         path = f"{folder}{name}"
         self.zip.writestr(f"{self.root}/{path}", data)
-        media = _MEDIA.get(name[name.rfind("."):].lower(), "application/octet-stream")
-        self.graph.append({"@id": path, "@type": "File", "name": title, "encodingFormat": media,
-                           "contentType": media, "contentSize": str(len(data)),
-                           "sha256": hashlib.sha256(data).hexdigest()})
+        media = _MEDIA.get(name[name.rfind(".") :].lower(), "application/octet-stream")
+        self.graph.append(
+            {
+                "@id": path,
+                "@type": "File",
+                "name": title,
+                "encodingFormat": media,
+                "contentType": media,
+                "contentSize": str(len(data)),
+                "sha256": hashlib.sha256(data).hexdigest(),
+            }
+        )
         self.parts.append(path)
         self.files.append(path)
         return path
@@ -111,7 +126,8 @@ def summary_text(run: Run, doc: dict[str, Any]) -> str:
         lines.append(
             f"{res['main'].replace('_', ' ')} = {res['value']:.6g} {res['unit']}, expanded uncertainty "
             f"U = {res['expanded_uncertainty']:.2g} {res['unit']} (coverage factor k = {res['coverage_factor']:.2f}, "
-            f"about 95 % coverage; standard uncertainty {main.get('standard_uncertainty', 0):.2g} {res['unit']}).")
+            f"about 95 % coverage; standard uncertainty {main.get('standard_uncertainty', 0):.2g} {res['unit']})."
+        )
         lines.append(f"Corrected temperature change by the method '{res['options']['method']}'.")
         comp = res.get("comparison")
         if isinstance(comp, dict) and comp.get("En") is not None:
@@ -121,13 +137,13 @@ def summary_text(run: Run, doc: dict[str, Any]) -> str:
         for c in res.get("cautions") or []:
             if isinstance(c, dict) and c.get("substance") != "general":
                 lines.append(f"Caution, {c.get('substance')}: {'; '.join(c.get('hazard_statements') or [])}.")
-    lines.append("Wear eye protection; follow the lab's own safety rules, local codes and the supplier's "
-                 "safety data sheet.")
+    lines.append(
+        "Wear eye protection; follow the lab's own safety rules, local codes and the supplier's safety data sheet."
+    )
     return " ".join(lines)
 
 
-def _export_doc(run: Run, doc: dict[str, Any], run_path: str, readings_path: str,
-                audit: list[dict[str, Any]]) -> bytes:
+def _export_doc(run: Run, doc: dict[str, Any], run_path: str, readings_path: str, audit: list[dict[str, Any]]) -> bytes:
     full = doc["files"]
     doc = dict(doc, files={})  # without the files' text: they sit beside it
     for which, path in (("run_file", run_path), ("readings", readings_path)):
@@ -145,10 +161,18 @@ def review_document(run: Run) -> dict[str, Any] | None:
     r = run.review
     if r is None:
         return None
-    return {"withdrawn": r.withdrawn, "withdrawn_reason": r.withdrawn_reason, "excluded": r.excluded,
-            "excluded_reason": r.excluded_reason, "accepted": r.accepted, "accepted_reason": r.accepted_reason,
-            "mark_points": r.mark_points, "mark_reason": r.mark_reason, "updated_at": iso(r.updated_at),
-            "updated_by": r.updated_by_id and _who_id(run, r.updated_by_id)}
+    return {
+        "withdrawn": r.withdrawn,
+        "withdrawn_reason": r.withdrawn_reason,
+        "excluded": r.excluded,
+        "excluded_reason": r.excluded_reason,
+        "accepted": r.accepted,
+        "accepted_reason": r.accepted_reason,
+        "mark_points": r.mark_points,
+        "mark_reason": r.mark_reason,
+        "updated_at": iso(r.updated_at),
+        "updated_by": r.updated_by_id and _who_id(run, r.updated_by_id),
+    }
 
 
 def _who_id(run: Run, person_id: int) -> dict[str, str] | None:
@@ -175,10 +199,18 @@ def add_run(archive: Archive, run: Run, audit: list[dict[str, Any]], report: Any
     first = len(archive.parts)
     run_path = archive.add_file(folder, run_name, run.run_toml.encode("utf-8"), "Run file (as uploaded)")
     readings_path = archive.add_file(folder, readings_name, bytes(run.readings_raw), "Temperature log (as uploaded)")
-    archive.add_file(folder, RESULT_NAME, json.dumps(doc["result"], ensure_ascii=False).encode("utf-8"),
-                     "Current result with budget, comparison and cautions (JSON)")
-    archive.add_file(folder, EXPORT_NAME, _export_doc(run, doc, run_path, readings_path, audit),
-                     "Full cupcal export of the run: every result, inputs, provenance and audit trail")
+    archive.add_file(
+        folder,
+        RESULT_NAME,
+        json.dumps(doc["result"], ensure_ascii=False).encode("utf-8"),
+        "Current result with budget, comparison and cautions (JSON)",
+    )
+    archive.add_file(
+        folder,
+        EXPORT_NAME,
+        _export_doc(run, doc, run_path, readings_path, audit),
+        "Full cupcal export of the run: every result, inputs, provenance and audit trail",
+    )
     for name, data in (report(run) if report is not None else {}).items():
         archive.add_file(folder, name, data, f"Printable report ({name.rsplit('.', 1)[-1].upper()})")
     for name, svg in plots_of(run, current).items():
@@ -192,11 +224,18 @@ def add_run(archive: Archive, run: Run, audit: list[dict[str, Any]], report: Any
 def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, files: list[str]) -> dict[str, Any]:
     res = doc["result"]
     entity: dict[str, Any] = {
-        "@id": folder, "@type": "Dataset", "name": run.title or run.run_file_name,
-        "description": summary_text(run, doc), "author": archive.person(run.author),
-        "dateCreated": iso(run.created_at), "dateModified": iso(_modified(run)),
-        "keywords": ["calorimetry", run.kind], "hasPart": [{"@id": f} for f in files],
-        "cupcal:kind": run.kind, "cupcal:runId": run.id, "cupcal:locked": run.locked,
+        "@id": folder,
+        "@type": "Dataset",
+        "name": run.title or run.run_file_name,
+        "description": summary_text(run, doc),
+        "author": archive.person(run.author),
+        "dateCreated": iso(run.created_at),
+        "dateModified": iso(_modified(run)),
+        "keywords": ["calorimetry", run.kind],
+        "hasPart": [{"@id": f} for f in files],
+        "cupcal:kind": run.kind,
+        "cupcal:runId": run.id,
+        "cupcal:locked": run.locked,
     }
     if run.operator:
         entity["cupcal:operator"] = run.operator
@@ -206,11 +245,16 @@ def _run_dataset(archive: Archive, run: Run, doc: dict[str, Any], folder: str, f
         entity["cupcal:calorimeter"] = run.calorimeter.name
     if res is not None:
         entity["variableMeasured"] = {
-            "@id": f"#result-{run.id}", "@type": "PropertyValue", "name": res["main"],
-            "value": res["value"], "unitText": res["unit"], "measurementTechnique": res["options"]["method"],
+            "@id": f"#result-{run.id}",
+            "@type": "PropertyValue",
+            "name": res["main"],
+            "value": res["value"],
+            "unitText": res["unit"],
+            "measurementTechnique": res["options"]["method"],
             "cupcal:standardUncertainty": res["standard_uncertainty"],
             "cupcal:expandedUncertainty": res["expanded_uncertainty"],
-            "cupcal:coverageFactor": res["coverage_factor"]}
+            "cupcal:coverageFactor": res["coverage_factor"],
+        }
     return entity
 
 
@@ -225,14 +269,21 @@ def calibration_document(c: Calibration) -> dict[str, Any]:
     """Return one calibration with what defines it; ``id`` is its id here, which a pool's members name."""
     return {
         "id": c.id,
-        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
-                          "unit": "J/K"},
-        "taken_at": iso(c.taken_at), "created_at": iso(c.created_at), "note": c.note,
+        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std, "unit": "J/K"},
+        "taken_at": iso(c.taken_at),
+        "created_at": iso(c.created_at),
+        "note": c.note,
         "created_by": _who(c.created_by),
-        "from_run": c.result.run_id if c.result is not None else None, "from_result": c.result_id,
-        "status": c.status, "approved_by": _who(c.approved_by), "approved_at": iso(c.approved_at),
-        "withdrawn_by": _who(c.withdrawn_by), "withdrawn_at": iso(c.withdrawn_at),
-        "withdrawn_reason": c.withdrawn_reason, "restart": c.restart, "in_force_at": iso(c.in_force_at),
+        "from_run": c.result.run_id if c.result is not None else None,
+        "from_result": c.result_id,
+        "status": c.status,
+        "approved_by": _who(c.approved_by),
+        "approved_at": iso(c.approved_at),
+        "withdrawn_by": _who(c.withdrawn_by),
+        "withdrawn_at": iso(c.withdrawn_at),
+        "withdrawn_reason": c.withdrawn_reason,
+        "restart": c.restart,
+        "in_force_at": iso(c.in_force_at),
         "pool": c.pool,
     }
 
@@ -240,9 +291,14 @@ def calibration_document(c: Calibration) -> dict[str, Any]:
 def calorimeter_document(cal: Calorimeter) -> dict[str, Any]:
     """Return a calorimeter with its calibrations, oldest first, as JSON-ready data."""
     return {
-        "format": CALORIMETER_FORMAT, "format_version": CALORIMETER_VERSION,
-        "name": cal.name, "parts": cal.parts, "location": cal.location, "created_at": iso(cal.created_at),
-        "calibration_interval_days": cal.calibration_interval_days, "vessel_type": cal.vessel_type,
+        "format": CALORIMETER_FORMAT,
+        "format_version": CALORIMETER_VERSION,
+        "name": cal.name,
+        "parts": cal.parts,
+        "location": cal.location,
+        "created_at": iso(cal.created_at),
+        "calibration_interval_days": cal.calibration_interval_days,
+        "vessel_type": cal.vessel_type,
         "calibrations": [calibration_document(c) for c in sorted(cal.calibrations, key=lambda c: (c.taken_at, c.id))],
         "audit_trail": calorimeter_trail(cal),
     }
@@ -254,9 +310,17 @@ def calorimeter_trail(cal: Calorimeter) -> list[dict[str, Any]]:
     if session is None:
         return []
     ids = [c.id for c in cal.calibrations]
-    rows = session.scalars(sa.select(AuditEntry).options(so.joinedload(AuditEntry.person)).where(sa.or_(
-        sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
-        sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(ids)))).order_by(AuditEntry.id))
+    rows = session.scalars(
+        sa.select(AuditEntry)
+        .options(so.joinedload(AuditEntry.person))
+        .where(
+            sa.or_(
+                sa.and_(AuditEntry.entity == "calorimeter", AuditEntry.entity_id == cal.id),
+                sa.and_(AuditEntry.entity == "calibration", AuditEntry.entity_id.in_(ids)),
+            )
+        )
+        .order_by(AuditEntry.id)
+    )
     return [entry_as_dict(e) for e in rows]
 
 
@@ -264,22 +328,35 @@ def add_calorimeter(archive: Archive, cal: Calorimeter) -> None:
     """Add a calorimeter's folder (its calibrations) and its ``Dataset``."""
     folder = f"calorimeter-{cal.id}/"
     doc = calorimeter_document(cal)
-    path = archive.add_file(folder, CALORIMETER_NAME, json.dumps(doc, ensure_ascii=False).encode(),
-                            "Calorimeter and its calibrations (JSON)")
+    path = archive.add_file(
+        folder,
+        CALORIMETER_NAME,
+        json.dumps(doc, ensure_ascii=False).encode(),
+        "Calorimeter and its calibrations (JSON)",
+    )
     archive.parts.remove(path)
     archive.parts.append(folder)
-    history = "; ".join(f"{c['heat_capacity']['value']:.4g} ± {c['heat_capacity']['standard_uncertainty']:.2g} J/K "
-                        f"(standard uncertainty) taken {c['taken_at'][:10]}" for c in doc["calibrations"])
+    history = "; ".join(
+        f"{c['heat_capacity']['value']:.4g} ± {c['heat_capacity']['standard_uncertainty']:.2g} J/K "
+        f"(standard uncertainty) taken {c['taken_at'][:10]}"
+        for c in doc["calibrations"]
+    )
     created_by = next((c for c in cal.calibrations if c.created_by is not None), None)
-    archive.graph.append({
-        "@id": folder, "@type": "Dataset", "name": f"Calorimeter {cal.name}",
-        "description": f"Calorimeter {cal.name} ({cal.parts or 'parts not given'}; {cal.location or 'no location'}). "
-                       f"Calibrations: {history or 'none'}.",
-        "author": archive.person(created_by.created_by) if created_by else None,
-        "dateCreated": iso(cal.created_at),
-        "dateModified": iso(max([cal.created_at] + [c.created_at for c in cal.calibrations])),
-        "hasPart": [{"@id": path}], "cupcal:calorimeter": cal.name, "cupcal:vesselType": cal.vessel_type,
-    })
+    archive.graph.append(
+        {
+            "@id": folder,
+            "@type": "Dataset",
+            "name": f"Calorimeter {cal.name}",
+            "description": f"Calorimeter {cal.name} ({cal.parts or 'parts not given'}; {cal.location or 'no location'}). "
+            f"Calibrations: {history or 'none'}.",
+            "author": archive.person(created_by.created_by) if created_by else None,
+            "dateCreated": iso(cal.created_at),
+            "dateModified": iso(max([cal.created_at] + [c.created_at for c in cal.calibrations])),
+            "hasPart": [{"@id": path}],
+            "cupcal:calorimeter": cal.name,
+            "cupcal:vesselType": cal.vessel_type,
+        }
+    )
     if archive.graph[-1]["author"] is None:
         del archive.graph[-1]["author"]
 
@@ -291,13 +368,30 @@ def finish(archive: Archive, description: str) -> None:
     """Write the metadata (the descriptor, the root dataset, every entity) into the archive."""
     now = iso(_utc_now())
     graph: list[dict[str, Any]] = [
-        {"@id": METADATA, "@type": "CreativeWork", "about": {"@id": "./"}, "conformsTo": {"@id": PROFILE},
-         "dateCreated": now, "sdPublisher": {"@id": "#cupcal"}},
-        {"@id": "./", "@type": "Dataset", "name": archive.root, "description": description,
-         "datePublished": now, "license": {"@id": "#license"},
-         "hasPart": [{"@id": p} for p in archive.parts + archive.files]},
-        {"@id": "#cupcal", "@type": ["SoftwareApplication", "Organization"], "name": "cupcal",
-         "version": __version__, "softwareVersion": __version__},
+        {
+            "@id": METADATA,
+            "@type": "CreativeWork",
+            "about": {"@id": "./"},
+            "conformsTo": {"@id": PROFILE},
+            "dateCreated": now,
+            "sdPublisher": {"@id": "#cupcal"},
+        },
+        {
+            "@id": "./",
+            "@type": "Dataset",
+            "name": archive.root,
+            "description": description,
+            "datePublished": now,
+            "license": {"@id": "#license"},
+            "hasPart": [{"@id": p} for p in archive.parts + archive.files],
+        },
+        {
+            "@id": "#cupcal",
+            "@type": ["SoftwareApplication", "Organization"],
+            "name": "cupcal",
+            "version": __version__,
+            "softwareVersion": __version__,
+        },
         {"@id": "#license", "@type": "CreativeWork", "name": "as set by the lab that wrote this archive"},
     ]
     graph += archive.graph + list(archive.people.values())
@@ -307,11 +401,16 @@ def finish(archive: Archive, description: str) -> None:
 
 def _load(query: sa.Select[tuple[Run]]) -> sa.Select[tuple[Run]]:
     return query.options(
-        so.undefer_group("files"), so.undefer_group("series"),
+        so.undefer_group("files"),
+        so.undefer_group("series"),
         so.selectinload(Run.results).undefer_group("detail").selectinload(Result.created_by),
-        so.selectinload(Run.inputs), so.joinedload(Run.author), so.joinedload(Run.locked_by),
-        so.joinedload(Run.group), so.joinedload(Run.calorimeter),
-        so.joinedload(Run.calibration).joinedload(Calibration.calorimeter), so.selectinload(Run.review),
+        so.selectinload(Run.inputs),
+        so.joinedload(Run.author),
+        so.joinedload(Run.locked_by),
+        so.joinedload(Run.group),
+        so.joinedload(Run.calorimeter),
+        so.joinedload(Run.calibration).joinedload(Calibration.calorimeter),
+        so.selectinload(Run.review),
     ).order_by(Run.id)
 
 
@@ -319,9 +418,12 @@ def audit_trails(session: so.Session, run_ids: list[int]) -> dict[int, list[dict
     """Return every run's audit trail (oldest first), by run id, with the people's e-mails."""
     out: dict[int, list[dict[str, Any]]] = {i: [] for i in run_ids}
     for chunk in range(0, len(run_ids), 500):
-        rows = session.scalars(sa.select(AuditEntry).options(so.joinedload(AuditEntry.person)).where(
-            AuditEntry.entity == "run", AuditEntry.entity_id.in_(run_ids[chunk:chunk + 500]))
-            .order_by(AuditEntry.id))
+        rows = session.scalars(
+            sa.select(AuditEntry)
+            .options(so.joinedload(AuditEntry.person))
+            .where(AuditEntry.entity == "run", AuditEntry.entity_id.in_(run_ids[chunk : chunk + 500]))
+            .order_by(AuditEntry.id)
+        )
         for e in rows:
             d = entry_as_dict(e)
             d["email"] = e.person.email if e.person else None
@@ -329,8 +431,14 @@ def audit_trails(session: so.Session, run_ids: list[int]) -> dict[int, list[dict
     return out
 
 
-def build(session: so.Session, runs: Iterable[Run], calorimeters: Iterable[Calorimeter], root: str,
-          description: str, report: Any = None) -> bytes:
+def build(
+    session: so.Session,
+    runs: Iterable[Run],
+    calorimeters: Iterable[Calorimeter],
+    root: str,
+    description: str,
+    report: Any = None,
+) -> bytes:
     """Return an archive (zip bytes) of ``runs`` and ``calorimeters`` under the folder ``root``."""
     runs = list(runs)
     if len(runs) > MAX_RUNS:
@@ -372,12 +480,16 @@ def export_section(session: so.Session, actor: Person, section_id: int, report: 
     return root + ".eln", build(session, runs, [], root, text, report)
 
 
-def export_calorimeter(session: so.Session, actor: Person, calorimeter_id: int,
-                       report: Any = None) -> tuple[str, bytes]:
+def export_calorimeter(
+    session: so.Session, actor: Person, calorimeter_id: int, report: Any = None
+) -> tuple[str, bytes]:
     """Return (file name, archive) of a calorimeter, its calibrations and its calibration runs."""
     cal = get_calorimeter(session, calorimeter_id)
-    from_runs = sa.select(Result.run_id).join(Calibration, Calibration.result_id == Result.id).where(
-        Calibration.calorimeter_id == cal.id)
+    from_runs = (
+        sa.select(Result.run_id)
+        .join(Calibration, Calibration.result_id == Result.id)
+        .where(Calibration.calorimeter_id == cal.id)
+    )
     runs = _visible(session, actor, Run.id.in_(from_runs))
     root = f"cupcal-calorimeter-{cal.id}"
     return root + ".eln", build(session, runs, [cal], root, f"Calorimeter {cal.name} with its calibrations", report)
@@ -387,8 +499,14 @@ def export_notebook(session: so.Session, actor: Person, report: Any = None) -> t
     """Return (file name, archive) of every calorimeter and every run ``actor`` may see."""
     cals = list(session.scalars(sa.select(Calorimeter).order_by(Calorimeter.id)))
     runs = _visible(session, actor, sa.true())
-    return "cupcal-notebook.eln", build(session, runs, cals, "cupcal-notebook",
-                                        f"Every calorimeter and run of a cupcal notebook ({len(runs)} runs)", report)
+    return "cupcal-notebook.eln", build(
+        session,
+        runs,
+        cals,
+        "cupcal-notebook",
+        f"Every calorimeter and run of a cupcal notebook ({len(runs)} runs)",
+        report,
+    )
 
 
 def report_renderer(pdf: bool = False) -> Any:
@@ -399,8 +517,9 @@ def report_renderer(pdf: bool = False) -> Any:
     from webapp.exports.report import report_html, report_pdf
 
     def render(run: Run) -> dict[str, bytes]:
-        out = {REPORT_NAME: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "")
-               .encode("utf-8")}
+        out = {
+            REPORT_NAME: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "").encode("utf-8")
+        }
         if pdf:
             out["report.pdf"] = report_pdf(run)
         return out

@@ -92,14 +92,18 @@ class ImportReport:
     @property
     def summary(self) -> str:
         """Return a one-line summary."""
-        return (f"{self.count('stored')} stored, {self.count('unchanged')} unchanged (already stored), "
-                f"{self.count('error')} with errors, {self.count('ignored')} ignored")
+        return (
+            f"{self.count('stored')} stored, {self.count('unchanged')} unchanged (already stored), "
+            f"{self.count('error')} with errors, {self.count('ignored')} ignored"
+        )
 
     def as_dict(self) -> dict[str, Any]:
         """Return the report as JSON-ready data."""
-        return {"summary": self.summary,
-                "counts": {k: self.count(k) for k in ("stored", "unchanged", "error", "ignored")},
-                "items": [dataclasses.asdict(i) for i in self.items]}
+        return {
+            "summary": self.summary,
+            "counts": {k: self.count(k) for k in ("stored", "unchanged", "error", "ignored")},
+            "items": [dataclasses.asdict(i) for i in self.items],
+        }
 
 
 # ----------------------------------------------------------------- collecting files
@@ -109,12 +113,15 @@ def _safe_name(name: str, where: str) -> str:
     """Return a normalised relative path, or raise for an absolute or escaping one."""
     raw = name.replace("\\", "/")
     if raw.startswith("/") or (len(raw) > 1 and raw[1] == ":"):
-        raise Invalid(f"{where}: refused: {name!r} is an absolute path; the archive must hold relative paths only",
-                      field="archive")
+        raise Invalid(
+            f"{where}: refused: {name!r} is an absolute path; the archive must hold relative paths only",
+            field="archive",
+        )
     parts = [p for p in raw.split("/") if p not in ("", ".")]
     if any(p == ".." for p in parts):
-        raise Invalid(f"{where}: refused: {name!r} leads out of the archive ('..'); nothing was imported",
-                      field="archive")
+        raise Invalid(
+            f"{where}: refused: {name!r} leads out of the archive ('..'); nothing was imported", field="archive"
+        )
     return "/".join(parts)
 
 
@@ -131,8 +138,9 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
     with zf:
         infos = [i for i in zf.infolist() if not i.is_dir()]
         if len(infos) > limits.max_files:
-            raise Invalid(f"{source}: refused: {len(infos)} files, at most {limits.max_files} per import",
-                          field="archive")
+            raise Invalid(
+                f"{source}: refused: {len(infos)} files, at most {limits.max_files} per import", field="archive"
+            )
         total = 0
         for info in infos:
             _safe_name(info.filename, source)
@@ -141,7 +149,9 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
                 raise Invalid(
                     f"{source}: refused: the archive unpacks to more than "
                     f"{(limits.max_file_bytes if info.file_size > limits.max_file_bytes else limits.max_total_bytes) // 2**20} MiB "
-                    f"({info.filename!r}); is it a zip bomb?", field="archive")
+                    f"({info.filename!r}); is it a zip bomb?",
+                    field="archive",
+                )
         out = Files()
         read = 0
         for info in infos:
@@ -303,8 +313,14 @@ def import_files(
     report = ImportReport()
     duplicates = getattr(files, "duplicates", {})
     for name, count in sorted(duplicates.items()):
-        report.items.append(ImportItem(name, "error", f"{name}: refused: the archive holds {count} entries of this "
-                                       "name, so which one is meant is unknown; rename them"))
+        report.items.append(
+            ImportItem(
+                name,
+                "error",
+                f"{name}: refused: the archive holds {count} entries of this "
+                "name, so which one is meant is unknown; rename them",
+            )
+        )
     used: set[str] = set(duplicates)
     runs = sorted(p for p in files if p.lower().endswith(".toml") and p not in duplicates)
     check_totals(files, runs)
@@ -337,8 +353,11 @@ class _GroupMaker:
             raise Invalid(f"{path}, field 'info.group': a group name has 1 to 120 characters", field="group")
         other = session.scalar(sa.select(Group).where(Group.name == name))
         if other is not None:
-            raise Invalid(f"{path}, field 'info.group': group {name!r} belongs to another section; group names "
-                          "are unique in the notebook", field="group")
+            raise Invalid(
+                f"{path}, field 'info.group': group {name!r} belongs to another section; group names "
+                "are unique in the notebook",
+                field="group",
+            )
         group = Group(name=name, course_id=self.course_id, section_id=self.section_id)
         session.add(group)
         session.flush()
@@ -351,6 +370,8 @@ class _GroupMaker:
         for name in self.created:
             groups.pop(name, None)
         self.created.clear()
+
+
 def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
     """Refuse an import whose run files and readings pass the limits import_files or import_total_bytes.
 
@@ -365,9 +386,13 @@ def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
         rname = _readings_name_or_none(files[path])
         if rname is not None:
             total += len(files.get(posixpath.normpath(posixpath.join(posixpath.dirname(path), rname)), b""))
-    calc_limits.require_size(total, "import_total_bytes", field="archive",
-                             what=f"the import's run files and readings ({total} bytes, a shared readings file "
-                                  "counted once per run file that uses it)")
+    calc_limits.require_size(
+        total,
+        "import_total_bytes",
+        field="archive",
+        what=f"the import's run files and readings ({total} bytes, a shared readings file "
+        "counted once per run file that uses it)",
+    )
 
 
 def _readings_name_or_none(raw: bytes) -> str | None:
@@ -378,9 +403,17 @@ def _readings_name_or_none(raw: bytes) -> str | None:
 
 
 def _import_one(
-    session: so.Session, actor: Person, path: str, files: dict[str, bytes], maps: dict[str, Mapping],
-    groups: dict[str, Group], benches: dict[str, Bench], section_name: str, options: AnalysisOptions,
-    used: set[str], maker: _GroupMaker | None = None,
+    session: so.Session,
+    actor: Person,
+    path: str,
+    files: dict[str, bytes],
+    maps: dict[str, Mapping],
+    groups: dict[str, Group],
+    benches: dict[str, Bench],
+    section_name: str,
+    options: AnalysisOptions,
+    used: set[str],
+    maker: _GroupMaker | None = None,
 ) -> ImportItem:
     raw = files[path]
     digest = ""
@@ -388,8 +421,9 @@ def _import_one(
         try:
             text = raw.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
-            raise Invalid(f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
-                          field="run_file") from None
+            raise Invalid(
+                f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
+            ) from None
         rname = _readings_name(text, path)
         rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
         if rpath in getattr(files, "duplicates", {}):
@@ -408,33 +442,47 @@ def _import_one(
         if m is not None:
             group = groups.get(m.group) or (maker.make(session, m.group, path, groups) if maker else None)
             if group is None:
-                raise Invalid(f"{path}: the mapping names group {m.group!r}, which is not in section "
-                              f"{section_name!r}", field="group")
+                raise Invalid(
+                    f"{path}: the mapping names group {m.group!r}, which is not in section {section_name!r}",
+                    field="group",
+                )
             if m.bench:
                 bench = benches.get(m.bench)
                 if bench is None:
-                    raise Invalid(f"{path}: the mapping names bench {m.bench!r}, which is not in section "
-                                  f"{section_name!r}", field="bench")
+                    raise Invalid(
+                        f"{path}: the mapping names bench {m.bench!r}, which is not in section {section_name!r}",
+                        field="bench",
+                    )
         else:
             named = _info_group(text)
             if named is not None:
                 group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
                 if group is None:
-                    raise Invalid(f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}",
-                                  field="group")
+                    raise Invalid(
+                        f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}", field="group"
+                    )
             else:
                 group = _group_from_name(posixpath.splitext(base)[0], groups)
             if group is None:
-                raise Invalid(f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
-                              f"name names a group of section {section_name!r}", field="group")
-        upload = RunUpload(run_toml=text, run_file_name=base, readings=readings,
-                           readings_name=posixpath.basename(rpath),
-                           calorimeter_id=bench.calorimeter_id if bench is not None else None,
-                           group_id=group.id, options=options)
+                raise Invalid(
+                    f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
+                    f"name names a group of section {section_name!r}",
+                    field="group",
+                )
+        upload = RunUpload(
+            run_toml=text,
+            run_file_name=base,
+            readings=readings,
+            readings_name=posixpath.basename(rpath),
+            calorimeter_id=bench.calorimeter_id if bench is not None else None,
+            group_id=group.id,
+            options=options,
+        )
         run = _record(session, actor, upload, digest, bench)
         made = maker is not None and maker.created.pop(group.name, None) is not None
-        return ImportItem(path, "stored", f"run #{run.id}" + (f"; group {group.name!r} created" if made else ""),
-                          run.id, group.name)
+        return ImportItem(
+            path, "stored", f"run #{run.id}" + (f"; group {group.name!r} created" if made else ""), run.id, group.name
+        )
     except ServiceError as exc:
         session.rollback()
         if maker is not None:
@@ -451,8 +499,10 @@ def _import_one(
         if failure is None:
             raise
         # the next run would fail the same way: stop, saying where and how to go on
-        raise type(failure)(f"{path}: {failure.message}. The import stopped at this file; the runs before it "
-                            "are stored, and importing the same files again skips them") from None
+        raise type(failure)(
+            f"{path}: {failure.message}. The import stopped at this file; the runs before it "
+            "are stored, and importing the same files again skips them"
+        ) from None
     except BaseException:
         session.rollback()  # nothing of this run is stored
         raise

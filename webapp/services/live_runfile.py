@@ -76,9 +76,11 @@ def calibration_for(session: so.Session, text: str, calorimeter_id: int | None) 
 
     calibration = current_calibration(session, calorimeter_id) if calorimeter_id is not None else None
     if calibration is None:
-        raise Invalid("the run file gives no [calorimeter] heat_capacity and its calorimeter has no heat "
-                      "capacity in force; give it in the run file or calibrate first",
-                      field="calorimeter.heat_capacity")
+        raise Invalid(
+            "the run file gives no [calorimeter] heat_capacity and its calorimeter has no heat "
+            "capacity in force; give it in the run file or calibrate first",
+            field="calorimeter.heat_capacity",
+        )
     return calibration
 
 

@@ -40,8 +40,9 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
     done = analyse_upload(session, upload)
-    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration,
-                   str(done.spec.get("info", "date") or ""))
+    return Preview(
+        done.analysis, done.result(), done.calorimeter, done.calibration, str(done.spec.get("info", "date") or "")
+    )
 
 
 @dataclasses.dataclass
@@ -54,8 +55,9 @@ class CalorimeterChoice:
 
 def calorimeter_choices(session: so.Session) -> list[CalorimeterChoice]:
     """Return every calorimeter by name with the calibration in force."""
-    return [CalorimeterChoice(cal, current_calibration(session, cal.id))
-            for cal in session.scalars(calorimeters_query())]
+    return [
+        CalorimeterChoice(cal, current_calibration(session, cal.id)) for cal in session.scalars(calorimeters_query())
+    ]
 
 
 def group_choices(session: so.Session, actor: Person) -> list[Group]:
@@ -135,8 +137,9 @@ class CalorimeterPage:
     members: dict[int, Calibration] = dataclasses.field(default_factory=dict)  # behind the value in force
 
 
-def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
-                     latest_runs: int = 20) -> CalorimeterPage:
+def calorimeter_page(
+    session: so.Session, actor: Person, calorimeter_id: int, *, latest_runs: int = 20
+) -> CalorimeterPage:
     """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
     (directly, or through a pooled value that held it)."""
     from webapp.services.calibrations import current_calibration, members_of
@@ -146,8 +149,12 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
     ids = [c.id for c in history]
     used: dict[int, list[Run]] = defaultdict(list)
     if ids:
-        q = (sa.select(Run).where(Run.calibration_id.in_(ids), visible_runs_clause(actor))
-             .options(so.joinedload(Run.results)).order_by(Run.id))
+        q = (
+            sa.select(Run)
+            .where(Run.calibration_id.in_(ids), visible_runs_clause(actor))
+            .options(so.joinedload(Run.results))
+            .order_by(Run.id)
+        )
         for run in session.scalars(q).unique():
             used[run.calibration_id or 0].append(run)
     via_pool: dict[int, list[Run]] = defaultdict(list)
@@ -162,8 +169,10 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
         source = c.result.run if c.result is not None else None
         runs = sorted({r.id: r for r in used[c.id] + via_pool[c.id]}.values(), key=lambda r: r.id)
         rows.append(CalibrationRow(c, c.result, source is not None and can_view_run(actor, source), runs))
-    latest = [(run, res) for run, res in session.execute(runs_query(actor, calorimeter_id=cal.id).limit(latest_runs))
-              .unique().all()]
+    latest = [
+        (run, res)
+        for run, res in session.execute(runs_query(actor, calorimeter_id=cal.id).limit(latest_runs)).unique().all()
+    ]
     current = current_calibration(session, cal.id)
     members = {c.id: c for c in history if current is not None and c.id in members_of(current)}
     return CalorimeterPage(cal, [c for c in history if not c.pool], current, rows, latest, members)

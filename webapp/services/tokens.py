@@ -21,8 +21,9 @@ from webapp.services.people import (
 SCOPES = ("read", "write", "live")
 
 
-def issue_scoped_token(session: so.Session, person: Person, label: str = "", scope: str = "write"
-                       ) -> tuple[ApiToken, str]:
+def issue_scoped_token(
+    session: so.Session, person: Person, label: str = "", scope: str = "write"
+) -> tuple[ApiToken, str]:
     """Create a token with ``scope`` ("read", "write" or "live") and commit; return it with its secret (shown once)."""
     if scope not in SCOPES:
         raise Invalid(f"unknown scope {scope!r}; expected one of: {', '.join(SCOPES)}", field="scope")
@@ -37,5 +38,6 @@ def require_scope(token: ApiToken | None, scope: str) -> None:
 
 def tokens_of(session: so.Session, person: Person) -> list[ApiToken]:
     """Return ``person``'s tokens, newest first (with scope, creation, last use and revocation)."""
-    return list(session.scalars(
-        sa.select(ApiToken).where(ApiToken.person_id == person.id).order_by(ApiToken.id.desc())))
+    return list(
+        session.scalars(sa.select(ApiToken).where(ApiToken.person_id == person.id).order_by(ApiToken.id.desc()))
+    )

@@ -66,9 +66,14 @@ def test_unsteady_fore_period_asks_to_keep_stirring(tmp_path):
     assert steady.phase == "add_now"
 
 
-@pytest.mark.parametrize("kind, words", [("dissolution", "reaction under way"),
-                                         ("neutralization", "reaction under way"),
-                                         ("electrical-calibration", "heating under way")])
+@pytest.mark.parametrize(
+    "kind, words",
+    [
+        ("dissolution", "reaction under way"),
+        ("neutralization", "reaction under way"),
+        ("electrical-calibration", "heating under way"),
+    ],
+)
 def test_main_period_is_under_way(kind, words, tmp_path):
     text, t, y, sim = live_run(kind, 5, tmp_path)
     a = advise(text, *upto(t, y, sim.truth.t_m_s + 40.0))
