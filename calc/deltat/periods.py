@@ -94,7 +94,7 @@ def find_periods(
     """
     warnings: list[str] = []
     detected = mixing_time is None
-    if detected:
+    if mixing_time is None:
         t_m, u_tm = detect_mixing_time(t, y, resolution)
     else:
         t_m, u_tm = float(mixing_time), float(u_mixing_time)

@@ -25,6 +25,7 @@ import math
 import warnings
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import cast
 
 from calc.errors import InputError
 
@@ -210,7 +211,10 @@ def _a_phi(T_K: float) -> float:
     # density from the interpolated IAPWS-95 grid (a direct IAPWS-95 call costs ~7 ms)
     rho = water_density(T_K).value * 1000.0  # kg/m3
     eps = water_dielectric_constant(T_K)
-    return math.sqrt(2.0 * math.pi * _N_A * rho) * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5 / 3.0
+    # float ** float is typed Any (a negative base gives a complex); the base is positive here
+    return cast(
+        float, math.sqrt(2.0 * math.pi * _N_A * rho) * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5 / 3.0
+    )
 
 
 def debye_huckel_slopes(T_K: float) -> tuple[float, float]:
