@@ -135,9 +135,9 @@ def analyze_spec(
     kind = get_kind(spec.kind)
     analyze = kind.hook("analyze")
     if analyze is not None:  # a kind with an analysis of its own (the in-situ calibration)
-        return analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
+        return cast("Analysis", analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                               fore=fore, after=after, with_reference=with_reference,
-                       calorimeter_type=calorimeter_type, history=history)
+                       calorimeter_type=calorimeter_type, history=history))
     prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
     props = resolve_properties(spec, dt)
     model = build_model(spec, dt, props)

@@ -28,6 +28,7 @@ measurement model and analyses the run end to end.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, cast
 
@@ -250,7 +251,9 @@ def _inner_weights(tt: np.ndarray, a: float, b: float) -> np.ndarray:
     return w[1:-1]
 
 
-def _event_delta_t(t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[float], t_ref: float):  # noqa: ANN202
+def _event_delta_t(
+    t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[float], t_ref: float
+) -> Callable[[np.ndarray], float]:
     inner = (t > ev.start) & (t < ev.main_end)
     tt, yy = t[inner], y[inner]
     w = _inner_weights(tt, ev.start, ev.main_end)

@@ -241,7 +241,7 @@ def _check_separate_changes(t: np.ndarray, ee: np.ndarray, i_max: int) -> None:
     high = a >= 0.5 * top
     low = a < 0.25 * top
     idx = np.flatnonzero(high)
-    for j in idx:
+    for j in idx.tolist():
         if abs(j - i_max) < 2 or a[j] < 0.7 * top:
             continue
         lo, hi = sorted((j, i_max))
