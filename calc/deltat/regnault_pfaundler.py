@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import cast
+from typing import Any, cast
 
 import numpy as np
 
@@ -124,7 +124,7 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
 
 
 def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
-    common = dict(
+    common: dict[str, Any] = dict(
         t_i=log.periods.mixing_time,
         t_f=log.periods.main_end,
         k_per_s=nf.k,
@@ -136,7 +136,8 @@ def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: Lin
         residual_sd_K=nf.s,
     )
     if log.two_solution:
-        return AfterNewtonConstruction(**common, after_newton=(*(float(v) for v in nf.params), log.periods.main_end))
+        y_f, g_f, k_f = (float(v) for v in nf.params)  # the after period's own law: three parameters
+        return AfterNewtonConstruction(**common, after_newton=(y_f, g_f, k_f, log.periods.main_end))
     y_i, y_f, g_i, k = (float(v) for v in nf.params)
     return JointNewtonConstruction(**common, newton_joint=(y_i, y_f, g_i, k))
 
