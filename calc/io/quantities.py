@@ -322,6 +322,7 @@ def _affine(unit: str, target: str) -> tuple[float, float]:
     offset = float(Q_(0.0, unit).m_as(target))
     if offset == 0.0:
         return float(Q_(1.0, unit).m_as(target)), 0.0
-    unit_factor = ureg.get_root_units(unit)[0]
-    target_factor = ureg.get_root_units(target)[0]
+    # pint types the factor as any number, complex included; a unit's factor to its root units is real
+    unit_factor = cast(float, ureg.get_root_units(unit)[0])
+    target_factor = cast(float, ureg.get_root_units(target)[0])
     return float(unit_factor) / float(target_factor), offset
