@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any, cast
 
 import numpy as np
 
@@ -120,7 +121,7 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     def dT_of(p: np.ndarray) -> float:
         y_f, g_f, k = p
         integ = inner + w_a * T_A + w_b * y_f
-        return (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+        return cast(float, (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ))
 
     # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
     return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA))
@@ -136,21 +137,27 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
     def dT_of(p: np.ndarray) -> float:
         y_i, y_f, g_i, k = p
         integ = inner + w_a * y_i + w_b * y_f
-        return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
+        return cast(float, (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ))
 
     start, u_start = float(nf.params[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
     return _Setup(nf, dT_of, 0.0, nf.dof, 3, _NOT_NEWTONIAN_ONE, start, u_start)
 
 
 def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
-    common = dict(
-        t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=nf.k, u_k_per_s=u_k,
+    common: dict[str, Any] = dict(
+        t_i=log.periods.mixing_time,
+        t_f=log.periods.main_end,
+        k_per_s=nf.k,
+        u_k_per_s=u_k,
         convergence_temperature_K=nf.convergence_temperature(),
-        fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean),
-        autocorrelation=nf.rho, residual_sd_K=nf.s,
+        fore_line=(fore.a, fore.b, fore.t_mean),
+        after_line=(after.a, after.b, after.t_mean),
+        autocorrelation=nf.rho,
+        residual_sd_K=nf.s,
     )
     if log.two_solution:
-        return AfterNewtonConstruction(**common, after_newton=(*(float(v) for v in nf.params), log.periods.main_end))
+        y_f, g_f, k_f = (float(v) for v in nf.params)  # the after period's own law: three parameters
+        return AfterNewtonConstruction(**common, after_newton=(y_f, g_f, k_f, log.periods.main_end))
     y_i, y_f, g_i, k = (float(v) for v in nf.params)
     return JointNewtonConstruction(**common, newton_joint=(y_i, y_f, g_i, k))
 
@@ -165,8 +172,11 @@ def regnault_pfaundler(log: Log) -> DeltaT:
     setup = _two_solution(log, fore, parts) if log.two_solution else _one_solution(log, fore, after, parts)
     nf, k = setup.fit, setup.fit.k
     value = setup.delta_t_of(nf.params)
-    var = (_quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov) + setup.extra_var
-           + (k * nf.s) ** 2 * float(np.dot(w, w)))
+    var = (
+        _quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov)
+        + setup.extra_var
+        + (k * nf.s) ** 2 * float(np.dot(w, w))
+    )
     u_k = math.sqrt(max(nf.cov[setup.i_k, setup.i_k], 0.0))
     warnings = [setup.not_newtonian] if k < 0 and abs(k) > 2 * u_k else []
     res_start, res_end = resolution_terms(log)

@@ -65,8 +65,15 @@ def _plain(v: Any) -> Any:
     return x if math.isfinite(x) else None
 
 
-def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
-           target_u: float | None = None, now_s: float | None = None, source: str = "live run") -> Advice:
+def advise(
+    run_text: str,
+    times_s: Sequence[float],
+    temps_c: Sequence[float],
+    *,
+    target_u: float | None = None,
+    now_s: float | None = None,
+    source: str = "live run",
+) -> Advice:
     """Return the advice for a live run (see the module docstring and docs/methods.md §9).
 
     Raises
@@ -81,12 +88,18 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     if now_s is not None:
         phases.require_time(now_s)
     if spec.kind not in phases.LIVE_KINDS:
-        return Advice("refused", f"no live advice for {spec.kind} runs (several events in one log); "
-                      "record the whole log and analyse it afterwards")
+        return Advice(
+            "refused",
+            f"no live advice for {spec.kind} runs (several events in one log); "
+            "record the whole log and analyse it afterwards",
+        )
     q = spec.resolution_K
     if t.size < phases.MIN_LIVE_READINGS:
-        return Advice("waiting", f"waiting for readings ({t.size} of {phases.MIN_LIVE_READINGS})",
-                      warnings=phases.stopped(t, now_s))
+        return Advice(
+            "waiting",
+            f"waiting for readings ({t.size} of {phases.MIN_LIVE_READINGS})",
+            warnings=phases.stopped(t, now_s),
+        )
     y = y_c + _KELVIN
     lines = np.arange(2, t.size + 2)
     prep = prepare_log(t, y, resolution=q, lines=lines)

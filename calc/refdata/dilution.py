@@ -1,8 +1,10 @@
 """Compute the relative apparent molar enthalpy φ_L of a strong electrolyte at a molality.
 
-ΔsolH(m) = ΔsolH° + φ_L(m). Pitzer's equation with the enthalpy parameters of
-``calc/refdata/data/pitzer_enthalpy.csv``, else the Debye–Hückel term alone for a dilute 1:1 electrolyte;
-:func:`phi_L` states the models and their uncertainty.
+ΔsolH(m) = ΔsolH° + φ_L(m). For NaCl, KCl and HCl the short-range part of φ_L(m, T) is interpolated in
+``calc/refdata/data/phi_L_wide_range.csv`` (tabulated once from wide-range Pitzer models by
+``tests/tools/make_phi_L.py``); else Pitzer's equation with the 25 °C enthalpy parameters of
+``calc/refdata/data/pitzer_enthalpy.csv``; else the Debye–Hückel term alone for a dilute 1:1
+electrolyte. :func:`phi_L` states the models and their uncertainty (docs/methods.md §4.6).
 """
 
 from __future__ import annotations
@@ -13,6 +15,9 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
+import numpy as np
+from scipy.interpolate import RegularGridInterpolator
+
 from calc.errors import InputError
 from calc.refdata.formula import element_composition
 from calc.refdata.properties import R_GAS, debye_huckel_slopes
@@ -20,9 +25,10 @@ from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
 
 __all__ = [
+    "WIDE_RANGE_MODEL",
     "PhiL",
-    "phi_L",
     "model_spread_u",
+    "phi_L",
 ]
 
 
@@ -74,14 +80,110 @@ def model_spread_u(molality: float) -> float:
     return MODEL_SPREAD_AT_1_MOLAL * scale / math.sqrt(3.0)
 
 
-def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
+#: Source id (``sources.toml``) of each salt's wide-range table.
+WIDE_RANGE_SOURCES = {"NaCl": "PHIL_A92", "KCl": "PHIL_A99", "HCl": "PHIL_CMR93"}
+WIDE_RANGE_MODEL = "Pitzer wide-range model, tabulated"
+#: Interpolation term, kJ/mol: the cubic interpolant in (√m, t) was at most 0.00014 kJ/mol from
+#: the models themselves at 63 points per salt between the grid lines (0.5–49.5 °C, 0.003–4.4
+#: mol/kg; docs/methods.md §4.6); rounded up to 0.001.
+U_INTERPOLATION = 0.001
+#: Relative standard uncertainty of calc's Debye–Hückel term (A_H from IAPWS-95) where the table's
+#: models used Archer & Wang's (1990) A_φ: the two A_H differ by up to 3.3 % over 0–50 °C (measured),
+#: taken as the half-width of a rectangular distribution.
+U_REL_LONG_RANGE = 0.02
+
+
+@dataclass(frozen=True)
+class _Table:
+    short: RegularGridInterpolator  # (√m, t/°C) → short-range part of φ_L, kJ/mol
+    u: RegularGridInterpolator  # (√m, t/°C) → model-spread standard uncertainty, kJ/mol
+    m_max: float
+    t_range: tuple[float, float]
+
+
+@lru_cache(maxsize=1)
+def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]]:
+    path = resources.files("calc.refdata") / "data" / "phi_L_wide_range.csv"
+    with path.open(encoding="utf-8", newline="") as fh:
+        rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
+    out = {}
+    for salt, source in WIDE_RANGE_SOURCES.items():
+        mine = [r for r in rows if r["formula"] == salt]
+        s = np.unique([float(r["sqrt_m"]) for r in mine])
+        t = np.unique([float(r["t_C"]) for r in mine])
+        short = np.full((s.size, t.size), np.nan)
+        u = np.full((s.size, t.size), np.nan)
+        for r in mine:
+            i, j = np.searchsorted(s, float(r["sqrt_m"])), np.searchsorted(t, float(r["t_C"]))
+            short[i, j], u[i, j] = float(r["phi_L_sr"]), float(r["u_spread"])
+        if np.isnan(short).any():
+            raise InputError(f"{path}: the grid of {salt} has holes (expected every √m × t_C)")
+        table = _Table(
+            RegularGridInterpolator((s, t), short, method="cubic"),
+            RegularGridInterpolator((s, t), u, method="linear"),
+            max(float(r["m"]) for r in mine),
+            (float(t[0]), float(t[-1])),
+        )
+        out[element_composition(salt)] = (source, table)
+    return out
+
+
+def _long_range(m: float, A_H: float) -> float:
+    """Pitzer's long-range term of φ_L for a 1:1 electrolyte, (A_H/b) ln(1 + b√m), in kJ/mol."""
+    return A_H / _B * math.log(1.0 + _B * math.sqrt(m)) / 1000.0
+
+
+def _from_wide_range(comp: tuple[tuple[str, int], ...], m: float, T: float, A_H: float) -> PhiL | None:
+    hit = _wide_range_tables().get(comp)
+    if hit is None:
+        return None
+    source, table = hit
+    t = T - 273.15
+    if m > table.m_max * (1 + 1e-9) or not (table.t_range[0] <= t <= table.t_range[1]):
+        return None
+    x = [[min(math.sqrt(m), float(table.short.grid[0][-1])), t]]  # the last √m is rounded in the file
+    long_range = _long_range(m, A_H)
+    value = long_range + float(table.short(x)[0])
+    u = math.hypot(float(table.u(x)[0]), U_REL_LONG_RANGE * long_range, U_INTERPOLATION)
+    return PhiL(value, u, WIDE_RANGE_MODEL, citation(source))
+
+
+def _pitzer_25C(row: dict[str, str], m: float, T: float, A_H: float) -> PhiL:
+    """Pitzer's equation with the enthalpy parameters of 25 °C held fixed (no heat-capacity term)."""
+    nup, num = int(row["nu_plus"]), int(row["nu_minus"])
+    zp, zm = int(row["z_plus"]), int(row["z_minus"])
+    nu = nup + num
+    I = 0.5 * m * (nup * zp * zp + num * zm * zm)
+    sI = math.sqrt(I)
+    alpha = float(row["alpha"])
+    b0, b1, cphi = float(row["beta0_L"]), float(row["beta1_L"]), float(row["Cphi_L"])
+    x = alpha * sI
+    BL = b0 + 2.0 * b1 / (alpha * alpha * I) * (1.0 - (1.0 + x) * math.exp(-x))
+    CL = cphi / (2.0 * math.sqrt(abs(zp * zm)))
+    long_range = nu * abs(zp * zm) * A_H / (2.0 * _B) * math.log(1.0 + _B * sI)
+    short = -2.0 * nup * num * R_GAS * T * T * (m * BL + m * m * nup * zp * CL)
+    value = (long_range + short) / 1000.0
+    # cupcal's estimate: 3 % of φ_L plus up to 0.02 kJ/mol for the fit's scatter
+    # (reached at 0.1 mol/kg), plus 2 % of φ_L per K away from 25 degC.
+    u = math.hypot(0.03 * value, 0.02 * min(1.0, m / 0.1))
+    u = math.hypot(u, 0.02 * abs(value) * abs(T - T_REF_K))
+    u = math.hypot(u, model_spread_u(m))
+    return PhiL(value, u, "Pitzer", citation(row["source"]) + "; " + MODEL_SPREAD_SOURCE)
+
+
+def phi_L(formula: str, molality: float, T_K: float = T_REF_K, *, wide_range: bool = True) -> PhiL | None:
     """Return φ_L of a strong electrolyte at a molality, or None when no model applies.
 
-    Pitzer's equation with the tabulated enthalpy parameters (NaCl, KCl, HCl; 0 to 50
-    degC; u = 3 % of φ_L plus up to 0.02 kJ/mol, and 2 % of φ_L per K away from
-    25 degC, cupcal's estimates, plus :func:`model_spread_u` from 0.1 mol/kg); else, for a 1:1 electrolyte
-    at m <= 0.1 mol/kg, the Debye–Hückel term alone with u = 2RT² m·1.5e-3 kg/(mol K)
-    (the neglected short-range term for |B^L| up to 1.5e-3).
+    In order (docs/methods.md §4.6):
+
+    1. NaCl, KCl, HCl (unless ``wide_range`` is False): calc's Debye–Hückel term plus the short-range
+       part interpolated in the wide-range table (0–50 °C, up to its largest molality); u combines
+       the table's model spread, 2 % of the Debye–Hückel term and :data:`U_INTERPOLATION`.
+    2. Pitzer's equation with the tabulated 25 °C enthalpy parameters (0 to 50 degC; u = 3 % of
+       φ_L plus up to 0.02 kJ/mol, 2 % of φ_L per K away from 25 degC, cupcal's estimates, plus
+       :func:`model_spread_u` from 0.1 mol/kg).
+    3. For a 1:1 electrolyte at m <= 0.1 mol/kg, the Debye–Hückel term alone with
+       u = 2RT² m·1.5e-3 kg/(mol K) (the neglected short-range term for |B^L| up to 1.5e-3).
     """
     try:
         m = float(molality)
@@ -100,34 +202,18 @@ def phi_L(formula: str, molality: float, T_K: float = T_REF_K) -> PhiL | None:
     if m == 0.0:
         return PhiL(0.0, 0.0, "infinite dilution", "definition")
     _, A_H = debye_huckel_slopes(T)
+    if wide_range:
+        found = _from_wide_range(comp, m, T, A_H)
+        if found is not None:
+            return found
     for row in _pitzer_rows():
-        if element_composition(row["formula"]) != comp or m > float(row["m_max"]):
-            continue
-        nup, num = int(row["nu_plus"]), int(row["nu_minus"])
-        zp, zm = int(row["z_plus"]), int(row["z_minus"])
-        nu = nup + num
-        I = 0.5 * m * (nup * zp * zp + num * zm * zm)
-        sI = math.sqrt(I)
-        alpha = float(row["alpha"])
-        b0, b1, cphi = float(row["beta0_L"]), float(row["beta1_L"]), float(row["Cphi_L"])
-        x = alpha * sI
-        BL = b0 + 2.0 * b1 / (alpha * alpha * I) * (1.0 - (1.0 + x) * math.exp(-x))
-        CL = cphi / (2.0 * math.sqrt(abs(zp * zm)))
-        long_range = nu * abs(zp * zm) * A_H / (2.0 * _B) * math.log(1.0 + _B * sI)
-        short = -2.0 * nup * num * R_GAS * T * T * (m * BL + m * m * nup * zp * CL)
-        value = (long_range + short) / 1000.0
-        # cupcal's estimate: 3 % of φ_L plus up to 0.02 kJ/mol for the fit's scatter
-        # (reached at 0.1 mol/kg), plus 2 % of φ_L per K away from 25 degC.
-        u = math.hypot(0.03 * value, 0.02 * min(1.0, m / 0.1))
-        u = math.hypot(u, 0.02 * abs(value) * abs(T - T_REF_K))
-        u = math.hypot(u, model_spread_u(m))
-        return PhiL(value, u, "Pitzer", citation(row["source"]) + "; " + MODEL_SPREAD_SOURCE)
+        if element_composition(row["formula"]) == comp and m <= float(row["m_max"]):
+            return _pitzer_25C(row, m, T, A_H)
     products = dissolution_products(base)
     if products is None or len(products) != 2 or m > 0.1:
         return None
     (n1, e1), (n2, e2) = products
     if {n1, n2} != {1} or {abs(e1.species.charge), abs(e2.species.charge)} != {1}:
         return None
-    value = A_H / _B * math.log(1.0 + _B * math.sqrt(m)) / 1000.0
     u = 2.0 * R_GAS * T * T * m * _BL_MAX / 1000.0
-    return PhiL(value, u, "Debye–Hückel (long-range term only)", citation("DH_LIMIT"))
+    return PhiL(_long_range(m, A_H), u, "Debye–Hückel (long-range term only)", citation("DH_LIMIT"))

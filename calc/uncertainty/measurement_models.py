@@ -18,19 +18,41 @@ from typing import Any
 
 from calc.deltat.base import DeltaT
 from calc.errors import InputError
-from calc.uncertainty.gum import Input, xmin
 from calc.io.quantities import Measured
-from calc.refdata.formula import molar_mass
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
+from calc.refdata.formula import molar_mass
+from calc.uncertainty.gum import Input, xmin
 
-__all__ = ["ModelSpec", "RunProperties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
-           "mixing_model", "reaction_model", "EQUIVALENTS"]
+__all__ = [
+    "ModelSpec",
+    "RunProperties",
+    "build_model",
+    "dissolution_model",
+    "neutralization_model",
+    "electrical_model",
+    "mixing_model",
+    "reaction_model",
+    "EQUIVALENTS",
+]
 
 #: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).
 EQUIVALENTS: dict[str, int] = {
-    "HCl": 1, "HBr": 1, "HI": 1, "HNO3": 1, "HClO4": 1, "H2SO4": 2, "CH3COOH": 1, "HCOOH": 1,
-    "NaOH": 1, "KOH": 1, "LiOH": 1, "NH3": 1, "Ba(OH)2": 2, "Ca(OH)2": 2, "Sr(OH)2": 2,
+    "HCl": 1,
+    "HBr": 1,
+    "HI": 1,
+    "HNO3": 1,
+    "HClO4": 1,
+    "H2SO4": 2,
+    "CH3COOH": 1,
+    "HCOOH": 1,
+    "NaOH": 1,
+    "KOH": 1,
+    "LiOH": 1,
+    "NH3": 1,
+    "Ba(OH)2": 2,
+    "Ca(OH)2": 2,
+    "Sr(OH)2": 2,
 }
 
 
@@ -96,10 +118,22 @@ def _dt_inputs(dt: DeltaT, *, start_apart: bool = False) -> list[Input]:
               label="thermometer resolution, end level"),
         Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
         Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
-        Input("delta_t.drift_resolution", 0.0, dt.u_drift_resolution, "K", "rectangular",
-              label="thermometer resolution, drift slopes"),
-        Input("delta_t.model", 0.0, dt.u_model, "K", "rectangular",
-              label="drift model inadequacy (fore+after law against after-only law)"),
+        Input(
+            "delta_t.drift_resolution",
+            0.0,
+            dt.u_drift_resolution,
+            "K",
+            "rectangular",
+            label="thermometer resolution, drift slopes",
+        ),
+        Input(
+            "delta_t.model",
+            0.0,
+            dt.u_model,
+            "K",
+            "rectangular",
+            label="drift model inadequacy (fore+after law against after-only law)",
+        ),
     ]
 
 
@@ -159,7 +193,10 @@ def dissolution_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelS
     water_g = inputs[0].value * inputs[1].value
     n_mol = inputs[2].value * (purity.m_as("") if purity is not None else 1.0) / M
     return ModelSpec(
-        inputs, model, "molar_enthalpy", "kJ/mol",
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
         amount_note=f"per mole of {formula} dissolved",
         molality=n_mol / (water_g / 1000.0) if water_g > 0 else None,
         reference_temperature=dt.start_temperature,
@@ -219,7 +256,10 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
     limiting = "acid" if n_h <= n_oh else "base"
     total_g = inputs[1].value * inputs[2].value + inputs[4].value * inputs[5].value
     return ModelSpec(
-        inputs, model, "molar_enthalpy", "kJ/mol",
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
         amount_note=f"per mole of water formed (limiting reagent: {limiting}, {spec.get(limiting, 'formula')})",
         molality=min(n_h, n_oh) / (total_g / 1000.0) if total_g > 0 else None,
         reference_temperature=dt.start_temperature,
@@ -244,8 +284,7 @@ def electrical_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSp
         c_cal = heat / dT - x["water.volume"] * x["water.density"] * x["mixture.specific_heat_capacity"]
         return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
 
-    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
-                     reference_temperature=dt.start_temperature)
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K", reference_temperature=dt.start_temperature)
 
 
 def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
@@ -272,8 +311,7 @@ def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
         c_cal = heat / dT - c_cool
         return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
 
-    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
-                     reference_temperature=dt.start_temperature)
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K", reference_temperature=dt.start_temperature)
 
 
 def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
@@ -305,10 +343,17 @@ def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec
         n = x["reaction.amount"] if M is None else x["reaction.mass"] / M
         return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / (n / nu) / 1000.0}
 
-    what = r.get("equation") or (f"the reaction of {r['limiting_reagent']}" if "limiting_reagent" in r else "the reaction")
-    return ModelSpec(inputs, model, "molar_enthalpy", "kJ/mol",
-                     amount_note=f"per mole of reaction as written ({what}; coefficient {nu})",
-                     reference_temperature=dt.start_temperature)
+    what = r.get("equation") or (
+        f"the reaction of {r['limiting_reagent']}" if "limiting_reagent" in r else "the reaction"
+    )
+    return ModelSpec(
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
+        amount_note=f"per mole of reaction as written ({what}; coefficient {nu})",
+        reference_temperature=dt.start_temperature,
+    )
 
 
 def build_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:

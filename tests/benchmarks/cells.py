@@ -40,11 +40,16 @@ def _generate(generator: str, kind: str, seed: int, resolution: float, given: bo
         from calc.simulation.realistic import realistic_scenario
         from calc.simulation.simulator import write_run
 
-        sim = realistic_scenario(kind, np.random.default_rng(seed), resolution=resolution, mixing_given=given,
-                                 artefacts=artefacts)
+        sim = realistic_scenario(
+            kind, np.random.default_rng(seed), resolution=resolution, mixing_given=given, artefacts=artefacts
+        )
         tr = sim.truth
         if kind in ("electrical-calibration", "mixing-calibration"):
-            truth, scale, key = tr.calorimeter_heat_capacity_J_K, tr.heat_capacity_final_J_K, "calorimeter_heat_capacity"
+            truth, scale, key = (
+                tr.calorimeter_heat_capacity_J_K,
+                tr.heat_capacity_final_J_K,
+                "calorimeter_heat_capacity",
+            )
         else:
             truth, scale, key = tr.molar_enthalpy_kJ_mol, abs(tr.molar_enthalpy_kJ_mol), "molar_enthalpy"
         return (lambda d: write_run(sim, d, f"r{seed}")), truth, scale, key, abs(tr.delta_t_adiabatic)
@@ -90,8 +95,18 @@ def run_cell(generator: str, kind: str, resolution: float, given: bool, n: int, 
                 continue
             v = a.gum.values[key]
             U = a.gum.expanded_uncertainty
-            out.append(CellRun(kind, seed, (v - truth) / scale, abs(v - truth) <= U, bool(a.warnings), False,
-                               "; ".join(a.warnings), dT / resolution))
+            out.append(
+                CellRun(
+                    kind,
+                    seed,
+                    (v - truth) / scale,
+                    abs(v - truth) <= U,
+                    bool(a.warnings),
+                    False,
+                    "; ".join(a.warnings),
+                    dT / resolution,
+                )
+            )
     return out
 
 

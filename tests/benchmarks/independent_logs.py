@@ -30,8 +30,19 @@ import numpy as np
 from scipy.integrate import solve_ivp
 
 CP_WATER = 4.18  # J/(g K) near 20–25 °C (handbook value, rounded; from memory)
-MOLAR_MASS = {"KCl": 74.551, "NH4NO3": 80.043, "NaOH": 39.997, "Mg": 24.305, "LiCl": 42.394}  # g/mol (IUPAC atomic weights, from memory)
-SALTS = {"KCl": 17.2, "NH4NO3": 25.7, "NaOH": -44.5, "LiCl": -37.0}  # kJ/mol, order of the handbook values (from memory)
+MOLAR_MASS = {
+    "KCl": 74.551,
+    "NH4NO3": 80.043,
+    "NaOH": 39.997,
+    "Mg": 24.305,
+    "LiCl": 42.394,
+}  # g/mol (IUPAC atomic weights, from memory)
+SALTS = {
+    "KCl": 17.2,
+    "NH4NO3": 25.7,
+    "NaOH": -44.5,
+    "LiCl": -37.0,
+}  # kJ/mol, order of the handbook values (from memory)
 
 
 @dataclass
@@ -80,6 +91,7 @@ def _weibull_power(q_heat: float, tau: float, beta: float):
             return 0.0
         x = u / tau
         return q_heat * beta / tau * x ** (beta - 1) * math.exp(-(x**beta))
+
     return p
 
 
@@ -117,12 +129,12 @@ def _spikes(rng, y: np.ndarray, size: float) -> None:
         if shape == 0:
             y[i] += a
         elif shape == 1:
-            y[i:i + 2] += a
+            y[i : i + 2] += a
         elif shape == 2:
-            y[i:i + int(rng.integers(3, 6))] += a
+            y[i : i + int(rng.integers(3, 6))] += a
         else:
             w = np.exp(-np.arange(6) / rng.uniform(0.5, 1.5))
-            y[i:i + 6] += a * w[: y[i:i + 6].size]
+            y[i : i + 6] += a * w[: y[i : i + 6].size]
 
 
 def _integrate(rhs, t_end: float, breaks: list[float], z0: list[float], t_eval: np.ndarray) -> np.ndarray:
@@ -147,7 +159,7 @@ def _integrate(rhs, t_end: float, breaks: list[float], z0: list[float], t_eval: 
 def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, artefacts: bool = True) -> IndependentLog:
     """Generate one truth-known run of ``kind`` (see the module docstring)."""
     rng = np.random.default_rng([10_000_019, seed, sum(map(ord, kind))])
-    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)
+    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)  # noqa: B008 (one constant room temperature, drawn once)
     t0 = room(0.0) + (rng.uniform(-1.5, 1.5) if artefacts else rng.uniform(-1, 1))
     srng = rng if artefacts else None  # near noise-free logs state the true inputs exactly
     c_cal = rng.uniform(5, 60)
@@ -205,6 +217,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
                 return p_on * (1 - math.exp(-u / tau_el))
             stored = p_on * (1 - math.exp(-t_d / tau_el))
             return stored * math.exp(-(u - t_d) / tau_el)
+
         rel_end = t_m + t_d + 12 * tau_el
         dT_true = p_on * t_d / c_after
         truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
@@ -273,6 +286,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
                 z = z.copy()
                 z[0] = (z[0] * (c_after - c_b2) + c_b2 * t_b2) / c_after
         return z
+
     rhs.jump = jump_fn  # type: ignore[attr-defined]
     # start on the probe's steady track: lag behind the fore drift
     g0 = (g_before * (room(0.0) - t0) + p_stir) / c_before

@@ -26,16 +26,9 @@ from typing import Any
 
 import requests
 
-from tests.benchmarks.live_setup import COORDINATOR
-from tests.benchmarks.live_setup import StreamReader
-from tests.benchmarks.live_setup import gunicorn
-from tests.benchmarks.live_setup import seed
-from tests.benchmarks.live_setup import signed_in
-from tests.benchmarks.load_test import RESULTS
-from tests.benchmarks.load_test import fresh_database
-from tests.benchmarks.load_test import tree_cpu_s
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
+from tests.benchmarks.live_setup import COORDINATOR, StreamReader, gunicorn, seed, signed_in
+from tests.benchmarks.load_test import RESULTS, fresh_database, tree_cpu_s
+from tests.webapp.live_helpers import demo_rows, live_run_file
 
 
 def parse_args(argv: list[str] | None) -> argparse.Namespace:
@@ -46,16 +39,28 @@ def parse_args(argv: list[str] | None) -> argparse.Namespace:
     p.add_argument("--duration", type=float, default=120.0, help="seconds of recording")
     p.add_argument("--workers", type=int, default=2)
     p.add_argument("--page", action="store_true", help="follow run 1's live page (else the room view)")
-    p.add_argument("--preload", type=int, default=0,
-                   help="readings each run holds before the measured window (the advisor's cost grows with them)")
+    p.add_argument(
+        "--preload",
+        type=int,
+        default=0,
+        help="readings each run holds before the measured window (the advisor's cost grows with them)",
+    )
     return p.parse_args(argv)
 
 
 class Recorder(threading.Thread):
     """One bench's recorder: a reading every 1/rate s, POSTed at once (retried: the API is idempotent)."""
 
-    def __init__(self, base: str, token: str, live_id: int, rate: float, t0: float, until: float,
-                 sent: dict[tuple[int, int], float]) -> None:
+    def __init__(
+        self,
+        base: str,
+        token: str,
+        live_id: int,
+        rate: float,
+        t0: float,
+        until: float,
+        sent: dict[tuple[int, int], float],
+    ) -> None:
         super().__init__(daemon=True)
         self.base, self.live_id, self.rate, self.t0, self.until, self.sent = base, live_id, rate, t0, until, sent
         self.session = requests.Session()
@@ -78,8 +83,11 @@ class Recorder(threading.Thread):
             for attempt in range(3):
                 try:
                     start = time.monotonic()
-                    r = self.session.post(f"{self.base}/api/live-runs/{self.live_id}/readings",
-                                          json={"readings": [[seq, float(seq), temp]]}, timeout=30)
+                    r = self.session.post(
+                        f"{self.base}/api/live-runs/{self.live_id}/readings",
+                        json={"readings": [[seq, float(seq), temp]]},
+                        timeout=30,
+                    )
                     self.post_s.append(time.monotonic() - start)
                     if r.status_code == 200:
                         self.acked.append(seq)
@@ -97,16 +105,24 @@ def start_runs(base: str, benches: list[tuple[str, str]], preload: int) -> list[
     ids = []
     text = live_run_file()
     for i, (bench, token) in enumerate(benches):
-        run_file = re.sub(r'(?m)^bench = .*$', f'bench = "{bench}"', text)
-        r = requests.post(f"{base}/api/live-runs", json={"run_file": run_file, "client_key": f"bench-{i}"},
-                          headers={"Authorization": f"Bearer {token}"}, timeout=60)
+        run_file = re.sub(r"(?m)^bench = .*$", f'bench = "{bench}"', text)
+        r = requests.post(
+            f"{base}/api/live-runs",
+            json={"run_file": run_file, "client_key": f"bench-{i}"},
+            headers={"Authorization": f"Bearer {token}"},
+            timeout=60,
+        )
         r.raise_for_status()
         ids.append(r.json()["id"])
         rows = demo_rows()
         for start in range(0, preload, 1000):
             batch = [[k, float(k), rows[k % len(rows)][1]] for k in range(start, min(preload, start + 1000))]
-            requests.post(f"{base}/api/live-runs/{ids[-1]}/readings", json={"readings": batch},
-                          headers={"Authorization": f"Bearer {token}"}, timeout=120).raise_for_status()
+            requests.post(
+                f"{base}/api/live-runs/{ids[-1]}/readings",
+                json={"readings": batch},
+                headers={"Authorization": f"Bearer {token}"},
+                timeout=120,
+            ).raise_for_status()
     return ids
 
 
@@ -133,14 +149,18 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
     with gunicorn(url, args.workers, tmp) as (proc, base):
         ids = start_runs(base, setup["benches"], args.preload)
         viewer = signed_in(base, COORDINATOR)
-        path = f"/live/{ids[0]}/events?after=-1" if args.page else f"/classes/sections/{setup['section_id']}/live/events"
+        path = (
+            f"/live/{ids[0]}/events?after=-1" if args.page else f"/classes/sections/{setup['section_id']}/live/events"
+        )
         reader = StreamReader(viewer, base + path, on_event)
         reader.start()
         time.sleep(2.0)  # the stream is open before the first reading
         t0 = time.monotonic() + 0.5
         until = t0 + args.duration
-        recorders = [Recorder(base, tok, lid, args.rate, t0 + i / (args.rate * len(ids)), until, sent)
-                     for i, ((_b, tok), lid) in enumerate(zip(setup["benches"], ids))]
+        recorders = [
+            Recorder(base, tok, lid, args.rate, t0 + i / (args.rate * len(ids)), until, sent)
+            for i, ((_b, tok), lid) in enumerate(zip(setup["benches"], ids))
+        ]
         cpu0, db0, w0 = tree_cpu_s(proc.pid), tree_cpu_s(db_pid), time.monotonic()
         for rec in recorders:
             rec.first_seq = args.preload
@@ -155,20 +175,34 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
     followed = {ids[0]} if args.page else set(ids)
     latencies = sorted(arrived[k] - sent[k] for k in acked if k in arrived and k[0] in followed)
     lost = sorted(k for k in acked if k[0] in followed and k not in arrived)
-    return {"acked": len(acked), "followed": sum(1 for k in acked if k[0] in followed), "lost": len(lost),
-            "lost_first": lost[:5], "stored": stored_counts(url, ids), "acked_by_run": {
-                rec.live_id: args.preload + len(rec.acked) for rec in recorders},
-            "latency_s": {"median": statistics.median(latencies) if latencies else None,
-                          "p95": percentile(latencies, 0.95), "max": latencies[-1] if latencies else None,
-                          "n": len(latencies)},
-            "post_s": {"median": statistics.median([x for r in recorders for x in r.post_s]),
-                       "p95": percentile(sorted(x for r in recorders for x in r.post_s), 0.95)},
-            "failures": sum(len(r.failures) for r in recorders),
-            "failures_first": [f for r in recorders for f in r.failures][:5],
-            "stream_reconnects": reader.reconnects, "stream_errors": reader.errors[:5],
-            "cpu": {"window_s": round(w1 - w0, 1), "gunicorn_cpu_s": round(cpu1 - cpu0, 1),
-                    "gunicorn_cores": round((cpu1 - cpu0) / (w1 - w0), 3),
-                    "database_cores": round((db1 - db0) / (w1 - w0), 3) if db_pid else None}}
+    return {
+        "acked": len(acked),
+        "followed": sum(1 for k in acked if k[0] in followed),
+        "lost": len(lost),
+        "lost_first": lost[:5],
+        "stored": stored_counts(url, ids),
+        "acked_by_run": {rec.live_id: args.preload + len(rec.acked) for rec in recorders},
+        "latency_s": {
+            "median": statistics.median(latencies) if latencies else None,
+            "p95": percentile(latencies, 0.95),
+            "max": latencies[-1] if latencies else None,
+            "n": len(latencies),
+        },
+        "post_s": {
+            "median": statistics.median([x for r in recorders for x in r.post_s]),
+            "p95": percentile(sorted(x for r in recorders for x in r.post_s), 0.95),
+        },
+        "failures": sum(len(r.failures) for r in recorders),
+        "failures_first": [f for r in recorders for f in r.failures][:5],
+        "stream_reconnects": reader.reconnects,
+        "stream_errors": reader.errors[:5],
+        "cpu": {
+            "window_s": round(w1 - w0, 1),
+            "gunicorn_cpu_s": round(cpu1 - cpu0, 1),
+            "gunicorn_cores": round((cpu1 - cpu0) / (w1 - w0), 3),
+            "database_cores": round((db1 - db0) / (w1 - w0), 3) if db_pid else None,
+        },
+    }
 
 
 def stored_counts(url: str, ids: list[int]) -> dict[int, int]:
@@ -181,8 +215,13 @@ def stored_counts(url: str, ids: list[int]) -> dict[int, int]:
     engine = make_engine(url)
     try:
         with engine.connect() as c:
-            return dict(c.execute(sa.select(LiveReading.live_run_id, sa.func.count())
-                                  .where(LiveReading.live_run_id.in_(ids)).group_by(LiveReading.live_run_id)).all())
+            return dict(
+                c.execute(
+                    sa.select(LiveReading.live_run_id, sa.func.count())
+                    .where(LiveReading.live_run_id.in_(ids))
+                    .group_by(LiveReading.live_run_id)
+                ).all()
+            )
     finally:
         engine.dispose()
 
@@ -205,19 +244,31 @@ def problems(res: dict[str, Any], limit_s: float) -> list[str]:
 def main(argv: list[str] | None = None) -> int:
     args = parse_args(argv)
     name = f"live-{'page' if args.page else 'room'}-{args.runs}-{args.db}"
-    with tempfile.TemporaryDirectory(prefix="cupcal-live-bench-") as tmp, \
-            fresh_database(args.db, Path(tmp)) as (url, db_text, db_pid):
+    with (
+        tempfile.TemporaryDirectory(prefix="cupcal-live-bench-") as tmp,
+        fresh_database(args.db, Path(tmp)) as (url, db_text, db_pid),
+    ):
         res = measure(args, url, db_pid, Path(tmp))
-    res.update(config={"db": db_text, "runs": args.runs, "preload": args.preload, "rate_per_s": args.rate,
-                       "duration_s": args.duration, "workers": args.workers,
-                       "followed": "live page of run 1" if args.page else "room view"})
+    res.update(
+        config={
+            "db": db_text,
+            "runs": args.runs,
+            "preload": args.preload,
+            "rate_per_s": args.rate,
+            "duration_s": args.duration,
+            "workers": args.workers,
+            "followed": "live page of run 1" if args.page else "room view",
+        }
+    )
     limit = 1.0 if args.page else 2.0
     bad = problems(res, limit)
     lat = res["latency_s"]
-    print(f"{name}: {res['followed']} readings followed, {res['lost']} lost; latency median {lat['median']:.3f} s, "
-          f"p95 {lat['p95']:.3f} s, max {lat['max']:.3f} s; POST median {res['post_s']['median']:.3f} s; "
-          f"gunicorn CPU {res['cpu']['gunicorn_cores']:.2f} cores"
-          + (f", database {res['cpu']['database_cores']:.2f} cores" if res['cpu']['database_cores'] is not None else ""))
+    print(
+        f"{name}: {res['followed']} readings followed, {res['lost']} lost; latency median {lat['median']:.3f} s, "
+        f"p95 {lat['p95']:.3f} s, max {lat['max']:.3f} s; POST median {res['post_s']['median']:.3f} s; "
+        f"gunicorn CPU {res['cpu']['gunicorn_cores']:.2f} cores"
+        + (f", database {res['cpu']['database_cores']:.2f} cores" if res["cpu"]["database_cores"] is not None else "")
+    )
     RESULTS.mkdir(exist_ok=True)
     (RESULTS / f"{name}.json").write_text(json.dumps(res, indent=2, default=str), encoding="utf-8")
     for line in bad:

@@ -34,8 +34,13 @@ from tests.benchmarks.cells import KINDS, RESOLUTIONS, cell_seed0, coverage_inte
 N_CELL = int(os.environ.get("CUPCAL_CELL_RUNS", "200"))
 CELL_KINDS = tuple(k for k in os.environ.get("CUPCAL_CELL_KINDS", ",".join(KINDS)).split(",") if k)
 N_TRUE = int(os.environ.get("CUPCAL_TRUENESS_RUNS", "100"))
-TRUENESS_LIMIT = {"dissolution": 0.003, "reaction": 0.003, "neutralization": 0.001,
-                  "electrical-calibration": 0.001, "mixing-calibration": 0.001}
+TRUENESS_LIMIT = {
+    "dissolution": 0.003,
+    "reaction": 0.003,
+    "neutralization": 0.001,
+    "electrical-calibration": 0.001,
+    "mixing-calibration": 0.001,
+}
 
 
 def _cells(generator: str) -> dict[tuple[str, float, bool], list]:
@@ -63,9 +68,11 @@ def test_cells(generator):
             misses.append(f"{k} q={q:g} {'given' if g else 'detected'}: coverage {100 * s['coverage']:.1f} %")
     total = summary(all_runs)
     big = [r for r in all_runs if r.steps >= 20]
-    print(f"  all {len(all_runs)} runs: silent results > 5 % off: {total['silent_gross']}; refused "
-          f"{sum(r.refused for r in big)} of {len(big)} runs with |ΔT| ≥ 20 q "
-          f"({100 * total['refused_big_share']:.2f} %)")
+    print(
+        f"  all {len(all_runs)} runs: silent results > 5 % off: {total['silent_gross']}; refused "
+        f"{sum(r.refused for r in big)} of {len(big)} runs with |ΔT| ≥ 20 q "
+        f"({100 * total['refused_big_share']:.2f} %)"
+    )
     for r in [r for r in all_runs if not r.refused and abs(r.rel_error) > 0.05 and not r.warned][:10]:
         print(f"    silent: {r.kind} seed {r.seed} error {100 * r.rel_error:+.1f} %")
     assert total["silent_gross"] == 0
@@ -81,8 +88,10 @@ def test_trueness_with_the_mixing_time_detected(generator):
         runs = run_cell(generator, k, 0.001, False, N_TRUE, seed0=200_000, artefacts=False)
         ok = [r for r in runs if not r.refused]
         p90 = float(np.percentile([abs(r.rel_error) for r in ok], 90)) if ok else math.inf
-        print(f"  {k:<24} P90 |error| {100 * p90:.3f} %  (limit {100 * TRUENESS_LIMIT[k]:.1f} %), "
-              f"refused {len(runs) - len(ok)}")
+        print(
+            f"  {k:<24} P90 |error| {100 * p90:.3f} %  (limit {100 * TRUENESS_LIMIT[k]:.1f} %), "
+            f"refused {len(runs) - len(ok)}"
+        )
         if p90 > TRUENESS_LIMIT[k]:
             bad.append(f"{k}: {100 * p90:.3f} %")
     assert not bad, "; ".join(bad)

@@ -15,8 +15,8 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from calc.deltat.base import Log
-from calc.deltat.registry import METHODS, corrected_delta_t
 from calc.deltat.periods import find_periods
+from calc.deltat.registry import METHODS, corrected_delta_t
 from tests.calc.closed_form import probe_temperature, true_temperature
 
 BASE = dict(T_inf=295.15, k=1 / 3600, T0=294.65, t_m=300.0, D=2.0, k_r=1 / 20, s=1 / 5)
@@ -46,9 +46,13 @@ def test_closed_form_matches_numerical_integration():
     t_eval = np.arange(0, 1200.0, 5.0)
     sol1 = solve_ivp(rhs, (0, p["t_m"]), [T0, Ts0], rtol=1e-11, atol=1e-12, max_step=1.0, dense_output=True)
     sol2 = solve_ivp(rhs, (p["t_m"], 1200.0), sol1.y[:, -1], rtol=1e-11, atol=1e-12, max_step=1.0, dense_output=True)
-    num = np.where(t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[1], sol2.sol(np.maximum(t_eval, p["t_m"]))[1])
+    num = np.where(
+        t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[1], sol2.sol(np.maximum(t_eval, p["t_m"]))[1]
+    )
     assert np.max(np.abs(num - probe_temperature(t_eval, **p))) < 1e-6
-    num_T = np.where(t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[0], sol2.sol(np.maximum(t_eval, p["t_m"]))[0])
+    num_T = np.where(
+        t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[0], sol2.sol(np.maximum(t_eval, p["t_m"]))[0]
+    )
     tp = {k: v for k, v in p.items() if k != "s"}
     assert np.max(np.abs(num_T - true_temperature(t_eval, **tp))) < 1e-6
 

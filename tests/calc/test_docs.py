@@ -21,8 +21,20 @@ ROOT = Path(__file__).resolve().parents[2]
 METHODS_MD = ROOT / "docs" / "methods.md"
 
 #: Directories that are not part of the repository's own text.
-SKIP_DIRS = {".git", ".venv", "venv", "node_modules", "__pycache__", ".pytest_cache", ".mypy_cache",
-             ".ruff_cache", "build", "dist", "instance", ".eggs"}
+SKIP_DIRS = {
+    ".git",
+    ".venv",
+    "venv",
+    "node_modules",
+    "__pycache__",
+    ".pytest_cache",
+    ".mypy_cache",
+    ".ruff_cache",
+    "build",
+    "dist",
+    "instance",
+    ".eggs",
+}
 MAX_BYTES = 2_000_000
 
 # Spelled in two pieces so that this file does not cite the outside brief itself.
@@ -92,9 +104,7 @@ def test_the_walk_sees_the_repository():
 
 def test_no_file_cites_the_outside_brief():
     bad = [
-        f"{path}:{_line(text, m.start())}"
-        for path, text in repository_texts()
-        for m in OUTSIDE_CITATION.finditer(text)
+        f"{path}:{_line(text, m.start())}" for path, text in repository_texts() for m in OUTSIDE_CITATION.finditer(text)
     ]
     assert bad == [], "cite docs/methods.md instead of the brief outside the repository: " + ", ".join(bad)
 
@@ -118,11 +128,7 @@ def test_methods_document_has_the_agreed_numbering():
 
 def test_every_citation_names_an_existing_section():
     known = sections()
-    citations = [
-        (path, line, number)
-        for path, text in repository_texts()
-        for line, number in cited_sections(text)
-    ]
+    citations = [(path, line, number) for path, text in repository_texts() for line, number in cited_sections(text)]
     assert len(citations) >= 50  # the code and tests cite the document throughout
     bad = [f"{path}:{line} §{number}" for path, line, number in citations if number not in known]
     assert bad == [], "citations of sections that docs/methods.md does not have: " + ", ".join(bad)
@@ -153,4 +159,3 @@ def test_cross_references_inside_the_methods_document_exist():
 )
 def test_citation_pattern(text: str, expected: list[str]) -> None:
     assert [n for _, n in cited_sections(text)] == expected
-

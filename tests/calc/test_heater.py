@@ -19,9 +19,20 @@ from calc.simulation.simulator import simulate_electrical_calibration, write_run
 
 def short_log(tmp_path: Path, seed: int, tail_s: float, **kw: float) -> tuple[Path, object]:
     """A Dewar-sized calibration whose log ends ``tail_s`` after the heater stops."""
-    sim = simulate_electrical_calibration(seed, c_cal=133.0, duration_s=120.0, after_s=120.0 + tail_s, fore_s=60,
-                                          tau_s=4.0, noise=0.003, resolution=0.01, voltage_V=6.0, current_A=2.0,
-                                          tau_h=3000, **kw)
+    sim = simulate_electrical_calibration(
+        seed,
+        c_cal=133.0,
+        duration_s=120.0,
+        after_s=120.0 + tail_s,
+        fore_s=60,
+        tau_s=4.0,
+        noise=0.003,
+        resolution=0.01,
+        voltage_V=6.0,
+        current_A=2.0,
+        tau_h=3000,
+        **kw,
+    )
     return write_run(sim, tmp_path, f"cal{seed}"), sim
 
 

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 
 from calc.deltat.base import DeltaT
+from calc.io.runfile import parse_run
 from calc.uncertainty.gum import propagate
 from calc.uncertainty.measurement_models import RunProperties, build_model
-from calc.io.runfile import parse_run
 
 
 def _dt(value: float, start_K: float) -> DeltaT:

@@ -22,6 +22,7 @@ from typing import NamedTuple
 import pytest
 
 from calc.errors import InputError
+from calc.refdata.dilution import WIDE_RANGE_MODEL
 from calc.refdata.hess import Species, formation_table, hess, parse_species
 from calc.refdata.reference import (
     certified_references,
@@ -70,6 +71,7 @@ def test_every_source_id_has_a_citation() -> None:
 
 
 # ----------------------------------------------- ΔfH° and Cp° against the CRC tables
+
 
 class KnownDifference(NamedTuple):
     """An entry where the CRC Handbook does not print the NBS 1982 value, and why.
@@ -144,8 +146,9 @@ def _crc_ion_key(formula: str, charge: int) -> str:
     return f"{formula}{sign}" if abs(charge) == 1 else f"{formula}{sign}{abs(charge)}"
 
 
-def _known_difference_failures(display: str, ours: float, crc_value: float, known: KnownDifference,
-                               tolerance: float = DFH_TOLERANCE) -> list[tuple]:
+def _known_difference_failures(
+    display: str, ours: float, crc_value: float, known: KnownDifference, tolerance: float = DFH_TOLERANCE
+) -> list[tuple]:
     out = []
     if abs(ours - known.nbs1982) > 0.0005:
         out.append((display, "our table", ours, "NBS 1982 typed again", known.nbs1982))
@@ -167,7 +170,8 @@ def test_a_typo_in_the_table_is_not_taken_for_a_known_difference() -> None:
 def test_every_known_difference_names_its_compilation() -> None:
     for display, known in {**KNOWN_DFH_DIFFERENCES, **KNOWN_CP_DIFFERENCES}.items():
         assert known.compilation == _UNNAMED or (
-            known.other is not None and ("(from memory)" in known.compilation or "read from" in known.compilation)), display
+            known.other is not None and ("(from memory)" in known.compilation or "read from" in known.compilation)
+        ), display
 
 
 def _crc_value(e, quantity: str, scale: float) -> float | None:
@@ -333,14 +337,14 @@ def test_unknown_solute_has_no_reference() -> None:
 
 def test_srm_1655_reproduced_from_infinite_dilution_and_phi_L() -> None:
     # SRM 1655 (Kilday 1980, from memory): 17.584 kJ/mol at 0.111 mol/kg, 298.15 K.
-    # Route: ΔsolH°(KCl) (CRC table, from memory) + φ_L(0.111 mol/kg) (Pitzer with the
-    # Silvester & Pitzer 1978 parameters, from memory).
+    # Route: ΔsolH°(KCl) (CRC table, from memory) + φ_L(0.111 mol/kg) (Archer's 1999 KCl model,
+    # tabulated from pytzer, docs/methods.md §4.6).
     srm = find_reference("dissolution", name="SRM 1655")
     assert srm is not None and srm.molality == pytest.approx(0.111) and srm.value == 17.584
     inf = solution_enthalpy("KCl")
     assert inf is not None and inf.molality is None
     phi = phi_L("KCl", 0.111, 298.15)
-    assert phi is not None and phi.model == "Pitzer"
+    assert phi is not None and phi.model == WIDE_RANGE_MODEL
     predicted = inf.value + phi.value
     tol = 2.0 * math.sqrt(inf.u**2 + phi.u**2 + srm.u**2)
     assert abs(predicted - srm.value) <= tol, (predicted, tol)
@@ -430,6 +434,18 @@ def test_phi_L_of_an_acid_is_larger() -> None:
     hcl = phi_L("HCl", 1.0).value
     nacl = phi_L("NaCl", 1.0).value
     assert hcl > 0.6 and hcl > 3 * abs(nacl)
+
+
+@pytest.mark.parametrize(("salt", "m_max"), [("NaCl", 6.0), ("KCl", 4.5), ("HCl", 4.5)])
+def test_phi_L_wide_range_table_covers_its_stated_range(salt: str, m_max: float) -> None:
+    # docs/methods.md §4.6: the table runs 0–50 °C up to 6.0 (NaCl) or 4.5 mol/kg; beyond it no value
+    # (from 0.5 °C: at exactly 0 °C calc's Debye–Hückel slope steps below its water model's range)
+    for T in (273.65, 298.15, 323.15):
+        for m in (1e-4, 0.111, m_max):
+            got = phi_L(salt, m, T)
+            assert got is not None and got.model == WIDE_RANGE_MODEL and got.u > 0, (salt, m, T)
+    assert phi_L(salt, m_max * 1.01, 298.15) is None
+    assert phi_L(salt, 1.0, 323.65) is None
 
 
 def test_phi_L_fallback_and_none() -> None:

@@ -8,11 +8,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import form_from_demo
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import post_form
+from tests.webapp.conftest import demo_files, sign_in
+from tests.webapp.page_helpers import form_from_demo, hidden, post_form
 from webapp.models import Run
 
 
@@ -50,22 +47,23 @@ def test_a_save_without_the_token_saves_nothing(client: Any, lab: Any, session: 
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
 
 
-def test_two_saves_at_the_same_moment_make_one_run(app: Any, lab: Any, session: Any,
-                                                   monkeypatch: pytest.MonkeyPatch) -> None:
-    from webapp.runs import new
+def test_two_saves_at_the_same_moment_make_one_run(
+    app: Any, lab: Any, session: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from webapp.runs import create_views
 
     clients = [app.test_client(), app.test_client()]
     for c in clients:
         sign_in(c, "a1@lab.example")
     fields, extra, csv = _preview(clients[0], lab)
     barrier = threading.Barrier(2, timeout=30)
-    real = new.record_run
+    real = create_views.record_run
 
     def both_past_the_token_check(*args: Any, **kwargs: Any) -> Any:
         barrier.wait()  # both requests have looked for the token and found no run
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(new, "record_run", both_past_the_token_check)
+    monkeypatch.setattr(create_views, "record_run", both_past_the_token_check)
     answers: list[Any] = []
 
     def press(c: Any) -> None:

@@ -11,7 +11,7 @@ from calc import kinds
 from calc.analysis import analyze_run
 from calc.report import format_report
 from webapp.planning.views import KIND_TITLES as PLAN_TITLES
-from webapp.runs.runform import KIND_TITLES as FORM_TITLES
+from webapp.runs.entry_form import KIND_TITLES as FORM_TITLES
 
 ROOT = Path(__file__).resolve().parents[2]
 

@@ -2,11 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import Flask
-from flask import redirect
-from flask import request
-from flask import url_for
+from flask import Blueprint, Flask, redirect, request, url_for
 from flask_login import LoginManager
 from flask_wtf.csrf import CSRFProtect
 
@@ -36,7 +32,7 @@ def _load_person(person_id: str):  # type: ignore[no-untyped-def]
 @login_manager.unauthorized_handler
 def _unauthorized():  # type: ignore[no-untyped-def]
     if request.path.startswith("/api/"):
-        from webapp.errors import json_error
+        from webapp.error_handlers import json_error
 
         return json_error(401, "sign in, or send an API token: Authorization: Bearer <token>")
     return redirect(url_for("auth.login", next=request.full_path if request.query_string else request.path))

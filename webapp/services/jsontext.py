@@ -11,7 +11,6 @@ import json
 from typing import Any
 
 from calc import limits
-
 from webapp.services.errors import Invalid
 
 
@@ -48,6 +47,7 @@ def _unicode(text: str, field: str) -> None:
 def refuse_nul_in_form(values: Any) -> None:
     """Refuse (400) a form or query value holding NUL (U+0000), naming the field."""
     for name, value in values.items(multi=True):
+        name = name if isinstance(name, str) else ""  # a multipart part may come with no name at all
         if "\x00" in name or (isinstance(value, str) and "\x00" in value):
             raise Invalid("NUL (U+0000) is not allowed in text", field=limits.shorten(name.replace("\x00", "?")))
 
@@ -57,8 +57,9 @@ def load_json(raw: bytes | str, field: str = "body") -> Any:
     try:
         data = json.loads(raw)
     except RecursionError:
-        raise Invalid(f"nested deeper than the limit json_depth = {limits.get('json_depth'):g} levels",
-                      field=field) from None
+        raise Invalid(
+            f"nested deeper than the limit json_depth = {limits.get('json_depth'):g} levels", field=field
+        ) from None
     except (ValueError, UnicodeDecodeError) as exc:  # JSONDecodeError, or an int of over 4300 digits
         raise Invalid(f"not valid JSON: {limits.shorten(str(exc))}", field=field) from None
     return checked_json(data, field)

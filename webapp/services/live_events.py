@@ -33,8 +33,9 @@ _log = logging.getLogger(__name__)
 def notify(session: so.Session, live_id: int) -> None:
     """Announce, when the session's transaction commits, that live run ``live_id`` changed (PostgreSQL)."""
     if session.get_bind().dialect.name == "postgresql":
-        session.execute(sa.text("SELECT pg_notify(:channel, :payload)"),
-                        {"channel": CHANNEL, "payload": str(int(live_id))})
+        session.execute(
+            sa.text("SELECT pg_notify(:channel, :payload)"), {"channel": CHANNEL, "payload": str(int(live_id))}
+        )
 
 
 class _Listener:
@@ -117,12 +118,12 @@ class Waiter:
     def wait(self, timeout: float) -> None:
         """Return after a notice about the stream's run (PostgreSQL), after :data:`SQLITE_POLL_S` (SQLite),
         or at ``timeout``; never sooner than :data:`MIN_GAP_S` after the last return."""
+        if self.listener is None:  # the poll's own period keeps reads apart
+            time.sleep(min(SQLITE_POLL_S, max(timeout, 0.0)))
+            return
         gap = MIN_GAP_S - (time.monotonic() - self.last)
         if gap > 0:
             time.sleep(gap)
         timeout = max(timeout - max(gap, 0.0), 0.0)
-        if self.listener is None:
-            time.sleep(min(SQLITE_POLL_S, timeout))
-        else:
-            self.seen = self.listener.wait(self.live_id, self.seen, min(SAFETY_POLL_S, timeout))
+        self.seen = self.listener.wait(self.live_id, self.seen, min(SAFETY_POLL_S, timeout))
         self.last = time.monotonic()

@@ -98,7 +98,7 @@
 
   // the page's words for the advisor's warning codes (the advisor's own message follows)
   var WARNING_NAMES = {fore_drift: "Fore period drifting", spike: "Spike in the readings",
-    probe_out: "Probe out of the liquid?", readings_stopped: "Readings stopped", fore_short: "Fore period short",
+    probe_out: "Probe out of the liquid", readings_stopped: "Readings stopped", fore_short: "Fore period short",
     too_noisy: "Readings noisy"};
 
   // follow a stream of Server-Sent Events; after three failures in a row (or with no EventSource, or

@@ -15,7 +15,7 @@
         if (!r) {
           r = runs[d.id] = {rows: [], advice: {}, lastReading: Date.now() - 1000 * (d.stale_s || 0)};
         }
-        if (d.readings && d.readings.length) { C.merge(r.rows, d.readings); r.lastReading = Date.now(); }
+        if (d.readings && d.readings.length) { C.merge(r.rows, d.readings); r.lastReading = Date.now() - 1000 * (d.stale_s || 0); }
         if (d.advice) { r.advice = d.advice; }
         ["state", "bench", "group", "title", "page_url", "last_seq"].forEach(function (k) { if (d[k] !== undefined) { r[k] = d[k]; } });
         r.dirty = true;
@@ -81,7 +81,7 @@
       if (s.textContent !== line) { s.textContent = line; }
     }
 
-    apply(JSON.parse(document.getElementById("room-data").textContent));
+    apply(JSON.parse(root.getAttribute("data-initial")));
     C.follow({
       eventName: "room",
       eventsUrl: function () { return root.getAttribute("data-events") + "?since=" + encodeURIComponent(cursor); },

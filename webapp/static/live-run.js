@@ -7,7 +7,7 @@
   function start() {
     var root = document.getElementById("live-run");
     if (!root || !window.cupcalCurve) { return; }
-    var C = window.cupcalCurve, first = JSON.parse(document.getElementById("live-data").textContent);
+    var C = window.cupcalCurve, first = JSON.parse(root.getAttribute("data-initial"));
     var st = {rows: [], advice: first.advice || {}, seq: -1, adviceSeq: first.advice_seq, state: first.state,
       shown: first.shown || {}, lastReading: Date.now() - 1000 * (first.stale_s || 0), lastWord: Date.now()};
     root.setAttribute("data-mode", "starting");
@@ -16,7 +16,7 @@
       if (d.readings && d.readings.length) {
         C.merge(st.rows, d.readings);
         st.seq = st.rows[st.rows.length - 1][0];
-        st.lastReading = Date.now();
+        st.lastReading = Date.now() - 1000 * (d.stale_s || 0);  // the server knows when it came
       }
       if (d.advice) { st.advice = d.advice; st.adviceSeq = d.advice_seq; st.shown = d.shown || {}; }
       st.state = d.state || st.state;
