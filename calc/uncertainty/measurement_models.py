@@ -110,12 +110,31 @@ def _dt_inputs(dt: DeltaT, *, start_apart: bool = False) -> list[Input]:
     u_fit = math.sqrt(max(dt.u_fit**2 - dt.u_start_temperature**2, 0.0)) if start_apart else dt.u_fit
     what = "drift fits without the start level" if start_apart else "drift fits"
     return [
-        Input("delta_t.fit", dt.value, u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
-              dt.dof_fit, label=f"corrected ΔT, {what} ({dt.method})"),
-        Input("delta_t.resolution_start", 0.0, dt.u_resolution_start, "K", "rectangular",
-              label="thermometer resolution, start level"),
-        Input("delta_t.resolution_end", 0.0, dt.u_resolution_end, "K", "rectangular",
-              label="thermometer resolution, end level"),
+        Input(
+            "delta_t.fit",
+            dt.value,
+            u_fit,
+            "K",
+            "t" if math.isfinite(dt.dof_fit) else "normal",
+            dt.dof_fit,
+            label=f"corrected ΔT, {what} ({dt.method})",
+        ),
+        Input(
+            "delta_t.resolution_start",
+            0.0,
+            dt.u_resolution_start,
+            "K",
+            "rectangular",
+            label="thermometer resolution, start level",
+        ),
+        Input(
+            "delta_t.resolution_end",
+            0.0,
+            dt.u_resolution_end,
+            "K",
+            "rectangular",
+            label="thermometer resolution, end level",
+        ),
         Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
         Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
         Input(

@@ -79,8 +79,9 @@ def coverage_interval(covered: int, n: int, level: float = 0.95) -> tuple[float,
     return float(ci.low), float(ci.high)
 
 
-def run_cell(generator: str, kind: str, resolution: float, given: bool, n: int, *, seed0: int = 0,
-             artefacts: bool = True) -> list[CellRun]:
+def run_cell(
+    generator: str, kind: str, resolution: float, given: bool, n: int, *, seed0: int = 0, artefacts: bool = True
+) -> list[CellRun]:
     """Analyse ``n`` generated runs of one cell (see the module docstring)."""
     out = []
     with tempfile.TemporaryDirectory() as tmp:

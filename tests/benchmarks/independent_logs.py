@@ -193,16 +193,30 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         truth, scale, key = dh, abs(dh), "molar_enthalpy"
         cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
         if kind == "dissolution":
-            body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
-                     f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"', "[solute]", f'formula = "{salt}"',
-                     f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
-                     "[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"']
+            body += [
+                "[water]",
+                f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+                "[solute]",
+                f'formula = "{salt}"',
+                f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
+                "[mixture]",
+                f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+            ]
         else:
             stated_mass = _stated(srng, mass, u_mass, "g", 4)
-            body += ["[solution]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
-                     "[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
-                     "[reaction]", 'equation = "Mg(s) + 2 H+(aq) -> Mg2+(aq) + H2(g)"', 'limiting_reagent = "Mg"',
-                     f'mass = "{stated_mass}"', "coefficient = 1"]
+            body += [
+                "[solution]",
+                f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+                "[mixture]",
+                f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+                "[reaction]",
+                'equation = "Mg(s) + 2 H+(aq) -> Mg2+(aq) + H2(g)"',
+                'limiting_reagent = "Mg"',
+                f'mass = "{stated_mass}"',
+                "coefficient = 1",
+            ]
     elif kind == "electrical-calibration":
         c_after = c_before = vol * 0.998 * CP_WATER + c_cal
         volt, amp = rng.uniform(3, 12), rng.uniform(0.5, 2.0)
@@ -222,10 +236,17 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         dT_true = p_on * t_d / c_after
         truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
         cal = None
-        body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
-                 "[heater]", f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
-                 f'current = "{_stated(srng, amp, 0.001, "A", 4)}"', f'duration = "{_stated(srng, t_d, 0.1, "s", 2)}"',
-                 "[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"']
+        body += [
+            "[water]",
+            f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+            f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+            "[heater]",
+            f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
+            f'current = "{_stated(srng, amp, 0.001, "A", 4)}"',
+            f'duration = "{_stated(srng, t_d, 0.1, "s", 2)}"',
+            "[mixture]",
+            f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+        ]
     else:  # two liquids
         v_a, v_b = rng.uniform(25, 60), rng.uniform(25, 60)
         c_a, c_b = v_a * 1.0 * CP_WATER, v_b * 1.0 * CP_WATER
@@ -241,11 +262,21 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             rel_end = t_m + 12 * tau_r
             truth, scale, key = dh, abs(dh), "molar_enthalpy"
             cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
-            body += ["[acid]", 'formula = "HCl"', f'concentration = "{_stated(srng, conc, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"', "equivalents = 1",
-                     "[base]", 'formula = "NaOH"', f'concentration = "{_stated(srng, conc * 1.05, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
-                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"', "equivalents = 1"]
+            body += [
+                "[acid]",
+                'formula = "HCl"',
+                f'concentration = "{_stated(srng, conc, 0.005, "mol/L", 4)}"',
+                f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                "equivalents = 1",
+                "[base]",
+                'formula = "NaOH"',
+                f'concentration = "{_stated(srng, conc * 1.05, 0.005, "mol/L", 4)}"',
+                f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"',
+                "equivalents = 1",
+            ]
         else:
             t_b = t0 + rng.uniform(15, 25)
             power = lambda u: 0.0  # noqa: E731
@@ -253,9 +284,15 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             q_heat = 0.0
             truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
             cal = None
-            body += ["[water]", f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
-                     "[warm_water]", f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
-                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"']
+            body += [
+                "[water]",
+                f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                "[warm_water]",
+                f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"',
+            ]
         body += ["[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"']
         jump = ("mix", c_b, t_b)
         dT_true = None  # set below from the contents at t_m

@@ -46,24 +46,34 @@ TRUENESS_LIMIT = {
 def _cells(generator: str) -> dict[tuple[str, float, bool], list]:
     unknown = set(CELL_KINDS) - set(KINDS)
     assert not unknown, f"CUPCAL_CELL_KINDS: unknown kinds {sorted(unknown)}; expected some of {KINDS}"
-    return {(k, q, g): run_cell(generator, k, q, g, N_CELL, seed0=cell_seed0(generator, k, q, g))
-            for k in CELL_KINDS for q in RESOLUTIONS for g in (True, False)}
+    return {
+        (k, q, g): run_cell(generator, k, q, g, N_CELL, seed0=cell_seed0(generator, k, q, g))
+        for k in CELL_KINDS
+        for q in RESOLUTIONS
+        for g in (True, False)
+    }
 
 
 @pytest.mark.parametrize("generator", ["sim", "indep"])
 def test_cells(generator):
     cells = _cells(generator)
-    print(f"\n[{generator}] {N_CELL} runs per cell; coverage of the analysed runs "
-          f"(binomial SD {100 * math.sqrt(0.95 * 0.05 / N_CELL):.1f} %)")
-    print(f"  {'kind':<24}{'q/K':>7}{'t_m':>10}{'coverage':>10}{'95 % CI':>14}{'refused':>9}{'P90|err|':>10}{'silent>5%':>10}")
+    print(
+        f"\n[{generator}] {N_CELL} runs per cell; coverage of the analysed runs "
+        f"(binomial SD {100 * math.sqrt(0.95 * 0.05 / N_CELL):.1f} %)"
+    )
+    print(
+        f"  {'kind':<24}{'q/K':>7}{'t_m':>10}{'coverage':>10}{'95 % CI':>14}{'refused':>9}{'P90|err|':>10}{'silent>5%':>10}"
+    )
     misses, all_runs = [], []
     for (k, q, g), runs in cells.items():
         s = summary(runs)
         all_runs += runs
         lo, hi = coverage_interval(s["covered"], s["analysed"])
-        print(f"  {k:<24}{q:>7g}{'given' if g else 'detected':>10}{100 * s['coverage']:>9.1f}%"
-              f"{f'{100 * lo:.1f}–{100 * hi:.1f}':>14}"
-              f"{s['refused']:>9d}{100 * s['p90']:>9.2f}%{s['silent_gross']:>10d}")
+        print(
+            f"  {k:<24}{q:>7g}{'given' if g else 'detected':>10}{100 * s['coverage']:>9.1f}%"
+            f"{f'{100 * lo:.1f}–{100 * hi:.1f}':>14}"
+            f"{s['refused']:>9d}{100 * s['p90']:>9.2f}%{s['silent_gross']:>10d}"
+        )
         if not 0.93 <= s["coverage"] <= 0.97:
             misses.append(f"{k} q={q:g} {'given' if g else 'detected'}: coverage {100 * s['coverage']:.1f} %")
     total = summary(all_runs)

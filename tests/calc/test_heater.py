@@ -85,6 +85,12 @@ def test_after_periods_shorter_than_five_minutes_get_the_stability_term() -> Non
     t_off = 100.0 + 300.0  # mixing time + duration
     for length, expect in ((200.0, 0.01 / math.sqrt(3.0)), (SETTLED_AFTER_S, 0.0)):
         start = t_off + HEATER_LAG_S
-        per = Periods(fore=(0.0, 99.0), after=(start, start + length), mixing_time=100.0, u_mixing_time=0.0,
-                      mixing_time_detected=False, main_end=start)
+        per = Periods(
+            fore=(0.0, 99.0),
+            after=(start, start + length),
+            mixing_time=100.0,
+            u_mixing_time=0.0,
+            mixing_time_detected=False,
+            main_end=start,
+        )
         assert lag_term(1.0, per, t, 300.0, lambda after: 1.01) == pytest.approx(expect, rel=1e-9)

@@ -113,8 +113,7 @@ temperature = "45.00 ± 0.05 degC"
 
 def _start_only(value: float, start_K: float, u_start: float) -> DeltaT:
     """A ΔT whose only uncertainty is the fore line's level at the mixing time (inside its fit term)."""
-    return DeltaT("regnault-pfaundler", value, u_start, math.inf, 0.0, 0.0, 0.0, 0.0, start_K, u_start,
-                  start_K + value)
+    return DeltaT("regnault-pfaundler", value, u_start, math.inf, 0.0, 0.0, 0.0, 0.0, start_K, u_start, start_K + value)
 
 
 def _start_share_u(g, names: tuple[str, ...]) -> float:
@@ -135,8 +134,11 @@ def test_neutralization_counts_the_acid_start_level_once():
     props.add("base.density", 1.040, 0.0, "g/mL", "run file")
     props.add("mixture.specific_heat_capacity", 3.960, 0.0, "J/(g*K)", "run file")
     T_A, T_B, dT, u = 295.15, 295.65, 6.500, 0.02
-    g = propagate(build_model(spec, _start_only(dT, T_A, u), props).inputs,
-                  build_model(spec, _start_only(dT, T_A, u), props).model, "heat")
+    g = propagate(
+        build_model(spec, _start_only(dT, T_A, u), props).inputs,
+        build_model(spec, _start_only(dT, T_A, u), props).model,
+        "heat",
+    )
     rng = np.random.default_rng(20261205)
     e = rng.normal(0.0, u, 400_000)
     m_a, m_b, c, C_cal = 50.00 * 1.016, 50.00 * 1.040, 3.960, 20.0
@@ -151,8 +153,11 @@ def test_mixing_calibration_counts_the_cool_start_level_once():
     """Independent check: the same draw through C_cal = c_warm (T_w − T_end)/(T_end − T_c) − c_cool."""
     spec = parse_run(MIXCAL, source="m.toml")
     props = RunProperties()
-    for name, v in (("water.density", 0.9978), ("warm_water.density", 0.9902),
-                    ("mixture.specific_heat_capacity", 4.181)):
+    for name, v in (
+        ("water.density", 0.9978),
+        ("warm_water.density", 0.9902),
+        ("mixture.specific_heat_capacity", 4.181),
+    ):
         props.add(name, v, 0.0, "g/mL" if "density" in name else "J/(g*K)", "run file")
     T_c, dT, u = 295.15, 10.80, 0.02
     ms = build_model(spec, _start_only(dT, T_c, u), props)
