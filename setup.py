@@ -21,8 +21,7 @@ class BuildWithMigrations(build_py):
             return  # the editable install reads migrations/ in place
         source = Path(__file__).resolve().parent / "migrations"
         target = Path(self.build_lib) / "webapp" / "_migrations"
-        shutil.copytree(source, target, dirs_exist_ok=True,
-                        ignore=shutil.ignore_patterns("__pycache__", "*.pyc"))
+        shutil.copytree(source, target, dirs_exist_ok=True, ignore=shutil.ignore_patterns("__pycache__", "*.pyc"))
 
 
 setup(cmdclass={"build_py": BuildWithMigrations})

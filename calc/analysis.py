@@ -12,18 +12,18 @@ import os
 from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
 from calc import limits
 from calc.checks import run_checks
 from calc.composition import final_composition, resolve_properties
+from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
 from calc.deltat.heater import heater_periods, lag_term, widened
 from calc.deltat.logprep import PreparedLog, gap_warnings, prepare_log
-from calc.deltat.base import DEFAULT_METHOD, DeltaT, Log
-from calc.deltat.registry import corrected_delta_t
 from calc.deltat.periods import Periods, find_periods
+from calc.deltat.registry import corrected_delta_t
 from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings, read_readings
 from calc.io.runfile import RunSpec, load_run
@@ -135,7 +135,7 @@ def analyze_spec(
     kind = get_kind(spec.kind)
     analyze = kind.hook("analyze")
     if analyze is not None:  # a kind with an analysis of its own (the in-situ calibration)
-        return analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
+        return cast("Analysis", analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                               fore=fore, after=after, with_reference=with_reference,
                        calorimeter_type=calorimeter_type, history=history)
     try:
@@ -196,7 +196,7 @@ def _heater_duration(spec: RunSpec) -> float | None:
     """Return the heater's stated duration (s) of an electrical calibration, else None."""
     if not get_kind(spec.kind).timed_heater:
         return None
-    return spec.get("heater", "duration").m_as("s")
+    return cast("float | None", spec.get("heater", "duration").m_as("s"))
 
 
 def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, duration: float,

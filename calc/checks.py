@@ -30,13 +30,23 @@ import math
 from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass
 from functools import lru_cache
-from importlib import resources
 from typing import Any
 
 import numpy as np
 
-__all__ = ["Check", "run_checks", "solubility", "plausible_heat_capacity", "CALORIMETER_TYPES",
-           "DEFAULT_CALORIMETER_TYPE", "NEAR_SATURATION", "DELTA_T_TOLERANCE", "HISTORY_K"]
+from calc.refdata.datafiles import open_data
+
+__all__ = [
+    "Check",
+    "run_checks",
+    "solubility",
+    "plausible_heat_capacity",
+    "CALORIMETER_TYPES",
+    "DEFAULT_CALORIMETER_TYPE",
+    "NEAR_SATURATION",
+    "DELTA_T_TOLERANCE",
+    "HISTORY_K",
+]
 
 #: Percent of saturation from which a solute mass is flagged.
 NEAR_SATURATION = 85.0
@@ -81,15 +91,15 @@ def _solubility_table() -> dict[str, tuple[np.ndarray, np.ndarray, str]]:
     from calc.refdata.species import citation
 
     rows: dict[str, list[tuple[float, float, str]]] = {}
-    with (resources.files("calc.refdata") / "data" / "solubility.csv").open(encoding="utf-8", newline="") as fh:
+    with open_data("solubility.csv") as fh:
         for row in csv.DictReader(fh):
             rows.setdefault(row["formula"], []).append(
-                (float(row["t_C"]), float(row["g_per_100g_water"]), row["source"]))
+                (float(row["t_C"]), float(row["g_per_100g_water"]), row["source"])
+            )
     table = {}
     for formula, entries in rows.items():
         entries.sort()
-        table[formula] = (np.array([e[0] for e in entries]), np.array([e[1] for e in entries]),
-                          citation(entries[0][2]))
+        table[formula] = (np.array([e[0] for e in entries]), np.array([e[1] for e in entries]), citation(entries[0][2]))
     return table
 
 
@@ -113,9 +123,14 @@ def plausible_heat_capacity(kind: str | None, water_g: float | None) -> tuple[fl
     return low, high, label
 
 
-def run_checks(analysis: Any, *, calorimeter_type: str | None = None,
-               history: Sequence[tuple[float, float]] | None = None, reference: Any = None,
-               composition: Callable[[], tuple[dict[str, float], float]] | None = None) -> list[Check]:
+def run_checks(
+    analysis: Any,
+    *,
+    calorimeter_type: str | None = None,
+    history: Sequence[tuple[float, float]] | None = None,
+    reference: Any = None,
+    composition: Callable[[], tuple[dict[str, float], float]] | None = None,
+) -> list[Check]:
     """Return every plausibility check of an analysed run (:class:`calc.analysis.Analysis`).
 
     ``composition`` returns the final solution's solutes (formula → g) and water (g); the analysis
@@ -145,10 +160,10 @@ def _water_g(analysis: Any) -> float | None:
     for section, density in (("water", "water.density"), ("solution", "solution.density")):
         volume = spec.get(section, "volume")
         if volume is not None and density in analysis.properties.values:
-            return volume.m_as("mL") * analysis.properties.values[density][0]
+            return float(volume.m_as("mL") * analysis.properties.values[density][0])
     vals = analysis.properties.values
     if all(f"{s}.density" in vals for s in ("acid", "base")):  # two stocks mixed (a neutralization)
-        return sum(spec.get(s, "volume").m_as("mL") * vals[f"{s}.density"][0] for s in ("acid", "base"))
+        return float(sum(spec.get(s, "volume").m_as("mL") * vals[f"{s}.density"][0] for s in ("acid", "base")))
     return None
 
 
@@ -170,9 +185,11 @@ def _solubility_check(analysis: Any) -> Check | None:
     if percent < NEAR_SATURATION:
         return None
     what = "more than dissolves" if percent > 100.0 else "close to saturation"
-    message = (f"{solute['mass'].text} of {solute['formula']} in {water:.1f} g of water is {per_100:.1f} g per 100 g, "
-               f"{percent:.0f} % of its solubility ({limit:.1f} g per 100 g at {coldest:.1f} °C; {source}): "
-               f"{what}; check the mass and the water volume")
+    message = (
+        f"{solute['mass'].text} of {solute['formula']} in {water:.1f} g of water is {per_100:.1f} g per 100 g, "
+        f"{percent:.0f} % of its solubility ({limit:.1f} g per 100 g at {coldest:.1f} °C; {source}): "
+        f"{what}; check the mass and the water volume"
+    )
     return Check("solubility", "warning", message, round(percent, 1))
 
 
@@ -197,9 +214,11 @@ def _concentration_check(analysis: Any, composition: Callable[[], tuple[dict[str
             continue
         w_max = row.cp_range[2]
         if w > w_max:
-            message = (f"the final solution's solute mass fraction {w:.3f} is beyond the range of the heat-capacity "
-                       f"model for {formula} (Laliberté, up to {w_max:.3f}): its c_p is extrapolated; give "
-                       "[mixture] specific_heat_capacity")
+            message = (
+                f"the final solution's solute mass fraction {w:.3f} is beyond the range of the heat-capacity "
+                f"model for {formula} (Laliberté, up to {w_max:.3f}): its c_p is extrapolated; give "
+                "[mixture] specific_heat_capacity"
+            )
             return Check("concentration_range", "warning", message, round(w, 4))
     return None
 
@@ -232,9 +251,11 @@ def _delta_t_check(analysis: Any, reference: Any) -> Check | None:
     tolerance = max(DELTA_T_TOLERANCE, 2.0 * math.hypot(own, 2.0 * reference.u / abs(reference.value)))
     if abs(rel) <= tolerance:
         return None
-    message = (f"the corrected ΔT {measured:+.3f} K differs by {100 * rel:+.0f} % from the {predicted:+.3f} K that "
-               f"{reference.name} ({reference.value:.2f} kJ/mol) predicts for this run's amounts: check the masses, "
-               "volumes, the formula and the mixing time")
+    message = (
+        f"the corrected ΔT {measured:+.3f} K differs by {100 * rel:+.0f} % from the {predicted:+.3f} K that "
+        f"{reference.name} ({reference.value:.2f} kJ/mol) predicts for this run's amounts: check the masses, "
+        "volumes, the formula and the mixing time"
+    )
     return Check("delta_t_expected", "warning", message, round(100.0 * rel, 1))
 
 
@@ -244,9 +265,9 @@ def _heat_capacity_check(analysis: Any, calorimeter_type: str | None) -> Check |
     if analysis.main == "calorimeter_heat_capacity":
         c, u = analysis.gum.values[analysis.main], analysis.gum.uncertainties[analysis.main]
         what = "measured"
-    elif "heat_capacity_total" in analysis.gum.values and _water_g(analysis):
+    elif "heat_capacity_total" in analysis.gum.values and (water_g := _water_g(analysis)):
         # an in-situ heater measures cup + solution: less the water's share, roughly the cup's
-        c = analysis.gum.values["heat_capacity_total"] - _water_g(analysis) * _WATER_CP
+        c = analysis.gum.values["heat_capacity_total"] - water_g * _WATER_CP
         u = analysis.gum.uncertainties["heat_capacity_total"]
         what = "implied (heater's cup + solution less the water)"
     else:
@@ -261,8 +282,10 @@ def _heat_capacity_check(analysis: Any, calorimeter_type: str | None) -> Check |
         return None
     hint = "" if kind else " (if this is a Dewar flask or a jacketed vessel, set [calorimeter] type)"
     fill = f" holding {water:.0f} g of water" if water else ""
-    message = (f"the {what} calorimeter heat capacity {c:.4g} ± {u:.2g} J/K is outside {low:g}–{high:.0f} J/K, "
-               f"the plausible range for a {label}{fill}{hint}: check the masses, temperatures and mixing time")
+    message = (
+        f"the {what} calorimeter heat capacity {c:.4g} ± {u:.2g} J/K is outside {low:g}–{high:.0f} J/K, "
+        f"the plausible range for a {label}{fill}{hint}: check the masses, temperatures and mixing time"
+    )
     return Check("calorimeter_heat_capacity", "warning", message, round(c, 3))
 
 
@@ -281,7 +304,9 @@ def _history_check(analysis: Any, history: Sequence[tuple[float, float]] | None)
     distance = abs(c - centre) / scale
     if distance <= HISTORY_K:
         return None
-    message = (f"this calibration, {c:.4g} ± {u:.2g} J/K, is {distance:.1f} standard uncertainties from the "
-               f"calorimeter's history (median {centre:.4g} J/K of {values.size} calibrations): repeat it before "
-               "using it")
+    message = (
+        f"this calibration, {c:.4g} ± {u:.2g} J/K, is {distance:.1f} standard uncertainties from the "
+        f"calorimeter's history (median {centre:.4g} J/K of {values.size} calibrations): repeat it before "
+        "using it"
+    )
     return Check("calibration_history", "warning", message, round(distance, 2))

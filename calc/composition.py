@@ -93,9 +93,7 @@ def reaction_solution_properties(spec: RunSpec, props: RunProperties, T0: float)
     """A solution of unstated composition: its density (else water's, with a warning)."""
     if not _explicit(spec, props, "solution", "density", "g/mL"):
         _water_density(props, "solution.density", T0)
-        props.warnings.append(
-            "solution density not given: the density of water was used; give [solution] density"
-        )
+        props.warnings.append("solution density not given: the density of water was used; give [solution] density")
     if spec.get("mixture", "specific_heat_capacity") is None and spec.sections.get("solute") is None:
         props.warnings.append(
             "specific heat capacity of the final solution not given: that of water was used; "
@@ -165,11 +163,15 @@ def neutralization_composition(spec: RunSpec, props: RunProperties) -> tuple[dic
     acid, base = spec.get("acid", "formula"), spec.get("base", "formula")
     na = spec.get("acid", "concentration").m_as("mol/L") * spec.get("acid", "volume").m_as("mL") / 1000
     nb = spec.get("base", "concentration").m_as("mol/L") * spec.get("base", "volume").m_as("mL") / 1000
-    total = (spec.get("acid", "volume").m_as("mL") * props.values["acid.density"][0]
-             + spec.get("base", "volume").m_as("mL") * props.values["base.density"][0])
+    total = (
+        spec.get("acid", "volume").m_as("mL") * props.values["acid.density"][0]
+        + spec.get("base", "volume").m_as("mL") * props.values["base.density"][0]
+    )
     if not (acid in STRONG_ACIDS and base in _CATIONS):
-        return ({acid: na * molar_mass(acid), base: nb * molar_mass(base)},
-                total - na * molar_mass(acid) - nb * molar_mass(base))
+        return (
+            {acid: na * molar_mass(acid), base: nb * molar_mass(base)},
+            total - na * molar_mass(acid) - nb * molar_mass(base),
+        )
     an, za = STRONG_ACIDS[acid], _eq(acid)
     cat, zb = _CATIONS[base], _eq(base)
     # salt formula with charge balance, e.g. Na2SO4, BaCl2

@@ -23,9 +23,16 @@ _KELVIN_OFFSET = 273.15
 # Below or above these magnitudes a fixed-point number is unreadable; use the exponent form.
 _FIXED_RANGE = (1e-4, 1e9)
 _UNIT_TEXT = {
-    "degC": "°C", "degree_Celsius": "°C", "°C": "°C", "C": "°C",
-    "degF": "°F", "degree_Fahrenheit": "°F", "°F": "°F", "F": "°F",
-    "K": "K", "kelvin": "K",
+    "degC": "°C",
+    "degree_Celsius": "°C",
+    "°C": "°C",
+    "C": "°C",
+    "degF": "°F",
+    "degree_Fahrenheit": "°F",
+    "°F": "°F",
+    "F": "°F",
+    "K": "K",
+    "kelvin": "K",
 }
 
 

@@ -28,17 +28,18 @@ measurement model and analyses the run end to end.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from scipy.optimize import least_squares
 
 from calc.deltat.base import resolution_term
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation, phi
-from calc.errors import AnalysisError, InputError
 from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.periods import MIN_WINDOW_POINTS, Periods, detect_mixing_time, find_periods
+from calc.errors import AnalysisError, InputError
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
 
@@ -180,7 +181,7 @@ def _dissolution_end(t: np.ndarray, y: np.ndarray, t_m: float, nxt: float, spec:
 
 def _window_model(params: np.ndarray, j: int, t: np.ndarray, c: float, t_ref: float) -> np.ndarray:
     level, a, k = params[j], params[-2], params[-1]
-    return level + (a - k * (level - t_ref)) * phi(k, t - c)
+    return cast(np.ndarray, level + (a - k * (level - t_ref)) * phi(k, t - c))
 
 
 def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[float, float]],
@@ -250,7 +251,9 @@ def _inner_weights(tt: np.ndarray, a: float, b: float) -> np.ndarray:
     return w[1:-1]
 
 
-def _event_delta_t(t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[float], t_ref: float):  # noqa: ANN202
+def _event_delta_t(
+    t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[float], t_ref: float
+) -> Callable[[np.ndarray], float]:
     inner = (t > ev.start) & (t < ev.main_end)
     tt, yy = t[inner], y[inner]
     w = _inner_weights(tt, ev.start, ev.main_end)
@@ -265,7 +268,7 @@ def _event_delta_t(t: np.ndarray, y: np.ndarray, ev: Event, i: int, refs: list[f
         t_f = float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])
         a, k = p[-2], p[-1]
         integral_t = inner_sum + w_a * t_i + w_b * t_f
-        return (t_f - t_i) - (a * span - k * (integral_t - t_ref * span))
+        return cast(float, (t_f - t_i) - (a * span - k * (integral_t - t_ref * span)))
 
     return f
 

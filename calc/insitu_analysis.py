@@ -8,7 +8,7 @@ factor.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -116,7 +116,7 @@ def dissolution_delta_t(fit: SharedFit) -> DeltaT:
     t_i, _t_f = fit.levels[i]
     construction = SharedFitConstruction(
         t_i=fit.events[i].start, t_f=fit.events[i].main_end, k_per_s=fit.k,
-        shared_windows=tuple(tuple(w) for w in fit.windows),
+        shared_windows=tuple((a, b) for a, b in fit.windows),
         events=tuple({"name": e.name, "start": e.start, "main_end": e.main_end, "delta_t": float(fit.delta_t[j]),
                       "u_fit": float(math.sqrt(max(fit.cov_delta_t[j, j], 0.0)))} for j, e in enumerate(fit.events)),
         correlation=tuple(tuple(r) for r in _correlation(fit.cov_delta_t).tolist()),
@@ -130,7 +130,7 @@ def dissolution_delta_t(fit: SharedFit) -> DeltaT:
 
 def _correlation(cov: np.ndarray) -> np.ndarray:
     d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
-    return cov / np.outer(d, d)
+    return cast(np.ndarray, cov / np.outer(d, d))
 
 
 def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, monte_carlo_trials: int,

@@ -38,10 +38,17 @@ import importlib
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import Any, cast
 
-__all__ = ["RunKind", "REGISTRY", "get_kind", "kind_names", "calibration_kinds", "plannable_kinds",
-           "CALIBRATION_OUTPUT"]
+__all__ = [
+    "RunKind",
+    "REGISTRY",
+    "get_kind",
+    "kind_names",
+    "calibration_kinds",
+    "plannable_kinds",
+    "CALIBRATION_OUTPUT",
+]
 
 #: The main output of a calibration: the calorimeter's heat capacity.
 CALIBRATION_OUTPUT = "calorimeter_heat_capacity"
@@ -107,7 +114,7 @@ class RunKind:
         if target is None:
             return None
         module, _, attribute = target.partition(":")
-        return getattr(importlib.import_module(module), attribute)
+        return cast("Callable[..., Any] | None", getattr(importlib.import_module(module), attribute))
 
 
 _MM = "calc.uncertainty.measurement_models"
@@ -120,59 +127,127 @@ _RF = "calc.refdata.reference"
 
 _HEATER_CAUTION = "mains-free low-voltage supply only; keep the heater immersed while it is on"
 
-REGISTRY: Mapping[str, RunKind] = MappingProxyType({k.name: k for k in (
-    RunKind(
-        "dissolution", "Dissolution", "A solid dissolved in water: ΔH per mole of solute.",
-        ("calorimeter", "thermometer", "water", "solute"), "molar_enthalpy", "kJ/mol",
-        plan_scaled=(("solute", "mass"),), release_s=60.0,
-        hooks={"model": f"{_MM}:dissolution_model", "properties": f"{_CO}:water_properties",
-               "composition": f"{_CO}:dissolution_composition", "warnings": f"{_RW}:dissolution_warnings",
-               "reference": f"{_RF}:dissolution_lookup", "plan_sections": f"{_PK}:dissolution_sections",
-               "simulate": f"{_SK}:simulate_dissolution",
-               "scenario": f"{_SC}:draw_dissolution"}),
-    RunKind(
-        "neutralization", "Neutralization", "A base poured into an acid: ΔH per mole of water formed.",
-        ("calorimeter", "thermometer", "acid", "base"), "molar_enthalpy", "kJ/mol", two_solution=True,
-        plan_scaled=(("acid", "concentration"), ("base", "concentration")), release_s=5.0,
-        hooks={"model": f"{_MM}:neutralization_model", "properties": f"{_CO}:stock_properties",
-               "composition": f"{_CO}:neutralization_composition", "warnings": f"{_RW}:neutralization_warnings",
-               "reference": f"{_RF}:neutralization_lookup", "plan_sections": f"{_PK}:neutralization_sections",
-               "simulate": f"{_SK}:simulate_neutralization",
-               "scenario": f"{_SC}:draw_neutralization"}),
-    RunKind(
-        # the heater's energy spreads over its time on
-        "electrical-calibration", "Electrical calibration", "A heater's known energy: the calorimeter's heat capacity.",
-        ("thermometer", "water", "heater"), CALIBRATION_OUTPUT, "J/K", timed_heater=True,
-        procedure_cautions=(_HEATER_CAUTION,), plan_scaled=(("heater", "duration"),), release_s=60.0,
-        hooks={"model": f"{_MM}:electrical_model", "properties": f"{_CO}:water_properties",
-               "plan_sections": f"{_PK}:electrical_sections", "simulate": f"{_SK}:simulate_electrical_calibration",
-               "scenario": f"{_SC}:draw_electrical_calibration"}),
-    RunKind(
-        # a poured warm water mixes in seconds
-        "mixing-calibration", "Warm-water calibration",
-        "Warm water poured into cool water: the calorimeter's heat capacity.",
-        ("thermometer", "water", "warm_water"), CALIBRATION_OUTPUT, "J/K", two_solution=True,
-        procedure_cautions=("hot water scalds: handle warm water with care",),
-        plan_scaled=(("warm_water", "volume"),), release_s=5.0,
-        hooks={"model": f"{_MM}:mixing_model", "properties": f"{_CO}:warm_water_properties",
-               "plan_sections": f"{_PK}:mixing_sections", "simulate": f"{_SK}:simulate_mixing_calibration",
-               "scenario": f"{_SC}:draw_mixing_calibration"}),
-    RunKind(
-        "reaction", "Reaction", "A reaction in solution: ΔH per mole of reaction as written.",
-        ("calorimeter", "thermometer", "solution", "reaction"), "molar_enthalpy", "kJ/mol",
-        plan_scaled=(("reaction", "mass"),), release_s=60.0,
-        hooks={"model": f"{_MM}:reaction_model", "properties": f"{_CO}:reaction_solution_properties",
-               "composition": f"{_CO}:reaction_composition", "reference": f"{_RF}:reaction_lookup",
-               "plan_sections": f"{_PK}:reaction_sections",
-               "simulate": f"{_SK}:simulate_reaction", "scenario": f"{_SC}:draw_reaction"}),
-    RunKind(
-        "dissolution-with-calibration", "Dissolution with in-situ calibration",
-        "A solid dissolved, then a heater pulse in the same log: ΔH per mole of solute, the heat capacity of "
-        "cup + solution from the heater.",
-        ("thermometer", "water", "solute", "heater"), "molar_enthalpy", "kJ/mol", reference_kind="dissolution",
-        hooks={"analyze": "calc.insitu_analysis:analyze_insitu",
-               "simulate": "calc.simulation.insitu:simulate_dissolution_with_calibration"}),
-)})
+REGISTRY: Mapping[str, RunKind] = MappingProxyType(
+    {
+        k.name: k
+        for k in (
+            RunKind(
+                "dissolution",
+                "Dissolution",
+                "A solid dissolved in water: ΔH per mole of solute.",
+                ("calorimeter", "thermometer", "water", "solute"),
+                "molar_enthalpy",
+                "kJ/mol",
+                plan_scaled=(("solute", "mass"),),
+                release_s=60.0,
+                hooks={
+                    "model": f"{_MM}:dissolution_model",
+                    "properties": f"{_CO}:water_properties",
+                    "composition": f"{_CO}:dissolution_composition",
+                    "warnings": f"{_RW}:dissolution_warnings",
+                    "reference": f"{_RF}:dissolution_lookup",
+                    "plan_sections": f"{_PK}:dissolution_sections",
+                    "simulate": f"{_SK}:simulate_dissolution",
+                    "scenario": f"{_SC}:draw_dissolution",
+                },
+            ),
+            RunKind(
+                "neutralization",
+                "Neutralization",
+                "A base poured into an acid: ΔH per mole of water formed.",
+                ("calorimeter", "thermometer", "acid", "base"),
+                "molar_enthalpy",
+                "kJ/mol",
+                two_solution=True,
+                plan_scaled=(("acid", "concentration"), ("base", "concentration")),
+                release_s=5.0,
+                hooks={
+                    "model": f"{_MM}:neutralization_model",
+                    "properties": f"{_CO}:stock_properties",
+                    "composition": f"{_CO}:neutralization_composition",
+                    "warnings": f"{_RW}:neutralization_warnings",
+                    "reference": f"{_RF}:neutralization_lookup",
+                    "plan_sections": f"{_PK}:neutralization_sections",
+                    "simulate": f"{_SK}:simulate_neutralization",
+                    "scenario": f"{_SC}:draw_neutralization",
+                },
+            ),
+            RunKind(
+                # the heater's energy spreads over its time on
+                "electrical-calibration",
+                "Electrical calibration",
+                "A heater's known energy: the calorimeter's heat capacity.",
+                ("thermometer", "water", "heater"),
+                CALIBRATION_OUTPUT,
+                "J/K",
+                timed_heater=True,
+                procedure_cautions=(_HEATER_CAUTION,),
+                plan_scaled=(("heater", "duration"),),
+                release_s=60.0,
+                hooks={
+                    "model": f"{_MM}:electrical_model",
+                    "properties": f"{_CO}:water_properties",
+                    "plan_sections": f"{_PK}:electrical_sections",
+                    "simulate": f"{_SK}:simulate_electrical_calibration",
+                    "scenario": f"{_SC}:draw_electrical_calibration",
+                },
+            ),
+            RunKind(
+                # a poured warm water mixes in seconds
+                "mixing-calibration",
+                "Warm-water calibration",
+                "Warm water poured into cool water: the calorimeter's heat capacity.",
+                ("thermometer", "water", "warm_water"),
+                CALIBRATION_OUTPUT,
+                "J/K",
+                two_solution=True,
+                procedure_cautions=("hot water scalds: handle warm water with care",),
+                plan_scaled=(("warm_water", "volume"),),
+                release_s=5.0,
+                hooks={
+                    "model": f"{_MM}:mixing_model",
+                    "properties": f"{_CO}:warm_water_properties",
+                    "plan_sections": f"{_PK}:mixing_sections",
+                    "simulate": f"{_SK}:simulate_mixing_calibration",
+                    "scenario": f"{_SC}:draw_mixing_calibration",
+                },
+            ),
+            RunKind(
+                "reaction",
+                "Reaction",
+                "A reaction in solution: ΔH per mole of reaction as written.",
+                ("calorimeter", "thermometer", "solution", "reaction"),
+                "molar_enthalpy",
+                "kJ/mol",
+                plan_scaled=(("reaction", "mass"),),
+                release_s=60.0,
+                hooks={
+                    "model": f"{_MM}:reaction_model",
+                    "properties": f"{_CO}:reaction_solution_properties",
+                    "composition": f"{_CO}:reaction_composition",
+                    "reference": f"{_RF}:reaction_lookup",
+                    "plan_sections": f"{_PK}:reaction_sections",
+                    "simulate": f"{_SK}:simulate_reaction",
+                    "scenario": f"{_SC}:draw_reaction",
+                },
+            ),
+            RunKind(
+                "dissolution-with-calibration",
+                "Dissolution with in-situ calibration",
+                "A solid dissolved, then a heater pulse in the same log: ΔH per mole of solute, the heat capacity of "
+                "cup + solution from the heater.",
+                ("thermometer", "water", "solute", "heater"),
+                "molar_enthalpy",
+                "kJ/mol",
+                reference_kind="dissolution",
+                hooks={
+                    "analyze": "calc.insitu_analysis:analyze_insitu",
+                    "simulate": "calc.simulation.insitu:simulate_dissolution_with_calibration",
+                },
+            ),
+        )
+    }
+)
 
 
 def get_kind(name: str) -> RunKind:

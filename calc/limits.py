@@ -27,8 +27,17 @@ from typing import Any
 
 from calc.errors import InputError
 
-__all__ = ["DEFAULTS", "PHYSICAL_BOUNDS", "LimitExceeded", "Limit", "current", "use", "require_number",
-           "require_size", "bounds_for_unit"]
+__all__ = [
+    "DEFAULTS",
+    "PHYSICAL_BOUNDS",
+    "LimitExceeded",
+    "Limit",
+    "current",
+    "use",
+    "require_number",
+    "require_size",
+    "bounds_for_unit",
+]
 
 
 @dataclass(frozen=True)
@@ -56,8 +65,9 @@ TABLE: dict[str, Limit] = {
     "number_digits": Limit(50, "digits", "digits of one number in a request"),
     "json_depth": Limit(32, "levels", "nesting of a JSON request body"),
     "import_files": Limit(2000, "files", "run files in one import (a term of a large class)"),
-    "import_total_bytes": Limit(64 * 1024 * 1024, "bytes",
-                                "run files and readings of one import, a shared readings file once per use"),
+    "import_total_bytes": Limit(
+        64 * 1024 * 1024, "bytes", "run files and readings of one import, a shared readings file once per use"
+    ),
     "webhook_timeout_s": Limit(5, "s", "time to wait for a webhook receiver"),
     "webhook_response_bytes": Limit(64 * 1024, "bytes", "bytes read from a webhook receiver's answer"),
     "sign_in_failures": Limit(5, "attempts", "failed sign-ins per account or address before back-off"),
@@ -88,8 +98,9 @@ _CURRENT: contextvars.ContextVar[dict[str, float] | None] = contextvars.ContextV
 class LimitExceeded(InputError):
     """A size limit was passed (the web answers 413); ``limit`` names it."""
 
-    def __init__(self, message: str, *, limit: str, source: str | None = None, field: str | None = None,
-                 line: int | None = None) -> None:
+    def __init__(
+        self, message: str, *, limit: str, source: str | None = None, field: str | None = None, line: int | None = None
+    ) -> None:
         super().__init__(message, source=source, field=field, line=line)
         self.limit = limit
 
@@ -101,8 +112,9 @@ def _from_environment() -> dict[str, float]:
     try:
         data = json.loads(raw)
     except ValueError:
-        raise InputError("expected a JSON object of limits, like {\"monte_carlo_trials\": 10000}",
-                         field="CUPCAL_LIMITS") from None
+        raise InputError(
+            'expected a JSON object of limits, like {"monte_carlo_trials": 10000}', field="CUPCAL_LIMITS"
+        ) from None
     return checked(data, "CUPCAL_LIMITS")
 
 
@@ -160,9 +172,17 @@ def _shown(x: Any) -> str:
     return text if len(text) <= 40 else text[:37] + "..."
 
 
-def require_number(x: Any, what: str, *, field: str | None = None, minimum: float | None = None,
-                   maximum: float | None = None, source: str | None = None, exclusive_minimum: bool = False,
-                   whole: bool = False) -> float:
+def require_number(
+    x: Any,
+    what: str,
+    *,
+    field: str | None = None,
+    minimum: float | None = None,
+    maximum: float | None = None,
+    source: str | None = None,
+    exclusive_minimum: bool = False,
+    whole: bool = False,
+) -> float:
     """Return ``x`` as a finite float within ``[minimum, maximum]``, or raise :class:`InputError` naming ``field``.
 
     ``x`` may be an int or a float (never a bool or text); an int too large for a float, an
@@ -181,8 +201,11 @@ def require_number(x: Any, what: str, *, field: str | None = None, minimum: floa
         raise InputError(f"{what}: expected a whole number, got {_shown(x)}", field=field, source=source)
     low_fail = minimum is not None and (value <= minimum if exclusive_minimum else value < minimum)
     if low_fail or (maximum is not None and value > maximum):
-        raise InputError(f"{what}: expected {_range(minimum, maximum, exclusive_minimum)}, got {_shown(x)}",
-                         field=field, source=source)
+        raise InputError(
+            f"{what}: expected {_range(minimum, maximum, exclusive_minimum)}, got {_shown(x)}",
+            field=field,
+            source=source,
+        )
     return value
 
 
@@ -196,14 +219,26 @@ def _range(minimum: float | None, maximum: float | None, exclusive: bool) -> str
     return " and ".join(p for p in (low, high) if p) or "a number"
 
 
-def require_size(size: float, name: str, *, what: str | None = None, source: str | None = None,
-                 field: str | None = None, line: int | None = None) -> None:
+def require_size(
+    size: float,
+    name: str,
+    *,
+    what: str | None = None,
+    source: str | None = None,
+    field: str | None = None,
+    line: int | None = None,
+) -> None:
     """Raise :class:`LimitExceeded` when ``size`` passes the limit ``name``."""
     limit = get(name)
     if size > limit:
         spec = TABLE[name]
-        raise LimitExceeded(f"{what or spec.what} is over the limit {name} = {_num(limit)} {spec.unit}".rstrip(),
-                            limit=name, source=source, field=field, line=line)
+        raise LimitExceeded(
+            f"{what or spec.what} is over the limit {name} = {_num(limit)} {spec.unit}".rstrip(),
+            limit=name,
+            source=source,
+            field=field,
+            line=line,
+        )
 
 
 def bounds_for_unit(unit: str) -> tuple[float, float]:

@@ -45,8 +45,7 @@ from calc.errors import InputError
 from calc.io.quantities import Measured, parse_measured
 from calc.kinds import get_kind
 from calc.limits import require_number
-from calc.plan_design import (AFTER_ADVISED_S, HOT_RISE_K, Design, Thermo, evaluate, plan_warnings,  # noqa: F401
-                              timing)
+from calc.plan_design import AFTER_ADVISED_S, HOT_RISE_K, Design, Thermo, evaluate, plan_warnings, timing  # noqa: F401
 from calc.plan_kinds import PLAN_KINDS, build_sections
 from calc.uncertainty.gum import BudgetLine, GumResult, propagate
 from calc.uncertainty.measurement_models import RunProperties

@@ -16,9 +16,13 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.composition import resolve_properties
+from calc.deltat.base import (
+    DEFAULT_METHOD,
+    METHOD_TERMS,
+    DeltaT,
+    resolution_term,  # the analysis's own resolution term
+)
 from calc.deltat.budget_terms import slope_floor  # the analysis's own slope floor
-from calc.deltat.base import DEFAULT_METHOD, METHOD_TERMS, DeltaT
-from calc.deltat.base import resolution_term  # the analysis's own resolution term
 from calc.errors import InputError
 from calc.io.quantities import Measured
 from calc.io.runfile import RunSpec, parse_run
@@ -28,8 +32,18 @@ from calc.run_warnings import kind_warnings
 from calc.uncertainty.gum import GumResult
 from calc.uncertainty.measurement_models import ModelSpec, RunProperties, build_model
 
-__all__ = ["Thermo", "Design", "Evaluation", "timing", "reading_sd", "planned_delta_t", "evaluate",
-           "plan_warnings", "HOT_RISE_K", "AFTER_ADVISED_S"]
+__all__ = [
+    "Thermo",
+    "Design",
+    "Evaluation",
+    "timing",
+    "reading_sd",
+    "planned_delta_t",
+    "evaluate",
+    "plan_warnings",
+    "HOT_RISE_K",
+    "AFTER_ADVISED_S",
+]
 
 HOT_RISE_K = 10.0
 #: After-period length the analysis advises (it warns below 120 s; 5 minutes are advised).
@@ -40,16 +54,28 @@ SHEPPARD_RATIO = 5.0
 MAIN_FACTOR = math.log(10.0) + 6.0  # t90 + 6 τ, in units of τ_r
 
 
-Thermo = NamedTuple("Thermo", [("q", float), ("sigma", float), ("phi", float), ("interval", float),
-                                  ("fore", float), ("after", float), ("tau_r", float), ("tau_s", float)])
+class Thermo(NamedTuple):
+    q: float
+    sigma: float
+    phi: float
+    interval: float
+    fore: float
+    after: float
+    tau_r: float
+    tau_s: float
 
 
 def timing(th: Thermo, two_solution: bool) -> dict[str, float]:
     main = MAIN_FACTOR * th.tau_r + th.tau_s + SMOOTHING_S
     after_window = max(th.after - main, 60.0)
     d_fore = 0.0 if two_solution else th.tau_r + th.tau_s
-    return {"main_s": main, "after_window_s": after_window, "fore_window_s": th.fore,
-            "extrapolation_fore_s": d_fore, "extrapolation_after_s": main - d_fore}
+    return {
+        "main_s": main,
+        "after_window_s": after_window,
+        "fore_window_s": th.fore,
+        "extrapolation_fore_s": d_fore,
+        "extrapolation_after_s": main - d_fore,
+    }
 
 
 def reading_sd(q: float, sigma: float) -> tuple[float, float]:
@@ -86,14 +112,20 @@ def planned_delta_t(value: float, T0: float, th: Thermo, two_solution: bool) -> 
 
     v_f, n_f = level_var(tm["fore_window_s"], tm["extrapolation_fore_s"])
     v_a, n_a = level_var(tm["after_window_s"], tm["extrapolation_after_s"])
-    dof = (min(n_a / infl - 3.0, n_f / infl - 2.0) if two_solution else (n_f + n_a) / infl - 4.0)
+    dof = min(n_a / infl - 3.0, n_f / infl - 2.0) if two_solution else (n_f + n_a) / infl - 4.0
     # the analysis's floor on the drift slopes from the resolution (calc.deltat.budget_terms.slope_floor)
     u_b = math.hypot(slope_floor(th.q, s_read, tm["fore_window_s"]), slope_floor(th.q, s_read, tm["after_window_s"]))
     return DeltaT(
-        method=DEFAULT_METHOD, value=value, u_fit=math.sqrt(v_f + v_a), dof_fit=max(dof, 1.0),
-        u_resolution_start=u_res, u_resolution_end=u_res,
-        u_method=METHOD_TERMS[DEFAULT_METHOD] * abs(value) / math.sqrt(3.0), u_mixing_time=0.0,
-        start_temperature=T0, u_start_temperature=math.sqrt(s2 * infl * 4.0 / n_f),  # fore line at its end
+        method=DEFAULT_METHOD,
+        value=value,
+        u_fit=math.sqrt(v_f + v_a),
+        dof_fit=max(dof, 1.0),
+        u_resolution_start=u_res,
+        u_resolution_end=u_res,
+        u_method=METHOD_TERMS[DEFAULT_METHOD] * abs(value) / math.sqrt(3.0),
+        u_mixing_time=0.0,
+        start_temperature=T0,
+        u_start_temperature=math.sqrt(s2 * infl * 4.0 / n_f),  # fore line at its end
         end_temperature=T0 + value,
         u_drift_resolution=0.5 * tm["main_s"] * u_b,
     )
@@ -132,8 +164,13 @@ class Design:
         return names + (" (scaled together)" if len(keys) > 1 else ""), m.value, m.unit
 
     def run_file(self) -> str:
-        lines = [f'kind = "{self.kind}"', 'readings = "readings.csv"  # the log to be recorded', "",
-                 "[thermometer]", f'resolution = "{self.thermo.q:g} K"']
+        lines = [
+            f'kind = "{self.kind}"',
+            'readings = "readings.csv"  # the log to be recorded',
+            "",
+            "[thermometer]",
+            f'resolution = "{self.thermo.q:g} K"',
+        ]
         for sec, fields in self.sections.items():
             lines += ["", f"[{sec}]"]
             for name, v in fields.items():
@@ -153,8 +190,13 @@ class Design:
         return spec
 
 
-Evaluation = NamedTuple("Evaluation", [("spec", RunSpec), ("dt", DeltaT), ("props", RunProperties),
-                                          ("model", ModelSpec), ("expected", float), ("note", str)])
+class Evaluation(NamedTuple):
+    spec: RunSpec
+    dt: DeltaT
+    props: RunProperties
+    model: ModelSpec
+    expected: float
+    note: str
 
 
 def expected_result(design: Design, molality: float | None, T: float) -> tuple[float, str]:
@@ -165,12 +207,18 @@ def expected_result(design: Design, molality: float | None, T: float) -> tuple[f
     from calc.refdata.reference import find_reference
 
     sec = design.sections
-    ref = find_reference(get_kind(design.kind).compared_with, formula=sec.get("solute", {}).get("formula"),
-                         acid=sec.get("acid", {}).get("formula"), base=sec.get("base", {}).get("formula"))
+    ref = find_reference(
+        get_kind(design.kind).compared_with,
+        formula=sec.get("solute", {}).get("formula"),
+        acid=sec.get("acid", {}).get("formula"),
+        base=sec.get("base", {}).get("formula"),
+    )
     if ref is None:
         what = ", ".join(design.substances)
-        raise InputError(f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
-                         field="molar_enthalpy")
+        raise InputError(
+            f"cupcal has no reference enthalpy for {what}: give the expected ΔH (e.g. molar_enthalpy = 17.2 kJ/mol)",
+            field="molar_enthalpy",
+        )
     from calc.refdata.comparison import compare
 
     c = compare(ref.value, 0.0, ref, molality=molality, T_K=T) if ref.u > 0 else None
@@ -212,7 +260,9 @@ def plan_warnings(design: Design, ev: Evaluation, gum: GumResult, window: tuple[
     a = abs(dT)
     lo, hi = window
     if lo >= hi:
-        out.append(f"no useful window: the thermometer resolution {q:g} K needs |ΔT| ≥ {lo:g} K; use a finer thermometer")
+        out.append(
+            f"no useful window: the thermometer resolution {q:g} K needs |ΔT| ≥ {lo:g} K; use a finer thermometer"
+        )
     elif a < lo:
         out.append(f"the predicted |ΔT| = {a:.2f} K is below the useful window ({lo:g}–{hi:g} K)")
     elif a > hi:
@@ -235,8 +285,10 @@ def plan_warnings(design: Design, ev: Evaluation, gum: GumResult, window: tuple[
     for sec, fields in design.sections.items():
         for name, v in fields.items():
             if isinstance(v, Measured) and v.distribution != "normal" and name in ("mass", "volume", "heat_capacity"):
-                out.append(f"{sec}.{name} {v.text!r} has no ±: its uncertainty is taken from the last digit "
-                           f"({v.u:.2g} {v.unit}); give the balance's, glassware's or calibration's uncertainty")
+                out.append(
+                    f"{sec}.{name} {v.text!r} has no ±: its uncertainty is taken from the last digit "
+                    f"({v.u:.2g} {v.unit}); give the balance's, glassware's or calibration's uncertainty"
+                )
     out.extend(ev.props.warnings)
     out.extend(kind_warnings(ev.spec, ev.dt, gum, ev.model))
     return out

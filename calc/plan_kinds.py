@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 from calc.errors import InputError
 from calc.io.quantities import Measured
@@ -42,8 +42,14 @@ def _text(value: str | None, name: str, what: str) -> str:
     return str(value).strip()
 
 
-def build_sections(kind: str, p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                   T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def build_sections(
+    kind: str,
+    p: dict[str, Any],
+    amount: Callable[..., Measured],
+    measured: Callable[..., Measured],
+    T0: float,
+    u_read: float,
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Return (run-file sections, substances) of a planned ``kind`` run from the parameters ``p``.
 
     ``amount`` and ``measured`` are the plan's readers of a positive amount and a quantity (they
@@ -52,71 +58,114 @@ def build_sections(kind: str, p: dict[str, Any], amount: Callable[..., Measured]
     sections = get_kind(kind).hook("plan_sections") if kind in PLAN_KINDS else None
     if sections is None:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLAN_KINDS)}", field="kind")
-    return sections(p, amount, measured, T0, u_read)
+    return cast("tuple[dict[str, dict[str, Any]], list[str]]", sections(p, amount, measured, T0, u_read))
 
 
 # ------------------------------------------------------------------ the kinds' ``plan_sections`` hooks
 
 
-def dissolution_sections(p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                         T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def dissolution_sections(
+    p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured], T0: float, u_read: float
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Water in the cup and a weighed solute."""
     formula = _text(p.get("formula"), "formula", "the solute's formula, e.g. KCl")
-    return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
-             "solute": {"formula": formula, "mass": amount(p.get("mass"), "mass", "g", p.get("balance_u"))}}, [formula])
+    return (
+        {
+            "water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
+            "solute": {"formula": formula, "mass": amount(p.get("mass"), "mass", "g", p.get("balance_u"))},
+        },
+        [formula],
+    )
 
 
-def neutralization_sections(p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                            T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def neutralization_sections(
+    p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured], T0: float, u_read: float
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """An acid stock in the cup and a base stock poured in (at the start temperature unless given)."""
     volume_u = p.get("volume_u")
     acid = _text(p.get("acid"), "acid", "the acid's formula, e.g. HCl")
     base = _text(p.get("base"), "base", "the base's formula, e.g. NaOH")
     tb = p.get("base_temperature")
-    tb = (Measured(T0 - 273.15, u_read, "degC", "normal", f"{T0 - 273.15:.2f} ± {u_read:.2g} degC")
-          if tb is None else measured(tb, "base_temperature", "K"))
-    return ({"acid": {"formula": acid, "concentration": amount(p.get("acid_concentration"), "acid_concentration", "mol/L"),
-                      "volume": amount(p.get("acid_volume"), "acid_volume", "mL", volume_u)},
-             "base": {"formula": base, "concentration": amount(p.get("base_concentration"), "base_concentration", "mol/L"),
-                      "volume": amount(p.get("base_volume"), "base_volume", "mL", volume_u), "temperature": tb}},
-            [acid, base])
+    tb = (
+        Measured(T0 - 273.15, u_read, "degC", "normal", f"{T0 - 273.15:.2f} ± {u_read:.2g} degC")
+        if tb is None
+        else measured(tb, "base_temperature", "K")
+    )
+    return (
+        {
+            "acid": {
+                "formula": acid,
+                "concentration": amount(p.get("acid_concentration"), "acid_concentration", "mol/L"),
+                "volume": amount(p.get("acid_volume"), "acid_volume", "mL", volume_u),
+            },
+            "base": {
+                "formula": base,
+                "concentration": amount(p.get("base_concentration"), "base_concentration", "mol/L"),
+                "volume": amount(p.get("base_volume"), "base_volume", "mL", volume_u),
+                "temperature": tb,
+            },
+        },
+        [acid, base],
+    )
 
 
-def electrical_sections(p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                        T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def electrical_sections(
+    p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured], T0: float, u_read: float
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Water in the cup and the heater's voltage, current and time on."""
-    return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
-             "heater": {"voltage": amount(p.get("heater_voltage"), "heater_voltage", "V"),
-                        "current": amount(p.get("heater_current"), "heater_current", "A"),
-                        "duration": amount(p.get("heater_duration"), "heater_duration", "s")}}, [])
+    return (
+        {
+            "water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
+            "heater": {
+                "voltage": amount(p.get("heater_voltage"), "heater_voltage", "V"),
+                "current": amount(p.get("heater_current"), "heater_current", "A"),
+                "duration": amount(p.get("heater_duration"), "heater_duration", "s"),
+            },
+        },
+        [],
+    )
 
 
-def mixing_sections(p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                    T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def mixing_sections(
+    p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured], T0: float, u_read: float
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Cool water in the cup and warm water poured in (warmer than the start by more than 1 K)."""
     volume_u = p.get("volume_u")
     warm = measured(p.get("warm_temperature"), "warm_temperature", "K")
     if not warm.m_as("K") > T0 + 1.0:
-        raise InputError(f"the warm water must be warmer than the start temperature "
-                         f"({T0 - 273.15:.1f} °C), got {warm.text!r}", field="warm_temperature")
-    return ({"water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
-             "warm_water": {"volume": amount(p.get("warm_volume"), "warm_volume", "mL", volume_u),
-                            "temperature": warm}}, [])
+        raise InputError(
+            f"the warm water must be warmer than the start temperature ({T0 - 273.15:.1f} °C), got {warm.text!r}",
+            field="warm_temperature",
+        )
+    return (
+        {
+            "water": {"volume": amount(p.get("water_volume"), "water_volume", "mL", volume_u)},
+            "warm_water": {"volume": amount(p.get("warm_volume"), "warm_volume", "mL", volume_u), "temperature": warm},
+        },
+        [],
+    )
 
 
-def reaction_sections(p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured],
-                      T0: float, u_read: float) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def reaction_sections(
+    p: dict[str, Any], amount: Callable[..., Measured], measured: Callable[..., Measured], T0: float, u_read: float
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """A solution and a weighed reagent; the expected ΔH must be given (no reference values)."""
     formula = _text(p.get("formula"), "formula", "the formula of the reagent added, e.g. Mg")
     if p.get("molar_enthalpy") is None:
-        raise InputError("a reaction has no reference value here: give the expected ΔH, e.g. -460 kJ/mol",
-                         field="molar_enthalpy")
+        raise InputError(
+            "a reaction has no reference value here: give the expected ΔH, e.g. -460 kJ/mol", field="molar_enthalpy"
+        )
     mass = amount(p.get("mass"), "mass", "g", p.get("balance_u"))
     coefficient = int(p.get("coefficient") or 1)
     if coefficient < 1:
         raise InputError(f"expected a whole number ≥ 1, got {coefficient}", field="coefficient")
-    return ({"solution": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
-             "reaction": {"limiting_reagent": formula, "mass": mass, "coefficient": coefficient}}, [formula])
+    return (
+        {
+            "solution": {"volume": amount(p.get("water_volume"), "water_volume", "mL", p.get("volume_u"))},
+            "reaction": {"limiting_reagent": formula, "mass": mass, "coefficient": coefficient},
+        },
+        [formula],
+    )
 
 
 def solve_delta_t(f: Callable[[float], float], target: float) -> float:
@@ -136,5 +185,7 @@ def solve_delta_t(f: Callable[[float], float], target: float) -> float:
             return x2
         x0, f0, x1 = x1, f1, x2
         f1 = f(x1) - target
-    raise InputError("the planned amounts give no temperature change that matches the expected result: "
-                     "check the amounts", field="amount")
+    raise InputError(
+        "the planned amounts give no temperature change that matches the expected result: check the amounts",
+        field="amount",
+    )

@@ -16,10 +16,16 @@ from calc.result import Analysis
 
 __all__ = ["attach_reference", "run_reference"]
 
+
 def _reference_args(spec: RunSpec) -> tuple[str, str | None, str | None, str | None, str | None]:
     r = spec.sections.get("reaction", {})
-    return (get_kind(spec.kind).compared_with, spec.get("solute", "formula") or r.get("limiting_reagent"),
-            spec.get("acid", "formula"), spec.get("base", "formula"), spec.get("reference", "name"))
+    return (
+        get_kind(spec.kind).compared_with,
+        spec.get("solute", "formula") or r.get("limiting_reagent"),
+        spec.get("acid", "formula"),
+        spec.get("base", "formula"),
+        spec.get("reference", "name"),
+    )
 
 
 def run_reference(spec: RunSpec) -> Any:
@@ -52,11 +58,7 @@ def _reference(kind: str, formula: str | None, acid: str | None, base: str | Non
 def attach_reference(analysis: Analysis) -> None:
     """Attach the reference comparison and the cautions (best effort, never fails the run)."""
     spec = analysis.spec
-    formulas = [
-        spec.get(sec, "formula")
-        for sec in ("solute", "acid", "base")
-        if spec.get(sec, "formula") is not None
-    ]
+    formulas = [spec.get(sec, "formula") for sec in ("solute", "acid", "base") if spec.get(sec, "formula") is not None]
     r = spec.sections.get("reaction", {})
     if r.get("limiting_reagent"):
         formulas.append(r["limiting_reagent"])

@@ -20,6 +20,7 @@ __all__ = ["to_record", "error_record", "format_report", "format_value", "TOP_BU
 
 TOP_BUDGET_LINES = 5
 
+
 def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
 
@@ -43,22 +44,32 @@ def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
         "method": analysis.delta_t.method,
         "budget": [b.as_dict() for b in analysis.gum.budget],
         "mixing_time": _mixing_record(analysis),
-        "periods": {"fore_s": list(analysis.periods.fore), "after_s": list(analysis.periods.after),
-                    "main_end_s": _num(analysis.periods.main_end)},
+        "periods": {
+            "fore_s": list(analysis.periods.fore),
+            "after_s": list(analysis.periods.after),
+            "main_end_s": _num(analysis.periods.main_end),
+        },
         "rejected_readings": [dict(r) for r in analysis.rejected],
         "gaps_s": [list(g) for g in analysis.gaps],
         "warnings": list(analysis.warnings),
         "checks": [c.as_dict() for c in analysis.checks],
-        **({"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
-           if "heat_capacity_total" in analysis.gum.values else {}),
+        **(
+            {"heat_capacity_total": _qty(analysis, "heat_capacity_total")}
+            if "heat_capacity_total" in analysis.gum.values
+            else {}
+        ),
         "comparison": verdict_record(verdict(analysis.comparison)),
     }
 
 
 def _mixing_record(analysis: Analysis) -> dict[str, Any]:
     p = analysis.periods
-    return {"value": _num(p.mixing_time), "standard_uncertainty": _num(p.u_mixing_time), "unit": "s",
-            "detected": bool(p.mixing_time_detected)}
+    return {
+        "value": _num(p.mixing_time),
+        "standard_uncertainty": _num(p.u_mixing_time),
+        "unit": "s",
+        "detected": bool(p.mixing_time_detected),
+    }
 
 
 def error_record(input_path: str, message: str) -> dict[str, Any]:
@@ -137,8 +148,10 @@ def _head_lines(analysis: Analysis, input_path: str) -> list[str]:
         f"after {p.after[0]:.0f}–{p.after[1]:.0f} s"
     )
     if p.mixing_time_detected:
-        lines.append(f"mixing time: {p.mixing_time:.1f} ± {p.u_mixing_time:.1f} s, detected from the log "
-                     "(give mixing_time in the run file if you noted it)")
+        lines.append(
+            f"mixing time: {p.mixing_time:.1f} ± {p.u_mixing_time:.1f} s, detected from the log "
+            "(give mixing_time in the run file if you noted it)"
+        )
     if analysis.rejected:
         lines.append("readings rejected as spikes (left out of every fit and of the integral):")
         for r in analysis.rejected[:20]:
@@ -152,10 +165,13 @@ def _head_lines(analysis: Analysis, input_path: str) -> list[str]:
     d_index = next((i for i, ev in enumerate(events) if ev["name"] == "dissolution"), 0)
     for i, ev in enumerate(events):
         if ev["name"] != "dissolution":
-            lines.append(f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
-                         f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
-                         f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
-                         f"{shared.correlation[d_index][i]:+.2f})")
+            assert shared is not None  # the events are the shared fit's
+            lines.append(
+                f"{ev['name'].replace('_', ' ')}: on at {ev['start']:.1f} s, drift window from "
+                f"{ev['main_end']:.0f} s; ΔT {ev['delta_t']:.4f} K (u from the shared drift fits "
+                f"{ev['u_fit']:.2g} K, correlation with the dissolution's "
+                f"{shared.correlation[d_index][i]:+.2f})"
+            )
     return lines
 
 
@@ -218,8 +234,11 @@ def _reference_lines(analysis: Analysis) -> list[str]:
     if cmp_ is None:
         return []
     ref = cmp_.reference
-    lines = ["", f"reference as published: {fmt.measured(ref.value, ref.u, ref.unit)} ({ref.quantity}, "
-                 f"{fmt.temperature(ref.temperature_K)}) — {ref.source}"]
+    lines = [
+        "",
+        f"reference as published: {fmt.measured(ref.value, ref.u, ref.unit)} ({ref.quantity}, "
+        f"{fmt.temperature(ref.temperature_K)}) — {ref.source}",
+    ]
     v = verdict(cmp_)
     if v is not None:
         lines.extend(f"  {line}" for line in verdict_lines(v))

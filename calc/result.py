@@ -46,7 +46,7 @@ class Analysis:
     cautions: list[Any] = field(default_factory=list)
     checks: list[Check] = field(default_factory=list)
     software_version: str = __version__
-    rejected: list[dict] = field(default_factory=list)  # readings rejected as spikes
+    rejected: list[dict[str, Any]] = field(default_factory=list)  # readings rejected as spikes
     gaps: list[tuple[float, float]] = field(default_factory=list)  # gaps in the log, s
 
     @property

@@ -35,8 +35,10 @@ def monte_carlo_warning(mc: MonteCarloResult, unit: str) -> list[str]:
     """Return a warning when the Monte Carlo interval disagrees with the GUM interval."""
     if mc.agrees:
         return []
-    return [f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] {unit} differs from the GUM interval "
-            f"by more than the tolerance ({mc.tolerance:.2g} {unit}); report the Monte Carlo interval"]
+    return [
+        f"the Monte Carlo 95 % interval [{mc.low:.4g}, {mc.high:.4g}] {unit} differs from the GUM interval "
+        f"by more than the tolerance ({mc.tolerance:.2g} {unit}); report the Monte Carlo interval"
+    ]
 
 
 def kind_warnings(spec: RunSpec, dt: DeltaT, gum: GumResult, model: ModelSpec) -> list[str]:
@@ -85,6 +87,8 @@ def dissolution_warnings(spec: RunSpec) -> list[str]:
     """A solute that takes up water from the air."""
     formula = spec.get("solute", "formula")
     if formula in ("NaOH", "KOH", "CaCl2", "MgCl2", "LiCl"):
-        return [f"{formula} takes up water from the air: weigh it quickly from a closed container or the "
-                "amount will be overstated"]
+        return [
+            f"{formula} takes up water from the air: weigh it quickly from a closed container or the "
+            "amount will be overstated"
+        ]
     return []

@@ -122,9 +122,13 @@ def settings_read_with_a_default(tree: ast.AST) -> set[str]:
     return {
         key
         for node in ast.walk(tree)
-        if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr == "get"
-        and isinstance(node.func.value, ast.Attribute) and node.func.value.attr == "config"
-        and len(node.args) == 2 and (key := _constant(node.args[0]))
+        if isinstance(node, ast.Call)
+        and isinstance(node.func, ast.Attribute)
+        and node.func.attr == "get"
+        and isinstance(node.func.value, ast.Attribute)
+        and node.func.value.attr == "config"
+        and len(node.args) == 2
+        and (key := _constant(node.args[0]))
     }
 
 
@@ -133,8 +137,11 @@ def environment_reads(tree: ast.AST) -> set[str]:
     ``os.environ[…]``, ``… in os.environ`` and click's ``envvar=``."""
 
     def is_environ(node: ast.AST) -> bool:
-        return isinstance(node, ast.Attribute) and node.attr == "environ" or (
-            isinstance(node, ast.Name) and node.id == "environ")
+        return (
+            isinstance(node, ast.Attribute)
+            and node.attr == "environ"
+            or (isinstance(node, ast.Name) and node.id == "environ")
+        )
 
     found = set()
     for node in ast.walk(tree):
@@ -146,8 +153,11 @@ def environment_reads(tree: ast.AST) -> set[str]:
             names += [_constant(k.value) for k in node.keywords if k.arg == "envvar"]
         if isinstance(node, ast.Subscript) and isinstance(node.ctx, ast.Load) and is_environ(node.value):
             names.append(_constant(node.slice))
-        if isinstance(node, ast.Compare) and any(isinstance(o, ast.In) for o in node.ops) \
-                and any(is_environ(c) for c in node.comparators):
+        if (
+            isinstance(node, ast.Compare)
+            and any(isinstance(o, ast.In) for o in node.ops)
+            and any(is_environ(c) for c in node.comparators)
+        ):
             names.append(_constant(node.left))
         found |= {n for n in names if n and ENV_NAME.fullmatch(n)}
     return found
@@ -166,8 +176,12 @@ def test_the_readers_find_what_they_look_for():
 def settings_table(text: str) -> set[str]:
     """Return the names in the first cells of the table under webapp/README.md's "## Settings"."""
     section = text.split("\n## Settings\n", 1)[1].split("\n## ", 1)[0] if "\n## Settings\n" in text else ""
-    return {name for line in section.splitlines() if line.startswith("| `")
-            for name in re.findall(r"`([A-Z][A-Z0-9_]+)`", line.split(" | ")[0])}
+    return {
+        name
+        for line in section.splitlines()
+        if line.startswith("| `")
+        for name in re.findall(r"`([A-Z][A-Z0-9_]+)`", line.split(" | ")[0])
+    }
 
 
 def test_the_settings_table_is_read():
@@ -196,7 +210,9 @@ def test_every_environment_switch_of_the_tests_is_documented():
     assert "CUPCAL_REQUIRE_BROWSER" in used
     docs = _text(WEB_README, README, DEVELOPERS)
     missing = sorted(n for n in used if not _named(n, docs))
-    assert missing == [], "CUPCAL_* variables of the tests not named in DEVELOPERS.md or the READMEs: " + ", ".join(missing)
+    assert missing == [], "CUPCAL_* variables of the tests not named in DEVELOPERS.md or the READMEs: " + ", ".join(
+        missing
+    )
 
 
 # ------------------------------------------------------------------------------ package guides
@@ -209,4 +225,6 @@ def test_the_statistics_package_says_what_each_module_is_for():
     lines = (calc.statistics.__doc__ or "").splitlines()
     assert len(modules) >= 4
     missing = [m for m in modules if not any(line.startswith(f"- ``{m}``: ") for line in lines)]
-    assert missing == [], "modules of calc/statistics without their line in the package docstring: " + ", ".join(missing)
+    assert missing == [], "modules of calc/statistics without their line in the package docstring: " + ", ".join(
+        missing
+    )

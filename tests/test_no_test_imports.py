@@ -37,8 +37,11 @@ def imported_test_modules(source: str, module: str) -> list[str]:
                 found.append(base)
             # `from tests.webapp import test_x` names a module too; `from tests.webapp.conftest import test_x`
             # (a function named test_…) is caught only when such a module file exists
-            found += [f"{base}.{a.name}" for a in node.names if _is_test_module(a.name)
-                      and (TESTS.parent / (f"{base}.{a.name}".replace(".", "/") + ".py")).is_file()]
+            found += [
+                f"{base}.{a.name}"
+                for a in node.names
+                if _is_test_module(a.name) and (TESTS.parent / (f"{base}.{a.name}".replace(".", "/") + ".py")).is_file()
+            ]
     return sorted(set(found))
 
 

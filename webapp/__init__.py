@@ -56,8 +56,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     :param config: settings that override all others (tests pass ``DATABASE_URL`` here)
     """
     folder = os.environ.get("CUPCAL_INSTANCE_PATH")  # e.g. /var/lib/cupcal; default: instance/ beside the code
-    app = Flask(__name__, instance_relative_config=True,
-                instance_path=os.path.abspath(folder) if folder else None)
+    app = Flask(__name__, instance_relative_config=True, instance_path=os.path.abspath(folder) if folder else None)
     app.config.from_mapping(DEFAULTS)
     app.config.from_pyfile("config.py", silent=True)
     if os.environ.get("DATABASE_URL"):
@@ -74,24 +73,19 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     if not app.config["SECRET_KEY"]:
         app.config["SECRET_KEY"] = _instance_secret(app)
 
-    from webapp import auth
-    from webapp import db
-    from webapp import error_handlers
-    from webapp import security
-    from webapp import templating
+    from calc import limits as calc_limits
+    from webapp import auth, db, error_handlers, security, templating
     from webapp.api import bp as api_bp
     from webapp.calorimeters import bp as calorimeters_bp
-    from webapp.main import bp as main_bp
-    from webapp.runs import bp as runs_bp
     from webapp.classes import bp as classes_bp
-    from webapp.imports import bp as imports_bp
-    from webapp.planning import bp as planning_bp
     from webapp.embed import bp as embed_bp
-    from webapp.review import bp as review_bp
+    from webapp.imports import bp as imports_bp
     from webapp.live import bp as live_bp
+    from webapp.main import bp as main_bp
     from webapp.mounting import init_proxy_user
-
-    from calc import limits as calc_limits
+    from webapp.planning import bp as planning_bp
+    from webapp.review import bp as review_bp
+    from webapp.runs import bp as runs_bp
 
     try:
         app.config["LIMITS"] = calc_limits.checked(app.config.get("LIMITS") or {})
@@ -131,8 +125,7 @@ _IMPORT_ENDPOINTS = frozenset({"api.import_runs_route", "api.import_eln_route"})
 
 def _no_nul_in_text() -> None:
     """Refuse NUL in query and form values before any view reads them (PostgreSQL cannot store it)."""
-    from flask import current_app
-    from flask import request
+    from flask import current_app, request
 
     from webapp.imports.views import IMPORT_MAX_UPLOAD_BYTES
     from webapp.services.jsontext import refuse_nul_in_form

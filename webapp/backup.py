@@ -60,8 +60,9 @@ def find_pg_tool(name: str) -> Path:
     for c in candidates:
         if (Path(c) / name).exists():
             return Path(c) / name
-    raise BackupError(f"{name} not found: install the PostgreSQL client programs "
-                      "(Debian/Ubuntu: apt-get install postgresql-client)")
+    raise BackupError(
+        f"{name} not found: install the PostgreSQL client programs (Debian/Ubuntu: apt-get install postgresql-client)"
+    )
 
 
 def _version(path: str) -> float:
@@ -139,8 +140,18 @@ def backup(url: str, out: Path, *, force: bool = False) -> None:
             _backup_sqlite(_sqlite_path(url), tmp)
         else:
             uri, env = _libpq(url)
-            _run([str(find_pg_tool("pg_dump")), "--format=custom", "--no-owner", "--no-privileges",
-                  f"--file={tmp}", f"--dbname={uri}"], env, "pg_dump")
+            _run(
+                [
+                    str(find_pg_tool("pg_dump")),
+                    "--format=custom",
+                    "--no-owner",
+                    "--no-privileges",
+                    f"--file={tmp}",
+                    f"--dbname={uri}",
+                ],
+                env,
+                "pg_dump",
+            )
         os.replace(tmp, out)
     finally:
         tmp.unlink(missing_ok=True)
@@ -183,14 +194,29 @@ def restore(url: str, source: Path, *, force: bool = False) -> None:
         kind = "a SQLite database file" if dialect == "sqlite" else "a pg_dump custom-format archive"
         raise BackupError(f"{source} is not {kind} (a backup made by `cupcal backup` of this kind of database)")
     if not force and holds_data(url):
-        raise BackupError("the database already holds data; restore only into an empty database, "
-                          "or give --force to replace its contents")
+        raise BackupError(
+            "the database already holds data; restore only into an empty database, "
+            "or give --force to replace its contents"
+        )
     if dialect == "sqlite":
         _restore_sqlite(source, _sqlite_path(url))
     else:
         uri, env = _libpq(url)
-        _run([str(find_pg_tool("pg_restore")), "--clean", "--if-exists", "--no-owner", "--no-privileges",
-              "--single-transaction", "--exit-on-error", f"--dbname={uri}", str(source)], env, "pg_restore")
+        _run(
+            [
+                str(find_pg_tool("pg_restore")),
+                "--clean",
+                "--if-exists",
+                "--no-owner",
+                "--no-privileges",
+                "--single-transaction",
+                "--exit-on-error",
+                f"--dbname={uri}",
+                str(source),
+            ],
+            env,
+            "pg_restore",
+        )
 
 
 def _restore_sqlite(source: Path, target: Path) -> None:

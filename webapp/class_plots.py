@@ -7,25 +7,17 @@ told apart by marker or line style, a ``<title>`` and ``<desc>``, no external re
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 from typing import Any
 
-import functools
-
 import numpy as np
-from calc import formatting as fmt
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from webapp.plots import _FS_LABEL
+from calc import formatting as fmt
+from webapp.plots import _FS_LABEL, _figure, _heading, _legend_below, _margins, _plain, _style_axes, _to_svg
 from webapp.plots import OKABE_ITO as _C
-from webapp.plots import _figure
-from webapp.plots import _heading
-from webapp.plots import _legend_below
-from webapp.plots import _margins
-from webapp.plots import _plain
-from webapp.plots import _style_axes
-from webapp.plots import _to_svg
 
 __all__ = ["distribution_svg", "control_chart_svg"]
 

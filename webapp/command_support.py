@@ -17,8 +17,7 @@ def find_section(session, text: str):  # type: ignore[no-untyped-def]
     """Return the section given as an id or as ``COURSE/SECTION``."""
     import sqlalchemy as sa
 
-    from webapp.models import Course
-    from webapp.models import Section
+    from webapp.models import Course, Section
 
     text = text.strip()
     if text.isdigit():
@@ -30,7 +29,9 @@ def find_section(session, text: str):  # type: ignore[no-untyped-def]
             q = q.where(Course.name == course.strip())
         found = session.scalars(q).all()
         if len(found) > 1:
-            raise click.BadParameter(f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section")
+            raise click.BadParameter(
+                f"{text!r} names {len(found)} sections; write COURSE/SECTION", param_hint="--section"
+            )
         section = found[0] if found else None
     if section is None:
         raise click.BadParameter(f"no section {text!r} (give its id or COURSE/SECTION)", param_hint="--section")

@@ -58,8 +58,7 @@ def downgrade(revision: str) -> None:
 @db.command()
 def current() -> None:
     """Show the revision the database is at."""
-    from webapp.migrate import current_revision
-    from webapp.migrate import head_revision
+    from webapp.migrate import current_revision, head_revision
 
     app = command_app()
     rev = current_revision(_url(app))
@@ -88,7 +87,7 @@ def check() -> None:
 
 
 def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
-    click.echo("Demo sign-ins (invented people; password for all: %s):" % sign_ins[0].password)
+    click.echo(f"Demo sign-ins (invented people; password for all: {sign_ins[0].password}):")
     for s in sign_ins:
         click.echo(f"  {s.role:<12} {s.email:<45} {s.name}")
 
@@ -96,8 +95,7 @@ def _print_sign_ins(sign_ins) -> None:  # type: ignore[no-untyped-def]
 def _load_demo(app, demo_dir: Path) -> bool:  # type: ignore[no-untyped-def]
     """Load the demo into an empty database; return whether it was loaded."""
     from webapp.db import new_session
-    from webapp.services.demo import is_empty
-    from webapp.services.demo import load_demo
+    from webapp.services.demo import is_empty, load_demo
     from webapp.services.errors import ServiceError
 
     with app.app_context():
@@ -105,8 +103,12 @@ def _load_demo(app, demo_dir: Path) -> bool:  # type: ignore[no-untyped-def]
         try:
             if not is_empty(session):
                 return False
-            load_demo(session, demo_dir, password_method=app.config["PASSWORD_METHOD"],
-                      monte_carlo_trials=int(app.config["MONTE_CARLO_TRIALS"]))
+            load_demo(
+                session,
+                demo_dir,
+                password_method=app.config["PASSWORD_METHOD"],
+                monte_carlo_trials=int(app.config["MONTE_CARLO_TRIALS"]),
+            )
             return True
         except ServiceError as exc:
             raise click.ClickException(f"the demo could not be loaded: {exc}") from None
@@ -115,8 +117,14 @@ def _load_demo(app, demo_dir: Path) -> bool:  # type: ignore[no-untyped-def]
 
 
 @click.command("load-demo")
-@click.option("--fixtures", "demo_dir", type=click.Path(file_okay=False, exists=True, path_type=Path),
-              default=DEMO_DIR, show_default=True, help="Folder of demo run files and readings.")
+@click.option(
+    "--fixtures",
+    "demo_dir",
+    type=click.Path(file_okay=False, exists=True, path_type=Path),
+    default=DEMO_DIR,
+    show_default=True,
+    help="Folder of demo run files and readings.",
+)
 def load_demo_command(demo_dir: Path) -> None:
     """Load the invented demo lab into an empty database (after `cupcal db upgrade`)."""
     from webapp.services.demo import demo_sign_ins
@@ -133,8 +141,13 @@ def load_demo_command(demo_dir: Path) -> None:
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option("--port", default=5000, show_default=True, type=click.IntRange(1, 65535))
 @click.option("--demo/--no-demo", default=True, show_default=True, help="Load the demo into an empty database.")
-@click.option("--workers", default=1, show_default=True, type=click.IntRange(1, 64),
-              help="Worker processes; more than 1 serves with gunicorn (for a lab, not one desk).")
+@click.option(
+    "--workers",
+    default=1,
+    show_default=True,
+    type=click.IntRange(1, 64),
+    help="Worker processes; more than 1 serves with gunicorn (for a lab, not one desk).",
+)
 def serve(host: str, port: int, demo: bool, workers: int) -> None:
     """Apply migrations, load the demo into an empty database, and serve the notebook.
 
@@ -149,8 +162,7 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
         sys.exit(2)
     from webapp.db import new_session
     from webapp.migrate import upgrade as do_upgrade
-    from webapp.services.demo import demo_sign_ins
-    from webapp.services.demo import has_demo
+    from webapp.services.demo import demo_sign_ins, has_demo
 
     app = command_app()
     do_upgrade(_url(app), "head")
@@ -167,8 +179,9 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
         _print_sign_ins(demo_sign_ins())
     from webapp.serving import serve_app
 
-    click.echo(f"serving on http://{host}:{port} with {workers} worker process{'es' if workers > 1 else ''} "
-               "(Ctrl-C stops)")
+    click.echo(
+        f"serving on http://{host}:{port} with {workers} worker process{'es' if workers > 1 else ''} (Ctrl-C stops)"
+    )
     if not app.config.get("SESSION_COOKIE_SECURE"):
         click.echo("the session cookie is not marked Secure (plain http); behind HTTPS set CUPCAL_HTTPS=1")
     try:
@@ -181,13 +194,18 @@ def serve(host: str, port: int, demo: bool, workers: int) -> None:
 @click.command("import")
 @click.argument("path", type=click.Path(exists=True, path_type=Path))
 @click.option("--section", "section_text", help="Section: its id or COURSE/SECTION (not for an .eln archive).")
-@click.option("--mapping", type=click.Path(exists=True, dir_okay=False, path_type=Path),
-              help="CSV mapping run files to groups: columns file, group[, bench].")
+@click.option(
+    "--mapping",
+    type=click.Path(exists=True, dir_okay=False, path_type=Path),
+    help="CSV mapping run files to groups: columns file, group[, bench].",
+)
 @click.option("--as", "email", required=True, help="E-mail of the coordinator or technician importing.")
-@click.option("--create-groups", is_flag=True,
-              help="Create the groups that [info] group (or the mapping) names and the section lacks.")
-def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str,
-                   create_groups: bool) -> None:
+@click.option(
+    "--create-groups",
+    is_flag=True,
+    help="Create the groups that [info] group (or the mapping) names and the section lacks.",
+)
+def import_command(path: Path, section_text: str | None, mapping: Path | None, email: str, create_groups: bool) -> None:
     """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.
 
     Each run is stored all-or-nothing; importing the same files again changes nothing.
@@ -205,10 +223,7 @@ def import_command(path: Path, section_text: str | None, mapping: Path | None, e
     from webapp.db import new_session
     from webapp.models import Person
     from webapp.services.errors import ServiceError
-    from webapp.services.imports import files_from_folder
-    from webapp.services.imports import files_from_zip
-    from webapp.services.imports import import_files
-    from webapp.services.imports import runs_in
+    from webapp.services.imports import files_from_folder, files_from_zip, import_files, runs_in
 
     app = command_app()
     with app.app_context():
@@ -219,12 +234,20 @@ def import_command(path: Path, section_text: str | None, mapping: Path | None, e
                 raise click.BadParameter(f"nobody has the e-mail address {email!r}", param_hint="--as")
             section = find_section(session, section_text)
             try:
-                files = files_from_folder(path) if path.is_dir() else files_from_zip(path.read_bytes(), source=str(path))
+                files = (
+                    files_from_folder(path) if path.is_dir() else files_from_zip(path.read_bytes(), source=str(path))
+                )
                 text = mapping.read_text(encoding="utf-8-sig") if mapping else None
-                with click.progressbar(length=runs_in(files), label="importing runs",
-                                       file=sys.stderr) as bar:
-                    report = import_files(session, actor, section.id, files, mapping=text,
-                                          progress=lambda _p: bar.update(1), create_groups=create_groups)
+                with click.progressbar(length=runs_in(files), label="importing runs", file=sys.stderr) as bar:
+                    report = import_files(
+                        session,
+                        actor,
+                        section.id,
+                        files,
+                        mapping=text,
+                        progress=lambda _p: bar.update(1),
+                        create_groups=create_groups,
+                    )
             except ServiceError as exc:
                 raise click.ClickException(exc.message) from None
         finally:
@@ -252,8 +275,7 @@ def backup_command(out: Path, force: bool) -> None:
     SQLite: a copy made with SQLite's online backup API. PostgreSQL: a pg_dump
     custom-format archive (needs pg_dump on this machine).
     """
-    from webapp.backup import BackupError
-    from webapp.backup import backup
+    from webapp.backup import BackupError, backup
 
     app = command_app()
     try:
@@ -271,8 +293,7 @@ def restore_command(source: Path, force: bool) -> None:
 
     Only an empty database is restored into, unless --force. Stop the notebook first.
     """
-    from webapp.backup import BackupError
-    from webapp.backup import restore
+    from webapp.backup import BackupError, restore
 
     app = command_app()
     try:

@@ -36,16 +36,29 @@ def _calorimeter_id(session, text: str) -> int:  # type: ignore[no-untyped-def]
 
 
 @click.command("export")
-@click.option("--format", "fmt", type=click.Choice(["eln"]), default="eln", show_default=True,
-              help="Archive format (an .eln archive: RO-Crate with one folder per run).")
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(["eln"]),
+    default="eln",
+    show_default=True,
+    help="Archive format (an .eln archive: RO-Crate with one folder per run).",
+)
 @click.option("--run", "run_ids", type=int, multiple=True, help="A run id (repeat for a selection).")
 @click.option("--section", "section_text", help="Every run of a section: its id or COURSE/SECTION.")
 @click.option("--calorimeter", "calorimeter", help="A calorimeter (id or name) with its calibrations.")
 @click.option("--all", "everything", is_flag=True, help="Every calorimeter and every run.")
 @click.option("--as", "email", required=True, help="E-mail of the person exporting (what they may see).")
 @click.option("-o", "--out", type=click.Path(path_type=Path), help="File or folder to write (default: here).")
-def export_command(fmt: str, run_ids: tuple[int, ...], section_text: str | None, calorimeter: str | None,
-                   everything: bool, email: str, out: Path | None) -> None:
+def export_command(
+    fmt: str,
+    run_ids: tuple[int, ...],
+    section_text: str | None,
+    calorimeter: str | None,
+    everything: bool,
+    email: str,
+    out: Path | None,
+) -> None:
     """Write an .eln archive of runs, a section, a calorimeter or the whole notebook."""
     from webapp.command_support import command_app, find_section
     from webapp.db import new_session
@@ -90,8 +103,9 @@ def import_eln_file(path: Path, email: str) -> None:
         try:
             actor = _person(session, email)
             try:
-                report = import_eln(session, actor, path.read_bytes(), source=path.name,
-                                    password_method=app.config["PASSWORD_METHOD"])
+                report = import_eln(
+                    session, actor, path.read_bytes(), source=path.name, password_method=app.config["PASSWORD_METHOD"]
+                )
             except ServiceError as exc:
                 raise _Refused(exc.message) from None
         finally:

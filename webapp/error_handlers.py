@@ -10,22 +10,13 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+from flask import Flask, Response, current_app, jsonify, render_template, request
+from flask_wtf.csrf import CSRFError
+from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from calc.errors import CupcalError
 from calc.limits import LimitExceeded
-from flask import Flask
-from flask import Response
-from flask import current_app
-from flask import jsonify
-from flask import render_template
-from flask import request
-from flask_wtf.csrf import CSRFError
-from werkzeug.exceptions import HTTPException
-from werkzeug.exceptions import RequestEntityTooLarge
-
-from webapp.services.errors import ServiceError
-from webapp.services.errors import Stale
-from webapp.services.errors import storage_error
+from webapp.services.errors import ServiceError, Stale, storage_error
 
 
 def wants_json() -> bool:
@@ -49,8 +40,10 @@ def _too_large_message() -> str:
     # the limit of this request: a run upload's (MAX_CONTENT_LENGTH) or a bulk import's
     # (IMPORT_MAX_UPLOAD_BYTES), which its view sets before reading the body
     limit = request.max_content_length or 0
-    return (f"the upload is larger than the limit of {limit // 1024} KiB for this request "
-            "(all its files together); nothing was read or saved")
+    return (
+        f"the upload is larger than the limit of {limit // 1024} KiB for this request "
+        "(all its files together); nothing was read or saved"
+    )
 
 
 def _roll_back_request_session() -> None:
@@ -80,8 +73,12 @@ def _service_error(exc: ServiceError):  # type: ignore[no-untyped-def]
 
 
 def _stale_row(exc: so.exc.StaleDataError):  # type: ignore[no-untyped-def]
-    return _service_error(Stale("it was changed by someone else while this request ran; nothing was "
-                                "saved. Reload it, then make your change again"))
+    return _service_error(
+        Stale(
+            "it was changed by someone else while this request ran; nothing was "
+            "saved. Reload it, then make your change again"
+        )
+    )
 
 
 def _calc_error(exc: CupcalError):  # type: ignore[no-untyped-def]

@@ -16,6 +16,7 @@ from alembic.config import Config
 
 from webapp.db import normalize_url
 
+
 def _migrations_dir() -> Path:
     """Return the folder of the Alembic migrations: the copy a wheel carries inside the package
     (``webapp/_migrations``, made by setup.py), else the repository's ``migrations/`` (editable)."""
@@ -23,8 +24,10 @@ def _migrations_dir() -> Path:
     for folder in (here / "_migrations", here.parent / "migrations"):
         if (folder / "env.py").is_file():
             return folder
-    raise RuntimeError(f"the migrations are missing: neither {here / '_migrations'} nor {here.parent / 'migrations'} "
-                       "holds env.py; reinstall cupcal")
+    raise RuntimeError(
+        f"the migrations are missing: neither {here / '_migrations'} nor {here.parent / 'migrations'} "
+        "holds env.py; reinstall cupcal"
+    )
 
 
 MIGRATIONS_DIR = _migrations_dir()

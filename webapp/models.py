@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import datetime as dt
 from typing import Any
-from typing import Optional
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
@@ -38,7 +37,7 @@ NAMING_CONVENTION = {
 
 def utcnow() -> dt.datetime:
     """Return the current time in UTC (naive, as stored)."""
-    return dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)
+    return dt.datetime.now(dt.UTC).replace(tzinfo=None)
 
 
 class Base(so.DeclarativeBase):
@@ -67,15 +66,15 @@ class Group(Base):
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     name: so.Mapped[str] = so.mapped_column(sa.String(120), unique=True)
-    course_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("courses.id"), index=True)
+    course_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("courses.id"), index=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
     #: the section the group works in (classes); None for groups made before sections existed
-    section_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
+    section_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
 
-    course: so.Mapped[Optional[Course]] = so.relationship(back_populates="groups")
+    course: so.Mapped[Course | None] = so.relationship(back_populates="groups")
     members: so.Mapped[list[Person]] = so.relationship(back_populates="group")
-    section: so.Mapped[Optional[Section]] = so.relationship(back_populates="groups")
+    section: so.Mapped[Section | None] = so.relationship(back_populates="groups")
 
 
 class Person(Base):
@@ -92,13 +91,13 @@ class Person(Base):
     name: so.Mapped[str] = so.mapped_column(sa.String(120))
     role: so.Mapped[str] = so.mapped_column(sa.String(20))
     password_hash: so.Mapped[str] = so.mapped_column(sa.String(255))
-    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    group_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
     active: so.Mapped[bool] = so.mapped_column(default=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     #: the person chooses a password of their own at the next sign-in (new, reset or link accounts)
     must_set_password: so.Mapped[bool] = so.mapped_column(default=False, server_default=sa.false())
 
-    group: so.Mapped[Optional[Group]] = so.relationship(back_populates="members")
+    group: so.Mapped[Group | None] = so.relationship(back_populates="members")
     tokens: so.Mapped[list[ApiToken]] = so.relationship(back_populates="person")
 
     is_authenticated = True
@@ -128,8 +127,8 @@ class ApiToken(Base):
     prefix: so.Mapped[str] = so.mapped_column(sa.String(16))
     token_hash: so.Mapped[str] = so.mapped_column(sa.String(64), unique=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    last_used_at: so.Mapped[Optional[dt.datetime]]
-    revoked_at: so.Mapped[Optional[dt.datetime]]
+    last_used_at: so.Mapped[dt.datetime | None]
+    revoked_at: so.Mapped[dt.datetime | None]
     #: "read" (GET only) or "write" (everything the person may do); tokens made before scopes: "write"
     scope: so.Mapped[str] = so.mapped_column(sa.String(10), default="write", server_default="write")
 
@@ -147,7 +146,7 @@ class Calorimeter(Base):
     location: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     #: days a calibration stays valid on this calorimeter (None: the notebook's CALIBRATION_DUE_DAYS)
-    calibration_interval_days: so.Mapped[Optional[int]]
+    calibration_interval_days: so.Mapped[int | None]
     #: what the calorimeter is (calc.io.runfile.CALORIMETER_TYPES): its plausible heat capacities follow it
     vessel_type: so.Mapped[str] = so.mapped_column(sa.String(20), default="foam-cups", server_default="foam-cups")
     #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
@@ -173,32 +172,30 @@ class Calibration(Base):
     heat_capacity_j_k_std: so.Mapped[float]
     #: when the value was measured (the calibration run's [info] date, or the date typed with it)
     taken_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    result_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("results.id"), index=True)
+    result_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("results.id"), index=True)
     note: so.Mapped[str] = so.mapped_column(sa.Text, default="")
-    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     #: "approved" (staff recorded or approved it), "proposed" (a student's, or one awaiting
     #: confirmation) or "withdrawn"; only approved measurements are pooled into the value in force
     status: so.Mapped[str] = so.mapped_column(sa.String(20), default="approved", server_default="approved")
-    approved_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
-    approved_at: so.Mapped[Optional[dt.datetime]]
-    withdrawn_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
-    withdrawn_at: so.Mapped[Optional[dt.datetime]]
+    approved_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
+    approved_at: so.Mapped[dt.datetime | None]
+    withdrawn_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
+    withdrawn_at: so.Mapped[dt.datetime | None]
     withdrawn_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="", server_default="")
     #: a confirmed change of the cup: the pool of the value in force starts again here
     restart: so.Mapped[bool] = so.mapped_column(default=False, server_default=sa.false())
     #: when this row became the cup's value in force (the newest such row is in force)
-    in_force_at: so.Mapped[Optional[dt.datetime]] = so.mapped_column(index=True)
+    in_force_at: so.Mapped[dt.datetime | None] = so.mapped_column(index=True)
     #: a pooled value: {"members": [ids], "excluded": [ids], "chi2", "dof", "birge", ...}; None for a measurement
-    pool: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(sa.JSON)
+    pool: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON)
 
-    calorimeter: so.Mapped[Calorimeter] = so.relationship(
-        back_populates="calibrations", foreign_keys=[calorimeter_id]
-    )
-    result: so.Mapped[Optional[Result]] = so.relationship(foreign_keys=[result_id])
-    created_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[created_by_id])
-    approved_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[approved_by_id])
-    withdrawn_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[withdrawn_by_id])
+    calorimeter: so.Mapped[Calorimeter] = so.relationship(back_populates="calibrations", foreign_keys=[calorimeter_id])
+    result: so.Mapped[Result | None] = so.relationship(foreign_keys=[result_id])
+    created_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[created_by_id])
+    approved_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[approved_by_id])
+    withdrawn_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[withdrawn_by_id])
 
 
 class Run(Base):
@@ -215,48 +212,42 @@ class Run(Base):
     readings_raw: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="files")
     #: parsed series, little-endian float64 (s and K); see webapp.quantities.series
     series_time_s: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="series")
-    series_temperature_k: so.Mapped[bytes] = so.mapped_column(
-        sa.LargeBinary, deferred=True, deferred_group="series"
-    )
+    series_temperature_k: so.Mapped[bytes] = so.mapped_column(sa.LargeBinary, deferred=True, deferred_group="series")
     points: so.Mapped[int]
     author_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
     operator: so.Mapped[str] = so.mapped_column(sa.String(200), default="")
-    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    group_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
     bench: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
     performed_on: so.Mapped[str] = so.mapped_column(sa.String(40), default="")
     notes: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     #: the run file's ``[info] sample``: the sample or lot, for series of replicates
     sample: so.Mapped[str] = so.mapped_column(sa.String(200), default="", server_default="", index=True)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)
-    calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
+    calorimeter_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
     #: the calibration that supplied C_cal (None when the run file gave it); added after
     #: both tables exist, since calibrations → results → runs → calibrations is a cycle
-    calibration_id: so.Mapped[Optional[int]] = so.mapped_column(
-        sa.ForeignKey("calibrations.id", use_alter=True)
-    )
+    calibration_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calibrations.id", use_alter=True))
     locked: so.Mapped[bool] = so.mapped_column(default=False)
-    locked_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
-    locked_at: so.Mapped[Optional[dt.datetime]]
+    locked_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
+    locked_at: so.Mapped[dt.datetime | None]
     #: SHA-256 of the run file and the readings as imported in bulk (re-import changes nothing)
-    content_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
+    content_hash: so.Mapped[str | None] = so.mapped_column(sa.String(64), unique=True)
     #: the one-time token of the page form that saved the run (a double submit saves one run)
-    submit_token: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64), unique=True)
-    bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
+    submit_token: so.Mapped[str | None] = so.mapped_column(sa.String(64), unique=True)
+    bench_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("benches.id"), index=True)
     #: optimistic concurrency: every UPDATE checks and raises it (the ETag of the API)
     version: so.Mapped[int] = so.mapped_column(default=1, server_default="1")
     #: what the lock signed: the current result then and the SHA-256 of the run's content
-    locked_result_id: so.Mapped[Optional[int]] = so.mapped_column(
-        sa.ForeignKey("results.id", use_alter=True)
-    )
-    locked_hash: so.Mapped[Optional[str]] = so.mapped_column(sa.String(64))
+    locked_result_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("results.id", use_alter=True))
+    locked_hash: so.Mapped[str | None] = so.mapped_column(sa.String(64))
 
     __mapper_args__ = {"version_id_col": version}
 
     author: so.Mapped[Person] = so.relationship(foreign_keys=[author_id])
-    locked_by: so.Mapped[Optional[Person]] = so.relationship(foreign_keys=[locked_by_id])
-    group: so.Mapped[Optional[Group]] = so.relationship()
-    calorimeter: so.Mapped[Optional[Calorimeter]] = so.relationship()
-    calibration: so.Mapped[Optional[Calibration]] = so.relationship(foreign_keys=[calibration_id])
+    locked_by: so.Mapped[Person | None] = so.relationship(foreign_keys=[locked_by_id])
+    group: so.Mapped[Group | None] = so.relationship()
+    calorimeter: so.Mapped[Calorimeter | None] = so.relationship()
+    calibration: so.Mapped[Calibration | None] = so.relationship(foreign_keys=[calibration_id])
     inputs: so.Mapped[list[RunInput]] = so.relationship(
         back_populates="run", order_by="RunInput.id", cascade="all, delete-orphan"
     )
@@ -264,7 +255,7 @@ class Run(Base):
         back_populates="run", order_by="Result.id", foreign_keys="Result.run_id"
     )
     #: staff's and the author's decisions (withdrawn, excluded, accepted, a mark by hand); None: none yet
-    review: so.Mapped[Optional[RunReview]] = so.relationship(viewonly=True, uselist=False)
+    review: so.Mapped[RunReview | None] = so.relationship(viewonly=True, uselist=False)
 
     @property
     def current_result(self) -> Result | None:
@@ -281,8 +272,8 @@ class RunInput(Base):
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
     field: so.Mapped[str] = so.mapped_column(sa.String(80))
-    value: so.Mapped[Optional[float]]
-    std_uncertainty: so.Mapped[Optional[float]]
+    value: so.Mapped[float | None]
+    std_uncertainty: so.Mapped[float | None]
     unit: so.Mapped[str] = so.mapped_column(sa.String(40), default="")
     text: so.Mapped[str] = so.mapped_column(sa.String(300), default="")
     #: "run file", or where a supplied value came from (a calibration)
@@ -313,35 +304,31 @@ class Result(Base):
     corrected_delta_t_k_std: so.Mapped[float]
     heat_j: so.Mapped[float]
     heat_j_std: so.Mapped[float]
-    molar_enthalpy_kj_mol: so.Mapped[Optional[float]]
-    molar_enthalpy_kj_mol_std: so.Mapped[Optional[float]]
-    calorimeter_heat_capacity_j_k: so.Mapped[Optional[float]]
-    calorimeter_heat_capacity_j_k_std: so.Mapped[Optional[float]]
+    molar_enthalpy_kj_mol: so.Mapped[float | None]
+    molar_enthalpy_kj_mol_std: so.Mapped[float | None]
+    calorimeter_heat_capacity_j_k: so.Mapped[float | None]
+    calorimeter_heat_capacity_j_k_std: so.Mapped[float | None]
     #: expanded uncertainty of the main output, in its unit, and its coverage factor
     expanded_uncertainty: so.Mapped[float]
     coverage_factor: so.Mapped[float]
-    dof_eff: so.Mapped[Optional[float]]
+    dof_eff: so.Mapped[float | None]
     budget: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     warnings: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
-    comparison: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(
-        sa.JSON, deferred=True, deferred_group="detail"
-    )
+    comparison: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     cautions: so.Mapped[list[Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     construction: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     properties: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
-    monte_carlo: so.Mapped[Optional[dict[str, Any]]] = so.mapped_column(
-        sa.JSON, deferred=True, deferred_group="detail"
-    )
+    monte_carlo: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     record: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     #: plausibility checks of calc.checks ({"code", "severity", "message", "value"}); not deferred, since
     #: lists, dashboards and control charts leave out runs with warning checks (None: analysed before them)
-    checks: so.Mapped[Optional[list[Any]]] = so.mapped_column(sa.JSON)
+    checks: so.Mapped[list[Any] | None] = so.mapped_column(sa.JSON)
     software_version: so.Mapped[str] = so.mapped_column(sa.String(40))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
 
     run: so.Mapped[Run] = so.relationship(back_populates="results", foreign_keys=[run_id])
-    created_by: so.Mapped[Optional[Person]] = so.relationship()
+    created_by: so.Mapped[Person | None] = so.relationship()
 
 
 class AuditEntry(Base):
@@ -352,14 +339,14 @@ class AuditEntry(Base):
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    person_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    person_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     entity: so.Mapped[str] = so.mapped_column(sa.String(40))
     entity_id: so.Mapped[int]
     field: so.Mapped[str] = so.mapped_column(sa.String(80))
-    old: so.Mapped[Optional[str]] = so.mapped_column(sa.Text)
-    new: so.Mapped[Optional[str]] = so.mapped_column(sa.Text)
+    old: so.Mapped[str | None] = so.mapped_column(sa.Text)
+    new: so.Mapped[str | None] = so.mapped_column(sa.Text)
 
-    person: so.Mapped[Optional[Person]] = so.relationship()
+    person: so.Mapped[Person | None] = so.relationship()
 
 
 class Section(Base):
@@ -387,13 +374,13 @@ class Bench(Base):
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     section_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
     name: so.Mapped[str] = so.mapped_column(sa.String(120))
-    calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
+    calorimeter_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calorimeters.id"), index=True)
     thermometer: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
-    thermometer_resolution_k: so.Mapped[Optional[float]]
+    thermometer_resolution_k: so.Mapped[float | None]
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
     section: so.Mapped[Section] = so.relationship(back_populates="benches")
-    calorimeter: so.Mapped[Optional[Calorimeter]] = so.relationship()
+    calorimeter: so.Mapped[Calorimeter | None] = so.relationship()
 
 
 class Series(Base):
@@ -404,10 +391,10 @@ class Series(Base):
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     name: so.Mapped[str] = so.mapped_column(sa.String(200))
     notes: so.Mapped[str] = so.mapped_column(sa.Text, default="")
-    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
-    created_by: so.Mapped[Optional[Person]] = so.relationship()
+    created_by: so.Mapped[Person | None] = so.relationship()
     members: so.Mapped[list[SeriesRun]] = so.relationship(
         back_populates="series", order_by="SeriesRun.run_id", cascade="all, delete-orphan"
     )
@@ -435,7 +422,7 @@ class Webhook(Base):
     #: the HMAC-SHA256 key (kept in clear: it is needed to sign)
     secret: so.Mapped[str] = so.mapped_column(sa.String(128))
     active: so.Mapped[bool] = so.mapped_column(default=True)
-    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
     deliveries: so.Mapped[list[WebhookDelivery]] = so.relationship(
@@ -451,14 +438,14 @@ class WebhookDelivery(Base):
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     webhook_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("webhooks.id"), index=True)
     event: so.Mapped[str] = so.mapped_column(sa.String(60))
-    run_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
+    run_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
     body: so.Mapped[str] = so.mapped_column(sa.Text)
     #: "pending", "delivered" or "failed" (no attempts left)
     status: so.Mapped[str] = so.mapped_column(sa.String(20), default="pending", index=True)
     attempts: so.Mapped[int] = so.mapped_column(default=0)
-    next_attempt_at: so.Mapped[Optional[dt.datetime]]
-    last_attempt_at: so.Mapped[Optional[dt.datetime]]
-    last_status_code: so.Mapped[Optional[int]]
+    next_attempt_at: so.Mapped[dt.datetime | None]
+    last_attempt_at: so.Mapped[dt.datetime | None]
+    last_status_code: so.Mapped[int | None]
     last_error: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
 
@@ -473,11 +460,11 @@ class SignInLink(Base):
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     person_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
     token_hash: so.Mapped[str] = so.mapped_column(sa.String(64), unique=True)
-    created_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    created_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
     expires_at: so.Mapped[dt.datetime]
     #: set when the link is used or replaced by a newer one; a link works once
-    used_at: so.Mapped[Optional[dt.datetime]]
+    used_at: so.Mapped[dt.datetime | None]
 
     person: so.Mapped[Person] = so.relationship(foreign_keys=[person_id])
 
@@ -500,10 +487,10 @@ class RunReview(Base):
     accepted: so.Mapped[bool] = so.mapped_column(default=False)
     accepted_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     #: a mark set by staff in place of the scheme's (None: the scheme's mark)
-    mark_points: so.Mapped[Optional[float]]
+    mark_points: so.Mapped[float | None]
     mark_reason: so.Mapped[str] = so.mapped_column(sa.Text, default="")
     updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    updated_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    updated_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
 
     run: so.Mapped[Run] = so.relationship()
 
@@ -512,13 +499,11 @@ class Comment(Base):
     """A comment by staff on one run or on one group's work; the group's students read it."""
 
     __tablename__ = "comments"
-    __table_args__ = (
-        sa.CheckConstraint("(run_id IS NULL) <> (group_id IS NULL)", name="one_target"),
-    )
+    __table_args__ = (sa.CheckConstraint("(run_id IS NULL) <> (group_id IS NULL)", name="one_target"),)
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
-    run_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
-    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
+    run_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("runs.id"), index=True)
+    group_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("groups.id"), index=True)
     author_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"))
     body: so.Mapped[str] = so.mapped_column(sa.Text)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
@@ -535,7 +520,9 @@ class MarkingScheme(Base):
     #: {"en": [[upper bound or null, points], ...], "relative": [[bound or null, points], ...]}
     bands: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON)
     updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    updated_by_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("people.id"))
+    updated_by_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("people.id"))
+
+
 class SignInFailure(Base):
     """A failed sign-in: the e-mail address tried and the client address (for throttling)."""
 
@@ -559,23 +546,25 @@ class LiveRun(Base):
     """
 
     __tablename__ = "live_runs"
-    __table_args__ = (sa.UniqueConstraint("owner_id", "client_key"),
-                      sa.CheckConstraint("state IN ('recording', 'finished', 'abandoned')", name="state"))
+    __table_args__ = (
+        sa.UniqueConstraint("owner_id", "client_key"),
+        sa.CheckConstraint("state IN ('recording', 'finished', 'abandoned')", name="state"),
+    )
 
     id: so.Mapped[int] = so.mapped_column(primary_key=True)
     owner_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("people.id"), index=True)
     #: chosen by the recorder (a UUID): a second create with it resumes the same live run
     client_key: so.Mapped[str] = so.mapped_column(sa.String(64))
     title: so.Mapped[str] = so.mapped_column(sa.String(300), default="")
-    calorimeter_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("calorimeters.id"))
-    section_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
-    bench_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("benches.id"))
+    calorimeter_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("calorimeters.id"))
+    section_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("sections.id"), index=True)
+    bench_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("benches.id"))
     bench: so.Mapped[str] = so.mapped_column(sa.String(120), default="")
-    group_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("groups.id"))
+    group_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("groups.id"))
     #: the run file (TOML) exactly as sent
     run_file: so.Mapped[str] = so.mapped_column(sa.Text)
     #: the target expanded uncertainty of the main output, in its own unit (None: the section's, else the default)
-    target_u: so.Mapped[Optional[float]]
+    target_u: so.Mapped[float | None]
     state: so.Mapped[str] = so.mapped_column(sa.String(12), default="recording")
     #: the highest reading sequence number stored (-1: none yet)
     last_seq: so.Mapped[int] = so.mapped_column(default=-1)
@@ -584,11 +573,11 @@ class LiveRun(Base):
     advice_seq: so.Mapped[int] = so.mapped_column(default=-1)
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow, index=True)
     updated_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
-    run_id: so.Mapped[Optional[int]] = so.mapped_column(sa.ForeignKey("runs.id"))
+    run_id: so.Mapped[int | None] = so.mapped_column(sa.ForeignKey("runs.id"))
 
     owner: so.Mapped[Person] = so.relationship()
-    group: so.Mapped[Optional[Group]] = so.relationship()
-    section: so.Mapped[Optional[Section]] = so.relationship()
+    group: so.Mapped[Group | None] = so.relationship()
+    section: so.Mapped[Section | None] = so.relationship()
 
 
 class LiveReading(Base):
@@ -596,8 +585,7 @@ class LiveReading(Base):
 
     __tablename__ = "live_readings"
 
-    live_run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("live_runs.id", ondelete="CASCADE"),
-                                                   primary_key=True)
+    live_run_id: so.Mapped[int] = so.mapped_column(sa.ForeignKey("live_runs.id", ondelete="CASCADE"), primary_key=True)
     seq: so.Mapped[int] = so.mapped_column(primary_key=True, autoincrement=False)
     time_s: so.Mapped[float]
     temperature_c: so.Mapped[float]

@@ -15,13 +15,13 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping
 from typing import Any
 
-from flask import Flask
-from flask import current_app
+from flask import Flask, current_app
 from werkzeug.middleware.dispatcher import DispatcherMiddleware
 
 
-def mount(host_app: Any, prefix: str, config: Mapping[str, Any] | None,
-          create_app: Callable[[Mapping[str, Any]], Flask]) -> Flask:
+def mount(
+    host_app: Any, prefix: str, config: Mapping[str, Any] | None, create_app: Callable[[Mapping[str, Any]], Flask]
+) -> Flask:
     """Serve a new cupcal app under ``prefix`` of ``host_app`` (a Flask app or any WSGI app); return it.
 
     :param prefix: the URL prefix, starting with "/" and not ending with one
@@ -36,8 +36,10 @@ def mount(host_app: Any, prefix: str, config: Mapping[str, Any] | None,
     if isinstance(host_app, Flask):
         host_app.wsgi_app = DispatcherMiddleware(host_app.wsgi_app, {prefix: app})  # type: ignore[method-assign]
     else:
-        raise TypeError("expected a Flask app; for another WSGI app use "
-                        "DispatcherMiddleware(host, {prefix: create_app(...)}) yourself")
+        raise TypeError(
+            "expected a Flask app; for another WSGI app use "
+            "DispatcherMiddleware(host, {prefix: create_app(...)}) yourself"
+        )
     return app
 
 

@@ -13,19 +13,13 @@ import datetime as dt
 import textwrap
 import threading
 from collections import OrderedDict
-from collections.abc import Callable
-from collections.abc import Hashable
-from collections.abc import Sequence
+from collections.abc import Callable, Hashable, Sequence
 from xml.sax.saxutils import escape
 
-from calc.uncertainty.gum import BudgetLine
-from flask import Flask
-from flask import Response
-from flask import current_app
+from flask import Flask, Response, current_app
 
-from webapp.models import Calibration
-from webapp.models import Result
-from webapp.models import Run
+from calc.uncertainty.gum import BudgetLine
+from webapp.models import Calibration, Result, Run
 from webapp.quantities import main_value
 
 _EXT = "cupcal_plot_cache"
@@ -115,18 +109,20 @@ def budget_lines(result: Result) -> list[BudgetLine]:
     lines = []
     for b in result.budget or []:
         dof = b.get("degrees_of_freedom")
-        lines.append(BudgetLine(
-            name=str(b.get("input", "")),
-            label=str(b.get("label") or b.get("input", "")),
-            value=float(b.get("value") or 0.0),
-            unit=str(b.get("unit", "")),
-            standard_uncertainty=float(b.get("standard_uncertainty") or 0.0),
-            distribution=str(b.get("distribution", "")),
-            dof=float("inf") if dof is None else float(dof),
-            sensitivity=float(b.get("sensitivity") or 0.0),
-            contribution=float(b.get("contribution") or 0.0),
-            share=float(b.get("share") or 0.0),
-        ))
+        lines.append(
+            BudgetLine(
+                name=str(b.get("input", "")),
+                label=str(b.get("label") or b.get("input", "")),
+                value=float(b.get("value") or 0.0),
+                unit=str(b.get("unit", "")),
+                standard_uncertainty=float(b.get("standard_uncertainty") or 0.0),
+                distribution=str(b.get("distribution", "")),
+                dof=float("inf") if dof is None else float(dof),
+                sensitivity=float(b.get("sensitivity") or 0.0),
+                contribution=float(b.get("contribution") or 0.0),
+                share=float(b.get("share") or 0.0),
+            )
+        )
     return lines
 
 
@@ -161,8 +157,9 @@ def budget_plot(result: Result, app: Flask | None = None) -> str:
     from webapp import plots
 
     unit = main_value(result)[2]
-    return plot_cache(app).get_or_draw(("budget", result.id),
-                                       lambda: plots.budget_plot_svg(budget_lines(result), unit=unit))
+    return plot_cache(app).get_or_draw(
+        ("budget", result.id), lambda: plots.budget_plot_svg(budget_lines(result), unit=unit)
+    )
 
 
 def draw_result_plots(run: Run, result: Result, app: Flask | None = None) -> None:
@@ -179,14 +176,15 @@ def message_svg(text: str) -> str:
     lines = textwrap.wrap(text, 80) or [""]
     height = 24 + 20 * len(lines)
     body = "".join(f'<text x="12" y="{28 + 20 * i}">{escape(line)}</text>' for i, line in enumerate(lines))
-    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="640" height="{height}" viewBox="0 0 640 {height}" '
-            f'role="img" aria-label="{escape(text, {chr(34): "&quot;"})}">'
-            f'<rect width="640" height="{height}" fill="#fff6db" stroke="#b07d00"/>'
-            f'<g font-family="sans-serif" font-size="14" fill="#1f2328">{body}</g></svg>')
+    return (
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="640" height="{height}" viewBox="0 0 640 {height}" '
+        f'role="img" aria-label="{escape(text, {chr(34): "&quot;"})}">'
+        f'<rect width="640" height="{height}" fill="#fff6db" stroke="#b07d00"/>'
+        f'<g font-family="sans-serif" font-size="14" fill="#1f2328">{body}</g></svg>'
+    )
 
 
-def history_plot(calibrations: Sequence[Calibration], current: Calibration | None,
-                 app: Flask | None = None) -> str:
+def history_plot(calibrations: Sequence[Calibration], current: Calibration | None, app: Flask | None = None) -> str:
     """Return the heat-capacity history plot (standard uncertainties) of one calorimeter.
 
     Calibrations are never changed once stored, so the ids name the picture.
@@ -197,7 +195,8 @@ def history_plot(calibrations: Sequence[Calibration], current: Calibration | Non
         from webapp import plots
 
         points: list[tuple[dt.datetime, float, float]] = [
-            (c.taken_at, c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in calibrations]
+            (c.taken_at, c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in calibrations
+        ]
         now = (current.heat_capacity_j_k, current.heat_capacity_j_k_std) if current else None
         return plots.calibration_history_svg(points, unit="J/K", current=now, uncertainty="standard")
 

@@ -37,8 +37,8 @@ from calc.kinds import get_kind
 
 if TYPE_CHECKING:
     from calc.analysis import Analysis
-    from calc.uncertainty.gum import BudgetLine
     from calc.deltat.periods import Periods
+    from calc.uncertainty.gum import BudgetLine
 
 __all__ = [
     "OKABE_ITO", "MAX_DRAWN_POINTS", "run_plot_svg", "run_plot_png", "budget_plot_svg", "calibration_history_svg",

@@ -10,12 +10,10 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from calc.io.units import Q_
 from uncertainties import ufloat
 
-from webapp.models import Calibration
-from webapp.models import Result
-from webapp.models import Run
+from calc.io.units import Q_
+from webapp.models import Calibration, Result, Run
 
 #: result outputs: key → (value column, uncertainty column, unit)
 RESULT_OUTPUTS = {

@@ -15,13 +15,13 @@ plain http://127.0.0.1 keeps working; turn it on whenever the notebook is served
 
 from __future__ import annotations
 
-from flask import Flask
-from flask import Response
-from flask import request
+from flask import Flask, Response, request
 
 #: the policy of every page, API answer and static file that sets none of its own
-CSP = ("default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; object-src 'none'; "
-       "base-uri 'self'; form-action 'self'; frame-ancestors 'none'")
+CSP = (
+    "default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; object-src 'none'; "
+    "base-uri 'self'; form-action 'self'; frame-ancestors 'none'"
+)
 REFERRER_POLICY = "same-origin"
 HSTS = "max-age=31536000"
 #: blueprints whose routes may be framed (their own CSP names who may frame them)

@@ -14,7 +14,6 @@ from typing import Any
 
 from flask import Flask
 
-
 #: threads per gunicorn worker (the gthread worker class): open event streams plus ordinary requests
 GTHREAD_THREADS = 32
 
@@ -43,9 +42,16 @@ def _gunicorn(base: type, app: Flask, host: str, port: int, workers: int) -> Any
 
     # threads: a live run's event stream holds one thread for up to a minute (webapp/live/stream.py);
     # a sync worker would serve nothing else meanwhile
-    options = {"bind": f"{host}:{port}", "workers": workers, "post_fork": post_fork,
-               "worker_class": "gthread", "threads": GTHREAD_THREADS,
-               "timeout": 120, "accesslog": "-", "errorlog": "-"}
+    options = {
+        "bind": f"{host}:{port}",
+        "workers": workers,
+        "post_fork": post_fork,
+        "worker_class": "gthread",
+        "threads": GTHREAD_THREADS,
+        "timeout": 120,
+        "accesslog": "-",
+        "errorlog": "-",
+    }
 
     class Notebook(base):  # type: ignore[misc,valid-type]
         def load_config(self) -> None:
@@ -74,7 +80,9 @@ def port_problem(host: str, port: int) -> str | None:
             probe.bind(address)
         except OSError as exc:
             if exc.errno == errno.EADDRINUSE:
-                return (f"port {port} on {host} is already in use (another cupcal or another program); "
-                        f"choose another with --port, e.g. cupcal serve --port {port + 1} (make run PORT={port + 1})")
+                return (
+                    f"port {port} on {host} is already in use (another cupcal or another program); "
+                    f"choose another with --port, e.g. cupcal serve --port {port + 1} (make run PORT={port + 1})"
+                )
             return f"cannot listen on {host}:{port}: {exc.strerror or exc}"
     return None

@@ -9,16 +9,14 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
+from flask import Flask
+
 from calc import formatting as fmt
 from calc.kinds import get_kind
 from calc.refdata.comparison import verdict
 from calc.refdata.hazards import general_caution
-from flask import Flask
-
 from webapp.auth.forms import ConfirmForm
-from webapp.services.checks import flag_text
-from webapp.services.checks import flagged_checks
-from webapp.services.checks import run_flagged
+from webapp.services.checks import flag_text, flagged_checks, run_flagged
 
 
 def pm(value: Any, u: Any, unit: str = "", sig: int = 2) -> str:
@@ -133,9 +131,23 @@ def day(value: dt.datetime | dt.date | None) -> str:
 
 
 FILTERS = {
-    "pm": pm, "when": when, "sig": sig, "fixed": fixed, "signed": signed, "like": like, "unc": unc,
-    "interval": interval, "pct": pct, "secs": secs, "celsius": celsius, "temp": temp, "dof": dof,
-    "unit_text": unit_text, "entered_units": entered_units, "budget_value": budget_value, "day": day,
+    "pm": pm,
+    "when": when,
+    "sig": sig,
+    "fixed": fixed,
+    "signed": signed,
+    "like": like,
+    "unc": unc,
+    "interval": interval,
+    "pct": pct,
+    "secs": secs,
+    "celsius": celsius,
+    "temp": temp,
+    "dof": dof,
+    "unit_text": unit_text,
+    "entered_units": entered_units,
+    "budget_value": budget_value,
+    "day": day,
     "verdict": verdict,
 }
 
@@ -153,9 +165,7 @@ def init_app(app: Flask) -> None:
     def overdue(day_of: Any, calibration: Any, calorimeter: Any) -> str | None:
         from flask import current_app
 
-        from webapp.services.calibrations import overdue_note
-        from webapp.services.calibrations import run_day
-        from webapp.services.calibrations import text_day
+        from webapp.services.calibrations import overdue_note, run_day, text_day
 
         when = run_day(day_of) if hasattr(day_of, "performed_on") else text_day(day_of)
         return overdue_note(when, calibration, calorimeter, int(current_app.config["CALIBRATION_DUE_DAYS"]))

@@ -37,10 +37,9 @@ def _session() -> Iterator[tuple[Any, Any]]:
 
 
 def _people(session: Any, keys: tuple[str, ...], section: int | None) -> list[Any]:
-    from webapp.services.accounts import find_person
-    from webapp.services.accounts import section_people
-    from webapp.services.errors import ServiceError
     from webapp.models import Section
+    from webapp.services.accounts import find_person, section_people
+    from webapp.services.errors import ServiceError
 
     people: list[Any] = []
     if section is not None:
@@ -71,8 +70,11 @@ def list_people(section: int | None) -> None:
     from webapp.models import Person
 
     with _session() as (_app, session):
-        people = (_people(session, (), section) if section is not None
-                  else session.scalars(sa.select(Person).order_by(Person.role, Person.email)).all())
+        people = (
+            _people(session, (), section)
+            if section is not None
+            else session.scalars(sa.select(Person).order_by(Person.role, Person.email)).all()
+        )
         for p in people:
             state = "to choose a password" if p.must_set_password else "password chosen"
             click.echo(f"{p.id:>5}  {p.role:<12} {p.email:<45} {(p.group.name if p.group else '—'):<16} {state}")
@@ -104,15 +106,23 @@ def set_password(person: str, password_stdin: bool, keep: bool) -> None:
 @users.command("links")
 @click.argument("people", nargs=-1)
 @click.option("--section", type=int, default=None, help="Every person of this section's groups (its id).")
-@click.option("--base-url", default="http://127.0.0.1:5000", show_default=True,
-              help="The notebook's address as the people will open it.")
+@click.option(
+    "--base-url",
+    default="http://127.0.0.1:5000",
+    show_default=True,
+    help="The notebook's address as the people will open it.",
+)
 @click.option("--days", type=click.IntRange(1, 90), default=14, show_default=True, help="Days a link stays valid.")
-@click.option("--csv", "csv_path", type=click.Path(dir_okay=False, path_type=Path), default=None,
-              help="Write the links to this CSV file (name, email, group, link, expires) instead of printing them.")
+@click.option(
+    "--csv",
+    "csv_path",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Write the links to this CSV file (name, email, group, link, expires) instead of printing them.",
+)
 def links(people: tuple[str, ...], section: int | None, base_url: str, days: int, csv_path: Path | None) -> None:
     """Make one-time sign-in links for PEOPLE (e-mail addresses or ids) or a whole --section."""
-    from webapp.services.accounts import issue_links
-    from webapp.services.accounts import links_csv
+    from webapp.services.accounts import issue_links, links_csv
     from webapp.services.errors import ServiceError
 
     with _session() as (_app, session):
@@ -127,8 +137,10 @@ def links(people: tuple[str, ...], section: int | None, base_url: str, days: int
                 csv_path.write_text(text, encoding="utf-8")
             except OSError as exc:
                 raise _Refused(f"{csv_path}: cannot write ({exc.strerror})") from None
-            click.echo(f"{len(issued)} sign-in link(s) written to {csv_path}; each works once, until "
-                       f"{issued[0].expires_at:%Y-%m-%d}")
+            click.echo(
+                f"{len(issued)} sign-in link(s) written to {csv_path}; each works once, until "
+                f"{issued[0].expires_at:%Y-%m-%d}"
+            )
         else:
             for link in issued:
                 click.echo(f"{link.email:<45} {base_url.rstrip('/')}/auth/link/{link.secret}")

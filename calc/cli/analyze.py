@@ -13,7 +13,7 @@ import click
 
 from calc.deltat.base import DEFAULT_METHOD
 from calc.deltat.registry import METHODS
-from calc.errors import CupcalError
+from calc.errors import CupcalError, InputError
 
 __all__ = ["analyze", "methods"]
 
@@ -43,7 +43,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
 
     try:
         check_options(trials, seed)  # once, as one line, before any file
-    except CupcalError as exc:
+    except InputError as exc:  # check_options raises only InputError, which carries .message
         option = {"monte_carlo": "--monte-carlo", "seed": "--seed"}.get(getattr(exc, "field", None) or "", "option")
         click.echo(f"cupcal analyze: error: {option}: {exc.message}", err=True)
         sys.exit(2)
@@ -92,4 +92,6 @@ def methods() -> None:
     for name in sorted(METHODS):
         mark = " (default)" if name == DEFAULT_METHOD else ""
         doc = (METHODS[name].__doc__ or "").strip().splitlines()
-        click.echo(f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)")
+        click.echo(
+            f"{name}{mark}: {doc[0] if doc else ''} (method term ±{100 * METHOD_TERMS.get(name, 0.01):.1f} % of |ΔT|)"
+        )

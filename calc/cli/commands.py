@@ -18,8 +18,8 @@ from typing import Any, NamedTuple
 
 import click
 
-from calc.errors import CupcalError
 from calc import __version__
+from calc.errors import CupcalError
 
 __all__ = ["COMMANDS", "cli", "main"]
 
@@ -36,33 +36,58 @@ class CommandEntry(NamedTuple):
 #: Every built-in command: name → where it lives and its one-line help (kept in step with the
 #: commands' own docstrings by tests/calc/test_cli.py).
 COMMANDS: dict[str, CommandEntry] = {
-    "analyze": CommandEntry("calc.cli.analyze:analyze",
-                            "Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."),
+    "analyze": CommandEntry(
+        "calc.cli.analyze:analyze", "Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."
+    ),
     "methods": CommandEntry("calc.cli.analyze:methods", "List the corrected-ΔT methods."),
-    "hess": CommandEntry("calc.cli.hess:hess_command",
-                         "Compute the standard reaction enthalpy of EQUATION from the ΔfH° table."),
-    "plan": CommandEntry("calc.cli.plan:plan_command",
-                         "Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts."),
-    "record": CommandEntry("calc.cli.record:record_command",
-                           "Record a thermometer to a CSV log as it reads, and stream the readings to the notebook."),
-    "serve": CommandEntry("webapp.commands:serve",
-                          "Apply migrations, load the demo into an empty database, and serve the notebook.", needs="flask"),
+    "hess": CommandEntry(
+        "calc.cli.hess:hess_command", "Compute the standard reaction enthalpy of EQUATION from the ΔfH° table."
+    ),
+    "plan": CommandEntry(
+        "calc.cli.plan:plan_command",
+        "Predict ΔT and the uncertainty of ΔH for a planned KIND run, and suggest amounts.",
+    ),
+    "record": CommandEntry(
+        "calc.cli.record:record_command",
+        "Record a thermometer to a CSV log as it reads, and stream the readings to the notebook.",
+    ),
+    "serve": CommandEntry(
+        "webapp.commands:serve",
+        "Apply migrations, load the demo into an empty database, and serve the notebook.",
+        needs="flask",
+    ),
     "db": CommandEntry("webapp.commands:db", "Manage the notebook's database (Alembic migrations).", needs="flask"),
-    "load-demo": CommandEntry("webapp.commands:load_demo_command",
-                              "Load the invented demo lab into an empty database (after `cupcal db upgrade`).", needs="flask"),
-    "import": CommandEntry("webapp.commands:import_command",
-                           "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), "
-                           "or an .eln archive.", needs="flask"),
-    "backup": CommandEntry("webapp.commands:backup_command",
-                           "Back up the database to the file OUT (safe while the notebook is serving).", needs="flask"),
-    "restore": CommandEntry("webapp.commands:restore_command",
-                            "Restore the database from IN, a file made by `cupcal backup`.", needs="flask"),
-    "export": CommandEntry("webapp.eln_commands:export_command",
-                           "Write an .eln archive of runs, a section, a calorimeter or the whole notebook.",
-                           needs="flask"),
-    "users": CommandEntry("webapp.user_commands:users",
-                          "List people, set passwords and hand out one-time sign-in links.", needs="flask"),
-    "webhooks": CommandEntry("webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries.", needs="flask"),
+    "load-demo": CommandEntry(
+        "webapp.commands:load_demo_command",
+        "Load the invented demo lab into an empty database (after `cupcal db upgrade`).",
+        needs="flask",
+    ),
+    "import": CommandEntry(
+        "webapp.commands:import_command",
+        "Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.",
+        needs="flask",
+    ),
+    "backup": CommandEntry(
+        "webapp.commands:backup_command",
+        "Back up the database to the file OUT (safe while the notebook is serving).",
+        needs="flask",
+    ),
+    "restore": CommandEntry(
+        "webapp.commands:restore_command",
+        "Restore the database from IN, a file made by `cupcal backup`.",
+        needs="flask",
+    ),
+    "export": CommandEntry(
+        "webapp.eln_commands:export_command",
+        "Write an .eln archive of runs, a section, a calorimeter or the whole notebook.",
+        needs="flask",
+    ),
+    "users": CommandEntry(
+        "webapp.user_commands:users", "List people, set passwords and hand out one-time sign-in links.", needs="flask"
+    ),
+    "webhooks": CommandEntry(
+        "webapp.webhook_commands:webhooks", "Send the notebook's webhook deliveries.", needs="flask"
+    ),
 }
 
 

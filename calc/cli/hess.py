@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+from typing import Any
 
 import click
 
@@ -29,7 +30,7 @@ def parse_temperature(text: str) -> float:
     except ValueError:
         pass
     try:
-        q = Q_(raw)
+        q: Any = Q_(raw)
         return float(q.to("kelvin").magnitude)
     except (DimensionalityError, UndefinedUnitError, AttributeError, ValueError, TypeError) as exc:
         raise InputError(
@@ -52,14 +53,9 @@ def _human(r: HessResult) -> str:
     width = max(len(t.species) for t in r.terms)
     for t in r.terms:
         side = "reactant" if t.coefficient < 0 else "product "
-        lines.append(
-            f"  {side} {abs(t.coefficient)!s:>5} × {t.species:<{width}}  "
-            f"ΔfH° = {_fmt(t.dfH, t.u)} kJ/mol"
-        )
+        lines.append(f"  {side} {abs(t.coefficient)!s:>5} × {t.species:<{width}}  ΔfH° = {_fmt(t.dfH, t.u)} kJ/mol")
     lines.append("")
-    lines.append(
-        f"ΔrH° ({r.temperature_K:.2f} K) = {_fmt(r.value, r.u)} kJ/mol  (standard uncertainty)"
-    )
+    lines.append(f"ΔrH° ({r.temperature_K:.2f} K) = {_fmt(r.value, r.u)} kJ/mol  (standard uncertainty)")
     if r.delta_cp is not None:
         lines.append(f"ΔrCp° = {r.delta_cp * 1000:.1f} ± {(r.delta_cp_u or 0) * 1000:.1f} J/(mol K)")
     for note in r.notes:

@@ -34,8 +34,10 @@ def _profile(device: str | None, pattern: str | None, unit: str | None, simulate
         return PROFILES[device]
     if device.endswith(".toml") or Path(device).exists():
         return load_profile(device)
-    raise InputError(f"unknown device {device!r}; expected one of {', '.join(sorted(PROFILES))} "
-                     "or a profile file (.toml)", field="--device")
+    raise InputError(
+        f"unknown device {device!r}; expected one of {', '.join(sorted(PROFILES))} or a profile file (.toml)",
+        field="--device",
+    )
 
 
 def _simulator() -> Any:
@@ -43,16 +45,17 @@ def _simulator() -> Any:
     return importlib.import_module("calc.simulation.thermometer")
 
 
-def _source(port: str | None, baud: int, command: str | None, follow: str | None, from_start: bool,
-            thermo: Any) -> Any:
+def _source(port: str | None, baud: int, command: str | None, follow: str | None, from_start: bool, thermo: Any) -> Any:
     from calc.live import sources
 
-    given = [name for name, value in (("--port", port), ("--command", command), ("--follow", follow),
-                                      ("--simulate", thermo)) if value]
+    given = [
+        name
+        for name, value in (("--port", port), ("--command", command), ("--follow", follow), ("--simulate", thermo))
+        if value
+    ]
     if len(given) != 1:
         said = "none" if not given else " and ".join(given)
-        raise InputError(f"give exactly one of --port, --command, --follow or --simulate (got {said})",
-                         field="--port")
+        raise InputError(f"give exactly one of --port, --command, --follow or --simulate (got {said})", field="--port")
     if thermo is not None:
         source = sources.SerialSource(thermo.open_pty(), baud)
         thermo.start()
@@ -80,8 +83,9 @@ def _run_text(run_file: str | None, sim: Any, out: Path) -> str | None:
     return text
 
 
-def _streamer(notebook: str | None, token: str | None, run_text: str | None, target_u: float | None,
-              sidecar: Any, side_file: Path) -> Any:
+def _streamer(
+    notebook: str | None, token: str | None, run_text: str | None, target_u: float | None, sidecar: Any, side_file: Path
+) -> Any:
     from calc.live.stream import NotebookClient, Streamer
 
     if notebook is None:  # a token in CUPCAL_TOKEN without --notebook is simply not used
@@ -90,8 +94,9 @@ def _streamer(notebook: str | None, token: str | None, run_text: str | None, tar
         missing = "--token (or CUPCAL_TOKEN)" if not token else "--run-file"
         raise InputError(f"streaming to the notebook needs {missing}", field=missing.split()[0])
     if not notebook.startswith(("http://", "https://")):
-        raise InputError(f"the notebook address {notebook!r} is not a URL; expected http://… or https://…",
-                         field="--notebook")
+        raise InputError(
+            f"the notebook address {notebook!r} is not a URL; expected http://… or https://…", field="--notebook"
+        )
     if sidecar.notebook not in (None, notebook):  # another notebook: a new live run there
         sidecar.live_run_id, sidecar.client_key = None, str(uuid.uuid4())
     sidecar.notebook = notebook
@@ -105,9 +110,14 @@ def _streamer(notebook: str | None, token: str | None, run_text: str | None, tar
             sidecar.write(side_file)
         click.echo(f"notebook: live run {live_id} ({notebook.rstrip('/')}/live/{live_id})", err=True)
 
-    return Streamer(NotebookClient(notebook, token), run_text, sidecar.client_key, target_u=target_u,
-                    on_live_id=remember,
-                    on_message=lambda text: click.echo(f"notebook: {text}", err=True))
+    return Streamer(
+        NotebookClient(notebook, token),
+        run_text,
+        sidecar.client_key,
+        target_u=target_u,
+        on_live_id=remember,
+        on_message=lambda text: click.echo(f"notebook: {text}", err=True),
+    )
 
 
 def _finish(streamer: Any, out: Path) -> None:
@@ -116,29 +126,37 @@ def _finish(streamer: Any, out: Path) -> None:
         try:
             streamer.ensure_live_run()  # one last try
         except CupcalError as exc:
-            raise InputError(f"cannot finish: the live run was never created ({exc}); the log is kept, "
-                             "upload it with its run file", source=str(out)) from None
+            raise InputError(
+                f"cannot finish: the live run was never created ({exc}); the log is kept, upload it with its run file",
+                source=str(out),
+            ) from None
     try:
         answer = streamer.client.finish(streamer.live_id, out.read_text(encoding="utf-8"))
     except CupcalError as exc:
-        raise InputError(f"could not finish the live run {streamer.live_id} ({exc}); the log is kept, "
-                         "upload the log with its run file", source=str(out)) from None
+        raise InputError(
+            f"could not finish the live run {streamer.live_id} ({exc}); the log is kept, "
+            "upload the log with its run file",
+            source=str(out),
+        ) from None
     click.echo(f"notebook: stored as run {answer.get('run_id')} ({answer.get('run_url', '')})")
 
 
 def _summary(summary: Any, out: Path, log: Any, streamer: Any, sent_all: bool) -> None:
     rows = log.rows
     span = f", t = {rows[0][0]:g} … {rows[-1][0]:g} s" if rows else ""
-    click.echo(f"{out}: {summary.recorded} readings recorded now, {summary.total} in the log{span}; "
-               f"ended: {summary.ended_by}")
+    click.echo(
+        f"{out}: {summary.recorded} readings recorded now, {summary.total} in the log{span}; ended: {summary.ended_by}"
+    )
     if summary.bad_lines:
-        click.echo(f"{summary.bad_lines} line(s) did not give a reading (the first "
-                   f"{len(summary.shown)} are shown above)")
+        click.echo(
+            f"{summary.bad_lines} line(s) did not give a reading (the first {len(summary.shown)} are shown above)"
+        )
     if streamer is not None:
         state = "all readings sent" if sent_all else f"{streamer.pending} reading(s) not sent yet"
         problem = streamer.refused or streamer.last_problem
-        click.echo(f"notebook: live run {streamer.live_id}: {state}" + (f" ({problem})" if problem and not sent_all
-                                                                         else ""))
+        click.echo(
+            f"notebook: live run {streamer.live_id}: {state}" + (f" ({problem})" if problem and not sent_all else "")
+        )
 
 
 class _Stop:
@@ -148,7 +166,7 @@ class _Stop:
         self.event = threading.Event()
         self._old: dict[int, Any] = {}
 
-    def __enter__(self) -> "_Stop":
+    def __enter__(self) -> _Stop:
         for signum in (signal.SIGINT, signal.SIGTERM):
             self._old[signum] = signal.signal(signum, lambda *_: self.event.set())
         return self
@@ -166,20 +184,30 @@ class _Stop:
 @click.option("--follow", help="Read lines another program appends to this file.")
 @click.option("--from-start", is_flag=True, help="With --follow: read the lines already in the file too.")
 @click.option("--simulate", type=click.Choice(_KINDS), help="Read a simulated thermometer playing a KIND run.")
-@click.option("--speed", type=float, default=1.0, show_default=True,
-              help="With --simulate: play this many times faster.")
+@click.option(
+    "--speed", type=float, default=1.0, show_default=True, help="With --simulate: play this many times faster."
+)
 @click.option("--seed", type=int, default=None, help="With --simulate: the seed of the simulated run.")
-@click.option("--garble", type=float, default=0.0, show_default=True,
-              help="With --simulate: share of extra garbled lines, as from a flaky cable.")
-@click.option("--device",
-              help="A built-in device profile (bare-celsius, stamped-kelvin, labelled-fahrenheit) or a .toml file.")
+@click.option(
+    "--garble",
+    type=float,
+    default=0.0,
+    show_default=True,
+    help="With --simulate: share of extra garbled lines, as from a flaky cable.",
+)
+@click.option(
+    "--device", help="A built-in device profile (bare-celsius, stamped-kelvin, labelled-fahrenheit) or a .toml file."
+)
 @click.option("--pattern", help="A regular expression with a (?P<value>…) group (and optionally (?P<time>…)).")
 @click.option("--unit", help="The unit of --pattern's value: °C (degC), K or °F (degF).")
 @click.option("--notebook", help="Stream to the notebook at this address, e.g. https://lab.example/.")
 @click.option("--token", envvar="CUPCAL_TOKEN", help="API token with the live scope (or set CUPCAL_TOKEN).")
 @click.option("--run-file", help="The run file (.toml) of this run, sent to the notebook.")
-@click.option("--target-u", type=click.FloatRange(min=0, min_open=True),
-              help="Target expanded uncertainty for the notebook's advice.")
+@click.option(
+    "--target-u",
+    type=click.FloatRange(min=0, min_open=True),
+    help="Target expanded uncertainty for the notebook's advice.",
+)
 @click.option("--finish", is_flag=True, help="When recording ends, ask the notebook to analyse and store the run.")
 @click.option("--max-readings", type=click.IntRange(1), help="Stop after this many readings.")
 @click.option("--quiet", is_flag=True, help="Do not print each reading.")
@@ -208,8 +236,9 @@ def _open(out: Path, opts: dict[str, Any]) -> tuple[Any, ...]:
     if not opts["simulate"] and (opts["speed"] != 1.0 or opts["garble"] or opts["seed"] is not None):
         raise InputError("--speed, --seed and --garble go with --simulate KIND", field="--simulate")
     if opts["simulate"]:
-        sim, thermo = _simulator().simulated_thermometer(opts["simulate"], opts["seed"], profile,
-                                                         speed=opts["speed"], garble=opts["garble"])
+        sim, thermo = _simulator().simulated_thermometer(
+            opts["simulate"], opts["seed"], profile, speed=opts["speed"], garble=opts["garble"]
+        )
     run_text = _run_text(opts["run_file"], sim, out)
     source = _source(opts["port"], opts["baud"], opts["command"], opts["follow"], opts["from_start"], thermo)
     try:
@@ -227,21 +256,41 @@ def _open(out: Path, opts: dict[str, Any]) -> tuple[Any, ...]:
     return profile, sim, thermo, source, log, sidecar, side_file, streamer
 
 
-def _record(out: Path, opts: dict[str, Any], profile: Any, sim: Any, thermo: Any, source: Any, log: Any,
-            sidecar: Any, side_file: Path, streamer: Any) -> None:
+def _record(
+    out: Path,
+    opts: dict[str, Any],
+    profile: Any,
+    sim: Any,
+    thermo: Any,
+    source: Any,
+    log: Any,
+    sidecar: Any,
+    side_file: Path,
+    streamer: Any,
+) -> None:
     """Record until stopped, then close everything, print the summary and finish if asked."""
     from calc.live.recorder import Recorder
 
     _start_message(out, log, source, profile, sim)
     echo = None if opts["quiet"] else (lambda seq, t, c: click.echo(f"{seq:6d}  {t:10.3f} s  {c:9.4f} °C"))
-    recorder = Recorder(source, profile, log, sidecar, side_file, on_bad_line=lambda text: click.echo(
-        f"refused line: {text}", err=True), on_reading=_both(echo, streamer))
+    recorder = Recorder(
+        source,
+        profile,
+        log,
+        sidecar,
+        side_file,
+        on_bad_line=lambda text: click.echo(f"refused line: {text}", err=True),
+        on_reading=_both(echo, streamer),
+    )
     if streamer is not None:
         streamer.start(list(log.rows))
     with _Stop() as stop:
         try:
-            summary = recorder.run(stop.event.is_set, max_readings=opts["max_readings"],
-                                   idle_stop=None if thermo is None else thermo.done.is_set)
+            summary = recorder.run(
+                stop.event.is_set,
+                max_readings=opts["max_readings"],
+                idle_stop=None if thermo is None else thermo.done.is_set,
+            )
         finally:
             source.close()
             log.close()
@@ -256,8 +305,11 @@ def _record(out: Path, opts: dict[str, Any], profile: Any, sim: Any, thermo: Any
         if opts["finish"] and streamer is not None and not summary.failed:
             _finish(streamer, out)
         elif opts["finish"] and streamer is not None:
-            click.echo("notebook: not finished, the recording ended by a fault; run the same command again "
-                       "to go on recording into the same live run", err=True)
+            click.echo(
+                "notebook: not finished, the recording ended by a fault; run the same command again "
+                "to go on recording into the same live run",
+                err=True,
+            )
     if summary.failed:
         raise click.exceptions.Exit(2)
 
@@ -273,6 +325,7 @@ def _both(echo: Any, streamer: Any) -> Any:
                 printing[0] = False
         if streamer is not None:
             streamer.add(seq, t, c)
+
     return on_reading
 
 

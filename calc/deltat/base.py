@@ -15,6 +15,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any, cast
 
 import numpy as np
 
@@ -66,7 +67,7 @@ class Log:
     periods: Periods
     resolution: float  # K
     two_solution: bool = False
-    _lines: dict = field(default_factory=dict, repr=False)
+    _lines: dict[str, Any] = field(default_factory=dict, repr=False)
 
     def line(self, which: str) -> LineFit:
         """Return the straight-line fit of the whole 'fore' or 'after' period (cached)."""
@@ -177,7 +178,7 @@ def resolution_terms(log: Log) -> tuple[float, float]:
     """Return the resolution terms of the start and end levels (from the fore and after windows)."""
     cached = log._lines.get("resolution_terms")
     if cached is not None:
-        return cached
+        return cast("tuple[float, float]", cached)
     out = []
     for which in ("fore", "after"):
         tw, _yw = log.window(which)

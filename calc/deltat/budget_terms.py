@@ -14,17 +14,24 @@ Each is written out in ``docs/methods.md``.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import replace
-from typing import Callable
+from typing import cast
 
 import numpy as np
 
-from calc.deltat.base import sweep_factor
+from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
 from calc.deltat.drift import fit_newton_single, phi
 
-__all__ = ["slope_floor", "quantisation_drift_term", "mixing_time_term", "inadequacy_term", "room_drift_term",
-           "room_response"]
+__all__ = [
+    "slope_floor",
+    "quantisation_drift_term",
+    "mixing_time_term",
+    "inadequacy_term",
+    "room_drift_term",
+    "room_response",
+]
 
 #: Standard uncertainty of an unseen linear change of the room temperature, K/s: a room that
 #: warms or cools by up to about 1 K/h over a run, taken as rectangular (±1 K/h, u = 1/√3 K/h).
@@ -46,11 +53,10 @@ def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
     if q <= 0 or length <= 0:
         return 0.0
     sigma2 = max(s * s - q * q / 12.0, 0.0)
-    return (q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
-            * sweep_factor(steps))
+    return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q)) * sweep_factor(steps)
 
 
-def quantisation_drift_term(log, dt_value: float) -> float:
+def quantisation_drift_term(log: Log, dt_value: float) -> float:
     """Return the ΔT standard uncertainty from the slopes' quantisation floors (K)."""
     q = log.resolution
     if q <= 0:
@@ -70,7 +76,7 @@ def quantisation_drift_term(log, dt_value: float) -> float:
     return 0.5 * dur * math.hypot(u_bf, u_ba)
 
 
-def mixing_time_term(log, method_fn: Callable, value: float) -> float:
+def mixing_time_term(log: Log, method_fn: Callable[[Log], DeltaT], value: float) -> float:
     """Return |ΔT(t_m + u) − ΔT(t_m − u)|/2 for a detected mixing time (K), 0 when it is given."""
     p = log.periods
     u = p.u_mixing_time
@@ -93,7 +99,7 @@ def mixing_time_term(log, method_fn: Callable, value: float) -> float:
     return max(abs(v - value) for v in vals)
 
 
-def inadequacy_term(log, dt) -> tuple[float, float]:
+def inadequacy_term(log: Log, dt: DeltaT) -> tuple[float, float]:
     """Return (standard uncertainty from model inadequacy, the raw disagreement) in K.
 
     The regnault-pfaundler value uses one Newtonian drift law for the fore and after periods.
@@ -138,10 +144,10 @@ def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
     x = np.asarray(t, dtype=float) - t_i
     if abs(k) < 1e-12:
         return 0.5 * c * x * x
-    return c * (x - phi(k, x)) / k
+    return cast(np.ndarray, c * (x - phi(k, x)) / k)
 
 
-def room_drift_term(log, dt, method_fn: Callable) -> float:
+def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) -> float:
     """Return the ΔT standard uncertainty from a room temperature that changes linearly (K).
 
     The effect is propagated through the method itself: the readings get the response
@@ -159,8 +165,13 @@ def room_drift_term(log, dt, method_fn: Callable) -> float:
     if not (math.isfinite(k) and k > 0) or t_f <= t_i:
         return 0.0
     beta = ROOM_DRIFT_U * math.sqrt(3.0)  # the half-width, K/s
-    moved = type(log)(log.t, log.y + room_response(log.t, t_i, k, k * beta), log.periods, log.resolution,
-                      two_solution=log.two_solution)
+    moved = type(log)(
+        log.t,
+        log.y + room_response(log.t, t_i, k, k * beta),
+        log.periods,
+        log.resolution,
+        two_solution=log.two_solution,
+    )
     try:
         other = method_fn(moved).value
     except Exception:  # noqa: BLE001 - a failed refit says only that the sensitivity is unknown

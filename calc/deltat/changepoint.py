@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -88,7 +89,7 @@ def _rss_scan(tw: np.ndarray, yw: np.ndarray, taus: np.ndarray, scale: float) ->
     A += np.eye(A.shape[-1])[None] * 1e-12 * np.trace(A, axis1=1, axis2=2)[:, None, None]
     beta = np.linalg.solve(A, b[..., None])[..., 0]
     r = yw[None, :] - np.einsum("mni,mi->mn", X, beta)
-    return np.einsum("mn,mn->m", r, r)
+    return cast(np.ndarray, np.einsum("mn,mn->m", r, r))
 
 
 def _lag1(r: np.ndarray) -> float:
@@ -156,8 +157,9 @@ def _noise_sd(y: np.ndarray, resolution: float) -> float:
     return max(sigma, resolution / math.sqrt(12.0), 1e-6)
 
 
-def _search_window(t: np.ndarray, t_s: float, span: float, dt: float,
-                   min_fore_points: int) -> tuple[np.ndarray, np.ndarray]:
+def _search_window(
+    t: np.ndarray, t_s: float, span: float, dt: float, min_fore_points: int
+) -> tuple[np.ndarray, np.ndarray]:
     """Return the mask of the fitted readings (fore drift before t_s, the early change after it) and the candidate τ."""
     n = t.size
     lo = max(float(t[0]), t_s - FORE_WINDOW_S)
@@ -181,14 +183,15 @@ def _scan(tw: np.ndarray, yw: np.ndarray, cand_t: np.ndarray, scale: float) -> t
     rss_c = _rss_scan(tw, yw, cand_t, scale)
     jc = int(np.argmin(rss_c))
     mids = 0.5 * (cand_t[1:] + cand_t[:-1])
-    near = mids[max(jc - 3, 0): jc + 3]
+    near = mids[max(jc - 3, 0) : jc + 3]
     taus = np.concatenate([cand_t, near])
     order = np.argsort(taus)
     return taus[order], np.concatenate([rss_c, _rss_scan(tw, yw, near, scale)])[order]
 
 
-def _strength(tw: np.ndarray, yw: np.ndarray, tau: float, scale: float, rss_best: float, resolution: float,
-              sigma: float) -> tuple[float, float, float, float, float]:
+def _strength(
+    tw: np.ndarray, yw: np.ndarray, tau: float, scale: float, rss_best: float, resolution: float, sigma: float
+) -> tuple[float, float, float, float, float]:
     """Return (2 ln likelihood ratio against a plain line, swing in noise SDs, RSS floored, n_eff, RSS floor)."""
     # residuals of the best fit give n_eff
     X = _design(tw, tau, scale)[0]
@@ -210,8 +213,9 @@ def _strength(tw: np.ndarray, yw: np.ndarray, tau: float, scale: float, rss_best
     return lr, swing / max(sigma, 1e-12), rss1, n_eff, floor
 
 
-def _likelihood(taus: np.ndarray, rss: np.ndarray, floor: float, rss1: float, n_eff: float,
-                dt: float) -> tuple[np.ndarray, float]:
+def _likelihood(
+    taus: np.ndarray, rss: np.ndarray, floor: float, rss1: float, n_eff: float, dt: float
+) -> tuple[np.ndarray, float]:
     """Return the relative likelihood of each τ and the standard deviation of the normalised likelihood."""
     loglik = -0.5 * n_eff * np.log(np.maximum(rss, floor) / rss1)
     p = np.exp(np.maximum(loglik, -700.0))
@@ -237,7 +241,7 @@ def _check_separate_changes(t: np.ndarray, ee: np.ndarray, i_max: int) -> None:
     high = a >= 0.5 * top
     low = a < 0.25 * top
     idx = np.flatnonzero(high)
-    for j in idx:
+    for j in idx.tolist():
         if abs(j - i_max) < 2 or a[j] < 0.7 * top:
             continue
         lo, hi = sorted((j, i_max))

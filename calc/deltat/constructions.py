@@ -127,8 +127,10 @@ class JointNewtonConstruction(NewtonianConstruction):
         g_f = g_i + k * (y_i - y_f)
         tf = grid(t0, self.t_f, self.t_i, n=n)
         ta = grid(self.t_i, t1, self.t_f, n=n)
-        return {"fore": (tf, newton_values(y_i, g_i, k, self.t_i, tf)),
-                "after": (ta, newton_values(y_f, g_f, k, self.t_f, ta))}
+        return {
+            "fore": (tf, newton_values(y_i, g_i, k, self.t_i, tf)),
+            "after": (ta, newton_values(y_f, g_f, k, self.t_f, ta)),
+        }
 
 
 @dataclass(frozen=True)
@@ -148,8 +150,7 @@ class AfterNewtonConstruction(NewtonianConstruction):
         y_f, g_f, k, t_f = self.after_newton
         tf = grid(t0, self.t_i, n=n)
         ta = grid(self.t_i, t1, t_f, n=n)
-        return {"fore": (tf, line_values(*self.fore_line, tf)),
-                "after": (ta, newton_values(y_f, g_f, k, t_f, ta))}
+        return {"fore": (tf, line_values(*self.fore_line, tf)), "after": (ta, newton_values(y_f, g_f, k, t_f, ta))}
 
 
 @dataclass(frozen=True)
@@ -161,8 +162,13 @@ class LineConstruction(SpanConstruction):
     t_x: float
 
     def to_dict(self) -> dict[str, Any]:
-        return {"fore_line": self.fore_line, "after_line": self.after_line, "t_x": self.t_x,
-                "t_i": self.t_i, "t_f": self.t_f}
+        return {
+            "fore_line": self.fore_line,
+            "after_line": self.after_line,
+            "t_x": self.t_x,
+            "t_i": self.t_i,
+            "t_f": self.t_f,
+        }
 
     @property
     def delta_t_time(self) -> float | None:
@@ -172,8 +178,7 @@ class LineConstruction(SpanConstruction):
         """``fore`` up to t_x and ``after`` from t_x, the two straight lines."""
         tf = grid(t0, self.t_x, n=n)
         ta = grid(self.t_x, t1, n=n)
-        return {"fore": (tf, line_values(*self.fore_line, tf)),
-                "after": (ta, line_values(*self.after_line, ta))}
+        return {"fore": (tf, line_values(*self.fore_line, tf)), "after": (ta, line_values(*self.after_line, ta))}
 
 
 @dataclass(frozen=True)
@@ -239,8 +244,10 @@ class NaiveConstruction(SpanConstruction):
 
     def curves(self, t0: float, t1: float, n: int = 240) -> Curves:
         """``start`` over the fore period up to mixing, ``extreme`` from mixing to the end of the log."""
-        return {"start": (np.array([self.fore_start, self.t_i]), np.full(2, self.start_level)),
-                "extreme": (np.array([self.t_i, t1]), np.full(2, self.extreme_level))}
+        return {
+            "start": (np.array([self.fore_start, self.t_i]), np.full(2, self.start_level)),
+            "extreme": (np.array([self.t_i, t1]), np.full(2, self.extreme_level)),
+        }
 
 
 @dataclass(frozen=True)
@@ -255,8 +262,13 @@ class SharedFitConstruction(SpanConstruction):
     autocorrelation: float
 
     def to_dict(self) -> dict[str, Any]:
-        return {"t_i": self.t_i, "t_f": self.t_f, "k_per_s": self.k_per_s,
-                "shared_windows": [list(w) for w in self.shared_windows],
-                "events": [dict(e) for e in self.events],
-                "correlation": [list(r) for r in self.correlation],
-                "residual_sd_K": self.residual_sd_K, "autocorrelation": self.autocorrelation}
+        return {
+            "t_i": self.t_i,
+            "t_f": self.t_f,
+            "k_per_s": self.k_per_s,
+            "shared_windows": [list(w) for w in self.shared_windows],
+            "events": [dict(e) for e in self.events],
+            "correlation": [list(r) for r in self.correlation],
+            "residual_sd_K": self.residual_sd_K,
+            "autocorrelation": self.autocorrelation,
+        }

@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -124,14 +125,14 @@ def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
 def phi(k: float, x: np.ndarray) -> np.ndarray:
     """Return (1 − e^{−k x})/k, continuous at k = 0 (equal to x there)."""
     if abs(k) < 1e-12:
-        return x - 0.5 * k * x * x
+        return cast(np.ndarray, x - 0.5 * k * x * x)
     return -np.expm1(-k * x) / k
 
 
 def _dphi_dk(k: float, x: np.ndarray) -> np.ndarray:
     # d/dk [(1 − e^{−kx})/k] = [x k e^{−kx} − (1 − e^{−kx})]/k²  → −x²/2 at k = 0
     if abs(k) < 1e-9:
-        return -0.5 * x * x + (k * x**3) / 3.0
+        return cast(np.ndarray, -0.5 * x * x + (k * x**3) / 3.0)
     e = np.exp(-k * x)
     return (x * k * e + np.expm1(-k * x)) / (k * k)
 
@@ -166,9 +167,9 @@ class NewtonFit:
         """Return the drift rate g(T) in K/s."""
         if self.t_i is not None:
             y_i, _y_f, g_i, k = self.params
-            return g_i + k * (y_i - temperature)
+            return cast("np.ndarray | float", g_i + k * (y_i - temperature))
         y_f, g_f, k = self.params
-        return g_f + k * (y_f - temperature)
+        return cast("np.ndarray | float", g_f + k * (y_f - temperature))
 
     def convergence_temperature(self) -> float:
         """Return T∞ (where the drift is zero); inf when k is zero."""
@@ -199,8 +200,9 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
 VarproModel = Callable[[float], tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]]
 
 
-def _varpro(model: VarproModel, y: np.ndarray, k0: float,
-            max_iter: int = 30) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
+def _varpro(
+    model: VarproModel, y: np.ndarray, k0: float, max_iter: int = 30
+) -> tuple[float, np.ndarray, np.ndarray, np.ndarray, bool]:
     """Solve a model that is linear in its parameters β at fixed k, and nonlinear in k.
 
     ``model(k)`` returns the design matrix X(k) and a function giving ∂(Xβ)/∂k for given β.

@@ -78,7 +78,11 @@ def equal_area(log: Log) -> DeltaT:
         u_start_temperature=math.sqrt(fore.var_at(t_x)),
         end_temperature=after.at(t_x),
         construction=EqualAreaConstruction(
-            t_i=t_i, t_f=t_f, fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean),
-            t_x=t_x, sixty_percent_time=_fraction_time(log, T_i, T_f, 0.6),
+            t_i=t_i,
+            t_f=t_f,
+            fore_line=(fore.a, fore.b, fore.t_mean),
+            after_line=(after.a, after.b, after.t_mean),
+            t_x=t_x,
+            sixty_percent_time=_fraction_time(log, T_i, T_f, 0.6),
         ),
     )

@@ -53,8 +53,11 @@ def linear_extrapolation(log: Log) -> DeltaT:
         u_start_temperature=math.sqrt(fore.var_at(t_m)),
         end_temperature=after.at(t_m),
         construction=LineConstruction(
-            t_i=t_m, t_f=log.periods.main_end,
-            fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean), t_x=t_m,
+            t_i=t_m,
+            t_f=log.periods.main_end,
+            fore_line=(fore.a, fore.b, fore.t_mean),
+            after_line=(after.a, after.b, after.t_mean),
+            t_x=t_m,
         ),
         warnings=warnings,
     )

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Any, cast
 
 import numpy as np
 
@@ -33,7 +34,7 @@ class PreparedLog:
     t: np.ndarray
     y: np.ndarray
     lines: np.ndarray | None
-    rejected: list[dict] = field(default_factory=list)  # {"time_s", "temperature_K", "line", "offset_K"}
+    rejected: list[dict[str, Any]] = field(default_factory=list)  # {"time_s", "temperature_K", "line", "offset_K"}
     gaps: list[tuple[float, float]] = field(default_factory=list)
     merged_duplicates: int = 0
     warnings: list[str] = field(default_factory=list)
@@ -46,10 +47,12 @@ def running_median(y: np.ndarray, half: int) -> np.ndarray:
         return y.copy()
     pad = np.concatenate([np.full(half, y[0]), y, np.full(half, y[-1])])
     win = np.lib.stride_tricks.sliding_window_view(pad, 2 * half + 1)
-    return np.median(win, axis=1)
+    return cast(np.ndarray, np.median(win, axis=1))
 
 
-def _merge_duplicates(t: np.ndarray, y: np.ndarray, lines: np.ndarray | None):
+def _merge_duplicates(
+    t: np.ndarray, y: np.ndarray, lines: np.ndarray | None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, int]:
     keep = np.concatenate([[True], np.diff(t) > 0])
     if keep.all():
         return t, y, lines, 0
@@ -73,7 +76,7 @@ def _spikes(y: np.ndarray, resolution: float) -> np.ndarray:
     thr = max(SPIKE_SIGMAS * mad, 5.0 * mad_w, 3.0 * resolution, 1e-9)
     out = np.abs(r) > thr
     if not out.any():
-        return out
+        return cast(np.ndarray, out)
     # a true spike goes out and comes back: both neighbours of the run of wild readings lie
     # on the same side of it (a step in a fast change does not come back)
     idx = np.flatnonzero(out)
@@ -90,7 +93,7 @@ def _spikes(y: np.ndarray, resolution: float) -> np.ndarray:
         base = 0.5 * (y[j0] + y[j1])
         if abs(y[i] - base) > thr and abs(y[j1] - y[j0]) < abs(y[i] - base):
             keep_out[i] = True
-    return keep_out
+    return cast(np.ndarray, keep_out)
 
 
 def prepare_log(t: np.ndarray, y: np.ndarray, *, resolution: float, lines: np.ndarray | None = None) -> PreparedLog:
@@ -106,11 +109,14 @@ def prepare_log(t: np.ndarray, y: np.ndarray, *, resolution: float, lines: np.nd
     if spike.any():
         med = running_median(y, SPIKE_HALF_WIDTH)
         for i in np.flatnonzero(spike):
-            rejected.append({
-                "time_s": float(t[i]), "temperature_K": float(y[i]),
-                "line": int(lines[i]) if lines is not None else None,
-                "offset_K": float(y[i] - med[i]) if math.isfinite(med[i]) else None,
-            })
+            rejected.append(
+                {
+                    "time_s": float(t[i]),
+                    "temperature_K": float(y[i]),
+                    "line": int(lines[i]) if lines is not None else None,
+                    "offset_K": float(y[i] - med[i]) if math.isfinite(med[i]) else None,
+                }
+            )
         where = ", ".join(
             (f"line {r['line']}" if r["line"] is not None else f"{r['time_s']:g} s") for r in rejected[:6]
         ) + (" …" if len(rejected) > 6 else "")

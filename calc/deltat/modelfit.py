@@ -20,11 +20,12 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any, cast
 
 import numpy as np
 
 from calc.deltat.base import DeltaT, Log, method_term, need_windows, register_method, resolution_terms
-from calc.deltat.constructions import ModelFitConstruction
+from calc.deltat.constructions import ModelFitConstruction, NewtonianConstruction
 from calc.deltat.curves import probe_reading
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation
 from calc.deltat.regnault_pfaundler import regnault_pfaundler
@@ -51,7 +52,7 @@ class _Problem:
 
 def _start_values(log: Log, rp: DeltaT) -> tuple[float, float, float, float]:
     """Return start values (T∞, k, k_r, s) from the Regnault–Pfaundler result and the periods."""
-    c = rp.construction
+    c = cast(NewtonianConstruction, rp.construction)  # regnault_pfaundler builds only Newtonian ones
     k0 = c.k_per_s
     if not (1e-6 < k0 < 1 / 120.0):
         k0 = 1 / 3600.0
@@ -76,7 +77,7 @@ def _problem(log: Log, rp: DeltaT) -> _Problem:
 
         def resid2(p: np.ndarray) -> np.ndarray:
             T_inf, k, D, lkr, ls = p
-            return probe_reading(tp, T_inf, k, T_m, D, math.exp(lkr), math.exp(ls)) - yp
+            return cast(np.ndarray, probe_reading(tp, T_inf, k, T_m, D, math.exp(lkr), math.exp(ls)) - yp)
 
         p0 = np.array([tinf0, k0, rp.value, math.log(kr0), math.log(s0)])
         lb = [-np.inf, -1 / 600.0, -np.inf, lkr_lo, ls_lo]
@@ -96,7 +97,7 @@ def _problem(log: Log, rp: DeltaT) -> _Problem:
     return _Problem(resid1, p0, lb, ub, 3, tf_.size, None)
 
 
-def _solve(pr: _Problem):  # noqa: ANN202 - returns (scipy result, covariance, dof)
+def _solve(pr: _Problem) -> tuple[Any, np.ndarray, float]:  # (scipy result, covariance, dof)
     """Fit by bounded least squares; covariance from the Jacobian, inflated for AR(1) residuals."""
     # scipy.optimize is imported here: at module level it would slow every start of the command line
     from scipy.optimize import least_squares
@@ -109,7 +110,7 @@ def _solve(pr: _Problem):  # noqa: ANN202 - returns (scipy result, covariance, d
     r = fit.fun
     n, npar = r.size, p0.size
     s2 = float(np.dot(r, r)) / max(n - npar, 1)
-    rho = max(lag1_autocorrelation(r[:pr.n_fore]) if pr.n_fore > 3 else 0.0, lag1_autocorrelation(r[pr.n_fore:]))
+    rho = max(lag1_autocorrelation(r[: pr.n_fore]) if pr.n_fore > 3 else 0.0, lag1_autocorrelation(r[pr.n_fore :]))
     f = inflation(rho)
     J = fit.jac
     try:
@@ -119,7 +120,7 @@ def _solve(pr: _Problem):  # noqa: ANN202 - returns (scipy result, covariance, d
     return fit, cov, max(n / f - npar, 1.0)
 
 
-def _warnings(log: Log, fit, D: float, uD: float, rp: DeltaT) -> list[str]:  # noqa: ANN001 - scipy result
+def _warnings(log: Log, fit: Any, D: float, uD: float, rp: DeltaT) -> list[str]:  # fit: a scipy result
     warnings = []
     tau_r = math.exp(-fit.x[-2])
     if log.periods.main_end - log.periods.mixing_time < 8 * tau_r:
@@ -147,7 +148,7 @@ def model_fit(log: Log) -> DeltaT:
     fit, cov, dof = _solve(pr)
     D = float(fit.x[pr.i_D])
     uD = math.sqrt(max(float(cov[pr.i_D, pr.i_D]), 0.0))
-    start = pr.T_m if log.two_solution else float(fit.x[2])
+    start = pr.T_m if pr.T_m is not None else float(fit.x[2])  # T_m is set for two-solution runs only
     res_start, res_end = resolution_terms(log)
     return DeltaT(
         method="model-fit",
@@ -162,10 +163,15 @@ def model_fit(log: Log) -> DeltaT:
         u_start_temperature=rp.u_start_temperature,
         end_temperature=start + D,
         construction=ModelFitConstruction(
-            t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=float(fit.x[1]),
-            release_time_constant_s=math.exp(-fit.x[-2]), probe_time_constant_s=math.exp(-fit.x[-1]),
-            convergence_temperature_K=float(fit.x[0]), params=tuple(float(v) for v in fit.x),
-            two_solution=log.two_solution, start_level=start,
+            t_i=log.periods.mixing_time,
+            t_f=log.periods.main_end,
+            k_per_s=float(fit.x[1]),
+            release_time_constant_s=math.exp(-fit.x[-2]),
+            probe_time_constant_s=math.exp(-fit.x[-1]),
+            convergence_temperature_K=float(fit.x[0]),
+            params=tuple(float(v) for v in fit.x),
+            two_solution=log.two_solution,
+            start_level=start,
         ),
         warnings=_warnings(log, fit, D, uD, rp),
     )

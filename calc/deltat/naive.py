@@ -41,8 +41,13 @@ def naive(log: Log) -> DeltaT:
         start_temperature=start,
         u_start_temperature=sigma,
         end_temperature=end,
-        construction=NaiveConstruction(t_i=t_m, t_f=log.periods.main_end, fore_start=float(log.periods.fore[0]),
-                                       start_level=start, extreme_level=end),
+        construction=NaiveConstruction(
+            t_i=t_m,
+            t_f=log.periods.main_end,
+            fore_start=float(log.periods.fore[0]),
+            start_level=start,
+            extreme_level=end,
+        ),
         warnings=[
             "naive ΔT (extreme reading minus initial) ignores the heat exchanged before the extreme "
             "and is biased low in magnitude (often by 2–10 %); use it for comparison only"

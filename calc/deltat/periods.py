@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import cast
 
 import numpy as np
 
@@ -93,7 +94,7 @@ def find_periods(
     """
     warnings: list[str] = []
     detected = mixing_time is None
-    if detected:
+    if mixing_time is None:
         t_m, u_tm = detect_mixing_time(t, y, resolution)
     else:
         t_m, u_tm = float(mixing_time), float(u_mixing_time)
@@ -119,8 +120,14 @@ def find_periods(
     )
 
 
-def _fore_period(t: np.ndarray, t_m: float, fore: tuple[float, float] | None, source: str | None,
-                 lines: np.ndarray | None, warnings: list[str]) -> tuple[float, float]:
+def _fore_period(
+    t: np.ndarray,
+    t_m: float,
+    fore: tuple[float, float] | None,
+    source: str | None,
+    lines: np.ndarray | None,
+    warnings: list[str],
+) -> tuple[float, float]:
     """Return the fore period (given, or from the start to the last reading before mixing); check its readings."""
     if fore is not None:
         fa, fb = fore
@@ -134,7 +141,9 @@ def _fore_period(t: np.ndarray, t_m: float, fore: tuple[float, float] | None, so
         fa, fb = float(t[0]), float(t[t <= t_m][-1]) if np.any(t <= t_m) else float(t[0])
     nfore = int(np.count_nonzero(_window_mask(t, fa, fb)))
     if nfore < MIN_WINDOW_POINTS:
-        where = f" (lines {int(lines[0])}–{int(lines[min(nfore, len(lines)) - 1])})" if lines is not None and nfore else ""
+        where = (
+            f" (lines {int(lines[0])}–{int(lines[min(nfore, len(lines)) - 1])})" if lines is not None and nfore else ""
+        )
         raise InputError(
             f"too few readings before mixing: {nfore} in the fore period{where}, "
             f"at least {MIN_WINDOW_POINTS} expected (3–5 minutes of readings are advised)",
@@ -142,15 +151,20 @@ def _fore_period(t: np.ndarray, t_m: float, fore: tuple[float, float] | None, so
             source=source,
         )
     if fb - fa < 60.0:
-        warnings.append(
-            f"fore period is short ({fb - fa:.0f} s); 3–5 minutes of drift before mixing are advised"
-        )
+        warnings.append(f"fore period is short ({fb - fa:.0f} s); 3–5 minutes of drift before mixing are advised")
     return fa, fb
 
 
-def _after_period(t: np.ndarray, y: np.ndarray, t_m: float, fore: tuple[float, float],
-                  after: tuple[float, float] | None, two_solution: bool, source: str | None,
-                  warnings: list[str]) -> tuple[float, float, float | None]:
+def _after_period(
+    t: np.ndarray,
+    y: np.ndarray,
+    t_m: float,
+    fore: tuple[float, float],
+    after: tuple[float, float] | None,
+    two_solution: bool,
+    source: str | None,
+    warnings: list[str],
+) -> tuple[float, float, float | None]:
     """Return the after period (given, or from the end of the main period found in the log) and the rough τ."""
     if after is not None:
         aa, ab = after
@@ -167,8 +181,14 @@ def _after_period(t: np.ndarray, y: np.ndarray, t_m: float, fore: tuple[float, f
     return t_f, ab, tau
 
 
-def _check_after_period(t: np.ndarray, after: tuple[float, float], given: bool, source: str | None,
-                        lines: np.ndarray | None, warnings: list[str]) -> None:
+def _check_after_period(
+    t: np.ndarray,
+    after: tuple[float, float],
+    given: bool,
+    source: str | None,
+    lines: np.ndarray | None,
+    warnings: list[str],
+) -> None:
     """Refuse an after period with too few readings; warn about a short one."""
     aa, ab = after
     nafter = int(np.count_nonzero(_window_mask(t, aa, ab)))
@@ -181,13 +201,12 @@ def _check_after_period(t: np.ndarray, after: tuple[float, float], given: bool, 
             source=source,
         )
     if ab - aa < 120.0:
-        warnings.append(
-            f"after period is short ({ab - aa:.0f} s); at least 5 minutes after the change are advised"
-        )
+        warnings.append(f"after period is short ({ab - aa:.0f} s); at least 5 minutes after the change are advised")
 
 
-def _preliminary_law(t: np.ndarray, y: np.ndarray, tp: np.ndarray, yp: np.ndarray, fore: tuple[float, float],
-                     two_solution: bool) -> tuple[float, float, float]:
+def _preliminary_law(
+    t: np.ndarray, y: np.ndarray, tp: np.ndarray, yp: np.ndarray, fore: tuple[float, float], two_solution: bool
+) -> tuple[float, float, float]:
     """Return a rough drift law (g_f, T_f, k) from the late half of the post-mixing log and the fore period."""
     half = tp.size // 2
     late = fit_line(tp[half:], yp[half:])
@@ -205,8 +224,9 @@ def _preliminary_law(t: np.ndarray, y: np.ndarray, tp: np.ndarray, yp: np.ndarra
     return g_f, T_f, k
 
 
-def _running_change(t: np.ndarray, y: np.ndarray, t_m: float, tp: np.ndarray, yp: np.ndarray,
-                    law: tuple[float, float, float]) -> np.ndarray:
+def _running_change(
+    t: np.ndarray, y: np.ndarray, t_m: float, tp: np.ndarray, yp: np.ndarray, law: tuple[float, float, float]
+) -> np.ndarray:
     """Return D(t) = T(t) − T(t_m) − ∫ g(T) dt at the readings after mixing."""
     g_f, T_f, k = law
     # y at the mixing time: the fore line's value is the best start level
@@ -217,7 +237,7 @@ def _running_change(t: np.ndarray, y: np.ndarray, t_m: float, tp: np.ndarray, yp
     tt = np.concatenate([[t_m], tp])
     gg = np.concatenate([[g_f + k * (T_f - y_m)], g])
     cum = np.concatenate([[0.0], np.cumsum(0.5 * (gg[1:] + gg[:-1]) * np.diff(tt))])[1:]
-    return yp - y_m - cum
+    return cast(np.ndarray, yp - y_m - cum)
 
 
 def _smoothed(D: np.ndarray, dt: float) -> np.ndarray:
@@ -249,7 +269,7 @@ def _find_main_end(
     if tp.size < 2 * MIN_WINDOW_POINTS:
         return float(tp[0]) if tp.size else t_m, float(t[-1]), None, warnings
     D = _running_change(t, y, t_m, tp, yp, _preliminary_law(t, y, tp, yp, fore, two_solution))
-    plateau = float(np.median(D[int(0.7 * D.size):]))
+    plateau = float(np.median(D[int(0.7 * D.size) :]))
     if plateau == 0:
         return float(tp[0]), float(t[-1]), None, warnings
     frac = _smoothed(D, dt) / plateau

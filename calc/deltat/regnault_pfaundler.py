@@ -11,14 +11,15 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any, cast
 
 import numpy as np
 
 from calc.deltat.base import DeltaT, Log, method_term, need_windows, register_method, resolution_terms
 from calc.deltat.constructions import AfterNewtonConstruction, JointNewtonConstruction, NewtonianConstruction
-from calc.deltat.drift import LineFit, NewtonFit, fit_newton_joint, fit_newton_single
+from calc.deltat.drift import LineFit, NewtonFit, fit_line, fit_newton_joint, fit_newton_single
 
-__all__ = ["regnault_pfaundler", "classic_k"]
+__all__ = ["regnault_pfaundler", "classic_k", "fore_curvature"]
 
 _NOT_NEWTONIAN_TWO = (
     "after-period drift is not Newtonian (exchange constant k < 0): "
@@ -74,6 +75,25 @@ def classic_k(fore: LineFit, after: LineFit) -> float:
     return k if 0.0 <= k < 1 / 300.0 else 0.0
 
 
+def fore_curvature(log: Log, fore: LineFit, k: float) -> float:
+    """Return what a Newtonian fore drift adds to the straight fore line's value at the mixing time (K).
+
+    Before mixing the contents follow T' = k_A (T_∞ − T), so T'' = −k_A T' ≈ −k_A b: the drift is
+    bent, and a straight line fitted over the fore window and carried to t_i misses by
+    (T''/2)·G, G the line's own extrapolation of (t − t_i)² to t_i (about −L²/6 for a window of
+    length L ending at t_i). The returned correction is k_A b G/2, with k_A taken as the after
+    law's k (the exchange constant of the cup before mixing is not fitted); the caller takes the
+    correction itself as the half-width of a rectangular term, i.e. k_A anywhere in 0–2k
+    (docs/methods.md §8.8).
+    """
+    tf_, _ = log.window("fore")
+    if k <= 0.0 or tf_.size < 3:
+        return 0.0
+    t_i = log.periods.mixing_time
+    G = fit_line(tf_, (tf_ - t_i) ** 2).at(t_i)
+    return 0.5 * k * fore.b * G
+
+
 @dataclass(frozen=True)
 class _Setup:
     """What differs between one- and two-solution runs: the fit, ΔT(parameters) and the start level."""
@@ -94,13 +114,14 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     ta_, ya_ = log.window("after")
     nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
-    T_A = fore.at(t_i)
-    var_TA = fore.var_at(t_i)
+    bend = fore_curvature(log, fore, max(nf.k, 0.0))
+    T_A = fore.at(t_i) + bend
+    var_TA = fore.var_at(t_i) + bend * bend / 3.0
 
     def dT_of(p: np.ndarray) -> float:
         y_f, g_f, k = p
         integ = inner + w_a * T_A + w_b * y_f
-        return (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ)
+        return cast(float, (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ))
 
     # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
     return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA))
@@ -116,21 +137,27 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
     def dT_of(p: np.ndarray) -> float:
         y_i, y_f, g_i, k = p
         integ = inner + w_a * y_i + w_b * y_f
-        return (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ)
+        return cast(float, (y_f - y_i) - g_i * (t_f - t_i) - k * (y_i * (t_f - t_i) - integ))
 
     start, u_start = float(nf.params[0]), math.sqrt(max(nf.cov[0, 0], 0.0))
     return _Setup(nf, dT_of, 0.0, nf.dof, 3, _NOT_NEWTONIAN_ONE, start, u_start)
 
 
 def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
-    common = dict(
-        t_i=log.periods.mixing_time, t_f=log.periods.main_end, k_per_s=nf.k, u_k_per_s=u_k,
+    common: dict[str, Any] = dict(
+        t_i=log.periods.mixing_time,
+        t_f=log.periods.main_end,
+        k_per_s=nf.k,
+        u_k_per_s=u_k,
         convergence_temperature_K=nf.convergence_temperature(),
-        fore_line=(fore.a, fore.b, fore.t_mean), after_line=(after.a, after.b, after.t_mean),
-        autocorrelation=nf.rho, residual_sd_K=nf.s,
+        fore_line=(fore.a, fore.b, fore.t_mean),
+        after_line=(after.a, after.b, after.t_mean),
+        autocorrelation=nf.rho,
+        residual_sd_K=nf.s,
     )
     if log.two_solution:
-        return AfterNewtonConstruction(**common, after_newton=(*(float(v) for v in nf.params), log.periods.main_end))
+        y_f, g_f, k_f = (float(v) for v in nf.params)  # the after period's own law: three parameters
+        return AfterNewtonConstruction(**common, after_newton=(y_f, g_f, k_f, log.periods.main_end))
     y_i, y_f, g_i, k = (float(v) for v in nf.params)
     return JointNewtonConstruction(**common, newton_joint=(y_i, y_f, g_i, k))
 
@@ -145,8 +172,11 @@ def regnault_pfaundler(log: Log) -> DeltaT:
     setup = _two_solution(log, fore, parts) if log.two_solution else _one_solution(log, fore, after, parts)
     nf, k = setup.fit, setup.fit.k
     value = setup.delta_t_of(nf.params)
-    var = (_quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov) + setup.extra_var
-           + (k * nf.s) ** 2 * float(np.dot(w, w)))
+    var = (
+        _quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov)
+        + setup.extra_var
+        + (k * nf.s) ** 2 * float(np.dot(w, w))
+    )
     u_k = math.sqrt(max(nf.cov[setup.i_k, setup.i_k], 0.0))
     warnings = [setup.not_newtonian] if k < 0 and abs(k) > 2 * u_k else []
     res_start, res_end = resolution_terms(log)

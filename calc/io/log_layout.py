@@ -12,8 +12,18 @@ from dataclasses import dataclass
 from calc import limits
 from calc.errors import InputError
 
-__all__ = ["Layout", "read_layout", "split_cells", "skipped", "TIME_UNITS", "TEMPERATURE_UNITS", "UNITS_HELP",
-           "EXPECTED_HEADER", "NUMBER_RE", "CLOCK_RE"]
+__all__ = [
+    "Layout",
+    "read_layout",
+    "split_cells",
+    "skipped",
+    "TIME_UNITS",
+    "TEMPERATURE_UNITS",
+    "UNITS_HELP",
+    "EXPECTED_HEADER",
+    "NUMBER_RE",
+    "CLOCK_RE",
+]
 
 OWN_HEADER = "time_s,temperature_C"
 # header unit (lower case) -> (canonical name, seconds per unit; None for clock times).
@@ -33,9 +43,7 @@ TEMPERATURE_UNITS: dict[str, str] = {
 }
 _TIME_NAMES = {"time", "elapsed", "elapsed time", "elapsed_time", "clock", "zeit"}
 _TEMPERATURE_NAMES = {"temp", "temperature", "theta", "θ", "temperatur"}
-EXPECTED_HEADER = (
-    "a header like 'time_s,temperature_C', 't/s;T/K' or 'time (min),Temperature (°F)'"
-)
+EXPECTED_HEADER = "a header like 'time_s,temperature_C', 't/s;T/K' or 'time (min),Temperature (°F)'"
 UNITS_HELP = "s, ms, min, h, mm:ss or h:mm:ss for time and °C, K or °F for temperature"
 
 

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from calc.errors import InputError
@@ -152,10 +153,13 @@ def _needs_rewrite(out: list[str], first: int, header: str) -> bool:
     return _is_units_row(row, len(cells))
 
 
-def _splitter(header: str):  # noqa: ANN202 - a small closure
+def _splitter(header: str) -> Callable[[str], list[str]]:
     for sep in ("\t", ";", ","):
         if sep in header:
-            return lambda line, sep=sep: [c.strip().strip('"').strip() for c in line.split(sep)]
+            def split(line: str, sep: str = sep) -> list[str]:
+                return [c.strip().strip('"').strip() for c in line.split(sep)]
+
+            return split
     return _split_spaces
 
 
@@ -277,7 +281,8 @@ def _time_columns(columns: list[_Column], source: str, line: int) -> list[int]:
     raise InputError(message + "with a units row under the header", source=source, line=line)
 
 
-def _rewrite(out: list[str], first: int, columns: list[_Column], splitter, column, source: str,  # noqa: ANN001
+def _rewrite(out: list[str], first: int, columns: list[_Column], splitter: Callable[[str], list[str]],
+             column: str | int | None, source: str,
              metadata: dict[str, str]) -> Export:
     time_idx = _time_columns(columns, source, first + 1)
     temp = _choose(columns, column, source)
@@ -344,7 +349,8 @@ def _stamp_seconds(stamp: str, source: str, line: int) -> float:
     return total
 
 
-def _headerless(out: list[str], first: int, splitter, column, source: str,  # noqa: ANN001
+def _headerless(out: list[str], first: int, splitter: Callable[[str], list[str]], column: str | int | None,
+                source: str,
                 metadata: dict[str, str]) -> Export:
     """A log without a header: time, then temperatures; pick one by number when several."""
     width = len(splitter(out[first]))

@@ -28,10 +28,18 @@ import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import cast
 
 from calc.errors import InputError
-from calc.io.unit_text import (TEXT, canonical_unit, check_unit, describe_dimension, expectation,
-                               is_absolute_temperature, is_time)
+from calc.io.unit_text import (
+    TEXT,
+    canonical_unit,
+    check_unit,
+    describe_dimension,
+    expectation,
+    is_absolute_temperature,
+    is_time,
+)
 from calc.io.units import Q_, ureg
 
 __all__ = ["Measured", "parse_measured", "describe_dimension", "default_uncertainty"]
@@ -57,6 +65,7 @@ _NONFINITE_RE = re.compile(r"\s*\(?\s*[+-]?(?:nan|inf|infinity)\b", re.IGNORECAS
 # clock pattern take time quadratic in the length (a 20 000-character unit took
 # ~3 s); real entries such as "(0.0500 ± 0.0002) mol/L" are far shorter.
 MAX_ENTRY_LENGTH = 200
+
 
 @dataclass(frozen=True, slots=True)
 class Measured:
@@ -101,9 +110,7 @@ class Measured:
     def to(self, unit: str) -> Measured:
         """Return the same measurement expressed in ``unit``."""
         scale, offset = _affine(self.unit, unit)
-        return Measured(
-            self.value * scale + offset, self.u * scale, unit, self.distribution, self.text
-        )
+        return Measured(self.value * scale + offset, self.u * scale, unit, self.distribution, self.text)
 
 
 def default_uncertainty(number_text: str) -> float:
@@ -124,14 +131,12 @@ def default_uncertainty(number_text: str) -> float:
     # Exponents this large give inf (or 0), which the caller rejects.
     shift = float(exponent) if exponent else 0.0
     try:
-        return 0.5 * 10.0 ** (shift - len(fraction)) / _SQRT3
+        return cast(float, 0.5 * 10.0 ** (shift - len(fraction)) / _SQRT3)
     except OverflowError:
         return math.inf
 
 
-def parse_measured(
-    text: str | int | float, *, field: str, expected: str, source: str | None = None
-) -> Measured:
+def parse_measured(text: str | int | float, *, field: str, expected: str, source: str | None = None) -> Measured:
     """Parse ``"value ± u unit"`` into a :class:`Measured` of the expected dimension.
 
     Parameters
@@ -240,9 +245,9 @@ def _build(
             problem = f"the uncertainty in {text!r} is negative; a standard uncertainty is >= 0"
             raise _error(problem, expected, field, source)
         distribution = "normal"
-    unit, problem = check_unit(unit_text, expected)
-    if problem is not None:
-        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
+    unit, unit_problem = check_unit(unit_text, expected)
+    if unit_problem is not None:
+        raise _error(unit_problem.replace(TEXT, repr(text)), expected, field, source)
     measured = Measured(value, u, unit, distribution, text)
     if is_absolute_temperature(expected) and measured.m_as("K") < 0:
         raise _error(f"{text!r} is below absolute zero", expected, field, source)
@@ -262,9 +267,7 @@ def _unreadable(text: str, *, field: str, expected: str, source: str | None) -> 
     return _error(f"{text!r} does not start with a number", expected, field, source)
 
 
-def _parse_clock(
-    clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None
-) -> Measured:
+def _parse_clock(clock: re.Match[str], text: str, *, field: str, expected: str, source: str | None) -> Measured:
     """Turn a matched ``m:ss`` / ``h:mm:ss`` time into seconds."""
     # float(), not int(): int() refuses more than 4300 digits and a huge int
     # overflows when mixed with floats (both found by the hostile-input tests).
@@ -289,9 +292,9 @@ def _parse_clock(
     if not unit_text:
         problem = f"{text!r} gives no unit for the uncertainty, e.g. '3:00 ± 2 s'"
         raise _error(problem, expected, field, source)
-    unit, problem = check_unit(unit_text, "s")
-    if problem is not None:
-        raise _error(problem.replace(TEXT, repr(text)), expected, field, source)
+    unit, unit_problem = check_unit(unit_text, "s")
+    if unit_problem is not None:
+        raise _error(unit_problem.replace(TEXT, repr(text)), expected, field, source)
     u_s = u * _affine(unit, "s")[0]
     if not math.isfinite(u_s):  # e.g. "1:00 ± 1e308 h" overflows in seconds
         raise _error(f"the uncertainty in {text!r} is too large", expected, field, source)
@@ -319,6 +322,7 @@ def _affine(unit: str, target: str) -> tuple[float, float]:
     offset = float(Q_(0.0, unit).m_as(target))
     if offset == 0.0:
         return float(Q_(1.0, unit).m_as(target)), 0.0
-    unit_factor = ureg.get_root_units(unit)[0]
-    target_factor = ureg.get_root_units(target)[0]
+    # pint types the factor as any number, complex included; a unit's factor to its root units is real
+    unit_factor = cast(float, ureg.get_root_units(unit)[0])
+    target_factor = cast(float, ureg.get_root_units(target)[0])
     return float(unit_factor) / float(target_factor), offset

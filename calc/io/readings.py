@@ -44,8 +44,8 @@ import numpy as np
 
 from calc import limits
 from calc.errors import InputError
-from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
 from calc.io.files import read_limited
+from calc.io.log_layout import CLOCK_RE, EXPECTED_HEADER, NUMBER_RE, Layout, read_layout, skipped, split_cells
 from calc.io.logger_formats import normalize_export
 
 __all__ = ["Readings", "read_readings", "parse_readings", "MIN_READINGS", "CELSIUS_RANGE"]
@@ -123,8 +123,9 @@ def read_readings(
         If the file cannot be read, is not text, or fails a check of :func:`parse_readings`.
     """
     name = source if source is not None else os.fspath(path)
-    data = read_limited(path, limit="readings_bytes", what="the readings file", expected="a CSV thermometer log",
-                        source=name)
+    data = read_limited(
+        path, limit="readings_bytes", what="the readings file", expected="a CSV thermometer log", source=name
+    )
     if b"\x00" in data:
         message = "this is not a text file (it contains NUL bytes); expected a CSV log"
         raise InputError(message, source=name)
@@ -158,8 +159,7 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
         Naming the line and what was expected, for the problems listed in the module
         docstring.
     """
-    limits.require_size(len(text), "readings_bytes", what=f"the readings file ({len(text)} characters)",
-                        source=source)
+    limits.require_size(len(text), "readings_bytes", what=f"the readings file ({len(text)} characters)", source=source)
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()
     limits.require_size(len(lines), "readings_rows", what=f"the readings file ({len(lines)} lines)", source=source)
     export = normalize_export(lines, column, source)  # instrument exports, line for line
@@ -227,8 +227,13 @@ def _parse_careful(lines: list[str], layout: Layout, source: str) -> _Parsed:
         line = index + 1
         cells = split_cells(lines[index], delimiter)
         for cell in cells:
-            limits.require_size(len(cell), "cell_chars", what=f"the cell {limits.shorten(cell)!r} "
-                                f"({len(cell)} characters)", source=source, line=line)
+            limits.require_size(
+                len(cell),
+                "cell_chars",
+                what=f"the cell {limits.shorten(cell)!r} ({len(cell)} characters)",
+                source=source,
+                line=line,
+            )
         if len(cells) < 2:
             shown = {"\t": "a tab", ";": "';'", ",": "','"}[delimiter]
             message = f"found 1 cell ({limits.shorten(cells[0])!r}); expected 2 cells, time and temperature, "
@@ -276,9 +281,9 @@ def _time_cell(cell: str, layout: Layout, source: str, line: int) -> float:
             message = f"the time cell {limits.shorten(cell)!r} is too large; expected {unit} like '3:05'"
             raise InputError(message, source=source, line=line)
         return -value if sign == "-" else value
-    value = _number(cell, layout.delimiter)
-    if value is not None and np.isfinite(value):
-        return value * layout.seconds_per_unit
+    number = _number(cell, layout.delimiter)
+    if number is not None and np.isfinite(number):
+        return number * layout.seconds_per_unit
     if CLOCK_RE.fullmatch(cell):
         said = "file has no header" if layout.header_line is None else f"header says {unit}"
         message = f"the time cell {limits.shorten(cell)!r} is a clock time but the {said}; expected a time in "
@@ -307,9 +312,7 @@ def _not_a_number(column: str, cell: str, expected: str) -> str:
     return f"the {column} cell {limits.shorten(cell)!r} is not a number; expected {expected}"
 
 
-def _checked(
-    times: np.ndarray, temperatures: np.ndarray, numbers: np.ndarray, layout: Layout, source: str
-) -> Readings:
+def _checked(times: np.ndarray, temperatures: np.ndarray, numbers: np.ndarray, layout: Layout, source: str) -> Readings:
     """Check count, temperature plausibility and time order; convert to kelvin."""
     count = times.size
     if count < MIN_READINGS:

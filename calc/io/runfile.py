@@ -20,10 +20,10 @@ from typing import Any
 
 from calc import limits
 from calc.errors import InputError
-from calc.limits import require_number
 from calc.io.files import read_limited
 from calc.io.quantities import Measured, parse_measured
 from calc.io.schema import CALORIMETER_TYPES, KINDS, REQUIRED_SECTIONS, SCHEMA, TOP_FIELDS, Field
+from calc.limits import require_number
 
 __all__ = ["RunSpec", "load_run", "parse_run", "KINDS", "SCHEMA", "REQUIRED_SECTIONS", "CALORIMETER_TYPES"]
 
@@ -81,9 +81,7 @@ def parse_run(text: str, *, source: str, base_dir: Path | None = None, path: Pat
     if kind is None:
         raise InputError(f"missing; expected one of: {', '.join(KINDS)}", source=source, field="kind")
     if kind not in KINDS:
-        raise InputError(
-            f"unknown kind '{kind}'; expected one of: {', '.join(KINDS)}", source=source, field="kind"
-        )
+        raise InputError(f"unknown kind '{kind}'; expected one of: {', '.join(KINDS)}", source=source, field="kind")
     sections, top = _split(data, kind, source)
     readings = top.get("readings")
     if not isinstance(readings, str) or not readings.strip():
@@ -213,9 +211,7 @@ def _parse_period(value: Any, name: str, source: str) -> tuple[float, float] | N
     if value is None:
         return None
     if not isinstance(value, list) or len(value) != 2:
-        raise InputError(
-            'expected a list of two times, like ["0 s", "170 s"]', source=source, field=name
-        )
+        raise InputError('expected a list of two times, like ["0 s", "170 s"]', source=source, field=name)
     a = _parse_time(value[0], name, source).m_as("s")
     b = _parse_time(value[1], name, source).m_as("s")
     if not b > a:
@@ -228,24 +224,36 @@ def _parse_section(name: str, values: dict[str, Any], fields: dict[str, Field], 
     for key, value in values.items():
         dotted = f"{name}.{_key(key)}"
         if key not in fields:
-            raise InputError(
-                f"unknown field; [{name}] takes: {', '.join(fields)}", source=source, field=dotted
-            )
+            raise InputError(f"unknown field; [{name}] takes: {', '.join(fields)}", source=source, field=dotted)
         kind, unit, _req = fields[key]
         out[key] = _parse_value(value, kind, unit, dotted, source)
     for key, (_kind, unit, req) in fields.items():
         if req and key not in out:
-            example = {"mL": "100.0 ± 0.1 mL", "g": "2.500 ± 0.001 g", "J/K": "15 ± 3 J/K", "K": "0.01 K",
-                       "mol/L": "1.000 ± 0.005 mol/L", "V": "5.00 ± 0.01 V", "A": "1.000 ± 0.002 A",
-                       "s": "120.0 ± 0.2 s"}.get(unit or "", "")
-            hint = f", e.g. {key} = \"{example}\"" if example else ""
+            example = {
+                "mL": "100.0 ± 0.1 mL",
+                "g": "2.500 ± 0.001 g",
+                "J/K": "15 ± 3 J/K",
+                "K": "0.01 K",
+                "mol/L": "1.000 ± 0.005 mol/L",
+                "V": "5.00 ± 0.01 V",
+                "A": "1.000 ± 0.002 A",
+                "s": "120.0 ± 0.2 s",
+            }.get(unit or "", "")
+            hint = f', e.g. {key} = "{example}"' if example else ""
             raise InputError(f"missing{hint}", source=source, field=f"{name}.{key}")
     return out
 
 
 #: The longest text a run file's free-text field may hold (notes are longer than names).
-TEXT_LIMITS = {"info.title": 300, "info.operator": 200, "info.bench": 120, "info.date": 40,
-               "info.notes": 5000, "info.sample": 200, "info.group": 120}
+TEXT_LIMITS = {
+    "info.title": 300,
+    "info.operator": 200,
+    "info.bench": 120,
+    "info.date": 40,
+    "info.notes": 5000,
+    "info.sample": 200,
+    "info.group": 120,
+}
 DEFAULT_TEXT_LIMIT = 200
 
 
@@ -255,8 +263,11 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
             raise InputError("expected text (a string)", source=source, field=dotted)
         limit = TEXT_LIMITS.get(dotted, DEFAULT_TEXT_LIMIT)
         if len(value) > limit:
-            raise InputError(f"the text is {len(value):,} characters long; at most {limit:,} are allowed",
-                             source=source, field=dotted)
+            raise InputError(
+                f"the text is {len(value):,} characters long; at most {limit:,} are allowed",
+                source=source,
+                field=dotted,
+            )
         return value
     if kind == "d":
         return iso_date(value, dotted, source)
@@ -271,8 +282,9 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
         if isinstance(value, bool) or not isinstance(value, int) or value < 1:
             raise InputError("expected a positive whole number", source=source, field=dotted)
         top = limits.get("equivalents")
-        require_number(value, f"at most {top:g} (limit equivalents)", field=dotted, source=source,
-                       minimum=1, maximum=top)
+        require_number(
+            value, f"at most {top:g} (limit equivalents)", field=dotted, source=source, minimum=1, maximum=top
+        )
         return value
     if kind == "n":
         return parse_measured(value, field=dotted, expected="", source=source)
@@ -289,8 +301,14 @@ def _parse_value(value: Any, kind: str, unit: str | None, dotted: str, source: s
         if not (v > 0 and math.isfinite(v)):
             raise InputError(f"expected a positive resolution, got '{m.text}'", source=source, field=dotted)
         low, high = limits.bounds_for_unit("resolution_K")
-        require_number(v, f"a resolution in K (physical bounds) in '{limits.shorten(m.text)}'", field=dotted,
-                       source=source, minimum=low, maximum=high)
+        require_number(
+            v,
+            f"a resolution in K (physical bounds) in '{limits.shorten(m.text)}'",
+            field=dotted,
+            source=source,
+            minimum=low,
+            maximum=high,
+        )
         return v
     m = parse_measured(value, field=dotted, expected=unit or "", source=source)
     if unit not in ("K",) and m.value <= 0 and not dotted.endswith("heat_capacity"):
@@ -307,8 +325,14 @@ def _within_bounds(m: Measured, unit: str, dotted: str, source: str) -> None:
     value, u = m.m_as(unit), m.u_as(unit)
     what = f"a value in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'"
     require_number(value, what, field=dotted, source=source, minimum=low, maximum=high)
-    require_number(u, f"an uncertainty in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'",
-                   field=dotted, source=source, minimum=0, maximum=high - low)
+    require_number(
+        u,
+        f"an uncertainty in {unit or 'no unit'} (physical bounds) in '{limits.shorten(m.text)}'",
+        field=dotted,
+        source=source,
+        minimum=0,
+        maximum=high - low,
+    )
 
 
 def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -> str:
@@ -327,8 +351,9 @@ def iso_date(value: Any, dotted: str = "info.date", source: str | None = None) -
         except ValueError:
             pass
     shown = limits.shorten(value if isinstance(value, str) else repr(value))
-    raise InputError(f"expected a date in ISO 8601 like 2025-03-13 (or 2025-03-13T14:05), got {shown!r}",
-                     source=source, field=dotted)
+    raise InputError(
+        f"expected a date in ISO 8601 like 2025-03-13 (or 2025-03-13T14:05), got {shown!r}", source=source, field=dotted
+    )
 
 
 _ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,6})?)?(?:Z|[+-]\d{2}:\d{2})?)?$")
@@ -337,8 +362,11 @@ _ISO_DATE_RE = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{
 def _section_rules(sections: dict[str, dict[str, Any]], source: str) -> None:
     ctype = sections.get("calorimeter", {}).get("type")
     if ctype is not None and ctype not in CALORIMETER_TYPES:
-        raise InputError(f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
-                         source=source, field="calorimeter.type")
+        raise InputError(
+            f"unknown calorimeter type {ctype!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
+            source=source,
+            field="calorimeter.type",
+        )
     r = sections.get("reaction")
     if r is not None:
         has_amount = "amount" in r

@@ -32,8 +32,11 @@ _INFO: dict[str, Field] = {
     "group": ("s", None, False),
 }
 _CAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", True), "name": ("s", None, False), "type": ("s", None, False)}
-_CAL_OPTIONAL: dict[str, Field] = {"heat_capacity": ("q", "J/K", False), "name": ("s", None, False),
-                                   "type": ("s", None, False)}
+_CAL_OPTIONAL: dict[str, Field] = {
+    "heat_capacity": ("q", "J/K", False),
+    "name": ("s", None, False),
+    "type": ("s", None, False),
+}
 #: Calorimeter types (``[calorimeter] type``); their plausible heat capacities are in calc.checks.
 CALORIMETER_TYPES = ("foam-cups", "dewar", "jacketed", "other")
 _THERMO: dict[str, Field] = {"resolution": ("dq", "K", True), "name": ("s", None, False)}

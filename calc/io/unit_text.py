@@ -12,8 +12,18 @@ from functools import lru_cache
 
 from calc.io.units import parse_unit
 
-__all__ = ["describe_dimension", "canonical_unit", "check_unit", "expectation", "article", "describe",
-           "is_absolute_temperature", "is_time", "TEXT", "PM_IN_UNIT_RE"]
+__all__ = [
+    "describe_dimension",
+    "canonical_unit",
+    "check_unit",
+    "expectation",
+    "article",
+    "describe",
+    "is_absolute_temperature",
+    "is_time",
+    "TEXT",
+    "PM_IN_UNIT_RE",
+]
 
 _PM = r"(?:±|\+/-|\+-)"
 PM_IN_UNIT_RE = re.compile(_PM)

@@ -11,12 +11,12 @@ folder that cannot be written falls back to parsing every time.
 from __future__ import annotations
 
 from functools import lru_cache
+from typing import Any
 
 import pint
 
 
-
-def _registry() -> pint.UnitRegistry:
+def _registry() -> pint.UnitRegistry[Any]:
     try:
         return pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
     except OSError:  # no writable cache folder

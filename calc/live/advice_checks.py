@@ -33,25 +33,33 @@ def checked_spec(run_text: Any, source: str) -> RunSpec:
     return parse_run(f'readings = "{LIVE_READINGS_NAME}"\n' + run_text, source=source)
 
 
-def checked_arrays(times_s: Sequence[float], temps_c: Sequence[float], source: str,
-                   celsius: tuple[float, float]) -> tuple[np.ndarray, np.ndarray]:
+def checked_arrays(
+    times_s: Sequence[float], temps_c: Sequence[float], source: str, celsius: tuple[float, float]
+) -> tuple[np.ndarray, np.ndarray]:
     """Return times (s) and temperatures (°C) as float arrays after checking them."""
     t = _numbers(times_s, "times_s", source)
     y = _numbers(temps_c, "temps_c", source)
     if t.size != y.size:
-        raise InputError(f"holds {y.size} temperatures for {t.size} times; expected one per time",
-                         source=source, field="temps_c")
+        raise InputError(
+            f"holds {y.size} temperatures for {t.size} times; expected one per time", source=source, field="temps_c"
+        )
     limits.require_size(t.size, "readings_rows", what=f"{t.size} readings", source=source, field="times_s")
     back = np.flatnonzero(np.diff(t) < 0)
     if back.size:
         i = int(back[0]) + 1
-        raise InputError(f"reading {i + 1} goes back in time ({t[i]:g} s after {t[i - 1]:g} s); "
-                         "expected times that never decrease", source=source, field="times_s")
+        raise InputError(
+            f"reading {i + 1} goes back in time ({t[i]:g} s after {t[i - 1]:g} s); expected times that never decrease",
+            source=source,
+            field="times_s",
+        )
     out = np.flatnonzero((y < celsius[0]) | (y > celsius[1]))
     if out.size:
         i = int(out[0])
-        raise InputError(f"reading {i + 1} is {y[i]:g} °C; expected {celsius[0]:g} to {celsius[1]:g} °C",
-                         source=source, field="temps_c")
+        raise InputError(
+            f"reading {i + 1} is {y[i]:g} °C; expected {celsius[0]:g} to {celsius[1]:g} °C",
+            source=source,
+            field="temps_c",
+        )
     return t, y
 
 
@@ -73,7 +81,11 @@ def checked_target(target_u: Any, spec: RunSpec) -> float | None:
     unit = get_kind(spec.kind).main_unit
     if target_u is None:
         return None
-    if isinstance(target_u, bool) or not isinstance(target_u, (int, float)) or not math.isfinite(target_u) \
-            or target_u <= 0:
+    if (
+        isinstance(target_u, bool)
+        or not isinstance(target_u, (int, float))
+        or not math.isfinite(target_u)
+        or target_u <= 0
+    ):
         raise InputError(f"expected a positive number in {unit}, got {target_u!r}", field="target_u")
     return float(target_u)

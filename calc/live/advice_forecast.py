@@ -54,8 +54,13 @@ class Forecast:
             return self.expanded_now
         L0 = self.after_length
         L = min(L0 + extra_s, max(AFTER_MAX_S, L0))
-        var = (self.fixed_var + self.fit_fore + self.fit_after * self.level_var(L) / self.level_var(L0)
-               + self.res_fore + self.res_after * self.floor_ratio(L))
+        var = (
+            self.fixed_var
+            + self.fit_fore
+            + self.fit_after * self.level_var(L) / self.level_var(L0)
+            + self.res_fore
+            + self.res_after * self.floor_ratio(L)
+        )
         return self.k * math.sqrt(max(var, 0.0))
 
     def gain(self, extra_s: float, horizon_s: float = HORIZON_S) -> float:
@@ -110,7 +115,15 @@ def forecast(analysis: Any, t: np.ndarray, y: np.ndarray) -> Forecast:
         return (La / L) ** 2
 
     return Forecast(
-        expanded_now=gum.expanded_uncertainty, k=gum.coverage_factor,
-        fixed_var=max(total - c_fit - c_res, 0.0), fit_fore=c_fit * (1 - share), fit_after=c_fit * share,
-        res_fore=c_res * (1 - rshare), res_after=c_res * rshare, after_length=La,
-        level_var=level_after, floor_ratio=floor_ratio, largest=others[0].label if others else "")
+        expanded_now=gum.expanded_uncertainty,
+        k=gum.coverage_factor,
+        fixed_var=max(total - c_fit - c_res, 0.0),
+        fit_fore=c_fit * (1 - share),
+        fit_after=c_fit * share,
+        res_fore=c_res * (1 - rshare),
+        res_after=c_res * rshare,
+        after_length=La,
+        level_var=level_after,
+        floor_ratio=floor_ratio,
+        largest=others[0].label if others else "",
+    )

@@ -16,11 +16,11 @@ from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.logprep import PreparedLog
 from calc.errors import InputError
 from calc.io.runfile import RunSpec
+from calc.kinds import get_kind
 from calc.live import advice_signals as sig
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
 from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
-from calc.kinds import get_kind
 
 __all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
            "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S", "HOLD_GAIN"]
@@ -79,18 +79,33 @@ def _common_warnings(st: State, fore: sig.ForeState | None) -> list[Warning_]:
     out = stopped(st.prep.t, st.now_s)
     recent = [r for r in st.prep.rejected if r["time_s"] >= float(st.prep.t[-1]) - SPIKE_RECENT_S]
     if recent:
-        out.append(Warning_("spike", f"{len(recent)} wild reading(s) in the last {SPIKE_RECENT_S / 60:.0f} min left "
-                            f"out, the last at {recent[-1]['time_s']:g} s; check the thermometer's contact",
-                            recent[-1]["time_s"]))
+        out.append(
+            Warning_(
+                "spike",
+                f"{len(recent)} wild reading(s) in the last {SPIKE_RECENT_S / 60:.0f} min left "
+                f"out, the last at {recent[-1]['time_s']:g} s; check the thermometer's contact",
+                recent[-1]["time_s"],
+            )
+        )
     if fore is not None:
         if fore.drifting:
-            out.append(Warning_("fore_drift", f"the fore period drifts by {fore.slope_k_per_min:+.3f} K/min (limit "
-                                f"±{sig.FORE_DRIFT_LIMIT_K_PER_MIN:g} K/min): is the liquid at room temperature?",
-                                fore.slope_k_per_min))
+            out.append(
+                Warning_(
+                    "fore_drift",
+                    f"the fore period drifts by {fore.slope_k_per_min:+.3f} K/min (limit "
+                    f"±{sig.FORE_DRIFT_LIMIT_K_PER_MIN:g} K/min): is the liquid at room temperature?",
+                    fore.slope_k_per_min,
+                )
+            )
         if fore.noise_k > sig.NOISE_LIMIT_K:
-            out.append(Warning_("too_noisy", f"the readings scatter by {fore.noise_k:.3f} K beyond the thermometer's "
-                                f"steps (limit {sig.NOISE_LIMIT_K:g} K): check the stirring and the probe",
-                                fore.noise_k))
+            out.append(
+                Warning_(
+                    "too_noisy",
+                    f"the readings scatter by {fore.noise_k:.3f} K beyond the thermometer's "
+                    f"steps (limit {sig.NOISE_LIMIT_K:g} K): check the stirring and the probe",
+                    fore.noise_k,
+                )
+            )
     return out
 
 
@@ -114,18 +129,33 @@ def fore_phase(st: State) -> dict:
     length = float(t[-1] - t[0])
     if fore is None or length < sig.FORE_TARGET_S:
         more = sig.FORE_TARGET_S - length
-        return {"phase": "fore", "status": f"fore period: keep stirring, {duration(more)} more",
-                "seconds_more": more, **base}
+        return {
+            "phase": "fore",
+            "status": f"fore period: keep stirring, {duration(more)} more",
+            "seconds_more": more,
+            **base,
+        }
     if not fore.steady:
-        return {"phase": "fore", "status": "fore period: keep stirring until the drift is steady (it is still "
-                "changing)", "seconds_more": 60.0, **base}
+        return {
+            "phase": "fore",
+            "status": "fore period: keep stirring until the drift is steady (it is still changing)",
+            "seconds_more": 60.0,
+            **base,
+        }
     return {"phase": "add_now", "status": ADD_NOW[st.spec.kind], "seconds_more": 0.0, **base}
 
 
 def _estimate(analysis: Any, unit: str) -> dict:
     gum, dt = analysis.gum, analysis.delta_t
-    return {"delta_t": dt.value, "u_delta_t": dt.u, "value": gum.values[gum.main],
-            "expanded_u": gum.expanded_uncertainty, "unit": unit, "quantity": gum.main, "provisional": True}
+    return {
+        "delta_t": dt.value,
+        "u_delta_t": dt.u,
+        "value": gum.values[gum.main],
+        "expanded_u": gum.expanded_uncertainty,
+        "unit": unit,
+        "quantity": gum.main,
+        "provisional": True,
+    }
 
 
 def _in_after(st: State, analysis: Any) -> bool:
@@ -151,11 +181,19 @@ def later_phase(st: State, change: tuple[float, float], analysis: Any) -> dict:
     t = st.prep.t
     periods = {"fore": [float(t[0]), t_m], "mixing_time": t_m, "after": None}
     lines = [_line(fore.line, float(t[0]), t_m)] if fore is not None else []
-    base = {"periods": periods, "drift_lines": lines, "warnings": warnings,
-            "estimate": _estimate(analysis, st.unit) if analysis is not None else None}
+    base = {
+        "periods": periods,
+        "drift_lines": lines,
+        "warnings": warnings,
+        "estimate": _estimate(analysis, st.unit) if analysis is not None else None,
+    }
     if analysis is None or not _in_after(st, analysis):
-        return {"phase": "reaction", "status": UNDER_WAY[st.spec.kind],
-                "seconds_more": _main_left(st, analysis, t_m), **base}
+        return {
+            "phase": "reaction",
+            "status": UNDER_WAY[st.spec.kind],
+            "seconds_more": _main_left(st, analysis, t_m),
+            **base,
+        }
     a0, a1 = (float(x) for x in analysis.periods.after)
     periods["after"] = [a0, a1]
     m = (t >= a0 - 1e-9) & (t <= a1 + 1e-9)
@@ -189,8 +227,7 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
                 "seconds_more": good}
     flat = fc.first(lambda x: x >= wait and fc.gain(x) < limit)
     floor = fc.expanded(flat if flat is not None else 1e9)
-    why = (f"{target_text(target, unit)} cannot be reached: U stays near "
-           f"{amount_text(floor, unit)} ({_main_line(fc)})")
+    why = f"{target_text(target, unit)} cannot be reached: U stays near {amount_text(floor, unit)} ({_main_line(fc)})"
     if flat == 0.0:
         fell = _recent_gain(st, fc)
         if fell is not None and fell >= limit:
@@ -224,12 +261,23 @@ def _after_change_warnings(st: State, fore: sig.ForeState | None, t_m: float) ->
     out: list[Warning_] = []
     length = t_m - float(st.prep.t[0])
     if fore is None or length < sig.FORE_MIN_S:
-        out.append(Warning_("fore_short", f"the fore period lasted only {length:.0f} s; "
-                            f"{sig.FORE_TARGET_S / 60:.0f} minutes are advised", length))
+        out.append(
+            Warning_(
+                "fore_short",
+                f"the fore period lasted only {length:.0f} s; {sig.FORE_TARGET_S / 60:.0f} minutes are advised",
+                length,
+            )
+        )
     if fore is not None:
         room = fore.line.at(t_m)
         hit = sig.probe_out(st.prep, t_m, room, st.spec.resolution_K)
         if hit is not None:
-            out.append(Warning_("probe_out", f"a sudden step of {hit[1]:+.2f} K towards the room's temperature at "
-                                f"{hit[0]:g} s: is the probe still in the liquid?", hit[1]))
+            out.append(
+                Warning_(
+                    "probe_out",
+                    f"a sudden step of {hit[1]:+.2f} K towards the room's temperature at "
+                    f"{hit[0]:g} s: is the probe still in the liquid?",
+                    hit[1],
+                )
+            )
     return out

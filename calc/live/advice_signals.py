@@ -18,8 +18,20 @@ from calc.deltat.logprep import PreparedLog
 from calc.deltat.periods import MIN_WINDOW_POINTS, detect_mixing_time
 from calc.errors import InputError
 
-__all__ = ["Warning_", "ForeState", "fore_state", "find_change", "noise_sd", "probe_out",
-           "curved", "FORE_TARGET_S", "FORE_MIN_S", "FORE_DRIFT_LIMIT_K_PER_MIN", "NOISE_LIMIT_K", "STOPPED_AFTER_S"]
+__all__ = [
+    "Warning_",
+    "ForeState",
+    "fore_state",
+    "find_change",
+    "noise_sd",
+    "probe_out",
+    "curved",
+    "FORE_TARGET_S",
+    "FORE_MIN_S",
+    "FORE_DRIFT_LIMIT_K_PER_MIN",
+    "NOISE_LIMIT_K",
+    "STOPPED_AFTER_S",
+]
 
 #: Fore period the advice asks for before the addition, s (3–5 minutes are the usual advice;
 #: docs/methods.md §1, common practice).
@@ -51,8 +63,11 @@ class Warning_:
 
     def to_dict(self) -> dict:
         """Return the warning as plain JSON-ready values."""
-        return {"code": self.code, "message": self.message,
-                "value": None if self.value is None or not math.isfinite(self.value) else float(self.value)}
+        return {
+            "code": self.code,
+            "message": self.message,
+            "value": None if self.value is None or not math.isfinite(self.value) else float(self.value),
+        }
 
 
 @dataclass(frozen=True)
@@ -154,8 +169,12 @@ def probe_out(prep: PreparedLog, t_m: float, room: float, q: float) -> tuple[flo
     gap = room - ref
     s = noise_sd(y, q)
     thr = max(8.0 * s, 3.0 * q, 1e-6)
-    hit = (np.sign(dev) == np.sign(gap)) & (np.abs(dev) > thr) & (np.abs(dev) > 0.2 * np.abs(gap)) \
+    hit = (
+        (np.sign(dev) == np.sign(gap))
+        & (np.abs(dev) > thr)
+        & (np.abs(dev) > 0.2 * np.abs(gap))
         & (np.abs(gap) > max(10.0 * s, 5.0 * q))
+    )
     idx = np.flatnonzero(hit)
     if not idx.size:
         return None

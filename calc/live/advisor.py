@@ -89,12 +89,18 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
         raise InputError(f"expected the previous phase to be one of {', '.join(PHASES)}, got {previous_phase!r}",
                          field="previous_phase")
     if spec.kind not in phases.LIVE_KINDS:
-        return Advice("refused", f"no live advice for {spec.kind} runs (several events in one log); "
-                      "record the whole log and analyse it afterwards")
+        return Advice(
+            "refused",
+            f"no live advice for {spec.kind} runs (several events in one log); "
+            "record the whole log and analyse it afterwards",
+        )
     q = spec.resolution_K
     if t.size < phases.MIN_LIVE_READINGS:
-        return Advice("waiting", f"waiting for readings ({t.size} of {phases.MIN_LIVE_READINGS})",
-                      warnings=phases.stopped(t, now_s))
+        return Advice(
+            "waiting",
+            f"waiting for readings ({t.size} of {phases.MIN_LIVE_READINGS})",
+            warnings=phases.stopped(t, now_s),
+        )
     y = y_c + _KELVIN
     lines = np.arange(2, t.size + 2)
     prep = prepare_log(t, y, resolution=q, lines=lines)

@@ -86,8 +86,11 @@ def temperature_unit(text: str, *, where: str = "unit") -> str:
     except Exception:  # pint raises UndefinedUnitError, but also AssertionError for some symbols (℃)
         raise InputError(f"unknown unit {text!r}; expected {_UNITS_HELP}", field=where) from None
     if str(dimensionality) != "[temperature]":
-        raise InputError(f"the unit {text!r} is not a temperature (pint reads it as {unit:~P}, "
-                         f"{dimensionality}); expected {_UNITS_HELP}", field=where)
+        raise InputError(
+            f"the unit {text!r} is not a temperature (pint reads it as {unit:~P}, "
+            f"{dimensionality}); expected {_UNITS_HELP}",
+            field=where,
+        )
     return str(unit)
 
 
@@ -98,16 +101,26 @@ def to_celsius(value: float, unit: str) -> float:
     return float(Q_(value, unit).to("degC").magnitude)
 
 
-def make_profile(name: str, pattern: str, unit: str, *, description: str = "", template: str = "",
-                 example: str | None = None, where: str = "device") -> DeviceProfile:
+def make_profile(
+    name: str,
+    pattern: str,
+    unit: str,
+    *,
+    description: str = "",
+    template: str = "",
+    example: str | None = None,
+    where: str = "device",
+) -> DeviceProfile:
     """Return a profile after checking its pattern (a ``value`` group) and its unit."""
     try:
         compiled = re.compile(pattern)
     except re.error as exc:
         raise InputError(f"the pattern {pattern!r} is not a regular expression ({exc})", field=where) from None
     if "value" not in compiled.groupindex:
-        raise InputError(f"the pattern {pattern!r} has no (?P<value>...) group; expected one that captures "
-                         "the temperature", field=where)
+        raise InputError(
+            f"the pattern {pattern!r} has no (?P<value>...) group; expected one that captures the temperature",
+            field=where,
+        )
     profile = DeviceProfile(name, compiled, temperature_unit(unit, where=f"{where}.unit"), description, template)
     if example is not None and profile.read(example) is None:
         raise InputError(f"the example line {example!r} does not match the pattern {pattern!r}", field=where)
@@ -125,30 +138,49 @@ def load_profile(path: str | Path) -> DeviceProfile:
         raise InputError(f"cannot read the device profile ({exc})", source=source) from None
     for key in ("pattern", "unit"):
         if not isinstance(data.get(key), str):
-            raise InputError(f"missing or not a string; expected {key} = \"...\"", source=source, field=key)
+            raise InputError(f'missing or not a string; expected {key} = "..."', source=source, field=key)
     unknown = set(data) - {"name", "pattern", "unit", "example", "description"}
     if unknown:
-        raise InputError(f"unknown key(s) {sorted(unknown)}; expected name, pattern, unit, example, description",
-                         source=source)
+        raise InputError(
+            f"unknown key(s) {sorted(unknown)}; expected name, pattern, unit, example, description", source=source
+        )
     example = data.get("example")
     try:
-        return make_profile(str(data.get("name", Path(path).stem)), data["pattern"], data["unit"],
-                            description=str(data.get("description", "")),
-                            example=example if isinstance(example, str) else None)
+        return make_profile(
+            str(data.get("name", Path(path).stem)),
+            data["pattern"],
+            data["unit"],
+            description=str(data.get("description", "")),
+            example=example if isinstance(example, str) else None,
+        )
     except InputError as exc:
         raise InputError(exc.message, source=source, field=exc.field) from None
 
 
 #: The built-in generic profiles (names of our own; docs/recording.md shows a line of each).
 PROFILES: dict[str, DeviceProfile] = {
-    p.name: p for p in (
-        make_profile("bare-celsius", rf"(?P<value>{_NUMBER})", "degC", template="{value:.3f}",
-                     description="one number per line, in °C; the recorder stamps the time"),
-        make_profile("stamped-kelvin", rf"(?P<time>{_NUMBER})\s*[;,\t ]\s*(?P<value>{_NUMBER})", "K",
-                     template="{t:.1f};{value:.3f}",
-                     description="the device's time in s, a separator (; , tab or space), then kelvin"),
-        make_profile("labelled-fahrenheit", rf"(?:TEMP|T)\s*[:=]?\s*(?P<value>{_NUMBER})\s*(?:°\s*)?F",
-                     "degF", template="TEMP: {value:.2f} F",
-                     description="a label TEMP or T, the value and F, in °F; the recorder stamps the time"),
+    p.name: p
+    for p in (
+        make_profile(
+            "bare-celsius",
+            rf"(?P<value>{_NUMBER})",
+            "degC",
+            template="{value:.3f}",
+            description="one number per line, in °C; the recorder stamps the time",
+        ),
+        make_profile(
+            "stamped-kelvin",
+            rf"(?P<time>{_NUMBER})\s*[;,\t ]\s*(?P<value>{_NUMBER})",
+            "K",
+            template="{t:.1f};{value:.3f}",
+            description="the device's time in s, a separator (; , tab or space), then kelvin",
+        ),
+        make_profile(
+            "labelled-fahrenheit",
+            rf"(?:TEMP|T)\s*[:=]?\s*(?P<value>{_NUMBER})\s*(?:°\s*)?F",
+            "degF",
+            template="TEMP: {value:.2f} F",
+            description="a label TEMP or T, the value and F, in °F; the recorder stamps the time",
+        ),
     )
 }

@@ -23,9 +23,10 @@ import json
 import os
 import time
 import uuid
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from calc.errors import InputError
 from calc.live.devices import DeviceProfile
@@ -64,16 +65,21 @@ class Sidecar:
     notebook: str | None = None
 
     @classmethod
-    def read(cls, path: Path) -> "Sidecar":
+    def read(cls, path: Path) -> Sidecar:
         """Read the sidecar at ``path``; refuse one that is not ours."""
         try:
             data = json.loads(path.read_text(encoding="utf-8"))
-            return cls(float(data["t0_epoch"]), str(data["client_key"]),
-                       None if data.get("live_run_id") is None else int(data["live_run_id"]),
-                       data.get("notebook"))
+            return cls(
+                float(data["t0_epoch"]),
+                str(data["client_key"]),
+                None if data.get("live_run_id") is None else int(data["live_run_id"]),
+                data.get("notebook"),
+            )
         except (OSError, ValueError, KeyError, TypeError) as exc:
-            raise InputError(f"cannot read the recorder's sidecar file ({exc}); expected the JSON that "
-                             "`cupcal record` writes", source=str(path)) from None
+            raise InputError(
+                f"cannot read the recorder's sidecar file ({exc}); expected the JSON that `cupcal record` writes",
+                source=str(path),
+            ) from None
 
     def write(self, path: Path) -> None:
         """Write atomically: a temporary file, fsync, rename over the old one, fsync the folder."""
@@ -95,8 +101,9 @@ def _lock(handle: Any, path: Path) -> None:
     try:
         fcntl.flock(handle.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
     except OSError:
-        raise InputError("another `cupcal record` is writing this log; stop it first, or choose another file",
-                         source=str(path)) from None
+        raise InputError(
+            "another `cupcal record` is writing this log; stop it first, or choose another file", source=str(path)
+        ) from None
 
 
 class CsvLog:
@@ -127,14 +134,20 @@ class CsvLog:
                 os.fsync(handle.fileno())
         lines = complete.decode("utf-8", "replace").splitlines()
         if not lines or lines[0].strip() != HEADER:
-            raise InputError(f"the file exists and does not start with {HEADER!r}; expected a log that "
-                             "`cupcal record` wrote (to resume it) or a new file name", source=str(self.path))
+            raise InputError(
+                f"the file exists and does not start with {HEADER!r}; expected a log that "
+                "`cupcal record` wrote (to resume it) or a new file name",
+                source=str(self.path),
+            )
         for number, line in enumerate(lines[1:], start=2):
             try:
                 t, c = (float(x) for x in line.split(","))
             except ValueError:
-                raise InputError(f"cannot resume: the row {line[:60]!r} is not 'time,temperature'",
-                                 source=str(self.path), line=number) from None
+                raise InputError(
+                    f"cannot resume: the row {line[:60]!r} is not 'time,temperature'",
+                    source=str(self.path),
+                    line=number,
+                ) from None
             self.rows.append((t, c))
 
     def _write(self, line: str) -> None:
@@ -168,9 +181,18 @@ class Summary:
 class Recorder:
     """Read lines from a source, write readings to the log, hand each to ``on_reading``."""
 
-    def __init__(self, source: Source, profile: DeviceProfile, log: CsvLog, sidecar: Sidecar, sidecar_file: Path,
-                 *, on_reading: Callable[[int, float, float], None] | None = None,
-                 on_bad_line: Callable[[str], None] | None = None, clock: Callable[[], float] = time.time) -> None:
+    def __init__(
+        self,
+        source: Source,
+        profile: DeviceProfile,
+        log: CsvLog,
+        sidecar: Sidecar,
+        sidecar_file: Path,
+        *,
+        on_reading: Callable[[int, float, float], None] | None = None,
+        on_bad_line: Callable[[str], None] | None = None,
+        clock: Callable[[], float] = time.time,
+    ) -> None:
         self.source, self.profile, self.log = source, profile, log
         self.sidecar, self.sidecar_file = sidecar, sidecar_file
         self.on_reading = on_reading or (lambda seq, t, c: None)
@@ -216,8 +238,14 @@ class Recorder:
         self.on_reading(seq, *self.log.rows[-1])
         return True
 
-    def run(self, should_stop: Callable[[], bool], *, max_readings: int | None = None,
-            idle_stop: Callable[[], bool] | None = None, poll_s: float = 0.2) -> Summary:
+    def run(
+        self,
+        should_stop: Callable[[], bool],
+        *,
+        max_readings: int | None = None,
+        idle_stop: Callable[[], bool] | None = None,
+        poll_s: float = 0.2,
+    ) -> Summary:
         """Record until ``should_stop()``, the source ends, ``max_readings`` or idle with ``idle_stop()``."""
         while not should_stop():
             if max_readings is not None and self.summary.recorded >= max_readings:
@@ -248,8 +276,11 @@ def open_log(path: Path, *, clock: Callable[[], float] = time.time) -> tuple[Csv
     """Open ``path`` for recording, resuming it with its sidecar when it already holds readings."""
     side = sidecar_path(path)
     if path.exists() and path.stat().st_size > 0 and not side.exists():
-        raise InputError(f"the file exists but has no sidecar {side.name!r}, so it was not written by "
-                         "`cupcal record`; choose a new file name or move it away", source=str(path))
+        raise InputError(
+            f"the file exists but has no sidecar {side.name!r}, so it was not written by "
+            "`cupcal record`; choose a new file name or move it away",
+            source=str(path),
+        )
     if path.is_dir():
         raise InputError("is a folder; expected the name of the CSV log to write", source=str(path))
     sidecar = Sidecar.read(side) if side.exists() and path.exists() else Sidecar(t0_epoch=clock())
@@ -259,4 +290,3 @@ def open_log(path: Path, *, clock: Callable[[], float] = time.time) -> tuple[Csv
         raise InputError(f"cannot write the log ({exc.strerror or exc})", source=str(path)) from None
     sidecar.write(side)
     return log, sidecar, side
-

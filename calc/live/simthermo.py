@@ -16,7 +16,7 @@ from __future__ import annotations
 import os
 import threading
 import time
-from typing import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 
 import numpy as np
 
@@ -32,15 +32,26 @@ GARBLED = ("ERR", "\x15\x15?", "--", "T?:", "#####")
 class SimThermometer:
     """Play readings as lines at their own pace (see the module docstring)."""
 
-    def __init__(self, times_s: Sequence[float], temps_c: Sequence[float], profile: DeviceProfile, *,
-                 speed: float = 1.0, garble: float = 0.0, seed: int | None = None) -> None:
+    def __init__(
+        self,
+        times_s: Sequence[float],
+        temps_c: Sequence[float],
+        profile: DeviceProfile,
+        *,
+        speed: float = 1.0,
+        garble: float = 0.0,
+        seed: int | None = None,
+    ) -> None:
         if not speed > 0:
             raise InputError(f"the speed must be > 0, got {speed}", field="--speed")
         if not 0 <= garble < 1:
             raise InputError(f"the share of garbled lines must be in [0, 1), got {garble}", field="--garble")
         if speed != 1 and not profile.has_time:
-            raise InputError(f"a speed other than 1 needs a device profile with time stamps; {profile.name!r} "
-                             "has none (the recorder would stamp the sped-up wall clock)", field="--speed")
+            raise InputError(
+                f"a speed other than 1 needs a device profile with time stamps; {profile.name!r} "
+                "has none (the recorder would stamp the sped-up wall clock)",
+                field="--speed",
+            )
         self.times = np.asarray(times_s, float)
         self.temps = np.asarray(temps_c, float)
         self.profile, self.speed, self.garble = profile, speed, garble
@@ -89,9 +100,11 @@ class SimThermometer:
             import pty
             import tty
         except ImportError:
-            raise InputError("the simulated thermometer needs a pseudo-terminal (Linux or macOS); on this system, "
-                             "use --command or --follow with a program that prints readings",
-                             field="--simulate") from None
+            raise InputError(
+                "the simulated thermometer needs a pseudo-terminal (Linux or macOS); on this system, "
+                "use --command or --follow with a program that prints readings",
+                field="--simulate",
+            ) from None
 
         master, slave = pty.openpty()
         tty.setraw(slave)  # no echo, no line editing: bytes pass as a serial line passes them
@@ -107,9 +120,13 @@ class SimThermometer:
         """
         if self._master is None:
             raise RuntimeError("open_pty() first")
-        self._thread = threading.Thread(target=self.play, args=(self._write_master,),
-                                        kwargs={"start": time.monotonic() + delay_s}, name="cupcal-simthermo",
-                                        daemon=True)
+        self._thread = threading.Thread(
+            target=self.play,
+            args=(self._write_master,),
+            kwargs={"start": time.monotonic() + delay_s},
+            name="cupcal-simthermo",
+            daemon=True,
+        )
         self._thread.start()
 
     def close(self) -> None:

@@ -108,8 +108,10 @@ class SerialSource(Source):
             try:
                 data = self._port.read(max(1, self._port.in_waiting))
             except (self._error, OSError) as exc:
-                raise SourceEnded(f"the serial port {self.name!r} stopped answering ({exc}); "
-                                  "the log is kept: start the same command again to go on") from None
+                raise SourceEnded(
+                    f"the serial port {self.name!r} stopped answering ({exc}); "
+                    "the log is kept: start the same command again to go on"
+                ) from None
             if data:
                 self._lines.feed(data)
             elif time.monotonic() >= deadline:
@@ -182,8 +184,9 @@ class FollowSource(Source):
         try:
             self._file = open(path, "rb")  # noqa: SIM115 - held open while recording
         except OSError as exc:
-            raise InputError(f"cannot open the file to follow ({exc.strerror or exc})", source=self.name,
-                             field="--follow") from None
+            raise InputError(
+                f"cannot open the file to follow ({exc.strerror or exc})", source=self.name, field="--follow"
+            ) from None
         if not from_start:
             self._file.seek(0, os.SEEK_END)
         self._lines = _Lines()

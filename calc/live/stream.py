@@ -17,7 +17,8 @@ import threading
 import time
 import urllib.error
 import urllib.request
-from typing import Any, Callable, Sequence
+from collections.abc import Callable, Sequence
+from typing import Any
 
 from calc.errors import CupcalError
 
@@ -51,9 +52,15 @@ class NotebookClient:
 
     def _post(self, path: str, body: dict[str, Any]) -> dict[str, Any]:
         request = urllib.request.Request(
-            self.base + path, data=json.dumps(body).encode("utf-8"), method="POST",
-            headers={"Content-Type": "application/json", "Accept": "application/json",
-                     "Authorization": f"Bearer {self.token}"})
+            self.base + path,
+            data=json.dumps(body).encode("utf-8"),
+            method="POST",
+            headers={
+                "Content-Type": "application/json",
+                "Accept": "application/json",
+                "Authorization": f"Bearer {self.token}",
+            },
+        )
         try:
             with urllib.request.urlopen(request, timeout=self.timeout_s) as response:  # noqa: S310
                 return json.loads(response.read() or b"{}")
@@ -96,9 +103,16 @@ def _error_text(exc: urllib.error.HTTPError) -> str:
 class Streamer:
     """Post readings from a background thread (see the module docstring)."""
 
-    def __init__(self, client: NotebookClient, run_text: str, client_key: str, *, target_u: float | None = None,
-                 on_live_id: Callable[[int], None] | None = None,
-                 on_message: Callable[[str], None] | None = None) -> None:
+    def __init__(
+        self,
+        client: NotebookClient,
+        run_text: str,
+        client_key: str,
+        *,
+        target_u: float | None = None,
+        on_live_id: Callable[[int], None] | None = None,
+        on_message: Callable[[str], None] | None = None,
+    ) -> None:
         self.client, self.run_text, self.client_key, self.target_u = client, run_text, client_key, target_u
         self.live_id: int | None = None
         self.state = "recording"
@@ -132,8 +146,9 @@ class Streamer:
         readings it already has, so only the missing ones are sent) and again after a 409.
         """
         if not self._synced or self.live_id is None:
-            self.live_id, self.acked, self.state = self.client.create_live_run(self.run_text, self.client_key,
-                                                                               self.target_u)
+            self.live_id, self.acked, self.state = self.client.create_live_run(
+                self.run_text, self.client_key, self.target_u
+            )
             self._synced = True
             self.on_live_id(self.live_id)
         return self.live_id
@@ -144,7 +159,7 @@ class Streamer:
             self.ensure_live_run()
             return True
         with self._wake:
-            pending = self.rows[self.acked + 1: self.acked + 1 + BATCH]
+            pending = self.rows[self.acked + 1 : self.acked + 1 + BATCH]
         if not pending:
             return False
         if self.state != "recording":  # finished or abandoned in the notebook meanwhile

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import SupportsFloat, cast
 
 from calc.errors import InputError
 from calc.refdata.reference import ReferenceValue, phi_L
@@ -95,7 +96,7 @@ def _get(c: object, key: str) -> object:
 
 def _finite(x: object) -> float | None:
     try:
-        v = float(x)  # type: ignore[arg-type]
+        v = float(cast(SupportsFloat, x))  # float() raises TypeError for the rest, caught below
     except (TypeError, ValueError):
         return None
     return v if math.isfinite(v) else None
@@ -116,7 +117,7 @@ def verdict(comparison: object) -> Verdict | None:
         return None
     unit = str(_get(ref, "unit") or "kJ/mol")
     molality = _get(ref, "molality")
-    state = "infinite dilution" if molality is None else f"{float(molality):g} mol/kg"  # type: ignore[arg-type]
+    state = "infinite dilution" if molality is None else f"{float(cast(SupportsFloat, molality)):g} mol/kg"
     adj, u_adj = _finite(_get(comparison, "adjusted_reference")), _finite(_get(comparison, "adjusted_u"))
     en_pub = _finite(_get(comparison, "En_published"))
     if adj is not None and u_adj is not None:
@@ -143,7 +144,7 @@ def verdict(comparison: object) -> Verdict | None:
 
 def _number(x: object, what: str) -> float:
     try:
-        v = float(x)  # type: ignore[arg-type]
+        v = float(cast(SupportsFloat, x))  # float() raises TypeError for the rest, caught below
     except (TypeError, ValueError):
         raise InputError(f"{what} must be a number, got {x!r}") from None
     if math.isnan(v) or math.isinf(v):

@@ -118,9 +118,12 @@ def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]
             short[i, j], u[i, j] = float(r["phi_L_sr"]), float(r["u_spread"])
         if np.isnan(short).any():
             raise InputError(f"{path}: the grid of {salt} has holes (expected every √m × t_C)")
-        table = _Table(RegularGridInterpolator((s, t), short, method="cubic"),
-                       RegularGridInterpolator((s, t), u, method="linear"),
-                       max(float(r["m"]) for r in mine), (float(t[0]), float(t[-1])))
+        table = _Table(
+            RegularGridInterpolator((s, t), short, method="cubic"),
+            RegularGridInterpolator((s, t), u, method="linear"),
+            max(float(r["m"]) for r in mine),
+            (float(t[0]), float(t[-1])),
+        )
         out[element_composition(salt)] = (source, table)
     return out
 

@@ -18,8 +18,7 @@ import molmass
 from calc import limits
 from calc.errors import InputError
 
-__all__ = ["HYDRATE_DOTS", "normalize", "molar_mass", "element_counts", "element_composition",
-           "split_hydrate"]
+__all__ = ["HYDRATE_DOTS", "normalize", "molar_mass", "element_counts", "element_composition", "split_hydrate"]
 
 #: The marks people write between a salt and its water of crystallisation: full stop, middle dot,
 #: bullet, bullet operator, dot operator and asterisk. molmass reads the full stop.
@@ -48,8 +47,11 @@ def _formula(formula: object, field: str | None, source: str | None) -> molmass.
         parsed = _parse(formula)
         parsed.composition()  # molmass parses lazily; reading the composition checks the formula
     except Exception as exc:  # molmass raises several types for bad formulas
-        raise InputError(f"cannot read the chemical formula '{formula}' ({exc.__class__.__name__}); "
-                         f"{_EXAMPLES}", field=field, source=source) from None
+        raise InputError(
+            f"cannot read the chemical formula '{formula}' ({exc.__class__.__name__}); {_EXAMPLES}",
+            field=field,
+            source=source,
+        ) from None
     return parsed
 
 
@@ -70,8 +72,9 @@ def molar_mass(formula: str, *, field: str | None = None, source: str | None = N
         When the formula cannot be read.
     """
     if isinstance(formula, str):
-        limits.require_size(len(formula), "formula_chars", what=f"the formula of {len(formula)} characters",
-                            field=field, source=source)
+        limits.require_size(
+            len(formula), "formula_chars", what=f"the formula of {len(formula)} characters", field=field, source=source
+        )
     parsed = _formula(formula, field, source)
     mass = float(parsed.mass)
     if not math.isfinite(mass) or mass <= 0:
@@ -86,15 +89,27 @@ def _check_size(formula: str, counts: dict[str, int], mass: float, field: str | 
     shown = limits.shorten(formula)
     for symbol, count in counts.items():
         if count > limits.get("formula_count"):
-            raise InputError(f"the formula '{shown}' has {_many(count)} atoms of {symbol}; at most "
-                             f"{limits.get('formula_count'):g} (limit formula_count)", field=field, source=source)
+            raise InputError(
+                f"the formula '{shown}' has {_many(count)} atoms of {symbol}; at most "
+                f"{limits.get('formula_count'):g} (limit formula_count)",
+                field=field,
+                source=source,
+            )
     total = sum(counts.values())
     if total > limits.get("formula_atoms"):
-        raise InputError(f"the formula '{shown}' has {_many(total)} atoms; at most "
-                         f"{limits.get('formula_atoms'):g} (limit formula_atoms)", field=field, source=source)
+        raise InputError(
+            f"the formula '{shown}' has {_many(total)} atoms; at most "
+            f"{limits.get('formula_atoms'):g} (limit formula_atoms)",
+            field=field,
+            source=source,
+        )
     if mass > limits.get("molar_mass"):
-        raise InputError(f"the formula '{shown}' has a molar mass of {mass:.4g} g/mol; at most "
-                         f"{limits.get('molar_mass'):g} g/mol (limit molar_mass)", field=field, source=source)
+        raise InputError(
+            f"the formula '{shown}' has a molar mass of {mass:.4g} g/mol; at most "
+            f"{limits.get('molar_mass'):g} g/mol (limit molar_mass)",
+            field=field,
+            source=source,
+        )
 
 
 def _many(n: int) -> str:
@@ -125,8 +140,9 @@ def split_hydrate(formula: str, *, field: str | None = None) -> tuple[str, int]:
     n_water = 0
     for part in parts[1:]:
         digits = part[: len(part) - len(part.lstrip("0123456789"))]
-        if part[len(digits):] != "H2O":
-            raise InputError(f"cannot read '{formula}': only water of crystallisation (e.g. '.5H2O') may "
-                             "follow the dot", field=field)
+        if part[len(digits) :] != "H2O":
+            raise InputError(
+                f"cannot read '{formula}': only water of crystallisation (e.g. '.5H2O') may follow the dot", field=field
+            )
         n_water += int(digits) if digits else 1
     return parts[0], n_water

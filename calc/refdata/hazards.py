@@ -14,6 +14,7 @@ import tomllib
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
+from typing import Any
 
 from calc.errors import InputError
 
@@ -46,14 +47,14 @@ def general_caution() -> str:
 
 
 @lru_cache(maxsize=1)
-def _data() -> tuple[dict, dict]:
+def _data() -> tuple[dict[str, Any], dict[str, Any]]:
     base = resources.files("calc.refdata") / "data"
     hazards = tomllib.loads((base / "hazards.toml").read_text(encoding="utf-8"))["substance"]
     ghs = tomllib.loads((base / "ghs.toml").read_text(encoding="utf-8"))
     return hazards, ghs
 
 
-def _key(formula: str) -> tuple | None:
+def _key(formula: str) -> tuple[tuple[str, int], ...] | None:
     from calc.refdata.formula import element_composition
 
     text = formula.strip()
@@ -83,10 +84,10 @@ def _name_index() -> dict[str, str]:
 
 
 @lru_cache(maxsize=1)
-def _composition_index() -> dict[tuple, str]:
+def _composition_index() -> dict[tuple[tuple[str, int], ...], str]:
     """Return the element composition of every formula-like name → data key (built only when a name misses)."""
     hazards, _ = _data()
-    index: dict[tuple, str] = {}
+    index: dict[tuple[tuple[str, int], ...], str] = {}
     for key, entry in hazards.items():
         for name in [key, *entry.get("aliases", [])]:
             if _STATE_RE.search(name) or " " in name.strip():

@@ -18,6 +18,7 @@ from calc.refdata.species import (
     T_REF_K,
     FormationEntry,
     Species,
+    SpeciesKey,
     citation,
     formation_enthalpy,
     formation_index,
@@ -162,10 +163,7 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
     """
     parts = _ARROW_RE.split(equation.strip())
     if len(parts) != 2:
-        raise InputError(
-            f"equation {equation!r} must have exactly one arrow ('->') between reactants "
-            "and products"
-        )
+        raise InputError(f"equation {equation!r} must have exactly one arrow ('->') between reactants and products")
     left = _parse_side(parts[0], "reactants", equation)
     right = _parse_side(parts[1], "products", equation)
     index = formation_index()
@@ -185,12 +183,12 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
     return result
 
 
-def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]], index: dict) -> None:
+def _check_balanced(
+    equation: str, signed: list[tuple[Fraction, Species, str]], index: dict[SpeciesKey, FormationEntry]
+) -> None:
     """Refuse unknown species and an equation not balanced in its elements or charge, naming each."""
     problems: list[str] = []
-    unknown = [
-        f"{text!r} ({unknown_species_hint(sp)})" for _, sp, text in signed if sp.key() not in index
-    ]
+    unknown = [f"{text!r} ({unknown_species_hint(sp)})" for _, sp, text in signed if sp.key() not in index]
     if unknown:
         problems.append("unknown species: " + "; ".join(unknown))
     left_n: dict[str, Fraction] = {}
@@ -214,7 +212,9 @@ def _check_balanced(equation: str, signed: list[tuple[Fraction, Species, str]], 
         raise InputError(f"equation {equation!r}: " + ". ".join(problems))
 
 
-def _at_298(signed: list[tuple[Fraction, Species, str]], index: dict) -> tuple[HessResult, list[str]]:
+def _at_298(
+    signed: list[tuple[Fraction, Species, str]], index: dict[SpeciesKey, FormationEntry]
+) -> tuple[HessResult, list[str]]:
     """Return the result at 298.15 K (with ΔrCp when every species has Cp°) and the species without Cp°."""
     terms: list[HessTerm] = []
     for coef, sp, _ in signed:
@@ -237,17 +237,29 @@ def _at_298(signed: list[tuple[Fraction, Species, str]], index: dict) -> tuple[H
     if missing_cp:
         dcp = dcp_u = None
     else:
-        dcp = sum(float(t.coefficient) * t.cp for t in terms) / 1000.0  # type: ignore[operator]
-        dcp_u = math.sqrt(
-            sum((float(t.coefficient) * _cp_u(index[parse_species(t.species).key()])) ** 2 for t in terms)
-        ) / 1000.0
+        dcp = sum(float(t.coefficient) * t.cp for t in terms if t.cp is not None) / 1000.0  # none is None here
+        dcp_u = (
+            math.sqrt(sum((float(t.coefficient) * _cp_u(index[parse_species(t.species).key()])) ** 2 for t in terms))
+            / 1000.0
+        )
     canonical = " -> ".join(
         " + ".join(f"{_fmt_coef(abs(c))}{index[sp.key()].display}" for c, sp, _ in signed if (c < 0) == is_left)
         for is_left in (True, False)
     )
-    return HessResult(equation=canonical, value=value, u=u, unit="kJ/mol", terms=terms,
-                      source="; ".join(citation(s) for s in source_ids), temperature_K=T_REF_K, value_298=value,
-                      u_298=u, delta_cp=dcp, delta_cp_u=dcp_u, notes=notes), missing_cp
+    return HessResult(
+        equation=canonical,
+        value=value,
+        u=u,
+        unit="kJ/mol",
+        terms=terms,
+        source="; ".join(citation(s) for s in source_ids),
+        temperature_K=T_REF_K,
+        value_298=value,
+        u_298=u,
+        delta_cp=dcp,
+        delta_cp_u=dcp_u,
+        notes=notes,
+    ), missing_cp
 
 
 def _kirchhoff(result: HessResult, T: float, missing_cp: list[str]) -> None:
@@ -259,10 +271,7 @@ def _kirchhoff(result: HessResult, T: float, missing_cp: list[str]) -> None:
         )
     dcp, dcp_u = result.delta_cp, result.delta_cp_u
     if dcp is None:
-        raise InputError(
-            f"no Kirchhoff correction to {T:.2f} K: the table has no Cp° for "
-            + ", ".join(missing_cp)
-        )
+        raise InputError(f"no Kirchhoff correction to {T:.2f} K: the table has no Cp° for " + ", ".join(missing_cp))
     dT = T - T_REF_K
     result.temperature_K = T
     result.value = result.value_298 + dcp * dT

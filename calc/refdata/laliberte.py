@@ -23,6 +23,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
+from typing import cast
 
 __all__ = ["LaliberteRow", "laliberte_rows", "density", "specific_heat", "water_density"]
 
@@ -65,18 +66,25 @@ def laliberte_rows() -> tuple[LaliberteRow, ...]:
         for cells in reader:
             cells = cells + [""] * (33 - len(cells))
             formula = cells[2].strip()
-            rows.append(LaliberteRow(
-                name=cells[0].strip(), formula="C12H22O11" if formula == "Sucrose" else formula,
-                cas=cells[1].strip(), density=_floats(cells[4:9]), density_range=_range(cells[9:12]),
-                cp=_floats(cells[23:29]), cp_range=_range(cells[29:32]),
-            ))
+            rows.append(
+                LaliberteRow(
+                    name=cells[0].strip(),
+                    formula="C12H22O11" if formula == "Sucrose" else formula,
+                    cas=cells[1].strip(),
+                    density=_floats(cells[4:9]),
+                    density_range=_range(cells[9:12]),
+                    cp=_floats(cells[23:29]),
+                    cp_range=_range(cells[29:32]),
+                )
+            )
     return tuple(rows)
 
 
 def water_density(t_c: float) -> float:
     """Return the density of pure water in kg/m³ by Laliberté & Cooper's equation (t in °C)."""
-    num = (((((-2.8054253e-10 * t_c + 1.0556302e-7) * t_c - 4.6170461e-5) * t_c - 0.0079870401) * t_c
-            + 16.945176) * t_c + 999.83952)
+    num = (
+        (((-2.8054253e-10 * t_c + 1.0556302e-7) * t_c - 4.6170461e-5) * t_c - 0.0079870401) * t_c + 16.945176
+    ) * t_c + 999.83952
     return num / (1.0 + 0.01687985 * t_c)
 
 
@@ -88,7 +96,7 @@ def _apparent_density(c: tuple[float, ...], t_c: float, w_solutes: float) -> flo
 def _apparent_cp(a: tuple[float, ...], t_c: float, w_solutes: float) -> float:
     a1, a2, a3, a4, a5, a6 = a
     alpha = a2 * t_c + a3 * math.exp(0.01 * t_c) + a4 * w_solutes
-    return 1000.0 * (a1 * math.exp(alpha) + a5 * w_solutes ** a6)
+    return cast(float, 1000.0 * (a1 * math.exp(alpha) + a5 * w_solutes**a6))
 
 
 def density(t_c: float, fractions: Mapping[LaliberteRow, float]) -> float:

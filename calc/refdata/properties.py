@@ -30,14 +30,28 @@ from __future__ import annotations
 
 import math
 from functools import lru_cache
+from typing import Any
 
 from calc.errors import InputError
 from calc.refdata import laliberte
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
-from calc.refdata.water import (GRID_FILE, GRID_NODES, IAPWS_MODEL, R_GAS, T_MAX_K, T_MIN_K,  # noqa: F401
-                                U_REL_WATER_CP, U_REL_WATER_DENSITY, ModelledProperty, _check_T, _iapws_direct,
-                                debye_huckel_slopes, water_density, water_dielectric_constant,
-                                water_specific_heat)
+from calc.refdata.water import (  # noqa: F401
+    GRID_FILE,
+    GRID_NODES,
+    IAPWS_MODEL,
+    R_GAS,
+    T_MAX_K,
+    T_MIN_K,
+    U_REL_WATER_CP,
+    U_REL_WATER_DENSITY,
+    ModelledProperty,
+    _check_T,
+    _iapws_direct,
+    debye_huckel_slopes,
+    water_density,
+    water_dielectric_constant,
+    water_specific_heat,
+)
 
 __all__ = [
     "ModelledProperty",
@@ -92,8 +106,9 @@ def _laliberte(kind: str, T_K: float, fractions: tuple[tuple[laliberte.Laliberte
         return math.nan
 
 
-def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],
-                    rows: dict[str, laliberte.LaliberteRow | None]) -> float:
+def _laliberte_call(
+    kind: str, T_K: float, mass_fractions: dict[str, float], rows: dict[str, laliberte.LaliberteRow | None]
+) -> float:
     fractions = []
     for formula in sorted(mass_fractions):
         row = rows[formula]
@@ -102,9 +117,7 @@ def _laliberte_call(kind: str, T_K: float, mass_fractions: dict[str, float],
     return _laliberte(kind, round(T_K, 2), tuple(fractions))
 
 
-def _fallback(
-    water: ModelledProperty, w_total: float, half_width: float, reason: str
-) -> ModelledProperty:
+def _fallback(water: ModelledProperty, w_total: float, half_width: float, reason: str) -> ModelledProperty:
     u_extra = water.value * half_width * w_total / math.sqrt(3.0)
     return ModelledProperty(
         water.value,
@@ -153,12 +166,15 @@ def solution_properties(
     rows = {f: _laliberte_row(f) for f in anhydrous}
     fractions = {f: m / total for f, m in anhydrous.items()}
     model = (T, w_solutes, fractions, rows)
-    return (_solution_value("density", model, U_REL_LALIBERTE_DENSITY, rho_w, FALLBACK_HALF_WIDTH_DENSITY),
-            _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP))
+    return (
+        _solution_value("density", model, U_REL_LALIBERTE_DENSITY, rho_w, FALLBACK_HALF_WIDTH_DENSITY),
+        _solution_value("heat capacity", model, U_REL_LALIBERTE_CP, cp_w, FALLBACK_HALF_WIDTH_CP),
+    )
 
 
-def _solution_value(quantity: str, model: tuple, u_rel: float, water: ModelledProperty,
-                    half_width: float) -> ModelledProperty:
+def _solution_value(
+    quantity: str, model: tuple[Any, ...], u_rel: float, water: ModelledProperty, half_width: float
+) -> ModelledProperty:
     """Return Laliberté's ``quantity`` (kg/m³ or J/(kg K), given in g/mL or J/(g K)), or the water fallback."""
     T, w_solutes, fractions, rows = model
     value, why = _laliberte_value(quantity, T, w_solutes, fractions, rows)
@@ -198,8 +214,9 @@ def _anhydrous(solutes: dict[str, float], water_mass_g: float) -> tuple[float, d
     return m_water, anhydrous
 
 
-def _laliberte_value(kind: str, T: float, w_solutes: float, fractions: dict[str, float],
-                     rows: dict[str, laliberte.LaliberteRow | None]) -> tuple[float, str | None]:
+def _laliberte_value(
+    kind: str, T: float, w_solutes: float, fractions: dict[str, float], rows: dict[str, laliberte.LaliberteRow | None]
+) -> tuple[float, str | None]:
     """Return the Laliberté density (kg/m3) or heat capacity (J/(kg K)) and None, else (nan, why not)."""
     t = T - 273.15
     missing = [f for f, r in rows.items() if r is None]
@@ -214,7 +231,10 @@ def _laliberte_value(kind: str, T: float, w_solutes: float, fractions: dict[str,
         if not (t_min <= t <= t_max):
             return math.nan, f"{t:.1f} degC is outside the Laliberté {kind} range of {f} ({t_min:g} to {t_max:g} degC)"
         if w_solutes > w_max:
-            return math.nan, f"solute mass fraction {w_solutes:.3f} exceeds the Laliberté {kind} range of {f} ({w_max:.3f})"
+            return (
+                math.nan,
+                f"solute mass fraction {w_solutes:.3f} exceeds the Laliberté {kind} range of {f} ({w_max:.3f})",
+            )
     value = _laliberte_call(kind, T, fractions, rows)
     if not math.isfinite(value):
         return math.nan, f"no finite Laliberté {kind} for " + ", ".join(fractions)

@@ -14,15 +14,17 @@ from __future__ import annotations
 
 import csv
 import tomllib
+from collections.abc import Iterable
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from calc.refdata.dilution import PhiL, phi_L
 from calc.errors import InputError
 from calc.kinds import REGISTRY
-from calc.refdata.hess import citation, formation_enthalpy, hess
+from calc.refdata.datafiles import open_data
+from calc.refdata.dilution import PhiL, phi_L
 from calc.refdata.formula import element_composition, molar_mass
+from calc.refdata.hess import citation, formation_enthalpy, hess
 from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
@@ -112,8 +114,7 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
 
 @lru_cache(maxsize=1)
 def _solution_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc.refdata") / "data" / "solution_enthalpies.csv"
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data("solution_enthalpies.csv") as fh:
         return tuple(csv.DictReader(fh))
 
 
@@ -234,7 +235,7 @@ def _base_species(base_formula: str) -> tuple[str, str] | None:
     return _species(_BASE_ALIASES.get(base, base), STRONG_BASES, "OH-(aq)", WEAK_BASES, "+")
 
 
-def _species(name: str, strong, strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
+def _species(name: str, strong: Iterable[str], strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
     """Match ``name`` against the strong ones (consuming ``strong_ion``), then the weak ones (formula → conjugate)."""
     if any(_same_formula(name, formula) for formula in strong):
         return strong_ion, ""

@@ -22,11 +22,19 @@ from functools import lru_cache
 from importlib import resources
 
 from calc.errors import InputError
+from calc.refdata.datafiles import open_data
 from calc.refdata.formula import element_composition, normalize
 
 __all__ = [
-    "T_REF_K", "FormationEntry", "Species", "citation", "formation_enthalpy", "formation_index",
-    "formation_table", "parse_species", "unknown_species_hint",
+    "T_REF_K",
+    "FormationEntry",
+    "Species",
+    "citation",
+    "formation_enthalpy",
+    "formation_index",
+    "formation_table",
+    "parse_species",
+    "unknown_species_hint",
 ]
 
 T_REF_K = 298.15
@@ -53,6 +61,10 @@ _STATE_ALIASES = {
 _STATE_WORDS = {"s": "solid", "l": "liquid", "g": "gas", "aq": "aqueous"}
 
 
+#: the lookup key of a species: (element composition, charge, state)
+SpeciesKey = tuple[tuple[tuple[str, int], ...], int, str]
+
+
 @dataclass(frozen=True)
 class Species:
     """A chemical species: neutral formula, charge and physical state (s, l, g, aq)."""
@@ -73,7 +85,7 @@ class Species:
                 text += ("^" if text[-1].isdigit() else "") + f"{mag}{sign}"
         return f"{text}({self.state})"
 
-    def key(self) -> tuple[tuple[tuple[str, int], ...], int, str]:
+    def key(self) -> SpeciesKey:
         """Return the lookup key (element composition, charge, state)."""
         return (element_composition(self.formula), self.charge, self.state)
 
@@ -131,11 +143,10 @@ def _u_from_digits(text: str) -> float:
 
 
 @lru_cache(maxsize=1)
-def _table() -> tuple[dict[tuple, FormationEntry], tuple[FormationEntry, ...]]:
-    path = resources.files("calc.refdata") / "data" / "formation_nbs1982.csv"
-    index: dict[tuple, FormationEntry] = {}
+def _table() -> tuple[dict[SpeciesKey, FormationEntry], tuple[FormationEntry, ...]]:
+    index: dict[SpeciesKey, FormationEntry] = {}
     rows: list[FormationEntry] = []
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data("formation_nbs1982.csv") as fh:
         for line_no, row in enumerate(csv.DictReader(fh), start=2):
             species = Species(row["formula"], int(row["charge"]), row["state"])
             raw = row["dfH_kJ_mol"]
@@ -147,9 +158,7 @@ def _table() -> tuple[dict[tuple, FormationEntry], tuple[FormationEntry, ...]]:
             else:
                 u = _u_from_digits(raw)
             cp = float(row["cp_J_mol_K"]) if row["cp_J_mol_K"].strip() else None
-            entry = FormationEntry(
-                species, row["name"], value, u, cp, row["source"], row["note"], row["cas"]
-            )
+            entry = FormationEntry(species, row["name"], value, u, cp, row["source"], row["note"], row["cas"])
             key = species.key()
             if key in index:
                 raise InputError(
@@ -167,7 +176,7 @@ def formation_table() -> tuple[FormationEntry, ...]:
     return _table()[1]
 
 
-def formation_index() -> dict[tuple, FormationEntry]:
+def formation_index() -> dict[SpeciesKey, FormationEntry]:
     """Return the table keyed by ``Species.key()`` (composition, charge, state)."""
     return _table()[0]
 
@@ -187,9 +196,7 @@ def _candidates(text: str) -> list[Species]:
         )
     state = _STATE_ALIASES.get(m.group("state").lower())
     if state is None:
-        raise InputError(
-            f"unknown state {m.group('state')!r} in {raw!r}: use s, l, g or aq"
-        )
+        raise InputError(f"unknown state {m.group('state')!r} in {raw!r}: use s, l, g or aq")
     body = normalize(m.group("body").replace(" ", ""))
     readings: list[tuple[str, int]] = []
     explicit = re.match(r"^(.+?)(?:\^|\[)(\d*)([+-])\]?$", body)
@@ -279,9 +286,7 @@ def unknown_species_hint(sp: Species) -> str:
     """Return why a species is not in the table, naming the forms of its formula that are."""
     comp = element_composition(sp.formula)
     others = [
-        e.display
-        for key, e in _table()[0].items()
-        if key[0] == comp and (key[1], key[2]) != (sp.charge, sp.state)
+        e.display for key, e in _table()[0].items() if key[0] == comp and (key[1], key[2]) != (sp.charge, sp.state)
     ]
     if others:
         return "not in the NBS 1982 table of cupcal; the table has " + ", ".join(others)

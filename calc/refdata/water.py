@@ -25,11 +25,23 @@ import math
 import warnings
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import cast
 
 from calc.errors import InputError
 
-__all__ = ["ModelledProperty", "water_density", "water_specific_heat", "water_dielectric_constant",
-           "debye_huckel_slopes", "T_MIN_K", "T_MAX_K", "R_GAS", "GRID_FILE", "GRID_NODES", "write_grid"]
+__all__ = [
+    "ModelledProperty",
+    "water_density",
+    "water_specific_heat",
+    "water_dielectric_constant",
+    "debye_huckel_slopes",
+    "T_MIN_K",
+    "T_MAX_K",
+    "R_GAS",
+    "GRID_FILE",
+    "GRID_NODES",
+    "write_grid",
+]
 
 IAPWS_MODEL = "IAPWS-95 (iapws package)"
 
@@ -74,13 +86,17 @@ class _WaterGrid:
 
     def _load(self) -> dict[int, tuple[float, float, float]]:
         import csv
-        from importlib import resources
+
+        from calc.refdata.datafiles import open_data
 
         nodes: dict[int, tuple[float, float, float]] = {}
-        with (resources.files("calc.refdata") / "data" / GRID_FILE).open(encoding="utf-8", newline="") as fh:
+        with open_data(GRID_FILE) as fh:
             for row in csv.DictReader(line for line in fh if not line.startswith("#")):
-                nodes[int(row["node"])] = (float(row["density_g_mL"]), float(row["cp_J_gK"]),
-                                           float(row["dielectric_constant"]))
+                nodes[int(row["node"])] = (
+                    float(row["density_g_mL"]),
+                    float(row["cp_J_gK"]),
+                    float(row["dielectric_constant"]),
+                )
         return nodes
 
     def _node(self, i: int) -> tuple[float, float, float]:
@@ -102,7 +118,8 @@ class _WaterGrid:
         w1 = (s + 1.0) * (s - 1.0) * (s - 2.0) / 2.0
         w2 = -(s + 1.0) * s * (s - 2.0) / 2.0
         w3 = (s + 1.0) * s * (s - 1.0) / 6.0
-        return tuple(w0 * a + w1 * b + w2 * c + w3 * d for a, b, c, d in zip(n0, n1, n2, n3))  # type: ignore[return-value]
+        rho, cp, eps = (w0 * a + w1 * b + w2 * c + w3 * d for a, b, c, d in zip(n0, n1, n2, n3))
+        return rho, cp, eps
 
 
 def _iapws_direct(T_K: float) -> tuple[float, float]:
@@ -131,9 +148,11 @@ def write_grid(path: str) -> None:
     import iapws
 
     with open(path, "w", encoding="utf-8", newline="\n") as fh:
-        fh.write(f"# IAPWS-95 liquid water at 0.101325 MPa (Wagner & Pruss 2002) and its static dielectric constant\n"
-                 f"# (IAPWS 1997 release), computed by the iapws package {iapws.__version__} on a 0.25 K grid;\n"
-                 "# written by `python -m calc.refdata.water`, checked against iapws by tests/calc/test_properties.py\n")
+        fh.write(
+            f"# IAPWS-95 liquid water at 0.101325 MPa (Wagner & Pruss 2002) and its static dielectric constant\n"
+            f"# (IAPWS 1997 release), computed by the iapws package {iapws.__version__} on a 0.25 K grid;\n"
+            "# written by `python -m calc.refdata.water`, checked against iapws by tests/calc/test_properties.py\n"
+        )
         fh.write("node,T_K,density_g_mL,cp_J_gK,dielectric_constant\n")
         for i in range(GRID_NODES[0], GRID_NODES[1] + 1):
             rho, cp, eps = iapws_node(i)
@@ -192,10 +211,9 @@ def _a_phi(T_K: float) -> float:
     # density from the interpolated IAPWS-95 grid (a direct IAPWS-95 call costs ~7 ms)
     rho = water_density(T_K).value * 1000.0  # kg/m3
     eps = water_dielectric_constant(T_K)
-    return (
-        math.sqrt(2.0 * math.pi * _N_A * rho)
-        * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5
-        / 3.0
+    # float ** float is typed Any (a negative base gives a complex); the base is positive here
+    return cast(
+        float, math.sqrt(2.0 * math.pi * _N_A * rho) * (_E**2 / (4.0 * math.pi * _EPS0 * eps * _K_B * T_K)) ** 1.5 / 3.0
     )
 
 

@@ -10,23 +10,13 @@ difference of two :class:`~calc.simulation.model.LumpedModel` runs with and with
 from __future__ import annotations
 
 import math
-from typing import Any
-from typing import Unpack
+from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.kinds import WATER_CP
-from calc.simulation.kinds import WATER_DENSITY
-from calc.simulation.kinds import _release_kw
-from calc.simulation.kinds import _solid_in_liquid
-from calc.simulation.kinds import formula_molar_mass
-from calc.simulation.model import LumpedModel
-from calc.simulation.model import read_probe
-from calc.simulation.run import RunContext
-from calc.simulation.run import RunOptions
-from calc.simulation.run import SimTruth
-from calc.simulation.run import SimulatedRun
-from calc.simulation.run import _decimals
+from calc.simulation.kinds import WATER_CP, WATER_DENSITY, _release_kw, _solid_in_liquid, formula_molar_mass
+from calc.simulation.model import LumpedModel, read_probe
+from calc.simulation.run import RunContext, RunOptions, SimTruth, SimulatedRun, _decimals
 
 __all__ = ["simulate_dissolution_with_calibration"]
 
@@ -34,11 +24,23 @@ KIND = "dissolution-with-calibration"
 
 
 def simulate_dissolution_with_calibration(
-        rng: np.random.Generator | int | None, *, formula: str = "KCl", molar_enthalpy_kJ_mol: float = 17.2,
-        solute_mass_g: float = 3.7, water_volume_mL: float = 100.0, tau_r: float = 60.0,
-        release: str = "first-order", t_d: float | None = None, voltage_V: float = 5.0, current_A: float = 1.0,
-        duration_s: float = 120.0, gap_s: float = 600.0, tail_s: float = 600.0, pulses: str = "after",
-        **options: Unpack[RunOptions]) -> SimulatedRun:
+    rng: np.random.Generator | int | None,
+    *,
+    formula: str = "KCl",
+    molar_enthalpy_kJ_mol: float = 17.2,
+    solute_mass_g: float = 3.7,
+    water_volume_mL: float = 100.0,
+    tau_r: float = 60.0,
+    release: str = "first-order",
+    t_d: float | None = None,
+    voltage_V: float = 5.0,
+    current_A: float = 1.0,
+    duration_s: float = 120.0,
+    gap_s: float = 600.0,
+    tail_s: float = 600.0,
+    pulses: str = "after",
+    **options: Unpack[RunOptions],
+) -> SimulatedRun:
     """Simulate dissolving a salt and heater pulses ``gap_s`` apart in one log.
 
     ``pulses``: "after" (the dissolution at ``fore_s``, then the pulse), "before" (the pulse at
@@ -55,17 +57,33 @@ def simulate_dissolution_with_calibration(
     first = pulses in ("before", "both")
     options = {**options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
     ctx = RunContext(KIND, rng, options)
-    s = _solid_in_liquid(ctx, table="water", volume=water_volume_mL, density=WATER_DENSITY, cp=WATER_CP,
-                         solid=formula, mass=solute_mass_g, solid_cp=0.8, mixture_cp=None)
+    s = _solid_in_liquid(
+        ctx,
+        table="water",
+        volume=water_volume_mL,
+        density=WATER_DENSITY,
+        cp=WATER_CP,
+        solid=formula,
+        mass=solute_mass_g,
+        solid_cp=0.8,
+        mixture_cp=None,
+    )
     n = s["m_s"] / formula_molar_mass(formula, "solute.formula")
     heat = -n * molar_enthalpy_kJ_mol * 1000.0
     g_before, g_after = ctx.conductances(s["c_final"])
-    model = ctx.model(c_before=s["c_before"], g_before=g_before, c_after=s["c_final"], g_after=g_after,
-                      heat_J=heat, **_release_kw(release, tau_r, t_d))
+    model = ctx.model(
+        c_before=s["c_before"],
+        g_before=g_before,
+        c_after=s["c_final"],
+        g_after=g_after,
+        heat_J=heat,
+        **_release_kw(release, tau_r, t_d),
+    )
     o = ctx.o
     v, i, dur = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A"), ctx.true(duration_s, "duration_s")
     starts = ([("before", round(fore0, 1))] if first else []) + (
-        [("after", round(model.t_m + gap_s, 1))] if pulses in ("after", "both") else [])
+        [("after", round(model.t_m + gap_s, 1))] if pulses in ("after", "both") else []
+    )
     end = max(t for _w, t in starts) + dur if starts[-1][0] == "after" else model.t_m + gap_s
     count = int(math.floor((end + tail_s) / o["dt"] + 1e-9)) + 1
     times = np.round(np.arange(count) * o["dt"], 9)
@@ -75,39 +93,81 @@ def simulate_dissolution_with_calibration(
     body.pop("mixture", None)  # the heater measures the heat capacity: no solution model is stated
     for j, (when, t_h) in enumerate(starts):
         c, g = (s["c_before"], g_before) if when == "before" else (s["c_final"], g_after)
-        pulse = {"t_initial": o["t_initial_C"], "t_env": model.t_env, "t_m": t_h, "c_before": c, "g_before": g,
-                 "c_after": c, "g_after": g, "tau_s": model.tau_s, "p_stir": model.p_stir,
-                 "room_drift": model.room_drift}
+        pulse = {
+            "t_initial": o["t_initial_C"],
+            "t_env": model.t_env,
+            "t_m": t_h,
+            "c_before": c,
+            "g_before": g,
+            "c_after": c,
+            "g_after": g,
+            "tau_s": model.tau_s,
+            "p_stir": model.p_stir,
+            "room_drift": model.room_drift,
+        }
         c1, p1 = LumpedModel(heat_J=v * i * dur, release="finite", t_d=dur, **pulse).solve(times)
         c0, p0 = LumpedModel(**pulse).solve(times)
         contents, probe = contents + (c1 - c0), probe + (p1 - p0)
         name = "heater" if j == 0 else "heater_2"
-        body[name] = {"voltage": ctx.state(f"{name}.voltage", v, "voltage_V", "V"),
-                      "current": ctx.state(f"{name}.current", i, "current_A", "A"),
-                      "duration": ctx.state(f"{name}.duration", dur, "duration_s", "s"),
-                      "start": f"{t_h:.1f} ± 0.5 s"}
+        body[name] = {
+            "voltage": ctx.state(f"{name}.voltage", v, "voltage_V", "V"),
+            "current": ctx.state(f"{name}.current", i, "current_A", "A"),
+            "duration": ctx.state(f"{name}.duration", dur, "duration_s", "s"),
+            "start": f"{t_h:.1f} ± 0.5 s",
+        }
     ctx.inputs["c_before_J_K"] = s["c_before"]
-    readings = read_probe(ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"],
-                          gain=o["gain"], offset=o["offset_K"])
+    readings = read_probe(
+        ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"], gain=o["gain"], offset=o["offset_K"]
+    )
     u_tm = ctx.u["mixing_time_s"]
     d = _decimals(u_tm)
     stated_tm = model.t_m + (ctx.rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)
-    run: dict[str, Any] = {"kind": KIND, "readings": "readings.csv",
-                           "mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s",
-                           "info": {"title": "simulated dissolution with an in-situ heater calibration",
-                                    "notes": "synthetic data with a known truth (calc.simulation.insitu)"},
-                           "calorimeter": {"name": o["calorimeter_name"]},
-                           "thermometer": {"resolution": f"{o['resolution']:g} K"}, **body}
+    run: dict[str, Any] = {
+        "kind": KIND,
+        "readings": "readings.csv",
+        "mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s",
+        "info": {
+            "title": "simulated dissolution with an in-situ heater calibration",
+            "notes": "synthetic data with a known truth (calc.simulation.insitu)",
+        },
+        "calorimeter": {"name": o["calorimeter_name"]},
+        "thermometer": {"resolution": f"{o['resolution']:g} K"},
+        **body,
+    }
     t_a = model.contents_before_mixing()
     truth = SimTruth(
-        kind=KIND, delta_t_adiabatic=heat / s["c_final"], heat_J=heat, molar_enthalpy_kJ_mol=molar_enthalpy_kJ_mol,
-        calorimeter_heat_capacity_J_K=s["c_cal"], heat_capacity_final_J_K=s["c_final"], reference="T(t_m)",
-        reference_temperature_C=t_a, t_contents_at_mixing_C=t_a, t_mix_C=None,
-        delta_t_from_contents=heat / s["c_final"], extent_mol=n, t_m_s=model.t_m,
-        mixing_time_stated_s=round(stated_tm, d), t_env_C=model.t_env, t_inf_C=model.t_env,
-        k_before_per_s=g_before / s["c_before"], k_per_s=g_after / s["c_final"], tau_h_s=o["tau_h"],
-        tau_s_s=model.tau_s, release=model.release, tau_r_s=model.tau_r if model.release == "first-order" else None,
-        t_d_s=model.t_d if model.release in ("finite", "sphere") else None, p_stir_W=model.p_stir,
-        noise_K=o["noise"], phi=o["phi"], resolution_K=o["resolution"], gain=o["gain"], offset_K=o["offset_K"],
-        room_drift_K_per_h=o["room_drift_K_per_h"], seed=ctx.seed, inputs=dict(ctx.inputs), model=model)
+        kind=KIND,
+        delta_t_adiabatic=heat / s["c_final"],
+        heat_J=heat,
+        molar_enthalpy_kJ_mol=molar_enthalpy_kJ_mol,
+        calorimeter_heat_capacity_J_K=s["c_cal"],
+        heat_capacity_final_J_K=s["c_final"],
+        reference="T(t_m)",
+        reference_temperature_C=t_a,
+        t_contents_at_mixing_C=t_a,
+        t_mix_C=None,
+        delta_t_from_contents=heat / s["c_final"],
+        extent_mol=n,
+        t_m_s=model.t_m,
+        mixing_time_stated_s=round(stated_tm, d),
+        t_env_C=model.t_env,
+        t_inf_C=model.t_env,
+        k_before_per_s=g_before / s["c_before"],
+        k_per_s=g_after / s["c_final"],
+        tau_h_s=o["tau_h"],
+        tau_s_s=model.tau_s,
+        release=model.release,
+        tau_r_s=model.tau_r if model.release == "first-order" else None,
+        t_d_s=model.t_d if model.release in ("finite", "sphere") else None,
+        p_stir_W=model.p_stir,
+        noise_K=o["noise"],
+        phi=o["phi"],
+        resolution_K=o["resolution"],
+        gain=o["gain"],
+        offset_K=o["offset_K"],
+        room_drift_K_per_h=o["room_drift_K_per_h"],
+        seed=ctx.seed,
+        inputs=dict(ctx.inputs),
+        model=model,
+    )
     return SimulatedRun(times, readings, run, truth, contents, probe)

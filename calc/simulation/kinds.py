@@ -9,15 +9,12 @@ written out once, in :mod:`calc.simulation.simulator`.
 from __future__ import annotations
 
 from dataclasses import replace
-from typing import Any
-from typing import Unpack
+from typing import Any, Unpack
 
 import numpy as np
 
 from calc.refdata.formula import molar_mass
-from calc.simulation.run import RunContext
-from calc.simulation.run import RunOptions
-from calc.simulation.run import SimulatedRun
+from calc.simulation.run import RunContext, RunOptions, SimulatedRun
 
 __all__ = [
     "WATER_DENSITY",

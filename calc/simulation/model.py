@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 from scipy.integrate import solve_ivp
@@ -99,8 +100,7 @@ class LumpedModel:
         """Return (start, end, after mixing, release on) pieces; the first after-piece starts with the jump."""
         pieces = [(0.0, self.t_m, False, False)]
         if self.release in ("finite", "sphere"):
-            return pieces + [(self.t_m, self.t_m + self.t_d, True, True),
-                             (self.t_m + self.t_d, math.inf, True, False)]
+            return pieces + [(self.t_m, self.t_m + self.t_d, True, True), (self.t_m + self.t_d, math.inf, True, False)]
         return pieces + [(self.t_m, math.inf, True, self.release == "first-order")]
 
     def _matrix(self, after: bool, active: bool) -> np.ndarray:
@@ -151,8 +151,9 @@ class LumpedModel:
         return out[:, 0], out[:, 1]
 
     @staticmethod
-    def _advance_exact(a: np.ndarray, z: np.ndarray, start: float, ts: np.ndarray, stop: float,
-                       out: np.ndarray, sel: np.ndarray) -> np.ndarray:
+    def _advance_exact(
+        a: np.ndarray, z: np.ndarray, start: float, ts: np.ndarray, stop: float, out: np.ndarray, sel: np.ndarray
+    ) -> np.ndarray:
         cache: dict[float, np.ndarray] = {}
 
         def step(h: float) -> np.ndarray:
@@ -167,8 +168,17 @@ class LumpedModel:
             now, out[i] = t, z[:2]
         return step(stop - now) @ z if stop > now else z
 
-    def _advance_ode(self, after: bool, active: bool, z: np.ndarray, start: float, ts: np.ndarray,
-                     stop: float, out: np.ndarray, sel: np.ndarray) -> np.ndarray:
+    def _advance_ode(
+        self,
+        after: bool,
+        active: bool,
+        z: np.ndarray,
+        start: float,
+        ts: np.ndarray,
+        stop: float,
+        out: np.ndarray,
+        sel: np.ndarray,
+    ) -> np.ndarray:
         c, g = (self.c_after, self.g_after) if after else (self.c_before, self.g_before)
         k = g / c
         fast = [x for x in (self.tau_s, self.tau_r if self.release == "first-order" else self.t_d) if x > 0]
@@ -183,16 +193,26 @@ class LumpedModel:
         if stop <= start:
             out[sel] = z[:2]
             return z
-        sol = solve_ivp(rhs, (start, stop), z[:2], method="DOP853", t_eval=t_eval, rtol=1e-12,
-                        atol=1e-12, max_step=max_step)
+        sol = solve_ivp(
+            rhs, (start, stop), z[:2], method="DOP853", t_eval=t_eval, rtol=1e-12, atol=1e-12, max_step=max_step
+        )
         out[sel] = sol.y[:, : sel.size].T
         z = z.copy()
         z[:2] = sol.y[:, -1]
         return z
 
 
-def first_order_release_curve(u: np.ndarray, *, t_inf: float, k: float, t_start: float, delta_t_ad: float,
-                              tau_r: float, tau_s: float, probe_start: float) -> tuple[np.ndarray, np.ndarray]:
+def first_order_release_curve(
+    u: np.ndarray,
+    *,
+    t_inf: float,
+    k: float,
+    t_start: float,
+    delta_t_ad: float,
+    tau_r: float,
+    tau_s: float,
+    probe_start: float,
+) -> tuple[np.ndarray, np.ndarray]:
     """Return (T, Ts) after t_m from the closed form of docs/methods.md §2.4 (u = t − t_m ≥ 0, k ≠ 1/τ_r ≠ 1/τ_s)."""
     u = np.asarray(u, dtype=float)
     kr, s = 1 / tau_r, 1 / tau_s
@@ -211,13 +231,21 @@ def ar1_noise(rng: np.random.Generator, n: int, sigma: float, phi: float) -> np.
     eta = rng.standard_normal(n) * sigma * math.sqrt(1 - phi**2)
     if n:
         eta[0] /= math.sqrt(1 - phi**2)  # stationary start: e_0 ~ N(0, sigma²)
-    return lfilter([1.0], [1.0, -phi], eta)
+    return cast(np.ndarray, lfilter([1.0], [1.0, -phi], eta))
 
 
-def read_probe(rng: np.random.Generator, probe: np.ndarray, *, noise: float, phi: float, resolution: float,
-               gain: float = 0.0, offset: float = 0.0) -> np.ndarray:
+def read_probe(
+    rng: np.random.Generator,
+    probe: np.ndarray,
+    *,
+    noise: float,
+    phi: float,
+    resolution: float,
+    gain: float = 0.0,
+    offset: float = 0.0,
+) -> np.ndarray:
     """Return quantised readings q·round((Ts(1+g) + b + e)/q) of the probe temperatures."""
     if not resolution > 0:
         raise InputError(f"resolution must be > 0 K, got {resolution}", field="thermometer.resolution")
     x = probe * (1 + gain) + offset + ar1_noise(rng, probe.size, noise, phi)
-    return resolution * np.round(x / resolution)
+    return cast(np.ndarray, resolution * np.round(x / resolution))

@@ -14,14 +14,21 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulation.scenarios import random_scenario
 from calc.simulation.run import SimulatedRun
+from calc.simulation.scenarios import random_scenario
 
 __all__ = ["realistic_scenario"]
 
 
-def realistic_scenario(kind: str, rng: np.random.Generator | int | None, *, resolution: float,
-                       mixing_given: bool, artefacts: bool = True, longer_s: float = 0.0) -> SimulatedRun:
+def realistic_scenario(
+    kind: str,
+    rng: np.random.Generator | int | None,
+    *,
+    resolution: float,
+    mixing_given: bool,
+    artefacts: bool = True,
+    longer_s: float = 0.0,
+) -> SimulatedRun:
     """Simulate one run of ``kind`` at thermometer ``resolution`` (K) with bench artefacts.
 
     ``artefacts=False`` gives a near noise-free log (noise 0.0002 K, no spikes, no drift, no
@@ -30,13 +37,18 @@ def realistic_scenario(kind: str, rng: np.random.Generator | int | None, *, reso
     """
     gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
     uni = gen.uniform
-    extra: dict[str, Any] = {"resolution": resolution, "omit_mixing_time": not mixing_given,
-                             "fore_s": uni(60, 300)}
+    extra: dict[str, Any] = {"resolution": resolution, "omit_mixing_time": not mixing_given, "fore_s": uni(60, 300)}
     if artefacts:
         extra.update(
-            noise=uni(0.001, 0.02), stir_tau_s=uni(5, 30) if uni() < 0.5 else 0.0, phi=uni(0, 0.6),
-            room_drift_K_per_h=uni(-1, 1), spikes=int(gen.integers(0, 4)), spike_K=uni(0.1, 2.0),
-            drop_fraction=uni(0, 0.05) if uni() < 0.5 else 0.0, jitter_s=uni(0, 0.3) if uni() < 0.5 else 0.0)
+            noise=uni(0.001, 0.02),
+            stir_tau_s=uni(5, 30) if uni() < 0.5 else 0.0,
+            phi=uni(0, 0.6),
+            room_drift_K_per_h=uni(-1, 1),
+            spikes=int(gen.integers(0, 4)),
+            spike_K=uni(0.1, 2.0),
+            drop_fraction=uni(0, 0.05) if uni() < 0.5 else 0.0,
+            jitter_s=uni(0, 0.3) if uni() < 0.5 else 0.0,
+        )
         if uni() < 0.1:
             extra["after_add_s"] = uni(1800, 9000)  # long logs, up to about three hours
     else:

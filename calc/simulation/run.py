@@ -11,19 +11,16 @@ from __future__ import annotations
 
 import json
 import math
-from dataclasses import dataclass
-from dataclasses import field
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 from decimal import Decimal
 from pathlib import Path
-from typing import Any
-from typing import Mapping
-from typing import TypedDict
+from typing import Any, TypedDict
 
 import numpy as np
 
 from calc.errors import InputError
-from calc.simulation.model import LumpedModel
-from calc.simulation.model import read_probe
+from calc.simulation.model import LumpedModel, read_probe
 
 __all__ = [
     "DEFAULT_UNCERTAINTIES",

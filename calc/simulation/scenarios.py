@@ -3,18 +3,20 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
 from calc.errors import InputError
 from calc.kinds import REGISTRY
-from calc.simulation.kinds import formula_molar_mass
-from calc.simulation.kinds import simulate_dissolution
-from calc.simulation.kinds import simulate_electrical_calibration
-from calc.simulation.kinds import simulate_mixing_calibration
-from calc.simulation.kinds import simulate_neutralization
-from calc.simulation.kinds import simulate_reaction
+from calc.simulation.kinds import (
+    formula_molar_mass,
+    simulate_dissolution,
+    simulate_electrical_calibration,
+    simulate_mixing_calibration,
+    simulate_neutralization,
+    simulate_reaction,
+)
 from calc.simulation.run import SimulatedRun
 
 __all__ = ["random_scenario"]
@@ -69,7 +71,7 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
     if draw is None:
         raise InputError(f"unknown kind {kind!r}; expected one of "
                          f"{', '.join(k.name for k in REGISTRY.values() if k.has('scenario'))}", field="kind")
-    return draw(Draw(gen, opts, release, after_add, salt_forced, tau_forced))
+    return cast(SimulatedRun, draw(Draw(gen, opts, release, after_add, salt_forced, tau_forced)))
 
 
 @dataclass(frozen=True)
@@ -85,7 +87,7 @@ class Draw:
 
     def uni(self, *args: float) -> float:
         """Return one uniform draw (no arguments: on [0, 1))."""
-        return self.gen.uniform(*args)
+        return cast(float, self.gen.uniform(*args))
 
     def pick_release(self) -> str:
         """Return the release model asked for, else first-order (70 %) or a shrinking sphere."""
@@ -93,11 +95,11 @@ class Draw:
 
     def after(self, slow: float) -> float:
         """Return the log's length after the change: 10 × the slowest time, 5 τ_s and 5–15 min more."""
-        return 10 * slow + 5 * self.opts["tau_s"] + self.uni(300, 900) + self.after_add
+        return cast(float, 10 * slow + 5 * self.opts["tau_s"] + self.uni(300, 900) + self.after_add)
 
     def c_guess(self, vol: float) -> float:
         """Return a rough heat capacity (J/K), only to size the sample or the heater pulse."""
-        return vol * 4.18 + self.opts["c_cal"]
+        return cast(float, vol * 4.18 + self.opts["c_cal"])
 
 
 # ------------------------------------------------------------------ the kinds' ``scenario`` hooks

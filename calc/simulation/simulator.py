@@ -44,24 +44,24 @@ lumped model, its closed form, the noise), :mod:`calc.simulation.run` (truth, op
 
 from __future__ import annotations
 
+from calc.simulation.kinds import (
+    WATER_CP,  # noqa: F401  (importable from here, not in __all__)
+    WATER_DENSITY,  # noqa: F401
+    simulate_dissolution,
+    simulate_electrical_calibration,
+    simulate_mixing_calibration,
+    simulate_neutralization,
+    simulate_reaction,
+)
+from calc.simulation.model import (
+    RELEASES,  # noqa: F401
+    LumpedModel,
+    ar1_noise,
+    first_order_release_curve,
+    read_probe,
+)
+from calc.simulation.run import DEFAULT_UNCERTAINTIES, RunOptions, SimTruth, SimulatedRun, write_run
 from calc.simulation.scenarios import random_scenario
-from calc.simulation.kinds import WATER_CP  # noqa: F401  (importable from here, not in __all__)
-from calc.simulation.kinds import WATER_DENSITY  # noqa: F401
-from calc.simulation.kinds import simulate_dissolution
-from calc.simulation.kinds import simulate_electrical_calibration
-from calc.simulation.kinds import simulate_mixing_calibration
-from calc.simulation.kinds import simulate_neutralization
-from calc.simulation.kinds import simulate_reaction
-from calc.simulation.model import RELEASES  # noqa: F401
-from calc.simulation.model import LumpedModel
-from calc.simulation.model import ar1_noise
-from calc.simulation.model import first_order_release_curve
-from calc.simulation.model import read_probe
-from calc.simulation.run import DEFAULT_UNCERTAINTIES
-from calc.simulation.run import RunOptions
-from calc.simulation.run import SimTruth
-from calc.simulation.run import SimulatedRun
-from calc.simulation.run import write_run
 
 __all__ = [
     "LumpedModel",

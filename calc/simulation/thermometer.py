@@ -17,8 +17,9 @@ from calc.simulation.run import SimulatedRun, write_run
 __all__ = ["simulated_thermometer", "run_file_text", "truth_line"]
 
 
-def simulated_thermometer(kind: str, seed: int | None, profile: DeviceProfile, *, speed: float = 1.0,
-                          garble: float = 0.0) -> tuple[SimulatedRun, SimThermometer]:
+def simulated_thermometer(
+    kind: str, seed: int | None, profile: DeviceProfile, *, speed: float = 1.0, garble: float = 0.0
+) -> tuple[SimulatedRun, SimThermometer]:
     """Simulate one ``kind`` run with the bench's artefacts at 0.01 K resolution; return it and its player."""
     sim = realistic_scenario(kind, seed, resolution=0.01, mixing_given=True)
     return sim, SimThermometer(sim.time_s, sim.reading_C, profile, speed=speed, garble=garble, seed=seed)
@@ -34,6 +35,9 @@ def run_file_text(sim: Any, log_name: str) -> str:
 def truth_line(sim: Any) -> str:
     """Return the simulated run's true ΔT_ad and main result, in one line."""
     t = sim.truth
-    value = (f"ΔH = {t.molar_enthalpy_kJ_mol:.3f} kJ/mol" if t.molar_enthalpy_kJ_mol is not None
-             else f"C_cal = {t.calorimeter_heat_capacity_J_K:.2f} J/K")
+    value = (
+        f"ΔH = {t.molar_enthalpy_kJ_mol:.3f} kJ/mol"
+        if t.molar_enthalpy_kJ_mol is not None
+        else f"C_cal = {t.calorimeter_heat_capacity_J_K:.2f} J/K"
+    )
     return f"simulated truth: ΔT_ad = {t.delta_t_adiabatic:.4f} K, {value}"

@@ -45,9 +45,16 @@ class Pooled:
 
     def as_dict(self) -> dict[str, object]:
         """Return the pool as JSON-ready data."""
-        return {"value": self.value, "u": self.u, "members": list(self.members), "excluded": list(self.excluded),
-                "chi2": self.chi2, "dof": self.dof, "birge": self.birge,
-                "limit": None if math.isnan(self.limit) else self.limit}
+        return {
+            "value": self.value,
+            "u": self.u,
+            "members": list(self.members),
+            "excluded": list(self.excluded),
+            "chi2": self.chi2,
+            "dof": self.dof,
+            "birge": self.birge,
+            "limit": None if math.isnan(self.limit) else self.limit,
+        }
 
 
 def weighted_mean(values: Sequence[float], uncertainties: Sequence[float]) -> tuple[float, float, float]:
@@ -68,8 +75,10 @@ def pool(candidates: Sequence[tuple[int, float, float]], level: float = DEFAULT_
         raise InputError("no calibration to pool", field="calibrations")
     for key, x, u in candidates:
         if not (math.isfinite(x) and math.isfinite(u) and u > 0):
-            raise InputError(f"calibration {key}: expected a finite value with a positive standard uncertainty, "
-                             f"got {x!r} ± {u!r}", field="calibrations")
+            raise InputError(
+                f"calibration {key}: expected a finite value with a positive standard uncertainty, got {x!r} ± {u!r}",
+                field="calibrations",
+            )
     kept = list(candidates)
     excluded: list[int] = []
     while True:

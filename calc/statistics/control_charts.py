@@ -176,7 +176,7 @@ def individuals_limits(baseline: Sequence[float] | np.ndarray) -> ControlLimits:
         raise InputError("control-chart baseline: consecutive results never differ, so no limits can be set")
     c = float(x.mean())
     s = mr_bar / D2
-    warnings = ()
+    warnings: tuple[str, ...] = ()
     if x.size < BASELINE_ADVISED:
         warnings = (f"limits from {x.size} baseline points; about {BASELINE_ADVISED} in-control points are advised",)
     return ControlLimits(

@@ -278,9 +278,22 @@ def iso5725(cells: Sequence[Sequence[float]]) -> Precision:
         pv = 0.0 if s_d2 > 0 else math.nan
     sds = tuple(float(c.std(ddof=1)) if c.size > 1 else math.nan for c in cs)
     return Precision(
-        mean=grand, s_r=s_r, s_L=s_L, s_R=s_R, r=LIMIT_FACTOR * s_r, R=LIMIT_FACTOR * s_R, p=p,
-        n_bar=n_bar, n_total=int(N), s_d=math.sqrt(s_d2), dof_r=dof_r, F=F, p_value=pv,
-        cell_means=tuple(float(m) for m in means), cell_sds=sds, cell_sizes=tuple(int(k) for k in n),
+        mean=grand,
+        s_r=s_r,
+        s_L=s_L,
+        s_R=s_R,
+        r=LIMIT_FACTOR * s_r,
+        R=LIMIT_FACTOR * s_R,
+        p=p,
+        n_bar=n_bar,
+        n_total=int(N),
+        s_d=math.sqrt(s_d2),
+        dof_r=dof_r,
+        F=F,
+        p_value=pv,
+        cell_means=tuple(float(m) for m in means),
+        cell_sds=sds,
+        cell_sizes=tuple(int(k) for k in n),
     )
 
 

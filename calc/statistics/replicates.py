@@ -28,8 +28,8 @@ import numpy as np
 from scipy import stats as sps
 
 from calc.errors import InputError
-from calc.uncertainty.gum import coverage_factor
 from calc.statistics.precision import finite_series
+from calc.uncertainty.gum import coverage_factor
 
 __all__ = [
     "SeriesSummary",

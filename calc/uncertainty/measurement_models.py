@@ -18,19 +18,41 @@ from typing import Any
 
 from calc.deltat.base import DeltaT
 from calc.errors import InputError
-from calc.uncertainty.gum import Input, xmin
 from calc.io.quantities import Measured
-from calc.refdata.formula import molar_mass
 from calc.io.runfile import RunSpec
 from calc.kinds import get_kind
+from calc.refdata.formula import molar_mass
+from calc.uncertainty.gum import Input, xmin
 
-__all__ = ["ModelSpec", "RunProperties", "build_model", "dissolution_model", "neutralization_model", "electrical_model",
-           "mixing_model", "reaction_model", "EQUIVALENTS"]
+__all__ = [
+    "ModelSpec",
+    "RunProperties",
+    "build_model",
+    "dissolution_model",
+    "neutralization_model",
+    "electrical_model",
+    "mixing_model",
+    "reaction_model",
+    "EQUIVALENTS",
+]
 
 #: H⁺ or OH⁻ per formula unit of common acids and bases (common practice, no source).
 EQUIVALENTS: dict[str, int] = {
-    "HCl": 1, "HBr": 1, "HI": 1, "HNO3": 1, "HClO4": 1, "H2SO4": 2, "CH3COOH": 1, "HCOOH": 1,
-    "NaOH": 1, "KOH": 1, "LiOH": 1, "NH3": 1, "Ba(OH)2": 2, "Ca(OH)2": 2, "Sr(OH)2": 2,
+    "HCl": 1,
+    "HBr": 1,
+    "HI": 1,
+    "HNO3": 1,
+    "HClO4": 1,
+    "H2SO4": 2,
+    "CH3COOH": 1,
+    "HCOOH": 1,
+    "NaOH": 1,
+    "KOH": 1,
+    "LiOH": 1,
+    "NH3": 1,
+    "Ba(OH)2": 2,
+    "Ca(OH)2": 2,
+    "Sr(OH)2": 2,
 }
 
 
@@ -77,21 +99,71 @@ def _prop(name: str, props: RunProperties, label: str) -> Input:
     return Input(name, v, u, unit, "normal", label=f"{label} [{source}]")
 
 
-def _dt_inputs(dt: DeltaT) -> list[Input]:
+def _dt_inputs(dt: DeltaT, *, start_apart: bool = False) -> list[Input]:
+    """Return ΔT's error components; ``start_apart``: the fore line's level is left out of the fit term.
+
+    A two-solution run's ΔT starts from the fore line's value at the mixing time, so its fit term
+    holds that level's variance. Its model takes the level as an input of its own
+    (:func:`_start_input`) and subtracts it from ΔT, so the level is counted once, with its true
+    sensitivities (docs/methods.md §5.5).
+    """
+    u_fit = math.sqrt(max(dt.u_fit**2 - dt.u_start_temperature**2, 0.0)) if start_apart else dt.u_fit
+    what = "drift fits without the start level" if start_apart else "drift fits"
     return [
-        Input("delta_t.fit", dt.value, dt.u_fit, "K", "t" if math.isfinite(dt.dof_fit) else "normal",
-              dt.dof_fit, label=f"corrected ΔT, drift fits ({dt.method})"),
-        Input("delta_t.resolution_start", 0.0, dt.u_resolution_start, "K", "rectangular",
-              label="thermometer resolution, start level"),
-        Input("delta_t.resolution_end", 0.0, dt.u_resolution_end, "K", "rectangular",
-              label="thermometer resolution, end level"),
+        Input(
+            "delta_t.fit",
+            dt.value,
+            u_fit,
+            "K",
+            "t" if math.isfinite(dt.dof_fit) else "normal",
+            dt.dof_fit,
+            label=f"corrected ΔT, {what} ({dt.method})",
+        ),
+        Input(
+            "delta_t.resolution_start",
+            0.0,
+            dt.u_resolution_start,
+            "K",
+            "rectangular",
+            label="thermometer resolution, start level",
+        ),
+        Input(
+            "delta_t.resolution_end",
+            0.0,
+            dt.u_resolution_end,
+            "K",
+            "rectangular",
+            label="thermometer resolution, end level",
+        ),
         Input("delta_t.method", 0.0, dt.u_method, "K", "rectangular", label="ΔT method term"),
         Input("delta_t.mixing_time", 0.0, dt.u_mixing_time, "K", "normal", label="mixing time"),
-        Input("delta_t.drift_resolution", 0.0, dt.u_drift_resolution, "K", "rectangular",
-              label="thermometer resolution, drift slopes"),
-        Input("delta_t.model", 0.0, dt.u_model, "K", "rectangular",
-              label="drift model inadequacy (fore+after law against after-only law)"),
+        Input(
+            "delta_t.drift_resolution",
+            0.0,
+            dt.u_drift_resolution,
+            "K",
+            "rectangular",
+            label="thermometer resolution, drift slopes",
+        ),
+        Input(
+            "delta_t.model",
+            0.0,
+            dt.u_model,
+            "K",
+            "rectangular",
+            label="drift model inadequacy (fore+after law against after-only law)",
+        ),
     ]
+
+
+def _start_input(name: str, dt: DeltaT, label: str) -> Input:
+    """The fore line's level at the mixing time (a two-solution run's start temperature)."""
+    return Input(name, dt.start_temperature, dt.u_start_temperature, "K", "normal", label=label)
+
+
+def _dT_from_start(x: Mapping[str, Any], name: str, start0: float) -> Any:
+    """ΔT of a two-solution run: the end level minus the start level ``x[name]`` (value at ``start0``)."""
+    return _dT(x) - (x[name] - start0)
 
 
 def _dT(x: Mapping[str, Any]) -> Any:
@@ -140,7 +212,10 @@ def dissolution_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelS
     water_g = inputs[0].value * inputs[1].value
     n_mol = inputs[2].value * (purity.m_as("") if purity is not None else 1.0) / M
     return ModelSpec(
-        inputs, model, "molar_enthalpy", "kJ/mol",
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
         amount_note=f"per mole of {formula} dissolved",
         molality=n_mol / (water_g / 1000.0) if water_g > 0 else None,
         reference_temperature=dt.start_temperature,
@@ -176,16 +251,16 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
         _t("base.temperature", spec.get("base", "temperature"), "base temperature before pouring"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
         _cal_input(spec),
-        Input("acid.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
-              label="acid temperature at mixing (fore drift line)"),
-        *_dt_inputs(dt),
+        _start_input("acid.temperature", dt, "acid temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt, start_apart=True),
     ]
+    T_A0 = dt.start_temperature
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         m_a = x["acid.volume"] * x["acid.density"]
         m_b = x["base.volume"] * x["base.density"]
         cp = x["mixture.specific_heat_capacity"]
-        dT = _dT(x)
+        dT = _dT_from_start(x, "acid.temperature", T_A0)  # the start level counted once, in ΔT and in T_A
         C_final = (m_a + m_b) * cp + x["calorimeter.heat_capacity"]
         # the acid's start level carries the start-resolution error of ΔT as well
         T_A = x["acid.temperature"] + x["delta_t.resolution_start"]
@@ -200,7 +275,10 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
     limiting = "acid" if n_h <= n_oh else "base"
     total_g = inputs[1].value * inputs[2].value + inputs[4].value * inputs[5].value
     return ModelSpec(
-        inputs, model, "molar_enthalpy", "kJ/mol",
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
         amount_note=f"per mole of water formed (limiting reagent: {limiting}, {spec.get(limiting, 'formula')})",
         molality=min(n_h, n_oh) / (total_g / 1000.0) if total_g > 0 else None,
         reference_temperature=dt.start_temperature,
@@ -225,8 +303,7 @@ def electrical_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSp
         c_cal = heat / dT - x["water.volume"] * x["water.density"] * x["mixture.specific_heat_capacity"]
         return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
 
-    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
-                     reference_temperature=dt.start_temperature)
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K", reference_temperature=dt.start_temperature)
 
 
 def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
@@ -237,24 +314,23 @@ def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
         _prop("warm_water.density", props, "warm water density"),
         _t("warm_water.temperature", spec.get("warm_water", "temperature"), "warm water temperature before pouring"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
-        Input("water.temperature", dt.start_temperature, dt.u_start_temperature, "K", "normal",
-              label="cool water temperature at mixing (fore drift line)"),
-        *_dt_inputs(dt),
+        _start_input("water.temperature", dt, "cool water temperature at mixing (fore drift line)"),
+        *_dt_inputs(dt, start_apart=True),
     ]
+    T_c0 = dt.start_temperature
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         cp = x["mixture.specific_heat_capacity"]
         c_cool = x["water.volume"] * x["water.density"] * cp
         c_warm = x["warm_water.volume"] * x["warm_water.density"] * cp
-        dT = _dT(x)
+        dT = _dT_from_start(x, "water.temperature", T_c0)  # the start level counted once, in ΔT and in T_c
         T_c = x["water.temperature"] + x["delta_t.resolution_start"]
         T_end = T_c + dT
         heat = c_warm * (x["warm_water.temperature"] - T_end)
         c_cal = heat / dT - c_cool
         return {"corrected_delta_t": dT, "heat": heat, "calorimeter_heat_capacity": c_cal}
 
-    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K",
-                     reference_temperature=dt.start_temperature)
+    return ModelSpec(inputs, model, "calorimeter_heat_capacity", "J/K", reference_temperature=dt.start_temperature)
 
 
 def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
@@ -286,10 +362,17 @@ def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec
         n = x["reaction.amount"] if M is None else x["reaction.mass"] / M
         return {"corrected_delta_t": dT, "heat": heat, "molar_enthalpy": -heat / (n / nu) / 1000.0}
 
-    what = r.get("equation") or (f"the reaction of {r['limiting_reagent']}" if "limiting_reagent" in r else "the reaction")
-    return ModelSpec(inputs, model, "molar_enthalpy", "kJ/mol",
-                     amount_note=f"per mole of reaction as written ({what}; coefficient {nu})",
-                     reference_temperature=dt.start_temperature)
+    what = r.get("equation") or (
+        f"the reaction of {r['limiting_reagent']}" if "limiting_reagent" in r else "the reaction"
+    )
+    return ModelSpec(
+        inputs,
+        model,
+        "molar_enthalpy",
+        "kJ/mol",
+        amount_note=f"per mole of reaction as written ({what}; coefficient {nu})",
+        reference_temperature=dt.start_temperature,
+    )
 
 
 def build_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:

@@ -12,8 +12,8 @@ import tomllib
 import sqlalchemy as sa
 from alembic import op
 
-revision = 'g4pages'
-down_revision = 'f4review'
+revision = "g4pages"
+down_revision = "f4review"
 branch_labels = None
 depends_on = None
 
@@ -28,13 +28,12 @@ def _sample_of(text: str | None) -> str:
 
 
 def upgrade() -> None:
-    with op.batch_alter_table('runs', schema=None) as batch_op:
-        batch_op.add_column(sa.Column('sample', sa.String(length=200), server_default='', nullable=False))
-        batch_op.create_index(batch_op.f('ix_runs_sample'), ['sample'], unique=False)
+    with op.batch_alter_table("runs", schema=None) as batch_op:
+        batch_op.add_column(sa.Column("sample", sa.String(length=200), server_default="", nullable=False))
+        batch_op.create_index(batch_op.f("ix_runs_sample"), ["sample"], unique=False)
     # existing runs: read the sample from the run file as stored
     bind = op.get_bind()
-    runs = sa.table('runs', sa.column('id', sa.Integer), sa.column('run_toml', sa.Text),
-                    sa.column('sample', sa.String))
+    runs = sa.table("runs", sa.column("id", sa.Integer), sa.column("run_toml", sa.Text), sa.column("sample", sa.String))
     found = [(rid, _sample_of(text)) for rid, text in bind.execute(sa.select(runs.c.id, runs.c.run_toml))]
     for rid, sample in found:
         if sample:
@@ -42,6 +41,6 @@ def upgrade() -> None:
 
 
 def downgrade() -> None:
-    with op.batch_alter_table('runs', schema=None) as batch_op:
-        batch_op.drop_index(batch_op.f('ix_runs_sample'))
-        batch_op.drop_column('sample')
+    with op.batch_alter_table("runs", schema=None) as batch_op:
+        batch_op.drop_index(batch_op.f("ix_runs_sample"))
+        batch_op.drop_column("sample")

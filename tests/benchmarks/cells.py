@@ -8,6 +8,7 @@ a warning came with it, whether it was refused, and |ΔT_true| in units of the r
 
 from __future__ import annotations
 
+import hashlib
 import math
 import tempfile
 from dataclasses import dataclass
@@ -39,11 +40,16 @@ def _generate(generator: str, kind: str, seed: int, resolution: float, given: bo
         from calc.simulation.realistic import realistic_scenario
         from calc.simulation.simulator import write_run
 
-        sim = realistic_scenario(kind, np.random.default_rng(seed), resolution=resolution, mixing_given=given,
-                                 artefacts=artefacts)
+        sim = realistic_scenario(
+            kind, np.random.default_rng(seed), resolution=resolution, mixing_given=given, artefacts=artefacts
+        )
         tr = sim.truth
         if kind in ("electrical-calibration", "mixing-calibration"):
-            truth, scale, key = tr.calorimeter_heat_capacity_J_K, tr.heat_capacity_final_J_K, "calorimeter_heat_capacity"
+            truth, scale, key = (
+                tr.calorimeter_heat_capacity_J_K,
+                tr.heat_capacity_final_J_K,
+                "calorimeter_heat_capacity",
+            )
         else:
             truth, scale, key = tr.molar_enthalpy_kJ_mol, abs(tr.molar_enthalpy_kJ_mol), "molar_enthalpy"
         return (lambda d: write_run(sim, d, f"r{seed}")), truth, scale, key, abs(tr.delta_t_adiabatic)
@@ -53,8 +59,29 @@ def _generate(generator: str, kind: str, seed: int, resolution: float, given: bo
     return lg.write, lg.truth, lg.scale, lg.key, abs(lg.delta_t)
 
 
-def run_cell(generator: str, kind: str, resolution: float, given: bool, n: int, *, seed0: int = 0,
-             artefacts: bool = True) -> list[CellRun]:
+def cell_seed0(generator: str, kind: str, resolution: float, given: bool) -> int:
+    """Return the first seed of a cell, drawn from a hash of the cell so that cells use disjoint seeds.
+
+    With the same seeds in every cell the cells passed or failed together; a 48-bit hash makes an
+    overlap of two cells' seed ranges (a few hundred seeds each) vanishingly unlikely.
+    """
+    key = f"{generator}|{kind}|{resolution:g}|{'given' if given else 'detected'}".encode()
+    return int.from_bytes(hashlib.sha256(key).digest()[:6], "big")
+
+
+def coverage_interval(covered: int, n: int, level: float = 0.95) -> tuple[float, float]:
+    """Return the exact (Clopper–Pearson) binomial interval of a coverage ``covered``/``n``."""
+    from scipy.stats import binomtest
+
+    if n == 0:
+        return math.nan, math.nan
+    ci = binomtest(covered, n).proportion_ci(confidence_level=level, method="exact")
+    return float(ci.low), float(ci.high)
+
+
+def run_cell(
+    generator: str, kind: str, resolution: float, given: bool, n: int, *, seed0: int = 0, artefacts: bool = True
+) -> list[CellRun]:
     """Analyse ``n`` generated runs of one cell (see the module docstring)."""
     out = []
     with tempfile.TemporaryDirectory() as tmp:
@@ -69,8 +96,18 @@ def run_cell(generator: str, kind: str, resolution: float, given: bool, n: int, 
                 continue
             v = a.gum.values[key]
             U = a.gum.expanded_uncertainty
-            out.append(CellRun(kind, seed, (v - truth) / scale, abs(v - truth) <= U, bool(a.warnings), False,
-                               "; ".join(a.warnings), dT / resolution))
+            out.append(
+                CellRun(
+                    kind,
+                    seed,
+                    (v - truth) / scale,
+                    abs(v - truth) <= U,
+                    bool(a.warnings),
+                    False,
+                    "; ".join(a.warnings),
+                    dT / resolution,
+                )
+            )
     return out
 
 
@@ -81,6 +118,8 @@ def summary(runs: list[CellRun]) -> dict[str, float]:
     return {
         "n": len(runs),
         "coverage": float(np.mean([r.covered for r in ok])) if ok else math.nan,
+        "covered": sum(r.covered for r in ok),
+        "analysed": len(ok),
         "refused": sum(r.refused for r in runs),
         "refused_big_share": (sum(r.refused for r in big) / len(big)) if big else 0.0,
         "p90": float(np.percentile([abs(r.rel_error) for r in ok], 90)) if ok else math.inf,

@@ -12,16 +12,22 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 
 #: a cheap password hash: sign-in is not what these benchmarks measure
 FAST = "scrypt:1024:8:1"
 COORDINATOR = ("coord@bench.example", "benchmark password")
 
 
-def simulate_class(folder: Path, groups: int, repeats: int, seed: int, *, resolutions: tuple[float, ...] = (0.01,),
-                   edit: Callable[[Path, int], None] | None = None) -> None:
+def simulate_class(
+    folder: Path,
+    groups: int,
+    repeats: int,
+    seed: int,
+    *,
+    resolutions: tuple[float, ...] = (0.01,),
+    edit: Callable[[Path, int], None] | None = None,
+) -> None:
     """Write ``repeats`` dissolution runs of each of ``groups`` groups (``G000-run1.toml``, …) to ``folder``;
     the thermometer resolution is drawn from ``resolutions`` when it offers more than one; ``edit(path,
     group)`` may change each run file afterwards."""
@@ -30,8 +36,16 @@ def simulate_class(folder: Path, groups: int, repeats: int, seed: int, *, resolu
         for k in range(repeats):
             mass = float(rng.uniform(3.0, 4.5))
             resolution = float(rng.choice(resolutions)) if len(resolutions) > 1 else resolutions[0]
-            sim = simulate_dissolution(rng, solute_mass_g=mass, noise=0.003, fore_s=240.0, after_s=600.0, dt=2.0,
-                                       perturb_inputs=True, resolution=resolution)
+            sim = simulate_dissolution(
+                rng,
+                solute_mass_g=mass,
+                noise=0.003,
+                fore_s=240.0,
+                after_s=600.0,
+                dt=2.0,
+                perturb_inputs=True,
+                resolution=resolution,
+            )
             path = write_run(sim, folder, f"G{g:03d}-run{k + 1}")
             if edit is not None:
                 edit(path, g)
@@ -53,9 +67,11 @@ def class_notebook(database: Path, groups: int) -> tuple[Any, Any, Any, int]:
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
     s = new_session(app)
-    coord = create_person(s, email=COORDINATOR[0], name="Coordinator", role="coordinator", password=COORDINATOR[1],
-                          password_method=FAST)
+    coord = create_person(
+        s, email=COORDINATOR[0], name="Coordinator", role="coordinator", password=COORDINATOR[1], password_method=FAST
+    )
     roster = "course,section,group,name,email,role\n" + "".join(
-        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(groups))
+        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(groups)
+    )
     import_roster(s, coord, roster, password_method=FAST)
     return app, s, coord, s.scalar(sa.select(Section.id))

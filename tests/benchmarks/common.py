@@ -38,8 +38,15 @@ class Outcome:
         return self.value is not None and abs(self.value - self.truth) <= self.U
 
 
-def run_one(kind: str, seed: int, *, noisy: bool, methods=("regnault-pfaundler",), workdir: Path | None = None,
-            mc_trials: int = 0) -> list[Outcome]:
+def run_one(
+    kind: str,
+    seed: int,
+    *,
+    noisy: bool,
+    methods=("regnault-pfaundler",),
+    workdir: Path | None = None,
+    mc_trials: int = 0,
+) -> list[Outcome]:
     """Simulate one run and analyse it by each method; return one outcome per method."""
     sim = random_scenario(kind, np.random.default_rng(seed), noisy=noisy)
     tr = sim.truth
@@ -61,6 +68,18 @@ def run_one(kind: str, seed: int, *, noisy: bool, methods=("regnault-pfaundler",
             except CupcalError as exc:
                 out.append(Outcome(kind, seed, m, None, truth, None, None, str(exc), scale, tr))
                 continue
-            out.append(Outcome(kind, seed, m, a.gum.values[key], truth, a.gum.expanded_uncertainty,
-                               a.gum.uncertainties[key], None, scale, tr))
+            out.append(
+                Outcome(
+                    kind,
+                    seed,
+                    m,
+                    a.gum.values[key],
+                    truth,
+                    a.gum.expanded_uncertainty,
+                    a.gum.uncertainties[key],
+                    None,
+                    scale,
+                    tr,
+                )
+            )
         return out

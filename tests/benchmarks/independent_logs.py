@@ -30,8 +30,19 @@ import numpy as np
 from scipy.integrate import solve_ivp
 
 CP_WATER = 4.18  # J/(g K) near 20–25 °C (handbook value, rounded; from memory)
-MOLAR_MASS = {"KCl": 74.551, "NH4NO3": 80.043, "NaOH": 39.997, "Mg": 24.305, "LiCl": 42.394}  # g/mol (IUPAC atomic weights, from memory)
-SALTS = {"KCl": 17.2, "NH4NO3": 25.7, "NaOH": -44.5, "LiCl": -37.0}  # kJ/mol, order of the handbook values (from memory)
+MOLAR_MASS = {
+    "KCl": 74.551,
+    "NH4NO3": 80.043,
+    "NaOH": 39.997,
+    "Mg": 24.305,
+    "LiCl": 42.394,
+}  # g/mol (IUPAC atomic weights, from memory)
+SALTS = {
+    "KCl": 17.2,
+    "NH4NO3": 25.7,
+    "NaOH": -44.5,
+    "LiCl": -37.0,
+}  # kJ/mol, order of the handbook values (from memory)
 
 
 @dataclass
@@ -80,6 +91,7 @@ def _weibull_power(q_heat: float, tau: float, beta: float):
             return 0.0
         x = u / tau
         return q_heat * beta / tau * x ** (beta - 1) * math.exp(-(x**beta))
+
     return p
 
 
@@ -117,12 +129,12 @@ def _spikes(rng, y: np.ndarray, size: float) -> None:
         if shape == 0:
             y[i] += a
         elif shape == 1:
-            y[i:i + 2] += a
+            y[i : i + 2] += a
         elif shape == 2:
-            y[i:i + int(rng.integers(3, 6))] += a
+            y[i : i + int(rng.integers(3, 6))] += a
         else:
             w = np.exp(-np.arange(6) / rng.uniform(0.5, 1.5))
-            y[i:i + 6] += a * w[: y[i:i + 6].size]
+            y[i : i + 6] += a * w[: y[i : i + 6].size]
 
 
 def _integrate(rhs, t_end: float, breaks: list[float], z0: list[float], t_eval: np.ndarray) -> np.ndarray:
@@ -147,7 +159,7 @@ def _integrate(rhs, t_end: float, breaks: list[float], z0: list[float], t_eval: 
 def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, artefacts: bool = True) -> IndependentLog:
     """Generate one truth-known run of ``kind`` (see the module docstring)."""
     rng = np.random.default_rng([10_000_019, seed, sum(map(ord, kind))])
-    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)
+    room, t_room0 = _room(rng) if artefacts else ((lambda t, c=rng.uniform(18, 25): c), None)  # noqa: B008 (one constant room temperature, drawn once)
     t0 = room(0.0) + (rng.uniform(-1.5, 1.5) if artefacts else rng.uniform(-1, 1))
     srng = rng if artefacts else None  # near noise-free logs state the true inputs exactly
     c_cal = rng.uniform(5, 60)
@@ -181,16 +193,30 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         truth, scale, key = dh, abs(dh), "molar_enthalpy"
         cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
         if kind == "dissolution":
-            body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
-                     'density = "0.9980 ± 0.0010 g/mL"', "[solute]", f'formula = "{salt}"',
-                     f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
-                     "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
+            body += [
+                "[water]",
+                f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+                "[solute]",
+                f'formula = "{salt}"',
+                f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
+                "[mixture]",
+                f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+            ]
         else:
             stated_mass = _stated(srng, mass, u_mass, "g", 4)
-            body += ["[solution]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
-                     "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"',
-                     "[reaction]", 'equation = "Mg(s) + 2 H+(aq) -> Mg2+(aq) + H2(g)"', 'limiting_reagent = "Mg"',
-                     f'mass = "{stated_mass}"', "coefficient = 1"]
+            body += [
+                "[solution]",
+                f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+                "[mixture]",
+                f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+                "[reaction]",
+                'equation = "Mg(s) + 2 H+(aq) -> Mg2+(aq) + H2(g)"',
+                'limiting_reagent = "Mg"',
+                f'mass = "{stated_mass}"',
+                "coefficient = 1",
+            ]
     elif kind == "electrical-calibration":
         c_after = c_before = vol * 0.998 * CP_WATER + c_cal
         volt, amp = rng.uniform(3, 12), rng.uniform(0.5, 2.0)
@@ -205,14 +231,22 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
                 return p_on * (1 - math.exp(-u / tau_el))
             stored = p_on * (1 - math.exp(-t_d / tau_el))
             return stored * math.exp(-(u - t_d) / tau_el)
+
         rel_end = t_m + t_d + 12 * tau_el
         dT_true = p_on * t_d / c_after
         truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
         cal = None
-        body += ["[water]", f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"', 'density = "0.9980 ± 0.0010 g/mL"',
-                 "[heater]", f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
-                 f'current = "{_stated(srng, amp, 0.001, "A", 4)}"', f'duration = "{_stated(srng, t_d, 0.1, "s", 2)}"',
-                 "[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
+        body += [
+            "[water]",
+            f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
+            f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+            "[heater]",
+            f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
+            f'current = "{_stated(srng, amp, 0.001, "A", 4)}"',
+            f'duration = "{_stated(srng, t_d, 0.1, "s", 2)}"',
+            "[mixture]",
+            f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"',
+        ]
     else:  # two liquids
         v_a, v_b = rng.uniform(25, 60), rng.uniform(25, 60)
         c_a, c_b = v_a * 1.0 * CP_WATER, v_b * 1.0 * CP_WATER
@@ -228,11 +262,21 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             rel_end = t_m + 12 * tau_r
             truth, scale, key = dh, abs(dh), "molar_enthalpy"
             cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
-            body += ["[acid]", 'formula = "HCl"', f'concentration = "{_stated(srng, conc, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"', "equivalents = 1",
-                     "[base]", 'formula = "NaOH"', f'concentration = "{_stated(srng, conc * 1.05, 0.005, "mol/L", 4)}"',
-                     f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"', "equivalents = 1"]
+            body += [
+                "[acid]",
+                'formula = "HCl"',
+                f'concentration = "{_stated(srng, conc, 0.005, "mol/L", 4)}"',
+                f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                "equivalents = 1",
+                "[base]",
+                'formula = "NaOH"',
+                f'concentration = "{_stated(srng, conc * 1.05, 0.005, "mol/L", 4)}"',
+                f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"',
+                "equivalents = 1",
+            ]
         else:
             t_b = t0 + rng.uniform(15, 25)
             power = lambda u: 0.0  # noqa: E731
@@ -240,10 +284,16 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             q_heat = 0.0
             truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
             cal = None
-            body += ["[water]", f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     "[warm_water]", f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"', 'density = "1.0000 ± 0.0010 g/mL"',
-                     f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"']
-        body += ["[mixture]", f'specific_heat_capacity = "{CP_WATER:.3f} ± 0.010 J/(g*K)"']
+            body += [
+                "[water]",
+                f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                "[warm_water]",
+                f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"',
+                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"',
+            ]
+        body += ["[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"']
         jump = ("mix", c_b, t_b)
         dT_true = None  # set below from the contents at t_m
     g_after = c_after / tau_h
@@ -273,6 +323,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
                 z = z.copy()
                 z[0] = (z[0] * (c_after - c_b2) + c_b2 * t_b2) / c_after
         return z
+
     rhs.jump = jump_fn  # type: ignore[attr-defined]
     # start on the probe's steady track: lag behind the fore drift
     g0 = (g_before * (room(0.0) - t0) + p_stir) / c_before

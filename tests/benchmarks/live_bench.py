@@ -30,16 +30,9 @@ from typing import Any
 
 import requests
 
-from tests.benchmarks.live_setup import COORDINATOR
-from tests.benchmarks.live_setup import StreamReader
-from tests.benchmarks.live_setup import gunicorn
-from tests.benchmarks.live_setup import seed
-from tests.benchmarks.live_setup import signed_in
-from tests.benchmarks.load_test import RESULTS
-from tests.benchmarks.load_test import fresh_database
-from tests.benchmarks.load_test import tree_cpu_s
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
+from tests.benchmarks.live_setup import COORDINATOR, StreamReader, gunicorn, seed, signed_in
+from tests.benchmarks.load_test import RESULTS, fresh_database, tree_cpu_s
+from tests.webapp.live_helpers import demo_rows, live_run_file
 
 
 def parse_args(argv: list[str] | None) -> argparse.Namespace:
@@ -61,8 +54,16 @@ def parse_args(argv: list[str] | None) -> argparse.Namespace:
 class Recorder(threading.Thread):
     """One bench's recorder: a reading every 1/rate s, POSTed at once (retried: the API is idempotent)."""
 
-    def __init__(self, base: str, token: str, live_id: int, rate: float, t0: float, until: float,
-                 sent: dict[tuple[int, int], float]) -> None:
+    def __init__(
+        self,
+        base: str,
+        token: str,
+        live_id: int,
+        rate: float,
+        t0: float,
+        until: float,
+        sent: dict[tuple[int, int], float],
+    ) -> None:
         super().__init__(daemon=True)
         self.base, self.live_id, self.rate, self.t0, self.until, self.sent = base, live_id, rate, t0, until, sent
         self.session = requests.Session()
@@ -85,8 +86,11 @@ class Recorder(threading.Thread):
             for attempt in range(3):
                 try:
                     start = time.monotonic()
-                    r = self.session.post(f"{self.base}/api/live-runs/{self.live_id}/readings",
-                                          json={"readings": [[seq, float(seq), temp]]}, timeout=30)
+                    r = self.session.post(
+                        f"{self.base}/api/live-runs/{self.live_id}/readings",
+                        json={"readings": [[seq, float(seq), temp]]},
+                        timeout=30,
+                    )
                     self.post_s.append(time.monotonic() - start)
                     if r.status_code == 200:
                         self.acked.append(seq)
@@ -104,16 +108,24 @@ def start_runs(base: str, benches: list[tuple[str, str]], preload: int) -> list[
     ids = []
     text = live_run_file()
     for i, (bench, token) in enumerate(benches):
-        run_file = re.sub(r'(?m)^bench = .*$', f'bench = "{bench}"', text)
-        r = requests.post(f"{base}/api/live-runs", json={"run_file": run_file, "client_key": f"bench-{i}"},
-                          headers={"Authorization": f"Bearer {token}"}, timeout=60)
+        run_file = re.sub(r"(?m)^bench = .*$", f'bench = "{bench}"', text)
+        r = requests.post(
+            f"{base}/api/live-runs",
+            json={"run_file": run_file, "client_key": f"bench-{i}"},
+            headers={"Authorization": f"Bearer {token}"},
+            timeout=60,
+        )
         r.raise_for_status()
         ids.append(r.json()["id"])
         rows = demo_rows()
         for start in range(0, preload, 1000):
             batch = [[k, float(k), rows[k % len(rows)][1]] for k in range(start, min(preload, start + 1000))]
-            requests.post(f"{base}/api/live-runs/{ids[-1]}/readings", json={"readings": batch},
-                          headers={"Authorization": f"Bearer {token}"}, timeout=120).raise_for_status()
+            requests.post(
+                f"{base}/api/live-runs/{ids[-1]}/readings",
+                json={"readings": batch},
+                headers={"Authorization": f"Bearer {token}"},
+                timeout=120,
+            ).raise_for_status()
     return ids
 
 
@@ -148,8 +160,10 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
         time.sleep(2.0)  # the stream is open before the first reading
         t0 = time.monotonic() + 0.5
         until = t0 + args.duration
-        recorders = [Recorder(base, tok, lid, args.rate, t0 + i / (args.rate * len(ids)), until, sent)
-                     for i, ((_b, tok), lid) in enumerate(zip(setup["benches"], ids))]
+        recorders = [
+            Recorder(base, tok, lid, args.rate, t0 + i / (args.rate * len(ids)), until, sent)
+            for i, ((_b, tok), lid) in enumerate(zip(setup["benches"], ids))
+        ]
         cpu0, db0, w0 = tree_cpu_s(proc.pid), tree_cpu_s(db_pid), time.monotonic()
         for rec in recorders:
             rec.first_seq = args.preload
@@ -164,20 +178,34 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
     followed = {ids[0]} if args.page else set(ids)
     latencies = sorted(arrived[k] - sent[k] for k in acked if k in arrived and k[0] in followed)
     lost = sorted(k for k in acked if k[0] in followed and k not in arrived)
-    return {"acked": len(acked), "followed": sum(1 for k in acked if k[0] in followed), "lost": len(lost),
-            "lost_first": lost[:5], "stored": stored_counts(url, ids), "acked_by_run": {
-                rec.live_id: args.preload + len(rec.acked) for rec in recorders},
-            "latency_s": {"median": statistics.median(latencies) if latencies else None,
-                          "p95": percentile(latencies, 0.95), "max": latencies[-1] if latencies else None,
-                          "n": len(latencies)},
-            "post_s": {"median": statistics.median([x for r in recorders for x in r.post_s]),
-                       "p95": percentile(sorted(x for r in recorders for x in r.post_s), 0.95)},
-            "failures": sum(len(r.failures) for r in recorders),
-            "failures_first": [f for r in recorders for f in r.failures][:5],
-            "stream_reconnects": reader.reconnects, "stream_errors": reader.errors[:5],
-            "cpu": {"window_s": round(w1 - w0, 1), "gunicorn_cpu_s": round(cpu1 - cpu0, 1),
-                    "gunicorn_cores": round((cpu1 - cpu0) / (w1 - w0), 3),
-                    "database_cores": round((db1 - db0) / (w1 - w0), 3) if db_pid else None}}
+    return {
+        "acked": len(acked),
+        "followed": sum(1 for k in acked if k[0] in followed),
+        "lost": len(lost),
+        "lost_first": lost[:5],
+        "stored": stored_counts(url, ids),
+        "acked_by_run": {rec.live_id: args.preload + len(rec.acked) for rec in recorders},
+        "latency_s": {
+            "median": statistics.median(latencies) if latencies else None,
+            "p95": percentile(latencies, 0.95),
+            "max": latencies[-1] if latencies else None,
+            "n": len(latencies),
+        },
+        "post_s": {
+            "median": statistics.median([x for r in recorders for x in r.post_s]),
+            "p95": percentile(sorted(x for r in recorders for x in r.post_s), 0.95),
+        },
+        "failures": sum(len(r.failures) for r in recorders),
+        "failures_first": [f for r in recorders for f in r.failures][:5],
+        "stream_reconnects": reader.reconnects,
+        "stream_errors": reader.errors[:5],
+        "cpu": {
+            "window_s": round(w1 - w0, 1),
+            "gunicorn_cpu_s": round(cpu1 - cpu0, 1),
+            "gunicorn_cores": round((cpu1 - cpu0) / (w1 - w0), 3),
+            "database_cores": round((db1 - db0) / (w1 - w0), 3) if db_pid else None,
+        },
+    }
 
 
 def stored_counts(url: str, ids: list[int]) -> dict[int, int]:
@@ -190,8 +218,13 @@ def stored_counts(url: str, ids: list[int]) -> dict[int, int]:
     engine = make_engine(url)
     try:
         with engine.connect() as c:
-            return dict(c.execute(sa.select(LiveReading.live_run_id, sa.func.count())
-                                  .where(LiveReading.live_run_id.in_(ids)).group_by(LiveReading.live_run_id)).all())
+            return dict(
+                c.execute(
+                    sa.select(LiveReading.live_run_id, sa.func.count())
+                    .where(LiveReading.live_run_id.in_(ids))
+                    .group_by(LiveReading.live_run_id)
+                ).all()
+            )
     finally:
         engine.dispose()
 
@@ -223,10 +256,12 @@ def main(argv: list[str] | None = None) -> int:
     limit = 1.0 if args.page and args.servers == 1 else 2.0
     bad = problems(res, limit)
     lat = res["latency_s"]
-    print(f"{name}: {res['followed']} readings followed, {res['lost']} lost; latency median {lat['median']:.3f} s, "
-          f"p95 {lat['p95']:.3f} s, max {lat['max']:.3f} s; POST median {res['post_s']['median']:.3f} s; "
-          f"gunicorn CPU {res['cpu']['gunicorn_cores']:.2f} cores"
-          + (f", database {res['cpu']['database_cores']:.2f} cores" if res['cpu']['database_cores'] is not None else ""))
+    print(
+        f"{name}: {res['followed']} readings followed, {res['lost']} lost; latency median {lat['median']:.3f} s, "
+        f"p95 {lat['p95']:.3f} s, max {lat['max']:.3f} s; POST median {res['post_s']['median']:.3f} s; "
+        f"gunicorn CPU {res['cpu']['gunicorn_cores']:.2f} cores"
+        + (f", database {res['cpu']['database_cores']:.2f} cores" if res["cpu"]["database_cores"] is not None else "")
+    )
     RESULTS.mkdir(exist_ok=True)
     (RESULTS / f"{name}.json").write_text(json.dumps(res, indent=2, default=str), encoding="utf-8")
     for line in bad:

@@ -10,19 +10,13 @@ import re
 import subprocess
 import threading
 import time
-import urllib.request
-from collections.abc import Callable
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
 import requests
 
-from tests.benchmarks.load_test import FAST_HASH
-from tests.benchmarks.load_test import GUNICORN
-from tests.benchmarks.load_test import REPO
-from tests.benchmarks.load_test import free_port
-from tests.benchmarks.load_test import served
+from tests.benchmarks.load_test import FAST_HASH, GUNICORN, REPO, free_port, served
 from webapp.serving import GTHREAD_THREADS
 
 PASSWORD = "live bench password"
@@ -33,22 +27,24 @@ def seed(url: str, runs: int) -> dict[str, Any]:
     """Migrate; make a coordinator, one section with ``runs`` benches and groups, a student with a "live"
     token per bench; return the section id and each bench's (name, token)."""
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
-    from webapp.services.classes import create_bench
-    from webapp.services.classes import create_section
-    from webapp.services.people import create_course
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
+    from webapp.services.classes import create_bench, create_section
+    from webapp.services.people import create_course, create_group, create_person
     from webapp.services.tokens import issue_scoped_token
 
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "live bench"})
     s = new_session(app)
     try:
-        coord = create_person(s, email=COORDINATOR, name="Coordinator Live", role="coordinator",
-                              password=PASSWORD, password_method=FAST_HASH)
+        coord = create_person(
+            s,
+            email=COORDINATOR,
+            name="Coordinator Live",
+            role="coordinator",
+            password=PASSWORD,
+            password_method=FAST_HASH,
+        )
         course = create_course(s, coord, name="Live bench course (invented)")
         section = create_section(s, coord, course_id=course.id, name="Room 3B")
         benches = []
@@ -57,8 +53,15 @@ def seed(url: str, runs: int) -> dict[str, Any]:
             group.section_id = section.id
             s.commit()
             create_bench(s, coord, section_id=section.id, name=f"Bench {i + 1:02d}")
-            student = create_person(s, email=f"student{i:02d}@live.example", name=f"Student {i:02d}",
-                                    role="student", password=PASSWORD, group=group, password_method=FAST_HASH)
+            student = create_person(
+                s,
+                email=f"student{i:02d}@live.example",
+                name=f"Student {i:02d}",
+                role="student",
+                password=PASSWORD,
+                group=group,
+                password_method=FAST_HASH,
+            )
             benches.append((f"Bench {i + 1:02d}", issue_scoped_token(s, student, "recorder", "live")[1]))
         return {"section_id": section.id, "benches": benches}
     finally:
@@ -73,9 +76,28 @@ def gunicorn(url: str, workers: int, tmp: Path) -> Iterator[tuple[Any, str]]:
     log = tmp / f"gunicorn-{port}.log"
     env = {**os.environ, "DATABASE_URL": url, "CUPCAL_SECRET_KEY": "live bench", "PYTHONPATH": str(REPO)}
     proc = subprocess.Popen(
-        [str(GUNICORN), "--workers", str(workers), "--worker-class", "gthread", "--threads", str(GTHREAD_THREADS),
-         "--bind", f"127.0.0.1:{port}", "--chdir", str(REPO), "--timeout", "120", "--error-logfile", str(log),
-         "webapp:create_app()"], env=env, cwd=str(tmp), start_new_session=True)
+        [
+            str(GUNICORN),
+            "--workers",
+            str(workers),
+            "--worker-class",
+            "gthread",
+            "--threads",
+            str(GTHREAD_THREADS),
+            "--bind",
+            f"127.0.0.1:{port}",
+            "--chdir",
+            str(REPO),
+            "--timeout",
+            "120",
+            "--error-logfile",
+            str(log),
+            "webapp:create_app()",
+        ],
+        env=env,
+        cwd=str(tmp),
+        start_new_session=True,
+    )
     base = f"http://127.0.0.1:{port}"
     with served(proc, log, base + "/auth/login", workers):
         yield proc, base
@@ -97,8 +119,13 @@ class StreamReader(threading.Thread):
     ``on_event(name, data, t)`` is called with each event and the monotonic time it arrived.
     """
 
-    def __init__(self, session: requests.Session, url: str, on_event: Callable[[str, dict[str, Any], float], None],
-                 first_id: str | None = None) -> None:
+    def __init__(
+        self,
+        session: requests.Session,
+        url: str,
+        on_event: Callable[[str, dict[str, Any], float], None],
+        first_id: str | None = None,
+    ) -> None:
         super().__init__(daemon=True)
         self.session, self.url, self.on_event = session, url, on_event
         self.last_id = first_id

@@ -16,8 +16,7 @@ import re
 import resource
 import time
 import uuid
-from dataclasses import dataclass
-from dataclasses import field
+from dataclasses import dataclass, field
 from typing import Any
 from urllib.parse import urlencode
 
@@ -61,8 +60,9 @@ class Http:
         self.port = port
         self.cookie = ""
 
-    def request(self, method: str, path: str, body: bytes | None = None,
-                headers: dict[str, str] | None = None) -> tuple[int, bytes, dict[str, str]]:
+    def request(
+        self, method: str, path: str, body: bytes | None = None, headers: dict[str, str] | None = None
+    ) -> tuple[int, bytes, dict[str, str]]:
         hdrs = dict(headers or {})
         if self.cookie:
             hdrs["Cookie"] = self.cookie
@@ -85,8 +85,12 @@ def multipart(fields: dict[str, tuple[str, bytes]]) -> tuple[bytes, str]:
     boundary = "cupcal-load-" + uuid.uuid4().hex
     parts = []
     for name, (filename, data) in fields.items():
-        parts.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{name}"; filename="{filename}"\r\n'
-                     f"Content-Type: application/octet-stream\r\n\r\n".encode("ascii") + data + b"\r\n")
+        parts.append(
+            f'--{boundary}\r\nContent-Disposition: form-data; name="{name}"; filename="{filename}"\r\n'
+            f"Content-Type: application/octet-stream\r\n\r\n".encode("ascii")
+            + data
+            + b"\r\n"
+        )
     parts.append(f"--{boundary}--\r\n".encode("ascii"))
     return b"".join(parts), f"multipart/form-data; boundary={boundary}"
 
@@ -118,14 +122,14 @@ def sign_in(http: Http, email: str, password: str) -> None:
     if status != 200 or not m:
         raise RuntimeError(f"GET /auth/login: status {status}, no CSRF token")
     form = urlencode({"email": email, "password": password, "csrf_token": m.group(1).decode()}).encode()
-    status, body, _ = http.request("POST", "/auth/login", form,
-                                   {"Content-Type": "application/x-www-form-urlencoded"})
+    status, body, _ = http.request("POST", "/auth/login", form, {"Content-Type": "application/x-www-form-urlencoded"})
     if status != 302:
         raise RuntimeError(f"POST /auth/login: status {status}: {body[:BODY_EXCERPT]!r}")
 
 
-def run_client(plan: ClientPlan, counter: Any, runs_total: int, ready: Any, start: Any, t0_shared: Any,
-               out: Any) -> None:
+def run_client(
+    plan: ClientPlan, counter: Any, runs_total: int, ready: Any, start: Any, t0_shared: Any, out: Any
+) -> None:
     """The body of one client process: sign in, say ready, wait for the start, loop, put a ClientReport on ``out``.
 
     ``counter`` (a shared integer) hands out the sequence numbers of the runs to create, so
@@ -145,8 +149,9 @@ def run_client(plan: ClientPlan, counter: Any, runs_total: int, ready: Any, star
     auth = {"Authorization": f"Bearer {plan.token}"}
     mine: list[tuple[int, int]] = []  # (run id, result id) of my runs
 
-    def call(kind: str, method: str, path: str, body: bytes | None = None,
-             headers: dict[str, str] | None = None) -> bytes | None:
+    def call(
+        kind: str, method: str, path: str, body: bytes | None = None, headers: dict[str, str] | None = None
+    ) -> bytes | None:
         began = time.time()
         try:
             status, data, _ = http.request(method, path, body, headers)
@@ -176,8 +181,9 @@ def run_client(plan: ClientPlan, counter: Any, runs_total: int, ready: Any, star
             if seq is not None:
                 title, toml, csv = unique_upload(plan.demo[seq % len(plan.demo)], seq, plan.tag)
                 name = plan.demo[seq % len(plan.demo)][0]
-                body, ctype = multipart({"run_file": (f"{name}.toml", toml.encode("utf-8")),
-                                         "readings": (f"{name}.csv", csv)})
+                body, ctype = multipart(
+                    {"run_file": (f"{name}.toml", toml.encode("utf-8")), "readings": (f"{name}.csv", csv)}
+                )
                 data = call("create", "POST", "/api/runs", body, {**auth, "Content-Type": ctype})
                 if data is not None:
                     run = json.loads(data)
@@ -222,17 +228,27 @@ def summarise(records: list[tuple[str, int, float, float, str]], wall_s: float) 
         if not recs:
             continue
         ms = sorted(r[2] for r in recs)
-        rows[kind] = {"count": len(recs), "errors": sum(1 for r in recs if r[4]),
-                      "p50_ms": percentile(ms, 0.50), "p95_ms": percentile(ms, 0.95),
-                      "p99_ms": percentile(ms, 0.99), "max_ms": ms[-1], "req_per_s": len(recs) / wall_s}
+        rows[kind] = {
+            "count": len(recs),
+            "errors": sum(1 for r in recs if r[4]),
+            "p50_ms": percentile(ms, 0.50),
+            "p95_ms": percentile(ms, 0.95),
+            "p99_ms": percentile(ms, 0.99),
+            "max_ms": ms[-1],
+            "req_per_s": len(recs) / wall_s,
+        }
     return rows
 
 
 def table(rows: dict[str, dict[str, float]]) -> str:
     """Return the rows of :func:`summarise` as a text table."""
-    head = f"{'kind':<10} {'count':>7} {'errors':>6} {'p50 ms':>8} {'p95 ms':>8} {'p99 ms':>8} {'max ms':>8} {'req/s':>8}"
+    head = (
+        f"{'kind':<10} {'count':>7} {'errors':>6} {'p50 ms':>8} {'p95 ms':>8} {'p99 ms':>8} {'max ms':>8} {'req/s':>8}"
+    )
     out = [head, "-" * len(head)]
     for kind, r in rows.items():
-        out.append(f"{kind:<10} {r['count']:>7} {r['errors']:>6} {r['p50_ms']:>8.1f} {r['p95_ms']:>8.1f} "
-                   f"{r['p99_ms']:>8.1f} {r['max_ms']:>8.1f} {r['req_per_s']:>8.1f}")
+        out.append(
+            f"{kind:<10} {r['count']:>7} {r['errors']:>6} {r['p50_ms']:>8.1f} {r['p95_ms']:>8.1f} "
+            f"{r['p99_ms']:>8.1f} {r['max_ms']:>8.1f} {r['req_per_s']:>8.1f}"
+        )
     return "\n".join(out)

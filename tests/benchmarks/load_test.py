@@ -45,18 +45,20 @@ from typing import Any
 import psutil
 import sqlalchemy as sa
 
-from tests.benchmarks.load_clients import ClientPlan
-from tests.benchmarks.load_clients import ClientReport
-from tests.benchmarks.load_clients import run_client
-from tests.benchmarks.load_clients import summarise
-from tests.benchmarks.load_clients import table
+from tests.benchmarks.load_clients import ClientPlan, ClientReport, run_client, summarise, table
 
 REPO = Path(__file__).resolve().parents[2]
 RESULTS = REPO / "bench-results"
 GUNICORN = Path(sys.executable).parent / "gunicorn"
 DEMO = REPO / "fixtures" / "demo"
-DEMO_RUNS = ("diss-kcl-01", "neut-hcl-naoh-01", "react-mg-hcl-01", "diss-nh4no3-01", "cal-electrical-01",
-             "cal-mixing-01")
+DEMO_RUNS = (
+    "diss-kcl-01",
+    "neut-hcl-naoh-01",
+    "react-mg-hcl-01",
+    "diss-nh4no3-01",
+    "cal-electrical-01",
+    "cal-mixing-01",
+)
 CALORIMETER = "Cup TH-07 (two nested foam cups, lid)"  # named by the demo run files
 PASSWORD = "load test password"
 GUNICORN_TEXT = f"{importlib.metadata.version('gunicorn')}, {{}} sync workers, default settings"
@@ -94,8 +96,9 @@ def fresh_database(kind: str, tmp: Path) -> Iterator[tuple[str, str, int | None]
     server = start_server()
     try:
         url = create_database(server, "cupcal_load")
-        version = subprocess.run([str(server.bindir / "postgres"), "--version"], capture_output=True,
-                                 text=True).stdout.strip()
+        version = subprocess.run(
+            [str(server.bindir / "postgres"), "--version"], capture_output=True, text=True
+        ).stdout.strip()
         pid = int((server.data / "postmaster.pid").read_text().split()[0])
         yield url, f"{version}, throwaway server of tests/webapp/postgres.py (fsync=off, synchronous_commit=off)", pid
     finally:
@@ -107,8 +110,7 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
     """Migrate the database at ``url``; yield (app, session, coordinator, technician), both people named
     after ``who`` (``coord@<who>.example``); close the session and the engine afterwards."""
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.people import create_person
 
@@ -116,10 +118,22 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "seed"})
     s = new_session(app)
     try:
-        coord = create_person(s, email=f"coord@{who}.example", name=f"Coordinator {who.title()}", role="coordinator",
-                              password=PASSWORD, password_method=FAST_HASH)
-        tech = create_person(s, email=f"tech@{who}.example", name=f"Technician {who.title()}", role="technician",
-                             password=PASSWORD, password_method=FAST_HASH)
+        coord = create_person(
+            s,
+            email=f"coord@{who}.example",
+            name=f"Coordinator {who.title()}",
+            role="coordinator",
+            password=PASSWORD,
+            password_method=FAST_HASH,
+        )
+        tech = create_person(
+            s,
+            email=f"tech@{who}.example",
+            name=f"Technician {who.title()}",
+            role="technician",
+            password=PASSWORD,
+            password_method=FAST_HASH,
+        )
         yield app, s, coord, tech
     finally:
         s.close()
@@ -129,9 +143,7 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
 def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
     """Migrate and seed the database; return each client's (e-mail, token) and the Monte Carlo trials."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
     with seeded(url, "load") as (app, s, coord, _tech):
         create_calorimeter(s, coord, name=CALORIMETER, parts="two nested foam cups, lid")
@@ -139,8 +151,15 @@ def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
         out = []
         for i in range(clients):
             email = f"student{i:02d}@load.example"
-            p = create_person(s, email=email, name=f"Student {i:02d}", role="student", password=PASSWORD,
-                              group=groups[i // 4], password_method=FAST_HASH)
+            p = create_person(
+                s,
+                email=email,
+                name=f"Student {i:02d}",
+                role="student",
+                password=PASSWORD,
+                group=groups[i // 4],
+                password_method=FAST_HASH,
+            )
             out.append((email, issue_token(s, p, "load test", scope="write")[1]))
         return out, int(app.config["MONTE_CARLO_TRIALS"])
 
@@ -148,8 +167,7 @@ def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
 def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, Any]:
     """Compare the stored runs with the acknowledged ones: lost, unacknowledged, duplicated, results."""
     from webapp.db import make_engine
-    from webapp.models import Result
-    from webapp.models import Run
+    from webapp.models import Result, Run
     from webapp.services.integrity import check_database as integrity_check
 
     engine = make_engine(url)
@@ -157,17 +175,21 @@ def check_database(url: str, created: list[tuple[int, str, int]]) -> dict[str, A
         integrity = integrity_check(engine)  # what `cupcal db check` reports
         with engine.connect() as c:
             rows = c.execute(sa.select(Run.id, Run.title, Run.run_toml, Run.readings_raw)).all()
-            current = dict(c.execute(sa.select(Result.run_id, sa.func.count()).where(Result.is_current.is_(True))
-                                     .group_by(Result.run_id)).all())
+            current = dict(
+                c.execute(
+                    sa.select(Result.run_id, sa.func.count()).where(Result.is_current.is_(True)).group_by(Result.run_id)
+                ).all()
+            )
     finally:
         engine.dispose()
     stored = {r.id: r.title for r in rows}
     acked = {run_id: title for _seq, title, run_id in created}
     titles = Counter(r.title for r in rows)
-    contents = Counter(hashlib.sha256(r.run_toml.encode() + b"\0" + bytes(r.readings_raw)).hexdigest()
-                       for r in rows)
+    contents = Counter(hashlib.sha256(r.run_toml.encode() + b"\0" + bytes(r.readings_raw)).hexdigest() for r in rows)
     return {
-        "stored": len(stored), "acknowledged_201": len(created), "acknowledged_ids": len(acked),
+        "stored": len(stored),
+        "acknowledged_201": len(created),
+        "acknowledged_ids": len(acked),
         "lost": sorted(i for i in acked if i not in stored),
         "unacknowledged": sorted(i for i in stored if i not in acked),
         "wrong_title": sorted(i for i, t in acked.items() if i in stored and stored[i] != t),
@@ -182,10 +204,18 @@ def check_problems(check: dict[str, Any]) -> list[str]:
     """Return what is wrong in a :func:`check_database` result (empty when all is well)."""
     out = []
     if check["stored"] != check["acknowledged_201"] or check["acknowledged_ids"] != check["acknowledged_201"]:
-        out.append(f"{check['stored']} runs stored, {check['acknowledged_201']} created (201), "
-                   f"{check['acknowledged_ids']} distinct ids acknowledged")
-    for key in ("lost", "unacknowledged", "wrong_title", "duplicated_titles", "without_one_current_result",
-                "integrity_problems"):
+        out.append(
+            f"{check['stored']} runs stored, {check['acknowledged_201']} created (201), "
+            f"{check['acknowledged_ids']} distinct ids acknowledged"
+        )
+    for key in (
+        "lost",
+        "unacknowledged",
+        "wrong_title",
+        "duplicated_titles",
+        "without_one_current_result",
+        "integrity_problems",
+    ):
         if check[key]:
             out.append(f"{key}: {len(check[key])} (first: {check[key][:5]})")
     if check["duplicated_contents"]:
@@ -210,9 +240,21 @@ def gunicorn(app_spec: str, env: dict[str, str], workers: int, tmp: Path, ready_
     port = free_port()
     log = tmp / f"gunicorn-{port}.log"
     proc = subprocess.Popen(
-        [str(GUNICORN), "--workers", str(workers), "--bind", f"127.0.0.1:{port}", "--chdir", str(REPO),
-         "--error-logfile", str(log), app_spec],
-        env={**os.environ, **env}, cwd=str(tmp), start_new_session=True,
+        [
+            str(GUNICORN),
+            "--workers",
+            str(workers),
+            "--bind",
+            f"127.0.0.1:{port}",
+            "--chdir",
+            str(REPO),
+            "--error-logfile",
+            str(log),
+            app_spec,
+        ],
+        env={**os.environ, **env},
+        cwd=str(tmp),
+        start_new_session=True,
     )
     with served(proc, log, f"http://127.0.0.1:{port}{ready_path}", workers):
         yield proc, port
@@ -242,8 +284,15 @@ def served(proc: subprocess.Popen, log: Path, ready_url: str, workers: int) -> I
         except subprocess.TimeoutExpired:
             proc.kill()
             proc.wait(10)
-        errors = [line for line in log.read_text(errors="replace").splitlines()
-                  if "[ERROR]" in line or "Traceback" in line or "WORKER TIMEOUT" in line] if log.exists() else []
+        errors = (
+            [
+                line
+                for line in log.read_text(errors="replace").splitlines()
+                if "[ERROR]" in line or "Traceback" in line or "WORKER TIMEOUT" in line
+            ]
+            if log.exists()
+            else []
+        )
         if errors:
             print(f"gunicorn log ({log}) has {len(errors)} error lines, first: " + " | ".join(errors[:5]))
 
@@ -300,8 +349,10 @@ def collect(procs: list[Any], out: Any, deadline: float) -> list[ClientReport]:
             continue
         if not any(p.is_alive() for p in procs) and out.empty():
             break
-    return [reports.get(i) or ClientReport(i, failure="the client process sent no report (died or hung)")
-            for i in range(len(procs))]
+    return [
+        reports.get(i) or ClientReport(i, failure="the client process sent no report (died or hung)")
+        for i in range(len(procs))
+    ]
 
 
 def drive(plans: list[ClientPlan], runs_total: int, monitor: Monitor) -> dict[str, Any]:
@@ -309,8 +360,9 @@ def drive(plans: list[ClientPlan], runs_total: int, monitor: Monitor) -> dict[st
     ctx = multiprocessing.get_context("fork")
     counter, t0 = ctx.Value("i", 0), ctx.Value("d", 0.0)
     ready, start, out = ctx.Queue(), ctx.Event(), ctx.Queue()
-    procs = [ctx.Process(target=run_client, args=(p, counter, runs_total, ready, start, t0, out), daemon=True)
-             for p in plans]
+    procs = [
+        ctx.Process(target=run_client, args=(p, counter, runs_total, ready, start, t0, out), daemon=True) for p in plans
+    ]
     try:
         for p in procs:
             p.start()
@@ -335,18 +387,30 @@ def drive(plans: list[ClientPlan], runs_total: int, monitor: Monitor) -> dict[st
     client_cpu = sum(rep.cpu_s for rep in reports)
     server_cpu, db_cpu, parent_cpu = (b - a for a, b in zip(cpu0, cpu1))
     return {
-        "records": records, "created": [c for rep in reports for c in rep.created],
+        "records": records,
+        "created": [c for rep in reports for c in rep.created],
         "failures": [f"client {rep.index}: {rep.failure}" for rep in reports if rep.failure],
         "wall_s": max([r[3] + r[2] / 1000 for r in records], default=end - t0.value),
-        "server_cpu_s": server_cpu, "db_server_cpu_s": db_cpu, "client_cpu_s": client_cpu,
-        "load_test_parent_cpu_s": parent_cpu, "machine_busy_cpu_s": busy,
+        "server_cpu_s": server_cpu,
+        "db_server_cpu_s": db_cpu,
+        "client_cpu_s": client_cpu,
+        "load_test_parent_cpu_s": parent_cpu,
+        "machine_busy_cpu_s": busy,
         "other_processes_cpu_s": max(0.0, busy - server_cpu - db_cpu - client_cpu - parent_cpu),
         "peak_worker_rss_mb": sorted(round(v / 2**20, 1) for v in monitor.peak_rss.values()),
     }
 
 
-def measure(args: argparse.Namespace, app_spec: str, env: dict[str, str], tmp: Path, ready_path: str,
-            plans: list[ClientPlan], runs_total: int, db_pid: int | None = None) -> dict[str, Any]:
+def measure(
+    args: argparse.Namespace,
+    app_spec: str,
+    env: dict[str, str],
+    tmp: Path,
+    ready_path: str,
+    plans: list[ClientPlan],
+    runs_total: int,
+    db_pid: int | None = None,
+) -> dict[str, Any]:
     with gunicorn(app_spec, env, args.workers, tmp, ready_path) as (proc, port):
         for p in plans:
             p.port = port
@@ -361,20 +425,31 @@ def report(name: str, config: dict[str, Any], res: dict[str, Any], extra: dict[s
     print(table(rows))
     n = sum(r["count"] for k, r in rows.items() if k != "overall")
     res["server_cpu_ms_per_request"] = 1000 * res["server_cpu_s"] / max(1, n)
-    print(f"wall {res['wall_s']:.1f} s; CPU seconds in the window: gunicorn {res['server_cpu_s']:.1f} "
-          f"({res['server_cpu_ms_per_request']:.1f} ms a request), database server {res['db_server_cpu_s']:.1f}, "
-          f"clients {res['client_cpu_s']:.1f}, load-test parent {res['load_test_parent_cpu_s']:.1f}, "
-          f"other processes {res['other_processes_cpu_s']:.1f} (machine busy {res['machine_busy_cpu_s']:.1f} "
-          f"of {psutil.cpu_count() * res['wall_s']:.0f} on {psutil.cpu_count()} cores)")
+    print(
+        f"wall {res['wall_s']:.1f} s; CPU seconds in the window: gunicorn {res['server_cpu_s']:.1f} "
+        f"({res['server_cpu_ms_per_request']:.1f} ms a request), database server {res['db_server_cpu_s']:.1f}, "
+        f"clients {res['client_cpu_s']:.1f}, load-test parent {res['load_test_parent_cpu_s']:.1f}, "
+        f"other processes {res['other_processes_cpu_s']:.1f} (machine busy {res['machine_busy_cpu_s']:.1f} "
+        f"of {psutil.cpu_count() * res['wall_s']:.0f} on {psutil.cpu_count()} cores)"
+    )
     res["requests_in_flight_mean"] = sum(r[2] for r in res["records"]) / 1000 / max(res["wall_s"], 1e-9)
-    print(f"requests in flight on average: {res['requests_in_flight_mean']:.1f} (latency includes the wait "
-          f"for a free worker); peak RSS of the gunicorn workers: {res['peak_worker_rss_mb']} MB")
+    print(
+        f"requests in flight on average: {res['requests_in_flight_mean']:.1f} (latency includes the wait "
+        f"for a free worker); peak RSS of the gunicorn workers: {res['peak_worker_rss_mb']} MB"
+    )
     for line in errors[:10]:
         print("ERROR", line)
     if len(errors) > 10:
         print(f"... {len(errors) - 10} more errors")
-    data = {"name": name, "config": config, "summary": rows, "errors": errors[:200], "error_count": len(errors),
-            **{k: v for k, v in res.items() if k not in ("records", "created")}, **extra}
+    data = {
+        "name": name,
+        "config": config,
+        "summary": rows,
+        "errors": errors[:200],
+        "error_count": len(errors),
+        **{k: v for k, v in res.items() if k not in ("records", "created")},
+        **extra,
+    }
     return data, errors
 
 
@@ -391,28 +466,43 @@ def notebook_run(args: argparse.Namespace, tmp: Path) -> bool:
         accounts, trials = seed(url, args.clients)
         demo = [(n, (DEMO / f"{n}.toml").read_text("utf-8"), (DEMO / f"{n}.csv").read_bytes()) for n in DEMO_RUNS]
         tag = secrets.token_hex(4)
-        plans = [ClientPlan(i, 0, email, PASSWORD, token, tag, demo, args.duration, args.max_seconds)
-                 for i, (email, token) in enumerate(accounts)]
-        env = {"DATABASE_URL": url, "CUPCAL_SECRET_KEY": secrets.token_hex(32),
-               "CUPCAL_INSTANCE_PATH": str(tmp / "instance")}  # not the developer's instance/config.py
+        plans = [
+            ClientPlan(i, 0, email, PASSWORD, token, tag, demo, args.duration, args.max_seconds)
+            for i, (email, token) in enumerate(accounts)
+        ]
+        env = {
+            "DATABASE_URL": url,
+            "CUPCAL_SECRET_KEY": secrets.token_hex(32),
+            "CUPCAL_INSTANCE_PATH": str(tmp / "instance"),
+        }  # not the developer's instance/config.py
         res = measure(args, "webapp:create_app()", env, tmp, "/auth/login", plans, args.runs, db_pid)
         check = check_database(url, res["created"])
     creates = sorted(r[3] + r[2] / 1000 for r in res["records"] if r[0] == "create" and not r[4])
-    config = {"database": db_text, "clients": args.clients, "runs": args.runs, "duration_s": args.duration,
-              "gunicorn": GUNICORN_TEXT.format(args.workers), "monte_carlo_trials": trials,
-              "schedule": "runs created as fast as the clients can, each upload followed by 4 reads "
-                          "(page, plot, API list, API run); then reads only until the duration has passed"}
+    config = {
+        "database": db_text,
+        "clients": args.clients,
+        "runs": args.runs,
+        "duration_s": args.duration,
+        "gunicorn": GUNICORN_TEXT.format(args.workers),
+        "monte_carlo_trials": trials,
+        "schedule": "runs created as fast as the clients can, each upload followed by 4 reads "
+        "(page, plot, API list, API run); then reads only until the duration has passed",
+    }
     data, errors = report(args.db, config, res, {"check": check})
     created_in = creates[-1] if creates else 0.0
     data["runs_created"] = len(creates)
     data["creation_wall_s"] = created_in
-    print(f"runs created: {len(creates)} of {args.runs} in {created_in:.1f} s = "
-          f"{len(creates) / created_in if created_in else 0:.1f} runs/s; reads only for the "
-          f"{max(0.0, res['wall_s'] - created_in):.1f} s after")
+    print(
+        f"runs created: {len(creates)} of {args.runs} in {created_in:.1f} s = "
+        f"{len(creates) / created_in if created_in else 0:.1f} runs/s; reads only for the "
+        f"{max(0.0, res['wall_s'] - created_in):.1f} s after"
+    )
     problems = check_problems(check) + ([] if len(creates) == args.runs else [f"only {len(creates)} runs created"])
-    print(f"database check: {check['stored']} runs stored, {check['acknowledged_201']} acknowledged; "
-          f"lost: {len(check['lost'])}, duplicated: {len(check['duplicated_titles']) + check['duplicated_contents']}; "
-          f"cupcal db check: {'ok' if not check['integrity_problems'] else 'PROBLEMS'}")
+    print(
+        f"database check: {check['stored']} runs stored, {check['acknowledged_201']} acknowledged; "
+        f"lost: {len(check['lost'])}, duplicated: {len(check['duplicated_titles']) + check['duplicated_contents']}; "
+        f"cupcal db check: {'ok' if not check['integrity_problems'] else 'PROBLEMS'}"
+    )
     for p in problems:
         print("PROBLEM", p)
     data["problems"] = problems
@@ -422,11 +512,17 @@ def notebook_run(args: argparse.Namespace, tmp: Path) -> bool:
 
 def ceiling_run(args: argparse.Namespace, tmp: Path) -> bool:
     """Measure the minimal Flask endpoint on the same stack; return whether it had no error."""
-    plans = [ClientPlan(i, 0, "", "", "", "", [], args.ceiling_duration, args.max_seconds, ping_only=True)
-             for i in range(args.clients)]
+    plans = [
+        ClientPlan(i, 0, "", "", "", "", [], args.ceiling_duration, args.max_seconds, ping_only=True)
+        for i in range(args.clients)
+    ]
     res = measure(args, "tests.benchmarks.ceiling_app:create_app()", {}, tmp, "/ping", plans, 0)
-    config = {"app": "minimal Flask, GET /ping -> 'ok'", "clients": args.clients, "duration_s": args.ceiling_duration,
-              "gunicorn": GUNICORN_TEXT.format(args.workers)}
+    config = {
+        "app": "minimal Flask, GET /ping -> 'ok'",
+        "clients": args.clients,
+        "duration_s": args.ceiling_duration,
+        "gunicorn": GUNICORN_TEXT.format(args.workers),
+    }
     data, errors = report("ceiling", config, res, {})
     write_json("ceiling", data)
     return not errors

@@ -24,19 +24,16 @@ import urllib.request
 from pathlib import Path
 from typing import Any
 
-from tests.benchmarks.load_test import FAST_HASH
-from tests.benchmarks.load_test import PASSWORD
-from tests.benchmarks.load_test import RESULTS
-from tests.benchmarks.load_test import fresh_database
-from tests.benchmarks.load_test import gunicorn
-from tests.benchmarks.load_test import seeded
-from tests.webapp.race_trials import DEMO
-from tests.webapp.race_trials import Tally
-from tests.webapp.race_trials import lock_vs_calibration
-from tests.webapp.race_trials import lock_vs_patch
-from tests.webapp.race_trials import lock_vs_reanalysis
-from tests.webapp.race_trials import lost_updates
-from tests.webapp.race_trials import upload_run
+from tests.benchmarks.load_test import FAST_HASH, PASSWORD, RESULTS, fresh_database, gunicorn, seeded
+from tests.webapp.race_trials import (
+    DEMO,
+    Tally,
+    lock_vs_calibration,
+    lock_vs_patch,
+    lock_vs_reanalysis,
+    lost_updates,
+    upload_run,
+)
 
 CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 
@@ -44,21 +41,41 @@ CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 def seed(url: str) -> tuple[dict[str, str], int, int]:
     """Migrate and seed: a coordinator, a technician, two students of one group (tokens), two cups."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
     with seeded(url, "race") as (_app, s, coord, tech):
         group = create_group(s, coord, name="Race group")
-        a1 = create_person(s, email="a1@race.example", name="Student One", role="student", password=PASSWORD,
-                           group=group, password_method=FAST_HASH)
-        a2 = create_person(s, email="a2@race.example", name="Student Two", role="student", password=PASSWORD,
-                           group=group, password_method=FAST_HASH)
-        cup = create_calorimeter(s, coord, name=CUP, parts="two nested foam cups, lid",
-                                 heat_capacity="18.6 ± 0.6 J/K", measured_on=dt.date.today().isoformat())
+        a1 = create_person(
+            s,
+            email="a1@race.example",
+            name="Student One",
+            role="student",
+            password=PASSWORD,
+            group=group,
+            password_method=FAST_HASH,
+        )
+        a2 = create_person(
+            s,
+            email="a2@race.example",
+            name="Student Two",
+            role="student",
+            password=PASSWORD,
+            group=group,
+            password_method=FAST_HASH,
+        )
+        cup = create_calorimeter(
+            s,
+            coord,
+            name=CUP,
+            parts="two nested foam cups, lid",
+            heat_capacity="18.6 ± 0.6 J/K",
+            measured_on=dt.date.today().isoformat(),
+        )
         other = create_calorimeter(s, coord, name="Race cup for calibration changes", parts="one foam cup")
-        tokens = {k: issue_token(s, p, "races", scope="write")[1]
-                  for k, p in (("author", a1), ("peer", a2), ("other", coord), ("tech", tech))}
+        tokens = {
+            k: issue_token(s, p, "races", scope="write")[1]
+            for k, p in (("author", a1), ("peer", a2), ("other", coord), ("tech", tech))
+        }
         return tokens, cup.id, other.id
 
 
@@ -99,16 +116,24 @@ def main(argv: list[str] | None = None) -> int:
     with tempfile.TemporaryDirectory(prefix="cupcal-races-") as d, fresh_database(args.db, Path(d)) as (url, text, _):
         tokens, cup, other = seed(url)
         out["database_text"] = text
-        env = {"DATABASE_URL": url, "CUPCAL_SECRET_KEY": secrets.token_hex(32),
-               "CUPCAL_INSTANCE_PATH": str(Path(d) / "instance")}
+        env = {
+            "DATABASE_URL": url,
+            "CUPCAL_SECRET_KEY": secrets.token_hex(32),
+            "CUPCAL_INSTANCE_PATH": str(Path(d) / "instance"),
+        }
         engine = make_engine(url)
         with gunicorn("webapp:create_app()", env, 2, Path(d), "/auth/login") as (_proc, port):
             call = http_caller(port)
-            toml = "\n".join(line for line in (DEMO / "diss-kcl-01.toml").read_text("utf-8").splitlines()
-                             if not line.startswith("heat_capacity = ")).replace(CUP, "Race cup for calibration changes")
-            for name, fn, extra in (("lock_vs_patch", lock_vs_patch, ()),
-                                    ("lock_vs_reanalysis", lock_vs_reanalysis, ()),
-                                    ("lock_vs_calibration_change", lock_vs_calibration, (other, toml))):
+            toml = "\n".join(
+                line
+                for line in (DEMO / "diss-kcl-01.toml").read_text("utf-8").splitlines()
+                if not line.startswith("heat_capacity = ")
+            ).replace(CUP, "Race cup for calibration changes")
+            for name, fn, extra in (
+                ("lock_vs_patch", lock_vs_patch, ()),
+                ("lock_vs_reanalysis", lock_vs_reanalysis, ()),
+                ("lock_vs_calibration_change", lock_vs_calibration, (other, toml)),
+            ):
                 tally, t0 = Tally(), time.perf_counter()
                 fn(call, engine, tokens, tally, args.trials, *extra)
                 out[name] = {**tally.as_dict(), "wall_s": round(time.perf_counter() - t0, 1)}
@@ -121,11 +146,20 @@ def main(argv: list[str] | None = None) -> int:
         engine.dispose()
     RESULTS.mkdir(exist_ok=True)
     (RESULTS / f"races-{args.db}.json").write_text(json.dumps(out, indent=2, default=str), encoding="utf-8")
-    bad = [k for k in ("lock_vs_patch", "lock_vs_reanalysis", "lock_vs_calibration_change")
-           if out[k]["changes_after_lock"] or out[k]["disagreements"] or out[k]["trials"] != args.trials]
+    bad = [
+        k
+        for k in ("lock_vs_patch", "lock_vs_reanalysis", "lock_vs_calibration_change")
+        if out[k]["changes_after_lock"] or out[k]["disagreements"] or out[k]["trials"] != args.trials
+    ]
     lu = out["lost_updates"]
-    if lu["other"] or lu["chain_breaks"] or not lu["accepted_on_distinct_versions"] or not lu["accepted_titles_in_chain"] \
-            or lu["audit_entries"] != lu["accepted_200"] or lu["db_check_problems"]:
+    if (
+        lu["other"]
+        or lu["chain_breaks"]
+        or not lu["accepted_on_distinct_versions"]
+        or not lu["accepted_titles_in_chain"]
+        or lu["audit_entries"] != lu["accepted_200"]
+        or lu["db_check_problems"]
+    ):
         bad.append("lost_updates")
     print("races: " + ("PASSED" if not bad else f"FAILED ({', '.join(bad)})"))
     return 0 if not bad else 1

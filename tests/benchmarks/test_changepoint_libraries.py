@@ -57,10 +57,19 @@ def test_changepoint_library_table():
         for o in run_all(sim, q, i):
             for s in subsets:
                 rows.setdefault((s, o.detector), []).append(o)
-    subsets = ["all logs", "0.1 K thermometer", "fore period < 120 s", "log > 1 h", "slow release (τ_r ≥ 60 s)",
-               "endothermic", "correlated noise (ρ₁ ≥ 0.8)"]
-    print(f"\n|error| of the detected mixing time, s: median / 90th percentile, refusals, mean time per log "
-          f"({N_LOGS} logs from calc.simulation.realistic)")
+    subsets = [
+        "all logs",
+        "0.1 K thermometer",
+        "fore period < 120 s",
+        "log > 1 h",
+        "slow release (τ_r ≥ 60 s)",
+        "endothermic",
+        "correlated noise (ρ₁ ≥ 0.8)",
+    ]
+    print(
+        f"\n|error| of the detected mixing time, s: median / 90th percentile, refusals, mean time per log "
+        f"({N_LOGS} logs from calc.simulation.realistic)"
+    )
     print(f"{'subset':<28}{'n':>5}  " + "".join(f"{d[:34]:>36}" for d in DETECTORS))
     stats = {}
     for s in subsets:

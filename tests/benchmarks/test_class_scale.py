@@ -14,13 +14,10 @@ from typing import Any
 
 import pytest
 
-from tests.benchmarks.classroom import class_notebook
-from tests.benchmarks.classroom import simulate_class
-from tests.benchmarks.webapp_bench import PeakRSS
-from tests.benchmarks.webapp_bench import time_ms
+from tests.benchmarks.classroom import class_notebook, simulate_class
+from tests.benchmarks.webapp_bench import PeakRSS, time_ms
 from webapp.db import get_engine
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 GROUPS, REPEATS = 300, 3
 
@@ -44,8 +41,10 @@ def test_import_900_runs(classroom: dict[str, Any]) -> None:
         t0 = time.perf_counter()
         report = import_files(classroom["session"], classroom["coord"], classroom["section_id"], files)
         elapsed = time.perf_counter() - t0
-    print(f"import of {report.count('stored')} runs: {elapsed:.1f} s ({1000 * elapsed / max(report.count('stored'), 1):.1f} ms/run), "
-          f"peak RSS {mem.peak / 2**20:.0f} MB (targets ≤ 30 s, ≤ 400 MB); {report.summary}")
+    print(
+        f"import of {report.count('stored')} runs: {elapsed:.1f} s ({1000 * elapsed / max(report.count('stored'), 1):.1f} ms/run), "
+        f"peak RSS {mem.peak / 2**20:.0f} MB (targets ≤ 30 s, ≤ 400 MB); {report.summary}"
+    )
     assert report.count("stored") + report.count("error") == GROUPS * REPEATS
     t0 = time.perf_counter()
     again = import_files(classroom["session"], classroom["coord"], classroom["section_id"], files)
@@ -57,14 +56,18 @@ def test_dashboard_and_export_of_900_runs(classroom: dict[str, Any]) -> None:
     client = classroom["app"].test_client()
     page = client.get("/auth/login").get_data(as_text=True)
     csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
-    client.post("/auth/login", data={"email": "coord@bench.example", "password": "benchmark password", "csrf_token": csrf})
+    client.post(
+        "/auth/login", data={"email": "coord@bench.example", "password": "benchmark password", "csrf_token": csrf}
+    )
     sid = classroom["section_id"]
     t0 = time.perf_counter()
     r = client.get(f"/classes/sections/{sid}/dashboard")
     print(f"dashboard page, first request (plot drawn, not yet cached): {1000 * (time.perf_counter() - t0):.0f} ms")
     assert r.status_code == 200 and "page 1 of 6" in r.get_data(as_text=True)  # 300 groups, 50 a page
     med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc"), 10)
-    print(f"dashboard page, 900 runs, re-sorted (plot from its cache; table, statistics, feedback, group series): median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 300 ms)")
+    print(
+        f"dashboard page, 900 runs, re-sorted (plot from its cache; table, statistics, feedback, group series): median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 300 ms)"
+    )
     med, p95 = time_ms(lambda: client.get(f"/api/sections/{sid}/dashboard"), 10)
     print(f"dashboard JSON, 900 runs: median {med:.0f} ms, p95 {p95:.0f} ms")
     med, p95 = time_ms(lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10)

@@ -17,8 +17,10 @@ N_PER_KIND = int(os.environ.get("CUPCAL_COVERAGE_RUNS", "1000"))  # ≥ 400 aske
 
 
 def test_coverage_per_kind(tmp_path):
-    print(f"\ncoverage of the 95 % interval over {N_PER_KIND} noisy runs per kind (binomial SD "
-          f"{100 * math.sqrt(0.95 * 0.05 / N_PER_KIND):.1f} %)")
+    print(
+        f"\ncoverage of the 95 % interval over {N_PER_KIND} noisy runs per kind (binomial SD "
+        f"{100 * math.sqrt(0.95 * 0.05 / N_PER_KIND):.1f} %)"
+    )
     results = {}
     for kind in KINDS:
         outs = [run_one(kind, 50_000 + seed, noisy=True, workdir=tmp_path)[0] for seed in range(N_PER_KIND)]
@@ -27,8 +29,10 @@ def test_coverage_per_kind(tmp_path):
         cov = float(np.mean([o.covered for o in ok]))
         z = np.array([(o.value - o.truth) / o.u for o in ok])
         results[kind] = (cov, failed)
-        print(f"  {kind:<24} coverage {100 * cov:5.1f} %   SD of (x − truth)/u = {np.std(z):.2f}   "
-              f"median U/value = {100 * np.median([o.U / abs(o.value) for o in ok]):.2f} %   failed {failed}")
+        print(
+            f"  {kind:<24} coverage {100 * cov:5.1f} %   SD of (x − truth)/u = {np.std(z):.2f}   "
+            f"median U/value = {100 * np.median([o.U / abs(o.value) for o in ok]):.2f} %   failed {failed}"
+        )
     for kind, (cov, failed) in results.items():
         assert failed == 0, f"{kind}: {failed} runs could not be analysed"
         assert 0.93 <= cov <= 0.97, f"{kind}: coverage {100 * cov:.1f} %"

@@ -21,15 +21,9 @@ import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
-from tests.benchmarks.webapp_bench import FAST
-from tests.benchmarks.webapp_bench import PeakRSS
-from tests.webapp.eln_helpers import counts
-from tests.webapp.eln_helpers import demo_source
-from tests.webapp.eln_helpers import dispose
-from tests.webapp.eln_helpers import HOSTILE
-from tests.webapp.eln_helpers import snapshot
+from calc.simulation.simulator import simulate_dissolution, write_run
+from tests.benchmarks.webapp_bench import FAST, PeakRSS
+from tests.webapp.eln_helpers import HOSTILE, counts, demo_source, dispose, snapshot
 from webapp import create_app
 from webapp.db import new_session
 from webapp.migrate import upgrade
@@ -38,8 +32,7 @@ from webapp.services import eln
 from webapp.services.classes import import_roster
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.people import create_person
 
 GROUPS, REPEATS = 300, 3
@@ -54,8 +47,9 @@ def _notebook(path: Path, email: str = "coord@bench.example") -> tuple[Any, Any,
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
     s = new_session(app)
-    coord = create_person(s, email=email, name="Coordinator", role="coordinator", password="benchmark password",
-                          password_method=FAST)
+    coord = create_person(
+        s, email=email, name="Coordinator", role="coordinator", password="benchmark password", password_method=FAST
+    )
     return app, s, coord
 
 
@@ -70,14 +64,19 @@ def test_round_trip_of_the_demo_lab(tmp_path: Path) -> None:
     elapsed = time.perf_counter() - t0
     session.expire_all()
     got = snapshot(session)
-    same_files = sum(a["files"] == b["files"] and a["files_bytes"] == b["files_bytes"]
-                     for a, b in zip(want["runs"], got["runs"]))
-    same_results = sum(a["result"] == b["result"] and a["earlier_results"] == b["earlier_results"]
-                       for a, b in zip(want["runs"], got["runs"]))
-    print(f"\ndemo lab round trip: archive {len(data) / 1024:.0f} KiB, import {elapsed:.2f} s; runs "
-          f"{len(got['runs'])}/{len(want['runs'])}, files byte for byte {same_files}/{len(want['runs'])}, results "
-          f"number for number {same_results}/{len(want['runs'])}, calorimeters equal: "
-          f"{got['calorimeters'] == want['calorimeters']}, everything equal: {got == want}; {report.summary}")
+    same_files = sum(
+        a["files"] == b["files"] and a["files_bytes"] == b["files_bytes"] for a, b in zip(want["runs"], got["runs"])
+    )
+    same_results = sum(
+        a["result"] == b["result"] and a["earlier_results"] == b["earlier_results"]
+        for a, b in zip(want["runs"], got["runs"])
+    )
+    print(
+        f"\ndemo lab round trip: archive {len(data) / 1024:.0f} KiB, import {elapsed:.2f} s; runs "
+        f"{len(got['runs'])}/{len(want['runs'])}, files byte for byte {same_files}/{len(want['runs'])}, results "
+        f"number for number {same_results}/{len(want['runs'])}, calorimeters equal: "
+        f"{got['calorimeters'] == want['calorimeters']}, everything equal: {got == want}; {report.summary}"
+    )
     assert got == want
     session.close()
     dispose(app)
@@ -90,19 +89,33 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
     rng = np.random.default_rng(2025)
     for g in range(GROUPS):
         for k in range(REPEATS):
-            sim = simulate_dissolution(rng, solute_mass_g=float(rng.uniform(3.0, 4.5)), noise=0.003, fore_s=240.0,
-                                       after_s=600.0, dt=2.0, perturb_inputs=True,
-                                       resolution=float(rng.choice([0.001, 0.01])))
+            sim = simulate_dissolution(
+                rng,
+                solute_mass_g=float(rng.uniform(3.0, 4.5)),
+                noise=0.003,
+                fore_s=240.0,
+                after_s=600.0,
+                dt=2.0,
+                perturb_inputs=True,
+                resolution=float(rng.choice([0.001, 0.01])),
+            )
             write_run(sim, d / "runs", f"G{g:03d}-run{k + 1}")
     app, s, coord = _notebook(d / "class.sqlite3")
     roster = "course,section,group,name,email,role\n" + "".join(
-        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS))
+        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS)
+    )
     import_roster(s, coord, roster, password_method=FAST)
     section_id = s.scalar(sa.select(Section.id))
     report = import_files(s, coord, section_id, files_from_folder(d / "runs"))
     assert report.count("stored") + report.count("error") == GROUPS * REPEATS
-    yield {"dir": d, "app": app, "session": s, "coord": coord, "section_id": section_id,
-           "stored": report.count("stored")}
+    yield {
+        "dir": d,
+        "app": app,
+        "session": s,
+        "coord": coord,
+        "section_id": section_id,
+        "stored": report.count("stored"),
+    }
     s.close()
     dispose(app)
 
@@ -114,19 +127,25 @@ def test_a_section_of_900_runs(section: Any) -> None:
         t0, c0 = time.perf_counter(), time.process_time()
         name, data = eln.export_section(s, section["coord"], section["section_id"], eln.report_renderer())
         export_s, export_cpu = time.perf_counter() - t0, time.process_time() - c0
-    print(f"\n(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs)\nexport of a section of "
-          f"{section['stored']} runs: {export_s:.1f} s ({export_cpu:.1f} s CPU), archive {len(data) / 2**20:.1f} MiB, "
-          f"peak RSS {mem.peak / 2**20:.0f} MB (targets ≤ 10 s, ≤ 400 MB): {_met(export_s <= 10)}")
+    print(
+        f"\n(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs)\nexport of a section of "
+        f"{section['stored']} runs: {export_s:.1f} s ({export_cpu:.1f} s CPU), archive {len(data) / 2**20:.1f} MiB, "
+        f"peak RSS {mem.peak / 2**20:.0f} MB (targets ≤ 10 s, ≤ 400 MB): {_met(export_s <= 10)}"
+    )
     target, ts, me = _notebook(section["dir"] / "empty.sqlite3", "new@bench.example")
     with PeakRSS() as mem2:
         t0, c0 = time.perf_counter(), time.process_time()
         report = import_eln(ts, me, data, source=name, password_method=FAST)
         import_s, import_cpu = time.perf_counter() - t0, time.process_time() - c0
-    print(f"import of it into an empty notebook: {import_s:.1f} s ({import_cpu:.1f} s CPU; "
-          f"{1000 * import_s / section['stored']:.1f} ms/run), peak RSS {mem2.peak / 2**20:.0f} MB (targets ≤ 30 s, "
-          f"≤ 400 MB): {_met(import_s <= 30)}; {report.summary}")
-    print(f"(load average {os.getloadavg()[0]:.1f}: a loaded machine stretches the wall times; the CPU times do not "
-          "count the waits)")
+    print(
+        f"import of it into an empty notebook: {import_s:.1f} s ({import_cpu:.1f} s CPU; "
+        f"{1000 * import_s / section['stored']:.1f} ms/run), peak RSS {mem2.peak / 2**20:.0f} MB (targets ≤ 30 s, "
+        f"≤ 400 MB): {_met(import_s <= 30)}; {report.summary}"
+    )
+    print(
+        f"(load average {os.getloadavg()[0]:.1f}: a loaded machine stretches the wall times; the CPU times do not "
+        "count the waits)"
+    )
     assert report.count("error") == 0 and counts(ts)[0] == section["stored"]
     assert max(mem.peak, mem2.peak) <= 400 * 2**20
     ts.close()
@@ -142,8 +161,10 @@ def test_hostile_archives(tmp_path: Path) -> None:
             import_eln(session, me, make(), source="a.eln", password_method=FAST)
         assert expected in err.value.message
         messages[case] = err.value.message
-    print(f"\n{len(HOSTILE)} hostile archives, {len(set(messages.values()))} distinct messages, stored after: "
-          f"{counts(session) == before and 'nothing' or 'SOMETHING'}")
+    print(
+        f"\n{len(HOSTILE)} hostile archives, {len(set(messages.values()))} distinct messages, stored after: "
+        f"{counts(session) == before and 'nothing' or 'SOMETHING'}"
+    )
     for case, m in messages.items():
         print(f"  {case}: {m}")
     assert len(set(messages.values())) == len(HOSTILE) >= 10 and counts(session) == before

@@ -13,13 +13,15 @@ from collections import Counter
 from typing import Any
 
 from tests.calc.cli_fuzzing import fuzz_cli
-from tests.webapp.conftest import app  # noqa: F401  (fixtures: SQLite and PostgreSQL)
-from tests.webapp.conftest import database_url  # noqa: F401
-from tests.webapp.conftest import lab  # noqa: F401
-from tests.webapp.conftest import pg_database  # noqa: F401
-from tests.webapp.conftest import pg_server  # noqa: F401
-from tests.webapp.conftest import session  # noqa: F401
-from tests.webapp.conftest import sqlite_template  # noqa: F401
+from tests.webapp.conftest import (
+    app,  # noqa: F401  (fixtures: SQLite and PostgreSQL)
+    database_url,  # noqa: F401
+    lab,  # noqa: F401
+    pg_database,  # noqa: F401
+    pg_server,  # noqa: F401
+    session,  # noqa: F401
+    sqlite_template,  # noqa: F401
+)
 from tests.webapp.fuzzing import fuzz
 
 PER_DATABASE = 5000
@@ -31,8 +33,10 @@ def test_ten_thousand_hostile_requests_get_no_5xx(app: Any, lab: Any, database_u
     sent, failures = fuzz(app, lab, PER_DATABASE, statuses=statuses)
     took = time.perf_counter() - start
     db = database_url.split(":", 1)[0]
-    print(f"\nfuzz on {db}: {sent} requests in {took:.0f} s; by status: {dict(sorted(statuses.items()))}; "
-          f"5xx: {len(failures)}")
+    print(
+        f"\nfuzz on {db}: {sent} requests in {took:.0f} s; by status: {dict(sorted(statuses.items()))}; "
+        f"5xx: {len(failures)}"
+    )
     for f in failures[:20]:
         print("  ", f)
     assert sent >= PER_DATABASE * 0.95

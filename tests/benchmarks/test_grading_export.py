@@ -16,12 +16,10 @@ import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 from tests.benchmarks.webapp_bench import time_ms
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 
 GROUPS, REPEATS = 80, 3
@@ -30,16 +28,11 @@ FAST = "scrypt:1024:8:1"
 
 @pytest.fixture(scope="module")
 def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
-    from webapp.models import Group
-    from webapp.models import Run
-    from webapp.models import Section
+    from webapp.models import Group, Run, Section
     from webapp.services.classes import import_roster
-    from webapp.services.comments import add_group_comment
-    from webapp.services.comments import add_run_comment
-    from webapp.services.imports import files_from_folder
-    from webapp.services.imports import import_files
-    from webapp.services.marks import set_mark
-    from webapp.services.marks import set_scheme
+    from webapp.services.comments import add_group_comment, add_run_comment
+    from webapp.services.imports import files_from_folder, import_files
+    from webapp.services.marks import set_mark, set_scheme
     from webapp.services.people import create_person
     from webapp.services.review import review_run
 
@@ -47,18 +40,34 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
     rng = np.random.default_rng(2026)
     for g in range(GROUPS):
         for k in range(REPEATS):
-            sim = simulate_dissolution(rng, solute_mass_g=float(rng.uniform(3.0, 4.5)), noise=0.003, fore_s=240.0,
-                                       after_s=600.0, dt=2.0, perturb_inputs=True, resolution=0.01)
+            sim = simulate_dissolution(
+                rng,
+                solute_mass_g=float(rng.uniform(3.0, 4.5)),
+                noise=0.003,
+                fore_s=240.0,
+                after_s=600.0,
+                dt=2.0,
+                perturb_inputs=True,
+                resolution=0.01,
+            )
             write_run(sim, d / "runs", f"G{g:03d}-run{k + 1}")
     url = f"sqlite:///{d / 'grading.sqlite3'}"
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
     s = new_session(app)
-    coord = create_person(s, email="coord@bench.example", name="Coordinator", role="coordinator",
-                          password="benchmark password", password_method=FAST)
+    coord = create_person(
+        s,
+        email="coord@bench.example",
+        name="Coordinator",
+        role="coordinator",
+        password="benchmark password",
+        password_method=FAST,
+    )
     roster = "course,section,group,name,email,role\n" + "".join(
         f"Grading Course,S1,G{g:03d},Student {g} {m},s{g}-{m}@bench.example,student\n"
-        for g in range(GROUPS) for m in ("a", "b"))
+        for g in range(GROUPS)
+        for m in ("a", "b")
+    )
     import_roster(s, coord, roster, password_method=FAST)
     sid = s.scalar(sa.select(Section.id))
     assert import_files(s, coord, sid, files_from_folder(d / "runs")).count("stored") == GROUPS * REPEATS
@@ -73,8 +82,9 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
     client = app.test_client()
     page = client.get("/auth/login").get_data(as_text=True)
     csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
-    client.post("/auth/login", data={"email": "coord@bench.example", "password": "benchmark password",
-                                     "csrf_token": csrf})
+    client.post(
+        "/auth/login", data={"email": "coord@bench.example", "password": "benchmark password", "csrf_token": csrf}
+    )
     yield {"client": client, "section_id": sid, "run_id": runs[7]}
     s.close()
     get_engine(app).dispose()

@@ -32,18 +32,33 @@ def draw(rng: np.random.Generator, noisy: bool, resolution: float) -> dict:
     power = float(rng.uniform(2.0, 12.0))
     duration = float(np.clip(target_dt * water * 4.18 / power, 60, 400))
     tau_r = float(rng.uniform(10, 90))
-    return dict(formula=salt, molar_enthalpy_kJ_mol=SALTS[salt], solute_mass_g=round(mass, 3), water_volume_mL=water,
-                tau_r=tau_r, voltage_V=round(power / 1.5, 3), current_A=1.5, duration_s=round(duration, 1),
-                gap_s=float(rng.uniform(10 * tau_r + 240, 10 * tau_r + 600)), tail_s=float(rng.uniform(300, 900)),
-                c_cal=float(rng.uniform(5, 150)), tau_h=float(rng.uniform(25, 120)) * 60,
-                t_env_offset=float(rng.uniform(-1.5, 1.5)), tau_s=float(rng.uniform(1, 8)),
-                fore_s=float(rng.uniform(120, 300)), dt=float(rng.choice([1.0, 2.0])),
-                noise=float(rng.uniform(0.002, 0.01)) if noisy else 0.0,
-                phi=float(rng.uniform(0, 0.5)) if noisy else 0.0,
-                resolution=resolution if noisy else 0.0001, perturb_inputs=noisy)
+    return dict(
+        formula=salt,
+        molar_enthalpy_kJ_mol=SALTS[salt],
+        solute_mass_g=round(mass, 3),
+        water_volume_mL=water,
+        tau_r=tau_r,
+        voltage_V=round(power / 1.5, 3),
+        current_A=1.5,
+        duration_s=round(duration, 1),
+        gap_s=float(rng.uniform(10 * tau_r + 240, 10 * tau_r + 600)),
+        tail_s=float(rng.uniform(300, 900)),
+        c_cal=float(rng.uniform(5, 150)),
+        tau_h=float(rng.uniform(25, 120)) * 60,
+        t_env_offset=float(rng.uniform(-1.5, 1.5)),
+        tau_s=float(rng.uniform(1, 8)),
+        fore_s=float(rng.uniform(120, 300)),
+        dt=float(rng.choice([1.0, 2.0])),
+        noise=float(rng.uniform(0.002, 0.01)) if noisy else 0.0,
+        phi=float(rng.uniform(0, 0.5)) if noisy else 0.0,
+        resolution=resolution if noisy else 0.0001,
+        perturb_inputs=noisy,
+    )
 
 
-def measure(n: int, noisy: bool, resolution: float, seed: int, *, detected: bool = False) -> tuple[np.ndarray, float, int]:
+def measure(
+    n: int, noisy: bool, resolution: float, seed: int, *, detected: bool = False
+) -> tuple[np.ndarray, float, int]:
     rng = np.random.default_rng(seed)
     errors, hits, refused = [], 0, 0
     with tempfile.TemporaryDirectory() as d:
@@ -66,23 +81,29 @@ def measure(n: int, noisy: bool, resolution: float, seed: int, *, detected: bool
 def test_trueness_near_noise_free() -> None:
     err, _cov, refused = measure(100, noisy=False, resolution=0.0001, seed=1)
     p90 = float(np.percentile(err, 90))
-    print(f"\ndissolution-with-calibration, near noise-free: p90 |error| = {100 * p90:.3f} % "
-          f"({err.size} runs, {refused} refused)")
+    print(
+        f"\ndissolution-with-calibration, near noise-free: p90 |error| = {100 * p90:.3f} % "
+        f"({err.size} runs, {refused} refused)"
+    )
     assert p90 <= 0.003
 
 
 def test_coverage_per_resolution() -> None:
     for q in (0.001, 0.01, 0.1):
         err, coverage, refused = measure(120, noisy=True, resolution=q, seed=int(q * 1e4) + 7)
-        print(f"\ndissolution-with-calibration, resolution {q} K: coverage {100 * coverage:.1f} % of {err.size} runs, "
-              f"p90 |error| {100 * np.percentile(err, 90):.2f} %, {refused} refused")
+        print(
+            f"\ndissolution-with-calibration, resolution {q} K: coverage {100 * coverage:.1f} % of {err.size} runs, "
+            f"p90 |error| {100 * np.percentile(err, 90):.2f} %, {refused} refused"
+        )
         assert 0.90 <= coverage <= 0.99
 
 
 def test_coverage_with_the_mixing_time_detected() -> None:
     for q in (0.001, 0.01, 0.1):
         err, coverage, refused = measure(120, noisy=True, resolution=q, seed=int(q * 1e4) + 11, detected=True)
-        print(f"\ndissolution-with-calibration, mixing time detected, resolution {q} K: coverage "
-              f"{100 * coverage:.1f} % of {err.size} runs, p90 |error| {100 * np.percentile(err, 90):.2f} %, "
-              f"{refused} refused")
+        print(
+            f"\ndissolution-with-calibration, mixing time detected, resolution {q} K: coverage "
+            f"{100 * coverage:.1f} % of {err.size} runs, p90 |error| {100 * np.percentile(err, 90):.2f} %, "
+            f"{refused} refused"
+        )
         assert 0.90 <= coverage <= 0.99

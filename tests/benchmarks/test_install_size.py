@@ -26,8 +26,20 @@ ROOT = Path(__file__).resolve().parents[2]
 LIMIT_MB = 300.0
 DEMO_RUN = "fixtures/demo/diss-kcl-01.toml"
 #: what is not part of the source distribution (checkouts, caches, local databases)
-_NOT_SOURCE = shutil.ignore_patterns(".git", ".venv", "venv", "instance", "build", "dist", "*.egg-info",
-                                     "__pycache__", ".pytest_cache", ".mypy_cache", ".ruff_cache", "node_modules")
+_NOT_SOURCE = shutil.ignore_patterns(
+    ".git",
+    ".venv",
+    "venv",
+    "instance",
+    "build",
+    "dist",
+    "*.egg-info",
+    "__pycache__",
+    ".pytest_cache",
+    ".mypy_cache",
+    ".ruff_cache",
+    "node_modules",
+)
 
 _CHECK = """
 import importlib.util, json, sys
@@ -79,9 +91,11 @@ def test_base_install_is_small_and_has_no_web_libraries(tmp_path: Path) -> None:
     check = json.loads(_run([python, "-c", _CHECK, str(ROOT / DEMO_RUN)], cwd=tmp_path, timeout=300).stdout)
     size_mb = _disk_usage(env) / 1e6
     site = _site_packages(env)
-    print(f"\nbase install (Python {sys.version_info.major}.{sys.version_info.minor}): venv {size_mb:.1f} MB on "
-          f"disk, site-packages {_disk_usage(site) / 1e6:.1f} MB; largest: "
-          + ", ".join(f"{name} {mb:.1f} MB" for name, mb in _largest(site)))
+    print(
+        f"\nbase install (Python {sys.version_info.major}.{sys.version_info.minor}): venv {size_mb:.1f} MB on "
+        f"disk, site-packages {_disk_usage(site) / 1e6:.1f} MB; largest: "
+        + ", ".join(f"{name} {mb:.1f} MB" for name, mb in _largest(site))
+    )
     main, value, u, unit = check["result"]
     print(f"analyze_run({DEMO_RUN}) in the venv: {main} = {value:.3f} (u {u:.3f}) {unit}")
 
@@ -90,4 +104,3 @@ def test_base_install_is_small_and_has_no_web_libraries(tmp_path: Path) -> None:
     assert main == "molar_enthalpy" and unit == "kJ/mol" and 15.0 < value < 20.0 and 0 < u < 1.0
     assert not check["flask"] and not check["sqlalchemy"], "a base install must not bring the web libraries"
     assert size_mb <= LIMIT_MB, f"the base install takes {size_mb:.1f} MB, over {LIMIT_MB:.0f} MB"
-

@@ -16,13 +16,10 @@ from typing import Any
 
 import pytest
 
-from tests.benchmarks.classroom import COORDINATOR
-from tests.benchmarks.classroom import class_notebook
-from tests.benchmarks.classroom import simulate_class
+from tests.benchmarks.classroom import COORDINATOR, class_notebook, simulate_class
 from tests.benchmarks.webapp_bench import time_ms
 from webapp.db import get_engine
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 GROUPS, REPEATS = int(__import__("os").environ.get("LAB_GROUPS", 80)), 3
 TARGETS_MS = {"dashboard": 300.0, "export": 1000.0, "series": 200.0}
@@ -44,8 +41,7 @@ def lab(tmp_path_factory: pytest.TempPathFactory) -> Any:
     client = app.test_client()
     page = client.get("/auth/login").get_data(as_text=True)
     csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
-    client.post("/auth/login", data={"email": COORDINATOR[0], "password": COORDINATOR[1],
-                                     "csrf_token": csrf})
+    client.post("/auth/login", data={"email": COORDINATOR[0], "password": COORDINATOR[1], "csrf_token": csrf})
     yield client, section_id
     s.close()
     get_engine(app).dispose()
@@ -62,19 +58,27 @@ def test_dashboard_export_and_series_of_80_groups(lab: Any) -> None:
     print()
     t0 = time.perf_counter()
     first = client.get(f"/classes/sections/{sid}/dashboard")
-    print(f"dashboard, first request (distribution plot drawn, then cached): {1000 * (time.perf_counter() - t0):.0f} ms")
+    print(
+        f"dashboard, first request (distribution plot drawn, then cached): {1000 * (time.perf_counter() - t0):.0f} ms"
+    )
     html = first.get_data(as_text=True)
     assert first.status_code == 200 and "page 1 of 2" in html  # 80 groups: two pages of at most 50
     p95 = {
-        "dashboard": _figure("dashboard", "dashboard page, 80 groups × 3 runs, re-sorted, page 2",
-                             lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc&page=2"), 20),
+        "dashboard": _figure(
+            "dashboard",
+            "dashboard page, 80 groups × 3 runs, re-sorted, page 2",
+            lambda: client.get(f"/classes/sections/{sid}/dashboard?sort=value&dir=desc&page=2"),
+            20,
+        ),
         "export": max(
-            _figure("export", "grading export CSV, 240 runs",
-                    lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10),
-            _figure("export", "grading export xlsx, 240 runs",
-                    lambda: client.get(f"/classes/sections/{sid}/export.xlsx"), 5)),
-        "series": _figure("series", "replicates by sample, 80 series of 3",
-                          lambda: client.get("/runs/samples"), 20),
+            _figure(
+                "export", "grading export CSV, 240 runs", lambda: client.get(f"/classes/sections/{sid}/export.csv"), 10
+            ),
+            _figure(
+                "export", "grading export xlsx, 240 runs", lambda: client.get(f"/classes/sections/{sid}/export.xlsx"), 5
+            ),
+        ),
+        "series": _figure("series", "replicates by sample, 80 series of 3", lambda: client.get("/runs/samples"), 20),
     }
     filtered = client.get(f"/classes/sections/{sid}/dashboard?q=G07&flag=none")
     assert filtered.status_code == 200

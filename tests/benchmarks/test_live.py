@@ -18,8 +18,7 @@ import shlex
 import pytest
 
 from tests.benchmarks.live_bench import main
-from tests.webapp.postgres import INSTALL_HINT
-from tests.webapp.postgres import find_bindir
+from tests.webapp.postgres import INSTALL_HINT, find_bindir
 
 
 def _extra() -> list[str]:
@@ -43,7 +42,7 @@ def test_live_page_latency(db: str) -> None:
 def test_thirty_live_runs_with_the_room_view(db: str) -> None:
     _needs_postgres(db)
     # each run holds 400 readings (6.7 min of a log at 1/s) first: the advisor's cost grows with the log
-    assert main(["--db", db, "--runs", "30", "--duration", "120", "--preload", "400", *_extra()]) == 0, \
+    assert main(["--db", db, "--runs", "30", "--duration", "120", "--preload", "400", *_extra()]) == 0, (
         "see the problems above"
 
 

@@ -15,8 +15,7 @@ import shlex
 import pytest
 
 from tests.benchmarks.load_test import main
-from tests.webapp.postgres import INSTALL_HINT
-from tests.webapp.postgres import find_bindir
+from tests.webapp.postgres import INSTALL_HINT, find_bindir
 
 
 def _extra() -> list[str]:

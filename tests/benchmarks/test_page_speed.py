@@ -17,8 +17,7 @@ from typing import Any
 
 import pytest
 
-from tests.benchmarks.webapp_bench import app_with_a_long_run
-from tests.benchmarks.webapp_bench import time_ms
+from tests.benchmarks.webapp_bench import app_with_a_long_run, time_ms
 from webapp.plot_cache import plot_cache
 
 PASSWORD = "benchmark password"

@@ -43,7 +43,7 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
     trials, live_id = [], None
     thermo.start()
     try:
-        for trial in range(TRIALS):
+        for _trial in range(TRIALS):
             earlier = rows(out)
             before, inode = len(earlier), out.stat().st_ino if out.exists() else None
             proc = start_recorder(out, port, *args)
@@ -54,11 +54,15 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
             proc.wait(timeout=10)
             side = json.loads(sidecar_path(out).read_text())
             live_id = live_id or side["live_run_id"]
-            trials.append({"lost": readings_lost(thermo, rows(out)[before:], killed_at),
-                           # the restart appended to the very file: same inode, earlier rows untouched
-                           "same_file": rows(out)[:before] == earlier and inode in (None, out.stat().st_ino),
-                           "same_live_run": side["live_run_id"] == live_id and len(nb.runs) == 1,
-                           "rows": len(rows(out))})
+            trials.append(
+                {
+                    "lost": readings_lost(thermo, rows(out)[before:], killed_at),
+                    # the restart appended to the very file: same inode, earlier rows untouched
+                    "same_file": rows(out)[:before] == earlier and inode in (None, out.stat().st_ino),
+                    "same_live_run": side["live_run_id"] == live_id and len(nb.runs) == 1,
+                    "rows": len(rows(out)),
+                }
+            )
         proc = start_recorder(out, port, *args, "--finish")
         wait_rows(out, len(rows(out)) + 10)
         proc.send_signal(signal.SIGINT)
@@ -75,13 +79,15 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
 
 
 def _latency(tmp_path, nb: FakeNotebook) -> np.ndarray:
-    thermo = SimThermometer(np.arange(LATENCY_READINGS + 10) * 1.0, np.full(LATENCY_READINGS + 10, 21.0),
-                            PROFILES["stamped-kelvin"])
+    thermo = SimThermometer(
+        np.arange(LATENCY_READINGS + 10) * 1.0, np.full(LATENCY_READINGS + 10, 21.0), PROFILES["stamped-kelvin"]
+    )
     port = thermo.open_pty()
     out, run_file = tmp_path / "latency.csv", tmp_path / "latency.toml"
     run_file.write_text('kind = "dissolution"\n')
-    proc = start_recorder(out, port, "--notebook", nb.url, "--run-file", str(run_file),
-                          "--max-readings", str(LATENCY_READINGS))
+    proc = start_recorder(
+        out, port, "--notebook", nb.url, "--run-file", str(run_file), "--max-readings", str(LATENCY_READINGS)
+    )
     thermo.start(delay_s=3.0)  # the recorder opens the port meanwhile
     try:
         stdout, stderr = proc.communicate(timeout=LATENCY_READINGS + 60)
@@ -103,9 +109,11 @@ def test_kill_9_loses_at_most_one_reading_and_readings_reach_the_notebook_fast(t
     for i, t in enumerate(trials, 1):
         print(f" {i:5d} | {t['rows']:11d} | {t['lost']:13d} | {str(t['same_file']):9s} | {t['same_live_run']}")
     print(f" lost per crash: max {lost.max()}, mean {lost.mean():.2f}; crashes with a loss: {(lost > 0).sum()}")
-    print(f"\nlatency pty → notebook at 1 reading/s ({delays_ms.size} readings): "
-          f"median {np.median(delays_ms):.1f} ms, p95 {np.percentile(delays_ms, 95):.1f} ms, "
-          f"max {delays_ms.max():.1f} ms")
+    print(
+        f"\nlatency pty → notebook at 1 reading/s ({delays_ms.size} readings): "
+        f"median {np.median(delays_ms):.1f} ms, p95 {np.percentile(delays_ms, 95):.1f} ms, "
+        f"max {delays_ms.max():.1f} ms"
+    )
     assert len(trials) >= 20
     assert lost.max() <= 1
     assert all(t["same_file"] and t["same_live_run"] for t in trials)

@@ -26,8 +26,10 @@ def test_robust_drift_library_table():
             for f in fit_all(w):
                 rows[f.method].append((f.a - w.a_true, f.b - w.b_true, f.u_a, f.u_b, f.seconds, w.resolution))
     print(f"\nDrift windows with spikes ({2 * N_LOGS} windows from {N_LOGS} logs of calc.simulation.realistic)")
-    print(f"{'method':<38}{'|Δa| mK med/p90':>18}{'|Δb| mK/min med/p90':>22}"
-          f"{'k=2 cover a/b, q≤0.01 K':>26}{'q=0.1 K':>12}{'ms/fit':>9}")
+    print(
+        f"{'method':<38}{'|Δa| mK med/p90':>18}{'|Δb| mK/min med/p90':>22}"
+        f"{'k=2 cover a/b, q≤0.01 K':>26}{'q=0.1 K':>12}{'ms/fit':>9}"
+    )
     stats = {}
     for m, v in rows.items():
         v = np.array(v)
@@ -35,11 +37,22 @@ def test_robust_drift_library_table():
         with np.errstate(divide="ignore", invalid="ignore"):
             ca, cb = np.abs(v[:, 0]) <= 2 * v[:, 2], np.abs(v[:, 1]) <= 2 * v[:, 3]
         fine, coarse = v[:, 5] < 0.05, v[:, 5] >= 0.05
-        stats[m] = (np.median(ea), np.percentile(ea, 90), np.median(eb), np.percentile(eb, 90),
-                    ca[fine].mean(), cb[fine].mean(), ca[coarse].mean(), cb[coarse].mean(), 1e3 * v[:, 4].mean())
+        stats[m] = (
+            np.median(ea),
+            np.percentile(ea, 90),
+            np.median(eb),
+            np.percentile(eb, 90),
+            ca[fine].mean(),
+            cb[fine].mean(),
+            ca[coarse].mean(),
+            cb[coarse].mean(),
+            1e3 * v[:, 4].mean(),
+        )
         s = stats[m]
-        print(f"{m:<38}{s[0]:8.2f} /{s[1]:7.2f}{s[2]:11.3f} /{s[3]:8.3f}{s[4]:17.2f} /{s[5]:5.2f}"
-              f"{s[6]:6.2f} /{s[7]:4.2f}{s[8]:9.2f}")
+        print(
+            f"{m:<38}{s[0]:8.2f} /{s[1]:7.2f}{s[2]:11.3f} /{s[3]:8.3f}{s[4]:17.2f} /{s[5]:5.2f}"
+            f"{s[6]:6.2f} /{s[7]:4.2f}{s[8]:9.2f}"
+        )
     calc, rlm = stats["calc, u with resolution terms"], stats["statsmodels RLM TukeyBiweight"]
     # the judgement the docs state: the robust library fits are no better on the estimates and
     # state uncertainties that cover the truth far less often

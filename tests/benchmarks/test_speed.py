@@ -18,8 +18,8 @@ import psutil
 import pytest
 
 from calc.analysis import analyze_run
-from calc.uncertainty.gum import monte_carlo
 from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run
+from calc.uncertainty.gum import monte_carlo
 
 N_FILES = 1000
 
@@ -42,8 +42,9 @@ def run_files(tmp_path_factory) -> list[Path]:
 
 
 def _cli(args: list[str]) -> subprocess.Popen:
-    return subprocess.Popen([sys.executable, "-m", "calc.cli", "analyze", *args], stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    return subprocess.Popen(
+        [sys.executable, "-m", "calc.cli", "analyze", *args], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
 
 
 def test_throughput_of_analyze_json(run_files):
@@ -60,9 +61,11 @@ def test_throughput_of_analyze_json(run_files):
     assert len(out.splitlines()) == len(run_files)
     rate_total = len(run_files) / total
     rate_steady = (len(run_files) - 1) / max(total - startup, 1e-9)
-    print(f"\nanalyze --json --monte-carlo 0: {len(run_files)} runs of 600 points in {total:.2f} s "
-          f"(one process, one core): {rate_total:.0f} runs/s including start-up ({startup:.2f} s), "
-          f"{rate_steady:.0f} runs/s after start-up")
+    print(
+        f"\nanalyze --json --monte-carlo 0: {len(run_files)} runs of 600 points in {total:.2f} s "
+        f"(one process, one core): {rate_total:.0f} runs/s including start-up ({startup:.2f} s), "
+        f"{rate_steady:.0f} runs/s after start-up"
+    )
     assert rate_steady >= 300
 
 
@@ -80,8 +83,12 @@ def test_monte_carlo_time_per_run(run_files):
 
 def test_memory_is_flat_over_10000_runs(run_files):
     args = ["--json", "--monte-carlo", "0", *map(str, run_files * (10_000 // len(run_files)))]
-    p = subprocess.Popen([sys.executable, "-m", "calc.cli", "analyze", *args], stdout=subprocess.PIPE,
-                         stderr=subprocess.DEVNULL, text=True)
+    p = subprocess.Popen(
+        [sys.executable, "-m", "calc.cli", "analyze", *args],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.DEVNULL,
+        text=True,
+    )
     proc = psutil.Process(p.pid)
     samples = []  # (lines read, rss MB)
     n = 0

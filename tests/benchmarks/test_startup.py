@@ -54,14 +54,17 @@ def _time(args: list[str]) -> tuple[list[float], list[float]]:
     return walls, cpus
 
 
-@pytest.mark.parametrize(("args", "limit"), [(["--help"], 0.3), (["analyze", str(DEMO_RUN)], 0.6)],
-                         ids=["help", "analyze"])
+@pytest.mark.parametrize(
+    ("args", "limit"), [(["--help"], 0.3), (["analyze", str(DEMO_RUN)], 0.6)], ids=["help", "analyze"]
+)
 def test_start_up_time(args, limit):
     walls, cpus = _time(args)
     load, cpus_here = os.getloadavg()[0], os.cpu_count() or 1
-    print(f"\ncupcal {' '.join(a if a != str(DEMO_RUN) else DEMO_RUN.name for a in args)}: wall best "
-          f"{min(walls):.3f} s, median {statistics.median(walls):.3f} s; CPU best {min(cpus):.3f} s, median "
-          f"{statistics.median(cpus):.3f} s ({REPEATS} runs; load average {load:.1f} on {cpus_here} CPUs)")
+    print(
+        f"\ncupcal {' '.join(a if a != str(DEMO_RUN) else DEMO_RUN.name for a in args)}: wall best "
+        f"{min(walls):.3f} s, median {statistics.median(walls):.3f} s; CPU best {min(cpus):.3f} s, median "
+        f"{statistics.median(cpus):.3f} s ({REPEATS} runs; load average {load:.1f} on {cpus_here} CPUs)"
+    )
     assert min(cpus) <= limit
     if load < cpus_here:
         assert min(walls) <= limit

@@ -13,11 +13,11 @@ import time
 
 import numpy as np
 
-from calc.statistics.control_charts import control_chart
 from calc.plan import plan_run
-from calc.statistics.replicates import summarize_series
 from calc.statistics.cochran_test import cochran
+from calc.statistics.control_charts import control_chart
 from calc.statistics.precision import grubbs, iso5725, mandel_h_k
+from calc.statistics.replicates import summarize_series
 from calc.statistics.robust import robust_mean_sd
 
 
@@ -66,8 +66,15 @@ def test_control_charts_of_every_calorimeter():
 
 def test_plan_time():
     def plan() -> None:
-        plan_run("dissolution", formula="KCl", mass="3.0 ± 0.0002 g", water_volume="100.0 ± 0.1 mL",
-                 calorimeter_heat_capacity="18 ± 2 J/K", thermometer_resolution=0.01, thermometer_noise=0.005)
+        plan_run(
+            "dissolution",
+            formula="KCl",
+            mass="3.0 ± 0.0002 g",
+            water_volume="100.0 ± 0.1 mL",
+            calorimeter_heat_capacity="18 ± 2 J/K",
+            thermometer_resolution=0.01,
+            thermometer_noise=0.005,
+        )
 
     t0 = time.perf_counter()
     plan()

@@ -87,8 +87,9 @@ def _final(sim: SimulatedRun, end_s: float, folder, stem: str):
 def _replay(i: int, folder) -> Replay:
     rng = np.random.default_rng(90_000 + i)
     kind, res = KINDS[i % len(KINDS)], RESOLUTIONS[(i // len(KINDS)) % len(RESOLUTIONS)]
-    sim = realistic_scenario(kind, rng, resolution=res, mixing_given=bool(rng.uniform() < 0.5),
-                             longer_s=FIXED_AFTER_S + 300.0)
+    sim = realistic_scenario(
+        kind, rng, resolution=res, mixing_given=bool(rng.uniform() < 0.5), longer_s=FIXED_AFTER_S + 300.0
+    )
     rep = Replay(kind, res, "error", raised=set())
     try:
         full = analyze_run(write_run(sim, folder, f"full{i}"), with_reference=False)
@@ -137,10 +138,14 @@ def _share(flags) -> str:
 
 
 def _table(reps: list[Replay]) -> None:
-    print(f"\nlive stop advice over {len(reps)} simulated runs (advice every {STEP} readings, "
-          f"stop {REACTION_S:g} s after it)")
-    print(f"{'cell':32s} {'runs':>4s} {'stopped':>7s} {'unreach':>7s} {'never':>5s} {'err':>3s} "
-          f"{'U≤target':>16s} {'truth in, stop':>16s} {'truth in, 10 min':>16s} {'saved (med)':>11s}")
+    print(
+        f"\nlive stop advice over {len(reps)} simulated runs (advice every {STEP} readings, "
+        f"stop {REACTION_S:g} s after it)"
+    )
+    print(
+        f"{'cell':32s} {'runs':>4s} {'stopped':>7s} {'unreach':>7s} {'never':>5s} {'err':>3s} "
+        f"{'U≤target':>16s} {'truth in, stop':>16s} {'truth in, 10 min':>16s} {'saved (med)':>11s}"
+    )
     cells = [(k, r) for k in KINDS for r in RESOLUTIONS] + [("all", None)]
     for kind, res in cells:
         sub = [x for x in reps if kind == "all" or (x.kind == kind and x.resolution == res)]
@@ -154,19 +159,25 @@ def _table(reps: list[Replay]) -> None:
               f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}")
     _strict(reps)
     unreach = [x for x in reps if x.outcome == "unreachable"]
-    print(f"'cannot be reached' in {len(unreach)} runs; in {sum(x.u_fixed > x.target for x in unreach)} of them "
-          "the fixed 10-minute after period did not reach the target either; truth in the final interval "
-          f"{_share([x.covered_stop for x in unreach])} at the stop, {_share([x.covered_fixed for x in unreach])} "
-          "with the fixed 10 minutes")
+    print(
+        f"'cannot be reached' in {len(unreach)} runs; in {sum(x.u_fixed > x.target for x in unreach)} of them "
+        "the fixed 10-minute after period did not reach the target either; truth in the final interval "
+        f"{_share([x.covered_stop for x in unreach])} at the stop, {_share([x.covered_fixed for x in unreach])} "
+        "with the fixed 10 minutes"
+    )
     fc = [(x.forecast_s, x.waited_s) for x in reps if x.forecast_s]
     if fc:
         ratio = [w / f for f, w in fc if f > 0]
-        print(f"first after-period forecast: median real wait / forecast wait = {statistics.median(ratio):.2f} "
-              f"(quartiles {np.percentile(ratio, 25):.2f}–{np.percentile(ratio, 75):.2f}, {len(ratio)} runs)")
+        print(
+            f"first after-period forecast: median real wait / forecast wait = {statistics.median(ratio):.2f} "
+            f"(quartiles {np.percentile(ratio, 25):.2f}–{np.percentile(ratio, 75):.2f}, {len(ratio)} runs)"
+        )
     codes = ("fore_drift", "spike", "probe_out", "readings_stopped", "fore_short", "too_noisy")
-    print("runs with each warning at least once: " + ", ".join(
-        f"{c} {sum(c in (x.raised or ()) for x in reps)}" for c in codes)
-        + " (no run has its probe out or its readings stopped)")
+    print(
+        "runs with each warning at least once: "
+        + ", ".join(f"{c} {sum(c in (x.raised or ()) for x in reps)}" for c in codes)
+        + " (no run has its probe out or its readings stopped)"
+    )
     calls = sum(x.calls for x in reps)
     print(f"advice calls: {calls}; slowest call {max(x.slowest_s for x in reps) * 1000:.0f} ms")
 
@@ -210,8 +221,7 @@ def test_advice_on_1500_readings_is_fast(tmp_path):
     """One call on 1500 readings takes ≤ 0.3 s (issue 15), in every phase a long log can be in."""
     times = []
     for i, kind in enumerate(KINDS * 2):
-        sim = realistic_scenario(kind, 70_000 + i, resolution=RESOLUTIONS[i % 2], mixing_given=False,
-                                 longer_s=3000.0)
+        sim = realistic_scenario(kind, 70_000 + i, resolution=RESOLUTIONS[i % 2], mixing_given=False, longer_s=3000.0)
         text = write_run(sim, tmp_path, f"speed{i}").read_text(encoding="utf-8")
         t, y = sim.time_s[:1500], sim.reading_C[:1500]
         assert t.size == 1500
@@ -221,6 +231,8 @@ def test_advice_on_1500_readings_is_fast(tmp_path):
             advise(text, t, y, now_s=float(t[-1]))
             best.append(time.perf_counter() - t0)
         times.append(min(best))  # best of three: the machine is shared, the other two measure the neighbours
-    print(f"\nadvise() on 1500 readings (best of 3 per log): median {statistics.median(times) * 1000:.0f} ms, "
-          f"slowest log {max(times) * 1000:.0f} ms over {len(times)} logs")
+    print(
+        f"\nadvise() on 1500 readings (best of 3 per log): median {statistics.median(times) * 1000:.0f} ms, "
+        f"slowest log {max(times) * 1000:.0f} ms over {len(times)} logs"
+    )
     assert max(times) <= 0.3

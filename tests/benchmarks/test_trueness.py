@@ -15,23 +15,36 @@ from tests.benchmarks.common import KINDS, run_one
 
 N_PER_KIND = 100
 METHODS = ("regnault-pfaundler", "linear-extrapolation", "equal-area", "model-fit", "naive")
-LIMITS = {"neutralization": 0.003, "dissolution": 0.005, "electrical-calibration": 0.003,
-          "mixing-calibration": 0.003, "reaction": 0.005}
+LIMITS = {
+    "neutralization": 0.003,
+    "dissolution": 0.005,
+    "electrical-calibration": 0.003,
+    "mixing-calibration": 0.003,
+    "reaction": 0.005,
+}
 
 
 def test_trueness_table(tmp_path):
     rows = {}
     for kind in KINDS:
-        outs = [o for seed in range(N_PER_KIND) for o in run_one(kind, 10_000 + seed, noisy=False, methods=METHODS,
-                                                                 workdir=tmp_path)]
+        outs = [
+            o
+            for seed in range(N_PER_KIND)
+            for o in run_one(kind, 10_000 + seed, noisy=False, methods=METHODS, workdir=tmp_path)
+        ]
         for m in METHODS:
             errs = np.array([abs(o.rel_error) for o in outs if o.method == m])
             fails = int(np.sum(~np.isfinite(errs)))
             errs = errs[np.isfinite(errs)]
-            rows[(kind, m)] = (np.percentile(errs, 90) if errs.size else np.inf,
-                               np.median(errs) if errs.size else np.inf, fails)
-    print("\n90th percentile (median) of |relative error|, near noise-free runs, "
-          f"{N_PER_KIND} per kind (calibrations: error of C_cal relative to the whole calorimeter)")
+            rows[(kind, m)] = (
+                np.percentile(errs, 90) if errs.size else np.inf,
+                np.median(errs) if errs.size else np.inf,
+                fails,
+            )
+    print(
+        "\n90th percentile (median) of |relative error|, near noise-free runs, "
+        f"{N_PER_KIND} per kind (calibrations: error of C_cal relative to the whole calorimeter)"
+    )
     header = f"{'kind':<24}" + "".join(f"{m:>24}" for m in METHODS)
     print(header)
     for kind in KINDS:

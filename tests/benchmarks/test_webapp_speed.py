@@ -13,11 +13,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.benchmarks.webapp_bench import app_with_a_long_run
-from tests.benchmarks.webapp_bench import time_ms
+from tests.benchmarks.webapp_bench import app_with_a_long_run, time_ms
 from webapp.db import new_session
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Result, Run
 
 PASSWORD = "benchmark password"
 N_RUNS = 5000
@@ -50,8 +48,10 @@ def test_run_page_with_a_2000_point_log(bench: dict[str, Any]) -> None:
             s.close()
 
     pmed, pp95 = time_ms(with_plots, 15)
-    print(f"what the finished page adds (re-analysis + run and budget SVG): median {pmed:.1f} ms, p95 {pp95:.1f} ms;"
-          f" page total ≈ {med + pmed:.0f} ms")
+    print(
+        f"what the finished page adds (re-analysis + run and budget SVG): median {pmed:.1f} ms, p95 {pp95:.1f} ms;"
+        f" page total ≈ {med + pmed:.0f} ms"
+    )
     assert med <= 150
 
 

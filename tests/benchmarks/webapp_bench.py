@@ -7,22 +7,18 @@ import re
 import statistics
 import threading
 import time
-from collections.abc import Callable
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import psutil
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
-from webapp.services.people import create_person
-from webapp.services.people import issue_token
+from webapp.services.people import create_person, issue_token
 
 PASSWORD = "benchmark password"
 FAST = "scrypt:1024:8:1"  # a quick password hash for benchmark accounts
@@ -74,16 +70,28 @@ def app_with_a_long_run(d: Path) -> Iterator[dict[str, Any]]:
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0})
     s = new_session(app)
-    coord = create_person(s, email="bench@lab.example", name="Bench", role="coordinator", password=PASSWORD,
-                          password_method="scrypt:1024:8:1")
+    coord = create_person(
+        s,
+        email="bench@lab.example",
+        name="Bench",
+        role="coordinator",
+        password=PASSWORD,
+        password_method="scrypt:1024:8:1",
+    )
     token = issue_token(s, coord, "bench")[1]
     s.close()
     sim = simulate_dissolution(np.random.default_rng(11), fore_s=400.0, after_s=1600.0, dt=1.0)
     path = write_run(sim, d, "long")
     client = app.test_client()
-    r = client.post("/api/runs", headers={"Authorization": f"Bearer {token}"}, content_type="multipart/form-data",
-                    data={"run_file": (io.BytesIO(path.read_bytes()), "long.toml"),
-                          "readings": (io.BytesIO(path.with_suffix(".csv").read_bytes()), "long.csv")})
+    r = client.post(
+        "/api/runs",
+        headers={"Authorization": f"Bearer {token}"},
+        content_type="multipart/form-data",
+        data={
+            "run_file": (io.BytesIO(path.read_bytes()), "long.toml"),
+            "readings": (io.BytesIO(path.with_suffix(".csv").read_bytes()), "long.csv"),
+        },
+    )
     assert r.status_code == 201, r.get_json()
     page = client.get("/auth/login").get_data(as_text=True)
     csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)

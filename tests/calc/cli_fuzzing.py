@@ -21,20 +21,103 @@ from calc.cli.commands import cli
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 NAMES = ["diss-kcl-01", "neut-hcl-naoh-01", "cal-electrical-01", "react-mg-hcl-01", "cal-mixing-01"]
 
-_VALUES = ['"1e308 g"', '"1e-320 g"', '"-5 g"', '"nan g"', '"inf mL"', "1e308", "-1", "0", "1e30", "9" * 5000,
-           '"' + "9" * 5000 + ' g"', '"K999999999999999999999Cl"', '"yesterday"', '"2025-13-45"', "[" * 3000 + "]" * 3000,
-           "[1, 2]", "{a = 1}", "true", '"٣ g"', '"3 ± 1e308 g"', '"3 ± -1 g"', '"3 kg"', '"3 mL"', '""',
-           '"' + "x" * 500 + '"', "2025-03-13", "12:00:00", '"0.000000001 K"', '"100 K"', '"5000 degC"']
-_READINGS = ['"../../../../../etc/passwd"', '"/dev/zero"', '"/etc/passwd"', '"."', '"a\\u0000b"', '""',
-             '"nope.csv"', '"sub/../../x.csv"', '"big.csv"', '"longcell.csv"', '"link.csv"']
-_OPTIONS = [[], ["--seed", "-1"], ["--seed", str(2**70)], ["--seed", "abc"], ["--monte-carlo", "-5"],
-            ["--monte-carlo", "1000000000"], ["--monte-carlo", "10"], ["--method", "nope"], ["--json"],
-            ["--seed", "1", "--monte-carlo", "0"]]
-_PLAN = ["--resolution", "--noise", "--calorimeter", "--mass", "--water", "--temperature", "--interval", "--fore",
-         "--after", "--release-time", "--probe-time", "--enthalpy", "--min-change", "--max-change",
-         "--noise-correlation", "--balance", "--glassware"]
-_PLAN_VALUES = ["0.000001 K", "5 K", "1000 K", "1e308 K", "1e-320 K", "-1 K", "nan", "abc", "0", "1e308", "٣",
-                "9" * 5000, "3 g", "1e308 g", "100 mL", "0.5", "2", "18 ± 2 J/K", ""]
+_VALUES = [
+    '"1e308 g"',
+    '"1e-320 g"',
+    '"-5 g"',
+    '"nan g"',
+    '"inf mL"',
+    "1e308",
+    "-1",
+    "0",
+    "1e30",
+    "9" * 5000,
+    '"' + "9" * 5000 + ' g"',
+    '"K999999999999999999999Cl"',
+    '"yesterday"',
+    '"2025-13-45"',
+    "[" * 3000 + "]" * 3000,
+    "[1, 2]",
+    "{a = 1}",
+    "true",
+    '"٣ g"',
+    '"3 ± 1e308 g"',
+    '"3 ± -1 g"',
+    '"3 kg"',
+    '"3 mL"',
+    '""',
+    '"' + "x" * 500 + '"',
+    "2025-03-13",
+    "12:00:00",
+    '"0.000000001 K"',
+    '"100 K"',
+    '"5000 degC"',
+]
+_READINGS = [
+    '"../../../../../etc/passwd"',
+    '"/dev/zero"',
+    '"/etc/passwd"',
+    '"."',
+    '"a\\u0000b"',
+    '""',
+    '"nope.csv"',
+    '"sub/../../x.csv"',
+    '"big.csv"',
+    '"longcell.csv"',
+    '"link.csv"',
+]
+_OPTIONS = [
+    [],
+    ["--seed", "-1"],
+    ["--seed", str(2**70)],
+    ["--seed", "abc"],
+    ["--monte-carlo", "-5"],
+    ["--monte-carlo", "1000000000"],
+    ["--monte-carlo", "10"],
+    ["--method", "nope"],
+    ["--json"],
+    ["--seed", "1", "--monte-carlo", "0"],
+]
+_PLAN = [
+    "--resolution",
+    "--noise",
+    "--calorimeter",
+    "--mass",
+    "--water",
+    "--temperature",
+    "--interval",
+    "--fore",
+    "--after",
+    "--release-time",
+    "--probe-time",
+    "--enthalpy",
+    "--min-change",
+    "--max-change",
+    "--noise-correlation",
+    "--balance",
+    "--glassware",
+]
+_PLAN_VALUES = [
+    "0.000001 K",
+    "5 K",
+    "1000 K",
+    "1e308 K",
+    "1e-320 K",
+    "-1 K",
+    "nan",
+    "abc",
+    "0",
+    "1e308",
+    "٣",
+    "9" * 5000,
+    "3 g",
+    "1e308 g",
+    "100 mL",
+    "0.5",
+    "2",
+    "18 ± 2 J/K",
+    "",
+]
 
 
 def _folder() -> Path:
@@ -61,8 +144,20 @@ def analyze_args(draw: Any, folder: Path) -> list[str]:
         lines[i] = f"{key} = {value}"
     path = folder / f"fuzz-{draw(st.integers(0, 9))}.toml"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    target = draw(st.sampled_from([str(path), str(path), str(path), str(folder), "/dev/zero", "a\x00b",
-                                   str(folder / "missing.toml"), "x" * 5000]))
+    target = draw(
+        st.sampled_from(
+            [
+                str(path),
+                str(path),
+                str(path),
+                str(folder),
+                "/dev/zero",
+                "a\x00b",
+                str(folder / "missing.toml"),
+                "x" * 5000,
+            ]
+        )
+    )
     opts = draw(st.sampled_from(_OPTIONS))
     if "--monte-carlo" not in opts:
         opts = [*opts, "--monte-carlo", "0"]
@@ -71,18 +166,52 @@ def analyze_args(draw: Any, folder: Path) -> list[str]:
 
 @st.composite
 def plan_args(draw: Any) -> list[str]:
-    args = ["plan", draw(st.sampled_from(["dissolution", "neutralization"])), "--formula", "KCl",
-            "--mass", "3 g", "--water", "100 mL", "--acid", "HCl", "--base", "NaOH",
-            "--acid-concentration", "1 mol/L", "--base-concentration", "1 mol/L", "--acid-volume", "50 mL",
-            "--base-volume", "50 mL", "--calorimeter", "18 ± 2 J/K", "--resolution", "0.01 K"]
+    args = [
+        "plan",
+        draw(st.sampled_from(["dissolution", "neutralization"])),
+        "--formula",
+        "KCl",
+        "--mass",
+        "3 g",
+        "--water",
+        "100 mL",
+        "--acid",
+        "HCl",
+        "--base",
+        "NaOH",
+        "--acid-concentration",
+        "1 mol/L",
+        "--base-concentration",
+        "1 mol/L",
+        "--acid-volume",
+        "50 mL",
+        "--base-volume",
+        "50 mL",
+        "--calorimeter",
+        "18 ± 2 J/K",
+        "--resolution",
+        "0.01 K",
+    ]
     for _ in range(draw(st.integers(1, 3))):
         args += [draw(st.sampled_from(_PLAN)), draw(st.sampled_from(_PLAN_VALUES))]
     return args
 
 
-hess_args = st.builds(lambda t: ["hess", t], st.sampled_from(
-    ["KCl(s) -> K+(aq) + Cl-(aq)", "", "->", "K999999999999999999999Cl(s) -> K+(aq)", "(" * 3000,
-     "H+(aq) + OH-(aq) -> H2O(l)", "٣ H2O(l) -> ٣ H2O(l)", "x" * 5000]))
+hess_args = st.builds(
+    lambda t: ["hess", t],
+    st.sampled_from(
+        [
+            "KCl(s) -> K+(aq) + Cl-(aq)",
+            "",
+            "->",
+            "K999999999999999999999Cl(s) -> K+(aq)",
+            "(" * 3000,
+            "H+(aq) + OH-(aq) -> H2O(l)",
+            "٣ H2O(l) -> ٣ H2O(l)",
+            "x" * 5000,
+        ]
+    ),
+)
 
 
 def fuzz_cli(examples: int) -> tuple[int, list[str]]:
@@ -92,8 +221,9 @@ def fuzz_cli(examples: int) -> tuple[int, list[str]]:
     internal: list[str] = []
     count = [0]
 
-    @settings(max_examples=examples, deadline=None, derandomize=True, database=None,
-              suppress_health_check=list(HealthCheck))
+    @settings(
+        max_examples=examples, deadline=None, derandomize=True, database=None, suppress_health_check=list(HealthCheck)
+    )
     @given(st.one_of(analyze_args(folder), analyze_args(folder), plan_args(), hess_args))
     def one(args: list[str]) -> None:
         result = runner.invoke(cli, args, catch_exceptions=True)
@@ -101,8 +231,9 @@ def fuzz_cli(examples: int) -> tuple[int, list[str]]:
         out = result.output
         escaped = result.exception is not None and not isinstance(result.exception, SystemExit)
         if escaped or "internal error" in out or result.exit_code not in (0, 2):
-            internal.append(f"exit {result.exit_code} {[a[:80] for a in args]}: "
-                            f"{(out or repr(result.exception))[-300:]}")
+            internal.append(
+                f"exit {result.exit_code} {[a[:80] for a in args]}: {(out or repr(result.exception))[-300:]}"
+            )
 
     one()
     return count[0], internal

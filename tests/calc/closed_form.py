@@ -29,7 +29,7 @@ def probe_temperature(t, *, T_inf, k, T0, t_m, D, k_r, s):
     Before mixing the probe trails the slow Newtonian drift by a constant factor s/(s−k).
     """
     t = np.asarray(t, dtype=float)
-    a0 = (T0 - T_inf)
+    a0 = T0 - T_inf
     fore = T_inf + a0 * s / (s - k) * np.exp(-k * t)
     T_m = T_inf + a0 * np.exp(-k * t_m)
     Ts_m = T_inf + a0 * s / (s - k) * np.exp(-k * t_m)
@@ -42,8 +42,18 @@ def probe_temperature(t, *, T_inf, k, T0, t_m, D, k_r, s):
     return np.where(t < t_m, fore, post)
 
 
-def write_run(directory, *, kind="dissolution", t, y_C, extra_toml="", name="run", resolution="0.001 K",
-              mixing_time=None, decimals=4):
+def write_run(
+    directory,
+    *,
+    kind="dissolution",
+    t,
+    y_C,
+    extra_toml="",
+    name="run",
+    resolution="0.001 K",
+    mixing_time=None,
+    decimals=4,
+):
     """Write a minimal run file and CSV; return the TOML path."""
     from pathlib import Path
 
@@ -56,7 +66,6 @@ def write_run(directory, *, kind="dissolution", t, y_C, extra_toml="", name="run
     mt = f'mixing_time = "{mixing_time}"\n' if mixing_time is not None else ""
     toml = d / f"{name}.toml"
     toml.write_text(
-        f'kind = "{kind}"\nreadings = "{name}.csv"\n{mt}'
-        f'[thermometer]\nresolution = "{resolution}"\n' + extra_toml
+        f'kind = "{kind}"\nreadings = "{name}.csv"\n{mt}[thermometer]\nresolution = "{resolution}"\n' + extra_toml
     )
     return toml

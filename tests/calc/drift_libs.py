@@ -34,9 +34,9 @@ import numpy as np
 import statsmodels.api as sm
 from statsmodels.tools.sm_exceptions import ConvergenceWarning
 
+from calc.deltat.base import resolution_term
 from calc.deltat.budget_terms import slope_floor
 from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation
-from calc.deltat.base import resolution_term
 from calc.deltat.logprep import prepare_log
 from calc.simulation.realistic import realistic_scenario
 
@@ -80,7 +80,7 @@ def _add_spikes(gen: np.random.Generator, y: np.ndarray, idx: np.ndarray, q: flo
         i = int(gen.choice(idx[2:-3]))
         width = int(gen.integers(1, 3))
         size = gen.uniform(0.1, 2.0) * gen.choice([-1.0, 1.0])
-        y[i:i + width] = q * np.round((y[i:i + width] + size) / q)
+        y[i : i + width] = q * np.round((y[i : i + width] + size) / q)
     return k
 
 
@@ -102,8 +102,9 @@ def windows_from_seed(seed: int) -> list[Window]:
         X = np.column_stack([np.ones(tw.size), tw - tb])
         (a_true, b_true), *_ = np.linalg.lstsq(X, probe[m], rcond=None)
         keep = (prep.t >= tw[0]) & (prep.t <= tw[-1])
-        out.append(Window(seed, which, q, tw, yw, prep.t[keep], prep.y[keep], tb, float(a_true), float(b_true),
-                          n_sp[which]))
+        out.append(
+            Window(seed, which, q, tw, yw, prep.t[keep], prep.y[keep], tb, float(a_true), float(b_true), n_sp[which])
+        )
     return out
 
 

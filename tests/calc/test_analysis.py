@@ -77,8 +77,10 @@ def test_a_purity_in_percent_gives_the_same_result_as_the_fraction(tmp_path):
         for ext in (".toml", ".csv"):
             shutil.copy(DEMO / f"diss-kcl-01{ext}", folder / f"diss-kcl-01{ext}")
         toml = folder / "diss-kcl-01.toml"
-        toml.write_text(toml.read_text(encoding="utf-8").replace("[solute]\n", f'[solute]\npurity = "{purity}"\n', 1),
-                        encoding="utf-8")
+        toml.write_text(
+            toml.read_text(encoding="utf-8").replace("[solute]\n", f'[solute]\npurity = "{purity}"\n', 1),
+            encoding="utf-8",
+        )
         a = analyze_run(toml, monte_carlo_trials=0)
         out[name] = (a.gum.values["molar_enthalpy"], a.gum.uncertainties["molar_enthalpy"])
     assert out["pct"][0] == pytest.approx(out["frac"][0], rel=1e-12)

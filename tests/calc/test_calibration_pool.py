@@ -8,9 +8,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from calc.statistics.calibration_pool import moves_too_far
-from calc.statistics.calibration_pool import pool
 from calc.errors import InputError
+from calc.statistics.calibration_pool import moves_too_far, pool
 
 
 def test_consistent_values_give_the_inverse_variance_weighted_mean() -> None:

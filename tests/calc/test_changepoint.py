@@ -14,8 +14,8 @@ import pytest
 from calc.analysis import analyze_run
 from calc.deltat.budget_terms import slope_floor
 from calc.deltat.changepoint import detect_mixing_time
-from calc.errors import InputError
 from calc.deltat.logprep import gap_warnings, prepare_log
+from calc.errors import InputError
 from calc.simulation.simulator import simulate_dissolution, simulate_electrical_calibration, write_run
 
 
@@ -28,8 +28,15 @@ def _sim_log(**kw):
 def test_mixing_time_found_with_short_fore_periods_and_in_long_logs(fore_s, after_s):
     # the old detector fitted the fore line to the first fifth of the log: a 3-hour log with
     # mixing at 600 s was read as mixing at 2512 s
-    t, y, tr = _sim_log(fore_s=fore_s, after_s=after_s, tau_r=30.0, tau_s=4.0, noise=0.004, resolution=0.001,
-                        dt=2.0 if after_s > 3600 else 1.0)
+    t, y, tr = _sim_log(
+        fore_s=fore_s,
+        after_s=after_s,
+        tau_r=30.0,
+        tau_s=4.0,
+        noise=0.004,
+        resolution=0.001,
+        dt=2.0 if after_s > 3600 else 1.0,
+    )
     m = detect_mixing_time(t, y, 0.001)
     assert abs(m.time - tr.t_m_s) <= max(3 * m.u, 6.0)
     assert 0 < m.u < 20
@@ -37,9 +44,20 @@ def test_mixing_time_found_with_short_fore_periods_and_in_long_logs(fore_s, afte
 
 def test_slow_endothermic_dissolution_with_spikes_and_no_mixing_time(tmp_path):
     # NH4NO3 (endothermic), release time constant 150 s, 0.1 K thermometer, two wild readings
-    sim = simulate_dissolution(5, formula="NH4NO3", molar_enthalpy_kJ_mol=25.7, solute_mass_g=6.0, tau_r=150.0,
-                               fore_s=120.0, after_s=2400.0, resolution=0.1, noise=0.02, spikes=2, spike_K=1.5,
-                               omit_mixing_time=True)
+    sim = simulate_dissolution(
+        5,
+        formula="NH4NO3",
+        molar_enthalpy_kJ_mol=25.7,
+        solute_mass_g=6.0,
+        tau_r=150.0,
+        fore_s=120.0,
+        after_s=2400.0,
+        resolution=0.1,
+        noise=0.02,
+        spikes=2,
+        spike_K=1.5,
+        omit_mixing_time=True,
+    )
     a = analyze_run(write_run(sim, tmp_path, "slow"), with_reference=False)
     assert a.periods.mixing_time_detected
     assert abs(a.periods.mixing_time - sim.truth.t_m_s) <= max(3 * a.periods.u_mixing_time, 10.0)
@@ -49,8 +67,17 @@ def test_slow_endothermic_dissolution_with_spikes_and_no_mixing_time(tmp_path):
 
 
 def test_heater_pulse_filling_most_of_the_log_is_found():
-    sim = simulate_electrical_calibration(3, water_volume_mL=80.0, voltage_V=6.0, current_A=1.0, duration_s=600.0,
-                                          fore_s=200.0, after_s=900.0, noise=0.003, resolution=0.01)
+    sim = simulate_electrical_calibration(
+        3,
+        water_volume_mL=80.0,
+        voltage_V=6.0,
+        current_A=1.0,
+        duration_s=600.0,
+        fore_s=200.0,
+        after_s=900.0,
+        noise=0.003,
+        resolution=0.01,
+    )
     m = detect_mixing_time(sim.time_s, sim.reading_C + 273.15, 0.01)
     assert abs(m.time - sim.truth.t_m_s) <= max(3 * m.u, 10.0)
 

@@ -44,9 +44,11 @@ def _tol(c) -> float:
 
 
 def test_calc_and_ruptures_agree_where_both_are_confident(outcomes):
-    both = [o for o in outcomes
-            if o[CALC].found_s is not None and o[CALC].u_s <= 10.0
-            and abs(o[DYNP].found_s - o[BINSEG].found_s) <= 10.0]
+    both = [
+        o
+        for o in outcomes
+        if o[CALC].found_s is not None and o[CALC].u_s <= 10.0 and abs(o[DYNP].found_s - o[BINSEG].found_s) <= 10.0
+    ]
     assert len(both) >= 6  # the check must see most of the logs
     agree = [abs(o[CALC].found_s - o[DYNP].found_s) <= _tol(o[CALC]) for o in both]
     assert np.mean(agree) >= 0.8, [(o[CALC].seed, o[CALC].error_s, o[DYNP].error_s) for o in both]

@@ -57,14 +57,16 @@ def test_checks_in_json_and_text(tmp_path: Path) -> None:
     assert "plausibility checks:" in text and "[solubility]" in text
 
 
-@pytest.mark.parametrize("kind", ["dissolution", "neutralization", "electrical-calibration",
-                                  "mixing-calibration", "reaction"])
+@pytest.mark.parametrize(
+    "kind", ["dissolution", "neutralization", "electrical-calibration", "mixing-calibration", "reaction"]
+)
 def test_ordinary_runs_raise_no_check(tmp_path: Path, kind: str) -> None:
     for seed in range(6):
         sim = random_scenario(kind, 100 + seed)
         a = analyze_run(write_run(sim, tmp_path, f"r{seed}"), with_reference=False)
-        truth = (sim.truth.molar_enthalpy_kJ_mol if a.main == "molar_enthalpy"
-                 else sim.truth.calorimeter_heat_capacity_J_K)
+        truth = (
+            sim.truth.molar_enthalpy_kJ_mol if a.main == "molar_enthalpy" else sim.truth.calorimeter_heat_capacity_J_K
+        )
         off = abs(a.gum.values[a.main] - truth) > 3 * a.gum.uncertainties[a.main]
         assert off or not codes(a), (seed, [c.message for c in a.checks])
 
@@ -108,8 +110,7 @@ def test_a_calibration_far_from_the_history_is_flagged(tmp_path: Path) -> None:
 
 
 def test_concentration_beyond_the_property_model(tmp_path: Path) -> None:
-    sim = simulate_dissolution(10, formula="NH4Cl", molar_enthalpy_kJ_mol=14.8, solute_mass_g=3.0,
-                               water_volume_mL=15.0)
+    sim = simulate_dissolution(10, formula="NH4Cl", molar_enthalpy_kJ_mol=14.8, solute_mass_g=3.0, water_volume_mL=15.0)
     p = write_run(sim, tmp_path, "conc")
     text = "\n".join(line for line in p.read_text().splitlines() if "specific_heat_capacity" not in line)
     p.write_text(text.replace("[mixture]\n", ""))

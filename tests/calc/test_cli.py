@@ -33,8 +33,15 @@ def run_file(tmp_path):
     t = np.arange(0.0, 1200.0, 2.0)
     y = probe_temperature(t, **P) - 273.15
     y = y + np.random.default_rng(3).normal(0, 0.003, t.size)
-    return write_run(tmp_path, t=t, y_C=np.round(y, 3), extra_toml=DISSOLUTION, resolution="0.001 K",
-                     mixing_time="240.0 ± 1.0 s", decimals=3)
+    return write_run(
+        tmp_path,
+        t=t,
+        y_C=np.round(y, 3),
+        extra_toml=DISSOLUTION,
+        resolution="0.001 K",
+        mixing_time="240.0 ± 1.0 s",
+        decimals=3,
+    )
 
 
 def test_json_record_has_exactly_the_public_keys(run_file):
@@ -42,11 +49,24 @@ def test_json_record_has_exactly_the_public_keys(run_file):
     assert res.exit_code == 0, res.output
     rec = json.loads(res.output.strip().splitlines()[0])
     assert set(rec) == {
-        "input", "kind", "corrected_delta_t", "heat", "molar_enthalpy", "expanded_uncertainty",
-        "coverage_factor", "method", "budget", "warnings", "checks", "comparison",
+        "input",
+        "kind",
+        "corrected_delta_t",
+        "heat",
+        "molar_enthalpy",
+        "expanded_uncertainty",
+        "coverage_factor",
+        "method",
+        "budget",
+        "warnings",
+        "checks",
+        "comparison",
         # the issue on real bench logs asks every output to show the mixing time (and whether it was
         # detected), the periods, the readings rejected as spikes and the gaps
-        "mixing_time", "periods", "rejected_readings", "gaps_s",
+        "mixing_time",
+        "periods",
+        "rejected_readings",
+        "gaps_s",
     }
     assert rec["mixing_time"] == {"value": 240.0, "standard_uncertainty": 1.0, "unit": "s", "detected": False}
     assert rec["rejected_readings"] == [] and rec["gaps_s"] == []
@@ -66,7 +86,9 @@ def test_json_record_has_exactly_the_public_keys(run_file):
     dT = rec["corrected_delta_t"]["value"]
     assert rec["molar_enthalpy"]["value"] == pytest.approx(-(m * 4.130 + 20.0) * dT / n / 1000, rel=1e-9)
     assert dT == pytest.approx(P["D"], rel=0.005)
-    assert rec["expanded_uncertainty"] == pytest.approx(rec["coverage_factor"] * rec["molar_enthalpy"]["standard_uncertainty"], rel=1e-9)
+    assert rec["expanded_uncertainty"] == pytest.approx(
+        rec["coverage_factor"] * rec["molar_enthalpy"]["standard_uncertainty"], rel=1e-9
+    )
     assert abs(sum(b["share"] for b in rec["budget"]) - 1) < 1e-9
 
 

@@ -10,15 +10,21 @@ import math
 
 import pytest
 
-from calc.refdata.comparison import compare
 from calc.errors import InputError
+from calc.refdata.comparison import compare
 from calc.refdata.reference import ReferenceValue, find_reference, neutralization_reference, solution_enthalpy
 
 
 def _ref(value: float = 10.0, u: float = 0.5, **kw) -> ReferenceValue:
     base = dict(
-        name="test", quantity="q", value=value, u=u, unit="kJ/mol", temperature_K=298.15,
-        molality=None, source="invented for the test",
+        name="test",
+        quantity="q",
+        value=value,
+        u=u,
+        unit="kJ/mol",
+        temperature_K=298.15,
+        molality=None,
+        source="invented for the test",
     )
     base.update(kw)
     return ReferenceValue(**base)
@@ -99,8 +105,7 @@ def test_neutralization_and_certified_conditions_notes() -> None:
 
 @pytest.mark.parametrize(
     ("x", "U", "m", "T"),
-    [(float("nan"), 1.0, None, 298.15), (1.0, -1.0, None, 298.15), ("a", 1.0, None, 298.15),
-     (1.0, 1.0, -0.1, 298.15)],
+    [(float("nan"), 1.0, None, 298.15), (1.0, -1.0, None, 298.15), ("a", 1.0, None, 298.15), (1.0, 1.0, -0.1, 298.15)],
 )
 def test_bad_input_is_an_input_error(x, U, m, T) -> None:
     with pytest.raises(InputError):

@@ -7,6 +7,7 @@ from datetime import date, datetime
 import numpy as np
 import pytest
 
+from calc.errors import InputError
 from calc.statistics.control_charts import (
     D2,
     D3,
@@ -19,7 +20,6 @@ from calc.statistics.control_charts import (
     is_overdue,
     run_rules,
 )
-from calc.errors import InputError
 
 
 def test_moving_range_constants_match_the_published_table():

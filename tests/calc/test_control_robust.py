@@ -23,7 +23,8 @@ def test_mad_scale_is_the_published_normal_consistency_constant() -> None:
     assert MAD_SCALE == pytest.approx(1.4826, abs=1e-4)
     x = np.array([1.0, 2.0, 3.0, 4.0, 100.0])
     assert MAD_SCALE * float(np.median(np.abs(x - np.median(x)))) == pytest.approx(
-        float(sps.median_abs_deviation(x, scale="normal")))
+        float(sps.median_abs_deviation(x, scale="normal"))
+    )
     assert ROBUST_Z == 3.5
 
 

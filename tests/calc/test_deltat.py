@@ -15,8 +15,8 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from calc.deltat.base import Log
-from calc.deltat.registry import METHODS, corrected_delta_t
 from calc.deltat.periods import find_periods
+from calc.deltat.registry import METHODS, corrected_delta_t
 from tests.calc.closed_form import probe_temperature, true_temperature
 
 BASE = dict(T_inf=295.15, k=1 / 3600, T0=294.65, t_m=300.0, D=2.0, k_r=1 / 20, s=1 / 5)
@@ -46,9 +46,13 @@ def test_closed_form_matches_numerical_integration():
     t_eval = np.arange(0, 1200.0, 5.0)
     sol1 = solve_ivp(rhs, (0, p["t_m"]), [T0, Ts0], rtol=1e-11, atol=1e-12, max_step=1.0, dense_output=True)
     sol2 = solve_ivp(rhs, (p["t_m"], 1200.0), sol1.y[:, -1], rtol=1e-11, atol=1e-12, max_step=1.0, dense_output=True)
-    num = np.where(t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[1], sol2.sol(np.maximum(t_eval, p["t_m"]))[1])
+    num = np.where(
+        t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[1], sol2.sol(np.maximum(t_eval, p["t_m"]))[1]
+    )
     assert np.max(np.abs(num - probe_temperature(t_eval, **p))) < 1e-6
-    num_T = np.where(t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[0], sol2.sol(np.maximum(t_eval, p["t_m"]))[0])
+    num_T = np.where(
+        t_eval < p["t_m"], sol1.sol(np.minimum(t_eval, p["t_m"]))[0], sol2.sol(np.maximum(t_eval, p["t_m"]))[0]
+    )
     tp = {k: v for k, v in p.items() if k != "s"}
     assert np.max(np.abs(num_T - true_temperature(t_eval, **tp))) < 1e-6
 
@@ -157,3 +161,23 @@ def test_every_method_is_registered_and_reports_a_value():
         assert name in METHODS
         d = corrected_delta_t(log, name)
         assert math.isfinite(d.value) and d.u > 0
+
+
+def test_two_solution_start_level_corrects_the_bent_fore_drift():
+    # Closed form: the first solution relaxes exponentially (k_A = the final system's k) towards the
+    # room; a straight fore line carried to t_m misses by about k_A·b·L²/12 (docs/methods.md §8.8).
+    k, T_room, t_m = 1 / 1200, 295.15, 240.5  # the pour between two readings
+    T_A = lambda tt: T_room + (293.65 - T_room) * np.exp(-k * tt)  # noqa: E731
+    t = np.arange(0.0, 1500.0, 1.0)
+    T_mix = T_A(t_m) + 0.35
+    u = np.maximum(t - t_m, 0.0)
+    y = np.where(t < t_m, T_A(t), T_room + (T_mix + 3.0 - T_room) * np.exp(-k * u))
+    y[(t >= t_m) & (t < t_m + 6)] = T_mix + 3.0  # a fast release, finished in the main period
+    per = find_periods(t, y, resolution=1e-6, mixing_time=t_m, two_solution=True)
+    dt = corrected_delta_t(Log(t, y, per, 1e-6, two_solution=True), "regnault-pfaundler")
+    a, b, t_mean = dt.construction.fore_line
+    line_miss = a + b * (t_m - t_mean) - T_A(t_m)
+    assert line_miss > 2e-3  # the straight line overshoots a concave drift by several mK
+    miss = dt.start_temperature - T_A(t_m)
+    assert abs(miss) < 0.15 * line_miss
+    assert abs(miss) < 2.0 * dt.u_start_temperature  # what remains is inside the stated term

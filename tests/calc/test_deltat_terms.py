@@ -71,10 +71,12 @@ def test_slope_floor_shrinks_once_the_window_sweeps_steps():
 def test_room_response_solves_the_drifting_room_equation():
     k, c, t_i = 1 / 1500.0, 2e-7, 300.0
     t = np.linspace(0.0, 1500.0, 301)
-    fwd = solve_ivp(lambda s, d: [-k * d[0] + c * (s - t_i)], (t_i, t[-1]), [0.0], t_eval=t[t >= t_i],
-                    rtol=1e-11, atol=1e-14)
-    back = solve_ivp(lambda s, d: [-k * d[0] + c * (s - t_i)], (t_i, 0.0), [0.0], t_eval=t[t < t_i][::-1],
-                     rtol=1e-11, atol=1e-14)
+    fwd = solve_ivp(
+        lambda s, d: [-k * d[0] + c * (s - t_i)], (t_i, t[-1]), [0.0], t_eval=t[t >= t_i], rtol=1e-11, atol=1e-14
+    )
+    back = solve_ivp(
+        lambda s, d: [-k * d[0] + c * (s - t_i)], (t_i, 0.0), [0.0], t_eval=t[t < t_i][::-1], rtol=1e-11, atol=1e-14
+    )
     num = np.concatenate([back.y[0][::-1], fwd.y[0]])
     assert np.max(np.abs(room_response(t, t_i, k, c) - num)) < 1e-9
     assert room_response(np.array([t_i + 10.0]), t_i, 0.0, c)[0] == pytest.approx(0.5 * c * 100.0)
@@ -91,8 +93,16 @@ def _drifting_room_log(beta_K_per_h: float, *, D: float = 2.0, tau_r: float = 40
 
     t = np.arange(0.0, t_m + main + 600.0, 2.0)
     sol1 = solve_ivp(rhs, (0.0, t_m), [294.4, 294.4], t_eval=t[t < t_m], rtol=1e-10, atol=1e-12, method="LSODA")
-    sol2 = solve_ivp(rhs, (t_m, t[-1]), sol1.y[:, -1] if sol1.y.size else [294.4, 294.4], t_eval=t[t >= t_m],
-                     rtol=1e-10, atol=1e-12, method="LSODA", max_step=5.0)
+    sol2 = solve_ivp(
+        rhs,
+        (t_m, t[-1]),
+        sol1.y[:, -1] if sol1.y.size else [294.4, 294.4],
+        t_eval=t[t >= t_m],
+        rtol=1e-10,
+        atol=1e-12,
+        method="LSODA",
+        max_step=5.0,
+    )
     y = np.concatenate([sol1.y[1], sol2.y[1]])
     per = find_periods(t, y, resolution=1e-6, mixing_time=t_m, after=(t_m + main, float(t[-1])))
     return Log(t, y, per, 1e-6)

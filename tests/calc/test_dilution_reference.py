@@ -48,6 +48,7 @@ WIDE = {"NaCl": "bC_Na_Cl_A92ii", "KCl": "bC_K_Cl_A99", "HCl": "bC_H_Cl_CMR93"}
 TEMPS_C = (15.0, 17.3, 20.0, 25.0, 35.0)
 MOLALITIES = (0.05, 0.1, 0.2, 0.3, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
 
+
 def _phi_L_table(param_names: dict[str, str]) -> dict[tuple[str, float, float], float]:
     """Return {(salt, °C, m): φ_L in kJ/mol} from pytzer with one c–a parameter function per salt."""
     from pytzer import debyehueckel, parameters, unsymmetrical
@@ -109,7 +110,8 @@ def test_phi_L_within_two_u_of_the_wide_range_model(wide_range, salt, tc, m):
     assert got is not None and got.model == WIDE_RANGE_MODEL
     assert abs(got.value - ref) <= 2.0 * got.u, (
         f"{salt} {tc} °C {m} mol/kg: calc {got.value:+.3f} ± {got.u:.3f}, {WIDE[salt]} {ref:+.3f} kJ/mol "
-        f"({(got.value - ref) / got.u:+.2f} u)")
+        f"({(got.value - ref) / got.u:+.2f} u)"
+    )
 
 
 @pytest.mark.parametrize("salt", list(SALTS))

@@ -21,8 +21,20 @@ ROOT = Path(__file__).resolve().parents[2]
 METHODS_MD = ROOT / "docs" / "methods.md"
 
 #: Directories that are not part of the repository's own text.
-SKIP_DIRS = {".git", ".venv", "venv", "node_modules", "__pycache__", ".pytest_cache", ".mypy_cache",
-             ".ruff_cache", "build", "dist", "instance", ".eggs"}
+SKIP_DIRS = {
+    ".git",
+    ".venv",
+    "venv",
+    "node_modules",
+    "__pycache__",
+    ".pytest_cache",
+    ".mypy_cache",
+    ".ruff_cache",
+    "build",
+    "dist",
+    "instance",
+    ".eggs",
+}
 MAX_BYTES = 2_000_000
 
 # Spelled in two pieces so that this file does not cite the outside brief itself.
@@ -92,9 +104,7 @@ def test_the_walk_sees_the_repository():
 
 def test_no_file_cites_the_outside_brief():
     bad = [
-        f"{path}:{_line(text, m.start())}"
-        for path, text in repository_texts()
-        for m in OUTSIDE_CITATION.finditer(text)
+        f"{path}:{_line(text, m.start())}" for path, text in repository_texts() for m in OUTSIDE_CITATION.finditer(text)
     ]
     assert bad == [], "cite docs/methods.md instead of the brief outside the repository: " + ", ".join(bad)
 
@@ -102,15 +112,57 @@ def test_no_file_cites_the_outside_brief():
 def test_methods_document_has_the_agreed_numbering():
     # Citations in code and tests use these numbers; they must not drift (new sections are added at the end).
     expected = {
-        "1", "1.1", "1.2",
-        "2", "2.0", "2.1", "2.2", "2.3", "2.4", "2.5", "2.6",
-        "3", "3.1", "3.2", "3.3",
-        "4", "4.1", "4.2", "4.3", "4.4", "4.5", "4.6",
-        "5", "5.1", "5.2", "5.3", "5.4",
-        "6", "6.1", "6.2", "6.3", "6.4",
-        "7", "7.1", "7.2",
-        "8", "8.1", "8.2", "8.3", "8.4", "8.5", "8.6", "8.7",
-        "9", "9.1", "9.2", "9.3", "9.4",
+        "1",
+        "1.1",
+        "1.2",
+        "2",
+        "2.0",
+        "2.1",
+        "2.2",
+        "2.3",
+        "2.4",
+        "2.5",
+        "2.6",
+        "3",
+        "3.1",
+        "3.2",
+        "3.3",
+        "4",
+        "4.1",
+        "4.2",
+        "4.3",
+        "4.4",
+        "4.5",
+        "4.6",
+        "5",
+        "5.1",
+        "5.2",
+        "5.3",
+        "5.4",
+        "5.5",
+        "6",
+        "6.1",
+        "6.2",
+        "6.3",
+        "6.4",
+        "7",
+        "7.1",
+        "7.2",
+        "8",
+        "8.1",
+        "8.2",
+        "8.3",
+        "8.4",
+        "8.5",
+        "8.6",
+        "8.7",
+        "8.8",
+        "8.9",
+        "9",
+        "9.1",
+        "9.2",
+        "9.3",
+        "9.4",
     }
     assert sections() == expected
     assert "## References" in METHODS_MD.read_text(encoding="utf-8")
@@ -118,11 +170,7 @@ def test_methods_document_has_the_agreed_numbering():
 
 def test_every_citation_names_an_existing_section():
     known = sections()
-    citations = [
-        (path, line, number)
-        for path, text in repository_texts()
-        for line, number in cited_sections(text)
-    ]
+    citations = [(path, line, number) for path, text in repository_texts() for line, number in cited_sections(text)]
     assert len(citations) >= 50  # the code and tests cite the document throughout
     bad = [f"{path}:{line} §{number}" for path, line, number in citations if number not in known]
     assert bad == [], "citations of sections that docs/methods.md does not have: " + ", ".join(bad)
@@ -153,4 +201,3 @@ def test_cross_references_inside_the_methods_document_exist():
 )
 def test_citation_pattern(text: str, expected: list[str]) -> None:
     assert [n for _, n in cited_sections(text)] == expected
-

@@ -62,8 +62,14 @@ def test_spike_screen_matters_and_is_as_good_as_the_robust_fits(fitted):
 
 def test_calc_uncertainty_covers_the_truth_more_often_than_the_robust_fits_standard_errors(fitted):
     def cover(name, which):
-        return float(np.mean([abs(getattr(f[name], which) - getattr(w, which + "_true"))
-                              <= 2.0 * getattr(f[name], "u_" + which) for w, f in fitted]))
+        return float(
+            np.mean(
+                [
+                    abs(getattr(f[name], which) - getattr(w, which + "_true")) <= 2.0 * getattr(f[name], "u_" + which)
+                    for w, f in fitted
+                ]
+            )
+        )
 
     for which in ("a", "b"):
         # RLM assumes independent residuals; calc inflates for AR(1) noise and adds the resolution terms
@@ -73,6 +79,11 @@ def test_calc_uncertainty_covers_the_truth_more_often_than_the_robust_fits_stand
 
 def test_ar1_inflation_is_of_the_size_of_newey_west(fitted):
     # the slope uncertainty of calc's line against statsmodels' HAC standard error on the same readings
-    ratio = np.array([f["calc: spike screen + line (AR(1))"].u_b / f["statsmodels OLS + HAC, screened"].u_b
-                      for _, f in fitted if f["statsmodels OLS + HAC, screened"].u_b > 0])
+    ratio = np.array(
+        [
+            f["calc: spike screen + line (AR(1))"].u_b / f["statsmodels OLS + HAC, screened"].u_b
+            for _, f in fitted
+            if f["statsmodels OLS + HAC, screened"].u_b > 0
+        ]
+    )
     assert 0.8 <= float(np.median(ratio)) <= 2.5, np.percentile(ratio, [10, 50, 90])

@@ -10,14 +10,17 @@ from uncertainties import ufloat
 from calc import formatting as fmt
 
 
-@pytest.mark.parametrize(("value", "u", "unit", "text"), [
-    # GUM 7.2.2 writes m_S = 100.02147 g with u_c = 0.35 mg as "100,021 47(35) g" (JCGM 100:2008)
-    (100.02147, 0.00035, "g", "100.02147 ± 0.00035 g"),
-    (18.67451548263969, 1.166440396627191, "J/K", "18.7 ± 1.2 J/K"),  # the raw input line
-    (-57.34, 0.847, "kJ/mol", "-57.34 ± 0.85 kJ/mol"),
-    (2531.4, 12.7, "J", "2531 ± 13 J"),
-    (0.9970, 0.0005, "g/mL", "0.99700 ± 0.00050 g/mL"),
-])
+@pytest.mark.parametrize(
+    ("value", "u", "unit", "text"),
+    [
+        # GUM 7.2.2 writes m_S = 100.02147 g with u_c = 0.35 mg as "100,021 47(35) g" (JCGM 100:2008)
+        (100.02147, 0.00035, "g", "100.02147 ± 0.00035 g"),
+        (18.67451548263969, 1.166440396627191, "J/K", "18.7 ± 1.2 J/K"),  # the raw input line
+        (-57.34, 0.847, "kJ/mol", "-57.34 ± 0.85 kJ/mol"),
+        (2531.4, 12.7, "J", "2531 ± 13 J"),
+        (0.9970, 0.0005, "g/mL", "0.99700 ± 0.00050 g/mL"),
+    ],
+)
 def test_measured_two_digits_of_u(value: float, u: float, unit: str, text: str) -> None:
     assert fmt.measured(value, u, unit) == text
     # the same rounding as the uncertainties package's own ".2uf" format (a reference library)

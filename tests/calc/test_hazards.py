@@ -48,11 +48,24 @@ def test_every_code_in_the_substance_data_has_a_text() -> None:
 # Art. 26): no exclamation mark where the skull and crossbones applies, and none for
 # skin or eye irritation where the corrosion pictogram applies.
 _NEEDS = {
-    "H220": "GHS02", "H225": "GHS02", "H226": "GHS02", "H228": "GHS02", "H261": "GHS02",
-    "H271": "GHS03", "H272": "GHS03", "H280": "GHS04",
-    "H290": "GHS05", "H314": "GHS05", "H318": "GHS05",
-    "H301": "GHS06", "H311": "GHS06", "H331": "GHS06",
-    "H370": "GHS08", "H400": "GHS09", "H410": "GHS09", "H411": "GHS09",
+    "H220": "GHS02",
+    "H225": "GHS02",
+    "H226": "GHS02",
+    "H228": "GHS02",
+    "H261": "GHS02",
+    "H271": "GHS03",
+    "H272": "GHS03",
+    "H280": "GHS04",
+    "H290": "GHS05",
+    "H314": "GHS05",
+    "H318": "GHS05",
+    "H301": "GHS06",
+    "H311": "GHS06",
+    "H331": "GHS06",
+    "H370": "GHS08",
+    "H400": "GHS09",
+    "H410": "GHS09",
+    "H411": "GHS09",
 }
 _DANGER = {"H220", "H225", "H271", "H301", "H311", "H314", "H318", "H331", "H370"}
 

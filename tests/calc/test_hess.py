@@ -90,8 +90,14 @@ def test_unknown_species_are_named_with_the_states_the_table_has() -> None:
 
 @pytest.mark.parametrize(
     "bad",
-    ["NaCl -> Na+ + Cl-", "NaCl(s)", "a -> b -> c", "NaCl(s) -> Na+(plasma) + Cl-(aq)", "-> H2O(l)",
-     "0 H2(g) -> H2(g)"],
+    [
+        "NaCl -> Na+ + Cl-",
+        "NaCl(s)",
+        "a -> b -> c",
+        "NaCl(s) -> Na+(plasma) + Cl-(aq)",
+        "-> H2O(l)",
+        "0 H2(g) -> H2(g)",
+    ],
 )
 def test_malformed_equations_are_input_errors(bad: str) -> None:
     with pytest.raises(InputError):

@@ -53,20 +53,86 @@ SETTINGS = dict(deadline=None, suppress_health_check=[HealthCheck.too_slow])
 # --------------------------------------------------------------------------- #
 
 _HOSTILE_PIECES = [
-    "1", "0", "-", "+", ".", "e", "E", "e-", "±", "+/-", "+-", "−", " ", "\t", "\n", "\x00",
-    "(", ")", ":", ",", "/", "*", "**", "^", "%", "mL", "L", "g", "K", "°C", "°", "C", "degC",
-    "℃", "°F", "s", "min", "h", "mol", "J", "nan", "NaN", "inf", "-inf", "Infinity",
-    "1e308", "1e309", "9" * 30, "1e-400", "e999999999", "e-999999999", "٣", "१२", "𝟗", "²",
-    "½", "delta_degC", "mK", "ppm", "%", "degC*degC", "1/degC", "degC/K", "\u200b", "\ufeff",
-    "0" * 5000, "1:", "99:", "00", "59", "60", "12:34:56", "±±±±", "e" * 3,
+    "1",
+    "0",
+    "-",
+    "+",
+    ".",
+    "e",
+    "E",
+    "e-",
+    "±",
+    "+/-",
+    "+-",
+    "−",
+    " ",
+    "\t",
+    "\n",
+    "\x00",
+    "(",
+    ")",
+    ":",
+    ",",
+    "/",
+    "*",
+    "**",
+    "^",
+    "%",
+    "mL",
+    "L",
+    "g",
+    "K",
+    "°C",
+    "°",
+    "C",
+    "degC",
+    "℃",
+    "°F",
+    "s",
+    "min",
+    "h",
+    "mol",
+    "J",
+    "nan",
+    "NaN",
+    "inf",
+    "-inf",
+    "Infinity",
+    "1e308",
+    "1e309",
+    "9" * 30,
+    "1e-400",
+    "e999999999",
+    "e-999999999",
+    "٣",
+    "१२",
+    "𝟗",
+    "²",
+    "½",
+    "delta_degC",
+    "mK",
+    "ppm",
+    "%",
+    "degC*degC",
+    "1/degC",
+    "degC/K",
+    "\u200b",
+    "\ufeff",
+    "0" * 5000,
+    "1:",
+    "99:",
+    "00",
+    "59",
+    "60",
+    "12:34:56",
+    "±±±±",
+    "e" * 3,
 ]
 
 hostile_text = st.one_of(
     st.text(max_size=60),
     st.lists(st.sampled_from(_HOSTILE_PIECES), max_size=12).map("".join),
-    st.lists(st.one_of(st.sampled_from(_HOSTILE_PIECES), st.text(max_size=3)), max_size=8).map(
-        "".join
-    ),
+    st.lists(st.one_of(st.sampled_from(_HOSTILE_PIECES), st.text(max_size=3)), max_size=8).map("".join),
 )
 
 
@@ -185,9 +251,7 @@ def _close(a: float, b: float, *, rel: float = 1e-12, scale: float = 0.0) -> boo
 
 @settings(max_examples=300, **SETTINGS)
 @given(
-    pair=st.sampled_from(
-        [(ref, unit) for ref, units in UNITS_BY_DIMENSION.items() for unit in units]
-    ),
+    pair=st.sampled_from([(ref, unit) for ref, units in UNITS_BY_DIMENSION.items() for unit in units]),
     value=finite,
     u=finite_u,
     spacing=st.sampled_from([" ", "", "  "]),
@@ -264,13 +328,45 @@ def test_measured_refuses_values_that_underflow_to_zero(text: str) -> None:
 # --------------------------------------------------------------------------- #
 
 _CELLS = [
-    "1", "2.5", "-3", "1e3", "12,5", "21,37", "nan", "inf", "", " ", "abc", "3:05", "1:03:05",
-    "99:99", "1e309", "-1e309", '"4"', "٣", "#", "1_0", "0x10", "1e400", "9" * 400 + ":00",
+    "1",
+    "2.5",
+    "-3",
+    "1e3",
+    "12,5",
+    "21,37",
+    "nan",
+    "inf",
+    "",
+    " ",
+    "abc",
+    "3:05",
+    "1:03:05",
+    "99:99",
+    "1e309",
+    "-1e309",
+    '"4"',
+    "٣",
+    "#",
+    "1_0",
+    "0x10",
+    "1e400",
+    "9" * 400 + ":00",
 ]
 _HEADERS = [
-    "time_s,temperature_C", "t/s;T/K", "time (min),Temperature (°F)", "time_min,temperature_K",
-    "t/h,T/°C", "time (mm:ss),temp (C)", "time [h:mm:ss];T [K]", "time_ms\ttemperature_degC",
-    "T/K,t/s", "t/K,T/s", "x/y,z/w", "time,temp", "t/s", "",
+    "time_s,temperature_C",
+    "t/s;T/K",
+    "time (min),Temperature (°F)",
+    "time_min,temperature_K",
+    "t/h,T/°C",
+    "time (mm:ss),temp (C)",
+    "time [h:mm:ss];T [K]",
+    "time_ms\ttemperature_degC",
+    "T/K,t/s",
+    "t/K,T/s",
+    "x/y,z/w",
+    "time,temp",
+    "t/s",
+    "",
 ]
 
 
@@ -335,10 +431,8 @@ def _check_readings(text: str) -> None:
 @example(text="t/h,T/K\n" + "".join(f"{i},295\n" for i in range(9)) + "1e308,295\n")
 @example(text="time_s,temperature_C\n" + "".join(f"{i},21\n" for i in range(9)) + "1e309,21\n")
 # Found: a clock time with a huge hour count leaked OverflowError / ValueError.
-@example(text="time (h:mm:ss),T (K)\n" + "".join(f"0:00:{i:02d},295\n" for i in range(9))
-         + "9" * 400 + ":00:00,295\n")
-@example(text="time (h:mm:ss),T (K)\n" + "".join(f"0:00:{i:02d},295\n" for i in range(9))
-         + "9" * 5000 + ":00:00,295\n")
+@example(text="time (h:mm:ss),T (K)\n" + "".join(f"0:00:{i:02d},295\n" for i in range(9)) + "9" * 400 + ":00:00,295\n")
+@example(text="time (h:mm:ss),T (K)\n" + "".join(f"0:00:{i:02d},295\n" for i in range(9)) + "9" * 5000 + ":00:00,295\n")
 # Found: the header-cell pattern is quadratic in a run of spaces (~2 s for 20 000).
 @example(text="time" + " " * 100_000 + "(s,T (K)\n")
 def test_readings_any_text(text: str) -> None:
@@ -393,13 +487,9 @@ def valid_logs(draw: st.DrawFn) -> tuple[str, np.ndarray, np.ndarray, list[int],
         time_cells = [repr(float(v)) for v in in_unit]
         seconds = np.array([float(c) for c in time_cells]) * SECONDS_PER[time_unit]
     celsius = draw(st.lists(st.floats(-20.0, 90.0), min_size=n, max_size=n))
-    written = [
-        float(scipy.constants.convert_temperature(c, "C", temp_unit)) for c in celsius
-    ]
+    written = [float(scipy.constants.convert_temperature(c, "C", temp_unit)) for c in celsius]
     temp_cells = [repr(v) for v in written]
-    kelvin = np.array(
-        [float(scipy.constants.convert_temperature(float(c), temp_unit, "K")) for c in temp_cells]
-    )
+    kelvin = np.array([float(scipy.constants.convert_temperature(float(c), temp_unit, "K")) for c in temp_cells])
     rows: list[str] = []
     lines: list[int] = []
     if header is not None:
@@ -449,7 +539,7 @@ def test_readings_one_bad_cell_names_its_line(log: tuple, data: st.DataObject) -
     text, _, _, lines, delimiter = log
     bom = "\ufeff" if text.startswith("\ufeff") else ""
     newline = "\r\n" if "\r\n" in text else "\n"
-    rows = text[len(bom):].split(newline)
+    rows = text[len(bom) :].split(newline)
     target = data.draw(st.sampled_from(lines), label="line")
     column = data.draw(st.integers(0, 1), label="column")
     bad = data.draw(st.sampled_from(_BAD_CELLS), label="bad")
@@ -525,10 +615,37 @@ _FIELD_NAMES = sorted(
 )
 _SECTION_NAMES = sorted({s for schema in SCHEMA.values() for s in schema})
 _VALUE_TEXTS = [
-    "100.0 ± 0.1 mL", "5.000 ± 0.001 g", "0.01 K", "25.0 °C", "1.000 ± 0.005 mol/L", "KCl",
-    "NaOH", "HCl", "180 s", "3:00", "12.00 ± 0.01 V", "1.5 A", "15 ± 3 J/K", "4.18 J/(g*K)",
-    "0.99", "-5 mL", "0 g", "nan mL", "1e400 mL", "Xx9", "((((", "C" * 3 + "99999999999",
-    "0.01 degF", "5 mK", "-0.01 K", "readings.csv", "", " ", "1 ± -1 g", "0.5 mol", "2 g",
+    "100.0 ± 0.1 mL",
+    "5.000 ± 0.001 g",
+    "0.01 K",
+    "25.0 °C",
+    "1.000 ± 0.005 mol/L",
+    "KCl",
+    "NaOH",
+    "HCl",
+    "180 s",
+    "3:00",
+    "12.00 ± 0.01 V",
+    "1.5 A",
+    "15 ± 3 J/K",
+    "4.18 J/(g*K)",
+    "0.99",
+    "-5 mL",
+    "0 g",
+    "nan mL",
+    "1e400 mL",
+    "Xx9",
+    "((((",
+    "C" * 3 + "99999999999",
+    "0.01 degF",
+    "5 mK",
+    "-0.01 K",
+    "readings.csv",
+    "",
+    " ",
+    "1 ± -1 g",
+    "0.5 mol",
+    "2 g",
 ]
 toml_scalars = st.one_of(
     st.sampled_from(_VALUE_TEXTS),
@@ -616,14 +733,33 @@ def test_run_any_toml_dict(data: dict[str, object]) -> None:
 
 
 @settings(max_examples=300, **SETTINGS)
-@given(text=st.one_of(
-    st.text(max_size=200),
-    st.lists(st.sampled_from(['kind = "dissolution"', "[water]", "[[water]]", 'volume = "1 mL"',
-                              "a = [", "= 1", "x = 1e400", "y = 99999999999999999999999",
-                              "z = nan", '"\\u0000" = 1', "a.b.c = 1", "[a.b]", "[ ]",
-                              "t = 1979-05-27T07:32:00Z", "d = 1979-05-27"]), max_size=8)
-    .map("\n".join),
-))
+@given(
+    text=st.one_of(
+        st.text(max_size=200),
+        st.lists(
+            st.sampled_from(
+                [
+                    'kind = "dissolution"',
+                    "[water]",
+                    "[[water]]",
+                    'volume = "1 mL"',
+                    "a = [",
+                    "= 1",
+                    "x = 1e400",
+                    "y = 99999999999999999999999",
+                    "z = nan",
+                    '"\\u0000" = 1',
+                    "a.b.c = 1",
+                    "[a.b]",
+                    "[ ]",
+                    "t = 1979-05-27T07:32:00Z",
+                    "d = 1979-05-27",
+                ]
+            ),
+            max_size=8,
+        ).map("\n".join),
+    )
+)
 # Found (by reading tomllib): deeply nested arrays/inline tables may exhaust the stack.
 @example(text="x = " + "[" * 3000 + "]" * 3000)
 @example(text="x = " + "{a = " * 3000 + "1" + "}" * 3000)
@@ -667,8 +803,7 @@ def test_run_removing_a_required_field_names_it(seed: str, dotted: str) -> None:
 
 
 @settings(max_examples=200, **SETTINGS)
-@given(seed=st.sampled_from(sorted(SEEDS)), name=st.text(min_size=1, max_size=10),
-       value=toml_values, data=st.data())
+@given(seed=st.sampled_from(sorted(SEEDS)), name=st.text(min_size=1, max_size=10), value=toml_values, data=st.data())
 def test_run_unknown_field_is_named(seed: str, name: str, value: object, data: st.DataObject) -> None:
     """Adding an unknown field (top level or in a section) gives an InputError naming it."""
     run = {k: (dict(v) if isinstance(v, dict) else v) for k, v in SEEDS[seed].items()}
@@ -679,12 +814,14 @@ def test_run_unknown_field_is_named(seed: str, name: str, value: object, data: s
         run[where][name] = value
         dotted = f"{where}.{toml_key(name)}"
     else:
-        assume(name not in run and name not in SCHEMA[kind] and name not in
-               {"kind", "readings", "mixing_time", "fore_period", "after_period", "method"})
+        assume(
+            name not in run
+            and name not in SCHEMA[kind]
+            and name not in {"kind", "readings", "mixing_time", "fore_period", "after_period", "method"}
+        )
         run[name] = value
         dotted = toml_key(name)
     with pytest.raises(InputError) as caught:
         parse_run(to_toml(run), source=seed)
     _assert_names(caught.value, source=seed, field=dotted)
     assert "unknown" in str(caught.value)
-

@@ -26,12 +26,24 @@ def run(tmp_path: Path, seed: int, **kw: float) -> tuple[Path, object]:
     return write_run(sim, tmp_path, f"insitu{seed}"), sim
 
 
-@pytest.mark.parametrize(("seed", "kw"), [
-    (1, {"noise": 0.0, "resolution": 0.0001}),
-    (2, {"formula": "NH4NO3", "molar_enthalpy_kJ_mol": 25.7, "solute_mass_g": 5.0, "tau_r": 30.0}),
-    (3, {"formula": "NaOH", "molar_enthalpy_kJ_mol": -44.5, "solute_mass_g": 2.0, "c_cal": 130.0,
-         "t_env_offset": 1.0, "tau_h": 1800.0}),
-])
+@pytest.mark.parametrize(
+    ("seed", "kw"),
+    [
+        (1, {"noise": 0.0, "resolution": 0.0001}),
+        (2, {"formula": "NH4NO3", "molar_enthalpy_kJ_mol": 25.7, "solute_mass_g": 5.0, "tau_r": 30.0}),
+        (
+            3,
+            {
+                "formula": "NaOH",
+                "molar_enthalpy_kJ_mol": -44.5,
+                "solute_mass_g": 2.0,
+                "c_cal": 130.0,
+                "t_env_offset": 1.0,
+                "tau_h": 1800.0,
+            },
+        ),
+    ],
+)
 def test_holds_the_true_enthalpy_and_heat_capacity(tmp_path: Path, seed: int, kw: dict) -> None:
     path, sim = run(tmp_path, seed, **kw)
     assert "mixture" not in path.read_text()  # no solution heat-capacity model is needed
@@ -60,10 +72,13 @@ def test_json_and_text_report(tmp_path: Path) -> None:
     assert "C (cup+contents)" in text and "heater: on at" in text
 
 
-@pytest.mark.parametrize(("edit", "field"), [
-    (lambda s: s.replace('start = "', 'start = "9', 1), "heater.start"),
-    (lambda s: 'method = "naive"\n' + s, "method"),
-])
+@pytest.mark.parametrize(
+    ("edit", "field"),
+    [
+        (lambda s: s.replace('start = "', 'start = "9', 1), "heater.start"),
+        (lambda s: 'method = "naive"\n' + s, "method"),
+    ],
+)
 def test_bad_input_is_refused_in_one_line(tmp_path: Path, edit, field: str) -> None:  # noqa: ANN001
     path, _ = run(tmp_path, 6)
     path.write_text(edit(path.read_text()))
@@ -107,5 +122,5 @@ def test_heater_measured_heat_capacity_is_checked_against_the_cup_type(tmp_path:
     assert "calorimeter_heat_capacity" in {c.code for c in a.checks}
     found = next(c for c in a.checks if c.code == "calorimeter_heat_capacity")
     assert found.value == pytest.approx(130.0, abs=15.0)  # the water's c_p is taken as 4.18 J/(g K)
-    path.write_text(path.read_text().replace('[calorimeter]\n', '[calorimeter]\ntype = "dewar"\n'))
+    path.write_text(path.read_text().replace("[calorimeter]\n", '[calorimeter]\ntype = "dewar"\n'))
     assert "calorimeter_heat_capacity" not in {c.code for c in analyze_run(path, with_reference=False).checks}

@@ -51,7 +51,10 @@ def test_questions_about_kinds():
     assert [k.name for k in kinds.REGISTRY.values() if k.two_solution] == ["neutralization", "mixing-calibration"]
     assert [k.name for k in kinds.REGISTRY.values() if k.timed_heater] == ["electrical-calibration"]
     assert [k.name for k in kinds.REGISTRY.values() if k.needs_heat_capacity] == [
-        "dissolution", "neutralization", "reaction"]
+        "dissolution",
+        "neutralization",
+        "reaction",
+    ]
     assert "dissolution-with-calibration" not in kinds.plannable_kinds()
     assert kinds.get_kind("dissolution-with-calibration").compared_with == "dissolution"
 

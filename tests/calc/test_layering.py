@@ -19,8 +19,7 @@ import pytest
 import calc
 
 ROOT = Path(__file__).resolve().parents[2]
-WEB_AND_DATABASE = ("flask", "sqlalchemy", "alembic", "flask_login", "flask_wtf", "psycopg", "matplotlib",
-                    "webapp")
+WEB_AND_DATABASE = ("flask", "sqlalchemy", "alembic", "flask_login", "flask_wtf", "psycopg", "matplotlib", "webapp")
 
 
 def _calc_modules() -> list[str]:
@@ -110,8 +109,9 @@ KNOWN_CYCLES: set[tuple[str, str]] = set()
 @pytest.mark.parametrize("package", ["calc", "webapp"])
 def test_no_new_import_cycles(package):
     # imports under `if TYPE_CHECKING:` are for annotations only and do not run: not part of a cycle
-    graph = grimp.build_graph(package, include_external_packages=False, exclude_type_checking_imports=True,
-                              cache_dir=None)
+    graph = grimp.build_graph(
+        package, include_external_packages=False, exclude_type_checking_imports=True, cache_dir=None
+    )
     cycles = {tuple(c) for c in _cycles(graph)}
     known = {c for c in KNOWN_CYCLES if c[0].split(".")[0] == package}
     assert cycles - known == set(), "new import cycles: " + "; ".join(" ↔ ".join(c) for c in cycles - known)

@@ -30,8 +30,14 @@ T2 = np.round(20.5 + 0.02 * np.arange(N), 2)
 
 def teaching_export(with_units_row: bool = True) -> str:
     """A university teaching-lab instrument export: ##KEY value lines, space-separated channels."""
-    head = ["##INSTRUMENT bench logger B-7 (invented)", "##OPERATOR R. Okafor", "##DATE 2026-03-04",
-            "##INTERVAL 1 s", "##CHANNELS 2", ""]
+    head = [
+        "##INSTRUMENT bench logger B-7 (invented)",
+        "##OPERATOR R. Okafor",
+        "##DATE 2026-03-04",
+        "##INTERVAL 1 s",
+        "##CHANNELS 2",
+        "",
+    ]
     head.append("Time T1 T2" if with_units_row else "Time (s) T1 (°C) T2 (°C)")
     if with_units_row:
         head.append("s degC degC")
@@ -58,9 +64,14 @@ def test_several_temperature_columns_need_a_choice() -> None:
     assert "\n" not in str(e)
 
 
-@pytest.mark.parametrize(("column", "says"), [("T9", "no column of the log is named 'T9'"),
-                                               (7, "column 7 does not exist"),
-                                               (1, "holds the time, not a temperature")])
+@pytest.mark.parametrize(
+    ("column", "says"),
+    [
+        ("T9", "no column of the log is named 'T9'"),
+        (7, "column 7 does not exist"),
+        (1, "holds the time, not a temperature"),
+    ],
+)
 def test_wrong_column_is_named(column: str | int, says: str) -> None:
     with pytest.raises(InputError) as caught:
         parse_readings(teaching_export(), source="lab.txt", column=column)
@@ -144,7 +155,7 @@ def test_cli_refuses_an_ambiguous_export_in_one_line(tmp_path: Path) -> None:
 def test_run_file_column_must_be_a_name_or_number(tmp_path: Path) -> None:
     sim = simulate_dissolution(13)
     toml = write_run(sim, tmp_path, "plain")
-    toml.write_text('temperature_column = 1.5\n' + toml.read_text())
+    toml.write_text("temperature_column = 1.5\n" + toml.read_text())
     with pytest.raises(InputError) as caught:
         analyze_run(toml)
     assert caught.value.field == "temperature_column"

@@ -73,9 +73,7 @@ def parse(text: object, expected: str) -> Measured:
         ("100 ± 0 mL", "mL", 100.0, 0.0, "mL"),
     ],
 )
-def test_stated_uncertainty_is_read_as_normal(
-    text: str, expected: str, value: float, u: float, unit: str
-) -> None:
+def test_stated_uncertainty_is_read_as_normal(text: str, expected: str, value: float, u: float, unit: str) -> None:
     m = parse(text, expected)
     assert m.value == pytest.approx(value, rel=1e-15, abs=0)
     assert m.u == pytest.approx(u, rel=1e-15, abs=0)
@@ -84,9 +82,7 @@ def test_stated_uncertainty_is_read_as_normal(
     assert m.text == text
 
 
-@pytest.mark.parametrize(
-    "text", ["100.0 ± 0.1 mL", "5.000 ± 0.002 g", "-57.0 ± 0.5 kJ/mol", "1.50e3 ± 2e1 J"]
-)
+@pytest.mark.parametrize("text", ["100.0 ± 0.1 mL", "5.000 ± 0.002 g", "-57.0 ± 0.5 kJ/mol", "1.50e3 ± 2e1 J"])
 def test_value_and_u_agree_with_the_uncertainties_library(text: str) -> None:
     # uncertainties.ufloat_fromstr reads "value+/-u" independently of our parser.
     number, unit = text.rsplit(" ", 1)
@@ -154,9 +150,7 @@ def test_clock_times_become_seconds(text: str, seconds: float) -> None:
         (3, "", 0.5 / SQRT3),
     ],
 )
-def test_default_uncertainty_is_half_the_last_digit_rectangular(
-    text: object, expected: str, u: float
-) -> None:
+def test_default_uncertainty_is_half_the_last_digit_rectangular(text: object, expected: str, u: float) -> None:
     m = parse(text, expected)
     assert m.u == pytest.approx(u, rel=1e-12)
     assert m.distribution == "rectangular"
@@ -353,9 +347,7 @@ def test_describe_unknown_dimension_names_it() -> None:
         ("3:00 ± -2 s", "s", "must be a finite number >= 0"),
     ],
 )
-def test_rejections_name_the_field_and_what_was_expected(
-    text: object, expected: str, says: str
-) -> None:
+def test_rejections_name_the_field_and_what_was_expected(text: object, expected: str, says: str) -> None:
     with pytest.raises(InputError) as caught:
         parse_measured(text, field="water.volume", expected=expected, source="run-07.toml")
     error = caught.value
@@ -369,9 +361,7 @@ def test_rejections_name_the_field_and_what_was_expected(
 def test_wrong_dimension_message_reads_as_specified() -> None:
     with pytest.raises(InputError) as caught:
         parse_measured("3.2 g", field="water.volume", expected="mL")
-    assert caught.value.message == (
-        "expected a volume like '100.0 ± 0.1 mL', got '3.2 g' (a mass)"
-    )
+    assert caught.value.message == ("expected a volume like '100.0 ± 0.1 mL', got '3.2 g' (a mass)")
     assert str(caught.value) == "field 'water.volume': " + caught.value.message
 
 

@@ -4,12 +4,13 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 
 from calc.deltat.base import DeltaT
+from calc.io.runfile import parse_run
 from calc.uncertainty.gum import propagate
 from calc.uncertainty.measurement_models import RunProperties, build_model
-from calc.io.runfile import parse_run
 
 
 def _dt(value: float, start_K: float) -> DeltaT:
@@ -93,3 +94,78 @@ def test_electrical_calibration_by_hand():
     sens = {b.name: b.sensitivity for b in g.budget}
     assert sens["delta_t.fit"] == pytest.approx(-750 / 1.72**2, rel=1e-6)
     assert math.isfinite(g.expanded_uncertainty)
+
+
+# ---- the start level of a two-solution run is counted once (docs/methods.md §5.5)
+
+MIXCAL = """
+kind = "mixing-calibration"
+readings = "r.csv"
+[thermometer]
+resolution = "0.01 K"
+[water]
+volume = "50.00 ± 0.05 mL"
+[warm_water]
+volume = "50.00 ± 0.05 mL"
+temperature = "45.00 ± 0.05 degC"
+"""
+
+
+def _start_only(value: float, start_K: float, u_start: float) -> DeltaT:
+    """A ΔT whose only uncertainty is the fore line's level at the mixing time (inside its fit term)."""
+    return DeltaT("regnault-pfaundler", value, u_start, math.inf, 0.0, 0.0, 0.0, 0.0, start_K, u_start, start_K + value)
+
+
+def _start_share_u(g, names: tuple[str, ...]) -> float:
+    """Standard uncertainty the named inputs give the main output (their contributions in quadrature)."""
+    return math.sqrt(sum(b.contribution**2 for b in g.budget if b.name in names))
+
+
+def test_neutralization_counts_the_acid_start_level_once():
+    """Independent check: draw the fore line's level error e and apply the plain heat balance.
+
+    The run's ΔT is T_end − (T_A + e) and its acid term m_b c (T_A + e − T_B), so e reaches the heat
+    with −(C_final − m_b c) = −(m_a c + C_cal): the two appearances partly cancel (common practice,
+    no source; energy balance of two liquids poured together).
+    """
+    spec = parse_run(NEUT, source="n.toml")
+    props = RunProperties()
+    props.add("acid.density", 1.016, 0.0, "g/mL", "run file")
+    props.add("base.density", 1.040, 0.0, "g/mL", "run file")
+    props.add("mixture.specific_heat_capacity", 3.960, 0.0, "J/(g*K)", "run file")
+    T_A, T_B, dT, u = 295.15, 295.65, 6.500, 0.02
+    g = propagate(
+        build_model(spec, _start_only(dT, T_A, u), props).inputs,
+        build_model(spec, _start_only(dT, T_A, u), props).model,
+        "heat",
+    )
+    rng = np.random.default_rng(20261205)
+    e = rng.normal(0.0, u, 400_000)
+    m_a, m_b, c, C_cal = 50.00 * 1.016, 50.00 * 1.040, 3.960, 20.0
+    heat = (m_a * c + m_b * c + C_cal) * (dT - e) + m_b * c * (T_A + e - T_B)
+    expected = float(np.std(heat))  # ≈ (m_a c + C_cal)·u = 4.42 J
+    assert _start_share_u(g, ("acid.temperature", "delta_t.fit")) == pytest.approx(expected, rel=0.01)
+    # counted twice, as independent inputs, it would be √(C_final² + (m_b c)²)·u ≈ 9.4 J
+    assert expected < 0.5 * math.hypot(m_a * c + m_b * c + C_cal, m_b * c) * u
+
+
+def test_mixing_calibration_counts_the_cool_start_level_once():
+    """Independent check: the same draw through C_cal = c_warm (T_w − T_end)/(T_end − T_c) − c_cool."""
+    spec = parse_run(MIXCAL, source="m.toml")
+    props = RunProperties()
+    for name, v in (
+        ("water.density", 0.9978),
+        ("warm_water.density", 0.9902),
+        ("mixture.specific_heat_capacity", 4.181),
+    ):
+        props.add(name, v, 0.0, "g/mL" if "density" in name else "J/(g*K)", "run file")
+    T_c, dT, u = 295.15, 10.80, 0.02
+    ms = build_model(spec, _start_only(dT, T_c, u), props)
+    g = propagate(ms.inputs, ms.model, ms.main)
+    rng = np.random.default_rng(20261206)
+    e = rng.normal(0.0, u, 400_000)
+    c = 4.181
+    c_cool, c_warm = 50.00 * 0.9978 * c, 50.00 * 0.9902 * c
+    T_end = T_c + dT  # the end level does not depend on the fore line
+    C_cal = c_warm * (318.15 - T_end) / (T_end - (T_c + e)) - c_cool
+    assert _start_share_u(g, ("water.temperature", "delta_t.fit")) == pytest.approx(float(np.std(C_cal)), rel=0.02)

@@ -46,8 +46,9 @@ def test_bad_formula_names_the_field(bad):
 # One formula module: every hydrate dot people write reads the same (issue: "CuSO4•5H2O" passed the run
 # file's check and then failed inside the analysis). Check value: CuSO4·5H2O, 249.69 g/mol from the IUPAC
 # standard atomic weights (Cu 63.546, S 32.06, O 15.999, H 1.008; from memory).
-@pytest.mark.parametrize("text", ["CuSO4.5H2O", "CuSO4·5H2O", "CuSO4•5H2O", "CuSO4∙5H2O", "CuSO4⋅5H2O",
-                                  "CuSO4*5H2O", " CuSO4.5H2O "])
+@pytest.mark.parametrize(
+    "text", ["CuSO4.5H2O", "CuSO4·5H2O", "CuSO4•5H2O", "CuSO4∙5H2O", "CuSO4⋅5H2O", "CuSO4*5H2O", " CuSO4.5H2O "]
+)
 def test_every_hydrate_dot_reads_the_same(text):
     from calc.refdata.formula import element_composition, split_hydrate
 

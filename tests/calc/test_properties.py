@@ -14,7 +14,6 @@ import iapws
 import pytest
 
 from calc.errors import InputError
-from calc.refdata.water import _iapws_direct
 from calc.refdata.properties import (
     FALLBACK_HALF_WIDTH_CP,
     FALLBACK_HALF_WIDTH_DENSITY,
@@ -30,6 +29,7 @@ from calc.refdata.properties import (
     water_dielectric_constant,
     water_specific_heat,
 )
+from calc.refdata.water import _iapws_direct
 
 # --------------------------------------------------------------------------- water
 
@@ -124,8 +124,10 @@ def test_the_water_model_does_not_import_iapws() -> None:
     import subprocess
     import sys
 
-    code = ("import sys\nfrom calc.refdata.properties import water_density, debye_huckel_slopes\n"
-            "water_density(298.15); debye_huckel_slopes(298.15)\nprint('iapws' in sys.modules)")
+    code = (
+        "import sys\nfrom calc.refdata.properties import water_density, debye_huckel_slopes\n"
+        "water_density(298.15); debye_huckel_slopes(298.15)\nprint('iapws' in sys.modules)"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
 
@@ -196,8 +198,13 @@ def _ion_cp_crc() -> dict[str, float]:
 
 @pytest.mark.parametrize(
     ("salt", "M", "ions"),
-    [("NaCl", 58.443, ("Na+", "Cl-")), ("KCl", 74.551, ("K+", "Cl-")), ("NaOH", 39.997, ("Na+", "OH-")),
-     ("KNO3", 101.103, ("K+", "NO3-")), ("KOH", 56.106, ("K+", "OH-"))],
+    [
+        ("NaCl", 58.443, ("Na+", "Cl-")),
+        ("KCl", 74.551, ("K+", "Cl-")),
+        ("NaOH", 39.997, ("Na+", "OH-")),
+        ("KNO3", 101.103, ("K+", "NO3-")),
+        ("KOH", 56.106, ("K+", "OH-")),
+    ],
 )
 def test_laliberte_heat_capacity_near_infinite_dilution(salt: str, M: float, ions: tuple[str, str]) -> None:
     # Independent route: at 0.1 mol/kg, c_p ~ (1000 c_p,w + m Cp°) / (1000 + m M) with
@@ -282,8 +289,13 @@ def test_fallback_rule_covers_the_laliberte_solutes() -> None:
 
 @pytest.mark.parametrize(
     ("solutes", "water"),
-    [({"NaCl": -1.0}, 100.0), ({"NaCl": 1.0}, 0.0), ({"NaCl": "x"}, 100.0), ({"Qq9": 1.0}, 100.0),
-     ({"CuSO4.5NH3": 1.0}, 100.0)],
+    [
+        ({"NaCl": -1.0}, 100.0),
+        ({"NaCl": 1.0}, 0.0),
+        ({"NaCl": "x"}, 100.0),
+        ({"Qq9": 1.0}, 100.0),
+        ({"CuSO4.5NH3": 1.0}, 100.0),
+    ],
 )
 def test_bad_solution_input_is_an_input_error(solutes: dict, water: float) -> None:
     with pytest.raises(InputError):
@@ -302,9 +314,16 @@ def test_property_value_is_frozen() -> None:
 # implementation (thermo.electrochem, Chemical Engineering Design Library), an independent library from
 # the package registry. Water's c_p differs (IAPWS-95 here, a Chebyshev fit of it in thermo), so c_p
 # agrees to 2e-4 relative and density, where both use Laliberté's water equation, to 1e-9.
-@pytest.mark.parametrize("formula, cas", [("KCl", "7447-40-7"), ("NaCl", "7647-14-5"),
-                                          ("NH4NO3", "6484-52-2"), ("CaCl2", "10043-52-4"),
-                                          ("C12H22O11", "57-50-1")])
+@pytest.mark.parametrize(
+    "formula, cas",
+    [
+        ("KCl", "7447-40-7"),
+        ("NaCl", "7647-14-5"),
+        ("NH4NO3", "6484-52-2"),
+        ("CaCl2", "10043-52-4"),
+        ("C12H22O11", "57-50-1"),
+    ],
+)
 @pytest.mark.parametrize("t_c, w", [(15.0, 0.01), (25.0, 0.05), (40.0, 0.15)])
 def test_laliberte_agrees_with_the_thermo_package(formula, cas, t_c, w):
     electrochem = pytest.importorskip("thermo.electrochem")
@@ -327,8 +346,10 @@ def test_the_calculation_library_needs_neither_thermo_nor_pandas():
     import subprocess
     import sys
 
-    code = ("import sys\nfrom calc.refdata.properties import solution_properties\n"
-            "solution_properties({'KCl': 3.7}, 100.0, 298.15)\n"
-            "print(','.join(m for m in ('thermo', 'chemicals', 'pandas') if m in sys.modules))\n")
+    code = (
+        "import sys\nfrom calc.refdata.properties import solution_properties\n"
+        "solution_properties({'KCl': 3.7}, 100.0, 298.15)\n"
+        "print(','.join(m for m in ('thermo', 'chemicals', 'pandas') if m in sys.modules))\n"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""

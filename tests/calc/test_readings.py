@@ -91,14 +91,10 @@ def fahrenheit(celsius: np.ndarray) -> np.ndarray:
         ("elapsed_time_s, Probe A (deg C)", ",", 1.0, lambda c: c, "s", "degC"),
     ],
 )
-def test_header_forms(
-    header: str, sep: str, per_s: float, to_unit, time_unit: str, temperature_unit: str
-) -> None:
+def test_header_forms(header: str, sep: str, per_s: float, to_unit, time_unit: str, temperature_unit: str) -> None:
     file_times = TIMES_S * per_s
     file_temps = to_unit(TEMPS_C)
-    body = "".join(
-        f"{float(t)!r}{sep}{float(c)!r}\n" for t, c in zip(file_times, file_temps, strict=True)
-    )
+    body = "".join(f"{float(t)!r}{sep}{float(c)!r}\n" for t, c in zip(file_times, file_temps, strict=True))
     r = parse_readings(header + "\n" + body, source="x.csv")
     assert (r.time_unit, r.temperature_unit) == (time_unit, temperature_unit)
     np.testing.assert_allclose(r.time_s, TIMES_S, rtol=1e-12, atol=1e-9)
@@ -107,9 +103,7 @@ def test_header_forms(
 
 def test_fahrenheit_matches_reference_library() -> None:
     temps_f = np.linspace(68.0, 80.0, N).round(2)
-    text = "time (s),Temperature (°F)\n" + "".join(
-        f"{t:g},{f:.2f}\n" for t, f in zip(TIMES_S, temps_f, strict=True)
-    )
+    text = "time (s),Temperature (°F)\n" + "".join(f"{t:g},{f:.2f}\n" for t, f in zip(TIMES_S, temps_f, strict=True))
     r = parse_readings(text, source="f.csv")
     reference = scipy.constants.convert_temperature(temps_f, "Fahrenheit", "Kelvin")
     np.testing.assert_allclose(r.temperature_K, reference, rtol=0, atol=1e-9)
@@ -137,9 +131,7 @@ def test_no_header_with_semicolons_and_decimal_commas() -> None:
 
 
 def test_tab_separated_with_decimal_commas() -> None:
-    text = "t/s\tT/°C\n" + "".join(
-        f"{t:g}\t{c:.3f}\n".replace(".", ",") for t, c in zip(TIMES_S, TEMPS_C, strict=True)
-    )
+    text = "t/s\tT/°C\n" + "".join(f"{t:g}\t{c:.3f}\n".replace(".", ",") for t, c in zip(TIMES_S, TEMPS_C, strict=True))
     r = parse_readings(text, source="tab.csv")
     np.testing.assert_allclose(r.temperature_K, TEMPS_C + 273.15, atol=1e-12)
 
@@ -148,16 +140,23 @@ def test_tab_separated_with_decimal_commas() -> None:
     ("header", "cells", "unit"),
     [
         ("time (mm:ss),T (°C)", ["0:00", "0:05", "0:59", "1:00", "12:30.5"], "mm:ss"),
-        ("time (h:mm:ss),T (°C)", ["0:00:00", "0:00:05", "0:59:59", "1:00:00", "1:02:03"],
-         "h:mm:ss"),
+        ("time (h:mm:ss),T (°C)", ["0:00:00", "0:00:05", "0:59:59", "1:00:00", "1:02:03"], "h:mm:ss"),
         ("", ["0:00", "0:05", "0:59", "1:00", "12:30.5"], "mm:ss"),
     ],
 )
 def test_clock_times(header: str, cells: list[str], unit: str) -> None:
     # 1 min = 60 s and 1 h = 3600 s (SI Brochure, Table 8)
     seconds = {
-        "0:00": 0, "0:05": 5, "0:59": 59, "1:00": 60, "12:30.5": 750.5,
-        "0:00:00": 0, "0:00:05": 5, "0:59:59": 3599, "1:00:00": 3600, "1:02:03": 3723,
+        "0:00": 0,
+        "0:05": 5,
+        "0:59": 59,
+        "1:00": 60,
+        "12:30.5": 750.5,
+        "0:00:00": 0,
+        "0:00:05": 5,
+        "0:59:59": 3599,
+        "1:00:00": 3600,
+        "1:02:03": 3723,
     }
     # 12 more readings after the listed ones keep the file above the minimum length.
     extra = [f"{13 + i}:00" if unit == "mm:ss" else f"{2 + i}:00:00" for i in range(12)]
@@ -296,9 +295,7 @@ def test_time_not_increasing_names_both_lines() -> None:
     text = replace_line(own_file(), 9, f"{TIMES_S[5]:g},21.5")  # line 9 holds TIMES_S[7]
     error = rejection(text)
     assert error.line == 9
-    assert f"the time {TIMES_S[5]:g} s is before the time {TIMES_S[6]:g} s on line 8" in (
-        error.message
-    )
+    assert f"the time {TIMES_S[5]:g} s is before the time {TIMES_S[6]:g} s on line 8" in (error.message)
     assert "expected increasing times" in error.message
 
 

@@ -72,6 +72,7 @@ def test_every_source_id_has_a_citation() -> None:
 
 # ----------------------------------------------- ΔfH° and Cp° against the CRC tables
 
+
 class KnownDifference(NamedTuple):
     """An entry where the CRC Handbook does not print the NBS 1982 value, and why.
 
@@ -145,8 +146,9 @@ def _crc_ion_key(formula: str, charge: int) -> str:
     return f"{formula}{sign}" if abs(charge) == 1 else f"{formula}{sign}{abs(charge)}"
 
 
-def _known_difference_failures(display: str, ours: float, crc_value: float, known: KnownDifference,
-                               tolerance: float = DFH_TOLERANCE) -> list[tuple]:
+def _known_difference_failures(
+    display: str, ours: float, crc_value: float, known: KnownDifference, tolerance: float = DFH_TOLERANCE
+) -> list[tuple]:
     out = []
     if abs(ours - known.nbs1982) > 0.0005:
         out.append((display, "our table", ours, "NBS 1982 typed again", known.nbs1982))
@@ -168,7 +170,8 @@ def test_a_typo_in_the_table_is_not_taken_for_a_known_difference() -> None:
 def test_every_known_difference_names_its_compilation() -> None:
     for display, known in {**KNOWN_DFH_DIFFERENCES, **KNOWN_CP_DIFFERENCES}.items():
         assert known.compilation == _UNNAMED or (
-            known.other is not None and ("(from memory)" in known.compilation or "read from" in known.compilation)), display
+            known.other is not None and ("(from memory)" in known.compilation or "read from" in known.compilation)
+        ), display
 
 
 def _crc_value(e, quantity: str, scale: float) -> float | None:

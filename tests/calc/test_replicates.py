@@ -8,12 +8,27 @@ import numpy as np
 import pytest
 
 from calc.errors import InputError
-from calc.uncertainty.gum import BudgetLine, coverage_factor
 from calc.statistics.replicates import birge_ratio, shared_type_b, summarize_series
+from calc.uncertainty.gum import BudgetLine, coverage_factor
 
 # GUM (JCGM 100:2008) Table G.2, t_p(ν) for p = 95 % (from memory; docs/methods.md §5.2 for 2, 3, 4, 9, ∞).
-GUM_G2_95 = {1: 12.71, 2: 4.30, 3: 3.18, 4: 2.78, 5: 2.57, 6: 2.45, 7: 2.36, 8: 2.31, 9: 2.26, 10: 2.23,
-             15: 2.13, 20: 2.09, 30: 2.04, 50: 2.01, 100: 1.984}
+GUM_G2_95 = {
+    1: 12.71,
+    2: 4.30,
+    3: 3.18,
+    4: 2.78,
+    5: 2.57,
+    6: 2.45,
+    7: 2.36,
+    8: 2.31,
+    9: 2.26,
+    10: 2.23,
+    15: 2.13,
+    20: 2.09,
+    30: 2.04,
+    50: 2.01,
+    100: 1.984,
+}
 
 
 @pytest.mark.parametrize("nu", sorted(GUM_G2_95))
@@ -74,8 +89,12 @@ def _line(name: str, contribution: float, dof: float = math.inf) -> BudgetLine:
 
 
 def test_shared_type_b_takes_the_non_averaging_lines_of_a_budget():
-    budget = [_line("calorimeter.heat_capacity", 0.3), _line("mixture.specific_heat_capacity", 0.4),
-              _line("solute.mass", 5.0), _line("delta_t.fit", 2.0, dof=50)]
+    budget = [
+        _line("calorimeter.heat_capacity", 0.3),
+        _line("mixture.specific_heat_capacity", 0.4),
+        _line("solute.mass", 5.0),
+        _line("delta_t.fit", 2.0, dof=50),
+    ]
     u, dof = shared_type_b(budget)
     assert u == pytest.approx(0.5) and dof == math.inf  # √(0.3² + 0.4²), own arithmetic
     u, dof = shared_type_b(budget, shared=["calorimeter.heat_capacity", "delta_t.fit"])

@@ -56,16 +56,16 @@ def test_missing_field_is_named():
 
 
 def test_missing_section_is_named():
-    text = GOOD.split("[solute]")[0] + "[mixture]\nspecific_heat_capacity = \"4.16 J/(g*K)\"\n"
+    text = GOOD.split("[solute]")[0] + '[mixture]\nspecific_heat_capacity = "4.16 J/(g*K)"\n'
     _bad(text, "solute", ["missing section"])
 
 
 def test_unknown_field_is_rejected():
-    _bad(GOOD.replace("[water]\n", "[water]\ncolour = \"blue\"\n"), "water.colour", ["unknown field"])
+    _bad(GOOD.replace("[water]\n", '[water]\ncolour = "blue"\n'), "water.colour", ["unknown field"])
 
 
 def test_unknown_section_and_top_level_field_are_rejected():
-    _bad(GOOD + "\n[lid]\nmass = \"2 g\"\n", "lid", ["unknown section"])
+    _bad(GOOD + '\n[lid]\nmass = "2 g"\n', "lid", ["unknown section"])
     _bad('stirrer = "fast"\n' + GOOD, "stirrer", ["unknown field"])
 
 
@@ -75,7 +75,7 @@ def test_unknown_kind_lists_the_kinds():
 
 def test_invalid_toml_gives_the_line():
     with pytest.raises(InputError) as e:
-        parse_run(GOOD.replace('[water]', '[water'), source="run.toml")
+        parse_run(GOOD.replace("[water]", "[water"), source="run.toml")
     assert e.value.line is not None
 
 
@@ -125,11 +125,11 @@ def test_value_without_uncertainty_gets_half_a_last_digit_rectangular():
 
 def test_purity_in_percent_is_a_mass_fraction(tmp_path):
     # "%" is a unit: 99.5 % = 0.995 (SI Brochure, 9th ed.: % = 0.01); the model uses the fraction
-    text = GOOD.replace('[solute]\n', '[solute]\npurity = "99.5 ± 0.2 %"\n', 1)
+    text = GOOD.replace("[solute]\n", '[solute]\npurity = "99.5 ± 0.2 %"\n', 1)
     spec = parse_run(text, source="run.toml")
     purity = spec.sections["solute"]["purity"]
     assert purity.m_as("") == pytest.approx(0.995) and purity.u_as("") == pytest.approx(0.002)
-    bad = GOOD.replace('[solute]\n', '[solute]\npurity = "120 %"\n', 1)
+    bad = GOOD.replace("[solute]\n", '[solute]\npurity = "120 %"\n', 1)
     with pytest.raises(InputError) as exc:
         parse_run(bad, source="run.toml")
     assert exc.value.field == "solute.purity"

@@ -14,16 +14,18 @@ from molmass import Formula
 from scipy.integrate import quad
 
 from calc.errors import InputError
-from calc.simulation.simulator import LumpedModel
-from calc.simulation.simulator import ar1_noise
-from calc.simulation.simulator import first_order_release_curve
-from calc.simulation.simulator import random_scenario
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import simulate_electrical_calibration
-from calc.simulation.simulator import simulate_mixing_calibration
-from calc.simulation.simulator import simulate_neutralization
-from calc.simulation.simulator import simulate_reaction
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import (
+    LumpedModel,
+    ar1_noise,
+    first_order_release_curve,
+    random_scenario,
+    simulate_dissolution,
+    simulate_electrical_calibration,
+    simulate_mixing_calibration,
+    simulate_neutralization,
+    simulate_reaction,
+    write_run,
+)
 
 REPO = Path(__file__).resolve().parents[2]
 KINDS = ("dissolution", "neutralization", "electrical-calibration", "mixing-calibration", "reaction")
@@ -44,8 +46,9 @@ def value(text: str) -> float:
 
 def test_newton_cooling_matches_closed_form() -> None:
     # Newton's law of cooling, T∞ + (T0 − T∞) e^{−kt} (common practice, no source).
-    model = LumpedModel(t_initial=31.0, t_env=20.0, t_m=5000.0, c_before=420.0, g_before=0.12,
-                        c_after=420.0, g_after=0.12, tau_s=0.0)
+    model = LumpedModel(
+        t_initial=31.0, t_env=20.0, t_m=5000.0, c_before=420.0, g_before=0.12, c_after=420.0, g_after=0.12, tau_s=0.0
+    )
     t = np.linspace(0.0, 4000.0, 801)
     expected = 20.0 + 11.0 * np.exp(-0.12 / 420.0 * t)
     for method, tol in (("exact", 1e-10), ("ode", 1e-8)):
@@ -57,8 +60,20 @@ def test_newton_cooling_matches_closed_form() -> None:
 @pytest.mark.parametrize("release", ["first-order", "finite", "sphere"])
 def test_release_without_exchange_rises_by_q_over_c(release: str) -> None:
     # First law with no heat exchange: the rise is Q/C exactly (common practice, no source).
-    model = LumpedModel(t_initial=22.0, t_env=22.0, t_m=50.0, c_before=400.0, g_before=0.0, c_after=430.0,
-                        g_after=0.0, heat_J=-850.0, release=release, tau_r=10.0, t_d=40.0, tau_s=3.0)
+    model = LumpedModel(
+        t_initial=22.0,
+        t_env=22.0,
+        t_m=50.0,
+        c_before=400.0,
+        g_before=0.0,
+        c_after=430.0,
+        g_after=0.0,
+        heat_J=-850.0,
+        release=release,
+        tau_r=10.0,
+        t_d=40.0,
+        tau_s=3.0,
+    )
     contents, probe = model.solve(np.array([49.0, 400.0]))
     assert contents[0] == pytest.approx(22.0, abs=1e-12)
     assert contents[1] - contents[0] == pytest.approx(-850.0 / 430.0, abs=1e-10)
@@ -82,8 +97,7 @@ def test_instant_dissolution_rise_equals_q_over_c_and_molmass_amount() -> None:
 def test_first_order_release_closed_form_matches_ode() -> None:
     # Closed form of docs/methods.md §2.4 (own derivation there) against scipy's DOP853 integrator
     # (reference library); the brief asks for agreement to 1e-6 K.
-    sim = simulate_dissolution(5, tau_r=20.0, tau_s=5.0, tau_h=1800.0, t_env_offset=1.2, p_stir_W=0.004,
-                               **QUIET)
+    sim = simulate_dissolution(5, tau_r=20.0, tau_s=5.0, tau_h=1800.0, t_env_offset=1.2, p_stir_W=0.004, **QUIET)
     model, truth = sim.truth.model, sim.truth
     assert model is not None
     k0, s = model.g_before / model.c_before, 1.0 / model.tau_s
@@ -92,9 +106,16 @@ def test_first_order_release_closed_form_matches_ode() -> None:
     t_start = t_inf + (model.t_initial - t_inf) * math.exp(-k0 * model.t_m)
     ts_start = t_inf + (model.t_initial - t_inf) * s / (s - k0) * math.exp(-k0 * model.t_m)
     u = sim.time_s[sim.time_s >= model.t_m] - model.t_m
-    temp, probe = first_order_release_curve(u, t_inf=t_inf, k=truth.k_per_s, t_start=t_start,
-                                            delta_t_ad=truth.delta_t_adiabatic, tau_r=20.0, tau_s=5.0,
-                                            probe_start=ts_start)
+    temp, probe = first_order_release_curve(
+        u,
+        t_inf=t_inf,
+        k=truth.k_per_s,
+        t_start=t_start,
+        delta_t_ad=truth.delta_t_adiabatic,
+        tau_r=20.0,
+        tau_s=5.0,
+        probe_start=ts_start,
+    )
     contents_ode, probe_ode = model.solve(sim.time_s, method="ode")
     after = sim.time_s >= model.t_m
     assert np.max(np.abs(contents_ode[after] - temp)) < 1e-6
@@ -121,8 +142,14 @@ def test_energy_balance_identity_gives_adiabatic_rise(case: str) -> None:
     truth, model = sim.truth, sim.truth.model
     assert model is not None
     points = [model.t_m, model.t_m + model.t_d] if model.t_d else [model.t_m]
-    released, _ = quad(lambda t: float(model.release_power(t)), model.t_m - 10, model.t_m + 5000,
-                       points=points, limit=400, epsabs=1e-10)
+    released, _ = quad(
+        lambda t: float(model.release_power(t)),
+        model.t_m - 10,
+        model.t_m + 5000,
+        points=points,
+        limit=400,
+        epsabs=1e-10,
+    )
     assert released == pytest.approx(truth.heat_J, rel=1e-9)
     t = np.linspace(model.t_m, model.t_m + 700.0, 35001)
     contents, _ = model.solve(t)
@@ -150,8 +177,10 @@ def test_neutralization_mixing_temperature_and_run_file_balance() -> None:
     assert at == pytest.approx(t_mix, abs=1e-12)
     assert truth.t_mix_C == pytest.approx(t_mix, abs=1e-12)
     # ξ from the limiting reagent; RUNFILE.md balance Q = C_final ΔT_A + C_B (T_A − T_B)
-    xi = min(value(acid["concentration"]) * value(acid["volume"]),
-             value(base["concentration"]) * value(base["volume"])) / 1000
+    xi = (
+        min(value(acid["concentration"]) * value(acid["volume"]), value(base["concentration"]) * value(base["volume"]))
+        / 1000
+    )
     assert truth.heat_J == pytest.approx(xi * 55.8e3, rel=1e-12)
     m_total = value(acid["volume"]) * value(acid["density"]) + value(base["volume"]) * value(base["density"])
     c_final = m_total * cp + c_cal
@@ -176,8 +205,18 @@ def test_peak_of_lag_free_first_order_release() -> None:
     # docs/methods.md §2.5 (own derivation there): with T0 = T∞ the peak is at t* = ln(k_r/k)/(k_r − k) and
     # ΔT_max/ΔT_ad = k_r/(k_r − k) (e^{−k t*} − e^{−k_r t*}).
     k, kr = 1 / 3000.0, 1 / 60.0
-    model = LumpedModel(t_initial=22.0, t_env=22.0, t_m=0.0, c_before=430.0, g_before=430.0 * k,
-                        c_after=430.0, g_after=430.0 * k, heat_J=-1000.0, release="first-order", tau_r=60.0)
+    model = LumpedModel(
+        t_initial=22.0,
+        t_env=22.0,
+        t_m=0.0,
+        c_before=430.0,
+        g_before=430.0 * k,
+        c_after=430.0,
+        g_after=430.0 * k,
+        heat_J=-1000.0,
+        release="first-order",
+        tau_r=60.0,
+    )
     t_star = math.log(kr / k) / (kr - k)
     contents, _ = model.solve(np.linspace(t_star - 2, t_star + 2, 401))
     ratio = kr / (kr - k) * (math.exp(-k * t_star) - math.exp(-kr * t_star))
@@ -247,9 +286,11 @@ def test_unperturbed_run_file_states_the_truth() -> None:
 
 REQUIRED = {
     "dissolution": {"water": {"volume"}, "solute": {"formula", "mass"}, "calorimeter": {"heat_capacity"}},
-    "neutralization": {"acid": {"formula", "concentration", "volume"},
-                       "base": {"formula", "concentration", "volume", "temperature"},
-                       "calorimeter": {"heat_capacity"}},
+    "neutralization": {
+        "acid": {"formula", "concentration", "volume"},
+        "base": {"formula", "concentration", "volume", "temperature"},
+        "calorimeter": {"heat_capacity"},
+    },
     "electrical-calibration": {"water": {"volume"}, "heater": {"voltage", "current", "duration"}},
     "mixing-calibration": {"water": {"volume"}, "warm_water": {"volume", "temperature"}},
     "reaction": {"solution": {"volume"}, "reaction": {"limiting_reagent"}, "calorimeter": {"heat_capacity"}},
@@ -324,8 +365,9 @@ def test_non_positive_inputs_are_refused() -> None:
 def test_room_drift_matches_closed_form_and_ode() -> None:
     # Linear room drift T_env = T_room + β t: T = T∞ + β (t − 1/k) + c e^{−kt} solves dT/dt = k (T_env − T)
     # (first-order linear ODE, common practice, no source); the exact pieces must match DOP853 to 1e-6 K.
-    sim = simulate_reaction(4, room_drift_K_per_h=1.0, release="sphere", tau_s=2.0, t_env_offset=1.0,
-                            p_stir_W=0.0, **QUIET)
+    sim = simulate_reaction(
+        4, room_drift_K_per_h=1.0, release="sphere", tau_s=2.0, t_env_offset=1.0, p_stir_W=0.0, **QUIET
+    )
     model = sim.truth.model
     assert model is not None
     k, beta = model.g_before / model.c_before, model.room_drift
@@ -344,8 +386,18 @@ def test_bench_artefacts_are_drawn_as_asked():
     from calc.simulation.simulator import simulate_dissolution
 
     clean = simulate_dissolution(8, fore_s=200.0, after_s=800.0, noise=0.0, resolution=0.001)
-    sim = simulate_dissolution(8, fore_s=200.0, after_s=800.0, noise=0.0, resolution=0.001, spikes=3, spike_K=1.0,
-                               drop_fraction=0.05, jitter_s=0.3, omit_mixing_time=True)
+    sim = simulate_dissolution(
+        8,
+        fore_s=200.0,
+        after_s=800.0,
+        noise=0.0,
+        resolution=0.001,
+        spikes=3,
+        spike_K=1.0,
+        drop_fraction=0.05,
+        jitter_s=0.3,
+        omit_mixing_time=True,
+    )
     assert "mixing_time" not in sim.run and "mixing_time" in clean.run
     assert 0.85 * clean.time_s.size < sim.time_s.size < clean.time_s.size  # about 5 % dropped
     off = np.abs(sim.time_s - np.round(sim.time_s))

@@ -47,16 +47,22 @@ def test_intervals_hold_under_stirring_noise_correlated_over_5_to_30_s(tau_c):
     from scipy.stats import t as student
 
     from calc.deltat.base import Log
-    from calc.deltat.registry import corrected_delta_t
     from calc.deltat.periods import find_periods
+    from calc.deltat.registry import corrected_delta_t
     from calc.simulation.simulator import simulate_dissolution
 
     n, held = 80, 0
     for seed in range(n):
         rng = np.random.default_rng(70_000 + seed)
-        sim = simulate_dissolution(rng, tau_r=float(rng.uniform(10, 60)), fore_s=float(rng.uniform(180, 300)),
-                                   after_s=float(rng.uniform(600, 900)), noise=0.01, stir_tau_s=tau_c,
-                                   resolution=0.001)
+        sim = simulate_dissolution(
+            rng,
+            tau_r=float(rng.uniform(10, 60)),
+            fore_s=float(rng.uniform(180, 300)),
+            after_s=float(rng.uniform(600, 900)),
+            noise=0.01,
+            stir_tau_s=tau_c,
+            resolution=0.001,
+        )
         t, y = sim.time_s, sim.reading_C + 273.15
         per = find_periods(t, y, resolution=0.001, mixing_time=sim.truth.t_m_s, u_mixing_time=0.0)
         dt = corrected_delta_t(Log(t, y, per, 0.001))

@@ -164,8 +164,16 @@ def test_cochran_critical_values_match_the_table(p):
 
 
 def test_mandel_h_and_k_flag_the_odd_groups():
-    cells = [[10.0, 10.2, 10.1], [10.1, 10.3, 10.2], [9.9, 10.1, 10.0], [10.0, 10.1, 10.2],
-             [11.0, 11.2, 11.1], [10.0, 10.9, 9.3], [10.1, 10.0, 10.2], [10.2, 10.1, 10.0]]
+    cells = [
+        [10.0, 10.2, 10.1],
+        [10.1, 10.3, 10.2],
+        [9.9, 10.1, 10.0],
+        [10.0, 10.1, 10.2],
+        [11.0, 11.2, 11.1],
+        [10.0, 10.9, 9.3],
+        [10.1, 10.0, 10.2],
+        [10.2, 10.1, 10.0],
+    ]
     h, k = mandel_h_k(cells)
     # by definition (ISO 5725-2): the h have mean 0 and SD 1; Σk² = p for equal replicates
     assert np.mean(h) == pytest.approx(0.0, abs=1e-12)

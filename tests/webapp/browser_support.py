@@ -21,8 +21,10 @@ from tests.webapp.conftest import FAST_HASH
 
 CHROMIUM = Path("/usr/bin/chromium")
 CHROMEDRIVER = Path("/usr/bin/chromedriver")
-INSTALL_HINT = ("headless Chromium is needed for the browser tests: install Debian's browser and its driver "
-                "(apt-get install chromium chromium-driver)")
+INSTALL_HINT = (
+    "headless Chromium is needed for the browser tests: install Debian's browser and its driver "
+    "(apt-get install chromium chromium-driver)"
+)
 STUDENT = "tomas.vesterby-quail@ternhollow.example"  # invented demo person (group Heron A)
 WAIT_S = 20
 
@@ -53,16 +55,16 @@ def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequ
     from werkzeug.serving import make_server
 
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.demo import load_demo
 
     folder = tmp_path_factory.mktemp("browser")
     url = f"sqlite:///{folder / 'notebook.sqlite3'}"
     upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "browser tests", "PASSWORD_METHOD": FAST_HASH,
-                      "MONTE_CARLO_TRIALS": 2000})
+    app = create_app(
+        {"DATABASE_URL": url, "SECRET_KEY": "browser tests", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 2000}
+    )
     app.instance_path = str(folder / "instance")
     session = new_session(app)
     try:
@@ -94,9 +96,19 @@ def browser(server: str) -> Iterator[Any]:
     profile = tempfile.mkdtemp(prefix="cupcal-chromium-")
     options = webdriver.ChromeOptions()
     options.binary_location = str(CHROMIUM)
-    for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                "--disable-dev-shm-usage", f"--user-data-dir={profile}", "--window-size=1280,1000"):
+    for arg in (
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-quic",
+        "--no-first-run",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--disable-dev-shm-usage",
+        f"--user-data-dir={profile}",
+        "--window-size=1280,1000",
+    ):
         options.add_argument(arg)
     try:
         driver = webdriver.Chrome(service=Service(executable_path=str(CHROMEDRIVER)), options=options)
@@ -146,9 +158,13 @@ def _click(driver: Any, css: str) -> None:
 
 
 def _image_drawn(driver: Any, src_part: str) -> bool:
-    return bool(driver.execute_script(
-        "const i = [...document.images].find(i => i.src.includes(arguments[0]));"
-        "return !!i && i.complete && i.naturalWidth > 300;", src_part))
+    return bool(
+        driver.execute_script(
+            "const i = [...document.images].find(i => i.src.includes(arguments[0]));"
+            "return !!i && i.complete && i.naturalWidth > 300;",
+            src_part,
+        )
+    )
 
 
 def _sign_in(driver: Any, server: str, email: str) -> None:

@@ -15,8 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from calc.simulation.simulator import simulate_dissolution
-from calc.simulation.simulator import write_run
+from calc.simulation.simulator import simulate_dissolution, write_run
 
 ROSTER = (
     "course,section,group,name,email,role\n"
@@ -69,8 +68,7 @@ def make_class(session: Any, coordinator_id: int) -> ClassLab:
     import sqlalchemy as sa
 
     from tests.webapp.conftest import FAST_HASH
-    from webapp.models import Person
-    from webapp.models import Section
+    from webapp.models import Person, Section
     from webapp.services.classes import import_roster
 
     coord = session.get(Person, coordinator_id)

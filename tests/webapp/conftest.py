@@ -21,12 +21,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.postgres import PostgresServer
-from tests.webapp.postgres import PostgresUnavailable
-from tests.webapp.postgres import start_server
+from tests.webapp.postgres import PostgresServer, PostgresUnavailable, start_server
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 from webapp.models import Base
 
@@ -119,14 +116,16 @@ def database_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str
 @pytest.fixture
 def app(database_url: str, tmp_path: Path) -> Iterator[Any]:
     """Return a notebook app on an empty migrated database."""
-    app = create_app({
-        "TESTING": True,
-        "DATABASE_URL": database_url,
-        "SECRET_KEY": "test secret",
-        "PASSWORD_METHOD": FAST_HASH,
-        "MONTE_CARLO_TRIALS": 2000,
-        "MAX_CONTENT_LENGTH": 256 * 1024,
-    })
+    app = create_app(
+        {
+            "TESTING": True,
+            "DATABASE_URL": database_url,
+            "SECRET_KEY": "test secret",
+            "PASSWORD_METHOD": FAST_HASH,
+            "MONTE_CARLO_TRIALS": 2000,
+            "MAX_CONTENT_LENGTH": 256 * 1024,
+        }
+    )
     app.instance_path = str(tmp_path / "instance")
     yield app
     get_engine(app).dispose()
@@ -173,29 +172,61 @@ def lab(app: Any, session: Any) -> Lab:
     ``cup`` has no heat capacity yet; ``spare`` has one entered by hand.
     """
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group
-    from webapp.services.people import create_person
-    from webapp.services.people import issue_token
+    from webapp.services.people import create_group, create_person, issue_token
 
-    coord = create_person(session, email="coord@lab.example", name="Coordinator C", role="coordinator",
-                          password=PASSWORD, password_method=FAST_HASH)
+    coord = create_person(
+        session,
+        email="coord@lab.example",
+        name="Coordinator C",
+        role="coordinator",
+        password=PASSWORD,
+        password_method=FAST_HASH,
+    )
     ga = create_group(session, coord, name="Group A")
     gb = create_group(session, coord, name="Group B")
     people = {
         "coord": coord,
-        "tech": create_person(session, email="tech@lab.example", name="Technician T", role="technician",
-                              password=PASSWORD, password_method=FAST_HASH),
-        "a1": create_person(session, email="a1@lab.example", name="Student A1", role="student",
-                            password=PASSWORD, group=ga, password_method=FAST_HASH),
-        "a2": create_person(session, email="a2@lab.example", name="Student A2", role="student",
-                            password=PASSWORD, group=ga, password_method=FAST_HASH),
-        "b1": create_person(session, email="b1@lab.example", name="Student B1", role="student",
-                            password=PASSWORD, group=gb, password_method=FAST_HASH),
+        "tech": create_person(
+            session,
+            email="tech@lab.example",
+            name="Technician T",
+            role="technician",
+            password=PASSWORD,
+            password_method=FAST_HASH,
+        ),
+        "a1": create_person(
+            session,
+            email="a1@lab.example",
+            name="Student A1",
+            role="student",
+            password=PASSWORD,
+            group=ga,
+            password_method=FAST_HASH,
+        ),
+        "a2": create_person(
+            session,
+            email="a2@lab.example",
+            name="Student A2",
+            role="student",
+            password=PASSWORD,
+            group=ga,
+            password_method=FAST_HASH,
+        ),
+        "b1": create_person(
+            session,
+            email="b1@lab.example",
+            name="Student B1",
+            role="student",
+            password=PASSWORD,
+            group=gb,
+            password_method=FAST_HASH,
+        ),
     }
     tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
     cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
-    spare = create_calorimeter(session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K",
-                               measured_on=dt.date.today().isoformat())
+    spare = create_calorimeter(
+        session, coord, name="Spare cup", heat_capacity="21.0 ± 3.0 J/K", measured_on=dt.date.today().isoformat()
+    )
     return Lab({k: p.id for k, p in people.items()}, tokens, {"A": ga.id, "B": gb.id}, cup.id, spare.id)
 
 
@@ -214,8 +245,9 @@ def without_heat_capacity(toml: str) -> str:
     return out
 
 
-def upload(client: Any, headers: dict[str, str], name: str, *, toml: str | None = None,
-           csv: bytes | None = None, **fields: Any) -> Any:
+def upload(
+    client: Any, headers: dict[str, str], name: str, *, toml: str | None = None, csv: bytes | None = None, **fields: Any
+) -> Any:
     """POST a demo run (or the given texts) to /api/runs as multipart and return the response."""
     import io
 
@@ -238,8 +270,10 @@ def csrf_token(html: str) -> str:
 def sign_in(client: Any, email: str, password: str = PASSWORD) -> Any:
     """Sign in through the form (with its CSRF token) and return the response."""
     page = client.get("/auth/login")
-    return client.post("/auth/login", data={"email": email, "password": password,
-                                            "csrf_token": csrf_token(page.get_data(as_text=True))})
+    return client.post(
+        "/auth/login",
+        data={"email": email, "password": password, "csrf_token": csrf_token(page.get_data(as_text=True))},
+    )
 
 
 def approve_proposals(client: Any, lab: Lab, calorimeter_id: int | None = None, who: str = "tech") -> list[int]:

@@ -28,15 +28,26 @@ GROUPS = ("M01", "M02", "M03", "M04")
 
 def env_for(url: str) -> dict[str, str]:
     """Return the environment of a notebook process on the database ``url``."""
-    return {**os.environ, "DATABASE_URL": url, "CUPCAL_SECRET_KEY": "fault tests", "PYTHONUNBUFFERED": "1",
-            # an instance folder of its own (none of the developer's instance/config.py); nothing is written
-            "CUPCAL_INSTANCE_PATH": os.path.join(tempfile.gettempdir(), "cupcal-test-instance")}
+    return {
+        **os.environ,
+        "DATABASE_URL": url,
+        "CUPCAL_SECRET_KEY": "fault tests",
+        "PYTHONUNBUFFERED": "1",
+        # an instance folder of its own (none of the developer's instance/config.py); nothing is written
+        "CUPCAL_INSTANCE_PATH": os.path.join(tempfile.gettempdir(), "cupcal-test-instance"),
+    }
 
 
 def cupcal(url: str, *args: str, timeout: float = 180) -> subprocess.CompletedProcess[str]:
     """Run ``cupcal ARGS`` to the end and return what it did."""
-    return subprocess.run([sys.executable, "-m", "calc.cli", *args], env=env_for(url), cwd=ROOT,
-                          capture_output=True, text=True, timeout=timeout)
+    return subprocess.run(
+        [sys.executable, "-m", "calc.cli", *args],
+        env=env_for(url),
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+    )
 
 
 def import_args(folder: Path) -> list[str]:
@@ -129,8 +140,18 @@ def free_port() -> int:
 def start_server(url: str, log: Path, workers: int = 2) -> tuple[subprocess.Popen[Any], str]:
     """Start gunicorn with ``workers`` workers on the notebook; return the process and its base URL."""
     port = free_port()
-    cmd = [sys.executable, "-m", "gunicorn", "--workers", str(workers), "--bind", f"127.0.0.1:{port}",
-           "--timeout", "120", "webapp:create_app()"]
+    cmd = [
+        sys.executable,
+        "-m",
+        "gunicorn",
+        "--workers",
+        str(workers),
+        "--bind",
+        f"127.0.0.1:{port}",
+        "--timeout",
+        "120",
+        "webapp:create_app()",
+    ]
     with log.open("ab") as fh:  # the server writes to its own copy of the descriptor; ours is closed at once
         proc = subprocess.Popen(cmd, env=env_for(url), cwd=ROOT, stdout=fh, stderr=fh, start_new_session=True)
     base = f"http://127.0.0.1:{port}"

@@ -9,12 +9,9 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import DEMO
 from calc.io.runfile import SCHEMA
-
-from tests.webapp.conftest import csrf_token
-from webapp.models import Result
-from webapp.models import Run
+from tests.webapp.conftest import DEMO, csrf_token
+from webapp.models import Result, Run
 
 _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")
 
@@ -22,8 +19,10 @@ _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.
 def counts(session: Any) -> tuple[int, int]:
     """Return the numbers of stored runs and results."""
     session.expire_all()
-    return (session.scalar(sa.select(sa.func.count()).select_from(Run)),
-            session.scalar(sa.select(sa.func.count()).select_from(Result)))
+    return (
+        session.scalar(sa.select(sa.func.count()).select_from(Run)),
+        session.scalar(sa.select(sa.func.count()).select_from(Result)),
+    )
 
 
 def form_from_demo(name: str, calorimeter_id: int | None = None) -> dict[str, Any]:
@@ -57,8 +56,16 @@ def form_from_demo(name: str, calorimeter_id: int | None = None) -> dict[str, An
     return form
 
 
-def post_form(client: Any, kind: str, fields: dict[str, Any], *, csv: bytes | None, csv_name: str = "run.csv",
-              action: str = "preview", extra: dict[str, str] | None = None) -> Any:
+def post_form(
+    client: Any,
+    kind: str,
+    fields: dict[str, Any],
+    *,
+    csv: bytes | None,
+    csv_name: str = "run.csv",
+    action: str = "preview",
+    extra: dict[str, str] | None = None,
+) -> Any:
     token = csrf_token(client.get(f"/runs/new/{kind}").get_data(as_text=True))
     data: dict[str, Any] = {**fields, "csrf_token": token, "action": action, **(extra or {})}
     if csv is not None:
@@ -76,4 +83,4 @@ def field_row(html: str, html_id: str) -> str:
     """Return the HTML of one field's row (its inputs, hint and error)."""
     start = html.index(f'id="{html_id}-row"')
     end = html.find('class="field-row', start + 10)
-    return html[start:end if end > 0 else len(html)]
+    return html[start : end if end > 0 else len(html)]

@@ -88,8 +88,11 @@ class PostgresServer:
 
     def stop(self) -> None:
         """Stop the server and remove its directory."""
-        subprocess.run(self._cmd(str(self.bindir / "pg_ctl"), "-D", str(self.data), "-m", "immediate", "-w", "stop"),
-                       check=False, capture_output=True)
+        subprocess.run(
+            self._cmd(str(self.bindir / "pg_ctl"), "-D", str(self.data), "-m", "immediate", "-w", "stop"),
+            check=False,
+            capture_output=True,
+        )
         shutil.rmtree(self.root, ignore_errors=True)
         if self.wal is not None:
             shutil.rmtree(self.wal, ignore_errors=True)
@@ -114,9 +117,21 @@ def start_server(parent: Path | None = None, wal_parent: Path | None = None) -> 
                 os.chown(folder, info.pw_uid, info.pw_gid)
     server = PostgresServer(bindir, root, 0, user, wal)
     init = subprocess.run(
-        server._cmd(str(bindir / "initdb"), "-D", str(server.data), "-U", "cupcal", "--auth=trust",
-                    "-E", "UTF8", "--locale=C", "--no-sync", *([f"--waldir={wal / 'wal'}"] if wal else [])),
-        capture_output=True, text=True,
+        server._cmd(
+            str(bindir / "initdb"),
+            "-D",
+            str(server.data),
+            "-U",
+            "cupcal",
+            "--auth=trust",
+            "-E",
+            "UTF8",
+            "--locale=C",
+            "--no-sync",
+            *([f"--waldir={wal / 'wal'}"] if wal else []),
+        ),
+        capture_output=True,
+        text=True,
     )
     if init.returncode != 0:
         for folder in (root, wal):
@@ -126,12 +141,26 @@ def start_server(parent: Path | None = None, wal_parent: Path | None = None) -> 
     last = ""
     for _attempt in range(3):
         server.port = _free_port()
-        opts = (f"-c listen_addresses=127.0.0.1 -p {server.port} -c unix_socket_directories={root} "
-                "-c fsync=off -c synchronous_commit=off -c full_page_writes=off -c max_connections=60")
+        opts = (
+            f"-c listen_addresses=127.0.0.1 -p {server.port} -c unix_socket_directories={root} "
+            "-c fsync=off -c synchronous_commit=off -c full_page_writes=off -c max_connections=60"
+        )
         start = subprocess.run(
-            server._cmd(str(bindir / "pg_ctl"), "-D", str(server.data), "-l", str(root / "server.log"),
-                        "-o", opts, "-w", "-t", "30", "start"),
-            capture_output=True, text=True,
+            server._cmd(
+                str(bindir / "pg_ctl"),
+                "-D",
+                str(server.data),
+                "-l",
+                str(root / "server.log"),
+                "-o",
+                opts,
+                "-w",
+                "-t",
+                "30",
+                "start",
+            ),
+            capture_output=True,
+            text=True,
         )
         if start.returncode == 0:
             return server

@@ -20,8 +20,7 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from webapp.models import AuditEntry
-from webapp.models import Run
+from webapp.models import AuditEntry, Run
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 Caller = Callable[..., tuple[int, Any]]
@@ -57,16 +56,20 @@ class Tally:
     answers: Counter = dataclasses.field(default_factory=Counter)
 
     def as_dict(self) -> dict[str, Any]:
-        return {"trials": self.trials, "changes_after_lock": self.changes_after_lock,
-                "disagreements": len(self.disagreements), "first_disagreements": self.disagreements[:5],
-                "answers": dict(self.answers)}
+        return {
+            "trials": self.trials,
+            "changes_after_lock": self.changes_after_lock,
+            "disagreements": len(self.disagreements),
+            "first_disagreements": self.disagreements[:5],
+            "answers": dict(self.answers),
+        }
 
 
 def lock_problems(engine: sa.Engine, run_id: int) -> list[str]:
     """Return what ``cupcal db check`` finds wrong with one locked run."""
-    from webapp.services.integrity_locks import _run_problems
-
     import sqlalchemy.orm as so
+
+    from webapp.services.integrity_locks import _run_problems
 
     with so.Session(engine) as s:
         run = s.get(Run, run_id)
@@ -79,12 +82,19 @@ def lock_problems(engine: sa.Engine, run_id: int) -> list[str]:
 
 def audit_order(engine: sa.Engine, run_id: int) -> list[tuple[int, str]]:
     with engine.connect() as c:
-        return [(i, f) for i, f in c.execute(sa.select(AuditEntry.id, AuditEntry.field).where(
-            AuditEntry.entity == "run", AuditEntry.entity_id == run_id).order_by(AuditEntry.id))]
+        return [
+            (i, f)
+            for i, f in c.execute(
+                sa.select(AuditEntry.id, AuditEntry.field)
+                .where(AuditEntry.entity == "run", AuditEntry.entity_id == run_id)
+                .order_by(AuditEntry.id)
+            )
+        ]
 
 
-def upload_run(call: Caller, token: str, name: str = "diss-kcl-01", *, toml: str | None = None,
-               calorimeter_id: int | None = None) -> int:
+def upload_run(
+    call: Caller, token: str, name: str = "diss-kcl-01", *, toml: str | None = None, calorimeter_id: int | None = None
+) -> int:
     """Record a demo run through the API (no Monte Carlo); return its id."""
     text = toml if toml is not None else (DEMO / f"{name}.toml").read_text("utf-8")
     body = {"run_toml": text, "readings_csv": (DEMO / f"{name}.csv").read_text("utf-8"), "monte_carlo": 0}
@@ -106,9 +116,10 @@ def lock_vs_patch(call: Caller, engine: sa.Engine, tokens: dict[str, str], tally
     for i in range(n):
         run_id = upload_run(call, tokens["author"])
         v = version_of(call, tokens["author"], run_id)
-        lock, patch = both(lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
-                           lambda: call("PATCH", f"/api/runs/{run_id}", tokens["other"], {"title": f"race {i}"},
-                                        if_match=v))
+        lock, patch = both(
+            lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
+            lambda: call("PATCH", f"/api/runs/{run_id}", tokens["other"], {"title": f"race {i}"}, if_match=v),
+        )
         _judge(engine, run_id, lock, patch, "title", tally)
 
 
@@ -116,22 +127,34 @@ def lock_vs_reanalysis(call: Caller, engine: sa.Engine, tokens: dict[str, str], 
     """The author locks while a coordinator analyses the run again with another method."""
     for _ in range(n):
         run_id = upload_run(call, tokens["author"])
-        lock, again = both(lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
-                           lambda: call("POST", f"/api/runs/{run_id}/analyses", tokens["other"],
-                                        {"method": "naive", "monte_carlo": 0}))
+        lock, again = both(
+            lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
+            lambda: call(
+                "POST", f"/api/runs/{run_id}/analyses", tokens["other"], {"method": "naive", "monte_carlo": 0}
+            ),
+        )
         _judge(engine, run_id, lock, again, "result", tally)
 
 
-def lock_vs_calibration(call: Caller, engine: sa.Engine, tokens: dict[str, str], tally: Tally, n: int,
-                        calorimeter_id: int, toml_without_c: str) -> None:
+def lock_vs_calibration(
+    call: Caller,
+    engine: sa.Engine,
+    tokens: dict[str, str],
+    tally: Tally,
+    n: int,
+    calorimeter_id: int,
+    toml_without_c: str,
+) -> None:
     """The author locks a run while the technician re-analyses the runs of the calibration it used."""
     today = dt.date.today().isoformat()
     for i in range(n):
         old = _enter(call, tokens["tech"], calorimeter_id, f"{18 + (i % 7) * 0.1:.1f} ± 0.4 J/K", today)
         run_id = upload_run(call, tokens["author"], toml=toml_without_c, calorimeter_id=calorimeter_id)
         _enter(call, tokens["tech"], calorimeter_id, f"{25 + (i % 5) * 0.1:.1f} ± 0.4 J/K", today)
-        lock, switch = both(lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
-                            lambda: call("POST", f"/api/calibrations/{old}/reanalyse-runs", tokens["tech"]))
+        lock, switch = both(
+            lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
+            lambda: call("POST", f"/api/calibrations/{old}/reanalyse-runs", tokens["tech"]),
+        )
         status, body = switch
         if status == 200:  # the action answers 200 and lists the run as re-analysed or as locked
             changed = run_id in body["reanalysed"]
@@ -140,14 +163,19 @@ def lock_vs_calibration(call: Caller, engine: sa.Engine, tokens: dict[str, str],
 
 
 def _enter(call: Caller, token: str, cup: int, value: str, day: str) -> int:
-    status, body = call("POST", f"/api/calorimeters/{cup}/calibrations", token,
-                        {"heat_capacity": value, "measured_on": day, "confirm": True, "restart": True})
+    status, body = call(
+        "POST",
+        f"/api/calorimeters/{cup}/calibrations",
+        token,
+        {"heat_capacity": value, "measured_on": day, "confirm": True, "restart": True},
+    )
     assert status == 201, body
     return int(body["id"])
 
 
-def _judge(engine: sa.Engine, run_id: int, lock: tuple[int, Any], change: tuple[int, Any], field: str,
-           tally: Tally) -> None:
+def _judge(
+    engine: sa.Engine, run_id: int, lock: tuple[int, Any], change: tuple[int, Any], field: str, tally: Tally
+) -> None:
     tally.trials += 1
     tally.answers[f"lock {lock[0]}, change {change[0]}"] += 1
     if lock[0] != 200:
@@ -191,21 +219,28 @@ def lost_updates(call: Caller, engine: sa.Engine, tokens: list[str], run_id: int
     from webapp.services.integrity import check_database
 
     with engine.connect() as c:
-        entries = c.execute(sa.select(AuditEntry.old, AuditEntry.new).where(
-            AuditEntry.entity == "run", AuditEntry.entity_id == run_id, AuditEntry.field == "title")
-            .order_by(AuditEntry.id)).all()
+        entries = c.execute(
+            sa.select(AuditEntry.old, AuditEntry.new)
+            .where(AuditEntry.entity == "run", AuditEntry.entity_id == run_id, AuditEntry.field == "title")
+            .order_by(AuditEntry.id)
+        ).all()
         title = c.scalar(sa.select(Run.title).where(Run.id == run_id))
     accepted = [a for a in answers if a[3] == 200]
     based_on = sorted(a[1] for a in accepted)
     chain_breaks = sum(1 for p, e in zip(entries, entries[1:]) if e.old != p.new)
     report = check_database(engine)
     return {
-        "requests": len(answers), "accepted_200": len(accepted), "refused_409": sum(a[3] == 409 for a in answers),
+        "requests": len(answers),
+        "accepted_200": len(accepted),
+        "refused_409": sum(a[3] == 409 for a in answers),
         "other": sum(a[3] not in (200, 409) for a in answers),
-        "audit_entries": len(entries), "chain_breaks": chain_breaks,
+        "audit_entries": len(entries),
+        "chain_breaks": chain_breaks,
         # each accepted write was based on a different version, one after the other: none was lost
         "accepted_on_distinct_versions": len(set(based_on)) == len(based_on)
-        and based_on == list(range(based_on[0], based_on[0] + len(based_on))) if based_on else True,
+        and based_on == list(range(based_on[0], based_on[0] + len(based_on)))
+        if based_on
+        else True,
         "accepted_titles_in_chain": [e.new for e in entries] == [a[2] for a in sorted(accepted, key=lambda a: a[1])],
         "final_title_is_last_accepted": bool(entries) and title == entries[-1].new,
         "db_check_problems": [p for p in report.problems if "audit" in p],

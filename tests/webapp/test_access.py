@@ -11,8 +11,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import sign_in, upload
 
 # run recorded by a1 (group A)
 VIEW = {"coord": 200, "tech": 200, "a1": 200, "a2": 200, "b1": 404}
@@ -63,7 +62,9 @@ def test_students_record_runs_only_for_their_own_group(client: Any, lab: Any) ->
     r = upload(client, lab.auth("tech"), "diss-kcl-01", group_id=lab.groups["A"], monte_carlo=0)
     assert r.get_json()["group"]["id"] == lab.groups["A"]
     run_id = r.get_json()["id"]
-    r = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"group_id": lab.groups["B"]})
+    r = client.patch(
+        f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"group_id": lab.groups["B"]}
+    )
     assert r.status_code == 403
 
 
@@ -73,8 +74,9 @@ def test_only_coordinators_manage_calorimeters_groups_and_courses(client: Any, l
     assert client.post("/api/calorimeters", headers=h, json={"name": "Cup X"}).status_code == 403
     assert client.patch(f"/api/calorimeters/{lab.calorimeter_id}", headers=h, json={"parts": "x"}).status_code == 403
     # technicians record heat capacities too (this one lacks its date: 400); students may not
-    assert client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
-                       json={"heat_capacity": "20 ± 2 J/K"}).status_code == (400 if who == "tech" else 403)
+    assert client.post(
+        f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h, json={"heat_capacity": "20 ± 2 J/K"}
+    ).status_code == (400 if who == "tech" else 403)
     assert client.post("/api/groups", headers=h, json={"name": "Group Z"}).status_code == 403
     assert client.post("/api/courses", headers=h, json={"name": "Course Z"}).status_code == 403
     assert client.get("/api/calorimeters", headers=h).status_code == 200

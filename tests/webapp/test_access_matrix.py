@@ -30,6 +30,7 @@ from webapp.services.tokens import issue_scoped_token
 
 ACTORS = ("anon", "b1", "a1", "tech", "coord", "read", "write")
 
+
 def row(*codes: int) -> dict[str, int]:
     """Return the expected codes of one operation, given in the order of ACTORS."""
     assert len(codes) == len(ACTORS)
@@ -141,14 +142,26 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     headers["anon"] = {}
     headers["read"] = {"Authorization": f"Bearer {issue_scoped_token(session, a1, 'm-read', 'read')[1]}"}
     headers["write"] = {"Authorization": f"Bearer {issue_scoped_token(session, a1, 'm-write', 'write')[1]}"}
-    return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": section_id,
-            "run2": run2, "series_id": series_id, "webhook_id": r.get_json()["id"], "calorimeter_id": lab.calorimeter_id,
-            "group_id": lab.groups["A"],
-            "live_id": _created(client.post("/api/live-runs", headers=lab.auth("a1"),
-                                            json={"run_file": live_run_file(), "client_key": "matrix"})),
-            "calibration_id": client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}", headers=coord).get_json()[
-                "current_calibration"]["id"],
-            "headers": headers}
+    return {
+        "run_id": run_id,
+        "result_id": result_id,
+        "course_id": course_id,
+        "section_id": section_id,
+        "run2": run2,
+        "series_id": series_id,
+        "webhook_id": r.get_json()["id"],
+        "calorimeter_id": lab.calorimeter_id,
+        "group_id": lab.groups["A"],
+        "live_id": _created(
+            client.post(
+                "/api/live-runs", headers=lab.auth("a1"), json={"run_file": live_run_file(), "client_key": "matrix"}
+            )
+        ),
+        "calibration_id": client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}", headers=coord).get_json()[
+            "current_calibration"
+        ]["id"],
+        "headers": headers,
+    }
 
 
 def _fresh_run(client: Any, lab: Any, w: dict[str, Any]) -> int:
@@ -169,8 +182,11 @@ def _fresh_proposal(client: Any, lab: Any, w: dict[str, Any]) -> int:
 
 
 def _fresh_calibration(client: Any, lab: Any, w: dict[str, Any]) -> int:
-    r = client.post(f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations", headers=lab.auth("coord"),
-                    json={"heat_capacity": "21.0 ± 3.0 J/K", "measured_on": "2026-11-30"})
+    r = client.post(
+        f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations",
+        headers=lab.auth("coord"),
+        json={"heat_capacity": "21.0 ± 3.0 J/K", "measured_on": "2026-11-30"},
+    )
     return _created(r)
 
 
@@ -184,14 +200,16 @@ FRESH: dict[tuple[str, str], tuple[str, Callable[..., int]]] = {
 
 #: request bodies (``who`` keeps names unique between callers); the rest send none
 BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = {
-    ("patch", "/api/runs/{run_id}"): lambda who, w: {"json": {"notes": f"seen by {who}"},
-                                                    "headers": {"If-Match": "*"}},
+    ("patch", "/api/runs/{run_id}"): lambda who, w: {"json": {"notes": f"seen by {who}"}, "headers": {"If-Match": "*"}},
     ("post", "/api/runs/{run_id}/analyses"): lambda who, w: {"json": {"monte_carlo": 0}},
     ("post", "/api/calorimeters"): lambda who, w: {"json": {"name": f"Cup {who}"}},
-    ("patch", "/api/calorimeters/{calorimeter_id}"): lambda who, w: {"json": {"location": f"bench {who}"},
-                                                                    "headers": {"If-Match": "*"}},
+    ("patch", "/api/calorimeters/{calorimeter_id}"): lambda who, w: {
+        "json": {"location": f"bench {who}"},
+        "headers": {"If-Match": "*"},
+    },
     ("post", "/api/calorimeters/{calorimeter_id}/calibrations"): lambda who, w: {
-        "json": {"heat_capacity": "20.0 ± 2.0 J/K", "measured_on": "2026-11-30"}},
+        "json": {"heat_capacity": "20.0 ± 2.0 J/K", "measured_on": "2026-11-30"}
+    },
     ("post", "/api/calibrations/{calibration_id}/withdraw"): lambda who, w: {"json": {"reason": f"by {who}"}},
     ("post", "/api/groups"): lambda who, w: {"json": {"name": f"Group {who}"}},
     ("post", "/api/courses"): lambda who, w: {"json": {"name": f"Course {who}"}},
@@ -212,18 +230,30 @@ BODIES: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] =
     ("post", "/api/runs/{run_id}/comments"): lambda who, w: {"json": {"body": f"seen by {who}"}},
     ("post", "/api/groups/{group_id}/comments"): lambda who, w: {"json": {"body": f"seen by {who}"}},
     ("put", "/api/runs/{run_id}/mark"): lambda who, w: {"json": {"points": 5, "reason": f"by {who}"}},
-    ("put", "/api/sections/{section_id}/marking-scheme"): lambda who, w: {"json": {"en": "1=6, *=0",
-                                                                                 "relative": "5%=2, *=0"}},
+    ("put", "/api/sections/{section_id}/marking-scheme"): lambda who, w: {
+        "json": {"en": "1=6, *=0", "relative": "5%=2, *=0"}
+    },
     ("post", "/api/sections/{section_id}/imports"): lambda who, w: {
-        "data": {"archive": (io.BytesIO(b""), "empty.zip")}, "content_type": "multipart/form-data"},
+        "data": {"archive": (io.BytesIO(b""), "empty.zip")},
+        "content_type": "multipart/form-data",
+    },
     ("post", "/api/eln-imports"): lambda who, w: {
-        "data": {"archive": (io.BytesIO(b""), "empty.eln")}, "content_type": "multipart/form-data"},
+        "data": {"archive": (io.BytesIO(b""), "empty.eln")},
+        "content_type": "multipart/form-data",
+    },
 }
+
 
 def _run_upload() -> dict[str, Any]:
     toml, csv = demo_files("diss-kcl-01")
-    return {"data": {"run_file": (io.BytesIO(toml.encode()), "r.toml"), "readings": (io.BytesIO(csv), "r.csv"),
-                     "monte_carlo": "0"}, "content_type": "multipart/form-data"}
+    return {
+        "data": {
+            "run_file": (io.BytesIO(toml.encode()), "r.toml"),
+            "readings": (io.BytesIO(csv), "r.csv"),
+            "monte_carlo": "0",
+        },
+        "content_type": "multipart/form-data",
+    }
 
 
 PATH_VALUES = {"fmt": "json", "which": "readings"}
@@ -235,8 +265,21 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
-    values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "series_id", "webhook_id",
-                                "calorimeter_id", "group_id", "calibration_id", "live_id")} | PATH_VALUES
+    values = {
+        k: w[k]
+        for k in (
+            "run_id",
+            "result_id",
+            "course_id",
+            "section_id",
+            "series_id",
+            "webhook_id",
+            "calorimeter_id",
+            "group_id",
+            "calibration_id",
+            "live_id",
+        )
+    } | PATH_VALUES
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)
@@ -260,18 +303,24 @@ def test_who_gets_what(client: Any, lab: Any, world: dict[str, Any], operation: 
     assert got == EXPECTED[operation]
 
 
-
 #: the coordinator-only writes: a caller kept out is refused before the body is read
-COORDINATOR_WRITES = sorted(op for op, codes in EXPECTED.items()
-                            if op[0] != "get" and codes["coord"] in (200, 201, 204, 400)
-                            and all(codes[w] == 403 for w in ("b1", "a1", "tech")))
+COORDINATOR_WRITES = sorted(
+    op
+    for op, codes in EXPECTED.items()
+    if op[0] != "get" and codes["coord"] in (200, 201, 204, 400) and all(codes[w] == 403 for w in ("b1", "a1", "tech"))
+)
 
 
 @pytest.mark.parametrize("operation", COORDINATOR_WRITES, ids=lambda op: f"{op[0]} {op[1]}")
-def test_the_role_is_refused_whatever_the_body(client: Any, lab: Any, world: dict[str, Any],
-                                               operation: tuple[str, str]) -> None:
+def test_the_role_is_refused_whatever_the_body(
+    client: Any, lab: Any, world: dict[str, Any], operation: tuple[str, str]
+) -> None:
     method, path = operation
     values = {k: world[k] for k in ("course_id", "section_id", "webhook_id", "calorimeter_id")}
-    got = {who: client.open(path.format(**values), method=method.upper(), headers=world["headers"][who],
-                            json={}).status_code for who in ("b1", "a1", "tech")}
+    got = {
+        who: client.open(
+            path.format(**values), method=method.upper(), headers=world["headers"][who], json={}
+        ).status_code
+        for who in ("b1", "a1", "tech")
+    }
     assert got == {"b1": 403, "a1": 403, "tech": 403}

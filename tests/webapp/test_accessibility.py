@@ -18,9 +18,11 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
+from tests.webapp.browser_support import (
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
 
 AXE = Path(__file__).resolve().parents[1] / "vendor" / "axe-core" / "axe.min.js"
 AXE_SHA256 = "880970c081707360e64f34cea25ff91892f5bc95675b0776925b9709dd8a68bb"  # axe-core 4.10.3 from npm
@@ -75,8 +77,9 @@ def _axe_source() -> str:
 
 
 def _set_width(d: Any, width: int) -> None:
-    d.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",
-                      {"width": width, "height": 900, "deviceScaleFactor": 1, "mobile": False})
+    d.execute_cdp_cmd(
+        "Emulation.setDeviceMetricsOverride", {"width": width, "height": 900, "deviceScaleFactor": 1, "mobile": False}
+    )
 
 
 def _audit(d: Any, axe: str) -> list[dict[str, Any]]:
@@ -86,7 +89,9 @@ def _audit(d: Any, axe: str) -> list[dict[str, Any]]:
         "const done = arguments[arguments.length - 1];"
         "axe.run(document, {runOnly: {type: 'tag', values: arguments[0]}, resultTypes: ['violations']})"
         ".then(r => done(JSON.stringify(r.violations)), e => done(JSON.stringify([{id: 'axe-error', impact: 'x',"
-        " help: String(e), nodes: []}])));", AXE_TAGS)
+        " help: String(e), nodes: []}])));",
+        AXE_TAGS,
+    )
     return json.loads(result)
 
 
@@ -94,7 +99,9 @@ def _first_link(d: Any, server: str, page: str, prefix: str) -> str | None:
     d.get(server + page)
     return d.execute_script(
         "const a = [...document.querySelectorAll('main a')].map(a => a.getAttribute('href'))"
-        ".find(h => h && new RegExp(arguments[0]).test(h)); return a || null;", prefix)
+        ".find(h => h && new RegExp(arguments[0]).test(h)); return a || null;",
+        prefix,
+    )
 
 
 def _pages(d: Any, server: str, role: str) -> list[str]:
@@ -102,11 +109,25 @@ def _pages(d: Any, server: str, role: str) -> list[str]:
     cup = _first_link(d, server, "/calorimeters/", r"^/calorimeters/\d+$")
     board = _first_link(d, server, "/classes/", r"^/classes/sections/\d+/dashboard")
     section = board.rsplit("/", 1)[0] if board else None
-    pages = ["/", "/runs/", "/runs/?q=KCl&sort=title&dir=asc", "/runs/samples", "/runs/new", "/runs/new/dissolution",
-             "/runs/upload", "/calorimeters/", "/classes/", "/plan", "/plan?kind=mixing-calibration",
-             "/plan?kind=dissolution&go=1&formula=KCl&mass=lots&water_volume=100+g",  # the error summary
-             "/plan?kind=dissolution&go=1", "/auth/tokens", "/auth/password", "/runs/new/dissolution-with-calibration",
-             "/runs/987654"]  # the last: the error page
+    pages = [
+        "/",
+        "/runs/",
+        "/runs/?q=KCl&sort=title&dir=asc",
+        "/runs/samples",
+        "/runs/new",
+        "/runs/new/dissolution",
+        "/runs/upload",
+        "/calorimeters/",
+        "/classes/",
+        "/plan",
+        "/plan?kind=mixing-calibration",
+        "/plan?kind=dissolution&go=1&formula=KCl&mass=lots&water_volume=100+g",  # the error summary
+        "/plan?kind=dissolution&go=1",
+        "/auth/tokens",
+        "/auth/password",
+        "/runs/new/dissolution-with-calibration",
+        "/runs/987654",
+    ]  # the last: the error page
     pages += [p for p in (run, cup, f"{cup}/control" if cup else None, section, board) if p]
     live = _first_link(d, server, "/live/", r"^/live/\d+$")
     pages += ["/live/"] + [p for p in (live, section and f"{section}/live") if p]
@@ -136,8 +157,10 @@ def test_every_page_passes_axe_and_reflows_at_320_px(browser: Any, server: str, 
         for page in pages:
             d.get(server + page)
             for v in _audit(d, axe):
-                where = "; ".join(n.get("target", [""])[0] if isinstance(n.get("target", [""])[0], str) else
-                                  str(n.get("target")) for n in v.get("nodes", [])[:3])
+                where = "; ".join(
+                    n.get("target", [""])[0] if isinstance(n.get("target", [""])[0], str) else str(n.get("target"))
+                    for n in v.get("nodes", [])[:3]
+                )
                 problems.append(f"{width}px {page}: [{v.get('impact')}] {v['id']}: {v.get('help')} at {where}")
             wide = d.execute_script("return document.documentElement.scrollWidth - window.innerWidth")
             if wide > 1:
@@ -190,8 +213,13 @@ def test_a_run_prints_on_two_pages_and_a_dashboard_as_its_table(browser: Any, se
     _set_width(d, 1280)
     _sign_in(d, server, ROLES["coordinator"])
     counts = {}
-    for run in d.execute_script("return [...document.querySelectorAll('main a')].map(a => a.getAttribute('href'))"
-                                ".filter(h => /^\\/runs\\/\\d+$/.test(h))") or []:
+    for run in (
+        d.execute_script(
+            "return [...document.querySelectorAll('main a')].map(a => a.getAttribute('href'))"
+            ".filter(h => /^\\/runs\\/\\d+$/.test(h))"
+        )
+        or []
+    ):
         d.get(server + run)
         n, text = _pdf_pages(d)
         counts[run] = n

@@ -9,11 +9,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.conftest import demo_files, upload
+from webapp.models import Result, Run, RunInput
 
 
 def test_create_read_and_download_exactly_as_uploaded(client: Any, lab: Any) -> None:
@@ -51,9 +48,17 @@ def test_create_read_and_download_exactly_as_uploaded(client: Any, lab: Any) -> 
 def test_json_upload_and_listing_with_pagination(client: Any, lab: Any) -> None:
     toml, csv = demo_files("diss-nh4no3-01")
     for _ in range(3):
-        r = client.post("/api/runs", headers=lab.auth("tech"), json={
-            "run_toml": toml, "readings_csv": csv.decode(), "run_file_name": "n.toml", "readings_name": "n.csv",
-            "monte_carlo": 0})
+        r = client.post(
+            "/api/runs",
+            headers=lab.auth("tech"),
+            json={
+                "run_toml": toml,
+                "readings_csv": csv.decode(),
+                "run_file_name": "n.toml",
+                "readings_name": "n.csv",
+                "monte_carlo": 0,
+            },
+        )
         assert r.status_code == 201, r.get_json()
     first = client.get("/api/runs?per_page=2", headers=lab.auth("tech")).get_json()
     assert (first["total"], first["pages"], first["page"], len(first["items"])) == (3, 2, 1, 2)
@@ -66,8 +71,11 @@ def test_json_upload_and_listing_with_pagination(client: Any, lab: Any) -> None:
 
 def test_reanalyse_keeps_the_old_result(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "neut-hcl-naoh-01").get_json()
-    r = client.post(f"/api/runs/{run['id']}/analyses", headers=lab.auth("a2"),
-                    json={"method": "equal-area", "after": [300, 600], "monte_carlo": 0})
+    r = client.post(
+        f"/api/runs/{run['id']}/analyses",
+        headers=lab.auth("a2"),
+        json={"method": "equal-area", "after": [300, 600], "monte_carlo": 0},
+    )
     assert r.status_code == 201, r.get_json()
     new = r.get_json()
     assert new["method"] == "equal-area" and new["periods"]["after"] == [300.0, 600.0] and new["periods"]["given"]
@@ -80,11 +88,17 @@ def test_reanalyse_keeps_the_old_result(client: Any, lab: Any) -> None:
 
 def test_patch_details_is_audited(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "diss-kcl-01").get_json()
-    r = client.patch(f"/api/runs/{run['id']}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "Bench 9", "title": "KCl again"})
+    r = client.patch(
+        f"/api/runs/{run['id']}",
+        headers={**lab.auth("a1"), "If-Match": "*"},
+        json={"bench": "Bench 9", "title": "KCl again"},
+    )
     assert r.status_code == 200 and r.get_json()["bench"] == "Bench 9"
     audit = client.get(f"/api/runs/{run['id']}/audit", headers=lab.auth("a1")).get_json()["items"]
     assert {(a["field"], a["old"], a["new"]) for a in audit} == {
-        ("bench", "Bench Heron-5", "Bench 9"), ("title", "Enthalpy of solution of KCl", "KCl again")}
+        ("bench", "Bench Heron-5", "Bench 9"),
+        ("title", "Enthalpy of solution of KCl", "KCl again"),
+    }
     assert all(a["person"] == "a1@lab.example" and a["at"].endswith("Z") for a in audit)
 
 
@@ -135,11 +149,16 @@ def test_bad_uploads_get_a_4xx_naming_the_field_and_save_nothing(
 
 def test_missing_parts_and_bad_json(client: Any, lab: Any) -> None:
     h = lab.auth("tech")
-    r = client.post("/api/runs", headers=h, data={"readings": (io.BytesIO(KCL_CSV), "r.csv")},
-                    content_type="multipart/form-data")
+    r = client.post(
+        "/api/runs", headers=h, data={"readings": (io.BytesIO(KCL_CSV), "r.csv")}, content_type="multipart/form-data"
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "run_file"
-    r = client.post("/api/runs", headers=h, data={"run_file": (io.BytesIO(KCL_TOML.encode()), "r.toml")},
-                    content_type="multipart/form-data")
+    r = client.post(
+        "/api/runs",
+        headers=h,
+        data={"run_file": (io.BytesIO(KCL_TOML.encode()), "r.toml")},
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "readings"
     r = client.post("/api/runs", headers=h, data="{not json", content_type="application/json")
     assert r.status_code == 400 and r.get_json()["field"] == "body"
@@ -178,20 +197,38 @@ def test_upload_size_limit(app: Any, client: Any, lab: Any) -> None:
 
 def test_no_route_answers_junk_with_a_5xx(app: Any, client: Any, lab: Any) -> None:
     run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    bodies = [None, "null", "[]", '"text"', "{", '{"name": null}', '{"name": 5}', '{"heat_capacity": "x"}',
-              '{"heat_capacity": "-3 J/K"}', '{"heat_capacity": "3 g"}', '{"course_id": "x"}', '{"fore": [5, 1]}',
-              '{"name": ""}', '{"seed": 1e40}', '{"group_id": true}']
+    bodies = [
+        None,
+        "null",
+        "[]",
+        '"text"',
+        "{",
+        '{"name": null}',
+        '{"name": 5}',
+        '{"heat_capacity": "x"}',
+        '{"heat_capacity": "-3 J/K"}',
+        '{"heat_capacity": "3 g"}',
+        '{"course_id": "x"}',
+        '{"fore": [5, 1]}',
+        '{"name": ""}',
+        '{"seed": 1e40}',
+        '{"group_id": true}',
+    ]
     for rule in app.url_map.iter_rules():
         if not rule.rule.startswith("/api/"):
             continue
-        path = (rule.rule.replace("<int:run_id>", str(run_id))
-                .replace("<int:calorimeter_id>", str(lab.calorimeter_id))
-                .replace("<int:result_id>", "1").replace("<string:which>", "readings"))
+        path = (
+            rule.rule.replace("<int:run_id>", str(run_id))
+            .replace("<int:calorimeter_id>", str(lab.calorimeter_id))
+            .replace("<int:result_id>", "1")
+            .replace("<string:which>", "readings")
+        )
         for method in rule.methods - {"HEAD", "OPTIONS"}:
             for who in ("coord", "b1"):
                 for data in bodies if method != "GET" else [None]:
-                    r = client.open(path, method=method, headers=lab.auth(who), data=data,
-                                    content_type="application/json")
+                    r = client.open(
+                        path, method=method, headers=lab.auth(who), data=data, content_type="application/json"
+                    )
                     assert r.status_code < 500, (method, path, who, data, r.get_data(as_text=True))
                     if r.status_code >= 400:
                         assert r.get_json()["error"], (method, path, data)
@@ -199,8 +236,9 @@ def test_no_route_answers_junk_with_a_5xx(app: Any, client: Any, lab: Any) -> No
 
 def test_reanalyse_with_a_mixing_time(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "diss-kcl-01").get_json()
-    r = client.post(f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"),
-                    json={"mixing_time": [241.0, 2.0], "monte_carlo": 0})
+    r = client.post(
+        f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"), json={"mixing_time": [241.0, 2.0], "monte_carlo": 0}
+    )
     assert r.status_code == 201, r.get_json()
     mix = r.get_json()["periods"]["mixing_time"]
     assert mix["value"] == 241.0 and mix["standard_uncertainty"] == 2.0 and not mix["detected"]

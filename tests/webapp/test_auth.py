@@ -8,14 +8,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import ApiToken
-from webapp.models import Person
-from webapp.services.people import create_person
-from webapp.services.people import hash_password
+from tests.webapp.conftest import PASSWORD, csrf_token, sign_in, upload
+from webapp.models import ApiToken, Person
+from webapp.services.people import create_person, hash_password
 
 
 def test_default_password_hash_is_werkzeug_scrypt() -> None:
@@ -36,8 +31,7 @@ def test_passwords_are_stored_hashed_and_checked(client: Any, session: Any, lab:
 
 
 def test_short_passwords_and_bad_addresses_are_refused(session: Any, lab: Any) -> None:
-    from webapp.services.errors import Conflict
-    from webapp.services.errors import Invalid
+    from webapp.services.errors import Conflict, Invalid
 
     with pytest.raises(Invalid, match="at least"):
         create_person(session, email="x@lab.example", name="X", role="student", password="short")
@@ -46,8 +40,14 @@ def test_short_passwords_and_bad_addresses_are_refused(session: Any, lab: Any) -
     with pytest.raises(Invalid, match="role"):
         create_person(session, email="x@lab.example", name="X", role="dean", password=PASSWORD)
     with pytest.raises(Conflict):
-        create_person(session, email="a1@lab.example", name="X", role="student", password=PASSWORD,
-                      password_method="scrypt:1024:8:1")
+        create_person(
+            session,
+            email="a1@lab.example",
+            name="X",
+            role="student",
+            password=PASSWORD,
+            password_method="scrypt:1024:8:1",
+        )
 
 
 def test_pages_need_a_sign_in(client: Any, lab: Any) -> None:
@@ -58,9 +58,10 @@ def test_pages_need_a_sign_in(client: Any, lab: Any) -> None:
 
 def test_next_goes_only_to_this_site(client: Any, lab: Any) -> None:
     page = client.get("/auth/login?next=https://elsewhere.example/")
-    r = client.post("/auth/login?next=https://elsewhere.example/",
-                    data={"email": "a1@lab.example", "password": PASSWORD,
-                          "csrf_token": csrf_token(page.get_data(as_text=True))})
+    r = client.post(
+        "/auth/login?next=https://elsewhere.example/",
+        data={"email": "a1@lab.example", "password": PASSWORD, "csrf_token": csrf_token(page.get_data(as_text=True))},
+    )
     assert r.headers["Location"] == "/"
 
 
@@ -68,8 +69,7 @@ def test_every_form_carries_a_csrf_token_and_posts_without_it_fail(client: Any, 
     run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
     assert client.post("/auth/login", data={"email": "a1@lab.example", "password": PASSWORD}).status_code == 400
     sign_in(client, "a1@lab.example")
-    pages = ["/", "/runs/", f"/runs/{run_id}", "/calorimeters/", f"/calorimeters/{lab.calorimeter_id}",
-             "/auth/tokens"]
+    pages = ["/", "/runs/", f"/runs/{run_id}", "/calorimeters/", f"/calorimeters/{lab.calorimeter_id}", "/auth/tokens"]
     for path in pages:
         html = client.get(path).get_data(as_text=True)
         forms = re.findall(r"<form\b.*?</form>", html, flags=re.S)
@@ -77,8 +77,13 @@ def test_every_form_carries_a_csrf_token_and_posts_without_it_fail(client: Any, 
         for form in forms:
             if re.search(r'method="post"', form, flags=re.I):
                 assert 'name="csrf_token"' in form, (path, form[:120])
-    for action in (f"/runs/{run_id}/lock", f"/runs/{run_id}/reanalyse", "/auth/tokens", "/auth/logout",
-                   "/auth/tokens/1/revoke"):
+    for action in (
+        f"/runs/{run_id}/lock",
+        f"/runs/{run_id}/reanalyse",
+        "/auth/tokens",
+        "/auth/logout",
+        "/auth/tokens/1/revoke",
+    ):
         r = client.post(action, data={"method": "naive"})
         assert r.status_code == 400, action
         assert "form has expired" in r.get_data(as_text=True)
@@ -113,8 +118,12 @@ def test_token_page_shows_the_secret_once_and_stores_a_hash(client: Any, session
 @pytest.mark.parametrize("header", ["", "Bearer", "Bearer nonsense", "Basic YTpi", "bearer cupcal_x"])
 def test_api_without_a_valid_token_is_401(client: Any, lab: Any, header: str) -> None:
     headers = {"Authorization": header} if header else {}
-    for method, path in (("get", "/api/runs"), ("post", "/api/runs"), ("get", "/api/me"),
-                         ("post", "/api/calorimeters")):
+    for method, path in (
+        ("get", "/api/runs"),
+        ("post", "/api/runs"),
+        ("get", "/api/me"),
+        ("post", "/api/calorimeters"),
+    ):
         r = getattr(client, method)(path, headers=headers)
         assert r.status_code == 401 and r.get_json()["error"], (header, path)
         assert r.headers["WWW-Authenticate"] == "Bearer"

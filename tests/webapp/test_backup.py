@@ -17,10 +17,7 @@ import sqlalchemy as sa
 from click.testing import CliRunner
 
 from calc.cli.commands import cli
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import create_database
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import FAST_HASH, create_database, demo_files, upload
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.models import Base
@@ -69,9 +66,15 @@ def _fresh_target(database_url: str, request: pytest.FixtureRequest, tmp_path: P
     return create_database(request.getfixturevalue("pg_server"), "cupcal_restored")  # no schema at all
 
 
-def test_round_trip_gives_back_every_row_and_file(app: Any, client: Any, lab: Any, database_url: str,
-                                                  request: pytest.FixtureRequest, tmp_path: Path,
-                                                  monkeypatch: pytest.MonkeyPatch) -> None:
+def test_round_trip_gives_back_every_row_and_file(
+    app: Any,
+    client: Any,
+    lab: Any,
+    database_url: str,
+    request: pytest.FixtureRequest,
+    tmp_path: Path,
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
     ids = []
     for name in RUNS:
         r = upload(client, lab.auth("a1"), name)
@@ -80,8 +83,9 @@ def test_round_trip_gives_back_every_row_and_file(app: Any, client: Any, lab: An
     assert client.post(f"/api/runs/{ids[0]}/lock", headers=lab.auth("a1")).status_code == 200  # a signed run too
     get_engine(app).dispose()
     before = _dump(database_url)
-    assert all(before[t] for t in ("people", "api_tokens", "calorimeters", "runs", "run_inputs", "results",
-                                   "audit_entries"))
+    assert all(
+        before[t] for t in ("people", "api_tokens", "calorimeters", "runs", "run_inputs", "results", "audit_entries")
+    )
 
     out = tmp_path / "notebook.backup"
     r = _invoke(monkeypatch, database_url, "backup", str(out))
@@ -110,8 +114,15 @@ def test_round_trip_gives_back_every_row_and_file(app: Any, client: Any, lab: An
     assert report.ok and report.runs == len(RUNS), report.summary()
 
     # the restored notebook works on: ids continue after the restored ones (PostgreSQL sequences too)
-    restored = create_app({"TESTING": True, "DATABASE_URL": target, "SECRET_KEY": "test secret",
-                           "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 0})
+    restored = create_app(
+        {
+            "TESTING": True,
+            "DATABASE_URL": target,
+            "SECRET_KEY": "test secret",
+            "PASSWORD_METHOD": FAST_HASH,
+            "MONTE_CARLO_TRIALS": 0,
+        }
+    )
     try:
         r = upload(restored.test_client(), lab.auth("a2"), RUNS[0])
         assert r.status_code == 201, r.get_json()
@@ -129,8 +140,10 @@ def filled(sqlite_template: Path, tmp_path: Path) -> str:
     path = tmp_path / "filled.sqlite3"
     shutil.copyfile(sqlite_template, path)
     with sqlite3.connect(path) as conn:
-        conn.execute("INSERT INTO people (email, name, role, password_hash, active, created_at) "
-                     "VALUES ('x@lab.example', 'X', 'coordinator', 'h', 1, '2024-01-01 00:00:00')")
+        conn.execute(
+            "INSERT INTO people (email, name, role, password_hash, active, created_at) "
+            "VALUES ('x@lab.example', 'X', 'coordinator', 'h', 1, '2024-01-01 00:00:00')"
+        )
     return f"sqlite:///{path}"
 
 
@@ -139,8 +152,9 @@ def _people(url: str) -> list[str]:
         return [r[0] for r in conn.execute("SELECT email FROM people ORDER BY id")]
 
 
-def test_restore_refuses_a_database_with_data_unless_forced(filled: str, sqlite_template: Path, tmp_path: Path,
-                                                            monkeypatch: pytest.MonkeyPatch) -> None:
+def test_restore_refuses_a_database_with_data_unless_forced(
+    filled: str, sqlite_template: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     empty = tmp_path / "empty.sqlite3"
     shutil.copyfile(sqlite_template, empty)
     backup = tmp_path / "empty.backup"
@@ -154,8 +168,9 @@ def test_restore_refuses_a_database_with_data_unless_forced(filled: str, sqlite_
     assert _people(filled) == []
 
 
-def test_backup_refuses_to_overwrite_a_file_unless_forced(filled: str, tmp_path: Path,
-                                                          monkeypatch: pytest.MonkeyPatch) -> None:
+def test_backup_refuses_to_overwrite_a_file_unless_forced(
+    filled: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     out = tmp_path / "b.sqlite3"
     out.write_bytes(b"keep me")
     r = _invoke(monkeypatch, filled, "backup", str(out))
@@ -167,8 +182,9 @@ def test_backup_refuses_to_overwrite_a_file_unless_forced(filled: str, tmp_path:
 
 
 @pytest.mark.parametrize("content", [b"", b"not a database at all\n", b"PGDMP\x01\x0e\x00"])
-def test_restore_rejects_what_is_not_a_sqlite_backup(content: bytes, tmp_path: Path, sqlite_template: Path,
-                                                     monkeypatch: pytest.MonkeyPatch) -> None:
+def test_restore_rejects_what_is_not_a_sqlite_backup(
+    content: bytes, tmp_path: Path, sqlite_template: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     bad = tmp_path / "bad.backup"
     bad.write_bytes(content)
     target = tmp_path / "t.sqlite3"
@@ -178,24 +194,26 @@ def test_restore_rejects_what_is_not_a_sqlite_backup(content: bytes, tmp_path: P
     assert len(r.output.strip().splitlines()) == 1
 
 
-def test_missing_input_and_missing_folder_are_one_line_errors(filled: str, tmp_path: Path,
-                                                              monkeypatch: pytest.MonkeyPatch) -> None:
+def test_missing_input_and_missing_folder_are_one_line_errors(
+    filled: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     r = _invoke(monkeypatch, filled, "restore", str(tmp_path / "nope.backup"))
     assert r.exit_code == 2 and "does not exist" in r.output and "Traceback" not in r.output
     r = _invoke(monkeypatch, filled, "backup", str(tmp_path / "no-such-folder" / "b.sqlite3"))
     assert r.exit_code == 2 and "does not exist" in r.output and "Traceback" not in r.output
 
 
-def test_backup_of_a_busy_database_is_consistent(filled: str, tmp_path: Path,
-                                                 monkeypatch: pytest.MonkeyPatch) -> None:
+def test_backup_of_a_busy_database_is_consistent(filled: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     """A writer's open transaction (the running server) is neither waited for nor half-copied."""
     path = sa.engine.make_url(filled).database
     writer = sqlite3.connect(path, isolation_level=None)
     writer.execute("PRAGMA journal_mode=WAL")  # as webapp.db sets it
     try:
         writer.execute("BEGIN IMMEDIATE")
-        writer.execute("INSERT INTO people (email, name, role, password_hash, active, created_at) "
-                       "VALUES ('y@lab.example', 'Y', 'student', 'h', 1, '2024-01-01 00:00:00')")
+        writer.execute(
+            "INSERT INTO people (email, name, role, password_hash, active, created_at) "
+            "VALUES ('y@lab.example', 'Y', 'student', 'h', 1, '2024-01-01 00:00:00')"
+        )
         out = tmp_path / "busy.backup"
         r = _invoke(monkeypatch, filled, "backup", str(out))
         assert r.exit_code == 0, r.output

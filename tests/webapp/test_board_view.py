@@ -9,8 +9,8 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import sign_in
 from tests.webapp.class_fixtures import build_section
+from tests.webapp.conftest import sign_in
 from webapp.services.board_view import board_page
 from webapp.services.errors import Invalid
 
@@ -18,8 +18,9 @@ FLAGS = {"En": "|En| > 1", "drift": "large drift"}
 
 
 def _row(i: int, group: str, flags: list[str] | None = None) -> SimpleNamespace:
-    return SimpleNamespace(run_id=i, title=f"run {i}", section="S1", group=group, bench="", measurement="KCl",
-                           flags=flags or [])
+    return SimpleNamespace(
+        run_id=i, title=f"run {i}", section="S1", group=group, bench="", measurement="KCl", flags=flags or []
+    )
 
 
 def test_pages_hold_whole_groups_in_order() -> None:

@@ -17,15 +17,16 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.browser_support import STUDENT
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _image_drawn
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
+from tests.webapp.browser_support import (
+    STUDENT,
+    _click,
+    _image_drawn,
+    _shot,
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
 from tests.webapp.conftest import DEMO
-
 
 # ---------------------------------------------------------------- scenarios
 
@@ -58,7 +59,7 @@ def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> No
     # save: the run page shows the plot, the result and the cautions
     _click(d, "button.save")
     assert re.search(r"/runs/\d+$", d.current_url), d.current_url
-    run_path = d.current_url[len(server):]
+    run_path = d.current_url[len(server) :]
     assert "saved" in d.find_element(By.CSS_SELECTOR, ".flash").text
     assert _image_drawn(d, "/plot.svg") and _image_drawn(d, "/budget.svg")
     first = d.find_element(By.CSS_SELECTOR, ".headline").text
@@ -92,7 +93,8 @@ def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> No
         "body.append('csrf_token', document.querySelector('input[name=csrf_token]').value);"
         "body.append('method', 'naive');"
         "fetch(arguments[0] + '/reanalyse', {method: 'POST', body}).then(r => done(r.status), e => done(String(e)));",
-        run_path)
+        run_path,
+    )
     assert status == 409
     d.refresh()
     assert len(d.find_elements(By.CSS_SELECTOR, "table.results tbody tr")) == 2
@@ -107,9 +109,16 @@ def test_the_form_shows_errors_at_their_fields_then_previews(browser: Any, serve
     d.delete_all_cookies()
     _sign_in(d, server, "kasper.lindqvist-mayo@ternhollow.example")  # invented demo technician
     d.get(server + "/runs/new/dissolution")
-    values = {"f-water-volume": "one hundred", "f-water-volume-u": "0.10", "f-thermometer-resolution": "0.01",
-              "f-solute-formula": "KCl", "f-solute-mass": "3.72760", "f-solute-mass-u": "0.00020",
-              "f-mixing-time": "240", "f-info-title": "Browser check"}
+    values = {
+        "f-water-volume": "one hundred",
+        "f-water-volume-u": "0.10",
+        "f-thermometer-resolution": "0.01",
+        "f-solute-formula": "KCl",
+        "f-solute-mass": "3.72760",
+        "f-solute-mass-u": "0.00020",
+        "f-mixing-time": "240",
+        "f-info-title": "Browser check",
+    }
     for html_id, value in values.items():
         box = d.find_element(By.ID, html_id)
         box.clear()
@@ -140,9 +149,7 @@ def test_the_form_shows_errors_at_their_fields_then_previews(browser: Any, serve
 def test_download_a_section_archive_and_import_another_notebooks(browser: Any, server: str, tmp_path: Path) -> None:
     from selenium.webdriver.common.by import By
 
-    from tests.webapp.eln_helpers import crate
-    from tests.webapp.eln_helpers import file_entity
-    from tests.webapp.eln_helpers import zip_of
+    from tests.webapp.eln_helpers import crate, file_entity, zip_of
 
     d = browser
     d.delete_all_cookies()
@@ -153,15 +160,18 @@ def test_download_a_section_archive_and_import_another_notebooks(browser: Any, s
     head = d.execute_async_script(
         "const done = arguments[arguments.length - 1];"
         "fetch(arguments[0]).then(r => r.arrayBuffer().then(b => done([r.status, r.headers.get('content-type'),"
-        " String.fromCharCode(...new Uint8Array(b).slice(0, 2))])));", link.get_attribute("href"))
+        " String.fromCharCode(...new Uint8Array(b).slice(0, 2))])));",
+        link.get_attribute("href"),
+    )
     assert head == [200, "application/vnd.eln+zip", "PK"]
     toml = (DEMO / "diss-kcl-01.toml").read_bytes().replace(b'title = "', b'title = "From elsewhere: ', 1)
     csv = (DEMO / "diss-kcl-01.csv").read_bytes()
     files = {"exp/run.toml": toml, "exp/diss-kcl-01.csv": csv, "exp/photo.txt": b"a photo caption"}
     meta = crate([file_entity(p, b) for p, b in files.items()], ["exp/"])
     archive = tmp_path / "elsewhere.eln"
-    archive.write_bytes(zip_of([("elsewhere/ro-crate-metadata.json", meta)]
-                               + [(f"elsewhere/{p}", b) for p, b in files.items()]))
+    archive.write_bytes(
+        zip_of([("elsewhere/ro-crate-metadata.json", meta)] + [(f"elsewhere/{p}", b) for p, b in files.items()])
+    )
     _click(d, "a[href$='/imports/eln']")
     d.find_element(By.CSS_SELECTOR, "input[type=file][name=archive]").send_keys(str(archive))
     _click(d, "#eln-form button[type=submit]")

@@ -18,14 +18,15 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _skip_or_fail
-from tests.webapp.browser_support import _unavailable
-from tests.webapp.browser_support import _wait
-from tests.webapp.browser_support import browser  # noqa: F401  (the Chromium fixture, on this module's server)
+from tests.webapp.browser_support import (
+    _click,
+    _shot,
+    _skip_or_fail,
+    _unavailable,
+    _wait,
+    browser,  # noqa: F401  (the Chromium fixture, on this module's server)
+)
+from tests.webapp.conftest import DEMO, FAST_HASH
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 STUDENT = "lucan.ferreira-holt@ternhollow.example"
@@ -40,16 +41,16 @@ def lab_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, 
     from werkzeug.serving import make_server
 
     from webapp import create_app
-    from webapp.db import get_engine
-    from webapp.db import new_session
+    from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.demo import load_demo
 
     folder = tmp_path_factory.mktemp("flows")
     url = f"sqlite:///{folder / 'notebook.sqlite3'}"
     upgrade(url)
-    app = create_app({"DATABASE_URL": url, "SECRET_KEY": "browser flows", "PASSWORD_METHOD": FAST_HASH,
-                      "MONTE_CARLO_TRIALS": 0})
+    app = create_app(
+        {"DATABASE_URL": url, "SECRET_KEY": "browser flows", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 0}
+    )
     app.instance_path = str(folder / "instance")
     session = new_session(app)
     try:
@@ -105,7 +106,10 @@ def _fetch_text(d: Any, url: str, form_css: str | None = None, extra: dict[str, 
         "if (css) { const body = new FormData(document.querySelector(css));"
         "  for (const k in extra) body.set(k, extra[k]); opts = {method: 'POST', body}; }"
         "fetch(url, opts).then(r => r.text()).then(done, e => done('ERROR ' + e));",
-        url, form_css, extra or {})
+        url,
+        form_css,
+        extra or {},
+    )
 
 
 def _class_zip(folder: Path) -> Path:
@@ -116,7 +120,7 @@ def _class_zip(folder: Path) -> Path:
         for stem, group in plan:
             toml = (DEMO / "class" / f"{stem}.toml").read_text(encoding="utf-8")
             toml = re.sub(r'(?m)^group = ".*"$', f'group = "{group}"', toml)
-            toml = toml.replace('title = "', f'title = "Wren practical: ', 1)
+            toml = toml.replace('title = "', 'title = "Wren practical: ', 1)
             z.writestr(f"{stem}.toml", toml)
             z.write(DEMO / "class" / f"{stem}.csv", f"{stem}.csv")
     return out
@@ -141,9 +145,12 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     assert "Section added" in _flash(d)
     # roster
     roster = tmp_path / "roster.csv"
-    roster.write_text("course,section,group,name,email,role\n"
-                      "Wren practical,Wednesday,Wren 1,Ilse Gartmoor,ilse@wren.example,student\n"
-                      "Wren practical,Wednesday,Wren 2,Jory Pennacott,jory@wren.example,student\n", encoding="utf-8")
+    roster.write_text(
+        "course,section,group,name,email,role\n"
+        "Wren practical,Wednesday,Wren 1,Ilse Gartmoor,ilse@wren.example,student\n"
+        "Wren practical,Wednesday,Wren 2,Jory Pennacott,jory@wren.example,student\n",
+        encoding="utf-8",
+    )
     d.find_element(*_by("form[action$='/classes/roster'] input[type=file]")).send_keys(str(roster))
     _click(d, "form[action$='/classes/roster'] button[type=submit]")
     assert "Imported: 2 new people" in d.find_element(*_by("main")).text
@@ -155,8 +162,9 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     # sign-in links: CSV for a mail merge, then the printable page
     d.find_element("link text", "Accounts and sign-in links").click()
     _wait(d, "footer")
-    text = _fetch_text(d, f"/auth/sections/{section_id}/sign-in-links", "form[action$='/sign-in-links']",
-                       {"format": "csv"})
+    text = _fetch_text(
+        d, f"/auth/sections/{section_id}/sign-in-links", "form[action$='/sign-in-links']", {"format": "csv"}
+    )
     rows = list(csv.DictReader(io.StringIO(text)))
     assert sorted(r["email"] for r in rows) == ["ilse@wren.example", "jory@wren.example"]
     assert all("/auth/link/" in r["link"] for r in rows)
@@ -205,24 +213,32 @@ def test_coordinator_day(browser: Any, server: str, tmp_path: Path) -> None:  # 
     _click(d, "main form button[type=submit]")
     assert "Marking scheme saved" in _flash(d)
     d.get(f"{server}/classes/sections/{section_id}/dashboard")
-    ids = [int(a.get_attribute("href").rstrip("/").split("/")[-1])
-           for a in d.find_elements(*_by("table.runs tbody tr td:first-child a"))]
+    ids = [
+        int(a.get_attribute("href").rstrip("/").split("/")[-1])
+        for a in d.find_elements(*_by("table.runs tbody tr td:first-child a"))
+    ]
     marked = next(i for i in ids if i != run_id)
     d.get(f"{server}/runs/{marked}")
     assert re.search(r"Mark: \d+ points \(scheme", d.find_element(*_by("#mark")).text)
     _fill(d, "#mark-points", "9")
     _fill(d, "#mark-reason", "careful notebook")
     _click(d, "form[action$='/mark'] button[type=submit]")
-    assert "Mark saved" in _flash(d) and "9 points (set by hand: careful notebook)" in d.find_element(*_by("#mark")).text
+    assert (
+        "Mark saved" in _flash(d) and "9 points (set by hand: careful notebook)" in d.find_element(*_by("#mark")).text
+    )
     # export for grading
     d.get(f"{server}/classes/sections/{section_id}/dashboard")
     text = _fetch_text(d, f"/classes/sections/{section_id}/export.csv")
     rows = list(csv.reader(io.StringIO(text)))
     header = rows[0]
-    runs = {int(r[0]): dict(zip(header, r)) for r in rows[1:rows.index([])]}
+    runs = {int(r[0]): dict(zip(header, r)) for r in rows[1 : rows.index([])]}
     assert runs[marked]["mark"] == "9.0" and runs[marked]["mark_source"] == "set by hand"
     assert runs[run_id]["counts"].startswith("no (excluded") and runs[run_id]["mark"] == ""
-    assert "Ilse Gartmoor" in runs[run_id]["names"] or "Jory Pennacott" in runs[run_id]["names"] or runs[run_id]["group"] == "Wren 3"
+    assert (
+        "Ilse Gartmoor" in runs[run_id]["names"]
+        or "Jory Pennacott" in runs[run_id]["names"]
+        or runs[run_id]["group"] == "Wren 3"
+    )
     assert "Good fore period" in runs[run_id]["comments"]
     assert re.fullmatch(r"\d+\.\d+ ± \d\.\d+ kJ/mol", runs[marked]["result"]), runs[marked]["result"]
     assert runs[marked]["judged_against"] == "reference at the run's conditions"

@@ -12,11 +12,13 @@ import re
 from pathlib import Path
 from typing import Any
 
+from tests.webapp.browser_support import (
+    _click,
+    _sign_in,
+    browser,  # noqa: F401 - the fixtures, module-scoped here too
+    server,  # noqa: F401
+)
 from tests.webapp.conftest import DEMO
-from tests.webapp.browser_support import _click
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401 - the fixtures, module-scoped here too
-from tests.webapp.browser_support import server  # noqa: F401
 
 TECHNICIAN = "kasper.lindqvist-mayo@ternhollow.example"  # invented demo person
 CUP = "Cup TH-07 (two nested foam cups, lid)"
@@ -43,8 +45,11 @@ def _upload(d: Any, server: str, toml: Path) -> str:
     return d.find_element(By.ID, "preview").text
 
 
-def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(browser: Any, server: str,  # noqa: F811
-                                                                        tmp_path: Path) -> None:
+def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(
+    browser: Any,
+    server: str,  # noqa: F811
+    tmp_path: Path,
+) -> None:
     from selenium.webdriver.common.by import By
 
     d = browser
@@ -71,7 +76,7 @@ def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(browser: 
     assert "heat capacity of this calorimeter" in chart.text and "2025-03-11" in chart.text
     svg = chart.find_element(By.CSS_SELECTOR, "figure svg").get_attribute("innerHTML")
     texts = re.findall(r"<text[^>]*>([^<]*)</text>", svg)
-    ticks = texts[:texts.index("calibration, in the order measured")]
+    ticks = texts[: texts.index("calibration, in the order measured")]
     assert ticks and all(t.isdigit() for t in ticks)
 
     # 4. a heat capacity typed with a slip (28.6 for 18.6): refused until confirmed, then in force

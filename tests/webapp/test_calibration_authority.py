@@ -10,25 +10,24 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import approve_proposals
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import without_heat_capacity
+from tests.webapp.conftest import approve_proposals, csrf_token, demo_files, sign_in, upload, without_heat_capacity
 from webapp.models import Calibration
 
 TODAY = dt.date.today().isoformat()
 
 
 def _enter(client: Any, lab: Any, value: str, day: str = TODAY, who: str = "tech", **extra: Any) -> Any:
-    return client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=lab.auth(who),
-                       json={"heat_capacity": value, "measured_on": day, **extra})
+    return client.post(
+        f"/api/calorimeters/{lab.calorimeter_id}/calibrations",
+        headers=lab.auth(who),
+        json={"heat_capacity": value, "measured_on": day, **extra},
+    )
 
 
 def _in_force(client: Any, lab: Any) -> dict[str, Any]:
     return client.get(f"/api/calorimeters/{lab.calorimeter_id}", headers=lab.auth("tech")).get_json()[
-        "current_calibration"]
+        "current_calibration"
+    ]
 
 
 def test_a_students_calibration_is_a_proposal_until_staff_approve_it(client: Any, lab: Any) -> None:
@@ -80,7 +79,10 @@ def test_withdrawing_lists_the_runs_and_reanalyses_them_in_one_action(client: An
     toml = without_heat_capacity(demo_files("diss-kcl-01")[0])
     runs = [upload(client, lab.auth("a1"), "diss-kcl-01", toml=toml, monte_carlo=0).get_json() for _ in range(3)]
     pooled = _in_force(client, lab)
-    assert all(r["calibration"]["id"] == pooled["id"] for r in runs) and sorted(pooled["pool"]["members"]) == [good, bad]
+    assert all(r["calibration"]["id"] == pooled["id"] for r in runs) and sorted(pooled["pool"]["members"]) == [
+        good,
+        bad,
+    ]
     assert client.post(f"/api/runs/{runs[2]['id']}/lock", headers=lab.auth("a1")).status_code == 200
     r = client.post(f"/api/calibrations/{bad}/withdraw", headers=lab.auth("tech"), json={"reason": "wrong voltage"})
     assert r.status_code == 200 and r.get_json()["runs_using"] == [x["id"] for x in runs]
@@ -108,11 +110,17 @@ def test_a_run_on_an_overdue_cup_is_warned_on_preview_and_run_page(client: Any, 
     sign_in(client, "a1@lab.example")
     token = csrf_token(client.get("/runs/upload").get_data(as_text=True))
     csv = demo_files("diss-kcl-01")[1]
-    r = client.post("/runs/upload", data={"csrf_token": token, "action": "preview",
-                                           "calorimeter_id": str(lab.calorimeter_id),
-                                           "run_file": (io.BytesIO(toml.encode()), "diss-kcl-01.toml"),
-                                           "readings": (io.BytesIO(csv), "diss-kcl-01.csv")},
-                    content_type="multipart/form-data")
+    r = client.post(
+        "/runs/upload",
+        data={
+            "csrf_token": token,
+            "action": "preview",
+            "calorimeter_id": str(lab.calorimeter_id),
+            "run_file": (io.BytesIO(toml.encode()), "diss-kcl-01.toml"),
+            "readings": (io.BytesIO(csv), "diss-kcl-01.csv"),
+        },
+        content_type="multipart/form-data",
+    )
     html = r.get_data(as_text=True)
     assert r.status_code == 200 and "Overdue:" in html and "due again on 2025-02-09" in html
     run = upload(client, lab.auth("a1"), "diss-kcl-01", toml=toml, monte_carlo=0).get_json()
@@ -144,15 +152,14 @@ def test_the_control_chart_plots_the_cups_own_heat_capacity_by_default(client: A
     html = client.get(f"/calorimeters/{lab.calorimeter_id}/control").get_data(as_text=True)
     assert "calibration, in the order measured" in html and "2026-10-12" in html
     texts = re.findall(r"<text[^>]*>([^<]*)</text>", html)
-    ticks = texts[:texts.index("calibration, in the order measured")]  # the x tick labels come first
+    ticks = texts[: texts.index("calibration, in the order measured")]  # the x tick labels come first
     assert ticks and all(t.isdigit() for t in ticks)  # whole calibrations: no 0.5, 1.5
 
 
 def test_the_dashboard_flags_a_run_on_an_overdue_cup(client: Any, lab: Any, session: Any) -> None:
     from types import SimpleNamespace
 
-    from webapp.services.dashboard import FLAGS
-    from webapp.services.dashboard import _overdue_flags
+    from webapp.services.dashboard import FLAGS, _overdue_flags
 
     toml = without_heat_capacity(demo_files("diss-kcl-01")[0])  # [info] date = 2025-03-12
     assert _enter(client, lab, "18.6 ± 0.5 J/K", "2025-01-10").status_code == 201  # due 2025-02-09

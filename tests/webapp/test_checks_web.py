@@ -15,18 +15,12 @@ from typing import Any
 import sqlalchemy as sa
 
 from calc.simulation.simulator import simulate_electrical_calibration, write_run
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
+from tests.webapp.class_fixtures import make_class, simulated_run
+from tests.webapp.conftest import demo_files, sign_in, upload
+from webapp.models import Person, Result, Run
 from webapp.services.checks import run_flagged
 from webapp.services.dashboard import section_dashboard
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 
 def typo_toml() -> str:
@@ -85,8 +79,9 @@ def test_dashboard_page_explains_the_mark_in_text(client: Any, session: Any, lab
 
 
 def _calibration_files(tmp_path: Path, c_cal: float) -> tuple[str, bytes]:
-    sim = simulate_electrical_calibration(31, c_cal=c_cal, voltage_V=6.0, current_A=2.0, duration_s=200.0,
-                                          calorimeter_name="Dewar D-2")
+    sim = simulate_electrical_calibration(
+        31, c_cal=c_cal, voltage_V=6.0, current_A=2.0, duration_s=200.0, calorimeter_name="Dewar D-2"
+    )
     path = write_run(sim, tmp_path, "dewar")
     return path.read_text(), (tmp_path / "dewar.csv").read_bytes()
 
@@ -98,20 +93,35 @@ def test_calorimeter_type_sets_the_plausible_range(client: Any, session: Any, la
     made = client.post("/api/calorimeters", json={"name": "Dewar D-2", "vessel_type": "dewar"}, headers=h)
     assert made.status_code == 201 and made.get_json()["vessel_type"] == "dewar"
     toml, csv = _calibration_files(tmp_path, 133.0)
-    r = client.post("/api/runs", headers=h, content_type="multipart/form-data", data={
-        "run_file": (io.BytesIO(toml.encode()), "dewar.toml"), "readings": (io.BytesIO(csv), "dewar.csv"),
-        "monte_carlo": "0"})
+    r = client.post(
+        "/api/runs",
+        headers=h,
+        content_type="multipart/form-data",
+        data={
+            "run_file": (io.BytesIO(toml.encode()), "dewar.toml"),
+            "readings": (io.BytesIO(csv), "dewar.csv"),
+            "monte_carlo": "0",
+        },
+    )
     assert r.status_code == 201, r.get_json()
     result = session.scalar(sa.select(Result).where(Result.run_id == r.get_json()["id"]))
     assert abs(result.calorimeter_heat_capacity_j_k - 133.0) < 3 * result.calorimeter_heat_capacity_j_k_std
     assert "calorimeter_heat_capacity" not in {c["code"] for c in result.checks}
     # the same calibration on a foam-cup calorimeter is implausible
-    changed = client.patch(f"/api/calorimeters/{made.get_json()['id']}", json={"vessel_type": "foam-cups"},
-                           headers={**h, "If-Match": "*"})
+    changed = client.patch(
+        f"/api/calorimeters/{made.get_json()['id']}", json={"vessel_type": "foam-cups"}, headers={**h, "If-Match": "*"}
+    )
     assert changed.status_code == 200, changed.get_json()
-    r = client.post("/api/runs", headers=h, content_type="multipart/form-data", data={
-        "run_file": (io.BytesIO(toml.encode()), "dewar.toml"), "readings": (io.BytesIO(csv), "dewar.csv"),
-        "monte_carlo": "0"})
+    r = client.post(
+        "/api/runs",
+        headers=h,
+        content_type="multipart/form-data",
+        data={
+            "run_file": (io.BytesIO(toml.encode()), "dewar.toml"),
+            "readings": (io.BytesIO(csv), "dewar.csv"),
+            "monte_carlo": "0",
+        },
+    )
     result = session.scalar(sa.select(Result).where(Result.run_id == r.get_json()["id"]))
     assert "calorimeter_heat_capacity" in {c["code"] for c in result.checks}
 
@@ -119,14 +129,23 @@ def test_calorimeter_type_sets_the_plausible_range(client: Any, session: Any, la
 def test_export_with_several_channels_needs_a_column(client: Any, lab: Any) -> None:
     toml, csv = demo_files("diss-kcl-01")
     rows = csv.decode().splitlines()[1:]
-    export = "##LOGGER bench 2 (invented)\nTime Tamb Tcup\ns degC degC\n" + "\n".join(
-        f"{t} 22.00 {y}" for t, y in (row.split(",") for row in rows)) + "\n"
+    export = (
+        "##LOGGER bench 2 (invented)\nTime Tamb Tcup\ns degC degC\n"
+        + "\n".join(f"{t} 22.00 {y}" for t, y in (row.split(",") for row in rows))
+        + "\n"
+    )
     r = upload(client, lab.auth("a1"), "diss-kcl-01", csv=export.encode(), monte_carlo=0)
     assert r.status_code == 400
     body = r.get_json()
     assert body["field"] == "temperature_column" and "\n" not in body["error"] and "Tcup" in body["error"]
-    r = upload(client, lab.auth("a1"), "diss-kcl-01", toml='temperature_column = "Tcup"\n' + toml,
-               csv=export.encode(), monte_carlo=0)
+    r = upload(
+        client,
+        lab.auth("a1"),
+        "diss-kcl-01",
+        toml='temperature_column = "Tcup"\n' + toml,
+        csv=export.encode(),
+        monte_carlo=0,
+    )
     assert r.status_code == 201, r.get_json()
     plain = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()
     assert r.get_json()["current_result"]["value"] == plain["current_result"]["value"]

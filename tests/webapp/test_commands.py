@@ -47,8 +47,10 @@ def test_db_upgrade_current_downgrade(env: str) -> None:
 
 
 def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr("webapp.DEFAULTS", {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1",
-                                            "MONTE_CARLO_TRIALS": 1000})
+    monkeypatch.setattr(
+        "webapp.DEFAULTS",
+        {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1", "MONTE_CARLO_TRIALS": 1000},
+    )
     runner = CliRunner()
     assert runner.invoke(cli, ["db", "upgrade"]).exit_code == 0
     r = runner.invoke(cli, ["load-demo"])
@@ -65,14 +67,19 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
     assert any(n.startswith("electrical-calibration run") for n in notes)
     assert any(n.startswith("mixing-calibration run") for n in notes)
     # the students own their runs and their groups see them
-    owners = _rows(env, "select p.name, r.run_file_name from runs r join people p on p.id = r.author_id "
-                        "where r.kind='dissolution'")
+    owners = _rows(
+        env, "select p.name, r.run_file_name from runs r join people p on p.id = r.author_id where r.kind='dissolution'"
+    )
     assert {o for (o, name) in owners if not name.startswith(("heron", "kestrel"))} == {"Tomas Vesterby-Quail"}
     # the class practical: each run by a student of the group its file names, in the course's two sections
     assert {o for (o, name) in owners if name.startswith("kestrel-a")} == {"Lucan Ferreira-Holt"}
     sections = _rows(env, "select s.name, g.name from groups g join sections s on s.id = g.section_id order by 1, 2")
-    assert sections == [("Thursday afternoon", "Kestrel A"), ("Thursday afternoon", "Kestrel B"),
-                        ("Tuesday morning", "Heron A"), ("Tuesday morning", "Heron B")]
+    assert sections == [
+        ("Thursday afternoon", "Kestrel A"),
+        ("Thursday afternoon", "Kestrel B"),
+        ("Tuesday morning", "Heron A"),
+        ("Tuesday morning", "Heron B"),
+    ]
     assert _rows(env, "select count(*) from run_reviews where excluded")[0][0] == 1
     assert _rows(env, "select count(*) from comments")[0][0] == 4
     r = runner.invoke(cli, ["load-demo"])
@@ -80,8 +87,10 @@ def test_load_demo_stores_and_analyses_every_demo_run(env: str, monkeypatch: pyt
 
 
 def test_serve_migrates_loads_the_demo_and_prints_sign_ins(env: str, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr("webapp.DEFAULTS", {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1",
-                                            "MONTE_CARLO_TRIALS": 0})
+    monkeypatch.setattr(
+        "webapp.DEFAULTS",
+        {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1", "MONTE_CARLO_TRIALS": 0},
+    )
     called = {}
     monkeypatch.setattr("flask.Flask.run", lambda self, **kw: called.update(kw))
     port = _free_port()
@@ -131,9 +140,14 @@ def test_serve_with_workers_runs_gunicorn_processes_that_answer(env: str, tmp_pa
 
     port = free_port()
     log = (tmp_path / "serve.log").open("wb")
-    proc = subprocess.Popen([sys.executable, "-m", "calc.cli", "serve", "--no-demo", "--workers", "2",
-                             "--port", str(port)], env=env_for(env), cwd=ROOT, stdout=log, stderr=log,
-                            start_new_session=True)
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "calc.cli", "serve", "--no-demo", "--workers", "2", "--port", str(port)],
+        env=env_for(env),
+        cwd=ROOT,
+        stdout=log,
+        stderr=log,
+        start_new_session=True,
+    )
     try:
         deadline, status = time.monotonic() + 60, None
         while time.monotonic() < deadline and status != 200 and proc.poll() is None:

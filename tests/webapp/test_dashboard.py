@@ -7,16 +7,12 @@ from typing import Any
 
 import pytest
 
-from calc.statistics.precision import grubbs
-from calc.statistics.precision import iso5725
-from tests.webapp.class_fixtures import build_section
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
+from calc.statistics.precision import grubbs, iso5725
+from tests.webapp.class_fixtures import build_section, make_class, simulated_run
 from webapp.models import Person
 from webapp.services.dashboard import section_dashboard
 from webapp.services.errors import NotFound
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 
 
 def test_flags_each_triggered_by_a_crafted_run(session: Any, lab: Any, tmp_path: Path) -> None:
@@ -64,8 +60,9 @@ def test_sorting_and_access(client: Any, session: Any, lab: Any, tmp_path: Path)
     r = client.get(f"/api/sections/{cl.section_id}/dashboard?sort=value&dir=desc", headers=lab.auth("coord"))
     values = [row["value"] for row in r.get_json()["rows"]]
     assert values == sorted(values, reverse=True)
-    assert client.get(f"/api/sections/{cl.section_id}/dashboard?sort=bogus",
-                      headers=lab.auth("coord")).status_code == 400
+    assert (
+        client.get(f"/api/sections/{cl.section_id}/dashboard?sort=bogus", headers=lab.auth("coord")).status_code == 400
+    )
     # a student of another section (a1 is in Group A, no section) cannot see it
     assert client.get(f"/api/sections/{cl.section_id}/dashboard", headers=lab.auth("a1")).status_code == 404
     assert client.get(f"/api/courses/{cl.course_id}/dashboard", headers=lab.auth("a1")).status_code == 403

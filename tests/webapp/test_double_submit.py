@@ -8,11 +8,8 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import form_from_demo
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import post_form
+from tests.webapp.conftest import demo_files, sign_in
+from tests.webapp.page_helpers import form_from_demo, hidden, post_form
 from webapp.models import Run
 
 
@@ -50,8 +47,9 @@ def test_a_save_without_the_token_saves_nothing(client: Any, lab: Any, session: 
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
 
 
-def test_two_saves_at_the_same_moment_make_one_run(app: Any, lab: Any, session: Any,
-                                                   monkeypatch: pytest.MonkeyPatch) -> None:
+def test_two_saves_at_the_same_moment_make_one_run(
+    app: Any, lab: Any, session: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
     from webapp.runs import create_views
 
     clients = [app.test_client(), app.test_client()]

@@ -20,20 +20,19 @@ import sqlalchemy as sa
 from rocrate.rocrate import ROCrate
 
 from tests.webapp.conftest import DEMO
-from tests.webapp.eln_helpers import FAST_HASH
-from tests.webapp.eln_helpers import counts
-from tests.webapp.eln_helpers import crate
-from tests.webapp.eln_helpers import demo_source
-from tests.webapp.eln_helpers import dispose
-from tests.webapp.eln_helpers import file_entity
-from tests.webapp.eln_helpers import snapshot
-from tests.webapp.eln_helpers import zip_of
-from tests.webapp.eln_helpers import HOSTILE
+from tests.webapp.eln_helpers import (
+    FAST_HASH,
+    HOSTILE,
+    counts,
+    crate,
+    demo_source,
+    dispose,
+    file_entity,
+    snapshot,
+    zip_of,
+)
 from webapp.db import new_session
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Run
+from webapp.models import Calibration, Calorimeter, Person, Run
 from webapp.services import eln
 from webapp.services.eln_check import read_archive
 from webapp.services.eln_import import import_eln
@@ -56,8 +55,14 @@ def source(tmp_path_factory: pytest.TempPathFactory) -> Any:
 
 
 def _coordinator(session: Any) -> Person:
-    return create_person(session, email="new.coordinator@elsewhere.example", name="New Coordinator",
-                         role="coordinator", password="a long pass phrase", password_method=FAST_HASH)
+    return create_person(
+        session,
+        email="new.coordinator@elsewhere.example",
+        name="New Coordinator",
+        role="coordinator",
+        password="a long pass phrase",
+        password_method=FAST_HASH,
+    )
 
 
 # ----------------------------------------------------------------- written archives
@@ -124,8 +129,9 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
     assert [r["lock"] for r in mine["runs"]].count((True, True, True)) == 1
     integrity = check_database(session.get_bind())  # `cupcal db check`: the signed run verifies here too
     assert integrity.ok and "1 signed with a content hash" in integrity.summary(), integrity.summary()
-    withdrawn = session.scalar(sa.select(Calibration).where(Calibration.status == "withdrawn",
-                                                            Calibration.pool.is_(None)))
+    withdrawn = session.scalar(
+        sa.select(Calibration).where(Calibration.status == "withdrawn", Calibration.pool.is_(None))
+    )
     withdrawn.withdrawn_reason += "."
     assert snapshot(session) != source["snapshot"]
     session.rollback()
@@ -142,16 +148,28 @@ def test_round_trip_of_the_demo_lab_into_an_empty_notebook_is_exact(source: Any,
 
 
 def test_a_technician_cannot_add_calorimeters_and_the_runs_that_need_them_wait(source: Any, session: Any) -> None:
-    tech = create_person(session, email="tech@elsewhere.example", name="Tech", role="technician",
-                         password="a long pass phrase", password_method=FAST_HASH)
+    tech = create_person(
+        session,
+        email="tech@elsewhere.example",
+        name="Tech",
+        role="technician",
+        password="a long pass phrase",
+        password_method=FAST_HASH,
+    )
     report = import_eln(session, tech, source["archive"], source="x.eln", password_method=FAST_HASH)
     errors = [i.message for i in report.items if i.outcome == "error"]
     assert any("only a coordinator" in m for m in errors)
     assert any("does not have" in m for m in errors)
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 0
     # a coordinator brings the calorimeters; the technician then imports the runs, except the signed one
-    coord = create_person(session, email="coord@elsewhere.example", name="Coord", role="coordinator",
-                          password="a long pass phrase", password_method=FAST_HASH)
+    coord = create_person(
+        session,
+        email="coord@elsewhere.example",
+        name="Coord",
+        role="coordinator",
+        password="a long pass phrase",
+        password_method=FAST_HASH,
+    )
     src = new_session(source["app"])
     try:
         cals = eln.build(src, [], src.scalars(sa.select(Calorimeter)).all(), "cals", "the calorimeters")
@@ -165,7 +183,6 @@ def test_a_technician_cannot_add_calorimeters_and_the_runs_that_need_them_wait(s
     assert not any(r.locked for r in session.scalars(sa.select(Run)))
 
 
-
 # ----------------------------------------------------------------- other notebooks
 
 
@@ -174,13 +191,27 @@ def _foreign() -> bytes:
     csv = (DEMO / "diss-kcl-01.csv").read_bytes()
     notes = b"%PDF-1.4 not really a pdf\n"
     orphan = toml.replace(b'readings = "diss-kcl-01.csv"', b'readings = "missing.csv"')
-    files = {"exp-1/run.toml": toml, "exp-1/diss-kcl-01.csv": csv, "exp-1/photo.pdf": notes,
-             "exp-2/other.toml": orphan, "exp-3/notes.txt": b"just notes"}
+    files = {
+        "exp-1/run.toml": toml,
+        "exp-1/diss-kcl-01.csv": csv,
+        "exp-1/photo.pdf": notes,
+        "exp-2/other.toml": orphan,
+        "exp-3/notes.txt": b"just notes",
+    }
     graph = [file_entity(p, d) for p, d in files.items()]
-    graph += [{"@id": f"exp-{i}/", "@type": "Dataset", "name": f"Experiment {i}",
-               "hasPart": [{"@id": p} for p in files if p.startswith(f"exp-{i}/")]} for i in (1, 2, 3)]
+    graph += [
+        {
+            "@id": f"exp-{i}/",
+            "@type": "Dataset",
+            "name": f"Experiment {i}",
+            "hasPart": [{"@id": p} for p in files if p.startswith(f"exp-{i}/")],
+        }
+        for i in (1, 2, 3)
+    ]
     meta = crate(graph, ["exp-1/", "exp-2/", "exp-3/"])
-    return zip_of([("their-export/ro-crate-metadata.json", meta)] + [(f"their-export/{p}", d) for p, d in files.items()])
+    return zip_of(
+        [("their-export/ro-crate-metadata.json", meta)] + [(f"their-export/{p}", d) for p, d in files.items()]
+    )
 
 
 def test_other_notebooks_run_folders_become_runs_and_every_other_file_is_reported(session: Any) -> None:
@@ -228,13 +259,21 @@ def test_uploaded_files_named_like_the_archives_own_files_come_back(app: Any, se
     from webapp.db import get_engine
     from webapp.migrate import upgrade
     from webapp.services.analysis import AnalysisOptions
-    from webapp.services.runs import RunUpload
-    from webapp.services.runs import record_run
+    from webapp.services.runs import RunUpload, record_run
 
     me = _coordinator(session)
     toml, csv = demo_files("diss-kcl-01")
-    run = record_run(session, me, RunUpload(run_toml=toml, run_file_name="cupcal-export.json", readings=csv,
-                                            readings_name="result.json", options=AnalysisOptions()))
+    run = record_run(
+        session,
+        me,
+        RunUpload(
+            run_toml=toml,
+            run_file_name="cupcal-export.json",
+            readings=csv,
+            readings_name="result.json",
+            options=AnalysisOptions(),
+        ),
+    )
     with app.app_context():
         _name, data = eln.export_runs(session, me, [run.id])
     files = read_archive(data, "x.eln").files
@@ -284,23 +323,35 @@ def test_a_result_changed_in_the_archive_is_not_stored(source: Any, session: Any
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == len(source["snapshot"]["runs"]) - 1
 
 
-@pytest.mark.parametrize(("change", "expected"), [
-    (lambda c: c["calibrations"][0].update(status="trusted"), "calibrations[0].status: expected one of"),
-    (lambda c: c["calibrations"][-1]["pool"].update(members=[99999]), "pool.members: expected ids of calibrations"),
-    (lambda c: c.update(vessel_type="teapot"), "vessel_type: expected one of"),
-])
-def test_a_calorimeter_file_with_a_wrong_field_is_refused_by_name(source: Any, session: Any, change: Any,
-                                                                 expected: str) -> None:
+@pytest.mark.parametrize(
+    ("change", "expected"),
+    [
+        (lambda c: c["calibrations"][0].update(status="trusted"), "calibrations[0].status: expected one of"),
+        (lambda c: c["calibrations"][-1]["pool"].update(members=[99999]), "pool.members: expected ids of calibrations"),
+        (lambda c: c.update(vessel_type="teapot"), "vessel_type: expected one of"),
+    ],
+)
+def test_a_calorimeter_file_with_a_wrong_field_is_refused_by_name(
+    source: Any, session: Any, change: Any, expected: str
+) -> None:
     src = new_session(source["app"])
     try:
-        cup = src.scalar(sa.select(Calorimeter).where(Calorimeter.calibrations.any(Calibration.pool.is_not(None)))
-                         .order_by(Calorimeter.name))
+        cup = src.scalar(
+            sa.select(Calorimeter)
+            .where(Calorimeter.calibrations.any(Calibration.pool.is_not(None)))
+            .order_by(Calorimeter.name)
+        )
         data = eln.build(src, [], [cup], "cals", "a calorimeter")
     finally:
         src.close()
     before = counts(session)
-    report = import_eln(session, _coordinator(session), _retouched(data, change, "calorimeter.json"),
-                        source="cals.eln", password_method=FAST_HASH)
+    report = import_eln(
+        session,
+        _coordinator(session),
+        _retouched(data, change, "calorimeter.json"),
+        source="cals.eln",
+        password_method=FAST_HASH,
+    )
     errors = [i.message for i in report.items if i.outcome == "error"]
     assert len(errors) == 1 and expected in errors[0] and "calorimeter.json" in errors[0], errors
     assert counts(session)[2:4] == before[2:4]  # no calorimeter, no calibration

@@ -12,14 +12,11 @@ import sqlalchemy as sa
 from click.testing import CliRunner
 
 from calc.cli.commands import cli
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import PASSWORD, sign_in, upload
 from tests.webapp.eln_helpers import zip_of
 from webapp.models import Run
 from webapp.services.classes import create_section
-from webapp.services.people import create_course
-from webapp.services.people import create_group
+from webapp.services.people import create_course, create_group
 
 
 def _root(data: bytes) -> set[str]:
@@ -44,8 +41,12 @@ def test_api_exports_a_run_a_selection_and_the_notebook_and_imports_them(client:
     whole = client.get("/api/notebook/export.eln", headers=lab.auth("coord"))
     assert whole.status_code == 200
     # the runs are here already: importing them changes nothing
-    r = client.post("/api/eln-imports", data={"archive": (io.BytesIO(whole.data), "cupcal-notebook.eln")},
-                    headers=lab.auth("coord"), content_type="multipart/form-data")
+    r = client.post(
+        "/api/eln-imports",
+        data={"archive": (io.BytesIO(whole.data), "cupcal-notebook.eln")},
+        headers=lab.auth("coord"),
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 200, r.get_json()
     assert r.get_json()["counts"]["unchanged"] == 2 and r.get_json()["counts"]["error"] == 0
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 2
@@ -55,8 +56,11 @@ def test_api_import_refuses_students_and_hostile_archives(client: Any, lab: Any)
     bad = zip_of([("a/x.txt", b"x"), ("b/y.txt", b"y")])
     r = client.post("/api/eln-imports", data=bad, headers={**lab.auth("a1"), "Content-Type": "application/vnd.eln+zip"})
     assert r.status_code == 403
-    r = client.post("/api/eln-imports?name=two.eln", data=bad,
-                    headers={**lab.auth("tech"), "Content-Type": "application/vnd.eln+zip"})
+    r = client.post(
+        "/api/eln-imports?name=two.eln",
+        data=bad,
+        headers={**lab.auth("tech"), "Content-Type": "application/vnd.eln+zip"},
+    )
     assert r.status_code == 400 and "2 folders at the root" in r.get_json()["error"]
     assert r.get_json()["field"] == "archive"
     r = client.post("/api/eln-imports", data=b"", headers={**lab.auth("tech"), "Content-Type": "application/zip"})
@@ -98,11 +102,17 @@ def test_pages_offer_the_downloads_and_the_import(client: Any, lab: Any, session
     from tests.webapp.conftest import csrf_token
 
     token = csrf_token(form.get_data(as_text=True))
-    ok = client.post("/imports/eln", data={"csrf_token": token, "archive": (io.BytesIO(cal.data), "cal.eln")},
-                     content_type="multipart/form-data")
+    ok = client.post(
+        "/imports/eln",
+        data={"csrf_token": token, "archive": (io.BytesIO(cal.data), "cal.eln")},
+        content_type="multipart/form-data",
+    )
     assert ok.status_code == 200 and "calorimeter.json" in ok.get_data(as_text=True)
-    bad = client.post("/imports/eln", data={"csrf_token": token, "archive": (io.BytesIO(b"nope"), "x.eln")},
-                      content_type="multipart/form-data")
+    bad = client.post(
+        "/imports/eln",
+        data={"csrf_token": token, "archive": (io.BytesIO(b"nope"), "x.eln")},
+        content_type="multipart/form-data",
+    )
     assert bad.status_code == 400 and "not a zip archive" in bad.get_data(as_text=True)
 
 
@@ -116,8 +126,10 @@ def env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> str:
     url = f"sqlite:///{tmp_path / 'cmd.sqlite3'}"
     monkeypatch.setenv("DATABASE_URL", url)
     monkeypatch.setenv("CUPCAL_SECRET_KEY", "cmd")
-    monkeypatch.setattr("webapp.DEFAULTS", {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1",
-                                            "MONTE_CARLO_TRIALS": 500})
+    monkeypatch.setattr(
+        "webapp.DEFAULTS",
+        {**__import__("webapp").DEFAULTS, "PASSWORD_METHOD": "scrypt:1024:8:1", "MONTE_CARLO_TRIALS": 500},
+    )
     return url
 
 
@@ -130,8 +142,18 @@ def test_cupcal_export_and_import_commands(env: str, tmp_path: Path, monkeypatch
     assert r.exit_code == 0, r.output
     archive = tmp_path / "cupcal-notebook.eln"
     assert _root(archive.read_bytes()) == {"cupcal-notebook"}
-    r = runner.invoke(cli, ["export", "--calorimeter", "Cup TH-07 (two nested foam cups, lid)", "--as", me,
-                            "-o", str(tmp_path / "cup.eln")])
+    r = runner.invoke(
+        cli,
+        [
+            "export",
+            "--calorimeter",
+            "Cup TH-07 (two nested foam cups, lid)",
+            "--as",
+            me,
+            "-o",
+            str(tmp_path / "cup.eln"),
+        ],
+    )
     assert r.exit_code == 0, r.output
     assert runner.invoke(cli, ["export", "--as", me]).exit_code == 2  # nothing chosen
     assert runner.invoke(cli, ["export", "--run", "999", "--as", me]).exit_code == 2

@@ -25,8 +25,9 @@ def _path(url: str) -> str:
     return parts.path + ("?" + parts.query if parts.query else "")
 
 
-def test_signed_link_shows_the_card_and_expires(client: Any, lab: Any, run_id: int, app: Any,
-                                                monkeypatch: pytest.MonkeyPatch) -> None:
+def test_signed_link_shows_the_card_and_expires(
+    client: Any, lab: Any, run_id: int, app: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
     now = [1_900_000_000.0]
     monkeypatch.setattr(links, "clock", lambda: now[0])
     app.config["EMBED_LINK_MAX_AGE"] = 3600
@@ -57,8 +58,7 @@ def test_links_are_bound_to_their_run_and_tampering_fails(client: Any, lab: Any,
     assert client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("b1")).status_code == 404
 
 
-def test_frame_ancestors_is_configurable_and_only_on_embed_routes(client: Any, lab: Any, run_id: int,
-                                                                  app: Any) -> None:
+def test_frame_ancestors_is_configurable_and_only_on_embed_routes(client: Any, lab: Any, run_id: int, app: Any) -> None:
     app.config["EMBED_FRAME_ANCESTORS"] = "https://eln.example.org"
     r = client.get(f"/embed/runs/{run_id}", headers=lab.auth("a1"))
     assert r.headers["Content-Security-Policy"].endswith("frame-ancestors https://eln.example.org")

@@ -10,8 +10,8 @@ from typing import Any
 from openpyxl import load_workbook
 
 from tests.webapp.class_fixtures import build_section
-from webapp.models import Run
 from webapp.exports.cells import neutralise
+from webapp.models import Run
 
 
 def test_neutralise_formula_cells() -> None:
@@ -35,7 +35,7 @@ def test_csv_and_xlsx_exports(client: Any, session: Any, lab: Any, tmp_path: Pat
     assert r.status_code == 200 and r.mimetype == "text/csv"
     rows = list(csv.reader(io.StringIO(r.get_data(as_text=True))))
     header = rows[0]
-    runs = rows[1:rows.index([])]
+    runs = rows[1 : rows.index([])]
     assert len(runs) == 8
     titles = [row[header.index("title")] for row in runs]
     assert "'" + run.title in titles and run.title not in titles

@@ -9,8 +9,7 @@ import sqlalchemy as sa
 
 import webapp
 from webapp import create_app
-from webapp.db import get_engine
-from webapp.db import normalize_url
+from webapp.db import get_engine, normalize_url
 
 
 def test_no_app_at_module_level() -> None:
@@ -57,8 +56,9 @@ def test_secret_key_is_created_once_in_the_instance_folder(tmp_path: Path, monke
 
 
 def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(tmp_path: Path) -> None:
-    app = create_app({"DATABASE_URL": f"sqlite:///{tmp_path / 'x.sqlite3'}", "SECRET_KEY": "x",
-                      "SQLITE_BUSY_TIMEOUT_MS": 4321})
+    app = create_app(
+        {"DATABASE_URL": f"sqlite:///{tmp_path / 'x.sqlite3'}", "SECRET_KEY": "x", "SQLITE_BUSY_TIMEOUT_MS": 4321}
+    )
     try:
         with get_engine(app).connect() as conn:
             assert conn.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"

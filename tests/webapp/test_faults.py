@@ -20,20 +20,21 @@ import pytest
 import requests
 import sqlalchemy as sa
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import zip_folder
-from tests.webapp.fault_helpers import ROOT
-from tests.webapp.fault_helpers import assert_sound
-from tests.webapp.fault_helpers import count_runs
-from tests.webapp.fault_helpers import cupcal
-from tests.webapp.fault_helpers import distinct_hashes
-from tests.webapp.fault_helpers import env_for
-from tests.webapp.fault_helpers import import_args
-from tests.webapp.fault_helpers import kill_group
-from tests.webapp.fault_helpers import outcomes
-from tests.webapp.fault_helpers import start_server
-from tests.webapp.fault_helpers import wait_for_runs
-from tests.webapp.fault_helpers import write_runs
+from tests.webapp.class_fixtures import make_class, zip_folder
+from tests.webapp.fault_helpers import (
+    ROOT,
+    assert_sound,
+    count_runs,
+    cupcal,
+    distinct_hashes,
+    env_for,
+    import_args,
+    kill_group,
+    outcomes,
+    start_server,
+    wait_for_runs,
+    write_runs,
+)
 
 # kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
 pytestmark = pytest.mark.slow
@@ -48,13 +49,19 @@ def section_id(lab: Any, session: Any) -> int:
 
 
 def test_cli_killed_mid_import_loses_nothing_and_reimport_completes(
-        database_url: str, section_id: int, tmp_path: Path) -> None:
+    database_url: str, section_id: int, tmp_path: Path
+) -> None:
     folder = write_runs(tmp_path / "runs", N_RUNS)
     stored = kills = 0
     for extra in (2, 3, 5):  # three kills, each after a few more runs have been stored
-        proc = subprocess.Popen([sys.executable, "-m", "calc.cli", *import_args(folder)], env=env_for(database_url),
-                                cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                                start_new_session=True)
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "calc.cli", *import_args(folder)],
+            env=env_for(database_url),
+            cwd=ROOT,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+            start_new_session=True,
+        )
         wait_for_runs(database_url, proc, stored + extra)
         kills += kill_group(proc)
         assert_sound(database_url)
@@ -71,15 +78,17 @@ def test_cli_killed_mid_import_loses_nothing_and_reimport_completes(
 
 
 def test_server_killed_mid_import_loses_nothing_and_reimport_completes(
-        database_url: str, lab: Any, section_id: int, tmp_path: Path) -> None:
+    database_url: str, lab: Any, section_id: int, tmp_path: Path
+) -> None:
     archive = zip_folder(write_runs(tmp_path / "runs", N_RUNS, seed=8000))
     log = tmp_path / "gunicorn.log"
     route = f"/api/sections/{section_id}/imports"
     headers = lab.auth("coord")
 
     def post(base: str) -> requests.Response:
-        return requests.post(base + route, headers=headers, timeout=300,
-                             files={"archive": ("section.zip", archive, "application/zip")})
+        return requests.post(
+            base + route, headers=headers, timeout=300, files={"archive": ("section.zip", archive, "application/zip")}
+        )
 
     proc, base = start_server(database_url, log)
     outcome: dict[str, Any] = {}
@@ -113,8 +122,7 @@ def test_server_killed_mid_import_loses_nothing_and_reimport_completes(
     assert_sound(database_url, command=True)
 
 
-def test_server_killed_under_uploads_keeps_every_acknowledged_run(
-        database_url: str, lab: Any, tmp_path: Path) -> None:
+def test_server_killed_under_uploads_keeps_every_acknowledged_run(database_url: str, lab: Any, tmp_path: Path) -> None:
     """Eight clients upload runs one by one; kill -9 the server: every run answered 201 is stored and whole."""
     from tests.webapp.conftest import demo_files
 
@@ -130,8 +138,13 @@ def test_server_killed_under_uploads_keeps_every_acknowledged_run(
             i += 1
             text = toml.replace('title = "', f'title = "client {n} upload {i}: ', 1)
             try:
-                r = requests.post(base + "/api/runs", headers=lab.auth("a1"), timeout=60, data={"monte_carlo": "0"},
-                                  files={"run_file": ("r.toml", text.encode()), "readings": ("r.csv", csv)})
+                r = requests.post(
+                    base + "/api/runs",
+                    headers=lab.auth("a1"),
+                    timeout=60,
+                    data={"monte_carlo": "0"},
+                    files={"run_file": ("r.toml", text.encode()), "readings": ("r.csv", csv)},
+                )
             except requests.RequestException:
                 return  # the server died under it: expected
             if r.status_code != 201:  # checked in the test's own thread below

@@ -18,16 +18,8 @@ from typing import Any
 import pytest
 
 from tests.webapp.class_fixtures import make_class
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.fault_helpers import assert_sound
-from tests.webapp.fault_helpers import count_runs
-from tests.webapp.fault_helpers import cupcal
-from tests.webapp.fault_helpers import import_args
-from tests.webapp.fault_helpers import outcomes
-from tests.webapp.fault_helpers import scalar
-from tests.webapp.fault_helpers import write_runs
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from tests.webapp.fault_helpers import assert_sound, count_runs, cupcal, import_args, outcomes, scalar, write_runs
 
 # kill -9 and full-disk tests take about a quarter of the suite's time: marked, still run by default
 pytestmark = pytest.mark.slow
@@ -39,8 +31,11 @@ DISK_BYTES = 160 * 1024 * 1024  # room for a PostgreSQL server's files (about 60
 def small_disk() -> Iterator[Path]:
     """Mount a small tmpfs for the database (open to the PostgreSQL server's user); unmount it afterwards."""
     where = Path(tempfile.mkdtemp(prefix="cupcal-disk-"))
-    done = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={DISK_BYTES},mode=1777", "cupcal-test-disk",
-                           str(where)], capture_output=True, text=True)
+    done = subprocess.run(
+        ["mount", "-t", "tmpfs", "-o", f"size={DISK_BYTES},mode=1777", "cupcal-test-disk", str(where)],
+        capture_output=True,
+        text=True,
+    )
     if done.returncode != 0:
         where.rmdir()
         why = f"cannot mount a small tmpfs here: {done.stderr.strip() or done.stdout.strip()}"
@@ -63,8 +58,7 @@ def database_url(request: pytest.FixtureRequest, small_disk: Path) -> Iterator[s
         shutil.copyfile(request.getfixturevalue("sqlite_template"), path)
         yield f"sqlite:///{path}"
         return
-    from tests.webapp.conftest import create_database
-    from tests.webapp.conftest import start_or_skip
+    from tests.webapp.conftest import create_database, start_or_skip
     from webapp.migrate import upgrade
 
     # the write-ahead log lives off the small disk, as production set-ups often keep it: a full data
@@ -89,7 +83,8 @@ def fill(disk: Path, leave: int) -> Path:
 
 
 def test_import_on_a_full_disk_stops_clearly_and_resumes(
-        database_url: str, app: Any, lab: Any, session: Any, small_disk: Path, tmp_path: Path) -> None:
+    database_url: str, app: Any, lab: Any, session: Any, small_disk: Path, tmp_path: Path
+) -> None:
     make_class(session, lab.ids["coord"])
     session.close()
     folder = write_runs(tmp_path / "runs", 30, seed=9000)
@@ -112,7 +107,8 @@ def test_import_on_a_full_disk_stops_clearly_and_resumes(
 
 
 def test_upload_on_a_full_disk_is_refused_with_507_and_goes_through_later(
-        database_url: str, app: Any, client: Any, lab: Any, small_disk: Path) -> None:
+    database_url: str, app: Any, client: Any, lab: Any, small_disk: Path
+) -> None:
     filler = fill(small_disk, 0)
     r = upload(client, lab.auth("a1"), "diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id)
     assert r.status_code == 507, r.get_data(as_text=True)
@@ -127,7 +123,8 @@ def test_upload_on_a_full_disk_is_refused_with_507_and_goes_through_later(
 
 
 def test_a_page_on_a_full_disk_says_nothing_was_saved(
-        database_url: str, app: Any, client: Any, lab: Any, small_disk: Path) -> None:
+    database_url: str, app: Any, client: Any, lab: Any, small_disk: Path
+) -> None:
     r = upload(client, lab.auth("a1"), "diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id, monte_carlo=0)
     run_id = r.get_json()["id"]
     sign_in(client, "a1@lab.example")

@@ -7,8 +7,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import demo_files, upload
 
 
 def _ok4xx(r: Any) -> None:
@@ -26,8 +25,7 @@ def test_oembed_odd_numbers(client: Any, lab: Any, run_id: int) -> None:
     url = f"http://localhost/embed/runs/{run_id}"
     for name in ("maxwidth", "maxheight"):
         for raw in ("٣٠٠", "²", "9" * 5000, "-1", "0"):
-            r = client.get("/oembed", query_string={"url": url, "format": "json", name: raw},
-                           headers=lab.auth("coord"))
+            r = client.get("/oembed", query_string={"url": url, "format": "json", name: raw}, headers=lab.auth("coord"))
             _ok4xx(r)
     for rid in ("٣", "9" * 30, str(2**70)):
         r = client.get("/oembed", query_string={"url": f"http://localhost/embed/runs/{rid}", "format": "json"})
@@ -36,21 +34,30 @@ def test_oembed_odd_numbers(client: Any, lab: Any, run_id: int) -> None:
 
 def test_nested_json_and_lone_surrogates(client: Any, lab: Any, run_id: int) -> None:
     deep = "[" * 10_000 + "]" * 10_000
-    for path, method in (("/api/runs", "POST"), (f"/api/runs/{run_id}", "PATCH"), ("/api/plan", "POST"),
-                         ("/api/packages", "POST"), ("/api/series", "POST")):
-        r = client.open(path, method=method, data='{"a": ' + deep + "}", content_type="application/json",
-                        headers=lab.auth("coord"))
+    for path, method in (
+        ("/api/runs", "POST"),
+        (f"/api/runs/{run_id}", "PATCH"),
+        ("/api/plan", "POST"),
+        ("/api/packages", "POST"),
+        ("/api/series", "POST"),
+    ):
+        r = client.open(
+            path, method=method, data='{"a": ' + deep + "}", content_type="application/json", headers=lab.auth("coord")
+        )
         _ok4xx(r)
     toml, csv = demo_files("diss-kcl-01")
     for field, value in (("title", "a\ud800b"),):
-        r = client.patch(f"/api/runs/{run_id}", data=json.dumps({field: value}),
-                         content_type="application/json", headers=lab.auth("coord"))
+        r = client.patch(
+            f"/api/runs/{run_id}",
+            data=json.dumps({field: value}),
+            content_type="application/json",
+            headers=lab.auth("coord"),
+        )
         _ok4xx(r)
     for field in ("run_toml", "readings_csv"):
         doc = {"run_toml": toml, "readings_csv": csv.decode()}
         doc[field] = doc[field] + "\ud800"
-        r = client.post("/api/runs", data=json.dumps(doc), content_type="application/json",
-                        headers=lab.auth("coord"))
+        r = client.post("/api/runs", data=json.dumps(doc), content_type="application/json", headers=lab.auth("coord"))
         _ok4xx(r)
 
 
@@ -58,18 +65,37 @@ def test_packages_with_wrong_types(client: Any, lab: Any, run_id: int) -> None:
     export = client.get(f"/api/runs/{run_id}/export/json", headers=lab.auth("coord")).get_json()
     bad = []
     for key, value in (("result", "x"), ("files", []), ("run", []), ("provenance", []), ("format_version", 2**80)):
-        d = dict(export); d[key] = value; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"]["method"] = []; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"] = "x"; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = {"trials": 10, "seed": -1}; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = {"trials": 10**12, "seed": 1}; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["monte_carlo"] = "x"; bad.append(d)
-    d = json.loads(json.dumps(export)); d["run"]["calorimeter"] = ["x"]; bad.append(d)
-    d = json.loads(json.dumps(export)); d["files"]["run_file"]["sha256"] = 5; bad.append(d)
-    d = json.loads(json.dumps(export)); d["result"]["options"].update(fore=[1e308, 1e309], periods_given=True); bad.append(d)
+        d = dict(export)
+        d[key] = value
+        bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"]["method"] = []
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"] = "x"
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = {"trials": 10, "seed": -1}
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = {"trials": 10**12, "seed": 1}
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["monte_carlo"] = "x"
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["run"]["calorimeter"] = ["x"]
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["files"]["run_file"]["sha256"] = 5
+    bad.append(d)
+    d = json.loads(json.dumps(export))
+    d["result"]["options"].update(fore=[1e308, 1e309], periods_given=True)
+    bad.append(d)
     for i, doc in enumerate(bad):
-        r = client.post("/api/packages", data=json.dumps(doc), content_type="application/json",
-                        headers=lab.auth("coord"))
+        r = client.post(
+            "/api/packages", data=json.dumps(doc), content_type="application/json", headers=lab.auth("coord")
+        )
         assert 400 <= r.status_code < 500, (i, r.status_code)
 
 
@@ -81,10 +107,18 @@ def test_huge_integers(client: Any, lab: Any, run_id: int) -> None:
     _ok4xx(client.get("/api/exports?run_ids=" + "9" * 5000, headers=lab.auth("coord")))
     _ok4xx(client.post("/api/series", json={"name": "x", "run_ids": [big, 1]}, headers=lab.auth("coord")))
     toml, csv = demo_files("diss-kcl-01")
-    _ok4xx(client.post("/api/runs", json={"run_toml": toml, "readings_csv": csv.decode(), "calorimeter_id": big},
-                       headers=lab.auth("coord")))
-    _ok4xx(client.post("/api/runs", json={"run_toml": toml, "readings_csv": csv.decode(), "seed": -1},
-                       headers=lab.auth("coord")))
+    _ok4xx(
+        client.post(
+            "/api/runs",
+            json={"run_toml": toml, "readings_csv": csv.decode(), "calorimeter_id": big},
+            headers=lab.auth("coord"),
+        )
+    )
+    _ok4xx(
+        client.post(
+            "/api/runs", json={"run_toml": toml, "readings_csv": csv.decode(), "seed": -1}, headers=lab.auth("coord")
+        )
+    )
 
 
 def test_run_files_at_the_extremes(client: Any, lab: Any) -> None:
@@ -94,7 +128,7 @@ def test_run_files_at_the_extremes(client: Any, lab: Any) -> None:
         (toml.replace('mass = "3.7276', 'mass = "1e308').replace(" ± 0.0002 g", " ± 1 g"), csv),
         (toml + "\n[x]\na = " + "[" * 10_000 + "]" * 10_000 + "\n", csv),
         (toml.replace('formula = "KCl"', 'formula = "K999999999999999999999Cl"'), csv),
-        (toml.replace('date = ', 'date = "yesterday"\n#'), csv),
+        (toml.replace("date = ", 'date = "yesterday"\n#'), csv),
         (ntoml.replace("equivalents = 1\n", "equivalents = " + "9" * 5000 + "\n", 1), ncsv),
         (ntoml.replace("equivalents = 1\n", "equivalents = 1e30\n", 1), ncsv),
     ]
@@ -105,10 +139,17 @@ def test_run_files_at_the_extremes(client: Any, lab: Any) -> None:
 
 
 def test_plan_at_the_extremes(client: Any, lab: Any) -> None:
-    base = {"kind": "dissolution", "thermometer_resolution": 0.01, "calorimeter_heat_capacity": "20 J/K",
-            "formula": "KCl", "mass": "3 g", "water_volume": "100 mL"}
+    base = {
+        "kind": "dissolution",
+        "thermometer_resolution": 0.01,
+        "calorimeter_heat_capacity": "20 J/K",
+        "formula": "KCl",
+        "mass": "3 g",
+        "water_volume": "100 mL",
+    }
     assert client.post("/api/plan", json=base, headers=lab.auth("a1")).status_code == 200
     from webapp.api.classes import _PLAN_NUMBERS
+
     for k in _PLAN_NUMBERS:
         for v in (1e308, 1e-320, -1e308, 0, 1e6):
             r = client.post("/api/plan", json={**base, k: v}, headers=lab.auth("a1"))
@@ -125,8 +166,7 @@ def test_nul_characters_are_refused_before_the_database(client: Any, lab: Any) -
 
 def test_the_new_run_form_takes_iso_dates_only(client: Any, lab: Any) -> None:
     from tests.webapp.conftest import sign_in
-    from tests.webapp.page_helpers import form_from_demo
-    from tests.webapp.page_helpers import post_form
+    from tests.webapp.page_helpers import form_from_demo, post_form
 
     sign_in(client, "a1@lab.example")
     _toml, csv = demo_files("diss-kcl-01")

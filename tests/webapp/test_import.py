@@ -11,18 +11,10 @@ import pytest
 import sqlalchemy as sa
 from click.testing import CliRunner
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from tests.webapp.class_fixtures import zip_folder
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.class_fixtures import make_class, simulated_run, zip_folder
+from webapp.models import Person, Result, Run, RunInput
 from webapp.services.errors import Invalid
-from webapp.services.imports import Limits
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import files_from_zip
-from webapp.services.imports import import_files
+from webapp.services.imports import Limits, files_from_folder, files_from_zip, import_files
 
 
 def _counts(session: Any) -> tuple[int, int, int]:
@@ -35,7 +27,7 @@ def _folder(tmp_path: Path) -> Path:
     simulated_run(d, "M02-run1", 2)
     simulated_run(d / "sub", "anon", 3)  # group from the mapping
     bad = simulated_run(d, "M03-bad", 4)
-    bad.write_text(bad.read_text(encoding="utf-8").replace('[water]\n', '[water]\ncolour = "blue"\n'), encoding="utf-8")
+    bad.write_text(bad.read_text(encoding="utf-8").replace("[water]\n", '[water]\ncolour = "blue"\n'), encoding="utf-8")
     (d / "notes.txt").write_text("not a run", encoding="utf-8")
     return d
 
@@ -87,8 +79,9 @@ def test_a_crash_mid_import_leaves_no_half_stored_run(session: Any, lab: Any, tm
     # raise after the second run's rows are flushed but before its commit
     sa.event.listen(session, "after_flush", crash)
     with pytest.raises(RuntimeError, match="power cut"):
-        import_files(session, session.get(Person, lab.ids["coord"]), cl.section_id, files,
-                     mapping="file,group\nanon.toml,M04\n")
+        import_files(
+            session, session.get(Person, lab.ids["coord"]), cl.section_id, files, mapping="file,group\nanon.toml,M04\n"
+        )
     sa.event.remove(session, "after_flush", crash)
     from webapp.db import new_session
 
@@ -96,8 +89,12 @@ def test_a_crash_mid_import_leaves_no_half_stored_run(session: Any, lab: Any, tm
     try:
         runs, results, inputs = _counts(fresh)
         assert runs == 1 and results == 1
-        assert fresh.scalar(sa.select(sa.func.count()).select_from(RunInput).where(RunInput.run_id.not_in(
-            sa.select(Run.id)))) == 0
+        assert (
+            fresh.scalar(
+                sa.select(sa.func.count()).select_from(RunInput).where(RunInput.run_id.not_in(sa.select(Run.id)))
+            )
+            == 0
+        )
         assert inputs > 0
     finally:
         fresh.close()
@@ -131,27 +128,43 @@ def test_zip_bombs_and_too_many_files_are_refused() -> None:
 def test_import_over_the_api_and_the_web_page(client: Any, lab: Any, session: Any, tmp_path: Path) -> None:
     cl = make_class(session, lab.ids["coord"])
     archive = zip_folder(_folder(tmp_path))
-    data = {"archive": (io.BytesIO(archive), "section.zip"),
-            "mapping": (io.BytesIO(b"file,group\nanon.toml,M04\n"), "map.csv")}
-    r = client.post(f"/api/sections/{cl.section_id}/imports", data=data, headers=lab.auth("coord"),
-                    content_type="multipart/form-data")
+    data = {
+        "archive": (io.BytesIO(archive), "section.zip"),
+        "mapping": (io.BytesIO(b"file,group\nanon.toml,M04\n"), "map.csv"),
+    }
+    r = client.post(
+        f"/api/sections/{cl.section_id}/imports",
+        data=data,
+        headers=lab.auth("coord"),
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 200, r.get_json()
     assert r.get_json()["counts"] == {"stored": 3, "unchanged": 0, "error": 1, "ignored": 1}
-    r = client.post(f"/api/sections/{cl.section_id}/imports", data={"archive": (io.BytesIO(archive), "s.zip")},
-                    headers=lab.auth("a1"), content_type="multipart/form-data")
+    r = client.post(
+        f"/api/sections/{cl.section_id}/imports",
+        data={"archive": (io.BytesIO(archive), "s.zip")},
+        headers=lab.auth("a1"),
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 403
     bad = _zip({"../x.toml": b"x"})
-    r = client.post(f"/api/sections/{cl.section_id}/imports", data={"archive": (io.BytesIO(bad), "s.zip")},
-                    headers=lab.auth("coord"), content_type="multipart/form-data")
+    r = client.post(
+        f"/api/sections/{cl.section_id}/imports",
+        data={"archive": (io.BytesIO(bad), "s.zip")},
+        headers=lab.auth("coord"),
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 400 and "leads out of the archive" in r.get_json()["error"]
-    from tests.webapp.conftest import csrf_token
-    from tests.webapp.conftest import sign_in
+    from tests.webapp.conftest import csrf_token, sign_in
 
     sign_in(client, "coord@lab.example")
     page = client.get(f"/imports/sections/{cl.section_id}")
     assert page.status_code == 200
-    r = client.post(f"/imports/sections/{cl.section_id}", content_type="multipart/form-data", data={
-        "csrf_token": csrf_token(page.get_data(as_text=True)), "archive": (io.BytesIO(archive), "section.zip")})
+    r = client.post(
+        f"/imports/sections/{cl.section_id}",
+        content_type="multipart/form-data",
+        data={"csrf_token": csrf_token(page.get_data(as_text=True)), "archive": (io.BytesIO(archive), "section.zip")},
+    )
     html = r.get_data(as_text=True)
     assert r.status_code == 200 and "3 unchanged (already stored)" in html and "M03-bad.toml" in html
 
@@ -176,14 +189,19 @@ def test_cupcal_import_command(app: Any, lab: Any, session: Any, tmp_path: Path,
     assert r.exit_code == 2 and "no section 'Nope'" in r.output and "Traceback" not in r.output
 
 
-def test_an_oversized_import_is_refused_before_it_is_read(app: Any, client: Any, lab: Any, session: Any,
-                                                          tmp_path: Path) -> None:
+def test_an_oversized_import_is_refused_before_it_is_read(
+    app: Any, client: Any, lab: Any, session: Any, tmp_path: Path
+) -> None:
     cl = make_class(session, lab.ids["coord"])
     app.config["IMPORT_MAX_UPLOAD_BYTES"] = 64 * 1024
     archive = zip_folder(_folder(tmp_path))
     padded = archive + b"\0" * (80 * 1024)  # over the limit whatever the zip's own size
-    r = client.post(f"/api/sections/{cl.section_id}/imports", headers=lab.auth("coord"),
-                    data={"archive": (io.BytesIO(padded), "big.zip")}, content_type="multipart/form-data")
+    r = client.post(
+        f"/api/sections/{cl.section_id}/imports",
+        headers=lab.auth("coord"),
+        data={"archive": (io.BytesIO(padded), "big.zip")},
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 413, r.get_data(as_text=True)
     assert "larger than the limit of 64 KiB" in r.get_json()["error"]
     assert _counts(session) == (0, 0, 0)
@@ -199,8 +217,7 @@ def _with_group(path: Path, group: str) -> None:
 
 
 def test_missing_groups_are_created_from_info_group_when_asked(session: Any, lab: Any, tmp_path: Path) -> None:
-    from webapp.models import AuditEntry
-    from webapp.models import Group
+    from webapp.models import AuditEntry, Group
 
     cl = make_class(session, lab.ids["coord"])
     coord = session.get(Person, lab.ids["coord"])
@@ -221,8 +238,16 @@ def test_missing_groups_are_created_from_info_group_when_asked(session: Any, lab
     assert by["e.toml"].outcome == "error"  # its run failed, so its group was not kept either
     names = set(session.scalars(sa.select(Group.name).where(Group.section_id == cl.section_id)))
     assert {"N21", "N22"} <= names and "N23" not in names
-    assert session.scalar(sa.select(sa.func.count()).select_from(AuditEntry).where(
-        AuditEntry.entity == "group", AuditEntry.field == "created")) == 2
+    assert (
+        session.scalar(
+            sa.select(sa.func.count())
+            .select_from(AuditEntry)
+            .where(AuditEntry.entity == "group", AuditEntry.field == "created")
+        )
+        == 2
+    )
+
+
 # ----------------------------------------------------------------- issue 12: duplicates, totals, races
 
 
@@ -276,23 +301,27 @@ def test_a_readings_file_shared_by_many_runs_counts_once_per_use(session: Any, l
             import_files(session, coord, cl.section_id, files)
 
 
-def test_the_limit_answers_413_through_the_api(client: Any, lab: Any, session: Any, app: Any,
-                                              tmp_path: Path) -> None:
+def test_the_limit_answers_413_through_the_api(client: Any, lab: Any, session: Any, app: Any, tmp_path: Path) -> None:
     cl = make_class(session, lab.ids["coord"])
     d = tmp_path / "api"
     simulated_run(d, "M01-run1", 1)
     for i in range(2, 5):
-        (d / f"M01-run{i}.toml").write_text((d / "M01-run1.toml").read_text(encoding="utf-8") + f"\n# {i}\n",
-                                            encoding="utf-8")
+        (d / f"M01-run{i}.toml").write_text(
+            (d / "M01-run1.toml").read_text(encoding="utf-8") + f"\n# {i}\n", encoding="utf-8"
+        )
     app.config["LIMITS"] = {"import_files": 2}
-    r = client.post(f"/api/sections/{cl.section_id}/imports", headers=lab.auth("coord"),
-                    data={"archive": (io.BytesIO(zip_folder(d)), "runs.zip")}, content_type="multipart/form-data")
+    r = client.post(
+        f"/api/sections/{cl.section_id}/imports",
+        headers=lab.auth("coord"),
+        data={"archive": (io.BytesIO(zip_folder(d)), "runs.zip")},
+        content_type="multipart/form-data",
+    )
     assert r.status_code == 413 and "import_files" in r.get_json()["error"]
 
 
-def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(app: Any, lab: Any, session: Any,
-                                                                              tmp_path: Path,
-                                                                              monkeypatch: pytest.MonkeyPatch) -> None:
+def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(
+    app: Any, lab: Any, session: Any, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     import threading
 
     from webapp.db import new_session

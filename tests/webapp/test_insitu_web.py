@@ -17,8 +17,7 @@ import sqlalchemy as sa
 from calc.simulation.insitu import simulate_dissolution_with_calibration
 from calc.simulation.simulator import write_run
 from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import post_form
+from tests.webapp.page_helpers import hidden, post_form
 from webapp.models import Result
 
 _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")
@@ -59,9 +58,12 @@ def test_form_preview_and_save(client: Any, session: Any, lab: Any, tmp_path: Pa
     preview = post_form(client, "dissolution-with-calibration", fields, csv=csv, csv_name="insitu.csv")
     html = preview.get_data(as_text=True)
     assert preview.status_code == 200 and 'value="save"' in html, html[:3000]
-    carried = {"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token"),
-               "readings_packed": hidden(html, "readings_packed"),
-               "readings_name": hidden(html, "readings_name")}
+    carried = {
+        "previewed": hidden(html, "previewed"),
+        "submit_token": hidden(html, "submit_token"),
+        "readings_packed": hidden(html, "readings_packed"),
+        "readings_name": hidden(html, "readings_name"),
+    }
     r = post_form(client, "dissolution-with-calibration", fields, csv=None, action="save", extra=carried)
     assert r.status_code in (302, 303), r.get_data(as_text=True)[:2000]
     result = session.scalar(sa.select(Result).order_by(Result.id.desc()))
@@ -75,9 +77,16 @@ def test_form_preview_and_save(client: Any, session: Any, lab: Any, tmp_path: Pa
 
 def test_upload_without_heater_start_is_refused_with_the_field(client: Any, lab: Any, tmp_path: Path) -> None:
     path, _ = simulated(tmp_path)
-    text = re.sub(r'(?m)^start = .*\n', "", path.read_text())
-    r = client.post("/api/runs", headers=lab.auth("a1"), content_type="multipart/form-data", data={
-        "run_file": (io.BytesIO(text.encode()), "insitu.toml"),
-        "readings": (io.BytesIO((tmp_path / "insitu.csv").read_bytes()), "insitu.csv"), "monte_carlo": "0"})
+    text = re.sub(r"(?m)^start = .*\n", "", path.read_text())
+    r = client.post(
+        "/api/runs",
+        headers=lab.auth("a1"),
+        content_type="multipart/form-data",
+        data={
+            "run_file": (io.BytesIO(text.encode()), "insitu.toml"),
+            "readings": (io.BytesIO((tmp_path / "insitu.csv").read_bytes()), "insitu.csv"),
+            "monte_carlo": "0",
+        },
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "heater.start"
     assert "\n" not in r.get_json()["error"]

@@ -13,14 +13,12 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
+from tests.webapp.class_fixtures import make_class, simulated_run
 from tests.webapp.conftest import upload
 from tests.webapp.fault_helpers import cupcal
 from webapp.db import get_engine
 from webapp.models import Person
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.integrity import check_database
 
 
@@ -34,8 +32,9 @@ def stored(app: Any, client: Any, lab: Any, session: Any, tmp_path: Path) -> dic
         ids[name] = r.get_json()["id"]
     cl = make_class(session, lab.ids["coord"])
     simulated_run(tmp_path / "bulk", "M01-run1", 11)
-    report = import_files(session, session.get(Person, lab.ids["coord"]), cl.section_id,
-                          files_from_folder(tmp_path / "bulk"))
+    report = import_files(
+        session, session.get(Person, lab.ids["coord"]), cl.section_id, files_from_folder(tmp_path / "bulk")
+    )
     ids["imported"] = report.items[0].run_id
     return ids
 
@@ -67,11 +66,13 @@ def test_a_sound_database_passes_and_says_what_was_checked(app: Any, stored: dic
 
 def test_every_kind_of_damage_is_found(app: Any, stored: dict[str, int]) -> None:
     kcl, hcl, imp = stored["diss-kcl-01"], stored["neut-hcl-naoh-01"], stored["imported"]
-    _damage(app,
-            f"UPDATE runs SET points = points + 1 WHERE id = {kcl}",
-            f"UPDATE results SET is_current = false WHERE run_id = {hcl}",
-            f"UPDATE runs SET readings_raw = readings_raw || readings_raw WHERE id = {imp}",
-            f"UPDATE run_inputs SET run_id = 9999 WHERE id = (SELECT min(id) FROM run_inputs WHERE run_id = {kcl})")
+    _damage(
+        app,
+        f"UPDATE runs SET points = points + 1 WHERE id = {kcl}",
+        f"UPDATE results SET is_current = false WHERE run_id = {hcl}",
+        f"UPDATE runs SET readings_raw = readings_raw || readings_raw WHERE id = {imp}",
+        f"UPDATE run_inputs SET run_id = 9999 WHERE id = (SELECT min(id) FROM run_inputs WHERE run_id = {kcl})",
+    )
     report = check_database(get_engine(app))
     assert not report.ok
     problems = "\n".join(report.problems)
@@ -84,15 +85,18 @@ def test_every_kind_of_damage_is_found(app: Any, stored: dict[str, int]) -> None
 
 def test_two_current_results_are_found(app: Any, stored: dict[str, int]) -> None:
     kcl = stored["diss-kcl-01"]
-    _damage(app, "INSERT INTO results (run_id, is_current, method, main, fore_start_s, fore_end_s, after_start_s, "
-                 "after_end_s, mixing_time_s, mixing_time_s_std, mixing_time_detected, periods_given, "
-                 "corrected_delta_t_k, corrected_delta_t_k_std, heat_j, heat_j_std, expanded_uncertainty, "
-                 "coverage_factor, budget, warnings, cautions, construction, properties, record, software_version, "
-                 f"created_at) SELECT run_id, is_current, method, main, fore_start_s, fore_end_s, after_start_s, "
-                 "after_end_s, mixing_time_s, mixing_time_s_std, mixing_time_detected, periods_given, "
-                 "corrected_delta_t_k, corrected_delta_t_k_std, heat_j, heat_j_std, expanded_uncertainty, "
-                 "coverage_factor, budget, warnings, cautions, construction, properties, record, software_version, "
-                 f"created_at FROM results WHERE run_id = {kcl}")
+    _damage(
+        app,
+        "INSERT INTO results (run_id, is_current, method, main, fore_start_s, fore_end_s, after_start_s, "
+        "after_end_s, mixing_time_s, mixing_time_s_std, mixing_time_detected, periods_given, "
+        "corrected_delta_t_k, corrected_delta_t_k_std, heat_j, heat_j_std, expanded_uncertainty, "
+        "coverage_factor, budget, warnings, cautions, construction, properties, record, software_version, "
+        f"created_at) SELECT run_id, is_current, method, main, fore_start_s, fore_end_s, after_start_s, "
+        "after_end_s, mixing_time_s, mixing_time_s_std, mixing_time_detected, periods_given, "
+        "corrected_delta_t_k, corrected_delta_t_k_std, heat_j, heat_j_std, expanded_uncertainty, "
+        "coverage_factor, budget, warnings, cautions, construction, properties, record, software_version, "
+        f"created_at FROM results WHERE run_id = {kcl}",
+    )
     report = check_database(get_engine(app))
     assert [p for p in report.problems] == [f"run {kcl} has 2 current results (expected exactly 1)"]
 

@@ -11,16 +11,18 @@ import sqlalchemy as sa
 
 from tests.webapp.conftest import upload
 from webapp.db import get_engine
-from webapp.models import AuditEntry
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import AuditEntry, Result, Run
 from webapp.services.integrity import check_database
 
 
 def _locked_run(client: Any, lab: Any) -> int:
     run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    assert client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"},
-                        json={"title": "before the lock"}).status_code == 200
+    assert (
+        client.patch(
+            f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"title": "before the lock"}
+        ).status_code
+        == 200
+    )
     assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
     return int(run_id)
 
@@ -39,8 +41,11 @@ def test_a_change_after_the_lock_is_reported(client: Any, lab: Any) -> None:
     with engine.begin() as c:
         c.execute(sa.update(Run).where(Run.id == run_id).values(title="changed behind its back"))
         c.execute(sa.update(Result).where(Result.run_id == run_id).values(heat_j=Result.heat_j * 2))
-        c.execute(sa.insert(AuditEntry).values(entity="run", entity_id=run_id, field="notes", old="", new="late",
-                                               at=sa.func.current_timestamp()))
+        c.execute(
+            sa.insert(AuditEntry).values(
+                entity="run", entity_id=run_id, field="notes", old="", new="late", at=sa.func.current_timestamp()
+            )
+        )
     problems = check_database(engine).problems
     assert any(f"run {run_id} changed after its lock" in p for p in problems)
     assert any(f"run {run_id}: audit entry" in p and "after its lock" in p for p in problems)
@@ -51,8 +56,16 @@ def test_a_break_in_the_audit_chain_is_reported(client: Any, lab: Any) -> None:
     engine = get_engine(client.application)
     with engine.begin() as c:  # a lost update: its old value is not the previous entry's new one
         entry = c.scalar(sa.select(AuditEntry.id).where(AuditEntry.entity == "run", AuditEntry.field == "title"))
-        c.execute(sa.insert(AuditEntry).values(entity="run", entity_id=run_id, field="title", old="something else",
-                                               new="x", at=sa.func.current_timestamp()))
+        c.execute(
+            sa.insert(AuditEntry).values(
+                entity="run",
+                entity_id=run_id,
+                field="title",
+                old="something else",
+                new="x",
+                at=sa.func.current_timestamp(),
+            )
+        )
     problems = check_database(engine).problems
     assert entry is not None
     assert any("audit chain broken" in p and "'something else'" in p and "'before the lock'" in p for p in problems)

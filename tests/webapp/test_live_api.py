@@ -7,14 +7,9 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
-from tests.webapp.live_helpers import start_live
-from webapp.models import LiveReading
-from webapp.models import Person
+from tests.webapp.conftest import demo_files, upload
+from tests.webapp.live_helpers import batch, demo_rows, live_run_file, start_live
+from webapp.models import LiveReading, Person
 from webapp.services.tokens import issue_scoped_token
 
 
@@ -28,8 +23,9 @@ def test_create_is_idempotent_on_the_owners_client_key(client: Any, lab: Any) ->
     assert r.status_code == 201, r.get_json()
     first = r.get_json()
     assert first["last_seq"] == -1 and first["page_url"] == f"/live/{first['id']}"
-    client.post(f"/api/live-runs/{first['id']}/readings", json={"readings": batch(demo_rows(), 0, 4)},
-                headers=lab.auth("a1"))
+    client.post(
+        f"/api/live-runs/{first['id']}/readings", json={"readings": batch(demo_rows(), 0, 4)}, headers=lab.auth("a1")
+    )
     again = start_live(client, lab.auth("a1"))  # a restarted recorder: same id, resumes after seq 3
     assert again.status_code == 200 and again.get_json()["id"] == first["id"] and again.get_json()["last_seq"] == 3
     other = start_live(client, lab.auth("b1"))  # the key is unique per owner, not across the notebook
@@ -46,8 +42,11 @@ def test_readings_are_idempotent_by_sequence_number(client: Any, lab: Any, sessi
     assert r.get_json() == {"stored": 5, "last_seq": 14}
     r = client.post(url, json={"readings": batch(rows, 0, 15)}, headers=lab.auth("a1"))  # all known: nothing new
     assert r.get_json() == {"stored": 0, "last_seq": 14}
-    stored = session.execute(sa.select(LiveReading.seq, LiveReading.time_s, LiveReading.temperature_c)
-                             .where(LiveReading.live_run_id == live).order_by(LiveReading.seq)).all()
+    stored = session.execute(
+        sa.select(LiveReading.seq, LiveReading.time_s, LiveReading.temperature_c)
+        .where(LiveReading.live_run_id == live)
+        .order_by(LiveReading.seq)
+    ).all()
     assert [tuple(s) for s in stored] == [(i, rows[i][0], rows[i][1]) for i in range(15)]
     got = client.get(f"/api/live-runs/{live}", headers=lab.auth("a1")).get_json()
     assert got["state"] == "recording" and got["n_readings"] == 15 and got["last_seq"] == 14
@@ -73,15 +72,18 @@ def test_bad_input_is_refused_with_the_field_named(client: Any, lab: Any) -> Non
     ]
     for body, field in cases:
         r = client.post(url, json=body, headers=h)
-        assert r.status_code == 400 and r.get_json()["field"] == field, (body if len(str(body)) < 200 else field,
-                                                                         r.get_json())
+        assert r.status_code == 400 and r.get_json()["field"] == field, (
+            body if len(str(body)) < 200 else field,
+            r.get_json(),
+        )
     assert client.get(f"/api/live-runs/{live}", headers=h).get_json()["last_seq"] == 1  # nothing half-saved
-    for body, field in [({"run_file": "kind = [", "client_key": "k1"}, "run_file"),
-                        ({"run_file": live_run_file(), "client_key": "no spaces allowed"}, "client_key"),
-                        ({"run_file": live_run_file(), "client_key": "k2", "target_u": -1}, "target_u"),
-                        ({"run_file": live_run_file(), "client_key": "k3", "colour": "red"}, "colour"),
-                        ({"run_file": live_run_file().replace('kind = "dissolution"', 'kind = "brewing"'),
-                          "client_key": "k4"}, "kind")]:
+    for body, field in [
+        ({"run_file": "kind = [", "client_key": "k1"}, "run_file"),
+        ({"run_file": live_run_file(), "client_key": "no spaces allowed"}, "client_key"),
+        ({"run_file": live_run_file(), "client_key": "k2", "target_u": -1}, "target_u"),
+        ({"run_file": live_run_file(), "client_key": "k3", "colour": "red"}, "colour"),
+        ({"run_file": live_run_file().replace('kind = "dissolution"', 'kind = "brewing"'), "client_key": "k4"}, "kind"),
+    ]:
         r = client.post("/api/live-runs", json=body, headers=h)
         assert r.status_code == 400 and r.get_json()["field"] == field, r.get_json()
 
@@ -89,8 +91,12 @@ def test_bad_input_is_refused_with_the_field_named(client: Any, lab: Any) -> Non
 def test_a_live_token_records_live_runs_and_nothing_else(client: Any, lab: Any, session: Any) -> None:
     live_h = _live_token(session, lab.ids["a1"])
     live = start_live(client, live_h).get_json()["id"]
-    assert client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 3)},
-                       headers=live_h).status_code == 200
+    assert (
+        client.post(
+            f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 3)}, headers=live_h
+        ).status_code
+        == 200
+    )
     assert client.get(f"/api/live-runs/{live}", headers=live_h).status_code == 200
     for method, url in [("get", "/api/runs"), ("get", "/api/me"), ("get", "/api/calorimeters")]:
         r = getattr(client, method)(url, headers=live_h)
@@ -101,8 +107,9 @@ def test_a_live_token_records_live_runs_and_nothing_else(client: Any, lab: Any, 
     assert r.status_code == 403
     # another group's student neither sees nor feeds it; a member of the same group and staff see it
     assert client.get(f"/api/live-runs/{live}", headers=lab.auth("b1")).status_code == 404
-    assert client.post(f"/api/live-runs/{live}/readings", json={"readings": []},
-                       headers=lab.auth("b1")).status_code == 404
+    assert (
+        client.post(f"/api/live-runs/{live}/readings", json={"readings": []}, headers=lab.auth("b1")).status_code == 404
+    )
     assert client.get(f"/api/live-runs/{live}", headers=lab.auth("a2")).status_code == 200
     assert client.get(f"/api/live-runs/{live}", headers=lab.auth("tech")).status_code == 200
 
@@ -112,8 +119,9 @@ def test_finish_stores_the_run_like_an_upload_with_the_raw_log_exact(client: Any
     rows = demo_rows()
     live = start_live(client, h).get_json()["id"]
     for start in range(0, len(rows), 400):
-        r = client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(rows, start, start + 400)},
-                        headers=h)
+        r = client.post(
+            f"/api/live-runs/{live}/readings", json={"readings": batch(rows, start, start + 400)}, headers=h
+        )
         assert r.status_code == 200
     _toml, raw_csv = demo_files("diss-kcl-01")
     r = client.post(f"/api/live-runs/{live}/finish", json={"readings_csv": raw_csv.decode("utf-8")}, headers=h)
@@ -133,7 +141,10 @@ def test_finish_stores_the_run_like_an_upload_with_the_raw_log_exact(client: Any
     live_run = client.get(f"/api/runs/{run_id}", headers=lab.auth("a1")).get_json()
     mine, theirs = live_run["results"][-1], direct["results"][-1]
     assert (mine["main"], mine["value"], mine["standard_uncertainty"]) == (
-        theirs["main"], theirs["value"], theirs["standard_uncertainty"])
+        theirs["main"],
+        theirs["value"],
+        theirs["standard_uncertainty"],
+    )
     # KCl dissolves endothermically: ΔsolH° = +17.2 kJ/mol at infinite dilution (CRC Handbook, from memory),
     # about +18 kJ/mol at this run's 0.5 mol/kg and 22 °C
     assert 16.5 < mine["value"] < 19.0 and mine["unit"] == "kJ/mol"

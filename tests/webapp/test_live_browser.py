@@ -9,15 +9,15 @@ from typing import Any
 
 import requests
 
-from tests.webapp.browser_support import STUDENT
-from tests.webapp.browser_support import WAIT_S
-from tests.webapp.browser_support import _shot
-from tests.webapp.browser_support import _sign_in
-from tests.webapp.browser_support import browser  # noqa: F401  (fixture)
-from tests.webapp.browser_support import server  # noqa: F401  (fixture)
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import live_run_file
+from tests.webapp.browser_support import (
+    STUDENT,
+    WAIT_S,
+    _shot,
+    _sign_in,
+    browser,  # noqa: F401  (fixture)
+    server,  # noqa: F401  (fixture)
+)
+from tests.webapp.live_helpers import batch, demo_rows, live_run_file
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 TOKENS: dict[str, str] = {}
@@ -34,8 +34,9 @@ def PREPARE_DEMO(session: Any) -> None:  # noqa: N802 - looked up by browser_sup
     student = session.scalar(sa.select(Person).where(Person.email == STUDENT))
     TOKENS["student"] = issue_scoped_token(session, student, "bench recorder", "live")[1]
     coordinator = session.scalar(sa.select(Person).where(Person.email == COORDINATOR))
-    section = create_section(session, coordinator, course_id=session.scalars(sa.select(Course)).first().id,
-                             name="Heron (live check)")
+    section = create_section(
+        session, coordinator, course_id=session.scalars(sa.select(Course)).first().id, name="Heron (live check)"
+    )
     for group in session.scalars(sa.select(Group)):
         group.section_id = section.id
     session.commit()
@@ -58,8 +59,12 @@ def _until(d: Any, script: str, *args: Any, timeout: float = WAIT_S) -> Any:
 
 
 def _alert(d: Any, code: str, timeout: float = WAIT_S) -> str:
-    return _until(d, "const e = document.querySelector('.live-alert-' + arguments[0]); return e && e.textContent;",
-                  code, timeout=timeout)
+    return _until(
+        d,
+        "const e = document.querySelector('.live-alert-' + arguments[0]); return e && e.textContent;",
+        code,
+        timeout=timeout,
+    )
 
 
 def test_the_live_page_grows_advises_stop_and_warns_of_a_stop(browser: Any, server: str) -> None:
@@ -77,11 +82,15 @@ def test_the_live_page_grows_advises_stop_and_warns_of_a_stop(browser: Any, serv
         _api(server, f"/api/live-runs/{live}/readings", {"readings": batch(rows, start, start + 60)})
         last = min(start + 60, len(rows)) - 1
         _until(d, "return document.getElementById('live-run').dataset.seq == arguments[0];", str(last))
-    points = d.execute_script("return document.querySelector('#live-curve polyline').getAttribute('points')"
-                              ".trim().split(' ').length;")
+    points = d.execute_script(
+        "return document.querySelector('#live-curve polyline').getAttribute('points').trim().split(' ').length;"
+    )
     assert points == len(rows) and d.execute_script("return window.__sameDocument === true;")
-    status = _until(d, "const r = document.getElementById('live-run');"
-                       "return r.dataset.phase === 'can_stop' && document.getElementById('live-status').textContent;")
+    status = _until(
+        d,
+        "const r = document.getElementById('live-run');"
+        "return r.dataset.phase === 'can_stop' && document.getElementById('live-status').textContent;",
+    )
     assert "stop" in status.lower()
     assert d.find_element("id", "est-value").text != "—"  # a running estimate is shown
     _shot(d, "live-page")
@@ -125,18 +134,30 @@ def test_the_page_falls_back_to_polling_and_the_room_view_shows_the_bench(browse
     _until(d, "return document.getElementById('live-run').dataset.seq === '29';", timeout=5)
     d.delete_all_cookies()
     _sign_in(d, server, COORDINATOR)
-    section = d.execute_script(
-        "return [...document.querySelectorAll('a')].map(a => a.getAttribute('href'))"
-        ".find(h => /^\\/classes\\/sections\\/\\d+$/.test(h || '')) || null;") if d.get(server + "/classes/") is None else None
+    section = (
+        d.execute_script(
+            "return [...document.querySelectorAll('a')].map(a => a.getAttribute('href'))"
+            ".find(h => /^\\/classes\\/sections\\/\\d+$/.test(h || '')) || null;"
+        )
+        if d.get(server + "/classes/") is None
+        else None
+    )
     assert section, "the demo section is listed on /classes/"
     d.get(f"{server}{section}/live")
     tile = _until(d, "const t = document.getElementById('tile-' + arguments[0]); return t && t.textContent;", str(live))
     assert "Bench Heron-5" in tile and "30 readings" in tile
     # the earlier runs of this module stopped reading long ago: their tiles say so from the first paint
-    assert _until(d, "return document.querySelectorAll('.tile-warnings li').length && "
-                     "[...document.querySelectorAll('.tile-warnings li')].some(li => li.textContent.includes("
-                     "'No new reading'));")
+    assert _until(
+        d,
+        "return document.querySelectorAll('.tile-warnings li').length && "
+        "[...document.querySelectorAll('.tile-warnings li')].some(li => li.textContent.includes("
+        "'No new reading'));",
+    )
     _api(server, f"/api/live-runs/{live}/readings", {"readings": batch(rows, 30, 40)})
-    _until(d, "return document.getElementById('tile-' + arguments[0]).textContent.includes('40 readings');",
-           str(live), timeout=5)
+    _until(
+        d,
+        "return document.getElementById('tile-' + arguments[0]).textContent.includes('40 readings');",
+        str(live),
+        timeout=5,
+    )
     _shot(d, "live-room")

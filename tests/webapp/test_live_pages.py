@@ -5,19 +5,15 @@ from __future__ import annotations
 
 import json
 import re
-from html import unescape as html_unescape
 import time
+from html import unescape as html_unescape
 from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.live_helpers import batch
-from tests.webapp.live_helpers import demo_rows
-from tests.webapp.live_helpers import start_live
-from webapp.models import Group
-from webapp.models import Person
+from tests.webapp.conftest import csrf_token, sign_in
+from tests.webapp.live_helpers import batch, demo_rows, start_live
+from webapp.models import Group, Person
 
 
 @pytest.fixture
@@ -51,8 +47,7 @@ def _events(chunks: str) -> list[tuple[str, dict[str, Any], str | None]]:
 
 def test_the_page_shows_the_run_its_status_line_and_the_cautions(client: Any, lab: Any) -> None:
     live = start_live(client, lab.auth("a1")).get_json()["id"]
-    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 20)},
-                headers=lab.auth("a1"))
+    client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 20)}, headers=lab.auth("a1"))
     sign_in(client, "a2@lab.example")  # the same group follows the run
     html = client.get(f"/live/{live}").get_data(as_text=True)
     assert 'id="live-curve"' in html and 'id="live-status"' in html and "live-run.js" in html
@@ -90,7 +85,7 @@ def test_the_event_stream_sends_new_readings_as_they_are_stored(app: Any, client
     assert response.mimetype == "text/event-stream"
     stream = iter(response.response)
     assert next(stream).decode().startswith("retry: 1000")
-    (name, data, ident), = _events(next(stream).decode())
+    ((name, data, ident),) = _events(next(stream).decode())
     assert name == "update" and [r[0] for r in data["readings"]] == [0, 1, 2, 3, 4] and ident.startswith("4.")
     client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(rows, 5, 7)}, headers=h)
     t0 = time.monotonic()
@@ -103,7 +98,7 @@ def test_the_event_stream_sends_new_readings_as_they_are_stored(app: Any, client
     resumed = viewer.get(f"/live/{live}/events", headers={"Last-Event-ID": "5.-1"}, buffered=False)
     parts = iter(resumed.response)
     next(parts)
-    (_n, data, _i), = _events(next(parts).decode())
+    ((_n, data, _i),) = _events(next(parts).decode())
     assert [r[0] for r in data["readings"]] == [6]  # a reconnect resumes after the last event's id
     resumed.close()
     response.close()
@@ -114,7 +109,7 @@ def test_the_room_view_shows_every_bench_of_the_section(app: Any, client: Any, l
     rows = demo_rows()
     ids = []
     for who, bench in (("a1", "Bench 4"), ("a2", "Bench 7")):
-        run_file = re.sub(r'(?m)^bench = .*$', f'bench = "{bench}"', start_live.__globals__["live_run_file"]())
+        run_file = re.sub(r"(?m)^bench = .*$", f'bench = "{bench}"', start_live.__globals__["live_run_file"]())
         r = client.post("/api/live-runs", json={"run_file": run_file, "client_key": f"k-{who}"}, headers=lab.auth(who))
         ids.append(r.get_json()["id"])
         client.post(f"/api/live-runs/{ids[-1]}/readings", json={"readings": batch(rows, 0, 8)}, headers=lab.auth(who))
@@ -127,8 +122,11 @@ def test_the_room_view_shows_every_bench_of_the_section(app: Any, client: Any, l
     client.post(f"/api/live-runs/{ids[0]}/readings", json={"readings": batch(rows, 8, 10)}, headers=lab.auth("a1"))
     poll = client.get(f"/classes/sections/{section}/live/update.json", query_string={"since": cursor}).get_json()
     assert [(t["id"], [r[0] for r in t["readings"]]) for t in poll["items"]] == [(ids[0], [8, 9])]
-    stream = iter(client.get(f"/classes/sections/{section}/live/events", query_string={"since": poll["cursor"]},
-                             buffered=False).response)
+    stream = iter(
+        client.get(
+            f"/classes/sections/{section}/live/events", query_string={"since": poll["cursor"]}, buffered=False
+        ).response
+    )
     next(stream)
     client.post(f"/api/live-runs/{ids[1]}/readings", json={"readings": batch(rows, 8, 9)}, headers=lab.auth("a2"))
     got: list[Any] = []
@@ -149,11 +147,16 @@ def test_target_forms_and_finishing_from_the_page(client: Any, lab: Any, session
     r = client.post(f"/live/{live}/target", data={"target_u": "0.4", "csrf_token": csrf_token(page)})
     assert r.status_code == 302
     assert client.get(f"/api/live-runs/{live}", headers=h).get_json()["target_u"] == 0.4
-    r = client.post(f"/live/{live}/target", data={"target_u": "-3", "csrf_token": csrf_token(page)},
-                    follow_redirects=True)
+    r = client.post(
+        f"/live/{live}/target", data={"target_u": "-3", "csrf_token": csrf_token(page)}, follow_redirects=True
+    )
     assert "expected a positive number" in r.get_data(as_text=True)
-    assert client.post(f"/classes/sections/{section}/live/target",
-                       data={"target_u": "0.5", "csrf_token": csrf_token(page)}).status_code == 403  # students: no
+    assert (
+        client.post(
+            f"/classes/sections/{section}/live/target", data={"target_u": "0.5", "csrf_token": csrf_token(page)}
+        ).status_code
+        == 403
+    )  # students: no
     r = client.post(f"/live/{live}/finish", data={"csrf_token": csrf_token(page)})
     assert r.status_code == 302 and re.search(r"/runs/\d+$", r.headers["Location"])
     assert client.get(f"/api/live-runs/{live}", headers=h).get_json()["state"] == "finished"
@@ -222,7 +225,9 @@ def test_a_failing_advisor_keeps_the_readings(client: Any, lab: Any, monkeypatch
     r = client.post(f"/api/live-runs/{live}/readings", json={"readings": batch(demo_rows(), 0, 5)}, headers=h)
     assert r.status_code == 200 and r.get_json()["last_seq"] == 4
     got = client.get(f"/api/live-runs/{live}", headers=h).get_json()
-    assert got["n_readings"] == 5 and got["advice"]["phase"] == "refused" and "advisor failed" in got["advice"]["status"]
+    assert (
+        got["n_readings"] == 5 and got["advice"]["phase"] == "refused" and "advisor failed" in got["advice"]["status"]
+    )
 
 
 def test_advice_waits_for_enough_new_log_time(app: Any, client: Any, lab: Any, monkeypatch: Any) -> None:

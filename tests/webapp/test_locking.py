@@ -7,24 +7,22 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import AuditEntry
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from webapp.models import AuditEntry, Person, Result, Run, RunInput
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import RunLocked
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import update_run
+from webapp.services.runs import reanalyse_run, update_run
 
 
 @pytest.fixture
 def locked_run(client: Any, lab: Any) -> int:
     run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    assert client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "B-2"}).status_code == 200
+    assert (
+        client.patch(
+            f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "B-2"}
+        ).status_code
+        == 200
+    )
     assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
     return int(run_id)
 
@@ -99,7 +97,8 @@ def test_services_and_direct_writes_refuse(session: Any, lab: Any, locked_run: i
 
 def test_changes_before_the_lock_are_in_the_audit_trail(session: Any, lab: Any, locked_run: int) -> None:
     entries = session.scalars(
-        sa.select(AuditEntry).where(AuditEntry.entity == "run", AuditEntry.entity_id == locked_run)
+        sa.select(AuditEntry)
+        .where(AuditEntry.entity == "run", AuditEntry.entity_id == locked_run)
         .order_by(AuditEntry.id)
     ).all()
     assert [(e.field, e.old, e.new, e.person_id) for e in entries] == [
@@ -111,21 +110,32 @@ def test_changes_before_the_lock_are_in_the_audit_trail(session: Any, lab: Any, 
 
 def test_calorimeter_changes_are_audited(client: Any, lab: Any) -> None:
     h = lab.auth("coord")
-    r = client.patch(f"/api/calorimeters/{lab.calorimeter_id}", headers={**h, "If-Match": "*"}, json={"location": "Room 3B"})
+    r = client.patch(
+        f"/api/calorimeters/{lab.calorimeter_id}", headers={**h, "If-Match": "*"}, json={"location": "Room 3B"}
+    )
     assert r.status_code == 200
-    r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
-                    json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier"})
+    r = client.post(
+        f"/api/calorimeters/{lab.calorimeter_id}/calibrations",
+        headers=h,
+        json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier"},
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "measured_on"  # a typed value needs its date
-    r = client.post(f"/api/calorimeters/{lab.calorimeter_id}/calibrations", headers=h,
-                    json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier", "measured_on": "2026-11-30"})
+    r = client.post(
+        f"/api/calorimeters/{lab.calorimeter_id}/calibrations",
+        headers=h,
+        json={"heat_capacity": "19.0 ± 1.5 J/K", "note": "from the supplier", "measured_on": "2026-11-30"},
+    )
     assert r.status_code == 201 and r.get_json()["measured_on"] == "2026-11-30"
     from webapp.db import new_session
 
     s = new_session(client.application)
     try:
-        entries = s.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter")
-                            .order_by(AuditEntry.id)).all()
+        entries = s.scalars(
+            sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter").order_by(AuditEntry.id)
+        ).all()
         assert [(e.field, e.old, e.new) for e in entries] == [
-            ("location", "", "Room 3B"), ("heat_capacity", None, f"19 ± 1.5 J/K (#{r.get_json()['id']})")]
+            ("location", "", "Room 3B"),
+            ("heat_capacity", None, f"19 ± 1.5 J/K (#{r.get_json()['id']})"),
+        ]
     finally:
         s.close()

@@ -11,12 +11,7 @@ from alembic import command
 from alembic.script import ScriptDirectory
 
 from tests.webapp.conftest import create_database
-from webapp.migrate import MIGRATIONS_DIR
-from webapp.migrate import alembic_config
-from webapp.migrate import current_revision
-from webapp.migrate import downgrade
-from webapp.migrate import head_revision
-from webapp.migrate import upgrade
+from webapp.migrate import MIGRATIONS_DIR, alembic_config, current_revision, downgrade, head_revision, upgrade
 from webapp.models import Base
 
 

@@ -7,12 +7,9 @@ from typing import Any
 import pytest
 from flask import Flask
 
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import PASSWORD
-from tests.webapp.conftest import csrf_token
+from tests.webapp.conftest import FAST_HASH, PASSWORD, csrf_token
 from webapp import mount
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.services.people import create_person
 
 SETTINGS = {"TESTING": True, "SECRET_KEY": "test secret", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 0}
@@ -29,8 +26,9 @@ def host(database_url: str) -> Any:
 
     cupcal = mount(host, "/cupcal", {**SETTINGS, "DATABASE_URL": database_url})
     s = new_session(cupcal)
-    create_person(s, email="ida@lab.example", name="Ida", role="technician", password=PASSWORD,
-                  password_method=FAST_HASH)
+    create_person(
+        s, email="ida@lab.example", name="Ida", role="technician", password=PASSWORD, password_method=FAST_HASH
+    )
     s.close()
     yield host, cupcal
     get_engine(cupcal).dispose()
@@ -44,8 +42,9 @@ def test_host_serves_cupcal_under_its_prefix(host: Any) -> None:
     assert r.status_code == 302 and r.headers["Location"].startswith("/cupcal/auth/login")
     page = c.get("/cupcal/auth/login").get_data(as_text=True)
     assert 'href="/cupcal/static/' in page
-    r = c.post("/cupcal/auth/login", data={"email": "ida@lab.example", "password": PASSWORD,
-                                           "csrf_token": csrf_token(page)})
+    r = c.post(
+        "/cupcal/auth/login", data={"email": "ida@lab.example", "password": PASSWORD, "csrf_token": csrf_token(page)}
+    )
     assert r.status_code == 302 and r.headers["Location"] == "/cupcal/"
     cookie = c.get_cookie("cupcal_session", path="/cupcal")
     assert cookie is not None and c.get_cookie("session") is None  # the host's cookie is left alone

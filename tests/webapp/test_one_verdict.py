@@ -17,9 +17,7 @@ from typing import Any
 import pytest
 from click.testing import CliRunner
 
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import DEMO, sign_in, upload
 
 
 def _put_group_in_section(session: Any, group_id: int) -> int:
@@ -52,14 +50,17 @@ def test_the_same_verdict_on_every_surface(app: Any, client: Any, session: Any, 
 
     # the command line, on the same files
     text = CliRunner().invoke(cli, ["analyze", "--monte-carlo", "0", str(DEMO / "diss-kcl-01.toml")]).output
-    assert f"verdict against the reference at the run's conditions" in text and f"E_n = {en} ({word}" in text
+    assert "verdict against the reference at the run's conditions" in text and f"E_n = {en} ({word}" in text
     js = CliRunner().invoke(cli, ["analyze", "--json", str(DEMO / "diss-kcl-01.toml")]).output
     assert f"{json.loads(js)['comparison']['En']:+.2f}" == en
 
     # the run page: the verdict row, and the published E_n only as context
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{run_id}").get_data(as_text=True)
-    assert f"E<sub>n</sub> = {en}</span>:" in html and f'<span class="{"ok" if v["satisfactory"] else "bad"}">{word}' in html
+    assert (
+        f"E<sub>n</sub> = {en}</span>:" in html
+        and f'<span class="{"ok" if v["satisfactory"] else "bad"}">{word}' in html
+    )
     assert "Context only, no verdict" in html
     assert html.count('class="bad">not satisfactory') == (0 if v["satisfactory"] else 1)
 
@@ -84,7 +85,8 @@ def test_the_same_verdict_on_every_surface(app: Any, client: Any, session: Any, 
     assert f"{row['en']:+.2f}" == en and ("En" in row["flags"]) == (not v["satisfactory"])
     page = client.get(f"/classes/sections/{section_id}/dashboard").get_data(as_text=True)
     assert en in page and "reference at the runs&#39; conditions (mean)" in page
-    grading = list(csv.DictReader(io.StringIO(
-        client.get(f"/classes/sections/{section_id}/export.csv").get_data(as_text=True))))
+    grading = list(
+        csv.DictReader(io.StringIO(client.get(f"/classes/sections/{section_id}/export.csv").get_data(as_text=True)))
+    )
     g = next(x for x in grading if x["run"] == str(run_id))
     assert f"{float(g['En']):+.2f}" == en

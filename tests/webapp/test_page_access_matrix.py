@@ -36,8 +36,24 @@ import sqlalchemy as sa
 
 from tests.webapp.conftest import PASSWORD, csrf_token, demo_files, sign_in, upload
 from tests.webapp.live_helpers import live_run_file
-from webapp.models import ApiToken, AuditEntry, Bench, Calibration, Calorimeter, Course, Group, Person, Result, Run
-from webapp.models import Comment, MarkingScheme, RunInput, RunReview, Section, SignInLink
+from webapp.models import (
+    ApiToken,
+    AuditEntry,
+    Bench,
+    Calibration,
+    Calorimeter,
+    Comment,
+    Course,
+    Group,
+    MarkingScheme,
+    Person,
+    Result,
+    Run,
+    RunInput,
+    RunReview,
+    Section,
+    SignInLink,
+)
 from webapp.services.tokens import issue_scoped_token
 
 ACTORS = ("anon", "b1", "a1", "tech", "coord", "read", "write")
@@ -170,23 +186,37 @@ def world(client: Any, lab: Any, session: Any) -> dict[str, Any]:
     result_id = session.get(Run, run_id).current_result.id
     coord = lab.auth("coord")
     course_id = client.post("/api/courses", headers=coord, json={"name": "Course P"}).get_json()["id"]
-    sections = [client.post("/api/sections", headers=coord, json={"course_id": course_id, "name": name})
-                .get_json()["id"] for name in ("S1", "S2")]
+    sections = [
+        client.post("/api/sections", headers=coord, json={"course_id": course_id, "name": name}).get_json()["id"]
+        for name in ("S1", "S2")
+    ]
     session.get(Group, lab.groups["A"]).section_id = sections[0]
     session.get(Group, lab.groups["B"]).section_id = sections[1]
     session.commit()
     a1 = session.get(Person, lab.ids["a1"])
-    headers = {"read": issue_scoped_token(session, a1, "p-read", "read")[1],
-               "write": issue_scoped_token(session, a1, "p-write", "write")[1]}
+    headers = {
+        "read": issue_scoped_token(session, a1, "p-read", "read")[1],
+        "write": issue_scoped_token(session, a1, "p-write", "write")[1],
+    }
     link = client.post(f"/api/runs/{run_id}/embed-link", headers=lab.auth("a1")).get_json()["url"]
     client.application.config["LIVE_STREAM_SECONDS"] = 0.2
-    live_id = client.post("/api/live-runs", headers=lab.auth("a1"), json={
-        "run_file": live_run_file(), "client_key": "matrix"}).get_json()["id"]
-    return {"run_id": run_id, "result_id": result_id, "course_id": course_id, "section_id": sections[0],
-            "group_id": lab.groups["A"], "person_id": lab.ids["a2"], "live_id": live_id, "a2_id": lab.ids["a2"],
-            "calorimeter_id": lab.calorimeter_id, "calibration_id": _spare_calibration(session, lab),
-            "link": parse_qs(urlsplit(link).query)["link"][0],
-            "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()}}
+    live_id = client.post(
+        "/api/live-runs", headers=lab.auth("a1"), json={"run_file": live_run_file(), "client_key": "matrix"}
+    ).get_json()["id"]
+    return {
+        "run_id": run_id,
+        "result_id": result_id,
+        "course_id": course_id,
+        "section_id": sections[0],
+        "group_id": lab.groups["A"],
+        "person_id": lab.ids["a2"],
+        "live_id": live_id,
+        "a2_id": lab.ids["a2"],
+        "calorimeter_id": lab.calorimeter_id,
+        "calibration_id": _spare_calibration(session, lab),
+        "link": parse_qs(urlsplit(link).query)["link"][0],
+        "bearer": {k: {"Authorization": f"Bearer {v}"} for k, v in headers.items()},
+    }
 
 
 class Caller:
@@ -266,16 +296,20 @@ def _import_form(who: str, w: dict[str, Any]) -> dict[str, Any]:
     with zipfile.ZipFile(buf, "w") as z:
         z.writestr("diss-kcl-01.toml", toml.replace('title = "', f'title = "{who}: ', 1))
         z.writestr("diss-kcl-01.csv", csv)
-    return {"archive": _file(buf.getvalue(), "runs.zip"),
-            "mapping": _file(b"file,group\ndiss-kcl-01.toml,Group A\n", "mapping.csv")}
+    return {
+        "archive": _file(buf.getvalue(), "runs.zip"),
+        "mapping": _file(b"file,group\ndiss-kcl-01.toml,Group A\n", "mapping.csv"),
+    }
 
 
 def _eln_form(who: str, w: dict[str, Any]) -> dict[str, Any]:
     """An .eln archive of another notebook: one folder with the demo run (its title made unique) and its log."""
     toml, csv = demo_files("diss-kcl-01")
-    meta = ('{"@context": "https://w3id.org/ro/crate/1.1/context", "@graph": ['
-            '{"@id": "ro-crate-metadata.json", "@type": "CreativeWork", "about": {"@id": "./"}},'
-            '{"@id": "./", "@type": "Dataset", "hasPart": [{"@id": "e/"}]}]}')
+    meta = (
+        '{"@context": "https://w3id.org/ro/crate/1.1/context", "@graph": ['
+        '{"@id": "ro-crate-metadata.json", "@type": "CreativeWork", "about": {"@id": "./"}},'
+        '{"@id": "./", "@type": "Dataset", "hasPart": [{"@id": "e/"}]}]}'
+    )
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w") as z:
         z.writestr("x/ro-crate-metadata.json", meta)
@@ -295,13 +329,20 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
     ("POST", "/auth/tokens"): lambda who, w: {"label": f"made by {who}", "scope": "read"},
     ("POST", "/calorimeters/"): lambda who, w: {"new-name": f"Cup {who}", "new-parts": "one cup"},
     ("POST", "/calorimeters/<int:calorimeter_id>/edit"): lambda who, w: {
-        "edit-name": "Cup TH-07 (two nested foam cups, lid)", "edit-parts": "two cups", "edit-location": f"by {who}"},
+        "edit-name": "Cup TH-07 (two nested foam cups, lid)",
+        "edit-parts": "two cups",
+        "edit-location": f"by {who}",
+    },
     ("POST", "/calorimeters/<int:calorimeter_id>/heat-capacity"): lambda who, w: {
-        "hc-heat_capacity": "19.0 ± 1.5 J/K", "hc-note": f"entered by {who}", "hc-measured_on": "2026-11-30"},
+        "hc-heat_capacity": "19.0 ± 1.5 J/K",
+        "hc-note": f"entered by {who}",
+        "hc-measured_on": "2026-11-30",
+    },
     ("POST", "/classes/courses"): lambda who, w: {"name": f"Course {who}"},
     ("POST", "/classes/courses/<int:course_id>/sections"): lambda who, w: {"name": f"Section {who}"},
     ("POST", "/classes/roster"): lambda who, w: {
-        "roster": _file(f"name,email,role\nTech {who},t-{who}@lab.example,technician\n".encode(), "roster.csv")},
+        "roster": _file(f"name,email,role\nTech {who},t-{who}@lab.example,technician\n".encode(), "roster.csv")
+    },
     ("POST", "/classes/sections/<int:section_id>"): lambda who, w: {"name": f"Bench {who}", "calorimeter_id": "0"},
     ("POST", "/imports/sections/<int:section_id>"): _import_form,
     ("POST", "/imports/eln"): _eln_form,
@@ -312,7 +353,11 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
     ("POST", "/runs/<int:run_id>/mark"): lambda who, w: {"points": "5", "reason": f"by {who}"},
     ("POST", "/groups/<int:group_id>/comments"): lambda who, w: {"body": f"seen by {who}"},
     ("POST", "/classes/sections/<int:section_id>/marking"): lambda who, w: {"en": "1=6, *=0", "relative": "5%=2, *=0"},
-    ("POST", "/auth/password"): lambda who, w: {"current": "wrong", "password": "a long new one", "confirm": "a long new one"},
+    ("POST", "/auth/password"): lambda who, w: {
+        "current": "wrong",
+        "password": "a long new one",
+        "confirm": "a long new one",
+    },
     ("POST", "/auth/sections/<int:section_id>/sign-in-links"): lambda who, w: {"person_id": str(w["a2_id"])},
     ("POST", "/auth/people/<int:person_id>/password"): lambda who, w: {"password": f"new password {who}"},
 }
@@ -321,6 +366,7 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
 def _count(model: Any, *where: Any) -> Callable[[Any], int]:
     def probe(session: Any) -> int:
         return int(session.scalar(sa.select(sa.func.count()).select_from(model).where(*where)))
+
     return probe
 
 
@@ -365,8 +411,20 @@ def _query(rule: str, w: dict[str, Any], link: str | None) -> str:
 
 def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str, link: str | None = None) -> Any:
     """Send one route's request as ``who`` (with a signed ``link`` on the embed routes) and return the response."""
-    values = {k: w[k] for k in ("run_id", "result_id", "course_id", "section_id", "calorimeter_id", "group_id",
-                                "person_id", "calibration_id", "live_id")}
+    values = {
+        k: w[k]
+        for k in (
+            "run_id",
+            "result_id",
+            "course_id",
+            "section_id",
+            "calorimeter_id",
+            "group_id",
+            "person_id",
+            "calibration_id",
+            "live_id",
+        )
+    }
     values |= PATH_VALUES.get(rule, {})
     if (method, rule) in FRESH:
         name, make = FRESH[(method, rule)]
@@ -381,9 +439,12 @@ def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str
 
 def page_routes(app: Any) -> set[tuple[str, str]]:
     """Return (method, rule) of every route outside ``/api/`` and ``static``, GET and POST."""
-    return {(m, r.rule) for r in app.url_map.iter_rules()
-            if not r.rule.startswith("/api/") and r.endpoint != "static"
-            for m in sorted((r.methods or set()) - {"HEAD", "OPTIONS"})}
+    return {
+        (m, r.rule)
+        for r in app.url_map.iter_rules()
+        if not r.rule.startswith("/api/") and r.endpoint != "static"
+        for m in sorted((r.methods or set()) - {"HEAD", "OPTIONS"})
+    }
 
 
 def test_every_page_route_has_a_row(app: Any) -> None:
@@ -418,11 +479,14 @@ def test_signed_links(app: Any, lab: Any, world: dict[str, Any], route: tuple[st
 KEPT_OUT = (403, 404, L)
 
 
-@pytest.mark.parametrize("route", [rt for rt in sorted(FORMS) if rt[0] == "POST" and any(
-    v in (403, 404) for v in EXPECTED[rt].values())], ids=lambda rt: f"{rt[0]} {rt[1]}")
-def test_a_kept_out_caller_is_kept_out_whatever_the_form(app: Any, lab: Any, world: dict[str, Any],
-                                                         monkeypatch: pytest.MonkeyPatch,
-                                                         route: tuple[str, str]) -> None:
+@pytest.mark.parametrize(
+    "route",
+    [rt for rt in sorted(FORMS) if rt[0] == "POST" and any(v in (403, 404) for v in EXPECTED[rt].values())],
+    ids=lambda rt: f"{rt[0]} {rt[1]}",
+)
+def test_a_kept_out_caller_is_kept_out_whatever_the_form(
+    app: Any, lab: Any, world: dict[str, Any], monkeypatch: pytest.MonkeyPatch, route: tuple[str, str]
+) -> None:
     """With an empty form, callers the table keeps out get the same 403/404/sign-in as with a valid one."""
     monkeypatch.delitem(FORMS, route)
     kept_out = [who for who in ACTORS if EXPECTED[route][who] in KEPT_OUT]
@@ -461,13 +525,29 @@ def _stored(session: Any, run_id: int) -> tuple[Any, ...]:
     """Return everything stored about a run: fields, files, results, inputs and its audit trail."""
     session.expire_all()
     run = session.get(Run, run_id)
-    results = session.execute(sa.select(Result.id, Result.is_current, Result.method)
-                              .where(Result.run_id == run_id).order_by(Result.id)).all()
+    results = session.execute(
+        sa.select(Result.id, Result.is_current, Result.method).where(Result.run_id == run_id).order_by(Result.id)
+    ).all()
     inputs = session.scalar(sa.select(sa.func.count()).select_from(RunInput).where(RunInput.run_id == run_id))
-    audit = session.scalar(sa.select(sa.func.count()).select_from(AuditEntry)
-                           .where(AuditEntry.entity == "run", AuditEntry.entity_id == run_id))
-    return (run.title, run.notes, run.bench, run.group_id, run.locked, run.locked_by_id, run.locked_at,
-            run.run_toml, run.readings_raw, tuple(results), inputs, audit)
+    audit = session.scalar(
+        sa.select(sa.func.count())
+        .select_from(AuditEntry)
+        .where(AuditEntry.entity == "run", AuditEntry.entity_id == run_id)
+    )
+    return (
+        run.title,
+        run.notes,
+        run.bench,
+        run.group_id,
+        run.locked,
+        run.locked_by_id,
+        run.locked_at,
+        run.run_toml,
+        run.readings_raw,
+        tuple(results),
+        inputs,
+        audit,
+    )
 
 
 #: every page path that would change a run, sent to a1's run once it is locked (test_locking sends

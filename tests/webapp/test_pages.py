@@ -7,9 +7,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import csrf_token, sign_in, upload
 
 
 @pytest.fixture
@@ -55,14 +53,18 @@ def test_run_page_reanalyse_form(client: Any, lab: Any, runs: dict[str, int]) ->
     sign_in(client, "a1@lab.example")
     run_id = runs["diss-kcl-01"]
     token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "equal-area",
-                                                      "fore_start": "0", "fore_end": "200"})
+    r = client.post(
+        f"/runs/{run_id}/reanalyse",
+        data={"csrf_token": token, "method": "equal-area", "fore_start": "0", "fore_end": "200"},
+    )
     assert r.status_code == 302
     html = client.get(f"/runs/{run_id}").get_data(as_text=True)
     assert "the earlier result is kept" in html and "equal-area" in html
     # a refusal answers 400 with the page: the message beside its field, and what was typed kept
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "equal-area",
-                                                      "fore_start": "0", "mixing_time": "181.5"})
+    r = client.post(
+        f"/runs/{run_id}/reanalyse",
+        data={"csrf_token": token, "method": "equal-area", "fore_start": "0", "mixing_time": "181.5"},
+    )
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert "expected two times" in html  # the message from the service, shown on the page
@@ -75,13 +77,16 @@ def test_reanalyse_with_a_typed_mixing_time(client: Any, lab: Any, runs: dict[st
     sign_in(client, "a1@lab.example")
     run_id = runs["diss-kcl-01"]
     token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "regnault-pfaundler",
-                                                      "mixing_time": "1e9"})
+    r = client.post(
+        f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "regnault-pfaundler", "mixing_time": "1e9"}
+    )
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert "mixing_time 1e+09 s lies outside the log" in html and 'value="1e9"' in html
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "regnault-pfaundler",
-                                                      "mixing_time": "", "mixing_time_u": ""})
+    r = client.post(
+        f"/runs/{run_id}/reanalyse",
+        data={"csrf_token": token, "method": "regnault-pfaundler", "mixing_time": "", "mixing_time_u": ""},
+    )
     assert r.status_code == 302
 
 

@@ -8,15 +8,8 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import approve_proposals
-from tests.webapp.conftest import without_heat_capacity
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
+from tests.webapp.conftest import approve_proposals, csrf_token, demo_files, sign_in, upload, without_heat_capacity
+from webapp.models import AuditEntry, Calibration, Calorimeter
 
 
 def test_history_plot_table_and_the_runs_of_each_calibration(client: Any, lab: Any, session: Any) -> None:
@@ -49,22 +42,31 @@ def test_history_plot_table_and_the_runs_of_each_calibration(client: Any, lab: A
 
     assert format_value(c["value"], c["standard_uncertainty"], "J/K") in html
     assert f"/runs/{cal_run['id']}?result={c['id']}" in html
-    table = html[html.index('class="calibrations"'):]
+    table = html[html.index('class="calibrations"') :]
     assert f'href="/runs/{used_a["id"]}"' in table
     assert f'href="/runs/{used_b["id"]}"' not in table  # another group's run: not shown to a1
     # a student manages nothing here
     assert "/edit" not in html and "heat-capacity" not in html
     token = csrf_token(html)
-    assert client.post(f"/calorimeters/{lab.calorimeter_id}/edit",
-                       data={"csrf_token": token, "edit-name": "Mine now"}).status_code == 403
-    assert client.post(f"/calorimeters/{lab.calorimeter_id}/heat-capacity",
-                       data={"csrf_token": token, "hc-heat_capacity": "1 ± 1 J/K"}).status_code == 403
+    assert (
+        client.post(
+            f"/calorimeters/{lab.calorimeter_id}/edit", data={"csrf_token": token, "edit-name": "Mine now"}
+        ).status_code
+        == 403
+    )
+    assert (
+        client.post(
+            f"/calorimeters/{lab.calorimeter_id}/heat-capacity",
+            data={"csrf_token": token, "hc-heat_capacity": "1 ± 1 J/K"},
+        ).status_code
+        == 403
+    )
     assert client.post("/calorimeters/", data={"csrf_token": token, "new-name": "Cup X"}).status_code == 403
     # the coordinator sees both runs that used the calibration
     client.post("/auth/logout", data={"csrf_token": token})
     sign_in(client, "coord@lab.example")
     table = client.get(f"/calorimeters/{lab.calorimeter_id}").get_data(as_text=True)
-    table = table[table.index('class="calibrations"'):]
+    table = table[table.index('class="calibrations"') :]
     assert f'href="/runs/{used_a["id"]}"' in table and f'href="/runs/{used_b["id"]}"' in table
 
 
@@ -84,37 +86,70 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
     token = csrf_token(page)
     assert f"/calorimeters/{lab.spare_calorimeter_id}/edit" in page
     # a heat capacity in the wrong unit: calc's message beside the field, nothing recorded
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-                    data={"csrf_token": token, "hc-heat_capacity": "18.6 ± 2.0 J", "hc-note": ""})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+        data={"csrf_token": token, "hc-heat_capacity": "18.6 ± 2.0 J", "hc-note": ""},
+    )
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert 'id="hc-heat_capacity-error"' in html and "expected a heat capacity" in html
-    n = session.scalar(sa.select(sa.func.count()).select_from(Calibration)
-                       .where(Calibration.calorimeter_id == lab.spare_calorimeter_id))
+    n = session.scalar(
+        sa.select(sa.func.count())
+        .select_from(Calibration)
+        .where(Calibration.calorimeter_id == lab.spare_calorimeter_id)
+    )
     assert n == 1
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-                    data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked"})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+        data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked"},
+    )
     assert r.status_code == 400 and 'id="hc-measured_on-error"' in r.get_data(as_text=True)  # typed: needs a date
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-                    data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked",
-                          "hc-measured_on": "2026-11-02"})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
+        data={
+            "csrf_token": token,
+            "hc-heat_capacity": "19.4 ± 1.5 J/K",
+            "hc-note": "checked",
+            "hc-measured_on": "2026-11-02",
+        },
+    )
     assert r.status_code == 302
     html = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
     assert "19.4 ± 1.5 J/K" in html and "in force" in html
     # renaming to a name in use: said at the name field
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-                    data={"csrf_token": token, "edit-name": "Cup TH-07 (two nested foam cups, lid)",
-                          "edit-parts": "", "edit-location": ""})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+        data={
+            "csrf_token": token,
+            "edit-name": "Cup TH-07 (two nested foam cups, lid)",
+            "edit-parts": "",
+            "edit-location": "",
+        },
+    )
     assert r.status_code == 409 and 'id="edit-name-error"' in r.get_data(as_text=True)
     version = session.get(Calorimeter, lab.spare_calorimeter_id).version
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-                    data={"csrf_token": token, "edit-name": "Spare cup B", "edit-parts": "one cup",
-                          "edit-location": "shelf 2", "edit-version": str(version)})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+        data={
+            "csrf_token": token,
+            "edit-name": "Spare cup B",
+            "edit-parts": "one cup",
+            "edit-location": "shelf 2",
+            "edit-version": str(version),
+        },
+    )
     assert r.status_code == 302
     # the same form sent again with the version it was read at: someone else's change is not overwritten
-    r = client.post(f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-                    data={"csrf_token": token, "edit-name": "Spare cup C", "edit-parts": "one cup",
-                          "edit-location": "shelf 3", "edit-version": str(version)})
+    r = client.post(
+        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
+        data={
+            "csrf_token": token,
+            "edit-name": "Spare cup C",
+            "edit-parts": "one cup",
+            "edit-location": "shelf 3",
+            "edit-version": str(version),
+        },
+    )
     assert r.status_code == 409 and "changed by someone else" in r.get_data(as_text=True)
     session.expire_all()
     cal = session.get(Calorimeter, lab.spare_calorimeter_id)
@@ -122,8 +157,15 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
     # adding one from the list page, with an error first
     r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "", "new-heat_capacity": ""})
     assert r.status_code == 400 and 'id="new-name-error"' in r.get_data(as_text=True)
-    r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "Cup TH-11",
-                                            "new-heat_capacity": "25 ± 2 J/K", "new-measured_on": "2026-12-01"})
+    r = client.post(
+        "/calorimeters/",
+        data={
+            "csrf_token": token,
+            "new-name": "Cup TH-11",
+            "new-heat_capacity": "25 ± 2 J/K",
+            "new-measured_on": "2026-12-01",
+        },
+    )
     assert r.status_code == 302
     assert "Cup TH-11" in client.get("/calorimeters/").get_data(as_text=True)
 
@@ -155,8 +197,9 @@ def test_coordinators_set_the_calibration_interval_on_the_page(client: Any, lab:
     assert "(every 14 days)" in html and 'value="14"' in html  # shown, and kept in the form
     session.expire_all()
     assert session.get(Calorimeter, lab.spare_calorimeter_id).calibration_interval_days == 14
-    changes = session.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter",
-                                                          AuditEntry.field == "calibration_interval_days")).all()
+    changes = session.scalars(
+        sa.select(AuditEntry).where(AuditEntry.entity == "calorimeter", AuditEntry.field == "calibration_interval_days")
+    ).all()
     assert [(c.old, c.new) for c in changes] == [(None, "14")]  # audited: who, when, old → new
     r = client.post(f"{url}/edit", data=form | {"edit-calibration_interval_days": ""})  # blank: the default
     assert r.status_code == 302 and "(every 30 days)" in client.get(url).get_data(as_text=True)

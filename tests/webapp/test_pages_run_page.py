@@ -13,14 +13,10 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import csrf_token, sign_in, upload
 from tests.webapp.page_helpers import counts
 from webapp.models import Result
-from webapp.plot_cache import PlotCache
-from webapp.plot_cache import plot_cache
-
+from webapp.plot_cache import PlotCache, plot_cache
 
 # ---------------------------------------------------------------- the run page
 
@@ -40,8 +36,10 @@ def test_run_page_shows_plot_result_budget_comparison_and_cautions(client: Any, 
     # the temperature–time plot (run_plot_svg) with its drift lines and ΔT construction, and the
     # budget bar chart (budget_plot_svg): pictures of this result, with alternative text
     images = re.findall(r'<img src="([^"]+)"[^>]*alt="([^"]+)"', html)
-    assert [src for src, _alt in images] == [f"/runs/{neut_run}/results/{res['id']}/plot.svg",
-                                             f"/runs/{neut_run}/results/{res['id']}/budget.svg"]
+    assert [src for src, _alt in images] == [
+        f"/runs/{neut_run}/results/{res['id']}/plot.svg",
+        f"/runs/{neut_run}/results/{res['id']}/budget.svg",
+    ]
     assert "661 readings" in images[0][1] and "corrected ΔT" in images[0][1]
     assert "acid concentration" in images[1][1]  # the largest share, named in the text
     plot = client.get(images[0][0])
@@ -64,7 +62,7 @@ def test_run_page_shows_plot_result_budget_comparison_and_cautions(client: Any, 
     # the budget as a bar chart and a table naming every input
     assert "Uncertainty budget" in html
     for line in detail["budget"]:
-        assert f"<code class=\"hint\">{line['input']}</code>" in html
+        assert f'<code class="hint">{line["input"]}</code>' in html
     # the comparison: reference value, source, difference, E_n, the not-like-for-like notes
     cmp = detail["comparison"]
     assert cmp["reference"]["name"] in html and "Wagman" in html  # NBS tables (1982)
@@ -86,8 +84,7 @@ def test_run_page_shows_plot_result_budget_comparison_and_cautions(client: Any, 
     assert "Monte Carlo check" in html and "2000 trials" in html
 
 
-def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, neut_run: int,
-                                                        session: Any) -> None:
+def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, neut_run: int, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
     r = client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": csrf_token(html), "method": "naive"})
@@ -109,18 +106,19 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, n
     assert client.get(f"/runs/{neut_run}?result=999999").status_code == 404
     # a bad period: 400 with the page, the message next to the period and the typed values kept
     # (a redirect would lose what was typed), nothing added
-    r = client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": csrf_token(html), "method": "naive",
-                                                        "after_start": "500", "after_end": "400"})
+    r = client.post(
+        f"/runs/{neut_run}/reanalyse",
+        data={"csrf_token": csrf_token(html), "method": "naive", "after_start": "500", "after_end": "400"},
+    )
     assert r.status_code == 400
     page = r.get_data(as_text=True)
-    reanalyse_form = page[page.index('id="reanalyse"'):]
+    reanalyse_form = page[page.index('id="reanalyse"') :]
     assert "must end after it starts" in reanalyse_form
     assert 'value="500"' in reanalyse_form and 'value="400"' in reanalyse_form
     assert len(list(session.scalars(sa.select(Result.id).where(Result.run_id == neut_run)))) == 2
 
 
-def test_a_locked_run_shows_no_forms_and_refuses_posts(client: Any, lab: Any, neut_run: int,
-                                                       session: Any) -> None:
+def test_a_locked_run_shows_no_forms_and_refuses_posts(client: Any, lab: Any, neut_run: int, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
     token = csrf_token(html)
@@ -165,8 +163,9 @@ def test_the_run_page_plots_come_from_the_cache_once_drawn(client: Any, lab: Any
     assert cache.hits == 2 and first == second
 
 
-def test_a_plot_that_cannot_be_drawn_says_why_and_is_not_kept(client: Any, lab: Any, neut_run: int,
-                                                               monkeypatch: pytest.MonkeyPatch) -> None:
+def test_a_plot_that_cannot_be_drawn_says_why_and_is_not_kept(
+    client: Any, lab: Any, neut_run: int, monkeypatch: pytest.MonkeyPatch
+) -> None:
     import webapp.services.runs as runs_service
     from webapp.services.errors import Invalid
 

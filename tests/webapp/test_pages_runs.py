@@ -16,22 +16,12 @@ from typing import Any
 
 import pytest
 import sqlalchemy as sa
+
 from calc.analysis import analyze_run
 from calc.io.quantities import Measured
-from calc.io.runfile import REQUIRED_SECTIONS
-from calc.io.runfile import SCHEMA
-from calc.io.runfile import parse_run
-
-from tests.webapp.page_helpers import counts
-from tests.webapp.page_helpers import form_from_demo
-from tests.webapp.page_helpers import post_form
-from tests.webapp.page_helpers import hidden
-from tests.webapp.page_helpers import field_row
-from tests.webapp.conftest import DEMO
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import without_heat_capacity
+from calc.io.runfile import REQUIRED_SECTIONS, SCHEMA, parse_run
+from tests.webapp.conftest import DEMO, csrf_token, demo_files, sign_in, without_heat_capacity
+from tests.webapp.page_helpers import counts, field_row, form_from_demo, hidden, post_form
 from webapp.models import Run
 from webapp.plot_cache import plot_cache
 
@@ -46,7 +36,7 @@ def test_the_form_of_each_kind_has_the_fields_of_the_run_file_schema(client: Any
         names = set(re.findall(r'name="([^"]+)"', html))
         assert "readings" in names and "calorimeter_id" in names and "csrf_token" in names
         for section, fields in schema.items():
-            for field, (ftype, unit, _required) in fields.items():
+            for field, (ftype, _unit, _required) in fields.items():
                 dotted = f"{section}.{field}"
                 if dotted == "calorimeter.name":
                     continue  # the calorimeter select
@@ -75,8 +65,7 @@ def test_the_form_of_each_kind_has_the_fields_of_the_run_file_schema(client: Any
 # ---------------------------------------------------------------- errors next to the field
 
 
-def test_a_bad_value_shows_its_error_next_to_the_field_and_saves_nothing(client: Any, lab: Any,
-                                                                         session: Any) -> None:
+def test_a_bad_value_shows_its_error_next_to_the_field_and_saves_nothing(client: Any, lab: Any, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     _toml, csv = demo_files("diss-kcl-01")
     before = counts(session)
@@ -125,8 +114,7 @@ def test_an_error_found_by_calc_is_shown_next_to_its_field(client: Any, lab: Any
 
 
 @pytest.mark.parametrize("junk", ["-1e999 ± nan", "\u00b1", "x" * 1000, "1 ± -2 mL", '" ]\n[info]\ntitle = "', "0"])
-def test_junk_in_every_field_is_refused_without_a_server_error(client: Any, lab: Any, session: Any,
-                                                               junk: str) -> None:
+def test_junk_in_every_field_is_refused_without_a_server_error(client: Any, lab: Any, session: Any, junk: str) -> None:
     sign_in(client, "tech@lab.example")
     _toml, csv = demo_files("diss-kcl-01")
     for kind in SCHEMA:
@@ -153,8 +141,9 @@ def test_an_upload_over_the_size_limit_gets_a_page_saying_so(client: Any, lab: A
 def test_preview_shows_plot_periods_and_result_and_saves_nothing(client: Any, lab: Any, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     _toml, csv = demo_files("diss-kcl-01")
-    r = post_form(client, "dissolution", form_from_demo("diss-kcl-01", lab.calorimeter_id), csv=csv,
-                  csv_name="diss-kcl-01.csv")
+    r = post_form(
+        client, "dissolution", form_from_demo("diss-kcl-01", lab.calorimeter_id), csv=csv, csv_name="diss-kcl-01.csv"
+    )
     assert r.status_code == 200
     html = r.get_data(as_text=True)
     assert "Preview (not saved yet)" in html
@@ -177,8 +166,12 @@ def test_save_stores_the_run_file_built_from_the_fields(client: Any, lab: Any, s
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     preview = post_form(client, "dissolution", fields, csv=csv, csv_name="diss-kcl-01.csv").get_data(as_text=True)
     # save without sending the file again: the preview carries it
-    carried = {"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token"), "readings_packed": hidden(preview, "readings_packed"),
-               "readings_name": hidden(preview, "readings_name")}
+    carried = {
+        "previewed": hidden(preview, "previewed"),
+        "submit_token": hidden(preview, "submit_token"),
+        "readings_packed": hidden(preview, "readings_packed"),
+        "readings_name": hidden(preview, "readings_name"),
+    }
     r = post_form(client, "dissolution", fields, csv=None, action="save", extra=carried)
     assert r.status_code == 302, r.get_data(as_text=True)[:2000]
     run_id = int(r.headers["Location"].rsplit("/", 1)[-1])
@@ -212,8 +205,14 @@ def test_save_stores_only_what_was_previewed(client: Any, lab: Any, session: Any
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     preview = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     changed = {**fields, "solute.mass": "3.80000"}
-    r = post_form(client, "dissolution", changed, csv=csv, action="save",
-                  extra={"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token")})
+    r = post_form(
+        client,
+        "dissolution",
+        changed,
+        csv=csv,
+        action="save",
+        extra={"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token")},
+    )
     assert r.status_code == 200
     assert "The entries changed after the last preview" in r.get_data(as_text=True)
     r = post_form(client, "dissolution", fields, csv=csv, action="save")  # no preview at all
@@ -227,8 +226,14 @@ def test_the_calibration_in_force_supplies_a_blank_heat_capacity(client: Any, la
     fields = {**form_from_demo("diss-kcl-01", lab.spare_calorimeter_id), "calorimeter.heat_capacity": ""}
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "21.0 ± 3.0 J/K" in html and "Spare cup" in html  # the lab's hand-entered value, used
-    r = post_form(client, "dissolution", fields, csv=csv, action="save",
-                  extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")})
+    r = post_form(
+        client,
+        "dissolution",
+        fields,
+        csv=csv,
+        action="save",
+        extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")},
+    )
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.calibration is not None and run.calibration.heat_capacity_j_k == 21.0
@@ -259,12 +264,23 @@ def test_other_kinds_preview_from_their_forms(client: Any, lab: Any, name: str) 
 def test_staff_choose_the_group_and_it_is_written_into_the_run_file(client: Any, lab: Any, session: Any) -> None:
     sign_in(client, "tech@lab.example")
     _toml, csv = demo_files("diss-kcl-01")
-    fields = {**form_from_demo("diss-kcl-01", lab.calorimeter_id), "info.group": "Group B", "method": "equal-area",
-              "fore_period.start": "0", "fore_period.end": "200"}
+    fields = {
+        **form_from_demo("diss-kcl-01", lab.calorimeter_id),
+        "info.group": "Group B",
+        "method": "equal-area",
+        "fore_period.start": "0",
+        "fore_period.end": "200",
+    }
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "equal-area" in html and "0–200 s" in html  # the method and fore period asked for
-    r = post_form(client, "dissolution", fields, csv=csv, action="save",
-                  extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")})
+    r = post_form(
+        client,
+        "dissolution",
+        fields,
+        csv=csv,
+        action="save",
+        extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")},
+    )
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.group_id == lab.groups["B"]
@@ -274,8 +290,7 @@ def test_staff_choose_the_group_and_it_is_written_into_the_run_file(client: Any,
     assert run.current_result.method == "equal-area" and run.current_result.fore_end_s == 200.0
     # a half-given period is refused at its field
     r = post_form(client, "dissolution", {**fields, "fore_period.end": ""}, csv=csv)
-    assert r.status_code == 400 and "both the start and the end" in field_row(r.get_data(as_text=True),
-                                                                               "f-fore-period")
+    assert r.status_code == 400 and "both the start and the end" in field_row(r.get_data(as_text=True), "f-fore-period")
 
 
 # ---------------------------------------------------------------- uploading the files
@@ -285,15 +300,26 @@ def test_upload_files_preview_then_save_exactly_as_sent(client: Any, lab: Any, s
     sign_in(client, "a1@lab.example")
     toml, csv = demo_files("neut-hcl-naoh-01")
     token = csrf_token(client.get("/runs/upload").get_data(as_text=True))
-    r = client.post("/runs/upload", content_type="multipart/form-data", data={
-        "csrf_token": token, "action": "preview",
-        "run_file": (io.BytesIO(toml.encode()), "neut-hcl-naoh-01.toml"),
-        "readings": (io.BytesIO(csv), "neut-hcl-naoh-01.csv")})
+    r = client.post(
+        "/runs/upload",
+        content_type="multipart/form-data",
+        data={
+            "csrf_token": token,
+            "action": "preview",
+            "run_file": (io.BytesIO(toml.encode()), "neut-hcl-naoh-01.toml"),
+            "readings": (io.BytesIO(csv), "neut-hcl-naoh-01.csv"),
+        },
+    )
     html = r.get_data(as_text=True)
     assert r.status_code == 200 and "Preview of the temperature readings" in html
     assert "H314" in html  # NaOH: GHS H314 (EU CLP harmonised classification, from memory)
     assert counts(session) == (0, 0)
-    data = {"csrf_token": token, "action": "save", "previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")}
+    data = {
+        "csrf_token": token,
+        "action": "save",
+        "previewed": hidden(html, "previewed"),
+        "submit_token": hidden(html, "submit_token"),
+    }
     for field in ("run_file", "readings"):
         data[f"{field}_packed"] = hidden(html, f"{field}_packed")
         data[f"{field}_name"] = hidden(html, f"{field}_name")
@@ -310,9 +336,15 @@ def test_upload_errors_are_shown_at_the_file_they_concern(client: Any, lab: Any,
     token = csrf_token(client.get("/runs/upload").get_data(as_text=True))
 
     def send(run_text: str, readings: bytes) -> Any:
-        return client.post("/runs/upload", content_type="multipart/form-data", data={
-            "csrf_token": token, "run_file": (io.BytesIO(run_text.encode()), "x.toml"),
-            "readings": (io.BytesIO(readings), "x.csv")})
+        return client.post(
+            "/runs/upload",
+            content_type="multipart/form-data",
+            data={
+                "csrf_token": token,
+                "run_file": (io.BytesIO(run_text.encode()), "x.toml"),
+                "readings": (io.BytesIO(readings), "x.csv"),
+            },
+        )
 
     r = send(toml.replace('kind = "dissolution"', 'kind = "dissolution'), csv)
     assert r.status_code == 400
@@ -326,9 +358,16 @@ def test_upload_errors_are_shown_at_the_file_they_concern(client: Any, lab: Any,
     assert r.status_code == 400 and 'id="f-calorimeter_id-error"' in r.get_data(as_text=True)
     r = client.post("/runs/upload", data={"csrf_token": token}, content_type="multipart/form-data")
     assert r.status_code == 400 and "choose the run file" in r.get_data(as_text=True)
-    r = client.post("/runs/upload", content_type="multipart/form-data", data={
-        "csrf_token": token, "run_file_packed": "not base64!", "run_file_name": "x.toml",
-        "readings": (io.BytesIO(csv), "x.csv")})
+    r = client.post(
+        "/runs/upload",
+        content_type="multipart/form-data",
+        data={
+            "csrf_token": token,
+            "run_file_packed": "not base64!",
+            "run_file_name": "x.toml",
+            "readings": (io.BytesIO(csv), "x.csv"),
+        },
+    )
     assert r.status_code == 400 and "damaged" in r.get_data(as_text=True)
     assert counts(session) == (0, 0)
 
@@ -336,8 +375,10 @@ def test_upload_errors_are_shown_at_the_file_they_concern(client: Any, lab: Any,
 def test_forms_need_their_csrf_token(client: Any, lab: Any, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     _toml, csv = demo_files("diss-kcl-01")
-    r = client.post("/runs/new/dissolution", content_type="multipart/form-data",
-                    data={**form_from_demo("diss-kcl-01"), "action": "save",
-                          "readings": (io.BytesIO(csv), "x.csv")})
+    r = client.post(
+        "/runs/new/dissolution",
+        content_type="multipart/form-data",
+        data={**form_from_demo("diss-kcl-01"), "action": "save", "readings": (io.BytesIO(csv), "x.csv")},
+    )
     assert r.status_code == 400 and "The form has expired" in r.get_data(as_text=True)
     assert counts(session) == (0, 0)

@@ -13,33 +13,81 @@ from tests.webapp.conftest import sign_in
 def test_planning_page_shows_the_plan(client: Any, lab: Any) -> None:
     sign_in(client, "a1@lab.example")
     assert client.get("/plan").status_code == 200
-    r = client.get("/plan", query_string={"kind": "dissolution", "go": "1", "formula": "KCl", "mass": "2.50 ± 0.01 g",
-                                          "water_volume": "100.0 ± 0.5 mL", "calorimeter": "20 ± 3 J/K",
-                                          "resolution": "0.01", "noise": "0.005", "temperature": "22"})
+    r = client.get(
+        "/plan",
+        query_string={
+            "kind": "dissolution",
+            "go": "1",
+            "formula": "KCl",
+            "mass": "2.50 ± 0.01 g",
+            "water_volume": "100.0 ± 0.5 mL",
+            "calorimeter": "20 ± 3 J/K",
+            "resolution": "0.01",
+            "noise": "0.005",
+            "temperature": "22",
+        },
+    )
     html = r.get_data(as_text=True)
-    want = plan_run("dissolution", formula="KCl", mass="2.50 ± 0.01 g", water_volume="100.0 ± 0.5 mL",
-                    calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01, thermometer_noise=0.005,
-                    temperature=295.15)
+    want = plan_run(
+        "dissolution",
+        formula="KCl",
+        mass="2.50 ± 0.01 g",
+        water_volume="100.0 ± 0.5 mL",
+        calorimeter_heat_capacity="20 ± 3 J/K",
+        thermometer_resolution=0.01,
+        thermometer_noise=0.005,
+        temperature=295.15,
+    )
     assert r.status_code == 200
     assert want.limiting in html and "Cautions" in html and "eye protection" in html
     assert f"{100 * want.equipment[0].share:.1f} %" in html
-    bad = client.get("/plan", query_string={"kind": "dissolution", "go": "1", "formula": "KCl", "mass": "lots",
-                                            "water_volume": "100 mL", "calorimeter": "20 ± 3 J/K", "resolution": "0.01"})
+    bad = client.get(
+        "/plan",
+        query_string={
+            "kind": "dissolution",
+            "go": "1",
+            "formula": "KCl",
+            "mass": "lots",
+            "water_volume": "100 mL",
+            "calorimeter": "20 ± 3 J/K",
+            "resolution": "0.01",
+        },
+    )
     assert bad.status_code == 400 and "mass" in bad.get_data(as_text=True)
 
 
 def test_plan_api(client: Any, lab: Any) -> None:
-    body = {"kind": "neutralization", "acid": "HCl", "base": "NaOH", "acid_concentration": "1.00 ± 0.01 mol/L",
-            "base_concentration": "1.00 ± 0.01 mol/L", "acid_volume": "50.0 ± 0.2 mL", "base_volume": "50.0 ± 0.2 mL",
-            "calorimeter_heat_capacity": "20 ± 3 J/K", "thermometer_resolution": 0.01}
+    body = {
+        "kind": "neutralization",
+        "acid": "HCl",
+        "base": "NaOH",
+        "acid_concentration": "1.00 ± 0.01 mol/L",
+        "base_concentration": "1.00 ± 0.01 mol/L",
+        "acid_volume": "50.0 ± 0.2 mL",
+        "base_volume": "50.0 ± 0.2 mL",
+        "calorimeter_heat_capacity": "20 ± 3 J/K",
+        "thermometer_resolution": 0.01,
+    }
     r = client.post("/api/plan", json=body, headers=lab.auth("b1"))
     assert r.status_code == 200, r.get_json()
-    want = plan_run("neutralization", acid="HCl", base="NaOH", acid_concentration="1.00 ± 0.01 mol/L",
-                    base_concentration="1.00 ± 0.01 mol/L", acid_volume="50.0 ± 0.2 mL", base_volume="50.0 ± 0.2 mL",
-                    calorimeter_heat_capacity="20 ± 3 J/K", thermometer_resolution=0.01)
+    want = plan_run(
+        "neutralization",
+        acid="HCl",
+        base="NaOH",
+        acid_concentration="1.00 ± 0.01 mol/L",
+        base_concentration="1.00 ± 0.01 mol/L",
+        acid_volume="50.0 ± 0.2 mL",
+        base_volume="50.0 ± 0.2 mL",
+        calorimeter_heat_capacity="20 ± 3 J/K",
+        thermometer_resolution=0.01,
+    )
     assert r.get_json()["predicted_delta_t"]["value"] == pytest.approx(want.predicted_delta_t)
-    for bad in ({**body, "kind": "explosion"}, {**body, "colour": 1}, {"kind": "dissolution"},
-                {**body, "thermometer_resolution": "fine"}):
+    for bad in (
+        {**body, "kind": "explosion"},
+        {**body, "colour": 1},
+        {"kind": "dissolution"},
+        {**body, "thermometer_resolution": "fine"},
+    ):
         r = client.post("/api/plan", json=bad, headers=lab.auth("b1"))
         assert r.status_code == 400 and r.get_json()["error"], bad
 
@@ -49,10 +97,21 @@ def test_planning_page_shows_one_kind_and_every_error_under_its_label(client: An
     html = client.get("/plan?kind=electrical-calibration").get_data(as_text=True)
     assert "Heater voltage" in html and "Acid concentration" not in html and "Mass of solute" not in html
     # three bad fields: all three are listed at once, each under its label, none under an internal name
-    r = client.get("/plan", query_string={"kind": "electrical-calibration", "go": "1", "water_volume": "100 g",
-                                          "heater_voltage": "five", "heater_current": "1.000 A",
-                                          "heater_duration": "120 s", "calorimeter": "20 ± 3 J/K",
-                                          "resolution": "0.01", "noise": "0.005", "temperature": "99"})
+    r = client.get(
+        "/plan",
+        query_string={
+            "kind": "electrical-calibration",
+            "go": "1",
+            "water_volume": "100 g",
+            "heater_voltage": "five",
+            "heater_current": "1.000 A",
+            "heater_duration": "120 s",
+            "calorimeter": "20 ± 3 J/K",
+            "resolution": "0.01",
+            "noise": "0.005",
+            "temperature": "99",
+        },
+    )
     html = r.get_data(as_text=True)
     assert r.status_code == 400
     summary = html.split('id="error-summary"')[1].split("</div>")[0]
@@ -66,27 +125,56 @@ def test_planning_page_shows_one_kind_and_every_error_under_its_label(client: An
     assert r.status_code in (400, 414)
 
 
-@pytest.mark.parametrize("kind,fields", [
-    ("electrical-calibration", {"water_volume": "100.0 ± 0.1 mL", "heater_voltage": "5.00 ± 0.01 V",
-                                "heater_current": "1.000 ± 0.002 A", "heater_duration": "120.0 ± 0.2 s"}),
-    ("mixing-calibration", {"water_volume": "50.0 ± 0.1 mL", "warm_volume": "50.0 ± 0.1 mL",
-                            "warm_temperature": "45.0 ± 0.1 °C"}),
-    ("reaction", {"formula": "Mg", "mass": "0.1000 ± 0.0002 g", "water_volume": "100.0 ± 0.1 mL",
-                  "enthalpy": "-466"}),
-])
+@pytest.mark.parametrize(
+    "kind,fields",
+    [
+        (
+            "electrical-calibration",
+            {
+                "water_volume": "100.0 ± 0.1 mL",
+                "heater_voltage": "5.00 ± 0.01 V",
+                "heater_current": "1.000 ± 0.002 A",
+                "heater_duration": "120.0 ± 0.2 s",
+            },
+        ),
+        (
+            "mixing-calibration",
+            {"water_volume": "50.0 ± 0.1 mL", "warm_volume": "50.0 ± 0.1 mL", "warm_temperature": "45.0 ± 0.1 °C"},
+        ),
+        (
+            "reaction",
+            {"formula": "Mg", "mass": "0.1000 ± 0.0002 g", "water_volume": "100.0 ± 0.1 mL", "enthalpy": "-466"},
+        ),
+    ],
+)
 def test_planning_page_plans_every_kind(client: Any, lab: Any, kind: str, fields: dict[str, str]) -> None:
     sign_in(client, "a1@lab.example")
-    r = client.get("/plan", query_string={"kind": kind, "go": "1", "calorimeter": "20 ± 3 J/K", "resolution": "0.01",
-                                          "noise": "0.005", "temperature": "22", **fields})
+    r = client.get(
+        "/plan",
+        query_string={
+            "kind": kind,
+            "go": "1",
+            "calorimeter": "20 ± 3 J/K",
+            "resolution": "0.01",
+            "noise": "0.005",
+            "temperature": "22",
+            **fields,
+        },
+    )
     html = r.get_data(as_text=True)
     assert r.status_code == 200, html.split('id="error-summary"')[-1][:500]
     assert "Predicted ΔT" in html and " K</td>" in html
 
 
 def test_plan_api_takes_the_calibration_kinds(client: Any, lab: Any) -> None:
-    body = {"kind": "mixing-calibration", "water_volume": "50.0 ± 0.1 mL", "warm_volume": "50.0 ± 0.1 mL",
-            "warm_temperature": "45.0 ± 0.1 degC", "calorimeter_heat_capacity": "20 ± 5 J/K",
-            "thermometer_resolution": 0.01}
+    body = {
+        "kind": "mixing-calibration",
+        "water_volume": "50.0 ± 0.1 mL",
+        "warm_volume": "50.0 ± 0.1 mL",
+        "warm_temperature": "45.0 ± 0.1 degC",
+        "calorimeter_heat_capacity": "20 ± 5 J/K",
+        "thermometer_resolution": 0.01,
+    }
     r = client.post("/api/plan", json=body, headers=lab.auth("b1"))
     assert r.status_code == 200, r.get_json()
     assert r.get_json()["molar_enthalpy"]["unit"] == "J/K" and r.get_json()["predicted_delta_t"]["value"] > 5

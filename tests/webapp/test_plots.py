@@ -14,7 +14,7 @@ import xml.etree.ElementTree as ET
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from datetime import datetime, timedelta
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 import numpy as np
@@ -22,12 +22,12 @@ import pytest
 
 from calc.analysis import Analysis, analyze_run, analyze_spec
 from calc.deltat.constructions import Construction
-from calc.deltat.registry import METHODS
-from calc.uncertainty.gum import BudgetLine
 from calc.deltat.periods import find_periods
+from calc.deltat.registry import METHODS
 from calc.io.readings import Readings
 from calc.io.runfile import parse_run
 from calc.simulation.simulator import simulate_dissolution, write_run
+from calc.uncertainty.gum import BudgetLine
 from webapp import plots
 from webapp.plots import (
     MAX_DRAWN_POINTS,
@@ -48,12 +48,12 @@ ALL_METHODS = ["regnault-pfaundler", "linear-extrapolation", "equal-area", "mode
 SVG_NS = "{http://www.w3.org/2000/svg}"
 
 
-@lru_cache(maxsize=None)
+@cache
 def analysis(name: str, method: str) -> Analysis:
     return analyze_run(ROOT / "fixtures" / "demo" / f"{name}.toml", method=method, with_reference=False)
 
 
-@lru_cache(maxsize=None)
+@cache
 def run_svg(name: str, method: str) -> str:
     return run_plot_svg(analysis(name, method))
 
@@ -83,7 +83,10 @@ def assert_self_contained_and_accessible(svg: str) -> ET.Element:
         for key, value in el.attrib.items():
             if key.endswith("href"):
                 assert value.startswith("#"), value
-    assert set(re.findall(r"https?://[^\s\"')]+", svg)) <= {"http://www.w3.org/2000/svg", "http://www.w3.org/1999/xlink"}
+    assert set(re.findall(r"https?://[^\s\"')]+", svg)) <= {
+        "http://www.w3.org/2000/svg",
+        "http://www.w3.org/1999/xlink",
+    }
     assert "<image" not in svg and "@import" not in svg
     # ids are unique and every local reference resolves
     ids = [el.get("id") for el in root.iter() if el.get("id")]
@@ -148,8 +151,13 @@ def test_time_axis_switches_to_minutes_for_long_logs():
     a = analysis("diss-kcl-01", "regnault-pfaundler")
     r = a.readings
     long = replace(r, time_s=r.time_s * 3.0)
-    periods = replace(a.periods, fore=(0.0, 720.0), after=(a.periods.after[0] * 3, r.time_s[-1] * 3),
-                      mixing_time=720.0, main_end=a.periods.main_end * 3)
+    periods = replace(
+        a.periods,
+        fore=(0.0, 720.0),
+        after=(a.periods.after[0] * 3, r.time_s[-1] * 3),
+        mixing_time=720.0,
+        main_end=a.periods.main_end * 3,
+    )
     svg = run_plot_svg(replace(a, readings=long, periods=periods))
     assert "time / min" in texts(parse(svg))
 
@@ -230,7 +238,7 @@ def test_straight_drift_lines_meet_delta_t_at_t_x(name, method):
         assert t_x == a.periods.mixing_time
     fore, after = curves["fore"], curves["after"]
     assert fore[0][-1] == pytest.approx(t_x) and after[0][0] == pytest.approx(t_x)
-    for tt, yy in (fore, after):
+    for _tt, yy in (fore, after):
         assert np.max(np.abs(np.diff(yy, 2))) < 1e-9  # straight
     assert _at(fore, t_x) == pytest.approx(a.delta_t.start_temperature, abs=1e-9)
     assert _at(after, t_x) == pytest.approx(a.delta_t.end_temperature, abs=1e-9)
@@ -243,7 +251,7 @@ def test_straight_drift_lines_meet_delta_t_at_t_x(name, method):
 @pytest.mark.parametrize("name", NAMES)
 def test_model_curve_starts_at_the_start_level_and_follows_the_after_period(name):
     a = analysis(name, "model-fit")
-    (tt, yy), = drift_curves(a).values()
+    ((tt, yy),) = drift_curves(a).values()
     t_i = a.delta_t.construction.t_i
     assert _at((tt, yy), t_i) == pytest.approx(a.delta_t.start_temperature, abs=1e-9)
     t, y = a.readings.time_s, a.readings.temperature_K
@@ -336,9 +344,18 @@ def test_preview_plot_shows_detected_periods():
 
 
 def _line(name: str, contribution: float, uc2: float) -> BudgetLine:
-    return BudgetLine(name=name, label=f"input {name}", value=1.0, unit="g", standard_uncertainty=0.1,
-                      distribution="normal", dof=math.inf, sensitivity=contribution / 0.1,
-                      contribution=contribution, share=contribution**2 / uc2)
+    return BudgetLine(
+        name=name,
+        label=f"input {name}",
+        value=1.0,
+        unit="g",
+        standard_uncertainty=0.1,
+        distribution="normal",
+        dof=math.inf,
+        sensitivity=contribution / 0.1,
+        contribution=contribution,
+        share=contribution**2 / uc2,
+    )
 
 
 def _budget(contributions: list[float]) -> list[BudgetLine]:
@@ -442,7 +459,7 @@ def test_palette_is_okabe_ito():
         "vermillion": (213, 94, 0),
         "reddish_purple": (204, 121, 167),
     }
-    assert {k: tuple(int(v[i:i + 2], 16) for i in (1, 3, 5)) for k, v in OKABE_ITO.items()} == published
+    assert {k: tuple(int(v[i : i + 2], 16) for i in (1, 3, 5)) for k, v in OKABE_ITO.items()} == published
 
 
 def test_pictures_use_only_the_palette_and_greys():
@@ -455,7 +472,7 @@ def test_pictures_use_only_the_palette_and_greys():
     for svg in svgs:
         for h in _HEX.findall(svg):
             colour = "#" + h.lower()
-            r, g, b = (int(h[i:i + 2], 16) for i in (0, 2, 4))
+            r, g, b = (int(h[i : i + 2], 16) for i in (0, 2, 4))
             assert colour in palette or r == g == b, colour
             seen.add(colour)
     assert len(seen & palette) >= 5
@@ -479,7 +496,8 @@ def test_reanalysed_run_renders():
     r: Readings = a.readings
     spec = parse_run(
         (ROOT / "fixtures" / "demo" / "neut-hcl-naoh-01.toml").read_text(encoding="utf-8"),
-        source="neut-hcl-naoh-01.toml", base_dir=ROOT / "fixtures" / "demo",
+        source="neut-hcl-naoh-01.toml",
+        base_dir=ROOT / "fixtures" / "demo",
     )
     b = analyze_spec(spec, r, after=(330.0, float(r.time_s[-1])), with_reference=False)
     assert b.periods.after[0] == 330.0

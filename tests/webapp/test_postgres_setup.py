@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.webapp import conftest
-from tests.webapp import postgres
+from tests.webapp import conftest, postgres
 
 
 def test_missing_binaries_skip_with_what_to_install(monkeypatch: pytest.MonkeyPatch) -> None:

@@ -12,15 +12,16 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import without_heat_capacity
-from tests.webapp.race_trials import Tally
-from tests.webapp.race_trials import in_process_caller
-from tests.webapp.race_trials import lock_vs_calibration
-from tests.webapp.race_trials import lock_vs_patch
-from tests.webapp.race_trials import lock_vs_reanalysis
-from tests.webapp.race_trials import lost_updates
-from tests.webapp.race_trials import upload_run
+from tests.webapp.conftest import demo_files, without_heat_capacity
+from tests.webapp.race_trials import (
+    Tally,
+    in_process_caller,
+    lock_vs_calibration,
+    lock_vs_patch,
+    lock_vs_reanalysis,
+    lost_updates,
+    upload_run,
+)
 from webapp.db import get_engine
 
 TRIALS = 3
@@ -81,14 +82,16 @@ def test_a_stale_write_gets_409_with_the_current_state(client: Any, lab: Any) ->
     assert "changed by someone else" in body["error"] and body["current"]["run"]["title"] == "first"
     r = client.patch(f"/api/runs/{run_id}", headers=lab.auth("coord"), json={"title": "third"})
     assert r.status_code == 428 and "If-Match" in r.get_json()["error"]  # a write must say what it changes
-    r = client.patch(f"/api/runs/{run_id}", headers=lab.auth("coord"),
-                     json={"title": "fourth", "version": body["current"]["run"]["version"]})
+    r = client.patch(
+        f"/api/runs/{run_id}",
+        headers=lab.auth("coord"),
+        json={"title": "fourth", "version": body["current"]["run"]["version"]},
+    )
     assert r.status_code == 200 and r.get_json()["title"] == "fourth"
 
 
 def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: Any, lab: Any) -> None:
-    from tests.webapp.conftest import csrf_token
-    from tests.webapp.conftest import sign_in
+    from tests.webapp.conftest import csrf_token, sign_in
 
     call = in_process_caller(client.application)
     run_id = upload_run(call, lab.tokens["a1"])
@@ -97,8 +100,11 @@ def test_page_forms_carry_the_version_and_say_changed_by_someone_else(client: An
     version = int(__import__("re").search(r'name="version" value="(\d+)"', page).group(1))
     token = csrf_token(page)
     # someone else changes the run after the page was read
-    r = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("coord"), "If-Match": f'"{version}"'},
-                     json={"notes": "checked by the coordinator"})
+    r = client.patch(
+        f"/api/runs/{run_id}",
+        headers={**lab.auth("coord"), "If-Match": f'"{version}"'},
+        json={"notes": "checked by the coordinator"},
+    )
     assert r.status_code == 200
     r = client.post(f"/runs/{run_id}/lock", data={"csrf_token": token, "version": str(version)})
     html = r.get_data(as_text=True)
@@ -114,8 +120,7 @@ def test_the_webhook_queued_at_the_lock_carries_the_signed_result(client: Any, l
 
     import sqlalchemy as sa
 
-    from webapp.models import Webhook
-    from webapp.models import WebhookDelivery
+    from webapp.models import Webhook, WebhookDelivery
 
     session.add(Webhook(url="https://receiver.example.org/hook", secret="s" * 64, active=True))
     session.commit()

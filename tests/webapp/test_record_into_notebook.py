@@ -24,8 +24,9 @@ ROOT = Path(__file__).resolve().parents[2]
 
 
 @pytest.mark.slow
-def test_record_streams_into_the_notebook_and_finishes_a_stored_run(app: Any, lab: Any, session: Any,
-                                                                     tmp_path: Path, database_url: str) -> None:
+def test_record_streams_into_the_notebook_and_finishes_a_stored_run(
+    app: Any, lab: Any, session: Any, tmp_path: Path, database_url: str
+) -> None:
     if not database_url.startswith("sqlite"):
         pytest.skip("SQLite is enough for the recorder's side; the API's own tests cover PostgreSQL")
     from werkzeug.serving import make_server
@@ -40,11 +41,30 @@ def test_record_streams_into_the_notebook_and_finishes_a_stored_run(app: Any, la
     out = tmp_path / "live.csv"
     try:
         done = subprocess.run(
-            [sys.executable, "-m", "calc.cli", "record", str(out), "--simulate", "dissolution", "--seed", "3",
-             "--speed", "400", "--garble", "0.01", "--quiet", "--notebook", f"http://127.0.0.1:{server.server_port}",
-             "--finish"],
-            capture_output=True, text=True, timeout=300,
-            env={**os.environ, "PYTHONPATH": str(ROOT), "CUPCAL_TOKEN": secret})
+            [
+                sys.executable,
+                "-m",
+                "calc.cli",
+                "record",
+                str(out),
+                "--simulate",
+                "dissolution",
+                "--seed",
+                "3",
+                "--speed",
+                "400",
+                "--garble",
+                "0.01",
+                "--quiet",
+                "--notebook",
+                f"http://127.0.0.1:{server.server_port}",
+                "--finish",
+            ],
+            capture_output=True,
+            text=True,
+            timeout=300,
+            env={**os.environ, "PYTHONPATH": str(ROOT), "CUPCAL_TOKEN": secret},
+        )
     finally:
         server.shutdown()
     assert done.returncode == 0, done.stderr

@@ -14,12 +14,9 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
 from tests.webapp.class_fixtures import build_section
-from webapp.models import AuditEntry
-from webapp.models import Person
-from webapp.models import Result
+from tests.webapp.conftest import sign_in, upload
+from webapp.models import AuditEntry, Person, Result
 from webapp.services.dashboard import section_dashboard
 
 
@@ -56,11 +53,19 @@ def test_withdraw_by_the_author_while_open_and_by_staff_after(client: Any, sessi
     assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
     assert _review(client, lab, "a1", run_id, "withdraw").status_code == 409
     assert _review(client, lab, "tech", run_id, "withdraw", "signed by mistake").status_code == 200
-    audit = session.scalars(sa.select(AuditEntry).where(AuditEntry.entity == "run", AuditEntry.entity_id == run_id,
-                                                        AuditEntry.field.like("withdrawn%"))).all()
+    audit = session.scalars(
+        sa.select(AuditEntry).where(
+            AuditEntry.entity == "run", AuditEntry.entity_id == run_id, AuditEntry.field.like("withdrawn%")
+        )
+    ).all()
     assert [(a.field, a.new) for a in audit] == [
-        ("withdrawn", "yes"), ("withdrawn_reason", "typed the mass wrong"), ("withdrawn", "no"),
-        ("withdrawn_reason", "it was right after all"), ("withdrawn", "yes"), ("withdrawn_reason", "signed by mistake")]
+        ("withdrawn", "yes"),
+        ("withdrawn_reason", "typed the mass wrong"),
+        ("withdrawn", "no"),
+        ("withdrawn_reason", "it was right after all"),
+        ("withdrawn", "yes"),
+        ("withdrawn_reason", "signed by mistake"),
+    ]
     # the run page says so; the student sees it too
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{run_id}").get_data(as_text=True)
@@ -68,7 +73,8 @@ def test_withdraw_by_the_author_while_open_and_by_staff_after(client: Any, sessi
 
 
 def test_excluding_a_run_takes_it_out_of_the_statistics_marks_and_grubbs(
-        client: Any, session: Any, lab: Any, tmp_path: Path) -> None:
+    client: Any, session: Any, lab: Any, tmp_path: Path
+) -> None:
     cl, ids = build_section(session, lab, tmp_path)
     coord = session.get(Person, lab.ids["coord"])
     far = ids["M04-far.toml"]
@@ -111,22 +117,41 @@ def test_comments_and_marks(app: Any, client: Any, session: Any, lab: Any, tmp_p
     group_id = ada.group_id
     r = client.post(f"/api/runs/{run_id}/comments", json={"body": "Good drift lines."}, headers=lab.auth("tech"))
     assert r.status_code == 201
-    assert client.post(f"/api/runs/{run_id}/comments", json={"body": "x" * 4001},
-                       headers=lab.auth("tech")).status_code == 400
-    assert client.post(f"/api/groups/{group_id}/comments", json={"body": "Weigh by difference."},
-                       headers=lab.auth("coord")).status_code == 201
-    assert client.post(f"/api/runs/{run_id}/comments", json={"body": "hi"},
-                       headers=lab.auth("a1")).status_code in (403, 404)
+    assert (
+        client.post(f"/api/runs/{run_id}/comments", json={"body": "x" * 4001}, headers=lab.auth("tech")).status_code
+        == 400
+    )
+    assert (
+        client.post(
+            f"/api/groups/{group_id}/comments", json={"body": "Weigh by difference."}, headers=lab.auth("coord")
+        ).status_code
+        == 201
+    )
+    assert client.post(f"/api/runs/{run_id}/comments", json={"body": "hi"}, headers=lab.auth("a1")).status_code in (
+        403,
+        404,
+    )
     # the scheme: 1=6, 2=3, *=0 on |E_n| and 2 %=4, 5 %=2, *=0 on the relative error
-    r = client.put(f"/api/sections/{cl.section_id}/marking-scheme", json={"en": "1=6, 2=3, *=0",
-                                                                          "relative": "2%=4, 5%=2, *=0"},
-                   headers=lab.auth("coord"))
+    r = client.put(
+        f"/api/sections/{cl.section_id}/marking-scheme",
+        json={"en": "1=6, 2=3, *=0", "relative": "2%=4, 5%=2, *=0"},
+        headers=lab.auth("coord"),
+    )
     assert r.status_code == 200, r.get_json()
-    bad = client.put(f"/api/sections/{cl.section_id}/marking-scheme", json={"en": "2=3, 1=6, *=0", "relative": "*=0"},
-                     headers=lab.auth("coord"))
+    bad = client.put(
+        f"/api/sections/{cl.section_id}/marking-scheme",
+        json={"en": "2=3, 1=6, *=0", "relative": "*=0"},
+        headers=lab.auth("coord"),
+    )
     assert bad.status_code == 400 and bad.get_json()["field"] == "en_bands"
-    assert client.put(f"/api/sections/{cl.section_id}/marking-scheme", json={"en": "*=1", "relative": "*=0"},
-                      headers=lab.auth("tech")).status_code == 403
+    assert (
+        client.put(
+            f"/api/sections/{cl.section_id}/marking-scheme",
+            json={"en": "*=1", "relative": "*=0"},
+            headers=lab.auth("tech"),
+        ).status_code
+        == 403
+    )
     coord = session.get(Person, lab.ids["coord"])
     session.expire_all()
     row = next(x for x in section_dashboard(session, coord, cl.section_id).rows if x.run_id == run_id)
@@ -135,8 +160,12 @@ def test_comments_and_marks(app: Any, client: Any, session: Any, lab: Any, tmp_p
     assert row.mark.points == expect and row.mark.source == "scheme"
     # a mark by hand needs a reason; it is audited and can be cleared
     assert client.put(f"/api/runs/{run_id}/mark", json={"points": 9}, headers=lab.auth("coord")).status_code == 400
-    assert client.put(f"/api/runs/{run_id}/mark", json={"points": 9, "reason": "good lab book"},
-                      headers=lab.auth("coord")).status_code == 200
+    assert (
+        client.put(
+            f"/api/runs/{run_id}/mark", json={"points": 9, "reason": "good lab book"}, headers=lab.auth("coord")
+        ).status_code
+        == 200
+    )
     session.expire_all()
     row = next(x for x in section_dashboard(session, coord, cl.section_id).rows if x.run_id == run_id)
     assert row.mark.points == 9 and row.mark.source == "set by hand"
@@ -150,10 +179,18 @@ def test_comments_and_marks(app: Any, client: Any, session: Any, lab: Any, tmp_p
     html = ada_client.get(f"/runs/{run_id}").get_data(as_text=True)
     assert "Good drift lines." in html and "Weigh by difference." in html and "9 points" in html
     assert 'name="body"' not in html  # no comment form for a student
-    assert client.put(f"/api/runs/{run_id}/mark", json={"points": None, "reason": "back to the scheme"},
-                      headers=lab.auth("coord")).status_code == 200
-    fields = [a.field for a in session.scalars(sa.select(AuditEntry).where(AuditEntry.entity_id == run_id,
-                                                                          AuditEntry.entity == "run"))]
+    assert (
+        client.put(
+            f"/api/runs/{run_id}/mark", json={"points": None, "reason": "back to the scheme"}, headers=lab.auth("coord")
+        ).status_code
+        == 200
+    )
+    fields = [
+        a.field
+        for a in session.scalars(
+            sa.select(AuditEntry).where(AuditEntry.entity_id == run_id, AuditEntry.entity == "run")
+        )
+    ]
     assert fields.count("mark_points") == 2 and "comment" in fields
 
 
@@ -200,15 +237,24 @@ def test_students_see_only_their_own_groups_marks(client: Any, session: Any, lab
     assert any(r.status == "excluded" for r in others)  # that it is excluded is shown, not why
 
 
-@pytest.mark.parametrize(("text", "message"), [
-    ("", "bound=points"), ("1=6, 2=3", "open band"), ("2=3, 1=6, *=0", "increase"), ("1=6, *=0, 2=1", "last band"),
-    ("x=1, *=0", "numbers"), ("1=-2, *=0", "points must be"), ("1=nan, *=0", "points must be"), ("inf=1, *=0", "bound"),
-    ("1=6" + ", 1=6" * 20, "at most"), ("1=6, *=0" + " " * 500, "characters"),
-])
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("", "bound=points"),
+        ("1=6, 2=3", "open band"),
+        ("2=3, 1=6, *=0", "increase"),
+        ("1=6, *=0, 2=1", "last band"),
+        ("x=1, *=0", "numbers"),
+        ("1=-2, *=0", "points must be"),
+        ("1=nan, *=0", "points must be"),
+        ("inf=1, *=0", "bound"),
+        ("1=6" + ", 1=6" * 20, "at most"),
+        ("1=6, *=0" + " " * 500, "characters"),
+    ],
+)
 def test_band_text_is_checked_with_a_clear_message(text: str, message: str) -> None:
     from webapp.services.errors import Invalid
-    from webapp.services.marks import band_points
-    from webapp.services.marks import parse_bands
+    from webapp.services.marks import band_points, parse_bands
 
     with pytest.raises(Invalid, match=message):
         parse_bands(text, "en_bands")

@@ -15,12 +15,10 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from calc import __version__
 from rocrate.rocrate import ROCrate
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import upload
-from tests.webapp.conftest import without_heat_capacity
+from calc import __version__
+from tests.webapp.conftest import demo_files, upload, without_heat_capacity
 from webapp.models import Run
 
 NUMBERS = ("value", "standard_uncertainty", "expanded_uncertainty", "coverage_factor")
@@ -47,9 +45,21 @@ def _same_run(session: Any, a_id: int, b_id: int) -> None:
     assert b.run_file_name == a.run_file_name and b.readings_name == a.readings_name
     ra, rb = a.current_result, b.current_result
     assert rb.method == ra.method and rb.main == ra.main
-    for col in ("corrected_delta_t_k", "corrected_delta_t_k_std", "heat_j", "heat_j_std", "molar_enthalpy_kj_mol",
-                "molar_enthalpy_kj_mol_std", "calorimeter_heat_capacity_j_k", "expanded_uncertainty",
-                "coverage_factor", "fore_start_s", "fore_end_s", "after_start_s", "after_end_s"):
+    for col in (
+        "corrected_delta_t_k",
+        "corrected_delta_t_k_std",
+        "heat_j",
+        "heat_j_std",
+        "molar_enthalpy_kj_mol",
+        "molar_enthalpy_kj_mol_std",
+        "calorimeter_heat_capacity_j_k",
+        "expanded_uncertainty",
+        "coverage_factor",
+        "fore_start_s",
+        "fore_end_s",
+        "after_start_s",
+        "after_end_s",
+    ):
         assert getattr(rb, col) == getattr(ra, col), col  # the analysis is deterministic: exactly equal
     assert rb.budget == ra.budget and rb.warnings == ra.warnings and rb.monte_carlo == ra.monte_carlo
     assert b.calibration_id == a.calibration_id
@@ -87,15 +97,20 @@ def test_round_trip_of_a_run_using_a_calibration(client: Any, lab: Any, session:
     toml, _ = demo_files("diss-kcl-01")
     run_id = _record(client, lab, toml=without_heat_capacity(toml), calorimeter_id=lab.spare_calorimeter_id)
     doc = json.loads(_export(client, lab, run_id, "json").data)
-    assert doc["provenance"]["calibration"]["heat_capacity"] == {"value": 21.0, "standard_uncertainty": 3.0,
-                                                                 "unit": "J/K"}
+    assert doc["provenance"]["calibration"]["heat_capacity"] == {
+        "value": 21.0,
+        "standard_uncertainty": 3.0,
+        "unit": "J/K",
+    }
     r = client.post("/api/packages", json=doc, headers=lab.auth("a1"))
     assert r.status_code == 201, r.get_json()
     _same_run(session, run_id, r.get_json()["id"])
     # once another heat capacity is in force, the numbers could not be reproduced: refused
-    r = client.post(f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations",
-                    json={"heat_capacity": "25.0 ± 2.0 J/K", "measured_on": "2026-11-30", "restart": True},
-                    headers=lab.auth("coord"))
+    r = client.post(
+        f"/api/calorimeters/{lab.spare_calorimeter_id}/calibrations",
+        json={"heat_capacity": "25.0 ± 2.0 J/K", "measured_on": "2026-11-30", "restart": True},
+        headers=lab.auth("coord"),
+    )
     assert r.status_code == 201, r.get_json()
     r = client.post("/api/packages", json=doc, headers=lab.auth("a1"))
     assert r.status_code == 400 and r.get_json()["field"] == "provenance.calibration"
@@ -109,8 +124,9 @@ def test_damaged_or_foreign_packages_are_refused(client: Any, lab: Any) -> None:
     assert r.status_code == 400 and r.get_json()["field"] == "files.readings"
     r = client.post("/api/packages", json={"format": "something else"}, headers=lab.auth("a1"))
     assert r.status_code == 400 and r.get_json()["field"] == "format"
-    r = client.post("/api/packages", data=b"PK\x03\x04 not a zip", content_type="application/zip",
-                    headers=lab.auth("a1"))
+    r = client.post(
+        "/api/packages", data=b"PK\x03\x04 not a zip", content_type="application/zip", headers=lab.auth("a1")
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "package"
 
 
@@ -136,8 +152,12 @@ def test_ro_crate_is_valid_and_round_trips(client: Any, lab: Any, session: Any, 
     assert crate.get("#cupcal")["version"] == __version__
     _toml, readings = demo_files("diss-kcl-01")
     assert (folder / "diss-kcl-01.csv").read_bytes() == readings
-    r = client.post("/api/packages", data={"package": (io.BytesIO(data), "run.crate.zip")},
-                    content_type="multipart/form-data", headers=lab.auth("a1"))
+    r = client.post(
+        "/api/packages",
+        data={"package": (io.BytesIO(data), "run.crate.zip")},
+        content_type="multipart/form-data",
+        headers=lab.auth("a1"),
+    )
     assert r.status_code == 201, r.get_json()
     _same_run(session, run_id, r.get_json()["id"])
 
@@ -146,7 +166,7 @@ def test_csv_report_and_selection(client: Any, lab: Any, session: Any) -> None:
     first = _record(client, lab)
     second = _record(client, lab, name="neut-hcl-naoh-01")
     run = session.get(Run, first)
-    run.title = "=HYPERLINK(\"http://example.invalid\")"
+    run.title = '=HYPERLINK("http://example.invalid")'
     session.commit()
     rows = list(csv.DictReader(io.StringIO(_export(client, lab, first, "csv").get_data(as_text=True))))
     assert len(rows) == 1 and rows[0]["title"] == "'" + run.title  # OWASP "CSV injection": apostrophe
@@ -157,8 +177,13 @@ def test_csv_report_and_selection(client: Any, lab: Any, session: Any) -> None:
     r = client.get(f"/api/exports?run_ids={first},{second}", headers=lab.auth("a1"))
     assert r.status_code == 200 and r.mimetype == "application/zip"
     z = zipfile.ZipFile(io.BytesIO(r.data))
-    assert set(z.namelist()) == {"results.csv", f"run-{first}.json", f"run-{second}.json",
-                                 f"run-{first}.crate.zip", f"run-{second}.crate.zip"}
+    assert set(z.namelist()) == {
+        "results.csv",
+        f"run-{first}.json",
+        f"run-{second}.json",
+        f"run-{first}.crate.zip",
+        f"run-{second}.crate.zip",
+    }
     assert len(list(csv.DictReader(io.StringIO(z.read("results.csv").decode())))) == 2
     assert json.loads(z.read(f"run-{second}.json"))["run"]["kind"] == "neutralization"
     r = client.get(f"/api/exports?run_ids={first},{second}&format=csv", headers=lab.auth("a1"))
@@ -175,6 +200,10 @@ def test_packages_need_a_write_token(client: Any, lab: Any, session: Any, fmt: s
     run_id = _record(client, lab)
     data = _export(client, lab, run_id, fmt).data
     _t, secret = issue_scoped_token(session, session.get(Person, lab.ids["a1"]), "ro", "read")
-    r = client.post("/api/packages", data=data, headers={"Authorization": f"Bearer {secret}"},
-                    content_type="application/json" if fmt == "json" else "application/zip")
+    r = client.post(
+        "/api/packages",
+        data=data,
+        headers={"Authorization": f"Bearer {secret}"},
+        content_type="application/json" if fmt == "json" else "application/zip",
+    )
     assert r.status_code == 403

@@ -8,9 +8,7 @@ from typing import Any
 import pytest
 from scipy import stats as sps
 
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import demo_files, sign_in, upload
 
 
 def _with_sample(name: str, sample: str, title: str, mass: str | None = None) -> str:
@@ -25,10 +23,15 @@ def _with_sample(name: str, sample: str, title: str, mass: str | None = None) ->
 @pytest.fixture
 def lots(client: Any, lab: Any) -> dict[str, int]:
     ids = {}
-    for title, sample, mass in (("Lot A first", "LOT-A7", None), ("Lot A second", "LOT-A7", "3.7311 ± 0.0002 g"),
-                                ("Lot A third", "LOT-A7", "3.7250 ± 0.0002 g"), ("Lot B only", "LOT-B2", None)):
-        r = upload(client, lab.auth("a1"), "diss-kcl-01", toml=_with_sample("diss-kcl-01", sample, title, mass),
-                   monte_carlo=0)
+    for title, sample, mass in (
+        ("Lot A first", "LOT-A7", None),
+        ("Lot A second", "LOT-A7", "3.7311 ± 0.0002 g"),
+        ("Lot A third", "LOT-A7", "3.7250 ± 0.0002 g"),
+        ("Lot B only", "LOT-B2", None),
+    ):
+        r = upload(
+            client, lab.auth("a1"), "diss-kcl-01", toml=_with_sample("diss-kcl-01", sample, title, mass), monte_carlo=0
+        )
         assert r.status_code == 201, r.get_data(as_text=True)
         ids[title] = r.get_json()["id"]
     return ids
@@ -60,8 +63,10 @@ def test_runs_list_searches_filters_and_sorts(client: Any, lab: Any, lots: dict[
 
 def test_samples_page_gives_mean_t_interval_and_dof(client: Any, lab: Any, lots: dict[str, int]) -> None:
     sign_in(client, "a1@lab.example")
-    api = [client.get(f"/api/runs/{lots[t]}", headers=lab.auth("a1")).get_json()
-           for t in ("Lot A first", "Lot A second", "Lot A third")]
+    api = [
+        client.get(f"/api/runs/{lots[t]}", headers=lab.auth("a1")).get_json()
+        for t in ("Lot A first", "Lot A second", "Lot A third")
+    ]
     values = [d["result"]["value"] if "result" in d else d["current_result"]["value"] for d in api]
     html = client.get("/runs/samples").get_data(as_text=True)
     row = html.split("LOT-A7</a>")[1].split("</tr>")[0]

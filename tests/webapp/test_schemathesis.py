@@ -14,7 +14,6 @@ import tempfile
 from pathlib import Path
 from typing import Any
 
-import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
 from schemathesis.checks import not_a_server_error
@@ -30,21 +29,31 @@ from schemathesis.specs.openapi.checks import (
     use_after_free,
 )
 
+from webapp import create_app
+
 #: every check schemathesis has for a single call, but positive_data_acceptance: the document is looser
 #: than the server (an empty "name", a run file that is valid text but not a valid run), so a
 #: schema-valid request may rightly get 400; max_response_time needs a budget (the benchmarks time it)
-ALL_CHECKS = [not_a_server_error, status_code_conformance, response_schema_conformance, content_type_conformance,
-              response_headers_conformance, negative_data_rejection, ignored_auth, missing_required_header,
-              unsupported_method, use_after_free]
-
-from webapp import create_app
+ALL_CHECKS = [
+    not_a_server_error,
+    status_code_conformance,
+    response_schema_conformance,
+    content_type_conformance,
+    response_headers_conformance,
+    negative_data_rejection,
+    ignored_auth,
+    missing_required_header,
+    unsupported_method,
+    use_after_free,
+]
 
 
 def _schema_app() -> Any:
     """Return an app used only to serve the OpenAPI document (no database is touched)."""
     folder = Path(tempfile.mkdtemp(prefix="cupcal-schema-"))
-    app = create_app({"TESTING": True, "DATABASE_URL": f"sqlite:///{folder / 'unused.sqlite3'}",
-                      "SECRET_KEY": "schema only"})
+    app = create_app(
+        {"TESTING": True, "DATABASE_URL": f"sqlite:///{folder / 'unused.sqlite3'}", "SECRET_KEY": "schema only"}
+    )
     app.instance_path = str(folder / "instance")
     return app
 
@@ -56,11 +65,9 @@ schema = schemathesis.openapi.from_wsgi("/api/openapi.json", _schema_app())
 
 
 @schema.parametrize()
-@settings(max_examples=12, deadline=None, derandomize=True, database=None,
-          suppress_health_check=list(HealthCheck))
+@settings(max_examples=12, deadline=None, derandomize=True, database=None, suppress_health_check=list(HealthCheck))
 def test_no_server_errors_and_responses_match_the_document(case: Any, app: Any, lab: Any) -> None:
-    case.call_and_validate(app=app, headers=lab.auth("coord"),
-                           checks=ALL_CHECKS)
+    case.call_and_validate(app=app, headers=lab.auth("coord"), checks=ALL_CHECKS)
 
 
 def test_a_series_of_run_ids_beyond_any_id_is_a_clear_400(client: Any, lab: Any) -> None:
@@ -74,8 +81,12 @@ def test_a_series_of_run_ids_beyond_any_id_is_a_clear_400(client: Any, lab: Any)
 def test_ids_beyond_an_integer_column_name_nothing(client: Any, lab: Any) -> None:
     # found by the test above on PostgreSQL: such an id reached the server, which refused it (a 500)
     huge = 66351230932
-    for method, path in (("GET", f"/api/runs/{huge}"), ("PATCH", f"/api/calorimeters/{huge}"),
-                         ("GET", f"/runs/{huge}"), ("POST", f"/api/runs/{huge}/lock")):
+    for method, path in (
+        ("GET", f"/api/runs/{huge}"),
+        ("PATCH", f"/api/calorimeters/{huge}"),
+        ("GET", f"/runs/{huge}"),
+        ("POST", f"/api/runs/{huge}/lock"),
+    ):
         r = client.open(path, method=method, headers=lab.auth("coord"), json={})
         assert r.status_code == 404, (method, path, r.status_code)
     r = client.get(f"/api/runs?calorimeter_id={huge}", headers=lab.auth("coord"))

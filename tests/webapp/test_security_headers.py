@@ -13,9 +13,7 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import FAST_HASH
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import FAST_HASH, sign_in, upload
 from webapp import create_app
 from webapp.db import get_engine
 from webapp.security import CSP
@@ -109,11 +107,11 @@ def test_no_template_has_inline_script_or_event_handlers() -> None:
 
 
 def test_the_check_itself_catches_inline_code() -> None:
-    assert _INLINE_SCRIPT.search('<script>alert(1)</script>')
+    assert _INLINE_SCRIPT.search("<script>alert(1)</script>")
     assert not _INLINE_SCRIPT.search('<script src="/static/a.js" defer></script>')
     assert _HANDLER.search('<button class="x" onclick="go()">')
     assert _HANDLER.search('<img\n  src="a.png" onerror=go()>')
-    assert not _HANDLER.search('<p>turn the stirrer on=high</p>')
+    assert not _HANDLER.search("<p>turn the stirrer on=high</p>")
     assert _SCRIPT_URL.search('<a href="javascript:go()">')
 
 
@@ -139,8 +137,15 @@ def test_the_import_page_loads_its_script_from_static(client: Any, lab: Any, ses
 
 
 def _production_app(database_url: str, tmp_path: Path, **config: Any) -> Any:
-    app = create_app({"DATABASE_URL": database_url, "SECRET_KEY": "production-like", "PASSWORD_METHOD": FAST_HASH,
-                      "MONTE_CARLO_TRIALS": 0, **config})  # no TESTING, no DEBUG: CSRF on, as served
+    app = create_app(
+        {
+            "DATABASE_URL": database_url,
+            "SECRET_KEY": "production-like",
+            "PASSWORD_METHOD": FAST_HASH,
+            "MONTE_CARLO_TRIALS": 0,
+            **config,
+        }
+    )  # no TESTING, no DEBUG: CSRF on, as served
     app.instance_path = str(tmp_path / "instance")
     assert not app.testing and not app.debug
     return app
@@ -184,8 +189,9 @@ def test_plain_http_serving_keeps_a_usable_cookie(lab: Any, database_url: str, t
 
 
 @pytest.mark.parametrize(("value", "secure"), [("1", True), ("true", True), ("0", False), ("no", False)])
-def test_the_https_flag_comes_from_the_environment(value: str, secure: bool, monkeypatch: pytest.MonkeyPatch,
-                                                    tmp_path: Path) -> None:
+def test_the_https_flag_comes_from_the_environment(
+    value: str, secure: bool, monkeypatch: pytest.MonkeyPatch, tmp_path: Path
+) -> None:
     monkeypatch.setenv("CUPCAL_HTTPS", value)
     app = create_app({"DATABASE_URL": f"sqlite:///{tmp_path / 'x.sqlite3'}", "SECRET_KEY": "k"})
     try:

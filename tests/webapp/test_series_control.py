@@ -9,14 +9,10 @@ from typing import Any
 import pytest
 
 from calc.statistics.control_charts import control_chart
-from calc.statistics.replicates import shared_type_b
-from calc.statistics.replicates import summarize_series
-from tests.webapp.class_fixtures import make_class
-from tests.webapp.class_fixtures import simulated_run
-from webapp.models import Person
-from webapp.models import Run
-from webapp.services.imports import files_from_folder
-from webapp.services.imports import import_files
+from calc.statistics.replicates import shared_type_b, summarize_series
+from tests.webapp.class_fixtures import make_class, simulated_run
+from webapp.models import Person, Run
+from webapp.services.imports import files_from_folder, import_files
 from webapp.services.series import budget_lines
 
 
@@ -45,14 +41,19 @@ def test_series_statistics_equal_calc_replicates(client: Any, session: Any, lab:
         assert math.isclose(got[key], getattr(want, key), rel_tol=1e-12), key
     assert got["ci95"] == pytest.approx(list(want.ci95))
     # a single run is not a series; students cannot make series
-    assert client.post("/api/series", json={"name": "x", "run_ids": run_ids[:1]},
-                       headers=lab.auth("coord")).status_code == 400
-    assert client.post("/api/series", json={"name": "x", "run_ids": "1,2"}, headers=lab.auth("coord")).status_code == 400
+    assert (
+        client.post("/api/series", json={"name": "x", "run_ids": run_ids[:1]}, headers=lab.auth("coord")).status_code
+        == 400
+    )
+    assert (
+        client.post("/api/series", json={"name": "x", "run_ids": "1,2"}, headers=lab.auth("coord")).status_code == 400
+    )
     assert client.post("/api/series", json={"name": "x", "run_ids": run_ids}, headers=lab.auth("a1")).status_code == 403
     assert client.get("/api/series/999", headers=lab.auth("coord")).status_code == 404
     # the dashboard's per-group series is the same computation
-    board = client.get(f"/api/sections/{session.get(Run, run_ids[0]).group.section_id}/dashboard",
-                       headers=lab.auth("coord")).get_json()
+    board = client.get(
+        f"/api/sections/{session.get(Run, run_ids[0]).group.section_id}/dashboard", headers=lab.auth("coord")
+    ).get_json()
     assert board["series"][0]["mean"] == pytest.approx(want.mean)
 
 
@@ -72,10 +73,18 @@ def test_control_chart_flags_and_calibration_due(client: Any, session: Any, lab:
     # the spare cup's heat capacity was entered today; default interval 30 days
     cal = chart["calibration"]
     assert cal["overdue"] is False and cal["interval_days"] == 30 and cal["days_left"] == 30
-    assert client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}/control?baseline=1",
-                      headers=lab.auth("tech")).status_code == 400
-    assert client.get(f"/api/calorimeters/{lab.spare_calorimeter_id}/control?standard=nope",
-                      headers=lab.auth("tech")).status_code == 400
+    assert (
+        client.get(
+            f"/api/calorimeters/{lab.spare_calorimeter_id}/control?baseline=1", headers=lab.auth("tech")
+        ).status_code
+        == 400
+    )
+    assert (
+        client.get(
+            f"/api/calorimeters/{lab.spare_calorimeter_id}/control?standard=nope", headers=lab.auth("tech")
+        ).status_code
+        == 400
+    )
     never = client.get(f"/api/calorimeters/{lab.calorimeter_id}/control", headers=lab.auth("tech")).get_json()
     assert never["calibration"]["overdue"] is True and never["points"] == []
     from tests.webapp.conftest import sign_in
@@ -89,9 +98,8 @@ def test_control_chart_flags_and_calibration_due(client: Any, session: Any, lab:
 def test_calibration_interval_per_calorimeter(session: Any, lab: Any) -> None:
     import datetime as dt
 
-    from webapp.services.control import calibration_info
-    from webapp.services.control import set_interval
     from webapp.models import Calorimeter
+    from webapp.services.control import calibration_info, set_interval
 
     cal = session.get(Calorimeter, lab.spare_calorimeter_id)
     set_interval(session, session.get(Person, lab.ids["coord"]), cal, 7)
@@ -101,12 +109,18 @@ def test_calibration_interval_per_calorimeter(session: Any, lab: Any) -> None:
 
 def test_calibration_interval_over_the_api(client: Any, lab: Any) -> None:
     url = f"/api/calorimeters/{lab.spare_calorimeter_id}"
-    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"calibration_interval_days": 0, "location": "bench 9"})
+    r = client.patch(
+        url,
+        headers={**lab.auth("coord"), "If-Match": "*"},
+        json={"calibration_interval_days": 0, "location": "bench 9"},
+    )
     assert r.status_code == 400 and r.get_json()["field"] == "calibration_interval_days"
     assert client.get(url, headers=lab.auth("coord")).get_json()["location"] != "bench 9"  # nothing stored
     r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"calibration_interval_days": 7})
     assert r.status_code == 200 and r.get_json()["calibration_interval_days"] == 7
-    r = client.patch(url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"location": "bench 9"})  # not given: kept
+    r = client.patch(
+        url, headers={**lab.auth("coord"), "If-Match": "*"}, json={"location": "bench 9"}
+    )  # not given: kept
     assert r.get_json()["calibration_interval_days"] == 7
     control = client.get(f"{url}/control", headers=lab.auth("coord")).get_json()
     assert control["calibration"]["interval_days"] == 7

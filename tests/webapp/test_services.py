@@ -9,34 +9,28 @@ from typing import Any
 
 import pytest
 import sqlalchemy as sa
+
 from calc.analysis import analyze_spec
 from calc.io.readings import parse_readings
 from calc.io.runfile import parse_run
-
-from tests.webapp.conftest import demo_files
-from tests.webapp.conftest import without_heat_capacity
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
-from webapp.quantities import result_quantity
-from webapp.quantities import series
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import supply_heat_capacity
+from tests.webapp.conftest import demo_files, without_heat_capacity
+from webapp.models import AuditEntry, Calibration, Calorimeter, Person, Result, Run, RunInput
+from webapp.quantities import result_quantity, series
+from webapp.services.analysis import AnalysisOptions, supply_heat_capacity
 from webapp.services.calorimeters import current_calibration
 from webapp.services.errors import Invalid
-from webapp.services.runs import RunUpload
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import record_run
+from webapp.services.runs import RunUpload, reanalyse_run, record_run
 
 
 def _upload(name: str, toml: str | None = None, csv: bytes | None = None, **kw: Any) -> RunUpload:
     t, c = demo_files(name)
-    return RunUpload(run_toml=toml if toml is not None else t, run_file_name=f"{name}.toml",
-                     readings=csv if csv is not None else c, readings_name=f"{name}.csv", **kw)
+    return RunUpload(
+        run_toml=toml if toml is not None else t,
+        run_file_name=f"{name}.toml",
+        readings=csv if csv is not None else c,
+        readings_name=f"{name}.csv",
+        **kw,
+    )
 
 
 def _calc(toml: str, csv: bytes, **kw: Any) -> Any:
@@ -45,8 +39,10 @@ def _calc(toml: str, csv: bytes, **kw: Any) -> Any:
 
 
 def _counts(session: Any) -> dict[str, int]:
-    return {m.__name__: session.scalar(sa.select(sa.func.count()).select_from(m))
-            for m in (Run, Result, RunInput, Calibration, AuditEntry)}
+    return {
+        m.__name__: session.scalar(sa.select(sa.func.count()).select_from(m))
+        for m in (Run, Result, RunInput, Calibration, AuditEntry)
+    }
 
 
 def test_calibration_updates_the_calorimeter_and_later_runs_use_it(session: Any, lab: Any) -> None:
@@ -58,13 +54,17 @@ def test_calibration_updates_the_calorimeter_and_later_runs_use_it(session: Any,
     toml, csv = demo_files("cal-electrical-01")
     ref = _calc(toml, csv)
     assert math.isclose(current.heat_capacity_j_k, ref.gum.values["calorimeter_heat_capacity"], rel_tol=1e-12)
-    assert math.isclose(current.heat_capacity_j_k_std, ref.gum.uncertainties["calorimeter_heat_capacity"],
-                        rel_tol=1e-12)
+    assert math.isclose(
+        current.heat_capacity_j_k_std, ref.gum.uncertainties["calorimeter_heat_capacity"], rel_tol=1e-12
+    )
 
     # a dissolution whose file gives no heat capacity takes the calorimeter's and records which
     toml_kcl, csv_kcl = demo_files("diss-kcl-01")
-    run = record_run(session, session.get(Person, lab.ids["a1"]),
-                     _upload("diss-kcl-01", toml=without_heat_capacity(toml_kcl), calorimeter_id=lab.calorimeter_id))
+    run = record_run(
+        session,
+        session.get(Person, lab.ids["a1"]),
+        _upload("diss-kcl-01", toml=without_heat_capacity(toml_kcl), calorimeter_id=lab.calorimeter_id),
+    )
     assert run.calibration_id == current.id and run.calibration.result_id == cal_result.id
     supplied = [i for i in run.inputs if i.field == "calorimeter.heat_capacity"]
     assert supplied and supplied[0].origin == f"calibration #{current.id}"
@@ -79,8 +79,9 @@ def test_calibration_updates_the_calorimeter_and_later_runs_use_it(session: Any,
 
 
 def test_a_run_file_value_wins_over_the_calorimeter(session: Any, lab: Any) -> None:
-    run = record_run(session, session.get(Person, lab.ids["a1"]),
-                     _upload("diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id))
+    run = record_run(
+        session, session.get(Person, lab.ids["a1"]), _upload("diss-kcl-01", calorimeter_id=lab.spare_calorimeter_id)
+    )
     assert run.calibration_id is None
     hc = [i for i in run.inputs if i.field == "calorimeter.heat_capacity"][0]
     assert (hc.value, hc.std_uncertainty, hc.origin) == (18.6, 2.0, "run file")
@@ -91,20 +92,25 @@ def test_heat_capacity_supplied_to_a_file_without_a_calorimeter_section(session:
     start = toml.index("[calorimeter]")
     end = toml.index("[thermometer]")
     bare = toml[:start] + toml[end:]
-    run = record_run(session, session.get(Person, lab.ids["coord"]),
-                     _upload("diss-kcl-01", toml=bare, calorimeter_id=lab.spare_calorimeter_id))
+    run = record_run(
+        session,
+        session.get(Person, lab.ids["coord"]),
+        _upload("diss-kcl-01", toml=bare, calorimeter_id=lab.spare_calorimeter_id),
+    )
     assert run.calibration is not None and run.calibration.heat_capacity_j_k == 21.0
     expected = _calc(toml.replace('heat_capacity = "18.6 ± 2.0 J/K"', 'heat_capacity = "21.0 ± 3.0 J/K"'), csv)
-    assert math.isclose(run.current_result.molar_enthalpy_kj_mol, expected.gum.values["molar_enthalpy"],
-                        rel_tol=1e-12)
+    assert math.isclose(run.current_result.molar_enthalpy_kj_mol, expected.gum.values["molar_enthalpy"], rel_tol=1e-12)
 
 
 def test_missing_heat_capacity_on_an_uncalibrated_calorimeter_is_refused(session: Any, lab: Any) -> None:
     toml, _ = demo_files("diss-kcl-01")
     before = _counts(session)
     with pytest.raises(Invalid) as err:
-        record_run(session, session.get(Person, lab.ids["a1"]),
-                   _upload("diss-kcl-01", toml=without_heat_capacity(toml), calorimeter_id=lab.calorimeter_id))
+        record_run(
+            session,
+            session.get(Person, lab.ids["a1"]),
+            _upload("diss-kcl-01", toml=without_heat_capacity(toml), calorimeter_id=lab.calorimeter_id),
+        )
     assert err.value.field == "calorimeter.heat_capacity"
     assert "no heat capacity yet" in err.value.message
     assert _counts(session) == before
@@ -137,8 +143,9 @@ def test_reanalysing_a_calibration_replaces_its_value_in_the_pool(session: Any, 
     newer = record_run(session, tech, _upload("cal-mixing-01", calorimeter_id=lab.calorimeter_id))
 
     def measured() -> dict[int, Calibration]:
-        rows = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == lab.calorimeter_id,
-                                                            Calibration.pool.is_(None))).all()
+        rows = session.scalars(
+            sa.select(Calibration).where(Calibration.calorimeter_id == lab.calorimeter_id, Calibration.pool.is_(None))
+        ).all()
         return {c.result.run_id: c for c in rows if c.status == "approved"}
 
     first = measured()
@@ -195,9 +202,11 @@ def test_calorimeters_due_lists_the_stale_and_the_uncalibrated(session: Any, lab
 
     due = calorimeters_due(session, max_age_days=30)
     assert [c.id for c, _ in due] == [lab.calorimeter_id]  # never calibrated; the spare is fresh
-    later = dt.datetime.now(dt.timezone.utc).replace(tzinfo=None) + dt.timedelta(days=31)
+    later = dt.datetime.now(dt.UTC).replace(tzinfo=None) + dt.timedelta(days=31)
     assert {c.id for c, _ in calorimeters_due(session, max_age_days=30, now=later)} == {
-        lab.calorimeter_id, lab.spare_calorimeter_id}
+        lab.calorimeter_id,
+        lab.spare_calorimeter_id,
+    }
     assert session.get(Calorimeter, lab.spare_calorimeter_id) is not None
 
 
@@ -207,8 +216,9 @@ def test_analysis_of_reproduces_the_stored_result(session: Any, lab: Any) -> Non
     tech = session.get(Person, lab.ids["tech"])
     record_run(session, tech, _upload("cal-electrical-01", calorimeter_id=lab.calorimeter_id))
     toml, _ = demo_files("neut-hcl-naoh-01")
-    run = record_run(session, tech, _upload("neut-hcl-naoh-01", toml=without_heat_capacity(toml),
-                                            calorimeter_id=lab.calorimeter_id))
+    run = record_run(
+        session, tech, _upload("neut-hcl-naoh-01", toml=without_heat_capacity(toml), calorimeter_id=lab.calorimeter_id)
+    )
     second = reanalyse_run(session, tech, run, AnalysisOptions(method="equal-area", after=(300.0, 600.0)))
     for result in run.results:
         a = analysis_of(run, result)

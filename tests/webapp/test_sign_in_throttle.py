@@ -8,15 +8,16 @@ from typing import Any
 
 import pytest
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import PASSWORD
+from tests.webapp.conftest import PASSWORD, csrf_token
 
 
 def _try(client: Any, email: str, password: str, address: str = "203.0.113.7") -> Any:
     page = client.get("/auth/login")
-    return client.post("/auth/login", data={"email": email, "password": password,
-                                            "csrf_token": csrf_token(page.get_data(as_text=True))},
-                       environ_base={"REMOTE_ADDR": address})
+    return client.post(
+        "/auth/login",
+        data={"email": email, "password": password, "csrf_token": csrf_token(page.get_data(as_text=True))},
+        environ_base={"REMOTE_ADDR": address},
+    )
 
 
 class Clock:
@@ -36,8 +37,9 @@ def clock(monkeypatch: pytest.MonkeyPatch) -> Clock:
     return c
 
 
-def test_wrong_passwords_make_the_account_wait_even_for_the_right_one(client: Any, lab: Any, clock: Clock,
-                                                                      caplog: pytest.LogCaptureFixture) -> None:
+def test_wrong_passwords_make_the_account_wait_even_for_the_right_one(
+    client: Any, lab: Any, clock: Clock, caplog: pytest.LogCaptureFixture
+) -> None:
     with caplog.at_level(logging.WARNING, logger="cupcal.sign_in"):
         for _ in range(5):
             assert _try(client, "a1@lab.example", "wrong").status_code == 400

@@ -8,11 +8,8 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token
-from tests.webapp.conftest import sign_in
-from tests.webapp.conftest import upload
-from webapp.models import ApiToken
-from webapp.models import Person
+from tests.webapp.conftest import csrf_token, sign_in, upload
+from webapp.models import ApiToken, Person
 from webapp.services.tokens import issue_scoped_token
 
 

@@ -12,54 +12,49 @@ forms as read by inet_aton (POSIX; common practice, no source).
 from __future__ import annotations
 
 import threading
-from http.server import BaseHTTPRequestHandler
-from http.server import ThreadingHTTPServer
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
 import pytest
 
 from webapp.services.errors import Invalid
-from webapp.services.webhook_guard import Guard
-from webapp.services.webhook_guard import check_url
-from webapp.services.webhook_guard import literal_address
-from webapp.services.webhook_guard import post
-from webapp.services.webhook_guard import refusal
+from webapp.services.webhook_guard import Guard, check_url, literal_address, post, refusal
 
 REFUSED_HOSTS = [
-    "127.0.0.1",            # loopback
-    "127.1",                # short form of 127.0.0.1
-    "2130706433",           # decimal 127.0.0.1
-    "0x7f000001",           # hex 127.0.0.1
-    "0x7f.0.0.1",           # hex first part
-    "0177.0.0.1",           # octal 127.0.0.1
-    "017700000001",         # octal whole number
-    "0",                    # 0.0.0.0, unspecified
+    "127.0.0.1",  # loopback
+    "127.1",  # short form of 127.0.0.1
+    "2130706433",  # decimal 127.0.0.1
+    "0x7f000001",  # hex 127.0.0.1
+    "0x7f.0.0.1",  # hex first part
+    "0177.0.0.1",  # octal 127.0.0.1
+    "017700000001",  # octal whole number
+    "0",  # 0.0.0.0, unspecified
     "0.0.0.0",
-    "10.0.0.1",             # private
+    "10.0.0.1",  # private
     "172.16.5.4",
     "192.168.1.1",
-    "169.254.169.254",      # link-local (cloud metadata)
-    "2852039166",           # decimal 169.254.169.254
-    "100.64.0.1",           # shared address space (RFC 6598)
-    "224.0.0.1",            # multicast
+    "169.254.169.254",  # link-local (cloud metadata)
+    "2852039166",  # decimal 169.254.169.254
+    "100.64.0.1",  # shared address space (RFC 6598)
+    "224.0.0.1",  # multicast
     "239.255.255.250",
-    "240.0.0.1",            # reserved
-    "255.255.255.255",      # broadcast
-    "192.0.2.10",           # documentation
-    "[::1]",                # IPv6 loopback
-    "[::]",                 # IPv6 unspecified
-    "[0:0:0:0:0:0:0:1]",    # long form of ::1
-    "[::ffff:127.0.0.1]",   # IPv4-mapped loopback
-    "[::ffff:7f00:1]",      # the same in hex
+    "240.0.0.1",  # reserved
+    "255.255.255.255",  # broadcast
+    "192.0.2.10",  # documentation
+    "[::1]",  # IPv6 loopback
+    "[::]",  # IPv6 unspecified
+    "[0:0:0:0:0:0:0:1]",  # long form of ::1
+    "[::ffff:127.0.0.1]",  # IPv4-mapped loopback
+    "[::ffff:7f00:1]",  # the same in hex
     "[::ffff:169.254.169.254]",
-    "[fe80::1]",            # IPv6 link-local
-    "[fe80::1%25eth0]",     # with a zone
-    "[fc00::1]",            # unique local
+    "[fe80::1]",  # IPv6 link-local
+    "[fe80::1%25eth0]",  # with a zone
+    "[fc00::1]",  # unique local
     "[fd12:3456::1]",
-    "[ff02::1]",            # IPv6 multicast
-    "[2002:7f00:1::]",      # 6to4 of 127.0.0.1
+    "[ff02::1]",  # IPv6 multicast
+    "[2002:7f00:1::]",  # 6to4 of 127.0.0.1
     "[64:ff9b::a9fe:a9fe]",  # NAT64 of 169.254.169.254
-    "[2001:db8::1]",        # documentation
+    "[2001:db8::1]",  # documentation
     "localhost",
     "LOCALHOST.",
     "api.localhost",
@@ -91,8 +86,13 @@ def test_public_addresses_and_names_pass_the_url_check(host: str) -> None:
 def test_production_requires_https_and_urls_carry_no_credentials() -> None:
     with pytest.raises(Invalid):
         check_url("http://hooks.example.org/x", Guard(require_https=True))
-    for bad in ("ftp://hooks.example.org/x", "https://user:pw@hooks.example.org/x", "https:///x",
-                "https://hooks.example.org:99999/x", "javascript:alert(1)"):
+    for bad in (
+        "ftp://hooks.example.org/x",
+        "https://user:pw@hooks.example.org/x",
+        "https:///x",
+        "https://hooks.example.org:99999/x",
+        "javascript:alert(1)",
+    ):
         with pytest.raises(Invalid):
             check_url(bad, Guard())
 
@@ -166,8 +166,7 @@ def test_a_slow_receiver_times_out() -> None:
     listener.listen(1)  # accepts the connection, never answers
     try:
         with pytest.raises(OSError):
-            post(f"http://127.0.0.1:{listener.getsockname()[1]}/x", b"{}", {}, Guard(allow_private=True),
-                 timeout=0.5)
+            post(f"http://127.0.0.1:{listener.getsockname()[1]}/x", b"{}", {}, Guard(allow_private=True), timeout=0.5)
     finally:
         listener.close()
 
@@ -179,5 +178,7 @@ def test_the_api_refuses_a_local_webhook_and_requires_https_in_production(client
     app.config["CUPCAL_HTTPS"] = True
     r = client.post("/api/webhooks", json={"url": "http://hooks.example.org/x"}, headers=lab.auth("coord"))
     assert r.status_code == 400 and "https://" in r.get_json()["error"]
-    assert client.post("/api/webhooks", json={"url": "https://hooks.example.org/x"},
-                       headers=lab.auth("coord")).status_code == 201
+    assert (
+        client.post("/api/webhooks", json={"url": "https://hooks.example.org/x"}, headers=lab.auth("coord")).status_code
+        == 201
+    )

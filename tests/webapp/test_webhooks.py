@@ -8,8 +8,7 @@ import hmac
 import json
 import threading
 from collections.abc import Iterator
-from http.server import BaseHTTPRequestHandler
-from http.server import ThreadingHTTPServer
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
 import pytest
@@ -17,9 +16,8 @@ from click.testing import CliRunner
 
 from tests.webapp.conftest import upload
 from webapp.models import WebhookDelivery
-from webapp.services.webhooks import backoff
 from webapp.services.webhook_guard import Guard
-from webapp.services.webhooks import deliver_due
+from webapp.services.webhooks import backoff, deliver_due
 
 #: these tests use a receiver on 127.0.0.1, which the notebook refuses unless told it is a test
 LOCAL = Guard(allow_private=True)
@@ -65,8 +63,9 @@ def receiver() -> Iterator[Receiver]:
         rec.server.server_close()
 
 
-def test_locking_a_run_posts_a_signed_event_retried_with_backoff(client: Any, lab: Any, session: Any,
-                                                                  receiver: Receiver) -> None:
+def test_locking_a_run_posts_a_signed_event_retried_with_backoff(
+    client: Any, lab: Any, session: Any, receiver: Receiver
+) -> None:
     r = client.post("/api/webhooks", json={"url": receiver.url}, headers=lab.auth("coord"))
     assert r.status_code == 201
     hook = r.get_json()
@@ -117,14 +116,17 @@ def test_backoff_doubles_and_gives_up(client: Any, lab: Any, session: Any) -> No
 
 def test_only_coordinators_manage_webhooks(client: Any, lab: Any) -> None:
     for who in ("tech", "a1"):
-        assert client.post("/api/webhooks", json={"url": "http://127.0.0.1/x"}, headers=lab.auth(who)).status_code == 403
+        assert (
+            client.post("/api/webhooks", json={"url": "http://127.0.0.1/x"}, headers=lab.auth(who)).status_code == 403
+        )
         assert client.get("/api/webhooks", headers=lab.auth(who)).status_code == 403
     r = client.post("/api/webhooks", json={"url": "ftp://example.org/x"}, headers=lab.auth("coord"))
     assert r.status_code == 400 and r.get_json()["field"] == "url"
 
 
-def test_deliver_command(client: Any, lab: Any, receiver: Receiver, database_url: str,
-                         monkeypatch: pytest.MonkeyPatch) -> None:
+def test_deliver_command(
+    client: Any, lab: Any, receiver: Receiver, database_url: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
     from webapp.webhook_commands import webhooks
 
     client.post("/api/webhooks", json={"url": receiver.url}, headers=lab.auth("coord"))

@@ -8,14 +8,16 @@ at ``/api/openapi.json``.
 
 from __future__ import annotations
 
+from webapp.api import (
+    calorimeters,  # noqa: F401  (registers the routes)
+    classes,  # noqa: F401
+    eln,  # noqa: F401
+    exchange,  # noqa: F401
+    live,  # noqa: F401
+    openapi,  # noqa: F401
+    review,  # noqa: F401
+    runs,  # noqa: F401
+)
 from webapp.api.blueprint import bp
-from webapp.api import calorimeters  # noqa: F401  (registers the routes)
-from webapp.api import classes  # noqa: F401
-from webapp.api import openapi  # noqa: F401
-from webapp.api import runs  # noqa: F401
-from webapp.api import exchange  # noqa: F401
-from webapp.api import eln  # noqa: F401
-from webapp.api import review  # noqa: F401
-from webapp.api import live  # noqa: F401
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import g
-from flask import request
+from flask import Blueprint, g, request
 from flask_login import current_user
 
 from webapp.db import get_session
@@ -17,8 +15,9 @@ bp = Blueprint("api", __name__, url_prefix="/api")
 _PUBLIC = {"api.openapi"}
 _SAFE = {"GET", "HEAD", "OPTIONS"}
 #: the endpoints a token with the scope "live" may call (webapp/api/live.py), and nothing else
-LIVE_ENDPOINTS = frozenset({"api.create_live_run", "api.live_readings", "api.get_live_run",
-                            "api.finish_live_run", "api.live_target"})
+LIVE_ENDPOINTS = frozenset(
+    {"api.create_live_run", "api.live_readings", "api.get_live_run", "api.finish_live_run", "api.live_target"}
+)
 
 
 @bp.before_request
@@ -36,8 +35,11 @@ def _authenticate():  # type: ignore[no-untyped-def]
             return _challenge("the API token is unknown or revoked")
         if token.scope == "live":
             if request.endpoint not in LIVE_ENDPOINTS:
-                raise Forbidden("this API token may only record live runs (scope 'live'); use a 'read' or "
-                                "'write' token for anything else", field="scope")
+                raise Forbidden(
+                    "this API token may only record live runs (scope 'live'); use a 'read' or "
+                    "'write' token for anything else",
+                    field="scope",
+                )
         elif request.method not in _SAFE and token.scope != "write":
             raise Forbidden("this API token is read-only; make a token with the scope 'write'")
         g.api_person = token.person

@@ -2,36 +2,24 @@
 
 from __future__ import annotations
 
-from flask import jsonify
-from flask import request
-from flask import url_for
+from flask import jsonify, request, url_for
 
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import coordinators_only
-from webapp.api.params import expected_version
-from webapp.api.params import json_object
-from webapp.api.params import page_args
-from webapp.api.schemas import calibration_json
-from webapp.api.schemas import calorimeter_json
-from webapp.api.schemas import course_json
-from webapp.api.schemas import group_json
-from webapp.api.schemas import page_json
+from webapp.api.params import actor, as_int, as_text, coordinators_only, expected_version, json_object, page_args
+from webapp.api.schemas import calibration_json, calorimeter_json, course_json, group_json, page_json
 from webapp.db import get_session
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.calorimeters import create_calorimeter
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import enter_heat_capacity
-from webapp.services.calorimeters import get_calorimeter
-from webapp.services.calorimeters import update_calorimeter
-from webapp.services.classes import courses_query
-from webapp.services.classes import groups_query
+from webapp.services.calorimeters import (
+    calibration_history,
+    calorimeters_query,
+    create_calorimeter,
+    current_calibration,
+    enter_heat_capacity,
+    get_calorimeter,
+    update_calorimeter,
+)
+from webapp.services.classes import courses_query, groups_query
 from webapp.services.control import set_interval
-from webapp.services.people import create_course
-from webapp.services.people import create_group
+from webapp.services.people import create_course, create_group
 from webapp.services.runs import paginate
 
 
@@ -67,8 +55,10 @@ def create_calorimeter_route():  # type: ignore[no-untyped-def]
         vessel_type=as_text(data.get("vessel_type"), "vessel_type") or None,
         measured_on=as_text(data.get("measured_on"), "measured_on") or None,
     )
-    return _created(calorimeter_json(cal, current_calibration(session, cal.id)),
-                    url_for("api.get_calorimeter", calorimeter_id=cal.id))
+    return _created(
+        calorimeter_json(cal, current_calibration(session, cal.id)),
+        url_for("api.get_calorimeter", calorimeter_id=cal.id),
+    )
 
 
 @bp.get("/calorimeters/<int:calorimeter_id>", endpoint="get_calorimeter")
@@ -97,8 +87,9 @@ def patch_calorimeter(calorimeter_id: int):  # type: ignore[no-untyped-def]
     interval_given = "calibration_interval_days" in changes
     # checked before anything is stored (null: the notebook's default interval)
     days = as_int(changes.pop("calibration_interval_days", None), "calibration_interval_days", low=1, high=3650)
-    cal = update_calorimeter(session, actor(), get_calorimeter(session, calorimeter_id), changes, version,
-                             commit=not interval_given)
+    cal = update_calorimeter(
+        session, actor(), get_calorimeter(session, calorimeter_id), changes, version, commit=not interval_given
+    )
     if interval_given:
         set_interval(session, actor(), cal, days)
     response = jsonify(calorimeter_json(cal, current_calibration(session, cal.id)))
@@ -127,11 +118,16 @@ def enter_calibration(calorimeter_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     data = json_object()
     cal = get_calorimeter(session, calorimeter_id)
-    entry = enter_heat_capacity(session, actor(), cal,
-                                as_text(data.get("heat_capacity"), "heat_capacity", required=True) or "",
-                                as_text(data.get("measured_on"), "measured_on"),
-                                as_text(data.get("note"), "note") or "",
-                                confirm=_flag(data, "confirm"), restart=_flag(data, "restart"))
+    entry = enter_heat_capacity(
+        session,
+        actor(),
+        cal,
+        as_text(data.get("heat_capacity"), "heat_capacity", required=True) or "",
+        as_text(data.get("measured_on"), "measured_on"),
+        as_text(data.get("note"), "note") or "",
+        confirm=_flag(data, "confirm"),
+        restart=_flag(data, "restart"),
+    )
     return _created(calibration_json(entry), url_for("api.get_calorimeter", calorimeter_id=cal.id))
 
 
@@ -150,16 +146,16 @@ def approve_calibration_route(calibration_id: int):  # type: ignore[no-untyped-d
     from webapp.services.calibrations import approve_calibration
 
     data = dict(json_object()) if request.data else {}
-    cal = approve_calibration(get_session(), actor(), calibration_id, confirm=_flag(data, "confirm"),
-                              restart=_flag(data, "restart"))
+    cal = approve_calibration(
+        get_session(), actor(), calibration_id, confirm=_flag(data, "confirm"), restart=_flag(data, "restart")
+    )
     return jsonify(calibration_json(cal))
 
 
 @bp.post("/calibrations/<int:calibration_id>/withdraw")
 def withdraw_calibration_route(calibration_id: int):  # type: ignore[no-untyped-def]
     """Withdraw a calibration (staff, with a ``reason``); answers with the runs that used it."""
-    from webapp.services.calibrations import runs_using
-    from webapp.services.calibrations import withdraw_calibration
+    from webapp.services.calibrations import runs_using, withdraw_calibration
 
     session = get_session()
     data = json_object()
@@ -170,15 +166,19 @@ def withdraw_calibration_route(calibration_id: int):  # type: ignore[no-untyped-
 @bp.get("/calibrations/<int:calibration_id>/runs")
 def calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
     """List the runs whose C_cal came from this calibration (or a pooled value that held it)."""
-    from webapp.services.calibrations import get_calibration
-    from webapp.services.calibrations import runs_using
     from webapp.services.access import can_view_run
+    from webapp.services.calibrations import get_calibration, runs_using
 
     session = get_session()
     cal = get_calibration(session, calibration_id)
     runs = [r for r in runs_using(session, cal) if can_view_run(actor(), r)]
-    return jsonify({"items": [{"id": r.id, "title": r.title, "locked": r.locked, "calibration_id": r.calibration_id}
-                              for r in runs]})
+    return jsonify(
+        {
+            "items": [
+                {"id": r.id, "title": r.title, "locked": r.locked, "calibration_id": r.calibration_id} for r in runs
+            ]
+        }
+    )
 
 
 @bp.post("/calibrations/<int:calibration_id>/reanalyse-runs")
@@ -187,9 +187,14 @@ def reanalyse_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-
     from webapp.services.calibrations import reanalyse_runs_using
 
     done = reanalyse_runs_using(get_session(), actor(), calibration_id)
-    return jsonify({"calibration": calibration_json(done.calibration) if done.calibration else None,
-                    "reanalysed": done.reanalysed, "locked": done.locked,
-                    "failed": [{"run_id": i, "error": m} for i, m in done.failed]})
+    return jsonify(
+        {
+            "calibration": calibration_json(done.calibration) if done.calibration else None,
+            "reanalysed": done.reanalysed,
+            "locked": done.locked,
+            "failed": [{"run_id": i, "error": m} for i, m in done.failed],
+        }
+    )
 
 
 @bp.get("/groups")
@@ -204,8 +209,12 @@ def list_groups():  # type: ignore[no-untyped-def]
 def create_group_route():  # type: ignore[no-untyped-def]
     """Add a group (coordinators)."""
     data = json_object()
-    group = create_group(get_session(), actor(), name=as_text(data.get("name"), "name", required=True) or "",
-                         course_id=as_int(data.get("course_id"), "course_id"))
+    group = create_group(
+        get_session(),
+        actor(),
+        name=as_text(data.get("name"), "name", required=True) or "",
+        course_id=as_int(data.get("course_id"), "course_id"),
+    )
     return _created(group_json(group), url_for("api.list_groups"))
 
 
@@ -221,6 +230,10 @@ def list_courses():  # type: ignore[no-untyped-def]
 def create_course_route():  # type: ignore[no-untyped-def]
     """Add a course (coordinators)."""
     data = json_object()
-    course = create_course(get_session(), actor(), name=as_text(data.get("name"), "name", required=True) or "",
-                           term=as_text(data.get("term"), "term") or "")
+    course = create_course(
+        get_session(),
+        actor(),
+        name=as_text(data.get("name"), "name", required=True) or "",
+        term=as_text(data.get("term"), "term") or "",
+    )
     return _created(course_json(course), url_for("api.list_courses"))

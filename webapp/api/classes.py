@@ -5,37 +5,20 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
-from flask import current_app
-from flask import jsonify
-from flask import request
-from flask import url_for
+from flask import current_app, jsonify, request, url_for
 
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import coordinators_only
-from webapp.api.params import json_object
+from webapp.api.params import actor, as_int, as_text, coordinators_only, json_object
 from webapp.db import get_session
 from webapp.imports.views import IMPORT_MAX_UPLOAD_BYTES
-from webapp.models import Bench
-from webapp.models import Section
-from webapp.services.classes import create_bench
-from webapp.services.classes import create_section
-from webapp.services.classes import get_section
-from webapp.services.classes import import_roster
-from webapp.services.classes import visible_sections
-from webapp.services.control import control_json
-from webapp.services.control import control_view
-from webapp.services.dashboard import Dashboard
-from webapp.services.dashboard import course_dashboard
+from webapp.models import Bench, Section
+from webapp.services.classes import create_bench, create_section, get_section, import_roster, visible_sections
+from webapp.services.control import control_json, control_view
+from webapp.services.dashboard import Dashboard, course_dashboard
 from webapp.services.dashboard import section_dashboard as section_dashboard_service
 from webapp.services.errors import Invalid
-from webapp.services.imports import files_from_zip
-from webapp.services.imports import import_files
-from webapp.services.series import create_series
-from webapp.services.series import group_series
-from webapp.services.series import series_summary
+from webapp.services.imports import files_from_zip, import_files
+from webapp.services.series import create_series, group_series, series_summary
 
 
 def _created(payload: dict[str, Any], location: str):  # type: ignore[no-untyped-def]
@@ -210,7 +193,6 @@ def plan_route():  # type: ignore[no-untyped-def]
     from calc.cli.plan import plan_record
     from calc.errors import CupcalError
     from calc.plan import plan_run
-
     from webapp.api.params import as_float
 
     data = json_object()
@@ -244,12 +226,12 @@ def plan_route():  # type: ignore[no-untyped-def]
 
 # ----------------------------------------------------------------- OpenAPI document of these routes
 
-from webapp.api.openapi import register  # noqa: E402
-from webapp.api.openapi import request_body as _body  # noqa: E402
-from webapp.api.openapi import path_param as _id  # noqa: E402
 from webapp.api.openapi import json_response as _json  # noqa: E402
 from webapp.api.openapi import list_of as _list_of  # noqa: E402
 from webapp.api.openapi import operation as _op  # noqa: E402
+from webapp.api.openapi import path_param as _id  # noqa: E402
+from webapp.api.openapi import register  # noqa: E402
+from webapp.api.openapi import request_body as _body  # noqa: E402
 from webapp.api.openapi import schema_ref as _ref  # noqa: E402
 
 _OBJ = {"type": "object"}

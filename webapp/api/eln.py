@@ -6,10 +6,7 @@ A run's archive and a selection's are ``/api/runs/<id>/export/eln`` and
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import jsonify
-from flask import request
+from flask import Response, current_app, jsonify, request
 
 from webapp.api.blueprint import bp
 from webapp.api.params import actor
@@ -67,6 +64,7 @@ def import_eln_route():  # type: ignore[no-untyped-def]
     request.max_content_length = int(current_app.config.get("IMPORT_MAX_UPLOAD_BYTES", IMPORT_MAX_UPLOAD_BYTES))
     require_staff(actor(), "import archives")
     name, data = uploaded_archive()
-    report = import_eln(get_session(), actor(), data, source=name,
-                        password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"))
+    report = import_eln(
+        get_session(), actor(), data, source=name, password_method=current_app.config.get("PASSWORD_METHOD", "scrypt")
+    )
     return jsonify(report.as_dict())

@@ -5,38 +5,26 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
-from flask import Response
-from flask import current_app
+from flask import Response, current_app, jsonify, request, url_for
 
-from flask import jsonify
-from flask import request
-from flask import url_for
-
-from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import coordinators_only
-from webapp.api.params import json_object
 from webapp.api import exchange_openapi  # noqa: F401  (documents these routes)
-from webapp.api.schemas import iso
-from webapp.api.schemas import run_json
+from webapp.api.blueprint import bp
+from webapp.api.params import actor, as_int, as_text, coordinators_only, json_object
+from webapp.api.schemas import iso, run_json
 from webapp.db import get_session
 from webapp.embed import links
-from webapp.exports.document import export_json
-from webapp.exports.document import selected_runs
-from webapp.exports.results_csv import export_csv
-from webapp.exports.report import report_html, report_pdf
-from webapp.services import webhooks
-from webapp.services.webhook_guard import guard_from_config
-from webapp.services.errors import Invalid
-from webapp.services.errors import TooLarge
-from webapp.models import MAX_ID
-from webapp.services.package_import import import_package
 from webapp.exports.bundle import export_selection_zip
+from webapp.exports.document import export_json, selected_runs
+from webapp.exports.report import report_html, report_pdf
+from webapp.exports.results_csv import export_csv
 from webapp.exports.rocrate import crate_zip
+from webapp.models import MAX_ID
+from webapp.services import webhooks
+from webapp.services.errors import Invalid, TooLarge
+from webapp.services.package_import import import_package
 from webapp.services.runs import get_run
 from webapp.services.tokens import tokens_of
+from webapp.services.webhook_guard import guard_from_config
 
 EXPORT_FORMATS = ("json", "csv", "html", "pdf", "ro-crate", "eln")
 
@@ -52,8 +40,7 @@ def export_run(run_id: int, fmt: str):  # type: ignore[no-untyped-def]
     """Export a run: json, csv, html (printable report), pdf (the same report), ro-crate (zip) or eln."""
     run = get_run(get_session(), actor(), run_id)
     if fmt == "json":
-        return _download(export_json(get_session(), actor(), run_id), "application/json",
-                         f"cupcal-run-{run.id}.json")
+        return _download(export_json(get_session(), actor(), run_id), "application/json", f"cupcal-run-{run.id}.json")
     if fmt == "csv":
         return _download(export_csv([run]), "text/csv", f"cupcal-run-{run.id}.csv")
     if fmt == "html":
@@ -114,8 +101,7 @@ def import_run_package():  # type: ignore[no-untyped-def]
         data = request.get_data()
     if not data:
         raise Invalid("the request body is empty; send the JSON export or the RO-Crate zip", field="package")
-    run = import_package(get_session(), actor(), data,
-                         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]))
+    run = import_package(get_session(), actor(), data, monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]))
     response = jsonify(run_json(run))
     response.status_code = 201
     response.headers["Location"] = url_for("api.get_run", run_id=run.id)
@@ -128,18 +114,37 @@ def embed_link(run_id: int):  # type: ignore[no-untyped-def]
     run = get_run(get_session(), actor(), run_id)
     token = links.issue(current_app.config["SECRET_KEY"], run.id, actor().id)
     max_age = int(current_app.config["EMBED_LINK_MAX_AGE"])
-    expires = dt.datetime.fromtimestamp(int(links.clock()) + max_age, dt.timezone.utc).replace(tzinfo=None)
+    expires = dt.datetime.fromtimestamp(int(links.clock()) + max_age, dt.UTC).replace(tzinfo=None)
     card = url_for("embed.card", run_id=run.id, link=token, _external=True)
-    return jsonify({"url": card, "expires_at": iso(expires), "max_age": max_age,
-                    "oembed": url_for("embed.oembed", url=card, format="json", _external=True)})
+    return jsonify(
+        {
+            "url": card,
+            "expires_at": iso(expires),
+            "max_age": max_age,
+            "oembed": url_for("embed.oembed", url=card, format="json", _external=True),
+        }
+    )
 
 
 @bp.get("/tokens")
 def list_tokens():  # type: ignore[no-untyped-def]
     """List the caller's API tokens with scope and last use (never the secrets)."""
-    return jsonify({"items": [{"id": t.id, "label": t.label, "prefix": t.prefix, "scope": t.scope,
-                               "created_at": iso(t.created_at), "last_used_at": iso(t.last_used_at),
-                               "revoked_at": iso(t.revoked_at)} for t in tokens_of(get_session(), actor())]})
+    return jsonify(
+        {
+            "items": [
+                {
+                    "id": t.id,
+                    "label": t.label,
+                    "prefix": t.prefix,
+                    "scope": t.scope,
+                    "created_at": iso(t.created_at),
+                    "last_used_at": iso(t.last_used_at),
+                    "revoked_at": iso(t.revoked_at),
+                }
+                for t in tokens_of(get_session(), actor())
+            ]
+        }
+    )
 
 
 def _hook_json(h: Any, secret: str | None = None) -> dict[str, Any]:
@@ -159,9 +164,12 @@ def list_hooks():  # type: ignore[no-untyped-def]
 @coordinators_only("manage webhooks")
 def add_hook():  # type: ignore[no-untyped-def]
     """Add a webhook (coordinators); its signing secret is returned once."""
-    hook, secret = webhooks.add_webhook(get_session(), actor(), as_text(json_object().get("url"), "url",
-                                                                         required=True) or "",
-                                        guard_from_config(current_app.config))
+    hook, secret = webhooks.add_webhook(
+        get_session(),
+        actor(),
+        as_text(json_object().get("url"), "url", required=True) or "",
+        guard_from_config(current_app.config),
+    )
     response = jsonify(_hook_json(hook, secret))
     response.status_code = 201
     return response
@@ -178,7 +186,6 @@ def remove_hook(webhook_id: int):  # type: ignore[no-untyped-def]
 @bp.get("/webhooks/<int:webhook_id>/deliveries")
 def hook_deliveries(webhook_id: int):  # type: ignore[no-untyped-def]
     """Return a webhook's delivery log, newest first (coordinators)."""
-    return jsonify({"items": [webhooks.delivery_json(d)
-                              for d in webhooks.deliveries_of(get_session(), actor(), webhook_id)]})
-
-
+    return jsonify(
+        {"items": [webhooks.delivery_json(d) for d in webhooks.deliveries_of(get_session(), actor(), webhook_id)]}
+    )

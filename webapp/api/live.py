@@ -7,26 +7,17 @@ The recorder creates a live run (idempotent on its client key), posts readings i
 
 from __future__ import annotations
 
-from flask import current_app
-from flask import jsonify
-from flask import url_for
+from flask import current_app, jsonify, url_for
 
 from webapp.api import live_openapi  # noqa: F401  (documents these routes)
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import as_int
-from webapp.api.params import coordinators_only
-from webapp.api.params import json_object
+from webapp.api.params import actor, as_int, coordinators_only, json_object
 from webapp.db import get_session
 from webapp.services.errors import Invalid
-from webapp.services.live import LiveCreate
-from webapp.services.live import add_readings
-from webapp.services.live import create_live_run
-from webapp.services.live import get_live_run
-from webapp.services.live import set_target
+from webapp.services.live import LiveCreate, add_readings, create_live_run, get_live_run, set_target
 from webapp.services.live_finish import finish_live_run
-from webapp.services.live_view import live_json
-from webapp.services.live_view import set_section_target
+from webapp.services.live_view import live_json, set_section_target
+
 
 @bp.post("/live-runs", endpoint="create_live_run")
 def create_live_run_route():  # type: ignore[no-untyped-def]
@@ -37,12 +28,26 @@ def create_live_run_route():  # type: ignore[no-untyped-def]
         if key not in known:
             raise Invalid(f"unknown field; expected: {', '.join(sorted(known))}", field=key)
     session = get_session()
-    live, new = create_live_run(session, actor(), LiveCreate(
-        run_file=data.get("run_file"), client_key=data.get("client_key"), target_u=data.get("target_u"),
-        calorimeter_id=as_int(data.get("calorimeter_id"), "calorimeter_id"),
-        group_id=as_int(data.get("group_id"), "group_id"), bench_id=as_int(data.get("bench_id"), "bench_id")))
-    response = jsonify({"id": live.id, "page_url": url_for("live.page", live_id=live.id), "last_seq": live.last_seq,
-                        "state": live.state})
+    live, new = create_live_run(
+        session,
+        actor(),
+        LiveCreate(
+            run_file=data.get("run_file"),
+            client_key=data.get("client_key"),
+            target_u=data.get("target_u"),
+            calorimeter_id=as_int(data.get("calorimeter_id"), "calorimeter_id"),
+            group_id=as_int(data.get("group_id"), "group_id"),
+            bench_id=as_int(data.get("bench_id"), "bench_id"),
+        ),
+    )
+    response = jsonify(
+        {
+            "id": live.id,
+            "page_url": url_for("live.page", live_id=live.id),
+            "last_seq": live.last_seq,
+            "state": live.state,
+        }
+    )
     response.status_code = 201 if new else 200
     response.headers["Location"] = url_for("api.get_live_run", live_id=live.id)
     return response
@@ -95,5 +100,6 @@ def section_live_target(section_id: int):  # type: ignore[no-untyped-def]
         raise Invalid("missing; expected a positive number or null", field="target_u")
     session = get_session()
     section = get_section(session, actor(), section_id)
-    return jsonify({"section_id": section.id,
-                    "target_u": set_section_target(session, actor(), section, data["target_u"])})
+    return jsonify(
+        {"section_id": section.id, "target_u": set_section_target(session, actor(), section, data["target_u"])}
+    )

@@ -9,10 +9,10 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from calc import __version__
-from calc.io.runfile import CALORIMETER_TYPES
 from flask import jsonify
 
+from calc import __version__
+from calc.io.runfile import CALORIMETER_TYPES
 from webapp.api.blueprint import bp
 
 

@@ -5,23 +5,21 @@ from __future__ import annotations
 import functools
 import math
 from collections.abc import Callable
-from typing import Any
-from typing import TypeVar
+from typing import Any, TypeVar
+
+from flask import current_app, g, request
 
 from calc import limits
 from calc.errors import InputError
 from calc.limits import require_number
-from flask import current_app
-from flask import g
-from flask import request
-
-from webapp.models import MAX_ID
-from webapp.models import Person
+from webapp.models import MAX_ID, Person
 from webapp.services.access import require_coordinator
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import Invalid
-from webapp.services.jsontext import checked_json  # noqa: F401  (used by the views)
-from webapp.services.jsontext import load_json
+from webapp.services.jsontext import (
+    checked_json,  # noqa: F401  (used by the views)
+    load_json,
+)
 
 _View = TypeVar("_View", bound=Callable[..., Any])
 
@@ -43,7 +41,7 @@ def expected_version(data: dict[str, Any] | None = None, *, required: bool = Fal
         if tags == ["*"]:
             return None
         if len(tags) != 1:
-            raise Invalid("expected one version in If-Match, like \"3\"", field="If-Match")
+            raise Invalid('expected one version in If-Match, like "3"', field="If-Match")
         tag = tags[0][2:] if tags[0].startswith("W/") else tags[0]
         version = as_int(tag.strip('"'), "If-Match", low=1, high=2**31 - 1)
     if body_version is not None:
@@ -52,9 +50,11 @@ def expected_version(data: dict[str, Any] | None = None, *, required: bool = Fal
             raise Invalid(f"If-Match names version {version} but the body version {from_body}", field="version")
         version = from_body
     if version is None and required:
-        raise VersionRequired("say which version you change: send the ETag you read as If-Match "
-                              "(or \"version\" in the body); If-Match: * overwrites whatever is stored",
-                              field="If-Match")
+        raise VersionRequired(
+            "say which version you change: send the ETag you read as If-Match "
+            '(or "version" in the body); If-Match: * overwrites whatever is stored',
+            field="If-Match",
+        )
     return version
 
 
@@ -105,8 +105,11 @@ def as_int(value: Any, field: str, *, low: int | None = None, high: int | None =
     if isinstance(value, str):
         text = value.strip()
         if not (text.isascii() and text.lstrip("+-").isdigit()) or len(text) > limits.get("number_digits"):
-            raise Invalid(f"expected a whole number (digits 0-9, at most {limits.get('number_digits'):g}), "
-                          f"got {limits.shorten(repr(value))}", field=field)
+            raise Invalid(
+                f"expected a whole number (digits 0-9, at most {limits.get('number_digits'):g}), "
+                f"got {limits.shorten(repr(value))}",
+                field=field,
+            )
         value = int(text)
     if isinstance(value, float) and math.isfinite(value) and value.is_integer():
         value = int(value)
@@ -159,7 +162,10 @@ def period(data: dict[str, Any], which: str) -> tuple[float, float] | None:
             raise Invalid("expected two times in seconds, like [0, 170]", field=which)
         a, b = as_float(value[0], which), as_float(value[1], which)
     else:
-        a, b = as_float(data.get(f"{which}_start"), f"{which}_start"), as_float(data.get(f"{which}_end"), f"{which}_end")
+        a, b = (
+            as_float(data.get(f"{which}_start"), f"{which}_start"),
+            as_float(data.get(f"{which}_end"), f"{which}_end"),
+        )
         if a is None and b is None:
             return None
     if a is None or b is None:

@@ -7,40 +7,46 @@ from typing import Any
 from flask import jsonify
 
 from webapp.api.blueprint import bp
-from webapp.api.openapi import register
-from webapp.api.openapi import request_body as _body
-from webapp.api.openapi import path_param as _id
 from webapp.api.openapi import json_response as _json
 from webapp.api.openapi import operation as _op
-from webapp.api.params import actor
-from webapp.api.params import as_float
-from webapp.api.params import json_object
+from webapp.api.openapi import path_param as _id
+from webapp.api.openapi import register
+from webapp.api.openapi import request_body as _body
+from webapp.api.params import actor, as_float, json_object
 from webapp.db import get_session
-from webapp.models import Comment
-from webapp.models import RunReview
+from webapp.models import Comment, RunReview
 from webapp.services import comments as comment_service
-from webapp.services.marks import bands_text
-from webapp.services.marks import scheme_of
-from webapp.services.marks import set_mark
-from webapp.services.marks import set_scheme
-from webapp.services.review import ACTIONS
-from webapp.services.review import review_run
-from webapp.services.review import state_of
+from webapp.services.marks import bands_text, scheme_of, set_mark, set_scheme
+from webapp.services.review import ACTIONS, review_run, state_of
 
 
 def comment_json(c: Comment) -> dict[str, Any]:
     """Return a comment as JSON data."""
-    return {"id": c.id, "run_id": c.run_id, "group_id": c.group_id, "author": c.author.name if c.author else None,
-            "body": c.body, "created_at": c.created_at.isoformat() + "Z"}
+    return {
+        "id": c.id,
+        "run_id": c.run_id,
+        "group_id": c.group_id,
+        "author": c.author.name if c.author else None,
+        "body": c.body,
+        "created_at": c.created_at.isoformat() + "Z",
+    }
 
 
 def review_json(run_id: int, review: RunReview | None) -> dict[str, Any]:
     """Return what has been decided on a run as JSON data (the ``review`` of a run's JSON, with its id)."""
     st = state_of(review)
-    return {"run_id": run_id, "withdrawn": st.withdrawn, "withdrawn_reason": st.withdrawn_reason,
-            "excluded": st.excluded, "excluded_reason": st.excluded_reason, "accepted": st.accepted,
-            "accepted_reason": st.accepted_reason, "included_in_statistics": st.included,
-            "mark_points": review.mark_points if review else None, "mark_reason": review.mark_reason if review else ""}
+    return {
+        "run_id": run_id,
+        "withdrawn": st.withdrawn,
+        "withdrawn_reason": st.withdrawn_reason,
+        "excluded": st.excluded,
+        "excluded_reason": st.excluded_reason,
+        "accepted": st.accepted,
+        "accepted_reason": st.accepted_reason,
+        "included_in_statistics": st.included,
+        "mark_points": review.mark_points if review else None,
+        "mark_reason": review.mark_reason if review else "",
+    }
 
 
 @bp.post("/runs/<int:run_id>/review")
@@ -83,10 +89,17 @@ def put_mark(run_id: int):  # type: ignore[no-untyped-def]
 def put_scheme(section_id: int):  # type: ignore[no-untyped-def]
     """Set a section's marking scheme: ``en`` and ``relative`` bands as text ("1=6, 2=3, *=0")."""
     data = json_object()
-    s = set_scheme(get_session(), actor(), section_id, en=str(data.get("en", "")),
-                   relative=str(data.get("relative", "")))
-    return jsonify({"section_id": s.section_id, "bands": s.bands, "en": bands_text(s.bands["en"]),
-                    "relative": bands_text(s.bands["relative"], percent=True)})
+    s = set_scheme(
+        get_session(), actor(), section_id, en=str(data.get("en", "")), relative=str(data.get("relative", ""))
+    )
+    return jsonify(
+        {
+            "section_id": s.section_id,
+            "bands": s.bands,
+            "en": bands_text(s.bands["en"]),
+            "relative": bands_text(s.bands["relative"], percent=True),
+        }
+    )
 
 
 @bp.get("/sections/<int:section_id>/marking-scheme")
@@ -96,32 +109,88 @@ def get_scheme(section_id: int):  # type: ignore[no-untyped-def]
 
     section = get_section(get_session(), actor(), section_id)
     bands, own = scheme_of(get_session(), section.id)
-    return jsonify({"section_id": section.id, "own": own, "bands": bands, "en": bands_text(bands["en"]),
-                    "relative": bands_text(bands["relative"], percent=True)})
+    return jsonify(
+        {
+            "section_id": section.id,
+            "own": own,
+            "bands": bands,
+            "en": bands_text(bands["en"]),
+            "relative": bands_text(bands["relative"], percent=True),
+        }
+    )
 
 
 _RUN = [_id("run_id")]
 _OBJ = {"type": "object"}
-register({
-    "/api/runs/{run_id}/review": {
-        "post": _op("Withdraw, restore, exclude, include, accept or unaccept a run, with a reason (audited)",
-                    _json(_OBJ, "What is now decided on the run"), 400, 401, 403, 404, 409, params=_RUN,
-                    body=_body({"action": {"type": "string", "enum": list(ACTIONS)}, "reason": {"type": "string"}},
-                               ["action", "reason"]))},
-    "/api/runs/{run_id}/comments": {
-        "get": _op("The comments on a run", _json(_OBJ, "The comments"), 401, 404, params=_RUN),
-        "post": _op("Comment on a run (staff)", _json(_OBJ, "The comment"), 400, 401, 403, 404, status="201",
-                    params=_RUN, body=_body({"body": {"type": "string"}}, ["body"]))},
-    "/api/groups/{group_id}/comments": {
-        "post": _op("Comment on a group's work (staff)", _json(_OBJ, "The comment"), 400, 401, 403, 404,
-                    status="201", params=[_id("group_id")], body=_body({"body": {"type": "string"}}, ["body"]))},
-    "/api/runs/{run_id}/mark": {
-        "put": _op("Set a run's mark by hand, or clear it (points null), with a reason (staff)",
-                   _json(_OBJ, "What is now decided on the run"), 400, 401, 403, 404, params=_RUN,
-                   body=_body({"points": {"type": ["number", "null"]}, "reason": {"type": "string"}}, ["reason"]))},
-    "/api/sections/{section_id}/marking-scheme": {
-        "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), 401, 404, params=[_id("section_id")]),
-        "put": _op("Set a section's marking scheme (coordinators)", _json(_OBJ, "The scheme"), 400, 401, 403, 404,
-                   params=[_id("section_id")],
-                   body=_body({"en": {"type": "string"}, "relative": {"type": "string"}}, ["en", "relative"]))},
-})
+register(
+    {
+        "/api/runs/{run_id}/review": {
+            "post": _op(
+                "Withdraw, restore, exclude, include, accept or unaccept a run, with a reason (audited)",
+                _json(_OBJ, "What is now decided on the run"),
+                400,
+                401,
+                403,
+                404,
+                409,
+                params=_RUN,
+                body=_body(
+                    {"action": {"type": "string", "enum": list(ACTIONS)}, "reason": {"type": "string"}},
+                    ["action", "reason"],
+                ),
+            )
+        },
+        "/api/runs/{run_id}/comments": {
+            "get": _op("The comments on a run", _json(_OBJ, "The comments"), 401, 404, params=_RUN),
+            "post": _op(
+                "Comment on a run (staff)",
+                _json(_OBJ, "The comment"),
+                400,
+                401,
+                403,
+                404,
+                status="201",
+                params=_RUN,
+                body=_body({"body": {"type": "string"}}, ["body"]),
+            ),
+        },
+        "/api/groups/{group_id}/comments": {
+            "post": _op(
+                "Comment on a group's work (staff)",
+                _json(_OBJ, "The comment"),
+                400,
+                401,
+                403,
+                404,
+                status="201",
+                params=[_id("group_id")],
+                body=_body({"body": {"type": "string"}}, ["body"]),
+            )
+        },
+        "/api/runs/{run_id}/mark": {
+            "put": _op(
+                "Set a run's mark by hand, or clear it (points null), with a reason (staff)",
+                _json(_OBJ, "What is now decided on the run"),
+                400,
+                401,
+                403,
+                404,
+                params=_RUN,
+                body=_body({"points": {"type": ["number", "null"]}, "reason": {"type": "string"}}, ["reason"]),
+            )
+        },
+        "/api/sections/{section_id}/marking-scheme": {
+            "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), 401, 404, params=[_id("section_id")]),
+            "put": _op(
+                "Set a section's marking scheme (coordinators)",
+                _json(_OBJ, "The scheme"),
+                400,
+                401,
+                403,
+                404,
+                params=[_id("section_id")],
+                body=_body({"en": {"type": "string"}, "relative": {"type": "string"}}, ["en", "relative"]),
+            ),
+        },
+    }
+)

@@ -4,43 +4,29 @@ from __future__ import annotations
 
 from typing import Any
 
+from flask import Response, jsonify, request, url_for
+
 from calc.deltat.base import DEFAULT_METHOD
 from calc.deltat.registry import METHODS
-from flask import Response
-from flask import jsonify
-from flask import request
-from flask import url_for
-
 from webapp.api.blueprint import bp
-from webapp.api.params import actor
-from webapp.api.params import analysis_options
-from webapp.api.params import as_int
-from webapp.api.params import as_text
-from webapp.api.params import body
-from webapp.api.params import expected_version
-from webapp.api.params import json_object
-from webapp.api.params import page_args
-from webapp.api.schemas import page_json
-from webapp.api.schemas import person_json
-from webapp.api.schemas import result_json
-from webapp.api.schemas import result_summary
-from webapp.api.schemas import run_json
-from webapp.api.schemas import run_summary
+from webapp.api.params import actor, analysis_options, as_int, as_text, body, expected_version, json_object, page_args
+from webapp.api.schemas import page_json, person_json, result_json, result_summary, run_json, run_summary
 from webapp.db import get_session
 from webapp.quantities import series
-from webapp.services.audit import audit_trail
-from webapp.services.audit import entry_as_dict
+from webapp.services.audit import audit_trail, entry_as_dict
 from webapp.services.errors import Invalid
-from webapp.services.runs import RunUpload
-from webapp.services.runs import get_result
-from webapp.services.runs import get_run
-from webapp.services.runs import lock_run
-from webapp.services.runs import paginate
-from webapp.services.runs import reanalyse_run
-from webapp.services.runs import record_run
-from webapp.services.runs import results_query
-from webapp.services.runs import runs_query
-from webapp.services.runs import update_run
+from webapp.services.runs import (
+    RunUpload,
+    get_result,
+    get_run,
+    lock_run,
+    paginate,
+    reanalyse_run,
+    record_run,
+    results_query,
+    runs_query,
+    update_run,
+)
 
 
 @bp.get("/me")
@@ -52,8 +38,14 @@ def me():  # type: ignore[no-untyped-def]
 @bp.get("/methods")
 def methods():  # type: ignore[no-untyped-def]
     """Return the corrected-ΔT methods."""
-    items = [{"name": name, "description": (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "",
-              "default": name == DEFAULT_METHOD} for name, fn in sorted(METHODS.items())]
+    items = [
+        {
+            "name": name,
+            "description": (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "",
+            "default": name == DEFAULT_METHOD,
+        }
+        for name, fn in sorted(METHODS.items())
+    ]
     return jsonify({"items": items})
 
 
@@ -91,8 +83,9 @@ def _upload_from_request() -> RunUpload:
         try:
             run_toml = run_file.read().decode("utf-8")
         except UnicodeDecodeError as exc:
-            raise Invalid(f"{run_name}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
-                          field="run_file") from None
+            raise Invalid(
+                f"{run_name}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
+            ) from None
         readings = readings_file.read()
     if not run_toml or not run_toml.strip():
         raise Invalid("the run file is empty", field="run_file")

@@ -5,19 +5,11 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any
 
-from calc.refdata.comparison import verdict
-from calc.refdata.comparison import verdict_record
 from flask import url_for
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Course
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.quantities import RESULT_OUTPUTS
-from webapp.quantities import result_value
+from calc.refdata.comparison import verdict, verdict_record
+from webapp.models import Calibration, Calorimeter, Course, Group, Person, Result, Run
+from webapp.quantities import RESULT_OUTPUTS, result_value
 from webapp.services.runs import Page
 
 
@@ -33,8 +25,13 @@ def person_ref(p: Person | None) -> dict[str, Any] | None:
 
 def person_json(p: Person) -> dict[str, Any]:
     """Return the signed-in person."""
-    return {"id": p.id, "name": p.name, "email": p.email, "role": p.role,
-            "group": {"id": p.group.id, "name": p.group.name} if p.group else None}
+    return {
+        "id": p.id,
+        "name": p.name,
+        "email": p.email,
+        "role": p.role,
+        "group": {"id": p.group.id, "name": p.group.name} if p.group else None,
+    }
 
 
 def group_json(g: Group) -> dict[str, Any]:
@@ -52,8 +49,7 @@ def calibration_json(c: Calibration) -> dict[str, Any]:
     return {
         "id": c.id,
         "calorimeter_id": c.calorimeter_id,
-        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std,
-                          "unit": "J/K"},
+        "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std, "unit": "J/K"},
         "taken_at": iso(c.taken_at),
         "result_id": c.result_id,
         "run_id": c.result.run_id if c.result is not None else None,
@@ -117,8 +113,12 @@ def result_json(r: Result) -> dict[str, Any]:
         "periods": {
             "fore": [r.fore_start_s, r.fore_end_s],
             "after": [r.after_start_s, r.after_end_s],
-            "mixing_time": {"value": r.mixing_time_s, "standard_uncertainty": r.mixing_time_s_std, "unit": "s",
-                            "detected": r.mixing_time_detected},
+            "mixing_time": {
+                "value": r.mixing_time_s,
+                "standard_uncertainty": r.mixing_time_s_std,
+                "unit": "s",
+                "detected": r.mixing_time_detected,
+            },
             "given": r.periods_given,
         },
         "budget": r.budget,
@@ -170,8 +170,14 @@ def run_json(run: Run) -> dict[str, Any]:
         "locked_result_id": run.locked_result_id,
         "locked_hash": run.locked_hash,
         "inputs": [
-            {"field": i.field, "value": i.value, "standard_uncertainty": i.std_uncertainty, "unit": i.unit,
-             "text": i.text, "origin": i.origin}
+            {
+                "field": i.field,
+                "value": i.value,
+                "standard_uncertainty": i.std_uncertainty,
+                "unit": i.unit,
+                "text": i.text,
+                "origin": i.origin,
+            }
             for i in run.inputs
         ],
         "results": [result_summary(r) for r in run.results],
@@ -182,14 +188,19 @@ def run_json(run: Run) -> dict[str, Any]:
 def review_summary(run: Run) -> dict[str, Any]:
     """Return what has been decided on a run: withdrawn, excluded, accepted (with reasons), a mark by hand."""
     rv = run.review
-    return {"withdrawn": bool(rv and rv.withdrawn), "withdrawn_reason": rv.withdrawn_reason if rv else "",
-            "excluded": bool(rv and rv.excluded), "excluded_reason": rv.excluded_reason if rv else "",
-            "accepted": bool(rv and rv.accepted), "accepted_reason": rv.accepted_reason if rv else "",
-            "included_in_statistics": not (rv and (rv.withdrawn or rv.excluded)),
-            "mark_points": rv.mark_points if rv else None, "mark_reason": rv.mark_reason if rv else ""}
+    return {
+        "withdrawn": bool(rv and rv.withdrawn),
+        "withdrawn_reason": rv.withdrawn_reason if rv else "",
+        "excluded": bool(rv and rv.excluded),
+        "excluded_reason": rv.excluded_reason if rv else "",
+        "accepted": bool(rv and rv.accepted),
+        "accepted_reason": rv.accepted_reason if rv else "",
+        "included_in_statistics": not (rv and (rv.withdrawn or rv.excluded)),
+        "mark_points": rv.mark_points if rv else None,
+        "mark_reason": rv.mark_reason if rv else "",
+    }
 
 
 def page_json(page: Page[Any], items: list[Any]) -> dict[str, Any]:
     """Return a page of items with its position."""
-    return {"items": items, "page": page.page, "per_page": page.per_page, "total": page.total,
-            "pages": page.pages}
+    return {"items": items, "page": page.page, "per_page": page.per_page, "total": page.total, "pages": page.pages}

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
-from webapp.auth.blueprint import bp, login_manager, csrf, init_app
-from webapp.auth import views  # noqa: F401  (registers the routes)
-from webapp.auth import accounts  # noqa: F401  (registers the account routes)
+from webapp.auth import (
+    accounts,  # noqa: F401  (registers the account routes)
+    views,  # noqa: F401  (registers the routes)
+)
+from webapp.auth.blueprint import bp, csrf, init_app, login_manager
 
-__all__ = ['bp', 'login_manager', 'csrf', 'init_app']
+__all__ = ["bp", "login_manager", "csrf", "init_app"]

@@ -5,16 +5,8 @@ Views parse the form, call one service (:mod:`webapp.services.accounts`) and ren
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
-from flask_login import login_user
+from flask import Response, current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required, login_user
 
 from webapp.auth.blueprint import bp
 from webapp.db import get_session
@@ -30,9 +22,13 @@ _OPEN = {"auth.password", "auth.logout", "auth.link", "auth.login", "static"}
 @bp.before_app_request
 def _require_own_password():  # type: ignore[no-untyped-def]
     """Send a person who must choose a password to that page first (pages only; the API answers as before)."""
-    if (current_user.is_authenticated and getattr(current_user, "must_set_password", False)
-            and request.endpoint not in _OPEN and not request.path.startswith("/api/")
-            and not request.path.startswith("/embed/")):
+    if (
+        current_user.is_authenticated
+        and getattr(current_user, "must_set_password", False)
+        and request.endpoint not in _OPEN
+        and not request.path.startswith("/api/")
+        and not request.path.startswith("/embed/")
+    ):
         return redirect(url_for("auth.password"))
     return None
 
@@ -61,16 +57,22 @@ def password():  # type: ignore[no-untyped-def]
     errors: dict[str, str] = {}
     if request.method == "POST":
         try:
-            accounts.change_own_password(get_session(), current_user, request.form.get("password", ""),
-                                         request.form.get("confirm", ""), current=request.form.get("current"),
-                                         method=current_app.config["PASSWORD_METHOD"])
+            accounts.change_own_password(
+                get_session(),
+                current_user,
+                request.form.get("password", ""),
+                request.form.get("confirm", ""),
+                current=request.form.get("current"),
+                method=current_app.config["PASSWORD_METHOD"],
+            )
             flash("Your password is set.")
             return redirect(url_for("main.index"))
         except ServiceError as exc:
             get_session().rollback()
             errors[exc.field or "password"] = exc.message
-    return render_template("auth/password.html", errors=errors,
-                           minimum=accounts.MIN_PASSWORD_LENGTH), (400 if errors else 200)
+    return render_template("auth/password.html", errors=errors, minimum=accounts.MIN_PASSWORD_LENGTH), (
+        400 if errors else 200
+    )
 
 
 @bp.route("/sections/<int:section_id>/accounts")
@@ -80,8 +82,13 @@ def section_accounts(section_id: int):  # type: ignore[no-untyped-def]
     require_coordinator(current_user, "manage accounts")
     session = get_session()
     section = get_section(session, current_user, section_id)
-    return render_template("auth/accounts.html", section=section, people=accounts.section_people(session, section.id),
-                           minimum=accounts.MIN_PASSWORD_LENGTH, days=accounts.SIGN_IN_LINK_DAYS)
+    return render_template(
+        "auth/accounts.html",
+        section=section,
+        people=accounts.section_people(session, section.id),
+        minimum=accounts.MIN_PASSWORD_LENGTH,
+        days=accounts.SIGN_IN_LINK_DAYS,
+    )
 
 
 @bp.post("/sections/<int:section_id>/sign-in-links")
@@ -101,9 +108,14 @@ def section_links(section_id: int):  # type: ignore[no-untyped-def]
         return redirect(url_for("auth.section_accounts", section_id=section.id))
     base = request.host_url.rstrip("/") + request.script_root
     if request.form.get("format") == "csv":
-        return Response(accounts.links_csv(issued, base), mimetype="text/csv", headers={
-            "Content-Disposition": f'attachment; filename="sign-in-links-section-{section.id}.csv"',
-            "Cache-Control": "no-store"})
+        return Response(
+            accounts.links_csv(issued, base),
+            mimetype="text/csv",
+            headers={
+                "Content-Disposition": f'attachment; filename="sign-in-links-section-{section.id}.csv"',
+                "Cache-Control": "no-store",
+            },
+        )
     page = render_template("auth/links.html", section=section, links=issued, base=base)
     return page, 200, {"Cache-Control": "no-store"}
 
@@ -116,9 +128,14 @@ def set_password(person_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     person = accounts.find_person(session, person_id)
     try:
-        accounts.set_password(session, current_user, person, request.form.get("password", ""),
-                              must_change=request.form.get("must_change") == "yes",
-                              method=current_app.config["PASSWORD_METHOD"])
+        accounts.set_password(
+            session,
+            current_user,
+            person,
+            request.form.get("password", ""),
+            must_change=request.form.get("must_change") == "yes",
+            method=current_app.config["PASSWORD_METHOD"],
+        )
         flash(f"Password of {person.name} set.")
     except ServiceError as exc:
         session.rollback()

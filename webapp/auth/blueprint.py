@@ -2,11 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import Flask
-from flask import redirect
-from flask import request
-from flask import url_for
+from flask import Blueprint, Flask, redirect, request, url_for
 from flask_login import LoginManager
 from flask_wtf.csrf import CSRFProtect
 

@@ -3,12 +3,8 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import EmailField
-from wtforms import PasswordField
-from wtforms import SelectField
-from wtforms import StringField
-from wtforms.validators import DataRequired
-from wtforms.validators import Length
+from wtforms import EmailField, PasswordField, SelectField, StringField
+from wtforms.validators import DataRequired, Length
 
 
 class LoginForm(FlaskForm):
@@ -22,8 +18,7 @@ class TokenForm(FlaskForm):
     """A label for a new API token."""
 
     label = StringField("Label", validators=[Length(max=120)])
-    scope = SelectField("Scope", choices=["read", "write", "live"],
-                        default="read")
+    scope = SelectField("Scope", choices=["read", "write", "live"], default="read")
 
 
 class ConfirmForm(FlaskForm):

@@ -4,27 +4,15 @@ from __future__ import annotations
 
 from urllib.parse import urlsplit
 
-from flask import flash
-from flask import make_response
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
-from flask_login import login_user
-from flask_login import logout_user
+from flask import flash, make_response, redirect, render_template, request, url_for
+from flask_login import current_user, login_required, login_user, logout_user
 
 from webapp.auth.blueprint import bp
-from webapp.auth.forms import ConfirmForm
-from webapp.auth.forms import LoginForm
-from webapp.auth.forms import TokenForm
+from webapp.auth.forms import ConfirmForm, LoginForm, TokenForm
 from webapp.db import get_session
-from webapp.services import people
-from webapp.services import throttle
-from webapp.services.tokens import issue_scoped_token
-from webapp.services.tokens import tokens_of
+from webapp.services import people, throttle
 from webapp.services.errors import ServiceError
+from webapp.services.tokens import issue_scoped_token, tokens_of
 
 
 def _safe_next(target: str | None) -> str:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from webapp.calorimeters.blueprint import bp
 from webapp.calorimeters import views  # noqa: F401  (registers the routes)
+from webapp.calorimeters.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

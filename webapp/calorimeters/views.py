@@ -5,33 +5,25 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Any
 
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
 from webapp.calorimeters.blueprint import bp
-from webapp.calorimeters.forms import CalorimeterEditForm
-from webapp.calorimeters.forms import CalorimeterForm
-from webapp.calorimeters.forms import HeatCapacityForm
+from webapp.calorimeters.forms import CalorimeterEditForm, CalorimeterForm, HeatCapacityForm
 from webapp.db import get_session
-from webapp.plot_cache import history_plot
-from webapp.plot_cache import svg_response
+from webapp.plot_cache import history_plot, svg_response
 from webapp.services.access import is_coordinator
 from webapp.services.calibrations import is_staff
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import create_calorimeter
-from webapp.services.calorimeters import enter_heat_capacity
-from webapp.services.calorimeters import get_calorimeter
-from webapp.services.calorimeters import update_calorimeter
+from webapp.services.calorimeters import (
+    calibration_history,
+    create_calorimeter,
+    enter_heat_capacity,
+    get_calorimeter,
+    update_calorimeter,
+)
 from webapp.services.control import set_interval
 from webapp.services.errors import ServiceError
-from webapp.services.page_data import calorimeter_choices
-from webapp.services.page_data import calorimeter_page
+from webapp.services.page_data import calorimeter_choices, calorimeter_page
 
 
 def _form_errors(form: Any) -> dict[str, str]:
@@ -49,11 +41,16 @@ def index():  # type: ignore[no-untyped-def]
     if form.is_submitted():
         if form.validate():
             try:
-                cal = create_calorimeter(session, current_user, name=form.name.data or "", parts=form.parts.data or "",
-                                         location=form.location.data or "",
-                                         vessel_type=form.vessel_type.data or None,
-                                         heat_capacity=(form.heat_capacity.data or "").strip() or None,
-                                         measured_on=(form.measured_on.data or "").strip() or None)
+                cal = create_calorimeter(
+                    session,
+                    current_user,
+                    name=form.name.data or "",
+                    parts=form.parts.data or "",
+                    location=form.location.data or "",
+                    vessel_type=form.vessel_type.data or None,
+                    heat_capacity=(form.heat_capacity.data or "").strip() or None,
+                    measured_on=(form.measured_on.data or "").strip() or None,
+                )
                 flash(f"Calorimeter {cal.name!r} added.")
                 return redirect(url_for("calorimeters.detail", calorimeter_id=cal.id))
             except ServiceError as exc:
@@ -63,12 +60,23 @@ def index():  # type: ignore[no-untyped-def]
                 errors, status = {exc.field or "name": exc.message}, exc.status
         else:
             errors, status = _form_errors(form), 400
-    return render_template("calorimeters/index.html", rows=calorimeter_choices(session), form=form, errors=errors,
-                           may_manage=is_coordinator(current_user)), status
+    return render_template(
+        "calorimeters/index.html",
+        rows=calorimeter_choices(session),
+        form=form,
+        errors=errors,
+        may_manage=is_coordinator(current_user),
+    ), status
 
 
-def _detail(calorimeter_id: int, *, edit: CalorimeterEditForm | None = None, entry: HeatCapacityForm | None = None,
-            errors: dict[str, str] | None = None, status: int = 200):  # type: ignore[no-untyped-def]
+def _detail(
+    calorimeter_id: int,
+    *,
+    edit: CalorimeterEditForm | None = None,
+    entry: HeatCapacityForm | None = None,
+    errors: dict[str, str] | None = None,
+    status: int = 200,
+):  # type: ignore[no-untyped-def]
     session = get_session()
     page = calorimeter_page(session, current_user, calorimeter_id)
     if edit is None:
@@ -104,12 +112,21 @@ def history_svg(calorimeter_id: int):  # type: ignore[no-untyped-def]
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id)))
-    return svg_response(history_plot(history, history[-1] if history else None),
-                        immutable=request.args.get("v") == f"{len(history)}-{max((c.id for c in history), default=0)}")
+    return svg_response(
+        history_plot(history, history[-1] if history else None),
+        immutable=request.args.get("v") == f"{len(history)}-{max((c.id for c in history), default=0)}",
+    )
 
 
-def _submit(calorimeter_id: int, form: Any, prefix: str, slot: str, store: Callable[[Any], None],
-            error_field: Callable[[ServiceError], str], done: str) -> Any:
+def _submit(
+    calorimeter_id: int,
+    form: Any,
+    prefix: str,
+    slot: str,
+    store: Callable[[Any], None],
+    error_field: Callable[[ServiceError], str],
+    done: str,
+) -> Any:
     """Handle one of the page's forms: errors beside their fields (re-rendered), else store, flash, redirect.
 
     :param prefix: the form's field prefix (``edit`` or ``hc``), which the error keys carry
@@ -120,16 +137,21 @@ def _submit(calorimeter_id: int, form: Any, prefix: str, slot: str, store: Calla
     session = get_session()
     cal = get_calorimeter(session, calorimeter_id)
     if not form.validate_on_submit():
-        return _detail(calorimeter_id, **{slot: form}, errors={f"{prefix}-{k}": v for k, v in _form_errors(form).items()},
-                       status=400)
+        return _detail(
+            calorimeter_id,
+            **{slot: form},
+            errors={f"{prefix}-{k}": v for k, v in _form_errors(form).items()},
+            status=400,
+        )
     try:
         store(cal)
     except ServiceError as exc:
         session.rollback()
         if exc.status == 403:
             raise
-        return _detail(calorimeter_id, **{slot: form}, errors={f"{prefix}-{error_field(exc)}": exc.message},
-                       status=exc.status)
+        return _detail(
+            calorimeter_id, **{slot: form}, errors={f"{prefix}-{error_field(exc)}": exc.message}, status=exc.status
+        )
     flash(done)
     return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
 
@@ -143,15 +165,30 @@ def edit(calorimeter_id: int):  # type: ignore[no-untyped-def]
     def store(cal: Any) -> None:
         session = get_session()
         version = request.form.get("edit-version", type=int)
-        cal = update_calorimeter(session, current_user, cal, {"name": form.name.data or "",
-                                                              "parts": form.parts.data or "",
-                                                              "location": form.location.data or "",
-                                                              "vessel_type": form.vessel_type.data or "foam-cups"},
-                                 version, commit=False)
+        cal = update_calorimeter(
+            session,
+            current_user,
+            cal,
+            {
+                "name": form.name.data or "",
+                "parts": form.parts.data or "",
+                "location": form.location.data or "",
+                "vessel_type": form.vessel_type.data or "foam-cups",
+            },
+            version,
+            commit=False,
+        )
         set_interval(session, current_user, cal, form.calibration_interval_days.data)  # in range: the form says so
 
-    return _submit(calorimeter_id, form, "edit", "edit", store,
-                   lambda exc: "name" if exc.field in (None, "version") else exc.field, "Calorimeter changed.")
+    return _submit(
+        calorimeter_id,
+        form,
+        "edit",
+        "edit",
+        store,
+        lambda exc: "name" if exc.field in (None, "version") else exc.field,
+        "Calorimeter changed.",
+    )
 
 
 @bp.route("/<int:calorimeter_id>/heat-capacity", methods=["POST"])
@@ -161,12 +198,26 @@ def heat_capacity(calorimeter_id: int):  # type: ignore[no-untyped-def]
     form = HeatCapacityForm(prefix="hc")
 
     def store(cal: Any) -> None:
-        enter_heat_capacity(get_session(), current_user, cal, form.heat_capacity.data or "", form.measured_on.data,
-                            form.note.data or "", confirm=bool(form.confirm.data), restart=bool(form.restart.data))
+        enter_heat_capacity(
+            get_session(),
+            current_user,
+            cal,
+            form.heat_capacity.data or "",
+            form.measured_on.data,
+            form.note.data or "",
+            confirm=bool(form.confirm.data),
+            restart=bool(form.restart.data),
+        )
 
-    return _submit(calorimeter_id, form, "hc", "entry", store,
-                   lambda exc: exc.field if exc.field in ("measured_on", "note", "confirm") else "heat_capacity",
-                   "Heat capacity recorded; the value in force is recomputed from the recent calibrations.")
+    return _submit(
+        calorimeter_id,
+        form,
+        "hc",
+        "entry",
+        store,
+        lambda exc: exc.field if exc.field in ("measured_on", "note", "confirm") else "heat_capacity",
+        "Heat capacity recorded; the value in force is recomputed from the recent calibrations.",
+    )
 
 
 def _action(calorimeter_id: int, act: Callable[[Any], str]) -> Any:
@@ -192,8 +243,13 @@ def approve(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untype
     from webapp.services.calibrations import approve_calibration
 
     def act(session: Any) -> str:
-        approve_calibration(session, current_user, calibration_id, confirm=bool(request.form.get("confirm")),
-                            restart=bool(request.form.get("restart")))
+        approve_calibration(
+            session,
+            current_user,
+            calibration_id,
+            confirm=bool(request.form.get("confirm")),
+            restart=bool(request.form.get("restart")),
+        )
         return f"Calibration #{calibration_id} approved; the value in force is recomputed."
 
     return _action(calorimeter_id, act)
@@ -203,8 +259,7 @@ def approve(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untype
 @login_required
 def withdraw(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
     """Withdraw a calibration (staff, with a reason) and list the runs that used it."""
-    from webapp.services.calibrations import runs_using
-    from webapp.services.calibrations import withdraw_calibration
+    from webapp.services.calibrations import runs_using, withdraw_calibration
 
     def act(session: Any) -> str:
         cal = withdraw_calibration(session, current_user, calibration_id, request.form.get("reason", ""))
@@ -223,8 +278,10 @@ def reanalyse_runs(calorimeter_id: int, calibration_id: int):  # type: ignore[no
 
     def act(session: Any) -> str:
         done = reanalyse_runs_using(session, current_user, calibration_id)
-        parts = [f"Re-analysed {len(done.reanalysed)} run(s) with the value in force"
-                 + (f" ({', '.join(f'#{i}' for i in done.reanalysed)})" if done.reanalysed else "")]
+        parts = [
+            f"Re-analysed {len(done.reanalysed)} run(s) with the value in force"
+            + (f" ({', '.join(f'#{i}' for i in done.reanalysed)})" if done.reanalysed else "")
+        ]
         if done.locked:
             parts.append(f"signed, left as they are: {', '.join(f'#{i}' for i in done.locked)}")
         if done.failed:

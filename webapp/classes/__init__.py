@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from webapp.classes.blueprint import bp
 from webapp.classes import views  # noqa: F401  (registers the routes)
+from webapp.classes.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -4,12 +4,8 @@ from __future__ import annotations
 
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField
-from wtforms import IntegerField
-from wtforms import SelectField
-from wtforms import StringField
-from wtforms.validators import DataRequired
-from wtforms.validators import Length
-from wtforms.validators import Optional
+from wtforms import IntegerField, SelectField, StringField
+from wtforms.validators import DataRequired, Length, Optional
 
 
 class CourseForm(FlaskForm):

@@ -14,9 +14,7 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from flask import Flask
-from flask import current_app
-from flask import g
+from flask import Flask, current_app, g
 
 _EXT = "cupcal_db"
 
@@ -29,7 +27,7 @@ def normalize_url(url: str) -> str:
     """
     for prefix in ("postgres://", "postgresql://"):
         if url.startswith(prefix):
-            return "postgresql+psycopg://" + url[len(prefix):]
+            return "postgresql+psycopg://" + url[len(prefix) :]
     return url
 
 
@@ -55,8 +53,7 @@ def init_app(app: Flask) -> None:
     """Create the app's engine and session factory and register the teardown."""
     engine = make_engine(app.config["DATABASE_URL"], busy_timeout_ms=app.config["SQLITE_BUSY_TIMEOUT_MS"])
     factory = so.sessionmaker(bind=engine)
-    from webapp.db import locked_runs
-    from webapp.db import webhook_queue
+    from webapp.db import locked_runs, webhook_queue
 
     locked_runs.install(factory)  # signed runs stay immutable whatever path writes
     webhook_queue.install(factory)  # queue webhook deliveries when a run is locked

@@ -12,9 +12,7 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
+from webapp.models import Result, Run, RunInput
 from webapp.services.errors import RunLocked
 
 

@@ -13,12 +13,8 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Run
-from webapp.models import Webhook
-from webapp.models import WebhookDelivery
-from webapp.models import utcnow
-from webapp.services.webhooks import EVENT
-from webapp.services.webhooks import payload
+from webapp.models import Run, Webhook, WebhookDelivery, utcnow
+from webapp.services.webhooks import EVENT, payload
 
 
 def _queue_on_lock(session: so.Session, _ctx: Any, _instances: Any) -> None:
@@ -33,8 +29,18 @@ def _queue_on_lock(session: so.Session, _ctx: Any, _instances: Any) -> None:
             continue
         body = json.dumps(payload(obj), ensure_ascii=False, sort_keys=True)
         for hook in hooks:
-            session.add(WebhookDelivery(webhook=hook, event=EVENT, run_id=obj.id, body=body, status="pending",
-                                        attempts=0, next_attempt_at=utcnow(), last_error=""))
+            session.add(
+                WebhookDelivery(
+                    webhook=hook,
+                    event=EVENT,
+                    run_id=obj.id,
+                    body=body,
+                    status="pending",
+                    attempts=0,
+                    next_attempt_at=utcnow(),
+                    last_error="",
+                )
+            )
 
 
 def install(factory: so.sessionmaker[so.Session]) -> None:

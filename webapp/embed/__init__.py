@@ -8,7 +8,7 @@ origins of ``EMBED_FRAME_ANCESTORS`` (a CSP ``frame-ancestors`` value; default `
 
 from __future__ import annotations
 
-from webapp.embed.blueprint import bp
 from webapp.embed import views  # noqa: F401  (registers the routes)
+from webapp.embed.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from flask import Blueprint
-from flask import Response
-from flask import current_app
+from flask import Blueprint, Response, current_app
 
 bp = Blueprint("embed", __name__)
 
@@ -13,8 +11,8 @@ bp = Blueprint("embed", __name__)
 def _frame_policy(response: Response) -> Response:
     ancestors = current_app.config.get("EMBED_FRAME_ANCESTORS") or "'self'"
     response.headers["Content-Security-Policy"] = (
-        "default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; "
-        f"frame-ancestors {ancestors}")
+        f"default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; frame-ancestors {ancestors}"
+    )
     response.headers["X-Content-Type-Options"] = "nosniff"
     response.headers["Referrer-Policy"] = "no-referrer"
     response.headers["Cache-Control"] = "private, no-store"

@@ -11,10 +11,7 @@ import time
 from collections.abc import Callable
 from typing import Any
 
-from itsdangerous import BadSignature
-from itsdangerous import SignatureExpired
-from itsdangerous import TimestampSigner
-from itsdangerous import URLSafeTimedSerializer
+from itsdangerous import BadSignature, SignatureExpired, TimestampSigner, URLSafeTimedSerializer
 
 from webapp.services.errors import Forbidden
 

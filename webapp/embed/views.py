@@ -3,32 +3,21 @@
 from __future__ import annotations
 
 import base64
-from urllib.parse import parse_qs
-from urllib.parse import urlsplit
+from urllib.parse import parse_qs, urlsplit
 
-from calc import __version__
-from calc.refdata.comparison import verdict
-from flask import abort
-from flask import current_app
-from flask import jsonify
-from flask import render_template
-from flask import request
-from flask import url_for
+from flask import abort, current_app, jsonify, render_template, request, url_for
 from flask_login import current_user
 from markupsafe import escape
 
+from calc import __version__
+from calc.refdata.comparison import verdict
 from webapp.db import get_session
-from webapp.embed.blueprint import bp
 from webapp.embed import links
-from webapp.models import MAX_ID
-from webapp.models import Person
-from webapp.models import Run
+from webapp.embed.blueprint import bp
+from webapp.models import MAX_ID, Person, Run
 from webapp.quantities import result_value
 from webapp.services.checks import flagged_checks
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.errors import NotSignedIn
+from webapp.services.errors import Forbidden, Invalid, NotFound, NotSignedIn
 from webapp.services.runs import get_run
 from webapp.services.tokens import token_for_secret
 
@@ -47,8 +36,9 @@ def reader(run_id: int, link: str | None) -> Person:
     """
     session = get_session()
     if link:
-        person_id = links.verify(current_app.config["SECRET_KEY"], link, run_id,
-                                 int(current_app.config["EMBED_LINK_MAX_AGE"]))
+        person_id = links.verify(
+            current_app.config["SECRET_KEY"], link, run_id, int(current_app.config["EMBED_LINK_MAX_AGE"])
+        )
         person = session.get(Person, person_id)
         if person is None or not person.active:
             raise Forbidden("this link is no longer valid")
@@ -96,10 +86,15 @@ def card(run_id: int):  # type: ignore[no-untyped-def]
     person = reader(run_id, request.args.get("link"))
     run = get_run(get_session(), person, run_id)
     result = run.current_result
-    return render_template("embed/card.html", run=run, result=result,
-                           main=result_value(result, result.main) if result else None,
-                           plot_uri=plot_data_uri(run) if result else "", flags=card_flags(run),
-                           version=__version__)
+    return render_template(
+        "embed/card.html",
+        run=run,
+        result=result,
+        main=result_value(result, result.main) if result else None,
+        plot_uri=plot_data_uri(run) if result else "",
+        flags=card_flags(run),
+        version=__version__,
+    )
 
 
 def _pixels_or_id(text: str, most: int) -> bool:
@@ -119,7 +114,7 @@ def oembed():  # type: ignore[no-untyped-def]
     path = parts.path
     root = request.script_root
     if root and path.startswith(root):
-        path = path[len(root):]
+        path = path[len(root) :]
     segs = [s for s in path.split("/") if s]
     if len(segs) < 2 or segs[-2] != "runs" or not _pixels_or_id(segs[-1], MAX_ID):
         raise NotFound("expected the URL of a run's card (…/embed/runs/<id>) or page (…/runs/<id>)", field="url")
@@ -136,11 +131,25 @@ def oembed():  # type: ignore[no-untyped-def]
         width = min(width, int(request.args["maxwidth"]))
     if request.args.get("maxheight"):
         height = min(height, int(request.args["maxheight"]))
-    src = url_for("embed.card", run_id=run.id, link=link, _external=True) if link else \
-        url_for("embed.card", run_id=run.id, _external=True)
-    html = (f'<iframe src="{escape(src)}" width="{width}" height="{height}" '
-            f'title="{escape(run.title)} (cupcal run {run.id})" style="border:0" loading="lazy" '
-            f'sandbox="allow-popups"></iframe>')
-    return jsonify({"version": "1.0", "type": "rich", "provider_name": "cupcal",
-                    "title": run.title, "html": html, "width": width, "height": height,
-                    "cache_age": int(current_app.config["EMBED_LINK_MAX_AGE"]) if link else 0})
+    src = (
+        url_for("embed.card", run_id=run.id, link=link, _external=True)
+        if link
+        else url_for("embed.card", run_id=run.id, _external=True)
+    )
+    html = (
+        f'<iframe src="{escape(src)}" width="{width}" height="{height}" '
+        f'title="{escape(run.title)} (cupcal run {run.id})" style="border:0" loading="lazy" '
+        f'sandbox="allow-popups"></iframe>'
+    )
+    return jsonify(
+        {
+            "version": "1.0",
+            "type": "rich",
+            "provider_name": "cupcal",
+            "title": run.title,
+            "html": html,
+            "width": width,
+            "height": height,
+            "cache_age": int(current_app.config["EMBED_LINK_MAX_AGE"]) if link else 0,
+        }
+    )

@@ -18,17 +18,12 @@ from collections.abc import Iterable
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc import __version__
-from calc.refdata.comparison import verdict
-from calc.refdata.comparison import verdict_record
 
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.quantities import RESULT_OUTPUTS
-from webapp.quantities import result_value
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from calc import __version__
+from calc.refdata.comparison import verdict, verdict_record
+from webapp.models import Person, Result, Run
+from webapp.quantities import RESULT_OUTPUTS, result_value
+from webapp.services.errors import Invalid, NotFound
 from webapp.services.runs import get_run
 
 FORMAT = "cupcal-run-export"
@@ -76,8 +71,12 @@ def result_document(result: Result) -> dict[str, Any]:
             "fore": [result.fore_start_s, result.fore_end_s],
             "after": [result.after_start_s, result.after_end_s],
         },
-        "mixing_time": {"value": result.mixing_time_s, "standard_uncertainty": result.mixing_time_s_std,
-                        "unit": "s", "detected": result.mixing_time_detected},
+        "mixing_time": {
+            "value": result.mixing_time_s,
+            "standard_uncertainty": result.mixing_time_s_std,
+            "unit": "s",
+            "detected": result.mixing_time_detected,
+        },
         "budget": result.budget,
         "warnings": result.warnings,
         "checks": result.checks,
@@ -94,8 +93,12 @@ def result_document(result: Result) -> dict[str, Any]:
 
 def file_entry(name: str, data: bytes, media_type: str) -> dict[str, Any]:
     """Return a stored file for JSON: its name, SHA-256, and text (UTF-8) or base64."""
-    entry: dict[str, Any] = {"name": name, "media_type": media_type, "size": len(data),
-                             "sha256": hashlib.sha256(data).hexdigest()}
+    entry: dict[str, Any] = {
+        "name": name,
+        "media_type": media_type,
+        "size": len(data),
+        "sha256": hashlib.sha256(data).hexdigest(),
+    }
     try:
         entry["text"] = data.decode("utf-8")
     except UnicodeDecodeError:
@@ -111,10 +114,16 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
         "format": FORMAT,
         "format_version": FORMAT_VERSION,
         "software": {"name": "cupcal", "version": __version__},
-        "exported_at": iso(exported_at or dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)),
+        "exported_at": iso(exported_at or dt.datetime.now(dt.UTC).replace(tzinfo=None)),
         "run": {
-            "id": run.id, "kind": run.kind, "title": run.title, "operator": run.operator, "bench": run.bench,
-            "performed_on": run.performed_on, "notes": run.notes, "points": run.points,
+            "id": run.id,
+            "kind": run.kind,
+            "title": run.title,
+            "operator": run.operator,
+            "bench": run.bench,
+            "performed_on": run.performed_on,
+            "notes": run.notes,
+            "points": run.points,
             "group": run.group.name if run.group else None,
             "calorimeter": run.calorimeter.name if run.calorimeter else None,
         },
@@ -122,18 +131,32 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
             "run_file": file_entry(run.run_file_name, run.run_toml.encode("utf-8"), "application/toml"),
             "readings": file_entry(run.readings_name, run.readings_raw, "text/csv"),
         },
-        "inputs": [{"field": i.field, "value": i.value, "standard_uncertainty": i.std_uncertainty,
-                    "unit": i.unit, "text": i.text, "origin": i.origin} for i in run.inputs],
+        "inputs": [
+            {
+                "field": i.field,
+                "value": i.value,
+                "standard_uncertainty": i.std_uncertainty,
+                "unit": i.unit,
+                "text": i.text,
+                "origin": i.origin,
+            }
+            for i in run.inputs
+        ],
         "result": result_document(current) if current is not None else None,
         "earlier_results": [result_document(r) for r in run.results if r is not current],
         "provenance": {
             "recorded_by": _person(run.author),
             "recorded_at": iso(run.created_at),
-            "calibration": None if cal is None else {
+            "calibration": None
+            if cal is None
+            else {
                 "id": cal.id,
                 "calorimeter": cal.calorimeter.name,
-                "heat_capacity": {"value": cal.heat_capacity_j_k, "standard_uncertainty": cal.heat_capacity_j_k_std,
-                                  "unit": "J/K"},
+                "heat_capacity": {
+                    "value": cal.heat_capacity_j_k,
+                    "standard_uncertainty": cal.heat_capacity_j_k_std,
+                    "unit": "J/K",
+                },
                 "taken_at": iso(cal.taken_at),
                 "from_run": cal.result.run_id if cal.result is not None else None,
                 "note": cal.note,
@@ -147,8 +170,7 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
 
 def export_json(session: so.Session, actor: Person, run_id: int) -> str:
     """Return the JSON export of a run ``actor`` may see."""
-    return json.dumps(run_document(get_run(session, actor, run_id)), ensure_ascii=False, indent=2,
-                      allow_nan=False)
+    return json.dumps(run_document(get_run(session, actor, run_id)), ensure_ascii=False, indent=2, allow_nan=False)
 
 
 def selected_runs(session: so.Session, actor: Person, run_ids: Iterable[int]) -> list[Run]:

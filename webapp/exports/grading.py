@@ -20,14 +20,48 @@ from collections.abc import Iterator
 from typing import Any
 
 from webapp.exports.cells import neutralise
-from webapp.services.dashboard import FLAGS
-from webapp.services.dashboard import Dashboard
+from webapp.services.dashboard import FLAGS, Dashboard
 
-COLUMNS = ("run", "section", "group", "names", "bench", "title", "kind", "measurement", "value",
-           "expanded_uncertainty", "unit", "result", "En", "judged_against", "flags", "flag_details", "counts",
-           "mark", "mark_source", "mark_detail", "feedback", "comments")
-STATS_COLUMNS = ("measurement", "unit", "results", "groups", "mean", "sd", "s_r", "s_L", "s_R", "r", "R",
-                 "reference", "note")
+COLUMNS = (
+    "run",
+    "section",
+    "group",
+    "names",
+    "bench",
+    "title",
+    "kind",
+    "measurement",
+    "value",
+    "expanded_uncertainty",
+    "unit",
+    "result",
+    "En",
+    "judged_against",
+    "flags",
+    "flag_details",
+    "counts",
+    "mark",
+    "mark_source",
+    "mark_detail",
+    "feedback",
+    "comments",
+)
+STATS_COLUMNS = (
+    "measurement",
+    "unit",
+    "results",
+    "groups",
+    "mean",
+    "sd",
+    "s_r",
+    "s_L",
+    "s_R",
+    "r",
+    "R",
+    "reference",
+    "note",
+)
+
 
 def gum_round(value: float | None, U: float | None) -> tuple[float | None, float | None, int]:
     """Return value and U rounded by the GUM rule (U to two significant digits) and the decimals used."""
@@ -60,15 +94,17 @@ def grading_extras(session: Any, board: Dashboard) -> GradingExtras:
     """Return the names and comments the grading export needs, in three queries."""
     import sqlalchemy as sa
 
-    from webapp.models import Comment
-    from webapp.models import Person
+    from webapp.models import Comment, Person
 
     group_ids = {r.group_id for r in board.rows if r.group_id is not None}
     run_ids = {r.run_id for r in board.rows}
     out = GradingExtras()
     if group_ids:
-        for gid, name in session.execute(sa.select(Person.group_id, Person.name).where(
-                Person.group_id.in_(group_ids), Person.role == "student").order_by(Person.name)):
+        for gid, name in session.execute(
+            sa.select(Person.group_id, Person.name)
+            .where(Person.group_id.in_(group_ids), Person.role == "student")
+            .order_by(Person.name)
+        ):
             out.names.setdefault(gid, []).append(name)
         for c in session.scalars(sa.select(Comment).where(Comment.group_id.in_(group_ids)).order_by(Comment.id)):
             out.group_comments.setdefault(c.group_id, []).append(c.body)
@@ -87,15 +123,32 @@ def run_rows(board: Dashboard, extras: GradingExtras | None = None) -> Iterator[
         mark = r.mark
         own = " ".join(board.feedback.get(r.group, []))
         comments = extras.run_comments.get(r.run_id, []) + extras.group_comments.get(r.group_id or -1, [])
-        yield [r.run_id, neutralise(r.section), neutralise(r.group),
-               neutralise("; ".join(extras.names.get(r.group_id or -1, []))), neutralise(r.bench), neutralise(r.title),
-               r.kind, neutralise(r.measurement), value, U, r.unit, _text_result(r.value, r.U, r.unit),
-               round(r.en, 2) if r.en is not None else None, r.verdict.label if r.verdict is not None else "",
-               " ".join(r.flags), neutralise("; ".join(f"{k}: {v}" for k, v in r.notes.items())),
-               "yes" if r.included else f"no ({r.status or 'excluded'}{': ' + r.status_reason if r.status_reason else ''})",
-               mark.points if mark is not None else None, mark.source if mark is not None else "",
-               neutralise(mark.detail) if mark is not None else "",
-               neutralise(" ".join(x for x in (shared, own) if x)), neutralise(" | ".join(comments))]
+        yield [
+            r.run_id,
+            neutralise(r.section),
+            neutralise(r.group),
+            neutralise("; ".join(extras.names.get(r.group_id or -1, []))),
+            neutralise(r.bench),
+            neutralise(r.title),
+            r.kind,
+            neutralise(r.measurement),
+            value,
+            U,
+            r.unit,
+            _text_result(r.value, r.U, r.unit),
+            round(r.en, 2) if r.en is not None else None,
+            r.verdict.label if r.verdict is not None else "",
+            " ".join(r.flags),
+            neutralise("; ".join(f"{k}: {v}" for k, v in r.notes.items())),
+            "yes"
+            if r.included
+            else f"no ({r.status or 'excluded'}{': ' + r.status_reason if r.status_reason else ''})",
+            mark.points if mark is not None else None,
+            mark.source if mark is not None else "",
+            neutralise(mark.detail) if mark is not None else "",
+            neutralise(" ".join(x for x in (shared, own) if x)),
+            neutralise(" | ".join(comments)),
+        ]
 
 
 def stats_rows(board: Dashboard) -> Iterator[list[Any]]:
@@ -104,10 +157,23 @@ def stats_rows(board: Dashboard) -> Iterator[list[Any]]:
         d = gum_round(s.mean, s.sd)[2] + 1 if s.sd else 4
 
         def r(x: float | None) -> float | None:
-            return None if x is None else round(x, d)
+            return None if x is None else round(x, d)  # noqa: B023 (called within this iteration)
 
-        yield [neutralise(s.measurement), s.unit, s.n, s.groups, r(s.mean), r(s.sd), r(s.s_r), r(s.s_L), r(s.s_R),
-               r(s.r), r(s.R), r(s.reference), neutralise(s.note)]
+        yield [
+            neutralise(s.measurement),
+            s.unit,
+            s.n,
+            s.groups,
+            r(s.mean),
+            r(s.sd),
+            r(s.s_r),
+            r(s.s_L),
+            r(s.s_R),
+            r(s.r),
+            r(s.R),
+            r(s.reference),
+            neutralise(s.note),
+        ]
 
 
 def grading_csv(board: Dashboard, extras: GradingExtras | None = None) -> str:

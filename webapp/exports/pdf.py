@@ -26,20 +26,28 @@ _FONTS = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
 
 def _font_faces() -> str:
     faces = []
-    for family, files in (("cupcal-serif", ("DejaVuSerif", "DejaVuSerif-Bold", "DejaVuSerif-Italic",
-                                            "DejaVuSerif-BoldItalic")),
-                          ("cupcal-mono", ("DejaVuSansMono", "DejaVuSansMono-Bold", "DejaVuSansMono-Oblique",
-                                           "DejaVuSansMono-BoldOblique"))):
-        for (weight, style), name in zip((("normal", "normal"), ("bold", "normal"), ("normal", "italic"),
-                                          ("bold", "italic")), files):
+    for family, files in (
+        ("cupcal-serif", ("DejaVuSerif", "DejaVuSerif-Bold", "DejaVuSerif-Italic", "DejaVuSerif-BoldItalic")),
+        (
+            "cupcal-mono",
+            ("DejaVuSansMono", "DejaVuSansMono-Bold", "DejaVuSansMono-Oblique", "DejaVuSansMono-BoldOblique"),
+        ),
+    ):
+        for (weight, style), name in zip(
+            (("normal", "normal"), ("bold", "normal"), ("normal", "italic"), ("bold", "italic")), files
+        ):
             path = (_FONTS / f"{name}.ttf").as_posix()
-            faces.append(f'@font-face {{ font-family: {family}; src: url("{path}"); '
-                         f"font-weight: {weight}; font-style: {style}; }}")
+            faces.append(
+                f'@font-face {{ font-family: {family}; src: url("{path}"); '
+                f"font-weight: {weight}; font-style: {style}; }}"
+            )
     return "\n".join(faces)
 
 
 #: added after the report's own styles: fonts with Greek letters, sizes xhtml2pdf understands
-PDF_CSS = _font_faces() + """
+PDF_CSS = (
+    _font_faces()
+    + """
 body, p, td, th, li, h1, h2, small, strong { font-family: cupcal-serif; }
 body { font-size: 10pt; }
 h1 { font-size: 16pt; } h2 { font-size: 12pt; }
@@ -47,6 +55,7 @@ pre { font-family: cupcal-mono; font-size: 7.5pt; }
 .noprint { display: none; }
 img.plot { width: 17cm; }
 """
+)
 
 
 def plot_png_uri(run: Run) -> str:

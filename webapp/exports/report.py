@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from flask import render_template
 
-from webapp.models import Run
 from webapp.exports.document import run_document
 from webapp.exports.pdf import html_to_pdf, plot_png_uri
+from webapp.models import Run
 
 __all__ = ["report_html", "report_pdf"]
 

@@ -15,10 +15,8 @@ import zipfile
 from typing import Any
 
 from calc import __version__
-
-from webapp.models import Person
-from webapp.models import Run
 from webapp.exports.document import run_document
+from webapp.models import Person, Run
 
 METADATA = "ro-crate-metadata.json"
 EXPORT_NAME = "cupcal-export.json"

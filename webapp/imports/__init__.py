@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+from webapp.imports import (
+    eln_views,  # noqa: F401
+    views,  # noqa: F401  (registers the routes)
+)
 from webapp.imports.blueprint import bp
-from webapp.imports import views  # noqa: F401  (registers the routes)
-from webapp.imports import eln_views  # noqa: F401
 
-__all__ = ['bp']
+__all__ = ["bp"]

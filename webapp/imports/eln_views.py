@@ -2,11 +2,8 @@
 
 from __future__ import annotations
 
-from flask import current_app
-from flask import render_template
-from flask import request
-from flask_login import current_user
-from flask_login import login_required
+from flask import current_app, render_template, request
+from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField
 
@@ -14,8 +11,7 @@ from webapp.db import get_session
 from webapp.imports.blueprint import bp
 from webapp.services.classes import require_staff
 from webapp.services.eln_import import import_eln
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
+from webapp.services.errors import Invalid, ServiceError
 
 
 class ElnForm(FlaskForm):
@@ -40,8 +36,13 @@ def eln():  # type: ignore[no-untyped-def]
                 f = form.archive.data
                 if not f or not f.filename:
                     raise Invalid("choose an .eln archive", field="archive")
-                report = import_eln(session, current_user, f.read(), source=f.filename,
-                                    password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"))
+                report = import_eln(
+                    session,
+                    current_user,
+                    f.read(),
+                    source=f.filename,
+                    password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"),
+                )
             except ServiceError as exc:
                 session.rollback()
                 if exc.status in (403, 404):

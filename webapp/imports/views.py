@@ -2,25 +2,17 @@
 
 from __future__ import annotations
 
-from flask import current_app
-from flask import render_template
-from flask import request
-from flask_login import current_user
-from flask_login import login_required
+from flask import current_app, render_template, request
+from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from flask_wtf.file import FileField
-from flask_wtf.file import MultipleFileField
+from flask_wtf.file import FileField, MultipleFileField
 from wtforms import BooleanField
 
 from webapp.db import get_session
 from webapp.imports.blueprint import bp
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.imports import Files
-from webapp.services.imports import files_from_zip
-from webapp.services.imports import import_files
+from webapp.services.classes import get_section, require_staff
+from webapp.services.errors import Invalid, ServiceError
+from webapp.services.imports import Files, files_from_zip, import_files
 
 #: default upload limit of an import (a section's zip); ``IMPORT_MAX_UPLOAD_BYTES`` overrides it
 IMPORT_MAX_UPLOAD_BYTES = 64 * 1024 * 1024
@@ -73,9 +65,17 @@ def new(section_id: int):  # type: ignore[no-untyped-def]
                     try:
                         mapping = form.mapping.data.read().decode("utf-8-sig")
                     except UnicodeDecodeError:
-                        raise Invalid("the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping") from None
-                report = import_files(session, current_user, section.id, _files(form), mapping=mapping,
-                                      create_groups=bool(form.create_groups.data))
+                        raise Invalid(
+                            "the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping"
+                        ) from None
+                report = import_files(
+                    session,
+                    current_user,
+                    section.id,
+                    _files(form),
+                    mapping=mapping,
+                    create_groups=bool(form.create_groups.data),
+                )
             except ServiceError as exc:
                 session.rollback()
                 if exc.status in (403, 404):

@@ -4,8 +4,10 @@ Events, with a JSON poll when a browser cannot keep a stream."""
 
 from __future__ import annotations
 
+from webapp.live import (
+    room,  # noqa: F401
+    views,  # noqa: F401  (registers the routes)
+)
 from webapp.live.blueprint import bp
-from webapp.live import views  # noqa: F401  (registers the routes)
-from webapp.live import room  # noqa: F401
 
-__all__ = ['bp']
+__all__ = ["bp"]

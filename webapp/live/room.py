@@ -4,30 +4,18 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
 from webapp.db import get_session
 from webapp.live.blueprint import bp
 from webapp.live.stream import event_stream
-from webapp.live.views import TargetForm
-from webapp.live.views import viewer
+from webapp.live.views import TargetForm, viewer
 from webapp.models import Section
 from webapp.services.access import require_coordinator
-from webapp.services.classes import can_view_section
-from webapp.services.classes import get_section
-from webapp.services.errors import NotFound
-from webapp.services.errors import ServiceError
-from webapp.services.live_view import room_item
-from webapp.services.live_view import room_runs
-from webapp.services.live_view import section_target
-from webapp.services.live_view import set_section_target
-
+from webapp.services.classes import can_view_section, get_section
+from webapp.services.errors import NotFound, ServiceError
+from webapp.services.live_view import room_item, room_runs, section_target, set_section_target
 
 #: what a room view has of one live run: readings seen, advice seen, state
 Seen = dict[int, tuple[int, int, str]]
@@ -39,8 +27,7 @@ def parse_room_cursor(text: str | None) -> Seen:
     seen: Seen = {}
     for part in (text or "").split(",")[:500]:
         bits = part.split(":")
-        if (len(bits) == 4 and bits[3] in _STATES
-                and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits[:3])):
+        if len(bits) == 4 and bits[3] in _STATES and all(b.lstrip("-").isdigit() and len(b) < 12 for b in bits[:3]):
             seen[int(bits[0])] = (int(bits[1]), int(bits[2]), _STATES[bits[3]])
     return seen
 
@@ -71,9 +58,14 @@ def room(section_id: int):  # type: ignore[no-untyped-def]
     section = get_section(session, current_user, section_id)
     seen: Seen = {}
     tiles = room_update(session, section, seen)
-    return render_template("live/room.html", section=section, tiles=tiles, cursor=room_cursor(seen),
-                           target=section_target(session, section.id), form=TargetForm(
-                               target_u=section_target(session, section.id)))
+    return render_template(
+        "live/room.html",
+        section=section,
+        tiles=tiles,
+        cursor=room_cursor(seen),
+        target=section_target(session, section.id),
+        form=TargetForm(target_u=section_target(session, section.id)),
+    )
 
 
 @bp.route("/classes/sections/<int:section_id>/live/update.json")

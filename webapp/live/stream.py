@@ -9,17 +9,13 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from typing import Any
 
 import sqlalchemy.orm as so
-from flask import Flask
-from flask import Response
-from flask import current_app
+from flask import Flask, Response, current_app
 
-from webapp.db import get_engine
-from webapp.db import new_session
+from webapp.db import get_engine, new_session
 from webapp.services.live_events import Waiter
 
 #: a stream's longest life, s (the browser reconnects)

@@ -5,39 +5,32 @@ from __future__ import annotations
 from types import SimpleNamespace
 from typing import Any
 
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from wtforms import DecimalField
-from wtforms.validators import NumberRange
-from wtforms.validators import Optional
+from wtforms.validators import NumberRange, Optional
 
 from webapp.db import get_session
 from webapp.live.blueprint import bp
-from webapp.live.stream import event_stream
-from webapp.live.stream import parse_cursor
+from webapp.live.stream import event_stream, parse_cursor
 from webapp.models import LiveRun
 from webapp.services.errors import ServiceError
-from webapp.services.live import get_live_run
-from webapp.services.live import set_target
+from webapp.services.live import get_live_run, set_target
 from webapp.services.live_finish import finish_live_run
 from webapp.services.live_runfile import toml_data
-from webapp.services.live_view import change_mark
-from webapp.services.live_view import require_live
-from webapp.services.live_view import update_of
-from webapp.services.live_view import visible_live_runs
+from webapp.services.live_view import change_mark, require_live, update_of, visible_live_runs
 
 
 def viewer() -> SimpleNamespace:
     """Return who is asking, as plain values a stream can keep after the request's session closed."""
     group = current_user.group
-    return SimpleNamespace(id=current_user.id, role=current_user.role, group_id=current_user.group_id,
-                           group=SimpleNamespace(section_id=group.section_id) if group is not None else None)
+    return SimpleNamespace(
+        id=current_user.id,
+        role=current_user.role,
+        group_id=current_user.group_id,
+        group=SimpleNamespace(section_id=group.section_id) if group is not None else None,
+    )
 
 
 class TargetForm(FlaskForm):
@@ -76,8 +69,9 @@ def page(live_id: int):  # type: ignore[no-untyped-def]
     live = get_live_run(session, current_user, live_id)
     data = update_of(session, live, -1, None)
     form = TargetForm(target_u=live.target_u)
-    return render_template("live/page.html", live=live, data=data, form=form, finish_form=FinishForm(),
-                           cautions=_cautions(live))
+    return render_template(
+        "live/page.html", live=live, data=data, form=form, finish_form=FinishForm(), cautions=_cautions(live)
+    )
 
 
 @bp.route("/live/<int:live_id>/update.json")
@@ -96,7 +90,9 @@ def events(live_id: int):  # type: ignore[no-untyped-def]
     """The live run's Server-Sent Events: ``update`` when readings, advice or state change; ``ping`` else."""
     get_live_run(get_session(), current_user, live_id)  # 404 before the stream starts
     who = viewer()
-    cursor = request.headers.get("Last-Event-ID") or f"{request.args.get('after', '-1')}.{request.args.get('advice', '')}"
+    cursor = (
+        request.headers.get("Last-Event-ID") or f"{request.args.get('after', '-1')}.{request.args.get('advice', '')}"
+    )
     seen = {"seq": parse_cursor(cursor)[0], "advice": parse_cursor(cursor)[1], "mark": None}
 
     def read(session: Any) -> list[tuple[str, dict[str, Any], str | None]]:

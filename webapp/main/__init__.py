@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from webapp.main.blueprint import bp
 from webapp.main import views  # noqa: F401  (registers the routes)
+from webapp.main.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

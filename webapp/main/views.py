@@ -2,10 +2,8 @@
 
 from __future__ import annotations
 
-from flask import current_app
-from flask import render_template
-from flask_login import current_user
-from flask_login import login_required
+from flask import current_app, render_template
+from flask_login import current_user, login_required
 
 from webapp.db import get_session
 from webapp.main.blueprint import bp

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from webapp.planning.blueprint import bp
 from webapp.planning import views  # noqa: F401  (registers the routes)
+from webapp.planning.blueprint import bp
 
-__all__ = ['bp']
+__all__ = ["bp"]

@@ -10,13 +10,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from flask import render_template, request
+from flask_login import login_required
+
 from calc.errors import CupcalError, InputError
 from calc.io.quantities import parse_measured
 from calc.kinds import get_kind
-from flask import render_template
-from flask import request
-from flask_login import login_required
-
 from webapp.planning.blueprint import bp
 
 MAX_FIELD_LENGTH = 100
@@ -34,28 +33,36 @@ class PlanField:
 
 
 _F = PlanField
-FIELDS = {f.name: f for f in (
-    _F("formula", "Solute (formula)", None, "KCl", "e.g. KCl; for a reaction the limiting reagent, e.g. Mg"),
-    _F("mass", "Mass of solute", "g", "2.50 ± 0.01 g"),
-    _F("water_volume", "Water in the cup", "mL", "100.0 ± 0.5 mL"),
-    _F("acid", "Acid (formula)", None, "HCl"),
-    _F("acid_concentration", "Acid concentration", "mol/L", "1.00 ± 0.01 mol/L"),
-    _F("acid_volume", "Acid volume (in the cup)", "mL", "50.0 ± 0.2 mL"),
-    _F("base", "Base (formula)", None, "NaOH"),
-    _F("base_concentration", "Base concentration", "mol/L", "1.00 ± 0.01 mol/L"),
-    _F("base_volume", "Base volume (poured in)", "mL", "50.0 ± 0.2 mL"),
-    _F("heater_voltage", "Heater voltage", "V", "5.00 ± 0.01 V"),
-    _F("heater_current", "Heater current", "A", "1.000 ± 0.002 A"),
-    _F("heater_duration", "Time the heater is on", "s", "120.0 ± 0.2 s"),
-    _F("warm_volume", "Warm water poured in", "mL", "50.0 ± 0.2 mL"),
-    _F("warm_temperature", "Warm water temperature", "K", "45.0 ± 0.1 °C"),
-    _F("enthalpy", "Expected ΔH (kJ/mol)", "number", "", "needed when cupcal has no reference value, e.g. -466"),
-    _F("calorimeter", "Calorimeter heat capacity", "J/K", "20 ± 3 J/K",
-       "for a calibration: the value you expect it to find"),
-    _F("resolution", "Thermometer resolution (K)", "number", "0.01"),
-    _F("noise", "Thermometer noise (K, standard deviation)", "number", "0.005"),
-    _F("temperature", "Room temperature (°C)", "number", "22"),
-)}
+FIELDS = {
+    f.name: f
+    for f in (
+        _F("formula", "Solute (formula)", None, "KCl", "e.g. KCl; for a reaction the limiting reagent, e.g. Mg"),
+        _F("mass", "Mass of solute", "g", "2.50 ± 0.01 g"),
+        _F("water_volume", "Water in the cup", "mL", "100.0 ± 0.5 mL"),
+        _F("acid", "Acid (formula)", None, "HCl"),
+        _F("acid_concentration", "Acid concentration", "mol/L", "1.00 ± 0.01 mol/L"),
+        _F("acid_volume", "Acid volume (in the cup)", "mL", "50.0 ± 0.2 mL"),
+        _F("base", "Base (formula)", None, "NaOH"),
+        _F("base_concentration", "Base concentration", "mol/L", "1.00 ± 0.01 mol/L"),
+        _F("base_volume", "Base volume (poured in)", "mL", "50.0 ± 0.2 mL"),
+        _F("heater_voltage", "Heater voltage", "V", "5.00 ± 0.01 V"),
+        _F("heater_current", "Heater current", "A", "1.000 ± 0.002 A"),
+        _F("heater_duration", "Time the heater is on", "s", "120.0 ± 0.2 s"),
+        _F("warm_volume", "Warm water poured in", "mL", "50.0 ± 0.2 mL"),
+        _F("warm_temperature", "Warm water temperature", "K", "45.0 ± 0.1 °C"),
+        _F("enthalpy", "Expected ΔH (kJ/mol)", "number", "", "needed when cupcal has no reference value, e.g. -466"),
+        _F(
+            "calorimeter",
+            "Calorimeter heat capacity",
+            "J/K",
+            "20 ± 3 J/K",
+            "for a calibration: the value you expect it to find",
+        ),
+        _F("resolution", "Thermometer resolution (K)", "number", "0.01"),
+        _F("noise", "Thermometer noise (K, standard deviation)", "number", "0.005"),
+        _F("temperature", "Room temperature (°C)", "number", "22"),
+    )
+}
 KIND_FIELDS = {
     "dissolution": ("formula", "mass", "water_volume"),
     "neutralization": ("acid", "acid_concentration", "acid_volume", "base", "base_concentration", "base_volume"),
@@ -66,11 +73,22 @@ KIND_FIELDS = {
 KIND_TITLES = {k: get_kind(k).title for k in KIND_FIELDS}
 COMMON = ("calorimeter", "resolution", "noise", "temperature")
 #: calc.plan parameter (or the field an error names) → the form field it is shown under
-_FIELD_OF = {"calorimeter_heat_capacity": "calorimeter", "thermometer_resolution": "resolution",
-             "thermometer_noise": "noise", "molar_enthalpy": "enthalpy", "solute.formula": "formula",
-             "acid.formula": "acid", "base.formula": "base", "reaction.limiting_reagent": "formula"}
-_NUMBER_RANGE = {"resolution": (1e-6, 5.0), "noise": (0.0, 5.0), "temperature": (-20.0, 60.0),
-                 "enthalpy": (-10000.0, 10000.0)}
+_FIELD_OF = {
+    "calorimeter_heat_capacity": "calorimeter",
+    "thermometer_resolution": "resolution",
+    "thermometer_noise": "noise",
+    "molar_enthalpy": "enthalpy",
+    "solute.formula": "formula",
+    "acid.formula": "acid",
+    "base.formula": "base",
+    "reaction.limiting_reagent": "formula",
+}
+_NUMBER_RANGE = {
+    "resolution": (1e-6, 5.0),
+    "noise": (0.0, 5.0),
+    "temperature": (-20.0, 60.0),
+    "enthalpy": (-10000.0, 10000.0),
+}
 
 
 def _check(name: str, text: str) -> tuple[Any, str | None]:
@@ -101,14 +119,29 @@ def _check(name: str, text: str) -> tuple[Any, str | None]:
 def _plan(kind: str, v: dict[str, Any]) -> Any:
     from calc.plan import plan_run
 
-    extra = {k: v[k] for k in ("heater_voltage", "heater_current", "heater_duration", "warm_volume",
-                               "warm_temperature") if k in v}
-    return plan_run(kind, calorimeter_heat_capacity=v["calorimeter"], thermometer_resolution=v["resolution"],
-                    thermometer_noise=v["noise"], temperature=v["temperature"] + 273.15,
-                    formula=v.get("formula"), mass=v.get("mass"), water_volume=v.get("water_volume"),
-                    acid=v.get("acid"), base=v.get("base"), acid_concentration=v.get("acid_concentration"),
-                    base_concentration=v.get("base_concentration"), acid_volume=v.get("acid_volume"),
-                    base_volume=v.get("base_volume"), molar_enthalpy=v.get("enthalpy"), kind_inputs=extra)
+    extra = {
+        k: v[k]
+        for k in ("heater_voltage", "heater_current", "heater_duration", "warm_volume", "warm_temperature")
+        if k in v
+    }
+    return plan_run(
+        kind,
+        calorimeter_heat_capacity=v["calorimeter"],
+        thermometer_resolution=v["resolution"],
+        thermometer_noise=v["noise"],
+        temperature=v["temperature"] + 273.15,
+        formula=v.get("formula"),
+        mass=v.get("mass"),
+        water_volume=v.get("water_volume"),
+        acid=v.get("acid"),
+        base=v.get("base"),
+        acid_concentration=v.get("acid_concentration"),
+        base_concentration=v.get("base_concentration"),
+        acid_volume=v.get("acid_volume"),
+        base_volume=v.get("base_volume"),
+        molar_enthalpy=v.get("enthalpy"),
+        kind_inputs=extra,
+    )
 
 
 @bp.route("/plan")
@@ -121,8 +154,7 @@ def plan():  # type: ignore[no-untyped-def]
         errors["kind"] = f"choose one of: {', '.join(KIND_FIELDS)}"
         kind = "dissolution"
     names = KIND_FIELDS[kind] + COMMON
-    texts = {n: (request.args.get(n) if request.args.get(n) is not None else FIELDS[n].default).strip()
-             for n in names}
+    texts = {n: (request.args.get(n) if request.args.get(n) is not None else FIELDS[n].default).strip() for n in names}
     result = None
     if "go" in request.args and not errors:
         values: dict[str, Any] = {}
@@ -137,5 +169,12 @@ def plan():  # type: ignore[no-untyped-def]
                 field = getattr(exc, "field", None) or ""
                 shown = _FIELD_OF.get(field, field)
                 errors[shown if shown in names else "form"] = getattr(exc, "message", str(exc))
-    return render_template("planning/plan.html", kind=kind, kinds=KIND_TITLES, fields=[FIELDS[n] for n in names],
-                           texts=texts, errors=errors, plan=result), (400 if errors else 200)
+    return render_template(
+        "planning/plan.html",
+        kind=kind,
+        kinds=KIND_TITLES,
+        fields=[FIELDS[n] for n in names],
+        texts=texts,
+        errors=errors,
+        plan=result,
+    ), (400 if errors else 200)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from webapp.review.blueprint import bp
 from webapp.review import views  # noqa: F401  (registers the routes)
+from webapp.review.blueprint import bp
 
 __all__ = ["bp"]

@@ -2,31 +2,26 @@
 
 from __future__ import annotations
 
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
 from webapp.db import get_session
 from webapp.review.blueprint import bp
 from webapp.services import comments as comment_service
 from webapp.services.access import require_coordinator
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.marks import bands_text
-from webapp.services.marks import scheme_of
-from webapp.services.marks import set_mark
-from webapp.services.marks import set_scheme
+from webapp.services.classes import get_section, require_staff
+from webapp.services.errors import Invalid, ServiceError
+from webapp.services.marks import bands_text, scheme_of, set_mark, set_scheme
 from webapp.services.review import review_run
 
-_DONE = {"withdraw": "Run withdrawn.", "restore": "Run restored.", "exclude": "Run excluded from the statistics.",
-         "include": "Run counted in the statistics again.", "accept": "Run accepted.",
-         "unaccept": "Acceptance taken back."}
+_DONE = {
+    "withdraw": "Run withdrawn.",
+    "restore": "Run restored.",
+    "exclude": "Run excluded from the statistics.",
+    "include": "Run counted in the statistics again.",
+    "accept": "Run accepted.",
+    "unaccept": "Acceptance taken back.",
+}
 
 
 def _back(run_id: int, anchor: str = "review") -> str:

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+from webapp.runs import (
+    create_views,  # noqa: F401  (registers the routes)
+    views,  # noqa: F401  (registers the routes)
+)
 from webapp.runs.blueprint import bp
-from webapp.runs import create_views  # noqa: F401  (registers the routes)
-from webapp.runs import views  # noqa: F401  (registers the routes)
 
-__all__ = ['bp']
+__all__ = ["bp"]

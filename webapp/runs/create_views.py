@@ -14,45 +14,31 @@ import secrets
 from pathlib import PurePosixPath
 from typing import Any
 
+from flask import abort, current_app, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
+
 from calc.deltat.base import DEFAULT_METHOD
 from calc.deltat.registry import METHODS
-from calc.refdata.reference import reference_names
 from calc.io.runfile import KINDS
-from flask import abort
-from flask import current_app
-from flask import flash
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
-
+from calc.refdata.reference import reference_names
 from webapp.auth.forms import ConfirmForm
 from webapp.db import get_session
 from webapp.plot_cache import draw_result_plots
 from webapp.runs.blueprint import bp
-from webapp.runs.entry_form import KIND_TITLES
-from webapp.runs.entry_form import build_run_toml
-from webapp.runs.entry_form import check_values
-from webapp.runs.entry_form import default_values
-from webapp.runs.entry_form import error_key
-from webapp.runs.entry_form import form_sections
-from webapp.runs.entry_form import input_names
-from webapp.runs.uploads import Carried
-from webapp.runs.uploads import digest
-from webapp.runs.uploads import file_from_request
+from webapp.runs.entry_form import (
+    KIND_TITLES,
+    build_run_toml,
+    check_values,
+    default_values,
+    error_key,
+    form_sections,
+    input_names,
+)
+from webapp.runs.uploads import Carried, digest, file_from_request
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.page_data import Preview
-from webapp.services.page_data import calorimeter_choices
-from webapp.services.page_data import group_choices
-from webapp.services.page_data import preview_run
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
-from webapp.services.runs import run_for_submit_token
+from webapp.services.errors import Conflict, Invalid, ServiceError
+from webapp.services.page_data import Preview, calorimeter_choices, group_choices, preview_run
+from webapp.services.runs import RunUpload, record_run, run_for_submit_token
 
 
 def _methods() -> list[tuple[str, str]]:

@@ -17,9 +17,7 @@ from dataclasses import dataclass
 
 from calc.errors import InputError
 from calc.io.quantities import parse_measured
-from calc.io.runfile import KINDS
-from calc.io.runfile import REQUIRED_SECTIONS
-from calc.io.runfile import SCHEMA
+from calc.io.runfile import KINDS, REQUIRED_SECTIONS, SCHEMA
 from calc.kinds import get_kind
 
 #: each kind's title and what it measures (shown when choosing a kind; calc.kinds)

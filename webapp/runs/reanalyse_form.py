@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from calc.deltat.registry import METHODS
 from flask_wtf import FlaskForm
-from wtforms import FloatField
-from wtforms import SelectField
+from wtforms import FloatField, SelectField
 from wtforms.validators import Optional
+
+from calc.deltat.registry import METHODS
 
 
 class ReanalyseForm(FlaskForm):

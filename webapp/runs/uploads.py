@@ -13,8 +13,7 @@ import hashlib
 import zlib
 from dataclasses import dataclass
 
-from flask import current_app
-from flask import request
+from flask import current_app, request
 
 from webapp.services.errors import Invalid
 
@@ -64,8 +63,9 @@ def file_from_request(field: str) -> Carried | None:
     packed = request.form.get(f"{field}_packed", "")
     if packed:
         limit = int(current_app.config.get("MAX_CONTENT_LENGTH") or 4 * 1024 * 1024)
-        return Carried(_base_name(request.form.get(f"{field}_name", "")) or f"{field}.txt",
-                       unpack(packed, field, limit))
+        return Carried(
+            _base_name(request.form.get(f"{field}_name", "")) or f"{field}.txt", unpack(packed, field, limit)
+        )
     return None
 
 

@@ -2,49 +2,40 @@
 
 from __future__ import annotations
 
-from flask import Response
-from flask import current_app
-from flask import flash
-from flask import get_flashed_messages
-from flask import redirect
-from flask import render_template
-from flask import request
-from flask import url_for
-from flask_login import current_user
-from flask_login import login_required
+from flask import Response, current_app, flash, get_flashed_messages, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
 
-from webapp.auth.forms import ConfirmForm
 from calc.io.runfile import KINDS
+from webapp.auth.forms import ConfirmForm
 from webapp.db import get_session
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.run_list import FLAGS as RUN_FLAGS
-from webapp.services.run_list import SORTS as RUN_SORTS
-from webapp.services.run_list import filtered_runs_query
-from webapp.services.run_list import read_filter
-from webapp.plot_cache import budget_plot
-from webapp.plot_cache import draw_result_plots
-from webapp.plot_cache import run_plot
-from webapp.plot_cache import svg_response
+from webapp.plot_cache import budget_plot, draw_result_plots, run_plot, svg_response
 from webapp.quantities import main_value
 from webapp.runs.blueprint import bp
 from webapp.runs.reanalyse_form import ReanalyseForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.errors import Forbidden
-from webapp.services.errors import ServiceError
-from webapp.services.page_data import result_of
-from webapp.services.page_data import run_page
-from webapp.services.runs import get_run
-from webapp.services.runs import lock_run
-from webapp.services.runs import paginate
-from webapp.services.runs import reanalyse_run
+from webapp.services.calorimeters import calorimeters_query
+from webapp.services.errors import Forbidden, ServiceError
+from webapp.services.page_data import result_of, run_page
 from webapp.services.review_page import review_panel
+from webapp.services.run_list import FLAGS as RUN_FLAGS
+from webapp.services.run_list import SORTS as RUN_SORTS
+from webapp.services.run_list import filtered_runs_query, read_filter
+from webapp.services.runs import get_run, lock_run, paginate, reanalyse_run
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"
-_FORM_FIELDS = {"method": "method", "fore": "fore", "after": "after", "fore_start": "fore", "fore_end": "fore",
-                "after_start": "after", "after_end": "after", "mixing_time": "mixing_time",
-                "mixing_time_u": "mixing_time"}
+_FORM_FIELDS = {
+    "method": "method",
+    "fore": "fore",
+    "after": "after",
+    "fore_start": "fore",
+    "fore_end": "fore",
+    "after_start": "after",
+    "after_end": "after",
+    "mixing_time": "mixing_time",
+    "mixing_time_u": "mixing_time",
+}
 
 
 @bp.route("/")
@@ -56,8 +47,15 @@ def index():  # type: ignore[no-untyped-def]
     chosen = read_filter(request.args)
     session = get_session()
     result = paginate(session, filtered_runs_query(current_user, chosen), page, per_page)
-    return render_template("runs/index.html", page=result, chosen=chosen, kinds=KINDS, flags=RUN_FLAGS,
-                           sorts=RUN_SORTS, cups=[c.name for c in session.scalars(calorimeters_query())])
+    return render_template(
+        "runs/index.html",
+        page=result,
+        chosen=chosen,
+        kinds=KINDS,
+        flags=RUN_FLAGS,
+        sorts=RUN_SORTS,
+        cups=[c.name for c in session.scalars(calorimeters_query())],
+    )
 
 
 @bp.route("/<int:run_id>")
@@ -67,12 +65,11 @@ def detail(run_id: int):  # type: ignore[no-untyped-def]
     field_errors: dict[str, list[str]] = {}
     for category, message in get_flashed_messages(with_categories=True):
         if category.startswith(FIELD_FLASH):
-            field_errors.setdefault(category[len(FIELD_FLASH):], []).append(message)
+            field_errors.setdefault(category[len(FIELD_FLASH) :], []).append(message)
     return _detail_page(run_id, None, field_errors)
 
 
-def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]],
-                 status: int = 200):  # type: ignore[no-untyped-def]
+def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]], status: int = 200):  # type: ignore[no-untyped-def]
     """Render the run page; a refused re-analysis passes its form so that what was typed stays."""
     page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
     if form is None:
@@ -148,8 +145,13 @@ def lock_confirm(run_id: int):  # type: ignore[no-untyped-def]
         return redirect(url_for("runs.detail", run_id=run_id))
     if not page.may_lock:
         raise Forbidden("only the run's author or a coordinator may lock (sign) it")
-    return render_template("runs/lock_confirm.html", run=page.run, result=page.result, lock_form=ConfirmForm(),
-                           unit=main_value(page.result)[2] if page.result is not None else "")
+    return render_template(
+        "runs/lock_confirm.html",
+        run=page.run,
+        result=page.result,
+        lock_form=ConfirmForm(),
+        unit=main_value(page.result)[2] if page.result is not None else "",
+    )
 
 
 @bp.route("/<int:run_id>/lock", methods=["POST"])
@@ -171,11 +173,13 @@ def download(run_id: int, which: str):  # type: ignore[no-untyped-def]
     """Send the run file or the readings exactly as uploaded."""
     run = get_run(get_session(), current_user, run_id)
     if which == "run-file":
-        return Response(run.run_toml, mimetype="application/toml",
-                        headers={"Content-Disposition": _attachment(run.run_file_name)})
+        return Response(
+            run.run_toml, mimetype="application/toml", headers={"Content-Disposition": _attachment(run.run_file_name)}
+        )
     if which == "readings":
-        return Response(run.readings_raw, mimetype="text/csv",
-                        headers={"Content-Disposition": _attachment(run.readings_name)})
+        return Response(
+            run.readings_raw, mimetype="text/csv", headers={"Content-Disposition": _attachment(run.readings_name)}
+        )
     return render_template("error.html", status=404, title="Not Found", message="No such file."), 404
 
 
@@ -192,5 +196,6 @@ def series_index():  # type: ignore[no-untyped-def]
     from webapp.services.samples import sample_series
 
     sample = (request.args.get("sample") or "").strip()
-    return render_template("runs/samples.html", series=sample_series(get_session(), current_user, sample=sample),
-                           sample=sample)
+    return render_template(
+        "runs/samples.html", series=sample_series(get_session(), current_user, sample=sample), sample=sample
+    )

@@ -11,11 +11,8 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 
-from webapp.models import LiveRun
-from webapp.models import Person
-from webapp.models import Run
-from webapp.services.errors import Forbidden
-from webapp.services.errors import RunLocked
+from webapp.models import LiveRun, Person, Run
+from webapp.services.errors import Forbidden, RunLocked
 
 
 def is_coordinator(person: Person) -> bool:

@@ -23,18 +23,11 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 from werkzeug.security import check_password_hash
 
-from webapp.models import MAX_ID
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import SignInLink
-from webapp.models import utcnow
+from webapp.models import MAX_ID, Group, Person, SignInLink, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.people import DEFAULT_PASSWORD_METHOD
-from webapp.services.people import MIN_PASSWORD_LENGTH
-from webapp.services.people import hash_password
+from webapp.services.errors import Invalid, NotFound
+from webapp.services.people import DEFAULT_PASSWORD_METHOD, MIN_PASSWORD_LENGTH, hash_password
 
 SIGN_IN_LINK_DAYS = 14
 MAX_PASSWORD_LENGTH = 200
@@ -71,8 +64,15 @@ def find_person(session: so.Session, key: int | str) -> Person:
     return person
 
 
-def set_password(session: so.Session, actor: Person | None, person: Person, password: object, *,
-                 must_change: bool = True, method: str = DEFAULT_PASSWORD_METHOD) -> Person:
+def set_password(
+    session: so.Session,
+    actor: Person | None,
+    person: Person,
+    password: object,
+    *,
+    must_change: bool = True,
+    method: str = DEFAULT_PASSWORD_METHOD,
+) -> Person:
     """Set ``person``'s password as a coordinator (``actor`` None: the command line) and commit.
 
     With ``must_change`` the person chooses their own at the next sign-in. Older unused sign-in
@@ -83,14 +83,28 @@ def set_password(session: so.Session, actor: Person | None, person: Person, pass
     person.password_hash = hash_password(check_new_password(password), method)
     person.must_set_password = bool(must_change)
     _retire_links(session, person.id)
-    record_change(session, actor, "person", person.id, "password", None,
-                  "set by a coordinator" + ("; to be changed at the next sign-in" if must_change else ""))
+    record_change(
+        session,
+        actor,
+        "person",
+        person.id,
+        "password",
+        None,
+        "set by a coordinator" + ("; to be changed at the next sign-in" if must_change else ""),
+    )
     session.commit()
     return person
 
 
-def change_own_password(session: so.Session, person: Person, new: object, confirm: object, *,
-                        current: str | None = None, method: str = DEFAULT_PASSWORD_METHOD) -> Person:
+def change_own_password(
+    session: so.Session,
+    person: Person,
+    new: object,
+    confirm: object,
+    *,
+    current: str | None = None,
+    method: str = DEFAULT_PASSWORD_METHOD,
+) -> Person:
     """Set one's own password and commit: the current one is needed unless a new one is required now."""
     if not person.must_set_password:
         if not current or not check_password_hash(person.password_hash, current):
@@ -118,12 +132,16 @@ class IssuedLink:
 
 
 def _retire_links(session: so.Session, person_id: int) -> None:
-    session.execute(sa.update(SignInLink).where(SignInLink.person_id == person_id, SignInLink.used_at.is_(None))
-                    .values(used_at=utcnow()))
+    session.execute(
+        sa.update(SignInLink)
+        .where(SignInLink.person_id == person_id, SignInLink.used_at.is_(None))
+        .values(used_at=utcnow())
+    )
 
 
-def issue_links(session: so.Session, actor: Person | None, people: list[Person], *,
-                days: int = SIGN_IN_LINK_DAYS) -> list[IssuedLink]:
+def issue_links(
+    session: so.Session, actor: Person | None, people: list[Person], *, days: int = SIGN_IN_LINK_DAYS
+) -> list[IssuedLink]:
     """Make one sign-in link per person (coordinators; ``actor`` None: the command line) and commit.
 
     Each person's older unused links stop working, and they will choose a password after signing in.
@@ -143,12 +161,21 @@ def issue_links(session: so.Session, actor: Person | None, people: list[Person],
             raise Invalid(f"{person.email} is not active", field="people")
         _retire_links(session, person.id)
         secret = secrets.token_urlsafe(24)
-        session.add(SignInLink(person_id=person.id, token_hash=_digest(secret),
-                               created_by_id=actor.id if actor else None, expires_at=expires))
+        session.add(
+            SignInLink(
+                person_id=person.id,
+                token_hash=_digest(secret),
+                created_by_id=actor.id if actor else None,
+                expires_at=expires,
+            )
+        )
         person.must_set_password = True
-        record_change(session, actor, "person", person.id, "sign_in_link", None, f"issued, valid until {expires:%Y-%m-%d}")
-        out.append(IssuedLink(person.id, person.name, person.email, person.group.name if person.group else "",
-                              secret, expires))
+        record_change(
+            session, actor, "person", person.id, "sign_in_link", None, f"issued, valid until {expires:%Y-%m-%d}"
+        )
+        out.append(
+            IssuedLink(person.id, person.name, person.email, person.group.name if person.group else "", secret, expires)
+        )
     session.commit()
     return out
 
@@ -165,8 +192,9 @@ def use_link(session: so.Session, secret: str) -> Person | None:
     link = session.scalar(sa.select(SignInLink).where(SignInLink.token_hash == _digest(secret)))
     if link is None or link.used_at is not None or link.expires_at < now or not link.person.active:
         return None
-    spent = session.execute(sa.update(SignInLink).where(SignInLink.id == link.id, SignInLink.used_at.is_(None))
-                            .values(used_at=now))
+    spent = session.execute(
+        sa.update(SignInLink).where(SignInLink.id == link.id, SignInLink.used_at.is_(None)).values(used_at=now)
+    )
     if spent.rowcount != 1:
         session.rollback()
         return None
@@ -187,8 +215,14 @@ def link_valid(session: so.Session, secret: str) -> Person | None:
 
 def section_people(session: so.Session, section_id: int) -> list[Person]:
     """Return the people of a section's groups, by group and name."""
-    return list(session.scalars(sa.select(Person).join(Group, Group.id == Person.group_id)
-                                .where(Group.section_id == section_id).order_by(Group.name, Person.name)))
+    return list(
+        session.scalars(
+            sa.select(Person)
+            .join(Group, Group.id == Person.group_id)
+            .where(Group.section_id == section_id)
+            .order_by(Group.name, Person.name)
+        )
+    )
 
 
 def links_csv(links: list[IssuedLink], base_url: str) -> str:
@@ -202,6 +236,13 @@ def links_csv(links: list[IssuedLink], base_url: str) -> str:
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(["name", "email", "group", "link", "expires"])
     for link in links:
-        w.writerow([neutralise(link.name), neutralise(link.email), neutralise(link.group),
-                    f"{base_url.rstrip('/')}/auth/link/{link.secret}", link.expires_at.strftime("%Y-%m-%d")])
+        w.writerow(
+            [
+                neutralise(link.name),
+                neutralise(link.email),
+                neutralise(link.group),
+                f"{base_url.rstrip('/')}/auth/link/{link.secret}",
+                link.expires_at.strftime("%Y-%m-%d"),
+            ]
+        )
     return buf.getvalue()

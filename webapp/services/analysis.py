@@ -16,29 +16,20 @@ import tomllib
 from typing import Any
 
 import numpy as np
-from calc.analysis import Analysis
-from calc.analysis import analyze_spec
-from calc.analysis import check_options
+
 from calc import limits
-from calc.limits import LimitExceeded
+from calc.analysis import Analysis, analyze_spec, check_options
 from calc.deltat.base import DEFAULT_METHOD
 from calc.deltat.registry import METHODS
-from calc.errors import AnalysisError
-from calc.errors import InputError
+from calc.errors import AnalysisError, InputError
 from calc.io.quantities import Measured
-from calc.io.readings import Readings
-from calc.io.readings import parse_readings
+from calc.io.readings import Readings, parse_readings
+from calc.io.runfile import RunSpec, parse_run
+from calc.kinds import get_kind, kind_names
+from calc.limits import LimitExceeded
 from calc.report import to_record
-from calc.io.runfile import RunSpec
-from calc.io.runfile import parse_run
-from calc.kinds import get_kind
-from calc.kinds import kind_names
-
-from webapp.models import Calibration
-from webapp.models import Result
-from webapp.models import RunInput
-from webapp.services.errors import Invalid
-from webapp.services.errors import TooLarge
+from webapp.models import Calibration, Result, RunInput
+from webapp.services.errors import Invalid, TooLarge
 
 #: kinds whose model needs the calorimeter's heat capacity
 NEEDS_HEAT_CAPACITY = tuple(k for k in kind_names() if get_kind(k).needs_heat_capacity)

@@ -7,8 +7,7 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import AuditEntry
-from webapp.models import Person
+from webapp.models import AuditEntry, Person
 
 
 def _text(value: Any) -> str | None:

@@ -35,13 +35,19 @@ def _matches(row: Any, words: list[str], flag: str) -> bool:
         return False
     if flag not in ("", "any", "none") and flag not in row.flags:
         return False
-    text = " ".join(str(x) for x in (row.run_id, row.title, row.section, row.group, row.bench,
-                                     row.measurement)).lower()
+    text = " ".join(str(x) for x in (row.run_id, row.title, row.section, row.group, row.bench, row.measurement)).lower()
     return all(w in text for w in words)
 
 
-def board_page(rows: list[Any], *, query: str = "", flag: str = "", page: int = 1,
-               flags: dict[str, str] | None = None, per_page: int = GROUPS_PER_PAGE) -> BoardPage:
+def board_page(
+    rows: list[Any],
+    *,
+    query: str = "",
+    flag: str = "",
+    page: int = 1,
+    flags: dict[str, str] | None = None,
+    per_page: int = GROUPS_PER_PAGE,
+) -> BoardPage:
     """Return the rows that match ``query`` (all words) and ``flag``, the ``page``-th set of groups."""
     query = (query or "").strip()
     if len(query) > MAX_QUERY_LENGTH:
@@ -54,6 +60,7 @@ def board_page(rows: list[Any], *, query: str = "", flag: str = "", page: int = 
     pages = max(1, -(-len(order) // per_page))
     if page < 1 or page > pages:
         raise Invalid(f"page {page} does not exist (1 to {pages})", field="page")
-    shown = set(order[(page - 1) * per_page: page * per_page])
-    return BoardPage([r for r in kept if f"{r.section}\x00{r.group}" in shown], page, pages, len(order),
-                     len(kept), query, flag)
+    shown = set(order[(page - 1) * per_page : page * per_page])
+    return BoardPage(
+        [r for r in kept if f"{r.section}\x00{r.group}" in shown], page, pages, len(order), len(kept), query, flag
+    )

@@ -21,23 +21,13 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+
 from calc.errors import InputError
 from calc.io.quantities import parse_measured
-from calc.statistics.calibration_pool import moves_too_far
-from calc.statistics.calibration_pool import pool
-
-from webapp.models import STAFF_ROLES
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import utcnow
+from calc.statistics.calibration_pool import moves_too_far, pool
+from webapp.models import STAFF_ROLES, Calibration, Calorimeter, Person, Result, Run, utcnow
 from webapp.services.audit import record_change
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
 
 #: at most this many recent calibrations are pooled
 POOL_SIZE = 5
@@ -92,7 +82,7 @@ def parse_measured_date(text: Any, field: str = "measured_on") -> dt.datetime:
     except ValueError:
         raise Invalid(f"expected an ISO 8601 date such as 2026-03-14, got {text.strip()[:40]!r}", field=field) from None
     if when.tzinfo is not None:
-        when = when.astimezone(dt.timezone.utc).replace(tzinfo=None)
+        when = when.astimezone(dt.UTC).replace(tzinfo=None)
     if when.date() > utcnow().date() + dt.timedelta(days=1):
         raise Invalid(f"the date {when.date().isoformat()} is in the future", field=field)
     return when
@@ -403,8 +393,7 @@ def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int
     Each run keeps its method and periods (Monte Carlo is not repeated). Locked runs are listed,
     not changed: the lock is checked again under the row lock in the transaction that writes.
     """
-    from webapp.services.concurrency import begin_write
-    from webapp.services.concurrency import lock_row
+    from webapp.services.concurrency import begin_write, lock_row
     from webapp.services.errors import ServiceError
 
     require_staff(actor, "re-analyse runs after a calibration change")
@@ -444,11 +433,13 @@ def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int
 
 
 def _analyse_with(run: Run, target: Calibration) -> Result:
-    from webapp.services.analysis import AnalysisOptions
-    from webapp.services.analysis import decode_readings
-    from webapp.services.analysis import parse_inputs
-    from webapp.services.analysis import result_from_analysis
-    from webapp.services.analysis import run_analysis
+    from webapp.services.analysis import (
+        AnalysisOptions,
+        decode_readings,
+        parse_inputs,
+        result_from_analysis,
+        run_analysis,
+    )
 
     current = run.current_result
     given = bool(current and current.periods_given)

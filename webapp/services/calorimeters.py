@@ -7,20 +7,15 @@ from collections.abc import Mapping
 from typing import Any
 
 import sqlalchemy as sa
-from calc.checks import DEFAULT_CALORIMETER_TYPE
-from calc.io.runfile import CALORIMETER_TYPES
 import sqlalchemy.orm as so
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import utcnow
+from calc.checks import DEFAULT_CALORIMETER_TYPE
+from calc.io.runfile import CALORIMETER_TYPES
+from webapp.models import Calibration, Calorimeter, Person, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.calibrations import parse_heat_capacity
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Conflict, Invalid, NotFound
 
 #: fields of a calorimeter that can be edited (each change is audited)
 EDITABLE_FIELDS = ("name", "parts", "location", "vessel_type")
@@ -50,8 +45,10 @@ def calorimeters_query() -> sa.Select[tuple[Calorimeter]]:
 def check_vessel_type(value: str) -> str:
     """Return a calorimeter type of calc's list, or raise :class:`Invalid` naming the field."""
     if value not in CALORIMETER_TYPES:
-        raise Invalid(f"field 'vessel_type': unknown calorimeter type {value!r}; expected one of: "
-                      f"{', '.join(CALORIMETER_TYPES)}", field="vessel_type")
+        raise Invalid(
+            f"field 'vessel_type': unknown calorimeter type {value!r}; expected one of: {', '.join(CALORIMETER_TYPES)}",
+            field="vessel_type",
+        )
     return value
 
 
@@ -85,23 +82,38 @@ def create_calorimeter(
         value, u = parse_heat_capacity(heat_capacity)
         when = parse_measured_date(measured_on)
         now = utcnow()
-        session.add(Calibration(calorimeter=cal, heat_capacity_j_k=value, heat_capacity_j_k_std=u, taken_at=when,
-                                note=f"entered by {actor.name}", created_by=actor, status="approved",
-                                approved_by=actor, approved_at=now, in_force_at=now))
+        session.add(
+            Calibration(
+                calorimeter=cal,
+                heat_capacity_j_k=value,
+                heat_capacity_j_k_std=u,
+                taken_at=when,
+                note=f"entered by {actor.name}",
+                created_by=actor,
+                status="approved",
+                approved_by=actor,
+                approved_at=now,
+                in_force_at=now,
+            )
+        )
     session.commit()
     return cal
 
 
 def update_calorimeter(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, changes: Mapping[str, Any],
-    expected_version: int | None = None, *, commit: bool = True,
+    session: so.Session,
+    actor: Person,
+    calorimeter: Calorimeter,
+    changes: Mapping[str, Any],
+    expected_version: int | None = None,
+    *,
+    commit: bool = True,
 ) -> Calorimeter:
     """Change a calorimeter's name, parts or location (coordinators only), audited, and commit.
 
     The row is read again under a row lock; an older ``expected_version`` is refused (409).
     """
-    from webapp.services.concurrency import check_version
-    from webapp.services.concurrency import locked_calorimeter
+    from webapp.services.concurrency import check_version, locked_calorimeter
 
     require_coordinator(actor, "manage calorimeters")
     for key in changes:
@@ -131,8 +143,15 @@ def update_calorimeter(
 
 
 def enter_heat_capacity(
-    session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str, measured_on: Any = None,
-    note: str = "", *, confirm: bool = False, restart: bool = False,
+    session: so.Session,
+    actor: Person,
+    calorimeter: Calorimeter,
+    heat_capacity: str,
+    measured_on: Any = None,
+    note: str = "",
+    *,
+    confirm: bool = False,
+    restart: bool = False,
 ) -> Calibration:
     """Record a heat capacity measured elsewhere on a given date (staff), audited, and commit."""
     from webapp.services.calibrations import enter_heat_capacity as enter

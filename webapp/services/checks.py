@@ -35,5 +35,8 @@ def history_of(calorimeter: Any, *, leave_out_results: Iterable[int] = ()) -> li
     if calorimeter is None:
         return []
     skip = set(leave_out_results)
-    return [(c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in calorimeter.calibrations
-            if c.result_id is None or c.result_id not in skip]
+    return [
+        (c.heat_capacity_j_k, c.heat_capacity_j_k_std)
+        for c in calorimeter.calibrations
+        if c.result_id is None or c.result_id not in skip
+    ]

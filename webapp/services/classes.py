@@ -19,23 +19,13 @@ import secrets
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+
 from calc.errors import InputError
 from calc.io.quantities import parse_measured
-
-from webapp.models import ROLES
-from webapp.models import Bench
-from webapp.models import Calorimeter
-from webapp.models import Course
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Section
+from webapp.models import ROLES, Bench, Calorimeter, Course, Group, Person, Section
 from webapp.services.access import require_coordinator
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.people import DEFAULT_PASSWORD_METHOD
-from webapp.services.people import hash_password
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
+from webapp.services.people import DEFAULT_PASSWORD_METHOD, hash_password
 
 ROSTER_COLUMNS = ("course", "section", "group", "name", "email", "role")
 _EMAIL_RE = re.compile(r"[^@\s]+@[^@\s]+\.[^@\s]+")

@@ -9,13 +9,10 @@ from __future__ import annotations
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Comment
-from webapp.models import Group
-from webapp.models import Person
+from webapp.models import Comment, Group, Person
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Invalid, NotFound
 from webapp.services.runs import get_run
 
 MAX_COMMENT = 4000
@@ -26,8 +23,7 @@ def _body(text: object) -> str:
         raise Invalid("write the comment first", field="body")
     text = text.strip()
     if len(text) > MAX_COMMENT:
-        raise Invalid(f"the comment is too long: at most {MAX_COMMENT} characters (it has {len(text)})",
-                      field="body")
+        raise Invalid(f"the comment is too long: at most {MAX_COMMENT} characters (it has {len(text)})", field="body")
     return text
 
 
@@ -69,19 +65,30 @@ def add_group_comment(session: so.Session, actor: Person, group_id: int, body: o
 def run_comments(session: so.Session, actor: Person, run_id: int) -> list[Comment]:
     """Return the comments on a run ``actor`` may see, oldest first."""
     run = get_run(session, actor, run_id)
-    return list(session.scalars(sa.select(Comment).where(Comment.run_id == run.id)
-                                .options(so.joinedload(Comment.author)).order_by(Comment.created_at, Comment.id)))
+    return list(
+        session.scalars(
+            sa.select(Comment)
+            .where(Comment.run_id == run.id)
+            .options(so.joinedload(Comment.author))
+            .order_by(Comment.created_at, Comment.id)
+        )
+    )
 
 
 def group_comments(session: so.Session, actor: Person, group_ids: list[int]) -> dict[int, list[Comment]]:
     """Return the comments on each of these groups that ``actor`` may read, oldest first."""
     if not group_ids:
         return {}
-    readable = [g.id for g in session.scalars(sa.select(Group).where(Group.id.in_(group_ids)))
-                if can_read_group(actor, g)]
+    readable = [
+        g.id for g in session.scalars(sa.select(Group).where(Group.id.in_(group_ids))) if can_read_group(actor, g)
+    ]
     out: dict[int, list[Comment]] = {gid: [] for gid in readable}
     if readable:
-        for c in session.scalars(sa.select(Comment).where(Comment.group_id.in_(readable))
-                                 .options(so.joinedload(Comment.author)).order_by(Comment.created_at, Comment.id)):
+        for c in session.scalars(
+            sa.select(Comment)
+            .where(Comment.group_id.in_(readable))
+            .options(so.joinedload(Comment.author))
+            .order_by(Comment.created_at, Comment.id)
+        ):
             out[c.group_id].append(c)  # type: ignore[index]
     return out

@@ -20,20 +20,41 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Calorimeter
-from webapp.models import Result
-from webapp.models import Run
-from webapp.services.errors import NotFound
-from webapp.services.errors import Stale
+from webapp.models import Calorimeter, Result, Run
+from webapp.services.errors import NotFound, Stale
 
 #: the run details a lock signs, besides the files and the result
-SIGNED_FIELDS = ("kind", "title", "operator", "bench", "performed_on", "notes", "group_id", "calorimeter_id",
-                 "calibration_id")
+SIGNED_FIELDS = (
+    "kind",
+    "title",
+    "operator",
+    "bench",
+    "performed_on",
+    "notes",
+    "group_id",
+    "calorimeter_id",
+    "calibration_id",
+)
 #: the result numbers a lock signs
-SIGNED_RESULT = ("id", "method", "main", "fore_start_s", "fore_end_s", "after_start_s", "after_end_s",
-                 "corrected_delta_t_k", "corrected_delta_t_k_std", "heat_j", "heat_j_std", "molar_enthalpy_kj_mol",
-                 "molar_enthalpy_kj_mol_std", "calorimeter_heat_capacity_j_k",
-                 "calorimeter_heat_capacity_j_k_std", "expanded_uncertainty", "coverage_factor")
+SIGNED_RESULT = (
+    "id",
+    "method",
+    "main",
+    "fore_start_s",
+    "fore_end_s",
+    "after_start_s",
+    "after_end_s",
+    "corrected_delta_t_k",
+    "corrected_delta_t_k_std",
+    "heat_j",
+    "heat_j_std",
+    "molar_enthalpy_kj_mol",
+    "molar_enthalpy_kj_mol_std",
+    "calorimeter_heat_capacity_j_k",
+    "calorimeter_heat_capacity_j_k_std",
+    "expanded_uncertainty",
+    "coverage_factor",
+)
 
 
 def begin_write(session: so.Session) -> None:
@@ -82,15 +103,25 @@ def locked_calorimeter(session: so.Session, calorimeter_id: int) -> Calorimeter:
 def run_state(run: Run) -> dict[str, Any]:
     """Return the stored state of a run that a 409 answer carries."""
     current = run.current_result
-    return {"id": run.id, "version": run.version, "locked": bool(run.locked),
-            "current_result_id": current.id if current else None,
-            **{k: getattr(run, k) for k in ("title", "operator", "bench", "performed_on", "notes", "group_id")}}
+    return {
+        "id": run.id,
+        "version": run.version,
+        "locked": bool(run.locked),
+        "current_result_id": current.id if current else None,
+        **{k: getattr(run, k) for k in ("title", "operator", "bench", "performed_on", "notes", "group_id")},
+    }
 
 
 def calorimeter_state(cal: Calorimeter) -> dict[str, Any]:
     """Return the stored state of a calorimeter that a 409 answer carries."""
-    return {"id": cal.id, "version": cal.version, "name": cal.name, "parts": cal.parts, "location": cal.location,
-            "calibration_interval_days": cal.calibration_interval_days}
+    return {
+        "id": cal.id,
+        "version": cal.version,
+        "name": cal.name,
+        "parts": cal.parts,
+        "location": cal.location,
+        "calibration_interval_days": cal.calibration_interval_days,
+    }
 
 
 def check_version(entity: str, obj: Run | Calorimeter, expected: int | None) -> None:
@@ -101,9 +132,11 @@ def check_version(entity: str, obj: Run | Calorimeter, expected: int | None) -> 
     if expected is None or expected == obj.version:
         return
     state = run_state(obj) if isinstance(obj, Run) else calorimeter_state(obj)  # type: ignore[arg-type]
-    raise Stale(f"{entity} {obj.id} was changed by someone else (you sent version {expected}, it is now "
-                f"version {obj.version}); nothing was saved. Reload it, then make your change again",
-                current={entity: state})
+    raise Stale(
+        f"{entity} {obj.id} was changed by someone else (you sent version {expected}, it is now "
+        f"version {obj.version}); nothing was saved. Reload it, then make your change again",
+        current={entity: state},
+    )
 
 
 def bump(obj: Run | Calorimeter) -> None:

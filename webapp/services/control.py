@@ -18,26 +18,17 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.statistics.control_charts import RULES
-from calc.statistics.control_charts import calibration_status
-from calc.statistics.control_charts import control_chart
-from calc.errors import InputError
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.services.access import require_coordinator
-from webapp.services.access import visible_runs_clause
+from calc.errors import InputError
+from calc.statistics.control_charts import RULES, calibration_status, control_chart
+from webapp.models import Calibration, Calorimeter, Person, Result, Run
+from webapp.services.access import require_coordinator, visible_runs_clause
 from webapp.services.audit import record_change
 from webapp.services.calorimeters import get_calorimeter
-from webapp.services.checks import flag_text
-from webapp.services.checks import flagged_checks
+from webapp.services.checks import flag_text, flagged_checks
 from webapp.services.dashboard import _measurement
 from webapp.services.errors import Invalid
-from webapp.services.review import included_in_statistics
-from webapp.services.review import with_review
+from webapp.services.review import included_in_statistics, with_review
 
 DEFAULT_BASELINE = 20
 #: the chart of the calorimeter's own heat capacity (its approved calibrations, in the order measured)
@@ -72,7 +63,7 @@ def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days
     if last is None:
         return {"last": None, "interval_days": days, "due": None, "overdue": True, "days_left": None,
                 "message": "never calibrated: calibrate before use"}
-    st = calibration_status(last, days, today or dt.datetime.now(dt.timezone.utc).date())
+    st = calibration_status(last, days, today or dt.datetime.now(dt.UTC).date())
     msg = (f"overdue since {st.due.isoformat()}" if st.overdue else f"due on {st.due.isoformat()} "
            f"({st.days_left} day(s) left)")
     return {"last": st.last_calibration.isoformat(), "interval_days": days, "due": st.due.isoformat(),

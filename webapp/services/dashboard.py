@@ -26,41 +26,30 @@ from __future__ import annotations
 import dataclasses
 import math
 import threading
-from collections import Counter
-from collections import defaultdict
+from collections import Counter, defaultdict
 from types import SimpleNamespace
 from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc import formatting as fmt
-from calc.refdata.comparison import verdict
-from calc.errors import InputError
-from calc.statistics.replicates import shared_type_b
-from calc.statistics.precision import grubbs
-from calc.statistics.precision import iso5725
 
-from webapp.models import Calibration
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunInput
-from webapp.models import RunReview
-from webapp.models import Section
+from calc import formatting as fmt
+from calc.errors import InputError
+from calc.refdata.comparison import verdict
+from calc.statistics.precision import grubbs, iso5725
+from calc.statistics.replicates import shared_type_b
+from webapp.models import Calibration, Group, Person, Result, Run, RunInput, RunReview, Section
 from webapp.services.analysis import NEEDS_HEAT_CAPACITY
 from webapp.services.checks import flag_text
-from webapp.services.classes import get_course
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
+from webapp.services.classes import get_course, get_section, require_staff
 from webapp.services.errors import Invalid
-from webapp.services.feedback import FLAGS
-from webapp.services.feedback import group_feedback  # noqa: F401  (part of this module's interface)
-from webapp.services.feedback import split_feedback
-from webapp.services.marks import run_mark
-from webapp.services.marks import scheme_of
-from webapp.services.review import included_in_statistics
-from webapp.services.review import run_flagged
+from webapp.services.feedback import (
+    FLAGS,
+    group_feedback,  # noqa: F401  (part of this module's interface)
+    split_feedback,
+)
+from webapp.services.marks import run_mark, scheme_of
+from webapp.services.review import included_in_statistics, run_flagged
 from webapp.services.series import budget_lines
 
 #: days a calibration stays valid when the calorimeter sets no interval (the notebook's default)
@@ -289,10 +278,8 @@ def collect_rows(session: so.Session, sections: list[Section]) -> list[Row]:
 
 
 def _overdue_flags(session: so.Session, rows: list[Row]) -> None:
-    from webapp.models import Calibration
-    from webapp.models import Calorimeter
-    from webapp.services.calibrations import measured_at
-    from webapp.services.calibrations import overdue_note
+    from webapp.models import Calibration, Calorimeter
+    from webapp.services.calibrations import measured_at, overdue_note
 
     by_id = {r.run_id: r for r in rows}
     if not by_id:

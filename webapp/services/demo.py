@@ -15,17 +15,11 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Calibration
-from webapp.models import Person
-from webapp.models import utcnow
+from webapp.models import Calibration, Person, utcnow
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.calorimeters import create_calorimeter
-from webapp.services.calorimeters import find_calorimeter
-from webapp.services.people import create_course
-from webapp.services.people import create_group
-from webapp.services.people import create_person
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
+from webapp.services.calorimeters import create_calorimeter, find_calorimeter
+from webapp.services.people import create_course, create_group, create_person
+from webapp.services.runs import RunUpload, record_run
 
 DEMO_DIR = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 DEMO_PASSWORD = "tern-hollow-demo"
@@ -147,8 +141,7 @@ def _load_class(session: so.Session, coordinator: Person, course_id: int, groups
     comments are added and the run with a typing slip is excluded from the statistics.
     """
     from webapp.services.classes import create_section
-    from webapp.services.comments import add_group_comment
-    from webapp.services.comments import add_run_comment
+    from webapp.services.comments import add_group_comment, add_run_comment
     from webapp.services.review import review_run
 
     for name, members in SECTIONS:

@@ -28,28 +28,17 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc import __version__
 
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
+from calc import __version__
+from webapp.exports.document import iso, run_document, selected_runs
+from webapp.exports.rocrate import CONTEXT, EXPORT_NAME, METADATA, PROFILE
+from webapp.models import AuditEntry, Calibration, Calorimeter, Group, Person, Result, Run
 from webapp.services.access import visible_runs_clause
 from webapp.services.audit import entry_as_dict
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.classes import get_section
 from webapp.services.eln_plots import plots_of
 from webapp.services.errors import Invalid
-from webapp.exports.document import iso
-from webapp.exports.document import run_document
-from webapp.exports.document import selected_runs
-from webapp.exports.rocrate import CONTEXT
-from webapp.exports.rocrate import EXPORT_NAME
-from webapp.exports.rocrate import METADATA
-from webapp.exports.rocrate import PROFILE
 
 #: the namespace of cupcal's own terms in the metadata
 NAMESPACE = "urn:cupcal:terms:"
@@ -105,7 +94,7 @@ def safe_name(name: str, fallback: str) -> str:
 
 
 def _utc_now() -> dt.datetime:
-    return dt.datetime.now(dt.timezone.utc).replace(tzinfo=None)
+    return dt.datetime.now(dt.UTC).replace(tzinfo=None)
 
 
 # ----------------------------------------------------------------- a run
@@ -407,8 +396,7 @@ def report_renderer(pdf: bool = False) -> Any:
 
     The PDF takes about a second a run, so it is made for one-run archives only.
     """
-    from webapp.exports.report import report_html
-    from webapp.exports.report import report_pdf
+    from webapp.exports.report import report_html, report_pdf
 
     def render(run: Run) -> dict[str, bytes]:
         out = {REPORT_NAME: report_html(run, plot_uri="plot-temperature.svg" if run.current_result else "")

@@ -20,11 +20,9 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.io.runfile import CALORIMETER_TYPES
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Person
+from calc.io.runfile import CALORIMETER_TYPES
+from webapp.models import Calibration, Calorimeter, Person
 from webapp.services.access import require_coordinator
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Invalid
@@ -54,8 +52,7 @@ def when(text: Any, field: str) -> dt.datetime:
         t = dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
     except ValueError:
         raise Invalid(f"expected a date and time (ISO 8601), got {text!r}", field=field) from None
-    return t.astimezone(dt.timezone.utc).replace(tzinfo=None) if t.tzinfo else t
-
+    return t.astimezone(dt.UTC).replace(tzinfo=None) if t.tzinfo else t
 
 
 def _time(c: dict[str, Any], key: str, where: str, *, required: bool = False) -> dt.datetime | None:
@@ -80,8 +77,11 @@ def _fields(c: Any, where: str, people: Any) -> dict[str, Any]:
         raise Invalid(f"{where}: expected an object", field="calibrations")
     hc = c.get("heat_capacity") if isinstance(c.get("heat_capacity"), dict) else {}
     value, u = hc.get("value"), hc.get("standard_uncertainty")
-    if not all(isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x) for x in (value, u)) \
-            or not value > 0 or u < 0:
+    if (
+        not all(isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x) for x in (value, u))
+        or not value > 0
+        or u < 0
+    ):
         raise Invalid(f"{where}: expected a positive heat capacity ± u in J/K", field="calibrations")
     status = c.get("status", "approved")
     if status not in STATUSES:
@@ -90,12 +90,19 @@ def _fields(c: Any, where: str, people: Any) -> dict[str, Any]:
         raise Invalid(f"{where}.restart: expected true or false", field="calibrations")
     taken = _time(c, "taken_at", where, required=True)
     return {
-        "heat_capacity_j_k": float(value), "heat_capacity_j_k_std": float(u), "taken_at": taken,
-        "created_at": _time(c, "created_at", where) or taken, "note": _text(c, "note", where),
-        "created_by": people.get(c.get("created_by")), "status": status,
-        "approved_by": people.get(c.get("approved_by")), "approved_at": _time(c, "approved_at", where),
-        "withdrawn_by": people.get(c.get("withdrawn_by")), "withdrawn_at": _time(c, "withdrawn_at", where),
-        "withdrawn_reason": _text(c, "withdrawn_reason", where), "restart": bool(c.get("restart", False)),
+        "heat_capacity_j_k": float(value),
+        "heat_capacity_j_k_std": float(u),
+        "taken_at": taken,
+        "created_at": _time(c, "created_at", where) or taken,
+        "note": _text(c, "note", where),
+        "created_by": people.get(c.get("created_by")),
+        "status": status,
+        "approved_by": people.get(c.get("approved_by")),
+        "approved_at": _time(c, "approved_at", where),
+        "withdrawn_by": people.get(c.get("withdrawn_by")),
+        "withdrawn_at": _time(c, "withdrawn_at", where),
+        "withdrawn_reason": _text(c, "withdrawn_reason", where),
+        "restart": bool(c.get("restart", False)),
         "in_force_at": _time(c, "in_force_at", where),
     }
 
@@ -117,14 +124,23 @@ def _pool(c: dict[str, Any], name: str, known: Known, where: str) -> dict[str, A
 
 
 def _same(session: so.Session, cal: Calorimeter, f: dict[str, Any]) -> Calibration | None:
-    return session.scalar(sa.select(Calibration).where(
-        Calibration.calorimeter_id == cal.id, Calibration.heat_capacity_j_k == f["heat_capacity_j_k"],
-        Calibration.heat_capacity_j_k_std == f["heat_capacity_j_k_std"], Calibration.taken_at == f["taken_at"],
-        Calibration.created_at == f["created_at"]).order_by(Calibration.id).limit(1))
+    return session.scalar(
+        sa.select(Calibration)
+        .where(
+            Calibration.calorimeter_id == cal.id,
+            Calibration.heat_capacity_j_k == f["heat_capacity_j_k"],
+            Calibration.heat_capacity_j_k_std == f["heat_capacity_j_k_std"],
+            Calibration.taken_at == f["taken_at"],
+            Calibration.created_at == f["created_at"],
+        )
+        .order_by(Calibration.id)
+        .limit(1)
+    )
 
 
-def restore_calibrations(session: so.Session, actor: Person, cal: Calorimeter, entries: list[Any], people: Any,
-                         known: Known, where: str) -> int:
+def restore_calibrations(
+    session: so.Session, actor: Person, cal: Calorimeter, entries: list[Any], people: Any, known: Known, where: str
+) -> int:
     """Store the calibrations of a format-2 file this notebook lacks (pools after their members); return how many."""
     added = 0
     pools = []
@@ -139,8 +155,16 @@ def restore_calibrations(session: so.Session, actor: Person, cal: Calorimeter, e
     return added
 
 
-def _one(session: so.Session, actor: Person, cal: Calorimeter, c: Any, pool: dict[str, Any] | None, people: Any,
-         known: Known, at: str) -> int:
+def _one(
+    session: so.Session,
+    actor: Person,
+    cal: Calorimeter,
+    c: Any,
+    pool: dict[str, Any] | None,
+    people: Any,
+    known: Known,
+    at: str,
+) -> int:
     f = _fields(c, at, people)
     row, added = _same(session, cal, f), 0
     if row is None:
@@ -172,14 +196,19 @@ def new_calorimeter(session: so.Session, actor: Person, doc: dict[str, Any], whe
     require_coordinator(actor, "add calorimeters")
     vessel = doc.get("vessel_type", "foam-cups")
     if vessel not in CALORIMETER_TYPES:
-        raise Invalid(f"{where}: vessel_type: expected one of {', '.join(CALORIMETER_TYPES)}, got {vessel!r}",
-                      field="vessel_type")
+        raise Invalid(
+            f"{where}: vessel_type: expected one of {', '.join(CALORIMETER_TYPES)}, got {vessel!r}", field="vessel_type"
+        )
     interval = doc.get("calibration_interval_days")
     if interval is not None and (not isinstance(interval, int) or isinstance(interval, bool) or interval < 1):
         raise Invalid(f"{where}: calibration_interval_days: expected a whole number of days", field="calorimeter")
-    cal = Calorimeter(name=doc["name"].strip()[:200], parts=str(doc.get("parts") or ""),
-                      location=str(doc.get("location") or "")[:200], calibration_interval_days=interval,
-                      vessel_type=vessel)
+    cal = Calorimeter(
+        name=doc["name"].strip()[:200],
+        parts=str(doc.get("parts") or ""),
+        location=str(doc.get("location") or "")[:200],
+        calibration_interval_days=interval,
+        vessel_type=vessel,
+    )
     if doc.get("created_at"):
         cal.created_at = when(doc["created_at"], "created_at")
     session.add(cal)
@@ -187,8 +216,9 @@ def new_calorimeter(session: so.Session, actor: Person, doc: dict[str, Any], whe
     return cal
 
 
-def restore_trail(session: so.Session, cal: Calorimeter, entries: Any, people: Any, known: Known, *,
-                  new_calorimeter: bool, where: str) -> None:
+def restore_trail(
+    session: so.Session, cal: Calorimeter, entries: Any, people: Any, known: Known, *, new_calorimeter: bool, where: str
+) -> None:
     """Store the audit entries of the calorimeter (when it is new here) and of the calibrations just added."""
     from webapp.models import AuditEntry
 
@@ -196,15 +226,23 @@ def restore_trail(session: so.Session, cal: Calorimeter, entries: Any, people: A
         raise Invalid(f"{where}: audit_trail: expected a list", field="audit_trail")
     for i, e in enumerate(entries):
         if not isinstance(e, dict) or not isinstance(e.get("field"), str) or not isinstance(e.get("entity_id"), int):
-            raise Invalid(f"{where}: audit_trail[{i}]: expected an object with 'entity_id' and 'field'",
-                          field="audit_trail")
+            raise Invalid(
+                f"{where}: audit_trail[{i}]: expected an object with 'entity_id' and 'field'", field="audit_trail"
+            )
         if e.get("entity") == "calorimeter" and new_calorimeter:
             entity_id = cal.id
         elif e.get("entity") == "calibration" and (cal.name, e["entity_id"]) in known.added:
             entity_id = known.by_source[(cal.name, e["entity_id"])]
         else:
             continue
-        session.add(AuditEntry(at=when(e.get("at"), f"audit_trail[{i}].at"), person=people.get(e.get("person")),
-                               entity=e["entity"], entity_id=entity_id, field=e["field"][:80],
-                               old=None if e.get("old") is None else str(e["old"]),
-                               new=None if e.get("new") is None else str(e["new"])))
+        session.add(
+            AuditEntry(
+                at=when(e.get("at"), f"audit_trail[{i}].at"),
+                person=people.get(e.get("person")),
+                entity=e["entity"],
+                entity_id=entity_id,
+                field=e["field"][:80],
+                old=None if e.get("old") is None else str(e["old"]),
+                new=None if e.get("new") is None else str(e["new"]),
+            )
+        )

@@ -20,11 +20,9 @@ import zipfile
 from typing import Any
 from urllib.parse import unquote
 
-from webapp.services.errors import Invalid
-from webapp.services.imports import MAX_FILES
-from webapp.services.imports import Limits
-from webapp.services.imports import files_from_zip
 from webapp.exports.rocrate import METADATA
+from webapp.services.errors import Invalid
+from webapp.services.imports import MAX_FILES, Limits, files_from_zip
 
 #: the bulk import's limits, with room for the files an experiment folder holds beside its run file and log
 #: (a bulk import counts two files a run; a cupcal run folder holds up to eight)
@@ -94,11 +92,16 @@ def _root_of(names: list[str], files: dict[str, bytes], source: str) -> str:
     tops = {p.split("/", 1)[0] for p in files}
     loose = sorted(p for p in files if "/" not in p)
     if loose:
-        raise _refuse(source, f"{loose[0]!r} sits beside the root folder; an .eln archive holds exactly one "
-                              "folder at its root and nothing else")
+        raise _refuse(
+            source,
+            f"{loose[0]!r} sits beside the root folder; an .eln archive holds exactly one "
+            "folder at its root and nothing else",
+        )
     if len(tops) != 1:
-        raise _refuse(source, f"{len(tops)} folders at the root ({', '.join(sorted(tops)[:5])}); "
-                              "an .eln archive holds exactly one")
+        raise _refuse(
+            source,
+            f"{len(tops)} folders at the root ({', '.join(sorted(tops)[:5])}); an .eln archive holds exactly one",
+        )
     return tops.pop()
 
 
@@ -184,10 +187,12 @@ def _check_files(entities: dict[str, dict[str, Any]], files: dict[str, bytes], s
         if path not in files:
             raise _refuse(source, f"the metadata describes the file {pid!r}, which is not in the archive")
         digest = e.get("sha256")
-        if digest is not None and (not isinstance(digest, str)
-                                   or hashlib.sha256(files[path]).hexdigest() != digest.lower()):
-            raise _refuse(source, f"the sha256 of {pid!r} does not match its bytes: the archive is damaged "
-                                  "or was changed")
+        if digest is not None and (
+            not isinstance(digest, str) or hashlib.sha256(files[path]).hexdigest() != digest.lower()
+        ):
+            raise _refuse(
+                source, f"the sha256 of {pid!r} does not match its bytes: the archive is damaged or was changed"
+            )
         size = e.get("contentSize")
         if size is not None and str(size).isdigit() and int(size) != len(files[path]):
             raise _refuse(source, f"the contentSize of {pid!r} ({size}) is not its size ({len(files[path])} bytes)")
@@ -202,7 +207,7 @@ def read_archive(data: bytes, source: str = "archive.eln", limits: Limits = ELN_
         tail = "" if "nothing was imported" in exc.message else "; nothing was imported"
         raise Invalid(exc.message + tail, field="archive") from None
     root = _root_of(names, files, source)
-    inner = {p[len(root) + 1:]: b for p, b in files.items()}
+    inner = {p[len(root) + 1 :]: b for p, b in files.items()}
     if METADATA not in inner:
         raise _refuse(source, f"no {root}/{METADATA}")
     try:

@@ -24,34 +24,18 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
+from webapp.exports.document import FORMAT
+from webapp.exports.rocrate import EXPORT_NAME, METADATA
+from webapp.models import Person, Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.eln import CALORIMETER_FORMAT
-from webapp.services.eln import CALORIMETER_NAME
+from webapp.services.eln import CALORIMETER_FORMAT, CALORIMETER_NAME
 from webapp.services.eln_calibrations import Known
-from webapp.services.eln_check import ELN_LIMITS
-from webapp.services.eln_check import ElnArchive
-from webapp.services.eln_check import read_archive
-from webapp.services.eln_restore import People
-from webapp.services.eln_restore import calibration_stamps
-from webapp.services.eln_restore import restore_calorimeter
-from webapp.services.eln_restore import restore_run
-from webapp.services.eln_restore import when
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.errors import storage_error
-from webapp.exports.document import FORMAT
-from webapp.services.imports import ImportItem
-from webapp.services.imports import ImportReport
-from webapp.services.imports import Limits
-from webapp.services.imports import _readings_name
-from webapp.services.imports import _record
-from webapp.services.imports import content_hash
-from webapp.exports.rocrate import EXPORT_NAME
-from webapp.exports.rocrate import METADATA
+from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
+from webapp.services.eln_restore import People, calibration_stamps, restore_calorimeter, restore_run, when
+from webapp.services.errors import Invalid, ServiceError, storage_error
+from webapp.services.imports import ImportItem, ImportReport, Limits, _readings_name, _record, content_hash
 from webapp.services.runs import RunUpload
 
 DEFAULT_PASSWORD_METHOD = "scrypt"
@@ -96,8 +80,10 @@ class _Import:
             failure = storage_error(exc)
             if failure is None:
                 raise
-            raise type(failure)(f"{path}: {failure.message}. The import stopped at this file; what came before "
-                                "is stored, and importing the same archive again skips it") from None
+            raise type(failure)(
+                f"{path}: {failure.message}. The import stopped at this file; what came before "
+                "is stored, and importing the same archive again skips it"
+            ) from None
         except BaseException:
             self.session.rollback()
             raise
@@ -142,8 +128,10 @@ def _calorimeters(job: _Import, folders: dict[str, list[str]]) -> None:
         if not isinstance(doc, dict) or doc.get("format") != CALORIMETER_FORMAT:
             continue
         job.stamps.update(calibration_stamps(doc))
-        message = job.attempt(path, lambda: restore_calorimeter(job.session, job.actor, doc, job.people, path,
-                                                                       job.known))
+        message = job.attempt(
+            path,
+            lambda doc=doc, path=path: restore_calorimeter(job.session, job.actor, doc, job.people, path, job.known),
+        )
         if message is not None:
             job.item(path, "stored", message)
 
@@ -156,8 +144,9 @@ def _cupcal_runs(job: _Import, folders: dict[str, list[str]]) -> None:
         if isinstance(doc, dict) and doc.get("format") == FORMAT:
             prov = doc.get("provenance") if isinstance(doc.get("provenance"), dict) else {}
             source_id = (doc.get("run") or {}).get("id") if isinstance(doc.get("run"), dict) else None
-            found.append((str(prov.get("recorded_at") or ""), source_id if isinstance(source_id, int) else 0,
-                          folder, doc))
+            found.append(
+                (str(prov.get("recorded_at") or ""), source_id if isinstance(source_id, int) else 0, folder, doc)
+            )
     for _at, source_id, folder, doc in sorted(found, key=lambda f: (f[0], f[1])):
         _one_cupcal_run(job, folder, folders[folder], doc, source_id)
 
@@ -179,8 +168,18 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
         existing = _existing(job.session, digest) or _same_run(job.session, doc, digest)
         if existing is not None:
             return existing, "unchanged"
-        run = restore_run(job.session, job.actor, doc, blobs, job.people, job.groups, path, job.stamps,
-                          job.known, f"from {job.archive.source} (run {source_id} of the notebook that wrote it)")
+        run = restore_run(
+            job.session,
+            job.actor,
+            doc,
+            blobs,
+            job.people,
+            job.groups,
+            path,
+            job.stamps,
+            job.known,
+            f"from {job.archive.source} (run {source_id} of the notebook that wrote it)",
+        )
         job.session.commit()
         return run.id, "stored"
 
@@ -191,8 +190,12 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
                 job.item(p, "ignored", f"part of {folder}/, which was not imported (see the error of {path})")
         return
     run_id, outcome = done
-    job.item(posixpath.join(folder, names[0]), outcome,
-             f"run #{run_id}" + (" (already stored)" if outcome == "unchanged" else " with every result"), run_id)
+    job.item(
+        posixpath.join(folder, names[0]),
+        outcome,
+        f"run #{run_id}" + (" (already stored)" if outcome == "unchanged" else " with every result"),
+        run_id,
+    )
     job.item(posixpath.join(folder, names[1]), "used", f"the log of run #{run_id}", run_id)
     job.item(path, "used", f"results, inputs and audit fields of run #{run_id}", run_id)
     for p in paths:
@@ -202,7 +205,7 @@ def _one_cupcal_run(job: _Import, folder: str, paths: list[str], doc: dict[str, 
 
 def _foreign_runs(job: _Import, folders: dict[str, list[str]]) -> None:
     files = job.archive.files
-    for folder, paths in folders.items():
+    for paths in folders.values():
         for path in paths:
             if not path.lower().endswith(".toml") or path in job.done:
                 continue
@@ -220,8 +223,9 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise Invalid(f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
-                      field="run_file") from None
+        raise Invalid(
+            f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
+        ) from None
     rname = _readings_name(text, path)
     rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
     if rpath not in files or rpath.startswith("../"):
@@ -231,17 +235,34 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     existing = _existing(job.session, digest)
     if existing is not None:
         return path, "unchanged", f"already stored as run #{existing}", existing
-    run = _record(job.session, job.actor, RunUpload(
-        run_toml=text, run_file_name=posixpath.basename(path), readings=files[rpath],
-        readings_name=posixpath.basename(rpath), options=AnalysisOptions(monte_carlo_trials=0)), digest, None)
+    run = _record(
+        job.session,
+        job.actor,
+        RunUpload(
+            run_toml=text,
+            run_file_name=posixpath.basename(path),
+            readings=files[rpath],
+            readings_name=posixpath.basename(rpath),
+            options=AnalysisOptions(monte_carlo_trials=0),
+        ),
+        digest,
+        None,
+    )
     record_change(job.session, job.actor, "run", run.id, "imported", None, f"from {job.archive.source}")
     job.session.commit()
     job.item(rpath, "used", f"the log of run #{run.id}", run.id)
     return path, "stored", f"run #{run.id}", run.id
 
 
-def import_eln(session: so.Session, actor: Person, data: bytes, *, source: str = "archive.eln",
-               limits: Limits = ELN_LIMITS, password_method: str = DEFAULT_PASSWORD_METHOD) -> ImportReport:
+def import_eln(
+    session: so.Session,
+    actor: Person,
+    data: bytes,
+    *,
+    source: str = "archive.eln",
+    limits: Limits = ELN_LIMITS,
+    password_method: str = DEFAULT_PASSWORD_METHOD,
+) -> ImportReport:
     """Import an ``.eln`` archive and report every file of it.
 
     :raise Forbidden: unless ``actor`` is a coordinator or a technician
@@ -259,6 +280,11 @@ def import_eln(session: so.Session, actor: Person, data: bytes, *, source: str =
     finally:
         session.expire_on_commit = expire
     if job.accounts:
-        job.report.items.append(ImportItem(archive.root, "stored", "inactive accounts (they cannot sign in) for: "
-                                           + ", ".join(sorted(job.accounts))))
+        job.report.items.append(
+            ImportItem(
+                archive.root,
+                "stored",
+                "inactive accounts (they cannot sign in) for: " + ", ".join(sorted(job.accounts)),
+            )
+        )
     return job.report

@@ -19,42 +19,27 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import CALIBRATION_KINDS
-from webapp.models import AuditEntry
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import RunReview
+from webapp.exports.document import FORMAT, result_document
+from webapp.models import CALIBRATION_KINDS, AuditEntry, Calibration, Calorimeter, Group, Person, Result, Run, RunReview
 from webapp.services.access import require_coordinator
-from webapp.services.analysis import decode_readings
-from webapp.services.analysis import inputs_from_spec
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import parse_inputs
-from webapp.services.analysis import result_from_analysis
-from webapp.services.analysis import run_analysis
+from webapp.services.analysis import (
+    decode_readings,
+    inputs_from_spec,
+    needs_supplied_heat_capacity,
+    parse_inputs,
+    result_from_analysis,
+    run_analysis,
+)
 from webapp.services.audit import record_change
 from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.concurrency import content_hash as signed_hash
-from webapp.services.eln_calibrations import Known
-from webapp.services.eln_calibrations import when
-from webapp.services.eln_calibrations import new_calorimeter
-from webapp.services.eln_calibrations import restore_calibrations
-from webapp.services.eln_calibrations import restore_trail
+from webapp.services.eln_calibrations import Known, new_calorimeter, restore_calibrations, restore_trail, when
 from webapp.services.errors import Invalid
-from webapp.exports.document import FORMAT
-from webapp.exports.document import result_document
 from webapp.services.imports import content_hash
-from webapp.services.package_import import _file
-from webapp.services.package_import import _options
+from webapp.services.package_import import _file, _options
 from webapp.services.people import hash_password
-from webapp.services.runs import RunUpload
-from webapp.services.runs import _new_run
-from webapp.services.runs import _periods_given
-from webapp.services.runs import upload_file_name
+from webapp.services.runs import RunUpload, _new_run, _periods_given, upload_file_name
 
 #: most results of one run read back (each is analysed again)
 MAX_RESULTS = 100

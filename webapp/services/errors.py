@@ -88,10 +88,14 @@ def storage_error(exc: BaseException) -> StorageUnavailable | None:
     text = str(orig if orig is not None else exc).strip()
     first = text.splitlines()[0] if text else type(exc).__name__
     if getattr(orig, "sqlstate", None) == "53100" or any(s in text.lower() for s in _FULL_SIGNS):
-        return StorageFull(f"the database's disk is full ({first}); nothing of this was saved. "
-                           "Free some space (or ask the notebook's administrator) and try again")
-    return StorageUnavailable(f"the database is unavailable just now ({first}); nothing of this was saved. "
-                              "Try again in a moment; if it persists, tell the notebook's administrator")
+        return StorageFull(
+            f"the database's disk is full ({first}); nothing of this was saved. "
+            "Free some space (or ask the notebook's administrator) and try again"
+        )
+    return StorageUnavailable(
+        f"the database is unavailable just now ({first}); nothing of this was saved. "
+        "Try again in a moment; if it persists, tell the notebook's administrator"
+    )
 
 
 class Stale(Conflict):

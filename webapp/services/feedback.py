@@ -6,8 +6,7 @@ for all groups; each group reads only what is specific to it (:func:`split_feedb
 
 from __future__ import annotations
 
-from collections import Counter
-from collections import defaultdict
+from collections import Counter, defaultdict
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
@@ -26,15 +25,27 @@ FLAGS: dict[str, str] = {
 
 
 _ADVICE: list[tuple[str, str]] = [
-    ("calorimeter.heat_capacity", "calibrate the cup yourself (an electrical or mixing calibration, repeated) so its "
-                                  "heat capacity is known better, or use more solution so the cup takes a smaller share of the heat"),
-    ("delta_t.fit", "record steady fore and after periods (3–5 minutes before mixing, 5–10 minutes after), keep the lid on "
-                    "and stir at a constant rate, so the drift lines are well defined"),
-    ("delta_t.resolution", "use a thermometer with a finer resolution, or more substance for a larger temperature change"),
+    (
+        "calorimeter.heat_capacity",
+        "calibrate the cup yourself (an electrical or mixing calibration, repeated) so its "
+        "heat capacity is known better, or use more solution so the cup takes a smaller share of the heat",
+    ),
+    (
+        "delta_t.fit",
+        "record steady fore and after periods (3–5 minutes before mixing, 5–10 minutes after), keep the lid on "
+        "and stir at a constant rate, so the drift lines are well defined",
+    ),
+    (
+        "delta_t.resolution",
+        "use a thermometer with a finer resolution, or more substance for a larger temperature change",
+    ),
     ("delta_t.mixing_time", "note the exact time you add the substance (or pour), and add it in one go"),
     ("delta_t.method", "keep the temperature change moderate and the log long enough after the change"),
-    ("mixture.specific_heat_capacity", "give the solution's specific heat capacity with a smaller uncertainty "
-                                       "(a measured value, or leave it out so the property model supplies it)"),
+    (
+        "mixture.specific_heat_capacity",
+        "give the solution's specific heat capacity with a smaller uncertainty "
+        "(a measured value, or leave it out so the property model supplies it)",
+    ),
     ("mass", "weigh on a balance with a finer reading, or use a larger sample"),
     ("volume", "measure the volumes with a volumetric pipette or a burette instead of a measuring cylinder"),
     ("concentration", "use standardised solutions and state their concentration with its uncertainty"),
@@ -45,19 +56,19 @@ _ADVICE: list[tuple[str, str]] = [
 ]
 _FLAG_ADVICE = {
     "En": "Your result differs from the reference value by more than the uncertainties explain (|En| > 1): check the "
-          "masses, volumes and calorimeter constant you entered, and look for heat lost before the lid was on.",
+    "masses, volumes and calorimeter constant you entered, and look for heat lost before the lid was on.",
     "outlier": "One of your results lies far from the rest of the section (Grubbs test): look for a mistake in that run "
-               "before repeating it.",
+    "before repeating it.",
     "small-dT": "Your temperature change was under 10 × the thermometer's resolution: use more substance or a finer "
-                "thermometer.",
+    "thermometer.",
     "drift": "The temperature drifted strongly before or after the change: let the solutions reach room temperature "
-             "first, use the lid and check that the stirrer does not heat.",
+    "first, use the lid and check that the stirrer does not heat.",
     "short-after": "The log after the change was too short: keep recording for at least 5 minutes after the temperature "
-                   "has settled.",
+    "has settled.",
     "no-calibration": "The calorimeter you used has no calibration on record: calibrate it (or have it calibrated) and "
-                      "name it in the run file.",
+    "name it in the run file.",
     "check": "A plausibility check flagged a run: look at the run page's checks and correct what was entered wrongly. "
-             "The run stays out of the section's statistics until staff accept it.",
+    "The run stays out of the section's statistics until staff accept it.",
     "overdue": "The calorimeter's calibration was overdue when you measured: have it calibrated, then re-analyse.",
 }
 
@@ -78,19 +89,28 @@ def _feedback_items(members: list[Row]) -> list[tuple[tuple[str, ...], str, str]
         ex = next(m for m in members if m.top_input == name)
         shares = [m.top_share for m in members if m.top_input == name]
         label = ex.top_label or name
-        items.append((("top", name),
-                      f"The largest part of the uncertainty came from the {label}. Next time: {_advice(name)}.",
-                      f"In {count} of your {len(members)} run(s) the largest part of the uncertainty came from the "
-                      f"{label} (about {100 * sum(shares) / len(shares):.0f} % of the variance). "
-                      f"Next time: {_advice(name)}."))
+        items.append(
+            (
+                ("top", name),
+                f"The largest part of the uncertainty came from the {label}. Next time: {_advice(name)}.",
+                f"In {count} of your {len(members)} run(s) the largest part of the uncertainty came from the "
+                f"{label} (about {100 * sum(shares) / len(shares):.0f} % of the variance). "
+                f"Next time: {_advice(name)}.",
+            )
+        )
     flags = Counter(f for m in members for f in m.flags)
     for flag in FLAGS:
         if flags.get(flag):
             runs = ", ".join(f"#{m.run_id}" for m in members if flag in m.flags)
             items.append((("flag", flag), _FLAG_ADVICE[flag], f"{_FLAG_ADVICE[flag]} (run {runs})"))
     if not flags:
-        items.append((("clean",), "No flags: the runs agree with the reference and with the section.",
-                      "No flags: your runs agree with the reference and with the section."))
+        items.append(
+            (
+                ("clean",),
+                "No flags: the runs agree with the reference and with the section.",
+                "No flags: your runs agree with the reference and with the section.",
+            )
+        )
     return items
 
 

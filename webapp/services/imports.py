@@ -24,28 +24,19 @@ import io
 import posixpath
 import tomllib
 import zipfile
-from collections.abc import Callable
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from pathlib import Path
 from typing import Any
 
 import sqlalchemy as sa
-from calc import limits as calc_limits
 import sqlalchemy.orm as so
 
-from webapp.models import Bench
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Run
+from calc import limits as calc_limits
+from webapp.models import Bench, Group, Person, Run
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
-from webapp.services.errors import ServiceError
-from webapp.services.errors import storage_error
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
+from webapp.services.classes import get_section, require_staff
+from webapp.services.errors import Conflict, Invalid, ServiceError, storage_error
+from webapp.services.runs import RunUpload, record_run
 
 #: limits of one import (a zip bomb or a runaway folder is refused before anything is read)
 MAX_FILES = 5000

@@ -22,9 +22,7 @@ import dataclasses
 
 import sqlalchemy as sa
 
-from webapp.models import Base
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Base, Result, Run
 
 #: more problems than this of one kind are counted, not listed
 MAX_LISTED = 20
@@ -46,8 +44,10 @@ class IntegrityReport:
 
     def summary(self) -> str:
         """Return the report as lines of text."""
-        head = (f"{'ok' if self.ok else 'PROBLEMS FOUND'}: {self.runs} runs and {self.results} results "
-                f"checked on {self.dialect}")
+        head = (
+            f"{'ok' if self.ok else 'PROBLEMS FOUND'}: {self.runs} runs and {self.results} results "
+            f"checked on {self.dialect}"
+        )
         lines = [head, *(f"  checked: {c}" for c in self.checks)]
         lines += [f"  problem: {p}" for p in self.problems]
         return "\n".join(lines)
@@ -64,8 +64,7 @@ def check_database(engine: sa.Engine) -> IntegrityReport:
         _foreign_keys(conn, report)
         _runs_complete(conn, report)
         _content_hashes(conn, report)
-        from webapp.services.integrity_locks import check_audit_chain
-        from webapp.services.integrity_locks import check_locks
+        from webapp.services.integrity_locks import check_audit_chain, check_locks
 
         check_locks(conn, report, _listed)
         check_audit_chain(conn, report, _listed)
@@ -89,14 +88,17 @@ def _sqlite_pages(conn: sa.Connection, report: IntegrityReport) -> None:
 def _postgres_indexes(conn: sa.Connection, report: IntegrityReport) -> None:
     has_amcheck = conn.scalar(sa.text("SELECT count(*) FROM pg_extension WHERE extname = 'amcheck'"))
     if not has_amcheck:
-        report.checks.append("PostgreSQL index structure: not checked (the amcheck extension is not installed "
-                             "in this database)")
+        report.checks.append(
+            "PostgreSQL index structure: not checked (the amcheck extension is not installed in this database)"
+        )
         return
-    names = conn.scalars(sa.text(
-        "SELECT c.oid::regclass::text FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid "
-        "JOIN pg_am a ON a.oid = c.relam JOIN pg_namespace n ON n.oid = c.relnamespace "
-        "WHERE a.amname = 'btree' AND n.nspname = current_schema()"
-    )).all()
+    names = conn.scalars(
+        sa.text(
+            "SELECT c.oid::regclass::text FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid "
+            "JOIN pg_am a ON a.oid = c.relam JOIN pg_namespace n ON n.oid = c.relnamespace "
+            "WHERE a.amname = 'btree' AND n.nspname = current_schema()"
+        )
+    ).all()
     bad = []
     for name in names:
         try:
@@ -117,9 +119,12 @@ def _foreign_keys(conn: sa.Connection, report: IntegrityReport) -> None:
             child, parent = fk.parent, fk.column
             p = parent.table.alias("p")
             pcol = p.c[parent.name]
-            q = (sa.select(table.c.id if "id" in table.c else child, child)
-                 .select_from(table.outerjoin(p, child == pcol))
-                 .where(child.is_not(None), pcol.is_(None)).limit(MAX_LISTED))
+            q = (
+                sa.select(table.c.id if "id" in table.c else child, child)
+                .select_from(table.outerjoin(p, child == pcol))
+                .where(child.is_not(None), pcol.is_(None))
+                .limit(MAX_LISTED)
+            )
             for row_id, value in conn.execute(q):
                 bad.append(f"{table.name} row {row_id}: {child.name} = {value} names no row of {parent.table.name}")
     report.checks.append(f"foreign keys ({count} references)")
@@ -132,20 +137,34 @@ def _runs_complete(conn: sa.Connection, report: IntegrityReport) -> None:
     report.runs = conn.scalar(sa.select(sa.func.count()).select_from(r)) or 0
     report.results = conn.scalar(sa.select(sa.func.count()).select_from(Result.__table__)) or 0
     bad = []
-    incomplete = sa.select(r.c.id, r.c.points, length(r.c.run_toml), length(r.c.readings_raw),
-                           length(r.c.series_time_s), length(r.c.series_temperature_k)).where(sa.or_(
-        r.c.points < 1,
-        sa.func.coalesce(length(r.c.run_toml), 0) == 0,
-        sa.func.coalesce(length(r.c.readings_raw), 0) == 0,
-        sa.func.coalesce(length(r.c.series_time_s), 0) != r.c.points * 8,
-        sa.func.coalesce(length(r.c.series_temperature_k), 0) != r.c.points * 8,
-    ))
+    incomplete = sa.select(
+        r.c.id,
+        r.c.points,
+        length(r.c.run_toml),
+        length(r.c.readings_raw),
+        length(r.c.series_time_s),
+        length(r.c.series_temperature_k),
+    ).where(
+        sa.or_(
+            r.c.points < 1,
+            sa.func.coalesce(length(r.c.run_toml), 0) == 0,
+            sa.func.coalesce(length(r.c.readings_raw), 0) == 0,
+            sa.func.coalesce(length(r.c.series_time_s), 0) != r.c.points * 8,
+            sa.func.coalesce(length(r.c.series_temperature_k), 0) != r.c.points * 8,
+        )
+    )
     for run_id, points, toml_len, raw_len, t_len, temp_len in conn.execute(incomplete):
-        bad.append(f"run {run_id} is incomplete: {points} points, run file {toml_len or 0} characters, readings "
-                   f"{raw_len or 0} bytes, series {t_len or 0} and {temp_len or 0} bytes (expected {8 * points} each)")
+        bad.append(
+            f"run {run_id} is incomplete: {points} points, run file {toml_len or 0} characters, readings "
+            f"{raw_len or 0} bytes, series {t_len or 0} and {temp_len or 0} bytes (expected {8 * points} each)"
+        )
     res = Result.__table__
-    current = (sa.select(sa.func.count()).where(res.c.run_id == r.c.id, res.c.is_current.is_(True))
-               .correlate(r).scalar_subquery())
+    current = (
+        sa.select(sa.func.count())
+        .where(res.c.run_id == r.c.id, res.c.is_current.is_(True))
+        .correlate(r)
+        .scalar_subquery()
+    )
     for run_id, n in conn.execute(sa.select(r.c.id, current).where(current != 1).order_by(r.c.id)):
         bad.append(f"run {run_id} has {n} current results (expected exactly 1)")
     report.checks.append("every run complete (files, series, one current result)")
@@ -156,8 +175,11 @@ def _content_hashes(conn: sa.Connection, report: IntegrityReport) -> None:
     from webapp.services.imports import content_hash
 
     r = Run.__table__
-    q = (sa.select(r.c.id, r.c.run_toml, r.c.readings_raw, r.c.content_hash)
-         .where(r.c.content_hash.is_not(None)).order_by(r.c.id))
+    q = (
+        sa.select(r.c.id, r.c.run_toml, r.c.readings_raw, r.c.content_hash)
+        .where(r.c.content_hash.is_not(None))
+        .order_by(r.c.id)
+    )
     bad = []
     checked = 0
     for run_id, toml, raw, digest in conn.execution_options(yield_per=200).execute(q):

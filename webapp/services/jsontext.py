@@ -11,7 +11,6 @@ import json
 from typing import Any
 
 from calc import limits
-
 from webapp.services.errors import Invalid
 
 
@@ -58,8 +57,9 @@ def load_json(raw: bytes | str, field: str = "body") -> Any:
     try:
         data = json.loads(raw)
     except RecursionError:
-        raise Invalid(f"nested deeper than the limit json_depth = {limits.get('json_depth'):g} levels",
-                      field=field) from None
+        raise Invalid(
+            f"nested deeper than the limit json_depth = {limits.get('json_depth'):g} levels", field=field
+        ) from None
     except (ValueError, UnicodeDecodeError) as exc:  # JSONDecodeError, or an int of over 4300 digits
         raise Invalid(f"not valid JSON: {limits.shorten(str(exc))}", field=field) from None
     return checked_json(data, field)

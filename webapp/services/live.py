@@ -16,27 +16,15 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.io.readings import CELSIUS_RANGE
 
-from webapp.models import Bench
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import LiveReading
-from webapp.models import LiveRun
-from webapp.models import Person
-from webapp.models import utcnow
-from webapp.services.access import can_steer_live_run
-from webapp.services.access import can_view_live_run
-from webapp.services.concurrency import begin_write
-from webapp.services.concurrency import lock_row
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from calc.io.readings import CELSIUS_RANGE
+from webapp.models import Bench, Calorimeter, Group, LiveReading, LiveRun, Person, utcnow
+from webapp.services.access import can_steer_live_run, can_view_live_run
+from webapp.services.concurrency import begin_write, lock_row
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
 from webapp.services.live_advice import refresh_advice
 from webapp.services.live_events import notify
-from webapp.services.live_runfile import checked_run_file
-from webapp.services.live_runfile import toml_data
+from webapp.services.live_runfile import checked_run_file, toml_data
 
 #: the most readings one POST may carry
 MAX_BATCH = 1000
@@ -76,8 +64,7 @@ def create_live_run(session: so.Session, actor: Person, data: LiveCreate) -> tup
     :return: the live run and whether it is new
     """
     if not isinstance(data.client_key, str) or not _KEY.fullmatch(data.client_key):
-        raise Invalid("expected 1 to 64 letters, digits or . _ : - (a UUID chosen by the recorder)",
-                      field="client_key")
+        raise Invalid("expected 1 to 64 letters, digits or . _ : - (a UUID chosen by the recorder)", field="client_key")
     old = _by_key(session, actor.id, data.client_key)
     if old is not None:
         return old, False
@@ -88,14 +75,24 @@ def create_live_run(session: so.Session, actor: Person, data: LiveCreate) -> tup
     bench = _bench_for(session, data.bench_id, group, _text(info.get("bench")))
     cal_id = _calorimeter_for(session, data.calorimeter_id, bench, data.run_file)
     spec = checked_run_file(session, data.run_file, cal_id)
-    live = LiveRun(owner=actor, client_key=data.client_key, run_file=data.run_file, target_u=target,
-                   title=(spec.get("info", "title") or "")[:300], group=group,
-                   section_id=bench.section_id if bench else (group.section_id if group else None),
-                   bench_id=bench.id if bench else None,
-                   bench=(bench.name if bench else (spec.get("info", "bench") or ""))[:120],
-                   calorimeter_id=cal_id,
-                   state="recording", last_seq=-1, advice_json="{}", advice_seq=-1,
-                   created_at=utcnow(), updated_at=utcnow())
+    live = LiveRun(
+        owner=actor,
+        client_key=data.client_key,
+        run_file=data.run_file,
+        target_u=target,
+        title=(spec.get("info", "title") or "")[:300],
+        group=group,
+        section_id=bench.section_id if bench else (group.section_id if group else None),
+        bench_id=bench.id if bench else None,
+        bench=(bench.name if bench else (spec.get("info", "bench") or ""))[:120],
+        calorimeter_id=cal_id,
+        state="recording",
+        last_seq=-1,
+        advice_json="{}",
+        advice_seq=-1,
+        created_at=utcnow(),
+        updated_at=utcnow(),
+    )
     session.add(live)
     try:
         session.flush()
@@ -137,8 +134,7 @@ def _bench_for(session: so.Session, bench_id: int | None, group: Group | None, n
             raise Invalid(f"no bench with id {bench_id}", field="bench_id")
         return bench
     if name and group is not None and group.section_id is not None:
-        return session.scalar(sa.select(Bench).where(Bench.section_id == group.section_id,
-                                                     Bench.name == name.strip()))
+        return session.scalar(sa.select(Bench).where(Bench.section_id == group.section_id, Bench.name == name.strip()))
     return None
 
 
@@ -174,8 +170,9 @@ def checked_rows(raw: Any) -> list[tuple[int, float, float]]:
     if not isinstance(raw, list):
         raise Invalid("expected a list of [seq, time_s, temperature_c]", field="readings")
     if len(raw) > MAX_BATCH:
-        raise Invalid(f"at most {MAX_BATCH} readings in one request, got {len(raw)}; send them in batches",
-                      field="readings")
+        raise Invalid(
+            f"at most {MAX_BATCH} readings in one request, got {len(raw)}; send them in batches", field="readings"
+        )
     rows = []
     for i, item in enumerate(raw):
         where = f"readings[{i}]"
@@ -188,14 +185,17 @@ def checked_rows(raw: Any) -> list[tuple[int, float, float]]:
             if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
                 raise Invalid(f"expected a number ({what})", field=f"{where}[{j}]")
         if not T_RANGE_C[0] <= temp <= T_RANGE_C[1]:
-            raise Invalid(f"expected a temperature from {T_RANGE_C[0]:g} to {T_RANGE_C[1]:g} °C, got {temp!r}",
-                          field=f"{where}[2]")
+            raise Invalid(
+                f"expected a temperature from {T_RANGE_C[0]:g} to {T_RANGE_C[1]:g} °C, got {temp!r}",
+                field=f"{where}[2]",
+            )
         rows.append((seq, float(t), float(temp)))
     return rows
 
 
-def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any,
-                 advice_every_s: float = 0.0) -> tuple[int, int]:
+def add_readings(
+    session: so.Session, actor: Person, live_id: int, raw: Any, advice_every_s: float = 0.0
+) -> tuple[int, int]:
     """Store the new readings of a batch (those at or below ``last_seq`` are ignored) and commit; then
     advise again, when the newest reading is ``advice_every_s`` or more (log clock) after the last advised.
 
@@ -210,17 +210,21 @@ def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any,
     new = [r for _i, r in fresh]
     if new and live.state != "recording":
         raise Conflict(f"live run {live.id} is {live.state}; it takes no more readings", field="state")
-    last_t = session.scalar(sa.select(LiveReading.time_s).where(
-        LiveReading.live_run_id == live.id, LiveReading.seq == live.last_seq))
+    last_t = session.scalar(
+        sa.select(LiveReading.time_s).where(LiveReading.live_run_id == live.id, LiveReading.seq == live.last_seq)
+    )
     expected = live.last_seq + 1
     for i, (seq, t, _temp) in fresh:
         where = f"readings[{i}]"
         if seq != expected:
-            raise Invalid(f"expected sequence number {expected} (readings are numbered 0, 1, 2, … with no gap), "
-                          f"got {seq}", field=f"{where}[0]")
+            raise Invalid(
+                f"expected sequence number {expected} (readings are numbered 0, 1, 2, … with no gap), got {seq}",
+                field=f"{where}[0]",
+            )
         if last_t is not None and t <= last_t:
-            raise Invalid(f"expected a time after {last_t!r} s (the previous reading's), got {t!r}",
-                          field=f"{where}[1]")
+            raise Invalid(
+                f"expected a time after {last_t!r} s (the previous reading's), got {t!r}", field=f"{where}[1]"
+            )
         expected, last_t = seq + 1, t
     session.add_all([LiveReading(live_run_id=live.id, seq=s, time_s=t, temperature_c=c) for s, t, c in new])
     if new:
@@ -228,8 +232,13 @@ def add_readings(session: so.Session, actor: Person, live_id: int, raw: Any,
         live.updated_at = utcnow()
         notify(session, live.id)
     last_seq, advised = live.last_seq, live.advice_seq
-    advised_t = session.scalar(sa.select(LiveReading.time_s).where(
-        LiveReading.live_run_id == live.id, LiveReading.seq == advised)) if advised >= 0 else None
+    advised_t = (
+        session.scalar(
+            sa.select(LiveReading.time_s).where(LiveReading.live_run_id == live.id, LiveReading.seq == advised)
+        )
+        if advised >= 0
+        else None
+    )
     session.commit()
     if new and (advised_t is None or last_t is None or last_t - advised_t >= advice_every_s):
         refresh_advice(session, live_id)

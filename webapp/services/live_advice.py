@@ -13,17 +13,12 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.errors import AnalysisError
-from calc.errors import InputError
 
-from webapp.models import Calibration
-from webapp.models import LiveReading
-from webapp.models import LiveRun
-from webapp.models import LiveSectionTarget
+from calc.errors import AnalysisError, InputError
+from webapp.models import Calibration, LiveReading, LiveRun, LiveSectionTarget
 from webapp.services.errors import Invalid
 from webapp.services.live_events import notify
-from webapp.services.live_runfile import analysis_text
-from webapp.services.live_runfile import calibration_for
+from webapp.services.live_runfile import analysis_text, calibration_for
 
 _log = logging.getLogger(__name__)
 
@@ -41,9 +36,11 @@ def effective_target(session: so.Session, live: LiveRun) -> tuple[float | None, 
 
 def readings_of(session: so.Session, live_id: int, after_seq: int = -1) -> list[tuple[int, float, float]]:
     """Return a live run's readings after ``after_seq`` as (seq, time_s, temperature_c), in order."""
-    rows = session.execute(sa.select(LiveReading.seq, LiveReading.time_s, LiveReading.temperature_c)
-                           .where(LiveReading.live_run_id == live_id, LiveReading.seq > after_seq)
-                           .order_by(LiveReading.seq))
+    rows = session.execute(
+        sa.select(LiveReading.seq, LiveReading.time_s, LiveReading.temperature_c)
+        .where(LiveReading.live_run_id == live_id, LiveReading.seq > after_seq)
+        .order_by(LiveReading.seq)
+    )
     return [(int(s), float(t), float(c)) for s, t, c in rows]
 
 
@@ -78,8 +75,15 @@ def previous_phase(live: LiveRun) -> str | None:
 
 
 def _refused(message: str) -> dict[str, Any]:
-    return {"phase": "refused", "status": f"no advice: {message}", "seconds_more": None, "estimate": None,
-            "periods": {"fore": None, "mixing_time": None, "after": None}, "drift_lines": [], "warnings": []}
+    return {
+        "phase": "refused",
+        "status": f"no advice: {message}",
+        "seconds_more": None,
+        "estimate": None,
+        "periods": {"fore": None, "mixing_time": None, "after": None},
+        "drift_lines": [],
+        "warnings": [],
+    }
 
 
 def refresh_advice(session: so.Session, live_id: int) -> None:
@@ -97,10 +101,12 @@ def refresh_advice(session: so.Session, live_id: int) -> None:
         _log.exception("live run %s: the advisor failed", live_id)
         advice = json.dumps(_refused("the advisor failed on these readings (the notebook's log says why)"))
     session.rollback()
-    done = session.execute(sa.update(LiveRun).where(LiveRun.id == live_id,
-                                                    sa.or_(LiveRun.advice_seq < seq, LiveRun.advice_seq == -1))
-                           .values(advice_json=advice, advice_seq=max(seq, 0) if seq >= 0 else -1)
-                           .execution_options(synchronize_session=False))
+    done = session.execute(
+        sa.update(LiveRun)
+        .where(LiveRun.id == live_id, sa.or_(LiveRun.advice_seq < seq, LiveRun.advice_seq == -1))
+        .values(advice_json=advice, advice_seq=max(seq, 0) if seq >= 0 else -1)
+        .execution_options(synchronize_session=False)
+    )
     if done.rowcount:
         notify(session, live_id)
     session.commit()

@@ -33,8 +33,9 @@ _log = logging.getLogger(__name__)
 def notify(session: so.Session, live_id: int) -> None:
     """Announce, when the session's transaction commits, that live run ``live_id`` changed (PostgreSQL)."""
     if session.get_bind().dialect.name == "postgresql":
-        session.execute(sa.text("SELECT pg_notify(:channel, :payload)"),
-                        {"channel": CHANNEL, "payload": str(int(live_id))})
+        session.execute(
+            sa.text("SELECT pg_notify(:channel, :payload)"), {"channel": CHANNEL, "payload": str(int(live_id))}
+        )
 
 
 class _Listener:

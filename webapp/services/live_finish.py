@@ -10,25 +10,15 @@ from __future__ import annotations
 
 import sqlalchemy.orm as so
 
-from webapp.models import LiveRun
-from webapp.models import Person
-from webapp.models import Run
-from webapp.models import utcnow
+from webapp.models import LiveRun, Person, Run, utcnow
 from webapp.services.access import can_steer_live_run
-from webapp.services.concurrency import begin_write
-from webapp.services.concurrency import lock_row
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
+from webapp.services.concurrency import begin_write, lock_row
+from webapp.services.errors import Conflict, Forbidden, Invalid
 from webapp.services.live import get_live_run
 from webapp.services.live_advice import readings_of
 from webapp.services.live_events import notify
-from webapp.services.live_runfile import RUN_FILE_NAME
-from webapp.services.live_runfile import readings_name
-from webapp.services.live_runfile import with_readings_key
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
-from webapp.services.runs import run_for_submit_token
+from webapp.services.live_runfile import RUN_FILE_NAME, readings_name, with_readings_key
+from webapp.services.runs import RunUpload, record_run, run_for_submit_token
 
 CSV_HEADER = "time_s,temperature_c"
 

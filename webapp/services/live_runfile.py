@@ -13,14 +13,11 @@ from pathlib import PurePosixPath
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc.errors import InputError
-from calc.io.runfile import RunSpec
-from calc.io.runfile import parse_run
 
+from calc.errors import InputError
+from calc.io.runfile import RunSpec, parse_run
 from webapp.models import Calibration
-from webapp.services.analysis import invalid
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import supply_heat_capacity
+from webapp.services.analysis import invalid, needs_supplied_heat_capacity, supply_heat_capacity
 from webapp.services.errors import Invalid
 
 #: the name a live run's file is stored under (the recorder sends text, not a file)
@@ -79,9 +76,11 @@ def calibration_for(session: so.Session, text: str, calorimeter_id: int | None) 
 
     calibration = current_calibration(session, calorimeter_id) if calorimeter_id is not None else None
     if calibration is None:
-        raise Invalid("the run file gives no [calorimeter] heat_capacity and its calorimeter has no heat "
-                      "capacity in force; give it in the run file or calibrate first",
-                      field="calorimeter.heat_capacity")
+        raise Invalid(
+            "the run file gives no [calorimeter] heat_capacity and its calorimeter has no heat "
+            "capacity in force; give it in the run file or calibrate first",
+            field="calorimeter.heat_capacity",
+        )
     return calibration
 
 

@@ -21,16 +21,11 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import MarkingScheme
-from webapp.models import Person
-from webapp.models import RunReview
-from webapp.models import utcnow
+from webapp.models import MarkingScheme, Person, RunReview, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
-from webapp.services.classes import get_section
-from webapp.services.classes import require_staff
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
+from webapp.services.classes import get_section, require_staff
+from webapp.services.errors import Conflict, Invalid
 from webapp.services.runs import get_run
 
 #: used until a coordinator sets a section's own scheme
@@ -149,8 +144,10 @@ def set_scheme(session: so.Session, actor: Person, section_id: int, *, en: str, 
         session.commit()
     except sa.exc.IntegrityError:  # another coordinator saved the first scheme at the same moment
         session.rollback()
-        raise Conflict("another marking scheme for this section was saved at the same moment; reload and try again",
-                       field="en_bands") from None
+        raise Conflict(
+            "another marking scheme for this section was saved at the same moment; reload and try again",
+            field="en_bands",
+        ) from None
     return scheme
 
 
@@ -160,12 +157,14 @@ def scheme_mark(bands: dict[str, Any], verdict: Any) -> Mark:
         return Mark(None, "", "no reference value to mark against")
     rel = abs(verdict.relative_difference) * 100 if math.isfinite(verdict.relative_difference) else math.inf
     p_en, p_rel = band_points(bands["en"], abs(verdict.En)), band_points(bands["relative"], rel)
-    return Mark(p_en + p_rel, "scheme",
-                f"|E_n| {abs(verdict.En):.2f}: {p_en:g} + relative error {rel:.1f} %: {p_rel:g}")
+    return Mark(
+        p_en + p_rel, "scheme", f"|E_n| {abs(verdict.En):.2f}: {p_en:g} + relative error {rel:.1f} %: {p_rel:g}"
+    )
 
 
-def run_mark(bands: dict[str, Any], verdict: Any, *, included: bool, status: str,
-             override: float | None, override_reason: str) -> Mark:
+def run_mark(
+    bands: dict[str, Any], verdict: Any, *, included: bool, status: str, override: float | None, override_reason: str
+) -> Mark:
     """Return a run's mark: none when it does not count, the one set by hand, else the scheme's."""
     if not included:
         return Mark(None, "", f"not marked: {status or 'excluded'}")
@@ -183,14 +182,26 @@ def set_mark(session: so.Session, actor: Person, run_id: int, points: float | No
     if len(reason) > 2000:
         raise Invalid("the reason is too long: at most 2000 characters", field="reason")
     if points is not None:
-        if isinstance(points, bool) or not isinstance(points, (int, float)) or not math.isfinite(points) \
-                or not 0 <= points <= MAX_POINTS:
+        if (
+            isinstance(points, bool)
+            or not isinstance(points, (int, float))
+            or not math.isfinite(points)
+            or not 0 <= points <= MAX_POINTS
+        ):
             raise Invalid(f"a mark must be a number from 0 to {MAX_POINTS:g}", field="points")
         points = float(points)
     review = session.get(RunReview, run.id, with_for_update=True)
     if review is None:
-        review = RunReview(run_id=run.id, withdrawn=False, excluded=False, accepted=False, withdrawn_reason="",
-                           excluded_reason="", accepted_reason="", mark_reason="")
+        review = RunReview(
+            run_id=run.id,
+            withdrawn=False,
+            excluded=False,
+            accepted=False,
+            withdrawn_reason="",
+            excluded_reason="",
+            accepted_reason="",
+            mark_reason="",
+        )
         session.add(review)
     record_change(session, actor, "run", run.id, "mark_points", review.mark_points, points)
     record_change(session, actor, "run", run.id, "mark_reason", review.mark_reason or None, reason.strip())
@@ -202,6 +213,7 @@ def set_mark(session: so.Session, actor: Person, run_id: int, points: float | No
         session.commit()
     except sa.exc.IntegrityError:  # a first decision on the same run saved at the same moment
         session.rollback()
-        raise Conflict(f"another change to run {run_id} was saved at the same moment; reload and try again",
-                       field="points") from None
+        raise Conflict(
+            f"another change to run {run_id} was saved at the same moment; reload and try again", field="points"
+        ) from None
     return review

@@ -19,23 +19,17 @@ import zipfile
 from typing import Any
 
 import sqlalchemy.orm as so
+
 from calc.errors import InputError
 from calc.limits import require_number
-
-from webapp.models import Person
-from webapp.models import Run
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import find_calorimeter
+from webapp.exports.document import FORMAT
+from webapp.exports.rocrate import EXPORT_NAME, METADATA, PROFILE
+from webapp.models import Person, Run
+from webapp.services.analysis import AnalysisOptions, needs_supplied_heat_capacity
+from webapp.services.calorimeters import current_calibration, find_calorimeter
 from webapp.services.errors import Invalid
 from webapp.services.jsontext import load_json
-from webapp.exports.document import FORMAT
-from webapp.exports.rocrate import EXPORT_NAME
-from webapp.exports.rocrate import METADATA
-from webapp.exports.rocrate import PROFILE
-from webapp.services.runs import RunUpload
-from webapp.services.runs import record_run
+from webapp.services.runs import RunUpload, record_run
 
 MAX_PACKAGE_BYTES = 16 * 1024 * 1024
 
@@ -85,8 +79,11 @@ def _options(doc: dict[str, Any], trials: int) -> AnalysisOptions:
         p = opts.get(key)
         if not given or p is None:
             return None
-        if not (isinstance(p, list) and len(p) == 2 and all(isinstance(x, (int, float)) and not isinstance(x, bool)
-                                                             and abs(x) <= 1e6 for x in p)):
+        if not (
+            isinstance(p, list)
+            and len(p) == 2
+            and all(isinstance(x, (int, float)) and not isinstance(x, bool) and abs(x) <= 1e6 for x in p)
+        ):
             raise Invalid("expected two times in seconds (at most 10^6 s)", field=f"result.options.{key}")
         return (float(p[0]), float(p[1]))
 
@@ -98,18 +95,20 @@ def _options(doc: dict[str, Any], trials: int) -> AnalysisOptions:
     method = opts.get("method")
     if method is not None and not isinstance(method, str):
         raise Invalid("expected the name of a ΔT method", field="result.options.method")
-    return AnalysisOptions(method=method, fore=period("fore"), after=period("after"),
-                           monte_carlo_trials=trials, seed=seed).checked()
+    return AnalysisOptions(
+        method=method, fore=period("fore"), after=period("after"), monte_carlo_trials=trials, seed=seed
+    ).checked()
 
 
-def import_document(session: so.Session, actor: Person, doc: Any, *, monte_carlo_trials: int = 0,
-                    blobs: dict[str, bytes] | None = None) -> Run:
+def import_document(
+    session: so.Session, actor: Person, doc: Any, *, monte_carlo_trials: int = 0, blobs: dict[str, bytes] | None = None
+) -> Run:
     """Record the run of a JSON export (a parsed document) and commit; return the new run.
 
     :raise Invalid: for a document that is not ours, a damaged file, or a calibration that is not here
     """
     if not isinstance(doc, dict) or doc.get("format") != FORMAT:
-        raise Invalid(f"expected a cupcal run export (\"format\": \"{FORMAT}\")", field="format")
+        raise Invalid(f'expected a cupcal run export ("format": "{FORMAT}")', field="format")
     if doc.get("format_version") != 1:
         raise Invalid(f"unknown format_version {doc.get('format_version')!r}; expected 1", field="format_version")
     run_name, run_bytes = _file(doc, "run_file", blobs)
@@ -132,29 +131,42 @@ def import_document(session: so.Session, actor: Person, doc: Any, *, monte_carlo
         if exported is not None and needs_supplied_heat_capacity(run_toml):
             here = current_calibration(session, cal.id) if cal is not None else None
             want = _calibration_value(exported)
-            if here is None or not (math.isclose(here.heat_capacity_j_k, want["value"], rel_tol=1e-12)
-                                    and math.isclose(here.heat_capacity_j_k_std, want["standard_uncertainty"],
-                                                     rel_tol=1e-12)):
+            if here is None or not (
+                math.isclose(here.heat_capacity_j_k, want["value"], rel_tol=1e-12)
+                and math.isclose(here.heat_capacity_j_k_std, want["standard_uncertainty"], rel_tol=1e-12)
+            ):
                 raise Invalid(
                     f"the run takes its heat capacity ({want['value']} ± {want['standard_uncertainty']} J/K) "
                     f"from calorimeter {cal_name!r}, which has no such calibration in force here",
-                    field="provenance.calibration")
-    return record_run(session, actor, RunUpload(
-        run_toml=run_toml, run_file_name=run_name, readings=readings, readings_name=readings_name,
-        calorimeter_id=calorimeter_id, options=options))
+                    field="provenance.calibration",
+                )
+    return record_run(
+        session,
+        actor,
+        RunUpload(
+            run_toml=run_toml,
+            run_file_name=run_name,
+            readings=readings,
+            readings_name=readings_name,
+            calorimeter_id=calorimeter_id,
+            options=options,
+        ),
+    )
 
 
 def _calibration_value(exported: Any) -> dict[str, float]:
     """Return the exported calibration's heat capacity {value, standard_uncertainty} in J/K, checked."""
     want = exported.get("heat_capacity") if isinstance(exported, dict) else None
     if not isinstance(want, dict):
-        raise Invalid("expected {\"heat_capacity\": {\"value\": …, \"standard_uncertainty\": …}}",
-                      field="provenance.calibration")
+        raise Invalid(
+            'expected {"heat_capacity": {"value": …, "standard_uncertainty": …}}', field="provenance.calibration"
+        )
     out = {}
     for key in ("value", "standard_uncertainty"):
         try:
-            out[key] = require_number(want.get(key), key, field=f"provenance.calibration.heat_capacity.{key}",
-                                      minimum=-1e6, maximum=1e6)
+            out[key] = require_number(
+                want.get(key), key, field=f"provenance.calibration.heat_capacity.{key}", minimum=-1e6, maximum=1e6
+            )
         except InputError as exc:
             raise Invalid(exc.message, field=exc.field) from None
     return out

@@ -13,28 +13,14 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc.analysis import Analysis
 
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.services.access import can_edit_run
-from webapp.services.access import can_lock_run
-from webapp.services.access import can_view_run
-from webapp.services.access import visible_runs_clause
+from calc.analysis import Analysis
+from webapp.models import Calibration, Calorimeter, Group, Person, Result, Run
+from webapp.services.access import can_edit_run, can_lock_run, can_view_run, visible_runs_clause
 from webapp.services.audit import audit_trail
-from webapp.services.calorimeters import calibration_history
-from webapp.services.calorimeters import calorimeters_query
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import get_calorimeter
+from webapp.services.calorimeters import calibration_history, calorimeters_query, current_calibration, get_calorimeter
 from webapp.services.errors import NotFound
-from webapp.services.runs import RunUpload
-from webapp.services.runs import analyse_upload
-from webapp.services.runs import get_run
-from webapp.services.runs import runs_query
+from webapp.services.runs import RunUpload, analyse_upload, get_run, runs_query
 
 
 @dataclasses.dataclass
@@ -54,8 +40,9 @@ def preview_run(session: so.Session, upload: RunUpload) -> Preview:
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
     done = analyse_upload(session, upload)
-    return Preview(done.analysis, done.result(), done.calorimeter, done.calibration,
-                   str(done.spec.get("info", "date") or ""))
+    return Preview(
+        done.analysis, done.result(), done.calorimeter, done.calibration, str(done.spec.get("info", "date") or "")
+    )
 
 
 @dataclasses.dataclass
@@ -68,8 +55,9 @@ class CalorimeterChoice:
 
 def calorimeter_choices(session: so.Session) -> list[CalorimeterChoice]:
     """Return every calorimeter by name with the calibration in force."""
-    return [CalorimeterChoice(cal, current_calibration(session, cal.id))
-            for cal in session.scalars(calorimeters_query())]
+    return [
+        CalorimeterChoice(cal, current_calibration(session, cal.id)) for cal in session.scalars(calorimeters_query())
+    ]
 
 
 def group_choices(session: so.Session, actor: Person) -> list[Group]:
@@ -149,20 +137,24 @@ class CalorimeterPage:
     members: dict[int, Calibration] = dataclasses.field(default_factory=dict)  # behind the value in force
 
 
-def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
-                     latest_runs: int = 20) -> CalorimeterPage:
+def calorimeter_page(
+    session: so.Session, actor: Person, calorimeter_id: int, *, latest_runs: int = 20
+) -> CalorimeterPage:
     """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
     (directly, or through a pooled value that held it)."""
-    from webapp.services.calibrations import current_calibration
-    from webapp.services.calibrations import members_of
+    from webapp.services.calibrations import current_calibration, members_of
 
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id).options(so.joinedload(Calibration.result))))
     ids = [c.id for c in history]
     used: dict[int, list[Run]] = defaultdict(list)
     if ids:
-        q = (sa.select(Run).where(Run.calibration_id.in_(ids), visible_runs_clause(actor))
-             .options(so.joinedload(Run.results)).order_by(Run.id))
+        q = (
+            sa.select(Run)
+            .where(Run.calibration_id.in_(ids), visible_runs_clause(actor))
+            .options(so.joinedload(Run.results))
+            .order_by(Run.id)
+        )
         for run in session.scalars(q).unique():
             used[run.calibration_id or 0].append(run)
     via_pool: dict[int, list[Run]] = defaultdict(list)
@@ -177,8 +169,10 @@ def calorimeter_page(session: so.Session, actor: Person, calorimeter_id: int, *,
         source = c.result.run if c.result is not None else None
         runs = sorted({r.id: r for r in used[c.id] + via_pool[c.id]}.values(), key=lambda r: r.id)
         rows.append(CalibrationRow(c, c.result, source is not None and can_view_run(actor, source), runs))
-    latest = [(run, res) for run, res in session.execute(runs_query(actor, calorimeter_id=cal.id).limit(latest_runs))
-              .unique().all()]
+    latest = [
+        (run, res)
+        for run, res in session.execute(runs_query(actor, calorimeter_id=cal.id).limit(latest_runs)).unique().all()
+    ]
     current = current_calibration(session, cal.id)
     members = {c.id: c for c in history if current is not None and c.id in members_of(current)}
     return CalorimeterPage(cal, [c for c in history if not c.pool], current, rows, latest, members)

@@ -10,19 +10,11 @@ import secrets
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from werkzeug.security import check_password_hash
-from werkzeug.security import generate_password_hash
+from werkzeug.security import check_password_hash, generate_password_hash
 
-from webapp.models import ROLES
-from webapp.models import ApiToken
-from webapp.models import Course
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import utcnow
+from webapp.models import ROLES, ApiToken, Course, Group, Person, utcnow
 from webapp.services.access import require_coordinator
-from webapp.services.errors import Conflict
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
+from webapp.services.errors import Conflict, Invalid, NotFound
 
 #: werkzeug's scrypt (the default method); tests may pass a cheaper parameter set
 DEFAULT_PASSWORD_METHOD = "scrypt"

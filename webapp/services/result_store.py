@@ -4,9 +4,7 @@ from __future__ import annotations
 
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
+from webapp.models import Person, Result, Run
 from webapp.services.audit import record_change
 from webapp.services.concurrency import bump
 
@@ -29,5 +27,7 @@ def store_result(session: so.Session, actor: Person | None, run: Run, result: Re
 def _describe_result(result: Result | None) -> str | None:
     if result is None:
         return None
-    return f"#{result.id} {result.method}, fore {result.fore_start_s:g}–{result.fore_end_s:g} s, " \
+    return (
+        f"#{result.id} {result.method}, fore {result.fore_start_s:g}–{result.fore_end_s:g} s, "
         f"after {result.after_start_s:g}–{result.after_end_s:g} s"
+    )

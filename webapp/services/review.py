@@ -21,16 +21,10 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
-from webapp.models import RunReview
-from webapp.models import utcnow
+from webapp.models import Person, Run, RunReview, utcnow
 from webapp.services.audit import record_change
 from webapp.services.checks import run_flagged
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import RunLocked
+from webapp.services.errors import Conflict, Forbidden, Invalid, RunLocked
 from webapp.services.runs import get_run
 
 MAX_REASON = 2000
@@ -57,8 +51,7 @@ def included_in_statistics() -> sa.ColumnElement[bool]:
     Use it on a query passed through :func:`with_review`; statistics, marks and control-chart
     baselines all use this one condition.
     """
-    return sa.or_(RunReview.run_id.is_(None),
-                  sa.and_(RunReview.withdrawn.is_(False), RunReview.excluded.is_(False)))
+    return sa.or_(RunReview.run_id.is_(None), sa.and_(RunReview.withdrawn.is_(False), RunReview.excluded.is_(False)))
 
 
 def is_staff(person: Person) -> bool:
@@ -114,8 +107,14 @@ def state_of(review: RunReview | None) -> ReviewState:
     """Return the state of a review (None: nothing decided)."""
     if review is None:
         return ReviewState()
-    return ReviewState(review.withdrawn, review.withdrawn_reason, review.excluded, review.excluded_reason,
-                       review.accepted, review.accepted_reason)
+    return ReviewState(
+        review.withdrawn,
+        review.withdrawn_reason,
+        review.excluded,
+        review.excluded_reason,
+        review.accepted,
+        review.accepted_reason,
+    )
 
 
 def review_run(session: so.Session, actor: Person, run_id: int, action: str, reason: object) -> RunReview:
@@ -139,8 +138,16 @@ def review_run(session: so.Session, actor: Person, run_id: int, action: str, rea
         raise Invalid(f"run {run.id} has no plausibility flag to accept", field="action")
     review = session.get(RunReview, run.id, with_for_update=True)
     if review is None:
-        review = RunReview(run_id=run.id, withdrawn=False, excluded=False, accepted=False, withdrawn_reason="",
-                           excluded_reason="", accepted_reason="", mark_reason="")
+        review = RunReview(
+            run_id=run.id,
+            withdrawn=False,
+            excluded=False,
+            accepted=False,
+            withdrawn_reason="",
+            excluded_reason="",
+            accepted_reason="",
+            mark_reason="",
+        )
         session.add(review)
     if bool(getattr(review, field)) == value:
         raise Conflict(f"run {run.id} is {'already' if value else 'not'} {field}", field="action")
@@ -154,6 +161,7 @@ def review_run(session: so.Session, actor: Person, run_id: int, action: str, rea
         session.commit()
     except sa.exc.IntegrityError:  # a second first decision on the same run, at the same moment
         session.rollback()
-        raise Conflict(f"another change to run {run_id} was saved at the same moment; reload and try again",
-                       field="action") from None
+        raise Conflict(
+            f"another change to run {run_id} was saved at the same moment; reload and try again", field="action"
+        ) from None
     return review

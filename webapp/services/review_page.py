@@ -6,20 +6,12 @@ import dataclasses
 from typing import Any
 
 import sqlalchemy.orm as so
-from calc.refdata.comparison import verdict
 
-from webapp.models import Comment
-from webapp.models import Person
-from webapp.models import Run
+from calc.refdata.comparison import verdict
+from webapp.models import Comment, Person, Run
 from webapp.services.comments import run_comments
-from webapp.services.marks import Mark
-from webapp.services.marks import run_mark
-from webapp.services.marks import scheme_of
-from webapp.services.review import ReviewState
-from webapp.services.review import is_staff
-from webapp.services.review import review_of
-from webapp.services.review import run_flagged
-from webapp.services.review import state_of
+from webapp.services.marks import Mark, run_mark, scheme_of
+from webapp.services.review import ReviewState, is_staff, review_of, run_flagged, state_of
 
 
 @dataclasses.dataclass
@@ -47,8 +39,14 @@ def review_panel(session: so.Session, viewer: Person, run: Run) -> ReviewPanel:
     bands, _own = scheme_of(session, section_id)
     status = "withdrawn" if st.withdrawn else ("excluded" if st.excluded else "")
     override = review.mark_points if review is not None else None
-    mark = run_mark(bands, verdict(result.comparison) if result is not None else None, included=st.included,
-                    status=status, override=override, override_reason=review.mark_reason if review else "")
+    mark = run_mark(
+        bands,
+        verdict(result.comparison) if result is not None else None,
+        included=st.included,
+        status=status,
+        override=override,
+        override_reason=review.mark_reason if review else "",
+    )
     actions: list[str] = []
     if staff or (run.author_id == viewer.id and not run.locked):
         actions.append("restore" if st.withdrawn else "withdraw")
@@ -63,5 +61,6 @@ def review_panel(session: so.Session, viewer: Person, run: Run) -> ReviewPanel:
         from webapp.services.comments import group_comments as comments_of_groups
 
         group_comments = comments_of_groups(session, viewer, [run.group_id]).get(run.group_id, [])
-    return ReviewPanel(st, flagged, mark, override is not None, run_comments(session, viewer, run.id),
-                       group_comments, actions, staff)
+    return ReviewPanel(
+        st, flagged, mark, override is not None, run_comments(session, viewer, run.id), group_comments, actions, staff
+    )

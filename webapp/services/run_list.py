@@ -18,8 +18,7 @@ from webapp.services.errors import Invalid
 from webapp.services.runs import runs_query
 
 MAX_SEARCH_LENGTH = 200
-FLAGS = {"signed": "signed (locked)", "open": "open (not signed)", "warnings": "has warnings",
-         "no-result": "no result"}
+FLAGS = {"signed": "signed (locked)", "open": "open (not signed)", "warnings": "has warnings", "no-result": "no result"}
 SORTS = {
     "date": (Run.created_at, Run.id),
     "kind": (Run.kind, Run.id),
@@ -55,12 +54,16 @@ def _like(text: str) -> str:
 
 def read_filter(args: dict[str, str]) -> RunFilter:
     """Return the filter of a request's query arguments, or raise Invalid naming the bad one."""
-    f = RunFilter(**{k: (args.get(k) or "").strip() for k in ("q", "kind", "group", "cup", "sample", "flag")},
-                  sort=(args.get("sort") or "date"), dir=(args.get("dir") or "desc"))
+    f = RunFilter(
+        **{k: (args.get(k) or "").strip() for k in ("q", "kind", "group", "cup", "sample", "flag")},
+        sort=(args.get("sort") or "date"),
+        dir=(args.get("dir") or "desc"),
+    )
     for name in ("q", "group", "cup", "sample"):
         if len(getattr(f, name)) > MAX_SEARCH_LENGTH:
-            raise Invalid(f"{name} is {len(getattr(f, name))} characters long (at most {MAX_SEARCH_LENGTH})",
-                          field=name)
+            raise Invalid(
+                f"{name} is {len(getattr(f, name))} characters long (at most {MAX_SEARCH_LENGTH})", field=name
+            )
     if f.kind and f.kind not in KINDS:
         raise Invalid(f"unknown kind {f.kind!r}; expected one of: {', '.join(KINDS)}", field="kind")
     if f.flag and f.flag not in FLAGS:
@@ -78,8 +81,14 @@ def filtered_runs_query(actor: Person, f: RunFilter) -> sa.Select[tuple[Run, Res
     q = q.outerjoin(Group, Group.id == Run.group_id).outerjoin(Calorimeter, Calorimeter.id == Run.calorimeter_id)
     for word in f.q.split():
         pattern = _like(word)
-        q = q.where(sa.or_(*(col.ilike(pattern, escape="\\") for col in
-                             (Run.title, Run.operator, Run.bench, Run.sample, Group.name))))
+        q = q.where(
+            sa.or_(
+                *(
+                    col.ilike(pattern, escape="\\")
+                    for col in (Run.title, Run.operator, Run.bench, Run.sample, Group.name)
+                )
+            )
+        )
     if f.kind:
         q = q.where(Run.kind == f.kind)
     if f.group:

@@ -8,52 +8,33 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping
-from typing import Any
-from typing import Generic
-from typing import TypeVar
+from typing import Any, Generic, TypeVar
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
+
 from calc.analysis import Analysis
 from calc.io.readings import Readings
 from calc.io.runfile import RunSpec
-
-from webapp.models import CALIBRATION_KINDS
-from webapp.models import Calibration
-from webapp.models import Calorimeter
-from webapp.models import Group
-from webapp.models import Person
-from webapp.models import Result
-from webapp.models import Run
-from webapp.models import utcnow
-from webapp.services.access import can_lock_run
-from webapp.services.access import can_view_run
-from webapp.services.access import require_editable
-from webapp.services.access import visible_runs_clause
-from webapp.services.analysis import AnalysisOptions
-from webapp.services.analysis import calorimeter_name_in
-from webapp.services.analysis import decode_readings
-from webapp.services.analysis import encode_series
-from webapp.services.analysis import inputs_from_spec
-from webapp.services.analysis import needs_supplied_heat_capacity
-from webapp.services.analysis import parse_inputs
-from webapp.services.analysis import result_from_analysis
-from webapp.services.analysis import run_analysis
+from webapp.models import CALIBRATION_KINDS, Calibration, Calorimeter, Group, Person, Result, Run, utcnow
+from webapp.services.access import can_lock_run, can_view_run, require_editable, visible_runs_clause
+from webapp.services.analysis import (
+    AnalysisOptions,
+    calorimeter_name_in,
+    decode_readings,
+    encode_series,
+    inputs_from_spec,
+    needs_supplied_heat_capacity,
+    parse_inputs,
+    result_from_analysis,
+    run_analysis,
+)
 from webapp.services.audit import record_change
-from webapp.services.result_store import store_result
+from webapp.services.calorimeters import current_calibration, find_calorimeter
 from webapp.services.checks import history_of
-from webapp.services.concurrency import check_version
-from webapp.services.concurrency import content_hash
-from webapp.services.concurrency import locked_run
-from webapp.services.concurrency import run_state
-from webapp.services.calorimeters import current_calibration
-from webapp.services.calorimeters import find_calorimeter
-from webapp.services.errors import Conflict
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.errors import NotFound
-from webapp.services.errors import RunLocked
-from webapp.services.errors import Stale
+from webapp.services.concurrency import check_version, content_hash, locked_run, run_state
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound, RunLocked, Stale
+from webapp.services.result_store import store_result
 
 T = TypeVar("T")
 
@@ -115,8 +96,7 @@ class AnalysedUpload:
 
     def result(self) -> Result:
         """Return the (transient) result row of the analysis."""
-        return result_from_analysis(self.analysis, input_name=self.run_name,
-                                    periods_given=_periods_given(self.options))
+        return result_from_analysis(self.analysis, input_name=self.run_name, periods_given=_periods_given(self.options))
 
 
 def analyse_upload(session: so.Session, upload: RunUpload) -> AnalysedUpload:
@@ -152,8 +132,9 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     done = analyse_upload(session, upload)
     spec, calorimeter, calibration = done.spec, done.calorimeter, done.calibration
     group = _group_for(session, actor, upload.group_id, spec)
-    run = _new_run(spec, done.readings, upload, done.run_name, done.readings_name, actor, group, calorimeter,
-                   calibration)
+    run = _new_run(
+        spec, done.readings, upload, done.run_name, done.readings_name, actor, group, calorimeter, calibration
+    )
     run.inputs = inputs_from_spec(spec, calibration)
     result = done.result()
     result.run = run
@@ -181,12 +162,16 @@ def _still_in_force(session: so.Session, calibration: Calibration) -> None:
     now = current_calibration(session, calibration.calorimeter_id)
     if now is None or now.id != calibration.id:
         session.rollback()
-        raise Conflict("the calorimeter's heat capacity in force changed while the run was analysed; nothing was "
-                       "saved, send it again", field="calorimeter.heat_capacity")
+        raise Conflict(
+            "the calorimeter's heat capacity in force changed while the run was analysed; nothing was "
+            "saved, send it again",
+            field="calorimeter.heat_capacity",
+        )
 
 
-def reanalyse_run(session: so.Session, actor: Person, run: Run, options: AnalysisOptions,
-                  expected_version: int | None = None) -> Result:
+def reanalyse_run(
+    session: so.Session, actor: Person, run: Run, options: AnalysisOptions, expected_version: int | None = None
+) -> Result:
     """Analyse a stored run again (new method or periods), keep the old result, and commit.
 
     The run's recorded calibration supplies C_cal again, so the inputs are the same.
@@ -204,8 +189,10 @@ def reanalyse_run(session: so.Session, actor: Person, run: Run, options: Analysi
     require_editable(actor, run)
     check_version("run", run, expected_version)
     if run.calibration_id != calibration_id:
-        raise Stale(f"run {run.id}'s calibration changed while it was analysed; nothing was saved, try again",
-                    current={"run": run_state(run)})
+        raise Stale(
+            f"run {run.id}'s calibration changed while it was analysed; nothing was saved, try again",
+            current={"run": run_state(run)},
+        )
     result = result_from_analysis(analysis, input_name=run.run_file_name, periods_given=_periods_given(options))
     store_result(session, actor, run, result)
     if run.kind in CALIBRATION_KINDS and run.calorimeter is not None:
@@ -216,8 +203,9 @@ def reanalyse_run(session: so.Session, actor: Person, run: Run, options: Analysi
     return result
 
 
-def update_run(session: so.Session, actor: Person, run: Run, changes: Mapping[str, Any],
-               expected_version: int | None = None) -> Run:
+def update_run(
+    session: so.Session, actor: Person, run: Run, changes: Mapping[str, Any], expected_version: int | None = None
+) -> Run:
     """Change a run's details (:data:`EDITABLE_FIELDS`), each change audited, and commit.
 
     The run is read again under a row lock; a locked run or an older ``expected_version`` is refused.
@@ -292,12 +280,17 @@ def analysis_of(run: Run, result: Result | None = None) -> Analysis:
     given = result.periods_given
     # a mixing time typed in "Analyse again" is stored with the result as not detected
     typed_mix = spec.mixing_time is None and not result.mixing_time_detected
-    return run_analysis(spec, readings, AnalysisOptions(
-        method=result.method,
-        fore=(result.fore_start_s, result.fore_end_s) if given else None,
-        after=(result.after_start_s, result.after_end_s) if given else None,
-        mixing_time=(result.mixing_time_s, result.mixing_time_s_std) if typed_mix else None,
-    ), **_check_context(run.calorimeter, run))
+    return run_analysis(
+        spec,
+        readings,
+        AnalysisOptions(
+            method=result.method,
+            fore=(result.fore_start_s, result.fore_end_s) if given else None,
+            after=(result.after_start_s, result.after_end_s) if given else None,
+            mixing_time=(result.mixing_time_s, result.mixing_time_s_std) if typed_mix else None,
+        ),
+        **_check_context(run.calorimeter, run),
+    )
 
 
 def _check_context(calorimeter: Calorimeter | None, run: Run | None = None) -> dict[str, Any]:
@@ -324,9 +317,7 @@ def get_run(session: so.Session, actor: Person, run_id: int) -> Run:
 
 def get_result(session: so.Session, actor: Person, result_id: int) -> Result:
     """Return a result of a run ``actor`` may see, with all its details loaded."""
-    result = session.scalar(
-        sa.select(Result).where(Result.id == result_id).options(so.undefer_group("detail"))
-    )
+    result = session.scalar(sa.select(Result).where(Result.id == result_id).options(so.undefer_group("detail")))
     if result is None or not can_view_run(actor, result.run):
         raise NotFound(f"no result with id {result_id}")
     return result
@@ -349,8 +340,12 @@ def runs_query(
         sa.select(Run, Result)
         .outerjoin(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
         .where(visible_runs_clause(actor))
-        .options(so.joinedload(Run.author), so.joinedload(Run.group), so.joinedload(Run.calorimeter),
-                 so.selectinload(Run.review))
+        .options(
+            so.joinedload(Run.author),
+            so.joinedload(Run.group),
+            so.joinedload(Run.calorimeter),
+            so.selectinload(Run.review),
+        )
         .order_by(Run.created_at.desc(), Run.id.desc())
     )
     if kind is not None:

@@ -40,22 +40,35 @@ def sample_series(session: so.Session, actor: Person, *, sample: str = "") -> li
     if len(sample) > MAX_SAMPLE_LENGTH:
         raise Invalid(f"the sample is {len(sample)} characters long (at most {MAX_SAMPLE_LENGTH})", field="sample")
     # plain columns, not whole rows: the page needs a few numbers of each run, and it lists hundreds
-    q = (sa.select(Run.id, Run.title, Run.sample, Run.kind, Result.id, Result.main, Result.molar_enthalpy_kj_mol,
-                   Result.calorimeter_heat_capacity_j_k, Result.expanded_uncertainty)
-         .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
-         .where(visible_runs_clause(actor), Run.sample != "")
-         .order_by(Run.sample, Run.kind, Run.created_at, Run.id))
+    q = (
+        sa.select(
+            Run.id,
+            Run.title,
+            Run.sample,
+            Run.kind,
+            Result.id,
+            Result.main,
+            Result.molar_enthalpy_kj_mol,
+            Result.calorimeter_heat_capacity_j_k,
+            Result.expanded_uncertainty,
+        )
+        .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
+        .where(visible_runs_clause(actor), Run.sample != "")
+        .order_by(Run.sample, Run.kind, Run.created_at, Run.id)
+    )
     if sample:
         q = q.where(Run.sample == sample)
     cells: dict[tuple[str, str], list[tuple[Any, Any]]] = defaultdict(list)
     for rid, title, name, kind, res_id, main, h, c, U in session.execute(q).all():
         run = SimpleNamespace(id=rid, title=title, sample=name, kind=kind)
-        res = SimpleNamespace(id=res_id, main=main, molar_enthalpy_kj_mol=h, calorimeter_heat_capacity_j_k=c,
-                              expanded_uncertainty=U)
+        res = SimpleNamespace(
+            id=res_id, main=main, molar_enthalpy_kj_mol=h, calorimeter_heat_capacity_j_k=c, expanded_uncertainty=U
+        )
         cells[(name, kind)].append((run, res))
     firsts = [members[0][1].id for members in cells.values() if len(members) >= 2]
-    budgets = dict(session.execute(sa.select(Result.id, Result.budget).where(Result.id.in_(firsts)))
-                   .all()) if firsts else {}
+    budgets = (
+        dict(session.execute(sa.select(Result.id, Result.budget).where(Result.id.in_(firsts))).all()) if firsts else {}
+    )
     out = []
     for (name, kind), members in cells.items():
         stats, problem = None, ""

@@ -31,9 +31,19 @@ def budget_lines(budget: list[dict[str, Any]]) -> list[SimpleNamespace]:
     out = []
     for b in budget or []:
         dof = b.get("degrees_of_freedom")
-        out.append(SimpleNamespace(name=b.get("input", ""), contribution=float(b.get("contribution") or 0.0),
-                                   dof=math.inf if dof is None else float(dof)))
+        out.append(
+            SimpleNamespace(
+                name=b.get("input", ""),
+                contribution=float(b.get("contribution") or 0.0),
+                dof=math.inf if dof is None else float(dof),
+            )
+        )
     return out
+
+
+def _finite_or_none(x: float) -> float | None:
+    """Return ``x``, or None for an infinite degree of freedom (JSON has no infinity)."""
+    return x if math.isfinite(x) else None
 
 
 def _main(result: Result) -> tuple[float | None, str]:
@@ -42,8 +52,9 @@ def _main(result: Result) -> tuple[float | None, str]:
     return result.calorimeter_heat_capacity_j_k, "J/K"
 
 
-def summarise_runs(runs: list[tuple[Run, Result]], *, first_budget: list[dict[str, Any]] | None = None
-                   ) -> dict[str, Any]:
+def summarise_runs(
+    runs: list[tuple[Run, Result]], *, first_budget: list[dict[str, Any]] | None = None
+) -> dict[str, Any]:
     """Return the series statistics of runs with their current results (at least 2, one kind).
 
     ``first_budget``: the first run's budget when the caller has read it already (else it is loaded).
@@ -64,17 +75,33 @@ def summarise_runs(runs: list[tuple[Run, Result]], *, first_budget: list[dict[st
         s = summarize_series(values, type_b_u=ub, type_b_dof=nub)
     except InputError as exc:
         raise Invalid(str(exc), field="run_ids") from None
-    fin = (lambda x: x if math.isfinite(x) else None)
-    return {"unit": unit, "run_ids": [r.id for r, _ in runs], "values": values, "n": s.n, "mean": s.mean,
-            "sd": s.sd, "u_mean": s.u_mean, "dof": s.dof, "t95": s.t95, "ci95": list(s.ci95),
-            "type_b_u": s.type_b_u, "type_b_dof": fin(s.type_b_dof), "u_combined": s.u_combined,
-            "dof_eff": fin(s.dof_eff), "k": s.k, "U": s.U}
+    return {
+        "unit": unit,
+        "run_ids": [r.id for r, _ in runs],
+        "values": values,
+        "n": s.n,
+        "mean": s.mean,
+        "sd": s.sd,
+        "u_mean": s.u_mean,
+        "dof": s.dof,
+        "t95": s.t95,
+        "ci95": list(s.ci95),
+        "type_b_u": s.type_b_u,
+        "type_b_dof": _finite_or_none(s.type_b_dof),
+        "u_combined": s.u_combined,
+        "dof_eff": _finite_or_none(s.dof_eff),
+        "k": s.k,
+        "U": s.U,
+    }
 
 
 def _current(session: so.Session, run_ids: list[int]) -> list[tuple[Run, Result]]:
     rows = session.execute(
-        sa.select(Run, Result).join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
-        .where(Run.id.in_(run_ids)).options(so.undefer(Result.budget)).order_by(Run.created_at, Run.id)
+        sa.select(Run, Result)
+        .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
+        .where(Run.id.in_(run_ids))
+        .options(so.undefer(Result.budget))
+        .order_by(Run.created_at, Run.id)
     ).all()
     return [(r, res) for r, res in rows]
 
@@ -97,8 +124,7 @@ def create_series(session: so.Session, actor: Person, *, name: str, run_ids: lis
     if missing:
         raise Invalid(f"no run with a result: {', '.join(map(str, missing))}", field="run_ids")
     summarise_runs(runs)
-    series = Series(name=name, notes=notes or "", created_by=actor,
-                    members=[SeriesRun(run_id=i) for i in ids])
+    series = Series(name=name, notes=notes or "", created_by=actor, members=[SeriesRun(run_id=i) for i in ids])
     session.add(series)
     session.commit()
     return series
@@ -135,10 +161,26 @@ def group_series(rows: list[Any], session: so.Session | None = None) -> list[dic
             s = summarize_series([m.value for m in members], type_b_u=ub, type_b_dof=nub)
         except InputError:
             continue
-        fin = (lambda x: x if math.isfinite(x) else None)
-        out.append({"group": group, "measurement": meas, "unit": members[0].unit,
-                    "run_ids": [m.run_id for m in members], "values": [m.value for m in members], "n": s.n,
-                    "mean": s.mean, "sd": s.sd, "u_mean": s.u_mean, "dof": s.dof, "t95": s.t95,
-                    "ci95": list(s.ci95), "type_b_u": s.type_b_u, "type_b_dof": fin(s.type_b_dof),
-                    "u_combined": s.u_combined, "dof_eff": fin(s.dof_eff), "k": s.k, "U": s.U})
+        out.append(
+            {
+                "group": group,
+                "measurement": meas,
+                "unit": members[0].unit,
+                "run_ids": [m.run_id for m in members],
+                "values": [m.value for m in members],
+                "n": s.n,
+                "mean": s.mean,
+                "sd": s.sd,
+                "u_mean": s.u_mean,
+                "dof": s.dof,
+                "t95": s.t95,
+                "ci95": list(s.ci95),
+                "type_b_u": s.type_b_u,
+                "type_b_dof": _finite_or_none(s.type_b_dof),
+                "u_combined": s.u_combined,
+                "dof_eff": _finite_or_none(s.dof_eff),
+                "k": s.k,
+                "U": s.U,
+            }
+        )
     return out

@@ -19,10 +19,9 @@ import math
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from calc import limits
 
-from webapp.models import SignInFailure
-from webapp.models import utcnow
+from calc import limits
+from webapp.models import SignInFailure, utcnow
 from webapp.services.errors import ServiceError
 
 log = logging.getLogger("cupcal.sign_in")
@@ -53,8 +52,9 @@ def wait_needed(session: so.Session, email: str, address: str, now: dt.datetime 
     allowed = int(limits.get("sign_in_failures"))
     worst = 0.0
     for column, value in ((SignInFailure.email, email), (SignInFailure.address, address)):
-        count, last = session.execute(sa.select(sa.func.count(), sa.func.max(SignInFailure.at))
-                                      .where(column == value, SignInFailure.at >= since)).one()
+        count, last = session.execute(
+            sa.select(sa.func.count(), sa.func.max(SignInFailure.at)).where(column == value, SignInFailure.at >= since)
+        ).one()
         if count >= allowed and last is not None:
             wait = min(BASE_WAIT * 2 ** (count - allowed), MAX_WAIT)
             worst = max(worst, (last + wait - now).total_seconds())
@@ -66,8 +66,9 @@ def check(session: so.Session, email: str, address: str) -> None:
     wait = wait_needed(session, email, address)
     if wait > 0:
         log.warning("sign-in refused (back-off %d s): email=%r address=%s", wait, email[:254], address)
-        raise TooManyAttempts(f"too many failed sign-ins for this account or from this address; "
-                              f"try again in {wait} s", retry_after=wait)
+        raise TooManyAttempts(
+            f"too many failed sign-ins for this account or from this address; try again in {wait} s", retry_after=wait
+        )
 
 
 def record_failure(session: so.Session, email: str, address: str) -> None:

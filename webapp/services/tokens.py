@@ -10,19 +10,20 @@ from __future__ import annotations
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import ApiToken
-from webapp.models import Person
-from webapp.services.errors import Forbidden
-from webapp.services.errors import Invalid
-from webapp.services.people import issue_token
-from webapp.services.people import token_for_secret  # noqa: F401  (re-exported)
+from webapp.models import ApiToken, Person
+from webapp.services.errors import Forbidden, Invalid
+from webapp.services.people import (
+    issue_token,
+    token_for_secret,  # noqa: F401  (re-exported)
+)
 
 #: "live" tokens may only create live runs, post their readings, set their target and finish them
 SCOPES = ("read", "write", "live")
 
 
-def issue_scoped_token(session: so.Session, person: Person, label: str = "", scope: str = "write"
-                       ) -> tuple[ApiToken, str]:
+def issue_scoped_token(
+    session: so.Session, person: Person, label: str = "", scope: str = "write"
+) -> tuple[ApiToken, str]:
     """Create a token with ``scope`` ("read", "write" or "live") and commit; return it with its secret (shown once)."""
     if scope not in SCOPES:
         raise Invalid(f"unknown scope {scope!r}; expected one of: {', '.join(SCOPES)}", field="scope")
@@ -37,5 +38,6 @@ def require_scope(token: ApiToken | None, scope: str) -> None:
 
 def tokens_of(session: so.Session, person: Person) -> list[ApiToken]:
     """Return ``person``'s tokens, newest first (with scope, creation, last use and revocation)."""
-    return list(session.scalars(
-        sa.select(ApiToken).where(ApiToken.person_id == person.id).order_by(ApiToken.id.desc())))
+    return list(
+        session.scalars(sa.select(ApiToken).where(ApiToken.person_id == person.id).order_by(ApiToken.id.desc()))
+    )

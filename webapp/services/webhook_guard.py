@@ -27,7 +27,6 @@ from typing import Any
 from urllib.parse import urlsplit
 
 from calc import limits
-
 from webapp.services.errors import Invalid
 
 Address = ipaddress.IPv4Address | ipaddress.IPv6Address
@@ -74,9 +73,14 @@ def refusal(addr: Address) -> str | None:
         if embedded is not None:
             inner = refusal(embedded)
             return f"carries the IPv4 address {embedded}, which {inner}" if inner else None
-    for name, flag in (("loopback", addr.is_loopback), ("private", addr.is_private),
-                       ("link-local", addr.is_link_local), ("multicast", addr.is_multicast),
-                       ("reserved", addr.is_reserved), ("unspecified", addr.is_unspecified)):
+    for name, flag in (
+        ("loopback", addr.is_loopback),
+        ("private", addr.is_private),
+        ("link-local", addr.is_link_local),
+        ("multicast", addr.is_multicast),
+        ("reserved", addr.is_reserved),
+        ("unspecified", addr.is_unspecified),
+    ):
         if flag:
             return f"is a {name} address"
     if not addr.is_global:

@@ -26,16 +26,10 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
-from webapp.models import Person
-from webapp.models import Run
-from webapp.models import Webhook
-from webapp.models import WebhookDelivery
-from webapp.models import utcnow
+from webapp.models import Person, Run, Webhook, WebhookDelivery, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.errors import NotFound
-from webapp.services.webhook_guard import Guard
-from webapp.services.webhook_guard import check_url
-from webapp.services.webhook_guard import post
+from webapp.services.webhook_guard import Guard, check_url, post
 
 EVENT = "run.locked"
 MAX_ATTEMPTS = 6
@@ -94,8 +88,13 @@ def deliveries_of(session: so.Session, actor: Person, webhook_id: int) -> list[W
     require_coordinator(actor, "manage webhooks")
     if session.get(Webhook, webhook_id) is None:
         raise NotFound(f"no webhook with id {webhook_id}")
-    return list(session.scalars(sa.select(WebhookDelivery).where(WebhookDelivery.webhook_id == webhook_id)
-                                .order_by(WebhookDelivery.id.desc())))
+    return list(
+        session.scalars(
+            sa.select(WebhookDelivery)
+            .where(WebhookDelivery.webhook_id == webhook_id)
+            .order_by(WebhookDelivery.id.desc())
+        )
+    )
 
 
 def payload(run: Run) -> dict[str, Any]:
@@ -109,9 +108,16 @@ def payload(run: Run) -> dict[str, Any]:
         "run": {"id": run.id, "kind": run.kind, "title": run.title},
         "locked_at": run.locked_at.isoformat() + "Z" if run.locked_at else None,
         "locked_by": run.locked_by.email if run.locked_by else None,
-        "result": None if r is None else {
-            "id": r.id, "main": r.main, "outputs": outputs_of(r), "expanded_uncertainty": r.expanded_uncertainty,
-            "coverage_factor": r.coverage_factor, "method": r.method, "software_version": r.software_version,
+        "result": None
+        if r is None
+        else {
+            "id": r.id,
+            "main": r.main,
+            "outputs": outputs_of(r),
+            "expanded_uncertainty": r.expanded_uncertainty,
+            "coverage_factor": r.coverage_factor,
+            "method": r.method,
+            "software_version": r.software_version,
         },
     }
 
@@ -121,14 +127,25 @@ def backoff(attempts: int, base: float = BACKOFF_BASE_S) -> dt.timedelta:
     return dt.timedelta(seconds=base * 2 ** max(0, attempts - 1))
 
 
-def attempt(session: so.Session, delivery: WebhookDelivery, *, now: dt.datetime | None = None,
-            timeout: float | None = None, base: float = BACKOFF_BASE_S, guard: Guard = Guard()) -> bool:
+def attempt(
+    session: so.Session,
+    delivery: WebhookDelivery,
+    *,
+    now: dt.datetime | None = None,
+    timeout: float | None = None,
+    base: float = BACKOFF_BASE_S,
+    guard: Guard = Guard(),
+) -> bool:
     """POST one delivery once, record the attempt, commit, and return whether it was accepted (2xx)."""
     now = now or utcnow()
     body = delivery.body.encode("utf-8")
-    headers = {"Content-Type": "application/json", "User-Agent": "cupcal-webhooks",
-               "X-Cupcal-Event": delivery.event, "X-Cupcal-Delivery": str(delivery.id),
-               SIGNATURE_HEADER: sign(delivery.webhook.secret, body)}
+    headers = {
+        "Content-Type": "application/json",
+        "User-Agent": "cupcal-webhooks",
+        "X-Cupcal-Event": delivery.event,
+        "X-Cupcal-Delivery": str(delivery.id),
+        SIGNATURE_HEADER: sign(delivery.webhook.secret, body),
+    }
     delivery.attempts += 1
     delivery.last_attempt_at = now
     try:
@@ -150,12 +167,20 @@ def attempt(session: so.Session, delivery: WebhookDelivery, *, now: dt.datetime 
     return not error
 
 
-def deliver_due(session: so.Session, *, now: dt.datetime | None = None, timeout: float | None = None,
-                base: float = BACKOFF_BASE_S, guard: Guard = Guard()) -> list[WebhookDelivery]:
+def deliver_due(
+    session: so.Session,
+    *,
+    now: dt.datetime | None = None,
+    timeout: float | None = None,
+    base: float = BACKOFF_BASE_S,
+    guard: Guard = Guard(),
+) -> list[WebhookDelivery]:
     """Attempt every pending delivery whose next attempt is due; return those attempted."""
     now = now or utcnow()
-    due = session.scalars(sa.select(WebhookDelivery).where(
-        WebhookDelivery.status == "pending", WebhookDelivery.next_attempt_at <= now).order_by(WebhookDelivery.id)
+    due = session.scalars(
+        sa.select(WebhookDelivery)
+        .where(WebhookDelivery.status == "pending", WebhookDelivery.next_attempt_at <= now)
+        .order_by(WebhookDelivery.id)
     ).all()
     for d in due:
         attempt(session, d, now=now, timeout=timeout, base=base, guard=guard)
@@ -164,10 +189,20 @@ def deliver_due(session: so.Session, *, now: dt.datetime | None = None, timeout:
 
 def delivery_json(d: WebhookDelivery) -> dict[str, Any]:
     """Return one line of the delivery log."""
+
     def iso(x: dt.datetime | None) -> str | None:
         return None if x is None else x.isoformat() + "Z"
 
-    return {"id": d.id, "webhook_id": d.webhook_id, "event": d.event, "run_id": d.run_id, "status": d.status,
-            "attempts": d.attempts, "last_status_code": d.last_status_code, "last_error": d.last_error,
-            "last_attempt_at": iso(d.last_attempt_at), "next_attempt_at": iso(d.next_attempt_at),
-            "created_at": iso(d.created_at)}
+    return {
+        "id": d.id,
+        "webhook_id": d.webhook_id,
+        "event": d.event,
+        "run_id": d.run_id,
+        "status": d.status,
+        "attempts": d.attempts,
+        "last_status_code": d.last_status_code,
+        "last_error": d.last_error,
+        "last_attempt_at": iso(d.last_attempt_at),
+        "next_attempt_at": iso(d.next_attempt_at),
+        "created_at": iso(d.created_at),
+    }

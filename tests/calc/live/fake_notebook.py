@@ -54,7 +54,7 @@ class FakeNotebook:
     def url(self) -> str:
         return f"http://127.0.0.1:{self.server.server_address[1]}"
 
-    def __enter__(self) -> "FakeNotebook":
+    def __enter__(self) -> FakeNotebook:
         self.thread.start()
         return self
 
@@ -79,12 +79,20 @@ class FakeNotebook:
                 return 404, {"error": f"no live run at {path}", "field": "id"}
             run = self.runs[int(match.group(1))]
             if method == "GET" and match.group(2) is None:
-                return 200, {"id": run.id, "state": run.state, "last_seq": run.last_seq,
-                             "n_readings": len(run.readings), "advice": None, "run_id": None}
+                return 200, {
+                    "id": run.id,
+                    "state": run.state,
+                    "last_seq": run.last_seq,
+                    "n_readings": len(run.readings),
+                    "advice": None,
+                    "run_id": None,
+                }
             if method == "POST" and match.group(2) == "/readings":
                 if run.state != "recording":
-                    return 409, {"error": f"live run {run.id} is {run.state}; it takes no more readings",
-                                 "field": "state"}
+                    return 409, {
+                        "error": f"live run {run.id} is {run.state}; it takes no more readings",
+                        "field": "state",
+                    }
                 return self._readings(run, data)
             if method == "POST" and match.group(2) == "/finish":
                 run.state, run.csv = "finished", data.get("readings_csv")
@@ -117,8 +125,10 @@ class FakeNotebook:
                 return 400, {"error": f"expected a time after {last_t!r} s, got {t!r}", "field": "readings"}
             last_t = t
             if seq != run.last_seq + 1:
-                return 409, {"error": f"seq {seq} after last_seq {run.last_seq}; expected consecutive seq",
-                             "field": "readings"}
+                return 409, {
+                    "error": f"seq {seq} after last_seq {run.last_seq}; expected consecutive seq",
+                    "field": "readings",
+                }
             run.readings.append([seq, t, c])
             run.arrived[seq] = now
             stored += 1

@@ -28,8 +28,9 @@ def live_run(kind: str, seed: int, folder: Path, **options) -> tuple[str, np.nda
     """Return (run-file text without a readings key, times in s, readings in °C, the simulated run)."""
     sim = SIMULATE[kind](seed, **{**QUIET, **options})
     path = simulator.write_run(sim, folder, f"{kind}-{seed}")
-    text = "\n".join(line for line in path.read_text(encoding="utf-8").splitlines()
-                     if not line.startswith("readings ="))
+    text = "\n".join(
+        line for line in path.read_text(encoding="utf-8").splitlines() if not line.startswith("readings =")
+    )
     return text + "\n", np.asarray(sim.time_s, dtype=float), np.asarray(sim.reading_C, dtype=float), sim
 
 

@@ -17,9 +17,25 @@ ROOT = Path(__file__).resolve().parents[3]
 def start_recorder(out: Path, port: str, *extra: str) -> subprocess.Popen:
     """Start `cupcal record OUT --port PORT --device stamped-kelvin --quiet …` in its own process."""
     env = {**os.environ, "PYTHONPATH": str(ROOT), "CUPCAL_TOKEN": TOKEN}
-    return subprocess.Popen([sys.executable, "-m", "calc.cli", "record", str(out), "--port", port,
-                             "--device", "stamped-kelvin", "--quiet", *extra],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    return subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "calc.cli",
+            "record",
+            str(out),
+            "--port",
+            port,
+            "--device",
+            "stamped-kelvin",
+            "--quiet",
+            *extra,
+        ],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=env,
+    )
 
 
 def rows(out: Path) -> list[str]:

@@ -14,8 +14,7 @@ from tests.calc.live.helpers import live_run, upto
 
 def analysed(text, t, y):
     spec = parse_run('readings = "x.csv"\n' + text, source="test")
-    a = analyze_spec(spec, Readings(t, y + 273.15, np.arange(2, t.size + 2), "test", "s", "degC"),
-                     with_reference=False)
+    a = analyze_spec(spec, Readings(t, y + 273.15, np.arange(2, t.size + 2), "test", "s", "degC"), with_reference=False)
     return a, forecast(a, t, y + 273.15)
 
 

@@ -30,8 +30,9 @@ def test_run_file_errors_name_the_field(run):
     refused("kind", text.replace('kind = "dissolution"', 'kind = "soup"'), t, y)
     refused("kind", "\n".join(line for line in text.splitlines() if not line.startswith("kind")), t, y)
     refused("solute.mass", text.replace('mass = "', 'mass = "x'), t, y)
-    no_thermometer = "\n".join(line for line in text.splitlines()
-                               if not line.startswith(("[thermometer]", "resolution =")))
+    no_thermometer = "\n".join(
+        line for line in text.splitlines() if not line.startswith(("[thermometer]", "resolution ="))
+    )
     refused("thermometer", no_thermometer, t, y)
     refused("thermo_meter", text.replace("[thermometer]", "[thermo_meter]"), t, y)
     refused("run_file", None, t, y)

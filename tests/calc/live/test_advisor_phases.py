@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 
 from calc.analysis import analyze_run
-from calc.live.advisor import PHASES, advise
 from calc.live.advice_signals import FORE_TARGET_S
+from calc.live.advisor import PHASES, advise
 from calc.simulation import simulator
 from tests.calc.live.helpers import live_run, upto
 
@@ -66,9 +66,14 @@ def test_unsteady_fore_period_asks_to_keep_stirring(tmp_path):
     assert steady.phase == "add_now"
 
 
-@pytest.mark.parametrize("kind, words", [("dissolution", "reaction under way"),
-                                         ("neutralization", "reaction under way"),
-                                         ("electrical-calibration", "heating under way")])
+@pytest.mark.parametrize(
+    "kind, words",
+    [
+        ("dissolution", "reaction under way"),
+        ("neutralization", "reaction under way"),
+        ("electrical-calibration", "heating under way"),
+    ],
+)
 def test_main_period_is_under_way(kind, words, tmp_path):
     text, t, y, sim = live_run(kind, 5, tmp_path)
     a = advise(text, *upto(t, y, sim.truth.t_m_s + 40.0))
@@ -152,8 +157,9 @@ def test_the_in_situ_kind_is_refused(tmp_path):
     assert a.phase == "refused" and "dissolution-with-calibration" in a.status
 
 
-@pytest.mark.parametrize("seed, kind", [(90_007, "neutralization"), (90_038, "electrical-calibration"),
-                                        (90_066, "dissolution")])
+@pytest.mark.parametrize(
+    "seed, kind", [(90_007, "neutralization"), (90_038, "electrical-calibration"), (90_066, "dissolution")]
+)
 def test_correlated_noise_in_a_short_fore_period_is_not_the_addition(seed, kind, tmp_path):
     # realistic logs (stirring noise correlated over 5–30 s, room drift) whose first minute wanders
     # like a change; before the line's own uncertainty entered the check, each was called

@@ -52,8 +52,9 @@ def test_probe_out_of_the_liquid(tmp_path):
     hit = [w for w in a.warnings if w.code == "probe_out"]
     assert hit, a.warnings
     assert hit[0].value < 0  # towards the room, below the heated liquid
-    assert "probe_out" not in codes(advise(text, *upto(*live_run("electrical-calibration", 23, tmp_path,
-                                                                  duration_s=150.0)[1:3], t[-1])))
+    assert "probe_out" not in codes(
+        advise(text, *upto(*live_run("electrical-calibration", 23, tmp_path, duration_s=150.0)[1:3], t[-1]))
+    )
 
 
 def test_readings_stopped(tmp_path):

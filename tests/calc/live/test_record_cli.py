@@ -7,7 +7,6 @@ import json
 import signal
 import sys
 import time
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -30,8 +29,10 @@ def _invoke(*args):
 def test_a_port_that_does_not_exist_is_one_line_and_exit_2_and_no_file(tmp_path):
     res = _invoke(tmp_path / "run.csv", "--port", "/dev/ttyNOSUCH7")
     assert res.exit_code == 2
-    assert res.output.strip() == ("cupcal record: --port: the serial port '/dev/ttyNOSUCH7' does not exist; "
-                                  "check the cable and the name (e.g. /dev/ttyUSB0 or COM3)")
+    assert res.output.strip() == (
+        "cupcal record: --port: the serial port '/dev/ttyNOSUCH7' does not exist; "
+        "check the cable and the name (e.g. /dev/ttyUSB0 or COM3)"
+    )
     assert not (tmp_path / "run.csv").exists()
 
 
@@ -49,44 +50,54 @@ def test_a_busy_port_is_one_line_and_exit_2(tmp_path):
     assert "Traceback" not in res.output and len(res.output.strip().splitlines()) == 1
 
 
-@pytest.mark.parametrize(("args", "said"), [
-    (["--pattern", "(?P<value>\\S+) C", "--unit", "Celsius grade"], "--unit: unknown unit 'Celsius grade'"),
-    (["--pattern", "(?P<value>\\S+)", "--unit", "C"], "--unit: the unit 'C' is not a temperature"),
-    (["--device", "no-such-probe"], "--device: unknown device 'no-such-probe'"),
-    (["--speed", "2", "--simulate", "dissolution", "--device", "bare-celsius"], "--speed: a speed other than 1"),
-    (["--speed", "2"], "--simulate: --speed, --seed and --garble go with --simulate KIND"),
-])
+@pytest.mark.parametrize(
+    ("args", "said"),
+    [
+        (["--pattern", "(?P<value>\\S+) C", "--unit", "Celsius grade"], "--unit: unknown unit 'Celsius grade'"),
+        (["--pattern", "(?P<value>\\S+)", "--unit", "C"], "--unit: the unit 'C' is not a temperature"),
+        (["--device", "no-such-probe"], "--device: unknown device 'no-such-probe'"),
+        (["--speed", "2", "--simulate", "dissolution", "--device", "bare-celsius"], "--speed: a speed other than 1"),
+        (["--speed", "2"], "--simulate: --speed, --seed and --garble go with --simulate KIND"),
+    ],
+)
 def test_unreadable_units_and_devices_are_refused_by_name(tmp_path, args, said):
-    res = _invoke(tmp_path / "run.csv", "--port", "/dev/null", *args) if "--simulate" not in args else \
-        _invoke(tmp_path / "run.csv", *args)
+    res = (
+        _invoke(tmp_path / "run.csv", "--port", "/dev/null", *args)
+        if "--simulate" not in args
+        else _invoke(tmp_path / "run.csv", *args)
+    )
     assert res.exit_code == 2 and said in res.output and "Traceback" not in res.output
 
 
 def test_fahrenheit_lines_on_a_pty_are_read_through_pyserial_and_logged_in_celsius(tmp_path):
     fahrenheit = [68.0, 70.25, 98.6, 212.0] * 5
-    thermo = SimThermometer(np.arange(20) * 0.02, [(f - 32) / 1.8 for f in fahrenheit],
-                            PROFILES["labelled-fahrenheit"], garble=0.2, seed=4)
+    thermo = SimThermometer(
+        np.arange(20) * 0.02, [(f - 32) / 1.8 for f in fahrenheit], PROFILES["labelled-fahrenheit"], garble=0.2, seed=4
+    )
     port = thermo.open_pty()
     thermo.start(delay_s=1.5)  # the command opens the port meanwhile
     try:
-        res = _invoke(tmp_path / "run.csv", "--port", port, "--device", "labelled-fahrenheit",
-                      "--max-readings", 20, "--quiet")
+        res = _invoke(
+            tmp_path / "run.csv", "--port", port, "--device", "labelled-fahrenheit", "--max-readings", 20, "--quiet"
+        )
     finally:
         thermo.close()
     assert res.exit_code == 0, res.output
     logged = read_readings(tmp_path / "run.csv").temperature_K - 273.15
     # t/°C = (t/°F − 32)/1.8 (NIST SP 811, 2008 ed., B.9, from memory): 68 °F = 20 °C, 98.6 °F = 37 °C, 212 °F = 100 °C
     assert np.allclose(logged, [20.0, 21.25, 37.0, 100.0] * 5, atol=1e-4)
-    garbled = sum(line not in {PROFILES["labelled-fahrenheit"].format(0, c) for c in logged}
-                  for _, line in thermo.written)
+    garbled = sum(
+        line not in {PROFILES["labelled-fahrenheit"].format(0, c) for c in logged} for _, line in thermo.written
+    )
     assert garbled > 0 and f"{garbled} line(s) did not give a reading" in res.output
 
 
 def test_a_simulated_run_is_recorded_whole_and_its_truth_and_run_file_given(tmp_path):
     from calc.simulation.realistic import realistic_scenario
 
-    res = _invoke(tmp_path / "sim.csv", "--simulate", "electrical-calibration", "--seed", 11, "--speed", 1000,
-                  "--quiet")
+    res = _invoke(
+        tmp_path / "sim.csv", "--simulate", "electrical-calibration", "--seed", 11, "--speed", 1000, "--quiet"
+    )
     assert res.exit_code == 0, res.output
     sim = realistic_scenario("electrical-calibration", 11, resolution=0.01, mixing_given=True)
     log = read_readings(tmp_path / "sim.csv")
@@ -99,13 +110,22 @@ def test_a_simulated_run_is_recorded_whole_and_its_truth_and_run_file_given(tmp_
 
 def test_a_command_and_a_followed_file_are_sources_too(tmp_path):
     code = "import sys\nfor i in range(12): print(f'{21 + i / 10:.2f}', flush=True)\nprint('oops')"
-    res = _invoke(tmp_path / "cmd.csv", "--command", f"{sys.executable} -c \"{code}\"", "--quiet")
+    res = _invoke(tmp_path / "cmd.csv", "--command", f'{sys.executable} -c "{code}"', "--quiet")
     assert res.exit_code == 0, res.output
     assert len(read_readings(tmp_path / "cmd.csv")) == 12 and "1 line(s) did not give a reading" in res.output
     followed = tmp_path / "probe.txt"
     followed.write_text("".join(f"{t}.0;29{t % 10}.0\n" for t in range(10, 25)))
-    res = _invoke(tmp_path / "f.csv", "--follow", followed, "--from-start", "--device", "stamped-kelvin",
-                  "--max-readings", 15, "--quiet")
+    res = _invoke(
+        tmp_path / "f.csv",
+        "--follow",
+        followed,
+        "--from-start",
+        "--device",
+        "stamped-kelvin",
+        "--max-readings",
+        15,
+        "--quiet",
+    )
     assert res.exit_code == 0, res.output
     assert read_readings(tmp_path / "f.csv").time_s[0] == 10.0
 
@@ -141,7 +161,7 @@ def test_kill_9_loses_at_most_the_last_reading_and_a_restart_resumes_the_log_and
         args = ("--notebook", nb.url, "--run-file", str(run_file))
         thermo.start()
         try:
-            for crash in range(3):
+            for _crash in range(3):
                 before = len(rows(out))
                 proc = start_recorder(out, port, *args)
                 wait_rows(out, before + 10)

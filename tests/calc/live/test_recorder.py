@@ -32,8 +32,7 @@ class ListSource(Source):
 def _record(path, lines, profile="stamped-kelvin", clock=time.time):
     log, sidecar, side = open_log(path, clock=clock)
     shown = []
-    recorder = Recorder(ListSource(lines), PROFILES[profile], log, sidecar, side, on_bad_line=shown.append,
-                        clock=clock)
+    recorder = Recorder(ListSource(lines), PROFILES[profile], log, sidecar, side, on_bad_line=shown.append, clock=clock)
     summary = recorder.run(lambda: False)
     log.close()
     return summary, shown
@@ -147,8 +146,7 @@ def test_a_full_disk_ends_the_recording_with_a_message_and_keeps_the_rows_before
         write(self, line)
 
     monkeypatch.setattr(CsvLog, "_write", fill_up)
-    recorder = Recorder(ListSource([f"{t}.0;295.0" for t in range(10)]), PROFILES["stamped-kelvin"], log,
-                        sidecar, side)
+    recorder = Recorder(ListSource([f"{t}.0;295.0" for t in range(10)]), PROFILES["stamped-kelvin"], log, sidecar, side)
     summary = recorder.run(lambda: False)
     log.close()
     assert summary.failed and summary.recorded == 3
