@@ -137,7 +137,7 @@ def analyze_spec(
     if analyze is not None:  # a kind with an analysis of its own (the in-situ calibration)
         return cast("Analysis", analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
                               fore=fore, after=after, with_reference=with_reference,
-                       calorimeter_type=calorimeter_type, history=history)
+                       calorimeter_type=calorimeter_type, history=history))
     try:
         prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
         props = resolve_properties(spec, dt)

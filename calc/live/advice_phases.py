@@ -22,8 +22,18 @@ from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast, forecast
 from calc.live.advice_signals import Warning_, find_change
 from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
 
-__all__ = ["State", "fore_phase", "later_phase", "require_time", "stopped", "find_change",
-           "LIVE_KINDS", "MIN_LIVE_READINGS", "MIN_AFTER_STOP_S", "HOLD_GAIN"]
+__all__ = [
+    "State",
+    "fore_phase",
+    "later_phase",
+    "require_time",
+    "stopped",
+    "find_change",
+    "LIVE_KINDS",
+    "MIN_LIVE_READINGS",
+    "MIN_AFTER_STOP_S",
+    "HOLD_GAIN",
+]
 
 #: Kinds with one event per log, which the advisor follows.
 LIVE_KINDS = tuple(ADD_NOW)
@@ -223,20 +233,30 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
     if good == 0.0:
         return {"phase": "can_stop", "status": stop, "seconds_more": 0.0}
     if good is not None:
-        return {"phase": "after", "status": f"after period: {duration(good)} more for {target_text(target, unit)}",
-                "seconds_more": good}
+        return {
+            "phase": "after",
+            "status": f"after period: {duration(good)} more for {target_text(target, unit)}",
+            "seconds_more": good,
+        }
     flat = fc.first(lambda x: x >= wait and fc.gain(x) < limit)
     floor = fc.expanded(flat if flat is not None else 1e9)
     why = f"{target_text(target, unit)} cannot be reached: U stays near {amount_text(floor, unit)} ({_main_line(fc)})"
     if flat == 0.0:
         fell = _recent_gain(st, fc)
         if fell is not None and fell >= limit:
-            return {"phase": "after", "status": f"after period: U fell by {fell * 100:.0f} % in the last "
-                    f"{duration(HORIZON_S)}, more than forecast; {duration(RECHECK_S)} more, then the advice "
-                    "looks again", "seconds_more": RECHECK_S}
+            return {
+                "phase": "after",
+                "status": f"after period: U fell by {fell * 100:.0f} % in the last "
+                f"{duration(HORIZON_S)}, more than forecast; {duration(RECHECK_S)} more, then the advice "
+                "looks again",
+                "seconds_more": RECHECK_S,
+            }
         return {"phase": "can_stop", "status": f"{stop}; {why}", "seconds_more": 0.0}
-    return {"phase": "after", "status": f"after period: {duration(flat or HORIZON_S)} more; {why}",
-            "seconds_more": flat}
+    return {
+        "phase": "after",
+        "status": f"after period: {duration(flat or HORIZON_S)} more; {why}",
+        "seconds_more": flat,
+    }
 
 
 def _recent_gain(st: State, fc: Forecast) -> float | None:

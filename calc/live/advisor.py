@@ -65,9 +65,25 @@ def _plain(v: Any) -> Any:
     return x if math.isfinite(x) else None
 
 
-def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
-           target_u: float | None = None, now_s: float | None = None, source: str = "live run",
-           previous_phase: str | None = None) -> Advice:
+def _check_previous(previous_phase: str | None) -> None:
+    """Refuse a previous phase that is not one of ``PHASES`` (naming the field)."""
+    if previous_phase is not None and previous_phase not in PHASES:
+        raise InputError(
+            f"expected the previous phase to be one of {', '.join(PHASES)}, got {previous_phase!r}",
+            field="previous_phase",
+        )
+
+
+def advise(
+    run_text: str,
+    times_s: Sequence[float],
+    temps_c: Sequence[float],
+    *,
+    target_u: float | None = None,
+    now_s: float | None = None,
+    source: str = "live run",
+    previous_phase: str | None = None,
+) -> Advice:
     """Return the advice for a live run (see the module docstring and docs/methods.md §9).
 
     ``previous_phase`` is the phase of the previous advice on the same run, if any: after a
@@ -85,9 +101,7 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     target = checked_target(target_u, spec)
     if now_s is not None:
         phases.require_time(now_s)
-    if previous_phase is not None and previous_phase not in PHASES:
-        raise InputError(f"expected the previous phase to be one of {', '.join(PHASES)}, got {previous_phase!r}",
-                         field="previous_phase")
+    _check_previous(previous_phase)
     if spec.kind not in phases.LIVE_KINDS:
         return Advice(
             "refused",
@@ -106,8 +120,9 @@ def advise(run_text: str, times_s: Sequence[float], temps_c: Sequence[float], *,
     prep = prepare_log(t, y, resolution=q, lines=lines)
     readings = Readings(t, y, lines, source, "s", "degC")
     given = spec.mixing_time.m_as("s") if spec.mixing_time is not None else None
-    state = phases.State(spec, target, prep, now_s, held=previous_phase == "can_stop",
-                         earlier=_earlier_u(spec, readings))
+    state = phases.State(
+        spec, target, prep, now_s, held=previous_phase == "can_stop", earlier=_earlier_u(spec, readings)
+    )
     change = phases.find_change(prep.t, prep.y, q, given)
     if change is None:
         return _advice(phases.fore_phase(state))

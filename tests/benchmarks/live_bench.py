@@ -43,11 +43,20 @@ def parse_args(argv: list[str] | None) -> argparse.Namespace:
     p.add_argument("--duration", type=float, default=120.0, help="seconds of recording")
     p.add_argument("--workers", type=int, default=2)
     p.add_argument("--page", action="store_true", help="follow run 1's live page (else the room view)")
-    p.add_argument("--servers", type=int, choices=(1, 2), default=1,
-                   help="2: a second gunicorn on the same database serves the followed stream (updates cross "
-                        "processes only through the database)")
-    p.add_argument("--preload", type=int, default=0,
-                   help="readings each run holds before the measured window (the advisor's cost grows with them)")
+    p.add_argument(
+        "--servers",
+        type=int,
+        choices=(1, 2),
+        default=1,
+        help="2: a second gunicorn on the same database serves the followed stream (updates cross "
+        "processes only through the database)",
+    )
+    p.add_argument(
+        "--preload",
+        type=int,
+        default=0,
+        help="readings each run holds before the measured window (the advisor's cost grows with them)",
+    )
     return p.parse_args(argv)
 
 
@@ -154,7 +163,9 @@ def measure(args: argparse.Namespace, url: str, db_pid: int | None, tmp: Path) -
         view_base = base if args.servers == 1 else servers.enter_context(gunicorn(url, args.workers, tmp))[1]
         ids = start_runs(base, setup["benches"], args.preload)
         viewer = signed_in(view_base, COORDINATOR)
-        path = f"/live/{ids[0]}/events?after=-1" if args.page else f"/classes/sections/{setup['section_id']}/live/events"
+        path = (
+            f"/live/{ids[0]}/events?after=-1" if args.page else f"/classes/sections/{setup['section_id']}/live/events"
+        )
         reader = StreamReader(viewer, view_base + path, on_event)
         reader.start()
         time.sleep(2.0)  # the stream is open before the first reading
@@ -246,13 +257,26 @@ def problems(res: dict[str, Any], limit_s: float) -> list[str]:
 
 def main(argv: list[str] | None = None) -> int:
     args = parse_args(argv)
-    name = f"live-{'page' if args.page else 'room'}-{args.runs}-{args.db}" + ("-two-servers" if args.servers == 2 else "")
-    with tempfile.TemporaryDirectory(prefix="cupcal-live-bench-") as tmp, \
-            fresh_database(args.db, Path(tmp)) as (url, db_text, db_pid):
+    name = f"live-{'page' if args.page else 'room'}-{args.runs}-{args.db}" + (
+        "-two-servers" if args.servers == 2 else ""
+    )
+    with (
+        tempfile.TemporaryDirectory(prefix="cupcal-live-bench-") as tmp,
+        fresh_database(args.db, Path(tmp)) as (url, db_text, db_pid),
+    ):
         res = measure(args, url, db_pid, Path(tmp))
-    res.update(config={"db": db_text, "runs": args.runs, "preload": args.preload, "rate_per_s": args.rate,
-                       "duration_s": args.duration, "workers": args.workers,
-                       "followed": "live page of run 1" if args.page else "room view", "servers": args.servers})
+    res.update(
+        config={
+            "db": db_text,
+            "runs": args.runs,
+            "preload": args.preload,
+            "rate_per_s": args.rate,
+            "duration_s": args.duration,
+            "workers": args.workers,
+            "followed": "live page of run 1" if args.page else "room view",
+            "servers": args.servers,
+        }
+    )
     limit = 1.0 if args.page and args.servers == 1 else 2.0
     bad = problems(res, limit)
     lat = res["latency_s"]

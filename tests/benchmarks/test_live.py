@@ -44,10 +44,12 @@ def test_thirty_live_runs_with_the_room_view(db: str) -> None:
     # each run holds 400 readings (6.7 min of a log at 1/s) first: the advisor's cost grows with the log
     assert main(["--db", db, "--runs", "30", "--duration", "120", "--preload", "400", *_extra()]) == 0, (
         "see the problems above"
+    )
 
 
 @pytest.mark.parametrize("db", ["sqlite", "postgresql"])
 def test_live_page_latency_across_two_servers(db: str) -> None:
     _needs_postgres(db)
-    assert main(["--db", db, "--runs", "1", "--page", "--servers", "2", "--duration", "60", *_extra()]) == 0, \
+    assert main(["--db", db, "--runs", "1", "--page", "--servers", "2", "--duration", "60", *_extra()]) == 0, (
         "see the problems above"
+    )

@@ -152,11 +152,13 @@ def _table(reps: list[Replay]) -> None:
         st = [x for x in sub if x.outcome == "stopped"]
         saved = [x.saved_s for x in st]
         name = "all" if kind == "all" else f"{kind} {res:g} K"
-        print(f"{name:32s} {len(sub):4d} {len(st):7d} {sum(x.outcome == 'unreachable' for x in sub):7d} "
-              f"{sum(x.outcome == 'never' for x in sub):5d} {sum(x.outcome == 'error' for x in sub):3d} "
-              f"{_share([x.final_u <= x.target for x in st]):>16s} {_share([x.covered_stop for x in st]):>16s} "
-              f"{_share([x.covered_fixed for x in st]):>16s} "
-              f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}")
+        print(
+            f"{name:32s} {len(sub):4d} {len(st):7d} {sum(x.outcome == 'unreachable' for x in sub):7d} "
+            f"{sum(x.outcome == 'never' for x in sub):5d} {sum(x.outcome == 'error' for x in sub):3d} "
+            f"{_share([x.final_u <= x.target for x in st]):>16s} {_share([x.covered_stop for x in st]):>16s} "
+            f"{_share([x.covered_fixed for x in st]):>16s} "
+            f"{(f'{statistics.median(saved):.0f} s' if saved else '—'):>11s}"
+        )
     _strict(reps)
     unreach = [x for x in reps if x.outcome == "unreachable"]
     print(
@@ -185,18 +187,25 @@ def _table(reps: list[Replay]) -> None:
 def _strict(reps: list[Replay]) -> None:
     """The issue's figure read strictly: every "you can stop" (both variants), and the pessimistic "cannot"."""
     said = [x for x in reps if x.outcome in ("stopped", "unreachable")]
-    print(f"strict: of all {len(said)} runs told 'you can stop' (either variant), final U ≤ target in "
-          f"{_share([x.final_u <= x.target for x in said])}")
+    print(
+        f"strict: of all {len(said)} runs told 'you can stop' (either variant), final U ≤ target in "
+        f"{_share([x.final_u <= x.target for x in said])}"
+    )
     reachable = [x for x in reps if x.u_fixed is not None and x.u_fixed <= x.target]
     wrong = [x for x in reachable if x.outcome == "unreachable"]
     n_un = sum(x.outcome == "unreachable" for x in reps)
-    print(f"strict: of {len(reachable)} runs whose fixed 10 minutes reached the target, told 'cannot be reached' "
-          f"in {len(wrong)} ({len(wrong)} of the {n_un} 'cannot be reached' runs were too pessimistic)")
+    print(
+        f"strict: of {len(reachable)} runs whose fixed 10 minutes reached the target, told 'cannot be reached' "
+        f"in {len(wrong)} ({len(wrong)} of the {n_un} 'cannot be reached' runs were too pessimistic)"
+    )
     dump = os.environ.get("CUPCAL_STOP_DUMP")
     if dump:
         import json
-        rows = [{k: (sorted(v) if isinstance(v, set) else v) for k, v in vars(x).items()} | {"i": i}
-                for i, x in enumerate(reps)]
+
+        rows = [
+            {k: (sorted(v) if isinstance(v, set) else v) for k, v in vars(x).items()} | {"i": i}
+            for i, x in enumerate(reps)
+        ]
         with open(dump, "w", encoding="utf-8") as fh:
             json.dump(rows, fh, indent=1)
 
@@ -204,8 +213,9 @@ def _strict(reps: list[Replay]) -> None:
 @pytest.mark.slow
 # a provisional Newtonian fit of a few minutes of a wild log can overflow its covariance (calc/deltat/drift.py);
 # the advisor then answers without an estimate or with a wide one, which this figure is about, not the warning
-@pytest.mark.filterwarnings("ignore:overflow encountered:RuntimeWarning",
-                            "ignore:invalid value encountered:RuntimeWarning")
+@pytest.mark.filterwarnings(
+    "ignore:overflow encountered:RuntimeWarning", "ignore:invalid value encountered:RuntimeWarning"
+)
 def test_stop_advice(tmp_path):
     reps = [_replay(i, tmp_path) for i in range(N_RUNS)]
     _table(reps)

@@ -17,11 +17,7 @@ import pytest
 import requests
 
 from tests.benchmarks.live_bench import start_runs
-from tests.benchmarks.live_setup import COORDINATOR
-from tests.benchmarks.live_setup import StreamReader
-from tests.benchmarks.live_setup import gunicorn
-from tests.benchmarks.live_setup import seed
-from tests.benchmarks.live_setup import signed_in
+from tests.benchmarks.live_setup import COORDINATOR, StreamReader, gunicorn, seed, signed_in
 from tests.webapp.conftest import create_database
 from tests.webapp.live_helpers import demo_rows
 
@@ -66,8 +62,11 @@ def post_readings(base: str, token: str, live_id: int, n: int) -> dict[int, floa
         s.headers["Authorization"] = f"Bearer {token}"
         for seq in range(n):
             sent[seq] = time.monotonic()
-            s.post(f"{base}/api/live-runs/{live_id}/readings", json={"readings": [[seq, rows[seq][0], rows[seq][1]]]},
-                   timeout=30).raise_for_status()
+            s.post(
+                f"{base}/api/live-runs/{live_id}/readings",
+                json={"readings": [[seq, rows[seq][0], rows[seq][1]]]},
+                timeout=30,
+            ).raise_for_status()
             time.sleep(0.5)
     return sent
 
@@ -90,8 +89,10 @@ def test_readings_posted_to_one_server_reach_the_pages_of_another(shared_url: st
         (live_id,) = start_runs(base_a, setup["benches"], 0)
         viewer = signed_in(base_b, COORDINATOR)
         page, room = Arrivals(live_id), Arrivals(live_id)
-        readers = [StreamReader(viewer, f"{base_b}/live/{live_id}/events?after=-1", page),
-                   StreamReader(viewer, f"{base_b}/classes/sections/{setup['section_id']}/live/events", room)]
+        readers = [
+            StreamReader(viewer, f"{base_b}/live/{live_id}/events?after=-1", page),
+            StreamReader(viewer, f"{base_b}/classes/sections/{setup['section_id']}/live/events", room),
+        ]
         for r in readers:
             r.start()
         time.sleep(2.0)  # both streams are open before the first reading
@@ -102,5 +103,7 @@ def test_readings_posted_to_one_server_reach_the_pages_of_another(shared_url: st
     for r in readers:
         r.join(35)
     lat = check("live page", page, sent) + check("room view", room, sent)
-    print(f"\n{shared_url.split(':')[0].split('+')[0]}: server A -> server B, {len(lat)} arrivals, "
-          f"median {sorted(lat)[len(lat) // 2]:.3f} s, max {max(lat):.3f} s")
+    print(
+        f"\n{shared_url.split(':')[0].split('+')[0]}: server A -> server B, {len(lat)} arrivals, "
+        f"median {sorted(lat)[len(lat) // 2]:.3f} s, max {max(lat):.3f} s"
+    )

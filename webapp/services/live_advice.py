@@ -56,8 +56,14 @@ def compute_advice(session: so.Session, live: LiveRun) -> dict[str, Any]:
     text = analysis_text(live.run_file, live.id, calibration)
     target, _where = effective_target(session, live)
     try:
-        advice = advise(text, [r[1] for r in rows], [r[2] for r in rows], target_u=target,
-                        source=f"live run {live.id}", previous_phase=previous_phase(live))
+        advice = advise(
+            text,
+            [r[1] for r in rows],
+            [r[2] for r in rows],
+            target_u=target,
+            source=f"live run {live.id}",
+            previous_phase=previous_phase(live),
+        )
     except (InputError, AnalysisError) as exc:
         return _refused(str(exc))
     return advice.to_dict()

@@ -23,8 +23,18 @@ def forecast_with_gain(gain: float) -> Forecast:
     """A forecast with U now = 1 and U two minutes later = 1 − gain (k = 2)."""
     total = 0.25
     after = total * (1.0 - (1.0 - gain) ** 2) / (1.0 - L0 / (L0 + HORIZON_S))
-    fc = Forecast(expanded_now=1.0, k=2.0, fixed_var=total - after, fit_fore=0.0, fit_after=after, res_fore=0.0,
-                  res_after=0.0, after_length=L0, level_var=lambda L: 1.0 / L, floor_ratio=lambda L: 1.0)
+    fc = Forecast(
+        expanded_now=1.0,
+        k=2.0,
+        fixed_var=total - after,
+        fit_fore=0.0,
+        fit_after=after,
+        res_fore=0.0,
+        res_after=0.0,
+        after_length=L0,
+        level_var=lambda L: 1.0 / L,
+        floor_ratio=lambda L: 1.0,
+    )
     assert fc.gain(0.0) == pytest.approx(gain, rel=1e-9)
     assert fc.expanded(0.0) == pytest.approx(1.0)
     return fc
@@ -39,8 +49,11 @@ def test_a_gain_between_the_two_limits_keeps_a_stop_but_does_not_start_one():
     fc = forecast_with_gain(0.5 * (MIN_GAIN + HOLD_GAIN))
     fresh, held = status(fc, held=False), status(fc, held=True)
     assert fresh["phase"] == "after" and fresh["seconds_more"] > 0
-    assert held == {"phase": "can_stop", "seconds_more": 0.0,
-                    "status": f"you can stop now: more readings would lower U by less than {HOLD_GAIN * 100:.0f} %"}
+    assert held == {
+        "phase": "can_stop",
+        "seconds_more": 0.0,
+        "status": f"you can stop now: more readings would lower U by less than {HOLD_GAIN * 100:.0f} %",
+    }
 
 
 def test_a_clear_gain_ends_a_stop():
@@ -68,4 +81,4 @@ def test_the_previous_phase_is_checked_and_used(tmp_path):
         prev = advise(text, *upto(t, y, float(end)), target_u=0.5, previous_phase=prev).phase
         seen.append(prev)
     assert "can_stop" in seen
-    assert set(seen[seen.index("can_stop"):]) == {"can_stop"}, seen
+    assert set(seen[seen.index("can_stop") :]) == {"can_stop"}, seen

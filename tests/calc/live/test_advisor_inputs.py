@@ -78,16 +78,18 @@ def test_no_readings_is_waiting_not_an_error(run):
 
 
 # the provisional Newtonian fit of this log's first two minutes is degenerate (numpy warns on the way)
-@pytest.mark.filterwarnings("ignore:overflow encountered:RuntimeWarning",
-                            "ignore:invalid value encountered:RuntimeWarning")
+@pytest.mark.filterwarnings(
+    "ignore:overflow encountered:RuntimeWarning", "ignore:invalid value encountered:RuntimeWarning"
+)
 def test_a_fit_whose_uncertainty_overflows_gets_advice_not_a_crash(tmp_path):
     # run 22 of tests/benchmarks/test_stop_advice.py: at 120 readings ΔT's model term overflowed a float
     from calc.simulation.realistic import realistic_scenario
     from calc.simulation.run import write_run
 
     rng = np.random.default_rng(90_022)
-    sim = realistic_scenario("neutralization", rng, resolution=0.1, mixing_given=bool(rng.uniform() < 0.5),
-                             longer_s=900.0)
+    sim = realistic_scenario(
+        "neutralization", rng, resolution=0.1, mixing_given=bool(rng.uniform() < 0.5), longer_s=900.0
+    )
     text = write_run(sim, tmp_path, "x").read_text(encoding="utf-8")
     a = advise(text, sim.time_s[:120], sim.reading_C[:120])
     assert a.phase in ("reaction", "after", "can_stop") and a.to_dict()["status"]

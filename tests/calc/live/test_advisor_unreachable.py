@@ -1,4 +1,4 @@
-""""Cannot be reached" is said only when the readings agree that U no longer falls (docs/methods.md §9.4).
+""" "Cannot be reached" is said only when the readings agree that U no longer falls (docs/methods.md §9.4).
 
 The forecast holds fixed every budget line but the after fits'; U may still fall through the others.
 Before the advice gives up on a target it compares U now with U of the log two minutes ago.
@@ -36,9 +36,12 @@ def status(then: float | None, *, held: bool = False) -> dict:
 
 def test_u_still_falling_defers_the_verdict():
     out = status(1.05)  # U fell from 1.05 to 1 in the last two minutes: 4.8 % > 2 %
-    assert out == {"phase": "after", "seconds_more": RECHECK_S,
-                   "status": "after period: U fell by 5 % in the last 2 min, more than forecast; "
-                             "60 s more, then the advice looks again"}
+    assert out == {
+        "phase": "after",
+        "seconds_more": RECHECK_S,
+        "status": "after period: U fell by 5 % in the last 2 min, more than forecast; "
+        "60 s more, then the advice looks again",
+    }
 
 
 @pytest.mark.parametrize("then", [1.01, 0.98, None])
