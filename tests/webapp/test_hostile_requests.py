@@ -187,3 +187,11 @@ def test_a_form_part_with_no_name_is_not_a_server_error() -> None:
     refuse_nul_in_form(MultiDict([(None, "plain"), ("title", "x")]))  # no exception: nothing to refuse
     with pytest.raises(Invalid):
         refuse_nul_in_form(MultiDict([(None, "a\x00b")]))
+
+
+def test_an_unknown_query_parameter_is_refused_by_name(client: Any, lab: Any) -> None:
+    """A misspelt query parameter (per_pgae) is a 400 naming it, not silently ignored (common practice, no source)."""
+    r = client.get("/api/runs?per_pgae=5", headers=lab.auth("coord"))
+    assert r.status_code == 400
+    assert r.get_json()["field"] == "per_pgae" and "per_page" in r.get_json()["error"]
+    assert client.get("/api/runs?per_page=5", headers=lab.auth("coord")).status_code == 200

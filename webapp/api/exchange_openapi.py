@@ -245,6 +245,14 @@ EXCHANGE_PATHS.update(
                 401,
                 403,
                 413,
+                params=[
+                    {
+                        "name": "name",
+                        "in": "query",
+                        "schema": {"type": "string"},
+                        "description": "the archive's file name, for the report (default archive.eln)",
+                    }
+                ],
                 body={
                     "required": True,
                     "content": {
