@@ -251,7 +251,9 @@ def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict
                 "looks again",
                 "seconds_more": RECHECK_S,
             }
-        return {"phase": "can_stop", "status": f"{stop}; {why}", "seconds_more": 0.0}
+        # not "you can stop": the target is not met; the student and the lab decide (docs/methods.md §9.1)
+        more = f"more readings would lower U by less than {limit * 100:.0f} %"
+        return {"phase": "out_of_reach", "status": f"{why}; {more}", "seconds_more": 0.0}
     return {
         "phase": "after",
         "status": f"after period: {duration(flat or HORIZON_S)} more; {why}",

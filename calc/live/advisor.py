@@ -25,7 +25,9 @@ from calc.live.advice_checks import checked_arrays, checked_spec, checked_target
 
 __all__ = ["Advice", "advise", "PHASES", "WARNING_CODES"]
 
-PHASES = ("waiting", "fore", "add_now", "reaction", "after", "can_stop", "refused")
+PHASES = ("waiting", "fore", "add_now", "reaction", "after", "can_stop", "out_of_reach", "refused")
+#: phases that more readings no longer change: leaving them needs a clearer gain (advice_phases.HOLD_GAIN)
+_HELD = ("can_stop", "out_of_reach")
 WARNING_CODES = ("fore_drift", "spike", "probe_out", "readings_stopped", "fore_short", "too_noisy")
 _KELVIN = 273.15  # 0 °C in kelvin (SI Brochure, 9th ed., 2.3.1)
 
@@ -87,7 +89,7 @@ def advise(
     """Return the advice for a live run (see the module docstring and docs/methods.md §9).
 
     ``previous_phase`` is the phase of the previous advice on the same run, if any: after a
-    "can_stop" the advice leaves it only on a clearer gain (``advice_phases.HOLD_GAIN``).
+    "can_stop" or "out_of_reach" the advice leaves it only on a clearer gain (``advice_phases.HOLD_GAIN``).
 
     Raises
     ------
@@ -120,9 +122,8 @@ def advise(
     prep = prepare_log(t, y, resolution=q, lines=lines)
     readings = Readings(t, y, lines, source, "s", "degC")
     given = spec.mixing_time.m_as("s") if spec.mixing_time is not None else None
-    state = phases.State(
-        spec, target, prep, now_s, held=previous_phase == "can_stop", earlier=_earlier_u(spec, readings)
-    )
+    held, earlier = previous_phase in _HELD, _earlier_u(spec, readings)
+    state = phases.State(spec, target, prep, now_s, held=held, earlier=earlier)
     change = phases.find_change(prep.t, prep.y, q, given)
     if change is None:
         return _advice(phases.fore_phase(state))

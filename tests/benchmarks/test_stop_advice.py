@@ -11,8 +11,9 @@ own call. Reported:
 * of the runs stopped with the target met: the share whose final U ≤ target (must be ≥ 95 %), the
   share whose final 95 % interval holds the simulator's truth, against the same runs analysed with a
   fixed 10-minute after period, and the median time saved against that fixed period;
-* the issue's figure read strictly: of ALL runs told "you can stop" (also "…; U ≤ x cannot be
-  reached"), the share whose final U ≤ target; and of the runs whose fixed 10 minutes reached the
+* the issue's figure read strictly: of ALL runs told "you can stop", the share whose final U ≤ target
+  (a target out of reach has its own status, "U ≤ x cannot be reached: …", which does not say "you can
+  stop"); and of the runs whose fixed 10 minutes reached the
   target, how many were told it cannot be reached (too pessimistic). CUPCAL_STOP_DUMP=file.json
   writes every run's outcome;
 * runs stopped because the target cannot be reached, and runs that never got "you can stop";
@@ -113,8 +114,8 @@ def _replay(i: int, folder) -> Replay:
         rep.raised |= {w.code for w in a.warnings}
         if a.phase == "after" and first_after is None and a.seconds_more is not None:
             first_after = (float(t[n - 1]), a.seconds_more)
-        if a.phase == "can_stop":
-            reached = a.estimate["expanded_u"] <= rep.target
+        if a.phase in ("can_stop", "out_of_reach"):  # the person stops: done, or more readings no longer help
+            reached = a.phase == "can_stop"
             rep.outcome = "stopped" if reached else "unreachable"
             stop = float(t[n - 1]) + REACTION_S
             try:
@@ -186,10 +187,11 @@ def _table(reps: list[Replay]) -> None:
 
 def _strict(reps: list[Replay]) -> None:
     """The issue's figure read strictly: every "you can stop" (both variants), and the pessimistic "cannot"."""
-    said = [x for x in reps if x.outcome in ("stopped", "unreachable")]
+    said = [x for x in reps if x.outcome == "stopped"]
     print(
-        f"strict: of all {len(said)} runs told 'you can stop' (either variant), final U ≤ target in "
-        f"{_share([x.final_u <= x.target for x in said])}"
+        f"strict: of all {len(said)} runs told 'you can stop', final U ≤ target in "
+        f"{_share([x.final_u <= x.target for x in said])} (a target out of reach is its own status, "
+        "\"out_of_reach\", which never says 'you can stop')"
     )
     reachable = [x for x in reps if x.u_fixed is not None and x.u_fixed <= x.target]
     wrong = [x for x in reachable if x.outcome == "unreachable"]

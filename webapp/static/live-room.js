@@ -56,6 +56,7 @@
       }
       li.classList.toggle("tile-warn", w.length > 0);
       li.classList.toggle("tile-stop", (r.advice || {}).phase === "can_stop");
+      li.classList.toggle("tile-reach", (r.advice || {}).phase === "out_of_reach");
       li.setAttribute("data-state", r.state);
       if (r.dirty) {
         C.draw(li.querySelector("svg"), {readings: r.rows, periods: (r.advice || {}).periods,
@@ -75,7 +76,9 @@
       var warn = tiles.filter(function (t) { return t.warn; }).length;
       var stop = ids.filter(function (id) { return (runs[id].advice || {}).phase === "can_stop"; }).length;
       var silent = (Date.now() - lastWord) / 1000;
+      var reach = ids.filter(function (id) { return (runs[id].advice || {}).phase === "out_of_reach"; }).length;
       var line = rec + " recording · " + warn + " with a warning · " + stop + " may stop now";
+      if (reach) { line += " · " + reach + " cannot reach the target U"; }
       if (silent > STALE_S) { line += " · no word from the notebook for " + Math.round(silent) + " s (the page keeps trying)"; }
       var s = document.getElementById("room-summary");
       if (s.textContent !== line) { s.textContent = line; }

@@ -64,7 +64,7 @@ def test_a_clear_gain_ends_a_stop():
 def test_held_never_claims_a_target_that_is_not_met():
     fc = forecast_with_gain(0.5 * (MIN_GAIN + HOLD_GAIN))
     out = status(fc, held=True, target=0.5)  # U = 1 and the floor ≈ 0.93 > 0.5
-    assert out["phase"] == "can_stop" and "U ≤ 0.5 kJ/mol cannot be reached" in out["status"]
+    assert out["phase"] == "out_of_reach" and "U ≤ 0.5 kJ/mol cannot be reached" in out["status"]
     floor = fc.expanded(1e9)
     # the after window stops growing at AFTER_MAX_S (docs/methods.md §8.5)
     assert math.isclose(floor, 2.0 * math.sqrt(fc.fixed_var + fc.fit_after * L0 / AFTER_MAX_S), rel_tol=1e-9)

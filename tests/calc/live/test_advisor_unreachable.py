@@ -48,21 +48,22 @@ def test_u_still_falling_defers_the_verdict():
 def test_u_that_no_longer_falls_confirms_it(then):
     # 1 % fell, U rose a little, or the earlier log has no analysis: the forecast's verdict stands
     out = status(then)
-    assert out["phase"] == "can_stop"
+    assert out["phase"] == "out_of_reach"
     assert "U ≤ 0.5 kJ/mol cannot be reached" in out["status"]
+    assert "you can stop" not in out["status"]  # the target is not met: the page must not say so
 
 
 def test_the_hold_applies_to_the_readings_too():
     # 2.5 % fell: enough to defer a fresh verdict, not to leave a "you can stop" already given
     assert status(1.0 / 0.975)["phase"] == "after"
-    assert status(1.0 / 0.975, held=True)["phase"] == "can_stop"
+    assert status(1.0 / 0.975, held=True)["phase"] == "out_of_reach"
 
 
 def test_the_earlier_u_is_the_analysis_of_the_shorter_log(tmp_path):
     text, t, y, sim = live_run("dissolution", 8, tmp_path, tau_r=20.0)
     end = sim.truth.t_m_s + 600.0
     a = advise(text, *upto(t, y, end), target_u=0.001)
-    assert a.phase == "can_stop" and "cannot be reached" in a.status
+    assert a.phase == "out_of_reach" and "cannot be reached" in a.status
     b = advise(text, *upto(t, y, end - HORIZON_S), target_u=0.001)
     # the verdict stood, so the log two minutes earlier had a U at most 2 % above today's
     assert a.estimate["expanded_u"] >= (1.0 - MIN_GAIN) * b.estimate["expanded_u"]
