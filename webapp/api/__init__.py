@@ -15,6 +15,7 @@ from webapp.api import (
     exchange,  # noqa: F401
     live,  # noqa: F401
     openapi,  # noqa: F401
+    query_check,  # noqa: F401  (refuses undocumented query parameters)
     review,  # noqa: F401
     runs,  # noqa: F401
 )

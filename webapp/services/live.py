@@ -25,6 +25,7 @@ from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
 from webapp.services.live_advice import refresh_advice
 from webapp.services.live_events import notify
 from webapp.services.live_runfile import checked_run_file, toml_data
+from webapp.services.runs import group_for
 
 #: the most readings one POST may carry
 MAX_BATCH = 1000
@@ -71,7 +72,7 @@ def create_live_run(session: so.Session, actor: Person, data: LiveCreate) -> tup
     target = checked_target(data.target_u)
     info = toml_data(data.run_file).get("info")
     info = info if isinstance(info, dict) else {}
-    group = _group_for(session, actor, data.group_id, _text(info.get("group")))
+    group = group_for(session, actor, data.group_id, _text(info.get("group")))
     bench = _bench_for(session, data.bench_id, group, _text(info.get("bench")))
     cal_id = _calorimeter_for(session, data.calorimeter_id, bench, data.run_file)
     spec = checked_run_file(session, data.run_file, cal_id)
@@ -110,21 +111,6 @@ def create_live_run(session: so.Session, actor: Person, data: LiveCreate) -> tup
 
 def _by_key(session: so.Session, owner_id: int, key: str) -> LiveRun | None:
     return session.scalar(sa.select(LiveRun).where(LiveRun.owner_id == owner_id, LiveRun.client_key == key))
-
-
-def _group_for(session: so.Session, actor: Person, group_id: int | None, name: str | None) -> Group | None:
-    if actor.role == "student":
-        if group_id is not None and group_id != actor.group_id:
-            raise Forbidden("a student records live runs only within their own group", field="group_id")
-        return actor.group
-    if group_id is not None:
-        group = session.get(Group, group_id)
-        if group is None:
-            raise Invalid(f"no group with id {group_id}", field="group_id")
-        return group
-    if name:
-        return session.scalar(sa.select(Group).where(Group.name == name.strip()))
-    return None
 
 
 def _bench_for(session: so.Session, bench_id: int | None, group: Group | None, name: str | None) -> Bench | None:

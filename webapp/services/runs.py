@@ -131,7 +131,7 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     """
     done = analyse_upload(session, upload)
     spec, calorimeter, calibration = done.spec, done.calorimeter, done.calibration
-    group = _group_for(session, actor, upload.group_id, spec)
+    group = group_for(session, actor, upload.group_id, spec.get("info", "group"))
     run = _new_run(
         spec, done.readings, upload, done.run_name, done.readings_name, actor, group, calorimeter, calibration
     )
@@ -219,7 +219,7 @@ def update_run(
     check_version("run", run, expected_version)
     for key, new in changes.items():
         if key == "group_id":
-            group = _group_for(session, actor, new, None, explicit=True)
+            group = group_for(session, actor, new, None, explicit=True)
             old_name = run.group.name if run.group else None
             if (group.id if group else None) != run.group_id:
                 record_change(session, actor, "run", run.id, "group", old_name, group.name if group else None)
@@ -397,9 +397,13 @@ def calorimeter_for_upload(session: so.Session, upload: RunUpload) -> Calorimete
     return find_calorimeter(session, name) if name else None
 
 
-def _group_for(
-    session: so.Session, actor: Person, group_id: Any, spec: RunSpec | None, *, explicit: bool = False
+def group_for(
+    session: so.Session, actor: Person, group_id: Any, name: str | None, *, explicit: bool = False
 ) -> Group | None:
+    """Return the group a run (uploaded or live) goes to: a student's own; else ``group_id``, else by ``name``.
+
+    ``explicit``: only ``group_id`` counts (a move of a run); raises Forbidden or Invalid naming ``group_id``.
+    """
     if group_id is not None and (isinstance(group_id, bool) or not isinstance(group_id, int)):
         raise Invalid("expected a group id (a whole number)", field="group_id")
     if actor.role == "student":
@@ -411,12 +415,9 @@ def _group_for(
         if group is None:
             raise Invalid(f"no group with id {group_id}", field="group_id")
         return group
-    if explicit or spec is None:
+    if explicit or not name:
         return None
-    name = spec.get("info", "group")
-    if name:
-        return session.scalar(sa.select(Group).where(Group.name == name.strip()))
-    return None
+    return session.scalar(sa.select(Group).where(Group.name == name.strip()))
 
 
 def _new_run(
