@@ -137,20 +137,27 @@ class JointNewtonConstruction(NewtonianConstruction):
 class AfterNewtonConstruction(NewtonianConstruction):
     """Two solutions: the final system's Newtonian law from the after period alone, start level from the fore line.
 
-    ``after_newton`` is (y_f, g_f, k, t_f).
+    ``after_newton`` is (y_f, g_f, k, t_f). ``fore_bend`` is (q0, q1, q2): the Newtonian fore drift's
+    departure q0 + q1 u + q2 u² (u = t − t_i) from the straight fore line, q0 the correction of the start
+    level at mixing (docs/methods.md §8.8).
     """
 
     after_newton: tuple[float, float, float, float]
+    fore_bend: tuple[float, float, float] = (0.0, 0.0, 0.0)
 
     def _law(self) -> dict[str, tuple[float, ...]]:
-        return {"after_newton": self.after_newton}
+        return {"after_newton": self.after_newton, "fore_bend": self.fore_bend}
 
     def curves(self, t0: float, t1: float, n: int = 240) -> Curves:
-        """``fore``: the other system's fore line up to mixing; ``after``: the after law from t_i."""
+        """``fore``: the other system's bent fore drift up to mixing (through the start level at t_i);
+        ``after``: the after law from t_i."""
         y_f, g_f, k, t_f = self.after_newton
+        q0, q1, q2 = self.fore_bend
         tf = grid(t0, self.t_i, n=n)
+        u = tf - self.t_i
+        fore = line_values(*self.fore_line, tf) + q0 + u * (q1 + u * q2)
         ta = grid(self.t_i, t1, t_f, n=n)
-        return {"fore": (tf, line_values(*self.fore_line, tf)), "after": (ta, newton_values(y_f, g_f, k, t_f, ta))}
+        return {"fore": (tf, fore), "after": (ta, newton_values(y_f, g_f, k, t_f, ta))}
 
 
 @dataclass(frozen=True)

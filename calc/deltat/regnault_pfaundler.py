@@ -75,7 +75,7 @@ def classic_k(fore: LineFit, after: LineFit) -> float:
     return k if 0.0 <= k < 1 / 300.0 else 0.0
 
 
-def fore_curvature(log: Log, fore: LineFit, k: float) -> float:
+def fore_curvature(log: Log, fore: LineFit, k: float) -> tuple[float, float, float]:
     """Return what a Newtonian fore drift adds to the straight fore line's value at the mixing time (K).
 
     Before mixing the contents follow T' = k_A (T_∞ − T), so T'' = −k_A T' ≈ −k_A b: the drift is
@@ -85,13 +85,17 @@ def fore_curvature(log: Log, fore: LineFit, k: float) -> float:
     law's k (the exchange constant of the cup before mixing is not fitted); the caller takes the
     correction itself as the half-width of a rectangular term, i.e. k_A anywhere in 0–2k
     (docs/methods.md §8.8).
+
+    Returned as the bent curve's departure from the straight line, q0 + q1 u + q2 u² with u = t − t_i:
+    (T''/2)·(u² − P(u)), P the straight line fitted to u² over the window; q0 = q(t_i) is the correction.
     """
     tf_, _ = log.window("fore")
     if k <= 0.0 or tf_.size < 3:
-        return 0.0
+        return (0.0, 0.0, 0.0)
     t_i = log.periods.mixing_time
-    G = fit_line(tf_, (tf_ - t_i) ** 2).at(t_i)
-    return 0.5 * k * fore.b * G
+    P = fit_line(tf_, (tf_ - t_i) ** 2)
+    half_curv = -0.5 * k * fore.b  # T''/2
+    return (-half_curv * P.at(t_i), -half_curv * P.b, half_curv)
 
 
 @dataclass(frozen=True)
@@ -106,6 +110,7 @@ class _Setup:
     not_newtonian: str
     start: float
     u_start: float
+    fore_bend: tuple[float, float, float] = (0.0, 0.0, 0.0)  # two solutions: the bent fore drift (fore_curvature)
 
 
 def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) -> _Setup:
@@ -114,7 +119,8 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     ta_, ya_ = log.window("after")
     nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
-    bend = fore_curvature(log, fore, max(nf.k, 0.0))
+    quad = fore_curvature(log, fore, max(nf.k, 0.0))
+    bend = quad[0]
     T_A = fore.at(t_i) + bend
     var_TA = fore.var_at(t_i) + bend * bend / 3.0
 
@@ -124,7 +130,7 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
         return cast(float, (y_f - T_A) - g_f * (t_f - t_i) - k * (y_f * (t_f - t_i) - integ))
 
     # the start level (fore line) enters with sensitivity −1 − k·(first half-interval) ≈ −1
-    return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA))
+    return _Setup(nf, dT_of, var_TA, min(nf.dof, fore.dof), 2, _NOT_NEWTONIAN_TWO, T_A, math.sqrt(var_TA), quad)
 
 
 def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, float, float]) -> _Setup:
@@ -143,7 +149,8 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
     return _Setup(nf, dT_of, 0.0, nf.dof, 3, _NOT_NEWTONIAN_ONE, start, u_start)
 
 
-def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
+def _construction(log: Log, setup: _Setup, u_k: float, fore: LineFit, after: LineFit) -> NewtonianConstruction:
+    nf = setup.fit
     common: dict[str, Any] = dict(
         t_i=log.periods.mixing_time,
         t_f=log.periods.main_end,
@@ -157,7 +164,8 @@ def _construction(log: Log, nf: NewtonFit, u_k: float, fore: LineFit, after: Lin
     )
     if log.two_solution:
         y_f, g_f, k_f = (float(v) for v in nf.params)  # the after period's own law: three parameters
-        return AfterNewtonConstruction(**common, after_newton=(y_f, g_f, k_f, log.periods.main_end))
+        after_newton = (y_f, g_f, k_f, log.periods.main_end)
+        return AfterNewtonConstruction(**common, after_newton=after_newton, fore_bend=setup.fore_bend)
     y_i, y_f, g_i, k = (float(v) for v in nf.params)
     return JointNewtonConstruction(**common, newton_joint=(y_i, y_f, g_i, k))
 
@@ -192,6 +200,6 @@ def regnault_pfaundler(log: Log) -> DeltaT:
         start_temperature=setup.start,
         u_start_temperature=setup.u_start,
         end_temperature=setup.start + value,
-        construction=_construction(log, nf, u_k, fore, after),
+        construction=_construction(log, setup, u_k, fore, after),
         warnings=warnings,
     )

@@ -9,7 +9,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+import pytest
 
+from calc.live.advice_forecast import HORIZON_S, Forecast
 from calc.simulation import simulator
 
 SIMULATE = {
@@ -38,3 +40,27 @@ def upto(t: np.ndarray, y: np.ndarray, time_s: float) -> tuple[np.ndarray, np.nd
     """Return the readings logged up to ``time_s``."""
     m = t <= time_s
     return t[m], y[m]
+
+
+L0 = 300.0  # after period so far, s (past the 3 minutes the advice asks for)
+
+
+def forecast_with_gain(gain: float) -> Forecast:
+    """A forecast with U now = 1 and U two minutes later = 1 − gain (k = 2)."""
+    total = 0.25
+    after = total * (1.0 - (1.0 - gain) ** 2) / (1.0 - L0 / (L0 + HORIZON_S))
+    fc = Forecast(
+        expanded_now=1.0,
+        k=2.0,
+        fixed_var=total - after,
+        fit_fore=0.0,
+        fit_after=after,
+        res_fore=0.0,
+        res_after=0.0,
+        after_length=L0,
+        level_var=lambda L: 1.0 / L,
+        floor_ratio=lambda L: 1.0,
+    )
+    assert fc.gain(0.0) == pytest.approx(gain, rel=1e-9)
+    assert fc.expanded(0.0) == pytest.approx(1.0)
+    return fc

@@ -11,33 +11,10 @@ import pytest
 
 from calc.deltat.periods import AFTER_MAX_S
 from calc.errors import InputError
-from calc.live.advice_forecast import HORIZON_S, MIN_GAIN, Forecast
+from calc.live.advice_forecast import MIN_GAIN, Forecast
 from calc.live.advice_phases import HOLD_GAIN, _after_status
 from calc.live.advisor import advise
-from tests.calc.live.helpers import live_run, upto
-
-L0 = 300.0  # after period so far, s (past the 3 minutes the advice asks for)
-
-
-def forecast_with_gain(gain: float) -> Forecast:
-    """A forecast with U now = 1 and U two minutes later = 1 − gain (k = 2)."""
-    total = 0.25
-    after = total * (1.0 - (1.0 - gain) ** 2) / (1.0 - L0 / (L0 + HORIZON_S))
-    fc = Forecast(
-        expanded_now=1.0,
-        k=2.0,
-        fixed_var=total - after,
-        fit_fore=0.0,
-        fit_after=after,
-        res_fore=0.0,
-        res_after=0.0,
-        after_length=L0,
-        level_var=lambda L: 1.0 / L,
-        floor_ratio=lambda L: 1.0,
-    )
-    assert fc.gain(0.0) == pytest.approx(gain, rel=1e-9)
-    assert fc.expanded(0.0) == pytest.approx(1.0)
-    return fc
+from tests.calc.live.helpers import L0, forecast_with_gain, live_run, upto
 
 
 def status(fc: Forecast, held: bool, target: float = 1.5) -> dict:

@@ -14,8 +14,7 @@ import pytest
 from calc.live.advice_forecast import HORIZON_S, MIN_GAIN
 from calc.live.advice_phases import RECHECK_S, _after_status
 from calc.live.advisor import advise
-from tests.calc.live.helpers import live_run, upto
-from tests.calc.live.test_advisor_hold import L0, forecast_with_gain
+from tests.calc.live.helpers import L0, forecast_with_gain, live_run, upto
 
 FLAT = forecast_with_gain(0.5 * MIN_GAIN)  # U = 1 now, 2 more minutes lower it by 1 %
 TARGET = 0.5  # below U's floor: the forecast cannot reach it
