@@ -1,4 +1,4 @@
-"""Analyse a run end to end: run file and log → corrected ΔT → heat → result ± U.
+"""Analyze a run end to end: run file and log → corrected ΔT → heat → result ± U.
 
 :func:`analyze_run` is the one entry point the command line and the web app
 call. It never prints; it returns an :class:`Analysis` that the formatters in
@@ -77,7 +77,7 @@ def analyze_run(
     source: str | None = None,
     with_reference: bool = True,
 ) -> Analysis:
-    """Analyse the run file at ``path``.
+    """Analyze the run file at ``path``.
 
     Parameters
     ----------
@@ -122,7 +122,7 @@ def analyze_spec(
     calorimeter_type: str | None = None,
     history: Sequence[tuple[float, float]] | None = None,
 ) -> Analysis:
-    """Analyse an already parsed run and log (used by the web app for re-analysis).
+    """Analyze an already parsed run and log (used by the web app for re-analysis).
 
     ``mixing_time`` (value, standard uncertainty in s) overrides the run file's. Before the
     periods are found, repeated time stamps are merged and spikes rejected

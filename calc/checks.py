@@ -1,6 +1,6 @@
 """Plausibility checks on every run, each carrying the number that triggered it.
 
-:func:`run_checks` looks at an analysed run and returns a list of :class:`Check`
+:func:`run_checks` looks at an analyzed run and returns a list of :class:`Check`
 (``code``, ``severity`` "info" or "warning", ``message``, ``value``):
 
 ``solubility``
@@ -131,7 +131,7 @@ def run_checks(
     reference: Any = None,
     composition: Callable[[], tuple[dict[str, float], float]] | None = None,
 ) -> list[Check]:
-    """Return every plausibility check of an analysed run (:class:`calc.analysis.Analysis`).
+    """Return every plausibility check of an analyzed run (:class:`calc.analysis.Analysis`).
 
     ``composition`` returns the final solution's solutes (formula → g) and water (g); the analysis
     passes its own, so this module needs no import of it.

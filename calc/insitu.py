@@ -36,7 +36,7 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from calc.deltat.base import resolution_term
-from calc.deltat.drift import fit_line, inflation, lag1_autocorrelation, phi
+from calc.deltat.drift import decay_integral, fit_line, inflation, lag1_autocorrelation
 from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.periods import MIN_WINDOW_POINTS, Periods, detect_mixing_time, find_periods
 from calc.errors import AnalysisError, InputError
@@ -181,7 +181,7 @@ def _dissolution_end(t: np.ndarray, y: np.ndarray, t_m: float, nxt: float, spec:
 
 def _window_model(params: np.ndarray, j: int, t: np.ndarray, c: float, t_ref: float) -> np.ndarray:
     level, a, k = params[j], params[-2], params[-1]
-    return cast(np.ndarray, level + (a - k * (level - t_ref)) * phi(k, t - c))
+    return cast(np.ndarray, level + (a - k * (level - t_ref)) * decay_integral(k, t - c))
 
 
 def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[float, float]],

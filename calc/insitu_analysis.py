@@ -137,7 +137,7 @@ def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, mon
                    seed: int | None, fore: tuple[float, float] | None, after: tuple[float, float] | None,
                    with_reference: bool, calorimeter_type: str | None,
                    history: Any) -> Any:
-    """Analyse a dissolution-with-calibration run end to end; return a :class:`calc.result.Analysis`."""
+    """Analyze a dissolution-with-calibration run end to end; return a :class:`calc.result.Analysis`."""
     from dataclasses import replace
 
     from calc.checks import run_checks
@@ -146,7 +146,7 @@ def analyze_insitu(spec: RunSpec, readings: Readings, *, method: str | None, mon
     from calc.uncertainty.gum import monte_carlo, propagate
 
     if (method or spec.method or "regnault-pfaundler") != "regnault-pfaundler":
-        raise InputError("a dissolution-with-calibration run is analysed with regnault-pfaundler only (one drift "
+        raise InputError("a dissolution-with-calibration run is analyzed with regnault-pfaundler only (one drift "
                          "law shared by the dissolution and the heater); leave method out", field="method",
                          source=spec.source)
     spec = replace(spec, fore_period=fore or spec.fore_period, after_period=after or spec.after_period)

@@ -24,7 +24,7 @@ temperature change is predicted instead of measured:
     window is ``fore``; the analysis starts the after window at t_m + 8.3 τ_r + τ_s + 15 s (six
     release time constants past the 90 % point, plus its 15 s smoothing), so L_after = ``after`` −
     that; t_x ≈ t_m + τ_r + τ_s, and for two solutions the fore line is read at t_m itself.
-    Checked against simulated runs analysed end to end (tests/calc/test_plan.py);
+    Checked against simulated runs analyzed end to end (tests/calc/test_plan.py);
   - the method term of :data:`calc.deltat.base.METHOD_TERMS`; no mixing-time term (the Newtonian
     correction does not need the mixing time).
 

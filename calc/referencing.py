@@ -1,4 +1,4 @@
-"""Attach the reference comparison and the safety cautions to an analysed run (best effort).
+"""Attach the reference comparison and the safety cautions to an analyzed run (best effort).
 
 A missing reference or hazard table never fails a run: the comparison and the cautions are
 simply left empty.

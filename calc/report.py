@@ -31,7 +31,7 @@ def _qty(analysis: Analysis, key: str) -> dict[str, Any]:
 
 
 def to_record(analysis: Analysis, input_path: str) -> dict[str, Any]:
-    """Return the JSON record of one analysed run (the keys of the public format)."""
+    """Return the JSON record of one analyzed run (the keys of the public format)."""
     main = analysis.main
     return {
         "input": input_path,
@@ -73,7 +73,7 @@ def _mixing_record(analysis: Analysis) -> dict[str, Any]:
 
 
 def error_record(input_path: str, message: str) -> dict[str, Any]:
-    """Return the JSON record of a run that could not be analysed."""
+    """Return the JSON record of a run that could not be analyzed."""
     return {"input": input_path, "error": message}
 
 

@@ -1,4 +1,4 @@
-"""The result of one analysed run (:class:`Analysis`) and the units of its outputs.
+"""The result of one analyzed run (:class:`Analysis`) and the units of its outputs.
 
 Its own module so that the analysis, the in-situ kind, the reports and the checks all use the
 one type without importing one another.
@@ -31,7 +31,7 @@ OUTPUT_UNITS = {
 
 @dataclass
 class Analysis:
-    """Everything known about one analysed run."""
+    """Everything known about one analyzed run."""
 
     spec: RunSpec
     readings: Readings

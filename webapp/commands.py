@@ -209,7 +209,7 @@ def import_command(path: Path, section_text: str | None, mapping: Path | None, e
     """Import a section's runs from a zip or a folder of run files (.toml) and logs (.csv), or an .eln archive.
 
     Each run is stored all-or-nothing; importing the same files again changes nothing.
-    Runs are analysed without Monte Carlo (re-analyse a run for the check). An .eln archive
+    Runs are analyzed without Monte Carlo (re-analyze a run for the check). An .eln archive
     written by cupcal comes back exactly; see ``webapp/README.md``.
     """
     if path.suffix.lower() == ".eln" and path.is_file():

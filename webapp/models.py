@@ -321,7 +321,7 @@ class Result(Base):
     monte_carlo: so.Mapped[dict[str, Any] | None] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     record: so.Mapped[dict[str, Any]] = so.mapped_column(sa.JSON, deferred=True, deferred_group="detail")
     #: plausibility checks of calc.checks ({"code", "severity", "message", "value"}); not deferred, since
-    #: lists, dashboards and control charts leave out runs with warning checks (None: analysed before them)
+    #: lists, dashboards and control charts leave out runs with warning checks (None: analyzed before them)
     checks: so.Mapped[list[Any] | None] = so.mapped_column(sa.JSON)
     software_version: so.Mapped[str] = so.mapped_column(sa.String(40))
     created_at: so.Mapped[dt.datetime] = so.mapped_column(default=utcnow)
@@ -542,7 +542,7 @@ LIVE_STATES = ("recording", "finished", "abandoned")
 class LiveRun(Base):
     """A run being recorded: its run file, the readings streamed so far, the latest advice.
 
-    When finished it is analysed and stored as an ordinary :class:`Run` (``run_id``).
+    When finished it is analyzed and stored as an ordinary :class:`Run` (``run_id``).
     """
 
     __tablename__ = "live_runs"

@@ -1,6 +1,6 @@
 """``cupcal analyze`` and ``cupcal methods``: a thin shell around :mod:`calc.analysis`.
 
-Exit status: 0 when every input was analysed, 2 when any input failed or the
+Exit status: 0 when every input was analyzed, 2 when any input failed or the
 command was used wrongly. Errors are one line per problem, never a traceback.
 """
 
@@ -37,7 +37,7 @@ __all__ = ["analyze", "methods"]
 @click.option("--seed", type=int, default=None, help="Seed of the Monte Carlo generator.")
 @click.option("--json", "as_json", is_flag=True, help="One JSON object per line and per input.")
 def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | None, as_json: bool) -> None:
-    """Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."""
+    """Analyze run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."""
     from calc.analysis import analyze_run, check_options
     from calc.report import error_record, format_report, to_record
 
@@ -65,7 +65,7 @@ def analyze(runs: tuple[str, ...], method: str | None, trials: int, seed: int | 
             continue
         except Exception as exc:  # a bug must not stop the batch or show a traceback
             failed += 1
-            msg = f"internal error while analysing ({exc.__class__.__name__}: {exc})"
+            msg = f"internal error while analyzing ({exc.__class__.__name__}: {exc})"
             if as_json:
                 out.write(json.dumps(error_record(path, msg), ensure_ascii=False) + "\n")
             else:

@@ -37,7 +37,7 @@ class CommandEntry(NamedTuple):
 #: commands' own docstrings by tests/calc/test_cli.py).
 COMMANDS: dict[str, CommandEntry] = {
     "analyze": CommandEntry(
-        "calc.cli.analyze:analyze", "Analyse run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."
+        "calc.cli.analyze:analyze", "Analyze run files: corrected ΔT, heat, ΔH (or C_cal) ± U and the budget."
     ),
     "methods": CommandEntry("calc.cli.analyze:methods", "List the corrected-ΔT methods."),
     "hess": CommandEntry(

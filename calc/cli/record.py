@@ -208,7 +208,7 @@ class _Stop:
     type=click.FloatRange(min=0, min_open=True),
     help="Target expanded uncertainty for the notebook's advice.",
 )
-@click.option("--finish", is_flag=True, help="When recording ends, ask the notebook to analyse and store the run.")
+@click.option("--finish", is_flag=True, help="When recording ends, ask the notebook to analyze and store the run.")
 @click.option("--max-readings", type=click.IntRange(1), help="Stop after this many readings.")
 @click.option("--quiet", is_flag=True, help="Do not print each reading.")
 def record_command(out: Path, **opts: Any) -> None:

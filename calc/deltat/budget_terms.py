@@ -3,7 +3,7 @@
 * :func:`quantisation_drift_term`: a floor on the drift slopes' uncertainty from the thermometer
   resolution (a staircase of readings says little about a slope smaller than one step per window).
 * :func:`mixing_time_term`: what the uncertainty of a detected mixing time does to ΔT, found by
-  analysing again with the mixing time moved by ± its standard uncertainty.
+  analyzing again with the mixing time moved by ± its standard uncertainty.
 * :func:`inadequacy_term`: how far ΔT moves when the final system's drift law is taken from the
   after period alone instead of from the fore and after periods together (a room temperature that
   changes, evaporation, a stirrer that heats, or any other departure from one Newtonian law).
@@ -22,7 +22,7 @@ import numpy as np
 
 from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
-from calc.deltat.drift import fit_newton_single, phi
+from calc.deltat.drift import decay_integral, fit_newton_single
 
 __all__ = [
     "slope_floor",
@@ -135,7 +135,7 @@ def inadequacy_term(log: Log, dt: DeltaT) -> tuple[float, float]:
 
 
 def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
-    """Return what an environment drift adds to the readings: δ(t) = c·[x − φ(k, x)]/k, x = t − t_i.
+    """Return what an environment drift adds to the readings: δ(t) = c·[x − decay_integral(k, x)]/k, x = t − t_i.
 
     With the room drifting at β the drift law gains c·(t − t_i), c = kβ; the contents follow
     dδ/dt = −kδ + c·(t − t_i) with δ(t_i) = 0 (the fit absorbs any other start). For k → 0,
@@ -144,7 +144,7 @@ def room_response(t: np.ndarray, t_i: float, k: float, c: float) -> np.ndarray:
     x = np.asarray(t, dtype=float) - t_i
     if abs(k) < 1e-12:
         return 0.5 * c * x * x
-    return cast(np.ndarray, c * (x - phi(k, x)) / k)
+    return cast(np.ndarray, c * (x - decay_integral(k, x)) / k)
 
 
 def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) -> float:

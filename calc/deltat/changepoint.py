@@ -139,7 +139,7 @@ def _change_onset(t: np.ndarray, y: np.ndarray, h: int) -> float:
     e = _edge(t, y, h)
     inner = slice(h, n - h)
     # no drift is taken off: a long heater pulse can fill most of the log, so a median of e
-    # would be the change itself; the drift is far smaller than any change worth analysing
+    # would be the change itself; the drift is far smaller than any change worth analyzing
     ee = np.zeros(n)
     ee[inner] = e[inner]
     i_max = int(np.argmax(np.abs(ee)))

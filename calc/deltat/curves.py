@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from calc.deltat.drift import phi
+from calc.deltat.drift import decay_integral
 
 __all__ = ["grid", "line_values", "newton_values", "probe_reading"]
 
@@ -25,8 +25,8 @@ def line_values(a: float, b: float, t_mean: float, t: np.ndarray) -> np.ndarray:
 
 
 def newton_values(y0: float, g0: float, k: float, t0: float, t: np.ndarray) -> np.ndarray:
-    """Return y0 + g0·φ(k, t − t0): the solution of dT/dt = g0 + k (y0 − T) through (t0, y0) (docs/methods.md §2.3)."""
-    return y0 + g0 * phi(k, np.asarray(t, dtype=float) - t0)
+    """Return y0 + g0·decay_integral(k, t − t0): the solution of dT/dt = g0 + k (y0 − T) through (t0, y0) (docs/methods.md §2.3)."""
+    return y0 + g0 * decay_integral(k, np.asarray(t, dtype=float) - t0)
 
 
 def probe_reading(u: np.ndarray, T_inf: float, k: float, T_m: float, D: float, k_r: float, s: float) -> np.ndarray:

@@ -23,7 +23,7 @@ __all__ = [
     "fit_newton_single",
     "lag1_autocorrelation",
     "inflation",
-    "phi",
+    "decay_integral",
 ]
 
 
@@ -122,14 +122,14 @@ def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
     )
 
 
-def phi(k: float, x: np.ndarray) -> np.ndarray:
-    """Return (1 − e^{−k x})/k, continuous at k = 0 (equal to x there)."""
+def decay_integral(k: float, x: np.ndarray) -> np.ndarray:
+    """Return ∫₀ˣ e^{−k s} ds = (1 − e^{−k x})/k, continuous at k = 0 (equal to x there)."""
     if abs(k) < 1e-12:
         return cast(np.ndarray, x - 0.5 * k * x * x)
     return -np.expm1(-k * x) / k
 
 
-def _dphi_dk(k: float, x: np.ndarray) -> np.ndarray:
+def _d_decay_integral_dk(k: float, x: np.ndarray) -> np.ndarray:
     # d/dk [(1 − e^{−kx})/k] = [x k e^{−kx} − (1 − e^{−kx})]/k²  → −x²/2 at k = 0
     if abs(k) < 1e-9:
         return cast(np.ndarray, -0.5 * x * x + (k * x**3) / 3.0)
@@ -184,8 +184,8 @@ def _joint_design(k: float, tf_: np.ndarray, ta_: np.ndarray) -> np.ndarray:
     # Model, linear in (y_i, y_f, g_i) at fixed k:
     #   fore:  y = y_i + g_i φ(t − t_i)                         (t ≤ t_i, so x ≤ 0)
     #   after: y = y_f + [g_i + k (y_i − y_f)] φ(t − t_f)
-    pf = phi(k, tf_)
-    pa = phi(k, ta_)
+    pf = decay_integral(k, tf_)
+    pa = decay_integral(k, ta_)
     nf, na = tf_.size, ta_.size
     X = np.empty((nf + na, 3))
     X[:nf, 0] = 1.0
@@ -275,7 +275,12 @@ def fit_newton_joint(
         def dk_of(beta: np.ndarray) -> np.ndarray:
             y_i, y_f, g_i = beta
             g_f = g_i + k * (y_i - y_f)
-            return np.concatenate([g_i * _dphi_dk(k, xf), (y_i - y_f) * phi(k, xa) + g_f * _dphi_dk(k, xa)])
+            return np.concatenate(
+                [
+                    g_i * _d_decay_integral_dk(k, xf),
+                    (y_i - y_f) * decay_integral(k, xa) + g_f * _d_decay_integral_dk(k, xa),
+                ]
+            )
 
         return X, dk_of
 
@@ -313,8 +318,8 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0,
     x = t - t_f
 
     def model(k: float) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
-        X = np.column_stack([np.ones_like(x), phi(k, x)])
-        return X, lambda beta: beta[1] * _dphi_dk(k, x)
+        X = np.column_stack([np.ones_like(x), decay_integral(k, x)])
+        return X, lambda beta: beta[1] * _d_decay_integral_dk(k, x)
 
     k, beta, X, J, converged = _varpro(model, y, k0, max_iter)
     resid = y - X @ beta

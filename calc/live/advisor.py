@@ -108,7 +108,7 @@ def advise(
         return Advice(
             "refused",
             f"no live advice for {spec.kind} runs (several events in one log); "
-            "record the whole log and analyse it afterwards",
+            "record the whole log and analyze it afterwards",
         )
     q = spec.resolution_K
     if t.size < phases.MIN_LIVE_READINGS:

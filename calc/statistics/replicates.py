@@ -101,7 +101,7 @@ def summarize_series(
     type_b_dof: float = math.inf,
     p: float = 0.95,
 ) -> SeriesSummary:
-    """Summarise a series of repeat results and combine its scatter with the shared Type B part.
+    """Summarize a series of repeat results and combine its scatter with the shared Type B part.
 
     Parameters
     ----------

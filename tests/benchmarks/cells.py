@@ -82,7 +82,7 @@ def coverage_interval(covered: int, n: int, level: float = 0.95) -> tuple[float,
 def run_cell(
     generator: str, kind: str, resolution: float, given: bool, n: int, *, seed0: int = 0, artefacts: bool = True
 ) -> list[CellRun]:
-    """Analyse ``n`` generated runs of one cell (see the module docstring)."""
+    """Analyze ``n`` generated runs of one cell (see the module docstring)."""
     out = []
     with tempfile.TemporaryDirectory() as tmp:
         for i in range(n):
@@ -112,14 +112,14 @@ def run_cell(
 
 
 def summary(runs: list[CellRun]) -> dict[str, float]:
-    """Return coverage (of analysed runs), refusal share, P90 |error| and silent gross errors."""
+    """Return coverage (of analyzed runs), refusal share, P90 |error| and silent gross errors."""
     ok = [r for r in runs if not r.refused]
     big = [r for r in runs if r.steps >= 20]
     return {
         "n": len(runs),
         "coverage": float(np.mean([r.covered for r in ok])) if ok else math.nan,
         "covered": sum(r.covered for r in ok),
-        "analysed": len(ok),
+        "analyzed": len(ok),
         "refused": sum(r.refused for r in runs),
         "refused_big_share": (sum(r.refused for r in big) / len(big)) if big else 0.0,
         "p90": float(np.percentile([abs(r.rel_error) for r in ok], 90)) if ok else math.inf,

@@ -1,4 +1,4 @@
-"""Shared helpers of the benchmarks: simulate a run with a known truth and analyse it."""
+"""Shared helpers of the benchmarks: simulate a run with a known truth and analyze it."""
 
 from __future__ import annotations
 
@@ -47,7 +47,7 @@ def run_one(
     workdir: Path | None = None,
     mc_trials: int = 0,
 ) -> list[Outcome]:
-    """Simulate one run and analyse it by each method; return one outcome per method."""
+    """Simulate one run and analyze it by each method; return one outcome per method."""
     sim = random_scenario(kind, np.random.default_rng(seed), noisy=noisy)
     tr = sim.truth
     with tempfile.TemporaryDirectory(dir=workdir) as d:

@@ -219,7 +219,7 @@ def percentile(sorted_values: list[float], q: float) -> float:
     return sorted_values[lo] + (sorted_values[hi] - sorted_values[lo]) * (pos - lo)
 
 
-def summarise(records: list[tuple[str, int, float, float, str]], wall_s: float) -> dict[str, dict[str, float]]:
+def summarize(records: list[tuple[str, int, float, float, str]], wall_s: float) -> dict[str, dict[str, float]]:
     """Return count, errors, p50/p95/p99/max latency (ms) and throughput (req/s) per kind and overall."""
     rows: dict[str, dict[str, float]] = {}
     groups = {k: [r for r in records if r[0] == k] for k in KINDS}
@@ -241,7 +241,7 @@ def summarise(records: list[tuple[str, int, float, float, str]], wall_s: float) 
 
 
 def table(rows: dict[str, dict[str, float]]) -> str:
-    """Return the rows of :func:`summarise` as a text table."""
+    """Return the rows of :func:`summarize` as a text table."""
     head = (
         f"{'kind':<10} {'count':>7} {'errors':>6} {'p50 ms':>8} {'p95 ms':>8} {'p99 ms':>8} {'max ms':>8} {'req/s':>8}"
     )

@@ -45,7 +45,7 @@ from typing import Any
 import psutil
 import sqlalchemy as sa
 
-from tests.benchmarks.load_clients import ClientPlan, ClientReport, run_client, summarise, table
+from tests.benchmarks.load_clients import ClientPlan, ClientReport, run_client, summarize, table
 
 REPO = Path(__file__).resolve().parents[2]
 RESULTS = REPO / "bench-results"
@@ -419,7 +419,7 @@ def measure(
 
 def report(name: str, config: dict[str, Any], res: dict[str, Any], extra: dict[str, Any]) -> tuple[dict, list[str]]:
     """Print the table and the figures of one measurement; return the JSON report and the errors."""
-    rows = summarise(res["records"], res["wall_s"])
+    rows = summarize(res["records"], res["wall_s"])
     errors = res["failures"] + [f"[{r[0]}] status {r[1]} at {r[3]:.1f} s: {r[4]}" for r in res["records"] if r[4]]
     print(f"\n== {name}: " + ", ".join(f"{k} {v}" for k, v in config.items()))
     print(table(rows))

@@ -34,5 +34,5 @@ def test_coverage_per_kind(tmp_path):
             f"median U/value = {100 * np.median([o.U / abs(o.value) for o in ok]):.2f} %   failed {failed}"
         )
     for kind, (cov, failed) in results.items():
-        assert failed == 0, f"{kind}: {failed} runs could not be analysed"
+        assert failed == 0, f"{kind}: {failed} runs could not be analyzed"
         assert 0.93 <= cov <= 0.97, f"{kind}: coverage {100 * cov:.1f} %"

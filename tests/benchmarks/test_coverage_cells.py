@@ -58,7 +58,7 @@ def _cells(generator: str) -> dict[tuple[str, float, bool], list]:
 def test_cells(generator):
     cells = _cells(generator)
     print(
-        f"\n[{generator}] {N_CELL} runs per cell; coverage of the analysed runs "
+        f"\n[{generator}] {N_CELL} runs per cell; coverage of the analyzed runs "
         f"(binomial SD {100 * math.sqrt(0.95 * 0.05 / N_CELL):.1f} %)"
     )
     print(
@@ -68,7 +68,7 @@ def test_cells(generator):
     for (k, q, g), runs in cells.items():
         s = summary(runs)
         all_runs += runs
-        lo, hi = coverage_interval(s["covered"], s["analysed"])
+        lo, hi = coverage_interval(s["covered"], s["analyzed"])
         print(
             f"  {k:<24}{q:>7g}{'given' if g else 'detected':>10}{100 * s['coverage']:>9.1f}%"
             f"{f'{100 * lo:.1f}–{100 * hi:.1f}':>14}"

@@ -4,7 +4,7 @@ Figure to reach (issue "The notebook"): run page ≤ 150 ms server time for a 2,
 The page is HTML with two pictures of the result (``plot.svg``: readings, drift model and
 corrected ΔT; ``budget.svg``: the budget bars), which the browser fetches from the app. The
 pictures are drawn on first request and kept per result id (webapp.plot_cache); saving or
-re-analysing a run from its page draws them at once, so a person's first view is warm.
+re-analyzing a run from its page draws them at once, so a person's first view is warm.
 "Cold" here clears the cache before every sample (as after a restart).
 
 Timed with the Flask test client (in-process: server time, no network), SQLite.

@@ -4,12 +4,12 @@ Figure of issue 15 ("Live runs … know when to stop"), docs/methods.md §9.4. O
 runs (dissolution, neutralization, electrical calibration; thermometer resolution 0.01 and 0.1 K;
 bench artefacts on; parameters drawn over the wide ranges of calc.simulation.realistic) each log is
 replayed reading by reading (the advice asked every 5 readings). The person stops REACTION_S after
-the first "you can stop" advice; the run is then analysed again from files (run file and CSV written
+the first "you can stop" advice; the run is then analyzed again from files (run file and CSV written
 and read back, like an uploaded run) on the log up to that moment, independently of the advice's
 own call. Reported:
 
 * of the runs stopped with the target met: the share whose final U ≤ target (must be ≥ 95 %), the
-  share whose final 95 % interval holds the simulator's truth, against the same runs analysed with a
+  share whose final 95 % interval holds the simulator's truth, against the same runs analyzed with a
   fixed 10-minute after period, and the median time saved against that fixed period;
 * the issue's figure read strictly: of ALL runs told "you can stop", the share whose final U ≤ target
   (a target out of reach has its own status, "U ≤ x cannot be reached: …", which does not say "you can

@@ -1,6 +1,6 @@
 """Comparison of a result with a reference value (ISO 13528 E_n).
 
-Check values: ISO 13528 definitions (as summarised in docs/methods.md §6.1), docs/methods.md §3.3
+Check values: ISO 13528 definitions (as summarized in docs/methods.md §6.1), docs/methods.md §3.3
 and §4.6, SRM 1655 (Kilday 1980, from memory).
 """
 

@@ -125,7 +125,7 @@ def test_import_linter_contracts_hold():
     assert out.returncode == 0, out.stdout[-3000:] + out.stderr[-2000:]
 
 
-def test_demo_runs_analyse_without_error():
+def test_demo_runs_analyze_without_error():
     # `make run` analyses these; they must all work (invented demo data, see fixtures/demo/README.md)
     from calc.analysis import analyze_run
 

@@ -57,7 +57,7 @@ def test_every_hydrate_dot_reads_the_same(text):
     assert dict(element_composition(text)) == {"Cu": 1, "S": 1, "O": 9, "H": 10}
 
 
-def test_a_bullet_hydrate_is_analysed_end_to_end(tmp_path):
+def test_a_bullet_hydrate_is_analyzed_end_to_end(tmp_path):
     # the same run twice, with "." and with "•": the same result, no parser diagram, no error
     from calc.analysis import analyze_run
 

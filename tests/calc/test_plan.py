@@ -1,4 +1,4 @@
-"""Planning a run: the prediction is checked against simulated runs analysed end to end.
+"""Planning a run: the prediction is checked against simulated runs analyzed end to end.
 
 The simulator (calc.simulation.simulator) integrates the cup's heat balance with its own code and draws noisy,
 quantised readings; calc.analysis then analyses the written run files exactly as `cupcal analyze`
@@ -45,7 +45,7 @@ def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: flo
 
 
 def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
-    """Simulate ``runs`` runs at the planned settings (stated inputs perturbed), analyse each."""
+    """Simulate ``runs`` runs at the planned settings (stated inputs perturbed), analyze each."""
     rho = plan.properties.values["water.density"]
     cp = plan.properties.values["mixture.specific_heat_capacity"]
     out = []
@@ -93,9 +93,9 @@ def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
     return np.array(out)
 
 
-def test_plan_predicts_simulated_dissolution_runs_analysed_end_to_end(tmp_path):
+def test_plan_predicts_simulated_dissolution_runs_analyzed_end_to_end(tmp_path):
     # Tolerances: the true adiabatic ΔT of the simulator within 0.3 % (same heat capacities, so
-    # only the model chain differs); the mean analysed ΔT within 1 % (the Regnault–Pfaundler bias
+    # only the model chain differs); the mean analyzed ΔT within 1 % (the Regnault–Pfaundler bias
     # is ≤ 0.05 %, docs/methods.md §2.3); the mean stated u(ΔH) within 15 % (same GUM model; only the
     # predicted ΔT terms differ); the scatter of the 16 results within a factor 0.6–1.6 of the
     # predicted u (an SD from 16 values is itself uncertain by about 18 %, so ±2 SE).

@@ -120,7 +120,7 @@ def test_dielectric_constant_is_the_iapws_release_at_the_iapws95_density(T: floa
 
 
 def test_the_water_model_does_not_import_iapws() -> None:
-    # the grid is shipped: analysing a run need not load iapws (and scipy.optimize with it)
+    # the grid is shipped: analyzing a run need not load iapws (and scipy.optimize with it)
     import subprocess
     import sys
 

@@ -24,7 +24,7 @@ from webapp.services.analysis import AnalysisOptions
 from webapp.services.calibrations import current_calibration, enter_heat_capacity, pool_candidates, withdraw_calibration
 from webapp.services.concurrency import content_hash
 from webapp.services.demo import PEOPLE, SPARE_CUP, load_demo
-from webapp.services.runs import lock_run, reanalyse_run, update_run
+from webapp.services.runs import lock_run, reanalyze_run, update_run
 
 FAST_HASH = "scrypt:1024:8:1"
 FIXED = dt.datetime(2026, 1, 1)
@@ -32,7 +32,7 @@ CONTEXT = "https://w3id.org/ro/crate/1.1/context"
 
 
 def demo_source(folder: Path, monte_carlo_trials: int = 2000) -> tuple[Any, bytes]:
-    """Load the demo lab into a new SQLite notebook, edit, re-analyse and sign a run; return (app, archive)."""
+    """Load the demo lab into a new SQLite notebook, edit, re-analyze and sign a run; return (app, archive)."""
     url = f"sqlite:///{folder / 'source.sqlite3'}"
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "source", "PASSWORD_METHOD": FAST_HASH})
@@ -43,7 +43,7 @@ def demo_source(folder: Path, monte_carlo_trials: int = 2000) -> tuple[Any, byte
         runs = s.scalars(sa.select(Run).order_by(Run.id)).all()
         target = next(r for r in runs if r.kind == "dissolution")
         update_run(s, coord, target, {"notes": "Lid refitted after 200 s (invented).", "bench": "B-2"})
-        reanalyse_run(s, coord, target, AnalysisOptions(method="linear-extrapolation", monte_carlo_trials=500, seed=7))
+        reanalyze_run(s, coord, target, AnalysisOptions(method="linear-extrapolation", monte_carlo_trials=500, seed=7))
         lock_run(s, coord, runs[-1])
         _withdrawn_calibration(s, coord)
         with app.app_context():

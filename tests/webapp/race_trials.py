@@ -153,11 +153,11 @@ def lock_vs_calibration(
         _enter(call, tokens["tech"], calorimeter_id, f"{25 + (i % 5) * 0.1:.1f} ± 0.4 J/K", today)
         lock, switch = both(
             lambda: call("POST", f"/api/runs/{run_id}/lock", tokens["author"]),
-            lambda: call("POST", f"/api/calibrations/{old}/reanalyse-runs", tokens["tech"]),
+            lambda: call("POST", f"/api/calibrations/{old}/reanalyze-runs", tokens["tech"]),
         )
         status, body = switch
-        if status == 200:  # the action answers 200 and lists the run as re-analysed or as locked
-            changed = run_id in body["reanalysed"]
+        if status == 200:  # the action answers 200 and lists the run as re-analyzed or as locked
+            changed = run_id in body["reanalyzed"]
             switch = (200 if changed else 409, body)
         _judge(engine, run_id, lock, switch, "calibration", tally)
 

@@ -91,4 +91,4 @@ def test_pages_follow_the_same_rules(client: Any, lab: Any, run_id: int) -> None
     client = client.application.test_client()  # a new browser
     sign_in(client, "a2@lab.example")
     page = client.get(f"/runs/{run_id}").get_data(as_text=True)
-    assert "Analyse again" in page and "Lock (sign)" not in page  # a2 may edit but not sign a1's run
+    assert "Analyze again" in page and "Lock (sign)" not in page  # a2 may edit but not sign a1's run

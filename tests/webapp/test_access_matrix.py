@@ -77,7 +77,7 @@ EXPECTED: dict[tuple[str, str], dict[str, int]] = {
     ("post", "/api/calibrations/{calibration_id}/withdraw"): row(401, 403, 403, 200, 200, 403, 403),
     ("get", "/api/calibrations/{calibration_id}/runs"): row(401, 200, 200, 200, 200, 200, 200),
     # the spare cup's only calibration is its value in force: staff are told to withdraw it first
-    ("post", "/api/calibrations/{calibration_id}/reanalyse-runs"): row(401, 403, 403, 400, 400, 403, 403),
+    ("post", "/api/calibrations/{calibration_id}/reanalyze-runs"): row(401, 403, 403, 400, 400, 403, 403),
     ("post", "/api/courses"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/groups"): row(401, 403, 403, 403, 201, 403, 403),
     ("post", "/api/packages"): row(401, 400, 400, 400, 400, 403, 400),

@@ -223,7 +223,7 @@ def test_a_run_prints_on_two_pages_and_a_dashboard_as_its_table(browser: Any, se
         d.get(server + run)
         n, text = _pdf_pages(d)
         counts[run] = n
-        assert "Sign out" not in text and "Analyse again" not in text  # no menu, no forms
+        assert "Sign out" not in text and "Analyze again" not in text  # no menu, no forms
         assert "Uncertainty budget" in text and "Wear eye protection" in text
     assert counts and max(counts.values()) <= 2, sorted(counts.items(), key=lambda kv: -kv[1])
     board = _first_link(d, server, "/classes/", r"^/classes/sections/\d+/dashboard")

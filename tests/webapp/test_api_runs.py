@@ -1,4 +1,4 @@
-"""API for runs and results: create by upload, read, list with pagination, re-analyse; bad input → 4xx."""
+"""API for runs and results: create by upload, read, list with pagination, re-analyze; bad input → 4xx."""
 
 from __future__ import annotations
 
@@ -69,7 +69,7 @@ def test_json_upload_and_listing_with_pagination(client: Any, lab: Any) -> None:
     assert client.get("/api/runs?kind=neutralization", headers=lab.auth("tech")).get_json()["total"] == 0
 
 
-def test_reanalyse_keeps_the_old_result(client: Any, lab: Any) -> None:
+def test_reanalyze_keeps_the_old_result(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "neut-hcl-naoh-01").get_json()
     r = client.post(
         f"/api/runs/{run['id']}/analyses",
@@ -234,7 +234,7 @@ def test_no_route_answers_junk_with_a_5xx(app: Any, client: Any, lab: Any) -> No
                         assert r.get_json()["error"], (method, path, data)
 
 
-def test_reanalyse_with_a_mixing_time(client: Any, lab: Any) -> None:
+def test_reanalyze_with_a_mixing_time(client: Any, lab: Any) -> None:
     run = upload(client, lab.auth("a1"), "diss-kcl-01").get_json()
     r = client.post(
         f"/api/runs/{run['id']}/analyses", headers=lab.auth("a1"), json={"mixing_time": [241.0, 2.0], "monte_carlo": 0}

@@ -79,7 +79,7 @@ def test_every_form_carries_a_csrf_token_and_posts_without_it_fail(client: Any, 
                 assert 'name="csrf_token"' in form, (path, form[:120])
     for action in (
         f"/runs/{run_id}/lock",
-        f"/runs/{run_id}/reanalyse",
+        f"/runs/{run_id}/reanalyze",
         "/auth/tokens",
         "/auth/logout",
         "/auth/tokens/1/revoke",

@@ -31,7 +31,7 @@ from tests.webapp.conftest import DEMO
 # ---------------------------------------------------------------- scenarios
 
 
-def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> None:
+def test_upload_preview_save_reanalyze_and_lock(browser: Any, server: str) -> None:
     from selenium.webdriver.common.by import By
     from selenium.webdriver.support.ui import Select
 
@@ -68,9 +68,9 @@ def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> No
     assert "Comparison with a reference value" in d.page_source
     _shot(d, "run-page")
 
-    # change the method and analyse again: the new result is shown, the old one listed
+    # change the method and analyze again: the new result is shown, the old one listed
     Select(d.find_element(By.ID, "method")).select_by_value("equal-area")
-    _click(d, "form.reanalyse button[type=submit]")
+    _click(d, "form.reanalyze button[type=submit]")
     assert "the earlier result is kept" in d.find_element(By.CSS_SELECTOR, ".flash").text
     rows = d.find_elements(By.CSS_SELECTOR, "table.results tbody tr")
     assert len(rows) == 2
@@ -78,21 +78,21 @@ def test_upload_preview_save_reanalyse_and_lock(browser: Any, server: str) -> No
     assert "regnault-pfaundler" in rows[1].text and "earlier" in rows[1].text
     assert d.find_element(By.CSS_SELECTOR, ".headline").text != first
     assert _image_drawn(d, "/plot.svg")
-    _shot(d, "run-reanalysed")
+    _shot(d, "run-reanalyzed")
 
     # lock (sign) it: a confirmation step first, then the edit forms are gone and a direct POST is refused
     _click(d, "form.lock button[type=submit]")
     assert "cannot be undone" in d.find_element(By.CSS_SELECTOR, ".confirm").text
     _click(d, "form.lock-confirm button[type=submit]")
     assert "locked" in d.find_element(By.CSS_SELECTOR, ".flash").text
-    assert d.find_elements(By.CSS_SELECTOR, "form.reanalyse") == []
+    assert d.find_elements(By.CSS_SELECTOR, "form.reanalyze") == []
     assert d.find_elements(By.CSS_SELECTOR, "form.lock") == []
     status = d.execute_async_script(
         "const done = arguments[arguments.length - 1];"
         "const body = new FormData();"
         "body.append('csrf_token', document.querySelector('input[name=csrf_token]').value);"
         "body.append('method', 'naive');"
-        "fetch(arguments[0] + '/reanalyse', {method: 'POST', body}).then(r => done(r.status), e => done(String(e)));",
+        "fetch(arguments[0] + '/reanalyze', {method: 'POST', body}).then(r => done(r.status), e => done(String(e)));",
         run_path,
     )
     assert status == 409

@@ -1,5 +1,5 @@
 """The technician's day in headless Chromium, one test: calibrations → pooled value → overdue warning →
-control chart → withdraw a bad calibration → re-analyse the runs that used it.
+control chart → withdraw a bad calibration → re-analyze the runs that used it.
 
 Served like tests/webapp/test_browser.py (its fixtures: the invented demo lab on a migrated SQLite
 file, Debian's Chromium and chromedriver, nothing downloaded).
@@ -106,9 +106,9 @@ def test_technician_pools_sees_overdue_charts_withdraws_and_reanalyses(
     assert f"Calibration #{cid} withdrawn" in flash and f"#{run_id}" in flash
     assert "weighted mean of 2" in d.find_element(By.CSS_SELECTOR, "table.facts").text  # back to the pool
 
-    # 6. re-analyse the runs that used it, in one action, with the value now in force
-    _click(d, f"#calibration-{cid} form[action$=reanalyse-runs] button")
-    assert f"Re-analysed 1 run(s) with the value in force (#{run_id})" in d.find_element(By.CSS_SELECTOR, ".flash").text
+    # 6. re-analyze the runs that used it, in one action, with the value now in force
+    _click(d, f"#calibration-{cid} form[action$=reanalyze-runs] button")
+    assert f"Re-analyzed 1 run(s) with the value in force (#{run_id})" in d.find_element(By.CSS_SELECTOR, ".flash").text
     d.get(bad_run)
     used = d.find_element(By.XPATH, "//table[contains(@class, 'facts')]//tr[th[.='Calorimeter']]").text
     assert "from the pooled value" in used and "28.6" not in used

@@ -87,9 +87,9 @@ def test_withdrawing_lists_the_runs_and_reanalyses_them_in_one_action(client: An
     r = client.post(f"/api/calibrations/{bad}/withdraw", headers=lab.auth("tech"), json={"reason": "wrong voltage"})
     assert r.status_code == 200 and r.get_json()["runs_using"] == [x["id"] for x in runs]
     assert _in_force(client, lab)["id"] == good
-    r = client.post(f"/api/calibrations/{bad}/reanalyse-runs", headers=lab.auth("tech"))
+    r = client.post(f"/api/calibrations/{bad}/reanalyze-runs", headers=lab.auth("tech"))
     done = r.get_json()
-    assert r.status_code == 200 and done["reanalysed"] == [runs[0]["id"], runs[1]["id"]]
+    assert r.status_code == 200 and done["reanalyzed"] == [runs[0]["id"], runs[1]["id"]]
     assert done["locked"] == [runs[2]["id"]] and done["failed"] == []
     for x in runs[:2]:
         now = client.get(f"/api/runs/{x['id']}", headers=lab.auth("a1")).get_json()

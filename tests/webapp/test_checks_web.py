@@ -151,7 +151,7 @@ def test_export_with_several_channels_needs_a_column(client: Any, lab: Any) -> N
     assert r.get_json()["current_result"]["value"] == plain["current_result"]["value"]
 
 
-def test_runs_analysed_before_the_checks_are_not_flagged(session: Any, client: Any, lab: Any) -> None:
+def test_runs_analyzed_before_the_checks_are_not_flagged(session: Any, client: Any, lab: Any) -> None:
     r = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0)
     result = session.scalar(sa.select(Result).where(Result.run_id == r.get_json()["id"]))
     result.checks = None

@@ -43,7 +43,7 @@ from webapp.services.people import create_person
 
 @pytest.fixture(scope="module")
 def source(tmp_path_factory: pytest.TempPathFactory) -> Any:
-    """The demo lab (one run edited, re-analysed and another signed) and its whole-notebook archive."""
+    """The demo lab (one run edited, re-analyzed and another signed) and its whole-notebook archive."""
     app, data = demo_source(tmp_path_factory.mktemp("eln-source"))
     s = new_session(app)
     try:
@@ -355,3 +355,21 @@ def test_a_calorimeter_file_with_a_wrong_field_is_refused_by_name(
     errors = [i.message for i in report.items if i.outcome == "error"]
     assert len(errors) == 1 and expected in errors[0] and "calorimeter.json" in errors[0], errors
     assert counts(session)[2:4] == before[2:4]  # no calorimeter, no calibration
+
+
+def test_an_archive_with_the_older_spelling_of_the_audit_keys_restores_the_same(source: Any, session: Any) -> None:
+    """Archives written before the names were spelled one way carry ``analysed_at``/``analysed_by``."""
+
+    def old_spelling(doc: dict[str, Any]) -> None:
+        for rdoc in [doc.get("result"), *doc.get("results", [])]:
+            if rdoc:
+                for key in ("analyzed_at", "analyzed_by"):
+                    rdoc[key.replace("analyzed", "analysed")] = rdoc.pop(key)
+
+    me = _coordinator(session)
+    report = import_eln(
+        session, me, _retouched(source["archive"], old_spelling), source="old.eln", password_method=FAST_HASH
+    )
+    assert report.count("error") == 0, [i for i in report.items if i.outcome == "error"]
+    session.expire_all()
+    assert snapshot(session) == source["snapshot"]  # who analyzed and when came back from the old keys

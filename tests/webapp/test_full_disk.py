@@ -130,13 +130,13 @@ def test_a_page_on_a_full_disk_says_nothing_was_saved(
     sign_in(client, "a1@lab.example")
     token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
     filler = fill(small_disk, 0)
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    r = client.post(f"/runs/{run_id}/reanalyze", data={"csrf_token": token, "method": "naive"})
     page = r.get_data(as_text=True)
     assert r.status_code == 507 and "disk is full" in page and "nothing of this was saved" in page
     assert "Traceback" not in page
     assert scalar(database_url, f"SELECT count(*) FROM results WHERE run_id = {run_id}") == 1
     filler.unlink()
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    r = client.post(f"/runs/{run_id}/reanalyze", data={"csrf_token": token, "method": "naive"})
     assert r.status_code == 302
     assert scalar(database_url, f"SELECT count(*) FROM results WHERE run_id = {run_id}") == 2
     assert_sound(database_url)

@@ -11,7 +11,7 @@ from tests.webapp.conftest import csrf_token, sign_in, upload
 from webapp.models import AuditEntry, Person, Result, Run, RunInput
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import RunLocked
-from webapp.services.runs import reanalyse_run, update_run
+from webapp.services.runs import reanalyze_run, update_run
 
 
 @pytest.fixture
@@ -51,9 +51,9 @@ def test_page_forms_refuse(client: Any, lab: Any, session: Any, locked_run: int)
     before = _snapshot(session, locked_run)
     sign_in(client, "coord@lab.example")
     page = client.get(f"/runs/{locked_run}").get_data(as_text=True)
-    assert "signed by Student A1" in page and "Analyse again" not in page
+    assert "signed by Student A1" in page and "Analyze again" not in page
     token = csrf_token(page)
-    r = client.post(f"/runs/{locked_run}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    r = client.post(f"/runs/{locked_run}/reanalyze", data={"csrf_token": token, "method": "naive"})
     assert r.status_code == 409
     r = client.post(f"/runs/{locked_run}/lock", data={"csrf_token": token})
     assert r.status_code == 409
@@ -66,7 +66,7 @@ def test_services_and_direct_writes_refuse(session: Any, lab: Any, locked_run: i
     with pytest.raises(RunLocked):
         update_run(session, coord, run, {"title": "x"})
     with pytest.raises(RunLocked):
-        reanalyse_run(session, coord, run, AnalysisOptions())
+        reanalyze_run(session, coord, run, AnalysisOptions())
     session.rollback()
     # a write that skips the services is stopped at flush time
     run = session.get(Run, locked_run)

@@ -93,7 +93,7 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     # the calibration actions flash their outcome (approved, withdrawn, or why not) and go back to the page
     ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/approve"): STAFF_FORM,
     ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/withdraw"): STAFF_FORM,
-    ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyse-runs"): STAFF_FORM,
+    ("POST", "/calorimeters/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyze-runs"): STAFF_FORM,
     ("GET", "/calorimeters/<int:calorimeter_id>/history.svg"): ALL_SIGNED_IN,
     ("GET", "/classes/"): ALL_SIGNED_IN,
     ("POST", "/classes/courses"): COORDINATOR_FORM,
@@ -129,7 +129,7 @@ EXPECTED: dict[tuple[str, str], dict[str, int | str]] = {
     ("GET", "/runs/<int:run_id>/lock"): row(L, 404, 200, 403, 200, L, L),  # the confirmation step
     ("POST", "/runs/<int:run_id>/lock"): row(L, 404, R, 403, R, L, L),  # a fresh run of a1's per caller
     ("GET", "/runs/samples"): ALL_SIGNED_IN,
-    ("POST", "/runs/<int:run_id>/reanalyse"): row(L, 404, R, R, R, L, L),
+    ("POST", "/runs/<int:run_id>/reanalyze"): row(L, 404, R, R, R, L, L),
     ("GET", "/runs/<int:run_id>/results/<int:result_id>/<string:which>.svg"): A1S_RUN,
     ("GET", "/runs/new"): ALL_SIGNED_IN,
     ("GET", "/runs/new/<string:kind>"): ALL_SIGNED_IN,
@@ -346,7 +346,7 @@ FORMS: dict[tuple[str, str], Callable[[str, dict[str, Any]], dict[str, Any]]] = 
     ("POST", "/classes/sections/<int:section_id>"): lambda who, w: {"name": f"Bench {who}", "calorimeter_id": "0"},
     ("POST", "/imports/sections/<int:section_id>"): _import_form,
     ("POST", "/imports/eln"): _eln_form,
-    ("POST", "/runs/<int:run_id>/reanalyse"): lambda who, w: {"method": "naive"},
+    ("POST", "/runs/<int:run_id>/reanalyze"): lambda who, w: {"method": "naive"},
     ("POST", "/runs/upload"): _upload_form,
     ("POST", "/runs/<int:run_id>/review"): lambda who, w: {"action": "withdraw", "reason": f"by {who}"},
     ("POST", "/runs/<int:run_id>/comments"): lambda who, w: {"body": f"seen by {who}"},
@@ -384,7 +384,7 @@ EFFECTS: dict[tuple[str, str], tuple[Callable[[Any], int], int]] = {
     ("POST", "/imports/sections/<int:section_id>"): (_count(Run), 2),
     ("POST", "/imports/eln"): (_count(Run), 2),
     ("POST", "/runs/<int:run_id>/lock"): (_count(Run, Run.locked.is_(True)), 2),
-    ("POST", "/runs/<int:run_id>/reanalyse"): (_count(Result), 3),
+    ("POST", "/runs/<int:run_id>/reanalyze"): (_count(Result), 3),
     ("POST", "/runs/upload"): (_count(Run), 0),
     ("POST", "/runs/new/<string:kind>"): (_count(Run), 0),
     ("POST", "/runs/<int:run_id>/review"): (_count(RunReview, RunReview.withdrawn.is_(True)), 3),
@@ -553,8 +553,8 @@ def _stored(session: Any, run_id: int) -> tuple[Any, ...]:
 #: every page path that would change a run, sent to a1's run once it is locked (test_locking sends
 #: the first and third as the coordinator only)
 LOCKED: dict[tuple[str, str], dict[str, int | str]] = {
-    ("reanalyse", "naive"): row(L, 404, 409, 409, 409, L, L),
-    ("reanalyse", "no-such-method"): row(L, 404, 409, 409, 409, L, L),  # the lock decides before the form
+    ("reanalyze", "naive"): row(L, 404, 409, 409, 409, L, L),
+    ("reanalyze", "no-such-method"): row(L, 404, 409, 409, 409, L, L),  # the lock decides before the form
     ("lock", ""): row(L, 404, 409, 403, 409, L, L),  # a technician may not sign at all
 }
 
@@ -575,4 +575,4 @@ def test_a_locked_run_is_refused_by_every_page_path(app: Any, session: Any, worl
         assert _stored(session, run_id) == before, (path, method)
     for who in ("a1", "tech", "coord"):  # the run page offers neither form
         page = Caller(app, who, world).open("GET", f"/runs/{run_id}").get_data(as_text=True)
-        assert f'action="/runs/{run_id}/reanalyse"' not in page and f'action="/runs/{run_id}/lock"' not in page
+        assert f'action="/runs/{run_id}/reanalyze"' not in page and f'action="/runs/{run_id}/lock"' not in page

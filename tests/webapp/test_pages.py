@@ -49,12 +49,12 @@ def test_run_page_shows_the_result_numbers(client: Any, lab: Any, runs: dict[str
     assert "KCl" in html and "eye protection" in html
 
 
-def test_run_page_reanalyse_form(client: Any, lab: Any, runs: dict[str, int]) -> None:
+def test_run_page_reanalyze_form(client: Any, lab: Any, runs: dict[str, int]) -> None:
     sign_in(client, "a1@lab.example")
     run_id = runs["diss-kcl-01"]
     token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
     r = client.post(
-        f"/runs/{run_id}/reanalyse",
+        f"/runs/{run_id}/reanalyze",
         data={"csrf_token": token, "method": "equal-area", "fore_start": "0", "fore_end": "200"},
     )
     assert r.status_code == 302
@@ -62,29 +62,29 @@ def test_run_page_reanalyse_form(client: Any, lab: Any, runs: dict[str, int]) ->
     assert "the earlier result is kept" in html and "equal-area" in html
     # a refusal answers 400 with the page: the message beside its field, and what was typed kept
     r = client.post(
-        f"/runs/{run_id}/reanalyse",
+        f"/runs/{run_id}/reanalyze",
         data={"csrf_token": token, "method": "equal-area", "fore_start": "0", "mixing_time": "181.5"},
     )
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert "expected two times" in html  # the message from the service, shown on the page
     assert 'value="181.5"' in html
-    r = client.post(f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "nope"})
+    r = client.post(f"/runs/{run_id}/reanalyze", data={"csrf_token": token, "method": "nope"})
     assert r.status_code == 400 and "Not a valid choice" in r.get_data(as_text=True)
 
 
-def test_reanalyse_with_a_typed_mixing_time(client: Any, lab: Any, runs: dict[str, int]) -> None:
+def test_reanalyze_with_a_typed_mixing_time(client: Any, lab: Any, runs: dict[str, int]) -> None:
     sign_in(client, "a1@lab.example")
     run_id = runs["diss-kcl-01"]
     token = csrf_token(client.get(f"/runs/{run_id}").get_data(as_text=True))
     r = client.post(
-        f"/runs/{run_id}/reanalyse", data={"csrf_token": token, "method": "regnault-pfaundler", "mixing_time": "1e9"}
+        f"/runs/{run_id}/reanalyze", data={"csrf_token": token, "method": "regnault-pfaundler", "mixing_time": "1e9"}
     )
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert "mixing_time 1e+09 s lies outside the log" in html and 'value="1e9"' in html
     r = client.post(
-        f"/runs/{run_id}/reanalyse",
+        f"/runs/{run_id}/reanalyze",
         data={"csrf_token": token, "method": "regnault-pfaundler", "mixing_time": "", "mixing_time_u": ""},
     )
     assert r.status_code == 302

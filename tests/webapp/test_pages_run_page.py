@@ -87,7 +87,7 @@ def test_run_page_shows_plot_result_budget_comparison_and_cautions(client: Any, 
 def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, neut_run: int, session: Any) -> None:
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
-    r = client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": csrf_token(html), "method": "naive"})
+    r = client.post(f"/runs/{neut_run}/reanalyze", data={"csrf_token": csrf_token(html), "method": "naive"})
     assert r.status_code == 302
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
     ids = list(session.scalars(sa.select(Result.id).where(Result.run_id == neut_run).order_by(Result.id)))
@@ -107,14 +107,14 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(client: Any, lab: Any, n
     # a bad period: 400 with the page, the message next to the period and the typed values kept
     # (a redirect would lose what was typed), nothing added
     r = client.post(
-        f"/runs/{neut_run}/reanalyse",
+        f"/runs/{neut_run}/reanalyze",
         data={"csrf_token": csrf_token(html), "method": "naive", "after_start": "500", "after_end": "400"},
     )
     assert r.status_code == 400
     page = r.get_data(as_text=True)
-    reanalyse_form = page[page.index('id="reanalyse"') :]
-    assert "must end after it starts" in reanalyse_form
-    assert 'value="500"' in reanalyse_form and 'value="400"' in reanalyse_form
+    reanalyze_form = page[page.index('id="reanalyze"') :]
+    assert "must end after it starts" in reanalyze_form
+    assert 'value="500"' in reanalyze_form and 'value="400"' in reanalyze_form
     assert len(list(session.scalars(sa.select(Result.id).where(Result.run_id == neut_run)))) == 2
 
 
@@ -122,13 +122,13 @@ def test_a_locked_run_shows_no_forms_and_refuses_posts(client: Any, lab: Any, ne
     sign_in(client, "a1@lab.example")
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
     token = csrf_token(html)
-    assert f"/runs/{neut_run}/reanalyse" in html and f"/runs/{neut_run}/lock" in html
+    assert f"/runs/{neut_run}/reanalyze" in html and f"/runs/{neut_run}/lock" in html
     assert client.post(f"/runs/{neut_run}/lock", data={"csrf_token": token}).status_code == 302
     html = client.get(f"/runs/{neut_run}").get_data(as_text=True)
     assert "signed by Student A1" in html
-    assert f"/runs/{neut_run}/reanalyse" not in html and f"/runs/{neut_run}/lock" not in html
-    assert "Analyse again" not in html
-    r = client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": token, "method": "naive"})
+    assert f"/runs/{neut_run}/reanalyze" not in html and f"/runs/{neut_run}/lock" not in html
+    assert "Analyze again" not in html
+    r = client.post(f"/runs/{neut_run}/reanalyze", data={"csrf_token": token, "method": "naive"})
     assert r.status_code == 409 and "locked" in r.get_data(as_text=True)
     assert client.post(f"/runs/{neut_run}/lock", data={"csrf_token": token}).status_code == 409
     assert counts(session) == (1, 1)
@@ -139,7 +139,7 @@ def test_students_cannot_open_another_groups_run_page(client: Any, lab: Any, neu
     token = csrf_token(client.get("/runs/new/dissolution").get_data(as_text=True))
     assert client.get(f"/runs/{neut_run}").status_code == 404
     assert client.get(f"/runs/{neut_run}?result=1").status_code == 404
-    assert client.post(f"/runs/{neut_run}/reanalyse", data={"csrf_token": token, "method": "naive"}).status_code == 404
+    assert client.post(f"/runs/{neut_run}/reanalyze", data={"csrf_token": token, "method": "naive"}).status_code == 404
     assert client.post(f"/runs/{neut_run}/lock", data={"csrf_token": token}).status_code == 404
     assert client.get(f"/runs/{neut_run}/readings").status_code == 404
     assert client.get(f"/runs/{neut_run}/results/1/plot.svg").status_code == 404

@@ -490,7 +490,7 @@ def test_plots_module_imports_no_web_or_database_code():
     assert "matplotlib.pyplot" not in Path(plots.__file__).read_text(encoding="utf-8")
 
 
-def test_reanalysed_run_renders():
+def test_reanalyzed_run_renders():
     # the web app re-analyses with edited periods through analyze_spec
     a = analysis("neut-hcl-naoh-01", "regnault-pfaundler")
     r: Readings = a.readings

@@ -37,7 +37,7 @@ def _export(client: Any, lab: Any, run_id: int, fmt: str, who: str = "a1") -> An
 
 
 def _same_run(session: Any, a_id: int, b_id: int) -> None:
-    """The imported run has the same files byte for byte and the same numbers (re-analysed)."""
+    """The imported run has the same files byte for byte and the same numbers (re-analyzed)."""
     session.expire_all()
     a, b = session.get(Run, a_id), session.get(Run, b_id)
     assert a_id != b_id

@@ -19,7 +19,7 @@ from webapp.quantities import result_quantity, series
 from webapp.services.analysis import AnalysisOptions, supply_heat_capacity
 from webapp.services.calorimeters import current_calibration
 from webapp.services.errors import Invalid
-from webapp.services.runs import RunUpload, reanalyse_run, record_run
+from webapp.services.runs import RunUpload, reanalyze_run, record_run
 
 
 def _upload(name: str, toml: str | None = None, csv: bytes | None = None, **kw: Any) -> RunUpload:
@@ -120,7 +120,7 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(session: Any, lab: Any) 
     a1 = session.get(Person, lab.ids["a1"])
     run = record_run(session, a1, _upload("diss-kcl-01"))
     first = run.current_result
-    second = reanalyse_run(session, a1, run, AnalysisOptions(method="linear-extrapolation", fore=(0.0, 200.0)))
+    second = reanalyze_run(session, a1, run, AnalysisOptions(method="linear-extrapolation", fore=(0.0, 200.0)))
     session.expire_all()
     results = session.scalars(sa.select(Result).where(Result.run_id == run.id).order_by(Result.id)).all()
     assert [r.id for r in results] == [first.id, second.id]
@@ -135,7 +135,7 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(session: Any, lab: Any) 
     assert audit[0].old.startswith(f"#{first.id} ") and audit[0].new.startswith(f"#{second.id} linear-extrapolation")
 
 
-def test_reanalysing_a_calibration_replaces_its_value_in_the_pool(session: Any, lab: Any) -> None:
+def test_reanalyzing_a_calibration_replaces_its_value_in_the_pool(session: Any, lab: Any) -> None:
     from webapp.services.calibrations import members_of
 
     tech = session.get(Person, lab.ids["tech"])
@@ -153,7 +153,7 @@ def test_reanalysing_a_calibration_replaces_its_value_in_the_pool(session: Any, 
     current = current_calibration(session, lab.calorimeter_id)
     pooled = set(members_of(current)) | set((current.pool or {}).get("excluded", []))
     assert pooled == {first[older.id].id, first[newer.id].id}  # both weighed, whichever the test kept
-    reanalyse_run(session, tech, older, AnalysisOptions(method="linear-extrapolation"))
+    reanalyze_run(session, tech, older, AnalysisOptions(method="linear-extrapolation"))
     second = measured()
     assert second[newer.id].id == first[newer.id].id and second[older.id].id != first[older.id].id
     assert session.get(Calibration, first[older.id].id).status == "withdrawn"
@@ -219,7 +219,7 @@ def test_analysis_of_reproduces_the_stored_result(session: Any, lab: Any) -> Non
     run = record_run(
         session, tech, _upload("neut-hcl-naoh-01", toml=without_heat_capacity(toml), calorimeter_id=lab.calorimeter_id)
     )
-    second = reanalyse_run(session, tech, run, AnalysisOptions(method="equal-area", after=(300.0, 600.0)))
+    second = reanalyze_run(session, tech, run, AnalysisOptions(method="equal-area", after=(300.0, 600.0)))
     for result in run.results:
         a = analysis_of(run, result)
         assert a.delta_t.method == result.method

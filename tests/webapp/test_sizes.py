@@ -44,7 +44,7 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
     ),
     "services/runs.py": (
         465,
-        "create, update, lock and re-analyse a run, around the one row-lock helper; not yet split",
+        "create, update, lock and re-analyze a run, around the one row-lock helper; not yet split",
     ),
 }
 

@@ -181,16 +181,16 @@ def calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
     )
 
 
-@bp.post("/calibrations/<int:calibration_id>/reanalyse-runs")
-def reanalyse_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
-    """Re-analyse, with the value now in force, every unlocked run that used this calibration (staff)."""
-    from webapp.services.calibrations import reanalyse_runs_using
+@bp.post("/calibrations/<int:calibration_id>/reanalyze-runs")
+def reanalyze_calibration_runs(calibration_id: int):  # type: ignore[no-untyped-def]
+    """Re-analyze, with the value now in force, every unlocked run that used this calibration (staff)."""
+    from webapp.services.calibrations import reanalyze_runs_using
 
-    done = reanalyse_runs_using(get_session(), actor(), calibration_id)
+    done = reanalyze_runs_using(get_session(), actor(), calibration_id)
     return jsonify(
         {
             "calibration": calibration_json(done.calibration) if done.calibration else None,
-            "reanalysed": done.reanalysed,
+            "reanalyzed": done.reanalyzed,
             "locked": done.locked,
             "failed": [{"run_id": i, "error": m} for i, m in done.failed],
         }

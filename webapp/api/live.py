@@ -73,7 +73,7 @@ def get_live_run_route(live_id: int):  # type: ignore[no-untyped-def]
 
 @bp.post("/live-runs/<int:live_id>/finish", endpoint="finish_live_run")
 def finish_live_run_route(live_id: int):  # type: ignore[no-untyped-def]
-    """Analyse and store the live run as a run; the recorder's CSV (if sent) is kept exactly."""
+    """Analyze and store the live run as a run; the recorder's CSV (if sent) is kept exactly."""
     data = json_object()
     run = finish_live_run(get_session(), actor(), live_id, data.get("readings_csv"))
     return jsonify({"run_id": run.id, "run_url": url_for("runs.detail", run_id=run.id)})

@@ -104,7 +104,7 @@ LIVE_PATHS: dict[str, Any] = {
     },
     "/api/live-runs/{live_id}/finish": {
         "post": _op(
-            "Finish: analyse and store the log as a run (the CSV sent is kept exactly; without one, a CSV "
+            "Finish: analyze and store the log as a run (the CSV sent is kept exactly; without one, a CSV "
             "of the stored readings). Sent again, it answers the same run",
             _json(
                 {"type": "object", "properties": {"run_id": {"type": "integer"}, "run_url": {"type": "string"}}},

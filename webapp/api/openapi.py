@@ -126,7 +126,7 @@ SCHEMAS: dict[str, Any] = {
         "dof_eff": {"type": ["number", "null"]},
         "periods": {"type": "object"}, "budget": {"type": "array", "items": {"type": "object"}},
         "warnings": {"type": "array", "items": {"type": "string"}},
-        "checks": {"type": ["array", "null"], "description": "plausibility checks (null: analysed before they existed)",
+        "checks": {"type": ["array", "null"], "description": "plausibility checks (null: analyzed before they existed)",
                    "items": {"type": "object", "properties": {
                        "code": {"type": "string"}, "severity": {"type": "string", "enum": ["info", "warning"]},
                        "message": {"type": "string"}, "value": {"type": ["number", "null"]}}}},
@@ -201,7 +201,7 @@ PATHS: dict[str, Any] = {
                        {"name": "kind", "in": "query", "schema": {"type": "string"}},
                        {"name": "calorimeter_id", "in": "query", "schema": {"type": "integer"}},
                        {"name": "group_id", "in": "query", "schema": {"type": "integer"}}]),
-        "post": _op("Record and analyse a run from its run file and readings", _json(_ref("Run"), "The new run"),
+        "post": _op("Record and analyze a run from its run file and readings", _json(_ref("Run"), "The new run"),
                     400, 401, 403, 409, 413, body=_UPLOAD, status="201"),
     },
     "/api/runs/{run_id}": {
@@ -216,7 +216,7 @@ PATHS: dict[str, Any] = {
                                                                  "version": {"type": "integer"}})),
     },
     "/api/runs/{run_id}/analyses": {
-        "post": _op("Analyse again (the old result is kept); with If-Match (or `version`) only that version",
+        "post": _op("Analyze again (the old result is kept); with If-Match (or `version`) only that version",
                     _json(_ref("Result"), "The new result"),
                     400, 401, 403, 404, 409, params=_RUN_ID + [_IF_MATCH], status="201",
                     body={"required": False, "content": {"application/json": {"schema": {
@@ -298,11 +298,11 @@ PATHS: dict[str, Any] = {
     "/api/calibrations/{calibration_id}/runs": {
         "get": _op("The runs whose C_cal came from this calibration or a pooled value that held it",
                    _json(_list_of({"type": "object"}), "Runs"), 401, 404, params=[_id("calibration_id")])},
-    "/api/calibrations/{calibration_id}/reanalyse-runs": {
-        "post": _op("Re-analyse, with the value in force, every unsigned run that used this calibration",
+    "/api/calibrations/{calibration_id}/reanalyze-runs": {
+        "post": _op("Re-analyze, with the value in force, every unsigned run that used this calibration",
                     _json({"type": "object", "properties": {
                         "calibration": {"oneOf": [_ref("Calibration"), {"type": "null"}]},
-                        "reanalysed": {"type": "array", "items": {"type": "integer"}},
+                        "reanalyzed": {"type": "array", "items": {"type": "integer"}},
                         "locked": {"type": "array", "items": {"type": "integer"}},
                         "failed": {"type": "array", "items": {"type": "object"}}}}, "What was done"),
                     400, 401, 403, 404, params=[_id("calibration_id")])},

@@ -21,7 +21,7 @@ from webapp.services.runs import (
     get_run,
     lock_run,
     paginate,
-    reanalyse_run,
+    reanalyze_run,
     record_run,
     results_query,
     runs_query,
@@ -104,7 +104,7 @@ def _upload_from_request() -> RunUpload:
 
 @bp.post("/runs")
 def create_run():  # type: ignore[no-untyped-def]
-    """Record a run from its run file and readings, analyse it, and return it."""
+    """Record a run from its run file and readings, analyze it, and return it."""
     session = get_session()
     run = record_run(session, actor(), _upload_from_request())
     response = jsonify(run_json(run))
@@ -137,13 +137,13 @@ def patch_run(run_id: int):  # type: ignore[no-untyped-def]
 
 
 @bp.post("/runs/<int:run_id>/analyses")
-def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
-    """Analyse a run again with another method or periods; the old result is kept."""
+def reanalyze(run_id: int):  # type: ignore[no-untyped-def]
+    """Analyze a run again with another method or periods; the old result is kept."""
     session = get_session()
     run = get_run(session, actor(), run_id)
     data: dict[str, Any] = dict(json_object()) if request.data else {}
     version = expected_version(data)
-    result = reanalyse_run(session, actor(), run, analysis_options(data), version)
+    result = reanalyze_run(session, actor(), run, analysis_options(data), version)
     response = jsonify(result_json(get_result(session, actor(), result.id)))
     response.status_code = 201
     response.headers["Location"] = url_for("api.get_result", result_id=result.id)

@@ -270,22 +270,22 @@ def withdraw(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyp
     return _action(calorimeter_id, act)
 
 
-@bp.route("/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyse-runs", methods=["POST"])
+@bp.route("/<int:calorimeter_id>/calibrations/<int:calibration_id>/reanalyze-runs", methods=["POST"])
 @login_required
-def reanalyse_runs(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
-    """Re-analyse, with the value in force, every unsigned run that used this calibration (staff)."""
-    from webapp.services.calibrations import reanalyse_runs_using
+def reanalyze_runs(calorimeter_id: int, calibration_id: int):  # type: ignore[no-untyped-def]
+    """Re-analyze, with the value in force, every unsigned run that used this calibration (staff)."""
+    from webapp.services.calibrations import reanalyze_runs_using
 
     def act(session: Any) -> str:
-        done = reanalyse_runs_using(session, current_user, calibration_id)
+        done = reanalyze_runs_using(session, current_user, calibration_id)
         parts = [
-            f"Re-analysed {len(done.reanalysed)} run(s) with the value in force"
-            + (f" ({', '.join(f'#{i}' for i in done.reanalysed)})" if done.reanalysed else "")
+            f"Re-analyzed {len(done.reanalyzed)} run(s) with the value in force"
+            + (f" ({', '.join(f'#{i}' for i in done.reanalyzed)})" if done.reanalyzed else "")
         ]
         if done.locked:
             parts.append(f"signed, left as they are: {', '.join(f'#{i}' for i in done.locked)}")
         if done.failed:
-            parts.append("not re-analysed: " + "; ".join(f"#{i}: {m}" for i, m in done.failed))
+            parts.append("not re-analyzed: " + "; ".join(f"#{i}: {m}" for i, m in done.failed))
         return "; ".join(parts) + "."
 
     return _action(calorimeter_id, act)

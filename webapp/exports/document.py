@@ -3,7 +3,7 @@
 The JSON export carries everything needed to reproduce the run: the run file text and the
 readings exactly as stored (UTF-8 text, or base64 when the bytes are not UTF-8), every output
 ± standard uncertainty with its unit, the budget, warnings, the comparison, the cautions, the
-analysis options, the software version and the provenance (who recorded and analysed it,
+analysis options, the software version and the provenance (who recorded and analyzed it,
 when, and which calibration supplied the calorimeter's heat capacity). Access is that of
 viewing the run (:func:`webapp.services.runs.get_run`).
 """
@@ -86,8 +86,8 @@ def result_document(result: Result) -> dict[str, Any]:
         "properties": result.properties,
         "monte_carlo": result.monte_carlo,
         "software_version": result.software_version,
-        "analysed_at": iso(result.created_at),
-        "analysed_by": _person(result.created_by),
+        "analyzed_at": iso(result.created_at),
+        "analyzed_by": _person(result.created_by),
     }
 
 

@@ -38,7 +38,7 @@ CSV_COLUMNS = (
     "warnings",
     "author",
     "recorded_at",
-    "analysed_at",
+    "analyzed_at",
     "calibration_id",
     "locked",
     "software_version",

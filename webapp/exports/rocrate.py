@@ -56,7 +56,7 @@ def crate_files(run: Run) -> tuple[dict[str, Any], dict[str, bytes]]:
     graph: list[dict[str, Any]] = [
         {"@id": METADATA, "@type": "CreativeWork", "conformsTo": {"@id": PROFILE}, "about": {"@id": "./"}},
         {"@id": "./", "@type": "Dataset", "name": run.title or run.run_file_name,
-         "description": f"cupcal {run.kind} run {run.id}: run file, thermometer readings and analysed result",
+         "description": f"cupcal {run.kind} run {run.id}: run file, thermometer readings and analyzed result",
          "datePublished": doc["exported_at"][:10],
          "creator": [{"@id": _person_id(run.author)}],
          "hasPart": [{"@id": run_name}, {"@id": readings_name}, {"@id": EXPORT_NAME}],
@@ -73,7 +73,7 @@ def crate_files(run: Run) -> tuple[dict[str, Any], dict[str, bytes]]:
          "result": [{"@id": EXPORT_NAME}],
          "agent": {"@id": _person_id(run.current_result.created_by)}
          if run.current_result and run.current_result.created_by else {"@id": _person_id(run.author)},
-         "endTime": doc["result"]["analysed_at"] if doc["result"] else doc["exported_at"]},
+         "endTime": doc["result"]["analyzed_at"] if doc["result"] else doc["exported_at"]},
     ]
     graph += [{"@id": _person_id(p), "@type": "Person", "name": p.name} for p in people.values()]
     return {"@context": CONTEXT, "@graph": graph}, files

@@ -138,7 +138,7 @@ def target(live_id: int):  # type: ignore[no-untyped-def]
 @bp.route("/live/<int:live_id>/finish", methods=["POST"])
 @login_required
 def finish(live_id: int):  # type: ignore[no-untyped-def]
-    """Stop following: analyse the readings and store them as a run, then show the run."""
+    """Stop following: analyze the readings and store them as a run, then show the run."""
     _steerable(live_id)
     if not FinishForm().validate_on_submit():
         flash("The form expired; send it again.", "error")
@@ -152,5 +152,5 @@ def finish(live_id: int):  # type: ignore[no-untyped-def]
             raise
         flash(f"Not stored: {exc.message}", "error")
         return redirect(url_for("live.page", live_id=live_id))
-    flash("The live run is stored as this run, analysed like any upload.")
+    flash("The live run is stored as this run, analyzed like any upload.")
     return redirect(url_for("runs.detail", run_id=run.id))

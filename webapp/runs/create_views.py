@@ -79,7 +79,7 @@ def _after_save(run: Any) -> Any:
     return redirect(url_for("runs.detail", run_id=run.id))
 
 
-def _analyse(upload: RunUpload, action: str, previewed: str, fingerprint: str) -> tuple[Any, Preview | None, bool]:
+def _analyze(upload: RunUpload, action: str, previewed: str, fingerprint: str) -> tuple[Any, Preview | None, bool]:
     """Save (when asked, and only what was previewed) or preview; return (response, preview, changed).
 
     :raise ServiceError: from the services, for the form to show
@@ -164,7 +164,7 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
     fingerprint = digest(kind, run_toml, readings.data, str(upload.calorimeter_id))
     context.update(run_toml=run_toml, fingerprint=fingerprint)
     try:
-        response, preview, changed = _analyse(upload, request.form.get("action", "preview"),
+        response, preview, changed = _analyze(upload, request.form.get("action", "preview"),
                                               request.form.get("previewed", ""), fingerprint)
     except ServiceError as exc:
         get_session().rollback()
@@ -237,7 +237,7 @@ def upload():  # type: ignore[no-untyped-def]
     fingerprint = digest(run_toml, run_file.name, readings.data, readings.name, str(cid), str(group_id))
     context["fingerprint"] = fingerprint
     try:
-        response, preview, changed = _analyse(upload_, request.form.get("action", "preview"),
+        response, preview, changed = _analyze(upload_, request.form.get("action", "preview"),
                                               request.form.get("previewed", ""), fingerprint)
     except ServiceError as exc:
         get_session().rollback()

@@ -11,7 +11,7 @@ from webapp.db import get_session
 from webapp.plot_cache import budget_plot, draw_result_plots, run_plot, svg_response
 from webapp.quantities import main_value
 from webapp.runs.blueprint import bp
-from webapp.runs.reanalyse_form import ReanalyseForm
+from webapp.runs.reanalyze_form import ReanalyzeForm
 from webapp.services.access import require_editable
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.calorimeters import calorimeters_query
@@ -21,7 +21,7 @@ from webapp.services.review_page import review_panel
 from webapp.services.run_list import FLAGS as RUN_FLAGS
 from webapp.services.run_list import SORTS as RUN_SORTS
 from webapp.services.run_list import filtered_runs_query, read_filter
-from webapp.services.runs import get_run, lock_run, paginate, reanalyse_run
+from webapp.services.runs import get_run, lock_run, paginate, reanalyze_run
 
 #: flash category prefix of a message that belongs next to one field of the re-analysis form
 FIELD_FLASH = "field:"
@@ -61,7 +61,7 @@ def index():  # type: ignore[no-untyped-def]
 @bp.route("/<int:run_id>")
 @login_required
 def detail(run_id: int):  # type: ignore[no-untyped-def]
-    """Show a run: cautions, plot, result, budget, comparison, every result; re-analyse and lock."""
+    """Show a run: cautions, plot, result, budget, comparison, every result; re-analyze and lock."""
     field_errors: dict[str, list[str]] = {}
     for category, message in get_flashed_messages(with_categories=True):
         if category.startswith(FIELD_FLASH):
@@ -69,11 +69,11 @@ def detail(run_id: int):  # type: ignore[no-untyped-def]
     return _detail_page(run_id, None, field_errors)
 
 
-def _detail_page(run_id: int, form: ReanalyseForm | None, field_errors: dict[str, list[str]], status: int = 200):  # type: ignore[no-untyped-def]
+def _detail_page(run_id: int, form: ReanalyzeForm | None, field_errors: dict[str, list[str]], status: int = 200):  # type: ignore[no-untyped-def]
     """Render the run page; a refused re-analysis passes its form so that what was typed stays."""
     page = run_page(get_session(), current_user, run_id, request.args.get("result", type=int))
     if form is None:
-        form = ReanalyseForm(formdata=None)
+        form = ReanalyzeForm(formdata=None)
         if page.result is not None:
             form.method.data = page.result.method
     return render_template(
@@ -102,14 +102,14 @@ def plot(run_id: int, result_id: int, which: str):  # type: ignore[no-untyped-de
     return render_template("error.html", status=404, title="Not Found", message="No such plot."), 404
 
 
-@bp.route("/<int:run_id>/reanalyse", methods=["POST"])
+@bp.route("/<int:run_id>/reanalyze", methods=["POST"])
 @login_required
-def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
-    """Analyse the run again with the method and periods of the form; the earlier result is kept."""
+def reanalyze(run_id: int):  # type: ignore[no-untyped-def]
+    """Analyze the run again with the method and periods of the form; the earlier result is kept."""
     session = get_session()
     run = get_run(session, current_user, run_id)
     require_editable(current_user, run)  # a signed run is refused (409) whatever the form holds
-    form = ReanalyseForm()
+    form = ReanalyzeForm()
     if not form.validate_on_submit():
         errors: dict[str, list[str]] = {}
         for name, messages in form.errors.items():
@@ -123,7 +123,7 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
         monte_carlo_trials=int(current_app.config["MONTE_CARLO_TRIALS"]),
     )
     try:
-        result = reanalyse_run(session, current_user, run, options, request.form.get("version", type=int))
+        result = reanalyze_run(session, current_user, run, options, request.form.get("version", type=int))
     except ServiceError as exc:
         session.rollback()
         if exc.status in (403, 409):
@@ -131,7 +131,7 @@ def reanalyse(run_id: int):  # type: ignore[no-untyped-def]
         # the page again, with what was typed and the message beside its field (the same text as the API's 400)
         return _detail_page(run_id, form, {_FORM_FIELDS.get(exc.field or "", "form"): [exc.message]}, 400)
     draw_result_plots(run, result)  # into the cache now, so the page opens at once
-    flash("Analysed again; the earlier result is kept.")
+    flash("Analyzed again; the earlier result is kept.")
     return redirect(url_for("runs.detail", run_id=run_id))
 
 

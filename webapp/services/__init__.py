@@ -4,7 +4,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 
 - ``access``: who may see and change what; every rule of the roles
 - ``accounts``: passwords set by a coordinator or the person, one-time sign-in links
-- ``analysis``: the bridge to calc: parse an upload, supply C_cal, analyse, map an Analysis to rows
+- ``analysis``: the bridge to calc: parse an upload, supply C_cal, analyze, map an Analysis to rows
 - ``audit``: the audit trail of every change to a run or a calorimeter
 - ``board_view``: the part of a dashboard a page shows: search, flag filter, pages of groups
 - ``calibrations``: calibration authority, pooling and the heat capacity in force, withdrawal, re-analysis
@@ -31,7 +31,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``live``: live runs: created by a recorder, fed readings as they come, finished into a stored run
 - ``live_advice``: the advisor's answer for a live run, once per batch of readings, kept on the row
 - ``live_events``: how a change to a live run reaches every server process's pages (through the database)
-- ``live_finish``: finishing a live run: its log analysed and stored like an uploaded run
+- ``live_finish``: finishing a live run: its log analyzed and stored like an uploaded run
 - ``live_runfile``: a live run's run file, checked at the start, completed for the advisor and the stored run
 - ``live_view``: what pages, event streams and the API read of live runs
 - ``marks``: marking schemes, the marks they give, marks set by hand
@@ -42,7 +42,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``review``: withdraw, exclude, accept; which runs count
 - ``review_page``: what the run page shows of a run's review
 - ``run_list``: the runs list's search, filters and sort, as one query
-- ``runs``: record an upload, re-analyse, edit, lock, and the queries that list runs
+- ``runs``: record an upload, re-analyze, edit, lock, and the queries that list runs
 - ``samples``: replicates grouped by sample, with mean, t-interval and ν_eff
 - ``series``: series of repeat runs with the shared Type B part
 - ``throttle``: sign-in back-off per account and per client address

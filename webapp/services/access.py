@@ -1,7 +1,7 @@
 """Who may see and change what. Every rule of the notebook's roles lives here.
 
 - coordinator: sees and changes everything; manages courses, groups and calorimeters.
-- technician: sees every run and may record and re-analyse runs; manages nothing.
+- technician: sees every run and may record and re-analyze runs; manages nothing.
 - student: sees and changes only the runs of their own group (or their own runs when
   they have no group), and records runs only for their own group.
 - A run is locked (signed) by its author or a coordinator; then nobody changes it.
@@ -39,7 +39,7 @@ def can_view_run(person: Person, run: Run) -> bool:
 
 
 def can_edit_run(person: Person, run: Run) -> bool:
-    """Return whether ``person`` may change ``run`` (re-analyse, edit its details)."""
+    """Return whether ``person`` may change ``run`` (re-analyze, edit its details)."""
     return can_view_run(person, run)
 
 

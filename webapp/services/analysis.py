@@ -1,4 +1,4 @@
-"""The bridge to calc: parse an upload, supply C_cal, analyse, and map an Analysis to rows.
+"""The bridge to calc: parse an upload, supply C_cal, analyze, and map an Analysis to rows.
 
 Nothing here touches the session; :mod:`webapp.services.runs` owns the transactions.
 calc's :class:`~calc.errors.InputError` and :class:`~calc.errors.AnalysisError` become
@@ -39,7 +39,7 @@ _HEADER_RE = re.compile(r"^[ \t]*\[[ \t]*calorimeter[ \t]*\][ \t]*(?:#.*)?$", re
 
 @dataclasses.dataclass(frozen=True)
 class AnalysisOptions:
-    """How to analyse a run: ΔT method, period overrides (s), Monte Carlo trials and seed."""
+    """How to analyze a run: ΔT method, period overrides (s), Monte Carlo trials and seed."""
 
     method: str | None = None
     fore: tuple[float, float] | None = None
@@ -180,7 +180,7 @@ def parse_inputs(
 def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions, *,
                  calorimeter_type: str | None = None,
                  history: list[tuple[float, float]] | None = None) -> Analysis:
-    """Analyse with calc; its errors become :class:`Invalid`.
+    """Analyze with calc; its errors become :class:`Invalid`.
 
     ``calorimeter_type`` (the calorimeter record's type, unless the run file states one) and
     ``history`` (its calibrations, (value, u) in J/K) feed calc's plausibility checks.
@@ -303,7 +303,7 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
 
 
 def default_method(spec: RunSpec) -> str:
-    """Return the method a run is analysed with when none is asked for."""
+    """Return the method a run is analyzed with when none is asked for."""
     return spec.method or DEFAULT_METHOD
 
 

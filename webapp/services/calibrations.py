@@ -10,7 +10,7 @@
 - A value in force that would move by more than ``k·√(u_old² + u_new²)`` (:data:`CONFIRM_K`) needs
   an explicit confirmation; a calibration run that would do so without one stays proposed.
 - Withdrawing a calibration lists the runs that used it (or a pool holding it); they are
-  re-analysed with the value now in force in one action, locked (signed) runs excepted.
+  re-analyzed with the value now in force in one action, locked (signed) runs excepted.
 """
 
 from __future__ import annotations
@@ -114,7 +114,7 @@ def overdue_note(day: dt.date | None, calibration: Calibration | None, calorimet
         return None
     return (f"calibration overdue: this run was measured on {day.isoformat()}, but the calorimeter's heat capacity "
             f"in force was measured on {calibration.taken_at.date().isoformat()} and was due again on "
-            f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyse")
+            f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyze")
 
 
 def run_day(run: Run) -> dt.date:
@@ -378,17 +378,17 @@ def runs_using(session: so.Session, calibration: Calibration) -> list[Run]:
 
 
 @dataclasses.dataclass
-class Reanalysed:
-    """What one "re-analyse the runs that used it" action did."""
+class Reanalyzed:
+    """What one "re-analyze the runs that used it" action did."""
 
-    calibration: Calibration | None  # the value now in force, used for every run re-analysed
-    reanalysed: list[int] = dataclasses.field(default_factory=list)
+    calibration: Calibration | None  # the value now in force, used for every run re-analyzed
+    reanalyzed: list[int] = dataclasses.field(default_factory=list)
     locked: list[int] = dataclasses.field(default_factory=list)
     failed: list[tuple[int, str]] = dataclasses.field(default_factory=list)
 
 
-def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int) -> Reanalysed:
-    """Re-analyse, with the value now in force, every unlocked run that used this calibration; commit once.
+def reanalyze_runs_using(session: so.Session, actor: Person, calibration_id: int) -> Reanalyzed:
+    """Re-analyze, with the value now in force, every unlocked run that used this calibration; commit once.
 
     Each run keeps its method and periods (Monte Carlo is not repeated). Locked runs are listed,
     not changed: the lock is checked again under the row lock in the transaction that writes.
@@ -396,7 +396,7 @@ def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int
     from webapp.services.concurrency import begin_write, lock_row
     from webapp.services.errors import ServiceError
 
-    require_staff(actor, "re-analyse runs after a calibration change")
+    require_staff(actor, "re-analyze runs after a calibration change")
     cal = get_calibration(session, calibration_id)
     target = current_calibration(session, cal.calorimeter_id)
     if target is None:
@@ -405,13 +405,13 @@ def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int
     if target.id == cal.id:
         raise Invalid("this calibration is the value in force; withdraw it first", field="calibration_id")
     plans = []
-    out = Reanalysed(target)
+    out = Reanalyzed(target)
     for run in runs_using(session, cal):
         if run.locked:
             out.locked.append(run.id)
             continue
         try:
-            plans.append((run.id, run.calibration_id, _analyse_with(run, target)))
+            plans.append((run.id, run.calibration_id, _analyze_with(run, target)))
         except ServiceError as exc:
             out.failed.append((run.id, exc.message))
     target_id = target.id
@@ -426,13 +426,13 @@ def reanalyse_runs_using(session: so.Session, actor: Person, calibration_id: int
             out.failed.append((run_id, "its calibration changed meanwhile; nothing was changed"))
             continue
         _switch(session, actor, run, target, result)
-        out.reanalysed.append(run_id)
+        out.reanalyzed.append(run_id)
     session.commit()
     out.calibration = target
     return out
 
 
-def _analyse_with(run: Run, target: Calibration) -> Result:
+def _analyze_with(run: Run, target: Calibration) -> Result:
     from webapp.services.analysis import (
         AnalysisOptions,
         decode_readings,

@@ -1,6 +1,6 @@
 """The class dashboard: every run of a section (or a course) with flags, feedback and statistics.
 
-Nothing is analysed again: the flags come from what each analysis stored (its result's
+Nothing is analyzed again: the flags come from what each analysis stored (its result's
 warnings, comparison, budget and ΔT, the run's thermometer resolution and its calibration).
 Results are compared within one *measurement*: the same kind and the same reference value
 (e.g. "dissolution · KCl dissolution, infinite dilution").

@@ -1,7 +1,7 @@
 """The demo scenario: an invented teaching lab ("Tern Hollow, room 3B") with its people and runs.
 
 Everything here is invented. The runs are the checked-in ``fixtures/demo/*.toml`` and
-``.csv`` files (made by ``fixtures/generate_demo.py``), stored and analysed like uploads.
+``.csv`` files (made by ``fixtures/generate_demo.py``), stored and analyzed like uploads.
 """
 
 from __future__ import annotations
@@ -137,7 +137,7 @@ def _load_class(session: so.Session, coordinator: Person, course_id: int, groups
                 people: dict[str, Person], class_dir: Path) -> None:
     """Put the groups into the course's two sections and record the class practical's runs.
 
-    The class runs are analysed without the Monte Carlo check, as a bulk import does; staff
+    The class runs are analyzed without the Monte Carlo check, as a bulk import does; staff
     comments are added and the run with a typing slip is excluded from the statistics.
     """
     from webapp.services.classes import create_section

@@ -7,7 +7,7 @@ archive stores nothing. Then, folder by folder:
 - ``cupcal-export.json`` written by cupcal: the run with every result and its audit fields
   (:mod:`webapp.services.eln_restore`), oldest first, so calibration runs come before the runs
   that use them;
-- any other folder holding a run file (``.toml``) and the log it names: a new run, analysed like
+- any other folder holding a run file (``.toml``) and the log it names: a new run, analyzed like
   a bulk import (no Monte Carlo).
 
 Every file of the archive is reported with its outcome (nothing is dropped silently). Each run

@@ -1,9 +1,9 @@
 """Reading back what cupcal wrote into an ``.eln`` archive: calorimeters, calibrations and runs, exactly.
 
-A run is analysed again from its files, exactly as the archive says it was (method, periods,
+A run is analyzed again from its files, exactly as the archive says it was (method, periods,
 Monte Carlo trials and seed, the calibration that supplied the heat capacity), for each of its
 results in turn; every number of every result must then equal the archive's, else the run is
-not stored. The audit fields are restored as written: who recorded, analysed and signed it and
+not stored. The audit fields are restored as written: who recorded, analyzed and signed it and
 when, its details, its group and its audit trail (plus one entry saying it was imported). People
 are matched by e-mail; someone not in this notebook gets an inactive account that cannot sign in.
 """
@@ -41,7 +41,7 @@ from webapp.services.package_import import _file, _options
 from webapp.services.people import hash_password
 from webapp.services.runs import RunUpload, _new_run, _periods_given, upload_file_name
 
-#: most results of one run read back (each is analysed again)
+#: most results of one run read back (each is analyzed again)
 MAX_RESULTS = 100
 #: the parts of a result that must come back number for number
 COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
@@ -180,7 +180,7 @@ def check_same(result: Result, exported: dict[str, Any], where: str) -> None:
     for key in COMPARED:
         if mine.get(key) != theirs.get(key):
             raise Invalid(f"{where}: the analysis here does not reproduce the archive's result {exported.get('id')} "
-                          f"({key} differs; the archive was analysed by cupcal "
+                          f"({key} differs; the archive was analyzed by cupcal "
                           f"{exported.get('software_version')}); the run was not stored", field="result")
 
 
@@ -280,14 +280,15 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     own = known.of_run.get((cal.name, source_id), set()) if cal is not None else set()
     for rdoc in _results_in_order(doc, where):
         options = _options({"result": rdoc}, 0).checked()
-        analysed_at = when(rdoc["analysed_at"], "result.analysed_at") if rdoc.get("analysed_at") else None
-        result = result_from_analysis(run_analysis(spec, rd, options, **_check_context(session, cal, own, analysed_at)),
+        _legacy_keys(rdoc)
+        analyzed_at = when(rdoc["analyzed_at"], "result.analyzed_at") if rdoc.get("analyzed_at") else None
+        result = result_from_analysis(run_analysis(spec, rd, options, **_check_context(session, cal, own, analyzed_at)),
                                       input_name=run_name, periods_given=_periods_given(options))
         result.run, result.is_current = run, rdoc is doc["result"]
         session.add(result)
-        result.created_by = people.get(rdoc.get("analysed_by"))
-        if analysed_at is not None:
-            result.created_at = analysed_at
+        result.created_by = people.get(rdoc.get("analyzed_by"))
+        if analyzed_at is not None:
+            result.created_at = analyzed_at
         check_same(result, rdoc, where)
         if run.kind in CALIBRATION_KINDS and cal is not None:
             _measured(session, cal, run, result, rdoc, doc, known, stamps)
@@ -357,3 +358,11 @@ def _review(session: so.Session, run: Run, doc: dict[str, Any], people: People) 
         session.flush()
         row.updated_by_id = who.id
     session.add(row)
+
+
+def _legacy_keys(rdoc: dict) -> None:
+    """Archives written before the US spelling of names carry ``analysed_at``/``analysed_by``: read them too."""
+    for new in ("analyzed_at", "analyzed_by"):
+        old = new.replace("analyzed", "analysed")
+        if old in rdoc and new not in rdoc:
+            rdoc[new] = rdoc[old]

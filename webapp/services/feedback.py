@@ -69,7 +69,7 @@ _FLAG_ADVICE = {
     "name it in the run file.",
     "check": "A plausibility check flagged a run: look at the run page's checks and correct what was entered wrongly. "
     "The run stays out of the section's statistics until staff accept it.",
-    "overdue": "The calorimeter's calibration was overdue when you measured: have it calibrated, then re-analyse.",
+    "overdue": "The calorimeter's calibration was overdue when you measured: have it calibrated, then re-analyze.",
 }
 
 

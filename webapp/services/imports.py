@@ -1,11 +1,11 @@
 """Bulk import of a section's runs: a zip or a folder of run files (.toml) and logs (.csv).
 
-Each run is validated, analysed and stored in its own transaction through
+Each run is validated, analyzed and stored in its own transaction through
 :func:`webapp.services.runs.record_run` (all-or-nothing per run; a crash leaves no half-stored
 run). The run file and the readings are hashed (SHA-256) and the hash is stored on the run
 under a unique constraint, so importing the same files again changes nothing. Bulk import
 analyses without Monte Carlo (``monte_carlo_trials=0``): the GUM result and budget are those of
-a single upload, and a Monte Carlo check can be made later by re-analysing a run.
+a single upload, and a Monte Carlo check can be made later by re-analyzing a run.
 
 Which group a run belongs to: the mapping CSV (columns ``file, group`` and optionally
 ``bench``), else ``[info] group`` of the run file, else the start of the file name

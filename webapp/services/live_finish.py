@@ -1,4 +1,4 @@
-"""Finishing a live run: the log is analysed and stored like any uploaded run.
+"""Finishing a live run: the log is analyzed and stored like any uploaded run.
 
 The raw log stored is the recorder's CSV exactly as sent; without one, a CSV made from the stored
 readings (``time_s,temperature_c``, numbers written with Python's ``repr``, which reads back to
@@ -34,7 +34,7 @@ def submit_token(live_id: int) -> str:
 
 
 def finish_live_run(session: so.Session, actor: Person, live_id: int, readings_csv: str | None = None) -> Run:
-    """Analyse and store the live run as a run (owned by who recorded it) and mark it finished.
+    """Analyze and store the live run as a run (owned by who recorded it) and mark it finished.
 
     :raise Invalid: no readings, or the analysis refuses the log (calc's message)
     :raise Conflict: the live run was abandoned
@@ -64,7 +64,7 @@ def _record(session: so.Session, live: LiveRun, readings_csv: str | None) -> Run
     if readings_csv is None:
         rows = readings_of(session, live.id)
         if not rows:
-            raise Invalid(f"live run {live.id} has no readings yet; nothing to analyse", field="readings")
+            raise Invalid(f"live run {live.id} has no readings yet; nothing to analyze", field="readings")
         readings_csv = csv_of_readings(rows)
     name = readings_name(live.run_file, live.id)
     owner = live.owner

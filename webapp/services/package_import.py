@@ -1,7 +1,7 @@
 """Import of our own run packages: the JSON export and the RO-Crate zip reproduce the run exactly.
 
 The run file and the readings are stored byte for byte as exported (their SHA-256 is
-checked), and the run is analysed with the exported method and, when they were given, the
+checked), and the run is analyzed with the exported method and, when they were given, the
 exported periods, with the exported Monte Carlo trials and seed. When the run file leaves the calorimeter's heat capacity to a calibration,
 the calorimeter of the same name here must have that calibration in force (same value and
 uncertainty), else the numbers would differ and the import is refused.

@@ -20,12 +20,12 @@ from webapp.services.access import can_edit_run, can_lock_run, can_view_run, vis
 from webapp.services.audit import audit_trail
 from webapp.services.calorimeters import calibration_history, calorimeters_query, current_calibration, get_calorimeter
 from webapp.services.errors import NotFound
-from webapp.services.runs import RunUpload, analyse_upload, get_run, runs_query
+from webapp.services.runs import RunUpload, analyze_upload, get_run, runs_query
 
 
 @dataclasses.dataclass
 class Preview:
-    """An analysed upload that is not stored: calc's analysis and the result row it would give."""
+    """An analyzed upload that is not stored: calc's analysis and the result row it would give."""
 
     analysis: Analysis
     result: Result  # transient: never added to a session
@@ -35,11 +35,11 @@ class Preview:
 
 
 def preview_run(session: so.Session, upload: RunUpload) -> Preview:
-    """Analyse an upload as :func:`~webapp.services.runs.record_run` would, without storing anything.
+    """Analyze an upload as :func:`~webapp.services.runs.record_run` would, without storing anything.
 
     :raise Invalid: for any problem with the files or the options (calc's message and field)
     """
-    done = analyse_upload(session, upload)
+    done = analyze_upload(session, upload)
     return Preview(
         done.analysis, done.result(), done.calorimeter, done.calibration, str(done.spec.get("info", "date") or "")
     )

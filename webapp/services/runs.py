@@ -1,4 +1,4 @@
-"""Runs: record an upload, re-analyse, edit, lock, and the queries that list them.
+"""Runs: record an upload, re-analyze, edit, lock, and the queries that list them.
 
 Each operation is one transaction: it checks everything, analyses with calc, adds
 the rows and commits, or raises before anything is written (nothing half-saved).
@@ -82,8 +82,8 @@ class Page(Generic[T]):
 
 
 @dataclasses.dataclass
-class AnalysedUpload:
-    """An upload read, checked and analysed, before anything is stored."""
+class AnalyzedUpload:
+    """An upload read, checked and analyzed, before anything is stored."""
 
     options: AnalysisOptions
     run_name: str
@@ -99,8 +99,8 @@ class AnalysedUpload:
         return result_from_analysis(self.analysis, input_name=self.run_name, periods_given=_periods_given(self.options))
 
 
-def analyse_upload(session: so.Session, upload: RunUpload) -> AnalysedUpload:
-    """Read, check and analyse an upload without storing anything (used to record and to preview).
+def analyze_upload(session: so.Session, upload: RunUpload) -> AnalyzedUpload:
+    """Read, check and analyze an upload without storing anything (used to record and to preview).
 
     :raise Invalid: for any problem with the files or the options (calc's message)
     """
@@ -120,7 +120,7 @@ def analyse_upload(session: so.Session, upload: RunUpload) -> AnalysedUpload:
             )
     spec, readings = parse_inputs(upload.run_toml, run_name, readings_text, readings_name, calibration)
     analysis = run_analysis(spec, readings, options, **_check_context(calorimeter))
-    return AnalysedUpload(options, run_name, readings_name, calorimeter, calibration, spec, readings, analysis)
+    return AnalyzedUpload(options, run_name, readings_name, calorimeter, calibration, spec, readings, analysis)
 
 
 def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
@@ -129,7 +129,7 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
     :raise Invalid: for any problem with the files or the options (calc's message)
     :raise Forbidden: when a student records a run for another group
     """
-    done = analyse_upload(session, upload)
+    done = analyze_upload(session, upload)
     spec, calorimeter, calibration = done.spec, done.calorimeter, done.calibration
     group = group_for(session, actor, upload.group_id, spec.get("info", "group"))
     run = _new_run(
@@ -156,23 +156,23 @@ def record_run(session: so.Session, actor: Person, upload: RunUpload) -> Run:
 
 
 def _still_in_force(session: so.Session, calibration: Calibration) -> None:
-    """Check, in the writing transaction, that the value the run was analysed with is still in force."""
+    """Check, in the writing transaction, that the value the run was analyzed with is still in force."""
     session.flush()  # SQLite's write transaction starts here; PostgreSQL locks the calorimeter's row next
     session.execute(sa.select(Calorimeter.id).where(Calorimeter.id == calibration.calorimeter_id).with_for_update())
     now = current_calibration(session, calibration.calorimeter_id)
     if now is None or now.id != calibration.id:
         session.rollback()
         raise Conflict(
-            "the calorimeter's heat capacity in force changed while the run was analysed; nothing was "
+            "the calorimeter's heat capacity in force changed while the run was analyzed; nothing was "
             "saved, send it again",
             field="calorimeter.heat_capacity",
         )
 
 
-def reanalyse_run(
+def reanalyze_run(
     session: so.Session, actor: Person, run: Run, options: AnalysisOptions, expected_version: int | None = None
 ) -> Result:
-    """Analyse a stored run again (new method or periods), keep the old result, and commit.
+    """Analyze a stored run again (new method or periods), keep the old result, and commit.
 
     The run's recorded calibration supplies C_cal again, so the inputs are the same.
     A calibration run's new result is added to its calorimeter's history. The analysis runs
@@ -190,7 +190,7 @@ def reanalyse_run(
     check_version("run", run, expected_version)
     if run.calibration_id != calibration_id:
         raise Stale(
-            f"run {run.id}'s calibration changed while it was analysed; nothing was saved, try again",
+            f"run {run.id}'s calibration changed while it was analyzed; nothing was saved, try again",
             current={"run": run_state(run)},
         )
     result = result_from_analysis(analysis, input_name=run.run_file_name, periods_given=_periods_given(options))
@@ -268,7 +268,7 @@ def lock_run(session: so.Session, actor: Person, run: Run, expected_version: int
 def analysis_of(run: Run, result: Result | None = None) -> Analysis:
     """Return calc's full :class:`~calc.analysis.Analysis` behind a stored result (for plots).
 
-    The stored files are analysed again with the result's method, its periods when they
+    The stored files are analyzed again with the result's method, its periods when they
     were given, and the run's recorded calibration, without Monte Carlo: the numbers are
     those stored (the analysis is deterministic). Read-only: nothing is written.
     """
@@ -278,7 +278,7 @@ def analysis_of(run: Run, result: Result | None = None) -> Analysis:
     text = decode_readings(run.readings_raw, run.readings_name)
     spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, run.calibration)
     given = result.periods_given
-    # a mixing time typed in "Analyse again" is stored with the result as not detected
+    # a mixing time typed in "Analyze again" is stored with the result as not detected
     typed_mix = spec.mixing_time is None and not result.mixing_time_detected
     return run_analysis(
         spec,

@@ -2,7 +2,7 @@
 
 A sample's series is the runs that name it in ``[info] sample`` and give the same quantity
 (all ΔH or all C_cal, one kind), with their current results; the statistics are
-:func:`webapp.services.series.summarise_runs` (calc.statistics.replicates), so the dashboard, the API
+:func:`webapp.services.series.summarize_runs` (calc.statistics.replicates), so the dashboard, the API
 and this page agree.
 """
 
@@ -19,7 +19,7 @@ import sqlalchemy.orm as so
 from webapp.models import Person, Result, Run
 from webapp.services.access import visible_runs_clause
 from webapp.services.errors import Invalid
-from webapp.services.series import summarise_runs
+from webapp.services.series import summarize_runs
 
 MAX_SAMPLE_LENGTH = 200
 
@@ -74,7 +74,7 @@ def sample_series(session: so.Session, actor: Person, *, sample: str = "") -> li
         stats, problem = None, ""
         if len(members) >= 2:
             try:
-                stats = summarise_runs(members, first_budget=budgets.get(members[0][1].id) or [])
+                stats = summarize_runs(members, first_budget=budgets.get(members[0][1].id) or [])
             except Invalid as exc:
                 problem = exc.message
         else:

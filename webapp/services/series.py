@@ -52,7 +52,7 @@ def _main(result: Result) -> tuple[float | None, str]:
     return result.calorimeter_heat_capacity_j_k, "J/K"
 
 
-def summarise_runs(
+def summarize_runs(
     runs: list[tuple[Run, Result]], *, first_budget: list[dict[str, Any]] | None = None
 ) -> dict[str, Any]:
     """Return the series statistics of runs with their current results (at least 2, one kind).
@@ -123,7 +123,7 @@ def create_series(session: so.Session, actor: Person, *, name: str, run_ids: lis
     missing = sorted(set(ids) - {r.id for r, _ in runs})
     if missing:
         raise Invalid(f"no run with a result: {', '.join(map(str, missing))}", field="run_ids")
-    summarise_runs(runs)
+    summarize_runs(runs)
     series = Series(name=name, notes=notes or "", created_by=actor, members=[SeriesRun(run_id=i) for i in ids])
     session.add(series)
     session.commit()
@@ -138,7 +138,7 @@ def series_summary(session: so.Session, actor: Person, series_id: int) -> dict[s
     runs = _current(session, [m.run_id for m in series.members])
     if not all(can_view_run(actor, r) for r, _ in runs):
         raise NotFound(f"no series with id {series_id}")
-    return {"id": series.id, "name": series.name, "notes": series.notes, **summarise_runs(runs)}
+    return {"id": series.id, "name": series.name, "notes": series.notes, **summarize_runs(runs)}
 
 
 def group_series(rows: list[Any], session: so.Session | None = None) -> list[dict[str, Any]]:

@@ -12,7 +12,7 @@ from calc.live.advice_forecast import forecast
 from tests.calc.live.helpers import live_run, upto
 
 
-def analysed(text, t, y):
+def analyzed(text, t, y):
     spec = parse_run('readings = "x.csv"\n' + text, source="test")
     a = analyze_spec(spec, Readings(t, y + 273.15, np.arange(2, t.size + 2), "test", "s", "degC"), with_reference=False)
     return a, forecast(a, t, y + 273.15)
@@ -22,7 +22,7 @@ def test_level_variance_matches_least_squares(tmp_path):
     # The closed form s²(1/n + 12(L/2 + d)²/(nL²)) against the variance of an extrapolated straight
     # line computed from (XᵀX)⁻¹ by numpy (ordinary least squares, Seber & Wild 1989), unit noise.
     text, t, y, sim = live_run("dissolution", 41, tmp_path, tau_r=20.0)
-    a, fc = analysed(text, t, y)
+    a, fc = analyzed(text, t, y)
     p = a.periods
     d = 0.5 * (p.main_end - p.mixing_time)
     rate = np.count_nonzero((t >= p.after[0]) & (t <= p.after[1])) / (p.after[1] - p.after[0])
@@ -39,7 +39,7 @@ def test_level_variance_matches_least_squares(tmp_path):
 
 def test_forecast_starts_at_u_and_never_rises(tmp_path):
     text, t, y, sim = live_run("neutralization", 42, tmp_path)
-    a, fc = analysed(text, *upto(t, y, sim.truth.t_m_s + 200.0))
+    a, fc = analyzed(text, *upto(t, y, sim.truth.t_m_s + 200.0))
     assert fc.expanded(0.0) == pytest.approx(a.gum.expanded_uncertainty, rel=1e-9)
     us = [fc.expanded(x) for x in np.arange(0.0, 3000.0, 10.0)]
     assert all(b <= a_ + 1e-12 for a_, b in zip(us, us[1:]))
@@ -53,8 +53,8 @@ def test_forecast_against_the_analysis_two_minutes_later(tmp_path):
     # consistency check of docs/methods.md §9.3; within 25 %)
     text, t, y, sim = live_run("dissolution", 44, tmp_path, tau_r=20.0, noise=0.02, phi=0.5, solute_mass_g=1.0)
     now = sim.truth.t_m_s + 250.0
-    a, fc = analysed(text, *upto(t, y, now))
-    later, _ = analysed(text, *upto(t, y, now + 120.0))
+    a, fc = analyzed(text, *upto(t, y, now))
+    later, _ = analyzed(text, *upto(t, y, now + 120.0))
     assert fc.fit_after > 0.5 * (fc.fixed_var + fc.fit_fore + fc.fit_after)  # the test means something
     assert fc.expanded(120.0) == pytest.approx(later.gum.expanded_uncertainty, rel=0.25)
     assert later.gum.expanded_uncertainty < a.gum.expanded_uncertainty

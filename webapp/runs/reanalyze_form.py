@@ -9,7 +9,7 @@ from wtforms.validators import Optional
 from calc.deltat.registry import METHODS
 
 
-class ReanalyseForm(FlaskForm):
+class ReanalyzeForm(FlaskForm):
     """ΔT method and, optionally, the fore and after periods (s)."""
 
     method = SelectField("ΔT method", choices=sorted(METHODS))
