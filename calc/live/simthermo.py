@@ -16,9 +16,10 @@ from __future__ import annotations
 import os
 import threading
 import time
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from calc.errors import InputError
 from calc.live.devices import DeviceProfile
@@ -34,8 +35,8 @@ class SimThermometer:
 
     def __init__(
         self,
-        times_s: Sequence[float],
-        temps_c: Sequence[float],
+        times_s: ArrayLike,
+        temps_c: ArrayLike,
         profile: DeviceProfile,
         *,
         speed: float = 1.0,

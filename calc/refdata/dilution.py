@@ -13,16 +13,16 @@ import csv
 import math
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
 
 import numpy as np
 from scipy.interpolate import RegularGridInterpolator
 
 from calc.errors import InputError
+from calc.refdata.datafiles import open_data
 from calc.refdata.formula import element_composition
-from calc.refdata.properties import R_GAS, debye_huckel_slopes
 from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
+from calc.refdata.water import R_GAS, debye_huckel_slopes
 
 __all__ = [
     "WIDE_RANGE_MODEL",
@@ -44,8 +44,7 @@ class PhiL:
 
 @lru_cache(maxsize=1)
 def _pitzer_rows() -> tuple[dict[str, str], ...]:
-    path = resources.files("calc.refdata") / "data" / "pitzer_enthalpy.csv"
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data("pitzer_enthalpy.csv") as fh:
         return tuple(csv.DictReader(fh))
 
 
@@ -101,10 +100,12 @@ class _Table:
     t_range: tuple[float, float]
 
 
+_WIDE_RANGE_FILE = "phi_L_wide_range.csv"
+
+
 @lru_cache(maxsize=1)
 def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]]:
-    path = resources.files("calc.refdata") / "data" / "phi_L_wide_range.csv"
-    with path.open(encoding="utf-8", newline="") as fh:
+    with open_data(_WIDE_RANGE_FILE) as fh:
         rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
     out = {}
     for salt, source in WIDE_RANGE_SOURCES.items():
@@ -117,7 +118,9 @@ def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]
             i, j = np.searchsorted(s, float(r["sqrt_m"])), np.searchsorted(t, float(r["t_C"]))
             short[i, j], u[i, j] = float(r["phi_L_sr"]), float(r["u_spread"])
         if np.isnan(short).any():
-            raise InputError(f"{path}: the grid of {salt} has holes (expected every √m × t_C)")
+            raise InputError(
+                f"calc/refdata/data/{_WIDE_RANGE_FILE}: the grid of {salt} has holes (expected every √m × t_C)"
+            )
         table = _Table(
             RegularGridInterpolator((s, t), short, method="cubic"),
             RegularGridInterpolator((s, t), u, method="linear"),

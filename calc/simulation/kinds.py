@@ -153,10 +153,15 @@ def simulate_reaction(rng: np.random.Generator | int | None, *,
                       delta_t_ad=heat / s["c_final"], reference="T(t_m)")
 
 
-def _liquid(ctx: RunContext, table: str, volume: float, density: float) -> tuple[float, dict[str, str]]:
+#: One table of a simulated run file: field → a quantity as the file states it ("50.0 mL"), or a whole number
+#: (the ``equivalents`` of an acid or a base).
+RunTable = dict[str, str | int]
+
+
+def _liquid(ctx: RunContext, table: str, volume: float, density: float) -> tuple[float, RunTable]:
     """Return (mass in g, run-file table) of a liquid with true values rounded as stated."""
     v, rho = ctx.true(volume, "volume_mL"), ctx.true(density, "density_g_mL")
-    tab = {"volume": ctx.state(f"{table}.volume", v, "volume_mL", "mL"),
+    tab: RunTable = {"volume": ctx.state(f"{table}.volume", v, "volume_mL", "mL"),
            "density": ctx.state(f"{table}.density", rho, "density_g_mL", "g/mL")}
     return v * rho, tab
 

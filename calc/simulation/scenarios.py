@@ -85,9 +85,9 @@ class Draw:
     salt: str | None
     tau_r: float | None
 
-    def uni(self, *args: float) -> float:
-        """Return one uniform draw (no arguments: on [0, 1))."""
-        return cast(float, self.gen.uniform(*args))
+    def uni(self, low: float = 0.0, high: float = 1.0) -> float:
+        """Return one uniform draw on [low, high) (no arguments: on [0, 1))."""
+        return self.gen.uniform(low, high)
 
     def pick_release(self) -> str:
         """Return the release model asked for, else first-order (70 %) or a shrinking sphere."""

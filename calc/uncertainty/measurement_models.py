@@ -375,9 +375,13 @@ def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec
     )
 
 
+#: The signature of a kind's ``model`` hook (:mod:`calc.kinds`).
+ModelBuilder = Callable[[RunSpec, DeltaT, RunProperties], ModelSpec]
+
+
 def build_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     """Return the measurement model of ``spec``'s kind (its ``model`` hook in :mod:`calc.kinds`)."""
-    builder = get_kind(spec.kind).hook("model")
+    builder: ModelBuilder | None = get_kind(spec.kind).hook("model")
     if builder is None:
         raise InputError(f"a {spec.kind} run has no single-event measurement model", source=spec.source, field="kind")
     return builder(spec, dt, props)
