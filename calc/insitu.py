@@ -97,7 +97,7 @@ def insitu_periods(spec: RunSpec, readings: Readings) -> tuple[Periods, list[Eve
         window between them holds too few readings.
     """
     t, y, src = readings.time_s, readings.temperature_K, readings.source
-    heaters = [(name, *_heater_times(spec, name)) for name in HEATERS if spec.sections.get(name) is not None]
+    heaters = [(name, *times) for name in HEATERS if (times := _heater_times(spec, name)) is not None]
     for name, start, duration in heaters:
         if not (t[0] < start and start + duration < t[-1]):
             raise InputError(f"the heater pulse {start:g}–{start + duration:g} s does not lie inside the log "

@@ -145,10 +145,13 @@ def temperature_difference_K(text: str, option: str) -> float:
     return x
 
 
-def _quantity(text: str | None, option: str, unit: str, *, bare: bool = True) -> float | None:
-    """Return ``text`` in ``unit`` (a bare number is taken in that unit when ``bare``), or None."""
-    if text is None:
-        return None
+def _quantity(text: str | None, option: str, unit: str) -> float | None:
+    """Return ``text`` in ``unit`` (a bare number is taken in that unit), or None when no text is given."""
+    return None if text is None else _given_quantity(text, option, unit)
+
+
+def _given_quantity(text: str, option: str, unit: str, *, bare: bool = True) -> float:
+    """Return ``text`` in ``unit`` (a bare number is taken in that unit when ``bare``)."""
     from calc.io.quantities import parse_measured
 
     if bare:
@@ -214,8 +217,9 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
         window = (temperature_difference_K(opts["min_change"], "--min-change") if opts["min_change"] is not None
                   else max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q),
                   temperature_difference_K(opts["max_change"], "--max-change"))
-        seconds = {name: _quantity(opts[name], "--" + name.replace("_", "-"), "s")
-                   for name in ("interval", "fore", "after", "release_time", "probe_time")}
+        seconds = {name: _given_quantity(opts[name], "--" + name, "s") for name in ("interval", "fore", "after")}
+        release_time = _quantity(opts["release_time"], "--release-time", "s")  # no default: by the kind
+        probe_time = _given_quantity(opts["probe_time"], "--probe-time", "s")
         plan = plan_run(
             kind,
             formula=opts["formula"], mass=opts["mass"], water_volume=opts["water"], acid=opts["acid"],
@@ -226,8 +230,9 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
             thermometer_noise=temperature_difference_K(opts["noise"], "--noise"),
             noise_correlation=opts["noise_correlation"], balance_u=_quantity(opts["balance"], "--balance", "g"),
             volume_u=_quantity(opts["glassware"], "--glassware", "mL"),
-            temperature=_quantity(opts["temperature"], "--temperature", "K", bare=False), delta_t_window=window,
-            molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"), **seconds,
+            temperature=_given_quantity(opts["temperature"], "--temperature", "K", bare=False),
+            delta_t_window=window, molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"),
+            release_time=release_time, probe_time=probe_time, **seconds,
             kind_inputs={"heater_voltage": opts["heater_voltage"], "heater_current": opts["heater_current"],
                          "heater_duration": opts["heater_time"], "warm_volume": opts["warm_volume"],
                          "warm_temperature": opts["warm_temperature"], "coefficient": opts["coefficient"]},

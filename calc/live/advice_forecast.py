@@ -96,7 +96,7 @@ def forecast(analysis: Any, t: np.ndarray, y: np.ndarray) -> Forecast:
     ta_, ya = _window(t, y, *p.after)
     fore, after = fit_line(tf_, yf), fit_line(ta_, ya)
     Lf, La = max(float(tf_[-1] - tf_[0]), 1.0), max(float(ta_[-1] - ta_[0]), 1.0)
-    d = 0.5 * max(p.main_end - p.mixing_time, 0.0)
+    d = 0.5 * max(float(p.main_end - p.mixing_time), 0.0)
     rate_a = ta_.size / La  # readings per second in the after period
 
     def level(s: float, rho: float, n: float, L: float) -> float:

@@ -1,17 +1,17 @@
 """The phases of a live run and what the advisor says in each (docs/methods.md §9.1).
 
-Each function returns the keyword arguments of :class:`calc.live.advisor.Advice`.
+Each function returns the keyword arguments of :class:`calc.live.advisor.Advice` (an :class:`AdviceParts`).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, NotRequired, TypedDict
 
 import numpy as np
 
-from calc.deltat.drift import fit_line
+from calc.deltat.drift import LineFit, fit_line
 from calc.deltat.heater import HEATER_LAG_S
 from calc.deltat.logprep import PreparedLog
 from calc.errors import InputError
@@ -23,6 +23,11 @@ from calc.live.advice_signals import Warning_, find_change
 from calc.live.advice_text import ADD_NOW, UNDER_WAY, amount_text, default_target, duration, target_text
 
 __all__ = [
+    "AdviceParts",
+    "AdvicePeriods",
+    "Drawing",
+    "DriftLine",
+    "Estimate",
     "State",
     "fore_phase",
     "later_phase",
@@ -52,6 +57,57 @@ SPIKE_RECENT_S = 120.0
 #: The shortest after period the advisor calls one (a shorter one is not told from the end of the change), s.
 MIN_AFTER_S = 60.0
 _KELVIN = 273.15
+
+
+class AdvicePeriods(TypedDict):
+    """The periods found so far, s: fore and after as [start, end], None until known."""
+
+    fore: list[float] | None
+    mixing_time: float | None
+    after: list[float] | None
+
+
+def no_periods() -> AdvicePeriods:
+    """Return the periods of an advice that has found none yet."""
+    return {"fore": None, "mixing_time": None, "after": None}
+
+
+class DriftLine(TypedDict):
+    """A drift line to draw from (t0, T0) to (t1, T1), s and °C."""
+
+    t0: float
+    t1: float
+    T0: float
+    T1: float
+
+
+class Estimate(TypedDict):
+    """The provisional result: ΔT ± u (K) and the main output ± U in ``unit``."""
+
+    delta_t: float
+    u_delta_t: float
+    value: float
+    expanded_u: float
+    unit: str
+    quantity: str
+    provisional: bool
+
+
+class Drawing(TypedDict, total=False):
+    """What the advice shows beside its status: periods, drift lines, warnings and the estimate."""
+
+    periods: AdvicePeriods
+    drift_lines: list[DriftLine]
+    warnings: list[Warning_]
+    estimate: Estimate | None
+
+
+class AdviceParts(Drawing):
+    """The keyword arguments of :class:`calc.live.advisor.Advice` a phase function returns."""
+
+    phase: str
+    status: str
+    seconds_more: NotRequired[float | None]
 
 
 @dataclass(frozen=True)
@@ -124,18 +180,18 @@ def _fore_line(st: State, end: float) -> sig.ForeState | None:
     return sig.fore_state(st.prep.t[m], st.prep.y[m], st.spec.resolution_K)
 
 
-def _line(fit: Any, t0: float, t1: float) -> dict:
+def _line(fit: LineFit, t0: float, t1: float) -> DriftLine:
     return {"t0": t0, "t1": t1, "T0": fit.at(t0) - _KELVIN, "T1": fit.at(t1) - _KELVIN}
 
 
-def fore_phase(st: State) -> dict:
+def fore_phase(st: State) -> AdviceParts:
     """Before the change: keep stirring until the fore period is long and steady, then add."""
     t = st.prep.t
     fore = _fore_line(st, float(t[-1]))
     warnings = _common_warnings(st, fore)
-    periods = {"fore": [float(t[0]), float(t[-1])], "mixing_time": None, "after": None}
+    periods: AdvicePeriods = {"fore": [float(t[0]), float(t[-1])], "mixing_time": None, "after": None}
     lines = [_line(fore.line, float(t[0]), float(t[-1]))] if fore is not None else []
-    base = {"periods": periods, "drift_lines": lines, "warnings": warnings}
+    base: Drawing = {"periods": periods, "drift_lines": lines, "warnings": warnings}
     length = float(t[-1] - t[0])
     if fore is None or length < sig.FORE_TARGET_S:
         more = sig.FORE_TARGET_S - length
@@ -155,7 +211,7 @@ def fore_phase(st: State) -> dict:
     return {"phase": "add_now", "status": ADD_NOW[st.spec.kind], "seconds_more": 0.0, **base}
 
 
-def _estimate(analysis: Any, unit: str) -> dict:
+def _estimate(analysis: Any, unit: str) -> Estimate:
     gum, dt = analysis.gum, analysis.delta_t
     return {
         "delta_t": dt.value,
@@ -183,21 +239,17 @@ def _in_after(st: State, analysis: Any) -> bool:
     return a1 - a0 >= MIN_AFTER_S and not sig.curved(st.prep.t[m], st.prep.y[m])
 
 
-def later_phase(st: State, change: tuple[float, float], analysis: Any) -> dict:
+def later_phase(st: State, change: tuple[float, float], analysis: Any) -> AdviceParts:
     """After the change: the main period under way, then the after period and when to stop."""
     t_m = analysis.periods.mixing_time if analysis is not None else change[0]
     fore = _fore_line(st, t_m)
     warnings = _common_warnings(st, fore) + _after_change_warnings(st, fore, t_m)
     t = st.prep.t
-    periods = {"fore": [float(t[0]), t_m], "mixing_time": t_m, "after": None}
+    periods: AdvicePeriods = {"fore": [float(t[0]), t_m], "mixing_time": t_m, "after": None}
     lines = [_line(fore.line, float(t[0]), t_m)] if fore is not None else []
-    base = {
-        "periods": periods,
-        "drift_lines": lines,
-        "warnings": warnings,
-        "estimate": _estimate(analysis, st.unit) if analysis is not None else None,
-    }
-    if analysis is None or not _in_after(st, analysis):
+    estimate = _estimate(analysis, st.unit) if analysis is not None else None
+    base: Drawing = {"periods": periods, "drift_lines": lines, "warnings": warnings, "estimate": estimate}
+    if analysis is None or estimate is None or not _in_after(st, analysis):
         return {
             "phase": "reaction",
             "status": UNDER_WAY[st.spec.kind],
@@ -208,7 +260,7 @@ def later_phase(st: State, change: tuple[float, float], analysis: Any) -> dict:
     periods["after"] = [a0, a1]
     m = (t >= a0 - 1e-9) & (t <= a1 + 1e-9)
     lines.append(_line(fit_line(t[m], st.prep.y[m]), t_m, a1))
-    target = st.target if st.target is not None else default_target(st.unit, base["estimate"]["value"])
+    target = st.target if st.target is not None else default_target(st.unit, estimate["value"])
     return {**base, **_after_status(st, target, forecast(analysis, st.prep.t, st.prep.y), a1 - a0)}
 
 
@@ -223,7 +275,7 @@ def _main_left(st: State, analysis: Any, t_m: float) -> float | None:
     return None if end is None else max(end - float(st.prep.t[-1]), 0.0)
 
 
-def _after_status(st: State, target: float, fc: Forecast, length: float) -> dict:
+def _after_status(st: State, target: float, fc: Forecast, length: float) -> AdviceParts:
     """The after period's status: how long for U ≤ target, or that the run can stop."""
     unit = st.unit
     wait = max(MIN_AFTER_STOP_S - length, 0.0)

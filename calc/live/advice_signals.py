@@ -61,7 +61,7 @@ class Warning_:
     message: str
     value: float | None = None
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, str | float | None]:
         """Return the warning as plain JSON-ready values."""
         return {
             "code": self.code,
@@ -196,7 +196,7 @@ def curved(t: np.ndarray, y: np.ndarray) -> bool:
     f = inflation(lag1_autocorrelation(resid))
     s2 = float(resid @ resid) / max(t.size - 3.0 * f, 0.2 * t.size, 1.0)
     cov = np.linalg.pinv(design.T @ design) * s2 * f
-    change = 4.0 * coef[2]  # slope change over the window (x from −½ to ½), K per window length
+    change = 4.0 * float(coef[2])  # slope change over the window (x from −½ to ½), K per window length
     u_change = 4.0 * math.sqrt(max(cov[2, 2], 0.0))
     length = max(float(np.ptp(t)), 1e-9)
     return abs(change) / length > _STEADY_TOLERANCE and abs(change) > 4.0 * u_change

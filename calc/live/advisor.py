@@ -22,6 +22,7 @@ from calc.errors import AnalysisError, InputError
 from calc.io.readings import CELSIUS_RANGE, Readings
 from calc.live import advice_phases as phases
 from calc.live.advice_checks import checked_arrays, checked_spec, checked_target
+from calc.live.advice_signals import Warning_
 
 __all__ = ["Advice", "advise", "PHASES", "WARNING_CODES"]
 
@@ -39,10 +40,10 @@ class Advice:
     phase: str
     status: str
     seconds_more: float | None = None
-    estimate: dict | None = None
-    periods: dict = field(default_factory=lambda: {"fore": None, "mixing_time": None, "after": None})
-    drift_lines: list = field(default_factory=list)
-    warnings: list = field(default_factory=list)
+    estimate: phases.Estimate | None = None
+    periods: phases.AdvicePeriods = field(default_factory=phases.no_periods)
+    drift_lines: list[phases.DriftLine] = field(default_factory=list)
+    warnings: list[Warning_] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         """Return the advice as plain JSON-ready values (floats, strings, lists, dicts, None)."""
@@ -126,12 +127,12 @@ def advise(
     state = phases.State(spec, target, prep, now_s, held=held, earlier=earlier)
     change = phases.find_change(prep.t, prep.y, q, given)
     if change is None:
-        return _advice(phases.fore_phase(state))
+        return Advice(**phases.fore_phase(state))
     try:
         analysis = analyze_spec(spec, readings, with_reference=False)
     except (InputError, AnalysisError):
         analysis = None
-    return _advice(phases.later_phase(state, change, analysis))
+    return Advice(**phases.later_phase(state, change, analysis))
 
 
 def _earlier_u(spec: Any, readings: Readings) -> Any:
@@ -146,7 +147,3 @@ def _earlier_u(spec: Any, readings: Readings) -> Any:
             return None
 
     return u_at
-
-
-def _advice(parts: dict) -> Advice:
-    return Advice(**parts)

@@ -8,6 +8,7 @@ another program holds raises :class:`calc.errors.InputError` with a one-line mes
 
 from __future__ import annotations
 
+import io
 import os
 import queue
 import subprocess
@@ -140,8 +141,9 @@ class CommandSource(Source):
         self._ended = False
 
     def _pump(self) -> None:
-        assert self._process.stdout is not None
-        for chunk in iter(lambda: self._process.stdout.read1(MAX_LINE), b""):  # type: ignore[union-attr]
+        stdout = self._process.stdout
+        assert isinstance(stdout, io.BufferedReader)  # stdout=PIPE with the default buffering
+        for chunk in iter(lambda: stdout.read1(MAX_LINE), b""):
             self._queue.put(chunk)
         self._queue.put(None)
 

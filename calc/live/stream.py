@@ -63,7 +63,7 @@ class NotebookClient:
         )
         try:
             with urllib.request.urlopen(request, timeout=self.timeout_s) as response:  # noqa: S310
-                return json.loads(response.read() or b"{}")
+                answer = json.loads(response.read() or b"{}")
         except urllib.error.HTTPError as exc:
             message = _error_text(exc)
             if exc.code in (408, 429) or exc.code >= 500:
@@ -73,6 +73,9 @@ class NotebookClient:
         except (urllib.error.URLError, OSError, ValueError) as exc:  # refused, timed out, reset, bad JSON
             reason = getattr(exc, "reason", exc)
             raise Unreachable(f"cannot reach the notebook at {self.base} ({reason})") from None
+        if not isinstance(answer, dict):
+            raise Unreachable(f"the notebook at {self.base} answered {path} with JSON that is not an object")
+        return answer
 
     def create_live_run(self, run_text: str, client_key: str, target_u: float | None) -> tuple[int, int, str]:
         """Create the live run, or find it again by ``client_key``; return (id, last_seq, state)."""
