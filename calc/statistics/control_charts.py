@@ -180,9 +180,18 @@ def individuals_limits(baseline: Sequence[float] | np.ndarray) -> ControlLimits:
     if x.size < BASELINE_ADVISED:
         warnings = (f"limits from {x.size} baseline points; about {BASELINE_ADVISED} in-control points are advised",)
     return ControlLimits(
-        centre=c, sigma=s, mr_bar=mr_bar, mr_ucl=D4 * mr_bar, n_baseline=int(x.size),
-        lower_3s=c - 3 * s, lower_2s=c - 2 * s, lower_1s=c - s, upper_1s=c + s, upper_2s=c + 2 * s,
-        upper_3s=c + 3 * s, warnings=warnings,
+        centre=c,
+        sigma=s,
+        mr_bar=mr_bar,
+        mr_ucl=D4 * mr_bar,
+        n_baseline=int(x.size),
+        lower_3s=c - 3 * s,
+        lower_2s=c - 2 * s,
+        lower_1s=c - s,
+        upper_1s=c + s,
+        upper_2s=c + 2 * s,
+        upper_3s=c + 3 * s,
+        warnings=warnings,
     )
 
 
@@ -197,6 +206,16 @@ class Violation:
 
 def _side(z: float) -> str:
     return "above" if z > 0 else "below"
+
+
+def _k_of_n_beyond(z: np.ndarray, i: int, k: int, n: int, limit: int) -> Violation | None:
+    """The rule "k of the n points up to point i lie beyond ``limit`` s on one side" (point i among them)."""
+    zi = float(z[i])
+    if i < n - 1 or abs(zi) <= limit or int(np.sum(np.sign(zi) * z[i - n + 1 : i + 1] > limit)) < k:
+        return None
+    p = i + 1  # 1-based for messages
+    where = f"{limit} s {_side(zi)} the centre line"
+    return Violation(i, f"{k}-of-{n}-beyond-{limit}s", f"{k} of points {p - n + 1}–{p} lie beyond {where}")
 
 
 def run_rules(values: Sequence[float] | np.ndarray, centre: float, sigma: float) -> list[Violation]:
@@ -236,19 +255,9 @@ def run_rules(values: Sequence[float] | np.ndarray, centre: float, sigma: float)
         p = i + 1  # 1-based for messages
         if abs(zi) > 3:
             out.append(Violation(i, "beyond-3s", f"point {p} lies {zi:+.2f} s from the centre line (beyond 3 s)"))
-        if i >= 2 and abs(zi) > 2:
-            w = z[i - 2 : i + 1]
-            if int(np.sum(np.sign(zi) * w > 2)) >= 2:
-                out.append(Violation(i, "2-of-3-beyond-2s",
-                                     f"2 of points {p - 2}–{p} lie beyond 2 s {_side(zi)} the centre line"))
-        if i >= 4 and abs(zi) > 1:
-            w = z[i - 4 : i + 1]
-            if int(np.sum(np.sign(zi) * w > 1)) >= 4:
-                out.append(Violation(i, "4-of-5-beyond-1s",
-                                     f"4 of points {p - 4}–{p} lie beyond 1 s {_side(zi)} the centre line"))
+        out.extend(v for v in (_k_of_n_beyond(z, i, 2, 3, 2), _k_of_n_beyond(z, i, 4, 5, 1)) if v is not None)
         if i >= 7 and sign[i] != 0 and np.all(sign[i - 7 : i + 1] == sign[i]):
-            out.append(Violation(i, "8-on-one-side",
-                                 f"points {p - 7}–{p} all lie {_side(zi)} the centre line"))
+            out.append(Violation(i, "8-on-one-side", f"points {p - 7}–{p} all lie {_side(zi)} the centre line"))
         if i >= 5:
             d = np.diff(x[i - 5 : i + 1])
             if np.all(d > 0) or np.all(d < 0):
@@ -268,8 +277,9 @@ class ControlChart:
     moving_range_violations: tuple[int, ...]  # indices i whose |x_i − x_{i−1}| exceeds D₄·MR̄
 
 
-def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Sequence[float],
-                  robust: bool = True) -> ControlChart:
+def control_chart(
+    values: Sequence[float] | np.ndarray, *, baseline: int | Sequence[float], robust: bool = True
+) -> ControlChart:
     """Build an individuals chart of ``values`` with limits from a baseline.
 
     Parameters
@@ -291,8 +301,9 @@ def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Seque
     x = _series(values, "control chart", 1)
     if isinstance(baseline, (int, np.integer)):
         if not 2 <= int(baseline) <= x.size:
-            raise InputError(f"control chart: the baseline must be 2 to {x.size} points, got {baseline}",
-                             field="baseline")
+            raise InputError(
+                f"control chart: the baseline must be 2 to {x.size} points, got {baseline}", field="baseline"
+            )
         base = x[: int(baseline)]
     else:
         base = _series(baseline, "control-chart baseline", 2)
@@ -301,13 +312,20 @@ def control_chart(values: Sequence[float] | np.ndarray, *, baseline: int | Seque
         base, aside = robust_start(base)
     limits = individuals_limits(base)
     if aside:
-        note = (f"{len(aside)} baseline point(s) set aside as gross errors (modified z-score > {ROBUST_Z:g}): "
-                + ", ".join(str(i + 1) for i in aside))
+        note = (
+            f"{len(aside)} baseline point(s) set aside as gross errors (modified z-score > {ROBUST_Z:g}): "
+            + ", ".join(str(i + 1) for i in aside)
+        )
         limits = dataclasses.replace(limits, set_aside=aside, warnings=limits.warnings + (note,))
     mr = np.abs(np.diff(x))
     mr_bad = tuple(int(i) + 1 for i in np.flatnonzero(mr > limits.mr_ucl))
-    return ControlChart(limits, tuple(float(v) for v in x), tuple(float(v) for v in mr),
-                        tuple(run_rules(x, limits.centre, limits.sigma)), mr_bad)
+    return ControlChart(
+        limits,
+        tuple(float(v) for v in x),
+        tuple(float(v) for v in mr),
+        tuple(run_rules(x, limits.centre, limits.sigma)),
+        mr_bad,
+    )
 
 
 # ------------------------------------------------------------------------ calibration

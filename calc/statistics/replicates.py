@@ -94,6 +94,21 @@ class SeriesSummary:
     U: float
 
 
+def _checked_type_b(type_b_u: float | None, type_b_dof: float, p: float) -> tuple[float, float]:
+    """Return (u_B, ν_B) of :func:`summarize_series` once ``p``, ``type_b_u`` and ``type_b_dof`` are checked."""
+    if not 0.0 < p < 1.0:
+        raise InputError(f"coverage probability must lie between 0 and 1, got {p!r}", field="p")
+    ub = 0.0 if type_b_u is None else float(type_b_u)
+    if not (ub >= 0.0 and math.isfinite(ub)):
+        raise InputError(
+            f"the shared Type B uncertainty must be a finite number ≥ 0, got {type_b_u!r}", field="type_b_u"
+        )
+    nu_b = float(type_b_dof)
+    if not nu_b > 0:
+        raise InputError(f"degrees of freedom must be > 0, got {type_b_dof!r}", field="type_b_dof")
+    return ub, nu_b
+
+
 def summarize_series(
     values: Sequence[float] | np.ndarray,
     *,
@@ -126,15 +141,7 @@ def summarize_series(
         For fewer than 2 results, a non-finite value, or a negative Type B uncertainty.
     """
     x = _series(values)
-    if not 0.0 < p < 1.0:
-        raise InputError(f"coverage probability must lie between 0 and 1, got {p!r}", field="p")
-    ub = 0.0 if type_b_u is None else float(type_b_u)
-    if not (ub >= 0.0 and math.isfinite(ub)):
-        raise InputError(f"the shared Type B uncertainty must be a finite number ≥ 0, got {type_b_u!r}",
-                         field="type_b_u")
-    nu_b = float(type_b_dof)
-    if not nu_b > 0:
-        raise InputError(f"degrees of freedom must be > 0, got {type_b_dof!r}", field="type_b_dof")
+    ub, nu_b = _checked_type_b(type_b_u, type_b_dof, p)
     n = int(x.size)
     mean = float(x.mean())
     sd = float(x.std(ddof=1))
@@ -146,8 +153,19 @@ def summarize_series(
     nu_eff = uc**4 / denom if denom > 0 else math.inf
     k = coverage_factor(nu_eff, p)
     return SeriesSummary(
-        n=n, mean=mean, sd=sd, u_mean=ua, dof=dof, t95=t, ci95=(mean - t * ua, mean + t * ua),
-        type_b_u=ub, type_b_dof=nu_b, u_combined=uc, dof_eff=nu_eff, k=k, U=k * uc,
+        n=n,
+        mean=mean,
+        sd=sd,
+        u_mean=ua,
+        dof=dof,
+        t95=t,
+        ci95=(mean - t * ua, mean + t * ua),
+        type_b_u=ub,
+        type_b_dof=nu_b,
+        u_combined=uc,
+        dof_eff=nu_eff,
+        k=k,
+        U=k * uc,
     )
 
 
@@ -237,6 +255,10 @@ def birge_ratio(values: Sequence[float] | np.ndarray, uncertainties: Sequence[fl
     chi2 = float(np.sum(w * (x - xw) ** 2))
     dof = int(x.size - 1)
     return BirgeResult(
-        ratio=math.sqrt(chi2 / dof), chi2=chi2, dof=dof, weighted_mean=xw,
-        u_weighted_mean=float(1.0 / math.sqrt(np.sum(w))), p_value=float(sps.chi2.sf(chi2, dof)),
+        ratio=math.sqrt(chi2 / dof),
+        chi2=chi2,
+        dof=dof,
+        weighted_mean=xw,
+        u_weighted_mean=float(1.0 / math.sqrt(np.sum(w))),
+        p_value=float(sps.chi2.sf(chi2, dof)),
     )
