@@ -135,11 +135,24 @@ def verdict(comparison: object) -> Verdict | None:
             return None
         en = (x - value) / denom
     diff = x - value
-    return Verdict(basis=basis, label=BASIS_LABELS[basis], reference=value, u_reference=u, U_reference=2.0 * u,
-                   measured=x, U_measured=U, difference=diff,
-                   relative_difference=diff / abs(value) if value else math.nan, En=en,
-                   satisfactory=abs(en) <= 1.0, unit=unit, published=pub, u_published=u_pub,
-                   En_published=en_pub, published_state=state)
+    return Verdict(
+        basis=basis,
+        label=BASIS_LABELS[basis],
+        reference=value,
+        u_reference=u,
+        U_reference=2.0 * u,
+        measured=x,
+        U_measured=U,
+        difference=diff,
+        relative_difference=diff / abs(value) if value else math.nan,
+        En=en,
+        satisfactory=abs(en) <= 1.0,
+        unit=unit,
+        published=pub,
+        u_published=u_pub,
+        En_published=en_pub,
+        published_state=state,
+    )
 
 
 def _number(x: object, what: str) -> float:
@@ -198,29 +211,45 @@ def compare(
     if U < 0:
         raise InputError(f"expanded uncertainty must not be negative, got {U_measured!r}")
     T = _number(T_K, "temperature")
+    result = _against_published(x, U, reference)
+    t_shift, t_u2 = _temperature_effect(reference, T, result.notes, result.adjustments)
+    m = _number(molality, "molality") if molality is not None else None
+    if m is not None and m < 0:
+        raise InputError(f"molality must not be negative, got {molality!r}")
+    d_shift, d_u2 = _dilution_effect(reference, m, T, result.notes, result.adjustments)
+    if result.adjustments:
+        _judge_at_conditions(result, 0.0 + t_shift + d_shift, reference.u**2 + t_u2 + d_u2)
+    return result
+
+
+def _against_published(x: float, U: float, reference: ReferenceValue) -> Comparison:
+    """Return the comparison of x ± U with the value as published (no notes yet)."""
     x_ref = reference.value
     U_ref = 2.0 * reference.u
     diff = x - x_ref
     rel = diff / abs(x_ref) if x_ref != 0.0 else math.nan
     En = _en(diff, U, U_ref)
-    notes: list[str] = []
-    adjustments: list[str] = []
-    t_shift, t_u2 = _temperature_effect(reference, T, notes, adjustments)
-    m = _number(molality, "molality") if molality is not None else None
-    if m is not None and m < 0:
-        raise InputError(f"molality must not be negative, got {molality!r}")
-    d_shift, d_u2 = _dilution_effect(reference, m, T, notes, adjustments)
-    result = Comparison(reference=reference, measured=x, U_measured=U, difference=diff, relative_difference=rel,
-                        En=En, satisfactory=abs(En) <= 1.0, notes=notes, U_reference=U_ref, adjustments=adjustments,
-                        basis="published", difference_published=diff, relative_difference_published=rel,
-                        En_published=En)
-    if adjustments:
-        _judge_at_conditions(result, 0.0 + t_shift + d_shift, reference.u**2 + t_u2 + d_u2)
-    return result
+    return Comparison(
+        reference=reference,
+        measured=x,
+        U_measured=U,
+        difference=diff,
+        relative_difference=rel,
+        En=En,
+        satisfactory=abs(En) <= 1.0,
+        notes=[],
+        U_reference=U_ref,
+        adjustments=[],
+        basis="published",
+        difference_published=diff,
+        relative_difference_published=rel,
+        En_published=En,
+    )
 
 
-def _temperature_effect(reference: ReferenceValue, T: float, notes: list[str],
-                        adjustments: list[str]) -> tuple[float, float]:
+def _temperature_effect(
+    reference: ReferenceValue, T: float, notes: list[str], adjustments: list[str]
+) -> tuple[float, float]:
     """Note the temperature difference; return the Kirchhoff shift (kJ/mol) and its variance (0 when none)."""
     dT = T - reference.temperature_K
     if abs(dT) < TEMPERATURE_NOTE_K:
@@ -234,21 +263,18 @@ def _temperature_effect(reference: ReferenceValue, T: float, notes: list[str],
     notes.append(
         f"{where}: by Kirchhoff's law (ΔCp = {reference.delta_cp * 1000:.1f} "
         f"J/(mol K)) the value at the run's temperature differs by {eff:+.3f} ± "
-        f"{u_eff:.3f} kJ/mol"
-        + (" (constant ΔCp assumed over more than 10 K)" if abs(dT) > FAR_TEMPERATURE_K else "")
+        f"{u_eff:.3f} kJ/mol" + (" (constant ΔCp assumed over more than 10 K)" if abs(dT) > FAR_TEMPERATURE_K else "")
     )
     adjustments.append(f"Kirchhoff {eff:+.3f} kJ/mol")
     return eff, u_eff**2
 
 
-def _dilution_effect(reference: ReferenceValue, m: float | None, T: float, notes: list[str],
-                     adjustments: list[str]) -> tuple[float, float]:
+def _dilution_effect(
+    reference: ReferenceValue, m: float | None, T: float, notes: list[str], adjustments: list[str]
+) -> tuple[float, float]:
     """Note the concentration difference; return the φ_L shift (kJ/mol) and its variance (0 when none)."""
     if reference.conditions and reference.molality is None:
-        notes.append(
-            f"the reference holds for: {reference.conditions}; compare only runs made "
-            "under these conditions"
-        )
+        notes.append(f"the reference holds for: {reference.conditions}; compare only runs made under these conditions")
     elif reference.formula is None:
         if reference.molality is None:
             notes.append(
@@ -259,14 +285,12 @@ def _dilution_effect(reference: ReferenceValue, m: float | None, T: float, notes
     elif m is None:
         state = "infinite dilution" if reference.molality is None else f"{reference.molality:g} mol/kg"
         notes.append(
-            f"the reference is at {state}; the run's molality is not known, so the "
-            "dilution effect cannot be judged"
+            f"the reference is at {state}; the run's molality is not known, so the dilution effect cannot be judged"
         )
     else:
         m_ref = reference.molality or 0.0
         if (reference.molality is None and m > 0.0) or (
-            reference.molality is not None
-            and abs(m - m_ref) > MOLALITY_NOTE_REL * max(m_ref, 1e-12)
+            reference.molality is not None and abs(m - m_ref) > MOLALITY_NOTE_REL * max(m_ref, 1e-12)
         ):
             ref_state = "infinite dilution" if reference.molality is None else f"{m_ref:g} mol/kg"
             at_run = phi_L(reference.formula, m, T)

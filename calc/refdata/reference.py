@@ -4,8 +4,10 @@ Data files (``calc/refdata/data``): ``solution_enthalpies.csv`` (tabulated Δsol
 dilution), ``certified.toml`` (SRM 1655 KCl, SRM 724a THAM), ``pitzer_enthalpy.csv``
 (Pitzer enthalpy parameters for φ_L), ``sources.toml`` (citations). Standard enthalpies
 of formation are in :mod:`calc.refdata.species` (Hess's law in :mod:`calc.refdata.hess`), the aqueous
-products of a solute in :mod:`calc.refdata.solutes` and φ_L in :mod:`calc.refdata.dilution`; the names this
-module has always exported (``phi_L``, ``dissolution_products`` ...) stay importable from here.
+products of a solute in :mod:`calc.refdata.solutes`, φ_L in :mod:`calc.refdata.dilution`, the neutralization
+references in :mod:`calc.refdata.neutralization` and :class:`ReferenceValue` in :mod:`calc.refdata.reference_value`;
+the names this module has always exported (``phi_L``, ``dissolution_products``, ``neutralization_reference``
+...) stay importable from here.
 
 All enthalpies are in kJ/mol, heat-capacity changes in kJ/(mol K).
 """
@@ -14,8 +16,6 @@ from __future__ import annotations
 
 import csv
 import tomllib
-from collections.abc import Iterable
-from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
@@ -25,7 +25,9 @@ from calc.refdata.datafiles import open_data
 from calc.refdata.dilution import PhiL, phi_L
 from calc.refdata.formula import element_composition, molar_mass
 from calc.refdata.hess import citation, formation_enthalpy, hess
-from calc.refdata.solutes import STRONG_ACIDS, dissolution_products, solute_formation_entry, strip_state
+from calc.refdata.neutralization import neutralization_reference
+from calc.refdata.reference_value import ReferenceValue, same_formula
+from calc.refdata.solutes import dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
     "ReferenceValue",
@@ -45,37 +47,6 @@ __all__ = [
 
 T_REF_K = 298.15
 QUANTITY_INF = "enthalpy of solution at infinite dilution"
-
-STRONG_BASES = {"NaOH", "KOH", "LiOH", "Ca(OH)2", "Ba(OH)2", "Sr(OH)2"}
-WEAK_ACIDS = {"CH3COOH": "CH3COO"}
-WEAK_BASES = {"NH3": "NH4"}
-_BASE_ALIASES = {"NH4OH": "NH3"}
-
-
-@dataclass(frozen=True)
-class ReferenceValue:
-    """A reference value with its conditions and source.
-
-    ``molality`` None means infinite dilution, unless ``conditions`` says otherwise.
-    """
-
-    name: str
-    quantity: str
-    value: float
-    u: float
-    unit: str
-    temperature_K: float
-    molality: float | None
-    source: str
-    delta_cp: float | None = None
-    delta_cp_u: float | None = None
-    formula: str | None = None
-    conditions: str | None = None
-    note: str = ""
-
-
-def _same_formula(a: str, b: str) -> bool:
-    return element_composition(a) == element_composition(b)
 
 
 # ---------------------------------------------------------------- solution enthalpies
@@ -221,80 +192,6 @@ def certified_references() -> list[ReferenceValue]:
     return [ref for ref, _, _ in _certified()]
 
 
-# ------------------------------------------------------------------- neutralization
-
-
-def _acid_species(acid: str) -> tuple[str, str] | None:
-    """Return (species consumed, conjugate species formed) for an acid, or None."""
-    return _species(strip_state(acid)[0], STRONG_ACIDS, "H+(aq)", WEAK_ACIDS, "-")
-
-
-def _base_species(base_formula: str) -> tuple[str, str] | None:
-    """Return (species consumed, conjugate species formed) for a base, or None."""
-    base = strip_state(base_formula)[0]
-    return _species(_BASE_ALIASES.get(base, base), STRONG_BASES, "OH-(aq)", WEAK_BASES, "+")
-
-
-def _species(name: str, strong: Iterable[str], strong_ion: str, weak: dict[str, str], charge: str) -> tuple[str, str] | None:
-    """Match ``name`` against the strong ones (consuming ``strong_ion``), then the weak ones (formula → conjugate)."""
-    if any(_same_formula(name, formula) for formula in strong):
-        return strong_ion, ""
-    for formula, conj in weak.items():
-        if _same_formula(name, formula):
-            return f"{formula}(aq)", f"{conj}{charge}(aq)"
-    return None
-
-
-def neutralization_reference(acid: str, base: str) -> ReferenceValue | None:
-    """Return the enthalpy of neutralization at infinite dilution for an acid and a base.
-
-    Strong acid + strong base gives H+(aq) + OH-(aq) -> H2O(l) per mole of water
-    formed, ΔrH° from the NBS 1982 table and ΔrCp from Singh et al. (1976). Acetic acid
-    and ammonia use their undissociated aqueous species. Returns None for an acid or
-    base cupcal does not know.
-    """
-    try:
-        a = _acid_species(acid)
-        b = _base_species(base)
-    except InputError:
-        return None
-    if a is None or b is None:
-        return None
-    (a_in, a_out), (b_in, b_out) = a, b
-    products = [p for p in (a_out, b_out) if p]
-    if b_in == "OH-(aq)":
-        products.append("H2O(l)")
-    equation = f"{a_in} + {b_in} -> " + " + ".join(products)
-    r = hess(equation)
-    per = "per mole of water formed" if "H2O(l)" in products else "per mole of H+ transferred"
-    dcp, dcp_u, dcp_note = r.delta_cp, r.delta_cp_u, "ΔrCp from the NBS 1982 Cp° values"
-    source = citation("NBS1982")
-    if products == ["H2O(l)"]:
-        dcp, dcp_u = 0.2152, 0.0045
-        dcp_note = "ΔrCp = +215.2 ± 4.5 J/(mol K) (Singh et al. 1976, ionization of water reversed)"
-        source += "; ΔrCp: " + citation("SINGH1976")
-    notes = [r.equation, dcp_note] + r.notes
-    if _same_formula(strip_state(acid)[0], "H2SO4"):
-        notes.append(
-            "H2SO4: at finite concentration much of the acid is HSO4-(aq); its ionization "
-            "(ΔrH° = -21.93 kJ/mol by the NBS 1982 table) makes measured values differ"
-        )
-    return ReferenceValue(
-        name=f"neutralization {strip_state(acid)[0]} + {strip_state(base)[0]}, infinite dilution",
-        quantity=f"enthalpy of neutralization at infinite dilution, {per}",
-        value=r.value,
-        u=r.u,
-        unit="kJ/mol",
-        temperature_K=T_REF_K,
-        molality=None,
-        source=source,
-        delta_cp=dcp,
-        delta_cp_u=dcp_u,
-        formula=None,
-        note="; ".join(notes),
-    )
-
-
 # ---------------------------------------------------------------------- find by name
 
 
@@ -319,8 +216,7 @@ def _by_name(name: str) -> ReferenceValue:
         if found is not None:
             return found
     raise InputError(
-        f"unknown reference {name!r}; known names: " + "; ".join(reference_names())
-        + "; or '<formula> dissolution'",
+        f"unknown reference {name!r}; known names: " + "; ".join(reference_names()) + "; or '<formula> dissolution'",
         field="reference.name",
     )
 
@@ -380,9 +276,19 @@ def reaction_lookup(*, formula: str | None, equation: str | None, **_: str | Non
                 return ref
     if equation:
         r = hess(equation)
-        return ReferenceValue(name=f"reaction {r.equation}", quantity="standard reaction enthalpy (Hess's law)",
-                              value=r.value, u=r.u, unit="kJ/mol", temperature_K=T_REF_K, molality=None,
-                              source=r.source, delta_cp=r.delta_cp, delta_cp_u=r.delta_cp_u, note="; ".join(r.notes))
+        return ReferenceValue(
+            name=f"reaction {r.equation}",
+            quantity="standard reaction enthalpy (Hess's law)",
+            value=r.value,
+            u=r.u,
+            unit="kJ/mol",
+            temperature_K=T_REF_K,
+            molality=None,
+            source=r.source,
+            delta_cp=r.delta_cp,
+            delta_cp_u=r.delta_cp_u,
+            note="; ".join(r.notes),
+        )
     return None
 
 
@@ -390,6 +296,6 @@ def _safe_same(a: str, b: str) -> bool:
     if a.strip().upper() in {"THAM", "TRIS"}:
         a = "C4H11NO3"
     try:
-        return _same_formula(strip_state(a)[0], b)
+        return same_formula(strip_state(a)[0], b)
     except InputError:
         return False
