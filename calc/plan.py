@@ -37,21 +37,36 @@ share of u²(ΔH), budget lines grouped by what they come from (:func:`equipment
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Required, TypedDict, Unpack
 
 from calc import limits
 from calc.errors import InputError
 from calc.io.quantities import Measured, parse_measured
 from calc.kinds import get_kind
 from calc.limits import require_number
+from calc.plan_amounts import Suggestion, suggest
 from calc.plan_design import AFTER_ADVISED_S, HOT_RISE_K, Design, Thermo, evaluate, plan_warnings, timing  # noqa: F401
+from calc.plan_equipment import EquipmentShare, equipment_of, equipment_shares
 from calc.plan_kinds import PLAN_KINDS, build_sections
 from calc.uncertainty.gum import BudgetLine, GumResult, propagate
 from calc.uncertainty.measurement_models import RunProperties
 
-__all__ = ["Plan", "Suggestion", "EquipmentShare", "plan_run", "equipment_of",
-           "PLANNED_KINDS", "MIN_DELTA_T_K", "MAX_DELTA_T_K", "RESOLUTION_MULTIPLE", "HOT_RISE_K"]
+__all__ = [
+    "Plan",
+    "Suggestion",
+    "EquipmentShare",
+    "plan_run",
+    "PlanInputs",
+    "PLAN_DEFAULTS",
+    "equipment_of",
+    "PLANNED_KINDS",
+    "MIN_DELTA_T_K",
+    "MAX_DELTA_T_K",
+    "RESOLUTION_MULTIPLE",
+    "HOT_RISE_K",
+]
 
 PLANNED_KINDS = tuple(PLAN_KINDS)
 MIN_DELTA_T_K = 1.0
@@ -62,59 +77,6 @@ RESOLUTION_MULTIPLE = 20.0
 DEFAULT_RELEASE_S = {k: v.release_s for k, v in PLAN_KINDS.items()}
 
 MeasuredLike = Measured | str
-
-#: Which piece of equipment (or which data) each model input stands for.
-_EQUIPMENT = {
-    "calorimeter.heat_capacity": "calorimeter heat capacity (its calibration)",
-    "delta_t.resolution_start": "thermometer resolution", "delta_t.resolution_end": "thermometer resolution",
-    "delta_t.drift_resolution": "thermometer resolution", "delta_t.model": "drift model (room, evaporation)",
-    "delta_t.fit": "thermometer noise (drift fits)", "acid.temperature": "thermometer noise (drift fits)",
-    "delta_t.method": "ΔT correction method", "delta_t.mixing_time": "mixing time",
-    "solute.mass": "balance", "reaction.mass": "balance", "solute.purity": "reagent purity",
-    "acid.concentration": "acid stock (standardisation)", "base.concentration": "base stock (standardisation)",
-    "base.temperature": "thermometer reading of the base before pouring",
-    "mixture.specific_heat_capacity": "property data (densities, heat capacity)",
-}
-
-
-def equipment_of(input_name: str) -> str:
-    """Return the piece of equipment (or data) that a model input's uncertainty comes from."""
-    if input_name in _EQUIPMENT:
-        return _EQUIPMENT[input_name]
-    if input_name.endswith(".volume"):
-        return "volumetric glassware"
-    if input_name.endswith(".density"):
-        return "property data (densities, heat capacity)"
-    return input_name
-
-
-@dataclass(frozen=True)
-class EquipmentShare:
-    """The share of u²(ΔH) that one piece of equipment (or data) carries."""
-
-    equipment: str
-    share: float
-    contribution: float  # √(Σ contributions²), in the result's unit
-    inputs: tuple[str, ...]
-
-
-@dataclass(frozen=True)
-class Suggestion:
-    """Amounts that keep |ΔT| in the useful window.
-
-    ``quantity`` is the run-file field changed (``solute.mass``, or the two stocks'
-    ``concentration`` scaled together for a neutralization); ``low``/``high`` give |ΔT| at the
-    window's edges and ``recommended`` the amount to use.
-    """
-
-    quantity: str
-    unit: str
-    current: float
-    low: float
-    high: float
-    recommended: float
-    predicted_delta_t: float
-    message: str
 
 
 @dataclass
@@ -177,154 +139,161 @@ def _amount(value: MeasuredLike | None, name: str, unit: str, u: float | None = 
 
 #: bounds of the planner's plain numbers (name → (least, greatest)); see calc.limits.PHYSICAL_BOUNDS
 _NUMBER_BOUNDS = {
-    "thermometer_resolution": limits.PHYSICAL_BOUNDS["resolution_K"], "thermometer_noise": (0.0, 10.0),
-    "temperature": (1.0, 1000.0), "interval": (1e-3, 1e5), "fore": (1.0, 1e6), "after": (1.0, 1e6),
-    "release_time": (1e-3, 1e5), "probe_time": (1e-3, 1e5), "balance_u": (0.0, 1e3), "volume_u": (0.0, 1e3),
+    "thermometer_resolution": limits.PHYSICAL_BOUNDS["resolution_K"],
+    "thermometer_noise": (0.0, 10.0),
+    "temperature": (1.0, 1000.0),
+    "interval": (1e-3, 1e5),
+    "fore": (1.0, 1e6),
+    "after": (1.0, 1e6),
+    "release_time": (1e-3, 1e5),
+    "probe_time": (1e-3, 1e5),
+    "balance_u": (0.0, 1e3),
+    "volume_u": (0.0, 1e3),
     "molar_enthalpy": (-1e5, 1e5),
 }
 
 
 def _number(value: float, name: str, *, positive: bool = True) -> float:
     low, high = _NUMBER_BOUNDS.get(name, (0.0, math.inf))
-    return require_number(value, name, field=name, minimum=low, maximum=high,
-                          exclusive_minimum=positive and low == 0.0)
+    return require_number(value, name, field=name, minimum=low, maximum=high, exclusive_minimum=positive and low == 0.0)
 
 
-def _solve_amount(design: Design, target: float) -> tuple[float, float]:
-    """Return (scale factor of the amount, ΔT) that gives |ΔT| = ``target``."""
-    factor, dT = 1.0, evaluate(design).dt.value
-    for _ in range(8):
-        if dT == 0:
-            break
-        new = factor * target / abs(dT)
-        dT = evaluate(design.scaled(new)).dt.value
-        if abs(new - factor) <= 1e-5 * new:
-            factor = new
-            break
-        factor = new
-    return factor, dT
+class PlanInputs(TypedDict, total=False):
+    """The keyword arguments of :func:`plan_run`; all but the first two have a default (``PLAN_DEFAULTS``).
+
+    An amount is a :class:`calc.io.quantities.Measured` or its text (``"3.00 g"``, ``"18 ± 2 J/K"``);
+    which amounts a kind takes is in :mod:`calc.plan_kinds`: e.g. ``"dissolution"`` (``formula``,
+    ``mass``, ``water_volume``); ``"neutralization"`` (``acid``, ``acid_concentration``, ``acid_volume``
+    in the cup, ``base``… poured in at ``base_temperature``, by default the start temperature); the
+    other kinds' in ``kind_inputs``.
+    """
+
+    #: with its uncertainty, e.g. ``"18 ± 2 J/K"`` (a calibration: the value it should find)
+    calorimeter_heat_capacity: Required[MeasuredLike]
+    #: resolution q, noise σ (a standard deviation) in K, and the lag-1 correlation φ of the noise
+    thermometer_resolution: Required[float]
+    thermometer_noise: float
+    noise_correlation: float
+    formula: str | None
+    mass: MeasuredLike | None
+    water_volume: MeasuredLike | None
+    acid: str | None
+    base: str | None
+    acid_concentration: MeasuredLike | None
+    base_concentration: MeasuredLike | None
+    acid_volume: MeasuredLike | None
+    base_volume: MeasuredLike | None
+    base_temperature: MeasuredLike | None
+    #: standard uncertainties (g, mL) of the balance and the glassware for amounts written without ``±``
+    #: (an explicit ``±`` wins; with neither, half a unit of the last digit)
+    balance_u: float | None
+    volume_u: float | None
+    #: start (room) temperature, K
+    temperature: float
+    #: (low, high) useful |ΔT| in K; None: (max(1 K, 20 q), 10 K)
+    delta_t_window: tuple[float, float] | None
+    #: reading interval, fore period, log length after mixing, release time constant τ_r (None: the
+    #: kind's, 60 s dissolution, 5 s neutralization) and probe time constant, in seconds
+    interval: float
+    fore: float
+    after: float
+    release_time: float | None
+    probe_time: float
+    #: expected ΔH in kJ/mol, when the reference library has none (or to override it)
+    molar_enthalpy: float | None
+    kind_inputs: dict[str, Any] | None
 
 
-def _suggest(design: Design, dT: float, window: tuple[float, float]) -> Suggestion | None:
-    lo, hi = window
-    if lo >= hi:
-        return None
-    quantity, current, unit = design.amount()
-    try:
-        f_lo, _ = _solve_amount(design, lo)
-        f_hi, _ = _solve_amount(design, hi)
-    except InputError:  # the amounts for the window pass the physical bounds (calc.limits): no suggestion
-        return None
-    a = abs(dT)
-    if lo <= a <= hi:
-        rec, rec_dt = 1.0, dT
-        msg = f"|ΔT| = {a:.2f} K is inside the useful window {lo:g}–{hi:g} K"
-    else:
-        target = lo * 1.25 if a < lo else hi * 0.8
-        target = min(max(target, lo), hi)
-        try:
-            rec, rec_dt = _solve_amount(design, target)
-        except InputError:
-            return None
-        why = "too small against the thermometer and the drift" if a < lo else "too large (far from room temperature)"
-        msg = f"|ΔT| = {a:.2f} K is {why}: use about {current * rec:.3g} {unit} for |ΔT| ≈ {abs(rec_dt):.2f} K"
-    return Suggestion(quantity, unit, current, current * f_lo, current * f_hi, current * rec, rec_dt, msg)
+#: The inputs passed on to the kind's ``plan_sections`` hook (with the checked ``molar_enthalpy``).
+_AMOUNTS: tuple[str, ...] = ("formula", "mass", "water_volume", "acid", "base", "acid_concentration")
+_AMOUNTS += ("base_concentration", "acid_volume", "base_volume", "base_temperature", "balance_u", "volume_u")
+_REQUIRED = ("calorimeter_heat_capacity", "thermometer_resolution")
+#: The defaults of :class:`PlanInputs` (every key but the required two; the amounts: none).
+PLAN_DEFAULTS: dict[str, Any] = {
+    **dict.fromkeys(_AMOUNTS),
+    "thermometer_noise": 0.005,
+    "noise_correlation": 0.0,
+    "temperature": 295.15,
+    "delta_t_window": None,
+    "interval": 2.0,
+    "fore": 180.0,
+    "after": 900.0,
+    "release_time": None,
+    "probe_time": 5.0,
+    "molar_enthalpy": None,
+    "kind_inputs": None,
+}
 
 
-def _equipment(budget: list[BudgetLine]) -> list[EquipmentShare]:
-    groups: dict[str, list[BudgetLine]] = {}
-    for b in budget:
-        groups.setdefault(equipment_of(b.name), []).append(b)
-    out = [EquipmentShare(k, sum(b.share for b in v), math.sqrt(sum(b.contribution**2 for b in v)),
-                          tuple(b.name for b in v)) for k, v in groups.items()]
-    return sorted(out, key=lambda e: -e.share)
-
-
-def plan_run(
-    kind: str, *, calorimeter_heat_capacity: MeasuredLike, thermometer_resolution: float,
-    thermometer_noise: float = 0.005, noise_correlation: float = 0.0,
-    formula: str | None = None, mass: MeasuredLike | None = None, water_volume: MeasuredLike | None = None,
-    acid: str | None = None, base: str | None = None, acid_concentration: MeasuredLike | None = None,
-    base_concentration: MeasuredLike | None = None, acid_volume: MeasuredLike | None = None,
-    base_volume: MeasuredLike | None = None, base_temperature: MeasuredLike | None = None,
-    balance_u: float | None = None, volume_u: float | None = None, temperature: float = 295.15,
-    delta_t_window: tuple[float, float] | None = None, interval: float = 2.0, fore: float = 180.0,
-    after: float = 900.0, release_time: float | None = None, probe_time: float = 5.0,
-    molar_enthalpy: float | None = None, kind_inputs: dict[str, Any] | None = None,
-) -> Plan:
+def plan_run(kind: str, **inputs: Unpack[PlanInputs]) -> Plan:
     """Predict a run's temperature change and the uncertainty of its ΔH before it is made.
 
-    Parameters
-    ----------
-    kind:
-        A kind with a ``plan_sections`` hook (:mod:`calc.kinds`), its amounts as in :mod:`calc.plan_kinds`:
-        e.g. ``"dissolution"`` (``formula``, ``mass``, ``water_volume``); ``"neutralization"`` (``acid``,
-        ``acid_concentration``, ``acid_volume`` in the cup, ``base``… poured in at ``base_temperature``,
-        by default the start temperature); others in ``kind_inputs``.
-    calorimeter_heat_capacity:
-        With its uncertainty, e.g. ``"18 ± 2 J/K"``.
-    thermometer_resolution, thermometer_noise, noise_correlation:
-        Resolution q and noise σ in K (a standard deviation); lag-1 correlation φ of the noise.
-    balance_u, volume_u:
-        Standard uncertainties (g, mL) of the balance and the glassware for amounts written
-        without ``±`` (an explicit ``±`` wins; with neither, half a unit of the last digit).
-    temperature:
-        Start (room) temperature in K.
-    delta_t_window:
-        (low, high) useful |ΔT| in K; default (max(1 K, 20 q), 10 K).
-    interval, fore, after, release_time, probe_time:
-        Reading interval, fore period, log length after mixing, release time constant τ_r (default
-        60 s dissolution, 5 s neutralization) and probe time constant, in seconds.
-    molar_enthalpy:
-        Expected ΔH in kJ/mol, when the reference library has none (or to override it).
+    ``kind`` is a kind with a ``plan_sections`` hook (:mod:`calc.kinds`); the ``inputs`` are
+    described in :class:`PlanInputs`.
 
     Raises
     ------
+    TypeError
+        For an input :class:`PlanInputs` does not name, or a required one left out.
     InputError
         For an unknown kind, a missing or wrongly dimensioned input (naming it), or a substance
         without a reference value and no ``molar_enthalpy``.
     """
+    p = _with_defaults(inputs)
     if kind not in PLANNED_KINDS:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLANNED_KINDS)}", field="kind")
-    th, T0, molar_enthalpy = _checked_numbers(kind, thermometer_resolution, thermometer_noise, noise_correlation,
-                                              temperature, molar_enthalpy, balance_u, volume_u,
-                                              (interval, fore, after, release_time, probe_time))
-    params = dict(formula=formula, mass=mass, water_volume=water_volume, acid=acid, base=base,
-                  acid_concentration=acid_concentration, base_concentration=base_concentration,
-                  acid_volume=acid_volume, base_volume=base_volume, base_temperature=base_temperature,
-                  balance_u=balance_u, volume_u=volume_u, molar_enthalpy=molar_enthalpy, **(kind_inputs or {}))
-    ev = evaluate(design := _design(kind, calorimeter_heat_capacity, params, T0, th, molar_enthalpy))
+    th, T0, molar_enthalpy = _checked_numbers(kind, p)
+    params = dict(**{name: p[name] for name in _AMOUNTS}, molar_enthalpy=molar_enthalpy, **(p["kind_inputs"] or {}))
+    ev = evaluate(design := _design(kind, p["calorimeter_heat_capacity"], params, T0, th, molar_enthalpy))
     gum: GumResult = propagate(ev.model.inputs, ev.model.model, ev.model.main)
-    return _plan(design, ev, gum, _window(delta_t_window, th.q))
+    return _plan(design, ev, gum, _window(p["delta_t_window"], th.q))
 
 
-def _checked_numbers(kind: str, q: float, sigma: float, phi: Any, temperature: float, molar_enthalpy: float | None,
-                     balance_u: float | None, volume_u: float | None,
-                     times: tuple[float, float, float, float | None, float]) -> tuple[Thermo, float, float | None]:
+def _with_defaults(inputs: Mapping[str, Any]) -> dict[str, Any]:
+    """Return ``inputs`` with the defaults of the ones left out; TypeError as for a call with a wrong keyword."""
+    unknown = sorted(set(inputs) - set(PLAN_DEFAULTS) - set(_REQUIRED))
+    if unknown:
+        raise TypeError(f"plan_run() got an unexpected keyword argument {unknown[0]!r}")
+    missing = [name for name in _REQUIRED if name not in inputs]
+    if missing:
+        raise TypeError(f"plan_run() missing required keyword argument(s): {', '.join(map(repr, missing))}")
+    return {**PLAN_DEFAULTS, **inputs}
+
+
+def _checked_numbers(kind: str, p: Mapping[str, Any]) -> tuple[Thermo, float, float | None]:
     """Return the thermometer and timing, the start temperature and the expected ΔH, each within its bounds."""
-    q = _number(q, "thermometer_resolution")
-    sigma = _number(sigma, "thermometer_noise", positive=False)
+    q = _number(p["thermometer_resolution"], "thermometer_resolution")
+    sigma = _number(p["thermometer_noise"], "thermometer_noise", positive=False)
+    phi = p["noise_correlation"]
     if not isinstance(phi, (int, float)) or not 0.0 <= phi < 0.95:
         raise InputError(f"expected a noise correlation between 0 and 0.95, got {phi!r}", field="noise_correlation")
-    T0 = _number(temperature, "temperature")
+    T0 = _number(p["temperature"], "temperature")
+    molar_enthalpy = p["molar_enthalpy"]
     if molar_enthalpy is not None:
         molar_enthalpy = _number(molar_enthalpy, "molar_enthalpy", positive=False)
-    for name, value in (("balance_u", balance_u), ("volume_u", volume_u)):
-        if value is not None:
-            _number(value, name, positive=False)
-    interval, fore, after, release_time, probe_time = times
-    tau_r = DEFAULT_RELEASE_S[kind] if release_time is None else release_time
-    th = Thermo(q, sigma, float(phi), *(_number(v, n) for v, n in (
-        (interval, "interval"), (fore, "fore"), (after, "after"), (tau_r, "release_time"), (probe_time, "probe_time"))))
+    for name in ("balance_u", "volume_u"):
+        if p[name] is not None:
+            _number(p[name], name, positive=False)
+    tau_r = DEFAULT_RELEASE_S[kind] if p["release_time"] is None else p["release_time"]
+    times = (p["interval"], p["fore"], p["after"], tau_r, p["probe_time"])
+    names = ("interval", "fore", "after", "release_time", "probe_time")
+    th = Thermo(q, sigma, float(phi), *(_number(v, n) for v, n in zip(times, names)))
     return th, T0, molar_enthalpy
 
 
-def _design(kind: str, calorimeter_heat_capacity: MeasuredLike, params: dict[str, Any], T0: float, th: Thermo,
-            molar_enthalpy: float | None) -> Design:
+def _design(
+    kind: str,
+    calorimeter_heat_capacity: MeasuredLike,
+    params: dict[str, Any],
+    T0: float,
+    th: Thermo,
+    molar_enthalpy: float | None,
+) -> Design:
     """Return the planned run: the calorimeter (or a calibration's expected value) and the kind's amounts."""
     cal = _measured(calorimeter_heat_capacity, "calorimeter_heat_capacity", "J/K")
-    built, substances = build_sections(kind, params, _amount, _measured, T0,
-                                       math.sqrt(th.q * th.q / 12.0 + th.sigma * th.sigma))
+    built, substances = build_sections(
+        kind, params, _amount, _measured, T0, math.sqrt(th.q * th.q / 12.0 + th.sigma * th.sigma)
+    )
     sections: dict[str, dict[str, Any]] = {}
     expected_cal = None
     if get_kind(kind).is_calibration:
@@ -343,8 +312,9 @@ def _window(delta_t_window: tuple[float, float] | None, q: float) -> tuple[float
         return (max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q), MAX_DELTA_T_K)
     window = (float(delta_t_window[0]), float(delta_t_window[1]))
     if not 0 < window[0] < window[1] <= 1000.0:
-        raise InputError(f"expected a window 0 < low < high in K, got {delta_t_window!r} (at most 1000 K)",
-                         field="delta_t_window")
+        raise InputError(
+            f"expected a window 0 < low < high in K, got {delta_t_window!r} (at most 1000 K)", field="delta_t_window"
+        )
     return window
 
 
@@ -354,17 +324,35 @@ def _plan(design: Design, ev: Any, gum: GumResult, window: tuple[float, float]) 
 
     dT = ev.dt.value
     warnings = plan_warnings(design, ev, gum, window)
-    suggestion = _suggest(design, dT, window)
-    equipment = _equipment(gum.budget)
+    suggestion = suggest(design, dT, window)
+    equipment = equipment_shares(gum.budget)
     return Plan(
-        kind=design.kind, predicted_delta_t=dT, predicted_u_delta_t=ev.dt.u,
-        delta_t_components={"fit": ev.dt.u_fit, "resolution_start": ev.dt.u_resolution_start,
-                            "resolution_end": ev.dt.u_resolution_end, "method": ev.dt.u_method,
-                            "drift_resolution": ev.dt.u_drift_resolution},
-        predicted_result=gum.values[ev.model.main], predicted_u=gum.uncertainties[ev.model.main],
-        predicted_U=gum.expanded_uncertainty, coverage_factor=gum.coverage_factor, dof_eff=gum.dof_eff,
-        result_unit=ev.model.main_unit, expected_note=ev.note, start_temperature_K=design.T0, window=window,
-        budget=gum.budget, equipment=equipment, limiting=equipment[0].equipment if equipment else "",
-        suggestion=suggestion, warnings=warnings, cautions=cautions_for(design.substances), properties=ev.props,
-        run_file=design.run_file(), timing=timing(design.thermo, design.two_solution),
+        kind=design.kind,
+        predicted_delta_t=dT,
+        predicted_u_delta_t=ev.dt.u,
+        delta_t_components={
+            "fit": ev.dt.u_fit,
+            "resolution_start": ev.dt.u_resolution_start,
+            "resolution_end": ev.dt.u_resolution_end,
+            "method": ev.dt.u_method,
+            "drift_resolution": ev.dt.u_drift_resolution,
+        },
+        predicted_result=gum.values[ev.model.main],
+        predicted_u=gum.uncertainties[ev.model.main],
+        predicted_U=gum.expanded_uncertainty,
+        coverage_factor=gum.coverage_factor,
+        dof_eff=gum.dof_eff,
+        result_unit=ev.model.main_unit,
+        expected_note=ev.note,
+        start_temperature_K=design.T0,
+        window=window,
+        budget=gum.budget,
+        equipment=equipment,
+        limiting=equipment[0].equipment if equipment else "",
+        suggestion=suggestion,
+        warnings=warnings,
+        cautions=cautions_for(design.substances),
+        properties=ev.props,
+        run_file=design.run_file(),
+        timing=timing(design.thermo, design.two_solution),
     )

@@ -5,28 +5,53 @@ from __future__ import annotations
 import json
 import math
 import sys
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import click
 
 from calc.errors import CupcalError, InputError
 from calc.kinds import plannable_kinds
 
+if TYPE_CHECKING:  # imported on use, so that `cupcal --help` stays fast
+    from calc.plan import Plan
+
 __all__ = ["plan_command", "plan_record", "format_plan"]
 
 #: Parameter names of :func:`calc.plan.plan_run` → the command-line option that sets them.
 _OPTION_OF = {
-    "formula": "--formula", "mass": "--mass", "water_volume": "--water", "acid": "--acid", "base": "--base",
-    "acid_concentration": "--acid-concentration", "base_concentration": "--base-concentration",
-    "acid_volume": "--acid-volume", "base_volume": "--base-volume", "base_temperature": "--base-temperature",
-    "calorimeter_heat_capacity": "--calorimeter", "thermometer_resolution": "--resolution",
-    "thermometer_noise": "--noise", "noise_correlation": "--noise-correlation", "temperature": "--temperature",
-    "interval": "--interval", "fore": "--fore", "after": "--after", "release_time": "--release-time",
-    "probe_time": "--probe-time", "molar_enthalpy": "--enthalpy", "delta_t_window": "--min-change/--max-change",
-    "balance_u": "--balance", "volume_u": "--glassware",
-    "solute.formula": "--formula", "acid.formula": "--acid", "base.formula": "--base",
-    "heater_voltage": "--heater-voltage", "heater_current": "--heater-current", "heater_duration": "--heater-time",
-    "warm_volume": "--warm-volume", "warm_temperature": "--warm-temperature", "coefficient": "--coefficient",
+    "formula": "--formula",
+    "mass": "--mass",
+    "water_volume": "--water",
+    "acid": "--acid",
+    "base": "--base",
+    "acid_concentration": "--acid-concentration",
+    "base_concentration": "--base-concentration",
+    "acid_volume": "--acid-volume",
+    "base_volume": "--base-volume",
+    "base_temperature": "--base-temperature",
+    "calorimeter_heat_capacity": "--calorimeter",
+    "thermometer_resolution": "--resolution",
+    "thermometer_noise": "--noise",
+    "noise_correlation": "--noise-correlation",
+    "temperature": "--temperature",
+    "interval": "--interval",
+    "fore": "--fore",
+    "after": "--after",
+    "release_time": "--release-time",
+    "probe_time": "--probe-time",
+    "molar_enthalpy": "--enthalpy",
+    "delta_t_window": "--min-change/--max-change",
+    "balance_u": "--balance",
+    "volume_u": "--glassware",
+    "solute.formula": "--formula",
+    "acid.formula": "--acid",
+    "base.formula": "--base",
+    "heater_voltage": "--heater-voltage",
+    "heater_current": "--heater-current",
+    "heater_duration": "--heater-time",
+    "warm_volume": "--warm-volume",
+    "warm_temperature": "--warm-temperature",
+    "coefficient": "--coefficient",
     "reaction.limiting_reagent": "--formula",
 }
 
@@ -44,36 +69,61 @@ def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
 
 
-def plan_record(plan: Any) -> dict[str, Any]:
+def plan_record(plan: Plan) -> dict[str, Any]:
     """Return a plan as a JSON-ready dict."""
     s = plan.suggestion
     return {
         "kind": plan.kind,
-        "predicted_delta_t": {"value": plan.predicted_delta_t, "standard_uncertainty": plan.predicted_u_delta_t,
-                              "unit": "K", "components": plan.delta_t_components},
-        "molar_enthalpy": {"value": plan.predicted_result, "standard_uncertainty": plan.predicted_u,
-                           "unit": plan.result_unit},
+        "predicted_delta_t": {
+            "value": plan.predicted_delta_t,
+            "standard_uncertainty": plan.predicted_u_delta_t,
+            "unit": "K",
+            "components": plan.delta_t_components,
+        },
+        "molar_enthalpy": {
+            "value": plan.predicted_result,
+            "standard_uncertainty": plan.predicted_u,
+            "unit": plan.result_unit,
+        },
         "expanded_uncertainty": plan.predicted_U,
         "coverage_factor": plan.coverage_factor,
         "degrees_of_freedom": _num(plan.dof_eff),
         "expected_from": plan.expected_note,
         "window_K": list(plan.window),
         "limiting": plan.limiting,
-        "equipment": [{"equipment": e.equipment, "share": e.share, "contribution": e.contribution,
-                       "inputs": list(e.inputs)} for e in plan.equipment],
+        "equipment": [
+            {"equipment": e.equipment, "share": e.share, "contribution": e.contribution, "inputs": list(e.inputs)}
+            for e in plan.equipment
+        ],
         "budget": [b.as_dict() for b in plan.budget],
-        "suggestion": None if s is None else {
-            "quantity": s.quantity, "unit": s.unit, "current": s.current, "low": s.low, "high": s.high,
-            "recommended": s.recommended, "predicted_delta_t": s.predicted_delta_t, "message": s.message},
+        "suggestion": None
+        if s is None
+        else {
+            "quantity": s.quantity,
+            "unit": s.unit,
+            "current": s.current,
+            "low": s.low,
+            "high": s.high,
+            "recommended": s.recommended,
+            "predicted_delta_t": s.predicted_delta_t,
+            "message": s.message,
+        },
         "warnings": list(plan.warnings),
-        "cautions": [{"substance": c.substance, "signal_word": c.signal_word,
-                      "hazard_statements": list(c.hazard_statements), "pictograms": list(c.pictograms),
-                      "note": c.note} for c in plan.cautions],
+        "cautions": [
+            {
+                "substance": c.substance,
+                "signal_word": c.signal_word,
+                "hazard_statements": list(c.hazard_statements),
+                "pictograms": list(c.pictograms),
+                "note": c.note,
+            }
+            for c in plan.cautions
+        ],
         "run_file": plan.run_file,
     }
 
 
-def format_plan(plan: Any) -> str:
+def format_plan(plan: Plan) -> str:
     """Return the human-readable plan."""
     from calc import formatting as fmt
 
@@ -82,12 +132,16 @@ def format_plan(plan: Any) -> str:
     lines = [f"Plan of {article} {plan.kind} run", ""]
     lines.append(f"  expected {label:<8} {fmt.like(plan.predicted_result, plan.predicted_U, plan.result_unit)}")
     lines.append(f"                    from {plan.expected_note}")
-    lines.append(f"  predicted ΔT      {fmt.measured(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
-                 f"(start {fmt.temperature(plan.start_temperature_K)}; useful |ΔT| "
-                 f"{fmt.number(plan.window[0], trim=True)} to {fmt.number(plan.window[1], 'K', trim=True)})")
+    lines.append(
+        f"  predicted ΔT      {fmt.measured(plan.predicted_delta_t, plan.predicted_u_delta_t, 'K')}  "
+        f"(start {fmt.temperature(plan.start_temperature_K)}; useful |ΔT| "
+        f"{fmt.number(plan.window[0], trim=True)} to {fmt.number(plan.window[1], 'K', trim=True)})"
+    )
     rel = plan.predicted_U / abs(plan.predicted_result) if plan.predicted_result else None
-    lines.append(f"  predicted {label:<7} {fmt.measured(plan.predicted_result, plan.predicted_U, plan.result_unit)}  "
-                 f"(U at 95 %, k = {fmt.fixed(plan.coverage_factor, 2)}; {fmt.percent(rel)})")
+    lines.append(
+        f"  predicted {label:<7} {fmt.measured(plan.predicted_result, plan.predicted_U, plan.result_unit)}  "
+        f"(U at 95 %, k = {fmt.fixed(plan.coverage_factor, 2)}; {fmt.percent(rel)})"
+    )
     lines.append("")
     lines.append(f"what limits the result (share of u²({label})):")
     for e in plan.equipment:
@@ -98,8 +152,10 @@ def format_plan(plan: Any) -> str:
         s = plan.suggestion
         lines.append("")
         lines.append(f"amount: {s.message}")
-        lines.append(f"  {s.quantity}: {fmt.number(s.low)} to {fmt.number(s.high, s.unit)} keeps |ΔT| in the "
-                     f"window; recommended {fmt.number(s.recommended, s.unit)}")
+        lines.append(
+            f"  {s.quantity}: {fmt.number(s.low)} to {fmt.number(s.high, s.unit)} keeps |ΔT| in the "
+            f"window; recommended {fmt.number(s.recommended, s.unit)}"
+        )
     if plan.warnings:
         lines.append("")
         lines.append("warnings:")
@@ -172,8 +228,13 @@ def _given_quantity(text: str, option: str, unit: str, *, bare: bool = True) -> 
 @click.option("--heater-time", help='Time the heater is on, e.g. "120.0 ± 0.2 s" (electrical-calibration).')
 @click.option("--warm-volume", help='Warm water poured in, e.g. "50.0 mL" (mixing-calibration).')
 @click.option("--warm-temperature", help='Warm water temperature, e.g. "45.0 ± 0.1 degC" (mixing-calibration).')
-@click.option("--coefficient", type=int, default=1, show_default=True,
-              help="Stoichiometric coefficient of the limiting reagent (reaction).")
+@click.option(
+    "--coefficient",
+    type=int,
+    default=1,
+    show_default=True,
+    help="Stoichiometric coefficient of the limiting reagent (reaction).",
+)
 @click.option("--acid", help="Acid in the cup, e.g. HCl (neutralization).")
 @click.option("--base", help="Base poured in, e.g. NaOH (neutralization).")
 @click.option("--acid-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
@@ -181,12 +242,20 @@ def _given_quantity(text: str, option: str, unit: str, *, bare: bool = True) -> 
 @click.option("--acid-volume", help='Acid in the cup, e.g. "50.0 mL".')
 @click.option("--base-volume", help='Base poured in, e.g. "50.0 mL".')
 @click.option("--base-temperature", help="Temperature of the base before pouring (default: the start temperature).")
-@click.option("--calorimeter", required=True,
-              help='Calorimeter heat capacity, e.g. "18 ± 2 J/K" (for a calibration: the value it should find).')
+@click.option(
+    "--calorimeter",
+    required=True,
+    help='Calorimeter heat capacity, e.g. "18 ± 2 J/K" (for a calibration: the value it should find).',
+)
 @click.option("--resolution", required=True, help='Thermometer resolution, e.g. "0.01 K".')
 @click.option("--noise", default="0.005 K", show_default=True, help="Thermometer noise (standard deviation).")
-@click.option("--noise-correlation", type=float, default=0.0, show_default=True,
-              help="Lag-1 correlation of the noise (0 to 0.95).")
+@click.option(
+    "--noise-correlation",
+    type=float,
+    default=0.0,
+    show_default=True,
+    help="Lag-1 correlation of the noise (0 to 0.95).",
+)
 @click.option("--balance", help='Balance standard uncertainty for masses written without ±, e.g. "0.0002 g".')
 @click.option("--glassware", help='Glassware standard uncertainty for volumes written without ±, e.g. "0.1 mL".')
 @click.option("--temperature", default="22 degC", show_default=True, help="Start (room) temperature.")
@@ -210,33 +279,8 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
     --heater-voltage, --heater-current, --heater-time); mixing-calibration (--water,
     --warm-volume, --warm-temperature); reaction (--formula, --mass, --water, --enthalpy).
     """
-    from calc.plan import MIN_DELTA_T_K, RESOLUTION_MULTIPLE, plan_run
-
     try:
-        q = temperature_difference_K(opts["resolution"], "--resolution")
-        window = (temperature_difference_K(opts["min_change"], "--min-change") if opts["min_change"] is not None
-                  else max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q),
-                  temperature_difference_K(opts["max_change"], "--max-change"))
-        seconds = {name: _given_quantity(opts[name], "--" + name, "s") for name in ("interval", "fore", "after")}
-        release_time = _quantity(opts["release_time"], "--release-time", "s")  # no default: by the kind
-        probe_time = _given_quantity(opts["probe_time"], "--probe-time", "s")
-        plan = plan_run(
-            kind,
-            formula=opts["formula"], mass=opts["mass"], water_volume=opts["water"], acid=opts["acid"],
-            base=opts["base"], acid_concentration=opts["acid_concentration"],
-            base_concentration=opts["base_concentration"], acid_volume=opts["acid_volume"],
-            base_volume=opts["base_volume"], base_temperature=opts["base_temperature"],
-            calorimeter_heat_capacity=opts["calorimeter"], thermometer_resolution=q,
-            thermometer_noise=temperature_difference_K(opts["noise"], "--noise"),
-            noise_correlation=opts["noise_correlation"], balance_u=_quantity(opts["balance"], "--balance", "g"),
-            volume_u=_quantity(opts["glassware"], "--glassware", "mL"),
-            temperature=_given_quantity(opts["temperature"], "--temperature", "K", bare=False),
-            delta_t_window=window, molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"),
-            release_time=release_time, probe_time=probe_time, **seconds,
-            kind_inputs={"heater_voltage": opts["heater_voltage"], "heater_current": opts["heater_current"],
-                         "heater_duration": opts["heater_time"], "warm_volume": opts["warm_volume"],
-                         "warm_temperature": opts["warm_temperature"], "coefficient": opts["coefficient"]},
-        )
+        plan = _plan(kind, opts)
     except CupcalError as exc:
         click.echo(f"cupcal plan: error: {_message(exc)}", err=True)
         sys.exit(2)
@@ -244,3 +288,52 @@ def plan_command(kind: str, as_json: bool, **opts: Any) -> None:
         click.echo(json.dumps(plan_record(plan), ensure_ascii=False))
     else:
         click.echo(format_plan(plan))
+
+
+def _plan(kind: str, opts: dict[str, Any]) -> Plan:
+    """Return the plan of a ``kind`` run from the command's options (text with units, parsed here)."""
+    from calc.plan import MIN_DELTA_T_K, RESOLUTION_MULTIPLE, plan_run
+
+    q = temperature_difference_K(opts["resolution"], "--resolution")
+    window = (
+        temperature_difference_K(opts["min_change"], "--min-change")
+        if opts["min_change"] is not None
+        else max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q),
+        temperature_difference_K(opts["max_change"], "--max-change"),
+    )
+    seconds = {name: _given_quantity(opts[name], "--" + name, "s") for name in ("interval", "fore", "after")}
+    release_time = _quantity(opts["release_time"], "--release-time", "s")  # no default: by the kind
+    probe_time = _given_quantity(opts["probe_time"], "--probe-time", "s")
+    return plan_run(
+        kind,
+        formula=opts["formula"],
+        mass=opts["mass"],
+        water_volume=opts["water"],
+        acid=opts["acid"],
+        base=opts["base"],
+        acid_concentration=opts["acid_concentration"],
+        base_concentration=opts["base_concentration"],
+        acid_volume=opts["acid_volume"],
+        base_volume=opts["base_volume"],
+        base_temperature=opts["base_temperature"],
+        calorimeter_heat_capacity=opts["calorimeter"],
+        thermometer_resolution=q,
+        thermometer_noise=temperature_difference_K(opts["noise"], "--noise"),
+        noise_correlation=opts["noise_correlation"],
+        balance_u=_quantity(opts["balance"], "--balance", "g"),
+        volume_u=_quantity(opts["glassware"], "--glassware", "mL"),
+        temperature=_given_quantity(opts["temperature"], "--temperature", "K", bare=False),
+        delta_t_window=window,
+        molar_enthalpy=_quantity(opts["enthalpy"], "--enthalpy", "kJ/mol"),
+        release_time=release_time,
+        probe_time=probe_time,
+        **seconds,
+        kind_inputs={
+            "heater_voltage": opts["heater_voltage"],
+            "heater_current": opts["heater_current"],
+            "heater_duration": opts["heater_time"],
+            "warm_volume": opts["warm_volume"],
+            "warm_temperature": opts["warm_temperature"],
+            "coefficient": opts["coefficient"],
+        },
+    )
