@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any, cast
@@ -32,8 +32,8 @@ from calc.limits import require_number
 from calc.referencing import attach_reference, run_reference
 from calc.result import OUTPUT_UNITS, Analysis
 from calc.run_warnings import kind_warnings, monte_carlo_warning, wide_interval_warning
-from calc.uncertainty.gum import monte_carlo, propagate
-from calc.uncertainty.measurement_models import build_model
+from calc.uncertainty.gum import GumResult, monte_carlo, propagate
+from calc.uncertainty.measurement_models import ModelSpec, RunProperties, build_model
 
 __all__ = ["Analysis", "analyze_run", "analyze_spec", "OUTPUT_UNITS"]
 
@@ -60,11 +60,16 @@ def confined_readings(readings: Path, folder: Path, source: str) -> Path:
         target = readings.resolve()
         inside = target.is_relative_to(folder.resolve())
     except (OSError, ValueError, RuntimeError):  # a NUL byte in the path, a symlink loop
-        raise InputError("is not a usable path; expected a readings file beside the run file",
-                         source=source, field="readings") from None
+        raise InputError(
+            "is not a usable path; expected a readings file beside the run file", source=source, field="readings"
+        ) from None
     if not inside:
-        raise InputError("must name a file in the run file's folder (or below it), "
-                         f"got {limits.shorten(str(readings.name))!r} outside it", source=source, field="readings")
+        raise InputError(
+            "must name a file in the run file's folder (or below it), "
+            f"got {limits.shorten(str(readings.name))!r} outside it",
+            source=source,
+            field="readings",
+        )
     return target
 
 
@@ -102,10 +107,12 @@ def analyze_run(
     check_options(monte_carlo_trials, seed)
     spec = load_run(path, source=src)
     rsrc = os.path.join(os.path.dirname(src), limits.shorten(str(spec.raw.get("readings"))))
-    readings = read_readings(confined_readings(spec.readings_path, Path(path).parent, src), source=rsrc,
-                             column=spec.temperature_column)
-    return analyze_spec(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
-                        with_reference=with_reference)
+    readings = read_readings(
+        confined_readings(spec.readings_path, Path(path).parent, src), source=rsrc, column=spec.temperature_column
+    )
+    return analyze_spec(
+        spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed, with_reference=with_reference
+    )
 
 
 def analyze_spec(
@@ -133,38 +140,82 @@ def analyze_spec(
     """
     check_options(monte_carlo_trials, seed, fore, after)
     kind = get_kind(spec.kind)
-    analyze = kind.hook("analyze")
+    analyze: Callable[..., Analysis] | None = kind.hook("analyze")
     if analyze is not None:  # a kind with an analysis of its own (the in-situ calibration)
-        return cast("Analysis", analyze(spec, readings, method=method, monte_carlo_trials=monte_carlo_trials, seed=seed,
-                              fore=fore, after=after, with_reference=with_reference,
-                       calorimeter_type=calorimeter_type, history=history))
+        return analyze(
+            spec,
+            readings,
+            method=method,
+            monte_carlo_trials=monte_carlo_trials,
+            seed=seed,
+            fore=fore,
+            after=after,
+            with_reference=with_reference,
+            calorimeter_type=calorimeter_type,
+            history=history,
+        )
     try:
         prep, periods, dt = _corrected_delta_t(spec, readings, method, fore, after, mixing_time)
         props = resolve_properties(spec, dt)
         model = build_model(spec, dt, props)
         gum = propagate(model.inputs, model.model, model.main)
     except OverflowError:  # a drift fit of a few readings whose uncertainty is beyond any float
-        raise AnalysisError(f"{readings.source}: the drift fits do not pin down the temperature change (their "
-                            "uncertainty overflows); is the after period long enough?") from None
-    warnings: list[str] = [*prep.warnings, *dt.warnings, *props.warnings, *kind_warnings(spec, dt, gum, model),
-                           *wide_interval_warning(gum, model.main)]
+        raise AnalysisError(
+            f"{readings.source}: the drift fits do not pin down the temperature change (their "
+            "uncertainty overflows); is the after period long enough?"
+        ) from None
+    warnings = _warnings(spec, prep, dt, props, model, gum)
     mc = None
     if monte_carlo_trials and monte_carlo_trials > 0:
         mc = monte_carlo(model.inputs, model.model, model.main, gum, trials=monte_carlo_trials, seed=seed)
         warnings.extend(monte_carlo_warning(mc, kind.main_unit))
-    analysis = Analysis(spec, readings, periods, dt, model, gum, props, mc, warnings,
-                        rejected=prep.rejected, gaps=prep.gaps)
-    if with_reference:
-        attach_reference(analysis)
-    analysis.checks = run_checks(analysis, calorimeter_type=calorimeter_type, history=history,
-                                 reference=run_reference(spec) if analysis.main == "molar_enthalpy" else None,
-                                 composition=lambda: final_composition(spec, props))
+    analysis = Analysis(
+        spec, readings, periods, dt, model, gum, props, mc, warnings, rejected=prep.rejected, gaps=prep.gaps
+    )
+    _judge(analysis, with_reference, calorimeter_type, history)
     return analysis
 
 
-def _corrected_delta_t(spec: RunSpec, readings: Readings, method: str | None, fore: tuple[float, float] | None,
-                       after: tuple[float, float] | None,
-                       mixing_time: tuple[float, float] | None) -> tuple[PreparedLog, Periods, DeltaT]:
+def _warnings(
+    spec: RunSpec, prep: PreparedLog, dt: DeltaT, props: RunProperties, model: ModelSpec, gum: GumResult
+) -> list[str]:
+    """Return the warnings of every step: the log, ΔT, the properties, the kind's own, the interval's width."""
+    return [
+        *prep.warnings,
+        *dt.warnings,
+        *props.warnings,
+        *kind_warnings(spec, dt, gum, model),
+        *wide_interval_warning(gum, model.main),
+    ]
+
+
+def _judge(
+    analysis: Analysis,
+    with_reference: bool,
+    calorimeter_type: str | None,
+    history: Sequence[tuple[float, float]] | None,
+) -> None:
+    """Set the result against its reference (when asked) and run the plausibility checks on it."""
+    spec = analysis.spec
+    if with_reference:
+        attach_reference(analysis)
+    analysis.checks = run_checks(
+        analysis,
+        calorimeter_type=calorimeter_type,
+        history=history,
+        reference=run_reference(spec) if analysis.main == "molar_enthalpy" else None,
+        composition=lambda: final_composition(spec, analysis.properties),
+    )
+
+
+def _corrected_delta_t(
+    spec: RunSpec,
+    readings: Readings,
+    method: str | None,
+    fore: tuple[float, float] | None,
+    after: tuple[float, float] | None,
+    mixing_time: tuple[float, float] | None,
+) -> tuple[PreparedLog, Periods, DeltaT]:
     """Return the prepared log, its periods and the corrected ΔT with every budget term."""
     two = get_kind(spec.kind).two_solution
     prep = prepare_log(readings.time_s, readings.temperature_K, resolution=spec.resolution_K, lines=readings.lines)
@@ -174,13 +225,23 @@ def _corrected_delta_t(spec: RunSpec, readings: Readings, method: str | None, fo
         t_mix, u_mix = spec.mixing_time.m_as("s"), spec.mixing_time.u_as("s")
     else:
         t_mix, u_mix = None, 0.0
-    periods = find_periods(prep.t, prep.y, resolution=spec.resolution_K, mixing_time=t_mix, u_mixing_time=u_mix,
-                           fore=fore or spec.fore_period, after=after or spec.after_period, two_solution=two,
-                           source=readings.source, lines=prep.lines)
+    periods = find_periods(
+        prep.t,
+        prep.y,
+        resolution=spec.resolution_K,
+        mixing_time=t_mix,
+        u_mixing_time=u_mix,
+        fore=fore or spec.fore_period,
+        after=after or spec.after_period,
+        two_solution=two,
+        source=readings.source,
+        lines=prep.lines,
+    )
     duration = _heater_duration(spec)
     if duration is not None:
-        periods = heater_periods(prep.t, periods, duration, source=readings.source,
-                                 after_given=(after or spec.after_period) is not None)
+        periods = heater_periods(
+            prep.t, periods, duration, source=readings.source, after_given=(after or spec.after_period) is not None
+        )
     log = Log(prep.t, prep.y, periods, spec.resolution_K, two_solution=two)
     method_name = method or spec.method or DEFAULT_METHOD
     dt = corrected_delta_t(log, method_name)
@@ -199,8 +260,7 @@ def _heater_duration(spec: RunSpec) -> float | None:
     return cast("float | None", spec.get("heater", "duration").m_as("s"))
 
 
-def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, duration: float,
-                   method: str) -> DeltaT:
+def _with_lag_term(dt: DeltaT, t: Any, y: Any, periods: Periods, spec: RunSpec, duration: float, method: str) -> DeltaT:
     """Widen ΔT's method term when the after period starts soon after the heater stops."""
 
     def redo(after: tuple[float, float]) -> float:
@@ -222,8 +282,11 @@ def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> N
         u_dis, diff = inadequacy_term(log, dt)
         dt.u_model = math.hypot(u_dis, room_drift_term(log, dt, METHODS[method_name]))
         if dt.u_model**2 > 0.5 * dt.u**2:
-            why = (f"the after period alone gives a ΔT {diff:+.3g} K different" if u_dis > 0
-                   else "the main period is long, so an unseen change of the room temperature weighs heavily")
+            why = (
+                f"the after period alone gives a ΔT {diff:+.3g} K different"
+                if u_dis > 0
+                else "the main period is long, so an unseen change of the room temperature weighs heavily"
+            )
             dt.warnings.append(
                 f"the drift model's inadequacy dominates the uncertainty of ΔT ({why}); check for a changing "
                 "room temperature, evaporation or a heating stirrer, and keep the main period short"

@@ -97,12 +97,7 @@ def insitu_periods(spec: RunSpec, readings: Readings) -> tuple[Periods, list[Eve
         window between them holds too few readings.
     """
     t, y, src = readings.time_s, readings.temperature_K, readings.source
-    heaters = [(name, *times) for name in HEATERS if (times := _heater_times(spec, name)) is not None]
-    for name, start, duration in heaters:
-        if not (t[0] < start and start + duration < t[-1]):
-            raise InputError(f"the heater pulse {start:g}–{start + duration:g} s does not lie inside the log "
-                             f"({t[0]:g} to {t[-1]:g} s); give {name}.start on the log's clock",
-                             field=f"{name}.start", source=src)
+    heaters = _heaters(spec, t, src)
     first_heater = min(h[1] for h in heaters)
     t_m, u_tm, detected = _mixing_time(spec, t, y, first_heater, src)
     events: list[tuple[str, float, float]] = [("dissolution", t_m, math.nan)]
@@ -121,41 +116,87 @@ def insitu_periods(spec: RunSpec, readings: Readings) -> tuple[Periods, list[Eve
             raise InputError(
                 f"only {window.size} readings between the end of the {name.replace('_', ' ')} (settled at "
                 f"{t_f:.0f} s) and {what}; at least {MIN_WINDOW_POINTS} are needed: leave 3–5 minutes of steady "
-                "drift between the events", field=_field_of(name, i + 1 == len(events)), source=src)
+                "drift between the events",
+                field=_field_of(name, i + 1 == len(events)),
+                source=src,
+            )
         out.append(Event(name, start, float(window[0])))
-    fore = spec.fore_period or (float(t[0]), float(t[t < out[0].start - 1e-9][-1]))
-    windows = [fore] + [(e.main_end, float(t[t < out[i + 1].start - 1e-9][-1]) if i + 1 < len(out) else float(t[-1]))
-                        for i, e in enumerate(out)]
+    windows = _drift_windows(spec, t, out, src)
+    diss = next(e for e in out if e.name == "dissolution")
+    periods = Periods(
+        fore=windows[0],
+        after=windows[-1],
+        mixing_time=t_m,
+        u_mixing_time=u_tm,
+        mixing_time_detected=detected,
+        main_end=diss.main_end,
+    )
+    return periods, out, windows
+
+
+def _heaters(spec: RunSpec, t: np.ndarray, src: str) -> list[tuple[str, float, float]]:
+    """Return (name, start s, duration s) of each heater pulse, once checked to lie inside the log."""
+    heaters = [(name, *times) for name in HEATERS if (times := _heater_times(spec, name)) is not None]
+    for name, start, duration in heaters:
+        if not (t[0] < start and start + duration < t[-1]):
+            raise InputError(
+                f"the heater pulse {start:g}–{start + duration:g} s does not lie inside the log "
+                f"({t[0]:g} to {t[-1]:g} s); give {name}.start on the log's clock",
+                field=f"{name}.start",
+                source=src,
+            )
+    return heaters
+
+
+def _drift_windows(spec: RunSpec, t: np.ndarray, events: list[Event], src: str) -> list[tuple[float, float]]:
+    """Return the drift windows: the fore period, one after each settled event (the last: the after period)."""
+    fore = spec.fore_period or (float(t[0]), float(t[t < events[0].start - 1e-9][-1]))
+    windows = [fore] + [
+        (e.main_end, float(t[t < events[i + 1].start - 1e-9][-1]) if i + 1 < len(events) else float(t[-1]))
+        for i, e in enumerate(events)
+    ]
     if spec.after_period is not None:
-        if spec.after_period[0] < out[-1].main_end - 1e-9:
-            raise InputError(f"after_period starts at {spec.after_period[0]:g} s, before the last event has settled "
-                             f"({out[-1].main_end:g} s)", field="after_period", source=src)
+        if spec.after_period[0] < events[-1].main_end - 1e-9:
+            raise InputError(
+                f"after_period starts at {spec.after_period[0]:g} s, before the last event has settled "
+                f"({events[-1].main_end:g} s)",
+                field="after_period",
+                source=src,
+            )
         windows[-1] = spec.after_period
     if np.count_nonzero((t >= windows[0][0]) & (t <= windows[0][1])) < MIN_WINDOW_POINTS:
-        raise InputError(f"too few readings before the first event at {out[0].start:g} s; at least "
-                         f"{MIN_WINDOW_POINTS} are needed (3–5 minutes are advised)", field="fore_period", source=src)
-    diss = next(e for e in out if e.name == "dissolution")
-    periods = Periods(fore=windows[0], after=windows[-1], mixing_time=t_m, u_mixing_time=u_tm,
-                      mixing_time_detected=detected, main_end=diss.main_end)
-    return periods, out, windows
+        raise InputError(
+            f"too few readings before the first event at {events[0].start:g} s; at least "
+            f"{MIN_WINDOW_POINTS} are needed (3–5 minutes are advised)",
+            field="fore_period",
+            source=src,
+        )
+    return windows
 
 
 def _field_of(name: str, last: bool) -> str:
     return f"{name}.start" if name != "dissolution" else ("mixing_time" if not last else "after_period")
 
 
-def _mixing_time(spec: RunSpec, t: np.ndarray, y: np.ndarray, first_heater: float,
-                 src: str) -> tuple[float, float, bool]:
+def _mixing_time(
+    spec: RunSpec, t: np.ndarray, y: np.ndarray, first_heater: float, src: str
+) -> tuple[float, float, bool]:
     if spec.mixing_time is not None:
         t_m = spec.mixing_time.m_as("s")
         if not t[0] < t_m < t[-1]:
-            raise InputError(f"mixing_time {t_m:g} s lies outside the log ({t[0]:g} s to {t[-1]:g} s)",
-                             field="mixing_time", source=src)
+            raise InputError(
+                f"mixing_time {t_m:g} s lies outside the log ({t[0]:g} s to {t[-1]:g} s)",
+                field="mixing_time",
+                source=src,
+            )
         return t_m, spec.mixing_time.u_as("s"), False
     before = t < first_heater
     if np.count_nonzero(before) < 3 * MIN_WINDOW_POINTS:
-        raise InputError("the heater comes first or too early to find the dissolution in the log; give "
-                         "mixing_time in the run file", field="mixing_time", source=src)
+        raise InputError(
+            "the heater comes first or too early to find the dissolution in the log; give mixing_time in the run file",
+            field="mixing_time",
+            source=src,
+        )
     t_m, u = detect_mixing_time(t[before], y[before], spec.resolution_K)
     return t_m, u, True
 
@@ -166,13 +207,20 @@ def _dissolution_end(t: np.ndarray, y: np.ndarray, t_m: float, nxt: float, spec:
     try:
         p = find_periods(t[keep], y[keep], resolution=spec.resolution_K, mixing_time=t_m, source=src)
     except InputError:
-        raise InputError(f"too few readings between the dissolution at {t_m:g} s and the next event at {nxt:g} s: "
-                         "leave 5–10 minutes for the dissolution to finish and the drift to settle",
-                         field="mixing_time", source=src) from None
+        raise InputError(
+            f"too few readings between the dissolution at {t_m:g} s and the next event at {nxt:g} s: "
+            "leave 5–10 minutes for the dissolution to finish and the drift to settle",
+            field="mixing_time",
+            source=src,
+        ) from None
     if any(w.startswith("the log ends too soon") for w in p.warnings):
-        raise InputError(f"the heater starts at {nxt:g} s, before the dissolution at {t_m:g} s has finished and its "
-                         "drift has settled: switch the heater on later (about 10 release time constants and 3–5 "
-                         "minutes of steady drift after the dissolution)", field="mixing_time", source=src)
+        raise InputError(
+            f"the heater starts at {nxt:g} s, before the dissolution at {t_m:g} s has finished and its "
+            "drift has settled: switch the heater on later (about 10 release time constants and 3–5 "
+            "minutes of steady drift after the dissolution)",
+            field="mixing_time",
+            source=src,
+        )
     return p.main_end
 
 
@@ -184,8 +232,9 @@ def _window_model(params: np.ndarray, j: int, t: np.ndarray, c: float, t_ref: fl
     return cast(np.ndarray, level + (a - k * (level - t_ref)) * decay_integral(k, t - c))
 
 
-def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[float, float]],
-               resolution: float) -> SharedFit:
+def shared_fit(
+    readings: Readings, events: list[Event], windows: list[tuple[float, float]], resolution: float
+) -> SharedFit:
     """Fit one Newtonian drift law to every window and return each event's corrected ΔT."""
     t, y = readings.time_s, readings.temperature_K
     masks = [(t >= a - 1e-9) & (t <= b + 1e-9) for a, b in windows]
@@ -206,17 +255,7 @@ def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[floa
     r = resid(p)
     jac = sol.jac
     n, npar = r.size, p.size
-    omega, start, rhos, sds = np.empty(n), 0, [], []
-    for j in range(len(tw)):
-        rj = r[start:start + tw[j].size]
-        rho = lag1_autocorrelation(rj)
-        var = inflation(rho) * float(np.dot(rj, rj)) / max(rj.size - npar / len(tw), 1.0)
-        # a staircase of readings scatters less than its quantisation error: floor at q²/12 (GUM F.2.2.1)
-        var = max(var, resolution**2 / 12.0)
-        omega[start:start + rj.size] = var
-        rhos.append(rho)
-        sds.append(math.sqrt(float(np.dot(rj, rj)) / max(rj.size - 2, 1)))
-        start += rj.size
+    omega, rhos, sds = _window_noise(r, [w.size for w in tw], npar, resolution)
     try:
         a_inv = np.linalg.inv(jac.T @ jac)
         cov = a_inv @ (jac.T @ (jac * omega[:, None])) @ a_inv
@@ -227,8 +266,7 @@ def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[floa
         f = _event_delta_t(t, y, ev, i, refs, t_ref)
         values.append(f(p))
         grads.append(_gradient(f, p, cov))
-        levels.append((float(_window_model(p, i, np.array([ev.start]), refs[i], t_ref)[0]),
-                       float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])))
+        levels.append(_event_levels(p, i, ev, refs, t_ref))
         inner = (t > ev.start) & (t < ev.main_end)
         extra.append(_inner_weights(t[inner], ev.start, ev.main_end))
     g = np.array(grads)
@@ -238,8 +276,44 @@ def shared_fit(readings: Readings, events: list[Event], windows: list[tuple[floa
     for i, w in enumerate(extra):  # the readings inside each main period carry their own noise
         cov_dt[i, i] += (k * s) ** 2 * float(np.dot(w, w))
     res_u = [resolution_term(resolution, sd) for sd in sds]
-    return SharedFit(list(windows), list(events), p, cov, t_ref, np.array(values), cov_dt, levels, res_u,
-                     float(np.sqrt(float(np.dot(r, r)) / max(n - npar, 1))), max(rhos))
+    return SharedFit(
+        list(windows),
+        list(events),
+        p,
+        cov,
+        t_ref,
+        np.array(values),
+        cov_dt,
+        levels,
+        res_u,
+        float(np.sqrt(float(np.dot(r, r)) / max(n - npar, 1))),
+        max(rhos),
+    )
+
+
+def _window_noise(
+    r: np.ndarray, sizes: list[int], npar: int, resolution: float
+) -> tuple[np.ndarray, list[float], list[float]]:
+    """Return each reading's noise variance (AR(1)-inflated, per window), each window's ρ and residual sd."""
+    omega, start, rhos, sds = np.empty(r.size), 0, [], []
+    for size in sizes:
+        rj = r[start : start + size]
+        rho = lag1_autocorrelation(rj)
+        var = inflation(rho) * float(np.dot(rj, rj)) / max(rj.size - npar / len(sizes), 1.0)
+        # a staircase of readings scatters less than its quantisation error: floor at q²/12 (GUM F.2.2.1)
+        var = max(var, resolution**2 / 12.0)
+        omega[start : start + rj.size] = var
+        rhos.append(rho)
+        sds.append(math.sqrt(float(np.dot(rj, rj)) / max(rj.size - 2, 1)))
+        start += rj.size
+    return omega, rhos, sds
+
+
+def _event_levels(p: np.ndarray, i: int, ev: Event, refs: list[float], t_ref: float) -> tuple[float, float]:
+    """Return the drift law's levels at event i's start (window i) and at its settled end (window i + 1), K."""
+    t_i = float(_window_model(p, i, np.array([ev.start]), refs[i], t_ref)[0])
+    t_f = float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])
+    return t_i, t_f
 
 
 def _inner_weights(tt: np.ndarray, a: float, b: float) -> np.ndarray:
@@ -264,8 +338,7 @@ def _event_delta_t(
     inner_sum = float(np.dot(w, yy))
 
     def f(p: np.ndarray) -> float:
-        t_i = float(_window_model(p, i, np.array([ev.start]), refs[i], t_ref)[0])
-        t_f = float(_window_model(p, i + 1, np.array([ev.main_end]), refs[i + 1], t_ref)[0])
+        t_i, t_f = _event_levels(p, i, ev, refs, t_ref)
         a, k = p[-2], p[-1]
         integral_t = inner_sum + w_a * t_i + w_b * t_f
         return cast(float, (t_f - t_i) - (a * span - k * (integral_t - t_ref * span)))

@@ -28,6 +28,7 @@ __all__ = [
     "ModelSpec",
     "RunProperties",
     "build_model",
+    "measured_input",
     "dissolution_model",
     "neutralization_model",
     "electrical_model",
@@ -84,14 +85,10 @@ class ModelSpec:
     extra: dict[str, Any] = field(default_factory=dict)
 
 
-def _q(name: str, m: Measured, unit: str, label: str) -> Input:
+def measured_input(name: str, m: Measured, unit: str, label: str) -> Input:
+    """Return the input ``name`` of a run-file quantity in ``unit`` (normal when stated so, else rectangular)."""
     dist = "normal" if m.distribution == "normal" else "rectangular"
     return Input(name, m.m_as(unit), m.u_as(unit), unit, dist, label=label)
-
-
-def _t(name: str, m: Measured, label: str) -> Input:
-    dist = "normal" if m.distribution == "normal" else "rectangular"
-    return Input(name, m.m_as("K"), m.u_as("K"), "K", dist, label=label)
 
 
 def _prop(name: str, props: RunProperties, label: str) -> Input:
@@ -180,7 +177,7 @@ def _dT(x: Mapping[str, Any]) -> Any:
 
 def _cal_input(spec: RunSpec) -> Input:
     m = spec.get("calorimeter", "heat_capacity")
-    return _q("calorimeter.heat_capacity", m, "J/K", "calorimeter heat capacity")
+    return measured_input("calorimeter.heat_capacity", m, "J/K", "calorimeter heat capacity")
 
 
 # ---------------------------------------------------------------- builders
@@ -191,15 +188,15 @@ def dissolution_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelS
     M = molar_mass(formula, field="solute.formula", source=spec.source)
     purity = spec.get("solute", "purity")
     inputs = [
-        _q("water.volume", spec.get("water", "volume"), "mL", "water volume"),
+        measured_input("water.volume", spec.get("water", "volume"), "mL", "water volume"),
         _prop("water.density", props, "water density"),
-        _q("solute.mass", spec.get("solute", "mass"), "g", f"mass of {formula}"),
+        measured_input("solute.mass", spec.get("solute", "mass"), "g", f"mass of {formula}"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the solution"),
         _cal_input(spec),
         *_dt_inputs(dt),
     ]
     if purity is not None:
-        inputs.append(_q("solute.purity", purity, "", "solute purity (mass fraction)"))
+        inputs.append(measured_input("solute.purity", purity, "", "solute purity (mass fraction)"))
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         m_soln = x["water.volume"] * x["water.density"] + x["solute.mass"]
@@ -242,13 +239,13 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
     eq_a = _equivalents(spec, "acid")
     eq_b = _equivalents(spec, "base")
     inputs = [
-        _q("acid.concentration", spec.get("acid", "concentration"), "mol/L", "acid concentration"),
-        _q("acid.volume", spec.get("acid", "volume"), "mL", "acid volume"),
+        measured_input("acid.concentration", spec.get("acid", "concentration"), "mol/L", "acid concentration"),
+        measured_input("acid.volume", spec.get("acid", "volume"), "mL", "acid volume"),
         _prop("acid.density", props, "acid density"),
-        _q("base.concentration", spec.get("base", "concentration"), "mol/L", "base concentration"),
-        _q("base.volume", spec.get("base", "volume"), "mL", "base volume"),
+        measured_input("base.concentration", spec.get("base", "concentration"), "mol/L", "base concentration"),
+        measured_input("base.volume", spec.get("base", "volume"), "mL", "base volume"),
         _prop("base.density", props, "base density"),
-        _t("base.temperature", spec.get("base", "temperature"), "base temperature before pouring"),
+        measured_input("base.temperature", spec.get("base", "temperature"), "K", "base temperature before pouring"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
         _cal_input(spec),
         _start_input("acid.temperature", dt, "acid temperature at mixing (fore drift line)"),
@@ -288,10 +285,10 @@ def neutralization_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> Mod
 
 def electrical_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     inputs = [
-        _q("heater.voltage", spec.get("heater", "voltage"), "V", "heater voltage"),
-        _q("heater.current", spec.get("heater", "current"), "A", "heater current"),
-        _q("heater.duration", spec.get("heater", "duration"), "s", "heating time"),
-        _q("water.volume", spec.get("water", "volume"), "mL", "water volume"),
+        measured_input("heater.voltage", spec.get("heater", "voltage"), "V", "heater voltage"),
+        measured_input("heater.current", spec.get("heater", "current"), "A", "heater current"),
+        measured_input("heater.duration", spec.get("heater", "duration"), "s", "heating time"),
+        measured_input("water.volume", spec.get("water", "volume"), "mL", "water volume"),
         _prop("water.density", props, "water density"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
         *_dt_inputs(dt),
@@ -308,11 +305,16 @@ def electrical_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSp
 
 def mixing_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec:
     inputs = [
-        _q("water.volume", spec.get("water", "volume"), "mL", "cool water volume"),
+        measured_input("water.volume", spec.get("water", "volume"), "mL", "cool water volume"),
         _prop("water.density", props, "cool water density"),
-        _q("warm_water.volume", spec.get("warm_water", "volume"), "mL", "warm water volume"),
+        measured_input("warm_water.volume", spec.get("warm_water", "volume"), "mL", "warm water volume"),
         _prop("warm_water.density", props, "warm water density"),
-        _t("warm_water.temperature", spec.get("warm_water", "temperature"), "warm water temperature before pouring"),
+        measured_input(
+            "warm_water.temperature",
+            spec.get("warm_water", "temperature"),
+            "K",
+            "warm water temperature before pouring",
+        ),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of water"),
         _start_input("water.temperature", dt, "cool water temperature at mixing (fore drift line)"),
         *_dt_inputs(dt, start_apart=True),
@@ -338,20 +340,20 @@ def reaction_model(spec: RunSpec, dt: DeltaT, props: RunProperties) -> ModelSpec
     nu = int(r.get("coefficient", 1))
     solute = spec.sections.get("solute")
     inputs = [
-        _q("solution.volume", spec.get("solution", "volume"), "mL", "solution volume"),
+        measured_input("solution.volume", spec.get("solution", "volume"), "mL", "solution volume"),
         _prop("solution.density", props, "solution density"),
         _prop("mixture.specific_heat_capacity", props, "specific heat capacity of the final solution"),
         _cal_input(spec),
         *_dt_inputs(dt),
     ]
     if solute is not None:
-        inputs.append(_q("solute.mass", solute["mass"], "g", f"mass of {solute['formula']}"))
+        inputs.append(measured_input("solute.mass", solute["mass"], "g", f"mass of {solute['formula']}"))
     if "amount" in r:
-        inputs.append(_q("reaction.amount", r["amount"], "mol", "amount of limiting reagent"))
+        inputs.append(measured_input("reaction.amount", r["amount"], "mol", "amount of limiting reagent"))
         M = None
     else:
         M = molar_mass(r["limiting_reagent"], field="reaction.limiting_reagent", source=spec.source)
-        inputs.append(_q("reaction.mass", r["mass"], "g", f"mass of {r['limiting_reagent']}"))
+        inputs.append(measured_input("reaction.mass", r["mass"], "g", f"mass of {r['limiting_reagent']}"))
 
     def model(x: Mapping[str, Any]) -> dict[str, Any]:
         m = x["solution.volume"] * x["solution.density"]
