@@ -14,7 +14,7 @@ from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.kinds import WATER_CP, WATER_DENSITY, _release_kw, _solid_in_liquid, formula_molar_mass
+from calc.simulation.liquids import WATER_CP, WATER_DENSITY, formula_molar_mass, release_kw, solid_in_liquid
 from calc.simulation.model import LumpedModel, read_probe
 from calc.simulation.run import RunContext, RunOptions, SimTruth, SimulatedRun, _decimals
 
@@ -57,7 +57,7 @@ def simulate_dissolution_with_calibration(
     first = pulses in ("before", "both")
     options = {**options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
     ctx = RunContext(KIND, rng, options)
-    s = _solid_in_liquid(
+    s = solid_in_liquid(
         ctx,
         table="water",
         volume=water_volume_mL,
@@ -68,17 +68,10 @@ def simulate_dissolution_with_calibration(
         solid_cp=0.8,
         mixture_cp=None,
     )
-    n = s["m_s"] / formula_molar_mass(formula, "solute.formula")
+    n = s.m_s / formula_molar_mass(formula, "solute.formula")
     heat = -n * molar_enthalpy_kJ_mol * 1000.0
-    g_before, g_after = ctx.conductances(s["c_final"])
-    model = ctx.model(
-        c_before=s["c_before"],
-        g_before=g_before,
-        c_after=s["c_final"],
-        g_after=g_after,
-        heat_J=heat,
-        **_release_kw(release, tau_r, t_d),
-    )
+    g_before, g_after = ctx.conductances(s.c_final)
+    model = s.model(ctx, heat, release_kw(release, tau_r, t_d))
     o = ctx.o
     v, i, dur = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A"), ctx.true(duration_s, "duration_s")
     starts = ([("before", round(fore0, 1))] if first else []) + (
@@ -88,11 +81,11 @@ def simulate_dissolution_with_calibration(
     count = int(math.floor((end + tail_s) / o["dt"] + 1e-9)) + 1
     times = np.round(np.arange(count) * o["dt"], 9)
     contents, probe = model.solve(times)
-    body = s["body"]
+    body = s.body
     body.pop("calorimeter", None)
     body.pop("mixture", None)  # the heater measures the heat capacity: no solution model is stated
     for j, (when, t_h) in enumerate(starts):
-        c, g = (s["c_before"], g_before) if when == "before" else (s["c_final"], g_after)
+        c, g = (s.c_before, g_before) if when == "before" else (s.c_final, g_after)
         pulse = {
             "t_initial": o["t_initial_C"],
             "t_env": model.t_env,
@@ -115,7 +108,7 @@ def simulate_dissolution_with_calibration(
             "duration": ctx.state(f"{name}.duration", dur, "duration_s", "s"),
             "start": f"{t_h:.1f} ± 0.5 s",
         }
-    ctx.inputs["c_before_J_K"] = s["c_before"]
+    ctx.inputs["c_before_J_K"] = s.c_before
     readings = read_probe(
         ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"], gain=o["gain"], offset=o["offset_K"]
     )
@@ -137,23 +130,23 @@ def simulate_dissolution_with_calibration(
     t_a = model.contents_before_mixing()
     truth = SimTruth(
         kind=KIND,
-        delta_t_adiabatic=heat / s["c_final"],
+        delta_t_adiabatic=heat / s.c_final,
         heat_J=heat,
         molar_enthalpy_kJ_mol=molar_enthalpy_kJ_mol,
-        calorimeter_heat_capacity_J_K=s["c_cal"],
-        heat_capacity_final_J_K=s["c_final"],
+        calorimeter_heat_capacity_J_K=s.c_cal,
+        heat_capacity_final_J_K=s.c_final,
         reference="T(t_m)",
         reference_temperature_C=t_a,
         t_contents_at_mixing_C=t_a,
         t_mix_C=None,
-        delta_t_from_contents=heat / s["c_final"],
+        delta_t_from_contents=heat / s.c_final,
         extent_mol=n,
         t_m_s=model.t_m,
         mixing_time_stated_s=round(stated_tm, d),
         t_env_C=model.t_env,
         t_inf_C=model.t_env,
-        k_before_per_s=g_before / s["c_before"],
-        k_per_s=g_after / s["c_final"],
+        k_before_per_s=g_before / s.c_before,
+        k_per_s=g_after / s.c_final,
         tau_h_s=o["tau_h"],
         tau_s_s=model.tau_s,
         release=model.release,

@@ -33,9 +33,17 @@ __all__ = [
 
 #: Standard uncertainties written beside the stated inputs (override with ``uncertainties=``).
 DEFAULT_UNCERTAINTIES: dict[str, float] = {
-    "volume_mL": 0.10, "density_g_mL": 0.0010, "cp_J_gK": 0.010, "mass_g": 0.0002,
-    "concentration_mol_L": 0.005, "temperature_K": 0.05, "c_cal_J_K": 2.0, "voltage_V": 0.005,
-    "current_A": 0.001, "duration_s": 0.10, "mixing_time_s": 0.5,
+    "volume_mL": 0.10,
+    "density_g_mL": 0.0010,
+    "cp_J_gK": 0.010,
+    "mass_g": 0.0002,
+    "concentration_mol_L": 0.005,
+    "temperature_K": 0.05,
+    "c_cal_J_K": 2.0,
+    "voltage_V": 0.005,
+    "current_A": 0.001,
+    "duration_s": 0.10,
+    "mixing_time_s": 0.5,
 }
 
 
@@ -122,11 +130,31 @@ class RunOptions(TypedDict, total=False):
 
 
 _OPTION_DEFAULTS: dict[str, Any] = {
-    "c_cal": 15.0, "tau_s": 5.0, "tau_h": 3600.0, "t_env_offset": 0.0, "t_initial_C": 21.5, "noise": 0.005,
-    "phi": 0.0, "resolution": 0.01, "fore_s": 300.0, "after_s": 600.0, "dt": 1.0, "perturb_inputs": False,
-    "p_stir_W": 0.002, "room_drift_K_per_h": 0.0, "gain": 0.0, "offset_K": 0.0, "mark_error_s": 0.0,
-    "uncertainties": {}, "info": {}, "calorimeter_name": "simulated cup",
-    "stir_tau_s": 0.0, "spikes": 0, "spike_K": 0.5, "drop_fraction": 0.0, "jitter_s": 0.0,
+    "c_cal": 15.0,
+    "tau_s": 5.0,
+    "tau_h": 3600.0,
+    "t_env_offset": 0.0,
+    "t_initial_C": 21.5,
+    "noise": 0.005,
+    "phi": 0.0,
+    "resolution": 0.01,
+    "fore_s": 300.0,
+    "after_s": 600.0,
+    "dt": 1.0,
+    "perturb_inputs": False,
+    "p_stir_W": 0.002,
+    "room_drift_K_per_h": 0.0,
+    "gain": 0.0,
+    "offset_K": 0.0,
+    "mark_error_s": 0.0,
+    "uncertainties": {},
+    "info": {},
+    "calorimeter_name": "simulated cup",
+    "stir_tau_s": 0.0,
+    "spikes": 0,
+    "spike_K": 0.5,
+    "drop_fraction": 0.0,
+    "jitter_s": 0.0,
     "omit_mixing_time": False,
 }
 
@@ -169,54 +197,121 @@ class RunContext:
     def model(self, **kw: Any) -> LumpedModel:
         """Return the LumpedModel of this run from the shared options and the kind-specific ``kw``."""
         o = self.o
-        return LumpedModel(t_initial=o["t_initial_C"], t_env=o["t_initial_C"] + o["t_env_offset"],
-                           t_m=o["fore_s"], tau_s=o["tau_s"], p_stir=o["p_stir_W"],
-                           room_drift=o["room_drift_K_per_h"] / 3600.0, **kw)
+        return LumpedModel(
+            t_initial=o["t_initial_C"],
+            t_env=o["t_initial_C"] + o["t_env_offset"],
+            t_m=o["fore_s"],
+            tau_s=o["tau_s"],
+            p_stir=o["p_stir_W"],
+            room_drift=o["room_drift_K_per_h"] / 3600.0,
+            **kw,
+        )
 
-    def finish(self, model: LumpedModel, body: dict[str, Any], *, heat: float, c_final: float, c_cal: float,
-               dh: float | None, extent: float | None, t_a: float, t_mix: float | None,
-               delta_t_ad: float, reference: str) -> SimulatedRun:
+    def finish(
+        self,
+        model: LumpedModel,
+        body: dict[str, Any],
+        *,
+        heat: float,
+        c_final: float,
+        c_cal: float,
+        t_a: float,
+        t_mix: float | None,
+        delta_t_ad: float,
+        reference: str,
+        dh: float | None = None,
+        extent: float | None = None,
+    ) -> SimulatedRun:
         """Draw the mixing-time statement and the noise, then assemble the run dict and the truth."""
-        o, rng = self.o, self.rng
-        t_m, u_tm = model.t_m, self.u["mixing_time_s"]
+        o, t_m = self.o, model.t_m
+        stated_tm, mix = self._mixing_statement(t_m)
+        times, readings, contents, probe = self._log(model)
+        run = self._run_file(body, mix)
+        t_ref = t_a if reference != "T_mix" else t_mix
+        assert t_ref is not None
+        truth = SimTruth(
+            kind=self.kind,
+            delta_t_adiabatic=delta_t_ad,
+            heat_J=heat,
+            molar_enthalpy_kJ_mol=dh,
+            calorimeter_heat_capacity_J_K=c_cal,
+            heat_capacity_final_J_K=c_final,
+            reference=reference,
+            reference_temperature_C=t_ref,
+            t_contents_at_mixing_C=t_a,
+            t_mix_C=t_mix,
+            delta_t_from_contents=t_ref + delta_t_ad - t_a if reference != "T_A(t_m)" else delta_t_ad,
+            extent_mol=extent,
+            t_m_s=t_m,
+            mixing_time_stated_s=stated_tm,
+            t_env_C=model.t_env,
+            t_inf_C=model.t_env + model.room_drift * t_m + (model.p_stir / model.g_after if model.g_after else 0.0),
+            k_before_per_s=model.g_before / model.c_before,
+            k_per_s=model.g_after / model.c_after,
+            tau_h_s=o["tau_h"],
+            tau_s_s=model.tau_s,
+            release=model.release,
+            tau_r_s=model.tau_r if model.release == "first-order" else None,
+            t_d_s=model.t_d if model.release in ("finite", "sphere") else None,
+            p_stir_W=model.p_stir,
+            noise_K=o["noise"],
+            phi=o["phi"],
+            resolution_K=o["resolution"],
+            gain=o["gain"],
+            offset_K=o["offset_K"],
+            room_drift_K_per_h=o["room_drift_K_per_h"],
+            seed=self.seed,
+            inputs=dict(self.inputs),
+            model=model,
+        )
+        return SimulatedRun(times, readings, run, truth, contents, probe)
+
+    def _mixing_statement(self, t_m: float) -> tuple[float, dict[str, str]]:
+        """Return the mixing time as the student marks it (rounded as stated) and its run-file entry (none if omitted)."""
+        o, u_tm = self.o, self.u["mixing_time_s"]
         d = _decimals(u_tm)
-        stated_tm = t_m + o["mark_error_s"] + (rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)
-        n = int(math.floor((t_m + o["after_s"]) / o["dt"] + 1e-9)) + 1
+        stated_tm = t_m + o["mark_error_s"] + (self.rng.normal(0.0, u_tm) if o["perturb_inputs"] else 0.0)
+        mix = {} if o["omit_mixing_time"] else {"mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s"}
+        return round(stated_tm, d), mix
+
+    def _log(self, model: LumpedModel) -> tuple[np.ndarray, ...]:
+        """Return (times, readings, contents, probe): the model solved, read by the thermometer, artefacts added."""
+        o, rng = self.o, self.rng
+        n = int(math.floor((model.t_m + o["after_s"]) / o["dt"] + 1e-9)) + 1
         times = np.round(np.arange(n) * o["dt"], 9)
         contents, probe = model.solve(times)
         phi = math.exp(-o["dt"] / o["stir_tau_s"]) if o["stir_tau_s"] > 0 else o["phi"]
-        readings = read_probe(rng, probe, noise=o["noise"], phi=phi, resolution=o["resolution"],
-                              gain=o["gain"], offset=o["offset_K"])
-        times, readings, contents, probe = _artefacts(rng, o, times, readings, contents, probe)
+        readings = read_probe(
+            rng, probe, noise=o["noise"], phi=phi, resolution=o["resolution"], gain=o["gain"], offset=o["offset_K"]
+        )
+        return _artefacts(rng, o, times, readings, contents, probe)
+
+    def _run_file(self, body: dict[str, Any], mix: dict[str, str]) -> dict[str, Any]:
+        """Return the run file's content: the kind's tables (``body``) with [info], [calorimeter], [thermometer]."""
+        o = self.o
         info = dict(o["info"])
         info.setdefault("title", f"simulated {self.kind} run")
         info.setdefault("notes", "synthetic data with a known truth (calc.simulation.simulator)")
         cal = body.pop("calorimeter", {})
-        mix = {} if o["omit_mixing_time"] else {"mixing_time": f"{stated_tm:.{d}f} ± {u_tm:.{d}f} s"}
-        run: dict[str, Any] = {"kind": self.kind, "readings": "readings.csv", **mix, "info": info,
-                               "calorimeter": {"name": o["calorimeter_name"], **cal},
-                               "thermometer": {"resolution": f"{o['resolution']:g} K"}, **body}
-        t_ref = t_a if reference != "T_mix" else t_mix
-        assert t_ref is not None
-        truth = SimTruth(
-            kind=self.kind, delta_t_adiabatic=delta_t_ad, heat_J=heat, molar_enthalpy_kJ_mol=dh,
-            calorimeter_heat_capacity_J_K=c_cal, heat_capacity_final_J_K=c_final, reference=reference,
-            reference_temperature_C=t_ref, t_contents_at_mixing_C=t_a, t_mix_C=t_mix,
-            delta_t_from_contents=t_ref + delta_t_ad - t_a if reference != "T_A(t_m)" else delta_t_ad,
-            extent_mol=extent, t_m_s=t_m, mixing_time_stated_s=round(stated_tm, d), t_env_C=model.t_env,
-            t_inf_C=model.t_env + model.room_drift * t_m + (model.p_stir / model.g_after if model.g_after else 0.0),
-            k_before_per_s=model.g_before / model.c_before, k_per_s=model.g_after / model.c_after,
-            tau_h_s=o["tau_h"], tau_s_s=model.tau_s, release=model.release,
-            tau_r_s=model.tau_r if model.release == "first-order" else None,
-            t_d_s=model.t_d if model.release in ("finite", "sphere") else None, p_stir_W=model.p_stir,
-            noise_K=o["noise"], phi=o["phi"], resolution_K=o["resolution"], gain=o["gain"],
-            offset_K=o["offset_K"], room_drift_K_per_h=o["room_drift_K_per_h"], seed=self.seed,
-            inputs=dict(self.inputs), model=model)
-        return SimulatedRun(times, readings, run, truth, contents, probe)
+        return {
+            "kind": self.kind,
+            "readings": "readings.csv",
+            **mix,
+            "info": info,
+            "calorimeter": {"name": o["calorimeter_name"], **cal},
+            "thermometer": {"resolution": f"{o['resolution']:g} K"},
+            **body,
+        }
 
 
-def _artefacts(rng: np.random.Generator, o: Mapping[str, Any], times: np.ndarray, readings: np.ndarray,
-               contents: np.ndarray, probe: np.ndarray) -> tuple[np.ndarray, ...]:
+def _artefacts(
+    rng: np.random.Generator,
+    o: Mapping[str, Any],
+    times: np.ndarray,
+    readings: np.ndarray,
+    contents: np.ndarray,
+    probe: np.ndarray,
+) -> tuple[np.ndarray, ...]:
     """Add spikes, drop rows and stamp jittered times to 0.1 s (after the readings are drawn)."""
     n = times.size
     readings = readings.copy()
@@ -225,7 +320,7 @@ def _artefacts(rng: np.random.Generator, o: Mapping[str, Any], times: np.ndarray
         i = int(rng.integers(5, max(n - 6, 6)))
         width = int(rng.integers(1, 3))
         size = o["spike_K"] * rng.uniform(0.5, 1.5) * rng.choice([-1.0, 1.0])
-        readings[i:i + width] = q * np.round((readings[i:i + width] + size) / q)
+        readings[i : i + width] = q * np.round((readings[i : i + width] + size) / q)
     keep = np.ones(n, dtype=bool)
     if o["drop_fraction"] > 0:
         keep[1:-1] = rng.uniform(size=n - 2) >= o["drop_fraction"]

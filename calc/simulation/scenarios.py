@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, cast
 
@@ -24,9 +25,15 @@ __all__ = ["random_scenario"]
 _SALTS = {"KCl": 17.22, "NH4NO3": 25.7, "NH4Cl": 14.8, "NaOH": -44.5, "CaCl2": -81.3}  # kJ/mol, docs/methods.md §7.2
 
 
-def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: bool = True,
-                    perturb_inputs: bool | None = None, release: str | None = None,
-                    extra: dict[str, Any] | None = None) -> SimulatedRun:
+def random_scenario(
+    kind: str,
+    rng: np.random.Generator | int | None,
+    *,
+    noisy: bool = True,
+    perturb_inputs: bool | None = None,
+    release: str | None = None,
+    extra: dict[str, Any] | None = None,
+) -> SimulatedRun:
     """Simulate one run of ``kind`` with parameters drawn from the ranges of docs/methods.md §7.2.
 
     ``noisy=False`` gives noise-free readings at 0.0001 K resolution; ``perturb_inputs`` defaults to
@@ -53,25 +60,39 @@ def random_scenario(kind: str, rng: np.random.Generator | int | None, *, noisy: 
     SimulatedRun
     """
     gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
-    uni = gen.uniform
-    opts: dict[str, Any] = {
-        "tau_s": uni(1, 10), "tau_h": uni(25, 120) * 60, "c_cal": uni(5, 40), "t_env_offset": uni(-1.5, 1.5),
-        "t_initial_C": uni(19, 24), "p_stir_W": uni(0, 0.005), "fore_s": uni(180, 300),
-        "dt": float(gen.choice([1.0, 2.0])),
-        "perturb_inputs": noisy if perturb_inputs is None else perturb_inputs,
-        "noise": uni(0.002, 0.02) if noisy else 0.0, "phi": uni(0, 0.6) if noisy else 0.0,
-        "resolution": float(gen.choice([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1])) if noisy else 0.0001}
-
+    opts = _shared_options(gen, noisy, noisy if perturb_inputs is None else perturb_inputs)
     extra = dict(extra or {})
     after_add = float(extra.pop("after_add_s", 0.0))
     salt_forced, tau_forced = extra.pop("salt", None), extra.pop("tau_r", None)
     opts.update(extra)
     kind_entry = REGISTRY.get(kind)
-    draw = kind_entry.hook("scenario") if kind_entry is not None else None
+    draw: Callable[[Draw], SimulatedRun] | None = kind_entry.hook("scenario") if kind_entry is not None else None
     if draw is None:
-        raise InputError(f"unknown kind {kind!r}; expected one of "
-                         f"{', '.join(k.name for k in REGISTRY.values() if k.has('scenario'))}", field="kind")
-    return cast(SimulatedRun, draw(Draw(gen, opts, release, after_add, salt_forced, tau_forced)))
+        raise InputError(
+            f"unknown kind {kind!r}; expected one of "
+            f"{', '.join(k.name for k in REGISTRY.values() if k.has('scenario'))}",
+            field="kind",
+        )
+    return draw(Draw(gen, opts, release, after_add, salt_forced, tau_forced))
+
+
+def _shared_options(gen: np.random.Generator, noisy: bool, perturb_inputs: bool) -> dict[str, Any]:
+    """Draw the options every kind shares (the cup, the room, the probe, the log) from docs/methods.md §7.2."""
+    uni = gen.uniform
+    return {
+        "tau_s": uni(1, 10),
+        "tau_h": uni(25, 120) * 60,
+        "c_cal": uni(5, 40),
+        "t_env_offset": uni(-1.5, 1.5),
+        "t_initial_C": uni(19, 24),
+        "p_stir_W": uni(0, 0.005),
+        "fore_s": uni(180, 300),
+        "dt": float(gen.choice([1.0, 2.0])),
+        "perturb_inputs": perturb_inputs,
+        "noise": uni(0.002, 0.02) if noisy else 0.0,
+        "phi": uni(0, 0.6) if noisy else 0.0,
+        "resolution": float(gen.choice([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1])) if noisy else 0.0001,
+    }
 
 
 @dataclass(frozen=True)
@@ -111,31 +132,54 @@ def draw_dissolution(d: Draw) -> SimulatedRun:
     vol, tau_r, rel = d.uni(50, 100), d.uni(10, 120), d.pick_release()
     salt, tau_r = d.salt or salt, d.tau_r or tau_r
     mass = d.uni(1, 5) * d.c_guess(vol) / abs(_SALTS[salt] * 1000) * formula_molar_mass(salt, "solute.formula")
-    return simulate_dissolution(d.gen, formula=salt, molar_enthalpy_kJ_mol=_SALTS[salt], solute_mass_g=mass,
-                                water_volume_mL=vol, tau_r=tau_r, release=rel, after_s=d.after(tau_r), **d.opts)
+    return simulate_dissolution(
+        d.gen,
+        formula=salt,
+        molar_enthalpy_kJ_mol=_SALTS[salt],
+        solute_mass_g=mass,
+        water_volume_mL=vol,
+        tau_r=tau_r,
+        release=rel,
+        after_s=d.after(tau_r),
+        **d.opts,
+    )
 
 
 def draw_neutralization(d: Draw) -> SimulatedRun:
     """0.5–1.5 mol/L stocks, 25–50 mL each, up to 10 % excess base."""
     v_a, tau_r, conc = d.uni(25, 50), d.uni(2, 10), round(d.uni(0.5, 1.5), 2)
-    return simulate_neutralization(d.gen, acid_concentration=conc, base_concentration=conc * d.uni(1.0, 1.1),
-                                   acid_volume_mL=v_a, base_volume_mL=v_a * d.uni(0.95, 1.05), tau_r=tau_r,
-                                   base_temperature_offset=d.uni(-1, 1), after_s=d.after(tau_r), **d.opts)
+    return simulate_neutralization(
+        d.gen,
+        acid_concentration=conc,
+        base_concentration=conc * d.uni(1.0, 1.1),
+        acid_volume_mL=v_a,
+        base_volume_mL=v_a * d.uni(0.95, 1.05),
+        tau_r=tau_r,
+        base_temperature_offset=d.uni(-1, 1),
+        after_s=d.after(tau_r),
+        **d.opts,
+    )
 
 
 def draw_electrical_calibration(d: Draw) -> SimulatedRun:
     """A heater pulse of 30–600 s sized for |ΔT| of 1–5 K."""
     vol, volt, amp = d.uni(50, 100), d.uni(3, 12), d.uni(0.5, 2)
     t_d = float(np.clip(d.uni(1, 5) * d.c_guess(vol) / (volt * amp), 30, 600))
-    return simulate_electrical_calibration(d.gen, water_volume_mL=vol, voltage_V=volt, current_A=amp,
-                                           duration_s=t_d, after_s=d.after(t_d / 10), **d.opts)
+    return simulate_electrical_calibration(
+        d.gen, water_volume_mL=vol, voltage_V=volt, current_A=amp, duration_s=t_d, after_s=d.after(t_d / 10), **d.opts
+    )
 
 
 def draw_mixing_calibration(d: Draw) -> SimulatedRun:
     """40–45 mL of water 15–25 K warmer poured into 40–55 mL."""
-    return simulate_mixing_calibration(d.gen, water_volume_mL=d.uni(40, 55), warm_volume_mL=d.uni(40, 45),
-                                       warm_temperature_C=d.opts["t_initial_C"] + d.uni(15, 25),
-                                       after_s=d.after(0.0), **d.opts)
+    return simulate_mixing_calibration(
+        d.gen,
+        water_volume_mL=d.uni(40, 55),
+        warm_volume_mL=d.uni(40, 45),
+        warm_temperature_C=d.opts["t_initial_C"] + d.uni(15, 25),
+        after_s=d.after(0.0),
+        **d.opts,
+    )
 
 
 def draw_reaction(d: Draw) -> SimulatedRun:
@@ -143,5 +187,6 @@ def draw_reaction(d: Draw) -> SimulatedRun:
     tau_r, rel = d.uni(10, 60), d.pick_release()
     vol = d.uni(50, 100)
     mass = d.uni(2, 6) * d.c_guess(vol) / 466.9e3 * formula_molar_mass("Mg", "reaction.limiting_reagent")
-    return simulate_reaction(d.gen, reagent_mass_g=mass, solution_volume_mL=vol, tau_r=tau_r, release=rel,
-                             after_s=d.after(tau_r), **d.opts)
+    return simulate_reaction(
+        d.gen, reagent_mass_g=mass, solution_volume_mL=vol, tau_r=tau_r, release=rel, after_s=d.after(tau_r), **d.opts
+    )

@@ -1,0 +1,171 @@
+"""What every simulated kind states and builds on: liquids, the mixture's c_p, a solid added to a liquid, the release.
+
+The true values are rounded as the run file states them and recorded by the :class:`calc.simulation.run.RunContext`
+(:mod:`calc.simulation.kinds`, :mod:`calc.simulation.insitu`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from typing import Any
+
+from calc.refdata.formula import molar_mass
+from calc.simulation.model import LumpedModel
+from calc.simulation.run import RunContext, SimulatedRun
+
+__all__ = [
+    "CP_UNIT",
+    "WATER_CP",
+    "WATER_DENSITY",
+    "RunTable",
+    "SolidInLiquid",
+    "finish_released",
+    "formula_molar_mass",
+    "liquid",
+    "mixture",
+    "release_kw",
+    "solid_in_liquid",
+    "mixing_temperature",
+    "pour",
+]
+
+WATER_DENSITY = 0.9978  # g/mL near 22 °C (from memory)
+WATER_CP = 4.181  # J/(g K) near 22 °C (from memory)
+CP_UNIT = "J/(g*K)"
+
+
+def formula_molar_mass(formula: str, where: str) -> float:
+    """Return the molar mass of ``formula`` in g/mol; an unreadable formula is an error in ``where``."""
+    return molar_mass(formula, field=where)
+
+
+def release_kw(release: str, tau_r: float, t_d: float | None) -> dict[str, Any]:
+    """Return the release keywords; a shrinking sphere defaults to t_d = 4 τ_r (same mean release time)."""
+    if release == "sphere":
+        return {"release": release, "t_d": t_d if t_d is not None else 4 * tau_r}
+    if release == "finite":
+        return {"release": release, "t_d": t_d if t_d is not None else tau_r}
+    return {"release": release, "tau_r": tau_r}
+
+
+@dataclass
+class SolidInLiquid:
+    """A solid added to one liquid in the cup: the run-file tables, the solid's mass and the heat capacities."""
+
+    body: dict[str, Any]  # run-file tables: [calorimeter], the liquid's, [solute], [mixture]
+    m_s: float  # g, true mass of the solid
+    c_cal: float  # J/K, true calorimeter heat capacity
+    c_before: float  # J/K, cup + liquid
+    c_final: float  # J/K, cup + final solution
+
+    def model(self, ctx: RunContext, heat: float, release: dict[str, Any]) -> LumpedModel:
+        """Return the run's model: ``heat`` (J) released into the liquid as ``release`` says (:func:`release_kw`)."""
+        g_before, g_after = ctx.conductances(self.c_final)
+        return ctx.model(
+            c_before=self.c_before, g_before=g_before, c_after=self.c_final, g_after=g_after, heat_J=heat, **release
+        )
+
+    def release(self, ctx: RunContext, extent: float, dh: float, release: dict[str, Any]) -> SimulatedRun:
+        """Finish the run: ``extent`` mol (of solute, or of reaction) each releasing −``dh`` kJ as ``release`` says."""
+        heat = -extent * dh * 1000.0
+        model = self.model(ctx, heat, release)
+        return finish_released(
+            ctx, model, self.body, heat=heat, c_final=self.c_final, c_cal=self.c_cal, dh=dh, extent=extent
+        )
+
+
+def solid_in_liquid(
+    ctx: RunContext,
+    *,
+    table: str,
+    volume: float,
+    density: float,
+    cp: float,
+    solid: str,
+    mass: float,
+    solid_cp: float,
+    mixture_cp: float | None,
+) -> SolidInLiquid:
+    """Return masses, heat capacities and run-file tables for a solid added to one liquid.
+
+    The liquid's own c_p sets C before t_m only (the run file has no field for it; the truth does not
+    depend on it); the stated mixture c_p sets C_final.
+    """
+    v, rho, cp = ctx.true(volume, "volume_mL"), ctx.true(density, "density_g_mL"), ctx.true(cp, "cp_J_gK")
+    m_s, c_cal = ctx.true(mass, "mass_g"), ctx.true(ctx.o["c_cal"], "c_cal_J_K")
+    m_liq = v * rho
+    c_mix = ctx.true(mixture_cp if mixture_cp is not None else (m_liq * cp + m_s * solid_cp) / (m_liq + m_s), "cp_J_gK")
+    body: dict[str, Any] = {
+        "calorimeter": {"heat_capacity": ctx.state("calorimeter.heat_capacity", c_cal, "c_cal_J_K", "J/K")},
+        table: {
+            "volume": ctx.state(f"{table}.volume", v, "volume_mL", "mL"),
+            "density": ctx.state(f"{table}.density", rho, "density_g_mL", "g/mL"),
+        },
+        "solute": {"formula": solid, "mass": ctx.state("solute.mass", m_s, "mass_g", "g")},
+        "mixture": {"specific_heat_capacity": ctx.state("mixture.specific_heat_capacity", c_mix, "cp_J_gK", CP_UNIT)},
+    }
+    c_before, c_final = m_liq * cp + c_cal, (m_liq + m_s) * c_mix + c_cal
+    return SolidInLiquid(body, m_s, c_cal, c_before, c_final)
+
+
+def finish_released(
+    ctx: RunContext,
+    model: LumpedModel,
+    body: dict[str, Any],
+    *,
+    heat: float,
+    c_final: float,
+    c_cal: float,
+    dh: float | None = None,
+    extent: float | None = None,
+) -> SimulatedRun:
+    """Finish a run whose heat is released into the one liquid in the cup: ΔT_ad = Q/C_final from T(t_m)."""
+    return ctx.finish(
+        model,
+        body,
+        heat=heat,
+        c_final=c_final,
+        c_cal=c_cal,
+        dh=dh,
+        extent=extent,
+        t_a=model.contents_before_mixing(),
+        t_mix=None,
+        delta_t_ad=heat / c_final,
+        reference="T(t_m)",
+    )
+
+
+#: One table of a simulated run file: field → a quantity as the file states it ("50.0 mL"), or a whole number
+#: (the ``equivalents`` of an acid or a base).
+RunTable = dict[str, str | int]
+
+
+def liquid(ctx: RunContext, table: str, volume: float, density: float) -> tuple[float, RunTable]:
+    """Return (mass in g, run-file table) of a liquid with true values rounded as stated."""
+    v, rho = ctx.true(volume, "volume_mL"), ctx.true(density, "density_g_mL")
+    tab: RunTable = {
+        "volume": ctx.state(f"{table}.volume", v, "volume_mL", "mL"),
+        "density": ctx.state(f"{table}.density", rho, "density_g_mL", "g/mL"),
+    }
+    return v * rho, tab
+
+
+def mixture(ctx: RunContext, cp: float) -> tuple[float, dict[str, str]]:
+    """Return the true (rounded) c_p of the final solution and the [mixture] table."""
+    c = ctx.true(cp, "cp_J_gK")
+    return c, {"specific_heat_capacity": ctx.state("mixture.specific_heat_capacity", c, "cp_J_gK", CP_UNIT)}
+
+
+def mixing_temperature(c_a: float, t_a: float, c_b: float, t_b: float) -> float:
+    """Return the adiabatic mixing temperature of docs/methods.md §2.3(ii) (c_a includes C_cal)."""
+    return (c_a * t_a + c_b * t_b) / (c_a + c_b)
+
+
+def pour(model: LumpedModel, c_poured: float, t_poured: float) -> tuple[LumpedModel, float, float]:
+    """Pour a second liquid (heat capacity ``c_poured`` J/K, at ``t_poured`` °C) into the cup at t_m.
+
+    Return the model whose contents jump to T_mix at t_m, the contents' T_A just before, and T_mix.
+    """
+    t_a = model.contents_before_mixing()
+    t_mix = mixing_temperature(model.c_before, t_a, c_poured, t_poured)
+    return replace(model, t_jump=t_mix), t_a, t_mix
