@@ -223,7 +223,7 @@ class RunContext:
         extent: float | None = None,
     ) -> SimulatedRun:
         """Draw the mixing-time statement and the noise, then assemble the run dict and the truth."""
-        o, t_m = self.o, model.t_m
+        t_m = model.t_m
         stated_tm, mix = self._mixing_statement(t_m)
         times, readings, contents, probe = self._log(model)
         run = self._run_file(body, mix)
@@ -244,27 +244,34 @@ class RunContext:
             extent_mol=extent,
             t_m_s=t_m,
             mixing_time_stated_s=stated_tm,
-            t_env_C=model.t_env,
             t_inf_C=model.t_env + model.room_drift * t_m + (model.p_stir / model.g_after if model.g_after else 0.0),
-            k_before_per_s=model.g_before / model.c_before,
-            k_per_s=model.g_after / model.c_after,
-            tau_h_s=o["tau_h"],
-            tau_s_s=model.tau_s,
-            release=model.release,
-            tau_r_s=model.tau_r if model.release == "first-order" else None,
-            t_d_s=model.t_d if model.release in ("finite", "sphere") else None,
-            p_stir_W=model.p_stir,
-            noise_K=o["noise"],
-            phi=o["phi"],
-            resolution_K=o["resolution"],
-            gain=o["gain"],
-            offset_K=o["offset_K"],
-            room_drift_K_per_h=o["room_drift_K_per_h"],
-            seed=self.seed,
-            inputs=dict(self.inputs),
-            model=model,
+            **self.model_truth(model),
         )
         return SimulatedRun(times, readings, run, truth, contents, probe)
+
+    def model_truth(self, model: LumpedModel) -> dict[str, Any]:
+        """Return the :class:`SimTruth` fields read off the model and the options (exchange, probe, release, noise)."""
+        o = self.o
+        return {
+            "t_env_C": model.t_env,
+            "k_before_per_s": model.g_before / model.c_before,
+            "k_per_s": model.g_after / model.c_after,
+            "tau_h_s": o["tau_h"],
+            "tau_s_s": model.tau_s,
+            "release": model.release,
+            "tau_r_s": model.tau_r if model.release == "first-order" else None,
+            "t_d_s": model.t_d if model.release in ("finite", "sphere") else None,
+            "p_stir_W": model.p_stir,
+            "noise_K": o["noise"],
+            "phi": o["phi"],
+            "resolution_K": o["resolution"],
+            "gain": o["gain"],
+            "offset_K": o["offset_K"],
+            "room_drift_K_per_h": o["room_drift_K_per_h"],
+            "seed": self.seed,
+            "inputs": dict(self.inputs),
+            "model": model,
+        }
 
     def _mixing_statement(self, t_m: float) -> tuple[float, dict[str, str]]:
         """Return the mixing time as the student marks it (rounded as stated) and its run-file entry (none if omitted)."""
