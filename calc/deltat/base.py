@@ -39,6 +39,7 @@ __all__ = [
     "sweep_factor",
     "need_windows",
     "line_fits",
+    "read_lines_at",
 ]
 
 #: Relative half-width of the rectangular "method" term of each method (fraction of |ΔT|).
@@ -218,3 +219,37 @@ def line_fits(log: Log) -> tuple[LineFit, LineFit]:
     if np.count_nonzero(ma) < 8:
         ma = np.ones_like(ta_, dtype=bool)
     return fit_line(tf_[mf], yf_[mf]), fit_line(ta_[ma], ya_[ma])
+
+
+def read_lines_at(
+    method: str,
+    log: Log,
+    fore: LineFit,
+    after: LineFit,
+    t_x: float,
+    *,
+    u_mixing_time: float,
+    construction: Construction,
+) -> DeltaT:
+    """Return the ΔT of a straight-line method: the after line minus the fore line at ``t_x``.
+
+    The fit term is both lines' variance at ``t_x``; ``u_mixing_time`` is the method's own term for
+    the uncertainty of ``t_x``.
+    """
+    value = after.at(t_x) - fore.at(t_x)
+    var = after.var_at(t_x) + fore.var_at(t_x)
+    res_start, res_end = resolution_terms(log)
+    return DeltaT(
+        method=method,
+        value=value,
+        u_fit=math.sqrt(var),
+        dof_fit=min(fore.dof, after.dof),
+        u_resolution_start=res_start,
+        u_resolution_end=res_end,
+        u_method=method_term(method, value),
+        u_mixing_time=u_mixing_time,
+        start_temperature=fore.at(t_x),
+        u_start_temperature=math.sqrt(fore.var_at(t_x)),
+        end_temperature=after.at(t_x),
+        construction=construction,
+    )

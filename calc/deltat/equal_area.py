@@ -14,10 +14,9 @@ from calc.deltat.base import (
     DeltaT,
     Log,
     line_fits,
-    method_term,
     need_windows,
+    read_lines_at,
     register_method,
-    resolution_terms,
 )
 from calc.deltat.constructions import EqualAreaConstruction
 from calc.errors import AnalysisError
@@ -61,28 +60,15 @@ def equal_area(log: Log) -> DeltaT:
     # ∫F dt with F = (y − T_i)/(T_f − T_i)
     intF = (integ - T_i * (t_f - t_i)) / (T_f - T_i)
     t_x = t_f - intF
-    value = after.at(t_x) - fore.at(t_x)
     u_tx = float(np.median(np.diff(log.t))) / math.sqrt(12.0)
-    var = after.var_at(t_x) + fore.var_at(t_x)
-    res_start, res_end = resolution_terms(log)
-    return DeltaT(
-        method="equal-area",
-        value=value,
-        u_fit=math.sqrt(var),
-        dof_fit=min(fore.dof, after.dof),
-        u_resolution_start=res_start,
-        u_resolution_end=res_end,
-        u_method=method_term("equal-area", value),
-        u_mixing_time=abs(after.b - fore.b) * u_tx,
-        start_temperature=fore.at(t_x),
-        u_start_temperature=math.sqrt(fore.var_at(t_x)),
-        end_temperature=after.at(t_x),
-        construction=EqualAreaConstruction(
-            t_i=t_i,
-            t_f=t_f,
-            fore_line=(fore.a, fore.b, fore.t_mean),
-            after_line=(after.a, after.b, after.t_mean),
-            t_x=t_x,
-            sixty_percent_time=_fraction_time(log, T_i, T_f, 0.6),
-        ),
+    construction = EqualAreaConstruction(
+        t_i=t_i,
+        t_f=t_f,
+        fore_line=(fore.a, fore.b, fore.t_mean),
+        after_line=(after.a, after.b, after.t_mean),
+        t_x=t_x,
+        sixty_percent_time=_fraction_time(log, T_i, T_f, 0.6),
+    )
+    return read_lines_at(
+        "equal-area", log, fore, after, t_x, u_mixing_time=abs(after.b - fore.b) * u_tx, construction=construction
     )

@@ -6,17 +6,14 @@ of each period next to the main period.
 
 from __future__ import annotations
 
-import math
-
 from calc.deltat.base import (
     LINE_WINDOW_MAX,
     DeltaT,
     Log,
     line_fits,
-    method_term,
     need_windows,
+    read_lines_at,
     register_method,
-    resolution_terms,
 )
 from calc.deltat.constructions import LineConstruction
 
@@ -29,35 +26,19 @@ def linear_extrapolation(log: Log) -> DeltaT:
     _tf, _yf, ta_, _ya = need_windows(log)
     t_m = log.periods.mixing_time
     fore, after = line_fits(log)
-    value = after.at(t_m) - fore.at(t_m)
-    var = after.var_at(t_m) + fore.var_at(t_m)
+    construction = LineConstruction(
+        t_i=t_m,
+        t_f=log.periods.main_end,
+        fore_line=(fore.a, fore.b, fore.t_mean),
+        after_line=(after.a, after.b, after.t_mean),
+        t_x=t_m,
+    )
     u_tm = abs(after.b - fore.b) * log.periods.u_mixing_time
-    warnings = []
+    dt = read_lines_at("linear-extrapolation", log, fore, after, t_m, u_mixing_time=u_tm, construction=construction)
     ext = (log.periods.main_end - t_m) + 0.5 * min(ta_[-1] - ta_[0], LINE_WINDOW_MAX)
-    if abs(after.b - fore.b) * ext > 0.01 * abs(value):
-        warnings.append(
+    if abs(after.b - fore.b) * ext > 0.01 * abs(dt.value):
+        dt.warnings.append(
             "linear extrapolation over a long after period: the drift lines are curved, so this method "
             "can be biased by more than 1 %; the default method does not have this bias"
         )
-    res_start, res_end = resolution_terms(log)
-    return DeltaT(
-        method="linear-extrapolation",
-        value=value,
-        u_fit=math.sqrt(var),
-        dof_fit=min(fore.dof, after.dof),
-        u_resolution_start=res_start,
-        u_resolution_end=res_end,
-        u_method=method_term("linear-extrapolation", value),
-        u_mixing_time=u_tm,
-        start_temperature=fore.at(t_m),
-        u_start_temperature=math.sqrt(fore.var_at(t_m)),
-        end_temperature=after.at(t_m),
-        construction=LineConstruction(
-            t_i=t_m,
-            t_f=log.periods.main_end,
-            fore_line=(fore.a, fore.b, fore.t_mean),
-            after_line=(after.a, after.b, after.t_mean),
-            t_x=t_m,
-        ),
-        warnings=warnings,
-    )
+    return dt
