@@ -68,6 +68,28 @@ class _Lines:
         return self.ready.pop(0) if self.ready else None
 
 
+class _ByteSource(Source):
+    """A source that reads bytes and splits them into lines; each kind says how more bytes come (``_more``)."""
+
+    _lines: _Lines
+
+    def readline(self, timeout: float) -> str | None:
+        deadline = time.monotonic() + timeout
+        while True:
+            line = self._lines.pop()
+            if line is not None:
+                return line
+            if not self._more(deadline):
+                return None
+
+    def _more(self, deadline: float) -> bool:  # pragma: no cover - interface
+        """Feed what has come to ``self._lines``; False once ``deadline`` (monotonic) has passed with nothing.
+
+        Raises :class:`SourceEnded` when no more can come.
+        """
+        raise NotImplementedError
+
+
 def _port_message(port: str, exc: Exception) -> str:
     """Return a one-line message for a port that cannot be opened."""
     text = str(exc)
@@ -85,7 +107,7 @@ def _port_message(port: str, exc: Exception) -> str:
     return f"cannot open the serial port {port!r}: {text.splitlines()[0] if text else exc.__class__.__name__}"
 
 
-class SerialSource(Source):
+class SerialSource(_ByteSource):
     """A thermometer on a serial port (or a pseudo-terminal), read with pyserial."""
 
     def __init__(self, port: str, baudrate: int = 9600) -> None:
@@ -100,23 +122,18 @@ class SerialSource(Source):
             raise InputError(_port_message(port, exc), field="--port") from None
         self._error = serial.SerialException
 
-    def readline(self, timeout: float) -> str | None:
-        deadline = time.monotonic() + timeout
-        while True:
-            line = self._lines.pop()
-            if line is not None:
-                return line
-            try:
-                data = self._port.read(max(1, self._port.in_waiting))
-            except (self._error, OSError) as exc:
-                raise SourceEnded(
-                    f"the serial port {self.name!r} stopped answering ({exc}); "
-                    "the log is kept: start the same command again to go on"
-                ) from None
-            if data:
-                self._lines.feed(data)
-            elif time.monotonic() >= deadline:
-                return None
+    def _more(self, deadline: float) -> bool:
+        try:
+            data = self._port.read(max(1, self._port.in_waiting))
+        except (self._error, OSError) as exc:
+            raise SourceEnded(
+                f"the serial port {self.name!r} stopped answering ({exc}); "
+                "the log is kept: start the same command again to go on"
+            ) from None
+        if data:
+            self._lines.feed(data)
+            return True
+        return time.monotonic() < deadline
 
     def close(self) -> None:
         try:
@@ -125,7 +142,7 @@ class SerialSource(Source):
             pass
 
 
-class CommandSource(Source):
+class CommandSource(_ByteSource):
     """The standard output of a command that prints one reading per line."""
 
     def __init__(self, argv: list[str]) -> None:
@@ -147,24 +164,20 @@ class CommandSource(Source):
             self._queue.put(chunk)
         self._queue.put(None)
 
-    def readline(self, timeout: float) -> str | None:
-        deadline = time.monotonic() + timeout
-        while True:
-            line = self._lines.pop()
-            if line is not None:
-                return line
-            if self._ended:
-                code = self._process.wait()
-                raise SourceEnded(f"the command {self.name!r} ended (exit status {code})", failed=code != 0)
-            try:
-                chunk = self._queue.get(timeout=max(0.0, deadline - time.monotonic()))
-            except queue.Empty:
-                return None
-            if chunk is None:
-                self._ended = True
-                self._lines.feed(b"\n" if self._lines.buffer else b"")
-            else:
-                self._lines.feed(chunk)
+    def _more(self, deadline: float) -> bool:
+        if self._ended:
+            code = self._process.wait()
+            raise SourceEnded(f"the command {self.name!r} ended (exit status {code})", failed=code != 0)
+        try:
+            chunk = self._queue.get(timeout=max(0.0, deadline - time.monotonic()))
+        except queue.Empty:
+            return False
+        if chunk is None:
+            self._ended = True
+            self._lines.feed(b"\n" if self._lines.buffer else b"")
+        else:
+            self._lines.feed(chunk)
+        return True
 
     def close(self) -> None:
         if self._process.poll() is None:
@@ -178,7 +191,7 @@ class CommandSource(Source):
             self._process.stdout.close()  # else the pipe is closed only when collected (a ResourceWarning)
 
 
-class FollowSource(Source):
+class FollowSource(_ByteSource):
     """A file another program appends lines to; only lines added after opening are read (or all)."""
 
     def __init__(self, path: str | Path, *, from_start: bool = False) -> None:
@@ -193,19 +206,15 @@ class FollowSource(Source):
             self._file.seek(0, os.SEEK_END)
         self._lines = _Lines()
 
-    def readline(self, timeout: float) -> str | None:
-        deadline = time.monotonic() + timeout
-        while True:
-            line = self._lines.pop()
-            if line is not None:
-                return line
-            data = self._file.read(MAX_LINE)
-            if data:
-                self._lines.feed(data)
-                continue
-            if time.monotonic() >= deadline:
-                return None
-            time.sleep(min(0.05, max(0.0, deadline - time.monotonic())))
+    def _more(self, deadline: float) -> bool:
+        data = self._file.read(MAX_LINE)
+        if data:
+            self._lines.feed(data)
+            return True
+        if time.monotonic() >= deadline:
+            return False
+        time.sleep(min(0.05, max(0.0, deadline - time.monotonic())))
+        return True
 
     def close(self) -> None:
         self._file.close()
