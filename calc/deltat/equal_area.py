@@ -10,14 +10,7 @@ import math
 
 import numpy as np
 
-from calc.deltat.base import (
-    DeltaT,
-    Log,
-    line_fits,
-    need_windows,
-    read_lines_at,
-    register_method,
-)
+from calc.deltat.base import DeltaT, Log, line_fits, need_windows, read_lines_at, register_method
 from calc.deltat.constructions import EqualAreaConstruction
 from calc.errors import AnalysisError
 

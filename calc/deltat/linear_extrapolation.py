@@ -6,15 +6,7 @@ of each period next to the main period.
 
 from __future__ import annotations
 
-from calc.deltat.base import (
-    LINE_WINDOW_MAX,
-    DeltaT,
-    Log,
-    line_fits,
-    need_windows,
-    read_lines_at,
-    register_method,
-)
+from calc.deltat.base import LINE_WINDOW_MAX, DeltaT, Log, line_fits, need_windows, read_lines_at, register_method
 from calc.deltat.constructions import LineConstruction
 
 __all__ = ["linear_extrapolation"]

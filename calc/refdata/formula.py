@@ -88,25 +88,17 @@ def _check_size(formula: str, counts: dict[str, int], mass: float, field: str | 
     """Refuse a formula beyond the limits formula_count, formula_atoms and molar_mass (calc.limits)."""
     shown = limits.shorten(formula)
     for symbol, count in counts.items():
-        if count > limits.get("formula_count"):
-            raise InputError(
-                f"the formula '{shown}' has {_many(count)} atoms of {symbol}; at most "
-                f"{limits.get('formula_count'):g} (limit formula_count)",
-                field=field,
-                source=source,
-            )
+        _within(shown, count, "formula_count", f"{_many(count)} atoms of {symbol}", "", field, source)
     total = sum(counts.values())
-    if total > limits.get("formula_atoms"):
+    _within(shown, total, "formula_atoms", f"{_many(total)} atoms", "", field, source)
+    _within(shown, mass, "molar_mass", f"a molar mass of {mass:.4g} g/mol", " g/mol", field, source)
+
+
+def _within(shown: str, value: float, limit: str, has: str, unit: str, field: str | None, source: str | None) -> None:
+    """Refuse ``value`` above the limit named ``limit``: "the formula … has <has>; at most <limit><unit>"."""
+    if value > limits.get(limit):
         raise InputError(
-            f"the formula '{shown}' has {_many(total)} atoms; at most "
-            f"{limits.get('formula_atoms'):g} (limit formula_atoms)",
-            field=field,
-            source=source,
-        )
-    if mass > limits.get("molar_mass"):
-        raise InputError(
-            f"the formula '{shown}' has a molar mass of {mass:.4g} g/mol; at most "
-            f"{limits.get('molar_mass'):g} g/mol (limit molar_mass)",
+            f"the formula '{shown}' has {has}; at most {limits.get(limit):g}{unit} (limit {limit})",
             field=field,
             source=source,
         )
