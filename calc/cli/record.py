@@ -67,7 +67,8 @@ def _source(port: str | None, baud: int, command: str | None, follow: str | None
         if not argv:
             raise InputError("the command is empty", field="--command")
         return sources.CommandSource(argv)
-    return sources.FollowSource(follow, from_start=from_start)  # type: ignore[arg-type]
+    assert follow is not None  # exactly one source is given (checked above)
+    return sources.FollowSource(follow, from_start=from_start)
 
 
 def _run_text(run_file: str | None, sim: Any, out: Path) -> str | None:

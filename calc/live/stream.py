@@ -168,8 +168,9 @@ class Streamer:
         if self.state != "recording":  # finished or abandoned in the notebook meanwhile
             raise Refused(f"the live run {self.live_id} is {self.state} in the notebook and takes no more readings")
         before = self.acked
+        assert self.live_id is not None  # set whenever _synced is (ensure_live_run)
         try:
-            self.acked = self.client.post_readings(self.live_id, pending)  # type: ignore[arg-type]
+            self.acked = self.client.post_readings(self.live_id, pending)
         except Conflict:  # the notebook holds other readings than we think: ask it again
             self._synced = False
             raise Unreachable("the notebook's readings differ from ours (409); asking it for its last_seq") from None
