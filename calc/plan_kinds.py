@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, cast
+from typing import Any
 
 from calc.errors import InputError
 from calc.io.quantities import Measured
@@ -36,6 +36,14 @@ PLAN_KINDS: dict[str, PlanKind] = {
 }
 
 
+#: The signature of a kind's ``plan_sections`` hook: (parameters, amount reader, quantity reader, T0, u_read)
+#: → (run-file sections, substances).
+SectionsHook = Callable[
+    [dict[str, Any], Callable[..., Measured], Callable[..., Measured], float, float],
+    tuple[dict[str, dict[str, Any]], list[str]],
+]
+
+
 def _text(value: str | None, name: str, what: str) -> str:
     if not value or not str(value).strip():
         raise InputError(f"missing: {what}", field=name)
@@ -55,10 +63,10 @@ def build_sections(
     ``amount`` and ``measured`` are the plan's readers of a positive amount and a quantity (they
     name the parameter in their errors); ``u_read`` is the thermometer's reading uncertainty.
     """
-    sections = get_kind(kind).hook("plan_sections") if kind in PLAN_KINDS else None
+    sections: SectionsHook | None = get_kind(kind).hook("plan_sections") if kind in PLAN_KINDS else None
     if sections is None:
         raise InputError(f"cannot plan a {kind!r} run; expected one of: {', '.join(PLAN_KINDS)}", field="kind")
-    return cast("tuple[dict[str, dict[str, Any]], list[str]]", sections(p, amount, measured, T0, u_read))
+    return sections(p, amount, measured, T0, u_read)
 
 
 # ------------------------------------------------------------------ the kinds' ``plan_sections`` hooks
