@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from typing import SupportsFloat, cast
 
 from calc.errors import InputError
+from calc.refdata.arguments import as_number
 from calc.refdata.reference import ReferenceValue, phi_L
 
 __all__ = ["Comparison", "Verdict", "compare", "verdict", "TEMPERATURE_NOTE_K", "BASIS_LABELS"]
@@ -156,10 +157,7 @@ def verdict(comparison: object) -> Verdict | None:
 
 
 def _number(x: object, what: str) -> float:
-    try:
-        v = float(cast(SupportsFloat, x))  # float() raises TypeError for the rest, caught below
-    except (TypeError, ValueError):
-        raise InputError(f"{what} must be a number, got {x!r}") from None
+    v = as_number(x, what)
     if math.isnan(v) or math.isinf(v):
         raise InputError(f"{what} must be a finite number, got {x!r}")
     return v

@@ -18,6 +18,7 @@ import numpy as np
 from scipy.interpolate import RegularGridInterpolator
 
 from calc.errors import InputError
+from calc.refdata.arguments import non_negative
 from calc.refdata.datafiles import open_data
 from calc.refdata.formula import element_composition
 from calc.refdata.solutes import dissolution_products, strip_state
@@ -188,12 +189,7 @@ def phi_L(formula: str, molality: float, T_K: float = T_REF_K, *, wide_range: bo
     3. For a 1:1 electrolyte at m <= 0.1 mol/kg, the Debye–Hückel term alone with
        u = 2RT² m·1.5e-3 kg/(mol K) (the neglected short-range term for |B^L| up to 1.5e-3).
     """
-    try:
-        m = float(molality)
-    except (TypeError, ValueError):
-        raise InputError(f"molality must be a number in mol/kg, got {molality!r}") from None
-    if m < 0 or math.isnan(m):
-        raise InputError(f"molality must not be negative, got {molality!r}")
+    m = non_negative(molality, "molality", " in mol/kg")
     T = float(T_K)
     if not (273.15 <= T <= 323.15):
         return None

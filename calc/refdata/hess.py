@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 
 from calc.errors import InputError
+from calc.refdata.arguments import as_number
 from calc.refdata.species import (
     T_REF_K,
     FormationEntry,
@@ -174,10 +175,7 @@ def hess(equation: str, T_K: float = T_REF_K) -> HessResult:
         signed.append((coef, parse_species(text), text))
     _check_balanced(equation, signed, index)
     result, missing_cp = _at_298(signed, index)
-    try:
-        T = float(T_K)
-    except (TypeError, ValueError):
-        raise InputError(f"temperature must be a number in kelvin, got {T_K!r}") from None
+    T = as_number(T_K, "temperature", " in kelvin")
     if abs(T - T_REF_K) > 1e-9:
         _kirchhoff(result, T, missing_cp)
     return result

@@ -34,6 +34,7 @@ from typing import Any
 
 from calc.errors import InputError
 from calc.refdata import laliberte
+from calc.refdata.arguments import as_number, non_negative
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
 from calc.refdata.water import (  # noqa: F401
     GRID_FILE,
@@ -186,20 +187,12 @@ def _solution_value(
 
 def _anhydrous(solutes: dict[str, float], water_mass_g: float) -> tuple[float, dict[str, float]]:
     """Return the water (g, with the water of crystallisation of hydrates) and the anhydrous solutes (g)."""
-    try:
-        m_water = float(water_mass_g)
-    except (TypeError, ValueError):
-        raise InputError(f"water mass must be a number of grams, got {water_mass_g!r}") from None
+    m_water = as_number(water_mass_g, "water mass", " of grams")
     if not m_water > 0.0:
         raise InputError(f"water mass must be positive, got {water_mass_g!r} g")
     anhydrous: dict[str, float] = {}
     for formula, mass in solutes.items():
-        try:
-            m = float(mass)
-        except (TypeError, ValueError):
-            raise InputError(f"mass of {formula!r} must be a number of grams, got {mass!r}") from None
-        if m < 0.0 or math.isnan(m):
-            raise InputError(f"mass of {formula!r} must not be negative, got {mass!r} g")
+        m = non_negative(mass, f"mass of {formula!r}", " of grams", " g")
         if m == 0.0:
             continue
         base, n_water = split_hydrate(formula)

@@ -28,6 +28,7 @@ from functools import lru_cache
 from typing import cast
 
 from calc.errors import InputError
+from calc.refdata.arguments import as_number
 
 __all__ = [
     "ModelledProperty",
@@ -163,10 +164,7 @@ _WATER = _WaterGrid()
 
 
 def _check_T(T_K: float, what: str = "temperature") -> float:
-    try:
-        T = float(T_K)
-    except (TypeError, ValueError):
-        raise InputError(f"{what} must be a number in kelvin, got {T_K!r}") from None
+    T = as_number(T_K, what, " in kelvin")
     if not (T_MIN_K <= T <= T_MAX_K):
         raise InputError(
             f"{what} {T:.2f} K is outside the range of cupcal's water model "
