@@ -15,6 +15,7 @@ import numpy as np
 from calc.simulation.liquids import (
     WATER_CP,
     WATER_DENSITY,
+    dissolved_in_water,
     finish_released,
     formula_molar_mass,
     liquid,
@@ -75,17 +76,7 @@ def simulate_dissolution(
         Log, run dict and truth; ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
     ctx = RunContext("dissolution", rng, options)
-    s = solid_in_liquid(
-        ctx,
-        table="water",
-        volume=water_volume_mL,
-        density=water_density,
-        cp=water_cp,
-        solid=formula,
-        mass=solute_mass_g,
-        solid_cp=solute_cp,
-        mixture_cp=mixture_cp,
-    )
+    s = dissolved_in_water(ctx, formula, solute_mass_g, water_volume_mL, water_density, water_cp, solute_cp, mixture_cp)
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
     return s.release(ctx, n, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
 

@@ -19,6 +19,7 @@ __all__ = [
     "WATER_DENSITY",
     "RunTable",
     "SolidInLiquid",
+    "dissolved_in_water",
     "finish_released",
     "formula_molar_mass",
     "liquid",
@@ -106,6 +107,30 @@ def solid_in_liquid(
     }
     c_before, c_final = m_liq * cp + c_cal, (m_liq + m_s) * c_mix + c_cal
     return SolidInLiquid(body, m_s, c_cal, c_before, c_final)
+
+
+def dissolved_in_water(
+    ctx: RunContext,
+    formula: str,
+    mass: float,
+    volume: float,
+    density: float = WATER_DENSITY,
+    cp: float = WATER_CP,
+    solute_cp: float = 0.8,
+    mixture_cp: float | None = None,
+) -> SolidInLiquid:
+    """Return :func:`solid_in_liquid` for a salt ``formula`` (``mass`` g) dissolved in water (``volume`` mL)."""
+    return solid_in_liquid(
+        ctx,
+        table="water",
+        volume=volume,
+        density=density,
+        cp=cp,
+        solid=formula,
+        mass=mass,
+        solid_cp=solute_cp,
+        mixture_cp=mixture_cp,
+    )
 
 
 def finish_released(
