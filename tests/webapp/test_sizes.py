@@ -21,11 +21,6 @@ MAX_FUNCTION_LINES = 60
 
 #: module (relative to webapp/) → (lines now, why it is longer)
 LONG_MODULES: dict[str, tuple[int, str]] = {
-    "plots.py": (
-        552,
-        "every run plot (run, budget, history) drawn from one figure setup; another change "
-        "(live runs) is editing it now",
-    ),
     "services/calibrations.py": (
         475,
         "authority, pooling, the value in force, withdrawal and re-analysis share "

@@ -6,11 +6,11 @@ from flask import Response, current_app, flash, redirect, render_template, reque
 from flask_login import current_user, login_required
 from wtforms import SelectChoice
 
-from webapp.class_plots import control_chart_svg, distribution_svg
 from webapp.classes.blueprint import bp
 from webapp.classes.forms import BenchForm, CourseForm, RosterForm, SectionForm
 from webapp.db import get_session
 from webapp.exports.grading import grading_csv, grading_extras, grading_xlsx
+from webapp.plots.classes import control_chart_svg, distribution_svg
 from webapp.services.access import require_coordinator
 from webapp.services.board_view import BoardPage, board_page
 from webapp.services.calorimeters import calorimeters_query
