@@ -40,19 +40,6 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
 
 #: "module::function" → (lines now, why it is longer)
 LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
-    "__init__.py::create_app": (
-        72,
-        "the app factory: settings in their order of precedence, then every "
-        "blueprint; not yet split into settings and registration",
-    ),
-    "runs/create_views.py::new_kind": (
-        67,
-        "the new-run page of one kind, preview and save; runs/ is being edited by another change (live runs) now",
-    ),
-    "runs/create_views.py::upload": (
-        64,
-        "the run-file upload page, preview and save; runs/ is being edited by another change (live runs) now",
-    ),
     "services/analysis.py::result_from_analysis": (
         69,
         "copies every field of calc's Analysis onto a Result row, one assignment per column",
