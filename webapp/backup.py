@@ -82,11 +82,16 @@ def _libpq(url: str) -> tuple[str, dict[str, str]]:
     return uri, env
 
 
-def _run(cmd: list[str], env: dict[str, str], what: str) -> None:
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True)
+def _pg_tool(tool: str, url: str, *args: str) -> None:
+    """Run the PostgreSQL client ``tool`` (pg_dump, pg_restore) on the database at ``url`` with ``args``.
+
+    :raise BackupError: with the tool's last line of output when it fails
+    """
+    uri, env = _libpq(url)
+    done = subprocess.run([str(find_pg_tool(tool)), f"--dbname={uri}", *args], env=env, capture_output=True, text=True)
     if done.returncode != 0:
         lines = [ln.strip() for ln in (done.stderr or done.stdout).splitlines() if ln.strip()]
-        raise BackupError(f"{what} failed: {lines[-1] if lines else f'exit status {done.returncode}'}")
+        raise BackupError(f"{tool} failed: {lines[-1] if lines else f'exit status {done.returncode}'}")
 
 
 def _magic(path: Path, size: int) -> bytes:
@@ -139,19 +144,7 @@ def backup(url: str, out: Path, *, force: bool = False) -> None:
         if dialect == "sqlite":
             _backup_sqlite(_sqlite_path(url), tmp)
         else:
-            uri, env = _libpq(url)
-            _run(
-                [
-                    str(find_pg_tool("pg_dump")),
-                    "--format=custom",
-                    "--no-owner",
-                    "--no-privileges",
-                    f"--file={tmp}",
-                    f"--dbname={uri}",
-                ],
-                env,
-                "pg_dump",
-            )
+            _pg_tool("pg_dump", url, "--format=custom", "--no-owner", "--no-privileges", f"--file={tmp}")
         os.replace(tmp, out)
     finally:
         tmp.unlink(missing_ok=True)
@@ -201,22 +194,8 @@ def restore(url: str, source: Path, *, force: bool = False) -> None:
     if dialect == "sqlite":
         _restore_sqlite(source, _sqlite_path(url))
     else:
-        uri, env = _libpq(url)
-        _run(
-            [
-                str(find_pg_tool("pg_restore")),
-                "--clean",
-                "--if-exists",
-                "--no-owner",
-                "--no-privileges",
-                "--single-transaction",
-                "--exit-on-error",
-                f"--dbname={uri}",
-                str(source),
-            ],
-            env,
-            "pg_restore",
-        )
+        options = ("--clean", "--if-exists", "--no-owner", "--no-privileges", "--single-transaction", "--exit-on-error")
+        _pg_tool("pg_restore", url, *options, str(source))
 
 
 def _restore_sqlite(source: Path, target: Path) -> None:
