@@ -9,6 +9,7 @@ from flask import flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.review.blueprint import bp
 from webapp.services import comments as comment_service
 from webapp.services.access import require_coordinator
@@ -31,19 +32,12 @@ def _back(run_id: int, anchor: str = "review") -> str:
     return url_for("runs.detail", run_id=run_id) + f"#{anchor}"
 
 
-def _fail(exc: ServiceError) -> None:
-    get_session().rollback()
-    if exc.status in (403, 404):
-        raise exc
-    flash(exc.message, "error")
-
-
 def _on_run(run_id: int, anchor: str, work: Callable[[], str]) -> Any:
     """Do ``work`` (it returns what to tell) and go back to the run's page at ``anchor``; a refusal is told instead."""
     try:
         flash(work())
     except ServiceError as exc:
-        _fail(exc)
+        flash_refusal(exc)
     return redirect(_back(run_id, anchor))
 
 
@@ -102,7 +96,7 @@ def group_comment(group_id: int):  # type: ignore[no-untyped-def]
         flash("Comment saved.")
         section_id = comment_service.get_group(session, current_user, comment.group_id).section_id
     except ServiceError as exc:
-        _fail(exc)
+        flash_refusal(exc)
         section_id = request.form.get("section_id", type=int)
     if section_id:
         return redirect(url_for("classes.section_board", section_id=section_id) + f"#group-{group_id}")
@@ -125,7 +119,7 @@ def marking(section_id: int):  # type: ignore[no-untyped-def]
             flash("Marking scheme saved.")
             return redirect(url_for("review.marking", section_id=section.id))
         except ServiceError as exc:
-            _fail(exc)
+            flash_refusal(exc)
             status = 400
     bands, own = scheme_of(session, section.id)
     if request.method == "GET" or status == 200:
