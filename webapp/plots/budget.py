@@ -16,6 +16,7 @@ from webapp.plots.canvas import (
     add_axes,
     heading,
     new_figure,
+    no_data,
     plain,
     style_axes,
     to_svg,
@@ -61,15 +62,7 @@ def budget_plot_svg(budget: list[BudgetLine], *, unit: str, top: int = 8) -> str
     ax.spines["left"].set_visible(False)
     ax.tick_params(axis="y", length=0)
     if not rows:
-        ax.text(
-            0.5,
-            0.5,
-            "no uncertainty contributions",
-            transform=ax.transAxes,
-            ha="center",
-            va="center",
-            fontsize=FS_LABEL,
-        )
+        no_data(ax, "no uncertainty contributions")
         ax.set_yticks([])
     ypos = np.arange(len(rows))[::-1]
     for i, ((label, share, contrib), yp) in enumerate(zip(rows, ypos)):

@@ -108,27 +108,17 @@ def add_axes(fig: Figure, *, left: float, right: float, top: float, bottom: floa
 
 
 def heading(fig: Figure, title: str, subtitle: str | None = None) -> None:
-    h = fig.get_size_inches()[1]
-    fig.text(
-        0.12 / fig.get_size_inches()[0],
-        1 - 0.1 / h,
-        plain(title),
-        ha="left",
-        va="top",
-        fontsize=FS_TITLE,
-        fontweight="bold",
-        color=_C["black"],
-    )
+    """Write the title (bold) at the figure's top left, and the subtitle under it."""
+    w, h = fig.get_size_inches()
+    at: dict[str, Any] = dict(ha="left", va="top")
+    fig.text(0.12 / w, 1 - 0.1 / h, plain(title), fontsize=FS_TITLE, fontweight="bold", color=_C["black"], **at)
     if subtitle:
-        fig.text(
-            0.12 / fig.get_size_inches()[0],
-            1 - 0.32 / h,
-            plain(subtitle),
-            ha="left",
-            va="top",
-            fontsize=FS_NOTE,
-            color="#4d4d4d",
-        )
+        fig.text(0.12 / w, 1 - 0.32 / h, plain(subtitle), fontsize=FS_NOTE, color="#4d4d4d", **at)
+
+
+def no_data(ax: Any, text: str) -> None:
+    """Say in the middle of empty axes why nothing is drawn."""
+    ax.text(0.5, 0.5, text, transform=ax.transAxes, ha="center", va="center", fontsize=FS_LABEL)
 
 
 _TAG = re.compile(r"(<[^<>!?]+>)")

@@ -10,7 +10,17 @@ import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from webapp.plots.canvas import FS_LABEL, add_axes, heading, legend_below, measured_text, new_figure, style_axes, to_svg
+from webapp.plots.canvas import (
+    FS_LABEL,
+    add_axes,
+    heading,
+    legend_below,
+    measured_text,
+    new_figure,
+    no_data,
+    style_axes,
+    to_svg,
+)
 from webapp.plots.canvas import OKABE_ITO as _C
 
 _UNCERTAINTY_KINDS = {"expanded": "expanded uncertainty U (about 95 %)", "standard": "standard uncertainty u"}
@@ -60,15 +70,7 @@ def calibration_history_svg(
 def _draw_points(ax: Any, pts: list[tuple[datetime, float, float]], kind: str) -> list[Any]:
     """Draw the calibrations with their error bars and a date axis; return the legend handles."""
     if not pts:
-        ax.text(
-            0.5,
-            0.5,
-            "no calibrations recorded yet",
-            transform=ax.transAxes,
-            ha="center",
-            va="center",
-            fontsize=FS_LABEL,
-        )
+        no_data(ax, "no calibrations recorded yet")
         ax.set_xticks([])
         return []
     x = [p[0] for p in pts]
