@@ -17,6 +17,7 @@ import shutil
 import sqlite3
 import subprocess
 import tempfile
+from contextlib import closing
 from pathlib import Path
 
 import sqlalchemy as sa
@@ -155,17 +156,10 @@ def _backup_sqlite(src: Path, dest: Path) -> None:
         raise BackupError(f"the SQLite database {src} does not exist")
     dest.unlink(missing_ok=True)
     try:
-        source = sqlite3.connect(src, timeout=30)  # waits for a writer of the running server
-        try:
-            target = sqlite3.connect(dest)
-            try:
-                source.backup(target)
-                # a self-contained file: no WAL beside it
-                target.execute("PRAGMA journal_mode=DELETE")
-            finally:
-                target.close()
-        finally:
-            source.close()
+        # the source waits for a writer of the running server
+        with closing(sqlite3.connect(src, timeout=30)) as source, closing(sqlite3.connect(dest)) as target:
+            source.backup(target)
+            target.execute("PRAGMA journal_mode=DELETE")  # a self-contained file: no WAL beside it
     except sqlite3.Error as exc:
         raise BackupError(f"SQLite backup of {src} failed: {exc}") from None
 
@@ -202,19 +196,13 @@ def _restore_sqlite(source: Path, target: Path) -> None:
     if not target.parent.is_dir():
         raise BackupError(f"folder {target.parent} does not exist")
     try:
-        src = sqlite3.connect(f"file:{source}?mode=ro", uri=True)
-        try:
+        with closing(sqlite3.connect(f"file:{source}?mode=ro", uri=True)) as src:
             problems = [row[0] for row in src.execute("PRAGMA integrity_check")]
             if problems != ["ok"]:
                 raise BackupError(f"{source} fails SQLite's integrity check: {problems[0]}")
-            dst = sqlite3.connect(target, timeout=30)
-            try:
+            with closing(sqlite3.connect(target, timeout=30)) as dst:
                 src.backup(dst)
                 problems = [row[0] for row in dst.execute("PRAGMA integrity_check")]
-            finally:
-                dst.close()
-        finally:
-            src.close()
     except sqlite3.Error as exc:
         raise BackupError(f"SQLite restore from {source} failed: {exc}") from None
     if problems != ["ok"]:
