@@ -38,15 +38,15 @@ DEFAULTS: dict[str, Any] = {
     "CUPCAL_HTTPS": False,  # True (or env CUPCAL_HTTPS=1) behind HTTPS: Secure session cookie, HSTS (webapp/security.py)
     "EMBED_FRAME_ANCESTORS": "'self'",  # CSP frame-ancestors of the /embed/ routes only, e.g. "https://eln.example"
     "EMBED_LINK_MAX_AGE": 7 * 24 * 3600,  # seconds a signed card link stays valid
-    "TRUST_PROXY_USER_HEADER": None,
+    "TRUST_PROXY_USER_HEADER": None,  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
     # overrides of calc.limits (README, "Limits"), e.g. {"monte_carlo_trials": 20_000}; same keys as CUPCAL_LIMITS
     "LIMITS": {},
     "WEBHOOK_REQUIRE_HTTPS": None,  # None: required when CUPCAL_HTTPS is on (production); True/False to force
-    "LIVE_STREAM_SECONDS": 50,
+    "LIVE_STREAM_SECONDS": 50,  # a live page's event stream ends after this long; the browser reconnects
     # a live run is advised again once its newest reading is this many seconds (log clock) past the last
     # advised one (0: every batch); the advisor's cost grows with the log, and 30 benches share the server
-    "LIVE_ADVICE_EVERY_S": 3.0,  # a live page's event stream ends after this long; the browser reconnects
-    "WEBHOOK_ALLOW_PRIVATE": False,  # tests only: let a webhook reach a local receiver (never in production)  # e.g. "X-Remote-User": only behind a proxy that strips it (README)
+    "LIVE_ADVICE_EVERY_S": 3.0,
+    "WEBHOOK_ALLOW_PRIVATE": False,  # tests only: let a webhook reach a local receiver (never in production)
 }
 
 
@@ -57,6 +57,17 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     """
     folder = os.environ.get("CUPCAL_INSTANCE_PATH")  # e.g. /var/lib/cupcal; default: instance/ beside the code
     app = Flask(__name__, instance_relative_config=True, instance_path=os.path.abspath(folder) if folder else None)
+    _load_settings(app, config)
+    _check_limits(app)
+    _register(app)
+    return app
+
+
+def _load_settings(app: Flask, config: Mapping[str, Any] | None) -> None:
+    """Set ``app.config`` in order of precedence: DEFAULTS, ``config.py``, the environment, ``config``.
+
+    What is still unset then is made: the SQLite file and the secret key, both in the instance folder.
+    """
     app.config.from_mapping(DEFAULTS)
     app.config.from_pyfile("config.py", silent=True)
     if os.environ.get("DATABASE_URL"):
@@ -73,6 +84,22 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     if not app.config["SECRET_KEY"]:
         app.config["SECRET_KEY"] = _instance_secret(app)
 
+
+def _check_limits(app: Flask) -> None:
+    """Check ``LIMITS`` against calc's limits (and MONTE_CARLO_TRIALS within them); a bad one stops the start."""
+    from calc import limits as calc_limits
+
+    try:
+        app.config["LIMITS"] = calc_limits.checked(app.config.get("LIMITS") or {})
+    except calc_limits.InputError as exc:
+        raise RuntimeError(f"cupcal configuration: {exc}") from None
+    trials = int(app.config["MONTE_CARLO_TRIALS"])
+    if trials > {**calc_limits.DEFAULTS, **app.config["LIMITS"]}["monte_carlo_trials"]:
+        raise RuntimeError("cupcal configuration: MONTE_CARLO_TRIALS is over the limit monte_carlo_trials")
+
+
+def _register(app: Flask) -> None:
+    """Register the request hooks, the extensions and every blueprint."""
     from calc import limits as calc_limits
     from webapp import auth, db, error_handlers, security, templating
     from webapp.api import bp as api_bp
@@ -87,13 +114,6 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     from webapp.review import bp as review_bp
     from webapp.runs import bp as runs_bp
 
-    try:
-        app.config["LIMITS"] = calc_limits.checked(app.config.get("LIMITS") or {})
-    except calc_limits.InputError as exc:
-        raise RuntimeError(f"cupcal configuration: {exc}") from None
-    trials = int(app.config["MONTE_CARLO_TRIALS"])
-    if trials > {**calc_limits.DEFAULTS, **app.config["LIMITS"]}["monte_carlo_trials"]:
-        raise RuntimeError("cupcal configuration: MONTE_CARLO_TRIALS is over the limit monte_carlo_trials")
     app.before_request(lambda: calc_limits.set_for_context(app.config["LIMITS"]))
     app.before_request(_no_nul_in_text)
     app.url_value_preprocessor(_ids_in_range)
@@ -103,19 +123,22 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     error_handlers.init_app(app)
     security.init_app(app)
     app.register_blueprint(auth.bp)
-    app.register_blueprint(main_bp)
-    app.register_blueprint(runs_bp)
-    app.register_blueprint(calorimeters_bp)
-    app.register_blueprint(api_bp)
-    app.register_blueprint(classes_bp)
-    app.register_blueprint(imports_bp)
-    app.register_blueprint(planning_bp)
-    app.register_blueprint(embed_bp)
-    app.register_blueprint(review_bp)
-    app.register_blueprint(live_bp)
+    blueprints = (
+        main_bp,
+        runs_bp,
+        calorimeters_bp,
+        api_bp,
+        classes_bp,
+        imports_bp,
+        planning_bp,
+        embed_bp,
+        review_bp,
+        live_bp,
+    )
+    for bp in blueprints:
+        app.register_blueprint(bp)
     init_proxy_user()
     auth.csrf.exempt(api_bp)  # the API takes no cookie sessions for writes: tokens only
-    return app
 
 
 #: endpoints that take a bulk import, whose own size limit (IMPORT_MAX_UPLOAD_BYTES) must be set before

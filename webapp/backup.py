@@ -17,6 +17,7 @@ import shutil
 import sqlite3
 import subprocess
 import tempfile
+from contextlib import closing
 from pathlib import Path
 
 import sqlalchemy as sa
@@ -82,11 +83,16 @@ def _libpq(url: str) -> tuple[str, dict[str, str]]:
     return uri, env
 
 
-def _run(cmd: list[str], env: dict[str, str], what: str) -> None:
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True)
+def _pg_tool(tool: str, url: str, *args: str) -> None:
+    """Run the PostgreSQL client ``tool`` (pg_dump, pg_restore) on the database at ``url`` with ``args``.
+
+    :raise BackupError: with the tool's last line of output when it fails
+    """
+    uri, env = _libpq(url)
+    done = subprocess.run([str(find_pg_tool(tool)), f"--dbname={uri}", *args], env=env, capture_output=True, text=True)
     if done.returncode != 0:
         lines = [ln.strip() for ln in (done.stderr or done.stdout).splitlines() if ln.strip()]
-        raise BackupError(f"{what} failed: {lines[-1] if lines else f'exit status {done.returncode}'}")
+        raise BackupError(f"{tool} failed: {lines[-1] if lines else f'exit status {done.returncode}'}")
 
 
 def _magic(path: Path, size: int) -> bytes:
@@ -139,19 +145,7 @@ def backup(url: str, out: Path, *, force: bool = False) -> None:
         if dialect == "sqlite":
             _backup_sqlite(_sqlite_path(url), tmp)
         else:
-            uri, env = _libpq(url)
-            _run(
-                [
-                    str(find_pg_tool("pg_dump")),
-                    "--format=custom",
-                    "--no-owner",
-                    "--no-privileges",
-                    f"--file={tmp}",
-                    f"--dbname={uri}",
-                ],
-                env,
-                "pg_dump",
-            )
+            _pg_tool("pg_dump", url, "--format=custom", "--no-owner", "--no-privileges", f"--file={tmp}")
         os.replace(tmp, out)
     finally:
         tmp.unlink(missing_ok=True)
@@ -162,17 +156,10 @@ def _backup_sqlite(src: Path, dest: Path) -> None:
         raise BackupError(f"the SQLite database {src} does not exist")
     dest.unlink(missing_ok=True)
     try:
-        source = sqlite3.connect(src, timeout=30)  # waits for a writer of the running server
-        try:
-            target = sqlite3.connect(dest)
-            try:
-                source.backup(target)
-                # a self-contained file: no WAL beside it
-                target.execute("PRAGMA journal_mode=DELETE")
-            finally:
-                target.close()
-        finally:
-            source.close()
+        # the source waits for a writer of the running server
+        with closing(sqlite3.connect(src, timeout=30)) as source, closing(sqlite3.connect(dest)) as target:
+            source.backup(target)
+            target.execute("PRAGMA journal_mode=DELETE")  # a self-contained file: no WAL beside it
     except sqlite3.Error as exc:
         raise BackupError(f"SQLite backup of {src} failed: {exc}") from None
 
@@ -201,41 +188,21 @@ def restore(url: str, source: Path, *, force: bool = False) -> None:
     if dialect == "sqlite":
         _restore_sqlite(source, _sqlite_path(url))
     else:
-        uri, env = _libpq(url)
-        _run(
-            [
-                str(find_pg_tool("pg_restore")),
-                "--clean",
-                "--if-exists",
-                "--no-owner",
-                "--no-privileges",
-                "--single-transaction",
-                "--exit-on-error",
-                f"--dbname={uri}",
-                str(source),
-            ],
-            env,
-            "pg_restore",
-        )
+        options = ("--clean", "--if-exists", "--no-owner", "--no-privileges", "--single-transaction", "--exit-on-error")
+        _pg_tool("pg_restore", url, *options, str(source))
 
 
 def _restore_sqlite(source: Path, target: Path) -> None:
     if not target.parent.is_dir():
         raise BackupError(f"folder {target.parent} does not exist")
     try:
-        src = sqlite3.connect(f"file:{source}?mode=ro", uri=True)
-        try:
+        with closing(sqlite3.connect(f"file:{source}?mode=ro", uri=True)) as src:
             problems = [row[0] for row in src.execute("PRAGMA integrity_check")]
             if problems != ["ok"]:
                 raise BackupError(f"{source} fails SQLite's integrity check: {problems[0]}")
-            dst = sqlite3.connect(target, timeout=30)
-            try:
+            with closing(sqlite3.connect(target, timeout=30)) as dst:
                 src.backup(dst)
                 problems = [row[0] for row in dst.execute("PRAGMA integrity_check")]
-            finally:
-                dst.close()
-        finally:
-            src.close()
     except sqlite3.Error as exc:
         raise BackupError(f"SQLite restore from {source} failed: {exc}") from None
     if problems != ["ok"]:

@@ -9,6 +9,7 @@ database is the one :func:`webapp.create_app` configures (instance folder, or
 from __future__ import annotations
 
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 import click
@@ -275,14 +276,9 @@ def backup_command(out: Path, force: bool) -> None:
     SQLite: a copy made with SQLite's online backup API. PostgreSQL: a pg_dump
     custom-format archive (needs pg_dump on this machine).
     """
-    from webapp.backup import BackupError, backup
+    from webapp.backup import backup
 
-    app = command_app()
-    try:
-        backup(_url(app), out, force=force)
-    except BackupError as exc:
-        raise _Refused(str(exc)) from None
-    click.echo(f"backed up {_shown(_url(app))} to {out}")
+    click.echo(f"backed up {_on_database(backup, out, force)} to {out}")
 
 
 @click.command("restore")
@@ -293,11 +289,21 @@ def restore_command(source: Path, force: bool) -> None:
 
     Only an empty database is restored into, unless --force. Stop the notebook first.
     """
-    from webapp.backup import BackupError, restore
+    from webapp.backup import restore
+
+    click.echo(f"restored {_on_database(restore, source, force)} from {source}")
+
+
+def _on_database(step: Callable[..., None], path: Path, force: bool) -> str:
+    """Run ``step`` (backup or restore) on the notebook's database and the file ``path``; return the database as shown.
+
+    :raise _Refused: with the one-line reason when the step refuses
+    """
+    from webapp.backup import BackupError
 
     app = command_app()
     try:
-        restore(_url(app), source, force=force)
+        step(_url(app), path, force=force)
     except BackupError as exc:
         raise _Refused(str(exc)) from None
-    click.echo(f"restored {_shown(_url(app))} from {source}")
+    return _shown(_url(app))

@@ -10,13 +10,26 @@ from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
-from flask import Flask, Response, current_app, jsonify, render_template, request
+from flask import Flask, Response, current_app, flash, jsonify, render_template, request
 from flask_wtf.csrf import CSRFError
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from calc.errors import CupcalError
 from calc.limits import LimitExceeded
 from webapp.services.errors import ServiceError, Stale, storage_error
+
+
+def flash_refusal(exc: ServiceError, prefix: str = "") -> None:
+    """Tell a page's user why a service refused (``prefix`` first), on the page they go back to; nothing is stored.
+
+    A 403 or 404 is raised on instead: the error page, which names nothing the person may not see.
+    """
+    from webapp.db import get_session
+
+    get_session().rollback()
+    if exc.status in (403, 404):
+        raise exc
+    flash(prefix + exc.message, "error")
 
 
 def wants_json() -> bool:

@@ -11,6 +11,7 @@ from __future__ import annotations
 from webapp.api import (
     calorimeters,  # noqa: F401  (registers the routes)
     classes,  # noqa: F401
+    classes_openapi,  # noqa: F401  (documents the classes routes)
     eln,  # noqa: F401
     exchange,  # noqa: F401
     live,  # noqa: F401

@@ -4,13 +4,13 @@ from __future__ import annotations
 
 from typing import Any
 
-from webapp.api.openapi import json_response as _json
-from webapp.api.openapi import list_of as _list_of
-from webapp.api.openapi import operation as _op
-from webapp.api.openapi import path_param as _id
 from webapp.api.openapi import register
-from webapp.api.openapi import request_body as _body
-from webapp.api.openapi import schema_ref as _ref
+from webapp.api.openapi_build import json_response as _json
+from webapp.api.openapi_build import list_of as _list_of
+from webapp.api.openapi_build import operation as _op
+from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import request_body as _body
+from webapp.api.openapi_build import schema_ref as _ref
 
 _RUN_ID = [_id("run_id")]
 _HOOK_ID = [_id("webhook_id")]

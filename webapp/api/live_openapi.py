@@ -4,11 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from webapp.api.openapi import json_response as _json
-from webapp.api.openapi import operation as _op
-from webapp.api.openapi import path_param as _id
 from webapp.api.openapi import register
-from webapp.api.openapi import request_body as _body
+from webapp.api.openapi_build import json_response as _json
+from webapp.api.openapi_build import operation as _op
+from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import request_body as _body
 
 _LIVE_ID = [_id("live_id")]
 _ADVICE = {

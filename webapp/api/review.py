@@ -7,11 +7,11 @@ from typing import Any
 from flask import jsonify
 
 from webapp.api.blueprint import bp
-from webapp.api.openapi import json_response as _json
-from webapp.api.openapi import operation as _op
-from webapp.api.openapi import path_param as _id
 from webapp.api.openapi import register
-from webapp.api.openapi import request_body as _body
+from webapp.api.openapi_build import json_response as _json
+from webapp.api.openapi_build import operation as _op
+from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import request_body as _body
 from webapp.api.params import actor, as_float, json_object
 from webapp.db import get_session
 from webapp.models import Comment, RunReview

@@ -2,20 +2,15 @@
 
 from __future__ import annotations
 
-import datetime as dt
 from typing import Any
 
 from flask import url_for
 
 from calc.refdata.comparison import verdict, verdict_record
+from webapp.exports.document import input_json, iso
 from webapp.models import Calibration, Calorimeter, Course, Group, Person, Result, Run
 from webapp.quantities import RESULT_OUTPUTS, result_value
 from webapp.services.runs import Page
-
-
-def iso(value: dt.datetime | None) -> str | None:
-    """Return a stored UTC time in ISO 8601 with a Z."""
-    return None if value is None else value.isoformat() + "Z"
 
 
 def person_ref(p: Person | None) -> dict[str, Any] | None:
@@ -169,17 +164,7 @@ def run_json(run: Run) -> dict[str, Any]:
         "locked_at": iso(run.locked_at),
         "locked_result_id": run.locked_result_id,
         "locked_hash": run.locked_hash,
-        "inputs": [
-            {
-                "field": i.field,
-                "value": i.value,
-                "standard_uncertainty": i.std_uncertainty,
-                "unit": i.unit,
-                "text": i.text,
-                "origin": i.origin,
-            }
-            for i in run.inputs
-        ],
+        "inputs": [input_json(i) for i in run.inputs],
         "results": [result_summary(r) for r in run.results],
         "review": review_summary(run),
     }

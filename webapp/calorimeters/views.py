@@ -11,6 +11,7 @@ from flask_login import current_user, login_required
 from webapp.calorimeters.blueprint import bp
 from webapp.calorimeters.forms import CalorimeterEditForm, CalorimeterForm, HeatCapacityForm
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.plot_cache import history_plot, svg_response
 from webapp.services.access import is_coordinator
 from webapp.services.calibrations import is_staff
@@ -229,10 +230,7 @@ def _action(calorimeter_id: int, act: Callable[[Any], str]) -> Any:
     try:
         flash(act(session))
     except ServiceError as exc:
-        session.rollback()
-        if exc.status in (403, 404):
-            raise
-        flash(exc.message, "error")
+        flash_refusal(exc)
     return redirect(url_for("calorimeters.detail", calorimeter_id=calorimeter_id))
 
 

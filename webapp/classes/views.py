@@ -6,11 +6,12 @@ from flask import Response, current_app, flash, redirect, render_template, reque
 from flask_login import current_user, login_required
 from wtforms import SelectChoice
 
-from webapp.class_plots import control_chart_svg, distribution_svg
 from webapp.classes.blueprint import bp
 from webapp.classes.forms import BenchForm, CourseForm, RosterForm, SectionForm
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.exports.grading import grading_csv, grading_extras, grading_xlsx
+from webapp.plots.classes import control_chart_svg, distribution_svg
 from webapp.services.access import require_coordinator
 from webapp.services.board_view import BoardPage, board_page
 from webapp.services.calorimeters import calorimeters_query
@@ -114,9 +115,7 @@ def new_section(course_id: int):  # type: ignore[no-untyped-def]
             create_section(get_session(), current_user, course_id=course_id, name=form.name.data)
             flash("Section added.")
         except ServiceError as exc:
-            if exc.status in (403, 404):
-                raise
-            flash(exc.message, "error")
+            flash_refusal(exc)
     return redirect(url_for("classes.index"))
 
 

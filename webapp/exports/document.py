@@ -21,7 +21,7 @@ import sqlalchemy.orm as so
 
 from calc import __version__
 from calc.refdata.comparison import verdict, verdict_record
-from webapp.models import Person, Result, Run
+from webapp.models import Person, Result, Run, RunInput
 from webapp.quantities import RESULT_OUTPUTS, result_value
 from webapp.services.errors import Invalid, NotFound
 from webapp.services.runs import get_run
@@ -35,6 +35,18 @@ MAX_SELECTION = 200
 def iso(value: dt.datetime | None) -> str | None:
     """Return a stored (naive UTC) time as ISO 8601 with ``Z``, or None."""
     return None if value is None else value.isoformat() + "Z"
+
+
+def input_json(i: RunInput) -> dict[str, Any]:
+    """Return one measured input of a run as read from its file (value ± u in the unit written, and its origin)."""
+    return {
+        "field": i.field,
+        "value": i.value,
+        "standard_uncertainty": i.std_uncertainty,
+        "unit": i.unit,
+        "text": i.text,
+        "origin": i.origin,
+    }
 
 
 def _person(p: Person | None) -> dict[str, Any] | None:
@@ -131,17 +143,7 @@ def run_document(run: Run, *, exported_at: dt.datetime | None = None) -> dict[st
             "run_file": file_entry(run.run_file_name, run.run_toml.encode("utf-8"), "application/toml"),
             "readings": file_entry(run.readings_name, run.readings_raw, "text/csv"),
         },
-        "inputs": [
-            {
-                "field": i.field,
-                "value": i.value,
-                "standard_uncertainty": i.std_uncertainty,
-                "unit": i.unit,
-                "text": i.text,
-                "origin": i.origin,
-            }
-            for i in run.inputs
-        ],
+        "inputs": [input_json(i) for i in run.inputs],
         "result": result_document(current) if current is not None else None,
         "earlier_results": [result_document(r) for r in run.results if r is not current],
         "provenance": {

@@ -37,6 +37,11 @@ def _person_id(p: Person) -> str:
     return f"#person-{p.id}"
 
 
+def _file(path: str, name: str, encoding: str, data: bytes) -> dict[str, Any]:
+    """Return the crate's ``File`` entity of one data file."""
+    return {"@id": path, "@type": "File", "name": name, "encodingFormat": encoding, "contentSize": str(len(data))}
+
+
 def crate_files(run: Run) -> tuple[dict[str, Any], dict[str, bytes]]:
     """Return the crate metadata and its data files (name → bytes) for ``run``."""
     doc = run_document(run)
@@ -50,30 +55,40 @@ def crate_files(run: Run) -> tuple[dict[str, Any], dict[str, bytes]]:
         readings_name: bytes(run.readings_raw),
         EXPORT_NAME: json.dumps(doc, ensure_ascii=False, indent=2).encode("utf-8"),
     }
-    people = {p.id: p for p in (run.author, run.current_result.created_by if run.current_result else None)
-              if p is not None}
+    people = {
+        p.id: p for p in (run.author, run.current_result.created_by if run.current_result else None) if p is not None
+    }
     software = {"@id": "#cupcal", "@type": "SoftwareApplication", "name": "cupcal", "version": __version__}
     graph: list[dict[str, Any]] = [
         {"@id": METADATA, "@type": "CreativeWork", "conformsTo": {"@id": PROFILE}, "about": {"@id": "./"}},
-        {"@id": "./", "@type": "Dataset", "name": run.title or run.run_file_name,
-         "description": f"cupcal {run.kind} run {run.id}: run file, thermometer readings and analyzed result",
-         "datePublished": doc["exported_at"][:10],
-         "creator": [{"@id": _person_id(run.author)}],
-         "hasPart": [{"@id": run_name}, {"@id": readings_name}, {"@id": EXPORT_NAME}],
-         "mentions": {"@id": "#analysis"}},
-        {"@id": run_name, "@type": "File", "name": "Run file (as uploaded)", "encodingFormat": "application/toml",
-         "contentSize": str(len(files[run_name]))},
-        {"@id": readings_name, "@type": "File", "name": "Thermometer readings (as uploaded)",
-         "encodingFormat": "text/csv", "contentSize": str(len(files[readings_name]))},
-        {"@id": EXPORT_NAME, "@type": "File", "name": "Result, budget and provenance (cupcal JSON export)",
-         "encodingFormat": "application/json", "contentSize": str(len(files[EXPORT_NAME]))},
+        {
+            "@id": "./",
+            "@type": "Dataset",
+            "name": run.title or run.run_file_name,
+            "description": f"cupcal {run.kind} run {run.id}: run file, thermometer readings and analyzed result",
+            "datePublished": doc["exported_at"][:10],
+            "creator": [{"@id": _person_id(run.author)}],
+            "hasPart": [{"@id": run_name}, {"@id": readings_name}, {"@id": EXPORT_NAME}],
+            "mentions": {"@id": "#analysis"},
+        },
+        _file(run_name, "Run file (as uploaded)", "application/toml", files[run_name]),
+        _file(readings_name, "Thermometer readings (as uploaded)", "text/csv", files[readings_name]),
+        _file(
+            EXPORT_NAME, "Result, budget and provenance (cupcal JSON export)", "application/json", files[EXPORT_NAME]
+        ),
         software,
-        {"@id": "#analysis", "@type": "CreateAction", "name": "Calorimetric analysis",
-         "instrument": {"@id": "#cupcal"}, "object": [{"@id": run_name}, {"@id": readings_name}],
-         "result": [{"@id": EXPORT_NAME}],
-         "agent": {"@id": _person_id(run.current_result.created_by)}
-         if run.current_result and run.current_result.created_by else {"@id": _person_id(run.author)},
-         "endTime": doc["result"]["analyzed_at"] if doc["result"] else doc["exported_at"]},
+        {
+            "@id": "#analysis",
+            "@type": "CreateAction",
+            "name": "Calorimetric analysis",
+            "instrument": {"@id": "#cupcal"},
+            "object": [{"@id": run_name}, {"@id": readings_name}],
+            "result": [{"@id": EXPORT_NAME}],
+            "agent": {"@id": _person_id(run.current_result.created_by)}
+            if run.current_result and run.current_result.created_by
+            else {"@id": _person_id(run.author)},
+            "endTime": doc["result"]["analyzed_at"] if doc["result"] else doc["exported_at"],
+        },
     ]
     graph += [{"@id": _person_id(p), "@type": "Person", "name": p.name} for p in people.values()]
     return {"@context": CONTEXT, "@graph": graph}, files
@@ -88,4 +103,3 @@ def crate_zip(run: Run) -> bytes:
         for name, data in files.items():
             z.writestr(name, data)
     return out.getvalue()
-

@@ -2,16 +2,20 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from flask import current_app, render_template, request
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField
+from sqlalchemy.orm import Session
 
 from webapp.db import get_session
 from webapp.imports.blueprint import bp
+from webapp.imports.views import report_of
 from webapp.services.classes import require_staff
 from webapp.services.eln_import import import_eln
-from webapp.services.errors import Invalid, ServiceError
+from webapp.services.errors import Invalid
 
 
 class ElnForm(FlaskForm):
@@ -29,24 +33,15 @@ def eln():  # type: ignore[no-untyped-def]
     form = ElnForm()
     report, error = None, None
     if request.method == "POST":
-        if not form.validate_on_submit():
-            error = "; ".join(f"{k}: {', '.join(v)}" for k, v in form.errors.items())
-        else:
-            try:
-                f = form.archive.data
-                if not f or not f.filename:
-                    raise Invalid("choose an .eln archive", field="archive")
-                report = import_eln(
-                    session,
-                    current_user,
-                    f.read(),
-                    source=f.filename,
-                    password_method=current_app.config.get("PASSWORD_METHOD", "scrypt"),
-                )
-            except ServiceError as exc:
-                session.rollback()
-                if exc.status in (403, 404):
-                    raise
-                error = exc.message
+        report, error = report_of(form, lambda: _import(session, form))
     status = 400 if error else 200
     return render_template("imports/eln.html", form=form, report=report, error=error), status
+
+
+def _import(session: Session, form: ElnForm) -> Any:
+    """Import the archive sent; return the report of every file."""
+    f = form.archive.data
+    if not f or not f.filename:
+        raise Invalid("choose an .eln archive", field="archive")
+    password_method = current_app.config.get("PASSWORD_METHOD", "scrypt")
+    return import_eln(session, current_user, f.read(), source=f.filename, password_method=password_method)

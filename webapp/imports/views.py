@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from typing import Any
+
 from flask import current_app, render_template, request
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField, MultipleFileField
+from sqlalchemy.orm import Session
 from wtforms import BooleanField
 
 from webapp.db import get_session
@@ -46,6 +50,32 @@ def _files(form: ImportForm) -> Files:
     return out
 
 
+def report_of(form: FlaskForm, work: Callable[[], Any]) -> tuple[Any, str | None]:
+    """Run ``work`` for a posted ``form`` that is valid; return ``(its report, None)`` or ``(None, the error)``.
+
+    A service's 403 or 404 is raised on (the error page); any other refusal is shown on the form, nothing stored.
+    """
+    if not form.validate_on_submit():
+        return None, "; ".join(f"{k}: {', '.join(v)}" for k, v in form.errors.items())
+    try:
+        return work(), None
+    except ServiceError as exc:
+        get_session().rollback()
+        if exc.status in (403, 404):
+            raise
+        return None, exc.message
+
+
+def _mapping(form: ImportForm) -> str | None:
+    """Return the mapping CSV sent with the import as text (None: none sent)."""
+    if not (form.mapping.data and form.mapping.data.filename):
+        return None
+    try:
+        return form.mapping.data.read().decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise Invalid("the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping") from None
+
+
 @bp.route("/sections/<int:section_id>", methods=["GET", "POST"])
 @login_required
 def new(section_id: int):  # type: ignore[no-untyped-def]
@@ -56,30 +86,13 @@ def new(section_id: int):  # type: ignore[no-untyped-def]
     form = ImportForm()
     report, error = None, None
     if request.method == "POST":
-        if not form.validate_on_submit():
-            error = "; ".join(f"{k}: {', '.join(v)}" for k, v in form.errors.items())
-        else:
-            try:
-                mapping = None
-                if form.mapping.data and form.mapping.data.filename:
-                    try:
-                        mapping = form.mapping.data.read().decode("utf-8-sig")
-                    except UnicodeDecodeError:
-                        raise Invalid(
-                            "the mapping is not UTF-8 text; save it as CSV (UTF-8)", field="mapping"
-                        ) from None
-                report = import_files(
-                    session,
-                    current_user,
-                    section.id,
-                    _files(form),
-                    mapping=mapping,
-                    create_groups=bool(form.create_groups.data),
-                )
-            except ServiceError as exc:
-                session.rollback()
-                if exc.status in (403, 404):
-                    raise
-                error = exc.message
+        report, error = report_of(form, lambda: _import(session, section.id, form))
     status = 400 if error else 200
     return render_template("imports/new.html", section=section, form=form, report=report, error=error), status
+
+
+def _import(session: Session, section_id: int, form: ImportForm) -> Any:
+    """Import the files sent into the section; return the report of every file."""
+    mapping = _mapping(form)  # read before the files: its error is the one named
+    create_groups = bool(form.create_groups.data)
+    return import_files(session, current_user, section_id, _files(form), mapping=mapping, create_groups=create_groups)

@@ -8,6 +8,7 @@ from flask import flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.live.blueprint import bp
 from webapp.live.stream import event_stream
 from webapp.live.views import TargetForm, viewer
@@ -115,7 +116,5 @@ def room_target(section_id: int):  # type: ignore[no-untyped-def]
             set_section_target(session, current_user, section, value)
             flash("The section's target U is saved; runs without their own target follow it.")
         except ServiceError as exc:
-            if exc.status in (403, 404):
-                raise
-            flash(exc.message, "error")
+            flash_refusal(exc)
     return redirect(url_for("live.room", section_id=section_id))

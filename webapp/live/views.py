@@ -12,6 +12,7 @@ from wtforms import DecimalField
 from wtforms.validators import NumberRange, Optional
 
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.live.blueprint import bp
 from webapp.live.stream import event_stream, parse_cursor
 from webapp.models import LiveRun
@@ -129,9 +130,7 @@ def target(live_id: int):  # type: ignore[no-untyped-def]
         set_target(get_session(), current_user, live_id, value)
         flash("Target U saved; the advice follows it from now on." if value else "Target U: the default again.")
     except ServiceError as exc:
-        if exc.status in (403, 404):
-            raise
-        flash(exc.message, "error")
+        flash_refusal(exc)
     return redirect(url_for("live.page", live_id=live_id))
 
 
@@ -147,10 +146,7 @@ def finish(live_id: int):  # type: ignore[no-untyped-def]
     try:
         run = finish_live_run(session, current_user, live_id)
     except ServiceError as exc:
-        session.rollback()
-        if exc.status in (403, 404):
-            raise
-        flash(f"Not stored: {exc.message}", "error")
+        flash_refusal(exc, "Not stored: ")
         return redirect(url_for("live.page", live_id=live_id))
     flash("The live run is stored as this run, analyzed like any upload.")
     return redirect(url_for("runs.detail", run_id=run.id))

@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from typing import Any
+
 from flask import flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from webapp.db import get_session
+from webapp.error_handlers import flash_refusal
 from webapp.review.blueprint import bp
 from webapp.services import comments as comment_service
 from webapp.services.access import require_coordinator
@@ -28,11 +32,13 @@ def _back(run_id: int, anchor: str = "review") -> str:
     return url_for("runs.detail", run_id=run_id) + f"#{anchor}"
 
 
-def _fail(exc: ServiceError) -> None:
-    get_session().rollback()
-    if exc.status in (403, 404):
-        raise exc
-    flash(exc.message, "error")
+def _on_run(run_id: int, anchor: str, work: Callable[[], str]) -> Any:
+    """Do ``work`` (it returns what to tell) and go back to the run's page at ``anchor``; a refusal is told instead."""
+    try:
+        flash(work())
+    except ServiceError as exc:
+        flash_refusal(exc)
+    return redirect(_back(run_id, anchor))
 
 
 @bp.post("/runs/<int:run_id>/review")
@@ -40,12 +46,12 @@ def _fail(exc: ServiceError) -> None:
 def review(run_id: int):  # type: ignore[no-untyped-def]
     """Withdraw, restore, exclude, include, accept or unaccept a run, with a reason."""
     action = request.form.get("action", "")
-    try:
+
+    def work() -> str:
         review_run(get_session(), current_user, run_id, action, request.form.get("reason", ""))
-        flash(_DONE.get(action, "Saved."))
-    except ServiceError as exc:
-        _fail(exc)
-    return redirect(_back(run_id))
+        return _DONE.get(action, "Saved.")
+
+    return _on_run(run_id, "review", work)
 
 
 @bp.post("/runs/<int:run_id>/comments")
@@ -53,12 +59,12 @@ def review(run_id: int):  # type: ignore[no-untyped-def]
 def run_comment(run_id: int):  # type: ignore[no-untyped-def]
     """Comment on a run (staff)."""
     require_staff(current_user, "comment on runs")
-    try:
+
+    def work() -> str:
         comment_service.add_run_comment(get_session(), current_user, run_id, request.form.get("body", ""))
-        flash("Comment saved.")
-    except ServiceError as exc:
-        _fail(exc)
-    return redirect(_back(run_id, "comments"))
+        return "Comment saved."
+
+    return _on_run(run_id, "comments", work)
 
 
 @bp.post("/runs/<int:run_id>/mark")
@@ -67,16 +73,16 @@ def mark(run_id: int):  # type: ignore[no-untyped-def]
     """Set a run's mark by hand (blank: back to the scheme's), with a reason (staff)."""
     require_staff(current_user, "set marks")
     text = request.form.get("points", "").strip()
-    try:
+
+    def work() -> str:
         try:
             points = float(text) if text else None
         except ValueError:
             raise Invalid(f"expected a number of points, got {text!r}", field="points") from None
         set_mark(get_session(), current_user, run_id, points, request.form.get("reason", ""))
-        flash("Mark saved." if points is not None else "The scheme's mark applies again.")
-    except ServiceError as exc:
-        _fail(exc)
-    return redirect(_back(run_id, "mark"))
+        return "Mark saved." if points is not None else "The scheme's mark applies again."
+
+    return _on_run(run_id, "mark", work)
 
 
 @bp.post("/groups/<int:group_id>/comments")
@@ -90,7 +96,7 @@ def group_comment(group_id: int):  # type: ignore[no-untyped-def]
         flash("Comment saved.")
         section_id = comment_service.get_group(session, current_user, comment.group_id).section_id
     except ServiceError as exc:
-        _fail(exc)
+        flash_refusal(exc)
         section_id = request.form.get("section_id", type=int)
     if section_id:
         return redirect(url_for("classes.section_board", section_id=section_id) + f"#group-{group_id}")
@@ -113,7 +119,7 @@ def marking(section_id: int):  # type: ignore[no-untyped-def]
             flash("Marking scheme saved.")
             return redirect(url_for("review.marking", section_id=section.id))
         except ServiceError as exc:
-            _fail(exc)
+            flash_refusal(exc)
             status = 400
     bands, own = scheme_of(session, section.id)
     if request.method == "GET" or status == 200:

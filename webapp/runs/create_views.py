@@ -11,6 +11,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import secrets
+from collections.abc import Callable
 from pathlib import PurePosixPath
 from typing import Any
 
@@ -42,8 +43,9 @@ from webapp.services.runs import RunUpload, record_run, run_for_submit_token
 
 
 def _methods() -> list[tuple[str, str]]:
-    return [(name, (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "")
-            for name, fn in sorted(METHODS.items())]
+    return [
+        (name, (fn.__doc__ or "").strip().splitlines()[0] if fn.__doc__ else "") for name, fn in sorted(METHODS.items())
+    ]
 
 
 @bp.route("/new")
@@ -106,6 +108,47 @@ def _analyze(upload: RunUpload, action: str, previewed: str, fingerprint: str) -
     return None, preview_run(session, upload), changed
 
 
+def _required_file(field: str, missing: str, empty: str, errors: dict[str, str]) -> Carried | None:
+    """Return the file sent (or carried from the preview) as ``field``; note in ``errors`` why it is missing or empty."""
+    try:
+        carried = file_from_request(field)
+    except Invalid as exc:
+        errors[field] = exc.message
+        return None
+    if carried is None:
+        errors[field] = missing
+    elif not carried.data.strip():
+        errors[field] = empty
+    return carried
+
+
+def _preview_or_save(
+    template: str,
+    context: dict[str, Any],
+    upload: RunUpload,
+    fingerprint: str,
+    field_of: Callable[[str | None], str],
+    **shown: Any,
+) -> Any:
+    """The common end of both forms: save what was previewed, or preview (then show ``shown`` too).
+
+    A service's error is shown at the form's field ``field_of(exc.field)`` and nothing is stored.
+    """
+    context["fingerprint"] = fingerprint
+    action, previewed = request.form.get("action", "preview"), request.form.get("previewed", "")
+    try:
+        response, preview, changed = _analyze(upload, action, previewed, fingerprint)
+    except ServiceError as exc:
+        get_session().rollback()
+        context["errors"] = {field_of(exc.field): exc.message}
+        return render_template(template, **context), exc.status
+    if response is not None:
+        return response
+    assert preview is not None
+    context.update(preview=preview, preview_svg=_preview_svg(preview), changed=changed, **shown)
+    return render_template(template, **context)
+
+
 @bp.route("/new/<string:kind>", methods=["GET", "POST"])
 @login_required
 def new_kind(kind: str):  # type: ignore[no-untyped-def]
@@ -114,12 +157,22 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
         abort(404)
     session = get_session()
     sections = form_sections(kind)
-    form = ConfirmForm()
     context: dict[str, Any] = dict(
-        kind=kind, kind_title=KIND_TITLES[kind], sections=sections, form=form, methods=_methods(),
-        default_method=DEFAULT_METHOD, calorimeters=calorimeter_choices(session),
-        groups=group_choices(session, current_user), references=reference_names(),
-        errors={}, preview=None, readings=None, run_toml=None, fingerprint="", changed=False,
+        kind=kind,
+        kind_title=KIND_TITLES[kind],
+        sections=sections,
+        form=ConfirmForm(),
+        methods=_methods(),
+        default_method=DEFAULT_METHOD,
+        calorimeters=calorimeter_choices(session),
+        groups=group_choices(session, current_user),
+        references=reference_names(),
+        errors={},
+        preview=None,
+        readings=None,
+        run_toml=None,
+        fingerprint="",
+        changed=False,
         submit_token=secrets.token_urlsafe(24),  # one-time: a double submit of "Save" saves one run
     )
     if request.method == "GET":
@@ -128,28 +181,14 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
             values["info.group"] = current_user.group.name
         return render_template("runs/new_kind.html", values=values, **context)
 
-    form.validate_on_submit()  # CSRF (CSRFProtect has refused a bad token already)
+    context["form"].validate_on_submit()  # CSRF (CSRFProtect has refused a bad token already)
     values = {name: request.form.get(name, "") for name in input_names(sections)}
     if current_user.role == "student":
         values["info.group"] = current_user.group.name if current_user.group is not None else ""
     errors: dict[str, str] = {}
-    try:
-        readings = file_from_request("readings")
-    except Invalid as exc:
-        readings, errors["readings"] = None, exc.message
-    if readings is None and "readings" not in errors:
-        errors["readings"] = "choose the CSV file of the thermometer's readings (times and temperatures)"
-    elif readings is not None and not readings.data.strip():
-        errors["readings"] = "the readings file is empty"
-    calorimeter = None
-    try:
-        cid = _calorimeter_id(values.get("calorimeter_id"))
-        if cid is not None:
-            calorimeter = next((c.calorimeter for c in context["calorimeters"] if c.calorimeter.id == cid), None)
-            if calorimeter is None:
-                errors["calorimeter.name"] = f"no calorimeter with id {cid}"
-    except Invalid as exc:
-        errors["calorimeter.name"] = exc.message
+    missing = "choose the CSV file of the thermometer's readings (times and temperatures)"
+    readings = _required_file("readings", missing, "the readings file is empty", errors)
+    calorimeter = _chosen_calorimeter(values.get("calorimeter_id"), context["calorimeters"], errors)
     errors.update(check_values(kind, values, calorimeter_chosen=calorimeter is not None))
     context.update(values=values, readings=readings, errors=errors)
     if errors:
@@ -157,28 +196,57 @@ def new_kind(kind: str):  # type: ignore[no-untyped-def]
 
     assert readings is not None
     run_name = (PurePosixPath(readings.name).stem or kind) + ".toml"
-    run_toml = build_run_toml(kind, values, readings_name=readings.name,
-                              calorimeter_name=calorimeter.name if calorimeter else None)
-    upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings.data,
-                       readings_name=readings.name, calorimeter_id=calorimeter.id if calorimeter else None)
+    run_toml = build_run_toml(
+        kind, values, readings_name=readings.name, calorimeter_name=calorimeter.name if calorimeter else None
+    )
+    upload = RunUpload(
+        run_toml=run_toml,
+        run_file_name=run_name,
+        readings=readings.data,
+        readings_name=readings.name,
+        calorimeter_id=calorimeter.id if calorimeter else None,
+    )
+    context["run_toml"] = run_toml
     fingerprint = digest(kind, run_toml, readings.data, str(upload.calorimeter_id))
-    context.update(run_toml=run_toml, fingerprint=fingerprint)
+    return _preview_or_save("runs/new_kind.html", context, upload, fingerprint, lambda f: error_key(f, sections))
+
+
+def _chosen_calorimeter(text: str | None, choices: list[Any], errors: dict[str, str]) -> Any:
+    """Return the calorimeter chosen in the form (None: none chosen); note in ``errors`` one not in ``choices``."""
     try:
-        response, preview, changed = _analyze(upload, request.form.get("action", "preview"),
-                                              request.form.get("previewed", ""), fingerprint)
-    except ServiceError as exc:
-        get_session().rollback()
-        key = error_key(exc.field, sections)
-        context["errors"] = {key: exc.message}
-        return render_template("runs/new_kind.html", **context), exc.status
-    if response is not None:
-        return response
-    context.update(preview=preview, preview_svg=_preview_svg(preview), changed=changed)
-    return render_template("runs/new_kind.html", **context)
+        cid = _calorimeter_id(text)
+    except Invalid as exc:
+        errors["calorimeter.name"] = exc.message
+        return None
+    if cid is None:
+        return None
+    calorimeter = next((c.calorimeter for c in choices if c.calorimeter.id == cid), None)
+    if calorimeter is None:
+        errors["calorimeter.name"] = f"no calorimeter with id {cid}"
+    return calorimeter
 
 
-_UPLOAD_FIELDS = {"run_file": "run_file", "readings": "readings", "calorimeter_id": "calorimeter_id",
-                  "calorimeter.heat_capacity": "calorimeter_id", "group_id": "group_id"}
+_UPLOAD_FIELDS = {
+    "run_file": "run_file",
+    "readings": "readings",
+    "calorimeter_id": "calorimeter_id",
+    "calorimeter.heat_capacity": "calorimeter_id",
+    "group_id": "group_id",
+}
+
+
+def _upload_field(field: str | None) -> str:
+    """The upload form's field for a service's error field (the run file for any other named field)."""
+    return _UPLOAD_FIELDS.get(field or "", "run_file" if field else "")
+
+
+def _run_file_text(run_file: Carried, errors: dict[str, str]) -> str:
+    """Return the run file as text ("" when it is not UTF-8, noted in ``errors``)."""
+    try:
+        return run_file.data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        errors["run_file"] = f"byte {exc.start + 1} is not UTF-8 text; expected a TOML run file"
+        return ""
 
 
 @bp.route("/upload", methods=["GET", "POST"])
@@ -188,36 +256,33 @@ def upload():  # type: ignore[no-untyped-def]
     session = get_session()
     form = ConfirmForm()
     context: dict[str, Any] = dict(
-        form=form, calorimeters=calorimeter_choices(session), groups=group_choices(session, current_user),
-        errors={}, preview=None, run_file=None, readings=None, fingerprint="", changed=False,
-        calorimeter_id="", group_id="", submit_token=secrets.token_urlsafe(24),
+        form=form,
+        calorimeters=calorimeter_choices(session),
+        groups=group_choices(session, current_user),
+        errors={},
+        preview=None,
+        run_file=None,
+        readings=None,
+        fingerprint="",
+        changed=False,
+        calorimeter_id="",
+        group_id="",
+        submit_token=secrets.token_urlsafe(24),
     )
     if request.method == "GET":
         return render_template("runs/upload.html", **context)
 
     form.validate_on_submit()
     errors: dict[str, str] = {}
-    files: dict[str, Carried | None] = {}
-    for field, what in (("run_file", "the run file (TOML)"), ("readings", "the readings (CSV)")):
-        try:
-            files[field] = file_from_request(field)
-        except Invalid as exc:
-            files[field], errors[field] = None, exc.message
-            continue
-        carried = files[field]
-        if carried is None:
-            errors[field] = f"choose {what}"
-        elif not carried.data.strip():
-            errors[field] = "the file is empty"
-    run_file, readings = files.get("run_file"), files.get("readings")
-    context.update(run_file=run_file, readings=readings, calorimeter_id=request.form.get("calorimeter_id", ""),
-                   group_id=request.form.get("group_id", ""))
-    run_toml = ""
-    if run_file is not None and "run_file" not in errors:
-        try:
-            run_toml = run_file.data.decode("utf-8")
-        except UnicodeDecodeError as exc:
-            errors["run_file"] = f"byte {exc.start + 1} is not UTF-8 text; expected a TOML run file"
+    run_file = _required_file("run_file", "choose the run file (TOML)", "the file is empty", errors)
+    readings = _required_file("readings", "choose the readings (CSV)", "the file is empty", errors)
+    context.update(
+        run_file=run_file,
+        readings=readings,
+        calorimeter_id=request.form.get("calorimeter_id", ""),
+        group_id=request.form.get("group_id", ""),
+    )
+    run_toml = _run_file_text(run_file, errors) if run_file is not None and "run_file" not in errors else ""
     cid = group_id = None
     try:
         cid = _calorimeter_id(context["calorimeter_id"])
@@ -232,18 +297,13 @@ def upload():  # type: ignore[no-untyped-def]
         return render_template("runs/upload.html", **context), 400
 
     assert run_file is not None and readings is not None
-    upload_ = RunUpload(run_toml=run_toml, run_file_name=run_file.name, readings=readings.data,
-                        readings_name=readings.name, calorimeter_id=cid, group_id=group_id)
+    upload_ = RunUpload(
+        run_toml=run_toml,
+        run_file_name=run_file.name,
+        readings=readings.data,
+        readings_name=readings.name,
+        calorimeter_id=cid,
+        group_id=group_id,
+    )
     fingerprint = digest(run_toml, run_file.name, readings.data, readings.name, str(cid), str(group_id))
-    context["fingerprint"] = fingerprint
-    try:
-        response, preview, changed = _analyze(upload_, request.form.get("action", "preview"),
-                                              request.form.get("previewed", ""), fingerprint)
-    except ServiceError as exc:
-        get_session().rollback()
-        context["errors"] = {_UPLOAD_FIELDS.get(exc.field or "", "run_file" if exc.field else ""): exc.message}
-        return render_template("runs/upload.html", **context), exc.status
-    if response is not None:
-        return response
-    context.update(preview=preview, preview_svg=_preview_svg(preview), changed=changed, run_toml=run_toml)
-    return render_template("runs/upload.html", **context)
+    return _preview_or_save("runs/upload.html", context, upload_, fingerprint, _upload_field, run_toml=run_toml)

@@ -19,89 +19,21 @@ from calc.errors import InputError
 from calc.io.quantities import parse_measured
 from calc.io.runfile import KINDS, REQUIRED_SECTIONS, SCHEMA
 from calc.kinds import get_kind
+from webapp.runs.entry_labels import (
+    HINTS,
+    LABELS,
+    RESOLUTION_UNITS,
+    SECTION_HINTS,
+    SECTION_ORDER_FIRST,
+    SECTION_ORDER_LAST,
+    SECTION_TITLES,
+    SPECIAL,
+    UNITS,
+)
 
 #: each kind's title and what it measures (shown when choosing a kind; calc.kinds)
 KIND_TITLES = {k: (get_kind(k).title, get_kind(k).summary) for k in KINDS}
 
-_SECTION_TITLES = {
-    "info": "About the run",
-    "calorimeter": "Calorimeter",
-    "thermometer": "Thermometer",
-    "water": "Water in the cup",
-    "solute": "Solute",
-    "acid": "Acid (in the cup)",
-    "base": "Base (poured in)",
-    "heater": "Heater",
-    "heater_2": "Second heater pulse",
-    "warm_water": "Warm water (poured in)",
-    "solution": "Solution in the cup",
-    "reaction": "Reaction",
-    "mixture": "Final mixture",
-    "reference": "Reference value",
-    "": "Timing and method",
-}
-_SECTION_HINTS = {
-    "mixture": "Optional: when blank, the solution's specific heat capacity comes from a property model.",
-    "reference": "Optional: when blank, the reference value is chosen from the substances.",
-    "calorimeter": "Choose the calorimeter: its heat capacity in force is used when the field is left blank.",
-}
-_LABELS = {
-    "heat_capacity": "Heat capacity",
-    "specific_heat_capacity": "Specific heat capacity",
-    "limiting_reagent": "Limiting reagent (formula)",
-    "formula": "Formula",
-    "equivalents": "Equivalents per formula unit",
-    "coefficient": "Coefficient of the limiting reagent",
-    "mixing_time": "Mixing time",
-    "fore_period": "Fore period",
-    "after_period": "After period",
-    "method": "Corrected-ΔT method",
-    "temperature_column": "Temperature column of the log",
-    "date": "Date",
-    "name": "Name",
-}
-_HINTS = {
-    "water.density": "blank: from IAPWS-95 at the run's temperature",
-    "solution.density": "blank: from IAPWS-95 at the run's temperature",
-    "acid.density": "blank: from a property model",
-    "base.density": "blank: from a property model",
-    "warm_water.density": "blank: from IAPWS-95",
-    "acid.equivalents": "H⁺ given per formula unit (blank: from the formula)",
-    "base.equivalents": "OH⁻ taken per formula unit (blank: from the formula)",
-    "mixing_time": "blank: detected from the curve",
-    "fore_period": "in seconds on the log's clock; blank: found from the log",
-    "after_period": "in seconds on the log's clock; blank: found from the log",
-    "temperature_column": "only for a log with several temperature columns: its header name (T2) or column number "
-                          "counted from 1 (3)",
-    "heater.start": "when the heater is switched on, in seconds on the log's clock",
-    "heater_2.start": "when the second pulse is switched on, in seconds on the log's clock",
-    "solute.purity": "mass fraction, 0 to 1",
-    "reaction.amount": "give the amount, or the mass with the limiting reagent",
-    "reaction.mass": "mass of the limiting reagent, with its formula",
-    "thermometer.resolution": "the smallest step the thermometer shows",
-    "calorimeter.heat_capacity": "blank: the calibration in force of the calorimeter chosen",
-    "calorimeter.type": "foam-cups, dewar, jacketed or other; blank: the type of the calorimeter chosen",
-}
-#: units offered for each unit of the schema (the first is the default)
-_UNITS = {
-    "mL": ("mL", "L", "cm^3"),
-    "g": ("g", "mg", "kg"),
-    "mol/L": ("mol/L", "mmol/L"),
-    "g/mL": ("g/mL", "g/cm^3", "kg/L"),
-    "J/K": ("J/K", "kJ/K"),
-    "J/(g*K)": ("J/(g*K)", "J/(kg*K)", "kJ/(kg*K)"),
-    "V": ("V", "mV"),
-    "A": ("A", "mA"),
-    "s": ("s", "min"),
-    "mol": ("mol", "mmol"),
-    "K": ("degC", "K", "degF"),
-}
-_RESOLUTION_UNITS = ("K", "mK", "degC")
-#: which special control a field gets instead of a plain input
-_SPECIAL = {"calorimeter.name": "calorimeter", "info.group": "group", "info.notes": "long", "info.date": "date",
-            "reference.name": "reference"}
-_SECTION_ORDER_FIRST = ("calorimeter", "thermometer")
-_SECTION_ORDER_LAST = ("mixture", "", "reference", "info")
 _INT_RE = re.compile(r"\s*\d+\s*")
 
 
@@ -158,33 +90,34 @@ class FormSection:
 def _field(section: str, name: str, spec: tuple[str, str | None, bool]) -> FormField:
     kind, unit, required = spec
     key = f"{section}.{name}" if section else name
-    control = _SPECIAL.get(key, kind)
+    control = SPECIAL.get(key, kind)
     if key == "calorimeter.heat_capacity":
         required = False  # blank: the calibration in force (checked in check_values)
     units: tuple[str, ...] = ()
     if control == "q":
-        units = _UNITS.get(unit or "", (unit or "",))
+        units = UNITS.get(unit or "", (unit or "",))
     elif control == "dq":
-        units = _RESOLUTION_UNITS
-    label = _LABELS.get(name, name.replace("_", " ").capitalize())
+        units = RESOLUTION_UNITS
+    label = LABELS.get(name, name.replace("_", " ").capitalize())
     if key == "calorimeter.name":
         label = "Calorimeter"
     elif key == "info.group":
         label = "Group"
     elif key == "reference.name":
         label = "Reference value"
-    hint = _HINTS.get(key, "")
+    hint = HINTS.get(key, "")
     return FormField(section, name, control, unit, required, label, hint, units)
 
 
 def _top_fields() -> tuple[FormField, ...]:
     return (
         _field("", "mixing_time", ("q", "s", False)),
-        FormField("", "method", "method", None, False, _LABELS["method"], ""),
-        FormField("", "fore_period", "period", "s", False, _LABELS["fore_period"], _HINTS["fore_period"]),
-        FormField("", "after_period", "period", "s", False, _LABELS["after_period"], _HINTS["after_period"]),
-        FormField("", "temperature_column", "s", None, False, _LABELS["temperature_column"],
-                  _HINTS["temperature_column"]),
+        FormField("", "method", "method", None, False, LABELS["method"], ""),
+        FormField("", "fore_period", "period", "s", False, LABELS["fore_period"], HINTS["fore_period"]),
+        FormField("", "after_period", "period", "s", False, LABELS["after_period"], HINTS["after_period"]),
+        FormField(
+            "", "temperature_column", "s", None, False, LABELS["temperature_column"], HINTS["temperature_column"]
+        ),
     )
 
 
@@ -195,8 +128,8 @@ def form_sections(kind: str) -> list[FormSection]:
     """
     schema = SCHEMA[kind]
     required = REQUIRED_SECTIONS[kind]
-    middle = [s for s in schema if s not in _SECTION_ORDER_FIRST and s not in _SECTION_ORDER_LAST]
-    order = [s for s in _SECTION_ORDER_FIRST if s in schema] + middle + list(_SECTION_ORDER_LAST)
+    middle = [s for s in schema if s not in SECTION_ORDER_FIRST and s not in SECTION_ORDER_LAST]
+    order = [s for s in SECTION_ORDER_FIRST if s in schema] + middle + list(SECTION_ORDER_LAST)
     out = []
     for name in order:
         if name == "":
@@ -204,20 +137,24 @@ def form_sections(kind: str) -> list[FormSection]:
         elif name == "calorimeter":
             # the select first; a calibration run measures the heat capacity, so it has no field for it
             items = sorted(schema[name].items(), key=lambda kv: kv[0] != "name")
-            fields = tuple(_field(name, f, spec) for f, spec in items
-                           if f != "heat_capacity" or name in required)
+            fields = tuple(_field(name, f, spec) for f, spec in items if f != "heat_capacity" or name in required)
         elif name in schema:
             fields = tuple(_field(name, f, spec) for f, spec in schema[name].items())
         else:
             continue
-        hint = _SECTION_HINTS.get(name, "" if name in required or name in ("", "info") else "Optional section.")
+        hint = SECTION_HINTS.get(name, "" if name in required or name in ("", "info") else "Optional section.")
         if name == "calorimeter" and name not in required:
             hint = "The calorimeter whose heat capacity this run measures: the result is added to its history."
             if not get_kind(kind).is_calibration:
-                hint = ("The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
-                        "the heat capacity of cup + solution.")
-        out.append(FormSection(name, _SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint,
-                               name in required, fields))
+                hint = (
+                    "The calorimeter used (its type sets the plausible ranges); the heater in the log measures "
+                    "the heat capacity of cup + solution."
+                )
+        out.append(
+            FormSection(
+                name, SECTION_TITLES.get(name, name.replace("_", " ").capitalize()), hint, name in required, fields
+            )
+        )
     return out
 
 
@@ -292,8 +229,11 @@ def check_values(kind: str, values: Mapping[str, str], *, calorimeter_chosen: bo
             if blank:
                 if used and f.required:
                     errors[f.key] = f"required: {_example(f)}"
-                elif (f.key == "calorimeter.heat_capacity" and "calorimeter" in REQUIRED_SECTIONS[kind]
-                      and not calorimeter_chosen):
+                elif (
+                    f.key == "calorimeter.heat_capacity"
+                    and "calorimeter" in REQUIRED_SECTIONS[kind]
+                    and not calorimeter_chosen
+                ):
                     errors[f.key] = "give the heat capacity, or choose a calorimeter that has been calibrated"
                 continue
             if f.control in ("q", "n", "dq"):
@@ -352,8 +292,9 @@ def _toml_value(values: Mapping[str, str], f: FormField) -> str:
     return toml_string(text)
 
 
-def build_run_toml(kind: str, values: Mapping[str, str], *, readings_name: str,
-                   calorimeter_name: str | None = None) -> str:
+def build_run_toml(
+    kind: str, values: Mapping[str, str], *, readings_name: str, calorimeter_name: str | None = None
+) -> str:
     """Return the run file (TOML text) the form's values describe.
 
     ``calorimeter_name`` is written as ``[calorimeter] name`` (the select posts an id).
@@ -385,8 +326,13 @@ def error_key(field: str | None, sections: list[FormSection]) -> str:
     """Return the form field a service error's ``field`` belongs to ("" when none fits)."""
     if not field:
         return ""
-    aliases = {"fore": "fore_period", "after": "after_period", "calorimeter_id": "calorimeter.name",
-               "group_id": "info.group", "readings": "readings"}
+    aliases = {
+        "fore": "fore_period",
+        "after": "after_period",
+        "calorimeter_id": "calorimeter.name",
+        "group_id": "info.group",
+        "readings": "readings",
+    }
     if field in aliases:
         return aliases[field]
     keys = {f.key for sec in sections for f in sec.fields} | {sec.name for sec in sections if sec.name}
