@@ -31,17 +31,7 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
         "every run plot (run, budget, history) drawn from one figure setup; another change "
         "(live runs) is editing it now",
     ),
-    "services/calibrations.py": (
-        475,
-        "authority, pooling, the value in force, withdrawal and re-analysis share "
-        "one transaction discipline; not yet split into pooling and withdrawal",
-    ),
     "services/eln.py": (420, "the whole .eln writer (runs, calorimeters, calibrations, the crate); not yet split"),
-    "services/imports.py": (
-        490,
-        "bulk import: reading folders and zips, matching groups and storing, in one "
-        "idempotent pass; not yet split into reading and storing",
-    ),
     "services/runs.py": (
         465,
         "create, update, lock and re-analyze a run, around the one row-lock helper; not yet split",
@@ -74,10 +64,6 @@ LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
     "services/control.py::control_view": (
         66,
         "the control chart's data for either source (heat capacity or a check standard); not yet split",
-    ),
-    "services/imports.py::_import_one": (
-        79,
-        "one file of a bulk import, from parsing to the stored run in one transaction; not yet split",
     ),
 }
 

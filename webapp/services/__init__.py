@@ -7,7 +7,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``analysis``: the bridge to calc: parse an upload, supply C_cal, analyze, map an Analysis to rows
 - ``audit``: the audit trail of every change to a run or a calorimeter
 - ``board_view``: the part of a dashboard a page shows: search, flag filter, pages of groups
-- ``calibrations``: calibration authority, pooling and the heat capacity in force, withdrawal, re-analysis
+- ``calibrations``: calibration authority: recording, approving, withdrawing, re-analyzing the runs that used one
 - ``calorimeters``: calorimeters and their heat-capacity history
 - ``checks``: plausibility checks of stored results: which runs are flagged and why
 - ``classes``: courses, sections, groups, benches, rosters from CSV, who may see a section
@@ -24,7 +24,9 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``eln_restore``: reading back the calorimeters, calibrations and runs cupcal wrote into an archive
 - ``errors``: the errors services raise (``ServiceError`` and its kinds), which views turn into responses
 - ``feedback``: automatic feedback per group, and the flags' meanings
+- ``import_store``: storing one run file of a bulk import: readings, group and bench, content hash
 - ``imports``: bulk import of a section's runs from a zip or a folder
+- ``in_force``: the heat capacity in force: the pool of recent approved calibrations, confirming a large move
 - ``integrity``: ``cupcal db check``: the database's own check, foreign keys, complete runs, hashes
 - ``integrity_locks``: the part of ``cupcal db check`` for signed runs and the audit chain
 - ``jsontext``: JSON from callers, every failure an ``Invalid`` naming the field

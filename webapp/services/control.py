@@ -55,7 +55,7 @@ class ControlView:
 def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days: int,
                      today: dt.date | None = None) -> dict[str, Any]:
     """Return the last calibration date, the interval, the due date and whether it is overdue."""
-    from webapp.services.calibrations import current_calibration
+    from webapp.services.in_force import current_calibration
 
     current = current_calibration(session, calorimeter.id)
     last = current.taken_at if current is not None else None  # when the value in force was measured

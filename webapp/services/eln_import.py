@@ -12,7 +12,7 @@ archive stores nothing. Then, folder by folder:
 
 Every file of the archive is reported with its outcome (nothing is dropped silently). Each run
 and each calorimeter is stored in its own transaction; a run whose files are already stored
-(same SHA-256 as :func:`webapp.services.imports.content_hash`) is reported unchanged.
+(same SHA-256 as :func:`webapp.services.import_store.content_hash`) is reported unchanged.
 """
 
 from __future__ import annotations
@@ -35,7 +35,8 @@ from webapp.services.eln_calibrations import Known
 from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
 from webapp.services.eln_restore import People, calibration_stamps, restore_calorimeter, restore_run, when
 from webapp.services.errors import Invalid, ServiceError, storage_error
-from webapp.services.imports import ImportItem, ImportReport, Limits, _readings_name, _record, content_hash
+from webapp.services.import_store import ImportItem, content_hash, readings_name, record_with_hash
+from webapp.services.imports import ImportReport, Limits
 from webapp.services.runs import RunUpload
 
 DEFAULT_PASSWORD_METHOD = "scrypt"
@@ -226,7 +227,7 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
         raise Invalid(
             f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
         ) from None
-    rname = _readings_name(text, path)
+    rname = readings_name(text, path)
     rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
     if rpath not in files or rpath.startswith("../"):
         raise Invalid(f"{path}, field 'readings': {rname!r} is not in the archive's folder", field="readings")
@@ -235,7 +236,7 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     existing = _existing(job.session, digest)
     if existing is not None:
         return path, "unchanged", f"already stored as run #{existing}", existing
-    run = _record(
+    run = record_with_hash(
         job.session,
         job.actor,
         RunUpload(

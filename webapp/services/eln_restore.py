@@ -36,7 +36,7 @@ from webapp.services.calorimeters import find_calorimeter
 from webapp.services.concurrency import content_hash as signed_hash
 from webapp.services.eln_calibrations import Known, new_calorimeter, restore_calibrations, restore_trail, when
 from webapp.services.errors import Invalid
-from webapp.services.imports import content_hash
+from webapp.services.import_store import content_hash
 from webapp.services.package_import import _file, _options
 from webapp.services.people import hash_password
 from webapp.services.runs import RunUpload, _new_run, _periods_given, upload_file_name

@@ -142,7 +142,7 @@ def calorimeter_page(
 ) -> CalorimeterPage:
     """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
     (directly, or through a pooled value that held it)."""
-    from webapp.services.calibrations import current_calibration, members_of
+    from webapp.services.in_force import current_calibration, members_of
 
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id).options(so.joinedload(Calibration.result))))
