@@ -31,7 +31,6 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
         "every run plot (run, budget, history) drawn from one figure setup; another change "
         "(live runs) is editing it now",
     ),
-    "services/eln.py": (420, "the whole .eln writer (runs, calorimeters, calibrations, the crate); not yet split"),
     "services/runs.py": (
         465,
         "create, update, lock and re-analyze a run, around the one row-lock helper; not yet split",

@@ -19,6 +19,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``eln``: writing ``.eln`` archives of runs and calorimeters
 - ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive
 - ``eln_check``: checking ``.eln`` archives: one root folder, safe paths, metadata, every ``sha256``
+- ``eln_folders``: the folders of an ``.eln`` archive being written: a run's and a calorimeter's
 - ``eln_import``: importing ``.eln`` archives, ours exactly, other notebooks' runs as new runs
 - ``eln_plots``: light SVG plots written into archives
 - ``eln_restore``: reading back the calorimeters, calibrations and runs cupcal wrote into an archive
