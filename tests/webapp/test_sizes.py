@@ -31,10 +31,6 @@ LONG_MODULES: dict[str, tuple[int, str]] = {
         "every run plot (run, budget, history) drawn from one figure setup; another change "
         "(live runs) is editing it now",
     ),
-    "services/runs.py": (
-        465,
-        "create, update, lock and re-analyze a run, around the one row-lock helper; not yet split",
-    ),
 }
 
 #: "module::function" → (lines now, why it is longer)

@@ -45,6 +45,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``review``: withdraw, exclude, accept; which runs count
 - ``review_page``: what the run page shows of a run's review
 - ``run_list``: the runs list's search, filters and sort, as one query
+- ``run_upload``: reading an upload: files checked and analyzed, its group and calorimeter, its new run row
 - ``runs``: record an upload, re-analyze, edit, lock, and the queries that list runs
 - ``samples``: replicates grouped by sample, with mean, t-interval and ν_eff
 - ``series``: series of repeat runs with the shared Type B part

@@ -39,7 +39,7 @@ from webapp.services.errors import Invalid
 from webapp.services.import_store import content_hash
 from webapp.services.package_import import _file, _options
 from webapp.services.people import hash_password
-from webapp.services.runs import RunUpload, _new_run, _periods_given, upload_file_name
+from webapp.services.run_upload import RunUpload, new_run, periods_given, upload_file_name
 
 #: most results of one run read back (each is analyzed again)
 MAX_RESULTS = 100
@@ -271,7 +271,7 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     spec, rd = parse_inputs(run_toml, run_name, decode_readings(readings, readings_name), readings_name, calibration)
     author = people.get((doc.get("provenance") or {}).get("recorded_by")) or actor
     upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings, readings_name=readings_name)
-    run = _new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
+    run = new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
     run.inputs = inputs_from_spec(spec, calibration)
     run.content_hash = content_hash(run_bytes, readings)
     _details(session, actor, run, doc, people, groups)
@@ -283,7 +283,7 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         _legacy_keys(rdoc)
         analyzed_at = when(rdoc["analyzed_at"], "result.analyzed_at") if rdoc.get("analyzed_at") else None
         result = result_from_analysis(run_analysis(spec, rd, options, **_check_context(session, cal, own, analyzed_at)),
-                                      input_name=run_name, periods_given=_periods_given(options))
+                                      input_name=run_name, periods_given=periods_given(options))
         result.run, result.is_current = run, rdoc is doc["result"]
         session.add(result)
         result.created_by = people.get(rdoc.get("analyzed_by"))
