@@ -48,10 +48,6 @@ LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
         64,
         "the run-file upload page, preview and save; runs/ is being edited by another change (live runs) now",
     ),
-    "services/analysis.py::result_from_analysis": (
-        69,
-        "copies every field of calc's Analysis onto a Result row, one assignment per column",
-    ),
     "services/classes.py::import_roster": (
         91,
         "validates every roster row before it stores any (all or nothing); not yet split into checking and storing",

@@ -19,7 +19,7 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from webapp.models import Bench, Group, Person, Run
-from webapp.services.analysis import AnalysisOptions
+from webapp.services.analysis import AnalysisOptions, run_file_text
 from webapp.services.errors import Conflict, Invalid, ServiceError, storage_error
 from webapp.services.runs import RunUpload, record_run
 
@@ -65,15 +65,6 @@ def readings_name(toml_text: str, path: str) -> str:
     if not isinstance(name, str) or not name.strip():
         raise Invalid(f"{path}, field 'readings': missing; expected the name of the readings file", field="readings")
     return name.strip()
-
-
-def _info_group(toml_text: str) -> str | None:
-    try:
-        info = tomllib.loads(toml_text.lstrip("\ufeff")).get("info")
-    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
-        return None
-    g = info.get("group") if isinstance(info, dict) else None
-    return g.strip() if isinstance(g, str) and g.strip() else None
 
 
 def _group_from_name(stem: str, groups: dict[str, Group]) -> Group | None:
@@ -272,7 +263,7 @@ def _named(
     maker: GroupMaker | None,
 ) -> Group:
     """Return the group a run file's ``[info] group`` or its file name gives it."""
-    named = _info_group(text)
+    named = run_file_text(text, "info", "group")
     if named is not None:
         group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
         if group is None:
