@@ -48,10 +48,6 @@ LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
         64,
         "the run-file upload page, preview and save; runs/ is being edited by another change (live runs) now",
     ),
-    "services/control.py::control_view": (
-        66,
-        "the control chart's data for either source (heat capacity or a check standard); not yet split",
-    ),
 }
 
 
