@@ -15,6 +15,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``concurrency``: early write transactions, row locks, versions, the hash a lock signs
 - ``control``: control charts per calorimeter and calibration due dates
 - ``dashboard``: the class dashboard: runs of a section or course with flags, feedback, statistics
+- ``dashboard_rows``: the dashboard's rows: each current result of a section's runs, with its flags
 - ``demo``: the invented demo lab with its people and runs
 - ``eln``: writing ``.eln`` archives of runs and calorimeters
 - ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive

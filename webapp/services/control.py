@@ -26,7 +26,7 @@ from webapp.services.access import require_coordinator, visible_runs_clause
 from webapp.services.audit import record_change
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.checks import flag_text, flagged_checks
-from webapp.services.dashboard import _measurement
+from webapp.services.dashboard_rows import measurement_name
 from webapp.services.errors import Invalid
 from webapp.services.review import included_in_statistics, with_review
 
@@ -180,7 +180,7 @@ def _run_series(session: so.Session, viewer: Person, cal: Calorimeter) -> dict[s
     for rid, kind, created, title, main, h, c, comp, checks in rows:
         v = h if main == "molar_enthalpy" else c
         if v is not None:
-            series[_measurement(kind, comp)].append(
+            series[measurement_name(kind, comp)].append(
                 {
                     "run_id": rid,
                     "at": created.strftime("%Y-%m-%d %H:%M"),
