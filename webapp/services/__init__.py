@@ -18,12 +18,12 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``dashboard_rows``: the dashboard's rows: each current result of a section's runs, with its flags
 - ``demo``: the invented demo lab with its people and runs
 - ``eln``: writing ``.eln`` archives of runs and calorimeters
-- ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive
+- ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive; people by e-mail
 - ``eln_check``: checking ``.eln`` archives: one root folder, safe paths, metadata, every ``sha256``
 - ``eln_folders``: the folders of an ``.eln`` archive being written: a run's and a calorimeter's
 - ``eln_import``: importing ``.eln`` archives, ours exactly, other notebooks' runs as new runs
 - ``eln_plots``: light SVG plots written into archives
-- ``eln_restore``: reading back the calorimeters, calibrations and runs cupcal wrote into an archive
+- ``eln_restore``: reading back the runs cupcal wrote into an archive, analyzed again and checked number for number
 - ``errors``: the errors services raise (``ServiceError`` and its kinds), which views turn into responses
 - ``feedback``: automatic feedback per group, and the flags' meanings
 - ``import_store``: storing one run file of a bulk import: readings, group and bench, content hash

@@ -30,10 +30,10 @@ from webapp.models import Person, Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.eln_calibrations import Known
+from webapp.services.eln_calibrations import Known, People, restore_calorimeter, when
 from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
 from webapp.services.eln_folders import CALORIMETER_FORMAT, CALORIMETER_NAME
-from webapp.services.eln_restore import People, calibration_stamps, restore_calorimeter, restore_run, when
+from webapp.services.eln_restore import calibration_stamps, restore_run
 from webapp.services.errors import Invalid, ServiceError, storage_error
 from webapp.services.import_store import ImportItem, content_hash, readings_name, record_with_hash
 from webapp.services.imports import ImportReport, Limits
