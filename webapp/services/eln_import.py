@@ -35,7 +35,7 @@ from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
 from webapp.services.eln_folders import CALORIMETER_FORMAT, CALORIMETER_NAME
 from webapp.services.eln_restore import calibration_stamps, restore_run
 from webapp.services.errors import Invalid, ServiceError, storage_error
-from webapp.services.import_store import ImportItem, content_hash, readings_name, record_with_hash
+from webapp.services.import_store import ImportItem, content_hash, record_with_hash, run_file_and_readings
 from webapp.services.imports import ImportReport, Limits
 from webapp.services.runs import RunUpload
 
@@ -221,14 +221,7 @@ def _foreign_runs(job: _Import, folders: dict[str, list[str]]) -> None:
 def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     files = job.archive.files
     raw = files[path]
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise Invalid(
-            f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
-        ) from None
-    rname = readings_name(text, path)
-    rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+    text, rname, rpath = run_file_and_readings(path, raw)
     if rpath not in files or rpath.startswith("../"):
         raise Invalid(f"{path}, field 'readings': {rname!r} is not in the archive's folder", field="readings")
     job.done.add(rpath)

@@ -211,16 +211,29 @@ def _not_stored(session: so.Session, path: str, exc: ServiceError, digest: str) 
     return ImportItem(path, "error", exc.message)
 
 
-def _run_text(path: str, files: dict[str, bytes], used: set[str]) -> tuple[str, str]:
-    """Return a run file's text and the path of the readings it names (marked as used)."""
+def run_file_and_readings(path: str, raw: bytes) -> tuple[str, str, str]:
+    """Return a run file's text, the readings' name it gives and their path beside it (not yet checked).
+
+    :raise Invalid: for a run file that is not UTF-8 text or TOML, or names no readings
+    """
     try:
-        text = files[path].decode("utf-8-sig")
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise Invalid(
             f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
         ) from None
     rname = readings_name(text, path)
-    rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+    return text, rname, readings_path(path, rname)
+
+
+def readings_path(path: str, rname: str) -> str:
+    """Return the path of the readings ``rname`` that the run file at ``path`` names (relative to it)."""
+    return posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+
+
+def _run_text(path: str, files: dict[str, bytes], used: set[str]) -> tuple[str, str]:
+    """Return a run file's text and the path of the readings it names (marked as used)."""
+    text, rname, rpath = run_file_and_readings(path, files[path])
     if rpath in getattr(files, "duplicates", {}):
         raise Invalid(f"{path}, field 'readings': {rname!r} occurs more than once in the archive", field="readings")
     if rpath not in files:

@@ -34,7 +34,7 @@ from webapp.models import Bench, Group, Person
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.classes import get_section, require_staff
 from webapp.services.errors import Invalid
-from webapp.services.import_store import GroupMaker, ImportItem, Mapping, import_one, readings_name
+from webapp.services.import_store import GroupMaker, ImportItem, Mapping, import_one, readings_name, readings_path
 
 #: limits of one import (a zip bomb or a runaway folder is refused before anything is read)
 MAX_FILES = 5000
@@ -294,7 +294,7 @@ def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
         total += len(files[path])
         rname = _readings_name_or_none(files[path])
         if rname is not None:
-            total += len(files.get(posixpath.normpath(posixpath.join(posixpath.dirname(path), rname)), b""))
+            total += len(files.get(readings_path(path, rname), b""))
     calc_limits.require_size(
         total,
         "import_total_bytes",
