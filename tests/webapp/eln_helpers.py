@@ -21,9 +21,10 @@ from webapp.migrate import upgrade
 from webapp.models import AuditEntry, Calibration, Calorimeter, Person, Run
 from webapp.services import eln
 from webapp.services.analysis import AnalysisOptions
-from webapp.services.calibrations import current_calibration, enter_heat_capacity, pool_candidates, withdraw_calibration
+from webapp.services.calibrations import enter_heat_capacity, withdraw_calibration
 from webapp.services.concurrency import content_hash
 from webapp.services.demo import PEOPLE, SPARE_CUP, load_demo
+from webapp.services.in_force import current_calibration, pool_candidates
 from webapp.services.runs import lock_run, reanalyze_run, update_run
 
 FAST_HASH = "scrypt:1024:8:1"

@@ -159,7 +159,8 @@ def test_the_control_chart_plots_the_cups_own_heat_capacity_by_default(client: A
 def test_the_dashboard_flags_a_run_on_an_overdue_cup(client: Any, lab: Any, session: Any) -> None:
     from types import SimpleNamespace
 
-    from webapp.services.dashboard import FLAGS, _overdue_flags
+    from webapp.services.dashboard import FLAGS
+    from webapp.services.dashboard_rows import _overdue_flags
 
     toml = without_heat_capacity(demo_files("diss-kcl-01")[0])  # [info] date = 2025-03-12
     assert _enter(client, lab, "18.6 ± 0.5 J/K", "2025-01-10").status_code == 201  # due 2025-02-09

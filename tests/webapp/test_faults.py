@@ -3,7 +3,7 @@
 After each kill the database must pass `cupcal db check` (the database's own check, every foreign
 key, every run complete with exactly one current result, content hashes) and the runs stored so
 far must be whole; importing the same files again must store exactly the rest. Each run is
-stored in its own transaction (webapp/services/imports.py), so a kill can lose at most the run
+stored in its own transaction (webapp/services/import_store.py), so a kill can lose at most the run
 in progress, never leave half of one. (Atomic commit is the database's promise: SQLite's WAL and
 PostgreSQL's write-ahead log, common practice, no source.)
 """

@@ -325,20 +325,20 @@ def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(
     import threading
 
     from webapp.db import new_session
-    from webapp.services import imports
+    from webapp.services import import_store
 
     cl = make_class(session, lab.ids["coord"])
     d = tmp_path / "race"
     simulated_run(d, "M01-run1", 1)
     files = files_from_folder(d)
     barrier = threading.Barrier(2, timeout=30)
-    real = imports.record_run
+    real = import_store.record_run
 
     def both_past_the_hash_check(*args: Any, **kwargs: Any) -> Any:
         barrier.wait()  # both imports have looked for the content hash and found nothing
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(imports, "record_run", both_past_the_hash_check)
+    monkeypatch.setattr(import_store, "record_run", both_past_the_hash_check)
     reports: list[Any] = []
 
     def run() -> None:

@@ -195,7 +195,7 @@ def test_comments_and_marks(app: Any, client: Any, session: Any, lab: Any, tmp_p
 
 
 def test_feedback_every_group_shares_is_said_once() -> None:
-    from webapp.services.dashboard import Row
+    from webapp.services.dashboard_rows import Row
     from webapp.services.feedback import split_feedback
 
     def row(run_id: int, group: str, flags: list[str]) -> Row:

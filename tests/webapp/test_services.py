@@ -136,7 +136,7 @@ def test_reanalysis_adds_a_result_and_keeps_the_old_one(session: Any, lab: Any) 
 
 
 def test_reanalyzing_a_calibration_replaces_its_value_in_the_pool(session: Any, lab: Any) -> None:
-    from webapp.services.calibrations import members_of
+    from webapp.services.in_force import members_of
 
     tech = session.get(Person, lab.ids["tech"])
     older = record_run(session, tech, _upload("cal-electrical-01", calorimeter_id=lab.calorimeter_id))

@@ -20,43 +20,10 @@ MAX_MODULE_LINES = 400
 MAX_FUNCTION_LINES = 60
 
 #: module (relative to webapp/) → (lines now, why it is longer)
-LONG_MODULES: dict[str, tuple[int, str]] = {
-    "services/calibrations.py": (
-        475,
-        "authority, pooling, the value in force, withdrawal and re-analysis share "
-        "one transaction discipline; not yet split into pooling and withdrawal",
-    ),
-    "services/eln.py": (420, "the whole .eln writer (runs, calorimeters, calibrations, the crate); not yet split"),
-    "services/imports.py": (
-        490,
-        "bulk import: reading folders and zips, matching groups and storing, in one "
-        "idempotent pass; not yet split into reading and storing",
-    ),
-    "services/runs.py": (
-        465,
-        "create, update, lock and re-analyze a run, around the one row-lock helper; not yet split",
-    ),
-}
+LONG_MODULES: dict[str, tuple[int, str]] = {}
 
 #: "module::function" → (lines now, why it is longer)
-LONG_FUNCTIONS: dict[str, tuple[int, str]] = {
-    "services/analysis.py::result_from_analysis": (
-        69,
-        "copies every field of calc's Analysis onto a Result row, one assignment per column",
-    ),
-    "services/classes.py::import_roster": (
-        91,
-        "validates every roster row before it stores any (all or nothing); not yet split into checking and storing",
-    ),
-    "services/control.py::control_view": (
-        66,
-        "the control chart's data for either source (heat capacity or a check standard); not yet split",
-    ),
-    "services/imports.py::_import_one": (
-        79,
-        "one file of a bulk import, from parsing to the stored run in one transaction; not yet split",
-    ),
-}
+LONG_FUNCTIONS: dict[str, tuple[int, str]] = {}
 
 
 def _modules() -> list[Path]:

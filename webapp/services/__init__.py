@@ -7,7 +7,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``analysis``: the bridge to calc: parse an upload, supply C_cal, analyze, map an Analysis to rows
 - ``audit``: the audit trail of every change to a run or a calorimeter
 - ``board_view``: the part of a dashboard a page shows: search, flag filter, pages of groups
-- ``calibrations``: calibration authority, pooling and the heat capacity in force, withdrawal, re-analysis
+- ``calibrations``: calibration authority: recording, approving, withdrawing, re-analyzing the runs that used one
 - ``calorimeters``: calorimeters and their heat-capacity history
 - ``checks``: plausibility checks of stored results: which runs are flagged and why
 - ``classes``: courses, sections, groups, benches, rosters from CSV, who may see a section
@@ -15,16 +15,20 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``concurrency``: early write transactions, row locks, versions, the hash a lock signs
 - ``control``: control charts per calorimeter and calibration due dates
 - ``dashboard``: the class dashboard: runs of a section or course with flags, feedback, statistics
+- ``dashboard_rows``: the dashboard's rows: each current result of a section's runs, with its flags
 - ``demo``: the invented demo lab with its people and runs
 - ``eln``: writing ``.eln`` archives of runs and calorimeters
-- ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive
+- ``eln_calibrations``: reading back a calorimeter and its calibrations from an ``.eln`` archive; people by e-mail
 - ``eln_check``: checking ``.eln`` archives: one root folder, safe paths, metadata, every ``sha256``
+- ``eln_folders``: the folders of an ``.eln`` archive being written: a run's and a calorimeter's
 - ``eln_import``: importing ``.eln`` archives, ours exactly, other notebooks' runs as new runs
 - ``eln_plots``: light SVG plots written into archives
-- ``eln_restore``: reading back the calorimeters, calibrations and runs cupcal wrote into an archive
+- ``eln_restore``: reading back the runs cupcal wrote into an archive, analyzed again and checked number for number
 - ``errors``: the errors services raise (``ServiceError`` and its kinds), which views turn into responses
 - ``feedback``: automatic feedback per group, and the flags' meanings
+- ``import_store``: storing one run file of a bulk import: readings, group and bench, content hash
 - ``imports``: bulk import of a section's runs from a zip or a folder
+- ``in_force``: the heat capacity in force: the pool of recent approved calibrations, confirming a large move
 - ``integrity``: ``cupcal db check``: the database's own check, foreign keys, complete runs, hashes
 - ``integrity_locks``: the part of ``cupcal db check`` for signed runs and the audit chain
 - ``jsontext``: JSON from callers, every failure an ``Invalid`` naming the field
@@ -42,6 +46,7 @@ Every module, one line each (``tests/webapp/test_services_index.py`` checks the 
 - ``review``: withdraw, exclude, accept; which runs count
 - ``review_page``: what the run page shows of a run's review
 - ``run_list``: the runs list's search, filters and sort, as one query
+- ``run_upload``: reading an upload: files checked and analyzed, its group and calorimeter, its new run row
 - ``runs``: record an upload, re-analyze, edit, lock, and the queries that list runs
 - ``samples``: replicates grouped by sample, with mean, t-interval and ν_eff
 - ``series``: series of repeat runs with the shared Type B part

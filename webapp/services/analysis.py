@@ -28,6 +28,7 @@ from calc.io.runfile import RunSpec, parse_run
 from calc.kinds import get_kind, kind_names
 from calc.limits import LimitExceeded
 from calc.report import to_record
+from calc.uncertainty.gum import GumResult
 from webapp.models import Calibration, Result, RunInput
 from webapp.services.errors import Invalid, TooLarge
 
@@ -55,28 +56,34 @@ class AnalysisOptions:
             finite times, or a Monte Carlo trial count out of range
         """
         if self.method is not None and (not isinstance(self.method, str) or self.method not in METHODS):
-            raise Invalid(f"unknown method {limits.shorten(repr(self.method))}; expected one of: "
-                          f"{', '.join(sorted(METHODS))}", field="method")
+            raise Invalid(
+                f"unknown method {limits.shorten(repr(self.method))}; expected one of: {', '.join(sorted(METHODS))}",
+                field="method",
+            )
         for name, period in (("fore", self.fore), ("after", self.after)):
             if period is None:
                 continue
-            if len(period) != 2 or not all(isinstance(x, int) and not isinstance(x, bool)
-                                           or isinstance(x, float) and math.isfinite(x) for x in period):
+            if len(period) != 2 or not all(
+                isinstance(x, int) and not isinstance(x, bool) or isinstance(x, float) and math.isfinite(x)
+                for x in period
+            ):
                 raise Invalid("expected two times in seconds, like [0, 170]", field=name)
             try:
                 check_options(0, None, **{name: period})
             except InputError as exc:
                 raise invalid(exc, name) from None
             if not period[1] > period[0]:
-                raise Invalid(f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)",
-                              field=name)
+                raise Invalid(
+                    f"the period must end after it starts (got {period[0]:g} s to {period[1]:g} s)", field=name
+                )
         if self.mixing_time is not None:
             v, u = self.mixing_time
             if not (isinstance(v, (int, float)) and math.isfinite(v)):
                 raise Invalid("expected the mixing time in seconds on the log's clock, like 180", field="mixing_time")
             if not (isinstance(u, (int, float)) and math.isfinite(u) and u >= 0):
-                raise Invalid("expected the mixing time's standard uncertainty in seconds (0 or more)",
-                              field="mixing_time")
+                raise Invalid(
+                    "expected the mixing time's standard uncertainty in seconds (0 or more)", field="mixing_time"
+                )
         try:
             check_options(self.monte_carlo_trials, self.seed)
         except InputError as exc:
@@ -103,26 +110,34 @@ def decode_readings(raw: bytes, name: str) -> str:
         ) from None
 
 
+def _run_file_or_none(run_toml: str) -> dict[str, Any] | None:
+    """Return a run file's TOML, or None when it does not parse (parse_run reports it with the line)."""
+    try:
+        return tomllib.loads(run_toml.lstrip("\ufeff"))
+    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
+        return None
+
+
 def needs_supplied_heat_capacity(run_toml: str) -> bool:
     """Return whether the run's kind needs C_cal and its file does not give it."""
-    try:
-        data = tomllib.loads(run_toml.lstrip("\ufeff"))
-    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
-        return False  # parse_run reports it with the line
-    if data.get("kind") not in NEEDS_HEAT_CAPACITY:
+    data = _run_file_or_none(run_toml)
+    if data is None or data.get("kind") not in NEEDS_HEAT_CAPACITY:
         return False
     cal = data.get("calorimeter", {})
     return isinstance(cal, dict) and "heat_capacity" not in cal
 
 
+def run_file_text(run_toml: str, section: str, key: str) -> str | None:
+    """Return the run file's ``[section] key`` as text without surrounding blanks, if it has a readable one."""
+    data = _run_file_or_none(run_toml)
+    part = data.get(section) if data is not None else None
+    value = part.get(key) if isinstance(part, dict) else None
+    return value.strip() if isinstance(value, str) and value.strip() else None
+
+
 def calorimeter_name_in(run_toml: str) -> str | None:
     """Return the run file's ``[calorimeter] name``, if it has a readable one."""
-    try:
-        cal = tomllib.loads(run_toml.lstrip("\ufeff")).get("calorimeter")
-    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
-        return None
-    name = cal.get("name") if isinstance(cal, dict) else None
-    return name.strip() if isinstance(name, str) and name.strip() else None
+    return run_file_text(run_toml, "calorimeter", "name")
 
 
 def heat_capacity_text(calibration: Calibration) -> str:
@@ -148,7 +163,7 @@ def supply_heat_capacity(run_toml: str, calibration: Calibration, source: str) -
                 "written as a table header; give heat_capacity in the run file",
                 field="calorimeter.heat_capacity",
             )
-        text = run_toml[: match.end()] + "\n" + line + run_toml[match.end():]
+        text = run_toml[: match.end()] + "\n" + line + run_toml[match.end() :]
     check = tomllib.loads(text)["calorimeter"].get("heat_capacity")
     if check != heat_capacity_text(calibration):  # pragma: no cover - guards the text edit
         raise Invalid(f"{source}: could not supply the heat capacity", field="calorimeter.heat_capacity")
@@ -177,9 +192,14 @@ def parse_inputs(
     return spec, readings
 
 
-def run_analysis(spec: RunSpec, readings: Readings, options: AnalysisOptions, *,
-                 calorimeter_type: str | None = None,
-                 history: list[tuple[float, float]] | None = None) -> Analysis:
+def run_analysis(
+    spec: RunSpec,
+    readings: Readings,
+    options: AnalysisOptions,
+    *,
+    calorimeter_type: str | None = None,
+    history: list[tuple[float, float]] | None = None,
+) -> Analysis:
     """Analyze with calc; its errors become :class:`Invalid`.
 
     ``calorimeter_type`` (the calorimeter record's type, unless the run file states one) and
@@ -221,9 +241,16 @@ def inputs_from_spec(spec: RunSpec, calibration: Calibration | None) -> list[Run
                 origin = supplied if (supplied and dotted == "calorimeter.heat_capacity") else "run file"
                 rows.append(_input_row(dotted, value, origin))
             elif dotted == "thermometer.resolution":
-                rows.append(RunInput(field=dotted, value=float(value), std_uncertainty=None, unit="K",
-                                     text=str(spec.raw.get("thermometer", {}).get("resolution", "")),
-                                     origin="run file"))
+                rows.append(
+                    RunInput(
+                        field=dotted,
+                        value=float(value),
+                        std_uncertainty=None,
+                        unit="K",
+                        text=str(spec.raw.get("thermometer", {}).get("resolution", "")),
+                        origin="run file",
+                    )
+                )
     return rows
 
 
@@ -236,36 +263,15 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
     gum = analysis.gum
     p = analysis.periods
     d = analysis.delta_t
-
-    def value(key: str) -> tuple[float | None, float | None]:
-        if key not in gum.values:
-            return None, None
-        return finite_or_none(gum.values[key]), finite_or_none(gum.uncertainties[key])
-
-    dt_v, dt_u = value("corrected_delta_t")
-    q_v, q_u = value("heat")
-    h_v, h_u = value("molar_enthalpy")
-    c_v, c_u = value("calorimeter_heat_capacity")
+    dt_v, dt_u = _gum_value(gum, "corrected_delta_t")
+    q_v, q_u = _gum_value(gum, "heat")
+    h_v, h_u = _gum_value(gum, "molar_enthalpy")
+    c_v, c_u = _gum_value(gum, "calorimeter_heat_capacity")
     if None in (dt_v, dt_u, q_v, q_u) or not math.isfinite(gum.expanded_uncertainty):
-        raise Invalid(f"{input_name}: the analysis gave no finite result; check the inputs and the log",
-                      field="readings")
+        raise Invalid(
+            f"{input_name}: the analysis gave no finite result; check the inputs and the log", field="readings"
+        )
     warnings = list(analysis.warnings) + [w for w in p.warnings if w not in analysis.warnings]
-    construction = {
-        **_jsonable(d.construction.to_dict()),
-        "start_temperature_K": finite_or_none(d.start_temperature),
-        "u_start_temperature_K": finite_or_none(d.u_start_temperature),
-        "end_temperature_K": finite_or_none(d.end_temperature),
-        "components_K": {
-            "fit": finite_or_none(d.u_fit),
-            "resolution_start": finite_or_none(d.u_resolution_start),
-            "resolution_end": finite_or_none(d.u_resolution_end),
-            "method": finite_or_none(d.u_method),
-            "mixing_time": finite_or_none(d.u_mixing_time),
-        },
-        "dof_fit": finite_or_none(d.dof_fit),
-        "main_end_s": finite_or_none(p.main_end),
-        "release_time_constant_s": finite_or_none(p.release_time_constant) if p.release_time_constant else None,
-    }
     return Result(
         method=d.method,
         main=analysis.main,
@@ -292,14 +298,50 @@ def result_from_analysis(analysis: Analysis, *, input_name: str, periods_given: 
         warnings=warnings,
         comparison=_jsonable(dataclasses.asdict(analysis.comparison)) if analysis.comparison is not None else None,
         cautions=_jsonable([dataclasses.asdict(c) for c in analysis.cautions]),
-        construction=construction,
-        properties={k: {"value": finite_or_none(v[0]), "standard_uncertainty": finite_or_none(v[1]), "unit": v[2], "source": v[3]}
-                    for k, v in analysis.properties.values.items()},
+        construction=_construction(analysis),
+        properties={
+            k: {
+                "value": finite_or_none(v[0]),
+                "standard_uncertainty": finite_or_none(v[1]),
+                "unit": v[2],
+                "source": v[3],
+            }
+            for k, v in analysis.properties.values.items()
+        },
         monte_carlo=_jsonable(dataclasses.asdict(analysis.monte_carlo)) if analysis.monte_carlo else None,
         record=_jsonable(to_record(analysis, input_name)),
         checks=_jsonable([c.as_dict() for c in analysis.checks]),
         software_version=analysis.software_version,
     )
+
+
+def _gum_value(gum: GumResult, key: str) -> tuple[float | None, float | None]:
+    """Return a GUM output's value and standard uncertainty (None when absent or not finite)."""
+    if key not in gum.values:
+        return None, None
+    return finite_or_none(gum.values[key]), finite_or_none(gum.uncertainties[key])
+
+
+def _construction(analysis: Analysis) -> dict[str, Any]:
+    """Return how ΔT was constructed: calc's construction, the temperatures and the parts of u(ΔT)."""
+    p = analysis.periods
+    d = analysis.delta_t
+    return {
+        **_jsonable(d.construction.to_dict()),
+        "start_temperature_K": finite_or_none(d.start_temperature),
+        "u_start_temperature_K": finite_or_none(d.u_start_temperature),
+        "end_temperature_K": finite_or_none(d.end_temperature),
+        "components_K": {
+            "fit": finite_or_none(d.u_fit),
+            "resolution_start": finite_or_none(d.u_resolution_start),
+            "resolution_end": finite_or_none(d.u_resolution_end),
+            "method": finite_or_none(d.u_method),
+            "mixing_time": finite_or_none(d.u_mixing_time),
+        },
+        "dof_fit": finite_or_none(d.dof_fit),
+        "main_end_s": finite_or_none(p.main_end),
+        "release_time_constant_s": finite_or_none(p.release_time_constant) if p.release_time_constant else None,
+    }
 
 
 def default_method(spec: RunSpec) -> str:

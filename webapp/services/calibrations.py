@@ -2,13 +2,9 @@
 
 - A calibration recorded by staff (a technician or a coordinator) is *approved*; a student's is
   *proposed* until staff approve it. Only approved measurements count.
-- The value in force is the pool (:mod:`calc.statistics.calibration_pool`) of the cup's recent approved
-  measurements: the newest :data:`POOL_SIZE` measured within :data:`POOL_DAYS` of the newest one,
-  and none before the latest *restart* (a confirmed change of the cup). A pool of one is that
-  calibration itself; a larger one is stored as its own row (``pool`` holds members and test), so
-  a run records exactly which value it used.
-- A value in force that would move by more than ``k·√(u_old² + u_new²)`` (:data:`CONFIRM_K`) needs
-  an explicit confirmation; a calibration run that would do so without one stays proposed.
+- The value in force is the pool of the cup's recent approved measurements
+  (:mod:`webapp.services.in_force`). A value in force that would move too far needs an explicit
+  confirmation; a calibration run that would do so without one stays proposed.
 - Withdrawing a calibration lists the runs that used it (or a pool holding it); they are
   re-analyzed with the value now in force in one action, locked (signed) runs excepted.
 """
@@ -24,24 +20,10 @@ import sqlalchemy.orm as so
 
 from calc.errors import InputError
 from calc.io.quantities import parse_measured
-from calc.statistics.calibration_pool import moves_too_far, pool
 from webapp.models import STAFF_ROLES, Calibration, Calorimeter, Person, Result, Run, utcnow
 from webapp.services.audit import record_change
 from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
-
-#: at most this many recent calibrations are pooled
-POOL_SIZE = 5
-#: … measured within this many days of the newest
-POOL_DAYS = 365
-#: a value in force moving by more than k·√(u_old² + u_new²) needs a confirmation
-CONFIRM_K = 2.0
-
-
-class NeedsConfirmation(Conflict):
-    """The value in force would move too far: the caller must confirm (nothing was saved)."""
-
-    def __init__(self, message: str) -> None:
-        super().__init__(message, field="confirm")
+from webapp.services.in_force import NeedsConfirmation, current_calibration, describe, members_of, refresh_in_force
 
 
 def parse_heat_capacity(text: str, field: str = "heat_capacity") -> tuple[float, float]:
@@ -99,8 +81,9 @@ def measured_at(run: Run) -> dt.datetime:
 # ------------------------------------------------------------------ due dates
 
 
-def overdue_note(day: dt.date | None, calibration: Calibration | None, calorimeter: Calorimeter | None,
-                 default_days: int) -> str | None:
+def overdue_note(
+    day: dt.date | None, calibration: Calibration | None, calorimeter: Calorimeter | None, default_days: int
+) -> str | None:
     """Return the warning for a run measured on ``day`` with ``calibration``'s value, or None when in time.
 
     The value was due again ``interval`` days after it was measured (the calorimeter's own interval,
@@ -112,9 +95,11 @@ def overdue_note(day: dt.date | None, calibration: Calibration | None, calorimet
     due = calibration.taken_at.date() + dt.timedelta(days=days)
     if day <= due:
         return None
-    return (f"calibration overdue: this run was measured on {day.isoformat()}, but the calorimeter's heat capacity "
-            f"in force was measured on {calibration.taken_at.date().isoformat()} and was due again on "
-            f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyze")
+    return (
+        f"calibration overdue: this run was measured on {day.isoformat()}, but the calorimeter's heat capacity "
+        f"in force was measured on {calibration.taken_at.date().isoformat()} and was due again on "
+        f"{due.isoformat()} (every {days} days); calibrate the cup, then re-analyze"
+    )
 
 
 def run_day(run: Run) -> dt.date:
@@ -130,110 +115,12 @@ def text_day(text: str | None) -> dt.date:
         return utcnow().date()
 
 
-# ------------------------------------------------------------------ the value in force
-
-
-def current_calibration(session: so.Session, calorimeter_id: int) -> Calibration | None:
-    """Return the value in force: the approved row that became it last (None: not calibrated)."""
-    return session.scalar(
-        sa.select(Calibration)
-        .where(Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved",
-               Calibration.in_force_at.is_not(None))
-        .order_by(Calibration.in_force_at.desc(), Calibration.id.desc())
-        .limit(1)
-    )
-
-
-def members_of(cal: Calibration) -> list[int]:
-    """Return the measurement ids behind a value (itself, or a pool's members)."""
-    return [int(i) for i in cal.pool["members"]] if cal.pool else [cal.id]
-
-
-def pool_candidates(session: so.Session, calorimeter_id: int) -> list[Calibration]:
-    """Return the approved measurements that may be pooled now, newest first."""
-    rows = list(session.scalars(
-        sa.select(Calibration)
-        .where(Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved",
-               Calibration.pool.is_(None), Calibration.heat_capacity_j_k_std > 0)
-        .order_by(Calibration.taken_at.desc(), Calibration.id.desc())
-    ))
-    out: list[Calibration] = []
-    for c in rows:
-        if len(out) >= POOL_SIZE or (out and c.taken_at < out[0].taken_at - dt.timedelta(days=POOL_DAYS)):
-            break
-        out.append(c)
-        if c.restart:
-            break
-    return out
-
-
-def describe(cal: Calibration | None) -> str | None:
-    """Return a value as audit text: ``18.6 ± 0.4 J/K (#12)`` or ``… (pool of #3, #5)``."""
-    if cal is None:
-        return None
-    what = f"pool of {', '.join(f'#{i}' for i in members_of(cal))}" if cal.pool else f"#{cal.id}"
-    return f"{cal.heat_capacity_j_k:.6g} ± {cal.heat_capacity_j_k_std:.2g} J/K ({what})"
-
-
-def refresh_in_force(session: so.Session, calorimeter: Calorimeter, actor: Person | None, *,
-                     confirm: bool = False, new: Calibration | None = None) -> Calibration | None:
-    """Recompute the value in force from the approved measurements (the caller commits).
-
-    :param new: the calibration just recorded or approved: it too needs a confirmation when it lies
-        more than k·√(u_old² + u_new²) from the value in force (it would be left out of the pool, or
-        move it)
-    :raise NeedsConfirmation: before anything is written, when the value would move too far
-        and ``confirm`` is not set
-    """
-    session.execute(sa.select(Calorimeter.id).where(Calorimeter.id == calorimeter.id).with_for_update())
-    session.flush()
-    current = current_calibration(session, calorimeter.id)
-    candidates = pool_candidates(session, calorimeter.id)
-    if not candidates:
-        return None
-    p = pool([(c.id, c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in candidates])
-    if (new is not None and current is not None and not confirm and moves_too_far(
-            (current.heat_capacity_j_k, current.heat_capacity_j_k_std),
-            (new.heat_capacity_j_k, new.heat_capacity_j_k_std), CONFIRM_K)):
-        raise NeedsConfirmation(
-            f"calibration {new.heat_capacity_j_k:.4g} ± {new.heat_capacity_j_k_std:.2g} J/K of {calorimeter.name!r} "
-            f"lies more than {CONFIRM_K:g} combined standard uncertainties from the value in force, "
-            f"{current.heat_capacity_j_k:.4g} ± {current.heat_capacity_j_k_std:.2g} J/K; nothing was saved. Check "
-            "the value (a typed voltage, a mass), then confirm it (and say whether the cup itself changed, "
-            "to start its history afresh)")
-    if current is not None and sorted(members_of(current)) == sorted(p.members):
-        if current.pool is not None and current.pool != p.as_dict():
-            current.pool = p.as_dict()  # same members and value: the test now also weighed a newer one
-        return current
-    if (current is not None and not confirm
-            and moves_too_far((current.heat_capacity_j_k, current.heat_capacity_j_k_std), (p.value, p.u), CONFIRM_K)):
-        raise NeedsConfirmation(
-            f"the heat capacity in force of {calorimeter.name!r} would move from {current.heat_capacity_j_k:.4g} ± "
-            f"{current.heat_capacity_j_k_std:.2g} J/K to {p.value:.4g} ± {p.u:.2g} J/K, more than {CONFIRM_K:g} "
-            "combined standard uncertainties; nothing was saved. Check the value, then confirm the change "
-            "(and say whether the cup itself changed, to start its history afresh)")
-    now = utcnow()
-    if len(p.members) == 1:
-        row = session.get(Calibration, p.members[0])
-        assert row is not None
-        row.in_force_at = now
-    else:
-        newest = max((c for c in candidates if c.id in p.members), key=lambda c: (c.taken_at, c.id))
-        row = Calibration(calorimeter=calorimeter, heat_capacity_j_k=p.value, heat_capacity_j_k_std=p.u,
-                          taken_at=newest.taken_at, note=f"weighted mean of {len(p.members)} calibrations",
-                          created_by=actor, status="approved", approved_by=actor, approved_at=now,
-                          in_force_at=now, pool=p.as_dict())
-        session.add(row)
-        session.flush()
-    record_change(session, actor, "calorimeter", calorimeter.id, "heat_capacity", describe(current), describe(row))
-    return row
-
-
 # ------------------------------------------------------------------ recording and approving
 
 
-def calibration_from_result(session: so.Session, calorimeter: Calorimeter, result: Result, actor: Person | None,
-                            *, reanalysis: bool = False) -> Calibration:
+def calibration_from_result(
+    session: so.Session, calorimeter: Calorimeter, result: Result, actor: Person | None, *, reanalysis: bool = False
+) -> Calibration:
     """Add the heat capacity a calibration run measured (the caller commits).
 
     Staff's calibration is approved and pooled at once (a re-analysis replaces the run's earlier
@@ -246,10 +133,15 @@ def calibration_from_result(session: so.Session, calorimeter: Calorimeter, resul
         _replace_earlier(session, actor, run.id, keep=None)
     now = utcnow()
     cal = Calibration(
-        calorimeter=calorimeter, heat_capacity_j_k=result.calorimeter_heat_capacity_j_k,
-        heat_capacity_j_k_std=result.calorimeter_heat_capacity_j_k_std or 0.0, taken_at=measured_at(run),
-        result=result, note=f"{run.kind} run #{run.id}, {result.method}", created_by=actor,
-        status="approved" if approved else "proposed", approved_by=actor if approved else None,
+        calorimeter=calorimeter,
+        heat_capacity_j_k=result.calorimeter_heat_capacity_j_k,
+        heat_capacity_j_k_std=result.calorimeter_heat_capacity_j_k_std or 0.0,
+        taken_at=measured_at(run),
+        result=result,
+        note=f"{run.kind} run #{run.id}, {result.method}",
+        created_by=actor,
+        status="approved" if approved else "proposed",
+        approved_by=actor if approved else None,
         approved_at=now if approved else None,
     )
     session.add(cal)
@@ -269,16 +161,27 @@ def calibration_from_result(session: so.Session, calorimeter: Calorimeter, resul
 
 def _replace_earlier(session: so.Session, actor: Person | None, run_id: int, keep: int | None) -> None:
     """Withdraw the other live calibrations of the same run (a re-analysis replaces them)."""
-    older = session.scalars(sa.select(Calibration).join(Result, Calibration.result_id == Result.id).where(
-        Result.run_id == run_id, Calibration.status != "withdrawn")).all()
+    older = session.scalars(
+        sa.select(Calibration)
+        .join(Result, Calibration.result_id == Result.id)
+        .where(Result.run_id == run_id, Calibration.status != "withdrawn")
+    ).all()
     for old in older:
         if old.id != keep:
             _withdraw(session, actor, old, f"replaced by the re-analysis of run #{run_id}")
 
 
-def enter_heat_capacity(session: so.Session, actor: Person, calorimeter: Calorimeter, heat_capacity: str,
-                        measured_on: Any, note: str = "", *, confirm: bool = False,
-                        restart: bool = False) -> Calibration:
+def enter_heat_capacity(
+    session: so.Session,
+    actor: Person,
+    calorimeter: Calorimeter,
+    heat_capacity: str,
+    measured_on: Any,
+    note: str = "",
+    *,
+    confirm: bool = False,
+    restart: bool = False,
+) -> Calibration:
     """Record a heat capacity measured elsewhere, with the date it was measured (staff), and commit."""
     from webapp.services.concurrency import locked_calorimeter
 
@@ -288,9 +191,18 @@ def enter_heat_capacity(session: so.Session, actor: Person, calorimeter: Calorim
     if len(note or "") > 300:
         raise Invalid("at most 300 characters", field="note")
     calorimeter = locked_calorimeter(session, calorimeter.id)
-    cal = Calibration(calorimeter=calorimeter, heat_capacity_j_k=value, heat_capacity_j_k_std=u, taken_at=when,
-                      note=(note or "").strip() or f"entered by {actor.name}", created_by=actor, status="approved",
-                      approved_by=actor, approved_at=utcnow(), restart=bool(restart))
+    cal = Calibration(
+        calorimeter=calorimeter,
+        heat_capacity_j_k=value,
+        heat_capacity_j_k_std=u,
+        taken_at=when,
+        note=(note or "").strip() or f"entered by {actor.name}",
+        created_by=actor,
+        status="approved",
+        approved_by=actor,
+        approved_at=utcnow(),
+        restart=bool(restart),
+    )
     session.add(cal)
     session.flush()
     record_change(session, actor, "calibration", cal.id, "status", None, "approved")
@@ -299,8 +211,9 @@ def enter_heat_capacity(session: so.Session, actor: Person, calorimeter: Calorim
     return cal
 
 
-def approve_calibration(session: so.Session, actor: Person, calibration_id: int, *, confirm: bool = False,
-                        restart: bool = False) -> Calibration:
+def approve_calibration(
+    session: so.Session, actor: Person, calibration_id: int, *, confirm: bool = False, restart: bool = False
+) -> Calibration:
     """Approve a proposed calibration (staff) so it joins the value in force, and commit."""
     from webapp.services.concurrency import locked_calorimeter
 
@@ -333,9 +246,13 @@ def get_calibration(session: so.Session, calibration_id: int) -> Calibration:
 def _withdraw(session: so.Session, actor: Person | None, cal: Calibration, reason: str) -> None:
     record_change(session, actor, "calibration", cal.id, "status", cal.status, "withdrawn")
     cal.status, cal.withdrawn_by, cal.withdrawn_at, cal.withdrawn_reason = "withdrawn", actor, utcnow(), reason
-    pools = session.scalars(sa.select(Calibration).where(
-        Calibration.calorimeter_id == cal.calorimeter_id, Calibration.pool.is_not(None),
-        Calibration.status == "approved")).all()
+    pools = session.scalars(
+        sa.select(Calibration).where(
+            Calibration.calorimeter_id == cal.calorimeter_id,
+            Calibration.pool.is_not(None),
+            Calibration.status == "approved",
+        )
+    ).all()
     for p in pools:
         if cal.id in members_of(p):
             record_change(session, actor, "calibration", p.id, "status", p.status, "withdrawn")
@@ -357,8 +274,9 @@ def withdraw_calibration(session: so.Session, actor: Person, calibration_id: int
     calorimeter = locked_calorimeter(session, cal.calorimeter_id)
     cal = get_calibration(session, calibration_id)
     if cal.pool is not None:
-        raise Invalid("a pooled value is not withdrawn itself: withdraw the calibration that is wrong",
-                      field="calibration_id")
+        raise Invalid(
+            "a pooled value is not withdrawn itself: withdraw the calibration that is wrong", field="calibration_id"
+        )
     if cal.status == "withdrawn":
         raise Conflict(f"calibration {cal.id} is withdrawn already", field="status")
     _withdraw(session, actor, cal, reason)
@@ -371,8 +289,11 @@ def runs_using(session: so.Session, calibration: Calibration) -> list[Run]:
     """Return the runs whose C_cal came from this calibration or from a pool that held it."""
     ids = {calibration.id}
     if calibration.pool is None:
-        pools = session.scalars(sa.select(Calibration).where(
-            Calibration.calorimeter_id == calibration.calorimeter_id, Calibration.pool.is_not(None))).all()
+        pools = session.scalars(
+            sa.select(Calibration).where(
+                Calibration.calorimeter_id == calibration.calorimeter_id, Calibration.pool.is_not(None)
+            )
+        ).all()
         ids |= {p.id for p in pools if calibration.id in members_of(p)}
     return list(session.scalars(sa.select(Run).where(Run.calibration_id.in_(ids)).order_by(Run.id)))
 
@@ -400,8 +321,9 @@ def reanalyze_runs_using(session: so.Session, actor: Person, calibration_id: int
     cal = get_calibration(session, calibration_id)
     target = current_calibration(session, cal.calorimeter_id)
     if target is None:
-        raise Invalid("the calorimeter has no heat capacity in force; record or approve one first",
-                      field="calibration_id")
+        raise Invalid(
+            "the calorimeter has no heat capacity in force; record or approve one first", field="calibration_id"
+        )
     if target.id == cal.id:
         raise Invalid("this calibration is the value in force; withdraw it first", field="calibration_id")
     plans = []
@@ -443,9 +365,11 @@ def _analyze_with(run: Run, target: Calibration) -> Result:
 
     current = run.current_result
     given = bool(current and current.periods_given)
-    options = AnalysisOptions(method=current.method if current else None,
-                              fore=(current.fore_start_s, current.fore_end_s) if given else None,
-                              after=(current.after_start_s, current.after_end_s) if given else None)
+    options = AnalysisOptions(
+        method=current.method if current else None,
+        fore=(current.fore_start_s, current.fore_end_s) if given else None,
+        after=(current.after_start_s, current.after_end_s) if given else None,
+    )
     text = decode_readings(run.readings_raw, run.readings_name)
     spec, readings = parse_inputs(run.run_toml, run.run_file_name, text, run.readings_name, target)
     analysis = run_analysis(spec, readings, options)
@@ -463,4 +387,3 @@ def _switch(session: so.Session, actor: Person, run: Run, target: Calibration, r
             row.text = f"{target.heat_capacity_j_k!r} ± {target.heat_capacity_j_k_std!r} J/K"[:300]
             row.origin = f"calibration #{target.id}"
     store_result(session, actor, run, result)
-

@@ -16,6 +16,7 @@ from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.calibrations import parse_heat_capacity
 from webapp.services.errors import Conflict, Invalid, NotFound
+from webapp.services.in_force import current_calibration
 
 #: fields of a calorimeter that can be edited (each change is audited)
 EDITABLE_FIELDS = ("name", "parts", "location", "vessel_type")
@@ -157,13 +158,6 @@ def enter_heat_capacity(
     from webapp.services.calibrations import enter_heat_capacity as enter
 
     return enter(session, actor, calorimeter, heat_capacity, measured_on, note, confirm=confirm, restart=restart)
-
-
-def current_calibration(session: so.Session, calorimeter_id: int) -> Calibration | None:
-    """Return the value in force (a calibration, or the pool of recent ones)."""
-    from webapp.services.calibrations import current_calibration as in_force
-
-    return in_force(session, calorimeter_id)
 
 
 def calibration_history(calorimeter_id: int) -> sa.Select[tuple[Calibration]]:

@@ -161,8 +161,13 @@ def create_bench(
     resolution = parse_resolution(thermometer_resolution)
     if session.scalar(sa.select(Bench.id).where(Bench.section_id == section.id, Bench.name == name)):
         raise Conflict(f"section {section.name!r} has a bench named {name!r} already", field="name")
-    bench = Bench(section=section, name=name, calorimeter_id=calorimeter_id, thermometer=thermometer,
-                  thermometer_resolution_k=resolution)
+    bench = Bench(
+        section=section,
+        name=name,
+        calorimeter_id=calorimeter_id,
+        thermometer=thermometer,
+        thermometer_resolution_k=resolution,
+    )
     session.add(bench)
     session.commit()
     return bench
@@ -209,8 +214,9 @@ def _roster_rows(text: str, source: str) -> tuple[list[_Row], list[str]]:
         raise RosterInvalid([f"{source}, line 1: empty file; expected the columns {', '.join(ROSTER_COLUMNS)}"])
     missing = [c for c in ("name", "email", "role") if c not in header]
     if missing:
-        raise RosterInvalid([f"{source}, line 1: missing column(s) {', '.join(missing)}; "
-                             f"expected {', '.join(ROSTER_COLUMNS)}"])
+        raise RosterInvalid(
+            [f"{source}, line 1: missing column(s) {', '.join(missing)}; expected {', '.join(ROSTER_COLUMNS)}"]
+        )
     reader.fieldnames = header
     rows: list[_Row] = []
     errors: list[str] = []
@@ -225,13 +231,26 @@ def _roster_rows(text: str, source: str) -> tuple[list[_Row], list[str]]:
         vals = {k: (raw.get(k) or "").strip() for k in ROSTER_COLUMNS}
         if not any(vals.values()):
             continue
-        rows.append(_Row(line, vals["course"], vals["section"], vals["group"], vals["name"],
-                         vals["email"].lower(), vals["role"].lower()))
+        rows.append(
+            _Row(
+                line,
+                vals["course"],
+                vals["section"],
+                vals["group"],
+                vals["name"],
+                vals["email"].lower(),
+                vals["role"].lower(),
+            )
+        )
     return rows, errors
 
 
 def import_roster(
-    session: so.Session, actor: Person, text: str, *, source: str = "roster.csv",
+    session: so.Session,
+    actor: Person,
+    text: str,
+    *,
+    source: str = "roster.csv",
     password_method: str = DEFAULT_PASSWORD_METHOD,
 ) -> RosterReport:
     """Import a roster CSV (coordinators only): people, and the courses, sections and groups they name.
@@ -243,81 +262,124 @@ def import_roster(
     """
     require_coordinator(actor, "import rosters")
     rows, errors = _roster_rows(text, source)
+    known = _Known(
+        courses={c.name: c for c in session.scalars(sa.select(Course))},
+        sections={
+            (s.course.name, s.name): s
+            for s in session.scalars(sa.select(Section).options(so.joinedload(Section.course)))
+        },
+        groups={g.name: g for g in session.scalars(sa.select(Group).options(so.joinedload(Group.section)))},
+        people={
+            p.email: p for p in session.scalars(sa.select(Person).where(Person.email.in_([r.email for r in rows])))
+        },
+    )
     seen: dict[str, int] = {}
-    courses = {c.name: c for c in session.scalars(sa.select(Course))}
-    sections = {(s.course.name, s.name): s for s in session.scalars(sa.select(Section).options(
-        so.joinedload(Section.course)))}
-    groups = {g.name: g for g in session.scalars(sa.select(Group).options(so.joinedload(Group.section)))}
-    people = {p.email: p for p in session.scalars(sa.select(Person).where(Person.email.in_([r.email for r in rows])))}
     planned_groups: dict[str, tuple[str, str]] = {}
     for r in rows:
-        where = f"{source}, line {r.line}"
-        if not _EMAIL_RE.fullmatch(r.email):
-            errors.append(f"{where}, column email: expected an e-mail address, got {r.email!r}")
-        elif r.email in seen:
-            errors.append(f"{where}, column email: {r.email} is on line {seen[r.email]} already")
-        else:
-            seen[r.email] = r.line
-        if r.role not in ROLES:
-            errors.append(f"{where}, column role: expected one of {', '.join(ROLES)}, got {r.role!r}")
-        if not r.name:
-            errors.append(f"{where}, column name: must not be empty")
-        for col, val, lim in (("course", r.course, 120), ("section", r.section, 120), ("group", r.group, 120),
-                              ("name", r.name, 120)):
-            if len(val) > lim:
-                errors.append(f"{where}, column {col}: at most {lim} characters")
-        if r.group and not (r.course and r.section):
-            errors.append(f"{where}: a group needs its course and section")
-        elif r.section and not r.course:
-            errors.append(f"{where}: a section needs its course")
-        if r.role == "student" and not r.group:
-            errors.append(f"{where}, column group: a student needs a group")
-        if r.group:
-            key = (r.course, r.section)
-            g = groups.get(r.group)
-            if g is not None and (g.section is None or (g.section.course.name, g.section.name) != key):
-                other = f"section {g.section.name!r}" if g.section else "no section"
-                errors.append(f"{where}, column group: group {r.group!r} exists already in {other}; "
-                              "group names are unique in the notebook")
-            elif planned_groups.setdefault(r.group, key) != key:
-                errors.append(f"{where}, column group: group {r.group!r} is given another section on an earlier line")
-        p = people.get(r.email)
-        if p is not None and r.role in ROLES and p.role != r.role:
-            errors.append(f"{where}, column role: {r.email} is a {p.role} already, not a {r.role}")
+        errors += _row_errors(r, f"{source}, line {r.line}", known, seen, planned_groups)
     if not rows and not errors:
         errors.append(f"{source}: no rows")
     if errors:
         raise RosterInvalid(errors)
+    report = _store_roster(session, rows, known, password_method)
+    session.commit()
+    return report
+
+
+@dataclasses.dataclass
+class _Known:
+    """What the notebook holds already of the names a roster uses (added to as the roster is stored)."""
+
+    courses: dict[str, Course]
+    sections: dict[tuple[str, str], Section]
+    groups: dict[str, Group]
+    people: dict[str, Person]
+
+
+def _row_errors(
+    r: _Row, where: str, known: _Known, seen: dict[str, int], planned_groups: dict[str, tuple[str, str]]
+) -> list[str]:
+    """Return the errors of one roster row (``seen`` and ``planned_groups`` carry earlier rows)."""
+    errors = []
+    if not _EMAIL_RE.fullmatch(r.email):
+        errors.append(f"{where}, column email: expected an e-mail address, got {r.email!r}")
+    elif r.email in seen:
+        errors.append(f"{where}, column email: {r.email} is on line {seen[r.email]} already")
+    else:
+        seen[r.email] = r.line
+    if r.role not in ROLES:
+        errors.append(f"{where}, column role: expected one of {', '.join(ROLES)}, got {r.role!r}")
+    if not r.name:
+        errors.append(f"{where}, column name: must not be empty")
+    for col, val, lim in (
+        ("course", r.course, 120),
+        ("section", r.section, 120),
+        ("group", r.group, 120),
+        ("name", r.name, 120),
+    ):
+        if len(val) > lim:
+            errors.append(f"{where}, column {col}: at most {lim} characters")
+    if r.group and not (r.course and r.section):
+        errors.append(f"{where}: a group needs its course and section")
+    elif r.section and not r.course:
+        errors.append(f"{where}: a section needs its course")
+    if r.role == "student" and not r.group:
+        errors.append(f"{where}, column group: a student needs a group")
+    if r.group:
+        key = (r.course, r.section)
+        g = known.groups.get(r.group)
+        if g is not None and (g.section is None or (g.section.course.name, g.section.name) != key):
+            other = f"section {g.section.name!r}" if g.section else "no section"
+            errors.append(
+                f"{where}, column group: group {r.group!r} exists already in {other}; "
+                "group names are unique in the notebook"
+            )
+        elif planned_groups.setdefault(r.group, key) != key:
+            errors.append(f"{where}, column group: group {r.group!r} is given another section on an earlier line")
+    p = known.people.get(r.email)
+    if p is not None and r.role in ROLES and p.role != r.role:
+        errors.append(f"{where}, column role: {r.email} is a {p.role} already, not a {r.role}")
+    return errors
+
+
+def _store_roster(session: so.Session, rows: list[_Row], known: _Known, password_method: str) -> RosterReport:
+    """Add the courses, sections, groups and people of checked roster rows (the caller commits)."""
     report = RosterReport()
     for r in rows:
         course = None
         if r.course:
-            course = courses.get(r.course)
+            course = known.courses.get(r.course)
             if course is None:
-                course = courses[r.course] = Course(name=r.course)
+                course = known.courses[r.course] = Course(name=r.course)
                 session.add(course)
                 report.courses_created.append(r.course)
         section = None
         if r.section and course is not None:
-            section = sections.get((r.course, r.section))
+            section = known.sections.get((r.course, r.section))
             if section is None:
-                section = sections[(r.course, r.section)] = Section(course=course, name=r.section)
+                section = known.sections[(r.course, r.section)] = Section(course=course, name=r.section)
                 session.add(section)
                 report.sections_created.append(f"{r.course} / {r.section}")
         group = None
         if r.group and section is not None:
-            group = groups.get(r.group)
+            group = known.groups.get(r.group)
             if group is None:
-                group = groups[r.group] = Group(name=r.group, course=course, section=section)
+                group = known.groups[r.group] = Group(name=r.group, course=course, section=section)
                 session.add(group)
                 report.groups_created.append(r.group)
-        p = people.get(r.email)
+        p = known.people.get(r.email)
         if p is None:
-            session.add(Person(email=r.email, name=r.name, role=r.role, group=group,
-                               password_hash=hash_password(secrets.token_urlsafe(24), password_method)))
+            session.add(
+                Person(
+                    email=r.email,
+                    name=r.name,
+                    role=r.role,
+                    group=group,
+                    password_hash=hash_password(secrets.token_urlsafe(24), password_method),
+                )
+            )
             report.people_created.append(r.email)
         elif group is not None and p.group_id != getattr(group, "id", None):
             p.group = group
             report.people_updated.append(r.email)
-    session.commit()
     return report

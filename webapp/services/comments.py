@@ -44,20 +44,20 @@ def add_run_comment(session: so.Session, actor: Person, run_id: int, body: objec
     """Add a staff comment to a run and commit (a signed run may still be commented on)."""
     require_staff(actor, "comment on runs")
     run = get_run(session, actor, run_id)
-    comment = Comment(run_id=run.id, author_id=actor.id, body=_body(body))
-    session.add(comment)
-    record_change(session, actor, "run", run.id, "comment", None, comment.body)
-    session.commit()
-    return comment
+    return _add(session, actor, Comment(run_id=run.id, author_id=actor.id, body=_body(body)), "run", run.id)
 
 
 def add_group_comment(session: so.Session, actor: Person, group_id: int, body: object) -> Comment:
     """Add a staff comment on a group's work and commit."""
     require_staff(actor, "comment on groups")
     group = get_group(session, actor, group_id)
-    comment = Comment(group_id=group.id, author_id=actor.id, body=_body(body))
+    return _add(session, actor, Comment(group_id=group.id, author_id=actor.id, body=_body(body)), "group", group.id)
+
+
+def _add(session: so.Session, actor: Person, comment: Comment, entity: str, entity_id: int) -> Comment:
+    """Store a comment, audited on its run or group, and commit."""
     session.add(comment)
-    record_change(session, actor, "group", group.id, "comment", None, comment.body)
+    record_change(session, actor, entity, entity_id, "comment", None, comment.body)
     session.commit()
     return comment
 

@@ -20,13 +20,13 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from calc.errors import InputError
-from calc.statistics.control_charts import RULES, calibration_status, control_chart
+from calc.statistics.control_charts import RULES, ControlChart, calibration_status, control_chart
 from webapp.models import Calibration, Calorimeter, Person, Result, Run
 from webapp.services.access import require_coordinator, visible_runs_clause
 from webapp.services.audit import record_change
 from webapp.services.calorimeters import get_calorimeter
 from webapp.services.checks import flag_text, flagged_checks
-from webapp.services.dashboard import _measurement
+from webapp.services.dashboard_rows import measurement_name
 from webapp.services.errors import Invalid
 from webapp.services.review import included_in_statistics, with_review
 
@@ -52,22 +52,38 @@ class ControlView:
     left_out: list[dict[str, Any]] = dataclasses.field(default_factory=list)
 
 
-def calibration_info(session: so.Session, calorimeter: Calorimeter, default_days: int,
-                     today: dt.date | None = None) -> dict[str, Any]:
+def calibration_info(
+    session: so.Session, calorimeter: Calorimeter, default_days: int, today: dt.date | None = None
+) -> dict[str, Any]:
     """Return the last calibration date, the interval, the due date and whether it is overdue."""
-    from webapp.services.calibrations import current_calibration
+    from webapp.services.in_force import current_calibration
 
     current = current_calibration(session, calorimeter.id)
     last = current.taken_at if current is not None else None  # when the value in force was measured
     days = calorimeter.calibration_interval_days or int(default_days)
     if last is None:
-        return {"last": None, "interval_days": days, "due": None, "overdue": True, "days_left": None,
-                "message": "never calibrated: calibrate before use"}
+        return {
+            "last": None,
+            "interval_days": days,
+            "due": None,
+            "overdue": True,
+            "days_left": None,
+            "message": "never calibrated: calibrate before use",
+        }
     st = calibration_status(last, days, today or dt.datetime.now(dt.UTC).date())
-    msg = (f"overdue since {st.due.isoformat()}" if st.overdue else f"due on {st.due.isoformat()} "
-           f"({st.days_left} day(s) left)")
-    return {"last": st.last_calibration.isoformat(), "interval_days": days, "due": st.due.isoformat(),
-            "overdue": st.overdue, "days_left": st.days_left, "message": msg}
+    msg = (
+        f"overdue since {st.due.isoformat()}"
+        if st.overdue
+        else f"due on {st.due.isoformat()} ({st.days_left} day(s) left)"
+    )
+    return {
+        "last": st.last_calibration.isoformat(),
+        "interval_days": days,
+        "due": st.due.isoformat(),
+        "overdue": st.overdue,
+        "days_left": st.days_left,
+        "message": msg,
+    }
 
 
 def set_interval(session: so.Session, actor: Person, calorimeter: Calorimeter, days: int | None) -> Calorimeter:
@@ -76,37 +92,37 @@ def set_interval(session: so.Session, actor: Person, calorimeter: Calorimeter, d
     if days is not None and (isinstance(days, bool) or not isinstance(days, int) or not 1 <= days <= 3650):
         raise Invalid("expected a whole number of days from 1 to 3650", field="calibration_interval_days")
     if calorimeter.calibration_interval_days != days:
-        record_change(session, actor, "calorimeter", calorimeter.id, "calibration_interval_days",
-                      calorimeter.calibration_interval_days, days)
+        record_change(
+            session,
+            actor,
+            "calorimeter",
+            calorimeter.id,
+            "calibration_interval_days",
+            calorimeter.calibration_interval_days,
+            days,
+        )
         calorimeter.calibration_interval_days = days
     session.commit()
     return calorimeter
 
 
-def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, standard: str | None = None,
-                 baseline: int | None = None, default_days: int = 30,
-                 today: dt.date | None = None) -> ControlView:
+def control_view(
+    session: so.Session,
+    viewer: Person,
+    calorimeter_id: int,
+    *,
+    standard: str | None = None,
+    baseline: int | None = None,
+    default_days: int = 30,
+    today: dt.date | None = None,
+) -> ControlView:
     """Return the control chart of one check standard of a calorimeter (default: the one with most runs).
 
     Only the runs ``viewer`` may see are charted (staff: every run; a student: their group's), as
     on the calorimeter page.
     """
     cal = get_calorimeter(session, calorimeter_id)
-    rows = session.execute(
-        with_review(sa.select(Run.id, Run.kind, Run.created_at, Run.title, Result.main, Result.molar_enthalpy_kj_mol,
-                              Result.calorimeter_heat_capacity_j_k, Result.comparison, Result.checks)
-                    .join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True))))
-        .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer), included_in_statistics())
-        .order_by(Run.created_at, Run.id)
-    ).all()
-    series: dict[str, list[dict[str, Any]]] = defaultdict(list)
-    for rid, kind, created, title, main, h, c, comp, checks in rows:
-        v = h if main == "molar_enthalpy" else c
-        if v is not None:
-            series[_measurement(kind, comp)].append({
-                "run_id": rid, "at": created.strftime("%Y-%m-%d %H:%M"), "title": title, "value": v,
-                "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K",
-                "flagged": flag_text(checks) if flagged_checks(checks) else ""})
+    series = _run_series(session, viewer, cal)
     own = _heat_capacities(session, cal.id)
     standards = {k: len(v) for k, v in sorted(series.items(), key=lambda kv: -len(kv[1]))}
     if own:
@@ -126,6 +142,60 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
     if baseline is not None and (isinstance(baseline, bool) or not 2 <= baseline <= max(n, 2)):
         raise Invalid(f"expected a baseline of 2 to {max(n, 2)} points", field="baseline")
     base = baseline if baseline is not None else min(DEFAULT_BASELINE, n)
+    chart, message = _chart(points, base)
+    return ControlView(
+        cal,
+        standards,
+        standard,
+        points[0]["unit"] if points else "",
+        points,
+        chart,
+        base,
+        message,
+        info,
+        [p for p in points[:base] if p["flagged"]],
+    )
+
+
+def _run_series(session: so.Session, viewer: Person, cal: Calorimeter) -> dict[str, list[dict[str, Any]]]:
+    """Return the runs on ``cal`` that ``viewer`` may see and that count, as points by what they measured."""
+    rows = session.execute(
+        with_review(
+            sa.select(
+                Run.id,
+                Run.kind,
+                Run.created_at,
+                Run.title,
+                Result.main,
+                Result.molar_enthalpy_kj_mol,
+                Result.calorimeter_heat_capacity_j_k,
+                Result.comparison,
+                Result.checks,
+            ).join(Result, sa.and_(Result.run_id == Run.id, Result.is_current.is_(True)))
+        )
+        .where(Run.calorimeter_id == cal.id, visible_runs_clause(viewer), included_in_statistics())
+        .order_by(Run.created_at, Run.id)
+    ).all()
+    series: dict[str, list[dict[str, Any]]] = defaultdict(list)
+    for rid, kind, created, title, main, h, c, comp, checks in rows:
+        v = h if main == "molar_enthalpy" else c
+        if v is not None:
+            series[measurement_name(kind, comp)].append(
+                {
+                    "run_id": rid,
+                    "at": created.strftime("%Y-%m-%d %H:%M"),
+                    "title": title,
+                    "value": v,
+                    "unit": "kJ/mol" if main == "molar_enthalpy" else "J/K",
+                    "flagged": flag_text(checks) if flagged_checks(checks) else "",
+                }
+            )
+    return series
+
+
+def _chart(points: list[dict[str, Any]], base: int) -> tuple[ControlChart | None, str]:
+    """Return the chart of ``points`` on their first ``base`` (or why there is none); mark each point."""
+    n = len(points)
     chart, message = None, ""
     # the baseline is the first `base` points, less those a plausibility check warns about
     in_base = [p["value"] for p in points[:base] if not p["flagged"]]
@@ -147,18 +217,30 @@ def control_view(session: so.Session, viewer: Person, calorimeter_id: int, *, st
             p["violations"] = by_index.get(i, [])
             p["baseline"] = i < base and i not in aside and not p["flagged"]
             p["set_aside"] = i in aside
-    return ControlView(cal, standards, standard, points[0]["unit"] if points else "", points, chart, base,
-                       message, info, [p for p in points[:base] if p["flagged"]])
+    return chart, message
 
 
 def _heat_capacities(session: so.Session, calorimeter_id: int) -> list[dict[str, Any]]:
     """Return the approved measured heat capacities of a calorimeter as chart points, in the order measured."""
-    cals = session.scalars(sa.select(Calibration).where(
-        Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved", Calibration.pool.is_(None))
-        .order_by(Calibration.taken_at, Calibration.id)).all()
-    return [{"run_id": c.result.run_id if c.result is not None else None, "calibration_id": c.id,
-             "at": c.taken_at.strftime("%Y-%m-%d"), "title": f"calibration #{c.id}: {c.note}",
-             "value": c.heat_capacity_j_k, "unit": "J/K", "flagged": ""} for c in cals]
+    cals = session.scalars(
+        sa.select(Calibration)
+        .where(
+            Calibration.calorimeter_id == calorimeter_id, Calibration.status == "approved", Calibration.pool.is_(None)
+        )
+        .order_by(Calibration.taken_at, Calibration.id)
+    ).all()
+    return [
+        {
+            "run_id": c.result.run_id if c.result is not None else None,
+            "calibration_id": c.id,
+            "at": c.taken_at.strftime("%Y-%m-%d"),
+            "title": f"calibration #{c.id}: {c.note}",
+            "value": c.heat_capacity_j_k,
+            "unit": "J/K",
+            "flagged": "",
+        }
+        for c in cals
+    ]
 
 
 def control_json(view: ControlView) -> dict[str, Any]:
@@ -166,13 +248,38 @@ def control_json(view: ControlView) -> dict[str, Any]:
     ch = view.chart
     lim = ch.limits if ch is not None else None
     return {
-        "calorimeter_id": view.calorimeter.id, "standard": view.standard, "standards": view.standards,
-        "unit": view.unit, "baseline": view.baseline, "message": view.message, "calibration": view.calibration,
-        "limits": None if lim is None else {k: getattr(lim, k) for k in (
-            "centre", "sigma", "mr_bar", "mr_ucl", "n_baseline", "lower_3s", "lower_2s", "lower_1s",
-            "upper_1s", "upper_2s", "upper_3s")} | {"warnings": list(lim.warnings)},
+        "calorimeter_id": view.calorimeter.id,
+        "standard": view.standard,
+        "standards": view.standards,
+        "unit": view.unit,
+        "baseline": view.baseline,
+        "message": view.message,
+        "calibration": view.calibration,
+        "limits": None
+        if lim is None
+        else {
+            k: getattr(lim, k)
+            for k in (
+                "centre",
+                "sigma",
+                "mr_bar",
+                "mr_ucl",
+                "n_baseline",
+                "lower_3s",
+                "lower_2s",
+                "lower_1s",
+                "upper_1s",
+                "upper_2s",
+                "upper_3s",
+            )
+        }
+        | {"warnings": list(lim.warnings)},
         "points": view.points,
-        "violations": [] if ch is None else [{"index": v.index, "run_id": view.points[v.index]["run_id"],
-                                              "rule": v.rule, "message": v.message} for v in ch.violations],
+        "violations": []
+        if ch is None
+        else [
+            {"index": v.index, "run_id": view.points[v.index]["run_id"], "rule": v.rule, "message": v.message}
+            for v in ch.violations
+        ],
         "rules": RULES,
     }

@@ -39,10 +39,16 @@ SECTIONS = (("Tuesday morning", ("Heron A", "Heron B")), ("Thursday afternoon", 
 #: staff comments of the demo: (group, or run file stem, text)
 COMMENTS = (
     ("Heron A", "Both KCl runs have clean, flat drift lines. Next time note the room temperature on the sheet too."),
-    ("Kestrel A", "Your two runs agree within their uncertainties; write down the balance's last digit as you read it."),
+    (
+        "Kestrel A",
+        "Your two runs agree within their uncertainties; write down the balance's last digit as you read it.",
+    ),
     ("Kestrel B", "Run 2 needs a look: see the comment on the run."),
-    ("kestrel-b-kcl-2", "The mass reads 0.378 g, ten times less than your other run: check the balance reading "
-                        "in your notebook before you repeat it."),
+    (
+        "kestrel-b-kcl-2",
+        "The mass reads 0.378 g, ten times less than your other run: check the balance reading "
+        "in your notebook before you repeat it.",
+    ),
 )
 #: the class run the demo coordinator excluded from the statistics, with the reason
 EXCLUDED = ("kestrel-b-kcl-2", "mass written with the decimal point one place off (0.378 g for 3.780 g)")
@@ -87,10 +93,32 @@ def load_demo(
     runs = sorted(demo_dir.glob("*.toml"), key=lambda p: (_ORDER.get(_kind(p), 2), p.name))
     if not runs:
         raise FileNotFoundError(f"no demo runs (*.toml) in {demo_dir}")
+    coordinator, course_id, groups, people = _people(session, password_method)
+    _calorimeters(session, coordinator, runs)
+    technician = next(people[name] for name, _e, role, _g in PEOPLE if role == "technician")
+    for path in runs:
+        operator = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {}).get("operator")
+        author = people.get(operator, people[PEOPLE[1][0]])
+        record_run(
+            session, author, _upload(path, AnalysisOptions(monte_carlo_trials=monte_carlo_trials, seed=20250311))
+        )
+        _approve_proposals(session, technician)
+    _load_class(session, coordinator, course_id, groups, people, demo_dir / "class")
+    return demo_sign_ins()
+
+
+def _people(session: so.Session, password_method: str) -> tuple[Person, int, dict[str, Any], dict[str, Person]]:
+    """Create the coordinator, the course, its groups and the other people; return them (course by id)."""
     people: dict[str, Person] = {}
     coordinator_spec = PEOPLE[0]
-    coordinator = create_person(session, email=coordinator_spec[1], name=coordinator_spec[0],
-                                role=coordinator_spec[2], password=DEMO_PASSWORD, password_method=password_method)
+    coordinator = create_person(
+        session,
+        email=coordinator_spec[1],
+        name=coordinator_spec[0],
+        role=coordinator_spec[2],
+        password=DEMO_PASSWORD,
+        password_method=password_method,
+    )
     course = create_course(session, coordinator, name=COURSE[0], term=COURSE[1])
     groups = {}
     for _name, _email, _role, group in PEOPLE:
@@ -98,31 +126,48 @@ def load_demo(
             groups[group] = create_group(session, coordinator, name=group, course_id=course.id)
     people[coordinator_spec[0]] = coordinator
     for name, email, role, group in PEOPLE[1:]:
-        people[name] = create_person(session, email=email, name=name, role=role, password=DEMO_PASSWORD,
-                                     group=groups.get(group) if group else None, password_method=password_method)
+        people[name] = create_person(
+            session,
+            email=email,
+            name=name,
+            role=role,
+            password=DEMO_PASSWORD,
+            group=groups.get(group) if group else None,
+            password_method=password_method,
+        )
+    return coordinator, course.id, groups, people
+
+
+def _calorimeters(session: so.Session, coordinator: Person, runs: list[Path]) -> None:
+    """Create the calorimeters the demo runs name, and the spare cup with its entered heat capacity."""
     for path in runs:
         cal_name = tomllib.loads(path.read_text(encoding="utf-8")).get("calorimeter", {}).get("name")
         if cal_name and find_calorimeter(session, cal_name) is None:
-            create_calorimeter(session, coordinator, name=cal_name, location="Tern Hollow, room 3B (invented)",
-                               parts=cal_name)
-    create_calorimeter(session, coordinator, name=SPARE_CUP[0], location="Tern Hollow, room 3B (invented)",
-                       parts="single foam cup, card lid, no stirrer", heat_capacity=SPARE_CUP[1],
-                       measured_on=(utcnow() - dt.timedelta(days=SPARE_CUP[2])).date().isoformat())
-    technician = next(people[name] for name, _e, role, _g in PEOPLE if role == "technician")
-    for path in runs:
-        operator = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {}).get("operator")
-        author = people.get(operator, people[PEOPLE[1][0]])
-        csv = path.with_suffix(".csv")
-        record_run(session, author, RunUpload(
-            run_toml=path.read_text(encoding="utf-8"),
-            run_file_name=path.name,
-            readings=csv.read_bytes(),
-            readings_name=csv.name,
-            options=AnalysisOptions(monte_carlo_trials=monte_carlo_trials, seed=20250311),
-        ))
-        _approve_proposals(session, technician)
-    _load_class(session, coordinator, course.id, groups, people, demo_dir / "class")
-    return demo_sign_ins()
+            create_calorimeter(
+                session, coordinator, name=cal_name, location="Tern Hollow, room 3B (invented)", parts=cal_name
+            )
+    create_calorimeter(
+        session,
+        coordinator,
+        name=SPARE_CUP[0],
+        location="Tern Hollow, room 3B (invented)",
+        parts="single foam cup, card lid, no stirrer",
+        heat_capacity=SPARE_CUP[1],
+        measured_on=(utcnow() - dt.timedelta(days=SPARE_CUP[2])).date().isoformat(),
+    )
+
+
+def _upload(path: Path, options: AnalysisOptions, group_id: int | None = None) -> RunUpload:
+    """Return a demo run file and the log beside it (same name, ``.csv``) as an upload."""
+    csv = path.with_suffix(".csv")
+    return RunUpload(
+        run_toml=path.read_text(encoding="utf-8"),
+        run_file_name=path.name,
+        readings=csv.read_bytes(),
+        readings_name=csv.name,
+        group_id=group_id,
+        options=options,
+    )
 
 
 def _approve_proposals(session: so.Session, technician: Person) -> None:
@@ -133,8 +178,14 @@ def _approve_proposals(session: so.Session, technician: Person) -> None:
         approve_calibration(session, technician, cal_id, confirm=True)
 
 
-def _load_class(session: so.Session, coordinator: Person, course_id: int, groups: dict[str, Any],
-                people: dict[str, Person], class_dir: Path) -> None:
+def _load_class(
+    session: so.Session,
+    coordinator: Person,
+    course_id: int,
+    groups: dict[str, Any],
+    people: dict[str, Person],
+    class_dir: Path,
+) -> None:
     """Put the groups into the course's two sections and record the class practical's runs.
 
     The class runs are analyzed without the Monte Carlo check, as a bulk import does; staff
@@ -153,11 +204,9 @@ def _load_class(session: so.Session, coordinator: Person, course_id: int, groups
     for path in sorted(class_dir.glob("*.toml")):
         info = tomllib.loads(path.read_text(encoding="utf-8")).get("info", {})
         author = people.get(info.get("operator"), coordinator)
-        csv = path.with_suffix(".csv")
-        run = record_run(session, author, RunUpload(
-            run_toml=path.read_text(encoding="utf-8"), run_file_name=path.name, readings=csv.read_bytes(),
-            readings_name=csv.name, group_id=groups[info["group"]].id,
-            options=AnalysisOptions(monte_carlo_trials=0)))
+        run = record_run(
+            session, author, _upload(path, AnalysisOptions(monte_carlo_trials=0), groups[info["group"]].id)
+        )
         stems[path.stem] = run.id
     for target, text in COMMENTS:
         if target in groups:

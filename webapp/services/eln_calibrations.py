@@ -9,6 +9,9 @@ notebook that wrote them), so the value in force is the same. Calibrations measu
 stored here too and tied to their result when the run comes back. A calibration already here
 (same value, uncertainty, measured and stored times) is kept as it is. Version 1 (calibrations
 typed by hand only; runs bring their own) is still read.
+
+People are matched by e-mail (:class:`People`); someone not in this notebook gets an inactive
+account that cannot sign in.
 """
 
 from __future__ import annotations
@@ -16,6 +19,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import math
+import secrets
 from typing import Any
 
 import sqlalchemy as sa
@@ -26,6 +30,7 @@ from webapp.models import Calibration, Calorimeter, Person
 from webapp.services.access import require_coordinator
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.errors import Invalid
+from webapp.services.people import hash_password
 
 STATUSES = ("approved", "proposed", "withdrawn")
 
@@ -246,3 +251,108 @@ def restore_trail(
                 new=None if e.get("new") is None else str(e["new"]),
             )
         )
+
+
+class People:
+    """People of the notebook by e-mail; someone unknown gets an inactive account (reported)."""
+
+    def __init__(self, session: so.Session, password_method: str) -> None:
+        self.session = session
+        self.method = password_method
+        self.known: dict[str, Person] = {}
+        self.created: list[str] = []
+
+    def get(self, who: Any) -> Person | None:
+        """Return the person of ``{"name", "email"}`` (or an e-mail), creating an inactive one when new."""
+        email = who.get("email") if isinstance(who, dict) else who
+        if not isinstance(email, str) or "@" not in email or len(email) > 254:
+            return None
+        key = email.strip().lower()
+        if key not in self.known:
+            p = self.session.scalar(sa.select(Person).where(sa.func.lower(Person.email) == key))
+            if p is None:
+                name = who.get("name") if isinstance(who, dict) and isinstance(who.get("name"), str) else email
+                p = Person(
+                    email=email.strip(),
+                    name=name[:120],
+                    role="student",
+                    active=False,
+                    password_hash=hash_password(secrets.token_hex(24), self.method),
+                )
+                self.session.add(p)
+                self.created.append(email.strip())
+            self.known[key] = p
+        return self.known[key]
+
+
+def restore_calorimeter(
+    session: so.Session, actor: Person, doc: Any, people: People, where: str, known: Known | None = None
+) -> str:
+    """Add the calorimeter of ``calorimeter.json`` (when new) and the calibrations it lacks; commit.
+
+    Format 2 brings every calibration as written (:mod:`webapp.services.eln_calibrations`), those
+    measured by runs too (``known`` learns them, for the runs); in format 1, calibrations measured
+    by a run come back with that run. Return what was done.
+    """
+    if not isinstance(doc, dict) or not isinstance(doc.get("name"), str) or not doc["name"].strip():
+        raise Invalid(f"{where}: expected a calorimeter with a 'name'", field="calorimeter")
+    existed = find_calorimeter(session, doc["name"]) is not None
+    cal = new_calorimeter(session, actor, doc, where)
+    entries = doc.get("calibrations") or []
+    if not isinstance(entries, list):
+        raise Invalid(f"{where}: calibrations: expected a list", field="calibrations")
+    if doc.get("format_version") == 1:
+        added = _restore_v1(session, actor, cal, entries, people, where)
+    else:
+        known = known or Known()
+        added = restore_calibrations(session, actor, cal, entries, people, known, where)
+        restore_trail(
+            session, cal, doc.get("audit_trail") or [], people, known, new_calorimeter=not existed, where=where
+        )
+    session.commit()
+    done = [] if existed else ["added"]
+    done.append(f"{added} calibration(s) added" if added else "no calibration to add")
+    return f"calorimeter {cal.name!r}: " + ", ".join(done)
+
+
+def _restore_v1(
+    session: so.Session, actor: Person, cal: Calorimeter, entries: list[Any], people: People, where: str
+) -> int:
+    added = 0
+    for i, c in enumerate(entries):
+        if not isinstance(c, dict) or c.get("from_run") is not None:
+            continue
+        hc = c.get("heat_capacity") or {}
+        value, u = hc.get("value"), hc.get("standard_uncertainty")
+        if not all(isinstance(x, (int, float)) and math.isfinite(x) for x in (value, u)) or not value > 0:
+            raise Invalid(f"{where}: calibration {i + 1}: expected a positive heat capacity ± u", field="calibrations")
+        taken = when(c.get("taken_at"), f"calibrations[{i}].taken_at")
+        if find_calibration(session, cal, value, u, taken) is None:
+            require_coordinator(actor, "add calibrations")
+            session.add(
+                Calibration(
+                    calorimeter=cal,
+                    heat_capacity_j_k=float(value),
+                    heat_capacity_j_k_std=float(u),
+                    taken_at=taken,
+                    note=str(c.get("note") or ""),
+                    created_by=people.get(c.get("created_by")),
+                    created_at=when(c.get("created_at") or c["taken_at"], "created_at"),
+                )
+            )
+            added += 1
+    return added
+
+
+def find_calibration(
+    session: so.Session, cal: Calorimeter, value: float, u: float, taken: dt.datetime | None
+) -> Calibration | None:
+    """Return the calorimeter's calibration of this value and uncertainty (and time, when given)."""
+    for c in session.scalars(
+        sa.select(Calibration)
+        .where(Calibration.calorimeter_id == cal.id)
+        .order_by(Calibration.taken_at.desc(), Calibration.id.desc())
+    ):
+        if c.heat_capacity_j_k == value and c.heat_capacity_j_k_std == u and (taken is None or c.taken_at == taken):
+            return c
+    return None

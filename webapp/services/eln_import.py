@@ -12,7 +12,7 @@ archive stores nothing. Then, folder by folder:
 
 Every file of the archive is reported with its outcome (nothing is dropped silently). Each run
 and each calorimeter is stored in its own transaction; a run whose files are already stored
-(same SHA-256 as :func:`webapp.services.imports.content_hash`) is reported unchanged.
+(same SHA-256 as :func:`webapp.services.import_store.content_hash`) is reported unchanged.
 """
 
 from __future__ import annotations
@@ -30,12 +30,13 @@ from webapp.models import Person, Run
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.eln import CALORIMETER_FORMAT, CALORIMETER_NAME
-from webapp.services.eln_calibrations import Known
+from webapp.services.eln_calibrations import Known, People, restore_calorimeter, when
 from webapp.services.eln_check import ELN_LIMITS, ElnArchive, read_archive
-from webapp.services.eln_restore import People, calibration_stamps, restore_calorimeter, restore_run, when
+from webapp.services.eln_folders import CALORIMETER_FORMAT, CALORIMETER_NAME
+from webapp.services.eln_restore import calibration_stamps, restore_run
 from webapp.services.errors import Invalid, ServiceError, storage_error
-from webapp.services.imports import ImportItem, ImportReport, Limits, _readings_name, _record, content_hash
+from webapp.services.import_store import ImportItem, content_hash, record_with_hash, run_file_and_readings
+from webapp.services.imports import ImportReport, Limits
 from webapp.services.runs import RunUpload
 
 DEFAULT_PASSWORD_METHOD = "scrypt"
@@ -220,14 +221,7 @@ def _foreign_runs(job: _Import, folders: dict[str, list[str]]) -> None:
 def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     files = job.archive.files
     raw = files[path]
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise Invalid(
-            f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file", field="run_file"
-        ) from None
-    rname = _readings_name(text, path)
-    rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
+    text, rname, rpath = run_file_and_readings(path, raw)
     if rpath not in files or rpath.startswith("../"):
         raise Invalid(f"{path}, field 'readings': {rname!r} is not in the archive's folder", field="readings")
     job.done.add(rpath)
@@ -235,7 +229,7 @@ def _one_foreign_run(job: _Import, path: str) -> tuple[str, str, str, int]:
     existing = _existing(job.session, digest)
     if existing is not None:
         return path, "unchanged", f"already stored as run #{existing}", existing
-    run = _record(
+    run = record_with_hash(
         job.session,
         job.actor,
         RunUpload(

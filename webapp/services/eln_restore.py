@@ -1,4 +1,4 @@
-"""Reading back what cupcal wrote into an ``.eln`` archive: calorimeters, calibrations and runs, exactly.
+"""Reading back the runs cupcal wrote into an ``.eln`` archive, exactly (calorimeters: :mod:`~webapp.services.eln_calibrations`).
 
 A run is analyzed again from its files, exactly as the archive says it was (method, periods,
 Monte Carlo trials and seed, the calibration that supplied the heat capacity), for each of its
@@ -13,7 +13,6 @@ from __future__ import annotations
 import datetime as dt
 import json
 import math
-import secrets
 from typing import Any
 
 import sqlalchemy as sa
@@ -34,121 +33,50 @@ from webapp.services.audit import record_change
 from webapp.services.calibrations import calibration_from_result
 from webapp.services.calorimeters import find_calorimeter
 from webapp.services.concurrency import content_hash as signed_hash
-from webapp.services.eln_calibrations import Known, new_calorimeter, restore_calibrations, restore_trail, when
+from webapp.services.eln_calibrations import Known, People, find_calibration, when
 from webapp.services.errors import Invalid
-from webapp.services.imports import content_hash
+from webapp.services.import_store import content_hash
 from webapp.services.package_import import _file, _options
-from webapp.services.people import hash_password
-from webapp.services.runs import RunUpload, _new_run, _periods_given, upload_file_name
+from webapp.services.run_upload import RunUpload, new_run, periods_given, upload_file_name
 
 #: most results of one run read back (each is analyzed again)
 MAX_RESULTS = 100
 #: the parts of a result that must come back number for number
-COMPARED = ("main", "value", "standard_uncertainty", "unit", "expanded_uncertainty", "coverage_factor", "dof_eff",
-            "outputs", "options", "mixing_time", "budget", "warnings", "comparison", "cautions", "properties",
-            "monte_carlo", "checks")
-
-
-class People:
-    """People of the notebook by e-mail; someone unknown gets an inactive account (reported)."""
-
-    def __init__(self, session: so.Session, password_method: str) -> None:
-        self.session = session
-        self.method = password_method
-        self.known: dict[str, Person] = {}
-        self.created: list[str] = []
-
-    def get(self, who: Any) -> Person | None:
-        """Return the person of ``{"name", "email"}`` (or an e-mail), creating an inactive one when new."""
-        email = who.get("email") if isinstance(who, dict) else who
-        if not isinstance(email, str) or "@" not in email or len(email) > 254:
-            return None
-        key = email.strip().lower()
-        if key not in self.known:
-            p = self.session.scalar(sa.select(Person).where(sa.func.lower(Person.email) == key))
-            if p is None:
-                name = who.get("name") if isinstance(who, dict) and isinstance(who.get("name"), str) else email
-                p = Person(email=email.strip(), name=name[:120], role="student", active=False,
-                           password_hash=hash_password(secrets.token_hex(24), self.method))
-                self.session.add(p)
-                self.created.append(email.strip())
-            self.known[key] = p
-        return self.known[key]
-
-
-# ----------------------------------------------------------------- calorimeters
-
-
-def restore_calorimeter(session: so.Session, actor: Person, doc: Any, people: People, where: str,
-                        known: Known | None = None) -> str:
-    """Add the calorimeter of ``calorimeter.json`` (when new) and the calibrations it lacks; commit.
-
-    Format 2 brings every calibration as written (:mod:`webapp.services.eln_calibrations`), those
-    measured by runs too (``known`` learns them, for the runs); in format 1, calibrations measured
-    by a run come back with that run. Return what was done.
-    """
-    if not isinstance(doc, dict) or not isinstance(doc.get("name"), str) or not doc["name"].strip():
-        raise Invalid(f"{where}: expected a calorimeter with a 'name'", field="calorimeter")
-    existed = find_calorimeter(session, doc["name"]) is not None
-    cal = new_calorimeter(session, actor, doc, where)
-    entries = doc.get("calibrations") or []
-    if not isinstance(entries, list):
-        raise Invalid(f"{where}: calibrations: expected a list", field="calibrations")
-    if doc.get("format_version") == 1:
-        added = _restore_v1(session, actor, cal, entries, people, where)
-    else:
-        known = known or Known()
-        added = restore_calibrations(session, actor, cal, entries, people, known, where)
-        restore_trail(session, cal, doc.get("audit_trail") or [], people, known, new_calorimeter=not existed,
-                      where=where)
-    session.commit()
-    done = [] if existed else ["added"]
-    done.append(f"{added} calibration(s) added" if added else "no calibration to add")
-    return f"calorimeter {cal.name!r}: " + ", ".join(done)
-
-
-def _restore_v1(session: so.Session, actor: Person, cal: Calorimeter, entries: list[Any], people: People,
-                where: str) -> int:
-    added = 0
-    for i, c in enumerate(entries):
-        if not isinstance(c, dict) or c.get("from_run") is not None:
-            continue
-        hc = c.get("heat_capacity") or {}
-        value, u = hc.get("value"), hc.get("standard_uncertainty")
-        if not all(isinstance(x, (int, float)) and math.isfinite(x) for x in (value, u)) or not value > 0:
-            raise Invalid(f"{where}: calibration {i + 1}: expected a positive heat capacity ± u", field="calibrations")
-        taken = when(c.get("taken_at"), f"calibrations[{i}].taken_at")
-        if find_calibration(session, cal, value, u, taken) is None:
-            require_coordinator(actor, "add calibrations")
-            session.add(Calibration(calorimeter=cal, heat_capacity_j_k=float(value), heat_capacity_j_k_std=float(u),
-                                    taken_at=taken, note=str(c.get("note") or ""),
-                                    created_by=people.get(c.get("created_by")),
-                                    created_at=when(c.get("created_at") or c["taken_at"], "created_at")))
-            added += 1
-    return added
-
-
-def find_calibration(session: so.Session, cal: Calorimeter, value: float, u: float,
-                     taken: dt.datetime | None) -> Calibration | None:
-    """Return the calorimeter's calibration of this value and uncertainty (and time, when given)."""
-    for c in session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
-                             .order_by(Calibration.taken_at.desc(), Calibration.id.desc())):
-        if c.heat_capacity_j_k == value and c.heat_capacity_j_k_std == u and (taken is None or c.taken_at == taken):
-            return c
-    return None
+COMPARED = (
+    "main",
+    "value",
+    "standard_uncertainty",
+    "unit",
+    "expanded_uncertainty",
+    "coverage_factor",
+    "dof_eff",
+    "outputs",
+    "options",
+    "mixing_time",
+    "budget",
+    "warnings",
+    "comparison",
+    "cautions",
+    "properties",
+    "monte_carlo",
+    "checks",
+)
 
 
 # ----------------------------------------------------------------- runs
 
 
-def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, Any], run_toml: str,
-                     where: str, known: Known) -> tuple[Calorimeter | None, Calibration | None]:
+def _calibration_for(
+    session: so.Session, info: dict[str, Any], doc: dict[str, Any], run_toml: str, where: str, known: Known
+) -> tuple[Calorimeter | None, Calibration | None]:
     name = info.get("calorimeter")
     cal = find_calorimeter(session, name) if isinstance(name, str) and name else None
     if name and cal is None:
-        raise Invalid(f"{where}: the run belongs to calorimeter {name!r}, which this notebook does not have; a "
-                      "coordinator can add it by importing its archive (or the whole notebook's) first",
-                      field="run.calorimeter")
+        raise Invalid(
+            f"{where}: the run belongs to calorimeter {name!r}, which this notebook does not have; a "
+            "coordinator can add it by importing its archive (or the whole notebook's) first",
+            field="run.calorimeter",
+        )
     exported = (doc.get("provenance") or {}).get("calibration")
     if exported is None or not needs_supplied_heat_capacity(run_toml):
         return cal, None
@@ -158,14 +86,20 @@ def _calibration_for(session: so.Session, info: dict[str, Any], doc: dict[str, A
     if mine is not None:
         found = session.get(Calibration, mine)
     elif cal is not None:
-        found = find_calibration(session, cal, hc.get("value"), hc.get("standard_uncertainty"),
-                                 when(exported["taken_at"], "provenance.calibration.taken_at")
-                                 if exported.get("taken_at") else None)
+        found = find_calibration(
+            session,
+            cal,
+            hc.get("value"),
+            hc.get("standard_uncertainty"),
+            when(exported["taken_at"], "provenance.calibration.taken_at") if exported.get("taken_at") else None,
+        )
     if found is None:
-        raise Invalid(f"{where}: the run takes its heat capacity ({hc.get('value')} ± {hc.get('standard_uncertainty')} "
-                      f"J/K) from a calibration of calorimeter {name!r}, which this notebook does not have; import "
-                      "the calorimeter's archive (or the archive of the calibration run) first",
-                      field="provenance.calibration")
+        raise Invalid(
+            f"{where}: the run takes its heat capacity ({hc.get('value')} ± {hc.get('standard_uncertainty')} "
+            f"J/K) from a calibration of calorimeter {name!r}, which this notebook does not have; import "
+            "the calorimeter's archive (or the archive of the calibration run) first",
+            field="provenance.calibration",
+        )
     return cal, found
 
 
@@ -179,13 +113,17 @@ def check_same(result: Result, exported: dict[str, Any], where: str) -> None:
     theirs = _plain(exported)
     for key in COMPARED:
         if mine.get(key) != theirs.get(key):
-            raise Invalid(f"{where}: the analysis here does not reproduce the archive's result {exported.get('id')} "
-                          f"({key} differs; the archive was analyzed by cupcal "
-                          f"{exported.get('software_version')}); the run was not stored", field="result")
+            raise Invalid(
+                f"{where}: the analysis here does not reproduce the archive's result {exported.get('id')} "
+                f"({key} differs; the archive was analyzed by cupcal "
+                f"{exported.get('software_version')}); the run was not stored",
+                field="result",
+            )
 
 
-def _details(session: so.Session, actor: Person, run: Run, doc: dict[str, Any], people: People,
-             groups: dict[str, Group]) -> None:
+def _details(
+    session: so.Session, actor: Person, run: Run, doc: dict[str, Any], people: People, groups: dict[str, Group]
+) -> None:
     info, prov = doc.get("run") or {}, doc.get("provenance") or {}
     for key, limit in (("title", 300), ("operator", 200), ("bench", 120), ("performed_on", 40), ("notes", None)):
         if isinstance(info.get(key), str):
@@ -220,10 +158,17 @@ def _audit(session: so.Session, run: Run, doc: dict[str, Any], people: People) -
     for i, e in enumerate(doc.get("audit_trail") or []):
         if not isinstance(e, dict) or not isinstance(e.get("field"), str):
             raise Invalid(f"entry {i + 1}: expected an object with a 'field'", field="audit_trail")
-        session.add(AuditEntry(at=when(e.get("at"), f"audit_trail[{i}].at"), person=people.get(e.get("person")),
-                               entity="run", entity_id=run.id, field=e["field"][:80],
-                               old=None if e.get("old") is None else str(e["old"]),
-                               new=None if e.get("new") is None else str(e["new"])))
+        session.add(
+            AuditEntry(
+                at=when(e.get("at"), f"audit_trail[{i}].at"),
+                person=people.get(e.get("person")),
+                entity="run",
+                entity_id=run.id,
+                field=e["field"][:80],
+                old=None if e.get("old") is None else str(e["old"]),
+                new=None if e.get("new") is None else str(e["new"]),
+            )
+        )
 
 
 def _results_in_order(doc: dict[str, Any], where: str) -> list[dict[str, Any]]:
@@ -232,8 +177,9 @@ def _results_in_order(doc: dict[str, Any], where: str) -> list[dict[str, Any]]:
         raise Invalid(f"{where}: the run has no result", field="result")
     earlier = [r for r in doc.get("earlier_results") or [] if isinstance(r, dict)]
     if len(earlier) >= MAX_RESULTS:
-        raise Invalid(f"{where}: {len(earlier) + 1} results; at most {MAX_RESULTS} per run are read back",
-                      field="earlier_results")
+        raise Invalid(
+            f"{where}: {len(earlier) + 1} results; at most {MAX_RESULTS} per run are read back", field="earlier_results"
+        )
     return sorted(earlier + [current], key=lambda r: r.get("id") if isinstance(r.get("id"), int) else 0)
 
 
@@ -247,9 +193,18 @@ def calibration_stamps(doc: Any) -> dict[tuple[Any, ...], str]:
     return out
 
 
-def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, bytes], people: People,
-                groups: dict[str, Group], where: str, stamps: dict[tuple[Any, ...], str] | None = None,
-                known: Known | None = None, imported: str | None = None) -> Run:
+def restore_run(
+    session: so.Session,
+    actor: Person,
+    doc: Any,
+    blobs: dict[str, bytes],
+    people: People,
+    groups: dict[str, Group],
+    where: str,
+    stamps: dict[tuple[Any, ...], str] | None = None,
+    known: Known | None = None,
+    imported: str | None = None,
+) -> Run:
     """Store the run of a ``cupcal-export.json`` with every result, checked number for number (no commit).
 
     ``known`` (from the archive's ``calorimeter.json`` files) ties the calibrations the run measured
@@ -260,18 +215,12 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     if not isinstance(doc, dict) or doc.get("format") != FORMAT or doc.get("format_version") != 1:
         raise Invalid(f"{where}: expected a cupcal run export (format {FORMAT!r}, version 1)", field="format")
     known = known or Known()
-    run_name, run_bytes = _file(doc, "run_file", blobs)
-    readings_name, readings = _file(doc, "readings", blobs)
-    try:
-        run_toml = run_bytes.decode("utf-8")
-    except UnicodeDecodeError:
-        raise Invalid(f"{where}: the run file is not UTF-8 text", field="files.run_file") from None
-    run_name, readings_name = upload_file_name(run_name, "run_file"), upload_file_name(readings_name, "readings")
+    run_name, run_bytes, run_toml, readings_name, readings = _files(doc, blobs, where)
     cal, calibration = _calibration_for(session, doc.get("run") or {}, doc, run_toml, where, known)
     spec, rd = parse_inputs(run_toml, run_name, decode_readings(readings, readings_name), readings_name, calibration)
     author = people.get((doc.get("provenance") or {}).get("recorded_by")) or actor
     upload = RunUpload(run_toml=run_toml, run_file_name=run_name, readings=readings, readings_name=readings_name)
-    run = _new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
+    run = new_run(spec, rd, upload, run_name, readings_name, author, None, cal, calibration)
     run.inputs = inputs_from_spec(spec, calibration)
     run.content_hash = content_hash(run_bytes, readings)
     _details(session, actor, run, doc, people, groups)
@@ -282,8 +231,11 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
         options = _options({"result": rdoc}, 0).checked()
         _legacy_keys(rdoc)
         analyzed_at = when(rdoc["analyzed_at"], "result.analyzed_at") if rdoc.get("analyzed_at") else None
-        result = result_from_analysis(run_analysis(spec, rd, options, **_check_context(session, cal, own, analyzed_at)),
-                                      input_name=run_name, periods_given=_periods_given(options))
+        result = result_from_analysis(
+            run_analysis(spec, rd, options, **_check_context(session, cal, own, analyzed_at)),
+            input_name=run_name,
+            periods_given=periods_given(options),
+        )
         result.run, result.is_current = run, rdoc is doc["result"]
         session.add(result)
         result.created_by = people.get(rdoc.get("analyzed_by"))
@@ -302,20 +254,47 @@ def restore_run(session: so.Session, actor: Person, doc: Any, blobs: dict[str, b
     return run
 
 
-def _check_context(session: so.Session, cal: Calorimeter | None, own: set[int],
-                   at: dt.datetime | None) -> dict[str, Any]:
+def _files(doc: dict[str, Any], blobs: dict[str, bytes], where: str) -> tuple[str, bytes, str, str, bytes]:
+    """Return the run file (name, bytes, text) and the readings (name, bytes) of a run export."""
+    run_name, run_bytes = _file(doc, "run_file", blobs)
+    readings_name, readings = _file(doc, "readings", blobs)
+    try:
+        run_toml = run_bytes.decode("utf-8")
+    except UnicodeDecodeError:
+        raise Invalid(f"{where}: the run file is not UTF-8 text", field="files.run_file") from None
+    run_name, readings_name = upload_file_name(run_name, "run_file"), upload_file_name(readings_name, "readings")
+    return run_name, run_bytes, run_toml, readings_name, readings
+
+
+def _check_context(
+    session: so.Session, cal: Calorimeter | None, own: set[int], at: dt.datetime | None
+) -> dict[str, Any]:
     """Return the cup's type and its history as it stood when the result was made (the plausibility checks)."""
     if cal is None:
         return {}
-    rows = session.scalars(sa.select(Calibration).where(Calibration.calorimeter_id == cal.id)
-                           .order_by(Calibration.taken_at, Calibration.id)).all()
-    history = [(c.heat_capacity_j_k, c.heat_capacity_j_k_std) for c in rows
-               if c.id not in own and (at is None or c.created_at <= at)]
+    rows = session.scalars(
+        sa.select(Calibration)
+        .where(Calibration.calorimeter_id == cal.id)
+        .order_by(Calibration.taken_at, Calibration.id)
+    ).all()
+    history = [
+        (c.heat_capacity_j_k, c.heat_capacity_j_k_std)
+        for c in rows
+        if c.id not in own and (at is None or c.created_at <= at)
+    ]
     return {"calorimeter_type": cal.vessel_type, "history": history}
 
 
-def _measured(session: so.Session, cal: Calorimeter, run: Run, result: Result, rdoc: dict[str, Any],
-              doc: dict[str, Any], known: Known, stamps: dict[tuple[Any, ...], str] | None) -> None:
+def _measured(
+    session: so.Session,
+    cal: Calorimeter,
+    run: Run,
+    result: Result,
+    rdoc: dict[str, Any],
+    doc: dict[str, Any],
+    known: Known,
+    stamps: dict[tuple[Any, ...], str] | None,
+) -> None:
     """Tie the calibration this result measured to it (or record it anew for an archive of format 1)."""
     source_id = (doc.get("run") or {}).get("id")
     mine = known.by_result.get((cal.name, source_id, rdoc.get("id")))
@@ -347,8 +326,9 @@ def _review(session: so.Session, run: Run, doc: dict[str, Any], people: People) 
         setattr(row, key, r.get(key, False))
         setattr(row, f"{key}_reason", str(r.get(f"{key}_reason") or ""))
     points = r.get("mark_points")
-    if points is not None and (isinstance(points, bool) or not isinstance(points, (int, float))
-                               or not math.isfinite(points)):
+    if points is not None and (
+        isinstance(points, bool) or not isinstance(points, (int, float)) or not math.isfinite(points)
+    ):
         raise Invalid("review.mark_points: expected a number or null", field="review")
     row.mark_points, row.mark_reason = points, str(r.get("mark_reason") or "")
     if r.get("updated_at"):

@@ -10,7 +10,7 @@ from collections import Counter, defaultdict
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from webapp.services.dashboard import Row
+    from webapp.services.dashboard_rows import Row
 
 FLAGS: dict[str, str] = {
     "En": "|En| > 1 (the verdict against the reference)",

@@ -2,7 +2,7 @@
 
 Each run is validated, analyzed and stored in its own transaction through
 :func:`webapp.services.runs.record_run` (all-or-nothing per run; a crash leaves no half-stored
-run). The run file and the readings are hashed (SHA-256) and the hash is stored on the run
+run; storing one run is :mod:`webapp.services.import_store`). The run file and the readings are hashed (SHA-256) and the hash is stored on the run
 under a unique constraint, so importing the same files again changes nothing. Bulk import
 analyses without Monte Carlo (``monte_carlo_trials=0``): the GUM result and budget are those of
 a single upload, and a Monte Carlo check can be made later by re-analyzing a run.
@@ -19,10 +19,8 @@ from __future__ import annotations
 
 import csv
 import dataclasses
-import hashlib
 import io
 import posixpath
-import tomllib
 import zipfile
 from collections.abc import Callable, Iterable
 from pathlib import Path
@@ -32,11 +30,11 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from calc import limits as calc_limits
-from webapp.models import Bench, Group, Person, Run
+from webapp.models import Bench, Group, Person
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.classes import get_section, require_staff
-from webapp.services.errors import Conflict, Invalid, ServiceError, storage_error
-from webapp.services.runs import RunUpload, record_run
+from webapp.services.errors import Invalid
+from webapp.services.import_store import GroupMaker, ImportItem, Mapping, import_one, readings_name, readings_path
 
 #: limits of one import (a zip bomb or a runaway folder is refused before anything is read)
 MAX_FILES = 5000
@@ -69,17 +67,6 @@ class Limits:
 
 
 @dataclasses.dataclass
-class ImportItem:
-    """The outcome for one file: ``stored``, ``unchanged`` (already stored), ``error`` or ``ignored``."""
-
-    file: str
-    outcome: str
-    message: str = ""
-    run_id: int | None = None
-    group: str | None = None
-
-
-@dataclasses.dataclass
 class ImportReport:
     """Every file of an import with its outcome, in file order."""
 
@@ -92,14 +79,18 @@ class ImportReport:
     @property
     def summary(self) -> str:
         """Return a one-line summary."""
-        return (f"{self.count('stored')} stored, {self.count('unchanged')} unchanged (already stored), "
-                f"{self.count('error')} with errors, {self.count('ignored')} ignored")
+        return (
+            f"{self.count('stored')} stored, {self.count('unchanged')} unchanged (already stored), "
+            f"{self.count('error')} with errors, {self.count('ignored')} ignored"
+        )
 
     def as_dict(self) -> dict[str, Any]:
         """Return the report as JSON-ready data."""
-        return {"summary": self.summary,
-                "counts": {k: self.count(k) for k in ("stored", "unchanged", "error", "ignored")},
-                "items": [dataclasses.asdict(i) for i in self.items]}
+        return {
+            "summary": self.summary,
+            "counts": {k: self.count(k) for k in ("stored", "unchanged", "error", "ignored")},
+            "items": [dataclasses.asdict(i) for i in self.items],
+        }
 
 
 # ----------------------------------------------------------------- collecting files
@@ -109,12 +100,15 @@ def _safe_name(name: str, where: str) -> str:
     """Return a normalised relative path, or raise for an absolute or escaping one."""
     raw = name.replace("\\", "/")
     if raw.startswith("/") or (len(raw) > 1 and raw[1] == ":"):
-        raise Invalid(f"{where}: refused: {name!r} is an absolute path; the archive must hold relative paths only",
-                      field="archive")
+        raise Invalid(
+            f"{where}: refused: {name!r} is an absolute path; the archive must hold relative paths only",
+            field="archive",
+        )
     parts = [p for p in raw.split("/") if p not in ("", ".")]
     if any(p == ".." for p in parts):
-        raise Invalid(f"{where}: refused: {name!r} leads out of the archive ('..'); nothing was imported",
-                      field="archive")
+        raise Invalid(
+            f"{where}: refused: {name!r} leads out of the archive ('..'); nothing was imported", field="archive"
+        )
     return "/".join(parts)
 
 
@@ -131,8 +125,9 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
     with zf:
         infos = [i for i in zf.infolist() if not i.is_dir()]
         if len(infos) > limits.max_files:
-            raise Invalid(f"{source}: refused: {len(infos)} files, at most {limits.max_files} per import",
-                          field="archive")
+            raise Invalid(
+                f"{source}: refused: {len(infos)} files, at most {limits.max_files} per import", field="archive"
+            )
         total = 0
         for info in infos:
             _safe_name(info.filename, source)
@@ -141,7 +136,9 @@ def files_from_zip(data: bytes, limits: Limits = Limits(), *, source: str = "arc
                 raise Invalid(
                     f"{source}: refused: the archive unpacks to more than "
                     f"{(limits.max_file_bytes if info.file_size > limits.max_file_bytes else limits.max_total_bytes) // 2**20} MiB "
-                    f"({info.filename!r}); is it a zip bomb?", field="archive")
+                    f"({info.filename!r}); is it a zip bomb?",
+                    field="archive",
+                )
         out = Files()
         read = 0
         for info in infos:
@@ -184,14 +181,6 @@ def files_from_folder(folder: Path, limits: Limits = Limits()) -> dict[str, byte
 # ----------------------------------------------------------------- mapping
 
 
-@dataclasses.dataclass(frozen=True)
-class Mapping:
-    """Where a run file belongs: its group name and, optionally, its bench name."""
-
-    group: str
-    bench: str = ""
-
-
 def parse_mapping(text: str, source: str = "mapping.csv") -> dict[str, Mapping]:
     """Return the mapping CSV as {file name: Mapping}; columns ``file, group`` and optional ``bench``.
 
@@ -219,46 +208,6 @@ def parse_mapping(text: str, source: str = "mapping.csv") -> dict[str, Mapping]:
 
 
 # ----------------------------------------------------------------- import
-
-
-def content_hash(run_toml: bytes, readings: bytes) -> str:
-    """Return the SHA-256 of a run file and its readings (the identity of an imported run)."""
-    h = hashlib.sha256()
-    for part in (run_toml, readings):
-        h.update(len(part).to_bytes(8, "little"))
-        h.update(part)
-    return h.hexdigest()
-
-
-def _readings_name(toml_text: str, path: str) -> str:
-    try:
-        data = tomllib.loads(toml_text.lstrip("\ufeff"))
-    except (ValueError, RecursionError) as exc:  # TOMLDecodeError, a 5000-digit number, deep nesting
-        raise Invalid(f"{path}: not a valid run file: {exc}", field="run_file") from None
-    name = data.get("readings")
-    if not isinstance(name, str) or not name.strip():
-        raise Invalid(f"{path}, field 'readings': missing; expected the name of the readings file", field="readings")
-    return name.strip()
-
-
-def _info_group(toml_text: str) -> str | None:
-    try:
-        info = tomllib.loads(toml_text.lstrip("\ufeff")).get("info")
-    except (ValueError, RecursionError):  # TOMLDecodeError, a 5000-digit number, deep nesting
-        return None
-    g = info.get("group") if isinstance(info, dict) else None
-    return g.strip() if isinstance(g, str) and g.strip() else None
-
-
-def _group_from_name(stem: str, groups: dict[str, Group]) -> Group | None:
-    best = None
-    low = stem.lower()
-    for name, g in groups.items():
-        n = name.lower()
-        if low == n or (low.startswith(n) and not low[len(n)].isalnum()):
-            if best is None or len(name) > len(best.name):
-                best = g
-    return best
 
 
 def import_files(
@@ -302,16 +251,14 @@ def import_files(
     section_name = section.name
     report = ImportReport()
     duplicates = getattr(files, "duplicates", {})
-    for name, count in sorted(duplicates.items()):
-        report.items.append(ImportItem(name, "error", f"{name}: refused: the archive holds {count} entries of this "
-                                       "name, so which one is meant is unknown; rename them"))
+    report.items.extend(_refused_duplicates(duplicates))
     used: set[str] = set(duplicates)
     runs = sorted(p for p in files if p.lower().endswith(".toml") and p not in duplicates)
     check_totals(files, runs)
     options = AnalysisOptions(monte_carlo_trials=0)
-    maker = _GroupMaker(section, actor) if create_groups else None
+    maker = GroupMaker(section, actor) if create_groups else None
     for path in runs:
-        item = _import_one(session, actor, path, files, maps, groups, benches, section_name, options, used, maker)
+        item = import_one(session, actor, path, files, maps, groups, benches, section_name, options, used, maker)
         report.items.append(item)
         if progress is not None:
             progress(path)
@@ -321,36 +268,19 @@ def import_files(
     return report
 
 
-class _GroupMaker:
-    """Creates the groups an import names that do not exist yet, in the import's section."""
+def _refused_duplicates(duplicates: dict[str, int]) -> list[ImportItem]:
+    """Return an error for each name the archive holds more than once (which copy is meant is unknown)."""
+    return [
+        ImportItem(
+            name,
+            "error",
+            f"{name}: refused: the archive holds {count} entries of this "
+            "name, so which one is meant is unknown; rename them",
+        )
+        for name, count in sorted(duplicates.items())
+    ]
 
-    def __init__(self, section: Any, actor: Person) -> None:
-        self.section_id, self.course_id, self.actor = section.id, section.course_id, actor
-        self.created: dict[str, Group] = {}
 
-    def make(self, session: so.Session, name: str, path: str, groups: dict[str, Group]) -> Group:
-        """Return a new group ``name`` of the section (added to ``groups``), flushed with the run to come."""
-        from webapp.services.audit import record_change
-
-        name = name.strip()
-        if not name or len(name) > 120:
-            raise Invalid(f"{path}, field 'info.group': a group name has 1 to 120 characters", field="group")
-        other = session.scalar(sa.select(Group).where(Group.name == name))
-        if other is not None:
-            raise Invalid(f"{path}, field 'info.group': group {name!r} belongs to another section; group names "
-                          "are unique in the notebook", field="group")
-        group = Group(name=name, course_id=self.course_id, section_id=self.section_id)
-        session.add(group)
-        session.flush()
-        record_change(session, self.actor, "group", group.id, "created", None, f"{name} (bulk import)")
-        groups[name] = self.created[name] = group
-        return group
-
-    def forget(self, groups: dict[str, Group]) -> None:
-        """Drop the groups made for a run that was not stored (rolled back with it)."""
-        for name in self.created:
-            groups.pop(name, None)
-        self.created.clear()
 def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
     """Refuse an import whose run files and readings pass the limits import_files or import_total_bytes.
 
@@ -364,116 +294,21 @@ def check_totals(files: dict[str, bytes], runs: list[str]) -> None:
         total += len(files[path])
         rname = _readings_name_or_none(files[path])
         if rname is not None:
-            total += len(files.get(posixpath.normpath(posixpath.join(posixpath.dirname(path), rname)), b""))
-    calc_limits.require_size(total, "import_total_bytes", field="archive",
-                             what=f"the import's run files and readings ({total} bytes, a shared readings file "
-                                  "counted once per run file that uses it)")
+            total += len(files.get(readings_path(path, rname), b""))
+    calc_limits.require_size(
+        total,
+        "import_total_bytes",
+        field="archive",
+        what=f"the import's run files and readings ({total} bytes, a shared readings file "
+        "counted once per run file that uses it)",
+    )
 
 
 def _readings_name_or_none(raw: bytes) -> str | None:
     try:
-        return _readings_name(raw.decode("utf-8-sig"), "")
+        return readings_name(raw.decode("utf-8-sig"), "")
     except (Invalid, UnicodeDecodeError):
         return None
-
-
-def _import_one(
-    session: so.Session, actor: Person, path: str, files: dict[str, bytes], maps: dict[str, Mapping],
-    groups: dict[str, Group], benches: dict[str, Bench], section_name: str, options: AnalysisOptions,
-    used: set[str], maker: _GroupMaker | None = None,
-) -> ImportItem:
-    raw = files[path]
-    digest = ""
-    try:
-        try:
-            text = raw.decode("utf-8-sig")
-        except UnicodeDecodeError as exc:
-            raise Invalid(f"{path}: byte {exc.start + 1} is not UTF-8 text; expected a TOML run file",
-                          field="run_file") from None
-        rname = _readings_name(text, path)
-        rpath = posixpath.normpath(posixpath.join(posixpath.dirname(path), rname))
-        if rpath in getattr(files, "duplicates", {}):
-            raise Invalid(f"{path}, field 'readings': {rname!r} occurs more than once in the archive", field="readings")
-        if rpath not in files:
-            raise Invalid(f"{path}, field 'readings': {rname!r} is not among the imported files", field="readings")
-        used.add(rpath)
-        readings = files[rpath]
-        digest = content_hash(raw, readings)
-        existing = session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
-        if existing is not None:
-            return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
-        base = posixpath.basename(path)
-        m = maps.get(base)
-        group = bench = None
-        if m is not None:
-            group = groups.get(m.group) or (maker.make(session, m.group, path, groups) if maker else None)
-            if group is None:
-                raise Invalid(f"{path}: the mapping names group {m.group!r}, which is not in section "
-                              f"{section_name!r}", field="group")
-            if m.bench:
-                bench = benches.get(m.bench)
-                if bench is None:
-                    raise Invalid(f"{path}: the mapping names bench {m.bench!r}, which is not in section "
-                                  f"{section_name!r}", field="bench")
-        else:
-            named = _info_group(text)
-            if named is not None:
-                group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
-                if group is None:
-                    raise Invalid(f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}",
-                                  field="group")
-            else:
-                group = _group_from_name(posixpath.splitext(base)[0], groups)
-            if group is None:
-                raise Invalid(f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
-                              f"name names a group of section {section_name!r}", field="group")
-        upload = RunUpload(run_toml=text, run_file_name=base, readings=readings,
-                           readings_name=posixpath.basename(rpath),
-                           calorimeter_id=bench.calorimeter_id if bench is not None else None,
-                           group_id=group.id, options=options)
-        run = _record(session, actor, upload, digest, bench)
-        made = maker is not None and maker.created.pop(group.name, None) is not None
-        return ImportItem(path, "stored", f"run #{run.id}" + (f"; group {group.name!r} created" if made else ""),
-                          run.id, group.name)
-    except ServiceError as exc:
-        session.rollback()
-        if maker is not None:
-            maker.forget(groups)
-        if isinstance(exc, Conflict) and digest:
-            # the same files stored by an import running at the same time: unchanged, not a conflict
-            existing = session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
-            if existing is not None:
-                return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
-        return ImportItem(path, "error", exc.message)
-    except sa.exc.DBAPIError as exc:
-        session.rollback()  # nothing of this run is stored
-        failure = storage_error(exc)
-        if failure is None:
-            raise
-        # the next run would fail the same way: stop, saying where and how to go on
-        raise type(failure)(f"{path}: {failure.message}. The import stopped at this file; the runs before it "
-                            "are stored, and importing the same files again skips them") from None
-    except BaseException:
-        session.rollback()  # nothing of this run is stored
-        raise
-
-
-def _record(session: so.Session, actor: Person, upload: RunUpload, digest: str, bench: Bench | None) -> Run:
-    """Record one run with its content hash (and bench) written in the same transaction."""
-
-    def stamp(sess: so.Session, _ctx: Any, _inst: Any) -> None:
-        for obj in sess.new:
-            if isinstance(obj, Run) and obj.content_hash is None:
-                obj.content_hash = digest
-                if bench is not None:
-                    obj.bench_id = bench.id
-                    obj.bench = bench.name
-
-    sa.event.listen(session, "before_flush", stamp)
-    try:
-        return record_run(session, actor, upload)
-    finally:
-        sa.event.remove(session, "before_flush", stamp)
 
 
 def runs_in(files: Iterable[str]) -> int:

@@ -172,7 +172,7 @@ def _runs_complete(conn: sa.Connection, report: IntegrityReport) -> None:
 
 
 def _content_hashes(conn: sa.Connection, report: IntegrityReport) -> None:
-    from webapp.services.imports import content_hash
+    from webapp.services.import_store import content_hash
 
     r = Run.__table__
     q = (

@@ -25,7 +25,7 @@ from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
 from webapp.services.live_advice import refresh_advice
 from webapp.services.live_events import notify
 from webapp.services.live_runfile import checked_run_file, toml_data
-from webapp.services.runs import group_for
+from webapp.services.run_upload import group_for
 
 #: the most readings one POST may carry
 MAX_BATCH = 1000

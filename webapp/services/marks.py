@@ -26,6 +26,7 @@ from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.classes import get_section, require_staff
 from webapp.services.errors import Conflict, Invalid
+from webapp.services.review import commit_review, locked_review
 from webapp.services.runs import get_run
 
 #: used until a coordinator sets a section's own scheme
@@ -190,30 +191,12 @@ def set_mark(session: so.Session, actor: Person, run_id: int, points: float | No
         ):
             raise Invalid(f"a mark must be a number from 0 to {MAX_POINTS:g}", field="points")
         points = float(points)
-    review = session.get(RunReview, run.id, with_for_update=True)
-    if review is None:
-        review = RunReview(
-            run_id=run.id,
-            withdrawn=False,
-            excluded=False,
-            accepted=False,
-            withdrawn_reason="",
-            excluded_reason="",
-            accepted_reason="",
-            mark_reason="",
-        )
-        session.add(review)
+    review = locked_review(session, run.id)
     record_change(session, actor, "run", run.id, "mark_points", review.mark_points, points)
     record_change(session, actor, "run", run.id, "mark_reason", review.mark_reason or None, reason.strip())
     review.mark_points = points
     review.mark_reason = reason.strip()
     review.updated_at = utcnow()
     review.updated_by_id = actor.id
-    try:
-        session.commit()
-    except sa.exc.IntegrityError:  # a first decision on the same run saved at the same moment
-        session.rollback()
-        raise Conflict(
-            f"another change to run {run_id} was saved at the same moment; reload and try again", field="points"
-        ) from None
+    commit_review(session, run_id, "points")
     return review

@@ -20,7 +20,8 @@ from webapp.services.access import can_edit_run, can_lock_run, can_view_run, vis
 from webapp.services.audit import audit_trail
 from webapp.services.calorimeters import calibration_history, calorimeters_query, current_calibration, get_calorimeter
 from webapp.services.errors import NotFound
-from webapp.services.runs import RunUpload, analyze_upload, get_run, runs_query
+from webapp.services.run_upload import RunUpload, analyze_upload
+from webapp.services.runs import get_run, runs_query
 
 
 @dataclasses.dataclass
@@ -142,7 +143,7 @@ def calorimeter_page(
 ) -> CalorimeterPage:
     """Return a calorimeter with its calibrations and, for each, the runs ``actor`` may see that used it
     (directly, or through a pooled value that held it)."""
-    from webapp.services.calibrations import current_calibration, members_of
+    from webapp.services.in_force import current_calibration, members_of
 
     cal = get_calorimeter(session, calorimeter_id)
     history = list(session.scalars(calibration_history(cal.id).options(so.joinedload(Calibration.result))))

@@ -64,6 +64,35 @@ def review_of(session: so.Session, run_id: int) -> RunReview | None:
     return session.get(RunReview, run_id)
 
 
+def locked_review(session: so.Session, run_id: int) -> RunReview:
+    """Return a run's review under a row lock; a new one (added, nothing decided) when there is none."""
+    review = session.get(RunReview, run_id, with_for_update=True)
+    if review is None:
+        review = RunReview(
+            run_id=run_id,
+            withdrawn=False,
+            excluded=False,
+            accepted=False,
+            withdrawn_reason="",
+            excluded_reason="",
+            accepted_reason="",
+            mark_reason="",
+        )
+        session.add(review)
+    return review
+
+
+def commit_review(session: so.Session, run_id: int, field: str) -> None:
+    """Commit a change of a run's review; a first review of the same run stored at the same moment is a Conflict."""
+    try:
+        session.commit()
+    except sa.exc.IntegrityError:  # a second first decision on the same run, at the same moment
+        session.rollback()
+        raise Conflict(
+            f"another change to run {run_id} was saved at the same moment; reload and try again", field=field
+        ) from None
+
+
 def _reason(reason: object) -> str:
     if not isinstance(reason, str) or not reason.strip():
         raise Invalid("give a reason (it is kept in the run's history)", field="reason")
@@ -136,19 +165,7 @@ def review_run(session: so.Session, actor: Person, run_id: int, action: str, rea
     field, value = ACTIONS[action]
     if action == "accept" and not run_flagged(run.current_result):
         raise Invalid(f"run {run.id} has no plausibility flag to accept", field="action")
-    review = session.get(RunReview, run.id, with_for_update=True)
-    if review is None:
-        review = RunReview(
-            run_id=run.id,
-            withdrawn=False,
-            excluded=False,
-            accepted=False,
-            withdrawn_reason="",
-            excluded_reason="",
-            accepted_reason="",
-            mark_reason="",
-        )
-        session.add(review)
+    review = locked_review(session, run.id)
     if bool(getattr(review, field)) == value:
         raise Conflict(f"run {run.id} is {'already' if value else 'not'} {field}", field="action")
     record_change(session, actor, "run", run.id, field, bool(getattr(review, field)), value)
@@ -157,11 +174,5 @@ def review_run(session: so.Session, actor: Person, run_id: int, action: str, rea
     setattr(review, f"{field}_reason", text)
     review.updated_at = utcnow()
     review.updated_by_id = actor.id
-    try:
-        session.commit()
-    except sa.exc.IntegrityError:  # a second first decision on the same run, at the same moment
-        session.rollback()
-        raise Conflict(
-            f"another change to run {run_id} was saved at the same moment; reload and try again", field="action"
-        ) from None
+    commit_review(session, run_id, "action")
     return review

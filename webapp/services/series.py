@@ -18,7 +18,7 @@ import sqlalchemy as sa
 import sqlalchemy.orm as so
 
 from calc.errors import InputError
-from calc.statistics.replicates import shared_type_b, summarize_series
+from calc.statistics.replicates import SeriesSummary, shared_type_b, summarize_series
 from webapp.models import MAX_ID, Person, Result, Run, Series, SeriesRun
 from webapp.services.access import can_view_run, require_coordinator
 from webapp.services.errors import Invalid, NotFound
@@ -44,6 +44,25 @@ def budget_lines(budget: list[dict[str, Any]]) -> list[SimpleNamespace]:
 def _finite_or_none(x: float) -> float | None:
     """Return ``x``, or None for an infinite degree of freedom (JSON has no infinity)."""
     return x if math.isfinite(x) else None
+
+
+def _statistics_json(s: SeriesSummary) -> dict[str, Any]:
+    """Return a series' statistics as JSON-ready data, in the order the pages list them."""
+    return {
+        "n": s.n,
+        "mean": s.mean,
+        "sd": s.sd,
+        "u_mean": s.u_mean,
+        "dof": s.dof,
+        "t95": s.t95,
+        "ci95": list(s.ci95),
+        "type_b_u": s.type_b_u,
+        "type_b_dof": _finite_or_none(s.type_b_dof),
+        "u_combined": s.u_combined,
+        "dof_eff": _finite_or_none(s.dof_eff),
+        "k": s.k,
+        "U": s.U,
+    }
 
 
 def _main(result: Result) -> tuple[float | None, str]:
@@ -79,19 +98,7 @@ def summarize_runs(
         "unit": unit,
         "run_ids": [r.id for r, _ in runs],
         "values": values,
-        "n": s.n,
-        "mean": s.mean,
-        "sd": s.sd,
-        "u_mean": s.u_mean,
-        "dof": s.dof,
-        "t95": s.t95,
-        "ci95": list(s.ci95),
-        "type_b_u": s.type_b_u,
-        "type_b_dof": _finite_or_none(s.type_b_dof),
-        "u_combined": s.u_combined,
-        "dof_eff": _finite_or_none(s.dof_eff),
-        "k": s.k,
-        "U": s.U,
+        **_statistics_json(s),
     }
 
 
@@ -168,19 +175,7 @@ def group_series(rows: list[Any], session: so.Session | None = None) -> list[dic
                 "unit": members[0].unit,
                 "run_ids": [m.run_id for m in members],
                 "values": [m.value for m in members],
-                "n": s.n,
-                "mean": s.mean,
-                "sd": s.sd,
-                "u_mean": s.u_mean,
-                "dof": s.dof,
-                "t95": s.t95,
-                "ci95": list(s.ci95),
-                "type_b_u": s.type_b_u,
-                "type_b_dof": _finite_or_none(s.type_b_dof),
-                "u_combined": s.u_combined,
-                "dof_eff": _finite_or_none(s.dof_eff),
-                "k": s.k,
-                "U": s.U,
+                **_statistics_json(s),
             }
         )
     return out
