@@ -21,6 +21,7 @@ from calc.cli.commands import cli
 from calc.errors import InputError
 from calc.plan import plan_run
 from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run
+from tests.calc.plan_args import KCL_DISSOLUTION
 
 T_ROOM = 294.65  # 21.5 °C
 
@@ -277,71 +278,41 @@ def test_the_limiting_equipment_follows_the_largest_share():
     assert any("more than 20 %" in w for w in poor_cal.warnings)
 
 
-def test_plan_errors_name_the_input():
+#: a dissolution plan_run accepts but for its molar enthalpy (it has no reference value for glucose)
+GLUCOSE = dict(
+    formula="C6H12O6",
+    mass="3.00 ± 0.01 g",
+    water_volume="100.0 ± 0.1 mL",
+    calorimeter_heat_capacity="15 ± 2 J/K",
+    thermometer_resolution=0.01,
+)
+
+
+@pytest.mark.parametrize(
+    ("change", "field"),
+    [
+        ({}, "molar_enthalpy"),
+        ({"formula": "KCl", "mass": "3 mL"}, "mass"),
+        ({"formula": "KCl", "thermometer_resolution": -0.01}, "thermometer_resolution"),
+    ],
+)
+def test_plan_errors_name_the_input(change, field):
     with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="C6H12O6",
-            mass="3.00 ± 0.01 g",
-            water_volume="100.0 ± 0.1 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=0.01,
-        )
-    assert err.value.field == "molar_enthalpy"
-    given = plan_run(
-        "dissolution",
-        formula="C6H12O6",
-        mass="3.00 ± 0.01 g",
-        water_volume="100.0 ± 0.1 mL",
-        calorimeter_heat_capacity="15 ± 2 J/K",
-        thermometer_resolution=0.01,
-        molar_enthalpy=11.0,
-    )
+        plan_run("dissolution", **{**GLUCOSE, **change})
+    assert err.value.field == field
+
+
+def test_plan_takes_a_molar_enthalpy_it_has_no_reference_for():
+    given = plan_run("dissolution", **GLUCOSE, molar_enthalpy=11.0)
     assert given.predicted_result == pytest.approx(11.0)
-    with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="KCl",
-            mass="3 mL",
-            water_volume="100 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=0.01,
-        )
-    assert err.value.field == "mass"
+
+
+def test_plan_refuses_a_kind_it_cannot_plan():
     with pytest.raises(InputError, match="cannot plan"):
         plan_run("titration", calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
-    with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="KCl",
-            mass="3 g",
-            water_volume="100 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=-0.01,
-        )
-    assert err.value.field == "thermometer_resolution"
 
 
-EXAMPLE = [
-    "plan",
-    "dissolution",
-    "--formula",
-    "KCl",
-    "--mass",
-    "3.0 g",
-    "--water",
-    "100 mL",
-    "--calorimeter",
-    "18 ± 2 J/K",
-    "--resolution",
-    "0.01 K",
-    "--noise",
-    "0.005 K",
-    "--balance",
-    "0.0002 g",
-    "--glassware",
-    "0.1 mL",
-]
+EXAMPLE = [*KCL_DISSOLUTION, "--noise", "0.005 K", "--balance", "0.0002 g", "--glassware", "0.1 mL"]
 
 
 def test_cli_plan_prints_the_prediction_and_the_limiting_equipment():
