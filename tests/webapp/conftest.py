@@ -21,6 +21,7 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
+from tests.webapp.people_helpers import FAST_HASH, add_person
 from tests.webapp.postgres import PostgresServer, PostgresUnavailable, start_server
 from webapp import create_app
 from webapp.db import get_engine, new_session
@@ -28,8 +29,6 @@ from webapp.migrate import upgrade
 from webapp.models import Base
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
-#: a cheap scrypt cost for test accounts (the default cost is checked in test_auth)
-FAST_HASH = "scrypt:1024:8:1"
 PASSWORD = "correct horse battery"
 
 
@@ -172,55 +171,17 @@ def lab(app: Any, session: Any) -> Lab:
     ``cup`` has no heat capacity yet; ``spare`` has one entered by hand.
     """
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group, create_person, issue_token
+    from webapp.services.people import create_group, issue_token
 
-    coord = create_person(
-        session,
-        email="coord@lab.example",
-        name="Coordinator C",
-        role="coordinator",
-        password=PASSWORD,
-        password_method=FAST_HASH,
-    )
+    coord = add_person(session, "coord@lab.example", "Coordinator C", "coordinator", password=PASSWORD)
     ga = create_group(session, coord, name="Group A")
     gb = create_group(session, coord, name="Group B")
     people = {
         "coord": coord,
-        "tech": create_person(
-            session,
-            email="tech@lab.example",
-            name="Technician T",
-            role="technician",
-            password=PASSWORD,
-            password_method=FAST_HASH,
-        ),
-        "a1": create_person(
-            session,
-            email="a1@lab.example",
-            name="Student A1",
-            role="student",
-            password=PASSWORD,
-            group=ga,
-            password_method=FAST_HASH,
-        ),
-        "a2": create_person(
-            session,
-            email="a2@lab.example",
-            name="Student A2",
-            role="student",
-            password=PASSWORD,
-            group=ga,
-            password_method=FAST_HASH,
-        ),
-        "b1": create_person(
-            session,
-            email="b1@lab.example",
-            name="Student B1",
-            role="student",
-            password=PASSWORD,
-            group=gb,
-            password_method=FAST_HASH,
-        ),
+        "tech": add_person(session, "tech@lab.example", "Technician T", "technician", password=PASSWORD),
+        "a1": add_person(session, "a1@lab.example", "Student A1", "student", password=PASSWORD, group=ga),
+        "a2": add_person(session, "a2@lab.example", "Student A2", "student", password=PASSWORD, group=ga),
+        "b1": add_person(session, "b1@lab.example", "Student B1", "student", password=PASSWORD, group=gb),
     }
     tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
     cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
