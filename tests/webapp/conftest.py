@@ -209,16 +209,28 @@ def without_heat_capacity(toml: str) -> str:
 def upload(
     client: Any, headers: dict[str, str], name: str, *, toml: str | None = None, csv: bytes | None = None, **fields: Any
 ) -> Any:
-    """POST a demo run (or the given texts) to /api/runs as multipart and return the response."""
+    """POST a demo run (or the given texts, sent as ``name``.toml and ``name``.csv) to /api/runs as multipart and
+    return the response."""
     import io
 
-    t, c = demo_files(name)
+    if toml is None or csv is None:
+        t, c = demo_files(name)
+        toml, csv = (t if toml is None else toml), (c if csv is None else csv)
     data: dict[str, Any] = {
-        "run_file": (io.BytesIO((toml if toml is not None else t).encode("utf-8")), f"{name}.toml"),
-        "readings": (io.BytesIO(csv if csv is not None else c), f"{name}.csv"),
+        "run_file": (io.BytesIO(toml.encode("utf-8")), f"{name}.toml"),
+        "readings": (io.BytesIO(csv), f"{name}.csv"),
         **{k: str(v) for k, v in fields.items()},
     }
     return client.post("/api/runs", data=data, headers=headers, content_type="multipart/form-data")
+
+
+def locked_after(client: Any, lab: Lab, change: dict[str, Any]) -> int:
+    """Upload the KCl demo run as student a1, PATCH ``change`` into it, lock it (a1 signs); return its id."""
+    run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
+    patched = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json=change)
+    assert patched.status_code == 200, patched.get_json()
+    assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
+    return int(run_id)
 
 
 def csrf_token(html: str) -> str:
