@@ -26,7 +26,14 @@ from calc.live.devices import PROFILES
 from calc.live.recorder import sidecar_path
 from calc.live.simthermo import SimThermometer
 from tests.calc.live.fake_notebook import FakeNotebook
-from tests.calc.live.record_helpers import readings_lost, rows, start_recorder, wait_rows
+from tests.calc.live.record_helpers import (
+    assert_the_notebook_holds_the_log,
+    finish_with_ctrl_c,
+    readings_lost,
+    rows,
+    start_recorder,
+    wait_rows,
+)
 
 TRIALS = 24
 LATENCY_READINGS = 90
@@ -51,7 +58,7 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
             time.sleep(rng.uniform(0.0, 0.1))  # anywhere between two readings, mid-write included
             killed_at = time.monotonic()
             proc.send_signal(signal.SIGKILL)
-            proc.wait(timeout=10)
+            proc.communicate(timeout=10)  # waits, and closes its pipes (not left to the collector)
             side = json.loads(sidecar_path(out).read_text())
             live_id = live_id or side["live_run_id"]
             trials.append(
@@ -63,18 +70,11 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
                     "rows": len(rows(out)),
                 }
             )
-        proc = start_recorder(out, port, *args, "--finish")
-        wait_rows(out, len(rows(out)) + 10)
-        proc.send_signal(signal.SIGINT)
-        stdout, stderr = proc.communicate(timeout=60)
+        status, _stdout, stderr = finish_with_ctrl_c(out, port, *args, more_rows=10, timeout=60)
     finally:
         thermo.close()
-    assert proc.returncode == 0, stderr
-    run = nb.runs[live_id]
-    logged = rows(out)
-    assert [r[0] for r in run.readings] == list(range(len(logged)))
-    assert [f"{r[1]:.3f},{r[2]:.4f}" for r in run.readings] == logged
-    assert run.state == "finished" and run.csv == out.read_text()
+    assert status == 0, stderr
+    assert_the_notebook_holds_the_log(nb.runs[live_id], out)
     return trials
 
 
