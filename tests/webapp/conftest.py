@@ -16,13 +16,13 @@ import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, NoReturn
 
 import pytest
 import sqlalchemy as sa
 
 from tests.webapp.people_helpers import FAST_HASH, add_person
-from tests.webapp.postgres import PostgresServer, PostgresUnavailable, start_server
+from tests.webapp.postgres import INSTALL_HINT, PostgresServer, PostgresUnavailable, find_bindir, start_server
 from webapp import create_app
 from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
@@ -49,9 +49,20 @@ def start_or_skip(parent: Path | None = None, wal_parent: Path | None = None) ->
     try:
         return start_server(parent, wal_parent)
     except PostgresUnavailable as exc:
-        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
-            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {exc}")
-        pytest.skip(str(exc))
+        skip_or_fail_without_postgres(str(exc))
+
+
+def skip_or_fail_without_postgres(reason: str) -> NoReturn:
+    """Skip with ``reason``, or fail when ``CUPCAL_REQUIRE_POSTGRES=1`` (CI must not skip PostgreSQL)."""
+    if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
+        pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {reason}")
+    pytest.skip(reason)
+
+
+def require_postgres_binaries() -> None:
+    """Skip (or fail, as above) when the PostgreSQL server binaries are not installed."""
+    if find_bindir() is None:
+        skip_or_fail_without_postgres(INSTALL_HINT)
 
 
 @pytest.fixture(scope="session")
