@@ -295,6 +295,7 @@ GLUCOSE = dict(
         ({"formula": "KCl", "mass": "3 mL"}, "mass"),
         ({"formula": "KCl", "thermometer_resolution": -0.01}, "thermometer_resolution"),
     ],
+    ids=["no-reference-enthalpy", "mass-in-mL", "negative-resolution"],
 )
 def test_plan_errors_name_the_input(change, field):
     with pytest.raises(InputError) as err:
