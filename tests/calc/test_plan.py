@@ -24,6 +24,9 @@ from calc.simulation.simulator import simulate_dissolution, simulate_neutralizat
 from tests.calc.plan_args import KCL_DISSOLUTION
 
 T_ROOM = 294.65  # 21.5 °C
+#: how the KCl runs are planned and then simulated: a reading a second, 180 s before mixing and 900 s after,
+#: the salt releasing its heat over about 30 s and the probe following within 5 s
+TIMING = {"interval": 1.0, "fore": 180.0, "after": 900.0, "release_time": 30.0, "probe_time": 5.0}
 
 
 def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: float = 0.005, **kw):
@@ -36,11 +39,7 @@ def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: flo
         thermometer_resolution=q,
         thermometer_noise=sigma,
         temperature=T_ROOM,
-        interval=1.0,
-        fore=180.0,
-        after=900.0,
-        release_time=30.0,
-        probe_time=5.0,
+        **TIMING,
         **kw,
     )
 
@@ -59,17 +58,17 @@ def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
             molar_enthalpy_kJ_mol=plan.predicted_result,
             solute_mass_g=mass,
             water_volume_mL=100.0,
-            tau_r=30.0,
+            tau_r=TIMING["release_time"],
             water_density=rho[0],
             mixture_cp=cp[0],
             c_cal=15.0,
-            tau_s=5.0,
+            tau_s=TIMING["probe_time"],
             t_initial_C=t0,
             noise=sigma,
             resolution=q,
-            fore_s=180.0,
-            after_s=900.0,
-            dt=1.0,
+            fore_s=TIMING["fore"],
+            after_s=TIMING["after"],
+            dt=TIMING["interval"],
             perturb_inputs=True,
             uncertainties={
                 "volume_mL": 0.1,
