@@ -76,6 +76,15 @@ def _stated(rng, value: float, u: float, unit: str, places: int) -> str:
     return f"{drawn:.{places}f} ± {u:.{places}f} {unit}"
 
 
+def _water(srng, section: str, volume_mL: float, u_vol: float, density: float) -> list[str]:
+    """Return the run-file lines of a water section: its stated volume and density (drawn in that order)."""
+    return [
+        f"[{section}]",
+        f'volume = "{_stated(srng, volume_mL, u_vol, "mL", 2)}"',
+        f'density = "{_stated(srng, density, 0.001, "g/mL", 4)}"',
+    ]
+
+
 def _room(rng):
     t0 = rng.uniform(18, 25)
     # a trend of up to ±0.8 K/h plus a slow swing (air handling) of up to 0.08 K: the room's rate of
@@ -194,9 +203,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         cal = f'heat_capacity = "{c_cal + (rng.normal(0, 2.0) if artefacts else 0.0):.1f} ± 2.0 J/K"'
         if kind == "dissolution":
             body += [
-                "[water]",
-                f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
-                f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+                *_water(srng, "water", vol, u_vol, 0.998),
                 "[solute]",
                 f'formula = "{salt}"',
                 f'mass = "{_stated(srng, mass, u_mass, "g", 4)}"',
@@ -237,9 +244,7 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
         truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
         cal = None
         body += [
-            "[water]",
-            f'volume = "{_stated(srng, vol, u_vol, "mL", 2)}"',
-            f'density = "{_stated(srng, 0.998, 0.001, "g/mL", 4)}"',
+            *_water(srng, "water", vol, u_vol, 0.998),
             "[heater]",
             f'voltage = "{_stated(srng, volt, 0.005, "V", 3)}"',
             f'current = "{_stated(srng, amp, 0.001, "A", 4)}"',
@@ -285,12 +290,8 @@ def make_log(kind: str, seed: int, *, resolution: float, mixing_given: bool, art
             truth, scale, key = c_cal, c_after, "calorimeter_heat_capacity"
             cal = None
             body += [
-                "[water]",
-                f'volume = "{_stated(srng, v_a, u_vol, "mL", 2)}"',
-                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
-                "[warm_water]",
-                f'volume = "{_stated(srng, v_b, u_vol, "mL", 2)}"',
-                f'density = "{_stated(srng, 1.000, 0.001, "g/mL", 4)}"',
+                *_water(srng, "water", v_a, u_vol, 1.000),
+                *_water(srng, "warm_water", v_b, u_vol, 1.000),
                 f'temperature = "{_stated(srng, t_b, 0.05, "degC", 3)}"',
             ]
         body += ["[mixture]", f'specific_heat_capacity = "{_stated(srng, CP_WATER, 0.010, "J/(g*K)", 3)}"']

@@ -16,7 +16,8 @@ from typing import Any
 
 import requests
 
-from tests.benchmarks.load_test import FAST_HASH, GUNICORN, REPO, free_port, served
+from tests.benchmarks.load_test import GUNICORN, REPO, free_port, served
+from tests.webapp.people_helpers import add_person
 from webapp.serving import GTHREAD_THREADS
 
 PASSWORD = "live bench password"
@@ -30,21 +31,14 @@ def seed(url: str, runs: int) -> dict[str, Any]:
     from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
     from webapp.services.classes import create_bench, create_section
-    from webapp.services.people import create_course, create_group, create_person
+    from webapp.services.people import create_course, create_group
     from webapp.services.tokens import issue_scoped_token
 
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "live bench"})
     s = new_session(app)
     try:
-        coord = create_person(
-            s,
-            email=COORDINATOR,
-            name="Coordinator Live",
-            role="coordinator",
-            password=PASSWORD,
-            password_method=FAST_HASH,
-        )
+        coord = add_person(s, COORDINATOR, "Coordinator Live", "coordinator", password=PASSWORD)
         course = create_course(s, coord, name="Live bench course (invented)")
         section = create_section(s, coord, course_id=course.id, name="Room 3B")
         benches = []
@@ -53,14 +47,8 @@ def seed(url: str, runs: int) -> dict[str, Any]:
             group.section_id = section.id
             s.commit()
             create_bench(s, coord, section_id=section.id, name=f"Bench {i + 1:02d}")
-            student = create_person(
-                s,
-                email=f"student{i:02d}@live.example",
-                name=f"Student {i:02d}",
-                role="student",
-                password=PASSWORD,
-                group=group,
-                password_method=FAST_HASH,
+            student = add_person(
+                s, f"student{i:02d}@live.example", f"Student {i:02d}", "student", password=PASSWORD, group=group
             )
             benches.append((f"Bench {i + 1:02d}", issue_scoped_token(s, student, "recorder", "live")[1]))
         return {"section_id": section.id, "benches": benches}

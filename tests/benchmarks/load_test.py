@@ -46,6 +46,7 @@ import psutil
 import sqlalchemy as sa
 
 from tests.benchmarks.load_clients import ClientPlan, ClientReport, run_client, summarize, table
+from tests.webapp.people_helpers import add_person  # a cheap hash: sign-in happens before the measured window
 
 REPO = Path(__file__).resolve().parents[2]
 RESULTS = REPO / "bench-results"
@@ -62,7 +63,6 @@ DEMO_RUNS = (
 CALORIMETER = "Cup TH-07 (two nested foam cups, lid)"  # named by the demo run files
 PASSWORD = "load test password"
 GUNICORN_TEXT = f"{importlib.metadata.version('gunicorn')}, {{}} sync workers, default settings"
-FAST_HASH = "scrypt:1024:8:1"  # sign-in happens before the measured window; a cheap hash keeps seeding quick
 
 
 def parse_args(argv: list[str] | None) -> argparse.Namespace:
@@ -112,28 +112,13 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
     from webapp import create_app
     from webapp.db import get_engine, new_session
     from webapp.migrate import upgrade
-    from webapp.services.people import create_person
 
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "seed"})
     s = new_session(app)
     try:
-        coord = create_person(
-            s,
-            email=f"coord@{who}.example",
-            name=f"Coordinator {who.title()}",
-            role="coordinator",
-            password=PASSWORD,
-            password_method=FAST_HASH,
-        )
-        tech = create_person(
-            s,
-            email=f"tech@{who}.example",
-            name=f"Technician {who.title()}",
-            role="technician",
-            password=PASSWORD,
-            password_method=FAST_HASH,
-        )
+        coord = add_person(s, f"coord@{who}.example", f"Coordinator {who.title()}", "coordinator", password=PASSWORD)
+        tech = add_person(s, f"tech@{who}.example", f"Technician {who.title()}", "technician", password=PASSWORD)
         yield app, s, coord, tech
     finally:
         s.close()
@@ -143,7 +128,7 @@ def seeded(url: str, who: str) -> Iterator[tuple[Any, Any, Any, Any]]:
 def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
     """Migrate and seed the database; return each client's (e-mail, token) and the Monte Carlo trials."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group, create_person, issue_token
+    from webapp.services.people import create_group, issue_token
 
     with seeded(url, "load") as (app, s, coord, _tech):
         create_calorimeter(s, coord, name=CALORIMETER, parts="two nested foam cups, lid")
@@ -151,15 +136,7 @@ def seed(url: str, clients: int) -> tuple[list[tuple[str, str]], int]:
         out = []
         for i in range(clients):
             email = f"student{i:02d}@load.example"
-            p = create_person(
-                s,
-                email=email,
-                name=f"Student {i:02d}",
-                role="student",
-                password=PASSWORD,
-                group=groups[i // 4],
-                password_method=FAST_HASH,
-            )
+            p = add_person(s, email, f"Student {i:02d}", "student", password=PASSWORD, group=groups[i // 4])
             out.append((email, issue_token(s, p, "load test", scope="write")[1]))
         return out, int(app.config["MONTE_CARLO_TRIALS"])
 

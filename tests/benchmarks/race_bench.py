@@ -24,7 +24,8 @@ import urllib.request
 from pathlib import Path
 from typing import Any
 
-from tests.benchmarks.load_test import FAST_HASH, PASSWORD, RESULTS, fresh_database, gunicorn, seeded
+from tests.benchmarks.load_test import PASSWORD, RESULTS, fresh_database, gunicorn, seeded
+from tests.webapp.people_helpers import add_person
 from tests.webapp.race_trials import (
     DEMO,
     Tally,
@@ -41,28 +42,12 @@ CUP = "Cup TH-07 (two nested foam cups, lid)"  # the cup the demo run files name
 def seed(url: str) -> tuple[dict[str, str], int, int]:
     """Migrate and seed: a coordinator, a technician, two students of one group (tokens), two cups."""
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group, create_person, issue_token
+    from webapp.services.people import create_group, issue_token
 
     with seeded(url, "race") as (_app, s, coord, tech):
         group = create_group(s, coord, name="Race group")
-        a1 = create_person(
-            s,
-            email="a1@race.example",
-            name="Student One",
-            role="student",
-            password=PASSWORD,
-            group=group,
-            password_method=FAST_HASH,
-        )
-        a2 = create_person(
-            s,
-            email="a2@race.example",
-            name="Student Two",
-            role="student",
-            password=PASSWORD,
-            group=group,
-            password_method=FAST_HASH,
-        )
+        a1 = add_person(s, "a1@race.example", "Student One", "student", password=PASSWORD, group=group)
+        a2 = add_person(s, "a2@race.example", "Student Two", "student", password=PASSWORD, group=group)
         cup = create_calorimeter(
             s,
             coord,

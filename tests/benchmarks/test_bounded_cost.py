@@ -33,6 +33,7 @@ from hypothesis import strategies as st
 from calc import limits
 from calc.simulation.kinds import simulate_dissolution
 from calc.simulation.run import write_run
+from tests.calc.plan_args import KCL_DISSOLUTION
 from tests.webapp.conftest import FAST_HASH
 from webapp import create_app
 from webapp.db import get_engine, new_session
@@ -291,21 +292,7 @@ def test_runs_packages_and_command_line(world: Any) -> None:
         ["--resolution", "0.000000001 K", "--noise", "10 K"],
         ["--interval", "0.001 s", "--after", "1000000 s"],
     ):
-        args = [
-            "plan",
-            "dissolution",
-            "--formula",
-            "KCl",
-            "--mass",
-            "3 g",
-            "--water",
-            "100 mL",
-            "--calorimeter",
-            "18 ± 2 J/K",
-            "--resolution",
-            "0.01 K",
-            *extra,
-        ]
+        args = [*KCL_DISSOLUTION, *extra]
         measure("cupcal plan", lambda: CliRunner().invoke(_cli(), args))
     print(json.dumps({"cases": [(r, t, m) for r, t, m in cases]}))
     for kind in ("POST /api/runs", "POST /api/packages", "cupcal analyze", "cupcal plan"):

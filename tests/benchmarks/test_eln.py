@@ -17,19 +17,15 @@ import time
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import pytest
-import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution, write_run
+from tests.benchmarks.classroom import class_notebook, simulate_class
 from tests.benchmarks.webapp_bench import FAST, PeakRSS
 from tests.webapp.eln_helpers import HOSTILE, counts, demo_source, dispose, snapshot
 from webapp import create_app
 from webapp.db import new_session
 from webapp.migrate import upgrade
-from webapp.models import Section
 from webapp.services import eln
-from webapp.services.classes import import_roster
 from webapp.services.eln_import import import_eln
 from webapp.services.errors import Invalid
 from webapp.services.imports import files_from_folder, import_files
@@ -86,26 +82,8 @@ def test_round_trip_of_the_demo_lab(tmp_path: Path) -> None:
 @pytest.fixture(scope="module")
 def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
     d = tmp_path_factory.mktemp("eln-scale")
-    rng = np.random.default_rng(2025)
-    for g in range(GROUPS):
-        for k in range(REPEATS):
-            sim = simulate_dissolution(
-                rng,
-                solute_mass_g=float(rng.uniform(3.0, 4.5)),
-                noise=0.003,
-                fore_s=240.0,
-                after_s=600.0,
-                dt=2.0,
-                perturb_inputs=True,
-                resolution=float(rng.choice([0.001, 0.01])),
-            )
-            write_run(sim, d / "runs", f"G{g:03d}-run{k + 1}")
-    app, s, coord = _notebook(d / "class.sqlite3")
-    roster = "course,section,group,name,email,role\n" + "".join(
-        f"Bench Course,S1,G{g:03d},Student {g},s{g}@bench.example,student\n" for g in range(GROUPS)
-    )
-    import_roster(s, coord, roster, password_method=FAST)
-    section_id = s.scalar(sa.select(Section.id))
+    simulate_class(d / "runs", GROUPS, REPEATS, 2025, resolutions=(0.001, 0.01))
+    app, s, coord, section_id = class_notebook(d / "class.sqlite3", GROUPS)
     report = import_files(s, coord, section_id, files_from_folder(d / "runs"))
     assert report.count("stored") + report.count("error") == GROUPS * REPEATS
     yield {

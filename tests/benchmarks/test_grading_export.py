@@ -9,15 +9,13 @@ Carlo. Run with ``python -m pytest -q -s tests/benchmarks/test_grading_export.py
 
 from __future__ import annotations
 
-import re
 from typing import Any
 
-import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from calc.simulation.simulator import simulate_dissolution, write_run
-from tests.benchmarks.webapp_bench import time_ms
+from tests.benchmarks.classroom import simulate_class
+from tests.benchmarks.webapp_bench import print_timing, signed_in_client
 from webapp import create_app
 from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
@@ -37,20 +35,7 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
     from webapp.services.review import review_run
 
     d = tmp_path_factory.mktemp("grading")
-    rng = np.random.default_rng(2026)
-    for g in range(GROUPS):
-        for k in range(REPEATS):
-            sim = simulate_dissolution(
-                rng,
-                solute_mass_g=float(rng.uniform(3.0, 4.5)),
-                noise=0.003,
-                fore_s=240.0,
-                after_s=600.0,
-                dt=2.0,
-                perturb_inputs=True,
-                resolution=0.01,
-            )
-            write_run(sim, d / "runs", f"G{g:03d}-run{k + 1}")
+    simulate_class(d / "runs", GROUPS, REPEATS, 2026)
     url = f"sqlite:///{d / 'grading.sqlite3'}"
     upgrade(url)
     app = create_app({"DATABASE_URL": url, "SECRET_KEY": "bench", "MONTE_CARLO_TRIALS": 0, "PASSWORD_METHOD": FAST})
@@ -79,12 +64,7 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
         add_run_comment(s, coord, rid, "Invented run comment.")
     review_run(s, coord, runs[5], "exclude", "benchmark exclusion")
     set_mark(s, coord, runs[7], 9.0, "benchmark override")
-    client = app.test_client()
-    page = client.get("/auth/login").get_data(as_text=True)
-    csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
-    client.post(
-        "/auth/login", data={"email": "coord@bench.example", "password": "benchmark password", "csrf_token": csrf}
-    )
+    client = signed_in_client(app, "coord@bench.example", "benchmark password")
     yield {"client": client, "section_id": sid, "run_id": runs[7]}
     s.close()
     get_engine(app).dispose()
@@ -93,15 +73,17 @@ def section(tmp_path_factory: pytest.TempPathFactory) -> Any:
 def test_grading_export_dashboard_and_run_page(section: Any) -> None:
     c, sid = section["client"], section["section_id"]
     n = GROUPS * REPEATS
-    med, p95 = time_ms(lambda: c.get(f"/classes/sections/{sid}/export.csv"), 15)
-    print(f"\ngrading CSV, {n} runs: median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 1 s)")
-    csv_p95 = p95
-    med, p95 = time_ms(lambda: c.get(f"/classes/sections/{sid}/export.xlsx"), 8)
-    print(f"grading xlsx, {n} runs: median {med:.0f} ms, p95 {p95:.0f} ms (target ≤ 1 s)")
-    med, p95 = time_ms(lambda: c.get(f"/classes/sections/{sid}/dashboard?sort=value"), 10)
-    print(f"dashboard page, {n} runs with review columns and comments: median {med:.0f} ms, p95 {p95:.0f} ms")
-    med, p95 = time_ms(lambda: c.get(f"/runs/{section['run_id']}"), 10)
-    print(f"run page with its review panel: median {med:.0f} ms, p95 {p95:.0f} ms")
+    print()
+    csv_p95 = print_timing(
+        f"grading CSV, {n} runs", lambda: c.get(f"/classes/sections/{sid}/export.csv"), 15, "target ≤ 1 s"
+    )
+    print_timing(f"grading xlsx, {n} runs", lambda: c.get(f"/classes/sections/{sid}/export.xlsx"), 8, "target ≤ 1 s")
+    print_timing(
+        f"dashboard page, {n} runs with review columns and comments",
+        lambda: c.get(f"/classes/sections/{sid}/dashboard?sort=value"),
+        10,
+    )
+    print_timing("run page with its review panel", lambda: c.get(f"/runs/{section['run_id']}"), 10)
     r = c.get(f"/classes/sections/{sid}/export.csv")
     assert r.status_code == 200 and r.get_data(as_text=True).count("\r\n") > n
     assert csv_p95 < 5000  # a guard against a pathological slowdown; the figure is the printed line

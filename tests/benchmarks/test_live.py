@@ -18,7 +18,7 @@ import shlex
 import pytest
 
 from tests.benchmarks.live_bench import main
-from tests.webapp.postgres import INSTALL_HINT, find_bindir
+from tests.webapp.conftest import require_postgres_binaries
 
 
 def _extra() -> list[str]:
@@ -26,10 +26,8 @@ def _extra() -> list[str]:
 
 
 def _needs_postgres(db: str) -> None:
-    if db == "postgresql" and find_bindir() is None:
-        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
-            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {INSTALL_HINT}")
-        pytest.skip(INSTALL_HINT)
+    if db == "postgresql":
+        require_postgres_binaries()
 
 
 @pytest.mark.parametrize("db", ["sqlite", "postgresql"])

@@ -12,10 +12,8 @@ from __future__ import annotations
 import os
 import shlex
 
-import pytest
-
 from tests.benchmarks.load_test import main
-from tests.webapp.postgres import INSTALL_HINT, find_bindir
+from tests.webapp.conftest import require_postgres_binaries
 
 
 def _extra() -> list[str]:
@@ -27,10 +25,7 @@ def test_load_sqlite() -> None:
 
 
 def test_load_postgresql() -> None:
-    if find_bindir() is None:
-        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
-            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {INSTALL_HINT}")
-        pytest.skip(INSTALL_HINT)
+    require_postgres_binaries()
     assert main(["--db", "postgresql", *_extra()]) == 0, "see the errors and problems printed above"
 
 

@@ -25,8 +25,8 @@ import numpy as np
 from calc.live.devices import PROFILES
 from calc.live.recorder import sidecar_path
 from calc.live.simthermo import SimThermometer
+from tests.calc.live import record_helpers as rec
 from tests.calc.live.fake_notebook import FakeNotebook
-from tests.calc.live.record_helpers import readings_lost, rows, start_recorder, wait_rows
 
 TRIALS = 24
 LATENCY_READINGS = 90
@@ -44,37 +44,30 @@ def _crash_trials(tmp_path, nb: FakeNotebook) -> list[dict]:
     thermo.start()
     try:
         for _trial in range(TRIALS):
-            earlier = rows(out)
+            earlier = rec.rows(out)
             before, inode = len(earlier), out.stat().st_ino if out.exists() else None
-            proc = start_recorder(out, port, *args)
-            wait_rows(out, before + rng.randint(3, 30))
+            proc = rec.start_recorder(out, port, *args)
+            rec.wait_rows(out, before + rng.randint(3, 30))
             time.sleep(rng.uniform(0.0, 0.1))  # anywhere between two readings, mid-write included
             killed_at = time.monotonic()
             proc.send_signal(signal.SIGKILL)
-            proc.wait(timeout=10)
+            proc.communicate(timeout=10)  # waits, and closes its pipes (not left to the collector)
             side = json.loads(sidecar_path(out).read_text())
             live_id = live_id or side["live_run_id"]
             trials.append(
                 {
-                    "lost": readings_lost(thermo, rows(out)[before:], killed_at),
+                    "lost": rec.readings_lost(thermo, rec.rows(out)[before:], killed_at),
                     # the restart appended to the very file: same inode, earlier rows untouched
-                    "same_file": rows(out)[:before] == earlier and inode in (None, out.stat().st_ino),
+                    "same_file": rec.rows(out)[:before] == earlier and inode in (None, out.stat().st_ino),
                     "same_live_run": side["live_run_id"] == live_id and len(nb.runs) == 1,
-                    "rows": len(rows(out)),
+                    "rows": len(rec.rows(out)),
                 }
             )
-        proc = start_recorder(out, port, *args, "--finish")
-        wait_rows(out, len(rows(out)) + 10)
-        proc.send_signal(signal.SIGINT)
-        stdout, stderr = proc.communicate(timeout=60)
+        status, _stdout, stderr = rec.finish_with_ctrl_c(out, port, *args, more_rows=10, timeout=60)
     finally:
         thermo.close()
-    assert proc.returncode == 0, stderr
-    run = nb.runs[live_id]
-    logged = rows(out)
-    assert [r[0] for r in run.readings] == list(range(len(logged)))
-    assert [f"{r[1]:.3f},{r[2]:.4f}" for r in run.readings] == logged
-    assert run.state == "finished" and run.csv == out.read_text()
+    assert status == 0, stderr
+    rec.assert_the_notebook_holds_the_log(nb.runs[live_id], out)
     return trials
 
 
@@ -85,7 +78,7 @@ def _latency(tmp_path, nb: FakeNotebook) -> np.ndarray:
     port = thermo.open_pty()
     out, run_file = tmp_path / "latency.csv", tmp_path / "latency.toml"
     run_file.write_text('kind = "dissolution"\n')
-    proc = start_recorder(
+    proc = rec.start_recorder(
         out, port, "--notebook", nb.url, "--run-file", str(run_file), "--max-readings", str(LATENCY_READINGS)
     )
     thermo.start(delay_s=3.0)  # the recorder opens the port meanwhile

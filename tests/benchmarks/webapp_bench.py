@@ -64,6 +64,22 @@ def time_ms(fn: Callable[[], Any], n: int, before: Callable[[], None] | None = N
     return statistics.median(samples), samples[int(0.95 * (len(samples) - 1))]
 
 
+def print_timing(what: str, fn: Callable[[], Any], n: int, target: str | None = None) -> float:
+    """Time ``fn`` as ``time_ms`` does, print ``what: median … ms, p95 … ms (target)`` and return the p95 in ms."""
+    med, p95 = time_ms(fn, n)
+    print(f"{what}: median {med:.0f} ms, p95 {p95:.0f} ms" + (f" ({target})" if target else ""))
+    return p95
+
+
+def signed_in_client(app: Any, email: str, password: str) -> Any:
+    """Return a test client of ``app`` signed in through the sign-in page's form."""
+    client = app.test_client()
+    page = client.get("/auth/login").get_data(as_text=True)
+    csrf = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page).group(1)
+    client.post("/auth/login", data={"email": email, "password": password, "csrf_token": csrf})
+    return client
+
+
 def app_with_a_long_run(d: Path) -> Iterator[dict[str, Any]]:
     """Yield an app on a fresh SQLite file with one 2,000-point run and a signed-in coordinator client."""
     url = f"sqlite:///{d / 'bench.sqlite3'}"

@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from calc.cli.commands import cli
+from tests.calc.plan_args import CUP_AND_PROBE, KCL_SOLUTE
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 NAMES = ["diss-kcl-01", "neut-hcl-naoh-01", "cal-electrical-01", "react-mg-hcl-01", "cal-mixing-01"]
@@ -169,12 +170,7 @@ def plan_args(draw: Any) -> list[str]:
     args = [
         "plan",
         draw(st.sampled_from(["dissolution", "neutralization"])),
-        "--formula",
-        "KCl",
-        "--mass",
-        "3 g",
-        "--water",
-        "100 mL",
+        *KCL_SOLUTE,
         "--acid",
         "HCl",
         "--base",
@@ -187,10 +183,7 @@ def plan_args(draw: Any) -> list[str]:
         "50 mL",
         "--base-volume",
         "50 mL",
-        "--calorimeter",
-        "18 ± 2 J/K",
-        "--resolution",
-        "0.01 K",
+        *CUP_AND_PROBE,
     ]
     for _ in range(draw(st.integers(1, 3))):
         args += [draw(st.sampled_from(_PLAN)), draw(st.sampled_from(_PLAN_VALUES))]

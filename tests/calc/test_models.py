@@ -17,6 +17,18 @@ def _dt(value: float, start_K: float) -> DeltaT:
     return DeltaT("regnault-pfaundler", value, 0.002, 50.0, 0.0, 0.0, 0.0, 0.0, start_K, 0.001, start_K + value)
 
 
+def _propagated(text: str, delta_t: DeltaT, stated: dict[str, tuple[float, float]], main: str | None = None):
+    """Parse the run file ``text``, give the model the ``stated`` properties ({name: (value, u)}, densities in g/mL,
+    specific heat capacities in J/(g*K)) as a run file states them, build it with ``delta_t`` and propagate ``main``
+    (the kind's main output by default); return the models and the propagation."""
+    spec = parse_run(text, source="run.toml")
+    props = RunProperties()
+    for name, (value, u) in stated.items():
+        props.add(name, value, u, "g/mL" if name.endswith("density") else "J/(g*K)", "run file")
+    ms = build_model(spec, delta_t, props)
+    return ms, propagate(ms.inputs, ms.model, main or ms.main)
+
+
 NEUT = """
 kind = "neutralization"
 readings = "r.csv"
@@ -41,14 +53,13 @@ specific_heat_capacity = "3.960 ± 0.010 J/(g*K)"
 
 
 def test_neutralization_heat_balance_by_hand():
-    spec = parse_run(NEUT, source="n.toml")
-    props = RunProperties()
-    props.add("acid.density", 1.016, 0.001, "g/mL", "run file")
-    props.add("base.density", 1.040, 0.001, "g/mL", "run file")
-    props.add("mixture.specific_heat_capacity", 3.960, 0.010, "J/(g*K)", "run file")
+    stated = {
+        "acid.density": (1.016, 0.001),
+        "base.density": (1.040, 0.001),
+        "mixture.specific_heat_capacity": (3.960, 0.010),
+    }
     T_A = 295.15  # 22.00 °C: acid at mixing
-    ms = build_model(spec, _dt(6.500, T_A), props)
-    g = propagate(ms.inputs, ms.model, ms.main)
+    ms, g = _propagated(NEUT, _dt(6.500, T_A), stated)
     # By hand: m_a = 50.00·1.016 = 50.80 g; m_b = 50.00·1.040 = 52.00 g;
     # C_final = (50.80 + 52.00)·3.960 + 20.0 = 407.088 + 20.0 = 427.088 J/K
     # heat = C_final·ΔT + m_b·c·(T_A − T_B) = 427.088·6.500 + 52.00·3.960·(22.00 − 22.50)
@@ -80,12 +91,8 @@ specific_heat_capacity = "4.181 ± 0.002 J/(g*K)"
 
 
 def test_electrical_calibration_by_hand():
-    spec = parse_run(ELEC, source="e.toml")
-    props = RunProperties()
-    props.add("water.density", 0.9978, 0.0002, "g/mL", "run file")
-    props.add("mixture.specific_heat_capacity", 4.181, 0.002, "J/(g*K)", "run file")
-    ms = build_model(spec, _dt(1.7200, 294.0), props)
-    g = propagate(ms.inputs, ms.model, ms.main)
+    stated = {"water.density": (0.9978, 0.0002), "mixture.specific_heat_capacity": (4.181, 0.002)}
+    _ms, g = _propagated(ELEC, _dt(1.7200, 294.0), stated)
     # By hand: Q = 5.000·1.0000·150.0 = 750.0 J; ε = 750.0/1.7200 = 436.0465 J/K;
     # m_w c = 99.78·4.181 = 417.18018 J/K; C_cal = 436.04651 − 417.18018 = 18.86633 J/K
     assert g.values["heat"] == pytest.approx(750.0)
@@ -128,17 +135,13 @@ def test_neutralization_counts_the_acid_start_level_once():
     with −(C_final − m_b c) = −(m_a c + C_cal): the two appearances partly cancel (common practice,
     no source; energy balance of two liquids poured together).
     """
-    spec = parse_run(NEUT, source="n.toml")
-    props = RunProperties()
-    props.add("acid.density", 1.016, 0.0, "g/mL", "run file")
-    props.add("base.density", 1.040, 0.0, "g/mL", "run file")
-    props.add("mixture.specific_heat_capacity", 3.960, 0.0, "J/(g*K)", "run file")
+    stated = {
+        "acid.density": (1.016, 0.0),
+        "base.density": (1.040, 0.0),
+        "mixture.specific_heat_capacity": (3.960, 0.0),
+    }
     T_A, T_B, dT, u = 295.15, 295.65, 6.500, 0.02
-    g = propagate(
-        build_model(spec, _start_only(dT, T_A, u), props).inputs,
-        build_model(spec, _start_only(dT, T_A, u), props).model,
-        "heat",
-    )
+    _ms, g = _propagated(NEUT, _start_only(dT, T_A, u), stated, "heat")
     rng = np.random.default_rng(20261205)
     e = rng.normal(0.0, u, 400_000)
     m_a, m_b, c, C_cal = 50.00 * 1.016, 50.00 * 1.040, 3.960, 20.0
@@ -151,17 +154,13 @@ def test_neutralization_counts_the_acid_start_level_once():
 
 def test_mixing_calibration_counts_the_cool_start_level_once():
     """Independent check: the same draw through C_cal = c_warm (T_w − T_end)/(T_end − T_c) − c_cool."""
-    spec = parse_run(MIXCAL, source="m.toml")
-    props = RunProperties()
-    for name, v in (
-        ("water.density", 0.9978),
-        ("warm_water.density", 0.9902),
-        ("mixture.specific_heat_capacity", 4.181),
-    ):
-        props.add(name, v, 0.0, "g/mL" if "density" in name else "J/(g*K)", "run file")
+    stated = {
+        "water.density": (0.9978, 0.0),
+        "warm_water.density": (0.9902, 0.0),
+        "mixture.specific_heat_capacity": (4.181, 0.0),
+    }
     T_c, dT, u = 295.15, 10.80, 0.02
-    ms = build_model(spec, _start_only(dT, T_c, u), props)
-    g = propagate(ms.inputs, ms.model, ms.main)
+    _ms, g = _propagated(MIXCAL, _start_only(dT, T_c, u), stated)
     rng = np.random.default_rng(20261206)
     e = rng.normal(0.0, u, 400_000)
     c = 4.181

@@ -21,8 +21,12 @@ from calc.cli.commands import cli
 from calc.errors import InputError
 from calc.plan import plan_run
 from calc.simulation.simulator import simulate_dissolution, simulate_neutralization, write_run
+from tests.calc.plan_args import KCL_DISSOLUTION
 
 T_ROOM = 294.65  # 21.5 °C
+#: how the KCl runs are planned and then simulated: a reading a second, 180 s before mixing and 900 s after,
+#: the salt releasing its heat over about 30 s and the probe following within 5 s
+TIMING = {"interval": 1.0, "fore": 180.0, "after": 900.0, "release_time": 30.0, "probe_time": 5.0}
 
 
 def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: float = 0.005, **kw):
@@ -35,11 +39,7 @@ def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: flo
         thermometer_resolution=q,
         thermometer_noise=sigma,
         temperature=T_ROOM,
-        interval=1.0,
-        fore=180.0,
-        after=900.0,
-        release_time=30.0,
-        probe_time=5.0,
+        **TIMING,
         **kw,
     )
 
@@ -58,17 +58,17 @@ def _simulated_dissolutions(plan, tmp_path, *, mass, u_cal, q, sigma, runs):
             molar_enthalpy_kJ_mol=plan.predicted_result,
             solute_mass_g=mass,
             water_volume_mL=100.0,
-            tau_r=30.0,
+            tau_r=TIMING["release_time"],
             water_density=rho[0],
             mixture_cp=cp[0],
             c_cal=15.0,
-            tau_s=5.0,
+            tau_s=TIMING["probe_time"],
             t_initial_C=t0,
             noise=sigma,
             resolution=q,
-            fore_s=180.0,
-            after_s=900.0,
-            dt=1.0,
+            fore_s=TIMING["fore"],
+            after_s=TIMING["after"],
+            dt=TIMING["interval"],
             perturb_inputs=True,
             uncertainties={
                 "volume_mL": 0.1,
@@ -277,71 +277,42 @@ def test_the_limiting_equipment_follows_the_largest_share():
     assert any("more than 20 %" in w for w in poor_cal.warnings)
 
 
-def test_plan_errors_name_the_input():
+#: a dissolution plan_run accepts but for its molar enthalpy (it has no reference value for glucose)
+GLUCOSE = dict(
+    formula="C6H12O6",
+    mass="3.00 ± 0.01 g",
+    water_volume="100.0 ± 0.1 mL",
+    calorimeter_heat_capacity="15 ± 2 J/K",
+    thermometer_resolution=0.01,
+)
+
+
+@pytest.mark.parametrize(
+    ("change", "field"),
+    [
+        ({}, "molar_enthalpy"),
+        ({"formula": "KCl", "mass": "3 mL"}, "mass"),
+        ({"formula": "KCl", "thermometer_resolution": -0.01}, "thermometer_resolution"),
+    ],
+    ids=["no-reference-enthalpy", "mass-in-mL", "negative-resolution"],
+)
+def test_plan_errors_name_the_input(change, field):
     with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="C6H12O6",
-            mass="3.00 ± 0.01 g",
-            water_volume="100.0 ± 0.1 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=0.01,
-        )
-    assert err.value.field == "molar_enthalpy"
-    given = plan_run(
-        "dissolution",
-        formula="C6H12O6",
-        mass="3.00 ± 0.01 g",
-        water_volume="100.0 ± 0.1 mL",
-        calorimeter_heat_capacity="15 ± 2 J/K",
-        thermometer_resolution=0.01,
-        molar_enthalpy=11.0,
-    )
+        plan_run("dissolution", **{**GLUCOSE, **change})
+    assert err.value.field == field
+
+
+def test_plan_takes_a_molar_enthalpy_it_has_no_reference_for():
+    given = plan_run("dissolution", **GLUCOSE, molar_enthalpy=11.0)
     assert given.predicted_result == pytest.approx(11.0)
-    with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="KCl",
-            mass="3 mL",
-            water_volume="100 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=0.01,
-        )
-    assert err.value.field == "mass"
+
+
+def test_plan_refuses_a_kind_it_cannot_plan():
     with pytest.raises(InputError, match="cannot plan"):
         plan_run("titration", calorimeter_heat_capacity="15 ± 2 J/K", thermometer_resolution=0.01)
-    with pytest.raises(InputError) as err:
-        plan_run(
-            "dissolution",
-            formula="KCl",
-            mass="3 g",
-            water_volume="100 mL",
-            calorimeter_heat_capacity="15 ± 2 J/K",
-            thermometer_resolution=-0.01,
-        )
-    assert err.value.field == "thermometer_resolution"
 
 
-EXAMPLE = [
-    "plan",
-    "dissolution",
-    "--formula",
-    "KCl",
-    "--mass",
-    "3.0 g",
-    "--water",
-    "100 mL",
-    "--calorimeter",
-    "18 ± 2 J/K",
-    "--resolution",
-    "0.01 K",
-    "--noise",
-    "0.005 K",
-    "--balance",
-    "0.0002 g",
-    "--glassware",
-    "0.1 mL",
-]
+EXAMPLE = [*KCL_DISSOLUTION, "--noise", "0.005 K", "--balance", "0.0002 g", "--glassware", "0.1 mL"]
 
 
 def test_cli_plan_prints_the_prediction_and_the_limiting_equipment():

@@ -7,11 +7,12 @@ Without the browser the tests skip with what to install, unless ``CUPCAL_REQUIRE
 
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
 import tempfile
 import threading
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -46,9 +47,12 @@ def _skip_or_fail(reason: str) -> None:
     pytest.skip(reason)
 
 
-@pytest.fixture(scope="module")
-def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequest) -> Iterator[str]:
-    """Serve the notebook on 127.0.0.1 (a free port) from a migrated SQLite file with the demo lab."""
+@contextlib.contextmanager
+def demo_lab_served(
+    folder: Path, secret_key: str, *, monte_carlo_trials: int, prepare: Callable[[Any], None] | None = None
+) -> Iterator[tuple[str, Any]]:
+    """Serve the notebook on 127.0.0.1 (a free port) from a migrated SQLite file in ``folder`` with the demo lab
+    (and what ``prepare`` adds to it); yield its URL and the app. Without the browser: skip (or fail)."""
     reason = _unavailable()
     if reason:
         _skip_or_fail(reason)
@@ -59,17 +63,20 @@ def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequ
     from webapp.migrate import upgrade
     from webapp.services.demo import load_demo
 
-    folder = tmp_path_factory.mktemp("browser")
     url = f"sqlite:///{folder / 'notebook.sqlite3'}"
     upgrade(url)
     app = create_app(
-        {"DATABASE_URL": url, "SECRET_KEY": "browser tests", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 2000}
+        {
+            "DATABASE_URL": url,
+            "SECRET_KEY": secret_key,
+            "PASSWORD_METHOD": FAST_HASH,
+            "MONTE_CARLO_TRIALS": monte_carlo_trials,
+        }
     )
     app.instance_path = str(folder / "instance")
     session = new_session(app)
     try:
         load_demo(session, password_method=FAST_HASH, monte_carlo_trials=0)
-        prepare = getattr(request.module, "PREPARE_DEMO", None)  # a test module may add to the demo lab
         if prepare is not None:
             prepare(session)
     finally:
@@ -78,11 +85,21 @@ def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequ
     thread = threading.Thread(target=httpd.serve_forever, daemon=True)
     thread.start()
     try:
-        yield f"http://127.0.0.1:{httpd.server_port}"
+        yield f"http://127.0.0.1:{httpd.server_port}", app
     finally:
         httpd.shutdown()
         thread.join(10)
         get_engine(app).dispose()
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory: pytest.TempPathFactory, request: pytest.FixtureRequest) -> Iterator[str]:
+    """Serve the notebook on 127.0.0.1 (a free port) from a migrated SQLite file with the demo lab."""
+    prepare = getattr(request.module, "PREPARE_DEMO", None)  # a test module may add to the demo lab
+    with demo_lab_served(
+        tmp_path_factory.mktemp("browser"), "browser tests", monte_carlo_trials=2000, prepare=prepare
+    ) as (url, _app):
+        yield url
 
 
 @pytest.fixture(scope="module")

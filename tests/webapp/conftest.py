@@ -16,20 +16,19 @@ import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, NoReturn
 
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.postgres import PostgresServer, PostgresUnavailable, start_server
+from tests.webapp.people_helpers import FAST_HASH, add_person
+from tests.webapp.postgres import INSTALL_HINT, PostgresServer, PostgresUnavailable, find_bindir, start_server
 from webapp import create_app
 from webapp.db import get_engine, new_session
 from webapp.migrate import upgrade
 from webapp.models import Base
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
-#: a cheap scrypt cost for test accounts (the default cost is checked in test_auth)
-FAST_HASH = "scrypt:1024:8:1"
 PASSWORD = "correct horse battery"
 
 
@@ -50,9 +49,20 @@ def start_or_skip(parent: Path | None = None, wal_parent: Path | None = None) ->
     try:
         return start_server(parent, wal_parent)
     except PostgresUnavailable as exc:
-        if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
-            pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {exc}")
-        pytest.skip(str(exc))
+        skip_or_fail_without_postgres(str(exc))
+
+
+def skip_or_fail_without_postgres(reason: str) -> NoReturn:
+    """Skip with ``reason``, or fail when ``CUPCAL_REQUIRE_POSTGRES=1`` (CI must not skip PostgreSQL)."""
+    if os.environ.get("CUPCAL_REQUIRE_POSTGRES") == "1":
+        pytest.fail(f"CUPCAL_REQUIRE_POSTGRES=1 but: {reason}")
+    pytest.skip(reason)
+
+
+def require_postgres_binaries() -> None:
+    """Skip (or fail, as above) when the PostgreSQL server binaries are not installed."""
+    if find_bindir() is None:
+        skip_or_fail_without_postgres(INSTALL_HINT)
 
 
 @pytest.fixture(scope="session")
@@ -172,55 +182,17 @@ def lab(app: Any, session: Any) -> Lab:
     ``cup`` has no heat capacity yet; ``spare`` has one entered by hand.
     """
     from webapp.services.calorimeters import create_calorimeter
-    from webapp.services.people import create_group, create_person, issue_token
+    from webapp.services.people import create_group, issue_token
 
-    coord = create_person(
-        session,
-        email="coord@lab.example",
-        name="Coordinator C",
-        role="coordinator",
-        password=PASSWORD,
-        password_method=FAST_HASH,
-    )
+    coord = add_person(session, "coord@lab.example", "Coordinator C", "coordinator", password=PASSWORD)
     ga = create_group(session, coord, name="Group A")
     gb = create_group(session, coord, name="Group B")
     people = {
         "coord": coord,
-        "tech": create_person(
-            session,
-            email="tech@lab.example",
-            name="Technician T",
-            role="technician",
-            password=PASSWORD,
-            password_method=FAST_HASH,
-        ),
-        "a1": create_person(
-            session,
-            email="a1@lab.example",
-            name="Student A1",
-            role="student",
-            password=PASSWORD,
-            group=ga,
-            password_method=FAST_HASH,
-        ),
-        "a2": create_person(
-            session,
-            email="a2@lab.example",
-            name="Student A2",
-            role="student",
-            password=PASSWORD,
-            group=ga,
-            password_method=FAST_HASH,
-        ),
-        "b1": create_person(
-            session,
-            email="b1@lab.example",
-            name="Student B1",
-            role="student",
-            password=PASSWORD,
-            group=gb,
-            password_method=FAST_HASH,
-        ),
+        "tech": add_person(session, "tech@lab.example", "Technician T", "technician", password=PASSWORD),
+        "a1": add_person(session, "a1@lab.example", "Student A1", "student", password=PASSWORD, group=ga),
+        "a2": add_person(session, "a2@lab.example", "Student A2", "student", password=PASSWORD, group=ga),
+        "b1": add_person(session, "b1@lab.example", "Student B1", "student", password=PASSWORD, group=gb),
     }
     tokens = {k: issue_token(session, p, "tests")[1] for k, p in people.items()}
     cup = create_calorimeter(session, coord, name="Cup TH-07 (two nested foam cups, lid)", parts="two cups")
@@ -248,16 +220,28 @@ def without_heat_capacity(toml: str) -> str:
 def upload(
     client: Any, headers: dict[str, str], name: str, *, toml: str | None = None, csv: bytes | None = None, **fields: Any
 ) -> Any:
-    """POST a demo run (or the given texts) to /api/runs as multipart and return the response."""
+    """POST a demo run (or the given texts, sent as ``name``.toml and ``name``.csv) to /api/runs as multipart and
+    return the response."""
     import io
 
-    t, c = demo_files(name)
+    if toml is None or csv is None:
+        t, c = demo_files(name)
+        toml, csv = (t if toml is None else toml), (c if csv is None else csv)
     data: dict[str, Any] = {
-        "run_file": (io.BytesIO((toml if toml is not None else t).encode("utf-8")), f"{name}.toml"),
-        "readings": (io.BytesIO(csv if csv is not None else c), f"{name}.csv"),
+        "run_file": (io.BytesIO(toml.encode("utf-8")), f"{name}.toml"),
+        "readings": (io.BytesIO(csv), f"{name}.csv"),
         **{k: str(v) for k, v in fields.items()},
     }
     return client.post("/api/runs", data=data, headers=headers, content_type="multipart/form-data")
+
+
+def locked_after(client: Any, lab: Lab, change: dict[str, Any]) -> int:
+    """Upload the KCl demo run as student a1, PATCH ``change`` into it, lock it (a1 signs); return its id."""
+    run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
+    patched = client.patch(f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json=change)
+    assert patched.status_code == 200, patched.get_json()
+    assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
+    return int(run_id)
 
 
 def csrf_token(html: str) -> str:

@@ -79,6 +79,12 @@ def hidden(html: str, name: str) -> str:
     return m.group(1)
 
 
+def carried(html: str, *more: str) -> dict[str, str]:
+    """Return what a preview page carries into its save: the hidden ``previewed`` and ``submit_token`` fields,
+    and the ``more`` named (the packed files of a preview that is saved without sending them again)."""
+    return {name: hidden(html, name) for name in ("previewed", "submit_token", *more)}
+
+
 def field_row(html: str, html_id: str) -> str:
     """Return the HTML of one field's row (its inputs, hint and error)."""
     start = html.index(f'id="{html_id}-row"')

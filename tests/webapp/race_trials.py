@@ -26,6 +26,27 @@ DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 Caller = Callable[..., tuple[int, Any]]
 
 
+def all_past_the_check(monkeypatch: Any, module: Any, name: str, calls: list[Callable[[], Any]]) -> list[Any]:
+    """Run ``calls`` from threads of their own, each held at ``module.name`` (the write that follows a check for a
+    duplicate) until all have reached it, so that every one has passed the check before any writes; return their
+    answers in the order they finished."""
+    barrier = threading.Barrier(len(calls), timeout=30)
+    real = getattr(module, name)
+
+    def held(*args: Any, **kwargs: Any) -> Any:
+        barrier.wait()
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(module, name, held)
+    answers: list[Any] = []
+    threads = [threading.Thread(target=lambda fn=fn: answers.append(fn())) for fn in calls]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(120)
+    return answers
+
+
 def both(first: Callable[[], Any], second: Callable[[], Any]) -> tuple[Any, Any]:
     """Run two calls released together from two threads; return their answers."""
     barrier = threading.Barrier(2)

@@ -265,21 +265,8 @@ def _operations(client: Any) -> set[tuple[str, str]]:
 
 
 def _call(client: Any, lab: Any, w: dict[str, Any], method: str, path: str, who: str) -> int:
-    values = {
-        k: w[k]
-        for k in (
-            "run_id",
-            "result_id",
-            "course_id",
-            "section_id",
-            "series_id",
-            "webhook_id",
-            "calorimeter_id",
-            "group_id",
-            "calibration_id",
-            "live_id",
-        )
-    } | PATH_VALUES
+    ids = {k: v for k, v in w.items() if k.endswith("_id")}  # the ids, by the names the routes give them
+    values = ids | PATH_VALUES
     if (method, path) in FRESH:
         name, make = FRESH[(method, path)]
         values[name] = make(client, lab, w)

@@ -10,7 +10,6 @@ from __future__ import annotations
 import csv
 import io
 import re
-import threading
 import zipfile
 from collections.abc import Iterator
 from pathlib import Path
@@ -21,12 +20,11 @@ import pytest
 from tests.webapp.browser_support import (
     _click,
     _shot,
-    _skip_or_fail,
-    _unavailable,
     _wait,
     browser,  # noqa: F401  (the Chromium fixture, on this module's server)
+    demo_lab_served,
 )
-from tests.webapp.conftest import DEMO, FAST_HASH
+from tests.webapp.conftest import DEMO
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
 STUDENT = "lucan.ferreira-holt@ternhollow.example"
@@ -35,37 +33,8 @@ STUDENT = "lucan.ferreira-holt@ternhollow.example"
 @pytest.fixture(scope="module")
 def lab_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, Any]]:
     """Serve the notebook with the demo lab on 127.0.0.1; yield its URL and the app."""
-    reason = _unavailable()
-    if reason:
-        _skip_or_fail(reason)
-    from werkzeug.serving import make_server
-
-    from webapp import create_app
-    from webapp.db import get_engine, new_session
-    from webapp.migrate import upgrade
-    from webapp.services.demo import load_demo
-
-    folder = tmp_path_factory.mktemp("flows")
-    url = f"sqlite:///{folder / 'notebook.sqlite3'}"
-    upgrade(url)
-    app = create_app(
-        {"DATABASE_URL": url, "SECRET_KEY": "browser flows", "PASSWORD_METHOD": FAST_HASH, "MONTE_CARLO_TRIALS": 0}
-    )
-    app.instance_path = str(folder / "instance")
-    session = new_session(app)
-    try:
-        load_demo(session, password_method=FAST_HASH, monte_carlo_trials=0)
-    finally:
-        session.close()
-    httpd = make_server("127.0.0.1", 0, app, threaded=True)
-    thread = threading.Thread(target=httpd.serve_forever, daemon=True)
-    thread.start()
-    try:
-        yield f"http://127.0.0.1:{httpd.server_port}", app
-    finally:
-        httpd.shutdown()
-        thread.join(10)
-        get_engine(app).dispose()
+    with demo_lab_served(tmp_path_factory.mktemp("flows"), "browser flows", monte_carlo_trials=0) as served:
+        yield served
 
 
 @pytest.fixture(scope="module")

@@ -8,7 +8,6 @@ Check values:
 
 from __future__ import annotations
 
-import io
 from pathlib import Path
 from typing import Any
 
@@ -93,16 +92,7 @@ def test_calorimeter_type_sets_the_plausible_range(client: Any, session: Any, la
     made = client.post("/api/calorimeters", json={"name": "Dewar D-2", "vessel_type": "dewar"}, headers=h)
     assert made.status_code == 201 and made.get_json()["vessel_type"] == "dewar"
     toml, csv = _calibration_files(tmp_path, 133.0)
-    r = client.post(
-        "/api/runs",
-        headers=h,
-        content_type="multipart/form-data",
-        data={
-            "run_file": (io.BytesIO(toml.encode()), "dewar.toml"),
-            "readings": (io.BytesIO(csv), "dewar.csv"),
-            "monte_carlo": "0",
-        },
-    )
+    r = upload(client, h, "dewar", toml=toml, csv=csv, monte_carlo=0)
     assert r.status_code == 201, r.get_json()
     result = session.scalar(sa.select(Result).where(Result.run_id == r.get_json()["id"]))
     assert abs(result.calorimeter_heat_capacity_j_k - 133.0) < 3 * result.calorimeter_heat_capacity_j_k_std
@@ -112,16 +102,7 @@ def test_calorimeter_type_sets_the_plausible_range(client: Any, session: Any, la
         f"/api/calorimeters/{made.get_json()['id']}", json={"vessel_type": "foam-cups"}, headers={**h, "If-Match": "*"}
     )
     assert changed.status_code == 200, changed.get_json()
-    r = client.post(
-        "/api/runs",
-        headers=h,
-        content_type="multipart/form-data",
-        data={
-            "run_file": (io.BytesIO(toml.encode()), "dewar.toml"),
-            "readings": (io.BytesIO(csv), "dewar.csv"),
-            "monte_carlo": "0",
-        },
-    )
+    r = upload(client, h, "dewar", toml=toml, csv=csv, monte_carlo=0)
     result = session.scalar(sa.select(Result).where(Result.run_id == r.get_json()["id"]))
     assert "calorimeter_heat_capacity" in {c["code"] for c in result.checks}
 

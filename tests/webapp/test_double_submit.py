@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-import threading
 from typing import Any
 
 import pytest
 import sqlalchemy as sa
 
 from tests.webapp.conftest import demo_files, sign_in
-from tests.webapp.page_helpers import form_from_demo, hidden, post_form
+from tests.webapp.page_helpers import carried, form_from_demo, post_form
+from tests.webapp.race_trials import all_past_the_check
 from webapp.models import Run
 
 
@@ -17,7 +17,7 @@ def _preview(client: Any, lab: Any) -> tuple[dict[str, str], dict[str, str], byt
     _toml, csv = demo_files("diss-kcl-01")
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
-    return fields, {"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")}, csv
+    return fields, carried(html), csv
 
 
 def test_pressing_save_three_times_makes_one_run(client: Any, lab: Any, session: Any) -> None:
@@ -56,24 +56,12 @@ def test_two_saves_at_the_same_moment_make_one_run(
     for c in clients:
         sign_in(c, "a1@lab.example")
     fields, extra, csv = _preview(clients[0], lab)
-    barrier = threading.Barrier(2, timeout=30)
-    real = create_views.record_run
 
-    def both_past_the_token_check(*args: Any, **kwargs: Any) -> Any:
-        barrier.wait()  # both requests have looked for the token and found no run
-        return real(*args, **kwargs)
+    def press(c: Any) -> Any:
+        return post_form(c, "dissolution", fields, csv=csv, action="save", extra=extra)
 
-    monkeypatch.setattr(create_views, "record_run", both_past_the_token_check)
-    answers: list[Any] = []
-
-    def press(c: Any) -> None:
-        answers.append(post_form(c, "dissolution", fields, csv=csv, action="save", extra=extra))
-
-    threads = [threading.Thread(target=press, args=(c,)) for c in clients]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join(120)
+    # both requests have looked for the token and found no run before either records one
+    answers = all_past_the_check(monkeypatch, create_views, "record_run", [lambda c=c: press(c) for c in clients])
     assert [r.status_code for r in answers] == [302, 302]
     assert len({r.headers["Location"] for r in answers}) == 1
     assert session.scalar(sa.select(sa.func.count()).select_from(Run)) == 1

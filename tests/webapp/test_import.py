@@ -12,6 +12,7 @@ import sqlalchemy as sa
 from click.testing import CliRunner
 
 from tests.webapp.class_fixtures import make_class, simulated_run, zip_folder
+from tests.webapp.race_trials import all_past_the_check
 from webapp.models import Person, Result, Run, RunInput
 from webapp.services.errors import Invalid
 from webapp.services.imports import Limits, files_from_folder, files_from_zip, import_files
@@ -322,8 +323,6 @@ def test_the_limit_answers_413_through_the_api(client: Any, lab: Any, session: A
 def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(
     app: Any, lab: Any, session: Any, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    import threading
-
     from webapp.db import new_session
     from webapp.services import import_store
 
@@ -331,28 +330,16 @@ def test_identical_imports_at_the_same_time_both_answer_unchanged_or_stored(
     d = tmp_path / "race"
     simulated_run(d, "M01-run1", 1)
     files = files_from_folder(d)
-    barrier = threading.Barrier(2, timeout=30)
-    real = import_store.record_run
 
-    def both_past_the_hash_check(*args: Any, **kwargs: Any) -> Any:
-        barrier.wait()  # both imports have looked for the content hash and found nothing
-        return real(*args, **kwargs)
-
-    monkeypatch.setattr(import_store, "record_run", both_past_the_hash_check)
-    reports: list[Any] = []
-
-    def run() -> None:
+    def run() -> Any:
         s = new_session(app)
         try:
-            reports.append(import_files(s, s.get(Person, lab.ids["coord"]), cl.section_id, files))
+            return import_files(s, s.get(Person, lab.ids["coord"]), cl.section_id, files)
         finally:
             s.close()
 
-    threads = [threading.Thread(target=run) for _ in range(2)]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join(60)
+    # both imports have looked for the content hash and found nothing before either records the run
+    reports = all_past_the_check(monkeypatch, import_store, "record_run", [run, run])
     outcomes = sorted(r.items[0].outcome for r in reports)
     assert outcomes == ["stored", "unchanged"], [(i.outcome, i.message) for r in reports for i in r.items]
     assert _counts(session)[0] == 1

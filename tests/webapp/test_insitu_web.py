@@ -17,7 +17,7 @@ import sqlalchemy as sa
 from calc.simulation.insitu import simulate_dissolution_with_calibration
 from calc.simulation.simulator import write_run
 from tests.webapp.conftest import sign_in
-from tests.webapp.page_helpers import hidden, post_form
+from tests.webapp.page_helpers import carried, post_form
 from webapp.models import Result
 
 _MEASURED = re.compile(r"^\s*(?P<v>[^±\s]+)\s*(?:±\s*(?P<u>\S+)\s*)?(?P<unit>.*?)\s*$")
@@ -58,13 +58,8 @@ def test_form_preview_and_save(client: Any, session: Any, lab: Any, tmp_path: Pa
     preview = post_form(client, "dissolution-with-calibration", fields, csv=csv, csv_name="insitu.csv")
     html = preview.get_data(as_text=True)
     assert preview.status_code == 200 and 'value="save"' in html, html[:3000]
-    carried = {
-        "previewed": hidden(html, "previewed"),
-        "submit_token": hidden(html, "submit_token"),
-        "readings_packed": hidden(html, "readings_packed"),
-        "readings_name": hidden(html, "readings_name"),
-    }
-    r = post_form(client, "dissolution-with-calibration", fields, csv=None, action="save", extra=carried)
+    extra = carried(html, "readings_packed", "readings_name")
+    r = post_form(client, "dissolution-with-calibration", fields, csv=None, action="save", extra=extra)
     assert r.status_code in (302, 303), r.get_data(as_text=True)[:2000]
     result = session.scalar(sa.select(Result).order_by(Result.id.desc()))
     assert abs(result.molar_enthalpy_kj_mol - sim.truth.molar_enthalpy_kJ_mol) <= result.expanded_uncertainty

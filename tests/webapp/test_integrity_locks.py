@@ -9,22 +9,14 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from tests.webapp.conftest import upload
+from tests.webapp.conftest import locked_after
 from webapp.db import get_engine
 from webapp.models import AuditEntry, Result, Run
 from webapp.services.integrity import check_database
 
 
 def _locked_run(client: Any, lab: Any) -> int:
-    run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    assert (
-        client.patch(
-            f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"title": "before the lock"}
-        ).status_code
-        == 200
-    )
-    assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
-    return int(run_id)
+    return locked_after(client, lab, {"title": "before the lock"})
 
 
 def test_a_clean_database_passes_and_names_the_new_checks(client: Any, lab: Any) -> None:

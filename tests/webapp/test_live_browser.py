@@ -9,14 +9,7 @@ from typing import Any
 
 import requests
 
-from tests.webapp.browser_support import (
-    STUDENT,
-    WAIT_S,
-    _shot,
-    _sign_in,
-    browser,  # noqa: F401  (fixture)
-    server,  # noqa: F401  (fixture)
-)
+from tests.webapp.browser_support import STUDENT, WAIT_S, _shot, _sign_in, browser, server  # noqa: F401 (fixtures)
 from tests.webapp.live_helpers import batch, demo_rows, live_run_file
 
 COORDINATOR = "odile.brackwater@ternhollow.example"  # invented demo people
@@ -67,13 +60,19 @@ def _alert(d: Any, code: str, timeout: float = WAIT_S) -> str:
     )
 
 
+def _open_new_live_run(d: Any, server: str, client_key: str, query: str = "") -> int:
+    """Start a live run through the API and open its page as the demo student (signed in afresh); return its id."""
+    live = int(_api(server, "/api/live-runs", {"run_file": live_run_file(), "client_key": client_key})["id"])
+    d.delete_all_cookies()
+    _sign_in(d, server, STUDENT)
+    d.get(f"{server}/live/{live}{query}")
+    return live
+
+
 def test_the_live_page_grows_advises_stop_and_warns_of_a_stop(browser: Any, server: str) -> None:
     d = browser
     rows = demo_rows()
-    live = _api(server, "/api/live-runs", {"run_file": live_run_file(), "client_key": "browser-growing"})["id"]
-    d.delete_all_cookies()
-    _sign_in(d, server, STUDENT)
-    d.get(f"{server}/live/{live}")
+    live = _open_new_live_run(d, server, "browser-growing")
     d.execute_script("window.__sameDocument = true;")  # gone if the page reloads
     assert d.find_element("id", "live-status").text  # one plain status line from the start
     assert "eye protection" in d.find_element("css selector", "aside.cautions").text.lower()
@@ -125,10 +124,7 @@ def test_spike_and_probe_out_warnings_appear_at_once(browser: Any, server: str) 
 def test_the_page_falls_back_to_polling_and_the_room_view_shows_the_bench(browser: Any, server: str) -> None:
     d = browser
     rows = demo_rows()
-    live = _api(server, "/api/live-runs", {"run_file": live_run_file(), "client_key": "browser-poll"})["id"]
-    d.delete_all_cookies()
-    _sign_in(d, server, STUDENT)
-    d.get(f"{server}/live/{live}?poll=1")
+    live = _open_new_live_run(d, server, "browser-poll", "?poll=1")
     _until(d, "return document.getElementById('live-run').dataset.mode === 'poll';")
     _api(server, f"/api/live-runs/{live}/readings", {"readings": batch(rows, 0, 30)})
     _until(d, "return document.getElementById('live-run').dataset.seq === '29';", timeout=5)

@@ -7,7 +7,7 @@ from typing import Any
 import pytest
 import sqlalchemy as sa
 
-from tests.webapp.conftest import csrf_token, sign_in, upload
+from tests.webapp.conftest import csrf_token, locked_after, sign_in
 from webapp.models import AuditEntry, Person, Result, Run, RunInput
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.errors import RunLocked
@@ -16,15 +16,7 @@ from webapp.services.runs import reanalyze_run, update_run
 
 @pytest.fixture
 def locked_run(client: Any, lab: Any) -> int:
-    run_id = upload(client, lab.auth("a1"), "diss-kcl-01", monte_carlo=0).get_json()["id"]
-    assert (
-        client.patch(
-            f"/api/runs/{run_id}", headers={**lab.auth("a1"), "If-Match": "*"}, json={"bench": "B-2"}
-        ).status_code
-        == 200
-    )
-    assert client.post(f"/api/runs/{run_id}/lock", headers=lab.auth("a1")).status_code == 200
-    return int(run_id)
+    return locked_after(client, lab, {"bench": "B-2"})
 
 
 def _snapshot(session: Any, run_id: int) -> tuple[Any, ...]:

@@ -411,20 +411,7 @@ def _query(rule: str, w: dict[str, Any], link: str | None) -> str:
 
 def call(app: Any, lab: Any, w: dict[str, Any], method: str, rule: str, who: str, link: str | None = None) -> Any:
     """Send one route's request as ``who`` (with a signed ``link`` on the embed routes) and return the response."""
-    values = {
-        k: w[k]
-        for k in (
-            "run_id",
-            "result_id",
-            "course_id",
-            "section_id",
-            "calorimeter_id",
-            "group_id",
-            "person_id",
-            "calibration_id",
-            "live_id",
-        )
-    }
+    values = {k: v for k, v in w.items() if k.endswith("_id")}  # the ids, by the names the routes give them
     values |= PATH_VALUES.get(rule, {})
     if (method, rule) in FRESH:
         name, make = FRESH[(method, rule)]

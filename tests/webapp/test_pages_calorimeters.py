@@ -80,16 +80,20 @@ def test_a_calorimeter_never_calibrated_says_so(client: Any, lab: Any) -> None:
     assert client.get("/calorimeters/9999/history.svg").status_code == 404
 
 
+def _send(client: Any, path: str, token: str, prefix: str, **fields: str) -> Any:
+    """POST one of the calorimeter forms: its fields are named ``<prefix>-<field>``, beside the CSRF token."""
+    return client.post(path, data={"csrf_token": token, **{f"{prefix}-{k}": v for k, v in fields.items()}})
+
+
 def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: Any, session: Any) -> None:
     sign_in(client, "coord@lab.example")
-    page = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
+    spare = f"/calorimeters/{lab.spare_calorimeter_id}"
+    hc = f"{spare}/heat-capacity"
+    page = client.get(spare).get_data(as_text=True)
     token = csrf_token(page)
-    assert f"/calorimeters/{lab.spare_calorimeter_id}/edit" in page
+    assert f"{spare}/edit" in page
     # a heat capacity in the wrong unit: calc's message beside the field, nothing recorded
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-        data={"csrf_token": token, "hc-heat_capacity": "18.6 ± 2.0 J", "hc-note": ""},
-    )
+    r = _send(client, hc, token, "hc", heat_capacity="18.6 ± 2.0 J", note="")
     assert r.status_code == 400
     html = r.get_data(as_text=True)
     assert 'id="hc-heat_capacity-error"' in html and "expected a heat capacity" in html
@@ -99,72 +103,32 @@ def test_coordinators_edit_and_errors_show_next_to_the_field(client: Any, lab: A
         .where(Calibration.calorimeter_id == lab.spare_calorimeter_id)
     )
     assert n == 1
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-        data={"csrf_token": token, "hc-heat_capacity": "19.4 ± 1.5 J/K", "hc-note": "checked"},
-    )
+    r = _send(client, hc, token, "hc", heat_capacity="19.4 ± 1.5 J/K", note="checked")
     assert r.status_code == 400 and 'id="hc-measured_on-error"' in r.get_data(as_text=True)  # typed: needs a date
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/heat-capacity",
-        data={
-            "csrf_token": token,
-            "hc-heat_capacity": "19.4 ± 1.5 J/K",
-            "hc-note": "checked",
-            "hc-measured_on": "2026-11-02",
-        },
-    )
+    r = _send(client, hc, token, "hc", heat_capacity="19.4 ± 1.5 J/K", note="checked", measured_on="2026-11-02")
     assert r.status_code == 302
-    html = client.get(f"/calorimeters/{lab.spare_calorimeter_id}").get_data(as_text=True)
+    html = client.get(spare).get_data(as_text=True)
     assert "19.4 ± 1.5 J/K" in html and "in force" in html
     # renaming to a name in use: said at the name field
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-        data={
-            "csrf_token": token,
-            "edit-name": "Cup TH-07 (two nested foam cups, lid)",
-            "edit-parts": "",
-            "edit-location": "",
-        },
+    r = _send(
+        client, f"{spare}/edit", token, "edit", name="Cup TH-07 (two nested foam cups, lid)", parts="", location=""
     )
     assert r.status_code == 409 and 'id="edit-name-error"' in r.get_data(as_text=True)
     version = session.get(Calorimeter, lab.spare_calorimeter_id).version
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-        data={
-            "csrf_token": token,
-            "edit-name": "Spare cup B",
-            "edit-parts": "one cup",
-            "edit-location": "shelf 2",
-            "edit-version": str(version),
-        },
-    )
+    edit = {"parts": "one cup", "version": str(version)}
+    r = _send(client, f"{spare}/edit", token, "edit", name="Spare cup B", location="shelf 2", **edit)
     assert r.status_code == 302
     # the same form sent again with the version it was read at: someone else's change is not overwritten
-    r = client.post(
-        f"/calorimeters/{lab.spare_calorimeter_id}/edit",
-        data={
-            "csrf_token": token,
-            "edit-name": "Spare cup C",
-            "edit-parts": "one cup",
-            "edit-location": "shelf 3",
-            "edit-version": str(version),
-        },
-    )
+    r = _send(client, f"{spare}/edit", token, "edit", name="Spare cup C", location="shelf 3", **edit)
     assert r.status_code == 409 and "changed by someone else" in r.get_data(as_text=True)
     session.expire_all()
     cal = session.get(Calorimeter, lab.spare_calorimeter_id)
     assert (cal.name, cal.parts, cal.location) == ("Spare cup B", "one cup", "shelf 2")
     # adding one from the list page, with an error first
-    r = client.post("/calorimeters/", data={"csrf_token": token, "new-name": "", "new-heat_capacity": ""})
+    r = _send(client, "/calorimeters/", token, "new", name="", heat_capacity="")
     assert r.status_code == 400 and 'id="new-name-error"' in r.get_data(as_text=True)
-    r = client.post(
-        "/calorimeters/",
-        data={
-            "csrf_token": token,
-            "new-name": "Cup TH-11",
-            "new-heat_capacity": "25 ± 2 J/K",
-            "new-measured_on": "2026-12-01",
-        },
+    r = _send(
+        client, "/calorimeters/", token, "new", name="Cup TH-11", heat_capacity="25 ± 2 J/K", measured_on="2026-12-01"
     )
     assert r.status_code == 302
     assert "Cup TH-11" in client.get("/calorimeters/").get_data(as_text=True)

@@ -21,7 +21,7 @@ from calc.analysis import analyze_run
 from calc.io.quantities import Measured
 from calc.io.runfile import REQUIRED_SECTIONS, SCHEMA, parse_run
 from tests.webapp.conftest import DEMO, csrf_token, demo_files, sign_in, without_heat_capacity
-from tests.webapp.page_helpers import counts, field_row, form_from_demo, hidden, post_form
+from tests.webapp.page_helpers import carried, counts, field_row, form_from_demo, post_form
 from webapp.models import Run
 from webapp.plot_cache import plot_cache
 
@@ -166,13 +166,8 @@ def test_save_stores_the_run_file_built_from_the_fields(client: Any, lab: Any, s
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     preview = post_form(client, "dissolution", fields, csv=csv, csv_name="diss-kcl-01.csv").get_data(as_text=True)
     # save without sending the file again: the preview carries it
-    carried = {
-        "previewed": hidden(preview, "previewed"),
-        "submit_token": hidden(preview, "submit_token"),
-        "readings_packed": hidden(preview, "readings_packed"),
-        "readings_name": hidden(preview, "readings_name"),
-    }
-    r = post_form(client, "dissolution", fields, csv=None, action="save", extra=carried)
+    extra = carried(preview, "readings_packed", "readings_name")
+    r = post_form(client, "dissolution", fields, csv=None, action="save", extra=extra)
     assert r.status_code == 302, r.get_data(as_text=True)[:2000]
     run_id = int(r.headers["Location"].rsplit("/", 1)[-1])
     assert counts(session) == (1, 1)
@@ -205,14 +200,7 @@ def test_save_stores_only_what_was_previewed(client: Any, lab: Any, session: Any
     fields = form_from_demo("diss-kcl-01", lab.calorimeter_id)
     preview = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     changed = {**fields, "solute.mass": "3.80000"}
-    r = post_form(
-        client,
-        "dissolution",
-        changed,
-        csv=csv,
-        action="save",
-        extra={"previewed": hidden(preview, "previewed"), "submit_token": hidden(preview, "submit_token")},
-    )
+    r = post_form(client, "dissolution", changed, csv=csv, action="save", extra=carried(preview))
     assert r.status_code == 200
     assert "The entries changed after the last preview" in r.get_data(as_text=True)
     r = post_form(client, "dissolution", fields, csv=csv, action="save")  # no preview at all
@@ -226,14 +214,7 @@ def test_the_calibration_in_force_supplies_a_blank_heat_capacity(client: Any, la
     fields = {**form_from_demo("diss-kcl-01", lab.spare_calorimeter_id), "calorimeter.heat_capacity": ""}
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "21.0 ± 3.0 J/K" in html and "Spare cup" in html  # the lab's hand-entered value, used
-    r = post_form(
-        client,
-        "dissolution",
-        fields,
-        csv=csv,
-        action="save",
-        extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")},
-    )
+    r = post_form(client, "dissolution", fields, csv=csv, action="save", extra=carried(html))
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.calibration is not None and run.calibration.heat_capacity_j_k == 21.0
@@ -273,14 +254,7 @@ def test_staff_choose_the_group_and_it_is_written_into_the_run_file(client: Any,
     }
     html = post_form(client, "dissolution", fields, csv=csv).get_data(as_text=True)
     assert "equal-area" in html and "0–200 s" in html  # the method and fore period asked for
-    r = post_form(
-        client,
-        "dissolution",
-        fields,
-        csv=csv,
-        action="save",
-        extra={"previewed": hidden(html, "previewed"), "submit_token": hidden(html, "submit_token")},
-    )
+    r = post_form(client, "dissolution", fields, csv=csv, action="save", extra=carried(html))
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()
     assert run.group_id == lab.groups["B"]
@@ -314,15 +288,8 @@ def test_upload_files_preview_then_save_exactly_as_sent(client: Any, lab: Any, s
     assert r.status_code == 200 and "Preview of the temperature readings" in html
     assert "H314" in html  # NaOH: GHS H314 (EU CLP harmonised classification, from memory)
     assert counts(session) == (0, 0)
-    data = {
-        "csrf_token": token,
-        "action": "save",
-        "previewed": hidden(html, "previewed"),
-        "submit_token": hidden(html, "submit_token"),
-    }
-    for field in ("run_file", "readings"):
-        data[f"{field}_packed"] = hidden(html, f"{field}_packed")
-        data[f"{field}_name"] = hidden(html, f"{field}_name")
+    packed = ("run_file_packed", "run_file_name", "readings_packed", "readings_name")
+    data = {"csrf_token": token, "action": "save", **carried(html, *packed)}
     r = client.post("/runs/upload", data=data, content_type="multipart/form-data")
     assert r.status_code == 302
     run = session.scalars(sa.select(Run)).one()

@@ -51,17 +51,24 @@ def test_function_lengths_are_measured_from_def_to_the_last_line() -> None:
     assert function_lengths(src) == {"f": 5, "m": 2}
 
 
+def _assert_within(
+    sizes: dict[str, int], limit: int, listed: dict[str, tuple[int, str]], what: str, table: str
+) -> None:
+    """Nothing over ``limit`` lines but what ``listed`` names; nothing listed grown or back under the limit."""
+    over = {k: n for k, n in sizes.items() if n > limit}
+    new = {k: n for k, n in over.items() if k not in listed}
+    grown = {k: n for k, n in over.items() if k in listed and n > listed[k][0]}
+    back = sorted(k for k in listed if sizes.get(k, 0) <= limit)
+    assert new == {}, f"{what} over {limit} lines: split them ({new})"
+    assert grown == {}, f"listed long {what} grew: {grown}"
+    assert back == [], f"under the limit now (or gone): remove from {table}: {back}"
+
+
 def test_no_module_over_400_lines() -> None:
     modules = _modules()
     assert len(modules) > 80  # the walk found the package
     sizes = {_name(p): len(p.read_text(encoding="utf-8").splitlines()) for p in modules}
-    over = {m: n for m, n in sizes.items() if n > MAX_MODULE_LINES}
-    new = {m: n for m, n in over.items() if m not in LONG_MODULES}
-    grown = {m: n for m, n in over.items() if m in LONG_MODULES and n > LONG_MODULES[m][0]}
-    back = sorted(m for m in LONG_MODULES if sizes.get(m, 0) <= MAX_MODULE_LINES)
-    assert new == {}, f"modules over {MAX_MODULE_LINES} lines: split them ({new})"
-    assert grown == {}, f"listed long modules grew: {grown}"
-    assert back == [], f"under the limit now (or gone): remove from LONG_MODULES: {back}"
+    _assert_within(sizes, MAX_MODULE_LINES, LONG_MODULES, "modules", "LONG_MODULES")
 
 
 def test_no_function_over_60_lines() -> None:
@@ -70,13 +77,7 @@ def test_no_function_over_60_lines() -> None:
         for p in _modules()
         for name, n in function_lengths(p.read_text(encoding="utf-8")).items()
     }
-    over = {f: n for f, n in lengths.items() if n > MAX_FUNCTION_LINES}
-    new = {f: n for f, n in over.items() if f not in LONG_FUNCTIONS}
-    grown = {f: n for f, n in over.items() if f in LONG_FUNCTIONS and n > LONG_FUNCTIONS[f][0]}
-    back = sorted(f for f in LONG_FUNCTIONS if lengths.get(f, 0) <= MAX_FUNCTION_LINES)
-    assert new == {}, f"functions over {MAX_FUNCTION_LINES} lines: split them ({new})"
-    assert grown == {}, f"listed long functions grew: {grown}"
-    assert back == [], f"under the limit now (or gone): remove from LONG_FUNCTIONS: {back}"
+    _assert_within(lengths, MAX_FUNCTION_LINES, LONG_FUNCTIONS, "functions", "LONG_FUNCTIONS")
 
 
 @pytest.mark.parametrize("table", [LONG_MODULES, LONG_FUNCTIONS])

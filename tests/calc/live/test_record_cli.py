@@ -19,7 +19,14 @@ from calc.live.devices import PROFILES
 from calc.live.recorder import HEADER, sidecar_path
 from calc.live.simthermo import SimThermometer
 from tests.calc.live.fake_notebook import FakeNotebook
-from tests.calc.live.record_helpers import readings_lost, rows, start_recorder, wait_rows
+from tests.calc.live.record_helpers import (
+    assert_the_notebook_holds_the_log,
+    finish_with_ctrl_c,
+    readings_lost,
+    rows,
+    start_recorder,
+    wait_rows,
+)
 
 
 def _invoke(*args):
@@ -169,20 +176,13 @@ def test_kill_9_loses_at_most_the_last_reading_and_a_restart_resumes_the_log_and
                 proc.send_signal(signal.SIGKILL)
                 proc.communicate(timeout=10)  # waits, and closes its pipes (not left to the collector)
                 assert readings_lost(thermo, rows(out)[before:], killed_at) <= 1
-            proc = start_recorder(out, port, *args, "--finish")
-            wait_rows(out, len(rows(out)) + 20)
-            proc.send_signal(signal.SIGINT)
-            stdout, stderr = proc.communicate(timeout=30)
+            status, stdout, stderr = finish_with_ctrl_c(out, port, *args, more_rows=20, timeout=30)
         finally:
             thermo.close()
-        assert proc.returncode == 0, stderr
-        logged = rows(out)
-        times = [float(r.split(",")[0]) for r in logged]
+        assert status == 0, stderr
+        times = [float(r.split(",")[0]) for r in rows(out)]
         assert times == sorted(times) and len(set(times)) == len(times)
         assert len(nb.runs) == 1  # every restart found the same live run by its client_key
-        run = nb.runs[1]
         assert json.loads(sidecar_path(out).read_text())["live_run_id"] == 1
-        assert [r[0] for r in run.readings] == list(range(len(logged)))
-        assert [f"{r[1]:.3f},{r[2]:.4f}" for r in run.readings] == logged
-        assert run.state == "finished" and run.csv == out.read_text()
+        assert_the_notebook_holds_the_log(nb.runs[1], out)
         assert "stored as run 1001" in stdout
