@@ -13,9 +13,9 @@ import csv
 import math
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
-from scipy.interpolate import RegularGridInterpolator
 
 from calc.errors import InputError
 from calc.refdata.arguments import non_negative
@@ -24,6 +24,9 @@ from calc.refdata.formula import element_composition
 from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
 from calc.refdata.water import R_GAS, debye_huckel_slopes
+
+if TYPE_CHECKING:
+    from scipy.interpolate import RegularGridInterpolator
 
 __all__ = [
     "WIDE_RANGE_MODEL",
@@ -106,6 +109,9 @@ _WIDE_RANGE_FILE = "phi_L_wide_range.csv"
 
 @lru_cache(maxsize=1)
 def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]]:
+    # imported here: scipy.interpolate costs 0.15–0.3 s of start-up, and most analyses never read the tables
+    from scipy.interpolate import RegularGridInterpolator
+
     with open_data(_WIDE_RANGE_FILE) as fh:
         rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
     out = {}
