@@ -24,7 +24,8 @@ from typing import SupportsFloat, cast
 
 from calc.errors import InputError
 from calc.refdata.arguments import as_number
-from calc.refdata.reference import ReferenceValue, phi_L
+from calc.refdata.dilution import phi_L
+from calc.refdata.reference_value import ReferenceValue
 
 __all__ = ["Comparison", "Verdict", "compare", "verdict", "TEMPERATURE_NOTE_K", "BASIS_LABELS"]
 

@@ -123,7 +123,8 @@ def _lookup(formula: str) -> tuple[str | None, str]:
 
 def _exothermic_note(formula: str) -> str:
     try:
-        from calc.refdata.reference import solute_formation_entry, solution_enthalpy
+        from calc.refdata.reference import solution_enthalpy
+        from calc.refdata.solutes import solute_formation_entry
 
         solid = solute_formation_entry(formula)
         if solid is None or solid.species.state != "s":

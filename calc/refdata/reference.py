@@ -22,26 +22,18 @@ from importlib import resources
 from calc.errors import InputError
 from calc.kinds import REGISTRY
 from calc.refdata.datafiles import open_data
-from calc.refdata.dilution import PhiL, phi_L
 from calc.refdata.formula import element_composition, molar_mass
-from calc.refdata.hess import citation, formation_enthalpy, hess
+from calc.refdata.hess import citation, hess
 from calc.refdata.neutralization import neutralization_reference
 from calc.refdata.reference_value import ReferenceValue, same_formula
 from calc.refdata.solutes import dissolution_products, solute_formation_entry, strip_state
 
 __all__ = [
-    "ReferenceValue",
-    "PhiL",
-    "formation_enthalpy",
     "solution_enthalpy",
     "solution_enthalpy_by_hess",
     "certified_references",
-    "neutralization_reference",
     "find_reference",
     "reference_names",
-    "phi_L",
-    "dissolution_products",
-    "solute_formation_entry",
     "tabulated_solution_enthalpies",
 ]
 

@@ -12,7 +12,9 @@ import pytest
 
 from calc.errors import InputError
 from calc.refdata.comparison import compare
-from calc.refdata.reference import ReferenceValue, find_reference, neutralization_reference, solution_enthalpy
+from calc.refdata.neutralization import neutralization_reference
+from calc.refdata.reference import find_reference, solution_enthalpy
+from calc.refdata.reference_value import ReferenceValue
 
 
 def _ref(value: float = 10.0, u: float = 0.5, **kw) -> ReferenceValue:

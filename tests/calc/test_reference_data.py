@@ -22,17 +22,16 @@ from typing import NamedTuple
 import pytest
 
 from calc.errors import InputError
-from calc.refdata.dilution import WIDE_RANGE_MODEL
+from calc.refdata.dilution import WIDE_RANGE_MODEL, phi_L
 from calc.refdata.hess import Species, formation_table, hess, parse_species
+from calc.refdata.neutralization import neutralization_reference
 from calc.refdata.reference import (
     certified_references,
-    dissolution_products,
     find_reference,
-    neutralization_reference,
-    phi_L,
     solution_enthalpy,
     tabulated_solution_enthalpies,
 )
+from calc.refdata.solutes import dissolution_products
 
 # ------------------------------------------------------------------ table contents
 
