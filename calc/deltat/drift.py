@@ -52,6 +52,23 @@ def lag1_autocorrelation(resid: np.ndarray) -> float:
     return min(max(rho, 0.0), RHO_MAX)
 
 
+def pooled_lag1(*windows: np.ndarray) -> float:
+    """Return the lag-1 autocorrelation of several residual windows taken as one noise process.
+
+    Each window keeps its own mean and no pair of readings straddles two windows; the bias
+    correction of :func:`lag1_autocorrelation` uses the pooled number of readings.
+    """
+    parts = [np.asarray(w, dtype=float) for w in windows if np.size(w) >= 4]
+    centred = [w - w.mean() for w in parts]
+    den = float(sum(np.dot(w, w) for w in centred))
+    if den <= 0.0:
+        return 0.0
+    rho = float(sum(np.dot(w[:-1], w[1:]) for w in centred)) / den
+    if rho > 0.0:
+        rho += (1.0 + 3.0 * rho) / sum(w.size for w in centred)
+    return min(max(rho, 0.0), RHO_MAX)
+
+
 def inflation(rho: float) -> float:
     """Return the AR(1) variance inflation factor (1+ρ)/(1−ρ)."""
     return (1.0 + rho) / (1.0 - rho)
@@ -241,8 +258,10 @@ def _window_variances(resid: np.ndarray, n_fore: int) -> tuple[np.ndarray, float
     """Return each reading's noise variance, AR(1)-inflated per window, and the larger lag-1 autocorrelation."""
     rf = resid[:n_fore]
     ra = resid[n_fore:]
-    rho_f = lag1_autocorrelation(rf)
-    rho_a = lag1_autocorrelation(ra)
+    # one stirrer and one logger: the noise has one correlation time in both windows, and a short
+    # window's own estimate is low and scattered, so each window takes the larger of its own
+    # estimate and the pooled one (docs/methods.md §8.4)
+    rho_f = rho_a = max(lag1_autocorrelation(rf), lag1_autocorrelation(ra), pooled_lag1(rf, ra))
     # two of the four parameters belong to each window
     v_f = inflation(rho_f) * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, inflation(rho_f))
     v_a = inflation(rho_a) * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, inflation(rho_a))
