@@ -64,17 +64,13 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "get": _op(
             "List the calorimeters",
             _json(_page_of("Calorimeter"), "A page of calorimeters"),
-            400,
-            401,
+            (400, 401),
             params=_PAGE_PARAMS,
         ),
         "post": _op(
             "Add a calorimeter (coordinators)",
             _json(_ref("Calorimeter"), "The new calorimeter"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body(
                 {
@@ -92,20 +88,14 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "get": _op(
             "A calorimeter with its heat-capacity history",
             _json(_ref("Calorimeter"), "The calorimeter"),
-            401,
-            404,
+            (401, 404),
             params=_CAL_ID,
         ),
         "patch": _op(
             "Change name, parts, location or calibration interval in days, null for the notebook's "
             "default (coordinators; audited). Needs If-Match or `version` as a run's PATCH does",
             _json(_ref("Calorimeter"), "The calorimeter"),
-            400,
-            401,
-            403,
-            404,
-            409,
-            428,
+            (400, 401, 403, 404, 409, 428),
             params=_CAL_ID + [_IF_MATCH],
             body=_body(
                 {
@@ -121,8 +111,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "get": _op(
             "A calorimeter's heat-capacity history",
             _json(_list_of(_ref("Calibration")), "History"),
-            401,
-            404,
+            (401, 404),
             params=_CAL_ID,
         ),
         "post": _op(
@@ -130,11 +119,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
             "A value more than k·u from the value in force needs `confirm: true` (409 otherwise); "
             "`restart: true` says the cup itself changed",
             _json(_ref("Calibration"), "The new value"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_CAL_ID,
             status="201",
             body=_body(
@@ -153,11 +138,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "post": _op(
             "Approve a proposed calibration (technicians, coordinators): it joins the value in force",
             _json(_ref("Calibration"), "The calibration"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=[_id("calibration_id")],
             body={
                 "required": False,
@@ -187,11 +168,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
                 },
                 "The calibration",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=[_id("calibration_id")],
             body=_body({"reason": {"type": "string"}}, ["reason"]),
         )
@@ -200,8 +177,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "get": _op(
             "The runs whose C_cal came from this calibration or a pooled value that held it",
             _json(_list_of({"type": "object"}), "Runs"),
-            401,
-            404,
+            (401, 404),
             params=[_id("calibration_id")],
         )
     },
@@ -220,10 +196,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
                 },
                 "What was done",
             ),
-            400,
-            401,
-            403,
-            404,
+            (400, 401, 403, 404),
             params=[_id("calibration_id")],
         )
     },

@@ -120,15 +120,11 @@ _SEC = [_id("section_id")]
 register(
     {
         "/api/sections": {
-            "get": _op("List the sections you may see", _json(_list_of(_ref("Section")), "Sections"), 401),
+            "get": _op("List the sections you may see", _json(_list_of(_ref("Section")), "Sections"), (401,)),
             "post": _op(
                 "Add a section to a course (coordinators)",
                 _json(_ref("Section"), "The new section"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 status="201",
                 body=_body({"course_id": {"type": "integer"}, "name": {"type": "string"}}, ["course_id", "name"]),
             ),
@@ -137,11 +133,7 @@ register(
             "post": _op(
                 "Add a bench: calorimeter and thermometer (coordinators)",
                 _json(_ref("Bench"), "The new bench"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 params=_SEC,
                 status="201",
                 body=_body(
@@ -159,9 +151,7 @@ register(
             "post": _op(
                 "Import a roster CSV (coordinators; all rows or none)",
                 _json(_OBJ, "People, courses, sections and groups created"),
-                400,
-                401,
-                403,
+                (400, 401, 403),
                 status="201",
                 body={
                     "required": True,
@@ -183,11 +173,7 @@ register(
             "post": _op(
                 "Import a zip of run files and logs into a section; a report per file",
                 _json(_ref("ImportReport"), "The report"),
-                400,
-                401,
-                403,
-                404,
-                413,
+                (400, 401, 403, 404, 413),
                 params=_SEC,
                 body={
                     "required": True,
@@ -219,9 +205,7 @@ register(
             "get": _op(
                 "The class dashboard of a section (flags, statistics, feedback, series)",
                 _json(_ref("Dashboard"), "The dashboard"),
-                400,
-                401,
-                404,
+                (400, 401, 404),
                 params=_SEC + _SORT,
             )
         },
@@ -229,10 +213,7 @@ register(
             "get": _op(
                 "The class dashboard of a course (coordinators, technicians)",
                 _json(_ref("Dashboard"), "The dashboard"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 params=[_id("course_id")] + _SORT,
             )
         },
@@ -240,9 +221,7 @@ register(
             "post": _op(
                 "Store a named series of repeat runs (coordinators)",
                 _json(_ref("SeriesSummary"), "The series"),
-                400,
-                401,
-                403,
+                (400, 401, 403),
                 status="201",
                 body=_body(
                     {
@@ -258,8 +237,7 @@ register(
             "get": _op(
                 "A series with its statistics",
                 _json(_ref("SeriesSummary"), "The series"),
-                401,
-                404,
+                (401, 404),
                 params=[_id("series_id")],
             )
         },
@@ -267,9 +245,7 @@ register(
             "get": _op(
                 "Control chart of a check standard and the calibration due date",
                 _json(_ref("ControlChart"), "The chart"),
-                400,
-                401,
-                404,
+                (400, 401, 404),
                 params=[
                     _id("calorimeter_id"),
                     {"name": "standard", "in": "query", "schema": {"type": "string"}},
@@ -281,8 +257,7 @@ register(
             "post": _op(
                 "Plan a run: predicted ΔT, u(ΔH), budget by equipment, suggestion, cautions",
                 _json(_OBJ, "The plan"),
-                400,
-                401,
+                (400, 401),
                 body=_body(
                     {
                         "kind": {

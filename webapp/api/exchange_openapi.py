@@ -68,9 +68,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
             "html (printable report), pdf (the printable report as PDF), ro-crate (RO-Crate 1.1 zip) "
             "or eln (an .eln archive)",
             {"description": "The export", "content": _FILE},
-            400,
-            401,
-            404,
+            (400, 401, 404),
             params=_RUN_ID
             + [
                 {
@@ -90,9 +88,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
                 "description": "The export",
                 "content": {k: _FILE[k] for k in ("text/csv", "application/zip", "application/vnd.eln+zip")},
             },
-            400,
-            401,
-            404,
+            (400, 401, 404),
             params=[
                 {
                     "name": "run_ids",
@@ -109,11 +105,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "post": _op(
             "Import a run package (our JSON export or RO-Crate zip) as a new run; write scope",
             _json(_ref("Run"), "The new run"),
-            400,
-            401,
-            403,
-            409,
-            413,
+            (400, 401, 403, 409, 413),
             status="201",
             body={
                 "required": True,
@@ -142,25 +134,21 @@ EXCHANGE_PATHS: dict[str, Any] = {
                 },
                 "The link",
             ),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_RUN_ID,
         )
     },
     "/api/tokens": {
         "get": _op(
-            "Your API tokens with scope and last use (never the secrets)", _json(_list_of(_TOKEN), "Tokens"), 401
+            "Your API tokens with scope and last use (never the secrets)", _json(_list_of(_TOKEN), "Tokens"), (401,)
         )
     },
     "/api/webhooks": {
-        "get": _op("The active webhooks (coordinators)", _json(_list_of(_HOOK), "Webhooks"), 401, 403),
+        "get": _op("The active webhooks (coordinators)", _json(_list_of(_HOOK), "Webhooks"), (401, 403)),
         "post": _op(
             "Add a webhook (coordinators); the signing secret is returned once",
             _json(_HOOK, "The new webhook"),
-            400,
-            401,
-            403,
+            (400, 401, 403),
             status="201",
             body=_body({"url": {"type": "string"}}, ["url"]),
         ),
@@ -169,9 +157,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "delete": _op(
             "Remove a webhook (coordinators); its delivery log is kept",
             {"description": "Removed"},
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_HOOK_ID,
             status="204",
         )
@@ -180,9 +166,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "get": _op(
             "A webhook's delivery log, newest first (coordinators)",
             _json(_list_of(_DELIVERY), "Deliveries"),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_HOOK_ID,
         )
     },
@@ -218,9 +202,7 @@ EXCHANGE_PATHS.update(
             "get": _op(
                 "A section's runs as an .eln archive (one experiment folder per run)",
                 _ELN,
-                401,
-                403,
-                404,
+                (401, 403, 404),
                 params=[_id("section_id")],
             )
         },
@@ -228,23 +210,19 @@ EXCHANGE_PATHS.update(
             "get": _op(
                 "A calorimeter with its calibrations and calibration runs as an .eln archive",
                 _ELN,
-                401,
-                404,
+                (401, 404),
                 params=[_id("calorimeter_id")],
             )
         },
         "/api/notebook/export.eln": {
-            "get": _op("Every calorimeter and every run you may see as an .eln archive", _ELN, 401)
+            "get": _op("Every calorimeter and every run you may see as an .eln archive", _ELN, (401,))
         },
         "/api/eln-imports": {
             "post": _op(
                 "Import an .eln archive (coordinators, technicians); a report of every file. A refused archive "
                 "(400) stores nothing; write scope",
                 _json(_REPORT, "The report"),
-                400,
-                401,
-                403,
-                413,
+                (400, 401, 403, 413),
                 params=[
                     {
                         "name": "name",

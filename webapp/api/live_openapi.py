@@ -47,10 +47,7 @@ LIVE_PATHS: dict[str, Any] = {
             "Start a live run (scope live or write). Idempotent on client_key: the same key again answers "
             "200 with the same id and its last_seq, so a restarted recorder resumes",
             _json(_CREATED, "The live run (201 new, 200 resumed)"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body(
                 {
@@ -69,9 +66,7 @@ LIVE_PATHS: dict[str, Any] = {
         "get": _op(
             "A live run: state, readings count, the latest advice",
             _json(_LIVE, "The live run"),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_LIVE_ID,
         )
     },
@@ -83,12 +78,7 @@ LIVE_PATHS: dict[str, Any] = {
                 {"type": "object", "properties": {"stored": {"type": "integer"}, "last_seq": {"type": "integer"}}},
                 "Stored",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
-            413,
+            (400, 401, 403, 404, 409, 413),
             params=_LIVE_ID,
             body=_body(
                 {
@@ -110,11 +100,7 @@ LIVE_PATHS: dict[str, Any] = {
                 {"type": "object", "properties": {"run_id": {"type": "integer"}, "run_url": {"type": "string"}}},
                 "The run",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_LIVE_ID,
             body=_body({"readings_csv": {"type": "string"}}),
         )
@@ -123,10 +109,7 @@ LIVE_PATHS: dict[str, Any] = {
         "put": _op(
             "Set the live run's target U (null: the section's default, else the advisor's)",
             _json(_LIVE, "The live run"),
-            400,
-            401,
-            403,
-            404,
+            (400, 401, 403, 404),
             params=_LIVE_ID,
             body=_TARGET,
         )
@@ -141,10 +124,7 @@ LIVE_PATHS: dict[str, Any] = {
                 },
                 "The section's target",
             ),
-            400,
-            401,
-            403,
-            404,
+            (400, 401, 403, 404),
             params=[_id("section_id")],
             body=_TARGET,
         )

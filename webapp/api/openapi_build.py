@@ -27,7 +27,8 @@ def _id(name: str) -> dict[str, Any]:
 def _op(
     summary: str,
     ok: dict[str, Any],
-    *codes: int,
+    codes: tuple[int, ...] = (),
+    *,
     params: list[dict[str, Any]] | None = None,
     body: dict[str, Any] | None = None,
     status: str = "200",

@@ -128,11 +128,7 @@ register(
             "post": _op(
                 "Withdraw, restore, exclude, include, accept or unaccept a run, with a reason (audited)",
                 _json(_OBJ, "What is now decided on the run"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 params=_RUN,
                 body=_body(
                     {"action": {"type": "string", "enum": list(ACTIONS)}, "reason": {"type": "string"}},
@@ -141,14 +137,11 @@ register(
             )
         },
         "/api/runs/{run_id}/comments": {
-            "get": _op("The comments on a run", _json(_OBJ, "The comments"), 401, 404, params=_RUN),
+            "get": _op("The comments on a run", _json(_OBJ, "The comments"), (401, 404), params=_RUN),
             "post": _op(
                 "Comment on a run (staff)",
                 _json(_OBJ, "The comment"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 status="201",
                 params=_RUN,
                 body=_body({"body": {"type": "string"}}, ["body"]),
@@ -158,10 +151,7 @@ register(
             "post": _op(
                 "Comment on a group's work (staff)",
                 _json(_OBJ, "The comment"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 status="201",
                 params=[_id("group_id")],
                 body=_body({"body": {"type": "string"}}, ["body"]),
@@ -171,23 +161,17 @@ register(
             "put": _op(
                 "Set a run's mark by hand, or clear it (points null), with a reason (staff)",
                 _json(_OBJ, "What is now decided on the run"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 params=_RUN,
                 body=_body({"points": {"type": ["number", "null"]}, "reason": {"type": "string"}}, ["reason"]),
             )
         },
         "/api/sections/{section_id}/marking-scheme": {
-            "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), 401, 404, params=[_id("section_id")]),
+            "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), (401, 404), params=[_id("section_id")]),
             "put": _op(
                 "Set a section's marking scheme (coordinators)",
                 _json(_OBJ, "The scheme"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 params=[_id("section_id")],
                 body=_body({"en": {"type": "string"}, "relative": {"type": "string"}}, ["en", "relative"]),
             ),

@@ -178,8 +178,7 @@ RUN_PATHS: dict[str, Any] = {
         "get": _op(
             "List the runs you may see, newest first",
             _json(_page_of("RunSummary"), "A page of runs"),
-            400,
-            401,
+            (400, 401),
             params=_PAGE_PARAMS
             + [
                 {"name": "kind", "in": "query", "schema": {"type": "string"}},
@@ -190,28 +189,19 @@ RUN_PATHS: dict[str, Any] = {
         "post": _op(
             "Record and analyze a run from its run file and readings",
             _json(_ref("Run"), "The new run"),
-            400,
-            401,
-            403,
-            409,
-            413,
+            (400, 401, 403, 409, 413),
             body=_UPLOAD,
             status="201",
         ),
     },
     "/api/runs/{run_id}": {
-        "get": _op("A run with its inputs and results", _json(_ref("Run"), "The run"), 401, 404, params=_RUN_ID),
+        "get": _op("A run with its inputs and results", _json(_ref("Run"), "The run"), (401, 404), params=_RUN_ID),
         "patch": _op(
             "Change a run's details (audited). Say which version you change: If-Match with the ETag "
             "(or `version` in the body; If-Match: * overwrites on purpose). A stale version gets 409 "
             "with `current`; none at all gets 428",
             _json(_ref("Run"), "The run"),
-            400,
-            401,
-            403,
-            404,
-            409,
-            428,
+            (400, 401, 403, 404, 409, 428),
             params=_RUN_ID + [_IF_MATCH],
             body=_body(
                 {k: {"type": "string"} for k in ("title", "operator", "bench", "performed_on", "notes")}
@@ -223,11 +213,7 @@ RUN_PATHS: dict[str, Any] = {
         "post": _op(
             "Analyze again (the old result is kept); with If-Match (or `version`) only that version",
             _json(_ref("Result"), "The new result"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
             status="201",
             body={
@@ -242,7 +228,10 @@ RUN_PATHS: dict[str, Any] = {
     },
     "/api/runs/{run_id}/results": {
         "get": _op(
-            "A run's results, oldest first", _json(_list_of(_ref("ResultSummary")), "Results"), 401, 404, params=_RUN_ID
+            "A run's results, oldest first",
+            _json(_list_of(_ref("ResultSummary")), "Results"),
+            (401, 404),
+            params=_RUN_ID,
         )
     },
     "/api/runs/{run_id}/lock": {
@@ -250,11 +239,7 @@ RUN_PATHS: dict[str, Any] = {
             "Lock (sign) a run: its author or a coordinator. The answer names the result and the content "
             "hash it signed; with If-Match (or `version`) only that version is signed (409 otherwise)",
             _json(_ref("Run"), "The locked run"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
             body={
                 "required": False,
@@ -266,7 +251,10 @@ RUN_PATHS: dict[str, Any] = {
     },
     "/api/runs/{run_id}/audit": {
         "get": _op(
-            "The changes made to a run", _json(_list_of(_ref("AuditEntry")), "Audit entries"), 401, 404, params=_RUN_ID
+            "The changes made to a run",
+            _json(_list_of(_ref("AuditEntry")), "Audit entries"),
+            (401, 404),
+            params=_RUN_ID,
         )
     },
     "/api/runs/{run_id}/series": {
@@ -282,8 +270,7 @@ RUN_PATHS: dict[str, Any] = {
                 },
                 "Series",
             ),
-            401,
-            404,
+            (401, 404),
             params=_RUN_ID,
         )
     },
@@ -297,9 +284,7 @@ RUN_PATHS: dict[str, Any] = {
                     "text/csv": {"schema": {"type": "string"}},
                 },
             },
-            400,
-            401,
-            404,
+            (400, 401, 404),
             params=_RUN_ID
             + [
                 {
@@ -315,8 +300,7 @@ RUN_PATHS: dict[str, Any] = {
         "get": _op(
             "A result with every output, budget and provenance",
             _json(_ref("Result"), "The result"),
-            401,
-            404,
+            (401, 404),
             params=[_id("result_id")],
         )
     },
