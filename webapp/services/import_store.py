@@ -140,11 +140,7 @@ def import_one(
         if existing is not None:
             return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
         base = posixpath.basename(path)
-        m = maps.get(base)
-        if m is not None:
-            group, bench = _mapped(session, path, m, groups, benches, section_name, maker)
-        else:
-            group, bench = _named(session, path, text, groups, section_name, maker), None
+        group, bench = _placed(session, path, text, maps.get(base), groups, benches, section_name, maker)
         upload = RunUpload(
             run_toml=text,
             run_file_name=base,
@@ -242,56 +238,42 @@ def _run_text(path: str, files: dict[str, bytes], used: set[str]) -> tuple[str, 
     return text, rpath
 
 
-def _mapped(
+def _placed(
     session: so.Session,
     path: str,
-    m: Mapping,
+    text: str,
+    m: Mapping | None,
     groups: dict[str, Group],
     benches: dict[str, Bench],
     section_name: str,
     maker: GroupMaker | None,
 ) -> tuple[Group, Bench | None]:
-    """Return the group and bench the mapping CSV gives a run file."""
-    group = groups.get(m.group) or (maker.make(session, m.group, path, groups) if maker else None)
-    if group is None:
-        raise Invalid(
-            f"{path}: the mapping names group {m.group!r}, which is not in section {section_name!r}", field="group"
-        )
-    bench = None
-    if m.bench:
-        bench = benches.get(m.bench)
-        if bench is None:
-            raise Invalid(
-                f"{path}: the mapping names bench {m.bench!r}, which is not in section {section_name!r}", field="bench"
-            )
-    return group, bench
-
-
-def _named(
-    session: so.Session,
-    path: str,
-    text: str,
-    groups: dict[str, Group],
-    section_name: str,
-    maker: GroupMaker | None,
-) -> Group:
-    """Return the group a run file's ``[info] group`` or its file name gives it."""
-    named = run_file_text(text, "info", "group")
-    if named is not None:
-        group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
+    """Return the group and bench of a run file: those of its row ``m`` of the mapping CSV, else the group
+    its ``[info] group`` or its file name gives it (and no bench)."""
+    if m is not None:
+        name, bench_name = m.group, m.bench
+        missing = f"{path}: the mapping names group {name!r}, which is not in section {section_name!r}"
+    else:
+        name, bench_name = run_file_text(text, "info", "group"), ""
+        missing = f"{path}, field 'info.group': group {name!r} is not in section {section_name!r}"
+    if name is not None:
+        group = groups.get(name) or (maker.make(session, name, path, groups) if maker else None)
         if group is None:
-            raise Invalid(
-                f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}", field="group"
-            )
+            raise Invalid(missing, field="group")
     else:
         group = _group_from_name(posixpath.splitext(posixpath.basename(path))[0], groups)
-    if group is None:
+        if group is None:
+            raise Invalid(
+                f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
+                f"name names a group of section {section_name!r}",
+                field="group",
+            )
+    bench = benches.get(bench_name) if bench_name else None
+    if bench_name and bench is None:
         raise Invalid(
-            f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
-            f"name names a group of section {section_name!r}",
-            field="group",
+            f"{path}: the mapping names bench {bench_name!r}, which is not in section {section_name!r}", field="bench"
         )
-    return group
+    return group, bench
 
 
 def record_with_hash(session: so.Session, actor: Person, upload: RunUpload, digest: str, bench: Bench | None) -> Run:
