@@ -12,6 +12,7 @@ from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import page_of as _page_of
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -85,12 +86,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
         ),
     },
     "/api/calorimeters/{calorimeter_id}": {
-        "get": _op(
-            "A calorimeter with its heat-capacity history",
-            _json(_ref("Calorimeter"), "The calorimeter"),
-            (401, 404),
-            params=_CAL_ID,
-        ),
+        "get": _read("A calorimeter with its heat-capacity history", _ref("Calorimeter"), "The calorimeter", _CAL_ID),
         "patch": _op(
             "Change name, parts, location or calibration interval in days, null for the notebook's "
             "default (coordinators; audited). Needs If-Match or `version` as a run's PATCH does",
@@ -108,12 +104,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
         ),
     },
     "/api/calorimeters/{calorimeter_id}/calibrations": {
-        "get": _op(
-            "A calorimeter's heat-capacity history",
-            _json(_list_of(_ref("Calibration")), "History"),
-            (401, 404),
-            params=_CAL_ID,
-        ),
+        "get": _read("A calorimeter's heat-capacity history", _list_of(_ref("Calibration")), "History", _CAL_ID),
         "post": _op(
             "Record a heat capacity measured elsewhere, with its date (technicians, coordinators). "
             "A value more than k·u from the value in force needs `confirm: true` (409 otherwise); "
@@ -140,17 +131,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
             _json(_ref("Calibration"), "The calibration"),
             (400, 401, 403, 404, 409),
             params=[_id("calibration_id")],
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {
-                        "schema": {
-                            "type": "object",
-                            "properties": {"confirm": {"type": "boolean"}, "restart": {"type": "boolean"}},
-                        }
-                    }
-                },
-            },
+            body=_body({"confirm": {"type": "boolean"}, "restart": {"type": "boolean"}}, optional=True),
         )
     },
     "/api/calibrations/{calibration_id}/withdraw": {
@@ -174,11 +155,11 @@ CALORIMETER_PATHS: dict[str, Any] = {
         )
     },
     "/api/calibrations/{calibration_id}/runs": {
-        "get": _op(
+        "get": _read(
             "The runs whose C_cal came from this calibration or a pooled value that held it",
-            _json(_list_of({"type": "object"}), "Runs"),
-            (401, 404),
-            params=[_id("calibration_id")],
+            _list_of({"type": "object"}),
+            "Runs",
+            [_id("calibration_id")],
         )
     },
     "/api/calibrations/{calibration_id}/reanalyze-runs": {

@@ -8,6 +8,7 @@ from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -234,12 +235,7 @@ register(
             )
         },
         "/api/series/{series_id}": {
-            "get": _op(
-                "A series with its statistics",
-                _json(_ref("SeriesSummary"), "The series"),
-                (401, 404),
-                params=[_id("series_id")],
-            )
+            "get": _read("A series with its statistics", _ref("SeriesSummary"), "The series", [_id("series_id")])
         },
         "/api/calorimeters/{calorimeter_id}/control": {
             "get": _op(

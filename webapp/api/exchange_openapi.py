@@ -70,14 +70,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
             {"description": "The export", "content": _FILE},
             (400, 401, 404),
             params=_RUN_ID
-            + [
-                {
-                    "name": "fmt",
-                    "in": "path",
-                    "required": True,
-                    "schema": {"type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate", "eln"]},
-                }
-            ],
+            + [_id("fmt", {"type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate", "eln"]})],
         )
     },
     "/api/exports": {

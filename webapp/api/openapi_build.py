@@ -20,8 +20,8 @@ def _errors(*codes: int) -> dict[str, Any]:
     return {str(c): {"$ref": f"#/components/responses/E{c}"} for c in codes}
 
 
-def _id(name: str) -> dict[str, Any]:
-    return {"name": name, "in": "path", "required": True, "schema": {"type": "integer"}}
+def _id(name: str, schema: dict[str, Any] | None = None) -> dict[str, Any]:
+    return {"name": name, "in": "path", "required": True, "schema": schema or {"type": "integer"}}
 
 
 def _op(
@@ -42,6 +42,11 @@ def _op(
     if public:
         op["security"] = []
     return op
+
+
+def _read(summary: str, schema: dict[str, Any], description: str, params: list[dict[str, Any]]) -> dict[str, Any]:
+    """Return a read of one thing named by its path: 401 without a token, 404 when missing or not yours."""
+    return _op(summary, _json(schema, description), (401, 404), params=params)
 
 
 _IF_MATCH = {
@@ -109,19 +114,21 @@ def _list_of(schema: dict[str, Any]) -> dict[str, Any]:
     return {"type": "object", "properties": {"items": {"type": "array", "items": schema}}}
 
 
-def _body(props: dict[str, Any], required: list[str] | None = None) -> dict[str, Any]:
+def _body(props: dict[str, Any], required: list[str] | None = None, *, optional: bool = False) -> dict[str, Any]:
+    """Return a JSON request body of these properties; with ``optional`` the call may send none."""
     schema: dict[str, Any] = {"type": "object", "properties": props}
     if required:
         schema["required"] = required
-    return {"required": True, "content": {"application/json": {"schema": schema}}}
+    return {"required": not optional, "content": {"application/json": {"schema": schema}}}
 
 
 #: the builders by their public names (the modules that document an area import these)
-schema_ref, json_response, path_param, operation, request_body, list_of, page_of = (
+schema_ref, json_response, path_param, operation, read, request_body, list_of, page_of = (
     _ref,
     _json,
     _id,
     _op,
+    _read,
     _body,
     _list_of,
     _page_of,

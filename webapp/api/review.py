@@ -11,6 +11,7 @@ from webapp.api.openapi import register
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.params import actor, as_float, json_object
 from webapp.db import get_session
@@ -137,7 +138,7 @@ register(
             )
         },
         "/api/runs/{run_id}/comments": {
-            "get": _op("The comments on a run", _json(_OBJ, "The comments"), (401, 404), params=_RUN),
+            "get": _read("The comments on a run", _OBJ, "The comments", _RUN),
             "post": _op(
                 "Comment on a run (staff)",
                 _json(_OBJ, "The comment"),
@@ -167,7 +168,7 @@ register(
             )
         },
         "/api/sections/{section_id}/marking-scheme": {
-            "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), (401, 404), params=[_id("section_id")]),
+            "get": _read("A section's marking scheme", _OBJ, "The scheme", [_id("section_id")]),
             "put": _op(
                 "Set a section's marking scheme (coordinators)",
                 _json(_OBJ, "The scheme"),

@@ -12,6 +12,7 @@ from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import page_of as _page_of
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -195,7 +196,7 @@ RUN_PATHS: dict[str, Any] = {
         ),
     },
     "/api/runs/{run_id}": {
-        "get": _op("A run with its inputs and results", _json(_ref("Run"), "The run"), (401, 404), params=_RUN_ID),
+        "get": _read("A run with its inputs and results", _ref("Run"), "The run", _RUN_ID),
         "patch": _op(
             "Change a run's details (audited). Say which version you change: If-Match with the ETag "
             "(or `version` in the body; If-Match: * overwrites on purpose). A stale version gets 409 "
@@ -216,23 +217,11 @@ RUN_PATHS: dict[str, Any] = {
             (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
             status="201",
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {
-                        "schema": {"type": "object", "properties": {**_OPTIONS_PROPS, "version": {"type": "integer"}}}
-                    }
-                },
-            },
+            body=_body({**_OPTIONS_PROPS, "version": {"type": "integer"}}, optional=True),
         ),
     },
     "/api/runs/{run_id}/results": {
-        "get": _op(
-            "A run's results, oldest first",
-            _json(_list_of(_ref("ResultSummary")), "Results"),
-            (401, 404),
-            params=_RUN_ID,
-        )
+        "get": _read("A run's results, oldest first", _list_of(_ref("ResultSummary")), "Results", _RUN_ID)
     },
     "/api/runs/{run_id}/lock": {
         "post": _op(
@@ -241,37 +230,24 @@ RUN_PATHS: dict[str, Any] = {
             _json(_ref("Run"), "The locked run"),
             (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {"schema": {"type": "object", "properties": {"version": {"type": "integer"}}}}
-                },
-            },
+            body=_body({"version": {"type": "integer"}}, optional=True),
         )
     },
     "/api/runs/{run_id}/audit": {
-        "get": _op(
-            "The changes made to a run",
-            _json(_list_of(_ref("AuditEntry")), "Audit entries"),
-            (401, 404),
-            params=_RUN_ID,
-        )
+        "get": _read("The changes made to a run", _list_of(_ref("AuditEntry")), "Audit entries", _RUN_ID)
     },
     "/api/runs/{run_id}/series": {
-        "get": _op(
+        "get": _read(
             "The parsed readings",
-            _json(
-                {
-                    "type": "object",
-                    "properties": {
-                        "time_s": {"type": "array", "items": {"type": "number"}},
-                        "temperature_K": {"type": "array", "items": {"type": "number"}},
-                    },
+            {
+                "type": "object",
+                "properties": {
+                    "time_s": {"type": "array", "items": {"type": "number"}},
+                    "temperature_K": {"type": "array", "items": {"type": "number"}},
                 },
-                "Series",
-            ),
-            (401, 404),
-            params=_RUN_ID,
+            },
+            "Series",
+            _RUN_ID,
         )
     },
     "/api/runs/{run_id}/files/{which}": {
@@ -285,23 +261,12 @@ RUN_PATHS: dict[str, Any] = {
                 },
             },
             (400, 401, 404),
-            params=_RUN_ID
-            + [
-                {
-                    "name": "which",
-                    "in": "path",
-                    "required": True,
-                    "schema": {"type": "string", "enum": ["run-file", "readings"]},
-                }
-            ],
+            params=_RUN_ID + [_id("which", {"type": "string", "enum": ["run-file", "readings"]})],
         )
     },
     "/api/results/{result_id}": {
-        "get": _op(
-            "A result with every output, budget and provenance",
-            _json(_ref("Result"), "The result"),
-            (401, 404),
-            params=[_id("result_id")],
+        "get": _read(
+            "A result with every output, budget and provenance", _ref("Result"), "The result", [_id("result_id")]
         )
     },
 }
