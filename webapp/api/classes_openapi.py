@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from webapp.api.classes import PLAN_KIND_TEXTS, PLAN_NUMBERS, PLAN_TEXTS
 from webapp.api.openapi import register
+from webapp.api.openapi_build import import_report as _report
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
@@ -38,26 +39,9 @@ register(
                 "benches": {"type": "array", "items": _ref("Bench")},
             },
         },
-        "ImportReport": {
-            "type": "object",
-            "properties": {
-                "summary": {"type": "string"},
-                "counts": {"type": "object", "additionalProperties": {"type": "integer"}},
-                "items": {
-                    "type": "array",
-                    "items": {
-                        "type": "object",
-                        "properties": {
-                            "file": {"type": "string"},
-                            "outcome": {"type": "string", "enum": ["stored", "unchanged", "error", "ignored"]},
-                            "message": {"type": "string"},
-                            "run_id": {"type": ["integer", "null"]},
-                            "group": {"type": ["string", "null"]},
-                        },
-                    },
-                },
-            },
-        },
+        "ImportReport": _report(
+            ["stored", "unchanged", "error", "ignored"], {"type": "object", "additionalProperties": {"type": "integer"}}
+        ),
         "Dashboard": {
             "type": "object",
             "properties": {

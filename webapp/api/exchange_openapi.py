@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from webapp.api.openapi import register
+from webapp.api.openapi_build import import_report as _report
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
@@ -169,26 +170,7 @@ _ELN = {
     "description": "The .eln archive",
     "content": {"application/vnd.eln+zip": {"schema": {"type": "string", "format": "binary"}}},
 }
-_REPORT = {
-    "type": "object",
-    "properties": {
-        "summary": {"type": "string"},
-        "counts": {"type": "object"},
-        "items": {
-            "type": "array",
-            "items": {
-                "type": "object",
-                "properties": {
-                    "file": {"type": "string"},
-                    "outcome": {"type": "string", "enum": ["stored", "unchanged", "used", "error", "ignored"]},
-                    "message": {"type": "string"},
-                    "run_id": {"type": ["integer", "null"]},
-                    "group": {"type": ["string", "null"]},
-                },
-            },
-        },
-    },
-}
+_REPORT = _report(["stored", "unchanged", "used", "error", "ignored"], {"type": "object"})
 EXCHANGE_PATHS.update(
     {
         "/api/sections/{section_id}/export.eln": {

@@ -110,6 +110,24 @@ def _page_of(name: str) -> dict[str, Any]:
     }
 
 
+def _report(outcomes: list[str], counts: dict[str, Any]) -> dict[str, Any]:
+    """Return the schema of an import's report: a summary, ``counts`` by outcome, and one item per file."""
+    item = {
+        "type": "object",
+        "properties": {
+            "file": {"type": "string"},
+            "outcome": {"type": "string", "enum": outcomes},
+            "message": {"type": "string"},
+            "run_id": {"type": ["integer", "null"]},
+            "group": {"type": ["string", "null"]},
+        },
+    }
+    return {
+        "type": "object",
+        "properties": {"summary": {"type": "string"}, "counts": counts, "items": {"type": "array", "items": item}},
+    }
+
+
 def _list_of(schema: dict[str, Any]) -> dict[str, Any]:
     return {"type": "object", "properties": {"items": {"type": "array", "items": schema}}}
 
@@ -123,7 +141,7 @@ def _body(props: dict[str, Any], required: list[str] | None = None, *, optional:
 
 
 #: the builders by their public names (the modules that document an area import these)
-schema_ref, json_response, path_param, operation, read, request_body, list_of, page_of = (
+schema_ref, json_response, path_param, operation, read, request_body, list_of, page_of, import_report = (
     _ref,
     _json,
     _id,
@@ -132,6 +150,7 @@ schema_ref, json_response, path_param, operation, read, request_body, list_of, p
     _body,
     _list_of,
     _page_of,
+    _report,
 )
 #: shared parameters and properties
 IF_MATCH, PAGE_PARAMS, OPTIONS_PROPS, QTY = _IF_MATCH, _PAGE_PARAMS, _OPTIONS_PROPS, _QTY
