@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from webapp.api.openapi import register
+from webapp.api.openapi_build import change as _change
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
@@ -106,25 +107,22 @@ LIVE_PATHS: dict[str, Any] = {
         )
     },
     "/api/live-runs/{live_id}/target": {
-        "put": _op(
+        "put": _change(
             "Set the live run's target U (null: the section's default, else the advisor's)",
-            _json(_LIVE, "The live run"),
-            (400, 401, 403, 404),
+            _LIVE,
+            "The live run",
             params=_LIVE_ID,
             body=_TARGET,
         )
     },
     "/api/sections/{section_id}/live-target": {
-        "put": _op(
+        "put": _change(
             "Set a section's default target U for its live runs (coordinators; null clears it)",
-            _json(
-                {
-                    "type": "object",
-                    "properties": {"section_id": {"type": "integer"}, "target_u": {"type": ["number", "null"]}},
-                },
-                "The section's target",
-            ),
-            (400, 401, 403, 404),
+            {
+                "type": "object",
+                "properties": {"section_id": {"type": "integer"}, "target_u": {"type": ["number", "null"]}},
+            },
+            "The section's target",
             params=[_id("section_id")],
             body=_TARGET,
         )

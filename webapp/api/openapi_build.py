@@ -49,6 +49,13 @@ def _read(summary: str, schema: dict[str, Any], description: str, params: list[d
     return _op(summary, _json(schema, description), (401, 404), params=params)
 
 
+def _change(
+    summary: str, schema: dict[str, Any], description: str, *, params: list[dict[str, Any]], body: dict[str, Any]
+) -> dict[str, Any]:
+    """Return a change to one thing named by its path: 400 for bad input, 401, 403 when not allowed, 404."""
+    return _op(summary, _json(schema, description), (400, 401, 403, 404), params=params, body=body)
+
+
 _IF_MATCH = {
     "name": "If-Match",
     "in": "header",
@@ -141,12 +148,13 @@ def _body(props: dict[str, Any], required: list[str] | None = None, *, optional:
 
 
 #: the builders by their public names (the modules that document an area import these)
-schema_ref, json_response, path_param, operation, read, request_body, list_of, page_of, import_report = (
+schema_ref, json_response, path_param, operation, read, change, request_body, list_of, page_of, import_report = (
     _ref,
     _json,
     _id,
     _op,
     _read,
+    _change,
     _body,
     _list_of,
     _page_of,

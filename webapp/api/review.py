@@ -8,6 +8,7 @@ from flask import jsonify
 
 from webapp.api.blueprint import bp
 from webapp.api.openapi import register
+from webapp.api.openapi_build import change as _change
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
@@ -159,20 +160,20 @@ register(
             )
         },
         "/api/runs/{run_id}/mark": {
-            "put": _op(
+            "put": _change(
                 "Set a run's mark by hand, or clear it (points null), with a reason (staff)",
-                _json(_OBJ, "What is now decided on the run"),
-                (400, 401, 403, 404),
+                _OBJ,
+                "What is now decided on the run",
                 params=_RUN,
                 body=_body({"points": {"type": ["number", "null"]}, "reason": {"type": "string"}}, ["reason"]),
             )
         },
         "/api/sections/{section_id}/marking-scheme": {
             "get": _read("A section's marking scheme", _OBJ, "The scheme", [_id("section_id")]),
-            "put": _op(
+            "put": _change(
                 "Set a section's marking scheme (coordinators)",
-                _json(_OBJ, "The scheme"),
-                (400, 401, 403, 404),
+                _OBJ,
+                "The scheme",
                 params=[_id("section_id")],
                 body=_body({"en": {"type": "string"}, "relative": {"type": "string"}}, ["en", "relative"]),
             ),
