@@ -24,6 +24,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from tests.webapp.conftest import csrf_token, sign_in, upload
+from webapp.api.classes import PLAN_KIND_TEXTS, PLAN_NUMBERS, PLAN_TEXTS
 
 TEMPLATES = Path(__file__).resolve().parents[2] / "webapp" / "templates"
 
@@ -37,7 +38,7 @@ FORM_FIELDS = sorted(
     | {"email", "password", "label", "scope", "name", "heat_capacity", "notes"}
 )
 
-#: JSON field names the API reads (and a few it does not)
+#: JSON field names the API reads (and a few it does not); the planner's from its own tables
 JSON_FIELDS = [
     "title",
     "notes",
@@ -58,27 +59,9 @@ JSON_FIELDS = [
     "run_ids",
     "url",
     "kind",
-    "thermometer_resolution",
-    "thermometer_noise",
-    "noise_correlation",
-    "balance_u",
-    "volume_u",
-    "temperature",
-    "interval",
-    "release_time",
-    "probe_time",
-    "molar_enthalpy",
-    "formula",
-    "mass",
-    "water_volume",
-    "acid",
-    "base",
-    "acid_concentration",
-    "base_concentration",
-    "acid_volume",
-    "base_volume",
-    "base_temperature",
-    "calorimeter_heat_capacity",
+    *(f for f in PLAN_NUMBERS if f not in ("fore", "after")),  # those two are named above
+    *PLAN_TEXTS,
+    *PLAN_KIND_TEXTS,
     "heat_capacity",
     "calibration_interval_days",
     "course_id",

@@ -12,6 +12,7 @@ from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import page_of as _page_of
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -64,17 +65,13 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "get": _op(
             "List the calorimeters",
             _json(_page_of("Calorimeter"), "A page of calorimeters"),
-            400,
-            401,
+            (400, 401),
             params=_PAGE_PARAMS,
         ),
         "post": _op(
             "Add a calorimeter (coordinators)",
             _json(_ref("Calorimeter"), "The new calorimeter"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body(
                 {
@@ -89,23 +86,12 @@ CALORIMETER_PATHS: dict[str, Any] = {
         ),
     },
     "/api/calorimeters/{calorimeter_id}": {
-        "get": _op(
-            "A calorimeter with its heat-capacity history",
-            _json(_ref("Calorimeter"), "The calorimeter"),
-            401,
-            404,
-            params=_CAL_ID,
-        ),
+        "get": _read("A calorimeter with its heat-capacity history", _ref("Calorimeter"), "The calorimeter", _CAL_ID),
         "patch": _op(
             "Change name, parts, location or calibration interval in days, null for the notebook's "
             "default (coordinators; audited). Needs If-Match or `version` as a run's PATCH does",
             _json(_ref("Calorimeter"), "The calorimeter"),
-            400,
-            401,
-            403,
-            404,
-            409,
-            428,
+            (400, 401, 403, 404, 409, 428),
             params=_CAL_ID + [_IF_MATCH],
             body=_body(
                 {
@@ -118,23 +104,13 @@ CALORIMETER_PATHS: dict[str, Any] = {
         ),
     },
     "/api/calorimeters/{calorimeter_id}/calibrations": {
-        "get": _op(
-            "A calorimeter's heat-capacity history",
-            _json(_list_of(_ref("Calibration")), "History"),
-            401,
-            404,
-            params=_CAL_ID,
-        ),
+        "get": _read("A calorimeter's heat-capacity history", _list_of(_ref("Calibration")), "History", _CAL_ID),
         "post": _op(
             "Record a heat capacity measured elsewhere, with its date (technicians, coordinators). "
             "A value more than k·u from the value in force needs `confirm: true` (409 otherwise); "
             "`restart: true` says the cup itself changed",
             _json(_ref("Calibration"), "The new value"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_CAL_ID,
             status="201",
             body=_body(
@@ -153,23 +129,9 @@ CALORIMETER_PATHS: dict[str, Any] = {
         "post": _op(
             "Approve a proposed calibration (technicians, coordinators): it joins the value in force",
             _json(_ref("Calibration"), "The calibration"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=[_id("calibration_id")],
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {
-                        "schema": {
-                            "type": "object",
-                            "properties": {"confirm": {"type": "boolean"}, "restart": {"type": "boolean"}},
-                        }
-                    }
-                },
-            },
+            body=_body({"confirm": {"type": "boolean"}, "restart": {"type": "boolean"}}, optional=True),
         )
     },
     "/api/calibrations/{calibration_id}/withdraw": {
@@ -187,22 +149,17 @@ CALORIMETER_PATHS: dict[str, Any] = {
                 },
                 "The calibration",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=[_id("calibration_id")],
             body=_body({"reason": {"type": "string"}}, ["reason"]),
         )
     },
     "/api/calibrations/{calibration_id}/runs": {
-        "get": _op(
+        "get": _read(
             "The runs whose C_cal came from this calibration or a pooled value that held it",
-            _json(_list_of({"type": "object"}), "Runs"),
-            401,
-            404,
-            params=[_id("calibration_id")],
+            _list_of({"type": "object"}),
+            "Runs",
+            [_id("calibration_id")],
         )
     },
     "/api/calibrations/{calibration_id}/reanalyze-runs": {
@@ -220,10 +177,7 @@ CALORIMETER_PATHS: dict[str, Any] = {
                 },
                 "What was done",
             ),
-            400,
-            401,
-            403,
-            404,
+            (400, 401, 403, 404),
             params=[_id("calibration_id")],
         )
     },

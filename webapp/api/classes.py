@@ -11,6 +11,7 @@ from webapp.api.blueprint import bp
 from webapp.api.params import actor, as_int, as_text, coordinators_only, json_object
 from webapp.db import get_session
 from webapp.imports.views import IMPORT_MAX_UPLOAD_BYTES
+from webapp.jsonfields import attrs
 from webapp.models import Bench, Section
 from webapp.services.classes import create_bench, create_section, get_section, import_roster, visible_sections
 from webapp.services.control import control_json, control_view
@@ -43,11 +44,7 @@ def section_json(s: Section) -> dict[str, Any]:
 def bench_json(b: Bench) -> dict[str, Any]:
     """Return a bench as JSON data."""
     return {
-        "id": b.id,
-        "name": b.name,
-        "section_id": b.section_id,
-        "calorimeter_id": b.calorimeter_id,
-        "thermometer": b.thermometer,
+        **attrs(b, "id", "name", "section_id", "calorimeter_id", "thermometer"),
         "thermometer_resolution_K": b.thermometer_resolution_k,
     }
 
@@ -55,13 +52,9 @@ def bench_json(b: Bench) -> dict[str, Any]:
 def dashboard_json(board: Dashboard) -> dict[str, Any]:
     """Return a dashboard as JSON data."""
     return {
-        "title": board.title,
-        "sort": board.sort,
-        "descending": board.descending,
-        "flag_counts": board.flag_counts,
+        **attrs(board, "title", "sort", "descending", "flag_counts"),
         "statistics": [dataclasses.asdict(s) for s in board.stats],
-        "feedback": board.feedback,
-        "common_feedback": board.common_feedback,
+        **attrs(board, "feedback", "common_feedback"),
         "rows": [dataclasses.asdict(r) for r in board.rows],
     }
 

@@ -4,10 +4,12 @@ from __future__ import annotations
 
 from webapp.api.classes import PLAN_KIND_TEXTS, PLAN_NUMBERS, PLAN_TEXTS
 from webapp.api.openapi import register
+from webapp.api.openapi_build import import_report as _report
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -37,26 +39,9 @@ register(
                 "benches": {"type": "array", "items": _ref("Bench")},
             },
         },
-        "ImportReport": {
-            "type": "object",
-            "properties": {
-                "summary": {"type": "string"},
-                "counts": {"type": "object", "additionalProperties": {"type": "integer"}},
-                "items": {
-                    "type": "array",
-                    "items": {
-                        "type": "object",
-                        "properties": {
-                            "file": {"type": "string"},
-                            "outcome": {"type": "string", "enum": ["stored", "unchanged", "error", "ignored"]},
-                            "message": {"type": "string"},
-                            "run_id": {"type": ["integer", "null"]},
-                            "group": {"type": ["string", "null"]},
-                        },
-                    },
-                },
-            },
-        },
+        "ImportReport": _report(
+            ["stored", "unchanged", "error", "ignored"], {"type": "object", "additionalProperties": {"type": "integer"}}
+        ),
         "Dashboard": {
             "type": "object",
             "properties": {
@@ -120,15 +105,11 @@ _SEC = [_id("section_id")]
 register(
     {
         "/api/sections": {
-            "get": _op("List the sections you may see", _json(_list_of(_ref("Section")), "Sections"), 401),
+            "get": _op("List the sections you may see", _json(_list_of(_ref("Section")), "Sections"), (401,)),
             "post": _op(
                 "Add a section to a course (coordinators)",
                 _json(_ref("Section"), "The new section"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 status="201",
                 body=_body({"course_id": {"type": "integer"}, "name": {"type": "string"}}, ["course_id", "name"]),
             ),
@@ -137,11 +118,7 @@ register(
             "post": _op(
                 "Add a bench: calorimeter and thermometer (coordinators)",
                 _json(_ref("Bench"), "The new bench"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 params=_SEC,
                 status="201",
                 body=_body(
@@ -159,9 +136,7 @@ register(
             "post": _op(
                 "Import a roster CSV (coordinators; all rows or none)",
                 _json(_OBJ, "People, courses, sections and groups created"),
-                400,
-                401,
-                403,
+                (400, 401, 403),
                 status="201",
                 body={
                     "required": True,
@@ -183,11 +158,7 @@ register(
             "post": _op(
                 "Import a zip of run files and logs into a section; a report per file",
                 _json(_ref("ImportReport"), "The report"),
-                400,
-                401,
-                403,
-                404,
-                413,
+                (400, 401, 403, 404, 413),
                 params=_SEC,
                 body={
                     "required": True,
@@ -219,9 +190,7 @@ register(
             "get": _op(
                 "The class dashboard of a section (flags, statistics, feedback, series)",
                 _json(_ref("Dashboard"), "The dashboard"),
-                400,
-                401,
-                404,
+                (400, 401, 404),
                 params=_SEC + _SORT,
             )
         },
@@ -229,10 +198,7 @@ register(
             "get": _op(
                 "The class dashboard of a course (coordinators, technicians)",
                 _json(_ref("Dashboard"), "The dashboard"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 params=[_id("course_id")] + _SORT,
             )
         },
@@ -240,9 +206,7 @@ register(
             "post": _op(
                 "Store a named series of repeat runs (coordinators)",
                 _json(_ref("SeriesSummary"), "The series"),
-                400,
-                401,
-                403,
+                (400, 401, 403),
                 status="201",
                 body=_body(
                     {
@@ -255,21 +219,13 @@ register(
             )
         },
         "/api/series/{series_id}": {
-            "get": _op(
-                "A series with its statistics",
-                _json(_ref("SeriesSummary"), "The series"),
-                401,
-                404,
-                params=[_id("series_id")],
-            )
+            "get": _read("A series with its statistics", _ref("SeriesSummary"), "The series", [_id("series_id")])
         },
         "/api/calorimeters/{calorimeter_id}/control": {
             "get": _op(
                 "Control chart of a check standard and the calibration due date",
                 _json(_ref("ControlChart"), "The chart"),
-                400,
-                401,
-                404,
+                (400, 401, 404),
                 params=[
                     _id("calorimeter_id"),
                     {"name": "standard", "in": "query", "schema": {"type": "string"}},
@@ -281,8 +237,7 @@ register(
             "post": _op(
                 "Plan a run: predicted ΔT, u(ΔH), budget by equipment, suggestion, cautions",
                 _json(_OBJ, "The plan"),
-                400,
-                401,
+                (400, 401),
                 body=_body(
                     {
                         "kind": {

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from webapp.api.openapi import register
+from webapp.api.openapi_build import import_report as _report
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
@@ -68,18 +69,9 @@ EXCHANGE_PATHS: dict[str, Any] = {
             "html (printable report), pdf (the printable report as PDF), ro-crate (RO-Crate 1.1 zip) "
             "or eln (an .eln archive)",
             {"description": "The export", "content": _FILE},
-            400,
-            401,
-            404,
+            (400, 401, 404),
             params=_RUN_ID
-            + [
-                {
-                    "name": "fmt",
-                    "in": "path",
-                    "required": True,
-                    "schema": {"type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate", "eln"]},
-                }
-            ],
+            + [_id("fmt", {"type": "string", "enum": ["json", "csv", "html", "pdf", "ro-crate", "eln"]})],
         )
     },
     "/api/exports": {
@@ -90,9 +82,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
                 "description": "The export",
                 "content": {k: _FILE[k] for k in ("text/csv", "application/zip", "application/vnd.eln+zip")},
             },
-            400,
-            401,
-            404,
+            (400, 401, 404),
             params=[
                 {
                     "name": "run_ids",
@@ -109,11 +99,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "post": _op(
             "Import a run package (our JSON export or RO-Crate zip) as a new run; write scope",
             _json(_ref("Run"), "The new run"),
-            400,
-            401,
-            403,
-            409,
-            413,
+            (400, 401, 403, 409, 413),
             status="201",
             body={
                 "required": True,
@@ -142,25 +128,21 @@ EXCHANGE_PATHS: dict[str, Any] = {
                 },
                 "The link",
             ),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_RUN_ID,
         )
     },
     "/api/tokens": {
         "get": _op(
-            "Your API tokens with scope and last use (never the secrets)", _json(_list_of(_TOKEN), "Tokens"), 401
+            "Your API tokens with scope and last use (never the secrets)", _json(_list_of(_TOKEN), "Tokens"), (401,)
         )
     },
     "/api/webhooks": {
-        "get": _op("The active webhooks (coordinators)", _json(_list_of(_HOOK), "Webhooks"), 401, 403),
+        "get": _op("The active webhooks (coordinators)", _json(_list_of(_HOOK), "Webhooks"), (401, 403)),
         "post": _op(
             "Add a webhook (coordinators); the signing secret is returned once",
             _json(_HOOK, "The new webhook"),
-            400,
-            401,
-            403,
+            (400, 401, 403),
             status="201",
             body=_body({"url": {"type": "string"}}, ["url"]),
         ),
@@ -169,9 +151,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "delete": _op(
             "Remove a webhook (coordinators); its delivery log is kept",
             {"description": "Removed"},
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_HOOK_ID,
             status="204",
         )
@@ -180,9 +160,7 @@ EXCHANGE_PATHS: dict[str, Any] = {
         "get": _op(
             "A webhook's delivery log, newest first (coordinators)",
             _json(_list_of(_DELIVERY), "Deliveries"),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_HOOK_ID,
         )
     },
@@ -192,35 +170,14 @@ _ELN = {
     "description": "The .eln archive",
     "content": {"application/vnd.eln+zip": {"schema": {"type": "string", "format": "binary"}}},
 }
-_REPORT = {
-    "type": "object",
-    "properties": {
-        "summary": {"type": "string"},
-        "counts": {"type": "object"},
-        "items": {
-            "type": "array",
-            "items": {
-                "type": "object",
-                "properties": {
-                    "file": {"type": "string"},
-                    "outcome": {"type": "string", "enum": ["stored", "unchanged", "used", "error", "ignored"]},
-                    "message": {"type": "string"},
-                    "run_id": {"type": ["integer", "null"]},
-                    "group": {"type": ["string", "null"]},
-                },
-            },
-        },
-    },
-}
+_REPORT = _report(["stored", "unchanged", "used", "error", "ignored"], {"type": "object"})
 EXCHANGE_PATHS.update(
     {
         "/api/sections/{section_id}/export.eln": {
             "get": _op(
                 "A section's runs as an .eln archive (one experiment folder per run)",
                 _ELN,
-                401,
-                403,
-                404,
+                (401, 403, 404),
                 params=[_id("section_id")],
             )
         },
@@ -228,23 +185,19 @@ EXCHANGE_PATHS.update(
             "get": _op(
                 "A calorimeter with its calibrations and calibration runs as an .eln archive",
                 _ELN,
-                401,
-                404,
+                (401, 404),
                 params=[_id("calorimeter_id")],
             )
         },
         "/api/notebook/export.eln": {
-            "get": _op("Every calorimeter and every run you may see as an .eln archive", _ELN, 401)
+            "get": _op("Every calorimeter and every run you may see as an .eln archive", _ELN, (401,))
         },
         "/api/eln-imports": {
             "post": _op(
                 "Import an .eln archive (coordinators, technicians); a report of every file. A refused archive "
                 "(400) stores nothing; write scope",
                 _json(_REPORT, "The report"),
-                400,
-                401,
-                403,
-                413,
+                (400, 401, 403, 413),
                 params=[
                     {
                         "name": "name",

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from webapp.api.openapi import register
+from webapp.api.openapi_build import change as _change
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
@@ -47,10 +48,7 @@ LIVE_PATHS: dict[str, Any] = {
             "Start a live run (scope live or write). Idempotent on client_key: the same key again answers "
             "200 with the same id and its last_seq, so a restarted recorder resumes",
             _json(_CREATED, "The live run (201 new, 200 resumed)"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body(
                 {
@@ -69,9 +67,7 @@ LIVE_PATHS: dict[str, Any] = {
         "get": _op(
             "A live run: state, readings count, the latest advice",
             _json(_LIVE, "The live run"),
-            401,
-            403,
-            404,
+            (401, 403, 404),
             params=_LIVE_ID,
         )
     },
@@ -83,12 +79,7 @@ LIVE_PATHS: dict[str, Any] = {
                 {"type": "object", "properties": {"stored": {"type": "integer"}, "last_seq": {"type": "integer"}}},
                 "Stored",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
-            413,
+            (400, 401, 403, 404, 409, 413),
             params=_LIVE_ID,
             body=_body(
                 {
@@ -110,41 +101,28 @@ LIVE_PATHS: dict[str, Any] = {
                 {"type": "object", "properties": {"run_id": {"type": "integer"}, "run_url": {"type": "string"}}},
                 "The run",
             ),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_LIVE_ID,
             body=_body({"readings_csv": {"type": "string"}}),
         )
     },
     "/api/live-runs/{live_id}/target": {
-        "put": _op(
+        "put": _change(
             "Set the live run's target U (null: the section's default, else the advisor's)",
-            _json(_LIVE, "The live run"),
-            400,
-            401,
-            403,
-            404,
+            _LIVE,
+            "The live run",
             params=_LIVE_ID,
             body=_TARGET,
         )
     },
     "/api/sections/{section_id}/live-target": {
-        "put": _op(
+        "put": _change(
             "Set a section's default target U for its live runs (coordinators; null clears it)",
-            _json(
-                {
-                    "type": "object",
-                    "properties": {"section_id": {"type": "integer"}, "target_u": {"type": ["number", "null"]}},
-                },
-                "The section's target",
-            ),
-            400,
-            401,
-            403,
-            404,
+            {
+                "type": "object",
+                "properties": {"section_id": {"type": "integer"}, "target_u": {"type": ["number", "null"]}},
+            },
+            "The section's target",
             params=[_id("section_id")],
             body=_TARGET,
         )

@@ -77,32 +77,26 @@ SCHEMAS: dict[str, Any] = {**_BASE_SCHEMAS, **CALORIMETER_SCHEMAS, **RUN_SCHEMAS
 
 _BASE_PATHS: dict[str, Any] = {
     "/api/openapi.json": {"get": _op("This document", {"description": "OpenAPI 3.1 document"}, public=True)},
-    "/api/me": {"get": _op("Who is calling", _json(_ref("Person"), "The caller"), 401)},
-    "/api/methods": {"get": _op("Corrected-ΔT methods", _json(_list_of({"type": "object"}), "Methods"), 401)},
+    "/api/me": {"get": _op("Who is calling", _json(_ref("Person"), "The caller"), (401,))},
+    "/api/methods": {"get": _op("Corrected-ΔT methods", _json(_list_of({"type": "object"}), "Methods"), (401,))},
 }
 _GROUP_PATHS: dict[str, Any] = {
     "/api/groups": {
-        "get": _op("List the groups", _json(_list_of(_ref("Group")), "Groups"), 401),
+        "get": _op("List the groups", _json(_list_of(_ref("Group")), "Groups"), (401,)),
         "post": _op(
             "Add a group (coordinators)",
             _json(_ref("Group"), "The new group"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body({"name": {"type": "string"}, "course_id": {"type": "integer"}}, ["name"]),
         ),
     },
     "/api/courses": {
-        "get": _op("List the courses", _json(_list_of(_ref("Course")), "Courses"), 401),
+        "get": _op("List the courses", _json(_list_of(_ref("Course")), "Courses"), (401,)),
         "post": _op(
             "Add a course (coordinators)",
             _json(_ref("Course"), "The new course"),
-            400,
-            401,
-            403,
-            409,
+            (400, 401, 403, 409),
             status="201",
             body=_body({"name": {"type": "string"}, "term": {"type": "string"}}, ["name"]),
         ),

@@ -20,14 +20,15 @@ def _errors(*codes: int) -> dict[str, Any]:
     return {str(c): {"$ref": f"#/components/responses/E{c}"} for c in codes}
 
 
-def _id(name: str) -> dict[str, Any]:
-    return {"name": name, "in": "path", "required": True, "schema": {"type": "integer"}}
+def _id(name: str, schema: dict[str, Any] | None = None) -> dict[str, Any]:
+    return {"name": name, "in": "path", "required": True, "schema": schema or {"type": "integer"}}
 
 
 def _op(
     summary: str,
     ok: dict[str, Any],
-    *codes: int,
+    codes: tuple[int, ...] = (),
+    *,
     params: list[dict[str, Any]] | None = None,
     body: dict[str, Any] | None = None,
     status: str = "200",
@@ -41,6 +42,18 @@ def _op(
     if public:
         op["security"] = []
     return op
+
+
+def _read(summary: str, schema: dict[str, Any], description: str, params: list[dict[str, Any]]) -> dict[str, Any]:
+    """Return a read of one thing named by its path: 401 without a token, 404 when missing or not yours."""
+    return _op(summary, _json(schema, description), (401, 404), params=params)
+
+
+def _change(
+    summary: str, schema: dict[str, Any], description: str, *, params: list[dict[str, Any]], body: dict[str, Any]
+) -> dict[str, Any]:
+    """Return a change to one thing named by its path: 400 for bad input, 401, 403 when not allowed, 404."""
+    return _op(summary, _json(schema, description), (400, 401, 403, 404), params=params, body=body)
 
 
 _IF_MATCH = {
@@ -104,26 +117,48 @@ def _page_of(name: str) -> dict[str, Any]:
     }
 
 
+def _report(outcomes: list[str], counts: dict[str, Any]) -> dict[str, Any]:
+    """Return the schema of an import's report: a summary, ``counts`` by outcome, and one item per file."""
+    item = {
+        "type": "object",
+        "properties": {
+            "file": {"type": "string"},
+            "outcome": {"type": "string", "enum": outcomes},
+            "message": {"type": "string"},
+            "run_id": {"type": ["integer", "null"]},
+            "group": {"type": ["string", "null"]},
+        },
+    }
+    return {
+        "type": "object",
+        "properties": {"summary": {"type": "string"}, "counts": counts, "items": {"type": "array", "items": item}},
+    }
+
+
 def _list_of(schema: dict[str, Any]) -> dict[str, Any]:
     return {"type": "object", "properties": {"items": {"type": "array", "items": schema}}}
 
 
-def _body(props: dict[str, Any], required: list[str] | None = None) -> dict[str, Any]:
+def _body(props: dict[str, Any], required: list[str] | None = None, *, optional: bool = False) -> dict[str, Any]:
+    """Return a JSON request body of these properties; with ``optional`` the call may send none."""
     schema: dict[str, Any] = {"type": "object", "properties": props}
     if required:
         schema["required"] = required
-    return {"required": True, "content": {"application/json": {"schema": schema}}}
+    return {"required": not optional, "content": {"application/json": {"schema": schema}}}
 
 
 #: the builders by their public names (the modules that document an area import these)
-schema_ref, json_response, path_param, operation, request_body, list_of, page_of = (
+schema_ref, json_response, path_param, operation, read, change, request_body, list_of, page_of, import_report = (
     _ref,
     _json,
     _id,
     _op,
+    _read,
+    _change,
     _body,
     _list_of,
     _page_of,
+    _report,
 )
 #: shared parameters and properties
 IF_MATCH, PAGE_PARAMS, OPTIONS_PROPS, QTY = _IF_MATCH, _PAGE_PARAMS, _OPTIONS_PROPS, _QTY

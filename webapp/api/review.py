@@ -8,9 +8,11 @@ from flask import jsonify
 
 from webapp.api.blueprint import bp
 from webapp.api.openapi import register
+from webapp.api.openapi_build import change as _change
 from webapp.api.openapi_build import json_response as _json
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.params import actor, as_float, json_object
 from webapp.db import get_session
@@ -128,11 +130,7 @@ register(
             "post": _op(
                 "Withdraw, restore, exclude, include, accept or unaccept a run, with a reason (audited)",
                 _json(_OBJ, "What is now decided on the run"),
-                400,
-                401,
-                403,
-                404,
-                409,
+                (400, 401, 403, 404, 409),
                 params=_RUN,
                 body=_body(
                     {"action": {"type": "string", "enum": list(ACTIONS)}, "reason": {"type": "string"}},
@@ -141,14 +139,11 @@ register(
             )
         },
         "/api/runs/{run_id}/comments": {
-            "get": _op("The comments on a run", _json(_OBJ, "The comments"), 401, 404, params=_RUN),
+            "get": _read("The comments on a run", _OBJ, "The comments", _RUN),
             "post": _op(
                 "Comment on a run (staff)",
                 _json(_OBJ, "The comment"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 status="201",
                 params=_RUN,
                 body=_body({"body": {"type": "string"}}, ["body"]),
@@ -158,36 +153,27 @@ register(
             "post": _op(
                 "Comment on a group's work (staff)",
                 _json(_OBJ, "The comment"),
-                400,
-                401,
-                403,
-                404,
+                (400, 401, 403, 404),
                 status="201",
                 params=[_id("group_id")],
                 body=_body({"body": {"type": "string"}}, ["body"]),
             )
         },
         "/api/runs/{run_id}/mark": {
-            "put": _op(
+            "put": _change(
                 "Set a run's mark by hand, or clear it (points null), with a reason (staff)",
-                _json(_OBJ, "What is now decided on the run"),
-                400,
-                401,
-                403,
-                404,
+                _OBJ,
+                "What is now decided on the run",
                 params=_RUN,
                 body=_body({"points": {"type": ["number", "null"]}, "reason": {"type": "string"}}, ["reason"]),
             )
         },
         "/api/sections/{section_id}/marking-scheme": {
-            "get": _op("A section's marking scheme", _json(_OBJ, "The scheme"), 401, 404, params=[_id("section_id")]),
-            "put": _op(
+            "get": _read("A section's marking scheme", _OBJ, "The scheme", [_id("section_id")]),
+            "put": _change(
                 "Set a section's marking scheme (coordinators)",
-                _json(_OBJ, "The scheme"),
-                400,
-                401,
-                403,
-                404,
+                _OBJ,
+                "The scheme",
                 params=[_id("section_id")],
                 body=_body({"en": {"type": "string"}, "relative": {"type": "string"}}, ["en", "relative"]),
             ),

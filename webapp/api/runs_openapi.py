@@ -12,6 +12,7 @@ from webapp.api.openapi_build import list_of as _list_of
 from webapp.api.openapi_build import operation as _op
 from webapp.api.openapi_build import page_of as _page_of
 from webapp.api.openapi_build import path_param as _id
+from webapp.api.openapi_build import read as _read
 from webapp.api.openapi_build import request_body as _body
 from webapp.api.openapi_build import schema_ref as _ref
 
@@ -178,8 +179,7 @@ RUN_PATHS: dict[str, Any] = {
         "get": _op(
             "List the runs you may see, newest first",
             _json(_page_of("RunSummary"), "A page of runs"),
-            400,
-            401,
+            (400, 401),
             params=_PAGE_PARAMS
             + [
                 {"name": "kind", "in": "query", "schema": {"type": "string"}},
@@ -190,28 +190,19 @@ RUN_PATHS: dict[str, Any] = {
         "post": _op(
             "Record and analyze a run from its run file and readings",
             _json(_ref("Run"), "The new run"),
-            400,
-            401,
-            403,
-            409,
-            413,
+            (400, 401, 403, 409, 413),
             body=_UPLOAD,
             status="201",
         ),
     },
     "/api/runs/{run_id}": {
-        "get": _op("A run with its inputs and results", _json(_ref("Run"), "The run"), 401, 404, params=_RUN_ID),
+        "get": _read("A run with its inputs and results", _ref("Run"), "The run", _RUN_ID),
         "patch": _op(
             "Change a run's details (audited). Say which version you change: If-Match with the ETag "
             "(or `version` in the body; If-Match: * overwrites on purpose). A stale version gets 409 "
             "with `current`; none at all gets 428",
             _json(_ref("Run"), "The run"),
-            400,
-            401,
-            403,
-            404,
-            409,
-            428,
+            (400, 401, 403, 404, 409, 428),
             params=_RUN_ID + [_IF_MATCH],
             body=_body(
                 {k: {"type": "string"} for k in ("title", "operator", "bench", "performed_on", "notes")}
@@ -223,68 +214,40 @@ RUN_PATHS: dict[str, Any] = {
         "post": _op(
             "Analyze again (the old result is kept); with If-Match (or `version`) only that version",
             _json(_ref("Result"), "The new result"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
             status="201",
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {
-                        "schema": {"type": "object", "properties": {**_OPTIONS_PROPS, "version": {"type": "integer"}}}
-                    }
-                },
-            },
+            body=_body({**_OPTIONS_PROPS, "version": {"type": "integer"}}, optional=True),
         ),
     },
     "/api/runs/{run_id}/results": {
-        "get": _op(
-            "A run's results, oldest first", _json(_list_of(_ref("ResultSummary")), "Results"), 401, 404, params=_RUN_ID
-        )
+        "get": _read("A run's results, oldest first", _list_of(_ref("ResultSummary")), "Results", _RUN_ID)
     },
     "/api/runs/{run_id}/lock": {
         "post": _op(
             "Lock (sign) a run: its author or a coordinator. The answer names the result and the content "
             "hash it signed; with If-Match (or `version`) only that version is signed (409 otherwise)",
             _json(_ref("Run"), "The locked run"),
-            400,
-            401,
-            403,
-            404,
-            409,
+            (400, 401, 403, 404, 409),
             params=_RUN_ID + [_IF_MATCH],
-            body={
-                "required": False,
-                "content": {
-                    "application/json": {"schema": {"type": "object", "properties": {"version": {"type": "integer"}}}}
-                },
-            },
+            body=_body({"version": {"type": "integer"}}, optional=True),
         )
     },
     "/api/runs/{run_id}/audit": {
-        "get": _op(
-            "The changes made to a run", _json(_list_of(_ref("AuditEntry")), "Audit entries"), 401, 404, params=_RUN_ID
-        )
+        "get": _read("The changes made to a run", _list_of(_ref("AuditEntry")), "Audit entries", _RUN_ID)
     },
     "/api/runs/{run_id}/series": {
-        "get": _op(
+        "get": _read(
             "The parsed readings",
-            _json(
-                {
-                    "type": "object",
-                    "properties": {
-                        "time_s": {"type": "array", "items": {"type": "number"}},
-                        "temperature_K": {"type": "array", "items": {"type": "number"}},
-                    },
+            {
+                "type": "object",
+                "properties": {
+                    "time_s": {"type": "array", "items": {"type": "number"}},
+                    "temperature_K": {"type": "array", "items": {"type": "number"}},
                 },
-                "Series",
-            ),
-            401,
-            404,
-            params=_RUN_ID,
+            },
+            "Series",
+            _RUN_ID,
         )
     },
     "/api/runs/{run_id}/files/{which}": {
@@ -297,27 +260,13 @@ RUN_PATHS: dict[str, Any] = {
                     "text/csv": {"schema": {"type": "string"}},
                 },
             },
-            400,
-            401,
-            404,
-            params=_RUN_ID
-            + [
-                {
-                    "name": "which",
-                    "in": "path",
-                    "required": True,
-                    "schema": {"type": "string", "enum": ["run-file", "readings"]},
-                }
-            ],
+            (400, 401, 404),
+            params=_RUN_ID + [_id("which", {"type": "string", "enum": ["run-file", "readings"]})],
         )
     },
     "/api/results/{result_id}": {
-        "get": _op(
-            "A result with every output, budget and provenance",
-            _json(_ref("Result"), "The result"),
-            401,
-            404,
-            params=[_id("result_id")],
+        "get": _read(
+            "A result with every output, budget and provenance", _ref("Result"), "The result", [_id("result_id")]
         )
     },
 }

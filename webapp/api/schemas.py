@@ -6,10 +6,10 @@ from typing import Any
 
 from flask import url_for
 
-from calc.refdata.comparison import verdict, verdict_record
-from webapp.exports.document import input_json, iso
+from webapp.exports.document import findings_json, input_json, iso, mixing_time_json, outputs_of
+from webapp.jsonfields import attrs
 from webapp.models import Calibration, Calorimeter, Course, Group, Person, Result, Run
-from webapp.quantities import RESULT_OUTPUTS, result_value
+from webapp.quantities import result_value
 from webapp.services.runs import Page
 
 
@@ -21,10 +21,7 @@ def person_ref(p: Person | None) -> dict[str, Any] | None:
 def person_json(p: Person) -> dict[str, Any]:
     """Return the signed-in person."""
     return {
-        "id": p.id,
-        "name": p.name,
-        "email": p.email,
-        "role": p.role,
+        **attrs(p, "id", "name", "email", "role"),
         "group": {"id": p.group.id, "name": p.group.name} if p.group else None,
     }
 
@@ -42,8 +39,7 @@ def course_json(c: Course) -> dict[str, Any]:
 def calibration_json(c: Calibration) -> dict[str, Any]:
     """Return one heat-capacity value of a calorimeter's history."""
     return {
-        "id": c.id,
-        "calorimeter_id": c.calorimeter_id,
+        **attrs(c, "id", "calorimeter_id"),
         "heat_capacity": {"value": c.heat_capacity_j_k, "standard_uncertainty": c.heat_capacity_j_k_std, "unit": "J/K"},
         "taken_at": iso(c.taken_at),
         "result_id": c.result_id,
@@ -96,37 +92,19 @@ def result_summary(r: Result) -> dict[str, Any]:
 
 def result_json(r: Result) -> dict[str, Any]:
     """Return a result with every output, the windows, the budget and the provenance."""
-    outputs = {}
-    for key in RESULT_OUTPUTS:
-        v = result_value(r, key)
-        if v is not None:
-            outputs[key] = {"value": v[0], "standard_uncertainty": v[1], "unit": v[2]}
     return {
         **result_summary(r),
-        "outputs": outputs,
+        "outputs": outputs_of(r),
         "dof_eff": r.dof_eff,
         "periods": {
             "fore": [r.fore_start_s, r.fore_end_s],
             "after": [r.after_start_s, r.after_end_s],
-            "mixing_time": {
-                "value": r.mixing_time_s,
-                "standard_uncertainty": r.mixing_time_s_std,
-                "unit": "s",
-                "detected": r.mixing_time_detected,
-            },
+            "mixing_time": mixing_time_json(r),
             "given": r.periods_given,
         },
-        "budget": r.budget,
-        "warnings": r.warnings,
-        "checks": r.checks,
-        "comparison": r.comparison,
-        "verdict": verdict_record(verdict(r.comparison)),
-        "cautions": r.cautions,
+        **findings_json(r),
         "construction": r.construction,
-        "properties": r.properties,
-        "monte_carlo": r.monte_carlo,
-        "record": r.record,
-        "software_version": r.software_version,
+        **attrs(r, "properties", "monte_carlo", "record", "software_version"),
         "created_by": person_ref(r.created_by),
     }
 
@@ -134,10 +112,7 @@ def result_json(r: Result) -> dict[str, Any]:
 def run_summary(run: Run, current: Result | None) -> dict[str, Any]:
     """Return a run as listed."""
     return {
-        "id": run.id,
-        "kind": run.kind,
-        "title": run.title,
-        "operator": run.operator,
+        **attrs(run, "id", "kind", "title", "operator"),
         "author": person_ref(run.author),
         "group": {"id": run.group.id, "name": run.group.name} if run.group else None,
         "bench": run.bench,

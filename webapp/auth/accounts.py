@@ -5,11 +5,13 @@ Views parse the form, call one service (:mod:`webapp.services.accounts`) and ren
 
 from __future__ import annotations
 
+import sqlalchemy.orm as so
 from flask import Response, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required, login_user
 
 from webapp.auth.blueprint import bp
 from webapp.db import get_session
+from webapp.models import Section
 from webapp.services import accounts
 from webapp.services.access import require_coordinator
 from webapp.services.classes import get_section
@@ -75,13 +77,18 @@ def password():  # type: ignore[no-untyped-def]
     )
 
 
+def _coordinated_section(section_id: int, what: str) -> tuple[so.Session, Section]:
+    """Return the session and the section, once the caller is known to be a coordinator who may ``what``."""
+    require_coordinator(current_user, what)
+    session = get_session()
+    return session, get_section(session, current_user, section_id)
+
+
 @bp.route("/sections/<int:section_id>/accounts")
 @login_required
 def section_accounts(section_id: int):  # type: ignore[no-untyped-def]
     """The accounts of a section's people (coordinators): set passwords, hand out sign-in links."""
-    require_coordinator(current_user, "manage accounts")
-    session = get_session()
-    section = get_section(session, current_user, section_id)
+    session, section = _coordinated_section(section_id, "manage accounts")
     return render_template(
         "auth/accounts.html",
         section=section,
@@ -95,9 +102,7 @@ def section_accounts(section_id: int):  # type: ignore[no-untyped-def]
 @login_required
 def section_links(section_id: int):  # type: ignore[no-untyped-def]
     """Make sign-in links for the chosen people of a section: a printable page, or CSV (``format=csv``)."""
-    require_coordinator(current_user, "hand out sign-in links")
-    session = get_session()
-    section = get_section(session, current_user, section_id)
+    session, section = _coordinated_section(section_id, "hand out sign-in links")
     chosen = {int(x) for x in request.form.getlist("person_id") if x.isdigit()}
     people = [p for p in accounts.section_people(session, section.id) if p.id in chosen]
     try:

@@ -21,6 +21,7 @@ import sqlalchemy.orm as so
 
 from calc import __version__
 from calc.refdata.comparison import verdict, verdict_record
+from webapp.jsonfields import attrs
 from webapp.models import Person, Result, Run, RunInput
 from webapp.quantities import RESULT_OUTPUTS, result_value
 from webapp.services.errors import Invalid, NotFound
@@ -40,12 +41,9 @@ def iso(value: dt.datetime | None) -> str | None:
 def input_json(i: RunInput) -> dict[str, Any]:
     """Return one measured input of a run as read from its file (value ± u in the unit written, and its origin)."""
     return {
-        "field": i.field,
-        "value": i.value,
+        **attrs(i, "field", "value"),
         "standard_uncertainty": i.std_uncertainty,
-        "unit": i.unit,
-        "text": i.text,
-        "origin": i.origin,
+        **attrs(i, "unit", "text", "origin"),
     }
 
 
@@ -61,6 +59,25 @@ def outputs_of(result: Result) -> dict[str, dict[str, Any]]:
         if v is not None:
             out[key] = {"value": v[0], "standard_uncertainty": v[1], "unit": v[2]}
     return out
+
+
+def mixing_time_json(result: Result) -> dict[str, Any]:
+    """Return the mixing time a result used, ± u, and whether it was detected from the log."""
+    return {
+        "value": result.mixing_time_s,
+        "standard_uncertainty": result.mixing_time_s_std,
+        "unit": "s",
+        "detected": result.mixing_time_detected,
+    }
+
+
+def findings_json(result: Result) -> dict[str, Any]:
+    """Return what the analysis found beside the value: budget, warnings, checks, comparison, verdict, cautions."""
+    return {
+        **attrs(result, "budget", "warnings", "checks", "comparison"),
+        "verdict": verdict_record(verdict(result.comparison)),
+        "cautions": result.cautions,
+    }
 
 
 def result_document(result: Result) -> dict[str, Any]:
@@ -83,21 +100,9 @@ def result_document(result: Result) -> dict[str, Any]:
             "fore": [result.fore_start_s, result.fore_end_s],
             "after": [result.after_start_s, result.after_end_s],
         },
-        "mixing_time": {
-            "value": result.mixing_time_s,
-            "standard_uncertainty": result.mixing_time_s_std,
-            "unit": "s",
-            "detected": result.mixing_time_detected,
-        },
-        "budget": result.budget,
-        "warnings": result.warnings,
-        "checks": result.checks,
-        "comparison": result.comparison,
-        "verdict": verdict_record(verdict(result.comparison)),
-        "cautions": result.cautions,
-        "properties": result.properties,
-        "monte_carlo": result.monte_carlo,
-        "software_version": result.software_version,
+        "mixing_time": mixing_time_json(result),
+        **findings_json(result),
+        **attrs(result, "properties", "monte_carlo", "software_version"),
         "analyzed_at": iso(result.created_at),
         "analyzed_by": _person(result.created_by),
     }

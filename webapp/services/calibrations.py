@@ -22,8 +22,15 @@ from calc.errors import InputError
 from calc.io.quantities import parse_measured
 from webapp.models import STAFF_ROLES, Calibration, Calorimeter, Person, Result, Run, utcnow
 from webapp.services.audit import record_change
-from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
-from webapp.services.in_force import NeedsConfirmation, current_calibration, describe, members_of, refresh_in_force
+from webapp.services.errors import Conflict, Forbidden, Invalid, get_or_not_found
+from webapp.services.in_force import (
+    NeedsConfirmation,
+    approved_calibration,
+    current_calibration,
+    describe,
+    members_of,
+    refresh_in_force,
+)
 
 
 def parse_heat_capacity(text: str, field: str = "heat_capacity") -> tuple[float, float]:
@@ -191,18 +198,8 @@ def enter_heat_capacity(
     if len(note or "") > 300:
         raise Invalid("at most 300 characters", field="note")
     calorimeter = locked_calorimeter(session, calorimeter.id)
-    cal = Calibration(
-        calorimeter=calorimeter,
-        heat_capacity_j_k=value,
-        heat_capacity_j_k_std=u,
-        taken_at=when,
-        note=(note or "").strip() or f"entered by {actor.name}",
-        created_by=actor,
-        status="approved",
-        approved_by=actor,
-        approved_at=utcnow(),
-        restart=bool(restart),
-    )
+    note = (note or "").strip() or f"entered by {actor.name}"
+    cal = approved_calibration(calorimeter, actor, (value, u), when, note, restart=bool(restart))
     session.add(cal)
     session.flush()
     record_change(session, actor, "calibration", cal.id, "status", None, "approved")
@@ -234,10 +231,7 @@ def approve_calibration(
 
 def get_calibration(session: so.Session, calibration_id: int) -> Calibration:
     """Return a calibration by id, or raise :class:`NotFound`."""
-    cal = session.get(Calibration, calibration_id)
-    if cal is None:
-        raise NotFound(f"no calibration with id {calibration_id}", field="calibration_id")
-    return cal
+    return get_or_not_found(session, Calibration, calibration_id, "calibration", "calibration_id")
 
 
 # ------------------------------------------------------------------ withdrawing

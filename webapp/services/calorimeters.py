@@ -15,8 +15,8 @@ from webapp.models import Calibration, Calorimeter, Person, utcnow
 from webapp.services.access import require_coordinator
 from webapp.services.audit import record_change
 from webapp.services.calibrations import parse_heat_capacity
-from webapp.services.errors import Conflict, Invalid, NotFound
-from webapp.services.in_force import current_calibration
+from webapp.services.errors import Conflict, Invalid, get_or_not_found
+from webapp.services.in_force import approved_calibration, current_calibration
 
 #: fields of a calorimeter that can be edited (each change is audited)
 EDITABLE_FIELDS = ("name", "parts", "location", "vessel_type")
@@ -27,10 +27,7 @@ def get_calorimeter(session: so.Session, calorimeter_id: int) -> Calorimeter:
 
     :raise NotFound: when there is none
     """
-    cal = session.get(Calorimeter, calorimeter_id)
-    if cal is None:
-        raise NotFound(f"no calorimeter with id {calorimeter_id}", field="calorimeter_id")
-    return cal
+    return get_or_not_found(session, Calorimeter, calorimeter_id, "calorimeter", "calorimeter_id")
 
 
 def find_calorimeter(session: so.Session, name: str) -> Calorimeter | None:
@@ -80,23 +77,11 @@ def create_calorimeter(
     cal = Calorimeter(name=name, parts=parts or "", location=(location or "")[:200], vessel_type=vessel_type)
     session.add(cal)
     if heat_capacity:
-        value, u = parse_heat_capacity(heat_capacity)
-        when = parse_measured_date(measured_on)
-        now = utcnow()
-        session.add(
-            Calibration(
-                calorimeter=cal,
-                heat_capacity_j_k=value,
-                heat_capacity_j_k_std=u,
-                taken_at=when,
-                note=f"entered by {actor.name}",
-                created_by=actor,
-                status="approved",
-                approved_by=actor,
-                approved_at=now,
-                in_force_at=now,
-            )
+        first = approved_calibration(
+            cal, actor, parse_heat_capacity(heat_capacity), parse_measured_date(measured_on), f"entered by {actor.name}"
         )
+        first.in_force_at = first.approved_at
+        session.add(first)
     session.commit()
     return cal
 

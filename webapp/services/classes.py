@@ -24,7 +24,7 @@ from calc.errors import InputError
 from calc.io.quantities import parse_measured
 from webapp.models import ROLES, Bench, Calorimeter, Course, Group, Person, Section
 from webapp.services.access import require_coordinator
-from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound
+from webapp.services.errors import Conflict, Forbidden, Invalid, NotFound, get_or_not_found
 from webapp.services.people import DEFAULT_PASSWORD_METHOD, hash_password
 
 ROSTER_COLUMNS = ("course", "section", "group", "name", "email", "role")
@@ -56,10 +56,7 @@ def get_course(session: so.Session, course_id: int) -> Course:
 
     :raise NotFound: when there is none
     """
-    course = session.get(Course, course_id)
-    if course is None:
-        raise NotFound(f"no course with id {course_id}", field="course_id")
-    return course
+    return get_or_not_found(session, Course, course_id, "course", "course_id")
 
 
 def get_section(session: so.Session, actor: Person, section_id: int) -> Section:

@@ -12,19 +12,15 @@ import sqlalchemy.orm as so
 from webapp.models import Comment, Group, Person
 from webapp.services.audit import record_change
 from webapp.services.classes import require_staff
-from webapp.services.errors import Invalid, NotFound
+from webapp.services.errors import NotFound
+from webapp.services.jsontext import required_text
 from webapp.services.runs import get_run
 
 MAX_COMMENT = 4000
 
 
 def _body(text: object) -> str:
-    if not isinstance(text, str) or not text.strip():
-        raise Invalid("write the comment first", field="body")
-    text = text.strip()
-    if len(text) > MAX_COMMENT:
-        raise Invalid(f"the comment is too long: at most {MAX_COMMENT} characters (it has {len(text)})", field="body")
-    return text
+    return required_text(text, field="body", missing="write the comment first", what="the comment", limit=MAX_COMMENT)
 
 
 def can_read_group(person: Person, group: Group) -> bool:

@@ -20,6 +20,7 @@ from typing import Any
 import sqlalchemy as sa
 import sqlalchemy.orm as so
 
+from webapp.jsonfields import attrs
 from webapp.models import Calorimeter, Result, Run
 from webapp.services.errors import NotFound, Stale
 
@@ -104,24 +105,16 @@ def run_state(run: Run) -> dict[str, Any]:
     """Return the stored state of a run that a 409 answer carries."""
     current = run.current_result
     return {
-        "id": run.id,
-        "version": run.version,
+        **attrs(run, "id", "version"),
         "locked": bool(run.locked),
         "current_result_id": current.id if current else None,
-        **{k: getattr(run, k) for k in ("title", "operator", "bench", "performed_on", "notes", "group_id")},
+        **attrs(run, "title", "operator", "bench", "performed_on", "notes", "group_id"),
     }
 
 
 def calorimeter_state(cal: Calorimeter) -> dict[str, Any]:
     """Return the stored state of a calorimeter that a 409 answer carries."""
-    return {
-        "id": cal.id,
-        "version": cal.version,
-        "name": cal.name,
-        "parts": cal.parts,
-        "location": cal.location,
-        "calibration_interval_days": cal.calibration_interval_days,
-    }
+    return attrs(cal, "id", "version", "name", "parts", "location", "calibration_interval_days")
 
 
 def check_version(entity: str, obj: Run | Calorimeter, expected: int | None) -> None:

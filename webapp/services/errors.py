@@ -2,6 +2,13 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, TypeVar
+
+if TYPE_CHECKING:
+    import sqlalchemy.orm as so
+
+_Row = TypeVar("_Row")
+
 
 class ServiceError(Exception):
     """Base class: a message a user can act on, an HTTP status and the field concerned."""
@@ -51,6 +58,17 @@ class Conflict(ServiceError):
     """The thing exists already, or is locked."""
 
     status = 409
+
+
+def get_or_not_found(session: so.Session, model: type[_Row], ident: int, what: str, field: str) -> _Row:
+    """Return the ``model`` row with primary key ``ident``.
+
+    :raise NotFound: "no ``what`` with id ``ident``", naming ``field``, when there is none
+    """
+    row = session.get(model, ident)
+    if row is None:
+        raise NotFound(f"no {what} with id {ident}", field=field)
+    return row
 
 
 class RunLocked(Conflict):

@@ -113,38 +113,44 @@ class GroupMaker:
         self.created.clear()
 
 
-def import_one(
-    session: so.Session,
-    actor: Person,
-    path: str,
-    files: dict[str, bytes],
-    maps: dict[str, Mapping],
-    groups: dict[str, Group],
-    benches: dict[str, Bench],
-    section_name: str,
-    options: AnalysisOptions,
-    used: set[str],
-    maker: GroupMaker | None = None,
-) -> ImportItem:
-    """Store the run file ``path`` of ``files`` in its own transaction and say how it went.
+@dataclasses.dataclass
+class SectionImport:
+    """One bulk import into a section: what every run file of it is stored with.
+
+    ``files`` maps paths to contents, ``maps`` the mapping CSV's rows by file name; ``groups`` and
+    ``benches`` are the section's by name; ``used`` collects the readings the run files name; ``maker``
+    creates the groups named but missing (None: refuse them).
+    """
+
+    session: so.Session
+    actor: Person
+    files: dict[str, bytes]
+    maps: dict[str, Mapping]
+    groups: dict[str, Group]
+    benches: dict[str, Bench]
+    section_name: str
+    options: AnalysisOptions
+    used: set[str]
+    maker: GroupMaker | None = None
+
+
+def import_one(job: SectionImport, path: str) -> ImportItem:
+    """Store the run file ``path`` of ``job.files`` in its own transaction and say how it went.
 
     A failure of this run alone (:class:`ServiceError`) is rolled back and reported; a storage
     failure that the next run would meet too (a full disk) stops the import, saying where.
     """
+    session, files, groups, maker = job.session, job.files, job.groups, job.maker
     digest = ""
     try:
-        text, rpath = _run_text(path, files, used)
+        text, rpath = _run_text(path, files, job.used)
         readings = files[rpath]
         digest = content_hash(files[path], readings)
         existing = session.scalar(sa.select(Run.id).where(Run.content_hash == digest))
         if existing is not None:
             return ImportItem(path, "unchanged", f"already stored as run #{existing}", existing)
         base = posixpath.basename(path)
-        m = maps.get(base)
-        if m is not None:
-            group, bench = _mapped(session, path, m, groups, benches, section_name, maker)
-        else:
-            group, bench = _named(session, path, text, groups, section_name, maker), None
+        group, bench = _placed(job, path, text, job.maps.get(base))
         upload = RunUpload(
             run_toml=text,
             run_file_name=base,
@@ -152,9 +158,9 @@ def import_one(
             readings_name=posixpath.basename(rpath),
             calorimeter_id=bench.calorimeter_id if bench is not None else None,
             group_id=group.id,
-            options=options,
+            options=job.options,
         )
-        return _store(session, actor, path, upload, digest, group, bench, maker)
+        return _store(session, job.actor, path, upload, digest, group, bench, maker)
     except ServiceError as exc:
         session.rollback()
         if maker is not None:
@@ -242,56 +248,34 @@ def _run_text(path: str, files: dict[str, bytes], used: set[str]) -> tuple[str, 
     return text, rpath
 
 
-def _mapped(
-    session: so.Session,
-    path: str,
-    m: Mapping,
-    groups: dict[str, Group],
-    benches: dict[str, Bench],
-    section_name: str,
-    maker: GroupMaker | None,
-) -> tuple[Group, Bench | None]:
-    """Return the group and bench the mapping CSV gives a run file."""
-    group = groups.get(m.group) or (maker.make(session, m.group, path, groups) if maker else None)
-    if group is None:
-        raise Invalid(
-            f"{path}: the mapping names group {m.group!r}, which is not in section {section_name!r}", field="group"
-        )
-    bench = None
-    if m.bench:
-        bench = benches.get(m.bench)
-        if bench is None:
-            raise Invalid(
-                f"{path}: the mapping names bench {m.bench!r}, which is not in section {section_name!r}", field="bench"
-            )
-    return group, bench
-
-
-def _named(
-    session: so.Session,
-    path: str,
-    text: str,
-    groups: dict[str, Group],
-    section_name: str,
-    maker: GroupMaker | None,
-) -> Group:
-    """Return the group a run file's ``[info] group`` or its file name gives it."""
-    named = run_file_text(text, "info", "group")
-    if named is not None:
-        group = groups.get(named) or (maker.make(session, named, path, groups) if maker else None)
+def _placed(job: SectionImport, path: str, text: str, m: Mapping | None) -> tuple[Group, Bench | None]:
+    """Return the group and bench of a run file: those of its row ``m`` of the mapping CSV, else the group
+    its ``[info] group`` or its file name gives it (and no bench)."""
+    groups, section_name, maker = job.groups, job.section_name, job.maker
+    if m is not None:
+        name, bench_name = m.group, m.bench
+        missing = f"{path}: the mapping names group {name!r}, which is not in section {section_name!r}"
+    else:
+        name, bench_name = run_file_text(text, "info", "group"), ""
+        missing = f"{path}, field 'info.group': group {name!r} is not in section {section_name!r}"
+    if name is not None:
+        group = groups.get(name) or (maker.make(job.session, name, path, groups) if maker else None)
         if group is None:
-            raise Invalid(
-                f"{path}, field 'info.group': group {named!r} is not in section {section_name!r}", field="group"
-            )
+            raise Invalid(missing, field="group")
     else:
         group = _group_from_name(posixpath.splitext(posixpath.basename(path))[0], groups)
-    if group is None:
+        if group is None:
+            raise Invalid(
+                f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
+                f"name names a group of section {section_name!r}",
+                field="group",
+            )
+    bench = job.benches.get(bench_name) if bench_name else None
+    if bench_name and bench is None:
         raise Invalid(
-            f"{path}: cannot tell its group: neither the mapping, [info] group nor the file "
-            f"name names a group of section {section_name!r}",
-            field="group",
+            f"{path}: the mapping names bench {bench_name!r}, which is not in section {section_name!r}", field="bench"
         )
-    return group
+    return group, bench
 
 
 def record_with_hash(session: so.Session, actor: Person, upload: RunUpload, digest: str, bench: Bench | None) -> Run:

@@ -34,7 +34,15 @@ from webapp.models import Bench, Group, Person
 from webapp.services.analysis import AnalysisOptions
 from webapp.services.classes import get_section, require_staff
 from webapp.services.errors import Invalid
-from webapp.services.import_store import GroupMaker, ImportItem, Mapping, import_one, readings_name, readings_path
+from webapp.services.import_store import (
+    GroupMaker,
+    ImportItem,
+    Mapping,
+    SectionImport,
+    import_one,
+    readings_name,
+    readings_path,
+)
 
 #: limits of one import (a zip bomb or a runaway folder is refused before anything is read)
 MAX_FILES = 5000
@@ -257,8 +265,9 @@ def import_files(
     check_totals(files, runs)
     options = AnalysisOptions(monte_carlo_trials=0)
     maker = GroupMaker(section, actor) if create_groups else None
+    job = SectionImport(session, actor, files, maps, groups, benches, section_name, options, used, maker)
     for path in runs:
-        item = import_one(session, actor, path, files, maps, groups, benches, section_name, options, used, maker)
+        item = import_one(job, path)
         report.items.append(item)
         if progress is not None:
             progress(path)

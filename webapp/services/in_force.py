@@ -14,6 +14,7 @@ Recording, approving and withdrawing the measurements is :mod:`webapp.services.c
 from __future__ import annotations
 
 import datetime as dt
+from typing import Any
 
 import sqlalchemy as sa
 import sqlalchemy.orm as so
@@ -158,6 +159,31 @@ def _check_move(calorimeter: Calorimeter, current: Calibration | None, p: Pooled
         )
 
 
+def approved_calibration(
+    calorimeter: Calorimeter,
+    actor: Person | None,
+    heat_capacity: tuple[float, float],
+    taken_at: dt.datetime,
+    note: str,
+    **more: Any,
+) -> Calibration:
+    """Return a new calibration of ``calorimeter`` (value, standard uncertainty in J/K), recorded and approved
+    by ``actor`` now; ``more`` sets other columns. The caller adds it to the session."""
+    value, u = heat_capacity
+    return Calibration(
+        calorimeter=calorimeter,
+        heat_capacity_j_k=value,
+        heat_capacity_j_k_std=u,
+        taken_at=taken_at,
+        note=note,
+        created_by=actor,
+        status="approved",
+        approved_by=actor,
+        approved_at=utcnow(),
+        **more,
+    )
+
+
 def _in_force_row(
     session: so.Session, calorimeter: Calorimeter, actor: Person | None, candidates: list[Calibration], p: Pooled
 ) -> Calibration:
@@ -169,19 +195,9 @@ def _in_force_row(
         row.in_force_at = now
         return row
     newest = max((c for c in candidates if c.id in p.members), key=lambda c: (c.taken_at, c.id))
-    row = Calibration(
-        calorimeter=calorimeter,
-        heat_capacity_j_k=p.value,
-        heat_capacity_j_k_std=p.u,
-        taken_at=newest.taken_at,
-        note=f"weighted mean of {len(p.members)} calibrations",
-        created_by=actor,
-        status="approved",
-        approved_by=actor,
-        approved_at=now,
-        in_force_at=now,
-        pool=p.as_dict(),
-    )
+    note = f"weighted mean of {len(p.members)} calibrations"
+    row = approved_calibration(calorimeter, actor, (p.value, p.u), newest.taken_at, note, pool=p.as_dict())
+    row.in_force_at = row.approved_at
     session.add(row)
     session.flush()
     return row

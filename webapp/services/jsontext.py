@@ -35,6 +35,20 @@ def checked_json(data: Any, where: str = "body") -> Any:
     return data
 
 
+def required_text(value: object, *, field: str, missing: str, what: str, limit: int) -> str:
+    """Return ``value`` with the white space around it stripped.
+
+    :raise Invalid: naming ``field``: with ``missing`` when it is not text or is blank; when it is longer
+        than ``limit`` characters, saying that ``what`` is too long and by how much
+    """
+    if not isinstance(value, str) or not value.strip():
+        raise Invalid(missing, field=field)
+    text = value.strip()
+    if len(text) > limit:
+        raise Invalid(f"{what} is too long: at most {limit} characters (it has {len(text)})", field=field)
+    return text
+
+
 def _unicode(text: str, field: str) -> None:
     try:
         text.encode("utf-8")

@@ -25,6 +25,7 @@ from webapp.models import Person, Run, RunReview, utcnow
 from webapp.services.audit import record_change
 from webapp.services.checks import run_flagged
 from webapp.services.errors import Conflict, Forbidden, Invalid, RunLocked
+from webapp.services.jsontext import required_text
 from webapp.services.runs import get_run
 
 MAX_REASON = 2000
@@ -94,12 +95,8 @@ def commit_review(session: so.Session, run_id: int, field: str) -> None:
 
 
 def _reason(reason: object) -> str:
-    if not isinstance(reason, str) or not reason.strip():
-        raise Invalid("give a reason (it is kept in the run's history)", field="reason")
-    reason = reason.strip()
-    if len(reason) > MAX_REASON:
-        raise Invalid(f"the reason is too long: at most {MAX_REASON} characters", field="reason")
-    return reason
+    missing = "give a reason (it is kept in the run's history)"
+    return required_text(reason, field="reason", missing=missing, what="the reason", limit=MAX_REASON)
 
 
 def _check_may(actor: Person, run: Run, action: str) -> None:

@@ -19,6 +19,7 @@ import sqlalchemy.orm as so
 
 from calc.errors import InputError
 from calc.statistics.replicates import SeriesSummary, shared_type_b, summarize_series
+from webapp.jsonfields import attrs
 from webapp.models import MAX_ID, Person, Result, Run, Series, SeriesRun
 from webapp.services.access import can_view_run, require_coordinator
 from webapp.services.errors import Invalid, NotFound
@@ -49,19 +50,13 @@ def _finite_or_none(x: float) -> float | None:
 def _statistics_json(s: SeriesSummary) -> dict[str, Any]:
     """Return a series' statistics as JSON-ready data, in the order the pages list them."""
     return {
-        "n": s.n,
-        "mean": s.mean,
-        "sd": s.sd,
-        "u_mean": s.u_mean,
-        "dof": s.dof,
-        "t95": s.t95,
+        **attrs(s, "n", "mean", "sd", "u_mean", "dof", "t95"),
         "ci95": list(s.ci95),
         "type_b_u": s.type_b_u,
         "type_b_dof": _finite_or_none(s.type_b_dof),
         "u_combined": s.u_combined,
         "dof_eff": _finite_or_none(s.dof_eff),
-        "k": s.k,
-        "U": s.U,
+        **attrs(s, "k", "U"),
     }
 
 
