@@ -113,8 +113,12 @@ class LineFit:
         return self.a
 
 
-def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
-    """Fit a straight line with centred time and AR(1)-inflated covariance."""
+def fit_line(t: np.ndarray, y: np.ndarray, rho_min: float = 0.0) -> LineFit:
+    """Fit a straight line with centred time and AR(1)-inflated covariance.
+
+    ``rho_min``: a lag-1 autocorrelation known from elsewhere (the other window of the same log);
+    the residuals' own estimate is used when it is larger.
+    """
     n = t.size
     tm = float(t.mean())
     tc = t - tm
@@ -122,7 +126,7 @@ def fit_line(t: np.ndarray, y: np.ndarray) -> LineFit:
     a = float(y.mean())
     b = float(np.dot(tc, y - a) / stt) if stt > 0 else 0.0
     resid = y - a - b * tc
-    rho = lag1_autocorrelation(resid)
+    rho = max(lag1_autocorrelation(resid), rho_min)
     f = inflation(rho)
     s2 = float(np.dot(resid, resid)) / _resid_dof(n, 2, f)
     n_eff = n / f
@@ -328,8 +332,10 @@ def fit_newton_joint(
     )
 
 
-def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0, max_iter: int = 30) -> NewtonFit:
-    """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k).
+def fit_newton_single(
+    t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0, max_iter: int = 30, rho_min: float = 0.0
+) -> NewtonFit:
+    """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k; ``rho_min`` as in :func:`fit_line`).
 
     Used for the after period of two-solution runs, whose heat-exchange constant
     differs from the fore period's (docs/methods.md §2.3, two-solution caveat).
@@ -343,7 +349,7 @@ def fit_newton_single(t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0,
     k, beta, X, J, converged = _varpro(model, y, k0, max_iter)
     resid = y - X @ beta
     n = y.size
-    rho = lag1_autocorrelation(resid)
+    rho = max(lag1_autocorrelation(resid), rho_min)
     f = inflation(rho)
     s2 = float(np.dot(resid, resid)) / _resid_dof(n, 3, f)
     try:

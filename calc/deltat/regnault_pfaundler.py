@@ -17,7 +17,15 @@ import numpy as np
 
 from calc.deltat.base import DeltaT, Log, method_term, need_windows, register_method, resolution_terms
 from calc.deltat.constructions import AfterNewtonConstruction, JointNewtonConstruction, NewtonianConstruction
-from calc.deltat.drift import LineFit, NewtonFit, fit_line, fit_newton_joint, fit_newton_single
+from calc.deltat.drift import (
+    LineFit,
+    NewtonFit,
+    decay_integral,
+    fit_line,
+    fit_newton_joint,
+    fit_newton_single,
+    pooled_lag1,
+)
 
 __all__ = ["regnault_pfaundler", "classic_k", "fore_curvature"]
 
@@ -113,12 +121,32 @@ class _Setup:
     fore_bend: tuple[float, float, float] = (0.0, 0.0, 0.0)  # two solutions: the bent fore drift (fore_curvature)
 
 
+def _one_noise_correlation(log: Log, fore: LineFit, nf: NewtonFit) -> tuple[LineFit, NewtonFit]:
+    """Refit both windows with the larger of their own and the pooled noise correlation.
+
+    One stirrer and one logger: the fore and after windows share a correlation time, and a short
+    window alone reads it low (docs/methods.md §8.4).
+    """
+    tf_, yf_ = log.window("fore")
+    ta_, ya_ = log.window("after")
+    y_f, g_f, k = (float(v) for v in nf.params)
+    resid_f = yf_ - (fore.a + fore.b * (tf_ - fore.t_mean))
+    resid_a = ya_ - (y_f + g_f * decay_integral(k, ta_ - float(nf.t_f)))
+    rho = max(fore.rho, nf.rho, pooled_lag1(resid_f, resid_a))
+    if rho > fore.rho:
+        fore = fit_line(tf_, yf_, rho_min=rho)
+    if rho > nf.rho:
+        nf = fit_newton_single(ta_, ya_, float(nf.t_f), k0=k, rho_min=rho)
+    return fore, nf
+
+
 def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) -> _Setup:
     """Drift law of the final system from the after period alone; start level from the fore line."""
     inner, w_a, w_b = parts
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     ta_, ya_ = log.window("after")
     nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
+    fore, nf = _one_noise_correlation(log, fore, nf)
     quad = fore_curvature(log, fore, max(nf.k, 0.0))
     bend = quad[0]
     T_A = fore.at(t_i) + bend
