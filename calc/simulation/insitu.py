@@ -14,7 +14,7 @@ from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.liquids import dissolved_in_water, formula_molar_mass, release_kw
+from calc.simulation.liquids import SOLUTE_CP, WATER_CP, WATER_DENSITY, formula_molar_mass, release_kw, solid_in_liquid
 from calc.simulation.model import LumpedModel, read_probe
 from calc.simulation.run import RunContext, RunOptions, SimTruth, SimulatedRun, _decimals
 
@@ -57,7 +57,9 @@ def simulate_dissolution_with_calibration(
     first = pulses in ("before", "both")
     options = {**options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
     ctx = RunContext(KIND, rng, options)
-    s = dissolved_in_water(ctx, formula, solute_mass_g, water_volume_mL)
+    s = solid_in_liquid(
+        ctx, "water", (water_volume_mL, WATER_DENSITY, WATER_CP), formula, solute_mass_g, SOLUTE_CP, None
+    )
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
     heat = -n * molar_enthalpy_kJ_mol * 1000.0
     g_before, g_after = ctx.conductances(s.c_final)

@@ -13,9 +13,9 @@ from typing import Unpack
 import numpy as np
 
 from calc.simulation.liquids import (
+    SOLUTE_CP,
     WATER_CP,
     WATER_DENSITY,
-    dissolved_in_water,
     finish_released,
     formula_molar_mass,
     liquid,
@@ -50,7 +50,7 @@ def simulate_dissolution(
     t_d: float | None = None,
     water_density: float = WATER_DENSITY,
     water_cp: float = WATER_CP,
-    solute_cp: float = 0.8,
+    solute_cp: float = SOLUTE_CP,
     mixture_cp: float | None = None,
     **options: Unpack[RunOptions],
 ) -> SimulatedRun:
@@ -76,7 +76,9 @@ def simulate_dissolution(
         Log, run dict and truth; ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
     ctx = RunContext("dissolution", rng, options)
-    s = dissolved_in_water(ctx, formula, solute_mass_g, water_volume_mL, water_density, water_cp, solute_cp, mixture_cp)
+    s = solid_in_liquid(
+        ctx, "water", (water_volume_mL, water_density, water_cp), formula, solute_mass_g, solute_cp, mixture_cp
+    )
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
     return s.release(ctx, n, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
 
@@ -122,17 +124,8 @@ def simulate_reaction(
         ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
     ctx = RunContext("reaction", rng, options)
-    s = solid_in_liquid(
-        ctx,
-        table="solution",
-        volume=solution_volume_mL,
-        density=solution_density,
-        cp=solution_cp,
-        solid=limiting_reagent,
-        mass=reagent_mass_g,
-        solid_cp=solid_cp,
-        mixture_cp=mixture_cp,
-    )
+    solution = (solution_volume_mL, solution_density, solution_cp)
+    s = solid_in_liquid(ctx, "solution", solution, limiting_reagent, reagent_mass_g, solid_cp, mixture_cp)
     extent = s.m_s / formula_molar_mass(limiting_reagent, "reaction.limiting_reagent") / coefficient
     s.body["reaction"] = {
         "equation": equation,

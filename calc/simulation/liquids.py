@@ -18,8 +18,8 @@ __all__ = [
     "WATER_CP",
     "WATER_DENSITY",
     "RunTable",
+    "SOLUTE_CP",
     "SolidInLiquid",
-    "dissolved_in_water",
     "finish_released",
     "formula_molar_mass",
     "liquid",
@@ -33,6 +33,7 @@ __all__ = [
 WATER_DENSITY = 0.9978  # g/mL near 22 °C (from memory)
 WATER_CP = 4.181  # J/(g K) near 22 °C (from memory)
 CP_UNIT = "J/(g*K)"
+SOLUTE_CP = 0.8  # J/(g K), a salt's c_p when none is given (rough, from memory)
 
 
 def formula_molar_mass(formula: str, where: str) -> float:
@@ -77,21 +78,21 @@ class SolidInLiquid:
 
 def solid_in_liquid(
     ctx: RunContext,
-    *,
     table: str,
-    volume: float,
-    density: float,
-    cp: float,
+    contents: tuple[float, float, float],
     solid: str,
     mass: float,
     solid_cp: float,
     mixture_cp: float | None,
 ) -> SolidInLiquid:
-    """Return masses, heat capacities and run-file tables for a solid added to one liquid.
+    """Return masses, heat capacities and run-file tables for a solid (``mass`` g) added to one liquid.
+
+    ``contents`` is the liquid's (volume in mL, density in g/mL, c_p in J/(g K)), stated in the run-file table ``table``.
 
     The liquid's own c_p sets C before t_m only (the run file has no field for it; the truth does not
     depend on it); the stated mixture c_p sets C_final.
     """
+    volume, density, cp = contents
     v, rho, cp = ctx.true(volume, "volume_mL"), ctx.true(density, "density_g_mL"), ctx.true(cp, "cp_J_gK")
     m_s, c_cal = ctx.true(mass, "mass_g"), ctx.true(ctx.o["c_cal"], "c_cal_J_K")
     m_liq = v * rho
@@ -107,30 +108,6 @@ def solid_in_liquid(
     }
     c_before, c_final = m_liq * cp + c_cal, (m_liq + m_s) * c_mix + c_cal
     return SolidInLiquid(body, m_s, c_cal, c_before, c_final)
-
-
-def dissolved_in_water(
-    ctx: RunContext,
-    formula: str,
-    mass: float,
-    volume: float,
-    density: float = WATER_DENSITY,
-    cp: float = WATER_CP,
-    solute_cp: float = 0.8,
-    mixture_cp: float | None = None,
-) -> SolidInLiquid:
-    """Return :func:`solid_in_liquid` for a salt ``formula`` (``mass`` g) dissolved in water (``volume`` mL)."""
-    return solid_in_liquid(
-        ctx,
-        table="water",
-        volume=volume,
-        density=density,
-        cp=cp,
-        solid=formula,
-        mass=mass,
-        solid_cp=solute_cp,
-        mixture_cp=mixture_cp,
-    )
 
 
 def finish_released(
