@@ -229,18 +229,9 @@ def simulate_neutralization(
     )
     model, t_a, t_mix = pour(model, m_b * cp_b, t_b)
     body = {"calorimeter": cal, "acid": tab_a, "base": tab_b, "mixture": mix}
-    return ctx.finish(
-        model,
-        body,
-        heat=heat,
-        c_final=c_final,
-        c_cal=c_cal,
-        dh=molar_enthalpy_kJ_mol,
-        extent=extent,
-        t_a=t_a,
-        t_mix=t_mix,
-        delta_t_ad=heat / c_final,
-        reference="T_mix",
+    dh = molar_enthalpy_kJ_mol
+    return finish_released(
+        ctx, model, body, heat=heat, c_final=c_final, c_cal=c_cal, dh=dh, extent=extent, poured=(t_a, t_mix)
     )
 
 

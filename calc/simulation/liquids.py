@@ -120,8 +120,12 @@ def finish_released(
     c_cal: float,
     dh: float | None = None,
     extent: float | None = None,
+    poured: tuple[float, float] | None = None,
 ) -> SimulatedRun:
-    """Finish a run whose heat is released into the one liquid in the cup: ΔT_ad = Q/C_final from T(t_m)."""
+    """Finish a run whose heat is released in the cup: ΔT_ad = Q/C_final, from T(t_m) into the one liquid in the
+    cup, or from T_mix when a second liquid was poured in (``poured`` = (T_A(t_m), T_mix), see :func:`pour`)."""
+    t_a, t_mix = poured if poured is not None else (model.contents_before_mixing(), None)
+    reference = "T(t_m)" if poured is None else "T_mix"
     return ctx.finish(
         model,
         body,
@@ -130,10 +134,10 @@ def finish_released(
         c_cal=c_cal,
         dh=dh,
         extent=extent,
-        t_a=model.contents_before_mixing(),
-        t_mix=None,
+        t_a=t_a,
+        t_mix=t_mix,
         delta_t_ad=heat / c_final,
-        reference="T(t_m)",
+        reference=reference,
     )
 
 
