@@ -16,6 +16,7 @@ from calc.simulation.liquids import (
     SOLUTE_CP,
     WATER_CP,
     WATER_DENSITY,
+    ReleaseOptions,
     finish_released,
     formula_molar_mass,
     liquid,
@@ -46,13 +47,11 @@ def simulate_dissolution(
     solute_mass_g: float = 3.7,
     water_volume_mL: float = 100.0,
     tau_r: float = 60.0,
-    release: str = "first-order",
-    t_d: float | None = None,
     water_density: float = WATER_DENSITY,
     water_cp: float = WATER_CP,
     solute_cp: float = SOLUTE_CP,
     mixture_cp: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate dissolving a solid salt in water.
 
@@ -65,22 +64,23 @@ def simulate_dissolution(
     water_volume_mL, water_density, water_cp, solute_cp, mixture_cp:
         Water in the cup (mL, g/mL, J/(g K)); ``water_cp`` sets C before t_m only. The stated c_p of
         the final solution defaults to the mass-weighted mean of water and solid.
-    tau_r, release, t_d:
-        Release model: "first-order" (τ_r, s) or "sphere" (shrinking sphere, t_d defaults to 4 τ_r).
+    tau_r:
+        Release time constant, s.
     **options:
-        Shared settings, see ``RunOptions``.
+        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
     SimulatedRun
         Log, run dict and truth; ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
-    ctx = RunContext("dissolution", rng, options)
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("dissolution", rng, run_options)
     s = solid_in_liquid(
         ctx, "water", (water_volume_mL, water_density, water_cp), formula, solute_mass_g, solute_cp, mixture_cp
     )
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
-    return s.release(ctx, n, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
+    return s.release(ctx, n, molar_enthalpy_kJ_mol, release)
 
 
 def simulate_reaction(
@@ -97,9 +97,7 @@ def simulate_reaction(
     solid_cp: float = 1.02,
     mixture_cp: float | None = None,
     tau_r: float = 30.0,
-    release: str = "first-order",
-    t_d: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate a solid limiting reagent added to, and reacting in, a solution.
 
@@ -113,17 +111,18 @@ def simulate_reaction(
         The default Δ_rH of Mg in dilute acid is approximate (from memory); any value may be given.
     solution_volume_mL, solution_density, solution_cp, solid_cp, mixture_cp:
         The liquid in the cup and the heat capacities (mixture default: mass-weighted mean).
-    tau_r, release, t_d:
-        Release model, as for ``simulate_dissolution``.
+    tau_r:
+        Release time constant, s.
     **options:
-        Shared settings, see ``RunOptions``.
+        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
     SimulatedRun
         ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
-    ctx = RunContext("reaction", rng, options)
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("reaction", rng, run_options)
     solution = (solution_volume_mL, solution_density, solution_cp)
     s = solid_in_liquid(ctx, "solution", solution, limiting_reagent, reagent_mass_g, solid_cp, mixture_cp)
     extent = s.m_s / formula_molar_mass(limiting_reagent, "reaction.limiting_reagent") / coefficient
@@ -133,7 +132,7 @@ def simulate_reaction(
         "mass": s.body["solute"]["mass"],
         "coefficient": coefficient,
     }
-    return s.release(ctx, extent, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
+    return s.release(ctx, extent, molar_enthalpy_kJ_mol, release)
 
 
 def simulate_neutralization(
@@ -155,9 +154,7 @@ def simulate_neutralization(
     acid_equivalents: int = 1,
     base_equivalents: int = 1,
     tau_r: float = 4.0,
-    release: str = "first-order",
-    t_d: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate pouring a base, at its own temperature, into an acid in the cup.
 
@@ -180,10 +177,10 @@ def simulate_neutralization(
         T_B − T_initial in K.
     acid_equivalents, base_equivalents:
         H+ (OH−) per formula unit.
-    tau_r, release, t_d:
-        Release model of the reaction heat after the instant mixing at t_m.
+    tau_r:
+        Release time constant of the reaction heat after the instant mixing at t_m, s.
     **options:
-        Shared settings, see ``RunOptions``.
+        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
@@ -191,7 +188,8 @@ def simulate_neutralization(
         ``truth.delta_t_adiabatic`` = Q/C_final from T_mix; ``truth.delta_t_from_contents`` is the
         rise from the acid's T_A(t_m) used by the run-file heat balance.
     """
-    ctx = RunContext("neutralization", rng, options)
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("neutralization", rng, run_options)
     c_cal = ctx.true(ctx.o["c_cal"], "c_cal_J_K")
     cal = {"heat_capacity": ctx.state("calorimeter.heat_capacity", c_cal, "c_cal_J_K", "J/K")}
     ca, cb = ctx.true(acid_concentration, "concentration_mol_L"), ctx.true(base_concentration, "concentration_mol_L")
@@ -225,7 +223,7 @@ def simulate_neutralization(
         c_after=c_final,
         g_after=g_after,
         heat_J=heat,
-        **release_kw(release, tau_r, t_d),
+        **release,
     )
     model, t_a, t_mix = pour(model, m_b * cp_b, t_b)
     body = {"calorimeter": cal, "acid": tab_a, "base": tab_b, "mixture": mix}

@@ -7,16 +7,17 @@ The true values are rounded as the run file states them and recorded by the :cla
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 from calc.refdata.formula import molar_mass
 from calc.simulation.model import LumpedModel
-from calc.simulation.run import RunContext, SimulatedRun
+from calc.simulation.run import RunContext, RunOptions, SimulatedRun
 
 __all__ = [
     "CP_UNIT",
     "WATER_CP",
     "WATER_DENSITY",
+    "ReleaseOptions",
     "RunTable",
     "SOLUTE_CP",
     "SolidInLiquid",
@@ -41,13 +42,22 @@ def formula_molar_mass(formula: str, where: str) -> float:
     return molar_mass(formula, field=where)
 
 
-def release_kw(release: str, tau_r: float, t_d: float | None) -> dict[str, Any]:
-    """Return the release keywords; a shrinking sphere defaults to t_d = 4 τ_r (same mean release time)."""
-    if release == "sphere":
-        return {"release": release, "t_d": t_d if t_d is not None else 4 * tau_r}
-    if release == "finite":
-        return {"release": release, "t_d": t_d if t_d is not None else tau_r}
-    return {"release": release, "tau_r": tau_r}
+class ReleaseOptions(RunOptions, total=False):
+    """The options of a run whose heat is released over time: the shared ones and the release model."""
+
+    release: str  # "first-order" (the default: exponential, time constant τ_r), "finite" or "sphere"
+    t_d: float | None  # s, time of a "finite" release (default τ_r) or a shrinking "sphere" (default 4 τ_r)
+
+
+def release_kw(tau_r: float, options: ReleaseOptions) -> tuple[dict[str, Any], RunOptions]:
+    """Return the model's release keywords (τ_r s, or the ``release`` and ``t_d`` in ``options``) and the other
+    options; a shrinking sphere defaults to t_d = 4 τ_r (the same mean release time)."""
+    rest = dict(options)
+    release, t_d = rest.pop("release", "first-order"), rest.pop("t_d", None)
+    kw: dict[str, Any] = {"release": release, "tau_r": tau_r}
+    if release in ("sphere", "finite"):
+        kw = {"release": release, "t_d": t_d if t_d is not None else (4 if release == "sphere" else 1) * tau_r}
+    return kw, cast(RunOptions, rest)
 
 
 @dataclass
