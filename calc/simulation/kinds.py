@@ -4,6 +4,11 @@ Each ``simulate_*`` function states its inputs through a :class:`calc.simulation
 the :class:`calc.simulation.model.LumpedModel` of the run and returns a :class:`calc.simulation.run.SimulatedRun`.
 The assumptions (heat capacities, heat exchange, instant mixing, rounding of the true inputs) are
 written out once, in :mod:`calc.simulation.simulator`.
+
+Every ``simulate_*`` function takes ``rng``, a random generator or an integer seed (stored in the truth), and
+the shared settings as keywords (``**options``: :class:`calc.simulation.run.RunOptions`, and for a heat
+released over time the release model, :class:`calc.simulation.liquids.ReleaseOptions`); its Parameters name
+only its own inputs.
 """
 
 from __future__ import annotations
@@ -57,8 +62,6 @@ def simulate_dissolution(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed (stored in the truth).
     formula, molar_enthalpy_kJ_mol, solute_mass_g:
         The salt, its true Δ_solH (kJ per mole of solute) and true mass (g).
     water_volume_mL, water_density, water_cp, solute_cp, mixture_cp:
@@ -66,8 +69,6 @@ def simulate_dissolution(
         the final solution defaults to the mass-weighted mean of water and solid.
     tau_r:
         Release time constant, s.
-    **options:
-        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
@@ -103,8 +104,6 @@ def simulate_reaction(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     equation, limiting_reagent, coefficient, molar_enthalpy_kJ_mol, reagent_mass_g:
         The reaction as written, its limiting solid (a formula), that solid's stoichiometric
         coefficient, the true Δ_rH (kJ per mole of reaction, ξ = n/coefficient) and the solid's mass (g).
@@ -113,8 +112,6 @@ def simulate_reaction(
         The liquid in the cup and the heat capacities (mixture default: mass-weighted mean).
     tau_r:
         Release time constant, s.
-    **options:
-        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
@@ -160,8 +157,6 @@ def simulate_neutralization(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     acid, base, molar_enthalpy_kJ_mol:
         Formulas and the true Δ_rH per mole of water formed (ξ from the limiting reagent).
     acid_concentration, base_concentration, acid_volume_mL, base_volume_mL:
@@ -179,8 +174,6 @@ def simulate_neutralization(
         H+ (OH−) per formula unit.
     tau_r:
         Release time constant of the reaction heat after the instant mixing at t_m, s.
-    **options:
-        Shared settings and the release model, see ``ReleaseOptions``.
 
     Returns
     -------
@@ -248,14 +241,11 @@ def simulate_electrical_calibration(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     water_volume_mL, water_density, water_cp:
         Water in the cup; its c_p is stated in [mixture] (the final solution is the water).
     voltage_V, current_A, duration_s:
-        True heater settings; the heat is V·I·duration.
-    **options:
-        Shared settings, see ``RunOptions`` (``c_cal`` is the true value the calibration should find).
+        True heater settings; the heat is V·I·duration (the option ``c_cal`` is the true value the
+        calibration should find).
 
     Returns
     -------
@@ -298,8 +288,6 @@ def simulate_mixing_calibration(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     water_volume_mL, water_density, water_cp:
         Cool water in the cup (its temperature follows ``t_initial_C`` and the room); ``water_cp`` is
         stated in [mixture], the one c_p the run file has.
@@ -307,8 +295,6 @@ def simulate_mixing_calibration(
         Warm water at the moment it is poured.
     warm_cp:
         c_p of the warm water in the simulated world; default ``water_cp`` (what the analysis uses).
-    **options:
-        Shared settings, see ``RunOptions``.
 
     Returns
     -------
