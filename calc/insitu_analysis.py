@@ -254,7 +254,7 @@ def _water_density(spec: RunSpec, T_K: float) -> RunProperties:
     if water_density is not None:
         props.add("water.density", water_density.m_as("g/mL"), water_density.u_as("g/mL"), "g/mL", "run file")
     else:
-        from calc.refdata.properties import water_density as iapws
+        from calc.refdata.water import water_density as iapws
 
         pv = iapws(T_K)
         props.add("water.density", pv.value, pv.u, "g/mL", f"{pv.model} at {T_K - 273.15:.1f} °C")

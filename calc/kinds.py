@@ -127,6 +127,27 @@ _RF = "calc.refdata.reference"
 
 _HEATER_CAUTION = "mains-free low-voltage supply only; keep the heater immersed while it is on"
 
+#: optional hooks named after the kind's stem: hook → (module, suffix of ``{stem}_{suffix}``)
+_STEM_HOOKS = {"composition": (_CO, "composition"), "warnings": (_RW, "warnings"), "reference": (_RF, "lookup")}
+
+
+def _hooks(stem: str, simulated: str, properties: str, *optional: str) -> dict[str, str]:
+    """Return the hooks of a plannable kind, whose functions follow one naming rule: ``{stem}_model``,
+    ``{stem}_sections``, ``simulate_{simulated}``, ``draw_{simulated}``, ``properties`` as given and each
+    ``optional`` hook (of ``_STEM_HOOKS``) as ``{stem}_{suffix}``."""
+    hooks = {
+        "model": f"{_MM}:{stem}_model",
+        "properties": f"{_CO}:{properties}",
+        "plan_sections": f"{_PK}:{stem}_sections",
+        "simulate": f"{_SK}:simulate_{simulated}",
+        "scenario": f"{_SC}:draw_{simulated}",
+    }
+    for name in optional:
+        module, suffix = _STEM_HOOKS[name]
+        hooks[name] = f"{module}:{stem}_{suffix}"
+    return hooks
+
+
 REGISTRY: Mapping[str, RunKind] = MappingProxyType(
     {
         k.name: k
@@ -140,16 +161,7 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType(
                 "kJ/mol",
                 plan_scaled=(("solute", "mass"),),
                 release_s=60.0,
-                hooks={
-                    "model": f"{_MM}:dissolution_model",
-                    "properties": f"{_CO}:water_properties",
-                    "composition": f"{_CO}:dissolution_composition",
-                    "warnings": f"{_RW}:dissolution_warnings",
-                    "reference": f"{_RF}:dissolution_lookup",
-                    "plan_sections": f"{_PK}:dissolution_sections",
-                    "simulate": f"{_SK}:simulate_dissolution",
-                    "scenario": f"{_SC}:draw_dissolution",
-                },
+                hooks=_hooks("dissolution", "dissolution", "water_properties", "composition", "warnings", "reference"),
             ),
             RunKind(
                 "neutralization",
@@ -161,16 +173,9 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType(
                 two_solution=True,
                 plan_scaled=(("acid", "concentration"), ("base", "concentration")),
                 release_s=5.0,
-                hooks={
-                    "model": f"{_MM}:neutralization_model",
-                    "properties": f"{_CO}:stock_properties",
-                    "composition": f"{_CO}:neutralization_composition",
-                    "warnings": f"{_RW}:neutralization_warnings",
-                    "reference": f"{_RF}:neutralization_lookup",
-                    "plan_sections": f"{_PK}:neutralization_sections",
-                    "simulate": f"{_SK}:simulate_neutralization",
-                    "scenario": f"{_SC}:draw_neutralization",
-                },
+                hooks=_hooks(
+                    "neutralization", "neutralization", "stock_properties", "composition", "warnings", "reference"
+                ),
             ),
             RunKind(
                 # the heater's energy spreads over its time on
@@ -184,13 +189,7 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType(
                 procedure_cautions=(_HEATER_CAUTION,),
                 plan_scaled=(("heater", "duration"),),
                 release_s=60.0,
-                hooks={
-                    "model": f"{_MM}:electrical_model",
-                    "properties": f"{_CO}:water_properties",
-                    "plan_sections": f"{_PK}:electrical_sections",
-                    "simulate": f"{_SK}:simulate_electrical_calibration",
-                    "scenario": f"{_SC}:draw_electrical_calibration",
-                },
+                hooks=_hooks("electrical", "electrical_calibration", "water_properties"),
             ),
             RunKind(
                 # a poured warm water mixes in seconds
@@ -204,13 +203,7 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType(
                 procedure_cautions=("hot water scalds: handle warm water with care",),
                 plan_scaled=(("warm_water", "volume"),),
                 release_s=5.0,
-                hooks={
-                    "model": f"{_MM}:mixing_model",
-                    "properties": f"{_CO}:warm_water_properties",
-                    "plan_sections": f"{_PK}:mixing_sections",
-                    "simulate": f"{_SK}:simulate_mixing_calibration",
-                    "scenario": f"{_SC}:draw_mixing_calibration",
-                },
+                hooks=_hooks("mixing", "mixing_calibration", "warm_water_properties"),
             ),
             RunKind(
                 "reaction",
@@ -221,15 +214,7 @@ REGISTRY: Mapping[str, RunKind] = MappingProxyType(
                 "kJ/mol",
                 plan_scaled=(("reaction", "mass"),),
                 release_s=60.0,
-                hooks={
-                    "model": f"{_MM}:reaction_model",
-                    "properties": f"{_CO}:reaction_solution_properties",
-                    "composition": f"{_CO}:reaction_composition",
-                    "reference": f"{_RF}:reaction_lookup",
-                    "plan_sections": f"{_PK}:reaction_sections",
-                    "simulate": f"{_SK}:simulate_reaction",
-                    "scenario": f"{_SC}:draw_reaction",
-                },
+                hooks=_hooks("reaction", "reaction", "reaction_solution_properties", "composition", "reference"),
             ),
             RunKind(
                 "dissolution-with-calibration",

@@ -5,7 +5,8 @@ from __future__ import annotations
 import json
 import math
 import sys
-from typing import TYPE_CHECKING, Any
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import click
 
@@ -15,20 +16,39 @@ from calc.kinds import plannable_kinds
 if TYPE_CHECKING:  # imported on use, so that `cupcal --help` stays fast
     from calc.plan import Plan
 
+_Command = TypeVar("_Command", bound=Callable[..., Any])
+
 __all__ = ["plan_command", "plan_record", "format_plan"]
+
+#: The options that give the planned run's amounts, passed on to :func:`calc.plan.plan_run` as written:
+#: (option, parameter of plan_run it sets, help), in the order of ``--help``.
+_AMOUNT_OPTIONS = (
+    ("--formula", "formula", "Solute to dissolve, e.g. KCl (dissolution); the limiting reagent, e.g. Mg (reaction)."),
+    ("--mass", "mass", 'Mass of solute or limiting reagent, e.g. "3.00 g" (dissolution, reaction).'),
+    ("--water", "water_volume", 'Water (or solution) in the cup, e.g. "100.0 mL" (all kinds but neutralization).'),
+    ("--heater-voltage", "heater_voltage", 'Heater voltage, e.g. "5.00 ± 0.01 V" (electrical-calibration).'),
+    ("--heater-current", "heater_current", 'Heater current, e.g. "1.000 ± 0.002 A" (electrical-calibration).'),
+    ("--heater-time", "heater_duration", 'Time the heater is on, e.g. "120.0 ± 0.2 s" (electrical-calibration).'),
+    ("--warm-volume", "warm_volume", 'Warm water poured in, e.g. "50.0 mL" (mixing-calibration).'),
+    ("--warm-temperature", "warm_temperature", 'Warm water temperature, e.g. "45.0 ± 0.1 degC" (mixing-calibration).'),
+    ("--acid", "acid", "Acid in the cup, e.g. HCl (neutralization)."),
+    ("--base", "base", "Base poured in, e.g. NaOH (neutralization)."),
+    ("--acid-concentration", "acid_concentration", 'e.g. "1.000 ± 0.005 mol/L".'),
+    ("--base-concentration", "base_concentration", 'e.g. "1.000 ± 0.005 mol/L".'),
+    ("--acid-volume", "acid_volume", 'Acid in the cup, e.g. "50.0 mL".'),
+    ("--base-volume", "base_volume", 'Base poured in, e.g. "50.0 mL".'),
+    (
+        "--base-temperature",
+        "base_temperature",
+        "Temperature of the base before pouring (default: the start temperature).",
+    ),
+)
+#: The amounts a kind takes as its own inputs (plan_run's ``kind_inputs``).
+_KIND_INPUTS = ("heater_voltage", "heater_current", "heater_duration", "warm_volume", "warm_temperature", "coefficient")
 
 #: Parameter names of :func:`calc.plan.plan_run` → the command-line option that sets them.
 _OPTION_OF = {
-    "formula": "--formula",
-    "mass": "--mass",
-    "water_volume": "--water",
-    "acid": "--acid",
-    "base": "--base",
-    "acid_concentration": "--acid-concentration",
-    "base_concentration": "--base-concentration",
-    "acid_volume": "--acid-volume",
-    "base_volume": "--base-volume",
-    "base_temperature": "--base-temperature",
+    **{parameter: option for option, parameter, _ in _AMOUNT_OPTIONS},
     "calorimeter_heat_capacity": "--calorimeter",
     "thermometer_resolution": "--resolution",
     "thermometer_noise": "--noise",
@@ -46,14 +66,16 @@ _OPTION_OF = {
     "solute.formula": "--formula",
     "acid.formula": "--acid",
     "base.formula": "--base",
-    "heater_voltage": "--heater-voltage",
-    "heater_current": "--heater-current",
-    "heater_duration": "--heater-time",
-    "warm_volume": "--warm-volume",
-    "warm_temperature": "--warm-temperature",
     "coefficient": "--coefficient",
     "reaction.limiting_reagent": "--formula",
 }
+
+
+def _amount_options(command: _Command) -> _Command:
+    """Add the options of ``_AMOUNT_OPTIONS`` to ``command``, each storing its text under the plan_run parameter."""
+    for option, parameter, text in reversed(_AMOUNT_OPTIONS):
+        command = click.option(option, parameter, help=text)(command)
+    return command
 
 
 def _message(exc: CupcalError) -> str:
@@ -220,14 +242,7 @@ def _given_quantity(text: str, option: str, unit: str, *, bare: bool = True) -> 
 
 @click.command("plan")
 @click.argument("kind", type=click.Choice(list(plannable_kinds())))
-@click.option("--formula", help="Solute to dissolve, e.g. KCl (dissolution); the limiting reagent, e.g. Mg (reaction).")
-@click.option("--mass", help='Mass of solute or limiting reagent, e.g. "3.00 g" (dissolution, reaction).')
-@click.option("--water", help='Water (or solution) in the cup, e.g. "100.0 mL" (all kinds but neutralization).')
-@click.option("--heater-voltage", help='Heater voltage, e.g. "5.00 ± 0.01 V" (electrical-calibration).')
-@click.option("--heater-current", help='Heater current, e.g. "1.000 ± 0.002 A" (electrical-calibration).')
-@click.option("--heater-time", help='Time the heater is on, e.g. "120.0 ± 0.2 s" (electrical-calibration).')
-@click.option("--warm-volume", help='Warm water poured in, e.g. "50.0 mL" (mixing-calibration).')
-@click.option("--warm-temperature", help='Warm water temperature, e.g. "45.0 ± 0.1 degC" (mixing-calibration).')
+@_amount_options
 @click.option(
     "--coefficient",
     type=int,
@@ -235,13 +250,6 @@ def _given_quantity(text: str, option: str, unit: str, *, bare: bool = True) -> 
     show_default=True,
     help="Stoichiometric coefficient of the limiting reagent (reaction).",
 )
-@click.option("--acid", help="Acid in the cup, e.g. HCl (neutralization).")
-@click.option("--base", help="Base poured in, e.g. NaOH (neutralization).")
-@click.option("--acid-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
-@click.option("--base-concentration", help='e.g. "1.000 ± 0.005 mol/L".')
-@click.option("--acid-volume", help='Acid in the cup, e.g. "50.0 mL".')
-@click.option("--base-volume", help='Base poured in, e.g. "50.0 mL".')
-@click.option("--base-temperature", help="Temperature of the base before pouring (default: the start temperature).")
 @click.option(
     "--calorimeter",
     required=True,
@@ -301,21 +309,12 @@ def _plan(kind: str, opts: dict[str, Any]) -> Plan:
         else max(MIN_DELTA_T_K, RESOLUTION_MULTIPLE * q),
         temperature_difference_K(opts["max_change"], "--max-change"),
     )
-    seconds = {name: _given_quantity(opts[name], "--" + name, "s") for name in ("interval", "fore", "after")}
+    seconds: dict[str, Any] = {n: _given_quantity(opts[n], "--" + n, "s") for n in ("interval", "fore", "after")}
     release_time = _quantity(opts["release_time"], "--release-time", "s")  # no default: by the kind
     probe_time = _given_quantity(opts["probe_time"], "--probe-time", "s")
     return plan_run(
         kind,
-        formula=opts["formula"],
-        mass=opts["mass"],
-        water_volume=opts["water"],
-        acid=opts["acid"],
-        base=opts["base"],
-        acid_concentration=opts["acid_concentration"],
-        base_concentration=opts["base_concentration"],
-        acid_volume=opts["acid_volume"],
-        base_volume=opts["base_volume"],
-        base_temperature=opts["base_temperature"],
+        **{name: opts[name] for _, name, _ in _AMOUNT_OPTIONS if name not in _KIND_INPUTS},
         calorimeter_heat_capacity=opts["calorimeter"],
         thermometer_resolution=q,
         thermometer_noise=temperature_difference_K(opts["noise"], "--noise"),
@@ -328,12 +327,5 @@ def _plan(kind: str, opts: dict[str, Any]) -> Plan:
         release_time=release_time,
         probe_time=probe_time,
         **seconds,
-        kind_inputs={
-            "heater_voltage": opts["heater_voltage"],
-            "heater_current": opts["heater_current"],
-            "heater_duration": opts["heater_time"],
-            "warm_volume": opts["warm_volume"],
-            "warm_temperature": opts["warm_temperature"],
-            "coefficient": opts["coefficient"],
-        },
+        kind_inputs={name: opts[name] for name in _KIND_INPUTS},
     )

@@ -144,12 +144,12 @@ def _split(data: dict[str, Any], kind: str, source: str) -> tuple[dict[str, dict
     schema = SCHEMA[kind]
     sections: dict[str, dict[str, Any]] = {}
     top: dict[str, Any] = {}
+    expected = ", ".join(f"[{s}]" for s in schema)
     for key, value in data.items():
         if isinstance(value, dict):
             if key not in schema:
                 raise InputError(
-                    f"unknown section [{key}] for a {kind} run; expected sections: "
-                    + ", ".join(f"[{s}]" for s in schema),
+                    f"unknown section [{key}] for a {kind} run; expected sections: {expected}",
                     source=source,
                     field=_key(key),
                 )
@@ -157,8 +157,7 @@ def _split(data: dict[str, Any], kind: str, source: str) -> tuple[dict[str, dict
         else:
             if key not in TOP_FIELDS:
                 raise InputError(
-                    f"unknown field; expected top-level fields: {', '.join(TOP_FIELDS)} and sections "
-                    + ", ".join(f"[{s}]" for s in schema),
+                    f"unknown field; expected top-level fields: {', '.join(TOP_FIELDS)} and sections {expected}",
                     source=source,
                     field=_key(key),
                 )

@@ -50,6 +50,8 @@ _COMMON: dict[str, dict[str, Field]] = {
     "mixture": _MIXTURE,
     "reference": _REFERENCE,
 }
+#: what both calibrations have: water in the cup and a calorimeter whose heat capacity they find
+_CALIBRATION: dict[str, dict[str, Field]] = {**_COMMON, "calorimeter": _CAL_OPTIONAL, "water": _WATER}
 
 SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
     "dissolution": {
@@ -84,9 +86,7 @@ SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
         },
     },
     "electrical-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
+        **_CALIBRATION,
         "heater": {
             "voltage": ("q", "V", True),
             "current": ("q", "A", True),
@@ -94,9 +94,7 @@ SCHEMA: dict[str, dict[str, dict[str, Field]]] = {
         },
     },
     "mixing-calibration": {
-        **_COMMON,
-        "calorimeter": _CAL_OPTIONAL,
-        "water": _WATER,
+        **_CALIBRATION,
         "warm_water": {
             "volume": ("q", "mL", True),
             "temperature": ("q", "K", True),

@@ -2,7 +2,7 @@
 
 Water
     IAPWS-95 density and heat capacity, the static dielectric constant and the Debye–Hückel slopes
-    come from :mod:`calc.refdata.water` (re-exported here).
+    come from :mod:`calc.refdata.water` (import them from there).
 
 Aqueous electrolyte solutions
     Density from the Laliberté & Cooper model (J. Chem. Eng. Data 49, 1141 (2004)) and
@@ -36,34 +36,9 @@ from calc.errors import InputError
 from calc.refdata import laliberte
 from calc.refdata.arguments import as_number, non_negative
 from calc.refdata.formula import element_composition, molar_mass, split_hydrate
-from calc.refdata.water import (  # noqa: F401
-    GRID_FILE,
-    GRID_NODES,
-    IAPWS_MODEL,
-    R_GAS,
-    T_MAX_K,
-    T_MIN_K,
-    U_REL_WATER_CP,
-    U_REL_WATER_DENSITY,
-    ModelledProperty,
-    _check_T,
-    _iapws_direct,
-    debye_huckel_slopes,
-    water_density,
-    water_dielectric_constant,
-    water_specific_heat,
-)
+from calc.refdata.water import ModelledProperty, _check_T, water_density, water_specific_heat
 
-__all__ = [
-    "ModelledProperty",
-    "water_density",
-    "water_specific_heat",
-    "water_dielectric_constant",
-    "debye_huckel_slopes",
-    "solution_properties",
-    "T_MIN_K",
-    "T_MAX_K",
-]
+__all__ = ["solution_properties"]
 
 LALIBERTE_MODEL = "Laliberté (2004, 2009)"
 FALLBACK_MODEL = "water fallback"

@@ -14,9 +14,17 @@ from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.liquids import dissolved_in_water, formula_molar_mass, release_kw
+from calc.simulation.liquids import (
+    SOLUTE_CP,
+    WATER_CP,
+    WATER_DENSITY,
+    ReleaseOptions,
+    formula_molar_mass,
+    release_kw,
+    solid_in_liquid,
+)
 from calc.simulation.model import LumpedModel, read_probe
-from calc.simulation.run import RunContext, RunOptions, SimTruth, SimulatedRun, _decimals
+from calc.simulation.run import RunContext, SimTruth, SimulatedRun, _decimals
 
 __all__ = ["simulate_dissolution_with_calibration"]
 
@@ -31,15 +39,13 @@ def simulate_dissolution_with_calibration(
     solute_mass_g: float = 3.7,
     water_volume_mL: float = 100.0,
     tau_r: float = 60.0,
-    release: str = "first-order",
-    t_d: float | None = None,
     voltage_V: float = 5.0,
     current_A: float = 1.0,
     duration_s: float = 120.0,
     gap_s: float = 600.0,
     tail_s: float = 600.0,
     pulses: str = "after",
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate dissolving a salt and heater pulses ``gap_s`` apart in one log.
 
@@ -53,15 +59,18 @@ def simulate_dissolution_with_calibration(
     """
     if pulses not in ("after", "before", "both"):
         raise ValueError(f"pulses must be 'after', 'before' or 'both', got {pulses!r}")
-    fore0 = float(options.get("fore_s", 300.0))
+    release, run_options = release_kw(tau_r, options)
+    fore0 = float(run_options.get("fore_s", 300.0))
     first = pulses in ("before", "both")
-    options = {**options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
-    ctx = RunContext(KIND, rng, options)
-    s = dissolved_in_water(ctx, formula, solute_mass_g, water_volume_mL)
+    run_options = {**run_options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
+    ctx = RunContext(KIND, rng, run_options)
+    s = solid_in_liquid(
+        ctx, "water", (water_volume_mL, WATER_DENSITY, WATER_CP), formula, solute_mass_g, SOLUTE_CP, None
+    )
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
     heat = -n * molar_enthalpy_kJ_mol * 1000.0
     g_before, g_after = ctx.conductances(s.c_final)
-    model = s.model(ctx, heat, release_kw(release, tau_r, t_d))
+    model = s.model(ctx, heat, release)
     o = ctx.o
     v, i, dur = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A"), ctx.true(duration_s, "duration_s")
     starts = ([("before", round(fore0, 1))] if first else []) + (

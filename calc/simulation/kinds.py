@@ -4,6 +4,11 @@ Each ``simulate_*`` function states its inputs through a :class:`calc.simulation
 the :class:`calc.simulation.model.LumpedModel` of the run and returns a :class:`calc.simulation.run.SimulatedRun`.
 The assumptions (heat capacities, heat exchange, instant mixing, rounding of the true inputs) are
 written out once, in :mod:`calc.simulation.simulator`.
+
+Every ``simulate_*`` function takes ``rng``, a random generator or an integer seed (stored in the truth), and
+the shared settings as keywords (``**options``: :class:`calc.simulation.run.RunOptions`, and for a heat
+released over time the release model, :class:`calc.simulation.liquids.ReleaseOptions`); its Parameters name
+only its own inputs.
 """
 
 from __future__ import annotations
@@ -13,9 +18,10 @@ from typing import Unpack
 import numpy as np
 
 from calc.simulation.liquids import (
+    SOLUTE_CP,
     WATER_CP,
     WATER_DENSITY,
-    dissolved_in_water,
+    ReleaseOptions,
     finish_released,
     formula_molar_mass,
     liquid,
@@ -46,39 +52,36 @@ def simulate_dissolution(
     solute_mass_g: float = 3.7,
     water_volume_mL: float = 100.0,
     tau_r: float = 60.0,
-    release: str = "first-order",
-    t_d: float | None = None,
     water_density: float = WATER_DENSITY,
     water_cp: float = WATER_CP,
-    solute_cp: float = 0.8,
+    solute_cp: float = SOLUTE_CP,
     mixture_cp: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate dissolving a solid salt in water.
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed (stored in the truth).
     formula, molar_enthalpy_kJ_mol, solute_mass_g:
         The salt, its true Δ_solH (kJ per mole of solute) and true mass (g).
     water_volume_mL, water_density, water_cp, solute_cp, mixture_cp:
         Water in the cup (mL, g/mL, J/(g K)); ``water_cp`` sets C before t_m only. The stated c_p of
         the final solution defaults to the mass-weighted mean of water and solid.
-    tau_r, release, t_d:
-        Release model: "first-order" (τ_r, s) or "sphere" (shrinking sphere, t_d defaults to 4 τ_r).
-    **options:
-        Shared settings, see ``RunOptions``.
+    tau_r:
+        Release time constant, s.
 
     Returns
     -------
     SimulatedRun
         Log, run dict and truth; ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
-    ctx = RunContext("dissolution", rng, options)
-    s = dissolved_in_water(ctx, formula, solute_mass_g, water_volume_mL, water_density, water_cp, solute_cp, mixture_cp)
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("dissolution", rng, run_options)
+    s = solid_in_liquid(
+        ctx, "water", (water_volume_mL, water_density, water_cp), formula, solute_mass_g, solute_cp, mixture_cp
+    )
     n = s.m_s / formula_molar_mass(formula, "solute.formula")
-    return s.release(ctx, n, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
+    return s.release(ctx, n, molar_enthalpy_kJ_mol, release)
 
 
 def simulate_reaction(
@@ -95,44 +98,30 @@ def simulate_reaction(
     solid_cp: float = 1.02,
     mixture_cp: float | None = None,
     tau_r: float = 30.0,
-    release: str = "first-order",
-    t_d: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate a solid limiting reagent added to, and reacting in, a solution.
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     equation, limiting_reagent, coefficient, molar_enthalpy_kJ_mol, reagent_mass_g:
         The reaction as written, its limiting solid (a formula), that solid's stoichiometric
         coefficient, the true Δ_rH (kJ per mole of reaction, ξ = n/coefficient) and the solid's mass (g).
         The default Δ_rH of Mg in dilute acid is approximate (from memory); any value may be given.
     solution_volume_mL, solution_density, solution_cp, solid_cp, mixture_cp:
         The liquid in the cup and the heat capacities (mixture default: mass-weighted mean).
-    tau_r, release, t_d:
-        Release model, as for ``simulate_dissolution``.
-    **options:
-        Shared settings, see ``RunOptions``.
+    tau_r:
+        Release time constant, s.
 
     Returns
     -------
     SimulatedRun
         ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
-    ctx = RunContext("reaction", rng, options)
-    s = solid_in_liquid(
-        ctx,
-        table="solution",
-        volume=solution_volume_mL,
-        density=solution_density,
-        cp=solution_cp,
-        solid=limiting_reagent,
-        mass=reagent_mass_g,
-        solid_cp=solid_cp,
-        mixture_cp=mixture_cp,
-    )
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("reaction", rng, run_options)
+    solution = (solution_volume_mL, solution_density, solution_cp)
+    s = solid_in_liquid(ctx, "solution", solution, limiting_reagent, reagent_mass_g, solid_cp, mixture_cp)
     extent = s.m_s / formula_molar_mass(limiting_reagent, "reaction.limiting_reagent") / coefficient
     s.body["reaction"] = {
         "equation": equation,
@@ -140,7 +129,7 @@ def simulate_reaction(
         "mass": s.body["solute"]["mass"],
         "coefficient": coefficient,
     }
-    return s.release(ctx, extent, molar_enthalpy_kJ_mol, release_kw(release, tau_r, t_d))
+    return s.release(ctx, extent, molar_enthalpy_kJ_mol, release)
 
 
 def simulate_neutralization(
@@ -162,16 +151,12 @@ def simulate_neutralization(
     acid_equivalents: int = 1,
     base_equivalents: int = 1,
     tau_r: float = 4.0,
-    release: str = "first-order",
-    t_d: float | None = None,
-    **options: Unpack[RunOptions],
+    **options: Unpack[ReleaseOptions],
 ) -> SimulatedRun:
     """Simulate pouring a base, at its own temperature, into an acid in the cup.
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     acid, base, molar_enthalpy_kJ_mol:
         Formulas and the true Δ_rH per mole of water formed (ξ from the limiting reagent).
     acid_concentration, base_concentration, acid_volume_mL, base_volume_mL:
@@ -187,10 +172,8 @@ def simulate_neutralization(
         T_B − T_initial in K.
     acid_equivalents, base_equivalents:
         H+ (OH−) per formula unit.
-    tau_r, release, t_d:
-        Release model of the reaction heat after the instant mixing at t_m.
-    **options:
-        Shared settings, see ``RunOptions``.
+    tau_r:
+        Release time constant of the reaction heat after the instant mixing at t_m, s.
 
     Returns
     -------
@@ -198,7 +181,8 @@ def simulate_neutralization(
         ``truth.delta_t_adiabatic`` = Q/C_final from T_mix; ``truth.delta_t_from_contents`` is the
         rise from the acid's T_A(t_m) used by the run-file heat balance.
     """
-    ctx = RunContext("neutralization", rng, options)
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext("neutralization", rng, run_options)
     c_cal = ctx.true(ctx.o["c_cal"], "c_cal_J_K")
     cal = {"heat_capacity": ctx.state("calorimeter.heat_capacity", c_cal, "c_cal_J_K", "J/K")}
     ca, cb = ctx.true(acid_concentration, "concentration_mol_L"), ctx.true(base_concentration, "concentration_mol_L")
@@ -232,22 +216,13 @@ def simulate_neutralization(
         c_after=c_final,
         g_after=g_after,
         heat_J=heat,
-        **release_kw(release, tau_r, t_d),
+        **release,
     )
     model, t_a, t_mix = pour(model, m_b * cp_b, t_b)
     body = {"calorimeter": cal, "acid": tab_a, "base": tab_b, "mixture": mix}
-    return ctx.finish(
-        model,
-        body,
-        heat=heat,
-        c_final=c_final,
-        c_cal=c_cal,
-        dh=molar_enthalpy_kJ_mol,
-        extent=extent,
-        t_a=t_a,
-        t_mix=t_mix,
-        delta_t_ad=heat / c_final,
-        reference="T_mix",
+    dh = molar_enthalpy_kJ_mol
+    return finish_released(
+        ctx, model, body, heat=heat, c_final=c_final, c_cal=c_cal, dh=dh, extent=extent, poured=(t_a, t_mix)
     )
 
 
@@ -266,14 +241,11 @@ def simulate_electrical_calibration(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     water_volume_mL, water_density, water_cp:
         Water in the cup; its c_p is stated in [mixture] (the final solution is the water).
     voltage_V, current_A, duration_s:
-        True heater settings; the heat is V·I·duration.
-    **options:
-        Shared settings, see ``RunOptions`` (``c_cal`` is the true value the calibration should find).
+        True heater settings; the heat is V·I·duration (the option ``c_cal`` is the true value the
+        calibration should find).
 
     Returns
     -------
@@ -316,8 +288,6 @@ def simulate_mixing_calibration(
 
     Parameters
     ----------
-    rng:
-        Random generator, or an integer seed.
     water_volume_mL, water_density, water_cp:
         Cool water in the cup (its temperature follows ``t_initial_C`` and the room); ``water_cp`` is
         stated in [mixture], the one c_p the run file has.
@@ -325,8 +295,6 @@ def simulate_mixing_calibration(
         Warm water at the moment it is poured.
     warm_cp:
         c_p of the warm water in the simulated world; default ``water_cp`` (what the analysis uses).
-    **options:
-        Shared settings, see ``RunOptions``.
 
     Returns
     -------

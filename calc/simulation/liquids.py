@@ -7,19 +7,20 @@ The true values are rounded as the run file states them and recorded by the :cla
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 from calc.refdata.formula import molar_mass
 from calc.simulation.model import LumpedModel
-from calc.simulation.run import RunContext, SimulatedRun
+from calc.simulation.run import RunContext, RunOptions, SimulatedRun
 
 __all__ = [
     "CP_UNIT",
     "WATER_CP",
     "WATER_DENSITY",
+    "ReleaseOptions",
     "RunTable",
+    "SOLUTE_CP",
     "SolidInLiquid",
-    "dissolved_in_water",
     "finish_released",
     "formula_molar_mass",
     "liquid",
@@ -33,6 +34,7 @@ __all__ = [
 WATER_DENSITY = 0.9978  # g/mL near 22 °C (from memory)
 WATER_CP = 4.181  # J/(g K) near 22 °C (from memory)
 CP_UNIT = "J/(g*K)"
+SOLUTE_CP = 0.8  # J/(g K), a salt's c_p when none is given (rough, from memory)
 
 
 def formula_molar_mass(formula: str, where: str) -> float:
@@ -40,13 +42,22 @@ def formula_molar_mass(formula: str, where: str) -> float:
     return molar_mass(formula, field=where)
 
 
-def release_kw(release: str, tau_r: float, t_d: float | None) -> dict[str, Any]:
-    """Return the release keywords; a shrinking sphere defaults to t_d = 4 τ_r (same mean release time)."""
-    if release == "sphere":
-        return {"release": release, "t_d": t_d if t_d is not None else 4 * tau_r}
-    if release == "finite":
-        return {"release": release, "t_d": t_d if t_d is not None else tau_r}
-    return {"release": release, "tau_r": tau_r}
+class ReleaseOptions(RunOptions, total=False):
+    """The options of a run whose heat is released over time: the shared ones and the release model."""
+
+    release: str  # "first-order" (the default: exponential, time constant τ_r), "finite" or "sphere"
+    t_d: float | None  # s, time of a "finite" release (default τ_r) or a shrinking "sphere" (default 4 τ_r)
+
+
+def release_kw(tau_r: float, options: ReleaseOptions) -> tuple[dict[str, Any], RunOptions]:
+    """Return the model's release keywords (τ_r s, or the ``release`` and ``t_d`` in ``options``) and the other
+    options; a shrinking sphere defaults to t_d = 4 τ_r (the same mean release time)."""
+    rest = dict(options)
+    release, t_d = rest.pop("release", "first-order"), rest.pop("t_d", None)
+    kw: dict[str, Any] = {"release": release, "tau_r": tau_r}
+    if release in ("sphere", "finite"):
+        kw = {"release": release, "t_d": t_d if t_d is not None else (4 if release == "sphere" else 1) * tau_r}
+    return kw, cast(RunOptions, rest)
 
 
 @dataclass
@@ -77,21 +88,21 @@ class SolidInLiquid:
 
 def solid_in_liquid(
     ctx: RunContext,
-    *,
     table: str,
-    volume: float,
-    density: float,
-    cp: float,
+    contents: tuple[float, float, float],
     solid: str,
     mass: float,
     solid_cp: float,
     mixture_cp: float | None,
 ) -> SolidInLiquid:
-    """Return masses, heat capacities and run-file tables for a solid added to one liquid.
+    """Return masses, heat capacities and run-file tables for a solid (``mass`` g) added to one liquid.
+
+    ``contents`` is the liquid's (volume in mL, density in g/mL, c_p in J/(g K)), stated in the run-file table ``table``.
 
     The liquid's own c_p sets C before t_m only (the run file has no field for it; the truth does not
     depend on it); the stated mixture c_p sets C_final.
     """
+    volume, density, cp = contents
     v, rho, cp = ctx.true(volume, "volume_mL"), ctx.true(density, "density_g_mL"), ctx.true(cp, "cp_J_gK")
     m_s, c_cal = ctx.true(mass, "mass_g"), ctx.true(ctx.o["c_cal"], "c_cal_J_K")
     m_liq = v * rho
@@ -109,30 +120,6 @@ def solid_in_liquid(
     return SolidInLiquid(body, m_s, c_cal, c_before, c_final)
 
 
-def dissolved_in_water(
-    ctx: RunContext,
-    formula: str,
-    mass: float,
-    volume: float,
-    density: float = WATER_DENSITY,
-    cp: float = WATER_CP,
-    solute_cp: float = 0.8,
-    mixture_cp: float | None = None,
-) -> SolidInLiquid:
-    """Return :func:`solid_in_liquid` for a salt ``formula`` (``mass`` g) dissolved in water (``volume`` mL)."""
-    return solid_in_liquid(
-        ctx,
-        table="water",
-        volume=volume,
-        density=density,
-        cp=cp,
-        solid=formula,
-        mass=mass,
-        solid_cp=solute_cp,
-        mixture_cp=mixture_cp,
-    )
-
-
 def finish_released(
     ctx: RunContext,
     model: LumpedModel,
@@ -143,8 +130,12 @@ def finish_released(
     c_cal: float,
     dh: float | None = None,
     extent: float | None = None,
+    poured: tuple[float, float] | None = None,
 ) -> SimulatedRun:
-    """Finish a run whose heat is released into the one liquid in the cup: ΔT_ad = Q/C_final from T(t_m)."""
+    """Finish a run whose heat is released in the cup: ΔT_ad = Q/C_final, from T(t_m) into the one liquid in the
+    cup, or from T_mix when a second liquid was poured in (``poured`` = (T_A(t_m), T_mix), see :func:`pour`)."""
+    t_a, t_mix = poured if poured is not None else (model.contents_before_mixing(), None)
+    reference = "T(t_m)" if poured is None else "T_mix"
     return ctx.finish(
         model,
         body,
@@ -153,10 +144,10 @@ def finish_released(
         c_cal=c_cal,
         dh=dh,
         extent=extent,
-        t_a=model.contents_before_mixing(),
-        t_mix=None,
+        t_a=t_a,
+        t_mix=t_mix,
         delta_t_ad=heat / c_final,
-        reference="T(t_m)",
+        reference=reference,
     )
 
 

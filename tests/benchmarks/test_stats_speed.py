@@ -19,6 +19,7 @@ from calc.statistics.control_charts import control_chart
 from calc.statistics.precision import grubbs, iso5725, mandel_h_k
 from calc.statistics.replicates import summarize_series
 from calc.statistics.robust import robust_mean_sd
+from tests.calc.plan_args import KCL_PLAN_INPUTS
 
 
 def _best_of(fn, repeat: int = 5) -> float:
@@ -66,15 +67,7 @@ def test_control_charts_of_every_calorimeter():
 
 def test_plan_time():
     def plan() -> None:
-        plan_run(
-            "dissolution",
-            formula="KCl",
-            mass="3.0 ± 0.0002 g",
-            water_volume="100.0 ± 0.1 mL",
-            calorimeter_heat_capacity="18 ± 2 J/K",
-            thermometer_resolution=0.01,
-            thermometer_noise=0.005,
-        )
+        plan_run("dissolution", **KCL_PLAN_INPUTS, thermometer_noise=0.005)
 
     t0 = time.perf_counter()
     plan()

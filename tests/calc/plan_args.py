@@ -11,3 +11,11 @@ KCL_SOLUTE = ["--formula", "KCl", "--mass", "3 g", "--water", "100 mL"]
 CUP_AND_PROBE = ["--calorimeter", "18 ± 2 J/K", "--resolution", "0.01 K"]
 #: the least `cupcal plan dissolution` needs
 KCL_DISSOLUTION = ["plan", "dissolution", *KCL_SOLUTE, *CUP_AND_PROBE]
+#: the same run as calc.plan.plan_run takes it, the balance's and the glassware's ± written in
+KCL_PLAN_INPUTS = {
+    "formula": "KCl",
+    "mass": "3.0 ± 0.0002 g",
+    "water_volume": "100.0 ± 0.1 mL",
+    "calorimeter_heat_capacity": "18 ± 2 J/K",
+    "thermometer_resolution": 0.01,
+}

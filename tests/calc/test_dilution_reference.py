@@ -38,7 +38,7 @@ from calc.refdata.dilution import (
     _long_range,
     phi_L,
 )
-from calc.refdata.properties import debye_huckel_slopes
+from calc.refdata.water import debye_huckel_slopes
 
 R_GAS = 8.314462618  # J/(mol K), CODATA 2018
 P_DBAR = 10.1325  # 1 atm in pytzer's unit (dbar)

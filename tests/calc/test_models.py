@@ -11,6 +11,7 @@ from calc.deltat.base import DeltaT
 from calc.io.runfile import parse_run
 from calc.uncertainty.gum import propagate
 from calc.uncertainty.measurement_models import RunProperties, build_model
+from tests.calc.run_texts import NEUT
 
 
 def _dt(value: float, start_K: float) -> DeltaT:
@@ -27,29 +28,6 @@ def _propagated(text: str, delta_t: DeltaT, stated: dict[str, tuple[float, float
         props.add(name, value, u, "g/mL" if name.endswith("density") else "J/(g*K)", "run file")
     ms = build_model(spec, delta_t, props)
     return ms, propagate(ms.inputs, ms.model, main or ms.main)
-
-
-NEUT = """
-kind = "neutralization"
-readings = "r.csv"
-[calorimeter]
-heat_capacity = "20.0 ± 2.0 J/K"
-[thermometer]
-resolution = "0.01 K"
-[acid]
-formula = "HCl"
-concentration = "1.000 ± 0.005 mol/L"
-volume = "50.00 ± 0.05 mL"
-density = "1.016 ± 0.001 g/mL"
-[base]
-formula = "NaOH"
-concentration = "1.100 ± 0.005 mol/L"
-volume = "50.00 ± 0.05 mL"
-density = "1.040 ± 0.001 g/mL"
-temperature = "22.50 ± 0.05 degC"
-[mixture]
-specific_heat_capacity = "3.960 ± 0.010 J/(g*K)"
-"""
 
 
 def test_neutralization_heat_balance_by_hand():

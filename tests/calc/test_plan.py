@@ -38,9 +38,7 @@ def _kcl_plan(mass: float = 3.7, u_cal: float = 2.0, q: float = 0.01, sigma: flo
         calorimeter_heat_capacity=f"15.0 ± {u_cal} J/K",
         thermometer_resolution=q,
         thermometer_noise=sigma,
-        temperature=T_ROOM,
-        **TIMING,
-        **kw,
+        **{"temperature": T_ROOM, **TIMING, **kw},
     )
 
 
@@ -203,15 +201,7 @@ def test_plan_uses_the_heat_balance_and_the_reference_value():
     line = next(b for b in plan.budget if b.name == "calorimeter.heat_capacity")
     assert line.contribution == pytest.approx(abs(plan.predicted_result) * 2.0 / c_total, rel=1e-6)
     # KCl(s): +17.58 kJ/mol at 0.111 mol/kg and 25 °C (docs/methods.md §7.2, from memory)
-    at_ref = plan_run(
-        "dissolution",
-        formula="KCl",
-        mass="0.8275 ± 0.0002 g",
-        water_volume="100.0 ± 0.1 mL",
-        calorimeter_heat_capacity="15 ± 2 J/K",
-        thermometer_resolution=0.001,
-        temperature=298.15,
-    )
+    at_ref = _kcl_plan(mass=0.8275, q=0.001, temperature=298.15)
     assert at_ref.predicted_result == pytest.approx(17.58, abs=0.05)
 
 
@@ -256,15 +246,7 @@ def test_a_hot_dissolution_is_flagged_with_the_cautions():
 
 
 def test_the_limiting_equipment_follows_the_largest_share():
-    coarse = plan_run(
-        "dissolution",
-        formula="KCl",
-        mass="1.0 ± 0.0002 g",
-        water_volume="100.0 ± 0.1 mL",
-        calorimeter_heat_capacity="15 ± 0.5 J/K",
-        thermometer_resolution=0.1,
-        thermometer_noise=0.002,
-    )
+    coarse = _kcl_plan(mass=1.0, u_cal=0.5, q=0.1, sigma=0.002)
     assert coarse.limiting == "thermometer resolution"
     assert coarse.equipment[0].share == pytest.approx(
         # the resolution enters the start and end levels and (a floor on) the drift slopes

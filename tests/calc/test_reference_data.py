@@ -410,7 +410,7 @@ def test_unknown_acid_has_no_neutralization_reference() -> None:
 def test_phi_L_tends_to_the_debye_huckel_limiting_law() -> None:
     # Debye-Hückel limiting law for a 1:1 electrolyte: φ_L -> A_H sqrt(m), with
     # A_H ~ 1.99 kJ kg^1/2 mol^-3/2 at 25 degC (docs/methods.md §4.6, memory).
-    from calc.refdata.properties import debye_huckel_slopes
+    from calc.refdata.water import debye_huckel_slopes
 
     _, a_h = debye_huckel_slopes(298.15)
     assert a_h / 1000.0 == pytest.approx(1.99, rel=0.015)

@@ -6,6 +6,7 @@ import pytest
 
 from calc.errors import InputError
 from calc.io.runfile import parse_run
+from tests.calc.run_texts import NEUT
 
 GOOD = """
 kind = "dissolution"
@@ -96,22 +97,8 @@ coefficient = 1
 
 
 def test_neutralization_base_needs_its_temperature():
-    text = """
-kind = "neutralization"
-readings = "r.csv"
-[calorimeter]
-heat_capacity = "20 ± 2 J/K"
-[thermometer]
-resolution = "0.01 K"
-[acid]
-formula = "HCl"
-concentration = "1.000 ± 0.005 mol/L"
-volume = "50.00 ± 0.05 mL"
-[base]
-formula = "NaOH"
-concentration = "1.000 ± 0.005 mol/L"
-volume = "50.00 ± 0.05 mL"
-"""
+    text = NEUT.replace('temperature = "22.50 ± 0.05 degC"\n', "")
+    assert "temperature" not in text
     _bad(text, "base.temperature", ["missing"])
 
 

@@ -7,6 +7,7 @@ import math
 import re
 import tomllib
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
@@ -385,19 +386,9 @@ def test_bench_artefacts_are_drawn_as_asked():
     from calc.simulation.realistic import realistic_scenario
     from calc.simulation.simulator import simulate_dissolution
 
-    clean = simulate_dissolution(8, fore_s=200.0, after_s=800.0, noise=0.0, resolution=0.001)
-    sim = simulate_dissolution(
-        8,
-        fore_s=200.0,
-        after_s=800.0,
-        noise=0.0,
-        resolution=0.001,
-        spikes=3,
-        spike_K=1.0,
-        drop_fraction=0.05,
-        jitter_s=0.3,
-        omit_mixing_time=True,
-    )
+    log: Any = {"fore_s": 200.0, "after_s": 800.0, "noise": 0.0, "resolution": 0.001}
+    clean = simulate_dissolution(8, **log)
+    sim = simulate_dissolution(8, **log, spikes=3, spike_K=1.0, drop_fraction=0.05, jitter_s=0.3, omit_mixing_time=True)
     assert "mixing_time" not in sim.run and "mixing_time" in clean.run
     assert 0.85 * clean.time_s.size < sim.time_s.size < clean.time_s.size  # about 5 % dropped
     off = np.abs(sim.time_s - np.round(sim.time_s))

@@ -13,30 +13,17 @@ from tests.webapp.conftest import sign_in
 def test_planning_page_shows_the_plan(client: Any, lab: Any) -> None:
     sign_in(client, "a1@lab.example")
     assert client.get("/plan").status_code == 200
-    r = client.get(
-        "/plan",
-        query_string={
-            "kind": "dissolution",
-            "go": "1",
-            "formula": "KCl",
-            "mass": "2.50 ± 0.01 g",
-            "water_volume": "100.0 ± 0.5 mL",
-            "calorimeter": "20 ± 3 J/K",
-            "resolution": "0.01",
-            "noise": "0.005",
-            "temperature": "22",
-        },
-    )
+    amounts = {"formula": "KCl", "mass": "2.50 ± 0.01 g", "water_volume": "100.0 ± 0.5 mL"}  # the form's names
+    equipment = {"calorimeter": "20 ± 3 J/K", "resolution": "0.01", "noise": "0.005", "temperature": "22"}
+    r = client.get("/plan", query_string={"kind": "dissolution", "go": "1", **amounts, **equipment})
     html = r.get_data(as_text=True)
     want = plan_run(
         "dissolution",
-        formula="KCl",
-        mass="2.50 ± 0.01 g",
-        water_volume="100.0 ± 0.5 mL",
+        **amounts,
         calorimeter_heat_capacity="20 ± 3 J/K",
         thermometer_resolution=0.01,
         thermometer_noise=0.005,
-        temperature=295.15,
+        temperature=295.15,  # 22 °C
     )
     assert r.status_code == 200
     assert want.limiting in html and "Cautions" in html and "eye protection" in html
