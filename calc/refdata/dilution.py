@@ -151,13 +151,13 @@ def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]
     out = {}
     for salt, source in WIDE_RANGE_SOURCES.items():
         mine = [r for r in rows if r["formula"] == salt]
-        s = np.unique([float(r["sqrt_m"]) for r in mine])
-        t = np.unique([float(r["t_C"]) for r in mine])
+        rows_s, rows_t = (np.array([float(r[c]) for r in mine]) for c in ("sqrt_m", "t_C"))
+        s, t = np.unique(rows_s), np.unique(rows_t)
         short = np.full((s.size, t.size), np.nan)
         u = np.full((s.size, t.size), np.nan)
-        for r in mine:
-            i, j = np.searchsorted(s, float(r["sqrt_m"])), np.searchsorted(t, float(r["t_C"]))
-            short[i, j], u[i, j] = float(r["phi_L_sr"]), float(r["u_spread"])
+        i, j = np.searchsorted(s, rows_s), np.searchsorted(t, rows_t)  # all rows at once: 3680 rows
+        short[i, j] = [float(r["phi_L_sr"]) for r in mine]
+        u[i, j] = [float(r["u_spread"]) for r in mine]
         if np.isnan(short).any():
             raise InputError(
                 f"calc/refdata/data/{_WIDE_RANGE_FILE}: the grid of {salt} has holes (expected every √m × t_C)"

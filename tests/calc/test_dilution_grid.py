@@ -85,3 +85,18 @@ def test_kcl_phi_L_does_not_import_scipy_interpolate():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_a_hole_in_the_grid_is_named(monkeypatch):
+    import io
+
+    from calc.errors import InputError
+    from calc.refdata import dilution
+
+    with dilution.open_data("phi_L_wide_range.csv") as fh:
+        lines = fh.read().splitlines(keepends=True)
+    hole = next(i for i, line in enumerate(lines) if line.startswith("KCl,17,1.2000,"))
+    text = "".join(lines[:hole] + lines[hole + 1 :])
+    monkeypatch.setattr(dilution, "open_data", lambda name: io.StringIO(text))
+    with pytest.raises(InputError, match=r"phi_L_wide_range\.csv: the grid of KCl has holes"):
+        dilution._wide_range_tables.__wrapped__()
