@@ -14,6 +14,8 @@ from __future__ import annotations
 
 import importlib
 import importlib.util
+import os
+from collections.abc import MutableMapping
 from typing import Any, NamedTuple
 
 import click
@@ -151,8 +153,25 @@ def cli() -> None:
     """Coffee-cup solution calorimetry with honest measurement uncertainty."""
 
 
+#: What OpenBLAS (numpy's and scipy's BLAS) reads for its thread count, in its order of precedence.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS", "OMP_NUM_THREADS")
+
+
+def single_threaded_blas(environ: MutableMapping[str, str]) -> None:
+    """Ask for one BLAS thread unless the user chose a number (any of :data:`BLAS_THREAD_VARIABLES`).
+
+    Every matrix cupcal builds is small, so BLAS's thread pools never share work; but each library
+    starts its pool when it loads and the threads spin for a while: 0.1–0.2 s of CPU per
+    `cupcal analyze`, and as much wall time when the other cores are busy (issue 14, measured with
+    tests/benchmarks/test_startup.py). Must run before numpy or scipy is imported.
+    """
+    if not any(name in environ for name in BLAS_THREAD_VARIABLES):
+        environ["OPENBLAS_NUM_THREADS"] = "1"
+
+
 def main() -> None:
     """Run the ``cupcal`` command line."""
+    single_threaded_blas(os.environ)
     cli(prog_name="cupcal")
 
 

@@ -13,7 +13,6 @@ import csv
 import math
 from dataclasses import dataclass
 from functools import lru_cache
-from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -24,9 +23,6 @@ from calc.refdata.formula import element_composition
 from calc.refdata.solutes import dissolution_products, strip_state
 from calc.refdata.species import T_REF_K, citation
 from calc.refdata.water import R_GAS, debye_huckel_slopes
-
-if TYPE_CHECKING:
-    from scipy.interpolate import RegularGridInterpolator
 
 __all__ = [
     "WIDE_RANGE_MODEL",
@@ -86,9 +82,9 @@ def model_spread_u(molality: float) -> float:
 #: Source id (``sources.toml``) of each salt's wide-range table.
 WIDE_RANGE_SOURCES = {"NaCl": "PHIL_A92", "KCl": "PHIL_A99", "HCl": "PHIL_CMR93"}
 WIDE_RANGE_MODEL = "Pitzer wide-range model, tabulated"
-#: Interpolation term, kJ/mol: the cubic interpolant in (√m, t) was at most 0.00014 kJ/mol from
-#: the models themselves at 63 points per salt between the grid lines (0.5–49.5 °C, 0.003–4.4
-#: mol/kg; docs/methods.md §4.6); rounded up to 0.001.
+#: Interpolation term, kJ/mol: the cubic interpolant in (√m, t) was at most 0.0002 kJ/mol from the
+#: models themselves at 176–200 points per salt between the grid lines (0.5–49.5 °C, 0.0025–5.9
+#: mol/kg; tests/tools/check_phi_L_interpolation.py, docs/methods.md §4.6); rounded up to 0.001.
 U_INTERPOLATION = 0.001
 #: Relative standard uncertainty of calc's Debye–Hückel term (A_H from IAPWS-95) where the table's
 #: models used Archer & Wang's (1990) A_φ: the two A_H differ by up to 3.3 % over 0–50 °C (measured),
@@ -96,12 +92,53 @@ U_INTERPOLATION = 0.001
 U_REL_LONG_RANGE = 0.02
 
 
+def _spline_moments(x: np.ndarray) -> np.ndarray:
+    """Return K with K @ y = the second derivatives at ``x`` of the not-a-knot cubic spline through y.
+
+    The classical moment equations (continuous first derivative at the inner knots) with not-a-knot
+    ends (continuous third derivative at x[1] and x[-2]); needs at least 4 points. A few lines of numpy
+    instead of scipy.interpolate, whose import costs 0.15–0.3 s of a `cupcal analyze` (issue 14);
+    checked against scipy's RegularGridInterpolator(method="cubic") in tests/calc/test_dilution_grid.py.
+    """
+    n, h = x.size, np.diff(x)
+    A, D = np.zeros((n, n)), np.zeros((n, n))
+    for i in range(1, n - 1):
+        A[i, i - 1 : i + 2] = h[i - 1], 2.0 * (h[i - 1] + h[i]), h[i]
+        D[i, i - 1 : i + 2] = 6.0 / h[i - 1], -6.0 / h[i - 1] - 6.0 / h[i], 6.0 / h[i]
+    A[0, :3] = h[1], -(h[0] + h[1]), h[0]
+    A[-1, -3:] = h[-1], -(h[-2] + h[-1]), h[-2]
+    return np.linalg.solve(A, D)
+
+
+def _weights(x: np.ndarray, x0: float, K: np.ndarray | None) -> np.ndarray:
+    """Return w with w @ y = the interpolant through (x, y) at x0: linear, or the cubic spline of moments K @ y."""
+    i = min(max(int(np.searchsorted(x, x0, side="right")) - 1, 0), x.size - 2)
+    h = float(x[i + 1] - x[i])
+    a = (float(x[i + 1]) - x0) / h
+    b = 1.0 - a
+    w = np.zeros(x.size)
+    w[i], w[i + 1] = a, b
+    if K is not None:
+        w += h * h / 6.0 * ((a**3 - a) * K[i] + (b**3 - b) * K[i + 1])
+    return w
+
+
 @dataclass(frozen=True)
 class _Table:
-    short: RegularGridInterpolator  # (√m, t/°C) → short-range part of φ_L, kJ/mol
-    u: RegularGridInterpolator  # (√m, t/°C) → model-spread standard uncertainty, kJ/mol
+    s: np.ndarray  # √m grid, (mol/kg)^1/2
+    t: np.ndarray  # t grid, °C
+    short: np.ndarray  # short-range part of φ_L on the grid (√m × t), kJ/mol; interpolated cubically
+    u: np.ndarray  # model-spread standard uncertainty on the grid, kJ/mol; interpolated linearly
+    k_s: np.ndarray  # spline moments along √m (:func:`_spline_moments`)
+    k_t: np.ndarray  # spline moments along t
     m_max: float
     t_range: tuple[float, float]
+
+    def at(self, s0: float, t0: float) -> tuple[float, float]:
+        """Return (short-range part, u_spread) at (√m, t/°C): tensor-product cubic spline, bilinear."""
+        short = _weights(self.s, s0, self.k_s) @ self.short @ _weights(self.t, t0, self.k_t)
+        u = _weights(self.s, s0, None) @ self.u @ _weights(self.t, t0, None)
+        return float(short), float(u)
 
 
 _WIDE_RANGE_FILE = "phi_L_wide_range.csv"
@@ -109,28 +146,29 @@ _WIDE_RANGE_FILE = "phi_L_wide_range.csv"
 
 @lru_cache(maxsize=1)
 def _wide_range_tables() -> dict[tuple[tuple[str, int], ...], tuple[str, _Table]]:
-    # imported here: scipy.interpolate costs 0.15–0.3 s of start-up, and most analyses never read the tables
-    from scipy.interpolate import RegularGridInterpolator
-
     with open_data(_WIDE_RANGE_FILE) as fh:
         rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
     out = {}
     for salt, source in WIDE_RANGE_SOURCES.items():
         mine = [r for r in rows if r["formula"] == salt]
-        s = np.unique([float(r["sqrt_m"]) for r in mine])
-        t = np.unique([float(r["t_C"]) for r in mine])
+        rows_s, rows_t = (np.array([float(r[c]) for r in mine]) for c in ("sqrt_m", "t_C"))
+        s, t = np.unique(rows_s), np.unique(rows_t)
         short = np.full((s.size, t.size), np.nan)
         u = np.full((s.size, t.size), np.nan)
-        for r in mine:
-            i, j = np.searchsorted(s, float(r["sqrt_m"])), np.searchsorted(t, float(r["t_C"]))
-            short[i, j], u[i, j] = float(r["phi_L_sr"]), float(r["u_spread"])
+        i, j = np.searchsorted(s, rows_s), np.searchsorted(t, rows_t)  # all rows at once: 3680 rows
+        short[i, j] = [float(r["phi_L_sr"]) for r in mine]
+        u[i, j] = [float(r["u_spread"]) for r in mine]
         if np.isnan(short).any():
             raise InputError(
                 f"calc/refdata/data/{_WIDE_RANGE_FILE}: the grid of {salt} has holes (expected every √m × t_C)"
             )
         table = _Table(
-            RegularGridInterpolator((s, t), short, method="cubic"),
-            RegularGridInterpolator((s, t), u, method="linear"),
+            s,
+            t,
+            short,
+            u,
+            _spline_moments(s),
+            _spline_moments(t),
             max(float(r["m"]) for r in mine),
             (float(t[0]), float(t[-1])),
         )
@@ -151,10 +189,10 @@ def _from_wide_range(comp: tuple[tuple[str, int], ...], m: float, T: float, A_H:
     t = T - 273.15
     if m > table.m_max * (1 + 1e-9) or not (table.t_range[0] <= t <= table.t_range[1]):
         return None
-    x = [[min(math.sqrt(m), float(table.short.grid[0][-1])), t]]  # the last √m is rounded in the file
+    short, u_spread = table.at(min(math.sqrt(m), float(table.s[-1])), t)  # the last √m is rounded in the file
     long_range = _long_range(m, A_H)
-    value = long_range + float(table.short(x)[0])
-    u = math.hypot(float(table.u(x)[0]), U_REL_LONG_RANGE * long_range, U_INTERPOLATION)
+    value = long_range + short
+    u = math.hypot(u_spread, U_REL_LONG_RANGE * long_range, U_INTERPOLATION)
     return PhiL(value, u, WIDE_RANGE_MODEL, citation(source))
 
 
