@@ -272,6 +272,27 @@ def _window_variances(resid: np.ndarray, n_fore: int) -> tuple[np.ndarray, float
     return np.concatenate([np.full(n_fore, v_f), np.full(ra.size, v_a)]), max(rho_f, rho_a)
 
 
+def _newton_fit(
+    params: np.ndarray,
+    J: np.ndarray,
+    omega: np.ndarray,
+    times: tuple[float | None, float],
+    s2: float,
+    rho: float,
+    converged: bool,
+) -> NewtonFit:
+    """Return a Newtonian fit with the sandwich covariance A⁻¹(JᵀΩJ)A⁻¹, Ω = diag(omega), A = JᵀJ."""
+    n, p = J.shape
+    try:
+        a_inv = np.linalg.inv(J.T @ J)
+        cov = a_inv @ (J.T @ (J * omega[:, None])) @ a_inv
+    except np.linalg.LinAlgError:
+        cov = np.full((p, p), np.inf)
+    t_i, t_f = times
+    dof = max(n / inflation(rho) - p, 1.0)
+    return NewtonFit(params, cov, t_i, t_f, math.sqrt(s2), rho, n, dof, converged)
+
+
 def fit_newton_joint(
     t_fore: np.ndarray,
     y_fore: np.ndarray,
@@ -314,22 +335,7 @@ def fit_newton_joint(
     p = 4
     s2 = float(np.dot(resid, resid)) / max(n - p, 1)
     omega, rho = _window_variances(resid, nf_)
-    try:
-        a_inv = np.linalg.inv(J.T @ J)
-        cov = a_inv @ (J.T @ (J * omega[:, None])) @ a_inv
-    except np.linalg.LinAlgError:
-        cov = np.full((4, 4), np.inf)
-    return NewtonFit(
-        params=np.array([y_i, y_f, g_i, k]),
-        cov=cov,
-        t_i=t_i,
-        t_f=t_f,
-        s=math.sqrt(s2),
-        rho=rho,
-        n=n,
-        dof=max(n / inflation(rho) - p, 1.0),
-        converged=converged,
-    )
+    return _newton_fit(np.array([y_i, y_f, g_i, k]), J, omega, (t_i, t_f), s2, rho, converged)
 
 
 def fit_newton_single(
@@ -352,18 +358,5 @@ def fit_newton_single(
     rho = max(lag1_autocorrelation(resid), rho_min)
     f = inflation(rho)
     s2 = float(np.dot(resid, resid)) / _resid_dof(n, 3, f)
-    try:
-        cov = f * s2 * np.linalg.inv(J.T @ J)
-    except np.linalg.LinAlgError:
-        cov = np.full((3, 3), np.inf)
-    return NewtonFit(
-        params=np.array([beta[0], beta[1], k]),
-        cov=cov,
-        t_i=None,
-        t_f=t_f,
-        s=math.sqrt(s2),
-        rho=rho,
-        n=n,
-        dof=max(n / f - 3, 1.0),
-        converged=converged,
-    )
+    omega = np.full(n, f * s2)
+    return _newton_fit(np.array([beta[0], beta[1], k]), J, omega, (None, t_f), s2, rho, converged)

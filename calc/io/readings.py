@@ -113,14 +113,8 @@ def read_readings(
         The temperature column to read from an export with several (header name or
         1-based column number; :mod:`calc.io.logger_formats`).
 
-    Returns
-    -------
-    Readings
-
-    Raises
-    ------
-    InputError
-        If the file cannot be read, is not text, or fails a check of :func:`parse_readings`.
+    Returns the :class:`Readings`; raises :class:`InputError` if the file cannot be read, is not
+    text, or fails a check of :func:`parse_readings`.
     """
     name = source if source is not None else os.fspath(path)
     data = read_limited(
@@ -149,15 +143,8 @@ def parse_readings(text: str, *, source: str, column: str | int | None = None) -
     column:
         The temperature column to read (see :func:`read_readings`).
 
-    Returns
-    -------
-    Readings
-
-    Raises
-    ------
-    InputError
-        Naming the line and what was expected, for the problems listed in the module
-        docstring.
+    Returns the :class:`Readings`; raises :class:`InputError`, naming the line and what was
+    expected, for the problems listed in the module docstring.
     """
     limits.require_size(len(text), "readings_bytes", what=f"the readings file ({len(text)} characters)", source=source)
     lines = (text[1:] if text.startswith("\ufeff") else text).splitlines()

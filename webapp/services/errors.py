@@ -15,6 +15,11 @@ class ServiceError(Exception):
 
     status = 400
 
+    def __init_subclass__(cls, *, status: int | None = None, **kwargs: object) -> None:
+        super().__init_subclass__(**kwargs)
+        if status is not None:
+            cls.status = status
+
     def __init__(self, message: str, *, field: str | None = None) -> None:
         super().__init__(message)
         self.message = message
@@ -24,40 +29,28 @@ class ServiceError(Exception):
         return self.message
 
 
-class Invalid(ServiceError):
+class Invalid(ServiceError, status=400):
     """Bad input (the message names the field and what was expected)."""
 
-    status = 400
 
-
-class TooLarge(ServiceError):
+class TooLarge(ServiceError, status=413):
     """A limit of calc.limits (or of the notebook) was passed; the message names it."""
 
-    status = 413
 
-
-class NotSignedIn(ServiceError):
+class NotSignedIn(ServiceError, status=401):
     """The request carries no valid session or token."""
 
-    status = 401
 
-
-class Forbidden(ServiceError):
+class Forbidden(ServiceError, status=403):
     """The person may not do this."""
 
-    status = 403
 
-
-class NotFound(ServiceError):
+class NotFound(ServiceError, status=404):
     """No such thing, or not one the person may see."""
 
-    status = 404
 
-
-class Conflict(ServiceError):
+class Conflict(ServiceError, status=409):
     """The thing exists already, or is locked."""
-
-    status = 409
 
 
 def get_or_not_found(session: so.Session, model: type[_Row], ident: int, what: str, field: str) -> _Row:
@@ -75,10 +68,8 @@ class RunLocked(Conflict):
     """The run is signed: nothing about it may change."""
 
 
-class StorageUnavailable(ServiceError):
+class StorageUnavailable(ServiceError, status=503):
     """The database could not store or read (disk full, server gone, lock held too long)."""
-
-    status = 503
 
 
 class StorageFull(StorageUnavailable):
@@ -124,7 +115,5 @@ class Stale(Conflict):
         self.current = current or {}
 
 
-class VersionRequired(ServiceError):
+class VersionRequired(ServiceError, status=428):
     """A write that must say which version it changes (If-Match or ``version``) did not."""
-
-    status = 428
