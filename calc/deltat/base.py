@@ -22,6 +22,7 @@ import numpy as np
 from calc.deltat.constructions import Construction
 from calc.deltat.drift import LineFit, fit_line
 from calc.deltat.periods import Periods
+from calc.deltat.quantisation import dither_variance
 from calc.errors import AnalysisError
 
 __all__ = [
@@ -74,7 +75,7 @@ class Log:
         """Return the straight-line fit of the whole 'fore' or 'after' period (cached)."""
         fit = self._lines.get(which)
         if fit is None:
-            fit = self._lines[which] = fit_line(*self.window(which))
+            fit = self._lines[which] = fit_line(*self.window(which), q=self.resolution)
         return fit
 
     def window(self, which: str) -> tuple[np.ndarray, np.ndarray]:
@@ -170,7 +171,7 @@ def resolution_term(q: float, s: float, steps: float = 0.0) -> float:
     """
     if q <= 0:
         return 0.0
-    sigma2 = max(s * s - q * q / 12.0, 0.0)
+    sigma2 = dither_variance(s, q)
     factor = math.exp(-2.0 * math.pi**2 * sigma2 / (q * q))
     return q / math.sqrt(12.0) * factor * sweep_factor(steps)
 
@@ -218,7 +219,7 @@ def line_fits(log: Log) -> tuple[LineFit, LineFit]:
         mf = np.ones_like(tf_, dtype=bool)
     if np.count_nonzero(ma) < 8:
         ma = np.ones_like(ta_, dtype=bool)
-    return fit_line(tf_[mf], yf_[mf]), fit_line(ta_[ma], ya_[ma])
+    return fit_line(tf_[mf], yf_[mf], q=log.resolution), fit_line(ta_[ma], ya_[ma], q=log.resolution)
 
 
 def read_lines_at(

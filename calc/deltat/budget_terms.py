@@ -23,6 +23,7 @@ import numpy as np
 from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
 from calc.deltat.drift import decay_integral, fit_newton_single
+from calc.deltat.quantisation import dither_variance
 
 __all__ = [
     "slope_floor",
@@ -52,7 +53,7 @@ def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
     """
     if q <= 0 or length <= 0:
         return 0.0
-    sigma2 = max(s * s - q * q / 12.0, 0.0)
+    sigma2 = dither_variance(s, q)
     return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q)) * sweep_factor(steps)
 
 
@@ -116,7 +117,7 @@ def inadequacy_term(log: Log, dt: DeltaT) -> tuple[float, float]:
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     fore = log.line("fore")
     # started from the joint law's k, a few steps suffice; an unconverged fit gives no term
-    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.k_per_s, 0.0), max_iter=8)
+    nf = fit_newton_single(ta_, ya_, t_f, k0=max(c.k_per_s, 0.0), max_iter=8, q=log.resolution)
     if not nf.converged or not np.all(np.isfinite(nf.cov)):
         return 0.0, 0.0
     y_f, g_f, k = nf.params

@@ -15,6 +15,8 @@ from typing import cast
 
 import numpy as np
 
+from calc.deltat.quantisation import split_sawtooth
+
 __all__ = [
     "LineFit",
     "fit_line",
@@ -22,6 +24,7 @@ __all__ = [
     "fit_newton_joint",
     "fit_newton_single",
     "lag1_autocorrelation",
+    "pooled_lag1",
     "inflation",
     "decay_integral",
 ]
@@ -74,6 +77,22 @@ def inflation(rho: float) -> float:
     return (1.0 + rho) / (1.0 - rho)
 
 
+def _reading_variance(
+    resid: np.ndarray, fitted: np.ndarray, p: int, q: float, rho_min: float = 0.0
+) -> tuple[float, float, float]:
+    """Return (each reading's variance for the covariance, the residual variance for ``s``, ρ).
+
+    The thermometer's predicted sawtooth (:func:`split_sawtooth`) is taken out before the noise's
+    lag-1 autocorrelation and variance are estimated; its own variance enters uninflated
+    (docs/methods.md §8.2). With q = 0 this is f·RSS/(n − p·f) and RSS/(n − p·f).
+    """
+    noise, saw_var = split_sawtooth(resid, fitted, q)
+    rho = max(lag1_autocorrelation(noise), rho_min)
+    f = inflation(rho)
+    s2 = float(np.dot(noise, noise)) / _resid_dof(noise.size, p, f)
+    return f * s2 + saw_var, s2 + saw_var, rho
+
+
 def _resid_dof(n: int, p: int, f: float) -> float:
     """Return the divisor that makes a residual sum of squares an unbiased noise variance.
 
@@ -113,11 +132,12 @@ class LineFit:
         return self.a
 
 
-def fit_line(t: np.ndarray, y: np.ndarray, rho_min: float = 0.0) -> LineFit:
+def fit_line(t: np.ndarray, y: np.ndarray, rho_min: float = 0.0, q: float = 0.0) -> LineFit:
     """Fit a straight line with centred time and AR(1)-inflated covariance.
 
     ``rho_min``: a lag-1 autocorrelation known from elsewhere (the other window of the same log);
-    the residuals' own estimate is used when it is larger.
+    the residuals' own estimate is used when it is larger. ``q``: the thermometer resolution, K,
+    whose sawtooth share of the scatter is not inflated (:func:`_reading_variance`).
     """
     n = t.size
     tm = float(t.mean())
@@ -126,16 +146,15 @@ def fit_line(t: np.ndarray, y: np.ndarray, rho_min: float = 0.0) -> LineFit:
     a = float(y.mean())
     b = float(np.dot(tc, y - a) / stt) if stt > 0 else 0.0
     resid = y - a - b * tc
-    rho = max(lag1_autocorrelation(resid), rho_min)
+    v, s2, rho = _reading_variance(resid, y - resid, 2, q, rho_min)
     f = inflation(rho)
-    s2 = float(np.dot(resid, resid)) / _resid_dof(n, 2, f)
     n_eff = n / f
     return LineFit(
         a=a,
         b=b,
         t_mean=tm,
-        var_a=f * s2 / n,
-        var_b=f * s2 / stt if stt > 0 else math.inf,
+        var_a=v / n,
+        var_b=v / stt if stt > 0 else math.inf,
         s=math.sqrt(s2),
         rho=rho,
         n=n,
@@ -258,18 +277,20 @@ def _varpro(
     return k, beta, X, np.column_stack([X, dk_of(beta)]), converged
 
 
-def _window_variances(resid: np.ndarray, n_fore: int) -> tuple[np.ndarray, float]:
+def _window_variances(resid: np.ndarray, fitted: np.ndarray, n_fore: int, q: float = 0.0) -> tuple[np.ndarray, float]:
     """Return each reading's noise variance, AR(1)-inflated per window, and the larger lag-1 autocorrelation."""
-    rf = resid[:n_fore]
-    ra = resid[n_fore:]
+    (rf, saw_f), (ra, saw_a) = (
+        split_sawtooth(r, y, q) for r, y in ((resid[:n_fore], fitted[:n_fore]), (resid[n_fore:], fitted[n_fore:]))
+    )
     # one stirrer and one logger: the noise has one correlation time in both windows, and a short
     # window's own estimate is low and scattered, so each window takes the larger of its own
     # estimate and the pooled one (docs/methods.md §8.4)
-    rho_f = rho_a = max(lag1_autocorrelation(rf), lag1_autocorrelation(ra), pooled_lag1(rf, ra))
-    # two of the four parameters belong to each window
-    v_f = inflation(rho_f) * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, inflation(rho_f))
-    v_a = inflation(rho_a) * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, inflation(rho_a))
-    return np.concatenate([np.full(n_fore, v_f), np.full(ra.size, v_a)]), max(rho_f, rho_a)
+    rho = max(lag1_autocorrelation(rf), lag1_autocorrelation(ra), pooled_lag1(rf, ra))
+    f = inflation(rho)
+    # two of the four parameters belong to each window; the sawtooth's share is not inflated (§8.2)
+    v_f = f * float(np.dot(rf, rf)) / _resid_dof(rf.size, 2, f) + saw_f
+    v_a = f * float(np.dot(ra, ra)) / _resid_dof(ra.size, 2, f) + saw_a
+    return np.concatenate([np.full(n_fore, v_f), np.full(ra.size, v_a)]), rho
 
 
 def _newton_fit(
@@ -301,8 +322,9 @@ def fit_newton_joint(
     t_i: float,
     t_f: float,
     k0: float = 0.0,
+    q: float = 0.0,
 ) -> NewtonFit:
-    """Fit fore and after windows jointly with one Newtonian drift law.
+    """Fit fore and after windows jointly with one Newtonian drift law (``q`` as in :func:`fit_line`).
 
     Variable projection: for fixed k the model is linear in (y_i, y_f, g_i). The
     covariance is a sandwich A⁻¹(JᵀΩJ)A⁻¹ in which each window keeps its own noise
@@ -334,14 +356,20 @@ def fit_newton_joint(
     n = y.size
     p = 4
     s2 = float(np.dot(resid, resid)) / max(n - p, 1)
-    omega, rho = _window_variances(resid, nf_)
+    omega, rho = _window_variances(resid, y - resid, nf_, q)
     return _newton_fit(np.array([y_i, y_f, g_i, k]), J, omega, (t_i, t_f), s2, rho, converged)
 
 
 def fit_newton_single(
-    t: np.ndarray, y: np.ndarray, t_f: float, k0: float = 0.0, max_iter: int = 30, rho_min: float = 0.0
+    t: np.ndarray,
+    y: np.ndarray,
+    t_f: float,
+    k0: float = 0.0,
+    max_iter: int = 30,
+    rho_min: float = 0.0,
+    q: float = 0.0,
 ) -> NewtonFit:
-    """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k; ``rho_min`` as in :func:`fit_line`).
+    """Fit one window with ``y = y_f + g_f φ(t − t_f)`` (Newtonian drift, own k; ``rho_min``, ``q`` as in :func:`fit_line`).
 
     Used for the after period of two-solution runs, whose heat-exchange constant
     differs from the fore period's (docs/methods.md §2.3, two-solution caveat).
@@ -355,8 +383,6 @@ def fit_newton_single(
     k, beta, X, J, converged = _varpro(model, y, k0, max_iter)
     resid = y - X @ beta
     n = y.size
-    rho = max(lag1_autocorrelation(resid), rho_min)
-    f = inflation(rho)
-    s2 = float(np.dot(resid, resid)) / _resid_dof(n, 3, f)
-    omega = np.full(n, f * s2)
+    v, s2, rho = _reading_variance(resid, y - resid, 3, q, rho_min)
+    omega = np.full(n, v)
     return _newton_fit(np.array([beta[0], beta[1], k]), J, omega, (None, t_f), s2, rho, converged)

@@ -26,6 +26,7 @@ from calc.deltat.drift import (
     fit_newton_single,
     pooled_lag1,
 )
+from calc.deltat.quantisation import split_sawtooth
 
 __all__ = ["regnault_pfaundler", "classic_k", "fore_curvature"]
 
@@ -132,11 +133,14 @@ def _one_noise_correlation(log: Log, fore: LineFit, nf: NewtonFit) -> tuple[Line
     y_f, g_f, k = (float(v) for v in nf.params)
     resid_f = yf_ - (fore.a + fore.b * (tf_ - fore.t_mean))
     resid_a = ya_ - (y_f + g_f * decay_integral(k, ta_ - float(nf.t_f)))
-    rho = max(fore.rho, nf.rho, pooled_lag1(resid_f, resid_a))
+    # the thermometer's sawtooth is not noise (docs/methods.md §8.2)
+    noise_f = split_sawtooth(resid_f, yf_ - resid_f, log.resolution)[0]
+    noise_a = split_sawtooth(resid_a, ya_ - resid_a, log.resolution)[0]
+    rho = max(fore.rho, nf.rho, pooled_lag1(noise_f, noise_a))
     if rho > fore.rho:
-        fore = fit_line(tf_, yf_, rho_min=rho)
+        fore = fit_line(tf_, yf_, rho_min=rho, q=log.resolution)
     if rho > nf.rho:
-        nf = fit_newton_single(ta_, ya_, float(nf.t_f), k0=k, rho_min=rho)
+        nf = fit_newton_single(ta_, ya_, float(nf.t_f), k0=k, rho_min=rho, q=log.resolution)
     return fore, nf
 
 
@@ -145,7 +149,7 @@ def _two_solution(log: Log, fore: LineFit, parts: tuple[float, float, float]) ->
     inner, w_a, w_b = parts
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     ta_, ya_ = log.window("after")
-    nf = fit_newton_single(ta_, ya_, t_f, k0=0.0)
+    nf = fit_newton_single(ta_, ya_, t_f, k0=0.0, q=log.resolution)
     fore, nf = _one_noise_correlation(log, fore, nf)
     quad = fore_curvature(log, fore, max(nf.k, 0.0))
     bend = quad[0]
@@ -166,7 +170,7 @@ def _one_solution(log: Log, fore: LineFit, after: LineFit, parts: tuple[float, f
     inner, w_a, w_b = parts
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     tf_, yf_, ta_, ya_ = need_windows(log)
-    nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=classic_k(fore, after))
+    nf = fit_newton_joint(tf_, yf_, ta_, ya_, t_i, t_f, k0=classic_k(fore, after), q=log.resolution)
 
     def dT_of(p: np.ndarray) -> float:
         y_i, y_f, g_i, k = p

@@ -83,23 +83,24 @@ def test_monte_carlo_time_per_run(run_files):
 
 def test_memory_is_flat_over_10000_runs(run_files):
     args = ["--json", "--monte-carlo", "0", *map(str, run_files * (10_000 // len(run_files)))]
-    p = subprocess.Popen(
+    samples = []  # (lines read, rss MB)
+    n = 0
+    # the context closes the pipe (an open one is a ResourceWarning, an error under filterwarnings)
+    with subprocess.Popen(
         [sys.executable, "-m", "calc.cli", "analyze", *args],
         stdout=subprocess.PIPE,
         stderr=subprocess.DEVNULL,
         text=True,
-    )
-    proc = psutil.Process(p.pid)
-    samples = []  # (lines read, rss MB)
-    n = 0
-    for _line in p.stdout:
-        n += 1
-        if n % 500 == 0:
-            try:
-                samples.append((n, proc.memory_info().rss / 2**20))
-            except psutil.NoSuchProcess:
-                break
-    p.wait()
+    ) as p:
+        proc = psutil.Process(p.pid)
+        assert p.stdout is not None
+        for _line in p.stdout:
+            n += 1
+            if n % 500 == 0:
+                try:
+                    samples.append((n, proc.memory_info().rss / 2**20))
+                except psutil.NoSuchProcess:
+                    break
     assert n == 10_000
     peak = max(r for _, r in samples)
     early = statistics.mean(r for k, r in samples if 1000 <= k <= 2000)
