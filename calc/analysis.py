@@ -277,7 +277,7 @@ def _extra_terms(log: Log, dt: DeltaT, method_name: str, prep: PreparedLog) -> N
 
     p = log.periods
     dt.u_mixing_time = max(dt.u_mixing_time, mixing_time_term(log, METHODS[method_name], dt.value))
-    dt.u_drift_resolution = quantisation_drift_term(log, dt.value)
+    dt.u_drift_resolution = quantisation_drift_term(log, dt)
     if method_name == "regnault-pfaundler":
         u_dis, diff = inadequacy_term(log, dt)
         dt.u_model = math.hypot(u_dis, room_drift_term(log, dt, METHODS[method_name]))

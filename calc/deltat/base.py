@@ -104,6 +104,9 @@ class DeltaT:
     warnings: list[str] = field(default_factory=list)
     u_drift_resolution: float = 0.0  # quantisation floor of the drift slopes, rectangular
     u_model: float = 0.0  # model inadequacy (disagreement of applicable drift laws), rectangular
+    #: ∂ΔT/∂(a hidden slope in the fore window's readings, in the after window's), s; None where
+    #: the method has no fit to propagate it through (the drift correction's half-and-half split is used)
+    slope_sensitivity_s: tuple[float, float] | None = None
 
     @property
     def u(self) -> float:

@@ -57,8 +57,13 @@ def slope_floor(q: float, s: float, length: float, steps: float = 0.0) -> float:
     return q / (length * math.sqrt(12.0)) * math.exp(-2.0 * math.pi**2 * sigma2 / (q * q)) * sweep_factor(steps)
 
 
-def quantisation_drift_term(log: Log, dt_value: float) -> float:
-    """Return the ΔT standard uncertainty from the slopes' quantisation floors (K)."""
+def quantisation_drift_term(log: Log, dt: DeltaT) -> float:
+    """Return the ΔT standard uncertainty from the slopes' quantisation floors (K).
+
+    Each window's floor is carried to ΔT by the method's own sensitivity to a slope hidden in that
+    window (``dt.slope_sensitivity_s``) where the method has one; otherwise the drift correction is
+    taken to use the fore slope over half the main period and the after slope over the other half.
+    """
     q = log.resolution
     if q <= 0:
         return 0.0
@@ -71,6 +76,9 @@ def quantisation_drift_term(log: Log, dt_value: float) -> float:
     len_f, len_a = float(tf_[-1] - tf_[0]), float(ta_[-1] - ta_[0])
     u_bf = slope_floor(q, lf.s, len_f, abs(lf.b) * len_f / q)
     u_ba = slope_floor(q, la.s, len_a, abs(la.b) * len_a / q)
+    if dt.slope_sensitivity_s is not None:
+        sens_f, sens_a = dt.slope_sensitivity_s
+        return math.hypot(sens_f * u_bf, sens_a * u_ba)
     dur = max(p.main_end - p.mixing_time, 0.0)
     # the drift correction takes the fore drift over about the first part of the main period
     # and the after drift over the rest; half and half is the fair split without more knowledge

@@ -197,6 +197,7 @@ class NewtonFit:
     n: int
     dof: float
     converged: bool
+    jacobian: np.ndarray | None = None  # ∂(model)/∂(params) at the solution, one row a reading
 
     @property
     def k(self) -> float:
@@ -311,7 +312,7 @@ def _newton_fit(
         cov = np.full((p, p), np.inf)
     t_i, t_f = times
     dof = max(n / inflation(rho) - p, 1.0)
-    return NewtonFit(params, cov, t_i, t_f, math.sqrt(s2), rho, n, dof, converged)
+    return NewtonFit(params, cov, t_i, t_f, math.sqrt(s2), rho, n, dof, converged, J)
 
 
 def fit_newton_joint(

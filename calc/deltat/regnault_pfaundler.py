@@ -212,11 +212,8 @@ def regnault_pfaundler(log: Log) -> DeltaT:
     setup = _two_solution(log, fore, parts) if log.two_solution else _one_solution(log, fore, after, parts)
     nf, k = setup.fit, setup.fit.k
     value = setup.delta_t_of(nf.params)
-    var = (
-        _quad_form(_numgrad(setup.delta_t_of, nf.params, nf.cov), nf.cov)
-        + setup.extra_var
-        + (k * nf.s) ** 2 * float(np.dot(w, w))
-    )
+    grad = _numgrad(setup.delta_t_of, nf.params, nf.cov)
+    var = _quad_form(grad, nf.cov) + setup.extra_var + (k * nf.s) ** 2 * float(np.dot(w, w))
     u_k = math.sqrt(max(nf.cov[setup.i_k, setup.i_k], 0.0))
     warnings = [setup.not_newtonian] if k < 0 and abs(k) > 2 * u_k else []
     res_start, res_end = resolution_terms(log)
@@ -234,4 +231,40 @@ def regnault_pfaundler(log: Log) -> DeltaT:
         end_temperature=setup.start + value,
         construction=_construction(log, setup, u_k, fore, after),
         warnings=warnings,
+        slope_sensitivity_s=_slope_sensitivity(log, setup, grad, w_a),
     )
+
+
+def _slope_sensitivity(log: Log, setup: _Setup, grad: np.ndarray, w_a: float) -> tuple[float, float] | None:
+    """Return ∂ΔT/∂b for a slope b hidden in the fore window's readings, and in the after window's (s).
+
+    A thermometer's staircase can hide a slope in a window (docs/methods.md §8.2). Its effect on ΔT
+    goes through this method's own fit: readings moved by b·(t − t̄) over one window move the
+    parameters by (JᵀJ)⁻¹Jᵀ·ramp (linearised at the solution) and ΔT by its gradient times that.
+    One Newtonian law for both windows lets the long window pin the short one's slope, which a
+    half-and-half split of the main period cannot see. Two solutions: the fore line's level at
+    the mixing time moves by b·(t_i − t̄), and ΔT takes it with −1 + k·w_a.
+    """
+    nf = setup.fit
+    J = nf.jacobian
+    if J is None or not np.all(np.isfinite(J)):
+        return None
+    tf_, _ = log.window("fore")
+    ta_, _ = log.window("after")
+
+    def through_fit(ramp: np.ndarray) -> float:
+        moved, *_ = np.linalg.lstsq(J, ramp, rcond=None)
+        return float(grad @ moved)
+
+    # the ramps pivot on each window's centre, where a straight line's level and slope are
+    # independent; in a flat staircase this counts part of the edge level's error again (§8.2)
+    ramp_f, ramp_a = tf_ - float(tf_.mean()), ta_ - float(ta_.mean())
+    if log.two_solution:
+        if J.shape[0] != ta_.size:
+            return None
+        sens_f = (-1.0 + nf.k * w_a) * (log.periods.mixing_time - float(tf_.mean()))
+        return sens_f, through_fit(ramp_a)
+    if J.shape[0] != tf_.size + ta_.size:
+        return None
+    zf, za = np.zeros(tf_.size), np.zeros(ta_.size)
+    return through_fit(np.concatenate([ramp_f, za])), through_fit(np.concatenate([zf, ramp_a]))

@@ -27,8 +27,8 @@ is dropped. :func:`read_readings` reads UTF-8 and falls back to Windows-1252
 (a common encoding of ``°`` in exported logs).
 
 Checks that reject a file (:class:`calc.errors.InputError`, naming the line):
-cells that are not numbers, NaN or infinite values, times that do not increase
-strictly, fewer than :data:`MIN_READINGS` readings, an unknown unit in the
+cells that are not numbers, NaN or infinite values, a time that goes back (a
+repeated time stamp is kept; the analysis merges it, docs/methods.md §8.3), fewer than :data:`MIN_READINGS` readings, an unknown unit in the
 header, and temperatures that do not fit the stated unit: a median above 150
 when the unit is °C (looks like kelvin), a median below 150 when the unit is K
 (looks like °C), or any reading outside −50…150 °C.
@@ -72,7 +72,8 @@ class Readings:
     Attributes
     ----------
     time_s:
-        Times in seconds, strictly increasing (may start below zero).
+        Times in seconds, never decreasing (may start below zero; a repeated stamp is
+        kept for the analysis to merge).
     temperature_K:
         Absolute temperatures in kelvin.
     lines:

@@ -420,12 +420,17 @@ def _check_readings(text: str) -> None:
     assert readings.temperature_K.size == len(readings)
     assert np.isfinite(readings.time_s).all()
     assert np.isfinite(readings.temperature_K).all()
-    assert (np.diff(readings.time_s) > 0).all()
+    # a repeated time stamp is kept for the analysis to merge (docs/methods.md §8.3)
+    assert (np.diff(readings.time_s) >= 0).all()
+    assert readings.time_s[-1] > readings.time_s[0]
     assert (np.diff(readings.lines) > 0).all()
 
 
 @settings(max_examples=400, **SETTINGS)
 @given(text=st.one_of(st.text(max_size=200), junk_logs(), near_valid_logs()))
+# Found: nine rows stamped 5e-324 s after one at -1 s. Repeated stamps are kept for the analysis
+# to merge; the check asked for strictly increasing times, which the parser never promised.
+@example(text="time_s,temperature_C\n-1,0\n" + "5e-324,0\n" * 9)
 # Found: a time of 1e308 h is finite as written but overflows to inf seconds;
 # the log was accepted with an infinite time.
 @example(text="t/h,T/K\n" + "".join(f"{i},295\n" for i in range(9)) + "1e308,295\n")

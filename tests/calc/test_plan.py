@@ -108,14 +108,16 @@ def test_plan_predicts_simulated_dissolution_runs_analyzed_end_to_end(tmp_path):
 
 def test_plan_predicts_a_thermometer_limited_run(tmp_path):
     # A coarse thermometer (q = 0.05 K, σ = 0.01 K) and a well-known calorimeter: the resolution
-    # limits the result, and the plan predicts the u(ΔH) the analysis states within 25 %. (The
-    # analysis is conservative here: its resolution terms exceed the actual scatter, so the
-    # results scatter less than stated; the plan must not be more optimistic than that scatter.)
+    # limits the result. The analysis credits the after drift's sweep through steps and carries
+    # the slope floors through its own fit (docs/methods.md §8.2); the plan knows neither the room
+    # temperature nor the exchange constant, so it cannot foresee that sweep and stays cautious:
+    # the stated u(ΔH) is 0.65–1.1 of the plan's (0.71 measured, 0.77 before the slope floors went
+    # through the fit). The results must not scatter more than the plan says.
     plan = _kcl_plan(mass=1.9, u_cal=0.2, q=0.05, sigma=0.01)
     assert plan.limiting == "thermometer resolution"
     r = _simulated_dissolutions(plan, tmp_path, mass=1.9, u_cal=0.2, q=0.05, sigma=0.01, runs=12)
     assert r[:, 1].mean() == pytest.approx(plan.predicted_delta_t, rel=0.01)
-    assert r[:, 3].mean() == pytest.approx(plan.predicted_u, rel=0.25)
+    assert 0.65 * plan.predicted_u <= r[:, 3].mean() <= 1.1 * plan.predicted_u
     assert r[:, 2].std(ddof=1) <= 1.2 * plan.predicted_u
 
 
