@@ -22,7 +22,7 @@ import numpy as np
 
 from calc.deltat.base import DeltaT, Log, sweep_factor
 from calc.deltat.constructions import JointNewtonConstruction, NewtonianConstruction
-from calc.deltat.drift import decay_integral, fit_newton_single
+from calc.deltat.drift import K_MAX, decay_integral, fit_newton_single
 from calc.deltat.quantisation import dither_variance
 
 __all__ = [
@@ -163,20 +163,25 @@ def room_drift_term(log: Log, dt: DeltaT, method_fn: Callable[[Log], DeltaT]) ->
     :func:`room_response` to a room drifting at the half-width β = ±1 K/h, the method is run again
     on them with the same periods, and the change of ΔT is the half-width of a rectangular term
     (β unknown within ±1 K/h, u = half-width/√3). The exchange constant is k = √(k̂² + u(k̂)²) of the
-    method's Newtonian law, so a k fitted near zero still leaves a term. Methods without a
-    Newtonian law get no term (docs/methods.md §8.5).
+    method's Newtonian law, so a k fitted near zero still leaves a term, capped at the fits' own
+    bound of 1/(60 s) (a log whose k is barely determined had u(k̂) of 0.4/s, and the response
+    overflowed). Methods without a Newtonian law get no term (docs/methods.md §8.5).
     """
     c = dt.construction
     if not isinstance(c, NewtonianConstruction):
         return 0.0
-    k = math.hypot(max(float(c.k_per_s), 0.0), float(c.u_k_per_s))
+    k = min(math.hypot(max(float(c.k_per_s), 0.0), float(c.u_k_per_s)), K_MAX)
     t_i, t_f = log.periods.mixing_time, log.periods.main_end
     if not (math.isfinite(k) and k > 0) or t_f <= t_i:
         return 0.0
     beta = ROOM_DRIFT_U * math.sqrt(3.0)  # the half-width, K/s
+    with np.errstate(over="ignore", invalid="ignore"):
+        response = room_response(log.t, t_i, k, k * beta)
+    if not np.all(np.isfinite(response)):
+        return 0.0
     moved = type(log)(
         log.t,
-        log.y + room_response(log.t, t_i, k, k * beta),
+        log.y + response,
         log.periods,
         log.resolution,
         two_solution=log.two_solution,

@@ -30,6 +30,9 @@ __all__ = [
 ]
 
 
+#: Largest exchange constant a Newtonian fit may take, 1/s (a time constant of one minute).
+K_MAX = 1.0 / 60.0
+
 #: Largest lag-1 autocorrelation used (stirring noise correlated over 30 s read every second
 #: has ρ ≈ 0.97).
 RHO_MAX = 0.98
@@ -266,8 +269,8 @@ def _varpro(
             break
         step = max(min(float(np.dot(dk_perp, r)) / den, 0.02), -0.02)
         k_new = k + step
-        if abs(k_new) > 1 / 60.0:
-            k_new = math.copysign(1 / 60.0, k_new)
+        if abs(k_new) > K_MAX:
+            k_new = math.copysign(K_MAX, k_new)
         done = abs(step) <= 1e-10 + 1e-7 * abs(k)
         k = k_new
         if done:

@@ -122,3 +122,22 @@ def test_room_drift_term_matches_the_error_a_drifting_room_causes(beta):
     u = room_drift_term(moving, dt, rp)
     assert abs(err) > 1e-4  # the drift matters for this long main period
     assert 0.7 < math.sqrt(3.0) * u / abs(err) < 1.3
+
+
+def test_room_drift_term_survives_an_undetermined_exchange_constant():
+    # A fore period of 40 minutes and a k whose uncertainty is 0.415/s (as in an independent benchmark
+    # log): e^{k·2400 s} overflows. k is capped at the fits' bound of 1/(60 s), and nothing raises
+    # (warnings are errors in the tests).
+    from dataclasses import replace
+
+    rp = METHODS["regnault-pfaundler"]
+    log = _drifting_room_log(0.0)
+    early = np.arange(-2100.0, 0.0, 2.0)
+    t = np.concatenate([early, log.t])
+    y = np.concatenate([np.full(early.size, log.y[0]), log.y])
+    log = Log(t, y, replace(log.periods, fore=(-2100.0, log.periods.fore[1])), log.resolution)
+    assert (log.periods.mixing_time - t[0]) * 0.415 > 710.0  # past float64's exp
+    dt = rp(log)
+    shaky = replace(dt, construction=replace(dt.construction, u_k_per_s=0.415))
+    u = room_drift_term(log, shaky, rp)
+    assert math.isfinite(u) and u >= 0.0
