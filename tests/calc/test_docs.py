@@ -158,6 +158,7 @@ def test_methods_document_has_the_agreed_numbering():
         "8.7",
         "8.8",
         "8.9",
+        "8.10",
         "9",
         "9.1",
         "9.2",
