@@ -19,7 +19,7 @@ adjusted value and its E_n are the verdict (``Comparison.En``, ``difference``,
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import asdict, astuple, dataclass, field
 from typing import SupportsFloat, cast
 
 from calc.errors import InputError
@@ -27,7 +27,7 @@ from calc.refdata.arguments import as_number
 from calc.refdata.dilution import phi_L
 from calc.refdata.reference_value import ReferenceValue
 
-__all__ = ["Comparison", "Verdict", "compare", "verdict", "TEMPERATURE_NOTE_K", "BASIS_LABELS"]
+__all__ = ["Comparison", "Judgement", "Verdict", "compare", "judge", "verdict", "TEMPERATURE_NOTE_K", "BASIS_LABELS"]
 
 TEMPERATURE_NOTE_K = 1.0  # note a temperature difference from this size on
 FAR_TEMPERATURE_K = 10.0
@@ -71,6 +71,24 @@ class Comparison:
 
 
 @dataclass(frozen=True)
+class Judgement:
+    """A measured x ± U judged against a reference r ± U_ref (both k = 2) by E_n (ISO 13528)."""
+
+    difference: float  # x − r
+    relative_difference: float  # (x − r)/|r|; NaN for r = 0
+    En: float  # (x − r)/√(U² + U_ref²)
+    satisfactory: bool  # |E_n| ≤ 1
+
+
+def judge(x: float, U: float, reference: float, U_reference: float, En: float | None = None) -> Judgement:
+    """Return the judgement of x ± U against ``reference`` ± ``U_reference``; ``En`` when already known (a stored
+    record), else computed (an InputError when both uncertainties are zero)."""
+    diff = x - reference
+    en = _en(diff, U, U_reference) if En is None else En
+    return Judgement(diff, diff / abs(reference) if reference != 0.0 else math.nan, en, abs(en) <= 1.0)
+
+
+@dataclass(frozen=True)
 class Verdict:
     """The one judgement of a result against its reference, and the published value as context."""
 
@@ -81,15 +99,28 @@ class Verdict:
     U_reference: float
     measured: float
     U_measured: float
-    difference: float
-    relative_difference: float
-    En: float
-    satisfactory: bool
+    judgement: Judgement
     unit: str
     published: float
     u_published: float
     En_published: float | None
     published_state: str
+
+    @property
+    def difference(self) -> float:
+        return self.judgement.difference
+
+    @property
+    def relative_difference(self) -> float:
+        return self.judgement.relative_difference
+
+    @property
+    def En(self) -> float:
+        return self.judgement.En
+
+    @property
+    def satisfactory(self) -> bool:
+        return self.judgement.satisfactory
 
 
 def _get(c: object, key: str) -> object:
@@ -131,12 +162,8 @@ def verdict(comparison: object) -> Verdict | None:
         basis, value, u = "published", pub, u_pub
         en = _finite(_get(comparison, "En"))
         en_pub = en
-    if en is None:
-        denom = math.hypot(U, 2.0 * u)
-        if denom == 0.0:
-            return None
-        en = (x - value) / denom
-    diff = x - value
+    if en is None and math.hypot(U, 2.0 * u) == 0.0:
+        return None
     return Verdict(
         basis=basis,
         label=BASIS_LABELS[basis],
@@ -145,10 +172,7 @@ def verdict(comparison: object) -> Verdict | None:
         U_reference=2.0 * u,
         measured=x,
         U_measured=U,
-        difference=diff,
-        relative_difference=diff / abs(value) if value else math.nan,
-        En=en,
-        satisfactory=abs(en) <= 1.0,
+        judgement=judge(x, U, value, 2.0 * u, en),
         unit=unit,
         published=pub,
         u_published=u_pub,
@@ -223,26 +247,20 @@ def compare(
 
 def _against_published(x: float, U: float, reference: ReferenceValue) -> Comparison:
     """Return the comparison of x ± U with the value as published (no notes yet)."""
-    x_ref = reference.value
     U_ref = 2.0 * reference.u
-    diff = x - x_ref
-    rel = diff / abs(x_ref) if x_ref != 0.0 else math.nan
-    En = _en(diff, U, U_ref)
+    j = judge(x, U, reference.value, U_ref)
     return Comparison(
-        reference=reference,
-        measured=x,
-        U_measured=U,
-        difference=diff,
-        relative_difference=rel,
-        En=En,
-        satisfactory=abs(En) <= 1.0,
+        reference,
+        x,
+        U,
+        **asdict(j),
         notes=[],
         U_reference=U_ref,
         adjustments=[],
         basis="published",
-        difference_published=diff,
-        relative_difference_published=rel,
-        En_published=En,
+        difference_published=j.difference,
+        relative_difference_published=j.relative_difference,
+        En_published=j.En,
     )
 
 
@@ -318,16 +336,13 @@ def _judge_at_conditions(result: Comparison, shift: float, u2: float) -> None:
     x, U = result.measured, result.U_measured
     adj = result.reference.value + shift
     u_adj = math.sqrt(u2)
-    en_adj = _en(x - adj, U, 2.0 * u_adj)
+    j = judge(x, U, adj, 2.0 * u_adj)
     result.adjusted_reference = adj
     result.adjusted_u = u_adj
-    result.En_adjusted = en_adj
+    result.En_adjusted = j.En
     # the adjusted reference is the one the verdict is judged against
     result.basis = "conditions"
-    result.difference = x - adj
-    result.relative_difference = (x - adj) / abs(adj) if adj != 0.0 else math.nan
-    result.En = en_adj
-    result.satisfactory = abs(en_adj) <= 1.0
+    result.difference, result.relative_difference, result.En, result.satisfactory = astuple(j)
     result.notes.append(
         f"reference carried to the run's conditions: {adj:.3f} ± {u_adj:.3f} kJ/mol (u); "
         "this is the value the result is judged against"

@@ -8,7 +8,6 @@ from calc.errors import InputError
 from calc.refdata.hess import citation, hess
 from calc.refdata.reference_value import ReferenceValue, same_formula
 from calc.refdata.solutes import STRONG_ACIDS, strip_state
-from calc.refdata.species import T_REF_K
 
 __all__ = ["STRONG_BASES", "WEAK_ACIDS", "WEAK_BASES", "neutralization_reference"]
 
@@ -75,17 +74,11 @@ def neutralization_reference(acid: str, base: str) -> ReferenceValue | None:
             "H2SO4: at finite concentration much of the acid is HSO4-(aq); its ionization "
             "(ΔrH° = -21.93 kJ/mol by the NBS 1982 table) makes measured values differ"
         )
-    return ReferenceValue(
-        name=f"neutralization {strip_state(acid)[0]} + {strip_state(base)[0]}, infinite dilution",
-        quantity=f"enthalpy of neutralization at infinite dilution, {per}",
-        value=r.value,
-        u=r.u,
-        unit="kJ/mol",
-        temperature_K=T_REF_K,
-        molality=None,
+    return ReferenceValue.from_hess(
+        r,
+        f"neutralization {strip_state(acid)[0]} + {strip_state(base)[0]}, infinite dilution",
+        f"enthalpy of neutralization at infinite dilution, {per}",
         source=source,
-        delta_cp=dcp,
-        delta_cp_u=dcp_u,
-        formula=None,
         note="; ".join(notes),
+        delta_cp=(dcp, dcp_u),
     )

@@ -59,19 +59,14 @@ def solution_enthalpy_by_hess(formula: str) -> ReferenceValue | None:
     if equation is None:
         return None
     r = hess(equation)
-    return ReferenceValue(
-        name=f"{strip_state(formula)[0]} dissolution, infinite dilution (NBS 1982, Hess)",
-        quantity=QUANTITY_INF,
-        value=r.value,
-        u=r.u,
-        unit="kJ/mol",
-        temperature_K=T_REF_K,
-        molality=None,
+    solute = strip_state(formula)[0]
+    return ReferenceValue.from_hess(
+        r,
+        f"{solute} dissolution, infinite dilution (NBS 1982, Hess)",
+        QUANTITY_INF,
         source=citation("NBS1982_HESS"),
-        delta_cp=r.delta_cp,
-        delta_cp_u=r.delta_cp_u,
-        formula=strip_state(formula)[0],
         note=f"{r.equation}; " + "; ".join(r.notes),
+        formula=solute,
     )
 
 
@@ -268,19 +263,8 @@ def reaction_lookup(*, formula: str | None, equation: str | None, **_: str | Non
                 return ref
     if equation:
         r = hess(equation)
-        return ReferenceValue(
-            name=f"reaction {r.equation}",
-            quantity="standard reaction enthalpy (Hess's law)",
-            value=r.value,
-            u=r.u,
-            unit="kJ/mol",
-            temperature_K=T_REF_K,
-            molality=None,
-            source=r.source,
-            delta_cp=r.delta_cp,
-            delta_cp_u=r.delta_cp_u,
-            note="; ".join(r.notes),
-        )
+        quantity = "standard reaction enthalpy (Hess's law)"
+        return ReferenceValue.from_hess(r, f"reaction {r.equation}", quantity, source=r.source, note="; ".join(r.notes))
     return None
 
 

@@ -3,8 +3,12 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from calc.refdata.formula import element_composition
+
+if TYPE_CHECKING:
+    from calc.refdata.hess import HessResult
 
 __all__ = ["ReferenceValue", "same_formula"]
 
@@ -29,6 +33,23 @@ class ReferenceValue:
     formula: str | None = None
     conditions: str | None = None
     note: str = ""
+
+    @classmethod
+    def from_hess(
+        cls,
+        r: HessResult,
+        name: str,
+        quantity: str,
+        *,
+        source: str,
+        note: str,
+        formula: str | None = None,
+        delta_cp: tuple[float | None, float | None] | None = None,
+    ) -> ReferenceValue:
+        """Return the value of a Hess's-law result ``r``: at its temperature and infinite dilution, with its ΔrCp
+        (``delta_cp`` = (ΔrCp, u) replaces that when a better source has it)."""
+        dcp, dcp_u = delta_cp if delta_cp is not None else (r.delta_cp, r.delta_cp_u)
+        return cls(name, quantity, r.value, r.u, r.unit, r.temperature_K, None, source, dcp, dcp_u, formula, note=note)
 
 
 def same_formula(a: str, b: str) -> bool:

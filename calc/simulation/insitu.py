@@ -14,41 +14,32 @@ from typing import Any, Unpack
 
 import numpy as np
 
-from calc.simulation.liquids import (
-    SOLUTE_CP,
-    WATER_CP,
-    WATER_DENSITY,
-    ReleaseOptions,
-    formula_molar_mass,
-    release_kw,
-    solid_in_liquid,
-)
+from calc.simulation.kinds import DissolutionOptions, dissolve
+from calc.simulation.liquids import HeaterOptions, heater_kw, heater_table
 from calc.simulation.model import LumpedModel, read_probe
-from calc.simulation.run import RunContext, SimTruth, SimulatedRun, _decimals
+from calc.simulation.run import SimTruth, SimulatedRun, _decimals
 
 __all__ = ["simulate_dissolution_with_calibration"]
 
 KIND = "dissolution-with-calibration"
 
 
+class InsituOptions(DissolutionOptions, HeaterOptions, total=False):
+    """The keywords of :func:`simulate_dissolution_with_calibration` beyond its own: the dissolution's, the heater's."""
+
+
 def simulate_dissolution_with_calibration(
     rng: np.random.Generator | int | None,
     *,
-    formula: str = "KCl",
-    molar_enthalpy_kJ_mol: float = 17.2,
-    solute_mass_g: float = 3.7,
-    water_volume_mL: float = 100.0,
-    tau_r: float = 60.0,
-    voltage_V: float = 5.0,
-    current_A: float = 1.0,
-    duration_s: float = 120.0,
     gap_s: float = 600.0,
     tail_s: float = 600.0,
     pulses: str = "after",
-    **options: Unpack[ReleaseOptions],
+    **options: Unpack[InsituOptions],
 ) -> SimulatedRun:
     """Simulate dissolving a salt and heater pulses ``gap_s`` apart in one log.
 
+    The salt, the water and the release take :func:`calc.simulation.kinds.simulate_dissolution`'s keywords,
+    the heater :func:`calc.simulation.kinds.simulate_electrical_calibration`'s, with their defaults.
     ``pulses``: "after" (the dissolution at ``fore_s``, then the pulse), "before" (the pulse at
     ``fore_s``, the dissolution after it) or "both". ``tail_s`` is the log after the last event's
     end. A pulse before the dissolution heats the initial contents; its response is superposed on
@@ -59,15 +50,11 @@ def simulate_dissolution_with_calibration(
     """
     if pulses not in ("after", "before", "both"):
         raise ValueError(f"pulses must be 'after', 'before' or 'both', got {pulses!r}")
-    release, run_options = release_kw(tau_r, options)
-    fore0 = float(run_options.get("fore_s", 300.0))
+    (voltage_V, current_A, duration_s), dissolution = heater_kw(options)
+    fore0 = float(dissolution.get("fore_s", 300.0))
     first = pulses in ("before", "both")
-    run_options = {**run_options, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
-    ctx = RunContext(KIND, rng, run_options)
-    s = solid_in_liquid(
-        ctx, "water", (water_volume_mL, WATER_DENSITY, WATER_CP), formula, solute_mass_g, SOLUTE_CP, None
-    )
-    n = s.m_s / formula_molar_mass(formula, "solute.formula")
+    dissolution = {**dissolution, "after_s": gap_s, "fore_s": fore0 + (duration_s + gap_s if first else 0.0)}
+    ctx, s, n, molar_enthalpy_kJ_mol, release = dissolve(KIND, rng, **dissolution)
     heat = -n * molar_enthalpy_kJ_mol * 1000.0
     g_before, g_after = ctx.conductances(s.c_final)
     model = s.model(ctx, heat, release)
@@ -101,12 +88,7 @@ def simulate_dissolution_with_calibration(
         c0, p0 = LumpedModel(**pulse).solve(times)
         contents, probe = contents + (c1 - c0), probe + (p1 - p0)
         name = "heater" if j == 0 else "heater_2"
-        body[name] = {
-            "voltage": ctx.state(f"{name}.voltage", v, "voltage_V", "V"),
-            "current": ctx.state(f"{name}.current", i, "current_A", "A"),
-            "duration": ctx.state(f"{name}.duration", dur, "duration_s", "s"),
-            "start": f"{t_h:.1f} ± 0.5 s",
-        }
+        body[name] = {**heater_table(ctx, name, v, i, dur), "start": f"{t_h:.1f} ± 0.5 s"}
     ctx.inputs["c_before_J_K"] = s.c_before
     readings = read_probe(
         ctx.rng, probe, noise=o["noise"], phi=o["phi"], resolution=o["resolution"], gain=o["gain"], offset=o["offset_K"]

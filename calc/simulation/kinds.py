@@ -13,7 +13,7 @@ only its own inputs.
 
 from __future__ import annotations
 
-from typing import Unpack
+from typing import Any, NamedTuple, Unpack
 
 import numpy as np
 
@@ -21,9 +21,13 @@ from calc.simulation.liquids import (
     SOLUTE_CP,
     WATER_CP,
     WATER_DENSITY,
+    HeaterOptions,
     ReleaseOptions,
+    SolidInLiquid,
     finish_released,
     formula_molar_mass,
+    heater_kw,
+    heater_table,
     liquid,
     mixture,
     pour,
@@ -35,6 +39,9 @@ from calc.simulation.run import RunContext, RunOptions, SimulatedRun
 __all__ = [
     "WATER_DENSITY",
     "WATER_CP",
+    "DissolutionOptions",
+    "Dissolving",
+    "dissolve",
     "formula_molar_mass",
     "simulate_dissolution",
     "simulate_neutralization",
@@ -44,7 +51,33 @@ __all__ = [
 ]
 
 
-def simulate_dissolution(
+class DissolutionOptions(ReleaseOptions, total=False):
+    """A dissolution's own inputs (see :func:`simulate_dissolution`; defaults in :func:`dissolve`) and the shared
+    options: the keywords of every simulator built on a salt dissolving in water."""
+
+    formula: str
+    molar_enthalpy_kJ_mol: float
+    solute_mass_g: float
+    water_volume_mL: float
+    tau_r: float
+    water_density: float
+    water_cp: float
+    solute_cp: float
+    mixture_cp: float | None
+
+
+class Dissolving(NamedTuple):
+    """A salt about to dissolve in the cup: the run's context, the salt in the water, its moles, ΔH and release."""
+
+    ctx: RunContext
+    salt: SolidInLiquid
+    n: float  # mol of solute
+    dh: float  # kJ/mol, true Δ_solH
+    release: dict[str, Any]  # the model's release keywords (calc.simulation.liquids.release_kw)
+
+
+def dissolve(
+    kind: str,
     rng: np.random.Generator | int | None,
     *,
     formula: str = "KCl",
@@ -57,7 +90,16 @@ def simulate_dissolution(
     solute_cp: float = SOLUTE_CP,
     mixture_cp: float | None = None,
     **options: Unpack[ReleaseOptions],
-) -> SimulatedRun:
+) -> Dissolving:
+    """State the salt and the water of a ``kind`` run (:class:`DissolutionOptions`, with these defaults)."""
+    release, run_options = release_kw(tau_r, options)
+    ctx = RunContext(kind, rng, run_options)
+    water = (water_volume_mL, water_density, water_cp)
+    s = solid_in_liquid(ctx, "water", water, formula, solute_mass_g, solute_cp, mixture_cp)
+    return Dissolving(ctx, s, s.m_s / formula_molar_mass(formula, "solute.formula"), molar_enthalpy_kJ_mol, release)
+
+
+def simulate_dissolution(rng: np.random.Generator | int | None, **options: Unpack[DissolutionOptions]) -> SimulatedRun:
     """Simulate dissolving a solid salt in water.
 
     Parameters
@@ -70,18 +112,15 @@ def simulate_dissolution(
     tau_r:
         Release time constant, s.
 
+    The defaults (3.7 g KCl, 17.2 kJ/mol, in 100 mL water, τ_r 60 s) are :func:`dissolve`'s.
+
     Returns
     -------
     SimulatedRun
         Log, run dict and truth; ``truth.delta_t_adiabatic`` = Q/C_final from T(t_m).
     """
-    release, run_options = release_kw(tau_r, options)
-    ctx = RunContext("dissolution", rng, run_options)
-    s = solid_in_liquid(
-        ctx, "water", (water_volume_mL, water_density, water_cp), formula, solute_mass_g, solute_cp, mixture_cp
-    )
-    n = s.m_s / formula_molar_mass(formula, "solute.formula")
-    return s.release(ctx, n, molar_enthalpy_kJ_mol, release)
+    d = dissolve("dissolution", rng, **options)
+    return d.salt.release(d.ctx, d.n, d.dh, d.release)
 
 
 def simulate_reaction(
@@ -230,12 +269,9 @@ def simulate_electrical_calibration(
     rng: np.random.Generator | int | None,
     *,
     water_volume_mL: float = 100.0,
-    voltage_V: float = 5.0,
-    current_A: float = 1.0,
-    duration_s: float = 120.0,
     water_density: float = WATER_DENSITY,
     water_cp: float = WATER_CP,
-    **options: Unpack[RunOptions],
+    **options: Unpack[HeaterOptions],
 ) -> SimulatedRun:
     """Simulate an electrical calibration: a heater pulse V·I for ``duration_s`` switched on at t_m.
 
@@ -244,25 +280,22 @@ def simulate_electrical_calibration(
     water_volume_mL, water_density, water_cp:
         Water in the cup; its c_p is stated in [mixture] (the final solution is the water).
     voltage_V, current_A, duration_s:
-        True heater settings; the heat is V·I·duration (the option ``c_cal`` is the true value the
-        calibration should find).
+        True heater settings (defaults: :data:`calc.simulation.liquids.HEATER_DEFAULTS`); the heat is
+        V·I·duration (the option ``c_cal`` is the true value the calibration should find).
 
     Returns
     -------
     SimulatedRun
         ``truth.delta_t_adiabatic`` = V·I·t/C_final from T(t_m).
     """
-    ctx = RunContext("electrical-calibration", rng, options)
+    (voltage_V, current_A, duration_s), run_options = heater_kw(options)
+    ctx = RunContext("electrical-calibration", rng, run_options)
     c_cal = ctx.true(ctx.o["c_cal"], "c_cal_J_K")
     m_w, tab = liquid(ctx, "water", water_volume_mL, water_density)
     cp, mix = mixture(ctx, water_cp)
     v, i = ctx.true(voltage_V, "voltage_V"), ctx.true(current_A, "current_A")
     t_d = ctx.true(duration_s, "duration_s")
-    heater = {
-        "voltage": ctx.state("heater.voltage", v, "voltage_V", "V"),
-        "current": ctx.state("heater.current", i, "current_A", "A"),
-        "duration": ctx.state("heater.duration", t_d, "duration_s", "s"),
-    }
+    heater = heater_table(ctx, "heater", v, i, t_d)
     c_final, heat = m_w * cp + c_cal, v * i * t_d
     g_before, g_after = ctx.conductances(c_final)
     model = ctx.model(

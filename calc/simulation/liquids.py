@@ -6,6 +6,7 @@ The true values are rounded as the run file states them and recorded by the :cla
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from typing import Any, cast
 
@@ -15,6 +16,8 @@ from calc.simulation.run import RunContext, RunOptions, SimulatedRun
 
 __all__ = [
     "CP_UNIT",
+    "HEATER_DEFAULTS",
+    "HeaterOptions",
     "WATER_CP",
     "WATER_DENSITY",
     "ReleaseOptions",
@@ -23,6 +26,8 @@ __all__ = [
     "SolidInLiquid",
     "finish_released",
     "formula_molar_mass",
+    "heater_kw",
+    "heater_table",
     "liquid",
     "mixture",
     "release_kw",
@@ -58,6 +63,35 @@ def release_kw(tau_r: float, options: ReleaseOptions) -> tuple[dict[str, Any], R
     if release in ("sphere", "finite"):
         kw = {"release": release, "t_d": t_d if t_d is not None else (4 if release == "sphere" else 1) * tau_r}
     return kw, cast(RunOptions, rest)
+
+
+class HeaterOptions(RunOptions, total=False):
+    """The options of a run with a heater pulse: the shared ones and the heater's true settings."""
+
+    voltage_V: float  # V
+    current_A: float  # A
+    duration_s: float  # s, time the heater is on
+
+
+#: the heater settings of a simulated run when none are given (a bench supply near 5 V, 1 A, for 2 min)
+HEATER_DEFAULTS = {"voltage_V": 5.0, "current_A": 1.0, "duration_s": 120.0}
+
+
+def heater_kw(options: Mapping[str, Any]) -> tuple[tuple[float, float, float], dict[str, Any]]:
+    """Return the heater's true (voltage V, current A, duration s) from ``options`` (else :data:`HEATER_DEFAULTS`)
+    and the other options."""
+    rest = dict(options)
+    voltage, current, duration = (rest.pop(key, default) for key, default in HEATER_DEFAULTS.items())
+    return (voltage, current, duration), rest
+
+
+def heater_table(ctx: RunContext, table: str, voltage: float, current: float, duration: float) -> dict[str, str]:
+    """Return the run-file table ``table`` of a heater whose true settings are (V, A, s), as rounded by ``ctx.true``."""
+    return {
+        "voltage": ctx.state(f"{table}.voltage", voltage, "voltage_V", "V"),
+        "current": ctx.state(f"{table}.current", current, "current_A", "A"),
+        "duration": ctx.state(f"{table}.duration", duration, "duration_s", "s"),
+    }
 
 
 @dataclass
